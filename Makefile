@@ -1,0 +1,59 @@
+# halovet — run `make help` for the targets.
+SHELL := /usr/bin/env bash
+.SHELLFLAGS := -eu -o pipefail -c
+GO ?= go
+BUF := $(GO) tool -modfile=tools/go.mod buf
+BIN := bin/halovet
+FUZZTIME ?= 4s
+
+.DEFAULT_GOAL := help
+.PHONY: help demo test generate lint fmt-check vet drift unit fuzz bench build postgres
+
+help: ## list the targets
+	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
+
+build: ## build bin/halovet
+	$(GO) build -o $(BIN) ./cmd/halovet
+
+postgres: ## make sure PostgreSQL server binaries are installed (apt-get if missing)
+	@scripts/ensure-postgres.sh
+
+demo: postgres build ## run the demo scenario end to end on a private PostgreSQL cluster
+	$(BIN) demo
+
+test: fmt-check vet drift lint postgres unit fuzz ## everything CI runs: format, vet, generated-code drift, buf lint, tests, fuzz
+	@echo "make test: all checks passed"
+
+fmt-check:
+	@out=$$(gofmt -l $$(git ls-files '*.go' | grep -v '\.pb\.go$$')); \
+	if [ -n "$$out" ]; then echo "gofmt would change:"; echo "$$out"; exit 1; fi
+
+vet:
+	$(GO) vet ./...
+
+generate: ## regenerate the Go code from proto/ with buf and local plugins
+	$(BUF) generate
+
+drift: generate ## fail when the committed generated code differs from a fresh generation
+	@if [ -n "$$(git status --porcelain -- proto)" ]; then \
+	  echo "generated code in proto/ is not current; run 'make generate' and commit:"; \
+	  git status --porcelain -- proto; exit 1; fi
+
+lint: ## buf lint and format check (and go vet)
+	$(BUF) lint
+	$(BUF) format -d --exit-code
+
+unit:
+	$(GO) test -race -count=1 ./...
+
+fuzz: ## run every fuzz target for FUZZTIME (default 4s)
+	@grep -rlE --include='*_test.go' '^func Fuzz' . | while read -r f; do \
+	  pkg=./$$(dirname "$${f#./}"); \
+	  for t in $$(grep -oE '^func Fuzz[A-Za-z0-9_]+' "$$f" | sed 's/^func //'); do \
+	    echo "fuzz $$pkg $$t"; \
+	    $(GO) test -run='^$$' -fuzz="^$$t$$" -fuzztime=$(FUZZTIME) "$$pkg" >/tmp/halovet-fuzz.log 2>&1 || { cat /tmp/halovet-fuzz.log; exit 1; }; \
+	  done; \
+	done
+
+bench: ## run the Go benchmarks (see BENCHMARKS.md)
+	$(GO) test -run='^$$' -bench=. -benchmem ./...

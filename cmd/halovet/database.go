@@ -1,0 +1,110 @@
+package main
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"log/slog"
+	"os"
+	"path/filepath"
+	"time"
+
+	"github.com/halovet/halovet/pglocal"
+	"github.com/halovet/halovet/store"
+)
+
+// dbFlags choose the database: a URL, or a private cluster in a data directory.
+type dbFlags struct {
+	url     string
+	dataDir string
+}
+
+func defaultDataDir() string {
+	if d := os.Getenv("XDG_DATA_HOME"); d != "" {
+		return filepath.Join(d, "halovet")
+	}
+	if home, err := os.UserHomeDir(); err == nil {
+		return filepath.Join(home, ".local", "share", "halovet")
+	}
+	return filepath.Join(os.TempDir(), "halovet")
+}
+
+func (d *dbFlags) register(fs *flag.FlagSet) {
+	fs.StringVar(&d.url, "database-url", envOr("HALOVET_DATABASE_URL", ""),
+		"PostgreSQL URL, e.g. postgres://halovet@db:5432/halovet (env HALOVET_DATABASE_URL);\n"+
+			"when empty, halovet runs a private cluster in --data-dir")
+	fs.StringVar(&d.dataDir, "data-dir", envOr("HALOVET_DATA_DIR", defaultDataDir()),
+		"directory of the private PostgreSQL cluster used when no --database-url is given (env HALOVET_DATA_DIR)")
+}
+
+// database is an open store and, for a private cluster, what stops it.
+type database struct {
+	URL     string
+	Store   *store.Store
+	cluster *pglocal.Cluster
+	private bool
+}
+
+// Close closes the pool and stops a private cluster.
+func (db *database) Close() {
+	if db.Store != nil {
+		db.Store.Close()
+	}
+	if db.cluster != nil {
+		ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+		defer cancel()
+		if err := db.cluster.Stop(ctx); err != nil {
+			slog.Warn("stopping the private PostgreSQL cluster", "err", err)
+		}
+	}
+}
+
+// openDatabase connects to the URL given, or starts the private cluster, and applies
+// migrations when migrate is true (always for a private cluster, which is halovet's own).
+func openDatabase(ctx context.Context, d dbFlags, migrate bool, log *slog.Logger) (*database, error) {
+	db := &database{URL: d.url}
+	if db.URL == "" {
+		c, err := pglocal.Start(ctx, pglocal.Options{DataDir: d.dataDir})
+		if err != nil {
+			return nil, fmt.Errorf("private PostgreSQL cluster in %s: %w", d.dataDir, err)
+		}
+		db.cluster, db.private = c, true
+		if err := pglocal.EnsureDatabase(ctx, c.URL("postgres"), "halovet"); err != nil {
+			db.Close()
+			return nil, err
+		}
+		db.URL = c.URL("halovet")
+		migrate = true
+		log.Info("private PostgreSQL cluster", "data_dir", d.dataDir, "url", store.Redact(db.URL))
+	}
+	if migrate {
+		v, err := store.Migrate(ctx, db.URL)
+		if err != nil {
+			db.Close()
+			return nil, fmt.Errorf("database %s: %w", store.Redact(db.URL), err)
+		}
+		log.Info("schema migrated", "version", v)
+	}
+	st, err := store.Open(ctx, db.URL)
+	if err != nil {
+		db.Close()
+		return nil, err
+	}
+	db.Store = st
+	return db, nil
+}
+
+func newLogger(format, level string) (*slog.Logger, error) {
+	var lv slog.Level
+	if err := lv.UnmarshalText([]byte(level)); err != nil {
+		return nil, usageErr("--log-level %q: use debug, info, warn or error", level)
+	}
+	opts := &slog.HandlerOptions{Level: lv}
+	switch format {
+	case "text", "":
+		return slog.New(slog.NewTextHandler(os.Stderr, opts)), nil
+	case "json":
+		return slog.New(slog.NewJSONHandler(os.Stderr, opts)), nil
+	}
+	return nil, usageErr("--log-format %q: use text or json", format)
+}

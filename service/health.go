@@ -1,0 +1,62 @@
+package service
+
+import (
+	"context"
+	"time"
+
+	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+
+	"github.com/halovet/halovet/store"
+)
+
+func (s *Server) setHealth(st healthpb.HealthCheckResponse_ServingStatus) {
+	s.health.SetServingStatus("", st)
+	for _, name := range serviceNames {
+		s.health.SetServingStatus(name, st)
+	}
+}
+
+// probeHealth reports SERVING only while the database answers and its schema is at the
+// newest embedded migration; it re-probes every HealthInterval.
+func (s *Server) probeHealth(ctx context.Context) {
+	last := healthpb.HealthCheckResponse_UNKNOWN
+	t := time.NewTicker(s.opts.HealthInterval)
+	defer t.Stop()
+	for {
+		st := s.probeOnce(ctx)
+		if ctx.Err() != nil {
+			return
+		}
+		if st != last {
+			s.log.Info("health", "status", st.String())
+			s.setHealth(st)
+			last = st
+		}
+		select {
+		case <-ctx.Done():
+			return
+		case <-t.C:
+		}
+	}
+}
+
+func (s *Server) probeOnce(ctx context.Context) healthpb.HealthCheckResponse_ServingStatus {
+	pctx, cancel := context.WithTimeout(ctx, 2*time.Second)
+	defer cancel()
+	if err := s.store.Ping(pctx); err != nil {
+		s.log.Warn("health: database does not answer", "err", err)
+		return healthpb.HealthCheckResponse_NOT_SERVING
+	}
+	cur, head, err := s.store.SchemaVersion(pctx)
+	if err != nil {
+		s.log.Warn("health: schema version unknown", "err", err)
+		return healthpb.HealthCheckResponse_NOT_SERVING
+	}
+	if cur != head {
+		s.log.Warn("health: schema not at head; run halovet migrate", "current", cur, "head", head)
+		return healthpb.HealthCheckResponse_NOT_SERVING
+	}
+	return healthpb.HealthCheckResponse_SERVING
+}
+
+var _ = store.Redact
