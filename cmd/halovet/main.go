@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"os"
 	"os/signal"
+	"strings"
 	"syscall"
 )
 
@@ -50,7 +51,9 @@ func run(ctx context.Context, args []string) int {
 	if errors.Is(err, errHelpShown) {
 		return 0
 	}
-	fmt.Fprintf(os.Stderr, "halovet %s: %v\n", args[0], err)
+	// One line: a wrapped driver error may span several.
+	msg := strings.Join(strings.Fields(strings.ReplaceAll(err.Error(), "\n", "; ")), " ")
+	fmt.Fprintf(os.Stderr, "halovet %s: %s\n", args[0], msg)
 	var ee *exitError
 	if errors.As(err, &ee) {
 		return ee.code

@@ -60,6 +60,13 @@ func runServe(ctx context.Context, args []string) error {
 		return err
 	}
 	defer db.Close()
+	cur, head, err := db.Store.SchemaVersion(ctx)
+	if err != nil {
+		return fmt.Errorf("reading the schema version: %w", err)
+	}
+	if cur != head {
+		return fmt.Errorf("the database schema is at version %d and this halovet needs %d: run 'halovet migrate' or serve with --migrate", cur, head)
+	}
 	cat, err := service.LoadCatalogue(ctx, db.Store, log)
 	if err != nil {
 		return err

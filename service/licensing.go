@@ -1,0 +1,286 @@
+package service
+
+import (
+	"context"
+	"fmt"
+	"regexp"
+	"time"
+
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/substances"
+)
+
+var countryCodeRE = regexp.MustCompile(`^[A-Z]{2}$`)
+
+const dateLayout = "2006-01-02"
+
+// actor names who made a change, for the audit log.
+func actor(ctx context.Context) string { return "api:" + requestID(ctx) }
+
+func validGroup(g string) bool {
+	for _, x := range substances.AllGroups {
+		if string(x) == g {
+			return true
+		}
+	}
+	return false
+}
+
+func (l *licensingServer) PutParty(ctx context.Context, req *halovetv1.PutPartyRequest) (*halovetv1.PutPartyResponse, error) {
+	p := req.GetParty()
+	var vs []fieldViolation
+	if !countryCodeRE.MatchString(p.GetCountryCode()) {
+		vs = append(vs, fieldViolation{"party.country_code", "must be an ISO 3166-1 alpha-2 code in capitals, e.g. XA"})
+	}
+	pt, ok := partyTypeText[p.GetPartyType()]
+	if !ok {
+		vs = append(vs, fieldViolation{"party.party_type", "must be ARTICLE_5, NON_ARTICLE_5 or NON_PARTY"})
+	}
+	hg := hfcGroupText[p.GetHfcGroup()]
+	for g, d := range p.GetBoundFrom() {
+		if !validGroup(g) {
+			vs = append(vs, fieldViolation{"party.bound_from", fmt.Sprintf("key %q is not an Annex group; use A/I, A/II, B/I, B/II, B/III, C/I, C/II, C/III, E/I, F/I or F/II", g)})
+		}
+		if _, err := time.Parse(dateLayout, d); err != nil {
+			vs = append(vs, fieldViolation{"party.bound_from", fmt.Sprintf("date %q for %s is not YYYY-MM-DD", d, g)})
+		}
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	sp := store.Party{CountryCode: p.GetCountryCode(), Name: p.GetName(), PartyType: pt, HFCGroup: hg,
+		ReportingParty: p.GetReportingParty(), BoundFrom: p.GetBoundFrom()}
+	if err := l.srv.store.PutParty(ctx, sp, actor(ctx)); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	return &halovetv1.PutPartyResponse{Party: partyToProto(sp)}, nil
+}
+
+func partyToProto(p store.Party) *halovetv1.Party {
+	return &halovetv1.Party{CountryCode: p.CountryCode, Name: p.Name, PartyType: partyTypeEnum[p.PartyType],
+		HfcGroup: hfcGroupEnum[p.HFCGroup], ReportingParty: p.ReportingParty, BoundFrom: p.BoundFrom}
+}
+
+func (l *licensingServer) GetParty(ctx context.Context, req *halovetv1.GetPartyRequest) (*halovetv1.GetPartyResponse, error) {
+	p, err := l.srv.store.GetParty(ctx, req.GetCountryCode())
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	return &halovetv1.GetPartyResponse{Party: partyToProto(p)}, nil
+}
+
+func (l *licensingServer) ListParties(ctx context.Context, _ *halovetv1.ListPartiesRequest) (*halovetv1.ListPartiesResponse, error) {
+	ps, err := l.srv.store.ListParties(ctx)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	out := &halovetv1.ListPartiesResponse{}
+	for _, p := range ps {
+		out.Parties = append(out.Parties, partyToProto(p))
+	}
+	return out, nil
+}
+
+func (l *licensingServer) RegisterCompany(ctx context.Context, req *halovetv1.RegisterCompanyRequest) (*halovetv1.RegisterCompanyResponse, error) {
+	c := req.GetCompany()
+	var vs []fieldViolation
+	if c.GetCompanyId() == "" {
+		vs = append(vs, fieldViolation{"company.company_id", "must not be empty"})
+	}
+	if c.GetCountryCode() != "" && !countryCodeRE.MatchString(c.GetCountryCode()) {
+		vs = append(vs, fieldViolation{"company.country_code", "must be an ISO 3166-1 alpha-2 code in capitals"})
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	sc := store.Company{CompanyID: c.GetCompanyId(), Name: c.GetName(), CountryCode: c.GetCountryCode()}
+	if err := l.srv.store.PutCompany(ctx, sc, actor(ctx)); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	return &halovetv1.RegisterCompanyResponse{Company: c}, nil
+}
+
+func (l *licensingServer) ListCompanies(ctx context.Context, _ *halovetv1.ListCompaniesRequest) (*halovetv1.ListCompaniesResponse, error) {
+	cs, err := l.srv.store.ListCompanies(ctx)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	out := &halovetv1.ListCompaniesResponse{}
+	for _, c := range cs {
+		out.Companies = append(out.Companies, &halovetv1.Company{CompanyId: c.CompanyID, Name: c.Name, CountryCode: c.CountryCode})
+	}
+	return out, nil
+}
+
+// licenceFromProto validates a licence message and converts it. For a new licence,
+// quota lines without a number are numbered in order.
+func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool) (store.Licence, error) {
+	var vs []fieldViolation
+	out := store.Licence{Number: p.GetLicenceNumber(), CompanyID: p.GetCompanyId(), Status: "active"}
+	if out.Number == "" {
+		vs = append(vs, fieldViolation{"licence.licence_number", "must not be empty"})
+	}
+	if out.CompanyID == "" {
+		vs = append(vs, fieldViolation{"licence.company_id", "must not be empty"})
+	}
+	if len(p.GetDirections()) == 0 {
+		vs = append(vs, fieldViolation{"licence.directions", "list at least one of IMPORT, EXPORT, RE_EXPORT, TRANSIT"})
+	}
+	for _, d := range p.GetDirections() {
+		t, ok := directionText[d]
+		if !ok {
+			vs = append(vs, fieldViolation{"licence.directions", "unspecified direction; use IMPORT, EXPORT, RE_EXPORT or TRANSIT"})
+			continue
+		}
+		out.Directions = append(out.Directions, t)
+	}
+	var err error
+	if out.ValidFrom, err = time.Parse(dateLayout, p.GetValidFrom()); err != nil {
+		vs = append(vs, fieldViolation{"licence.valid_from", fmt.Sprintf("%q is not a date YYYY-MM-DD", p.GetValidFrom())})
+	}
+	if out.ValidTo, err = time.Parse(dateLayout, p.GetValidTo()); err != nil {
+		vs = append(vs, fieldViolation{"licence.valid_to", fmt.Sprintf("%q is not a date YYYY-MM-DD", p.GetValidTo())})
+	} else if out.ValidTo.Before(out.ValidFrom) {
+		vs = append(vs, fieldViolation{"licence.valid_to", "is before valid_from"})
+	}
+	if p.GetStatus() != halovetv1.LicenceStatus_LICENCE_STATUS_UNSPECIFIED {
+		out.Status = licenceStatusText[p.GetStatus()]
+	}
+	if issuing && (out.Status == "revoked" || out.Status == "suspended") {
+		vs = append(vs, fieldViolation{"licence.status", "a new licence is ACTIVE or DRAFT"})
+	}
+	for _, sp := range p.GetSpecialPurposes() {
+		t, ok := purposeText[sp]
+		if !ok {
+			vs = append(vs, fieldViolation{"licence.special_purposes", "unspecified purpose"})
+			continue
+		}
+		out.SpecialPurposes = append(out.SpecialPurposes, t)
+	}
+	cat := l.srv.cat.Load()
+	seen := map[int]bool{}
+	for i, q := range p.GetQuotaLines() {
+		f := fmt.Sprintf("licence.quota_lines[%d]", i)
+		line := store.QuotaLine{LineNumber: int(q.GetLineNumber()), AnnexGroup: q.GetAnnexGroup(), Allocated: q.GetAllocated()}
+		if line.LineNumber == 0 {
+			line.LineNumber = i + 1
+		}
+		if seen[line.LineNumber] {
+			vs = append(vs, fieldViolation{f + ".line_number", fmt.Sprintf("line %d appears twice", line.LineNumber)})
+		}
+		seen[line.LineNumber] = true
+		switch {
+		case q.GetAnnexGroup() != "" && q.GetSubstance() != "":
+			vs = append(vs, fieldViolation{f, "give annex_group or substance, not both"})
+		case q.GetAnnexGroup() != "":
+			if !validGroup(q.GetAnnexGroup()) {
+				vs = append(vs, fieldViolation{f + ".annex_group", fmt.Sprintf("%q is not an Annex group (A/I ... F/II)", q.GetAnnexGroup())})
+			}
+		case q.GetSubstance() != "":
+			s, ok := cat.Substance(q.GetSubstance())
+			if !ok {
+				vs = append(vs, fieldViolation{f + ".substance", fmt.Sprintf("%q is not a catalogue substance", q.GetSubstance())})
+			} else {
+				line.Substance = s.Designation
+			}
+		default:
+			vs = append(vs, fieldViolation{f, "give annex_group (e.g. C/I) or substance (e.g. HCFC-22)"})
+		}
+		u, ok := quotaUnitText[q.GetUnit()]
+		if !ok {
+			vs = append(vs, fieldViolation{f + ".unit", "must be METRIC_TONNES, ODP_TONNES or CO2E_TONNES"})
+		}
+		line.Unit = u
+		if q.GetAllocated() < 0 {
+			vs = append(vs, fieldViolation{f + ".allocated", "must not be negative"})
+		}
+		out.QuotaLines = append(out.QuotaLines, line)
+	}
+	if len(vs) > 0 {
+		return out, invalid(vs...)
+	}
+	return out, nil
+}
+
+func licenceToProto(l store.Licence) *halovetv1.Licence {
+	p := &halovetv1.Licence{LicenceNumber: l.Number, CompanyId: l.CompanyID, ValidFrom: l.ValidFrom.Format(dateLayout),
+		ValidTo: l.ValidTo.Format(dateLayout), Status: licenceStatusEnum[l.Status]}
+	for _, d := range l.Directions {
+		p.Directions = append(p.Directions, directionEnum[d])
+	}
+	for _, s := range l.SpecialPurposes {
+		p.SpecialPurposes = append(p.SpecialPurposes, purposeEnum[s])
+	}
+	for _, q := range l.QuotaLines {
+		p.QuotaLines = append(p.QuotaLines, &halovetv1.QuotaLine{LineNumber: int32(q.LineNumber), AnnexGroup: q.AnnexGroup,
+			Substance: q.Substance, Unit: quotaUnitEnum[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn,
+			Remaining: q.Allocated - q.Drawn})
+	}
+	return p
+}
+
+func (l *licensingServer) IssueLicence(ctx context.Context, req *halovetv1.IssueLicenceRequest) (*halovetv1.IssueLicenceResponse, error) {
+	lic, err := l.licenceFromProto(req.GetLicence(), true)
+	if err != nil {
+		return nil, err
+	}
+	if err := l.srv.store.IssueLicence(ctx, lic, actor(ctx), req.GetReason()); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	got, err := l.srv.store.GetLicence(ctx, lic.Number)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	return &halovetv1.IssueLicenceResponse{Licence: licenceToProto(got)}, nil
+}
+
+func (l *licensingServer) AmendLicence(ctx context.Context, req *halovetv1.AmendLicenceRequest) (*halovetv1.AmendLicenceResponse, error) {
+	lic, err := l.licenceFromProto(req.GetLicence(), false)
+	if err != nil {
+		return nil, err
+	}
+	if err := l.srv.store.AmendLicence(ctx, lic, actor(ctx), req.GetReason()); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	got, err := l.srv.store.GetLicence(ctx, lic.Number)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	return &halovetv1.AmendLicenceResponse{Licence: licenceToProto(got)}, nil
+}
+
+func (l *licensingServer) SetLicenceStatus(ctx context.Context, req *halovetv1.SetLicenceStatusRequest) (*halovetv1.SetLicenceStatusResponse, error) {
+	st, ok := licenceStatusText[req.GetStatus()]
+	if !ok {
+		return nil, invalid(fieldViolation{"status", "must be DRAFT, ACTIVE, SUSPENDED or REVOKED"})
+	}
+	if err := l.srv.store.SetLicenceStatus(ctx, req.GetLicenceNumber(), st, actor(ctx), req.GetReason()); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	got, err := l.srv.store.GetLicence(ctx, req.GetLicenceNumber())
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	return &halovetv1.SetLicenceStatusResponse{Licence: licenceToProto(got)}, nil
+}
+
+func (l *licensingServer) GetLicence(ctx context.Context, req *halovetv1.GetLicenceRequest) (*halovetv1.GetLicenceResponse, error) {
+	got, err := l.srv.store.GetLicence(ctx, req.GetLicenceNumber())
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	return &halovetv1.GetLicenceResponse{Licence: licenceToProto(got)}, nil
+}
+
+func (l *licensingServer) ListLicences(ctx context.Context, req *halovetv1.ListLicencesRequest) (*halovetv1.ListLicencesResponse, error) {
+	ls, err := l.srv.store.ListLicences(ctx, req.GetCompanyId(), int(req.GetYear()))
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	out := &halovetv1.ListLicencesResponse{}
+	for _, x := range ls {
+		out.Licences = append(out.Licences, licenceToProto(x))
+	}
+	return out, nil
+}
