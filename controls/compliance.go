@@ -1,0 +1,348 @@
+package controls
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+)
+
+// Outcome is the verdict for one year.
+type Outcome int
+
+// Outcomes.
+const (
+	// NotAssessed: data, baseline or rule missing; the notes say what.
+	NotAssessed Outcome = iota
+	// Within: consumption within the allowed level (or, in a period-average year, the
+	// period's total so far within the period's budget).
+	Within
+	// Exceeded: consumption above the allowed level (or the period's budget used up).
+	Exceeded
+)
+
+func (o Outcome) String() string {
+	switch o {
+	case Within:
+		return "within"
+	case Exceeded:
+		return "exceeded"
+	}
+	return "not assessed"
+}
+
+// compareTolerance: consumption within 1e-9 (relative to the allowed level, at least 1e-9
+// absolute) above the allowed level counts as within. It absorbs floating-point noise of
+// sums such as 0.1 + 0.2 and nothing a report would show.
+const compareTolerance = 1e-9
+
+func withinTolerance(headroom, allowed float64) bool {
+	return headroom >= -compareTolerance*math.Max(1, math.Abs(allowed))
+}
+
+// PeriodProgress reports a period-average rule (A5 HCFC 2030–2039) from its first year up
+// to the assessed year.
+type PeriodProgress struct {
+	Rule           Rule
+	YearsCounted   int     // years of the period up to and including the assessed year
+	YearsRemaining int     // years of the period after the assessed year
+	Sum            float64 // consumption summed over the counted years
+	RunningMean    float64 // Sum / YearsCounted
+	RunningPercent float64 // RunningMean as percent of the baseline
+	Budget         float64 // Rule.Percent of baseline × years in the period
+	RoomLeft       float64 // Budget − Sum: what the remaining years may still use in total
+	RoomPerYear    float64 // RoomLeft / YearsRemaining; 0 when no year remains
+}
+
+// YearAssessment is one year's comparison of consumption with the allowed level.
+type YearAssessment struct {
+	Year           int
+	Consumption    float64 // calculated consumption in the scope's unit
+	HasData        bool
+	AllowedPercent float64 // percent of baseline the year is measured against
+	Allowed        float64 // baseline × AllowedPercent / 100
+	// Headroom is Allowed − Consumption; negative when exceeded. In a period-average year it
+	// is the period's room left (PeriodProgress.RoomLeft) instead.
+	Headroom  float64
+	Outcome   Outcome
+	Step      *Rule // the step in force; nil when there is none
+	Servicing *Rule // an annual servicing cap in force, if any
+	Period    *PeriodProgress
+	Notes     []string
+}
+
+// Assessment compares consumption with the control schedule over a range of years.
+type Assessment struct {
+	Scope           Scope
+	AppliesTo       string
+	Unit            Unit
+	Baseline        *Baseline // nil when no assessed year needed one (0 % steps need none)
+	Years           []YearAssessment
+	RulebookVersion string
+	RulebookAsOf    string
+}
+
+// maxAssessYears bounds one assessment's range.
+const maxAssessYears = 121
+
+// Assess compares a Party's consumption in a scope with the allowed level for each year
+// from..to. Years lacking data, a baseline or a rule are reported NotAssessed with notes;
+// the error reports invalid input only.
+func (rb *Rulebook) Assess(records []Record, party Party, scope Scope, from, to int) (Assessment, error) {
+	if err := scope.check("scope"); err != nil {
+		return Assessment{}, err
+	}
+	key, err := party.key(scope)
+	if err != nil {
+		return Assessment{}, err
+	}
+	if err := checkYear("from_year", from); err != nil {
+		return Assessment{}, err
+	}
+	if err := checkYear("to_year", to); err != nil {
+		return Assessment{}, err
+	}
+	if to < from {
+		return Assessment{}, fieldErr("to_year", "a year not before from_year", "%d is before from_year %d", to, from)
+	}
+	l, err := newLedger(records)
+	if err != nil {
+		return Assessment{}, err
+	}
+	cons, err := l.consumption(ExcludeUsed)
+	if err != nil {
+		return Assessment{}, err
+	}
+	unit := scope.Unit()
+	out := Assessment{Scope: scope, AppliesTo: key, Unit: unit, RulebookVersion: rb.Version, RulebookAsOf: rb.AsOf}
+	base := &baselineCache{rb: rb, l: l, party: party, scope: scope}
+	for y := from; y <= to; y++ {
+		ya, err := rb.assessYear(cons, base, party, scope, y)
+		if err != nil {
+			return Assessment{}, err
+		}
+		out.Years = append(out.Years, ya)
+	}
+	if base.done && base.err == nil {
+		out.Baseline = &base.b
+	}
+	return out, nil
+}
+
+// baselineCache computes the baseline once, on first need.
+type baselineCache struct {
+	rb    *Rulebook
+	l     *ledger
+	party Party
+	scope Scope
+	done  bool
+	b     Baseline
+	err   error
+}
+
+func (c *baselineCache) get() (Baseline, error) {
+	if !c.done {
+		c.done = true
+		var rule BaselineRule
+		rule, c.err = c.rb.BaselineRule(c.party, c.scope)
+		if c.err == nil {
+			c.b, c.err = c.rb.baselineOf(c.l, c.party, rule, c.scope.Unit(), "")
+		}
+	}
+	return c.b, c.err
+}
+
+func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Party, scope Scope, y int) (YearAssessment, error) {
+	unit := scope.Unit()
+	ya := YearAssessment{Year: y}
+	ya.Consumption, ya.HasData = cons.Amount(y, scope, unit)
+	if !ya.HasData {
+		ya.Notes = append(ya.Notes, fmt.Sprintf("no data: no record for %s in %d", scope.label(), y))
+	}
+	al, err := rb.Allowance(party, scope, y)
+	if errors.Is(err, ErrNoRule) {
+		ya.Notes = append(ya.Notes, strings.TrimPrefix(err.Error(), ErrNoRule.Error()+": "))
+		return ya, nil
+	}
+	if err != nil {
+		return YearAssessment{}, err
+	}
+	step := al.Step
+	ya.Step = &step
+	ya.Servicing = al.Servicing
+	ya.AllowedPercent = al.Percent()
+	ya.Notes = append(ya.Notes, ruleNotes(step, fmt.Sprintf("step in force: %s %% of baseline from %d", fmtPercent(step.Percent), step.FromYear))...)
+	if al.Servicing != nil {
+		s := al.Servicing
+		ya.Notes = append(ya.Notes, ruleNotes(*s, fmt.Sprintf("annual servicing cap %d–%d: each year may reach %s %% of baseline",
+			s.FromYear, s.ToYear, fmtPercent(s.Percent)))...)
+	}
+	if al.Average != nil {
+		a := al.Average
+		ya.Notes = append(ya.Notes, ruleNotes(*a, fmt.Sprintf("period average %d–%d: the mean over the period may reach %s %% of baseline; a single year may exceed it",
+			a.FromYear, a.ToYear, fmtPercent(a.Percent)))...)
+	}
+
+	needBaseline := ya.AllowedPercent > 0 || al.Average != nil
+	baseline := 0.0
+	if needBaseline {
+		b, err := base.get()
+		if errors.Is(err, ErrNoRule) {
+			ya.Notes = append(ya.Notes, strings.TrimPrefix(err.Error(), ErrNoRule.Error()+": "))
+			return ya, nil
+		}
+		if err != nil {
+			return YearAssessment{}, err
+		}
+		if !b.Complete {
+			ya.Notes = append(ya.Notes, "baseline incomplete: "+gapList(b.Missing))
+			return ya, nil
+		}
+		baseline = b.Value
+	}
+	ya.Allowed = baseline * ya.AllowedPercent / 100
+
+	if al.Average != nil {
+		return periodYear(cons, ya, *al.Average, scope, baseline), nil
+	}
+	if !ya.HasData {
+		return ya, nil
+	}
+	ya.Headroom = ya.Allowed - ya.Consumption
+	ya.Outcome = Exceeded
+	if withinTolerance(ya.Headroom, ya.Allowed) {
+		ya.Outcome = Within
+	}
+	return ya, nil
+}
+
+// ruleNotes describes a rule with its source, status and note.
+func ruleNotes(r Rule, what string) []string {
+	n := []string{fmt.Sprintf("%s (%s)", what, r.Text())}
+	if r.Status != Verified {
+		n = append(n, fmt.Sprintf("rule status %s: %s", r.Status, r.Status.Meaning()))
+	}
+	if r.Note != "" {
+		n = append(n, r.Note)
+	}
+	return n
+}
+
+func gapList(gaps []Gap) string {
+	s := make([]string, len(gaps))
+	for i, g := range gaps {
+		s[i] = g.String()
+	}
+	return strings.Join(s, "; ")
+}
+
+// periodYear assesses a year under a period-average rule: the running mean so far and the
+// room left for the rest of the period.
+func periodYear(cons Consumption, ya YearAssessment, rule Rule, scope Scope, baseline float64) YearAssessment {
+	unit := scope.Unit()
+	var missing []string
+	sum := 0.0
+	for y := rule.FromYear; y <= ya.Year; y++ {
+		amt, ok := cons.Amount(y, scope, unit)
+		if !ok {
+			missing = append(missing, fmt.Sprint(y))
+		}
+		sum += amt
+	}
+	if len(missing) > 0 {
+		ya.Notes = append(ya.Notes, fmt.Sprintf("running mean needs every year since %d; no data for %s in %s",
+			rule.FromYear, scope, strings.Join(missing, ", ")))
+		return ya
+	}
+	total := rule.ToYear - rule.FromYear + 1
+	p := &PeriodProgress{Rule: rule, YearsCounted: ya.Year - rule.FromYear + 1, Sum: sum}
+	p.YearsRemaining = total - p.YearsCounted
+	p.RunningMean = sum / float64(p.YearsCounted)
+	if baseline != 0 {
+		p.RunningPercent = p.RunningMean / baseline * 100
+	}
+	p.Budget = rule.Percent / 100 * baseline * float64(total)
+	p.RoomLeft = p.Budget - sum
+	if p.YearsRemaining > 0 {
+		p.RoomPerYear = p.RoomLeft / float64(p.YearsRemaining)
+	}
+	ya.Period = p
+	ya.Headroom = p.RoomLeft
+	ya.Outcome = Exceeded
+	if withinTolerance(p.RoomLeft, p.Budget) {
+		ya.Outcome = Within
+	}
+	ya.Notes = append(ya.Notes, fmt.Sprintf("running mean %d–%d: %s %s a year (%.3f %% of baseline) over %d years",
+		rule.FromYear, ya.Year, fmtAmount(p.RunningMean, unit), unit, p.RunningPercent, p.YearsCounted))
+	if p.YearsRemaining > 0 {
+		ya.Notes = append(ya.Notes, fmt.Sprintf("room left: %s %s for the remaining %d years (%s a year on average)",
+			fmtAmount(p.RoomLeft, unit), unit, p.YearsRemaining, fmtAmount(p.RoomPerYear, unit)))
+	} else {
+		verdict := "met"
+		if ya.Outcome == Exceeded {
+			verdict = "not met"
+		}
+		ya.Notes = append(ya.Notes, fmt.Sprintf("period complete: mean %.3f %% of baseline against %s %%: %s",
+			p.RunningPercent, fmtPercent(rule.Percent), verdict))
+	}
+	if ya.Outcome == Exceeded && p.YearsRemaining > 0 {
+		ya.Notes = append(ya.Notes, "the period's total already exceeds its budget")
+	}
+	return ya
+}
+
+// fmtAmount rounds for presentation only: 0.001 for tonnes and ODP tonnes, 1 for CO2-eq.
+func fmtAmount(v float64, u Unit) string {
+	if u == UnitCO2eTonnes {
+		return fmt.Sprintf("%.0f", v)
+	}
+	return fmt.Sprintf("%.3f", v)
+}
+
+// Level is the allowed level for one year, e.g. to plan next year's quotas.
+type Level struct {
+	Year      int
+	Scope     Scope
+	Unit      Unit
+	Percent   float64 // percent of baseline
+	Value     float64 // baseline × Percent / 100; the period's mean level in a period-average year
+	Allowance Allowance
+	Baseline  *Baseline // nil when the percent is 0 and no baseline was needed
+	Notes     []string
+}
+
+// AllowedLevel returns the allowed level for a Party, scope and year. The error wraps
+// ErrNoRule when no control step is in force, ErrIncompleteBaseline when the baseline lacks
+// data (naming the gaps), or ErrInvalidInput.
+func (rb *Rulebook) AllowedLevel(records []Record, party Party, scope Scope, year int) (Level, error) {
+	al, err := rb.Allowance(party, scope, year)
+	if err != nil {
+		return Level{}, err
+	}
+	lv := Level{Year: year, Scope: scope, Unit: scope.Unit(), Percent: al.Percent(), Allowance: al}
+	lv.Notes = ruleNotes(al.Step, fmt.Sprintf("step in force: %s %% of baseline from %d", fmtPercent(al.Step.Percent), al.Step.FromYear))
+	if al.Servicing != nil {
+		lv.Notes = append(lv.Notes, ruleNotes(*al.Servicing, "annual servicing cap; only servicing uses may draw on it")...)
+	}
+	if al.Average != nil {
+		lv.Notes = append(lv.Notes, ruleNotes(*al.Average, fmt.Sprintf(
+			"period average %d–%d: Value is the period's mean level; single years may differ as long as the period's mean stays within it (see Assess for the room left)",
+			al.Average.FromYear, al.Average.ToYear))...)
+	}
+	if lv.Percent == 0 && al.Average == nil {
+		if _, err := newLedger(records); err != nil {
+			return Level{}, err
+		}
+		return lv, nil
+	}
+	b, err := rb.Baseline(records, party, scope)
+	if err != nil {
+		return Level{}, err
+	}
+	if !b.Complete {
+		return Level{}, fmt.Errorf("%w: %s %s: %s", ErrIncompleteBaseline, lv.Scope, b.AppliesTo, gapList(b.Missing))
+	}
+	lv.Baseline = &b
+	lv.Value = b.Value * lv.Percent / 100
+	return lv, nil
+}

@@ -1,0 +1,191 @@
+package controls
+
+import (
+	"cmp"
+	"fmt"
+	"slices"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// Counting says whether used, recycled and reclaimed trade counts.
+type Counting int
+
+// Counting rules (Decision IV/24 para 2; CONTROL_RULES §1 [V]).
+const (
+	// ExcludeUsed leaves used, recycled and reclaimed imports and exports out: the rule for
+	// every year that is not an Article 5 base year.
+	ExcludeUsed Counting = iota
+	// IncludeUsed counts them: the exception for an Article 5 Party's base-year consumption.
+	IncludeUsed
+)
+
+// SubstanceConsumption is one substance's arithmetic in one year.
+type SubstanceConsumption struct {
+	Substance  Substance
+	Flows      Flows   // all records for the substance and year, added
+	Tonnes     float64 // calculated consumption, metric t (may be negative)
+	ODPTonnes  float64 // Tonnes × ODP
+	CO2eTonnes float64 // Tonnes × Protocol GWP
+}
+
+// GroupConsumption is one Annex group's consumption in one year.
+type GroupConsumption struct {
+	Year       int
+	Group      substances.Group
+	Substances []SubstanceConsumption // by designation
+	Tonnes     float64
+	ODPTonnes  float64 // the figure compared for Annexes A to E
+	CO2eTonnes float64 // the figure compared for Annex F (Groups I and II together)
+}
+
+// Consumption is the result of Calculate.
+type Consumption struct {
+	Counting     Counting
+	Groups       []GroupConsumption // by year, then Annex order
+	Uncontrolled []string           // designations skipped because not controlled (e.g. R-290 in a blend)
+}
+
+// Calculate computes consumption per year, Annex group and substance. Records of the same
+// substance and year are added. A substance must carry the same group, ODP and GWP in every
+// record. Uncontrolled records are skipped and named in Uncontrolled.
+func Calculate(records []Record, counting Counting) (Consumption, error) {
+	if counting != ExcludeUsed && counting != IncludeUsed {
+		return Consumption{}, fieldErr("counting", "ExcludeUsed or IncludeUsed", "unknown value %d", int(counting))
+	}
+	type key struct {
+		year int
+		des  string
+	}
+	seen := map[string]Substance{}
+	merged := map[key]*SubstanceConsumption{}
+	uncontrolled := map[string]bool{}
+	for i, r := range records {
+		if err := r.validate(i); err != nil {
+			return Consumption{}, err
+		}
+		s := r.Substance
+		if prev, ok := seen[s.Designation]; ok && prev != s {
+			return Consumption{}, fieldErr(fmt.Sprintf("records[%d].substance", i),
+				"the same group, ODP and GWP in every record of one substance",
+				"%s has group %q ODP %v GWP %v here but group %q ODP %v GWP %v in an earlier record",
+				s.Designation, s.Group, s.ODP, s.GWP, prev.Group, prev.ODP, prev.GWP)
+		}
+		seen[s.Designation] = s
+		if s.Group == substances.GroupNone {
+			uncontrolled[s.Designation] = true
+			continue
+		}
+		k := key{r.Year, s.Designation}
+		sc := merged[k]
+		if sc == nil {
+			sc = &SubstanceConsumption{Substance: s}
+			merged[k] = sc
+		}
+		sc.Flows = sc.Flows.Add(r.Flows)
+	}
+
+	type gkey struct {
+		year  int
+		group substances.Group
+	}
+	groups := map[gkey]*GroupConsumption{}
+	for k, sc := range merged {
+		sc.Tonnes = sc.Flows.Counted(counting == IncludeUsed)
+		sc.ODPTonnes = sc.Tonnes * sc.Substance.ODP
+		sc.CO2eTonnes = sc.Tonnes * sc.Substance.GWP
+		gk := gkey{k.year, sc.Substance.Group}
+		g := groups[gk]
+		if g == nil {
+			g = &GroupConsumption{Year: k.year, Group: gk.group}
+			groups[gk] = g
+		}
+		g.Substances = append(g.Substances, *sc)
+	}
+	out := Consumption{Counting: counting}
+	for _, g := range groups {
+		slices.SortFunc(g.Substances, func(a, b SubstanceConsumption) int {
+			return cmp.Compare(a.Substance.Designation, b.Substance.Designation)
+		})
+		// Sum in designation order so the result does not depend on map order.
+		for _, s := range g.Substances {
+			g.Tonnes += s.Tonnes
+			g.ODPTonnes += s.ODPTonnes
+			g.CO2eTonnes += s.CO2eTonnes
+		}
+		out.Groups = append(out.Groups, *g)
+	}
+	slices.SortFunc(out.Groups, func(a, b GroupConsumption) int {
+		if c := cmp.Compare(a.Year, b.Year); c != 0 {
+			return c
+		}
+		return cmp.Compare(groupIndex(a.Group), groupIndex(b.Group))
+	})
+	for d := range uncontrolled {
+		out.Uncontrolled = append(out.Uncontrolled, d)
+	}
+	slices.Sort(out.Uncontrolled)
+	return out, nil
+}
+
+func groupIndex(g substances.Group) int { return slices.Index(substances.AllGroups, g) }
+
+// Group returns one group's consumption in one year; ok is false when no record of the
+// group exists for that year.
+func (c Consumption) Group(year int, g substances.Group) (GroupConsumption, bool) {
+	for _, gc := range c.Groups {
+		if gc.Year == year && gc.Group == g {
+			return gc, true
+		}
+	}
+	return GroupConsumption{}, false
+}
+
+// Amount returns a scope's consumption in one year in the given unit, summing the scope's
+// groups. ok is false when no record of any group of the scope exists for that year: a year
+// with true zero consumption must be passed as a record with zero flows, so that it is told
+// apart from missing data.
+func (c Consumption) Amount(year int, scope Scope, unit Unit) (amount float64, ok bool) {
+	for _, g := range scope.Groups() {
+		gc, found := c.Group(year, g)
+		if !found {
+			continue
+		}
+		ok = true
+		switch unit {
+		case UnitTonnes:
+			amount += gc.Tonnes
+		case UnitODPTonnes:
+			amount += gc.ODPTonnes
+		case UnitCO2eTonnes:
+			amount += gc.CO2eTonnes
+		}
+	}
+	return amount, ok
+}
+
+// ledger validates records once and caches their consumption under each counting rule.
+type ledger struct {
+	records []Record
+	cache   map[Counting]Consumption
+}
+
+func newLedger(records []Record) (*ledger, error) {
+	l := &ledger{records: records, cache: map[Counting]Consumption{}}
+	if _, err := l.consumption(ExcludeUsed); err != nil {
+		return nil, err
+	}
+	return l, nil
+}
+
+func (l *ledger) consumption(c Counting) (Consumption, error) {
+	if got, ok := l.cache[c]; ok {
+		return got, nil
+	}
+	got, err := Calculate(l.records, c)
+	if err != nil {
+		return Consumption{}, err
+	}
+	l.cache[c] = got
+	return got, nil
+}

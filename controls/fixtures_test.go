@@ -1,0 +1,114 @@
+package controls
+
+import (
+	"encoding/csv"
+	"errors"
+	"io/fs"
+	"math"
+	"os"
+	"strconv"
+	"testing"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// Tolerances stated by the brief: ODP tonnes to 0.001, CO2-eq tonnes to 1. The computed
+// values are far more precise; these are the reporting precisions.
+const (
+	tolODP  = 0.001 // ODP t
+	tolCO2e = 1.0   // t CO2-eq
+	tolT    = 1e-9  // metric t, for exact splits
+)
+
+// Substance factors used by the tests. ODPs: CONTROL_RULES §2 "ODPs (Protocol values)",
+// source S18 [V] (also DOMAIN.md §2). GWPs: CONTROL_RULES §2, Kigali GWP columns of Annex A
+// Group I, Annex C Group I and Annex F, sources S18/S19/S20 [V].
+var (
+	cfc11    = Substance{"CFC-11", substances.GroupAI, 1.0, 4750}             // source: CONTROL_RULES §2 [V]
+	cfc12    = Substance{"CFC-12", substances.GroupAI, 1.0, 10900}            // source: CONTROL_RULES §2 [V]
+	ccl4     = Substance{"carbon tetrachloride", substances.GroupBII, 1.1, 0} // source: CONTROL_RULES §2 ODP [V]; Protocol lists no GWP for Annex B
+	hcfc22   = Substance{"HCFC-22", substances.GroupCI, 0.055, 1810}          // source: CONTROL_RULES §2 [V]
+	hcfc141b = Substance{"HCFC-141b", substances.GroupCI, 0.11, 725}          // source: CONTROL_RULES §2 [V]
+	hcfc142b = Substance{"HCFC-142b", substances.GroupCI, 0.065, 2310}        // source: CONTROL_RULES §2 [V]
+	hcfc31   = Substance{"HCFC-31", substances.GroupCI, 0.02, 0}              // source: DOMAIN.md §2 ODP; no Kigali GWP listed → 0 (Annex C footnote, CONTROL_RULES §2 [V])
+	mbr      = Substance{"methyl bromide", substances.GroupEI, 0.6, 0}        // source: CONTROL_RULES §2 ODP [V]; no Protocol GWP
+	hfc134a  = Substance{"HFC-134a", substances.GroupFI, 0, 1430}             // source: CONTROL_RULES §2 Annex F [V]
+	hfc125   = Substance{"HFC-125", substances.GroupFI, 0, 3500}              // source: CONTROL_RULES §2 Annex F [V]
+	hfc32    = Substance{"HFC-32", substances.GroupFI, 0, 675}                // source: CONTROL_RULES §2 Annex F [V]
+	hfc23    = Substance{"HFC-23", substances.GroupFII, 0, 14800}             // source: CONTROL_RULES §2 Annex F Group II [V]
+	propane  = Substance{"R-290", substances.GroupNone, 0, 0}                 // not controlled (DOMAIN.md §2)
+)
+
+func rec(year int, s Substance, f Flows) Record { return Record{Year: year, Substance: s, Flows: f} }
+
+func near(t *testing.T, what string, got, want, tol float64) {
+	t.Helper()
+	if math.IsNaN(got) || math.Abs(got-want) > tol {
+		t.Errorf("%s = %.6f, want %.6f (±%g)", what, got, want, tol)
+	}
+}
+
+func mustRulebook(t testing.TB) *Rulebook {
+	t.Helper()
+	rb, err := DefaultRulebook()
+	if err != nil {
+		t.Fatalf("embedded rulebook does not parse: %v", err)
+	}
+	return rb
+}
+
+// TestFixturesMatchReference checks the test fixtures' ODP and GWP against the project's
+// independently gathered reference data (halocarbons.csv: odp, gwp100_ar4 columns; the
+// Protocol GWPs equal AR4 values, CONTROL_RULES §2).
+func TestFixturesMatchReference(t *testing.T) {
+	const path = "/work/shared/reference/halocarbons.csv"
+	f, err := os.Open(path)
+	if errors.Is(err, fs.ErrNotExist) {
+		t.Skipf("%s not present on this machine", path)
+	}
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := csv.NewReader(f).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	col := map[string]int{}
+	for i, h := range rows[0] {
+		col[h] = i
+	}
+	byName := map[string][]string{}
+	for _, r := range rows[1:] {
+		byName[r[col["designation"]]] = r
+	}
+	num := func(s string) float64 {
+		if s == "" {
+			return 0
+		}
+		v, err := strconv.ParseFloat(s, 64)
+		if err != nil {
+			t.Fatalf("reference value %q: %v", s, err)
+		}
+		return v
+	}
+	for _, s := range []Substance{cfc11, cfc12, ccl4, hcfc22, hcfc141b, hcfc142b, hcfc31, mbr, hfc134a, hfc125, hfc32, hfc23} {
+		r, ok := byName[s.Designation]
+		if !ok {
+			t.Errorf("%s not in %s", s.Designation, path)
+			continue
+		}
+		if g := substances.Group(r[col["mp_annex_group"]]); g != s.Group {
+			t.Errorf("%s group = %s in reference, fixture has %s", s.Designation, g, s.Group)
+		}
+		if v := num(r[col["odp"]]); v != s.ODP {
+			t.Errorf("%s ODP = %v in reference, fixture has %v", s.Designation, v, s.ODP)
+		}
+		// Protocol GWPs exist for A/I, C/I and F only; elsewhere the fixture carries 0.
+		if s.Group == substances.GroupAI || s.Group == substances.GroupCI || s.Group == substances.GroupFI || s.Group == substances.GroupFII {
+			if v := num(r[col["gwp100_ar4"]]); v != s.GWP {
+				t.Errorf("%s GWP = %v in reference (AR4 = Protocol), fixture has %v", s.Designation, v, s.GWP)
+			}
+		}
+	}
+}

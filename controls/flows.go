@@ -1,0 +1,189 @@
+package controls
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// Substance is the part of a catalogue substance that consumption arithmetic needs.
+type Substance struct {
+	Designation string           // e.g. "HCFC-22"
+	Group       substances.Group // Annex group; GroupNone for an uncontrolled blend component
+	ODP         float64          // ODP used for the Protocol's calculations (upper end of a range)
+	GWP         float64          // Protocol GWP (Annex A/I, C/I, F columns); 0 when none is listed
+}
+
+// SubstanceOf takes the designation, group, ODP and Protocol GWP of a catalogue substance.
+func SubstanceOf(s *substances.Substance) Substance {
+	return Substance{Designation: s.Designation, Group: s.Group, ODP: s.ODP, GWP: s.ProtocolGWP()}
+}
+
+// Flows are one substance's quantities in one year, in metric tonnes of substance (net
+// mass). Which flows count is set out in CONTROL_RULES §1 [V]; the caller classifies each
+// quantity (e.g. which partner is a non-Party for this substance, Art. 4 para 9).
+type Flows struct {
+	// Production in the Party.
+	Production float64
+	// Imports of new substance for all uses, including imports for feedstock or QPS use
+	// (those uses are deducted through Feedstock and QPS).
+	Imports float64
+	// Exports to Parties, including exports for feedstock use abroad: deducted.
+	Exports float64
+	// Exports to non-Parties: reported, not deducted (Art. 3 para 1(c), from 1993).
+	ExportsNonParty float64
+	// Amount destroyed by an approved technology: deducted (Art. 1 para 5).
+	Destruction float64
+	// Amount used entirely as feedstock within the Party: deducted (Art. 1 para 5; Decision
+	// VII/30).
+	Feedstock float64
+	// Methyl bromide used for quarantine and pre-shipment: deducted (Art. 2H para 6; Art. 5
+	// para 8 ter (g)(iv)). Only valid for Annex E.
+	QPS float64
+	// Imports and exports of used, recycled or reclaimed substance: not counted (Decision
+	// IV/24 para 2, Decision VI/19), except in an Article 5 Party's base-year consumption,
+	// where the rulebook's count_used column says to count them.
+	UsedImports float64
+	UsedExports float64
+	// Goods in transit or transhipment: never counted; carried for reporting only.
+	Transit float64
+}
+
+// Add returns the sum of two flows.
+func (f Flows) Add(g Flows) Flows {
+	return Flows{
+		Production:      f.Production + g.Production,
+		Imports:         f.Imports + g.Imports,
+		Exports:         f.Exports + g.Exports,
+		ExportsNonParty: f.ExportsNonParty + g.ExportsNonParty,
+		Destruction:     f.Destruction + g.Destruction,
+		Feedstock:       f.Feedstock + g.Feedstock,
+		QPS:             f.QPS + g.QPS,
+		UsedImports:     f.UsedImports + g.UsedImports,
+		UsedExports:     f.UsedExports + g.UsedExports,
+		Transit:         f.Transit + g.Transit,
+	}
+}
+
+// Scaled returns every flow multiplied by fraction, e.g. a blend component's mass fraction.
+func (f Flows) Scaled(fraction float64) Flows {
+	return Flows{
+		Production:      f.Production * fraction,
+		Imports:         f.Imports * fraction,
+		Exports:         f.Exports * fraction,
+		ExportsNonParty: f.ExportsNonParty * fraction,
+		Destruction:     f.Destruction * fraction,
+		Feedstock:       f.Feedstock * fraction,
+		QPS:             f.QPS * fraction,
+		UsedImports:     f.UsedImports * fraction,
+		UsedExports:     f.UsedExports * fraction,
+		Transit:         f.Transit * fraction,
+	}
+}
+
+// Counted returns calculated consumption in metric tonnes: production + imports − exports
+// to Parties − destruction − feedstock − QPS, plus used imports − used exports when
+// countUsed is set (CONTROL_RULES §1 [V]). The result may be negative.
+func (f Flows) Counted(countUsed bool) float64 {
+	t := f.Production + f.Imports - f.Exports - f.Destruction - f.Feedstock - f.QPS
+	if countUsed {
+		t += f.UsedImports - f.UsedExports
+	}
+	return t
+}
+
+func (f Flows) fields() []struct {
+	name string
+	v    float64
+} {
+	return []struct {
+		name string
+		v    float64
+	}{
+		{"production", f.Production}, {"imports", f.Imports}, {"exports", f.Exports},
+		{"exports_non_party", f.ExportsNonParty}, {"destruction", f.Destruction},
+		{"feedstock", f.Feedstock}, {"qps", f.QPS}, {"used_imports", f.UsedImports},
+		{"used_exports", f.UsedExports}, {"transit", f.Transit},
+	}
+}
+
+// Record is one substance's flows in one calendar year. Several records for the same
+// substance and year are added together (e.g. the pure substance and a blend component).
+type Record struct {
+	Year      int
+	Substance Substance
+	Flows     Flows
+}
+
+// Years a record may carry.
+const (
+	MinYear = 1980
+	MaxYear = 2100
+)
+
+const yearAccepted = "a calendar year from 1980 to 2100"
+
+func checkYear(field string, y int) error {
+	if y < MinYear || y > MaxYear {
+		return fieldErr(field, yearAccepted, "is %d", y)
+	}
+	return nil
+}
+
+func finiteNonNeg(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) && v >= 0 }
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+// validate checks one record; i is its index for messages.
+func (r Record) validate(i int) error {
+	p := fmt.Sprintf("records[%d]", i)
+	if err := checkYear(p+".year", r.Year); err != nil {
+		return err
+	}
+	s := r.Substance
+	if strings.TrimSpace(s.Designation) == "" {
+		return fieldErr(p+".substance.designation", "a catalogue designation such as \"HCFC-22\"", "is empty")
+	}
+	for _, f := range r.Flows.fields() {
+		if !finiteNonNeg(f.v) {
+			return fieldErr(p+".flows."+f.name, "a finite number of metric tonnes ≥ 0", "is %v", f.v)
+		}
+	}
+	if s.Group == substances.GroupNone {
+		return nil // uncontrolled component: ODP/GWP do not matter, it is not counted
+	}
+	if !isGroup(s.Group) {
+		return fieldErr(p+".substance.group", "an Annex group such as \"C/I\", or \"\" for uncontrolled", "unknown group %q", string(s.Group))
+	}
+	if !finiteNonNeg(s.ODP) {
+		return fieldErr(p+".substance.odp", "a finite ODP ≥ 0", "is %v", s.ODP)
+	}
+	if !finiteNonNeg(s.GWP) {
+		return fieldErr(p+".substance.gwp", "a finite Protocol GWP ≥ 0", "is %v", s.GWP)
+	}
+	annexF := s.Group == substances.GroupFI || s.Group == substances.GroupFII
+	if !annexF && s.ODP == 0 {
+		return fieldErr(p+".substance.odp", "the ODP from the Annex (> 0 for every Annex A–E substance)",
+			"is 0 for %s in group %s", s.Designation, s.Group)
+	}
+	if annexF && s.GWP == 0 {
+		return fieldErr(p+".substance.gwp", "the GWP listed in Annex F (> 0 for every HFC)",
+			"is 0 for %s in group %s", s.Designation, s.Group)
+	}
+	if r.Flows.QPS > 0 && s.Group != substances.GroupEI {
+		return fieldErr(p+".flows.qps", "0 for substances outside Annex E (the QPS exclusion covers methyl bromide only)",
+			"is %v for %s in group %s", r.Flows.QPS, s.Designation, s.Group)
+	}
+	return nil
+}
+
+func isGroup(g substances.Group) bool {
+	for _, a := range substances.AllGroups {
+		if g == a {
+			return true
+		}
+	}
+	return false
+}

@@ -1,0 +1,192 @@
+package controls
+
+import (
+	"cmp"
+	"fmt"
+	"math/big"
+	"slices"
+	"strconv"
+	"strings"
+)
+
+// CompanyReference is one company's reference amounts by year (e.g. its recorded imports in
+// the plan's unit), from which its share is taken.
+type CompanyReference struct {
+	CompanyID string
+	Amounts   map[int]float64 // by calendar year; a year absent counts as 0
+}
+
+// QuotaRequest describes a quota plan.
+type QuotaRequest struct {
+	// Total is the amount the plan starts from: next year's allowed level (see
+	// Rulebook.AllowedLevel) or an explicit total, in the plan's unit; ≥ 0.
+	Total float64
+	// Fraction of Total to distribute, 0 < Fraction ≤ 1 (e.g. 0.9 to hold back a reserve).
+	Fraction float64
+	// Granularity is the smallest unit of allocation, > 0 (e.g. 0.001 ODP t).
+	Granularity float64
+	// ReferenceYears are the years whose amounts are added to give each reference amount.
+	ReferenceYears []int
+	Companies      []CompanyReference
+}
+
+// Quota is one company's proposal.
+type Quota struct {
+	CompanyID      string
+	Reference      float64 // sum of the company's amounts over the reference years
+	ReferenceShare float64 // Reference / sum of all references
+	ExactShare     float64 // Distributable × ReferenceShare, before rounding to whole units
+	Units          int64   // whole granularity units allocated
+	Amount         float64 // Units × Granularity
+}
+
+// QuotaPlan is the result of PlanQuotas.
+type QuotaPlan struct {
+	Total         float64
+	Fraction      float64
+	Distributable float64 // Total × Fraction
+	Granularity   float64
+	Units         int64   // units distributed: floor(Distributable / Granularity)
+	Distributed   float64 // Units × Granularity; never above Distributable
+	Quotas        []Quota // by company id
+}
+
+// PlanQuotas distributes floor(Total × Fraction / Granularity) whole units of Granularity
+// among the companies in proportion to their reference amounts, by the largest-remainder
+// (Hamilton) method: each company first gets the whole units of its exact share; the units
+// left go one each to the largest remainders, ties broken by the larger reference amount,
+// then by the smaller company id. The total never exceeds Total × Fraction, and each quota
+// is within one unit of its exact share. A company with a zero reference gets nothing.
+//
+// Inputs are read as the shortest decimals that print as the given float64 values (0.001
+// means exactly 1/1000), and the arithmetic is exact (math/big), so rounding never pushes
+// the total above the distributable amount and ties are true ties. The error wraps
+// ErrNoReference when every reference amount is zero, else ErrInvalidInput.
+func PlanQuotas(req QuotaRequest) (QuotaPlan, error) {
+	if !finiteNonNeg(req.Total) {
+		return QuotaPlan{}, fieldErr("total", "a finite amount ≥ 0", "is %v", req.Total)
+	}
+	if !finite(req.Fraction) || req.Fraction <= 0 || req.Fraction > 1 {
+		return QuotaPlan{}, fieldErr("fraction", "a number above 0 and at most 1", "is %v", req.Fraction)
+	}
+	if !finite(req.Granularity) || req.Granularity <= 0 {
+		return QuotaPlan{}, fieldErr("granularity", "a finite amount above 0, e.g. 0.001", "is %v", req.Granularity)
+	}
+	if len(req.ReferenceYears) == 0 {
+		return QuotaPlan{}, fieldErr("reference_years", "at least one calendar year", "is empty")
+	}
+	for i, y := range req.ReferenceYears {
+		if err := checkYear(fmt.Sprintf("reference_years[%d]", i), y); err != nil {
+			return QuotaPlan{}, err
+		}
+		if slices.Index(req.ReferenceYears, y) != i {
+			return QuotaPlan{}, fieldErr(fmt.Sprintf("reference_years[%d]", i), "each year once", "%d appears twice", y)
+		}
+	}
+	if len(req.Companies) == 0 {
+		return QuotaPlan{}, fieldErr("companies", "at least one company with reference amounts", "is empty")
+	}
+
+	type entry struct {
+		id        string
+		ref       *big.Rat
+		refF      float64
+		exact     *big.Rat // share in units
+		units     *big.Int
+		remainder *big.Rat
+	}
+	entries := make([]*entry, len(req.Companies))
+	ids := map[string]bool{}
+	sum := new(big.Rat)
+	for i, c := range req.Companies {
+		f := fmt.Sprintf("companies[%d]", i)
+		id := strings.TrimSpace(c.CompanyID)
+		if id == "" {
+			return QuotaPlan{}, fieldErr(f+".company_id", "a non-empty company id", "is empty")
+		}
+		if ids[id] {
+			return QuotaPlan{}, fieldErr(f+".company_id", "each company once", "%q appears twice", id)
+		}
+		ids[id] = true
+		ref := new(big.Rat)
+		for _, y := range req.ReferenceYears {
+			v := c.Amounts[y]
+			if !finiteNonNeg(v) {
+				return QuotaPlan{}, fieldErr(fmt.Sprintf("%s.amounts[%d]", f, y), "a finite amount ≥ 0", "is %v", v)
+			}
+			ref.Add(ref, decimal(v))
+		}
+		sum.Add(sum, ref)
+		rf, _ := ref.Float64()
+		entries[i] = &entry{id: id, ref: ref, refF: rf}
+	}
+	if sum.Sign() == 0 {
+		return QuotaPlan{}, fmt.Errorf("%w: every company's reference amount over the years %v is zero, so there is no share to distribute by; nothing was distributed. Choose reference years with recorded amounts, or set the quotas explicitly",
+			ErrNoReference, req.ReferenceYears)
+	}
+
+	gran := decimal(req.Granularity)
+	dist := new(big.Rat).Mul(decimal(req.Total), decimal(req.Fraction))
+	distUnits := new(big.Rat).Quo(dist, gran) // exact, possibly fractional
+	n := floorRat(distUnits)
+	if !n.IsInt64() {
+		return QuotaPlan{}, fieldErr("granularity", "a granularity that leaves fewer than 2^63 units",
+			"%v splits %v into too many units", req.Granularity, req.Total)
+	}
+
+	// Whole units of each exact share; then the units left, by largest remainder.
+	given := new(big.Int)
+	for _, e := range entries {
+		e.exact = new(big.Rat).Mul(distUnits, new(big.Rat).Quo(e.ref, sum))
+		e.units = floorRat(e.exact)
+		e.remainder = new(big.Rat).Sub(e.exact, new(big.Rat).SetInt(e.units))
+		given.Add(given, e.units)
+	}
+	left := new(big.Int).Sub(n, given).Int64() // 0 ≤ left < number of companies with a remainder
+	order := slices.Clone(entries)
+	slices.SortFunc(order, func(a, b *entry) int {
+		return cmp.Or(b.remainder.Cmp(a.remainder), b.ref.Cmp(a.ref), cmp.Compare(a.id, b.id))
+	})
+	for _, e := range order {
+		if left == 0 {
+			break
+		}
+		if e.ref.Sign() == 0 || e.remainder.Sign() == 0 {
+			break // sorted: no later entry has a remainder either
+		}
+		e.units.Add(e.units, big.NewInt(1))
+		left--
+	}
+
+	plan := QuotaPlan{Total: req.Total, Fraction: req.Fraction, Granularity: req.Granularity}
+	plan.Distributable, _ = dist.Float64()
+	total := new(big.Int)
+	for _, e := range entries {
+		total.Add(total, e.units)
+	}
+	plan.Units = total.Int64() // equals floor(Distributable / Granularity); see the doc comment
+	plan.Distributed, _ = new(big.Rat).Mul(new(big.Rat).SetInt(total), gran).Float64()
+	for _, e := range entries {
+		q := Quota{CompanyID: e.id, Reference: e.refF, Units: e.units.Int64()}
+		q.ReferenceShare, _ = new(big.Rat).Quo(e.ref, sum).Float64()
+		q.ExactShare, _ = new(big.Rat).Mul(e.exact, gran).Float64()
+		q.Amount, _ = new(big.Rat).Mul(new(big.Rat).SetInt(e.units), gran).Float64()
+		plan.Quotas = append(plan.Quotas, q)
+	}
+	slices.SortFunc(plan.Quotas, func(a, b Quota) int { return cmp.Compare(a.CompanyID, b.CompanyID) })
+	return plan, nil
+}
+
+// decimal reads a finite float64 as the shortest decimal that prints as it.
+func decimal(v float64) *big.Rat {
+	r, ok := new(big.Rat).SetString(strconv.FormatFloat(v, 'g', -1, 64))
+	if !ok { // unreachable for finite values, which callers check first
+		r = new(big.Rat).SetFloat64(v)
+	}
+	return r
+}
+
+// floorRat is ⌊r⌋ for r ≥ 0.
+func floorRat(r *big.Rat) *big.Int {
+	return new(big.Int).Quo(r.Num(), r.Denom())
+}
