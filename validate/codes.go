@@ -1,0 +1,278 @@
+package validate
+
+import (
+	"fmt"
+	"io"
+	"strings"
+)
+
+// Finding codes. They are halovet's own names, stable across releases: a client may match on
+// them. CodeTable documents each.
+const (
+	// record
+	CodeKeyMissing       = "KEY_MISSING"
+	CodeKeyInvalid       = "KEY_INVALID"
+	CodeFieldUnreadable  = "FIELD_UNREADABLE"
+	CodeDirectionMissing = "DIRECTION_MISSING"
+	CodeCompanyMissing   = "COMPANY_MISSING"
+
+	// identity
+	CodeSubstMissing       = "SUBST_MISSING"
+	CodeSubstUnknown       = "SUBST_UNKNOWN"
+	CodeSubstAmbiguous     = "SUBST_AMBIGUOUS"
+	CodeSubstLooseMatch    = "SUBST_LOOSE_MATCH"
+	CodeSubstNotControlled = "SUBST_NOT_CONTROLLED"
+	CodeCASFormat          = "CAS_FORMAT"
+	CodeCASCheckDigit      = "CAS_CHECK_DIGIT"
+	CodeCASMismatch        = "CAS_MISMATCH"
+	CodeCASNotApplicable   = "CAS_NOT_APPLICABLE"
+	CodeCASUnverified      = "CAS_UNVERIFIED"
+	CodeHSFormat           = "HS_FORMAT"
+	CodeHSMismatch         = "HS_MISMATCH"
+	CodeHSShared           = "HS_SHARED"
+	CodeHSEdition          = "HS_EDITION"
+	CodeHSMixtureUnknown   = "HS_MIXTURE_UNKNOWN"
+	CodeFormulaFormat      = "FORMULA_FORMAT"
+	CodeFormulaMismatch    = "FORMULA_MISMATCH"
+	CodeFormulaNotApplic   = "FORMULA_NOT_APPLICABLE"
+
+	// quantity
+	CodeQtyMissing           = "QTY_MISSING"
+	CodeQtyFormat            = "QTY_FORMAT"
+	CodeQtyNotPositive       = "QTY_NOT_POSITIVE"
+	CodeQtyTooLarge          = "QTY_TOO_LARGE"
+	CodeQtyUnitUnknown       = "QTY_UNIT_UNKNOWN"
+	CodeQtyContainersInvalid = "QTY_CONTAINERS_INVALID"
+	CodeQtyFillLarge         = "QTY_FILL_LARGE"
+	CodeQtyFillSmall         = "QTY_FILL_SMALL"
+
+	// party
+	CodePartnerMissing  = "PARTNER_MISSING"
+	CodePartnerFormat   = "PARTNER_FORMAT"
+	CodePartnerUnknown  = "PARTNER_UNKNOWN"
+	CodePartnerSelf     = "PARTNER_SELF"
+	CodePartnerNonParty = "PARTNER_NON_PARTY"
+	CodePartnerNotBound = "PARTNER_NOT_BOUND"
+
+	// dates
+	CodeDateMissing        = "DATE_MISSING"
+	CodeDateFormat         = "DATE_FORMAT"
+	CodeDateFuture         = "DATE_FUTURE"
+	CodeLicenceNotYetValid = "LICENCE_NOT_YET_VALID"
+	CodeLicenceExpired     = "LICENCE_EXPIRED"
+
+	// licence
+	CodeLicenceMissing   = "LICENCE_MISSING"
+	CodeLicenceUnknown   = "LICENCE_UNKNOWN"
+	CodeLicenceCompany   = "LICENCE_COMPANY"
+	CodeLicenceDirection = "LICENCE_DIRECTION"
+	CodeLicenceInactive  = "LICENCE_INACTIVE"
+	CodeLicenceScope     = "LICENCE_SCOPE"
+
+	// quota
+	CodeQuotaExceeded    = "QUOTA_EXCEEDED"
+	CodeQuotaNearLimit   = "QUOTA_NEAR_LIMIT"
+	CodeQuotaLineInvalid = "QUOTA_LINE_INVALID"
+
+	// phase-out
+	CodePhasedOut       = "PHASED_OUT"
+	CodePhasedOutExempt = "PHASED_OUT_EXEMPT"
+	CodeScheduleUnknown = "SCHEDULE_UNKNOWN"
+
+	// purpose
+	CodePurposeMissing      = "PURPOSE_MISSING"
+	CodeQPSNotMB            = "QPS_NOT_MB"
+	CodePurposeNotLicensed  = "PURPOSE_NOT_LICENSED"
+	CodePurposeNotCounted   = "PURPOSE_NOT_COUNTED"
+	CodeRecoveredNotCounted = "RECOVERED_NOT_COUNTED"
+	CodeTransitNotCounted   = "TRANSIT_NOT_COUNTED"
+
+	// mixture
+	CodeMixAdHoc             = "MIX_AD_HOC"
+	CodeMixComponentUnknown  = "MIX_COMPONENT_UNKNOWN"
+	CodeMixShareInvalid      = "MIX_SHARE_INVALID"
+	CodeMixSum               = "MIX_SUM"
+	CodeMixComponentMismatch = "MIX_COMPONENT_MISMATCH"
+	CodeMixOutOfTolerance    = "MIX_OUT_OF_TOLERANCE"
+
+	// duplicates
+	CodeDupKeyConflict = "DUP_KEY_CONFLICT"
+	CodeDupReplay      = "DUP_REPLAY"
+)
+
+// CodeInfo documents one finding code.
+type CodeInfo struct {
+	Code     string
+	Severity Severity
+	Family   string // rule family: record, identity, quantity, party, dates, licence, quota, phase-out, purpose, mixture, duplicates
+	Field    string // the field findings of this code usually name ("" when it varies)
+	Meaning  string // when the code is given
+	Accepted string // what is accepted instead, or what the notice means for the record
+}
+
+// codeTable is the single source of every code's severity and documentation.
+var codeTable = []CodeInfo{
+	// record
+	{CodeKeyMissing, SeverityError, "record", "record_key", "The record has no key.", "A non-empty key of at most 128 bytes, unique per company and unchanged when the record is sent again."},
+	{CodeKeyInvalid, SeverityError, "record", "record_key", "The key is longer than 128 bytes or holds control characters.", "Printable text of at most 128 bytes."},
+	{CodeFieldUnreadable, SeverityError, "record", "", "A reader found a field but could not convert it (an unknown direction, purpose or condition word, a container count that is not a whole number, a composition it cannot read).", "The words and formats listed in the message."},
+	{CodeDirectionMissing, SeverityError, "record", "direction", "No direction is declared.", "import, export, re-export or transit."},
+	{CodeCompanyMissing, SeverityError, "record", "company_id", "No company is declared.", "The registered identifier of the declaring company."},
+
+	// identity
+	{CodeSubstMissing, SeverityError, "identity", "substance", "Neither a substance nor a declared composition is given.", "Any identifier the catalogue resolves (designation, R-number, chemical name, CAS number), or a declared composition."},
+	{CodeSubstUnknown, SeverityError, "identity", "substance", "The declared substance matches no catalogue entry; the message lists the closest names.", "An identifier that resolves to exactly one substance or blend."},
+	{CodeSubstAmbiguous, SeverityError, "identity", "substance", "The declared substance matches several catalogue entries equally well; the message lists them.", "A designation or CAS number that names one of them."},
+	{CodeSubstLooseMatch, SeverityNotice, "identity", "substance", "The declared text was resolved by an approximate match, not by an exact name or number.", "Accepted; declaring the catalogue designation avoids the guess."},
+	{CodeSubstNotControlled, SeverityNotice, "identity", "substance", "Nothing in the shipment is controlled by the Montreal Protocol.", "Accepted; licence, quota, partner and phase-out checks do not apply under the Protocol (national rules may still)."},
+	{CodeCASFormat, SeverityError, "identity", "declared_cas_number", "The declared CAS Registry Number is not of the form digits-digits-digit.", "2 to 7 digits, a hyphen, 2 digits, a hyphen and the check digit, e.g. 75-45-6."},
+	{CodeCASCheckDigit, SeverityError, "identity", "declared_cas_number", "The check digit of the declared CAS Registry Number is wrong (published CAS check-digit method).", "A CAS Registry Number whose last digit equals the weighted digit sum mod 10."},
+	{CodeCASMismatch, SeverityError, "identity", "declared_cas_number", "The declared CAS Registry Number belongs to another substance than the one declared, or to none in the catalogue.", "The CAS Registry Number of the declared substance."},
+	{CodeCASNotApplicable, SeverityWarning, "identity", "declared_cas_number", "A CAS Registry Number is declared for a blend; blends have none of their own.", "No CAS number for a blend; components are named in the composition."},
+	{CodeCASUnverified, SeverityNotice, "identity", "declared_cas_number", "The catalogue entry is a treaty isomer group without one CAS number, and the declared number matches no catalogued isomer, so it cannot be checked.", "Accepted; the number was only checked for its check digit."},
+	{CodeHSFormat, SeverityError, "identity", "declared_hs_code", "The declared HS code cannot be read.", "At least 6 digits, dots and spaces optional, e.g. 2903.71 or 290371 or a national extension 2903.71.00."},
+	{CodeHSMismatch, SeverityError, "identity", "declared_hs_code", "The declared HS subheading (first 6 digits) is not a subheading of the declared substance or mixture in HS 2017 or HS 2022.", "One of the subheadings listed in the message."},
+	{CodeHSShared, SeverityNotice, "identity", "declared_hs_code", "The declared HS code fits, but the subheading also holds other goods, so the code alone does not prove identity.", "Accepted; the identity rests on the declared substance and CAS number."},
+	{CodeHSEdition, SeverityNotice, "identity", "declared_hs_code", "The declared HS code fits only the HS edition not in force on the declaration date (HS 2022 from 2022-01-01).", "Accepted; the message gives the code of the edition in force."},
+	{CodeHSMixtureUnknown, SeverityNotice, "identity", "declared_hs_code", "The HS subheading of the mixture could not be determined, so the declared code was not checked.", "Accepted; the code is left to customs."},
+	{CodeFormulaFormat, SeverityWarning, "identity", "declared_formula", "The declared formula cannot be read.", "A molecular formula such as CHClF2 or C2H2F4."},
+	{CodeFormulaMismatch, SeverityError, "identity", "declared_formula", "The declared formula holds other atoms than the declared substance's formula.", "The formula of the declared substance, in any atom order."},
+	{CodeFormulaNotApplic, SeverityWarning, "identity", "declared_formula", "A formula is declared for a blend, which has none.", "No formula for a blend."},
+
+	// quantity
+	{CodeQtyMissing, SeverityError, "quantity", "quantity", "No quantity is declared.", "A decimal number with a dot, e.g. 1250.5."},
+	{CodeQtyFormat, SeverityError, "quantity", "quantity", "The quantity is not a plain decimal number (a comma, a space or thousands separator, an exponent, a unit inside the number, more than 18 digits).", "Digits with at most one dot as the decimal separator, e.g. 1250.5."},
+	{CodeQtyNotPositive, SeverityError, "quantity", "quantity", "The quantity is zero or negative.", "A quantity above zero."},
+	{CodeQtyTooLarge, SeverityError, "quantity", "quantity", "The net mass exceeds 1,000,000 t in one record.", "A net mass of at most 1,000,000 t (10^9 kg)."},
+	{CodeQtyUnitUnknown, SeverityError, "quantity", "quantity_unit", "The unit is missing, unknown or ambiguous (\"ton\").", "kg, t (metric tonne), g or lb (0.45359237 kg)."},
+	{CodeQtyContainersInvalid, SeverityError, "quantity", "container_count", "The container count is negative or above 10^9.", "0 (the quantity is the total) or the number of containers (the quantity is the net fill of each)."},
+	{CodeQtyFillLarge, SeverityWarning, "quantity", "quantity", "Each container would hold more than 1000 kg net, more than a ton container's usual fill (common practice); the total may have been given as the fill.", "Accepted for review; give the fill per container, or the total with container count 0."},
+	{CodeQtyFillSmall, SeverityWarning, "quantity", "quantity", "Each container would hold less than 0.1 kg net, less than the smallest refrigerant cans (common practice); grams or the total may have been confused. Not raised for laboratory purpose.", "Accepted for review; check the unit and the container count."},
+
+	// party
+	{CodePartnerMissing, SeverityError, "party", "partner_country", "No partner country is declared.", "An ISO 3166-1 alpha-2 code, e.g. XA."},
+	{CodePartnerFormat, SeverityError, "party", "partner_country", "The partner country is not two letters.", "An ISO 3166-1 alpha-2 code (two letters A-Z, any case)."},
+	{CodePartnerUnknown, SeverityWarning, "party", "partner_country", "No party settings are held for the partner country, so whether it is bound by the Protocol could not be checked.", "Accepted for review; the authority should add the country's settings."},
+	{CodePartnerSelf, SeverityError, "party", "partner_country", "The partner country is the reporting Party itself.", "The other country of the shipment."},
+	{CodePartnerNonParty, SeverityError, "party", "partner_country", "The partner is not bound by the control measures for a group in the shipment, and the Article 4 ban on trade with non-Parties for that group and direction was in force on the declaration date.", "A partner bound for the group; the message gives the ban's start date. (Article 4 para 8 exceptions are decided by the Meeting of the Parties and are not modelled.)"},
+	{CodePartnerNotBound, SeverityNotice, "party", "partner_country", "The partner is not bound by the control measures for a group in the shipment, but the trade ban for that group had not started on the declaration date. An export to it is not deducted from consumption.", "Accepted."},
+
+	// dates
+	{CodeDateMissing, SeverityError, "dates", "declaration_date", "No declaration date is given.", "YYYY-MM-DD."},
+	{CodeDateFormat, SeverityError, "dates", "declaration_date", "The declaration date is not a valid ISO 8601 calendar date.", "YYYY-MM-DD, a real calendar day from 1900 on, e.g. 2025-03-31."},
+	{CodeDateFuture, SeverityError, "dates", "declaration_date", "The declaration date lies further in the future than the tolerance (2 days unless configured).", "A date up to today plus the tolerance."},
+	{CodeLicenceNotYetValid, SeverityError, "dates", "declaration_date", "The declaration date is before the licence's first day of validity.", "A date inside the licence's validity."},
+	{CodeLicenceExpired, SeverityError, "dates", "declaration_date", "The declaration date is after the licence's last day of validity.", "A date inside the licence's validity."},
+
+	// licence
+	{CodeLicenceMissing, SeverityError, "licence", "licence_number", "An import, export or re-export of a controlled substance names no licence (Article 4B).", "The number of a licence of the declaring company."},
+	{CodeLicenceUnknown, SeverityError, "licence", "licence_number", "No licence with this number exists.", "The number of an issued licence."},
+	{CodeLicenceCompany, SeverityError, "licence", "licence_number", "The licence belongs to another company.", "A licence held by the declaring company."},
+	{CodeLicenceDirection, SeverityError, "licence", "direction", "The licence does not cover the declared direction.", "A direction the licence lists (an export licence also covers re-export)."},
+	{CodeLicenceInactive, SeverityError, "licence", "licence_number", "The licence is a draft, suspended or revoked.", "An active licence."},
+	{CodeLicenceScope, SeverityError, "licence", "substance", "No quota line of the licence covers a controlled substance in the shipment (by Annex group or by substance).", "A licence with a quota line for the substance or its Annex group."},
+
+	// quota
+	{CodeQuotaExceeded, SeverityError, "quota", "quantity", "The shipment draws more than remains on the quota line (after earlier records of the same batch).", "At most the remaining amount, in the line's unit (metric t, ODP t or CO2-eq t)."},
+	{CodeQuotaNearLimit, SeverityNotice, "quota", "quantity", "After this shipment more than 90 % of the quota line is used.", "Accepted."},
+	{CodeQuotaLineInvalid, SeverityError, "quota", "licence_number", "The quota line the shipment would draw on has no unit or a negative allocation.", "A quota line in metric t, ODP t or CO2-eq t with an allocation of zero or more."},
+
+	// phase-out
+	{CodePhasedOut, SeverityError, "phase-out", "purpose", "The reporting Party's allowed consumption of the group is zero in the declaration year, and the import is neither for an exempted purpose nor of used, recycled or reclaimed material.", "Feedstock, destruction, laboratory, essential use, critical use, process agent, QPS (methyl bromide), or used/recycled/reclaimed material."},
+	{CodePhasedOutExempt, SeverityNotice, "phase-out", "purpose", "The group is phased out for the reporting Party, and the import passes because of its purpose or condition.", "Accepted; the exemption is reported as its decision says."},
+	{CodeScheduleUnknown, SeverityNotice, "phase-out", "substance", "No control schedule is known for the group, year and the reporting Party's type, so the phase-out was not checked.", "Accepted."},
+
+	// purpose
+	{CodePurposeMissing, SeverityNotice, "purpose", "purpose", "No purpose is declared; the shipment is treated as ordinary use.", "Accepted; declare a purpose to claim an exemption."},
+	{CodeQPSNotMB, SeverityError, "purpose", "purpose", "Quarantine and pre-shipment (QPS) is declared for a shipment without methyl bromide.", "QPS only for methyl bromide (Annex E)."},
+	{CodePurposeNotLicensed, SeverityError, "purpose", "purpose", "Feedstock or destruction is declared, but the licence does not list it as a special purpose.", "A licence that lists the purpose, or another purpose."},
+	{CodePurposeNotCounted, SeverityNotice, "purpose", "purpose", "The purpose (feedstock, destruction, process agent, QPS) takes the shipment out of calculated consumption.", "Accepted; the amount is reported but not counted in consumption."},
+	{CodeRecoveredNotCounted, SeverityNotice, "purpose", "condition", "Used, recycled or reclaimed material is not counted in consumption (Decision IV/24, if reported under Article 7; not for an Article 5 Party's base-year consumption).", "Accepted."},
+	{CodeTransitNotCounted, SeverityNotice, "purpose", "direction", "Transit is not an import or an export and is not counted in consumption.", "Accepted."},
+
+	// mixture
+	{CodeMixAdHoc, SeverityNotice, "mixture", "declared_composition", "No substance is named; the figures come from the declared composition.", "Accepted."},
+	{CodeMixComponentUnknown, SeverityError, "mixture", "declared_composition", "A component of the declared composition does not resolve to exactly one catalogue substance.", "A designation, R-number or CAS number of one substance."},
+	{CodeMixShareInvalid, SeverityError, "mixture", "declared_composition", "A component's mass percent is not above 0 and at most 100.", "A mass percent above 0 and at most 100."},
+	{CodeMixSum, SeverityError, "mixture", "declared_composition", "The declared mass percents do not sum to 100 (within 0.01).", "Shares summing to 100 ± 0.01."},
+	{CodeMixComponentMismatch, SeverityError, "mixture", "declared_composition", "The declared composition names other components than the declared substance or blend has.", "The components of the declared blend (or the declared substance alone at 100 %)."},
+	{CodeMixOutOfTolerance, SeverityError, "mixture", "declared_composition", "A component's declared mass percent lies outside the blend's ASHRAE 34 composition tolerance.", "A share inside nominal − tolerance to nominal + tolerance, named in the message."},
+
+	// duplicates
+	{CodeDupKeyConflict, SeverityError, "duplicates", "record_key", "A record with the same company and key but different content was seen before.", "A new key for a new record; the same content when sending a record again."},
+	{CodeDupReplay, SeverityNotice, "duplicates", "record_key", "A record with the same company, key and content was seen before; it is a replay and is not counted again.", "Accepted; nothing is drawn or counted twice."},
+}
+
+var codeIndex = func() map[string]int {
+	m := make(map[string]int, len(codeTable))
+	for i, c := range codeTable {
+		if _, dup := m[c.Code]; dup {
+			panic("validate: duplicate code in table: " + c.Code) // programming error, caught by tests
+		}
+		m[c.Code] = i
+	}
+	return m
+}()
+
+// CodeTable returns the documentation of every finding code, grouped by rule family.
+func CodeTable() []CodeInfo {
+	out := make([]CodeInfo, len(codeTable))
+	copy(out, codeTable)
+	return out
+}
+
+// LookupCode returns the documentation of one code.
+func LookupCode(code string) (CodeInfo, bool) {
+	i, ok := codeIndex[code]
+	if !ok {
+		return CodeInfo{}, false
+	}
+	return codeTable[i], true
+}
+
+// newFinding builds a finding with the severity the table gives the code. The field defaults
+// to the table's field.
+func newFinding(code, field, msg string) Finding {
+	i, ok := codeIndex[code]
+	if !ok {
+		panic("validate: finding code not in table: " + code) // programming error, caught by tests
+	}
+	if field == "" {
+		field = codeTable[i].Field
+	}
+	return Finding{Code: code, Severity: codeTable[i].Severity, Field: field, Message: msg}
+}
+
+// WriteCodeTableMarkdown renders the code table as a Markdown table, one section per family.
+func WriteCodeTableMarkdown(w io.Writer) error {
+	var b strings.Builder
+	family := ""
+	for _, c := range codeTable {
+		if c.Family != family {
+			if family != "" {
+				b.WriteString("\n")
+			}
+			family = c.Family
+			fmt.Fprintf(&b, "### %s\n\n", family)
+			b.WriteString("| Code | Severity | Field | Meaning | Accepted |\n|---|---|---|---|---|\n")
+		}
+		field := c.Field
+		if field == "" {
+			field = "(varies)"
+		}
+		fmt.Fprintf(&b, "| `%s` | %s | `%s` | %s | %s |\n", c.Code, c.Severity, field, mdCell(c.Meaning), mdCell(c.Accepted))
+	}
+	_, err := io.WriteString(w, b.String())
+	return err
+}
+
+// CodeTableMarkdown returns WriteCodeTableMarkdown's output as a string.
+func CodeTableMarkdown() string {
+	var b strings.Builder
+	_ = WriteCodeTableMarkdown(&b) // a strings.Builder does not fail
+	return b.String()
+}
+
+func mdCell(s string) string {
+	return strings.NewReplacer("|", `\|`, "\n", " ").Replace(s)
+}

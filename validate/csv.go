@@ -1,0 +1,384 @@
+package validate
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+)
+
+// Column is one column of the CSV batch format. The names equal the field names of the wire
+// message halovet.v1.ShipmentRecord.
+type Column struct {
+	Name     string
+	Required bool // the header must have it (values may still be empty; the rules judge them)
+	Meaning  string
+}
+
+// column ids, the index into csvColumns.
+const (
+	colKey = iota
+	colDirection
+	colCompany
+	colLicence
+	colPartner
+	colDate
+	colSubstance
+	colHS
+	colCAS
+	colFormula
+	colQuantity
+	colUnit
+	colContainers
+	colPurpose
+	colCondition
+	colComposition
+	numColumns
+)
+
+var csvColumns = [numColumns]Column{
+	colKey:         {"record_key", true, "the client's own key for the record, unique per company"},
+	colDirection:   {"direction", true, "import, export, re-export or transit"},
+	colCompany:     {"company_id", true, "registered identifier of the declaring company"},
+	colLicence:     {"licence_number", false, "number of the licence the shipment draws on"},
+	colPartner:     {"partner_country", true, "ISO 3166-1 alpha-2 code of the partner country"},
+	colDate:        {"declaration_date", true, "YYYY-MM-DD"},
+	colSubstance:   {"substance", true, "substance or blend: designation, R-number, name or CAS number"},
+	colHS:          {"declared_hs_code", false, "HS code, 6 digits or more, dots optional"},
+	colCAS:         {"declared_cas_number", false, "CAS Registry Number"},
+	colFormula:     {"declared_formula", false, "molecular formula"},
+	colQuantity:    {"quantity", true, "decimal number with a dot; the net fill per container when container_count > 0"},
+	colUnit:        {"quantity_unit", true, "kg, t, g or lb"},
+	colContainers:  {"container_count", false, "whole number of containers; 0 or empty when quantity is the total"},
+	colPurpose:     {"purpose", false, "servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other"},
+	colCondition:   {"condition", false, "virgin, used, recycled, reclaimed"},
+	colComposition: {"declared_composition", false, "identifier=percent pairs separated by \";\", e.g. HFC-125=44;HFC-143a=52;HFC-134a=4"},
+}
+
+// CSVColumns returns the columns of the CSV batch format in their usual order.
+func CSVColumns() []Column {
+	out := make([]Column, numColumns)
+	copy(out, csvColumns[:])
+	return out
+}
+
+// columnByKey maps a normalized header name to its column id.
+var columnByKey = func() map[string]int {
+	m := make(map[string]int, numColumns)
+	for i, c := range csvColumns {
+		m[enumKey(c.Name)] = i
+	}
+	return m
+}()
+
+// HeaderError says why a CSV header row was refused.
+type HeaderError struct {
+	Line      int64
+	Problem   string   // e.g. "unknown columns: qty; missing required columns: quantity"
+	Expected  []string // every accepted column, required ones first
+	Required  []string
+	Unknown   []string
+	Missing   []string
+	Duplicate []string
+}
+
+// ErrHeader is wrapped by *HeaderError.
+var ErrHeader = errors.New("invalid CSV header")
+
+func (e *HeaderError) Error() string {
+	return fmt.Sprintf("line %d: %s; required columns: %s; optional columns: %s",
+		e.Line, e.Problem, strings.Join(e.Required, ", "), strings.Join(optionalColumns(), ", "))
+}
+
+func (e *HeaderError) Unwrap() error { return ErrHeader }
+
+func requiredColumns() []string {
+	var out []string
+	for _, c := range csvColumns {
+		if c.Required {
+			out = append(out, c.Name)
+		}
+	}
+	return out
+}
+
+func optionalColumns() []string {
+	var out []string
+	for _, c := range csvColumns {
+		if !c.Required {
+			out = append(out, c.Name)
+		}
+	}
+	return out
+}
+
+// CSVReader reads the CSV batch format: UTF-8 text, comma-separated, a header row naming the
+// columns (any order, case-insensitive; spaces, hyphens and underscores in names are
+// ignored), then one record per line. Fields follow RFC 4180 quoting within one line: a field
+// that holds a comma or a quote is enclosed in double quotes and a quote inside it is doubled.
+// A field may not span lines (shipment fields never hold line breaks), so a quoting mistake
+// costs one line, never the rest of the file. Blank lines are skipped.
+type CSVReader struct {
+	sc      *lineScanner
+	cols    []int // column id of each header position
+	fields  []string
+	scratch []byte
+}
+
+// NewCSVReader reads and checks the header row. A header with unknown, duplicate or missing
+// required columns gives a *HeaderError (wrapping ErrHeader) that lists the accepted columns.
+func NewCSVReader(r io.Reader, opts ...ReaderOption) (*CSVReader, error) {
+	c := &CSVReader{sc: newLineScanner(r, opts)}
+	var line []byte
+	var err error
+	for {
+		line, err = c.sc.next()
+		if err != nil {
+			var tl errLineTooLong
+			switch {
+			case errors.Is(err, io.EOF):
+				return nil, c.headerError("the file is empty; the first line must be a header row", nil, nil, nil)
+			case errors.As(err, &tl):
+				return nil, c.headerError(fmt.Sprintf("the header line is %d bytes long, over the limit", tl.n), nil, nil, nil)
+			}
+			return nil, fmt.Errorf("reading CSV header: %w", err)
+		}
+		if !isBlank(line) {
+			break
+		}
+	}
+	if msg := checkText(line); msg != "" {
+		return nil, c.headerError(msg, nil, nil, nil)
+	}
+	names, problem := splitCSVLine(string(line), nil, &c.scratch)
+	if problem != "" {
+		return nil, c.headerError(problem, nil, nil, nil)
+	}
+	seen := [numColumns]bool{}
+	var unknown, dup, missing []string
+	c.cols = make([]int, len(names))
+	for i, n := range names {
+		id, ok := columnByKey[enumKey(strings.TrimSpace(n))]
+		if !ok {
+			unknown = append(unknown, strconv.Quote(cutText(n)))
+			c.cols[i] = -1
+			continue
+		}
+		if seen[id] {
+			dup = append(dup, csvColumns[id].Name)
+		}
+		seen[id] = true
+		c.cols[i] = id
+	}
+	for id, col := range csvColumns {
+		if col.Required && !seen[id] {
+			missing = append(missing, col.Name)
+		}
+	}
+	if len(unknown)+len(dup)+len(missing) > 0 {
+		var parts []string
+		if len(unknown) > 0 {
+			parts = append(parts, "unknown columns: "+strings.Join(unknown, ", "))
+		}
+		if len(dup) > 0 {
+			parts = append(parts, "duplicate columns: "+strings.Join(dup, ", "))
+		}
+		if len(missing) > 0 {
+			parts = append(parts, "missing required columns: "+strings.Join(missing, ", "))
+		}
+		return nil, c.headerError(strings.Join(parts, "; "), unknown, dup, missing)
+	}
+	c.fields = make([]string, 0, len(names))
+	return c, nil
+}
+
+func (c *CSVReader) headerError(problem string, unknown, dup, missing []string) *HeaderError {
+	expected := append(requiredColumns(), optionalColumns()...)
+	return &HeaderError{Line: c.sc.line, Problem: problem, Expected: expected, Required: requiredColumns(),
+		Unknown: unknown, Duplicate: dup, Missing: missing}
+}
+
+// Next returns the next record or line error; see RecordReader.
+func (c *CSVReader) Next() (Record, *LineError, error) {
+	for {
+		line, err := c.sc.next()
+		if err != nil {
+			if le, ok := c.sc.tooLongError(err); ok {
+				return Record{}, le, nil
+			}
+			return Record{}, nil, err
+		}
+		if isBlank(line) {
+			continue
+		}
+		lineNo := c.sc.line
+		if msg := checkText(line); msg != "" {
+			return Record{}, &LineError{Line: lineNo, Reason: msg}, nil
+		}
+		// One string per line; the fields are substrings of it.
+		fields, problem := splitCSVLine(string(line), c.fields[:0], &c.scratch)
+		c.fields = fields[:0]
+		if problem != "" {
+			return Record{}, &LineError{Line: lineNo, Reason: problem}, nil
+		}
+		if len(fields) != len(c.cols) {
+			return Record{}, &LineError{Line: lineNo, Reason: fmt.Sprintf("has %d fields, the header has %d; quote fields that hold commas", len(fields), len(c.cols))}, nil
+		}
+		return c.record(lineNo, fields), nil, nil
+	}
+}
+
+func (c *CSVReader) record(lineNo int64, fields []string) Record {
+	r := Record{Line: lineNo}
+	for i, raw := range fields {
+		v := strings.TrimSpace(raw)
+		switch c.cols[i] {
+		case colKey:
+			r.Key = v
+		case colDirection:
+			d, err := ParseDirection(v)
+			if err != nil {
+				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colDirection].Name, Text: cutText(v), Reason: err.Error()})
+			}
+			r.Direction = d
+		case colCompany:
+			r.CompanyID = v
+		case colLicence:
+			r.LicenceNumber = v
+		case colPartner:
+			r.PartnerCountry = v
+		case colDate:
+			r.DeclarationDate = v
+		case colSubstance:
+			r.Substance = v
+		case colHS:
+			r.HSCode = v
+		case colCAS:
+			r.CAS = v
+		case colFormula:
+			r.Formula = v
+		case colQuantity:
+			r.Quantity = v
+		case colUnit:
+			r.Unit = v
+		case colContainers:
+			n, err := parseCount(v)
+			if err != nil {
+				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colContainers].Name, Text: cutText(v), Reason: err.Error()})
+			}
+			r.ContainerCount = n
+		case colPurpose:
+			p, err := ParsePurpose(v)
+			if err != nil {
+				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colPurpose].Name, Text: cutText(v), Reason: err.Error()})
+			}
+			r.Purpose = p
+		case colCondition:
+			cd, err := ParseCondition(v)
+			if err != nil {
+				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colCondition].Name, Text: cutText(v), Reason: err.Error()})
+			}
+			r.Condition = cd
+		case colComposition:
+			shares, err := parseComposition(v)
+			if err != nil {
+				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colComposition].Name, Text: cutText(v), Reason: err.Error()})
+			}
+			r.Composition = shares
+		}
+	}
+	return r
+}
+
+// parseCount reads a container count: empty is 0, else a whole number without sign or
+// separators.
+func parseCount(s string) (int64, error) {
+	if s == "" {
+		return 0, nil
+	}
+	for i := 0; i < len(s); i++ {
+		if s[i] < '0' || s[i] > '9' {
+			if i == 0 && s[0] == '-' && len(s) > 1 {
+				continue // a negative count is read, and refused by the quantity rules
+			}
+			return 0, fmt.Errorf("container count %q is not a whole number; accepted: 0 or a whole number of containers, digits only", cutText(s))
+		}
+	}
+	n, err := strconv.ParseInt(s, 10, 64)
+	if err != nil {
+		return 0, fmt.Errorf("container count %q is out of range; accepted: 0 to %d", cutText(s), int64(maxContainers))
+	}
+	return n, nil
+}
+
+// splitCSVLine splits one line into fields (RFC 4180 quoting, no line breaks inside fields).
+// Unquoted fields and quoted fields without doubled quotes are substrings of line. It returns
+// a description of the first problem, or "".
+func splitCSVLine(line string, fields []string, scratch *[]byte) ([]string, string) {
+	i := 0
+	for n := 1; ; n++ {
+		if i < len(line) && line[i] == '"' {
+			// Quoted field.
+			j := i + 1
+			start := j
+			escaped := false
+			for {
+				k := strings.IndexByte(line[j:], '"')
+				if k < 0 {
+					return fields, fmt.Sprintf("field %d: quoted field is not closed on this line (a field may not span lines; double a quote inside a quoted field)", n)
+				}
+				j += k
+				if j+1 < len(line) && line[j+1] == '"' {
+					escaped = true
+					j += 2
+					continue
+				}
+				break
+			}
+			val := line[start:j]
+			if escaped {
+				b := (*scratch)[:0]
+				for p := 0; p < len(val); p++ {
+					b = append(b, val[p])
+					if val[p] == '"' {
+						p++ // skip the second quote of a doubled pair
+					}
+				}
+				*scratch = b
+				val = string(b)
+			}
+			fields = append(fields, val)
+			j++ // past the closing quote
+			if j == len(line) {
+				return fields, ""
+			}
+			if line[j] != ',' {
+				return fields, fmt.Sprintf("field %d: text after the closing quote (%q); a quoted field must end at a comma", n, cutText(line[j:min(j+20, len(line))]))
+			}
+			i = j + 1
+			if i == len(line) {
+				return append(fields, ""), ""
+			}
+			continue
+		}
+		// Unquoted field.
+		k := strings.IndexByte(line[i:], ',')
+		end := len(line)
+		if k >= 0 {
+			end = i + k
+		}
+		val := line[i:end]
+		if q := strings.IndexByte(val, '"'); q >= 0 {
+			return fields, fmt.Sprintf("field %d: stray quote in unquoted field %q; enclose the whole field in double quotes and double any quote inside it", n, cutText(val))
+		}
+		fields = append(fields, val)
+		if k < 0 {
+			return fields, ""
+		}
+		i = end + 1
+		if i == len(line) {
+			return append(fields, ""), ""
+		}
+	}
+}

@@ -1,0 +1,149 @@
+package validate
+
+import (
+	"cmp"
+	"crypto/sha256"
+	"encoding/hex"
+	"slices"
+	"strconv"
+	"strings"
+	"unicode/utf8"
+)
+
+// fingerprintVersion is hashed first; change it whenever the normalization below changes, so
+// that fingerprints of different versions never compare equal by accident.
+const fingerprintVersion = "halovet-record-v1"
+
+// Fingerprint returns the SHA-256 (lower-case hex) of a record's normalized content. Two
+// records with the same fingerprint declare the same shipment; the store saves it with each
+// record so that a record sent again under the same key is recognised as a replay, and the same
+// key with another fingerprint as a conflict.
+//
+// Normalization: the record key and source line are left out (they identify, they are not
+// content); surrounding spaces are trimmed everywhere; the company id keeps its case; licence
+// number and partner country are upper-cased; the substance and composition identifiers are
+// lower-cased with inner runs of spaces collapsed; the HS code keeps its digits only; the
+// quantity is written as a normalized decimal when it parses ("1250.50" = "1250.5"); the unit,
+// direction, purpose and condition are written as their canonical words; composition shares
+// are sorted by identifier. Each field is length-prefixed, so no two different field lists
+// give the same byte string.
+func Fingerprint(r *Record) string {
+	var stack [512]byte
+	b := append(stack[:0], fingerprintVersion...)
+	b = fpField(b, strings.TrimSpace(r.CompanyID))
+	b = fpField(b, r.Direction.String())
+	b = fpUpper(b, r.LicenceNumber)
+	b = fpUpper(b, r.PartnerCountry)
+	b = fpField(b, strings.TrimSpace(r.DeclarationDate))
+	b = fpName(b, r.Substance)
+	b = fpDigits(b, r.HSCode)
+	b = fpField(b, strings.TrimSpace(r.CAS))
+	b = fpField(b, strings.TrimSpace(r.Formula))
+	if d, err := ParseDecimal(r.Quantity); err == nil {
+		var nb [48]byte
+		nd := d.appendNormalized(nb[:0])
+		b = append(b, 'n')
+		b = fpLen(b, len(nd))
+		b = append(b, nd...)
+	} else {
+		b = append(b, 't')
+		b = fpField(b, strings.TrimSpace(r.Quantity))
+	}
+	if u, err := ParseUnit(r.Unit); err == nil {
+		b = fpField(b, u.String())
+	} else {
+		b = fpField(b, strings.ToLower(strings.TrimSpace(r.Unit)))
+	}
+	b = strconv.AppendInt(b, r.ContainerCount, 10)
+	b = append(b, 0)
+	b = fpField(b, r.Purpose.String())
+	b = fpField(b, r.Condition.String())
+	if len(r.Composition) > 0 {
+		shares := make([]DeclaredShare, len(r.Composition))
+		for i, s := range r.Composition {
+			shares[i] = DeclaredShare{Identifier: normName(s.Identifier), MassPct: s.MassPct}
+		}
+		slices.SortFunc(shares, func(a, b DeclaredShare) int {
+			if c := strings.Compare(a.Identifier, b.Identifier); c != 0 {
+				return c
+			}
+			return cmp.Compare(a.MassPct, b.MassPct)
+		})
+		b = strconv.AppendInt(b, int64(len(shares)), 10)
+		for _, s := range shares {
+			b = fpField(b, s.Identifier)
+			b = strconv.AppendFloat(b, s.MassPct, 'g', -1, 64)
+			b = append(b, 0)
+		}
+	}
+	b = append(b, '|')
+	for _, u := range r.Unreadable {
+		b = fpField(b, u.Field)
+		b = fpField(b, u.Text)
+	}
+	sum := sha256.Sum256(b)
+	return hex.EncodeToString(sum[:])
+}
+
+func fpLen(b []byte, n int) []byte {
+	b = strconv.AppendInt(b, int64(n), 10)
+	return append(b, ':')
+}
+
+func fpField(b []byte, s string) []byte {
+	b = fpLen(b, len(s))
+	return append(b, s...)
+}
+
+func fpUpper(b []byte, s string) []byte {
+	s = strings.TrimSpace(s)
+	b = fpLen(b, len(s))
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		if c >= 'a' && c <= 'z' {
+			c -= 'a' - 'A'
+		}
+		b = append(b, c)
+	}
+	return b
+}
+
+func fpDigits(b []byte, s string) []byte {
+	n := 0
+	for i := 0; i < len(s); i++ {
+		if s[i] >= '0' && s[i] <= '9' {
+			n++
+		}
+	}
+	b = fpLen(b, n)
+	for i := 0; i < len(s); i++ {
+		if s[i] >= '0' && s[i] <= '9' {
+			b = append(b, s[i])
+		}
+	}
+	return b
+}
+
+func fpName(b []byte, s string) []byte {
+	return fpField(b, normName(s))
+}
+
+// normName lower-cases s, trims it and collapses inner runs of white space to one space. It
+// returns s itself when nothing changes.
+func normName(s string) string {
+	s = strings.TrimSpace(s)
+	clean := true
+	prevSpace := false
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		if c >= utf8.RuneSelf || (c >= 'A' && c <= 'Z') || c == '\t' || (c == ' ' && prevSpace) {
+			clean = false
+			break
+		}
+		prevSpace = c == ' '
+	}
+	if clean {
+		return s
+	}
+	return strings.Join(strings.Fields(strings.ToLower(s)), " ")
+}
