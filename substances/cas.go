@@ -48,7 +48,7 @@ func ParseCAS(s string) (string, error) {
 		return "", fmt.Errorf("%w: %q has %d hyphen-separated parts; %s", ErrCASFormat, s, len(parts), casAccepts)
 	}
 	for _, part := range []string{first, second, check} {
-		if part == "" || !allDigits(part) {
+		if part == "" || !allASCIIDigits(part) {
 			return "", fmt.Errorf("%w: %q: %s", ErrCASFormat, s, casAccepts)
 		}
 	}
@@ -73,7 +73,7 @@ func ParseCAS(s string) (string, error) {
 // (starting at 1), summed, mod 10 (published CAS method, CONTROL_RULES.md §8).
 func CASCheckDigit(body string) (int, error) {
 	digits := strings.ReplaceAll(body, "-", "")
-	if len(digits) < 4 || len(digits) > 9 || !allDigits(digits) {
+	if len(digits) < 4 || len(digits) > 9 || !allASCIIDigits(digits) {
 		return 0, fmt.Errorf("%w: check-digit body %q: expected the 4-9 digits before the check digit, e.g. 75-45 or 7545", ErrCASFormat, body)
 	}
 	sum := 0
@@ -84,7 +84,7 @@ func CASCheckDigit(body string) (int, error) {
 	return sum % 10, nil
 }
 
-func allDigits(s string) bool {
+func allASCIIDigits(s string) bool {
 	for i := 0; i < len(s); i++ {
 		if s[i] < '0' || s[i] > '9' {
 			return false

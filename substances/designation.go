@@ -198,27 +198,27 @@ func (n rNumber) String() string {
 	return b.String()
 }
 
-func isDigit(c byte) bool { return c >= '0' && c <= '9' }
+func isASCIIDigit(c byte) bool { return c >= '0' && c <= '9' }
 
-func isLetter(c byte) bool { return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') }
+func isASCIILetter(c byte) bool { return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') }
 
 // parseRNumber splits the number part ("134a", "C318", "43-10mee", "22B1", "1234ze(E)").
 func parseRNumber(input, rest string) (rNumber, error) {
 	var n rNumber
 	i := 0
 	switch {
-	case len(rest) > 1 && (rest[0] == 'C' || rest[0] == 'c') && (isDigit(rest[1]) || (rest[1] == '-' && len(rest) > 2 && isDigit(rest[2]))):
+	case len(rest) > 1 && (rest[0] == 'C' || rest[0] == 'c') && (isASCIIDigit(rest[1]) || (rest[1] == '-' && len(rest) > 2 && isASCIIDigit(rest[2]))):
 		n.cyclic = true
 		i = 1
 		if rest[1] == '-' {
 			i = 2
 		}
-	case len(rest) > 1 && (rest[0] == 'E' || rest[0] == 'e') && isDigit(rest[1]):
+	case len(rest) > 1 && (rest[0] == 'E' || rest[0] == 'e') && isASCIIDigit(rest[1]):
 		n.series = seriesEther
 		i = 1
 	}
 	j := i
-	for j < len(rest) && (isDigit(rest[j]) || (rest[j] == '-' && j+1 < len(rest) && isDigit(rest[j+1]) && j > i)) {
+	for j < len(rest) && (isASCIIDigit(rest[j]) || (rest[j] == '-' && j+1 < len(rest) && isASCIIDigit(rest[j+1]) && j > i)) {
 		j++
 	}
 	n.digits = rest[i:j]
@@ -230,7 +230,7 @@ func parseRNumber(input, rest string) (rNumber, error) {
 		return n, designationError(input, "number %q starts with 0; write it without leading zeros (R-22, not R-022)", n.digits)
 	}
 	if n.series == seriesEther {
-		if !lettersOnly(tail) || len(tail) > 3 {
+		if !allASCIILetters(tail) || len(tail) > 3 {
 			return n, designationError(input, "ether number %q has an unexpected suffix %q", n.digits, tail)
 		}
 		n.letters = strings.ToLower(tail)
@@ -272,9 +272,9 @@ func parseRNumber(input, rest string) (rNumber, error) {
 	return n, n.parseSuffix(input, tail)
 }
 
-func lettersOnly(s string) bool {
+func allASCIILetters(s string) bool {
 	for i := 0; i < len(s); i++ {
-		if !isLetter(s[i]) {
+		if !isASCIILetter(s[i]) {
 			return false
 		}
 	}
@@ -284,7 +284,7 @@ func lettersOnly(s string) bool {
 // blendNumber accepts an optional single composition letter after a 4xx or 5xx number.
 func blendNumber(input string, n rNumber, tail string) (rNumber, error) {
 	n.series = seriesBlend
-	if len(tail) > 1 || !lettersOnly(tail) {
+	if len(tail) > 1 || !allASCIILetters(tail) {
 		return n, designationError(input, "blend number %s takes at most one composition letter (R-404A, R-507), not %q", n.digits, tail)
 	}
 	n.letters = strings.ToUpper(tail)
@@ -300,7 +300,7 @@ func serialNumber(input string, n rNumber, tail string) (rNumber, error) {
 		n.series = seriesInorganic
 		n.letters = strings.ToUpper(tail)
 	}
-	if len(tail) > 2 || !lettersOnly(tail) {
+	if len(tail) > 2 || !allASCIILetters(tail) {
 		return n, designationError(input, "number %s takes at most two letters (R-600a), not %q", n.digits, tail)
 	}
 	return n, nil
@@ -313,9 +313,9 @@ func (n *rNumber) parseSuffix(input, tail string) error {
 	for i := 0; i < len(tail); {
 		c := tail[i]
 		switch {
-		case (c == 'B' || c == 'b' || c == 'I' || c == 'i') && i+1 < len(tail) && isDigit(tail[i+1]):
+		case (c == 'B' || c == 'b' || c == 'I' || c == 'i') && i+1 < len(tail) && isASCIIDigit(tail[i+1]):
 			j := i + 1
-			for j < len(tail) && isDigit(tail[j]) {
+			for j < len(tail) && isASCIIDigit(tail[j]) {
 				j++
 			}
 			v, err := strconv.Atoi(tail[i+1 : j])
@@ -338,7 +338,7 @@ func (n *rNumber) parseSuffix(input, tail string) error {
 			}
 			n.stereo = st[1:2]
 			i = len(tail)
-		case isLetter(c):
+		case isASCIILetter(c):
 			if len(n.letters) >= 4 {
 				return designationError(input, "too many isomer letters in %q", tail)
 			}
@@ -424,7 +424,7 @@ func (n rNumber) checkIsomer(input string, f Formula) error {
 	return nil
 }
 
-func checkSuffixIn(input, digits, letters string, f Formula, isos []isomer) error {
+func checkSuffixIn(input, digits, letters string, f Formula, isos []chainIsomer) error {
 	names := make([]string, 0, len(isos))
 	for _, iso := range isos {
 		if iso.suffix == letters && !iso.ambiguous {
@@ -486,7 +486,7 @@ func prefixFits(prefix, cls string) bool {
 // CBrF3, "1211" -> CBrClF2, "2402" -> C2Br2F4); trailing digits may be omitted when they are
 // 0 (a missing iodine digit, "104" for CCl4). Errors wrap ErrDesignation.
 func HalonFormula(number string) (Formula, error) {
-	if len(number) < 3 || len(number) > 5 || !allDigits(number) {
+	if len(number) < 3 || len(number) > 5 || !allASCIIDigits(number) {
 		return nil, designationError(number, "a halon number has 3 to 5 digits counting C, F, Cl, Br and I atoms (halon-1301)")
 	}
 	var k [5]int
@@ -548,12 +548,12 @@ func HalonNumber(f Formula) (string, error) {
 // left is read as a straight chain with that many C=C double bonds; rings cannot be seen in
 // a formula and are not numbered here.
 func NumberForFormula(f Formula) (string, error) {
-	digits, hal, _, err := numberParts(f)
+	digits, hal, _, err := rNumberParts(f)
 	return digits + hal, err
 }
 
-// numberParts computes the digits, the bromine/iodine suffix and the double bond count.
-func numberParts(f Formula) (digits, hal string, dbl int, err error) {
+// rNumberParts computes the digits, the bromine/iodine suffix and the double bond count.
+func rNumberParts(f Formula) (digits, hal string, dbl int, err error) {
 	name := f.Hill()
 	for el, n := range f {
 		if el != "C" && el != "H" && el != "F" && el != "Cl" && el != "Br" && el != "I" {
@@ -616,10 +616,10 @@ func EncodeDesignation(structure string) (string, error) {
 	if err != nil {
 		return "", err
 	}
-	if err := checkValence(structure, chain, orders); err != nil {
+	if err := checkChainValence(structure, chain, orders); err != nil {
 		return "", err
 	}
-	digits, hal, _, err := numberParts(chainFormula(chain))
+	digits, hal, _, err := rNumberParts(chainFormula(chain))
 	if err != nil {
 		return "", err
 	}
@@ -630,8 +630,8 @@ func EncodeDesignation(structure string) (string, error) {
 	return "R-" + digits + suffix + hal, nil
 }
 
-// isomer is one structural isomer of an ethane or propane formula.
-type isomer struct {
+// chainIsomer is one structural isomer of an ethane or propane formula.
+type chainIsomer struct {
 	centre    chainCarbon    // propane only: atoms on the central carbon
 	ends      [2]chainCarbon // atoms on the two end carbons, smaller first
 	diff      float64        // |mass(end 1) - mass(end 2)|, the ISO 817 symmetry measure
@@ -648,8 +648,8 @@ func formulaSubstituents(f Formula) chainCarbon {
 	return s
 }
 
-// splits lists every way to take k atoms from the multiset total.
-func splits(total chainCarbon, k int) []chainCarbon {
+// substSplits lists every way to take k atoms from the multiset total.
+func substSplits(total chainCarbon, k int) []chainCarbon {
 	var out []chainCarbon
 	var cur chainCarbon
 	var rec func(kind, left int)
@@ -670,14 +670,14 @@ func splits(total chainCarbon, k int) []chainCarbon {
 	return out
 }
 
-func minus(a, b chainCarbon) chainCarbon {
+func substMinus(a, b chainCarbon) chainCarbon {
 	for k := range a {
 		a[k] -= b[k]
 	}
 	return a
 }
 
-func less(a, b chainCarbon) bool {
+func substLess(a, b chainCarbon) bool {
 	for k := range a {
 		if a[k] != b[k] {
 			return a[k] < b[k]
@@ -688,30 +688,30 @@ func less(a, b chainCarbon) bool {
 
 // endPairs lists the distinct unordered ways to put six atoms on two end carbons, three
 // each, ordered from the most to the least symmetric (smallest mass difference first).
-func endPairs(six chainCarbon) []isomer {
-	var out []isomer
-	for _, a := range splits(six, 3) {
-		b := minus(six, a)
-		if less(b, a) {
+func endPairs(six chainCarbon) []chainIsomer {
+	var out []chainIsomer
+	for _, a := range substSplits(six, 3) {
+		b := substMinus(six, a)
+		if substLess(b, a) {
 			continue // the same pair seen from the other end
 		}
-		out = append(out, isomer{ends: [2]chainCarbon{a, b}, diff: abs(a.mass() - b.mass())})
+		out = append(out, chainIsomer{ends: [2]chainCarbon{a, b}, diff: absFloat(a.mass() - b.mass())})
 	}
-	// Stable insertion sort: splits is deterministic and the lists are short.
+	// Stable insertion sort: substSplits is deterministic and the lists are short.
 	for i := 1; i < len(out); i++ {
-		for j := i; j > 0 && out[j].diff < out[j-1].diff && !massEqual(out[j].diff, out[j-1].diff); j-- {
+		for j := i; j > 0 && out[j].diff < out[j-1].diff && !massClose(out[j].diff, out[j-1].diff); j-- {
 			out[j], out[j-1] = out[j-1], out[j]
 		}
 	}
 	for i := 1; i < len(out); i++ {
-		if massEqual(out[i].diff, out[i-1].diff) {
+		if massClose(out[i].diff, out[i-1].diff) {
 			out[i].ambiguous, out[i-1].ambiguous = true, true
 		}
 	}
 	return out
 }
 
-func abs(x float64) float64 {
+func absFloat(x float64) float64 {
 	if x < 0 {
 		return -x
 	}
@@ -721,7 +721,7 @@ func abs(x float64) float64 {
 // ethaneIsomers lists the isomers of a saturated ethane with the given six substituents:
 // the most symmetric takes no letter, then a, b, c ... by increasing asymmetry (ISO 817,
 // CONTROL_RULES.md §7 [V]).
-func ethaneIsomers(subs chainCarbon) ([]isomer, error) {
+func ethaneIsomers(subs chainCarbon) ([]chainIsomer, error) {
 	if subs.total() != 6 {
 		return nil, fmt.Errorf("an ethane carries 6 atoms besides carbon, not %d", subs.total())
 	}
@@ -749,14 +749,14 @@ var propaneCentre = map[chainCarbon]byte{
 // it reproduces all 8 propane isomers in the Protocol annexes (225ca, 225cb, 227ea, 236cb,
 // 236ea, 236fa, 245ca, 245fa), which the tests check. Isomers with Br or I on the central
 // carbon get no letters.
-func propaneIsomers(subs chainCarbon) ([]isomer, error) {
+func propaneIsomers(subs chainCarbon) ([]chainIsomer, error) {
 	if subs.total() != 8 {
 		return nil, fmt.Errorf("a propane carries 8 atoms besides carbon, not %d", subs.total())
 	}
-	var out []isomer
-	for _, centre := range splits(subs, 2) {
+	var out []chainIsomer
+	for _, centre := range substSplits(subs, 2) {
 		first, ok := propaneCentre[centre]
-		for i, iso := range endPairs(minus(subs, centre)) {
+		for i, iso := range endPairs(substMinus(subs, centre)) {
 			iso.centre = centre
 			if ok {
 				iso.suffix = string([]byte{first, byte('a' + i)})
@@ -782,7 +782,7 @@ func IsomerSuffix(structure string) (string, error) {
 	if err != nil {
 		return "", err
 	}
-	if err := checkValence(structure, chain, orders); err != nil {
+	if err := checkChainValence(structure, chain, orders); err != nil {
 		return "", err
 	}
 	return chainSuffix(structure, chain, orders)
@@ -797,24 +797,24 @@ func chainSuffix(structure string, chain []chainCarbon, orders []int) (string, e
 		if o != 1 {
 			// An ethene whose four atoms split only one way over two carbons has one
 			// structural isomer and no letter (R-1114, R-1140, R-1150).
-			if len(chain) == 2 && len(orders) == 1 && len(splits(sumChain(chain), 2)) <= 2 {
+			if len(chain) == 2 && len(orders) == 1 && len(substSplits(chainTotal(chain), 2)) <= 2 {
 				return "", nil
 			}
 			return "", ruleErr("isomer letters of olefins (R-1234yf, R-1234ze) follow rules not implemented here")
 		}
 	}
-	var isos []isomer
+	var isos []chainIsomer
 	var err error
 	switch len(chain) {
 	case 1:
 		return "", nil
 	case 2:
-		isos, err = ethaneIsomers(sumChain(chain))
+		isos, err = ethaneIsomers(chainTotal(chain))
 	case 3:
-		if _, ok := propaneCentre[chain[1]]; !ok && len(splits(sumChain(chain), 2)) > 1 {
+		if _, ok := propaneCentre[chain[1]]; !ok && len(substSplits(chainTotal(chain), 2)) > 1 {
 			return "", ruleErr("the propane letters are defined for H, F and Cl on the central carbon only")
 		}
-		isos, err = propaneIsomers(sumChain(chain))
+		isos, err = propaneIsomers(chainTotal(chain))
 	default:
 		return "", ruleErr("isomer letters for chains of %d carbons (R-365mfc, R-43-10mee) are not computed here", len(chain))
 	}
@@ -822,7 +822,7 @@ func chainSuffix(structure string, chain []chainCarbon, orders []int) (string, e
 		return "", ruleErr("%v", err)
 	}
 	a, b := chain[0], chain[len(chain)-1]
-	if less(b, a) {
+	if substLess(b, a) {
 		a, b = b, a
 	}
 	for _, iso := range isos {
@@ -836,7 +836,7 @@ func chainSuffix(structure string, chain []chainCarbon, orders []int) (string, e
 	return "", ruleErr("structure not found among the isomers of its formula") // not reached for valid chains
 }
 
-func sumChain(chain []chainCarbon) chainCarbon {
+func chainTotal(chain []chainCarbon) chainCarbon {
 	var s chainCarbon
 	for _, c := range chain {
 		for k, n := range c {

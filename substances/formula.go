@@ -38,23 +38,23 @@ func (e *FormulaError) Error() string {
 func (e *FormulaError) Unwrap() error { return ErrFormula }
 
 // formulaAccepts is appended to syntax errors so that a caller learns the grammar.
-const formulaAccepts = "accepted: element symbols (C, H, F, Cl, Br, I, ...) each followed by an optional count 1-999, groups in parentheses with an optional count, spaces, '-' and '=' between groups, e.g. CHClF2, CF3CH2F, CH2=CFCF3, (CF3)2CFH"
+const formulaAccepts = "accepted: element symbols (C, H, F, Cl, Br, I, ...) each followed by an optional count, groups in parentheses with an optional count, spaces, '-' and '=' between groups, e.g. CHClF2, CF3CH2F, CH2=CFCF3, (CF3)2CFH"
 
 // Limits that keep parsing of hostile input cheap and the arithmetic far from overflow.
 const (
-	maxFormulaCount = 999       // largest count written after one symbol or group
-	maxFormulaAtoms = 1_000_000 // largest total count of one element
-	maxFormulaDepth = 8         // deepest parenthesis nesting
+	maxFormulaAtoms = 1_000_000       // largest total count of one element
+	maxFormulaCount = maxFormulaAtoms // largest count after one symbol or group: any Hill output re-parses
+	maxFormulaDepth = 8               // deepest parenthesis nesting
 )
 
-// atomicWeights are the IUPAC abridged standard atomic weights listed in DOMAIN.md §3.
-var atomicWeights = map[string]float64{
+// iupacWeights are the IUPAC abridged standard atomic weights listed in DOMAIN.md §3.
+var iupacWeights = map[string]float64{
 	"H": 1.008, "C": 12.011, "N": 14.007, "O": 15.999, "F": 18.998,
 	"S": 32.06, "Cl": 35.45, "Br": 79.904, "I": 126.90,
 }
 
-// elementSymbols are the symbols of the 118 named elements (IUPAC periodic table, from memory).
-var elementSymbols = func() map[string]bool {
+// knownElements are the symbols of the 118 named elements (IUPAC periodic table, from memory).
+var knownElements = func() map[string]bool {
 	const all = "H He Li Be B C N O F Ne Na Mg Al Si P S Cl Ar K Ca Sc Ti V Cr Mn Fe Co Ni Cu Zn " +
 		"Ga Ge As Se Br Kr Rb Sr Y Zr Nb Mo Tc Ru Rh Pd Ag Cd In Sn Sb Te I Xe Cs Ba La Ce Pr Nd " +
 		"Pm Sm Eu Gd Tb Dy Ho Er Tm Yb Lu Hf Ta W Re Os Ir Pt Au Hg Tl Pb Bi Po At Rn Fr Ra Ac Th " +
@@ -186,16 +186,16 @@ func (p *formulaParser) symbol() (string, error) {
 	start := p.pos
 	if p.pos+1 < len(p.in) && p.in[p.pos+1] >= 'a' && p.in[p.pos+1] <= 'z' {
 		two := p.in[p.pos : p.pos+2]
-		if elementSymbols[two] {
+		if knownElements[two] {
 			p.pos += 2
 			return two, nil
 		}
-		if !elementSymbols[two[:1]] {
+		if !knownElements[two[:1]] {
 			return "", p.fail(start+1, fmt.Sprintf("unknown element %q; %s", two, formulaAccepts))
 		}
 	}
 	one := p.in[p.pos : p.pos+1]
-	if !elementSymbols[one] {
+	if !knownElements[one] {
 		return "", p.fail(start+1, fmt.Sprintf("unknown element %q; %s", one, formulaAccepts))
 	}
 	p.pos++
@@ -276,7 +276,7 @@ func (f Formula) String() string { return f.Hill() }
 func (f Formula) MolarMass() (float64, error) {
 	total := 0.0
 	atoms := 0
-	for _, el := range sortedElements(f) {
+	for _, el := range formulaElements(f) {
 		n := f[el]
 		if n < 0 {
 			return 0, fmt.Errorf("%w: element %s has a negative count %d", ErrFormula, el, n)
@@ -284,7 +284,7 @@ func (f Formula) MolarMass() (float64, error) {
 		if n == 0 {
 			continue
 		}
-		w, ok := atomicWeights[el]
+		w, ok := iupacWeights[el]
 		if !ok {
 			return 0, fmt.Errorf("%w: %s (weights are carried for H, C, N, O, F, S, Cl, Br, I)", ErrNoAtomicWeight, el)
 		}
@@ -315,7 +315,7 @@ func (f Formula) Equal(g Formula) bool {
 // Count returns the number of atoms of element el (0 when absent).
 func (f Formula) Count(el string) int { return f[el] }
 
-func sortedElements(f Formula) []string {
+func formulaElements(f Formula) []string {
 	els := make([]string, 0, len(f))
 	for el := range f {
 		els = append(els, el)
@@ -352,7 +352,7 @@ func (c chainCarbon) total() int {
 func (c chainCarbon) mass() float64 {
 	m := 0.0
 	for k, n := range c {
-		m += atomicWeights[substituentKinds[k]] * float64(n)
+		m += iupacWeights[substituentKinds[k]] * float64(n)
 	}
 	return m
 }
@@ -363,7 +363,7 @@ const chainAccepts = "accepted: a straight chain written carbon by carbon, each 
 // parseChain reads a condensed structural formula of a straight carbon chain ("CH2FCF3",
 // "CF3CF=CH2") into its carbons and the order of each carbon-carbon bond (1 or 2; len(chain)-1
 // of them). Branches, rings and elements other than C, H, F, Cl, Br and I are rejected;
-// valences are checked by checkValence.
+// valences are checked by checkChainValence.
 func parseChain(s string) ([]chainCarbon, []int, error) {
 	fail := func(pos int, msg string) error { return &FormulaError{Input: s, Pos: pos, Msg: msg} }
 	var chain []chainCarbon
@@ -440,8 +440,8 @@ func parseChain(s string) ([]chainCarbon, []int, error) {
 	return chain, orders, nil
 }
 
-// checkValence verifies that every carbon of a chain has four bonds.
-func checkValence(s string, chain []chainCarbon, orders []int) error {
+// checkChainValence verifies that every carbon of a chain has four bonds.
+func checkChainValence(s string, chain []chainCarbon, orders []int) error {
 	for i, c := range chain {
 		want := 4
 		if i > 0 {
@@ -470,5 +470,5 @@ func chainFormula(chain []chainCarbon) Formula {
 	return f
 }
 
-// massEqual compares two sums of atomic weights.
-func massEqual(a, b float64) bool { return math.Abs(a-b) < 1e-6 }
+// massClose compares two sums of atomic weights.
+func massClose(a, b float64) bool { return math.Abs(a-b) < 1e-6 }
