@@ -121,10 +121,11 @@ func (e *IdentifierError) Error() string {
 		return fmt.Sprintf("%s: %q is ambiguous, it may mean %s; give the designation or CAS number", e.Field, e.Identifier, strings.Join(names, ", "))
 	}
 	msg := fmt.Sprintf("%s: %q matches no catalogue entry", e.Field, e.Identifier)
+	if n := e.Resolution.Note; n != "" && !strings.HasPrefix(n, "no catalogue entry has") {
+		msg += " (" + n + ")"
+	}
 	if len(e.Resolution.Suggestions) > 0 {
 		msg += "; did you mean " + strings.Join(e.Resolution.Suggestions, ", ") + "?"
-	} else if e.Resolution.Note != "" {
-		msg += " (" + e.Resolution.Note + ")"
 	}
 	return msg
 }
@@ -238,11 +239,10 @@ func mixtureBase(designation string, kind Kind, class string, comps []compData) 
 		var n22, n17 string
 		e.HS2022, n22 = MixtureHS2022(shares)
 		e.HS2017, n17 = MixtureHS2017(shares)
-		if n22 != "" {
-			notes = append(notes, "HS 2022: "+n22)
-		}
-		if n17 != "" {
-			notes = append(notes, "HS 2017: "+n17)
+		for _, n := range []string{n22, n17} {
+			if n != "" {
+				notes = append(notes, n)
+			}
 		}
 		e.HSNote = strings.Join(notes, "; ")
 	}
@@ -264,11 +264,16 @@ func substanceHS(e *Evaluation, s *Substance) {
 	}{{HS2022, s.HS2022}, {HS2017, s.HS2017}} {
 		for _, code := range ed.codes {
 			if sh, ok := LookupHS(ed.ed, code); ok && sh.Shared {
-				notes = append(notes, fmt.Sprintf("%s %s also covers substances that are not controlled: declare the designation or CAS number with it", ed.ed, code))
+				notes = append(notes, fmt.Sprintf("%s %s also covers substances that are not controlled: declare the designation or CAS number with it", hsEditionLabel(ed.ed), code))
 			}
 		}
 	}
 	e.HSNote = strings.Join(notes, "; ")
+}
+
+// hsEditionLabel writes an edition as people do: "HS 2022".
+func hsEditionLabel(ed HSEdition) string {
+	return strings.Replace(string(ed), "HS", "HS ", 1)
 }
 
 // prepareEvaluations caches the mass-independent figures of every substance and blend.

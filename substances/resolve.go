@@ -152,6 +152,9 @@ func (c *Catalogue) Resolve(identifier string) Resolution {
 	if i, ok := c.lookupName(s); ok {
 		return c.hits[i].res
 	}
+	if len(s) > maxIdentifierLen {
+		return Resolution{Note: fmt.Sprintf("identifier of %d bytes is longer than the %d accepted; give a designation, CAS number, formula or HS code", len(s), maxIdentifierLen)}
+	}
 	if looksLikeCAS(s) {
 		return c.resolveCAS(s)
 	}
@@ -173,6 +176,10 @@ func (c *Catalogue) Resolve(identifier string) Resolution {
 	}
 	return c.unknown(s)
 }
+
+// maxIdentifierLen bounds the identifiers Resolve parses; the longest catalogue names are
+// about 60 bytes.
+const maxIdentifierLen = 200
 
 // looksLikeCAS reports whether s has the CAS layout digits-digits-digit.
 func looksLikeCAS(s string) bool {
@@ -349,11 +356,9 @@ func (c *Catalogue) resolveDecoded(s string, d Designation) Resolution {
 
 // unknown answers an identifier that matches nothing, with suggestions.
 func (c *Catalogue) unknown(s string) Resolution {
-	r := Resolution{Suggestions: c.suggestions(s)}
+	r := Resolution{Suggestions: c.suggestions(s), Note: "no catalogue entry has this name, number or formula"}
 	if len(r.Suggestions) > 0 {
-		r.Note = fmt.Sprintf("no catalogue entry matches %q; see the suggestions", s)
-	} else {
-		r.Note = fmt.Sprintf("no catalogue entry matches %q", s)
+		r.Note += "; see the suggestions"
 	}
 	return r
 }

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"strconv"
 	"strings"
@@ -69,16 +70,19 @@ const compositionTolerance = 0.01
 // ASHRAE 34 rule decodes gives the same formula, HS subheadings exist, each value names its
 // source, and each blend's components exist and sum to 100 ± 0.01 %. Errors are *SeedError
 // values naming the file, line and field.
-func Seed() ([]Substance, []Blend, error) {
-	sources, err := readSeedSources()
+func Seed() ([]Substance, []Blend, error) { return seedFrom(seedFiles) }
+
+// seedFrom reads the seed files from fsys.
+func seedFrom(fsys fs.FS) ([]Substance, []Blend, error) {
+	sources, err := readSeedSources(fsys)
 	if err != nil {
 		return nil, nil, err
 	}
-	annex, err := readSeedSubstances(seedAnnexFile, sources, true)
+	annex, err := readSeedSubstances(fsys, seedAnnexFile, sources, true)
 	if err != nil {
 		return nil, nil, err
 	}
-	others, err := readSeedSubstances(seedComponentsFile, sources, false)
+	others, err := readSeedSubstances(fsys, seedComponentsFile, sources, false)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -87,7 +91,7 @@ func Seed() ([]Substance, []Blend, error) {
 	for _, s := range subs {
 		known[s.Designation] = true
 	}
-	blends, err := readSeedBlends(seedBlendsFile, sources, known)
+	blends, err := readSeedBlends(fsys, seedBlendsFile, sources, known)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -102,8 +106,8 @@ type seedTable struct {
 	rec  []string
 }
 
-func openSeedTable(file string, want []string) (*seedTable, error) {
-	f, err := seedFiles.Open(file)
+func openSeedTable(fsys fs.FS, file string, want []string) (*seedTable, error) {
+	f, err := fsys.Open(file)
 	if err != nil {
 		return nil, &SeedError{File: file, Field: "-", Err: err}
 	}
@@ -200,8 +204,8 @@ func (t *seedTable) source(field, srcField string, sources map[string]string) (s
 	return strings.Join(cites, " + "), nil
 }
 
-func readSeedSources() (map[string]string, error) {
-	t, err := openSeedTable(seedSourcesFile, []string{"code", "citation"})
+func readSeedSources(fsys fs.FS) (map[string]string, error) {
+	t, err := openSeedTable(fsys, seedSourcesFile, []string{"code", "citation"})
 	if err != nil {
 		return nil, err
 	}
@@ -294,8 +298,8 @@ func mpGWPGroup(g Group) bool {
 	return g == GroupAI || g == GroupCI || g == GroupFI || g == GroupFII
 }
 
-func readSeedSubstances(file string, sources map[string]string, annex bool) ([]Substance, error) {
-	t, err := openSeedTable(file, substanceColumns)
+func readSeedSubstances(fsys fs.FS, file string, sources map[string]string, annex bool) ([]Substance, error) {
+	t, err := openSeedTable(fsys, file, substanceColumns)
 	if err != nil {
 		return nil, err
 	}
@@ -562,8 +566,8 @@ func sameIsomer(a, b string) bool {
 	return strip(a) == strip(b)
 }
 
-func readSeedBlends(file string, sources map[string]string, known map[string]bool) ([]Blend, error) {
-	t, err := openSeedTable(file, blendColumns)
+func readSeedBlends(fsys fs.FS, file string, sources map[string]string, known map[string]bool) ([]Blend, error) {
+	t, err := openSeedTable(fsys, file, blendColumns)
 	if err != nil {
 		return nil, err
 	}
