@@ -63,7 +63,7 @@ func TestResolve(t *testing.T) {
 		{id: "HCFC-132b", unique: "HCFC-132", match: MatchDecodedNumber},
 		{id: "HBFC-123B2", unique: "HBFC-123B2", match: MatchDesignation},
 		{id: "R-1234ze", unique: "HFO-1234ze(E)", match: MatchDecodedNumber, noteHas: "stereoisomer"},
-		{id: "R-140", noteHas: "only other isomers"},  // 1,1,2-trichloroethane is not controlled (Annex B footnote)
+		{id: "R-140", noteHas: "only other isomers"},     // 1,1,2-trichloroethane is not controlled (Annex B footnote)
 		{id: "HFC-245cb", noteHas: "only other isomers"}, // not an Annex F substance
 		{id: "halon 1202", noteHas: "CBr2F2"},
 		// HS codes never prove identity. source: CONTROL_RULES.md §6
