@@ -12,8 +12,8 @@ var ErrDesignation = errors.New("invalid designation")
 
 // ErrNotSingleCompound is wrapped when a well-formed designation names something whose
 // formula the numbering does not encode: a 400-series (zeotropic) or 500-series (azeotropic)
-// blend, a 600-series organic or 700-series inorganic compound, or an ether (R-E170). Such
-// names are resolved by looking them up.
+// blend, a 600-series organic or an inorganic compound (700 plus molar mass, so 7xx to 9xx),
+// or an ether (R-E170). Such names are resolved by looking them up.
 var ErrNotSingleCompound = errors.New("designation is not decodable to a single compound formula")
 
 // ErrIsomerRule is wrapped when an isomer suffix is asked for a structure the implemented
@@ -55,7 +55,7 @@ func designationError(input, format string, args ...any) error {
 // marks a ring. Impossible numbers (negative chlorine, isomer letters that no isomer of the
 // formula carries, a class prefix that does not fit the formula such as "HFC-22") are
 // rejected with an error wrapping ErrDesignation that says why. Blends (4xx, 5xx), 6xx and
-// 7xx numbers and ethers return the Designation with Prefix and Number filled, a nil Formula
+// 7xx-9xx numbers and ethers return the Designation with Prefix and Number filled, a nil Formula
 // and an error wrapping ErrNotSingleCompound.
 func ParseDesignation(s string) (Designation, error) {
 	in := strings.TrimSpace(s)
@@ -154,7 +154,7 @@ func (s numberSeries) what() string {
 	case seriesOrganic:
 		return "a 600-series number (miscellaneous organic compounds, numbered serially)"
 	case seriesInorganic:
-		return "a 700-series number (inorganic compounds, 700 plus molar mass)"
+		return "an inorganic compound number (700 plus molar mass)"
 	case seriesEther:
 		return "an ether number (E prefix), which this decoder does not cover"
 	}
@@ -247,10 +247,10 @@ func parseRNumber(input, rest string) (rNumber, error) {
 			switch lead := n.digits[0]; {
 			case lead == '4' || lead == '5':
 				return blendNumber(input, n, tail)
-			case lead == '6' || lead == '7':
+			case lead >= '6':
+				// 600 series organics; 700 + molar mass for inorganics, which runs past 800
+				// (R-846 sulfur hexafluoride, from memory).
 				return serialNumber(input, n, tail)
-			case lead >= '8':
-				return n, designationError(input, "the %c00 series is not assigned; numbers of compounds with up to 4 carbons start with 1, 2 or 3", lead)
 			}
 		}
 		n.c, n.h, n.f = int(n.digits[0]-'0')+1, int(n.digits[1]-'0')-1, int(n.digits[2]-'0')
@@ -291,7 +291,7 @@ func blendNumber(input string, n rNumber, tail string) (rNumber, error) {
 	return n, nil
 }
 
-// serialNumber accepts up to two letters after a 6xx or 7xx number.
+// serialNumber accepts up to two letters after a 6xx, 7xx, 8xx or 9xx number.
 func serialNumber(input string, n rNumber, tail string) (rNumber, error) {
 	if n.digits[0] == '6' {
 		n.series = seriesOrganic

@@ -16,10 +16,7 @@ import (
 // is not present; the inline tables below do not depend on it.
 func codecReferenceRows(t *testing.T) []map[string]string {
 	t.Helper()
-	dir := os.Getenv("HALOVET_REFERENCE_DIR")
-	if dir == "" {
-		dir = filepath.Join("..", "..", "shared", "reference")
-	}
+	dir := referenceDir()
 	fh, err := os.Open(filepath.Join(dir, "halocarbons.csv"))
 	if errors.Is(err, os.ErrNotExist) {
 		t.Skipf("reference data not found in %s (set HALOVET_REFERENCE_DIR)", dir)
@@ -44,6 +41,14 @@ func codecReferenceRows(t *testing.T) []map[string]string {
 		rows = append(rows, row)
 	}
 	return rows
+}
+
+// referenceDir is where the shared reference data lives.
+func referenceDir() string {
+	if dir := os.Getenv("HALOVET_REFERENCE_DIR"); dir != "" {
+		return dir
+	}
+	return filepath.Join("..", "..", "shared", "reference")
 }
 
 func TestParseFormulaHill(t *testing.T) {

@@ -192,7 +192,7 @@ type hsKind int
 
 const (
 	hsUnknown        hsKind = iota
-	hsNonHalogenated        // hydrocarbons, CO2, ammonia, ethers without halogen
+	hsNonHalogenated        // not a halogenated hydrocarbon: hydrocarbons, CO2, ammonia, dimethyl ether
 	hsCFC
 	hsHBFC
 	hsCCl4
@@ -242,8 +242,10 @@ func classifyHSShare(sh HSShare) hsComponent {
 	switch {
 	case err == nil:
 		f, canonical, cyclic, comp.exact = d.Formula, d.Canonical(), strings.HasPrefix(d.Number, "C"), true
-	case errors.Is(err, ErrNotSingleCompound) && (strings.HasPrefix(d.Number, "6") || strings.HasPrefix(d.Number, "7")):
-		comp.kind, comp.c1to3 = hsNonHalogenated, 0 // 600 organic and 700 inorganic series
+	case errors.Is(err, ErrNotSingleCompound) && (strings.IndexAny(d.Number, "6789") == 0 || d.Number == "E170"):
+		// 600 series organics hold no halogen, inorganic compounds (700 plus molar mass) are
+		// no halogenated hydrocarbons, and R-E170 is dimethyl ether (DOMAIN.md §2).
+		comp.kind, comp.c1to3 = hsNonHalogenated, 0
 		return comp
 	default:
 		if r, err := EncodeDesignation(sh.Designation); err == nil {
