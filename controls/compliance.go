@@ -272,11 +272,11 @@ func periodYear(cons Consumption, ya YearAssessment, rule Rule, scope Scope, bas
 	if withinTolerance(p.RoomLeft, p.Budget) {
 		ya.Outcome = Within
 	}
-	ya.Notes = append(ya.Notes, fmt.Sprintf("running mean %d–%d: %s %s a year (%.3f %% of baseline) over %d years",
-		rule.FromYear, ya.Year, fmtAmount(p.RunningMean, unit), unit, p.RunningPercent, p.YearsCounted))
+	ya.Notes = append(ya.Notes, fmt.Sprintf("running mean %s: %s %s a year (%.3f %% of baseline) over %s",
+		yearSpan(rule.FromYear, ya.Year), fmtAmount(p.RunningMean, unit), unit, p.RunningPercent, plural(p.YearsCounted, "year")))
 	if p.YearsRemaining > 0 {
-		ya.Notes = append(ya.Notes, fmt.Sprintf("room left: %s %s for the remaining %d years (%s a year on average)",
-			fmtAmount(p.RoomLeft, unit), unit, p.YearsRemaining, fmtAmount(p.RoomPerYear, unit)))
+		ya.Notes = append(ya.Notes, fmt.Sprintf("room left: %s %s for the remaining %s (%s a year on average)",
+			fmtAmount(p.RoomLeft, unit), unit, plural(p.YearsRemaining, "year"), fmtAmount(p.RoomPerYear, unit)))
 	} else {
 		verdict := "met"
 		if ya.Outcome == Exceeded {
@@ -289,6 +289,20 @@ func periodYear(cons Consumption, ya YearAssessment, rule Rule, scope Scope, bas
 		ya.Notes = append(ya.Notes, "the period's total already exceeds its budget")
 	}
 	return ya
+}
+
+func yearSpan(from, to int) string {
+	if from == to {
+		return fmt.Sprint(from)
+	}
+	return fmt.Sprintf("%d–%d", from, to)
+}
+
+func plural(n int, word string) string {
+	if n == 1 {
+		return "1 " + word
+	}
+	return fmt.Sprintf("%d %ss", n, word)
 }
 
 // fmtAmount rounds for presentation only: 0.001 for tonnes and ODP tonnes, 1 for CO2-eq.

@@ -144,8 +144,12 @@ func (c Consumption) Group(year int, g substances.Group) (GroupConsumption, bool
 // Amount returns a scope's consumption in one year in the given unit, summing the scope's
 // groups. ok is false when no record of any group of the scope exists for that year: a year
 // with true zero consumption must be passed as a record with zero flows, so that it is told
-// apart from missing data.
+// apart from missing data. ok is also false for a unit other than UnitTonnes,
+// UnitODPTonnes and UnitCO2eTonnes.
 func (c Consumption) Amount(year int, scope Scope, unit Unit) (amount float64, ok bool) {
+	if unit != UnitTonnes && unit != UnitODPTonnes && unit != UnitCO2eTonnes {
+		return 0, false
+	}
 	for _, g := range scope.Groups() {
 		gc, found := c.Group(year, g)
 		if !found {

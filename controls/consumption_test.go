@@ -116,6 +116,9 @@ func TestCalculateSubstanceBreakdown(t *testing.T) {
 	near(t, "HCFC-141b ODP t", g.Substances[0].ODPTonnes, 1.1, tolODP) // 10 × 0.11, CONTROL_RULES §2 ODP
 	near(t, "HCFC-22 ODP t", g.Substances[1].ODPTonnes, 5.5, tolODP)   // 100 × 0.055
 	near(t, "group ODP t", g.ODPTonnes, 6.6, tolODP)
+	if _, ok := c.Amount(2016, ScopeCI, Unit("kg")); ok {
+		t.Error("Amount with an unknown unit should report ok = false")
+	}
 	if amt, ok := c.Amount(2016, ScopeF, UnitCO2eTonnes); ok || amt != 0 {
 		t.Errorf("Amount(2016, F) = %v, %v; want 0, false (no HFC record in 2016)", amt, ok)
 	}

@@ -110,8 +110,8 @@ type BaselineRule struct {
 // Text is the rule's source with its status, e.g. "Art. 2F para 1; CONTROL_RULES S4 [V]".
 func (r BaselineRule) Text() string { return fmt.Sprintf("%s [%s]", r.Source, r.Status) }
 
-// Description says the formula in words, e.g. "mean 2011–2013 + 15 % of the HCFC baseline
-// in CO2-eq".
+// Description says the formula in words, e.g. "mean F consumption 2011–2013 + 15 % of the
+// HCFC baseline recomputed in CO2-eq" (CountUsed is reported separately).
 func (r BaselineRule) Description() string {
 	var b strings.Builder
 	if r.FromYear == r.ToYear {
@@ -124,9 +124,6 @@ func (r BaselineRule) Description() string {
 		fmt.Fprintf(&b, " + %s %% of A/I (CFC) consumption over the same years", fmtPercent(r.TermPercent))
 	case TermHCFCCO2e:
 		fmt.Fprintf(&b, " + %s %% of the HCFC baseline recomputed in CO2-eq", fmtPercent(r.TermPercent))
-	}
-	if r.CountUsed {
-		b.WriteString("; used, recycled and reclaimed trade counted in the base years")
 	}
 	return b.String()
 }
@@ -157,8 +154,17 @@ var defaultRulebook = sync.OnceValues(func() (*Rulebook, error) {
 })
 
 // DefaultRulebook returns the rulebook embedded in the binary (data/schedules.csv and
-// data/baselines.csv), parsed once. Callers must not modify it.
-func DefaultRulebook() (*Rulebook, error) { return defaultRulebook() }
+// data/baselines.csv), parsed once; each call returns a fresh copy.
+func DefaultRulebook() (*Rulebook, error) {
+	rb, err := defaultRulebook()
+	if err != nil {
+		return nil, err
+	}
+	cp := *rb
+	cp.Rules = slices.Clone(rb.Rules)
+	cp.Baselines = slices.Clone(rb.Baselines)
+	return &cp, nil
+}
 
 // Columns of the data files, in order.
 var (

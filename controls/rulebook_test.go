@@ -33,6 +33,17 @@ func TestDefaultRulebookCoverage(t *testing.T) {
 	}
 }
 
+// TestDefaultRulebookIsACopy: a caller changing its rulebook does not change the next one.
+func TestDefaultRulebookIsACopy(t *testing.T) {
+	a := mustRulebook(t)
+	a.Rules[0].Percent = 99
+	a.Baselines[0].FromYear = 2000
+	b := mustRulebook(t)
+	if b.Rules[0].Percent == 99 || b.Baselines[0].FromYear == 2000 {
+		t.Fatal("DefaultRulebook handed out shared data")
+	}
+}
+
 // TestAllowanceLookup checks the schedule rows against CONTROL_RULES §4 (values and status).
 func TestAllowanceLookup(t *testing.T) {
 	rb := mustRulebook(t)
