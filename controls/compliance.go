@@ -82,9 +82,6 @@ type Assessment struct {
 	RulebookAsOf    string
 }
 
-// maxAssessYears bounds one assessment's range.
-const maxAssessYears = 121
-
 // Assess compares a Party's consumption in a scope with the allowed level for each year
 // from..to. Years lacking data, a baseline or a rule are reported NotAssessed with notes;
 // the error reports invalid input only.

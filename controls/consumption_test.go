@@ -216,3 +216,50 @@ func TestCalculateRejects(t *testing.T) {
 		})
 	}
 }
+
+func TestParseScope(t *testing.T) {
+	tests := []struct {
+		in      string
+		want    Scope
+		wantErr bool
+	}{
+		{"C/I", ScopeCI, false},
+		{" b/iii ", ScopeBIII, false},
+		{"F/II", ScopeF, false}, // Annex F is controlled as a whole (Art. 2J para 1; CONTROL_RULES §4a [V])
+		{"F", ScopeF, false},
+		{"D/I", "", true},
+		{"", "", true},
+	}
+	for _, tc := range tests {
+		t.Run(tc.in, func(t *testing.T) {
+			got, err := ParseScope(tc.in)
+			if (err != nil) != tc.wantErr || got != tc.want {
+				t.Fatalf("ParseScope(%q) = %q, %v; want %q, error %v", tc.in, got, err, tc.want, tc.wantErr)
+			}
+			if err != nil && !errors.Is(err, ErrInvalidInput) {
+				t.Errorf("error does not wrap ErrInvalidInput: %v", err)
+			}
+		})
+	}
+	if ScopeOf(substances.GroupFII) != ScopeF || ScopeOf(substances.GroupCI) != ScopeCI || ScopeOf(substances.GroupNone) != "" {
+		t.Error("ScopeOf maps groups wrongly")
+	}
+	if ScopeF.Unit() != UnitCO2eTonnes || ScopeCI.Unit() != UnitODPTonnes {
+		t.Error("Annex F is compared in CO2-eq t, Annexes A–E in ODP t (Art. 3; CONTROL_RULES §2 [V])")
+	}
+}
+
+// TestSubstanceOf takes the Protocol GWP (SetProtocol) and ignores other GWP sets.
+// HCFC-22: ODP 0.055, Protocol GWP 1810 (CONTROL_RULES §2 [V]); AR5 1760 (reference
+// halocarbons.csv gwp100_ar5).
+func TestSubstanceOf(t *testing.T) {
+	s := &substances.Substance{Designation: "HCFC-22", Group: substances.GroupCI, ODP: 0.055,
+		GWP: map[substances.GWPSet]float64{substances.SetProtocol: 1810, substances.SetAR5: 1760}}
+	if got := SubstanceOf(s); got != hcfc22 {
+		t.Errorf("SubstanceOf = %+v, want %+v", got, hcfc22)
+	}
+	noGWP := &substances.Substance{Designation: "HCFC-31", Group: substances.GroupCI, ODP: 0.02}
+	if got := SubstanceOf(noGWP); got != hcfc31 {
+		t.Errorf("SubstanceOf without a Protocol GWP = %+v, want GWP 0 (%+v)", got, hcfc31)
+	}
+}

@@ -40,8 +40,8 @@ func ExampleRulebook_Assess() {
 // Largest-remainder quotas (invented companies): 90 % of 10 ODP t = 9000 units of 0.001.
 // References 2023+2024: 9, 3, 2 (sum 14). Exact shares 5785.714, 1928.571, 1285.714 units;
 // whole units 5785 + 1928 + 1285 = 8998; the 2 units left go to the largest remainders
-// (0.714 for importers 1 and 3, ahead of 0.571): 5786, 1928, 1286. Note 1928 < 1928.571:
-// plain rounding of each share would not give a total of exactly 9000.
+// (0.714 for importers 1 and 3, ahead of 0.571): 5786, 1928, 1286. Rounding each share
+// to the nearest unit instead would give 5786 + 1929 + 1286 = 9001, above the total.
 func ExamplePlanQuotas() {
 	plan, err := controls.PlanQuotas(controls.QuotaRequest{
 		Total: 10, Fraction: 0.9, Granularity: 0.001, ReferenceYears: []int{2023, 2024},
