@@ -16,7 +16,7 @@ import (
 // is not present; the inline tables below do not depend on it.
 func codecReferenceRows(t *testing.T) []map[string]string {
 	t.Helper()
-	dir := referenceDir()
+	dir := codecReferenceDir()
 	fh, err := os.Open(filepath.Join(dir, "halocarbons.csv"))
 	if errors.Is(err, os.ErrNotExist) {
 		t.Skipf("reference data not found in %s (set HALOVET_REFERENCE_DIR)", dir)
@@ -43,8 +43,8 @@ func codecReferenceRows(t *testing.T) []map[string]string {
 	return rows
 }
 
-// referenceDir is where the shared reference data lives.
-func referenceDir() string {
+// codecReferenceDir is where the shared reference data lives.
+func codecReferenceDir() string {
 	if dir := os.Getenv("HALOVET_REFERENCE_DIR"); dir != "" {
 		return dir
 	}
