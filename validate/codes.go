@@ -10,6 +10,7 @@ import (
 // them. CodeTable documents each.
 const (
 	// record
+	CodeLineUnreadable   = "LINE_UNREADABLE"
 	CodeKeyMissing       = "KEY_MISSING"
 	CodeKeyInvalid       = "KEY_INVALID"
 	CodeFieldUnreadable  = "FIELD_UNREADABLE"
@@ -113,6 +114,7 @@ type CodeInfo struct {
 // codeTable is the single source of every code's severity and documentation.
 var codeTable = []CodeInfo{
 	// record
+	{CodeLineUnreadable, SeverityError, "record", "", "A line of a batch file could not be read as a record (not UTF-8 text, a quoting mistake, a wrong number of fields, invalid JSON, an unknown key, a line over 1 MiB).", "One record per line in the documented CSV or JSON Lines format."},
 	{CodeKeyMissing, SeverityError, "record", "record_key", "The record has no key.", "A non-empty key of at most 128 bytes, unique per company and unchanged when the record is sent again."},
 	{CodeKeyInvalid, SeverityError, "record", "record_key", "The key is longer than 128 bytes or holds control characters.", "Printable text of at most 128 bytes."},
 	{CodeFieldUnreadable, SeverityError, "record", "", "A reader found a field but could not convert it (an unknown direction, purpose or condition word, a container count that is not a whole number, a composition it cannot read).", "The words and formats listed in the message."},

@@ -1,0 +1,302 @@
+package validate
+
+import (
+	"fmt"
+	"strings"
+	"time"
+	"unicode/utf8"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// Figures are the computed quantities of a record.
+type Figures struct {
+	Designation string          // the catalogue entry the record resolved to, or "mixture: ..." for an ad-hoc composition
+	Kind        substances.Kind // substance or blend (an ad-hoc composition counts as a blend)
+	NetMassKg   float64         // after exact unit conversion and container count
+	ODPTonnes   float64         // sum over components, each in its own Annex group
+	CO2eTonnes  float64         // CO2-eq tonnes as the Protocol counts them (Annex F components)
+	Components  []substances.ComponentFigures
+	// CountsInConsumption is false for records the Protocol leaves out of calculated
+	// consumption: nothing controlled, transit, used/recycled/reclaimed material, feedstock,
+	// destruction, process agents, QPS, and exports to a partner not bound for the group.
+	CountsInConsumption bool
+	// PartnerNonParty is true when the partner is not bound by the control measures of a
+	// group in the shipment on the declaration date.
+	PartnerNonParty bool
+	SafetyClass     string   // ASHRAE 34 class of the substance or blend
+	Cautions        []string // safety cautions from the catalogue
+}
+
+// LineDraw is what a record draws on one quota line, in the line's unit.
+type LineDraw struct {
+	LicenceNumber string
+	LineNumber    int
+	Unit          QuotaUnit
+	Amount        float64
+}
+
+// Verdict is the answer for one record.
+type Verdict struct {
+	RecordKey   string
+	Line        int64
+	Outcome     Outcome
+	Findings    []Finding // errors first, then warnings, then notices
+	Resolved    bool      // Figures are computed (the substance or composition resolved)
+	Figures     Figures
+	Fingerprint string     // Fingerprint of the record
+	Draws       []LineDraw // quota draws of an accepted record; nil when rejected
+	Replayed    bool       // set by Batch: an identical record with this key came earlier
+}
+
+// Add appends findings (for example a finding the store reports at commit time), re-sorts
+// them and recomputes the outcome; a record that becomes rejected loses its draws.
+func (v *Verdict) Add(fs ...Finding) {
+	v.Findings = append(v.Findings, fs...)
+	sortFindings(v.Findings)
+	v.Outcome = OutcomeOf(v.Findings)
+	if v.Outcome == OutcomeRejected {
+		v.Draws = nil
+	}
+}
+
+// maxKeyBytes is the longest record key accepted.
+const maxKeyBytes = 128
+
+// checker carries one record through the rules.
+type checker struct {
+	env    *Env
+	r      *Record
+	ledger QuotaLedger
+	fs     []Finding
+
+	netKg   float64
+	fillKg  float64
+	qtyOK   bool
+	date    time.Time
+	dateOK  bool
+	partner string // upper-case, valid shape
+
+	designation string // resolved entry
+	kind        substances.Kind
+	sub         *substances.Substance
+	blend       *substances.Blend
+	adHoc       bool
+	adHocShares []substances.Share
+
+	ev     substances.Evaluation
+	evOK   bool
+	groups []substances.Group // controlled groups in the shipment, in component order
+	gbuf   [4]substances.Group
+
+	lic             *Licence
+	partnerNonParty bool
+	draws           []LineDraw
+}
+
+func (c *checker) add(code, field, format string, args ...any) {
+	if c.fs == nil {
+		c.fs = make([]Finding, 0, 4)
+	}
+	msg := format
+	if len(args) > 0 {
+		msg = fmt.Sprintf(format, args...)
+	}
+	c.fs = append(c.fs, newFinding(code, field, msg))
+}
+
+func (c *checker) hasErrors() bool {
+	for i := range c.fs {
+		if c.fs[i].Severity == SeverityError {
+			return true
+		}
+	}
+	return false
+}
+
+// Check runs every rule on one record and returns its verdict. env must pass Validate.
+// ledger tracks the quota drawn by earlier accepted records of the same stream (check mode);
+// pass nil when the caller draws quota itself (the store, under row locks, in record mode).
+// Check does not look for duplicate keys: Batch does that for a stream, the store for what
+// is recorded.
+func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
+	env.prepare()
+	c := checker{env: env, r: r, ledger: ledger}
+	c.recordRules()
+	c.quantityRules()
+	c.dateRules()
+	c.partnerShape()
+	c.identity()
+	shares, compOK := c.mixtureRules()
+	c.evaluate(shares, compOK)
+	c.casRule()
+	c.hsRule()
+	c.formulaRule()
+	controlled := len(c.groups) > 0
+	if c.evOK && !controlled {
+		c.add(CodeSubstNotControlled, "", "%s contains no substance controlled by the Montreal Protocol; licence, quota, partner and phase-out checks do not apply under the Protocol", c.designation)
+	}
+	if controlled {
+		c.partnerRules()
+		c.licenceRules()
+		c.phaseOutRules()
+	}
+	counts := c.purposeRules(controlled)
+
+	v := Verdict{RecordKey: r.Key, Line: r.Line, Fingerprint: Fingerprint(r)}
+	if c.evOK {
+		v.Resolved = true
+		v.Figures = Figures{
+			Designation:         c.designation,
+			Kind:                c.ev.Kind,
+			NetMassKg:           c.ev.NetMassKg,
+			ODPTonnes:           c.ev.ODPTonnes,
+			CO2eTonnes:          c.ev.CO2eTonnes,
+			Components:          c.ev.Components,
+			CountsInConsumption: counts,
+			PartnerNonParty:     c.partnerNonParty,
+			SafetyClass:         c.ev.SafetyClass,
+			Cautions:            c.ev.Cautions,
+		}
+	}
+	sortFindings(c.fs)
+	v.Findings = c.fs
+	v.Outcome = OutcomeOf(c.fs)
+	if v.Outcome != OutcomeRejected {
+		v.Draws = c.draws
+		if ledger != nil {
+			for _, d := range c.draws {
+				ledger.Draw(d.LicenceNumber, d.LineNumber, d.Amount)
+			}
+		}
+	}
+	return v
+}
+
+// recordRules: key, company, direction and the fields a reader could not convert.
+func (c *checker) recordRules() {
+	r := c.r
+	key := strings.TrimSpace(r.Key)
+	switch {
+	case key == "":
+		c.add(CodeKeyMissing, "", "record_key is empty; give the record a key unique per company")
+	case len(key) > maxKeyBytes:
+		c.add(CodeKeyInvalid, "", "record_key is %d bytes long; at most %d are accepted", len(key), maxKeyBytes)
+	case !printable(key):
+		c.add(CodeKeyInvalid, "", "record_key holds control characters or invalid UTF-8; printable text is accepted")
+	}
+	if strings.TrimSpace(r.CompanyID) == "" {
+		c.add(CodeCompanyMissing, "", "company_id is empty; give the registered identifier of the declaring company")
+	}
+	unreadableDirection := false
+	for _, u := range r.Unreadable {
+		if u.Field == "direction" {
+			unreadableDirection = true
+		}
+		c.add(CodeFieldUnreadable, u.Field, "%s: %s", u.Field, u.Reason)
+	}
+	switch {
+	case r.Direction > DirectionUnspecified && r.Direction <= DirectionTransit:
+	case r.Direction == DirectionUnspecified && unreadableDirection:
+	default:
+		c.add(CodeDirectionMissing, "", "direction is not declared; accepted: import, export, re-export, transit")
+	}
+	if r.Purpose < PurposeUnspecified || r.Purpose > PurposeOther {
+		c.add(CodeFieldUnreadable, "purpose", "purpose %d is not a known purpose number", int(r.Purpose))
+	}
+	if r.Condition < ConditionUnspecified || r.Condition > ConditionReclaimed {
+		c.add(CodeFieldUnreadable, "condition", "condition %d is not a known condition number", int(r.Condition))
+	}
+}
+
+func printable(s string) bool {
+	for i := 0; i < len(s); i++ {
+		b := s[i]
+		if b < 0x20 || b == 0x7f {
+			return false
+		}
+		if b >= utf8.RuneSelf {
+			return utf8.ValidString(s[i:])
+		}
+	}
+	return true
+}
+
+// evaluate computes the figures of the resolved entry or the ad-hoc composition.
+func (c *checker) evaluate(shares []substances.Share, compOK bool) {
+	mass := 0.0
+	if c.qtyOK {
+		mass = c.netKg
+	}
+	var err error
+	switch {
+	case c.designation != "":
+		c.ev, err = c.env.Catalogue.Evaluate(c.designation, mass)
+	case c.adHoc && compOK:
+		c.ev, err = c.env.Catalogue.EvaluateShares(shares, mass)
+		if err == nil {
+			c.designation = adHocName(c.ev.Components)
+			c.add(CodeMixAdHoc, "", "no substance is named; figures come from the declared composition (%s)", c.designation)
+		}
+	default:
+		return
+	}
+	if err != nil {
+		// The catalogue refused what the rules above accepted: report it rather than hide it.
+		c.add(CodeSubstUnknown, "", "the catalogue could not evaluate %q: %v", c.designation, err)
+		return
+	}
+	c.evOK = true
+	c.groups = c.gbuf[:0]
+	for i := range c.ev.Components {
+		g := c.ev.Components[i].Group
+		if !g.Controlled() {
+			continue
+		}
+		dup := false
+		for _, h := range c.groups {
+			if h == g {
+				dup = true
+				break
+			}
+		}
+		if !dup {
+			c.groups = append(c.groups, g)
+		}
+	}
+}
+
+// adHocName labels an ad-hoc composition: "mixture: HFC-32/HFC-125 50/50".
+func adHocName(comps []substances.ComponentFigures) string {
+	var names, pcts []string
+	for _, cf := range comps {
+		names = append(names, cf.Designation)
+		pcts = append(pcts, fmt.Sprintf("%g", cf.MassPct))
+	}
+	return "mixture: " + strings.Join(names, "/") + " " + strings.Join(pcts, "/")
+}
+
+func (c *checker) hasGroup(g substances.Group) bool {
+	for _, h := range c.groups {
+		if h == g {
+			return true
+		}
+	}
+	return false
+}
+
+var groupNames = map[substances.Group]string{
+	substances.GroupAI: "CFCs", substances.GroupAII: "halons", substances.GroupBI: "other fully halogenated CFCs",
+	substances.GroupBII: "carbon tetrachloride", substances.GroupBIII: "methyl chloroform",
+	substances.GroupCI: "HCFCs", substances.GroupCII: "HBFCs", substances.GroupCIII: "bromochloromethane",
+	substances.GroupEI: "methyl bromide", substances.GroupFI: "HFCs", substances.GroupFII: "HFC-23",
+}
+
+// groupLabel names a group for messages: "Annex C/I (HCFCs)".
+func groupLabel(g substances.Group) string {
+	name := groupNames[g]
+	if name == "" {
+		return "Annex " + string(g)
+	}
+	return "Annex " + string(g) + " (" + name + ")"
+}

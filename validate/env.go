@@ -1,0 +1,248 @@
+package validate
+
+import (
+	"errors"
+	"fmt"
+	"sync"
+	"time"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// PartyType is the status of a country under the Montreal Protocol. The numbers equal the
+// wire enum halovet.v1.PartyType.
+type PartyType int
+
+// Party types.
+const (
+	PartyTypeUnspecified PartyType = iota
+	PartyTypeArticle5              // a Party operating under Article 5 para 1
+	PartyTypeNonArticle5           // a Party not operating under Article 5
+	PartyTypeNonParty              // not a Party to the Protocol
+)
+
+// HFCGroup is the Kigali Amendment schedule a Party follows for Annex F. The numbers equal the
+// wire enum halovet.v1.HfcGroup.
+type HFCGroup int
+
+// HFC schedule groups.
+const (
+	HFCGroupUnspecified HFCGroup = iota
+	HFCGroupA5Group1
+	HFCGroupA5Group2
+	HFCGroupNonA5
+	HFCGroupNonA5Variant
+)
+
+// PartySettings is what the checks need to know about one country.
+type PartySettings struct {
+	Type     PartyType
+	HFCGroup HFCGroup
+	// BoundFrom gives, per Annex group, the date from which the country is bound by that
+	// group's control measures. A group absent here does not bind the country: for trade in
+	// that group it counts as a non-Party (Article 4 para 9).
+	BoundFrom map[substances.Group]time.Time
+	// Known is true for settings the authority has entered; a zero PartySettings (Known
+	// false) means "nothing is known about this country".
+	Known bool
+}
+
+// BoundOn reports whether the country is bound by group g's control measures on day d.
+func (p PartySettings) BoundOn(g substances.Group, d time.Time) bool {
+	from, ok := p.BoundFrom[g]
+	return ok && !d.Before(day(from))
+}
+
+// LicenceStatus is the state of a licence. The numbers equal halovet.v1.LicenceStatus.
+type LicenceStatus int
+
+// Licence states.
+const (
+	LicenceStatusUnspecified LicenceStatus = iota
+	LicenceDraft
+	LicenceActive
+	LicenceSuspended
+	LicenceRevoked
+)
+
+var licenceStatusNames = [...]string{"unspecified", "draft", "active", "suspended", "revoked"}
+
+// String returns "draft", "active", "suspended" or "revoked".
+func (s LicenceStatus) String() string {
+	if s < 0 || int(s) >= len(licenceStatusNames) {
+		return fmt.Sprintf("status(%d)", int(s))
+	}
+	return licenceStatusNames[s]
+}
+
+// QuotaUnit is the unit a quota line is counted in. The numbers equal halovet.v1.QuotaUnit.
+type QuotaUnit int
+
+// Quota units.
+const (
+	QuotaUnitUnspecified QuotaUnit = iota
+	QuotaMetricTonnes              // metric tonnes of substance
+	QuotaODPTonnes                 // ODP tonnes
+	QuotaCO2eTonnes                // CO2-equivalent tonnes with the Protocol's GWPs
+)
+
+var quotaUnitNames = [...]string{"unspecified", "t", "ODP t", "CO2-eq t"}
+
+// String returns "t", "ODP t" or "CO2-eq t".
+func (u QuotaUnit) String() string {
+	if u < 0 || int(u) >= len(quotaUnitNames) {
+		return fmt.Sprintf("unit(%d)", int(u))
+	}
+	return quotaUnitNames[u]
+}
+
+// QuotaLine is one quota of a licence. Its scope is one Annex group, or one substance when
+// Substance is set (a substance line is more specific than a group line).
+type QuotaLine struct {
+	LineNumber int
+	Group      substances.Group // scope by Annex group; empty when Substance is set
+	Substance  string           // scope by substance designation; empty for a group line
+	Unit       QuotaUnit
+	Allocated  float64 // in Unit
+	Drawn      float64 // in Unit, by shipments already recorded
+}
+
+// Licence is an import or export licence with its quota lines.
+type Licence struct {
+	Number          string
+	CompanyID       string
+	Directions      []Direction
+	ValidFrom       time.Time // first day of validity
+	ValidTo         time.Time // last day of validity; the zero time means open-ended
+	Status          LicenceStatus
+	SpecialPurposes []Purpose // purposes allowed besides ordinary use (feedstock, destruction, ...)
+	QuotaLines      []QuotaLine
+}
+
+// DefaultFutureToleranceDays is how many days after today NewEnv lets a declaration date lie
+// (a declaration lodged ahead of arrival, and time zones; common practice).
+const DefaultFutureToleranceDays = 2
+
+// Env holds what the checks need. It is read-only during checking and safe for concurrent
+// use by many goroutines once built; build it with NewEnv or as a literal, then call Validate.
+type Env struct {
+	// Catalogue is the immutable catalogue snapshot identifiers resolve against.
+	Catalogue *substances.Catalogue
+	// ReportingParty is the ISO 3166-1 alpha-2 code of the Party running the service.
+	ReportingParty string
+	// Parties holds the settings of every known country, keyed by upper-case alpha-2 code.
+	Parties map[string]PartySettings
+	// Licence looks a licence up by number (as declared, trimmed). It must be safe for
+	// concurrent use.
+	Licence func(number string) (*Licence, bool)
+	// AllowedPercent gives the reporting Party's allowed consumption of group g in year, as a
+	// percentage of its baseline, and whether a schedule is known. Package controls owns the
+	// schedules; this package only asks.
+	AllowedPercent func(g substances.Group, year int) (pct float64, known bool)
+	// Now is the clock; nil means time.Now.
+	Now func() time.Time
+	// FutureToleranceDays is how many days after today a declaration date may lie (0: none).
+	FutureToleranceDays int
+
+	once     sync.Once
+	hsCount  map[hsKey]int                 // how many catalogue substances list each subheading
+	formulas map[string]substances.Formula // parsed formula of each substance, by designation
+}
+
+type hsKey struct {
+	edition substances.HSEdition
+	code    string
+}
+
+// NewEnv returns an Env with the default future tolerance and the system clock.
+func NewEnv(cat *substances.Catalogue, reportingParty string, parties map[string]PartySettings,
+	licence func(string) (*Licence, bool), allowed func(substances.Group, int) (float64, bool)) *Env {
+	return &Env{
+		Catalogue:           cat,
+		ReportingParty:      reportingParty,
+		Parties:             parties,
+		Licence:             licence,
+		AllowedPercent:      allowed,
+		Now:                 time.Now,
+		FutureToleranceDays: DefaultFutureToleranceDays,
+	}
+}
+
+// ErrEnv is wrapped by Validate's errors.
+var ErrEnv = errors.New("incomplete check environment")
+
+// Validate reports what is missing from the environment.
+func (e *Env) Validate() error {
+	switch {
+	case e == nil:
+		return fmt.Errorf("%w: nil", ErrEnv)
+	case e.Catalogue == nil:
+		return fmt.Errorf("%w: Catalogue is nil", ErrEnv)
+	case !isAlpha2(e.ReportingParty):
+		return fmt.Errorf("%w: ReportingParty %q is not an ISO 3166-1 alpha-2 code", ErrEnv, e.ReportingParty)
+	case e.Licence == nil:
+		return fmt.Errorf("%w: Licence lookup is nil", ErrEnv)
+	case e.AllowedPercent == nil:
+		return fmt.Errorf("%w: AllowedPercent is nil", ErrEnv)
+	case e.FutureToleranceDays < 0:
+		return fmt.Errorf("%w: FutureToleranceDays %d is negative", ErrEnv, e.FutureToleranceDays)
+	}
+	for code := range e.Parties {
+		if !isAlpha2(code) || upper2(code) != code {
+			return fmt.Errorf("%w: Parties key %q is not an upper-case ISO 3166-1 alpha-2 code", ErrEnv, code)
+		}
+	}
+	return nil
+}
+
+func (e *Env) today() time.Time {
+	if e.Now == nil {
+		return day(time.Now())
+	}
+	return day(e.Now())
+}
+
+// prepare builds the indexes derived from the catalogue, once.
+func (e *Env) prepare() {
+	e.once.Do(func() {
+		e.hsCount = map[hsKey]int{}
+		e.formulas = map[string]substances.Formula{}
+		for _, s := range e.Catalogue.Substances() {
+			if f, err := substances.ParseFormula(s.Formula); err == nil {
+				e.formulas[s.Designation] = f
+			}
+			for _, c := range s.HS2017 {
+				e.hsCount[hsKey{substances.HS2017, c}]++
+			}
+			for _, c := range s.HS2022 {
+				e.hsCount[hsKey{substances.HS2022, c}]++
+			}
+		}
+	})
+}
+
+// formula returns the parsed formula of a catalogue substance.
+func (e *Env) formula(s *substances.Substance) (substances.Formula, bool) {
+	f, ok := e.formulas[s.Designation]
+	return f, ok
+}
+
+func isAlpha2(s string) bool {
+	return len(s) == 2 && isLetter(s[0]) && isLetter(s[1])
+}
+
+func isLetter(c byte) bool { return c >= 'A' && c <= 'Z' || c >= 'a' && c <= 'z' }
+
+// upper2 upper-cases a two-letter code without allocating for upper-case input.
+func upper2(s string) string {
+	if len(s) == 2 && s[0] >= 'A' && s[0] <= 'Z' && s[1] >= 'A' && s[1] <= 'Z' {
+		return s
+	}
+	b := []byte(s)
+	for i, c := range b {
+		if c >= 'a' && c <= 'z' {
+			b[i] = c - ('a' - 'A')
+		}
+	}
+	return string(b)
+}

@@ -1,0 +1,249 @@
+package validate
+
+import (
+	"errors"
+	"fmt"
+	"slices"
+	"strings"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// hs2022Start is the day HS 2022 replaced HS 2017 (WCO; from memory, not checked against a
+// stored copy of the WCO notice).
+var hs2022Start = date(2022, 1, 1)
+
+// identity resolves the declared substance to exactly one catalogue entry.
+func (c *checker) identity() {
+	s := strings.TrimSpace(c.r.Substance)
+	if s == "" {
+		if len(c.r.Composition) == 0 {
+			c.add(CodeSubstMissing, "", "substance is empty and no composition is declared; give a designation (e.g. HCFC-22, R-404A), a chemical name or a CAS number")
+			return
+		}
+		c.adHoc = true
+		return
+	}
+	cat := c.env.Catalogue
+	res := cat.Resolve(s)
+	cand, ok := res.Unique()
+	if !ok {
+		if len(res.Candidates) == 0 {
+			msg := fmt.Sprintf("%q matches no catalogue substance or blend", cutText(s))
+			if res.Note != "" {
+				msg += " (" + res.Note + ")"
+			}
+			if len(res.Suggestions) > 0 {
+				msg += "; did you mean: " + strings.Join(res.Suggestions, ", ") + "?"
+			}
+			c.add(CodeSubstUnknown, "", "%s", msg)
+			return
+		}
+		c.add(CodeSubstAmbiguous, "", "%q may mean %s%s; declare the designation or CAS number of one of them",
+			cutText(s), candidateList(res.Candidates), noteSuffix(res.Note))
+		return
+	}
+	switch cand.Match {
+	case substances.MatchFormula, substances.MatchDecodedNumber, substances.MatchHSCode:
+		c.add(CodeSubstLooseMatch, "", "%q was read as %s by its %s (%s); declaring the designation avoids the guess",
+			cutText(s), cand.Designation, cand.Match, cand.MatchedOn)
+	}
+	c.designation, c.kind = cand.Designation, cand.Kind
+	switch cand.Kind {
+	case substances.KindSubstance:
+		c.sub, _ = cat.Substance(cand.Designation)
+	case substances.KindBlend:
+		c.blend, _ = cat.Blend(cand.Designation)
+	}
+}
+
+func candidateList(cs []substances.Candidate) string {
+	const max = 8
+	parts := make([]string, 0, min(len(cs), max))
+	for i, cd := range cs {
+		if i == max {
+			parts = append(parts, fmt.Sprintf("and %d more", len(cs)-max))
+			break
+		}
+		parts = append(parts, fmt.Sprintf("%s (by %s %s)", cd.Designation, cd.Match, cd.MatchedOn))
+	}
+	return strings.Join(parts, ", ")
+}
+
+func noteSuffix(note string) string {
+	if note == "" {
+		return ""
+	}
+	return " (" + note + ")"
+}
+
+// isMixture reports whether the record is a blend or an ad-hoc composition.
+func (c *checker) isMixture() bool { return c.blend != nil || c.adHoc }
+
+// casRule checks the declared CAS number's check digit and that it belongs to the substance.
+func (c *checker) casRule() {
+	s := strings.TrimSpace(c.r.CAS)
+	if s == "" {
+		return
+	}
+	norm, err := substances.ParseCAS(s)
+	if err != nil {
+		var ce *substances.CASCheckError
+		if errors.As(err, &ce) {
+			c.add(CodeCASCheckDigit, "", "CAS Registry Number %s: the check digit is %d, but the digits before it give %d (published CAS check-digit method)", cutText(s), ce.Got, ce.Want)
+		} else {
+			c.add(CodeCASFormat, "", "declared_cas_number: %v", err)
+		}
+		return
+	}
+	if c.isMixture() {
+		c.add(CodeCASNotApplicable, "", "CAS Registry Number %s is declared for %s, a mixture; blends have no CAS number of their own", norm, c.mixtureName())
+		return
+	}
+	if c.sub == nil {
+		return
+	}
+	if c.sub.CAS == norm {
+		return
+	}
+	owner := ""
+	if cand, ok := c.env.Catalogue.Resolve(norm).Unique(); ok {
+		owner = cand.Designation
+	}
+	switch {
+	case c.sub.CAS == "" && owner == "":
+		c.add(CodeCASUnverified, "", "%s is a treaty isomer group without a single CAS number, and %s is no catalogued isomer; only its check digit was verified", c.sub.Designation, norm)
+	case c.sub.CAS == "" && owner == c.sub.Designation:
+		// The number is one the catalogue files under this group.
+	case owner != "":
+		c.add(CodeCASMismatch, "", "CAS Registry Number %s belongs to %s, not to the declared %s%s", norm, owner, c.sub.Designation, casExpect(c.sub))
+	default:
+		c.add(CodeCASMismatch, "", "CAS Registry Number %s is not the number of %s%s", norm, c.sub.Designation, casExpect(c.sub))
+	}
+}
+
+func casExpect(s *substances.Substance) string {
+	if s.CAS == "" {
+		return ""
+	}
+	return " (" + s.CAS + ")"
+}
+
+func (c *checker) mixtureName() string {
+	if c.blend != nil {
+		return c.blend.Designation
+	}
+	return "a declared composition"
+}
+
+// hsRule checks the declared HS code against the substance's subheadings, or the mixture's
+// classification in heading 38.27 (HS 2022) and 3824.71-.79 (HS 2017).
+func (c *checker) hsRule() {
+	s := strings.TrimSpace(c.r.HSCode)
+	if s == "" {
+		return
+	}
+	code, err := substances.NormalizeHS(s)
+	if err != nil {
+		c.add(CodeHSFormat, "", "declared_hs_code: %v", err)
+		return
+	}
+	var want17, want22 []string
+	name := c.designation
+	switch {
+	case c.sub != nil:
+		want17, want22 = c.sub.HS2017, c.sub.HS2022
+	case c.isMixture() && c.evOK:
+		want17, want22 = strings.Fields(c.ev.HS2017), strings.Fields(c.ev.HS2022)
+		if len(want17) == 0 && len(want22) == 0 {
+			c.add(CodeHSMixtureUnknown, "", "the HS subheading of %s could not be determined%s; the declared %s was not checked", name, noteSuffix(c.ev.HSNote), code)
+			return
+		}
+	default:
+		return
+	}
+	in17, in22 := slices.Contains(want17, code), slices.Contains(want22, code)
+	if !in17 && !in22 {
+		// A mixture whose code is unknown in one edition may be right under that edition.
+		if c.isMixture() {
+			_, known17 := substances.LookupHS(substances.HS2017, code)
+			_, known22 := substances.LookupHS(substances.HS2022, code)
+			if (len(want17) == 0 && known17) || (len(want22) == 0 && known22) {
+				c.add(CodeHSMixtureUnknown, "", "the HS subheading of %s could not be determined in every edition%s; the declared %s was not checked", name, noteSuffix(c.ev.HSNote), code)
+				return
+			}
+		}
+		c.add(CodeHSMismatch, "", "HS %s is not a subheading of %s; accepted: %s", code, name, hsExpect(want22, want17))
+		return
+	}
+	fits := substances.HS2022
+	if c.dateOK {
+		inForce, other := substances.HS2017, substances.HS2022
+		inForceCodes, fitsInForce := want17, in17
+		if !c.date.Before(hs2022Start) {
+			inForce, other = substances.HS2022, substances.HS2017
+			inForceCodes, fitsInForce = want22, in22
+		}
+		fits = inForce
+		if !fitsInForce {
+			fits = other
+			if len(inForceCodes) > 0 {
+				c.add(CodeHSEdition, "", "%s is the %s subheading of %s; on %s %s is in force and classifies it in %s",
+					code, other, name, isoDate(c.date), inForce, strings.Join(inForceCodes, " or "))
+			}
+		}
+	} else if !in22 {
+		fits = substances.HS2017
+	}
+	shared := false
+	if sh, ok := substances.LookupHS(fits, code); ok && sh.Shared {
+		shared = true
+	}
+	if c.sub != nil && c.env.hsCount[hsKey{fits, code}] > 1 {
+		shared = true
+	}
+	if shared {
+		c.add(CodeHSShared, "", "%s %s fits %s but also holds other goods; the code alone does not prove identity", fits, code, name)
+	}
+}
+
+func hsExpect(want22, want17 []string) string {
+	var parts []string
+	if len(want22) > 0 {
+		parts = append(parts, strings.Join(want22, " or ")+" (HS 2022)")
+	}
+	if len(want17) > 0 {
+		parts = append(parts, strings.Join(want17, " or ")+" (HS 2017)")
+	}
+	if len(parts) == 0 {
+		return "none recorded in the catalogue"
+	}
+	return strings.Join(parts, ", ")
+}
+
+// formulaRule checks a declared formula against the substance's.
+func (c *checker) formulaRule() {
+	s := strings.TrimSpace(c.r.Formula)
+	if s == "" {
+		return
+	}
+	if c.isMixture() {
+		c.add(CodeFormulaNotApplic, "", "a formula is declared for %s, a mixture; blends have no formula", c.mixtureName())
+		return
+	}
+	if c.sub == nil {
+		return
+	}
+	got, err := substances.ParseFormula(s)
+	if err != nil {
+		c.add(CodeFormulaFormat, "", "declared_formula %q: %v", cutText(s), err)
+		return
+	}
+	want, ok := c.env.formula(c.sub)
+	if !ok {
+		return
+	}
+	if !got.Equal(want) {
+		c.add(CodeFormulaMismatch, "", "declared formula %s (%s) is not the formula of %s (%s)", cutText(s), got.Hill(), c.sub.Designation, want.Hill())
+	}
+}

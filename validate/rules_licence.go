@@ -1,0 +1,275 @@
+package validate
+
+import (
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// QuotaLedger tracks what earlier records of one stream drew on quota lines, on top of the
+// Drawn amounts the licences were loaded with. A batch check (check mode) passes one ledger
+// through every record so that the second of two shipments is judged against what the first
+// left; the store does the authoritative draw under row locks when recording and passes nil.
+type QuotaLedger interface {
+	// Drawn returns what earlier accepted records of the stream drew on the line.
+	Drawn(licence string, line int) float64
+	// Draw adds an accepted record's draw.
+	Draw(licence string, line int, amount float64)
+}
+
+// MemoryLedger is a QuotaLedger in memory, for one stream; it is not safe for concurrent use.
+type MemoryLedger struct {
+	m map[lineRef]float64
+}
+
+type lineRef struct {
+	licence string
+	line    int
+}
+
+// NewMemoryLedger returns an empty ledger.
+func NewMemoryLedger() *MemoryLedger { return &MemoryLedger{m: map[lineRef]float64{}} }
+
+// Drawn implements QuotaLedger.
+func (l *MemoryLedger) Drawn(licence string, line int) float64 { return l.m[lineRef{licence, line}] }
+
+// Draw implements QuotaLedger.
+func (l *MemoryLedger) Draw(licence string, line int, amount float64) {
+	l.m[lineRef{licence, line}] += amount
+}
+
+// nearLimitShare is the share of a quota line's allocation above which a notice is given.
+const nearLimitShare = 0.9
+
+// quotaEpsilon absorbs binary rounding when a draw takes a line exactly to its allocation;
+// the store counts in billionths of the unit.
+const quotaEpsilon = 5e-10
+
+// InScope reports whether a component falls in a quota line's scope: the line's substance
+// (by catalogue designation, case-insensitive) or, for a group line, the line's Annex group.
+func InScope(line QuotaLine, comp substances.ComponentFigures) bool {
+	if line.Substance != "" {
+		return strings.EqualFold(line.Substance, comp.Designation)
+	}
+	return line.Group.Controlled() && comp.Group == line.Group
+}
+
+// componentDraw is what one component draws in a unit.
+func componentDraw(u QuotaUnit, comp substances.ComponentFigures) float64 {
+	switch u {
+	case QuotaMetricTonnes:
+		return comp.MassKg / 1000
+	case QuotaODPTonnes:
+		return comp.ODPTonnes
+	case QuotaCO2eTonnes:
+		// Mass times the Protocol GWP: equals comp.CO2eTonnes for Annex F components, and
+		// uses the Kigali-listed GWP for a CFC or HCFC on a CO2-eq line.
+		return comp.MassKg / 1000 * comp.ProtocolGWP
+	}
+	return 0
+}
+
+// Draw returns what a shipment with these figures draws on one quota line, in the line's unit:
+// metric tonnes, ODP tonnes, or CO2-eq tonnes with the Protocol's GWPs. Only components in the
+// line's scope count, so a blend draws on an HFC line only for its HFC components.
+func Draw(line QuotaLine, fig Figures) float64 {
+	sum := 0.0
+	for _, comp := range fig.Components {
+		if InScope(line, comp) {
+			sum += componentDraw(line.Unit, comp)
+		}
+	}
+	return sum
+}
+
+// bestLine picks the quota line a component draws on: a substance line before a group line,
+// then the lowest line number. It returns -1 when no line covers the component.
+func bestLine(lic *Licence, comp substances.ComponentFigures) int {
+	best := -1
+	for i, l := range lic.QuotaLines {
+		if !InScope(l, comp) {
+			continue
+		}
+		if best < 0 {
+			best = i
+			continue
+		}
+		b := lic.QuotaLines[best]
+		if (l.Substance != "" && b.Substance == "") ||
+			((l.Substance != "") == (b.Substance != "") && l.LineNumber < b.LineNumber) {
+			best = i
+		}
+	}
+	return best
+}
+
+// PlanDraws assigns each controlled component of a shipment to one quota line of the licence
+// (a substance line before a group line, then the lowest line number) and sums the draws per
+// line, in line-number order. Components no line covers are returned as uncovered. The draws
+// equal Draw(line, fig) whenever no two lines of the licence overlap.
+func PlanDraws(lic *Licence, fig Figures) (draws []LineDraw, uncovered []substances.ComponentFigures) {
+	for _, comp := range fig.Components {
+		if !comp.Group.Controlled() {
+			continue
+		}
+		i := bestLine(lic, comp)
+		if i < 0 {
+			uncovered = append(uncovered, comp)
+			continue
+		}
+		l := lic.QuotaLines[i]
+		amount := componentDraw(l.Unit, comp)
+		k := slices.IndexFunc(draws, func(d LineDraw) bool { return d.LineNumber == l.LineNumber })
+		if k < 0 {
+			draws = append(draws, LineDraw{LicenceNumber: lic.Number, LineNumber: l.LineNumber, Unit: l.Unit, Amount: amount})
+		} else {
+			draws[k].Amount += amount
+		}
+	}
+	slices.SortFunc(draws, func(a, b LineDraw) int { return a.LineNumber - b.LineNumber })
+	return draws, uncovered
+}
+
+func (lic *Licence) line(number int) (QuotaLine, bool) {
+	for _, l := range lic.QuotaLines {
+		if l.LineNumber == number {
+			return l, true
+		}
+	}
+	return QuotaLine{}, false
+}
+
+func (lic *Licence) coversDirection(d Direction) bool {
+	for _, x := range lic.Directions {
+		if x == d || (d == DirectionReExport && x == DirectionExport) {
+			return true
+		}
+	}
+	return false
+}
+
+func (lic *Licence) allowsPurpose(p Purpose) bool {
+	return slices.Contains(lic.SpecialPurposes, p)
+}
+
+// licenceRules checks the licence named by a shipment of controlled substances, its scope,
+// and the quota it draws on.
+func (c *checker) licenceRules() {
+	r := c.r
+	num := strings.TrimSpace(r.LicenceNumber)
+	if num == "" {
+		switch r.Direction {
+		case DirectionImport, DirectionExport, DirectionReExport:
+			c.add(CodeLicenceMissing, "", "licence_number is empty; an %s of %s needs a licence (Article 4B)", r.Direction, joinGroups(c.groups))
+		}
+		return
+	}
+	lic, ok := c.env.Licence(num)
+	if !ok || lic == nil {
+		c.add(CodeLicenceUnknown, "", "no licence %q exists", cutText(num))
+		return
+	}
+	c.lic = lic
+	if company := strings.TrimSpace(r.CompanyID); company != "" && company != lic.CompanyID {
+		c.add(CodeLicenceCompany, "", "licence %s is held by company %s, not by %s", lic.Number, lic.CompanyID, cutText(company))
+	}
+	if r.Direction != DirectionUnspecified && !lic.coversDirection(r.Direction) {
+		c.add(CodeLicenceDirection, "", "licence %s covers %s, not %s", lic.Number, directionList(lic.Directions), r.Direction)
+	}
+	if lic.Status != LicenceActive {
+		c.add(CodeLicenceInactive, "", "licence %s is %s; only an active licence is accepted", lic.Number, lic.Status)
+	}
+	if c.dateOK {
+		if c.date.Before(day(lic.ValidFrom)) {
+			c.add(CodeLicenceNotYetValid, "", "declaration_date %s is before licence %s is valid (from %s)", isoDate(c.date), lic.Number, isoDate(lic.ValidFrom))
+		}
+		if !lic.ValidTo.IsZero() && c.date.After(day(lic.ValidTo)) {
+			c.add(CodeLicenceExpired, "", "declaration_date %s is after licence %s expired (valid to %s)", isoDate(c.date), lic.Number, isoDate(lic.ValidTo))
+		}
+	}
+	switch r.Purpose {
+	case PurposeFeedstock, PurposeDestruction:
+		if !lic.allowsPurpose(r.Purpose) {
+			c.add(CodePurposeNotLicensed, "", "purpose %s needs a licence that lists it; licence %s lists %s", r.Purpose, lic.Number, purposeList(lic.SpecialPurposes))
+		}
+	}
+	if !c.evOK {
+		return
+	}
+	fig := Figures{Components: c.ev.Components}
+	draws, uncovered := PlanDraws(lic, fig)
+	for _, comp := range uncovered {
+		c.add(CodeLicenceScope, "", "no quota line of licence %s covers %s (%s)%s", lic.Number, comp.Designation, groupLabel(comp.Group), c.componentOf())
+	}
+	if r.Direction == DirectionTransit || !c.qtyOK {
+		return
+	}
+	for _, d := range draws {
+		line, _ := lic.line(d.LineNumber)
+		if line.Unit < QuotaMetricTonnes || line.Unit > QuotaCO2eTonnes || line.Allocated < 0 || math.IsNaN(line.Allocated) {
+			c.add(CodeQuotaLineInvalid, "", "quota line %d of licence %s has unit %s and allocation %g; it cannot be drawn on", line.LineNumber, lic.Number, line.Unit, line.Allocated)
+			continue
+		}
+		earlier := 0.0
+		if c.ledger != nil {
+			earlier = c.ledger.Drawn(lic.Number, line.LineNumber)
+		}
+		used := line.Drawn + earlier
+		remaining := line.Allocated - used
+		if d.Amount > remaining+quotaEpsilon {
+			c.add(CodeQuotaExceeded, "", "the shipment draws %s %s on quota line %d (%s) of licence %s, but only %s %s remain of %s allocated",
+				fmtAmount(d.Amount), line.Unit, line.LineNumber, lineScope(line), lic.Number, fmtAmount(math.Max(remaining, 0)), line.Unit, fmtAmount(line.Allocated))
+			continue
+		}
+		if line.Allocated > 0 && (used+d.Amount)/line.Allocated > nearLimitShare {
+			c.add(CodeQuotaNearLimit, "", "after this shipment %.1f %% of quota line %d (%s) of licence %s is used (%s of %s %s)",
+				100*(used+d.Amount)/line.Allocated, line.LineNumber, lineScope(line), lic.Number, fmtAmount(used+d.Amount), fmtAmount(line.Allocated), line.Unit)
+		}
+	}
+	c.draws = draws
+}
+
+func (c *checker) componentOf() string {
+	if c.isMixture() {
+		return ", a component of " + c.designation
+	}
+	return ""
+}
+
+func lineScope(l QuotaLine) string {
+	if l.Substance != "" {
+		return l.Substance
+	}
+	return "Annex " + string(l.Group)
+}
+
+// fmtAmount prints a quota amount with up to 9 decimals (the store's resolution).
+func fmtAmount(f float64) string {
+	s := strings.TrimRight(strconv.FormatFloat(f, 'f', 9, 64), "0")
+	return strings.TrimSuffix(s, ".")
+}
+
+func directionList(ds []Direction) string {
+	if len(ds) == 0 {
+		return "no direction"
+	}
+	parts := make([]string, len(ds))
+	for i, d := range ds {
+		parts[i] = d.String()
+	}
+	return strings.Join(parts, ", ")
+}
+
+func purposeList(ps []Purpose) string {
+	if len(ps) == 0 {
+		return "no special purpose"
+	}
+	parts := make([]string, len(ps))
+	for i, p := range ps {
+		parts[i] = p.String()
+	}
+	return strings.Join(parts, ", ")
+}

@@ -1,0 +1,415 @@
+package validate
+
+import (
+	"math"
+	"strings"
+	"testing"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// ruleCase is one check of one code: edit the base record (and optionally the environment)
+// and expect the code to fire (with the message containing every string in msg) or to stay
+// silent.
+type ruleCase struct {
+	code string
+	fire bool
+	name string
+	edit func(*Record)
+	env  func(*Env)
+	msg  []string
+}
+
+func fire(code, name string, edit func(*Record), msg ...string) ruleCase {
+	return ruleCase{code: code, fire: true, name: name, edit: edit, msg: msg}
+}
+
+func silent(code, name string, edit func(*Record)) ruleCase {
+	return ruleCase{code: code, fire: false, name: name, edit: edit}
+}
+
+func withEnv(c ruleCase, f func(*Env)) ruleCase { c.env = f; return c }
+
+func r404A(r *Record) {
+	r.Substance, r.HSCode, r.CAS, r.Formula = "R-404A", "3827.61", "", ""
+}
+
+func hfc134a(r *Record) {
+	// source: reference/halocarbons.csv (CAS, formula); CONTROL_RULES.md §6 (HS 2022 2903.45)
+	r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HFC-134a", "2903.45", "811-97-2", "C2H2F4", "12", 1
+}
+
+func cfc12(r *Record) {
+	// source: reference/halocarbons.csv (CAS 75-71-8, CCl2F2); CONTROL_RULES.md §6 (2903.77)
+	r.Substance, r.HSCode, r.CAS, r.Formula = "CFC-12", "2903.77", "75-71-8", "CCl2F2"
+}
+
+func methylBromide(r *Record) {
+	// source: reference/halocarbons.csv (CAS 74-83-9, CH3Br); CONTROL_RULES.md §6 (2903.61)
+	r.Substance, r.HSCode, r.CAS, r.Formula = "methyl bromide", "2903.61", "74-83-9", "CH3Br"
+}
+
+var ruleCases = []ruleCase{
+	// record
+	fire(CodeKeyMissing, "empty key", func(r *Record) { r.Key = " " }),
+	silent(CodeKeyMissing, "key given", func(r *Record) { r.Key = "x" }),
+	fire(CodeKeyInvalid, "129-byte key", func(r *Record) { r.Key = strings.Repeat("k", 129) }, "129 bytes"),
+	fire(CodeKeyInvalid, "control character", func(r *Record) { r.Key = "K\x01" }, "control"),
+	silent(CodeKeyInvalid, "128-byte key", func(r *Record) { r.Key = strings.Repeat("k", 128) }),
+	fire(CodeFieldUnreadable, "reader issue", func(r *Record) {
+		r.Unreadable = []FieldIssue{{Field: "purpose", Text: "fun", Reason: "unknown value: purpose \"fun\""}}
+	}, "purpose"),
+	fire(CodeFieldUnreadable, "purpose number out of range", func(r *Record) { r.Purpose = 99 }, "99"),
+	silent(CodeFieldUnreadable, "all fields readable", nil),
+	fire(CodeDirectionMissing, "unspecified", func(r *Record) { r.Direction = DirectionUnspecified }),
+	fire(CodeDirectionMissing, "out of range", func(r *Record) { r.Direction = 7 }),
+	silent(CodeDirectionMissing, "unreadable direction is reported once, as unreadable", func(r *Record) {
+		r.Direction = DirectionUnspecified
+		r.Unreadable = []FieldIssue{{Field: "direction", Text: "sideways", Reason: "x"}}
+	}),
+	fire(CodeCompanyMissing, "blank company", func(r *Record) { r.CompanyID = "  " }),
+	silent(CodeCompanyMissing, "company given", nil),
+
+	// identity
+	fire(CodeSubstMissing, "nothing declared", func(r *Record) { r.Substance = "" }),
+	silent(CodeSubstMissing, "composition only", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
+		r.Composition = []DeclaredShare{{"HFC-32", 50}, {"HFC-125", 50}}
+	}),
+	fire(CodeSubstUnknown, "unknown blend number, with a suggestion", func(r *Record) { r.Substance = "R-999" }, "R-999", "did you mean", "R-290"),
+	fire(CodeSubstUnknown, "unknown word", func(r *Record) { r.Substance = "frobnicate" }, "frobnicate"),
+	silent(CodeSubstUnknown, "R-number spelling", func(r *Record) { r.Substance = "R22" }),
+	fire(CodeSubstAmbiguous, "formula of two catalogue entries", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "C2HCl2F3", "", "", ""
+	}, "HCFC-123", "HCFC-123 (isomer group)"),
+	fire(CodeSubstAmbiguous, "HS code as substance", func(r *Record) { r.Substance = "2903.45" }, "HFC-134", "HFC-134a"),
+	silent(CodeSubstAmbiguous, "designation", func(r *Record) { r.Substance, r.HSCode, r.CAS, r.Formula = "HCFC-123", "", "", "" }),
+	fire(CodeSubstLooseMatch, "formula as substance", func(r *Record) { r.Substance = "CHClF2" }, "HCFC-22", "formula"),
+	silent(CodeSubstLooseMatch, "synonym", func(r *Record) { r.Substance = "R-22" }),
+	fire(CodeSubstNotControlled, "HFO", func(r *Record) {
+		// source: reference/halocarbons.csv (CAS 754-12-1, C3H2F4); CONTROL_RULES.md §6 (2903.51)
+		r.Substance, r.HSCode, r.CAS, r.Formula, r.LicenceNumber = "HFO-1234yf", "2903.51", "754-12-1", "C3H2F4", ""
+	}, "HFO-1234yf"),
+	silent(CodeSubstNotControlled, "HCFC", nil),
+	fire(CodeCASFormat, "misplaced hyphen", func(r *Record) { r.CAS = "75-4-56" }),
+	fire(CodeCASFormat, "letters", func(r *Record) { r.CAS = "CAS 75-45-6x" }),
+	silent(CodeCASFormat, "digits without hyphens are read", func(r *Record) { r.CAS = "75456" }),
+	silent(CodeCASFormat, "good layout", nil),
+	// source: CAS check-digit method (reference/CONTROL_RULES.md §8): 75-45-6 is valid, so 75-45-7 is not.
+	fire(CodeCASCheckDigit, "wrong check digit", func(r *Record) { r.CAS = "75-45-7" }, "75-45-7", "give 6"),
+	silent(CodeCASCheckDigit, "right check digit", nil),
+	fire(CodeCASMismatch, "HFC-134a's number on HCFC-22", func(r *Record) { r.CAS = "811-97-2" }, "HFC-134a", "75-45-6"),
+	// 7732-18-5 has a valid check digit (CONTROL_RULES.md §8 self-test) and names no catalogue substance.
+	fire(CodeCASMismatch, "number outside the catalogue", func(r *Record) { r.CAS = "7732-18-5" }, "7732-18-5", "not the number of HCFC-22"),
+	silent(CodeCASMismatch, "own number", nil),
+	fire(CodeCASNotApplicable, "CAS on a blend", func(r *Record) { r404A(r); r.CAS = "354-33-6" }, "R-404A"),
+	silent(CodeCASNotApplicable, "blend without CAS", r404A),
+	fire(CodeCASUnverified, "isomer group", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "HCFC-133", "", "7732-18-5", ""
+	}, "isomer group"),
+	silent(CodeCASUnverified, "isomer group without CAS", func(r *Record) { r.Substance, r.HSCode, r.CAS, r.Formula = "HCFC-133", "", "", "" }),
+	fire(CodeHSFormat, "four digits", func(r *Record) { r.HSCode = "2903" }),
+	silent(CodeHSFormat, "national extension", func(r *Record) { r.HSCode = "2903.71.00" }),
+	fire(CodeHSMismatch, "HFC code on HCFC-22", func(r *Record) { r.HSCode = "2903.45" }, "2903.71 (HS 2022)"),
+	fire(CodeHSMismatch, "CFC mixture code on R-404A", func(r *Record) { r404A(r); r.HSCode = "3827.11" }, "3827.61 (HS 2022)", "3824.78 (HS 2017)"),
+	silent(CodeHSMismatch, "digits only", func(r *Record) { r.HSCode = "290371" }),
+	silent(CodeHSMismatch, "blend code", r404A),
+	fire(CodeHSShared, "2903.45 holds HFC-134 and HFC-134a", hfc134a, "HFC-134a"),
+	fire(CodeHSShared, "2903.77 holds uncontrolled goods too", cfc12),
+	silent(CodeHSShared, "2903.71 is HCFC-22 only", nil),
+	fire(CodeHSEdition, "HS 2017 code in 2025", func(r *Record) { hfc134a(r); r.HSCode = "2903.39" }, "2903.45", "HS2022"),
+	silent(CodeHSEdition, "HS 2017 code in 2021", func(r *Record) { hfc134a(r); r.HSCode = "2903.39"; r.DeclarationDate = "2021-06-01" }),
+	silent(CodeHSEdition, "HS 2022 code in 2025", hfc134a),
+	fire(CodeHSMixtureUnknown, "R-454B under HS 2022", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "R-454B", "3827.69", "", ""
+	}, "R-454B"),
+	silent(CodeHSMixtureUnknown, "R-404A", r404A),
+	fire(CodeFormulaFormat, "unreadable", func(r *Record) { r.Formula = "C2H?F4" }),
+	silent(CodeFormulaFormat, "other atom order", func(r *Record) { r.Formula = "CHF2Cl" }),
+	fire(CodeFormulaMismatch, "HFC formula on HCFC-22", func(r *Record) { r.Formula = "C2H2F4" }, "C2H2F4", "CHClF2"),
+	silent(CodeFormulaMismatch, "other atom order", func(r *Record) { r.Formula = "CHF2Cl" }),
+	fire(CodeFormulaNotApplic, "formula on a blend", func(r *Record) { r404A(r); r.Formula = "C2HF5" }),
+	silent(CodeFormulaNotApplic, "blend without formula", r404A),
+
+	// quantity
+	fire(CodeQtyMissing, "empty", func(r *Record) { r.Quantity = "" }),
+	silent(CodeQtyMissing, "given", nil),
+	fire(CodeQtyFormat, "decimal comma", func(r *Record) { r.Quantity = "13,6" }, "use a dot"),
+	fire(CodeQtyFormat, "thousands space", func(r *Record) { r.Quantity = "1 250"; r.ContainerCount = 0 }, "without spaces"),
+	silent(CodeQtyFormat, "dot", nil),
+	fire(CodeQtyNotPositive, "zero", func(r *Record) { r.Quantity = "0" }),
+	fire(CodeQtyNotPositive, "negative", func(r *Record) { r.Quantity = "-3" }),
+	silent(CodeQtyNotPositive, "one gram", func(r *Record) { r.Quantity, r.ContainerCount = "0.001", 0 }),
+	fire(CodeQtyTooLarge, "over a million tonnes", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "1000001", "t", 0 }),
+	silent(CodeQtyTooLarge, "a million tonnes", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "1000000", "t", 0 }),
+	fire(CodeQtyUnitUnknown, "ambiguous ton", func(r *Record) { r.Unit = "ton" }, "short ton"),
+	fire(CodeQtyUnitUnknown, "empty", func(r *Record) { r.Unit = "" }),
+	fire(CodeQtyUnitUnknown, "ounces", func(r *Record) { r.Unit = "oz" }),
+	silent(CodeQtyUnitUnknown, "LBS", func(r *Record) { r.Unit = "LBS" }),
+	fire(CodeQtyContainersInvalid, "negative", func(r *Record) { r.ContainerCount = -1 }),
+	silent(CodeQtyContainersInvalid, "zero", func(r *Record) { r.ContainerCount = 0 }),
+	fire(CodeQtyFillLarge, "1200 kg per container", func(r *Record) { r.Quantity, r.ContainerCount = "1200", 2 }, "1200 kg"),
+	silent(CodeQtyFillLarge, "1000 kg ton container", func(r *Record) { r.Quantity, r.ContainerCount = "1000", 1 }),
+	silent(CodeQtyFillLarge, "large total", func(r *Record) { r.Quantity, r.ContainerCount = "5000", 0 }),
+	fire(CodeQtyFillSmall, "50 g per container", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "50", "g", 10 }, "0.05 kg"),
+	silent(CodeQtyFillSmall, "laboratory ampoules", func(r *Record) {
+		r.Quantity, r.Unit, r.ContainerCount, r.Purpose = "50", "g", 10, PurposeLaboratory
+	}),
+	silent(CodeQtyFillSmall, "0.1 kg", func(r *Record) { r.Quantity, r.ContainerCount = "0.1", 10 }),
+
+	// party
+	fire(CodePartnerMissing, "empty", func(r *Record) { r.PartnerCountry = "" }),
+	silent(CodePartnerMissing, "lower case", func(r *Record) { r.PartnerCountry = "xb" }),
+	fire(CodePartnerFormat, "three letters", func(r *Record) { r.PartnerCountry = "XBB" }),
+	fire(CodePartnerFormat, "digit", func(r *Record) { r.PartnerCountry = "X1" }),
+	silent(CodePartnerFormat, "lower case", func(r *Record) { r.PartnerCountry = "xb" }),
+	fire(CodePartnerUnknown, "no settings", func(r *Record) { r.PartnerCountry = "QZ" }, "QZ"),
+	silent(CodePartnerUnknown, "known", nil),
+	fire(CodePartnerSelf, "reporting Party", func(r *Record) { r.PartnerCountry = "xa" }, "XA"),
+	silent(CodePartnerSelf, "other", nil),
+	// source: reference/CONTROL_RULES.md §5: HCFC trade with non-Parties banned from 2004-01-01 [V].
+	fire(CodePartnerNonParty, "HCFC import from a non-Party", func(r *Record) { r.PartnerCountry = "XD" }, "2004-01-01", "Annex C/I"),
+	fire(CodePartnerNonParty, "re-export counts as export", func(r *Record) {
+		r.PartnerCountry, r.Direction, r.LicenceNumber = "XD", DirectionReExport, "XA-EXP-2025-002"
+	}, "exports of it to"),
+	silent(CodePartnerNonParty, "transit through", func(r *Record) { r.PartnerCountry, r.Direction = "XD", DirectionTransit }),
+	silent(CodePartnerNonParty, "HFC from a Party not bound by Kigali before 2033", func(r *Record) { hfc134a(r); r.PartnerCountry = "XC" }),
+	fire(CodePartnerNotBound, "HFC from a Party not bound by Kigali before 2033", func(r *Record) { hfc134a(r); r.PartnerCountry = "XC" }, "2033-01-01"),
+	silent(CodePartnerNotBound, "bound partner", nil),
+
+	// dates
+	fire(CodeDateMissing, "empty", func(r *Record) { r.DeclarationDate = "" }),
+	silent(CodeDateMissing, "given", nil),
+	fire(CodeDateFormat, "day first", func(r *Record) { r.DeclarationDate = "01/06/2025" }, "YYYY-MM-DD"),
+	fire(CodeDateFormat, "30 February", func(r *Record) { r.DeclarationDate = "2025-02-30" }, "does not exist"),
+	silent(CodeDateFormat, "ISO date", nil),
+	fire(CodeDateFuture, "three days ahead", func(r *Record) { r.DeclarationDate = "2025-06-18" }, "2025-06-15", "2 days"),
+	silent(CodeDateFuture, "two days ahead", func(r *Record) { r.DeclarationDate = "2025-06-17" }),
+	withEnv(fire(CodeDateFuture, "tomorrow with no tolerance", func(r *Record) { r.DeclarationDate = "2025-06-16" }),
+		func(e *Env) { e.FutureToleranceDays = 0 }),
+	fire(CodeLicenceNotYetValid, "day before validity", func(r *Record) { r.DeclarationDate = "2024-12-31" }, "2025-01-01"),
+	silent(CodeLicenceNotYetValid, "first day", func(r *Record) { r.DeclarationDate = "2025-01-01" }),
+	fire(CodeLicenceExpired, "day after validity", func(r *Record) { r.LicenceNumber, r.DeclarationDate = "XA-IMP-2024-007", "2025-01-01" }, "2024-12-31"),
+	silent(CodeLicenceExpired, "last day", func(r *Record) { r.LicenceNumber, r.DeclarationDate = "XA-IMP-2024-007", "2024-12-31" }),
+	silent(CodeLicenceExpired, "open-ended licence", func(r *Record) { r.LicenceNumber = "XA-IMP-OPEN-009" }),
+
+	// licence
+	fire(CodeLicenceMissing, "import without licence", func(r *Record) { r.LicenceNumber = "" }, "Article 4B"),
+	silent(CodeLicenceMissing, "transit without licence", func(r *Record) { r.LicenceNumber, r.Direction = "", DirectionTransit }),
+	fire(CodeLicenceUnknown, "no such licence", func(r *Record) { r.LicenceNumber = "NOPE-1" }, "NOPE-1"),
+	silent(CodeLicenceUnknown, "issued licence", nil),
+	fire(CodeLicenceCompany, "other holder", func(r *Record) { r.LicenceNumber = "XA-IMP-2025-004" }, "CO-2"),
+	silent(CodeLicenceCompany, "own licence", nil),
+	fire(CodeLicenceDirection, "export on an import licence", func(r *Record) { r.Direction = DirectionExport }, "covers import"),
+	silent(CodeLicenceDirection, "re-export on an export licence", func(r *Record) { r.Direction, r.LicenceNumber = DirectionReExport, "XA-EXP-2025-002" }),
+	fire(CodeLicenceInactive, "suspended", func(r *Record) { r.LicenceNumber = "XA-IMP-2025-003" }, "suspended"),
+	silent(CodeLicenceInactive, "active", nil),
+	fire(CodeLicenceScope, "CFC on a licence without an A/I line", cfc12, "CFC-12", "Annex A/I"),
+	fire(CodeLicenceScope, "HCFC component of a blend on an HFC-only licence", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula, r.LicenceNumber = "R-402A", "", "", "", "XA-IMP-2025-008"
+	}, "HCFC-22", "component of R-402A"),
+	silent(CodeLicenceScope, "blend covered by two group lines", func(r *Record) { r.Substance, r.HSCode, r.CAS, r.Formula = "R-402A", "", "", "" }),
+
+	// quota: line 2 (C/I, ODP t) has 1 allocated and 0.5 drawn. source of ODP 0.055: DOMAIN.md §2.
+	fire(CodeQuotaExceeded, "10 t HCFC-22 = 0.55 ODP t", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "10", "t", 0 }, "0.55 ODP t", "0.5 ODP t remain"),
+	fire(CodeQuotaExceeded, "a gram over a metric-tonne line", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HCFC-141b", "", "", "", "2000.001", 0
+	}, "line 3"),
+	silent(CodeQuotaExceeded, "exactly the allocation of a metric-tonne line", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HCFC-141b", "", "", "", "2000", 0
+	}),
+	silent(CodeQuotaExceeded, "9 t HCFC-22 = 0.495 ODP t", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "9", "t", 0 }),
+	fire(CodeQuotaNearLimit, "9 t HCFC-22 takes the line to 99.5 %", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "9", "t", 0 }, "99.5 %"),
+	silent(CodeQuotaNearLimit, "136 kg", nil),
+	fire(CodeQuotaLineInvalid, "line without unit", func(r *Record) { r.LicenceNumber = "XA-IMP-2025-006" }),
+	silent(CodeQuotaLineInvalid, "good line", nil),
+
+	// phase-out (testAllowed: CFCs 0 % from 2005)
+	fire(CodePhasedOut, "CFC import for servicing", func(r *Record) { cfc12(r); r.LicenceNumber = "XA-FEED-2025-005" }, "Annex A/I", "2025"),
+	fire(CodePhasedOut, "QPS does not exempt a CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS }),
+	silent(CodePhasedOut, "CFC import as feedstock", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }),
+	silent(CodePhasedOut, "used CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Condition = "XA-FEED-2025-005", ConditionUsed }),
+	silent(CodePhasedOut, "CFC export", func(r *Record) { cfc12(r); r.LicenceNumber, r.Direction = "XA-EXP-2025-002", DirectionExport }),
+	silent(CodePhasedOut, "methyl bromide for QPS", func(r *Record) { methylBromide(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS }),
+	silent(CodePhasedOut, "HCFC within the servicing tail", nil),
+	fire(CodePhasedOutExempt, "CFC import as feedstock", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }, "feedstock"),
+	fire(CodePhasedOutExempt, "reclaimed CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Condition = "XA-FEED-2025-005", ConditionReclaimed }, "reclaimed material"),
+	silent(CodePhasedOutExempt, "HCFC within the servicing tail", nil),
+	withEnv(fire(CodeScheduleUnknown, "no schedule", nil, "Annex C/I"),
+		func(e *Env) {
+			e.AllowedPercent = func(g substances.Group, y int) (float64, bool) { return 0, false }
+		}),
+	silent(CodeScheduleUnknown, "schedule known", nil),
+
+	// purpose
+	fire(CodePurposeMissing, "unspecified", func(r *Record) { r.Purpose = PurposeUnspecified }),
+	silent(CodePurposeMissing, "servicing", nil),
+	fire(CodeQPSNotMB, "QPS for HCFC-22", func(r *Record) { r.Purpose = PurposeQPS }, "methyl bromide"),
+	silent(CodeQPSNotMB, "QPS for methyl bromide", func(r *Record) { methylBromide(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS }),
+	fire(CodePurposeNotLicensed, "feedstock on an ordinary licence", func(r *Record) { r.Purpose = PurposeFeedstock }, "feedstock"),
+	fire(CodePurposeNotLicensed, "destruction on an ordinary licence", func(r *Record) { r.Purpose = PurposeDestruction }, "destruction"),
+	silent(CodePurposeNotLicensed, "feedstock on a feedstock licence", func(r *Record) { r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }),
+	fire(CodePurposeNotCounted, "feedstock", func(r *Record) { r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }),
+	fire(CodePurposeNotCounted, "process agent", func(r *Record) { r.Purpose = PurposeProcessAgent }),
+	silent(CodePurposeNotCounted, "servicing", nil),
+	fire(CodeRecoveredNotCounted, "recycled", func(r *Record) { r.Condition = ConditionRecycled }, "Decision IV/24"),
+	silent(CodeRecoveredNotCounted, "virgin", nil),
+	fire(CodeTransitNotCounted, "transit", func(r *Record) { r.Direction = DirectionTransit }),
+	silent(CodeTransitNotCounted, "import", nil),
+
+	// mixture
+	fire(CodeMixAdHoc, "composition only", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
+		r.Composition = []DeclaredShare{{"HFC-32", 50}, {"HFC-125", 50}}
+	}, "mixture: HFC-32/HFC-125 50/50"),
+	silent(CodeMixAdHoc, "named blend", func(r *Record) { r.Substance, r.HSCode, r.CAS, r.Formula = "R-410A", "", "", "" }),
+	fire(CodeMixComponentUnknown, "unknown component", func(r *Record) {
+		r404A(r)
+		r.Composition = []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {"R-999", 4}}
+	}, "component 3", "R-999"),
+	fire(CodeMixComponentUnknown, "a blend as component", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
+		r.Composition = []DeclaredShare{{"R-410A", 50}, {"HFC-134a", 50}}
+	}, "blend R-410A"),
+	silent(CodeMixComponentUnknown, "R-numbers as components", func(r *Record) {
+		r404A(r)
+		r.Composition = []DeclaredShare{{"R-125", 44}, {"R-143a", 52}, {"R-134a", 4}}
+	}),
+	fire(CodeMixShareInvalid, "zero share", func(r *Record) {
+		r404A(r)
+		r.Composition = []DeclaredShare{{"HFC-125", 48}, {"HFC-143a", 52}, {"HFC-134a", 0}}
+	}, "component 3"),
+	fire(CodeMixShareInvalid, "over 100", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
+		r.Composition = []DeclaredShare{{"HFC-32", 120}}
+	}),
+	silent(CodeMixShareInvalid, "nominal", func(r *Record) {
+		r404A(r)
+		r.Composition = []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {"HFC-134a", 4}}
+	}),
+	fire(CodeMixSum, "99.98 %", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
+		r.Composition = []DeclaredShare{{"HFC-32", 50}, {"HFC-125", 49.98}}
+	}, "99.98"),
+	silent(CodeMixSum, "99.995 %", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
+		r.Composition = []DeclaredShare{{"HFC-32", 50}, {"HFC-125", 49.995}}
+	}),
+	fire(CodeMixComponentMismatch, "R-404A with HFC-32", func(r *Record) {
+		r404A(r)
+		r.Composition = []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {"HFC-32", 4}}
+	}, "lacks HFC-134a", "names HFC-32"),
+	fire(CodeMixComponentMismatch, "substance declared with another composition", func(r *Record) {
+		r.Composition = []DeclaredShare{{"HFC-32", 100}}
+	}, "HCFC-22 alone"),
+	fire(CodeMixComponentMismatch, "component twice", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
+		r.Composition = []DeclaredShare{{"HFC-32", 50}, {"R-32", 50}}
+	}, "listed twice"),
+	silent(CodeMixComponentMismatch, "substance at 100 %", func(r *Record) { r.Composition = []DeclaredShare{{"R-22", 100}} }),
+	// source: reference/blend_components.csv: R-404A = HFC-125 44 ±2, HFC-143a 52 ±1, HFC-134a 4 ±2.
+	fire(CodeMixOutOfTolerance, "HFC-125 at 47 %", func(r *Record) {
+		r404A(r)
+		r.Composition = []DeclaredShare{{"HFC-125", 47}, {"HFC-143a", 51}, {"HFC-134a", 2}}
+	}, "HFC-125 in R-404A", "declared 47 %", "allowed 42 to 46 %"),
+	silent(CodeMixOutOfTolerance, "every share at a limit", func(r *Record) {
+		r404A(r)
+		r.Composition = []DeclaredShare{{"HFC-125", 46}, {"HFC-143a", 51}, {"HFC-134a", 3}}
+	}),
+}
+
+func runCase(t *testing.T, c ruleCase) Verdict {
+	t.Helper()
+	env := testEnv(t)
+	if c.env != nil {
+		c.env(env)
+	}
+	r := baseRecord()
+	if c.edit != nil {
+		c.edit(&r)
+	}
+	return Check(env, &r, NewMemoryLedger())
+}
+
+func TestRules(t *testing.T) {
+	for _, c := range ruleCases {
+		what := "silent"
+		if c.fire {
+			what = "fires"
+		}
+		t.Run(c.code+"/"+what+"/"+c.name, func(t *testing.T) {
+			v := runCase(t, c)
+			f, got := codesOf(v)[c.code]
+			if got != c.fire {
+				t.Fatalf("%s fired = %v, want %v; findings: %v", c.code, got, c.fire, v.Findings)
+			}
+			if !got {
+				return
+			}
+			info, _ := LookupCode(c.code)
+			if f.Severity != info.Severity {
+				t.Errorf("severity %v, the table says %v", f.Severity, info.Severity)
+			}
+			for _, m := range c.msg {
+				if !strings.Contains(f.Message, m) {
+					t.Errorf("message %q should contain %q", f.Message, m)
+				}
+			}
+			if f.Severity == SeverityError && v.Outcome != OutcomeRejected {
+				t.Errorf("an error finding must reject; outcome %v", v.Outcome)
+			}
+		})
+	}
+}
+
+// TestEveryCodeHasFireAndSilentCase keeps the case table complete.
+func TestEveryCodeHasFireAndSilentCase(t *testing.T) {
+	fired, silenced := map[string]bool{}, map[string]bool{}
+	for _, c := range ruleCases {
+		if _, ok := LookupCode(c.code); !ok {
+			t.Errorf("case %q uses code %s, which is not in the table", c.name, c.code)
+		}
+		if c.fire {
+			fired[c.code] = true
+		} else {
+			silenced[c.code] = true
+		}
+	}
+	// Tested elsewhere: LINE_UNREADABLE (TestLineErrorVerdict, TestReportWriters), the
+	// duplicates (TestBatchDuplicates).
+	elsewhere := map[string]bool{CodeLineUnreadable: true, CodeDupKeyConflict: true, CodeDupReplay: true}
+	for _, info := range CodeTable() {
+		if elsewhere[info.Code] {
+			continue
+		}
+		if !fired[info.Code] {
+			t.Errorf("no case makes %s fire", info.Code)
+		}
+		if !silenced[info.Code] {
+			t.Errorf("no case shows %s silent", info.Code)
+		}
+	}
+}
+
+func TestCleanRecord(t *testing.T) {
+	env := testEnv(t)
+	r := baseRecord()
+	v := Check(env, &r, NewMemoryLedger())
+	if v.Outcome != OutcomeAccepted || len(v.Findings) != 0 {
+		t.Fatalf("clean record: outcome %v, findings %v; want accepted without findings", v.Outcome, v.Findings)
+	}
+	fig := v.Figures
+	// 10 × 13.6 kg = 136 kg; ODP t = 0.136 t × 0.055 (source: DOMAIN.md §2, HCFC-22 ODP 0.055).
+	if !v.Resolved || fig.Designation != "HCFC-22" || fig.NetMassKg != 136 || math.Abs(fig.ODPTonnes-0.00748) > 1e-12 {
+		t.Errorf("figures %+v; want HCFC-22, 136 kg, 0.00748 ODP t", fig)
+	}
+	if !fig.CountsInConsumption || fig.PartnerNonParty {
+		t.Errorf("an ordinary import from a Party counts in consumption: %+v", fig)
+	}
+	if len(v.Draws) != 1 || v.Draws[0].LineNumber != 2 || v.Draws[0].Unit != QuotaODPTonnes || math.Abs(v.Draws[0].Amount-0.00748) > 1e-12 {
+		t.Errorf("draws %+v; want 0.00748 ODP t on line 2", v.Draws)
+	}
+	if v.Fingerprint != Fingerprint(&r) || v.RecordKey != "K-1" || v.Line != 2 {
+		t.Errorf("verdict identity %q %d %q", v.RecordKey, v.Line, v.Fingerprint)
+	}
+}
