@@ -38,7 +38,7 @@ func TestAssessYears(t *testing.T) {
 			wantNote: "step in force: 10 % of baseline from 2015",
 		},
 		{
-			// Non-A5 HCFC 2025: step 0, annual servicing cap 0.5 % for 2020–2029 (Art. 2F para 6;
+			// Non-A5 HCFC 2025: step 0, annual servicing cap 0.5 % for 2020–2029 (Art. 2F paras 1 and 3-6;
 			// CONTROL_RULES §4a and correction 4 [V]) × 197.5 = 0.9875 ODP t; consumption 1.1
 			// (exports to a non-Party not deducted) → headroom −0.1125: exceeded.
 			name: "non-A5 HCFC 2025 (servicing cap 0.5 %)", records: nonA5History(), party: partyNonA5, scope: ScopeCI, year: 2025, tol: tolODP,
@@ -52,11 +52,11 @@ func TestAssessYears(t *testing.T) {
 			wantNote: "step in force: 0 % of baseline from 2020",
 		},
 		{
-			// A5 HCFC 2025: 32.5 % (Art. 5 para 8 ter (d); CONTROL_RULES §4b [V]) × 163.55 =
+			// A5 HCFC 2025: 32.5 % (Art. 5 para 8 ter (a)-(e); CONTROL_RULES §4b [V]) × 163.55 =
 			// 53.15375 ODP t; consumption 49.5 (used imports not counted) → headroom 3.65375.
 			name: "A5 HCFC 2025 (32.5 %)", records: a5History(), party: partyA5G1, scope: ScopeCI, year: 2025, tol: tolODP,
 			wantPercent: 32.5, wantAllowed: 53.15375, wantCons: 49.5, wantHeadroom: 3.65375, wantOutcome: Within,
-			wantNote: "Art. 5 para 8 ter (d)",
+			wantNote: "32.5 % of baseline from 2025 (Art. 5 para 8 ter (a)-(e)",
 		},
 		{
 			// Non-A5 HFC 2024: 60 % (Art. 2J para 1; CONTROL_RULES §4a [V]) × 2 317 786.667 =
@@ -136,7 +136,7 @@ func TestAssessYears(t *testing.T) {
 }
 
 // TestAssessPeriodAverage: A5 HCFC 2030–2039, the ten-year mean may reach 2.5 % of the
-// baseline; a single year may exceed it (Art. 5 para 8 ter (e); CONTROL_RULES §4b and
+// baseline; a single year may exceed it (Art. 5 para 8 ter (a)-(e); CONTROL_RULES §4b and
 // correction 5 [V]). Baseline 163.55 ODP t (history_test.go, invented data):
 // 2.5 % = 4.08875 ODP t a year; budget 10 × 4.08875 = 40.8875 ODP t.
 func TestAssessPeriodAverage(t *testing.T) {
@@ -298,7 +298,7 @@ func TestAllowedLevel(t *testing.T) {
 		want    float64
 		wantErr error
 	}{
-		// 0.5 % × 197.5 = 0.9875 ODP t (Art. 2F para 6; CONTROL_RULES §4a [V]; history_test.go).
+		// 0.5 % × 197.5 = 0.9875 ODP t (Art. 2F paras 1 and 3-6; CONTROL_RULES §4a [V]; history_test.go).
 		{"non-A5 HCFC 2026 servicing cap", nonA5History(), partyNonA5, ScopeCI, 2026, tolODP, 0.9875, nil},
 		// 90 % × 8 308 250.833 = 7 477 425.75 (CONTROL_RULES §4b [V]; history_test.go).
 		{"A5 Group 1 HFC 2030", a5History(), partyA5G1, ScopeF, 2030, tolCO2e, 7477425.75, nil},

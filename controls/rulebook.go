@@ -49,10 +49,10 @@ const (
 	// KindStep: the percent holds from FromYear until the next step.
 	KindStep RuleKind = "step"
 	// KindServicingCap: each year FromYear..ToYear may reach the percent, for servicing
-	// only; it overrides the step in force (non-A5 HCFC 2020–2029, Art. 2F para 6).
+	// only; it overrides the step in force (non-A5 HCFC 2020–2029, Art. 2F).
 	KindServicingCap RuleKind = "annual-cap-servicing"
 	// KindPeriodAverage: the mean over FromYear..ToYear may reach the percent; a single year
-	// may exceed it (A5 HCFC 2030–2039, Art. 5 para 8 ter (e)).
+	// may exceed it (A5 HCFC 2030–2039, Art. 5 para 8 ter).
 	KindPeriodAverage RuleKind = "period-average"
 )
 
@@ -66,13 +66,13 @@ type Rule struct {
 	FromYear  int
 	ToYear    int // 0 for a step
 	Percent   float64
-	Source    string // "Art. 2F para 6; CONTROL_RULES S4"
+	Source    string // "Art. 2J para 1; CONTROL_RULES S3 S5 S6"
 	Status    Status
 	Note      string
 	Line      int // line in the data file
 }
 
-// Text is the rule's source with its status, e.g. "Art. 2F para 6; CONTROL_RULES S4 [V]".
+// Text is the rule's source with its status, e.g. "Art. 2J para 1; CONTROL_RULES S3 S5 S6 [V]".
 func (r Rule) Text() string { return fmt.Sprintf("%s [%s]", r.Source, r.Status) }
 
 // Term is the kind of the term added to a baseline.

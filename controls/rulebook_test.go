@@ -60,13 +60,13 @@ func TestAllowanceLookup(t *testing.T) {
 		wantSource  string
 	}{
 		// §4a non-A5 HCFC: 1996 100, 2004 65, 2010 25, 2015 10, 2020 0 + cap 0.5 to 2029, 2030 0 [V].
-		{"non-A5 HCFC 2003", partyNonA5, ScopeCI, 2003, 100, 1996, Verified, -1, -1, "Art. 2F para 1"},
+		{"non-A5 HCFC 2003", partyNonA5, ScopeCI, 2003, 100, 1996, Verified, -1, -1, "Art. 2F paras 1 and 3-6"},
 		{"non-A5 HCFC 2004", partyNonA5, ScopeCI, 2004, 65, 2004, Verified, -1, -1, "Art. 2F"},
 		{"non-A5 HCFC 2012", partyNonA5, ScopeCI, 2012, 25, 2010, Verified, -1, -1, "Art. 2F"},
 		{"non-A5 HCFC 2019", partyNonA5, ScopeCI, 2019, 10, 2015, Verified, -1, -1, "Art. 2F"},
-		{"non-A5 HCFC 2020 cap", partyNonA5, ScopeCI, 2020, 0, 2020, Verified, 0.5, -1, "Art. 2F para 6"},
-		{"non-A5 HCFC 2029 cap", partyNonA5, ScopeCI, 2029, 0, 2020, Verified, 0.5, -1, "Art. 2F para 6"},
-		{"non-A5 HCFC 2030", partyNonA5, ScopeCI, 2030, 0, 2020, Verified, -1, -1, "Art. 2F para 6"},
+		{"non-A5 HCFC 2020 cap", partyNonA5, ScopeCI, 2020, 0, 2020, Verified, 0.5, -1, "Art. 2F paras 1 and 3-6"},
+		{"non-A5 HCFC 2029 cap", partyNonA5, ScopeCI, 2029, 0, 2020, Verified, 0.5, -1, "Art. 2F paras 1 and 3-6"},
+		{"non-A5 HCFC 2030", partyNonA5, ScopeCI, 2030, 0, 2020, Verified, -1, -1, "Art. 2F paras 1 and 3-6"},
 		// §4b A5 HCFC: 2013 100, 2015 90, 2020 65, 2025 32.5, 2030 0 with 2030–2039 mean 2.5 [V].
 		{"A5 HCFC 2014", partyA5G1, ScopeCI, 2014, 100, 2013, Verified, -1, -1, "Art. 5 para 8 ter"},
 		{"A5 HCFC 2015", partyA5G1, ScopeCI, 2015, 90, 2015, Verified, -1, -1, "Art. 5 para 8 ter"},
