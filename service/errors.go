@@ -84,3 +84,11 @@ func toStatus(ctx context.Context, log *slog.Logger, err error) error {
 	log.ErrorContext(ctx, "internal error", "err", err)
 	return status.Error(codes.Internal, "internal error; the server log has the details")
 }
+
+func notFoundStatus(msg string) error {
+	st := status.New(codes.NotFound, msg)
+	if d, err := st.WithDetails(&errdetails.ErrorInfo{Reason: "NOT_FOUND", Domain: errorDomain}); err == nil {
+		return d.Err()
+	}
+	return st.Err()
+}

@@ -1,0 +1,316 @@
+package service
+
+import (
+	"context"
+	"encoding/base64"
+	"errors"
+	"fmt"
+	"hash/fnv"
+	"math"
+	"strconv"
+	"strings"
+
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/substances"
+)
+
+func (c *catalogueServer) GetEntry(_ context.Context, req *halovetv1.GetEntryRequest) (*halovetv1.GetEntryResponse, error) {
+	cat := c.srv.cat.Load()
+	name := strings.TrimSpace(req.GetDesignation())
+	if name == "" {
+		return nil, invalid(fieldViolation{"designation", "must not be empty; give e.g. HCFC-22 or R-404A"})
+	}
+	if s, ok := cat.Substance(name); ok {
+		return &halovetv1.GetEntryResponse{Entry: &halovetv1.CatalogueEntry{Entry: &halovetv1.CatalogueEntry_Substance{Substance: substanceToProto(s)}}}, nil
+	}
+	if b, ok := cat.Blend(name); ok {
+		return &halovetv1.GetEntryResponse{Entry: &halovetv1.CatalogueEntry{Entry: &halovetv1.CatalogueEntry_Blend{Blend: blendToProto(b)}}}, nil
+	}
+	msg := fmt.Sprintf("no catalogue entry is designated %q", name)
+	if r := cat.Resolve(name); len(r.Suggestions) > 0 {
+		msg += "; did you mean " + strings.Join(r.Suggestions, ", ") + "?"
+	} else if len(r.Candidates) > 0 {
+		msg += "; ResolveIdentifier finds candidates for it"
+	}
+	return nil, notFoundStatus(msg)
+}
+
+func substanceToProto(s *substances.Substance) *halovetv1.Substance {
+	p := &halovetv1.Substance{Designation: s.Designation, Synonyms: s.Synonyms, ChemicalName: s.ChemicalName,
+		Formula: s.Formula, Structure: s.Structure, CasNumber: s.CAS, AnnexGroup: string(s.Group), Odp: s.ODP,
+		OdpRangeLow: s.ODPLow, OdpRangeHigh: s.ODPHigh, LifetimeYears: s.Lifetime, MolarMassGPerMol: s.MolarMass,
+		SafetyClass: s.SafetyClass, IsomerCount: int32(s.IsomerCount), Sources: s.Sources}
+	for _, set := range []substances.GWPSet{substances.SetProtocol, substances.SetAR4, substances.SetAR5, substances.SetAR6} {
+		if v, ok := s.GWP[set]; ok {
+			p.Gwps = append(p.Gwps, &halovetv1.GwpValue{GwpSet: string(set), Gwp100: v})
+		}
+	}
+	for _, code := range s.HS2017 {
+		p.HsCodes = append(p.HsCodes, hsToProto(substances.HSEdition("HS2017"), code))
+	}
+	for _, code := range s.HS2022 {
+		p.HsCodes = append(p.HsCodes, hsToProto(substances.HSEdition("HS2022"), code))
+	}
+	return p
+}
+
+func hsToProto(ed substances.HSEdition, code string) *halovetv1.HsCode {
+	h := &halovetv1.HsCode{Edition: string(ed), Subheading: code}
+	if sub, ok := substances.LookupHS(ed, code); ok {
+		h.Shared = sub.Shared
+	}
+	return h
+}
+
+func blendToProto(b *substances.Blend) *halovetv1.Blend {
+	p := &halovetv1.Blend{Designation: b.Designation, Synonyms: b.Synonyms, BlendType: b.Type,
+		SafetyClass: b.SafetyClass, Sources: b.Sources}
+	for _, c := range b.Components {
+		p.Components = append(p.Components, &halovetv1.BlendComponent{Designation: c.Designation,
+			MassPercent: c.MassPct, TolerancePlus: c.TolPlus, ToleranceMinus: c.TolMinus})
+	}
+	return p
+}
+
+// listFilter is a ListEntries request's filters, hashed into page tokens so that a token
+// cannot be replayed against other filters.
+type listFilter struct {
+	group   string
+	control halovetv1.ControlFilter
+	text    string
+	kind    halovetv1.EntryKind
+}
+
+func (f listFilter) hash() uint32 {
+	h := fnv.New32a()
+	fmt.Fprintf(h, "%s|%d|%s|%d", f.group, f.control, f.text, f.kind)
+	return h.Sum32()
+}
+
+func pageToken(f listFilter, offset int) string {
+	return base64.RawURLEncoding.EncodeToString([]byte(fmt.Sprintf("%d:%d", f.hash(), offset)))
+}
+
+func parsePageToken(f listFilter, tok string) (int, error) {
+	if tok == "" {
+		return 0, nil
+	}
+	b, err := base64.RawURLEncoding.DecodeString(tok)
+	if err != nil {
+		return 0, errors.New("is not a token this server issued")
+	}
+	h, off, ok := strings.Cut(string(b), ":")
+	n, err := strconv.Atoi(off)
+	if !ok || err != nil || n < 0 || h != strconv.FormatUint(uint64(f.hash()), 10) {
+		return 0, errors.New("does not belong to these filters; start again without a token")
+	}
+	return n, nil
+}
+
+func (c *catalogueServer) ListEntries(_ context.Context, req *halovetv1.ListEntriesRequest) (*halovetv1.ListEntriesResponse, error) {
+	f := listFilter{group: req.GetAnnexGroup(), control: req.GetControl(), text: strings.ToLower(strings.TrimSpace(req.GetText())), kind: req.GetKind()}
+	if f.group != "" && !validGroup(f.group) {
+		return nil, invalid(fieldViolation{"annex_group", fmt.Sprintf("%q is not an Annex group; use A/I, A/II, B/I, B/II, B/III, C/I, C/II, C/III, E/I, F/I or F/II", f.group)})
+	}
+	size := int(req.GetPageSize())
+	if size < 0 || size > 500 {
+		return nil, invalid(fieldViolation{"page_size", "must be between 1 and 500 (0 means 100)"})
+	}
+	if size == 0 {
+		size = 100
+	}
+	off, err := parsePageToken(f, req.GetPageToken())
+	if err != nil {
+		return nil, invalid(fieldViolation{"page_token", err.Error()})
+	}
+	cat := c.srv.cat.Load()
+	var all []*halovetv1.CatalogueEntry
+	if f.kind != halovetv1.EntryKind_ENTRY_KIND_BLEND {
+		for _, s := range cat.Substances() {
+			if matchSubstance(s, f) {
+				all = append(all, &halovetv1.CatalogueEntry{Entry: &halovetv1.CatalogueEntry_Substance{Substance: substanceToProto(s)}})
+			}
+		}
+	}
+	if f.kind != halovetv1.EntryKind_ENTRY_KIND_SUBSTANCE {
+		for _, b := range cat.Blends() {
+			if matchBlend(cat, b, f) {
+				all = append(all, &halovetv1.CatalogueEntry{Entry: &halovetv1.CatalogueEntry_Blend{Blend: blendToProto(b)}})
+			}
+		}
+	}
+	resp := &halovetv1.ListEntriesResponse{TotalSize: int32(len(all))}
+	if off < len(all) {
+		end := min(off+size, len(all))
+		resp.Entries = all[off:end]
+		if end < len(all) {
+			resp.NextPageToken = pageToken(f, end)
+		}
+	}
+	return resp, nil
+}
+
+func containsText(text string, names ...string) bool {
+	for _, n := range names {
+		if strings.Contains(strings.ToLower(n), text) {
+			return true
+		}
+	}
+	return false
+}
+
+func matchSubstance(s *substances.Substance, f listFilter) bool {
+	if f.group != "" && string(s.Group) != f.group {
+		return false
+	}
+	switch f.control {
+	case halovetv1.ControlFilter_CONTROL_FILTER_CONTROLLED:
+		if !s.Group.Controlled() {
+			return false
+		}
+	case halovetv1.ControlFilter_CONTROL_FILTER_UNCONTROLLED:
+		if s.Group.Controlled() {
+			return false
+		}
+	}
+	return f.text == "" || containsText(f.text, append([]string{s.Designation, s.ChemicalName, s.Formula, s.CAS}, s.Synonyms...)...)
+}
+
+func matchBlend(cat *substances.Catalogue, b *substances.Blend, f listFilter) bool {
+	groups := cat.BlendGroups(b)
+	if f.group != "" {
+		found := false
+		for _, g := range groups {
+			found = found || string(g) == f.group
+		}
+		if !found {
+			return false
+		}
+	}
+	switch f.control {
+	case halovetv1.ControlFilter_CONTROL_FILTER_CONTROLLED:
+		if len(groups) == 0 {
+			return false
+		}
+	case halovetv1.ControlFilter_CONTROL_FILTER_UNCONTROLLED:
+		if len(groups) > 0 {
+			return false
+		}
+	}
+	if f.text == "" {
+		return true
+	}
+	names := append([]string{b.Designation}, b.Synonyms...)
+	for _, c := range b.Components {
+		names = append(names, c.Designation)
+	}
+	return containsText(f.text, names...)
+}
+
+var matchKindProto = map[substances.MatchKind]halovetv1.MatchKind{
+	substances.MatchDesignation:   halovetv1.MatchKind_MATCH_KIND_DESIGNATION,
+	substances.MatchSynonym:       halovetv1.MatchKind_MATCH_KIND_SYNONYM,
+	substances.MatchCAS:           halovetv1.MatchKind_MATCH_KIND_CAS_NUMBER,
+	substances.MatchFormula:       halovetv1.MatchKind_MATCH_KIND_FORMULA,
+	substances.MatchChemicalName:  halovetv1.MatchKind_MATCH_KIND_CHEMICAL_NAME,
+	substances.MatchHSCode:        halovetv1.MatchKind_MATCH_KIND_HS_CODE,
+	substances.MatchDecodedNumber: halovetv1.MatchKind_MATCH_KIND_DECODED_NUMBER,
+}
+
+func kindProto(k substances.Kind) halovetv1.EntryKind {
+	switch k {
+	case substances.KindSubstance:
+		return halovetv1.EntryKind_ENTRY_KIND_SUBSTANCE
+	case substances.KindBlend:
+		return halovetv1.EntryKind_ENTRY_KIND_BLEND
+	}
+	return halovetv1.EntryKind_ENTRY_KIND_UNSPECIFIED
+}
+
+func (c *catalogueServer) ResolveIdentifier(_ context.Context, req *halovetv1.ResolveIdentifierRequest) (*halovetv1.ResolveIdentifierResponse, error) {
+	id := strings.TrimSpace(req.GetIdentifier())
+	if id == "" {
+		return nil, invalid(fieldViolation{"identifier", "must not be empty; give a designation, CAS number, formula, chemical name or HS code"})
+	}
+	if len(id) > 200 {
+		return nil, invalid(fieldViolation{"identifier", "is longer than 200 characters"})
+	}
+	r := c.srv.cat.Load().Resolve(id)
+	return resolutionToProto(r), nil
+}
+
+func resolutionToProto(r substances.Resolution) *halovetv1.ResolveIdentifierResponse {
+	out := &halovetv1.ResolveIdentifierResponse{Ambiguous: r.Ambiguous, Suggestions: r.Suggestions, Note: r.Note}
+	for _, cd := range r.Candidates {
+		out.Candidates = append(out.Candidates, &halovetv1.Candidate{Designation: cd.Designation, Kind: kindProto(cd.Kind),
+			MatchKind: matchKindProto[cd.Match], Score: cd.Score, MatchedOn: cd.MatchedOn, AnnexGroup: string(cd.Group)})
+	}
+	return out
+}
+
+func (c *catalogueServer) EvaluateMixture(_ context.Context, req *halovetv1.EvaluateMixtureRequest) (*halovetv1.EvaluateMixtureResponse, error) {
+	m := req.GetNetMassKg()
+	if m < 0 || math.IsNaN(m) || math.IsInf(m, 0) {
+		return nil, invalid(fieldViolation{"net_mass_kg", "must be a finite number, 0 or more (0 evaluates per kg only)"})
+	}
+	cat := c.srv.cat.Load()
+	var ev substances.Evaluation
+	var err error
+	switch x := req.GetMixture().(type) {
+	case *halovetv1.EvaluateMixtureRequest_Blend:
+		ev, err = cat.Evaluate(strings.TrimSpace(x.Blend), m)
+	case *halovetv1.EvaluateMixtureRequest_Composition:
+		shares := make([]substances.Share, len(x.Composition.GetShares()))
+		for i, s := range x.Composition.GetShares() {
+			shares[i] = substances.Share{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent()}
+		}
+		ev, err = cat.EvaluateShares(shares, m)
+	default:
+		return nil, invalid(fieldViolation{"mixture", "give blend (e.g. R-410A) or composition (shares summing to 100 %)"})
+	}
+	if err != nil {
+		return nil, evaluationError(err)
+	}
+	return evaluationToProto(&ev), nil
+}
+
+// evaluationError maps the catalogue's input errors to InvalidArgument with the field.
+func evaluationError(err error) error {
+	var ie *substances.InputError
+	var ce *substances.CompositionError
+	var ide *substances.IdentifierError
+	switch {
+	case errors.As(err, &ide):
+		return invalid(fieldViolation{ide.Field, strings.TrimPrefix(ide.Error(), ide.Field+": ")})
+	case errors.As(err, &ce):
+		return invalid(fieldViolation{"composition.shares", ce.Error()})
+	case errors.As(err, &ie):
+		return invalid(fieldViolation{ie.Field, ie.Reason})
+	}
+	return invalid(fieldViolation{"mixture", err.Error()})
+}
+
+func evaluationToProto(ev *substances.Evaluation) *halovetv1.EvaluateMixtureResponse {
+	d := ev.Designation
+	if d == "" {
+		d = "custom"
+	}
+	out := &halovetv1.EvaluateMixtureResponse{Designation: d, Odp: ev.ODP, NetMassKg: ev.NetMassKg,
+		OdpTonnes: ev.ODPTonnes, Co2ETonnes: ev.CO2eTonnes, SafetyClass: ev.SafetyClass, Cautions: ev.Cautions,
+		Hs2022Subheading: ev.HS2022, HsNote: ev.HSNote}
+	for _, g := range ev.GWPs {
+		out.Gwps = append(out.Gwps, &halovetv1.GwpFigure{GwpSet: string(g.Set), Convention: g.Convention, Gwp100: g.GWP, Complete: g.Complete})
+	}
+	out.Components = componentsToProto(ev.Components)
+	return out
+}
+
+func componentsToProto(cs []substances.ComponentFigures) []*halovetv1.ComponentFigures {
+	out := make([]*halovetv1.ComponentFigures, len(cs))
+	for i, c := range cs {
+		out[i] = &halovetv1.ComponentFigures{Designation: c.Designation, AnnexGroup: string(c.Group), MassPercent: c.MassPct,
+			MassKg: c.MassKg, Odp: c.ODP, OdpTonnes: c.ODPTonnes, GwpProtocol: c.ProtocolGWP, Co2ETonnes: c.CO2eTonnes,
+			SafetyClass: c.SafetyClass}
+	}
+	return out
+}
