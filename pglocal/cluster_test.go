@@ -206,11 +206,8 @@ func TestRestartKeepsData(t *testing.T) {
 	t.Parallel()
 	requireBinaries(t)
 	dataDir := filepath.Join(searchableTempDir(t), "pg")
-	first := startCluster(t, Options{DataDir: dataDir})
+	first := startCluster(t, Options{DataDir: dataDir, Ephemeral: true})
 	execSQL(t, first.URL(""), "CREATE TABLE kept (note text); INSERT INTO kept VALUES ('from the first run')")
-	if got := queryString(t, first.URL(""), "SHOW fsync"); got != "on" {
-		t.Errorf("SHOW fsync = %q on a durable cluster; want on", got)
-	}
 	if err := first.Stop(context.Background()); err != nil {
 		t.Fatal(err)
 	}
@@ -222,6 +219,10 @@ func TestRestartKeepsData(t *testing.T) {
 	}
 	if got := queryString(t, second.URL(""), "SELECT note FROM kept"); got != "from the first run" {
 		t.Errorf("row after restart = %q; want the one written before", got)
+	}
+	// Durability settings belong to each start, not to the cluster.
+	if got := queryString(t, second.URL(""), "SHOW fsync"); got != "on" {
+		t.Errorf("SHOW fsync = %q after a start without Ephemeral; want on", got)
 	}
 }
 
@@ -285,7 +286,7 @@ func TestStartRemovesStalePidFile(t *testing.T) {
 	requireBinaries(t)
 	tests := []struct {
 		name string
-		// spoil leaves the stopped (or killed) cluster's data dir as a crash would.
+		// spoil leaves the cluster's data dir as a crash would.
 		spoil func(t *testing.T, c *Cluster)
 	}{
 		{
@@ -321,24 +322,29 @@ func TestStartRemovesStalePidFile(t *testing.T) {
 			},
 		},
 	}
+	// One cluster goes through every case in turn, which saves an initdb per case. The
+	// first case needs a running server and gets the one started here; a server restarted
+	// by a case is stopped when that case ends, and the later cases only need its data dir.
+	dataDir := filepath.Join(searchableTempDir(t), "pg")
+	current := startCluster(t, Options{DataDir: dataDir, Ephemeral: true})
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			t.Parallel()
-			dataDir := filepath.Join(searchableTempDir(t), "pg")
-			first := startCluster(t, Options{DataDir: dataDir, Ephemeral: true})
-			tt.spoil(t, first)
+			tt.spoil(t, current)
 			if _, err := os.Stat(filepath.Join(dataDir, pidFileName)); err != nil {
 				t.Fatalf("setup left no postmaster.pid: %v", err)
 			}
 			var log syncBuffer
-			second := startCluster(t, Options{DataDir: dataDir, Ephemeral: true, Log: &log})
+			current = startCluster(t, Options{DataDir: dataDir, Ephemeral: true, Log: &log})
 			if !strings.Contains(log.String(), "removed stale postmaster.pid") {
 				t.Errorf("log does not report the stale pid file:\n%s", log.String())
 			}
-			if got := queryString(t, second.URL(""), "SELECT 'up again'"); got != "up again" {
+			if got := queryString(t, current.URL(""), "SELECT 'up again'"); got != "up again" {
 				t.Errorf("query after restart = %q", got)
 			}
 		})
+		if t.Failed() {
+			return
+		}
 	}
 }
 
