@@ -87,7 +87,6 @@ type checker struct {
 	ev     substances.Evaluation
 	evOK   bool
 	groups []substances.Group // controlled groups in the shipment, in component order
-	gbuf   [4]substances.Group
 
 	lic             *Licence
 	partnerNonParty bool
@@ -247,7 +246,6 @@ func (c *checker) evaluate(shares []substances.Share, compOK bool) {
 		return
 	}
 	c.evOK = true
-	c.groups = c.gbuf[:0]
 	for i := range c.ev.Components {
 		g := c.ev.Components[i].Group
 		if !g.Controlled() {
@@ -261,6 +259,9 @@ func (c *checker) evaluate(shares []substances.Share, compOK bool) {
 			}
 		}
 		if !dup {
+			if c.groups == nil {
+				c.groups = make([]substances.Group, 0, 2)
+			}
 			c.groups = append(c.groups, g)
 		}
 	}

@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math"
 	"slices"
 	"strconv"
 	"strings"
@@ -119,7 +120,9 @@ func kindName(k substances.Kind) string {
 	return ""
 }
 
-func fmtNumber(f float64) string { return strconv.FormatFloat(f, 'f', -1, 64) }
+// fmtNumber writes a figure with at most 9 decimals (the store's resolution), without
+// trailing zeros, so binary rounding noise does not reach the report.
+func fmtNumber(f float64) string { return fmtAmount(f) }
 
 // JSONLReport writes one JSON object per verdict per line (JSON Lines), so a report streams
 // and can be read back line by line like the input. Keys are snake_case as in the wire
@@ -192,21 +195,30 @@ func (r *JSONLReport) Write(v *Verdict) error {
 	}
 	if v.Resolved {
 		fg := &jsonFigures{ResolvedDesignation: v.Figures.Designation, Kind: kindName(v.Figures.Kind),
-			NetMassKg: v.Figures.NetMassKg, ODPTonnes: v.Figures.ODPTonnes, CO2eTonnes: v.Figures.CO2eTonnes,
+			NetMassKg: round9(v.Figures.NetMassKg), ODPTonnes: round9(v.Figures.ODPTonnes), CO2eTonnes: round9(v.Figures.CO2eTonnes),
 			CountsInConsumption: v.Figures.CountsInConsumption, PartnerNonParty: v.Figures.PartnerNonParty,
 			SafetyClass: v.Figures.SafetyClass, Components: make([]jsonComponent, len(v.Figures.Components))}
 		for i, c := range v.Figures.Components {
-			fg.Components[i] = jsonComponent{c.Designation, string(c.Group), c.MassPct, c.MassKg, c.ODPTonnes, c.CO2eTonnes}
+			fg.Components[i] = jsonComponent{c.Designation, string(c.Group), c.MassPct, round9(c.MassKg), round9(c.ODPTonnes), round9(c.CO2eTonnes)}
 		}
 		jv.Figures = fg
 	}
 	for _, d := range v.Draws {
-		jv.Draws = append(jv.Draws, jsonDraw{d.LicenceNumber, d.LineNumber, d.Unit.String(), d.Amount})
+		jv.Draws = append(jv.Draws, jsonDraw{d.LicenceNumber, d.LineNumber, d.Unit.String(), round9(d.Amount)})
 	}
 	if err := r.enc.Encode(&jv); err != nil {
 		return fmt.Errorf("writing JSON report line for line %d: %w", v.Line, err)
 	}
 	return nil
+}
+
+// round9 rounds to 9 decimals (the store's resolution) so that binary noise such as
+// 0.0074800000000000005 is written as 0.00748.
+func round9(f float64) float64 {
+	if math.IsNaN(f) || math.IsInf(f, 0) || math.Abs(f) > 1e9 {
+		return f
+	}
+	return math.Round(f*1e9) / 1e9
 }
 
 // Close implements ReportWriter.

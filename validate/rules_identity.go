@@ -86,6 +86,9 @@ func (c *checker) casRule() {
 	if s == "" {
 		return
 	}
+	if c.sub != nil && s == c.sub.CAS {
+		return // the catalogue's own number: valid and matching
+	}
 	norm, err := substances.ParseCAS(s)
 	if err != nil {
 		var ce *substances.CASCheckError
@@ -143,10 +146,13 @@ func (c *checker) hsRule() {
 	if s == "" {
 		return
 	}
-	code, err := substances.NormalizeHS(s)
-	if err != nil {
-		c.add(CodeHSFormat, "", "declared_hs_code: %v", err)
-		return
+	code := s
+	if !isSubheading(s) {
+		var err error
+		if code, err = substances.NormalizeHS(s); err != nil {
+			c.add(CodeHSFormat, "", "declared_hs_code: %v", err)
+			return
+		}
 	}
 	var want17, want22 []string
 	name := c.designation
@@ -154,7 +160,7 @@ func (c *checker) hsRule() {
 	case c.sub != nil:
 		want17, want22 = c.sub.HS2017, c.sub.HS2022
 	case c.isMixture() && c.evOK:
-		want17, want22 = strings.Fields(c.ev.HS2017), strings.Fields(c.ev.HS2022)
+		want17, want22 = fieldList(c.ev.HS2017), fieldList(c.ev.HS2022)
 		if len(want17) == 0 && len(want22) == 0 {
 			c.add(CodeHSMixtureUnknown, "", "the HS subheading of %s could not be determined%s; the declared %s was not checked", name, noteSuffix(c.ev.HSNote), code)
 			return
@@ -207,6 +213,30 @@ func (c *checker) hsRule() {
 	}
 }
 
+// isSubheading reports whether s is already written "NNNN.NN", the catalogue's form.
+func isSubheading(s string) bool {
+	if len(s) != 7 || s[4] != '.' {
+		return false
+	}
+	for i := 0; i < 7; i++ {
+		if i != 4 && (s[i] < '0' || s[i] > '9') {
+			return false
+		}
+	}
+	return true
+}
+
+// fieldList splits a space-separated list of codes; one code costs no split.
+func fieldList(s string) []string {
+	switch {
+	case s == "":
+		return nil
+	case strings.IndexByte(s, ' ') < 0:
+		return []string{s}
+	}
+	return strings.Fields(s)
+}
+
 func hsExpect(want22, want17 []string) string {
 	var parts []string
 	if len(want22) > 0 {
@@ -233,6 +263,9 @@ func (c *checker) formulaRule() {
 	}
 	if c.sub == nil {
 		return
+	}
+	if s == c.sub.Formula || (s == c.sub.Structure && s != "") {
+		return // written as the catalogue writes it
 	}
 	got, err := substances.ParseFormula(s)
 	if err != nil {

@@ -124,6 +124,9 @@ func PlanDraws(lic *Licence, fig Figures) (draws []LineDraw, uncovered []substan
 		amount := componentDraw(l.Unit, comp)
 		k := slices.IndexFunc(draws, func(d LineDraw) bool { return d.LineNumber == l.LineNumber })
 		if k < 0 {
+			if draws == nil {
+				draws = make([]LineDraw, 0, 2)
+			}
 			draws = append(draws, LineDraw{LicenceNumber: lic.Number, LineNumber: l.LineNumber, Unit: l.Unit, Amount: amount})
 		} else {
 			draws[k].Amount += amount

@@ -1,0 +1,268 @@
+package validate
+
+import (
+	"errors"
+	"math"
+	"testing"
+
+	"github.com/halovet/halovet/substances"
+)
+
+// TestTradeBanStart checks the Article 4 table against reference/CONTROL_RULES.md §5.
+func TestTradeBanStart(t *testing.T) {
+	cases := []struct {
+		g        substances.Group
+		dir      Direction
+		want     string
+		provided bool
+	}{
+		{substances.GroupAI, DirectionImport, "1990-01-01", true},    // [V] Art. 4 para 1
+		{substances.GroupAI, DirectionExport, "1993-01-01", true},    // [V] Art. 4 para 2
+		{substances.GroupAII, DirectionReExport, "1993-01-01", true}, // re-export is an export
+		{substances.GroupBII, DirectionImport, "1993-08-10", true},   // [D] London EIF 1992-08-10 + 1 year
+		{substances.GroupCII, DirectionExport, "1995-06-14", true},   // [D] Copenhagen EIF 1994-06-14 + 1 year
+		{substances.GroupEI, DirectionImport, "2000-11-10", true},    // [D] Montreal EIF 1999-11-10 + 1 year
+		{substances.GroupCI, DirectionImport, "2004-01-01", true},    // [V] paras 1 quin / 2 quin
+		{substances.GroupCIII, DirectionExport, "2003-02-25", true},  // [D] Beijing EIF 2002-02-25 + 1 year
+		{substances.GroupFI, DirectionImport, "2033-01-01", true},    // [V] para 1 sept in force 2033-01-01
+		{substances.GroupFII, DirectionExport, "2033-01-01", true},   // [U] para 2 sept assumed parallel
+		{substances.GroupCI, DirectionTransit, "", false},
+		{substances.GroupNone, DirectionImport, "", false},
+	}
+	for _, c := range cases {
+		got, ok := TradeBanStart(c.g, c.dir)
+		if ok != c.provided || (ok && isoDate(got) != c.want) {
+			t.Errorf("TradeBanStart(%s, %s) = %s, %v; want %s, %v", c.g, c.dir, isoDate(got), ok, c.want, c.provided)
+		}
+	}
+}
+
+// TestNonPartyBanDates checks that the ban starts on its day, per direction (CFCs: imports
+// from 1990-01-01, exports from 1993-01-01; reference/CONTROL_RULES.md §5 [V]).
+func TestNonPartyBanDates(t *testing.T) {
+	env := testEnv(t)
+	cases := []struct {
+		dir         Direction
+		date        string
+		wantBan     bool
+		wantNotBond bool
+	}{
+		{DirectionImport, "1989-12-31", false, true},
+		{DirectionImport, "1990-01-01", true, false},
+		{DirectionExport, "1992-12-31", false, true},
+		{DirectionExport, "1993-01-01", true, false},
+	}
+	for _, c := range cases {
+		r := baseRecord()
+		cfc12(&r)
+		r.PartnerCountry, r.Direction, r.DeclarationDate, r.LicenceNumber = "XD", c.dir, c.date, "XA-IMP-OPEN-009"
+		v := Check(env, &r, nil)
+		codes := codesOf(v)
+		_, ban := codes[CodePartnerNonParty]
+		_, nb := codes[CodePartnerNotBound]
+		if ban != c.wantBan || nb != c.wantNotBond {
+			t.Errorf("%s on %s: non-Party ban %v, not-bound notice %v; want %v, %v (%v)", c.dir, c.date, ban, nb, c.wantBan, c.wantNotBond, v.Findings)
+		}
+		if !v.Figures.PartnerNonParty {
+			t.Errorf("%s on %s: PartnerNonParty should be set", c.dir, c.date)
+		}
+	}
+}
+
+func TestCountsInConsumption(t *testing.T) {
+	env := testEnv(t)
+	cases := []struct {
+		name string
+		edit func(*Record)
+		want bool
+	}{
+		{"ordinary import", nil, true},
+		{"ordinary export", func(r *Record) { r.Direction, r.LicenceNumber = DirectionExport, "XA-EXP-2025-002" }, true},
+		{"transit", func(r *Record) { r.Direction = DirectionTransit }, false},
+		{"used", func(r *Record) { r.Condition = ConditionUsed }, false},
+		{"reclaimed", func(r *Record) { r.Condition = ConditionReclaimed }, false},
+		{"feedstock", func(r *Record) { r.Purpose, r.LicenceNumber = PurposeFeedstock, "XA-FEED-2025-005" }, false},
+		{"destruction", func(r *Record) { r.Purpose, r.LicenceNumber = PurposeDestruction, "XA-FEED-2025-005" }, false},
+		{"process agent", func(r *Record) { r.Purpose = PurposeProcessAgent }, false},
+		{"laboratory", func(r *Record) { r.Purpose = PurposeLaboratory }, true},
+		{"QPS methyl bromide", func(r *Record) { methylBromide(r); r.Purpose, r.LicenceNumber = PurposeQPS, "XA-FEED-2025-005" }, false},
+		// Art. 3 para 1(c): exports to non-Parties are not deducted from 1993.
+		{"HFC export to a Party not bound by Kigali", func(r *Record) {
+			hfc134a(r)
+			r.Direction, r.LicenceNumber, r.PartnerCountry = DirectionExport, "XA-EXP-2025-002", "XC"
+		}, false},
+		{"HFC import from a Party not bound by Kigali", func(r *Record) { hfc134a(r); r.PartnerCountry = "XC" }, true},
+		{"uncontrolled", func(r *Record) {
+			r.Substance, r.HSCode, r.CAS, r.Formula, r.LicenceNumber = "HFO-1234yf", "", "", "", ""
+		}, false},
+	}
+	for _, c := range cases {
+		r := baseRecord()
+		if c.edit != nil {
+			c.edit(&r)
+		}
+		v := Check(env, &r, nil)
+		if !v.Resolved {
+			t.Fatalf("%s: not resolved: %v", c.name, v.Findings)
+		}
+		if v.Figures.CountsInConsumption != c.want {
+			t.Errorf("%s: CountsInConsumption = %v, want %v (%v)", c.name, v.Figures.CountsInConsumption, c.want, v.Findings)
+		}
+	}
+}
+
+func TestDrawAndPlanDraws(t *testing.T) {
+	cat := testCatalogue(t)
+	// R-402A = HFC-125 60 %, R-290 2 %, HCFC-22 38 % (source: reference/blend_components.csv).
+	ev, err := cat.Evaluate("R-402A", 1000)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fig := Figures{Components: ev.Components}
+	lines := []QuotaLine{
+		{LineNumber: 1, Group: substances.GroupFI, Unit: QuotaCO2eTonnes},
+		{LineNumber: 2, Group: substances.GroupCI, Unit: QuotaODPTonnes},
+		{LineNumber: 3, Group: substances.GroupCI, Unit: QuotaMetricTonnes},
+		{LineNumber: 4, Group: substances.GroupCI, Unit: QuotaCO2eTonnes},
+		{LineNumber: 5, Substance: "HCFC-22", Unit: QuotaMetricTonnes},
+		{LineNumber: 6, Group: substances.GroupAI, Unit: QuotaODPTonnes},
+	}
+	want := []float64{
+		0.6 * 3500,   // HFC-125 only: 0.6 t × 3500 (source: DOMAIN.md §2, Annex F GWP of HFC-125)
+		0.38 * 0.055, // HCFC-22 only: 0.38 t × ODP 0.055 (source: DOMAIN.md §2)
+		0.38,         // metric tonnes of the C/I component
+		0.38 * 1810,  // Kigali-listed GWP of HCFC-22 1810 (source: DOMAIN.md §2)
+		0.38,         // substance line
+		0,            // nothing of Annex A/I in R-402A
+	}
+	for i, l := range lines {
+		if got := Draw(l, fig); math.Abs(got-want[i]) > 1e-9 {
+			t.Errorf("Draw(line %d %s %s) = %v, want %v", l.LineNumber, lineScope(l), l.Unit, got, want[i])
+		}
+	}
+	lic := &Licence{Number: "L", QuotaLines: []QuotaLine{lines[1], lines[0], lines[4]}}
+	draws, uncovered := PlanDraws(lic, fig)
+	if len(uncovered) != 0 || len(draws) != 2 {
+		t.Fatalf("PlanDraws = %+v, uncovered %+v; want HFC-125 on line 1 and HCFC-22 on the substance line 5", draws, uncovered)
+	}
+	if draws[0].LineNumber != 1 || math.Abs(draws[0].Amount-2100) > 1e-9 || draws[1].LineNumber != 5 || math.Abs(draws[1].Amount-0.38) > 1e-12 {
+		t.Errorf("PlanDraws = %+v; a substance line must win over the group line", draws)
+	}
+	lic = &Licence{Number: "L", QuotaLines: []QuotaLine{lines[0]}}
+	if _, uncovered := PlanDraws(lic, fig); len(uncovered) != 1 || uncovered[0].Designation != "HCFC-22" {
+		t.Errorf("uncovered = %+v; want HCFC-22 (R-290 is not controlled and needs no line)", uncovered)
+	}
+}
+
+func TestBatchLedgerAndDuplicates(t *testing.T) {
+	env := testEnv(t)
+	b := NewBatch(env)
+	// Line 2 of XA-IMP-2025-001 has 0.5 ODP t left; 5 t HCFC-22 = 0.275 ODP t (ODP 0.055, DOMAIN.md §2).
+	first := baseRecord()
+	first.Key, first.Quantity, first.Unit, first.ContainerCount = "B-1", "5", "t", 0
+	v1 := b.Check(&first)
+	if v1.Outcome == OutcomeRejected || len(v1.Draws) != 1 {
+		t.Fatalf("first record: %v %v", v1.Outcome, v1.Findings)
+	}
+	if got := b.Ledger().Drawn("XA-IMP-2025-001", 2); math.Abs(got-0.275) > 1e-12 {
+		t.Errorf("ledger after the first record = %v, want 0.275", got)
+	}
+
+	replay := first
+	replay.Line = 40
+	v2 := b.Check(&replay)
+	if !v2.Replayed || v2.Outcome == OutcomeRejected || v2.Draws != nil {
+		t.Errorf("replay: replayed %v, outcome %v, draws %v; want an accepted replay drawing nothing", v2.Replayed, v2.Outcome, v2.Draws)
+	}
+	if f, ok := codesOf(v2)[CodeDupReplay]; !ok || f.Severity != SeverityNotice {
+		t.Errorf("replay should carry DUP_REPLAY: %v", v2.Findings)
+	}
+	if got := b.Ledger().Drawn("XA-IMP-2025-001", 2); math.Abs(got-0.275) > 1e-12 {
+		t.Errorf("a replay must not draw again: ledger %v", got)
+	}
+
+	conflict := first
+	conflict.Quantity = "6"
+	v3 := b.Check(&conflict)
+	if _, ok := codesOf(v3)[CodeDupKeyConflict]; !ok || v3.Outcome != OutcomeRejected {
+		t.Errorf("same key, other content: want DUP_KEY_CONFLICT and rejection; got %v %v", v3.Outcome, v3.Findings)
+	}
+
+	otherCompany := first
+	otherCompany.CompanyID, otherCompany.LicenceNumber = "CO-2", "XA-IMP-2025-004"
+	if _, dup := codesOf(b.Check(&otherCompany))[CodeDupKeyConflict]; dup {
+		t.Error("keys are unique per company: the same key of another company is no duplicate")
+	}
+
+	second := first
+	second.Key = "B-2"
+	v4 := b.Check(&second)
+	_, dupReplay := codesOf(v4)[CodeDupReplay]
+	_, dupConflict := codesOf(v4)[CodeDupKeyConflict]
+	if dupReplay || dupConflict {
+		t.Errorf("a new key is no duplicate: %v", v4.Findings)
+	}
+	// 0.275 + 0.275 = 0.55 > 0.5 left: the second shipment exceeds what the first left.
+	if _, ok := codesOf(v4)[CodeQuotaExceeded]; !ok {
+		t.Errorf("second 5 t shipment should exceed the quota the first one left: %v", v4.Findings)
+	}
+	if got := b.Ledger().Drawn("XA-IMP-2025-001", 2); math.Abs(got-0.275) > 1e-12 {
+		t.Errorf("a rejected record must not draw: ledger %v", got)
+	}
+}
+
+func TestDuplicateFinding(t *testing.T) {
+	if f := DuplicateFinding("abc", "abc", 7); f.Code != CodeDupReplay || f.Severity != SeverityNotice {
+		t.Errorf("same fingerprint: %+v", f)
+	}
+	f := DuplicateFinding("abc", "abd", 0)
+	if f.Code != CodeDupKeyConflict || f.Severity != SeverityError {
+		t.Errorf("different fingerprint: %+v", f)
+	}
+}
+
+func TestVerdictAdd(t *testing.T) {
+	env := testEnv(t)
+	r := baseRecord()
+	v := Check(env, &r, nil)
+	if v.Outcome != OutcomeAccepted || v.Draws == nil {
+		t.Fatalf("base: %v", v.Findings)
+	}
+	v.Add(newFinding(CodeQuotaExceeded, "", "the store found the line short at commit"))
+	if v.Outcome != OutcomeRejected || v.Draws != nil || v.Findings[0].Code != CodeQuotaExceeded {
+		t.Errorf("after adding an error: outcome %v, draws %v, findings %v", v.Outcome, v.Draws, v.Findings)
+	}
+}
+
+func TestEnvValidate(t *testing.T) {
+	good := testEnv(t)
+	cases := map[string]func(*Env){
+		"no catalogue":    func(e *Env) { e.Catalogue = nil },
+		"reporting party": func(e *Env) { e.ReportingParty = "X" },
+		"no licences":     func(e *Env) { e.Licence = nil },
+		"no schedule":     func(e *Env) { e.AllowedPercent = nil },
+		"negative days":   func(e *Env) { e.FutureToleranceDays = -1 },
+		"lower-case key":  func(e *Env) { e.Parties = map[string]PartySettings{"xb": {Known: true}} },
+	}
+	for name, edit := range cases {
+		e := NewEnv(good.Catalogue, good.ReportingParty, good.Parties, good.Licence, good.AllowedPercent)
+		edit(e)
+		if err := e.Validate(); !errors.Is(err, ErrEnv) {
+			t.Errorf("%s: Validate() = %v, want ErrEnv", name, err)
+		}
+	}
+	var nilEnv *Env
+	if err := nilEnv.Validate(); !errors.Is(err, ErrEnv) {
+		t.Errorf("nil env: %v", err)
+	}
+}
+
+func TestCheckOfflineWithoutClock(t *testing.T) {
+	env := testEnv(t)
+	env.Now = nil // falls back to the system clock
+	r := baseRecord()
+	r.DeclarationDate = "2999-01-01"
+	if _, ok := codesOf(Check(env, &r, nil))[CodeDateFuture]; !ok {
+		t.Error("a date in 2999 must be in the future for the system clock")
+	}
+}
