@@ -28,6 +28,10 @@ var ErrInvalidOptions = errors.New("pglocal: invalid options")
 // errPortInUse marks a start that failed because another process took the port.
 var errPortInUse = errors.New("port already in use")
 
+// errOldServerAlive marks a start that failed because backends of a killed server still
+// hold its shared memory.
+var errOldServerAlive = errors.New("processes of an earlier server still run")
+
 // serverLogName is the file in the data dir that receives the server's own log.
 const serverLogName = "server.log"
 
@@ -194,13 +198,13 @@ func (c *Cluster) adopt(ctx context.Context, pf pidFile, wantPort int) error {
 	return nil
 }
 
-// start starts the server with pg_ctl, retrying with another port when a picked free port
-// was taken by someone else in the meantime.
+// startAttempts bounds the starts tried when a start fails for a passing reason.
+const startAttempts = 5
+
+// start starts the server with pg_ctl. It tries again with another port when a picked free
+// port was taken by someone else in the meantime, and after a pause when processes of a
+// killed earlier server still hold its shared memory (they exit once they notice).
 func (c *Cluster) start(ctx context.Context, opts Options) error {
-	attempts := 1
-	if opts.Port == 0 {
-		attempts = 5
-	}
 	for i := 1; ; i++ {
 		port := opts.Port
 		if port == 0 {
@@ -215,10 +219,21 @@ func (c *Cluster) start(ctx context.Context, opts Options) error {
 			c.logf("PostgreSQL listens on 127.0.0.1:%d (data %s, log %s)", port, c.prog.dataDir, c.logPath)
 			return nil
 		}
-		if i >= attempts || !errors.Is(err, errPortInUse) {
+		switch {
+		case i >= startAttempts:
+			return err
+		case errors.Is(err, errPortInUse) && opts.Port == 0:
+			c.logf("port %d was taken before the server could bind it; trying another", port)
+		case errors.Is(err, errOldServerAlive):
+			c.logf("processes of an earlier server on %s are still exiting; trying again in a second", c.prog.dataDir)
+			select {
+			case <-ctx.Done():
+				return err
+			case <-time.After(time.Second):
+			}
+		default:
 			return err
 		}
-		c.logf("port %d was taken before the server could bind it; trying another", port)
 	}
 }
 
@@ -254,7 +269,10 @@ func (c *Cluster) startOn(ctx context.Context, port int, opts Options) error {
 		return nil
 	}
 	tail := logSince(c.logPath, offset)
-	if strings.Contains(tail, "could not bind") || strings.Contains(tail, "already in use") {
+	switch {
+	case strings.Contains(tail, "pre-existing shared memory block"):
+		return fmt.Errorf("%w: %w; server log:\n%s", errOldServerAlive, err, tail)
+	case strings.Contains(tail, "could not bind") || strings.Contains(tail, "already in use"):
 		return fmt.Errorf("%w: %w; server log:\n%s", errPortInUse, err, tail)
 	}
 	return fmt.Errorf("%w; server log (%s):\n%s", err, c.logPath, tail)

@@ -12,7 +12,8 @@
 //	}
 //
 // TEST_DATABASE_URL, when set, is a URL (or key=value string) for a role that may create
-// and drop databases; its database is used for administration only. Every database pgtest
+// and drop databases, on PostgreSQL 13 or later (DROP DATABASE ... WITH (FORCE)); its
+// database is used for administration only. Every database pgtest
 // makes is named halovet_test_<run>_<n> or halovet_tpl_<run>_<k>_<name>, where <run> is
 // random per test binary. Each test binary holds a session advisory lock keyed by its <run>
 // for its whole life, so when several test binaries share one server, each one drops the
