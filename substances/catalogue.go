@@ -6,6 +6,8 @@ import (
 	"math"
 	"sort"
 	"strings"
+	"sync"
+	"sync/atomic"
 	"unicode"
 	"unicode/utf8"
 )
@@ -39,6 +41,7 @@ type Catalogue struct {
 	names    map[string]int32 // normalized name -> index into hits
 	hits     []nameHit
 	formulas map[string]int32 // formula text as written (spaces removed) -> index into res
+	structs  map[string]int32 // structureKey of a linear structure -> index into res
 	hills    map[string]int32 // Hill formula -> index into res
 	cas      map[string]int32 // normalized CAS number -> index into res
 	hs       map[string]int32 // normalized HS code -> index into res
@@ -46,6 +49,12 @@ type Catalogue struct {
 
 	byHill  map[string][]int32 // Hill formula -> substance indexes
 	suggest []suggestKey
+
+	slow  sync.Map     // identifier -> Resolution, for identifiers past the exact lookups
+	slowN atomic.Int64 // entries in slow
+
+	adhoc  sync.Map     // composition key -> *adhocEntry (EvaluateShares)
+	adhocN atomic.Int64 // entries in adhoc
 }
 
 // target points at one catalogue entry.
@@ -92,6 +101,7 @@ func NewCatalogue(subs []Substance, blends []Blend) (*Catalogue, error) {
 	c := &Catalogue{
 		names:    map[string]int32{},
 		formulas: map[string]int32{},
+		structs:  map[string]int32{},
 		hills:    map[string]int32{},
 		cas:      map[string]int32{},
 		hs:       map[string]int32{},
@@ -553,6 +563,9 @@ func (c *Catalogue) indexFormulas() {
 		ids := c.byHill[f.hill]
 		if isStructural(f.text) {
 			c.formulas[f.text] = c.addRes(c.formulaResolution(f.hill, f.text, ids))
+			if key, ok := structureKey(f.text); ok {
+				c.structs[key] = c.formulas[f.text]
+			}
 		} else {
 			c.formulas[f.text] = c.hills[f.hill]
 		}

@@ -1,6 +1,7 @@
 package substances
 
 import (
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"math"
@@ -201,10 +202,15 @@ func gwpFigures(comps []compData) []GWPFigure {
 	return out
 }
 
-// fillMass sets the mass-dependent figures of e for net mass m.
-func fillMass(e *Evaluation, comps []compData, m float64) {
+// fillMass sets the mass-dependent figures of e for net mass m, reusing buf when it is
+// large enough.
+func fillMass(e *Evaluation, comps []compData, m float64, buf []ComponentFigures) {
 	e.NetMassKg = m
-	e.Components = make([]ComponentFigures, len(comps))
+	if cap(buf) >= len(comps) {
+		e.Components = buf[:len(comps)]
+	} else {
+		e.Components = make([]ComponentFigures, len(comps))
+	}
 	e.ODPTonnes, e.CO2eTonnes = 0, 0
 	for i := range comps {
 		c := &comps[i]
@@ -322,23 +328,33 @@ func (c *Catalogue) targetFor(identifier, field string) (target, error) {
 // accepted). The mass-independent figures are cached, so a call costs one pass over the
 // components.
 func (c *Catalogue) Evaluate(designation string, netMassKg float64) (Evaluation, error) {
+	var ev Evaluation
+	err := c.EvaluateInto(&ev, designation, netMassKg)
+	return ev, err
+}
+
+// EvaluateInto is Evaluate writing into dst, whose Components slice it reuses when large
+// enough: a loop over many records that keeps one Evaluation allocates nothing. The
+// GWPs and Cautions slices it sets are shared with the catalogue and must not be modified.
+func (c *Catalogue) EvaluateInto(dst *Evaluation, designation string, netMassKg float64) error {
 	if err := checkMass(netMassKg); err != nil {
-		return Evaluation{}, err
+		return err
 	}
 	t, err := c.targetFor(designation, "designation")
 	if err != nil {
-		return Evaluation{}, err
+		return err
 	}
+	var comps []compData
+	var base *Evaluation
 	if t.kind == KindBlend {
-		e := &c.blends[t.idx]
-		ev := e.base
-		fillMass(&ev, e.comps, netMassKg)
-		return ev, nil
+		comps, base = c.blends[t.idx].comps, &c.blends[t.idx].base
+	} else {
+		comps, base = c.subs[t.idx].comps, &c.subs[t.idx].base
 	}
-	e := &c.subs[t.idx]
-	ev := e.base
-	fillMass(&ev, e.comps, netMassKg)
-	return ev, nil
+	buf := dst.Components
+	*dst = *base
+	fillMass(dst, comps, netMassKg, buf)
+	return nil
 }
 
 // EvaluateShares gives the figures of netMassKg of an ad-hoc composition. Each identifier must
@@ -384,10 +400,37 @@ func (c *Catalogue) EvaluateShares(shares []Share, netMassKg float64) (Evaluatio
 	if len(comps) == 1 {
 		e := &c.subs[ids[0]]
 		ev := e.base
-		fillMass(&ev, e.comps, netMassKg)
+		fillMass(&ev, e.comps, netMassKg, nil)
 		return ev, nil
 	}
-	ev := mixtureBase("", KindBlend, "", comps)
-	fillMass(&ev, comps, netMassKg)
+	base := c.adhocBase(ids, comps)
+	ev := base.base
+	fillMass(&ev, base.comps, netMassKg, nil)
 	return ev, nil
+}
+
+// adhocEntry caches the mass-independent figures of an ad-hoc composition.
+type adhocEntry struct {
+	base  Evaluation
+	comps []compData
+}
+
+// adhocBase returns the cached figures of a composition, computing them at first sight.
+// Batches repeat compositions, and the HS classification of a mixture is the costly part.
+func (c *Catalogue) adhocBase(ids []int32, comps []compData) *adhocEntry {
+	key := make([]byte, 0, 12*len(comps))
+	for i := range comps {
+		key = binary.LittleEndian.AppendUint32(key, uint32(ids[i]))
+		key = binary.LittleEndian.AppendUint64(key, math.Float64bits(comps[i].pct))
+	}
+	if v, ok := c.adhoc.Load(string(key)); ok {
+		return v.(*adhocEntry)
+	}
+	e := &adhocEntry{base: mixtureBase("", KindBlend, "", comps), comps: comps}
+	if c.adhocN.Load() < maxCachedResolutions {
+		if _, loaded := c.adhoc.LoadOrStore(string(key), e); !loaded {
+			c.adhocN.Add(1)
+		}
+	}
+	return e
 }

@@ -278,6 +278,29 @@ func TestEvaluateShares(t *testing.T) {
 	}
 }
 
+func TestEvaluateIntoReuses(t *testing.T) {
+	c := testCatalogue(t)
+	var ev Evaluation
+	if err := c.EvaluateInto(&ev, "R-404A", 1000); err != nil {
+		t.Fatal(err)
+	}
+	first := &ev.Components[0]
+	if err := c.EvaluateInto(&ev, "R-507A", 1000); err != nil {
+		t.Fatal(err)
+	}
+	// source: R-507A = HFC-125/HFC-143a 50/50 (ASHRAE 34); 0.5 t × 3500 + 0.5 t × 4470 (Annex F)
+	if &ev.Components[0] != first || len(ev.Components) != 2 || !near(ev.CO2eTonnes, 3985) || ev.Designation != "R-507A" {
+		t.Errorf("reused %v, %d components, %g t for %s; want the same backing array, 2, 3985 t, R-507A",
+			&ev.Components[0] == first, len(ev.Components), ev.CO2eTonnes, ev.Designation)
+	}
+	if n := testing.AllocsPerRun(100, func() { _ = c.EvaluateInto(&ev, "R-404A", 12) }); n != 0 {
+		t.Errorf("EvaluateInto allocates %v times per call, want 0", n)
+	}
+	if err := c.EvaluateInto(&ev, "HCFC-22", 1000); err != nil || len(ev.Components) != 1 || !near(ev.ODPTonnes, 0.055) {
+		t.Errorf("substance after blend: %v, %d components, %g ODP t", err, len(ev.Components), ev.ODPTonnes)
+	}
+}
+
 func TestEvaluateErrors(t *testing.T) {
 	c := testCatalogue(t)
 	if _, err := c.Evaluate("R-4O4A", 1); !errors.Is(err, ErrUnknownIdentifier) || !strings.Contains(err.Error(), "R-404A") {

@@ -3,6 +3,7 @@ package substances
 import (
 	"errors"
 	"fmt"
+	"slices"
 	"sort"
 	"strings"
 )
@@ -152,6 +153,28 @@ func (c *Catalogue) Resolve(identifier string) Resolution {
 	if i, ok := c.lookupName(s); ok {
 		return c.hits[i].res
 	}
+	if i, ok := c.cas[s]; ok {
+		return c.res[i]
+	}
+	if v, ok := c.slow.Load(s); ok {
+		return v.(Resolution)
+	}
+	r := c.resolveSlow(s)
+	if c.slowN.Load() < maxCachedResolutions {
+		if _, loaded := c.slow.LoadOrStore(strings.Clone(s), r); !loaded {
+			c.slowN.Add(1)
+		}
+	}
+	return r
+}
+
+// maxCachedResolutions bounds the cache of identifiers that needed more than a name lookup
+// (typos, formulas written another way, HS codes, decoded numbers). Batches repeat the same
+// identifiers, so the cache turns their cost into one lookup; once full it stops growing.
+const maxCachedResolutions = 10000
+
+// resolveSlow resolves an identifier that is not an exact name or CAS number.
+func (c *Catalogue) resolveSlow(s string) Resolution {
 	if len(s) > maxIdentifierLen {
 		return Resolution{Note: fmt.Sprintf("identifier of %d bytes is longer than the %d accepted; give a designation, CAS number, formula or HS code", len(s), maxIdentifierLen)}
 	}
@@ -163,6 +186,13 @@ func (c *Catalogue) Resolve(identifier string) Resolution {
 	}
 	if i, ok := c.formulas[compactFormula(s)]; ok {
 		return c.res[i]
+	}
+	if isStructural(s) {
+		if key, ok := structureKey(s); ok {
+			if i, ok := c.structs[key]; ok {
+				return c.res[i]
+			}
+		}
 	}
 	if f, err := ParseFormula(s); err == nil {
 		return c.resolveFormula(s, f)
@@ -183,24 +213,19 @@ const maxIdentifierLen = 200
 
 // looksLikeCAS reports whether s has the CAS layout digits-digits-digit.
 func looksLikeCAS(s string) bool {
-	parts := strings.Split(s, "-")
-	if len(parts) != 3 {
-		return false
-	}
-	for i, p := range parts {
-		if p == "" {
-			return false
-		}
-		for j := 0; j < len(p); j++ {
-			if !isDigit(p[j]) {
-				return false
-			}
-		}
-		if (i == 1 && len(p) != 2) || (i == 2 && len(p) != 1) {
+	var lens [3]int
+	part := 0
+	for i := 0; i < len(s); i++ {
+		switch c := s[i]; {
+		case isDigit(c):
+			lens[part]++
+		case c == '-' && part < 2:
+			part++
+		default:
 			return false
 		}
 	}
-	return true
+	return part == 2 && lens[0] > 0 && lens[1] == 2 && lens[2] == 1
 }
 
 // looksLikeHS reports whether s is made of digits, dots and spaces with at least four digits.
@@ -387,11 +412,12 @@ func (c *Catalogue) suggestions(s string) []string {
 		desig   bool
 	}
 	best := map[target]found{}
+	rows := make([]int, 2*(len(key)+limit+2))
 	for _, sk := range c.suggest {
 		if d := len(sk.key) - len(key); d > limit || -d > limit {
 			continue
 		}
-		d := editDistance(key, sk.key, limit)
+		d := editDistance(key, sk.key, limit, rows)
 		if d > limit {
 			continue
 		}
@@ -424,10 +450,13 @@ func (c *Catalogue) suggestions(s string) []string {
 }
 
 // editDistance is the Levenshtein distance between a and b (bytes), or limit+1 when it is
-// larger than limit.
-func editDistance(a, b string, limit int) int {
-	prev := make([]int, len(b)+1)
-	cur := make([]int, len(b)+1)
+// larger than limit. rows is scratch space of at least 2×(len(b)+1) ints.
+func editDistance(a, b string, limit int, rows []int) int {
+	if len(rows) < 2*(len(b)+1) {
+		rows = make([]int, 2*(len(b)+1))
+	}
+	prev := rows[:len(b)+1]
+	cur := rows[len(b)+1 : 2*(len(b)+1)]
 	for j := range prev {
 		prev[j] = j
 	}
@@ -448,4 +477,40 @@ func editDistance(a, b string, limit int) int {
 		prev, cur = cur, prev
 	}
 	return prev[len(b)]
+}
+
+// structureKey canonicalizes a linear condensed structure such as CF3CH2F: its carbon
+// groups, each written in Hill order, read from whichever end gives the smaller key, so that
+// CF3CH2F, CH2FCF3 and CH2F-CF3 share one key. ok is false for branched, ring or unsaturated
+// structures and for texts that are not a chain of at least two carbon groups.
+func structureKey(s string) (string, bool) {
+	if strings.ContainsAny(s, "()=#") || strings.HasPrefix(s, "c-") {
+		return "", false
+	}
+	var groups []string
+	start := -1
+	for i := 0; i <= len(s); i++ {
+		carbon := i < len(s) && s[i] == 'C' && (i+1 == len(s) || s[i+1] < 'a' || s[i+1] > 'z')
+		if i == len(s) || carbon {
+			if start >= 0 {
+				f, err := ParseFormula(strings.TrimRight(s[start:i], "- "))
+				if err != nil || f.Count("C") != 1 {
+					return "", false
+				}
+				groups = append(groups, f.Hill())
+			} else if i > 0 && strings.TrimSpace(s[:i]) != "" {
+				return "", false // text before the first carbon
+			}
+			start = i
+		}
+	}
+	if len(groups) < 2 {
+		return "", false
+	}
+	fwd := strings.Join(groups, "|")
+	slices.Reverse(groups)
+	if rev := strings.Join(groups, "|"); rev < fwd {
+		return rev, true
+	}
+	return fwd, true
 }
