@@ -360,3 +360,31 @@ func (s *Store) CopyShipmentsBaseline(ctx context.Context, rows []ShipmentRow, f
 		}))
 	return err
 }
+
+// StoredFingerprints returns the fingerprints of the (company, key) pairs already stored.
+func (s *Store) StoredFingerprints(ctx context.Context, keys [][2]string) (map[[2]string]string, error) {
+	out := map[[2]string]string{}
+	if len(keys) == 0 {
+		return out, nil
+	}
+	companies := make([]string, len(keys))
+	recs := make([]string, len(keys))
+	for i, k := range keys {
+		companies[i], recs[i] = k[0], k[1]
+	}
+	rows, err := s.pool.Query(ctx, `SELECT s.company_id, s.record_key, s.fingerprint
+	    FROM shipments s JOIN unnest($1::text[], $2::text[]) AS k(company_id, record_key)
+	      ON s.company_id = k.company_id AND s.record_key = k.record_key`, companies, recs)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var c, k, fp string
+		if err := rows.Scan(&c, &k, &fp); err != nil {
+			return nil, err
+		}
+		out[[2]string{c, k}] = fp
+	}
+	return out, rows.Err()
+}

@@ -20,13 +20,10 @@ type dbFlags struct {
 }
 
 func defaultDataDir() string {
-	if d := os.Getenv("XDG_DATA_HOME"); d != "" {
-		return filepath.Join(d, "halovet")
+	if d, err := pglocal.DefaultDataDir(); err == nil {
+		return d
 	}
-	if home, err := os.UserHomeDir(); err == nil {
-		return filepath.Join(home, ".local", "share", "halovet")
-	}
-	return filepath.Join(os.TempDir(), "halovet")
+	return filepath.Join(os.TempDir(), "halovet", "postgres")
 }
 
 func (d *dbFlags) register(fs *flag.FlagSet) {
@@ -64,7 +61,7 @@ func (db *database) Close() {
 func openDatabase(ctx context.Context, d dbFlags, migrate bool, log *slog.Logger) (*database, error) {
 	db := &database{URL: d.url}
 	if db.URL == "" {
-		c, err := pglocal.Start(ctx, pglocal.Options{DataDir: d.dataDir})
+		c, err := pglocal.Start(ctx, pglocal.Options{DataDir: d.dataDir, Log: os.Stderr})
 		if err != nil {
 			return nil, fmt.Errorf("private PostgreSQL cluster in %s: %w", d.dataDir, err)
 		}

@@ -1,0 +1,500 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	"google.golang.org/grpc"
+	"google.golang.org/protobuf/encoding/protojson"
+
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/validate"
+)
+
+func init() {
+	register("check", "check (and with --record, record) a batch file of shipments", runCheck)
+}
+
+const checkUsage = `check [flags] FILE
+
+Streams the shipment records of FILE to the server and prints a summary: records,
+accepted, accepted with warnings, rejected, findings by code, the totals of accepted
+shipments and the safety cautions of the substances in the batch. FILE is CSV with a
+header row (.csv) or JSON Lines (.jsonl, .ndjson); --format overrides the extension,
+and FILE "-" reads standard input. The file is read as it is sent, never whole.
+
+Nothing is stored unless --record is given: then accepted records are stored and draw
+down their licence's quota, atomically; a retried file with the same record keys is
+not counted twice.
+
+A line that cannot be read (wrong field count, bad quotes, an unknown direction, a
+line over --max-line-bytes) is reported with its line number and rejected; the rest
+of the file goes on. Exit code: 0 when every record is accepted, 1 when some are
+rejected, 2 when the input cannot be used at all (missing file, wrong header).
+
+Examples:
+  halovet check testdata/demo/shipments.csv
+  halovet check --report verdicts.csv shipments.csv
+  halovet check --record --report verdicts.jsonl shipments.jsonl
+
+CSV columns (header names, any order; required ones marked *):
+` + "%s"
+
+func csvColumnHelp() string {
+	var b strings.Builder
+	for _, c := range validate.CSVColumns() {
+		mark := " "
+		if c.Required {
+			mark = "*"
+		}
+		fmt.Fprintf(&b, "  %s %-22s %s\n", mark, c.Name, c.Meaning)
+	}
+	return b.String()
+}
+
+func runCheck(ctx context.Context, args []string) error {
+	fs := newFlagSet("check", fmt.Sprintf(checkUsage, csvColumnHelp()))
+	var cf clientFlags
+	cf.register(fs)
+	format := fs.String("format", "", "input format: csv or jsonl (default: from the file extension)")
+	record := fs.Bool("record", false, "store accepted records and draw their quota")
+	report := fs.String("report", "", "write per-record verdicts to this file: .csv, or .json/.jsonl for JSON Lines")
+	progress := fs.String("progress", "auto", "progress on stderr: auto (when stderr is a terminal), always, never")
+	maxLine := fs.Int("max-line-bytes", validate.DefaultMaxLineBytes, "longest input line accepted, in bytes")
+	output := fs.String("output", "text", "summary format: text or json")
+	if err := parseFlags(fs, args); err != nil {
+		return err
+	}
+	if fs.NArg() != 1 {
+		return usageErr("give exactly one FILE (see --help)")
+	}
+	if *output != "text" && *output != "json" {
+		return usageErr("--output %q: use text or json", *output)
+	}
+	opts := checkOptions{path: fs.Arg(0), record: *record, reportPath: *report, maxLine: *maxLine, output: *output}
+	var err error
+	if opts.format, err = pickFormat(*format, opts.path); err != nil {
+		return err
+	}
+	switch *progress {
+	case "always":
+		opts.progress = true
+	case "never":
+	case "auto":
+		opts.progress = isTerminal(os.Stderr)
+	default:
+		return usageErr("--progress %q: use auto, always or never", *progress)
+	}
+	conn, err := cf.dial()
+	if err != nil {
+		return err
+	}
+	defer conn.Close()
+	sum, err := checkFile(ctx, conn, opts, os.Stdout, os.Stderr)
+	if err != nil {
+		return err
+	}
+	if sum.Rejected > 0 {
+		return &exitError{code: 1, err: fmt.Errorf("%d of %d records rejected", sum.Rejected, sum.Records)}
+	}
+	return nil
+}
+
+func pickFormat(flag, path string) (validate.Format, error) {
+	if flag != "" {
+		f, err := validate.ParseFormat(flag)
+		if err != nil {
+			return 0, usageErr("--format: %v", err)
+		}
+		return f, nil
+	}
+	if f := validate.FormatOfPath(path); f != validate.FormatUnknown {
+		return f, nil
+	}
+	return 0, usageErr("cannot tell the format of %q from its extension; give --format csv or --format jsonl", path)
+}
+
+func isTerminal(f *os.File) bool {
+	st, err := f.Stat()
+	return err == nil && st.Mode()&os.ModeCharDevice != 0
+}
+
+type checkOptions struct {
+	path       string
+	format     validate.Format
+	record     bool
+	reportPath string
+	maxLine    int
+	progress   bool
+	output     string
+}
+
+// countingReader counts the bytes read, for progress.
+type countingReader struct {
+	r io.Reader
+	n atomic.Int64
+}
+
+func (c *countingReader) Read(p []byte) (int, error) {
+	n, err := c.r.Read(p)
+	c.n.Add(int64(n))
+	return n, err
+}
+
+// seqItem keeps the file's order: a record sent to the server (its verdict comes back
+// in order), or a line answered locally.
+type seqItem struct {
+	local     *validate.Verdict
+	direction validate.Direction
+}
+
+// shipmentStream is what check needs of the two streaming calls.
+type shipmentStream interface {
+	send(*halovetv1.ShipmentRecord) error
+	closeSend() error
+	recv() (*halovetv1.Verdict, *halovetv1.BatchSummary, error)
+}
+
+type checkStream struct {
+	s halovetv1.ShipmentService_CheckShipmentsClient
+}
+
+func (c checkStream) send(r *halovetv1.ShipmentRecord) error {
+	return c.s.Send(&halovetv1.CheckShipmentsRequest{Record: r})
+}
+func (c checkStream) closeSend() error { return c.s.CloseSend() }
+func (c checkStream) recv() (*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
+	m, err := c.s.Recv()
+	return m.GetVerdict(), m.GetSummary(), err
+}
+
+type recordStream struct {
+	s halovetv1.ShipmentService_RecordShipmentsClient
+}
+
+func (c recordStream) send(r *halovetv1.ShipmentRecord) error {
+	return c.s.Send(&halovetv1.RecordShipmentsRequest{Record: r})
+}
+func (c recordStream) closeSend() error { return c.s.CloseSend() }
+func (c recordStream) recv() (*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
+	m, err := c.s.Recv()
+	return m.GetVerdict(), m.GetSummary(), err
+}
+
+// checkFile streams a batch file through the server and writes the summary (and the
+// report file). It returns the summary; an error means the batch could not be run.
+func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdout, stderr io.Writer) (*validate.Summary, error) {
+	var in io.Reader = os.Stdin
+	var size int64
+	if o.path != "-" {
+		f, err := os.Open(o.path)
+		if err != nil {
+			return nil, &exitError{code: 2, err: err}
+		}
+		defer f.Close()
+		if st, err := f.Stat(); err == nil {
+			size = st.Size()
+		}
+		in = f
+	}
+	cr := &countingReader{r: in}
+	rd, err := validate.NewReader(o.format, cr, validate.WithMaxLineBytes(o.maxLine))
+	if err != nil {
+		return nil, &exitError{code: 2, err: fmt.Errorf("%s: %w", o.path, err)}
+	}
+	var rep validate.ReportWriter
+	if o.reportPath != "" {
+		rf, err := os.Create(o.reportPath)
+		if err != nil {
+			return nil, &exitError{code: 2, err: fmt.Errorf("--report: %w", err)}
+		}
+		defer rf.Close()
+		switch strings.ToLower(filepath.Ext(o.reportPath)) {
+		case ".csv":
+			if rep, err = validate.NewCSVReport(rf); err != nil {
+				return nil, err
+			}
+		case ".json", ".jsonl", ".ndjson":
+			rep = validate.NewJSONLReport(rf)
+		default:
+			return nil, usageErr("--report %q: name a .csv, .json or .jsonl file", o.reportPath)
+		}
+	}
+
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	svc := halovetv1.NewShipmentServiceClient(conn)
+	var stream shipmentStream
+	if o.record {
+		s, err := svc.RecordShipments(ctx)
+		if err != nil {
+			return nil, err
+		}
+		stream = recordStream{s}
+	} else {
+		s, err := svc.CheckShipments(ctx)
+		if err != nil {
+			return nil, err
+		}
+		stream = checkStream{s}
+	}
+
+	// The sender reads the file and sends; the items channel carries the order to the
+	// receiver. Its capacity bounds memory, and exceeds the server's write batch so that
+	// a recording stream always has enough records in flight to fill one.
+	items := make(chan seqItem, 4096)
+	var sent atomic.Int64
+	var sendErr error
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		defer close(items)
+		sendErr = sendFile(ctx, rd, stream, items, &sent)
+	}()
+
+	var done atomic.Int64
+	stopProgress := startProgress(o.progress, stderr, cr, size, &sent, &done)
+	sum := validate.NewSummary()
+	var recvErr error
+	for it := range items {
+		v := it.local
+		if v == nil {
+			pv, _, err := stream.recv()
+			if err != nil {
+				recvErr = err
+				cancel()
+				break
+			}
+			if pv == nil {
+				recvErr = errors.New("the server ended the stream before answering every record")
+				cancel()
+				break
+			}
+			cv := verdictFromProto(pv)
+			v = &cv
+		}
+		sum.Add(v, it.direction)
+		if rep != nil {
+			if err := rep.Write(v); err != nil {
+				recvErr = err
+				cancel()
+				break
+			}
+		}
+		done.Add(1)
+	}
+	for range items { // drain after an error so the sender can finish
+	}
+	wg.Wait()
+	stopProgress()
+	if recvErr == nil && sendErr == nil {
+		// The closing summary.
+		if _, ps, err := stream.recv(); err != nil {
+			recvErr = err
+		} else if ps == nil {
+			recvErr = errors.New("the server sent no summary")
+		} else if ps.GetRecords() != sent.Load() {
+			recvErr = fmt.Errorf("the server counted %d records, %d were sent", ps.GetRecords(), sent.Load())
+		}
+	}
+	if rep != nil {
+		if err := rep.Close(); err != nil && recvErr == nil {
+			recvErr = err
+		}
+	}
+	if sendErr != nil {
+		return nil, sendErr
+	}
+	if recvErr != nil {
+		return nil, recvErr
+	}
+	if o.output == "json" {
+		if err := writeSummaryJSON(stdout, sum, o.record); err != nil {
+			return nil, err
+		}
+	} else {
+		if o.record {
+			fmt.Fprintln(stdout, "Recorded batch:", o.path)
+		} else {
+			fmt.Fprintln(stdout, "Checked batch (nothing stored):", o.path)
+		}
+		if err := sum.WriteText(stdout); err != nil {
+			return nil, err
+		}
+	}
+	return sum, nil
+}
+
+// sendFile reads records and sends them; lines that cannot be read, or records with
+// fields that could not be read, are answered locally and never sent, so nothing from
+// a bad line is recorded.
+func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStream, items chan<- seqItem, sent *atomic.Int64) error {
+	for {
+		rec, lerr, err := rd.Next()
+		if errors.Is(err, io.EOF) {
+			return stream.closeSend()
+		}
+		if err != nil {
+			return fmt.Errorf("reading the input: %w", err)
+		}
+		var it seqItem
+		switch {
+		case lerr != nil:
+			v := validate.LineErrorVerdict(lerr)
+			it.local = &v
+		case len(rec.Unreadable) > 0:
+			v := unreadableVerdict(&rec)
+			it.local = &v
+		default:
+			if err := stream.send(recordToProto(&rec)); err != nil {
+				if errors.Is(err, io.EOF) {
+					return nil // the server ended the call; the receiver reports why
+				}
+				return err
+			}
+			sent.Add(1)
+			it.direction = rec.Direction
+		}
+		select {
+		case items <- it:
+		case <-ctx.Done():
+			return nil
+		}
+	}
+}
+
+func unreadableVerdict(r *validate.Record) validate.Verdict {
+	info, _ := validate.LookupCode(validate.CodeFieldUnreadable)
+	v := validate.Verdict{RecordKey: r.Key, Line: r.Line}
+	for _, fi := range r.Unreadable {
+		v.Findings = append(v.Findings, validate.Finding{Code: validate.CodeFieldUnreadable, Severity: info.Severity,
+			Field: fi.Field, Message: fmt.Sprintf("%q: %s", fi.Text, fi.Reason)})
+	}
+	v.Add()
+	return v
+}
+
+func recordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
+	p := &halovetv1.ShipmentRecord{RecordKey: r.Key, SourceLine: r.Line, Direction: halovetv1.Direction(r.Direction),
+		CompanyId: r.CompanyID, LicenceNumber: r.LicenceNumber, PartnerCountry: r.PartnerCountry,
+		DeclarationDate: r.DeclarationDate, Substance: r.Substance, DeclaredHsCode: r.HSCode,
+		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, Quantity: r.Quantity, QuantityUnit: r.Unit,
+		ContainerCount: r.ContainerCount, Purpose: halovetv1.Purpose(r.Purpose), Condition: halovetv1.Condition(r.Condition)}
+	for _, s := range r.Composition {
+		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: s.MassPct})
+	}
+	return p
+}
+
+var (
+	cautionMu    sync.Mutex
+	cautionCache = map[string][]string{}
+)
+
+// cautionsFor returns the catalogue's safety cautions for a safety class.
+func cautionsFor(class string) []string {
+	cautionMu.Lock()
+	defer cautionMu.Unlock()
+	c, ok := cautionCache[class]
+	if !ok {
+		c = substances.Cautions(class, true)
+		cautionCache[class] = c
+	}
+	return c
+}
+
+var outcomeFromProto = map[halovetv1.Outcome]validate.Outcome{
+	halovetv1.Outcome_OUTCOME_ACCEPTED:               validate.OutcomeAccepted,
+	halovetv1.Outcome_OUTCOME_ACCEPTED_WITH_WARNINGS: validate.OutcomeAcceptedWithWarnings,
+	halovetv1.Outcome_OUTCOME_REJECTED:               validate.OutcomeRejected,
+}
+
+var severityFromProto = map[halovetv1.Severity]validate.Severity{
+	halovetv1.Severity_SEVERITY_NOTICE:  validate.SeverityNotice,
+	halovetv1.Severity_SEVERITY_WARNING: validate.SeverityWarning,
+	halovetv1.Severity_SEVERITY_ERROR:   validate.SeverityError,
+}
+
+func verdictFromProto(p *halovetv1.Verdict) validate.Verdict {
+	v := validate.Verdict{RecordKey: p.GetRecordKey(), Line: p.GetSourceLine(), Outcome: outcomeFromProto[p.GetOutcome()],
+		Replayed: p.GetReplayed()}
+	for _, f := range p.GetFindings() {
+		v.Findings = append(v.Findings, validate.Finding{Code: f.GetCode(), Severity: severityFromProto[f.GetSeverity()],
+			Field: f.GetField(), Message: f.GetMessage()})
+	}
+	if fg := p.GetFigures(); fg != nil {
+		v.Resolved = true
+		v.Figures = validate.Figures{Designation: fg.GetResolvedDesignation(), NetMassKg: fg.GetNetMassKg(),
+			ODPTonnes: fg.GetOdpTonnes(), CO2eTonnes: fg.GetCo2ETonnes(), CountsInConsumption: fg.GetCountsInConsumption(),
+			PartnerNonParty: fg.GetPartnerNonParty(), SafetyClass: fg.GetSafetyClass(), Cautions: cautionsFor(fg.GetSafetyClass())}
+		if fg.GetKind() == halovetv1.EntryKind_ENTRY_KIND_BLEND {
+			v.Figures.Kind = substances.KindBlend
+		} else {
+			v.Figures.Kind = substances.KindSubstance
+		}
+		for _, c := range fg.GetComponents() {
+			v.Figures.Components = append(v.Figures.Components, substances.ComponentFigures{Designation: c.GetDesignation(),
+				Group: substances.Group(c.GetAnnexGroup()), MassPct: c.GetMassPercent(), MassKg: c.GetMassKg(), ODP: c.GetOdp(),
+				ODPTonnes: c.GetOdpTonnes(), ProtocolGWP: c.GetGwpProtocol(), CO2eTonnes: c.GetCo2ETonnes(), SafetyClass: c.GetSafetyClass()})
+		}
+	}
+	return v
+}
+
+// startProgress prints a progress line on w every quarter second while enabled.
+func startProgress(enabled bool, w io.Writer, cr *countingReader, size int64, sent, done *atomic.Int64) (stop func()) {
+	if !enabled {
+		return func() {}
+	}
+	quit := make(chan struct{})
+	finished := make(chan struct{})
+	start := time.Now()
+	go func() {
+		defer close(finished)
+		t := time.NewTicker(250 * time.Millisecond)
+		defer t.Stop()
+		for {
+			select {
+			case <-quit:
+				fmt.Fprint(w, "\r\033[K")
+				return
+			case <-t.C:
+				n := done.Load()
+				rate := float64(n) / time.Since(start).Seconds()
+				if size > 0 {
+					pct := 100 * float64(cr.n.Load()) / float64(size)
+					bar := int(pct / 5)
+					fmt.Fprintf(w, "\r[%-20s] %5.1f%%  %d records answered, %d sent  %.0f/s ", strings.Repeat("#", min(bar, 20)), pct, n, sent.Load(), rate)
+				} else {
+					fmt.Fprintf(w, "\r%d records answered, %d sent  %.0f/s ", n, sent.Load(), rate)
+				}
+			}
+		}
+	}()
+	return func() { close(quit); <-finished }
+}
+
+func writeSummaryJSON(w io.Writer, s *validate.Summary, recorded bool) error {
+	pb := &halovetv1.BatchSummary{Records: s.Records, Accepted: s.Accepted, AcceptedWithWarnings: s.AcceptedWithWarnings,
+		Rejected: s.Rejected, Replayed: s.Replayed, ErrorsByCode: s.CountsBySeverity(validate.SeverityError),
+		WarningsByCode: s.CountsBySeverity(validate.SeverityWarning)}
+	if recorded {
+		pb.Recorded = s.Accepted + s.AcceptedWithWarnings - s.Replayed
+	}
+	b, err := protojson.MarshalOptions{Multiline: true, EmitUnpopulated: true}.Marshal(pb)
+	if err != nil {
+		return err
+	}
+	_, err = fmt.Fprintf(w, "%s\n", b)
+	return err
+}

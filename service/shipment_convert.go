@@ -1,0 +1,97 @@
+package service
+
+import (
+	"strings"
+
+	"google.golang.org/protobuf/encoding/protojson"
+
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/validate"
+)
+
+// recordFromProto maps a wire record to the checker's record. The wire enums and the
+// validate enums share their numbers.
+func recordFromProto(p *halovetv1.ShipmentRecord) validate.Record {
+	r := validate.Record{Key: p.GetRecordKey(), Line: p.GetSourceLine(), Direction: validate.Direction(p.GetDirection()),
+		CompanyID: p.GetCompanyId(), LicenceNumber: p.GetLicenceNumber(), PartnerCountry: p.GetPartnerCountry(),
+		DeclarationDate: p.GetDeclarationDate(), Substance: p.GetSubstance(), HSCode: p.GetDeclaredHsCode(),
+		CAS: p.GetDeclaredCasNumber(), Formula: p.GetDeclaredFormula(), Quantity: p.GetQuantity(),
+		Unit: p.GetQuantityUnit(), ContainerCount: p.GetContainerCount(), Purpose: validate.Purpose(p.GetPurpose()),
+		Condition: validate.Condition(p.GetCondition())}
+	for _, s := range p.GetDeclaredComposition() {
+		r.Composition = append(r.Composition, validate.DeclaredShare{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent()})
+	}
+	return r
+}
+
+var severityProto = map[validate.Severity]halovetv1.Severity{
+	validate.SeverityNotice:  halovetv1.Severity_SEVERITY_NOTICE,
+	validate.SeverityWarning: halovetv1.Severity_SEVERITY_WARNING,
+	validate.SeverityError:   halovetv1.Severity_SEVERITY_ERROR,
+}
+
+var outcomeProto = map[validate.Outcome]halovetv1.Outcome{
+	validate.OutcomeAccepted:             halovetv1.Outcome_OUTCOME_ACCEPTED,
+	validate.OutcomeAcceptedWithWarnings: halovetv1.Outcome_OUTCOME_ACCEPTED_WITH_WARNINGS,
+	validate.OutcomeRejected:             halovetv1.Outcome_OUTCOME_REJECTED,
+}
+
+func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
+	out := &halovetv1.Verdict{RecordKey: v.RecordKey, SourceLine: v.Line, Outcome: outcomeProto[v.Outcome],
+		Replayed: v.Replayed}
+	out.Findings = make([]*halovetv1.Finding, len(v.Findings))
+	for i, f := range v.Findings {
+		out.Findings[i] = &halovetv1.Finding{Code: f.Code, Severity: severityProto[f.Severity], Field: f.Field, Message: f.Message}
+	}
+	if v.Resolved {
+		f := &v.Figures
+		out.Figures = &halovetv1.ShipmentFigures{ResolvedDesignation: f.Designation, Kind: kindProto(f.Kind),
+			NetMassKg: f.NetMassKg, OdpTonnes: f.ODPTonnes, Co2ETonnes: f.CO2eTonnes,
+			Components: componentsToProto(f.Components), CountsInConsumption: f.CountsInConsumption,
+			SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+	}
+	return out
+}
+
+// findingFor builds a finding for an outcome the store decided at commit time.
+func findingFor(code, field, msg string) validate.Finding {
+	info, _ := validate.LookupCode(code)
+	return validate.Finding{Code: code, Severity: info.Severity, Field: field, Message: msg}
+}
+
+func kindText(k substances.Kind) string {
+	if k == substances.KindBlend {
+		return "blend"
+	}
+	return "substance"
+}
+
+// shipmentRow turns an accepted verdict into the row the store records.
+func shipmentRow(p *halovetv1.ShipmentRecord, r *validate.Record, v *validate.Verdict) (store.ShipmentRow, error) {
+	date, err := validate.ParseDate(r.DeclarationDate)
+	if err != nil {
+		return store.ShipmentRow{}, err
+	}
+	js, err := protojson.Marshal(p)
+	if err != nil {
+		return store.ShipmentRow{}, err
+	}
+	f := &v.Figures
+	row := store.ShipmentRow{CompanyID: strings.TrimSpace(r.CompanyID), RecordKey: strings.TrimSpace(r.Key),
+		Fingerprint: v.Fingerprint, Direction: r.Direction.String(), LicenceNumber: strings.TrimSpace(r.LicenceNumber),
+		PartnerCountry: strings.ToUpper(strings.TrimSpace(r.PartnerCountry)), DeclarationDate: date,
+		ResolvedDesignation: f.Designation, EntryKind: kindText(f.Kind), Purpose: r.Purpose.String(),
+		Condition: r.Condition.String(), NetMassKg: store.ToNano(f.NetMassKg), ODPTonnes: store.ToNano(f.ODPTonnes),
+		CO2eTonnes: store.ToNano(f.CO2eTonnes), CountsInConsumption: f.CountsInConsumption,
+		PartnerNonParty: f.PartnerNonParty, RecordJSON: js}
+	for _, c := range f.Components {
+		row.Components = append(row.Components, store.ShipmentComponent{Designation: c.Designation, AnnexGroup: string(c.Group),
+			MassKg: store.ToNano(c.MassKg), ODPTonnes: store.ToNano(c.ODPTonnes), CO2eTonnes: store.ToNano(c.CO2eTonnes)})
+	}
+	for _, d := range v.Draws {
+		row.Draws = append(row.Draws, store.Draw{LicenceNumber: d.LicenceNumber, LineNumber: d.LineNumber, Amount: store.ToNano(d.Amount)})
+	}
+	return row, nil
+}

@@ -1,0 +1,115 @@
+package store
+
+import (
+	"context"
+	"fmt"
+)
+
+// ShipmentTotal is the mass of one substance (a shipment's single substance or one blend
+// component) in the recorded shipments of one year that share direction, purpose,
+// condition and partner status: what the consumption arithmetic needs, summed by
+// PostgreSQL so that a year of a million shipments never travels row by row.
+type ShipmentTotal struct {
+	Year            int
+	Designation     string // component designation
+	AnnexGroup      string // the group recorded with the component ("" when uncontrolled)
+	Direction       string // "import", "export", "re-export", "transit"
+	Purpose         string // "servicing", "feedstock", "qps", ... or ""
+	Condition       string // "virgin", "used", "recycled", "reclaimed" or ""
+	PartnerNonParty bool
+	Tonnes          float64 // sum of the components' net mass, metric tonnes
+	Shipments       int64   // shipments contributing
+}
+
+// ShipmentTotals sums the recorded shipment components per year, substance, direction,
+// purpose, condition and partner status, for the given years (every year when years is
+// nil). The sums are exact numeric sums in kg, converted to tonnes as the last step.
+func (s *Store) ShipmentTotals(ctx context.Context, years []int) ([]ShipmentTotal, error) {
+	rows, err := s.pool.Query(ctx, `SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose,
+	        s.condition, s.partner_non_party, (sum(c.mass_kg) / 1000)::float8, count(*)
+	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
+	    WHERE ($1::int[] IS NULL OR s.year = ANY($1))
+	    GROUP BY s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition, s.partner_non_party
+	    ORDER BY s.year, c.designation, s.direction, s.purpose, s.condition, s.partner_non_party`, intsOrNil(years))
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []ShipmentTotal
+	for rows.Next() {
+		var t ShipmentTotal
+		if err := rows.Scan(&t.Year, &t.Designation, &t.AnnexGroup, &t.Direction, &t.Purpose, &t.Condition,
+			&t.PartnerNonParty, &t.Tonnes, &t.Shipments); err != nil {
+			return nil, err
+		}
+		out = append(out, t)
+	}
+	return out, rows.Err()
+}
+
+// ShipmentYears returns, in order, the years in which at least one shipment is recorded.
+// It walks the year index one distinct value at a time (a recursive skip scan), so its
+// cost grows with the number of years, not of shipments.
+func (s *Store) ShipmentYears(ctx context.Context) ([]int, error) {
+	rows, err := s.pool.Query(ctx, `WITH RECURSIVE y(year) AS (
+	        SELECT min(year) FROM shipments
+	      UNION ALL
+	        SELECT (SELECT min(year) FROM shipments WHERE year > y.year) FROM y WHERE y.year IS NOT NULL)
+	    SELECT year FROM y WHERE year IS NOT NULL ORDER BY year`)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []int
+	for rows.Next() {
+		var y int
+		if err := rows.Scan(&y); err != nil {
+			return nil, err
+		}
+		out = append(out, y)
+	}
+	return out, rows.Err()
+}
+
+// CompanyAmount is one company's amount in one year.
+type CompanyAmount struct {
+	CompanyID string
+	Year      int
+	Amount    float64
+}
+
+// CompanyImports sums, per company and year, the recorded imports that count in
+// consumption (counts_in_consumption) of the components in the given Annex groups, in a
+// quota unit: "metric-t" (component mass), "odp-t" or "co2e-t" (the figures computed when
+// the shipment was recorded).
+func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string, years []int) ([]CompanyAmount, error) {
+	var expr string
+	switch unit {
+	case "metric-t":
+		expr = "c.mass_kg / 1000"
+	case "odp-t":
+		expr = "c.odp_tonnes"
+	case "co2e-t":
+		expr = "c.co2e_tonnes"
+	default:
+		return nil, fmt.Errorf("company imports: unit %q; accepted: metric-t, odp-t, co2e-t", unit)
+	}
+	rows, err := s.pool.Query(ctx, `SELECT s.company_id, s.year, sum(`+expr+`)::float8
+	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
+	    WHERE s.direction = 'import' AND s.counts_in_consumption
+	      AND c.annex_group = ANY($1) AND s.year = ANY($2)
+	    GROUP BY s.company_id, s.year ORDER BY s.company_id, s.year`, groups, intsOrNil(years))
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []CompanyAmount
+	for rows.Next() {
+		var a CompanyAmount
+		if err := rows.Scan(&a.CompanyID, &a.Year, &a.Amount); err != nil {
+			return nil, err
+		}
+		out = append(out, a)
+	}
+	return out, rows.Err()
+}

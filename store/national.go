@@ -1,0 +1,141 @@
+package store
+
+import (
+	"context"
+	"errors"
+	"fmt"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// Kinds of national entries, as stored in national_entries.entry_type.
+const (
+	EntryProduction               = "production"                  // produced in the reporting Party
+	EntryDestruction              = "destruction"                 // destroyed by an approved technology
+	EntryFeedstock                = "feedstock"                   // used entirely as feedstock
+	EntryQPS                      = "qps"                         // methyl bromide used for QPS
+	EntryHistoricalImport         = "historical-import"           // imports before the service was in use
+	EntryHistoricalExport         = "historical-export"           // exports to Parties before the service was in use
+	EntryHistoricalExportNonParty = "historical-export-non-party" // exports to non-Parties, idem
+)
+
+// EntryTypes lists the kinds of national entries.
+var EntryTypes = []string{EntryProduction, EntryDestruction, EntryFeedstock, EntryQPS,
+	EntryHistoricalImport, EntryHistoricalExport, EntryHistoricalExportNonParty}
+
+// NationalEntry is one quantity of one substance in one year that does not come from a
+// recorded shipment: production, destruction, feedstock and QPS use, and historical trade
+// totals for years before the service was in use.
+type NationalEntry struct {
+	Key       string // caller's key; an entry with the same key is replaced
+	Year      int
+	Type      string // one of EntryTypes
+	Substance string // catalogue designation of a single substance
+	Tonnes    float64
+	Note      string
+}
+
+// NationalTotal is the sum of the national entries of one kind, substance and year.
+type NationalTotal struct {
+	Year      int
+	Type      string
+	Substance string
+	Tonnes    float64
+	Entries   int
+}
+
+// PutNationalEntries stores entries in one transaction: a new key is inserted, an existing
+// key replaced (ON CONFLICT, so two callers storing the same key at once cannot both
+// insert). Every entry is written to the audit log. A substance missing from the catalogue
+// table fails the whole call with ErrNotFound, and a value the schema refuses with
+// ErrConflict; nothing is stored then.
+func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry, actor string) error {
+	if len(entries) == 0 {
+		return nil
+	}
+	return s.InTx(ctx, func(tx pgx.Tx) error {
+		for _, e := range entries {
+			// One statement per entry keeps the SQLSTATE tied to its key for the message;
+			// a batch of a few thousand entries still runs in seconds.
+			_, err := tx.Exec(ctx, `INSERT INTO national_entries (entry_key, year, entry_type, substance, metric_tonnes, note, updated_at)
+			    VALUES ($1, $2, $3, $4, $5, $6, now())
+			    ON CONFLICT (entry_key) DO UPDATE SET year = EXCLUDED.year, entry_type = EXCLUDED.entry_type,
+			      substance = EXCLUDED.substance, metric_tonnes = EXCLUDED.metric_tonnes, note = EXCLUDED.note,
+			      updated_at = now()`, e.Key, e.Year, e.Type, e.Substance, e.Tonnes, e.Note)
+			if err != nil {
+				return classify(err, "national entry", e.Key)
+			}
+			if err := audit(ctx, tx, actor, "put", "national_entry", e.Key, "", e); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+}
+
+// ListNationalEntries returns the entries of one year (all years when year is 0), by year,
+// kind, substance and key.
+func (s *Store) ListNationalEntries(ctx context.Context, year int) ([]NationalEntry, error) {
+	rows, err := s.pool.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note
+	    FROM national_entries WHERE ($1 = 0 OR year = $1)
+	    ORDER BY year, entry_type, substance, entry_key`, year)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []NationalEntry
+	for rows.Next() {
+		var e NationalEntry
+		if err := rows.Scan(&e.Key, &e.Year, &e.Type, &e.Substance, &e.Tonnes, &e.Note); err != nil {
+			return nil, err
+		}
+		out = append(out, e)
+	}
+	return out, rows.Err()
+}
+
+// NationalTotals sums the national entries per year, kind and substance, in the database,
+// for the given years (every year when years is nil).
+func (s *Store) NationalTotals(ctx context.Context, years []int) ([]NationalTotal, error) {
+	rows, err := s.pool.Query(ctx, `SELECT year, entry_type, substance, sum(metric_tonnes)::float8, count(*)
+	    FROM national_entries WHERE ($1::int[] IS NULL OR year = ANY($1))
+	    GROUP BY year, entry_type, substance ORDER BY year, entry_type, substance`, intsOrNil(years))
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []NationalTotal
+	for rows.Next() {
+		var t NationalTotal
+		if err := rows.Scan(&t.Year, &t.Type, &t.Substance, &t.Tonnes, &t.Entries); err != nil {
+			return nil, err
+		}
+		out = append(out, t)
+	}
+	return out, rows.Err()
+}
+
+// ErrNoReportingParty: no country is configured as the reporting Party.
+var ErrNoReportingParty = errors.New("no reporting Party is configured")
+
+// ReportingParty returns the settings of the country marked as the reporting Party; the
+// error wraps ErrNoReportingParty when there is none.
+func (s *Store) ReportingParty(ctx context.Context) (Party, error) {
+	p, err := scanParty(s.pool.QueryRow(ctx, `SELECT `+partyCols+` FROM parties WHERE reporting_party`))
+	if errors.Is(err, pgx.ErrNoRows) {
+		return p, fmt.Errorf("%w: store the country's settings with reporting_party true (PutParty, or 'halovet load')", ErrNoReportingParty)
+	}
+	return p, err
+}
+
+// intsOrNil passes nil for "no filter" and the years otherwise.
+func intsOrNil(v []int) any {
+	if v == nil {
+		return nil
+	}
+	out := make([]int32, len(v))
+	for i, x := range v {
+		out[i] = int32(x)
+	}
+	return out
+}
