@@ -477,232 +477,6 @@ func (c *Catalogue) learnIsomers() {
 	}
 }
 
-// isStructural reports whether a formula text repeats an element, i.e. is a condensed
-// structure such as CH2FCF3 rather than a molecular formula such as C2H2F4.
-func isStructural(s string) bool {
-	var seen [8]string
-	n := 0
-	for i := 0; i < len(s); i++ {
-		if s[i] < 'A' || s[i] > 'Z' {
-			continue
-		}
-		j := i + 1
-		if j < len(s) && s[j] >= 'a' && s[j] <= 'z' {
-			j++
-		}
-		sym := s[i:j]
-		for k := 0; k < n; k++ {
-			if seen[k] == sym {
-				return true
-			}
-		}
-		if n < len(seen) {
-			seen[n] = sym
-			n++
-		}
-	}
-	return false
-}
-
-// compactFormula removes spaces from a formula text.
-func compactFormula(s string) string {
-	if !strings.ContainsAny(s, " \t") {
-		return s
-	}
-	return strings.NewReplacer(" ", "", "\t", "").Replace(s)
-}
-
-// indexFormulas records Hill formulas, structures and formula synonyms.
-func (c *Catalogue) indexFormulas() {
-	for i := range c.subs {
-		e := &c.subs[i]
-		if e.formula == nil {
-			continue
-		}
-		h := e.formula.Hill()
-		c.byHill[h] = append(c.byHill[h], int32(i))
-	}
-	// Molecular formulas: every substance with those atoms, equally.
-	hills := make([]string, 0, len(c.byHill))
-	for h := range c.byHill {
-		hills = append(hills, h)
-	}
-	sort.Strings(hills)
-	for _, h := range hills {
-		c.hills[h] = c.addRes(c.formulaResolution(h, "", c.byHill[h]))
-	}
-	// Written forms: structures and formula synonyms, as written.
-	type form struct {
-		text string
-		hill string
-	}
-	var forms []form
-	seen := map[string]bool{}
-	for i := range c.subs {
-		e := &c.subs[i]
-		if e.formula == nil {
-			continue
-		}
-		h := e.formula.Hill()
-		texts := []string{e.s.Formula, e.s.Structure}
-		for _, syn := range e.s.Synonyms {
-			if isFormulaSynonym(syn, e.formula) {
-				texts = append(texts, syn)
-			}
-		}
-		for _, t := range texts {
-			t = compactFormula(t)
-			if t == "" || seen[t] {
-				continue
-			}
-			seen[t] = true
-			forms = append(forms, form{t, h})
-		}
-	}
-	for _, f := range forms {
-		ids := c.byHill[f.hill]
-		if isStructural(f.text) {
-			c.formulas[f.text] = c.addRes(c.formulaResolution(f.hill, f.text, ids))
-			if key, ok := structureKey(f.text); ok {
-				c.structs[key] = c.formulas[f.text]
-			}
-		} else {
-			c.formulas[f.text] = c.hills[f.hill]
-		}
-		// A formula that fits one substance is also accepted in any letter case ("co2").
-		if len(ids) == 1 {
-			key := normalizeString(f.text)
-			if _, taken := c.names[key]; !taken {
-				t := target{kind: KindSubstance, idx: ids[0]}
-				c.names[key] = int32(len(c.hits))
-				c.hits = append(c.hits, nameHit{t: t, res: c.res[c.formulas[f.text]]})
-			}
-		}
-	}
-}
-
-// structureOf reports whether text is one of the written structures of substance e.
-func structureOf(e *subEntry, text string) bool {
-	if compactFormula(e.s.Structure) == text {
-		return true
-	}
-	for _, syn := range e.s.Synonyms {
-		if compactFormula(syn) == text && isFormulaSynonym(syn, e.formula) {
-			return true
-		}
-	}
-	return false
-}
-
-// formulaResolution ranks the substances with Hill formula h; when text is a structure,
-// the substances written so rank above their isomers.
-func (c *Catalogue) formulaResolution(h, text string, ids []int32) Resolution {
-	var r Resolution
-	for _, id := range ids {
-		e := &c.subs[id]
-		cand := c.candidate(target{kind: KindSubstance, idx: id}, MatchFormula, e.s.Formula)
-		if text != "" && structureOf(e, text) {
-			cand.Score = scoreStructure
-			cand.MatchedOn = text
-		}
-		r.Candidates = append(r.Candidates, cand)
-	}
-	finishResolution(&r)
-	if r.Ambiguous {
-		r.Note = fmt.Sprintf("formula %s fits %d catalogue substances (isomers or isomer groups); give the designation or CAS number", h, countTop(r.Candidates))
-	}
-	return r
-}
-
-func (c *Catalogue) addRes(r Resolution) int32 {
-	c.res = append(c.res, r)
-	return int32(len(c.res) - 1)
-}
-
-// indexCAS records CAS Registry Numbers.
-func (c *Catalogue) indexCAS() {
-	for i := range c.subs {
-		s := c.subs[i].s
-		if s.CAS == "" {
-			continue
-		}
-		r := Resolution{Candidates: []Candidate{c.candidate(target{kind: KindSubstance, idx: int32(i)}, MatchCAS, s.CAS)}}
-		c.cas[s.CAS] = c.addRes(r)
-	}
-}
-
-// indexHS records the HS subheadings of both editions.
-func (c *Catalogue) indexHS() {
-	type use struct {
-		id       int32
-		editions []HSEdition
-	}
-	codes := map[string][]use{}
-	add := func(code string, id int32, ed HSEdition) {
-		us := codes[code]
-		for k := range us {
-			if us[k].id == id {
-				us[k].editions = append(us[k].editions, ed)
-				return
-			}
-		}
-		codes[code] = append(us, use{id: id, editions: []HSEdition{ed}})
-	}
-	for i := range c.subs {
-		s := c.subs[i].s
-		for _, code := range s.HS2017 {
-			add(code, int32(i), HS2017)
-		}
-		for _, code := range s.HS2022 {
-			add(code, int32(i), HS2022)
-		}
-	}
-	keys := make([]string, 0, len(codes))
-	for k := range codes {
-		keys = append(keys, k)
-	}
-	sort.Strings(keys)
-	for _, code := range keys {
-		var r Resolution
-		editions := map[HSEdition]bool{}
-		for _, u := range codes[code] {
-			var eds []string
-			for _, ed := range u.editions {
-				eds = append(eds, string(ed))
-				editions[ed] = true
-			}
-			r.Candidates = append(r.Candidates, c.candidate(target{kind: KindSubstance, idx: u.id}, MatchHSCode, strings.Join(eds, "/")+" "+code))
-		}
-		finishResolution(&r)
-		var notes []string
-		shared := false
-		for _, ed := range HSEditions() {
-			if !editions[ed] {
-				continue
-			}
-			sh, ok := LookupHS(ed, code)
-			if !ok {
-				shared = true
-				notes = append(notes, fmt.Sprintf("%s %s", ed, code))
-				continue
-			}
-			if sh.Shared {
-				shared = true
-			}
-			notes = append(notes, fmt.Sprintf("%s %s %q", ed, code, sh.Text))
-		}
-		if shared {
-			r.Ambiguous = true
-		}
-		note := strings.Join(notes, "; ") + ": an HS code classifies goods and does not identify a substance"
-		if shared {
-			note += "; this subheading also covers substances outside the catalogue"
-		}
-		r.Note = note + "; confirm with the designation or CAS number"
-		c.hs[code] = c.addRes(r)
-	}
-}
-
 // Substance returns the substance with this designation, synonym or chemical name.
 func (c *Catalogue) Substance(name string) (*Substance, bool) {
 	i, ok := c.lookupName(name)
@@ -753,4 +527,95 @@ func (c *Catalogue) blendGroups(b *Blend) []Group {
 		}
 	}
 	return gs
+}
+
+// maxSuggestions limits the "did you mean" list.
+const maxSuggestions = 5
+
+// suggestions lists catalogue names within a small edit distance of s, closest first, one
+// name per entry.
+func (c *Catalogue) suggestions(s string) []string {
+	key := normalizeString(s)
+	if key == "" {
+		return nil
+	}
+	limit := 1
+	switch n := len(key); {
+	case n > 8:
+		limit = 3
+	case n > 3:
+		limit = 2
+	}
+	type found struct {
+		dist    int
+		display string
+		t       target
+		desig   bool
+	}
+	best := map[target]found{}
+	rows := make([]int, 2*(len(key)+limit+2))
+	for _, sk := range c.suggest {
+		if d := len(sk.key) - len(key); d > limit || -d > limit {
+			continue
+		}
+		d := editDistance(key, sk.key, limit, rows)
+		if d > limit {
+			continue
+		}
+		f := found{dist: d, display: sk.display, t: sk.t, desig: sk.display == c.entryName(sk.t)}
+		if old, ok := best[sk.t]; !ok || d < old.dist || (d == old.dist && f.desig && !old.desig) {
+			best[sk.t] = f
+		}
+	}
+	list := make([]found, 0, len(best))
+	for _, f := range best {
+		list = append(list, f)
+	}
+	sort.Slice(list, func(i, j int) bool {
+		if list[i].dist != list[j].dist {
+			return list[i].dist < list[j].dist
+		}
+		return naturalLess(list[i].display, list[j].display)
+	})
+	if len(list) > maxSuggestions {
+		list = list[:maxSuggestions]
+	}
+	out := make([]string, len(list))
+	for i, f := range list {
+		out[i] = f.display
+		if !f.desig {
+			out[i] += " (" + c.entryName(f.t) + ")"
+		}
+	}
+	return out
+}
+
+// editDistance is the Levenshtein distance between a and b (bytes), or limit+1 when it is
+// larger than limit. rows is scratch space of at least 2×(len(b)+1) ints.
+func editDistance(a, b string, limit int, rows []int) int {
+	if len(rows) < 2*(len(b)+1) {
+		rows = make([]int, 2*(len(b)+1))
+	}
+	prev := rows[:len(b)+1]
+	cur := rows[len(b)+1 : 2*(len(b)+1)]
+	for j := range prev {
+		prev[j] = j
+	}
+	for i := 1; i <= len(a); i++ {
+		cur[0] = i
+		rowMin := cur[0]
+		for j := 1; j <= len(b); j++ {
+			cost := 1
+			if a[i-1] == b[j-1] {
+				cost = 0
+			}
+			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+cost)
+			rowMin = min(rowMin, cur[j])
+		}
+		if rowMin > limit {
+			return limit + 1
+		}
+		prev, cur = cur, prev
+	}
+	return prev[len(b)]
 }

@@ -98,3 +98,19 @@ func cautionsFor(class string, comps []compData) []string {
 	}
 	return append(extra, out...)
 }
+
+// SafetyClasses are the ASHRAE 34 / ISO 817 safety classes the catalogue accepts.
+var SafetyClasses = []string{"A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3"}
+
+// validSafetyClass reports whether c is empty or an accepted ASHRAE 34 class.
+func validSafetyClass(c string) bool {
+	if c == "" {
+		return true
+	}
+	for _, s := range SafetyClasses {
+		if s == c {
+			return true
+		}
+	}
+	return false
+}

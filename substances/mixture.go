@@ -116,7 +116,11 @@ type IdentifierError struct {
 func (e *IdentifierError) Error() string {
 	if e.Resolution.Ambiguous || len(e.Resolution.Candidates) > 1 {
 		var names []string
-		for _, c := range e.Resolution.Candidates {
+		for i, c := range e.Resolution.Candidates {
+			if i == maxSuggestions {
+				names = append(names, fmt.Sprintf("and %d more", len(e.Resolution.Candidates)-i))
+				break
+			}
 			names = append(names, c.Designation)
 		}
 		return fmt.Sprintf("%s: %q is ambiguous, it may mean %s; give the designation or CAS number", e.Field, e.Identifier, strings.Join(names, ", "))

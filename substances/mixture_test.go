@@ -309,6 +309,9 @@ func TestEvaluateErrors(t *testing.T) {
 	if _, err := c.Evaluate("2903.45", 1); !errors.Is(err, ErrAmbiguousIdentifier) {
 		t.Errorf("HS code: %v, want ErrAmbiguousIdentifier", err)
 	}
+	if _, err := c.Evaluate("2903.79", 1); err == nil || !strings.Contains(err.Error(), "more") || len(err.Error()) > 300 {
+		t.Errorf("HS code with many candidates: %v, want a short message naming a few", err)
+	}
 	if _, err := c.Evaluate("R-22", math.NaN()); !errors.Is(err, ErrInvalidInput) {
 		t.Errorf("NaN mass: %v, want ErrInvalidInput", err)
 	}

@@ -58,9 +58,6 @@ var substanceColumns = []string{"designation", "synonyms", "chemical_name", "for
 var blendColumns = []string{"designation", "synonyms", "type", "components", "mass_pct", "tol_plus",
 	"tol_minus", "composition_src", "tolerance_src", "safety", "safety_src", "note"}
 
-// SafetyClasses are the ASHRAE 34 / ISO 817 safety classes the catalogue accepts.
-var SafetyClasses = []string{"A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3"}
-
 // compositionTolerance is how far a composition may sum away from 100 mass %.
 const compositionTolerance = 0.01
 
@@ -281,19 +278,7 @@ func validGroup(g Group) bool {
 	return false
 }
 
-func validSafetyClass(c string) bool {
-	if c == "" {
-		return true
-	}
-	for _, s := range SafetyClasses {
-		if s == c {
-			return true
-		}
-	}
-	return false
-}
-
-// mpGWPGroups are the groups whose Annex lists 100-year GWPs (Kigali Amendment).
+// mpGWPGroup reports whether the Annex of a group lists 100-year GWPs (Kigali Amendment).
 func mpGWPGroup(g Group) bool {
 	return g == GroupAI || g == GroupCI || g == GroupFI || g == GroupFII
 }

@@ -91,6 +91,26 @@ func TestSeedValues(t *testing.T) {
 				}
 			}
 		}},
+		{"isomer-group designations follow from the formula", func(t *testing.T) {
+			n := 0
+			for _, s := range subs {
+				if (s.Group != GroupCI && s.Group != GroupCII) || s.IsomerCount < 2 || s.Structure != "" {
+					continue
+				}
+				f, _ := ParseFormula(s.Formula)
+				num, err := NumberForFormula(f) // ASHRAE 34 numbering rule (CONTROL_RULES.md §7)
+				prefix := map[Group]string{GroupCI: "HCFC-", GroupCII: "HBFC-"}[s.Group]
+				d := strings.TrimSuffix(s.Designation, " (isomer group)")
+				if err != nil || d != prefix+num {
+					t.Errorf("%s (%s): the numbering rule gives %s%s (%v)", s.Designation, s.Formula, prefix, num, err)
+				}
+				n++
+			}
+			// source: MP Handbook 2019: 31 HCFC and 31 HBFC formula entries with more than one isomer
+			if n != 62 {
+				t.Errorf("%d isomer-group entries, want 62", n)
+			}
+		}},
 		{"C3H2F5Br upper value 14", func(t *testing.T) {
 			// source: EU 1005/2009 Annex I per raw/README.md (from memory there); the Handbook
 			// extraction reads 0.9-1.4 (see the note in annex.csv)
