@@ -17,6 +17,8 @@ import (
 type dbFlags struct {
 	url     string
 	dataDir string
+	// ephemeral trades durability for speed in a throw-away cluster (the demo's).
+	ephemeral bool
 }
 
 func defaultDataDir() string {
@@ -61,7 +63,7 @@ func (db *database) Close() {
 func openDatabase(ctx context.Context, d dbFlags, migrate bool, log *slog.Logger) (*database, error) {
 	db := &database{URL: d.url}
 	if db.URL == "" {
-		c, err := pglocal.Start(ctx, pglocal.Options{DataDir: d.dataDir, Log: os.Stderr})
+		c, err := pglocal.Start(ctx, pglocal.Options{DataDir: d.dataDir, Log: os.Stderr, Ephemeral: d.ephemeral})
 		if err != nil {
 			return nil, fmt.Errorf("private PostgreSQL cluster in %s: %w", d.dataDir, err)
 		}
