@@ -21,6 +21,16 @@ const (
 	PartyTypeNonParty              // not a Party to the Protocol
 )
 
+var partyTypeNames = [...]string{"unspecified", "article-5", "non-article-5", "non-party"}
+
+// String returns "article-5", "non-article-5" or "non-party".
+func (t PartyType) String() string {
+	if t < 0 || int(t) >= len(partyTypeNames) {
+		return fmt.Sprintf("party-type(%d)", int(t))
+	}
+	return partyTypeNames[t]
+}
+
 // HFCGroup is the Kigali Amendment schedule a Party follows for Annex F. The numbers equal the
 // wire enum halovet.v1.HfcGroup.
 type HFCGroup int
@@ -33,6 +43,16 @@ const (
 	HFCGroupNonA5
 	HFCGroupNonA5Variant
 )
+
+var hfcGroupNames = [...]string{"unspecified", "a5-group-1", "a5-group-2", "non-a5", "non-a5-variant"}
+
+// String returns "a5-group-1", "a5-group-2", "non-a5" or "non-a5-variant".
+func (g HFCGroup) String() string {
+	if g < 0 || int(g) >= len(hfcGroupNames) {
+		return fmt.Sprintf("hfc-group(%d)", int(g))
+	}
+	return hfcGroupNames[g]
+}
 
 // PartySettings is what the checks need to know about one country.
 type PartySettings struct {
@@ -47,8 +67,12 @@ type PartySettings struct {
 	Known bool
 }
 
-// BoundOn reports whether the country is bound by group g's control measures on day d.
+// BoundOn reports whether the country is bound by group g's control measures on day d. A
+// country whose Type is PartyTypeNonParty is bound by none, whatever BoundFrom says.
 func (p PartySettings) BoundOn(g substances.Group, d time.Time) bool {
+	if p.Type == PartyTypeNonParty {
+		return false
+	}
 	from, ok := p.BoundFrom[g]
 	return ok && !d.Before(day(from))
 }

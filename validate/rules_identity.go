@@ -13,6 +13,10 @@ import (
 // stored copy of the WCO notice).
 var hs2022Start = date(2022, 1, 1)
 
+// maxIdentifierBytes bounds the text sent to the resolver; no designation, chemical name or
+// CAS number of the catalogue comes near it.
+const maxIdentifierBytes = 256
+
 // identity resolves the declared substance to exactly one catalogue entry.
 func (c *checker) identity() {
 	s := strings.TrimSpace(c.r.Substance)
@@ -22,6 +26,10 @@ func (c *checker) identity() {
 			return
 		}
 		c.adHoc = true
+		return
+	}
+	if len(s) > maxIdentifierBytes {
+		c.add(CodeSubstUnknown, "", "substance is %d bytes long; identifiers of up to %d bytes are looked up", len(s), maxIdentifierBytes)
 		return
 	}
 	cat := c.env.Catalogue

@@ -36,6 +36,11 @@ func (c *checker) mixtureRules() ([]substances.Share, bool) {
 		} else {
 			sum += d.MassPct
 		}
+		if len(id) > maxIdentifierBytes {
+			c.add(CodeMixComponentUnknown, "", "component %d: the identifier is %d bytes long; up to %d bytes are looked up", i+1, len(id), maxIdentifierBytes)
+			ok = false
+			continue
+		}
 		res := cat.Resolve(id)
 		cand, uniq := res.Unique()
 		switch {

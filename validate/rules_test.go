@@ -78,6 +78,7 @@ var ruleCases = []ruleCase{
 	}),
 	fire(CodeSubstUnknown, "unknown blend number, with a suggestion", func(r *Record) { r.Substance = "R-999" }, "R-999", "did you mean", "R-290"),
 	fire(CodeSubstUnknown, "unknown word", func(r *Record) { r.Substance = "frobnicate" }, "frobnicate"),
+	fire(CodeSubstUnknown, "over-long text is not looked up", func(r *Record) { r.Substance = strings.Repeat("R-22 ", 60) }, "300 bytes"),
 	silent(CodeSubstUnknown, "R-number spelling", func(r *Record) { r.Substance = "R22" }),
 	fire(CodeSubstAmbiguous, "formula of two catalogue entries", func(r *Record) {
 		r.Substance, r.HSCode, r.CAS, r.Formula = "C2HCl2F3", "", "", ""
@@ -267,6 +268,10 @@ var ruleCases = []ruleCase{
 		r404A(r)
 		r.Composition = []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {"R-999", 4}}
 	}, "component 3", "R-999"),
+	fire(CodeMixComponentUnknown, "over-long identifier", func(r *Record) {
+		r404A(r)
+		r.Composition = []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {strings.Repeat("x", 300), 4}}
+	}, "300 bytes"),
 	fire(CodeMixComponentUnknown, "a blend as component", func(r *Record) {
 		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
 		r.Composition = []DeclaredShare{{"R-410A", 50}, {"HFC-134a", 50}}
