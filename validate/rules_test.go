@@ -78,7 +78,7 @@ var ruleCases = []ruleCase{
 	}),
 	fire(CodeSubstUnknown, "unknown blend number, with a suggestion", func(r *Record) { r.Substance = "R-999" }, "R-999", "did you mean", "R-290"),
 	fire(CodeSubstUnknown, "unknown word", func(r *Record) { r.Substance = "frobnicate" }, "frobnicate"),
-	fire(CodeSubstUnknown, "over-long text is not looked up", func(r *Record) { r.Substance = strings.Repeat("R-22 ", 60) }, "300 bytes"),
+	fire(CodeSubstUnknown, "over-long text is not looked up", func(r *Record) { r.Substance = strings.Repeat("R-22 ", 60) }, "299 bytes"),
 	silent(CodeSubstUnknown, "R-number spelling", func(r *Record) { r.Substance = "R22" }),
 	fire(CodeSubstAmbiguous, "formula of two catalogue entries", func(r *Record) {
 		r.Substance, r.HSCode, r.CAS, r.Formula = "C2HCl2F3", "", "", ""
