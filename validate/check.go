@@ -104,15 +104,6 @@ func (c *checker) add(code, field, format string, args ...any) {
 	c.fs = append(c.fs, newFinding(code, field, msg))
 }
 
-func (c *checker) hasErrors() bool {
-	for i := range c.fs {
-		if c.fs[i].Severity == SeverityError {
-			return true
-		}
-	}
-	return false
-}
-
 // Check runs every rule on one record and returns its verdict. env must pass Validate.
 // ledger tracks the quota drawn by earlier accepted records of the same stream (check mode);
 // pass nil when the caller draws quota itself (the store, under row locks, in record mode).
