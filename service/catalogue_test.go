@@ -540,29 +540,43 @@ func catalogueHFC134a(t *testing.T, client halovetv1.CatalogueServiceClient) *ha
 	return resp.GetEntry().GetSubstance()
 }
 
-// The synonym the corrections add: norflurane is the international non-proprietary name of
-// 1,1,1,2-tetrafluoroethane (HFC-134a) as a medical propellant (from memory).
-const catalogueNewSynonym = "norflurane"
+// The correction the tests make: HFC-134a's atmospheric lifetime as IPCC AR5 tabulates it,
+// 13.4 years (source: IPCC AR5 WG1 Table 8.A.1, reference halocarbons.csv
+// lifetime_ar5_years), in place of the seed's WMO 2018 value of 14 years (source: WMO 2018
+// via IPCC AR6 Table 7.SM.7, halocarbons.csv lifetime_years).
+const (
+	catalogueSeedLifetime      = 14.0
+	catalogueCorrectedLifetime = 13.4
+	catalogueCorrectionSource  = "; lifetime corrected: IPCC Fifth Assessment Report, WG1 (2013), Table 8.A.1"
+)
+
+// catalogueLifetimeCorrection returns HFC-134a with the corrected lifetime and source.
+func catalogueLifetimeCorrection(s *halovetv1.Substance) *halovetv1.Substance {
+	c := proto.Clone(s).(*halovetv1.Substance)
+	c.LifetimeYears = catalogueCorrectedLifetime
+	c.Sources += catalogueCorrectionSource
+	return c
+}
 
 func TestUpsertSubstanceCorrection(t *testing.T) {
 	conn, st := startTestServer(t)
 	client := halovetv1.NewCatalogueServiceClient(conn)
 	ctx := context.Background()
 
-	if _, err := client.GetEntry(ctx, &halovetv1.GetEntryRequest{Designation: catalogueNewSynonym}); status.Code(err) != codes.NotFound {
-		t.Fatalf("GetEntry %s before the correction: %v; want NotFound", catalogueNewSynonym, err)
+	before := catalogueHFC134a(t, client)
+	if before.GetLifetimeYears() != catalogueSeedLifetime {
+		t.Fatalf("seed lifetime of HFC-134a %v; want %v", before.GetLifetimeYears(), catalogueSeedLifetime)
 	}
-	s := proto.Clone(catalogueHFC134a(t, client)).(*halovetv1.Substance)
-	s.Synonyms = append(s.Synonyms, catalogueNewSynonym)
-	resp, err := client.UpsertSubstance(ctx, &halovetv1.UpsertSubstanceRequest{Substance: s, Reason: "add the INN name used on medical-propellant invoices"})
+	resp, err := client.UpsertSubstance(ctx, &halovetv1.UpsertSubstanceRequest{Substance: catalogueLifetimeCorrection(before),
+		Reason: "use the AR5 lifetime for this office's reports"})
 	if err != nil {
-		t.Fatalf("UpsertSubstance HFC-134a with a new synonym: %v", err)
+		t.Fatalf("UpsertSubstance HFC-134a with a corrected lifetime: %v", err)
 	}
 	if resp.GetCreated() {
 		t.Error("created = true; HFC-134a exists in the seed, so this is a correction")
 	}
-	if !slices.Contains(resp.GetSubstance().GetSynonyms(), catalogueNewSynonym) {
-		t.Errorf("stored synonyms %v; want %s among them", resp.GetSubstance().GetSynonyms(), catalogueNewSynonym)
+	if got := resp.GetSubstance().GetLifetimeYears(); got != catalogueCorrectedLifetime {
+		t.Errorf("stored lifetime %v; want %v", got, catalogueCorrectedLifetime)
 	}
 	// source: C2H2F4 with IUPAC standard atomic weights (DOMAIN.md §3): 2x12.011 + 2x1.008 + 4x18.998 = 102.03.
 	if m := resp.GetSubstance().GetMolarMassGPerMol(); math.Abs(m-102.03) > 0.01 {
@@ -571,24 +585,30 @@ func TestUpsertSubstanceCorrection(t *testing.T) {
 	if n := catalogueAuditRows(t, st, "HFC-134a"); n != 1 {
 		t.Errorf("%d audit rows for HFC-134a; want 1 for one correction", n)
 	}
-	var reason string
-	if err := st.Pool().QueryRow(ctx, `SELECT reason FROM audit_log WHERE entity_key = 'HFC-134a'`).Scan(&reason); err != nil || !strings.Contains(reason, "INN") {
-		t.Errorf("audit reason %q (err %v); want the request's reason", reason, err)
+	var action, reason string
+	if err := st.Pool().QueryRow(ctx, `SELECT action, reason FROM audit_log WHERE entity = 'substance' AND entity_key = 'HFC-134a'`).
+		Scan(&action, &reason); err != nil || action != "update" || !strings.Contains(reason, "AR5 lifetime") {
+		t.Errorf("audit row action %q reason %q (err %v); want an update with the request's reason", action, reason, err)
 	}
 
-	got, err := client.GetEntry(ctx, &halovetv1.GetEntryRequest{Designation: catalogueNewSynonym})
-	if err != nil || got.GetEntry().GetSubstance().GetDesignation() != "HFC-134a" {
-		t.Fatalf("GetEntry %s after the correction: %v, %v; want HFC-134a", catalogueNewSynonym, got, err)
+	// The next read sees the correction, and nothing else changed.
+	after := catalogueHFC134a(t, client)
+	if after.GetLifetimeYears() != catalogueCorrectedLifetime || !strings.HasSuffix(after.GetSources(), catalogueCorrectionSource) {
+		t.Errorf("GetEntry after the correction: lifetime %v, sources ending %q; want %v and the new source",
+			after.GetLifetimeYears(), tail(after.GetSources(), 60), catalogueCorrectedLifetime)
 	}
-	// The rest of the entry is as before: the correction changed only the synonyms.
-	after := got.GetEntry().GetSubstance()
-	if after.GetFormula() != "C2H2F4" || after.GetCasNumber() != "811-97-2" || after.GetAnnexGroup() != "F/I" {
-		t.Errorf("after the correction: formula %s CAS %s group %s; want C2H2F4, 811-97-2, F/I", after.GetFormula(), after.GetCasNumber(), after.GetAnnexGroup())
+	after.LifetimeYears, after.Sources = before.GetLifetimeYears(), before.GetSources()
+	if !proto.Equal(after, before) {
+		t.Errorf("the correction changed more than the lifetime and sources:\n got %v\nwant %v", after, before)
 	}
-	res, err := client.ResolveIdentifier(ctx, &halovetv1.ResolveIdentifierRequest{Identifier: "Norflurane"})
-	if err != nil || len(res.GetCandidates()) == 0 || res.GetCandidates()[0].GetDesignation() != "HFC-134a" {
-		t.Errorf("ResolveIdentifier Norflurane: %v, %v; want HFC-134a", res, err)
+}
+
+// tail returns the last n bytes of s, for messages.
+func tail(s string, n int) string {
+	if len(s) <= n {
+		return s
 	}
+	return s[len(s)-n:]
 }
 
 func TestUpsertSubstanceRejects(t *testing.T) {
@@ -648,8 +668,8 @@ func TestUpsertSubstanceReachesOtherReplicas(t *testing.T) {
 	if err != nil {
 		t.Fatalf("second catalogue holder: %v", err)
 	}
-	if _, ok := replica.Load().Substance(catalogueNewSynonym); ok {
-		t.Fatalf("the replica knows %s before the correction", catalogueNewSynonym)
+	if s, ok := replica.Load().Substance("HFC-134a"); !ok || s.Lifetime != catalogueSeedLifetime {
+		t.Fatalf("the replica's HFC-134a before the correction: %v; want lifetime %v", s, catalogueSeedLifetime)
 	}
 	stop := replica.Watch(ctx, replicaStore)
 	t.Cleanup(stop)
@@ -672,17 +692,13 @@ func TestUpsertSubstanceReachesOtherReplicas(t *testing.T) {
 		time.Sleep(20 * time.Millisecond)
 	}
 
-	s := proto.Clone(catalogueHFC134a(t, client)).(*halovetv1.Substance)
-	s.Synonyms = append(s.Synonyms, catalogueNewSynonym)
-	if _, err := client.UpsertSubstance(ctx, &halovetv1.UpsertSubstanceRequest{Substance: s, Reason: "add the INN name"}); err != nil {
+	if _, err := client.UpsertSubstance(ctx, &halovetv1.UpsertSubstanceRequest{
+		Substance: catalogueLifetimeCorrection(catalogueHFC134a(t, client)), Reason: "use the AR5 lifetime"}); err != nil {
 		t.Fatalf("UpsertSubstance: %v", err)
 	}
 	start := time.Now()
 	for {
-		if got, ok := replica.Load().Substance(catalogueNewSynonym); ok {
-			if got.Designation != "HFC-134a" {
-				t.Fatalf("the replica resolves %s to %s; want HFC-134a", catalogueNewSynonym, got.Designation)
-			}
+		if s, ok := replica.Load().Substance("HFC-134a"); ok && s.Lifetime == catalogueCorrectedLifetime {
 			t.Logf("the replica saw the correction after %v", time.Since(start).Round(time.Millisecond))
 			return
 		}
