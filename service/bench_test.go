@@ -1,0 +1,429 @@
+package service_test
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"net"
+	"strings"
+	"testing"
+	"time"
+
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/protobuf/encoding/protojson"
+
+	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/pglocal/pgtest"
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service"
+	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/validate"
+)
+
+// Benchmarks of the shipment path, each beside its baseline in the same run (BENCHMARKS.md,
+// "Shipments"):
+//
+//	BenchmarkParseCSVAlone     the CSV reader over the batch, nothing else (baseline of checking)
+//	BenchmarkCheckInProcess    validate over the parsed batch with the server's kind of environment
+//	BenchmarkCheckStreamed     parse + CheckShipments over gRPC on loopback to a real server
+//	BenchmarkRecordStreamed    parse + RecordShipments: checked, stored, quota drawn, in PostgreSQL
+//	BenchmarkCopyBaseline      plain COPY of the same rows into the shipments table (baseline of recording)
+//
+// Each reports records/s for one batch of benchRecords records per iteration. The registry
+// is invented (user-assigned codes; no real country's status is implied) and its quotas are
+// large enough never to run out.
+
+const (
+	benchRecords = 10000
+	benchLicence = "XA-IMP-2026-801"
+	benchCompany = "XA-8001"
+)
+
+// benchTemplates are everyday imports: cylinders of an HCFC, HFC blends by cylinder and in
+// bulk (one with its HS code, one with a declared composition), a single HFC with its CAS
+// and HS code. %s is the record key.
+var benchTemplates = []string{
+	"%s,import,XA-8001,XA-IMP-2026-801,XB,2026-06-15,HCFC-22,2903.71,75-45-6,,13.6,kg,10,servicing,,",
+	"%s,import,XA-8001,XA-IMP-2026-801,XB,2026-06-16,R-404A,3827.61,,,10.9,kg,20,servicing,,",
+	"%s,import,XA-8001,XA-IMP-2026-801,XC,2026-06-17,R-410A,,,,11.3,kg,40,servicing,,",
+	"%s,import,XA-8001,XA-IMP-2026-801,XB,2026-06-18,R-404A,,,,2.5,t,0,servicing,,\"HFC-125=44;HFC-143a=52;HFC-134a=4\"",
+	"%s,import,XA-8001,XA-IMP-2026-801,XC,2026-06-19,R-32,2903.42,75-10-5,,9,kg,30,servicing,,",
+	"%s,import,XA-8001,XA-IMP-2026-801,XB,2026-06-20,R-134a,,,,30,lb,24,servicing,recycled,",
+}
+
+const benchHeader = "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,quantity,quantity_unit,container_count,purpose,condition,declared_composition"
+
+// benchCSV is a batch of n records whose keys start with prefix.
+func benchCSV(n int, prefix string) []byte {
+	var b bytes.Buffer
+	b.Grow(n * 100)
+	b.WriteString(benchHeader + "\n")
+	for i := 0; i < n; i++ {
+		fmt.Fprintf(&b, benchTemplates[i%len(benchTemplates)], fmt.Sprintf("%s%07d", prefix, i))
+		b.WriteByte('\n')
+	}
+	return b.Bytes()
+}
+
+// parseAll reads every record of a CSV batch.
+func parseAll(tb testing.TB, data []byte) []validate.Record {
+	tb.Helper()
+	rd, err := validate.NewCSVReader(bytes.NewReader(data))
+	if err != nil {
+		tb.Fatal(err)
+	}
+	var out []validate.Record
+	for {
+		r, le, err := rd.Next()
+		if errors.Is(err, io.EOF) {
+			return out
+		}
+		if err != nil || le != nil {
+			tb.Fatalf("reading the benchmark batch: %v %v", err, le)
+		}
+		out = append(out, r)
+	}
+}
+
+// benchServer is an in-process server on loopback over a fresh database with the benchmark
+// registry.
+type benchServer struct {
+	conn *grpc.ClientConn
+	st   *store.Store
+	cat  *substances.Catalogue
+}
+
+func startBenchServer(tb testing.TB) *benchServer {
+	tb.Helper()
+	url := pgtest.NewDatabase(tb, "halovet_service", migrateServiceDB)
+	ctx := context.Background()
+	st, err := store.Open(ctx, url)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	tb.Cleanup(st.Close)
+	log := quietLogger()
+	holder, err := service.LoadCatalogue(ctx, st, log)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	srv := service.New(st, holder, service.Options{Logger: log, GracePeriod: 5 * time.Second})
+	lis, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		tb.Fatal(err)
+	}
+	serveCtx, cancel := context.WithCancel(context.Background())
+	served := make(chan error, 1)
+	go func() { served <- srv.Serve(serveCtx, lis) }()
+	tb.Cleanup(func() { cancel(); <-served })
+	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	if err != nil {
+		tb.Fatal(err)
+	}
+	tb.Cleanup(func() { _ = conn.Close() })
+	benchRegistry(tb, conn)
+	return &benchServer{conn: conn, st: st, cat: holder.Load()}
+}
+
+// benchRegistry loads the invented registry: reporting Party XA (Article 5, HFC Group 1),
+// partners XB and XC, one company, one import licence with quotas that never run out.
+func benchRegistry(tb testing.TB, conn *grpc.ClientConn) {
+	tb.Helper()
+	ctx := context.Background()
+	lic := halovetv1.NewLicensingServiceClient(conn)
+	bound := map[string]string{"C/I": "2000-01-01", "F/I": "2021-01-01", "F/II": "2021-01-01"}
+	for _, p := range []*halovetv1.Party{
+		{CountryCode: "XA", PartyType: halovetv1.PartyType_PARTY_TYPE_ARTICLE_5, HfcGroup: halovetv1.HfcGroup_HFC_GROUP_A5_GROUP_1, ReportingParty: true, BoundFrom: bound},
+		{CountryCode: "XB", PartyType: halovetv1.PartyType_PARTY_TYPE_NON_ARTICLE_5, HfcGroup: halovetv1.HfcGroup_HFC_GROUP_NON_A5, BoundFrom: bound},
+		{CountryCode: "XC", PartyType: halovetv1.PartyType_PARTY_TYPE_ARTICLE_5, HfcGroup: halovetv1.HfcGroup_HFC_GROUP_A5_GROUP_1, BoundFrom: bound},
+	} {
+		if _, err := lic.PutParty(ctx, &halovetv1.PutPartyRequest{Party: p}); err != nil {
+			tb.Fatal(err)
+		}
+	}
+	if _, err := lic.RegisterCompany(ctx, &halovetv1.RegisterCompanyRequest{Company: &halovetv1.Company{CompanyId: benchCompany, Name: "Benchmark importer (invented)"}}); err != nil {
+		tb.Fatal(err)
+	}
+	if _, err := lic.IssueLicence(ctx, &halovetv1.IssueLicenceRequest{Reason: "benchmark", Licence: &halovetv1.Licence{
+		LicenceNumber: benchLicence, CompanyId: benchCompany, Directions: []halovetv1.Direction{halovetv1.Direction_DIRECTION_IMPORT},
+		ValidFrom: "2026-01-01", ValidTo: "2026-12-31",
+		QuotaLines: []*halovetv1.QuotaLine{
+			{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, Allocated: 1e9},
+			{LineNumber: 2, AnnexGroup: "F/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES, Allocated: 1e9}}}}); err != nil {
+		tb.Fatal(err)
+	}
+}
+
+// benchEnv builds the check environment the way the server does for each call: the catalogue
+// snapshot the server loaded, the parties, the licence and the rulebook's allowed levels.
+func (s *benchServer) benchEnv(tb testing.TB) *validate.Env {
+	tb.Helper()
+	ctx := context.Background()
+	rb, err := controls.DefaultRulebook()
+	if err != nil {
+		tb.Fatal(err)
+	}
+	parties := map[string]validate.PartySettings{}
+	ps, err := s.st.ListParties(ctx)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	types := map[string]validate.PartyType{"article-5": validate.PartyTypeArticle5, "non-article-5": validate.PartyTypeNonArticle5}
+	for _, p := range ps {
+		set := validate.PartySettings{Type: types[p.PartyType], Known: true, BoundFrom: map[substances.Group]time.Time{}}
+		for g, d := range p.BoundFrom {
+			day, err := time.Parse("2006-01-02", d)
+			if err != nil {
+				tb.Fatal(err)
+			}
+			set.BoundFrom[substances.Group(g)] = day
+		}
+		parties[p.CountryCode] = set
+	}
+	lics, err := s.st.ListLicences(ctx, "", 0)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	byNumber := map[string]*validate.Licence{}
+	for _, l := range lics {
+		v := &validate.Licence{Number: l.Number, CompanyID: l.CompanyID, ValidFrom: l.ValidFrom, ValidTo: l.ValidTo,
+			Status: validate.LicenceActive, Directions: []validate.Direction{validate.DirectionImport}}
+		for _, q := range l.QuotaLines {
+			u := validate.QuotaODPTonnes
+			if q.Unit == "co2e-t" {
+				u = validate.QuotaCO2eTonnes
+			}
+			v.QuotaLines = append(v.QuotaLines, validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
+				Unit: u, Allocated: q.Allocated, Drawn: q.Drawn})
+		}
+		byNumber[l.Number] = v
+	}
+	party := controls.Party{Type: controls.Article5, HFC: controls.HFCA5Group1}
+	env := validate.NewEnv(s.cat, "XA", parties, func(n string) (*validate.Licence, bool) { l, ok := byNumber[n]; return l, ok },
+		func(g substances.Group, year int) (float64, bool) {
+			a, err := rb.Allowance(party, controls.ScopeOf(g), year)
+			if err != nil {
+				return 0, false
+			}
+			return a.Percent(), true
+		})
+	if err := env.Validate(); err != nil {
+		tb.Fatal(err)
+	}
+	return env
+}
+
+// reportRate reports records per second over the timed part of the benchmark.
+func reportRate(b *testing.B, records int) {
+	b.ReportMetric(float64(records)/b.Elapsed().Seconds(), "records/s")
+}
+
+func BenchmarkParseCSVAlone(b *testing.B) {
+	data := benchCSV(benchRecords, "P-")
+	b.SetBytes(int64(len(data)))
+	b.ReportAllocs()
+	total := 0
+	for b.Loop() {
+		rd, err := validate.NewCSVReader(bytes.NewReader(data))
+		if err != nil {
+			b.Fatal(err)
+		}
+		for {
+			_, le, err := rd.Next()
+			if errors.Is(err, io.EOF) {
+				break
+			}
+			if err != nil || le != nil {
+				b.Fatal(err, le)
+			}
+			total++
+		}
+	}
+	reportRate(b, total)
+}
+
+func BenchmarkCheckInProcess(b *testing.B) {
+	s := startBenchServer(b)
+	env := s.benchEnv(b)
+	recs := parseAll(b, benchCSV(benchRecords, "C-"))
+	b.ReportAllocs()
+	total := 0
+	for b.Loop() {
+		batch := validate.NewBatch(env) // one per stream, as CheckShipments does
+		for i := range recs {
+			if v := batch.Check(&recs[i]); v.Outcome == validate.OutcomeRejected {
+				b.Fatalf("record %s rejected: %v", recs[i].Key, v.Findings)
+			}
+		}
+		total += len(recs)
+	}
+	reportRate(b, total)
+}
+
+// toProto is the CLI's conversion of a parsed record to the wire message.
+func toProto(r *validate.Record) *halovetv1.ShipmentRecord {
+	p := &halovetv1.ShipmentRecord{RecordKey: r.Key, SourceLine: r.Line, Direction: halovetv1.Direction(r.Direction),
+		CompanyId: r.CompanyID, LicenceNumber: r.LicenceNumber, PartnerCountry: r.PartnerCountry,
+		DeclarationDate: r.DeclarationDate, Substance: r.Substance, DeclaredHsCode: r.HSCode,
+		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, Quantity: r.Quantity, QuantityUnit: r.Unit,
+		ContainerCount: r.ContainerCount, Purpose: halovetv1.Purpose(r.Purpose), Condition: halovetv1.Condition(r.Condition)}
+	for _, s := range r.Composition {
+		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: s.MassPct})
+	}
+	return p
+}
+
+// streamBatch parses data and streams it as the CLI does: a sender goroutine reads and
+// sends, the caller receives the verdicts in order and the closing summary.
+func streamBatch(b *testing.B, data []byte, send func(*halovetv1.ShipmentRecord) error, closeSend func() error,
+	recv func() (*halovetv1.Verdict, *halovetv1.BatchSummary, error)) *halovetv1.BatchSummary {
+	sendErr := make(chan error, 1)
+	go func() {
+		rd, err := validate.NewCSVReader(bytes.NewReader(data))
+		if err != nil {
+			sendErr <- err
+			return
+		}
+		for {
+			r, le, err := rd.Next()
+			if errors.Is(err, io.EOF) {
+				sendErr <- closeSend()
+				return
+			}
+			if err != nil || le != nil {
+				sendErr <- fmt.Errorf("%v %v", err, le)
+				return
+			}
+			if err := send(toProto(&r)); err != nil {
+				sendErr <- err
+				return
+			}
+		}
+	}()
+	for n := 0; ; n++ {
+		v, sum, err := recv()
+		if err != nil {
+			b.Fatalf("after %d verdicts: %v", n, err)
+		}
+		if sum != nil {
+			if err := <-sendErr; err != nil {
+				b.Fatal(err)
+			}
+			return sum
+		}
+		if v.GetOutcome() == halovetv1.Outcome_OUTCOME_REJECTED {
+			b.Fatalf("record %s rejected: %v", v.GetRecordKey(), v.GetFindings())
+		}
+	}
+}
+
+func BenchmarkCheckStreamed(b *testing.B) {
+	s := startBenchServer(b)
+	client := halovetv1.NewShipmentServiceClient(s.conn)
+	data := benchCSV(benchRecords, "S-")
+	b.ReportAllocs()
+	total := 0
+	for b.Loop() {
+		stream, err := client.CheckShipments(context.Background())
+		if err != nil {
+			b.Fatal(err)
+		}
+		sum := streamBatch(b, data,
+			func(r *halovetv1.ShipmentRecord) error {
+				return stream.Send(&halovetv1.CheckShipmentsRequest{Record: r})
+			},
+			stream.CloseSend,
+			func() (*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
+				m, err := stream.Recv()
+				return m.GetVerdict(), m.GetSummary(), err
+			})
+		if sum.GetRecords() != benchRecords {
+			b.Fatalf("summary of %d records; want %d", sum.GetRecords(), benchRecords)
+		}
+		total += benchRecords
+	}
+	reportRate(b, total)
+}
+
+func BenchmarkRecordStreamed(b *testing.B) {
+	s := startBenchServer(b)
+	client := halovetv1.NewShipmentServiceClient(s.conn)
+	b.ReportAllocs()
+	total := 0
+	for i := 0; b.Loop(); i++ {
+		b.StopTimer()
+		data := benchCSV(benchRecords, fmt.Sprintf("R%d-", i)) // fresh keys: every record is stored
+		b.StartTimer()
+		stream, err := client.RecordShipments(context.Background())
+		if err != nil {
+			b.Fatal(err)
+		}
+		sum := streamBatch(b, data,
+			func(r *halovetv1.ShipmentRecord) error {
+				return stream.Send(&halovetv1.RecordShipmentsRequest{Record: r})
+			},
+			stream.CloseSend,
+			func() (*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
+				m, err := stream.Recv()
+				return m.GetVerdict(), m.GetSummary(), err
+			})
+		if sum.GetRecorded() != benchRecords {
+			b.Fatalf("%d records recorded; want %d", sum.GetRecorded(), benchRecords)
+		}
+		total += benchRecords
+	}
+	reportRate(b, total)
+}
+
+// copyRows builds the rows the recorder would store for the batch: the checked figures,
+// the record as protobuf JSON, as the service stores them.
+func copyRows(b *testing.B, env *validate.Env, data []byte) []store.ShipmentRow {
+	recs := parseAll(b, data)
+	rows := make([]store.ShipmentRow, len(recs))
+	for i := range recs {
+		r := &recs[i]
+		v := validate.Check(env, r, nil)
+		js, err := protojson.Marshal(toProto(r))
+		if err != nil {
+			b.Fatal(err)
+		}
+		date, err := validate.ParseDate(r.DeclarationDate)
+		if err != nil {
+			b.Fatal(err)
+		}
+		f := &v.Figures
+		rows[i] = store.ShipmentRow{CompanyID: r.CompanyID, RecordKey: r.Key, Fingerprint: v.Fingerprint,
+			Direction: r.Direction.String(), LicenceNumber: r.LicenceNumber, PartnerCountry: strings.ToUpper(r.PartnerCountry),
+			DeclarationDate: date, ResolvedDesignation: f.Designation, EntryKind: "substance", Purpose: r.Purpose.String(),
+			Condition: r.Condition.String(), NetMassKg: store.ToNano(f.NetMassKg), ODPTonnes: store.ToNano(f.ODPTonnes),
+			CO2eTonnes: store.ToNano(f.CO2eTonnes), CountsInConsumption: f.CountsInConsumption, RecordJSON: js}
+		if f.Kind == substances.KindBlend {
+			rows[i].EntryKind = "blend"
+		}
+	}
+	return rows
+}
+
+func BenchmarkCopyBaseline(b *testing.B) {
+	s := startBenchServer(b)
+	env := s.benchEnv(b)
+	ctx := context.Background()
+	b.ReportAllocs()
+	total := 0
+	nextID := int64(1_000_000_000)
+	for i := 0; b.Loop(); i++ {
+		b.StopTimer()
+		rows := copyRows(b, env, benchCSV(benchRecords, fmt.Sprintf("B%d-", i)))
+		b.StartTimer()
+		if err := s.st.CopyShipmentsBaseline(ctx, rows, nextID); err != nil {
+			b.Fatal(err)
+		}
+		nextID += int64(len(rows))
+		total += len(rows)
+	}
+	reportRate(b, total)
+}
