@@ -66,7 +66,8 @@ type serverProcess struct {
 	cmd    *exec.Cmd
 	addr   string
 	stderr *bytes.Buffer
-	done   chan error
+	done   chan error // receives the exit status once
+	exited bool       // the test has received from done
 }
 
 func startServe(t *testing.T, dbURL string, extra ...string) *serverProcess {
@@ -83,8 +84,10 @@ func startServe(t *testing.T, dbURL string, extra ...string) *serverProcess {
 	p := &serverProcess{cmd: cmd, addr: addr, stderr: &stderr, done: make(chan error, 1)}
 	go func() { p.done <- cmd.Wait() }()
 	t.Cleanup(func() {
-		_ = cmd.Process.Kill()
-		<-p.done
+		if !p.exited {
+			_ = cmd.Process.Kill()
+			<-p.done
+		}
 	})
 	return p
 }
@@ -112,6 +115,7 @@ func waitServing(t *testing.T, conn *grpc.ClientConn, p *serverProcess) {
 		}
 		select {
 		case err := <-p.done:
+			p.exited = true
 			t.Fatalf("server exited early (%v):\n%s", err, p.stderr)
 		case <-time.After(100 * time.Millisecond):
 		}
@@ -208,6 +212,7 @@ func TestServeHealthReflectionAndGracefulShutdown(t *testing.T) {
 	}
 	select {
 	case err := <-p.done:
+		p.exited = true
 		if err != nil {
 			t.Fatalf("exit after SIGTERM: %v\n%s", err, p.stderr)
 		}
