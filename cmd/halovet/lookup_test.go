@@ -1,0 +1,536 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"context"
+	"encoding/json"
+	"errors"
+	"io"
+	"log/slog"
+	"math"
+	"net"
+	"os"
+	"regexp"
+	"strings"
+	"testing"
+	"time"
+
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/protobuf/encoding/protojson"
+
+	"github.com/halovet/halovet/pglocal/pgtest"
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service"
+	"github.com/halovet/halovet/store"
+)
+
+// startLookupServer runs the halovet server in this process on a free loopback port,
+// against a fresh migrated database holding the seed catalogue, and returns its address
+// and a client connection. Everything stops when the test ends.
+func startLookupServer(t *testing.T) (string, *grpc.ClientConn) {
+	t.Helper()
+	url := pgtest.NewDatabase(t, "halovet_cmd", migrateForTest)
+	ctx := context.Background()
+	st, err := store.Open(ctx, url)
+	if err != nil {
+		t.Fatalf("open the test database: %v", err)
+	}
+	t.Cleanup(st.Close)
+	log := slog.New(slog.NewTextHandler(io.Discard, nil))
+	holder, err := service.LoadCatalogue(ctx, st, log)
+	if err != nil {
+		t.Fatalf("load the seed catalogue: %v", err)
+	}
+	srv := service.New(st, holder, service.Options{Logger: log, GracePeriod: 5 * time.Second})
+	lis, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatalf("listen: %v", err)
+	}
+	serveCtx, cancel := context.WithCancel(context.Background())
+	served := make(chan error, 1)
+	go func() { served <- srv.Serve(serveCtx, lis) }()
+	t.Cleanup(func() {
+		cancel()
+		select {
+		case err := <-served:
+			if err != nil {
+				t.Errorf("Serve returned %v after shutdown; want nil", err)
+			}
+		case <-time.After(15 * time.Second):
+			t.Error("Serve did not return within 15 s of shutdown")
+		}
+	})
+	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	if err != nil {
+		t.Fatalf("dial: %v", err)
+	}
+	t.Cleanup(func() { _ = conn.Close() })
+	return lis.Addr().String(), conn
+}
+
+// lookupExitCode maps a verb's error to the exit code run gives it.
+func lookupExitCode(err error) int {
+	var ee *exitError
+	switch {
+	case err == nil, errors.Is(err, errHelpShown):
+		return 0
+	case errors.As(err, &ee):
+		return ee.code
+	}
+	return 1
+}
+
+// mustContain fails the test for each wanted text missing from out.
+func lookupMustContain(t *testing.T, out string, want ...string) {
+	t.Helper()
+	for _, w := range want {
+		if !strings.Contains(out, w) {
+			t.Errorf("output lacks %q:\n%s", w, out)
+		}
+	}
+}
+
+// lineMatching fails unless some line of out matches the pattern.
+func lookupLineMatching(t *testing.T, out, pattern string) {
+	t.Helper()
+	re := regexp.MustCompile(pattern)
+	for _, l := range strings.Split(out, "\n") {
+		if re.MatchString(l) {
+			return
+		}
+	}
+	t.Errorf("no output line matches %q:\n%s", pattern, out)
+}
+
+func TestLookupTextSubstances(t *testing.T) {
+	_, conn := startLookupServer(t)
+	var out bytes.Buffer
+	if err := lookupReport(context.Background(), conn, &out, []string{"R22", "HCFC-133"}, "text"); err != nil {
+		t.Fatalf("lookup R22 HCFC-133: %v", err)
+	}
+	s := out.String()
+	lookupLineMatching(t, s, `^HCFC-22 .*from "R22", by synonym R-22`)
+	lookupLineMatching(t, s, `^\s+ODP\s+0\.055$`)                 // source: Montreal Protocol Annex C Group I, HCFC-22 0.055
+	lookupLineMatching(t, s, `^\s+Annex/Group\s+C/I `)            // source: Montreal Protocol Annex C Group I
+	lookupLineMatching(t, s, `^\s+CAS number\s+75-45-6$`)         // source: DOMAIN.md §4 (CAS of HCFC-22)
+	lookupLineMatching(t, s, `^\s+GWP \(100-year\)\s+MP\s+1810 `) // source: Kigali Amendment Annex C Group I GWP column (CONTROL_RULES.md §2)
+	lookupLineMatching(t, s, `^\s+AR5\s+1760$`)                   // source: IPCC AR5 WG1 Table 8.A.1 (halocarbons.csv gwp100_ar5)
+	lookupLineMatching(t, s, `^\s+HS 2022\s+2903\.71$`)           // source: HS 2022 subheading 2903.71, CONTROL_RULES.md §6
+	lookupLineMatching(t, s, `^\s+safety class\s+A1 `)            // source: ASHRAE 34 (from memory, as the seed says)
+	lookupLineMatching(t, s, `^\s+lifetime\s+11\.9 years$`)       // source: WMO 2018 via IPCC AR6 Table 7.SM.7 (halocarbons.csv)
+
+	// HCFC-133 is an isomer group with an ODP range; its HS subheading is shared.
+	// source: Montreal Protocol Annex C Group I, C2H2F3Cl, 3 isomers, ODP 0.02-0.06.
+	lookupLineMatching(t, s, `^\s+ODP\s+0\.06 \(upper end of the Annex range 0\.02–0\.06`)
+	lookupLineMatching(t, s, `^\s+isomers\s+3 `)
+	// source: HS 2022 2903.79 "other" is shared with uncontrolled compounds (CONTROL_RULES.md §6).
+	lookupLineMatching(t, s, `^\s+HS 2022\s+2903\.79\s+\(shared subheading: code alone does not prove identity\)`)
+	lookupLineMatching(t, s, `^\s+CAS number\s+— \(none: the Annex entry is an isomer group\)`)
+
+	lookupMustContain(t, s, "\n--\n"+decisionSupportNotice+"\n", "Safety cautions:", "Asphyxiation", "No ASHRAE 34 safety class is recorded")
+	// The footer closes the report: after it come only caution lines.
+	footer := s[strings.LastIndex(s, "\n--\n")+1:]
+	if !strings.HasPrefix(footer, "--\n"+decisionSupportNotice+"\nSafety cautions:\n") || strings.Contains(footer, "ODP") {
+		t.Errorf("the report does not end with the footer; its last part is:\n%s", footer)
+	}
+}
+
+func TestLookupTextBlend(t *testing.T) {
+	_, conn := startLookupServer(t)
+	var out bytes.Buffer
+	if err := lookupReport(context.Background(), conn, &out, []string{"410a"}, "text"); err != nil {
+		t.Fatalf("lookup 410a: %v", err)
+	}
+	s := out.String()
+	lookupLineMatching(t, s, `^R-410A `)
+	lookupLineMatching(t, s, `^\s+kind\s+blend \(zeotrope`)
+	// source: ASHRAE 34-2019 via the reference blends.csv: R-410A is HFC-32/HFC-125 50/50,
+	// tolerances +0.5/-1.5 and +1.5/-0.5.
+	lookupLineMatching(t, s, `^\s+HFC-32\s+50\s+\+0\.5/-1\.5\s+F/I$`)
+	lookupLineMatching(t, s, `^\s+HFC-125\s+50\s+\+1\.5/-0\.5\s+F/I$`)
+	// source: UK government CO2-eq table (SOURCES.md §3): R-410A 2088, half-up of 2087.5.
+	lookupLineMatching(t, s, `^\s+AR4\s+2088 \(2087\.5\)\s+2088 \(2087\.5\)$`)
+	lookupLineMatching(t, s, `^\s+MP \(Protocol annex values\)\s+—\s+2088 \(2087\.5\)$`)
+	lookupMustContain(t, s, "all components", "Annex F only (as the Protocol counts)", decisionSupportNotice)
+	// The HS 2022 mixture subheading of an HFC-32/HFC-125 blend rests on partly verified
+	// wording (CONTROL_RULES.md §6 [P]), so it is left undecided with the reason.
+	lookupLineMatching(t, s, `^\s+HS 2022\s+not decided`)
+}
+
+func TestLookupAmbiguousAndUnknown(t *testing.T) {
+	_, conn := startLookupServer(t)
+	var out bytes.Buffer
+	err := lookupReport(context.Background(), conn, &out, []string{"2903.45", "R-4O4A", "R-22", "75-45-7"}, "text")
+	if code := lookupExitCode(err); code != 1 {
+		t.Fatalf("exit code %d (err %v); want 1 when identifiers do not resolve", code, err)
+	}
+	lookupMustContain(t, err.Error(), `3 of 4`, `"2903.45"`, `"R-4O4A"`, `"75-45-7"`)
+	s := out.String()
+	// source: HS 2022 subheading 2903.45 holds HFC-134a and HFC-134 (CONTROL_RULES.md §6);
+	// CAS numbers from halocarbons.csv.
+	lookupLineMatching(t, s, `^"2903\.45": ambiguous, 2 candidates$`)
+	lookupLineMatching(t, s, `^\s+HFC-134\s+substance\s+F/I\s+HS code\s+HS2022 2903\.45\s+0\.50$`)
+	lookupLineMatching(t, s, `^\s+HFC-134a\s+substance\s+F/I\s+HS code\s+HS2022 2903\.45\s+0\.50$`)
+	lookupMustContain(t, s, "HFC-134 (CAS 359-35-3)", "HFC-134a (CAS 811-97-2)")
+	lookupLineMatching(t, s, `^"R-4O4A": no catalogue entry$`)
+	lookupLineMatching(t, s, `Did you mean: R-404A`)
+	lookupLineMatching(t, s, `^"75-45-7": no catalogue entry$`)
+	lookupMustContain(t, s, "check digit", "75-45-6 (HCFC-22)")
+	// The identifier that resolved is still reported in full.
+	lookupLineMatching(t, s, `^HCFC-22 `)
+	lookupMustContain(t, s, decisionSupportNotice)
+}
+
+func TestLookupJSONLines(t *testing.T) {
+	_, conn := startLookupServer(t)
+	var out bytes.Buffer
+	err := lookupReport(context.Background(), conn, &out, []string{"R-22", "2903.45", "R-404A"}, "json")
+	if code := lookupExitCode(err); code != 1 {
+		t.Fatalf("exit code %d; want 1 (2903.45 is ambiguous)", code)
+	}
+	type record struct {
+		Identifier string          `json:"identifier"`
+		Resolution json.RawMessage `json:"resolution"`
+		Entry      json.RawMessage `json:"entry"`
+		Evaluation json.RawMessage `json:"evaluation"`
+	}
+	var recs []record
+	sc := bufio.NewScanner(&out)
+	sc.Buffer(nil, 1<<20)
+	for sc.Scan() {
+		var r record
+		if err := json.Unmarshal(sc.Bytes(), &r); err != nil {
+			t.Fatalf("line %d is not a JSON object: %v\n%s", len(recs)+1, err, sc.Text())
+		}
+		recs = append(recs, r)
+	}
+	if len(recs) != 3 {
+		t.Fatalf("%d JSON lines; want one per identifier (3)", len(recs))
+	}
+
+	// R-22: resolved, with entry and evaluation.
+	var res halovetv1.ResolveIdentifierResponse
+	var entry halovetv1.GetEntryResponse
+	var ev halovetv1.EvaluateMixtureResponse
+	if err := protojson.Unmarshal(recs[0].Resolution, &res); err != nil {
+		t.Fatalf("resolution: %v", err)
+	}
+	if err := protojson.Unmarshal(recs[0].Entry, &entry); err != nil {
+		t.Fatalf("entry: %v", err)
+	}
+	if err := protojson.Unmarshal(recs[0].Evaluation, &ev); err != nil {
+		t.Fatalf("evaluation: %v", err)
+	}
+	if recs[0].Identifier != "R-22" || res.GetCandidates()[0].GetDesignation() != "HCFC-22" {
+		t.Errorf("record 1: identifier %q, best candidate %v; want R-22 -> HCFC-22", recs[0].Identifier, res.GetCandidates())
+	}
+	// source: Montreal Protocol Annex C Group I, HCFC-22 ODP 0.055.
+	if s := entry.GetEntry().GetSubstance(); s.GetOdp() != 0.055 || s.GetAnnexGroup() != "C/I" {
+		t.Errorf("entry ODP %v group %q; want 0.055, C/I", s.GetOdp(), s.GetAnnexGroup())
+	}
+	if len(ev.GetCautions()) == 0 {
+		t.Error("evaluation carries no cautions; every refrigerant has some (asphyxiation at least)")
+	}
+
+	// 2903.45: ambiguous, resolution only.
+	res.Reset()
+	if err := protojson.Unmarshal(recs[1].Resolution, &res); err != nil {
+		t.Fatalf("resolution 2: %v", err)
+	}
+	if !res.GetAmbiguous() || len(res.GetCandidates()) != 2 || recs[1].Entry != nil || recs[1].Evaluation != nil {
+		t.Errorf("record 2: ambiguous %v, %d candidates, entry %s; want ambiguous, 2 candidates, no entry",
+			res.GetAmbiguous(), len(res.GetCandidates()), recs[1].Entry)
+	}
+
+	// R-404A: a blend with its GWP figures.
+	entry.Reset()
+	ev.Reset()
+	if err := protojson.Unmarshal(recs[2].Entry, &entry); err != nil {
+		t.Fatalf("entry 3: %v", err)
+	}
+	if err := protojson.Unmarshal(recs[2].Evaluation, &ev); err != nil {
+		t.Fatalf("evaluation 3: %v", err)
+	}
+	if len(entry.GetEntry().GetBlend().GetComponents()) != 3 {
+		t.Errorf("R-404A entry %v; want a blend of 3 components", entry.GetEntry())
+	}
+	found := false
+	for _, g := range ev.GetGwps() {
+		// source: UK government CO2-eq table (SOURCES.md §3): R-404A 3922 from 3921.6.
+		if g.GetGwpSet() == "AR4" && g.GetConvention() == "all-components" {
+			found = math.Abs(g.GetGwp100()-3921.6) < 1e-9
+		}
+	}
+	if !found {
+		t.Errorf("R-404A evaluation GWPs %v; want AR4 all-components 3921.6", ev.GetGwps())
+	}
+}
+
+func TestMixText(t *testing.T) {
+	_, conn := startLookupServer(t)
+	ctx := context.Background()
+
+	req, err := mixRequest("R-410A", 1000)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out bytes.Buffer
+	if err := mixReport(ctx, conn, &out, req, "text"); err != nil {
+		t.Fatalf("mix R-410A --mass-kg 1000: %v", err)
+	}
+	s := out.String()
+	lookupLineMatching(t, s, `^Mixture R-410A, 1000 kg$`)
+	// source: UK government CO2-eq table (SOURCES.md §3): R-410A 2088 (2087.5 unrounded);
+	// 1 t x 2087.5 = 2087.5 CO2-eq t (DOMAIN.md §3).
+	lookupLineMatching(t, s, `^\s+CO2-eq tonnes\s+2087\.5 `)
+	lookupLineMatching(t, s, `^\s+AR4\s+2088 \(2087\.5\)\s+2088 \(2087\.5\)$`)
+	// Per component: mass %, kg, group, ODP, ODP t, Annex GWP, CO2-eq t, class.
+	// source: Kigali Amendment Annex F: HFC-32 675; 0.5 t x 675 = 337.5 CO2-eq t.
+	lookupLineMatching(t, s, `^\s+HFC-32\s+50\s+500\s+F/I\s+0\s+0\s+675\s+337\.5\s+A2L$`)
+	lookupLineMatching(t, s, `^\s+HFC-125\s+50\s+500\s+F/I\s+0\s+0\s+3500\s+1750\s+A1$`) // source: Annex F HFC-125 3500
+	lookupMustContain(t, s, "all components", "Annex F only (as the Protocol counts)", "not decided", decisionSupportNotice)
+
+	// source: Montreal Protocol Annex C Group I, HCFC-141b ODP 0.11: 1 t -> 0.11 ODP t.
+	req, err = mixRequest("HCFC-141b:100", 1000)
+	if err != nil {
+		t.Fatal(err)
+	}
+	out.Reset()
+	if err := mixReport(ctx, conn, &out, req, "text"); err != nil {
+		t.Fatalf("mix HCFC-141b:100 --mass-kg 1000: %v", err)
+	}
+	lookupLineMatching(t, out.String(), `^Mixture HCFC-141b, 1000 kg$`) // a one-share composition is that substance
+	lookupLineMatching(t, out.String(), `^\s+ODP tonnes\s+0\.11 `)
+	lookupLineMatching(t, out.String(), `^\s+CO2-eq tonnes\s+0 `)
+
+	// Per kg: no mass columns; a flammable component's caution reaches the footer.
+	// source: ASHRAE 34 (reference blends.csv): R-401A is HCFC-22/HFC-152a/HCFC-124 53/13/34.
+	req, err = mixRequest("HCFC-22:53,HFC-152a:13,HCFC-124:34", 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	out.Reset()
+	if err := mixReport(ctx, conn, &out, req, "text"); err != nil {
+		t.Fatalf("mix R-401A composition: %v", err)
+	}
+	s = out.String()
+	// ODP: 0.53 x 0.055 + 0.34 x 0.022 = 0.03663 (Annex C Group I values).
+	lookupLineMatching(t, s, `^Mixture \(ad-hoc composition\), per kg \(no --mass-kg given\)$`)
+	lookupLineMatching(t, s, `^\s+ODP\s+0\.03663 `)
+	lookupLineMatching(t, s, `^\s+component\s+mass %\s+Annex/Group\s+ODP\s+GWP \(MP\)\s+safety class$`)
+	lookupMustContain(t, s, "per kg", "Contains flammable components HFC-152a")
+	if strings.Contains(s, "mass kg") {
+		t.Errorf("a per-kg report shows mass columns:\n%s", s)
+	}
+}
+
+func TestMixJSON(t *testing.T) {
+	_, conn := startLookupServer(t)
+	req, err := mixRequest("R-507A", 2000)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out bytes.Buffer
+	if err := mixReport(context.Background(), conn, &out, req, "json"); err != nil {
+		t.Fatalf("mix --output json R-507A: %v", err)
+	}
+	var ev halovetv1.EvaluateMixtureResponse
+	if err := protojson.Unmarshal(out.Bytes(), &ev); err != nil {
+		t.Fatalf("output is not an EvaluateMixtureResponse in protobuf JSON: %v\n%s", err, out.String())
+	}
+	// source: UK government CO2-eq table (SOURCES.md §3): R-507A 3985; 2 t -> 7970 CO2-eq t.
+	if ev.GetDesignation() != "R-507A" || math.Abs(ev.GetCo2ETonnes()-7970) > 1e-6 {
+		t.Errorf("designation %q, CO2-eq t %v; want R-507A and 7970", ev.GetDesignation(), ev.GetCo2ETonnes())
+	}
+}
+
+func TestMixRequestParsing(t *testing.T) {
+	type share struct {
+		id  string
+		pct float64
+	}
+	cases := []struct {
+		name   string
+		spec   string
+		mass   float64
+		blend  string
+		shares []share
+		code   int // 0: accepted
+	}{
+		{"blend", " R-410A ", 0, "R-410A", nil, 0},
+		{"substance by chemical name", "1,1,1,2-tetrafluoroethane", 5, "1,1,1,2-tetrafluoroethane", nil, 0},
+		{"composition", "R-32:50,R-125:50", 10, "", []share{{"R-32", 50}, {"R-125", 50}}, 0},
+		{"chemical names with commas, spaces, percent signs", "1,1,1,2-tetrafluoroethane:52, R-32 : 23 ,R-125:25%", 0, "",
+			[]share{{"1,1,1,2-tetrafluoroethane", 52}, {"R-32", 23}, {"R-125", 25}}, 0},
+		{"sum not checked locally", "R-32:50,R-125:49.5", 0, "", []share{{"R-32", 50}, {"R-125", 49.5}}, 0},
+		{"share without percent", "R-32:50,R-125", 0, "", nil, 2},
+		{"percent not a number", "R-32:fifty,R-125:50", 0, "", nil, 2},
+		{"percent NaN", "R-32:NaN,R-125:50", 0, "", nil, 2},
+		{"no identifier", ":100", 0, "", nil, 2},
+		{"empty", "  ", 0, "", nil, 2},
+		{"negative mass", "R-410A", -1, "", nil, 2},
+		{"infinite mass", "R-410A", math.Inf(1), "", nil, 2},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			req, err := mixRequest(tc.spec, tc.mass)
+			if code := lookupExitCode(err); code != tc.code {
+				t.Fatalf("mixRequest(%q, %v): exit code %d (err %v); want %d", tc.spec, tc.mass, code, err, tc.code)
+			}
+			if tc.code != 0 {
+				return
+			}
+			if req.GetNetMassKg() != tc.mass {
+				t.Errorf("net mass %v; want %v", req.GetNetMassKg(), tc.mass)
+			}
+			if req.GetBlend() != tc.blend {
+				t.Errorf("blend %q; want %q", req.GetBlend(), tc.blend)
+			}
+			got := req.GetComposition().GetShares()
+			if len(got) != len(tc.shares) {
+				t.Fatalf("shares %v; want %v", got, tc.shares)
+			}
+			for i, s := range tc.shares {
+				if got[i].GetIdentifier() != s.id || got[i].GetMassPercent() != s.pct {
+					t.Errorf("share %d: %q %v; want %q %v", i, got[i].GetIdentifier(), got[i].GetMassPercent(), s.id, s.pct)
+				}
+			}
+		})
+	}
+}
+
+// runCaptured runs the halovet command line in this process and returns its exit code,
+// standard output and standard error. It swaps os.Stdout and os.Stderr, so tests that use
+// it must not run in parallel.
+func runCaptured(t *testing.T, args ...string) (int, string, string) {
+	t.Helper()
+	read := func(f *os.File, into *bytes.Buffer, done chan<- struct{}) {
+		_, _ = io.Copy(into, f)
+		close(done)
+	}
+	outR, outW, err := os.Pipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	errR, errW, err := os.Pipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var stdout, stderr bytes.Buffer
+	outDone, errDone := make(chan struct{}), make(chan struct{})
+	go read(outR, &stdout, outDone)
+	go read(errR, &stderr, errDone)
+	oldOut, oldErr := os.Stdout, os.Stderr
+	os.Stdout, os.Stderr = outW, errW
+	code := run(context.Background(), args)
+	os.Stdout, os.Stderr = oldOut, oldErr
+	_ = outW.Close()
+	_ = errW.Close()
+	<-outDone
+	<-errDone
+	return code, stdout.String(), stderr.String()
+}
+
+func TestLookupAndMixExitCodes(t *testing.T) {
+	addr, _ := startLookupServer(t)
+	cases := []struct {
+		name   string
+		args   []string
+		code   int
+		stdout string // must occur in standard output
+		stderr string // must occur in standard error
+	}{
+		{"lookup resolves", []string{"lookup", "--server", addr, "R-22"}, 0, "HCFC-22", ""},
+		{"lookup flags after identifiers", []string{"lookup", "R-22", "--server", addr, "--output", "json"}, 0, `"identifier":"R-22"`, ""},
+		{"lookup unknown", []string{"lookup", "--server", addr, "R-4O4A"}, 1, "Did you mean", "did not resolve"},
+		{"lookup ambiguous", []string{"lookup", "--server", addr, "R-22", "2903.45"}, 1, "ambiguous", "1 of 2"},
+		{"lookup without identifiers", []string{"lookup", "--server", addr}, 2, "", "IDENTIFIER"},
+		{"lookup bad output", []string{"lookup", "--server", addr, "--output", "yaml", "R-22"}, 2, "", "--output"},
+		{"lookup help", []string{"lookup", "--help"}, 0, "", "Examples:"},
+		{"mix blend, mass after SPEC", []string{"mix", "--server", addr, "R-410A", "--mass-kg", "10"}, 0, "Mixture R-410A, 10 kg", ""},
+		{"mix sum off", []string{"mix", "--server", addr, "R-32:50,R-125:49.5"}, 1, "", "99.5"},
+		{"mix unknown identifier", []string{"mix", "--server", addr, "R-32:50,R-12x5:50"}, 1, "", "R-125"},
+		{"mix malformed SPEC", []string{"mix", "--server", addr, "R-32:50,R-125"}, 2, "", "MASS_PERCENT"},
+		{"mix negative mass", []string{"mix", "--server", addr, "--mass-kg", "-3", "R-410A"}, 2, "", "--mass-kg"},
+		{"mix two SPECs", []string{"mix", "--server", addr, "R-410A", "R-404A"}, 2, "", "exactly one SPEC"},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			code, stdout, stderr := runCaptured(t, tc.args...)
+			if code != tc.code {
+				t.Errorf("halovet %s: exit code %d; want %d\nstdout:\n%s\nstderr:\n%s", strings.Join(tc.args, " "), code, tc.code, stdout, stderr)
+			}
+			if !strings.Contains(stdout, tc.stdout) {
+				t.Errorf("stdout lacks %q:\n%s", tc.stdout, stdout)
+			}
+			if !strings.Contains(stderr, tc.stderr) {
+				t.Errorf("stderr lacks %q:\n%s", tc.stderr, stderr)
+			}
+		})
+	}
+}
+
+func TestReportFooter(t *testing.T) {
+	long := "Lower flammability (ASHRAE 34 class A2L): can ignite at high concentration; use equipment, " +
+		"tools and charge limits approved for class A2L refrigerants and keep ignition sources away."
+	got := reportFooter([]string{
+		"Asphyxiation: ventilate.",
+		"",
+		long,
+		"Asphyxiation:   ventilate.", // the same caution, spaced differently
+		"Figures are decision support: the treaty text, national law and the national authority prevail.",
+		"Frostbite: wear gloves.",
+		"Asphyxiation: ventilate.",
+	})
+	lines := strings.Split(strings.TrimSuffix(got, "\n"), "\n")
+	if lines[0] != "--" || lines[1] != decisionSupportNotice || lines[2] != "Safety cautions:" {
+		t.Fatalf("footer starts %q; want the rule, the notice on one line, then the cautions heading", lines[:3])
+	}
+	if !strings.HasSuffix(got, "\n") {
+		t.Error("footer does not end with a newline")
+	}
+	var items []string
+	for _, l := range lines[3:] {
+		if len(l) > footerWidth {
+			t.Errorf("line of %d bytes %q; want at most %d", len(l), l, footerWidth)
+		}
+		switch {
+		case strings.HasPrefix(l, "  - "):
+			items = append(items, strings.TrimPrefix(l, "  - "))
+		case strings.HasPrefix(l, "    ") && len(items) > 0:
+			items[len(items)-1] += " " + strings.TrimSpace(l)
+		default:
+			t.Errorf("unexpected footer line %q", l)
+		}
+	}
+	want := []string{"Asphyxiation: ventilate.", long, "Frostbite: wear gloves."}
+	if strings.Join(items, "|") != strings.Join(want, "|") {
+		t.Errorf("cautions %q; want %q (distinct, in order, no second decision-support line)", items, want)
+	}
+
+	if got := reportFooter(nil); got != "--\n"+decisionSupportNotice+"\n" {
+		t.Errorf("footer without cautions %q; want only the rule and the notice", got)
+	}
+}
+
+func TestMixtureGWPText(t *testing.T) {
+	// Rounding as the published tables do it: half-up of the unrounded sum (SOURCES.md §3:
+	// R-410A 2087.5 -> 2088, R-407F 1824.5 -> 1825).
+	cases := map[float64]string{
+		2087.5:             "2088 (2087.5)",
+		1824.5:             "1825 (1824.5)",
+		3985:               "3985",
+		3921.6:             "3922 (3921.6)",
+		1773.85:            "1774 (1773.85)",
+		465.07500000000005: "465 (465.075)", // R-454B HFC-only sum with binary noise
+		2424.795102:        "2425 (2424.795)",
+		0:                  "0",
+	}
+	for in, want := range cases {
+		if got := mixtureGWPText(in); got != want {
+			t.Errorf("mixtureGWPText(%v) = %q; want %q", in, got, want)
+		}
+	}
+}
