@@ -28,6 +28,8 @@ type Options struct {
 	AdminToken string
 	// Now is the clock; nil means time.Now.
 	Now func() time.Time
+	// ServerOptions are passed to grpc.NewServer after halovet's own (e.g. TLS credentials).
+	ServerOptions []grpc.ServerOption
 }
 
 // Server is halovet's gRPC server.
@@ -64,10 +66,10 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 		opts.Now = time.Now
 	}
 	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat}
-	s.grpc = grpc.NewServer(
+	s.grpc = grpc.NewServer(append([]grpc.ServerOption{
 		grpc.ChainUnaryInterceptor(s.unaryInterceptors()...),
 		grpc.ChainStreamInterceptor(s.streamInterceptors()...),
-	)
+	}, opts.ServerOptions...)...)
 	healthpb.RegisterHealthServer(s.grpc, s.health)
 	reflection.Register(s.grpc)
 	halovetv1.RegisterCatalogueServiceServer(s.grpc, &catalogueServer{srv: s})

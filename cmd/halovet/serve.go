@@ -8,6 +8,9 @@ import (
 	"strings"
 	"time"
 
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/credentials"
+
 	"github.com/halovet/halovet/service"
 )
 
@@ -33,6 +36,8 @@ func runServe(ctx context.Context, args []string) error {
 	grace := fs.Duration("grace-period", envDuration("HALOVET_GRACE_PERIOD", 20*time.Second), "time in-flight calls get to finish on shutdown (env HALOVET_GRACE_PERIOD)")
 	logFormat := fs.String("log-format", envOr("HALOVET_LOG_FORMAT", "text"), "log format: text or json (env HALOVET_LOG_FORMAT)")
 	logLevel := fs.String("log-level", envOr("HALOVET_LOG_LEVEL", "info"), "log level: debug, info, warn, error (env HALOVET_LOG_LEVEL)")
+	certFile := fs.String("tls-cert", envOr("HALOVET_TLS_CERT", ""), "PEM certificate chain to serve TLS with (env HALOVET_TLS_CERT); with --tls-key")
+	keyFile := fs.String("tls-key", envOr("HALOVET_TLS_KEY", ""), "PEM private key of --tls-cert (env HALOVET_TLS_KEY)")
 	tokenFile := fs.String("admin-token-file", envOr("HALOVET_ADMIN_TOKEN_FILE", ""), "file holding the bearer token that calls changing data must carry; empty: no token needed (env HALOVET_ADMIN_TOKEN_FILE)")
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -48,6 +53,17 @@ func runServe(ctx context.Context, args []string) error {
 			return fmt.Errorf("--admin-token-file: %w", err)
 		}
 		token = strings.TrimSpace(string(b))
+	}
+	var serverOpts []grpc.ServerOption
+	switch {
+	case *certFile != "" && *keyFile != "":
+		creds, err := credentials.NewServerTLSFromFile(*certFile, *keyFile)
+		if err != nil {
+			return fmt.Errorf("--tls-cert/--tls-key: %w", err)
+		}
+		serverOpts = append(serverOpts, grpc.Creds(creds))
+	case *certFile != "" || *keyFile != "":
+		return usageErr("--tls-cert and --tls-key go together")
 	}
 	lis, err := net.Listen("tcp", *listen)
 	if err != nil {
@@ -73,7 +89,7 @@ func runServe(ctx context.Context, args []string) error {
 	}
 	stopWatch := cat.Watch(ctx, db.Store)
 	defer stopWatch()
-	srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token})
+	srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts})
 	return srv.Serve(ctx, lis)
 }
 
