@@ -3,15 +3,19 @@ package main
 import (
 	"bufio"
 	"bytes"
+	"context"
 	"fmt"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
+	"sync"
 	"syscall"
 	"testing"
 	"time"
+
+	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 
 	"github.com/halovet/halovet/pglocal/pgtest"
 )
@@ -72,6 +76,24 @@ func writeScaleCSV(t *testing.T, path string, n int) {
 	}
 }
 
+// lockedBuffer collects a process's output while the test may read it.
+type lockedBuffer struct {
+	mu sync.Mutex
+	b  bytes.Buffer
+}
+
+func (l *lockedBuffer) Write(p []byte) (int, error) {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	return l.b.Write(p)
+}
+
+func (l *lockedBuffer) String() string {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	return l.b.String()
+}
+
 // scaleResult is what one run measured.
 type scaleResult struct {
 	records    int
@@ -100,9 +122,9 @@ func vmHWM(pid int) (int64, error) {
 func scaleRun(t *testing.T, bin, url, registry, file string, n int) scaleResult {
 	t.Helper()
 	addr := freeAddr(t)
-	var serverLog bytes.Buffer
+	serverLog := &lockedBuffer{}
 	srv := exec.Command(bin, "serve", "--database-url", url, "--listen", addr, "--log-level", "warn")
-	srv.Stdout, srv.Stderr = &serverLog, &serverLog
+	srv.Stdout, srv.Stderr = serverLog, serverLog
 	if err := srv.Start(); err != nil {
 		t.Fatal(err)
 	}
@@ -116,7 +138,24 @@ func scaleRun(t *testing.T, bin, url, registry, file string, n int) scaleResult 
 		}
 	}()
 	conn := dialTest(t, addr)
-	waitServing(t, conn, &serverProcess{cmd: srv, addr: addr, stderr: &serverLog, done: exited})
+	hc := healthpb.NewHealthClient(conn)
+	for deadline := time.Now().Add(45 * time.Second); ; {
+		ctx, cancel := context.WithTimeout(context.Background(), time.Second)
+		resp, err := hc.Check(ctx, &healthpb.HealthCheckRequest{})
+		cancel()
+		if err == nil && resp.GetStatus() == healthpb.HealthCheckResponse_SERVING {
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("server not SERVING within 45 s:\n%s", serverLog.String())
+		}
+		select {
+		case err := <-exited:
+			stopped = true
+			t.Fatalf("server exited early (%v):\n%s", err, serverLog.String())
+		case <-time.After(100 * time.Millisecond):
+		}
+	}
 	if out, err := exec.Command(bin, "load", "--server", addr, registry).CombinedOutput(); err != nil {
 		t.Fatalf("halovet load: %v\n%s", err, out)
 	}
