@@ -1,6 +1,8 @@
 package deploy_test
 
 import (
+	halovetservice "github.com/halovet/halovet/service"
+
 	"fmt"
 	"maps"
 	"net"
@@ -311,8 +313,15 @@ func TestDeploymentServesGRPCWithProbesAndSecrets(t *testing.T) {
 		}
 	}
 	if p := c.LivenessProbe; p != nil && p.PeriodSeconds*max(p.FailureThreshold, 1) < 60 {
-		// Health follows the database; a short outage must not restart every replica.
 		t.Errorf("livenessProbe gives up after %ds; want at least 60s", p.PeriodSeconds*p.FailureThreshold)
+	}
+	// Readiness follows the database (the overall status); liveness asks for the service
+	// name that stays SERVING while the process runs, so an outage restarts nothing.
+	if p := c.LivenessProbe; p != nil && p.GRPC != nil && (p.GRPC.Service == nil || *p.GRPC.Service != halovetservice.LivenessService) {
+		t.Errorf("livenessProbe asks for health service %s; want %q", show(p.GRPC.Service), halovetservice.LivenessService)
+	}
+	if p := c.ReadinessProbe; p != nil && p.GRPC != nil && p.GRPC.Service != nil && *p.GRPC.Service != "" {
+		t.Errorf("readinessProbe asks for health service %q; want the overall status", *p.GRPC.Service)
 	}
 
 	db, ok := envValue(c, "HALOVET_DATABASE_URL")

@@ -402,7 +402,7 @@ func (c *consumptionServer) GetBaseline(ctx context.Context, req *halovetv1.GetB
 	if err != nil {
 		return nil, arithmeticError(ctx, c.srv, err)
 	}
-	return baselineToProto(b, d.records, years), nil
+	return baselineToProto(b, d.records[:d.nStored], years), nil
 }
 
 func baselineToProto(b controls.Baseline, records []controls.Record, years []int) *halovetv1.GetBaselineResponse {
@@ -494,7 +494,7 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 		out.Baseline = b.Value
 		out.BaselineComplete = b.Complete
 		for _, g := range b.Missing {
-			out.BaselineMissing = append(out.BaselineMissing, gapText(g, d.records, years))
+			out.BaselineMissing = append(out.BaselineMissing, gapText(g, d.records[:d.nStored], baselineYears(rb, party, scope)))
 		}
 	}
 	var sources []string

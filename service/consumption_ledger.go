@@ -53,7 +53,8 @@ const nonPartyExportsFrom = 1993
 
 // consumptionData is what the arithmetic reads from the database for a set of years.
 type consumptionData struct {
-	records  []controls.Record
+	records  []controls.Record // the first nStored come from the database, the rest are zero records of covered years
+	nStored  int
 	notes    []string
 	covered  map[int]bool // years with recorded shipments
 	anyYears map[int]bool // years with any shipment or national entry
@@ -248,6 +249,7 @@ func (s *Server) loadConsumption(ctx context.Context, years []int) (consumptionD
 	}
 
 	// Zero records for covered years, so that no trade reads as zero, not as missing data.
+	d.nStored = len(d.records)
 	rep := representatives(cat)
 	has := map[int]map[substances.Group]bool{}
 	for _, r := range d.records {
@@ -269,7 +271,6 @@ func (s *Server) loadConsumption(ctx context.Context, years []int) (consumptionD
 			}
 		}
 	}
-	slices.SortStableFunc(d.records, func(a, b controls.Record) int { return a.Year - b.Year })
 	return d, nil
 }
 
@@ -323,7 +324,8 @@ func uniqueYears(ys []int) []int {
 
 // coverageNotes names substances that have data in some of the years but not in others,
 // within the scope's groups: a likely gap in historical data even where the group has
-// records. Each note lists the years lacking the substance.
+// records. Each note lists the years lacking the substance. records are the stored ones
+// only (a 0 t entry is data; the zero records of covered years are not).
 func coverageNotes(records []controls.Record, scope controls.Scope, years []int) []string {
 	groups := scope.Groups()
 	bySub := map[string]map[int]bool{}
@@ -331,9 +333,6 @@ func coverageNotes(records []controls.Record, scope controls.Scope, years []int)
 	for _, r := range records {
 		if !slices.Contains(groups, r.Substance.Group) || !slices.Contains(years, r.Year) {
 			continue
-		}
-		if r.Flows == (controls.Flows{}) {
-			continue // a zero record of a covered year
 		}
 		groupYears[r.Year] = true
 		if bySub[r.Substance.Designation] == nil {
@@ -362,13 +361,14 @@ func coverageNotes(records []controls.Record, scope controls.Scope, years []int)
 	return notes
 }
 
-// gapText names a missing base year and the substances to enter for it.
+// gapText names a missing base year and the substances to enter for it: those of the
+// gap's scope that have data in the other base years (years).
 func gapText(g controls.Gap, records []controls.Record, years []int) string {
 	groups := g.Scope.Groups()
 	seen := map[string]bool{}
 	var names []string
 	for _, r := range records {
-		if slices.Contains(groups, r.Substance.Group) && slices.Contains(years, r.Year) && r.Flows != (controls.Flows{}) && !seen[r.Substance.Designation] {
+		if slices.Contains(groups, r.Substance.Group) && slices.Contains(years, r.Year) && !seen[r.Substance.Designation] {
 			seen[r.Substance.Designation] = true
 			names = append(names, r.Substance.Designation)
 		}

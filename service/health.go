@@ -6,8 +6,13 @@ import (
 
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 
-	"github.com/halovet/halovet/store"
 )
+
+// LivenessService is the health service name that reports SERVING for as long as the
+// process runs and is not shutting down, whatever the database's state: a liveness probe
+// asks for it, so that a database outage takes replicas out of load balancing (readiness,
+// the overall status) without restarting them all.
+const LivenessService = "liveness"
 
 func (s *Server) setHealth(st healthpb.HealthCheckResponse_ServingStatus) {
 	s.health.SetServingStatus("", st)
@@ -59,4 +64,3 @@ func (s *Server) probeOnce(ctx context.Context) healthpb.HealthCheckResponse_Ser
 	return healthpb.HealthCheckResponse_SERVING
 }
 
-var _ = store.Redact

@@ -77,6 +77,7 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	halovetv1.RegisterLicensingServiceServer(s.grpc, &licensingServer{srv: s})
 	halovetv1.RegisterConsumptionServiceServer(s.grpc, &consumptionServer{srv: s})
 	s.setHealth(healthpb.HealthCheckResponse_NOT_SERVING)
+	s.health.SetServingStatus(LivenessService, healthpb.HealthCheckResponse_SERVING)
 	return s
 }
 

@@ -133,6 +133,11 @@ func TestServeHealthReflectionAndGracefulShutdown(t *testing.T) {
 	waitServing(t, conn, p)
 	ctx := context.Background()
 
+	// The liveness service name answers too (the Kubernetes liveness probe asks for it).
+	if r, err := healthpb.NewHealthClient(conn).Check(ctx, &healthpb.HealthCheckRequest{Service: "liveness"}); err != nil || r.GetStatus() != healthpb.HealthCheckResponse_SERVING {
+		t.Fatalf("liveness health: %v %v; want SERVING", r, err)
+	}
+
 	// Reflection, as an off-the-shelf client uses it.
 	rc, err := reflectionpb.NewServerReflectionClient(conn).ServerReflectionInfo(ctx)
 	if err != nil {
