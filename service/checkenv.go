@@ -3,6 +3,7 @@ package service
 import (
 	"context"
 	"fmt"
+	"sync"
 	"time"
 
 	"google.golang.org/grpc/codes"
@@ -100,13 +101,7 @@ func (s *Server) checkEnv(ctx context.Context) (*validate.Env, error) {
 	if err != nil {
 		return nil, status.Error(codes.FailedPrecondition, err.Error())
 	}
-	env.AllowedPercent = func(g substances.Group, year int) (float64, bool) {
-		a, err := rulebook.Allowance(cp, controls.ScopeOf(g), year)
-		if err != nil {
-			return 0, false
-		}
-		return a.Percent(), true
-	}
+	env.AllowedPercent = allowedPercent(cp)
 	lics, err := s.store.ListLicences(ctx, "", 0)
 	if err != nil {
 		return nil, toStatus(ctx, s.log, err)
@@ -152,4 +147,34 @@ func toValidateLicence(l store.Licence) *validate.Licence {
 			Substance: q.Substance, Unit: validateUnit[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn})
 	}
 	return v
+}
+
+type allowedKey struct {
+	g    substances.Group
+	year int
+}
+
+type allowedValue struct {
+	pct   float64
+	known bool
+}
+
+// allowedPercent answers the reporting Party's allowed level per group and year from
+// the rulebook, remembering each answer: the rulebook scan would otherwise run for every
+// record checked. Safe for concurrent use.
+func allowedPercent(cp controls.Party) func(substances.Group, int) (float64, bool) {
+	var cache sync.Map // allowedKey -> allowedValue
+	return func(g substances.Group, year int) (float64, bool) {
+		k := allowedKey{g, year}
+		if v, ok := cache.Load(k); ok {
+			a := v.(allowedValue)
+			return a.pct, a.known
+		}
+		var v allowedValue
+		if a, err := rulebook.Allowance(cp, controls.ScopeOf(g), year); err == nil {
+			v = allowedValue{a.Percent(), true}
+		}
+		cache.Store(k, v)
+		return v.pct, v.known
+	}
 }

@@ -5,7 +5,6 @@ import (
 	"time"
 
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
-
 )
 
 // LivenessService is the health service name that reports SERVING for as long as the
@@ -63,4 +62,3 @@ func (s *Server) probeOnce(ctx context.Context) healthpb.HealthCheckResponse_Ser
 	}
 	return healthpb.HealthCheckResponse_SERVING
 }
-

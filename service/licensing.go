@@ -3,6 +3,7 @@ package service
 import (
 	"context"
 	"fmt"
+	"math"
 	"regexp"
 	"time"
 
@@ -14,6 +15,10 @@ import (
 var countryCodeRE = regexp.MustCompile(`^[A-Z]{2}$`)
 
 const dateLayout = "2006-01-02"
+
+// maxAllocation bounds a quota line (in t, ODP t or CO2-eq t): the recorder counts
+// quota in billionths in 64-bit integers, and no national licence comes near a billion.
+const maxAllocation = 1e9
 
 // actor names who made a change, for the audit log.
 func actor(ctx context.Context) string { return "api:" + requestID(ctx) }
@@ -192,8 +197,8 @@ func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool) (
 			vs = append(vs, fieldViolation{f + ".unit", "must be METRIC_TONNES, ODP_TONNES or CO2E_TONNES"})
 		}
 		line.Unit = u
-		if q.GetAllocated() < 0 {
-			vs = append(vs, fieldViolation{f + ".allocated", "must not be negative"})
+		if q.GetAllocated() < 0 || q.GetAllocated() > maxAllocation || math.IsNaN(q.GetAllocated()) {
+			vs = append(vs, fieldViolation{f + ".allocated", fmt.Sprintf("must be between 0 and %g in the line's unit", maxAllocation)})
 		}
 		out.QuotaLines = append(out.QuotaLines, line)
 	}

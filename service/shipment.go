@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"slices"
 	"strings"
 
 	"google.golang.org/grpc/codes"
@@ -68,8 +69,20 @@ func (s *summary) add(v *validate.Verdict, recorded, replayed bool) {
 	}
 }
 
+// requestRecords lists the records of one stream message in order.
+func requestRecords(one *halovetv1.ShipmentRecord, more []*halovetv1.ShipmentRecord) []*halovetv1.ShipmentRecord {
+	if one == nil {
+		return more
+	}
+	if len(more) == 0 {
+		return []*halovetv1.ShipmentRecord{one}
+	}
+	return append([]*halovetv1.ShipmentRecord{one}, more...)
+}
+
 // CheckShipments checks a stream in order; earlier accepted records of the stream draw
-// on the quota the later ones are checked against. Nothing is stored.
+// on the quota the later ones are checked against. Nothing is stored. A message with one
+// record is answered with one verdict, a message with several with a VerdictBatch.
 func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckShipmentsServer) error {
 	ctx := stream.Context()
 	env, err := x.srv.checkEnv(ctx)
@@ -78,6 +91,7 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 	}
 	batch := validate.NewBatch(env)
 	var sum summary
+	var r validate.Record
 	for {
 		req, err := stream.Recv()
 		if errors.Is(err, io.EOF) {
@@ -86,13 +100,22 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 		if err != nil {
 			return err
 		}
-		if req.GetRecord() == nil {
-			return invalid(fieldViolation{"record", fmt.Sprintf("message %d of the stream carries no record", sum.pb.Records+1)})
+		recs := requestRecords(req.GetRecord(), req.GetRecords())
+		if len(recs) == 0 {
+			return invalid(fieldViolation{"record", fmt.Sprintf("the message after record %d of the stream carries no record", sum.pb.Records)})
 		}
-		r := recordFromProto(req.GetRecord())
-		v := batch.Check(&r)
-		sum.add(&v, false, v.Replayed)
-		if err := stream.Send(&halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Verdict{Verdict: verdictToProto(&v)}}); err != nil {
+		out := make([]*halovetv1.Verdict, len(recs))
+		for i, pb := range recs {
+			r = recordFromProto(pb)
+			v := batch.Check(&r)
+			sum.add(&v, false, v.Replayed)
+			out[i] = verdictToProto(&v)
+		}
+		resp := &halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Verdicts{Verdicts: &halovetv1.VerdictBatch{Verdicts: out}}}
+		if req.GetRecord() != nil && len(req.GetRecords()) == 0 {
+			resp.Item = &halovetv1.CheckShipmentsResponse_Verdict{Verdict: out[0]}
+		}
+		if err := stream.Send(resp); err != nil {
 			return err
 		}
 	}
@@ -101,28 +124,38 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 // pendingRecord is a checked record waiting to be written.
 type pendingRecord struct {
 	pb       *halovetv1.ShipmentRecord
+	single   bool // came alone in its message: answered with a lone verdict
 	rec      validate.Record
 	verdict  validate.Verdict
 	recorded bool
-	dupOf    *pendingRecord // the earlier record of the stream this one replays
+	dupOf    *pendingRecord // the earlier record of the same write batch this one replays
 }
 
-// RecordShipments checks each record, gathers up to recordFlushSize of them (or fewer
-// when the client pauses), writes the accepted ones in one transaction that draws their
-// quota under row locks, and then answers each record in order. The store is
+type incoming struct {
+	pb     *halovetv1.ShipmentRecord
+	single bool
+}
+
+// RecordShipments checks each record and writes the accepted ones in batches of up to
+// recordFlushSize, each in one transaction that draws their quota under row locks. The
+// next batch is checked while the previous one is written; a batch is handed to the
+// writer as soon as the writer is free, so a client that waits for its answers is never
+// kept waiting for a full batch. Answers go back in the records' order. The store is
 // authoritative for quotas and keys: a record it turns down gets the finding that says
-// why, and the rest of the batch is stored.
+// why, and the rest of the batch is stored. Memory is bounded by the batch size: keys
+// of earlier batches are looked up in the store, not kept.
 func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_RecordShipmentsServer) error {
-	ctx := stream.Context()
+	ctx, cancel := context.WithCancel(stream.Context())
+	defer cancel()
 	env, err := x.srv.checkEnv(ctx)
 	if err != nil {
 		return err
 	}
-	recv := make(chan *halovetv1.ShipmentRecord, recordFlushSize)
+	recv := make(chan incoming, recordFlushSize)
 	recvErr := make(chan error, 1)
 	go func() {
 		defer close(recv)
-		for {
+		for n := 0; ; n++ {
 			req, err := stream.Recv()
 			if err != nil {
 				if !errors.Is(err, io.EOF) {
@@ -130,63 +163,105 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 				}
 				return
 			}
-			select {
-			case recv <- req.GetRecord():
-			case <-ctx.Done():
+			recs := requestRecords(req.GetRecord(), req.GetRecords())
+			if len(recs) == 0 {
+				recvErr <- invalid(fieldViolation{"record", fmt.Sprintf("message %d of the stream carries no record", n+1)})
 				return
+			}
+			single := len(recs) == 1 && req.GetRecord() != nil
+			for _, pb := range recs {
+				select {
+				case recv <- incoming{pb: pb, single: single}:
+				case <-ctx.Done():
+					return
+				}
 			}
 		}
 	}()
 
-	seen := map[[2]string]seenKey{} // duplicates within the stream
+	// The writer commits batches in order and answers their records.
 	var sum summary
-	var pending []*pendingRecord
-	flush := func() error {
-		if len(pending) == 0 {
-			return nil
-		}
-		if err := x.srv.commit(ctx, pending); err != nil {
-			return err
-		}
-		for _, p := range pending {
-			sum.add(&p.verdict, p.recorded, p.verdict.Replayed)
-			if err := stream.Send(&halovetv1.RecordShipmentsResponse{Item: &halovetv1.RecordShipmentsResponse_Verdict{Verdict: recordedVerdict(p)}}); err != nil {
-				return err
+	toWrite := make(chan []*pendingRecord)
+	writeErr := make(chan error, 1)
+	writerDone := make(chan struct{})
+	go func() {
+		defer close(writerDone)
+		for batch := range toWrite {
+			if err := x.srv.commit(ctx, batch); err != nil {
+				writeErr <- err
+				cancel()
+				return
+			}
+			if err := sendRecorded(stream, batch, &sum); err != nil {
+				writeErr <- err
+				cancel()
+				return
 			}
 		}
-		pending = pending[:0]
-		return nil
+	}()
+	finish := func(err error) error {
+		close(toWrite)
+		<-writerDone
+		select {
+		case werr := <-writeErr:
+			return werr
+		default:
+		}
+		if err != nil {
+			return err
+		}
+		return stream.Send(&halovetv1.RecordShipmentsResponse{Item: &halovetv1.RecordShipmentsResponse_Summary{Summary: &sum.pb}})
+	}
+
+	seen := map[[2]string]seenKey{} // duplicates within the batch being gathered
+	var pending []*pendingRecord
+	handOver := func() {
+		pending = nil
+		clear(seen)
 	}
 	for {
-		var pb *halovetv1.ShipmentRecord
+		var in incoming
 		var open bool
-		if len(pending) == 0 {
-			pb, open = <-recv
-		} else {
+		switch {
+		case len(pending) >= recordFlushSize:
 			select {
-			case pb, open = <-recv:
-			default: // the client paused: write what we have
-				if err := flush(); err != nil {
-					return err
-				}
+			case toWrite <- pending:
+				handOver()
 				continue
+			case <-ctx.Done():
+				return finish(ctx.Err())
+			}
+		case len(pending) > 0:
+			select {
+			case in, open = <-recv:
+			case toWrite <- pending: // the writer is free: write what we have
+				handOver()
+				continue
+			case <-ctx.Done():
+				return finish(ctx.Err())
+			}
+		default:
+			select {
+			case in, open = <-recv:
+			case <-ctx.Done():
+				return finish(ctx.Err())
 			}
 		}
 		if !open {
 			select {
 			case err := <-recvErr:
-				return err
+				return finish(err)
 			default:
 			}
-			if err := flush(); err != nil {
-				return err
+			if len(pending) > 0 {
+				select {
+				case toWrite <- pending:
+				case <-ctx.Done():
+				}
 			}
-			return stream.Send(&halovetv1.RecordShipmentsResponse{Item: &halovetv1.RecordShipmentsResponse_Summary{Summary: &sum.pb}})
+			return finish(nil)
 		}
-		if pb == nil {
-			return invalid(fieldViolation{"record", fmt.Sprintf("message %d of the stream carries no record", sum.pb.Records+int64(len(pending))+1)})
-		}
-		p := &pendingRecord{pb: pb, rec: recordFromProto(pb)}
+		p := &pendingRecord{pb: in.pb, single: in.single, rec: recordFromProto(in.pb)}
 		// Quota is drawn by the store under lock, not by an in-memory ledger.
 		p.verdict = validate.Check(env, &p.rec, nil)
 		k := [2]string{strings.TrimSpace(p.rec.CompanyID), strings.TrimSpace(p.rec.Key)}
@@ -203,12 +278,36 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 			}
 		}
 		pending = append(pending, p)
-		if len(pending) >= recordFlushSize {
-			if err := flush(); err != nil {
-				return err
-			}
+	}
+}
+
+// sendRecorded answers a written batch: a record that came alone in its message gets a
+// lone verdict, consecutive records of multi-record messages a VerdictBatch.
+func sendRecorded(stream halovetv1.ShipmentService_RecordShipmentsServer, batch []*pendingRecord, sum *summary) error {
+	var group []*halovetv1.Verdict
+	flushGroup := func() error {
+		if len(group) == 0 {
+			return nil
+		}
+		err := stream.Send(&halovetv1.RecordShipmentsResponse{Item: &halovetv1.RecordShipmentsResponse_Verdicts{Verdicts: &halovetv1.VerdictBatch{Verdicts: group}}})
+		group = nil
+		return err
+	}
+	for _, p := range batch {
+		v := recordedVerdict(p)
+		sum.add(&p.verdict, v.GetRecorded(), p.verdict.Replayed)
+		if !p.single {
+			group = append(group, v)
+			continue
+		}
+		if err := flushGroup(); err != nil {
+			return err
+		}
+		if err := stream.Send(&halovetv1.RecordShipmentsResponse{Item: &halovetv1.RecordShipmentsResponse_Verdict{Verdict: v}}); err != nil {
+			return err
 		}
 	}
+	return flushGroup()
 }
 
 type seenKey struct {
@@ -221,7 +320,7 @@ func recordedVerdict(p *pendingRecord) *halovetv1.Verdict {
 	v := verdictToProto(&p.verdict)
 	v.Recorded = p.recorded
 	if p.dupOf != nil {
-		// A replay of an earlier record of this stream is stored if that one is.
+		// A replay of an earlier record of this batch is stored if that one is.
 		v.Recorded = p.dupOf.recorded
 	}
 	return v
@@ -287,6 +386,10 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 		case store.RecordKeyConflict:
 			p.verdict.Add(findingFor(validate.CodeDupKeyConflict, "record_key", "a concurrent call stored other content under this key; give a new record a new key"))
 		case store.RecordQuotaShort:
+			// What the check said of the quota was judged against an older balance.
+			p.verdict.Findings = slices.DeleteFunc(p.verdict.Findings, func(f validate.Finding) bool {
+				return f.Code == validate.CodeQuotaNearLimit
+			})
 			p.verdict.Add(findingFor(validate.CodeQuotaExceeded, "licence_number", fmt.Sprintf(
 				"licence %s line %d has %.9g left when this record is written (other records drew on it first); it needs more",
 				r.LicenceNumber, r.LineNumber, r.Remaining.Float())))

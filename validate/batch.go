@@ -1,57 +1,88 @@
 package validate
 
 import (
+	"hash/maphash"
 	"strconv"
 	"strings"
 )
 
+// DuplicateWindow is how many of a stream's most recent distinct (company, key) pairs a
+// Batch remembers to tell replays and conflicts apart. A Batch's memory stays bounded
+// however long the stream is; a duplicate further back than this is not seen in check
+// mode (recording looks every key up in the store, so nothing is ever counted twice).
+const DuplicateWindow = 100_000
+
 // Batch checks the records of one stream in order (check mode): it carries a MemoryLedger so
-// each record is judged against the quota earlier records left, and it remembers each
-// (company, key) with its fingerprint to tell a replay from a conflict. A Batch is not safe for
+// each record is judged against the quota earlier records left, and it remembers the last
+// DuplicateWindow (company, key) pairs with their fingerprints to tell a replay from a
+// conflict. Keys and fingerprints are kept as 64-bit hashes. A Batch is not safe for
 // concurrent use; use one per stream.
 type Batch struct {
 	env    *Env
 	ledger *MemoryLedger
-	seen   map[batchKey]seenRecord
-}
-
-type batchKey struct {
-	company string
-	key     string
+	seed   maphash.Seed
+	seen   map[uint64]seenRecord // hash of company and key
+	ring   []uint64              // the remembered hashes, oldest at next once full
+	next   int
+	window int
 }
 
 type seenRecord struct {
-	fingerprint string
+	fingerprint uint64 // hash of the record's fingerprint
 	line        int64
 }
 
 // NewBatch returns an empty batch over env, which must pass Validate.
-func NewBatch(env *Env) *Batch {
-	return &Batch{env: env, ledger: NewMemoryLedger(), seen: map[batchKey]seenRecord{}}
+func NewBatch(env *Env) *Batch { return newBatch(env, DuplicateWindow) }
+
+func newBatch(env *Env, window int) *Batch {
+	return &Batch{env: env, ledger: NewMemoryLedger(), seed: maphash.MakeSeed(),
+		seen: make(map[uint64]seenRecord), window: window}
 }
 
 // Ledger returns the batch's quota ledger.
 func (b *Batch) Ledger() *MemoryLedger { return b.ledger }
 
+// remember adds a key, forgetting the oldest one when the window is full.
+func (b *Batch) remember(h uint64, s seenRecord) {
+	if len(b.ring) < b.window {
+		b.ring = append(b.ring, h)
+	} else {
+		delete(b.seen, b.ring[b.next])
+		b.ring[b.next] = h
+		b.next = (b.next + 1) % b.window
+	}
+	b.seen[h] = s
+}
+
 // Check checks the next record of the stream. A record whose company and key came before
 // with the same content is a replay: it gets the DUP_REPLAY notice, Replayed is set and
 // nothing is drawn twice. The same key with other content is DUP_KEY_CONFLICT, an error.
 func (b *Batch) Check(r *Record) Verdict {
-	k := batchKey{strings.TrimSpace(r.CompanyID), strings.TrimSpace(r.Key)}
-	if k.key == "" {
+	company, key := strings.TrimSpace(r.CompanyID), strings.TrimSpace(r.Key)
+	if key == "" {
 		return Check(b.env, r, b.ledger)
 	}
+	var h maphash.Hash
+	h.SetSeed(b.seed)
+	h.WriteString(company)
+	h.WriteByte(0)
+	h.WriteString(key)
+	k := h.Sum64()
 	prev, dup := b.seen[k]
 	if !dup {
 		v := Check(b.env, r, b.ledger)
-		b.seen[k] = seenRecord{fingerprint: v.Fingerprint, line: r.Line}
+		b.remember(k, seenRecord{fingerprint: maphash.String(b.seed, v.Fingerprint), line: r.Line})
 		return v
 	}
 	v := Check(b.env, r, nil) // nothing drawn for a duplicate
-	v.Add(DuplicateFinding(prev.fingerprint, v.Fingerprint, prev.line))
-	if v.Fingerprint == prev.fingerprint {
-		v.Replayed = true
+	same := prev.fingerprint == maphash.String(b.seed, v.Fingerprint)
+	earlier := v.Fingerprint
+	if !same {
+		earlier = "" // only equality matters to DuplicateFinding
 	}
+	v.Add(DuplicateFinding(earlier, v.Fingerprint, prev.line))
+	v.Replayed = same
 	v.Draws = nil
 	return v
 }

@@ -71,16 +71,21 @@ func runCheck(ctx context.Context, args []string) error {
 	progress := fs.String("progress", "auto", "progress on stderr: auto (when stderr is a terminal), always, never")
 	maxLine := fs.Int("max-line-bytes", validate.DefaultMaxLineBytes, "longest input line accepted, in bytes")
 	output := fs.String("output", "text", "summary format: text or json")
+	perMessage := fs.Int("records-per-message", defaultPerMessage, "records sent in one stream message (1 to 4096); 1 when records trickle in through a pipe")
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	if fs.NArg() != 1 {
 		return usageErr("give exactly one FILE (see --help)")
 	}
+	if *perMessage < 1 || *perMessage > 4096 {
+		return usageErr("--records-per-message %d: use 1 to 4096", *perMessage)
+	}
 	if *output != "text" && *output != "json" {
 		return usageErr("--output %q: use text or json", *output)
 	}
-	opts := checkOptions{path: fs.Arg(0), record: *record, reportPath: *report, maxLine: *maxLine, output: *output}
+	opts := checkOptions{path: fs.Arg(0), record: *record, reportPath: *report, maxLine: *maxLine, output: *output,
+		perMessage: *perMessage}
 	var err error
 	if opts.format, err = pickFormat(*format, opts.path); err != nil {
 		return err
@@ -136,7 +141,12 @@ type checkOptions struct {
 	maxLine    int
 	progress   bool
 	output     string
+	perMessage int // records per stream message; 0 means defaultPerMessage
 }
+
+// defaultPerMessage is how many records go in one stream message: enough to spread the
+// per-message cost of gRPC, few enough to keep answers flowing.
+const defaultPerMessage = 256
 
 // countingReader counts the bytes read, for progress.
 type countingReader struct {
@@ -157,37 +167,45 @@ type seqItem struct {
 	direction validate.Direction
 }
 
-// shipmentStream is what check needs of the two streaming calls.
+// shipmentStream is what check needs of the two streaming calls: records go out
+// several per message, verdicts come back in the records' order, alone or in groups.
 type shipmentStream interface {
-	send(*halovetv1.ShipmentRecord) error
+	send([]*halovetv1.ShipmentRecord) error
 	closeSend() error
-	recv() (*halovetv1.Verdict, *halovetv1.BatchSummary, error)
+	recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error)
+}
+
+func verdictsOf(one *halovetv1.Verdict, many *halovetv1.VerdictBatch) []*halovetv1.Verdict {
+	if one != nil {
+		return []*halovetv1.Verdict{one}
+	}
+	return many.GetVerdicts()
 }
 
 type checkStream struct {
 	s halovetv1.ShipmentService_CheckShipmentsClient
 }
 
-func (c checkStream) send(r *halovetv1.ShipmentRecord) error {
-	return c.s.Send(&halovetv1.CheckShipmentsRequest{Record: r})
+func (c checkStream) send(r []*halovetv1.ShipmentRecord) error {
+	return c.s.Send(&halovetv1.CheckShipmentsRequest{Records: r})
 }
 func (c checkStream) closeSend() error { return c.s.CloseSend() }
-func (c checkStream) recv() (*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
+func (c checkStream) recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
 	m, err := c.s.Recv()
-	return m.GetVerdict(), m.GetSummary(), err
+	return verdictsOf(m.GetVerdict(), m.GetVerdicts()), m.GetSummary(), err
 }
 
 type recordStream struct {
 	s halovetv1.ShipmentService_RecordShipmentsClient
 }
 
-func (c recordStream) send(r *halovetv1.ShipmentRecord) error {
-	return c.s.Send(&halovetv1.RecordShipmentsRequest{Record: r})
+func (c recordStream) send(r []*halovetv1.ShipmentRecord) error {
+	return c.s.Send(&halovetv1.RecordShipmentsRequest{Records: r})
 }
 func (c recordStream) closeSend() error { return c.s.CloseSend() }
-func (c recordStream) recv() (*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
+func (c recordStream) recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
 	m, err := c.s.Recv()
-	return m.GetVerdict(), m.GetSummary(), err
+	return verdictsOf(m.GetVerdict(), m.GetVerdicts()), m.GetSummary(), err
 }
 
 // checkFile streams a batch file through the server and writes the summary (and the
@@ -259,28 +277,41 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	go func() {
 		defer wg.Done()
 		defer close(items)
-		sendErr = sendFile(ctx, rd, stream, items, &sent)
+		pm := o.perMessage
+		if pm <= 0 {
+			pm = defaultPerMessage
+		}
+		sendErr = sendFile(ctx, rd, stream, items, &sent, pm)
 	}()
 
 	var done atomic.Int64
 	stopProgress := startProgress(o.progress, stderr, cr, size, &sent, &done)
 	sum := validate.NewSummary()
 	var recvErr error
+	var queue []*halovetv1.Verdict // answers received and not yet matched to items
 	for it := range items {
 		v := it.local
 		if v == nil {
-			pv, _, err := stream.recv()
-			if err != nil {
-				recvErr = err
+			for len(queue) == 0 {
+				vs, sm, err := stream.recv()
+				if err == nil && len(vs) == 0 {
+					err = errors.New("the server ended the stream before answering every record")
+					if sm == nil {
+						err = errors.New("the server sent an empty answer")
+					}
+				}
+				if err != nil {
+					recvErr = err
+					break
+				}
+				queue = vs
+			}
+			if recvErr != nil {
 				cancel()
 				break
 			}
-			if pv == nil {
-				recvErr = errors.New("the server ended the stream before answering every record")
-				cancel()
-				break
-			}
-			cv := verdictFromProto(pv)
+			cv := verdictFromProto(queue[0])
+			queue = queue[1:]
 			v = &cv
 		}
 		sum.Add(v, it.direction)
@@ -297,6 +328,9 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	}
 	wg.Wait()
 	stopProgress()
+	if recvErr == nil && sendErr == nil && len(queue) > 0 {
+		recvErr = fmt.Errorf("the server answered %d records more than were sent", len(queue))
+	}
 	if recvErr == nil && sendErr == nil {
 		// The closing summary.
 		if _, ps, err := stream.recv(); err != nil {
@@ -335,13 +369,31 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	return sum, nil
 }
 
-// sendFile reads records and sends them; lines that cannot be read, or records with
-// fields that could not be read, are answered locally and never sent, so nothing from
-// a bad line is recorded.
-func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStream, items chan<- seqItem, sent *atomic.Int64) error {
+// sendFile reads records and sends them, perMessage to a stream message; lines that
+// cannot be read, or records with fields that could not be read, are answered locally
+// and never sent, so nothing from a bad line is recorded. Items go to the receiver in
+// file order as they are read; a record's answer is awaited only after its message is
+// sent, which happens before the items channel can fill.
+func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStream, items chan<- seqItem, sent *atomic.Int64, perMessage int) error {
+	buf := make([]*halovetv1.ShipmentRecord, 0, perMessage)
+	flush := func() error {
+		if len(buf) == 0 {
+			return nil
+		}
+		err := stream.send(buf)
+		sent.Add(int64(len(buf)))
+		buf = make([]*halovetv1.ShipmentRecord, 0, perMessage)
+		if errors.Is(err, io.EOF) {
+			return errServerEnded // the receiver reports why
+		}
+		return err
+	}
 	for {
 		rec, lerr, err := rd.Next()
 		if errors.Is(err, io.EOF) {
+			if err := flush(); err != nil {
+				return ignoreEnded(err)
+			}
 			return stream.closeSend()
 		}
 		if err != nil {
@@ -356,13 +408,7 @@ func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStre
 			v := unreadableVerdict(&rec)
 			it.local = &v
 		default:
-			if err := stream.send(recordToProto(&rec)); err != nil {
-				if errors.Is(err, io.EOF) {
-					return nil // the server ended the call; the receiver reports why
-				}
-				return err
-			}
-			sent.Add(1)
+			buf = append(buf, recordToProto(&rec))
 			it.direction = rec.Direction
 		}
 		select {
@@ -370,7 +416,21 @@ func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStre
 		case <-ctx.Done():
 			return nil
 		}
+		if len(buf) >= perMessage {
+			if err := flush(); err != nil {
+				return ignoreEnded(err)
+			}
+		}
 	}
+}
+
+var errServerEnded = errors.New("the server ended the call")
+
+func ignoreEnded(err error) error {
+	if errors.Is(err, errServerEnded) {
+		return nil
+	}
+	return err
 }
 
 func unreadableVerdict(r *validate.Record) validate.Verdict {

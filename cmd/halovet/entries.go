@@ -155,16 +155,16 @@ func readEntries(r io.Reader) ([]*halovetv1.NationalEntry, []int, []entryLineErr
 		if errors.Is(err, io.EOF) {
 			break
 		}
-		line, _ := cr.FieldPos(0)
 		var pe *csv.ParseError
 		if errors.As(err, &pe) {
 			fail(pe.Line, "%v", pe.Err)
 			continue
 		}
 		if err != nil {
-			fail(line, "%v", err)
+			fail(hline, "%v", err)
 			break
 		}
+		line, _ := cr.FieldPos(0) // a record was read: its first field has a position
 		if len(rec) != len(header) {
 			fail(line, "%d fields where the header has %d", len(rec), len(header))
 			continue

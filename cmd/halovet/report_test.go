@@ -607,3 +607,39 @@ func TestEntriesAndReportsEndToEnd(t *testing.T) {
 		t.Fatalf("the csv listing does not read back as an entries file: %d entries, %v", len(back), errs)
 	}
 }
+
+// FuzzReadEntries: any input either gives problems with line numbers or entries that
+// satisfy the file's rules; it never panics.
+func FuzzReadEntries(f *testing.F) {
+	f.Add("entry_key,year,entry_type,substance,metric_tonnes,note\nk1,2009,historical-import,HCFC-22,100,a\n")
+	f.Add("# c\nentry_key,year,entry_type,substance,metric_tonnes\nk,2010,qps,methyl bromide,.5\nk,2010,qps,x,1\n")
+	f.Add("metric_tonnes,substance,year,entry_type,entry_key\n1e3,HCFC-22,2009,production,k\n")
+	f.Add("entry_key,year\n\"unclosed,2009\n")
+	f.Add("")
+	f.Fuzz(func(t *testing.T, in string) {
+		es, lines, errs := readEntries(strings.NewReader(in))
+		if len(errs) > maxEntryLineErrors {
+			t.Fatalf("%d problems, more than the bound %d", len(errs), maxEntryLineErrors)
+		}
+		for _, e := range errs {
+			if e.line < 1 || e.msg == "" {
+				t.Fatalf("problem without a line or a message: %+v", e)
+			}
+		}
+		if len(lines) != len(es) {
+			t.Fatalf("%d entries with %d line numbers", len(es), len(lines))
+		}
+		keys := map[string]bool{}
+		for i, e := range es {
+			if e.GetEntryKey() == "" || keys[e.GetEntryKey()] || e.GetYear() < 1986 || e.GetYear() > 2100 ||
+				e.GetEntryType() == halovetv1.EntryType_ENTRY_TYPE_UNSPECIFIED || e.GetSubstance() == "" ||
+				e.GetMetricTonnes() < 0 || math.IsNaN(e.GetMetricTonnes()) || math.IsInf(e.GetMetricTonnes(), 0) {
+				t.Fatalf("entry %d breaks the file's rules: %v", i, e)
+			}
+			keys[e.GetEntryKey()] = true
+			if i > 0 && lines[i] <= lines[i-1] {
+				t.Fatalf("line numbers not increasing: %v", lines)
+			}
+		}
+	})
+}

@@ -921,11 +921,14 @@ func (x *CheckShipmentResponse) GetVerdict() *Verdict {
 	return nil
 }
 
-// CheckShipmentsRequest is one message of the client stream.
+// CheckShipmentsRequest is one message of the client stream: one record, or several
+// in order (fewer messages go faster; the CLI sends up to a few hundred per message).
 type CheckShipmentsRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// One record.
-	Record        *ShipmentRecord `protobuf:"bytes,1,opt,name=record,proto3" json:"record,omitempty"`
+	Record *ShipmentRecord `protobuf:"bytes,1,opt,name=record,proto3" json:"record,omitempty"`
+	// Several records, checked after record (when both are set) in this order.
+	Records       []*ShipmentRecord `protobuf:"bytes,2,rep,name=records,proto3" json:"records,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -963,6 +966,13 @@ func (*CheckShipmentsRequest) Descriptor() ([]byte, []int) {
 func (x *CheckShipmentsRequest) GetRecord() *ShipmentRecord {
 	if x != nil {
 		return x.Record
+	}
+	return nil
+}
+
+func (x *CheckShipmentsRequest) GetRecords() []*ShipmentRecord {
+	if x != nil {
+		return x.Records
 	}
 	return nil
 }
@@ -1076,15 +1086,64 @@ func (x *BatchSummary) GetWarningsByCode() map[string]int64 {
 	return nil
 }
 
-// CheckShipmentsResponse is a verdict, or the closing summary.
+// VerdictBatch carries the verdicts of consecutive records, in order.
+type VerdictBatch struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Verdicts in the order the records were sent.
+	Verdicts      []*Verdict `protobuf:"bytes,1,rep,name=verdicts,proto3" json:"verdicts,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *VerdictBatch) Reset() {
+	*x = VerdictBatch{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[8]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *VerdictBatch) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*VerdictBatch) ProtoMessage() {}
+
+func (x *VerdictBatch) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[8]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use VerdictBatch.ProtoReflect.Descriptor instead.
+func (*VerdictBatch) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{8}
+}
+
+func (x *VerdictBatch) GetVerdicts() []*Verdict {
+	if x != nil {
+		return x.Verdicts
+	}
+	return nil
+}
+
+// CheckShipmentsResponse is a verdict, several verdicts, or the closing summary. A
+// request with one record (field record only) is answered with verdict; a request
+// with several records is answered with verdicts, one per record, in order.
 type CheckShipmentsResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// One of the two.
+	// One of the three.
 	//
 	// Types that are valid to be assigned to Item:
 	//
 	//	*CheckShipmentsResponse_Verdict
 	//	*CheckShipmentsResponse_Summary
+	//	*CheckShipmentsResponse_Verdicts
 	Item          isCheckShipmentsResponse_Item `protobuf_oneof:"item"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -1092,7 +1151,7 @@ type CheckShipmentsResponse struct {
 
 func (x *CheckShipmentsResponse) Reset() {
 	*x = CheckShipmentsResponse{}
-	mi := &file_halovet_v1_shipment_proto_msgTypes[8]
+	mi := &file_halovet_v1_shipment_proto_msgTypes[9]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1104,7 +1163,7 @@ func (x *CheckShipmentsResponse) String() string {
 func (*CheckShipmentsResponse) ProtoMessage() {}
 
 func (x *CheckShipmentsResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_shipment_proto_msgTypes[8]
+	mi := &file_halovet_v1_shipment_proto_msgTypes[9]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1117,7 +1176,7 @@ func (x *CheckShipmentsResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CheckShipmentsResponse.ProtoReflect.Descriptor instead.
 func (*CheckShipmentsResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{8}
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{9}
 }
 
 func (x *CheckShipmentsResponse) GetItem() isCheckShipmentsResponse_Item {
@@ -1145,6 +1204,15 @@ func (x *CheckShipmentsResponse) GetSummary() *BatchSummary {
 	return nil
 }
 
+func (x *CheckShipmentsResponse) GetVerdicts() *VerdictBatch {
+	if x != nil {
+		if x, ok := x.Item.(*CheckShipmentsResponse_Verdicts); ok {
+			return x.Verdicts
+		}
+	}
+	return nil
+}
+
 type isCheckShipmentsResponse_Item interface {
 	isCheckShipmentsResponse_Item()
 }
@@ -1159,22 +1227,32 @@ type CheckShipmentsResponse_Summary struct {
 	Summary *BatchSummary `protobuf:"bytes,2,opt,name=summary,proto3,oneof"`
 }
 
+type CheckShipmentsResponse_Verdicts struct {
+	// The verdicts of the next records in order.
+	Verdicts *VerdictBatch `protobuf:"bytes,3,opt,name=verdicts,proto3,oneof"`
+}
+
 func (*CheckShipmentsResponse_Verdict) isCheckShipmentsResponse_Item() {}
 
 func (*CheckShipmentsResponse_Summary) isCheckShipmentsResponse_Item() {}
 
-// RecordShipmentsRequest is one message of the client stream.
+func (*CheckShipmentsResponse_Verdicts) isCheckShipmentsResponse_Item() {}
+
+// RecordShipmentsRequest is one message of the client stream: one record, or several
+// in order.
 type RecordShipmentsRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// One record.
-	Record        *ShipmentRecord `protobuf:"bytes,1,opt,name=record,proto3" json:"record,omitempty"`
+	Record *ShipmentRecord `protobuf:"bytes,1,opt,name=record,proto3" json:"record,omitempty"`
+	// Several records, taken after record (when both are set) in this order.
+	Records       []*ShipmentRecord `protobuf:"bytes,2,rep,name=records,proto3" json:"records,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *RecordShipmentsRequest) Reset() {
 	*x = RecordShipmentsRequest{}
-	mi := &file_halovet_v1_shipment_proto_msgTypes[9]
+	mi := &file_halovet_v1_shipment_proto_msgTypes[10]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1186,7 +1264,7 @@ func (x *RecordShipmentsRequest) String() string {
 func (*RecordShipmentsRequest) ProtoMessage() {}
 
 func (x *RecordShipmentsRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_shipment_proto_msgTypes[9]
+	mi := &file_halovet_v1_shipment_proto_msgTypes[10]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1199,7 +1277,7 @@ func (x *RecordShipmentsRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RecordShipmentsRequest.ProtoReflect.Descriptor instead.
 func (*RecordShipmentsRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{9}
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{10}
 }
 
 func (x *RecordShipmentsRequest) GetRecord() *ShipmentRecord {
@@ -1209,15 +1287,25 @@ func (x *RecordShipmentsRequest) GetRecord() *ShipmentRecord {
 	return nil
 }
 
-// RecordShipmentsResponse is a verdict, or the closing summary.
+func (x *RecordShipmentsRequest) GetRecords() []*ShipmentRecord {
+	if x != nil {
+		return x.Records
+	}
+	return nil
+}
+
+// RecordShipmentsResponse is a verdict, several verdicts, or the closing summary,
+// answered as for CheckShipmentsResponse. Verdicts may arrive in different groupings
+// than the records were sent; their order is always the records' order.
 type RecordShipmentsResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// One of the two.
+	// One of the three.
 	//
 	// Types that are valid to be assigned to Item:
 	//
 	//	*RecordShipmentsResponse_Verdict
 	//	*RecordShipmentsResponse_Summary
+	//	*RecordShipmentsResponse_Verdicts
 	Item          isRecordShipmentsResponse_Item `protobuf_oneof:"item"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -1225,7 +1313,7 @@ type RecordShipmentsResponse struct {
 
 func (x *RecordShipmentsResponse) Reset() {
 	*x = RecordShipmentsResponse{}
-	mi := &file_halovet_v1_shipment_proto_msgTypes[10]
+	mi := &file_halovet_v1_shipment_proto_msgTypes[11]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1237,7 +1325,7 @@ func (x *RecordShipmentsResponse) String() string {
 func (*RecordShipmentsResponse) ProtoMessage() {}
 
 func (x *RecordShipmentsResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_shipment_proto_msgTypes[10]
+	mi := &file_halovet_v1_shipment_proto_msgTypes[11]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1250,7 +1338,7 @@ func (x *RecordShipmentsResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RecordShipmentsResponse.ProtoReflect.Descriptor instead.
 func (*RecordShipmentsResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{10}
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{11}
 }
 
 func (x *RecordShipmentsResponse) GetItem() isRecordShipmentsResponse_Item {
@@ -1278,6 +1366,15 @@ func (x *RecordShipmentsResponse) GetSummary() *BatchSummary {
 	return nil
 }
 
+func (x *RecordShipmentsResponse) GetVerdicts() *VerdictBatch {
+	if x != nil {
+		if x, ok := x.Item.(*RecordShipmentsResponse_Verdicts); ok {
+			return x.Verdicts
+		}
+	}
+	return nil
+}
+
 type isRecordShipmentsResponse_Item interface {
 	isRecordShipmentsResponse_Item()
 }
@@ -1292,9 +1389,16 @@ type RecordShipmentsResponse_Summary struct {
 	Summary *BatchSummary `protobuf:"bytes,2,opt,name=summary,proto3,oneof"`
 }
 
+type RecordShipmentsResponse_Verdicts struct {
+	// The verdicts of the next records in order, with recorded set.
+	Verdicts *VerdictBatch `protobuf:"bytes,3,opt,name=verdicts,proto3,oneof"`
+}
+
 func (*RecordShipmentsResponse_Verdict) isRecordShipmentsResponse_Item() {}
 
 func (*RecordShipmentsResponse_Summary) isRecordShipmentsResponse_Item() {}
+
+func (*RecordShipmentsResponse_Verdicts) isRecordShipmentsResponse_Item() {}
 
 var File_halovet_v1_shipment_proto protoreflect.FileDescriptor
 
@@ -1356,9 +1460,10 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x14CheckShipmentRequest\x122\n" +
 	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\"F\n" +
 	"\x15CheckShipmentResponse\x12-\n" +
-	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictR\averdict\"K\n" +
+	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictR\averdict\"\x81\x01\n" +
 	"\x15CheckShipmentsRequest\x122\n" +
-	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\"\xfc\x03\n" +
+	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\x124\n" +
+	"\arecords\x18\x02 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\"\xfc\x03\n" +
 	"\fBatchSummary\x12\x18\n" +
 	"\arecords\x18\x01 \x01(\x03R\arecords\x12\x1a\n" +
 	"\baccepted\x18\x02 \x01(\x03R\baccepted\x124\n" +
@@ -1373,16 +1478,21 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x05value\x18\x02 \x01(\x03R\x05value:\x028\x01\x1aA\n" +
 	"\x13WarningsByCodeEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12\x14\n" +
-	"\x05value\x18\x02 \x01(\x03R\x05value:\x028\x01\"\x87\x01\n" +
+	"\x05value\x18\x02 \x01(\x03R\x05value:\x028\x01\"?\n" +
+	"\fVerdictBatch\x12/\n" +
+	"\bverdicts\x18\x01 \x03(\v2\x13.halovet.v1.VerdictR\bverdicts\"\xbf\x01\n" +
 	"\x16CheckShipmentsResponse\x12/\n" +
 	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictH\x00R\averdict\x124\n" +
-	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryH\x00R\asummaryB\x06\n" +
-	"\x04item\"L\n" +
+	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryH\x00R\asummary\x126\n" +
+	"\bverdicts\x18\x03 \x01(\v2\x18.halovet.v1.VerdictBatchH\x00R\bverdictsB\x06\n" +
+	"\x04item\"\x82\x01\n" +
 	"\x16RecordShipmentsRequest\x122\n" +
-	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\"\x88\x01\n" +
+	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\x124\n" +
+	"\arecords\x18\x02 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\"\xc0\x01\n" +
 	"\x17RecordShipmentsResponse\x12/\n" +
 	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictH\x00R\averdict\x124\n" +
-	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryH\x00R\asummaryB\x06\n" +
+	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryH\x00R\asummary\x126\n" +
+	"\bverdicts\x18\x03 \x01(\v2\x18.halovet.v1.VerdictBatchH\x00R\bverdictsB\x06\n" +
 	"\x04item*\x82\x01\n" +
 	"\tDirection\x12\x19\n" +
 	"\x15DIRECTION_UNSPECIFIED\x10\x00\x12\x14\n" +
@@ -1437,7 +1547,7 @@ func file_halovet_v1_shipment_proto_rawDescGZIP() []byte {
 }
 
 var file_halovet_v1_shipment_proto_enumTypes = make([]protoimpl.EnumInfo, 5)
-var file_halovet_v1_shipment_proto_msgTypes = make([]protoimpl.MessageInfo, 13)
+var file_halovet_v1_shipment_proto_msgTypes = make([]protoimpl.MessageInfo, 14)
 var file_halovet_v1_shipment_proto_goTypes = []any{
 	(Direction)(0),                  // 0: halovet.v1.Direction
 	(Purpose)(0),                    // 1: halovet.v1.Purpose
@@ -1452,47 +1562,53 @@ var file_halovet_v1_shipment_proto_goTypes = []any{
 	(*CheckShipmentResponse)(nil),   // 10: halovet.v1.CheckShipmentResponse
 	(*CheckShipmentsRequest)(nil),   // 11: halovet.v1.CheckShipmentsRequest
 	(*BatchSummary)(nil),            // 12: halovet.v1.BatchSummary
-	(*CheckShipmentsResponse)(nil),  // 13: halovet.v1.CheckShipmentsResponse
-	(*RecordShipmentsRequest)(nil),  // 14: halovet.v1.RecordShipmentsRequest
-	(*RecordShipmentsResponse)(nil), // 15: halovet.v1.RecordShipmentsResponse
-	nil,                             // 16: halovet.v1.BatchSummary.ErrorsByCodeEntry
-	nil,                             // 17: halovet.v1.BatchSummary.WarningsByCodeEntry
-	(*MixtureShare)(nil),            // 18: halovet.v1.MixtureShare
-	(EntryKind)(0),                  // 19: halovet.v1.EntryKind
-	(*ComponentFigures)(nil),        // 20: halovet.v1.ComponentFigures
+	(*VerdictBatch)(nil),            // 13: halovet.v1.VerdictBatch
+	(*CheckShipmentsResponse)(nil),  // 14: halovet.v1.CheckShipmentsResponse
+	(*RecordShipmentsRequest)(nil),  // 15: halovet.v1.RecordShipmentsRequest
+	(*RecordShipmentsResponse)(nil), // 16: halovet.v1.RecordShipmentsResponse
+	nil,                             // 17: halovet.v1.BatchSummary.ErrorsByCodeEntry
+	nil,                             // 18: halovet.v1.BatchSummary.WarningsByCodeEntry
+	(*MixtureShare)(nil),            // 19: halovet.v1.MixtureShare
+	(EntryKind)(0),                  // 20: halovet.v1.EntryKind
+	(*ComponentFigures)(nil),        // 21: halovet.v1.ComponentFigures
 }
 var file_halovet_v1_shipment_proto_depIdxs = []int32{
 	0,  // 0: halovet.v1.ShipmentRecord.direction:type_name -> halovet.v1.Direction
 	1,  // 1: halovet.v1.ShipmentRecord.purpose:type_name -> halovet.v1.Purpose
 	2,  // 2: halovet.v1.ShipmentRecord.condition:type_name -> halovet.v1.Condition
-	18, // 3: halovet.v1.ShipmentRecord.declared_composition:type_name -> halovet.v1.MixtureShare
+	19, // 3: halovet.v1.ShipmentRecord.declared_composition:type_name -> halovet.v1.MixtureShare
 	3,  // 4: halovet.v1.Finding.severity:type_name -> halovet.v1.Severity
-	19, // 5: halovet.v1.ShipmentFigures.kind:type_name -> halovet.v1.EntryKind
-	20, // 6: halovet.v1.ShipmentFigures.components:type_name -> halovet.v1.ComponentFigures
+	20, // 5: halovet.v1.ShipmentFigures.kind:type_name -> halovet.v1.EntryKind
+	21, // 6: halovet.v1.ShipmentFigures.components:type_name -> halovet.v1.ComponentFigures
 	4,  // 7: halovet.v1.Verdict.outcome:type_name -> halovet.v1.Outcome
 	6,  // 8: halovet.v1.Verdict.findings:type_name -> halovet.v1.Finding
 	7,  // 9: halovet.v1.Verdict.figures:type_name -> halovet.v1.ShipmentFigures
 	5,  // 10: halovet.v1.CheckShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
 	8,  // 11: halovet.v1.CheckShipmentResponse.verdict:type_name -> halovet.v1.Verdict
 	5,  // 12: halovet.v1.CheckShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
-	16, // 13: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
-	17, // 14: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
-	8,  // 15: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
-	12, // 16: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
-	5,  // 17: halovet.v1.RecordShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
-	8,  // 18: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
-	12, // 19: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
-	9,  // 20: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
-	11, // 21: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
-	14, // 22: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
-	10, // 23: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
-	13, // 24: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
-	15, // 25: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
-	23, // [23:26] is the sub-list for method output_type
-	20, // [20:23] is the sub-list for method input_type
-	20, // [20:20] is the sub-list for extension type_name
-	20, // [20:20] is the sub-list for extension extendee
-	0,  // [0:20] is the sub-list for field type_name
+	5,  // 13: halovet.v1.CheckShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
+	17, // 14: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
+	18, // 15: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
+	8,  // 16: halovet.v1.VerdictBatch.verdicts:type_name -> halovet.v1.Verdict
+	8,  // 17: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
+	12, // 18: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
+	13, // 19: halovet.v1.CheckShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
+	5,  // 20: halovet.v1.RecordShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
+	5,  // 21: halovet.v1.RecordShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
+	8,  // 22: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
+	12, // 23: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
+	13, // 24: halovet.v1.RecordShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
+	9,  // 25: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
+	11, // 26: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
+	15, // 27: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
+	10, // 28: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
+	14, // 29: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
+	16, // 30: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
+	28, // [28:31] is the sub-list for method output_type
+	25, // [25:28] is the sub-list for method input_type
+	25, // [25:25] is the sub-list for extension type_name
+	25, // [25:25] is the sub-list for extension extendee
+	0,  // [0:25] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_shipment_proto_init() }
@@ -1501,13 +1617,15 @@ func file_halovet_v1_shipment_proto_init() {
 		return
 	}
 	file_halovet_v1_catalogue_proto_init()
-	file_halovet_v1_shipment_proto_msgTypes[8].OneofWrappers = []any{
+	file_halovet_v1_shipment_proto_msgTypes[9].OneofWrappers = []any{
 		(*CheckShipmentsResponse_Verdict)(nil),
 		(*CheckShipmentsResponse_Summary)(nil),
+		(*CheckShipmentsResponse_Verdicts)(nil),
 	}
-	file_halovet_v1_shipment_proto_msgTypes[10].OneofWrappers = []any{
+	file_halovet_v1_shipment_proto_msgTypes[11].OneofWrappers = []any{
 		(*RecordShipmentsResponse_Verdict)(nil),
 		(*RecordShipmentsResponse_Summary)(nil),
+		(*RecordShipmentsResponse_Verdicts)(nil),
 	}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
@@ -1515,7 +1633,7 @@ func file_halovet_v1_shipment_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_shipment_proto_rawDesc), len(file_halovet_v1_shipment_proto_rawDesc)),
 			NumEnums:      5,
-			NumMessages:   13,
+			NumMessages:   14,
 			NumExtensions: 0,
 			NumServices:   1,
 		},
