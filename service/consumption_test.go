@@ -3,6 +3,7 @@ package service_test
 import (
 	"context"
 	"math"
+	"net"
 	"slices"
 	"strings"
 	"testing"
@@ -10,9 +11,13 @@ import (
 
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
 )
@@ -606,4 +611,50 @@ func TestConsumptionNeedsReportingParty(t *testing.T) {
 	consCode(t, err, codes.InvalidArgument, "no baseline")
 	_, err = c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025}})
 	consCode(t, err, codes.FailedPrecondition, "baseline")
+}
+
+// TestConsumptionWritesNeedTheAdminToken: with an admin token configured, storing national
+// entries and issuing draft licences need it; reading does not.
+func TestConsumptionWritesNeedTheAdminToken(t *testing.T) {
+	url := pgtest.NewDatabase(t, "halovet_service", migrateServiceDB)
+	ctx := context.Background()
+	st, err := store.Open(ctx, url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(st.Close)
+	holder, err := service.LoadCatalogue(ctx, st, quietLogger())
+	if err != nil {
+		t.Fatal(err)
+	}
+	srv := service.New(st, holder, service.Options{Logger: quietLogger(), AdminToken: "invented-test-token", GracePeriod: time.Second})
+	lis, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sctx, cancel := context.WithCancel(ctx)
+	done := make(chan error, 1)
+	go func() { done <- srv.Serve(sctx, lis) }()
+	t.Cleanup(func() { cancel(); <-done })
+	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { conn.Close() })
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	req := &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{consEntry(2025, prod, "HCFC-22", 1)}}
+	_, err = c.RecordNationalEntries(ctx, req)
+	consCode(t, err, codes.Unauthenticated, "admin token")
+	bad := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer wrong")
+	_, err = c.RecordNationalEntries(bad, req)
+	consCode(t, err, codes.PermissionDenied, "not valid")
+	_, err = c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025}, IssueDrafts: true})
+	consCode(t, err, codes.Unauthenticated, "admin token")
+	good := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer invented-test-token")
+	if _, err := c.RecordNationalEntries(good, req); err != nil {
+		t.Fatalf("with the token: %v", err)
+	}
+	if list, err := c.ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{}); err != nil || len(list.GetEntries()) != 1 {
+		t.Fatalf("reading without a token: %v %v; want the one entry", list, err)
+	}
 }
