@@ -17,7 +17,7 @@ import (
 // step line) per year, as a self-contained SVG written by hand (no dependency, no script,
 // no external reference). Every year gets one point: a filled circle at its consumption,
 // or a hollow one on the zero line marked "no data". The allowed level is drawn for the
-// years that have one and broken where a year has none (not assessed).
+// years that have one and broken where a year has none (no baseline, no rule).
 
 // Chart geometry in SVG user units.
 const (
@@ -43,11 +43,12 @@ func chartYears(resp *halovetv1.AssessComplianceResponse) []chartYear {
 	for _, y := range resp.GetYears() {
 		cy := chartYear{year: int(y.GetYear()), consumption: y.GetConsumption(), hasData: y.GetHasData(), allowed: y.GetAllowed()}
 		// The allowed level is known when the year was assessed (a period-average year shows
-		// the period's mean level), or when a 0 % step is in force, which needs no baseline.
+		// the period's mean level), and in a year without data when a step is in force and
+		// either the baseline is complete or the step is 0 % (which needs no baseline).
 		o := y.GetOutcome()
 		cy.hasAllowed = o == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN ||
 			o == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED ||
-			(y.GetAllowedPercent() == 0 && y.GetPeriod() == nil && hasStepNote(y))
+			(hasStepNote(y) && (y.GetAllowedPercent() == 0 || resp.GetBaselineComplete()))
 		out = append(out, cy)
 	}
 	return out
@@ -184,16 +185,23 @@ func writeChart(w io.Writer, resp *halovetv1.AssessComplianceResponse) error {
 		fmt.Fprintf(&b, "  <path class=\"allowed\" d=\"%s\" fill=\"none\" stroke=\"#c0392b\" stroke-width=\"2.5\"/>\n", strings.TrimSpace(path.String()))
 	}
 
-	// Consumption: a line through the years with data, and one point per year.
+	// Consumption: lines through runs of consecutive years with data (a year without data
+	// breaks the line rather than being bridged), and one point per year.
 	var pts []string
-	for i, y := range ys {
-		if y.hasData {
-			pts = append(pts, svgNum(xOf(i))+","+svgNum(yOf(y.consumption)))
+	flush := func() {
+		if len(pts) > 1 {
+			fmt.Fprintf(&b, "  <polyline class=\"consumption\" points=\"%s\" fill=\"none\" stroke=\"#1f5fa8\" stroke-width=\"2\"/>\n", strings.Join(pts, " "))
 		}
+		pts = pts[:0]
 	}
-	if len(pts) > 1 {
-		fmt.Fprintf(&b, "  <polyline class=\"consumption\" points=\"%s\" fill=\"none\" stroke=\"#1f5fa8\" stroke-width=\"2\"/>\n", strings.Join(pts, " "))
+	for i, y := range ys {
+		if !y.hasData {
+			flush()
+			continue
+		}
+		pts = append(pts, svgNum(xOf(i))+","+svgNum(yOf(y.consumption)))
 	}
+	flush()
 	b.WriteString("  <g class=\"points\">\n")
 	for i, y := range ys {
 		if y.hasData {

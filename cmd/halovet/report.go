@@ -438,8 +438,11 @@ func complianceRow(y *halovetv1.ComplianceYear, f func(float64) string) []string
 	if assessed || y.GetAllowed() != 0 || y.GetAllowedPercent() != 0 {
 		pct = fmtFull(y.GetAllowedPercent())
 	}
+	if assessed || y.GetAllowed() != 0 {
+		allowed = f(y.GetAllowed()) // known without data when the baseline is complete
+	}
 	if assessed {
-		allowed, head = f(y.GetAllowed()), f(y.GetHeadroom())
+		head = f(y.GetHeadroom())
 	}
 	avg, room := "", ""
 	if p := y.GetPeriod(); p != nil {
@@ -596,6 +599,10 @@ func writeQuotas(w io.Writer, resp *halovetv1.PlanQuotasResponse, output string)
 		return cw.Error()
 	}
 	f := func(v float64) string { return fmtUnit(v, u) }
+	exact := 6 // three decimals finer than the unit's display
+	if u == "CO2-eq t" {
+		exact = 3
+	}
 	fmt.Fprintf(w, "Quota plan for %s in %d\n", resp.GetAnnexGroup(), resp.GetYear())
 	fmt.Fprintf(w, "Allowed level: %s %s (%s %% of baseline)\n", f(resp.GetAllowed()), u, fmtFull(resp.GetAllowedPercent()))
 	fmt.Fprintf(w, "To distribute: %s %s; distributed: %s %s\n\n", f(resp.GetDistributable()), u, f(resp.GetDistributed()), u)
@@ -607,7 +614,7 @@ func writeQuotas(w io.Writer, resp *halovetv1.PlanQuotasResponse, output string)
 			d = "-"
 		}
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t\n", p.GetCompanyId(), f(p.GetReferenceAmount()),
-			fmtFixed(p.GetReferenceShare()*100, 2), fmtFixed(p.GetExactShare(), 6), fmtFixed(p.GetQuota(), 6), d)
+			fmtFixed(p.GetReferenceShare()*100, 2), fmtFixed(p.GetExactShare(), exact), f(p.GetQuota()), d)
 	}
 	if err := tw.Flush(); err != nil {
 		return err

@@ -42,7 +42,7 @@ func reportSample() *halovetv1.AssessComplianceResponse {
 		Years: []*halovetv1.ComplianceYear{
 			{Year: 2028, Consumption: 3, Allowed: 3.25, AllowedPercent: 32.5, Headroom: 0.25, Within: true, HasData: true,
 				Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN, Notes: []string{"step in force: 32.5 %"}},
-			{Year: 2029, AllowedPercent: 32.5, Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED,
+			{Year: 2029, Allowed: 3.25, AllowedPercent: 32.5, Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED,
 				Notes: []string{"step in force: 32.5 %", "no data: no record for C/I (HCFCs) in 2029"}},
 			{Year: 2030, Consumption: 4, Allowed: 0.25, AllowedPercent: 2.5, Headroom: -0.75, HasData: true,
 				Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED, Notes: []string{"step in force: 0 %"},
@@ -208,11 +208,24 @@ func TestChartIsSVGWithOnePointPerYear(t *testing.T) {
 	if strings.Join(years, " ") != "2028 2029 2030 2031" {
 		t.Fatalf("points for years %v; want one per year 2028-2031 in order", years)
 	}
-	if len(allowed) != 1 || strings.Count(allowed[0], "M") != 2 {
-		t.Errorf("allowed step line %q: want one path broken once (2029 was not assessed)", allowed)
+	// 2029 has no data but a known allowed level: the step line runs on; the consumption
+	// line breaks there, so only 2030-2031 are joined.
+	if len(allowed) != 1 || strings.Count(allowed[0], "M") != 1 || strings.Count(allowed[0], "H") != 4 {
+		t.Errorf("allowed step line %q: want one unbroken path over 4 years", allowed)
 	}
-	if len(line) != 1 || len(strings.Fields(line[0])) != 3 {
-		t.Errorf("consumption line %q: want 3 vertices (the years with data)", line)
+	if len(line) != 1 || len(strings.Fields(line[0])) != 2 {
+		t.Errorf("consumption lines %q: want one, joining 2030 and 2031", line)
+	}
+	// Without a complete baseline the allowed level of a year without data is unknown,
+	// and the step line breaks there.
+	nb := reportSample()
+	nb.BaselineComplete = false
+	var raw2 bytes.Buffer
+	if err := writeChart(&raw2, nb); err != nil {
+		t.Fatal(err)
+	}
+	if got := strings.Count(raw2.String(), "M "); got != 2 {
+		t.Errorf("allowed path with an unknown 2029 has %d pieces, want 2", got)
 	}
 	all := strings.Join(texts, "|")
 	for _, want := range []string{"ODP t", "year", "2028", "2031", "decision support"} {
