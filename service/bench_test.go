@@ -279,8 +279,8 @@ func toProto(r *validate.Record) *halovetv1.ShipmentRecord {
 
 // streamBatch parses data and streams it as the CLI does: a sender goroutine reads and
 // sends, the caller receives the verdicts in order and the closing summary.
-func streamBatch(b *testing.B, data []byte, send func(*halovetv1.ShipmentRecord) error, closeSend func() error,
-	recv func() (*halovetv1.Verdict, *halovetv1.BatchSummary, error)) *halovetv1.BatchSummary {
+func streamBatch(b *testing.B, data []byte, send func([]*halovetv1.ShipmentRecord) error, closeSend func() error,
+	recv func() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error)) *halovetv1.BatchSummary {
 	sendErr := make(chan error, 1)
 	go func() {
 		rd, err := validate.NewCSVReader(bytes.NewReader(data))
@@ -288,9 +288,18 @@ func streamBatch(b *testing.B, data []byte, send func(*halovetv1.ShipmentRecord)
 			sendErr <- err
 			return
 		}
+		// As the CLI does: several records per stream message.
+		const perMessage = 256
+		buf := make([]*halovetv1.ShipmentRecord, 0, perMessage)
 		for {
 			r, le, err := rd.Next()
 			if errors.Is(err, io.EOF) {
+				if len(buf) > 0 {
+					if err := send(buf); err != nil {
+						sendErr <- err
+						return
+					}
+				}
 				sendErr <- closeSend()
 				return
 			}
@@ -298,14 +307,18 @@ func streamBatch(b *testing.B, data []byte, send func(*halovetv1.ShipmentRecord)
 				sendErr <- fmt.Errorf("%v %v", err, le)
 				return
 			}
-			if err := send(toProto(&r)); err != nil {
-				sendErr <- err
-				return
+			buf = append(buf, toProto(&r))
+			if len(buf) == perMessage {
+				if err := send(buf); err != nil {
+					sendErr <- err
+					return
+				}
+				buf = make([]*halovetv1.ShipmentRecord, 0, perMessage)
 			}
 		}
 	}()
-	for n := 0; ; n++ {
-		v, sum, err := recv()
+	for n := 0; ; {
+		vs, sum, err := recv()
 		if err != nil {
 			b.Fatalf("after %d verdicts: %v", n, err)
 		}
@@ -315,8 +328,11 @@ func streamBatch(b *testing.B, data []byte, send func(*halovetv1.ShipmentRecord)
 			}
 			return sum
 		}
-		if v.GetOutcome() == halovetv1.Outcome_OUTCOME_REJECTED {
-			b.Fatalf("record %s rejected: %v", v.GetRecordKey(), v.GetFindings())
+		for _, v := range vs {
+			n++
+			if v.GetOutcome() == halovetv1.Outcome_OUTCOME_REJECTED {
+				b.Fatalf("record %s rejected: %v", v.GetRecordKey(), v.GetFindings())
+			}
 		}
 	}
 }
@@ -333,13 +349,16 @@ func BenchmarkCheckStreamed(b *testing.B) {
 			b.Fatal(err)
 		}
 		sum := streamBatch(b, data,
-			func(r *halovetv1.ShipmentRecord) error {
-				return stream.Send(&halovetv1.CheckShipmentsRequest{Record: r})
+			func(r []*halovetv1.ShipmentRecord) error {
+				return stream.Send(&halovetv1.CheckShipmentsRequest{Records: r})
 			},
 			stream.CloseSend,
-			func() (*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
+			func() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
 				m, err := stream.Recv()
-				return m.GetVerdict(), m.GetSummary(), err
+				if v := m.GetVerdict(); v != nil {
+					return []*halovetv1.Verdict{v}, nil, err
+				}
+				return m.GetVerdicts().GetVerdicts(), m.GetSummary(), err
 			})
 		if sum.GetRecords() != benchRecords {
 			b.Fatalf("summary of %d records; want %d", sum.GetRecords(), benchRecords)
@@ -363,13 +382,16 @@ func BenchmarkRecordStreamed(b *testing.B) {
 			b.Fatal(err)
 		}
 		sum := streamBatch(b, data,
-			func(r *halovetv1.ShipmentRecord) error {
-				return stream.Send(&halovetv1.RecordShipmentsRequest{Record: r})
+			func(r []*halovetv1.ShipmentRecord) error {
+				return stream.Send(&halovetv1.RecordShipmentsRequest{Records: r})
 			},
 			stream.CloseSend,
-			func() (*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
+			func() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
 				m, err := stream.Recv()
-				return m.GetVerdict(), m.GetSummary(), err
+				if v := m.GetVerdict(); v != nil {
+					return []*halovetv1.Verdict{v}, nil, err
+				}
+				return m.GetVerdicts().GetVerdicts(), m.GetSummary(), err
 			})
 		if sum.GetRecorded() != benchRecords {
 			b.Fatalf("%d records recorded; want %d", sum.GetRecorded(), benchRecords)

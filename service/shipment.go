@@ -18,7 +18,7 @@ import (
 
 // recordFlushSize is how many records a recording stream gathers before it writes them
 // in one transaction (it also writes whenever the client pauses).
-const recordFlushSize = 500
+const recordFlushSize = 1000
 
 func (x *shipmentServer) CheckShipment(ctx context.Context, req *halovetv1.CheckShipmentRequest) (*halovetv1.CheckShipmentResponse, error) {
 	if req.GetRecord() == nil {
@@ -83,42 +83,116 @@ func requestRecords(one *halovetv1.ShipmentRecord, more []*halovetv1.ShipmentRec
 // CheckShipments checks a stream in order; earlier accepted records of the stream draw
 // on the quota the later ones are checked against. Nothing is stored. A message with one
 // record is answered with one verdict, a message with several with a VerdictBatch.
+//
+// Three stages overlap: receiving (and decoding) the next message, checking the current
+// one (in order: the quota ledger and the duplicate keys depend on it), and encoding and
+// sending the previous answers. Each hand-over holds at most a few messages, so memory
+// stays bounded however long the stream is.
 func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckShipmentsServer) error {
-	ctx := stream.Context()
+	ctx, cancel := context.WithCancel(stream.Context())
+	defer cancel()
 	env, err := x.srv.checkEnv(ctx)
 	if err != nil {
 		return err
 	}
+	type checked struct {
+		verdicts []validate.Verdict
+		single   bool
+	}
+	reqs := make(chan *halovetv1.CheckShipmentsRequest, 4)
+	answers := make(chan checked, 4)
+	var recvErr, sendErr error
+	recvDone, sendDone := make(chan struct{}), make(chan struct{})
+	go func() { // receive
+		defer close(recvDone)
+		defer close(reqs)
+		for {
+			req, err := stream.Recv()
+			if err != nil {
+				if !errors.Is(err, io.EOF) {
+					recvErr = err
+					cancel()
+				}
+				return
+			}
+			select {
+			case reqs <- req:
+			case <-ctx.Done():
+				return
+			}
+		}
+	}()
+	go func() { // encode and send
+		defer close(sendDone)
+		for a := range answers {
+			out := make([]*halovetv1.Verdict, len(a.verdicts))
+			for i := range a.verdicts {
+				out[i] = verdictToProto(&a.verdicts[i])
+			}
+			resp := &halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Verdicts{Verdicts: &halovetv1.VerdictBatch{Verdicts: out}}}
+			if a.single {
+				resp.Item = &halovetv1.CheckShipmentsResponse_Verdict{Verdict: out[0]}
+			}
+			if err := stream.Send(resp); err != nil {
+				sendErr = err
+				cancel()
+				for range answers { // let the checker finish
+				}
+				return
+			}
+		}
+	}()
+
 	batch := validate.NewBatch(env)
 	var sum summary
 	var r validate.Record
+	var checkErr error
+	drained := false // the receiver has finished: the client closed its side, or Recv failed
+check:
 	for {
-		req, err := stream.Recv()
-		if errors.Is(err, io.EOF) {
-			return stream.Send(&halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Summary{Summary: &sum.pb}})
+		var req *halovetv1.CheckShipmentsRequest
+		var ok bool
+		select {
+		case req, ok = <-reqs:
+		case <-ctx.Done():
+			break check
 		}
-		if err != nil {
-			return err
+		if !ok {
+			drained = true
+			break
 		}
 		recs := requestRecords(req.GetRecord(), req.GetRecords())
 		if len(recs) == 0 {
-			return invalid(fieldViolation{"record", fmt.Sprintf("the message after record %d of the stream carries no record", sum.pb.Records)})
+			checkErr = invalid(fieldViolation{"record", fmt.Sprintf("the message after record %d of the stream carries no record", sum.pb.Records)})
+			break
 		}
-		out := make([]*halovetv1.Verdict, len(recs))
+		vs := make([]validate.Verdict, len(recs))
 		for i, pb := range recs {
 			r = recordFromProto(pb)
-			v := batch.Check(&r)
-			sum.add(&v, false, v.Replayed)
-			out[i] = verdictToProto(&v)
+			vs[i] = batch.Check(&r)
+			sum.add(&vs[i], false, vs[i].Replayed)
 		}
-		resp := &halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Verdicts{Verdicts: &halovetv1.VerdictBatch{Verdicts: out}}}
-		if req.GetRecord() != nil && len(req.GetRecords()) == 0 {
-			resp.Item = &halovetv1.CheckShipmentsResponse_Verdict{Verdict: out[0]}
-		}
-		if err := stream.Send(resp); err != nil {
-			return err
+		select {
+		case answers <- checked{verdicts: vs, single: req.GetRecord() != nil && len(req.GetRecords()) == 0}:
+		case <-ctx.Done():
+			break check
 		}
 	}
+	close(answers)
+	<-sendDone
+	switch {
+	case checkErr != nil:
+		return checkErr // returning ends the call, which ends the receiver's Recv
+	case sendErr != nil:
+		return sendErr
+	case !drained:
+		return status.FromContextError(ctx.Err()).Err()
+	}
+	<-recvDone
+	if recvErr != nil {
+		return recvErr
+	}
+	return stream.Send(&halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Summary{Summary: &sum.pb}})
 }
 
 // pendingRecord is a checked record waiting to be written.
