@@ -41,6 +41,7 @@ func runDemo(ctx context.Context, args []string) error {
 	fs.StringVar(&d.url, "database-url", envOr("HALOVET_DATABASE_URL", ""), "use this database instead of a private cluster (it must be empty or hold only earlier demo data)")
 	dir := fs.String("scenario-dir", "testdata/demo", "directory holding scenario.json and shipments.csv")
 	verbose := fs.Bool("verbose", false, "show the server's log lines")
+	today := fs.String("today", "2026-12-01", "the date the server takes as today, so that the scenario's date rules give the same findings whenever the demo runs; empty: the real date")
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
@@ -48,6 +49,14 @@ func runDemo(ctx context.Context, args []string) error {
 		if _, err := os.Stat(filepath.Join(*dir, f)); err != nil {
 			return usageErr("--scenario-dir %s: %v (run the demo from the repository root, or point --scenario-dir at testdata/demo)", *dir, err)
 		}
+	}
+	now := time.Now
+	if *today != "" {
+		t, err := time.Parse("2006-01-02", *today)
+		if err != nil {
+			return usageErr("--today %q: give a date YYYY-MM-DD", *today)
+		}
+		now = func() time.Time { return t.Add(12 * time.Hour) }
 	}
 	level := slog.LevelWarn
 	if *verbose {
@@ -63,6 +72,11 @@ func runDemo(ctx context.Context, args []string) error {
 			return err
 		}
 		defer os.RemoveAll(tmp)
+		// The cluster runs as an unprivileged account when we are root; it must be able
+		// to reach its directory, or it would be placed (and left) elsewhere.
+		if err := os.Chmod(tmp, 0o755); err != nil {
+			return err
+		}
 		d.dataDir, d.ephemeral = filepath.Join(tmp, "postgres"), true
 		step("Starting a private PostgreSQL cluster in %s", d.dataDir)
 	} else {
@@ -84,7 +98,7 @@ func runDemo(ctx context.Context, args []string) error {
 		return err
 	}
 	srvCtx, stopServer := context.WithCancel(context.Background())
-	srv := service.New(db.Store, cat, service.Options{Logger: log, HealthInterval: 200 * time.Millisecond})
+	srv := service.New(db.Store, cat, service.Options{Logger: log, HealthInterval: 200 * time.Millisecond, Now: now})
 	served := make(chan error, 1)
 	go func() { served <- srv.Serve(srvCtx, lis) }()
 	defer func() {
