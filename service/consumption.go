@@ -2,7 +2,6 @@ package service
 
 import (
 	"context"
-	"crypto/subtle"
 	"errors"
 	"fmt"
 	"math"
@@ -12,7 +11,6 @@ import (
 	"unicode/utf8"
 
 	"google.golang.org/grpc/codes"
-	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
 	"github.com/halovet/halovet/controls"
@@ -46,25 +44,6 @@ const (
 	maxEntryTonnes    = 1e9  // a billion tonnes: far above any national figure
 	firstEntryYear    = 1986 // the earliest base year (Annex A, non-Article 5)
 )
-
-// requireAdmin checks the admin token for the consumption calls that change data
-// (RecordNationalEntries, PlanQuotas with issue_drafts), the same way the interceptor does
-// for licensing calls.
-func (s *Server) requireAdmin(ctx context.Context) error {
-	if s.opts.AdminToken == "" {
-		return nil
-	}
-	md, _ := metadata.FromIncomingContext(ctx)
-	vals := md.Get("authorization")
-	if len(vals) == 0 {
-		return status.Error(codes.Unauthenticated, "this call changes data and needs 'authorization: Bearer <admin token>'")
-	}
-	tok, ok := strings.CutPrefix(vals[0], "Bearer ")
-	if !ok || subtle.ConstantTimeCompare([]byte(tok), []byte(s.opts.AdminToken)) != 1 {
-		return status.Error(codes.PermissionDenied, "the admin token is not valid")
-	}
-	return nil
-}
 
 func printableText(s string) bool {
 	if !utf8.ValidString(s) {
