@@ -145,7 +145,7 @@ var codeTable = []CodeInfo{
 	{CodeQtyMissing, SeverityError, "quantity", "quantity", "No quantity is declared.", "A decimal number with a dot, e.g. 1250.5."},
 	{CodeQtyFormat, SeverityError, "quantity", "quantity", "The quantity is not a plain decimal number (a comma, a space or thousands separator, an exponent, a unit inside the number, more than 18 digits).", "Digits with at most one dot as the decimal separator, e.g. 1250.5."},
 	{CodeQtyNotPositive, SeverityError, "quantity", "quantity", "The quantity is zero or negative.", "A quantity above zero."},
-	{CodeQtyTooLarge, SeverityError, "quantity", "quantity", "The net mass exceeds 1,000,000 t in one record.", "A net mass of at most 1,000,000 t (10^9 kg)."},
+	{CodeQtyTooLarge, SeverityError, "quantity", "quantity", "The net mass exceeds 100,000 t in one record.", "A net mass of at most 100,000 t (10^8 kg)."},
 	{CodeQtyUnitUnknown, SeverityError, "quantity", "quantity_unit", "The unit is missing, unknown or ambiguous (\"ton\").", "kg, t (metric tonne), g or lb (0.45359237 kg)."},
 	{CodeQtyContainersInvalid, SeverityError, "quantity", "container_count", "The container count is negative or above 10^9.", "0 (the quantity is the total) or the number of containers (the quantity is the net fill of each)."},
 	{CodeQtyFillLarge, SeverityWarning, "quantity", "quantity", "Each container would hold more than 1000 kg net, more than a ton container's usual fill (common practice); the total may have been given as the fill.", "Accepted for review; give the fill per container, or the total with container count 0."},

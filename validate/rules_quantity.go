@@ -13,8 +13,11 @@ import (
 const (
 	maxFillKg = 1000.0
 	minFillKg = 0.1
-	// maxNetKg bounds one record: 1,000,000 t (a sanity limit, far above any single consignment).
-	maxNetKg = 1e9
+	// maxNetKg bounds one record: 100,000 t, a sanity limit above any single consignment
+	// (the largest chemical tankers carry a few tens of thousands of tonnes; common practice).
+	// It also keeps every figure of an accepted record (up to 1.48e9 t CO2-eq for HFC-23)
+	// within the store's exact 64-bit count of billionths.
+	maxNetKg = 1e8
 )
 
 func (c *checker) quantityRules() {
@@ -52,7 +55,7 @@ func (c *checker) quantityRules() {
 		return
 	}
 	if kg > maxNetKg {
-		c.add(CodeQtyTooLarge, "", "the net mass is %s t, above the limit of 1000000 t for one record", trimFloat(kg/1000))
+		c.add(CodeQtyTooLarge, "", "the net mass is %s t, above the limit of 100000 t for one record", trimFloat(kg/1000))
 		return
 	}
 	c.netKg, c.qtyOK = kg, true

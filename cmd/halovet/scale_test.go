@@ -42,7 +42,7 @@ const scaleRegistry = `{
     {"licenceNumber": "XA-IMP-2026-991", "companyId": "XA-9001", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31",
      "status": "LICENCE_STATUS_ACTIVE",
      "quotaLines": [{"lineNumber": 1, "annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocated": 1000000000},
-                    {"lineNumber": 2, "annexGroup": "F/I", "unit": "QUOTA_UNIT_CO2E_TONNES", "allocated": 5000000000}]}
+                    {"lineNumber": 2, "annexGroup": "F/I", "unit": "QUOTA_UNIT_CO2E_TONNES", "allocated": 1000000000}]}
   ]
 }`
 
@@ -51,7 +51,7 @@ var scaleTemplates = []string{
 	"%s,import,XA-9001,XA-IMP-2026-991,XB,2026-06-15,HCFC-22,2903.71,75-45-6,,13.6,kg,10,servicing,,",
 	"%s,import,XA-9001,XA-IMP-2026-991,XB,2026-06-16,R-404A,3827.61,,,10.9,kg,20,servicing,,",
 	"%s,import,XA-9001,XA-IMP-2026-991,XC,2026-06-17,R-410A,,,,11.3,kg,40,servicing,,",
-	"%s,import,XA-9001,XA-IMP-2026-991,XB,2026-06-18,R-404A,,,,2.5,t,0,servicing,,\"HFC-125=44;HFC-143a=52;HFC-134a=4\"",
+	"%s,import,XA-9001,XA-IMP-2026-991,XB,2026-06-18,R-404A,,,,0.5,t,0,servicing,,\"HFC-125=44;HFC-143a=52;HFC-134a=4\"",
 	"%s,import,XA-9001,XA-IMP-2026-991,XC,2026-06-19,R-32,2903.42,75-10-5,,9,kg,30,servicing,,",
 	"%s,import,XA-9001,XA-IMP-2026-991,XB,2026-06-20,R-134a,,,,30,lb,24,servicing,recycled,",
 }
