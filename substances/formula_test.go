@@ -166,12 +166,12 @@ func TestMolarMass(t *testing.T) {
 		{"HCFC-22 reference", "CHClF2", 86.466, 0.0015},
 		{"HFC-134a reference", "C2H2F4", 102.032, 0.0025},
 		{"halon-2402 reference", "C2Br2F4", 259.824, 0.0025},
-		// source: CRC Handbook of Chemistry and Physics (from memory). The handbook uses
-		// Cl = 35.453 where DOMAIN.md §3 prescribes 35.45, so CFC-11 (3 Cl) sits 0.011 below
-		// the handbook value; the tolerance is 0.015 g/mol to allow for that.
-		{"CFC-11 handbook", "CCl3F", 137.37, 0.015},
-		{"HCFC-22 handbook", "CHClF2", 86.47, 0.01},
-		{"HFC-134a handbook", "C2H2F4", 102.03, 0.01},
+		// source: NIST Chemistry WebBook molecular weights (from memory): CCl3F 137.368,
+		// CHClF2 86.468, CF3CH2F 102.031. The WebBook uses Cl = 35.453 where DOMAIN.md §3
+		// prescribes the abridged 35.45, so CFC-11 (3 Cl) sits 0.009 below it: within 0.01.
+		{"CFC-11 handbook", "CCl3F", 137.368, 0.01},
+		{"HCFC-22 handbook", "CHClF2", 86.468, 0.01},
+		{"HFC-134a handbook", "C2H2F4", 102.031, 0.01},
 		// source: IUPAC abridged weights of DOMAIN.md §3, computed by hand: 12.011 + 2*15.999
 		{"CO2 by hand", "CO2", 44.009, 1e-9},
 	}
