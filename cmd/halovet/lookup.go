@@ -21,7 +21,6 @@ import (
 
 func init() {
 	register("lookup", "identify substances and blends and show their catalogue entries", runLookup)
-	register("mix", "evaluate a blend or an ad-hoc composition: ODP, GWP, CO2-eq, HS code", runMix)
 }
 
 const lookupUsage = `lookup [flags] IDENTIFIER...
@@ -56,35 +55,6 @@ Examples:
   halovet lookup 75-45-6 CHF2Cl "hcfc 22"
   halovet lookup R-404A 2903.45
   halovet lookup --output json R-410A`
-
-const mixUsage = `mix [flags] SPEC
-
-Evaluates a mixture. SPEC is a blend designation (R-410A; any identifier that names one
-catalogue entry, a single substance too) or an ad-hoc composition written
-IDENTIFIER:MASS_PERCENT,IDENTIFIER:MASS_PERCENT,... (R-32:50,R-125:50), whose shares
-must sum to 100 % within 0.01 and whose identifiers must each name one substance.
-
-Prints the mixture's ODP; its 100-year GWP under each set (MP = the Protocol's annex
-values, AR4, AR5, AR6) in both conventions, "all components" (every component with a
-GWP, as the EU F-gas rules weigh a blend) and "Annex F only (as the Protocol counts)";
-per component the mass %, mass kg, Annex/Group, ODP tonnes and CO2-eq tonnes (mass
-columns need --mass-kg); the HS 2022 subheading of the mixture or why none is decided;
-the safety class and cautions. Whole GWPs are rounded half-up, the unrounded
-mass-weighted sum beside them.
-
---output text (default) prints a report for people; --output json prints the
-EvaluateMixtureResponse in protobuf JSON (protojson).
-
-Exit code: 0 on success; 1 when the server rejects the request (an unknown or
-ambiguous identifier; shares that do not sum to 100 %, with the sum named) or fails;
-2 for unusable command-line input (a SPEC that is not IDENTIFIER:PERCENT pairs, a
-negative --mass-kg). Flags may come before or after SPEC.
-
-Examples:
-  halovet mix R-410A
-  halovet mix R-404A --mass-kg 12.5
-  halovet mix R-32:50,R-125:50 --mass-kg 1000
-  halovet mix --output json HCFC-22:53,HFC-152a:13,HCFC-124:34`
 
 // parseFlagsInterleaved parses flags given before, between or after the positional
 // arguments, and returns the positional ones in order ("--" ends the flags).
@@ -442,61 +412,6 @@ func writeBlendText(kv *lookupLines, b *halovetv1.Blend, ev *halovetv1.EvaluateM
 	kv.raw(wrapIndented("sources: "+textOrDash(b.GetSources()), "  ", 88))
 }
 
-// gwpTable writes a mixture's GWPs, one row per set, one column per convention.
-func mixtureGWPTable(ev *halovetv1.EvaluateMixtureResponse) string {
-	type cell struct{ all, annexF string }
-	rows := map[string]*cell{}
-	var order []string
-	partial := false
-	for _, g := range ev.GetGwps() {
-		c, ok := rows[g.GetGwpSet()]
-		if !ok {
-			c = &cell{all: "—", annexF: "—"}
-			rows[g.GetGwpSet()] = c
-			order = append(order, g.GetGwpSet())
-		}
-		v := mixtureGWPText(g.GetGwp100())
-		if !g.GetComplete() {
-			v += " *"
-			partial = true
-		}
-		switch g.GetConvention() {
-		case "all-components":
-			c.all = v
-		case "annex-f-only":
-			c.annexF = v
-		}
-	}
-	var b strings.Builder
-	b.WriteString("  GWP (100-year)\n")
-	tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', 0)
-	fmt.Fprintln(tw, "    set\tall components\tAnnex F only (as the Protocol counts)")
-	for _, set := range order {
-		label := set
-		if set == "MP" {
-			label = "MP (Protocol annex values)"
-		}
-		fmt.Fprintf(tw, "    %s\t%s\t%s\n", label, rows[set].all, rows[set].annexF)
-	}
-	_ = tw.Flush()
-	if partial {
-		b.WriteString("    * partial: a component counted by this convention has no value in this set\n")
-	}
-	return b.String()
-}
-
-func mixtureHSText(ev *halovetv1.EvaluateMixtureResponse) string {
-	code := ev.GetHs2022Subheading()
-	if code == "" {
-		code = "not decided (see below)"
-	}
-	s := fmt.Sprintf("  %-16s%s\n", "HS 2022", code)
-	if ev.GetHsNote() != "" {
-		s += wrapIndented(ev.GetHsNote(), "                  ", 88)
-	}
-	return s
-}
-
 // safetyClassText explains an ASHRAE 34 safety class: the letter is the toxicity class,
 // the digit the flammability class (ANSI/ASHRAE Standard 34, from memory).
 func safetyClassText(class string) string {
@@ -534,18 +449,6 @@ func lookupNum(v float64) string {
 	return strconv.FormatFloat(math.Round(v*1e6)/1e6, 'f', -1, 64)
 }
 
-// gwpText writes a mixture GWP as the published tables do, rounded half-up to a whole
-// number (SOURCES.md §3: R-410A 2087.5 -> 2088), with the unrounded sum beside it when
-// they differ.
-func mixtureGWPText(v float64) string {
-	exact := math.Round(v*1000) / 1000
-	whole := math.Floor(exact + 0.5)
-	if exact == whole {
-		return strconv.FormatFloat(whole, 'f', 0, 64)
-	}
-	return fmt.Sprintf("%s (%s)", strconv.FormatFloat(whole, 'f', 0, 64), strconv.FormatFloat(exact, 'f', -1, 64))
-}
-
 // wrapText wraps s into lines of at most width bytes, each starting with indent.
 func wrapIndented(s, indent string, width int) string {
 	var b strings.Builder
@@ -574,147 +477,4 @@ func rpcFailure(what string, err error) error {
 		return fmt.Errorf("%s: %w", what, err)
 	}
 	return fmt.Errorf("%s: the server answered %s: %s", what, st.Code(), st.Message())
-}
-
-func runMix(ctx context.Context, args []string) error {
-	fs := newFlagSet("mix", mixUsage)
-	var cf clientFlags
-	cf.register(fs)
-	output := reportOutputFlag(fs)
-	massKg := fs.Float64("mass-kg", 0, "net mass of the mixture in kg; 0 gives figures per kg only")
-	pos, err := parseFlagsInterleaved(fs, args)
-	if err != nil {
-		return err
-	}
-	if err := checkReportOutput(*output); err != nil {
-		return err
-	}
-	if len(pos) != 1 {
-		return usageErr("give exactly one SPEC, e.g. R-410A or R-32:50,R-125:50 (see --help); got %d arguments", len(pos))
-	}
-	req, err := mixRequest(pos[0], *massKg)
-	if err != nil {
-		return err
-	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	return mixReport(ctx, conn, os.Stdout, req, *output)
-}
-
-// mixRequest builds the EvaluateMixture request of a SPEC; input it cannot use is a usage
-// error (exit code 2). Whether the shares sum to 100 % is the server's to judge.
-func mixRequest(spec string, massKg float64) (*halovetv1.EvaluateMixtureRequest, error) {
-	if math.IsNaN(massKg) || math.IsInf(massKg, 0) || massKg < 0 {
-		return nil, usageErr("--mass-kg %v: give the net mass in kg, 0 or more", massKg)
-	}
-	spec = strings.TrimSpace(spec)
-	if spec == "" {
-		return nil, usageErr("SPEC is empty: give a blend (R-410A) or shares (R-32:50,R-125:50)")
-	}
-	req := &halovetv1.EvaluateMixtureRequest{NetMassKg: massKg}
-	if !strings.Contains(spec, ":") {
-		req.Mixture = &halovetv1.EvaluateMixtureRequest_Blend{Blend: spec}
-		return req, nil
-	}
-	// Chemical names hold commas ("1,1,1,2-tetrafluoroethane:52"), so a comma separates
-	// shares only after a part that has its ":PERCENT".
-	var parts []string
-	pending := ""
-	for _, p := range strings.Split(spec, ",") {
-		if pending != "" {
-			p = pending + "," + p
-		}
-		if strings.Contains(p, ":") {
-			parts, pending = append(parts, p), ""
-		} else {
-			pending = p
-		}
-	}
-	if strings.TrimSpace(pending) != "" {
-		return nil, usageErr("SPEC share %q has no :MASS_PERCENT; write IDENTIFIER:PERCENT pairs such as R-32:50,R-125:50", pending)
-	}
-	comp := &halovetv1.Composition{}
-	for i, p := range parts {
-		at := strings.LastIndex(p, ":")
-		id := strings.TrimSpace(p[:at])
-		num := strings.TrimSpace(strings.TrimSuffix(strings.TrimSpace(p[at+1:]), "%"))
-		if id == "" {
-			return nil, usageErr("SPEC share %d (%q) has no identifier before the colon", i+1, p)
-		}
-		pct, err := strconv.ParseFloat(num, 64)
-		if err != nil || math.IsNaN(pct) || math.IsInf(pct, 0) {
-			return nil, usageErr("SPEC share %d (%q): %q is not a mass percentage; write a number such as 50 or 23.5", i+1, p, num)
-		}
-		comp.Shares = append(comp.Shares, &halovetv1.MixtureShare{Identifier: id, MassPercent: pct})
-	}
-	req.Mixture = &halovetv1.EvaluateMixtureRequest_Composition{Composition: comp}
-	return req, nil
-}
-
-// mixReport evaluates the mixture and writes the report.
-func mixReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Writer, req *halovetv1.EvaluateMixtureRequest, output string) error {
-	what := "the composition"
-	if b, ok := req.GetMixture().(*halovetv1.EvaluateMixtureRequest_Blend); ok {
-		what = b.Blend
-	}
-	ev, err := halovetv1.NewCatalogueServiceClient(conn).EvaluateMixture(ctx, req)
-	if err != nil {
-		return rpcFailure("evaluating "+what, err)
-	}
-	if output == "json" {
-		b, err := protojson.MarshalOptions{Multiline: true}.Marshal(ev)
-		if err != nil {
-			return err
-		}
-		_, err = w.Write(append(b, '\n'))
-		return err
-	}
-	return writeMixText(w, ev)
-}
-
-func writeMixText(w io.Writer, ev *halovetv1.EvaluateMixtureResponse) error {
-	kv := &lookupLines{w: w}
-	perKg := ev.GetNetMassKg() == 0
-	amount := lookupNum(ev.GetNetMassKg()) + " kg"
-	if perKg {
-		amount = "per kg (no --mass-kg given)"
-	}
-	name := ev.GetDesignation()
-	if name == "custom" {
-		name = "(ad-hoc composition)"
-	}
-	kv.raw(fmt.Sprintf("Mixture %s, %s\n", name, amount))
-	kv.line("safety class", safetyClassText(ev.GetSafetyClass()))
-	kv.line("ODP", lookupNum(ev.GetOdp())+"  (mass-weighted)")
-	if !perKg {
-		kv.line("ODP tonnes", lookupNum(ev.GetOdpTonnes())+"  (each component in its own Annex group)")
-		kv.line("CO2-eq tonnes", lookupNum(ev.GetCo2ETonnes())+"  (Annex F components x Annex GWP, as the Protocol counts)")
-	}
-	kv.raw(mixtureGWPTable(ev))
-	kv.raw("  components\n")
-	var tb strings.Builder
-	tw := tabwriter.NewWriter(&tb, 0, 0, 2, ' ', 0)
-	if perKg {
-		fmt.Fprintln(tw, "    component\tmass %\tAnnex/Group\tODP\tGWP (MP)\tsafety class")
-	} else {
-		fmt.Fprintln(tw, "    component\tmass %\tmass kg\tAnnex/Group\tODP\tODP t\tGWP (MP)\tCO2-eq t\tsafety class")
-	}
-	for _, c := range ev.GetComponents() {
-		if perKg {
-			fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), lookupNum(c.GetMassPercent()), textOrDash(c.GetAnnexGroup()),
-				lookupNum(c.GetOdp()), lookupNum(c.GetGwpProtocol()), textOrDash(c.GetSafetyClass()))
-		} else {
-			fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), lookupNum(c.GetMassPercent()),
-				lookupNum(c.GetMassKg()), textOrDash(c.GetAnnexGroup()), lookupNum(c.GetOdp()), lookupNum(c.GetOdpTonnes()),
-				lookupNum(c.GetGwpProtocol()), lookupNum(c.GetCo2ETonnes()), textOrDash(c.GetSafetyClass()))
-		}
-	}
-	_ = tw.Flush()
-	kv.raw(tb.String())
-	kv.raw(mixtureHSText(ev))
-	kv.raw("\n" + reportFooter(ev.GetCautions()))
-	return kv.err
 }
