@@ -202,7 +202,9 @@ type pendingRecord struct {
 	rec      validate.Record
 	verdict  validate.Verdict
 	recorded bool
-	dupOf    *pendingRecord // the earlier record of the same write batch this one replays
+	dupOf    *pendingRecord    // the earlier record of the same write batch this one replays
+	row      store.ShipmentRow // what is stored, built while the previous batch is written
+	rowErr   error
 }
 
 type incoming struct {
@@ -351,6 +353,9 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 				seen[k] = seenKey{fingerprint: p.verdict.Fingerprint, line: p.rec.Line, pending: p}
 			}
 		}
+		if p.verdict.Outcome != validate.OutcomeRejected && !p.verdict.Replayed {
+			p.row, p.rowErr = shipmentRow(p.pb, &p.rec, &p.verdict)
+		}
 		pending = append(pending, p)
 	}
 }
@@ -384,6 +389,22 @@ func sendRecorded(stream halovetv1.ShipmentService_RecordShipmentsServer, batch 
 	return flushGroup()
 }
 
+func recordKey(r *validate.Record) [2]string {
+	return [2]string{strings.TrimSpace(r.CompanyID), strings.TrimSpace(r.Key)}
+}
+
+// judgeByStored answers a record whose key is stored already, by what was stored: the
+// same content is a replay, accepted and recorded as it was; other content (storedFP
+// different, or "" when unknown) is a conflict.
+func judgeByStored(p *pendingRecord, storedFP string) {
+	p.verdict.Findings = nil
+	p.verdict.Draws = nil
+	p.verdict.Add(validate.DuplicateFinding(storedFP, p.verdict.Fingerprint, 0))
+	if storedFP == p.verdict.Fingerprint {
+		p.verdict.Replayed, p.recorded = true, true
+	}
+}
+
 type seenKey struct {
 	fingerprint string
 	line        int64
@@ -404,42 +425,37 @@ func recordedVerdict(p *pendingRecord) *halovetv1.Verdict {
 // their verdicts. Keys stored by earlier calls are looked up first, so that a retried
 // batch is answered "replayed" even where a re-check would now find the quota used up.
 func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
-	keys := make([][2]string, 0, len(batch))
+	// The recorder looks up the keys of the rows it is given. Records the checks rejected
+	// may still be replays of stored ones (a retried batch whose quota is drawn by now),
+	// so only their keys are looked up here.
+	var probe [][2]string
 	for _, p := range batch {
-		if !p.verdict.Replayed {
-			keys = append(keys, [2]string{strings.TrimSpace(p.rec.CompanyID), strings.TrimSpace(p.rec.Key)})
+		if !p.verdict.Replayed && p.verdict.Outcome == validate.OutcomeRejected {
+			probe = append(probe, recordKey(&p.rec))
 		}
 	}
-	stored, err := s.store.StoredFingerprints(ctx, keys)
-	if err != nil {
-		return toStatus(ctx, s.log, err)
+	stored := map[[2]string]string{}
+	if len(probe) > 0 {
+		var err error
+		if stored, err = s.store.StoredFingerprints(ctx, probe); err != nil {
+			return toStatus(ctx, s.log, err)
+		}
 	}
 	var rows []store.ShipmentRow
 	var idx []*pendingRecord
 	for _, p := range batch {
-		if p.verdict.Replayed {
-			continue
-		}
-		k := [2]string{strings.TrimSpace(p.rec.CompanyID), strings.TrimSpace(p.rec.Key)}
-		if fp, ok := stored[k]; ok {
-			// Judged by what was stored: a replay is accepted as it was, a conflict rejected.
-			p.verdict.Findings = nil
-			p.verdict.Draws = nil
-			p.verdict.Add(validate.DuplicateFinding(fp, p.verdict.Fingerprint, 0))
-			if fp == p.verdict.Fingerprint {
-				p.verdict.Replayed, p.recorded = true, true
+		switch {
+		case p.verdict.Replayed:
+		case p.verdict.Outcome == validate.OutcomeRejected:
+			if fp, ok := stored[recordKey(&p.rec)]; ok {
+				judgeByStored(p, fp)
 			}
-			continue
+		case p.rowErr != nil:
+			return status.Errorf(codes.Internal, "record %q: %v", p.rec.Key, p.rowErr)
+		default:
+			rows = append(rows, p.row)
+			idx = append(idx, p)
 		}
-		if p.verdict.Outcome == validate.OutcomeRejected {
-			continue
-		}
-		row, err := shipmentRow(p.pb, &p.rec, &p.verdict)
-		if err != nil {
-			return status.Errorf(codes.Internal, "record %q: %v", p.rec.Key, err)
-		}
-		rows = append(rows, row)
-		idx = append(idx, p)
 	}
 	if len(rows) == 0 {
 		return nil
@@ -454,11 +470,9 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 		case store.RecordStored:
 			p.recorded = true
 		case store.RecordReplayed:
-			p.recorded, p.verdict.Replayed = true, true
-			p.verdict.Draws = nil
-			p.verdict.Add(findingFor(validate.CodeDupReplay, "record_key", "an identical record with this key was stored by a concurrent call; not counted again"))
+			judgeByStored(p, p.verdict.Fingerprint)
 		case store.RecordKeyConflict:
-			p.verdict.Add(findingFor(validate.CodeDupKeyConflict, "record_key", "a concurrent call stored other content under this key; give a new record a new key"))
+			judgeByStored(p, "")
 		case store.RecordQuotaShort:
 			// What the check said of the quota was judged against an older balance.
 			p.verdict.Findings = slices.DeleteFunc(p.verdict.Findings, func(f validate.Finding) bool {
