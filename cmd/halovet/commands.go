@@ -55,7 +55,8 @@ func newFlagSet(name, usage string) *flag.FlagSet {
 	fs := flag.NewFlagSet(name, flag.ContinueOnError)
 	fs.SetOutput(os.Stderr)
 	fs.Usage = func() {
-		fmt.Fprintf(os.Stderr, "Usage: halovet %s\n\n%s\nFlags:\n", name, strings.TrimSpace(usage)+"\n")
+		// Each usage text starts with the verb's synopsis line.
+		fmt.Fprintf(os.Stderr, "Usage: halovet %s\n\nFlags:\n", strings.TrimSpace(usage))
 		fs.PrintDefaults()
 	}
 	return fs
