@@ -7,9 +7,6 @@ import (
 	"errors"
 	"flag"
 	"fmt"
-	"io"
-	"log/slog"
-	"net"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -19,10 +16,7 @@ import (
 	"time"
 
 	"google.golang.org/grpc"
-	"google.golang.org/grpc/credentials/insecure"
 
-	"github.com/halovet/halovet/pglocal/pgtest"
-	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/validate"
 )
@@ -49,51 +43,15 @@ type demoServer struct {
 	st   *store.Store
 }
 
-// startDemoServer runs the real server on a free loopback port against a fresh migrated
-// database, with a fixed clock, and loads the registry file into it. Everything is torn
-// down when the test ends.
+// startDemoServer runs the real server in process (startTestServer) with the demo's fixed
+// clock and loads the registry file into it. Everything is torn down when the test ends.
 func startDemoServer(t *testing.T, registry string) *demoServer {
 	t.Helper()
-	url := pgtest.NewDatabase(t, "halovet_cmd", migrateForTest)
-	ctx := context.Background()
-	st, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatalf("open the test database: %v", err)
-	}
-	t.Cleanup(st.Close)
-	log := slog.New(slog.NewTextHandler(io.Discard, nil))
-	cat, err := service.LoadCatalogue(ctx, st, log)
-	if err != nil {
-		t.Fatalf("load the seed catalogue: %v", err)
-	}
-	srv := service.New(st, cat, service.Options{Logger: log, GracePeriod: 5 * time.Second, Now: demoNow})
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatalf("listen on loopback: %v", err)
-	}
-	serveCtx, cancel := context.WithCancel(context.Background())
-	served := make(chan error, 1)
-	go func() { served <- srv.Serve(serveCtx, lis) }()
-	t.Cleanup(func() {
-		cancel()
-		select {
-		case err := <-served:
-			if err != nil {
-				t.Errorf("Serve returned %v after shutdown; want nil", err)
-			}
-		case <-time.After(15 * time.Second):
-			t.Errorf("Serve did not return within 15 s of shutdown")
-		}
-	})
-	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		t.Fatalf("dial the test server: %v", err)
-	}
-	t.Cleanup(func() { _ = conn.Close() })
-	if _, err := loadRegistry(ctx, conn, registry); err != nil {
+	ts := startTestServer(t, demoNow)
+	if _, err := loadRegistry(context.Background(), ts.conn, registry); err != nil {
 		t.Fatalf("load %s: %v", registry, err)
 	}
-	return &demoServer{conn: conn, st: st}
+	return &demoServer{conn: ts.conn, st: ts.st}
 }
 
 // runCheck runs checkFile on path and returns the summary, the stdout text and the report.

@@ -7,68 +7,16 @@ import (
 	"encoding/json"
 	"errors"
 	"io"
-	"log/slog"
 	"math"
-	"net"
 	"os"
 	"regexp"
 	"strings"
 	"testing"
-	"time"
 
-	"google.golang.org/grpc"
-	"google.golang.org/grpc/credentials/insecure"
 	"google.golang.org/protobuf/encoding/protojson"
 
-	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
-	"github.com/halovet/halovet/service"
-	"github.com/halovet/halovet/store"
 )
-
-// startLookupServer runs the halovet server in this process on a free loopback port,
-// against a fresh migrated database holding the seed catalogue, and returns its address
-// and a client connection. Everything stops when the test ends.
-func startLookupServer(t *testing.T) (string, *grpc.ClientConn) {
-	t.Helper()
-	url := pgtest.NewDatabase(t, "halovet_cmd", migrateForTest)
-	ctx := context.Background()
-	st, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatalf("open the test database: %v", err)
-	}
-	t.Cleanup(st.Close)
-	log := slog.New(slog.NewTextHandler(io.Discard, nil))
-	holder, err := service.LoadCatalogue(ctx, st, log)
-	if err != nil {
-		t.Fatalf("load the seed catalogue: %v", err)
-	}
-	srv := service.New(st, holder, service.Options{Logger: log, GracePeriod: 5 * time.Second})
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatalf("listen: %v", err)
-	}
-	serveCtx, cancel := context.WithCancel(context.Background())
-	served := make(chan error, 1)
-	go func() { served <- srv.Serve(serveCtx, lis) }()
-	t.Cleanup(func() {
-		cancel()
-		select {
-		case err := <-served:
-			if err != nil {
-				t.Errorf("Serve returned %v after shutdown; want nil", err)
-			}
-		case <-time.After(15 * time.Second):
-			t.Error("Serve did not return within 15 s of shutdown")
-		}
-	})
-	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		t.Fatalf("dial: %v", err)
-	}
-	t.Cleanup(func() { _ = conn.Close() })
-	return lis.Addr().String(), conn
-}
 
 // lookupExitCode maps a verb's error to the exit code run gives it.
 func lookupExitCode(err error) int {
@@ -105,7 +53,7 @@ func lookupLineMatching(t *testing.T, out, pattern string) {
 }
 
 func TestLookupTextSubstances(t *testing.T) {
-	_, conn := startLookupServer(t)
+	conn := startTestServer(t, nil).conn
 	var out bytes.Buffer
 	if err := lookupReport(context.Background(), conn, &out, []string{"R22", "HCFC-133"}, "text"); err != nil {
 		t.Fatalf("lookup R22 HCFC-133: %v", err)
@@ -138,7 +86,7 @@ func TestLookupTextSubstances(t *testing.T) {
 }
 
 func TestLookupTextBlend(t *testing.T) {
-	_, conn := startLookupServer(t)
+	conn := startTestServer(t, nil).conn
 	var out bytes.Buffer
 	if err := lookupReport(context.Background(), conn, &out, []string{"410a"}, "text"); err != nil {
 		t.Fatalf("lookup 410a: %v", err)
@@ -160,7 +108,7 @@ func TestLookupTextBlend(t *testing.T) {
 }
 
 func TestLookupAmbiguousAndUnknown(t *testing.T) {
-	_, conn := startLookupServer(t)
+	conn := startTestServer(t, nil).conn
 	var out bytes.Buffer
 	err := lookupReport(context.Background(), conn, &out, []string{"2903.45", "R-4O4A", "R-22", "75-45-7"}, "text")
 	if code := lookupExitCode(err); code != 1 {
@@ -184,7 +132,7 @@ func TestLookupAmbiguousAndUnknown(t *testing.T) {
 }
 
 func TestLookupJSONLines(t *testing.T) {
-	_, conn := startLookupServer(t)
+	conn := startTestServer(t, nil).conn
 	var out bytes.Buffer
 	err := lookupReport(context.Background(), conn, &out, []string{"R-22", "2903.45", "R-404A"}, "json")
 	if code := lookupExitCode(err); code != 1 {
@@ -301,7 +249,7 @@ func runCaptured(t *testing.T, args ...string) (int, string, string) {
 }
 
 func TestLookupAndMixExitCodes(t *testing.T) {
-	addr, _ := startLookupServer(t)
+	addr := startTestServer(t, nil).addr
 	cases := []struct {
 		name   string
 		args   []string

@@ -13,7 +13,7 @@ import (
 )
 
 func TestMixText(t *testing.T) {
-	_, conn := startLookupServer(t)
+	conn := startTestServer(t, nil).conn
 	ctx := context.Background()
 
 	req, err := mixRequest("R-410A", 1000)
@@ -71,7 +71,7 @@ func TestMixText(t *testing.T) {
 }
 
 func TestMixJSON(t *testing.T) {
-	_, conn := startLookupServer(t)
+	conn := startTestServer(t, nil).conn
 	req, err := mixRequest("R-507A", 2000)
 	if err != nil {
 		t.Fatal(err)

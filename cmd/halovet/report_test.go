@@ -7,25 +7,17 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"encoding/xml"
-	"errors"
 	"io"
-	"log/slog"
 	"math"
-	"net"
 	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
 	"testing"
-	"time"
 
-	"google.golang.org/grpc"
 	"google.golang.org/protobuf/encoding/protojson"
 
-	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
-	"github.com/halovet/halovet/service"
-	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
 )
@@ -295,44 +287,6 @@ func TestReadEntries(t *testing.T) {
 	}
 }
 
-// reportTestServer runs the real server in process on loopback with a fresh database.
-func reportTestServer(t *testing.T) (*grpc.ClientConn, *store.Store) {
-	t.Helper()
-	url := pgtest.NewDatabase(t, "halovet_cmd_report", migrateForTest)
-	ctx := context.Background()
-	st, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(st.Close)
-	log := slog.New(slog.NewTextHandler(io.Discard, nil))
-	cat, err := service.LoadCatalogue(ctx, st, log)
-	if err != nil {
-		t.Fatal(err)
-	}
-	srv := service.New(st, cat, service.Options{Logger: log, GracePeriod: 5 * time.Second})
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	sctx, cancel := context.WithCancel(context.Background())
-	done := make(chan error, 1)
-	go func() { done <- srv.Serve(sctx, lis) }()
-	t.Cleanup(func() {
-		cancel()
-		if err := <-done; err != nil && !errors.Is(err, net.ErrClosed) {
-			t.Errorf("serve: %v", err)
-		}
-	})
-	cf := clientFlags{server: lis.Addr().String()}
-	conn, err := cf.dial()
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { conn.Close() })
-	return conn, st
-}
-
 // demoParty is a country's settings in scenario.json, as far as the test needs them.
 type demoParty struct {
 	CountryCode string            `json:"countryCode"`
@@ -348,7 +302,8 @@ type demoParty struct {
 // not deducted; blends split by nominal composition.
 func TestDemoConsumptionMatchesFile(t *testing.T) {
 	dir := filepath.Join("..", "..", "testdata", "demo")
-	conn, st := reportTestServer(t)
+	ts := startTestServer(t, nil)
+	conn, st := ts.conn, ts.st
 	ctx := context.Background()
 	if _, err := loadRegistry(ctx, conn, filepath.Join(dir, "scenario.json")); err != nil {
 		t.Fatal(err)
@@ -546,7 +501,7 @@ func TestDemoConsumptionMatchesFile(t *testing.T) {
 // TestEntriesAndReportsEndToEnd imports the demo's national entries with the CLI path and
 // renders each report from the live server.
 func TestEntriesAndReportsEndToEnd(t *testing.T) {
-	conn, _ := reportTestServer(t)
+	conn := startTestServer(t, nil).conn
 	ctx := context.Background()
 	dir := filepath.Join("..", "..", "testdata", "demo")
 	if _, err := loadRegistry(ctx, conn, filepath.Join(dir, "scenario.json")); err != nil {
