@@ -1,0 +1,196 @@
+package main
+
+import (
+	"context"
+	"encoding/csv"
+	"fmt"
+	"io"
+	"os"
+	"strconv"
+	"strings"
+
+	"google.golang.org/grpc"
+
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+)
+
+func init() {
+	register("compliance", "compare consumption with the allowed level over years (and draw it as SVG)", runCompliance)
+}
+
+const complianceUsage = `compliance --group GROUP --from YEAR --to YEAR [flags]
+
+Compares the reporting Party's consumption of an Annex group (F: Annex F as a whole)
+with the allowed level of the control schedule in each year from --from to --to:
+allowed percent of baseline, allowed level, headroom (allowed − consumption; negative
+when exceeded) and an outcome: within, EXCEEDED, or not assessed (no data, no baseline
+or no rule; the notes say which). The servicing tails are reported as the schedules
+set them: a non-Article 5 Party's annual 0.5 % cap for HCFCs in 2020-2029, and an
+Article 5 Party's ten-year average of 2.5 % over 2030-2039, shown as the running
+average and the room left for the rest of the period.
+
+--chart FILE.svg also draws consumption (points joined by a line) against the
+allowed level (a step line) over the years, as a self-contained SVG file.
+
+Examples:
+  halovet compliance --group C/I --from 2020 --to 2026
+  halovet compliance --group F --from 2024 --to 2026 --chart hfc.svg
+  halovet compliance --group C/I --from 2013 --to 2026 --output csv`
+
+func runCompliance(ctx context.Context, args []string) error {
+	fs := newFlagSet("compliance", complianceUsage)
+	var rf reportFlags
+	rf.register(fs)
+	group := fs.String("group", "", "Annex group (A/I ... E/I), or F for HFCs (required)")
+	from := fs.Int("from", 0, "first year (required)")
+	to := fs.Int("to", 0, "last year (default: --from)")
+	chart := fs.String("chart", "", "also write an SVG chart of consumption against the allowed level to this file")
+	if err := rf.parse(fs, args); err != nil {
+		return err
+	}
+	if *group == "" || *from == 0 {
+		return usageErr("--group and --from are required, e.g. --group C/I --from 2020 --to 2026")
+	}
+	if *to == 0 {
+		*to = *from
+	}
+	if *chart != "" && !strings.HasSuffix(strings.ToLower(*chart), ".svg") {
+		return usageErr("--chart %q: give a file name ending in .svg", *chart)
+	}
+	return rf.withConn(func(conn *grpc.ClientConn) error {
+		resp, err := halovetv1.NewConsumptionServiceClient(conn).AssessCompliance(ctx,
+			&halovetv1.AssessComplianceRequest{AnnexGroup: *group, FromYear: int32(*from), ToYear: int32(*to)})
+		if err != nil {
+			return err
+		}
+		if *chart != "" {
+			if err := writeChartFile(*chart, resp); err != nil {
+				return err
+			}
+		}
+		if err := writeCompliance(os.Stdout, resp, rf.output); err != nil {
+			return err
+		}
+		if *chart != "" && rf.output == "text" {
+			fmt.Fprintf(os.Stderr, "chart written to %s\n", *chart)
+		}
+		return nil
+	})
+}
+
+func outcomeWord(o halovetv1.ComplianceOutcome) string {
+	switch o {
+	case halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN:
+		return "within"
+	case halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED:
+		return "EXCEEDED"
+	case halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED:
+		return "not assessed"
+	}
+	return "?"
+}
+
+// complianceRow is one year; a figure the year lacks is left empty.
+func complianceRow(y *halovetv1.ComplianceYear, f func(float64) string) []string {
+	assessed := y.GetOutcome() == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN ||
+		y.GetOutcome() == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED
+	cons, allowed, head, pct := "", "", "", ""
+	if y.GetHasData() {
+		cons = f(y.GetConsumption())
+	}
+	if assessed || y.GetAllowed() != 0 || y.GetAllowedPercent() != 0 {
+		pct = fmtFull(y.GetAllowedPercent())
+	}
+	if assessed || y.GetAllowed() != 0 {
+		allowed = f(y.GetAllowed()) // known without data when the baseline is complete
+	}
+	if assessed {
+		head = f(y.GetHeadroom())
+	}
+	avg, room := "", ""
+	if p := y.GetPeriod(); p != nil {
+		avg, room = f(p.GetRunningAverage()), f(p.GetRoomLeft())
+	}
+	return []string{strconv.Itoa(int(y.GetYear())), cons, pct, allowed, head, outcomeWord(y.GetOutcome()), avg, room}
+}
+
+func writeCompliance(w io.Writer, resp *halovetv1.AssessComplianceResponse, output string) error {
+	u := resp.GetUnit()
+	switch output {
+	case "json":
+		return writeProtoJSON(w, resp)
+	case "csv":
+		cw := csv.NewWriter(w)
+		_ = cw.Write([]string{"year", "consumption", "allowed_percent", "allowed", "headroom", "outcome",
+			"period_running_average", "period_room_left", "unit", "annex_group"})
+		for _, y := range resp.GetYears() {
+			r := complianceRow(y, fmtFull)
+			r[5] = strings.ToLower(strings.ReplaceAll(r[5], " ", "-"))
+			_ = cw.Write(append(r, u, resp.GetAnnexGroup()))
+		}
+		cw.Flush()
+		return cw.Error()
+	}
+	fmt.Fprintf(w, "Compliance of %s (%s schedule)\n", resp.GetAnnexGroup(), resp.GetAppliesTo())
+	if resp.GetBaselineComplete() {
+		fmt.Fprintf(w, "Baseline: %s %s\n", fmtUnit(resp.GetBaseline(), u), u)
+	} else {
+		fmt.Fprintln(w, "Baseline: cannot be computed, data are missing (years needing it are not assessed)")
+	}
+	fmt.Fprintf(w, "Schedule: %s\n\n", resp.GetScheduleSource())
+	f := func(v float64) string { return fmtUnit(v, u) }
+	tw := newTable(w)
+	fmt.Fprintf(tw, "year\tconsumption %s\tallowed %%\tallowed %s\theadroom %s\toutcome\trunning average %s\troom left %s\t\n", u, u, u, u, u)
+	for _, y := range resp.GetYears() {
+		fmt.Fprintln(tw, strings.Join(complianceRow(y, f), "\t")+"\t")
+	}
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	if !resp.GetBaselineComplete() {
+		writeNotes(w, "Missing for the baseline", resp.GetBaselineMissing())
+	}
+	// Notes repeat from year to year (the step in force): print each once with its years.
+	type noteYears struct {
+		text  string
+		years []int
+	}
+	var notes []*noteYears
+	idx := map[string]*noteYears{}
+	for _, y := range resp.GetYears() {
+		for _, n := range y.GetNotes() {
+			ny := idx[n]
+			if ny == nil {
+				ny = &noteYears{text: n}
+				idx[n] = ny
+				notes = append(notes, ny)
+			}
+			ny.years = append(ny.years, int(y.GetYear()))
+		}
+	}
+	var lines []string
+	for _, n := range notes {
+		lines = append(lines, fmt.Sprintf("%s: %s", yearList(n.years), n.text))
+	}
+	writeNotes(w, "Notes", lines)
+	_, err := io.WriteString(w, "\n"+reportFooter(nil))
+	return err
+}
+
+// yearList writes consecutive years as a span: 2020 2021 2022 2025 → "2020–2022, 2025".
+func yearList(ys []int) string {
+	var out []string
+	for i := 0; i < len(ys); {
+		j := i
+		for j+1 < len(ys) && ys[j+1] == ys[j]+1 {
+			j++
+		}
+		if j > i {
+			out = append(out, fmt.Sprintf("%d–%d", ys[i], ys[j]))
+		} else {
+			out = append(out, strconv.Itoa(ys[i]))
+		}
+		i = j + 1
+	}
+	return strings.Join(out, ", ")
+}
