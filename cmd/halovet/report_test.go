@@ -22,9 +22,10 @@ import (
 	"github.com/halovet/halovet/validate"
 )
 
-// Tests of the consumption report verbs: the text, CSV and JSON renderings, the SVG chart,
-// the entries file reader, and, end to end on a real server and PostgreSQL, the demo
-// batch's consumption against a sum computed here straight from the demo files.
+// Tests of the consumption report verbs: the text, CSV and JSON renderings and, end to
+// end on a real server and PostgreSQL, the demo batch's consumption against a sum computed
+// here straight from the demo files. The SVG chart is tested in chart_test.go, the
+// entries file reader in entries_test.go.
 
 // reportSample is an invented compliance answer: four years, one without data, one
 // exceeded, one under a period-average rule.
@@ -136,154 +137,6 @@ func TestBaselineTextNamesWhatIsMissing(t *testing.T) {
 		if !strings.Contains(out, want) {
 			t.Errorf("text lacks %q:\n%s", want, out)
 		}
-	}
-}
-
-// svgDoc is what the chart test reads of the SVG.
-type svgNode struct {
-	XMLName  xml.Name
-	Attrs    []xml.Attr `xml:",any,attr"`
-	Text     string     `xml:",chardata"`
-	Children []svgNode  `xml:",any"`
-}
-
-func (n svgNode) attr(name string) string {
-	for _, a := range n.Attrs {
-		if a.Name.Local == name {
-			return a.Value
-		}
-	}
-	return ""
-}
-
-func (n svgNode) walk(fn func(svgNode)) {
-	fn(n)
-	for _, c := range n.Children {
-		c.walk(fn)
-	}
-}
-
-func TestChartIsSVGWithOnePointPerYear(t *testing.T) {
-	resp := reportSample()
-	path := filepath.Join(t.TempDir(), "c.svg")
-	if err := writeChartFile(path, resp); err != nil {
-		t.Fatal(err)
-	}
-	raw, err := os.ReadFile(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var doc svgNode
-	if err := xml.Unmarshal(raw, &doc); err != nil {
-		t.Fatalf("the chart is not well-formed XML: %v", err)
-	}
-	if doc.XMLName.Local != "svg" || doc.XMLName.Space != "http://www.w3.org/2000/svg" {
-		t.Fatalf("root %v, want svg in the SVG namespace", doc.XMLName)
-	}
-	var years []string
-	var allowed, line, texts []string
-	doc.walk(func(n svgNode) {
-		switch {
-		case n.XMLName.Local == "circle" && strings.HasPrefix(n.attr("class"), "point"):
-			years = append(years, n.attr("data-year"))
-			if n.attr("data-year") == "2029" && !strings.Contains(n.attr("class"), "nodata") {
-				t.Errorf("2029 has no data but its point is not marked nodata")
-			}
-		case n.XMLName.Local == "path" && n.attr("class") == "allowed":
-			allowed = append(allowed, n.attr("d"))
-		case n.XMLName.Local == "polyline" && n.attr("class") == "consumption":
-			line = append(line, n.attr("points"))
-		case n.XMLName.Local == "text":
-			texts = append(texts, n.Text)
-		}
-	})
-	if strings.Join(years, " ") != "2028 2029 2030 2031" {
-		t.Fatalf("points for years %v; want one per year 2028-2031 in order", years)
-	}
-	// 2029 has no data but a known allowed level: the step line runs on; the consumption
-	// line breaks there, so only 2030-2031 are joined.
-	if len(allowed) != 1 || strings.Count(allowed[0], "M") != 1 || strings.Count(allowed[0], "H") != 4 {
-		t.Errorf("allowed step line %q: want one unbroken path over 4 years", allowed)
-	}
-	if len(line) != 1 || len(strings.Fields(line[0])) != 2 {
-		t.Errorf("consumption lines %q: want one, joining 2030 and 2031", line)
-	}
-	// Without a complete baseline the allowed level of a year without data is unknown,
-	// and the step line breaks there.
-	nb := reportSample()
-	nb.BaselineComplete = false
-	var raw2 bytes.Buffer
-	if err := writeChart(&raw2, nb); err != nil {
-		t.Fatal(err)
-	}
-	if got := strings.Count(raw2.String(), "M "); got != 2 {
-		t.Errorf("allowed path with an unknown 2029 has %d pieces, want 2", got)
-	}
-	all := strings.Join(texts, "|")
-	for _, want := range []string{"ODP t", "year", "2028", "2031", "decision support"} {
-		if !strings.Contains(all, want) {
-			t.Errorf("chart text lacks %q: %s", want, all)
-		}
-	}
-	if bytes.Contains(raw, []byte("href")) || bytes.Contains(raw, []byte("<script")) {
-		t.Error("the chart refers to something outside itself")
-	}
-}
-
-func TestNiceStepAndYearList(t *testing.T) {
-	cases := []struct{ raw, want float64 }{{0.37, 0.5}, {1, 1}, {1.2, 2}, {3, 5}, {7, 10}, {42000, 50000}, {0, 1}}
-	for _, c := range cases {
-		if got := niceStep(c.raw); math.Abs(got-c.want) > 1e-12 {
-			t.Errorf("niceStep(%v) = %v, want %v", c.raw, got, c.want)
-		}
-	}
-	if got := yearList([]int{2020, 2021, 2022, 2025, 2027, 2028}); got != "2020–2022, 2025, 2027–2028" {
-		t.Errorf("yearList = %q", got)
-	}
-}
-
-func TestReadEntries(t *testing.T) {
-	good := "# invented\nentry_key,year,entry_type,substance,metric_tonnes,note\n" +
-		"k1,2009,historical-import,HCFC-22,100,a\n\n" +
-		"k2,2010,HISTORICAL_IMPORT,R-22,120.5,\n" +
-		"k3,2010,ENTRY_TYPE_QPS,methyl bromide,.5,\"quoted, note\"\n"
-	es, lines, errs := readEntries(strings.NewReader(good))
-	if len(errs) != 0 || len(es) != 3 {
-		t.Fatalf("good file: entries %v errors %v", es, errs)
-	}
-	if lines[0] != 3 || lines[1] != 5 || lines[2] != 6 {
-		t.Errorf("line numbers %v, want 3 5 6 (comment and blank lines counted)", lines)
-	}
-	if es[1].GetMetricTonnes() != 120.5 || es[2].GetEntryType() != halovetv1.EntryType_ENTRY_TYPE_QPS || es[2].GetNote() != "quoted, note" {
-		t.Errorf("parsed %v", es)
-	}
-
-	bad := "entry_key,year,entry_type,substance,metric_tonnes\n" +
-		"k1,2009,historical-import,HCFC-22,100\n" + // line 2 fine
-		"k1,2009,production,HCFC-22,1\n" + // line 3 duplicate key
-		"k3,1970,production,HCFC-22,1\n" + // line 4 year
-		"k4,2009,stockpile,HCFC-22,1\n" + // line 5 type
-		"k5,2009,production,HCFC-22,\"1,000\"\n" + // line 6 thousands separator
-		"k6,2009,production,HCFC-22,-1\n" + // line 7 negative
-		"k7,2009,production\n" + // line 8 field count
-		"k8,2009,production,,1\n" // line 9 substance
-	_, _, errs = readEntries(strings.NewReader(bad))
-	want := map[int]string{3: "also on line 2", 4: "1970", 5: "stockpile", 6: "1,000", 7: "-1", 8: "fields", 9: "substance is empty"}
-	got := map[int]string{}
-	for _, e := range errs {
-		got[e.line] = e.msg
-	}
-	for line, w := range want {
-		if !strings.Contains(got[line], w) {
-			t.Errorf("line %d: %q, want a message with %q", line, got[line], w)
-		}
-	}
-	if len(errs) != len(want) {
-		t.Errorf("%d problems %v, want %d", len(errs), errs, len(want))
-	}
-	_, _, errs = readEntries(strings.NewReader("entry_key,year,substance\n"))
-	if len(errs) == 0 || !strings.Contains(errs[0].msg, "required column") {
-		t.Errorf("missing columns: %v", errs)
 	}
 }
 
@@ -574,40 +427,4 @@ func TestEntriesAndReportsEndToEnd(t *testing.T) {
 	if len(errs) != 0 || len(back) != 4 {
 		t.Fatalf("the csv listing does not read back as an entries file: %d entries, %v", len(back), errs)
 	}
-}
-
-// FuzzReadEntries: any input either gives problems with line numbers or entries that
-// satisfy the file's rules; it never panics.
-func FuzzReadEntries(f *testing.F) {
-	f.Add("entry_key,year,entry_type,substance,metric_tonnes,note\nk1,2009,historical-import,HCFC-22,100,a\n")
-	f.Add("# c\nentry_key,year,entry_type,substance,metric_tonnes\nk,2010,qps,methyl bromide,.5\nk,2010,qps,x,1\n")
-	f.Add("metric_tonnes,substance,year,entry_type,entry_key\n1e3,HCFC-22,2009,production,k\n")
-	f.Add("entry_key,year\n\"unclosed,2009\n")
-	f.Add("")
-	f.Fuzz(func(t *testing.T, in string) {
-		es, lines, errs := readEntries(strings.NewReader(in))
-		if len(errs) > maxEntryLineErrors {
-			t.Fatalf("%d problems, more than the bound %d", len(errs), maxEntryLineErrors)
-		}
-		for _, e := range errs {
-			if e.line < 1 || e.msg == "" {
-				t.Fatalf("problem without a line or a message: %+v", e)
-			}
-		}
-		if len(lines) != len(es) {
-			t.Fatalf("%d entries with %d line numbers", len(es), len(lines))
-		}
-		keys := map[string]bool{}
-		for i, e := range es {
-			if e.GetEntryKey() == "" || keys[e.GetEntryKey()] || e.GetYear() < 1986 || e.GetYear() > 2100 ||
-				e.GetEntryType() == halovetv1.EntryType_ENTRY_TYPE_UNSPECIFIED || e.GetSubstance() == "" ||
-				e.GetMetricTonnes() < 0 || math.IsNaN(e.GetMetricTonnes()) || math.IsInf(e.GetMetricTonnes(), 0) {
-				t.Fatalf("entry %d breaks the file's rules: %v", i, e)
-			}
-			keys[e.GetEntryKey()] = true
-			if i > 0 && lines[i] <= lines[i-1] {
-				t.Fatalf("line numbers not increasing: %v", lines)
-			}
-		}
-	})
 }
