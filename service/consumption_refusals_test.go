@@ -1,0 +1,137 @@
+package service_test
+
+import (
+	"context"
+	"net"
+	"slices"
+	"strings"
+	"testing"
+	"time"
+
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/metadata"
+
+	"github.com/halovet/halovet/pglocal/pgtest"
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service"
+	"github.com/halovet/halovet/store"
+)
+
+// Integration tests of what ConsumptionService refuses: national entries it cannot use
+// (and that a refused call stores nothing), reports without a reporting Party, and
+// writes without the admin token. Entries and Parties are invented (consumption_test.go).
+
+func TestNationalEntriesValidation(t *testing.T) {
+	conn, _ := startTestServer(t)
+	ctx := context.Background()
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	good := consEntry(2025, prod, "HCFC-22", 1)
+	bad := []struct {
+		name  string
+		entry *halovetv1.NationalEntry
+		field string
+		says  string
+	}{
+		{"blend", consEntry(2025, hImp, "R-404A", 1), "entries[1].substance", "split it"},
+		{"unknown", consEntry(2025, hImp, "HCFC-999", 1), "entries[1].substance", "not a catalogue substance"},
+		{"uncontrolled", consEntry(2025, hImp, "R-290", 1), "entries[1].substance", "not controlled"},
+		{"qps not methyl bromide", consEntry(2025, halovetv1.EntryType_ENTRY_TYPE_QPS, "HCFC-22", 1), "entries[1].entry_type", "methyl bromide"},
+		{"negative", consEntry(2025, hImp, "HCFC-22", -1), "entries[1].metric_tonnes", "from 0"},
+		{"year", consEntry(1970, hImp, "HCFC-22", 1), "entries[1].year", "1986"},
+		{"no type", consEntry(2025, halovetv1.EntryType_ENTRY_TYPE_UNSPECIFIED, "HCFC-22", 1), "entries[1].entry_type", "PRODUCTION"},
+		{"duplicate key", consEntry(2025, prod, "HCFC-22", 2), "entries[1].entry_key", "also the key"},
+	}
+	for _, b := range bad {
+		_, err := c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{good, b.entry}})
+		st := catalogueCallStatus(t, err, codes.InvalidArgument)
+		if !slices.Contains(catalogueViolatedFields(st), b.field) || !strings.Contains(st.Message(), b.says) {
+			t.Errorf("%s: %q fields %v; want field %s saying %q", b.name, st.Message(), catalogueViolatedFields(st), b.field, b.says)
+		}
+	}
+	list, err := c.ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{})
+	if err != nil || len(list.GetEntries()) != 0 {
+		t.Fatalf("after refused calls: %v %v; want nothing stored (a call is all or nothing)", list.GetEntries(), err)
+	}
+	mb := consEntry(2025, halovetv1.EntryType_ENTRY_TYPE_QPS, "CH3Br", 3)
+	resp, err := c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{good, mb}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if resp.GetEntries()[1].GetSubstance() != "methyl bromide" {
+		t.Errorf("stored substance %q; want the designation \"methyl bromide\" for CH3Br", resp.GetEntries()[1].GetSubstance())
+	}
+	list, _ = c.ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{Year: 2025})
+	if len(list.GetEntries()) != 2 {
+		t.Fatalf("listed %v, want 2 entries", list.GetEntries())
+	}
+}
+
+func TestConsumptionNeedsReportingParty(t *testing.T) {
+	conn, _ := startTestServer(t)
+	ctx := context.Background()
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	_, err := c.GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: "C/I"})
+	consCode(t, err, codes.FailedPrecondition, "reporting_party")
+	_, err = c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: "C/I", FromYear: 2025, ToYear: 2025})
+	consCode(t, err, codes.FailedPrecondition, "PutParty")
+	_, err = c.GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: "G/I"})
+	consCode(t, err, codes.InvalidArgument, "not a control scope")
+	_, err = c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: "C/I", FromYear: 2026, ToYear: 2025})
+	consCode(t, err, codes.InvalidArgument, "before from_year")
+	// A Party without an HFC group cannot be asked about Annex F.
+	consPutParty(t, conn, &halovetv1.Party{CountryCode: "XA", PartyType: halovetv1.PartyType_PARTY_TYPE_ARTICLE_5, ReportingParty: true})
+	_, err = c.GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: "F"})
+	consCode(t, err, codes.FailedPrecondition, "hfc_group")
+	_, err = c.GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: "C/II"})
+	consCode(t, err, codes.InvalidArgument, "no baseline")
+	_, err = c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025}})
+	consCode(t, err, codes.FailedPrecondition, "baseline")
+}
+
+// TestConsumptionWritesNeedTheAdminToken: with an admin token configured, storing national
+// entries and issuing draft licences need it; reading does not.
+func TestConsumptionWritesNeedTheAdminToken(t *testing.T) {
+	url := pgtest.NewDatabase(t, "halovet_service", migrateServiceDB)
+	ctx := context.Background()
+	st, err := store.Open(ctx, url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(st.Close)
+	holder, err := service.LoadCatalogue(ctx, st, quietLogger())
+	if err != nil {
+		t.Fatal(err)
+	}
+	srv := service.New(st, holder, service.Options{Logger: quietLogger(), AdminToken: "invented-test-token", GracePeriod: time.Second})
+	lis, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sctx, cancel := context.WithCancel(ctx)
+	done := make(chan error, 1)
+	go func() { done <- srv.Serve(sctx, lis) }()
+	t.Cleanup(func() { cancel(); <-done })
+	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { conn.Close() })
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	req := &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{consEntry(2025, prod, "HCFC-22", 1)}}
+	_, err = c.RecordNationalEntries(ctx, req)
+	consCode(t, err, codes.Unauthenticated, "admin token")
+	bad := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer wrong")
+	_, err = c.RecordNationalEntries(bad, req)
+	consCode(t, err, codes.PermissionDenied, "not valid")
+	_, err = c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025}, IssueDrafts: true})
+	consCode(t, err, codes.Unauthenticated, "admin token")
+	good := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer invented-test-token")
+	if _, err := c.RecordNationalEntries(good, req); err != nil {
+		t.Fatalf("with the token: %v", err)
+	}
+	if list, err := c.ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{}); err != nil || len(list.GetEntries()) != 1 {
+		t.Fatalf("reading without a token: %v %v; want the one entry", list, err)
+	}
+}
