@@ -6,17 +6,14 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"net"
 	"strings"
 	"testing"
 	"time"
 
 	"google.golang.org/grpc"
-	"google.golang.org/grpc/credentials/insecure"
 	"google.golang.org/protobuf/encoding/protojson"
 
 	"github.com/halovet/halovet/controls"
-	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/store"
@@ -99,32 +96,7 @@ type benchServer struct {
 
 func startBenchServer(tb testing.TB) *benchServer {
 	tb.Helper()
-	url := pgtest.NewDatabase(tb, "halovet_service", migrateServiceDB)
-	ctx := context.Background()
-	st, err := store.Open(ctx, url)
-	if err != nil {
-		tb.Fatal(err)
-	}
-	tb.Cleanup(st.Close)
-	log := quietLogger()
-	holder, err := service.LoadCatalogue(ctx, st, log)
-	if err != nil {
-		tb.Fatal(err)
-	}
-	srv := service.New(st, holder, service.Options{Logger: log, GracePeriod: 5 * time.Second})
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		tb.Fatal(err)
-	}
-	serveCtx, cancel := context.WithCancel(context.Background())
-	served := make(chan error, 1)
-	go func() { served <- srv.Serve(serveCtx, lis) }()
-	tb.Cleanup(func() { cancel(); <-served })
-	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		tb.Fatal(err)
-	}
-	tb.Cleanup(func() { _ = conn.Close() })
+	conn, st, holder := startServerWith(tb, service.Options{})
 	benchRegistry(tb, conn)
 	return &benchServer{conn: conn, st: st, cat: holder.Load()}
 }

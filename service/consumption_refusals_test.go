@@ -2,21 +2,16 @@ package service_test
 
 import (
 	"context"
-	"net"
 	"slices"
 	"strings"
 	"testing"
 	"time"
 
-	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
-	"google.golang.org/grpc/credentials/insecure"
 	"google.golang.org/grpc/metadata"
 
-	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
-	"github.com/halovet/halovet/store"
 )
 
 // Integration tests of what ConsumptionService refuses: national entries it cannot use
@@ -93,34 +88,11 @@ func TestConsumptionNeedsReportingParty(t *testing.T) {
 // TestConsumptionWritesNeedTheAdminToken: with an admin token configured, storing national
 // entries and issuing draft licences need it; reading does not.
 func TestConsumptionWritesNeedTheAdminToken(t *testing.T) {
-	url := pgtest.NewDatabase(t, "halovet_service", migrateServiceDB)
 	ctx := context.Background()
-	st, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(st.Close)
-	holder, err := service.LoadCatalogue(ctx, st, quietLogger())
-	if err != nil {
-		t.Fatal(err)
-	}
-	srv := service.New(st, holder, service.Options{Logger: quietLogger(), AdminToken: "invented-test-token", GracePeriod: time.Second})
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	sctx, cancel := context.WithCancel(ctx)
-	done := make(chan error, 1)
-	go func() { done <- srv.Serve(sctx, lis) }()
-	t.Cleanup(func() { cancel(); <-done })
-	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { conn.Close() })
+	conn, _, _ := startServerWith(t, service.Options{AdminToken: "invented-test-token", GracePeriod: time.Second})
 	c := halovetv1.NewConsumptionServiceClient(conn)
 	req := &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{consEntry(2025, prod, "HCFC-22", 1)}}
-	_, err = c.RecordNationalEntries(ctx, req)
+	_, err := c.RecordNationalEntries(ctx, req)
 	consCode(t, err, codes.Unauthenticated, "admin token")
 	bad := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer wrong")
 	_, err = c.RecordNationalEntries(bad, req)

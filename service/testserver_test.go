@@ -39,41 +39,55 @@ func quietLogger() *slog.Logger {
 // the database dropped.
 func startTestServer(t *testing.T) (conn *grpc.ClientConn, st *store.Store) {
 	t.Helper()
-	url := pgtest.NewDatabase(t, "halovet_service", migrateServiceDB)
+	conn, st, _ = startServerWith(t, service.Options{})
+	return conn, st
+}
+
+// startServerWith is startTestServer with the server's options (a Logger left nil is
+// quietLogger, a GracePeriod left 0 is 5 s) and the catalogue holder as well, for tests
+// and benchmarks that need an admin token or the catalogue itself.
+func startServerWith(tb testing.TB, opts service.Options) (*grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
+	tb.Helper()
+	url := pgtest.NewDatabase(tb, "halovet_service", migrateServiceDB)
 	ctx := context.Background()
 	st, err := store.Open(ctx, url)
 	if err != nil {
-		t.Fatalf("open the test database: %v", err)
+		tb.Fatalf("open the test database: %v", err)
 	}
-	t.Cleanup(st.Close) // runs last: after the server has stopped
-	log := quietLogger()
-	holder, err := service.LoadCatalogue(ctx, st, log)
+	tb.Cleanup(st.Close) // runs last: after the server has stopped
+	if opts.Logger == nil {
+		opts.Logger = quietLogger()
+	}
+	if opts.GracePeriod == 0 {
+		opts.GracePeriod = 5 * time.Second
+	}
+	holder, err := service.LoadCatalogue(ctx, st, opts.Logger)
 	if err != nil {
-		t.Fatalf("load the seed catalogue into the test database: %v", err)
+		tb.Fatalf("load the seed catalogue into the test database: %v", err)
 	}
-	srv := service.New(st, holder, service.Options{Logger: log, GracePeriod: 5 * time.Second})
+	srv := service.New(st, holder, opts)
 	lis, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
-		t.Fatalf("listen on a loopback port: %v", err)
+		tb.Fatalf("listen on a loopback port: %v", err)
 	}
 	serveCtx, cancel := context.WithCancel(context.Background())
 	served := make(chan error, 1)
 	go func() { served <- srv.Serve(serveCtx, lis) }()
-	t.Cleanup(func() {
+	tb.Cleanup(func() {
 		cancel()
 		select {
 		case err := <-served:
 			if err != nil && !errors.Is(err, net.ErrClosed) {
-				t.Errorf("Serve returned %v after shutdown; want nil", err)
+				tb.Errorf("Serve returned %v after shutdown; want nil", err)
 			}
 		case <-time.After(15 * time.Second):
-			t.Errorf("Serve did not return within 15 s of shutdown")
+			tb.Errorf("Serve did not return within 15 s of shutdown")
 		}
 	})
-	conn, err = grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
 	if err != nil {
-		t.Fatalf("dial the test server: %v", err)
+		tb.Fatalf("dial the test server: %v", err)
 	}
-	t.Cleanup(func() { _ = conn.Close() }) // registered last, so it runs first
-	return conn, st
+	tb.Cleanup(func() { _ = conn.Close() }) // registered last, so it runs first
+	return conn, st, holder
 }
