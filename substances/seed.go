@@ -134,6 +134,30 @@ func openSeedTable(fsys fs.FS, file string, want []string) (*seedTable, error) {
 	return t, nil
 }
 
+// readSeedRows opens a seed file with the wanted columns and builds one value from each
+// row with row, stopping at the first error.
+func readSeedRows[T any](fsys fs.FS, file string, want []string, row func(*seedTable) (T, error)) ([]T, error) {
+	t, err := openSeedTable(fsys, file, want)
+	if err != nil {
+		return nil, err
+	}
+	var out []T
+	for {
+		ok, err := t.next()
+		if err != nil {
+			return nil, err
+		}
+		if !ok {
+			return out, nil
+		}
+		v, err := row(t)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, v)
+	}
+}
+
 // next reads the next record; it returns false at the end of the file.
 func (t *seedTable) next() (bool, error) {
 	rec, err := t.r.Read()
@@ -283,26 +307,9 @@ func mpGWPGroup(g Group) bool {
 	return g == GroupAI || g == GroupCI || g == GroupFI || g == GroupFII
 }
 
+// readSeedSubstances reads the substances of an annex.csv-shaped seed file.
 func readSeedSubstances(fsys fs.FS, file string, sources map[string]string, annex bool) ([]Substance, error) {
-	t, err := openSeedTable(fsys, file, substanceColumns)
-	if err != nil {
-		return nil, err
-	}
-	var out []Substance
-	for {
-		ok, err := t.next()
-		if err != nil {
-			return nil, err
-		}
-		if !ok {
-			return out, nil
-		}
-		s, err := t.substance(sources, annex)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, s)
-	}
+	return readSeedRows(fsys, file, substanceColumns, func(t *seedTable) (Substance, error) { return t.substance(sources, annex) })
 }
 
 // substance builds and checks the Substance of the current row.
@@ -551,26 +558,9 @@ func sameIsomer(a, b string) bool {
 	return strip(a) == strip(b)
 }
 
+// readSeedBlends reads the blends of blends.csv; known holds the substance designations.
 func readSeedBlends(fsys fs.FS, file string, sources map[string]string, known map[string]bool) ([]Blend, error) {
-	t, err := openSeedTable(fsys, file, blendColumns)
-	if err != nil {
-		return nil, err
-	}
-	var out []Blend
-	for {
-		ok, err := t.next()
-		if err != nil {
-			return nil, err
-		}
-		if !ok {
-			return out, nil
-		}
-		b, err := t.blend(sources, known)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, b)
-	}
+	return readSeedRows(fsys, file, blendColumns, func(t *seedTable) (Blend, error) { return t.blend(sources, known) })
 }
 
 // blend builds and checks the Blend of the current row.
