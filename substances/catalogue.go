@@ -85,12 +85,6 @@ type blendEntry struct {
 	base   Evaluation
 }
 
-type suggestKey struct {
-	key     string // normalized
-	display string
-	t       target
-}
-
 // NewCatalogue validates substances and blends, copies them and builds the indexes the
 // resolver and the mixture arithmetic use. Names (designations, synonyms, chemical names) are
 // compared case-, space- and hyphen-insensitively and must each name one entry; every blend
@@ -312,30 +306,6 @@ func (c *Catalogue) entryName(t target) string {
 	return c.subs[t.idx].s.Designation
 }
 
-// addName records an exact name. A name may belong to one entry only.
-func (c *Catalogue) addName(name string, t target, kind MatchKind) error {
-	key := normalizeString(name)
-	if key == "" {
-		return nil
-	}
-	if i, ok := c.names[key]; ok {
-		h := &c.hits[i]
-		if h.t != t {
-			return &CatalogueError{Entry: c.entryName(t), Field: "name", Reason: fmt.Sprintf("name %q is also a name of %q; every name must identify one entry", name, c.entryName(h.t))}
-		}
-		if matchRank(kind) < matchRank(h.res.Candidates[0].Match) {
-			h.res.Candidates[0].Match = kind
-			h.res.Candidates[0].Score = kind.score()
-			h.res.Candidates[0].MatchedOn = name
-		}
-		return nil
-	}
-	c.names[key] = int32(len(c.hits))
-	c.hits = append(c.hits, nameHit{t: t, res: Resolution{Candidates: []Candidate{c.candidate(t, kind, name)}}})
-	c.suggest = append(c.suggest, suggestKey{key: key, display: name, t: t})
-	return nil
-}
-
 // candidate builds a Candidate for a target.
 func (c *Catalogue) candidate(t target, kind MatchKind, matchedOn string) Candidate {
 	cand := Candidate{Kind: t.kind, Match: kind, Score: kind.score(), MatchedOn: matchedOn}
@@ -346,58 +316,6 @@ func (c *Catalogue) candidate(t target, kind MatchKind, matchedOn string) Candid
 		cand.Designation, cand.Group = s.Designation, s.Group
 	}
 	return cand
-}
-
-// isFormulaSynonym reports whether a synonym is a way of writing the substance's formula.
-func isFormulaSynonym(syn string, f Formula) bool {
-	if f == nil {
-		return false
-	}
-	g, err := ParseFormula(syn)
-	return err == nil && g.Equal(f)
-}
-
-// indexNames records designations, synonyms and chemical names.
-func (c *Catalogue) indexNames() error {
-	for i := range c.subs {
-		e := &c.subs[i]
-		t := target{kind: KindSubstance, idx: int32(i)}
-		if err := c.addName(e.s.Designation, t, MatchDesignation); err != nil {
-			return err
-		}
-	}
-	for i := range c.blends {
-		t := target{kind: KindBlend, idx: int32(i)}
-		if err := c.addName(c.blends[i].b.Designation, t, MatchDesignation); err != nil {
-			return err
-		}
-	}
-	for i := range c.subs {
-		e := &c.subs[i]
-		t := target{kind: KindSubstance, idx: int32(i)}
-		for _, syn := range e.s.Synonyms {
-			if isFormulaSynonym(syn, e.formula) {
-				continue // indexed as a formula
-			}
-			if err := c.addName(syn, t, MatchSynonym); err != nil {
-				return err
-			}
-		}
-		if e.s.ChemicalName != "" {
-			if err := c.addName(e.s.ChemicalName, t, MatchChemicalName); err != nil {
-				return err
-			}
-		}
-	}
-	for i := range c.blends {
-		t := target{kind: KindBlend, idx: int32(i)}
-		for _, syn := range c.blends[i].b.Synonyms {
-			if err := c.addName(syn, t, MatchSynonym); err != nil {
-				return err
-			}
-		}
-	}
-	return nil
 }
 
 // lookupName finds an exact name without allocating.
@@ -527,95 +445,4 @@ func (c *Catalogue) blendGroups(b *Blend) []Group {
 		}
 	}
 	return gs
-}
-
-// maxSuggestions limits the "did you mean" list.
-const maxSuggestions = 5
-
-// suggestions lists catalogue names within a small edit distance of s, closest first, one
-// name per entry.
-func (c *Catalogue) suggestions(s string) []string {
-	key := normalizeString(s)
-	if key == "" {
-		return nil
-	}
-	limit := 1
-	switch n := len(key); {
-	case n > 8:
-		limit = 3
-	case n > 3:
-		limit = 2
-	}
-	type found struct {
-		dist    int
-		display string
-		t       target
-		desig   bool
-	}
-	best := map[target]found{}
-	rows := make([]int, 2*(len(key)+limit+2))
-	for _, sk := range c.suggest {
-		if d := len(sk.key) - len(key); d > limit || -d > limit {
-			continue
-		}
-		d := editDistance(key, sk.key, limit, rows)
-		if d > limit {
-			continue
-		}
-		f := found{dist: d, display: sk.display, t: sk.t, desig: sk.display == c.entryName(sk.t)}
-		if old, ok := best[sk.t]; !ok || d < old.dist || (d == old.dist && f.desig && !old.desig) {
-			best[sk.t] = f
-		}
-	}
-	list := make([]found, 0, len(best))
-	for _, f := range best {
-		list = append(list, f)
-	}
-	sort.Slice(list, func(i, j int) bool {
-		if list[i].dist != list[j].dist {
-			return list[i].dist < list[j].dist
-		}
-		return naturalLess(list[i].display, list[j].display)
-	})
-	if len(list) > maxSuggestions {
-		list = list[:maxSuggestions]
-	}
-	out := make([]string, len(list))
-	for i, f := range list {
-		out[i] = f.display
-		if !f.desig {
-			out[i] += " (" + c.entryName(f.t) + ")"
-		}
-	}
-	return out
-}
-
-// editDistance is the Levenshtein distance between a and b (bytes), or limit+1 when it is
-// larger than limit. rows is scratch space of at least 2×(len(b)+1) ints.
-func editDistance(a, b string, limit int, rows []int) int {
-	if len(rows) < 2*(len(b)+1) {
-		rows = make([]int, 2*(len(b)+1))
-	}
-	prev := rows[:len(b)+1]
-	cur := rows[len(b)+1 : 2*(len(b)+1)]
-	for j := range prev {
-		prev[j] = j
-	}
-	for i := 1; i <= len(a); i++ {
-		cur[0] = i
-		rowMin := cur[0]
-		for j := 1; j <= len(b); j++ {
-			cost := 1
-			if a[i-1] == b[j-1] {
-				cost = 0
-			}
-			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+cost)
-			rowMin = min(rowMin, cur[j])
-		}
-		if rowMin > limit {
-			return limit + 1
-		}
-		prev, cur = cur, prev
-	}
-	return prev[len(b)]
 }
