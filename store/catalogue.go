@@ -258,14 +258,6 @@ func (s *Store) UpsertSubstance(ctx context.Context, x *substances.Substance, ac
 	return created, err
 }
 
-func queueAudit(b *pgx.Batch, actor, action, entity, key, reason string, detail []byte) {
-	if len(detail) == 0 {
-		detail = []byte("{}")
-	}
-	b.Queue(`INSERT INTO audit_log (actor, action, entity, entity_key, reason, detail)
-	         VALUES ($1, $2, $3, $4, $5, $6)`, actor, action, entity, key, reason, detail)
-}
-
 // ListenCatalogue calls changed after every announced catalogue change until ctx is
 // done or the connection fails. It holds one pooled connection while it listens.
 func (s *Store) ListenCatalogue(ctx context.Context, changed func()) error {

@@ -331,14 +331,3 @@ func (s *Store) queryLicences(ctx context.Context, sql string, args ...any) ([]L
 	}
 	return out, rows.Err()
 }
-
-// audit appends one entry to the audit log inside tx.
-func audit(ctx context.Context, tx pgx.Tx, actor, action, entity, key, reason string, detail any) error {
-	b, err := json.Marshal(detail)
-	if err != nil {
-		return err
-	}
-	_, err = tx.Exec(ctx, `INSERT INTO audit_log (actor, action, entity, entity_key, reason, detail)
-	    VALUES ($1, $2, $3, $4, $5, $6)`, actor, action, entity, key, reason, b)
-	return err
-}

@@ -1,0 +1,33 @@
+package store
+
+import (
+	"context"
+	"encoding/json"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// The append-only audit log: writes to the registry, the national entries and the catalogue
+// record who did what to which entry, why, and a JSON detail (the entry as written, or
+// what changed).
+
+// audit appends one entry to the audit log inside tx, with detail written as JSON.
+func audit(ctx context.Context, tx pgx.Tx, actor, action, entity, key, reason string, detail any) error {
+	d, err := json.Marshal(detail)
+	if err != nil {
+		return err
+	}
+	b := &pgx.Batch{}
+	queueAudit(b, actor, action, entity, key, reason, d)
+	return tx.SendBatch(ctx, b).Close()
+}
+
+// queueAudit queues the insert of one audit log entry in b, for writes that send their
+// statements as one batch; detail is the entry's JSON ({} when empty).
+func queueAudit(b *pgx.Batch, actor, action, entity, key, reason string, detail []byte) {
+	if len(detail) == 0 {
+		detail = []byte("{}")
+	}
+	b.Queue(`INSERT INTO audit_log (actor, action, entity, entity_key, reason, detail)
+	         VALUES ($1, $2, $3, $4, $5, $6)`, actor, action, entity, key, reason, detail)
+}
