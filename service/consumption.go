@@ -204,31 +204,33 @@ func (s *Server) reportingParty(ctx context.Context) (store.Party, controls.Part
 	if err != nil {
 		return p, controls.Party{}, toStatus(ctx, s.log, err)
 	}
-	var cp controls.Party
-	switch p.PartyType {
-	case "article-5":
-		cp.Type = controls.Article5
-	case "non-article-5":
-		cp.Type = controls.NonArticle5
-	default:
+	cp, err := controlsParty(p)
+	if err != nil {
 		return p, cp, status.Errorf(codes.FailedPrecondition,
 			"the reporting Party %s has party type %q; the control schedules need ARTICLE_5 or NON_ARTICLE_5 (PutParty)", p.CountryCode, p.PartyType)
-	}
-	switch p.HFCGroup {
-	case "a5-group-1":
-		cp.HFC = controls.HFCA5Group1
-	case "a5-group-2":
-		cp.HFC = controls.HFCA5Group2
-	case "non-a5":
-		cp.HFC = controls.HFCNonA5
-	case "non-a5-variant":
-		cp.HFC = controls.HFCNonA5Variant
 	}
 	if err := cp.Validate(); err != nil {
 		return p, cp, status.Errorf(codes.FailedPrecondition, "the reporting Party %s: HFC group %q does not fit party type %q; correct the party settings (PutParty)",
 			p.CountryCode, p.HFCGroup, p.PartyType)
 	}
 	return p, cp, nil
+}
+
+// scopeRules is what a question about a control scope starts with: the reporting Party
+// (refused, for an Annex F question, when it has no HFC group) and the rulebook.
+func (c *consumptionServer) scopeRules(ctx context.Context, scope controls.Scope) (controls.Party, *controls.Rulebook, error) {
+	p, party, err := c.srv.reportingParty(ctx)
+	if err != nil {
+		return party, nil, err
+	}
+	if err := needHFCGroup(p, party, scope); err != nil {
+		return party, nil, err
+	}
+	rb, err := consumptionRulebook()
+	if err != nil {
+		return party, nil, toStatus(ctx, c.srv.log, err)
+	}
+	return party, rb, nil
 }
 
 // needHFCGroup refuses an Annex F question when the reporting Party has no HFC group.
@@ -357,16 +359,9 @@ func (c *consumptionServer) GetBaseline(ctx context.Context, req *halovetv1.GetB
 	if err != nil {
 		return nil, err
 	}
-	p, party, err := c.srv.reportingParty(ctx)
+	party, rb, err := c.scopeRules(ctx, scope)
 	if err != nil {
 		return nil, err
-	}
-	if err := needHFCGroup(p, party, scope); err != nil {
-		return nil, err
-	}
-	rb, err := consumptionRulebook()
-	if err != nil {
-		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	if _, err := rb.BaselineRule(party, scope); errors.Is(err, controls.ErrNoRule) {
 		return nil, invalid(fieldViolation{"annex_group", fmt.Sprintf("%s has no baseline: its consumption limit is 0 from the start (%v)", scope,
@@ -434,16 +429,9 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 		return nil, invalid(vs...)
 	}
 	from, to := int(req.GetFromYear()), int(req.GetToYear())
-	p, party, err := c.srv.reportingParty(ctx)
+	party, rb, err := c.scopeRules(ctx, scope)
 	if err != nil {
 		return nil, err
-	}
-	if err := needHFCGroup(p, party, scope); err != nil {
-		return nil, err
-	}
-	rb, err := consumptionRulebook()
-	if err != nil {
-		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	years := append(yearRange(from, to), baselineYears(rb, party, scope)...)
 	for y := from; y <= to; y++ {

@@ -91,16 +91,9 @@ func (c *consumptionServer) PlanQuotas(ctx context.Context, req *halovetv1.PlanQ
 		}
 	}
 	year := int(req.GetYear())
-	p, party, err := c.srv.reportingParty(ctx)
+	party, rb, err := c.scopeRules(ctx, scope)
 	if err != nil {
 		return nil, err
-	}
-	if err := needHFCGroup(p, party, scope); err != nil {
-		return nil, err
-	}
-	rb, err := consumptionRulebook()
-	if err != nil {
-		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	d, err := c.srv.loadConsumption(ctx, uniqueYears(baselineYears(rb, party, scope)))
 	if err != nil {
