@@ -236,19 +236,6 @@ func BenchmarkCheckInProcess(b *testing.B) {
 	reportRate(b, total)
 }
 
-// toProto is the CLI's conversion of a parsed record to the wire message.
-func toProto(r *validate.Record) *halovetv1.ShipmentRecord {
-	p := &halovetv1.ShipmentRecord{RecordKey: r.Key, SourceLine: r.Line, Direction: halovetv1.Direction(r.Direction),
-		CompanyId: r.CompanyID, LicenceNumber: r.LicenceNumber, PartnerCountry: r.PartnerCountry,
-		DeclarationDate: r.DeclarationDate, Substance: r.Substance, DeclaredHsCode: r.HSCode,
-		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, Quantity: r.Quantity, QuantityUnit: r.Unit,
-		ContainerCount: r.ContainerCount, Purpose: halovetv1.Purpose(r.Purpose), Condition: halovetv1.Condition(r.Condition)}
-	for _, s := range r.Composition {
-		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: s.MassPct})
-	}
-	return p
-}
-
 // streamBatch parses data and streams it as the CLI does: a sender goroutine reads and
 // sends, the caller receives the verdicts in order and the closing summary.
 func streamBatch(b *testing.B, data []byte, send func([]*halovetv1.ShipmentRecord) error, closeSend func() error,
@@ -279,7 +266,7 @@ func streamBatch(b *testing.B, data []byte, send func([]*halovetv1.ShipmentRecor
 				sendErr <- fmt.Errorf("%v %v", err, le)
 				return
 			}
-			buf = append(buf, toProto(&r))
+			buf = append(buf, service.RecordToProto(&r))
 			if len(buf) == perMessage {
 				if err := send(buf); err != nil {
 					sendErr <- err
@@ -381,7 +368,7 @@ func copyRows(b *testing.B, env *validate.Env, data []byte) []store.ShipmentRow 
 	for i := range recs {
 		r := &recs[i]
 		v := validate.Check(env, r, nil)
-		js, err := protojson.Marshal(toProto(r))
+		js, err := protojson.Marshal(service.RecordToProto(r))
 		if err != nil {
 			b.Fatal(err)
 		}

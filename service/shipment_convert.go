@@ -11,6 +11,20 @@ import (
 	"github.com/halovet/halovet/validate"
 )
 
+// RecordToProto maps a parsed record to the wire record, as the command line sends it;
+// recordFromProto is its inverse. The wire enums and the validate enums share their numbers.
+func RecordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
+	p := &halovetv1.ShipmentRecord{RecordKey: r.Key, SourceLine: r.Line, Direction: halovetv1.Direction(r.Direction),
+		CompanyId: r.CompanyID, LicenceNumber: r.LicenceNumber, PartnerCountry: r.PartnerCountry,
+		DeclarationDate: r.DeclarationDate, Substance: r.Substance, DeclaredHsCode: r.HSCode,
+		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, Quantity: r.Quantity, QuantityUnit: r.Unit,
+		ContainerCount: r.ContainerCount, Purpose: halovetv1.Purpose(r.Purpose), Condition: halovetv1.Condition(r.Condition)}
+	for _, s := range r.Composition {
+		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: s.MassPct})
+	}
+	return p
+}
+
 // recordFromProto maps a wire record to the checker's record. The wire enums and the
 // validate enums share their numbers.
 func recordFromProto(p *halovetv1.ShipmentRecord) validate.Record {

@@ -16,6 +16,7 @@ import (
 	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
 )
@@ -408,7 +409,7 @@ func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStre
 			v := unreadableVerdict(&rec)
 			it.local = &v
 		default:
-			buf = append(buf, recordToProto(&rec))
+			buf = append(buf, service.RecordToProto(&rec))
 			it.direction = rec.Direction
 		}
 		select {
@@ -442,18 +443,6 @@ func unreadableVerdict(r *validate.Record) validate.Verdict {
 	}
 	v.Add()
 	return v
-}
-
-func recordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
-	p := &halovetv1.ShipmentRecord{RecordKey: r.Key, SourceLine: r.Line, Direction: halovetv1.Direction(r.Direction),
-		CompanyId: r.CompanyID, LicenceNumber: r.LicenceNumber, PartnerCountry: r.PartnerCountry,
-		DeclarationDate: r.DeclarationDate, Substance: r.Substance, DeclaredHsCode: r.HSCode,
-		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, Quantity: r.Quantity, QuantityUnit: r.Unit,
-		ContainerCount: r.ContainerCount, Purpose: halovetv1.Purpose(r.Purpose), Condition: halovetv1.Condition(r.Condition)}
-	for _, s := range r.Composition {
-		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: s.MassPct})
-	}
-	return p
 }
 
 var (
