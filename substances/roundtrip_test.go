@@ -67,4 +67,6 @@ func TestCatalogueDesignationsRoundTrip(t *testing.T) {
 	t.Logf("%d catalogue entries round-tripped, %d numbered entries decoded to their formula", tried, decoded)
 }
 
-func isUnsaturated(d Designation) bool { return len(strings.TrimLeft(d.Number, "C")) >= 4 && d.Number[0] == '1' }
+func isUnsaturated(d Designation) bool {
+	return len(strings.TrimLeft(d.Number, "C")) >= 4 && d.Number[0] == '1'
+}
