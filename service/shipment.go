@@ -202,9 +202,13 @@ type pendingRecord struct {
 	rec      validate.Record
 	verdict  validate.Verdict
 	recorded bool
-	dupOf    *pendingRecord    // the earlier record of the same write batch this one replays
-	row      store.ShipmentRow // what is stored, built while the previous batch is written
-	rowErr   error
+	keyHash  uint64 // hash of company and key (when the record has a key)
+	hasKey   bool
+	// streamDup: an earlier record of this stream had the same company and key; the
+	// verdict says so (a replay, or a conflict) and the store is not asked.
+	streamDup bool
+	row       store.ShipmentRow // what is stored, built while the previous batch is written
+	rowErr    error
 }
 
 type incoming struct {
@@ -260,6 +264,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 	toWrite := make(chan []*pendingRecord)
 	writeErr := make(chan error, 1)
 	writerDone := make(chan struct{})
+	stored := newKeyWindow(validate.DuplicateWindow) // the writer's: whether each key was stored
 	go func() {
 		defer close(writerDone)
 		for batch := range toWrite {
@@ -267,6 +272,16 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 				writeErr <- err
 				cancel()
 				return
+			}
+			for _, p := range batch {
+				switch {
+				case p.streamDup && p.verdict.Replayed:
+					// Stored if the earlier record of the stream was.
+					e, _ := stored.get(p.keyHash)
+					p.recorded = e.recorded
+				case p.hasKey && !p.streamDup:
+					stored.put(p.keyHash, windowEntry{recorded: p.recorded})
+				}
 			}
 			if err := sendRecorded(stream, batch, &sum); err != nil {
 				writeErr <- err
@@ -289,12 +304,11 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 		return stream.Send(&halovetv1.RecordShipmentsResponse{Item: &halovetv1.RecordShipmentsResponse_Summary{Summary: &sum.pb}})
 	}
 
-	seen := map[[2]string]seenKey{} // duplicates within the batch being gathered
+	// Keys seen in this stream, for the same answer however the records fall into write
+	// batches; bounded, like a check stream's (validate.DuplicateWindow).
+	seen := newKeyWindow(validate.DuplicateWindow)
 	var pending []*pendingRecord
-	handOver := func() {
-		pending = nil
-		clear(seen)
-	}
+	handOver := func() { pending = nil }
 	for {
 		var in incoming
 		var open bool
@@ -340,20 +354,23 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 		p := &pendingRecord{pb: in.pb, single: in.single, rec: recordFromProto(in.pb)}
 		// Quota is drawn by the store under lock, not by an in-memory ledger.
 		p.verdict = validate.Check(env, &p.rec, nil)
-		k := [2]string{strings.TrimSpace(p.rec.CompanyID), strings.TrimSpace(p.rec.Key)}
-		if k[1] != "" {
-			if prev, dup := seen[k]; dup {
-				p.verdict.Add(validate.DuplicateFinding(prev.fingerprint, p.verdict.Fingerprint, prev.line))
-				p.verdict.Draws = nil
-				if prev.fingerprint == p.verdict.Fingerprint {
-					p.verdict.Replayed = true
-					p.dupOf = prev.pending
+		if k := recordKey(&p.rec); k[1] != "" {
+			p.keyHash, p.hasKey = seen.hash(k), true
+			fp := seen.hashString(p.verdict.Fingerprint)
+			if prev, dup := seen.get(p.keyHash); dup {
+				same := prev.fingerprint == fp
+				earlier := ""
+				if same {
+					earlier = p.verdict.Fingerprint // only equality matters to DuplicateFinding
 				}
+				p.verdict.Add(validate.DuplicateFinding(earlier, p.verdict.Fingerprint, prev.line))
+				p.verdict.Draws = nil
+				p.verdict.Replayed, p.streamDup = same, true
 			} else {
-				seen[k] = seenKey{fingerprint: p.verdict.Fingerprint, line: p.rec.Line, pending: p}
+				seen.put(p.keyHash, windowEntry{fingerprint: fp, line: p.rec.Line})
 			}
 		}
-		if p.verdict.Outcome != validate.OutcomeRejected && !p.verdict.Replayed {
+		if p.verdict.Outcome != validate.OutcomeRejected && !p.streamDup {
 			p.row, p.rowErr = shipmentRow(p.pb, &p.rec, &p.verdict)
 		}
 		pending = append(pending, p)
@@ -405,19 +422,9 @@ func judgeByStored(p *pendingRecord, storedFP string) {
 	}
 }
 
-type seenKey struct {
-	fingerprint string
-	line        int64
-	pending     *pendingRecord
-}
-
 func recordedVerdict(p *pendingRecord) *halovetv1.Verdict {
 	v := verdictToProto(&p.verdict)
 	v.Recorded = p.recorded
-	if p.dupOf != nil {
-		// A replay of an earlier record of this batch is stored if that one is.
-		v.Recorded = p.dupOf.recorded
-	}
 	return v
 }
 
@@ -430,7 +437,7 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 	// so only their keys are looked up here.
 	var probe [][2]string
 	for _, p := range batch {
-		if !p.verdict.Replayed && p.verdict.Outcome == validate.OutcomeRejected {
+		if !p.streamDup && p.verdict.Outcome == validate.OutcomeRejected {
 			probe = append(probe, recordKey(&p.rec))
 		}
 	}
@@ -445,7 +452,7 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 	var idx []*pendingRecord
 	for _, p := range batch {
 		switch {
-		case p.verdict.Replayed:
+		case p.streamDup:
 		case p.verdict.Outcome == validate.OutcomeRejected:
 			if fp, ok := stored[recordKey(&p.rec)]; ok {
 				judgeByStored(p, fp)
