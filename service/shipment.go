@@ -211,6 +211,13 @@ type pendingRecord struct {
 	rowErr    error
 }
 
+// windowEntry is what a recording stream keeps per key in its windows.
+type windowEntry struct {
+	fingerprint uint64 // hash of the record's content fingerprint
+	line        int64  // the record's source line
+	recorded    bool   // the record was stored
+}
+
 type incoming struct {
 	pb     *halovetv1.ShipmentRecord
 	single bool
@@ -264,7 +271,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 	toWrite := make(chan []*pendingRecord)
 	writeErr := make(chan error, 1)
 	writerDone := make(chan struct{})
-	stored := newKeyWindow(validate.DuplicateWindow) // the writer's: whether each key was stored
+	stored := validate.NewKeyWindow[windowEntry](validate.DuplicateWindow) // the writer's: whether each key was stored
 	go func() {
 		defer close(writerDone)
 		for batch := range toWrite {
@@ -277,10 +284,10 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 				switch {
 				case p.streamDup && p.verdict.Replayed:
 					// Stored if the earlier record of the stream was.
-					e, _ := stored.get(p.keyHash)
+					e, _ := stored.Get(p.keyHash)
 					p.recorded = e.recorded
 				case p.hasKey && !p.streamDup:
-					stored.put(p.keyHash, windowEntry{recorded: p.recorded})
+					stored.Put(p.keyHash, windowEntry{recorded: p.recorded})
 				}
 			}
 			if err := sendRecorded(stream, batch, &sum); err != nil {
@@ -306,7 +313,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 
 	// Keys seen in this stream, for the same answer however the records fall into write
 	// batches; bounded, like a check stream's (validate.DuplicateWindow).
-	seen := newKeyWindow(validate.DuplicateWindow)
+	seen := validate.NewKeyWindow[windowEntry](validate.DuplicateWindow)
 	var pending []*pendingRecord
 	handOver := func() { pending = nil }
 	for {
@@ -355,9 +362,9 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 		// Quota is drawn by the store under lock, not by an in-memory ledger.
 		p.verdict = validate.Check(env, &p.rec, nil)
 		if k := recordKey(&p.rec); k[1] != "" {
-			p.keyHash, p.hasKey = seen.hash(k), true
-			fp := seen.hashString(p.verdict.Fingerprint)
-			if prev, dup := seen.get(p.keyHash); dup {
+			p.keyHash, p.hasKey = seen.Hash(k[0], k[1]), true
+			fp := seen.HashString(p.verdict.Fingerprint)
+			if prev, dup := seen.Get(p.keyHash); dup {
 				same := prev.fingerprint == fp
 				earlier := ""
 				if same {
@@ -367,7 +374,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 				p.verdict.Draws = nil
 				p.verdict.Replayed, p.streamDup = same, true
 			} else {
-				seen.put(p.keyHash, windowEntry{fingerprint: fp, line: p.rec.Line})
+				seen.Put(p.keyHash, windowEntry{fingerprint: fp, line: p.rec.Line})
 			}
 		}
 		if p.verdict.Outcome != validate.OutcomeRejected && !p.streamDup {

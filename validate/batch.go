@@ -1,7 +1,6 @@
 package validate
 
 import (
-	"hash/maphash"
 	"strconv"
 	"strings"
 )
@@ -20,11 +19,7 @@ const DuplicateWindow = 100_000
 type Batch struct {
 	env    *Env
 	ledger *MemoryLedger
-	seed   maphash.Seed
-	seen   map[uint64]seenRecord // hash of company and key
-	ring   []uint64              // the remembered hashes, oldest at next once full
-	next   int
-	window int
+	seen   *KeyWindow[seenRecord] // by hash of company and key
 }
 
 type seenRecord struct {
@@ -36,24 +31,11 @@ type seenRecord struct {
 func NewBatch(env *Env) *Batch { return newBatch(env, DuplicateWindow) }
 
 func newBatch(env *Env, window int) *Batch {
-	return &Batch{env: env, ledger: NewMemoryLedger(), seed: maphash.MakeSeed(),
-		seen: make(map[uint64]seenRecord), window: window}
+	return &Batch{env: env, ledger: NewMemoryLedger(), seen: NewKeyWindow[seenRecord](window)}
 }
 
 // Ledger returns the batch's quota ledger.
 func (b *Batch) Ledger() *MemoryLedger { return b.ledger }
-
-// remember adds a key, forgetting the oldest one when the window is full.
-func (b *Batch) remember(h uint64, s seenRecord) {
-	if len(b.ring) < b.window {
-		b.ring = append(b.ring, h)
-	} else {
-		delete(b.seen, b.ring[b.next])
-		b.ring[b.next] = h
-		b.next = (b.next + 1) % b.window
-	}
-	b.seen[h] = s
-}
 
 // Check checks the next record of the stream. A record whose company and key came before
 // with the same content is a replay: it gets the DUP_REPLAY notice, Replayed is set and
@@ -63,20 +45,15 @@ func (b *Batch) Check(r *Record) Verdict {
 	if key == "" {
 		return Check(b.env, r, b.ledger)
 	}
-	var h maphash.Hash
-	h.SetSeed(b.seed)
-	h.WriteString(company)
-	h.WriteByte(0)
-	h.WriteString(key)
-	k := h.Sum64()
-	prev, dup := b.seen[k]
+	k := b.seen.Hash(company, key)
+	prev, dup := b.seen.Get(k)
 	if !dup {
 		v := Check(b.env, r, b.ledger)
-		b.remember(k, seenRecord{fingerprint: maphash.String(b.seed, v.Fingerprint), line: r.Line})
+		b.seen.Put(k, seenRecord{fingerprint: b.seen.HashString(v.Fingerprint), line: r.Line})
 		return v
 	}
 	v := Check(b.env, r, nil) // nothing drawn for a duplicate
-	same := prev.fingerprint == maphash.String(b.seed, v.Fingerprint)
+	same := prev.fingerprint == b.seen.HashString(v.Fingerprint)
 	earlier := v.Fingerprint
 	if !same {
 		earlier = "" // only equality matters to DuplicateFinding
