@@ -229,8 +229,10 @@ type incoming struct {
 // writer as soon as the writer is free, so a client that waits for its answers is never
 // kept waiting for a full batch. Answers go back in the records' order. The store is
 // authoritative for quotas and keys: a record it turns down gets the finding that says
-// why, and the rest of the batch is stored. Memory is bounded by the batch size: keys
-// of earlier batches are looked up in the store, not kept.
+// why, and the rest of the batch is stored. Memory is bounded: the batches in flight,
+// and a window of the last validate.DuplicateWindow keys (as hashes) so that a key
+// repeated within the stream gets the same answer whichever batch it falls in; keys
+// from earlier calls are found in the store.
 func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_RecordShipmentsServer) error {
 	ctx, cancel := context.WithCancel(stream.Context())
 	defer cancel()
@@ -326,7 +328,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 				handOver()
 				continue
 			case <-ctx.Done():
-				return finish(ctx.Err())
+				return finish(status.FromContextError(ctx.Err()).Err())
 			}
 		case len(pending) > 0:
 			select {
@@ -335,13 +337,13 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 				handOver()
 				continue
 			case <-ctx.Done():
-				return finish(ctx.Err())
+				return finish(status.FromContextError(ctx.Err()).Err())
 			}
 		default:
 			select {
 			case in, open = <-recv:
 			case <-ctx.Done():
-				return finish(ctx.Err())
+				return finish(status.FromContextError(ctx.Err()).Err())
 			}
 		}
 		if !open {
