@@ -7,7 +7,7 @@ BIN := bin/halovet
 FUZZTIME ?= 4s
 
 .DEFAULT_GOAL := help
-.PHONY: help demo test generate lint fmt-check vet drift unit fuzz bench build postgres
+.PHONY: help demo test generate lint breaking fmt-check vet drift unit fuzz bench build postgres
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -39,9 +39,12 @@ drift: generate ## fail when the committed generated code differs from a fresh g
 	  echo "generated code in proto/ is not current; run 'make generate' and commit:"; \
 	  git status --porcelain -- proto; exit 1; fi
 
-lint: ## buf lint and format check (and go vet)
+lint: ## buf lint and buf format check of proto/
 	$(BUF) lint
 	$(BUF) format -d --exit-code
+
+breaking: ## buf breaking-change check of proto/ against the main branch (run on a topic branch)
+	$(BUF) breaking --against '.git#branch=main'
 
 unit:
 	$(GO) test -race -count=1 ./...
