@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"os"
 	"os/signal"
+	"regexp"
 	"strings"
 	"syscall"
 )
@@ -18,6 +19,8 @@ func main() {
 	stop()
 	os.Exit(code)
 }
+
+var rpcErrorText = regexp.MustCompile(`rpc error: code = (\w+) desc = `)
 
 // exitError carries a process exit code with its message.
 type exitError struct {
@@ -53,6 +56,8 @@ func run(ctx context.Context, args []string) int {
 	}
 	// One line: a wrapped driver error may span several.
 	msg := strings.Join(strings.Fields(strings.ReplaceAll(err.Error(), "\n", "; ")), " ")
+	// "rpc error: code = NotFound desc = ..." reads better as "the server answered NotFound: ...".
+	msg = rpcErrorText.ReplaceAllString(msg, "the server answered $1: ")
 	fmt.Fprintf(os.Stderr, "halovet %s: %s\n", args[0], msg)
 	var ee *exitError
 	if errors.As(err, &ee) {
