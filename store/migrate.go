@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io/fs"
 
+	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/stdlib"
 	"github.com/pressly/goose/v3"
 	"github.com/pressly/goose/v3/lock"
@@ -33,9 +34,9 @@ func provider(db *sql.DB) (*goose.Provider, error) {
 }
 
 func openSQL(url string) (*sql.DB, error) {
-	cfg, err := stdlibConfig(url)
+	cfg, err := pgx.ParseConfig(url)
 	if err != nil {
-		return nil, err
+		return nil, errBadURL
 	}
 	return stdlib.OpenDB(*cfg), nil
 }
