@@ -81,9 +81,6 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	return s
 }
 
-// GRPC exposes the underlying grpc.Server (for in-process tests).
-func (s *Server) GRPC() *grpc.Server { return s.grpc }
-
 // Serve accepts calls on lis until ctx is done, then shuts down gracefully: health turns
 // NOT_SERVING, in-flight calls get the grace period to finish, and what is left is cut.
 // It returns nil after a clean shutdown.

@@ -58,20 +58,6 @@ func Migrate(ctx context.Context, url string) (int64, error) {
 	return p.GetDBVersion(ctx)
 }
 
-// SchemaStatus reports the database's schema version and the newest embedded one.
-func SchemaStatus(ctx context.Context, url string) (current, head int64, err error) {
-	db, err := openSQL(url)
-	if err != nil {
-		return 0, 0, err
-	}
-	defer db.Close()
-	p, err := provider(db)
-	if err != nil {
-		return 0, 0, err
-	}
-	return p.GetVersions(ctx)
-}
-
 // headVersion is the newest embedded migration's version.
 func headVersion() (int64, error) {
 	entries, err := fs.ReadDir(migrationFiles, "migrations")

@@ -82,7 +82,6 @@ type checker struct {
 	sub         *substances.Substance
 	blend       *substances.Blend
 	adHoc       bool
-	adHocShares []substances.Share
 
 	ev     substances.Evaluation
 	evOK   bool
