@@ -20,11 +20,11 @@ import (
 // status, summed in SQL):
 //   - transit, any purpose: Transit (never counted).
 //   - import of used, recycled or reclaimed material: UsedImports (not counted, except in an
-//     Article 5 Party's base years; Decision IV/24, CONTROL_RULES §1 [V]).
+//     Article 5 Party's base years; Decision IV/24 [V]).
 //   - other imports: Imports, and also
 //     feedstock → Feedstock (Art. 1 para 5; Decision VII/30),
 //     process-agent → Feedstock too: the Secretariat's working formula deducts feedstock and
-//     process-agent uses together (CONTROL_RULES §1, S16; Decision X/14 sets conditions a
+//     process-agent uses together (Decision X/14 sets the conditions a
 //     note reminds of),
 //     qps → QPS, for methyl bromide (Annex E) only; another substance declared for QPS
 //     counts as an ordinary import, with a note.
@@ -48,7 +48,7 @@ import (
 // entry states a true zero.
 
 // nonPartyExportsFrom is the first year in which exports to non-Parties are not deducted
-// (Art. 3 para 1(c); CONTROL_RULES §1 [V]).
+// (Art. 3 para 1(c) [V]).
 const nonPartyExportsFrom = 1993
 
 // consumptionData is what the arithmetic reads from the database for a set of years.
@@ -82,7 +82,7 @@ func shipmentFlows(t store.ShipmentTotal, g substances.Group) (f controls.Flows,
 			f.Feedstock = m
 		case "process-agent":
 			f.Feedstock = m
-			note = fmt.Sprintf("%d: %s t of %s imported as process agent deducted with feedstock (Secretariat formula, CONTROL_RULES §1 S16); Decision X/14 excludes only qualifying uses in plants operating before 1999",
+			note = fmt.Sprintf("%d: %s t of %s imported as process agent deducted with feedstock (Ozone Secretariat's data-reporting formula); Decision X/14 excludes only qualifying uses in plants operating before 1999",
 				t.Year, fmtT(m), t.Designation)
 		case "qps":
 			if g == substances.GroupEI {
