@@ -12,6 +12,7 @@ import (
 	"sync/atomic"
 	"time"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 	"google.golang.org/protobuf/encoding/protojson"
 
@@ -22,7 +23,7 @@ import (
 )
 
 func init() {
-	register("check", "check (and with --record, record) a batch file of shipments", runCheck)
+	addVerb("check", "check (and with --record, record) a batch file of shipments", fmt.Sprintf(checkUsage, csvColumnHelp()), defineCheck)
 }
 
 const checkUsage = `check [flags] FILE
@@ -62,8 +63,7 @@ func csvColumnHelp() string {
 	return b.String()
 }
 
-func runCheck(ctx context.Context, args []string) error {
-	fs := newFlagSet("check", fmt.Sprintf(checkUsage, csvColumnHelp()))
+func defineCheck(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
 	format := fs.String("format", "", "input format: csv or jsonl (default: from the file extension)")
@@ -73,46 +73,45 @@ func runCheck(ctx context.Context, args []string) error {
 	maxLine := fs.Int("max-line-bytes", validate.DefaultMaxLineBytes, "longest input line accepted, in bytes")
 	output := fs.String("output", "text", "summary format: text or json")
 	perMessage := fs.Int("records-per-message", defaultPerMessage, "records sent in one stream message (1 to 4096); 1 when records trickle in through a pipe")
-	if err := parseFlags(fs, args); err != nil {
-		return err
+	return func(ctx context.Context, args []string) error {
+		if len(args) != 1 {
+			return usageErr("give exactly one FILE (see --help); got %d arguments", len(args))
+		}
+		if *perMessage < 1 || *perMessage > 4096 {
+			return usageErr("--records-per-message %d: use 1 to 4096", *perMessage)
+		}
+		if *output != "text" && *output != "json" {
+			return usageErr("--output %q: use text or json", *output)
+		}
+		opts := checkOptions{path: args[0], record: *record, reportPath: *report, maxLine: *maxLine, output: *output,
+			perMessage: *perMessage}
+		var err error
+		if opts.format, err = pickFormat(*format, opts.path); err != nil {
+			return err
+		}
+		switch *progress {
+		case "always":
+			opts.progress = true
+		case "never":
+		case "auto":
+			opts.progress = isTerminal(os.Stderr)
+		default:
+			return usageErr("--progress %q: use auto, always or never", *progress)
+		}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		sum, err := checkFile(ctx, conn, opts, os.Stdout, os.Stderr)
+		if err != nil {
+			return err
+		}
+		if sum.Rejected > 0 {
+			return rejectedErr("%d of %d records rejected", sum.Rejected, sum.Records)
+		}
+		return nil
 	}
-	if fs.NArg() != 1 {
-		return usageErr("give exactly one FILE (see --help)")
-	}
-	if *perMessage < 1 || *perMessage > 4096 {
-		return usageErr("--records-per-message %d: use 1 to 4096", *perMessage)
-	}
-	if *output != "text" && *output != "json" {
-		return usageErr("--output %q: use text or json", *output)
-	}
-	opts := checkOptions{path: fs.Arg(0), record: *record, reportPath: *report, maxLine: *maxLine, output: *output,
-		perMessage: *perMessage}
-	var err error
-	if opts.format, err = pickFormat(*format, opts.path); err != nil {
-		return err
-	}
-	switch *progress {
-	case "always":
-		opts.progress = true
-	case "never":
-	case "auto":
-		opts.progress = isTerminal(os.Stderr)
-	default:
-		return usageErr("--progress %q: use auto, always or never", *progress)
-	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	sum, err := checkFile(ctx, conn, opts, os.Stdout, os.Stderr)
-	if err != nil {
-		return err
-	}
-	if sum.Rejected > 0 {
-		return &exitError{code: 1, err: fmt.Errorf("%d of %d records rejected", sum.Rejected, sum.Records)}
-	}
-	return nil
 }
 
 func pickFormat(flag, path string) (validate.Format, error) {

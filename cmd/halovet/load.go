@@ -1,6 +1,8 @@
 package main
 
 import (
+	"github.com/spf13/pflag"
+
 	"context"
 	"encoding/json"
 	"fmt"
@@ -15,8 +17,8 @@ import (
 )
 
 func init() {
-	register("load", "load parties, companies and licences from a JSON file", runLoad)
-	register("licences", "list licences with their quota balances", runLicences)
+	addVerb("load", "load parties, companies and licences from a JSON file", loadUsage, defineLoad)
+	addVerb("licences", "list licences with their quota balances", licencesUsage, defineLicences)
 }
 
 const loadUsage = `load [flags] FILE
@@ -36,27 +38,25 @@ type registryFile struct {
 	Licences  []json.RawMessage `json:"licences"`
 }
 
-func runLoad(ctx context.Context, args []string) error {
-	fs := newFlagSet("load", loadUsage)
+func defineLoad(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
-	if err := parseFlags(fs, args); err != nil {
-		return err
+	return func(ctx context.Context, args []string) error {
+		if len(args) != 1 {
+			return usageErr("give exactly one FILE (see --help)")
+		}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		n, err := loadRegistry(ctx, conn, args[0])
+		if err != nil {
+			return err
+		}
+		fmt.Println(n)
+		return nil
 	}
-	if fs.NArg() != 1 {
-		return usageErr("give exactly one FILE (see --help)")
-	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	n, err := loadRegistry(ctx, conn, fs.Arg(0))
-	if err != nil {
-		return err
-	}
-	fmt.Println(n)
-	return nil
 }
 
 // loadRegistry sends a registry file's contents and returns a one-line account.
@@ -122,21 +122,22 @@ const licencesUsage = `licences [flags]
 Lists licences with their quota lines: allocated, drawn and remaining, in each
 line's unit (metric t, ODP t or CO2-eq t).`
 
-func runLicences(ctx context.Context, args []string) error {
-	fs := newFlagSet("licences", licencesUsage)
+func defineLicences(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
 	company := fs.String("company", "", "only this company's licences")
 	year := fs.Int("year", 0, "only licences valid on some day of this year")
-	if err := parseFlags(fs, args); err != nil {
-		return err
+	return func(ctx context.Context, args []string) error {
+		if len(args) > 0 {
+			return usageErr("unexpected argument %q (see --help)", args[0])
+		}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		return printLicences(ctx, conn, os.Stdout, *company, int32(*year))
 	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	return printLicences(ctx, conn, os.Stdout, *company, int32(*year))
 }
 
 var unitLabel = map[halovetv1.QuotaUnit]string{
