@@ -332,10 +332,11 @@ func (s *Summary) WriteText(w io.Writer) error {
 	fmt.Fprintf(tw, "Records\t%d\t\n", s.Records)
 	fmt.Fprintf(tw, "accepted\t%d\t\n", s.Accepted)
 	fmt.Fprintf(tw, "accepted with warnings\t%d\t\n", s.AcceptedWithWarnings)
-	fmt.Fprintf(tw, "rejected\t%d\t\n", s.Rejected)
 	if s.Replayed > 0 {
-		fmt.Fprintf(tw, "of which replays\t%d\t\n", s.Replayed)
+		// Replays are accepted records recorded before: they belong with the accepted ones.
+		fmt.Fprintf(tw, "  of these, replays\t%d\t\n", s.Replayed)
 	}
+	fmt.Fprintf(tw, "rejected\t%d\t\n", s.Rejected)
 	if err := tw.Flush(); err != nil {
 		return err
 	}

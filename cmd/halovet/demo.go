@@ -131,12 +131,12 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 
 		shipments := filepath.Join(*dir, "shipments.csv")
 		step("Checking %s (nothing stored)", shipments)
-		if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV,
+		if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV, maxRejected: 10,
 			maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
 			return err
 		}
-		step("Recording %s: accepted records are stored and draw down their quotas", shipments)
-		if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV, record: true,
+		step("Recording %s: accepted records are stored and draw down their quotas (the verdicts are those above)", shipments)
+		if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV, record: true, brief: true,
 			maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
 			return err
 		}

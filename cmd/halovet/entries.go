@@ -143,7 +143,11 @@ func readEntries(r io.Reader) ([]*halovetv1.NationalEntry, []int, []entryLineErr
 	}
 	for _, c := range entryColumns[:5] {
 		if _, ok := col[c]; !ok {
-			fail(hline, "required column %q is missing; the header must name %s (note is optional)", c, strings.Join(entryColumns[:5], ", "))
+			hint := ""
+			if _, ok := col["record_key"]; ok {
+				hint = "; this looks like a shipments file: check it with 'halovet check FILE'"
+			}
+			fail(hline, "required column %q is missing; the header must name %s (note is optional)%s", c, strings.Join(entryColumns[:5], ", "), hint)
 		}
 	}
 	if len(errs) > 0 {
