@@ -637,7 +637,7 @@ func (r *rejectedLines) write(w io.Writer, reportPath string) error {
 	if rest := r.total - len(r.first); rest > 0 {
 		where := "give --report FILE.csv for every verdict"
 		if reportPath != "" {
-			where = "every verdict is in " + reportPath
+			where = "every verdict is in the --report file"
 		}
 		fmt.Fprintf(w, "... and %d more rejected lines (%s)\n", rest, where)
 	}
