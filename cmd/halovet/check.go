@@ -15,7 +15,6 @@ import (
 
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
@@ -674,10 +673,5 @@ func writeSummaryJSON(w io.Writer, s *validate.Summary, recorded bool) error {
 	if recorded {
 		pb.Recorded = s.Accepted + s.AcceptedWithWarnings - s.Replayed
 	}
-	b, err := protojson.MarshalOptions{Multiline: true, EmitUnpopulated: true}.Marshal(pb)
-	if err != nil {
-		return err
-	}
-	_, err = fmt.Fprintf(w, "%s\n", b)
-	return err
+	return jsonDoc(w, pb)
 }

@@ -75,6 +75,24 @@ Flags may come before or after the arguments; "--" ends the flags.
 Results are decision support: the treaty text, national law, the national
 authority and licensed practice prevail.`
 
+const jsonDialectHelp = `Every machine-readable output of halovet (--output json, the JSON Lines of lookup
+and of check --report FILE.jsonl) is written in one dialect:
+
+  - keys are snake_case: the API's .proto field names, which are also the column
+    names of --output csv;
+  - every field is present, zeros included (0, false, "", []); a nested message that
+    is not set (a figure that is unknown) is left out;
+  - enums are lower-case words joined by hyphens, without the type's prefix:
+    QUOTA_UNIT_CO2E_TONNES is "co2e-tonnes", OUTCOME_ACCEPTED_WITH_WARNINGS is
+    "accepted-with-warnings";
+  - integers are JSON numbers (counts are never strings); decimals are the shortest
+    text that reads back as the same number;
+  - fields come in the API's order, map entries sorted by key; a document is indented
+    by two spaces; a JSON Lines record is one line.
+
+CSV output has a header row with the same snake_case names, carries full values (text
+output rounds for reading), and uses the same enum words.`
+
 // newRoot builds the command tree. Every call makes fresh flags, so tests may run the
 // command line many times in one process.
 func newRoot(ctx context.Context) *cobra.Command {
@@ -108,6 +126,7 @@ func newRoot(ctx context.Context) *cobra.Command {
 		},
 	})
 	root.AddCommand(manCommand(root))
+	root.AddCommand(&cobra.Command{Use: "json", Short: "the JSON and CSV every --output json|csv writes", Long: jsonDialectHelp})
 	root.CompletionOptions.HiddenDefaultCmd = false
 	return root
 }

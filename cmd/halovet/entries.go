@@ -266,7 +266,7 @@ func lineViolations(err error, lines []int) error {
 func defineEntries(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
-	output := fs.String("output", "text", "output: text, csv (the stored entries in the file format), or json (the API's response in protobuf JSON)")
+	output := fs.String("output", "text", "output: text, csv (the stored entries in the file format), or json (the API's response; see 'halovet help json')")
 	list := fs.Bool("list", false, "list the stored entries instead of importing a file")
 	year := fs.Int("year", 0, "with --list: only this year")
 	return func(ctx context.Context, args []string) error {

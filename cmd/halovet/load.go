@@ -11,7 +11,6 @@ import (
 	"text/tabwriter"
 
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
@@ -26,7 +25,7 @@ const loadUsage = `load [flags] FILE
 Loads a registry file into the server: party settings of countries, companies, and
 licences with quota lines. The file is a JSON object with arrays "parties",
 "companies" and "licences" whose items are the API's Party, Company and Licence
-messages in protobuf JSON (see testdata/demo/scenario.json). Existing parties and
+messages in protobuf JSON or halovet's JSON dialect (see testdata/demo/scenario.json). Existing parties and
 companies are updated; a licence that exists already is amended. A licence whose
 status is SUSPENDED or REVOKED is issued active and then set to that status, so the
 audit log shows both steps.`
@@ -72,7 +71,7 @@ func loadRegistry(ctx context.Context, conn *grpc.ClientConn, path string) (stri
 	lic := halovetv1.NewLicensingServiceClient(conn)
 	for i, raw := range rf.Parties {
 		p := &halovetv1.Party{}
-		if err := protojson.Unmarshal(raw, p); err != nil {
+		if err := unmarshalDialect(raw, p); err != nil {
 			return "", &exitError{code: 2, err: fmt.Errorf("%s: parties[%d]: %w", path, i, err)}
 		}
 		if _, err := lic.PutParty(ctx, &halovetv1.PutPartyRequest{Party: p}); err != nil {
@@ -81,7 +80,7 @@ func loadRegistry(ctx context.Context, conn *grpc.ClientConn, path string) (stri
 	}
 	for i, raw := range rf.Companies {
 		c := &halovetv1.Company{}
-		if err := protojson.Unmarshal(raw, c); err != nil {
+		if err := unmarshalDialect(raw, c); err != nil {
 			return "", &exitError{code: 2, err: fmt.Errorf("%s: companies[%d]: %w", path, i, err)}
 		}
 		if _, err := lic.RegisterCompany(ctx, &halovetv1.RegisterCompanyRequest{Company: c}); err != nil {
@@ -90,7 +89,7 @@ func loadRegistry(ctx context.Context, conn *grpc.ClientConn, path string) (stri
 	}
 	for i, raw := range rf.Licences {
 		l := &halovetv1.Licence{}
-		if err := protojson.Unmarshal(raw, l); err != nil {
+		if err := unmarshalDialect(raw, l); err != nil {
 			return "", &exitError{code: 2, err: fmt.Errorf("%s: licences[%d]: %w", path, i, err)}
 		}
 		want := l.GetStatus()

@@ -14,7 +14,6 @@ import (
 	"text/tabwriter"
 
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
@@ -43,9 +42,9 @@ gets "did you mean" suggestions.
 one object per IDENTIFIER, in order, {"identifier": "...", "resolution": ...,
 "entry": ..., "evaluation": ...}, where resolution is the ResolveIdentifierResponse,
 entry the GetEntryResponse and evaluation the EvaluateMixtureResponse of the entry
-(cautions, blend GWPs), each in protobuf JSON (protojson: lowerCamelCase names,
-fields at their zero value left out). entry and evaluation are present only when the
-identifier resolved to one entry.
+(cautions, blend GWPs), each in halovet's JSON dialect ('halovet help json':
+snake_case names, zeros kept, enums as words). entry and evaluation are present only
+when the identifier resolved to one entry.
 
 Exit code: 0 when every IDENTIFIER resolved to exactly one entry; 1 when one did not
 (ambiguous or unknown); 2 for unusable command-line input; 3 when no server answers.
@@ -58,7 +57,7 @@ Examples:
 
 // outputFlag registers --output text|json.
 func reportOutputFlag(fs *pflag.FlagSet) *string {
-	return fs.String("output", "text", "output format: text (a report for people) or json (protobuf JSON; see above)")
+	return fs.String("output", "text", "output format: text (a report for people) or json (see 'halovet help json')")
 }
 
 func checkReportOutput(v string) error {
@@ -183,19 +182,12 @@ func writeLookupJSON(w io.Writer, r lookupResult) error {
 		Entry      json.RawMessage `json:"entry,omitempty"`
 		Evaluation json.RawMessage `json:"evaluation,omitempty"`
 	}{Identifier: r.identifier}
-	var err error
-	if rec.Resolution, err = protojson.Marshal(r.resolution); err != nil {
-		return err
-	}
+	rec.Resolution = jsonLine(r.resolution)
 	if r.entry != nil {
-		if rec.Entry, err = protojson.Marshal(r.entry); err != nil {
-			return err
-		}
-		if rec.Evaluation, err = protojson.Marshal(r.evaluation); err != nil {
-			return err
-		}
+		rec.Entry = jsonLine(r.entry)
+		rec.Evaluation = jsonLine(r.evaluation)
 	}
-	b, err := json.Marshal(rec) // compacts the protojson text
+	b, err := json.Marshal(rec) // one line
 	if err != nil {
 		return err
 	}

@@ -13,7 +13,6 @@ import (
 	"text/tabwriter"
 
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
@@ -38,7 +37,7 @@ the safety class and cautions. Whole GWPs are rounded half-up, the unrounded
 mass-weighted sum beside them.
 
 --output text (default) prints a report for people; --output json prints the
-EvaluateMixtureResponse in protobuf JSON (protojson).
+EvaluateMixtureResponse in halovet's JSON dialect ('halovet help json').
 
 Exit code: 0 on success; 2 when the input is unusable, whether the command line (a
 SPEC that is not IDENTIFIER:PERCENT pairs, a negative --mass-kg) or what the server
@@ -137,12 +136,7 @@ func mixReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Writer, 
 		return rpcFailure("evaluating "+what, err)
 	}
 	if output == "json" {
-		b, err := protojson.MarshalOptions{Multiline: true}.Marshal(ev)
-		if err != nil {
-			return err
-		}
-		_, err = w.Write(append(b, '\n'))
-		return err
+		return jsonDoc(w, ev)
 	}
 	return writeMixText(w, ev)
 }

@@ -13,14 +13,13 @@ import (
 	"text/tabwriter"
 
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
 // The consumption reports: consumption, baseline, compliance and quotas. Each asks the
-// server's ConsumptionService and prints the answer as a text table, CSV or protobuf JSON.
+// server's ConsumptionService and prints the answer as a text table, CSV or JSON.
 
 func init() {
 	addVerb("consumption", "report a year's consumption per Annex group and substance", consumptionUsage, defineConsumption)
@@ -35,7 +34,7 @@ type reportFlags struct {
 
 func (r *reportFlags) register(fs *pflag.FlagSet) {
 	r.client.register(fs)
-	fs.StringVar(&r.output, "output", "text", "output: text (a table for people), csv, or json (the API's response in protobuf JSON)")
+	fs.StringVar(&r.output, "output", "text", "output: text (a table for people), csv, or json (the API's response; see 'halovet help json')")
 }
 
 // check refuses positional arguments and checks --output.
@@ -60,14 +59,9 @@ func (r *reportFlags) withConn(fn func(conn *grpc.ClientConn) error) error {
 	return fn(conn)
 }
 
-// writeProtoJSON prints a response in protobuf JSON, indented, ending with a newline.
+// writeProtoJSON prints a response in the command line's JSON dialect (jsonout.go).
 func writeProtoJSON(w io.Writer, m proto.Message) error {
-	b, err := protojson.MarshalOptions{Multiline: true, Indent: "  "}.Marshal(m)
-	if err != nil {
-		return err
-	}
-	_, err = fmt.Fprintf(w, "%s\n", b)
-	return err
+	return jsonDoc(w, m)
 }
 
 // Number formats. Text rounds for reading (0.001 t and ODP t, 1 CO2-eq t); CSV carries
