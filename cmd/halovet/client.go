@@ -9,7 +9,6 @@ import (
 	"strings"
 
 	"github.com/spf13/pflag"
-
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials"
 	"google.golang.org/grpc/credentials/insecure"

@@ -1,8 +1,6 @@
 package main
 
 import (
-	"github.com/spf13/pflag"
-
 	"context"
 	"encoding/csv"
 	"fmt"
@@ -11,6 +9,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"

@@ -1,19 +1,17 @@
 package main
 
 import (
-	"errors"
-	"net"
-
-	"github.com/jackc/pgx/v5/pgconn"
-
-	"github.com/spf13/pflag"
-
 	"context"
+	"errors"
 	"fmt"
 	"log/slog"
+	"net"
 	"os"
 	"path/filepath"
 	"time"
+
+	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/spf13/pflag"
 
 	"github.com/halovet/halovet/pglocal"
 	"github.com/halovet/halovet/store"

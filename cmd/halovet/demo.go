@@ -1,8 +1,6 @@
 package main
 
 import (
-	"github.com/spf13/pflag"
-
 	"context"
 	"fmt"
 	"io"
@@ -13,6 +11,7 @@ import (
 	"sort"
 	"time"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	reflectionpb "google.golang.org/grpc/reflection/grpc_reflection_v1"

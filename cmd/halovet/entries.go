@@ -1,8 +1,6 @@
 package main
 
 import (
-	"github.com/spf13/pflag"
-
 	"context"
 	"encoding/csv"
 	"errors"
@@ -14,6 +12,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/genproto/googleapis/rpc/errdetails"
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"

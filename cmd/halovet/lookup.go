@@ -1,8 +1,6 @@
 package main
 
 import (
-	"github.com/spf13/pflag"
-
 	"context"
 	"encoding/json"
 	"fmt"
@@ -13,6 +11,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"

@@ -13,7 +13,6 @@ import (
 	"strings"
 	"testing"
 
-
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 

@@ -7,7 +7,6 @@ import (
 	"strings"
 	"testing"
 
-
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 

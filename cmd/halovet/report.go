@@ -1,8 +1,6 @@
 package main
 
 import (
-	"github.com/spf13/pflag"
-
 	"context"
 	"encoding/csv"
 	"fmt"
@@ -12,6 +10,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 	"google.golang.org/protobuf/proto"
 

@@ -15,7 +15,6 @@ import (
 	"strings"
 	"testing"
 
-
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
