@@ -144,7 +144,7 @@ func NewCSVReader(r io.Reader, opts ...ReaderOption) (*CSVReader, error) {
 			}
 			return nil, fmt.Errorf("reading CSV header: %w", err)
 		}
-		if !isBlank(line) {
+		if !isSkipped(line) {
 			break
 		}
 	}
@@ -209,7 +209,7 @@ func (c *CSVReader) Next() (Record, *LineError, error) {
 			}
 			return Record{}, nil, err
 		}
-		if isBlank(line) {
+		if isSkipped(line) {
 			continue
 		}
 		lineNo := c.sc.line

@@ -53,7 +53,7 @@ func (j *JSONLReader) Next() (Record, *LineError, error) {
 			}
 			return Record{}, nil, err
 		}
-		if isBlank(line) {
+		if isSkipped(line) {
 			continue
 		}
 		lineNo := j.sc.line

@@ -207,8 +207,11 @@ func checkText(line []byte) string {
 	return ""
 }
 
-func isBlank(line []byte) bool {
-	return len(bytes.TrimSpace(line)) == 0
+// isSkipped tells the lines every reader passes over: blank lines and comment lines,
+// whose first character other than a space or tab is '#'.
+func isSkipped(line []byte) bool {
+	t := bytes.TrimSpace(line)
+	return len(t) == 0 || t[0] == '#'
 }
 
 // tooLongError turns a skipped line into its line error.

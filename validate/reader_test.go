@@ -390,3 +390,24 @@ func FuzzJSONLReader(f *testing.F) {
 	f.Add([]byte(strings.Repeat("{", 300) + "\r\n{\"a\":1}\r\n"))
 	f.Fuzz(func(t *testing.T, data []byte) { fuzzReader(t, data, false) })
 }
+
+// TestReadersSkipCommentLines: a line whose first non-space character is '#' is passed
+// over by both readers, before and after the CSV header, and line numbers still count it.
+func TestReadersSkipCommentLines(t *testing.T) {
+	rec := `A1,import,CO-1,L-1,XA,2025-03-01,HCFC-22,2903.71,75-45-6,CHClF2,13.6,kg,10,servicing,virgin,`
+	csvIn := "# invented demo batch\n" + csvHeader + "\n  # a comment after the header\n" + rec + "\n"
+	cr, err := NewCSVReader(strings.NewReader(csvIn))
+	if err != nil {
+		t.Fatalf("NewCSVReader with a comment before the header: %v", err)
+	}
+	got := readAll(t, cr)
+	if len(got) != 1 || got[0].lerr != nil || got[0].rec.Key != "A1" || got[0].rec.Line != 4 {
+		t.Fatalf("CSV with comments: %+v; want one record A1 on line 4", got)
+	}
+	jsonIn := "# invented\n" + `{"record_key":"J1","direction":"import","company_id":"CO-1","substance":"HCFC-22","quantity":"1","quantity_unit":"kg"}` + "\n#end\n"
+	jr := NewJSONLReader(strings.NewReader(jsonIn))
+	got = readAll(t, jr)
+	if len(got) != 1 || got[0].lerr != nil || got[0].rec.Key != "J1" || got[0].rec.Line != 2 {
+		t.Fatalf("JSON Lines with comments: %+v; want one record J1 on line 2", got)
+	}
+}

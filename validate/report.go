@@ -143,13 +143,13 @@ func NewJSONLReport(w io.Writer) *JSONLReport {
 type jsonFinding struct {
 	Code     string `json:"code"`
 	Severity string `json:"severity"`
-	Field    string `json:"field,omitempty"`
+	Field    string `json:"field"`
 	Message  string `json:"message"`
 }
 
 type jsonComponent struct {
 	Designation string  `json:"designation"`
-	AnnexGroup  string  `json:"annex_group,omitempty"`
+	AnnexGroup  string  `json:"annex_group"`
 	MassPercent float64 `json:"mass_percent"`
 	MassKg      float64 `json:"mass_kg"`
 	ODPTonnes   float64 `json:"odp_tonnes"`
@@ -163,8 +163,8 @@ type jsonFigures struct {
 	ODPTonnes           float64         `json:"odp_tonnes"`
 	CO2eTonnes          float64         `json:"co2e_tonnes"`
 	CountsInConsumption bool            `json:"counts_in_consumption"`
-	PartnerNonParty     bool            `json:"partner_non_party,omitempty"`
-	SafetyClass         string          `json:"safety_class,omitempty"`
+	PartnerNonParty     bool            `json:"partner_non_party"`
+	SafetyClass         string          `json:"safety_class"`
 	Components          []jsonComponent `json:"components"`
 }
 
@@ -182,7 +182,7 @@ type jsonVerdict struct {
 	Findings    []jsonFinding `json:"findings"`
 	Figures     *jsonFigures  `json:"figures,omitempty"`
 	Draws       []jsonDraw    `json:"draws,omitempty"`
-	Replayed    bool          `json:"replayed,omitempty"`
+	Replayed    bool          `json:"replayed"`
 	Fingerprint string        `json:"fingerprint,omitempty"`
 }
 
@@ -332,10 +332,11 @@ func (s *Summary) WriteText(w io.Writer) error {
 	fmt.Fprintf(tw, "Records\t%d\t\n", s.Records)
 	fmt.Fprintf(tw, "accepted\t%d\t\n", s.Accepted)
 	fmt.Fprintf(tw, "accepted with warnings\t%d\t\n", s.AcceptedWithWarnings)
-	fmt.Fprintf(tw, "rejected\t%d\t\n", s.Rejected)
 	if s.Replayed > 0 {
-		fmt.Fprintf(tw, "of which replays\t%d\t\n", s.Replayed)
+		// Replays are accepted records recorded before: they belong with the accepted ones.
+		fmt.Fprintf(tw, "  of these, replays\t%d\t\n", s.Replayed)
 	}
+	fmt.Fprintf(tw, "rejected\t%d\t\n", s.Rejected)
 	if err := tw.Flush(); err != nil {
 		return err
 	}

@@ -10,10 +10,11 @@ import (
 	"strings"
 	"sync"
 	"sync/atomic"
+	"text/tabwriter"
 	"time"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
@@ -22,7 +23,7 @@ import (
 )
 
 func init() {
-	register("check", "check (and with --record, record) a batch file of shipments", runCheck)
+	addVerb("check", "check (and with --record, record) a batch file of shipments", fmt.Sprintf(checkUsage, csvColumnHelp()), defineCheck)
 }
 
 const checkUsage = `check [flags] FILE
@@ -62,8 +63,7 @@ func csvColumnHelp() string {
 	return b.String()
 }
 
-func runCheck(ctx context.Context, args []string) error {
-	fs := newFlagSet("check", fmt.Sprintf(checkUsage, csvColumnHelp()))
+func defineCheck(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
 	format := fs.String("format", "", "input format: csv or jsonl (default: from the file extension)")
@@ -73,46 +73,45 @@ func runCheck(ctx context.Context, args []string) error {
 	maxLine := fs.Int("max-line-bytes", validate.DefaultMaxLineBytes, "longest input line accepted, in bytes")
 	output := fs.String("output", "text", "summary format: text or json")
 	perMessage := fs.Int("records-per-message", defaultPerMessage, "records sent in one stream message (1 to 4096); 1 when records trickle in through a pipe")
-	if err := parseFlags(fs, args); err != nil {
-		return err
+	return func(ctx context.Context, args []string) error {
+		if len(args) != 1 {
+			return usageErr("give exactly one FILE (see --help); got %d arguments", len(args))
+		}
+		if *perMessage < 1 || *perMessage > 4096 {
+			return usageErr("--records-per-message %d: use 1 to 4096", *perMessage)
+		}
+		if *output != "text" && *output != "json" {
+			return usageErr("--output %q: use text or json", *output)
+		}
+		opts := checkOptions{path: args[0], record: *record, reportPath: *report, maxLine: *maxLine, output: *output,
+			perMessage: *perMessage}
+		var err error
+		if opts.format, err = pickFormat(*format, opts.path); err != nil {
+			return err
+		}
+		switch *progress {
+		case "always":
+			opts.progress = true
+		case "never":
+		case "auto":
+			opts.progress = isTerminal(os.Stderr)
+		default:
+			return usageErr("--progress %q: use auto, always or never", *progress)
+		}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		sum, err := checkFile(ctx, conn, opts, os.Stdout, os.Stderr)
+		if err != nil {
+			return err
+		}
+		if sum.Rejected > 0 {
+			return rejectedErr("%d of %d records rejected", sum.Rejected, sum.Records)
+		}
+		return nil
 	}
-	if fs.NArg() != 1 {
-		return usageErr("give exactly one FILE (see --help)")
-	}
-	if *perMessage < 1 || *perMessage > 4096 {
-		return usageErr("--records-per-message %d: use 1 to 4096", *perMessage)
-	}
-	if *output != "text" && *output != "json" {
-		return usageErr("--output %q: use text or json", *output)
-	}
-	opts := checkOptions{path: fs.Arg(0), record: *record, reportPath: *report, maxLine: *maxLine, output: *output,
-		perMessage: *perMessage}
-	var err error
-	if opts.format, err = pickFormat(*format, opts.path); err != nil {
-		return err
-	}
-	switch *progress {
-	case "always":
-		opts.progress = true
-	case "never":
-	case "auto":
-		opts.progress = isTerminal(os.Stderr)
-	default:
-		return usageErr("--progress %q: use auto, always or never", *progress)
-	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	sum, err := checkFile(ctx, conn, opts, os.Stdout, os.Stderr)
-	if err != nil {
-		return err
-	}
-	if sum.Rejected > 0 {
-		return &exitError{code: 1, err: fmt.Errorf("%d of %d records rejected", sum.Rejected, sum.Records)}
-	}
-	return nil
 }
 
 func pickFormat(flag, path string) (validate.Format, error) {
@@ -125,6 +124,10 @@ func pickFormat(flag, path string) (validate.Format, error) {
 	}
 	if f := validate.FormatOfPath(path); f != validate.FormatUnknown {
 		return f, nil
+	}
+	if strings.EqualFold(filepath.Ext(path), ".json") {
+		return 0, usageErr("%s: a .json file is one JSON document, such as the registry file 'halovet load FILE' reads; "+
+			"check reads shipments as .csv or .jsonl (one JSON object a line): rename it or give --format jsonl", path)
 	}
 	return 0, usageErr("cannot tell the format of %q from its extension; give --format csv or --format jsonl", path)
 }
@@ -143,6 +146,10 @@ type checkOptions struct {
 	progress   bool
 	output     string
 	perMessage int // records per stream message; 0 means defaultPerMessage
+	// brief prints one line of counts instead of the summary (the demo's second run).
+	brief bool
+	// maxRejected bounds the rejected lines printed; 0 means maxRejectedShown.
+	maxRejected int
 }
 
 // defaultPerMessage is how many records go in one stream message: enough to spread the
@@ -228,7 +235,7 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	cr := &countingReader{r: in}
 	rd, err := validate.NewReader(o.format, cr, validate.WithMaxLineBytes(o.maxLine))
 	if err != nil {
-		return nil, &exitError{code: 2, err: fmt.Errorf("%s: %w", o.path, err)}
+		return nil, &exitError{code: exitUsage, err: fmt.Errorf("%s: %w%s", o.path, err, otherKindHint(err))}
 	}
 	var rep validate.ReportWriter
 	if o.reportPath != "" {
@@ -271,7 +278,7 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	// receiver. Its capacity bounds memory, and exceeds the server's write batch so that
 	// a recording stream always has enough records in flight to fill one.
 	items := make(chan seqItem, 4096)
-	var sent atomic.Int64
+	var sent, read atomic.Int64 // records sent to the server; lines read, sent or answered here
 	var sendErr error
 	var wg sync.WaitGroup
 	wg.Add(1)
@@ -282,12 +289,16 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		if pm <= 0 {
 			pm = defaultPerMessage
 		}
-		sendErr = sendFile(ctx, rd, stream, items, &sent, pm)
+		sendErr = sendFile(ctx, rd, stream, items, &sent, &read, pm)
 	}()
 
 	var done atomic.Int64
-	stopProgress := startProgress(o.progress, stderr, cr, size, &sent, &done)
+	stopProgress := startProgress(o.progress, stderr, cr, size, &read, &done)
 	sum := validate.NewSummary()
+	rejected := rejectedLines{max: o.maxRejected}
+	if rejected.max <= 0 {
+		rejected.max = maxRejectedShown
+	}
 	var recvErr error
 	var queue []*halovetv1.Verdict // answers received and not yet matched to items
 	for it := range items {
@@ -316,6 +327,7 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 			v = &cv
 		}
 		sum.Add(v, it.direction)
+		rejected.add(v)
 		if rep != nil {
 			if err := rep.Write(v); err != nil {
 				recvErr = err
@@ -357,6 +369,9 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		if err := writeSummaryJSON(stdout, sum, o.record); err != nil {
 			return nil, err
 		}
+	} else if o.brief {
+		fmt.Fprintf(stdout, "%s: %d records, %d accepted, %d accepted with warnings (%d replays), %d rejected\n",
+			o.path, sum.Records, sum.Accepted, sum.AcceptedWithWarnings, sum.Replayed, sum.Rejected)
 	} else {
 		if o.record {
 			fmt.Fprintln(stdout, "Recorded batch:", o.path)
@@ -366,6 +381,12 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		if err := sum.WriteText(stdout); err != nil {
 			return nil, err
 		}
+		if err := rejected.write(stdout, o.reportPath); err != nil {
+			return nil, err
+		}
+	}
+	if sum.Records == 0 {
+		return sum, usageErr("%s holds no records (blank and # comment lines are skipped)", o.path)
 	}
 	return sum, nil
 }
@@ -375,7 +396,7 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 // and never sent, so nothing from a bad line is recorded. Items go to the receiver in
 // file order as they are read; a record's answer is awaited only after its message is
 // sent, which happens before the items channel can fill.
-func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStream, items chan<- seqItem, sent *atomic.Int64, perMessage int) error {
+func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStream, items chan<- seqItem, sent, read *atomic.Int64, perMessage int) error {
 	buf := make([]*halovetv1.ShipmentRecord, 0, perMessage)
 	flush := func() error {
 		if len(buf) == 0 {
@@ -412,6 +433,7 @@ func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStre
 			buf = append(buf, service.RecordToProto(&rec))
 			it.direction = rec.Direction
 		}
+		read.Add(1) // before the receiver can count the line answered
 		select {
 		case items <- it:
 		case <-ctx.Done():
@@ -500,37 +522,148 @@ func verdictFromProto(p *halovetv1.Verdict) validate.Verdict {
 	return v
 }
 
-// startProgress prints a progress line on w every quarter second while enabled.
-func startProgress(enabled bool, w io.Writer, cr *countingReader, size int64, sent, done *atomic.Int64) (stop func()) {
+// startProgress writes progress on w while enabled: on a terminal one line redrawn every
+// quarter second; elsewhere (forced with --progress always) a plain line every five
+// seconds, without terminal escapes. read counts the lines read, so answered never
+// exceeds it.
+func startProgress(enabled bool, w io.Writer, cr *countingReader, size int64, read, done *atomic.Int64) (stop func()) {
 	if !enabled {
 		return func() {}
+	}
+	tty := false
+	if f, ok := w.(*os.File); ok {
+		tty = isTerminal(f)
+	}
+	every := 5 * time.Second
+	if tty {
+		every = 250 * time.Millisecond
 	}
 	quit := make(chan struct{})
 	finished := make(chan struct{})
 	start := time.Now()
 	go func() {
 		defer close(finished)
-		t := time.NewTicker(250 * time.Millisecond)
+		t := time.NewTicker(every)
 		defer t.Stop()
 		for {
 			select {
 			case <-quit:
-				fmt.Fprint(w, "\r\033[K")
+				if tty {
+					fmt.Fprint(w, "\r\033[K")
+				}
 				return
 			case <-t.C:
-				n := done.Load()
-				rate := float64(n) / time.Since(start).Seconds()
-				if size > 0 {
-					pct := 100 * float64(cr.n.Load()) / float64(size)
-					bar := int(pct / 5)
-					fmt.Fprintf(w, "\r[%-20s] %5.1f%%  %d records answered, %d sent  %.0f/s ", strings.Repeat("#", min(bar, 20)), pct, n, sent.Load(), rate)
+				line := progressLine(cr.n.Load(), size, done.Load(), read.Load(), time.Since(start))
+				if tty {
+					fmt.Fprintf(w, "\r%s ", line)
 				} else {
-					fmt.Fprintf(w, "\r%d records answered, %d sent  %.0f/s ", n, sent.Load(), rate)
+					fmt.Fprintln(w, line)
 				}
 			}
 		}
 	}()
 	return func() { close(quit); <-finished }
+}
+
+// progressLine is one progress report: answered records out of the lines read so far.
+func progressLine(bytesRead, size, answered, read int64, elapsed time.Duration) string {
+	answered = min(answered, read)
+	rate := float64(answered) / max(elapsed.Seconds(), 0.001)
+	if size > 0 {
+		pct := min(100*float64(bytesRead)/float64(size), 100)
+		bar := int(pct / 5)
+		return fmt.Sprintf("[%-20s] %5.1f%%  %d of %d records read answered  %.0f/s", strings.Repeat("#", min(bar, 20)), pct, answered, read, rate)
+	}
+	return fmt.Sprintf("%d of %d records read answered  %.0f/s", answered, read, rate)
+}
+
+// rejectedLines keeps the first rejected lines of a batch for the terminal.
+type rejectedLines struct {
+	max   int
+	first []validate.Verdict
+	total int
+}
+
+// maxRejectedShown bounds the rejected lines check prints after its summary.
+const maxRejectedShown = 50
+
+func (r *rejectedLines) add(v *validate.Verdict) {
+	if v.Outcome != validate.OutcomeRejected {
+		return
+	}
+	r.total++
+	if len(r.first) < r.max {
+		r.first = append(r.first, *v)
+	}
+}
+
+// write prints the rejected lines: line number, record key, error codes, first message.
+func (r *rejectedLines) write(w io.Writer, reportPath string) error {
+	if r.total == 0 {
+		return nil
+	}
+	if r.total > len(r.first) {
+		fmt.Fprintf(w, "\nRejected lines (the first %d of %d)\n", len(r.first), r.total)
+	} else {
+		fmt.Fprintf(w, "\nRejected lines (%d)\n", r.total)
+	}
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "line\tkey\tcodes\tfirst message")
+	for _, v := range r.first {
+		var codes []string
+		msg := ""
+		for _, f := range v.Findings {
+			if f.Severity != validate.SeverityError {
+				continue
+			}
+			codes = append(codes, f.Code)
+			if msg == "" {
+				msg = f.Message
+				if f.Field != "" && !strings.Contains(msg, f.Field) {
+					msg = f.Field + ": " + msg
+				}
+			}
+		}
+		key := v.RecordKey
+		if key == "" {
+			key = "-"
+		}
+		fmt.Fprintf(tw, "%d\t%s\t%s\t%s\n", v.Line, oneLine(key, 32), strings.Join(codes, ";"), oneLine(msg, 100))
+	}
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	if rest := r.total - len(r.first); rest > 0 {
+		where := "give --report FILE.csv for every verdict"
+		if reportPath != "" {
+			where = "every verdict is in the --report file"
+		}
+		fmt.Fprintf(w, "... and %d more rejected lines (%s)\n", rest, where)
+	}
+	return nil
+}
+
+// oneLine shortens a message to n characters on one line.
+func oneLine(s string, n int) string {
+	s = strings.Join(strings.Fields(s), " ")
+	if r := []rune(s); len(r) > n {
+		return string(r[:n-1]) + "…"
+	}
+	return s
+}
+
+// otherKindHint names the verb for a file of another kind given to check.
+func otherKindHint(err error) string {
+	var he *validate.HeaderError
+	if !errors.As(err, &he) {
+		return ""
+	}
+	for _, u := range he.Unknown {
+		if u == `"entry_key"` || u == `"entry_type"` { // HeaderError quotes the names
+			return "; this looks like a national entries file: import it with 'halovet entries FILE'"
+		}
+	}
+	return ""
 }
 
 func writeSummaryJSON(w io.Writer, s *validate.Summary, recorded bool) error {
@@ -540,10 +673,5 @@ func writeSummaryJSON(w io.Writer, s *validate.Summary, recorded bool) error {
 	if recorded {
 		pb.Recorded = s.Accepted + s.AcceptedWithWarnings - s.Replayed
 	}
-	b, err := protojson.MarshalOptions{Multiline: true, EmitUnpopulated: true}.Marshal(pb)
-	if err != nil {
-		return err
-	}
-	_, err = fmt.Fprintf(w, "%s\n", b)
-	return err
+	return jsonDoc(w, pb)
 }

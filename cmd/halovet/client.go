@@ -4,10 +4,11 @@ import (
 	"context"
 	"crypto/tls"
 	"crypto/x509"
-	"flag"
-	"fmt"
+	"net"
 	"os"
+	"strings"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials"
 	"google.golang.org/grpc/credentials/insecure"
@@ -22,8 +23,11 @@ type clientFlags struct {
 	tokenFile  string
 }
 
-func (c *clientFlags) register(fs *flag.FlagSet) {
-	fs.StringVar(&c.server, "server", envOr("HALOVET_SERVER", "127.0.0.1:7390"), "halovet server address (env HALOVET_SERVER)")
+// defaultPort is the port halovet serve listens on unless told otherwise.
+const defaultPort = "7390"
+
+func (c *clientFlags) register(fs *pflag.FlagSet) {
+	fs.StringVar(&c.server, "server", envOr("HALOVET_SERVER", "127.0.0.1:"+defaultPort), "halovet server address HOST[:PORT], port "+defaultPort+" when left out (env HALOVET_SERVER)")
 	fs.BoolVar(&c.useTLS, "tls", envBool("HALOVET_TLS"), "connect with TLS (env HALOVET_TLS); plaintext otherwise, meant for loopback")
 	fs.StringVar(&c.caFile, "tls-ca", envOr("HALOVET_TLS_CA", ""), "PEM file of the CA that signed the server's certificate (default: system roots)")
 	fs.StringVar(&c.serverName, "tls-server-name", envOr("HALOVET_TLS_SERVER_NAME", ""), "server name to verify in the certificate (default: the host of --server)")
@@ -38,7 +42,7 @@ func (c *clientFlags) dial() (*grpc.ClientConn, error) {
 		if c.caFile != "" {
 			pem, err := os.ReadFile(c.caFile)
 			if err != nil {
-				return nil, fmt.Errorf("--tls-ca: %w", err)
+				return nil, usageErr("--tls-ca: %v", err)
 			}
 			pool := x509.NewCertPool()
 			if !pool.AppendCertsFromPEM(pem) {
@@ -52,13 +56,18 @@ func (c *clientFlags) dial() (*grpc.ClientConn, error) {
 	if c.tokenFile != "" {
 		b, err := os.ReadFile(c.tokenFile)
 		if err != nil {
-			return nil, fmt.Errorf("--admin-token-file: %w", err)
+			return nil, usageErr("--admin-token-file: %v", err)
 		}
 		opts = append(opts, grpc.WithPerRPCCredentials(bearer{token: string(trimSpace(b)), secure: c.useTLS}))
 	}
-	conn, err := grpc.NewClient(c.server, opts...)
+	addr, err := serverAddress(c.server)
 	if err != nil {
-		return nil, fmt.Errorf("--server %s: %w", c.server, err)
+		return nil, err
+	}
+	dialedServer = addr
+	conn, err := grpc.NewClient(addr, opts...)
+	if err != nil {
+		return nil, usageErr("--server %s: %v", c.server, err)
 	}
 	return conn, nil
 }
@@ -79,4 +88,27 @@ func trimSpace(b []byte) []byte {
 		b = b[:len(b)-1]
 	}
 	return b
+}
+
+// serverAddress completes a --server value: a host without a port gets halovet's default
+// port (gRPC would otherwise dial 443). Targets with a scheme (dns:///, unix:) pass as given.
+func serverAddress(v string) (string, error) {
+	v = strings.TrimSpace(v)
+	if v == "" {
+		return "", usageErr("--server is empty: give HOST[:PORT], e.g. 127.0.0.1:%s", defaultPort)
+	}
+	if strings.Contains(v, "://") || strings.HasPrefix(v, "unix:") {
+		return v, nil
+	}
+	if _, port, err := net.SplitHostPort(v); err == nil {
+		if port == "" {
+			return v + defaultPort, nil
+		}
+		return v, nil
+	}
+	host := strings.TrimSuffix(strings.TrimPrefix(v, "["), "]")
+	if strings.ContainsAny(host, "[]/ ") {
+		return "", usageErr("--server %q: give HOST[:PORT], e.g. 127.0.0.1:%s or [::1]:%s", v, defaultPort, defaultPort)
+	}
+	return net.JoinHostPort(host, defaultPort), nil
 }

@@ -9,13 +9,14 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
 func init() {
-	register("compliance", "compare consumption with the allowed level over years (and draw it as SVG)", runCompliance)
+	addVerb("compliance", "compare consumption with the allowed level over years (and draw it as SVG)", complianceUsage, defineCompliance)
 }
 
 const complianceUsage = `compliance --group GROUP --from YEAR --to YEAR [flags]
@@ -29,6 +30,9 @@ set them: a non-Article 5 Party's annual 0.5 % cap for HCFCs in 2020-2029, and a
 Article 5 Party's ten-year average of 2.5 % over 2030-2039, shown as the running
 average and the room left for the rest of the period.
 
+Exit code 1 when consumption exceeded the allowed level in some year (the output is
+written in full first).
+
 --chart FILE.svg also draws consumption (points joined by a line) against the
 allowed level (a step line) over the years, as a self-contained SVG file.
 
@@ -37,45 +41,46 @@ Examples:
   halovet compliance --group F --from 2024 --to 2026 --chart hfc.svg
   halovet compliance --group C/I --from 2013 --to 2026 --output csv`
 
-func runCompliance(ctx context.Context, args []string) error {
-	fs := newFlagSet("compliance", complianceUsage)
+func defineCompliance(fs *pflag.FlagSet) runFunc {
 	var rf reportFlags
 	rf.register(fs)
 	group := fs.String("group", "", "Annex group (A/I ... E/I), or F for HFCs (required)")
 	from := fs.Int("from", 0, "first year (required)")
 	to := fs.Int("to", 0, "last year (default: --from)")
 	chart := fs.String("chart", "", "also write an SVG chart of consumption against the allowed level to this file")
-	if err := rf.parse(fs, args); err != nil {
-		return err
-	}
-	if *group == "" || *from == 0 {
-		return usageErr("--group and --from are required, e.g. --group C/I --from 2020 --to 2026")
-	}
-	if *to == 0 {
-		*to = *from
-	}
-	if *chart != "" && !strings.HasSuffix(strings.ToLower(*chart), ".svg") {
-		return usageErr("--chart %q: give a file name ending in .svg", *chart)
-	}
-	return rf.withConn(func(conn *grpc.ClientConn) error {
-		resp, err := halovetv1.NewConsumptionServiceClient(conn).AssessCompliance(ctx,
-			&halovetv1.AssessComplianceRequest{AnnexGroup: *group, FromYear: int32(*from), ToYear: int32(*to)})
-		if err != nil {
+	return func(ctx context.Context, args []string) error {
+		if err := rf.check(args); err != nil {
 			return err
 		}
-		if *chart != "" {
-			if err := writeChartFile(*chart, resp); err != nil {
+		if *group == "" || *from == 0 {
+			return usageErr("--group and --from are required, e.g. --group C/I --from 2020 --to 2026")
+		}
+		if *to == 0 {
+			*to = *from
+		}
+		if *chart != "" && !strings.HasSuffix(strings.ToLower(*chart), ".svg") {
+			return usageErr("--chart %q: give a file name ending in .svg", *chart)
+		}
+		return rf.withConn(func(conn *grpc.ClientConn) error {
+			resp, err := halovetv1.NewConsumptionServiceClient(conn).AssessCompliance(ctx,
+				&halovetv1.AssessComplianceRequest{AnnexGroup: *group, FromYear: int32(*from), ToYear: int32(*to)})
+			if err != nil {
 				return err
 			}
-		}
-		if err := writeCompliance(os.Stdout, resp, rf.output); err != nil {
-			return err
-		}
-		if *chart != "" && rf.output == "text" {
-			fmt.Fprintf(os.Stderr, "chart written to %s\n", *chart)
-		}
-		return nil
-	})
+			if *chart != "" {
+				if err := writeChartFile(*chart, resp); err != nil {
+					return err
+				}
+			}
+			if err := writeCompliance(os.Stdout, resp, rf.output); err != nil {
+				return err
+			}
+			if *chart != "" && rf.output == "text" {
+				fmt.Fprintf(os.Stderr, "chart written to %s\n", *chart)
+			}
+			return exceededErr(resp)
+		})
+	}
 }
 
 func outcomeWord(o halovetv1.ComplianceOutcome) string {
@@ -193,4 +198,19 @@ func yearList(ys []int) string {
 		i = j + 1
 	}
 	return strings.Join(out, ", ")
+}
+
+// exceededErr is the exit code 1 error when consumption exceeded the allowed level in
+// some year of the answer.
+func exceededErr(resp *halovetv1.AssessComplianceResponse) error {
+	var years []string
+	for _, y := range resp.GetYears() {
+		if y.GetOutcome() == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED {
+			years = append(years, strconv.Itoa(int(y.GetYear())))
+		}
+	}
+	if len(years) == 0 {
+		return nil
+	}
+	return rejectedErr("consumption of %s exceeded the allowed level in %s", resp.GetAnnexGroup(), strings.Join(years, ", "))
 }

@@ -2,12 +2,16 @@ package main
 
 import (
 	"context"
-	"flag"
+	"errors"
 	"fmt"
 	"log/slog"
+	"net"
 	"os"
 	"path/filepath"
 	"time"
+
+	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/spf13/pflag"
 
 	"github.com/halovet/halovet/pglocal"
 	"github.com/halovet/halovet/store"
@@ -28,7 +32,7 @@ func defaultDataDir() string {
 	return filepath.Join(os.TempDir(), "halovet", "postgres")
 }
 
-func (d *dbFlags) register(fs *flag.FlagSet) {
+func (d *dbFlags) register(fs *pflag.FlagSet) {
 	fs.StringVar(&d.url, "database-url", envOr("HALOVET_DATABASE_URL", ""),
 		"PostgreSQL URL, e.g. postgres://halovet@db:5432/halovet (env HALOVET_DATABASE_URL);\n"+
 			"when empty, halovet runs a private cluster in --data-dir")
@@ -80,14 +84,14 @@ func openDatabase(ctx context.Context, d dbFlags, migrate bool, log *slog.Logger
 		v, err := store.Migrate(ctx, db.URL)
 		if err != nil {
 			db.Close()
-			return nil, fmt.Errorf("database %s: %w", store.Redact(db.URL), err)
+			return nil, databaseErr(fmt.Errorf("database %s: %w", store.Redact(db.URL), err))
 		}
 		log.Info("schema migrated", "version", v)
 	}
 	st, err := store.Open(ctx, db.URL)
 	if err != nil {
 		db.Close()
-		return nil, err
+		return nil, databaseErr(err)
 	}
 	db.Store = st
 	return db, nil
@@ -106,4 +110,15 @@ func newLogger(format, level string) (*slog.Logger, error) {
 		return slog.New(slog.NewJSONHandler(os.Stderr, opts)), nil
 	}
 	return nil, usageErr("--log-format %q: use text or json", format)
+}
+
+// databaseErr gives a database failure its exit code: 3 when the database cannot be
+// reached, 4 otherwise.
+func databaseErr(err error) error {
+	var ce *pgconn.ConnectError
+	var ne net.Error
+	if errors.As(err, &ce) || errors.As(err, &ne) {
+		return &exitError{code: exitUnreachable, err: err}
+	}
+	return &exitError{code: exitFailure, err: err}
 }

@@ -11,6 +11,7 @@ import (
 	"sort"
 	"time"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	reflectionpb "google.golang.org/grpc/reflection/grpc_reflection_v1"
@@ -20,7 +21,7 @@ import (
 )
 
 func init() {
-	register("demo", "run the invented demo scenario end to end on a private PostgreSQL cluster", runDemo)
+	addVerb("demo", "run the invented demo scenario end to end on a private PostgreSQL cluster", demoUsage, defineDemo)
 }
 
 const demoUsage = `demo [flags]
@@ -35,118 +36,119 @@ baselines and compliance. Everything it started is stopped at the end.
 All companies, licences, shipments and the countries' party settings in the scenario
 are invented, on user-assigned country codes (XA-XZ, QM-QZ).`
 
-func runDemo(ctx context.Context, args []string) error {
-	fs := newFlagSet("demo", demoUsage)
+func defineDemo(fs *pflag.FlagSet) runFunc {
 	var d dbFlags
 	fs.StringVar(&d.url, "database-url", envOr("HALOVET_DATABASE_URL", ""), "use this database instead of a private cluster (it must be empty or hold only earlier demo data)")
 	dir := fs.String("scenario-dir", "testdata/demo", "directory holding scenario.json and shipments.csv")
 	verbose := fs.Bool("verbose", false, "show the server's log lines")
 	today := fs.String("today", "2026-12-01", "the date the server takes as today, so that the scenario's date rules give the same findings whenever the demo runs; empty: the real date")
-	if err := parseFlags(fs, args); err != nil {
-		return err
-	}
-	for _, f := range []string{"scenario.json", "shipments.csv"} {
-		if _, err := os.Stat(filepath.Join(*dir, f)); err != nil {
-			return usageErr("--scenario-dir %s: %v (run the demo from the repository root, or point --scenario-dir at testdata/demo)", *dir, err)
+	return func(ctx context.Context, args []string) error {
+		if len(args) > 0 {
+			return usageErr("unexpected argument %q (see --help)", args[0])
 		}
-	}
-	now := time.Now
-	if *today != "" {
-		t, err := time.Parse("2006-01-02", *today)
-		if err != nil {
-			return usageErr("--today %q: give a date YYYY-MM-DD", *today)
+		for _, f := range []string{"scenario.json", "shipments.csv"} {
+			if _, err := os.Stat(filepath.Join(*dir, f)); err != nil {
+				return usageErr("--scenario-dir %s: %v (run the demo from the repository root, or point --scenario-dir at testdata/demo)", *dir, err)
+			}
 		}
-		now = func() time.Time { return t.Add(12 * time.Hour) }
-	}
-	level := slog.LevelWarn
-	if *verbose {
-		level = slog.LevelInfo
-	}
-	log := slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: level}))
-	out := os.Stdout
+		now := time.Now
+		if *today != "" {
+			t, err := time.Parse("2006-01-02", *today)
+			if err != nil {
+				return usageErr("--today %q: give a date YYYY-MM-DD", *today)
+			}
+			now = func() time.Time { return t.Add(12 * time.Hour) }
+		}
+		level := slog.LevelWarn
+		if *verbose {
+			level = slog.LevelInfo
+		}
+		log := slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: level}))
+		out := os.Stdout
 
-	step := stepper(out)
-	if d.url == "" {
-		tmp, err := os.MkdirTemp("", "halovet-demo-")
+		step := stepper(out)
+		if d.url == "" {
+			tmp, err := os.MkdirTemp("", "halovet-demo-")
+			if err != nil {
+				return err
+			}
+			defer os.RemoveAll(tmp)
+			// The cluster runs as an unprivileged account when we are root; it must be able
+			// to reach its directory, or it would be placed (and left) elsewhere.
+			if err := os.Chmod(tmp, 0o755); err != nil {
+				return err
+			}
+			d.dataDir, d.ephemeral = filepath.Join(tmp, "postgres"), true
+			step("Starting a private PostgreSQL cluster in %s", d.dataDir)
+		} else {
+			step("Using the database at --database-url")
+		}
+		db, err := openDatabase(ctx, d, true, log)
 		if err != nil {
 			return err
 		}
-		defer os.RemoveAll(tmp)
-		// The cluster runs as an unprivileged account when we are root; it must be able
-		// to reach its directory, or it would be placed (and left) elsewhere.
-		if err := os.Chmod(tmp, 0o755); err != nil {
+		defer db.Close()
+		cat, err := service.LoadCatalogue(ctx, db.Store, log)
+		if err != nil {
 			return err
 		}
-		d.dataDir, d.ephemeral = filepath.Join(tmp, "postgres"), true
-		step("Starting a private PostgreSQL cluster in %s", d.dataDir)
-	} else {
-		step("Using the database at --database-url")
-	}
-	db, err := openDatabase(ctx, d, true, log)
-	if err != nil {
-		return err
-	}
-	defer db.Close()
-	cat, err := service.LoadCatalogue(ctx, db.Store, log)
-	if err != nil {
-		return err
-	}
-	subs, blends := len(cat.Load().Substances()), len(cat.Load().Blends())
+		subs, blends := len(cat.Load().Substances()), len(cat.Load().Blends())
 
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		return err
-	}
-	srvCtx, stopServer := context.WithCancel(context.Background())
-	srv := service.New(db.Store, cat, service.Options{Logger: log, HealthInterval: 200 * time.Millisecond, Now: now})
-	served := make(chan error, 1)
-	go func() { served <- srv.Serve(srvCtx, lis) }()
-	defer func() {
-		stopServer()
-		if err := <-served; err != nil {
-			fmt.Fprintln(os.Stderr, "server:", err)
+		lis, err := net.Listen("tcp", "127.0.0.1:0")
+		if err != nil {
+			return err
 		}
-	}()
-	addr := lis.Addr().String()
-	step("Server listening on %s (catalogue: %d substances, %d blends)", addr, subs, blends)
+		srvCtx, stopServer := context.WithCancel(context.Background())
+		srv := service.New(db.Store, cat, service.Options{Logger: log, HealthInterval: 200 * time.Millisecond, Now: now})
+		served := make(chan error, 1)
+		go func() { served <- srv.Serve(srvCtx, lis) }()
+		defer func() {
+			stopServer()
+			if err := <-served; err != nil {
+				fmt.Fprintln(os.Stderr, "server:", err)
+			}
+		}()
+		addr := lis.Addr().String()
+		step("Server listening on %s (catalogue: %d substances, %d blends)", addr, subs, blends)
 
-	cf := clientFlags{server: addr}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	if err := showHealthAndServices(ctx, conn, out); err != nil {
-		return err
-	}
+		cf := clientFlags{server: addr}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		if err := showHealthAndServices(ctx, conn, out); err != nil {
+			return err
+		}
 
-	step("Loading the invented registry: party settings, companies, licences")
-	msg, err := loadRegistry(ctx, conn, filepath.Join(*dir, "scenario.json"))
-	if err != nil {
-		return err
-	}
-	fmt.Fprintln(out, "  "+msg)
+		step("Loading the invented registry: party settings, companies, licences")
+		msg, err := loadRegistry(ctx, conn, filepath.Join(*dir, "scenario.json"))
+		if err != nil {
+			return err
+		}
+		fmt.Fprintln(out, "  "+msg)
 
-	shipments := filepath.Join(*dir, "shipments.csv")
-	step("Checking %s (nothing stored)", shipments)
-	if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV,
-		maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
-		return err
+		shipments := filepath.Join(*dir, "shipments.csv")
+		step("Checking %s (nothing stored)", shipments)
+		if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV, maxRejected: 10,
+			maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
+			return err
+		}
+		step("Recording %s: accepted records are stored and draw down their quotas (the verdicts are those above)", shipments)
+		if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV, record: true, brief: true,
+			maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
+			return err
+		}
+		step("Licence balances after recording")
+		if err := printLicences(ctx, conn, out, "", 2026); err != nil {
+			return err
+		}
+		if err := demoConsumption(ctx, conn, *dir, out, step); err != nil {
+			return err
+		}
+		step("Done; stopping the server and the cluster")
+		return nil
 	}
-	step("Recording %s: accepted records are stored and draw down their quotas", shipments)
-	if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV, record: true,
-		maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
-		return err
-	}
-	step("Licence balances after recording")
-	if err := printLicences(ctx, conn, out, "", 2026); err != nil {
-		return err
-	}
-	if err := demoConsumption(ctx, conn, *dir, out, step); err != nil {
-		return err
-	}
-	step("Done; stopping the server and the cluster")
-	return nil
 }
 
 // demoConsumption is the reporting part of the demo; it is filled in where the

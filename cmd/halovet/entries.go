@@ -12,6 +12,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/genproto/googleapis/rpc/errdetails"
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
@@ -22,7 +23,7 @@ import (
 )
 
 func init() {
-	register("entries", "import national entries (production, destruction, feedstock, QPS, historical totals) from CSV, or list them", runEntries)
+	addVerb("entries", "import national entries (production, destruction, feedstock, QPS, historical totals) from CSV, or list them", entriesUsage, defineEntries)
 }
 
 const entriesUsage = `entries [flags] FILE.csv
@@ -141,7 +142,11 @@ func readEntries(r io.Reader) ([]*halovetv1.NationalEntry, []int, []entryLineErr
 	}
 	for _, c := range entryColumns[:5] {
 		if _, ok := col[c]; !ok {
-			fail(hline, "required column %q is missing; the header must name %s (note is optional)", c, strings.Join(entryColumns[:5], ", "))
+			hint := ""
+			if _, ok := col["record_key"]; ok {
+				hint = "; this looks like a shipments file: check it with 'halovet check FILE'"
+			}
+			fail(hline, "required column %q is missing; the header must name %s (note is optional)%s", c, strings.Join(entryColumns[:5], ", "), hint)
 		}
 	}
 	if len(errs) > 0 {
@@ -257,46 +262,44 @@ func lineViolations(err error, lines []int) error {
 	return &exitError{code: 2, err: fmt.Errorf("the server refused the entries; nothing of this part was stored:\n  %s", strings.Join(msgs, "\n  "))}
 }
 
-func runEntries(ctx context.Context, args []string) error {
-	fs := newFlagSet("entries", entriesUsage)
+func defineEntries(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
-	output := fs.String("output", "text", "output: text, csv (the stored entries in the file format), or json (the API's response in protobuf JSON)")
+	output := fs.String("output", "text", "output: text, csv (the stored entries in the file format), or json (the API's response; see 'halovet help json')")
 	list := fs.Bool("list", false, "list the stored entries instead of importing a file")
 	year := fs.Int("year", 0, "with --list: only this year")
-	if err := parseFlags(fs, args); err != nil {
-		return err
-	}
-	switch *output {
-	case "text", "csv", "json":
-	default:
-		return usageErr("--output %q: use text, csv or json", *output)
-	}
-	if *list {
-		if fs.NArg() != 0 {
-			return usageErr("--list takes no FILE")
+	return func(ctx context.Context, args []string) error {
+		switch *output {
+		case "text", "csv", "json":
+		default:
+			return usageErr("--output %q: use text, csv or json", *output)
 		}
-	} else if fs.NArg() != 1 {
-		return usageErr("give exactly one FILE.csv, or --list (see --help)")
-	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	if *list {
-		resp, err := halovetv1.NewConsumptionServiceClient(conn).ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{Year: int32(*year)})
+		if *list {
+			if len(args) != 0 {
+				return usageErr("--list takes no FILE")
+			}
+		} else if len(args) != 1 {
+			return usageErr("give exactly one FILE.csv, or --list (see --help)")
+		}
+		conn, err := cf.dial()
 		if err != nil {
 			return err
 		}
-		return writeEntries(os.Stdout, resp.GetEntries(), fmt.Sprintf("%d stored entries", len(resp.GetEntries())), *output, resp)
+		defer conn.Close()
+		if *list {
+			resp, err := halovetv1.NewConsumptionServiceClient(conn).ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{Year: int32(*year)})
+			if err != nil {
+				return err
+			}
+			return writeEntries(os.Stdout, resp.GetEntries(), fmt.Sprintf("%d stored entries", len(resp.GetEntries())), *output, resp)
+		}
+		path := args[0]
+		resp, err := importEntries(ctx, conn, path)
+		if err != nil {
+			return err
+		}
+		return writeEntries(os.Stdout, resp.GetEntries(), fmt.Sprintf("stored %d entries from %s (new or replacing the entry of the same key)", resp.GetStored(), path), *output, resp)
 	}
-	path := fs.Arg(0)
-	resp, err := importEntries(ctx, conn, path)
-	if err != nil {
-		return err
-	}
-	return writeEntries(os.Stdout, resp.GetEntries(), fmt.Sprintf("stored %d entries from %s (new or replacing the entry of the same key)", resp.GetStored(), path), *output, resp)
 }
 
 // importEntries checks the file and stores its entries; nothing is sent when a line is

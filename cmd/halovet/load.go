@@ -2,21 +2,24 @@ package main
 
 import (
 	"context"
+	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"io"
 	"os"
-	"text/tabwriter"
+	"strconv"
+	"strings"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
+	"google.golang.org/protobuf/reflect/protoreflect"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
 func init() {
-	register("load", "load parties, companies and licences from a JSON file", runLoad)
-	register("licences", "list licences with their quota balances", runLicences)
+	addVerb("load", "load parties, companies and licences from a JSON file", loadUsage, defineLoad)
+	addVerb("licences", "list licences with their quota balances", licencesUsage, defineLicences)
 }
 
 const loadUsage = `load [flags] FILE
@@ -24,7 +27,7 @@ const loadUsage = `load [flags] FILE
 Loads a registry file into the server: party settings of countries, companies, and
 licences with quota lines. The file is a JSON object with arrays "parties",
 "companies" and "licences" whose items are the API's Party, Company and Licence
-messages in protobuf JSON (see testdata/demo/scenario.json). Existing parties and
+messages in protobuf JSON or halovet's JSON dialect (see testdata/demo/scenario.json). Existing parties and
 companies are updated; a licence that exists already is amended. A licence whose
 status is SUSPENDED or REVOKED is issued active and then set to that status, so the
 audit log shows both steps.`
@@ -36,27 +39,25 @@ type registryFile struct {
 	Licences  []json.RawMessage `json:"licences"`
 }
 
-func runLoad(ctx context.Context, args []string) error {
-	fs := newFlagSet("load", loadUsage)
+func defineLoad(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
-	if err := parseFlags(fs, args); err != nil {
-		return err
+	return func(ctx context.Context, args []string) error {
+		if len(args) != 1 {
+			return usageErr("give exactly one FILE (see --help)")
+		}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		n, err := loadRegistry(ctx, conn, args[0])
+		if err != nil {
+			return err
+		}
+		fmt.Println(n)
+		return nil
 	}
-	if fs.NArg() != 1 {
-		return usageErr("give exactly one FILE (see --help)")
-	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	n, err := loadRegistry(ctx, conn, fs.Arg(0))
-	if err != nil {
-		return err
-	}
-	fmt.Println(n)
-	return nil
 }
 
 // loadRegistry sends a registry file's contents and returns a one-line account.
@@ -72,7 +73,7 @@ func loadRegistry(ctx context.Context, conn *grpc.ClientConn, path string) (stri
 	lic := halovetv1.NewLicensingServiceClient(conn)
 	for i, raw := range rf.Parties {
 		p := &halovetv1.Party{}
-		if err := protojson.Unmarshal(raw, p); err != nil {
+		if err := unmarshalDialect(raw, p); err != nil {
 			return "", &exitError{code: 2, err: fmt.Errorf("%s: parties[%d]: %w", path, i, err)}
 		}
 		if _, err := lic.PutParty(ctx, &halovetv1.PutPartyRequest{Party: p}); err != nil {
@@ -81,7 +82,7 @@ func loadRegistry(ctx context.Context, conn *grpc.ClientConn, path string) (stri
 	}
 	for i, raw := range rf.Companies {
 		c := &halovetv1.Company{}
-		if err := protojson.Unmarshal(raw, c); err != nil {
+		if err := unmarshalDialect(raw, c); err != nil {
 			return "", &exitError{code: 2, err: fmt.Errorf("%s: companies[%d]: %w", path, i, err)}
 		}
 		if _, err := lic.RegisterCompany(ctx, &halovetv1.RegisterCompanyRequest{Company: c}); err != nil {
@@ -90,7 +91,7 @@ func loadRegistry(ctx context.Context, conn *grpc.ClientConn, path string) (stri
 	}
 	for i, raw := range rf.Licences {
 		l := &halovetv1.Licence{}
-		if err := protojson.Unmarshal(raw, l); err != nil {
+		if err := unmarshalDialect(raw, l); err != nil {
 			return "", &exitError{code: 2, err: fmt.Errorf("%s: licences[%d]: %w", path, i, err)}
 		}
 		want := l.GetStatus()
@@ -119,24 +120,49 @@ func loadRegistry(ctx context.Context, conn *grpc.ClientConn, path string) (stri
 
 const licencesUsage = `licences [flags]
 
-Lists licences with their quota lines: allocated, drawn and remaining, in each
-line's unit (metric t, ODP t or CO2-eq t).`
+Lists licences: holder, status, validity (first and last day), the directions and
+special purposes covered, and each quota line with allocated, drawn and remaining in
+the line's unit (metric t, ODP t or CO2-eq t) and the share used. A licence without
+quota lines is listed once, with "-" for the line.
 
-func runLicences(ctx context.Context, args []string) error {
-	fs := newFlagSet("licences", licencesUsage)
+--output text (default) prints a table for people, ending with the decision-support
+notice; --output csv one row per quota line (columns licence_number, company_id,
+status, valid_from, valid_to, directions, special_purposes, line_number, annex_group,
+substance, unit, allocated, drawn, remaining; lists joined by ";"); --output json the
+ListLicencesResponse ('halovet help json').
+
+Examples:
+  halovet licences
+  halovet licences --company XA-1001 --year 2026
+  halovet licences --year 2026 --output csv > licences-2026.csv`
+
+func defineLicences(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
 	company := fs.String("company", "", "only this company's licences")
 	year := fs.Int("year", 0, "only licences valid on some day of this year")
-	if err := parseFlags(fs, args); err != nil {
-		return err
+	output := fs.String("output", "text", "output: text (a table for people), csv, or json (see 'halovet help json')")
+	return func(ctx context.Context, args []string) error {
+		if len(args) > 0 {
+			return usageErr("unexpected argument %q (see --help)", args[0])
+		}
+		switch *output {
+		case "text", "csv", "json":
+		default:
+			return usageErr("--output %q: use text, csv or json", *output)
+		}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicences(ctx,
+			&halovetv1.ListLicencesRequest{CompanyId: *company, Year: int32(*year)})
+		if err != nil {
+			return err
+		}
+		return writeLicences(os.Stdout, resp, *output)
 	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	return printLicences(ctx, conn, os.Stdout, *company, int32(*year))
 }
 
 var unitLabel = map[halovetv1.QuotaUnit]string{
@@ -145,30 +171,87 @@ var unitLabel = map[halovetv1.QuotaUnit]string{
 	halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES:   "CO2-eq t",
 }
 
+// printLicences lists the licences as text (the demo's step).
 func printLicences(ctx context.Context, conn *grpc.ClientConn, w io.Writer, company string, year int32) error {
 	resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicences(ctx,
 		&halovetv1.ListLicencesRequest{CompanyId: company, Year: year})
 	if err != nil {
 		return err
 	}
-	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight|tabwriter.Debug)
-	fmt.Fprintln(tw, "licence\tcompany\tstatus\tline\tscope\tallocated\tdrawn\tremaining\tunit\tused %\t")
+	return writeLicences(w, resp, "text")
+}
+
+// words joins enum values as the JSON dialect spells them.
+func words[E interface {
+	Descriptor() protoreflect.EnumDescriptor
+	Number() protoreflect.EnumNumber
+}](vs []E, sep string) string {
+	out := make([]string, len(vs))
+	for i, v := range vs {
+		out[i] = enumWord(v.Descriptor(), v.Number())
+	}
+	return strings.Join(out, sep)
+}
+
+func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output string) error {
+	switch output {
+	case "json":
+		return jsonDoc(w, resp)
+	case "csv":
+		cw := csv.NewWriter(w)
+		_ = cw.Write([]string{"licence_number", "company_id", "status", "valid_from", "valid_to", "directions",
+			"special_purposes", "line_number", "annex_group", "substance", "unit", "allocated", "drawn", "remaining"})
+		for _, l := range resp.GetLicences() {
+			head := []string{l.GetLicenceNumber(), l.GetCompanyId(), words([]halovetv1.LicenceStatus{l.GetStatus()}, ""),
+				l.GetValidFrom(), l.GetValidTo(), words(l.GetDirections(), ";"), words(l.GetSpecialPurposes(), ";")}
+			if len(l.GetQuotaLines()) == 0 {
+				_ = cw.Write(append(head, "", "", "", "", "", "", ""))
+			}
+			for _, q := range l.GetQuotaLines() {
+				_ = cw.Write(append(append([]string{}, head...), strconv.Itoa(int(q.GetLineNumber())), q.GetAnnexGroup(), q.GetSubstance(),
+					words([]halovetv1.QuotaUnit{q.GetUnit()}, ""), fmtFull(q.GetAllocated()), fmtFull(q.GetDrawn()), fmtFull(q.GetRemaining())))
+			}
+		}
+		cw.Flush()
+		return cw.Error()
+	}
+	if len(resp.GetLicences()) == 0 {
+		fmt.Fprintln(w, "No licences match.")
+		_, err := io.WriteString(w, "\n"+reportFooter(nil))
+		return err
+	}
+	tw := newTable(w)
+	fmt.Fprintln(tw, "licence\tcompany\tstatus\tvalid from\tvalid to\tdirections\tline\tscope\tallocated\tdrawn\tremaining\tunit\tused %\t")
 	for _, l := range resp.GetLicences() {
+		dirs := words(l.GetDirections(), ",")
+		if sp := words(l.GetSpecialPurposes(), ","); sp != "" {
+			dirs += " (" + sp + ")"
+		}
+		head := fmt.Sprintf("%s\t%s\t%s\t%s\t%s\t%s\t", l.GetLicenceNumber(), l.GetCompanyId(), statusLabel(l.GetStatus()),
+			l.GetValidFrom(), l.GetValidTo(), dirs)
+		if len(l.GetQuotaLines()) == 0 {
+			fmt.Fprintf(tw, "%s-\t-\t-\t-\t-\t-\t-\t\n", head)
+		}
 		for _, q := range l.GetQuotaLines() {
 			scope := q.GetAnnexGroup()
 			if scope == "" {
 				scope = q.GetSubstance()
 			}
-			used := 0.0
+			used := "-"
 			if q.GetAllocated() > 0 {
-				used = 100 * q.GetDrawn() / q.GetAllocated()
+				used = fmtFixed(100*q.GetDrawn()/q.GetAllocated(), 1)
 			}
-			fmt.Fprintf(tw, "%s\t%s\t%s\t%d\t%s\t%.3f\t%.3f\t%.3f\t%s\t%.1f\t\n", l.GetLicenceNumber(), l.GetCompanyId(),
-				statusLabel(l.GetStatus()), q.GetLineNumber(), scope, q.GetAllocated(), q.GetDrawn(), q.GetRemaining(),
-				unitLabel[q.GetUnit()], used)
+			unit := unitLabel[q.GetUnit()]
+			f := func(v float64) string { return fmtUnit(v, unit) }
+			fmt.Fprintf(tw, "%s%d\t%s\t%s\t%s\t%s\t%s\t%s\t\n", head, q.GetLineNumber(), scope,
+				f(q.GetAllocated()), f(q.GetDrawn()), f(q.GetRemaining()), unit, used)
 		}
 	}
-	return tw.Flush()
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	_, err := io.WriteString(w, "\n"+reportFooter(nil))
+	return err
 }
 
 func statusLabel(s halovetv1.LicenceStatus) string {

@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
 	"math"
@@ -12,15 +11,14 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/grpc/status"
-	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
 func init() {
-	register("lookup", "identify substances and blends and show their catalogue entries", runLookup)
+	addVerb("lookup", "identify substances and blends and show their catalogue entries", lookupUsage, defineLookup)
 }
 
 const lookupUsage = `lookup [flags] IDENTIFIER...
@@ -43,12 +41,12 @@ gets "did you mean" suggestions.
 one object per IDENTIFIER, in order, {"identifier": "...", "resolution": ...,
 "entry": ..., "evaluation": ...}, where resolution is the ResolveIdentifierResponse,
 entry the GetEntryResponse and evaluation the EvaluateMixtureResponse of the entry
-(cautions, blend GWPs), each in protobuf JSON (protojson: lowerCamelCase names,
-fields at their zero value left out). entry and evaluation are present only when the
-identifier resolved to one entry.
+(cautions, blend GWPs), each in halovet's JSON dialect ('halovet help json':
+snake_case names, zeros kept, enums as words). entry and evaluation are present only
+when the identifier resolved to one entry.
 
 Exit code: 0 when every IDENTIFIER resolved to exactly one entry; 1 when one did not
-(ambiguous or unknown) or the server failed; 2 for unusable command-line input.
+(ambiguous or unknown); 2 for unusable command-line input; 3 when no server answers.
 
 Examples:
   halovet lookup R-22
@@ -56,29 +54,9 @@ Examples:
   halovet lookup R-404A 2903.45
   halovet lookup --output json R-410A`
 
-// parseFlagsInterleaved parses flags given before, between or after the positional
-// arguments, and returns the positional ones in order ("--" ends the flags).
-func parseFlagsInterleaved(fs *flag.FlagSet, args []string) ([]string, error) {
-	var pos []string
-	for {
-		if err := parseFlags(fs, args); err != nil {
-			return nil, err
-		}
-		rest := fs.Args()
-		if len(rest) == 0 {
-			return pos, nil
-		}
-		if i := len(args) - len(rest); i > 0 && args[i-1] == "--" {
-			return append(pos, rest...), nil
-		}
-		pos = append(pos, rest[0])
-		args = rest[1:]
-	}
-}
-
 // outputFlag registers --output text|json.
-func reportOutputFlag(fs *flag.FlagSet) *string {
-	return fs.String("output", "text", "output format: text (a report for people) or json (protobuf JSON; see above)")
+func reportOutputFlag(fs *pflag.FlagSet) *string {
+	return fs.String("output", "text", "output format: text (a report for people) or json (see 'halovet help json')")
 }
 
 func checkReportOutput(v string) error {
@@ -88,32 +66,29 @@ func checkReportOutput(v string) error {
 	return nil
 }
 
-func runLookup(ctx context.Context, args []string) error {
-	fs := newFlagSet("lookup", lookupUsage)
+func defineLookup(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
 	output := reportOutputFlag(fs)
-	ids, err := parseFlagsInterleaved(fs, args)
-	if err != nil {
-		return err
-	}
-	if err := checkReportOutput(*output); err != nil {
-		return err
-	}
-	if len(ids) == 0 {
-		return usageErr("give at least one IDENTIFIER (see --help)")
-	}
-	for _, id := range ids {
-		if strings.TrimSpace(id) == "" {
-			return usageErr("an IDENTIFIER is empty")
+	return func(ctx context.Context, ids []string) error {
+		if err := checkReportOutput(*output); err != nil {
+			return err
 		}
+		if len(ids) == 0 {
+			return usageErr("give at least one IDENTIFIER (see --help)")
+		}
+		for _, id := range ids {
+			if strings.TrimSpace(id) == "" {
+				return usageErr("an IDENTIFIER is empty")
+			}
+		}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		return lookupReport(ctx, conn, os.Stdout, ids, *output)
 	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	return lookupReport(ctx, conn, os.Stdout, ids, *output)
 }
 
 // lookupResult is what the server says about one identifier.
@@ -192,8 +167,8 @@ func lookupReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Write
 		}
 	}
 	if len(unresolved) > 0 {
-		return &exitError{code: 1, err: fmt.Errorf("%d of %d identifiers did not resolve to one catalogue entry: %s",
-			len(unresolved), len(ids), strings.Join(unresolved, ", "))}
+		return rejectedErr("%d of %d identifiers did not resolve to one catalogue entry: %s",
+			len(unresolved), len(ids), strings.Join(unresolved, ", "))
 	}
 	return nil
 }
@@ -206,19 +181,12 @@ func writeLookupJSON(w io.Writer, r lookupResult) error {
 		Entry      json.RawMessage `json:"entry,omitempty"`
 		Evaluation json.RawMessage `json:"evaluation,omitempty"`
 	}{Identifier: r.identifier}
-	var err error
-	if rec.Resolution, err = protojson.Marshal(r.resolution); err != nil {
-		return err
-	}
+	rec.Resolution = jsonLine(r.resolution)
 	if r.entry != nil {
-		if rec.Entry, err = protojson.Marshal(r.entry); err != nil {
-			return err
-		}
-		if rec.Evaluation, err = protojson.Marshal(r.evaluation); err != nil {
-			return err
-		}
+		rec.Entry = jsonLine(r.entry)
+		rec.Evaluation = jsonLine(r.evaluation)
 	}
-	b, err := json.Marshal(rec) // compacts the protojson text
+	b, err := json.Marshal(rec) // one line
 	if err != nil {
 		return err
 	}
@@ -472,9 +440,6 @@ func wrapIndented(s, indent string, width int) string {
 // rpcFailure turns a failed call into a one-line error (exit code 1) with the server's
 // message and the fields it names.
 func rpcFailure(what string, err error) error {
-	st, ok := status.FromError(err)
-	if !ok {
-		return fmt.Errorf("%s: %w", what, err)
-	}
-	return fmt.Errorf("%s: the server answered %s: %s", what, st.Code(), st.Message())
+	// run gives the wrapped status its exit code and reads it as "the server answered ...".
+	return fmt.Errorf("%s: %w", what, err)
 }

@@ -13,8 +13,6 @@ import (
 	"strings"
 	"testing"
 
-	"google.golang.org/protobuf/encoding/protojson"
-
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -162,13 +160,13 @@ func TestLookupJSONLines(t *testing.T) {
 	var res halovetv1.ResolveIdentifierResponse
 	var entry halovetv1.GetEntryResponse
 	var ev halovetv1.EvaluateMixtureResponse
-	if err := protojson.Unmarshal(recs[0].Resolution, &res); err != nil {
+	if err := unmarshalDialect(recs[0].Resolution, &res); err != nil {
 		t.Fatalf("resolution: %v", err)
 	}
-	if err := protojson.Unmarshal(recs[0].Entry, &entry); err != nil {
+	if err := unmarshalDialect(recs[0].Entry, &entry); err != nil {
 		t.Fatalf("entry: %v", err)
 	}
-	if err := protojson.Unmarshal(recs[0].Evaluation, &ev); err != nil {
+	if err := unmarshalDialect(recs[0].Evaluation, &ev); err != nil {
 		t.Fatalf("evaluation: %v", err)
 	}
 	if recs[0].Identifier != "R-22" || res.GetCandidates()[0].GetDesignation() != "HCFC-22" {
@@ -184,7 +182,7 @@ func TestLookupJSONLines(t *testing.T) {
 
 	// 2903.45: ambiguous, resolution only.
 	res.Reset()
-	if err := protojson.Unmarshal(recs[1].Resolution, &res); err != nil {
+	if err := unmarshalDialect(recs[1].Resolution, &res); err != nil {
 		t.Fatalf("resolution 2: %v", err)
 	}
 	if !res.GetAmbiguous() || len(res.GetCandidates()) != 2 || recs[1].Entry != nil || recs[1].Evaluation != nil {
@@ -195,10 +193,10 @@ func TestLookupJSONLines(t *testing.T) {
 	// R-404A: a blend with its GWP figures.
 	entry.Reset()
 	ev.Reset()
-	if err := protojson.Unmarshal(recs[2].Entry, &entry); err != nil {
+	if err := unmarshalDialect(recs[2].Entry, &entry); err != nil {
 		t.Fatalf("entry 3: %v", err)
 	}
-	if err := protojson.Unmarshal(recs[2].Evaluation, &ev); err != nil {
+	if err := unmarshalDialect(recs[2].Evaluation, &ev); err != nil {
 		t.Fatalf("evaluation 3: %v", err)
 	}
 	if len(entry.GetEntry().GetBlend().GetComponents()) != 3 {
@@ -263,10 +261,10 @@ func TestLookupAndMixExitCodes(t *testing.T) {
 		{"lookup ambiguous", []string{"lookup", "--server", addr, "R-22", "2903.45"}, 1, "ambiguous", "1 of 2"},
 		{"lookup without identifiers", []string{"lookup", "--server", addr}, 2, "", "IDENTIFIER"},
 		{"lookup bad output", []string{"lookup", "--server", addr, "--output", "yaml", "R-22"}, 2, "", "--output"},
-		{"lookup help", []string{"lookup", "--help"}, 0, "", "Examples:"},
+		{"lookup help", []string{"lookup", "--help"}, 0, "Examples:", ""},
 		{"mix blend, mass after SPEC", []string{"mix", "--server", addr, "R-410A", "--mass-kg", "10"}, 0, "Mixture R-410A, 10 kg", ""},
-		{"mix sum off", []string{"mix", "--server", addr, "R-32:50,R-125:49.5"}, 1, "", "99.5"},
-		{"mix unknown identifier", []string{"mix", "--server", addr, "R-32:50,R-12x5:50"}, 1, "", "R-125"},
+		{"mix sum off", []string{"mix", "--server", addr, "R-32:50,R-125:49.5"}, 2, "", "99.5"},
+		{"mix unknown identifier", []string{"mix", "--server", addr, "R-32:50,R-12x5:50"}, 2, "", "R-125"},
 		{"mix malformed SPEC", []string{"mix", "--server", addr, "R-32:50,R-125"}, 2, "", "MASS_PERCENT"},
 		{"mix negative mass", []string{"mix", "--server", addr, "--mass-kg", "-3", "R-410A"}, 2, "", "--mass-kg"},
 		{"mix two SPECs", []string{"mix", "--server", addr, "R-410A", "R-404A"}, 2, "", "exactly one SPEC"},

@@ -11,6 +11,9 @@ import (
 	"regexp"
 	"strings"
 	"syscall"
+
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
 )
 
 func main() {
@@ -19,6 +22,15 @@ func main() {
 	stop()
 	os.Exit(code)
 }
+
+// The exit codes every verb shares; exitCodeHelp explains them.
+const (
+	exitOK          = 0
+	exitRejected    = 1
+	exitUsage       = 2
+	exitUnreachable = 3
+	exitFailure     = 4
+)
 
 var rpcErrorText = regexp.MustCompile(`rpc error: code = (\w+) desc = `)
 
@@ -31,37 +43,83 @@ type exitError struct {
 func (e *exitError) Error() string { return e.err.Error() }
 func (e *exitError) Unwrap() error { return e.err }
 
-// usageErr marks bad command-line input (exit code 2).
+// usageErr marks unusable input: the command line, or a file (exit code 2).
 func usageErr(format string, args ...any) error {
-	return &exitError{code: 2, err: fmt.Errorf(format, args...)}
+	return &exitError{code: exitUsage, err: fmt.Errorf(format, args...)}
 }
 
+// rejectedErr marks an answer that refuses some of the input (exit code 1).
+func rejectedErr(format string, args ...any) error {
+	return &exitError{code: exitRejected, err: fmt.Errorf(format, args...)}
+}
+
+var errHelpShown = errors.New("help shown")
+
+// dialedServer is the address the last client connection was made to, for the hint
+// when nothing answers there.
+var dialedServer string
+
 func run(ctx context.Context, args []string) int {
-	if len(args) == 0 || args[0] == "-h" || args[0] == "--help" || args[0] == "help" {
-		printUsage(os.Stdout)
-		return 0
+	root := newRoot(ctx)
+	root.SetArgs(args)
+	root.SetOut(os.Stdout)
+	root.SetErr(os.Stderr)
+	dialedServer = ""
+	cmd, err := root.ExecuteC()
+	if err == nil || errors.Is(err, errHelpShown) {
+		return exitOK
 	}
-	cmd, ok := commands[args[0]]
-	if !ok {
-		fmt.Fprintf(os.Stderr, "halovet: unknown command %q\n\n", args[0])
-		printUsage(os.Stderr)
-		return 2
+	verb := "halovet"
+	if cmd != nil && cmd != root {
+		verb = "halovet " + cmd.Name()
 	}
-	err := cmd.run(ctx, args[1:])
-	if err == nil {
-		return 0
-	}
-	if errors.Is(err, errHelpShown) {
-		return 0
-	}
-	// One line: a wrapped driver error may span several.
+	code, msg := explain(err)
+	fmt.Fprintf(os.Stderr, "%s: %s\n", verb, msg)
+	return code
+}
+
+// explain gives an error its exit code and its one-line message.
+func explain(err error) (int, string) {
+	// One line: a wrapped driver error may span several. The "did you mean" list of an
+	// unknown verb reads as one line too.
 	msg := strings.Join(strings.Fields(strings.ReplaceAll(err.Error(), "\n", "; ")), " ")
+	if verb, rest, ok := strings.Cut(err.Error(), "\n\nDid you mean this?\n"); ok {
+		msg = strings.TrimSuffix(verb, ` for "halovet"`) + "; did you mean " + strings.Join(strings.Fields(rest), " or ") + "?"
+	}
 	// "rpc error: code = NotFound desc = ..." reads better as "the server answered NotFound: ...".
 	msg = rpcErrorText.ReplaceAllString(msg, "the server answered $1: ")
-	fmt.Fprintf(os.Stderr, "halovet %s: %s\n", args[0], msg)
 	var ee *exitError
 	if errors.As(err, &ee) {
-		return ee.code
+		return ee.code, msg
 	}
-	return 1
+	if strings.HasPrefix(msg, "unknown command") || strings.HasPrefix(msg, "accepts ") ||
+		strings.HasPrefix(msg, "unknown flag") || strings.HasPrefix(msg, "unknown shorthand flag") {
+		return exitUsage, msg + " (see --help)"
+	}
+	if st, ok := status.FromError(unwrapAll(err)); ok {
+		switch st.Code() {
+		case codes.Unavailable, codes.DeadlineExceeded:
+			where := dialedServer
+			if where == "" {
+				where = "--server"
+			}
+			return exitUnreachable, msg + "; no halovet server answered at " + where +
+				": start one with 'halovet serve', or give its address with --server HOST[:PORT] (or HALOVET_SERVER)"
+		case codes.InvalidArgument, codes.NotFound, codes.OutOfRange, codes.AlreadyExists, codes.FailedPrecondition:
+			return exitUsage, msg
+		case codes.PermissionDenied, codes.Unauthenticated:
+			return exitFailure, msg + "; calls that change data need --admin-token-file (or HALOVET_ADMIN_TOKEN_FILE)"
+		}
+	}
+	return exitFailure, msg
+}
+
+// unwrapAll finds a gRPC status error inside wrapped errors.
+func unwrapAll(err error) error {
+	for e := err; e != nil; e = errors.Unwrap(e) {
+		if _, ok := status.FromError(e); ok && status.Code(e) != codes.Unknown {
+			return e
+		}
+	}
+	return err
 }

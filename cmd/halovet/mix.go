@@ -10,14 +10,14 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
 func init() {
-	register("mix", "evaluate a blend or an ad-hoc composition: ODP, GWP, CO2-eq, HS code", runMix)
+	addVerb("mix", "evaluate a blend or an ad-hoc composition: ODP, GWP, CO2-eq, HS code", mixUsage, defineMix)
 }
 
 const mixUsage = `mix [flags] SPEC
@@ -36,12 +36,12 @@ the safety class and cautions. Whole GWPs are rounded half-up, the unrounded
 mass-weighted sum beside them.
 
 --output text (default) prints a report for people; --output json prints the
-EvaluateMixtureResponse in protobuf JSON (protojson).
+EvaluateMixtureResponse in halovet's JSON dialect ('halovet help json').
 
-Exit code: 0 on success; 1 when the server rejects the request (an unknown or
-ambiguous identifier; shares that do not sum to 100 %, with the sum named) or fails;
-2 for unusable command-line input (a SPEC that is not IDENTIFIER:PERCENT pairs, a
-negative --mass-kg). Flags may come before or after SPEC.
+Exit code: 0 on success; 2 when the input is unusable, whether the command line (a
+SPEC that is not IDENTIFIER:PERCENT pairs, a negative --mass-kg) or what the server
+refuses (an unknown or ambiguous identifier; shares that do not sum to 100 %, with
+the sum named); 3 when no server answers. Flags may come before or after SPEC.
 
 Examples:
   halovet mix R-410A
@@ -49,32 +49,29 @@ Examples:
   halovet mix R-32:50,R-125:50 --mass-kg 1000
   halovet mix --output json HCFC-22:53,HFC-152a:13,HCFC-124:34`
 
-func runMix(ctx context.Context, args []string) error {
-	fs := newFlagSet("mix", mixUsage)
+func defineMix(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
 	output := reportOutputFlag(fs)
 	massKg := fs.Float64("mass-kg", 0, "net mass of the mixture in kg; 0 gives figures per kg only")
-	pos, err := parseFlagsInterleaved(fs, args)
-	if err != nil {
-		return err
+	return func(ctx context.Context, pos []string) error {
+		if err := checkReportOutput(*output); err != nil {
+			return err
+		}
+		if len(pos) != 1 {
+			return usageErr("give exactly one SPEC, e.g. R-410A or R-32:50,R-125:50 (see --help); got %d arguments", len(pos))
+		}
+		req, err := mixRequest(pos[0], *massKg)
+		if err != nil {
+			return err
+		}
+		conn, err := cf.dial()
+		if err != nil {
+			return err
+		}
+		defer conn.Close()
+		return mixReport(ctx, conn, os.Stdout, req, *output)
 	}
-	if err := checkReportOutput(*output); err != nil {
-		return err
-	}
-	if len(pos) != 1 {
-		return usageErr("give exactly one SPEC, e.g. R-410A or R-32:50,R-125:50 (see --help); got %d arguments", len(pos))
-	}
-	req, err := mixRequest(pos[0], *massKg)
-	if err != nil {
-		return err
-	}
-	conn, err := cf.dial()
-	if err != nil {
-		return err
-	}
-	defer conn.Close()
-	return mixReport(ctx, conn, os.Stdout, req, *output)
 }
 
 // mixRequest builds the EvaluateMixture request of a SPEC; input it cannot use is a usage
@@ -138,12 +135,7 @@ func mixReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Writer, 
 		return rpcFailure("evaluating "+what, err)
 	}
 	if output == "json" {
-		b, err := protojson.MarshalOptions{Multiline: true}.Marshal(ev)
-		if err != nil {
-			return err
-		}
-		_, err = w.Write(append(b, '\n'))
-		return err
+		return jsonDoc(w, ev)
 	}
 	return writeMixText(w, ev)
 }

@@ -7,8 +7,6 @@ import (
 	"strings"
 	"testing"
 
-	"google.golang.org/protobuf/encoding/protojson"
-
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -81,7 +79,7 @@ func TestMixJSON(t *testing.T) {
 		t.Fatalf("mix --output json R-507A: %v", err)
 	}
 	var ev halovetv1.EvaluateMixtureResponse
-	if err := protojson.Unmarshal(out.Bytes(), &ev); err != nil {
+	if err := unmarshalDialect(out.Bytes(), &ev); err != nil {
 		t.Fatalf("output is not an EvaluateMixtureResponse in protobuf JSON: %v\n%s", err, out.String())
 	}
 	// source: UK government CO2-eq table (SOURCES.md §3): R-507A 3985; 2 t -> 7970 CO2-eq t.

@@ -9,13 +9,14 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
 func init() {
-	register("quotas", "propose next year's quotas per company (largest remainder), optionally as draft licences", runQuotas)
+	addVerb("quotas", "propose next year's quotas per company (largest remainder), optionally as draft licences", quotasUsage, defineQuotas)
 }
 
 const quotasUsage = `quotas --year YEAR --group GROUP --reference-years Y1,Y2 [flags]
@@ -33,8 +34,7 @@ Examples:
   halovet quotas --year 2027 --group F --reference-years 2026 --fraction 0.95 --granularity 1
   halovet quotas --year 2027 --group C/I --reference-years 2026 --issue-drafts`
 
-func runQuotas(ctx context.Context, args []string) error {
-	fs := newFlagSet("quotas", quotasUsage)
+func defineQuotas(fs *pflag.FlagSet) runFunc {
 	var rf reportFlags
 	rf.register(fs)
 	year := fs.Int("year", 0, "year the quotas are for (required)")
@@ -43,28 +43,30 @@ func runQuotas(ctx context.Context, args []string) error {
 	fraction := fs.Float64("fraction", 1, "part of the allowed level to distribute, above 0 and at most 1")
 	gran := fs.Float64("granularity", 0.001, "smallest unit of allocation in the group's unit")
 	drafts := fs.Bool("issue-drafts", false, "store the proposals as draft licences (needs the admin token when the server asks for one)")
-	if err := rf.parse(fs, args); err != nil {
-		return err
-	}
-	if *year == 0 || *group == "" || *refs == "" {
-		return usageErr("--year, --group and --reference-years are required, e.g. --year 2027 --group C/I --reference-years 2025,2026")
-	}
-	var years []int32
-	for _, s := range strings.Split(*refs, ",") {
-		y, err := strconv.Atoi(strings.TrimSpace(s))
-		if err != nil {
-			return usageErr("--reference-years: %q is not a year; give years separated by commas, e.g. 2025,2026", s)
-		}
-		years = append(years, int32(y))
-	}
-	return rf.withConn(func(conn *grpc.ClientConn) error {
-		resp, err := halovetv1.NewConsumptionServiceClient(conn).PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: int32(*year),
-			AnnexGroup: *group, ReferenceYears: years, Fraction: *fraction, Granularity: *gran, IssueDrafts: *drafts})
-		if err != nil {
+	return func(ctx context.Context, args []string) error {
+		if err := rf.check(args); err != nil {
 			return err
 		}
-		return writeQuotas(os.Stdout, resp, rf.output)
-	})
+		if *year == 0 || *group == "" || *refs == "" {
+			return usageErr("--year, --group and --reference-years are required, e.g. --year 2027 --group C/I --reference-years 2025,2026")
+		}
+		var years []int32
+		for _, s := range strings.Split(*refs, ",") {
+			y, err := strconv.Atoi(strings.TrimSpace(s))
+			if err != nil {
+				return usageErr("--reference-years: %q is not a year; give years separated by commas, e.g. 2025,2026", s)
+			}
+			years = append(years, int32(y))
+		}
+		return rf.withConn(func(conn *grpc.ClientConn) error {
+			resp, err := halovetv1.NewConsumptionServiceClient(conn).PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: int32(*year),
+				AnnexGroup: *group, ReferenceYears: years, Fraction: *fraction, Granularity: *gran, IssueDrafts: *drafts})
+			if err != nil {
+				return err
+			}
+			return writeQuotas(os.Stdout, resp, rf.output)
+		})
+	}
 }
 
 func writeQuotas(w io.Writer, resp *halovetv1.PlanQuotasResponse, output string) error {

@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"encoding/csv"
-	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -11,19 +10,19 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
 // The consumption reports: consumption, baseline, compliance and quotas. Each asks the
-// server's ConsumptionService and prints the answer as a text table, CSV or protobuf JSON.
+// server's ConsumptionService and prints the answer as a text table, CSV or JSON.
 
 func init() {
-	register("consumption", "report a year's consumption per Annex group and substance", runConsumption)
-	register("baseline", "report the reporting Party's baseline of an Annex group, with its arithmetic", runBaseline)
+	addVerb("consumption", "report a year's consumption per Annex group and substance", consumptionUsage, defineConsumption)
+	addVerb("baseline", "report the reporting Party's baseline of an Annex group, with its arithmetic", baselineUsage, defineBaseline)
 }
 
 // reportFlags are the flags every report verb shares.
@@ -32,18 +31,15 @@ type reportFlags struct {
 	output string
 }
 
-func (r *reportFlags) register(fs *flag.FlagSet) {
+func (r *reportFlags) register(fs *pflag.FlagSet) {
 	r.client.register(fs)
-	fs.StringVar(&r.output, "output", "text", "output: text (a table for people), csv, or json (the API's response in protobuf JSON)")
+	fs.StringVar(&r.output, "output", "text", "output: text (a table for people), csv, or json (the API's response; see 'halovet help json')")
 }
 
-// parse parses args and checks --output; positional arguments are refused.
-func (r *reportFlags) parse(fs *flag.FlagSet, args []string) error {
-	if err := parseFlags(fs, args); err != nil {
-		return err
-	}
-	if fs.NArg() > 0 {
-		return usageErr("unexpected argument %q (see --help)", fs.Arg(0))
+// check refuses positional arguments and checks --output.
+func (r *reportFlags) check(args []string) error {
+	if len(args) > 0 {
+		return usageErr("unexpected argument %q (see --help)", args[0])
 	}
 	switch r.output {
 	case "text", "csv", "json":
@@ -62,14 +58,9 @@ func (r *reportFlags) withConn(fn func(conn *grpc.ClientConn) error) error {
 	return fn(conn)
 }
 
-// writeProtoJSON prints a response in protobuf JSON, indented, ending with a newline.
+// writeProtoJSON prints a response in the command line's JSON dialect (jsonout.go).
 func writeProtoJSON(w io.Writer, m proto.Message) error {
-	b, err := protojson.MarshalOptions{Multiline: true, Indent: "  "}.Marshal(m)
-	if err != nil {
-		return err
-	}
-	_, err = fmt.Fprintf(w, "%s\n", b)
-	return err
+	return jsonDoc(w, m)
 }
 
 // Number formats. Text rounds for reading (0.001 t and ODP t, 1 CO2-eq t); CSV carries
@@ -136,26 +127,27 @@ Examples:
   halovet consumption --year 2026
   halovet consumption --year 2026 --group C/I --output csv > hcfc-2026.csv`
 
-func runConsumption(ctx context.Context, args []string) error {
-	fs := newFlagSet("consumption", consumptionUsage)
+func defineConsumption(fs *pflag.FlagSet) runFunc {
 	var rf reportFlags
 	rf.register(fs)
 	year := fs.Int("year", 0, "calendar year (required)")
 	group := fs.String("group", "", "only this Annex group (C/I, F/I, ...) or F for Annex F as a whole")
-	if err := rf.parse(fs, args); err != nil {
-		return err
-	}
-	if *year == 0 {
-		return usageErr("--year is required, e.g. --year 2026")
-	}
-	return rf.withConn(func(conn *grpc.ClientConn) error {
-		resp, err := halovetv1.NewConsumptionServiceClient(conn).GetConsumption(ctx,
-			&halovetv1.GetConsumptionRequest{Year: int32(*year), AnnexGroup: *group})
-		if err != nil {
+	return func(ctx context.Context, args []string) error {
+		if err := rf.check(args); err != nil {
 			return err
 		}
-		return writeConsumption(os.Stdout, resp, rf.output)
-	})
+		if *year == 0 {
+			return usageErr("--year is required, e.g. --year 2026")
+		}
+		return rf.withConn(func(conn *grpc.ClientConn) error {
+			resp, err := halovetv1.NewConsumptionServiceClient(conn).GetConsumption(ctx,
+				&halovetv1.GetConsumptionRequest{Year: int32(*year), AnnexGroup: *group})
+			if err != nil {
+				return err
+			}
+			return writeConsumption(os.Stdout, resp, rf.output)
+		})
+	}
 }
 
 var consumptionCSVHeader = []string{"annex_group", "substance", "production_t", "imports_t", "exports_t",
@@ -252,24 +244,25 @@ Examples:
   halovet baseline --group C/I
   halovet baseline --group F --output json`
 
-func runBaseline(ctx context.Context, args []string) error {
-	fs := newFlagSet("baseline", baselineUsage)
+func defineBaseline(fs *pflag.FlagSet) runFunc {
 	var rf reportFlags
 	rf.register(fs)
 	group := fs.String("group", "", "Annex group (A/I ... E/I), or F for HFCs (required)")
-	if err := rf.parse(fs, args); err != nil {
-		return err
-	}
-	if *group == "" {
-		return usageErr("--group is required, e.g. --group C/I or --group F")
-	}
-	return rf.withConn(func(conn *grpc.ClientConn) error {
-		resp, err := halovetv1.NewConsumptionServiceClient(conn).GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: *group})
-		if err != nil {
+	return func(ctx context.Context, args []string) error {
+		if err := rf.check(args); err != nil {
 			return err
 		}
-		return writeBaseline(os.Stdout, resp, rf.output)
-	})
+		if *group == "" {
+			return usageErr("--group is required, e.g. --group C/I or --group F")
+		}
+		return rf.withConn(func(conn *grpc.ClientConn) error {
+			resp, err := halovetv1.NewConsumptionServiceClient(conn).GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: *group})
+			if err != nil {
+				return err
+			}
+			return writeBaseline(os.Stdout, resp, rf.output)
+		})
+	}
 }
 
 func yearRows(part string, ys []*halovetv1.BaselineYear, unit string, f func(float64) string) [][]string {

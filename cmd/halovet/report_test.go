@@ -15,8 +15,6 @@ import (
 	"strings"
 	"testing"
 
-	"google.golang.org/protobuf/encoding/protojson"
-
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
@@ -85,7 +83,7 @@ func TestComplianceTextCSVJSON(t *testing.T) {
 		t.Fatal(err)
 	}
 	back := &halovetv1.AssessComplianceResponse{}
-	if err := protojson.Unmarshal(b.Bytes(), back); err != nil || len(back.GetYears()) != 4 || back.GetYears()[2].GetPeriod().GetRoomLeft() != -1.5 {
+	if err := unmarshalDialect(b.Bytes(), back); err != nil || len(back.GetYears()) != 4 || back.GetYears()[2].GetPeriod().GetRoomLeft() != -1.5 {
 		t.Fatalf("json does not read back as the response: %v %v", err, back)
 	}
 }

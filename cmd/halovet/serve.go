@@ -8,6 +8,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials"
 
@@ -15,8 +16,8 @@ import (
 )
 
 func init() {
-	register("serve", "run the gRPC server", runServe)
-	register("migrate", "apply the database schema migrations and exit", runMigrate)
+	addVerb("serve", "run the gRPC server", serveUsage, defineServe)
+	addVerb("migrate", "apply the database schema migrations and exit", migrateUsage, defineMigrate)
 }
 
 const serveUsage = `serve [flags]
@@ -27,8 +28,7 @@ private PostgreSQL cluster in --data-dir from the machine's PostgreSQL server bi
 and stops it on exit. SIGINT or SIGTERM shut down gracefully: health turns NOT_SERVING,
 calls in flight get --grace-period to finish.`
 
-func runServe(ctx context.Context, args []string) error {
-	fs := newFlagSet("serve", serveUsage)
+func defineServe(fs *pflag.FlagSet) runFunc {
 	var d dbFlags
 	d.register(fs)
 	listen := fs.String("listen", envOr("HALOVET_LISTEN", "127.0.0.1:7390"), "address to listen on (env HALOVET_LISTEN)")
@@ -39,58 +39,60 @@ func runServe(ctx context.Context, args []string) error {
 	certFile := fs.String("tls-cert", envOr("HALOVET_TLS_CERT", ""), "PEM certificate chain to serve TLS with (env HALOVET_TLS_CERT); with --tls-key")
 	keyFile := fs.String("tls-key", envOr("HALOVET_TLS_KEY", ""), "PEM private key of --tls-cert (env HALOVET_TLS_KEY)")
 	tokenFile := fs.String("admin-token-file", envOr("HALOVET_ADMIN_TOKEN_FILE", ""), "file holding the bearer token that calls changing data must carry; empty: no token needed (env HALOVET_ADMIN_TOKEN_FILE)")
-	if err := parseFlags(fs, args); err != nil {
-		return err
-	}
-	log, err := newLogger(*logFormat, *logLevel)
-	if err != nil {
-		return err
-	}
-	var token string
-	if *tokenFile != "" {
-		b, err := os.ReadFile(*tokenFile)
-		if err != nil {
-			return fmt.Errorf("--admin-token-file: %w", err)
+	return func(ctx context.Context, args []string) error {
+		if len(args) > 0 {
+			return usageErr("unexpected argument %q (see --help)", args[0])
 		}
-		token = strings.TrimSpace(string(b))
-	}
-	var serverOpts []grpc.ServerOption
-	switch {
-	case *certFile != "" && *keyFile != "":
-		creds, err := credentials.NewServerTLSFromFile(*certFile, *keyFile)
+		log, err := newLogger(*logFormat, *logLevel)
 		if err != nil {
-			return fmt.Errorf("--tls-cert/--tls-key: %w", err)
+			return err
 		}
-		serverOpts = append(serverOpts, grpc.Creds(creds))
-	case *certFile != "" || *keyFile != "":
-		return usageErr("--tls-cert and --tls-key go together")
-	}
-	lis, err := net.Listen("tcp", *listen)
-	if err != nil {
-		return fmt.Errorf("--listen %s: %w", *listen, err)
-	}
-	defer lis.Close()
+		var token string
+		if *tokenFile != "" {
+			b, err := os.ReadFile(*tokenFile)
+			if err != nil {
+				return fmt.Errorf("--admin-token-file: %w", err)
+			}
+			token = strings.TrimSpace(string(b))
+		}
+		var serverOpts []grpc.ServerOption
+		switch {
+		case *certFile != "" && *keyFile != "":
+			creds, err := credentials.NewServerTLSFromFile(*certFile, *keyFile)
+			if err != nil {
+				return fmt.Errorf("--tls-cert/--tls-key: %w", err)
+			}
+			serverOpts = append(serverOpts, grpc.Creds(creds))
+		case *certFile != "" || *keyFile != "":
+			return usageErr("--tls-cert and --tls-key go together")
+		}
+		lis, err := net.Listen("tcp", *listen)
+		if err != nil {
+			return fmt.Errorf("--listen %s: %w", *listen, err)
+		}
+		defer lis.Close()
 
-	db, err := openDatabase(ctx, d, *migrate, log)
-	if err != nil {
-		return err
+		db, err := openDatabase(ctx, d, *migrate, log)
+		if err != nil {
+			return err
+		}
+		defer db.Close()
+		cur, head, err := db.Store.SchemaVersion(ctx)
+		if err != nil {
+			return fmt.Errorf("reading the schema version: %w", err)
+		}
+		if cur != head {
+			return fmt.Errorf("the database schema is at version %d and this halovet needs %d: run 'halovet migrate' or serve with --migrate", cur, head)
+		}
+		cat, err := service.LoadCatalogue(ctx, db.Store, log)
+		if err != nil {
+			return err
+		}
+		stopWatch := cat.Watch(ctx, db.Store)
+		defer stopWatch()
+		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts})
+		return srv.Serve(ctx, lis)
 	}
-	defer db.Close()
-	cur, head, err := db.Store.SchemaVersion(ctx)
-	if err != nil {
-		return fmt.Errorf("reading the schema version: %w", err)
-	}
-	if cur != head {
-		return fmt.Errorf("the database schema is at version %d and this halovet needs %d: run 'halovet migrate' or serve with --migrate", cur, head)
-	}
-	cat, err := service.LoadCatalogue(ctx, db.Store, log)
-	if err != nil {
-		return err
-	}
-	stopWatch := cat.Watch(ctx, db.Store)
-	defer stopWatch()
-	srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts})
-	return srv.Serve(ctx, lis)
 }
 
 const migrateUsage = `migrate [flags]
@@ -98,26 +100,27 @@ const migrateUsage = `migrate [flags]
 Applies every pending schema migration to the database and prints the version reached.
 Safe to run from several replicas at once: an advisory lock serialises them.`
 
-func runMigrate(ctx context.Context, args []string) error {
-	fs := newFlagSet("migrate", migrateUsage)
+func defineMigrate(fs *pflag.FlagSet) runFunc {
 	var d dbFlags
 	d.register(fs)
-	if err := parseFlags(fs, args); err != nil {
-		return err
+	return func(ctx context.Context, args []string) error {
+		if len(args) > 0 {
+			return usageErr("unexpected argument %q (see --help)", args[0])
+		}
+		log, err := newLogger(envOr("HALOVET_LOG_FORMAT", "text"), envOr("HALOVET_LOG_LEVEL", "warn"))
+		if err != nil {
+			return err
+		}
+		db, err := openDatabase(ctx, d, true, log)
+		if err != nil {
+			return err
+		}
+		defer db.Close()
+		cur, head, err := db.Store.SchemaVersion(ctx)
+		if err != nil {
+			return err
+		}
+		fmt.Printf("schema at version %d (newest %d)\n", cur, head)
+		return nil
 	}
-	log, err := newLogger(envOr("HALOVET_LOG_FORMAT", "text"), envOr("HALOVET_LOG_LEVEL", "warn"))
-	if err != nil {
-		return err
-	}
-	db, err := openDatabase(ctx, d, true, log)
-	if err != nil {
-		return err
-	}
-	defer db.Close()
-	cur, head, err := db.Store.SchemaVersion(ctx)
-	if err != nil {
-		return err
-	}
-	fmt.Printf("schema at version %d (newest %d)\n", cur, head)
-	return nil
 }

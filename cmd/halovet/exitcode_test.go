@@ -1,0 +1,206 @@
+package main
+
+import (
+	"io"
+
+	"github.com/halovet/halovet/validate"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// TestExitCodeContract runs every client verb through the command line, as a user would,
+// for each outcome of the exit-code contract (exitCodeHelp): success 0, rejected 1,
+// unusable input 2, unreachable server 3. A verb whose answer cannot refuse part of its
+// input (a report, a listing, an import) has no "rejected" row.
+func TestExitCodeContract(t *testing.T) {
+	d := startDemoServerAddr(t)
+	dir := t.TempDir()
+	// An unreadable line 4 (a field too many) between good lines; invented records.
+	batch := filepath.Join(dir, "line4.csv")
+	good, err := os.ReadFile(demoBatch)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.SplitN(string(good), "\n", 4)
+	writeFile(t, batch, lines[0]+"\n"+lines[1]+"\n"+lines[2]+"\n"+"X-4,import,one,field,too,many,,,,,,,,,,,,,\n")
+	okBatch := filepath.Join(dir, "ok.csv")
+	writeFile(t, okBatch, lines[0]+"\n# a comment line\n"+lines[1]+"\n")
+	empty := filepath.Join(dir, "empty.csv")
+	writeFile(t, empty, lines[0]+"\n")
+	over := filepath.Join(dir, "over.csv")
+	writeFile(t, over, "entry_key,year,entry_type,substance,metric_tonnes,note\nXA-TEST-2025-HCFC-22,2025,historical-import,HCFC-22,5000,invented to exceed\n")
+	dead := "127.0.0.1:1" // nothing listens on port 1 of loopback
+	s := "--server"
+
+	cases := []struct {
+		name   string
+		args   []string
+		code   int
+		stdout string // must occur in standard output
+		stderr string // must occur in standard error
+	}{
+		{"check success", []string{"check", okBatch, s, d}, exitOK, "accepted", ""},
+		{"check rejected, line 4 named", []string{"check", batch, s, d}, exitRejected, "\n4 ", "rejected"},
+		{"check header only", []string{"check", s, d, empty}, exitUsage, "", "holds no records"},
+		{"check entries file", []string{"check", s, d, demoDir + "/national_entries.csv"}, exitUsage, "", "halovet entries"},
+		{"check registry file", []string{"check", s, d, demoScenario}, exitUsage, "", "halovet load"},
+		{"check unreachable", []string{"check", okBatch, s, dead}, exitUnreachable, "", "halovet serve"},
+		{"lookup success", []string{"lookup", "R-22", s, d}, exitOK, "HCFC-22", ""},
+		{"lookup rejected", []string{"lookup", "R-4O4A", s, d}, exitRejected, "", "did not resolve"},
+		{"lookup unusable", []string{"lookup", s, d}, exitUsage, "", "IDENTIFIER"},
+		{"lookup unreachable", []string{"lookup", "R-22", s, dead}, exitUnreachable, "", "--server"},
+		{"mix success", []string{"mix", "R-410A", s, d}, exitOK, "R-410A", ""},
+		{"mix unusable", []string{"mix", "R-32:50,R-125", s, d}, exitUsage, "", "MASS_PERCENT"},
+		{"mix unreachable", []string{"mix", "R-410A", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"licences success", []string{"licences", s, d}, exitOK, "XA-IMP-2026-002", ""},
+		{"licences unusable", []string{"licences", "extra", s, d}, exitUsage, "", "unexpected argument"},
+		{"licences unreachable", []string{"licences", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"consumption success", []string{"consumption", "--year", "2026", s, d}, exitOK, "2026", ""},
+		{"consumption unusable", []string{"consumption", s, d}, exitUsage, "", "--year"},
+		{"consumption unreachable", []string{"consumption", "--year", "2026", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"baseline success", []string{"baseline", "--group", "C/I", s, d}, exitOK, "C/I", ""},
+		{"baseline unusable", []string{"baseline", "--group", "Z/9", s, d}, exitUsage, "", "Z/9"},
+		{"baseline unreachable", []string{"baseline", "--group", "C/I", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"compliance success", []string{"compliance", "--group", "C/I", "--from", "2026", s, d}, exitOK, "2026", ""},
+		// An invented 2025 import total far over XA's allowed level for HCFCs.
+		{"entries import", []string{"entries", over, s, d}, exitOK, "stored 1 entries", ""},
+		{"compliance rejected", []string{"compliance", "--group", "C/I", "--from", "2025", s, d}, exitRejected, "EXCEEDED", "exceeded the allowed level in 2025"},
+		{"compliance unusable", []string{"compliance", "--from", "2026", s, d}, exitUsage, "", "--group"},
+		{"compliance unreachable", []string{"compliance", "--group", "C/I", "--from", "2026", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"quotas success", []string{"quotas", "--year", "2027", "--group", "C/I", "--reference-years", "2026", s, d}, exitOK, "Quota plan", ""},
+		{"quotas unusable", []string{"quotas", "--year", "2027", "--group", "C/I", "--reference-years", "last", s, d}, exitUsage, "", "--reference-years"},
+		{"quotas unreachable", []string{"quotas", "--year", "2027", "--group", "C/I", "--reference-years", "2026", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"entries success", []string{"entries", "--list", s, d}, exitOK, "stored entries", ""},
+		{"entries shipments file", []string{"entries", okBatch, s, d}, exitUsage, "", "halovet check"},
+		{"entries unreachable", []string{"entries", "--list", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"load success", []string{"load", demoScenario, s, d}, exitOK, "loaded", ""},
+		{"load unusable", []string{"load", okBatch, s, d}, exitUsage, "", "not a registry file"},
+		{"load unreachable", []string{"load", demoScenario, s, dead}, exitUnreachable, "", "halovet serve"},
+		{"unknown verb", []string{"chek"}, exitUsage, "", "did you mean check?"},
+		{"unknown flag", []string{"licences", "--colour"}, exitUsage, "", "--colour"},
+		{"version", []string{"version"}, exitOK, "halovet ", ""},
+		{"--version", []string{"--version"}, exitOK, "halovet ", ""},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			code, stdout, stderr := runCaptured(t, tc.args...)
+			if code != tc.code {
+				t.Errorf("halovet %s: exit code %d; want %d\nstdout:\n%s\nstderr:\n%s", strings.Join(tc.args, " "), code, tc.code, stdout, stderr)
+			}
+			if !strings.Contains(stdout, tc.stdout) {
+				t.Errorf("stdout lacks %q:\n%s", tc.stdout, stdout)
+			}
+			if !strings.Contains(stderr, tc.stderr) {
+				t.Errorf("stderr lacks %q:\n%s", tc.stderr, stderr)
+			}
+		})
+	}
+}
+
+// TestServerWithoutPort: a host without a port means halovet's port, not gRPC's 443.
+func TestServerWithoutPort(t *testing.T) {
+	for in, want := range map[string]string{
+		"127.0.0.1":        "127.0.0.1:7390",
+		"localhost":        "localhost:7390",
+		"127.0.0.1:9000":   "127.0.0.1:9000",
+		"::1":              "[::1]:7390",
+		"[::1]":            "[::1]:7390",
+		"[::1]:9000":       "[::1]:9000",
+		"dns:///host:1234": "dns:///host:1234",
+	} {
+		got, err := serverAddress(in)
+		if err != nil || got != want {
+			t.Errorf("serverAddress(%q) = %q, %v; want %q", in, got, err, want)
+		}
+	}
+}
+
+// TestBashCompletion loads 'halovet completion bash' into a real bash and asks it to
+// complete a verb and a flag.
+func TestBashCompletion(t *testing.T) {
+	bash, err := exec.LookPath("bash")
+	if err != nil {
+		t.Fatalf("bash is needed for this test: %v", err)
+	}
+	bin := halovetBinary(t)
+	script := filepath.Join(t.TempDir(), "halovet.bash")
+	out, err := exec.Command(bin, "completion", "bash").Output()
+	if err != nil {
+		t.Fatalf("halovet completion bash: %v", err)
+	}
+	writeFile(t, script, string(out))
+	complete := func(line string) []string {
+		t.Helper()
+		words := strings.Fields(line)
+		if strings.HasSuffix(line, " ") {
+			words = append(words, "")
+		}
+		// bash-completion's _get_comp_words_by_ref, reduced to what the script asks of it,
+		// when the bash-completion package is not installed.
+		prog := `if [[ -r /usr/share/bash-completion/bash_completion ]]; then source /usr/share/bash-completion/bash_completion; else
+_get_comp_words_by_ref() { cur="${COMP_WORDS[COMP_CWORD]}"; prev="${COMP_WORDS[COMP_CWORD-1]}"; words=("${COMP_WORDS[@]}"); cword=$COMP_CWORD; }
+fi
+source "$1"
+PATH="$(dirname "$2"):$PATH"
+COMP_LINE="$3"; COMP_POINT=${#COMP_LINE}
+read -r -a COMP_WORDS <<< "$3"
+[[ "$3" == *" " ]] && COMP_WORDS+=("")
+COMP_CWORD=$(( ${#COMP_WORDS[@]} - 1 ))
+__start_halovet halovet
+printf '%s\n' "${COMPREPLY[@]}"`
+		cmd := exec.Command(bash, "--norc", "--noprofile", "-c", prog, "bash", script, bin, line)
+		cmd.Env = append(os.Environ(), "BASH_COMP_DEBUG_FILE=")
+		b, err := cmd.CombinedOutput()
+		if err != nil {
+			t.Fatalf("completing %q: %v\n%s", line, err, b)
+		}
+		_ = words
+		return strings.Fields(string(b))
+	}
+	if got := complete("halovet ch"); !contains(got, "check") {
+		t.Errorf("completing 'halovet ch' gave %q; want check among them", got)
+	}
+	if got := complete("halovet check --rec"); !contains(got, "--record") && !contains(got, "--records-per-message") {
+		t.Errorf("completing 'halovet check --rec' gave %q; want --record", got)
+	}
+	if got := complete("halovet lookup --out"); !contains(got, "--output") {
+		t.Errorf("completing 'halovet lookup --out' gave %q; want --output", got)
+	}
+}
+
+func contains(list []string, s string) bool {
+	for _, x := range list {
+		if x == s {
+			return true
+		}
+	}
+	return false
+}
+
+func writeFile(t *testing.T, path, text string) {
+	t.Helper()
+	if err := os.WriteFile(path, []byte(text), 0o600); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// startDemoServerAddr runs the server in process with the demo registry loaded and
+// returns its address.
+func startDemoServerAddr(t *testing.T) string {
+	t.Helper()
+	ts := startTestServer(t, demoNow)
+	if _, err := loadRegistry(t.Context(), ts.conn, demoScenario); err != nil {
+		t.Fatalf("load %s: %v", demoScenario, err)
+	}
+	if _, err := importEntries(t.Context(), ts.conn, demoDir+"/national_entries.csv"); err != nil {
+		t.Fatalf("import the demo's national entries: %v", err)
+	}
+	o := checkOptions{path: demoBatch, format: validate.FormatCSV, record: true, output: "text", maxLine: validate.DefaultMaxLineBytes}
+	if _, err := checkFile(t.Context(), ts.conn, o, io.Discard, io.Discard); err != nil {
+		t.Fatalf("record the demo batch: %v", err)
+	}
+	return ts.addr
+}

@@ -1,0 +1,129 @@
+package main
+
+import (
+	"bytes"
+	"encoding/csv"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// TestGoldenVerbOutputs runs every verb that prints a report, in each of its output
+// formats, against the invented demo (registry loaded, national entries imported, the
+// batch recorded, the server's clock at the demo's today) and compares standard output
+// with testdata/golden/VERB.{txt,json,csv}. go test -run GoldenVerb -update rewrites them.
+// JSON outputs must parse, and CSV outputs must have one header and rows of its width.
+func TestGoldenVerbOutputs(t *testing.T) {
+	d := startDemoServerAddr(t)
+	cases := []struct {
+		name string
+		args []string
+		code int
+	}{
+		{"lookup", []string{"lookup", "R-134a", "R-404A", "R-4O4A"}, exitRejected},
+		{"mix", []string{"mix", "R-410A", "--mass-kg", "10"}, exitOK},
+		{"check", []string{"check", demoBatch}, exitRejected},
+		{"licences", []string{"licences", "--year", "2026"}, exitOK},
+		{"consumption", []string{"consumption", "--year", "2026"}, exitOK},
+		{"baseline", []string{"baseline", "--group", "C/I"}, exitOK},
+		{"compliance", []string{"compliance", "--group", "C/I", "--from", "2024", "--to", "2026"}, exitOK},
+		{"quotas", []string{"quotas", "--year", "2027", "--group", "C/I", "--reference-years", "2026"}, exitOK},
+		{"entries", []string{"entries", "--list"}, exitOK},
+	}
+	formats := map[string][]string{
+		"lookup": {"text", "json"}, // no --output csv yet
+		"mix":    {"text", "json"},
+		"check":  {"text", "json"},
+	}
+	for _, tc := range cases {
+		fs := formats[tc.name]
+		if fs == nil {
+			fs = []string{"text", "json", "csv"}
+		}
+		for _, f := range fs {
+			t.Run(tc.name+"-"+f, func(t *testing.T) {
+				args := append(append([]string{}, tc.args...), "--server", d, "--output", f)
+				code, stdout, stderr := runCaptured(t, args...)
+				if code != tc.code {
+					t.Fatalf("halovet %s: exit code %d; want %d\nstderr:\n%s", strings.Join(args, " "), code, tc.code, stderr)
+				}
+				ext := map[string]string{"text": "txt", "json": "json", "csv": "csv"}[f]
+				switch f {
+				case "json":
+					checkJSONOutput(t, stdout)
+				case "csv":
+					checkCSVOutput(t, stdout)
+				}
+				compareVerbGolden(t, filepath.Join("testdata", "golden", tc.name+"."+ext), stdout)
+			})
+		}
+	}
+}
+
+// checkJSONOutput: one indented document, or JSON Lines of one object a line.
+func checkJSONOutput(t *testing.T, s string) {
+	t.Helper()
+	if strings.HasPrefix(s, "{\n") {
+		var v map[string]any
+		if err := json.Unmarshal([]byte(s), &v); err != nil {
+			t.Fatalf("JSON output does not parse: %v\n%s", err, s)
+		}
+		return
+	}
+	for i, line := range strings.Split(strings.TrimSuffix(s, "\n"), "\n") {
+		var v map[string]any
+		if err := json.Unmarshal([]byte(line), &v); err != nil {
+			t.Fatalf("JSON Lines record %d does not parse: %v\n%s", i+1, err, line)
+		}
+	}
+}
+
+func checkCSVOutput(t *testing.T, s string) {
+	t.Helper()
+	rows, err := csv.NewReader(strings.NewReader(s)).ReadAll()
+	if err != nil {
+		t.Fatalf("CSV output does not parse: %v\n%s", err, s)
+	}
+	if len(rows) == 0 {
+		t.Fatal("CSV output is empty; want at least the header")
+	}
+	for _, h := range rows[0] {
+		if h != strings.ToLower(h) || strings.ContainsAny(h, " -") {
+			t.Errorf("CSV column %q is not a snake_case name", h)
+		}
+	}
+}
+
+func compareVerbGolden(t *testing.T, path, got string) {
+	t.Helper()
+	if *update {
+		if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(path, []byte(got), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return
+	}
+	want, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatalf("golden file: %v (go test ./cmd/halovet -run GoldenVerb -update writes it)", err)
+	}
+	if !bytes.Equal(want, []byte(got)) {
+		gl, wl := strings.Split(got, "\n"), strings.Split(string(want), "\n")
+		for i := range max(len(gl), len(wl)) {
+			var g, w string
+			if i < len(gl) {
+				g = gl[i]
+			}
+			if i < len(wl) {
+				w = wl[i]
+			}
+			if g != w {
+				t.Fatalf("%s differs at line %d:\n got: %s\nwant: %s\n(if intended: go test ./cmd/halovet -run GoldenVerb -update, and review the diff)", path, i+1, g, w)
+			}
+		}
+	}
+}
