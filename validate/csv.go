@@ -34,7 +34,6 @@ const (
 	colPurpose
 	colCondition
 	colComposition
-	colMeasured
 	numColumns
 )
 
@@ -55,7 +54,6 @@ var csvColumns = [numColumns]Column{
 	colPurpose:     {"purpose", false, "servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other"},
 	colCondition:   {"condition", false, "virgin, used, recycled, reclaimed"},
 	colComposition: {"declared_composition", false, "identifier=percent pairs separated by \";\", e.g. HFC-125=44;HFC-143a=52;HFC-134a=4"},
-	colMeasured:    {"measured_composition", false, "what an analyser measured: identifier=percent or identifier=percent±uncertainty separated by \";\", air as air=percent, e.g. HCFC-22=95±0.5;air=5"},
 }
 
 // CSVColumns returns the columns of the CSV batch format in their usual order.
@@ -288,12 +286,6 @@ func (c *CSVReader) record(lineNo int64, fields []string) Record {
 				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colComposition].Name, Text: cutText(v), Reason: err.Error()})
 			}
 			r.Composition = shares
-		case colMeasured:
-			shares, err := parseMeasured(v)
-			if err != nil {
-				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colMeasured].Name, Text: cutText(v), Reason: err.Error()})
-			}
-			r.Measured = shares
 		}
 	}
 	return r

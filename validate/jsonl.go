@@ -19,8 +19,7 @@ import (
 //   - direction, purpose and condition may be words ("re-export"), wire names
 //     ("DIRECTION_RE_EXPORT") or wire numbers;
 //   - declared_composition is an array of {"identifier": "HFC-125", "mass_percent": 44}, or a
-//     string in the CSV form;
-//   - measured_composition is a string in the CSV form ("HCFC-22=95±0.5;air=5").
+//     string in the CSV form.
 //
 // "source_line" is accepted and ignored: the reader numbers lines itself. Unknown keys, a
 // value of the wrong type, or a line that is not one JSON object give a line error. Blank
@@ -203,12 +202,6 @@ func setJSONField(r *Record, id int, raw json.RawMessage) string {
 			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(text), Reason: err.Error()})
 		}
 		r.Condition = c
-	case colMeasured:
-		shares, err := parseMeasured(text)
-		if err != nil {
-			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(text), Reason: err.Error()})
-		}
-		r.Measured = shares
 	}
 	return ""
 }

@@ -17,10 +17,10 @@ type MeasuredShare struct {
 	Uncertainty float64 // ± mass % points; 0 when the instrument states none
 }
 
-// parseMeasured reads a measured composition written as "HCFC-22=95±0.5;air=5": identifier,
+// ParseMeasured reads a measured composition written as "HCFC-22=95±0.5;air=5": identifier,
 // "=", mass percent, an optional "±" (or "+-") and uncertainty in mass % points; shares
 // separated by ";".
-func parseMeasured(s string) ([]MeasuredShare, error) {
+func ParseMeasured(s string) ([]MeasuredShare, error) {
 	s = strings.TrimSpace(s)
 	if s == "" {
 		return nil, nil
@@ -60,7 +60,7 @@ func parseMeasured(s string) ([]MeasuredShare, error) {
 	return out, nil
 }
 
-// FormatMeasured writes a measured composition in the form the readers take.
+// FormatMeasured writes a measured composition in the form ParseMeasured reads.
 func FormatMeasured(shares []MeasuredShare) string {
 	var b strings.Builder
 	for i, s := range shares {

@@ -1,7 +1,6 @@
 package validate
 
 import (
-	"strings"
 	"testing"
 
 	"github.com/halovet/halovet/substances"
@@ -113,10 +112,10 @@ func TestVerdictCarriesMeasurement(t *testing.T) {
 }
 
 func TestParseMeasured(t *testing.T) {
-	got, err := parseMeasured(" HCFC-22 = 94.5 ± 0.5 ; air=5% ; R-32=0.5+-0.2 ;")
+	got, err := ParseMeasured(" HCFC-22 = 94.5 ± 0.5 ; air=5% ; R-32=0.5+-0.2 ;")
 	want := []MeasuredShare{{"HCFC-22", 94.5, 0.5}, {"air", 5, 0}, {"R-32", 0.5, 0.2}}
 	if err != nil || len(got) != len(want) {
-		t.Fatalf("parseMeasured = %v, %v", got, err)
+		t.Fatalf("ParseMeasured = %v, %v", got, err)
 	}
 	for i := range want {
 		if got[i] != want[i] {
@@ -127,31 +126,8 @@ func TestParseMeasured(t *testing.T) {
 		t.Errorf("FormatMeasured = %q", s)
 	}
 	for _, bad := range []string{"HCFC-22", "=50", "R-22=fifty", "R-22=50±x", "R-22=1,5"} {
-		if _, err := parseMeasured(bad); err == nil {
-			t.Errorf("parseMeasured(%q) should fail", bad)
+		if _, err := ParseMeasured(bad); err == nil {
+			t.Errorf("ParseMeasured(%q) should fail", bad)
 		}
-	}
-}
-
-func TestReadersTakeMeasuredComposition(t *testing.T) {
-	csvText := "record_key,direction,company_id,partner_country,declaration_date,substance,quantity,quantity_unit,measured_composition\n" +
-		"M1,import,CO-1,XB,2025-06-01,R-407C,100,kg,HCFC-22=95±0.5;air=5\n" +
-		"M2,import,CO-1,XB,2025-06-01,R-407C,100,kg,HCFC-22=lots\n"
-	cr, err := NewCSVReader(strings.NewReader(csvText))
-	if err != nil {
-		t.Fatal(err)
-	}
-	r1, le, err := cr.Next()
-	if err != nil || le != nil || len(r1.Measured) != 2 || r1.Measured[0] != (MeasuredShare{"HCFC-22", 95, 0.5}) {
-		t.Fatalf("CSV record %+v, %v, %v", r1, le, err)
-	}
-	r2, _, _ := cr.Next()
-	if len(r2.Unreadable) != 1 || r2.Unreadable[0].Field != "measured_composition" {
-		t.Errorf("unreadable %+v; want measured_composition", r2.Unreadable)
-	}
-	jr := NewJSONLReader(strings.NewReader(`{"record_key":"J1","measuredComposition":"R-12=100"}` + "\n"))
-	j1, le, err := jr.Next()
-	if err != nil || le != nil || len(j1.Measured) != 1 || j1.Measured[0].Identifier != "R-12" {
-		t.Fatalf("JSONL record %+v, %v, %v", j1, le, err)
 	}
 }

@@ -29,7 +29,8 @@ type Record struct {
 	Composition     []DeclaredShare // declared composition of a mixture, when the paper gives one
 	// Measured is the composition an analyser or a laboratory measured in the cylinder,
 	// when the shipment was tested; Check compares it with the declaration. Not yet a field
-	// of the wire message: it travels in the batch files (measured_composition).
+	// of the wire message nor a batch-file column: until the wire record carries it, a
+	// column would be dropped on the way to the server. ParseMeasured reads the text form.
 	Measured []MeasuredShare
 	// Unreadable lists fields a reader found but could not convert to their type (an unknown
 	// direction word, a container count that is not a whole number, ...). Check turns each
