@@ -281,10 +281,10 @@ func (c *Catalogue) readReading(r Reading) (reading, float64, error) {
 		return reading{}, 0, &InputError{Field: "components", Reason: fmt.Sprintf("%d components; at most %d are accepted", len(r.Components), maxReadingComponents)}
 	}
 	if !inRange(r.NonCondensablePct, 0, 100) {
-		return reading{}, 0, badPct("non_condensable_pct", r.NonCondensablePct, "the mass % of air and other non-condensables, 0 to 100")
+		return reading{}, 0, badPct("non_condensable_percent", r.NonCondensablePct, "the mass % of air and other non-condensables, 0 to 100")
 	}
 	if !inRange(r.Uncertainty, 0, 100) {
-		return reading{}, 0, badPct("uncertainty_pct", r.Uncertainty, "± mass % points, 0 (not stated) to 100")
+		return reading{}, 0, badPct("uncertainty_points", r.Uncertainty, "± mass % points, 0 (not stated) to 100")
 	}
 	defUnc := r.Uncertainty
 	if defUnc == 0 {
@@ -292,17 +292,17 @@ func (c *Catalogue) readReading(r Reading) (reading, float64, error) {
 	}
 	ncg := r.NonCondensablePct
 	ncgGiven := ncg > 0
-	ncgField := "non_condensable_pct"
+	ncgField := "non_condensable_percent"
 	comps := make([]readComp, 0, len(r.Components))
 	fields := make([]int, 0, len(r.Components))
 	sum := 0.0
 	for i, m := range r.Components {
 		field := fmt.Sprintf("components[%d]", i)
 		if !inRange(m.MassPct, 0, 100) {
-			return reading{}, 0, badPct(field+".mass_pct", m.MassPct, "a mass % from 0 to 100")
+			return reading{}, 0, badPct(field+".mass_percent", m.MassPct, "a mass % from 0 to 100")
 		}
 		if !inRange(m.Uncertainty, 0, 100) {
-			return reading{}, 0, badPct(field+".uncertainty_pct", m.Uncertainty, "± mass % points, 0 (not stated) to 100")
+			return reading{}, 0, badPct(field+".uncertainty_points", m.Uncertainty, "± mass % points, 0 (not stated) to 100")
 		}
 		sum += m.MassPct
 		if nonCondensableNames[normalizeString(m.Identifier)] {

@@ -256,10 +256,10 @@ func TestAnalyseBadReadings(t *testing.T) {
 	}{
 		{"sum far from 100", Reading{Components: []MeasuredShare{{"R-32", 50, 0}, {"R-125", 40, 0}}}, AnalysisOptions{}, "components", ErrInvalidInput},
 		{"sum over 100", Reading{Components: []MeasuredShare{{"R-32", 60, 0}, {"R-125", 50, 0}}}, AnalysisOptions{}, "components", ErrInvalidInput},
-		{"negative share", Reading{Components: []MeasuredShare{{"R-32", 100, 0}, {"R-125", -1, 0}}}, AnalysisOptions{}, "components[1].mass_pct", ErrInvalidInput},
-		{"NaN share", Reading{Components: []MeasuredShare{{"R-32", math.NaN(), 0}}}, AnalysisOptions{}, "components[0].mass_pct", ErrInvalidInput},
-		{"negative uncertainty", Reading{Components: []MeasuredShare{{"R-32", 100, -0.5}}}, AnalysisOptions{}, "components[0].uncertainty_pct", ErrInvalidInput},
-		{"negative reading uncertainty", Reading{Components: []MeasuredShare{{"R-32", 100, 0}}, Uncertainty: -1}, AnalysisOptions{}, "uncertainty_pct", ErrInvalidInput},
+		{"negative share", Reading{Components: []MeasuredShare{{"R-32", 100, 0}, {"R-125", -1, 0}}}, AnalysisOptions{}, "components[1].mass_percent", ErrInvalidInput},
+		{"NaN share", Reading{Components: []MeasuredShare{{"R-32", math.NaN(), 0}}}, AnalysisOptions{}, "components[0].mass_percent", ErrInvalidInput},
+		{"negative uncertainty", Reading{Components: []MeasuredShare{{"R-32", 100, -0.5}}}, AnalysisOptions{}, "components[0].uncertainty_points", ErrInvalidInput},
+		{"negative reading uncertainty", Reading{Components: []MeasuredShare{{"R-32", 100, 0}}, Uncertainty: -1}, AnalysisOptions{}, "uncertainty_points", ErrInvalidInput},
 		{"unknown component", Reading{Components: []MeasuredShare{{"R-32", 50, 0}, {"unobtainium", 50, 0}}}, AnalysisOptions{}, "components[1].identifier", ErrUnknownIdentifier},
 		{"empty identifier", Reading{Components: []MeasuredShare{{" ", 100, 0}}}, AnalysisOptions{}, "components[0].identifier", ErrInvalidInput},
 		{"blend as component", Reading{Components: []MeasuredShare{{"R-404A", 100, 0}}}, AnalysisOptions{}, "components[0].identifier", ErrInvalidInput},
@@ -268,7 +268,7 @@ func TestAnalyseBadReadings(t *testing.T) {
 		{"only non-condensables", Reading{Components: []MeasuredShare{{"R-22", 0, 0}}, NonCondensablePct: 100}, AnalysisOptions{}, "components", ErrInvalidInput},
 		{"air twice", Reading{Components: []MeasuredShare{{"R-22", 95, 0}, {"air", 5, 0}}, NonCondensablePct: 5}, AnalysisOptions{}, "components[1].identifier", ErrInvalidInput},
 		{"no components", Reading{NonCondensablePct: 100}, AnalysisOptions{}, "components", ErrInvalidInput},
-		{"air out of range", Reading{Components: []MeasuredShare{{"R-22", 100, 0}}, NonCondensablePct: -3}, AnalysisOptions{}, "non_condensable_pct", ErrInvalidInput},
+		{"air out of range", Reading{Components: []MeasuredShare{{"R-22", 100, 0}}, NonCondensablePct: -3}, AnalysisOptions{}, "non_condensable_percent", ErrInvalidInput},
 		{"unknown declaration", Reading{Components: []MeasuredShare{{"R-22", 100, 0}}}, AnalysisOptions{Declared: "R-999Z"}, "declared", ErrUnknownIdentifier},
 		{"negative mass", Reading{Components: []MeasuredShare{{"R-22", 100, 0}}}, AnalysisOptions{NetMassKg: -1}, "net_mass_kg", ErrInvalidInput},
 	}

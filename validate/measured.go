@@ -171,7 +171,7 @@ func shareField(f string) string {
 		if i := strings.IndexByte(f, '.'); i >= 0 {
 			rest = f[i+1:]
 		}
-		what := map[string]string{"identifier": "identifier", "mass_pct": "mass percent", "uncertainty_pct": "uncertainty"}[rest]
+		what := map[string]string{"identifier": "identifier", "mass_percent": "mass percent", "uncertainty_points": "uncertainty"}[rest]
 		return strings.TrimSpace(fmt.Sprintf("share %d %s", n+1, what))
 	}
 	if f == "components" {
