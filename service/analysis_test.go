@@ -22,7 +22,7 @@ func TestAnalyseReading(t *testing.T) {
 
 	t.Run("CFC-12 declared as HFC-134a", func(t *testing.T) {
 		resp, err := client.AnalyseReading(ctx, &halovetv1.AnalyseReadingRequest{
-			Components: []*halovetv1.MeasuredShare{{Identifier: "R-12", MassPercent: 99}},
+			Components:            []*halovetv1.MeasuredShare{{Identifier: "R-12", MassPercent: 99}},
 			NonCondensablePercent: 1, Declared: "HFC-134a", NetMassKg: 250})
 		if err != nil {
 			t.Fatal(err)
@@ -47,7 +47,7 @@ func TestAnalyseReading(t *testing.T) {
 	t.Run("R-410A and R-410B both listed", func(t *testing.T) {
 		// R-410A 50/50 (+0.5/-1.5, +1.5/-0.5), R-410B 45/55 (±1), HFC-32/HFC-125 (ASHRAE 34-2019).
 		resp, err := client.AnalyseReading(ctx, &halovetv1.AnalyseReadingRequest{
-			Components: []*halovetv1.MeasuredShare{{Identifier: "HFC-32", MassPercent: 47.5}, {Identifier: "HFC-125", MassPercent: 52.5}},
+			Components:        []*halovetv1.MeasuredShare{{Identifier: "HFC-32", MassPercent: 47.5}, {Identifier: "HFC-125", MassPercent: 52.5}},
 			UncertaintyPoints: 1.5})
 		if err != nil {
 			t.Fatal(err)
