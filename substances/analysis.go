@@ -7,30 +7,6 @@ import (
 	"strings"
 )
 
-// Matching a measured composition against the catalogue.
-//
-// A refrigerant analyser or a laboratory reports the mass percentages of the gases it finds
-// in a cylinder, and the share of air and other non-condensable gases apart from them
-// (common practice). Analyse sets the non-condensables aside, renormalises the refrigerant
-// part to 100 % and compares it with every catalogue substance and blend:
-//
-//   - Band. For each component the candidate or the reading holds, the candidate allows
-//     nominal − tolerance below … nominal + tolerance above (ASHRAE 34 composition
-//     tolerances, as the catalogue records them), widened on both sides by the reading's
-//     uncertainty of that component. A component the candidate lacks has nominal 0 and no
-//     tolerance; a single substance is a candidate of one component at 100 % with no
-//     tolerance. The candidate fits when every component lies inside its band.
-//   - Excess (mass % points): the Euclidean norm over the components of how far each one lies
-//     outside its band; 0 exactly when the candidate fits. Near misses are ranked by it.
-//   - Depth (dimensionless): the largest over the components of |measured − nominal| divided
-//     by the band's half-width on that side; at most 1 when the candidate fits, 0 at the
-//     nominal composition. Fitting candidates are ranked by it, so that the blend whose
-//     nominal composition the reading sits closest to, in units of what it allows, comes
-//     first.
-//
-// Blends whose tolerances the catalogue does not record (the azeotropes of the source used)
-// are matched on the reading's uncertainty alone.
-
 // Limits of a reading.
 const (
 	// DefaultUncertainty is the ± mass % points a component's reading is taken to carry when
@@ -204,6 +180,33 @@ type readComp struct {
 // naming the field: a percentage or uncertainty out of range, an unknown, ambiguous or blend
 // identifier, a component given twice, percentages summing further than ReadingSumTolerance
 // from 100, or nothing but non-condensables.
+//
+// A refrigerant analyser or a laboratory reports the mass percentages of the gases it finds
+// in a cylinder, and the share of air and other non-condensable gases apart from them
+// (common practice). Analyse sets the non-condensables aside, renormalises the refrigerant
+// part to 100 % and compares it with every catalogue substance and blend:
+//
+//   - Band. For each component the candidate or the reading holds, the candidate allows
+//     nominal − tolerance below … nominal + tolerance above (ASHRAE 34 composition
+//     tolerances, as the catalogue records them), widened on both sides by the reading's
+//     uncertainty of that component. A component the candidate lacks has nominal 0 and no
+//     tolerance; a single substance is a candidate of one component at 100 % with no
+//     tolerance. The candidate fits when every component lies inside its band.
+//   - Excess (mass % points): the Euclidean norm over the components of how far each one lies
+//     outside its band; 0 exactly when the candidate fits. Near misses are ranked by it.
+//   - Depth (dimensionless): the largest over the components of |measured − nominal| divided
+//     by the band's half-width on that side; at most 1 when the candidate fits, 0 at the
+//     nominal composition. Fitting candidates are ranked by it, so that the blend whose
+//     nominal composition the reading sits closest to, in units of what it allows, comes
+//     first.
+//
+// A component the reading does not list is read as 0 with the reading-wide uncertainty;
+// uncertainties are renormalised with the shares. Blends whose tolerances the catalogue does
+// not record (the azeotropes of the source used) are matched on the reading's uncertainty
+// alone. When nothing fits, each component of at most MinorComponentPct is set aside in turn,
+// then all of them together: an entry that fits the rest makes the reading contaminated,
+// else it is mixed. The declared net mass is taken as refrigerant: the figures of hidden
+// substances and of the reading apply the renormalised shares to it.
 func (c *Catalogue) Analyse(r Reading, opts AnalysisOptions) (Analysis, error) {
 	rd, ncg, err := c.readReading(r)
 	if err != nil {
@@ -254,19 +257,37 @@ func (c *Catalogue) Analyse(r Reading, opts AnalysisOptions) (Analysis, error) {
 		a.Hidden = c.hidden(declared, comps, opts.NetMassKg)
 	}
 
-	shares := make([]Share, 0, len(comps))
-	for _, rc := range comps {
-		if rc.pct > 0 {
-			shares = append(shares, Share{Identifier: rc.sub.s.Designation, MassPct: rc.pct})
-		}
-	}
-	if a.Figures, err = c.EvaluateShares(shares, opts.NetMassKg); err != nil {
-		return Analysis{}, fmt.Errorf("evaluating the renormalised reading: %w", err) // cannot happen for a reading readReading accepted
-	}
-	a.Figures.Designation = ""
+	a.Figures = readingFigures(comps, opts.NetMassKg)
 	a.Cautions = a.Figures.Cautions
 	a.Summary = a.summary(comps, opts.Declared)
 	return a, nil
+}
+
+// readingFigures evaluates the renormalised reading at a net mass. Unlike EvaluateShares it
+// keeps nothing in the catalogue's composition cache: readings rarely repeat, and they must
+// not crowd out the compositions that shipment batches repeat.
+func readingFigures(comps []readComp, netMassKg float64) Evaluation {
+	cd := make([]compData, 0, len(comps))
+	for _, rc := range comps {
+		if rc.pct > 0 {
+			d := rc.sub.comps[0]
+			d.pct = rc.pct
+			cd = append(cd, d)
+		}
+	}
+	var ev Evaluation
+	if len(cd) == 1 {
+		for _, rc := range comps {
+			if rc.pct > 0 {
+				ev = rc.sub.base
+			}
+		}
+	} else {
+		ev = mixtureBase("", KindBlend, "", cd)
+	}
+	fillMass(&ev, cd, netMassKg, nil)
+	ev.Designation = ""
+	return ev
 }
 
 // readReading checks a reading, resolves its components and renormalises them.
