@@ -76,6 +76,7 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	halovetv1.RegisterShipmentServiceServer(s.grpc, &shipmentServer{srv: s})
 	halovetv1.RegisterLicensingServiceServer(s.grpc, &licensingServer{srv: s})
 	halovetv1.RegisterConsumptionServiceServer(s.grpc, &consumptionServer{srv: s})
+	halovetv1.RegisterAnalysisServiceServer(s.grpc, &analysisServer{srv: s})
 	s.setHealth(healthpb.HealthCheckResponse_NOT_SERVING)
 	s.health.SetServingStatus(LivenessService, healthpb.HealthCheckResponse_SERVING)
 	return s

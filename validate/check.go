@@ -47,6 +47,9 @@ type Verdict struct {
 	Fingerprint string     // Fingerprint of the record
 	Draws       []LineDraw // quota draws of an accepted record; nil when rejected
 	Replayed    bool       // set by Batch: an identical record with this key came earlier
+	// Measurement is the comparison of the record's measured composition with the catalogue
+	// and the declaration; nil when the record carries none or it could not be read.
+	Measurement *substances.Analysis
 }
 
 // Add appends findings (for example a finding the store reports at commit time), re-sorts
@@ -121,6 +124,7 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 	c.casRule()
 	c.hsRule()
 	c.formulaRule()
+	measurement := c.measurementRules()
 	controlled := len(c.groups) > 0
 	if c.evOK && !controlled {
 		c.add(CodeSubstNotControlled, "", "%s contains no substance controlled by the Montreal Protocol; licence, quota, partner and phase-out checks do not apply under the Protocol", c.designation)
@@ -132,7 +136,7 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 	}
 	counts := c.purposeRules(controlled)
 
-	v := Verdict{RecordKey: r.Key, Line: r.Line, Fingerprint: Fingerprint(r)}
+	v := Verdict{RecordKey: r.Key, Line: r.Line, Fingerprint: Fingerprint(r), Measurement: measurement}
 	if c.evOK {
 		v.Resolved = true
 		v.Figures = Figures{

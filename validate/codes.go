@@ -99,13 +99,21 @@ const (
 	// duplicates
 	CodeDupKeyConflict = "DUP_KEY_CONFLICT"
 	CodeDupReplay      = "DUP_REPLAY"
+
+	// measurement
+	CodeMeasuredUnreadable       = "MEASURED_UNREADABLE"
+	CodeMeasuredContradicts      = "MEASURED_CONTRADICTS"
+	CodeMeasuredHiddenControlled = "MEASURED_HIDDEN_CONTROLLED"
+	CodeMeasuredNonCondensables  = "MEASURED_NON_CONDENSABLES"
+	CodeMeasuredConfirms         = "MEASURED_CONFIRMS"
+	CodeMeasuredNotCompared      = "MEASURED_NOT_COMPARED"
 )
 
 // CodeInfo documents one finding code.
 type CodeInfo struct {
 	Code     string
 	Severity Severity
-	Family   string // rule family: record, identity, quantity, party, dates, licence, quota, phase-out, purpose, mixture, duplicates
+	Family   string // rule family: record, identity, quantity, party, dates, licence, quota, phase-out, purpose, mixture, duplicates, measurement
 	Field    string // the field findings of this code usually name ("" when it varies)
 	Meaning  string // when the code is given
 	Accepted string // what is accepted instead, or what the notice means for the record
@@ -203,6 +211,14 @@ var codeTable = []CodeInfo{
 	// duplicates
 	{CodeDupKeyConflict, SeverityError, "duplicates", "record_key", "A record with the same company and key but different content was seen before.", "A new key for a new record; the same content when sending a record again."},
 	{CodeDupReplay, SeverityNotice, "duplicates", "record_key", "A record with the same company, key and content was seen before; it is a replay and is not counted again.", "Accepted; nothing is drawn or counted twice."},
+
+	// measurement
+	{CodeMeasuredUnreadable, SeverityError, "measurement", "measured_composition", "The measured composition cannot be used: a share out of 0 to 100, a negative uncertainty, an unknown, ambiguous or blend identifier, a substance given twice, shares summing further than 2 points from 100, or nothing but air.", "identifier=percent[±uncertainty] shares naming catalogue substances, air given as air=percent, summing to 100 ± 2."},
+	{CodeMeasuredContradicts, SeverityError, "measurement", "measured_composition", "With air set aside and the rest renormalised, a component of the measured composition lies outside the declared substance's or blend's composition tolerance (ASHRAE 34), even widened by the reading's uncertainty; the message names the entries that fit instead, or the closest ones.", "A reading within the declared entry's tolerance; otherwise the declaration is to be corrected or the goods held."},
+	{CodeMeasuredHiddenControlled, SeverityError, "measurement", "measured_composition", "The reading shows a controlled substance (above its uncertainty) that the declared substance or blend does not contain; the message gives its Annex group and the ODP tonnes (and, for Annex F, CO2-eq tonnes) it would draw at the declared mass.", "A declaration that names what the cylinder holds, with a licence and quota for it."},
+	{CodeMeasuredNonCondensables, SeverityWarning, "measurement", "measured_composition", "The reading shows more than 1.5 mass % air or other non-condensables; a properly filled cylinder holds next to none (common practice).", "Accepted for review; the share is set aside before matching."},
+	{CodeMeasuredConfirms, SeverityNotice, "measurement", "measured_composition", "Every component of the measured composition lies within the declared entry's composition tolerance, widened by the reading's uncertainty.", "Accepted; the reading supports the declaration."},
+	{CodeMeasuredNotCompared, SeverityNotice, "measurement", "measured_composition", "A measured composition is given, but no catalogue substance or blend is declared (only a composition, or an identifier that did not resolve), so it was matched against the catalogue only.", "Accepted; the message names what the reading fits."},
 }
 
 var codeIndex = func() map[string]int {

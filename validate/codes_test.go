@@ -7,7 +7,8 @@ import (
 
 func TestCodeTableWellFormed(t *testing.T) {
 	families := map[string]bool{"record": true, "identity": true, "quantity": true, "party": true, "dates": true,
-		"licence": true, "quota": true, "phase-out": true, "purpose": true, "mixture": true, "duplicates": true}
+		"licence": true, "quota": true, "phase-out": true, "purpose": true, "mixture": true, "duplicates": true,
+		"measurement": true}
 	seenFamily := map[string]bool{}
 	for _, c := range CodeTable() {
 		if c.Code == "" || strings.ToUpper(c.Code) != c.Code || strings.ContainsAny(c.Code, " -") {
@@ -41,8 +42,8 @@ func TestCodeTableMarkdown(t *testing.T) {
 			t.Errorf("markdown lacks the row of %s", c.Code)
 		}
 	}
-	if strings.Count(md, "### ") != 11 {
-		t.Errorf("markdown has %d family sections, want 11", strings.Count(md, "### "))
+	if strings.Count(md, "### ") != 12 {
+		t.Errorf("markdown has %d family sections, want 12", strings.Count(md, "### "))
 	}
 }
 

@@ -76,6 +76,19 @@ func Fingerprint(r *Record) string {
 			b = append(b, 0)
 		}
 	}
+	if len(r.Measured) > 0 {
+		// Only records that carry a reading add to the content, so fingerprints of records
+		// without one are unchanged. The reading is kept in its order, as measured.
+		b = append(b, 'm')
+		b = strconv.AppendInt(b, int64(len(r.Measured)), 10)
+		for _, s := range r.Measured {
+			b = fpField(b, normName(s.Identifier))
+			b = strconv.AppendFloat(b, s.MassPct, 'g', -1, 64)
+			b = append(b, 0)
+			b = strconv.AppendFloat(b, s.Uncertainty, 'g', -1, 64)
+			b = append(b, 0)
+		}
+	}
 	b = append(b, '|')
 	for _, u := range r.Unreadable {
 		b = fpField(b, u.Field)

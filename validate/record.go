@@ -7,7 +7,7 @@ import (
 )
 
 // Record is one declared shipment as a customs or ERP system sends it. It mirrors the wire
-// message halovet.v1.ShipmentRecord field for field; text fields hold what the paper says and
+// message halovet.v1.ShipmentRecord field for field (Measured apart); text fields hold what the paper says and
 // are parsed by Check, which reports what it cannot read as findings.
 type Record struct {
 	Key             string          // the client's own key, unique per company, unchanged on retry
@@ -27,6 +27,11 @@ type Record struct {
 	Purpose         Purpose         // declared purpose
 	Condition       Condition       // declared condition; unspecified counts as virgin
 	Composition     []DeclaredShare // declared composition of a mixture, when the paper gives one
+	// Measured is the composition an analyser or a laboratory measured in the cylinder,
+	// when the shipment was tested; Check compares it with the declaration. Not yet a field
+	// of the wire message nor a batch-file column: until the wire record carries it, a
+	// column would be dropped on the way to the server. ParseMeasured reads the text form.
+	Measured []MeasuredShare
 	// Unreadable lists fields a reader found but could not convert to their type (an unknown
 	// direction word, a container count that is not a whole number, ...). Check turns each
 	// into a FIELD_UNREADABLE error, so the rest of the record is still checked.
