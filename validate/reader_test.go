@@ -329,7 +329,9 @@ func expectedLines(data []byte, max int, csv bool) []int64 {
 		if i == 0 {
 			l = bytes.TrimPrefix(l, []byte("\xef\xbb\xbf"))
 		}
-		if long || len(bytes.TrimSpace(l)) > 0 {
+		// Blank lines and '#' comment lines are passed over (isSkipped); too-long lines
+		// are answered with a line error whatever they hold.
+		if t := bytes.TrimSpace(l); long || (len(t) > 0 && t[0] != '#') {
 			out = append(out, int64(i+1))
 		}
 	}
