@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: help demo test generate lint breaking fmt-check vet drift unit fuzz bench build postgres
+.PHONY: help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -23,15 +23,22 @@ postgres: ## make sure PostgreSQL server binaries are installed (apt-get if miss
 demo: postgres build ## run the demo scenario end to end on a private PostgreSQL cluster
 	$(BIN) demo
 
-test: fmt-check vet drift lint postgres unit fuzz ## everything CI runs: format, vet, generated-code drift, buf lint, tests, fuzz
+test: fmt-check tidy-check vet staticcheck drift lint postgres unit fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, fuzz
 	@echo "make test: all checks passed"
 
 fmt-check:
 	@out=$$(gofmt -l $$(git ls-files '*.go' | grep -v '\.pb\.go$$')); \
 	if [ -n "$$out" ]; then echo "gofmt would change:"; echo "$$out"; exit 1; fi
 
+tidy-check: ## fail when go.mod or go.sum (of the module or of tools/) would change under go mod tidy
+	$(GO) mod tidy -diff
+	cd tools && $(GO) mod tidy -diff
+
 vet:
 	$(GO) vet ./...
+
+staticcheck: ## staticcheck (pinned in tools/go.mod) over every package
+	$(GO) tool -modfile=tools/go.mod staticcheck ./...
 
 generate: ## regenerate the Go code from proto/ with buf and local plugins
 	$(BUF) generate

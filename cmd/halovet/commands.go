@@ -32,12 +32,6 @@ func addVerb(name, summary, usage string, define func(fs *pflag.FlagSet) runFunc
 	verbs[name] = verbDef{name: name, summary: summary, usage: usage, define: define}
 }
 
-// register adds a verb that parses its own flags, with newFlagSet and parseFlags.
-// New verbs use addVerb, which lets the command line complete their flags.
-func register(name, summary string, run func(ctx context.Context, args []string) error) {
-	verbs[name] = verbDef{name: name, summary: summary, define: func(*pflag.FlagSet) runFunc { return run }}
-}
-
 // version is set at link time (-ldflags "-X main.version=..."); otherwise it comes from
 // the module's build information.
 var version = ""
@@ -189,29 +183,6 @@ func manDate() *time.Time {
 		}
 	}
 	return &t
-}
-
-// newFlagSet makes a flag set for a verb registered with register.
-func newFlagSet(name, usage string) *pflag.FlagSet {
-	fs := pflag.NewFlagSet(name, pflag.ContinueOnError)
-	fs.SetOutput(os.Stderr)
-	fs.Usage = func() {
-		fmt.Fprintf(os.Stderr, "Usage: halovet %s\n\nFlags:\n", strings.TrimSpace(usage))
-		fs.PrintDefaults()
-	}
-	return fs
-}
-
-// parseFlags parses args for a verb registered with register; --help is not an error,
-// other problems are usage errors.
-func parseFlags(fs *pflag.FlagSet, args []string) error {
-	if err := fs.Parse(args); err != nil {
-		if err == pflag.ErrHelp {
-			return errHelpShown
-		}
-		return &exitError{code: exitUsage, err: err}
-	}
-	return nil
 }
 
 func envOr(key, def string) string {
