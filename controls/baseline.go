@@ -58,7 +58,7 @@ type Baseline struct {
 	Notes []string
 }
 
-// RuleText is the baseline rule's source and status, e.g. "Art. 2F para 1; CONTROL_RULES S4 [V]".
+// RuleText is the baseline rule's source and status, e.g. "Art. 2F para 1 [V]".
 func (b Baseline) RuleText() string { return b.Rule.Text() }
 
 // Baseline computes a Party's baseline for a scope from its records, following the
@@ -161,7 +161,7 @@ func series(cons Consumption, scope Scope, unit Unit, from, to int, part string)
 }
 
 // zeroGWPNotes names substances counted in CO2-eq that have no Protocol GWP: they count as 0
-// (Annex C footnote; CONTROL_RULES §2 [V]).
+// (Annex C footnote [V]).
 func zeroGWPNotes(cons Consumption, scope Scope, unit Unit, from, to int) []string {
 	if unit != UnitCO2eTonnes {
 		return nil
@@ -184,6 +184,6 @@ func zeroGWPNotes(cons Consumption, scope Scope, unit Unit, from, to int) []stri
 		return nil
 	}
 	slices.Sort(names)
-	return []string{fmt.Sprintf("%s: no GWP listed in the Protocol's Annexes, counted as 0 CO2-eq t (Annex C footnote; CONTROL_RULES S18 [V])",
+	return []string{fmt.Sprintf("%s: no GWP listed in the Protocol's Annexes, counted as 0 CO2-eq t (Annex C footnote [V])",
 		strings.Join(names, ", "))}
 }

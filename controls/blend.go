@@ -21,7 +21,7 @@ type Portion struct {
 const compositionTolerance = 1e-6
 
 // SplitMass splits a blend's mass (metric tonnes) into its components by nominal mass
-// percent: each component's mass = total × mass fraction (DOMAIN.md §3, common practice).
+// percent: each component's mass = total × mass fraction (common practice).
 // Consumption of a mixture is counted per controlled component in its own Annex group, so
 // callers pass the portions to Calculate as separate records (see also Flows.Scaled).
 func SplitMass(tonnes float64, components []substances.Component) ([]Portion, error) {

@@ -11,7 +11,7 @@ import (
 // Counting says whether used, recycled and reclaimed trade counts.
 type Counting int
 
-// Counting rules (Decision IV/24 para 2; CONTROL_RULES §1 [V]).
+// Counting rules (Decision IV/24 para 2 [V]).
 const (
 	// ExcludeUsed leaves used, recycled and reclaimed imports and exports out: the rule for
 	// every year that is not an Article 5 base year.

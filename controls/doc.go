@@ -8,7 +8,7 @@ package controls
 //   - Calculate sums Records (one substance, one year, flows in metric tonnes) into
 //     consumption per year and Annex group: production + imports − exports to Parties −
 //     destruction − feedstock − QPS (methyl bromide), in metric t, ODP t and CO2-eq t with
-//     the Protocol GWPs (CONTROL_RULES §1–2). Results are never clamped: negative
+//     the Protocol GWPs. Results are never clamped: negative
 //     consumption is reported as negative.
 //   - A Rulebook holds the control schedules and baseline definitions as data
 //     (data/schedules.csv, data/baselines.csv), each row with its source ID and status

@@ -33,7 +33,7 @@ func ExampleRulebook_Assess() {
 	fmt.Printf("%d: consumption %.3f, allowed %.4f (%g %%), headroom %.4f: %s\n",
 		y.Year, y.Consumption, y.Allowed, y.AllowedPercent, y.Headroom, y.Outcome)
 	// Output:
-	// baseline 77.500 ODP t (Art. 2F para 1; CONTROL_RULES S4 [V])
+	// baseline 77.500 ODP t (Art. 2F para 1 [V])
 	// 2025: consumption 0.275, allowed 0.3875 (0.5 %), headroom 0.1125: within
 }
 

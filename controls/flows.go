@@ -22,7 +22,7 @@ func SubstanceOf(s *substances.Substance) Substance {
 }
 
 // Flows are one substance's quantities in one year, in metric tonnes of substance (net
-// mass). Which flows count is set out in CONTROL_RULES §1 [V]; the caller classifies each
+// mass). Which flows count follows Art. 1 para 5 and Art. 3 [V]; the caller classifies each
 // quantity (e.g. which partner is a non-Party for this substance, Art. 4 para 9).
 type Flows struct {
 	// Production in the Party.
@@ -85,7 +85,7 @@ func (f Flows) Scaled(fraction float64) Flows {
 
 // Counted returns calculated consumption in metric tonnes: production + imports − exports
 // to Parties − destruction − feedstock − QPS, plus used imports − used exports when
-// countUsed is set (CONTROL_RULES §1 [V]). The result may be negative.
+// countUsed is set. The result may be negative.
 func (f Flows) Counted(countUsed bool) float64 {
 	t := f.Production + f.Imports - f.Exports - f.Destruction - f.Feedstock - f.QPS
 	if countUsed {

@@ -3,7 +3,7 @@ package controls
 // PartyType says which schedules a Party follows for Annexes A to E.
 type PartyType int
 
-// Party types. Which Party is which is configuration (DOMAIN.md §1), never code.
+// Party types. Which Party is which is configuration, never code.
 const (
 	PartyTypeUnset PartyType = iota
 	NonArticle5              // a Party not operating under Article 5 para 1
@@ -23,7 +23,7 @@ func (t PartyType) String() string {
 // HFCGroup says which Kigali Amendment schedule a Party follows for Annex F.
 type HFCGroup int
 
-// HFC groups (Art. 2J paras 1–2, Art. 5 para 8 qua; CONTROL_RULES §3 [V]).
+// HFC groups (Art. 2J paras 1–2, Art. 5 para 8 qua [V]).
 const (
 	HFCGroupUnset   HFCGroup = iota
 	HFCNonA5                 // non-Article 5, main schedule (baseline 2011–2013 + 15 % HCFC)

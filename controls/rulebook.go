@@ -15,7 +15,7 @@ import (
 	"time"
 )
 
-// Status says how well a rulebook value is backed (CONTROL_RULES.md status tags).
+// Status says how well a rulebook value is backed (V verified in the treaty text, D derived, P partly verified, U unverified).
 type Status string
 
 // Statuses.
@@ -66,13 +66,13 @@ type Rule struct {
 	FromYear  int
 	ToYear    int // 0 for a step
 	Percent   float64
-	Source    string // "Art. 2J para 1; CONTROL_RULES S3 S5 S6"
+	Source    string // "Art. 2J para 1"
 	Status    Status
 	Note      string
 	Line      int // line in the data file
 }
 
-// Text is the rule's source with its status, e.g. "Art. 2J para 1; CONTROL_RULES S3 S5 S6 [V]".
+// Text is the rule's source with its status, e.g. "Art. 2J para 1 [V]".
 func (r Rule) Text() string { return fmt.Sprintf("%s [%s]", r.Source, r.Status) }
 
 // Term is the kind of the term added to a baseline.
@@ -107,7 +107,7 @@ type BaselineRule struct {
 	Line            int
 }
 
-// Text is the rule's source with its status, e.g. "Art. 2F para 1; CONTROL_RULES S4 [V]".
+// Text is the rule's source with its status, e.g. "Art. 2F para 1 [V]".
 func (r BaselineRule) Text() string { return fmt.Sprintf("%s [%s]", r.Source, r.Status) }
 
 // Description says the formula in words, e.g. "mean F consumption 2011–2013 + 15 % of the

@@ -9,7 +9,7 @@ import (
 
 // Scope is what one control measure limits: one Annex group ("A/I" … "E/I"), or Annex F as
 // a whole ("F"), since Art. 2J limits HFC consumption of Groups I and II together in
-// CO2-eq (CONTROL_RULES §4a, Art. 2J para 1 [V]).
+// CO2-eq (Art. 2J para 1 [V]).
 type Scope string
 
 // Control scopes, in Annex order.
@@ -76,7 +76,7 @@ func (s Scope) Groups() []substances.Group {
 }
 
 // Unit returns the unit compliance is measured in: CO2-eq t for Annex F, ODP t otherwise
-// (Art. 3; CONTROL_RULES §2 [V]).
+// (Art. 3 [V]).
 func (s Scope) Unit() Unit {
 	if s == ScopeF {
 		return UnitCO2eTonnes

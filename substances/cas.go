@@ -9,7 +9,7 @@ import (
 // ErrCASFormat is wrapped by errors for text that is not a CAS Registry Number in form.
 var ErrCASFormat = errors.New("invalid CAS Registry Number format")
 
-// casAccepts is the form a caller must use (CONTROL_RULES.md §8, published CAS format).
+// casAccepts is the form a caller must use (published CAS Registry Number format).
 const casAccepts = "expected 2-7 digits, a hyphen, 2 digits, a hyphen and 1 check digit, e.g. 75-45-6 (the same 5-10 digits without hyphens are accepted too)"
 
 // CASCheckError reports a CAS Registry Number whose check digit does not match the digits
@@ -28,7 +28,7 @@ func (e *CASCheckError) Error() string {
 // the first part is dropped, and a run of 5-10 digits without hyphens is split before the
 // last 3 and the last digit. A malformed number gives an error wrapping ErrCASFormat; a
 // wrong check digit gives a *CASCheckError. A valid check digit does not prove that the
-// number is assigned to a substance (CONTROL_RULES.md §8).
+// number is assigned to a substance.
 func ParseCAS(s string) (string, error) {
 	t := strings.TrimSpace(s)
 	for _, dash := range []string{"\u2010", "\u2011", "\u2012", "\u2013", "\u2212"} {
@@ -70,7 +70,7 @@ func ParseCAS(s string) (string, error) {
 
 // CASCheckDigit computes the check digit for the digits before it, given with or without
 // hyphens ("75-45" or "7545"): each digit times its position counted from the right
-// (starting at 1), summed, mod 10 (published CAS method, CONTROL_RULES.md §8).
+// (starting at 1), summed, mod 10 (published CAS check-digit method).
 func CASCheckDigit(body string) (int, error) {
 	digits := strings.ReplaceAll(body, "-", "")
 	if len(digits) < 4 || len(digits) > 9 || !allASCIIDigits(digits) {

@@ -6,7 +6,7 @@ import (
 	"strings"
 )
 
-// Caution texts (DOMAIN.md §6). Wording is our own.
+// Caution texts. Wording is our own.
 const (
 	cautionAsphyxiant = "Asphyxiation: the gas displaces air and gathers in enclosed or low-lying spaces " +
 		"(cellars, pits, cold rooms, vehicle holds); ventilate and measure oxygen before entering."

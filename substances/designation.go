@@ -20,7 +20,7 @@ var ErrNotSingleCompound = errors.New("designation is not decodable to a single 
 // rules do not cover (olefins with several isomers, chains of four or more carbons).
 var ErrIsomerRule = errors.New("no isomer suffix rule for this structure")
 
-// Designation is a decoded ASHRAE 34 / ISO 817 designation (CONTROL_RULES.md §7).
+// Designation is a decoded ASHRAE 34 / ISO 817 designation.
 type Designation struct {
 	// Prefix is the class prefix as written, normalized: "R", "CFC", "HCFC", "HFC", "HBFC",
 	// "FC", "PFC", "HFO", "HCFO" or "halon".

@@ -7,7 +7,7 @@ import (
 
 // Isomer suffixes of ASHRAE 34 / ISO 817 designations: enumerating the structural isomers
 // of ethane and propane formulas, checking a designation's letters against them, and
-// deriving the letters of a structure (CONTROL_RULES.md §7).
+// deriving the letters of a structure.
 
 // checkIsomer verifies the isomer letters against the isomers the formula has, for the
 // saturated methane, ethane and propane series; other series only have their letter count
@@ -144,7 +144,7 @@ func absFloat(x float64) float64 {
 
 // ethaneIsomers lists the isomers of a saturated ethane with the given six substituents:
 // the most symmetric takes no letter, then a, b, c ... by increasing asymmetry (ISO 817,
-// CONTROL_RULES.md §7 [V]).
+// ASHRAE 34 / ISO 817 numbering rules [V]).
 func ethaneIsomers(subs chainCarbon) ([]chainIsomer, error) {
 	if subs.total() != 6 {
 		return nil, fmt.Errorf("an ethane carries 6 atoms besides carbon, not %d", subs.total())
@@ -169,7 +169,7 @@ var propaneCentre = map[chainCarbon]byte{
 // e = CFH, f = CH2), the second ranks the end carbons by the ethane symmetry rule (a = most
 // symmetric). A formula with a single isomer takes no letters.
 //
-// UNVERIFIED: CONTROL_RULES.md §7 marks this two-letter rule [U] (no primary text found);
+// UNVERIFIED: this two-letter rule is [U] (no primary text found);
 // it reproduces all 8 propane isomers in the Protocol annexes (225ca, 225cb, 227ea, 236cb,
 // 236ea, 236fa, 245ca, 245fa), which the tests check. Isomers with Br or I on the central
 // carbon get no letters.
@@ -198,7 +198,7 @@ func propaneIsomers(subs chainCarbon) ([]chainIsomer, error) {
 // carbon by carbon in chain order ("CH2FCF3" -> "a", "CHF2CHF2" -> "", "CHF2CH2CF3" ->
 // "fa"). Methanes have no suffix. Ethane letters follow the ISO 817 symmetry rule; propane
 // letters follow the two-letter rule described at propaneIsomers, which is unverified
-// (CONTROL_RULES.md §7 [U]) but reproduces all 8 annex propane isomers. Olefins with more
+// but reproduces all 8 annex propane isomers. Olefins with more
 // than one isomer and chains of 4 or more carbons give an error wrapping ErrIsomerRule;
 // malformed structures give a *FormulaError.
 func IsomerSuffix(structure string) (string, error) {

@@ -47,7 +47,7 @@ const (
 	maxFormulaDepth = 8               // deepest parenthesis nesting
 )
 
-// iupacWeights are the IUPAC abridged standard atomic weights listed in DOMAIN.md §3.
+// iupacWeights are the IUPAC abridged standard atomic weights (IUPAC CIAAW, abridged standard atomic weights).
 var iupacWeights = map[string]float64{
 	"H": 1.008, "C": 12.011, "N": 14.007, "O": 15.999, "F": 18.998,
 	"S": 32.06, "Cl": 35.45, "Br": 79.904, "I": 126.90,
@@ -271,7 +271,7 @@ func (f Formula) Hill() string {
 func (f Formula) String() string { return f.Hill() }
 
 // MolarMass returns the molar mass in g/mol computed with the IUPAC abridged standard atomic
-// weights of DOMAIN.md §3. It fails (wrapping ErrNoAtomicWeight) for an element outside that
+// weights of iupacWeights. It fails (wrapping ErrNoAtomicWeight) for an element outside that
 // list, and (wrapping ErrFormula) for an empty formula or a negative count.
 func (f Formula) MolarMass() (float64, error) {
 	total := 0.0

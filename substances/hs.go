@@ -14,13 +14,13 @@ var ErrHSCode = errors.New("invalid HS code")
 // HSEdition names an edition of the WCO Harmonized System.
 type HSEdition string
 
-// The HS editions carried side by side (CONTROL_RULES.md §6).
+// The HS editions carried side by side.
 const (
 	HS2017 HSEdition = "HS2017"
 	HS2022 HSEdition = "HS2022"
 )
 
-// Verification status of a subheading's code and wording, from CONTROL_RULES.md §6.
+// Verification status of a subheading's code and wording, against the WCO Harmonized System nomenclature.
 const (
 	HSStatusVerified   = "verified"
 	HSStatusPartly     = "partly verified"
@@ -31,13 +31,13 @@ const (
 type HSSubheading struct {
 	Edition HSEdition
 	Code    string // "2903.71"
-	Text    string // wording paraphrased from CONTROL_RULES.md §6, not the WCO legal text
+	Text    string // wording paraphrased from the HS subheading texts, not the WCO legal text
 	Shared  bool   // also holds goods the Montreal Protocol does not control
 	Status  string // HSStatusVerified, HSStatusPartly or HSStatusUnverified
 }
 
 // hsTable lists the subheadings of chapters 29 and 38 that hold controlled halocarbons, and
-// their neighbours that a declaration may name. Source: CONTROL_RULES.md §6 (S21 UN Comtrade
+// their neighbours that a declaration may name. Source: WCO HS 2017/HS 2022 nomenclature (UN Comtrade
 // descriptions of HS 2022 and HS 2017; S22, S23). Shared follows the caution list of §6;
 // where it is derived, the comment says so.
 var hsTable = []HSSubheading{
@@ -91,7 +91,7 @@ var hsTable = []HSSubheading{
 	{HS2022, "3827.90", "Other mixtures containing halogenated derivatives of methane, ethane or propane", true, HSStatusVerified},
 
 	// HS 2017 (S21 commit a72bef2). 2903.14 and 2903.19 are not listed for HS 2017 in
-	// CONTROL_RULES.md §6; that they were unchanged from HS 2022 is from memory.
+	// the WCO HS 2022 nomenclature; that they were unchanged from HS 2022 is from memory.
 	{HS2017, "2903.14", "Carbon tetrachloride", false, HSStatusUnverified},
 	{HS2017, "2903.19", "Other saturated chlorinated derivatives of acyclic hydrocarbons (includes 1,1,1-trichloroethane)", true, HSStatusUnverified},
 	{HS2017, "2903.39", "Fluorinated, brominated or iodinated derivatives of acyclic hydrocarbons: other (all HFCs and methyl bromide)", true, HSStatusVerified},
@@ -244,7 +244,7 @@ func classifyHSShare(sh HSShare) hsComponent {
 		f, canonical, cyclic, comp.exact = d.Formula, d.Canonical(), strings.HasPrefix(d.Number, "C"), true
 	case errors.Is(err, ErrNotSingleCompound) && (strings.IndexAny(d.Number, "6789") == 0 || d.Number == "E170"):
 		// 600 series organics hold no halogen, inorganic compounds (700 plus molar mass) are
-		// no halogenated hydrocarbons, and R-E170 is dimethyl ether (DOMAIN.md §2).
+		// no halogenated hydrocarbons, and R-E170 is dimethyl ether.
 		comp.kind, comp.c1to3 = hsNonHalogenated, 0
 		return comp
 	default:
@@ -457,7 +457,7 @@ func (m hsMixture) decide(edition, code, why string) (string, string) {
 	return code, fmt.Sprintf("%s %s: %s", edition, code, why)
 }
 
-// MixtureHS2022 classifies a mixture in HS 2022 heading 38.27 (CONTROL_RULES.md §6). The
+// MixtureHS2022 classifies a mixture in HS 2022 heading 38.27. The
 // subheadings are tried in the heading's order (CFCs, HBFCs, carbon tetrachloride, methyl
 // chloroform, halons, HCFCs, methyl bromide, HFC-23/PFCs, other HFCs, other) and the first
 // that fits decides; that precedence follows the structure of the heading and its "whether or
@@ -487,7 +487,7 @@ func MixtureHS2022(shares []HSShare) (code string, note string) {
 			return m.decide(ed, "3827.3x", "contains HCFCs")
 		}
 		if m.has(hsHFC, hsHFC23, hsPFC, hsUnsatFluoro) {
-			return "", fmt.Sprintf("%s mixture subheading not decided: contains HCFCs (%s) together with HFCs or PFCs (%s), which may fall in 3827.31, whose wording is only partly verified (CONTROL_RULES.md §6 [P]); classify by the WCO legal text", ed, m.names(hsHCFC), m.names(hsHFC, hsHFC23, hsPFC, hsUnsatFluoro))
+			return "", fmt.Sprintf("%s mixture subheading not decided: contains HCFCs (%s) together with HFCs or PFCs (%s), which may fall in 3827.31, whose wording is only partly verified; classify by the WCO legal text", ed, m.names(hsHCFC), m.names(hsHFC, hsHFC23, hsPFC, hsUnsatFluoro))
 		}
 		listed := false
 		for _, c := range m.comps {
@@ -532,11 +532,11 @@ func MixtureHS2022(shares []HSShare) (code string, note string) {
 
 // unverified says that the subheading that applies has wording that is not verified.
 func (m hsMixture) unverified(edition, codes, why string) (string, string) {
-	return "", fmt.Sprintf("%s mixture subheading not decided: the mixture %s, so it falls in %s, whose wording is only partly verified (CONTROL_RULES.md §6 [P]); the subheading is left to the WCO legal text and the customs authority", edition, why, codes)
+	return "", fmt.Sprintf("%s mixture subheading not decided: the mixture %s, so it falls in %s, whose wording is only partly verified; the subheading is left to the WCO legal text and the customs authority", edition, why, codes)
 }
 
-// MixtureHS2017 classifies a mixture in HS 2017 subheadings 3824.71-3824.79
-// (CONTROL_RULES.md §6), trying them in numerical order: CFCs, halons, HBFCs, HCFCs, carbon
+// MixtureHS2017 classifies a mixture in HS 2017 subheadings 3824.71-3824.79,
+// trying them in numerical order: CFCs, halons, HBFCs, HCFCs, carbon
 // tetrachloride, methyl chloroform, methyl bromide or bromochloromethane, PFCs or HFCs,
 // other. Decision support only: the WCO legal text and the customs authority prevail.
 func MixtureHS2017(shares []HSShare) (code string, note string) {

@@ -9,7 +9,7 @@ import (
 	"strings"
 )
 
-// Blend GWP conventions (DOMAIN.md §3). Both are reported, labelled.
+// Blend GWP conventions. Both are reported, labelled.
 const (
 	// ConventionAllComponents weights every component that has a GWP in the set (the EU
 	// F-gas method; hydrocarbons and HFOs add a little).

@@ -6,7 +6,7 @@ import "strings"
 // Group means the substance is not controlled by the Protocol.
 type Group string
 
-// The Annex groups of the Montreal Protocol (DOMAIN.md §2).
+// The Annex groups of the Montreal Protocol.
 const (
 	GroupNone Group = ""
 	GroupAI   Group = "A/I"   // CFCs

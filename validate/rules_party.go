@@ -8,7 +8,7 @@ import (
 )
 
 // tradeBan holds the first days of the Article 4 bans on trade with non-Parties for one
-// Annex group. Status tags follow reference/CONTROL_RULES.md §5: [V] verified in the treaty
+// Annex group. Status tags: [V] verified in the treaty
 // text, [D] derived from verified provisions (the ban starts one year after the amendment that
 // added it entered into force), [U] unverified.
 type tradeBan struct {

@@ -9,7 +9,7 @@ import (
 // para 5; Decisions VII/30 and IV/11); process agents (Decision X/14); QPS only for methyl
 // bromide (Art. 2H para 6, Art. 5 para 8 ter); laboratory and analytical, essential and
 // critical uses are global exemptions handled as their decisions say (reference
-// CONTROL_RULES.md §1, DOMAIN.md §5).
+// Montreal Protocol Art. 2A–2J and Art. 5).
 func exemptPurpose(p Purpose, g substances.Group) string {
 	switch p {
 	case PurposeFeedstock:

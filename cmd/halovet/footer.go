@@ -2,7 +2,7 @@ package main
 
 import "strings"
 
-// decisionSupportNotice is the sentence every text report ends with (DOMAIN.md §6).
+// decisionSupportNotice is the sentence every text report ends with (results support, and never replace, the decisions of the national authority).
 const decisionSupportNotice = "Results are decision support: the treaty text, national law, the national authority and licensed practice prevail."
 
 // footerWidth is the longest footer line, in bytes, unless a single word is longer.

@@ -142,7 +142,7 @@ func (r rec) netKg() float64 {
 	case "g":
 		q /= 1000
 	case "lb":
-		q *= 0.45359237 // international pound (DOMAIN.md §3)
+		q *= 0.45359237 // international pound
 	}
 	if n, _ := strconv.Atoi(r.containers); n > 0 {
 		q *= float64(n)
@@ -161,8 +161,8 @@ type component struct {
 	gwp   float64 // Protocol GWP (Annex F / Kigali list), 0 when not counted in CO2-eq lines
 }
 
-// ODP: Montreal Protocol Annexes (DOMAIN.md §2; HCFC-121 upper end of its range, Annex C
-// footnote). GWP: Annex F, equal to IPCC AR4 (DOMAIN.md §2). Blend compositions: ASHRAE 34
+// ODP: Montreal Protocol Annexes (HCFC-121 upper end of its range, Annex C
+// footnote). GWP: Annex F, equal to IPCC AR4. Blend compositions: ASHRAE 34
 // (substances/data/blends.csv). Used only to budget the invented quotas.
 var entries = map[string][]component{
 	"HCFC-22":              {{"C/I", "HCFC-22", 1, 0.055, 1810}},
@@ -424,7 +424,7 @@ func ordinaryRecord(r *rng) rec {
 				c.qty, c.unit = strconv.Itoa(r.between(5, 30)*50), "kg"
 			}
 			if r.intn(3) == 0 {
-				c.hs, c.cas = "2903.71", "75-45-6" // HS 2022 subheading and CAS of HCFC-22 (DOMAIN.md §4)
+				c.hs, c.cas = "2903.71", "75-45-6" // HS 2022 subheading and CAS of HCFC-22
 			}
 			if r.intn(6) == 0 {
 				c.condition = "recycled"
@@ -436,7 +436,7 @@ func ordinaryRecord(r *rng) rec {
 			c.substance = "R-404A"
 			c.qty, c.unit, c.containers = "10.9", "kg", strconv.Itoa(r.between(10, 90))
 			if r.intn(4) == 0 {
-				c.hs = "3827.61" // HS 2022: mixtures with >= 15 % HFC-143a (DOMAIN.md §4)
+				c.hs = "3827.61" // HS 2022: mixtures with >= 15 % HFC-143a
 			}
 			if r.intn(8) == 0 {
 				c.condition = "used"
@@ -495,7 +495,7 @@ func ordinaryRecord(r *rng) rec {
 			substance: "methyl bromide"}
 		c.qty, c.unit = strconv.Itoa(r.between(4, 24)*50), "kg"
 		if r.intn(3) == 0 {
-			c.hs, c.cas = "2903.61", "74-83-9" // HS 2022 subheading and CAS of methyl bromide (DOMAIN.md §4)
+			c.hs, c.cas = "2903.61", "74-83-9" // HS 2022 subheading and CAS of methyl bromide
 		}
 		return c
 	case n < 90: // Veltrane Chemicals: feedstock imports, exports, re-exports
@@ -505,7 +505,7 @@ func ordinaryRecord(r *rng) rec {
 			c.dir, c.partner, c.purpose, c.substance = "import", "XB", "feedstock", "carbon tetrachloride"
 			c.qty, c.unit = strconv.Itoa(r.between(4, 20)), "t"
 			if r.intn(2) == 0 {
-				c.hs, c.cas = "2903.14", "56-23-5" // HS 2022 subheading and CAS of CCl4 (DOMAIN.md §4)
+				c.hs, c.cas = "2903.14", "56-23-5" // HS 2022 subheading and CAS of CCl4
 			}
 		case k < 14:
 			c.dir, c.partner, c.purpose = "export", pick(r, xbxc), "servicing"
