@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres
+.PHONY: help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -20,14 +20,19 @@ build: ## build bin/halovet
 postgres: ## make sure PostgreSQL server binaries are installed (apt-get if missing)
 	@scripts/ensure-postgres.sh
 
+cc: ## make sure a C compiler is installed for go test -race (apt-get if missing)
+	@scripts/ensure-cc.sh
+
 demo: postgres build ## run the demo scenario end to end on a private PostgreSQL cluster
 	$(BIN) demo
 
-test: fmt-check tidy-check vet staticcheck drift lint postgres unit fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, fuzz
+test: fmt-check tidy-check vet staticcheck drift lint postgres cc unit fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, fuzz
 	@echo "make test: all checks passed"
 
-fmt-check:
-	@out=$$(gofmt -l $$(git ls-files '*.go' | grep -v '\.pb\.go$$')); \
+fmt-check: ## fail when gofmt would change a tracked Go file (needs a git checkout: it checks what git tracks)
+	@files=$$(git ls-files '*.go') || { echo "fmt-check: not a git checkout; clone the repository to run the checks"; exit 1; }; \
+	[ -n "$$files" ] || { echo "fmt-check: git tracks no Go files here; is this the repository?"; exit 1; }; \
+	out=$$(gofmt -l $$(echo "$$files" | grep -v '\.pb\.go$$')); \
 	if [ -n "$$out" ]; then echo "gofmt would change:"; echo "$$out"; exit 1; fi
 
 tidy-check: ## fail when go.mod or go.sum (of the module or of tools/) would change under go mod tidy
@@ -59,11 +64,12 @@ unit:
 	$(GO) test -race -count=1 ./...
 
 fuzz: ## run every fuzz target for FUZZTIME executions (default 20000x; a duration also works)
-	@grep -rlE --include='*_test.go' '^func Fuzz' . | while read -r f; do \
+	@log=$$(mktemp); trap 'rm -f "$$log"' EXIT; \
+	grep -rlE --include='*_test.go' '^func Fuzz' . | while read -r f; do \
 	  pkg=./$$(dirname "$${f#./}"); \
 	  for t in $$(grep -oE '^func Fuzz[A-Za-z0-9_]+' "$$f" | sed 's/^func //'); do \
 	    echo "fuzz $$pkg $$t"; \
-	    $(GO) test -run='^$$' -fuzz="^$$t$$" -fuzztime=$(FUZZTIME) "$$pkg" >/tmp/halovet-fuzz.log 2>&1 || { cat /tmp/halovet-fuzz.log; exit 1; }; \
+	    $(GO) test -run='^$$' -fuzz="^$$t$$" -fuzztime=$(FUZZTIME) "$$pkg" >"$$log" 2>&1 || { cat "$$log"; exit 1; }; \
 	  done; \
 	done
 

@@ -68,19 +68,23 @@ func TestRootWithoutUnprivilegedAccount(t *testing.T) {
 
 func TestDefaultDataDir(t *testing.T) {
 	tests := []struct {
-		name, xdg, home, want string
+		name, xdg, home string
+		euid            int
+		want            string
 	}{
-		{"XDG_DATA_HOME wins", "/srv/data", "/home/ann", "/srv/data/halovet/postgres"},
-		{"relative XDG_DATA_HOME is ignored", "data", "/home/ann", "/home/ann/.local/share/halovet/postgres"},
-		{"home fallback", "", "/home/ann", "/home/ann/.local/share/halovet/postgres"},
+		{"XDG_DATA_HOME wins", "/srv/data", "/home/ann", 1000, "/srv/data/halovet/postgres"},
+		{"relative XDG_DATA_HOME is ignored", "data", "/home/ann", 1000, "/home/ann/.local/share/halovet/postgres"},
+		{"home fallback", "", "/home/ann", 1000, "/home/ann/.local/share/halovet/postgres"},
+		{"root: a system directory, not /root", "", "/root", 0, "/var/lib/halovet/postgres"},
+		{"root: XDG_DATA_HOME still wins", "/srv/data", "/root", 0, "/srv/data/halovet/postgres"},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
 			t.Setenv("XDG_DATA_HOME", tt.xdg)
 			t.Setenv("HOME", tt.home)
-			got, err := DefaultDataDir()
+			got, err := defaultDataDir(tt.euid)
 			if err != nil || got != tt.want {
-				t.Errorf("DefaultDataDir() = %q, %v; want %q", got, err, tt.want)
+				t.Errorf("defaultDataDir(%d) = %q, %v; want %q", tt.euid, got, err, tt.want)
 			}
 		})
 	}

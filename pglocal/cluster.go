@@ -71,6 +71,7 @@ type Cluster struct {
 
 	mu      sync.Mutex
 	wd      *watchdog
+	lock    *dirLock
 	stopped bool
 }
 
@@ -111,24 +112,34 @@ func Start(ctx context.Context, opts Options) (*Cluster, error) {
 		logPath: filepath.Join(pl.dir, serverLogName),
 		logf:    logf,
 	}
+	// The lock comes first, so that two processes never initialise or start one cluster
+	// together, and a server that another live process started is never adopted: that
+	// process stops it when it ends, and this one would lose its database mid-work.
+	if c.lock, err = lockDir(pl.dir); err != nil {
+		return nil, err
+	}
 	if !initialised(pl.dir) {
 		if err := c.initdb(ctx, opts.Ephemeral); err != nil {
+			c.lock.release()
 			return nil, err
 		}
 	}
 	state, err := c.prog.inspect(ctx, logf)
 	if err != nil {
+		c.lock.release()
 		return nil, err
 	}
 	// The watchdog starts before the server so that no window exists in which this process
 	// could die and leave the server running.
 	if c.wd, err = startWatchdog(c.prog); err != nil {
+		c.lock.release()
 		return nil, err
 	}
 	if state.running {
 		if err := c.adopt(ctx, state.pid, opts.Port); err != nil {
 			// Not adopted: the server stays as it was, and is not this process's to stop.
 			c.wd.disarm()
+			c.lock.release()
 			return nil, err
 		}
 	} else if err := c.start(ctx, opts); err != nil {
@@ -360,6 +371,7 @@ func (c *Cluster) Stop(ctx context.Context) error {
 	if c.stopped {
 		return nil
 	}
+	defer c.lock.release()
 	c.wd.disarm()
 	c.wd = nil
 	state, err := c.prog.inspect(ctx, c.logf)

@@ -231,16 +231,25 @@ func TestStartAdoptsRunningServer(t *testing.T) {
 	requireBinaries(t)
 	dataDir := filepath.Join(searchableTempDir(t), "pg")
 	first := startCluster(t, Options{DataDir: dataDir, Ephemeral: true})
-
 	ctx := context.Background()
-	if _, err := Start(ctx, Options{DataDir: dataDir, Port: first.Port() + 1}); err == nil ||
-		!strings.Contains(err.Error(), "already runs") {
-		t.Errorf("Start on a running cluster with another port: %v; want an error saying a server already runs", err)
+
+	// While its owner lives, the cluster is never adopted, whatever the port asked for.
+	for _, port := range []int{0, first.Port() + 1} {
+		if _, err := Start(ctx, Options{DataDir: dataDir, Port: port}); !errors.Is(err, ErrInUse) {
+			t.Errorf("Start (port %d) on a cluster whose owner is alive: %v; want ErrInUse", port, err)
+		}
 	}
 	if got := queryString(t, first.URL(""), "SELECT 'still up'"); got != "still up" {
 		t.Fatalf("refused adoption disturbed the running server")
 	}
 
+	// An owner that went away without stopping its server (its watchdog failed too) leaves
+	// the server to be adopted; abandon stands in for that owner's death.
+	first.abandon()
+	if _, err := Start(ctx, Options{DataDir: dataDir, Port: first.Port() + 1}); err == nil ||
+		!strings.Contains(err.Error(), "already runs") {
+		t.Errorf("Start on an orphaned server with another port: %v; want an error saying a server already runs", err)
+	}
 	var log syncBuffer
 	second := startCluster(t, Options{DataDir: dataDir, Log: &log})
 	if second.Port() != first.Port() {
@@ -252,9 +261,10 @@ func TestStartAdoptsRunningServer(t *testing.T) {
 	if err := second.Stop(ctx); err != nil {
 		t.Fatal(err)
 	}
-	// The first handle's server is gone now; stopping it must still succeed.
-	if err := first.Stop(ctx); err != nil {
-		t.Errorf("Stop of a server stopped through another handle: %v; want nil", err)
+	// After a Stop the lock is free again: a new Start succeeds.
+	third := startCluster(t, Options{DataDir: dataDir, Ephemeral: true})
+	if err := third.Stop(ctx); err != nil {
+		t.Fatal(err)
 	}
 }
 
@@ -296,8 +306,7 @@ func TestStartRemovesStalePidFile(t *testing.T) {
 				if err != nil {
 					t.Fatal(err)
 				}
-				c.wd.disarm() // the watchdog would otherwise clean up after the kill
-				c.wd = nil
+				c.abandon() // as if the owner died too, and its watchdog could not clean up
 				if err := syscall.Kill(pf.pid, syscall.SIGKILL); err != nil {
 					t.Fatal(err)
 				}

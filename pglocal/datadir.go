@@ -11,11 +11,24 @@ import (
 	"syscall"
 )
 
+// RootDataDir is the default data directory when halovet runs as root: a system place that
+// the unprivileged account PostgreSQL runs as can reach (a home directory such as /root,
+// mode 0700, is not), so the cluster lives where it is said to live.
+const RootDataDir = "/var/lib/halovet/postgres"
+
 // DefaultDataDir returns where halovet keeps its private cluster when no directory is given:
-// $XDG_DATA_HOME/halovet/postgres, else ~/.local/share/halovet/postgres.
+// $XDG_DATA_HOME/halovet/postgres when XDG_DATA_HOME is an absolute path, else
+// RootDataDir when running as root, else ~/.local/share/halovet/postgres.
 func DefaultDataDir() (string, error) {
+	return defaultDataDir(os.Geteuid())
+}
+
+func defaultDataDir(euid int) (string, error) {
 	if x := os.Getenv("XDG_DATA_HOME"); filepath.IsAbs(x) {
 		return filepath.Join(x, "halovet", "postgres"), nil
+	}
+	if euid == 0 {
+		return RootDataDir, nil
 	}
 	home, err := os.UserHomeDir()
 	if err != nil {

@@ -5,7 +5,8 @@
 // # Running as root
 //
 // initdb, pg_ctl and postgres refuse to run as root. When the calling process runs as root,
-// pglocal runs them as an unprivileged account instead: the owner of an existing cluster, else
+// pglocal runs them as an unprivileged account instead (and DefaultDataDir is RootDataDir,
+// which that account can reach): the owner of an existing cluster, else
 // the `postgres` account when it exists, else `nobody`. The data directory is chowned to that
 // account. When that account cannot reach the requested data directory because a parent
 // directory is not searchable by it (for example /root, mode 0700), pglocal does not change
@@ -18,7 +19,9 @@
 //
 // A started cluster belongs to the process that started it. Besides Cluster.Stop, a small
 // watchdog shell process stops the server (pg_ctl stop -m fast) when the starting process
-// exits without calling Stop, for example when it is killed. If a server from an earlier run
-// is still running on the data directory, Start adopts it; a postmaster.pid left by a server
-// that is gone is removed. Use one process per data directory.
+// exits without calling Stop, for example when it is killed. The starting process holds an
+// exclusive lock (flock) on the data directory until Stop or its end, so a second Start on
+// a directory whose owner still lives fails with ErrInUse rather than sharing a server the
+// owner will stop. If a server from a run that is gone is still running on the data
+// directory, Start adopts it; a postmaster.pid left by a server that is gone is removed.
 package pglocal

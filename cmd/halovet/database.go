@@ -78,7 +78,7 @@ func openDatabase(ctx context.Context, d dbFlags, migrate bool, log *slog.Logger
 		}
 		db.URL = c.URL("halovet")
 		migrate = true
-		log.Info("private PostgreSQL cluster", "data_dir", d.dataDir, "url", store.Redact(db.URL))
+		log.Info("private PostgreSQL cluster", "data_dir", c.DataDir(), "url", store.Redact(db.URL))
 	}
 	if migrate {
 		v, err := store.Migrate(ctx, db.URL)

@@ -41,6 +41,7 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 	fs.StringVar(&d.url, "database-url", envOr("HALOVET_DATABASE_URL", ""), "use this database instead of a private cluster (it must be empty or hold only earlier demo data)")
 	dir := fs.String("scenario-dir", "testdata/demo", "directory holding scenario.json and shipments.csv")
 	verbose := fs.Bool("verbose", false, "show the server's log lines")
+	chartDir := fs.String("chart-dir", "halovet-demo", "directory the demo writes its compliance charts (SVG) into, created when absent; empty: no charts")
 	today := fs.String("today", "2026-12-01", "the date the server takes as today, so that the scenario's date rules give the same findings whenever the demo runs; empty: the real date")
 	return func(ctx context.Context, args []string) error {
 		if len(args) > 0 {
@@ -143,18 +144,12 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 		if err := printLicences(ctx, conn, out, "", 2026); err != nil {
 			return err
 		}
-		if err := demoConsumption(ctx, conn, *dir, out, step); err != nil {
+		if err := demoReports(ctx, conn, *dir, *chartDir, out, step); err != nil {
 			return err
 		}
 		step("Done; stopping the server and the cluster")
 		return nil
 	}
-}
-
-// demoConsumption is the reporting part of the demo; it is filled in where the
-// consumption verbs exist.
-var demoConsumption = func(ctx context.Context, conn *grpc.ClientConn, dir string, out io.Writer, step func(string, ...any)) error {
-	return nil
 }
 
 func stepper(w io.Writer) func(format string, args ...any) {

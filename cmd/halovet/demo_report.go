@@ -5,14 +5,13 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"path/filepath"
 	"strings"
 
 	"google.golang.org/grpc"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
-
-func init() { demoConsumption = demoReports }
 
 // demoYear is the year of the demo batch (testdata/demo/README.md: declared in 2026).
 const demoYear = 2026
@@ -22,7 +21,7 @@ const demoYear = 2026
 // historical totals for the base years), then reports the batch year's consumption, the
 // HCFC and HFC baselines, compliance over three years with an SVG chart, and a quota plan
 // for the next year (proposals only, no drafts).
-func demoReports(ctx context.Context, conn *grpc.ClientConn, dir string, out io.Writer, step func(string, ...any)) error {
+func demoReports(ctx context.Context, conn *grpc.ClientConn, dir, chartDir string, out io.Writer, step func(string, ...any)) error {
 	entries := dir + string(os.PathSeparator) + "national_entries.csv"
 	if _, err := os.Stat(entries); err == nil {
 		step("Importing national entries from %s (invented historical totals for the base years)", entries)
@@ -51,16 +50,27 @@ func demoReports(ctx context.Context, conn *grpc.ClientConn, dir string, out io.
 			return err
 		}
 	}
+	if chartDir != "" {
+		if err := os.MkdirAll(chartDir, 0o755); err != nil {
+			return fmt.Errorf("--chart-dir: %w", err)
+		}
+	}
 	for _, g := range []string{"C/I", "F"} {
-		chart := fmt.Sprintf("%s%chalovet-demo-%s.svg", os.TempDir(), os.PathSeparator, strings.ReplaceAll(strings.ToLower(g), "/", ""))
-		step("Compliance of %s %d-%d (halovet compliance --group %s --from %d --to %d --chart %s)",
-			g, demoYear-2, demoYear, g, demoYear-2, demoYear, chart)
+		chart := filepath.Join(chartDir, strings.ReplaceAll(strings.ToLower(g), "/", "")+".svg")
+		cmdline := fmt.Sprintf("halovet compliance --group %s --from %d --to %d", g, demoYear-2, demoYear)
+		if chartDir != "" {
+			cmdline += " --chart " + chart
+		}
+		step("Compliance of %s %d-%d (%s)", g, demoYear-2, demoYear, cmdline)
 		ac, err := client.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: g, FromYear: demoYear - 2, ToYear: demoYear})
 		if err != nil {
 			return err
 		}
 		if err := writeCompliance(out, ac, "text"); err != nil {
 			return err
+		}
+		if chartDir == "" {
+			continue
 		}
 		if err := writeChartFile(chart, ac); err != nil {
 			return err

@@ -2,6 +2,8 @@ package main
 
 import (
 	"context"
+	"os"
+	"path/filepath"
 	"testing"
 
 	"github.com/halovet/halovet/pglocal/pgtest"
@@ -10,7 +12,13 @@ import (
 
 // TestMain runs the package's tests with a private PostgreSQL (or TEST_DATABASE_URL)
 // and stops it afterwards. Every test file of package main shares it.
-func TestMain(m *testing.M) { pgtest.Main(m) }
+func TestMain(m *testing.M) {
+	pgtest.Main(m)
+	// The binary built for the serve tests lives in a temporary directory of its own.
+	if binPath != "" {
+		_ = os.RemoveAll(filepath.Dir(binPath))
+	}
+}
 
 // migrateForTest is the template migration of this package's test databases.
 func migrateForTest(ctx context.Context, url string) error {
