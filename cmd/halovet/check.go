@@ -1,12 +1,17 @@
 package main
 
 import (
+	"bytes"
 	"context"
+	"encoding/csv"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -71,7 +76,7 @@ func defineCheck(fs *pflag.FlagSet) runFunc {
 	report := fs.String("report", "", "write per-record verdicts to this file: .csv, or .json/.jsonl for JSON Lines")
 	progress := fs.String("progress", "auto", "progress on stderr: auto (when stderr is a terminal), always, never")
 	maxLine := fs.Int("max-line-bytes", validate.DefaultMaxLineBytes, "longest input line accepted, in bytes")
-	output := fs.String("output", "text", "summary format: text or json")
+	output := fs.String("output", "text", "summary format: text (summary and the first 50 rejected lines), json (summary and\nthe first 50 rejected lines; see 'halovet help json') or csv (every rejected line, one row each)")
 	perMessage := fs.Int("records-per-message", defaultPerMessage, "records sent in one stream message (1 to 4096); 1 when records trickle in through a pipe")
 	return func(ctx context.Context, args []string) error {
 		if len(args) != 1 {
@@ -80,8 +85,8 @@ func defineCheck(fs *pflag.FlagSet) runFunc {
 		if *perMessage < 1 || *perMessage > 4096 {
 			return usageErr("--records-per-message %d: use 1 to 4096", *perMessage)
 		}
-		if *output != "text" && *output != "json" {
-			return usageErr("--output %q: use text or json", *output)
+		if *output != "text" && *output != "json" && *output != "csv" {
+			return usageErr("--output %q: use text, json or csv", *output)
 		}
 		opts := checkOptions{path: args[0], record: *record, reportPath: *report, maxLine: *maxLine, output: *output,
 			perMessage: *perMessage}
@@ -296,6 +301,9 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	stopProgress := startProgress(o.progress, stderr, cr, size, &read, &done)
 	sum := validate.NewSummary()
 	rejected := rejectedLines{max: o.maxRejected}
+	if o.output == "csv" {
+		rejected.max = math.MaxInt // a CSV is read by programs: every rejected line
+	}
 	if rejected.max <= 0 {
 		rejected.max = maxRejectedShown
 	}
@@ -366,7 +374,11 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		return nil, recvErr
 	}
 	if o.output == "json" {
-		if err := writeSummaryJSON(stdout, sum, o.record); err != nil {
+		if err := writeSummaryJSON(stdout, sum, o.record, &rejected); err != nil {
+			return nil, err
+		}
+	} else if o.output == "csv" {
+		if err := rejected.writeCSV(stdout); err != nil {
 			return nil, err
 		}
 	} else if o.brief {
@@ -597,6 +609,37 @@ func (r *rejectedLines) add(v *validate.Verdict) {
 	}
 }
 
+// rejectedLine is one rejected line as the summary lists it.
+type rejectedLine struct {
+	Line      int64    `json:"line"`
+	RecordKey string   `json:"record_key"`
+	Codes     []string `json:"codes"`
+	Message   string   `json:"first_message"`
+}
+
+// lines returns the kept rejected lines: error codes, and the first error message with
+// its field named.
+func (r *rejectedLines) lines() []rejectedLine {
+	out := make([]rejectedLine, 0, len(r.first))
+	for _, v := range r.first {
+		l := rejectedLine{Line: int64(v.Line), RecordKey: v.RecordKey, Codes: []string{}}
+		for _, f := range v.Findings {
+			if f.Severity != validate.SeverityError {
+				continue
+			}
+			l.Codes = append(l.Codes, f.Code)
+			if l.Message == "" {
+				l.Message = f.Message
+				if f.Field != "" && !strings.Contains(l.Message, f.Field) {
+					l.Message = f.Field + ": " + l.Message
+				}
+			}
+		}
+		out = append(out, l)
+	}
+	return out
+}
+
 // write prints the rejected lines: line number, record key, error codes, first message.
 func (r *rejectedLines) write(w io.Writer, reportPath string) error {
 	if r.total == 0 {
@@ -609,26 +652,12 @@ func (r *rejectedLines) write(w io.Writer, reportPath string) error {
 	}
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "line\tkey\tcodes\tfirst message")
-	for _, v := range r.first {
-		var codes []string
-		msg := ""
-		for _, f := range v.Findings {
-			if f.Severity != validate.SeverityError {
-				continue
-			}
-			codes = append(codes, f.Code)
-			if msg == "" {
-				msg = f.Message
-				if f.Field != "" && !strings.Contains(msg, f.Field) {
-					msg = f.Field + ": " + msg
-				}
-			}
-		}
-		key := v.RecordKey
+	for _, l := range r.lines() {
+		key := l.RecordKey
 		if key == "" {
 			key = "-"
 		}
-		fmt.Fprintf(tw, "%d\t%s\t%s\t%s\n", v.Line, oneLine(key, 32), strings.Join(codes, ";"), oneLine(msg, 100))
+		fmt.Fprintf(tw, "%d\t%s\t%s\t%s\n", l.Line, oneLine(key, 32), strings.Join(l.Codes, ";"), oneLine(l.Message, 100))
 	}
 	if err := tw.Flush(); err != nil {
 		return err
@@ -641,6 +670,18 @@ func (r *rejectedLines) write(w io.Writer, reportPath string) error {
 		fmt.Fprintf(w, "... and %d more rejected lines (%s)\n", rest, where)
 	}
 	return nil
+}
+
+// writeCSV writes every kept rejected line as a CSV row; the header comes also when none
+// was rejected, so a program always finds its columns.
+func (r *rejectedLines) writeCSV(w io.Writer) error {
+	cw := csv.NewWriter(w)
+	_ = cw.Write([]string{"line", "record_key", "codes", "first_message"})
+	for _, l := range r.lines() {
+		_ = cw.Write([]string{strconv.FormatInt(l.Line, 10), l.RecordKey, strings.Join(l.Codes, ";"), l.Message})
+	}
+	cw.Flush()
+	return cw.Error()
 }
 
 // oneLine shortens a message to n characters on one line.
@@ -666,12 +707,24 @@ func otherKindHint(err error) string {
 	return ""
 }
 
-func writeSummaryJSON(w io.Writer, s *validate.Summary, recorded bool) error {
+// writeSummaryJSON writes the batch summary and the rejected lines kept (the first 50) as
+// one document: {"summary": {...}, "rejected_lines": [...], "rejected_lines_not_shown": N}.
+func writeSummaryJSON(w io.Writer, s *validate.Summary, recorded bool, rejected *rejectedLines) error {
 	pb := &halovetv1.BatchSummary{Records: s.Records, Accepted: s.Accepted, AcceptedWithWarnings: s.AcceptedWithWarnings,
 		Rejected: s.Rejected, Replayed: s.Replayed, ErrorsByCode: s.CountsBySeverity(validate.SeverityError),
 		WarningsByCode: s.CountsBySeverity(validate.SeverityWarning)}
 	if recorded {
 		pb.Recorded = s.Accepted + s.AcceptedWithWarnings - s.Replayed
 	}
-	return jsonDoc(w, pb)
+	var summary bytes.Buffer
+	if err := jsonDoc(&summary, pb); err != nil {
+		return err
+	}
+	lines, err := json.MarshalIndent(rejected.lines(), "  ", "  ")
+	if err != nil {
+		return err
+	}
+	_, err = fmt.Fprintf(w, "{\n  \"summary\": %s,\n  \"rejected_lines\": %s,\n  \"rejected_lines_not_shown\": %d\n}\n",
+		strings.ReplaceAll(strings.TrimSuffix(summary.String(), "\n"), "\n", "\n  "), lines, rejected.total-len(rejected.first))
+	return err
 }

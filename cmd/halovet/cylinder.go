@@ -57,13 +57,13 @@ Examples:
 func defineCylinder(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
-	output := reportOutputFlag(fs)
+	output := reportOutputFlag(fs, false)
 	declared := fs.String("declared", "", "substance or blend the cylinder is declared as (any identifier); empty: compare with the catalogue only")
 	massKg := fs.Float64("mass-kg", 0, "declared net mass in kg, for the ODP t and CO2-eq t of what the reading holds")
 	unc := fs.Float64("uncertainty", 0, "± mass % points of every share that states none; 0 means 1")
 	near := fs.Int("near", 0, "how many entries that do not fit to list; 0 means 3")
 	return func(ctx context.Context, pos []string) error {
-		if err := checkReportOutput(*output); err != nil {
+		if err := checkReportOutput(*output, false); err != nil {
 			return err
 		}
 		if len(pos) != 1 {

@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -54,24 +55,32 @@ Examples:
   halovet lookup R-404A 2903.45
   halovet lookup --output json R-410A`
 
-// outputFlag registers --output text|json.
-func reportOutputFlag(fs *pflag.FlagSet) *string {
+// reportOutputFlag registers --output text|json, and csv too when withCSV is set.
+func reportOutputFlag(fs *pflag.FlagSet, withCSV bool) *string {
+	if withCSV {
+		return fs.String("output", "text", "output format: text (a report for people), json (see 'halovet help json') or csv (one row per item)")
+	}
 	return fs.String("output", "text", "output format: text (a report for people) or json (see 'halovet help json')")
 }
 
-func checkReportOutput(v string) error {
-	if v != "text" && v != "json" {
-		return usageErr("--output %q: use text or json", v)
+func checkReportOutput(v string, withCSV bool) error {
+	switch {
+	case v == "text" || v == "json":
+		return nil
+	case v == "csv" && withCSV:
+		return nil
+	case withCSV:
+		return usageErr("--output %q: use text, json or csv", v)
 	}
-	return nil
+	return usageErr("--output %q: use text or json", v)
 }
 
 func defineLookup(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
-	output := reportOutputFlag(fs)
+	output := reportOutputFlag(fs, true)
 	return func(ctx context.Context, ids []string) error {
-		if err := checkReportOutput(*output); err != nil {
+		if err := checkReportOutput(*output, true); err != nil {
 			return err
 		}
 		if len(ids) == 0 {
@@ -139,6 +148,11 @@ func lookupOne(ctx context.Context, client halovetv1.CatalogueServiceClient, id 
 func lookupReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Writer, ids []string, output string) error {
 	client := halovetv1.NewCatalogueServiceClient(conn)
 	var cautions, unresolved []string
+	var cw *csv.Writer
+	if output == "csv" {
+		cw = csv.NewWriter(w)
+		_ = cw.Write(lookupCSVHeader)
+	}
 	for i, id := range ids {
 		r, err := lookupOne(ctx, client, id)
 		if err != nil {
@@ -149,15 +163,24 @@ func lookupReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Write
 		} else {
 			cautions = append(cautions, r.evaluation.GetCautions()...)
 		}
-		if output == "json" {
+		switch output {
+		case "json":
 			err = writeLookupJSON(w, r)
-		} else {
+		case "csv":
+			err = cw.Write(lookupCSVRow(r))
+		default:
 			if i > 0 {
 				fmt.Fprintln(w)
 			}
 			err = writeLookupText(w, r)
 		}
 		if err != nil {
+			return err
+		}
+	}
+	if cw != nil {
+		cw.Flush()
+		if err := cw.Error(); err != nil {
 			return err
 		}
 	}

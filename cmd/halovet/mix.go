@@ -52,10 +52,10 @@ Examples:
 func defineMix(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
-	output := reportOutputFlag(fs)
+	output := reportOutputFlag(fs, true)
 	massKg := fs.Float64("mass-kg", 0, "net mass of the mixture in kg; 0 gives figures per kg only")
 	return func(ctx context.Context, pos []string) error {
-		if err := checkReportOutput(*output); err != nil {
+		if err := checkReportOutput(*output, true); err != nil {
 			return err
 		}
 		if len(pos) != 1 {
@@ -134,8 +134,11 @@ func mixReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Writer, 
 	if err != nil {
 		return rpcFailure("evaluating "+what, err)
 	}
-	if output == "json" {
+	switch output {
+	case "json":
 		return jsonDoc(w, ev)
+	case "csv":
+		return writeMixCSV(w, ev)
 	}
 	return writeMixText(w, ev)
 }
