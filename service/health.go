@@ -20,8 +20,10 @@ func (s *Server) setHealth(st healthpb.HealthCheckResponse_ServingStatus) {
 	}
 }
 
-// probeHealth reports SERVING only while the database answers and its schema is at the
-// newest embedded migration; it re-probes every HealthInterval.
+// probeHealth reports SERVING only while the database answers and its schema is one this
+// binary serves (store.SchemaState.Serves: not behind the binary, and not marked as too new
+// for it); it re-probes every HealthInterval. A schema newer than the binary's is served, so
+// that old replicas stay ready while a rolling upgrade migrates the database.
 func (s *Server) probeHealth(ctx context.Context) {
 	last := healthpb.HealthCheckResponse_UNKNOWN
 	t := time.NewTicker(s.opts.HealthInterval)
@@ -51,14 +53,18 @@ func (s *Server) probeOnce(ctx context.Context) healthpb.HealthCheckResponse_Ser
 		s.log.Warn("health: database does not answer", "err", err)
 		return healthpb.HealthCheckResponse_NOT_SERVING
 	}
-	cur, head, err := s.store.SchemaVersion(pctx)
+	st, err := s.store.SchemaState(pctx)
 	if err != nil {
 		s.log.Warn("health: schema version unknown", "err", err)
 		return healthpb.HealthCheckResponse_NOT_SERVING
 	}
-	if cur != head {
-		s.log.Warn("health: schema not at head; run halovet migrate", "current", cur, "head", head)
+	if ok, why := st.Serves(); !ok {
+		s.log.Warn("health: cannot serve on this schema", "current", st.Current, "head", st.Head, "reason", why)
 		return healthpb.HealthCheckResponse_NOT_SERVING
+	}
+	if st.Current > st.Head && !s.newerSchemaLogged.Swap(true) {
+		s.log.Info("health: the database schema is newer than this server's and compatible with it",
+			"current", st.Current, "head", st.Head)
 	}
 	return healthpb.HealthCheckResponse_SERVING
 }

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"log/slog"
 	"net"
+	"sync/atomic"
 	"time"
 
 	"google.golang.org/grpc"
@@ -40,6 +41,8 @@ type Server struct {
 	grpc   *grpc.Server
 	health *health.Server
 	cat    *CatalogueHolder
+
+	newerSchemaLogged atomic.Bool // the health probe said once that the schema is newer
 }
 
 // serviceNames lists the services whose health is reported one by one.

@@ -48,7 +48,12 @@ func startTestServer(t *testing.T) (conn *grpc.ClientConn, st *store.Store) {
 // and benchmarks that need an admin token or the catalogue itself.
 func startServerWith(tb testing.TB, opts service.Options) (*grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
 	tb.Helper()
-	url := pgtest.NewDatabase(tb, "halovet_service", migrateServiceDB)
+	return startServerOn(tb, pgtest.NewDatabase(tb, "halovet_service", migrateServiceDB), opts)
+}
+
+// startServerOn is startServerWith on a database the test prepared (migrated already).
+func startServerOn(tb testing.TB, url string, opts service.Options) (*grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
+	tb.Helper()
 	ctx := context.Background()
 	st, err := store.Open(ctx, url)
 	if err != nil {

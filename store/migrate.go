@@ -4,6 +4,7 @@ import (
 	"context"
 	"database/sql"
 	"embed"
+	"errors"
 	"fmt"
 	"io/fs"
 
@@ -92,4 +93,52 @@ func (s *Store) SchemaVersion(ctx context.Context) (current, head int64, err err
 	err = s.pool.QueryRow(ctx,
 		`SELECT coalesce(max(version_id), 0) FROM goose_db_version WHERE is_applied`).Scan(&current)
 	return current, head, err
+}
+
+// SchemaState is what a server needs to know about the database's schema to decide whether
+// it can serve on it.
+type SchemaState struct {
+	// Current is the newest applied migration; Head is this binary's newest embedded one.
+	Current, Head int64
+	// OldestServer is the oldest server schema (a Head) that the applied migrations still
+	// work with, 0 when no applied migration restricts it; Reason says why, and Version
+	// names the migration that set it.
+	OldestServer, Version int64
+	Reason                string
+}
+
+// Serves reports whether a server built at Head can serve on this schema, and if not, why.
+// A database behind the binary cannot be served (the binary's queries need the newer
+// schema); one ahead of it can, unless an applied migration marked this binary's schema as
+// too old in schema_compatibility.
+func (st SchemaState) Serves() (bool, string) {
+	switch {
+	case st.Current < st.Head:
+		return false, fmt.Sprintf("the database schema is at version %d, behind this server's %d: run 'halovet migrate' (or serve with --migrate)", st.Current, st.Head)
+	case st.OldestServer > st.Head:
+		return false, fmt.Sprintf("migration %d needs servers built at schema %d or later (%s); this server is at %d: upgrade it", st.Version, st.OldestServer, st.Reason, st.Head)
+	}
+	return true, ""
+}
+
+// SchemaState reads the applied schema version and the compatibility rows of the applied
+// migrations.
+func (s *Store) SchemaState(ctx context.Context) (SchemaState, error) {
+	cur, head, err := s.SchemaVersion(ctx)
+	st := SchemaState{Current: cur, Head: head}
+	if err != nil {
+		return st, err
+	}
+	var exists bool
+	if err := s.pool.QueryRow(ctx, `SELECT to_regclass('schema_compatibility') IS NOT NULL`).Scan(&exists); err != nil || !exists {
+		return st, err
+	}
+	err = s.pool.QueryRow(ctx, `
+		SELECT version, oldest_server_schema, reason FROM schema_compatibility
+		WHERE version <= $1 ORDER BY oldest_server_schema DESC, version DESC LIMIT 1`, cur).
+		Scan(&st.Version, &st.OldestServer, &st.Reason)
+	if errors.Is(err, pgx.ErrNoRows) {
+		err = nil
+	}
+	return st, err
 }

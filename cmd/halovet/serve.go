@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"net"
 	"os"
@@ -77,12 +78,15 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		defer db.Close()
-		cur, head, err := db.Store.SchemaVersion(ctx)
+		st, err := db.Store.SchemaState(ctx)
 		if err != nil {
 			return fmt.Errorf("reading the schema version: %w", err)
 		}
-		if cur != head {
-			return fmt.Errorf("the database schema is at version %d and this halovet needs %d: run 'halovet migrate' or serve with --migrate", cur, head)
+		if ok, why := st.Serves(); !ok {
+			return errors.New(why)
+		}
+		if st.Current > st.Head {
+			log.Info("the database schema is newer than this server's and compatible with it", "current", st.Current, "head", st.Head)
 		}
 		cat, err := service.LoadCatalogue(ctx, db.Store, log)
 		if err != nil {
