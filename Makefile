@@ -45,8 +45,9 @@ vet:
 staticcheck: ## staticcheck (pinned in tools/go.mod) over every package
 	$(GO) tool -modfile=tools/go.mod staticcheck ./...
 
-generate: ## regenerate the Go code from proto/ with buf and local plugins
+generate: ## regenerate the Go code from proto/ with buf and local plugins, and the documented descriptor set
 	$(BUF) generate
+	$(BUF) build --as-file-descriptor-set -o proto/halovet/v1/descriptors.binpb
 
 drift: generate ## fail when the committed generated code differs from a fresh generation
 	@if [ -n "$$(git status --porcelain -- proto)" ]; then \

@@ -11,7 +11,6 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
-	"google.golang.org/grpc/reflection"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
@@ -74,7 +73,9 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 		grpc.ChainStreamInterceptor(s.streamInterceptors()...),
 	}, opts.ServerOptions...)...)
 	healthpb.RegisterHealthServer(s.grpc, s.health)
-	reflection.Register(s.grpc)
+	if err := registerReflection(s.grpc); err != nil {
+		s.log.Error("reflection answers without documentation", "err", err)
+	}
 	halovetv1.RegisterCatalogueServiceServer(s.grpc, &catalogueServer{srv: s})
 	halovetv1.RegisterShipmentServiceServer(s.grpc, &shipmentServer{srv: s})
 	halovetv1.RegisterLicensingServiceServer(s.grpc, &licensingServer{srv: s})
