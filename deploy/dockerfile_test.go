@@ -98,8 +98,8 @@ func TestDockerfileBuildsStaticBinaryAndRunsAsNonRoot(t *testing.T) {
 	if _, err := strconv.Atoi(user); err != nil {
 		t.Errorf("runtime USER %q is not numeric; Kubernetes runAsNonRoot cannot verify a user name", user)
 	}
-	if got := find(final, "EXPOSE"); !slices.Contains(got, strconv.Itoa(apiPort)) {
-		t.Errorf("EXPOSE %v; want %d", got, apiPort)
+	if got := strings.Fields(strings.Join(find(final, "EXPOSE"), " ")); !slices.Contains(got, strconv.Itoa(apiPort)) || !slices.Contains(got, strconv.Itoa(httpPort)) {
+		t.Errorf("EXPOSE %v; want %d and %d", got, apiPort, httpPort)
 	}
 	if got := find(final, "ENTRYPOINT"); !slices.Equal(got, []string{`["/usr/local/bin/halovet"]`}) {
 		t.Errorf("ENTRYPOINT %v; want [\"/usr/local/bin/halovet\"]", got)

@@ -153,6 +153,9 @@ type (
 // apiPort is the port halovet serves gRPC on in every deployment form.
 const apiPort = 7390
 
+// httpPort is the HTTP/JSON and gRPC-Web port (serve --http-listen).
+const httpPort = 7391
+
 // load parses one YAML file into v, failing the test on any error.
 func load(t *testing.T, path string, v any) {
 	t.Helper()
@@ -304,8 +307,9 @@ func TestDeploymentServesGRPCWithProbesAndSecrets(t *testing.T) {
 	if len(c.Command) != 0 || !slices.Equal(c.Args, []string{"serve"}) {
 		t.Errorf("container command %v args %v; want the image entrypoint with args [serve]", c.Command, c.Args)
 	}
-	if len(c.Ports) != 1 || c.Ports[0].ContainerPort != apiPort || c.Ports[0].Name != "grpc" {
-		t.Errorf("container ports %+v; want one port %d named grpc", c.Ports, apiPort)
+	if len(c.Ports) != 2 || c.Ports[0].ContainerPort != apiPort || c.Ports[0].Name != "grpc" ||
+		c.Ports[1].ContainerPort != httpPort || c.Ports[1].Name != "http" {
+		t.Errorf("container ports %+v; want %d named grpc and %d named http", c.Ports, apiPort, httpPort)
 	}
 	for name, p := range map[string]*probe{"readinessProbe": c.ReadinessProbe, "livenessProbe": c.LivenessProbe} {
 		if p == nil || p.GRPC == nil || p.GRPC.Port != apiPort {
@@ -404,8 +408,11 @@ func TestServiceAndBudgetSelectTheServerPods(t *testing.T) {
 	if !selects(s.Spec.Selector, pods) || selects(s.Spec.Selector, jobPods) {
 		t.Errorf("service selector %v; want it to select the server pods %v and not the migration pods %v", s.Spec.Selector, pods, jobPods)
 	}
-	if len(s.Spec.Ports) != 1 {
-		t.Fatalf("service ports %+v; want one", s.Spec.Ports)
+	if len(s.Spec.Ports) != 2 {
+		t.Fatalf("service ports %+v; want grpc and http", s.Spec.Ports)
+	}
+	if h := s.Spec.Ports[1]; h.Port != httpPort || h.Name != "http" || h.TargetPort != "http" || h.AppProtocol != "http" {
+		t.Errorf("service port %+v; want port %d named http, targetPort http, appProtocol http", h, httpPort)
 	}
 	p := s.Spec.Ports[0]
 	target := p.TargetPort == "grpc" || p.TargetPort == float64(apiPort)

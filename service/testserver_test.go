@@ -54,6 +54,13 @@ func startServerWith(tb testing.TB, opts service.Options) (*grpc.ClientConn, *st
 // startServerOn is startServerWith on a database the test prepared (migrated already).
 func startServerOn(tb testing.TB, url string, opts service.Options) (*grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
 	tb.Helper()
+	_, conn, st, holder := runTestServer(tb, url, opts)
+	return conn, st, holder
+}
+
+// runTestServer is startServerOn that also returns the server itself.
+func runTestServer(tb testing.TB, url string, opts service.Options) (*service.Server, *grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
+	tb.Helper()
 	ctx := context.Background()
 	st, err := store.Open(ctx, url)
 	if err != nil {
@@ -94,5 +101,5 @@ func startServerOn(tb testing.TB, url string, opts service.Options) (*grpc.Clien
 		tb.Fatalf("dial the test server: %v", err)
 	}
 	tb.Cleanup(func() { _ = conn.Close() }) // registered last, so it runs first
-	return conn, st, holder
+	return srv, conn, st, holder
 }

@@ -23,8 +23,9 @@ func init() {
 
 const serveUsage = `serve [flags]
 
-Runs the gRPC API (catalogue, shipments, licensing, consumption) with the standard
-grpc.health.v1 health service and server reflection. Without --database-url it runs a
+Runs the gRPC API (catalogue, shipments, licensing, consumption, analysis) with the
+standard grpc.health.v1 health service and server reflection on --listen, and the same
+calls over HTTP/JSON (paths in GET /openapi.json) and gRPC-Web on --http-listen. Without --database-url it runs a
 private PostgreSQL cluster in --data-dir from the machine's PostgreSQL server binaries
 and stops it on exit. SIGINT or SIGTERM shut down gracefully: health turns NOT_SERVING,
 calls in flight get --grace-period to finish.`
@@ -32,7 +33,8 @@ calls in flight get --grace-period to finish.`
 func defineServe(fs *pflag.FlagSet) runFunc {
 	var d dbFlags
 	d.register(fs)
-	listen := fs.String("listen", envOr("HALOVET_LISTEN", "127.0.0.1:7390"), "address to listen on (env HALOVET_LISTEN)")
+	listen := fs.String("listen", envOr("HALOVET_LISTEN", "127.0.0.1:7390"), "address of the gRPC API (env HALOVET_LISTEN)")
+	httpListen := fs.String("http-listen", envOr("HALOVET_HTTP_LISTEN", "127.0.0.1:7391"), "address of the HTTP/JSON and gRPC-Web API and of GET /openapi.json; empty: none (env HALOVET_HTTP_LISTEN)")
 	migrate := fs.Bool("migrate", envBool("HALOVET_MIGRATE"), "apply pending migrations before serving (env HALOVET_MIGRATE)")
 	grace := fs.Duration("grace-period", envDuration("HALOVET_GRACE_PERIOD", 20*time.Second), "time in-flight calls get to finish on shutdown (env HALOVET_GRACE_PERIOD)")
 	logFormat := fs.String("log-format", envOr("HALOVET_LOG_FORMAT", "text"), "log format: text or json (env HALOVET_LOG_FORMAT)")
@@ -72,6 +74,13 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 			return fmt.Errorf("--listen %s: %w", *listen, err)
 		}
 		defer lis.Close()
+		var httpLis net.Listener
+		if *httpListen != "" {
+			if httpLis, err = net.Listen("tcp", *httpListen); err != nil {
+				return fmt.Errorf("--http-listen %s: %w", *httpListen, err)
+			}
+			defer httpLis.Close()
+		}
 
 		db, err := openDatabase(ctx, d, *migrate, log)
 		if err != nil {
@@ -95,7 +104,17 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		stopWatch := cat.Watch(ctx, db.Store)
 		defer stopWatch()
 		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts})
-		return srv.Serve(ctx, lis)
+		if httpLis == nil {
+			return srv.Serve(ctx, lis)
+		}
+		// Both listeners stop together: when one fails, the other is shut down too.
+		ctx, stop := context.WithCancel(ctx)
+		defer stop()
+		httpDone := make(chan error, 1)
+		go func() { httpDone <- srv.ServeHTTPAPI(ctx, httpLis, *certFile, *keyFile); stop() }()
+		err = srv.Serve(ctx, lis)
+		stop()
+		return errors.Join(err, <-httpDone)
 	}
 }
 

@@ -7,6 +7,7 @@
 package halovetv1
 
 import (
+	_ "google.golang.org/genproto/googleapis/api/annotations"
 	protoreflect "google.golang.org/protobuf/reflect/protoreflect"
 	protoimpl "google.golang.org/protobuf/runtime/protoimpl"
 	reflect "reflect"
@@ -872,7 +873,7 @@ var File_halovet_v1_analysis_proto protoreflect.FileDescriptor
 const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"\n" +
 	"\x19halovet/v1/analysis.proto\x12\n" +
-	"halovet.v1\x1a\x1ahalovet/v1/catalogue.proto\"\x81\x01\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x1ahalovet/v1/catalogue.proto\"\x81\x01\n" +
 	"\rMeasuredShare\x12\x1e\n" +
 	"\n" +
 	"identifier\x18\x01 \x01(\tR\n" +
@@ -961,9 +962,9 @@ const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"\x19READING_STATE_UNSPECIFIED\x10\x00\x12\x1a\n" +
 	"\x16READING_STATE_STANDARD\x10\x01\x12\x1e\n" +
 	"\x1aREADING_STATE_CONTAMINATED\x10\x02\x12\x17\n" +
-	"\x13READING_STATE_MIXED\x10\x032j\n" +
-	"\x0fAnalysisService\x12W\n" +
-	"\x0eAnalyseReading\x12!.halovet.v1.AnalyseReadingRequest\x1a\".halovet.v1.AnalyseReadingResponseB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
+	"\x13READING_STATE_MIXED\x10\x032\x95\x01\n" +
+	"\x0fAnalysisService\x12\x81\x01\n" +
+	"\x0eAnalyseReading\x12!.halovet.v1.AnalyseReadingRequest\x1a\".halovet.v1.AnalyseReadingResponse\"(\x82\xd3\xe4\x93\x02\":\x01*\"\x1d/v1/cylinder-readings:analyseB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 
 var (
 	file_halovet_v1_analysis_proto_rawDescOnce sync.Once

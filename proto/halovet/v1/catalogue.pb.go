@@ -7,6 +7,7 @@
 package halovetv1
 
 import (
+	_ "google.golang.org/genproto/googleapis/api/annotations"
 	protoreflect "google.golang.org/protobuf/reflect/protoreflect"
 	protoimpl "google.golang.org/protobuf/runtime/protoimpl"
 	reflect "reflect"
@@ -1871,7 +1872,7 @@ var File_halovet_v1_catalogue_proto protoreflect.FileDescriptor
 const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\n" +
 	"\x1ahalovet/v1/catalogue.proto\x12\n" +
-	"halovet.v1\"S\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"S\n" +
 	"\bGwpValue\x12\x17\n" +
 	"\agwp_set\x18\x01 \x01(\tR\x06gwpSet\x12\x16\n" +
 	"\x06gwp100\x18\x02 \x01(\x01R\x06gwp100\x12\x16\n" +
@@ -2032,13 +2033,13 @@ const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\x12MATCH_KIND_FORMULA\x10\x04\x12\x1c\n" +
 	"\x18MATCH_KIND_CHEMICAL_NAME\x10\x05\x12\x16\n" +
 	"\x12MATCH_KIND_HS_CODE\x10\x06\x12\x1d\n" +
-	"\x19MATCH_KIND_DECODED_NUMBER\x10\a2\xc3\x03\n" +
-	"\x10CatalogueService\x12E\n" +
-	"\bGetEntry\x12\x1b.halovet.v1.GetEntryRequest\x1a\x1c.halovet.v1.GetEntryResponse\x12N\n" +
-	"\vListEntries\x12\x1e.halovet.v1.ListEntriesRequest\x1a\x1f.halovet.v1.ListEntriesResponse\x12`\n" +
-	"\x11ResolveIdentifier\x12$.halovet.v1.ResolveIdentifierRequest\x1a%.halovet.v1.ResolveIdentifierResponse\x12Z\n" +
-	"\x0fEvaluateMixture\x12\".halovet.v1.EvaluateMixtureRequest\x1a#.halovet.v1.EvaluateMixtureResponse\x12Z\n" +
-	"\x0fUpsertSubstance\x12\".halovet.v1.UpsertSubstanceRequest\x1a#.halovet.v1.UpsertSubstanceResponseB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
+	"\x19MATCH_KIND_DECODED_NUMBER\x10\a2\xfa\x04\n" +
+	"\x10CatalogueService\x12r\n" +
+	"\bGetEntry\x12\x1b.halovet.v1.GetEntryRequest\x1a\x1c.halovet.v1.GetEntryResponse\"+\x82\xd3\xe4\x93\x02%\x12#/v1/catalogue/entries/{designation}\x12m\n" +
+	"\vListEntries\x12\x1e.halovet.v1.ListEntriesRequest\x1a\x1f.halovet.v1.ListEntriesResponse\"\x1d\x82\xd3\xe4\x93\x02\x17\x12\x15/v1/catalogue/entries\x12\x82\x01\n" +
+	"\x11ResolveIdentifier\x12$.halovet.v1.ResolveIdentifierRequest\x1a%.halovet.v1.ResolveIdentifierResponse\" \x82\xd3\xe4\x93\x02\x1a:\x01*\"\x15/v1/catalogue:resolve\x12}\n" +
+	"\x0fEvaluateMixture\x12\".halovet.v1.EvaluateMixtureRequest\x1a#.halovet.v1.EvaluateMixtureResponse\"!\x82\xd3\xe4\x93\x02\x1b:\x01*\"\x16/v1/catalogue:evaluate\x12\x7f\n" +
+	"\x0fUpsertSubstance\x12\".halovet.v1.UpsertSubstanceRequest\x1a#.halovet.v1.UpsertSubstanceResponse\"#\x82\xd3\xe4\x93\x02\x1d:\x01*\"\x18/v1/catalogue/substancesB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 
 var (
 	file_halovet_v1_catalogue_proto_rawDescOnce sync.Once

@@ -7,6 +7,7 @@
 package halovetv1
 
 import (
+	_ "google.golang.org/genproto/googleapis/api/annotations"
 	protoreflect "google.golang.org/protobuf/reflect/protoreflect"
 	protoimpl "google.golang.org/protobuf/runtime/protoimpl"
 	reflect "reflect"
@@ -1956,7 +1957,7 @@ var File_halovet_v1_consumption_proto protoreflect.FileDescriptor
 const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\n" +
 	"\x1chalovet/v1/consumption.proto\x12\n" +
-	"halovet.v1\"\xcd\x01\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"\xcd\x01\n" +
 	"\rNationalEntry\x12\x1b\n" +
 	"\tentry_key\x18\x01 \x01(\tR\bentryKey\x12\x12\n" +
 	"\x04year\x18\x02 \x01(\x05R\x04year\x124\n" +
@@ -2130,15 +2131,15 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x1eCOMPLIANCE_OUTCOME_UNSPECIFIED\x10\x00\x12\x1d\n" +
 	"\x19COMPLIANCE_OUTCOME_WITHIN\x10\x01\x12\x1f\n" +
 	"\x1bCOMPLIANCE_OUTCOME_EXCEEDED\x10\x02\x12#\n" +
-	"\x1fCOMPLIANCE_OUTCOME_NOT_ASSESSED\x10\x032\xbf\x04\n" +
-	"\x12ConsumptionService\x12l\n" +
-	"\x15RecordNationalEntries\x12(.halovet.v1.RecordNationalEntriesRequest\x1a).halovet.v1.RecordNationalEntriesResponse\x12f\n" +
-	"\x13ListNationalEntries\x12&.halovet.v1.ListNationalEntriesRequest\x1a'.halovet.v1.ListNationalEntriesResponse\x12W\n" +
-	"\x0eGetConsumption\x12!.halovet.v1.GetConsumptionRequest\x1a\".halovet.v1.GetConsumptionResponse\x12N\n" +
-	"\vGetBaseline\x12\x1e.halovet.v1.GetBaselineRequest\x1a\x1f.halovet.v1.GetBaselineResponse\x12]\n" +
-	"\x10AssessCompliance\x12#.halovet.v1.AssessComplianceRequest\x1a$.halovet.v1.AssessComplianceResponse\x12K\n" +
+	"\x1fCOMPLIANCE_OUTCOME_NOT_ASSESSED\x10\x032\xea\x05\n" +
+	"\x12ConsumptionService\x12\x8d\x01\n" +
+	"\x15RecordNationalEntries\x12(.halovet.v1.RecordNationalEntriesRequest\x1a).halovet.v1.RecordNationalEntriesResponse\"\x1f\x82\xd3\xe4\x93\x02\x19:\x01*\"\x14/v1/national-entries\x12\x84\x01\n" +
+	"\x13ListNationalEntries\x12&.halovet.v1.ListNationalEntriesRequest\x1a'.halovet.v1.ListNationalEntriesResponse\"\x1c\x82\xd3\xe4\x93\x02\x16\x12\x14/v1/national-entries\x12w\n" +
+	"\x0eGetConsumption\x12!.halovet.v1.GetConsumptionRequest\x1a\".halovet.v1.GetConsumptionResponse\"\x1e\x82\xd3\xe4\x93\x02\x18\x12\x16/v1/consumption/{year}\x12d\n" +
+	"\vGetBaseline\x12\x1e.halovet.v1.GetBaselineRequest\x1a\x1f.halovet.v1.GetBaselineResponse\"\x14\x82\xd3\xe4\x93\x02\x0e\x12\f/v1/baseline\x12u\n" +
+	"\x10AssessCompliance\x12#.halovet.v1.AssessComplianceRequest\x1a$.halovet.v1.AssessComplianceResponse\"\x16\x82\xd3\xe4\x93\x02\x10\x12\x0e/v1/compliance\x12g\n" +
 	"\n" +
-	"PlanQuotas\x12\x1d.halovet.v1.PlanQuotasRequest\x1a\x1e.halovet.v1.PlanQuotasResponseB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
+	"PlanQuotas\x12\x1d.halovet.v1.PlanQuotasRequest\x1a\x1e.halovet.v1.PlanQuotasResponse\"\x1a\x82\xd3\xe4\x93\x02\x14:\x01*\"\x0f/v1/quota-plansB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 
 var (
 	file_halovet_v1_consumption_proto_rawDescOnce sync.Once

@@ -7,6 +7,7 @@
 package halovetv1
 
 import (
+	_ "google.golang.org/genproto/googleapis/api/annotations"
 	protoreflect "google.golang.org/protobuf/reflect/protoreflect"
 	protoimpl "google.golang.org/protobuf/runtime/protoimpl"
 	reflect "reflect"
@@ -1577,7 +1578,7 @@ var File_halovet_v1_licensing_proto protoreflect.FileDescriptor
 const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\n" +
 	"\x1ahalovet/v1/licensing.proto\x12\n" +
-	"halovet.v1\x1a\x19halovet/v1/shipment.proto\"\xcf\x02\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x19halovet/v1/shipment.proto\"\xcf\x02\n" +
 	"\x05Party\x12!\n" +
 	"\fcountry_code\x18\x01 \x01(\tR\vcountryCode\x12\x12\n" +
 	"\x04name\x18\x02 \x01(\tR\x04name\x124\n" +
@@ -1684,19 +1685,19 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x14LICENCE_STATUS_DRAFT\x10\x01\x12\x19\n" +
 	"\x15LICENCE_STATUS_ACTIVE\x10\x02\x12\x1c\n" +
 	"\x18LICENCE_STATUS_SUSPENDED\x10\x03\x12\x1a\n" +
-	"\x16LICENCE_STATUS_REVOKED\x10\x042\xc7\x06\n" +
-	"\x10LicensingService\x12E\n" +
-	"\bPutParty\x12\x1b.halovet.v1.PutPartyRequest\x1a\x1c.halovet.v1.PutPartyResponse\x12E\n" +
-	"\bGetParty\x12\x1b.halovet.v1.GetPartyRequest\x1a\x1c.halovet.v1.GetPartyResponse\x12N\n" +
-	"\vListParties\x12\x1e.halovet.v1.ListPartiesRequest\x1a\x1f.halovet.v1.ListPartiesResponse\x12Z\n" +
-	"\x0fRegisterCompany\x12\".halovet.v1.RegisterCompanyRequest\x1a#.halovet.v1.RegisterCompanyResponse\x12T\n" +
-	"\rListCompanies\x12 .halovet.v1.ListCompaniesRequest\x1a!.halovet.v1.ListCompaniesResponse\x12Q\n" +
-	"\fIssueLicence\x12\x1f.halovet.v1.IssueLicenceRequest\x1a .halovet.v1.IssueLicenceResponse\x12Q\n" +
-	"\fAmendLicence\x12\x1f.halovet.v1.AmendLicenceRequest\x1a .halovet.v1.AmendLicenceResponse\x12]\n" +
-	"\x10SetLicenceStatus\x12#.halovet.v1.SetLicenceStatusRequest\x1a$.halovet.v1.SetLicenceStatusResponse\x12K\n" +
+	"\x16LICENCE_STATUS_REVOKED\x10\x042\xe3\b\n" +
+	"\x10LicensingService\x12]\n" +
+	"\bPutParty\x12\x1b.halovet.v1.PutPartyRequest\x1a\x1c.halovet.v1.PutPartyResponse\"\x16\x82\xd3\xe4\x93\x02\x10:\x01*\"\v/v1/parties\x12i\n" +
+	"\bGetParty\x12\x1b.halovet.v1.GetPartyRequest\x1a\x1c.halovet.v1.GetPartyResponse\"\"\x82\xd3\xe4\x93\x02\x1c\x12\x1a/v1/parties/{country_code}\x12c\n" +
+	"\vListParties\x12\x1e.halovet.v1.ListPartiesRequest\x1a\x1f.halovet.v1.ListPartiesResponse\"\x13\x82\xd3\xe4\x93\x02\r\x12\v/v1/parties\x12t\n" +
+	"\x0fRegisterCompany\x12\".halovet.v1.RegisterCompanyRequest\x1a#.halovet.v1.RegisterCompanyResponse\"\x18\x82\xd3\xe4\x93\x02\x12:\x01*\"\r/v1/companies\x12k\n" +
+	"\rListCompanies\x12 .halovet.v1.ListCompaniesRequest\x1a!.halovet.v1.ListCompaniesResponse\"\x15\x82\xd3\xe4\x93\x02\x0f\x12\r/v1/companies\x12j\n" +
+	"\fIssueLicence\x12\x1f.halovet.v1.IssueLicenceRequest\x1a .halovet.v1.IssueLicenceResponse\"\x17\x82\xd3\xe4\x93\x02\x11:\x01*\"\f/v1/licences\x12p\n" +
+	"\fAmendLicence\x12\x1f.halovet.v1.AmendLicenceRequest\x1a .halovet.v1.AmendLicenceResponse\"\x1d\x82\xd3\xe4\x93\x02\x17:\x01*\"\x12/v1/licences:amend\x12\x81\x01\n" +
+	"\x10SetLicenceStatus\x12#.halovet.v1.SetLicenceStatusRequest\x1a$.halovet.v1.SetLicenceStatusResponse\"\"\x82\xd3\xe4\x93\x02\x1c:\x01*\"\x17/v1/licences:set-status\x12r\n" +
 	"\n" +
-	"GetLicence\x12\x1d.halovet.v1.GetLicenceRequest\x1a\x1e.halovet.v1.GetLicenceResponse\x12Q\n" +
-	"\fListLicences\x12\x1f.halovet.v1.ListLicencesRequest\x1a .halovet.v1.ListLicencesResponseB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
+	"GetLicence\x12\x1d.halovet.v1.GetLicenceRequest\x1a\x1e.halovet.v1.GetLicenceResponse\"%\x82\xd3\xe4\x93\x02\x1f\x12\x1d/v1/licences/{licence_number}\x12g\n" +
+	"\fListLicences\x12\x1f.halovet.v1.ListLicencesRequest\x1a .halovet.v1.ListLicencesResponse\"\x14\x82\xd3\xe4\x93\x02\x0e\x12\f/v1/licencesB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 
 var (
 	file_halovet_v1_licensing_proto_rawDescOnce sync.Once

@@ -7,6 +7,7 @@
 package halovetv1
 
 import (
+	_ "google.golang.org/genproto/googleapis/api/annotations"
 	protoreflect "google.golang.org/protobuf/reflect/protoreflect"
 	protoimpl "google.golang.org/protobuf/runtime/protoimpl"
 	reflect "reflect"
@@ -1405,7 +1406,7 @@ var File_halovet_v1_shipment_proto protoreflect.FileDescriptor
 const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\n" +
 	"\x19halovet/v1/shipment.proto\x12\n" +
-	"halovet.v1\x1a\x1ahalovet/v1/catalogue.proto\"\xdd\x05\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x1ahalovet/v1/catalogue.proto\"\xdd\x05\n" +
 	"\x0eShipmentRecord\x12\x1d\n" +
 	"\n" +
 	"record_key\x18\x01 \x01(\tR\trecordKey\x12\x1f\n" +
@@ -1528,9 +1529,9 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x13OUTCOME_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10OUTCOME_ACCEPTED\x10\x01\x12\"\n" +
 	"\x1eOUTCOME_ACCEPTED_WITH_WARNINGS\x10\x02\x12\x14\n" +
-	"\x10OUTCOME_REJECTED\x10\x032\xa4\x02\n" +
-	"\x0fShipmentService\x12T\n" +
-	"\rCheckShipment\x12 .halovet.v1.CheckShipmentRequest\x1a!.halovet.v1.CheckShipmentResponse\x12[\n" +
+	"\x10OUTCOME_REJECTED\x10\x032\xc4\x02\n" +
+	"\x0fShipmentService\x12t\n" +
+	"\rCheckShipment\x12 .halovet.v1.CheckShipmentRequest\x1a!.halovet.v1.CheckShipmentResponse\"\x1e\x82\xd3\xe4\x93\x02\x18:\x01*\"\x13/v1/shipments:check\x12[\n" +
 	"\x0eCheckShipments\x12!.halovet.v1.CheckShipmentsRequest\x1a\".halovet.v1.CheckShipmentsResponse(\x010\x01\x12^\n" +
 	"\x0fRecordShipments\x12\".halovet.v1.RecordShipmentsRequest\x1a#.halovet.v1.RecordShipmentsResponse(\x010\x01B7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 

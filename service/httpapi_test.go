@@ -1,0 +1,217 @@
+package service_test
+
+import (
+	"bytes"
+	"context"
+	"encoding/binary"
+	"encoding/json"
+	"io"
+	"net/http"
+	"net/http/httptest"
+	"strings"
+	"testing"
+
+	"github.com/getkin/kin-openapi/openapi2"
+	"github.com/getkin/kin-openapi/openapi2conv"
+	"google.golang.org/protobuf/encoding/protojson"
+	"google.golang.org/protobuf/proto"
+	"google.golang.org/protobuf/reflect/protoreflect"
+	"google.golang.org/protobuf/reflect/protoregistry"
+
+	"github.com/halovet/halovet/pglocal/pgtest"
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service"
+)
+
+// startHTTPTestServer runs the test server and its HTTP handler; it returns the gRPC
+// client of the shipment service, the HTTP base URL and the HTTP client to use.
+func startHTTPTestServer(t *testing.T) (halovetv1.ShipmentServiceClient, string, func() *http.Client) {
+	t.Helper()
+	srv, conn, _, _ := runTestServer(t, pgtest.NewDatabase(t, "halovet_service", migrateServiceDB), service.Options{})
+	h, err := srv.HTTPHandler()
+	if err != nil {
+		t.Fatal(err)
+	}
+	web := httptest.NewServer(h)
+	t.Cleanup(web.Close)
+	shipRegistry(t, conn)
+	return halovetv1.NewShipmentServiceClient(conn), web.URL, web.Client
+}
+
+// TestSameVerdictOverGRPCHTTPAndGRPCWeb checks one accepted and one rejected record over
+// gRPC, over HTTP/JSON (POST /v1/shipments:check) and over gRPC-Web, and requires the same
+// verdict from each.
+func TestSameVerdictOverGRPCHTTPAndGRPCWeb(t *testing.T) {
+	t.Parallel()
+	grpcClient, base, httpClient := startHTTPTestServer(t)
+	rejected := shipRecord("WEB-2")
+	rejected.PartnerCountry = "" // PARTNER_MISSING (common practice: a declaration names its partner)
+	for _, rec := range []*halovetv1.ShipmentRecord{shipRecord("WEB-1"), rejected} {
+		req := &halovetv1.CheckShipmentRequest{Record: rec}
+		viaGRPC, err := grpcClient.CheckShipment(context.Background(), req)
+		if err != nil {
+			t.Fatal(err)
+		}
+
+		body, err := protojson.Marshal(req)
+		if err != nil {
+			t.Fatal(err)
+		}
+		resp, err := httpClient().Post(base+"/v1/shipments:check", "application/json", bytes.NewReader(body))
+		if err != nil {
+			t.Fatal(err)
+		}
+		raw, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if resp.StatusCode != http.StatusOK {
+			t.Fatalf("HTTP/JSON: status %d: %s", resp.StatusCode, raw)
+		}
+		viaHTTP := &halovetv1.CheckShipmentResponse{}
+		if err := protojson.Unmarshal(raw, viaHTTP); err != nil {
+			t.Fatalf("HTTP/JSON answer %s: %v", raw, err)
+		}
+
+		viaWeb := grpcWebCall(t, httpClient(), base+"/halovet.v1.ShipmentService/CheckShipment", req)
+
+		if !proto.Equal(viaGRPC, viaHTTP) || !proto.Equal(viaGRPC, viaWeb) {
+			t.Errorf("record %s: verdicts differ\n gRPC:     %v\n HTTP/JSON: %v\n gRPC-Web: %v", rec.GetRecordKey(), viaGRPC, viaHTTP, viaWeb)
+		}
+	}
+}
+
+// grpcWebCall makes a unary gRPC-Web call (binary framing) and decodes its answer.
+func grpcWebCall(t *testing.T, c *http.Client, url string, req proto.Message) *halovetv1.CheckShipmentResponse {
+	t.Helper()
+	msg, err := proto.Marshal(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	frame := make([]byte, 5, 5+len(msg))
+	binary.BigEndian.PutUint32(frame[1:], uint32(len(msg)))
+	hr, err := http.NewRequest(http.MethodPost, url, bytes.NewReader(append(frame, msg...)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	hr.Header.Set("Content-Type", "application/grpc-web+proto")
+	hr.Header.Set("X-Grpc-Web", "1")
+	resp, err := c.Do(hr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer resp.Body.Close()
+	raw, _ := io.ReadAll(resp.Body)
+	out := &halovetv1.CheckShipmentResponse{}
+	var trailers string
+	for len(raw) >= 5 {
+		flag, n := raw[0], binary.BigEndian.Uint32(raw[1:5])
+		payload := raw[5 : 5+n]
+		raw = raw[5+n:]
+		if flag&0x80 != 0 {
+			trailers = string(payload)
+			continue
+		}
+		if err := proto.Unmarshal(payload, out); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if !strings.Contains(strings.ReplaceAll(strings.ToLower(trailers), " ", ""), "grpc-status:0") {
+		t.Fatalf("gRPC-Web: trailers %q; want grpc-status 0", trailers)
+	}
+	return out
+}
+
+// TestHTTPErrorsCarryStatusAndDetails: a bad request over HTTP/JSON answers the HTTP status
+// of its gRPC code (INVALID_ARGUMENT: 400) with the google.rpc.Status body the gRPC call gets,
+// details included; an unknown path answers 404 naming the OpenAPI document.
+func TestHTTPErrorsCarryStatusAndDetails(t *testing.T) {
+	t.Parallel()
+	_, base, httpClient := startHTTPTestServer(t)
+	resp, err := httpClient().Post(base+"/v1/shipments:check", "application/json", strings.NewReader(`{}`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	raw, _ := io.ReadAll(resp.Body)
+	resp.Body.Close()
+	if resp.StatusCode != http.StatusBadRequest {
+		t.Fatalf("empty check: status %d (%s); want 400", resp.StatusCode, raw)
+	}
+	var st struct {
+		Code    int               `json:"code"`
+		Message string            `json:"message"`
+		Details []json.RawMessage `json:"details"`
+	}
+	if err := json.Unmarshal(raw, &st); err != nil {
+		t.Fatalf("error body %s: %v", raw, err)
+	}
+	if st.Code != 3 || st.Message == "" || len(st.Details) == 0 || !strings.Contains(string(raw), "record") {
+		t.Errorf("error body %s; want code 3 (INVALID_ARGUMENT), a message and details naming the field", raw)
+	}
+
+	resp, err = httpClient().Get(base + "/v1/no-such-thing")
+	if err != nil {
+		t.Fatal(err)
+	}
+	raw, _ = io.ReadAll(resp.Body)
+	resp.Body.Close()
+	if resp.StatusCode != http.StatusNotFound || !strings.Contains(string(raw), "openapi.json") {
+		t.Errorf("unknown path: %d %s; want 404 naming /openapi.json", resp.StatusCode, raw)
+	}
+}
+
+// TestOpenAPIDocumentIsValidAndComplete loads the served document with kin-openapi,
+// converts it to OpenAPI 3 and validates it, and requires a path for every unary RPC of
+// proto/ that has an HTTP annotation (every unary RPC has one).
+func TestOpenAPIDocumentIsValidAndComplete(t *testing.T) {
+	t.Parallel()
+	_, base, httpClient := startHTTPTestServer(t)
+	resp, err := httpClient().Get(base + "/openapi.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	raw, _ := io.ReadAll(resp.Body)
+	resp.Body.Close()
+	var doc2 openapi2.T
+	if err := json.Unmarshal(raw, &doc2); err != nil {
+		t.Fatalf("openapi.json: %v", err)
+	}
+	doc3, err := openapi2conv.ToV3(&doc2)
+	if err != nil {
+		t.Fatalf("converting to OpenAPI 3: %v", err)
+	}
+	if err := doc3.Validate(context.Background()); err != nil {
+		t.Fatalf("OpenAPI document invalid: %v", err)
+	}
+	ops := map[string]bool{}
+	for _, item := range doc3.Paths.Map() {
+		for _, op := range item.Operations() {
+			ops[op.OperationID] = true
+		}
+	}
+	for _, sd := range []string{"CatalogueService", "ShipmentService", "LicensingService", "ConsumptionService", "AnalysisService"} {
+		for name := range methodsOf(t, "halovet.v1."+sd) {
+			if !ops[sd+"_"+name] {
+				t.Errorf("OpenAPI document has no operation %s_%s", sd, name)
+			}
+		}
+	}
+}
+
+// methodsOf names the unary methods of a service of the compiled-in registry.
+func methodsOf(t *testing.T, service string) map[string]bool {
+	t.Helper()
+	d, err := protoregistry.GlobalFiles.FindDescriptorByName(protoreflect.FullName(service))
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := map[string]bool{}
+	ms := d.(protoreflect.ServiceDescriptor).Methods()
+	for i := 0; i < ms.Len(); i++ {
+		if !ms.Get(i).IsStreamingClient() && !ms.Get(i).IsStreamingServer() {
+			out[string(ms.Get(i).Name())] = true
+		}
+	}
+	if len(out) == 0 {
+		t.Fatalf("%s has no unary methods", service)
+	}
+	return out
+}
