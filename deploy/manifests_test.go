@@ -156,6 +156,9 @@ const apiPort = 7390
 // httpPort is the HTTP/JSON and gRPC-Web port (serve --http-listen).
 const httpPort = 7391
 
+// metricsPort is the Prometheus metrics port (serve --metrics-listen).
+const metricsPort = 7392
+
 // load parses one YAML file into v, failing the test on any error.
 func load(t *testing.T, path string, v any) {
 	t.Helper()
@@ -307,9 +310,13 @@ func TestDeploymentServesGRPCWithProbesAndSecrets(t *testing.T) {
 	if len(c.Command) != 0 || !slices.Equal(c.Args, []string{"serve"}) {
 		t.Errorf("container command %v args %v; want the image entrypoint with args [serve]", c.Command, c.Args)
 	}
-	if len(c.Ports) != 2 || c.Ports[0].ContainerPort != apiPort || c.Ports[0].Name != "grpc" ||
-		c.Ports[1].ContainerPort != httpPort || c.Ports[1].Name != "http" {
-		t.Errorf("container ports %+v; want %d named grpc and %d named http", c.Ports, apiPort, httpPort)
+	if len(c.Ports) != 3 || c.Ports[0].ContainerPort != apiPort || c.Ports[0].Name != "grpc" ||
+		c.Ports[1].ContainerPort != httpPort || c.Ports[1].Name != "http" ||
+		c.Ports[2].ContainerPort != metricsPort || c.Ports[2].Name != "metrics" {
+		t.Errorf("container ports %+v; want %d named grpc, %d named http and %d named metrics", c.Ports, apiPort, httpPort, metricsPort)
+	}
+	if a := d.Spec.Template.Metadata.Annotations; a["prometheus.io/scrape"] != "true" || a["prometheus.io/port"] != strconv.Itoa(metricsPort) {
+		t.Errorf("pod annotations %v; want prometheus.io/scrape true on port %d", a, metricsPort)
 	}
 	for name, p := range map[string]*probe{"readinessProbe": c.ReadinessProbe, "livenessProbe": c.LivenessProbe} {
 		if p == nil || p.GRPC == nil || p.GRPC.Port != apiPort {

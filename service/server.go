@@ -40,6 +40,7 @@ type Server struct {
 	grpc   *grpc.Server
 	health *health.Server
 	cat    *CatalogueHolder
+	m      *metrics
 
 	newerSchemaLogged atomic.Bool // the health probe said once that the schema is newer
 }
@@ -67,10 +68,11 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	if opts.Now == nil {
 		opts.Now = time.Now
 	}
-	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat}
+	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st)}
+	// Metrics come first, so that they see every call and the status it ends with.
 	s.grpc = grpc.NewServer(append([]grpc.ServerOption{
-		grpc.ChainUnaryInterceptor(s.unaryInterceptors()...),
-		grpc.ChainStreamInterceptor(s.streamInterceptors()...),
+		grpc.ChainUnaryInterceptor(append([]grpc.UnaryServerInterceptor{s.m.unary()}, s.unaryInterceptors()...)...),
+		grpc.ChainStreamInterceptor(append([]grpc.StreamServerInterceptor{s.m.stream()}, s.streamInterceptors()...)...),
 	}, opts.ServerOptions...)...)
 	healthpb.RegisterHealthServer(s.grpc, s.health)
 	if err := registerReflection(s.grpc); err != nil {
@@ -81,6 +83,7 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	halovetv1.RegisterLicensingServiceServer(s.grpc, &licensingServer{srv: s})
 	halovetv1.RegisterConsumptionServiceServer(s.grpc, &consumptionServer{srv: s})
 	halovetv1.RegisterAnalysisServiceServer(s.grpc, &analysisServer{srv: s})
+	s.m.rpc.InitializeMetrics(s.grpc)
 	s.setHealth(healthpb.HealthCheckResponse_NOT_SERVING)
 	s.health.SetServingStatus(LivenessService, healthpb.HealthCheckResponse_SERVING)
 	return s

@@ -6,9 +6,13 @@ import (
 	"io"
 	"log/slog"
 	"net"
+	"net/http"
+	"net/http/httptest"
 	"os"
 	"path/filepath"
 	"sort"
+	"strconv"
+	"strings"
 	"time"
 
 	"github.com/spf13/pflag"
@@ -140,6 +144,10 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 			maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
 			return err
 		}
+		step("Metrics after the batch (what GET /metrics of 'halovet serve --metrics-listen' shows; a selection)")
+		if err := printScrape(out, srv.MetricsHandler(), "halovet_shipment_records_total", "halovet_shipment_findings_total", 8); err != nil {
+			return err
+		}
 		step("Licence balances after recording")
 		if err := printLicences(ctx, conn, out, "", 2026); err != nil {
 			return err
@@ -200,6 +208,38 @@ func showHealthAndServices(ctx context.Context, conn *grpc.ClientConn, out io.Wr
 	fmt.Fprintln(out, "  services offered (server reflection):")
 	for _, n := range names {
 		fmt.Fprintln(out, "    "+n)
+	}
+	return nil
+}
+
+// printScrape scrapes h and prints every sample of the first metric and the largest n
+// samples of the second, with how many samples the second has in all.
+func printScrape(w io.Writer, h http.Handler, first, second string, n int) error {
+	rec := httptest.NewRecorder()
+	h.ServeHTTP(rec, httptest.NewRequest(http.MethodGet, "/metrics", nil))
+	if rec.Code != http.StatusOK {
+		return fmt.Errorf("metrics scrape: HTTP %d", rec.Code)
+	}
+	type sample struct {
+		line  string
+		value float64
+	}
+	var seconds []sample
+	for _, line := range strings.Split(rec.Body.String(), "\n") {
+		switch {
+		case strings.HasPrefix(line, first+"{"):
+			fmt.Fprintln(w, "  "+line)
+		case strings.HasPrefix(line, second+"{"):
+			v, _ := strconv.ParseFloat(line[strings.LastIndexByte(line, ' ')+1:], 64)
+			seconds = append(seconds, sample{line, v})
+		}
+	}
+	sort.SliceStable(seconds, func(i, j int) bool { return seconds[i].value > seconds[j].value })
+	for _, s := range seconds[:min(n, len(seconds))] {
+		fmt.Fprintln(w, "  "+s.line)
+	}
+	if len(seconds) > n {
+		fmt.Fprintf(w, "  ... and %d more %s samples\n", len(seconds)-n, second)
 	}
 	return nil
 }

@@ -4,7 +4,9 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"log/slog"
 	"net"
+	"net/http"
 	"os"
 	"strings"
 	"time"
@@ -34,6 +36,7 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 	var d dbFlags
 	d.register(fs)
 	listen := fs.String("listen", envOr("HALOVET_LISTEN", "127.0.0.1:7390"), "address of the gRPC API (env HALOVET_LISTEN)")
+	metricsListen := fs.String("metrics-listen", envOr("HALOVET_METRICS_LISTEN", ""), "address of the Prometheus metrics (GET /metrics); empty: none (env HALOVET_METRICS_LISTEN)")
 	httpListen := fs.String("http-listen", envOr("HALOVET_HTTP_LISTEN", "127.0.0.1:7391"), "address of the HTTP/JSON and gRPC-Web API and of GET /openapi.json; empty: none (env HALOVET_HTTP_LISTEN)")
 	migrate := fs.Bool("migrate", envBool("HALOVET_MIGRATE"), "apply pending migrations before serving (env HALOVET_MIGRATE)")
 	grace := fs.Duration("grace-period", envDuration("HALOVET_GRACE_PERIOD", 20*time.Second), "time in-flight calls get to finish on shutdown (env HALOVET_GRACE_PERIOD)")
@@ -74,7 +77,13 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 			return fmt.Errorf("--listen %s: %w", *listen, err)
 		}
 		defer lis.Close()
-		var httpLis net.Listener
+		var httpLis, metricsLis net.Listener
+		if *metricsListen != "" {
+			if metricsLis, err = net.Listen("tcp", *metricsListen); err != nil {
+				return fmt.Errorf("--metrics-listen %s: %w", *metricsListen, err)
+			}
+			defer metricsLis.Close()
+		}
 		if *httpListen != "" {
 			if httpLis, err = net.Listen("tcp", *httpListen); err != nil {
 				return fmt.Errorf("--http-listen %s: %w", *httpListen, err)
@@ -104,17 +113,26 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		stopWatch := cat.Watch(ctx, db.Store)
 		defer stopWatch()
 		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts})
-		if httpLis == nil {
-			return srv.Serve(ctx, lis)
-		}
-		// Both listeners stop together: when one fails, the other is shut down too.
+		// The listeners stop together: when one fails, the others are shut down too.
 		ctx, stop := context.WithCancel(ctx)
 		defer stop()
-		httpDone := make(chan error, 1)
-		go func() { httpDone <- srv.ServeHTTPAPI(ctx, httpLis, *certFile, *keyFile); stop() }()
+		var side []chan error
+		if httpLis != nil {
+			done := make(chan error, 1)
+			go func() { done <- srv.ServeHTTPAPI(ctx, httpLis, *certFile, *keyFile); stop() }()
+			side = append(side, done)
+		}
+		if metricsLis != nil {
+			done := make(chan error, 1)
+			go func() { done <- serveMetrics(ctx, metricsLis, srv.MetricsHandler(), log); stop() }()
+			side = append(side, done)
+		}
 		err = srv.Serve(ctx, lis)
 		stop()
-		return errors.Join(err, <-httpDone)
+		for _, done := range side {
+			err = errors.Join(err, <-done)
+		}
+		return err
 	}
 }
 
@@ -146,4 +164,27 @@ func defineMigrate(fs *pflag.FlagSet) runFunc {
 		fmt.Printf("schema at version %d (newest %d)\n", cur, head)
 		return nil
 	}
+}
+
+// serveMetrics serves GET /metrics on lis until ctx is done. The metrics listener is apart
+// from the API's so that it can stay inside the cluster network while the API is exposed.
+func serveMetrics(ctx context.Context, lis net.Listener, h http.Handler, log *slog.Logger) error {
+	mux := http.NewServeMux()
+	mux.Handle("GET /metrics", h)
+	hs := &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
+	done := make(chan error, 1)
+	go func() { done <- hs.Serve(lis) }()
+	log.Info("metrics listening", "addr", lis.Addr().String())
+	select {
+	case err := <-done:
+		return fmt.Errorf("metrics listener: %w", err)
+	case <-ctx.Done():
+	}
+	sctx, cancel := context.WithTimeout(context.WithoutCancel(ctx), 5*time.Second)
+	defer cancel()
+	_ = hs.Shutdown(sctx)
+	if err := <-done; err != nil && !errors.Is(err, http.ErrServerClosed) {
+		return err
+	}
+	return nil
 }

@@ -67,6 +67,7 @@ type serverProcess struct {
 	cmd      *exec.Cmd
 	addr     string
 	httpAddr string // HTTP/JSON and gRPC-Web
+	metrics  string // Prometheus metrics
 	stderr   *bytes.Buffer
 	done     chan error // receives the exit status once
 	exited   bool       // the test has received from done
@@ -74,8 +75,8 @@ type serverProcess struct {
 
 func startServe(t *testing.T, dbURL string, extra ...string) *serverProcess {
 	t.Helper()
-	addr, httpAddr := freeAddr(t), freeAddr(t)
-	args := append([]string{"serve", "--database-url", dbURL, "--listen", addr, "--http-listen", httpAddr}, extra...)
+	addr, httpAddr, metrics := freeAddr(t), freeAddr(t), freeAddr(t)
+	args := append([]string{"serve", "--database-url", dbURL, "--listen", addr, "--http-listen", httpAddr, "--metrics-listen", metrics}, extra...)
 	cmd := exec.Command(halovetBinary(t), args...)
 	var stderr bytes.Buffer
 	cmd.Stderr = &stderr
@@ -83,7 +84,7 @@ func startServe(t *testing.T, dbURL string, extra ...string) *serverProcess {
 	if err := cmd.Start(); err != nil {
 		t.Fatal(err)
 	}
-	p := &serverProcess{cmd: cmd, addr: addr, httpAddr: httpAddr, stderr: &stderr, done: make(chan error, 1)}
+	p := &serverProcess{cmd: cmd, addr: addr, httpAddr: httpAddr, metrics: metrics, stderr: &stderr, done: make(chan error, 1)}
 	go func() { p.done <- cmd.Wait() }()
 	t.Cleanup(func() {
 		if !p.exited {
@@ -149,6 +150,16 @@ func TestServeHealthReflectionAndGracefulShutdown(t *testing.T) {
 		t.Errorf("GET /openapi.json: %v %v; want 200", hresp, err)
 	} else {
 		hresp.Body.Close()
+	}
+
+	// The metrics listener has seen the HTTP/JSON call (it went through the same handlers).
+	if hresp, err = http.Get("http://" + p.metrics + "/metrics"); err != nil {
+		t.Fatal(err)
+	}
+	body, _ = io.ReadAll(hresp.Body)
+	hresp.Body.Close()
+	if want := `grpc_server_handled_total{grpc_code="OK",grpc_method="ResolveIdentifier",grpc_service="halovet.v1.CatalogueService",grpc_type="unary"} 1`; !strings.Contains(string(body), want) {
+		t.Errorf("GET /metrics lacks %s", want)
 	}
 
 	// The liveness service name answers too (the Kubernetes liveness probe asks for it).
