@@ -27,6 +27,7 @@ import (
 //	BenchmarkParseCSVAlone     the CSV reader over the batch, nothing else (baseline of checking)
 //	BenchmarkCheckInProcess    validate over the parsed batch with the server's kind of environment
 //	BenchmarkCheckStreamed     parse + CheckShipments over gRPC on loopback to a real server
+//	BenchmarkCheckUnary        the same records, one CheckShipment call each, over gRPC on loopback
 //	BenchmarkRecordStreamed    parse + RecordShipments: checked, stored, quota drawn, in PostgreSQL
 //	BenchmarkCopyBaseline      plain COPY of the same rows into the shipments table (baseline of recording)
 //
@@ -323,6 +324,33 @@ func BenchmarkCheckStreamed(b *testing.B) {
 			b.Fatalf("summary of %d records; want %d", sum.GetRecords(), benchRecords)
 		}
 		total += benchRecords
+	}
+	reportRate(b, total)
+}
+
+// BenchmarkCheckUnary sends the records of BenchmarkCheckStreamed's batch one per unary
+// CheckShipment call, in turn, and reports records (calls) per second: the per-record
+// cost of a unary check beside the streamed one.
+func BenchmarkCheckUnary(b *testing.B) {
+	s := startBenchServer(b)
+	client := halovetv1.NewShipmentServiceClient(s.conn)
+	recs := parseAll(b, benchCSV(benchRecords, "U-"))
+	reqs := make([]*halovetv1.CheckShipmentRequest, len(recs))
+	for i := range recs {
+		reqs[i] = &halovetv1.CheckShipmentRequest{Record: service.RecordToProto(&recs[i])}
+	}
+	ctx := context.Background()
+	b.ReportAllocs()
+	total := 0
+	for i := 0; b.Loop(); i++ {
+		resp, err := client.CheckShipment(ctx, reqs[i%len(reqs)])
+		if err != nil {
+			b.Fatal(err)
+		}
+		if resp.GetVerdict().GetOutcome() == halovetv1.Outcome_OUTCOME_REJECTED {
+			b.Fatalf("record %s rejected: %v", resp.GetVerdict().GetRecordKey(), resp.GetVerdict().GetFindings())
+		}
+		total++
 	}
 	reportRate(b, total)
 }
