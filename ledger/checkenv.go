@@ -44,6 +44,10 @@ type Change struct {
 
 func (c Change) empty() bool { return !c.All && !c.Parties && len(c.Licences) == 0 }
 
+// maxListedLicences is how many changed licences a pending change lists before it turns
+// into a reload of every licence (a bulk load announces each licence it writes).
+const maxListedLicences = 500
+
 // merge adds d to c.
 func (c Change) merge(d Change) Change {
 	c.All = c.All || d.All
@@ -52,6 +56,9 @@ func (c Change) merge(d Change) Change {
 		if !slices.Contains(c.Licences, n) {
 			c.Licences = append(c.Licences, n)
 		}
+	}
+	if c.All || len(c.Licences) > maxListedLicences {
+		c.All, c.Licences = true, nil
 	}
 	return c
 }
@@ -416,4 +423,28 @@ func allowedPercent(rb *controls.Rulebook, cp controls.Party) func(substances.Gr
 		cache.Store(k, v)
 		return v.pct, v.known
 	}
+}
+
+// Narrowed returns an environment like env in which only the licences keep accepts can be
+// found (the checks take any other for unknown), sharing env's catalogue indexes: for a
+// caller who may see only some companies' licences. env itself is not changed.
+func Narrowed(env *validate.Env, keep func(*validate.Licence) bool) *validate.Env {
+	lookup := env.Licence
+	n := &validate.Env{
+		Catalogue:      env.Catalogue,
+		ReportingParty: env.ReportingParty,
+		Parties:        env.Parties,
+		Licence: func(number string) (*validate.Licence, bool) {
+			l, ok := lookup(number)
+			if !ok || !keep(l) {
+				return nil, false
+			}
+			return l, true
+		},
+		AllowedPercent:      env.AllowedPercent,
+		Now:                 env.Now,
+		FutureToleranceDays: env.FutureToleranceDays,
+	}
+	n.ShareIndexes(env)
+	return n
 }

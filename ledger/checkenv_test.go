@@ -414,3 +414,19 @@ func TestWatchRetriesAFailedReload(t *testing.T) {
 	reg.update(func(f *fakeRegister) { f.failLicences = nil })
 	eventually(t, "the retried reload applies the change", func() bool { return licenceStatus(t, h, "XA-IMP-1") == validate.LicenceSuspended })
 }
+
+func TestNarrowedHidesOtherCompaniesLicences(t *testing.T) {
+	h := holder(t, newFakeRegister())
+	env := current(t, h)
+	narrow := ledger.Narrowed(env, func(l *validate.Licence) bool { return l.CompanyID == "XA-CO-2" })
+	r := hcfc22("K-1") // on XA-IMP-1, held by XA-CO-1
+	if v := validate.Check(narrow, &r, nil); !slices.Contains(codes(v), validate.CodeLicenceUnknown) {
+		t.Errorf("a licence outside the caller's companies: %v; want %s", codes(v), validate.CodeLicenceUnknown)
+	}
+	if _, ok := narrow.Licence("XA-IMP-2"); !ok {
+		t.Error("the caller's own company's licence is hidden")
+	}
+	if v := validate.Check(env, &r, nil); v.Outcome != validate.OutcomeAccepted {
+		t.Errorf("the shared environment changed: %v %v", v.Outcome, codes(v))
+	}
+}

@@ -260,7 +260,7 @@ func (s *Store) UpsertSubstance(ctx context.Context, x *substances.Substance, ac
 
 // ListenCatalogue calls changed once it listens on CatalogueChannel, then after every
 // announced catalogue change, until ctx is done or the connection fails. It holds one
-// pooled connection while it listens. The first call, on every (re)connection, lets the
+// connection of its own (not from the pool) while it listens. The first call, on every (re)connection, lets the
 // caller reload what was announced while nobody listened.
 func (s *Store) ListenCatalogue(ctx context.Context, changed func()) error {
 	return s.listen(ctx, CatalogueChannel, changed, func(string) { changed() })

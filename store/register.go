@@ -3,6 +3,9 @@ package store
 import (
 	"context"
 	"strings"
+	"time"
+
+	"github.com/jackc/pgx/v5"
 )
 
 // RegisterChannel is the LISTEN/NOTIFY channel on which the database announces every
@@ -30,27 +33,32 @@ func ParseRegisterPayload(p string) RegisterChange {
 }
 
 // ListenRegister calls ready once it listens on RegisterChannel, then changed after
-// every announced change, until ctx is done or the connection fails. It holds one pooled
-// connection while it listens. A caller that keeps a copy of the register reloads it on
+// every announced change, until ctx is done or the connection fails. It holds one
+// connection of its own (not from the pool) while it listens. A caller that keeps a copy of the register reloads it on
 // ready: what was announced while nobody listened is lost.
 func (s *Store) ListenRegister(ctx context.Context, ready func(), changed func(RegisterChange)) error {
 	return s.listen(ctx, RegisterChannel, ready, func(payload string) { changed(ParseRegisterPayload(payload)) })
 }
 
 // listen calls ready once LISTEN channel holds, then notified with each announcement's
-// payload, until ctx is done or the connection fails.
+// payload, until ctx is done or the connection fails. It listens on a connection of its
+// own, outside the pool, so that listeners never take connections from the calls.
 func (s *Store) listen(ctx context.Context, channel string, ready func(), notified func(payload string)) error {
-	conn, err := s.pool.Acquire(ctx)
+	conn, err := pgx.ConnectConfig(ctx, s.pool.Config().ConnConfig.Copy())
 	if err != nil {
 		return err
 	}
-	defer conn.Release()
+	defer func() {
+		closeCtx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
+		defer cancel()
+		_ = conn.Close(closeCtx)
+	}()
 	if _, err := conn.Exec(ctx, "LISTEN "+channel); err != nil {
 		return err
 	}
 	ready()
 	for {
-		n, err := conn.Conn().WaitForNotification(ctx)
+		n, err := conn.WaitForNotification(ctx)
 		if err != nil {
 			return err
 		}
