@@ -6,10 +6,10 @@ import (
 	"testing"
 )
 
-// TestImportBoundary fails when a domain package (or callctx itself) depends, directly or
+// TestImportBoundary fails when a domain or workflow package (or callctx itself) depends, directly or
 // not, on gRPC, pgx or the service package: those stay at the wire and the store.
 func TestImportBoundary(t *testing.T) {
-	pkgs := []string{"validate", "controls", "substances", "callctx"}
+	pkgs := []string{"validate", "controls", "substances", "callctx", "ledger"}
 	forbidden := []string{"google.golang.org/grpc", "github.com/jackc/pgx", "github.com/halovet/halovet/service", "github.com/halovet/halovet/store"}
 	for _, p := range pkgs {
 		out, err := exec.Command("go", "list", "-deps", "github.com/halovet/halovet/"+p).Output()

@@ -6,10 +6,13 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math/big"
 	"strings"
 	"testing"
 	"time"
 
+	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 	"google.golang.org/grpc"
 	"google.golang.org/protobuf/encoding/protojson"
 
@@ -27,8 +30,10 @@ import (
 //	BenchmarkParseCSVAlone     the CSV reader over the batch, nothing else (baseline of checking)
 //	BenchmarkCheckInProcess    validate over the parsed batch with the server's kind of environment
 //	BenchmarkCheckStreamed     parse + CheckShipments over gRPC on loopback to a real server
+//	BenchmarkCheckUnary        the same records, one CheckShipment call each, over gRPC on loopback
 //	BenchmarkRecordStreamed    parse + RecordShipments: checked, stored, quota drawn, in PostgreSQL
 //	BenchmarkCopyBaseline      plain COPY of the same rows into the shipments table (baseline of recording)
+//	BenchmarkCheckShipmentHandler (bench_unary_test.go) the unary handler in process, without gRPC
 //
 // Each reports records/s for one batch of benchRecords records per iteration. The registry
 // is invented (user-assigned codes; no real country's status is implied) and its quotas are
@@ -327,6 +332,33 @@ func BenchmarkCheckStreamed(b *testing.B) {
 	reportRate(b, total)
 }
 
+// BenchmarkCheckUnary sends the records of BenchmarkCheckStreamed's batch one per unary
+// CheckShipment call, in turn, and reports records (calls) per second: the per-record
+// cost of a unary check beside the streamed one.
+func BenchmarkCheckUnary(b *testing.B) {
+	s := startBenchServer(b)
+	client := halovetv1.NewShipmentServiceClient(s.conn)
+	recs := parseAll(b, benchCSV(benchRecords, "U-"))
+	reqs := make([]*halovetv1.CheckShipmentRequest, len(recs))
+	for i := range recs {
+		reqs[i] = &halovetv1.CheckShipmentRequest{Record: service.RecordToProto(&recs[i])}
+	}
+	ctx := context.Background()
+	b.ReportAllocs()
+	total := 0
+	for i := 0; b.Loop(); i++ {
+		resp, err := client.CheckShipment(ctx, reqs[i%len(reqs)])
+		if err != nil {
+			b.Fatal(err)
+		}
+		if resp.GetVerdict().GetOutcome() == halovetv1.Outcome_OUTCOME_REJECTED {
+			b.Fatalf("record %s rejected: %v", resp.GetVerdict().GetRecordKey(), resp.GetVerdict().GetFindings())
+		}
+		total++
+	}
+	reportRate(b, total)
+}
+
 func BenchmarkRecordStreamed(b *testing.B) {
 	s := startBenchServer(b)
 	client := halovetv1.NewShipmentServiceClient(s.conn)
@@ -389,6 +421,27 @@ func copyRows(b *testing.B, env *validate.Env, data []byte) []store.ShipmentRow 
 	return rows
 }
 
+// copyShipments writes rows with one plain COPY into the shipments table and nothing
+// else: no checks, no locks, no quota; the baseline of the recording benchmark.
+func copyShipments(ctx context.Context, st *store.Store, rows []store.ShipmentRow, firstID int64) error {
+	cols := []string{"shipment_id", "company_id", "record_key", "fingerprint", "direction",
+		"licence_number", "partner_country", "declaration_date", "year", "resolved_designation", "entry_kind",
+		"purpose", "condition", "net_mass_kg", "odp_tonnes", "co2e_tonnes", "counts_in_consumption",
+		"partner_non_party", "record"}
+	numeric := func(n store.Nano) pgtype.Numeric {
+		return pgtype.Numeric{Int: big.NewInt(int64(n)), Exp: -9, Valid: true}
+	}
+	_, err := st.Pool().CopyFrom(ctx, pgx.Identifier{"shipments"}, cols,
+		pgx.CopyFromSlice(len(rows), func(j int) ([]any, error) {
+			r := &rows[j]
+			return []any{firstID + int64(j), r.CompanyID, r.RecordKey, r.Fingerprint, r.Direction, r.LicenceNumber, r.PartnerCountry,
+				r.DeclarationDate, r.DeclarationDate.Year(), r.ResolvedDesignation, r.EntryKind, r.Purpose, r.Condition,
+				numeric(r.NetMassKg), numeric(r.ODPTonnes), numeric(r.CO2eTonnes), r.CountsInConsumption,
+				r.PartnerNonParty, string(r.RecordJSON)}, nil
+		}))
+	return err
+}
+
 func BenchmarkCopyBaseline(b *testing.B) {
 	s := startBenchServer(b)
 	env := s.benchEnv(b)
@@ -400,7 +453,7 @@ func BenchmarkCopyBaseline(b *testing.B) {
 		b.StopTimer()
 		rows := copyRows(b, env, benchCSV(benchRecords, fmt.Sprintf("B%d-", i)))
 		b.StartTimer()
-		if err := s.st.CopyShipmentsBaseline(ctx, rows, nextID); err != nil {
+		if err := copyShipments(ctx, s.st, rows, nextID); err != nil {
 			b.Fatal(err)
 		}
 		nextID += int64(len(rows))

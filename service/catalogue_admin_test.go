@@ -180,7 +180,7 @@ func TestUpsertSubstanceReachesOtherReplicas(t *testing.T) {
 	for {
 		var listening int
 		if err := st.Pool().QueryRow(ctx, `SELECT count(*) FROM pg_stat_activity
-		        WHERE datname = current_database() AND query ILIKE 'LISTEN %'`).Scan(&listening); err != nil {
+		        WHERE datname = current_database() AND query = 'LISTEN halovet_catalogue'`).Scan(&listening); err != nil {
 			t.Fatalf("look for the listener: %v", err)
 		}
 		if listening > 0 {

@@ -41,6 +41,9 @@ func LoadCatalogue(ctx context.Context, st *store.Store, log *slog.Logger) (*Cat
 	if err := st.SyncSeed(ctx, subs, blends); err != nil {
 		return nil, err
 	}
+	if log == nil {
+		log = slog.Default()
+	}
 	h := &CatalogueHolder{log: log}
 	if err := h.Reload(ctx, st); err != nil {
 		return nil, err
@@ -64,7 +67,9 @@ func (h *CatalogueHolder) Reload(ctx context.Context, st *store.Store) error {
 }
 
 // Watch reloads the snapshot whenever a change is announced on the database, until the
-// returned stop function is called or ctx is done. A lost connection is retried.
+// returned stop function is called or ctx is done. A lost connection is retried, and the
+// snapshot is reloaded each time the listener (re)connects, so that a change announced
+// while the connection was down is not missed.
 func (h *CatalogueHolder) Watch(ctx context.Context, st *store.Store) (stop func()) {
 	ctx, cancel := context.WithCancel(ctx)
 	done := make(chan struct{})

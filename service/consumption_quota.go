@@ -13,6 +13,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 )
@@ -217,5 +218,6 @@ func (c *consumptionServer) issueDraft(ctx context.Context, scope controls.Scope
 	if err != nil {
 		return "", toStatus(ctx, c.srv.log, err)
 	}
+	c.srv.registerChanged(ctx, ledger.Change{Licences: []string{num}})
 	return num, nil
 }

@@ -7,6 +7,7 @@ import (
 	"regexp"
 	"time"
 
+	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
@@ -59,6 +60,7 @@ func (l *licensingServer) PutParty(ctx context.Context, req *halovetv1.PutPartyR
 	if err := l.srv.store.PutParty(ctx, sp, actor(ctx)); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
+	l.srv.registerChanged(ctx, ledger.Change{Parties: true})
 	return &halovetv1.PutPartyResponse{Party: partyToProto(sp)}, nil
 }
 
@@ -233,6 +235,7 @@ func (l *licensingServer) IssueLicence(ctx context.Context, req *halovetv1.Issue
 	if err := l.srv.store.IssueLicence(ctx, lic, actor(ctx), req.GetReason()); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
+	l.srv.registerChanged(ctx, ledger.Change{Licences: []string{lic.Number}})
 	got, err := l.srv.store.GetLicence(ctx, lic.Number)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
@@ -248,6 +251,7 @@ func (l *licensingServer) AmendLicence(ctx context.Context, req *halovetv1.Amend
 	if err := l.srv.store.AmendLicence(ctx, lic, actor(ctx), req.GetReason()); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
+	l.srv.registerChanged(ctx, ledger.Change{Licences: []string{lic.Number}})
 	got, err := l.srv.store.GetLicence(ctx, lic.Number)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
@@ -263,6 +267,7 @@ func (l *licensingServer) SetLicenceStatus(ctx context.Context, req *halovetv1.S
 	if err := l.srv.store.SetLicenceStatus(ctx, req.GetLicenceNumber(), st, actor(ctx), req.GetReason()); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
+	l.srv.registerChanged(ctx, ledger.Change{Licences: []string{req.GetLicenceNumber()}})
 	got, err := l.srv.store.GetLicence(ctx, req.GetLicenceNumber())
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)

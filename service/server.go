@@ -12,6 +12,7 @@ import (
 	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 
+	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 )
@@ -41,6 +42,7 @@ type Server struct {
 	health *health.Server
 	cat    *CatalogueHolder
 	m      *metrics
+	env    *ledger.EnvHolder // the check environment, rebuilt on every announced register change
 
 	newerSchemaLogged atomic.Bool // the health probe said once that the schema is newer
 }
@@ -69,6 +71,7 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 		opts.Now = time.Now
 	}
 	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st)}
+	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
 	// Metrics come first, so that they see every call and the status it ends with.
 	s.grpc = grpc.NewServer(append([]grpc.ServerOption{
 		grpc.ChainUnaryInterceptor(append([]grpc.UnaryServerInterceptor{s.m.unary()}, s.unaryInterceptors()...)...),
@@ -96,6 +99,10 @@ func (s *Server) Serve(ctx context.Context, lis net.Listener) error {
 	probeCtx, stopProbe := context.WithCancel(context.Background())
 	defer stopProbe()
 	go s.probeHealth(probeCtx)
+	// The check environment follows the register's announcements until the last call has
+	// finished, and is rebuilt whole each time the listener (re)connects.
+	stopEnvWatch := s.env.Watch(context.Background(), registerSource{s.store})
+	defer stopEnvWatch()
 
 	errc := make(chan error, 1)
 	go func() { errc <- s.grpc.Serve(lis) }()

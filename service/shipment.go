@@ -11,6 +11,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/validate"
@@ -91,6 +92,9 @@ func requestRecords(one *halovetv1.ShipmentRecord, more []*halovetv1.ShipmentRec
 func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckShipmentsServer) error {
 	ctx, cancel := context.WithCancel(stream.Context())
 	defer cancel()
+	// The environment is read at the start, so that a register that cannot be checked
+	// against fails the call before any record is read, and again for every message: a
+	// stream open for hours judges each message against the register as it stands.
 	env, err := x.srv.checkEnv(ctx)
 	if err != nil {
 		return err
@@ -166,6 +170,10 @@ check:
 			checkErr = invalid(fieldViolation{"record", fmt.Sprintf("the message after record %d of the stream carries no record", sum.pb.Records)})
 			break
 		}
+		if env, checkErr = x.srv.checkEnv(ctx); checkErr != nil {
+			break
+		}
+		batch.SetEnv(env)
 		vs := make([]validate.Verdict, len(recs))
 		for i, pb := range recs {
 			r = recordFromProto(pb)
@@ -236,8 +244,10 @@ type incoming struct {
 func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_RecordShipmentsServer) error {
 	ctx, cancel := context.WithCancel(stream.Context())
 	defer cancel()
-	env, err := x.srv.checkEnv(ctx)
-	if err != nil {
+	// Read at the start, so that a register that cannot be checked against fails the call
+	// before any record is read, and again for every record: a stream open for hours
+	// judges each record against the register as it stands.
+	if _, err := x.srv.checkEnv(ctx); err != nil {
 		return err
 	}
 	recv := make(chan incoming, recordFlushSize)
@@ -360,6 +370,10 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 			}
 			return finish(nil)
 		}
+		env, err := x.srv.checkEnv(ctx)
+		if err != nil {
+			return finish(err)
+		}
 		p := &pendingRecord{pb: in.pb, single: in.single, rec: recordFromProto(in.pb)}
 		// Quota is drawn by the store under lock, not by an in-memory ledger.
 		p.verdict = validate.Check(env, &p.rec, nil)
@@ -480,6 +494,18 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 	if err != nil {
 		return toStatus(ctx, s.log, err)
 	}
+	var drawnOn []string // licences whose balances this batch changed
+	for i, r := range res {
+		if r.Status != store.RecordStored {
+			continue
+		}
+		for _, d := range rows[i].Draws {
+			if !slices.Contains(drawnOn, d.LicenceNumber) {
+				drawnOn = append(drawnOn, d.LicenceNumber)
+			}
+		}
+	}
+	s.registerChanged(ctx, ledger.Change{Licences: drawnOn})
 	for i, r := range res {
 		p := idx[i]
 		switch r.Status {

@@ -258,21 +258,10 @@ func (s *Store) UpsertSubstance(ctx context.Context, x *substances.Substance, ac
 	return created, err
 }
 
-// ListenCatalogue calls changed after every announced catalogue change until ctx is
-// done or the connection fails. It holds one pooled connection while it listens.
+// ListenCatalogue calls changed once it listens on CatalogueChannel, then after every
+// announced catalogue change, until ctx is done or the connection fails. It holds one
+// connection of its own (not from the pool) while it listens. The first call, on every (re)connection, lets the
+// caller reload what was announced while nobody listened.
 func (s *Store) ListenCatalogue(ctx context.Context, changed func()) error {
-	conn, err := s.pool.Acquire(ctx)
-	if err != nil {
-		return err
-	}
-	defer conn.Release()
-	if _, err := conn.Exec(ctx, "LISTEN "+CatalogueChannel); err != nil {
-		return err
-	}
-	for {
-		if _, err := conn.Conn().WaitForNotification(ctx); err != nil {
-			return err
-		}
-		changed()
-	}
+	return s.listen(ctx, CatalogueChannel, changed, func(string) { changed() })
 }

@@ -350,17 +350,6 @@ func shipmentValues(id int64, r *ShipmentRow) []any {
 		r.PartnerNonParty, string(r.RecordJSON)}
 }
 
-// CopyShipmentsBaseline writes rows with one plain COPY into the shipments table and
-// nothing else: no checks, no locks, no quota. It exists only as the baseline that the
-// recording benchmark is compared with.
-func (s *Store) CopyShipmentsBaseline(ctx context.Context, rows []ShipmentRow, firstID int64) error {
-	_, err := s.pool.CopyFrom(ctx, pgx.Identifier{"shipments"}, shipmentColumns,
-		pgx.CopyFromSlice(len(rows), func(j int) ([]any, error) {
-			return shipmentValues(firstID+int64(j), &rows[j]), nil
-		}))
-	return err
-}
-
 // StoredFingerprints returns the fingerprints of the (company, key) pairs already stored.
 func (s *Store) StoredFingerprints(ctx context.Context, keys [][2]string) (map[[2]string]string, error) {
 	out := map[[2]string]string{}

@@ -34,6 +34,11 @@ func newBatch(env *Env, window int) *Batch {
 	return &Batch{env: env, ledger: NewMemoryLedger(), seen: NewKeyWindow[seenRecord](window)}
 }
 
+// SetEnv judges the records checked from now on against env (which must pass Validate),
+// as a long stream does when the register changes under it; the quota drawn by earlier
+// records and the keys seen carry over.
+func (b *Batch) SetEnv(env *Env) { b.env = env }
+
 // Ledger returns the batch's quota ledger.
 func (b *Batch) Ledger() *MemoryLedger { return b.ledger }
 

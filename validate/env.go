@@ -245,6 +245,19 @@ func (e *Env) prepare() {
 	})
 }
 
+// ShareIndexes lets e use the indexes derived from the catalogue (parsed formulas, HS
+// subheading counts) that from holds, building them in from first if need be, when both
+// environments hold the same catalogue snapshot. An environment rebuilt for new parties or
+// licences, or narrowed for one caller, then costs no scan of the catalogue. It does
+// nothing when the catalogues differ or e has been used already; call it before e is used.
+func (e *Env) ShareIndexes(from *Env) {
+	if from == nil || from == e || from.Catalogue != e.Catalogue {
+		return
+	}
+	from.prepare()
+	e.once.Do(func() { e.hsCount, e.formulas = from.hsCount, from.formulas })
+}
+
 // formula returns the parsed formula of a catalogue substance.
 func (e *Env) formula(s *substances.Substance) (substances.Formula, bool) {
 	f, ok := e.formulas[s.Designation]
