@@ -11,16 +11,11 @@ import (
 	"testing"
 )
 
-// codecReferenceRows reads /work/shared/reference/halocarbons.csv (or the file named by
-// HALOVET_REFERENCE_DIR) as one map per row. The test is skipped where the reference data
-// is not present; the inline tables below do not depend on it.
+// codecReferenceRows reads testdata/reference/halocarbons.csv as one map per row. A missing
+// or shortened table fails the calling test; the inline tables below do not depend on it.
 func codecReferenceRows(t *testing.T) []map[string]string {
 	t.Helper()
-	dir := codecReferenceDir()
-	fh, err := os.Open(filepath.Join(dir, "halocarbons.csv"))
-	if errors.Is(err, os.ErrNotExist) {
-		t.Skipf("reference data not found in %s (set HALOVET_REFERENCE_DIR)", dir)
-	}
+	fh, err := os.Open(filepath.Join(referenceDir(t), "halocarbons.csv"))
 	if err != nil {
 		t.Fatalf("open reference data: %v", err)
 	}
@@ -41,14 +36,6 @@ func codecReferenceRows(t *testing.T) []map[string]string {
 		rows = append(rows, row)
 	}
 	return rows
-}
-
-// codecReferenceDir is where the shared reference data lives.
-func codecReferenceDir() string {
-	if dir := os.Getenv("HALOVET_REFERENCE_DIR"); dir != "" {
-		return dir
-	}
-	return filepath.Join("..", "..", "shared", "reference")
 }
 
 func TestParseFormulaHill(t *testing.T) {

@@ -403,7 +403,7 @@ func TestMixtureHSReferenceBlends(t *testing.T) {
 	for _, row := range codecReferenceRows(t) {
 		groups[row["designation"]] = Group(row["mp_annex_group"])
 	}
-	fh, err := os.Open(filepath.Join(codecReferenceDir(), "blend_components.csv"))
+	fh, err := os.Open(filepath.Join(referenceDir(t), "blend_components.csv"))
 	if err != nil {
 		t.Fatalf("open blend_components.csv: %v", err)
 	}

@@ -2,6 +2,7 @@ package substances
 
 import (
 	"encoding/csv"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -10,19 +11,23 @@ import (
 	"testing"
 )
 
-// The shared reference data sits beside the repository: ../../shared/reference seen from
-// this package directory (/work/main/substances -> /work/shared/reference; CI keeps a copy of
-// shared/ next to its clone).
-func sharedReferenceDir(t *testing.T) string {
+// referenceDir is the repository's reference data, testdata/reference at the module root
+// (one level up from this package directory, where go test runs). Its README names the
+// published source of every table. The comparison is the point of these tests, so a missing
+// directory or file fails them; it never skips them.
+func referenceDir(t testing.TB) string {
 	t.Helper()
-	dir := filepath.Join("..", "..", "shared", "reference")
-	if _, err := os.Stat(dir); err != nil {
-		t.Logf("!!!!!!!! reference data directory %s not found (%v)", dir, err)
-		t.Logf("!!!!!!!! the catalogue is NOT being compared with the shared reference data")
-		t.Skip("shared reference data absent")
+	dir := filepath.Join("..", "testdata", "reference")
+	for _, name := range referenceFiles {
+		if _, err := os.Stat(filepath.Join(dir, name)); err != nil {
+			t.Fatalf("reference table %s missing (%v): the catalogue cannot be compared with its published sources", name, err)
+		}
 	}
 	return dir
 }
+
+// referenceFiles are the tables of testdata/reference the tests of this package read.
+var referenceFiles = []string{"halocarbons.csv", "blends.csv", "blend_components.csv", "montreal_protocol_annexes.csv"}
 
 // readReference reads a CSV with a header into one map per row, with the 1-based line.
 func readReference(t *testing.T, path string) ([]map[string]string, []int) {
@@ -89,7 +94,7 @@ var halocarbonDifferences = map[string]map[string]string{
 }
 
 func TestReferenceHalocarbons(t *testing.T) {
-	dir := sharedReferenceDir(t)
+	dir := referenceDir(t)
 	c := testCatalogue(t)
 	rows, lines := readReference(t, filepath.Join(dir, "halocarbons.csv"))
 	if len(rows) == 0 {
@@ -189,7 +194,7 @@ func parseTolerances(t *testing.T, s string, n int) []float64 {
 }
 
 func TestReferenceBlends(t *testing.T) {
-	dir := sharedReferenceDir(t)
+	dir := referenceDir(t)
 	c := testCatalogue(t)
 	rows, lines := readReference(t, filepath.Join(dir, "blends.csv"))
 	covered := map[string]bool{}
@@ -304,9 +309,9 @@ var annexListDifferences = map[string]string{
 }
 
 func TestReferenceAnnexList(t *testing.T) {
-	dir := sharedReferenceDir(t)
+	dir := referenceDir(t)
 	c := testCatalogue(t)
-	rows, lines := readReference(t, filepath.Join(dir, "raw", "openclimatedata_montreal_protocol_controlled_substances.csv"))
+	rows, lines := readReference(t, filepath.Join(dir, "montreal_protocol_annexes.csv"))
 	groupOf := map[string]string{"Group I": "I", "Group II": "II", "Group III": "III"}
 	matched := map[string]int{} // catalogue designation -> row line
 	seenDiff := map[string]bool{}
@@ -416,4 +421,69 @@ func hasName(s *Substance, text string) bool {
 		}
 	}
 	return false
+}
+
+// TestReferenceReadme checks that testdata/reference/README.md describes every table in the
+// directory and names every source code the tables' source columns use, so that no value in
+// them rests on an unexplained abbreviation.
+func TestReferenceReadme(t *testing.T) {
+	dir := referenceDir(t)
+	raw, err := os.ReadFile(filepath.Join(dir, "README.md"))
+	if err != nil {
+		t.Fatalf("the reference tables need their README with the sources: %v", err)
+	}
+	readme := string(raw)
+	tables, err := filepath.Glob(filepath.Join(dir, "*.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range tables {
+		if name := filepath.Base(p); !strings.Contains(readme, "`"+name+"`") {
+			t.Errorf("README.md does not describe %s", name)
+		}
+	}
+	codes := map[string]string{} // code -> where it was first seen
+	addCodes := func(file, col string, line int, cell string) {
+		if _, after, ok := strings.Cut(cell, "read in:"); ok {
+			cell = after // "Montreal Protocol Annex C Group I; read in: MP-DE, ..."
+		}
+		for _, tok := range strings.FieldsFunc(cell, func(r rune) bool { return strings.ContainsRune("+,;[]", r) }) {
+			tok = strings.TrimSpace(tok)
+			if _, after, ok := strings.Cut(tok, ": "); ok {
+				tok = after // "AR4: KIG-A"
+			}
+			tok, _, _ = strings.Cut(tok, "=") // "US-40CFR82A=0.7"
+			tok = strings.TrimSuffix(tok, "(range)")
+			if tok == "" || tok == "n/a" || strings.Contains(tok, " ") || strings.HasPrefix(tok, "memory") {
+				continue // free text, not a code
+			}
+			if _, seen := codes[tok]; !seen {
+				codes[tok] = fmt.Sprintf("%s line %d, %s", file, line, col)
+			}
+		}
+	}
+	for file, cols := range map[string][]string{
+		"halocarbons.csv": {"source_odp", "source_gwp", "source_lifetime", "cas_sources"},
+		"blends.csv":      {"gwp_ar4_published_source", "source_composition"},
+	} {
+		rows, lines := readReference(t, filepath.Join(dir, file))
+		for i, row := range rows {
+			for _, col := range cols {
+				cell, ok := row[col]
+				if !ok {
+					t.Fatalf("%s has no column %s", file, col)
+				}
+				addCodes(file, col, lines[i], cell)
+			}
+		}
+	}
+	if len(codes) < 20 {
+		t.Fatalf("found only %d source codes in the tables; the parsing above no longer matches them", len(codes))
+	}
+	for code, where := range codes {
+		base, _, _ := strings.Cut(code, "(") // "US-EPA-CL2-2008(WMO2006)" is explained under its base code
+		if !strings.Contains(readme, code) && !strings.Contains(readme, base) {
+			t.Errorf("source code %q (%s) is not explained in README.md", code, where)
+		}
+	}
 }
