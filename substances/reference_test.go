@@ -140,7 +140,7 @@ func TestReferenceHalocarbons(t *testing.T) {
 		check("lifetime_years", sameNumber(row["lifetime_years"], s.Lifetime, s.Lifetime > 0), s.Lifetime)
 		if mm, err := strconv.ParseFloat(row["molar_mass_g_mol"], 64); err == nil {
 			// The reference rounds to 3 decimals and may use more digits of F; the catalogue uses the
-			// abridged weights of DOMAIN.md §3.
+			// IUPAC abridged standard atomic weights.
 			check("molar_mass_g_mol", math.Abs(mm-s.MolarMass) < 0.01, s.MolarMass)
 		}
 	}
@@ -231,8 +231,8 @@ func TestReferenceBlends(t *testing.T) {
 			}
 
 			ev := mustEvaluate(t, c, name, 1)
-			// HFC + PFC sum, the convention of the published national tables (reference SOURCES.md
-			// §3-4). PFCs are not Annex F, so this is not the catalogue's annex-f-only figure:
+			// HFC + PFC sum, the convention of the published national tables (UK government CO2e
+			// table; testdata/reference/README.md). PFCs are not Annex F, so this is not the catalogue's annex-f-only figure:
 			// computed here from the catalogue's component AR4 values.
 			hfcPFC, hasPFC := 0.0, false
 			for _, comp := range b.Components {
@@ -299,7 +299,7 @@ func TestReferenceBlends(t *testing.T) {
 // right for a documented reason: treaty formula + "/" + field -> reason and source.
 var annexListDifferences = map[string]string{
 	"C3H2F5Br/odp": "the extraction reads 0.9-1.4; EU Regulation 1005/2009 Annex I gives the upper value 14 " +
-		"(raw/README.md, from memory there); the catalogue uses 0.9-14 and says so in its note",
+		"(from memory; testdata/reference/README.md); the catalogue uses 0.9-14 and says so in its note",
 	"C2HF3Cl2/name": "the Annex names the group row and the listed isomer CHCl2CF3 both HCFC-123; the catalogue " +
 		"calls the group 'HCFC-123 (isomer group)' so that each name identifies one entry",
 	"C2HF4Cl/name": "as for C2HF3Cl2: the group is 'HCFC-124 (isomer group)'",
@@ -392,10 +392,10 @@ func TestReferenceAnnexList(t *testing.T) {
 			check("name", ok, s.Designation)
 		}
 	}
-	// source: DOMAIN.md §2 counts of the Annex entries
+	// source: counts of the entries of Montreal Protocol Annexes A-F (Ozone Secretariat Handbook 2019)
 	for g, n := range map[Group]int{GroupAI: 5, GroupAII: 3, GroupBI: 10, GroupBII: 1, GroupBIII: 1, GroupCI: 40, GroupCII: 34, GroupCIII: 1, GroupEI: 1, GroupFI: 17, GroupFII: 1} {
 		if perGroup[g] != n {
-			t.Errorf("the Handbook list has %d %s rows, DOMAIN.md says %d", perGroup[g], g, n)
+			t.Errorf("the Handbook list has %d %s rows, the Annex has %d entries", perGroup[g], g, n)
 		}
 	}
 	for _, s := range c.Substances() {
