@@ -123,7 +123,7 @@ func TestUpsertSubstanceRejects(t *testing.T) {
 		reason string
 		field  string
 	}{
-		// HFC-134a decodes by the ASHRAE 34 rule to C2H2F4 (ASHRAE 34 / ISO 817 numbering); CH2F2 is HFC-32.
+		// HFC-134a decodes by the ASHRAE 34 / ISO 817 number + 90 rule to C2H2F4; CH2F2 is HFC-32.
 		{"designation and formula disagree", func(s *halovetv1.Substance) { s.Formula, s.Structure = "CH2F2", "" }, "fix", "substance.designation"},
 		// 811-97-2 is HFC-134a's CAS number (testdata/reference/halocarbons.csv); the check digit of 811-97 is 2.
 		{"CAS check digit wrong", func(s *halovetv1.Substance) { s.CasNumber = "811-97-3" }, "fix", "substance.cas_number"},

@@ -101,7 +101,8 @@ func TestLookupTextBlend(t *testing.T) {
 	lookupLineMatching(t, s, `^\s+MP \(Protocol annex values\)\s+—\s+2088 \(2087\.5\)$`)
 	lookupMustContain(t, s, "all components", "Annex F only (as the Protocol counts)", decisionSupportNotice)
 	// The HS 2022 mixture subheading of an HFC-32/HFC-125 blend rests on partly verified
-	// wording (thresholds of 3827.62-3827.65 not confirmed in the WCO text), so it is left undecided with the reason.
+	// wording (thresholds of 3827.62-3827.65 not confirmed in the WCO text), so it is left
+	// undecided with the reason.
 	lookupLineMatching(t, s, `^\s+HS 2022\s+not decided`)
 }
 
