@@ -24,20 +24,20 @@ func TestBaselineODS(t *testing.T) {
 	}{
 		{
 			// 1989 HCFC 71.5 + 2.8 % × 1989 CFC 4500 = 197.5 ODP t
-			// (rule: Art. 2F para 1; CONTROL_RULES §3, S4 [V]).
+			// (rule: Art. 2F para 1).
 			name: "non-A5 HCFC: 1989 + 2.8 % of 1989 CFCs", records: nonA5History(), party: partyNonA5, scope: ScopeCI,
 			wantYears: []YearAmount{{1989, 71.5, true}}, wantMean: 71.5, wantCFC: 126, wantValue: 197.5,
 			wantRule: "Art. 2F para 1 [V]",
 		},
 		{
 			// (165 + 162.1) / 2 = 163.55 ODP t, used imports of 2010 counted
-			// (rule: Art. 5 para 8 ter (a); Decision IV/24 para 2; CONTROL_RULES §3, S4 [V]).
+			// (rule: Art. 5 para 8 ter (a); Decision IV/24 para 2).
 			name: "A5 HCFC: mean 2009–2010", records: a5History(), party: partyA5G1, scope: ScopeCI,
 			wantYears: []YearAmount{{2009, 165, true}, {2010, 162.1, true}}, wantMean: 163.55, wantValue: 163.55,
 			wantRule: "Art. 5 para 8 ter (a) [V]",
 		},
 		{
-			// Non-A5 CFC baseline is 1986 (Art. 2A; CONTROL_RULES §3 [V]): 1986 CFC-11
+			// Non-A5 CFC baseline is 1986 (Art. 2A): 1986 CFC-11
 			// imports 500 t → 500 ODP t (invented data).
 			name:    "non-A5 CFCs: 1986",
 			records: []Record{rec(1986, cfc11, Flows{Imports: 500})}, party: partyNonA5, scope: ScopeAI,
@@ -46,7 +46,7 @@ func TestBaselineODS(t *testing.T) {
 		},
 		{
 			// A5 methyl bromide baseline is the 1995–1998 mean (Art. 5 para 8 ter (g);
-			// CONTROL_RULES §3 [V]): imports 100, 120, 140, 160 t less QPS 20 t each year →
+			// QPS left out under para 8 ter (g)(iv)): imports 100, 120, 140, 160 t less QPS 20 t each year →
 			// 80, 100, 120, 140 t × 0.6 = 48, 60, 72, 84 ODP t; mean 66 ODP t (invented data).
 			name: "A5 methyl bromide: mean 1995–1998, QPS excluded",
 			records: []Record{
@@ -91,7 +91,7 @@ func TestBaselineODS(t *testing.T) {
 }
 
 // TestBaselineA5UsedCounted: the used-import exclusion does not apply to an Article 5
-// Party's base years (Decision IV/24 para 2; CONTROL_RULES §1 [V]); a non-A5 Party's base
+// Party's base years (Decision IV/24 para 2); a non-A5 Party's base
 // year leaves them out. Arithmetic in history_test.go (invented data).
 func TestBaselineA5UsedCounted(t *testing.T) {
 	rb := mustRulebook(t)
@@ -118,7 +118,7 @@ func TestBaselineA5UsedCounted(t *testing.T) {
 // TestBaselineHFC checks HFC baselines in CO2-eq with the HCFC component recomputed from
 // base-year tonnages with the Kigali GWPs (HCFC-22 1810, HCFC-141b 725, HCFC-142b 2310;
 // CFC-11 4750, CFC-12 10900; source: Montreal Protocol Annex C/Annex A Group I GWP columns
-// (Kigali), CONTROL_RULES §2 [V]). Arithmetic in history_test.go (invented data).
+// (Kigali Amendment), equal to IPCC AR4 WG1 Table 2.14). Arithmetic in history_test.go (invented data).
 func TestBaselineHFC(t *testing.T) {
 	rb := mustRulebook(t)
 	tests := []struct {
@@ -135,14 +135,14 @@ func TestBaselineHFC(t *testing.T) {
 	}{
 		{
 			// mean 2011–2013 1 923 166.667 + 15 % × 2 630 800 (= 394 620) = 2 317 786.667
-			// (Art. 2J para 1; CONTROL_RULES §3, S3 S5 S6 [V]).
+			// (Art. 2J para 1).
 			name: "non-A5: 2011–2013 + 15 %", records: nonA5History(), party: partyNonA5,
 			wantMean: 1923166.667, wantHCFC: 2630800, wantHCFCCFC: 856800, wantShare: 0.15,
 			wantComponent: 394620, wantValue: 2317786.667,
 			wantRule: "Art. 2J para 1 [V]",
 		},
 		{
-			// + 25 % × 2 630 800 (= 657 700) = 2 580 866.667 (Art. 2J para 2; CONTROL_RULES §3 [V]).
+			// + 25 % × 2 630 800 (= 657 700) = 2 580 866.667 (Art. 2J para 2).
 			name: "non-A5 variant: 2011–2013 + 25 %", records: nonA5History(), party: partyNonA5Variant,
 			wantMean: 1923166.667, wantHCFC: 2630800, wantHCFCCFC: 856800, wantShare: 0.25,
 			wantComponent: 657700, wantValue: 2580866.667,
@@ -150,7 +150,7 @@ func TestBaselineHFC(t *testing.T) {
 		},
 		{
 			// mean 2020–2022 5 654 333.333 + 65 % × 4 082 950 (= 2 653 917.5) = 8 308 250.833
-			// (Art. 5 para 8 qua (c); CONTROL_RULES §3, S3 S8 [V]).
+			// (Art. 5 para 8 qua (c)).
 			name: "A5 Group 1: 2020–2022 + 65 %", records: a5History(), party: partyA5G1,
 			wantMean: 5654333.333, wantHCFC: 4082950, wantShare: 0.65,
 			wantComponent: 2653917.5, wantValue: 8308250.833,
@@ -183,7 +183,7 @@ func TestBaselineHFC(t *testing.T) {
 }
 
 // TestBaselineZeroGWPNote: an HCFC without a listed GWP counts as 0 in the CO2-eq HCFC
-// component (Annex C footnote; CONTROL_RULES §2 [V]), and the baseline says so. Data
+// component (Annex C footnote), and the baseline says so. Data
 // invented: non-A5 1989 HCFC-22 100 t (181 000), HCFC-31 50 t (0), CFC-11 0 t (a zero
 // record); HFCs 2011–2013 HFC-32 100 t each (67 500). Baseline 67 500 + 15 % × 181 000 =
 // 67 500 + 27 150 = 94 650 CO2-eq t.
@@ -236,7 +236,7 @@ func TestBaselineMissing(t *testing.T) {
 			want: []Gap{{ScopeAI, 1989, "HCFC component, CFC term"}},
 		},
 		{
-			// Group 2 base years 2024–2026 (CONTROL_RULES §3 [V]) have no HFC data here.
+			// Group 2 base years 2024–2026 (Ozone Secretariat Annex F control summary) have no HFC data here.
 			name: "A5 Group 2 HFC with no 2024–2026 data", records: a5History(), party: partyA5G2, scope: ScopeF,
 			want: []Gap{{ScopeF, 2024, ""}, {ScopeF, 2025, ""}, {ScopeF, 2026, ""}},
 		},

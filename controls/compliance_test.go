@@ -13,7 +13,7 @@ func hasNote(notes []string, sub string) bool {
 
 // TestAssessYears compares consumption with the allowed level, one year per case.
 // Consumption and baselines: history_test.go (worked example, invented data).
-// Percentages: CONTROL_RULES §4 [V], as cited per case.
+// Percentages: the control measures of the Montreal Protocol, the article cited per case.
 func TestAssessYears(t *testing.T) {
 	rb := mustRulebook(t)
 	tests := []struct {
@@ -31,7 +31,7 @@ func TestAssessYears(t *testing.T) {
 		wantNote     string
 	}{
 		{
-			// Non-A5 HCFC 2015: 10 % (Art. 2F; CONTROL_RULES §4a [V]) × 197.5 = 19.75 ODP t;
+			// Non-A5 HCFC 2015: 10 % (Art. 2F) × 197.5 = 19.75 ODP t;
 			// consumption 17.6 → headroom 2.15.
 			name: "non-A5 HCFC 2015 (10 %)", records: nonA5History(), party: partyNonA5, scope: ScopeCI, year: 2015, tol: tolODP,
 			wantPercent: 10, wantAllowed: 19.75, wantCons: 17.6, wantHeadroom: 2.15, wantOutcome: Within,
@@ -39,48 +39,48 @@ func TestAssessYears(t *testing.T) {
 		},
 		{
 			// Non-A5 HCFC 2025: step 0, annual servicing cap 0.5 % for 2020–2029 (Art. 2F paras 1 and 3-6;
-			// CONTROL_RULES §4a and correction 4 [V]) × 197.5 = 0.9875 ODP t; consumption 1.1
+			// para 6: an annual cap, not an average) × 197.5 = 0.9875 ODP t; consumption 1.1
 			// (exports to a non-Party not deducted) → headroom −0.1125: exceeded.
 			name: "non-A5 HCFC 2025 (servicing cap 0.5 %)", records: nonA5History(), party: partyNonA5, scope: ScopeCI, year: 2025, tol: tolODP,
 			wantPercent: 0.5, wantAllowed: 0.9875, wantCons: 1.1, wantHeadroom: -0.1125, wantOutcome: Exceeded,
 			wantNote: "annual servicing cap 2020–2029",
 		},
 		{
-			// Non-A5 HCFC 2030: 0 % (CONTROL_RULES §4a [V]); reported zero → headroom 0: within.
+			// Non-A5 HCFC 2030: 0 % (Art. 2F para 6); reported zero → headroom 0: within.
 			name: "non-A5 HCFC 2030 (0 %)", records: nonA5History(), party: partyNonA5, scope: ScopeCI, year: 2030, tol: tolODP,
 			wantPercent: 0, wantAllowed: 0, wantCons: 0, wantHeadroom: 0, wantOutcome: Within,
 			wantNote: "step in force: 0 % of baseline from 2020",
 		},
 		{
-			// A5 HCFC 2025: 32.5 % (Art. 5 para 8 ter (a)-(e); CONTROL_RULES §4b [V]) × 163.55 =
+			// A5 HCFC 2025: 32.5 % (Art. 5 para 8 ter (a)-(e)) × 163.55 =
 			// 53.15375 ODP t; consumption 49.5 (used imports not counted) → headroom 3.65375.
 			name: "A5 HCFC 2025 (32.5 %)", records: a5History(), party: partyA5G1, scope: ScopeCI, year: 2025, tol: tolODP,
 			wantPercent: 32.5, wantAllowed: 53.15375, wantCons: 49.5, wantHeadroom: 3.65375, wantOutcome: Within,
 			wantNote: "32.5 % of baseline from 2025 (Art. 5 para 8 ter (a)-(e)",
 		},
 		{
-			// Non-A5 HFC 2024: 60 % (Art. 2J para 1; CONTROL_RULES §4a [V]) × 2 317 786.667 =
+			// Non-A5 HFC 2024: 60 % (Art. 2J para 1) × 2 317 786.667 =
 			// 1 390 672 t CO2-eq; consumption 1 136 000 → headroom 254 672.
 			name: "non-A5 HFC 2024 (60 %)", records: nonA5History(), party: partyNonA5, scope: ScopeF, year: 2024, tol: tolCO2e,
 			wantPercent: 60, wantAllowed: 1390672, wantCons: 1136000, wantHeadroom: 254672, wantOutcome: Within,
 			wantNote: "Art. 2J para 1",
 		},
 		{
-			// Non-A5 variant HFC 2025: 65 % (Art. 2J para 2; CONTROL_RULES §4a [V]) ×
+			// Non-A5 variant HFC 2025: 65 % (Art. 2J para 2) ×
 			// 2 580 866.667 = 1 677 563.333; consumption 1 430 000 → headroom 247 563.333.
 			name: "non-A5 variant HFC 2025 (65 %)", records: nonA5History(), party: partyNonA5Variant, scope: ScopeF, year: 2025, tol: tolCO2e,
 			wantPercent: 65, wantAllowed: 1677563.333, wantCons: 1430000, wantHeadroom: 247563.333, wantOutcome: Within,
 			wantNote: "Art. 2J para 2",
 		},
 		{
-			// A5 Group 1 HFC 2029: 90 % (Annex F control summary; CONTROL_RULES §4b [V]) ×
+			// A5 Group 1 HFC 2029: 90 % (Annex F control summary) ×
 			// 8 308 250.833 = 7 477 425.75; consumption 6 017 500 → headroom 1 459 925.75.
 			name: "A5 Group 1 HFC 2029 (90 %)", records: a5History(), party: partyA5G1, scope: ScopeF, year: 2029, tol: tolCO2e,
 			wantPercent: 90, wantAllowed: 7477425.75, wantCons: 6017500, wantHeadroom: 1459925.75, wantOutcome: Within,
 			wantNote: "step in force: 90 % of baseline from 2029",
 		},
 		{
-			// Non-A5 CFCs 2016: 0 % from 1996 (Art. 2A; CONTROL_RULES §4a [V]); no baseline
+			// Non-A5 CFCs 2016: 0 % from 1996 (Art. 2A); no baseline
 			// needed. CFC-11 imports 2 t → 2 ODP t → headroom −2 (invented data).
 			name: "non-A5 CFCs 2016 (0 %, no baseline needed)", records: []Record{rec(2016, cfc11, Flows{Imports: 2})},
 			party: partyNonA5, scope: ScopeAI, year: 2016, tol: tolODP,
@@ -88,8 +88,8 @@ func TestAssessYears(t *testing.T) {
 			wantNote: "essential uses are exempted",
 		},
 		{
-			// A5 CFCs 2016: 0 % from 2010, status P (CONTROL_RULES §4b: the 2010 step is from
-			// memory of the Secretariat summary). Reported zero → within; the note flags the
+			// A5 CFCs 2016: 0 % from 2010, status P (Art. 5 paras 1 and 8 bis; the 2010 step is from
+			// memory of the Ozone Secretariat's summary of control measures). Reported zero → within; the note flags the
 			// status (invented data).
 			name: "A5 CFCs 2016 (0 %, status P)", records: []Record{rec(2016, cfc12, Flows{})},
 			party: partyA5G1, scope: ScopeAI, year: 2016, tol: tolODP,
@@ -97,7 +97,7 @@ func TestAssessYears(t *testing.T) {
 			wantNote: "rule status P: partially verified",
 		},
 		{
-			// Non-A5 methyl bromide 2016: 0 % from 2005 (Art. 2H; CONTROL_RULES §4a [V]); imports
+			// Non-A5 methyl bromide 2016: 0 % from 2005 (Art. 2H); imports
 			// 50 t all used for QPS → 0 ODP t (QPS excluded): within (invented data).
 			name: "non-A5 methyl bromide 2016, all QPS", records: []Record{rec(2016, mbr, Flows{Imports: 50, QPS: 50})},
 			party: partyNonA5, scope: ScopeEI, year: 2016, tol: tolODP,
@@ -136,8 +136,8 @@ func TestAssessYears(t *testing.T) {
 }
 
 // TestAssessPeriodAverage: A5 HCFC 2030–2039, the ten-year mean may reach 2.5 % of the
-// baseline; a single year may exceed it (Art. 5 para 8 ter (a)-(e); CONTROL_RULES §4b and
-// correction 5 [V]). Baseline 163.55 ODP t (history_test.go, invented data):
+// baseline; a single year may exceed it (Art. 5 para 8 ter (a)-(e): the sum
+// over the ten years divided by ten). Baseline 163.55 ODP t (history_test.go, invented data):
 // 2.5 % = 4.08875 ODP t a year; budget 10 × 4.08875 = 40.8875 ODP t.
 func TestAssessPeriodAverage(t *testing.T) {
 	rb := mustRulebook(t)
@@ -240,7 +240,7 @@ func TestAssessNotAssessed(t *testing.T) {
 		year    int
 		note    string
 	}{
-		// Non-A5 HCFC control starts 1996 (Art. 2F para 1; CONTROL_RULES §4a [V]).
+		// Non-A5 HCFC control starts 1996 (Art. 2F para 1).
 		{"before the first step", nonA5History(), partyNonA5, ScopeCI, 1990, "no control step"},
 		{"no data for the year", nonA5History(), partyNonA5, ScopeCI, 2016, "no data: no record for C/I (HCFCs) in 2016"},
 		{"baseline incomplete", without(a5History(), 2010, ScopeCI), partyA5G1, ScopeCI, 2025, "baseline incomplete: C/I 2010"},
@@ -298,16 +298,16 @@ func TestAllowedLevel(t *testing.T) {
 		want    float64
 		wantErr error
 	}{
-		// 0.5 % × 197.5 = 0.9875 ODP t (Art. 2F paras 1 and 3-6; CONTROL_RULES §4a [V]; history_test.go).
+		// 0.5 % × 197.5 = 0.9875 ODP t (Art. 2F paras 1 and 3-6; history_test.go).
 		{"non-A5 HCFC 2026 servicing cap", nonA5History(), partyNonA5, ScopeCI, 2026, tolODP, 0.9875, nil},
-		// 90 % × 8 308 250.833 = 7 477 425.75 (CONTROL_RULES §4b [V]; history_test.go).
+		// 90 % × 8 308 250.833 = 7 477 425.75 (Art. 5 para 8 qua; Ozone Secretariat Annex F control summary; history_test.go).
 		{"A5 Group 1 HFC 2030", a5History(), partyA5G1, ScopeF, 2030, tolCO2e, 7477425.75, nil},
-		// 2.5 % × 163.55 = 4.08875, the period's mean level (CONTROL_RULES §4b [V]).
+		// 2.5 % × 163.55 = 4.08875, the period's mean level (Art. 5 para 8 ter (e)).
 		{"A5 HCFC 2035 period mean level", a5History(), partyA5G1, ScopeCI, 2035, tolODP, 4.08875, nil},
-		// 0 % from 2030 (CONTROL_RULES §4a [V]); no baseline needed.
+		// 0 % from 2030 (Art. 2F para 6); no baseline needed.
 		{"non-A5 HCFC 2031 zero", nonA5History(), partyNonA5, ScopeCI, 2031, tolODP, 0, nil},
 		{"incomplete baseline", without(a5History(), 2009, ScopeCI), partyA5G1, ScopeCI, 2025, 0, 0, ErrIncompleteBaseline},
-		// A5 Group 2 HFC control starts 2028 (CONTROL_RULES §4b [V]).
+		// A5 Group 2 HFC control starts 2028 (Art. 5 para 8 qua; Ozone Secretariat Annex F control summary).
 		{"no step yet", a5History(), partyA5G2, ScopeF, 2027, 0, 0, ErrNoRule},
 	}
 	for _, tc := range tests {

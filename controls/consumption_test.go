@@ -8,7 +8,8 @@ import (
 	"github.com/halovet/halovet/substances"
 )
 
-// TestCalculateFlows checks the consumption formula (CONTROL_RULES §1 [V]) flow by flow.
+// TestCalculateFlows checks the consumption formula (Art. 1 paras 5-6, Art. 3 para 1;
+// Decisions IV/24, VII/30 and X/14; Art. 2H para 6 for QPS) flow by flow.
 // All quantities are a worked example, invented data.
 func TestCalculateFlows(t *testing.T) {
 	tests := []struct {
@@ -23,7 +24,8 @@ func TestCalculateFlows(t *testing.T) {
 		{
 			// Exports above production + imports: 10 − 25 = −15 t; −15 × 0.055 = −0.825 ODP t;
 			// HCFC-141b destroyed from stock: −5 t × 0.11 = −0.55 ODP t. Group: −1.375 ODP t.
-			// Negative consumption is reported, never clamped (CONTROL_RULES §1, S16, S17 [V]).
+			// Negative consumption is reported, never clamped (Art. 1 para 5 deducts destruction; the
+			// Ozone Secretariat's data centre and the European Environment Agency publish negative figures).
 			name: "negative consumption",
 			records: []Record{
 				rec(2016, hcfc22, Flows{Imports: 10, Exports: 25}),
@@ -33,21 +35,21 @@ func TestCalculateFlows(t *testing.T) {
 		},
 		{
 			// Imports 100 t of CCl4, of which 40 t used entirely as feedstock: 100 − 40 = 60 t;
-			// 60 × 1.1 = 66 ODP t (Art. 1 para 5, Decision VII/30; CONTROL_RULES §1 [V]).
+			// 60 × 1.1 = 66 ODP t (Art. 1 para 5, Decision VII/30).
 			name:    "feedstock imports excluded",
 			records: []Record{rec(2016, ccl4, Flows{Imports: 100, Feedstock: 40})},
 			group:   substances.GroupBII, wantT: 60, wantODP: 66,
 		},
 		{
 			// Production 100, exports to Parties 30, exports to non-Parties 20 (not deducted):
-			// 100 − 30 = 70 t; 70 × 0.055 = 3.85 ODP t (Art. 3 para 1(c); CONTROL_RULES §1 [V]).
+			// 100 − 30 = 70 t; 70 × 0.055 = 3.85 ODP t (Art. 3 para 1(c)).
 			name:    "exports to non-Parties not deducted",
 			records: []Record{rec(2016, hcfc22, Flows{Production: 100, Exports: 30, ExportsNonParty: 20})},
 			group:   substances.GroupCI, wantT: 70, wantODP: 3.85, wantCO2e: 70 * 1810,
 		},
 		{
 			// Methyl bromide imports 100 t, 70 t used for QPS: 30 t × 0.6 = 18 ODP t
-			// (Art. 2H para 6; CONTROL_RULES §1 [V]).
+			// (Art. 2H para 6).
 			name:    "QPS excluded for methyl bromide",
 			records: []Record{rec(2016, mbr, Flows{Imports: 100, QPS: 70})},
 			group:   substances.GroupEI, wantT: 30, wantODP: 18,
@@ -113,7 +115,7 @@ func TestCalculateSubstanceBreakdown(t *testing.T) {
 	if len(g.Substances) != 2 || g.Substances[0].Substance.Designation != "HCFC-141b" {
 		t.Fatalf("substances not sorted by designation: %+v", g.Substances)
 	}
-	near(t, "HCFC-141b ODP t", g.Substances[0].ODPTonnes, 1.1, tolODP) // 10 × 0.11, CONTROL_RULES §2 ODP
+	near(t, "HCFC-141b ODP t", g.Substances[0].ODPTonnes, 1.1, tolODP) // 10 × 0.11, MP Annex C Group I ODP
 	near(t, "HCFC-22 ODP t", g.Substances[1].ODPTonnes, 5.5, tolODP)   // 100 × 0.055
 	near(t, "group ODP t", g.ODPTonnes, 6.6, tolODP)
 	if _, ok := c.Amount(2016, ScopeCI, Unit("kg")); ok {
@@ -125,10 +127,10 @@ func TestCalculateSubstanceBreakdown(t *testing.T) {
 }
 
 // TestBlendCountedPerComponent: R-402A is HFC-125/R-290/HCFC-22 60/2/38 % by mass (source:
-// /work/shared/reference/blend_components.csv, ASHRAE 34 composition). Importing 10 t counts
+// ASHRAE 34 composition, testdata/reference/blend_components.csv). Importing 10 t counts
 // 3.8 t HCFC-22 in C/I (3.8 × 0.055 = 0.209 ODP t) and 6 t HFC-125 in F/I (6 × 3500 = 21 000
-// t CO2-eq); propane is not controlled (DOMAIN.md §3: a mixture counts per controlled
-// component in its own group). Import quantity: worked example, invented data.
+// t CO2-eq); propane is not controlled (Art. 1 para 4: a controlled substance counts
+// alone or in a mixture, so each controlled component counts in its own group). Import quantity: worked example, invented data.
 func TestBlendCountedPerComponent(t *testing.T) {
 	r402a := []substances.Component{{Designation: "HFC-125", MassPct: 60}, {Designation: "R-290", MassPct: 2}, {Designation: "HCFC-22", MassPct: 38}}
 	parts, err := SplitMass(10, r402a)
@@ -225,7 +227,7 @@ func TestParseScope(t *testing.T) {
 	}{
 		{"C/I", ScopeCI, false},
 		{" b/iii ", ScopeBIII, false},
-		{"F/II", ScopeF, false}, // Annex F is controlled as a whole (Art. 2J para 1; CONTROL_RULES §4a [V])
+		{"F/II", ScopeF, false}, // Annex F is controlled as a whole (Art. 2J para 1)
 		{"F", ScopeF, false},
 		{"D/I", "", true},
 		{"", "", true},
@@ -245,13 +247,13 @@ func TestParseScope(t *testing.T) {
 		t.Error("ScopeOf maps groups wrongly")
 	}
 	if ScopeF.Unit() != UnitCO2eTonnes || ScopeCI.Unit() != UnitODPTonnes {
-		t.Error("Annex F is compared in CO2-eq t, Annexes A–E in ODP t (Art. 3; CONTROL_RULES §2 [V])")
+		t.Error("Annex F is compared in CO2-eq t, Annexes A–E in ODP t (Art. 3)")
 	}
 }
 
 // TestSubstanceOf takes the Protocol GWP (SetProtocol) and ignores other GWP sets.
-// HCFC-22: ODP 0.055, Protocol GWP 1810 (CONTROL_RULES §2 [V]); AR5 1760 (reference
-// halocarbons.csv gwp100_ar5).
+// HCFC-22: ODP 0.055, Protocol GWP 1810 (MP Annex C Group I, Kigali GWP column); AR5 1760
+// (IPCC AR5 WG1 Table 8.A.1; testdata/reference/halocarbons.csv gwp100_ar5).
 func TestSubstanceOf(t *testing.T) {
 	s := &substances.Substance{Designation: "HCFC-22", Group: substances.GroupCI, ODP: 0.055,
 		GWP: map[substances.GWPSet]float64{substances.SetProtocol: 1810, substances.SetAR5: 1760}}

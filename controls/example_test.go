@@ -8,7 +8,7 @@ import (
 )
 
 // A non-Article 5 Party's HCFC figures (worked example, invented data; ODPs from
-// CONTROL_RULES §2 [V]): baseline 1989 HCFC-22 900 t × 0.055 = 49.5 ODP t + 2.8 % of 1989
+// MP Annexes A and C): baseline 1989 HCFC-22 900 t × 0.055 = 49.5 ODP t + 2.8 % of 1989
 // CFC-11 1000 ODP t = 28 → 77.5 ODP t; 2025 servicing cap 0.5 % = 0.3875 ODP t against
 // 2025 HCFC-22 5 t × 0.055 = 0.275 ODP t.
 func ExampleRulebook_Assess() {

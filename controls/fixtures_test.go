@@ -2,10 +2,9 @@ package controls
 
 import (
 	"encoding/csv"
-	"errors"
-	"io/fs"
 	"math"
 	"os"
+	"path/filepath"
 	"strconv"
 	"testing"
 
@@ -20,23 +19,25 @@ const (
 	tolT    = 1e-9  // metric t, for exact splits
 )
 
-// Substance factors used by the tests. ODPs: CONTROL_RULES §2 "ODPs (Protocol values)",
-// source S18 [V] (also DOMAIN.md §2). GWPs: CONTROL_RULES §2, Kigali GWP columns of Annex A
-// Group I, Annex C Group I and Annex F, sources S18/S19/S20 [V].
+// Substance factors used by the tests. ODPs: the ODP columns of Montreal Protocol Annexes A,
+// B, C and E (Ozone Secretariat Handbook 2019). GWPs: the 100-year GWP columns the Kigali
+// Amendment added to Annex A Group I, Annex C Group I and Annex F (equal to IPCC AR4 WG1
+// Table 2.14); a substance with no GWP listed counts 0 (Annex C footnote). Every value is
+// checked against testdata/reference/halocarbons.csv by TestFixturesMatchReference.
 var (
-	cfc11    = Substance{"CFC-11", substances.GroupAI, 1.0, 4750}             // source: CONTROL_RULES §2 [V]
-	cfc12    = Substance{"CFC-12", substances.GroupAI, 1.0, 10900}            // source: CONTROL_RULES §2 [V]
-	ccl4     = Substance{"carbon tetrachloride", substances.GroupBII, 1.1, 0} // source: CONTROL_RULES §2 ODP [V]; Protocol lists no GWP for Annex B
-	hcfc22   = Substance{"HCFC-22", substances.GroupCI, 0.055, 1810}          // source: CONTROL_RULES §2 [V]
-	hcfc141b = Substance{"HCFC-141b", substances.GroupCI, 0.11, 725}          // source: CONTROL_RULES §2 [V]
-	hcfc142b = Substance{"HCFC-142b", substances.GroupCI, 0.065, 2310}        // source: CONTROL_RULES §2 [V]
-	hcfc31   = Substance{"HCFC-31", substances.GroupCI, 0.02, 0}              // source: DOMAIN.md §2 ODP; no Kigali GWP listed → 0 (Annex C footnote, CONTROL_RULES §2 [V])
-	mbr      = Substance{"methyl bromide", substances.GroupEI, 0.6, 0}        // source: CONTROL_RULES §2 ODP [V]; no Protocol GWP
-	hfc134a  = Substance{"HFC-134a", substances.GroupFI, 0, 1430}             // source: CONTROL_RULES §2 Annex F [V]
-	hfc125   = Substance{"HFC-125", substances.GroupFI, 0, 3500}              // source: CONTROL_RULES §2 Annex F [V]
-	hfc32    = Substance{"HFC-32", substances.GroupFI, 0, 675}                // source: CONTROL_RULES §2 Annex F [V]
-	hfc23    = Substance{"HFC-23", substances.GroupFII, 0, 14800}             // source: CONTROL_RULES §2 Annex F Group II [V]
-	propane  = Substance{"R-290", substances.GroupNone, 0, 0}                 // not controlled (DOMAIN.md §2)
+	cfc11    = Substance{"CFC-11", substances.GroupAI, 1.0, 4750}             // source: MP Annex A Group I ODP; Kigali Annex A GWP
+	cfc12    = Substance{"CFC-12", substances.GroupAI, 1.0, 10900}            // source: MP Annex A Group I ODP; Kigali Annex A GWP
+	ccl4     = Substance{"carbon tetrachloride", substances.GroupBII, 1.1, 0} // source: MP Annex B Group II ODP; Protocol lists no GWP for Annex B
+	hcfc22   = Substance{"HCFC-22", substances.GroupCI, 0.055, 1810}          // source: MP Annex C Group I ODP; Kigali Annex C GWP
+	hcfc141b = Substance{"HCFC-141b", substances.GroupCI, 0.11, 725}          // source: MP Annex C Group I ODP; Kigali Annex C GWP
+	hcfc142b = Substance{"HCFC-142b", substances.GroupCI, 0.065, 2310}        // source: MP Annex C Group I ODP; Kigali Annex C GWP
+	hcfc31   = Substance{"HCFC-31", substances.GroupCI, 0.02, 0}              // source: MP Annex C Group I ODP; no Kigali GWP listed → 0 (Annex C footnote)
+	mbr      = Substance{"methyl bromide", substances.GroupEI, 0.6, 0}        // source: MP Annex E ODP; no Protocol GWP
+	hfc134a  = Substance{"HFC-134a", substances.GroupFI, 0, 1430}             // source: MP Annex F Group I GWP
+	hfc125   = Substance{"HFC-125", substances.GroupFI, 0, 3500}              // source: MP Annex F Group I GWP
+	hfc32    = Substance{"HFC-32", substances.GroupFI, 0, 675}                // source: MP Annex F Group I GWP
+	hfc23    = Substance{"HFC-23", substances.GroupFII, 0, 14800}             // source: MP Annex F Group II GWP
+	propane  = Substance{"R-290", substances.GroupNone, 0, 0}                 // not controlled: in no Annex of the Protocol
 )
 
 func rec(year int, s Substance, f Flows) Record { return Record{Year: year, Substance: s, Flows: f} }
@@ -57,17 +58,15 @@ func mustRulebook(t testing.TB) *Rulebook {
 	return rb
 }
 
-// TestFixturesMatchReference checks the test fixtures' ODP and GWP against the project's
-// independently gathered reference data (halocarbons.csv: odp, gwp100_ar4 columns; the
-// Protocol GWPs equal AR4 values, CONTROL_RULES §2).
+// TestFixturesMatchReference checks the test fixtures' ODP and GWP against the repository's
+// independently gathered reference data (testdata/reference/halocarbons.csv: odp and
+// gwp100_ar4 columns; the Protocol GWPs equal the IPCC AR4 WG1 Table 2.14 values). A missing
+// table fails the test.
 func TestFixturesMatchReference(t *testing.T) {
-	const path = "/work/shared/reference/halocarbons.csv"
+	path := filepath.Join("..", "testdata", "reference", "halocarbons.csv")
 	f, err := os.Open(path)
-	if errors.Is(err, fs.ErrNotExist) {
-		t.Skipf("%s not present on this machine", path)
-	}
 	if err != nil {
-		t.Fatal(err)
+		t.Fatalf("reference table missing: %v", err)
 	}
 	defer f.Close()
 	rows, err := csv.NewReader(f).ReadAll()

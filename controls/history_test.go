@@ -1,7 +1,7 @@
 package controls
 
 // Worked example histories, invented data. The quantities are metric tonnes; the hand
-// computations beside them use the ODPs and GWPs of fixtures_test.go (CONTROL_RULES §2 [V]).
+// computations beside them use the ODPs and GWPs of fixtures_test.go (MP Annexes A-F, Kigali GWP columns).
 
 // nonA5History is a non-Article 5 Party's data.
 //

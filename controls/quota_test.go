@@ -250,7 +250,7 @@ func TestPlanQuotasRejects(t *testing.T) {
 }
 
 // TestPlanFromAllowedLevel plans quotas for next year's allowed level: non-A5 HCFC 2026,
-// 0.5 % × 197.5 = 0.9875 ODP t (Art. 2F paras 1 and 3-6; CONTROL_RULES §4a [V]; history_test.go),
+// 0.5 % × 197.5 = 0.9875 ODP t (Art. 2F paras 1 and 3-6; history_test.go),
 // 90 % distributed = 0.88875 → 888 units of 0.001. Companies (invented) with 2024 imports
 // 2 and 1 t: exact 592.5 and 296.25 units → 592 + 296 = 888, no unit left.
 func TestPlanFromAllowedLevel(t *testing.T) {

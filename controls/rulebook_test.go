@@ -8,8 +8,8 @@ import (
 )
 
 // TestDefaultRulebookCoverage: every Party key has schedules for every scope, and a baseline
-// for every scope with a non-zero step (C/II and C/III are 0 from the start, CONTROL_RULES
-// §4a [V]).
+// for every scope with a non-zero step (C/II and C/III are 0 from the start: Arts. 2G and
+// 2I, Art. 5 para 8 ter (f)).
 func TestDefaultRulebookCoverage(t *testing.T) {
 	rb := mustRulebook(t)
 	if rb.Version != "halovet-1" || rb.AsOf != "2026-12-01" {
@@ -44,7 +44,8 @@ func TestDefaultRulebookIsACopy(t *testing.T) {
 	}
 }
 
-// TestAllowanceLookup checks the schedule rows against CONTROL_RULES §4 (values and status).
+// TestAllowanceLookup checks the schedule rows (values and status marks) against the control
+// measures of the Montreal Protocol as amended and adjusted: Arts. 2A-2J and Art. 5, cited per row.
 func TestAllowanceLookup(t *testing.T) {
 	rb := mustRulebook(t)
 	tests := []struct {
@@ -59,7 +60,7 @@ func TestAllowanceLookup(t *testing.T) {
 		wantAverage float64 // period-average percent, -1 when none
 		wantSource  string
 	}{
-		// §4a non-A5 HCFC: 1996 100, 2004 65, 2010 25, 2015 10, 2020 0 + cap 0.5 to 2029, 2030 0 [V].
+		// Art. 2F non-A5 HCFC: 1996 100, 2004 65, 2010 25, 2015 10, 2020 0 + cap 0.5 to 2029, 2030 0.
 		{"non-A5 HCFC 2003", partyNonA5, ScopeCI, 2003, 100, 1996, Verified, -1, -1, "Art. 2F paras 1 and 3-6"},
 		{"non-A5 HCFC 2004", partyNonA5, ScopeCI, 2004, 65, 2004, Verified, -1, -1, "Art. 2F"},
 		{"non-A5 HCFC 2012", partyNonA5, ScopeCI, 2012, 25, 2010, Verified, -1, -1, "Art. 2F"},
@@ -67,36 +68,36 @@ func TestAllowanceLookup(t *testing.T) {
 		{"non-A5 HCFC 2020 cap", partyNonA5, ScopeCI, 2020, 0, 2020, Verified, 0.5, -1, "Art. 2F paras 1 and 3-6"},
 		{"non-A5 HCFC 2029 cap", partyNonA5, ScopeCI, 2029, 0, 2020, Verified, 0.5, -1, "Art. 2F paras 1 and 3-6"},
 		{"non-A5 HCFC 2030", partyNonA5, ScopeCI, 2030, 0, 2020, Verified, -1, -1, "Art. 2F paras 1 and 3-6"},
-		// §4b A5 HCFC: 2013 100, 2015 90, 2020 65, 2025 32.5, 2030 0 with 2030–2039 mean 2.5 [V].
+		// Art. 5 para 8 ter (a)-(e) A5 HCFC: 2013 100, 2015 90, 2020 65, 2025 32.5, 2030 0 with 2030–2039 mean 2.5.
 		{"A5 HCFC 2014", partyA5G1, ScopeCI, 2014, 100, 2013, Verified, -1, -1, "Art. 5 para 8 ter"},
 		{"A5 HCFC 2015", partyA5G1, ScopeCI, 2015, 90, 2015, Verified, -1, -1, "Art. 5 para 8 ter"},
 		{"A5 HCFC 2024", partyA5G1, ScopeCI, 2024, 65, 2020, Verified, -1, -1, "Art. 5 para 8 ter"},
 		{"A5 HCFC 2025", partyA5G1, ScopeCI, 2025, 32.5, 2025, Verified, -1, -1, "Art. 5 para 8 ter"},
 		{"A5 HCFC 2039 average", partyA5G2, ScopeCI, 2039, 0, 2030, Verified, -1, 2.5, "Art. 5 para 8 ter"},
 		{"A5 HCFC 2040", partyA5G1, ScopeCI, 2040, 0, 2030, Verified, -1, -1, "Art. 5 para 8 ter"},
-		// §4a HFC non-A5: 2019 90, 2024 60, 2029 30, 2034 20, 2036 15 [V].
+		// Art. 2J para 1 HFC non-A5: 2019 90, 2024 60, 2029 30, 2034 20, 2036 15.
 		{"non-A5 HFC 2019", partyNonA5, ScopeF, 2019, 90, 2019, Verified, -1, -1, "Art. 2J para 1"},
 		{"non-A5 HFC 2028", partyNonA5, ScopeF, 2028, 60, 2024, Verified, -1, -1, "Art. 2J para 1"},
 		{"non-A5 HFC 2033", partyNonA5, ScopeF, 2033, 30, 2029, Verified, -1, -1, "Art. 2J para 1"},
 		{"non-A5 HFC 2035", partyNonA5, ScopeF, 2035, 20, 2034, Verified, -1, -1, "Art. 2J para 1"},
 		{"non-A5 HFC 2036", partyNonA5, ScopeF, 2036, 15, 2036, Verified, -1, -1, "Art. 2J para 1"},
-		// §4a variant: 2020 95, 2025 65, 2029 30, 2034 20, 2036 15 [V].
+		// Art. 2J para 2 variant: 2020 95, 2025 65, 2029 30, 2034 20, 2036 15.
 		{"variant HFC 2020", partyNonA5Variant, ScopeF, 2020, 95, 2020, Verified, -1, -1, "Art. 2J para 2"},
 		{"variant HFC 2025", partyNonA5Variant, ScopeF, 2025, 65, 2025, Verified, -1, -1, "Art. 2J para 2"},
 		{"variant HFC 2040", partyNonA5Variant, ScopeF, 2040, 15, 2036, Verified, -1, -1, "Art. 2J para 2"},
-		// §4b A5 Group 1: 2024 100, 2029 90, 2035 70, 2040 50, 2045 20 [V].
+		// Art. 5 para 8 qua, Ozone Secretariat Annex F control summary, A5 Group 1: 2024 100, 2029 90, 2035 70, 2040 50, 2045 20.
 		{"A5 G1 HFC 2024", partyA5G1, ScopeF, 2024, 100, 2024, Verified, -1, -1, "Art. 5 para 8 qua"},
 		{"A5 G1 HFC 2029", partyA5G1, ScopeF, 2029, 90, 2029, Verified, -1, -1, "Art. 5 para 8 qua"},
 		{"A5 G1 HFC 2035", partyA5G1, ScopeF, 2035, 70, 2035, Verified, -1, -1, "Art. 5 para 8 qua"},
 		{"A5 G1 HFC 2044", partyA5G1, ScopeF, 2044, 50, 2040, Verified, -1, -1, "Art. 5 para 8 qua"},
 		{"A5 G1 HFC 2045", partyA5G1, ScopeF, 2045, 20, 2045, Verified, -1, -1, "Art. 5 para 8 qua"},
-		// §4b A5 Group 2: 2028 100, 2032 90, 2037 80, 2042 70, 2047 15 [V].
+		// Same sources, A5 Group 2: 2028 100, 2032 90, 2037 80, 2042 70, 2047 15.
 		{"A5 G2 HFC 2031", partyA5G2, ScopeF, 2031, 100, 2028, Verified, -1, -1, "Art. 5 para 8 qua"},
 		{"A5 G2 HFC 2032", partyA5G2, ScopeF, 2032, 90, 2032, Verified, -1, -1, "Art. 5 para 8 qua"},
 		{"A5 G2 HFC 2037", partyA5G2, ScopeF, 2037, 80, 2037, Verified, -1, -1, "Art. 5 para 8 qua"},
 		{"A5 G2 HFC 2042", partyA5G2, ScopeF, 2042, 70, 2042, Verified, -1, -1, "Art. 5 para 8 qua"},
 		{"A5 G2 HFC 2047", partyA5G2, ScopeF, 2047, 15, 2047, Verified, -1, -1, "Art. 5 para 8 qua"},
-		// Zeros, non-A5 (§4a [V]): CFCs 1996, halons 1994, Annex B 1996, MB 2005, HBFC 1996, BCM 2002.
+		// Zeros, non-A5 (Arts. 2A-2I): CFCs 1996, halons 1994, Annex B 1996, MB 2005, HBFC 1996, BCM 2002.
 		{"non-A5 CFCs", partyNonA5, ScopeAI, 1996, 0, 1996, Verified, -1, -1, "Art. 2A"},
 		{"non-A5 CFCs 1995", partyNonA5, ScopeAI, 1995, 25, 1994, Verified, -1, -1, "Art. 2A"},
 		{"non-A5 halons", partyNonA5, ScopeAII, 1994, 0, 1994, Verified, -1, -1, "Art. 2B"},
@@ -108,8 +109,8 @@ func TestAllowanceLookup(t *testing.T) {
 		{"non-A5 MB", partyNonA5, ScopeEI, 2005, 0, 2005, Verified, -1, -1, "Art. 2H"},
 		{"non-A5 HBFC", partyNonA5, ScopeCII, 1996, 0, 1996, Verified, -1, -1, "Art. 2G"},
 		{"non-A5 BCM", partyNonA5, ScopeCIII, 2002, 0, 2002, Verified, -1, -1, "Art. 2I"},
-		// Zeros, A5 (§4b): CFCs 2010 [D/P → P], halons 2010 [P], B/I 2010 [D/P → P],
-		// CCl4 2010 [U], methyl chloroform 2015 [U], MB 2015 [V], HBFC 1996 [V], BCM 2002 [U].
+		// Zeros, A5 (Art. 5 paras 1, 8 bis and 8 ter; marks as in data/schedules.csv): CFCs 2010 P,
+		// halons 2010 P, B/I 2010 P, CCl4 2010 U, methyl chloroform 2015 U, MB 2015 V, HBFC 1996 V, BCM 2002 U.
 		{"A5 CFCs", partyA5G1, ScopeAI, 2010, 0, 2010, Partial, -1, -1, "Art. 5"},
 		{"A5 CFCs 2006", partyA5G1, ScopeAI, 2006, 50, 2005, Partial, -1, -1, "Art. 5"},
 		{"A5 halons", partyA5G1, ScopeAII, 2010, 0, 2010, Partial, -1, -1, "Art. 5"},
@@ -153,7 +154,9 @@ func TestAllowanceLookup(t *testing.T) {
 	}
 }
 
-// TestBaselineRules checks the baseline rows against CONTROL_RULES §3 [V].
+// TestBaselineRules checks the baseline rows against the treaty: Arts. 2A-2H and 2J paras 1-2
+// (non-A5), Art. 5 para 3, para 8 ter (a) and (g) and para 8 qua (c), and the Ozone
+// Secretariat's Annex F control summary for A5 Group 2.
 func TestBaselineRules(t *testing.T) {
 	rb := mustRulebook(t)
 	tests := []struct {
@@ -189,12 +192,12 @@ func TestBaselineRules(t *testing.T) {
 				t.Errorf("rule = %+v", r)
 			}
 			if r.Status != Verified {
-				t.Errorf("status %s; CONTROL_RULES §3 marks every baseline [V]", r.Status)
+				t.Errorf("status %s; every baseline's base years and term are stated in the article it cites, so it is V", r.Status)
 			}
 			// Counting used trade beyond the Annex A base years of Art. 5 para 3 is our
 			// reading of Decision IV/24, so it must not be marked verified.
 			if tc.countUsed && tc.scope != ScopeAI && r.CountUsedStatus == Verified {
-				t.Errorf("count_used for %s is marked verified; CONTROL_RULES §1 only covers Art. 5 para 1 base years", tc.scope)
+				t.Errorf("count_used for %s is marked verified; the exception of Decision IV/24 para 2 names only the base years of Art. 5 para 1", tc.scope)
 			}
 		})
 	}

@@ -78,7 +78,7 @@ func TestUpsertSubstanceCorrection(t *testing.T) {
 	if got := resp.GetSubstance().GetLifetimeYears(); got != catalogueCorrectedLifetime {
 		t.Errorf("stored lifetime %v; want %v", got, catalogueCorrectedLifetime)
 	}
-	// source: C2H2F4 with IUPAC standard atomic weights (DOMAIN.md §3): 2x12.011 + 2x1.008 + 4x18.998 = 102.03.
+	// source: C2H2F4 with IUPAC standard atomic weights (abridged): 2x12.011 + 2x1.008 + 4x18.998 = 102.03.
 	if m := resp.GetSubstance().GetMolarMassGPerMol(); math.Abs(m-102.03) > 0.01 {
 		t.Errorf("molar mass %v; want 102.03 g/mol computed from the formula", m)
 	}
@@ -123,9 +123,9 @@ func TestUpsertSubstanceRejects(t *testing.T) {
 		reason string
 		field  string
 	}{
-		// HFC-134a decodes by the ASHRAE 34 rule to C2H2F4 (DOMAIN.md §4); CH2F2 is HFC-32.
+		// HFC-134a decodes by the ASHRAE 34 / ISO 817 number + 90 rule to C2H2F4; CH2F2 is HFC-32.
 		{"designation and formula disagree", func(s *halovetv1.Substance) { s.Formula, s.Structure = "CH2F2", "" }, "fix", "substance.designation"},
-		// 811-97-2 is HFC-134a's CAS number (DOMAIN.md §4); the check digit of 811-97 is 2.
+		// 811-97-2 is HFC-134a's CAS number (testdata/reference/halocarbons.csv); the check digit of 811-97 is 2.
 		{"CAS check digit wrong", func(s *halovetv1.Substance) { s.CasNumber = "811-97-3" }, "fix", "substance.cas_number"},
 		{"structure disagrees with formula", func(s *halovetv1.Substance) { s.Structure = "CH3CF3" }, "fix", "substance.structure"},
 		{"unknown Annex group", func(s *halovetv1.Substance) { s.AnnexGroup = "F/III" }, "fix", "substance.annex_group"},

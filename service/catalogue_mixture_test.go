@@ -14,8 +14,8 @@ import (
 // Integration tests of CatalogueService.EvaluateMixture: blend GWPs under each set and
 // convention, ODP tonnes, and the rejections.
 
-// roundHalfUp rounds a blend GWP the way the published tables do (SOURCES.md §3: half-up
-// of the unrounded sum; R-410A 2087.5 -> 2088). The small offset absorbs binary
+// roundHalfUp rounds a blend GWP the way the published tables do (the UK government CO2-eq
+// table rounds half-up the unrounded sum; R-410A 2087.5 -> 2088). The small offset absorbs binary
 // floating-point error in sums such as 0.5*675 + 0.5*3500.
 func roundHalfUp(x float64) float64 { return math.Floor(x + 0.5 + 1e-9) }
 
@@ -39,12 +39,12 @@ func TestEvaluateMixtureBlendGWP(t *testing.T) {
 		gwp   float64 // AR4 basis, rounded half-up
 	}{
 		// source: EU Regulation 517/2014 Annex IV method, values as published in the UK
-		// government CO2-eq table (SOURCES.md §3): R-404A 3922, R-410A 2088, R-507A 3985.
+		// government CO2-eq table (testdata/reference/blends.csv): R-404A 3922, R-410A 2088, R-507A 3985.
 		{"R-404A", 3922},
 		{"R-410A", 2088},
 		{"R-507A", 3985},
-		// source: DOMAIN.md §3 (EU F-gas tables); SOURCES.md §3 found no published figure,
-		// its computed HFC-only sum 1773.85 rounds half-up to 1774.
+		// source: EU F-gas figure from memory; no published table was found for it (blends.csv
+		// gwp_ar4_published is empty), and its computed HFC-only sum 1773.85 rounds half-up to 1774.
 		{"R-407C", 1774},
 	}
 	for _, tc := range cases {
@@ -70,7 +70,7 @@ func TestEvaluateMixtureBlendGWP(t *testing.T) {
 			if !ok || roundHalfUp(mp.GetGwp100()) != tc.gwp {
 				t.Errorf("Protocol (MP) annex-f-only GWP %v; want it to round to %v (Annex F values equal AR4)", mp.GetGwp100(), tc.gwp)
 			}
-			// One metric tonne: CO2-eq tonnes equal the unrounded Annex-F GWP (DOMAIN.md §3:
+			// One metric tonne: CO2-eq tonnes equal the unrounded Annex-F GWP (Art. 3 para 2:
 			// CO2-eq tonnes = metric tonnes x GWP).
 			if math.Abs(resp.GetCo2ETonnes()-mp.GetGwp100()) > 1e-6 {
 				t.Errorf("CO2-eq tonnes of 1000 kg %v; want the mixture GWP %v", resp.GetCo2ETonnes(), mp.GetGwp100())
@@ -116,7 +116,7 @@ func TestEvaluateMixtureODPTonnes(t *testing.T) {
 	if math.Abs(resp.GetOdpTonnes()-0.11) > 1e-9 {
 		t.Errorf("ODP tonnes %v; want 0.11", resp.GetOdpTonnes())
 	}
-	// An HCFC counts in ODP tonnes in its own group, not in CO2-eq (DOMAIN.md §3).
+	// An HCFC counts in ODP tonnes in its own group, not in CO2-eq (Art. 3 para 1(a) and para 2; Art. 1 para 4).
 	if resp.GetCo2ETonnes() != 0 {
 		t.Errorf("Protocol CO2-eq tonnes %v; want 0 for an HCFC", resp.GetCo2ETonnes())
 	}

@@ -65,7 +65,7 @@ func TestGetEntry(t *testing.T) {
 		if s.GetOdp() != 0.055 { // source: Montreal Protocol Annex C Group I (HCFC-22 0.055)
 			t.Errorf("ODP %v; want 0.055", s.GetOdp())
 		}
-		if s.GetCasNumber() != "75-45-6" { // source: DOMAIN.md §4 / halocarbons.csv (CAS of HCFC-22)
+		if s.GetCasNumber() != "75-45-6" { // source: testdata/reference/halocarbons.csv (CAS of HCFC-22)
 			t.Errorf("CAS %q; want 75-45-6", s.GetCasNumber())
 		}
 		if s.GetFormula() != "CHClF2" {
@@ -75,7 +75,7 @@ func TestGetEntry(t *testing.T) {
 		for _, g := range s.GetGwps() {
 			gwp[g.GetGwpSet()] = g.GetGwp100()
 		}
-		// source: Kigali Amendment, Annex C Group I GWP column (CONTROL_RULES.md §2): HCFC-22 1810;
+		// source: Kigali Amendment, Annex C Group I GWP column: HCFC-22 1810;
 		// IPCC AR4 WG1 Table 2.14: 1810.
 		if gwp["MP"] != 1810 || gwp["AR4"] != 1810 {
 			t.Errorf("GWPs %v; want MP 1810 and AR4 1810", gwp)
@@ -86,7 +86,7 @@ func TestGetEntry(t *testing.T) {
 				hs22 = append(hs22, h.GetSubheading())
 			}
 		}
-		if !slices.Equal(hs22, []string{"2903.71"}) { // source: HS 2022 subheading 2903.71, CONTROL_RULES.md §6
+		if !slices.Equal(hs22, []string{"2903.71"}) { // source: WCO HS 2022 subheading 2903.71
 			t.Errorf("HS 2022 subheadings %v; want [2903.71]", hs22)
 		}
 	})
@@ -289,7 +289,7 @@ func TestResolveIdentifier(t *testing.T) {
 		kind     halovetv1.EntryKind
 	}{
 		// HCFC-22 in every spelling a paper may use (ASHRAE 34 designation and number,
-		// molecular and condensed formula, CAS number of DOMAIN.md §4, chemical name).
+		// molecular and condensed formula, CAS number of testdata/reference/halocarbons.csv, chemical name).
 		{"R-22", "HCFC-22", halovetv1.EntryKind_ENTRY_KIND_SUBSTANCE},
 		{"R22", "HCFC-22", halovetv1.EntryKind_ENTRY_KIND_SUBSTANCE},
 		{"HCFC-22", "HCFC-22", halovetv1.EntryKind_ENTRY_KIND_SUBSTANCE},
@@ -333,7 +333,7 @@ func TestResolveIdentifier(t *testing.T) {
 			}
 		}
 		slices.Sort(got)
-		// source: HS 2022 subheading 2903.45 holds HFC-134a and HFC-134 (CONTROL_RULES.md §6).
+		// source: HS 2022 subheading 2903.45 holds HFC-134a and HFC-134 (WCO HS 2022 text).
 		if !resp.GetAmbiguous() || !slices.Equal(got, []string{"HFC-134", "HFC-134a"}) {
 			t.Errorf("2903.45: ambiguous %v, candidates %v; want ambiguous between HFC-134 and HFC-134a", resp.GetAmbiguous(), got)
 		}
@@ -350,7 +350,7 @@ func TestResolveIdentifier(t *testing.T) {
 	})
 
 	t.Run("CAS with a wrong check digit", func(t *testing.T) {
-		// 75-45-6 is right (DOMAIN.md §4): 5x1 + 4x2 + 5x3 + 7x4 = 56, check digit 6.
+		// 75-45-6 is right (CAS check-digit method): 5x1 + 4x2 + 5x3 + 7x4 = 56, check digit 6.
 		resp, err := client.ResolveIdentifier(ctx, &halovetv1.ResolveIdentifierRequest{Identifier: "75-45-7"})
 		if err != nil {
 			t.Fatalf("ResolveIdentifier 75-45-7: %v", err)

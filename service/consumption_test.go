@@ -23,13 +23,14 @@ import (
 //
 // All quantities, companies and Parties below are INVENTED (worked examples with invented
 // data, user-assigned country codes XA and XB). Substance values are real, with sources:
-//   ODPs: Montreal Protocol Annex A and Annex C (CONTROL_RULES §2 [V]): CFC-11 1.0,
+//   ODPs: Montreal Protocol Annex A and Annex C (ODP columns): CFC-11 1.0,
 //     CFC-12 1.0, CFC-113 0.8, HCFC-22 0.055, HCFC-123 0.02, HCFC-141b 0.11, HCFC-142b 0.065.
-//   GWPs: Kigali Amendment, Annexes A/I, C/I and F (CONTROL_RULES §2 [V]): CFC-11 4750,
+//   GWPs: Kigali Amendment, Annexes A/I, C/I and F (GWP columns): CFC-11 4750,
 //     CFC-12 10900, CFC-113 6130, HCFC-22 1810, HCFC-141b 725, HCFC-142b 2310, HFC-134a 1430,
 //     HFC-32 675, HFC-125 3500, HFC-143a 4470, HFC-152a 124, HFC-23 14800.
-//   R-408A: HFC-125/HFC-143a/HCFC-22 at 7/46/47 % by mass (ASHRAE 34; reference/blends.csv).
-// Baselines: CONTROL_RULES §3 [V]; allowed levels: CONTROL_RULES §4 [V].
+//   R-408A: HFC-125/HFC-143a/HCFC-22 at 7/46/47 % by mass (ASHRAE 34; testdata/reference/blends.csv).
+// Baselines: Arts. 2F para 1, 2J and 5 paras 8 ter and 8 qua; allowed levels: Arts. 2F, 2J and
+// 5 para 8 ter, and the Ozone Secretariat's Annex F control summary, cited per step below.
 
 // consTol is the tolerance of the worked examples: far below the 0.001 ODP t and 1 CO2-eq t
 // the figures are checked to, far above float rounding.
@@ -203,7 +204,7 @@ func TestConsumptionArticle5(t *testing.T) {
 		consEntry(2021, hImp, "HFC-134a", 120), consEntry(2021, hImp, "HFC-125", 20),
 	)
 
-	// HCFC baseline, A5: mean of 2009 and 2010 (Art. 5 para 8 ter (a); CONTROL_RULES §3 [V]).
+	// HCFC baseline, A5: mean of 2009 and 2010 (Art. 5 para 8 ter (a)).
 	//   2009: (100 − 10) t × 0.055 + 20 t × 0.11            = 4.95 + 2.2          = 7.15 ODP t
 	//   2010: 120 t × 0.055 + 10 t × 0.11 + 5 t × 0.065     = 6.6 + 1.1 + 0.325   = 8.025 ODP t
 	//   baseline = (7.15 + 8.025) / 2                                              = 7.5875 ODP t
@@ -234,7 +235,7 @@ func TestConsumptionArticle5(t *testing.T) {
 	}
 	consRecordEntries(t, c, consEntry(2022, hImp, "HFC-134a", 110), consEntry(2022, hImp, "HFC-23", 1))
 
-	// HFC baseline, A5 Group 1 (Art. 5 para 8 qua (c); CONTROL_RULES §3 [V]):
+	// HFC baseline, A5 Group 1 (Art. 5 para 8 qua (c)):
 	//   2020: 100 × 1430 + 50 × 675      = 143000 + 33750  = 176750 CO2-eq t
 	//   2021: 120 × 1430 + 20 × 3500     = 171600 + 70000  = 241600
 	//   2022: 110 × 1430 + 1 × 14800     = 157300 + 14800  = 172100 (HFC-23 is F/II, counted with F)
@@ -314,9 +315,9 @@ func TestConsumptionArticle5(t *testing.T) {
 		t.Fatalf("filter F: %v %v; want F/I only", only.GetGroups(), err)
 	}
 
-	// Compliance 2025, HCFCs: A5 step 2025 32.5 % (Art. 5 para 8 ter; CONTROL_RULES §4b [V]).
+	// Compliance 2025, HCFCs: A5 step 2025 32.5 % (Art. 5 para 8 ter).
 	//   allowed = 7.5875 × 0.325 = 2.4659375 ODP t; headroom = 2.4659375 − 1.7435 = 0.7224375
-	// HFCs: A5 Group 1 step 2024 100 % (CONTROL_RULES §4b [V]).
+	// HFCs: A5 Group 1 step 2024 100 % (Art. 5 para 8 qua; Annex F control summary).
 	//   allowed = 331171.666667; headroom = 331171.666667 − 94512 = 236659.666667
 	ac, err := c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: "C/I", FromYear: 2024, ToYear: 2025})
 	if err != nil {
@@ -346,8 +347,8 @@ func TestConsumptionArticle5(t *testing.T) {
 	consNear(t, "HFC allowed 2025", yf.GetAllowed(), 590450.0/3+134355)
 	consNear(t, "HFC headroom 2025", yf.GetHeadroom(), 590450.0/3+134355-94512)
 
-	// The A5 HCFC tail: 2030-2039 ten-year mean ≤ 2.5 % of baseline (Art. 5 para 8 ter (e);
-	// CONTROL_RULES §4b [V]); a single year may exceed it.
+	// The A5 HCFC tail: 2030-2039 ten-year mean ≤ 2.5 % of baseline (Art. 5 para 8 ter (e):
+	// the sum of the ten years divided by ten); a single year may exceed it.
 	//   budget = 0.025 × 7.5875 × 10 = 1.896875 ODP t (0.18969 a year on average)
 	//   2030: 5 t × 0.055 = 0.275 (above 0.18969 alone: allowed); room left 1.621875
 	//   2031: 3 t × 0.055 = 0.165; sum 0.44; running mean 0.22 (2.8995 % of baseline);
@@ -443,8 +444,8 @@ func TestConsumptionNonArticle5(t *testing.T) {
 		consEntry(2013, hImp, "HFC-134a", 800), consEntry(2013, hImp, "HFC-152a", 500),
 	)
 
-	// HCFC baseline, non-A5: 1989 HCFC + 2.8 % of 1989 Annex A Group I (Art. 2F para 1;
-	// CONTROL_RULES §3 [V]), ODP t:
+	// HCFC baseline, non-A5: 1989 HCFC + 2.8 % of 1989 Annex A Group I (Art. 2F para 1),
+	// ODP t:
 	//   HCFC 1989: HCFC-22 (1000 + 500 − 300) × 0.055 = 66; HCFC-141b 100 × 0.11 = 11; = 77
 	//   CFC 1989: CFC-11 2000 × 1.0 = 2000; CFC-12 (3000 − 1000) × 1.0 = 2000 (exports to
 	//     non-Parties are deducted before 1993, Art. 3 para 1(c)); CFC-113 500 × 0.8 = 400;
@@ -462,7 +463,7 @@ func TestConsumptionNonArticle5(t *testing.T) {
 	consNear(t, "HCFC baseline", b.GetBaseline(), 200.2)
 
 	// HFC baseline, non-A5: mean 2011-2013 + 15 % of the HCFC baseline in CO2-eq (Art. 2J
-	// para 1; CONTROL_RULES §3 [V]):
+	// para 1):
 	//   2011: 1000 × 1430 = 1430000; 2012: 900 × 1430 + 100 × 4470 = 1287000 + 447000 = 1734000;
 	//   2013: 800 × 1430 + 500 × 124 = 1144000 + 62000 = 1206000; mean = 4370000/3 = 1456666.667
 	//   HCFC part in CO2-eq: HCFC 1989: 1200 × 1810 + 100 × 725 = 2172000 + 72500 = 2244500;
@@ -490,7 +491,7 @@ func TestConsumptionNonArticle5(t *testing.T) {
 	)
 
 	// HCFC 2025: 15 × 0.055 + 3 × 0.02 = 0.825 + 0.06 = 0.885 ODP t. Allowed: the annual
-	// servicing cap of 0.5 % for 2020-2029 (Art. 2F para 6; CONTROL_RULES §4a [V]):
+	// servicing cap of 0.5 % for 2020-2029 (Art. 2F para 6):
 	//   200.2 × 0.005 = 1.001; headroom 0.116.
 	// 2026: 20 × 0.055 = 1.1 > 1.001: exceeded, headroom −0.099.
 	// 2027: (1 − 5) × 0.055 = −0.22: negative, reported as such; headroom 1.221.
@@ -528,7 +529,7 @@ func TestConsumptionNonArticle5(t *testing.T) {
 	consNear(t, "2027 C/I ODP t (negative)", consGroup(neg, "C/I").GetConsumptionOdpTonnes(), -0.22)
 
 	// HFC 2025: 500 × 1430 + 100 × 675 − 50 × 1430 = 715000 + 67500 − 71500 = 711000 CO2-eq t.
-	// Allowed: non-A5 step 2024 60 % (Art. 2J para 1; CONTROL_RULES §4a [V]):
+	// Allowed: non-A5 step 2024 60 % (Art. 2J para 1):
 	//   1937674.667 × 0.6 = 1162604.8; headroom 451604.8.
 	af, err := c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: "F", FromYear: 2025, ToYear: 2025})
 	if err != nil {

@@ -43,7 +43,7 @@ const (
 // Invented registry (user-assigned codes; no real country's status is implied): reporting
 // Party XA (Article 5), partner XB, one company, one import licence with one quota line in
 // ODP tonnes. Each record is 100 kg of HCFC-22 = 0.0055 ODP t (ODP 0.055; source: Montreal
-// Protocol Annex C Group I, DOMAIN.md §2), so the line admits exactly 137 records.
+// Protocol Annex C Group I), so the line admits exactly 137 records.
 const replicaRegistry = `{
   "about": "INVENTED registry for the replica test",
   "parties": [

@@ -130,9 +130,9 @@ func TestCheckShipmentRules(t *testing.T) {
 		{"record: purpose number outside the enum", func(r *halovetv1.ShipmentRecord) { r.Purpose = 99 }, []string{"FIELD_UNREADABLE"}, halovetv1.Outcome_OUTCOME_REJECTED},
 		{"record: no direction", func(r *halovetv1.ShipmentRecord) { r.Direction = halovetv1.Direction_DIRECTION_UNSPECIFIED }, []string{"DIRECTION_MISSING"}, halovetv1.Outcome_OUTCOME_REJECTED},
 		{"identity: unknown substance", func(r *halovetv1.ShipmentRecord) { r.Substance = "unlabelled refrigerant" }, []string{"SUBST_UNKNOWN"}, halovetv1.Outcome_OUTCOME_REJECTED},
-		// source: DOMAIN.md §4 (CAS 811-97-2 is HFC-134a's)
+		// source: testdata/reference/halocarbons.csv (CAS 811-97-2 is HFC-134a's)
 		{"identity: CAS of another substance", func(r *halovetv1.ShipmentRecord) { r.DeclaredCasNumber = "811-97-2" }, []string{"CAS_MISMATCH"}, halovetv1.Outcome_OUTCOME_REJECTED},
-		// source: DOMAIN.md §4 (HCFC-22 is 2903.71 in HS 2022; its own CAS is 75-45-6)
+		// source: WCO HS 2022 (HCFC-22 is 2903.71); halocarbons.csv (its own CAS is 75-45-6)
 		{"identity: right HS code and CAS", func(r *halovetv1.ShipmentRecord) { r.DeclaredHsCode, r.DeclaredCasNumber = "2903.71", "75-45-6" }, nil, halovetv1.Outcome_OUTCOME_ACCEPTED},
 		{"quantity: ambiguous unit", func(r *halovetv1.ShipmentRecord) { r.QuantityUnit = "ton" }, []string{"QTY_UNIT_UNKNOWN"}, halovetv1.Outcome_OUTCOME_REJECTED},
 		{"party: non-Party partner", func(r *halovetv1.ShipmentRecord) { r.PartnerCountry = "QM" }, []string{"PARTNER_NON_PARTY"}, halovetv1.Outcome_OUTCOME_REJECTED},
@@ -202,7 +202,7 @@ func TestCheckShipmentRules(t *testing.T) {
 		}
 		f := resp.GetVerdict().GetFigures()
 		shipNear(t, "net mass kg", f.GetNetMassKg(), 113)
-		// 0.113 t x (0.5 x 675 + 0.5 x 3500); source: Annex F GWPs of HFC-32 and HFC-125 (DOMAIN.md §2), ASHRAE 34 composition
+		// 0.113 t x (0.5 x 675 + 0.5 x 3500); source: Annex F GWPs of HFC-32 and HFC-125, ASHRAE 34 composition
 		shipNear(t, "CO2-eq t", f.GetCo2ETonnes(), 0.113*2087.5)
 		if f.GetOdpTonnes() != 0 || f.GetKind() != halovetv1.EntryKind_ENTRY_KIND_BLEND || f.GetResolvedDesignation() != "R-410A" || !f.GetCountsInConsumption() {
 			t.Errorf("figures %v; want R-410A, a blend, 0 ODP t, counted in consumption", f)

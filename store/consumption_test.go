@@ -125,7 +125,7 @@ func TestShipmentTotalsAggregateComponentsInSQL(t *testing.T) {
 	d24 := time.Date(2024, 5, 1, 0, 0, 0, 0, time.UTC)
 	// Invented shipments. ODP/GWP figures are as the recorder would compute them:
 	// HCFC-22 ODP 0.055 (Montreal Protocol Annex C); HFC-125 GWP 3500, HFC-143a 4470
-	// (Montreal Protocol Annex F; CONTROL_RULES §2 [V]).
+	// (Montreal Protocol Annex F).
 	rows := []store.ShipmentRow{
 		consShipment("a", "XA-1", "import", "servicing", "virgin", false, d25, comp("HCFC-22", "C/I", 1000, 0.055, 0)),
 		// A blend split per component (R-408A nominal 7/46/47 % HFC-125/HFC-143a/HCFC-22,

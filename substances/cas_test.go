@@ -11,7 +11,8 @@ func TestParseCASValid(t *testing.T) {
 	tests := []struct {
 		name, in, want string
 	}{
-		// source: DOMAIN.md §4 and CONTROL_RULES.md §8 (self-test list)
+		// source: CAS numbers of testdata/reference/halocarbons.csv (water 7732-18-5 from memory);
+		// check digits by the CAS method (CAS, "Check Digit Verification of CAS Registry Numbers")
 		{"HCFC-22", "75-45-6", "75-45-6"},
 		{"HFC-134a", "811-97-2", "811-97-2"},
 		{"carbon tetrachloride", "56-23-5", "56-23-5"},
@@ -20,9 +21,9 @@ func TestParseCASValid(t *testing.T) {
 		{"HFC-23", "75-46-7", "75-46-7"},
 		{"CFC-11", "75-69-4", "75-69-4"},
 		{"water", "7732-18-5", "7732-18-5"},
-		// source: CONTROL_RULES.md §8 worked example (7*1 + 0*2 + 7*3 + 0*4 + 1*5 = 33 -> 3)
+		// source: worked example of the CAS check-digit method (7*1 + 0*2 + 7*3 + 0*4 + 1*5 = 33 -> 3)
 		{"worked example", "107-07-3", "107-07-3"},
-		// source: /work/shared/reference/halocarbons.csv cas column
+		// source: testdata/reference/halocarbons.csv cas column
 		{"HFO-1234ze(E), 5-digit first part", "29118-24-9", "29118-24-9"},
 		{"HFC-43-10mee, 6-digit first part", "138495-42-8", "138495-42-8"},
 		// normalization: common practice for pasted and zero-padded numbers
@@ -52,7 +53,7 @@ func TestParseCASCheckDigit(t *testing.T) {
 		name, in  string
 		got, want int
 	}{
-		// source: DOMAIN.md §4 numbers with the last digit altered; Want from the CAS method
+		// source: the HCFC-22 and HFC-134a CAS numbers (testdata/reference/halocarbons.csv) with the last digit altered; Want from the CAS method
 		{"HCFC-22 off by one", "75-45-5", 5, 6},
 		{"HFC-134a off by one", "811-97-3", 3, 2},
 		{"transposed body", "57-45-6", 6, 4},
@@ -116,9 +117,9 @@ func TestCASCheckDigit(t *testing.T) {
 		name, body string
 		want       int
 	}{
-		// source: CONTROL_RULES.md §8 worked example
+		// source: worked example of the CAS check-digit method
 		{"worked example", "107-07", 3},
-		// source: DOMAIN.md §4 (75-45-6, 811-97-2)
+		// source: testdata/reference/halocarbons.csv cas column (75-45-6, 811-97-2)
 		{"HCFC-22 with hyphen", "75-45", 6},
 		{"HCFC-22 without hyphen", "7545", 6},
 		{"HFC-134a", "81197", 2},

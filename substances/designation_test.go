@@ -12,8 +12,8 @@ func TestParseDesignation(t *testing.T) {
 		prefix, number, hill, isomer string
 		canonical                    string
 	}{
-		// Formulas: /work/shared/reference/halocarbons.csv formula column unless noted;
-		// numbering rule: DOMAIN.md §4, CONTROL_RULES.md §7.
+		// Formulas: testdata/reference/halocarbons.csv formula column unless noted;
+		// numbering rule: ASHRAE Standard 34 / ISO 817 (number + 90 gives the C, H, F counts).
 		{"CFC-11", "R-11", "R", "11", "CCl3F", "", "R-11"},
 		{"CFC-12 with class prefix", "CFC-12", "CFC", "12", "CCl2F2", "", "R-12"},
 		{"CFC-13B1 written as R", "R-13B1", "R", "13B1", "CBrF3", "", "R-13B1"},
@@ -52,7 +52,7 @@ func TestParseDesignation(t *testing.T) {
 		{"halon-1301", "halon-1301", "halon", "1301", "CBrF3", "", "halon-1301"},
 		{"halon-2402", "HALON-2402", "halon", "2402", "C2Br2F4", "", "halon-2402"},
 		{"halon-2402 as R number", "R-114B2", "R", "114B2", "C2Br2F4", "", "R-114B2"},
-		// Unsaturated: fourth digit counts C=C bonds (CONTROL_RULES.md §7 [V])
+		// Unsaturated: fourth digit counts C=C bonds (ASHRAE 34 / ISO 817)
 		{"HFO-1234yf", "R-1234yf", "R", "1234yf", "C3H2F4", "yf", "R-1234yf"},
 		{"HFO-1234yf class prefix", "HFO-1234yf", "HFO", "1234yf", "C3H2F4", "yf", "R-1234yf"},
 		{"HFO-1234ze(E)", "R-1234ze(E)", "R", "1234ze(E)", "C3H2F4", "ze(E)", "R-1234ze(E)"},
@@ -64,7 +64,7 @@ func TestParseDesignation(t *testing.T) {
 		{"methane", "R-50", "R", "50", "CH4", "", "R-50"},
 		{"propane", "R-290", "R", "290", "C3H8", "", "R-290"},
 		{"propylene", "R-1270", "R", "1270", "C3H6", "", "R-1270"},
-		// Cyclic: prefix C (CONTROL_RULES.md §7 [V], secondary); C4F8 from halocarbons.csv
+		// Cyclic: prefix C (ASHRAE 34, as summarised in secondary sources); C4F8 from halocarbons.csv
 		{"PFC-C318", "PFC-C318", "PFC", "C318", "C4F8", "", "R-C318"},
 		{"RC318 joined", "RC318", "R", "C318", "C4F8", "", "R-C318"},
 		{"R-C-318", "R-C-318", "R", "C318", "C4F8", "", "R-C318"},
@@ -98,7 +98,7 @@ func TestParseDesignation(t *testing.T) {
 
 func TestParseDesignationNotSingleCompound(t *testing.T) {
 	tests := []struct{ name, in, canonical string }{
-		// CONTROL_RULES.md §7: 400/500 series blends, 600/700 series (secondary sources)
+		// ASHRAE 34: 400/500 series blends, 600/700 series (as summarised in secondary sources)
 		{"R-404A", "R-404A", "R-404A"},
 		{"R-404A lower case", "r-404a", "R-404A"},
 		{"R-407C", "R-407C", "R-407C"},
@@ -110,7 +110,7 @@ func TestParseDesignationNotSingleCompound(t *testing.T) {
 		{"carbon dioxide", "R-744", "R-744"},
 		// from memory: inorganic numbers are 700 plus molar mass and run past 800 (R-846 SF6)
 		{"sulfur hexafluoride", "R-846", "R-846"},
-		// from memory: E marks ethers, R-E170 dimethyl ether (DOMAIN.md §2)
+		// from memory: E marks ethers, R-E170 dimethyl ether
 		{"dimethyl ether", "R-E170", "R-E170"},
 	}
 	for _, tc := range tests {
@@ -191,7 +191,8 @@ func TestParseDesignationRejects(t *testing.T) {
 
 func TestIsomerSuffix(t *testing.T) {
 	tests := []struct{ name, structure, want string }{
-		// source: CONTROL_RULES.md §7 ethane examples (ISO 817 text, formulas in S18)
+		// source: ethane isomer examples of the ISO 817:2014 numbering clause; formulas of the
+		// Annex C and F entries (testdata/reference/montreal_protocol_annexes.csv)
 		{"HFC-134", "CHF2CHF2", ""},
 		{"HFC-134a", "CH2FCF3", "a"},
 		{"HFC-143", "CH2FCHF2", ""},
@@ -206,7 +207,8 @@ func TestIsomerSuffix(t *testing.T) {
 		{"HCFC-142b", "CH3CClF2", "b"},
 		{"CFC-113", "CCl2FCClF2", ""},
 		{"written from the other end", "CF3CH2F", "a"},
-		// source: CONTROL_RULES.md §7, the 8 propane isomers of the annexes (rule [U])
+		// source: the 8 propane isomers of Annexes C and F; the two-letter suffix rule is from
+		// memory (no published text seen), and it reproduces every suffix the Annexes use
 		{"HFC-245fa", "CHF2CH2CF3", "fa"},
 		{"HFC-245ca", "CH2FCF2CHF2", "ca"},
 		{"HFC-236fa", "CF3CH2CF3", "fa"},
@@ -402,7 +404,8 @@ func TestDesignationAgainstReference(t *testing.T) {
 
 func TestHalonFormulaNumber(t *testing.T) {
 	tests := []struct{ name, number, hill string }{
-		// source: DOMAIN.md §2 and §4; formulas from halocarbons.csv
+		// source: halon numbering (digits count C, F, Cl, Br; common practice); formulas from
+		// testdata/reference/halocarbons.csv
 		{"halon-1211", "1211", "CBrClF2"},
 		{"halon-1301", "1301", "CBrF3"},
 		{"halon-2402", "2402", "C2Br2F4"},
@@ -445,7 +448,7 @@ func TestHalonFormulaNumber(t *testing.T) {
 
 func TestNumberForFormula(t *testing.T) {
 	tests := []struct{ name, formula, want string }{
-		// source: DOMAIN.md §4 and CONTROL_RULES.md §7 (number + 90 rule)
+		// source: ASHRAE 34 / ISO 817 numbering (number + 90 rule)
 		{"HFC-134", "C2H2F4", "134"},
 		{"HBFC-22B1", "CHBrF2", "22B1"},
 		{"HFO-1234", "C3H2F4", "1234"},

@@ -11,16 +11,11 @@ import (
 	"testing"
 )
 
-// codecReferenceRows reads /work/shared/reference/halocarbons.csv (or the file named by
-// HALOVET_REFERENCE_DIR) as one map per row. The test is skipped where the reference data
-// is not present; the inline tables below do not depend on it.
+// codecReferenceRows reads testdata/reference/halocarbons.csv as one map per row. A missing
+// or shortened table fails the calling test; the inline tables below do not depend on it.
 func codecReferenceRows(t *testing.T) []map[string]string {
 	t.Helper()
-	dir := codecReferenceDir()
-	fh, err := os.Open(filepath.Join(dir, "halocarbons.csv"))
-	if errors.Is(err, os.ErrNotExist) {
-		t.Skipf("reference data not found in %s (set HALOVET_REFERENCE_DIR)", dir)
-	}
+	fh, err := os.Open(filepath.Join(referenceDir(t), "halocarbons.csv"))
 	if err != nil {
 		t.Fatalf("open reference data: %v", err)
 	}
@@ -43,19 +38,11 @@ func codecReferenceRows(t *testing.T) []map[string]string {
 	return rows
 }
 
-// codecReferenceDir is where the shared reference data lives.
-func codecReferenceDir() string {
-	if dir := os.Getenv("HALOVET_REFERENCE_DIR"); dir != "" {
-		return dir
-	}
-	return filepath.Join("..", "..", "shared", "reference")
-}
-
 func TestParseFormulaHill(t *testing.T) {
 	tests := []struct {
 		name, in, hill string
 	}{
-		// source for every formula: /work/shared/reference/halocarbons.csv (formula and structure columns)
+		// source for every formula: testdata/reference/halocarbons.csv (formula and structure columns)
 		{"CFC-11 Hill", "CCl3F", "CCl3F"},
 		{"HCFC-22 Hill", "CHClF2", "CHClF2"},
 		{"HFC-134a Hill", "C2H2F4", "C2H2F4"},
@@ -154,25 +141,25 @@ func TestMolarMass(t *testing.T) {
 		want          float64 // g/mol
 		tol           float64
 	}{
-		// source: DOMAIN.md §3 weights, computed by hand: 12.011 + 3*35.45 + 18.998
+		// source: IUPAC abridged standard atomic weights, computed by hand: 12.011 + 3*35.45 + 18.998
 		{"CFC-11 by hand", "CCl3F", 137.359, 1e-9},
-		// source: DOMAIN.md §3 weights, computed by hand: 12.011 + 1.008 + 35.45 + 2*18.998
+		// source: IUPAC abridged standard atomic weights, computed by hand: 12.011 + 1.008 + 35.45 + 2*18.998
 		{"HCFC-22 by hand", "CHClF2", 86.465, 1e-9},
-		// source: DOMAIN.md §3 weights, computed by hand: 2*12.011 + 2*1.008 + 4*18.998
+		// source: IUPAC abridged standard atomic weights, computed by hand: 2*12.011 + 2*1.008 + 4*18.998
 		{"HFC-134a by hand", "C2H2F4", 102.030, 1e-9},
-		// source: /work/shared/reference/halocarbons.csv molar_mass_g_mol; that table used
-		// F = 18.998403, so it sits 0.0004 g/mol per fluorine atom above DOMAIN.md's 18.998
+		// source: testdata/reference/halocarbons.csv molar_mass_g_mol; that table used
+		// F = 18.998403, so it sits 0.0004 g/mol per fluorine atom above the abridged 18.998
 		{"CFC-11 reference", "CCl3F", 137.359, 0.0005},
 		{"HCFC-22 reference", "CHClF2", 86.466, 0.0015},
 		{"HFC-134a reference", "C2H2F4", 102.032, 0.0025},
 		{"halon-2402 reference", "C2Br2F4", 259.824, 0.0025},
 		// source: NIST Chemistry WebBook molecular weights (from memory): CCl3F 137.368,
-		// CHClF2 86.468, CF3CH2F 102.031. The WebBook uses Cl = 35.453 where DOMAIN.md §3
-		// prescribes the abridged 35.45, so CFC-11 (3 Cl) sits 0.009 below it: within 0.01.
+		// CHClF2 86.468, CF3CH2F 102.031. The WebBook uses Cl = 35.453 where the IUPAC
+		// abridged weight is 35.45, so CFC-11 (3 Cl) sits 0.009 below it: within 0.01.
 		{"CFC-11 handbook", "CCl3F", 137.368, 0.01},
 		{"HCFC-22 handbook", "CHClF2", 86.468, 0.01},
 		{"HFC-134a handbook", "C2H2F4", 102.031, 0.01},
-		// source: IUPAC abridged weights of DOMAIN.md §3, computed by hand: 12.011 + 2*15.999
+		// source: IUPAC abridged standard atomic weights, computed by hand: 12.011 + 2*15.999
 		{"CO2 by hand", "CO2", 44.009, 1e-9},
 	}
 	for _, tc := range tests {
@@ -272,7 +259,7 @@ func TestFormulaAgainstReference(t *testing.T) {
 			if err != nil {
 				t.Fatalf("molar_mass_g_mol %q: %v", row["molar_mass_g_mol"], err)
 			}
-			// The reference used F = 18.998403; DOMAIN.md §3 prescribes 18.998.
+			// The reference used F = 18.998403; the catalogue uses the IUPAC abridged 18.998.
 			if tol := 0.0005 + 0.00041*float64(f.Count("F")); math.Abs(m-want) > tol {
 				t.Errorf("MolarMass(%s) = %.4f, reference %.3f (tolerance %.4f)", row["formula"], m, want, tol)
 			}

@@ -38,7 +38,8 @@ type HSSubheading struct {
 
 // hsTable lists the subheadings of chapters 29 and 38 that hold controlled halocarbons, and
 // their neighbours that a declaration may name. Source: WCO HS 2017/HS 2022 nomenclature (UN Comtrade
-// descriptions of HS 2022 and HS 2017; S22, S23). Shared follows the caution list of §6;
+// descriptions of HS 2022 and HS 2017; WCO Recommendation of 25 June 1999 on ODS codes; UNEP
+// OzonAction HS code fact sheets). Shared marks subheadings whose text covers uncontrolled goods too;
 // where it is derived, the comment says so.
 var hsTable = []HSSubheading{
 	{HS2022, "2903.14", "Carbon tetrachloride", false, HSStatusVerified},
@@ -71,7 +72,7 @@ var hsTable = []HSSubheading{
 	{HS2022, "3827.13", "Mixtures containing carbon tetrachloride", false, HSStatusVerified},
 	{HS2022, "3827.14", "Mixtures containing 1,1,1-trichloroethane (methyl chloroform)", false, HSStatusVerified},
 	{HS2022, "3827.20", "Mixtures containing halon-1211, halon-1301 or dibromotetrafluoroethanes (halon-2402)", false, HSStatusVerified},
-	// 3827.31: S21 text cut off; the range 2903.41-2903.48 is from memory.
+	// 3827.31: the UN Comtrade description is cut off; the range 2903.41-2903.48 is from memory.
 	{HS2022, "3827.31", "Mixtures containing HCFCs, without CFCs: containing substances of subheadings 2903.41 to 2903.48 (range unverified)", false, HSStatusPartly},
 	{HS2022, "3827.32", "Mixtures containing HCFCs, without CFCs: other, containing substances of subheadings 2903.71 to 2903.75", false, HSStatusVerified},
 	{HS2022, "3827.39", "Mixtures containing HCFCs, without CFCs: other", true, HSStatusVerified},
@@ -90,7 +91,7 @@ var hsTable = []HSSubheading{
 	{HS2022, "3827.69", "Other HFC mixtures: other", true, HSStatusVerified},
 	{HS2022, "3827.90", "Other mixtures containing halogenated derivatives of methane, ethane or propane", true, HSStatusVerified},
 
-	// HS 2017 (S21 commit a72bef2). 2903.14 and 2903.19 are not listed for HS 2017 in
+	// HS 2017 (UN Comtrade HS 2017 descriptions). 2903.14 and 2903.19 are not listed for HS 2017 in
 	// the WCO HS 2022 nomenclature; that they were unchanged from HS 2022 is from memory.
 	{HS2017, "2903.14", "Carbon tetrachloride", false, HSStatusUnverified},
 	{HS2017, "2903.19", "Other saturated chlorinated derivatives of acyclic hydrocarbons (includes 1,1,1-trichloroethane)", true, HSStatusUnverified},

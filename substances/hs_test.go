@@ -68,7 +68,8 @@ func TestLookupHS(t *testing.T) {
 		shared  bool
 		status  string
 	}{
-		// source: CONTROL_RULES.md §6 table of heading 29.03 and 38.27 and its status tags
+		// source: WCO Harmonized System 2022 and 2017 nomenclature, headings 29.03, 38.24 and
+		// 38.27; status as the catalogue's HS table marks it
 		{"HCFC-22 2022", HS2022, "290371", true, "HCFC-22", false, HSStatusVerified},
 		{"CFC group 2022", HS2022, "2903.77", true, "perhalogenated only with fluorine and chlorine", true, HSStatusVerified},
 		{"other HCFCs 2022", HS2022, "2903.79.00", true, "HBFCs", true, HSStatusVerified},
@@ -105,7 +106,7 @@ func TestLookupHS(t *testing.T) {
 }
 
 // TestHS2022AnnexFSubheadings checks that each of the 18 Annex F substances is named in its
-// HS 2022 subheading (source: DOMAIN.md §4 and CONTROL_RULES.md §6, 2903.41-2903.48).
+// HS 2022 subheading (source: WCO HS 2022 nomenclature, subheadings 2903.41-2903.48).
 func TestHS2022AnnexFSubheadings(t *testing.T) {
 	want := map[string]string{
 		"HFC-23": "2903.41", "HFC-32": "2903.42", "HFC-41": "2903.43", "HFC-152": "2903.43",
@@ -155,16 +156,17 @@ func TestHSTableConsistent(t *testing.T) {
 			t.Errorf("%s: empty text", key)
 		}
 	}
-	// source: CONTROL_RULES.md §6 — the subheadings tagged [P]
+	// source: the HS 2022 subheadings whose full text was confirmed only in part (thresholds,
+	// ranges or last clauses of 3827.31-3827.68 not read in the WCO text)
 	for _, code := range []string{"3827.31", "3827.40", "3827.62", "3827.63", "3827.64", "3827.65", "3827.68"} {
 		if s, _ := LookupHS(HS2022, code); s.Status != HSStatusPartly {
-			t.Errorf("%s status %q, CONTROL_RULES.md §6 tags it partly verified", code, s.Status)
+			t.Errorf("%s status %q, want partly verified: part of its WCO text is unconfirmed", code, s.Status)
 		}
 	}
-	// source: CONTROL_RULES.md §6 caution: subheadings that mix controlled and uncontrolled goods
+	// source: WCO HS 2022 texts of these "other" subheadings, which hold controlled and uncontrolled goods alike
 	for _, code := range []string{"2903.19", "2903.49", "2903.77", "2903.79", "3827.39", "3827.69", "3827.90"} {
 		if s, _ := LookupHS(HS2022, code); !s.Shared {
-			t.Errorf("%s should be Shared (CONTROL_RULES.md §6 caution)", code)
+			t.Errorf("%s should be Shared: its WCO HS 2022 text covers uncontrolled goods too", code)
 		}
 	}
 }
@@ -179,7 +181,7 @@ func TestMixtureHS(t *testing.T) {
 		note2017 string
 	}{
 		{
-			// composition: blend_components.csv R-404A 44/52/4; 3827.61 [V] CONTROL_RULES.md §6
+			// composition: blend_components.csv R-404A 44/52/4; 3827.61 (WCO HS 2022 text)
 			name:   "R-404A, 52 % HFC-143a",
 			shares: []HSShare{{"HFC-125", GroupFI, 44}, {"HFC-143a", GroupFI, 52}, {"HFC-134a", GroupFI, 4}},
 			hs2022: "3827.61", note2022: "52 % by mass of HFC-143a",
@@ -193,7 +195,7 @@ func TestMixtureHS(t *testing.T) {
 			hs2017: "3824.78",
 		},
 		{
-			// 15 % threshold of 3827.61 (CONTROL_RULES.md §6 [V]), invented composition
+			// 15 % threshold of 3827.61 (WCO HS 2022 text), invented composition
 			name:   "15 % HFC-143a is enough",
 			shares: []HSShare{{"HFC-143a", GroupFI, 15}, {"HFC-134a", GroupFI, 85}},
 			hs2022: "3827.61",
@@ -248,7 +250,7 @@ func TestMixtureHS(t *testing.T) {
 			hs2017: "3824.74",
 		},
 		{
-			// HCFC-124 is in 2903.79, not 2903.71-.75 (CONTROL_RULES.md §6); invented composition
+			// HCFC-124 is in 2903.79, not 2903.71-.75 (WCO HS 2022 texts of 2903.71-2903.79); invented composition
 			name:   "HCFC-124 with propane",
 			shares: []HSShare{{"HCFC-124", GroupCI, 90}, {"R-290", GroupNone, 10}},
 			hs2022: "3827.39", note2022: "outside subheadings 2903.71-2903.75",
@@ -269,7 +271,7 @@ func TestMixtureHS(t *testing.T) {
 			hs2017: "3824.78",
 		},
 		{
-			// PFC before the other-HFC group (CONTROL_RULES.md §6 3827.59); invented composition
+			// PFC before the other-HFC group (WCO HS 2022 order of 3827.51-3827.69); invented composition
 			name:   "PFC-218 with HFC-143a",
 			shares: []HSShare{{"PFC-218", GroupNone, 50}, {"HFC-143a", GroupFI, 50}},
 			hs2022: "3827.59", note2022: "PFC-218",
@@ -396,14 +398,14 @@ func TestMixtureHS(t *testing.T) {
 // TestMixtureHSReferenceBlends classifies every blend of the reference table and checks what
 // must hold whatever the composition: a decided code is a verified subheading of its edition,
 // a blend with a CFC goes to 3827.11 / 3824.71, one with an HCFC and no CFC to 3824.74, and
-// a partly verified subheading is never chosen (source: blend_components.csv,
-// halocarbons.csv for the groups, CONTROL_RULES.md §6).
+// a partly verified subheading is never chosen (source: testdata/reference/blend_components.csv,
+// halocarbons.csv for the groups, WCO HS 2022 heading 38.27 and HS 2017 heading 38.24).
 func TestMixtureHSReferenceBlends(t *testing.T) {
 	groups := map[string]Group{}
 	for _, row := range codecReferenceRows(t) {
 		groups[row["designation"]] = Group(row["mp_annex_group"])
 	}
-	fh, err := os.Open(filepath.Join(codecReferenceDir(), "blend_components.csv"))
+	fh, err := os.Open(filepath.Join(referenceDir(t), "blend_components.csv"))
 	if err != nil {
 		t.Fatalf("open blend_components.csv: %v", err)
 	}

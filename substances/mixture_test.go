@@ -8,7 +8,8 @@ import (
 )
 
 // roundHalfUp rounds to the integer, halves up, as the published blend GWPs are rounded
-// (reference SOURCES.md §3: R-407F 1824.5 -> 1825, R-410A 2087.5 -> 2088). The small
+// (UK government guidance "Calculate the carbon dioxide equivalent quantity of an F gas":
+// R-407F 1824.5 -> 1825, R-410A 2087.5 -> 2088; testdata/reference/blends.csv). The small
 // allowance absorbs binary floating-point error in sums such as 0.3 × 675.
 func roundHalfUp(x float64) float64 { return math.Floor(x + 0.5 + 1e-9) }
 
@@ -40,9 +41,9 @@ func TestBlendGWPWorkedExamples(t *testing.T) {
 		conv  string
 		want  float64
 	}{
-		// source: DOMAIN.md §3 check values, AR4 basis as published in EU F-gas tables; R-404A,
-		// R-410A and R-507A also printed by the UK government CO2e table (reference SOURCES.md §3).
-		// The R-407C value was not found in a stored copy of a table (memory of the EU figure).
+		// source: AR4-basis blend GWPs (the method of Regulation (EU) No 517/2014 Annex IV); R-404A,
+		// R-410A and R-507A printed by the UK government CO2e table (testdata/reference/blends.csv
+		// gwp_ar4_published). The R-407C value was not found in a stored copy of a table (memory of the EU figure).
 		{"R-404A", SetAR4, ConventionAnnexFOnly, 3922},
 		{"R-407C", SetAR4, ConventionAnnexFOnly, 1774},
 		{"R-410A", SetAR4, ConventionAnnexFOnly, 2088},
@@ -50,11 +51,11 @@ func TestBlendGWPWorkedExamples(t *testing.T) {
 		// The Protocol's own GWPs (Annex F) give the same figures for HFC-only blends.
 		{"R-404A", SetProtocol, ConventionAnnexFOnly, 3922},
 		{"R-410A", SetProtocol, ConventionAnnexFOnly, 2088},
-		// source: DOMAIN.md §3 and reference SOURCES.md §4 item 13: R-438A is 2264 counting its
+		// source: UK government CO2e table and testdata/reference/blends.csv: R-438A is 2264 counting its
 		// HFCs only (UK published value) and 2265 with butane 4 and isopentane 5 (EU 517/2014 Annex IV).
 		{"R-438A", SetAR4, ConventionAnnexFOnly, 2264},
 		{"R-438A", SetAR4, ConventionAllComponents, 2265},
-		// source: UK government CO2e table (reference SOURCES.md §3), R-417A 2346 (HFCs only).
+		// source: UK government CO2e table (testdata/reference/blends.csv), R-417A 2346 (HFCs only).
 		{"R-417A", SetAR4, ConventionAnnexFOnly, 2346},
 	}
 	for _, tc := range tests {
@@ -70,7 +71,7 @@ func TestBlendGWPWorkedExamples(t *testing.T) {
 func TestEvaluateSubstance(t *testing.T) {
 	c := testCatalogue(t)
 	t.Run("1000 kg HCFC-141b is 0.11 ODP tonnes", func(t *testing.T) {
-		// source: Montreal Protocol Annex C Group I, HCFC-141b ODP 0.11 (DOMAIN.md §2)
+		// source: Montreal Protocol Annex C Group I, HCFC-141b ODP 0.11
 		ev := mustEvaluate(t, c, "HCFC-141b", 1000)
 		if !near(ev.ODPTonnes, 0.11) || ev.CO2eTonnes != 0 || ev.Kind != KindSubstance {
 			t.Errorf("ODP t %g, CO2e t %g, kind %v; want 0.11, 0 (HCFCs count in ODP tonnes), substance", ev.ODPTonnes, ev.CO2eTonnes, ev.Kind)
@@ -78,13 +79,13 @@ func TestEvaluateSubstance(t *testing.T) {
 		if len(ev.Components) != 1 || ev.Components[0].MassKg != 1000 || ev.Components[0].Group != GroupCI {
 			t.Errorf("components %+v", ev.Components)
 		}
-		// source: Kigali Annex C GWP of HCFC-141b 725 (DOMAIN.md §2), shown but not counted in CO2e
+		// source: Kigali Annex C GWP of HCFC-141b 725, shown but not counted in CO2e
 		if ev.Components[0].ProtocolGWP != 725 {
 			t.Errorf("Protocol GWP %g, want 725", ev.Components[0].ProtocolGWP)
 		}
 	})
 	t.Run("10 kg HFC-134a is 14.3 CO2-eq tonnes", func(t *testing.T) {
-		// source: Annex F GWP of HFC-134a 1430 (DOMAIN.md §2): 0.01 t × 1430
+		// source: Annex F GWP of HFC-134a 1430: 0.01 t × 1430
 		ev := mustEvaluate(t, c, "R-134a", 10)
 		if !near(ev.CO2eTonnes, 14.3) || ev.ODPTonnes != 0 || ev.Designation != "HFC-134a" {
 			t.Errorf("%s: CO2e t %g, ODP t %g; want HFC-134a 14.3, 0", ev.Designation, ev.CO2eTonnes, ev.ODPTonnes)
@@ -97,7 +98,7 @@ func TestEvaluateSubstance(t *testing.T) {
 			t.Errorf("%s ODP t %g, want methyl bromide 0.3", ev.Designation, ev.ODPTonnes)
 		}
 		if ev.HS2022 != "2903.61" || ev.HS2017 != "2903.39" {
-			t.Errorf("HS %s / %s, want 2903.61 / 2903.39 (CONTROL_RULES.md §6)", ev.HS2022, ev.HS2017)
+			t.Errorf("HS %s / %s, want 2903.61 / 2903.39 (WCO HS 2022 and HS 2017)", ev.HS2022, ev.HS2017)
 		}
 	})
 	t.Run("isomer group uses the upper ODP", func(t *testing.T) {
@@ -149,13 +150,13 @@ func TestEvaluateBlend(t *testing.T) {
 		if !near(ev.ODPTonnes, 0.488*0.055+0.512*0.6) || ev.CO2eTonnes != 0 {
 			t.Errorf("ODP t %g CO2e t %g", ev.ODPTonnes, ev.CO2eTonnes)
 		}
-		// source: CONTROL_RULES.md §6, 3827.11 and 3824.71 (mixtures containing CFCs) [V]
+		// source: WCO HS 2022 3827.11 and HS 2017 3824.71 (mixtures containing CFCs)
 		if ev.HS2022 != "3827.11" || ev.HS2017 != "3824.71" {
 			t.Errorf("HS %s / %s, want 3827.11 / 3824.71", ev.HS2022, ev.HS2017)
 		}
 	})
 	t.Run("HFC blend HS codes", func(t *testing.T) {
-		// source: CONTROL_RULES.md §6: 3827.61 (>= 15 % HFC-143a) [V]; HS 2017 3824.78 [V]
+		// source: WCO HS 2022 3827.61 (>= 15 % HFC-143a); HS 2017 3824.78
 		ev := mustEvaluate(t, c, "R-404A", 1)
 		if ev.HS2022 != "3827.61" || ev.HS2017 != "3824.78" {
 			t.Errorf("HS %s / %s, want 3827.61 / 3824.78", ev.HS2022, ev.HS2017)
@@ -325,7 +326,7 @@ func TestCautions(t *testing.T) {
 		notWant []string
 	}{
 		// source: ASHRAE 34 classes (from memory) R-22 A1, R-32 A2L, R-152a A2, R-290 A3,
-		// R-717 B2L, R-123 B1; DOMAIN.md §6
+		// R-717 B2L, R-123 B1; cautions (asphyxiation, frostbite, toxic decomposition): common practice
 		{"R-22", []string{"Asphyxiation", "Frostbite", "Toxic decomposition", "decision support"}, []string{"flammab", "toxicity"}},
 		{"R-32", []string{"Lower flammability (ASHRAE 34 class A2L)"}, []string{"Highly"}},
 		{"R-152a", []string{"Flammable (ASHRAE 34 class A2)"}, nil},

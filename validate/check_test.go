@@ -8,7 +8,9 @@ import (
 	"github.com/halovet/halovet/substances"
 )
 
-// TestTradeBanStart checks the Article 4 table against reference/CONTROL_RULES.md §5.
+// TestTradeBanStart checks the Article 4 table against Art. 4 of the Montreal Protocol and the
+// amendments' entry-into-force dates (UN Treaty Collection). Marks: V read in the text, D derived
+// (entry into force + 1 year), U unverified; see controls/data/README.md.
 func TestTradeBanStart(t *testing.T) {
 	cases := []struct {
 		g        substances.Group
@@ -38,7 +40,7 @@ func TestTradeBanStart(t *testing.T) {
 }
 
 // TestNonPartyBanDates checks that the ban starts on its day, per direction (CFCs: imports
-// from 1990-01-01, exports from 1993-01-01; reference/CONTROL_RULES.md §5 [V]).
+// from 1990-01-01, exports from 1993-01-01; Art. 4 paras 1 and 2).
 func TestNonPartyBanDates(t *testing.T) {
 	env := testEnv(t)
 	cases := []struct {
@@ -128,10 +130,10 @@ func TestDrawAndPlanDraws(t *testing.T) {
 		{LineNumber: 6, Group: substances.GroupAI, Unit: QuotaODPTonnes},
 	}
 	want := []float64{
-		0.6 * 3500,   // HFC-125 only: 0.6 t × 3500 (source: DOMAIN.md §2, Annex F GWP of HFC-125)
-		0.38 * 0.055, // HCFC-22 only: 0.38 t × ODP 0.055 (source: DOMAIN.md §2)
+		0.6 * 3500,   // HFC-125 only: 0.6 t × 3500 (source: Montreal Protocol Annex F GWP of HFC-125)
+		0.38 * 0.055, // HCFC-22 only: 0.38 t × ODP 0.055 (source: Montreal Protocol Annex C Group I)
 		0.38,         // metric tonnes of the C/I component
-		0.38 * 1810,  // Kigali-listed GWP of HCFC-22 1810 (source: DOMAIN.md §2)
+		0.38 * 1810,  // Kigali-listed GWP of HCFC-22 1810 (source: Annex C Group I GWP column)
 		0.38,         // substance line
 		0,            // nothing of Annex A/I in R-402A
 	}
@@ -157,7 +159,7 @@ func TestDrawAndPlanDraws(t *testing.T) {
 func TestBatchLedgerAndDuplicates(t *testing.T) {
 	env := testEnv(t)
 	b := NewBatch(env)
-	// Line 2 of XA-IMP-2025-001 has 0.5 ODP t left; 5 t HCFC-22 = 0.275 ODP t (ODP 0.055, DOMAIN.md §2).
+	// Line 2 of XA-IMP-2025-001 has 0.5 ODP t left; 5 t HCFC-22 = 0.275 ODP t (ODP 0.055, Montreal Protocol Annex C Group I).
 	first := baseRecord()
 	first.Key, first.Quantity, first.Unit, first.ContainerCount = "B-1", "5", "t", 0
 	v1 := b.Check(&first)

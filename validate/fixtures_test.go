@@ -104,8 +104,8 @@ func testLicences() map[string]*Licence {
 }
 
 // testAllowed is an INVENTED stand-in for the reporting Party's schedule (package controls owns
-// the real ones). Its percentages follow the non-Article 5 steps of reference/CONTROL_RULES.md
-// §4a for the years the tests use: CFCs, halons, Annex B, HBFCs, bromochloromethane and methyl
+// the real ones). Its percentages follow the non-Article 5 steps of Arts. 2A-2J
+// for the years the tests use: CFCs, halons, Annex B, HBFCs, bromochloromethane and methyl
 // bromide at 0 from 2005; HCFCs 0.5 (servicing tail) in 2020-2029 and 0 from 2030; HFCs 60 in
 // 2024-2028. Years before 1990 have no schedule.
 func testAllowed(g substances.Group, year int) (float64, bool) {
@@ -147,8 +147,8 @@ func testEnv(t testing.TB) *Env {
 }
 
 // baseRecord is a clean import: 10 cylinders of 13.6 kg HCFC-22 for servicing, on an INVENTED
-// licence. Identifiers: CAS 75-45-6 and formula CHClF2 (source: reference/halocarbons.csv),
-// HS 2903.71 (source: reference/CONTROL_RULES.md §6).
+// licence. Identifiers: CAS 75-45-6 and formula CHClF2 (source: testdata/reference/halocarbons.csv),
+// HS 2903.71 (source: WCO HS 2022 nomenclature).
 func baseRecord() Record {
 	return Record{
 		Key: "K-1", Line: 2, Direction: DirectionImport, CompanyID: "CO-1", LicenceNumber: "XA-IMP-2025-001",

@@ -8,8 +8,9 @@ import (
 )
 
 // TestExemptPurpose checks the purposes that let an import of a phased-out group pass
-// (reference/CONTROL_RULES.md §1: feedstock, destruction, process agents, QPS for methyl
-// bromide; DOMAIN.md §5: laboratory, essential and critical uses).
+// (Art. 1 paras 4-5 and Decision VII/30: feedstock; Art. 1 para 5 and Decision IV/11:
+// destruction; Decision X/14: process agents; Art. 2H para 6: QPS for methyl bromide;
+// Decisions VI/9, IV/25 and IX/6: laboratory, essential and critical uses).
 func TestExemptPurpose(t *testing.T) {
 	for p := PurposeUnspecified; p <= PurposeOther; p++ {
 		for _, g := range []substances.Group{substances.GroupAI, substances.GroupEI} {

@@ -107,7 +107,7 @@ func TestReportWriters(t *testing.T) {
 		t.Fatalf("CSV report: %d rows, header %v", len(rows), rows[0])
 	}
 	first := rows[1]
-	// 136 kg HCFC-22: 0.00748 ODP t (ODP 0.055, DOMAIN.md §2).
+	// 136 kg HCFC-22: 0.00748 ODP t (ODP 0.055, Montreal Protocol Annex C Group I).
 	if first[0] != "2" || first[1] != "E-1" || first[2] != "accepted" || first[3] != "HCFC-22" || first[5] != "136" || first[6] != "0.00748" || first[8] != "true" {
 		t.Errorf("first CSV row %v", first)
 	}

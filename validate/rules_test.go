@@ -35,17 +35,17 @@ func r404A(r *Record) {
 }
 
 func hfc134a(r *Record) {
-	// source: reference/halocarbons.csv (CAS, formula); CONTROL_RULES.md §6 (HS 2022 2903.45)
+	// source: testdata/reference/halocarbons.csv (CAS, formula); WCO HS 2022 2903.45
 	r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HFC-134a", "2903.45", "811-97-2", "C2H2F4", "12", 1
 }
 
 func cfc12(r *Record) {
-	// source: reference/halocarbons.csv (CAS 75-71-8, CCl2F2); CONTROL_RULES.md §6 (2903.77)
+	// source: testdata/reference/halocarbons.csv (CAS 75-71-8, CCl2F2); WCO HS 2022 2903.77
 	r.Substance, r.HSCode, r.CAS, r.Formula = "CFC-12", "2903.77", "75-71-8", "CCl2F2"
 }
 
 func methylBromide(r *Record) {
-	// source: reference/halocarbons.csv (CAS 74-83-9, CH3Br); CONTROL_RULES.md §6 (2903.61)
+	// source: testdata/reference/halocarbons.csv (CAS 74-83-9, CH3Br); WCO HS 2022 2903.61
 	r.Substance, r.HSCode, r.CAS, r.Formula = "methyl bromide", "2903.61", "74-83-9", "CH3Br"
 }
 
@@ -88,7 +88,7 @@ var ruleCases = []ruleCase{
 	fire(CodeSubstLooseMatch, "formula as substance", func(r *Record) { r.Substance = "CHClF2" }, "HCFC-22", "formula"),
 	silent(CodeSubstLooseMatch, "synonym", func(r *Record) { r.Substance = "R-22" }),
 	fire(CodeSubstNotControlled, "HFO", func(r *Record) {
-		// source: reference/halocarbons.csv (CAS 754-12-1, C3H2F4); CONTROL_RULES.md §6 (2903.51)
+		// source: testdata/reference/halocarbons.csv (CAS 754-12-1, C3H2F4); WCO HS 2022 2903.51
 		r.Substance, r.HSCode, r.CAS, r.Formula, r.LicenceNumber = "HFO-1234yf", "2903.51", "754-12-1", "C3H2F4", ""
 	}, "HFO-1234yf"),
 	silent(CodeSubstNotControlled, "HCFC", nil),
@@ -96,11 +96,11 @@ var ruleCases = []ruleCase{
 	fire(CodeCASFormat, "letters", func(r *Record) { r.CAS = "CAS 75-45-6x" }),
 	silent(CodeCASFormat, "digits without hyphens are read", func(r *Record) { r.CAS = "75456" }),
 	silent(CodeCASFormat, "good layout", nil),
-	// source: CAS check-digit method (reference/CONTROL_RULES.md §8): 75-45-6 is valid, so 75-45-7 is not.
+	// source: CAS check-digit method (CAS, "Check Digit Verification of CAS Registry Numbers"): 75-45-6 is valid, so 75-45-7 is not.
 	fire(CodeCASCheckDigit, "wrong check digit", func(r *Record) { r.CAS = "75-45-7" }, "75-45-7", "give 6"),
 	silent(CodeCASCheckDigit, "right check digit", nil),
 	fire(CodeCASMismatch, "HFC-134a's number on HCFC-22", func(r *Record) { r.CAS = "811-97-2" }, "HFC-134a", "75-45-6"),
-	// 7732-18-5 has a valid check digit (CONTROL_RULES.md §8 self-test) and names no catalogue substance.
+	// 7732-18-5 has a valid check digit (CAS check-digit method; water, from memory) and names no catalogue substance.
 	fire(CodeCASMismatch, "number outside the catalogue", func(r *Record) { r.CAS = "7732-18-5" }, "7732-18-5", "not the number of HCFC-22"),
 	silent(CodeCASMismatch, "own number", nil),
 	fire(CodeCASNotApplicable, "CAS on a blend", func(r *Record) { r404A(r); r.CAS = "354-33-6" }, "R-404A"),
@@ -168,7 +168,7 @@ var ruleCases = []ruleCase{
 	silent(CodePartnerUnknown, "known", nil),
 	fire(CodePartnerSelf, "reporting Party", func(r *Record) { r.PartnerCountry = "xa" }, "XA"),
 	silent(CodePartnerSelf, "other", nil),
-	// source: reference/CONTROL_RULES.md §5: HCFC trade with non-Parties banned from 2004-01-01 [V].
+	// source: Art. 4 paras 1 quin and 2 quin: HCFC trade with non-Parties banned from 2004-01-01.
 	fire(CodePartnerNonParty, "HCFC import from a non-Party", func(r *Record) { r.PartnerCountry = "XD" }, "2004-01-01", "Annex C/I"),
 	fire(CodePartnerNonParty, "re-export counts as export", func(r *Record) {
 		r.PartnerCountry, r.Direction, r.LicenceNumber = "XD", DirectionReExport, "XA-EXP-2025-002"
@@ -211,7 +211,7 @@ var ruleCases = []ruleCase{
 	}, "HCFC-22", "component of R-402A"),
 	silent(CodeLicenceScope, "blend covered by two group lines", func(r *Record) { r.Substance, r.HSCode, r.CAS, r.Formula = "R-402A", "", "", "" }),
 
-	// quota: line 2 (C/I, ODP t) has 1 allocated and 0.5 drawn. source of ODP 0.055: DOMAIN.md §2.
+	// quota: line 2 (C/I, ODP t) has 1 allocated and 0.5 drawn. source of ODP 0.055: Montreal Protocol Annex C Group I.
 	fire(CodeQuotaExceeded, "10 t HCFC-22 = 0.55 ODP t", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "10", "t", 0 }, "0.55 ODP t", "0.5 ODP t remain"),
 	fire(CodeQuotaExceeded, "a gram over a metric-tonne line", func(r *Record) {
 		r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HCFC-141b", "", "", "", "2000.001", 0
@@ -404,7 +404,7 @@ func TestCleanRecord(t *testing.T) {
 		t.Fatalf("clean record: outcome %v, findings %v; want accepted without findings", v.Outcome, v.Findings)
 	}
 	fig := v.Figures
-	// 10 × 13.6 kg = 136 kg; ODP t = 0.136 t × 0.055 (source: DOMAIN.md §2, HCFC-22 ODP 0.055).
+	// 10 × 13.6 kg = 136 kg; ODP t = 0.136 t × 0.055 (source: Montreal Protocol Annex C Group I, HCFC-22 ODP 0.055).
 	if !v.Resolved || fig.Designation != "HCFC-22" || fig.NetMassKg != 136 || math.Abs(fig.ODPTonnes-0.00748) > 1e-12 {
 		t.Errorf("figures %+v; want HCFC-22, 136 kg, 0.00748 ODP t", fig)
 	}

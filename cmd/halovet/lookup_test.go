@@ -60,10 +60,10 @@ func TestLookupTextSubstances(t *testing.T) {
 	lookupLineMatching(t, s, `^HCFC-22 .*from "R22", by synonym R-22`)
 	lookupLineMatching(t, s, `^\s+ODP\s+0\.055$`)                 // source: Montreal Protocol Annex C Group I, HCFC-22 0.055
 	lookupLineMatching(t, s, `^\s+Annex/Group\s+C/I `)            // source: Montreal Protocol Annex C Group I
-	lookupLineMatching(t, s, `^\s+CAS number\s+75-45-6$`)         // source: DOMAIN.md §4 (CAS of HCFC-22)
-	lookupLineMatching(t, s, `^\s+GWP \(100-year\)\s+MP\s+1810 `) // source: Kigali Amendment Annex C Group I GWP column (CONTROL_RULES.md §2)
+	lookupLineMatching(t, s, `^\s+CAS number\s+75-45-6$`)         // source: testdata/reference/halocarbons.csv (CAS of HCFC-22)
+	lookupLineMatching(t, s, `^\s+GWP \(100-year\)\s+MP\s+1810 `) // source: Kigali Amendment Annex C Group I GWP column
 	lookupLineMatching(t, s, `^\s+AR5\s+1760$`)                   // source: IPCC AR5 WG1 Table 8.A.1 (halocarbons.csv gwp100_ar5)
-	lookupLineMatching(t, s, `^\s+HS 2022\s+2903\.71$`)           // source: HS 2022 subheading 2903.71, CONTROL_RULES.md §6
+	lookupLineMatching(t, s, `^\s+HS 2022\s+2903\.71$`)           // source: WCO HS 2022 subheading 2903.71
 	lookupLineMatching(t, s, `^\s+safety class\s+A1 `)            // source: ASHRAE 34 (from memory, as the seed says)
 	lookupLineMatching(t, s, `^\s+lifetime\s+11\.9 years$`)       // source: WMO 2018 via IPCC AR6 Table 7.SM.7 (halocarbons.csv)
 
@@ -71,7 +71,7 @@ func TestLookupTextSubstances(t *testing.T) {
 	// source: Montreal Protocol Annex C Group I, C2H2F3Cl, 3 isomers, ODP 0.02-0.06.
 	lookupLineMatching(t, s, `^\s+ODP\s+0\.06 \(upper end of the Annex range 0\.02–0\.06`)
 	lookupLineMatching(t, s, `^\s+isomers\s+3 `)
-	// source: HS 2022 2903.79 "other" is shared with uncontrolled compounds (CONTROL_RULES.md §6).
+	// source: HS 2022 2903.79 "other" is shared with uncontrolled compounds (WCO HS 2022 text).
 	lookupLineMatching(t, s, `^\s+HS 2022\s+2903\.79\s+\(shared subheading: code alone does not prove identity\)`)
 	lookupLineMatching(t, s, `^\s+CAS number\s+— \(none: the Annex entry is an isomer group\)`)
 
@@ -96,12 +96,13 @@ func TestLookupTextBlend(t *testing.T) {
 	// tolerances +0.5/-1.5 and +1.5/-0.5.
 	lookupLineMatching(t, s, `^\s+HFC-32\s+50\s+\+0\.5/-1\.5\s+F/I$`)
 	lookupLineMatching(t, s, `^\s+HFC-125\s+50\s+\+1\.5/-0\.5\s+F/I$`)
-	// source: UK government CO2-eq table (SOURCES.md §3): R-410A 2088, half-up of 2087.5.
+	// source: UK government CO2-eq table (testdata/reference/blends.csv): R-410A 2088, half-up of 2087.5.
 	lookupLineMatching(t, s, `^\s+AR4\s+2088 \(2087\.5\)\s+2088 \(2087\.5\)$`)
 	lookupLineMatching(t, s, `^\s+MP \(Protocol annex values\)\s+—\s+2088 \(2087\.5\)$`)
 	lookupMustContain(t, s, "all components", "Annex F only (as the Protocol counts)", decisionSupportNotice)
 	// The HS 2022 mixture subheading of an HFC-32/HFC-125 blend rests on partly verified
-	// wording (CONTROL_RULES.md §6 [P]), so it is left undecided with the reason.
+	// wording (thresholds of 3827.62-3827.65 not confirmed in the WCO text), so it is left
+	// undecided with the reason.
 	lookupLineMatching(t, s, `^\s+HS 2022\s+not decided`)
 }
 
@@ -114,7 +115,7 @@ func TestLookupAmbiguousAndUnknown(t *testing.T) {
 	}
 	lookupMustContain(t, err.Error(), `3 of 4`, `"2903.45"`, `"R-4O4A"`, `"75-45-7"`)
 	s := out.String()
-	// source: HS 2022 subheading 2903.45 holds HFC-134a and HFC-134 (CONTROL_RULES.md §6);
+	// source: HS 2022 subheading 2903.45 holds HFC-134a and HFC-134 (WCO HS 2022 text);
 	// CAS numbers from halocarbons.csv.
 	lookupLineMatching(t, s, `^"2903\.45": ambiguous, 2 candidates$`)
 	lookupLineMatching(t, s, `^\s+HFC-134\s+substance\s+F/I\s+HS code\s+HS2022 2903\.45\s+0\.50$`)
@@ -204,7 +205,7 @@ func TestLookupJSONLines(t *testing.T) {
 	}
 	found := false
 	for _, g := range ev.GetGwps() {
-		// source: UK government CO2-eq table (SOURCES.md §3): R-404A 3922 from 3921.6.
+		// source: UK government CO2-eq table (testdata/reference/blends.csv): R-404A 3922 from 3921.6.
 		if g.GetGwpSet() == "AR4" && g.GetConvention() == "all-components" {
 			found = math.Abs(g.GetGwp100()-3921.6) < 1e-9
 		}

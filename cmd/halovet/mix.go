@@ -243,7 +243,7 @@ func mixtureHSText(ev *halovetv1.EvaluateMixtureResponse) string {
 }
 
 // gwpText writes a mixture GWP as the published tables do, rounded half-up to a whole
-// number (SOURCES.md §3: R-410A 2087.5 -> 2088), with the unrounded sum beside it when
+// number (UK government CO2-eq table: R-410A 2087.5 -> 2088), with the unrounded sum beside it when
 // they differ.
 func mixtureGWPText(v float64) string {
 	exact := math.Round(v*1000) / 1000

@@ -24,8 +24,8 @@ func TestMixText(t *testing.T) {
 	}
 	s := out.String()
 	lookupLineMatching(t, s, `^Mixture R-410A, 1000 kg$`)
-	// source: UK government CO2-eq table (SOURCES.md §3): R-410A 2088 (2087.5 unrounded);
-	// 1 t x 2087.5 = 2087.5 CO2-eq t (DOMAIN.md §3).
+	// source: UK government CO2-eq table (testdata/reference/blends.csv): R-410A 2088 (2087.5 unrounded);
+	// 1 t x 2087.5 = 2087.5 CO2-eq t (metric tonnes x GWP, Art. 3 para 2).
 	lookupLineMatching(t, s, `^\s+CO2-eq tonnes\s+2087\.5 `)
 	lookupLineMatching(t, s, `^\s+AR4\s+2088 \(2087\.5\)\s+2088 \(2087\.5\)$`)
 	// Per component: mass %, kg, group, ODP, ODP t, Annex GWP, CO2-eq t, class.
@@ -82,7 +82,7 @@ func TestMixJSON(t *testing.T) {
 	if err := unmarshalDialect(out.Bytes(), &ev); err != nil {
 		t.Fatalf("output is not an EvaluateMixtureResponse in protobuf JSON: %v\n%s", err, out.String())
 	}
-	// source: UK government CO2-eq table (SOURCES.md §3): R-507A 3985; 2 t -> 7970 CO2-eq t.
+	// source: UK government CO2-eq table (testdata/reference/blends.csv): R-507A 3985; 2 t -> 7970 CO2-eq t.
 	if ev.GetDesignation() != "R-507A" || math.Abs(ev.GetCo2ETonnes()-7970) > 1e-6 {
 		t.Errorf("designation %q, CO2-eq t %v; want R-507A and 7970", ev.GetDesignation(), ev.GetCo2ETonnes())
 	}
@@ -144,7 +144,7 @@ func TestMixRequestParsing(t *testing.T) {
 }
 
 func TestMixtureGWPText(t *testing.T) {
-	// Rounding as the published tables do it: half-up of the unrounded sum (SOURCES.md §3:
+	// Rounding as the published tables do it: half-up of the unrounded sum (UK government CO2-eq table:
 	// R-410A 2087.5 -> 2088, R-407F 1824.5 -> 1825).
 	cases := map[float64]string{
 		2087.5:             "2088 (2087.5)",

@@ -147,10 +147,10 @@ type demoParty struct {
 
 // TestDemoConsumptionMatchesFile records the demo batch through the shipment API and
 // checks GetConsumption for 2026 against a sum computed here from shipments.csv, line by
-// line, with the counting rules of DOMAIN.md §5 written out again: imports minus exports
-// to Parties; transit, used/recycled/reclaimed material, feedstock imports and methyl
-// bromide for QPS not counted; exports to a partner not bound for the component's group
-// not deducted; blends split by nominal composition.
+// line, with the counting rules of Art. 1 paras 5-6, Art. 3 and Decisions IV/24 and VII/30
+// written out again: imports minus exports to Parties; transit, used/recycled/reclaimed
+// material, feedstock imports and methyl bromide for QPS not counted; exports to a partner
+// not bound for the component's group not deducted; blends split by nominal composition.
 func TestDemoConsumptionMatchesFile(t *testing.T) {
 	dir := filepath.Join("..", "..", "testdata", "demo")
 	ts := startTestServer(t, nil)
@@ -240,14 +240,14 @@ func TestDemoConsumptionMatchesFile(t *testing.T) {
 		if err != nil {
 			t.Fatalf("line %d recorded with quantity %q", n, get("quantity"))
 		}
-		factor := map[string]float64{"kg": 1, "t": 1000, "g": 0.001, "lb": 0.45359237}[get("quantity_unit")] // 1 lb = 0.45359237 kg exactly (DOMAIN.md §3)
+		factor := map[string]float64{"kg": 1, "t": 1000, "g": 0.001, "lb": 0.45359237}[get("quantity_unit")] // 1 lb = 0.45359237 kg exactly (international yard and pound, 1959)
 		if factor == 0 {
 			t.Fatalf("line %d recorded with unit %q", n, get("quantity_unit"))
 		}
 		kg := qty * factor
 		if c := get("container_count"); c != "" {
 			cnt, _ := strconv.Atoi(c)
-			kg *= float64(cnt) // quantity per container × containers (DOMAIN.md §3)
+			kg *= float64(cnt) // quantity per container × containers (common practice)
 		}
 		// Components and their mass fractions.
 		type part struct {
