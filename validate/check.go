@@ -74,7 +74,6 @@ type checker struct {
 	fs     []Finding
 
 	netKg   float64
-	fillKg  float64
 	qtyOK   bool
 	date    time.Time
 	dateOK  bool

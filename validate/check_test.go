@@ -159,7 +159,7 @@ func TestBatchLedgerAndDuplicates(t *testing.T) {
 	b := NewBatch(env)
 	// Line 2 of XA-IMP-2025-001 has 0.5 ODP t left; 5 t HCFC-22 = 0.275 ODP t (ODP 0.055, DOMAIN.md §2).
 	first := baseRecord()
-	first.Key, first.Quantity, first.Unit, first.ContainerCount = "B-1", "5", "t", 0
+	first.Key, first.TotalQuantity, first.Unit, first.PackageCount = "B-1", "5", "t", 0
 	v1 := b.Check(&first)
 	if v1.Outcome == OutcomeRejected || len(v1.Draws) != 1 {
 		t.Fatalf("first record: %v %v", v1.Outcome, v1.Findings)
@@ -182,7 +182,7 @@ func TestBatchLedgerAndDuplicates(t *testing.T) {
 	}
 
 	conflict := first
-	conflict.Quantity = "6"
+	conflict.TotalQuantity = "6"
 	v3 := b.Check(&conflict)
 	if _, ok := codesOf(v3)[CodeDupKeyConflict]; !ok || v3.Outcome != OutcomeRejected {
 		t.Errorf("same key, other content: want DUP_KEY_CONFLICT and rejection; got %v %v", v3.Outcome, v3.Findings)

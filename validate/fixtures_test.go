@@ -146,14 +146,14 @@ func testEnv(t testing.TB) *Env {
 	return env
 }
 
-// baseRecord is a clean import: 10 cylinders of 13.6 kg HCFC-22 for servicing, on an INVENTED
+// baseRecord is a clean import: 136 kg net of HCFC-22 in 10 cylinders for servicing, on an INVENTED
 // licence. Identifiers: CAS 75-45-6 and formula CHClF2 (source: reference/halocarbons.csv),
 // HS 2903.71 (source: reference/CONTROL_RULES.md §6).
 func baseRecord() Record {
 	return Record{
 		Key: "K-1", Line: 2, Direction: DirectionImport, CompanyID: "CO-1", LicenceNumber: "XA-IMP-2025-001",
 		PartnerCountry: "XB", DeclarationDate: "2025-06-01", Substance: "HCFC-22", HSCode: "2903.71",
-		CAS: "75-45-6", Formula: "CHClF2", Quantity: "13.6", Unit: "kg", ContainerCount: 10,
+		CAS: "75-45-6", Formula: "CHClF2", TotalQuantity: "136", Unit: "kg", PackageCount: 10,
 		Purpose: PurposeServicing, Condition: ConditionVirgin,
 	}
 }

@@ -36,7 +36,7 @@ func r404A(r *Record) {
 
 func hfc134a(r *Record) {
 	// source: reference/halocarbons.csv (CAS, formula); CONTROL_RULES.md §6 (HS 2022 2903.45)
-	r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HFC-134a", "2903.45", "811-97-2", "C2H2F4", "12", 1
+	r.Substance, r.HSCode, r.CAS, r.Formula, r.TotalQuantity, r.PackageCount = "HFC-134a", "2903.45", "811-97-2", "C2H2F4", "12", 1
 }
 
 func cfc12(r *Record) {
@@ -133,30 +133,47 @@ var ruleCases = []ruleCase{
 	silent(CodeFormulaNotApplic, "blend without formula", r404A),
 
 	// quantity
-	fire(CodeQtyMissing, "empty", func(r *Record) { r.Quantity = "" }),
+	fire(CodeQtyMissing, "empty", func(r *Record) { r.TotalQuantity = "" }),
 	silent(CodeQtyMissing, "given", nil),
-	fire(CodeQtyFormat, "decimal comma", func(r *Record) { r.Quantity = "13,6" }, "use a dot"),
-	fire(CodeQtyFormat, "thousands space", func(r *Record) { r.Quantity = "1 250"; r.ContainerCount = 0 }, "without spaces"),
+	fire(CodeQtyFormat, "decimal comma", func(r *Record) { r.TotalQuantity = "13,6" }, "use a dot"),
+	fire(CodeQtyFormat, "thousands space", func(r *Record) { r.TotalQuantity = "1 250"; r.PackageCount = 0 }, "without spaces"),
 	silent(CodeQtyFormat, "dot", nil),
-	fire(CodeQtyNotPositive, "zero", func(r *Record) { r.Quantity = "0" }),
-	fire(CodeQtyNotPositive, "negative", func(r *Record) { r.Quantity = "-3" }),
-	silent(CodeQtyNotPositive, "one gram", func(r *Record) { r.Quantity, r.ContainerCount = "0.001", 0 }),
-	fire(CodeQtyTooLarge, "over 100,000 tonnes", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "100001", "t", 0 }),
-	silent(CodeQtyTooLarge, "100,000 tonnes", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "100000", "t", 0 }),
+	fire(CodeQtyNotPositive, "zero", func(r *Record) { r.TotalQuantity = "0" }),
+	fire(CodeQtyNotPositive, "negative", func(r *Record) { r.TotalQuantity = "-3" }),
+	silent(CodeQtyNotPositive, "one gram", func(r *Record) { r.TotalQuantity, r.PackageCount = "0.001", 0 }),
+	fire(CodeQtyTooLarge, "over 100,000 tonnes", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "100001", "t", 0 }),
+	silent(CodeQtyTooLarge, "100,000 tonnes", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "100000", "t", 0 }),
 	fire(CodeQtyUnitUnknown, "ambiguous ton", func(r *Record) { r.Unit = "ton" }, "short ton"),
 	fire(CodeQtyUnitUnknown, "empty", func(r *Record) { r.Unit = "" }),
 	fire(CodeQtyUnitUnknown, "ounces", func(r *Record) { r.Unit = "oz" }),
 	silent(CodeQtyUnitUnknown, "LBS", func(r *Record) { r.Unit = "LBS" }),
-	fire(CodeQtyContainersInvalid, "negative", func(r *Record) { r.ContainerCount = -1 }),
-	silent(CodeQtyContainersInvalid, "zero", func(r *Record) { r.ContainerCount = 0 }),
-	fire(CodeQtyFillLarge, "1200 kg per container", func(r *Record) { r.Quantity, r.ContainerCount = "1200", 2 }, "1200 kg"),
-	silent(CodeQtyFillLarge, "1000 kg ton container", func(r *Record) { r.Quantity, r.ContainerCount = "1000", 1 }),
-	silent(CodeQtyFillLarge, "large total", func(r *Record) { r.Quantity, r.ContainerCount = "5000", 0 }),
-	fire(CodeQtyFillSmall, "50 g per container", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "50", "g", 10 }, "0.05 kg"),
+	fire(CodeQtyPackagesInvalid, "negative", func(r *Record) { r.PackageCount = -1 }),
+	silent(CodeQtyPackagesInvalid, "not declared", func(r *Record) { r.PackageCount = 0 }),
+	// Per-package plausibility, limits 0.1 kg and 1000 kg per package (common practice).
+	fire(CodeQtyFillLarge, "2400 kg in 2 packages", func(r *Record) { r.TotalQuantity, r.PackageCount = "2400", 2 }, "1200 kg per package"),
+	fire(CodeQtyFillLarge, "1200 kg fill", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "", "1200", 2 }, "1200 kg per package"),
+	silent(CodeQtyFillLarge, "1000 kg ton container", func(r *Record) { r.TotalQuantity, r.PackageCount = "1000", 1 }),
+	silent(CodeQtyFillLarge, "large total, packages not declared", func(r *Record) { r.TotalQuantity, r.PackageCount = "5000", 0 }),
+	fire(CodeQtyFillSmall, "500 g in 10 packages", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "500", "g", 10 }, "0.05 kg per package"),
 	silent(CodeQtyFillSmall, "laboratory ampoules", func(r *Record) {
-		r.Quantity, r.Unit, r.ContainerCount, r.Purpose = "50", "g", 10, PurposeLaboratory
+		r.TotalQuantity, r.Unit, r.PackageCount, r.Purpose = "500", "g", 10, PurposeLaboratory
 	}),
-	silent(CodeQtyFillSmall, "0.1 kg", func(r *Record) { r.Quantity, r.ContainerCount = "0.1", 10 }),
+	silent(CodeQtyFillSmall, "1 kg in 10", func(r *Record) { r.TotalQuantity, r.PackageCount = "1", 10 }),
+	// Total and fill: each figure stands for half a unit of its last decimal either side.
+	fire(CodeQtyTotalFillDisagree, "113 total, 12 × 10", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "113", "12", 10 },
+		"total_net_quantity 113 kg", "net_fill_per_package 12 kg × package_count 10 = 120 kg"),
+	// 11.3 × 10 = 113 ± 0.5, 112 ± 0.5: the intervals 112.5..113.5 and 111.5..112.5 meet at 112.5.
+	silent(CodeQtyTotalFillDisagree, "112 total, 11.3 × 10, edge", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "112", "11.3", 10 }),
+	// 111 ± 0.5 = 110.5..111.5 does not reach 112.5.
+	fire(CodeQtyTotalFillDisagree, "111 total, 11.3 × 10", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "111", "11.3", 10 }),
+	// 113.00 ± 0.005 and 11.30 × 10 ± 0.05: 113.06 is outside 112.945..113.055.
+	fire(CodeQtyTotalFillDisagree, "113.06 total, 11.30 × 10", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "113.06", "11.30", 10 }),
+	silent(CodeQtyTotalFillDisagree, "113 total, 11.3 × 10", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "113", "11.3", 10 }),
+	fire(CodeQtyFillNoPackages, "fill alone", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "", "11.3", 0 }, "package_count"),
+	fire(CodeQtyFillNoPackages, "fill and total without packages", func(r *Record) { r.FillPerPackage, r.PackageCount = "13.6", 0 }),
+	silent(CodeQtyFillNoPackages, "fill with packages", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "", "13.6", 10 }),
+	fire(CodeQtyFormat, "fill with a comma", func(r *Record) { r.FillPerPackage = "13,6" }, "net_fill_per_package"),
+	fire(CodeQtyNotPositive, "zero fill", func(r *Record) { r.TotalQuantity, r.FillPerPackage = "", "0" }, "net_fill_per_package"),
 
 	// party
 	fire(CodePartnerMissing, "empty", func(r *Record) { r.PartnerCountry = "" }),
@@ -212,15 +229,15 @@ var ruleCases = []ruleCase{
 	silent(CodeLicenceScope, "blend covered by two group lines", func(r *Record) { r.Substance, r.HSCode, r.CAS, r.Formula = "R-402A", "", "", "" }),
 
 	// quota: line 2 (C/I, ODP t) has 1 allocated and 0.5 drawn. source of ODP 0.055: DOMAIN.md §2.
-	fire(CodeQuotaExceeded, "10 t HCFC-22 = 0.55 ODP t", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "10", "t", 0 }, "0.55 ODP t", "0.5 ODP t remain"),
+	fire(CodeQuotaExceeded, "10 t HCFC-22 = 0.55 ODP t", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "10", "t", 0 }, "0.55 ODP t", "0.5 ODP t remain"),
 	fire(CodeQuotaExceeded, "a gram over a metric-tonne line", func(r *Record) {
-		r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HCFC-141b", "", "", "", "2000.001", 0
+		r.Substance, r.HSCode, r.CAS, r.Formula, r.TotalQuantity, r.PackageCount = "HCFC-141b", "", "", "", "2000.001", 0
 	}, "line 3"),
 	silent(CodeQuotaExceeded, "exactly the allocation of a metric-tonne line", func(r *Record) {
-		r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HCFC-141b", "", "", "", "2000", 0
+		r.Substance, r.HSCode, r.CAS, r.Formula, r.TotalQuantity, r.PackageCount = "HCFC-141b", "", "", "", "2000", 0
 	}),
-	silent(CodeQuotaExceeded, "9 t HCFC-22 = 0.495 ODP t", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "9", "t", 0 }),
-	fire(CodeQuotaNearLimit, "9 t HCFC-22 takes the line to 99.5 %", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "9", "t", 0 }, "99.5 %"),
+	silent(CodeQuotaExceeded, "9 t HCFC-22 = 0.495 ODP t", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "9", "t", 0 }),
+	fire(CodeQuotaNearLimit, "9 t HCFC-22 takes the line to 99.5 %", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "9", "t", 0 }, "99.5 %"),
 	silent(CodeQuotaNearLimit, "136 kg", nil),
 	fire(CodeQuotaLineInvalid, "line without unit", func(r *Record) { r.LicenceNumber = "XA-IMP-2025-006" }),
 	silent(CodeQuotaLineInvalid, "good line", nil),
