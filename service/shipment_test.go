@@ -195,7 +195,7 @@ func TestCheckShipmentRules(t *testing.T) {
 
 	t.Run("figures", func(t *testing.T) {
 		rec := shipRecord("FIG-1")
-		rec.Substance, rec.NetFillPerPackage, rec.PackageCount = "R-410A", "11.3", 10 // 11.3 kg per package × 10 = 113 kg
+		rec.Substance, rec.TotalNetQuantity, rec.NetFillPerPackage, rec.PackageCount = "R-410A", "", "11.3", 10 // 11.3 kg per package × 10 = 113 kg
 		resp, err := client.CheckShipment(context.Background(), &halovetv1.CheckShipmentRequest{Record: rec})
 		if err != nil {
 			t.Fatal(err)
@@ -209,6 +209,30 @@ func TestCheckShipmentRules(t *testing.T) {
 		}
 		if len(f.GetComponents()) != 2 {
 			t.Errorf("%d components; want HFC-32 and HFC-125", len(f.GetComponents()))
+		}
+	})
+
+	// The measured composition travels on the wire record: a cylinder declared as HCFC-22
+	// that reads as CFC-12 contradicts the declaration (invented reading).
+	t.Run("measured composition", func(t *testing.T) {
+		rec := shipRecord("MEAS-1")
+		rec.MeasuredComposition = []*halovetv1.MeasuredShare{{Identifier: "CFC-12", MassPercent: 100, UncertaintyPoints: 1}}
+		resp, err := client.CheckShipment(context.Background(), &halovetv1.CheckShipmentRequest{Record: rec})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if v := resp.GetVerdict(); !slices.Contains(shipCodes(v), "MEASURED_CONTRADICTS") || !slices.Contains(shipCodes(v), "MEASURED_HIDDEN_CONTROLLED") ||
+			v.GetOutcome() != halovetv1.Outcome_OUTCOME_REJECTED {
+			t.Errorf("%v %v; want rejected with MEASURED_CONTRADICTS and MEASURED_HIDDEN_CONTROLLED", v.GetOutcome(), shipCodes(v))
+		}
+		rec = shipRecord("MEAS-2")
+		rec.MeasuredComposition = []*halovetv1.MeasuredShare{{Identifier: "HCFC-22", MassPercent: 100}}
+		resp, err = client.CheckShipment(context.Background(), &halovetv1.CheckShipmentRequest{Record: rec})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if v := resp.GetVerdict(); !slices.Contains(shipCodes(v), "MEASURED_CONFIRMS") {
+			t.Errorf("%v %v; want MEASURED_CONFIRMS", v.GetOutcome(), shipCodes(v))
 		}
 	})
 }

@@ -193,7 +193,7 @@ func (c *checker) recordRules() {
 	default:
 		c.add(CodeDirectionMissing, "", "direction is not declared; accepted: import, export, re-export, transit")
 	}
-	if r.Purpose < PurposeUnspecified || r.Purpose > PurposeOther {
+	if r.Purpose < PurposeUnspecified || r.Purpose > purposeMax {
 		c.add(CodeFieldUnreadable, "purpose", "purpose %d is not a known purpose number", int(r.Purpose))
 	}
 	if r.Condition < ConditionUnspecified || r.Condition > ConditionReclaimed {

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"testing"
+	"time"
 
 	"github.com/halovet/halovet/substances"
 )
@@ -264,5 +265,32 @@ func TestCheckOfflineWithoutClock(t *testing.T) {
 	r.DeclarationDate = "2999-01-01"
 	if _, ok := codesOf(Check(env, &r, nil))[CodeDateFuture]; !ok {
 		t.Error("a date in 2999 must be in the future for the system clock")
+	}
+}
+
+// TestExemptUseAndTailAcceptance: CFC-12 declared for critical use is rejected (critical uses
+// exist only for methyl bromide: Montreal Protocol Art. 2H para 5; Decision IX/6), and HCFC-22
+// imported for manufacturing in 2026 by a non-Article 5 Party is rejected (the 2020-2029 tail of
+// Art. 2F para 6 is for servicing), while the same import for servicing is accepted.
+func TestExemptUseAndTailAcceptance(t *testing.T) {
+	env := testEnv(t)
+	env.Now = func() time.Time { return time.Date(2026, 6, 15, 0, 0, 0, 0, time.UTC) }
+	r := baseRecord()
+	cfc12(&r)
+	r.LicenceNumber, r.Purpose, r.DeclarationDate = "XA-IMP-OPEN-009", PurposeCriticalUse, "2026-03-02"
+	if v := Check(env, &r, nil); v.Outcome != OutcomeRejected || codesOf(v)[CodeExemptUseWrongGroup].Code == "" {
+		t.Errorf("CFC-12 for critical use: %v %v; want rejected with %s", v.Outcome, v.Findings, CodeExemptUseWrongGroup)
+	}
+	for _, c := range []struct {
+		purpose Purpose
+		reject  bool
+	}{{PurposeManufacturing, true}, {PurposeServicing, false}} {
+		r := baseRecord()
+		r.LicenceNumber, r.Purpose, r.DeclarationDate = "XA-IMP-OPEN-009", c.purpose, "2026-03-02"
+		v := Check(env, &r, nil)
+		_, tail := codesOf(v)[CodeHCFCTailUse]
+		if (v.Outcome == OutcomeRejected) != c.reject || tail != c.reject {
+			t.Errorf("HCFC-22 for %s in 2026 at a non-Article 5 Party: %v %v; want rejected %v", c.purpose, v.Outcome, v.Findings, c.reject)
+		}
 	}
 }

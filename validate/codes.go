@@ -46,8 +46,14 @@ const (
 	CodeQtyPackagesInvalid   = "QTY_PACKAGES_INVALID"
 	CodeQtyFillNoPackages    = "QTY_FILL_WITHOUT_PACKAGES"
 	CodeQtyTotalFillDisagree = "QTY_TOTAL_FILL_DISAGREE"
-	CodeQtyFillLarge         = "QTY_FILL_LARGE"
-	CodeQtyFillSmall         = "QTY_FILL_SMALL"
+
+	// exempted uses and servicing tails (family phase-out)
+	CodeExemptUseWrongGroup   = "EXEMPT_USE_WRONG_GROUP"
+	CodeExemptUseUnauthorised = "EXEMPT_USE_UNAUTHORISED"
+	CodeHCFCTailUse           = "HCFC_TAIL_USE"
+	CodeHCFCTailUseMissing    = "HCFC_TAIL_PURPOSE_MISSING"
+	CodeQtyFillLarge          = "QTY_FILL_LARGE"
+	CodeQtyFillSmall          = "QTY_FILL_SMALL"
 
 	// party
 	CodePartnerMissing  = "PARTNER_MISSING"
@@ -194,6 +200,10 @@ var codeTable = []CodeInfo{
 	// phase-out
 	{CodePhasedOut, SeverityError, "phase-out", "purpose", "The reporting Party's allowed consumption of the group is zero in the declaration year, and the import is neither for an exempted purpose nor of used, recycled or reclaimed material.", "Feedstock, destruction, laboratory, essential use, critical use, process agent, QPS (methyl bromide), or used/recycled/reclaimed material."},
 	{CodePhasedOutExempt, SeverityNotice, "phase-out", "purpose", "The group is phased out for the reporting Party, and the import passes because of its purpose or condition.", "Accepted; the exemption is reported as its decision says."},
+	{CodeExemptUseWrongGroup, SeverityError, "phase-out", "purpose", "Critical use is declared for a phased-out group other than methyl bromide; critical uses exist only for methyl bromide (Article 2H para 5; Decision IX/6).", "The use the substance is authorised for; otherwise the goods are held."},
+	{CodeExemptUseUnauthorised, SeverityError, "phase-out", "purpose", "An essential, critical (methyl bromide), laboratory/analytical or process-agent use of a phased-out group is declared, but the licence does not list that purpose: the use needs an authorisation (Decision IV/25 essential uses; Article 2H para 5 and Decision IX/6 critical uses; Decision VI/9 laboratory and analytical uses; Decision X/14 process agents).", "A licence that lists the purpose, issued within what the Parties authorised; the import then draws on the licence's quota lines like any other."},
+	{CodeHCFCTailUse, SeverityError, "phase-out", "purpose", "An HCFC import during a servicing tail (non-Article 5 2020-2029, Article 2F para 6; Article 5 2030-2039, Article 5 para 8 ter (e)) declares a use the tail does not allow.", "servicing (refrigeration and air-conditioning equipment), fire-protection-servicing, rocket-engine-solvent or medical-aerosol-burns (the 2018 additions, from memory), or a use outside consumption (feedstock, destruction, process agent) or an authorised exempted use."},
+	{CodeHCFCTailUseMissing, SeverityWarning, "phase-out", "purpose", "An HCFC import during a servicing tail declares no purpose, so whether it serves a use the tail allows is not known.", "Accepted for review; declare the purpose."},
 	{CodeScheduleUnknown, SeverityNotice, "phase-out", "substance", "No control schedule is known for the group, year and the reporting Party's type, so the phase-out was not checked.", "Accepted."},
 
 	// purpose

@@ -54,7 +54,7 @@ var csvColumns = [numColumns]Column{
 	colUnit:        {"quantity_unit", true, "kg, t, g or lb"},
 	colPackages:    {"package_count", false, "whole number of packages (cylinders, drums, ISO tanks); empty when not declared"},
 	colFill:        {"net_fill_per_package", false, "net fill of each package in quantity_unit, a decimal number with a dot; needs package_count"},
-	colPurpose:     {"purpose", false, "servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other"},
+	colPurpose:     {"purpose", false, "servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other, fire-protection-servicing, rocket-engine-solvent, medical-aerosol-burns"},
 	colCondition:   {"condition", false, "virgin, used, recycled, reclaimed"},
 	colComposition: {"declared_composition", false, "identifier=percent pairs separated by \";\", e.g. HFC-125=44;HFC-143a=52;HFC-134a=4"},
 	colMeasured:    {"measured_composition", false, "what an analyser or a laboratory measured: identifier=percent[±uncertainty] separated by \";\", air as air=percent, e.g. HCFC-22=95±0.5;air=5"},

@@ -98,6 +98,14 @@ func testLicences() map[string]*Licence {
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5}}},
 		"XA-IMP-2025-008": {Number: "XA-IMP-2025-008", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 1e6}}},
+		// authorises the exempted uses that need one (essential, critical, laboratory, process agent)
+		"XA-EXM-2025-010": {Number: "XA-EXM-2025-010", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
+			SpecialPurposes: []Purpose{PurposeEssentialUse, PurposeCriticalUse, PurposeLaboratory, PurposeProcessAgent},
+			QuotaLines: []QuotaLine{
+				{LineNumber: 1, Group: substances.GroupAI, Unit: QuotaODPTonnes, Allocated: 1},
+				{LineNumber: 2, Group: substances.GroupEI, Unit: QuotaMetricTonnes, Allocated: 10},
+				{LineNumber: 3, Group: substances.GroupBII, Unit: QuotaMetricTonnes, Allocated: 10},
+			}},
 		"XA-IMP-OPEN-009": {Number: "XA-IMP-OPEN-009", CompanyID: "CO-1", Directions: []Direction{DirectionImport, DirectionTransit}, ValidFrom: d("1989-01-01"), Status: LicenceActive,
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupAI, Unit: QuotaODPTonnes, Allocated: 1e6}, {LineNumber: 2, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 1e9}, {LineNumber: 3, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 1e6}}},
 	}

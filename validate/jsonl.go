@@ -207,7 +207,7 @@ func setJSONField(r *Record, id int, raw json.RawMessage) string {
 		}
 		r.PackageCount = n
 	case colPurpose:
-		p, err := parseEnumJSON(text, kind, 10, ParsePurpose)
+		p, err := parseEnumJSON(text, kind, int(purposeMax), ParsePurpose)
 		if err != nil {
 			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(text), Reason: err.Error()})
 		}

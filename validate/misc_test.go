@@ -11,7 +11,7 @@ import (
 // (reference/CONTROL_RULES.md §1: feedstock, destruction, process agents, QPS for methyl
 // bromide; DOMAIN.md §5: laboratory, essential and critical uses).
 func TestExemptPurpose(t *testing.T) {
-	for p := PurposeUnspecified; p <= PurposeOther; p++ {
+	for p := PurposeUnspecified; p <= purposeMax; p++ {
 		for _, g := range []substances.Group{substances.GroupAI, substances.GroupEI} {
 			got := exemptPurpose(p, g) != ""
 			want := false

@@ -168,10 +168,16 @@ const (
 	PurposeEssentialUse
 	PurposeCriticalUse
 	PurposeOther
+	PurposeFireProtectionServicing // servicing fire suppression and fire protection equipment
+	PurposeRocketEngineSolvent     // solvent in rocket-engine manufacture
+	PurposeMedicalAerosolBurns     // topical medical aerosols for the treatment of burns
+
+	purposeMax = PurposeMedicalAerosolBurns
 )
 
 var purposeNames = [...]string{"", "servicing", "manufacturing", "feedstock", "process-agent", "qps",
-	"laboratory", "destruction", "essential-use", "critical-use", "other"}
+	"laboratory", "destruction", "essential-use", "critical-use", "other",
+	"fire-protection-servicing", "rocket-engine-solvent", "medical-aerosol-burns"}
 
 // String returns the lower-case word used in files ("process-agent"), or "" when unspecified.
 func (p Purpose) String() string {
@@ -212,8 +218,14 @@ func ParsePurpose(s string) (Purpose, error) {
 		return PurposeCriticalUse, nil
 	case "other":
 		return PurposeOther, nil
+	case "fireprotectionservicing", "fireprotection", "firesuppression":
+		return PurposeFireProtectionServicing, nil
+	case "rocketenginesolvent", "rocketengine":
+		return PurposeRocketEngineSolvent, nil
+	case "medicalaerosolburns", "medicalaerosol":
+		return PurposeMedicalAerosolBurns, nil
 	}
-	return PurposeUnspecified, fmt.Errorf("%w: purpose %q; accepted: servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other", ErrUnknownValue, cutText(s))
+	return PurposeUnspecified, fmt.Errorf("%w: purpose %q; accepted: servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other, fire-protection-servicing, rocket-engine-solvent, medical-aerosol-burns", ErrUnknownValue, cutText(s))
 }
 
 // Condition of the substance.

@@ -4,6 +4,7 @@ import (
 	"math"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/halovet/halovet/substances"
 )
@@ -253,6 +254,78 @@ var ruleCases = []ruleCase{
 	fire(CodePhasedOutExempt, "CFC import as feedstock", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }, "feedstock"),
 	fire(CodePhasedOutExempt, "reclaimed CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Condition = "XA-FEED-2025-005", ConditionReclaimed }, "reclaimed material"),
 	silent(CodePhasedOutExempt, "HCFC within the servicing tail", nil),
+	// Exempted uses need an authorisation: critical uses exist only for methyl bromide
+	// (Montreal Protocol Art. 2H para 5; Decision IX/6); essential uses only as the Parties
+	// authorise them (Decision IV/25); laboratory and analytical uses under the global
+	// exemption (Decision VI/9); process agents only for the listed uses (Decision X/14).
+	fire(CodeExemptUseWrongGroup, "CFC-12 for critical use, on a licence listing critical use", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeCriticalUse
+	}, "critical uses exist only for methyl bromide", "Article 2H para 5", "Decision IX/6"),
+	fire(CodeExemptUseWrongGroup, "CFC-12 for critical use, on a licence without it", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeCriticalUse
+	}, "Annex A/I"),
+	silent(CodeExemptUseWrongGroup, "methyl bromide for critical use", func(r *Record) {
+		methylBromide(r)
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeCriticalUse
+	}),
+	fire(CodeExemptUseUnauthorised, "methyl bromide critical use, licence does not list it", func(r *Record) {
+		methylBromide(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeCriticalUse
+	}, "Decision IX/6", "licence XA-FEED-2025-005 lists feedstock, destruction"),
+	fire(CodeExemptUseUnauthorised, "CFC-12 essential use, licence does not list it", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeEssentialUse
+	}, "Decision IV/25", "essential-use"),
+	fire(CodeExemptUseUnauthorised, "CFC-12 for laboratory use, licence does not list it", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeLaboratory
+	}, "Decision VI/9"),
+	fire(CodeExemptUseUnauthorised, "carbon tetrachloride as process agent, licence does not list it", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "carbon tetrachloride", "", "", ""
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeProcessAgent
+	}, "Decision X/14"),
+	silent(CodeExemptUseUnauthorised, "CFC-12 essential use on the authorising licence", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeEssentialUse
+	}),
+	silent(CodeExemptUseUnauthorised, "CFC-12 feedstock (no authorisation of this kind needed)", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock
+	}),
+	silent(CodeExemptUseUnauthorised, "HCFC-22 laboratory use in the servicing tail (not phased out)", func(r *Record) { r.Purpose = PurposeLaboratory }),
+	fire(CodePhasedOutExempt, "CFC-12 essential use on the authorising licence", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeEssentialUse
+	}, "an essential use"),
+	// HCFC servicing tails: non-Article 5 2020-2029 (Art. 2F para 6), Article 5 2030-2039
+	// (Art. 5 para 8 ter (e)); uses: servicing RAC equipment plus the 2018 additions (from
+	// memory). The test Party XA is non-Article 5; testAllowed gives HCFCs 0.5 % in 2020-2029.
+	fire(CodeHCFCTailUse, "HCFC-22 for manufacturing in 2025, non-Article 5", func(r *Record) { r.Purpose = PurposeManufacturing },
+		"manufacturing", "2020-2029", "Article 2F para 6"),
+	fire(CodeHCFCTailUse, "HCFC-22 for other use", func(r *Record) { r.Purpose = PurposeOther }),
+	silent(CodeHCFCTailUse, "HCFC-22 for servicing", nil),
+	silent(CodeHCFCTailUse, "HCFC-22 for fire protection servicing", func(r *Record) { r.Purpose = PurposeFireProtectionServicing }),
+	silent(CodeHCFCTailUse, "HCFC-22 for rocket-engine solvent", func(r *Record) { r.Purpose = PurposeRocketEngineSolvent }),
+	silent(CodeHCFCTailUse, "HCFC-22 for medical aerosols for burns", func(r *Record) { r.Purpose = PurposeMedicalAerosolBurns }),
+	silent(CodeHCFCTailUse, "recycled HCFC-22 for manufacturing", func(r *Record) { r.Purpose, r.Condition = PurposeManufacturing, ConditionRecycled }),
+	silent(CodeHCFCTailUse, "HCFC-22 export for manufacturing", func(r *Record) {
+		r.Purpose, r.Direction, r.LicenceNumber = PurposeManufacturing, DirectionExport, "XA-EXP-2025-002"
+	}),
+	// An Article 5 reporting Party in 2025 is before its tail (2030-2039).
+	withEnv(silent(CodeHCFCTailUse, "Article 5 Party, 2025, manufacturing", func(r *Record) { r.Purpose = PurposeManufacturing }),
+		func(e *Env) { e.Parties = withType(e.Parties, "XA", PartyTypeArticle5) }),
+	// An Article 5 Party in 2031: HCFCs allowed at 2.5 % (Art. 5 para 8 ter (e)), tail uses only.
+	withEnv(fire(CodeHCFCTailUse, "Article 5 Party, 2031, manufacturing", func(r *Record) {
+		r.Purpose, r.DeclarationDate, r.LicenceNumber = PurposeManufacturing, "2031-03-02", "XA-IMP-OPEN-009"
+	}, "2030-2039", "Article 5 para 8 ter (e)"), func(e *Env) {
+		e.Parties = withType(e.Parties, "XA", PartyTypeArticle5)
+		e.Now = func() time.Time { return time.Date(2031, 6, 1, 0, 0, 0, 0, time.UTC) }
+		e.AllowedPercent = func(g substances.Group, year int) (float64, bool) { return 2.5, true }
+	}),
+	fire(CodeHCFCTailUseMissing, "HCFC-22 without a purpose in 2025", func(r *Record) { r.Purpose = PurposeUnspecified }, "declare the purpose"),
+	silent(CodeHCFCTailUseMissing, "HCFC-22 for servicing", nil),
 	withEnv(fire(CodeScheduleUnknown, "no schedule", nil, "Annex C/I"),
 		func(e *Env) {
 			e.AllowedPercent = func(g substances.Group, y int) (float64, bool) { return 0, false }
@@ -434,4 +507,16 @@ func TestCleanRecord(t *testing.T) {
 	if v.Fingerprint != Fingerprint(&r) || v.RecordKey != "K-1" || v.Line != 2 {
 		t.Errorf("verdict identity %q %d %q", v.RecordKey, v.Line, v.Fingerprint)
 	}
+}
+
+// withType returns a copy of parties with code's Party type changed.
+func withType(parties map[string]PartySettings, code string, t PartyType) map[string]PartySettings {
+	out := make(map[string]PartySettings, len(parties))
+	for k, v := range parties {
+		out[k] = v
+	}
+	p := out[code]
+	p.Type = t
+	out[code] = p
+	return out
 }

@@ -109,6 +109,15 @@ const (
 	Purpose_PURPOSE_CRITICAL_USE Purpose = 9
 	// Any other declared use.
 	Purpose_PURPOSE_OTHER Purpose = 10
+	// Servicing fire suppression and fire protection equipment (an HCFC servicing-tail use
+	// since the 2018 adjustment of Article 2F para 6 and Article 5 para 8 ter (e)).
+	Purpose_PURPOSE_FIRE_PROTECTION_SERVICING Purpose = 11
+	// Solvent in the manufacture of rocket engines (an HCFC servicing-tail use since the
+	// 2018 adjustment).
+	Purpose_PURPOSE_ROCKET_ENGINE_SOLVENT Purpose = 12
+	// Topical medical aerosols for the specialized treatment of burns (an HCFC servicing-tail
+	// use since the 2018 adjustment).
+	Purpose_PURPOSE_MEDICAL_AEROSOL_BURNS Purpose = 13
 )
 
 // Enum value maps for Purpose.
@@ -125,19 +134,25 @@ var (
 		8:  "PURPOSE_ESSENTIAL_USE",
 		9:  "PURPOSE_CRITICAL_USE",
 		10: "PURPOSE_OTHER",
+		11: "PURPOSE_FIRE_PROTECTION_SERVICING",
+		12: "PURPOSE_ROCKET_ENGINE_SOLVENT",
+		13: "PURPOSE_MEDICAL_AEROSOL_BURNS",
 	}
 	Purpose_value = map[string]int32{
-		"PURPOSE_UNSPECIFIED":   0,
-		"PURPOSE_SERVICING":     1,
-		"PURPOSE_MANUFACTURING": 2,
-		"PURPOSE_FEEDSTOCK":     3,
-		"PURPOSE_PROCESS_AGENT": 4,
-		"PURPOSE_QPS":           5,
-		"PURPOSE_LABORATORY":    6,
-		"PURPOSE_DESTRUCTION":   7,
-		"PURPOSE_ESSENTIAL_USE": 8,
-		"PURPOSE_CRITICAL_USE":  9,
-		"PURPOSE_OTHER":         10,
+		"PURPOSE_UNSPECIFIED":               0,
+		"PURPOSE_SERVICING":                 1,
+		"PURPOSE_MANUFACTURING":             2,
+		"PURPOSE_FEEDSTOCK":                 3,
+		"PURPOSE_PROCESS_AGENT":             4,
+		"PURPOSE_QPS":                       5,
+		"PURPOSE_LABORATORY":                6,
+		"PURPOSE_DESTRUCTION":               7,
+		"PURPOSE_ESSENTIAL_USE":             8,
+		"PURPOSE_CRITICAL_USE":              9,
+		"PURPOSE_OTHER":                     10,
+		"PURPOSE_FIRE_PROTECTION_SERVICING": 11,
+		"PURPOSE_ROCKET_ENGINE_SOLVENT":     12,
+		"PURPOSE_MEDICAL_AEROSOL_BURNS":     13,
 	}
 )
 
@@ -1525,7 +1540,7 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x10DIRECTION_IMPORT\x10\x01\x12\x14\n" +
 	"\x10DIRECTION_EXPORT\x10\x02\x12\x17\n" +
 	"\x13DIRECTION_RE_EXPORT\x10\x03\x12\x15\n" +
-	"\x11DIRECTION_TRANSIT\x10\x04*\x90\x02\n" +
+	"\x11DIRECTION_TRANSIT\x10\x04*\xfd\x02\n" +
 	"\aPurpose\x12\x17\n" +
 	"\x13PURPOSE_UNSPECIFIED\x10\x00\x12\x15\n" +
 	"\x11PURPOSE_SERVICING\x10\x01\x12\x19\n" +
@@ -1538,7 +1553,10 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x15PURPOSE_ESSENTIAL_USE\x10\b\x12\x18\n" +
 	"\x14PURPOSE_CRITICAL_USE\x10\t\x12\x11\n" +
 	"\rPURPOSE_OTHER\x10\n" +
-	"*\x81\x01\n" +
+	"\x12%\n" +
+	"!PURPOSE_FIRE_PROTECTION_SERVICING\x10\v\x12!\n" +
+	"\x1dPURPOSE_ROCKET_ENGINE_SOLVENT\x10\f\x12!\n" +
+	"\x1dPURPOSE_MEDICAL_AEROSOL_BURNS\x10\r*\x81\x01\n" +
 	"\tCondition\x12\x19\n" +
 	"\x15CONDITION_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10CONDITION_VIRGIN\x10\x01\x12\x12\n" +

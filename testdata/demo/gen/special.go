@@ -234,6 +234,12 @@ func specialRecords(ordinary []rec, key func(string) string) []special {
 	r.substance, r.qty = "CFC-12", "50"
 	add("PHASED_OUT: virgin CFC-12 for servicing (also LICENCE_SCOPE)", r)
 	r = base()
+	r.substance, r.qty, r.purpose = "CFC-12", "20", "critical-use"
+	add("EXEMPT_USE_WRONG_GROUP: CFC-12 declared for critical use, which exists only for methyl bromide (also LICENCE_SCOPE)", r)
+	r = rec{key: key("XA-1003"), dir: "import", company: "XA-1003", licence: "XA-IMP-2026-003", partner: "XB",
+		substance: "methyl bromide", qty: "2", unit: "t", purpose: "critical-use"}
+	add("EXEMPT_USE_UNAUTHORISED: methyl bromide for critical use on a licence that does not list critical use", r)
+	r = base()
 	r.purpose = ""
 	draws("PURPOSE_MISSING: no purpose declared (a notice; the record is accepted)", r)
 	r = base()
