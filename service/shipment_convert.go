@@ -71,6 +71,9 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
 			NetMassKg: f.NetMassKg, OdpTonnes: f.ODPTonnes, Co2ETonnes: f.CO2eTonnes,
 			Components: componentsToProto(f.Components), CountsInConsumption: f.CountsInConsumption,
 			SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+		for _, g := range f.PartnerNotBoundGroups {
+			out.Figures.PartnerNotBoundGroups = append(out.Figures.PartnerNotBoundGroups, string(g))
+		}
 	}
 	return out
 }
@@ -108,10 +111,13 @@ func shipmentRow(p *halovetv1.ShipmentRecord, r *validate.Record, v *validate.Ve
 		PartnerNonParty: f.PartnerNonParty, RecordJSON: js}
 	for _, c := range f.Components {
 		row.Components = append(row.Components, store.ShipmentComponent{Designation: c.Designation, AnnexGroup: string(c.Group),
-			MassKg: store.ToNano(c.MassKg), ODPTonnes: store.ToNano(c.ODPTonnes), CO2eTonnes: store.ToNano(c.CO2eTonnes)})
+			MassKg: store.ToNano(c.MassKg), ODPTonnes: store.ToNano(c.ODPTonnes), CO2eTonnes: store.ToNano(c.CO2eTonnes),
+			PartnerNonParty: ptr(c.Group != substances.GroupNone && !f.PartnerBoundFor(c.Group))})
 	}
 	for _, d := range v.Draws {
 		row.Draws = append(row.Draws, store.Draw{LicenceNumber: d.LicenceNumber, LineNumber: d.LineNumber, Amount: store.ToNano(d.Amount)})
 	}
 	return row, nil
 }
+
+func ptr[T any](v T) *T { return &v }

@@ -3,6 +3,7 @@ package validate
 import (
 	"errors"
 	"math"
+	"strings"
 	"testing"
 	"time"
 
@@ -292,5 +293,34 @@ func TestExemptUseAndTailAcceptance(t *testing.T) {
 		if (v.Outcome == OutcomeRejected) != c.reject || tail != c.reject {
 			t.Errorf("HCFC-22 for %s in 2026 at a non-Article 5 Party: %v %v; want rejected %v", c.purpose, v.Outcome, v.Findings, c.reject)
 		}
+	}
+}
+
+// TestBlendPartyStatusPerGroup: Party status is per Annex group (Montreal Protocol Art. 4 para
+// 9). R-402A (HFC-125/R-290/HCFC-22 60/2/38 %, ASHRAE 34) exported to XC, an INVENTED Party
+// bound for every group but Annex F, keeps counting (its HCFC part is deducted) and names
+// Annex F/I alone as not bound; exported to XD, a non-Party, the Annex C/I ban (Article 4
+// para 2 quin, from 2004) rejects it while Annex F/I, whose ban starts in 2033 (Article 4 para
+// 2 sept), only draws a notice.
+func TestBlendPartyStatusPerGroup(t *testing.T) {
+	env := testEnv(t)
+	r := baseRecord()
+	r.Substance, r.HSCode, r.CAS, r.Formula = "R-402A", "", "", ""
+	r.Direction, r.LicenceNumber, r.PartnerCountry = DirectionExport, "XA-EXP-2025-002", "XC"
+	v := Check(env, &r, nil)
+	if v.Outcome == OutcomeRejected || !v.Figures.CountsInConsumption || !v.Figures.PartnerNonParty ||
+		len(v.Figures.PartnerNotBoundGroups) != 1 || v.Figures.PartnerNotBoundGroups[0] != substances.GroupFI ||
+		!v.Figures.PartnerBoundFor(substances.GroupCI) || v.Figures.PartnerBoundFor(substances.GroupFI) {
+		t.Errorf("R-402A to XC: %v, figures %+v; want accepted, counted, only F/I not bound", v.Findings, v.Figures)
+	}
+	if f, ok := codesOf(v)[CodePartnerNotBound]; !ok || !strings.Contains(f.Message, "Annex F/I (HFCs) part of an export to it is not deducted") {
+		t.Errorf("R-402A to XC: findings %v; want PARTNER_NOT_BOUND naming the Annex F/I part", v.Findings)
+	}
+	r.PartnerCountry = "XD"
+	v = Check(env, &r, nil)
+	codes := codesOf(v)
+	if v.Outcome != OutcomeRejected || !strings.Contains(codes[CodePartnerNonParty].Message, "Annex C/I") ||
+		!strings.Contains(codes[CodePartnerNotBound].Message, "Annex F/I") || v.Figures.CountsInConsumption {
+		t.Errorf("R-402A to XD: %v; want rejected for Annex C/I, a notice for Annex F/I, not counted", v.Findings)
 	}
 }

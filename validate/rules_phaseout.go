@@ -1,6 +1,8 @@
 package validate
 
 import (
+	"slices"
+
 	"github.com/halovet/halovet/substances"
 )
 
@@ -208,8 +210,10 @@ func (c *checker) purposeRules(controlled bool) bool {
 		}
 	}
 	// Exports to non-Parties are not deducted from consumption from 1993 (Art. 3 para 1(c)).
+	// Party status is per Annex group (Art. 4 para 9): the export still counts when the
+	// partner is bound for one of its groups, and deducts only those groups' components.
 	if r.Direction.Outgoing() && c.partnerNonParty && !c.date.Before(date(1993, 1, 1)) {
-		counts = false
+		counts = slices.ContainsFunc(c.groups, func(g substances.Group) bool { return !slices.Contains(c.notBound, g) })
 	}
 	return counts
 }

@@ -670,8 +670,13 @@ type ShipmentFigures struct {
 	// True when the partner is not bound by the control measures of a group in the
 	// shipment on the declaration date.
 	PartnerNonParty bool `protobuf:"varint,9,opt,name=partner_non_party,json=partnerNonParty,proto3" json:"partner_non_party,omitempty"`
-	unknownFields   protoimpl.UnknownFields
-	sizeCache       protoimpl.SizeCache
+	// Annex groups of the shipment for which the partner is not bound on the declaration
+	// date (Article 4 para 9: for trade in such a group it counts as a non-Party). An export
+	// deducts the components of these groups from nothing (Article 3 para 1(c)); the
+	// components of the other groups are deducted as usual.
+	PartnerNotBoundGroups []string `protobuf:"bytes,10,rep,name=partner_not_bound_groups,json=partnerNotBoundGroups,proto3" json:"partner_not_bound_groups,omitempty"`
+	unknownFields         protoimpl.UnknownFields
+	sizeCache             protoimpl.SizeCache
 }
 
 func (x *ShipmentFigures) Reset() {
@@ -765,6 +770,13 @@ func (x *ShipmentFigures) GetPartnerNonParty() bool {
 		return x.PartnerNonParty
 	}
 	return false
+}
+
+func (x *ShipmentFigures) GetPartnerNotBoundGroups() []string {
+	if x != nil {
+		return x.PartnerNotBoundGroups
+	}
+	return nil
 }
 
 // Verdict is the answer for one record.
@@ -1473,7 +1485,7 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x04code\x18\x01 \x01(\tR\x04code\x120\n" +
 	"\bseverity\x18\x02 \x01(\x0e2\x14.halovet.v1.SeverityR\bseverity\x12\x14\n" +
 	"\x05field\x18\x03 \x01(\tR\x05field\x12\x18\n" +
-	"\amessage\x18\x04 \x01(\tR\amessage\"\x90\x03\n" +
+	"\amessage\x18\x04 \x01(\tR\amessage\"\xc9\x03\n" +
 	"\x0fShipmentFigures\x121\n" +
 	"\x14resolved_designation\x18\x01 \x01(\tR\x13resolvedDesignation\x12)\n" +
 	"\x04kind\x18\x02 \x01(\x0e2\x15.halovet.v1.EntryKindR\x04kind\x12\x1e\n" +
@@ -1487,7 +1499,9 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"components\x122\n" +
 	"\x15counts_in_consumption\x18\a \x01(\bR\x13countsInConsumption\x12!\n" +
 	"\fsafety_class\x18\b \x01(\tR\vsafetyClass\x12*\n" +
-	"\x11partner_non_party\x18\t \x01(\bR\x0fpartnerNonParty\"\x98\x02\n" +
+	"\x11partner_non_party\x18\t \x01(\bR\x0fpartnerNonParty\x127\n" +
+	"\x18partner_not_bound_groups\x18\n" +
+	" \x03(\tR\x15partnerNotBoundGroups\"\x98\x02\n" +
 	"\aVerdict\x12\x1d\n" +
 	"\n" +
 	"record_key\x18\x01 \x01(\tR\trecordKey\x12\x1f\n" +
