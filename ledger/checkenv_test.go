@@ -120,7 +120,7 @@ func holder(t *testing.T, reg ledger.Register) *ledger.EnvHolder {
 // hcfc22 is 100 kg of HCFC-22 imported from XB on licence XA-IMP-1 by XA-CO-1.
 func hcfc22(key string) validate.Record {
 	return validate.Record{Key: key, Direction: validate.DirectionImport, CompanyID: "XA-CO-1", LicenceNumber: "XA-IMP-1",
-		PartnerCountry: "XB", DeclarationDate: "2026-06-15", Substance: "HCFC-22", Quantity: "100", Unit: "kg"}
+		PartnerCountry: "XB", DeclarationDate: "2026-06-15", Substance: "HCFC-22", TotalQuantity: "100", Unit: "kg"}
 }
 
 func codes(v validate.Verdict) []string {

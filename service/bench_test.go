@@ -57,7 +57,7 @@ var benchTemplates = []string{
 	"%s,import,XA-8001,XA-IMP-2026-801,XB,2026-06-20,R-134a,,,,30,lb,24,servicing,recycled,",
 }
 
-const benchHeader = "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,quantity,quantity_unit,container_count,purpose,condition,declared_composition"
+const benchHeader = "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,total_net_quantity,quantity_unit,package_count,purpose,condition,declared_composition"
 
 // benchCSV is a batch of n records whose keys start with prefix.
 func benchCSV(n int, prefix string) []byte {

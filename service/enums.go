@@ -24,6 +24,10 @@ var purposeText = map[halovetv1.Purpose]string{
 	halovetv1.Purpose_PURPOSE_ESSENTIAL_USE: "essential-use",
 	halovetv1.Purpose_PURPOSE_CRITICAL_USE:  "critical-use",
 	halovetv1.Purpose_PURPOSE_OTHER:         "other",
+
+	halovetv1.Purpose_PURPOSE_FIRE_PROTECTION_SERVICING: "fire-protection-servicing",
+	halovetv1.Purpose_PURPOSE_ROCKET_ENGINE_SOLVENT:     "rocket-engine-solvent",
+	halovetv1.Purpose_PURPOSE_MEDICAL_AEROSOL_BURNS:     "medical-aerosol-burns",
 }
 
 var partyTypeText = map[halovetv1.PartyType]string{

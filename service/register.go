@@ -4,6 +4,8 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"slices"
+	"strings"
 	"time"
 
 	"google.golang.org/grpc/codes"
@@ -11,6 +13,7 @@ import (
 
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/ledger"
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
@@ -27,6 +30,34 @@ func (s *Server) checkEnv(ctx context.Context) (*validate.Env, error) {
 		return nil, status.Error(codes.FailedPrecondition, err.Error()+" (LicensingService.PutParty, or 'halovet load FILE')")
 	}
 	return nil, toStatus(ctx, s.log, err)
+}
+
+// checkEnvFor is checkEnv for judging these records. A licence they name that the
+// snapshot does not hold may have been issued on another replica a moment ago, before its
+// announcement reached this one, so it is looked up in the register before the records are
+// judged: an unknown licence number costs one query, a known one none.
+func (s *Server) checkEnvFor(ctx context.Context, recs ...*halovetv1.ShipmentRecord) (*validate.Env, error) {
+	env, err := s.checkEnv(ctx)
+	if err != nil {
+		return nil, err
+	}
+	var missing []string
+	for _, r := range recs {
+		n := strings.TrimSpace(r.GetLicenceNumber())
+		if n == "" || slices.Contains(missing, n) {
+			continue
+		}
+		if _, ok := env.Licence(n); !ok {
+			missing = append(missing, n)
+		}
+	}
+	if len(missing) == 0 {
+		return env, nil
+	}
+	if err := s.env.Refresh(ctx, ledger.Change{Licences: missing}); err != nil {
+		return nil, toStatus(ctx, s.log, err)
+	}
+	return s.checkEnv(ctx)
 }
 
 // registerChanged brings this server's check environment up to a change it has just

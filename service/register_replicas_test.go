@@ -114,7 +114,7 @@ func loadRegister(t *testing.T, conn *grpc.ClientConn) {
 func registerRecord(key string) *halovetv1.ShipmentRecord {
 	return &halovetv1.ShipmentRecord{RecordKey: key, Direction: halovetv1.Direction_DIRECTION_IMPORT, CompanyId: regCompany,
 		LicenceNumber: regLicence, PartnerCountry: "XB", DeclarationDate: "2026-06-15", Substance: "HCFC-22",
-		Quantity: "100", QuantityUnit: "kg"}
+		TotalNetQuantity: "100", QuantityUnit: "kg"}
 }
 
 func findingCodes(v *halovetv1.Verdict) []string {

@@ -182,7 +182,7 @@ func (r *replica) stop(t testing.TB) {
 func replicaRecord(i int) *halovetv1.ShipmentRecord {
 	return &halovetv1.ShipmentRecord{RecordKey: fmt.Sprintf("RPL-%04d", i), Direction: halovetv1.Direction_DIRECTION_IMPORT,
 		CompanyId: replicaCompany, LicenceNumber: replicaLicence, PartnerCountry: "XB", DeclarationDate: "2026-06-15",
-		Substance: "HCFC-22", Quantity: "100", QuantityUnit: "kg", Purpose: halovetv1.Purpose_PURPOSE_SERVICING}
+		Substance: "HCFC-22", TotalNetQuantity: "100", QuantityUnit: "kg", Purpose: halovetv1.Purpose_PURPOSE_SERVICING}
 }
 
 // recordOne records one record in its own RecordShipments call.

@@ -25,7 +25,7 @@ func (x *shipmentServer) CheckShipment(ctx context.Context, req *halovetv1.Check
 	if req.GetRecord() == nil {
 		return nil, invalid(fieldViolation{"record", "is required"})
 	}
-	env, err := x.srv.checkEnv(ctx)
+	env, err := x.srv.checkEnvFor(ctx, req.GetRecord())
 	if err != nil {
 		return nil, err
 	}
@@ -170,7 +170,7 @@ check:
 			checkErr = invalid(fieldViolation{"record", fmt.Sprintf("the message after record %d of the stream carries no record", sum.pb.Records)})
 			break
 		}
-		if env, checkErr = x.srv.checkEnv(ctx); checkErr != nil {
+		if env, checkErr = x.srv.checkEnvFor(ctx, recs...); checkErr != nil {
 			break
 		}
 		batch.SetEnv(env)
@@ -370,7 +370,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 			}
 			return finish(nil)
 		}
-		env, err := x.srv.checkEnv(ctx)
+		env, err := x.srv.checkEnvFor(ctx, in.pb)
 		if err != nil {
 			return finish(err)
 		}

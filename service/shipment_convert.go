@@ -17,10 +17,13 @@ func RecordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
 	p := &halovetv1.ShipmentRecord{RecordKey: r.Key, SourceLine: r.Line, Direction: halovetv1.Direction(r.Direction),
 		CompanyId: r.CompanyID, LicenceNumber: r.LicenceNumber, PartnerCountry: r.PartnerCountry,
 		DeclarationDate: r.DeclarationDate, Substance: r.Substance, DeclaredHsCode: r.HSCode,
-		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, Quantity: r.Quantity, QuantityUnit: r.Unit,
-		ContainerCount: r.ContainerCount, Purpose: halovetv1.Purpose(r.Purpose), Condition: halovetv1.Condition(r.Condition)}
+		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, TotalNetQuantity: r.TotalQuantity, QuantityUnit: r.Unit,
+		PackageCount: r.PackageCount, NetFillPerPackage: r.FillPerPackage, Purpose: halovetv1.Purpose(r.Purpose), Condition: halovetv1.Condition(r.Condition)}
 	for _, s := range r.Composition {
 		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: s.MassPct})
+	}
+	for _, s := range r.Measured {
+		p.MeasuredComposition = append(p.MeasuredComposition, &halovetv1.MeasuredShare{Identifier: s.Identifier, MassPercent: s.MassPct, UncertaintyPoints: s.Uncertainty})
 	}
 	return p
 }
@@ -31,11 +34,14 @@ func recordFromProto(p *halovetv1.ShipmentRecord) validate.Record {
 	r := validate.Record{Key: p.GetRecordKey(), Line: p.GetSourceLine(), Direction: validate.Direction(p.GetDirection()),
 		CompanyID: p.GetCompanyId(), LicenceNumber: p.GetLicenceNumber(), PartnerCountry: p.GetPartnerCountry(),
 		DeclarationDate: p.GetDeclarationDate(), Substance: p.GetSubstance(), HSCode: p.GetDeclaredHsCode(),
-		CAS: p.GetDeclaredCasNumber(), Formula: p.GetDeclaredFormula(), Quantity: p.GetQuantity(),
-		Unit: p.GetQuantityUnit(), ContainerCount: p.GetContainerCount(), Purpose: validate.Purpose(p.GetPurpose()),
+		CAS: p.GetDeclaredCasNumber(), Formula: p.GetDeclaredFormula(), TotalQuantity: p.GetTotalNetQuantity(),
+		Unit: p.GetQuantityUnit(), PackageCount: p.GetPackageCount(), FillPerPackage: p.GetNetFillPerPackage(), Purpose: validate.Purpose(p.GetPurpose()),
 		Condition: validate.Condition(p.GetCondition())}
 	for _, s := range p.GetDeclaredComposition() {
 		r.Composition = append(r.Composition, validate.DeclaredShare{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent()})
+	}
+	for _, s := range p.GetMeasuredComposition() {
+		r.Measured = append(r.Measured, validate.MeasuredShare{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent(), Uncertainty: s.GetUncertaintyPoints()})
 	}
 	return r
 }
@@ -65,6 +71,9 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
 			NetMassKg: f.NetMassKg, OdpTonnes: f.ODPTonnes, Co2ETonnes: f.CO2eTonnes,
 			Components: componentsToProto(f.Components), CountsInConsumption: f.CountsInConsumption,
 			SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+		for _, g := range f.PartnerNotBoundGroups {
+			out.Figures.PartnerNotBoundGroups = append(out.Figures.PartnerNotBoundGroups, string(g))
+		}
 	}
 	return out
 }
@@ -102,10 +111,13 @@ func shipmentRow(p *halovetv1.ShipmentRecord, r *validate.Record, v *validate.Ve
 		PartnerNonParty: f.PartnerNonParty, RecordJSON: js}
 	for _, c := range f.Components {
 		row.Components = append(row.Components, store.ShipmentComponent{Designation: c.Designation, AnnexGroup: string(c.Group),
-			MassKg: store.ToNano(c.MassKg), ODPTonnes: store.ToNano(c.ODPTonnes), CO2eTonnes: store.ToNano(c.CO2eTonnes)})
+			MassKg: store.ToNano(c.MassKg), ODPTonnes: store.ToNano(c.ODPTonnes), CO2eTonnes: store.ToNano(c.CO2eTonnes),
+			PartnerNonParty: ptr(c.Group != substances.GroupNone && !f.PartnerBoundFor(c.Group))})
 	}
 	for _, d := range v.Draws {
 		row.Draws = append(row.Draws, store.Draw{LicenceNumber: d.LicenceNumber, LineNumber: d.LineNumber, Amount: store.ToNano(d.Amount)})
 	}
 	return row, nil
 }
+
+func ptr[T any](v T) *T { return &v }

@@ -90,7 +90,7 @@ func shipSetStatus(t *testing.T, conn *grpc.ClientConn, licence string, s halove
 func shipRecord(key string) *halovetv1.ShipmentRecord {
 	return &halovetv1.ShipmentRecord{RecordKey: key, Direction: halovetv1.Direction_DIRECTION_IMPORT, CompanyId: shipCompany,
 		LicenceNumber: shipLicence, PartnerCountry: "XB", DeclarationDate: "2026-06-15", Substance: "HCFC-22",
-		Quantity: "100", QuantityUnit: "kg", Purpose: halovetv1.Purpose_PURPOSE_SERVICING}
+		TotalNetQuantity: "100", QuantityUnit: "kg", Purpose: halovetv1.Purpose_PURPOSE_SERVICING}
 }
 
 func shipCodes(v *halovetv1.Verdict) []string {
@@ -143,9 +143,9 @@ func TestCheckShipmentRules(t *testing.T) {
 			r.CompanyId, r.LicenceNumber, r.Substance = shipOther, shipSuspended, "R-410A"
 		}, []string{"LICENCE_INACTIVE"}, halovetv1.Outcome_OUTCOME_REJECTED},
 		// 20 t of HCFC-22 = 1.1 ODP t (ODP 0.055; source: Montreal Protocol Annex C Group I) > 1 ODP t
-		{"quota: more than the line holds", func(r *halovetv1.ShipmentRecord) { r.Quantity, r.QuantityUnit = "20", "t" }, []string{"QUOTA_EXCEEDED"}, halovetv1.Outcome_OUTCOME_REJECTED},
+		{"quota: more than the line holds", func(r *halovetv1.ShipmentRecord) { r.TotalNetQuantity, r.QuantityUnit = "20", "t" }, []string{"QUOTA_EXCEEDED"}, halovetv1.Outcome_OUTCOME_REJECTED},
 		// 17 t = 0.935 ODP t, 93.5 % of the line
-		{"quota: near the limit", func(r *halovetv1.ShipmentRecord) { r.Quantity, r.QuantityUnit = "17", "t" }, []string{"QUOTA_NEAR_LIMIT"}, halovetv1.Outcome_OUTCOME_ACCEPTED},
+		{"quota: near the limit", func(r *halovetv1.ShipmentRecord) { r.TotalNetQuantity, r.QuantityUnit = "17", "t" }, []string{"QUOTA_NEAR_LIMIT"}, halovetv1.Outcome_OUTCOME_ACCEPTED},
 		{"phase-out: virgin CFC-12", func(r *halovetv1.ShipmentRecord) { r.Substance = "CFC-12" }, []string{"LICENCE_SCOPE", "PHASED_OUT"}, halovetv1.Outcome_OUTCOME_REJECTED},
 		{"purpose: QPS for an HCFC", func(r *halovetv1.ShipmentRecord) { r.Purpose = halovetv1.Purpose_PURPOSE_QPS }, []string{"QPS_NOT_MB"}, halovetv1.Outcome_OUTCOME_REJECTED},
 		{"purpose: recycled material", func(r *halovetv1.ShipmentRecord) { r.Condition = halovetv1.Condition_CONDITION_RECYCLED }, []string{"RECOVERED_NOT_COUNTED"}, halovetv1.Outcome_OUTCOME_ACCEPTED},
@@ -195,20 +195,44 @@ func TestCheckShipmentRules(t *testing.T) {
 
 	t.Run("figures", func(t *testing.T) {
 		rec := shipRecord("FIG-1")
-		rec.Substance, rec.Quantity, rec.ContainerCount = "R-410A", "11.3", 10
+		rec.Substance, rec.TotalNetQuantity, rec.NetFillPerPackage, rec.PackageCount = "R-410A", "", "11.3", 10 // 11.3 kg per package × 10 = 113 kg
 		resp, err := client.CheckShipment(context.Background(), &halovetv1.CheckShipmentRequest{Record: rec})
 		if err != nil {
 			t.Fatal(err)
 		}
 		f := resp.GetVerdict().GetFigures()
 		shipNear(t, "net mass kg", f.GetNetMassKg(), 113)
-		// 0.113 t x (0.5 x 675 + 0.5 x 3500); source: Annex F GWPs of HFC-32 and HFC-125, ASHRAE 34 composition
+		// 0.113 t x (0.5 x 675 + 0.5 x 3500); source: Montreal Protocol Annex F GWPs of HFC-32 and HFC-125, ASHRAE 34 composition
 		shipNear(t, "CO2-eq t", f.GetCo2ETonnes(), 0.113*2087.5)
 		if f.GetOdpTonnes() != 0 || f.GetKind() != halovetv1.EntryKind_ENTRY_KIND_BLEND || f.GetResolvedDesignation() != "R-410A" || !f.GetCountsInConsumption() {
 			t.Errorf("figures %v; want R-410A, a blend, 0 ODP t, counted in consumption", f)
 		}
 		if len(f.GetComponents()) != 2 {
 			t.Errorf("%d components; want HFC-32 and HFC-125", len(f.GetComponents()))
+		}
+	})
+
+	// The measured composition travels on the wire record: a cylinder declared as HCFC-22
+	// that reads as CFC-12 contradicts the declaration (invented reading).
+	t.Run("measured composition", func(t *testing.T) {
+		rec := shipRecord("MEAS-1")
+		rec.MeasuredComposition = []*halovetv1.MeasuredShare{{Identifier: "CFC-12", MassPercent: 100, UncertaintyPoints: 1}}
+		resp, err := client.CheckShipment(context.Background(), &halovetv1.CheckShipmentRequest{Record: rec})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if v := resp.GetVerdict(); !slices.Contains(shipCodes(v), "MEASURED_CONTRADICTS") || !slices.Contains(shipCodes(v), "MEASURED_HIDDEN_CONTROLLED") ||
+			v.GetOutcome() != halovetv1.Outcome_OUTCOME_REJECTED {
+			t.Errorf("%v %v; want rejected with MEASURED_CONTRADICTS and MEASURED_HIDDEN_CONTROLLED", v.GetOutcome(), shipCodes(v))
+		}
+		rec = shipRecord("MEAS-2")
+		rec.MeasuredComposition = []*halovetv1.MeasuredShare{{Identifier: "HCFC-22", MassPercent: 100}}
+		resp, err = client.CheckShipment(context.Background(), &halovetv1.CheckShipmentRequest{Record: rec})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if v := resp.GetVerdict(); !slices.Contains(shipCodes(v), "MEASURED_CONFIRMS") {
+			t.Errorf("%v %v; want MEASURED_CONFIRMS", v.GetOutcome(), shipCodes(v))
 		}
 	})
 }
@@ -227,15 +251,15 @@ func TestCheckShipmentsStream(t *testing.T) {
 	// first fits, the second does not fit after it, the third (7.2727 t, 0.39999985 ODP t)
 	// does and takes the line to 95 %.
 	first := shipRecord("S-1")
-	first.Quantity, first.QuantityUnit, first.SourceLine = "10", "t", 2
+	first.TotalNetQuantity, first.QuantityUnit, first.SourceLine = "10", "t", 2
 	second := proto.Clone(first).(*halovetv1.ShipmentRecord)
 	second.RecordKey, second.SourceLine = "S-2", 3
 	third := proto.Clone(first).(*halovetv1.ShipmentRecord)
-	third.RecordKey, third.Quantity, third.SourceLine = "S-3", "7.2727", 4
+	third.RecordKey, third.TotalNetQuantity, third.SourceLine = "S-3", "7.2727", 4
 	replay := proto.Clone(first).(*halovetv1.ShipmentRecord)
 	replay.SourceLine = 5
 	conflict := proto.Clone(first).(*halovetv1.ShipmentRecord)
-	conflict.Quantity, conflict.SourceLine = "1", 6
+	conflict.TotalNetQuantity, conflict.SourceLine = "1", 6
 	sent := []*halovetv1.ShipmentRecord{first, second, third, replay, conflict}
 	want := []struct {
 		codes   []string
@@ -348,7 +372,7 @@ func TestRecordShipments(t *testing.T) {
 
 	a := shipRecord("R-1") // 100 kg HCFC-22 = 0.0055 ODP t (ODP 0.055, Annex C Group I)
 	b := shipRecord("R-2")
-	b.Substance, b.Quantity, b.QuantityUnit = "R-410A", "1", "t" // 2087.5 CO2-eq t (Annex F GWPs, ASHRAE 34 composition)
+	b.Substance, b.TotalNetQuantity, b.QuantityUnit = "R-410A", "1", "t" // 2087.5 CO2-eq t (Annex F GWPs, ASHRAE 34 composition)
 	bad := shipRecord("R-3")
 	bad.PartnerCountry = "QM"
 	vs, sum := shipRecordCall(t, client, a, b, bad)
@@ -376,7 +400,7 @@ func TestRecordShipments(t *testing.T) {
 
 	t.Run("second call: replay and conflict", func(t *testing.T) {
 		changed := proto.Clone(b).(*halovetv1.ShipmentRecord)
-		changed.Quantity = "2"
+		changed.TotalNetQuantity = "2"
 		vs, sum := shipRecordCall(t, client, a, changed)
 		if !vs[0].GetReplayed() || !vs[0].GetRecorded() || !slices.Equal(shipCodes(vs[0]), []string{"DUP_REPLAY"}) {
 			t.Errorf("repeat of R-1: replayed %t recorded %t codes %v; want a recorded replay with DUP_REPLAY", vs[0].GetReplayed(), vs[0].GetRecorded(), shipCodes(vs[0]))
@@ -396,8 +420,8 @@ func TestRecordShipments(t *testing.T) {
 		// 10 t of HCFC-22 = 0.55 ODP t each: each passes the check on its own (the check
 		// in recording mode sees the balance the call began with), but only one fits.
 		x, y := shipRecord("Q-1"), shipRecord("Q-2")
-		x.Quantity, x.QuantityUnit = "10", "t"
-		y.Quantity, y.QuantityUnit = "10", "t"
+		x.TotalNetQuantity, x.QuantityUnit = "10", "t"
+		y.TotalNetQuantity, y.QuantityUnit = "10", "t"
 		z := shipRecord("Q-3") // 0.0055 ODP t still fits after the first
 		vs, _ := shipRecordCall(t, client, x, y, z)
 		if !vs[0].GetRecorded() || vs[1].GetRecorded() || !vs[2].GetRecorded() {

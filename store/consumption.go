@@ -11,12 +11,12 @@ import (
 // PostgreSQL so that a year of a million shipments never travels row by row.
 type ShipmentTotal struct {
 	Year            int
-	Designation     string // component designation
-	AnnexGroup      string // the group recorded with the component ("" when uncontrolled)
-	Direction       string // "import", "export", "re-export", "transit"
-	Purpose         string // "servicing", "feedstock", "qps", ... or ""
-	Condition       string // "virgin", "used", "recycled", "reclaimed" or ""
-	PartnerNonParty bool
+	Designation     string  // component designation
+	AnnexGroup      string  // the group recorded with the component ("" when uncontrolled)
+	Direction       string  // "import", "export", "re-export", "transit"
+	Purpose         string  // "servicing", "feedstock", "qps", ... or ""
+	Condition       string  // "virgin", "used", "recycled", "reclaimed" or ""
+	PartnerNonParty bool    // the partner was not bound for this component's group
 	Tonnes          float64 // sum of the components' net mass, metric tonnes
 	Shipments       int64   // shipments contributing
 }
@@ -25,12 +25,14 @@ type ShipmentTotal struct {
 // purpose, condition and partner status, for the given years (every year when years is
 // nil). The sums are exact numeric sums in kg, converted to tonnes as the last step.
 func (s *Store) ShipmentTotals(ctx context.Context, years []int) ([]ShipmentTotal, error) {
+	// Party status is per component group (migration 5); rows without it take the
+	// shipment's flag.
 	rows, err := s.pool.Query(ctx, `SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose,
-	        s.condition, s.partner_non_party, (sum(c.mass_kg) / 1000)::float8, count(*)
+	        s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party, (sum(c.mass_kg) / 1000)::float8, count(*)
 	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
 	    WHERE ($1::int[] IS NULL OR s.year = ANY($1))
-	    GROUP BY s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition, s.partner_non_party
-	    ORDER BY s.year, c.designation, s.direction, s.purpose, s.condition, s.partner_non_party`, intsOrNil(years))
+	    GROUP BY s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
+	    ORDER BY s.year, c.designation, s.direction, s.purpose, s.condition, non_party`, intsOrNil(years))
 	if err != nil {
 		return nil, err
 	}

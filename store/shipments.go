@@ -36,6 +36,10 @@ type ShipmentComponent struct {
 	MassKg      Nano // kg, in billionths
 	ODPTonnes   Nano
 	CO2eTonnes  Nano
+	// PartnerNonParty says whether the partner is not bound for the component's own Annex
+	// group on the declaration date (Party status is per group, Article 4 para 9); nil
+	// stores NULL, and the shipment's PartnerNonParty then applies to the component.
+	PartnerNonParty *bool
 }
 
 // Draw is what a shipment draws on one quota line, in the line's unit.
@@ -287,7 +291,7 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	var comps, draws [][]any
 	for j, i := range accept {
 		for _, c := range rows[i].Components {
-			comps = append(comps, []any{ids[j], c.Designation, c.AnnexGroup, c.MassKg.numeric(), c.ODPTonnes.numeric(), c.CO2eTonnes.numeric()})
+			comps = append(comps, []any{ids[j], c.Designation, c.AnnexGroup, c.MassKg.numeric(), c.ODPTonnes.numeric(), c.CO2eTonnes.numeric(), c.PartnerNonParty})
 		}
 		for _, d := range rows[i].Draws {
 			draws = append(draws, []any{ids[j], d.LicenceNumber, d.LineNumber, d.Amount.numeric()})
@@ -295,7 +299,7 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	}
 	if len(comps) > 0 {
 		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"shipment_components"},
-			[]string{"shipment_id", "designation", "annex_group", "mass_kg", "odp_tonnes", "co2e_tonnes"},
+			[]string{"shipment_id", "designation", "annex_group", "mass_kg", "odp_tonnes", "co2e_tonnes", "partner_non_party"},
 			pgx.CopyFromRows(comps)); err != nil {
 			return nil, fmt.Errorf("storing shipment components: %w", err)
 		}

@@ -12,7 +12,7 @@ func TestBatchDuplicateWindow(t *testing.T) {
 	b := newBatch(env, 3)
 	rec := func(key, qty string) *Record {
 		r := baseRecord() // invented record, see fixtures_test.go
-		r.Key, r.Quantity = key, qty
+		r.Key, r.TotalQuantity = key, qty
 		return &r
 	}
 	for i := 0; i < 3; i++ {

@@ -14,14 +14,14 @@ func typicalRecords() []Record {
 	a := baseRecord()
 	b := baseRecord()
 	r404A(&b)
-	b.Quantity, b.ContainerCount = "10.9", 20
+	b.TotalQuantity, b.PackageCount = "10.9", 20
 	c := baseRecord()
 	hfc134a(&c)
-	c.Quantity, c.ContainerCount = "13.6", 12
+	c.TotalQuantity, c.PackageCount = "13.6", 12
 	d := baseRecord()
 	r404A(&d)
 	d.Composition = []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {"HFC-134a", 4}}
-	d.Quantity, d.Unit, d.ContainerCount = "2.5", "t", 0
+	d.TotalQuantity, d.Unit, d.PackageCount = "2.5", "t", 0
 	return []Record{a, b, c, d}
 }
 
@@ -91,7 +91,7 @@ func BenchmarkCSVRead(b *testing.B) {
 func BenchmarkJSONLRead(b *testing.B) {
 	var buf bytes.Buffer
 	for i := 0; i < 2000; i++ {
-		fmt.Fprintf(&buf, `{"record_key":"K-%d","direction":"import","company_id":"CO-1","licence_number":"XA-IMP-2025-001","partner_country":"XB","declaration_date":"2025-06-01","substance":"HCFC-22","quantity":"13.6","quantity_unit":"kg","container_count":10}`+"\n", i)
+		fmt.Fprintf(&buf, `{"record_key":"K-%d","direction":"import","company_id":"CO-1","licence_number":"XA-IMP-2025-001","partner_country":"XB","declaration_date":"2025-06-01","substance":"HCFC-22","total_net_quantity":"136","quantity_unit":"kg","package_count":10}`+"\n", i)
 	}
 	data := buf.Bytes()
 	b.SetBytes(int64(len(data)))

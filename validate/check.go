@@ -2,6 +2,7 @@ package validate
 
 import (
 	"fmt"
+	"slices"
 	"strings"
 	"time"
 	"unicode/utf8"
@@ -19,13 +20,25 @@ type Figures struct {
 	Components  []substances.ComponentFigures
 	// CountsInConsumption is false for records the Protocol leaves out of calculated
 	// consumption: nothing controlled, transit, used/recycled/reclaimed material, feedstock,
-	// destruction, process agents, QPS, and exports to a partner not bound for the group.
+	// destruction, process agents, QPS, and exports to a partner bound for none of the
+	// shipment's controlled groups (see PartnerNotBoundGroups for a partner bound for some).
 	CountsInConsumption bool
 	// PartnerNonParty is true when the partner is not bound by the control measures of a
 	// group in the shipment on the declaration date.
 	PartnerNonParty bool
-	SafetyClass     string   // ASHRAE 34 class of the substance or blend
-	Cautions        []string // safety cautions from the catalogue
+	// PartnerNotBoundGroups lists those groups, in component order. Party status is per
+	// Annex group (Article 4 para 9): an export of a blend to a Party bound for some of its
+	// groups deducts only the components of the groups the partner is bound for (Article 3
+	// para 1(c)).
+	PartnerNotBoundGroups []substances.Group
+	SafetyClass           string   // ASHRAE 34 class of the substance or blend
+	Cautions              []string // safety cautions from the catalogue
+}
+
+// PartnerBoundFor reports whether the partner is bound for group g (an uncontrolled
+// component, group "", counts as bound: nothing is banned or deducted for it anyway).
+func (f *Figures) PartnerBoundFor(g substances.Group) bool {
+	return !slices.Contains(f.PartnerNotBoundGroups, g)
 }
 
 // LineDraw is what a record draws on one quota line, in the line's unit.
@@ -74,7 +87,6 @@ type checker struct {
 	fs     []Finding
 
 	netKg   float64
-	fillKg  float64
 	qtyOK   bool
 	date    time.Time
 	dateOK  bool
@@ -92,6 +104,7 @@ type checker struct {
 
 	lic             *Licence
 	partnerNonParty bool
+	notBound        []substances.Group // groups the partner is not bound for, in component order
 	draws           []LineDraw
 }
 
@@ -140,16 +153,17 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 	if c.evOK {
 		v.Resolved = true
 		v.Figures = Figures{
-			Designation:         c.designation,
-			Kind:                c.ev.Kind,
-			NetMassKg:           c.ev.NetMassKg,
-			ODPTonnes:           c.ev.ODPTonnes,
-			CO2eTonnes:          c.ev.CO2eTonnes,
-			Components:          c.ev.Components,
-			CountsInConsumption: counts,
-			PartnerNonParty:     c.partnerNonParty,
-			SafetyClass:         c.ev.SafetyClass,
-			Cautions:            c.ev.Cautions,
+			Designation:           c.designation,
+			Kind:                  c.ev.Kind,
+			NetMassKg:             c.ev.NetMassKg,
+			ODPTonnes:             c.ev.ODPTonnes,
+			CO2eTonnes:            c.ev.CO2eTonnes,
+			Components:            c.ev.Components,
+			CountsInConsumption:   counts,
+			PartnerNonParty:       c.partnerNonParty,
+			PartnerNotBoundGroups: c.notBound,
+			SafetyClass:           c.ev.SafetyClass,
+			Cautions:              c.ev.Cautions,
 		}
 	}
 	sortFindings(c.fs)
@@ -194,7 +208,7 @@ func (c *checker) recordRules() {
 	default:
 		c.add(CodeDirectionMissing, "", "direction is not declared; accepted: import, export, re-export, transit")
 	}
-	if r.Purpose < PurposeUnspecified || r.Purpose > PurposeOther {
+	if r.Purpose < PurposeUnspecified || r.Purpose > purposeMax {
 		c.add(CodeFieldUnreadable, "purpose", "purpose %d is not a known purpose number", int(r.Purpose))
 	}
 	if r.Condition < ConditionUnspecified || r.Condition > ConditionReclaimed {

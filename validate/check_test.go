@@ -3,7 +3,9 @@ package validate
 import (
 	"errors"
 	"math"
+	"strings"
 	"testing"
+	"time"
 
 	"github.com/halovet/halovet/substances"
 )
@@ -161,7 +163,7 @@ func TestBatchLedgerAndDuplicates(t *testing.T) {
 	b := NewBatch(env)
 	// Line 2 of XA-IMP-2025-001 has 0.5 ODP t left; 5 t HCFC-22 = 0.275 ODP t (ODP 0.055, Montreal Protocol Annex C Group I).
 	first := baseRecord()
-	first.Key, first.Quantity, first.Unit, first.ContainerCount = "B-1", "5", "t", 0
+	first.Key, first.TotalQuantity, first.Unit, first.PackageCount = "B-1", "5", "t", 0
 	v1 := b.Check(&first)
 	if v1.Outcome == OutcomeRejected || len(v1.Draws) != 1 {
 		t.Fatalf("first record: %v %v", v1.Outcome, v1.Findings)
@@ -184,7 +186,7 @@ func TestBatchLedgerAndDuplicates(t *testing.T) {
 	}
 
 	conflict := first
-	conflict.Quantity = "6"
+	conflict.TotalQuantity = "6"
 	v3 := b.Check(&conflict)
 	if _, ok := codesOf(v3)[CodeDupKeyConflict]; !ok || v3.Outcome != OutcomeRejected {
 		t.Errorf("same key, other content: want DUP_KEY_CONFLICT and rejection; got %v %v", v3.Outcome, v3.Findings)
@@ -266,5 +268,61 @@ func TestCheckOfflineWithoutClock(t *testing.T) {
 	r.DeclarationDate = "2999-01-01"
 	if _, ok := codesOf(Check(env, &r, nil))[CodeDateFuture]; !ok {
 		t.Error("a date in 2999 must be in the future for the system clock")
+	}
+}
+
+// TestExemptUseAndTailAcceptance: CFC-12 declared for critical use is rejected (critical uses
+// exist only for methyl bromide: Montreal Protocol Art. 2H para 5; Decision IX/6), and HCFC-22
+// imported for manufacturing in 2026 by a non-Article 5 Party is rejected (the 2020-2029 tail of
+// Art. 2F para 6 is for servicing), while the same import for servicing is accepted.
+func TestExemptUseAndTailAcceptance(t *testing.T) {
+	env := testEnv(t)
+	env.Now = func() time.Time { return time.Date(2026, 6, 15, 0, 0, 0, 0, time.UTC) }
+	r := baseRecord()
+	cfc12(&r)
+	r.LicenceNumber, r.Purpose, r.DeclarationDate = "XA-IMP-OPEN-009", PurposeCriticalUse, "2026-03-02"
+	if v := Check(env, &r, nil); v.Outcome != OutcomeRejected || codesOf(v)[CodeExemptUseWrongGroup].Code == "" {
+		t.Errorf("CFC-12 for critical use: %v %v; want rejected with %s", v.Outcome, v.Findings, CodeExemptUseWrongGroup)
+	}
+	for _, c := range []struct {
+		purpose Purpose
+		reject  bool
+	}{{PurposeManufacturing, true}, {PurposeServicing, false}} {
+		r := baseRecord()
+		r.LicenceNumber, r.Purpose, r.DeclarationDate = "XA-IMP-OPEN-009", c.purpose, "2026-03-02"
+		v := Check(env, &r, nil)
+		_, tail := codesOf(v)[CodeHCFCTailUse]
+		if (v.Outcome == OutcomeRejected) != c.reject || tail != c.reject {
+			t.Errorf("HCFC-22 for %s in 2026 at a non-Article 5 Party: %v %v; want rejected %v", c.purpose, v.Outcome, v.Findings, c.reject)
+		}
+	}
+}
+
+// TestBlendPartyStatusPerGroup: Party status is per Annex group (Montreal Protocol Art. 4 para
+// 9). R-402A (HFC-125/R-290/HCFC-22 60/2/38 %, ASHRAE 34) exported to XC, an INVENTED Party
+// bound for every group but Annex F, keeps counting (its HCFC part is deducted) and names
+// Annex F/I alone as not bound; exported to XD, a non-Party, the Annex C/I ban (Article 4
+// para 2 quin, from 2004) rejects it while Annex F/I, whose ban starts in 2033 (Article 4 para
+// 2 sept), only draws a notice.
+func TestBlendPartyStatusPerGroup(t *testing.T) {
+	env := testEnv(t)
+	r := baseRecord()
+	r.Substance, r.HSCode, r.CAS, r.Formula = "R-402A", "", "", ""
+	r.Direction, r.LicenceNumber, r.PartnerCountry = DirectionExport, "XA-EXP-2025-002", "XC"
+	v := Check(env, &r, nil)
+	if v.Outcome == OutcomeRejected || !v.Figures.CountsInConsumption || !v.Figures.PartnerNonParty ||
+		len(v.Figures.PartnerNotBoundGroups) != 1 || v.Figures.PartnerNotBoundGroups[0] != substances.GroupFI ||
+		!v.Figures.PartnerBoundFor(substances.GroupCI) || v.Figures.PartnerBoundFor(substances.GroupFI) {
+		t.Errorf("R-402A to XC: %v, figures %+v; want accepted, counted, only F/I not bound", v.Findings, v.Figures)
+	}
+	if f, ok := codesOf(v)[CodePartnerNotBound]; !ok || !strings.Contains(f.Message, "Annex F/I (HFCs) part of an export to it is not deducted") {
+		t.Errorf("R-402A to XC: findings %v; want PARTNER_NOT_BOUND naming the Annex F/I part", v.Findings)
+	}
+	r.PartnerCountry = "XD"
+	v = Check(env, &r, nil)
+	codes := codesOf(v)
+	if v.Outcome != OutcomeRejected || !strings.Contains(codes[CodePartnerNonParty].Message, "Annex C/I") ||
+		!strings.Contains(codes[CodePartnerNotBound].Message, "Annex F/I") || v.Figures.CountsInConsumption {
+		t.Errorf("R-402A to XD: %v; want rejected for Annex C/I, a notice for Annex F/I, not counted", v.Findings)
 	}
 }

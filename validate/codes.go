@@ -43,9 +43,17 @@ const (
 	CodeQtyNotPositive       = "QTY_NOT_POSITIVE"
 	CodeQtyTooLarge          = "QTY_TOO_LARGE"
 	CodeQtyUnitUnknown       = "QTY_UNIT_UNKNOWN"
-	CodeQtyContainersInvalid = "QTY_CONTAINERS_INVALID"
-	CodeQtyFillLarge         = "QTY_FILL_LARGE"
-	CodeQtyFillSmall         = "QTY_FILL_SMALL"
+	CodeQtyPackagesInvalid   = "QTY_PACKAGES_INVALID"
+	CodeQtyFillNoPackages    = "QTY_FILL_WITHOUT_PACKAGES"
+	CodeQtyTotalFillDisagree = "QTY_TOTAL_FILL_DISAGREE"
+
+	// exempted uses and servicing tails (family phase-out)
+	CodeExemptUseWrongGroup   = "EXEMPT_USE_WRONG_GROUP"
+	CodeExemptUseUnauthorised = "EXEMPT_USE_UNAUTHORISED"
+	CodeHCFCTailUse           = "HCFC_TAIL_USE"
+	CodeHCFCTailUseMissing    = "HCFC_TAIL_PURPOSE_MISSING"
+	CodeQtyFillLarge          = "QTY_FILL_LARGE"
+	CodeQtyFillSmall          = "QTY_FILL_SMALL"
 
 	// party
 	CodePartnerMissing  = "PARTNER_MISSING"
@@ -125,7 +133,7 @@ var codeTable = []CodeInfo{
 	{CodeLineUnreadable, SeverityError, "record", "", "A line of a batch file could not be read as a record (not UTF-8 text, a quoting mistake, a wrong number of fields, invalid JSON, an unknown key, a line over 1 MiB).", "One record per line in the documented CSV or JSON Lines format."},
 	{CodeKeyMissing, SeverityError, "record", "record_key", "The record has no key.", "A non-empty key of at most 128 bytes, unique per company and unchanged when the record is sent again."},
 	{CodeKeyInvalid, SeverityError, "record", "record_key", "The key is longer than 128 bytes or holds control characters.", "Printable text of at most 128 bytes."},
-	{CodeFieldUnreadable, SeverityError, "record", "", "A reader found a field but could not convert it (an unknown direction, purpose or condition word, a container count that is not a whole number, a composition it cannot read).", "The words and formats listed in the message."},
+	{CodeFieldUnreadable, SeverityError, "record", "", "A reader found a field but could not convert it (an unknown direction, purpose or condition word, a package count that is not a whole number, a composition it cannot read).", "The words and formats listed in the message."},
 	{CodeDirectionMissing, SeverityError, "record", "direction", "No direction is declared.", "import, export, re-export or transit."},
 	{CodeCompanyMissing, SeverityError, "record", "company_id", "No company is declared.", "The registered identifier of the declaring company."},
 
@@ -150,14 +158,16 @@ var codeTable = []CodeInfo{
 	{CodeFormulaNotApplic, SeverityWarning, "identity", "declared_formula", "A formula is declared for a blend, which has none.", "No formula for a blend."},
 
 	// quantity
-	{CodeQtyMissing, SeverityError, "quantity", "quantity", "No quantity is declared.", "A decimal number with a dot, e.g. 1250.5."},
-	{CodeQtyFormat, SeverityError, "quantity", "quantity", "The quantity is not a plain decimal number (a comma, a space or thousands separator, an exponent, a unit inside the number, more than 18 digits).", "Digits with at most one dot as the decimal separator, e.g. 1250.5."},
-	{CodeQtyNotPositive, SeverityError, "quantity", "quantity", "The quantity is zero or negative.", "A quantity above zero."},
-	{CodeQtyTooLarge, SeverityError, "quantity", "quantity", "The net mass exceeds 100,000 t in one record.", "A net mass of at most 100,000 t (10^8 kg)."},
+	{CodeQtyMissing, SeverityError, "quantity", "total_net_quantity", "No quantity is declared: neither the total net mass nor a fill per package.", "total_net_quantity as a decimal number with a dot, e.g. 1250.5, or net_fill_per_package with package_count."},
+	{CodeQtyFormat, SeverityError, "quantity", "total_net_quantity", "The total net quantity or the fill per package is not a plain decimal number (a comma, a space or thousands separator, an exponent, a unit inside the number, more than 18 digits); the finding's field names which.", "Digits with at most one dot as the decimal separator, e.g. 1250.5."},
+	{CodeQtyNotPositive, SeverityError, "quantity", "total_net_quantity", "The total net quantity or the fill per package is zero or negative.", "A quantity above zero."},
+	{CodeQtyTooLarge, SeverityError, "quantity", "total_net_quantity", "The net mass exceeds 100,000 t in one record.", "A net mass of at most 100,000 t (10^8 kg)."},
 	{CodeQtyUnitUnknown, SeverityError, "quantity", "quantity_unit", "The unit is missing, unknown or ambiguous (\"ton\").", "kg, t (metric tonne), g or lb (0.45359237 kg)."},
-	{CodeQtyContainersInvalid, SeverityError, "quantity", "container_count", "The container count is negative or above 10^9.", "0 (the quantity is the total) or the number of containers (the quantity is the net fill of each)."},
-	{CodeQtyFillLarge, SeverityWarning, "quantity", "quantity", "Each container would hold more than 1000 kg net, more than a ton container's usual fill (common practice); the total may have been given as the fill.", "Accepted for review; give the fill per container, or the total with container count 0."},
-	{CodeQtyFillSmall, SeverityWarning, "quantity", "quantity", "Each container would hold less than 0.1 kg net, less than the smallest refrigerant cans (common practice); grams or the total may have been confused. Not raised for laboratory purpose.", "Accepted for review; check the unit and the container count."},
+	{CodeQtyPackagesInvalid, SeverityError, "quantity", "package_count", "The package count is negative or above 10^9.", "Empty or 0 (not declared), or the number of packages."},
+	{CodeQtyFillNoPackages, SeverityError, "quantity", "net_fill_per_package", "A net fill per package is given without a package count, so no total follows from it.", "package_count with the fill, or only total_net_quantity."},
+	{CodeQtyTotalFillDisagree, SeverityError, "quantity", "total_net_quantity", "The total net quantity and the fill per package times the package count disagree by more than the last digit written of each (half a unit of the last decimal of the total, plus half a unit of the last decimal of the fill per package).", "Figures that agree, e.g. total 113 with 10 packages of 11.3; or only the total."},
+	{CodeQtyFillLarge, SeverityNotice, "quantity", "package_count", "More than 1000 kg net per package, more than a ton container's usual fill (common practice); the total may have been given as the fill, or the package count is short. An ISO tank declared as one package draws it too.", "Accepted; for review."},
+	{CodeQtyFillSmall, SeverityNotice, "quantity", "package_count", "Less than 0.1 kg net per package, less than the smallest refrigerant cans (common practice); grams and kilograms, or the package count, may have been confused. Not raised for laboratory purpose.", "Accepted; for review: check the unit and the package count."},
 
 	// party
 	{CodePartnerMissing, SeverityError, "party", "partner_country", "No partner country is declared.", "An ISO 3166-1 alpha-2 code, e.g. XA."},
@@ -183,13 +193,17 @@ var codeTable = []CodeInfo{
 	{CodeLicenceScope, SeverityError, "licence", "substance", "No quota line of the licence covers a controlled substance in the shipment (by Annex group or by substance).", "A licence with a quota line for the substance or its Annex group."},
 
 	// quota
-	{CodeQuotaExceeded, SeverityError, "quota", "quantity", "The shipment draws more than remains on the quota line (after earlier records of the same batch).", "At most the remaining amount, in the line's unit (metric t, ODP t or CO2-eq t)."},
-	{CodeQuotaNearLimit, SeverityNotice, "quota", "quantity", "After this shipment more than 90 % of the quota line is used.", "Accepted."},
+	{CodeQuotaExceeded, SeverityError, "quota", "total_net_quantity", "The shipment draws more than remains on the quota line (after earlier records of the same batch).", "At most the remaining amount, in the line's unit (metric t, ODP t or CO2-eq t)."},
+	{CodeQuotaNearLimit, SeverityNotice, "quota", "total_net_quantity", "After this shipment more than 90 % of the quota line is used.", "Accepted."},
 	{CodeQuotaLineInvalid, SeverityError, "quota", "licence_number", "The quota line the shipment would draw on has no unit or a negative allocation.", "A quota line in metric t, ODP t or CO2-eq t with an allocation of zero or more."},
 
 	// phase-out
 	{CodePhasedOut, SeverityError, "phase-out", "purpose", "The reporting Party's allowed consumption of the group is zero in the declaration year, and the import is neither for an exempted purpose nor of used, recycled or reclaimed material.", "Feedstock, destruction, laboratory, essential use, critical use, process agent, QPS (methyl bromide), or used/recycled/reclaimed material."},
 	{CodePhasedOutExempt, SeverityNotice, "phase-out", "purpose", "The group is phased out for the reporting Party, and the import passes because of its purpose or condition.", "Accepted; the exemption is reported as its decision says."},
+	{CodeExemptUseWrongGroup, SeverityError, "phase-out", "purpose", "Critical use is declared for a phased-out group other than methyl bromide; critical uses exist only for methyl bromide (Article 2H para 5; Decision IX/6).", "The use the substance is authorised for; otherwise the goods are held."},
+	{CodeExemptUseUnauthorised, SeverityError, "phase-out", "purpose", "An essential, critical (methyl bromide), laboratory/analytical or process-agent use of a phased-out group is declared, but the licence does not list that purpose: the use needs an authorisation (Decision IV/25 essential uses; Article 2H para 5 and Decision IX/6 critical uses; Decision VI/9 laboratory and analytical uses; Decision X/14 process agents).", "A licence that lists the purpose, issued within what the Parties authorised; the import then draws on the licence's quota lines like any other."},
+	{CodeHCFCTailUse, SeverityError, "phase-out", "purpose", "An HCFC import during a servicing tail (non-Article 5 2020-2029, Article 2F para 6; Article 5 2030-2039, Article 5 para 8 ter (e)) declares a use the tail does not allow.", "servicing (refrigeration and air-conditioning equipment), fire-protection-servicing, rocket-engine-solvent or medical-aerosol-burns (the 2018 additions, from memory), or a use outside consumption (feedstock, destruction, process agent) or an authorised exempted use."},
+	{CodeHCFCTailUseMissing, SeverityWarning, "phase-out", "purpose", "An HCFC import during a servicing tail declares no purpose, so whether it serves a use the tail allows is not known.", "Accepted for review; declare the purpose."},
 	{CodeScheduleUnknown, SeverityNotice, "phase-out", "substance", "No control schedule is known for the group, year and the reporting Party's type, so the phase-out was not checked.", "Accepted."},
 
 	// purpose

@@ -49,8 +49,8 @@ func TestCodeTableMarkdown(t *testing.T) {
 
 func TestNewFindingUsesTableSeverity(t *testing.T) {
 	f := newFinding(CodeQtyNotPositive, "", "x")
-	if f.Severity != SeverityError || f.Field != "quantity" {
-		t.Errorf("newFinding(QTY_NOT_POSITIVE) = %+v; want severity error and field quantity from the table", f)
+	if f.Severity != SeverityError || f.Field != "total_net_quantity" {
+		t.Errorf("newFinding(QTY_NOT_POSITIVE) = %+v; want severity error and field total_net_quantity from the table", f)
 	}
 	if n := newFinding(CodeQuotaNearLimit, "", "x"); n.Severity != SeverityNotice {
 		t.Errorf("QUOTA_NEAR_LIMIT severity = %v, want notice", n.Severity)
@@ -60,7 +60,7 @@ func TestNewFindingUsesTableSeverity(t *testing.T) {
 func TestOutcomeAndSort(t *testing.T) {
 	fs := []Finding{
 		newFinding(CodePurposeMissing, "", "n"),
-		newFinding(CodeQtyFillLarge, "", "w"),
+		newFinding(CodePartnerUnknown, "", "w"),
 		newFinding(CodeQtyNotPositive, "", "e1"),
 		newFinding(CodeDateFuture, "", "e2"),
 	}

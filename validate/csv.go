@@ -28,12 +28,14 @@ const (
 	colHS
 	colCAS
 	colFormula
-	colQuantity
+	colTotal
 	colUnit
-	colContainers
+	colPackages
+	colFill
 	colPurpose
 	colCondition
 	colComposition
+	colMeasured
 	numColumns
 )
 
@@ -48,12 +50,14 @@ var csvColumns = [numColumns]Column{
 	colHS:          {"declared_hs_code", false, "HS code, 6 digits or more, dots optional"},
 	colCAS:         {"declared_cas_number", false, "CAS Registry Number"},
 	colFormula:     {"declared_formula", false, "molecular formula"},
-	colQuantity:    {"quantity", true, "decimal number with a dot; the net fill per container when container_count > 0"},
+	colTotal:       {"total_net_quantity", false, "total net mass in quantity_unit, a decimal number with a dot; may be empty when net_fill_per_package and package_count are given"},
 	colUnit:        {"quantity_unit", true, "kg, t, g or lb"},
-	colContainers:  {"container_count", false, "whole number of containers; 0 or empty when quantity is the total"},
-	colPurpose:     {"purpose", false, "servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other"},
+	colPackages:    {"package_count", false, "whole number of packages (cylinders, drums, ISO tanks); empty when not declared"},
+	colFill:        {"net_fill_per_package", false, "net fill of each package in quantity_unit, a decimal number with a dot; needs package_count"},
+	colPurpose:     {"purpose", false, "servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other, fire-protection-servicing, rocket-engine-solvent, medical-aerosol-burns"},
 	colCondition:   {"condition", false, "virgin, used, recycled, reclaimed"},
 	colComposition: {"declared_composition", false, "identifier=percent pairs separated by \";\", e.g. HFC-125=44;HFC-143a=52;HFC-134a=4"},
+	colMeasured:    {"measured_composition", false, "what an analyser or a laboratory measured: identifier=percent[±uncertainty] separated by \";\", air as air=percent, e.g. HCFC-22=95±0.5;air=5"},
 }
 
 // CSVColumns returns the columns of the CSV batch format in their usual order.
@@ -75,7 +79,7 @@ var columnByKey = func() map[string]int {
 // HeaderError says why a CSV header row was refused.
 type HeaderError struct {
 	Line      int64
-	Problem   string   // e.g. "unknown columns: qty; missing required columns: quantity"
+	Problem   string   // e.g. "unknown columns: qty; missing required columns: quantity_unit"
 	Expected  []string // every accepted column, required ones first
 	Required  []string
 	Unknown   []string
@@ -155,6 +159,9 @@ func NewCSVReader(r io.Reader, opts ...ReaderOption) (*CSVReader, error) {
 	if problem != "" {
 		return nil, c.headerError(problem, nil, nil, nil)
 	}
+	if old := oldQuantityColumns(names); len(old) > 0 {
+		return nil, c.headerError(oldQuantityProblem("column", old), old, nil, nil)
+	}
 	seen := [numColumns]bool{}
 	var unknown, dup, missing []string
 	c.cols = make([]int, len(names))
@@ -176,6 +183,9 @@ func NewCSVReader(r io.Reader, opts ...ReaderOption) (*CSVReader, error) {
 			missing = append(missing, col.Name)
 		}
 	}
+	if !seen[colTotal] && !seen[colFill] {
+		missing = append(missing, csvColumns[colTotal].Name+" (or "+csvColumns[colFill].Name+" with "+csvColumns[colPackages].Name+")")
+	}
 	if len(unknown)+len(dup)+len(missing) > 0 {
 		var parts []string
 		if len(unknown) > 0 {
@@ -191,6 +201,31 @@ func NewCSVReader(r io.Reader, opts ...ReaderOption) (*CSVReader, error) {
 	}
 	c.fields = make([]string, 0, len(names))
 	return c, nil
+}
+
+// oldQuantityColumns returns the header names, as written, of the columns the format no
+// longer has: "quantity" (read as the fill of each container when a container count was
+// given) and "container_count".
+func oldQuantityColumns(names []string) []string {
+	var out []string
+	for _, n := range names {
+		switch enumKey(strings.TrimSpace(n)) {
+		case "quantity", "containercount":
+			out = append(out, strings.TrimSpace(n))
+		}
+	}
+	return out
+}
+
+// oldQuantityProblem says what replaces the old quantity columns (or JSON keys: noun).
+func oldQuantityProblem(noun string, old []string) string {
+	what := "the " + noun + " " + old[0] + " is"
+	if len(old) > 1 {
+		what = "the " + noun + "s " + strings.Join(old, " and ") + " are"
+	}
+	return fmt.Sprintf("%s no longer read (it took quantity for the fill of each container when a container count was given): "+
+		"give %s (the total net mass in %s), and optionally %s (the number of packages) and %s (the net fill of each package, which must agree with the total)",
+		what, csvColumns[colTotal].Name, csvColumns[colUnit].Name, csvColumns[colPackages].Name, csvColumns[colFill].Name)
 }
 
 func (c *CSVReader) headerError(problem string, unknown, dup, missing []string) *HeaderError {
@@ -258,16 +293,18 @@ func (c *CSVReader) record(lineNo int64, fields []string) Record {
 			r.CAS = v
 		case colFormula:
 			r.Formula = v
-		case colQuantity:
-			r.Quantity = v
+		case colTotal:
+			r.TotalQuantity = v
 		case colUnit:
 			r.Unit = v
-		case colContainers:
+		case colPackages:
 			n, err := parseCount(v)
 			if err != nil {
-				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colContainers].Name, Text: cutText(v), Reason: err.Error()})
+				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colPackages].Name, Text: cutText(v), Reason: err.Error()})
 			}
-			r.ContainerCount = n
+			r.PackageCount = n
+		case colFill:
+			r.FillPerPackage = v
 		case colPurpose:
 			p, err := ParsePurpose(v)
 			if err != nil {
@@ -286,12 +323,18 @@ func (c *CSVReader) record(lineNo int64, fields []string) Record {
 				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colComposition].Name, Text: cutText(v), Reason: err.Error()})
 			}
 			r.Composition = shares
+		case colMeasured:
+			shares, err := ParseMeasured(v)
+			if err != nil {
+				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colMeasured].Name, Text: cutText(v), Reason: err.Error()})
+			}
+			r.Measured = shares
 		}
 	}
 	return r
 }
 
-// parseCount reads a container count: empty is 0, else a whole number without sign or
+// parseCount reads a package count: empty is 0, else a whole number without sign or
 // separators.
 func parseCount(s string) (int64, error) {
 	if s == "" {
@@ -302,12 +345,12 @@ func parseCount(s string) (int64, error) {
 			if i == 0 && s[0] == '-' && len(s) > 1 {
 				continue // a negative count is read, and refused by the quantity rules
 			}
-			return 0, fmt.Errorf("container count %q is not a whole number; accepted: 0 or a whole number of containers, digits only", cutText(s))
+			return 0, fmt.Errorf("package count %q is not a whole number; accepted: empty, or a whole number of packages, digits only", cutText(s))
 		}
 	}
 	n, err := strconv.ParseInt(s, 10, 64)
 	if err != nil {
-		return 0, fmt.Errorf("container count %q is out of range; accepted: 0 to %d", cutText(s), int64(maxContainers))
+		return 0, fmt.Errorf("package count %q is out of range; accepted: 0 to %d", cutText(s), int64(maxContainers))
 	}
 	return n, nil
 }

@@ -12,7 +12,21 @@ import (
 
 // fingerprintVersion is hashed first; change it whenever the normalization below changes, so
 // that fingerprints of different versions never compare equal by accident.
-const fingerprintVersion = "halovet-record-v1"
+const fingerprintVersion = "halovet-record-v2" // v2: total net quantity, package count and fill per package
+
+// fpDecimal appends a quantity: its normalized decimal when it parses ("1250.50" =
+// "1250.5"), else the trimmed text, marked apart.
+func fpDecimal(b []byte, text string) []byte {
+	if d, err := ParseDecimal(text); err == nil {
+		var nb [48]byte
+		nd := d.appendNormalized(nb[:0])
+		b = append(b, 'n')
+		b = fpLen(b, len(nd))
+		return append(b, nd...)
+	}
+	b = append(b, 't')
+	return fpField(b, strings.TrimSpace(text))
+}
 
 // Fingerprint returns the SHA-256 (lower-case hex) of a record's normalized content. Two
 // records with the same fingerprint declare the same shipment; the store saves it with each
@@ -23,7 +37,7 @@ const fingerprintVersion = "halovet-record-v1"
 // content); surrounding spaces are trimmed everywhere; the company id keeps its case; licence
 // number and partner country are upper-cased; the substance and composition identifiers are
 // lower-cased with inner runs of spaces collapsed; the HS code keeps its digits only; the
-// quantity is written as a normalized decimal when it parses ("1250.50" = "1250.5"); the unit,
+// total and the fill per package are written as normalized decimals when they parse ("1250.50" = "1250.5"); the unit,
 // direction, purpose and condition are written as their canonical words; composition shares
 // are sorted by identifier. Each field is length-prefixed, so no two different field lists
 // give the same byte string.
@@ -39,22 +53,14 @@ func Fingerprint(r *Record) string {
 	b = fpDigits(b, r.HSCode)
 	b = fpField(b, strings.TrimSpace(r.CAS))
 	b = fpField(b, strings.TrimSpace(r.Formula))
-	if d, err := ParseDecimal(r.Quantity); err == nil {
-		var nb [48]byte
-		nd := d.appendNormalized(nb[:0])
-		b = append(b, 'n')
-		b = fpLen(b, len(nd))
-		b = append(b, nd...)
-	} else {
-		b = append(b, 't')
-		b = fpField(b, strings.TrimSpace(r.Quantity))
-	}
+	b = fpDecimal(b, r.TotalQuantity)
+	b = fpDecimal(b, r.FillPerPackage)
 	if u, err := ParseUnit(r.Unit); err == nil {
 		b = fpField(b, u.String())
 	} else {
 		b = fpField(b, strings.ToLower(strings.TrimSpace(r.Unit)))
 	}
-	b = strconv.AppendInt(b, r.ContainerCount, 10)
+	b = strconv.AppendInt(b, r.PackageCount, 10)
 	b = append(b, 0)
 	b = fpField(b, r.Purpose.String())
 	b = fpField(b, r.Condition.String())

@@ -9,7 +9,7 @@ func fpBase() Record {
 	return Record{
 		Key: "K1", Line: 7, Direction: DirectionImport, CompanyID: "CO-1", LicenceNumber: "lic-1",
 		PartnerCountry: "xa", DeclarationDate: "2025-03-01", Substance: "R-404A", HSCode: "3827.61",
-		Quantity: "1250.50", Unit: "KG", ContainerCount: 0, Purpose: PurposeServicing,
+		TotalQuantity: "1250.50", Unit: "KG", PackageCount: 0, Purpose: PurposeServicing,
 		Composition: []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {"HFC-134a", 4}},
 	}
 }
@@ -25,7 +25,7 @@ func TestFingerprintNormalizes(t *testing.T) {
 		edit func(*Record)
 	}{
 		{"other key and line", func(r *Record) { r.Key = "K2"; r.Line = 99 }},
-		{"quantity trailing zeros", func(r *Record) { r.Quantity = "1250.5" }},
+		{"quantity trailing zeros", func(r *Record) { r.TotalQuantity = "1250.5" }},
 		{"unit word", func(r *Record) { r.Unit = "kilograms" }},
 		{"partner case", func(r *Record) { r.PartnerCountry = " XA " }},
 		{"licence case", func(r *Record) { r.LicenceNumber = "LIC-1" }},
@@ -46,12 +46,12 @@ func TestFingerprintNormalizes(t *testing.T) {
 		name string
 		edit func(*Record)
 	}{
-		{"quantity", func(r *Record) { r.Quantity = "1250.51" }},
+		{"quantity", func(r *Record) { r.TotalQuantity = "1250.51" }},
 		{"unit", func(r *Record) { r.Unit = "lb" }},
 		{"company", func(r *Record) { r.CompanyID = "co-1" }},
 		{"direction", func(r *Record) { r.Direction = DirectionExport }},
 		{"date", func(r *Record) { r.DeclarationDate = "2025-03-02" }},
-		{"containers", func(r *Record) { r.ContainerCount = 2 }},
+		{"containers", func(r *Record) { r.PackageCount = 2 }},
 		{"purpose", func(r *Record) { r.Purpose = PurposeFeedstock }},
 		{"condition", func(r *Record) { r.Condition = ConditionUsed }},
 		{"composition share", func(r *Record) { r.Composition[2].MassPct = 4.5 }},

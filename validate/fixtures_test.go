@@ -98,6 +98,14 @@ func testLicences() map[string]*Licence {
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5}}},
 		"XA-IMP-2025-008": {Number: "XA-IMP-2025-008", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 1e6}}},
+		// authorises the exempted uses that need one (essential, critical, laboratory, process agent)
+		"XA-EXM-2025-010": {Number: "XA-EXM-2025-010", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
+			SpecialPurposes: []Purpose{PurposeEssentialUse, PurposeCriticalUse, PurposeLaboratory, PurposeProcessAgent},
+			QuotaLines: []QuotaLine{
+				{LineNumber: 1, Group: substances.GroupAI, Unit: QuotaODPTonnes, Allocated: 1},
+				{LineNumber: 2, Group: substances.GroupEI, Unit: QuotaMetricTonnes, Allocated: 10},
+				{LineNumber: 3, Group: substances.GroupBII, Unit: QuotaMetricTonnes, Allocated: 10},
+			}},
 		"XA-IMP-OPEN-009": {Number: "XA-IMP-OPEN-009", CompanyID: "CO-1", Directions: []Direction{DirectionImport, DirectionTransit}, ValidFrom: d("1989-01-01"), Status: LicenceActive,
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupAI, Unit: QuotaODPTonnes, Allocated: 1e6}, {LineNumber: 2, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 1e9}, {LineNumber: 3, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 1e6}}},
 	}
@@ -146,14 +154,14 @@ func testEnv(t testing.TB) *Env {
 	return env
 }
 
-// baseRecord is a clean import: 10 cylinders of 13.6 kg HCFC-22 for servicing, on an INVENTED
+// baseRecord is a clean import: 136 kg net of HCFC-22 in 10 cylinders for servicing, on an INVENTED
 // licence. Identifiers: CAS 75-45-6 and formula CHClF2 (source: testdata/reference/halocarbons.csv),
 // HS 2903.71 (source: WCO HS 2022 nomenclature).
 func baseRecord() Record {
 	return Record{
 		Key: "K-1", Line: 2, Direction: DirectionImport, CompanyID: "CO-1", LicenceNumber: "XA-IMP-2025-001",
 		PartnerCountry: "XB", DeclarationDate: "2025-06-01", Substance: "HCFC-22", HSCode: "2903.71",
-		CAS: "75-45-6", Formula: "CHClF2", Quantity: "13.6", Unit: "kg", ContainerCount: 10,
+		CAS: "75-45-6", Formula: "CHClF2", TotalQuantity: "136", Unit: "kg", PackageCount: 10,
 		Purpose: PurposeServicing, Condition: ConditionVirgin,
 	}
 }

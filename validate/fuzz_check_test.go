@@ -26,8 +26,8 @@ func FuzzCheck(f *testing.F) {
 		}
 		containers, _ := strconv.ParseInt(p[11], 10, 64)
 		r := Record{Key: p[0], Direction: DirectionImport, CompanyID: p[1], LicenceNumber: p[2], PartnerCountry: p[3],
-			DeclarationDate: p[4], Substance: p[5], HSCode: p[6], CAS: p[7], Formula: p[8], Quantity: p[9], Unit: p[10],
-			ContainerCount: containers, Purpose: PurposeServicing}
+			DeclarationDate: p[4], Substance: p[5], HSCode: p[6], CAS: p[7], Formula: p[8], TotalQuantity: p[9], Unit: p[10],
+			PackageCount: containers, Purpose: PurposeServicing}
 		if shares, err := parseComposition(p[12]); err == nil {
 			r.Composition = shares
 		}

@@ -11,15 +11,21 @@ import (
 )
 
 // JSONLReader reads the JSON Lines batch format: UTF-8 text, one JSON object per line, with
-// the CSV column names as keys ("record_key", "quantity", ...). The lowerCamelCase names of
+// the CSV column names as keys ("record_key", "total_net_quantity", ...). The lowerCamelCase names of
 // the wire message's JSON mapping ("recordKey") are accepted too, so a file written with
 // protojson reads as is. Values are strings, except:
-//   - quantity may be a JSON number (its literal text is kept, so 1250.5 is read exactly);
-//   - container_count may be a number or a string of digits (protojson writes int64 as a string);
+//   - total_net_quantity and net_fill_per_package may be JSON numbers (the literal text is
+//     kept, so 1250.5 is read exactly);
+//   - package_count may be a number or a string of digits (protojson writes int64 as a string);
 //   - direction, purpose and condition may be words ("re-export"), wire names
 //     ("DIRECTION_RE_EXPORT") or wire numbers;
 //   - declared_composition is an array of {"identifier": "HFC-125", "mass_percent": 44}, or a
-//     string in the CSV form.
+//     string in the CSV form;
+//   - measured_composition is an array of {"identifier": "HCFC-22", "mass_percent": 95,
+//     "uncertainty_points": 0.5}, or a string in the CSV form.
+//
+// The keys "quantity" and "container_count" of the old format give a line error naming the
+// keys that replace them.
 //
 // "source_line" is accepted and ignored: the reader numbers lines itself. Unknown keys, a
 // value of the wrong type, or a line that is not one JSON object give a line error. Blank
@@ -40,6 +46,8 @@ var jsonKeys = func() map[string]int {
 		m[enumKey(c.Name)] = i
 	}
 	m["sourceline"] = -2
+	m["quantity"] = -3
+	m["containercount"] = -3
 	return m
 }()
 
@@ -99,6 +107,9 @@ func decodeJSONRecord(line []byte) (Record, string) {
 		if !ok {
 			return Record{}, fmt.Sprintf("unknown key %q; accepted keys: %s", cutText(k), strings.Join(append(requiredColumns(), optionalColumns()...), ", "))
 		}
+		if id == -3 {
+			return Record{}, oldQuantityProblem("key", []string{k})
+		}
 		if id < 0 {
 			continue
 		}
@@ -140,6 +151,9 @@ func setJSONField(r *Record, id int, raw json.RawMessage) string {
 	if id == colComposition {
 		return setJSONComposition(r, raw)
 	}
+	if id == colMeasured {
+		return setJSONMeasured(r, raw)
+	}
 	text, kind, err := jsonValue(raw)
 	if err != nil {
 		return fmt.Sprintf("%s: %v", name, err)
@@ -149,7 +163,7 @@ func setJSONField(r *Record, id int, raw json.RawMessage) string {
 		return fmt.Sprintf("%s: expected a string, got %s", name, cutText(string(raw)))
 	case 'n':
 		switch id {
-		case colQuantity, colContainers, colDirection, colPurpose, colCondition:
+		case colTotal, colFill, colPackages, colDirection, colPurpose, colCondition:
 		default:
 			return fmt.Sprintf("%s: expected a string, got the number %s", name, cutText(text))
 		}
@@ -180,18 +194,20 @@ func setJSONField(r *Record, id int, raw json.RawMessage) string {
 		r.CAS = text
 	case colFormula:
 		r.Formula = text
-	case colQuantity:
-		r.Quantity = text
+	case colTotal:
+		r.TotalQuantity = text
+	case colFill:
+		r.FillPerPackage = text
 	case colUnit:
 		r.Unit = text
-	case colContainers:
+	case colPackages:
 		n, err := parseCount(text)
 		if err != nil {
 			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(text), Reason: err.Error()})
 		}
-		r.ContainerCount = n
+		r.PackageCount = n
 	case colPurpose:
-		p, err := parseEnumJSON(text, kind, 10, ParsePurpose)
+		p, err := parseEnumJSON(text, kind, int(purposeMax), ParsePurpose)
 		if err != nil {
 			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(text), Reason: err.Error()})
 		}
@@ -275,5 +291,75 @@ func setJSONComposition(r *Record, raw json.RawMessage) string {
 		shares = append(shares, s)
 	}
 	r.Composition = shares
+	return ""
+}
+
+func setJSONMeasured(r *Record, raw json.RawMessage) string {
+	raw = bytes.TrimSpace(raw)
+	name := csvColumns[colMeasured].Name
+	if len(raw) == 0 || raw[0] == 'n' {
+		return ""
+	}
+	if raw[0] == '"' {
+		var s string
+		if err := json.Unmarshal(raw, &s); err != nil {
+			return fmt.Sprintf("%s: %v", name, err)
+		}
+		shares, err := ParseMeasured(s)
+		if err != nil {
+			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(s), Reason: err.Error()})
+		}
+		r.Measured = shares
+		return ""
+	}
+	const want = "expected an array of {\"identifier\": ..., \"mass_percent\": ..., \"uncertainty_points\": ...} objects, or a string such as \"HCFC-22=95±0.5;air=5\""
+	if raw[0] != '[' {
+		return fmt.Sprintf("%s: %s", name, want)
+	}
+	var items []map[string]json.RawMessage
+	dec := json.NewDecoder(bytes.NewReader(raw))
+	dec.UseNumber()
+	if err := dec.Decode(&items); err != nil {
+		return fmt.Sprintf("%s: %s: %v", name, want, err)
+	}
+	shares := make([]MeasuredShare, 0, len(items))
+	for i, it := range items {
+		var s MeasuredShare
+		keys := make([]string, 0, len(it))
+		for k := range it {
+			keys = append(keys, k)
+		}
+		slices.Sort(keys)
+		for _, k := range keys {
+			text, kind, err := jsonValue(it[k])
+			if err != nil {
+				return fmt.Sprintf("%s[%d].%s: %v", name, i, cutText(k), err)
+			}
+			switch enumKey(k) {
+			case "identifier":
+				if kind != 's' {
+					return fmt.Sprintf("%s[%d].identifier: expected a string", name, i)
+				}
+				s.Identifier = strings.TrimSpace(text)
+			case "masspercent", "uncertaintypoints":
+				if kind != 'n' && kind != 's' {
+					return fmt.Sprintf("%s[%d].%s: expected a number", name, i, cutText(k))
+				}
+				d, err := ParseDecimal(text)
+				if err != nil {
+					return fmt.Sprintf("%s[%d].%s: %v", name, i, cutText(k), err)
+				}
+				if enumKey(k) == "masspercent" {
+					s.MassPct = d.Float64()
+				} else {
+					s.Uncertainty = d.Float64()
+				}
+			default:
+				return fmt.Sprintf("%s[%d]: unknown key %q; accepted: identifier, mass_percent, uncertainty_points", name, i, cutText(k))
+			}
+		}
+		shares = append(shares, s)
+	}
+	r.Measured = shares
 	return ""
 }

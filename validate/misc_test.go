@@ -12,7 +12,7 @@ import (
 // destruction; Decision X/14: process agents; Art. 2H para 6: QPS for methyl bromide;
 // Decisions VI/9, IV/25 and IX/6: laboratory, essential and critical uses).
 func TestExemptPurpose(t *testing.T) {
-	for p := PurposeUnspecified; p <= PurposeOther; p++ {
+	for p := PurposeUnspecified; p <= purposeMax; p++ {
 		for _, g := range []substances.Group{substances.GroupAI, substances.GroupEI} {
 			got := exemptPurpose(p, g) != ""
 			want := false

@@ -214,7 +214,7 @@ func (d Decimal) Float64() float64 {
 	return f
 }
 
-// maxContainers bounds ContainerCount so that the exact product stays inside 128 bits.
+// maxContainers bounds PackageCount so that the exact product stays inside 128 bits.
 const maxContainers = 1_000_000_000
 
 // ToKilograms converts an exact quantity in unit u to kilograms, multiplied by containers when

@@ -2,6 +2,7 @@ package validate
 
 import (
 	"errors"
+	"math"
 	"math/big"
 	"math/rand/v2"
 	"strconv"
@@ -243,4 +244,56 @@ func FuzzParseDecimal(f *testing.F) {
 			t.Fatalf("ParseDecimal(%q).Float64() = %v, strconv gives %v", s, d.Float64(), want)
 		}
 	})
+}
+
+// TestDeclaredQuantityDraws: a declaration states the total net mass and the packages apart.
+// "113 kg total in 10 packages" and "11.3 kg per package × 10" both draw 113 kg; HCFC-22 has
+// ODP 0.055 (Montreal Protocol Annex C Group I), so each draws 113 × 0.055 / 1000 =
+// 0.006215 ODP t on the ODP-tonne line 2 of the INVENTED licence.
+func TestDeclaredQuantityDraws(t *testing.T) {
+	env := testEnv(t)
+	cases := []struct {
+		name               string
+		total, fill        string
+		packages           int64
+		wantKg, wantODPt   float64
+		rejectWith, fields string
+	}{
+		{name: "113 kg total in 10 packages", total: "113", packages: 10, wantKg: 113, wantODPt: 0.006215},
+		{name: "11.3 kg per package x 10", fill: "11.3", packages: 10, wantKg: 113, wantODPt: 0.006215},
+		{name: "both, agreeing", total: "113", fill: "11.3", packages: 10, wantKg: 113, wantODPt: 0.006215},
+		{name: "total alone", total: "113", wantKg: 113, wantODPt: 0.006215},
+		{name: "both, disagreeing", total: "113", fill: "13.6", packages: 10, rejectWith: CodeQtyTotalFillDisagree},
+	}
+	for _, c := range cases {
+		r := baseRecord()
+		r.TotalQuantity, r.FillPerPackage, r.PackageCount = c.total, c.fill, c.packages
+		v := Check(env, &r, nil)
+		if c.rejectWith != "" {
+			f, ok := codesOf(v)[c.rejectWith]
+			if v.Outcome != OutcomeRejected || !ok {
+				t.Errorf("%s: outcome %v, findings %v; want rejected with %s", c.name, v.Outcome, v.Findings, c.rejectWith)
+				continue
+			}
+			for _, want := range []string{"total_net_quantity 113 kg", "net_fill_per_package 13.6 kg", "package_count 10", "= 136 kg"} {
+				if !strings.Contains(f.Message, want) {
+					t.Errorf("%s: message %q does not name %q", c.name, f.Message, want)
+				}
+			}
+			if len(v.Draws) != 0 {
+				t.Errorf("%s: rejected record draws %v", c.name, v.Draws)
+			}
+			continue
+		}
+		if v.Outcome == OutcomeRejected {
+			t.Errorf("%s: rejected: %v", c.name, v.Findings)
+			continue
+		}
+		if v.Figures.NetMassKg != c.wantKg {
+			t.Errorf("%s: net mass %v kg, want %v", c.name, v.Figures.NetMassKg, c.wantKg)
+		}
+		if len(v.Draws) != 1 || v.Draws[0].LineNumber != 2 || math.Abs(v.Draws[0].Amount-c.wantODPt) > 1e-12 {
+			t.Errorf("%s: draws %+v, want %v ODP t on line 2", c.name, v.Draws, c.wantODPt)
+		}
+	}
 }

@@ -30,7 +30,7 @@ func readAll(t testing.TB, rr RecordReader) []item {
 	}
 }
 
-const csvHeader = "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,quantity,quantity_unit,container_count,purpose,condition,declared_composition"
+const csvHeader = "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,total_net_quantity,quantity_unit,package_count,purpose,condition,declared_composition"
 
 func TestCSVReaderGoodFile(t *testing.T) {
 	in := "\xef\xbb\xbf" + csvHeader + "\r\n" +
@@ -53,11 +53,11 @@ func TestCSVReaderGoodFile(t *testing.T) {
 		}
 	}
 	a1, a2, a3 := items[0].rec, items[1].rec, items[2].rec
-	if a1.Line != 2 || a1.Key != "A1" || a1.Direction != DirectionImport || a1.ContainerCount != 10 ||
-		a1.Quantity != "13.6" || a1.CAS != "75-45-6" || a1.Purpose != PurposeServicing || a1.Condition != ConditionVirgin {
+	if a1.Line != 2 || a1.Key != "A1" || a1.Direction != DirectionImport || a1.PackageCount != 10 ||
+		a1.TotalQuantity != "13.6" || a1.CAS != "75-45-6" || a1.Purpose != PurposeServicing || a1.Condition != ConditionVirgin {
 		t.Errorf("record A1 read as %+v", a1)
 	}
-	if a2.Line != 4 || a2.Direction != DirectionReExport || a2.Substance != "1,1,1,2-tetrafluoroethane" || a2.Quantity != "1250.5" || a2.Purpose != PurposeFeedstock {
+	if a2.Line != 4 || a2.Direction != DirectionReExport || a2.Substance != "1,1,1,2-tetrafluoroethane" || a2.TotalQuantity != "1250.5" || a2.Purpose != PurposeFeedstock {
 		t.Errorf("record A2 read as %+v", a2)
 	}
 	if a3.Line != 6 || a3.Key != `A"3` || a3.Condition != ConditionUsed || len(a3.Composition) != 3 ||
@@ -72,14 +72,14 @@ func TestCSVReaderGoodFile(t *testing.T) {
 }
 
 func TestCSVReaderHeaderAnyOrderAndCase(t *testing.T) {
-	in := "Quantity, Quantity Unit ,SUBSTANCE,Record-Key,direction,company_id,partner_country,declaration_date\n" +
+	in := "Total Net Quantity, Quantity Unit ,SUBSTANCE,Record-Key,direction,company_id,partner_country,declaration_date\n" +
 		"5,kg,HFC-134a,K,export,C,XA,2025-01-02\n"
 	rr, err := NewCSVReader(strings.NewReader(in))
 	if err != nil {
 		t.Fatalf("NewCSVReader: %v", err)
 	}
 	items := readAll(t, rr)
-	if len(items) != 1 || items[0].lerr != nil || items[0].rec.Quantity != "5" || items[0].rec.Unit != "kg" || items[0].rec.Key != "K" {
+	if len(items) != 1 || items[0].lerr != nil || items[0].rec.TotalQuantity != "5" || items[0].rec.Unit != "kg" || items[0].rec.Key != "K" {
 		t.Fatalf("got %+v", items)
 	}
 }
@@ -90,8 +90,8 @@ func TestCSVReaderWrongHeader(t *testing.T) {
 		want         []string
 	}{
 		{"unknown and missing", "record_key,direction,company_id,partner_country,declaration_date,substance,qty,quantity_unit",
-			[]string{`unknown columns: "qty"`, "missing required columns: quantity", "required columns: record_key"}},
-		{"duplicate", csvHeader + ",quantity", []string{"duplicate columns: quantity"}},
+			[]string{`unknown columns: "qty"`, "missing required columns: total_net_quantity", "required columns: record_key"}},
+		{"duplicate", csvHeader + ",quantity_unit", []string{"duplicate columns: quantity_unit"}},
 		{"data instead of header", "A1,import,CO-1,L-1,XA,2025-03-01,HCFC-22", []string{"unknown columns", "missing required columns"}},
 		{"empty file", "", []string{"the file is empty"}},
 		{"binary", "\x00\x01\x02garbage", []string{"control character"}},
@@ -172,7 +172,7 @@ func TestCSVReaderUnreadableFields(t *testing.T) {
 	for _, u := range items[0].rec.Unreadable {
 		got[u.Field] = true
 	}
-	for _, f := range []string{"direction", "container_count", "purpose", "condition", "declared_composition"} {
+	for _, f := range []string{"direction", "package_count", "purpose", "condition", "declared_composition"} {
 		if !got[f] {
 			t.Errorf("field %s should be listed as unreadable; got %v", f, items[0].rec.Unreadable)
 		}
@@ -242,9 +242,9 @@ func TestReadersSkipTenMegabyteLine(t *testing.T) {
 
 func TestJSONLReader(t *testing.T) {
 	lines := []string{
-		`{"record_key":"J1","direction":"import","company_id":"C","licence_number":"L","partner_country":"XA","declaration_date":"2025-01-02","substance":"R-410A","quantity":1250.50,"quantity_unit":"kg","container_count":"3","purpose":"PURPOSE_SERVICING","condition":2,"declared_composition":[{"identifier":"HFC-32","mass_percent":50},{"identifier":"HFC-125","mass_percent":"50"}]}`,
+		`{"record_key":"J1","direction":"import","company_id":"C","licence_number":"L","partner_country":"XA","declaration_date":"2025-01-02","substance":"R-410A","total_net_quantity":1250.50,"quantity_unit":"kg","package_count":"3","net_fill_per_package":416.83,"purpose":"PURPOSE_SERVICING","condition":2,"declared_composition":[{"identifier":"HFC-32","mass_percent":50},{"identifier":"HFC-125","mass_percent":"50"}]}`,
 		``,
-		`{"recordKey":"J2","direction":"DIRECTION_RE_EXPORT","sourceLine":99,"quantity":"7","declaredComposition":"HFC-32=50;HFC-125=50"}`,
+		`{"recordKey":"J2","direction":"DIRECTION_RE_EXPORT","sourceLine":99,"totalNetQuantity":"7","declaredComposition":"HFC-32=50;HFC-125=50","measuredComposition":[{"identifier":"HFC-32","mass_percent":49.5,"uncertainty_points":0.5},{"identifier":"HFC-125","massPercent":50.5}]}`,
 		`{"record_key":"J3",`,
 		`[1,2,3]`,
 		`{"record_key":"J4","qty":"5"}`,
@@ -252,8 +252,11 @@ func TestJSONLReader(t *testing.T) {
 		`{"record_key":5}`,
 		`{"record_key":"J7","declared_composition":[{"identifier":"HFC-32","share":50}]}`,
 		"\x00\x01binary\xff",
-		`{"record_key":"J8","direction":"sideways","container_count":-2}`,
+		`{"record_key":"J8","direction":"sideways","package_count":-2}`,
 		`{"record_key":"J9","record-key":"J9"}`,
+		`{"record_key":"J10","quantity":"13.6","container_count":10}`,
+		`{"record_key":"J11","measured_composition":"HCFC-22=95±0.5;air=5"}`,
+		`{"record_key":"J12","measured_composition":[{"identifier":"HCFC-22","share":95}]}`,
 	}
 	rr := NewJSONLReader(strings.NewReader(strings.Join(lines, "\n")))
 	items := readAll(t, rr)
@@ -266,6 +269,8 @@ func TestJSONLReader(t *testing.T) {
 		9:  `unknown key "share"`,
 		10: "control character",
 		12: "given twice",
+		13: "the key container_count is no longer read",
+		15: `unknown key "share"; accepted: identifier, mass_percent, uncertainty_points`,
 	}
 	if len(items) != len(lines)-1 {
 		t.Fatalf("got %d items, want %d (one per non-blank line)", len(items), len(lines)-1)
@@ -284,17 +289,72 @@ func TestJSONLReader(t *testing.T) {
 		}
 	}
 	j1 := items[0].rec
-	if j1.Key != "J1" || j1.Quantity != "1250.50" || j1.ContainerCount != 3 || j1.Purpose != PurposeServicing ||
+	if j1.Key != "J1" || j1.TotalQuantity != "1250.50" || j1.PackageCount != 3 || j1.FillPerPackage != "416.83" || j1.Purpose != PurposeServicing ||
 		j1.Condition != ConditionUsed || len(j1.Composition) != 2 || j1.Composition[1].MassPct != 50 || j1.Line != 1 {
 		t.Errorf("J1 read as %+v", j1)
 	}
 	j2 := items[1].rec
-	if j2.Key != "J2" || j2.Direction != DirectionReExport || j2.Line != 3 || len(j2.Composition) != 2 {
+	if j2.Key != "J2" || j2.Direction != DirectionReExport || j2.Line != 3 || len(j2.Composition) != 2 || j2.TotalQuantity != "7" ||
+		len(j2.Measured) != 2 || j2.Measured[0] != (MeasuredShare{Identifier: "HFC-32", MassPct: 49.5, Uncertainty: 0.5}) || j2.Measured[1].MassPct != 50.5 {
 		t.Errorf("J2 read as %+v", j2)
 	}
 	j8 := items[9].rec
-	if j8.Key != "J8" || len(j8.Unreadable) != 1 || j8.Unreadable[0].Field != "direction" || j8.ContainerCount != -2 {
+	if j8.Key != "J8" || len(j8.Unreadable) != 1 || j8.Unreadable[0].Field != "direction" || j8.PackageCount != -2 {
 		t.Errorf("J8 read as %+v", j8)
+	}
+	j11 := items[12].rec
+	if j11.Key != "J11" || len(j11.Measured) != 2 || j11.Measured[0] != (MeasuredShare{Identifier: "HCFC-22", MassPct: 95, Uncertainty: 0.5}) || j11.Measured[1].Identifier != "air" {
+		t.Errorf("J11 read as %+v", j11)
+	}
+	if le := items[11].lerr; le == nil || !strings.Contains(le.Reason, "give total_net_quantity") || !strings.Contains(le.Reason, "package_count") || !strings.Contains(le.Reason, "net_fill_per_package") {
+		t.Errorf("old key container_count: got %+v, want one error naming total_net_quantity, package_count and net_fill_per_package", le)
+	}
+}
+
+// TestCSVReaderOldQuantityHeader: the header of the old format gets one error naming the
+// columns that replace it.
+func TestCSVReaderOldQuantityHeader(t *testing.T) {
+	old := "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,quantity,quantity_unit,container_count\n"
+	_, err := NewCSVReader(strings.NewReader(old + "K,import,C,L,XA,2025-01-02,HCFC-22,13.6,kg,10\n"))
+	var he *HeaderError
+	if !errors.As(err, &he) {
+		t.Fatalf("old header: error %v, want a *HeaderError", err)
+	}
+	for _, want := range []string{"the columns quantity and container_count are no longer read", "give total_net_quantity", "package_count", "net_fill_per_package"} {
+		if !strings.Contains(he.Problem, want) {
+			t.Errorf("problem %q does not say %q", he.Problem, want)
+		}
+	}
+	if strings.Contains(he.Problem, "unknown columns") || strings.Count(err.Error(), "no longer read") != 1 {
+		t.Errorf("want one error about the old columns, got %q", err)
+	}
+}
+
+// TestCSVReaderFillAndMeasured reads the fill per package and the measured composition.
+func TestCSVReaderFillAndMeasured(t *testing.T) {
+	in := "record_key,direction,company_id,partner_country,declaration_date,substance,quantity_unit,package_count,net_fill_per_package,measured_composition\n" +
+		"K,import,C,XA,2025-01-02,HFC-134a,kg,10,11.3,HFC-134a=99±1;air=1\n" +
+		"K2,import,C,XA,2025-01-02,HFC-134a,kg,10,11.3,HFC-134a\n"
+	rr, err := NewCSVReader(strings.NewReader(in))
+	if err != nil {
+		t.Fatal(err)
+	}
+	items := readAll(t, rr)
+	if len(items) != 2 || items[0].lerr != nil || items[1].lerr != nil {
+		t.Fatalf("want two records, got %+v", items)
+	}
+	r := items[0].rec
+	if r.FillPerPackage != "11.3" || r.PackageCount != 10 || r.TotalQuantity != "" || len(r.Measured) != 2 ||
+		r.Measured[0] != (MeasuredShare{Identifier: "HFC-134a", MassPct: 99, Uncertainty: 1}) {
+		t.Errorf("read as %+v", r)
+	}
+	if u := items[1].rec.Unreadable; len(u) != 1 || u[0].Field != "measured_composition" {
+		t.Errorf("a reading without \"=\" should be unreadable in measured_composition, got %+v", u)
+	}
+	// Neither total nor fill in the header.
+	_, err = NewCSVReader(strings.NewReader("record_key,direction,company_id,partner_country,declaration_date,substance,quantity_unit,package_count\n"))
+	if err == nil || !strings.Contains(err.Error(), "missing required columns: total_net_quantity (or net_fill_per_package with package_count)") {
+		t.Errorf("header without quantity: error %v", err)
 	}
 }
 
@@ -386,9 +446,9 @@ func FuzzCSVReader(f *testing.F) {
 }
 
 func FuzzJSONLReader(f *testing.F) {
-	f.Add([]byte(`{"record_key":"J1","quantity":1.5,"declared_composition":[{"identifier":"HFC-32","mass_percent":50}]}` + "\n"))
+	f.Add([]byte(`{"record_key":"J1","total_net_quantity":1.5,"declared_composition":[{"identifier":"HFC-32","mass_percent":50}]}` + "\n"))
 	f.Add([]byte("{\"record_key\":\n[1]\n\n \n{} {}\n\x00\n"))
-	f.Add([]byte(`{"direction":3,"purpose":"qps","condition":"USED","container_count":"9"}`))
+	f.Add([]byte(`{"direction":3,"purpose":"qps","condition":"USED","package_count":"9","net_fill_per_package":"1.5"}`))
 	f.Add([]byte(strings.Repeat("{", 300) + "\r\n{\"a\":1}\r\n"))
 	f.Fuzz(func(t *testing.T, data []byte) { fuzzReader(t, data, false) })
 }
@@ -406,7 +466,7 @@ func TestReadersSkipCommentLines(t *testing.T) {
 	if len(got) != 1 || got[0].lerr != nil || got[0].rec.Key != "A1" || got[0].rec.Line != 4 {
 		t.Fatalf("CSV with comments: %+v; want one record A1 on line 4", got)
 	}
-	jsonIn := "# invented\n" + `{"record_key":"J1","direction":"import","company_id":"CO-1","substance":"HCFC-22","quantity":"1","quantity_unit":"kg"}` + "\n#end\n"
+	jsonIn := "# invented\n" + `{"record_key":"J1","direction":"import","company_id":"CO-1","substance":"HCFC-22","total_net_quantity":"1","quantity_unit":"kg"}` + "\n#end\n"
 	jr := NewJSONLReader(strings.NewReader(jsonIn))
 	got = readAll(t, jr)
 	if len(got) != 1 || got[0].lerr != nil || got[0].rec.Key != "J1" || got[0].rec.Line != 2 {

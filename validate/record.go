@@ -7,7 +7,7 @@ import (
 )
 
 // Record is one declared shipment as a customs or ERP system sends it. It mirrors the wire
-// message halovet.v1.ShipmentRecord field for field (Measured apart); text fields hold what the paper says and
+// message halovet.v1.ShipmentRecord field for field; text fields hold what the paper says and
 // are parsed by Check, which reports what it cannot read as findings.
 type Record struct {
 	Key             string          // the client's own key, unique per company, unchanged on retry
@@ -21,16 +21,17 @@ type Record struct {
 	HSCode          string          // declared HS code, 6 digits or more, dots optional
 	CAS             string          // declared CAS Registry Number
 	Formula         string          // declared formula
-	Quantity        string          // as declared: a decimal number with a dot ("1250.5")
-	Unit            string          // unit of Quantity: "kg", "t", "g" or "lb"
-	ContainerCount  int64           // containers; 0 when Quantity is the total, else Quantity is the net fill of each
+	TotalQuantity   string          // total net mass in Unit, as declared: a decimal number with a dot ("1250.5"); may be empty when FillPerPackage and PackageCount are given
+	Unit            string          // unit of TotalQuantity and FillPerPackage: "kg", "t", "g" or "lb"
+	PackageCount    int64           // number of packages (cylinders, drums, ISO tanks); 0 when not declared
+	FillPerPackage  string          // net fill of each package in Unit, as declared; "" when not declared
 	Purpose         Purpose         // declared purpose
 	Condition       Condition       // declared condition; unspecified counts as virgin
 	Composition     []DeclaredShare // declared composition of a mixture, when the paper gives one
 	// Measured is the composition an analyser or a laboratory measured in the cylinder,
-	// when the shipment was tested; Check compares it with the declaration. Not yet a field
-	// of the wire message nor a batch-file column: until the wire record carries it, a
-	// column would be dropped on the way to the server. ParseMeasured reads the text form.
+	// when the shipment was tested; Check compares it with the declaration. It is the wire
+	// field measured_composition and the batch-file column of that name (ParseMeasured reads
+	// the text form).
 	Measured []MeasuredShare
 	// Unreadable lists fields a reader found but could not convert to their type (an unknown
 	// direction word, a container count that is not a whole number, ...). Check turns each
@@ -167,10 +168,16 @@ const (
 	PurposeEssentialUse
 	PurposeCriticalUse
 	PurposeOther
+	PurposeFireProtectionServicing // servicing fire suppression and fire protection equipment
+	PurposeRocketEngineSolvent     // solvent in rocket-engine manufacture
+	PurposeMedicalAerosolBurns     // topical medical aerosols for the treatment of burns
+
+	purposeMax = PurposeMedicalAerosolBurns
 )
 
 var purposeNames = [...]string{"", "servicing", "manufacturing", "feedstock", "process-agent", "qps",
-	"laboratory", "destruction", "essential-use", "critical-use", "other"}
+	"laboratory", "destruction", "essential-use", "critical-use", "other",
+	"fire-protection-servicing", "rocket-engine-solvent", "medical-aerosol-burns"}
 
 // String returns the lower-case word used in files ("process-agent"), or "" when unspecified.
 func (p Purpose) String() string {
@@ -211,8 +218,14 @@ func ParsePurpose(s string) (Purpose, error) {
 		return PurposeCriticalUse, nil
 	case "other":
 		return PurposeOther, nil
+	case "fireprotectionservicing", "fireprotection", "firesuppression":
+		return PurposeFireProtectionServicing, nil
+	case "rocketenginesolvent", "rocketengine":
+		return PurposeRocketEngineSolvent, nil
+	case "medicalaerosolburns", "medicalaerosol":
+		return PurposeMedicalAerosolBurns, nil
 	}
-	return PurposeUnspecified, fmt.Errorf("%w: purpose %q; accepted: servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other", ErrUnknownValue, cutText(s))
+	return PurposeUnspecified, fmt.Errorf("%w: purpose %q; accepted: servicing, manufacturing, feedstock, process-agent, qps, laboratory, destruction, essential-use, critical-use, other, fire-protection-servicing, rocket-engine-solvent, medical-aerosol-burns", ErrUnknownValue, cutText(s))
 }
 
 // Condition of the substance.

@@ -64,7 +64,7 @@ func TestParsePurpose(t *testing.T) {
 	if _, err := ParsePurpose("fun"); !errors.Is(err, ErrUnknownValue) {
 		t.Errorf("ParsePurpose(fun) error = %v, want ErrUnknownValue", err)
 	}
-	for p := PurposeServicing; p <= PurposeOther; p++ {
+	for p := PurposeServicing; p <= purposeMax; p++ {
 		if back, err := ParsePurpose(p.String()); err != nil || back != p {
 			t.Errorf("ParsePurpose(%q) = %v, %v", p.String(), back, err)
 		}

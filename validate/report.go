@@ -157,15 +157,17 @@ type jsonComponent struct {
 }
 
 type jsonFigures struct {
-	ResolvedDesignation string          `json:"resolved_designation"`
-	Kind                string          `json:"kind"`
-	NetMassKg           float64         `json:"net_mass_kg"`
-	ODPTonnes           float64         `json:"odp_tonnes"`
-	CO2eTonnes          float64         `json:"co2e_tonnes"`
-	CountsInConsumption bool            `json:"counts_in_consumption"`
-	PartnerNonParty     bool            `json:"partner_non_party"`
-	SafetyClass         string          `json:"safety_class"`
-	Components          []jsonComponent `json:"components"`
+	ResolvedDesignation string  `json:"resolved_designation"`
+	Kind                string  `json:"kind"`
+	NetMassKg           float64 `json:"net_mass_kg"`
+	ODPTonnes           float64 `json:"odp_tonnes"`
+	CO2eTonnes          float64 `json:"co2e_tonnes"`
+	CountsInConsumption bool    `json:"counts_in_consumption"`
+	PartnerNonParty     bool    `json:"partner_non_party"`
+	// PartnerNotBoundGroups: the groups the partner is not bound for (omitted when none).
+	PartnerNotBoundGroups []string        `json:"partner_not_bound_groups,omitempty"`
+	SafetyClass           string          `json:"safety_class"`
+	Components            []jsonComponent `json:"components"`
 }
 
 type jsonDraw struct {
@@ -198,6 +200,9 @@ func (r *JSONLReport) Write(v *Verdict) error {
 			NetMassKg: round9(v.Figures.NetMassKg), ODPTonnes: round9(v.Figures.ODPTonnes), CO2eTonnes: round9(v.Figures.CO2eTonnes),
 			CountsInConsumption: v.Figures.CountsInConsumption, PartnerNonParty: v.Figures.PartnerNonParty,
 			SafetyClass: v.Figures.SafetyClass, Components: make([]jsonComponent, len(v.Figures.Components))}
+		for _, g := range v.Figures.PartnerNotBoundGroups {
+			fg.PartnerNotBoundGroups = append(fg.PartnerNotBoundGroups, string(g))
+		}
 		for i, c := range v.Figures.Components {
 			fg.Components[i] = jsonComponent{c.Designation, string(c.Group), c.MassPct, round9(c.MassKg), round9(c.ODPTonnes), round9(c.CO2eTonnes)}
 		}

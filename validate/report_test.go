@@ -12,7 +12,7 @@ import (
 // batchFile is an INVENTED batch: a clean HCFC import, an R-32 import (A2L), an R-290 import
 // (A3, not controlled), a rejected record and an unreadable line.
 const batchFile = csvHeader + "\n" +
-	"E-1,import,CO-1,XA-IMP-2025-001,XB,2025-06-01,HCFC-22,2903.71,75-45-6,CHClF2,13.6,kg,10,servicing,virgin,\n" +
+	"E-1,import,CO-1,XA-IMP-2025-001,XB,2025-06-01,HCFC-22,2903.71,75-45-6,CHClF2,136,kg,10,servicing,virgin,\n" +
 	"E-2,import,CO-1,XA-IMP-2025-001,XB,2025-06-02,R-32,2903.42,75-10-5,,100,kg,0,servicing,virgin,\n" +
 	"E-3,import,CO-1,,XB,2025-06-02,R-290,,,,50,kg,0,servicing,virgin,\n" +
 	"E-4,import,CO-1,XA-IMP-2025-001,XB,2025-06-03,HCFC-22,,,,\"1,5\",kg,0,servicing,virgin,\n" +

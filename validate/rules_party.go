@@ -121,6 +121,7 @@ func (c *checker) partnerRules() {
 			continue
 		}
 		c.partnerNonParty = true
+		c.notBound = append(c.notBound, g)
 		start, hasBan := TradeBanStart(g, c.r.Direction)
 		if hasBan && !c.date.Before(start) {
 			verb := "imports of it from"
@@ -138,7 +139,7 @@ func (c *checker) partnerRules() {
 			msg += "does not cover this direction"
 		}
 		if c.r.Direction.Outgoing() {
-			msg += "; an export to it is not deducted from consumption"
+			msg += "; the " + groupLabel(g) + " part of an export to it is not deducted from consumption (Article 3 para 1(c))"
 		}
 		c.add(CodePartnerNotBound, "", msg, c.partner, groupLabel(g), isoDate(c.date))
 	}

@@ -1,15 +1,18 @@
 package validate
 
 import (
+	"math/big"
 	"strings"
 )
 
-// Plausibility limits for the net fill of one container (common practice): a "ton
-// container" (returnable pressure drum) holds about 1000 kg of refrigerant net, so a fill
-// above that suggests the total was entered as the fill; the smallest retail cans hold a few
-// hundred grams, so a fill below 0.1 kg suggests grams entered as kilograms or a confused
-// container count. Laboratory ampoules are legitimately smaller, so laboratory purpose is
-// exempt from the lower limit.
+// Plausibility limits for the net mass of one package (common practice): a "ton container"
+// (returnable pressure drum) holds about 1000 kg of refrigerant net and larger quantities
+// travel in ISO tank containers declared as one package each, so more than 1000 kg per
+// package suggests the total was entered as the fill or the package count is short; the
+// smallest retail cans hold a few hundred grams, so less than 0.1 kg per package suggests
+// grams entered as kilograms or a confused package count. Laboratory ampoules are
+// legitimately smaller, so laboratory purpose is exempt from the lower limit. An ISO tank
+// of 20 t declared as one package draws the notice too: it is for review, not refusal.
 const (
 	maxFillKg = 1000.0
 	minFillKg = 0.1
@@ -20,57 +23,124 @@ const (
 	maxNetKg = 1e8
 )
 
+// Names of the quantity fields, as in the CSV header and the wire message.
+const (
+	fieldTotal    = "total_net_quantity"
+	fieldUnit     = "quantity_unit"
+	fieldPackages = "package_count"
+	fieldFill     = "net_fill_per_package"
+)
+
+// parseQty reads one of the decimal quantity fields; ok is false (and a finding added) when
+// the text is not a decimal above zero. Empty text gives ok false and no finding.
+func (c *checker) parseQty(field, text string) (Decimal, bool) {
+	q := strings.TrimSpace(text)
+	if q == "" {
+		return Decimal{}, false
+	}
+	v, err := ParseDecimal(q)
+	switch {
+	case err != nil:
+		c.add(CodeQtyFormat, field, "%s: %v", field, err)
+		return Decimal{}, false
+	case v.Sign() <= 0:
+		c.add(CodeQtyNotPositive, field, "%s %s is not above zero; declare the net mass shipped", field, v.String())
+		return Decimal{}, false
+	}
+	return v, true
+}
+
+// quantityRules reads the net mass. A declaration states the total net mass and,
+// separately, the number of packages; halovet takes the total when it is given, else the
+// net fill per package times the package count. When both the total and the fill are given
+// they must agree within the last digit written of each: each figure stands for the
+// interval of half a unit of its last decimal either side (113 for 112.5 to 113.5, a fill
+// of 11.3 for 11.25 to 11.35, so 10 packages for 112.5 to 113.5), and the intervals must
+// meet. A package count alone only feeds the plausibility of the mass per package.
 func (c *checker) quantityRules() {
 	r := c.r
-	q := strings.TrimSpace(r.Quantity)
-	var d Decimal
-	qOK := false
-	if q == "" {
-		c.add(CodeQtyMissing, "", "quantity is empty; write the net mass as a decimal number with a dot, e.g. 1250.5")
-	} else if v, err := ParseDecimal(q); err != nil {
-		c.add(CodeQtyFormat, "", "quantity: %v", err)
-	} else if v.Sign() <= 0 {
-		c.add(CodeQtyNotPositive, "", "quantity %s is not above zero; declare the net mass shipped", v.String())
-	} else {
-		d, qOK = v, true
+	totalText, fillText := strings.TrimSpace(r.TotalQuantity), strings.TrimSpace(r.FillPerPackage)
+	total, totalOK := c.parseQty(fieldTotal, totalText)
+	fill, fillOK := c.parseQty(fieldFill, fillText)
+	if totalText == "" && fillText == "" {
+		c.add(CodeQtyMissing, fieldTotal, "%s is empty; write the total net mass as a decimal number with a dot, e.g. 1250.5 (or give %s with %s)", fieldTotal, fieldFill, fieldPackages)
 	}
 	u, err := ParseUnit(r.Unit)
 	switch {
 	case err != nil:
-		c.add(CodeQtyUnitUnknown, "", "quantity_unit: %v", err)
+		c.add(CodeQtyUnitUnknown, fieldUnit, "%s: %v", fieldUnit, err)
 	case u == UnitUnspecified:
-		c.add(CodeQtyUnitUnknown, "", "quantity_unit is empty; accepted: kg, t (metric tonne), g, lb")
+		c.add(CodeQtyUnitUnknown, fieldUnit, "%s is empty; accepted: kg, t (metric tonne), g, lb", fieldUnit)
 	}
-	contOK := true
-	if r.ContainerCount < 0 || r.ContainerCount > maxContainers {
-		c.add(CodeQtyContainersInvalid, "", "container_count %d is out of range; accepted: 0 (quantity is the total) to %d", r.ContainerCount, int64(maxContainers))
-		contOK = false
+	n := r.PackageCount
+	packagesOK := true
+	if n < 0 || n > maxContainers {
+		c.add(CodeQtyPackagesInvalid, fieldPackages, "%s %d is out of range; accepted: 0 (not declared) to %d", fieldPackages, n, int64(maxContainers))
+		packagesOK = false
 	}
-	if !qOK || u == UnitUnspecified || !contOK {
+	if fillText != "" && n == 0 {
+		c.add(CodeQtyFillNoPackages, fieldFill, "%s %s is given without %s; give the number of packages, or only %s", fieldFill, fillText, fieldPackages, fieldTotal)
+		fillOK = false
+	}
+	if u == UnitUnspecified || !packagesOK {
 		return
 	}
-	kg, err := ToKilograms(d, u, r.ContainerCount)
+	var kg float64
+	switch {
+	case totalOK && fillOK:
+		if !fillAgrees(total, fill, n) {
+			fillTotal, _ := ToKilograms(fill, u, n)
+			totalKg, _ := ToKilograms(total, u, 0)
+			c.add(CodeQtyTotalFillDisagree, fieldTotal, "%s %s %s and %s %s %s × %s %d = %s kg disagree (the total is %s kg) by more than the last digit written of each; correct one of them, or give only %s",
+				fieldTotal, total.String(), u, fieldFill, fill.String(), u, fieldPackages, n, trimFloat(fillTotal), trimFloat(totalKg), fieldTotal)
+			return
+		}
+		kg, err = ToKilograms(total, u, 0)
+	case totalOK && totalText != "" && (fillText == "" || fillOK):
+		kg, err = ToKilograms(total, u, 0)
+	case fillOK && totalText == "":
+		kg, err = ToKilograms(fill, u, n)
+	default:
+		return // a finding was added
+	}
 	if err != nil { // not reached: unit and count were checked above
-		c.add(CodeQtyFormat, "", "quantity: %v", err)
+		c.add(CodeQtyFormat, fieldTotal, "%s: %v", fieldTotal, err)
 		return
 	}
 	if kg > maxNetKg {
-		c.add(CodeQtyTooLarge, "", "the net mass is %s t, above the limit of 100000 t for one record", trimFloat(kg/1000))
+		c.add(CodeQtyTooLarge, fieldTotal, "the net mass is %s t, above the limit of 100000 t for one record", trimFloat(kg/1000))
 		return
 	}
 	c.netKg, c.qtyOK = kg, true
-	if r.ContainerCount > 0 {
-		fill, _ := ToKilograms(d, u, 0)
-		c.fillKg = fill
-		shown := d.String() + " kg"
-		if u != UnitKilogram {
-			shown = d.String() + " " + u.String() + " = " + trimFloat(fill) + " kg"
-		}
+	if n > 0 {
+		per := kg / float64(n)
 		switch {
-		case fill > maxFillKg:
-			c.add(CodeQtyFillLarge, "", "each of the %d containers would hold %s net, more than a ton container's usual fill of about 1000 kg; with container_count set, quantity is the fill of one container (give the total with container_count 0)", r.ContainerCount, shown)
-		case fill < minFillKg && r.Purpose != PurposeLaboratory:
-			c.add(CodeQtyFillSmall, "", "each of the %d containers would hold %s net, less than 0.1 kg; check the unit (g or kg) and that quantity is the fill of one container", r.ContainerCount, shown)
+		case per > maxFillKg:
+			c.add(CodeQtyFillLarge, fieldPackages, "%s kg net in %d packages is %s kg per package, more than a ton container's usual fill of about 1000 kg; check that %s is the total and %s the number of packages",
+				trimFloat(kg), n, trimFloat(per), fieldTotal, fieldPackages)
+		case per < minFillKg && r.Purpose != PurposeLaboratory:
+			c.add(CodeQtyFillSmall, fieldPackages, "%s kg net in %d packages is %s kg per package, less than 0.1 kg; check the unit (g or kg) and the number of packages",
+				trimFloat(kg), n, trimFloat(per))
 		}
 	}
+}
+
+// fillAgrees reports whether a total T and a fill F × n packages, both positive and in the
+// same unit, agree within the last digit written: |F·n − T| ≤ ½·10^eT + ½·n·10^eF, where eT
+// and eF are the exponents of the last digits written. Exact integer arithmetic.
+func fillAgrees(total, fill Decimal, n int64) bool {
+	e := min(total.Exp, fill.Exp)
+	scale := func(coef uint64, exp int) *big.Int {
+		v := new(big.Int).SetUint64(coef)
+		return v.Mul(v, new(big.Int).Exp(big.NewInt(10), big.NewInt(int64(exp-e)), nil))
+	}
+	bn := big.NewInt(n)
+	t := scale(total.Coef, total.Exp)
+	f := scale(fill.Coef, fill.Exp)
+	f.Mul(f, bn)
+	diff := new(big.Int).Sub(f, t)
+	diff.Abs(diff).Lsh(diff, 1) // 2·|F·n − T|
+	tol := scale(1, total.Exp)
+	tol.Add(tol, new(big.Int).Mul(bn, scale(1, fill.Exp))) // 10^eT + n·10^eF
+	return diff.Cmp(tol) <= 0
 }

@@ -4,6 +4,7 @@ import (
 	"math"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/halovet/halovet/substances"
 )
@@ -36,7 +37,7 @@ func r404A(r *Record) {
 
 func hfc134a(r *Record) {
 	// source: testdata/reference/halocarbons.csv (CAS, formula); WCO HS 2022 2903.45
-	r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HFC-134a", "2903.45", "811-97-2", "C2H2F4", "12", 1
+	r.Substance, r.HSCode, r.CAS, r.Formula, r.TotalQuantity, r.PackageCount = "HFC-134a", "2903.45", "811-97-2", "C2H2F4", "12", 1
 }
 
 func cfc12(r *Record) {
@@ -133,30 +134,47 @@ var ruleCases = []ruleCase{
 	silent(CodeFormulaNotApplic, "blend without formula", r404A),
 
 	// quantity
-	fire(CodeQtyMissing, "empty", func(r *Record) { r.Quantity = "" }),
+	fire(CodeQtyMissing, "empty", func(r *Record) { r.TotalQuantity = "" }),
 	silent(CodeQtyMissing, "given", nil),
-	fire(CodeQtyFormat, "decimal comma", func(r *Record) { r.Quantity = "13,6" }, "use a dot"),
-	fire(CodeQtyFormat, "thousands space", func(r *Record) { r.Quantity = "1 250"; r.ContainerCount = 0 }, "without spaces"),
+	fire(CodeQtyFormat, "decimal comma", func(r *Record) { r.TotalQuantity = "13,6" }, "use a dot"),
+	fire(CodeQtyFormat, "thousands space", func(r *Record) { r.TotalQuantity = "1 250"; r.PackageCount = 0 }, "without spaces"),
 	silent(CodeQtyFormat, "dot", nil),
-	fire(CodeQtyNotPositive, "zero", func(r *Record) { r.Quantity = "0" }),
-	fire(CodeQtyNotPositive, "negative", func(r *Record) { r.Quantity = "-3" }),
-	silent(CodeQtyNotPositive, "one gram", func(r *Record) { r.Quantity, r.ContainerCount = "0.001", 0 }),
-	fire(CodeQtyTooLarge, "over 100,000 tonnes", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "100001", "t", 0 }),
-	silent(CodeQtyTooLarge, "100,000 tonnes", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "100000", "t", 0 }),
+	fire(CodeQtyNotPositive, "zero", func(r *Record) { r.TotalQuantity = "0" }),
+	fire(CodeQtyNotPositive, "negative", func(r *Record) { r.TotalQuantity = "-3" }),
+	silent(CodeQtyNotPositive, "one gram", func(r *Record) { r.TotalQuantity, r.PackageCount = "0.001", 0 }),
+	fire(CodeQtyTooLarge, "over 100,000 tonnes", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "100001", "t", 0 }),
+	silent(CodeQtyTooLarge, "100,000 tonnes", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "100000", "t", 0 }),
 	fire(CodeQtyUnitUnknown, "ambiguous ton", func(r *Record) { r.Unit = "ton" }, "short ton"),
 	fire(CodeQtyUnitUnknown, "empty", func(r *Record) { r.Unit = "" }),
 	fire(CodeQtyUnitUnknown, "ounces", func(r *Record) { r.Unit = "oz" }),
 	silent(CodeQtyUnitUnknown, "LBS", func(r *Record) { r.Unit = "LBS" }),
-	fire(CodeQtyContainersInvalid, "negative", func(r *Record) { r.ContainerCount = -1 }),
-	silent(CodeQtyContainersInvalid, "zero", func(r *Record) { r.ContainerCount = 0 }),
-	fire(CodeQtyFillLarge, "1200 kg per container", func(r *Record) { r.Quantity, r.ContainerCount = "1200", 2 }, "1200 kg"),
-	silent(CodeQtyFillLarge, "1000 kg ton container", func(r *Record) { r.Quantity, r.ContainerCount = "1000", 1 }),
-	silent(CodeQtyFillLarge, "large total", func(r *Record) { r.Quantity, r.ContainerCount = "5000", 0 }),
-	fire(CodeQtyFillSmall, "50 g per container", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "50", "g", 10 }, "0.05 kg"),
+	fire(CodeQtyPackagesInvalid, "negative", func(r *Record) { r.PackageCount = -1 }),
+	silent(CodeQtyPackagesInvalid, "not declared", func(r *Record) { r.PackageCount = 0 }),
+	// Per-package plausibility, limits 0.1 kg and 1000 kg per package (common practice).
+	fire(CodeQtyFillLarge, "2400 kg in 2 packages", func(r *Record) { r.TotalQuantity, r.PackageCount = "2400", 2 }, "1200 kg per package"),
+	fire(CodeQtyFillLarge, "1200 kg fill", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "", "1200", 2 }, "1200 kg per package"),
+	silent(CodeQtyFillLarge, "1000 kg ton container", func(r *Record) { r.TotalQuantity, r.PackageCount = "1000", 1 }),
+	silent(CodeQtyFillLarge, "large total, packages not declared", func(r *Record) { r.TotalQuantity, r.PackageCount = "5000", 0 }),
+	fire(CodeQtyFillSmall, "500 g in 10 packages", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "500", "g", 10 }, "0.05 kg per package"),
 	silent(CodeQtyFillSmall, "laboratory ampoules", func(r *Record) {
-		r.Quantity, r.Unit, r.ContainerCount, r.Purpose = "50", "g", 10, PurposeLaboratory
+		r.TotalQuantity, r.Unit, r.PackageCount, r.Purpose = "500", "g", 10, PurposeLaboratory
 	}),
-	silent(CodeQtyFillSmall, "0.1 kg", func(r *Record) { r.Quantity, r.ContainerCount = "0.1", 10 }),
+	silent(CodeQtyFillSmall, "1 kg in 10", func(r *Record) { r.TotalQuantity, r.PackageCount = "1", 10 }),
+	// Total and fill: each figure stands for half a unit of its last decimal either side.
+	fire(CodeQtyTotalFillDisagree, "113 total, 12 × 10", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "113", "12", 10 },
+		"total_net_quantity 113 kg", "net_fill_per_package 12 kg × package_count 10 = 120 kg"),
+	// 11.3 × 10 = 113 ± 0.5, 112 ± 0.5: the intervals 112.5..113.5 and 111.5..112.5 meet at 112.5.
+	silent(CodeQtyTotalFillDisagree, "112 total, 11.3 × 10, edge", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "112", "11.3", 10 }),
+	// 111 ± 0.5 = 110.5..111.5 does not reach 112.5.
+	fire(CodeQtyTotalFillDisagree, "111 total, 11.3 × 10", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "111", "11.3", 10 }),
+	// 113.00 ± 0.005 and 11.30 × 10 ± 0.05: 113.06 is outside 112.945..113.055.
+	fire(CodeQtyTotalFillDisagree, "113.06 total, 11.30 × 10", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "113.06", "11.30", 10 }),
+	silent(CodeQtyTotalFillDisagree, "113 total, 11.3 × 10", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "113", "11.3", 10 }),
+	fire(CodeQtyFillNoPackages, "fill alone", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "", "11.3", 0 }, "package_count"),
+	fire(CodeQtyFillNoPackages, "fill and total without packages", func(r *Record) { r.FillPerPackage, r.PackageCount = "13.6", 0 }),
+	silent(CodeQtyFillNoPackages, "fill with packages", func(r *Record) { r.TotalQuantity, r.FillPerPackage, r.PackageCount = "", "13.6", 10 }),
+	fire(CodeQtyFormat, "fill with a comma", func(r *Record) { r.FillPerPackage = "13,6" }, "net_fill_per_package"),
+	fire(CodeQtyNotPositive, "zero fill", func(r *Record) { r.TotalQuantity, r.FillPerPackage = "", "0" }, "net_fill_per_package"),
 
 	// party
 	fire(CodePartnerMissing, "empty", func(r *Record) { r.PartnerCountry = "" }),
@@ -212,15 +230,15 @@ var ruleCases = []ruleCase{
 	silent(CodeLicenceScope, "blend covered by two group lines", func(r *Record) { r.Substance, r.HSCode, r.CAS, r.Formula = "R-402A", "", "", "" }),
 
 	// quota: line 2 (C/I, ODP t) has 1 allocated and 0.5 drawn. source of ODP 0.055: Montreal Protocol Annex C Group I.
-	fire(CodeQuotaExceeded, "10 t HCFC-22 = 0.55 ODP t", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "10", "t", 0 }, "0.55 ODP t", "0.5 ODP t remain"),
+	fire(CodeQuotaExceeded, "10 t HCFC-22 = 0.55 ODP t", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "10", "t", 0 }, "0.55 ODP t", "0.5 ODP t remain"),
 	fire(CodeQuotaExceeded, "a gram over a metric-tonne line", func(r *Record) {
-		r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HCFC-141b", "", "", "", "2000.001", 0
+		r.Substance, r.HSCode, r.CAS, r.Formula, r.TotalQuantity, r.PackageCount = "HCFC-141b", "", "", "", "2000.001", 0
 	}, "line 3"),
 	silent(CodeQuotaExceeded, "exactly the allocation of a metric-tonne line", func(r *Record) {
-		r.Substance, r.HSCode, r.CAS, r.Formula, r.Quantity, r.ContainerCount = "HCFC-141b", "", "", "", "2000", 0
+		r.Substance, r.HSCode, r.CAS, r.Formula, r.TotalQuantity, r.PackageCount = "HCFC-141b", "", "", "", "2000", 0
 	}),
-	silent(CodeQuotaExceeded, "9 t HCFC-22 = 0.495 ODP t", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "9", "t", 0 }),
-	fire(CodeQuotaNearLimit, "9 t HCFC-22 takes the line to 99.5 %", func(r *Record) { r.Quantity, r.Unit, r.ContainerCount = "9", "t", 0 }, "99.5 %"),
+	silent(CodeQuotaExceeded, "9 t HCFC-22 = 0.495 ODP t", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "9", "t", 0 }),
+	fire(CodeQuotaNearLimit, "9 t HCFC-22 takes the line to 99.5 %", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "9", "t", 0 }, "99.5 %"),
 	silent(CodeQuotaNearLimit, "136 kg", nil),
 	fire(CodeQuotaLineInvalid, "line without unit", func(r *Record) { r.LicenceNumber = "XA-IMP-2025-006" }),
 	silent(CodeQuotaLineInvalid, "good line", nil),
@@ -236,6 +254,78 @@ var ruleCases = []ruleCase{
 	fire(CodePhasedOutExempt, "CFC import as feedstock", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }, "feedstock"),
 	fire(CodePhasedOutExempt, "reclaimed CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Condition = "XA-FEED-2025-005", ConditionReclaimed }, "reclaimed material"),
 	silent(CodePhasedOutExempt, "HCFC within the servicing tail", nil),
+	// Exempted uses need an authorisation: critical uses exist only for methyl bromide
+	// (Montreal Protocol Art. 2H para 5; Decision IX/6); essential uses only as the Parties
+	// authorise them (Decision IV/25); laboratory and analytical uses under the global
+	// exemption (Decision VI/9); process agents only for the listed uses (Decision X/14).
+	fire(CodeExemptUseWrongGroup, "CFC-12 for critical use, on a licence listing critical use", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeCriticalUse
+	}, "critical uses exist only for methyl bromide", "Article 2H para 5", "Decision IX/6"),
+	fire(CodeExemptUseWrongGroup, "CFC-12 for critical use, on a licence without it", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeCriticalUse
+	}, "Annex A/I"),
+	silent(CodeExemptUseWrongGroup, "methyl bromide for critical use", func(r *Record) {
+		methylBromide(r)
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeCriticalUse
+	}),
+	fire(CodeExemptUseUnauthorised, "methyl bromide critical use, licence does not list it", func(r *Record) {
+		methylBromide(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeCriticalUse
+	}, "Decision IX/6", "licence XA-FEED-2025-005 lists feedstock, destruction"),
+	fire(CodeExemptUseUnauthorised, "CFC-12 essential use, licence does not list it", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeEssentialUse
+	}, "Decision IV/25", "essential-use"),
+	fire(CodeExemptUseUnauthorised, "CFC-12 for laboratory use, licence does not list it", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeLaboratory
+	}, "Decision VI/9"),
+	fire(CodeExemptUseUnauthorised, "carbon tetrachloride as process agent, licence does not list it", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "carbon tetrachloride", "", "", ""
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeProcessAgent
+	}, "Decision X/14"),
+	silent(CodeExemptUseUnauthorised, "CFC-12 essential use on the authorising licence", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeEssentialUse
+	}),
+	silent(CodeExemptUseUnauthorised, "CFC-12 feedstock (no authorisation of this kind needed)", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock
+	}),
+	silent(CodeExemptUseUnauthorised, "HCFC-22 laboratory use in the servicing tail (not phased out)", func(r *Record) { r.Purpose = PurposeLaboratory }),
+	fire(CodePhasedOutExempt, "CFC-12 essential use on the authorising licence", func(r *Record) {
+		cfc12(r)
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeEssentialUse
+	}, "an essential use"),
+	// HCFC servicing tails: non-Article 5 2020-2029 (Art. 2F para 6), Article 5 2030-2039
+	// (Art. 5 para 8 ter (e)); uses: servicing RAC equipment plus the 2018 additions (from
+	// memory). The test Party XA is non-Article 5; testAllowed gives HCFCs 0.5 % in 2020-2029.
+	fire(CodeHCFCTailUse, "HCFC-22 for manufacturing in 2025, non-Article 5", func(r *Record) { r.Purpose = PurposeManufacturing },
+		"manufacturing", "2020-2029", "Article 2F para 6"),
+	fire(CodeHCFCTailUse, "HCFC-22 for other use", func(r *Record) { r.Purpose = PurposeOther }),
+	silent(CodeHCFCTailUse, "HCFC-22 for servicing", nil),
+	silent(CodeHCFCTailUse, "HCFC-22 for fire protection servicing", func(r *Record) { r.Purpose = PurposeFireProtectionServicing }),
+	silent(CodeHCFCTailUse, "HCFC-22 for rocket-engine solvent", func(r *Record) { r.Purpose = PurposeRocketEngineSolvent }),
+	silent(CodeHCFCTailUse, "HCFC-22 for medical aerosols for burns", func(r *Record) { r.Purpose = PurposeMedicalAerosolBurns }),
+	silent(CodeHCFCTailUse, "recycled HCFC-22 for manufacturing", func(r *Record) { r.Purpose, r.Condition = PurposeManufacturing, ConditionRecycled }),
+	silent(CodeHCFCTailUse, "HCFC-22 export for manufacturing", func(r *Record) {
+		r.Purpose, r.Direction, r.LicenceNumber = PurposeManufacturing, DirectionExport, "XA-EXP-2025-002"
+	}),
+	// An Article 5 reporting Party in 2025 is before its tail (2030-2039).
+	withEnv(silent(CodeHCFCTailUse, "Article 5 Party, 2025, manufacturing", func(r *Record) { r.Purpose = PurposeManufacturing }),
+		func(e *Env) { e.Parties = withType(e.Parties, "XA", PartyTypeArticle5) }),
+	// An Article 5 Party in 2031: HCFCs allowed at 2.5 % (Art. 5 para 8 ter (e)), tail uses only.
+	withEnv(fire(CodeHCFCTailUse, "Article 5 Party, 2031, manufacturing", func(r *Record) {
+		r.Purpose, r.DeclarationDate, r.LicenceNumber = PurposeManufacturing, "2031-03-02", "XA-IMP-OPEN-009"
+	}, "2030-2039", "Article 5 para 8 ter (e)"), func(e *Env) {
+		e.Parties = withType(e.Parties, "XA", PartyTypeArticle5)
+		e.Now = func() time.Time { return time.Date(2031, 6, 1, 0, 0, 0, 0, time.UTC) }
+		e.AllowedPercent = func(g substances.Group, year int) (float64, bool) { return 2.5, true }
+	}),
+	fire(CodeHCFCTailUseMissing, "HCFC-22 without a purpose in 2025", func(r *Record) { r.Purpose = PurposeUnspecified }, "declare the purpose"),
+	silent(CodeHCFCTailUseMissing, "HCFC-22 for servicing", nil),
 	withEnv(fire(CodeScheduleUnknown, "no schedule", nil, "Annex C/I"),
 		func(e *Env) {
 			e.AllowedPercent = func(g substances.Group, y int) (float64, bool) { return 0, false }
@@ -417,4 +507,16 @@ func TestCleanRecord(t *testing.T) {
 	if v.Fingerprint != Fingerprint(&r) || v.RecordKey != "K-1" || v.Line != 2 {
 		t.Errorf("verdict identity %q %d %q", v.RecordKey, v.Line, v.Fingerprint)
 	}
+}
+
+// withType returns a copy of parties with code's Party type changed.
+func withType(parties map[string]PartySettings, code string, t PartyType) map[string]PartySettings {
+	out := make(map[string]PartySettings, len(parties))
+	for k, v := range parties {
+		out[k] = v
+	}
+	p := out[code]
+	p.Type = t
+	out[code] = p
+	return out
 }

@@ -141,16 +141,12 @@ func readReport(t *testing.T, b []byte) []reportRow {
 // unreachableFromCSV lists the finding codes no line of a CSV file can make fire, each with
 // the reason. The demo batch must fire every other code.
 var unreachableFromCSV = map[string]string{
-	validate.CodeQuotaLineInvalid:         "the API (IssueLicence, AmendLicence) and the quota_lines CHECK constraints refuse a line without a unit or with a negative allocation, so no stored licence has one; validate's unit tests make it fire",
-	validate.CodeMeasuredUnreadable:       measuredNotOnWire,
-	validate.CodeMeasuredContradicts:      measuredNotOnWire,
-	validate.CodeMeasuredHiddenControlled: measuredNotOnWire,
-	validate.CodeMeasuredNonCondensables:  measuredNotOnWire,
-	validate.CodeMeasuredConfirms:         measuredNotOnWire,
-	validate.CodeMeasuredNotCompared:      measuredNotOnWire,
+	validate.CodeHCFCTailUse:        hcfcTailNotInDemo,
+	validate.CodeHCFCTailUseMissing: hcfcTailNotInDemo,
+	validate.CodeQuotaLineInvalid:   "the API (IssueLicence, AmendLicence) and the quota_lines CHECK constraints refuse a line without a unit or with a negative allocation, so no stored licence has one; validate's unit tests make it fire",
 }
 
-const measuredNotOnWire = "neither the batch files nor the wire ShipmentRecord carry a measured composition yet (validate.Record.Measured only); validate's unit tests make it fire and 'halovet cylinder' reports readings"
+const hcfcTailNotInDemo = "the demo's reporting Party is an Article 5 Party and its batch is of 2026, before the Article 5 HCFC servicing tail of 2030-2039; validate's unit tests make it fire"
 
 // TestGoldenDemoReport checks the demo batch, compares the report and the summary with the
 // golden files, then records it, compares again, checks what the database holds, and
@@ -166,8 +162,8 @@ func TestGoldenDemoReport(t *testing.T) {
 		t.Fatalf("check mode stored %d shipments; want 0", n)
 	}
 	rows := readReport(t, rep)
-	if int64(len(rows)) != sum.Records || sum.Records != 408 {
-		t.Fatalf("report has %d rows, summary %d records; want 408 each (every line of the batch but the header)", len(rows), sum.Records)
+	if int64(len(rows)) != sum.Records || sum.Records != 418 {
+		t.Fatalf("report has %d rows, summary %d records; want 418 each (every line of the batch but the header)", len(rows), sum.Records)
 	}
 	seen := map[string]bool{}
 	for _, r := range rows {
@@ -387,7 +383,7 @@ func TestRecordSkipsBadLines(t *testing.T) {
 	good := func(key string) string {
 		return key + ",import,XA-1001,XA-IMP-2026-001,XB,2026-03-02,HCFC-22,,,,100,kg,0,servicing,,"
 	}
-	header := "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,quantity,quantity_unit,container_count,purpose,condition,declared_composition"
+	header := "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,total_net_quantity,quantity_unit,package_count,purpose,condition,declared_composition"
 	huge := "BAD-HUGE,import,XA-1001,XA-IMP-2026-001,XB,2026-03-02,HCFC-22,,,," + strings.Repeat("9", 10<<20) + ",kg,0,servicing,,"
 	csvLines := []struct {
 		text   string
@@ -442,12 +438,12 @@ func TestRecordSkipsBadLines(t *testing.T) {
 
 	// JSON Lines: the same kinds of bad line.
 	jgood := func(key string) string {
-		return `{"record_key":"` + key + `","direction":"import","company_id":"XA-1001","licence_number":"XA-IMP-2026-001","partner_country":"XB","declaration_date":"2026-03-03","substance":"HCFC-22","quantity":100,"quantity_unit":"kg","purpose":"servicing"}`
+		return `{"record_key":"` + key + `","direction":"import","company_id":"XA-1001","licence_number":"XA-IMP-2026-001","partner_country":"XB","declaration_date":"2026-03-03","substance":"HCFC-22","total_net_quantity":100,"quantity_unit":"kg","purpose":"servicing"}`
 	}
 	jsonl := strings.Join([]string{
 		jgood("JGOOD-1"),
 		"\xff\xfe\x00 binary",
-		`{"record_key":"JBAD-HUGE","quantity":"` + strings.Repeat("9", 10<<20) + `"}`,
+		`{"record_key":"JBAD-HUGE","total_net_quantity":"` + strings.Repeat("9", 10<<20) + `"}`,
 		`{"record_key":"JBAD-SYNTAX","direction":"import",`,
 		`{"record_key":"JBAD-KEY","direction":"import","colour":"blue"}`,
 		jgood("JGOOD-2"),
@@ -480,7 +476,7 @@ func TestRecordSkipsBadLines(t *testing.T) {
 	if !errors.As(err, &ee) || ee.code != 2 {
 		t.Fatalf("wrong header: error %v; want an exit error with code 2", err)
 	}
-	for _, w := range []string{"unknown columns", `"qty"`, "missing required columns: quantity", "required columns:"} {
+	for _, w := range []string{"unknown columns", `"total_net_qty"`, "missing required columns: total_net_quantity", "required columns:"} {
 		if !strings.Contains(err.Error(), w) {
 			t.Errorf("wrong header: message %q does not say %q", err.Error(), w)
 		}

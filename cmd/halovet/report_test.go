@@ -236,19 +236,26 @@ func TestDemoConsumptionMatchesFile(t *testing.T) {
 		}
 		seen[k] = true
 		used++
-		qty, err := strconv.ParseFloat(get("quantity"), 64)
-		if err != nil {
-			t.Fatalf("line %d recorded with quantity %q", n, get("quantity"))
+		// The total when given, else the fill per package × the package count.
+		qtyText := get("total_net_quantity")
+		count := 1.0
+		if qtyText == "" {
+			qtyText = get("net_fill_per_package")
+			cnt, err := strconv.Atoi(get("package_count"))
+			if err != nil {
+				t.Fatalf("line %d recorded with a fill and package count %q", n, get("package_count"))
+			}
+			count = float64(cnt)
 		}
-		factor := map[string]float64{"kg": 1, "t": 1000, "g": 0.001, "lb": 0.45359237}[get("quantity_unit")] // 1 lb = 0.45359237 kg exactly (international yard and pound, 1959)
+		qty, err := strconv.ParseFloat(qtyText, 64)
+		if err != nil {
+			t.Fatalf("line %d recorded with quantity %q", n, qtyText)
+		}
+		factor := map[string]float64{"kg": 1, "t": 1000, "g": 0.001, "lb": 0.45359237}[get("quantity_unit")] // 1 lb = 0.45359237 kg exactly (international yard and pound agreement, 1959)
 		if factor == 0 {
 			t.Fatalf("line %d recorded with unit %q", n, get("quantity_unit"))
 		}
-		kg := qty * factor
-		if c := get("container_count"); c != "" {
-			cnt, _ := strconv.Atoi(c)
-			kg *= float64(cnt) // quantity per container × containers (common practice)
-		}
+		kg := qty * factor * count
 		// Components and their mass fractions.
 		type part struct {
 			s   *substances.Substance

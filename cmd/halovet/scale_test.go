@@ -63,7 +63,7 @@ func writeScaleCSV(t *testing.T, path string, n int) {
 		t.Fatal(err)
 	}
 	w := bufio.NewWriterSize(f, 1<<20)
-	fmt.Fprintln(w, "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,quantity,quantity_unit,container_count,purpose,condition,declared_composition")
+	fmt.Fprintln(w, "record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,total_net_quantity,quantity_unit,package_count,purpose,condition,declared_composition")
 	for i := 0; i < n; i++ {
 		fmt.Fprintf(w, scaleTemplates[i%len(scaleTemplates)], "SC-"+strconv.Itoa(i))
 		w.WriteByte('\n')

@@ -202,7 +202,7 @@ func TestServeHealthReflectionAndGracefulShutdown(t *testing.T) {
 	rec := func(i int) *halovetv1.CheckShipmentsRequest {
 		return &halovetv1.CheckShipmentsRequest{Record: &halovetv1.ShipmentRecord{RecordKey: fmt.Sprintf("G%d", i),
 			Direction: halovetv1.Direction_DIRECTION_IMPORT, CompanyId: "XA-1001", LicenceNumber: "XA-IMP-2026-001",
-			PartnerCountry: "XB", DeclarationDate: "2026-03-02", Substance: "HCFC-22", Quantity: "100", QuantityUnit: "kg",
+			PartnerCountry: "XB", DeclarationDate: "2026-03-02", Substance: "HCFC-22", TotalNetQuantity: "100", QuantityUnit: "kg",
 			Purpose: halovetv1.Purpose_PURPOSE_SERVICING}}
 	}
 	if err := stream.Send(rec(0)); err != nil {

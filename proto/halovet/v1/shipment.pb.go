@@ -109,6 +109,15 @@ const (
 	Purpose_PURPOSE_CRITICAL_USE Purpose = 9
 	// Any other declared use.
 	Purpose_PURPOSE_OTHER Purpose = 10
+	// Servicing fire suppression and fire protection equipment (an HCFC servicing-tail use
+	// since the 2018 adjustment of Article 2F para 6 and Article 5 para 8 ter (e)).
+	Purpose_PURPOSE_FIRE_PROTECTION_SERVICING Purpose = 11
+	// Solvent in the manufacture of rocket engines (an HCFC servicing-tail use since the
+	// 2018 adjustment).
+	Purpose_PURPOSE_ROCKET_ENGINE_SOLVENT Purpose = 12
+	// Topical medical aerosols for the specialized treatment of burns (an HCFC servicing-tail
+	// use since the 2018 adjustment).
+	Purpose_PURPOSE_MEDICAL_AEROSOL_BURNS Purpose = 13
 )
 
 // Enum value maps for Purpose.
@@ -125,19 +134,25 @@ var (
 		8:  "PURPOSE_ESSENTIAL_USE",
 		9:  "PURPOSE_CRITICAL_USE",
 		10: "PURPOSE_OTHER",
+		11: "PURPOSE_FIRE_PROTECTION_SERVICING",
+		12: "PURPOSE_ROCKET_ENGINE_SOLVENT",
+		13: "PURPOSE_MEDICAL_AEROSOL_BURNS",
 	}
 	Purpose_value = map[string]int32{
-		"PURPOSE_UNSPECIFIED":   0,
-		"PURPOSE_SERVICING":     1,
-		"PURPOSE_MANUFACTURING": 2,
-		"PURPOSE_FEEDSTOCK":     3,
-		"PURPOSE_PROCESS_AGENT": 4,
-		"PURPOSE_QPS":           5,
-		"PURPOSE_LABORATORY":    6,
-		"PURPOSE_DESTRUCTION":   7,
-		"PURPOSE_ESSENTIAL_USE": 8,
-		"PURPOSE_CRITICAL_USE":  9,
-		"PURPOSE_OTHER":         10,
+		"PURPOSE_UNSPECIFIED":               0,
+		"PURPOSE_SERVICING":                 1,
+		"PURPOSE_MANUFACTURING":             2,
+		"PURPOSE_FEEDSTOCK":                 3,
+		"PURPOSE_PROCESS_AGENT":             4,
+		"PURPOSE_QPS":                       5,
+		"PURPOSE_LABORATORY":                6,
+		"PURPOSE_DESTRUCTION":               7,
+		"PURPOSE_ESSENTIAL_USE":             8,
+		"PURPOSE_CRITICAL_USE":              9,
+		"PURPOSE_OTHER":                     10,
+		"PURPOSE_FIRE_PROTECTION_SERVICING": 11,
+		"PURPOSE_ROCKET_ENGINE_SOLVENT":     12,
+		"PURPOSE_MEDICAL_AEROSOL_BURNS":     13,
 	}
 )
 
@@ -369,19 +384,28 @@ type ShipmentRecord struct {
 	DeclaredCasNumber string `protobuf:"bytes,10,opt,name=declared_cas_number,json=declaredCasNumber,proto3" json:"declared_cas_number,omitempty"`
 	// Declared formula.
 	DeclaredFormula string `protobuf:"bytes,11,opt,name=declared_formula,json=declaredFormula,proto3" json:"declared_formula,omitempty"`
-	// Quantity as a decimal number with a dot ("1250.5"); with container_count, the
-	// net fill per container.
-	Quantity string `protobuf:"bytes,12,opt,name=quantity,proto3" json:"quantity,omitempty"`
-	// Unit of quantity: "kg", "t", "g" or "lb".
+	// Total net mass of the consignment in quantity_unit, a decimal number with a dot
+	// ("113", "1250.5"). May be empty when net_fill_per_package and package_count are given;
+	// when both ways are given they must agree within the last digit written.
+	TotalNetQuantity string `protobuf:"bytes,18,opt,name=total_net_quantity,json=totalNetQuantity,proto3" json:"total_net_quantity,omitempty"`
+	// Unit of total_net_quantity and net_fill_per_package: "kg", "t", "g" or "lb".
 	QuantityUnit string `protobuf:"bytes,13,opt,name=quantity_unit,json=quantityUnit,proto3" json:"quantity_unit,omitempty"`
-	// Number of containers; 0 when quantity is the total.
-	ContainerCount int64 `protobuf:"varint,14,opt,name=container_count,json=containerCount,proto3" json:"container_count,omitempty"`
+	// Number of packages (cylinders, drums, ISO tanks); 0 when not declared. On its own it
+	// only feeds plausibility checks of the mass per package.
+	PackageCount int64 `protobuf:"varint,19,opt,name=package_count,json=packageCount,proto3" json:"package_count,omitempty"`
+	// Net fill of each package in quantity_unit, a decimal number with a dot; empty when not
+	// declared. Needs package_count.
+	NetFillPerPackage string `protobuf:"bytes,20,opt,name=net_fill_per_package,json=netFillPerPackage,proto3" json:"net_fill_per_package,omitempty"`
 	// Declared purpose.
 	Purpose Purpose `protobuf:"varint,15,opt,name=purpose,proto3,enum=halovet.v1.Purpose" json:"purpose,omitempty"`
 	// Declared condition.
 	Condition Condition `protobuf:"varint,16,opt,name=condition,proto3,enum=halovet.v1.Condition" json:"condition,omitempty"`
 	// Declared composition of a blend, when the paper gives one.
 	DeclaredComposition []*MixtureShare `protobuf:"bytes,17,rep,name=declared_composition,json=declaredComposition,proto3" json:"declared_composition,omitempty"`
+	// Composition measured in the cylinder by an analyser or a laboratory, when the
+	// shipment was tested; air and other non-condensables under the identifier "air".
+	// The verdict then carries the comparison with the declaration.
+	MeasuredComposition []*MeasuredShare `protobuf:"bytes,21,rep,name=measured_composition,json=measuredComposition,proto3" json:"measured_composition,omitempty"`
 	unknownFields       protoimpl.UnknownFields
 	sizeCache           protoimpl.SizeCache
 }
@@ -493,9 +517,9 @@ func (x *ShipmentRecord) GetDeclaredFormula() string {
 	return ""
 }
 
-func (x *ShipmentRecord) GetQuantity() string {
+func (x *ShipmentRecord) GetTotalNetQuantity() string {
 	if x != nil {
-		return x.Quantity
+		return x.TotalNetQuantity
 	}
 	return ""
 }
@@ -507,11 +531,18 @@ func (x *ShipmentRecord) GetQuantityUnit() string {
 	return ""
 }
 
-func (x *ShipmentRecord) GetContainerCount() int64 {
+func (x *ShipmentRecord) GetPackageCount() int64 {
 	if x != nil {
-		return x.ContainerCount
+		return x.PackageCount
 	}
 	return 0
+}
+
+func (x *ShipmentRecord) GetNetFillPerPackage() string {
+	if x != nil {
+		return x.NetFillPerPackage
+	}
+	return ""
 }
 
 func (x *ShipmentRecord) GetPurpose() Purpose {
@@ -531,6 +562,13 @@ func (x *ShipmentRecord) GetCondition() Condition {
 func (x *ShipmentRecord) GetDeclaredComposition() []*MixtureShare {
 	if x != nil {
 		return x.DeclaredComposition
+	}
+	return nil
+}
+
+func (x *ShipmentRecord) GetMeasuredComposition() []*MeasuredShare {
+	if x != nil {
+		return x.MeasuredComposition
 	}
 	return nil
 }
@@ -632,8 +670,13 @@ type ShipmentFigures struct {
 	// True when the partner is not bound by the control measures of a group in the
 	// shipment on the declaration date.
 	PartnerNonParty bool `protobuf:"varint,9,opt,name=partner_non_party,json=partnerNonParty,proto3" json:"partner_non_party,omitempty"`
-	unknownFields   protoimpl.UnknownFields
-	sizeCache       protoimpl.SizeCache
+	// Annex groups of the shipment for which the partner is not bound on the declaration
+	// date (Article 4 para 9: for trade in such a group it counts as a non-Party). An export
+	// deducts the components of these groups from nothing (Article 3 para 1(c)); the
+	// components of the other groups are deducted as usual.
+	PartnerNotBoundGroups []string `protobuf:"bytes,10,rep,name=partner_not_bound_groups,json=partnerNotBoundGroups,proto3" json:"partner_not_bound_groups,omitempty"`
+	unknownFields         protoimpl.UnknownFields
+	sizeCache             protoimpl.SizeCache
 }
 
 func (x *ShipmentFigures) Reset() {
@@ -727,6 +770,13 @@ func (x *ShipmentFigures) GetPartnerNonParty() bool {
 		return x.PartnerNonParty
 	}
 	return false
+}
+
+func (x *ShipmentFigures) GetPartnerNotBoundGroups() []string {
+	if x != nil {
+		return x.PartnerNotBoundGroups
+	}
+	return nil
 }
 
 // Verdict is the answer for one record.
@@ -1406,7 +1456,7 @@ var File_halovet_v1_shipment_proto protoreflect.FileDescriptor
 const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\n" +
 	"\x19halovet/v1/shipment.proto\x12\n" +
-	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x1ahalovet/v1/catalogue.proto\"\xdd\x05\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x1ahalovet/v1/catalogue.proto\x1a\x19halovet/v1/analysis.proto\"\x91\a\n" +
 	"\x0eShipmentRecord\x12\x1d\n" +
 	"\n" +
 	"record_key\x18\x01 \x01(\tR\trecordKey\x12\x1f\n" +
@@ -1422,18 +1472,20 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x10declared_hs_code\x18\t \x01(\tR\x0edeclaredHsCode\x12.\n" +
 	"\x13declared_cas_number\x18\n" +
 	" \x01(\tR\x11declaredCasNumber\x12)\n" +
-	"\x10declared_formula\x18\v \x01(\tR\x0fdeclaredFormula\x12\x1a\n" +
-	"\bquantity\x18\f \x01(\tR\bquantity\x12#\n" +
-	"\rquantity_unit\x18\r \x01(\tR\fquantityUnit\x12'\n" +
-	"\x0fcontainer_count\x18\x0e \x01(\x03R\x0econtainerCount\x12-\n" +
+	"\x10declared_formula\x18\v \x01(\tR\x0fdeclaredFormula\x12,\n" +
+	"\x12total_net_quantity\x18\x12 \x01(\tR\x10totalNetQuantity\x12#\n" +
+	"\rquantity_unit\x18\r \x01(\tR\fquantityUnit\x12#\n" +
+	"\rpackage_count\x18\x13 \x01(\x03R\fpackageCount\x12/\n" +
+	"\x14net_fill_per_package\x18\x14 \x01(\tR\x11netFillPerPackage\x12-\n" +
 	"\apurpose\x18\x0f \x01(\x0e2\x13.halovet.v1.PurposeR\apurpose\x123\n" +
 	"\tcondition\x18\x10 \x01(\x0e2\x15.halovet.v1.ConditionR\tcondition\x12K\n" +
-	"\x14declared_composition\x18\x11 \x03(\v2\x18.halovet.v1.MixtureShareR\x13declaredComposition\"\x7f\n" +
+	"\x14declared_composition\x18\x11 \x03(\v2\x18.halovet.v1.MixtureShareR\x13declaredComposition\x12L\n" +
+	"\x14measured_composition\x18\x15 \x03(\v2\x19.halovet.v1.MeasuredShareR\x13measuredCompositionJ\x04\b\f\x10\rJ\x04\b\x0e\x10\x0fR\bquantityR\x0fcontainer_count\"\x7f\n" +
 	"\aFinding\x12\x12\n" +
 	"\x04code\x18\x01 \x01(\tR\x04code\x120\n" +
 	"\bseverity\x18\x02 \x01(\x0e2\x14.halovet.v1.SeverityR\bseverity\x12\x14\n" +
 	"\x05field\x18\x03 \x01(\tR\x05field\x12\x18\n" +
-	"\amessage\x18\x04 \x01(\tR\amessage\"\x90\x03\n" +
+	"\amessage\x18\x04 \x01(\tR\amessage\"\xc9\x03\n" +
 	"\x0fShipmentFigures\x121\n" +
 	"\x14resolved_designation\x18\x01 \x01(\tR\x13resolvedDesignation\x12)\n" +
 	"\x04kind\x18\x02 \x01(\x0e2\x15.halovet.v1.EntryKindR\x04kind\x12\x1e\n" +
@@ -1447,7 +1499,9 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"components\x122\n" +
 	"\x15counts_in_consumption\x18\a \x01(\bR\x13countsInConsumption\x12!\n" +
 	"\fsafety_class\x18\b \x01(\tR\vsafetyClass\x12*\n" +
-	"\x11partner_non_party\x18\t \x01(\bR\x0fpartnerNonParty\"\x98\x02\n" +
+	"\x11partner_non_party\x18\t \x01(\bR\x0fpartnerNonParty\x127\n" +
+	"\x18partner_not_bound_groups\x18\n" +
+	" \x03(\tR\x15partnerNotBoundGroups\"\x98\x02\n" +
 	"\aVerdict\x12\x1d\n" +
 	"\n" +
 	"record_key\x18\x01 \x01(\tR\trecordKey\x12\x1f\n" +
@@ -1500,7 +1554,7 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x10DIRECTION_IMPORT\x10\x01\x12\x14\n" +
 	"\x10DIRECTION_EXPORT\x10\x02\x12\x17\n" +
 	"\x13DIRECTION_RE_EXPORT\x10\x03\x12\x15\n" +
-	"\x11DIRECTION_TRANSIT\x10\x04*\x90\x02\n" +
+	"\x11DIRECTION_TRANSIT\x10\x04*\xfd\x02\n" +
 	"\aPurpose\x12\x17\n" +
 	"\x13PURPOSE_UNSPECIFIED\x10\x00\x12\x15\n" +
 	"\x11PURPOSE_SERVICING\x10\x01\x12\x19\n" +
@@ -1513,7 +1567,10 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x15PURPOSE_ESSENTIAL_USE\x10\b\x12\x18\n" +
 	"\x14PURPOSE_CRITICAL_USE\x10\t\x12\x11\n" +
 	"\rPURPOSE_OTHER\x10\n" +
-	"*\x81\x01\n" +
+	"\x12%\n" +
+	"!PURPOSE_FIRE_PROTECTION_SERVICING\x10\v\x12!\n" +
+	"\x1dPURPOSE_ROCKET_ENGINE_SOLVENT\x10\f\x12!\n" +
+	"\x1dPURPOSE_MEDICAL_AEROSOL_BURNS\x10\r*\x81\x01\n" +
 	"\tCondition\x12\x19\n" +
 	"\x15CONDITION_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10CONDITION_VIRGIN\x10\x01\x12\x12\n" +
@@ -1570,46 +1627,48 @@ var file_halovet_v1_shipment_proto_goTypes = []any{
 	nil,                             // 17: halovet.v1.BatchSummary.ErrorsByCodeEntry
 	nil,                             // 18: halovet.v1.BatchSummary.WarningsByCodeEntry
 	(*MixtureShare)(nil),            // 19: halovet.v1.MixtureShare
-	(EntryKind)(0),                  // 20: halovet.v1.EntryKind
-	(*ComponentFigures)(nil),        // 21: halovet.v1.ComponentFigures
+	(*MeasuredShare)(nil),           // 20: halovet.v1.MeasuredShare
+	(EntryKind)(0),                  // 21: halovet.v1.EntryKind
+	(*ComponentFigures)(nil),        // 22: halovet.v1.ComponentFigures
 }
 var file_halovet_v1_shipment_proto_depIdxs = []int32{
 	0,  // 0: halovet.v1.ShipmentRecord.direction:type_name -> halovet.v1.Direction
 	1,  // 1: halovet.v1.ShipmentRecord.purpose:type_name -> halovet.v1.Purpose
 	2,  // 2: halovet.v1.ShipmentRecord.condition:type_name -> halovet.v1.Condition
 	19, // 3: halovet.v1.ShipmentRecord.declared_composition:type_name -> halovet.v1.MixtureShare
-	3,  // 4: halovet.v1.Finding.severity:type_name -> halovet.v1.Severity
-	20, // 5: halovet.v1.ShipmentFigures.kind:type_name -> halovet.v1.EntryKind
-	21, // 6: halovet.v1.ShipmentFigures.components:type_name -> halovet.v1.ComponentFigures
-	4,  // 7: halovet.v1.Verdict.outcome:type_name -> halovet.v1.Outcome
-	6,  // 8: halovet.v1.Verdict.findings:type_name -> halovet.v1.Finding
-	7,  // 9: halovet.v1.Verdict.figures:type_name -> halovet.v1.ShipmentFigures
-	5,  // 10: halovet.v1.CheckShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
-	8,  // 11: halovet.v1.CheckShipmentResponse.verdict:type_name -> halovet.v1.Verdict
-	5,  // 12: halovet.v1.CheckShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
-	5,  // 13: halovet.v1.CheckShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
-	17, // 14: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
-	18, // 15: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
-	8,  // 16: halovet.v1.VerdictBatch.verdicts:type_name -> halovet.v1.Verdict
-	8,  // 17: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
-	12, // 18: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
-	13, // 19: halovet.v1.CheckShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
-	5,  // 20: halovet.v1.RecordShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
-	5,  // 21: halovet.v1.RecordShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
-	8,  // 22: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
-	12, // 23: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
-	13, // 24: halovet.v1.RecordShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
-	9,  // 25: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
-	11, // 26: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
-	15, // 27: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
-	10, // 28: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
-	14, // 29: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
-	16, // 30: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
-	28, // [28:31] is the sub-list for method output_type
-	25, // [25:28] is the sub-list for method input_type
-	25, // [25:25] is the sub-list for extension type_name
-	25, // [25:25] is the sub-list for extension extendee
-	0,  // [0:25] is the sub-list for field type_name
+	20, // 4: halovet.v1.ShipmentRecord.measured_composition:type_name -> halovet.v1.MeasuredShare
+	3,  // 5: halovet.v1.Finding.severity:type_name -> halovet.v1.Severity
+	21, // 6: halovet.v1.ShipmentFigures.kind:type_name -> halovet.v1.EntryKind
+	22, // 7: halovet.v1.ShipmentFigures.components:type_name -> halovet.v1.ComponentFigures
+	4,  // 8: halovet.v1.Verdict.outcome:type_name -> halovet.v1.Outcome
+	6,  // 9: halovet.v1.Verdict.findings:type_name -> halovet.v1.Finding
+	7,  // 10: halovet.v1.Verdict.figures:type_name -> halovet.v1.ShipmentFigures
+	5,  // 11: halovet.v1.CheckShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
+	8,  // 12: halovet.v1.CheckShipmentResponse.verdict:type_name -> halovet.v1.Verdict
+	5,  // 13: halovet.v1.CheckShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
+	5,  // 14: halovet.v1.CheckShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
+	17, // 15: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
+	18, // 16: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
+	8,  // 17: halovet.v1.VerdictBatch.verdicts:type_name -> halovet.v1.Verdict
+	8,  // 18: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
+	12, // 19: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
+	13, // 20: halovet.v1.CheckShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
+	5,  // 21: halovet.v1.RecordShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
+	5,  // 22: halovet.v1.RecordShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
+	8,  // 23: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
+	12, // 24: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
+	13, // 25: halovet.v1.RecordShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
+	9,  // 26: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
+	11, // 27: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
+	15, // 28: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
+	10, // 29: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
+	14, // 30: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
+	16, // 31: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
+	29, // [29:32] is the sub-list for method output_type
+	26, // [26:29] is the sub-list for method input_type
+	26, // [26:26] is the sub-list for extension type_name
+	26, // [26:26] is the sub-list for extension extendee
+	0,  // [0:26] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_shipment_proto_init() }
@@ -1618,6 +1677,7 @@ func file_halovet_v1_shipment_proto_init() {
 		return
 	}
 	file_halovet_v1_catalogue_proto_init()
+	file_halovet_v1_analysis_proto_init()
 	file_halovet_v1_shipment_proto_msgTypes[9].OneofWrappers = []any{
 		(*CheckShipmentsResponse_Verdict)(nil),
 		(*CheckShipmentsResponse_Summary)(nil),

@@ -21,6 +21,7 @@ import (
 	"flag"
 	"fmt"
 	"math"
+	"math/big"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -107,16 +108,57 @@ func pick[T any](r *rng, xs []T) T { return xs[r.intn(len(xs))] }
 // columns in the documented order (validate.CSVColumns).
 var header = []string{"record_key", "direction", "company_id", "licence_number", "partner_country",
 	"declaration_date", "substance", "declared_hs_code", "declared_cas_number", "declared_formula",
-	"quantity", "quantity_unit", "container_count", "purpose", "condition", "declared_composition"}
+	"total_net_quantity", "quantity_unit", "package_count", "net_fill_per_package", "purpose", "condition",
+	"declared_composition", "measured_composition"}
 
+// rec is one generated record. qty and containers are the generator's shorthand: with
+// containers set, qty is the net fill of each package, else the total. fields writes them the
+// way declarations do: the total and the package count, and on some lines the fill too, or the
+// fill and the count without a total. A record with asIs set writes total, containers and fill
+// exactly as given (for the lines that show a quantity finding).
 type rec struct {
 	key, dir, company, licence, partner, date, substance, hs, cas, formula string
 	qty, unit, containers, purpose, condition, composition                 string
+	total, fill, measured                                                  string
+	asIs                                                                   bool
 }
 
 func (r rec) fields() []string {
+	total, fill := r.qty, ""
+	switch {
+	case r.asIs:
+		total, fill = r.total, r.fill
+	case r.containers != "" && r.containers != "0":
+		n, err := strconv.Atoi(r.containers)
+		if err != nil || n < 0 {
+			total = r.qty // a count the reader or the rules refuse: the quantity stays the total
+			break
+		}
+		switch n % 3 {
+		case 0: // the fill and the count, no total
+			total, fill = "", r.qty
+		case 1: // all three, agreeing
+			total, fill = times(r.qty, n), r.qty
+		default: // the total and the count, as on a customs declaration
+			total = times(r.qty, n)
+		}
+	}
 	return []string{r.key, r.dir, r.company, r.licence, r.partner, r.date, r.substance, r.hs, r.cas,
-		r.formula, r.qty, r.unit, r.containers, r.purpose, r.condition, r.composition}
+		r.formula, total, r.unit, r.containers, fill, r.purpose, r.condition, r.composition, r.measured}
+}
+
+// times writes the exact decimal product of a decimal text and a count.
+func times(dec string, n int) string {
+	q, ok := new(big.Rat).SetString(dec)
+	if !ok {
+		panic(fmt.Sprintf("gen: quantity %q", dec))
+	}
+	q.Mul(q, big.NewRat(int64(n), 1))
+	places := 0
+	if i := strings.IndexByte(dec, '.'); i >= 0 {
+		places = len(dec) - i - 1
+	}
+	return q.FloatString(places)
 }
 
 // line renders the record as one CSV line (RFC 4180 quoting where a field needs it).
@@ -132,6 +174,9 @@ func (r rec) line() string {
 
 // netKg is the record's net mass (only for well-formed quantities).
 func (r rec) netKg() float64 {
+	if r.asIs {
+		return rec{qty: r.total, unit: r.unit}.netKg()
+	}
 	q, err := strconv.ParseFloat(r.qty, 64)
 	if err != nil {
 		panic(fmt.Sprintf("record %s: quantity %q", r.key, r.qty))

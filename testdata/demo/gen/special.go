@@ -56,7 +56,7 @@ func specialRecords(ordinary []rec, key func(string) string) []special {
 	raw("LINE_UNREADABLE: a stray quote inside an unquoted field", strings.Replace(r.line(), ",HCFC-22,", `,HCFC-"22,`, 1))
 	r = base()
 	r.date = "2026-06-10"
-	raw("LINE_UNREADABLE: 15 fields where the header has 16", strings.TrimSuffix(r.line(), ","))
+	raw("LINE_UNREADABLE: 17 fields where the header has 18", strings.TrimSuffix(r.line(), ","))
 	r = base()
 	r.date = "2026-06-10"
 	raw("LINE_UNREADABLE: a quoted field not closed on its line", strings.Replace(r.line(), ",servicing,", `,"servicing,`, 1))
@@ -117,13 +117,13 @@ func specialRecords(ordinary []rec, key func(string) string) []special {
 	// quantity
 	r = base()
 	r.qty = ""
-	add("QTY_MISSING: empty quantity", r)
+	add("QTY_MISSING: no total_net_quantity and no net_fill_per_package", r)
 	r = base()
 	r.qty = "1,500"
-	add("QTY_FORMAT: a comma in the quantity", r)
+	add("QTY_FORMAT: a comma in total_net_quantity", r)
 	r = base()
 	r.qty = "0"
-	add("QTY_NOT_POSITIVE: quantity 0", r)
+	add("QTY_NOT_POSITIVE: total_net_quantity 0", r)
 	r = base()
 	r.qty, r.unit = "2000000", "t"
 	add("QTY_TOO_LARGE: 2,000,000 t in one record", r)
@@ -132,13 +132,42 @@ func specialRecords(ordinary []rec, key func(string) string) []special {
 	add("QTY_UNIT_UNKNOWN: the ambiguous unit \"ton\"", r)
 	r = base()
 	r.containers = "-4"
-	add("QTY_CONTAINERS_INVALID: a negative container count", r)
+	add("QTY_PACKAGES_INVALID: a negative package count", r)
 	r = base()
 	r.qty, r.containers = "1200", "2"
-	draws("QTY_FILL_LARGE: 1200 kg in each of 2 containers", r)
+	draws("QTY_FILL_LARGE: 2400 kg in 2 packages, 1200 kg per package (a notice; the record is accepted)", r)
 	r = base()
 	r.substance, r.qty, r.unit, r.containers = "R-134a", "50", "g", "10"
-	draws("QTY_FILL_SMALL: 50 g in each of 10 containers", r)
+	draws("QTY_FILL_SMALL: 500 g in 10 packages, 50 g per package (a notice; the record is accepted)", r)
+	r = base()
+	r.asIs, r.total, r.containers, r.fill = true, "113", "10", "13.6"
+	add("QTY_TOTAL_FILL_DISAGREE: a total of 113 kg, and 10 packages of 13.6 kg (136 kg)", r)
+	r = base()
+	r.asIs, r.total, r.containers, r.fill = true, "", "", "13.6"
+	add("QTY_FILL_WITHOUT_PACKAGES: a fill of 13.6 kg per package and no package count", r)
+	r = base()
+	r.asIs, r.total, r.containers, r.fill = true, "113", "10", "11.3"
+	draws("113 kg total and 10 packages of 11.3 kg agree within the last digit written", r)
+
+	// measurement: what an analyser read in the cylinder (invented readings)
+	r = base()
+	r.measured = "HCFC-22=60;air=10"
+	add("MEASURED_UNREADABLE: a reading summing to 70 %", r)
+	r = base()
+	r.substance, r.qty, r.unit, r.containers = "R-134a", "13.6", "kg", "10"
+	r.measured = "CFC-12=100±1"
+	add("MEASURED_CONTRADICTS and MEASURED_HIDDEN_CONTROLLED: a cylinder declared as R-134a that holds CFC-12", r)
+	r = base()
+	r.measured = "HCFC-22=95±0.5;air=5"
+	draws("MEASURED_NON_CONDENSABLES: HCFC-22 with 5 % air (a warning), the rest confirming the declaration", r)
+	r = base()
+	r.substance, r.qty, r.unit, r.containers = "R-410A", "11.3", "kg", "10"
+	r.measured = "HFC-32=50.2±0.5;HFC-125=49.8±0.5"
+	draws("MEASURED_CONFIRMS: an R-410A reading within the ASHRAE 34 tolerances of R-410A", r)
+	r = base()
+	r.substance, r.composition, r.qty = "", "HFC-32=60;HFC-125=40", "100"
+	r.measured = "HFC-32=60;HFC-125=40"
+	draws("MEASURED_NOT_COMPARED: a reading on a record that declares only a composition", r)
 
 	// party
 	r = base()
@@ -204,6 +233,12 @@ func specialRecords(ordinary []rec, key func(string) string) []special {
 	r = base()
 	r.substance, r.qty = "CFC-12", "50"
 	add("PHASED_OUT: virgin CFC-12 for servicing (also LICENCE_SCOPE)", r)
+	r = base()
+	r.substance, r.qty, r.purpose = "CFC-12", "20", "critical-use"
+	add("EXEMPT_USE_WRONG_GROUP: CFC-12 declared for critical use, which exists only for methyl bromide (also LICENCE_SCOPE)", r)
+	r = rec{key: key("XA-1003"), dir: "import", company: "XA-1003", licence: "XA-IMP-2026-003", partner: "XB",
+		substance: "methyl bromide", qty: "2", unit: "t", purpose: "critical-use"}
+	add("EXEMPT_USE_UNAUTHORISED: methyl bromide for critical use on a licence that does not list critical use", r)
 	r = base()
 	r.purpose = ""
 	draws("PURPOSE_MISSING: no purpose declared (a notice; the record is accepted)", r)
