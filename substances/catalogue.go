@@ -126,7 +126,13 @@ func NewCatalogue(subs []Substance, blends []Blend) (*Catalogue, error) {
 	for i := range blends {
 		bcopies[i] = copyBlend(blends[i])
 	}
-	sort.SliceStable(bcopies, func(i, j int) bool { return naturalLess(bcopies[i].Designation, bcopies[j].Designation) })
+	// Numbered ASHRAE 34 blends first, in number order, then the mixtures without a number.
+	sort.SliceStable(bcopies, func(i, j int) bool {
+		if mi, mj := bcopies[i].Type == BlendMixture, bcopies[j].Type == BlendMixture; mi != mj {
+			return mj
+		}
+		return naturalLess(bcopies[i].Designation, bcopies[j].Designation)
+	})
 	c.blends = make([]blendEntry, len(bcopies))
 	c.blendList = make([]*Blend, len(bcopies))
 	for i := range bcopies {

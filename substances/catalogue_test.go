@@ -175,8 +175,15 @@ func TestSubstancesOrder(t *testing.T) {
 		t.Error("Substances returned the catalogue's own slice")
 	}
 	blends := c.Blends()
-	if blends[0].Designation != "R-401A" || blends[len(blends)-1].Designation != "R-513A" {
-		t.Errorf("blends run %s..%s, want R-401A..R-513A", blends[0].Designation, blends[len(blends)-1].Designation)
+	// Numbered blends first (R-401A..R-513A), then the mixtures without a number.
+	last := blends[len(blends)-1]
+	if blends[0].Designation != "R-401A" || last.Type != BlendMixture {
+		t.Errorf("blends run %s..%s (%s), want R-401A first and the unnumbered mixtures last", blends[0].Designation, last.Designation, last.Type)
+	}
+	for i, b := range blends {
+		if b.Designation == "R-513A" && (i+1 == len(blends) || blends[i+1].Type != BlendMixture) {
+			t.Errorf("R-513A, the last numbered blend, is not followed by the mixtures")
+		}
 	}
 }
 

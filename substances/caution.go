@@ -24,6 +24,9 @@ const (
 		"and breathing protection as the safety data sheet requires."
 	cautionUnclassified = "No ASHRAE 34 safety class is recorded for this entry: take flammability and " +
 		"toxicity from the supplier's safety data sheet."
+	cautionFumigant = "Toxic fumigant (%s): poisonous by inhalation at low concentrations, chloropicrin a strong " +
+		"irritant and tear agent; handle only as the fumigation rules and the safety data sheet require, with gas " +
+		"detection and breathing protection."
 	cautionDecisionSupport = "Figures are decision support: the treaty text, national law and the national " +
 		"authority prevail."
 )
@@ -74,6 +77,15 @@ func cautionsFor(class string, comps []compData) []string {
 		halogenated = halogenated || c.halogen
 	}
 	out := Cautions(class, halogenated)
+	var fumigants []string
+	for _, c := range comps {
+		if c.designation == "methyl bromide" || c.designation == "chloropicrin" {
+			fumigants = append(fumigants, c.designation)
+		}
+	}
+	if len(fumigants) > 0 {
+		out = append([]string{fmt.Sprintf(cautionFumigant, strings.Join(fumigants, ", "))}, out...)
+	}
 	if class != "" || len(comps) < 2 {
 		return out
 	}

@@ -149,6 +149,7 @@ var gwpSets = [...]GWPSet{SetProtocol, SetAR4, SetAR5, SetAR6}
 // compData is what the arithmetic needs of one component.
 type compData struct {
 	designation string
+	formula     string
 	group       Group
 	pct         float64
 	odp         float64
@@ -162,7 +163,7 @@ type compData struct {
 func annexF(g Group) bool { return g == GroupFI || g == GroupFII }
 
 func newCompData(s *Substance, f Formula, pct float64) compData {
-	d := compData{designation: s.Designation, group: s.Group, pct: pct, odp: s.ODP, mpGWP: s.GWP[SetProtocol], safety: s.SafetyClass}
+	d := compData{designation: s.Designation, formula: s.Formula, group: s.Group, pct: pct, odp: s.ODP, mpGWP: s.GWP[SetProtocol], safety: s.SafetyClass}
 	for i, set := range gwpSets {
 		d.gwp[i], d.has[i] = s.GWP[set]
 	}
@@ -243,7 +244,7 @@ func mixtureBase(designation string, kind Kind, class string, comps []compData) 
 	if kind == KindBlend || len(comps) > 1 {
 		shares := make([]HSShare, len(comps))
 		for i, c := range comps {
-			shares[i] = HSShare{Designation: c.designation, Group: c.group, MassPct: c.pct}
+			shares[i] = HSShare{Designation: c.designation, Group: c.group, MassPct: c.pct, Formula: c.formula}
 		}
 		var notes []string
 		var n22, n17 string

@@ -264,7 +264,10 @@ func TestReferenceBlends(t *testing.T) {
 		})
 	}
 	for _, b := range c.Blends() {
-		if !covered[b.Designation] {
+		// blends.csv is the ASHRAE 34 table; the traded mixtures without an ASHRAE 34 number
+		// (the methyl bromide/chloropicrin fumigants, composition by common practice) are
+		// checked in hs_catalogue_test.go.
+		if !covered[b.Designation] && b.Type != BlendMixture {
 			t.Errorf("catalogue blend %s is not in blends.csv: add a check with its source", b.Designation)
 		}
 	}

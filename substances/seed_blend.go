@@ -25,11 +25,13 @@ func (t *seedTable) blend(sources map[string]string, known map[string]bool) (Ble
 	b.Synonyms = splitList(t.get("synonyms"), ";")
 	b.Type = t.get("type")
 	switch {
-	case b.Type != "zeotrope" && b.Type != "azeotrope":
-		return b, t.fail("type", "%q: use zeotrope or azeotrope", b.Type)
-	case strings.HasPrefix(b.Designation, "R-4") && b.Type != "zeotrope",
-		strings.HasPrefix(b.Designation, "R-5") && b.Type != "azeotrope":
+	case b.Type != BlendZeotrope && b.Type != BlendAzeotrope && b.Type != BlendMixture:
+		return b, t.fail("type", "%q: use zeotrope, azeotrope or mixture", b.Type)
+	case strings.HasPrefix(b.Designation, "R-4") && b.Type != BlendZeotrope,
+		strings.HasPrefix(b.Designation, "R-5") && b.Type != BlendAzeotrope:
 		return b, t.fail("type", "ASHRAE 34 numbers zeotropes in the 400 series and azeotropes in the 500 series")
+	case strings.HasPrefix(b.Designation, "R-") && b.Type == BlendMixture:
+		return b, t.fail("type", "a mixture without an ASHRAE 34 number must not be named R-; use zeotrope or azeotrope for a numbered blend")
 	}
 	comps := splitList(t.get("components"), "/")
 	if len(comps) == 0 {

@@ -33,6 +33,7 @@ const (
 	CodeHSShared           = "HS_SHARED"
 	CodeHSEdition          = "HS_EDITION"
 	CodeHSMixtureUnknown   = "HS_MIXTURE_UNKNOWN"
+	CodeHSKind             = "HS_KIND"
 	CodeFormulaFormat      = "FORMULA_FORMAT"
 	CodeFormulaMismatch    = "FORMULA_MISMATCH"
 	CodeFormulaNotApplic   = "FORMULA_NOT_APPLICABLE"
@@ -153,6 +154,7 @@ var codeTable = []CodeInfo{
 	{CodeHSShared, SeverityNotice, "identity", "declared_hs_code", "The declared HS code fits, but the subheading also holds other goods, so the code alone does not prove identity.", "Accepted; the identity rests on the declared substance and CAS number."},
 	{CodeHSEdition, SeverityNotice, "identity", "declared_hs_code", "The declared HS code fits only the HS edition not in force on the declaration date (HS 2022 from 2022-01-01).", "Accepted; the message gives the code of the edition in force."},
 	{CodeHSMixtureUnknown, SeverityNotice, "identity", "declared_hs_code", "The HS subheading of the mixture could not be determined, so the declared code was not checked.", "Accepted; the code is left to customs."},
+	{CodeHSKind, SeverityError, "identity", "declared_hs_code", "A subheading of heading 29.03 (single chemically defined substances) is declared for a mixture, or a mixture subheading (HS 2022 heading 38.27, HS 2017 3824.71-3824.79) for a single substance.", "For a mixture its subheading of heading 38.27; for a single substance its own subheading; the message names them."},
 	{CodeFormulaFormat, SeverityWarning, "identity", "declared_formula", "The declared formula cannot be read.", "A molecular formula such as CHClF2 or C2H2F4."},
 	{CodeFormulaMismatch, SeverityError, "identity", "declared_formula", "The declared formula holds other atoms than the declared substance's formula.", "The formula of the declared substance, in any atom order."},
 	{CodeFormulaNotApplic, SeverityWarning, "identity", "declared_formula", "A formula is declared for a blend, which has none.", "No formula for a blend."},

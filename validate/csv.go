@@ -1,6 +1,7 @@
 package validate
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
 	"io"
@@ -67,11 +68,18 @@ func CSVColumns() []Column {
 	return out
 }
 
+// columnAliases are other spellings of column names that exports use: the US spelling
+// "license_number" for licence_number.
+var columnAliases = map[string]int{"license_number": colLicence}
+
 // columnByKey maps a normalized header name to its column id.
 var columnByKey = func() map[string]int {
-	m := make(map[string]int, numColumns)
+	m := make(map[string]int, numColumns+len(columnAliases))
 	for i, c := range csvColumns {
 		m[enumKey(c.Name)] = i
+	}
+	for a, id := range columnAliases {
+		m[enumKey(a)] = id
 	}
 	return m
 }()
@@ -119,12 +127,15 @@ func optionalColumns() []string {
 
 // CSVReader reads the CSV batch format: UTF-8 text, comma-separated, a header row naming the
 // columns (any order, case-insensitive; spaces, hyphens and underscores in names are
-// ignored), then one record per line. Fields follow RFC 4180 quoting within one line: a field
+// ignored; "license_number" is read as licence_number), then one record per line. A header
+// that holds semicolons and no comma marks a semicolon-separated file, as spreadsheets write
+// CSV where the comma is the decimal separator; WithCSVSeparator fixes the separator instead. Fields follow RFC 4180 quoting within one line: a field
 // that holds a comma or a quote is enclosed in double quotes and a quote inside it is doubled.
 // A field may not span lines (shipment fields never hold line breaks), so a quoting mistake
 // costs one line, never the rest of the file. Blank lines are skipped.
 type CSVReader struct {
 	sc      *lineScanner
+	sep     byte  // field separator: ',' or ';'
 	cols    []int // column id of each header position
 	fields  []string
 	scratch []byte
@@ -155,7 +166,14 @@ func NewCSVReader(r io.Reader, opts ...ReaderOption) (*CSVReader, error) {
 	if msg := checkText(line); msg != "" {
 		return nil, c.headerError(msg, nil, nil, nil)
 	}
-	names, problem := splitCSVLine(string(line), nil, &c.scratch)
+	c.sep = c.sc.csvSep
+	if c.sep == 0 {
+		c.sep = ','
+		if bytes.IndexByte(line, ',') < 0 && bytes.IndexByte(line, ';') >= 0 {
+			c.sep = ';'
+		}
+	}
+	names, problem := splitCSVLine(string(line), c.sep, nil, &c.scratch)
 	if problem != "" {
 		return nil, c.headerError(problem, nil, nil, nil)
 	}
@@ -252,13 +270,13 @@ func (c *CSVReader) Next() (Record, *LineError, error) {
 			return Record{}, &LineError{Line: lineNo, Reason: msg}, nil
 		}
 		// One string per line; the fields are substrings of it.
-		fields, problem := splitCSVLine(string(line), c.fields[:0], &c.scratch)
+		fields, problem := splitCSVLine(string(line), c.sep, c.fields[:0], &c.scratch)
 		c.fields = fields[:0]
 		if problem != "" {
 			return Record{}, &LineError{Line: lineNo, Reason: problem}, nil
 		}
 		if len(fields) != len(c.cols) {
-			return Record{}, &LineError{Line: lineNo, Reason: fmt.Sprintf("has %d fields, the header has %d; quote fields that hold commas", len(fields), len(c.cols))}, nil
+			return Record{}, &LineError{Line: lineNo, Reason: fmt.Sprintf("has %d fields, the header has %d; quote fields that hold %s", len(fields), len(c.cols), sepName(c.sep))}, nil
 		}
 		return c.record(lineNo, fields), nil, nil
 	}
@@ -355,10 +373,18 @@ func parseCount(s string) (int64, error) {
 	return n, nil
 }
 
-// splitCSVLine splits one line into fields (RFC 4180 quoting, no line breaks inside fields).
+// sepName names a separator in messages, in the plural.
+func sepName(sep byte) string {
+	if sep == ';' {
+		return "semicolons"
+	}
+	return "commas"
+}
+
+// splitCSVLine splits one line into fields at sep (RFC 4180 quoting, no line breaks inside fields).
 // Unquoted fields and quoted fields without doubled quotes are substrings of line. It returns
 // a description of the first problem, or "".
-func splitCSVLine(line string, fields []string, scratch *[]byte) ([]string, string) {
+func splitCSVLine(line string, sep byte, fields []string, scratch *[]byte) ([]string, string) {
 	i := 0
 	for n := 1; ; n++ {
 		if i < len(line) && line[i] == '"' {
@@ -396,8 +422,8 @@ func splitCSVLine(line string, fields []string, scratch *[]byte) ([]string, stri
 			if j == len(line) {
 				return fields, ""
 			}
-			if line[j] != ',' {
-				return fields, fmt.Sprintf("field %d: text after the closing quote (%q); a quoted field must end at a comma", n, cutText(line[j:min(j+20, len(line))]))
+			if line[j] != sep {
+				return fields, fmt.Sprintf("field %d: text after the closing quote (%q); a quoted field must end at a %s", n, cutText(line[j:min(j+20, len(line))]), sepName(sep)[:len(sepName(sep))-1])
 			}
 			i = j + 1
 			if i == len(line) {
@@ -406,7 +432,7 @@ func splitCSVLine(line string, fields []string, scratch *[]byte) ([]string, stri
 			continue
 		}
 		// Unquoted field.
-		k := strings.IndexByte(line[i:], ',')
+		k := strings.IndexByte(line[i:], sep)
 		end := len(line)
 		if k >= 0 {
 			end = i + k

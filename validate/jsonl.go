@@ -45,6 +45,9 @@ var jsonKeys = func() map[string]int {
 	for i, c := range csvColumns {
 		m[enumKey(c.Name)] = i
 	}
+	for a, id := range columnAliases {
+		m[enumKey(a)] = id
+	}
 	m["sourceline"] = -2
 	m["quantity"] = -3
 	m["containercount"] = -3
@@ -75,11 +78,13 @@ func (j *JSONLReader) Next() (Record, *LineError, error) {
 }
 
 func decodeJSONRecord(line []byte) (Record, string) {
+	// encoding/json would replace invalid UTF-8 silently, so a file in a legacy code page is
+	// refused here, before decoding.
+	if msg := checkText(line); msg != "" {
+		return Record{}, msg
+	}
 	trimmed := bytes.TrimSpace(line)
 	if len(trimmed) == 0 || trimmed[0] != '{' {
-		if msg := checkText(line); msg != "" {
-			return Record{}, msg
-		}
 		return Record{}, "not a JSON object; each line must be one object such as {\"record_key\":\"A1\",...}"
 	}
 	dec := json.NewDecoder(bytes.NewReader(trimmed))

@@ -38,6 +38,16 @@ const DefaultMaxLineBytes = 1 << 20
 // ReaderOption configures a reader.
 type ReaderOption func(*lineScanner)
 
+// WithCSVSeparator sets the CSV field separator: ',' or ';' (other bytes are ignored). Without
+// it the CSV reader takes ';' when the header row holds semicolons and no comma.
+func WithCSVSeparator(sep byte) ReaderOption {
+	return func(s *lineScanner) {
+		if sep == ',' || sep == ';' {
+			s.csvSep = sep
+		}
+	}
+}
+
 // WithMaxLineBytes sets the longest accepted line, in bytes (at least 64).
 func WithMaxLineBytes(n int) ReaderOption {
 	return func(s *lineScanner) { s.max = max(n, 64) }
@@ -105,6 +115,8 @@ type lineScanner struct {
 	line int64
 	acc  []byte // holds a line longer than the bufio buffer
 	bom  bool   // first line checked for a UTF-8 byte order mark
+	// csvSep is the CSV field separator set by WithCSVSeparator; 0: detect from the header.
+	csvSep byte
 }
 
 const scanBufferSize = 64 << 10
@@ -200,7 +212,10 @@ func checkText(line []byte) string {
 		}
 		r, n := utf8.DecodeRune(line[i:])
 		if r == utf8.RuneError && n <= 1 {
-			return fmt.Sprintf("invalid UTF-8 at byte %d; files must be UTF-8 text", i+1)
+			if i == 0 && len(line) > 1 && (c == 0xFF && line[1] == 0xFE || c == 0xFE && line[1] == 0xFF) {
+				return "the file is UTF-16 text (byte order mark 0x" + fmt.Sprintf("%02X%02X", c, line[1]) + "); save it as UTF-8 and send it again"
+			}
+			return fmt.Sprintf("byte 0x%02X at byte %d is not UTF-8: the file looks saved in a legacy code page (such as Windows-1252 or ISO 8859-1, where it may stand for an accented letter); save it as UTF-8 and send it again", c, i+1)
 		}
 		i += n
 	}

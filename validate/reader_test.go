@@ -130,7 +130,7 @@ func TestCSVReaderBadLinesContinue(t *testing.T) {
 		{`K,import,C`, "has 3 fields, the header has 16"},
 		{good + ",extra", "has 17 fields"},
 		{"\x00\x00\xff\xfe binary \x01", "control character"},
-		{"K,import,C,L,XA,2025-01-02,HFC-134a,,,,5,kg,,,,\xff", "invalid UTF-8"},
+		{"K,import,C,L,XA,2025-01-02,HFC-134a,,,,5,kg,,,,\xff", "save it as UTF-8"},
 	}
 	var b strings.Builder
 	b.WriteString(csvHeader + "\n")

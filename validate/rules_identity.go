@@ -162,6 +162,9 @@ func (c *checker) hsRule() {
 			return
 		}
 	}
+	if c.hsKindRule(code) {
+		return
+	}
 	var want17, want22 []string
 	name := c.designation
 	switch {
@@ -201,9 +204,13 @@ func (c *checker) hsRule() {
 		fits = inForce
 		if !fitsInForce {
 			fits = other
-			if len(inForceCodes) > 0 {
+			switch {
+			case len(inForceCodes) > 0:
 				c.add(CodeHSEdition, "", "%s is the %s subheading of %s; on %s %s is in force and classifies it in %s",
 					code, other, name, isoDate(c.date), inForce, strings.Join(inForceCodes, " or "))
+			case c.isMixture() && c.evOK:
+				c.add(CodeHSEdition, "", "%s is the %s subheading of %s; on %s %s is in force, and its subheading for this mixture is not decided%s",
+					code, other, name, isoDate(c.date), inForce, noteSuffix(c.ev.HSNote))
 			}
 		}
 	} else if !in22 {
@@ -219,6 +226,39 @@ func (c *checker) hsRule() {
 	if shared {
 		c.add(CodeHSShared, "", "%s %s fits %s but also holds other goods; the code alone does not prove identity", fits, code, name)
 	}
+}
+
+// isMixtureSubheading reports whether code is one of the mixture subheadings for halogenated
+// derivatives of methane, ethane or propane: HS 2022 heading 38.27, HS 2017 3824.71-3824.79.
+func isMixtureSubheading(code string) bool {
+	return strings.HasPrefix(code, "3827.") || (code >= "3824.71" && code <= "3824.79")
+}
+
+// hsKindRule reports a subheading of heading 29.03 (halogenated derivatives of hydrocarbons,
+// which holds separate chemically defined compounds: HS Chapter 29 Note 1(a)) declared for a
+// mixture, or a mixture subheading declared for a single substance. It reports whether it
+// added a finding.
+func (c *checker) hsKindRule(code string) bool {
+	switch {
+	case c.isMixture() && strings.HasPrefix(code, "2903."):
+		want := "the mixture subheadings of heading 38.27 (HS 2022)"
+		if c.evOK && c.ev.HS2022 != "" {
+			want = strings.Join(fieldList(c.ev.HS2022), " or ") + " (HS 2022)"
+			if c.ev.HS2017 != "" {
+				want += ", " + strings.Join(fieldList(c.ev.HS2017), " or ") + " (HS 2017)"
+			}
+		}
+		what := ""
+		if sh, ok := substances.LookupHS(substances.HS2022, code); ok {
+			what = " (" + sh.Text + ")"
+		}
+		c.add(CodeHSKind, "", "HS %s%s is a subheading for a single substance, but %s is a mixture; declare %s", code, what, c.mixtureName(), want)
+		return true
+	case c.sub != nil && isMixtureSubheading(code):
+		c.add(CodeHSKind, "", "HS %s is a mixture subheading, but %s is a single substance; declare %s", code, c.sub.Designation, hsExpect(c.sub.HS2022, c.sub.HS2017))
+		return true
+	}
+	return false
 }
 
 // isSubheading reports whether s is already written "NNNN.NN", the catalogue's form.

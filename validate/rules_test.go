@@ -35,6 +35,10 @@ func r404A(r *Record) {
 	r.Substance, r.HSCode, r.CAS, r.Formula = "R-404A", "3827.61", "", ""
 }
 
+func r410A(r *Record) {
+	r.Substance, r.HSCode, r.CAS, r.Formula = "R-410A", "3827.63", "", ""
+}
+
 func hfc134a(r *Record) {
 	// source: testdata/reference/halocarbons.csv (CAS, formula); WCO HS 2022 2903.45
 	r.Substance, r.HSCode, r.CAS, r.Formula, r.TotalQuantity, r.PackageCount = "HFC-134a", "2903.45", "811-97-2", "C2H2F4", "12", 1
@@ -122,10 +126,36 @@ var ruleCases = []ruleCase{
 	fire(CodeHSEdition, "HS 2017 code in 2025", func(r *Record) { hfc134a(r); r.HSCode = "2903.39" }, "2903.45", "HS2022"),
 	silent(CodeHSEdition, "HS 2017 code in 2021", func(r *Record) { hfc134a(r); r.HSCode = "2903.39"; r.DeclarationDate = "2021-06-01" }),
 	silent(CodeHSEdition, "HS 2022 code in 2025", hfc134a),
-	fire(CodeHSMixtureUnknown, "R-454B under HS 2022", func(r *Record) {
-		r.Substance, r.HSCode, r.CAS, r.Formula = "R-454B", "3827.69", "", ""
-	}, "R-454B"),
+	// R-413A, PFC-218/HFC-134a/R-600a 9/88/3 (ASHRAE 34), answers the texts of two HS 2022
+	// groups of heading 38.27 (3827.51-3827.59 and 3827.61-3827.69), so its subheading is open.
+	fire(CodeHSMixtureUnknown, "R-413A under HS 2022", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "R-413A", "3827.59", "", ""
+	}, "R-413A", "3827.59"),
 	silent(CodeHSMixtureUnknown, "R-404A", r404A),
+	// R-410A, HFC-32/HFC-125 50/50 (ASHRAE 34): HS 2022 3827.63 (40 % or more HFC-125, below the
+	// 55 % of 3827.62); HS 2017 3824.78. HFC-32 alone is 2903.42 (HS 2022 heading 29.03).
+	fire(CodeHSKind, "R-410A under HFC-32's 2903.42", func(r *Record) { r410A(r); r.HSCode = "2903.42" }, "2903.42", "single substance", "3827.63 (HS 2022)"),
+	fire(CodeHSKind, "declared composition under 2903.45", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "", "2903.45", "", ""
+		r.Composition = []DeclaredShare{{"HFC-134a", 50}, {"HFC-125", 50}}
+	}, "declared composition", "3827.63"),
+	fire(CodeHSKind, "mixture code 3827.32 on HCFC-22", func(r *Record) { r.HSCode = "3827.32" }, "single substance", "2903.71 (HS 2022)"),
+	fire(CodeHSKind, "HS 2017 mixture code 3824.74 on HCFC-22", func(r *Record) { r.HSCode = "3824.74" }, "HCFC-22"),
+	silent(CodeHSKind, "R-410A under 3827.63", r410A),
+	silent(CodeHSKind, "HCFC-22 under 2903.71", nil),
+	fire(CodeHSMismatch, "R-410A under 3827.61", func(r *Record) { r410A(r); r.HSCode = "3827.61" }, "3827.63 (HS 2022)"),
+	// HS 2022 in force from 2022-01-01: the HS 2017 code of R-410A (3824.78) gets a notice naming
+	// 3827.63; before 2022 it fits the edition in force.
+	fire(CodeHSEdition, "HS 2017 mixture code in 2025", func(r *Record) { r410A(r); r.HSCode = "3824.78" }, "3824.78", "HS2022", "3827.63"),
+	silent(CodeHSEdition, "HS 2017 mixture code in 2021", func(r *Record) { r410A(r); r.HSCode = "3824.78"; r.DeclarationDate = "2021-06-01" }),
+	fire(CodeHSEdition, "HS 2017 code of a mixture whose 2022 subheading is open", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "R-413A", "3824.78", "", ""
+	}, "not decided"),
+	// Propane: HS 2022 2711.12 (Chapter 27 Note 1(a) keeps pure propane in heading 27.11).
+	silent(CodeHSMismatch, "R-290 under 2711.12", func(r *Record) { r.Substance, r.HSCode, r.CAS, r.Formula = "R-290", "2711.12", "", "" }),
+	fire(CodeHSMismatch, "R-290 under the butanes' 2711.13", func(r *Record) {
+		r.Substance, r.HSCode, r.CAS, r.Formula = "R-290", "2711.13", "", ""
+	}, "2711.12 (HS 2022)"),
 	fire(CodeFormulaFormat, "unreadable", func(r *Record) { r.Formula = "C2H?F4" }),
 	silent(CodeFormulaFormat, "other atom order", func(r *Record) { r.Formula = "CHF2Cl" }),
 	fire(CodeFormulaMismatch, "HFC formula on HCFC-22", func(r *Record) { r.Formula = "C2H2F4" }, "C2H2F4", "CHClF2"),

@@ -76,6 +76,7 @@ func defineCheck(fs *pflag.FlagSet) runFunc {
 	report := fs.String("report", "", "write per-record verdicts to this file: .csv, or .json/.jsonl for JSON Lines")
 	progress := fs.String("progress", "auto", "progress on stderr: auto (when stderr is a terminal), always, never")
 	maxLine := fs.Int("max-line-bytes", validate.DefaultMaxLineBytes, "longest input line accepted, in bytes")
+	csvSep := fs.String("csv-separator", "auto", "CSV field separator: auto (semicolon when the header has semicolons and no comma), comma or semicolon")
 	output := fs.String("output", "text", "summary format: text (summary and the first 50 rejected lines), json (summary and\nthe first 50 rejected lines; see 'halovet help json') or csv (every rejected line, one row each)")
 	perMessage := fs.Int("records-per-message", defaultPerMessage, "records sent in one stream message (1 to 4096); 1 when records trickle in through a pipe")
 	return func(ctx context.Context, args []string) error {
@@ -90,6 +91,15 @@ func defineCheck(fs *pflag.FlagSet) runFunc {
 		}
 		opts := checkOptions{path: args[0], record: *record, reportPath: *report, maxLine: *maxLine, output: *output,
 			perMessage: *perMessage}
+		switch *csvSep {
+		case "auto":
+		case "comma", ",":
+			opts.csvSep = ','
+		case "semicolon", ";":
+			opts.csvSep = ';'
+		default:
+			return usageErr("--csv-separator %q: use auto, comma or semicolon", *csvSep)
+		}
 		var err error
 		if opts.format, err = pickFormat(*format, opts.path); err != nil {
 			return err
@@ -148,6 +158,7 @@ type checkOptions struct {
 	record     bool
 	reportPath string
 	maxLine    int
+	csvSep     byte // CSV field separator; 0: detected from the header
 	progress   bool
 	output     string
 	perMessage int // records per stream message; 0 means defaultPerMessage
@@ -238,7 +249,7 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		in = f
 	}
 	cr := &countingReader{r: in}
-	rd, err := validate.NewReader(o.format, cr, validate.WithMaxLineBytes(o.maxLine))
+	rd, err := validate.NewReader(o.format, cr, validate.WithMaxLineBytes(o.maxLine), validate.WithCSVSeparator(o.csvSep))
 	if err != nil {
 		return nil, &exitError{code: exitUsage, err: fmt.Errorf("%s: %w%s", o.path, err, otherKindHint(err))}
 	}

@@ -162,8 +162,8 @@ func TestGoldenDemoReport(t *testing.T) {
 		t.Fatalf("check mode stored %d shipments; want 0", n)
 	}
 	rows := readReport(t, rep)
-	if int64(len(rows)) != sum.Records || sum.Records != 418 {
-		t.Fatalf("report has %d rows, summary %d records; want 418 each (every line of the batch but the header)", len(rows), sum.Records)
+	if int64(len(rows)) != sum.Records || sum.Records != 419 {
+		t.Fatalf("report has %d rows, summary %d records; want 419 each (every line of the batch but the header)", len(rows), sum.Records)
 	}
 	seen := map[string]bool{}
 	for _, r := range rows {
@@ -185,8 +185,12 @@ func TestGoldenDemoReport(t *testing.T) {
 			t.Errorf("unreachableFromCSV names %s, which is not in the code table", code)
 		}
 	}
-	// Spot checks of the quota sequence at the end of the batch (see testdata/demo/README.md).
-	tail := rows[len(rows)-4:]
+	// Spot checks of the quota sequence at the end of the batch, before the last line (an
+	// HS_KIND rejection; see testdata/demo/README.md).
+	if last := rows[len(rows)-1]; last.outcome != "rejected" || !slices.Contains(last.codes, validate.CodeHSKind) {
+		t.Errorf("last line %s: outcome %s codes %v; want rejected with %s", last.line, last.outcome, last.codes, validate.CodeHSKind)
+	}
+	tail := rows[len(rows)-5 : len(rows)-1]
 	wantTail := [][2]string{{"accepted", validate.CodeQuotaNearLimit}, {"rejected", validate.CodeQuotaExceeded},
 		{"accepted", validate.CodeQuotaNearLimit}, {"rejected", validate.CodeQuotaExceeded}}
 	for i, w := range wantTail {

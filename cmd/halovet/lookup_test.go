@@ -100,10 +100,9 @@ func TestLookupTextBlend(t *testing.T) {
 	lookupLineMatching(t, s, `^\s+AR4\s+2088 \(2087\.5\)\s+2088 \(2087\.5\)$`)
 	lookupLineMatching(t, s, `^\s+MP \(Protocol annex values\)\s+—\s+2088 \(2087\.5\)$`)
 	lookupMustContain(t, s, "all components", "Annex F only (as the Protocol counts)", decisionSupportNotice)
-	// The HS 2022 mixture subheading of an HFC-32/HFC-125 blend rests on partly verified
-	// wording (thresholds of 3827.62-3827.65 not confirmed in the WCO text), so it is left
-	// undecided with the reason.
-	lookupLineMatching(t, s, `^\s+HS 2022\s+not decided`)
+	// WCO HS 2022 3827.63: an HFC mixture not in 3827.61-3827.62 with 40 % or more HFC-125
+	// (R-410A: 50 %, below the 55 % of 3827.62).
+	lookupLineMatching(t, s, `^\s+HS 2022\s+3827\.63`)
 }
 
 func TestLookupAmbiguousAndUnknown(t *testing.T) {

@@ -32,7 +32,8 @@ func TestMixText(t *testing.T) {
 	// source: Kigali Amendment Annex F: HFC-32 675; 0.5 t x 675 = 337.5 CO2-eq t.
 	lookupLineMatching(t, s, `^\s+HFC-32\s+50\s+500\s+F/I\s+0\s+0\s+675\s+337\.5\s+A2L$`)
 	lookupLineMatching(t, s, `^\s+HFC-125\s+50\s+500\s+F/I\s+0\s+0\s+3500\s+1750\s+A1$`) // source: Annex F HFC-125 3500
-	lookupMustContain(t, s, "all components", "Annex F only (as the Protocol counts)", "not decided", decisionSupportNotice)
+	// WCO HS 2022 3827.63 (40 % or more HFC-125, below the 55 % of 3827.62); HS 2017 3824.78.
+	lookupMustContain(t, s, "all components", "Annex F only (as the Protocol counts)", "3827.63", "3824.78", decisionSupportNotice)
 
 	// source: Montreal Protocol Annex C Group I, HCFC-141b ODP 0.11: 1 t -> 0.11 ODP t.
 	req, err = mixRequest("HCFC-141b:100", 1000)

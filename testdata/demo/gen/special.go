@@ -102,8 +102,8 @@ func specialRecords(ordinary []rec, key func(string) string) []special {
 	r.substance, r.hs, r.qty, r.unit, r.containers = "HFC-134a", "2903.39", "13.6", "kg", "20"
 	draws("HS_EDITION: the HS 2017 subheading of HFC-134a in 2026 (also HS_SHARED: 2903.39 holds other goods)", r)
 	r = base()
-	r.substance, r.hs, r.qty, r.unit, r.containers = "R-407C", "3827.62", "11.3", "kg", "12"
-	draws("HS_MIXTURE_UNKNOWN: R-407C's HS 2022 subheading is not decided in the catalogue", r)
+	r.substance, r.hs, r.qty, r.unit, r.containers = "R-413A", "3827.59", "11.3", "kg", "12"
+	draws("HS_MIXTURE_UNKNOWN: R-413A (a PFC with HFC-134a) answers two HS 2022 groups of heading 38.27, so its subheading is not decided", r)
 	r = base()
 	r.formula = "C1h"
 	draws("FORMULA_FORMAT: a formula that cannot be read (a warning; the record is accepted)", r)
@@ -286,5 +286,10 @@ func specialRecords(ordinary []rec, key func(string) string) []special {
 	r.substance, r.qty, r.unit = "R-404A", "70", "t"
 	out = append(out, special{item: item{r: r, special: true,
 		exercise: "QUOTA_EXCEEDED: 70 t of R-404A (274,540 CO2-eq t) against a line of 250,000 CO2-eq t"}, last: true})
+	// placed last so that the lines above keep their numbers and keys
+	r = base()
+	r.substance, r.hs, r.qty = "R-410A", "2903.42", "100"
+	out = append(out, special{item: item{r: r, special: true,
+		exercise: "HS_KIND: HFC-32's single-substance subheading 2903.42 declared for the mixture R-410A"}, last: true})
 	return out
 }
