@@ -27,6 +27,8 @@ func (c *checker) quantityRules() {
 	qOK := false
 	if q == "" {
 		c.add(CodeQtyMissing, "", "quantity is empty; write the net mass as a decimal number with a dot, e.g. 1250.5")
+	} else if q[0] == '+' {
+		c.add(CodeQtyFormat, "", "quantity %q carries a sign; accepted: digits with at most one dot as the decimal separator and no sign, e.g. 1250.5", cutText(q))
 	} else if v, err := ParseDecimal(q); err != nil {
 		c.add(CodeQtyFormat, "", "quantity: %v", err)
 	} else if v.Sign() <= 0 {
@@ -52,6 +54,10 @@ func (c *checker) quantityRules() {
 	kg, err := ToKilograms(d, u, r.ContainerCount)
 	if err != nil { // not reached: unit and count were checked above
 		c.add(CodeQtyFormat, "", "quantity: %v", err)
+		return
+	}
+	if belowStoreStep(d, u, r.ContainerCount) {
+		c.add(CodeQtyTooSmall, "", "the net mass is %s kg, below the smallest amount the register stores (0.000000001 kg); declare at least 0.000000001 kg", trimTiny(kg))
 		return
 	}
 	if kg > maxNetKg {
