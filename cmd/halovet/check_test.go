@@ -166,8 +166,8 @@ func TestGoldenDemoReport(t *testing.T) {
 		t.Fatalf("check mode stored %d shipments; want 0", n)
 	}
 	rows := readReport(t, rep)
-	if int64(len(rows)) != sum.Records || sum.Records != 408 {
-		t.Fatalf("report has %d rows, summary %d records; want 408 each (every line of the batch but the header)", len(rows), sum.Records)
+	if int64(len(rows)) != sum.Records || sum.Records != 413 {
+		t.Fatalf("report has %d rows, summary %d records; want 413 each (every line of the batch but the header)", len(rows), sum.Records)
 	}
 	seen := map[string]bool{}
 	for _, r := range rows {
