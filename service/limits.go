@@ -183,8 +183,7 @@ func (s *Server) limitStream(srv any, ss grpc.ServerStream, info *grpc.StreamSer
 	ls.touch()
 	idle := s.limits.StreamIdle
 	var timer *time.Timer
-	var check func()
-	check = func() {
+	check := func() {
 		left := idle - time.Duration(time.Now().UnixNano()-ls.last.Load())
 		if left > 0 {
 			timer.Reset(left)
