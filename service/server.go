@@ -31,18 +31,22 @@ type Options struct {
 	Now func() time.Time
 	// ServerOptions are passed to grpc.NewServer after halovet's own (e.g. TLS credentials).
 	ServerOptions []grpc.ServerOption
+	// Limits bound messages, calls, streams and connections; zero fields take DefaultLimits.
+	Limits Limits
 }
 
 // Server is halovet's gRPC server.
 type Server struct {
-	opts   Options
-	log    *slog.Logger
-	store  *store.Store
-	grpc   *grpc.Server
-	health *health.Server
-	cat    *CatalogueHolder
-	m      *metrics
-	env    *ledger.EnvHolder // the check environment, rebuilt on every announced register change
+	opts     Options
+	log      *slog.Logger
+	store    *store.Store
+	grpc     *grpc.Server
+	health   *health.Server
+	cat      *CatalogueHolder
+	m        *metrics
+	env      *ledger.EnvHolder // the check environment, rebuilt on every announced register change
+	limits   Limits
+	inFlight *limiter
 
 	newerSchemaLogged atomic.Bool // the health probe said once that the schema is newer
 }
@@ -72,11 +76,17 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	}
 	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st)}
 	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
-	// Metrics come first, so that they see every call and the status it ends with.
-	s.grpc = grpc.NewServer(append([]grpc.ServerOption{
-		grpc.ChainUnaryInterceptor(append([]grpc.UnaryServerInterceptor{s.m.unary()}, s.unaryInterceptors()...)...),
-		grpc.ChainStreamInterceptor(append([]grpc.StreamServerInterceptor{s.m.stream()}, s.streamInterceptors()...)...),
-	}, opts.ServerOptions...)...)
+	s.limits = opts.Limits.withDefaults()
+	s.inFlight = newLimiter(s.limits.MaxInFlight)
+	// Metrics come first, so that they see every call and the status it ends with; then
+	// the check that the request decoded (before anything can refuse the call), the
+	// chain of interceptors.go, and the limits last, so that refused calls are logged.
+	unary := append(append([]grpc.UnaryServerInterceptor{s.m.unary(), checkDecodedUnary}, s.unaryInterceptors()...), s.limitUnary)
+	stream := append(append([]grpc.StreamServerInterceptor{s.m.stream()}, s.streamInterceptors()...), s.limitStream)
+	s.grpc = grpc.NewServer(append(append([]grpc.ServerOption{
+		grpc.ChainUnaryInterceptor(unary...),
+		grpc.ChainStreamInterceptor(stream...),
+	}, s.limits.serverOptions()...), opts.ServerOptions...)...)
 	healthpb.RegisterHealthServer(s.grpc, s.health)
 	if err := registerReflection(s.grpc); err != nil {
 		s.log.Error("reflection answers without documentation", "err", err)

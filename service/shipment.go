@@ -106,6 +106,7 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 	reqs := make(chan *halovetv1.CheckShipmentsRequest, 4)
 	answers := make(chan checked, 4)
 	var recvErr, sendErr error
+	recvFailed := make(chan error, 1) // recvErr, for the checker that stops on the cancel
 	recvDone, sendDone := make(chan struct{}), make(chan struct{})
 	go func() { // receive
 		defer close(recvDone)
@@ -115,6 +116,7 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 			if err != nil {
 				if !errors.Is(err, io.EOF) {
 					recvErr = err
+					recvFailed <- err
 					cancel()
 				}
 				return
@@ -170,6 +172,9 @@ check:
 			checkErr = invalid(fieldViolation{"record", fmt.Sprintf("the message after record %d of the stream carries no record", sum.pb.Records)})
 			break
 		}
+		if checkErr = x.srv.checkRecordsPerMessage(len(recs)); checkErr != nil {
+			break
+		}
 		if env, checkErr = x.srv.checkEnvFor(ctx, recs...); checkErr != nil {
 			break
 		}
@@ -194,6 +199,11 @@ check:
 	case sendErr != nil:
 		return sendErr
 	case !drained:
+		select {
+		case err := <-recvFailed: // a message that could not be received (malformed, too large)
+			return err
+		default:
+		}
 		return status.FromContextError(ctx.Err()).Err()
 	}
 	<-recvDone
@@ -265,6 +275,10 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 			recs := requestRecords(req.GetRecord(), req.GetRecords())
 			if len(recs) == 0 {
 				recvErr <- invalid(fieldViolation{"record", fmt.Sprintf("message %d of the stream carries no record", n+1)})
+				return
+			}
+			if err := x.srv.checkRecordsPerMessage(len(recs)); err != nil {
+				recvErr <- err
 				return
 			}
 			single := len(recs) == 1 && req.GetRecord() != nil
@@ -460,8 +474,9 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 	// so only their keys are looked up here.
 	var probe [][2]string
 	for _, p := range batch {
-		if !p.streamDup && p.verdict.Outcome == validate.OutcomeRejected {
-			probe = append(probe, recordKey(&p.rec))
+		// A key the database cannot hold (a NUL byte, invalid UTF-8) was never stored.
+		if k := recordKey(&p.rec); !p.streamDup && p.verdict.Outcome == validate.OutcomeRejected && validate.Storable(k[0]) && validate.Storable(k[1]) {
+			probe = append(probe, k)
 		}
 	}
 	stored := map[[2]string]string{}

@@ -14,12 +14,13 @@ type Store struct {
 	url  string
 }
 
-// Open connects to the database at url and checks that it answers.
-func Open(ctx context.Context, url string) (*Store, error) {
+// OpenWith connects to the database at url and checks that it answers.
+func OpenWith(ctx context.Context, url string, o OpenOptions) (*Store, error) {
 	cfg, err := pgxpool.ParseConfig(url)
 	if err != nil {
 		return nil, errBadURL
 	}
+	applyPoolLimits(cfg, o)
 	pool, err := pgxpool.NewWithConfig(ctx, cfg)
 	if err != nil {
 		return nil, fmt.Errorf("database pool: %w", err)

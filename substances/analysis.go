@@ -208,6 +208,9 @@ type readComp struct {
 // else it is mixed. The declared net mass is taken as refrigerant: the figures of hidden
 // substances and of the reading apply the renormalised shares to it.
 func (c *Catalogue) Analyse(r Reading, opts AnalysisOptions) (Analysis, error) {
+	if err := checkComponentCount("components", len(r.Components)); err != nil {
+		return Analysis{}, err
+	}
 	rd, ncg, err := c.readReading(r)
 	if err != nil {
 		return Analysis{}, err

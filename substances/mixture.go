@@ -372,6 +372,9 @@ func (c *Catalogue) EvaluateShares(shares []Share, netMassKg float64) (Evaluatio
 	if len(shares) == 0 {
 		return Evaluation{}, &InputError{Field: "shares", Reason: "no components given; list each substance with its mass percentage"}
 	}
+	if err := checkComponentCount("shares", len(shares)); err != nil {
+		return Evaluation{}, err
+	}
 	comps := make([]compData, len(shares))
 	ids := make([]int32, len(shares))
 	sum := 0.0

@@ -5,7 +5,6 @@ import (
 	"slices"
 	"strings"
 	"time"
-	"unicode/utf8"
 
 	"github.com/halovet/halovet/substances"
 )
@@ -128,6 +127,13 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 	env.prepare()
 	c := checker{env: env, r: r, ledger: ledger}
 	c.recordRules()
+	if !c.boundsRules() {
+		v := Verdict{RecordKey: r.Key, Line: r.Line, Fingerprint: Fingerprint(r)}
+		sortFindings(c.fs)
+		v.Outcome = OutcomeOf(c.fs)
+		v.Findings = capFindings(c.fs)
+		return v
+	}
 	c.quantityRules()
 	c.dateRules()
 	c.partnerShape()
@@ -167,8 +173,8 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 		}
 	}
 	sortFindings(c.fs)
-	v.Findings = c.fs
 	v.Outcome = OutcomeOf(c.fs)
+	v.Findings = capFindings(c.fs)
 	if v.Outcome != OutcomeRejected {
 		v.Draws = c.draws
 		if ledger != nil {
@@ -189,8 +195,10 @@ func (c *checker) recordRules() {
 		c.add(CodeKeyMissing, "", "record_key is empty; give the record a key unique per company")
 	case len(key) > maxKeyBytes:
 		c.add(CodeKeyInvalid, "", "record_key is %d bytes long; at most %d are accepted", len(key), maxKeyBytes)
-	case !printable(key):
-		c.add(CodeKeyInvalid, "", "record_key holds control characters or invalid UTF-8; printable text is accepted")
+	default:
+		if p := TextProblem(key); p != "" {
+			c.add(CodeKeyInvalid, "", "record_key %s; %s", p, textAccepted)
+		}
 	}
 	if strings.TrimSpace(r.CompanyID) == "" {
 		c.add(CodeCompanyMissing, "", "company_id is empty; give the registered identifier of the declaring company")
@@ -205,6 +213,8 @@ func (c *checker) recordRules() {
 	switch {
 	case r.Direction > DirectionUnspecified && r.Direction <= DirectionTransit:
 	case r.Direction == DirectionUnspecified && unreadableDirection:
+	case r.Direction != DirectionUnspecified:
+		c.add(CodeFieldUnreadable, "direction", "direction %d is not a known direction number; accepted: 1 (import), 2 (export), 3 (re-export), 4 (transit)", int(r.Direction))
 	default:
 		c.add(CodeDirectionMissing, "", "direction is not declared; accepted: import, export, re-export, transit")
 	}
@@ -214,19 +224,6 @@ func (c *checker) recordRules() {
 	if r.Condition < ConditionUnspecified || r.Condition > ConditionReclaimed {
 		c.add(CodeFieldUnreadable, "condition", "condition %d is not a known condition number", int(r.Condition))
 	}
-}
-
-func printable(s string) bool {
-	for i := 0; i < len(s); i++ {
-		b := s[i]
-		if b < 0x20 || b == 0x7f {
-			return false
-		}
-		if b >= utf8.RuneSelf {
-			return utf8.ValidString(s[i:])
-		}
-	}
-	return true
 }
 
 // evaluate computes the figures of the resolved entry or the ad-hoc composition.

@@ -16,6 +16,9 @@ const (
 	CodeFieldUnreadable  = "FIELD_UNREADABLE"
 	CodeDirectionMissing = "DIRECTION_MISSING"
 	CodeCompanyMissing   = "COMPANY_MISSING"
+	CodeFieldTextInvalid = "FIELD_TEXT_INVALID"
+	CodeFieldTooLong     = "FIELD_TOO_LONG"
+	CodeFindingsCapped   = "FINDINGS_CAPPED"
 
 	// identity
 	CodeSubstMissing       = "SUBST_MISSING"
@@ -55,6 +58,7 @@ const (
 	CodeHCFCTailUseMissing    = "HCFC_TAIL_PURPOSE_MISSING"
 	CodeQtyFillLarge          = "QTY_FILL_LARGE"
 	CodeQtyFillSmall          = "QTY_FILL_SMALL"
+	CodeQtyTooSmall           = "QTY_TOO_SMALL"
 
 	// party
 	CodePartnerMissing  = "PARTNER_MISSING"
@@ -104,6 +108,7 @@ const (
 	CodeMixSum               = "MIX_SUM"
 	CodeMixComponentMismatch = "MIX_COMPONENT_MISMATCH"
 	CodeMixOutOfTolerance    = "MIX_OUT_OF_TOLERANCE"
+	CodeMixTooMany           = "MIX_TOO_MANY"
 
 	// duplicates
 	CodeDupKeyConflict = "DUP_KEY_CONFLICT"
@@ -133,10 +138,13 @@ var codeTable = []CodeInfo{
 	// record
 	{CodeLineUnreadable, SeverityError, "record", "", "A line of a batch file could not be read as a record (not UTF-8 text, a quoting mistake, a wrong number of fields, invalid JSON, an unknown key, a line over 1 MiB).", "One record per line in the documented CSV or JSON Lines format."},
 	{CodeKeyMissing, SeverityError, "record", "record_key", "The record has no key.", "A non-empty key of at most 128 bytes, unique per company and unchanged when the record is sent again."},
-	{CodeKeyInvalid, SeverityError, "record", "record_key", "The key is longer than 128 bytes or holds control characters.", "Printable text of at most 128 bytes."},
+	{CodeKeyInvalid, SeverityError, "record", "record_key", "The key is longer than 128 bytes or holds control, invisible or bidirectional characters, or invalid UTF-8.", "Printable text of at most 128 bytes."},
 	{CodeFieldUnreadable, SeverityError, "record", "", "A reader found a field but could not convert it (an unknown direction, purpose or condition word, a package count that is not a whole number, a composition it cannot read).", "The words and formats listed in the message."},
-	{CodeDirectionMissing, SeverityError, "record", "direction", "No direction is declared.", "import, export, re-export or transit."},
+	{CodeDirectionMissing, SeverityError, "record", "direction", "No direction is declared (an unknown direction word or number is FIELD_UNREADABLE).", "import, export, re-export or transit."},
 	{CodeCompanyMissing, SeverityError, "record", "company_id", "No company is declared.", "The registered identifier of the declaring company."},
+	{CodeFieldTextInvalid, SeverityError, "record", "", "A text field holds a NUL byte, invalid UTF-8, a control character, or an invisible or bidirectional character (a Unicode format character such as U+202E or U+200B, a line or paragraph separator). The record is checked no further.", "Printable UTF-8 text without control, invisible or bidirectional characters."},
+	{CodeFieldTooLong, SeverityError, "record", "", "A text field is longer than its limit (company_id and licence_number 64 bytes, partner_country 16, declaration_date 32, substance and each composition identifier 256, declared_hs_code and declared_cas_number 32, declared_formula 128, quantity 64, quantity_unit 32). The record is checked no further.", "Text within the field's limit."},
+	{CodeFindingsCapped, SeverityNotice, "record", "", "The record gave more than 32 findings; the first 32 (errors first) are kept and this notice counts the rest.", "Correct the findings shown and check the record again."},
 
 	// identity
 	{CodeSubstMissing, SeverityError, "identity", "substance", "Neither a substance nor a declared composition is given.", "Any identifier the catalogue resolves (designation, R-number, chemical name, CAS number), or a declared composition."},
@@ -161,10 +169,11 @@ var codeTable = []CodeInfo{
 
 	// quantity
 	{CodeQtyMissing, SeverityError, "quantity", "total_net_quantity", "No quantity is declared: neither the total net mass nor a fill per package.", "total_net_quantity as a decimal number with a dot, e.g. 1250.5, or net_fill_per_package with package_count."},
-	{CodeQtyFormat, SeverityError, "quantity", "total_net_quantity", "The total net quantity or the fill per package is not a plain decimal number (a comma, a space or thousands separator, an exponent, a unit inside the number, more than 18 digits); the finding's field names which.", "Digits with at most one dot as the decimal separator, e.g. 1250.5."},
+	{CodeQtyFormat, SeverityError, "quantity", "total_net_quantity", "The total net quantity or the fill per package is not a plain decimal number (a sign, a comma, a space or thousands separator, an exponent, a unit inside the number, more than 18 digits); the finding's field names which.", "Digits with at most one dot as the decimal separator, e.g. 1250.5."},
 	{CodeQtyNotPositive, SeverityError, "quantity", "total_net_quantity", "The total net quantity or the fill per package is zero or negative.", "A quantity above zero."},
 	{CodeQtyTooLarge, SeverityError, "quantity", "total_net_quantity", "The net mass exceeds 100,000 t in one record.", "A net mass of at most 100,000 t (10^8 kg)."},
 	{CodeQtyUnitUnknown, SeverityError, "quantity", "quantity_unit", "The unit is missing, unknown or ambiguous (\"ton\").", "kg, t (metric tonne), g or lb (0.45359237 kg)."},
+	{CodeQtyTooSmall, SeverityError, "quantity", "total_net_quantity", "The net mass is above zero but below 0.000000001 kg, the smallest step the register stores (it would be stored as 0 kg).", "A net mass of at least 0.000000001 kg (10^-9 kg)."},
 	{CodeQtyPackagesInvalid, SeverityError, "quantity", "package_count", "The package count is negative or above 10^9.", "Empty or 0 (not declared), or the number of packages."},
 	{CodeQtyFillNoPackages, SeverityError, "quantity", "net_fill_per_package", "A net fill per package is given without a package count, so no total follows from it.", "package_count with the fill, or only total_net_quantity."},
 	{CodeQtyTotalFillDisagree, SeverityError, "quantity", "total_net_quantity", "The total net quantity and the fill per package times the package count disagree by more than the last digit written of each (half a unit of the last decimal of the total, plus half a unit of the last decimal of the fill per package).", "Figures that agree, e.g. total 113 with 10 packages of 11.3; or only the total."},
@@ -223,6 +232,7 @@ var codeTable = []CodeInfo{
 	{CodeMixSum, SeverityError, "mixture", "declared_composition", "The declared mass percents do not sum to 100 (within 0.01).", "Shares summing to 100 ± 0.01."},
 	{CodeMixComponentMismatch, SeverityError, "mixture", "declared_composition", "The declared composition names other components than the declared substance or blend has.", "The components of the declared blend (or the declared substance alone at 100 %)."},
 	{CodeMixOutOfTolerance, SeverityError, "mixture", "declared_composition", "A component's declared mass percent lies outside the blend's ASHRAE 34 composition tolerance.", "A share inside nominal − tolerance to nominal + tolerance, named in the message."},
+	{CodeMixTooMany, SeverityError, "mixture", "declared_composition", "The declared or measured composition lists more than 16 components. The record is checked no further.", "At most 16 components, each substance once."},
 
 	// duplicates
 	{CodeDupKeyConflict, SeverityError, "duplicates", "record_key", "A record with the same company and key but different content was seen before.", "A new key for a new record; the same content when sending a record again."},

@@ -18,6 +18,10 @@ func FuzzCheck(f *testing.F) {
 	f.Add("K|CO-1|XA-IMP-2025-001|XB|2025-06-01||||||kg|0|HFC-32=50;HFC-125=50")
 	f.Add("K|CO-2|XA-FEED-2025-005|xd|1990-01-01|CFC-12|382711|75-71-8|CCl2F2|1e3|ton|x|=5")
 	f.Add("K|CO-1|XA-IMP-2025-008|QZ|2033-01-01|R-402A|3827.31|1-11-1|C(|-0|lb|1099511627776|R-410A=100")
+	f.Add("K\x00|CO-1|XA-IMP-2025-001|XB|2025-06-01|HCFC-22|2903.71|75-45-6|CHCl\x00F2|13.6|kg|10|")
+	f.Add("K|CO-1|XA-IMP-\u202e1|X\u200bB|2025-06-01|HCFC-22\xff||||+100|kg|0|")
+	f.Add("K|CO-1|XA-IMP-2025-001|XB|2025-06-01|HCFC-22||||0.0000000009|kg|1|")
+	f.Add("K|CO-1|XA-IMP-2025-001|XB|2025-06-01||||||kg|0|" + strings.Repeat("HFC-32=1;", 40))
 	env := testEnv(f)
 	f.Fuzz(func(t *testing.T, data string) {
 		p := strings.SplitN(data, "|", 13)
@@ -43,6 +47,20 @@ func FuzzCheck(f *testing.F) {
 		}
 		if v.Outcome == OutcomeRejected && v.Draws != nil {
 			t.Fatal("a rejected record must not draw")
+		}
+		if len(v.Findings) > MaxFindings+1 {
+			t.Fatalf("%d findings, above the cap of %d and its notice", len(v.Findings), MaxFindings)
+		}
+		if v.Outcome != OutcomeRejected {
+			texts := p[:11]
+			for _, sh := range r.Composition {
+				texts = append(texts, sh.Identifier)
+			}
+			for _, s := range texts {
+				if !Storable(s) {
+					t.Fatalf("accepted a record with text the store cannot hold: %q", s)
+				}
+			}
 		}
 		if len(v.Fingerprint) != 64 {
 			t.Fatalf("fingerprint %q", v.Fingerprint)

@@ -3,6 +3,7 @@ package validate
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/halovet/halovet/substances"
@@ -25,6 +26,8 @@ func (c *checker) mixtureRules() ([]substances.Share, bool) {
 	}
 	cat := c.env.Catalogue
 	shares := make([]substances.Share, 0, len(decl))
+	positions := make([]int, 0, len(decl)) // component number of each share
+	var repeated []string                  // designations listed more than once
 	ok := true
 	pctOK := true
 	sum := 0.0
@@ -61,13 +64,17 @@ func (c *checker) mixtureRules() ([]substances.Share, bool) {
 			ok = false
 			continue
 		}
-		for _, prev := range shares {
-			if prev.Identifier == cand.Designation {
-				c.add(CodeMixComponentMismatch, "", "component %d: %s is listed twice", i+1, cand.Designation)
-				ok = false
+		if at := slices.IndexFunc(shares, func(s substances.Share) bool { return s.Identifier == cand.Designation }); at >= 0 {
+			// One finding per repeated substance, whatever the number of repeats.
+			if !slices.Contains(repeated, cand.Designation) {
+				repeated = append(repeated, cand.Designation)
+				c.add(CodeMixComponentMismatch, "", "component %d: %s is listed already (component %d); list each substance once", i+1, cand.Designation, positions[at])
 			}
+			ok = false
+			continue
 		}
 		shares = append(shares, substances.Share{Identifier: cand.Designation, MassPct: d.MassPct})
+		positions = append(positions, i+1)
 	}
 	if pctOK && math.Abs(sum-100) > compositionTolerance {
 		c.add(CodeMixSum, "", "the declared mass percents sum to %s %%; they must sum to 100 %% ± %g", trimFloat(sum), compositionTolerance)

@@ -38,6 +38,10 @@ func (c *checker) parseQty(field, text string) (Decimal, bool) {
 	if q == "" {
 		return Decimal{}, false
 	}
+	if q[0] == '+' {
+		c.add(CodeQtyFormat, field, "%s %q carries a sign; accepted: digits with at most one dot as the decimal separator and no sign, e.g. 1250.5", field, cutText(q))
+		return Decimal{}, false
+	}
 	v, err := ParseDecimal(q)
 	switch {
 	case err != nil:
@@ -86,6 +90,7 @@ func (c *checker) quantityRules() {
 		return
 	}
 	var kg float64
+	used, usedN := total, int64(0) // the figure the mass comes from, and its multiplier
 	switch {
 	case totalOK && fillOK:
 		if !fillAgrees(total, fill, n) {
@@ -100,11 +105,16 @@ func (c *checker) quantityRules() {
 		kg, err = ToKilograms(total, u, 0)
 	case fillOK && totalText == "":
 		kg, err = ToKilograms(fill, u, n)
+		used, usedN = fill, n
 	default:
 		return // a finding was added
 	}
 	if err != nil { // not reached: unit and count were checked above
 		c.add(CodeQtyFormat, fieldTotal, "%s: %v", fieldTotal, err)
+		return
+	}
+	if belowStoreStep(used, u, usedN) {
+		c.add(CodeQtyTooSmall, fieldTotal, "the net mass is %s kg, below the smallest amount the register stores (0.000000001 kg); declare at least 0.000000001 kg", trimTiny(kg))
 		return
 	}
 	if kg > maxNetKg {

@@ -67,7 +67,8 @@ var ruleCases = []ruleCase{
 	fire(CodeFieldUnreadable, "purpose number out of range", func(r *Record) { r.Purpose = 99 }, "99"),
 	silent(CodeFieldUnreadable, "all fields readable", nil),
 	fire(CodeDirectionMissing, "unspecified", func(r *Record) { r.Direction = DirectionUnspecified }),
-	fire(CodeDirectionMissing, "out of range", func(r *Record) { r.Direction = 7 }),
+	fire(CodeFieldUnreadable, "direction number out of range", func(r *Record) { r.Direction = 7 }, "direction 7", "accepted: 1 (import)"),
+	silent(CodeDirectionMissing, "direction number out of range is not missing", func(r *Record) { r.Direction = 7 }),
 	silent(CodeDirectionMissing, "unreadable direction is reported once, as unreadable", func(r *Record) {
 		r.Direction = DirectionUnspecified
 		r.Unreadable = []FieldIssue{{Field: "direction", Text: "sideways", Reason: "x"}}
@@ -83,7 +84,7 @@ var ruleCases = []ruleCase{
 	}),
 	fire(CodeSubstUnknown, "unknown blend number, with a suggestion", func(r *Record) { r.Substance = "R-999" }, "R-999", "did you mean", "R-290"),
 	fire(CodeSubstUnknown, "unknown word", func(r *Record) { r.Substance = "frobnicate" }, "frobnicate"),
-	fire(CodeSubstUnknown, "over-long text is not looked up", func(r *Record) { r.Substance = strings.Repeat("R-22 ", 60) }, "299 bytes"),
+	fire(CodeFieldTooLong, "over-long substance is not looked up", func(r *Record) { r.Substance = strings.Repeat("R-22 ", 60) }, "299 bytes"),
 	silent(CodeSubstUnknown, "R-number spelling", func(r *Record) { r.Substance = "R22" }),
 	fire(CodeSubstAmbiguous, "formula of two catalogue entries", func(r *Record) {
 		r.Substance, r.HSCode, r.CAS, r.Formula = "C2HCl2F3", "", "", ""
@@ -388,7 +389,7 @@ var ruleCases = []ruleCase{
 		r404A(r)
 		r.Composition = []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {"R-999", 4}}
 	}, "component 3", "R-999"),
-	fire(CodeMixComponentUnknown, "over-long identifier", func(r *Record) {
+	fire(CodeFieldTooLong, "over-long component identifier", func(r *Record) {
 		r404A(r)
 		r.Composition = []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {strings.Repeat("x", 300), 4}}
 	}, "300 bytes"),
@@ -430,7 +431,7 @@ var ruleCases = []ruleCase{
 	fire(CodeMixComponentMismatch, "component twice", func(r *Record) {
 		r.Substance, r.HSCode, r.CAS, r.Formula = "", "", "", ""
 		r.Composition = []DeclaredShare{{"HFC-32", 50}, {"R-32", 50}}
-	}, "listed twice"),
+	}, "component 2: HFC-32 is listed already (component 1)"),
 	silent(CodeMixComponentMismatch, "substance at 100 %", func(r *Record) { r.Composition = []DeclaredShare{{"R-22", 100}} }),
 	// source: reference/blend_components.csv: R-404A = HFC-125 44 ±2, HFC-143a 52 ±1, HFC-134a 4 ±2.
 	fire(CodeMixOutOfTolerance, "HFC-125 at 47 %", func(r *Record) {

@@ -7,6 +7,7 @@ import (
 	"net"
 	"os"
 	"strings"
+	"time"
 
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
@@ -21,6 +22,7 @@ type clientFlags struct {
 	caFile     string
 	serverName string
 	tokenFile  string
+	timeout    time.Duration // longest wait for the server; 0: none
 }
 
 // defaultPort is the port halovet serve listens on unless told otherwise.
@@ -31,6 +33,7 @@ func (c *clientFlags) register(fs *pflag.FlagSet) {
 	fs.BoolVar(&c.useTLS, "tls", envBool("HALOVET_TLS"), "connect with TLS (env HALOVET_TLS); plaintext otherwise, meant for loopback")
 	fs.StringVar(&c.caFile, "tls-ca", envOr("HALOVET_TLS_CA", ""), "PEM file of the CA that signed the server's certificate (default: system roots)")
 	fs.StringVar(&c.serverName, "tls-server-name", envOr("HALOVET_TLS_SERVER_NAME", ""), "server name to verify in the certificate (default: the host of --server)")
+	fs.DurationVar(&c.timeout, "timeout", envDuration("HALOVET_TIMEOUT", defaultClientTimeout), "longest wait for the server: the deadline of a single call, and for a file the longest time without a message either way; 0 waits for ever (env HALOVET_TIMEOUT)")
 	fs.StringVar(&c.tokenFile, "admin-token-file", envOr("HALOVET_ADMIN_TOKEN_FILE", ""), "file with the admin bearer token, for calls that change data")
 }
 
@@ -52,7 +55,7 @@ func (c *clientFlags) dial() (*grpc.ClientConn, error) {
 		}
 		creds = credentials.NewTLS(cfg)
 	}
-	opts := []grpc.DialOption{grpc.WithTransportCredentials(creds)}
+	opts := append([]grpc.DialOption{grpc.WithTransportCredentials(creds)}, clientLimitOptions(c.timeout)...)
 	if c.tokenFile != "" {
 		b, err := os.ReadFile(c.tokenFile)
 		if err != nil {

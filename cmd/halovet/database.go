@@ -23,6 +23,8 @@ type dbFlags struct {
 	dataDir string
 	// ephemeral trades durability for speed in a throw-away cluster (the demo's).
 	ephemeral bool
+	// statementTimeout is the pool's statement_timeout (store.OpenOptions); 0: the default.
+	statementTimeout time.Duration
 }
 
 func defaultDataDir() string {
@@ -88,7 +90,7 @@ func openDatabase(ctx context.Context, d dbFlags, migrate bool, log *slog.Logger
 		}
 		log.Info("schema migrated", "version", v)
 	}
-	st, err := store.Open(ctx, db.URL)
+	st, err := store.OpenWith(ctx, db.URL, store.OpenOptions{StatementTimeout: d.statementTimeout})
 	if err != nil {
 		db.Close()
 		return nil, databaseErr(err)

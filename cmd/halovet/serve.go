@@ -16,6 +16,7 @@ import (
 	"google.golang.org/grpc/credentials"
 
 	"github.com/halovet/halovet/service"
+	"github.com/halovet/halovet/store"
 )
 
 func init() {
@@ -45,6 +46,8 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 	certFile := fs.String("tls-cert", envOr("HALOVET_TLS_CERT", ""), "PEM certificate chain to serve TLS with (env HALOVET_TLS_CERT); with --tls-key")
 	keyFile := fs.String("tls-key", envOr("HALOVET_TLS_KEY", ""), "PEM private key of --tls-cert (env HALOVET_TLS_KEY)")
 	tokenFile := fs.String("admin-token-file", envOr("HALOVET_ADMIN_TOKEN_FILE", ""), "file holding the bearer token that calls changing data must carry; empty: no token needed (env HALOVET_ADMIN_TOKEN_FILE)")
+	limits := serveLimitFlags(fs)
+	fs.DurationVar(&d.statementTimeout, "statement-timeout", envDuration("HALOVET_STATEMENT_TIMEOUT", store.DefaultStatementTimeout), "longest one SQL statement may run before PostgreSQL cancels it; negative: none (env HALOVET_STATEMENT_TIMEOUT)")
 	return func(ctx context.Context, args []string) error {
 		if len(args) > 0 {
 			return usageErr("unexpected argument %q (see --help)", args[0])
@@ -112,7 +115,7 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		}
 		stopWatch := cat.Watch(ctx, db.Store)
 		defer stopWatch()
-		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts})
+		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts, Limits: limits()})
 		// The listeners stop together: when one fails, the others are shut down too.
 		ctx, stop := context.WithCancel(ctx)
 		defer stop()

@@ -50,6 +50,23 @@ func specialRecords(ordinary []rec, key func(string) string) []special {
 	r = base()
 	r.company = ""
 	add("COMPANY_MISSING: empty company_id", r)
+	r = base()
+	r.licence = "XA-IMP-\u202e100-6202" // a right-to-left override makes it read as XA-IMP-2026-001
+	add("FIELD_TEXT_INVALID: a right-to-left override (U+202E) inside licence_number", r)
+	r = base()
+	r.formula = strings.Repeat("CHClF2", 30)
+	add("FIELD_TOO_LONG: a declared_formula of 180 bytes", r)
+	r = base()
+	r.substance, r.qty, r.date = "", "", "2026-06-10"
+	r.composition = strings.TrimSuffix(strings.Repeat("mystery gas=0;", 16), ";")
+	add("FINDINGS_CAPPED: 16 unknown components at 0 % (more than 32 findings)", r)
+	r = base()
+	r.substance = ""
+	r.composition = strings.TrimSuffix(strings.Repeat("HFC-32=5;", 17), ";")
+	add("MIX_TOO_MANY: a composition of 17 components", r)
+	r = base()
+	r.qty = "0.0000000005"
+	add("QTY_TOO_SMALL: 0.0000000005 kg, below the register's step of 0.000000001 kg", r)
 	// Raw lines are written as they are; they carry a date of their own.
 	r = base()
 	r.date = "2026-06-10"
