@@ -73,6 +73,12 @@ func kindOf(err error) error {
 			return k
 		}
 	}
+	// A failed connection attempt, whatever the server said (refused, shutting down, no
+	// such database, authentication): the database cannot be reached with this URL now.
+	var ce *pgconn.ConnectError
+	if errors.As(err, &ce) {
+		return ErrUnavailable
+	}
 	var pg *pgconn.PgError
 	if errors.As(err, &pg) {
 		switch {
@@ -95,11 +101,9 @@ func kindOf(err error) error {
 		}
 		return nil
 	}
-	var ce *pgconn.ConnectError
 	var ne net.Error
 	switch {
-	case errors.As(err, &ce),
-		errors.As(err, &ne),
+	case errors.As(err, &ne),
 		errors.Is(err, io.EOF), errors.Is(err, io.ErrUnexpectedEOF),
 		errors.Is(err, net.ErrClosed),
 		errors.Is(err, syscall.ECONNRESET), errors.Is(err, syscall.ECONNREFUSED),

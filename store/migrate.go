@@ -51,7 +51,7 @@ func Migrate(ctx context.Context, url string) (int64, error) {
 	defer db.Close()
 	p, err := provider(db)
 	if err != nil {
-		return 0, fmt.Errorf("migrations: %w", err)
+		return 0, fmt.Errorf("migrations: %w", classified(err))
 	}
 	if _, err := p.Up(ctx); err != nil {
 		return 0, fmt.Errorf("applying migrations: %w", classified(err))
