@@ -2,9 +2,12 @@ package service_test
 
 import (
 	"context"
-	"errors"
 	"io"
+	"net"
+	"net/url"
+	"sync"
 	"testing"
+	"time"
 
 	"github.com/jackc/pgx/v5"
 	"google.golang.org/grpc"
@@ -46,11 +49,69 @@ func loseDatabase(t *testing.T, st *store.Store) {
 	}
 }
 
+// cutProxy forwards TCP connections to a database server until cut, when it closes
+// every connection at once without a word from PostgreSQL: what the server sees when the
+// database host or the network between them goes away.
+type cutProxy struct {
+	lis    net.Listener
+	target string
+	mu     sync.Mutex
+	conns  []net.Conn
+}
+
+func newCutProxy(t *testing.T, target string) *cutProxy {
+	t.Helper()
+	lis, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	p := &cutProxy{lis: lis, target: target}
+	t.Cleanup(p.cut)
+	go func() {
+		for {
+			c, err := lis.Accept()
+			if err != nil {
+				return
+			}
+			d, err := net.Dial("tcp", target)
+			if err != nil {
+				_ = c.Close()
+				continue
+			}
+			p.mu.Lock()
+			p.conns = append(p.conns, c, d)
+			p.mu.Unlock()
+			go func() { _, _ = io.Copy(d, c) }()
+			go func() { _, _ = io.Copy(c, d) }()
+		}
+	}()
+	return p
+}
+
+func (p *cutProxy) cut() {
+	_ = p.lis.Close()
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	for _, c := range p.conns {
+		_ = c.Close()
+	}
+	p.conns = nil
+}
+
 // TestRecordStreamAnswersUnavailableWhenTheDatabaseGoesAway: a recording stream whose
-// database goes away between two records ends with Unavailable (which clients' retry
-// policies retry), not Internal.
+// database connection is lost while a batch is being written ends with Unavailable
+// (which clients' retry policies retry), not Internal. The server reaches PostgreSQL
+// through a proxy; the batch's transaction is held on a licence row lock taken directly,
+// and the proxy is cut while it waits.
 func TestRecordStreamAnswersUnavailableWhenTheDatabaseGoesAway(t *testing.T) {
-	conn, st := startTestServer(t)
+	direct := pgtest.NewDatabase(t, "halovet_service", migrateServiceDB)
+	u, err := url.Parse(direct)
+	if err != nil {
+		t.Fatal(err)
+	}
+	proxy := newCutProxy(t, u.Host)
+	u.Host = proxy.lis.Addr().String()
+	conn, _, _ := startServerOn(t, u.String(), service.Options{})
 	shipRegistry(t, conn)
 	ctx := context.Background()
 	stream, err := halovetv1.NewShipmentServiceClient(conn).RecordShipments(ctx)
@@ -60,26 +121,48 @@ func TestRecordStreamAnswersUnavailableWhenTheDatabaseGoesAway(t *testing.T) {
 	if err := stream.Send(&halovetv1.RecordShipmentsRequest{Record: shipRecord("lost-1")}); err != nil {
 		t.Fatal(err)
 	}
-	first, err := stream.Recv()
-	if err != nil || !first.GetVerdict().GetRecorded() {
+	if first, err := stream.Recv(); err != nil || !first.GetVerdict().GetRecorded() {
 		t.Fatalf("first record: %v, %v; want it recorded", first, err)
 	}
 
-	loseDatabase(t, st)
-
-	if err := stream.Send(&halovetv1.RecordShipmentsRequest{Record: shipRecord("lost-2")}); err != nil && !errors.Is(err, io.EOF) {
+	holder, err := pgx.Connect(ctx, direct)
+	if err != nil {
 		t.Fatal(err)
 	}
-	_ = stream.CloseSend()
-	for {
-		resp, err := stream.Recv()
-		if err == nil {
-			t.Fatalf("after the database went away the stream answered %v; want an Unavailable error", resp)
+	defer func() { _ = holder.Close(ctx) }()
+	tx, err := holder.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer func() { _ = tx.Rollback(ctx) }()
+	if _, err := tx.Exec(ctx, `SELECT 1 FROM licences WHERE licence_number = $1 FOR UPDATE`, shipLicence); err != nil {
+		t.Fatal(err)
+	}
+	if err := stream.Send(&halovetv1.RecordShipmentsRequest{Record: shipRecord("lost-2")}); err != nil {
+		t.Fatal(err)
+	}
+	waiting := false
+	for range 1000 {
+		if err := holder.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM pg_stat_activity
+		    WHERE datname = current_database() AND wait_event_type = 'Lock')`).Scan(&waiting); err != nil {
+			t.Fatal(err)
 		}
-		if got := status.Code(err); got != codes.Unavailable {
-			t.Fatalf("stream ended with %v (%v); want Unavailable", got, err)
+		if waiting {
+			break
 		}
-		return
+		time.Sleep(10 * time.Millisecond)
+	}
+	if !waiting {
+		t.Fatal("the batch's transaction never waited for the licence lock")
+	}
+	proxy.cut()
+
+	resp, err := stream.Recv()
+	if err == nil {
+		t.Fatalf("after the database connection was lost the stream answered %v; want an Unavailable error", resp)
+	}
+	if got := status.Code(err); got != codes.Unavailable {
+		t.Fatalf("stream ended with %v (%v); want Unavailable", got, err)
 	}
 }
 
