@@ -252,3 +252,28 @@ func TestCallerCancellationIsNotADatabaseError(t *testing.T) {
 		t.Fatalf("a cancelled call: err %v, want context.Canceled and not ErrUnavailable", err)
 	}
 }
+
+// Two calls naming different reporting Parties at once both succeed (serialised by the
+// retry loop), and one Party holds the role afterwards. Parties are invented.
+func TestConcurrentReportingPartiesSerialise(t *testing.T) {
+	st, _ := openInternal(t)
+	ctx := context.Background()
+	for round := range 10 {
+		errs := make(chan error, 2)
+		for _, code := range []string{"XA", "XB"} {
+			go func() {
+				errs <- st.PutParty(ctx, Party{CountryCode: code, Name: "invented", PartyType: "article-5",
+					HFCGroup: "a5-group-1", ReportingParty: true})
+			}()
+		}
+		for range 2 {
+			if err := <-errs; err != nil {
+				t.Fatalf("round %d: PutParty: %v", round, err)
+			}
+		}
+		var n int
+		if err := st.pool.QueryRow(ctx, `SELECT count(*) FROM parties WHERE reporting_party`).Scan(&n); err != nil || n != 1 {
+			t.Fatalf("round %d: %d reporting parties (err %v), want 1", round, n, err)
+		}
+	}
+}
