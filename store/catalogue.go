@@ -271,7 +271,6 @@ func (s *Store) UpsertSubstance(ctx context.Context, x *substances.Substance, re
 // announced catalogue change, until ctx is done or the connection fails. It holds one
 // connection of its own (not from the pool) while it listens. The first call, on every (re)connection, lets the
 // caller reload what was announced while nobody listened.
-func (s *Store) ListenCatalogue(ctx context.Context, changed func()) (err error) {
-	defer classifyInto(&err)
+func (s *Store) ListenCatalogue(ctx context.Context, changed func()) error {
 	return s.listen(ctx, CatalogueChannel, changed, func(string) { changed() })
 }
