@@ -42,7 +42,7 @@ func (c *catalogueServer) UpsertSubstance(ctx context.Context, req *halovetv1.Up
 	if _, err := substances.NewCatalogue(subs, blends); err != nil {
 		return nil, invalid(fieldViolation{"substance", err.Error()})
 	}
-	created, err := c.srv.store.UpsertSubstance(ctx, &s, actor(ctx), req.GetReason())
+	created, err := c.srv.store.UpsertSubstance(ctx, &s, req.GetReason())
 	if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}

@@ -148,7 +148,7 @@ func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halo
 	if len(vs) > 0 {
 		return nil, invalid(vs...) // nothing stored
 	}
-	if err := c.srv.store.PutNationalEntries(ctx, entries, actor(ctx)); err != nil {
+	if err := c.srv.store.PutNationalEntries(ctx, entries); err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	out := &halovetv1.RecordNationalEntriesResponse{Stored: int32(len(entries))}

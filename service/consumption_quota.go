@@ -201,7 +201,7 @@ func (c *consumptionServer) issueDraft(ctx context.Context, scope controls.Scope
 		Status:     "draft",
 		QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: group, Unit: unit, Allocated: prop.GetQuota()}}}
 	reason := fmt.Sprintf("quota plan %s %d", scope, year)
-	err := c.srv.store.IssueLicence(ctx, lic, actor(ctx), reason)
+	err := c.srv.store.IssueLicence(ctx, lic, reason)
 	if errors.Is(err, store.ErrAlreadyExists) {
 		var cur store.Licence
 		cur, err = c.srv.store.GetLicence(ctx, num)
@@ -209,7 +209,7 @@ func (c *consumptionServer) issueDraft(ctx context.Context, scope controls.Scope
 			return "", status.Errorf(codes.FailedPrecondition, "licence %s exists and is %s, not a draft; it was left as it is and no further drafts were issued", num, cur.Status)
 		}
 		if err == nil {
-			err = c.srv.store.AmendLicence(ctx, lic, actor(ctx), reason+" (re-planned)")
+			err = c.srv.store.AmendLicence(ctx, lic, reason+" (re-planned)")
 		}
 	}
 	if errors.Is(err, store.ErrNotFound) {

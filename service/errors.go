@@ -3,14 +3,13 @@ package service
 import (
 	"context"
 	"errors"
-	"fmt"
 	"log/slog"
 
-	"github.com/jackc/pgx/v5/pgconn"
 	"google.golang.org/genproto/googleapis/rpc/errdetails"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/callctx"
 	"github.com/halovet/halovet/store"
 )
 
@@ -37,14 +36,26 @@ func invalid(vs ...fieldViolation) error {
 	return st.Err()
 }
 
-// toStatus maps a domain or store error to a gRPC status. SQL text never reaches the
-// caller; it is logged.
+// toStatus maps a domain or store error to a gRPC status: the one place where the
+// store's kinds of error become codes. SQL text never reaches the caller; it is logged,
+// with the call's logger when there is one (it names the request id).
+//
+//	store.ErrNotFound      NotFound           (ErrorInfo NOT_FOUND)
+//	store.ErrAlreadyExists AlreadyExists      (ErrorInfo ALREADY_EXISTS)
+//	store.ErrConflict      FailedPrecondition (ErrorInfo CONFLICT)
+//	store.ErrRetryable     Aborted            retry the call
+//	store.ErrUnavailable   Unavailable        retry with backoff
+//	context errors         Canceled, DeadlineExceeded
+//	anything else          Internal
 func toStatus(ctx context.Context, log *slog.Logger, err error) error {
 	if err == nil {
 		return nil
 	}
 	if _, ok := status.FromError(err); ok {
 		return err
+	}
+	if c := callctx.From(ctx); c != nil && c.Logger != nil {
+		log = c.Logger
 	}
 	withReason := func(c codes.Code, reason string) error {
 		st := status.New(c, err.Error())
@@ -54,32 +65,22 @@ func toStatus(ctx context.Context, log *slog.Logger, err error) error {
 		return st.Err()
 	}
 	switch {
+	case errors.Is(err, context.Canceled):
+		return status.Error(codes.Canceled, "call cancelled")
+	case errors.Is(err, context.DeadlineExceeded):
+		return status.Error(codes.DeadlineExceeded, "deadline exceeded")
+	case errors.Is(err, store.ErrUnavailable):
+		log.ErrorContext(ctx, "database unavailable", "err", err)
+		return status.Error(codes.Unavailable, "the database is not available; retry with backoff")
+	case errors.Is(err, store.ErrRetryable):
+		log.WarnContext(ctx, "transaction lost a race", "err", err)
+		return status.Error(codes.Aborted, "the transaction lost a race with another; retry")
 	case errors.Is(err, store.ErrNotFound):
 		return withReason(codes.NotFound, "NOT_FOUND")
 	case errors.Is(err, store.ErrAlreadyExists):
 		return withReason(codes.AlreadyExists, "ALREADY_EXISTS")
 	case errors.Is(err, store.ErrConflict):
 		return withReason(codes.FailedPrecondition, "CONFLICT")
-	case errors.Is(err, context.Canceled):
-		return status.Error(codes.Canceled, "call cancelled")
-	case errors.Is(err, context.DeadlineExceeded):
-		return status.Error(codes.DeadlineExceeded, "deadline exceeded")
-	}
-	var pg *pgconn.PgError
-	if errors.As(err, &pg) {
-		log.ErrorContext(ctx, "database error", "sqlstate", pg.Code, "err", err)
-		switch pg.Code {
-		case "40001", "40P01":
-			return status.Error(codes.Aborted, "the transaction lost a race with another; retry")
-		case "57P01", "57P02", "57P03", "53300":
-			return status.Error(codes.Unavailable, "the database is not available; retry with backoff")
-		}
-		return status.Error(codes.Internal, fmt.Sprintf("database error (SQLSTATE %s); the server log has the details", pg.Code))
-	}
-	var ce *pgconn.ConnectError
-	if errors.As(err, &ce) || pgconn.SafeToRetry(err) {
-		log.ErrorContext(ctx, "database unavailable", "err", err)
-		return status.Error(codes.Unavailable, "the database is not available; retry with backoff")
 	}
 	log.ErrorContext(ctx, "internal error", "err", err)
 	return status.Error(codes.Internal, "internal error; the server log has the details")

@@ -14,9 +14,12 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
+
+	"github.com/halovet/halovet/callctx"
 )
 
-// The interceptor chain, in order: recovery, request id, logging, auth.
+// The interceptor chain, in order: recovery; the call (request id, caller and logger
+// put into the context once, see newCall) and its log line; auth.
 func (s *Server) unaryInterceptors() []grpc.UnaryServerInterceptor {
 	return []grpc.UnaryServerInterceptor{s.recoverUnary, s.logUnary, s.authUnary}
 }
@@ -45,10 +48,15 @@ func (s *Server) recoverStream(srv any, ss grpc.ServerStream, info *grpc.StreamS
 	return h(srv, ss)
 }
 
-// requestID returns the caller's x-request-id, or a new one.
+// requestIDHeader carries the request id both ways: a caller may send one (it is kept
+// when it is 1 to 128 characters of letters, digits and ._:-), and every answer's
+// header carries the one the call ran under.
+const requestIDHeader = "x-request-id"
+
+// requestID returns the caller's x-request-id when it is acceptable, or a new one.
 func requestID(ctx context.Context) string {
 	if md, ok := metadata.FromIncomingContext(ctx); ok {
-		if v := md.Get("x-request-id"); len(v) > 0 && v[0] != "" && len(v[0]) <= 128 {
+		if v := md.Get(requestIDHeader); len(v) > 0 && validRequestID(v[0]) {
 			return v[0]
 		}
 	}
@@ -57,32 +65,80 @@ func requestID(ctx context.Context) string {
 	return hex.EncodeToString(b[:])
 }
 
+func validRequestID(id string) bool {
+	if id == "" || len(id) > 128 {
+		return false
+	}
+	for _, r := range id {
+		switch {
+		case r >= 'a' && r <= 'z', r >= 'A' && r <= 'Z', r >= '0' && r <= '9', strings.ContainsRune("._:-", r):
+		default:
+			return false
+		}
+	}
+	return true
+}
+
+// adminSubject is the caller's subject for a call that carries the configured admin
+// token: the one identity the server knows until there are credentials per person.
+const adminSubject = "admin"
+
+// caller is the identity behind a call as far as the server knows it: the holder of the
+// admin token when one is configured and the call carries it, else anonymous.
+func (s *Server) caller(ctx context.Context) callctx.Caller {
+	if s.opts.AdminToken == "" || !s.hasAdminToken(ctx) {
+		return callctx.Caller{}
+	}
+	return callctx.Caller{Subject: adminSubject, Roles: []string{"admin"}, Via: "token"}
+}
+
+// newCall is what the interceptors put into a call's context, once: the request id the
+// caller gets back in the response header, the caller, and a logger naming both.
+func (s *Server) newCall(ctx context.Context, method string) *callctx.Call {
+	c := &callctx.Call{RequestID: requestID(ctx), Method: method, Caller: s.caller(ctx)}
+	who := c.Caller.Subject
+	if who == "" {
+		who = "anonymous"
+	}
+	c.Logger = s.log.With("request_id", c.RequestID, "method", method, "caller", who)
+	return c
+}
+
 func (s *Server) logUnary(ctx context.Context, req any, info *grpc.UnaryServerInfo, h grpc.UnaryHandler) (any, error) {
 	start := time.Now()
-	id := requestID(ctx)
-	_ = grpc.SetHeader(ctx, metadata.Pairs("x-request-id", id))
+	c := s.newCall(ctx, info.FullMethod)
+	ctx = callctx.With(ctx, c)
+	_ = grpc.SetHeader(ctx, metadata.Pairs(requestIDHeader, c.RequestID))
 	resp, err := h(ctx, req)
-	s.logCall(ctx, info.FullMethod, id, start, err)
+	logCall(ctx, c, start, err)
 	return resp, err
 }
 
+// callStream is a server stream whose context carries the call.
+type callStream struct {
+	grpc.ServerStream
+	ctx context.Context
+}
+
+func (cs *callStream) Context() context.Context { return cs.ctx }
+
 func (s *Server) logStream(srv any, ss grpc.ServerStream, info *grpc.StreamServerInfo, h grpc.StreamHandler) error {
 	start := time.Now()
-	id := requestID(ss.Context())
-	_ = ss.SetHeader(metadata.Pairs("x-request-id", id))
-	err := h(srv, ss)
-	s.logCall(ss.Context(), info.FullMethod, id, start, err)
+	c := s.newCall(ss.Context(), info.FullMethod)
+	ctx := callctx.With(ss.Context(), c)
+	_ = ss.SetHeader(metadata.Pairs(requestIDHeader, c.RequestID))
+	err := h(srv, &callStream{ServerStream: ss, ctx: ctx})
+	logCall(ctx, c, start, err)
 	return err
 }
 
-func (s *Server) logCall(ctx context.Context, method, id string, start time.Time, err error) {
+func logCall(ctx context.Context, c *callctx.Call, start time.Time, err error) {
 	code := status.Code(err)
 	level := slog.LevelInfo
 	if code == codes.Internal || code == codes.Unavailable || code == codes.DataLoss {
 		level = slog.LevelError
 	}
-	s.log.Log(ctx, level, "call", "method", method, "request_id", id, "code", code.String(),
-		"duration_ms", time.Since(start).Milliseconds())
+	c.Logger.Log(ctx, level, "call", "code", code.String(), "duration_ms", time.Since(start).Milliseconds())
 }
 
 // adminMethods change the catalogue or licensing; when an admin token is configured
@@ -115,15 +171,28 @@ func (s *Server) requireAdmin(ctx context.Context) error {
 		return nil
 	}
 	md, _ := metadata.FromIncomingContext(ctx)
-	vals := md.Get("authorization")
-	if len(vals) == 0 {
+	if len(md.Get("authorization")) == 0 {
 		return status.Error(codes.Unauthenticated, "this call changes data and needs 'authorization: Bearer <admin token>'")
 	}
-	tok, ok := strings.CutPrefix(vals[0], "Bearer ")
-	if !ok || subtle.ConstantTimeCompare([]byte(tok), []byte(s.opts.AdminToken)) != 1 {
+	if !s.hasAdminToken(ctx) {
 		return status.Error(codes.PermissionDenied, "the admin token is not valid")
 	}
 	return nil
+}
+
+// hasAdminToken reports whether the call carries "authorization: Bearer <admin token>"
+// with the configured token (false when none is configured).
+func (s *Server) hasAdminToken(ctx context.Context) bool {
+	if s.opts.AdminToken == "" {
+		return false
+	}
+	md, _ := metadata.FromIncomingContext(ctx)
+	vals := md.Get("authorization")
+	if len(vals) == 0 {
+		return false
+	}
+	tok, ok := strings.CutPrefix(vals[0], "Bearer ")
+	return ok && subtle.ConstantTimeCompare([]byte(tok), []byte(s.opts.AdminToken)) == 1
 }
 
 func (s *Server) authUnary(ctx context.Context, req any, info *grpc.UnaryServerInfo, h grpc.UnaryHandler) (any, error) {

@@ -21,9 +21,6 @@ const dateLayout = "2006-01-02"
 // quota in billionths in 64-bit integers, and no national licence comes near a billion.
 const maxAllocation = 1e9
 
-// actor names who made a change, for the audit log.
-func actor(ctx context.Context) string { return "api:" + requestID(ctx) }
-
 func validGroup(g string) bool {
 	for _, x := range substances.AllGroups {
 		if string(x) == g {
@@ -57,7 +54,7 @@ func (l *licensingServer) PutParty(ctx context.Context, req *halovetv1.PutPartyR
 	}
 	sp := store.Party{CountryCode: p.GetCountryCode(), Name: p.GetName(), PartyType: pt, HFCGroup: hg,
 		ReportingParty: p.GetReportingParty(), BoundFrom: p.GetBoundFrom()}
-	if err := l.srv.store.PutParty(ctx, sp, actor(ctx)); err != nil {
+	if err := l.srv.store.PutParty(ctx, sp); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	l.srv.registerChanged(ctx, ledger.Change{Parties: true})
@@ -102,7 +99,7 @@ func (l *licensingServer) RegisterCompany(ctx context.Context, req *halovetv1.Re
 		return nil, invalid(vs...)
 	}
 	sc := store.Company{CompanyID: c.GetCompanyId(), Name: c.GetName(), CountryCode: c.GetCountryCode()}
-	if err := l.srv.store.PutCompany(ctx, sc, actor(ctx)); err != nil {
+	if err := l.srv.store.PutCompany(ctx, sc); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	return &halovetv1.RegisterCompanyResponse{Company: c}, nil
@@ -232,7 +229,7 @@ func (l *licensingServer) IssueLicence(ctx context.Context, req *halovetv1.Issue
 	if err != nil {
 		return nil, err
 	}
-	if err := l.srv.store.IssueLicence(ctx, lic, actor(ctx), req.GetReason()); err != nil {
+	if err := l.srv.store.IssueLicence(ctx, lic, req.GetReason()); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	l.srv.registerChanged(ctx, ledger.Change{Licences: []string{lic.Number}})
@@ -248,7 +245,7 @@ func (l *licensingServer) AmendLicence(ctx context.Context, req *halovetv1.Amend
 	if err != nil {
 		return nil, err
 	}
-	if err := l.srv.store.AmendLicence(ctx, lic, actor(ctx), req.GetReason()); err != nil {
+	if err := l.srv.store.AmendLicence(ctx, lic, req.GetReason()); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	l.srv.registerChanged(ctx, ledger.Change{Licences: []string{lic.Number}})
@@ -264,7 +261,7 @@ func (l *licensingServer) SetLicenceStatus(ctx context.Context, req *halovetv1.S
 	if !ok {
 		return nil, invalid(fieldViolation{"status", "must be DRAFT, ACTIVE, SUSPENDED or REVOKED"})
 	}
-	if err := l.srv.store.SetLicenceStatus(ctx, req.GetLicenceNumber(), st, actor(ctx), req.GetReason()); err != nil {
+	if err := l.srv.store.SetLicenceStatus(ctx, req.GetLicenceNumber(), st, req.GetReason()); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	l.srv.registerChanged(ctx, ledger.Change{Licences: []string{req.GetLicenceNumber()}})

@@ -8,6 +8,8 @@ import (
 
 	"github.com/jackc/pgx/v5"
 
+	"github.com/halovet/halovet/callctx"
+
 	"github.com/halovet/halovet/substances"
 )
 
@@ -23,7 +25,9 @@ const catalogueLockID = 0x68616c6f7663 // "halovc"
 // corrected (origin 'admin') are left as they are. It announces the change on
 // CatalogueChannel.
 func (s *Store) SyncSeed(ctx context.Context, subs []substances.Substance, blends []substances.Blend) error {
-	return s.InTx(ctx, func(tx pgx.Tx) error {
+	// READ COMMITTED: the advisory lock serialises seeding replicas, and every statement
+	// is an upsert that reads the row as it stands when it runs.
+	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
 		if _, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock($1)`, int64(catalogueLockID)); err != nil {
 			return err
 		}
@@ -131,7 +135,8 @@ func sortedSets(m map[substances.GWPSet]float64) []substances.GWPSet {
 }
 
 // LoadCatalogue reads every substance and blend.
-func (s *Store) LoadCatalogue(ctx context.Context) ([]substances.Substance, []substances.Blend, error) {
+func (s *Store) LoadCatalogue(ctx context.Context) (_ []substances.Substance, _ []substances.Blend, err error) {
+	defer classifyInto(&err)
 	var subs []substances.Substance
 	idx := map[string]int{}
 	rows, err := s.pool.Query(ctx, `SELECT designation, chemical_name, formula, structure, cas_number,
@@ -236,8 +241,12 @@ func (s *Store) LoadCatalogue(ctx context.Context) ([]substances.Substance, []su
 
 // UpsertSubstance writes an administrator's substance, records it in the audit log and
 // announces the change. It reports whether the substance is new.
-func (s *Store) UpsertSubstance(ctx context.Context, x *substances.Substance, actor, reason string) (created bool, err error) {
-	err = s.InTx(ctx, func(tx pgx.Tx) error {
+func (s *Store) UpsertSubstance(ctx context.Context, x *substances.Substance, reason string) (created bool, err error) {
+	// REPEATABLE READ: created is read before the upsert; a substance another
+	// transaction inserts in between makes the upsert fail with a serialization failure
+	// (instead of updating a row our snapshot did not see), and the retry answers
+	// created = false.
+	err = s.inTx(ctx, repeatableRead, func(tx pgx.Tx) error {
 		var exists bool
 		if err := tx.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM substances WHERE designation = $1)`,
 			x.Designation).Scan(&exists); err != nil {
@@ -251,7 +260,7 @@ func (s *Store) UpsertSubstance(ctx context.Context, x *substances.Substance, ac
 		if created {
 			action = "create"
 		}
-		queueAudit(b, actor, action, "substance", x.Designation, reason, detail)
+		queueAudit(b, callctx.Actor(ctx), action, "substance", x.Designation, reason, detail)
 		b.Queue(`SELECT pg_notify($1, $2)`, CatalogueChannel, x.Designation)
 		return tx.SendBatch(ctx, b).Close()
 	})

@@ -24,7 +24,8 @@ type ShipmentTotal struct {
 // ShipmentTotals sums the recorded shipment components per year, substance, direction,
 // purpose, condition and partner status, for the given years (every year when years is
 // nil). The sums are exact numeric sums in kg, converted to tonnes as the last step.
-func (s *Store) ShipmentTotals(ctx context.Context, years []int) ([]ShipmentTotal, error) {
+func (s *Store) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTotal, err error) {
+	defer classifyInto(&err)
 	// Party status is per component group (migration 5); rows without it take the
 	// shipment's flag.
 	rows, err := s.pool.Query(ctx, `SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose,
@@ -52,7 +53,8 @@ func (s *Store) ShipmentTotals(ctx context.Context, years []int) ([]ShipmentTota
 // ShipmentYears returns, in order, the years in which at least one shipment is recorded.
 // It walks the year index one distinct value at a time (a recursive skip scan), so its
 // cost grows with the number of years, not of shipments.
-func (s *Store) ShipmentYears(ctx context.Context) ([]int, error) {
+func (s *Store) ShipmentYears(ctx context.Context) (_ []int, err error) {
+	defer classifyInto(&err)
 	rows, err := s.pool.Query(ctx, `WITH RECURSIVE y(year) AS (
 	        SELECT min(year) FROM shipments
 	      UNION ALL
@@ -84,7 +86,8 @@ type CompanyAmount struct {
 // consumption (counts_in_consumption) of the components in the given Annex groups, in a
 // quota unit: "metric-t" (component mass), "odp-t" or "co2e-t" (the figures computed when
 // the shipment was recorded).
-func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string, years []int) ([]CompanyAmount, error) {
+func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string, years []int) (_ []CompanyAmount, err error) {
+	defer classifyInto(&err)
 	var expr string
 	switch unit {
 	case "metric-t":

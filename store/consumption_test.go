@@ -59,12 +59,12 @@ func TestNationalEntriesReplaceByKeyAndRefuseBadRows(t *testing.T) {
 		{Key: "d-2025-22", Year: 2025, Type: store.EntryDestruction, Substance: "HCFC-22", Tonnes: 1},
 		{Key: "h-1989-11", Year: 1989, Type: store.EntryHistoricalImport, Substance: "CFC-11", Tonnes: 100},
 	}
-	if err := st.PutNationalEntries(ctx, in, "test"); err != nil {
+	if err := st.PutNationalEntries(ctx, in); err != nil {
 		t.Fatal(err)
 	}
 	// Same key again: replaced, not added.
 	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "p-2025-22", Year: 2025, Type: store.EntryProduction,
-		Substance: "HCFC-22", Tonnes: 12}}, "test"); err != nil {
+		Substance: "HCFC-22", Tonnes: 12}}); err != nil {
 		t.Fatal(err)
 	}
 	got, err := st.ListNationalEntries(ctx, 2025)
@@ -100,17 +100,17 @@ func TestNationalEntriesReplaceByKeyAndRefuseBadRows(t *testing.T) {
 	err = st.PutNationalEntries(ctx, []store.NationalEntry{
 		{Key: "ok", Year: 2025, Type: store.EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: 1},
 		{Key: "bad", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-999", Tonnes: 1},
-	}, "test")
+	})
 	if !errors.Is(err, store.ErrNotFound) {
 		t.Fatalf("unknown substance: err %v, want ErrNotFound", err)
 	}
 	// The schema refuses negative tonnes and unknown kinds (migration 00002).
 	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "neg", Year: 2025, Type: store.EntryProduction,
-		Substance: "HCFC-22", Tonnes: -1}}, "test"); !errors.Is(err, store.ErrConflict) {
+		Substance: "HCFC-22", Tonnes: -1}}); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("negative tonnes: err %v, want ErrConflict", err)
 	}
 	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "kind", Year: 2025, Type: "stockpile",
-		Substance: "HCFC-22", Tonnes: 1}}, "test"); !errors.Is(err, store.ErrConflict) {
+		Substance: "HCFC-22", Tonnes: 1}}); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("unknown kind: err %v, want ErrConflict", err)
 	}
 	if after, _ := st.ListNationalEntries(ctx, 0); len(after) != 4 {
@@ -223,10 +223,10 @@ func TestReportingParty(t *testing.T) {
 		t.Fatalf("no party: err %v, want ErrNoReportingParty", err)
 	}
 	// Invented Parties with user-assigned codes.
-	if err := st.PutParty(ctx, store.Party{CountryCode: "XB", PartyType: "non-article-5", HFCGroup: "non-a5"}, "test"); err != nil {
+	if err := st.PutParty(ctx, store.Party{CountryCode: "XB", PartyType: "non-article-5", HFCGroup: "non-a5"}); err != nil {
 		t.Fatal(err)
 	}
-	if err := st.PutParty(ctx, store.Party{CountryCode: "XA", PartyType: "article-5", HFCGroup: "a5-group-1", ReportingParty: true}, "test"); err != nil {
+	if err := st.PutParty(ctx, store.Party{CountryCode: "XA", PartyType: "article-5", HFCGroup: "a5-group-1", ReportingParty: true}); err != nil {
 		t.Fatal(err)
 	}
 	p, err := st.ReportingParty(ctx)

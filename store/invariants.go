@@ -28,8 +28,11 @@ const drawTolerance = "0.00000001"
 // draw of a recorded shipment is on the shipment's own licence and no larger than the
 // shipment's figure (metric t, ODP t or CO2-eq t) for the components in the line's scope.
 // The checks are independent of the code that records shipments: they read the tables.
-func (s *Store) CheckInvariants(ctx context.Context) (InvariantReport, error) {
+func (s *Store) CheckInvariants(ctx context.Context) (_ InvariantReport, err error) {
+	defer classifyInto(&err)
 	var rep InvariantReport
+	// REPEATABLE READ, READ ONLY: every check reads the same snapshot, so that lines and
+	// draws committed meanwhile cannot look like a breach.
 	tx, err := s.pool.Begin(ctx)
 	if err != nil {
 		return rep, fmt.Errorf("invariants: %w", err)

@@ -50,12 +50,16 @@ type Licence struct {
 }
 
 // PutParty creates or replaces a country's settings.
-func (s *Store) PutParty(ctx context.Context, p Party, actor string) error {
+func (s *Store) PutParty(ctx context.Context, p Party) error {
 	bound, err := json.Marshal(nonNilMap(p.BoundFrom))
 	if err != nil {
 		return err
 	}
-	return s.InTx(ctx, func(tx pgx.Tx) error {
+	// SERIALIZABLE: two calls naming different reporting Parties at once would each clear
+	// the flag of rows the other had not written yet, and one would then fail on the
+	// one-reporting-Party index as if its own party existed; serialised, the loser is
+	// retried and takes the role from the winner.
+	return s.inTx(ctx, serializable, func(tx pgx.Tx) error {
 		if p.ReportingParty {
 			// Only one reporting Party: the new one takes the role.
 			if _, err := tx.Exec(ctx, `UPDATE parties SET reporting_party = false
@@ -72,7 +76,7 @@ func (s *Store) PutParty(ctx context.Context, p Party, actor string) error {
 		if err != nil {
 			return classify(err, "party", p.CountryCode)
 		}
-		return audit(ctx, tx, actor, "put", "party", p.CountryCode, "", p)
+		return audit(ctx, tx, "put", "party", p.CountryCode, "", p)
 	})
 }
 
@@ -98,7 +102,8 @@ func scanParty(row pgx.Row) (Party, error) {
 }
 
 // GetParty returns one country's settings.
-func (s *Store) GetParty(ctx context.Context, code string) (Party, error) {
+func (s *Store) GetParty(ctx context.Context, code string) (_ Party, err error) {
+	defer classifyInto(&err)
 	p, err := scanParty(s.pool.QueryRow(ctx, `SELECT `+partyCols+` FROM parties WHERE country_code = $1`, code))
 	if errors.Is(err, pgx.ErrNoRows) {
 		return p, notFound("party", code)
@@ -107,7 +112,8 @@ func (s *Store) GetParty(ctx context.Context, code string) (Party, error) {
 }
 
 // ListParties returns every country's settings in code order.
-func (s *Store) ListParties(ctx context.Context) ([]Party, error) {
+func (s *Store) ListParties(ctx context.Context) (_ []Party, err error) {
+	defer classifyInto(&err)
 	rows, err := s.pool.Query(ctx, `SELECT `+partyCols+` FROM parties ORDER BY country_code`)
 	if err != nil {
 		return nil, err
@@ -125,8 +131,9 @@ func (s *Store) ListParties(ctx context.Context) ([]Party, error) {
 }
 
 // PutCompany creates or updates a company.
-func (s *Store) PutCompany(ctx context.Context, c Company, actor string) error {
-	return s.InTx(ctx, func(tx pgx.Tx) error {
+func (s *Store) PutCompany(ctx context.Context, c Company) error {
+	// READ COMMITTED: one upsert, which reads the row as it stands when it runs.
+	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
 		_, err := tx.Exec(ctx, `INSERT INTO companies (company_id, name, country_code, updated_at)
 		    VALUES ($1, $2, $3, now())
 		    ON CONFLICT (company_id) DO UPDATE SET name = EXCLUDED.name,
@@ -134,12 +141,13 @@ func (s *Store) PutCompany(ctx context.Context, c Company, actor string) error {
 		if err != nil {
 			return classify(err, "company", c.CompanyID)
 		}
-		return audit(ctx, tx, actor, "put", "company", c.CompanyID, "", c)
+		return audit(ctx, tx, "put", "company", c.CompanyID, "", c)
 	})
 }
 
 // ListCompanies returns the companies in identifier order.
-func (s *Store) ListCompanies(ctx context.Context) ([]Company, error) {
+func (s *Store) ListCompanies(ctx context.Context) (_ []Company, err error) {
+	defer classifyInto(&err)
 	rows, err := s.pool.Query(ctx, `SELECT company_id, name, country_code FROM companies ORDER BY company_id`)
 	if err != nil {
 		return nil, err
@@ -157,8 +165,10 @@ func (s *Store) ListCompanies(ctx context.Context) ([]Company, error) {
 }
 
 // IssueLicence stores a new licence with its quota lines (drawn starts at 0).
-func (s *Store) IssueLicence(ctx context.Context, l Licence, actor, reason string) error {
-	return s.InTx(ctx, func(tx pgx.Tx) error {
+func (s *Store) IssueLicence(ctx context.Context, l Licence, reason string) error {
+	// READ COMMITTED: plain inserts; a licence number issued concurrently fails on the
+	// primary key (ErrAlreadyExists), whichever commits first.
+	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
 		_, err := tx.Exec(ctx, `INSERT INTO licences (licence_number, company_id, directions, valid_from,
 		    valid_to, status, special_purposes) VALUES ($1, $2, $3, $4, $5, $6, $7)`,
 			l.Number, l.CompanyID, l.Directions, l.ValidFrom, l.ValidTo, l.Status, nonNil(l.SpecialPurposes))
@@ -172,7 +182,7 @@ func (s *Store) IssueLicence(ctx context.Context, l Licence, actor, reason strin
 				return classify(err, "quota line of licence", l.Number)
 			}
 		}
-		return audit(ctx, tx, actor, "issue", "licence", l.Number, reason, l)
+		return audit(ctx, tx, "issue", "licence", l.Number, reason, l)
 	})
 }
 
@@ -180,8 +190,10 @@ func (s *Store) IssueLicence(ctx context.Context, l Licence, actor, reason strin
 // locked first, then its quota lines in line order (the order the recorder uses too), so
 // an amendment and a recording batch cannot deadlock. A line cannot go below what is
 // drawn, and a line with draws cannot be removed.
-func (s *Store) AmendLicence(ctx context.Context, l Licence, actor, reason string) error {
-	return s.InTx(ctx, func(tx pgx.Tx) error {
+func (s *Store) AmendLicence(ctx context.Context, l Licence, reason string) error {
+	// READ COMMITTED: the licence and its lines are read FOR UPDATE, so what is checked
+	// (status, drawn) is the latest committed value and cannot change before commit.
+	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
 		var status string
 		err := tx.QueryRow(ctx, `SELECT status FROM licences WHERE licence_number = $1 FOR UPDATE`, l.Number).Scan(&status)
 		if errors.Is(err, pgx.ErrNoRows) {
@@ -241,13 +253,14 @@ func (s *Store) AmendLicence(ctx context.Context, l Licence, actor, reason strin
 				return err
 			}
 		}
-		return audit(ctx, tx, actor, "amend", "licence", l.Number, reason, l)
+		return audit(ctx, tx, "amend", "licence", l.Number, reason, l)
 	})
 }
 
 // SetLicenceStatus changes a licence's status; a revoked licence stays revoked.
-func (s *Store) SetLicenceStatus(ctx context.Context, number, status, actor, reason string) error {
-	return s.InTx(ctx, func(tx pgx.Tx) error {
+func (s *Store) SetLicenceStatus(ctx context.Context, number, status, reason string) error {
+	// READ COMMITTED: the licence row is read FOR UPDATE before its status is checked.
+	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
 		var cur string
 		err := tx.QueryRow(ctx, `SELECT status FROM licences WHERE licence_number = $1 FOR UPDATE`, number).Scan(&cur)
 		if errors.Is(err, pgx.ErrNoRows) {
@@ -262,7 +275,7 @@ func (s *Store) SetLicenceStatus(ctx context.Context, number, status, actor, rea
 		if _, err := tx.Exec(ctx, `UPDATE licences SET status = $2, updated_at = now() WHERE licence_number = $1`, number, status); err != nil {
 			return classify(err, "licence", number)
 		}
-		return audit(ctx, tx, actor, "status:"+status, "licence", number, reason, map[string]string{"from": cur, "to": status})
+		return audit(ctx, tx, "status:"+status, "licence", number, reason, map[string]string{"from": cur, "to": status})
 	})
 }
 
@@ -288,7 +301,8 @@ func (s *Store) ListLicences(ctx context.Context, companyID string, year int) ([
 	    ORDER BY licence_number`, companyID, year)
 }
 
-func (s *Store) queryLicences(ctx context.Context, sql string, args ...any) ([]Licence, error) {
+func (s *Store) queryLicences(ctx context.Context, sql string, args ...any) (_ []Licence, err error) {
+	defer classifyInto(&err)
 	rows, err := s.pool.Query(ctx, sql, args...)
 	if err != nil {
 		return nil, err

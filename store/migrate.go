@@ -51,12 +51,13 @@ func Migrate(ctx context.Context, url string) (int64, error) {
 	defer db.Close()
 	p, err := provider(db)
 	if err != nil {
-		return 0, fmt.Errorf("migrations: %w", err)
+		return 0, fmt.Errorf("migrations: %w", classified(err))
 	}
 	if _, err := p.Up(ctx); err != nil {
-		return 0, fmt.Errorf("applying migrations: %w", err)
+		return 0, fmt.Errorf("applying migrations: %w", classified(err))
 	}
-	return p.GetDBVersion(ctx)
+	v, err := p.GetDBVersion(ctx)
+	return v, classified(err)
 }
 
 // headVersion is the newest embedded migration's version.
@@ -79,6 +80,7 @@ func headVersion() (int64, error) {
 // health probe) and returns it with the newest embedded version. A database that was
 // never migrated reports version 0.
 func (s *Store) SchemaVersion(ctx context.Context) (current, head int64, err error) {
+	defer classifyInto(&err)
 	head, err = headVersion()
 	if err != nil {
 		return 0, 0, err
@@ -123,7 +125,8 @@ func (st SchemaState) Serves() (bool, string) {
 
 // SchemaState reads the applied schema version and the compatibility rows of the applied
 // migrations.
-func (s *Store) SchemaState(ctx context.Context) (SchemaState, error) {
+func (s *Store) SchemaState(ctx context.Context) (_ SchemaState, err error) {
+	defer classifyInto(&err)
 	cur, head, err := s.SchemaVersion(ctx)
 	st := SchemaState{Current: cur, Head: head}
 	if err != nil {

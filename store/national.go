@@ -49,11 +49,12 @@ type NationalTotal struct {
 // insert). Every entry is written to the audit log. A substance missing from the catalogue
 // table fails the whole call with ErrNotFound, and a value the schema refuses with
 // ErrConflict; nothing is stored then.
-func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry, actor string) error {
+func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry) error {
 	if len(entries) == 0 {
 		return nil
 	}
-	return s.InTx(ctx, func(tx pgx.Tx) error {
+	// READ COMMITTED: each entry is one upsert by key; entries do not depend on each other.
+	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
 		for _, e := range entries {
 			// One statement per entry keeps the SQLSTATE tied to its key for the message;
 			// a batch of a few thousand entries still runs in seconds.
@@ -65,7 +66,7 @@ func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry,
 			if err != nil {
 				return classify(err, "national entry", e.Key)
 			}
-			if err := audit(ctx, tx, actor, "put", "national_entry", e.Key, "", e); err != nil {
+			if err := audit(ctx, tx, "put", "national_entry", e.Key, "", e); err != nil {
 				return err
 			}
 		}
@@ -75,7 +76,8 @@ func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry,
 
 // ListNationalEntries returns the entries of one year (all years when year is 0), by year,
 // kind, substance and key.
-func (s *Store) ListNationalEntries(ctx context.Context, year int) ([]NationalEntry, error) {
+func (s *Store) ListNationalEntries(ctx context.Context, year int) (_ []NationalEntry, err error) {
+	defer classifyInto(&err)
 	rows, err := s.pool.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note
 	    FROM national_entries WHERE ($1 = 0 OR year = $1)
 	    ORDER BY year, entry_type, substance, entry_key`, year)
@@ -96,7 +98,8 @@ func (s *Store) ListNationalEntries(ctx context.Context, year int) ([]NationalEn
 
 // NationalTotals sums the national entries per year, kind and substance, in the database,
 // for the given years (every year when years is nil).
-func (s *Store) NationalTotals(ctx context.Context, years []int) ([]NationalTotal, error) {
+func (s *Store) NationalTotals(ctx context.Context, years []int) (_ []NationalTotal, err error) {
+	defer classifyInto(&err)
 	rows, err := s.pool.Query(ctx, `SELECT year, entry_type, substance, sum(metric_tonnes)::float8, count(*)
 	    FROM national_entries WHERE ($1::int[] IS NULL OR year = ANY($1))
 	    GROUP BY year, entry_type, substance ORDER BY year, entry_type, substance`, intsOrNil(years))
@@ -120,7 +123,8 @@ var ErrNoReportingParty = errors.New("no reporting Party is configured")
 
 // ReportingParty returns the settings of the country marked as the reporting Party; the
 // error wraps ErrNoReportingParty when there is none.
-func (s *Store) ReportingParty(ctx context.Context) (Party, error) {
+func (s *Store) ReportingParty(ctx context.Context) (_ Party, err error) {
+	defer classifyInto(&err)
 	p, err := scanParty(s.pool.QueryRow(ctx, `SELECT `+partyCols+` FROM parties WHERE reporting_party`))
 	if errors.Is(err, pgx.ErrNoRows) {
 		return p, fmt.Errorf("%w: store the country's settings with reporting_party true (PutParty, or 'halovet load')", ErrNoReportingParty)

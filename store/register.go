@@ -43,7 +43,8 @@ func (s *Store) ListenRegister(ctx context.Context, ready func(), changed func(R
 // listen calls ready once LISTEN channel holds, then notified with each announcement's
 // payload, until ctx is done or the connection fails. It listens on a connection of its
 // own, outside the pool, so that listeners never take connections from the calls.
-func (s *Store) listen(ctx context.Context, channel string, ready func(), notified func(payload string)) error {
+func (s *Store) listen(ctx context.Context, channel string, ready func(), notified func(payload string)) (err error) {
+	defer classifyInto(&err)
 	conn, err := pgx.ConnectConfig(ctx, s.pool.Config().ConnConfig.Copy())
 	if err != nil {
 		return err

@@ -2,7 +2,6 @@ package store
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"math"
 	"math/big"
@@ -10,7 +9,6 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5"
-	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgtype"
 )
 
@@ -106,10 +104,6 @@ type lineKey struct {
 	line    int
 }
 
-// maxKeyRaceAttempts bounds the retries after another replica stored the same key
-// between our read and our write.
-const maxKeyRaceAttempts = 5
-
 // RecordShipments stores a batch of accepted rows in one transaction and draws their
 // quotas. Rows that would over-draw a line, reuse a key for other content, or draw on a
 // licence that is no longer active are not stored, and the rest of the batch is.
@@ -120,19 +114,18 @@ const maxKeyRaceAttempts = 5
 // stored by another transaction between our read and our insert makes the insert fail
 // with a unique violation, and the whole batch is retried, finding it then.
 func (s *Store) RecordShipments(ctx context.Context, rows []ShipmentRow) ([]RecordResult, error) {
-	for attempt := 1; ; attempt++ {
-		var results []RecordResult
-		err := s.InTx(ctx, func(tx pgx.Tx) error {
-			var err error
-			results, err = recordTx(ctx, tx, rows)
-			return err
-		})
-		var pg *pgconn.PgError
-		if err != nil && errors.As(err, &pg) && pg.Code == "23505" && attempt < maxKeyRaceAttempts {
-			continue
-		}
-		return results, err
-	}
+	var results []RecordResult
+	// READ COMMITTED: the licences and quota lines are read under row locks (so the
+	// balances drawn on are the latest committed), and a key stored between our lookup
+	// and our insert fails the insert; keyRace retries the batch, which then finds it.
+	spec := readCommitted
+	spec.keyRace = true
+	err := s.inTx(ctx, spec, func(tx pgx.Tx) error {
+		var err error
+		results, err = recordTx(ctx, tx, rows)
+		return err
+	})
+	return results, err
 }
 
 func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResult, error) {
@@ -355,7 +348,8 @@ func shipmentValues(id int64, r *ShipmentRow) []any {
 }
 
 // StoredFingerprints returns the fingerprints of the (company, key) pairs already stored.
-func (s *Store) StoredFingerprints(ctx context.Context, keys [][2]string) (map[[2]string]string, error) {
+func (s *Store) StoredFingerprints(ctx context.Context, keys [][2]string) (_ map[[2]string]string, err error) {
+	defer classifyInto(&err)
 	out := map[[2]string]string{}
 	if len(keys) == 0 {
 		return out, nil

@@ -52,7 +52,7 @@ func TestSchemaAtHeadAndMigrateIdempotent(t *testing.T) {
 func TestAuditLogIsAppendOnly(t *testing.T) {
 	st, _ := openTestStore(t)
 	ctx := context.Background()
-	if err := st.PutCompany(ctx, store.Company{CompanyID: "XA-1", Name: "Invented Co"}, "test"); err != nil {
+	if err := st.PutCompany(ctx, store.Company{CompanyID: "XA-1", Name: "Invented Co"}); err != nil {
 		t.Fatal(err)
 	}
 	var n int
@@ -71,13 +71,13 @@ func TestAuditLogIsAppendOnly(t *testing.T) {
 func issueTestLicence(t *testing.T, st *store.Store, number string, allocated float64) {
 	t.Helper()
 	ctx := context.Background()
-	if err := st.PutCompany(ctx, store.Company{CompanyID: "XA-1", Name: "Invented Co"}, "test"); err != nil {
+	if err := st.PutCompany(ctx, store.Company{CompanyID: "XA-1", Name: "Invented Co"}); err != nil {
 		t.Fatal(err)
 	}
 	l := store.Licence{Number: number, CompanyID: "XA-1", Directions: []string{"import"},
 		ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC),
 		Status: "active", QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: string(substances.GroupCI), Unit: "odp-t", Allocated: allocated}}}
-	if err := st.IssueLicence(ctx, l, "test", "test licence"); err != nil {
+	if err := st.IssueLicence(ctx, l, "test licence"); err != nil {
 		t.Fatal(err)
 	}
 }
@@ -96,7 +96,7 @@ func TestLicenceAmendAndStatusRules(t *testing.T) {
 	ctx := context.Background()
 	issueTestLicence(t, st, "L-1", 1.0)
 	if err := st.IssueLicence(ctx, store.Licence{Number: "L-1", CompanyID: "XA-1", Directions: []string{"import"},
-		ValidFrom: time.Now(), ValidTo: time.Now(), Status: "active"}, "test", ""); !errors.Is(err, store.ErrAlreadyExists) {
+		ValidFrom: time.Now(), ValidTo: time.Now(), Status: "active"}, ""); !errors.Is(err, store.ErrAlreadyExists) {
 		t.Fatalf("issuing L-1 twice: err %v, want ErrAlreadyExists", err)
 	}
 	res, err := st.RecordShipments(ctx, []store.ShipmentRow{row("k1", store.ToNano(0.6))})
@@ -108,24 +108,24 @@ func TestLicenceAmendAndStatusRules(t *testing.T) {
 		t.Fatal(err)
 	}
 	l.QuotaLines[0].Allocated = 0.5 // below the 0.6 drawn
-	if err := st.AmendLicence(ctx, l, "test", "cut"); !errors.Is(err, store.ErrConflict) {
+	if err := st.AmendLicence(ctx, l, "cut"); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("amending below drawn: err %v, want ErrConflict", err)
 	}
 	l.QuotaLines[0].Allocated = 2
-	if err := st.AmendLicence(ctx, l, "test", "raise"); err != nil {
+	if err := st.AmendLicence(ctx, l, "raise"); err != nil {
 		t.Fatalf("raising the allocation: %v", err)
 	}
-	if err := st.SetLicenceStatus(ctx, "L-1", "revoked", "test", "x"); err != nil {
+	if err := st.SetLicenceStatus(ctx, "L-1", "revoked", "x"); err != nil {
 		t.Fatal(err)
 	}
-	if err := st.SetLicenceStatus(ctx, "L-1", "active", "test", "x"); !errors.Is(err, store.ErrConflict) {
+	if err := st.SetLicenceStatus(ctx, "L-1", "active", "x"); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("reinstating a revoked licence: err %v, want ErrConflict", err)
 	}
 	res, err = st.RecordShipments(ctx, []store.ShipmentRow{row("k2", store.ToNano(0.1))})
 	if err != nil || res[0].Status != store.RecordLicenceInactive {
 		t.Fatalf("recording on a revoked licence: %+v %v, want RecordLicenceInactive", res, err)
 	}
-	if err := st.SetLicenceStatus(ctx, "NOPE", "active", "test", "x"); !errors.Is(err, store.ErrNotFound) {
+	if err := st.SetLicenceStatus(ctx, "NOPE", "active", "x"); !errors.Is(err, store.ErrNotFound) {
 		t.Fatalf("unknown licence: err %v, want ErrNotFound", err)
 	}
 }

@@ -5,12 +5,10 @@ import (
 	"errors"
 	"fmt"
 	"log/slog"
-	"net"
 	"os"
 	"path/filepath"
 	"time"
 
-	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/spf13/pflag"
 
 	"github.com/halovet/halovet/pglocal"
@@ -117,9 +115,7 @@ func newLogger(format, level string) (*slog.Logger, error) {
 // databaseErr gives a database failure its exit code: 3 when the database cannot be
 // reached, 4 otherwise.
 func databaseErr(err error) error {
-	var ce *pgconn.ConnectError
-	var ne net.Error
-	if errors.As(err, &ce) || errors.As(err, &ne) {
+	if errors.Is(err, store.ErrUnavailable) {
 		return &exitError{code: exitUnreachable, err: err}
 	}
 	return &exitError{code: exitFailure, err: err}
