@@ -448,3 +448,86 @@ func Narrowed(env *validate.Env, keep func(*validate.Licence) bool) *validate.En
 	n.ShareIndexes(env)
 	return n
 }
+
+// WithBalancesOf returns an environment like live whose licences carry the amounts drawn
+// that before gives for them: the terms (status, scope, validity, directions, allocations)
+// are live's, the balances opened's. A recording stream judges each record against the
+// register as it stands, but against the balances as they stood when the stream opened:
+// its own earlier records are committed as it goes, and counting them again from the
+// live balance, or not, depending on when their announcement arrived, would make the same
+// file give different verdicts. The store draws every record under a row lock whatever the
+// check said, so no quota is overdrawn either way. A licence before does not know keeps
+// live's balance. live is not changed. PinnedBalances makes a before for a stream.
+func WithBalancesOf(live *validate.Env, before func(number string) (*validate.Licence, bool)) *validate.Env {
+	lookup := live.Licence
+	n := &validate.Env{
+		Catalogue:      live.Catalogue,
+		ReportingParty: live.ReportingParty,
+		Parties:        live.Parties,
+		Licence: func(number string) (*validate.Licence, bool) {
+			l, ok := lookup(number)
+			if !ok {
+				return nil, false
+			}
+			old, had := before(number)
+			if !had || old == l {
+				return l, true
+			}
+			c := *l
+			c.QuotaLines = make([]validate.QuotaLine, len(l.QuotaLines))
+			for i, q := range l.QuotaLines {
+				for _, o := range old.QuotaLines {
+					if o.LineNumber == q.LineNumber {
+						q.Drawn = o.Drawn
+						break
+					}
+				}
+				c.QuotaLines[i] = q
+			}
+			return &c, true
+		},
+		AllowedPercent:      live.AllowedPercent,
+		Now:                 live.Now,
+		FutureToleranceDays: live.FutureToleranceDays,
+	}
+	n.ShareIndexes(live)
+	return n
+}
+
+// PinnedBalances remembers each licence as a stream first sees it: its lookup returns the
+// licence as it was at that first sight, for WithBalancesOf. Safe for concurrent use.
+type PinnedBalances struct {
+	mu   sync.Mutex
+	seen map[string]*validate.Licence
+}
+
+// Pin records l under number unless a licence is already recorded under it.
+func (p *PinnedBalances) Pin(number string, l *validate.Licence) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if p.seen == nil {
+		p.seen = map[string]*validate.Licence{}
+	}
+	if _, ok := p.seen[number]; !ok {
+		p.seen[number] = l
+	}
+}
+
+// Lookup returns the licence pinned under number.
+func (p *PinnedBalances) Lookup(number string) (*validate.Licence, bool) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	l, ok := p.seen[number]
+	return l, ok
+}
+
+// View returns live with the balances pinned so far, pinning first every licence of
+// numbers that live holds and that is not pinned yet.
+func (p *PinnedBalances) View(live *validate.Env, numbers ...string) *validate.Env {
+	for _, n := range numbers {
+		if l, ok := live.Licence(n); ok {
+			p.Pin(n, l)
+		}
+	}
+	return WithBalancesOf(live, p.Lookup)
+}

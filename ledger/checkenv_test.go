@@ -430,3 +430,47 @@ func TestNarrowedHidesOtherCompaniesLicences(t *testing.T) {
 		t.Errorf("the shared environment changed: %v %v", v.Outcome, codes(v))
 	}
 }
+
+// TestPinnedBalancesKeepTheFirstSeenDrawnAmount: a recording stream's view keeps the amount
+// drawn as it first saw the licence (its own committed draws coming back through an
+// announcement do not count twice), while the licence's terms follow the register.
+// The figures are invented: 0.996 ODP t drawn of 1 allocated; HCFC-22 100 kg is 0.0055 ODP t
+// (ODP 0.055, Montreal Protocol Annex C Group I).
+func TestPinnedBalancesKeepTheFirstSeenDrawnAmount(t *testing.T) {
+	reg := newFakeRegister()
+	h := holder(t, reg)
+	var pinned ledger.PinnedBalances
+	r := hcfc22("K-1")
+	if v := validate.Check(pinned.View(current(t, h), "XA-IMP-1"), &r, nil); slices.Contains(codes(v), validate.CodeQuotaExceeded) {
+		t.Fatalf("first record against a fresh line: %v", codes(v))
+	}
+	// The stream's own draws (and others') come back as a higher balance, and the licence
+	// is suspended at the same time.
+	reg.update(func(f *fakeRegister) {
+		l := f.licences["XA-IMP-1"]
+		l.QuotaLines = []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: validate.QuotaODPTonnes, Allocated: 1, Drawn: 0.996}}
+		l.Status = validate.LicenceSuspended
+		f.licences["XA-IMP-1"] = l
+	})
+	if err := h.Refresh(context.Background(), ledger.Change{Licences: []string{"XA-IMP-1"}}); err != nil {
+		t.Fatal(err)
+	}
+	live := current(t, h)
+	view := pinned.View(live, "XA-IMP-1")
+	l, ok := view.Licence("XA-IMP-1")
+	if !ok || l.QuotaLines[0].Drawn != 0 || l.Status != validate.LicenceSuspended {
+		t.Fatalf("view of XA-IMP-1: %+v, %v; want the first-seen balance 0 and the live status suspended", l, ok)
+	}
+	if ll, _ := live.Licence("XA-IMP-1"); ll.QuotaLines[0].Drawn != 0.996 {
+		t.Errorf("the live environment changed: drawn %v; want 0.996", ll.QuotaLines[0].Drawn)
+	}
+	r = hcfc22("K-2")
+	v := validate.Check(view, &r, nil)
+	if slices.Contains(codes(v), validate.CodeQuotaExceeded) || !slices.Contains(codes(v), validate.CodeLicenceInactive) {
+		t.Errorf("second record: %v; want %s (live terms) and no %s (pinned balance)", codes(v), validate.CodeLicenceInactive, validate.CodeQuotaExceeded)
+	}
+	// A licence first seen later is pinned as it is then.
+	if l, _ := pinned.View(live, "XA-IMP-2").Licence("XA-IMP-2"); l == nil || l.Number != "XA-IMP-2" {
+		t.Errorf("XA-IMP-2 not found through the view")
+	}
+}

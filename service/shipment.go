@@ -260,6 +260,8 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 	if _, err := x.srv.checkEnv(ctx); err != nil {
 		return err
 	}
+	// Balances as the stream first saw each licence (see ledger.WithBalancesOf).
+	var pinned ledger.PinnedBalances
 	recv := make(chan incoming, recordFlushSize)
 	recvErr := make(chan error, 1)
 	go func() {
@@ -390,7 +392,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 		}
 		p := &pendingRecord{pb: in.pb, single: in.single, rec: recordFromProto(in.pb)}
 		// Quota is drawn by the store under lock, not by an in-memory ledger.
-		p.verdict = validate.Check(env, &p.rec, nil)
+		p.verdict = validate.Check(pinned.View(env, strings.TrimSpace(p.rec.LicenceNumber)), &p.rec, nil)
 		if k := recordKey(&p.rec); k[1] != "" {
 			p.keyHash, p.hasKey = seen.Hash(k[0], k[1]), true
 			fp := seen.HashString(p.verdict.Fingerprint)
