@@ -13,7 +13,9 @@ import (
 	"github.com/halovet/halovet/store"
 )
 
-const errorDomain = "halovet.dev"
+// errorDomain is the google.rpc.ErrorInfo domain of halovet's error reasons: the proto
+// package of its API, a name the project owns (it registers no internet domain).
+const errorDomain = "halovet.v1"
 
 // fieldViolation is one bad field of a request.
 type fieldViolation struct{ field, why string }
@@ -45,6 +47,7 @@ func invalid(vs ...fieldViolation) error {
 //	store.ErrConflict      FailedPrecondition (ErrorInfo CONFLICT)
 //	store.ErrRetryable     Aborted            retry the call
 //	store.ErrUnavailable   Unavailable        retry with backoff
+//	store.ErrTimeout       DeadlineExceeded   the statement_timeout fired
 //	context errors         Canceled, DeadlineExceeded
 //	anything else          Internal
 func toStatus(ctx context.Context, log *slog.Logger, err error) error {
@@ -72,6 +75,9 @@ func toStatus(ctx context.Context, log *slog.Logger, err error) error {
 	case errors.Is(err, store.ErrUnavailable):
 		log.ErrorContext(ctx, "database unavailable", "err", err)
 		return status.Error(codes.Unavailable, "the database is not available; retry with backoff")
+	case errors.Is(err, store.ErrTimeout):
+		log.WarnContext(ctx, "database statement timed out", "err", err)
+		return status.Error(codes.DeadlineExceeded, "the database statement ran past its time limit (serve --statement-timeout); narrow the request or retry later")
 	case errors.Is(err, store.ErrRetryable):
 		log.WarnContext(ctx, "transaction lost a race", "err", err)
 		return status.Error(codes.Aborted, "the transaction lost a race with another; retry")

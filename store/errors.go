@@ -32,6 +32,9 @@ var (
 	// (connection refused or lost, server shutting down, too many connections). Nothing
 	// is known to have been committed by the statement that failed; retry with backoff.
 	ErrUnavailable = errors.New("the database is not available")
+	// ErrTimeout: the database cancelled a statement that ran longer than its
+	// statement_timeout (SQLSTATE 57014 without a cancellation from this process).
+	ErrTimeout = errors.New("the database statement ran past its time limit")
 )
 
 // dbError is a database error given its kind. Error is the database's own text (it may
@@ -68,7 +71,7 @@ func classify(err error, what, key string) error {
 // kindOf returns the kind of a database error (one of the Err values), or nil when err
 // is of none of them. It reads SQLSTATE codes, never message texts.
 func kindOf(err error) error {
-	for _, k := range []error{ErrNotFound, ErrAlreadyExists, ErrConflict, ErrRetryable, ErrUnavailable} {
+	for _, k := range []error{ErrNotFound, ErrAlreadyExists, ErrConflict, ErrRetryable, ErrUnavailable, ErrTimeout} {
 		if errors.Is(err, k) {
 			return k
 		}
@@ -90,6 +93,8 @@ func kindOf(err error) error {
 			return ErrConflict
 		case pg.Code == "40001" || pg.Code == "40P01": // serialization_failure, deadlock_detected
 			return ErrRetryable
+		case pg.Code == "57014": // query_canceled: statement_timeout (a context cancel is caught above)
+			return ErrTimeout
 		case strings.HasPrefix(pg.Code, "08"), // connection exceptions
 			pg.Code == "57P01",                           // admin_shutdown (pg_terminate_backend, fast shutdown)
 			pg.Code == "57P02",                           // crash_shutdown

@@ -56,7 +56,7 @@ func seedLicence(t *testing.T, st *Store) {
 
 func wantKind(t *testing.T, what string, err, kind error) {
 	t.Helper()
-	others := []error{ErrNotFound, ErrAlreadyExists, ErrConflict, ErrRetryable, ErrUnavailable}
+	others := []error{ErrNotFound, ErrAlreadyExists, ErrConflict, ErrRetryable, ErrUnavailable, ErrTimeout}
 	if !errors.Is(err, kind) {
 		t.Fatalf("%s: err %v, want %v", what, err, kind)
 	}
@@ -275,5 +275,32 @@ func TestConcurrentReportingPartiesSerialise(t *testing.T) {
 		if err := st.pool.QueryRow(ctx, `SELECT count(*) FROM parties WHERE reporting_party`).Scan(&n); err != nil || n != 1 {
 			t.Fatalf("round %d: %d reporting parties (err %v), want 1", round, n, err)
 		}
+	}
+}
+
+// TestStatementTimeoutIsTimeout: a statement PostgreSQL cancels for its statement_timeout
+// (SQLSTATE 57014) is ErrTimeout, not an unclassified (Internal) error; a cancellation by
+// the caller's own context stays a context error.
+func TestStatementTimeoutIsTimeout(t *testing.T) {
+	t.Parallel()
+	_, url := openInternal(t)
+	st, err := OpenWith(context.Background(), url, OpenOptions{StatementTimeout: 100 * time.Millisecond})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	_, err = st.pool.Exec(context.Background(), `SELECT pg_sleep(10)`)
+	wantKind(t, "pg_sleep past statement_timeout", classified(err), ErrTimeout)
+
+	ctx, cancel := context.WithTimeout(context.Background(), 100*time.Millisecond)
+	defer cancel()
+	def, err := Open(context.Background(), url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer def.Close()
+	_, err = def.pool.Exec(ctx, `SELECT pg_sleep(10)`)
+	if err = classified(err); errors.Is(err, ErrTimeout) || !errors.Is(err, context.DeadlineExceeded) {
+		t.Errorf("caller's deadline: %v; want a context deadline error, not ErrTimeout", err)
 	}
 }
