@@ -1456,7 +1456,7 @@ var File_halovet_v1_shipment_proto protoreflect.FileDescriptor
 const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\n" +
 	"\x19halovet/v1/shipment.proto\x12\n" +
-	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x1ahalovet/v1/catalogue.proto\x1a\x19halovet/v1/analysis.proto\"\x91\a\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x19halovet/v1/analysis.proto\x1a\x1ahalovet/v1/catalogue.proto\"\x91\a\n" +
 	"\x0eShipmentRecord\x12\x1d\n" +
 	"\n" +
 	"record_key\x18\x01 \x01(\tR\trecordKey\x12\x1f\n" +
@@ -1676,8 +1676,8 @@ func file_halovet_v1_shipment_proto_init() {
 	if File_halovet_v1_shipment_proto != nil {
 		return
 	}
-	file_halovet_v1_catalogue_proto_init()
 	file_halovet_v1_analysis_proto_init()
+	file_halovet_v1_catalogue_proto_init()
 	file_halovet_v1_shipment_proto_msgTypes[9].OneofWrappers = []any{
 		(*CheckShipmentsResponse_Verdict)(nil),
 		(*CheckShipmentsResponse_Summary)(nil),
