@@ -54,9 +54,15 @@ func (s *Server) ServeHTTPAPI(ctx context.Context, lis net.Listener, certFile, k
 	if err != nil {
 		return err
 	}
+	// Bodies are bounded by the gRPC message limits the calls go through; the connection
+	// itself by these: headers in 10 s and 64 KiB, a request read in the unary deadline, an
+	// idle keep-alive connection closed after the idle limit.
 	hs := &http.Server{
 		Handler:           h,
 		ReadHeaderTimeout: 10 * time.Second,
+		MaxHeaderBytes:    64 << 10,
+		ReadTimeout:       s.limits.UnaryDeadline,
+		IdleTimeout:       s.limits.ConnIdle,
 		ErrorLog:          slog.NewLogLogger(s.log.Handler(), slog.LevelWarn),
 	}
 	done := make(chan error, 1)
