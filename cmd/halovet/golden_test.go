@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 )
@@ -51,6 +52,9 @@ func TestGoldenVerbOutputs(t *testing.T) {
 					checkJSONOutput(t, stdout)
 				case "csv":
 					checkCSVOutput(t, stdout)
+				}
+				if m := floatNoise.FindString(stdout); m != "" {
+					t.Errorf("halovet %s --output %s shows binary floating-point noise: %q", tc.name, f, m)
 				}
 				compareVerbGolden(t, filepath.Join("testdata", "golden", tc.name+"."+ext), stdout)
 			})
@@ -120,6 +124,22 @@ func compareVerbGolden(t *testing.T, path, got string) {
 			if g != w {
 				t.Fatalf("%s differs at line %d:\n got: %s\nwant: %s\n(if intended: go test ./cmd/halovet -run GoldenVerb -update, and review the diff)", path, i+1, g, w)
 			}
+		}
+	}
+}
+
+// floatNoise matches a decimal that binary floating point garbled: a run of seven or more
+// zeros or nines deep in the fraction, after a significant digit (0.8999999999999986,
+// 14.344000000000001). Exact small amounts such as 0.0000000005 do not match.
+var floatNoise = regexp.MustCompile(`\d\.\d*[1-9]0{7,}[1-9]|\d\.\d*9{7,}\d`)
+
+func TestFloatNoisePattern(t *testing.T) {
+	for s, want := range map[string]bool{
+		"0.8999999999999986": true, "14.344000000000001": true, "102.03000000000002": true,
+		"0.0000000005": false, "250000": false, "10.860507": false, "0.99": false,
+	} {
+		if got := floatNoise.MatchString(s); got != want {
+			t.Errorf("floatNoise on %q = %v; want %v", s, got, want)
 		}
 	}
 }

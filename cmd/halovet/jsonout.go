@@ -25,8 +25,9 @@ import (
 //   - enums are lower-case words joined by hyphens, without the type's prefix
 //     (QUOTA_UNIT_CO2E_TONNES is "co2e-tonnes", OUTCOME_ACCEPTED_WITH_WARNINGS is
 //     "accepted-with-warnings");
-//   - integers of every size are JSON numbers; doubles are the shortest decimal that
-//     reads back as the same number;
+//   - integers of every size are JSON numbers; doubles are decimals rounded to 12
+//     significant digits and written without trailing zeros (decimalText), so binary
+//     floating-point noise such as 0.8999999999999986 reads 0.9;
 //   - fields come in .proto order, map entries by key; a document is indented by two
 //     spaces; a JSON Lines record is one line.
 
@@ -168,7 +169,29 @@ func writeFloat(b *bytes.Buffer, f float64, bits int) {
 		writeString(b, fmt.Sprint(f)) // JSON has no number for these
 		return
 	}
-	b.WriteString(strconv.FormatFloat(f, 'f', -1, bits))
+	if bits == 32 {
+		f = float64(float32(f))
+	}
+	b.WriteString(decimalText(f))
+}
+
+// displayDigits is the number of significant digits figures are shown with. The
+// register's figures are exact to 9 decimals of a kilogram and tonnages to 12 digits
+// at most, so 12 significant digits keep every digit that means something and drop the
+// noise that binary floating point adds to sums (10.860506999999998 is 10.860507).
+const displayDigits = 12
+
+// decimalText is v rounded to displayDigits significant digits, in plain decimal notation
+// without trailing zeros and without "-0".
+func decimalText(v float64) string {
+	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
+		return strconv.FormatFloat(math.Abs(v), 'f', -1, 64)
+	}
+	r, _ := strconv.ParseFloat(strconv.FormatFloat(v, 'g', displayDigits, 64), 64)
+	if r == 0 {
+		return "0"
+	}
+	return strconv.FormatFloat(r, 'f', -1, 64)
 }
 
 func writeString(b *bytes.Buffer, s string) {

@@ -67,7 +67,7 @@ func writeProtoJSON(w io.Writer, m proto.Message) error {
 // the full value.
 func fmtTonnes(v float64) string { return fmtFixed(v, 3) }
 func fmtCO2e(v float64) string   { return fmtFixed(v, 0) }
-func fmtFull(v float64) string   { return strconv.FormatFloat(v, 'f', -1, 64) }
+func fmtFull(v float64) string   { return decimalText(v) }
 
 // fmtFixed rounds to d decimals and never prints "-0".
 func fmtFixed(v float64, d int) string {
