@@ -202,7 +202,7 @@ type readComp struct {
 //
 // A component the reading does not list is read as 0 with the reading-wide uncertainty;
 // uncertainties are renormalised with the shares. Blends whose tolerances the catalogue does
-// not record (the azeotropes of the source used) are matched on the reading's uncertainty
+// not record (the older azeotropes) are matched on the reading's uncertainty
 // alone. When nothing fits, each component of at most MinorComponentPct is set aside in turn,
 // then all of them together: an entry that fits the rest makes the reading contaminated,
 // else it is mixed. The declared net mass is taken as refrigerant: the figures of hidden

@@ -52,10 +52,12 @@ func TestAnalyseRecognisesStandardBlends(t *testing.T) {
 		// R-410A: HFC-32/125 50/50, tolerance +0.5/-1.5 and +1.5/-0.5 (ASHRAE 34-2019).
 		{"R-410A nominal", "R-410A", []MeasuredShare{{"R-32", 50, 0}, {"R-125", 50, 0}}},
 		{"R-410A low end", "R-410A", []MeasuredShare{{"R-32", 49, 0}, {"R-125", 51, 0}}},
-		// R-507A: HFC-125/143a 50/50 (ASHRAE 34-2019); the catalogue's source records no
-		// tolerance for this azeotrope, so only the reading's uncertainty widens the band.
+		// R-507A: HFC-125/143a 50/50 (ASHRAE 34-2019), tolerance +1.5/-0.5 and +0.5/-1.5
+		// (ASHRAE 34, from memory); with the reading's ±0.5 the bands are HFC-125 49 … 52 and
+		// HFC-143a 48 … 51.
 		{"R-507A nominal", "R-507A", []MeasuredShare{{"HFC-125", 50, 0}, {"HFC-143a", 50, 0}}},
 		{"R-507A within uncertainty", "R-507A", []MeasuredShare{{"HFC-125", 50.4, 0}, {"HFC-143a", 49.6, 0}}},
+		{"R-507A near its tolerance", "R-507A", []MeasuredShare{{"HFC-125", 51.8, 0}, {"HFC-143a", 48.2, 0}}},
 		// Identified by CAS number (HFC-125 354-33-6, HFC-143a 420-46-2: CAS Registry, as IPCC
 		// AR6 WG1 Table 7.SM.7 lists them).
 		{"R-507A by CAS", "R-507A", []MeasuredShare{{"354-33-6", 50, 0}, {"420-46-2", 50, 0}}},
@@ -118,9 +120,9 @@ func TestAnalyseNearIdenticalBlends(t *testing.T) {
 		t.Errorf("fits %v; want only R-410A", f)
 	}
 
-	// R-404A 44/52/4 (±2, ±1, ±2) and R-507A 50/50 (no tolerance recorded), ASHRAE 34-2019.
-	// 47/51/2 ± 3: R-404A HFC-125 band 39 … 49, R-507A HFC-125 band 47 … 53 and HFC-134a
-	// (absent from R-507A) −3 … 3.
+	// R-404A 44/52/4 (±2, ±1, ±2), ASHRAE 34-2019, and R-507A 50/50 (+1.5/-0.5, +0.5/-1.5,
+	// ASHRAE 34 from memory). 47/51/2 ± 3: R-404A HFC-125 band 39 … 49, R-507A HFC-125 band
+	// 46.5 … 54.5 and HFC-134a (absent from R-507A) −3 … 3.
 	a = mustAnalyse(t, Reading{Components: []MeasuredShare{{"HFC-125", 47, 0}, {"HFC-143a", 51, 0}, {"HFC-134a", 2, 0}}, Uncertainty: 3}, AnalysisOptions{})
 	if f := fitNames(a); !containsName(f, "R-404A") || !containsName(f, "R-507A") {
 		t.Errorf("fits %v; want both R-404A and R-507A", f)
@@ -302,5 +304,23 @@ func TestAnalyseRenormalises(t *testing.T) {
 	}
 	if a.NonCondensableNote != "" {
 		t.Errorf("0.5 %% air flagged: %q", a.NonCondensableNote)
+	}
+}
+
+// An azeotrope's tolerance is asymmetric like a zeotrope's: R-507A HFC-125 +1.5/-0.5 (ASHRAE 34,
+// from memory). With a reading uncertainty of ±0.1 the HFC-125 band is 49.4 … 51.6: 51.5 %
+// fits and 49.2 % does not (0.2 below), although it lies nearer the nominal 50.
+func TestAnalyseAzeotropeTolerance(t *testing.T) {
+	in := mustAnalyse(t, Reading{Components: []MeasuredShare{{"HFC-125", 51.5, 0}, {"HFC-143a", 48.5, 0}}, Uncertainty: 0.1}, AnalysisOptions{Declared: "R-507A"})
+	if !in.DeclaredFits {
+		t.Errorf("R-507A at 51.5/48.5 does not fit: %s", in.Summary)
+	}
+	out := mustAnalyse(t, Reading{Components: []MeasuredShare{{"HFC-125", 49.2, 0}, {"HFC-143a", 50.8, 0}}, Uncertainty: 0.1}, AnalysisOptions{Declared: "R-507A"})
+	if out.DeclaredFits {
+		t.Fatalf("R-507A at 49.2/50.8 fits; HFC-125 lies below its -0.5 tolerance: %s", out.Summary)
+	}
+	// HFC-125 0.2 below 49.4, HFC-143a 0.2 above 50.6: excess √(0.2² + 0.2²).
+	if want := math.Sqrt(0.08); math.Abs(out.Declared.Excess-want) > 1e-9 {
+		t.Errorf("excess %v, want %v", out.Declared.Excess, want)
 	}
 }

@@ -222,7 +222,10 @@ func TestReferenceBlends(t *testing.T) {
 				if !sameNumber(pcts[k], got.MassPct, true) {
 					t.Errorf("%s: %s %% in the reference, %g in the catalogue", cname, pcts[k], got.MassPct)
 				}
-				if got.TolPlus != plus[k] || got.TolMinus != minus[k] {
+				if tolerancesFromMemory(row["tol_plus"], b) {
+					// The reference (ASHRAE 34-2019 as transcribed) gives no tolerance for this
+					// azeotrope; the catalogue's come from memory and its sources say so.
+				} else if got.TolPlus != plus[k] || got.TolMinus != minus[k] {
 					t.Errorf("%s tolerances +%g/-%g, reference +%g/-%g", cname, got.TolPlus, got.TolMinus, plus[k], minus[k])
 				}
 			}
@@ -287,7 +290,8 @@ func TestReferenceBlends(t *testing.T) {
 				found = true
 				tp := parseTolerances(t, row["tol_plus"], 1)[0]
 				tm := parseTolerances(t, row["tol_minus"], 1)[0]
-				if !sameNumber(row["mass_pct"], comp.MassPct, true) || comp.TolPlus != tp || comp.TolMinus != tm {
+				tolOK := (comp.TolPlus == tp && comp.TolMinus == tm) || tolerancesFromMemory(row["tol_plus"], b)
+				if !sameNumber(row["mass_pct"], comp.MassPct, true) || !tolOK {
 					t.Errorf("blend_components.csv line %d: %s in %s %s%% +%g/-%g, catalogue %g%% +%g/-%g", llines[i], row["component"], row["blend"], row["mass_pct"], tp, tm, comp.MassPct, comp.TolPlus, comp.TolMinus)
 				}
 			}
@@ -489,4 +493,11 @@ func TestReferenceReadme(t *testing.T) {
 			t.Errorf("source code %q (%s) is not explained in README.md", code, where)
 		}
 	}
+}
+
+// tolerancesFromMemory reports whether a reference row without tolerances (refTol empty) meets
+// a catalogue blend whose tolerances are recorded from memory: the only case where the two may
+// differ. A blend with tolerances and no such source still fails the comparison.
+func tolerancesFromMemory(refTol string, b *Blend) bool {
+	return strings.TrimSpace(refTol) == "" && strings.Contains(b.Sources, "composition tolerances of the 500-series azeotropes")
 }
