@@ -11,6 +11,7 @@ import (
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/validate"
 )
 
 var countryCodeRE = regexp.MustCompile(`^[A-Z]{2}$`)
@@ -177,9 +178,13 @@ func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool) (
 		switch {
 		case q.GetAnnexGroup() != "" && q.GetSubstance() != "":
 			vs = append(vs, fieldViolation{f, "give annex_group or substance, not both"})
+		case q.GetAnnexGroup() == validate.WholeAnnexF:
+			if q.GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES {
+				vs = append(vs, fieldViolation{f + ".unit", "a line for Annex F as a whole counts CO2-eq tonnes (Article 2J); use CO2E_TONNES, or a line per group"})
+			}
 		case q.GetAnnexGroup() != "":
 			if !validGroup(q.GetAnnexGroup()) {
-				vs = append(vs, fieldViolation{f + ".annex_group", fmt.Sprintf("%q is not an Annex group (A/I ... F/II)", q.GetAnnexGroup())})
+				vs = append(vs, fieldViolation{f + ".annex_group", fmt.Sprintf("%q is not an Annex group (A/I ... F/II) nor F (Annex F as a whole)", q.GetAnnexGroup())})
 			}
 		case q.GetSubstance() != "":
 			s, ok := cat.Substance(q.GetSubstance())
@@ -196,6 +201,14 @@ func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool) (
 			vs = append(vs, fieldViolation{f + ".unit", "must be METRIC_TONNES, ODP_TONNES or CO2E_TONNES"})
 		}
 		line.Unit = u
+		for j, qp := range q.GetPurposes() {
+			t, ok := purposeText[qp]
+			if !ok {
+				vs = append(vs, fieldViolation{fmt.Sprintf("%s.purposes[%d]", f, j), "unspecified purpose; name the use the line is an allowance for (e.g. PURPOSE_CRITICAL_USE)"})
+				continue
+			}
+			line.Purposes = append(line.Purposes, t)
+		}
 		if q.GetAllocated() < 0 || q.GetAllocated() > maxAllocation || math.IsNaN(q.GetAllocated()) {
 			vs = append(vs, fieldViolation{f + ".allocated", fmt.Sprintf("must be between 0 and %g in the line's unit", maxAllocation)})
 		}
@@ -219,7 +232,7 @@ func licenceToProto(l store.Licence) *halovetv1.Licence {
 	for _, q := range l.QuotaLines {
 		p.QuotaLines = append(p.QuotaLines, &halovetv1.QuotaLine{LineNumber: int32(q.LineNumber), AnnexGroup: q.AnnexGroup,
 			Substance: q.Substance, Unit: quotaUnitEnum[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn,
-			Remaining: q.Allocated - q.Drawn})
+			Remaining: q.Allocated - q.Drawn, Purposes: purposesToProto(q.Purposes)})
 	}
 	return p
 }
@@ -290,4 +303,12 @@ func (l *licensingServer) ListLicences(ctx context.Context, req *halovetv1.ListL
 		out.Licences = append(out.Licences, licenceToProto(x))
 	}
 	return out, nil
+}
+
+func purposesToProto(ps []string) []halovetv1.Purpose {
+	var out []halovetv1.Purpose
+	for _, p := range ps {
+		out = append(out, purposeEnum[p])
+	}
+	return out
 }

@@ -178,8 +178,17 @@ func toValidateLicence(l store.Licence) validate.Licence {
 		}
 	}
 	for _, q := range l.QuotaLines {
-		v.QuotaLines = append(v.QuotaLines, validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
-			Substance: q.Substance, Unit: validateUnit[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn})
+		line := validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
+			Substance: q.Substance, Unit: validateUnit[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn}
+		if q.AnnexGroup == validate.WholeAnnexF {
+			line.Group, line.Annex = substances.GroupNone, validate.WholeAnnexF
+		}
+		for _, p := range q.Purposes {
+			if x, err := validate.ParsePurpose(p); err == nil {
+				line.Purposes = append(line.Purposes, x)
+			}
+		}
+		v.QuotaLines = append(v.QuotaLines, line)
 	}
 	return v
 }

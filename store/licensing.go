@@ -32,7 +32,8 @@ type QuotaLine struct {
 	LineNumber int
 	AnnexGroup string
 	Substance  string
-	Unit       string // "metric-t", "odp-t", "co2e-t"
+	Unit       string   // "metric-t", "odp-t", "co2e-t"
+	Purposes   []string // the declared purposes the line serves (wire names); empty: every purpose
 	Allocated  float64
 	Drawn      float64
 }
@@ -177,8 +178,8 @@ func (s *Store) IssueLicence(ctx context.Context, l Licence, reason string) erro
 		}
 		for _, q := range l.QuotaLines {
 			if _, err := tx.Exec(ctx, `INSERT INTO quota_lines (licence_number, line_number, annex_group,
-			    substance, unit, allocated) VALUES ($1, $2, $3, $4, $5, $6)`,
-				l.Number, q.LineNumber, q.AnnexGroup, q.Substance, q.Unit, q.Allocated); err != nil {
+			    substance, unit, allocated, purposes) VALUES ($1, $2, $3, $4, $5, $6, $7)`,
+				l.Number, q.LineNumber, q.AnnexGroup, q.Substance, q.Unit, q.Allocated, nonNil(q.Purposes)); err != nil {
 				return classify(err, "quota line of licence", l.Number)
 			}
 		}
@@ -234,11 +235,12 @@ func (s *Store) AmendLicence(ctx context.Context, l Licence, reason string) erro
 				return fmt.Errorf("licence %q line %d: allocation %g is below the %g already drawn: %w",
 					l.Number, q.LineNumber, q.Allocated, o.Drawn, ErrConflict)
 			}
-			if _, err := tx.Exec(ctx, `INSERT INTO quota_lines (licence_number, line_number, annex_group, substance, unit, allocated)
-			    VALUES ($1, $2, $3, $4, $5, $6)
+			if _, err := tx.Exec(ctx, `INSERT INTO quota_lines (licence_number, line_number, annex_group, substance, unit, allocated, purposes)
+			    VALUES ($1, $2, $3, $4, $5, $6, $7)
 			    ON CONFLICT (licence_number, line_number) DO UPDATE SET annex_group = EXCLUDED.annex_group,
-			      substance = EXCLUDED.substance, unit = EXCLUDED.unit, allocated = EXCLUDED.allocated`,
-				l.Number, q.LineNumber, q.AnnexGroup, q.Substance, q.Unit, q.Allocated); err != nil {
+			      substance = EXCLUDED.substance, unit = EXCLUDED.unit, allocated = EXCLUDED.allocated,
+			      purposes = EXCLUDED.purposes`,
+				l.Number, q.LineNumber, q.AnnexGroup, q.Substance, q.Unit, q.Allocated, nonNil(q.Purposes)); err != nil {
 				return classify(err, "quota line of licence", l.Number)
 			}
 		}
@@ -329,7 +331,7 @@ func (s *Store) queryLicences(ctx context.Context, sql string, args ...any) (_ [
 		nums[i] = l.Number
 	}
 	rows, err = s.pool.Query(ctx, `SELECT licence_number, line_number, annex_group, substance, unit,
-	    allocated::float8, drawn::float8 FROM quota_lines WHERE licence_number = ANY($1)
+	    purposes, allocated::float8, drawn::float8 FROM quota_lines WHERE licence_number = ANY($1)
 	    ORDER BY licence_number, line_number`, nums)
 	if err != nil {
 		return nil, err
@@ -338,7 +340,7 @@ func (s *Store) queryLicences(ctx context.Context, sql string, args ...any) (_ [
 	for rows.Next() {
 		var n string
 		var q QuotaLine
-		if err := rows.Scan(&n, &q.LineNumber, &q.AnnexGroup, &q.Substance, &q.Unit, &q.Allocated, &q.Drawn); err != nil {
+		if err := rows.Scan(&n, &q.LineNumber, &q.AnnexGroup, &q.Substance, &q.Unit, &q.Purposes, &q.Allocated, &q.Drawn); err != nil {
 			return nil, err
 		}
 		out[idx[n]].QuotaLines = append(out[idx[n]].QuotaLines, q)

@@ -145,7 +145,7 @@ func TestDrawAndPlanDraws(t *testing.T) {
 		}
 	}
 	lic := &Licence{Number: "L", QuotaLines: []QuotaLine{lines[1], lines[0], lines[4]}}
-	draws, uncovered := PlanDraws(lic, fig)
+	draws, uncovered := PlanDraws(lic, fig, PurposeUnspecified)
 	if len(uncovered) != 0 || len(draws) != 2 {
 		t.Fatalf("PlanDraws = %+v, uncovered %+v; want HFC-125 on line 1 and HCFC-22 on the substance line 5", draws, uncovered)
 	}
@@ -153,7 +153,7 @@ func TestDrawAndPlanDraws(t *testing.T) {
 		t.Errorf("PlanDraws = %+v; a substance line must win over the group line", draws)
 	}
 	lic = &Licence{Number: "L", QuotaLines: []QuotaLine{lines[0]}}
-	if _, uncovered := PlanDraws(lic, fig); len(uncovered) != 1 || uncovered[0].Designation != "HCFC-22" {
+	if _, uncovered := PlanDraws(lic, fig, PurposeUnspecified); len(uncovered) != 1 || uncovered[0].Designation != "HCFC-22" {
 		t.Errorf("uncovered = %+v; want HCFC-22 (R-290 is not controlled and needs no line)", uncovered)
 	}
 }

@@ -3,6 +3,7 @@ package validate
 import (
 	"errors"
 	"fmt"
+	"slices"
 	"sync"
 	"time"
 
@@ -120,15 +121,29 @@ func (u QuotaUnit) String() string {
 	return quotaUnitNames[u]
 }
 
-// QuotaLine is one quota of a licence. Its scope is one Annex group, or one substance when
-// Substance is set (a substance line is more specific than a group line).
+// QuotaLine is one quota of a licence. Its scope is one substance (Substance), one Annex group
+// (Group) or a whole Annex (Annex, only "F": the HFC phase-down of Article 2J counts Annex F's
+// two groups together in CO2-eq tonnes); a substance line is more specific than a group line,
+// a group line than an Annex line. A line with Purposes draws only shipments declaring one of
+// them (an allowance for an exempted use, for example critical uses of methyl bromide) and is
+// preferred to a line without.
 type QuotaLine struct {
 	LineNumber int
-	Group      substances.Group // scope by Annex group; empty when Substance is set
-	Substance  string           // scope by substance designation; empty for a group line
+	Group      substances.Group // scope by Annex group; empty when Substance or Annex is set
+	Annex      string           // scope by a whole Annex ("F"); empty otherwise
+	Substance  string           // scope by substance designation; empty for a group or Annex line
+	Purposes   []Purpose        // the declared purposes the line serves; empty: every purpose
 	Unit       QuotaUnit
 	Allocated  float64 // in Unit
 	Drawn      float64 // in Unit, by shipments already recorded
+}
+
+// WholeAnnexF is the one Annex a quota line may cover as a whole.
+const WholeAnnexF = "F"
+
+// Serves reports whether the line may be drawn by a shipment declaring purpose p.
+func (l QuotaLine) Serves(p Purpose) bool {
+	return len(l.Purposes) == 0 || slices.Contains(l.Purposes, p)
 }
 
 // Licence is an import or export licence with its quota lines.

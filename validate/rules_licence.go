@@ -51,10 +51,25 @@ const quotaEpsilon = 5e-10
 // InScope reports whether a component falls in a quota line's scope: the line's substance
 // (by catalogue designation, case-insensitive) or, for a group line, the line's Annex group.
 func InScope(line QuotaLine, comp substances.ComponentFigures) bool {
-	if line.Substance != "" {
+	switch {
+	case line.Substance != "":
 		return strings.EqualFold(line.Substance, comp.Designation)
+	case line.Annex != "":
+		return comp.Group.Controlled() && comp.Group.Annex() == line.Annex
 	}
 	return line.Group.Controlled() && comp.Group == line.Group
+}
+
+// specificity ranks a line's scope: a substance line (3) before a group line (2) before an
+// Annex line (1).
+func (l QuotaLine) specificity() int {
+	switch {
+	case l.Substance != "":
+		return 3
+	case l.Annex != "":
+		return 1
+	}
+	return 2
 }
 
 // componentDraw is what one component draws in a unit.
@@ -85,12 +100,14 @@ func Draw(line QuotaLine, fig Figures) float64 {
 	return sum
 }
 
-// bestLine picks the quota line a component draws on: a substance line before a group line,
-// then the lowest line number. It returns -1 when no line covers the component.
-func bestLine(lic *Licence, comp substances.ComponentFigures) int {
+// bestLine picks the quota line a component of a shipment declaring purpose p draws on: among
+// the lines in scope that serve p, a line limited to purposes before one that is not, then a
+// substance line before a group line before an Annex line, then the lowest line number. It
+// returns -1 when no line covers the component.
+func bestLine(lic *Licence, comp substances.ComponentFigures, p Purpose) int {
 	best := -1
 	for i, l := range lic.QuotaLines {
-		if !InScope(l, comp) {
+		if !InScope(l, comp) || !l.Serves(p) {
 			continue
 		}
 		if best < 0 {
@@ -98,24 +115,33 @@ func bestLine(lic *Licence, comp substances.ComponentFigures) int {
 			continue
 		}
 		b := lic.QuotaLines[best]
-		if (l.Substance != "" && b.Substance == "") ||
-			((l.Substance != "") == (b.Substance != "") && l.LineNumber < b.LineNumber) {
+		lp, bp := len(l.Purposes) > 0, len(b.Purposes) > 0
+		switch {
+		case lp != bp:
+			if lp {
+				best = i
+			}
+		case l.specificity() != b.specificity():
+			if l.specificity() > b.specificity() {
+				best = i
+			}
+		case l.LineNumber < b.LineNumber:
 			best = i
 		}
 	}
 	return best
 }
 
-// PlanDraws assigns each controlled component of a shipment to one quota line of the licence
-// (a substance line before a group line, then the lowest line number) and sums the draws per
-// line, in line-number order. Components no line covers are returned as uncovered. The draws
-// equal Draw(line, fig) whenever no two lines of the licence overlap.
-func PlanDraws(lic *Licence, fig Figures) (draws []LineDraw, uncovered []substances.ComponentFigures) {
+// PlanDraws assigns each controlled component of a shipment declaring purpose p to one quota
+// line of the licence (see bestLine) and sums the draws per line, in line-number order.
+// Components no line covers are returned as uncovered. The draws equal Draw(line, fig)
+// whenever no two lines of the licence overlap.
+func PlanDraws(lic *Licence, fig Figures, p Purpose) (draws []LineDraw, uncovered []substances.ComponentFigures) {
 	for _, comp := range fig.Components {
 		if !comp.Group.Controlled() {
 			continue
 		}
-		i := bestLine(lic, comp)
+		i := bestLine(lic, comp, p)
 		if i < 0 {
 			uncovered = append(uncovered, comp)
 			continue
@@ -154,8 +180,18 @@ func (lic *Licence) coversDirection(d Direction) bool {
 	return false
 }
 
+// allowsPurpose reports whether the licence authorises purpose p: it lists p among its special
+// purposes, or one of its quota lines is an allowance limited to p.
 func (lic *Licence) allowsPurpose(p Purpose) bool {
-	return slices.Contains(lic.SpecialPurposes, p)
+	if slices.Contains(lic.SpecialPurposes, p) {
+		return true
+	}
+	for _, l := range lic.QuotaLines {
+		if len(l.Purposes) > 0 && slices.Contains(l.Purposes, p) {
+			return true
+		}
+	}
+	return false
 }
 
 // licenceRules checks the licence named by a shipment of controlled substances, its scope,
@@ -203,7 +239,7 @@ func (c *checker) licenceRules() {
 		return
 	}
 	fig := Figures{Components: c.ev.Components}
-	draws, uncovered := PlanDraws(lic, fig)
+	draws, uncovered := PlanDraws(lic, fig, r.Purpose)
 	for _, comp := range uncovered {
 		c.add(CodeLicenceScope, "", "no quota line of licence %s covers %s (%s)%s", lic.Number, comp.Designation, groupLabel(comp.Group), c.componentOf())
 	}
@@ -243,10 +279,19 @@ func (c *checker) componentOf() string {
 }
 
 func lineScope(l QuotaLine) string {
-	if l.Substance != "" {
-		return l.Substance
+	var s string
+	switch {
+	case l.Substance != "":
+		s = l.Substance
+	case l.Annex != "":
+		s = "Annex " + l.Annex + " as a whole"
+	default:
+		s = "Annex " + string(l.Group)
 	}
-	return "Annex " + string(l.Group)
+	if len(l.Purposes) > 0 {
+		s += " for " + purposeList(l.Purposes)
+	}
+	return s
 }
 
 // fmtAmount prints a quota amount with up to 9 decimals (the store's resolution).

@@ -72,7 +72,7 @@ func (c *checker) exemptUseAuthorised(g substances.Group, year int) bool {
 	if c.lic != nil {
 		held = "licence " + c.lic.Number + " lists " + purposeList(c.lic.SpecialPurposes)
 	}
-	c.add(CodeExemptUseUnauthorised, "purpose", "%s is phased out for the reporting Party in %d and %s is declared without an authorisation: %s; the licence must list %s (%s)",
+	c.add(CodeExemptUseUnauthorised, "purpose", "%s is phased out for the reporting Party in %d and %s is declared without an authorisation: %s; the licence must list %s or hold a quota line limited to it (%s)",
 		groupLabel(g), year, p, basis, p, held)
 	return false
 }

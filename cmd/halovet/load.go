@@ -200,16 +200,17 @@ func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output str
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"licence_number", "company_id", "status", "valid_from", "valid_to", "directions",
-			"special_purposes", "line_number", "annex_group", "substance", "unit", "allocated", "drawn", "remaining"})
+			"special_purposes", "line_number", "annex_group", "substance", "unit", "allocated", "drawn", "remaining", "line_purposes"})
 		for _, l := range resp.GetLicences() {
 			head := []string{l.GetLicenceNumber(), l.GetCompanyId(), words([]halovetv1.LicenceStatus{l.GetStatus()}, ""),
 				l.GetValidFrom(), l.GetValidTo(), words(l.GetDirections(), ";"), words(l.GetSpecialPurposes(), ";")}
 			if len(l.GetQuotaLines()) == 0 {
-				_ = cw.Write(append(head, "", "", "", "", "", "", ""))
+				_ = cw.Write(append(head, "", "", "", "", "", "", "", ""))
 			}
 			for _, q := range l.GetQuotaLines() {
 				_ = cw.Write(append(append([]string{}, head...), strconv.Itoa(int(q.GetLineNumber())), q.GetAnnexGroup(), q.GetSubstance(),
-					words([]halovetv1.QuotaUnit{q.GetUnit()}, ""), fmtFull(q.GetAllocated()), fmtFull(q.GetDrawn()), fmtFull(q.GetRemaining())))
+					words([]halovetv1.QuotaUnit{q.GetUnit()}, ""), fmtFull(q.GetAllocated()), fmtFull(q.GetDrawn()), fmtFull(q.GetRemaining()),
+					words(q.GetPurposes(), ";")))
 			}
 		}
 		cw.Flush()
@@ -234,8 +235,14 @@ func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output str
 		}
 		for _, q := range l.GetQuotaLines() {
 			scope := q.GetAnnexGroup()
-			if scope == "" {
+			switch scope {
+			case "":
 				scope = q.GetSubstance()
+			case "F":
+				scope = "F (whole Annex)"
+			}
+			if p := words(q.GetPurposes(), ","); p != "" {
+				scope += " for " + p
 			}
 			used := "-"
 			if q.GetAllocated() > 0 {

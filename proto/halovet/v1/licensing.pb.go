@@ -863,7 +863,9 @@ type QuotaLine struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Identifier of the line within the licence (1, 2, ...); assigned when issued.
 	LineNumber int32 `protobuf:"varint,1,opt,name=line_number,json=lineNumber,proto3" json:"line_number,omitempty"`
-	// Annex/Group the line covers (e.g. "C/I"); empty when substance is set.
+	// Annex/Group the line covers (e.g. "C/I"), or "F" for Annex F as a whole (both HFC groups
+	// counted together, as the Article 2J phase-down counts them; the unit must then be
+	// CO2E_TONNES); empty when substance is set.
 	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Designation of the single substance the line covers; empty for a group line.
 	Substance string `protobuf:"bytes,3,opt,name=substance,proto3" json:"substance,omitempty"`
@@ -874,7 +876,13 @@ type QuotaLine struct {
 	// Amount drawn by recorded shipments (read only).
 	Drawn float64 `protobuf:"fixed64,6,opt,name=drawn,proto3" json:"drawn,omitempty"`
 	// Amount left (read only).
-	Remaining     float64 `protobuf:"fixed64,7,opt,name=remaining,proto3" json:"remaining,omitempty"`
+	Remaining float64 `protobuf:"fixed64,7,opt,name=remaining,proto3" json:"remaining,omitempty"`
+	// Declared purposes the line serves: an allowance for an exempted use (for example
+	// PURPOSE_CRITICAL_USE for the methyl bromide the Parties authorise under Article 2H para 5).
+	// A shipment declaring one of them draws on this line before any line without purposes, and
+	// the line authorises that use; a shipment declaring another purpose never draws on it.
+	// Empty: the line serves every purpose.
+	Purposes      []Purpose `protobuf:"varint,8,rep,packed,name=purposes,proto3,enum=halovet.v1.Purpose" json:"purposes,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -956,6 +964,13 @@ func (x *QuotaLine) GetRemaining() float64 {
 		return x.Remaining
 	}
 	return 0
+}
+
+func (x *QuotaLine) GetPurposes() []Purpose {
+	if x != nil {
+		return x.Purposes
+	}
+	return nil
 }
 
 // Licence is an import or export licence for one company.
@@ -1613,7 +1628,7 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\acompany\x18\x01 \x01(\v2\x13.halovet.v1.CompanyR\acompany\"\x16\n" +
 	"\x14ListCompaniesRequest\"J\n" +
 	"\x15ListCompaniesResponse\x121\n" +
-	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\"\xe8\x01\n" +
+	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\"\x99\x02\n" +
 	"\tQuotaLine\x12\x1f\n" +
 	"\vline_number\x18\x01 \x01(\x05R\n" +
 	"lineNumber\x12\x1f\n" +
@@ -1623,7 +1638,8 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x04unit\x18\x04 \x01(\x0e2\x15.halovet.v1.QuotaUnitR\x04unit\x12\x1c\n" +
 	"\tallocated\x18\x05 \x01(\x01R\tallocated\x12\x14\n" +
 	"\x05drawn\x18\x06 \x01(\x01R\x05drawn\x12\x1c\n" +
-	"\tremaining\x18\a \x01(\x01R\tremaining\"\xeb\x02\n" +
+	"\tremaining\x18\a \x01(\x01R\tremaining\x12/\n" +
+	"\bpurposes\x18\b \x03(\x0e2\x13.halovet.v1.PurposeR\bpurposes\"\xeb\x02\n" +
 	"\aLicence\x12%\n" +
 	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\x12\x1d\n" +
 	"\n" +
@@ -1743,8 +1759,8 @@ var file_halovet_v1_licensing_proto_goTypes = []any{
 	(*ListLicencesRequest)(nil),      // 26: halovet.v1.ListLicencesRequest
 	(*ListLicencesResponse)(nil),     // 27: halovet.v1.ListLicencesResponse
 	nil,                              // 28: halovet.v1.Party.BoundFromEntry
-	(Direction)(0),                   // 29: halovet.v1.Direction
-	(Purpose)(0),                     // 30: halovet.v1.Purpose
+	(Purpose)(0),                     // 29: halovet.v1.Purpose
+	(Direction)(0),                   // 30: halovet.v1.Direction
 }
 var file_halovet_v1_licensing_proto_depIdxs = []int32{
 	0,  // 0: halovet.v1.Party.party_type:type_name -> halovet.v1.PartyType
@@ -1758,43 +1774,44 @@ var file_halovet_v1_licensing_proto_depIdxs = []int32{
 	11, // 8: halovet.v1.RegisterCompanyResponse.company:type_name -> halovet.v1.Company
 	11, // 9: halovet.v1.ListCompaniesResponse.companies:type_name -> halovet.v1.Company
 	2,  // 10: halovet.v1.QuotaLine.unit:type_name -> halovet.v1.QuotaUnit
-	29, // 11: halovet.v1.Licence.directions:type_name -> halovet.v1.Direction
-	3,  // 12: halovet.v1.Licence.status:type_name -> halovet.v1.LicenceStatus
-	30, // 13: halovet.v1.Licence.special_purposes:type_name -> halovet.v1.Purpose
-	16, // 14: halovet.v1.Licence.quota_lines:type_name -> halovet.v1.QuotaLine
-	17, // 15: halovet.v1.IssueLicenceRequest.licence:type_name -> halovet.v1.Licence
-	17, // 16: halovet.v1.IssueLicenceResponse.licence:type_name -> halovet.v1.Licence
-	17, // 17: halovet.v1.AmendLicenceRequest.licence:type_name -> halovet.v1.Licence
-	17, // 18: halovet.v1.AmendLicenceResponse.licence:type_name -> halovet.v1.Licence
-	3,  // 19: halovet.v1.SetLicenceStatusRequest.status:type_name -> halovet.v1.LicenceStatus
-	17, // 20: halovet.v1.SetLicenceStatusResponse.licence:type_name -> halovet.v1.Licence
-	17, // 21: halovet.v1.GetLicenceResponse.licence:type_name -> halovet.v1.Licence
-	17, // 22: halovet.v1.ListLicencesResponse.licences:type_name -> halovet.v1.Licence
-	5,  // 23: halovet.v1.LicensingService.PutParty:input_type -> halovet.v1.PutPartyRequest
-	7,  // 24: halovet.v1.LicensingService.GetParty:input_type -> halovet.v1.GetPartyRequest
-	9,  // 25: halovet.v1.LicensingService.ListParties:input_type -> halovet.v1.ListPartiesRequest
-	12, // 26: halovet.v1.LicensingService.RegisterCompany:input_type -> halovet.v1.RegisterCompanyRequest
-	14, // 27: halovet.v1.LicensingService.ListCompanies:input_type -> halovet.v1.ListCompaniesRequest
-	18, // 28: halovet.v1.LicensingService.IssueLicence:input_type -> halovet.v1.IssueLicenceRequest
-	20, // 29: halovet.v1.LicensingService.AmendLicence:input_type -> halovet.v1.AmendLicenceRequest
-	22, // 30: halovet.v1.LicensingService.SetLicenceStatus:input_type -> halovet.v1.SetLicenceStatusRequest
-	24, // 31: halovet.v1.LicensingService.GetLicence:input_type -> halovet.v1.GetLicenceRequest
-	26, // 32: halovet.v1.LicensingService.ListLicences:input_type -> halovet.v1.ListLicencesRequest
-	6,  // 33: halovet.v1.LicensingService.PutParty:output_type -> halovet.v1.PutPartyResponse
-	8,  // 34: halovet.v1.LicensingService.GetParty:output_type -> halovet.v1.GetPartyResponse
-	10, // 35: halovet.v1.LicensingService.ListParties:output_type -> halovet.v1.ListPartiesResponse
-	13, // 36: halovet.v1.LicensingService.RegisterCompany:output_type -> halovet.v1.RegisterCompanyResponse
-	15, // 37: halovet.v1.LicensingService.ListCompanies:output_type -> halovet.v1.ListCompaniesResponse
-	19, // 38: halovet.v1.LicensingService.IssueLicence:output_type -> halovet.v1.IssueLicenceResponse
-	21, // 39: halovet.v1.LicensingService.AmendLicence:output_type -> halovet.v1.AmendLicenceResponse
-	23, // 40: halovet.v1.LicensingService.SetLicenceStatus:output_type -> halovet.v1.SetLicenceStatusResponse
-	25, // 41: halovet.v1.LicensingService.GetLicence:output_type -> halovet.v1.GetLicenceResponse
-	27, // 42: halovet.v1.LicensingService.ListLicences:output_type -> halovet.v1.ListLicencesResponse
-	33, // [33:43] is the sub-list for method output_type
-	23, // [23:33] is the sub-list for method input_type
-	23, // [23:23] is the sub-list for extension type_name
-	23, // [23:23] is the sub-list for extension extendee
-	0,  // [0:23] is the sub-list for field type_name
+	29, // 11: halovet.v1.QuotaLine.purposes:type_name -> halovet.v1.Purpose
+	30, // 12: halovet.v1.Licence.directions:type_name -> halovet.v1.Direction
+	3,  // 13: halovet.v1.Licence.status:type_name -> halovet.v1.LicenceStatus
+	29, // 14: halovet.v1.Licence.special_purposes:type_name -> halovet.v1.Purpose
+	16, // 15: halovet.v1.Licence.quota_lines:type_name -> halovet.v1.QuotaLine
+	17, // 16: halovet.v1.IssueLicenceRequest.licence:type_name -> halovet.v1.Licence
+	17, // 17: halovet.v1.IssueLicenceResponse.licence:type_name -> halovet.v1.Licence
+	17, // 18: halovet.v1.AmendLicenceRequest.licence:type_name -> halovet.v1.Licence
+	17, // 19: halovet.v1.AmendLicenceResponse.licence:type_name -> halovet.v1.Licence
+	3,  // 20: halovet.v1.SetLicenceStatusRequest.status:type_name -> halovet.v1.LicenceStatus
+	17, // 21: halovet.v1.SetLicenceStatusResponse.licence:type_name -> halovet.v1.Licence
+	17, // 22: halovet.v1.GetLicenceResponse.licence:type_name -> halovet.v1.Licence
+	17, // 23: halovet.v1.ListLicencesResponse.licences:type_name -> halovet.v1.Licence
+	5,  // 24: halovet.v1.LicensingService.PutParty:input_type -> halovet.v1.PutPartyRequest
+	7,  // 25: halovet.v1.LicensingService.GetParty:input_type -> halovet.v1.GetPartyRequest
+	9,  // 26: halovet.v1.LicensingService.ListParties:input_type -> halovet.v1.ListPartiesRequest
+	12, // 27: halovet.v1.LicensingService.RegisterCompany:input_type -> halovet.v1.RegisterCompanyRequest
+	14, // 28: halovet.v1.LicensingService.ListCompanies:input_type -> halovet.v1.ListCompaniesRequest
+	18, // 29: halovet.v1.LicensingService.IssueLicence:input_type -> halovet.v1.IssueLicenceRequest
+	20, // 30: halovet.v1.LicensingService.AmendLicence:input_type -> halovet.v1.AmendLicenceRequest
+	22, // 31: halovet.v1.LicensingService.SetLicenceStatus:input_type -> halovet.v1.SetLicenceStatusRequest
+	24, // 32: halovet.v1.LicensingService.GetLicence:input_type -> halovet.v1.GetLicenceRequest
+	26, // 33: halovet.v1.LicensingService.ListLicences:input_type -> halovet.v1.ListLicencesRequest
+	6,  // 34: halovet.v1.LicensingService.PutParty:output_type -> halovet.v1.PutPartyResponse
+	8,  // 35: halovet.v1.LicensingService.GetParty:output_type -> halovet.v1.GetPartyResponse
+	10, // 36: halovet.v1.LicensingService.ListParties:output_type -> halovet.v1.ListPartiesResponse
+	13, // 37: halovet.v1.LicensingService.RegisterCompany:output_type -> halovet.v1.RegisterCompanyResponse
+	15, // 38: halovet.v1.LicensingService.ListCompanies:output_type -> halovet.v1.ListCompaniesResponse
+	19, // 39: halovet.v1.LicensingService.IssueLicence:output_type -> halovet.v1.IssueLicenceResponse
+	21, // 40: halovet.v1.LicensingService.AmendLicence:output_type -> halovet.v1.AmendLicenceResponse
+	23, // 41: halovet.v1.LicensingService.SetLicenceStatus:output_type -> halovet.v1.SetLicenceStatusResponse
+	25, // 42: halovet.v1.LicensingService.GetLicence:output_type -> halovet.v1.GetLicenceResponse
+	27, // 43: halovet.v1.LicensingService.ListLicences:output_type -> halovet.v1.ListLicencesResponse
+	34, // [34:44] is the sub-list for method output_type
+	24, // [24:34] is the sub-list for method input_type
+	24, // [24:24] is the sub-list for extension type_name
+	24, // [24:24] is the sub-list for extension extendee
+	0,  // [0:24] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_licensing_proto_init() }
