@@ -46,6 +46,7 @@ func TestSameVerdictOverGRPCHTTPAndGRPCWeb(t *testing.T) {
 	grpcClient, base, httpClient := startHTTPTestServer(t)
 	rejected := shipRecord("WEB-2")
 	rejected.PartnerCountry = "" // PARTNER_MISSING (common practice: a declaration names its partner)
+	var singles []*halovetv1.Verdict
 	for _, rec := range []*halovetv1.ShipmentRecord{shipRecord("WEB-1"), rejected} {
 		req := &halovetv1.CheckShipmentRequest{Record: rec}
 		viaGRPC, err := grpcClient.CheckShipment(context.Background(), req)
@@ -76,11 +77,59 @@ func TestSameVerdictOverGRPCHTTPAndGRPCWeb(t *testing.T) {
 		if !proto.Equal(viaGRPC, viaHTTP) || !proto.Equal(viaGRPC, viaWeb) {
 			t.Errorf("record %s: verdicts differ\n gRPC:     %v\n HTTP/JSON: %v\n gRPC-Web: %v", rec.GetRecordKey(), viaGRPC, viaHTTP, viaWeb)
 		}
+		singles = append(singles, viaGRPC.GetVerdict())
+	}
+
+	// The same two records in one batch call (POST /v1/shipments:checkBatch): the same
+	// answer over each transport, and each verdict the one its record got alone (100 kg of
+	// HCFC-22 is 0.0055 ODP t of a 1 ODP t line, so the first draws nothing the second feels).
+	batch := &halovetv1.CheckShipmentBatchRequest{Records: []*halovetv1.ShipmentRecord{shipRecord("WEB-1"), rejected}}
+	viaGRPC, err := grpcClient.CheckShipmentBatch(context.Background(), batch)
+	if err != nil {
+		t.Fatal(err)
+	}
+	body, err := protojson.Marshal(batch)
+	if err != nil {
+		t.Fatal(err)
+	}
+	resp, err := httpClient().Post(base+"/v1/shipments:checkBatch", "application/json", bytes.NewReader(body))
+	if err != nil {
+		t.Fatal(err)
+	}
+	raw, _ := io.ReadAll(resp.Body)
+	resp.Body.Close()
+	if resp.StatusCode != http.StatusOK {
+		t.Fatalf("HTTP/JSON batch: status %d: %s", resp.StatusCode, raw)
+	}
+	viaHTTP := &halovetv1.CheckShipmentBatchResponse{}
+	if err := protojson.Unmarshal(raw, viaHTTP); err != nil {
+		t.Fatalf("HTTP/JSON batch answer %s: %v", raw, err)
+	}
+	viaWeb := &halovetv1.CheckShipmentBatchResponse{}
+	grpcWebInto(t, httpClient(), base+"/halovet.v1.ShipmentService/CheckShipmentBatch", batch, viaWeb)
+	if !proto.Equal(viaGRPC, viaHTTP) || !proto.Equal(viaGRPC, viaWeb) {
+		t.Errorf("batch answers differ\n gRPC:     %v\n HTTP/JSON: %v\n gRPC-Web: %v", viaGRPC, viaHTTP, viaWeb)
+	}
+	for i, v := range viaGRPC.GetVerdicts() {
+		if i >= len(singles) || !proto.Equal(v, singles[i]) {
+			t.Errorf("batch verdict %d %v; the record alone got %v", i+1, v, singles)
+		}
+	}
+	if len(viaGRPC.GetVerdicts()) != 2 {
+		t.Errorf("batch of 2 answered %d verdicts", len(viaGRPC.GetVerdicts()))
 	}
 }
 
 // grpcWebCall makes a unary gRPC-Web call (binary framing) and decodes its answer.
 func grpcWebCall(t *testing.T, c *http.Client, url string, req proto.Message) *halovetv1.CheckShipmentResponse {
+	t.Helper()
+	out := &halovetv1.CheckShipmentResponse{}
+	grpcWebInto(t, c, url, req, out)
+	return out
+}
+
+// grpcWebInto makes a unary gRPC-Web call (binary framing) and decodes its answer into out.
+func grpcWebInto(t *testing.T, c *http.Client, url string, req, out proto.Message) {
 	t.Helper()
 	msg, err := proto.Marshal(req)
 	if err != nil {
@@ -100,7 +149,6 @@ func grpcWebCall(t *testing.T, c *http.Client, url string, req proto.Message) *h
 	}
 	defer resp.Body.Close()
 	raw, _ := io.ReadAll(resp.Body)
-	out := &halovetv1.CheckShipmentResponse{}
 	var trailers string
 	for len(raw) >= 5 {
 		flag, n := raw[0], binary.BigEndian.Uint32(raw[1:5])
@@ -117,7 +165,6 @@ func grpcWebCall(t *testing.T, c *http.Client, url string, req proto.Message) *h
 	if !strings.Contains(strings.ReplaceAll(strings.ToLower(trailers), " ", ""), "grpc-status:0") {
 		t.Fatalf("gRPC-Web: trailers %q; want grpc-status 0", trailers)
 	}
-	return out
 }
 
 // TestHTTPErrorsCarryStatusAndDetails: a bad request over HTTP/JSON answers the HTTP status

@@ -71,6 +71,10 @@ func (m *metrics) countVerdicts(msg any) {
 	case *halovetv1.RecordShipmentsResponse:
 		vs = append(vs, r.GetVerdict())
 		vs = append(vs, r.GetVerdicts().GetVerdicts()...)
+	case *halovetv1.CheckShipmentBatchResponse:
+		vs = r.GetVerdicts()
+	case *halovetv1.RecordShipmentBatchResponse:
+		vs = r.GetVerdicts()
 	default:
 		return
 	}

@@ -252,6 +252,13 @@ type incoming struct {
 // repeated within the stream gets the same answer whichever batch it falls in; keys
 // from earlier calls are found in the store.
 func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_RecordShipmentsServer) error {
+	return x.recordShipments(stream, false)
+}
+
+// recordShipments is RecordShipments; with wholeCall, records are handed to the writer
+// only when recordFlushSize are pending or the client has closed its side, so a call of
+// at most recordFlushSize records is written in one transaction (RecordShipmentBatch).
+func (x *shipmentServer) recordShipments(stream halovetv1.ShipmentService_RecordShipmentsServer, wholeCall bool) error {
 	ctx, cancel := context.WithCancel(stream.Context())
 	defer cancel()
 	// Read at the start, so that a register that cannot be checked against fails the call
@@ -356,7 +363,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 			case <-ctx.Done():
 				return finish(status.FromContextError(ctx.Err()).Err())
 			}
-		case len(pending) > 0:
+		case len(pending) > 0 && !wholeCall:
 			select {
 			case in, open = <-recv:
 			case toWrite <- pending: // the writer is free: write what we have

@@ -1451,6 +1451,210 @@ func (*RecordShipmentsResponse_Summary) isRecordShipmentsResponse_Item() {}
 
 func (*RecordShipmentsResponse_Verdicts) isRecordShipmentsResponse_Item() {}
 
+// CheckShipmentBatchRequest carries the records of one unary batch check.
+type CheckShipmentBatchRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The records, checked in this order; at least 1, at most 1000 (and the request at
+	// most the server's message size, 4 MiB by default).
+	Records       []*ShipmentRecord `protobuf:"bytes,1,rep,name=records,proto3" json:"records,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CheckShipmentBatchRequest) Reset() {
+	*x = CheckShipmentBatchRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[12]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CheckShipmentBatchRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CheckShipmentBatchRequest) ProtoMessage() {}
+
+func (x *CheckShipmentBatchRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[12]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CheckShipmentBatchRequest.ProtoReflect.Descriptor instead.
+func (*CheckShipmentBatchRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{12}
+}
+
+func (x *CheckShipmentBatchRequest) GetRecords() []*ShipmentRecord {
+	if x != nil {
+		return x.Records
+	}
+	return nil
+}
+
+// CheckShipmentBatchResponse carries the verdicts of a unary batch check.
+type CheckShipmentBatchResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// One verdict per record, in the order of the request.
+	Verdicts []*Verdict `protobuf:"bytes,1,rep,name=verdicts,proto3" json:"verdicts,omitempty"`
+	// Counts over the verdicts, as a stream's closing summary.
+	Summary       *BatchSummary `protobuf:"bytes,2,opt,name=summary,proto3" json:"summary,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CheckShipmentBatchResponse) Reset() {
+	*x = CheckShipmentBatchResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[13]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CheckShipmentBatchResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CheckShipmentBatchResponse) ProtoMessage() {}
+
+func (x *CheckShipmentBatchResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[13]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CheckShipmentBatchResponse.ProtoReflect.Descriptor instead.
+func (*CheckShipmentBatchResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{13}
+}
+
+func (x *CheckShipmentBatchResponse) GetVerdicts() []*Verdict {
+	if x != nil {
+		return x.Verdicts
+	}
+	return nil
+}
+
+func (x *CheckShipmentBatchResponse) GetSummary() *BatchSummary {
+	if x != nil {
+		return x.Summary
+	}
+	return nil
+}
+
+// RecordShipmentBatchRequest carries the records of one unary batch recording.
+type RecordShipmentBatchRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The records, checked and stored in this order; at least 1, at most 1000 (and the
+	// request at most the server's message size, 4 MiB by default).
+	Records       []*ShipmentRecord `protobuf:"bytes,1,rep,name=records,proto3" json:"records,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordShipmentBatchRequest) Reset() {
+	*x = RecordShipmentBatchRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[14]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordShipmentBatchRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordShipmentBatchRequest) ProtoMessage() {}
+
+func (x *RecordShipmentBatchRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[14]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordShipmentBatchRequest.ProtoReflect.Descriptor instead.
+func (*RecordShipmentBatchRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{14}
+}
+
+func (x *RecordShipmentBatchRequest) GetRecords() []*ShipmentRecord {
+	if x != nil {
+		return x.Records
+	}
+	return nil
+}
+
+// RecordShipmentBatchResponse carries the verdicts of a unary batch recording.
+type RecordShipmentBatchResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// One verdict per record, in the order of the request, with recorded set.
+	Verdicts []*Verdict `protobuf:"bytes,1,rep,name=verdicts,proto3" json:"verdicts,omitempty"`
+	// Counts over the verdicts, as a stream's closing summary.
+	Summary       *BatchSummary `protobuf:"bytes,2,opt,name=summary,proto3" json:"summary,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordShipmentBatchResponse) Reset() {
+	*x = RecordShipmentBatchResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[15]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordShipmentBatchResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordShipmentBatchResponse) ProtoMessage() {}
+
+func (x *RecordShipmentBatchResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[15]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordShipmentBatchResponse.ProtoReflect.Descriptor instead.
+func (*RecordShipmentBatchResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{15}
+}
+
+func (x *RecordShipmentBatchResponse) GetVerdicts() []*Verdict {
+	if x != nil {
+		return x.Verdicts
+	}
+	return nil
+}
+
+func (x *RecordShipmentBatchResponse) GetSummary() *BatchSummary {
+	if x != nil {
+		return x.Summary
+	}
+	return nil
+}
+
 var File_halovet_v1_shipment_proto protoreflect.FileDescriptor
 
 const file_halovet_v1_shipment_proto_rawDesc = "" +
@@ -1548,7 +1752,17 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictH\x00R\averdict\x124\n" +
 	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryH\x00R\asummary\x126\n" +
 	"\bverdicts\x18\x03 \x01(\v2\x18.halovet.v1.VerdictBatchH\x00R\bverdictsB\x06\n" +
-	"\x04item*\x82\x01\n" +
+	"\x04item\"Q\n" +
+	"\x19CheckShipmentBatchRequest\x124\n" +
+	"\arecords\x18\x01 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\"\x81\x01\n" +
+	"\x1aCheckShipmentBatchResponse\x12/\n" +
+	"\bverdicts\x18\x01 \x03(\v2\x13.halovet.v1.VerdictR\bverdicts\x122\n" +
+	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryR\asummary\"R\n" +
+	"\x1aRecordShipmentBatchRequest\x124\n" +
+	"\arecords\x18\x01 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\"\x82\x01\n" +
+	"\x1bRecordShipmentBatchResponse\x12/\n" +
+	"\bverdicts\x18\x01 \x03(\v2\x13.halovet.v1.VerdictR\bverdicts\x122\n" +
+	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryR\asummary*\x82\x01\n" +
 	"\tDirection\x12\x19\n" +
 	"\x15DIRECTION_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10DIRECTION_IMPORT\x10\x01\x12\x14\n" +
@@ -1586,11 +1800,13 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x13OUTCOME_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10OUTCOME_ACCEPTED\x10\x01\x12\"\n" +
 	"\x1eOUTCOME_ACCEPTED_WITH_WARNINGS\x10\x02\x12\x14\n" +
-	"\x10OUTCOME_REJECTED\x10\x032\xc4\x02\n" +
+	"\x10OUTCOME_REJECTED\x10\x032\xde\x04\n" +
 	"\x0fShipmentService\x12t\n" +
 	"\rCheckShipment\x12 .halovet.v1.CheckShipmentRequest\x1a!.halovet.v1.CheckShipmentResponse\"\x1e\x82\xd3\xe4\x93\x02\x18:\x01*\"\x13/v1/shipments:check\x12[\n" +
 	"\x0eCheckShipments\x12!.halovet.v1.CheckShipmentsRequest\x1a\".halovet.v1.CheckShipmentsResponse(\x010\x01\x12^\n" +
-	"\x0fRecordShipments\x12\".halovet.v1.RecordShipmentsRequest\x1a#.halovet.v1.RecordShipmentsResponse(\x010\x01B7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
+	"\x0fRecordShipments\x12\".halovet.v1.RecordShipmentsRequest\x1a#.halovet.v1.RecordShipmentsResponse(\x010\x01\x12\x88\x01\n" +
+	"\x12CheckShipmentBatch\x12%.halovet.v1.CheckShipmentBatchRequest\x1a&.halovet.v1.CheckShipmentBatchResponse\"#\x82\xd3\xe4\x93\x02\x1d:\x01*\"\x18/v1/shipments:checkBatch\x12\x8c\x01\n" +
+	"\x13RecordShipmentBatch\x12&.halovet.v1.RecordShipmentBatchRequest\x1a'.halovet.v1.RecordShipmentBatchResponse\"$\x82\xd3\xe4\x93\x02\x1e:\x01*\"\x19/v1/shipments:recordBatchB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 
 var (
 	file_halovet_v1_shipment_proto_rawDescOnce sync.Once
@@ -1605,41 +1821,45 @@ func file_halovet_v1_shipment_proto_rawDescGZIP() []byte {
 }
 
 var file_halovet_v1_shipment_proto_enumTypes = make([]protoimpl.EnumInfo, 5)
-var file_halovet_v1_shipment_proto_msgTypes = make([]protoimpl.MessageInfo, 14)
+var file_halovet_v1_shipment_proto_msgTypes = make([]protoimpl.MessageInfo, 18)
 var file_halovet_v1_shipment_proto_goTypes = []any{
-	(Direction)(0),                  // 0: halovet.v1.Direction
-	(Purpose)(0),                    // 1: halovet.v1.Purpose
-	(Condition)(0),                  // 2: halovet.v1.Condition
-	(Severity)(0),                   // 3: halovet.v1.Severity
-	(Outcome)(0),                    // 4: halovet.v1.Outcome
-	(*ShipmentRecord)(nil),          // 5: halovet.v1.ShipmentRecord
-	(*Finding)(nil),                 // 6: halovet.v1.Finding
-	(*ShipmentFigures)(nil),         // 7: halovet.v1.ShipmentFigures
-	(*Verdict)(nil),                 // 8: halovet.v1.Verdict
-	(*CheckShipmentRequest)(nil),    // 9: halovet.v1.CheckShipmentRequest
-	(*CheckShipmentResponse)(nil),   // 10: halovet.v1.CheckShipmentResponse
-	(*CheckShipmentsRequest)(nil),   // 11: halovet.v1.CheckShipmentsRequest
-	(*BatchSummary)(nil),            // 12: halovet.v1.BatchSummary
-	(*VerdictBatch)(nil),            // 13: halovet.v1.VerdictBatch
-	(*CheckShipmentsResponse)(nil),  // 14: halovet.v1.CheckShipmentsResponse
-	(*RecordShipmentsRequest)(nil),  // 15: halovet.v1.RecordShipmentsRequest
-	(*RecordShipmentsResponse)(nil), // 16: halovet.v1.RecordShipmentsResponse
-	nil,                             // 17: halovet.v1.BatchSummary.ErrorsByCodeEntry
-	nil,                             // 18: halovet.v1.BatchSummary.WarningsByCodeEntry
-	(*MixtureShare)(nil),            // 19: halovet.v1.MixtureShare
-	(*MeasuredShare)(nil),           // 20: halovet.v1.MeasuredShare
-	(EntryKind)(0),                  // 21: halovet.v1.EntryKind
-	(*ComponentFigures)(nil),        // 22: halovet.v1.ComponentFigures
+	(Direction)(0),                      // 0: halovet.v1.Direction
+	(Purpose)(0),                        // 1: halovet.v1.Purpose
+	(Condition)(0),                      // 2: halovet.v1.Condition
+	(Severity)(0),                       // 3: halovet.v1.Severity
+	(Outcome)(0),                        // 4: halovet.v1.Outcome
+	(*ShipmentRecord)(nil),              // 5: halovet.v1.ShipmentRecord
+	(*Finding)(nil),                     // 6: halovet.v1.Finding
+	(*ShipmentFigures)(nil),             // 7: halovet.v1.ShipmentFigures
+	(*Verdict)(nil),                     // 8: halovet.v1.Verdict
+	(*CheckShipmentRequest)(nil),        // 9: halovet.v1.CheckShipmentRequest
+	(*CheckShipmentResponse)(nil),       // 10: halovet.v1.CheckShipmentResponse
+	(*CheckShipmentsRequest)(nil),       // 11: halovet.v1.CheckShipmentsRequest
+	(*BatchSummary)(nil),                // 12: halovet.v1.BatchSummary
+	(*VerdictBatch)(nil),                // 13: halovet.v1.VerdictBatch
+	(*CheckShipmentsResponse)(nil),      // 14: halovet.v1.CheckShipmentsResponse
+	(*RecordShipmentsRequest)(nil),      // 15: halovet.v1.RecordShipmentsRequest
+	(*RecordShipmentsResponse)(nil),     // 16: halovet.v1.RecordShipmentsResponse
+	(*CheckShipmentBatchRequest)(nil),   // 17: halovet.v1.CheckShipmentBatchRequest
+	(*CheckShipmentBatchResponse)(nil),  // 18: halovet.v1.CheckShipmentBatchResponse
+	(*RecordShipmentBatchRequest)(nil),  // 19: halovet.v1.RecordShipmentBatchRequest
+	(*RecordShipmentBatchResponse)(nil), // 20: halovet.v1.RecordShipmentBatchResponse
+	nil,                                 // 21: halovet.v1.BatchSummary.ErrorsByCodeEntry
+	nil,                                 // 22: halovet.v1.BatchSummary.WarningsByCodeEntry
+	(*MixtureShare)(nil),                // 23: halovet.v1.MixtureShare
+	(*MeasuredShare)(nil),               // 24: halovet.v1.MeasuredShare
+	(EntryKind)(0),                      // 25: halovet.v1.EntryKind
+	(*ComponentFigures)(nil),            // 26: halovet.v1.ComponentFigures
 }
 var file_halovet_v1_shipment_proto_depIdxs = []int32{
 	0,  // 0: halovet.v1.ShipmentRecord.direction:type_name -> halovet.v1.Direction
 	1,  // 1: halovet.v1.ShipmentRecord.purpose:type_name -> halovet.v1.Purpose
 	2,  // 2: halovet.v1.ShipmentRecord.condition:type_name -> halovet.v1.Condition
-	19, // 3: halovet.v1.ShipmentRecord.declared_composition:type_name -> halovet.v1.MixtureShare
-	20, // 4: halovet.v1.ShipmentRecord.measured_composition:type_name -> halovet.v1.MeasuredShare
+	23, // 3: halovet.v1.ShipmentRecord.declared_composition:type_name -> halovet.v1.MixtureShare
+	24, // 4: halovet.v1.ShipmentRecord.measured_composition:type_name -> halovet.v1.MeasuredShare
 	3,  // 5: halovet.v1.Finding.severity:type_name -> halovet.v1.Severity
-	21, // 6: halovet.v1.ShipmentFigures.kind:type_name -> halovet.v1.EntryKind
-	22, // 7: halovet.v1.ShipmentFigures.components:type_name -> halovet.v1.ComponentFigures
+	25, // 6: halovet.v1.ShipmentFigures.kind:type_name -> halovet.v1.EntryKind
+	26, // 7: halovet.v1.ShipmentFigures.components:type_name -> halovet.v1.ComponentFigures
 	4,  // 8: halovet.v1.Verdict.outcome:type_name -> halovet.v1.Outcome
 	6,  // 9: halovet.v1.Verdict.findings:type_name -> halovet.v1.Finding
 	7,  // 10: halovet.v1.Verdict.figures:type_name -> halovet.v1.ShipmentFigures
@@ -1647,8 +1867,8 @@ var file_halovet_v1_shipment_proto_depIdxs = []int32{
 	8,  // 12: halovet.v1.CheckShipmentResponse.verdict:type_name -> halovet.v1.Verdict
 	5,  // 13: halovet.v1.CheckShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
 	5,  // 14: halovet.v1.CheckShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
-	17, // 15: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
-	18, // 16: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
+	21, // 15: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
+	22, // 16: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
 	8,  // 17: halovet.v1.VerdictBatch.verdicts:type_name -> halovet.v1.Verdict
 	8,  // 18: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
 	12, // 19: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
@@ -1658,17 +1878,27 @@ var file_halovet_v1_shipment_proto_depIdxs = []int32{
 	8,  // 23: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
 	12, // 24: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
 	13, // 25: halovet.v1.RecordShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
-	9,  // 26: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
-	11, // 27: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
-	15, // 28: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
-	10, // 29: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
-	14, // 30: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
-	16, // 31: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
-	29, // [29:32] is the sub-list for method output_type
-	26, // [26:29] is the sub-list for method input_type
-	26, // [26:26] is the sub-list for extension type_name
-	26, // [26:26] is the sub-list for extension extendee
-	0,  // [0:26] is the sub-list for field type_name
+	5,  // 26: halovet.v1.CheckShipmentBatchRequest.records:type_name -> halovet.v1.ShipmentRecord
+	8,  // 27: halovet.v1.CheckShipmentBatchResponse.verdicts:type_name -> halovet.v1.Verdict
+	12, // 28: halovet.v1.CheckShipmentBatchResponse.summary:type_name -> halovet.v1.BatchSummary
+	5,  // 29: halovet.v1.RecordShipmentBatchRequest.records:type_name -> halovet.v1.ShipmentRecord
+	8,  // 30: halovet.v1.RecordShipmentBatchResponse.verdicts:type_name -> halovet.v1.Verdict
+	12, // 31: halovet.v1.RecordShipmentBatchResponse.summary:type_name -> halovet.v1.BatchSummary
+	9,  // 32: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
+	11, // 33: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
+	15, // 34: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
+	17, // 35: halovet.v1.ShipmentService.CheckShipmentBatch:input_type -> halovet.v1.CheckShipmentBatchRequest
+	19, // 36: halovet.v1.ShipmentService.RecordShipmentBatch:input_type -> halovet.v1.RecordShipmentBatchRequest
+	10, // 37: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
+	14, // 38: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
+	16, // 39: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
+	18, // 40: halovet.v1.ShipmentService.CheckShipmentBatch:output_type -> halovet.v1.CheckShipmentBatchResponse
+	20, // 41: halovet.v1.ShipmentService.RecordShipmentBatch:output_type -> halovet.v1.RecordShipmentBatchResponse
+	37, // [37:42] is the sub-list for method output_type
+	32, // [32:37] is the sub-list for method input_type
+	32, // [32:32] is the sub-list for extension type_name
+	32, // [32:32] is the sub-list for extension extendee
+	0,  // [0:32] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_shipment_proto_init() }
@@ -1694,7 +1924,7 @@ func file_halovet_v1_shipment_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_shipment_proto_rawDesc), len(file_halovet_v1_shipment_proto_rawDesc)),
 			NumEnums:      5,
-			NumMessages:   14,
+			NumMessages:   18,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

@@ -19,9 +19,11 @@ import (
 const _ = grpc.SupportPackageIsVersion9
 
 const (
-	ShipmentService_CheckShipment_FullMethodName   = "/halovet.v1.ShipmentService/CheckShipment"
-	ShipmentService_CheckShipments_FullMethodName  = "/halovet.v1.ShipmentService/CheckShipments"
-	ShipmentService_RecordShipments_FullMethodName = "/halovet.v1.ShipmentService/RecordShipments"
+	ShipmentService_CheckShipment_FullMethodName       = "/halovet.v1.ShipmentService/CheckShipment"
+	ShipmentService_CheckShipments_FullMethodName      = "/halovet.v1.ShipmentService/CheckShipments"
+	ShipmentService_RecordShipments_FullMethodName     = "/halovet.v1.ShipmentService/RecordShipments"
+	ShipmentService_CheckShipmentBatch_FullMethodName  = "/halovet.v1.ShipmentService/CheckShipmentBatch"
+	ShipmentService_RecordShipmentBatch_FullMethodName = "/halovet.v1.ShipmentService/RecordShipmentBatch"
 )
 
 // ShipmentServiceClient is the client API for ShipmentService service.
@@ -42,6 +44,18 @@ type ShipmentServiceClient interface {
 	// never stops the rest. A retried record with the same key and content is not
 	// counted twice.
 	RecordShipments(ctx context.Context, opts ...grpc.CallOption) (grpc.BidiStreamingClient[RecordShipmentsRequest, RecordShipmentsResponse], error)
+	// CheckShipmentBatch checks up to 1000 records in one call, for callers that cannot
+	// stream: the verdicts are those a CheckShipments stream sending the same records in
+	// one message would get (in order, earlier accepted records drawing on the quota the
+	// later ones are checked against, repeated keys answered as in a stream). Nothing is
+	// stored.
+	CheckShipmentBatch(ctx context.Context, in *CheckShipmentBatchRequest, opts ...grpc.CallOption) (*CheckShipmentBatchResponse, error)
+	// RecordShipmentBatch checks and stores up to 1000 records in one call, for callers
+	// that cannot stream: the verdicts are those a RecordShipments stream sending the
+	// same records would get, and the accepted records are stored in one transaction. A
+	// retried call with the same keys and content is answered as replayed and not
+	// counted twice.
+	RecordShipmentBatch(ctx context.Context, in *RecordShipmentBatchRequest, opts ...grpc.CallOption) (*RecordShipmentBatchResponse, error)
 }
 
 type shipmentServiceClient struct {
@@ -88,6 +102,26 @@ func (c *shipmentServiceClient) RecordShipments(ctx context.Context, opts ...grp
 // This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
 type ShipmentService_RecordShipmentsClient = grpc.BidiStreamingClient[RecordShipmentsRequest, RecordShipmentsResponse]
 
+func (c *shipmentServiceClient) CheckShipmentBatch(ctx context.Context, in *CheckShipmentBatchRequest, opts ...grpc.CallOption) (*CheckShipmentBatchResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(CheckShipmentBatchResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_CheckShipmentBatch_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *shipmentServiceClient) RecordShipmentBatch(ctx context.Context, in *RecordShipmentBatchRequest, opts ...grpc.CallOption) (*RecordShipmentBatchResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordShipmentBatchResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_RecordShipmentBatch_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 // ShipmentServiceServer is the server API for ShipmentService service.
 // All implementations must embed UnimplementedShipmentServiceServer
 // for forward compatibility.
@@ -106,6 +140,18 @@ type ShipmentServiceServer interface {
 	// never stops the rest. A retried record with the same key and content is not
 	// counted twice.
 	RecordShipments(grpc.BidiStreamingServer[RecordShipmentsRequest, RecordShipmentsResponse]) error
+	// CheckShipmentBatch checks up to 1000 records in one call, for callers that cannot
+	// stream: the verdicts are those a CheckShipments stream sending the same records in
+	// one message would get (in order, earlier accepted records drawing on the quota the
+	// later ones are checked against, repeated keys answered as in a stream). Nothing is
+	// stored.
+	CheckShipmentBatch(context.Context, *CheckShipmentBatchRequest) (*CheckShipmentBatchResponse, error)
+	// RecordShipmentBatch checks and stores up to 1000 records in one call, for callers
+	// that cannot stream: the verdicts are those a RecordShipments stream sending the
+	// same records would get, and the accepted records are stored in one transaction. A
+	// retried call with the same keys and content is answered as replayed and not
+	// counted twice.
+	RecordShipmentBatch(context.Context, *RecordShipmentBatchRequest) (*RecordShipmentBatchResponse, error)
 	mustEmbedUnimplementedShipmentServiceServer()
 }
 
@@ -124,6 +170,12 @@ func (UnimplementedShipmentServiceServer) CheckShipments(grpc.BidiStreamingServe
 }
 func (UnimplementedShipmentServiceServer) RecordShipments(grpc.BidiStreamingServer[RecordShipmentsRequest, RecordShipmentsResponse]) error {
 	return status.Error(codes.Unimplemented, "method RecordShipments not implemented")
+}
+func (UnimplementedShipmentServiceServer) CheckShipmentBatch(context.Context, *CheckShipmentBatchRequest) (*CheckShipmentBatchResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method CheckShipmentBatch not implemented")
+}
+func (UnimplementedShipmentServiceServer) RecordShipmentBatch(context.Context, *RecordShipmentBatchRequest) (*RecordShipmentBatchResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordShipmentBatch not implemented")
 }
 func (UnimplementedShipmentServiceServer) mustEmbedUnimplementedShipmentServiceServer() {}
 func (UnimplementedShipmentServiceServer) testEmbeddedByValue()                         {}
@@ -178,6 +230,42 @@ func _ShipmentService_RecordShipments_Handler(srv interface{}, stream grpc.Serve
 // This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
 type ShipmentService_RecordShipmentsServer = grpc.BidiStreamingServer[RecordShipmentsRequest, RecordShipmentsResponse]
 
+func _ShipmentService_CheckShipmentBatch_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(CheckShipmentBatchRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).CheckShipmentBatch(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_CheckShipmentBatch_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).CheckShipmentBatch(ctx, req.(*CheckShipmentBatchRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ShipmentService_RecordShipmentBatch_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordShipmentBatchRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).RecordShipmentBatch(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_RecordShipmentBatch_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).RecordShipmentBatch(ctx, req.(*RecordShipmentBatchRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 // ShipmentService_ServiceDesc is the grpc.ServiceDesc for ShipmentService service.
 // It's only intended for direct use with grpc.RegisterService,
 // and not to be introspected or modified (even as a copy)
@@ -188,6 +276,14 @@ var ShipmentService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "CheckShipment",
 			Handler:    _ShipmentService_CheckShipment_Handler,
+		},
+		{
+			MethodName: "CheckShipmentBatch",
+			Handler:    _ShipmentService_CheckShipmentBatch_Handler,
+		},
+		{
+			MethodName: "RecordShipmentBatch",
+			Handler:    _ShipmentService_RecordShipmentBatch_Handler,
 		},
 	},
 	Streams: []grpc.StreamDesc{
