@@ -14,8 +14,14 @@ FUZZTIME ?= 20000x
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
 
-build: ## build bin/halovet
-	$(GO) build -o $(BIN) ./cmd/halovet
+# The version and commit stamped into the binary (halovet version, the logs, the
+# halovet_build_info metric, the halovet-version header of every answer).
+VERSION ?= $(shell git describe --tags --always --dirty 2>/dev/null || echo '(devel)')
+COMMIT ?= $(shell git rev-parse HEAD 2>/dev/null || echo unknown)
+LDFLAGS := -X 'main.version=$(VERSION)' -X 'main.commit=$(COMMIT)'
+
+build: ## build bin/halovet (version and commit stamped)
+	$(GO) build -ldflags "$(LDFLAGS)" -o $(BIN) ./cmd/halovet
 
 postgres: ## make sure PostgreSQL server binaries are installed (apt-get if missing)
 	@scripts/ensure-postgres.sh

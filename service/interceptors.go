@@ -53,6 +53,10 @@ func (s *Server) recoverStream(srv any, ss grpc.ServerStream, info *grpc.StreamS
 // header carries the one the call ran under.
 const requestIDHeader = "x-request-id"
 
+// VersionHeader is the response header naming the server's build, "VERSION REVISION"
+// (Options.Version), on every answer; `halovet probe` prints it.
+const VersionHeader = "halovet-version"
+
 // requestID returns the caller's x-request-id when it is acceptable, or a new one.
 func requestID(ctx context.Context) string {
 	if md, ok := metadata.FromIncomingContext(ctx); ok {
@@ -108,7 +112,7 @@ func (s *Server) logUnary(ctx context.Context, req any, info *grpc.UnaryServerIn
 	start := time.Now()
 	c := s.newCall(ctx, info.FullMethod)
 	ctx = callctx.With(ctx, c)
-	_ = grpc.SetHeader(ctx, metadata.Pairs(requestIDHeader, c.RequestID))
+	_ = grpc.SetHeader(ctx, metadata.Pairs(requestIDHeader, c.RequestID, VersionHeader, s.versionText()))
 	resp, err := h(ctx, req)
 	logCall(ctx, c, start, err)
 	return resp, err
@@ -126,11 +130,13 @@ func (s *Server) logStream(srv any, ss grpc.ServerStream, info *grpc.StreamServe
 	start := time.Now()
 	c := s.newCall(ss.Context(), info.FullMethod)
 	ctx := callctx.With(ss.Context(), c)
-	_ = ss.SetHeader(metadata.Pairs(requestIDHeader, c.RequestID))
+	_ = ss.SetHeader(metadata.Pairs(requestIDHeader, c.RequestID, VersionHeader, s.versionText()))
 	err := h(srv, &callStream{ServerStream: ss, ctx: ctx})
 	logCall(ctx, c, start, err)
 	return err
 }
+
+func (s *Server) versionText() string { return s.opts.Version + " " + s.opts.Revision }
 
 func logCall(ctx context.Context, c *callctx.Call, start time.Time, err error) {
 	code := status.Code(err)

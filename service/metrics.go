@@ -30,7 +30,7 @@ type metrics struct {
 // expected in milliseconds, a report in well under a second, a recorded stream longer.
 var latencyBuckets = []float64{0.0005, 0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10, 30}
 
-func newMetrics(st *store.Store) *metrics {
+func newMetrics(st *store.Store, version, revision string) *metrics {
 	m := &metrics{
 		reg: prometheus.NewRegistry(),
 		rpc: grpcprom.NewServerMetrics(grpcprom.WithServerHandlingTimeHistogram(grpcprom.WithHistogramBuckets(latencyBuckets))),
@@ -47,7 +47,7 @@ func newMetrics(st *store.Store) *metrics {
 		collectors.NewGoCollector(),
 		collectors.NewProcessCollector(collectors.ProcessCollectorOpts{}),
 		collectors.NewBuildInfoCollector(),
-		versionCollector(),
+		versionCollector(version, revision),
 		&poolCollector{st: st},
 		&quotaCollector{st: st, now: time.Now},
 	)
@@ -126,6 +126,29 @@ func (s *countingStream) SendMsg(msg any) error {
 	return err
 }
 
+// buildVersion fills an empty version or revision from the binary's build information
+// (the module version, the VCS revision the toolchain stamped), else "(devel)" and
+// "unknown".
+func buildVersion(version, revision string) (string, string) {
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		if version == "" && bi.Main.Version != "" {
+			version = bi.Main.Version
+		}
+		for _, s := range bi.Settings {
+			if s.Key == "vcs.revision" && revision == "" {
+				revision = s.Value
+			}
+		}
+	}
+	if version == "" {
+		version = "(devel)"
+	}
+	if revision == "" {
+		revision = "unknown"
+	}
+	return version, revision
+}
+
 // enumLabel is an enum value name as a label: lower case, hyphens, without its prefix.
 func enumLabel(name, prefix string) string {
 	b := []byte(name[min(len(prefix), len(name)):])
@@ -140,18 +163,9 @@ func enumLabel(name, prefix string) string {
 	return string(b)
 }
 
-// versionCollector is halovet_build_info{version, revision}: the module version and the
-// VCS revision stamped into the binary by the Go toolchain.
-func versionCollector() prometheus.Collector {
-	version, revision := "(devel)", "unknown"
-	if bi, ok := debug.ReadBuildInfo(); ok {
-		version = bi.Main.Version
-		for _, s := range bi.Settings {
-			if s.Key == "vcs.revision" {
-				revision = s.Value
-			}
-		}
-	}
+// versionCollector is halovet_build_info{version, revision}: the running build (see
+// Options.Version).
+func versionCollector(version, revision string) prometheus.Collector {
 	g := prometheus.NewGauge(prometheus.GaugeOpts{
 		Namespace: "halovet", Name: "build_info", Help: "The running binary's module version and VCS revision (value 1).",
 		ConstLabels: prometheus.Labels{"version": version, "revision": revision},

@@ -33,6 +33,11 @@ type Options struct {
 	ServerOptions []grpc.ServerOption
 	// Limits bound messages, calls, streams and connections; zero fields take DefaultLimits.
 	Limits Limits
+	// Version and Revision name the running build (the module version and the commit it
+	// was built from): logged at start, in the halovet_build_info metric, and in the
+	// VersionHeader of every answer, health checks included. Empty: read from the
+	// binary's build information, else "(devel)" and "unknown".
+	Version, Revision string
 }
 
 // Server is halovet's gRPC server.
@@ -74,7 +79,8 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	if opts.Now == nil {
 		opts.Now = time.Now
 	}
-	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st)}
+	opts.Version, opts.Revision = buildVersion(opts.Version, opts.Revision)
+	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st, opts.Version, opts.Revision)}
 	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
 	s.limits = opts.Limits.withDefaults()
 	s.inFlight = newLimiter(s.limits.MaxInFlight)
@@ -116,7 +122,7 @@ func (s *Server) Serve(ctx context.Context, lis net.Listener) error {
 
 	errc := make(chan error, 1)
 	go func() { errc <- s.grpc.Serve(lis) }()
-	s.log.Info("serving", "listen", lis.Addr().String())
+	s.log.Info("serving", "listen", lis.Addr().String(), "version", s.opts.Version, "revision", s.opts.Revision)
 
 	select {
 	case err := <-errc:

@@ -32,9 +32,9 @@ func addVerb(name, summary, usage string, define func(fs *pflag.FlagSet) runFunc
 	verbs[name] = verbDef{name: name, summary: summary, usage: usage, define: define}
 }
 
-// version is set at link time (-ldflags "-X main.version=..."); otherwise it comes from
-// the module's build information.
-var version = ""
+// version and commit are set at link time (make build: -ldflags "-X main.version=...
+// -X main.commit=..."); otherwise they come from the binary's build information.
+var version, commit = "", ""
 
 func versionString() string {
 	if version != "" {
@@ -44,6 +44,21 @@ func versionString() string {
 		return bi.Main.Version
 	}
 	return "(devel)"
+}
+
+// commitString is the commit the binary was built from, or "unknown".
+func commitString() string {
+	if commit != "" {
+		return commit
+	}
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		for _, s := range bi.Settings {
+			if s.Key == "vcs.revision" {
+				return s.Value
+			}
+		}
+	}
+	return "unknown"
 }
 
 const exitCodeHelp = `Exit codes (every verb):
@@ -112,10 +127,10 @@ func newRoot(ctx context.Context) *cobra.Command {
 	}
 	root.AddCommand(&cobra.Command{
 		Use:   "version",
-		Short: "print halovet's version",
+		Short: "print halovet's version and the commit it was built from",
 		Args:  cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, _ []string) error {
-			_, err := fmt.Fprintf(cmd.OutOrStdout(), "halovet %s\n", versionString())
+			_, err := fmt.Fprintf(cmd.OutOrStdout(), "halovet %s (commit %s)\n", versionString(), commitString())
 			return err
 		},
 	})

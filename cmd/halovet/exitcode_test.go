@@ -84,7 +84,12 @@ func TestExitCodeContract(t *testing.T) {
 		{"load unreachable", []string{"load", demoScenario, s, dead}, exitUnreachable, "", "halovet serve"},
 		{"unknown verb", []string{"chek"}, exitUsage, "", "did you mean check?"},
 		{"unknown flag", []string{"licences", "--colour"}, exitUsage, "", "--colour"},
-		{"version", []string{"version"}, exitOK, "halovet ", ""},
+		{"probe success", []string{"probe", s, d}, exitOK, "SERVING", ""},
+		{"probe names the build", []string{"probe", s, d}, exitOK, "(commit ", ""},
+		{"probe live", []string{"probe", "--live", s, d}, exitOK, "live ", ""},
+		{"probe unusable", []string{"probe", "extra", s, d}, exitUsage, "", "unexpected argument"},
+		{"probe unreachable", []string{"probe", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"version", []string{"version"}, exitOK, "(commit ", ""},
 		{"--version", []string{"--version"}, exitOK, "halovet ", ""},
 	}
 	for _, tc := range cases {

@@ -115,7 +115,8 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		}
 		stopWatch := cat.Watch(ctx, db.Store)
 		defer stopWatch()
-		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts, Limits: limits()})
+		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts, Limits: limits(),
+			Version: versionString(), Revision: commitString()})
 		// The listeners stop together: when one fails, the others are shut down too.
 		ctx, stop := context.WithCancel(ctx)
 		defer stop()
