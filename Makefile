@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc
+.PHONY: help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -32,7 +32,7 @@ cc: ## make sure a C compiler is installed for go test -race (apt-get if missing
 demo: postgres build ## run the demo scenario end to end on a private PostgreSQL cluster
 	$(BIN) demo
 
-test: fmt-check tidy-check vet staticcheck drift lint postgres cc unit fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, fuzz
+test: fmt-check tidy-check vet staticcheck drift lint kubeconform postgres cc unit fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, fuzz
 	@echo "make test: all checks passed"
 
 fmt-check: ## fail when gofmt would change a tracked Go file (needs a git checkout: it checks what git tracks)
@@ -79,6 +79,22 @@ fuzz: ## run every fuzz target for FUZZTIME executions (default 20000x; a durati
 	    $(GO) test -run='^$$' -fuzz="^$$t$$" -fuzztime=$(FUZZTIME) "$$pkg" >"$$log" 2>&1 || { cat "$$log"; exit 1; }; \
 	  done; \
 	done
+
+# The Kubernetes release whose API the manifests are validated against; its schemas are
+# kept in deploy/schemas/ (make kube-schemas writes them from the module's OpenAPI document).
+K8S_VERSION := 1.34.2
+K8S_SCHEMAS := deploy/schemas/k8s-v1.34
+K8S_KINDS := io.k8s.api.apps.v1.Deployment io.k8s.api.batch.v1.Job io.k8s.api.core.v1.Service \
+	io.k8s.api.core.v1.ConfigMap io.k8s.api.core.v1.Secret io.k8s.api.policy.v1.PodDisruptionBudget \
+	io.k8s.api.networking.v1.NetworkPolicy
+
+kubeconform: ## validate deploy/k8s with kubeconform (pinned in tools/) against the schemas in deploy/schemas (no network)
+	$(GO) tool -modfile=tools/go.mod kubeconform -strict -summary -skip Kustomization \
+	  -schema-location '$(K8S_SCHEMAS)/{{ .ResourceKind }}{{ .KindSuffix }}.json' deploy/k8s
+
+kube-schemas: ## rewrite deploy/schemas from the OpenAPI document of k8s.io/kubernetes@v$(K8S_VERSION) (downloads the module)
+	spec=$$($(GO) mod download -json k8s.io/kubernetes@v$(K8S_VERSION) | sed -n 's/^[[:space:]]*"Dir": "\(.*\)",$$/\1/p')/api/openapi-spec/swagger.json; \
+	rm -rf $(K8S_SCHEMAS); $(GO) run -C tools ./k8sschemas -spec "$$spec" -out "$(CURDIR)/$(K8S_SCHEMAS)" $(K8S_KINDS)
 
 bench: ## run the Go benchmarks (see BENCHMARKS.md)
 	$(GO) test -run='^$$' -bench=. -benchmem ./...

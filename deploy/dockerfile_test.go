@@ -112,6 +112,27 @@ func TestDockerfileBuildsStaticBinaryAndRunsAsNonRoot(t *testing.T) {
 		t.Errorf("runtime stage COPY %q; want the binary copied from the build stage to /usr/local/bin/halovet", copied)
 	}
 
+	// A base image pinned by digest (scripts/pin-base-images.sh) keeps its tag for the
+	// reader and carries a whole sha256 digest.
+	for _, st := range df.stages {
+		ref := strings.Fields(find(st, "FROM")[0])[0]
+		if _, digest, pinned := strings.Cut(ref, "@"); pinned && !regexp.MustCompile(`^sha256:[0-9a-f]{64}$`).MatchString(digest) {
+			t.Errorf("FROM %s: %q is not a sha256 digest", ref, digest)
+		}
+	}
+	labels := strings.Join(find(final, "LABEL"), " ")
+	for _, l := range []string{"org.opencontainers.image.version=\"${VERSION}\"", "org.opencontainers.image.revision=\"${REVISION}\"", "org.opencontainers.image.title="} {
+		if !strings.Contains(labels, l) {
+			t.Errorf("runtime LABEL %q lacks %s", labels, l)
+		}
+	}
+	if !strings.Contains(buildRun, "main.version=${VERSION}") || !strings.Contains(buildRun, "main.commit=${REVISION}") {
+		t.Errorf("build RUN %q does not stamp VERSION and REVISION into the binary", buildRun)
+	}
+	if hc := strings.Join(find(final, "HEALTHCHECK"), " "); !strings.Contains(hc, `"/usr/local/bin/halovet", "probe"`) {
+		t.Errorf("HEALTHCHECK %q; want the binary's probe verb (the image has no shell)", hc)
+	}
+
 	// The image and the Kubernetes manifests must agree on the user.
 	m := loadManifests(t)
 	if u := m.deployment.Spec.Template.Spec.SecurityContext.RunAsUser; u == nil || strconv.FormatInt(*u, 10) != user {

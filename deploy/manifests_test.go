@@ -75,6 +75,7 @@ type (
 		} `json:"envFrom"`
 		ReadinessProbe *probe `json:"readinessProbe"`
 		LivenessProbe  *probe `json:"livenessProbe"`
+		StartupProbe   *probe `json:"startupProbe"`
 		Lifecycle      *struct {
 			PreStop *struct {
 				Sleep *struct {
@@ -323,6 +324,12 @@ func TestDeploymentServesGRPCWithProbesAndSecrets(t *testing.T) {
 			t.Errorf("%s = %+v; want a native grpc probe on port %d", name, p, apiPort)
 		}
 	}
+	// The startup probe holds the other two back while the server loads; it asks the
+	// liveness service (loading is not a database outage) and gives a minute at least.
+	if p := c.StartupProbe; p == nil || p.GRPC == nil || p.GRPC.Port != apiPort || p.GRPC.Service == nil ||
+		*p.GRPC.Service != halovetservice.LivenessService || p.PeriodSeconds*p.FailureThreshold < 60 {
+		t.Errorf("startupProbe = %+v; want a grpc probe of %q on port %d allowing at least 60s", p, halovetservice.LivenessService, apiPort)
+	}
 	if p := c.LivenessProbe; p != nil && p.PeriodSeconds*max(p.FailureThreshold, 1) < 60 {
 		t.Errorf("livenessProbe gives up after %ds; want at least 60s", p.PeriodSeconds*p.FailureThreshold)
 	}
@@ -513,6 +520,43 @@ func TestEnvironmentNamesAreReadByHalovet(t *testing.T) {
 	for _, name := range used {
 		if !known[name] {
 			t.Errorf("%s is set in deploy/ but cmd/halovet never reads it (it reads %v)", name, slices.Sorted(maps.Keys(known)))
+		}
+	}
+}
+
+// TestNetworkPolicyAdmitsTheServersPorts: the policy selects the server pods (the
+// Deployment's labels), admits the API ports and the metrics port by the container's port
+// names, and limits both directions.
+func TestNetworkPolicyAdmitsTheServersPorts(t *testing.T) {
+	m := loadManifests(t)
+	var np struct {
+		object
+		Spec struct {
+			PodSelector selector `json:"podSelector"`
+			PolicyTypes []string `json:"policyTypes"`
+			Ingress     []struct {
+				Ports []struct {
+					Port any `json:"port"`
+				} `json:"ports"`
+			} `json:"ingress"`
+		} `json:"spec"`
+	}
+	load(t, "k8s/networkpolicy.yaml", &np)
+	if np.Kind != "NetworkPolicy" || !selects(np.Spec.PodSelector.MatchLabels, m.deployment.Spec.Template.Metadata.Labels) {
+		t.Errorf("networkpolicy %s selects %v; want the server pods %v", np.Kind, np.Spec.PodSelector.MatchLabels, m.deployment.Spec.Template.Metadata.Labels)
+	}
+	if !slices.Equal(np.Spec.PolicyTypes, []string{"Ingress", "Egress"}) {
+		t.Errorf("policyTypes %v; want Ingress and Egress", np.Spec.PolicyTypes)
+	}
+	admitted := map[string]bool{}
+	for _, r := range np.Spec.Ingress {
+		for _, p := range r.Ports {
+			admitted[fmt.Sprint(p.Port)] = true
+		}
+	}
+	for _, p := range onlyContainer(t, "deployment", m.deployment.Spec.Template).Ports {
+		if !admitted[p.Name] {
+			t.Errorf("container port %s (%d) is not admitted by the NetworkPolicy (admitted %v)", p.Name, p.ContainerPort, admitted)
 		}
 	}
 }
