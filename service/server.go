@@ -5,10 +5,15 @@ import (
 	"errors"
 	"log/slog"
 	"net"
+	"strings"
 	"sync/atomic"
 	"time"
 
+	"go.opentelemetry.io/contrib/instrumentation/google.golang.org/grpc/otelgrpc"
+	"go.opentelemetry.io/otel/propagation"
+	"go.opentelemetry.io/otel/trace"
 	"google.golang.org/grpc"
+	"google.golang.org/grpc/stats"
 	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 
@@ -38,6 +43,10 @@ type Options struct {
 	// VersionHeader of every answer, health checks included. Empty: read from the
 	// binary's build information, else "(devel)" and "unknown".
 	Version, Revision string
+	// TracerProvider, when set, traces every call (otelgrpc: one server span per RPC,
+	// W3C trace context taken from the caller); give the store the same provider
+	// (store.OpenOptions) for a child span per query. Nil: no tracing.
+	TracerProvider trace.TracerProvider
 }
 
 // Server is halovet's gRPC server.
@@ -89,10 +98,19 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	// chain of interceptors.go, and the limits last, so that refused calls are logged.
 	unary := append(append([]grpc.UnaryServerInterceptor{s.m.unary(), checkDecodedUnary}, s.unaryInterceptors()...), s.limitUnary)
 	stream := append(append([]grpc.StreamServerInterceptor{s.m.stream()}, s.streamInterceptors()...), s.limitStream)
-	s.grpc = grpc.NewServer(append(append([]grpc.ServerOption{
+	own := []grpc.ServerOption{
 		grpc.ChainUnaryInterceptor(unary...),
 		grpc.ChainStreamInterceptor(stream...),
-	}, s.limits.serverOptions()...), opts.ServerOptions...)...)
+	}
+	if opts.TracerProvider != nil {
+		own = append(own, grpc.StatsHandler(otelgrpc.NewServerHandler(
+			otelgrpc.WithTracerProvider(opts.TracerProvider),
+			otelgrpc.WithPropagators(propagation.NewCompositeTextMapPropagator(propagation.TraceContext{}, propagation.Baggage{})),
+			// The health checks of probes and balancers every few seconds are noise.
+			otelgrpc.WithFilter(func(info *stats.RPCTagInfo) bool { return !strings.HasPrefix(info.FullMethodName, "/grpc.health.v1.") }),
+		)))
+	}
+	s.grpc = grpc.NewServer(append(append(own, s.limits.serverOptions()...), opts.ServerOptions...)...)
 	healthpb.RegisterHealthServer(s.grpc, s.health)
 	if err := registerReflection(s.grpc); err != nil {
 		s.log.Error("reflection answers without documentation", "err", err)

@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5/pgxpool"
+	"go.opentelemetry.io/otel/trace"
 )
 
 // DefaultStatementTimeout is the longest one SQL statement of the pool may run before
@@ -19,10 +20,16 @@ type OpenOptions struct {
 	// the pool: 0 means DefaultStatementTimeout, a negative value none. A statement_timeout
 	// given in the URL's options is kept.
 	StatementTimeout time.Duration
+	// TracerProvider, when set, gets a span of every statement, batch and COPY, as a
+	// child of the caller's span (see queryTracer); nil: no tracing.
+	TracerProvider trace.TracerProvider
 }
 
-// applyPoolLimits sets the pool's session limits.
+// applyPoolLimits sets the pool's session limits, and its tracer when one is given.
 func applyPoolLimits(cfg *pgxpool.Config, o OpenOptions) {
+	if o.TracerProvider != nil {
+		cfg.ConnConfig.Tracer = newQueryTracer(o.TracerProvider)
+	}
 	d := o.StatementTimeout
 	if d == 0 {
 		d = DefaultStatementTimeout

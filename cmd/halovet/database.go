@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"github.com/spf13/pflag"
+	"go.opentelemetry.io/otel/trace"
 
 	"github.com/halovet/halovet/pglocal"
 	"github.com/halovet/halovet/store"
@@ -23,6 +24,8 @@ type dbFlags struct {
 	ephemeral bool
 	// statementTimeout is the pool's statement_timeout (store.OpenOptions); 0: the default.
 	statementTimeout time.Duration
+	// tracerProvider traces the pool's statements (store.OpenOptions); nil: none.
+	tracerProvider trace.TracerProvider
 }
 
 func defaultDataDir() string {
@@ -88,7 +91,7 @@ func openDatabase(ctx context.Context, d dbFlags, migrate bool, log *slog.Logger
 		}
 		log.Info("schema migrated", "version", v)
 	}
-	st, err := store.OpenWith(ctx, db.URL, store.OpenOptions{StatementTimeout: d.statementTimeout})
+	st, err := store.OpenWith(ctx, db.URL, store.OpenOptions{StatementTimeout: d.statementTimeout, TracerProvider: d.tracerProvider})
 	if err != nil {
 		db.Close()
 		return nil, databaseErr(err)

@@ -31,7 +31,9 @@ standard grpc.health.v1 health service and server reflection on --listen, and th
 calls over HTTP/JSON (paths in GET /openapi.json) and gRPC-Web on --http-listen. Without --database-url it runs a
 private PostgreSQL cluster in --data-dir from the machine's PostgreSQL server binaries
 and stops it on exit. SIGINT or SIGTERM shut down gracefully: health turns NOT_SERVING,
-calls in flight get --grace-period to finish.`
+calls in flight get --grace-period to finish.
+
+` + tracingHelp
 
 func defineServe(fs *pflag.FlagSet) runFunc {
 	var d dbFlags
@@ -94,6 +96,19 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 			defer httpLis.Close()
 		}
 
+		tp, stopTracing, err := startTracing(ctx, log)
+		if err != nil {
+			return err
+		}
+		defer func() {
+			// Flush the spans still buffered; a collector that is gone costs at most 5 s.
+			flushCtx, cancel := context.WithTimeout(context.WithoutCancel(ctx), 5*time.Second)
+			defer cancel()
+			if err := stopTracing(flushCtx); err != nil {
+				log.Warn("flushing traces", "err", err)
+			}
+		}()
+		d.tracerProvider = tp
 		db, err := openDatabase(ctx, d, *migrate, log)
 		if err != nil {
 			return err
@@ -116,7 +131,7 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		stopWatch := cat.Watch(ctx, db.Store)
 		defer stopWatch()
 		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts, Limits: limits(),
-			Version: versionString(), Revision: commitString()})
+			Version: versionString(), Revision: commitString(), TracerProvider: tp})
 		// The listeners stop together: when one fails, the others are shut down too.
 		ctx, stop := context.WithCancel(ctx)
 		defer stop()
