@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas
+.PHONY: help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -95,6 +95,9 @@ kubeconform: ## validate deploy/k8s with kubeconform (pinned in tools/) against 
 kube-schemas: ## rewrite deploy/schemas from the OpenAPI document of k8s.io/kubernetes@v$(K8S_VERSION) (downloads the module)
 	spec=$$($(GO) mod download -json k8s.io/kubernetes@v$(K8S_VERSION) | sed -n 's/^[[:space:]]*"Dir": "\(.*\)",$$/\1/p')/api/openapi-spec/swagger.json; \
 	rm -rf $(K8S_SCHEMAS); $(GO) run -C tools ./k8sschemas -spec "$$spec" -out "$(CURDIR)/$(K8S_SCHEMAS)" $(K8S_KINDS)
+
+bench-load: postgres ## load benchmark: halovet serve on a private cluster, 50 calls in flight over 4 connections (cmd/loadbench; see BENCHMARKS.md)
+	$(GO) run ./cmd/loadbench -repo .
 
 bench: ## run the Go benchmarks (see BENCHMARKS.md)
 	$(GO) test -run='^$$' -bench=. -benchmem ./...

@@ -151,7 +151,6 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 
 	batch := validate.NewBatch(env)
 	var sum summary
-	var r validate.Record
 	var checkErr error
 	drained := false // the receiver has finished: the client closed its side, or Recv failed
 check:
@@ -179,10 +178,15 @@ check:
 			break
 		}
 		batch.SetEnv(env)
-		vs := make([]validate.Verdict, len(recs))
+		// The records of a message are checked on every core (Batch.CheckAll: the same
+		// verdicts as one at a time; quota and keys are settled in order).
+		rs := make([]validate.Record, len(recs))
 		for i, pb := range recs {
-			r = recordFromProto(pb)
-			vs[i] = batch.Check(&r)
+			rs[i] = recordFromProto(pb)
+		}
+		vs := make([]validate.Verdict, len(recs))
+		batch.CheckAll(rs, vs)
+		for i := range vs {
 			sum.add(&vs[i], false, vs[i].Replayed)
 		}
 		select {
