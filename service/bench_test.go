@@ -241,6 +241,31 @@ func BenchmarkCheckInProcess(b *testing.B) {
 	reportRate(b, total)
 }
 
+// BenchmarkCheckAllInProcess is CheckInProcess with the records of each 256-record
+// message checked by Batch.CheckAll, on every core, as CheckShipments does now.
+func BenchmarkCheckAllInProcess(b *testing.B) {
+	s := startBenchServer(b)
+	env := s.benchEnv(b)
+	recs := parseAll(b, benchCSV(benchRecords, "A-"))
+	out := make([]validate.Verdict, 256)
+	b.ReportAllocs()
+	total := 0
+	for b.Loop() {
+		batch := validate.NewBatch(env)
+		for from := 0; from < len(recs); from += 256 {
+			msg := recs[from:min(from+256, len(recs))]
+			batch.CheckAll(msg, out[:len(msg)])
+			for i := range msg {
+				if out[i].Outcome == validate.OutcomeRejected {
+					b.Fatalf("record %s rejected: %v", msg[i].Key, out[i].Findings)
+				}
+			}
+		}
+		total += len(recs)
+	}
+	reportRate(b, total)
+}
+
 // streamBatch parses data and streams it as the CLI does: a sender goroutine reads and
 // sends, the caller receives the verdicts in order and the closing summary.
 func streamBatch(b *testing.B, data []byte, send func([]*halovetv1.ShipmentRecord) error, closeSend func() error,

@@ -20,6 +20,9 @@ type Batch struct {
 	env    *Env
 	ledger *MemoryLedger
 	seen   *KeyWindow[seenRecord] // by hash of company and key
+	// scratch holds CheckAll's records between the parallel rules and the settling, reused
+	// from message to message.
+	scratch []checker
 }
 
 type seenRecord struct {
@@ -46,18 +49,27 @@ func (b *Batch) Ledger() *MemoryLedger { return b.ledger }
 // with the same content is a replay: it gets the DUP_REPLAY notice, Replayed is set and
 // nothing is drawn twice. The same key with other content is DUP_KEY_CONFLICT, an error.
 func (b *Batch) Check(r *Record) Verdict {
+	c := checker{env: b.env, r: r}
+	c.rules()
+	return b.settle(&c)
+}
+
+// settle finishes a record that has been through the pure rules, in stream order: its
+// quota against what earlier records drew, and its key against the keys seen.
+func (b *Batch) settle(c *checker) Verdict {
+	r := c.r
 	company, key := strings.TrimSpace(r.CompanyID), strings.TrimSpace(r.Key)
 	if key == "" {
-		return Check(b.env, r, b.ledger)
+		return c.finish(b.ledger)
 	}
 	k := b.seen.Hash(company, key)
 	prev, dup := b.seen.Get(k)
 	if !dup {
-		v := Check(b.env, r, b.ledger)
+		v := c.finish(b.ledger)
 		b.seen.Put(k, seenRecord{fingerprint: b.seen.HashString(v.Fingerprint), line: r.Line})
 		return v
 	}
-	v := Check(b.env, r, nil) // nothing drawn for a duplicate
+	v := c.finish(nil) // nothing drawn for a duplicate
 	same := prev.fingerprint == b.seen.HashString(v.Fingerprint)
 	earlier := v.Fingerprint
 	if !same {

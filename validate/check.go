@@ -105,6 +105,16 @@ type checker struct {
 	partnerNonParty bool
 	notBound        []substances.Group // groups the partner is not bound for, in component order
 	draws           []LineDraw
+
+	fp           string               // the record's Fingerprint
+	boundsFailed bool                 // a bound was broken: no further rule ran
+	measurement  *substances.Analysis // measurementRules' comparison
+	counts       bool                 // the record counts in consumption (purposeRules)
+	// Where the quota is judged (quotaRules): the findings before it, the draws planned,
+	// and whether the record got that far.
+	quotaAt  int
+	planned  []LineDraw
+	quotaDue bool
 }
 
 func (c *checker) add(code, field, format string, args ...any) {
@@ -124,15 +134,21 @@ func (c *checker) add(code, field, format string, args ...any) {
 // Check does not look for duplicate keys: Batch does that for a stream, the store for what
 // is recorded.
 func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
-	env.prepare()
-	c := checker{env: env, r: r, ledger: ledger}
+	c := checker{env: env, r: r}
+	c.rules()
+	return c.finish(ledger)
+}
+
+// rules runs every rule that does not depend on the quota earlier records drew: they are
+// pure (the environment is only read), so the records of one message may go through them
+// in parallel. finish then judges the quota and makes the verdict.
+func (c *checker) rules() {
+	c.env.prepare()
+	c.fp = Fingerprint(c.r)
 	c.recordRules()
 	if !c.boundsRules() {
-		v := Verdict{RecordKey: r.Key, Line: r.Line, Fingerprint: Fingerprint(r)}
-		sortFindings(c.fs)
-		v.Outcome = OutcomeOf(c.fs)
-		v.Findings = capFindings(c.fs)
-		return v
+		c.boundsFailed = true
+		return
 	}
 	c.quantityRules()
 	c.dateRules()
@@ -143,7 +159,7 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 	c.casRule()
 	c.hsRule()
 	c.formulaRule()
-	measurement := c.measurementRules()
+	c.measurement = c.measurementRules()
 	controlled := len(c.groups) > 0
 	if c.evOK && !controlled {
 		c.add(CodeSubstNotControlled, "", "%s contains no substance controlled by the Montreal Protocol; licence, quota, partner and phase-out checks do not apply under the Protocol", c.designation)
@@ -153,9 +169,23 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 		c.licenceRules()
 		c.phaseOutRules()
 	}
-	counts := c.purposeRules(controlled)
+	c.counts = c.purposeRules(controlled)
+}
 
-	v := Verdict{RecordKey: r.Key, Line: r.Line, Fingerprint: Fingerprint(r), Measurement: measurement}
+// finish judges the quota against ledger (nil: only the licence's own balance), makes the
+// verdict, and draws an accepted record's quota on ledger.
+func (c *checker) finish(ledger QuotaLedger) Verdict {
+	r := c.r
+	if c.boundsFailed {
+		v := Verdict{RecordKey: r.Key, Line: r.Line, Fingerprint: c.fp}
+		sortFindings(c.fs)
+		v.Outcome = OutcomeOf(c.fs)
+		v.Findings = capFindings(c.fs)
+		return v
+	}
+	c.ledger = ledger
+	c.quotaRules()
+	v := Verdict{RecordKey: r.Key, Line: r.Line, Fingerprint: c.fp, Measurement: c.measurement}
 	if c.evOK {
 		v.Resolved = true
 		v.Figures = Figures{
@@ -165,7 +195,7 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 			ODPTonnes:             c.ev.ODPTonnes,
 			CO2eTonnes:            c.ev.CO2eTonnes,
 			Components:            c.ev.Components,
-			CountsInConsumption:   counts,
+			CountsInConsumption:   c.counts,
 			PartnerNonParty:       c.partnerNonParty,
 			PartnerNotBoundGroups: c.notBound,
 			SafetyClass:           c.ev.SafetyClass,

@@ -246,6 +246,22 @@ func (c *checker) licenceRules() {
 	if r.Direction == DirectionTransit || !c.qtyOK {
 		return
 	}
+	// The quota the record draws is judged once the quota drawn by the earlier records of
+	// the stream is known (quotaRules, from finish): the rules up to here are pure and may
+	// run in parallel for the records of one message.
+	c.quotaAt, c.planned, c.quotaDue = len(c.fs), draws, true
+}
+
+// quotaRules judges the planned draws against the quota left, counting what earlier
+// records of the stream drew (c.ledger), and inserts its findings where licenceRules
+// stopped, so that the findings keep the order of the rules.
+func (c *checker) quotaRules() {
+	if !c.quotaDue {
+		return
+	}
+	lic, draws := c.lic, c.planned
+	rest := slices.Clone(c.fs[c.quotaAt:])
+	c.fs = c.fs[:c.quotaAt]
 	for _, d := range draws {
 		line, _ := lic.line(d.LineNumber)
 		if line.Unit < QuotaMetricTonnes || line.Unit > QuotaCO2eTonnes || line.Allocated < 0 || math.IsNaN(line.Allocated) {
@@ -267,6 +283,9 @@ func (c *checker) licenceRules() {
 			c.add(CodeQuotaNearLimit, "", "after this shipment %.1f %% of quota line %d (%s) of licence %s is used (%s of %s %s)",
 				100*(used+d.Amount)/line.Allocated, line.LineNumber, lineScope(line), lic.Number, fmtAmount(used+d.Amount), fmtAmount(line.Allocated), line.Unit)
 		}
+	}
+	if len(rest) > 0 {
+		c.fs = append(c.fs, rest...)
 	}
 	c.draws = draws
 }
