@@ -14,8 +14,9 @@ const DuplicateWindow = 100_000
 // Batch checks the records of one stream in order (check mode): it carries a MemoryLedger so
 // each record is judged against the quota earlier records left, and it remembers the last
 // DuplicateWindow (company, key) pairs with their fingerprints to tell a replay from a
-// conflict. Keys and fingerprints are kept as 64-bit hashes. A Batch is not safe for
-// concurrent use; use one per stream.
+// conflict. Keys and contents are kept as 64-bit hashes (maphash; nothing is stored in
+// check mode, so the content is not fingerprinted with SHA-256: the verdicts of a Batch
+// carry no Fingerprint). A Batch is not safe for concurrent use; use one per stream.
 type Batch struct {
 	env    *Env
 	ledger *MemoryLedger
@@ -26,7 +27,7 @@ type Batch struct {
 }
 
 type seenRecord struct {
-	fingerprint uint64 // hash of the record's fingerprint
+	fingerprint uint64 // contentHash of the record
 	line        int64
 }
 
@@ -49,7 +50,7 @@ func (b *Batch) Ledger() *MemoryLedger { return b.ledger }
 // with the same content is a replay: it gets the DUP_REPLAY notice, Replayed is set and
 // nothing is drawn twice. The same key with other content is DUP_KEY_CONFLICT, an error.
 func (b *Batch) Check(r *Record) Verdict {
-	c := checker{env: b.env, r: r}
+	c := checker{env: b.env, r: r, seed: &b.seen.seed}
 	c.rules()
 	return b.settle(&c)
 }
@@ -66,16 +67,16 @@ func (b *Batch) settle(c *checker) Verdict {
 	prev, dup := b.seen.Get(k)
 	if !dup {
 		v := c.finish(b.ledger)
-		b.seen.Put(k, seenRecord{fingerprint: b.seen.HashString(v.Fingerprint), line: r.Line})
+		b.seen.Put(k, seenRecord{fingerprint: c.fpHash, line: r.Line})
 		return v
 	}
 	v := c.finish(nil) // nothing drawn for a duplicate
-	same := prev.fingerprint == b.seen.HashString(v.Fingerprint)
-	earlier := v.Fingerprint
+	same := prev.fingerprint == c.fpHash
+	earlier := "same"
 	if !same {
 		earlier = "" // only equality matters to DuplicateFinding
 	}
-	v.Add(DuplicateFinding(earlier, v.Fingerprint, prev.line))
+	v.Add(DuplicateFinding(earlier, "same", prev.line))
 	v.Replayed = same
 	v.Draws = nil
 	return v

@@ -44,7 +44,7 @@ func (b *Batch) CheckAll(rs []Record, out []Verdict) {
 					return
 				}
 				for i := from; i < min(from+parallelChunk, len(rs)); i++ {
-					cs[i] = checker{env: b.env, r: &rs[i]}
+					cs[i] = checker{env: b.env, r: &rs[i], seed: &b.seen.seed}
 					cs[i].rules()
 				}
 			}

@@ -2,6 +2,7 @@ package validate
 
 import (
 	"fmt"
+	"hash/maphash"
 	"slices"
 	"strings"
 	"time"
@@ -56,7 +57,7 @@ type Verdict struct {
 	Findings    []Finding // errors first, then warnings, then notices
 	Resolved    bool      // Figures are computed (the substance or composition resolved)
 	Figures     Figures
-	Fingerprint string     // Fingerprint of the record
+	Fingerprint string     // Fingerprint of the record; empty in the verdicts of a Batch (check mode)
 	Draws       []LineDraw // quota draws of an accepted record; nil when rejected
 	Replayed    bool       // set by Batch: an identical record with this key came earlier
 	// Measurement is the comparison of the record's measured composition with the catalogue
@@ -106,7 +107,9 @@ type checker struct {
 	notBound        []substances.Group // groups the partner is not bound for, in component order
 	draws           []LineDraw
 
-	fp           string               // the record's Fingerprint
+	fp           string               // the record's Fingerprint (when seed is nil)
+	seed         *maphash.Seed        // set by a Batch: contentHash instead of Fingerprint
+	fpHash       uint64               // contentHash(*seed, r)
 	boundsFailed bool                 // a bound was broken: no further rule ran
 	measurement  *substances.Analysis // measurementRules' comparison
 	counts       bool                 // the record counts in consumption (purposeRules)
@@ -144,7 +147,11 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 // in parallel. finish then judges the quota and makes the verdict.
 func (c *checker) rules() {
 	c.env.prepare()
-	c.fp = Fingerprint(c.r)
+	if c.seed != nil {
+		c.fpHash = contentHash(*c.seed, c.r)
+	} else {
+		c.fp = Fingerprint(c.r)
+	}
 	c.recordRules()
 	if !c.boundsRules() {
 		c.boundsFailed = true
