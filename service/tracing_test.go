@@ -103,7 +103,7 @@ func TestTracesSpanPerRPCWithChildSpanPerQuery(t *testing.T) {
 		queries++
 		attrs := map[string]string{}
 		for _, a := range s.Attributes {
-			attrs[string(a.Key)] = a.Value.Emit()
+			attrs[string(a.Key)] = a.Value.String()
 		}
 		if s.SpanKind != trace.SpanKindClient || s.Name != "SELECT" || attrs["db.system.name"] != "postgresql" || !strings.Contains(attrs["db.query.text"], "parties") {
 			t.Errorf("child span %s kind %v attributes %v; want a SELECT on parties, client kind, db.system.name postgresql", s.Name, s.SpanKind, attrs)
