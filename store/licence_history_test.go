@@ -159,7 +159,7 @@ func TestAmendmentKeepsWhatPastDrawsMean(t *testing.T) {
 		edit func(*store.Licence)
 		text string
 	}{
-		{"unit", func(x *store.Licence) { x.QuotaLines[0].Unit = "co2e-t" }, "unit and scope stay odp-t C/I"},
+		{"unit", func(x *store.Licence) { x.QuotaLines[0].Unit = "co2e-t" }, "unit, scope and purposes stay odp-t C/I"},
 		{"scope", func(x *store.Licence) { x.QuotaLines[0].AnnexGroup = "F/I" }, "close it (CloseQuotaLine)"},
 		{"company", func(x *store.Licence) { x.CompanyID = "XA-2" }, "company_id stays XA-1"},
 		{"removal", func(x *store.Licence) { x.QuotaLines = nil }, "cannot be removed"},
