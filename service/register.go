@@ -27,7 +27,7 @@ func (s *Server) checkEnv(ctx context.Context) (*validate.Env, error) {
 	case err == nil:
 		return env, nil
 	case errors.Is(err, ledger.ErrNotConfigured):
-		return nil, status.Error(codes.FailedPrecondition, err.Error()+" (LicensingService.PutParty, or 'halovet load FILE')")
+		return nil, status.Error(codes.FailedPrecondition, err.Error()+" (LicensingService.SetReportingParty, 'halovet reporting-party CODE', or 'halovet load FILE' on an empty register)")
 	}
 	return nil, toStatus(ctx, s.log, err)
 }
