@@ -32,6 +32,12 @@ func TestExitCodeContract(t *testing.T) {
 	writeFile(t, empty, lines[0]+"\n")
 	over := filepath.Join(dir, "over.csv")
 	writeFile(t, over, "entry_key,year,entry_type,substance,metric_tonnes,note\nXA-TEST-2025-HCFC-22,2025,historical-import,HCFC-22,5000,invented to exceed\n")
+	// A registry whose last object is invalid (an unknown company); invented.
+	badRegistry := filepath.Join(dir, "bad-registry.json")
+	writeFile(t, badRegistry, `{"companies": [{"companyId": "XA-9001", "name": "Invented"}], "licences": [
+	  {"licenceNumber": "XA-IMP-2026-901", "companyId": "XA-9001", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31",
+	   "quotaLines": [{"annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocated": 1}]},
+	  {"licenceNumber": "XA-IMP-2026-902", "companyId": "NOBODY", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31"}]}`)
 	dead := "127.0.0.1:1" // nothing listens on port 1 of loopback
 	s := "--server"
 
@@ -82,6 +88,8 @@ func TestExitCodeContract(t *testing.T) {
 		{"load success", []string{"load", demoScenario, s, d}, exitOK, "loaded", ""},
 		{"load unusable", []string{"load", okBatch, s, d}, exitUsage, "", "not a registry file"},
 		{"load unreachable", []string{"load", demoScenario, s, dead}, exitUnreachable, "", "halovet serve"},
+		{"load unusable: last object refused", []string{"load", badRegistry, s, d}, exitUsage, "", "nothing was changed"},
+		{"history after a refused load", []string{"history", "XA-IMP-2026-901", s, d}, exitUsage, "", "not found"},
 		{"load dry run", []string{"load", "--dry-run", demoScenario, s, d}, exitOK, "dry run, nothing written", ""},
 		{"load report", []string{"load", demoScenario, s, d}, exitOK, "licences[4]", ""},
 		// Licence verbs on the invented demo licences; the rows run in order.
