@@ -121,8 +121,11 @@ func (l *licensingServer) SetLicenceStatus(ctx context.Context, req *halovetv1.S
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
+	if req.GetEffectiveDate() == "" {
+		eff = time.Time{} // today, or the licence's first day when that is later
+	}
 	kind, err := l.srv.store.SetLicenceStatus(ctx, store.StatusChange{Number: req.GetLicenceNumber(), Status: st, EffectiveOn: eff,
-		Reason: req.GetReason(), ExpectedVersion: int(req.GetExpectedVersion())})
+		Today: l.srv.today(), Reason: req.GetReason(), ExpectedVersion: int(req.GetExpectedVersion())})
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
@@ -242,6 +245,9 @@ func (l *licensingServer) LoadRegistry(ctx context.Context, req *halovetv1.LoadR
 		}
 		eff, evs := l.srv.effectiveDay(f+".status_effective_date", p.GetStatusEffectiveDate(), true)
 		vs = append(append(vs, lvs...), evs...)
+		if p.GetStatusEffectiveDate() == "" {
+			eff = time.Time{} // today, or the licence's first day when that is later
+		}
 		load.Licences = append(load.Licences, store.LoadLicence{Licence: lic, StatusEffectiveOn: eff})
 	}
 	if len(vs) > 0 {

@@ -60,9 +60,13 @@ var ErrStaleVersion = errors.New("the licence changed since it was read")
 
 // StatusChange asks for a licence's status to change from a day on.
 type StatusChange struct {
-	Number      string
-	Status      string    // "active", "suspended" or "revoked"
-	EffectiveOn time.Time // first day of the new status
+	Number string
+	Status string // "active", "suspended" or "revoked"
+	// EffectiveOn is the first day of the new status; the zero time means Today, or the
+	// day of the licence's last status change when that is later (a licence issued for a
+	// later year is suspended from its first day).
+	EffectiveOn time.Time
+	Today       time.Time
 	Reason      string
 	// ExpectedVersion, when not 0, is the version the caller read; another one is refused.
 	ExpectedVersion int
@@ -170,6 +174,12 @@ func setStatusTx(ctx context.Context, tx pgx.Tx, c StatusChange) (string, error)
 	kind, err := statusKind(c.Number, l.status, c.Status)
 	if err != nil {
 		return "", err
+	}
+	if c.EffectiveOn.IsZero() {
+		c.EffectiveOn = c.Today
+		if l.lastChange.After(c.EffectiveOn) {
+			c.EffectiveOn = l.lastChange
+		}
 	}
 	if !l.lastChange.IsZero() && c.EffectiveOn.Before(l.lastChange) {
 		return "", fmt.Errorf("licence %q: effective_date %s is before its last status change (%s from %s); status changes are recorded in date order: %w",

@@ -313,3 +313,33 @@ func TestLoadRegistryIsAtomic(t *testing.T) {
 		t.Fatalf("recording after a reinstatement by load: %+v %v", res, err)
 	}
 }
+
+// A status change without a date takes effect today, or on the licence's last status
+// change when that is later: a licence issued for next year is suspended from its first day.
+func TestUndatedStatusChangeDefaultsToToday(t *testing.T) {
+	st, _ := openTestStore(t)
+	ctx := context.Background()
+	issueTestLicence(t, st, "L-1", 1) // valid from 2026-01-01 (invented)
+	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "suspended", Today: date(2026, 12, 3), Reason: "x"}); err != nil {
+		t.Fatal(err)
+	}
+	if err := st.PutCompany(ctx, store.Company{CompanyID: "XA-1", Name: "Invented Co"}); err != nil {
+		t.Fatal(err)
+	}
+	next := store.Licence{Number: "L-2027", CompanyID: "XA-1", Directions: []string{"import"}, ValidFrom: date(2027, 1, 1), ValidTo: date(2027, 12, 31), Status: "active"}
+	if err := st.IssueLicence(ctx, next, "next year"); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-2027", Status: "suspended", Today: date(2026, 12, 3), Reason: "x"}); err != nil {
+		t.Fatal(err)
+	}
+	for n, want := range map[string]time.Time{"L-1": date(2026, 12, 3), "L-2027": date(2027, 1, 1)} {
+		l, err := st.GetLicence(ctx, n)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := l.StatusHistory[len(l.StatusHistory)-1]; got.Status != "suspended" || !got.From.Equal(want) {
+			t.Errorf("%s: last period %+v, want suspended from %s", n, got, want.Format(time.DateOnly))
+		}
+	}
+}

@@ -17,7 +17,7 @@ import (
 // brought to Licence.Status from StatusEffectiveOn on when that differs.
 type LoadLicence struct {
 	Licence           Licence
-	StatusEffectiveOn time.Time // the day a status change takes effect
+	StatusEffectiveOn time.Time // the day a status change takes effect; zero: as StatusChange.EffectiveOn
 }
 
 // Load is a registry load.
@@ -142,14 +142,20 @@ func loadLicenceTx(ctx context.Context, tx pgx.Tx, ll LoadLicence, today time.Ti
 		o.Result = result(true, changed)
 	}
 	if l.Status != "" && l.Status != cur {
-		kind, err := setStatusTx(ctx, tx, StatusChange{Number: l.Number, Status: l.Status, EffectiveOn: ll.StatusEffectiveOn, Reason: reason})
+		c := StatusChange{Number: l.Number, Status: l.Status, EffectiveOn: ll.StatusEffectiveOn, Today: today, Reason: reason}
+		kind, err := setStatusTx(ctx, tx, c)
 		if err != nil {
 			return o, err
 		}
 		if o.Result == "unchanged" {
 			o.Result = "changed"
 		}
-		o.Changes = append(o.Changes, fmt.Sprintf("%s from %s", kind, ll.StatusEffectiveOn.Format(time.DateOnly)))
+		var from time.Time
+		if err := tx.QueryRow(ctx, `SELECT effective_on FROM licence_events WHERE licence_number = $1 AND status IS NOT NULL
+		    ORDER BY event_id DESC LIMIT 1`, l.Number).Scan(&from); err != nil {
+			return o, err
+		}
+		o.Changes = append(o.Changes, fmt.Sprintf("%s from %s", kind, from.Format(time.DateOnly)))
 	}
 	return o, nil
 }

@@ -114,8 +114,12 @@ func defineStatusVerb(v statusVerb) func(fs *pflag.FlagSet) runFunc {
 				return err
 			}
 			l := resp.GetLicence()
+			from := effectiveOrToday(ch.from)
+			if h := l.GetStatusHistory(); len(h) > 0 {
+				from = h[len(h)-1].GetFromDate()
+			}
 			fmt.Printf("licence %s %s from %s; status today %s (version %d)\n", l.GetLicenceNumber(), eventWord(resp.GetChange()),
-				effectiveOrToday(ch.from), statusLabel(l.GetStatus()), l.GetVersion())
+				from, statusLabel(l.GetStatus()), l.GetVersion())
 			return nil
 		}
 	}

@@ -1195,7 +1195,8 @@ type Licence struct {
 	// only); give it as expected_version to refuse a change of a licence changed since.
 	Version int32 `protobuf:"varint,9,opt,name=version,proto3" json:"version,omitempty"`
 	// Read: the day the status took effect. In LoadRegistry: the day a status change
-	// of this licence takes effect, ISO 8601 (default today).
+	// of this licence takes effect, ISO 8601 (default as SetLicenceStatus: today, or
+	// its last status change when later).
 	StatusEffectiveDate string `protobuf:"bytes,10,opt,name=status_effective_date,json=statusEffectiveDate,proto3" json:"status_effective_date,omitempty"`
 	// The licence's status from each day on, in date order (read only). status is the
 	// status today; a declaration is judged by the period that holds its date.
@@ -1544,8 +1545,10 @@ type SetLicenceStatusRequest struct {
 	Status LicenceStatus `protobuf:"varint,2,opt,name=status,proto3,enum=halovet.v1.LicenceStatus" json:"status,omitempty"`
 	// Why, for the audit log and the history; required.
 	Reason string `protobuf:"bytes,3,opt,name=reason,proto3" json:"reason,omitempty"`
-	// First day of the new status, ISO 8601; default today. Not before the licence's
-	// last status change (changes are recorded in date order).
+	// First day of the new status, ISO 8601; default today (or the day of the
+	// licence's last status change when that is later, e.g. the first day of a licence
+	// issued for next year). Not before the licence's last status change (changes are
+	// recorded in date order).
 	EffectiveDate string `protobuf:"bytes,4,opt,name=effective_date,json=effectiveDate,proto3" json:"effective_date,omitempty"`
 	// When not 0: the version the caller read; a licence at another version is
 	// refused FAILED_PRECONDITION.
