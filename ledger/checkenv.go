@@ -316,7 +316,7 @@ func (h *EnvHolder) assemble(s *snapshot, prev *validate.Env) {
 		}
 	}
 	if reporting == nil {
-		s.err = fmt.Errorf("%w: no reporting Party is configured: load party settings with reporting_party set for the country running halovet", ErrNotConfigured)
+		s.err = fmt.Errorf("%w: no reporting Party is configured: name the country running halovet with SetReportingParty ('halovet reporting-party CODE'), or load its party settings with reporting_party set into an empty register", ErrNotConfigured)
 		return
 	}
 	if s.allowed == nil {

@@ -474,3 +474,38 @@ func TestPinnedBalancesKeepTheFirstSeenDrawnAmount(t *testing.T) {
 		t.Errorf("XA-IMP-2 not found through the view")
 	}
 }
+
+// The environment and its snapshots carry each licence's dated status history: a
+// suspension dated 2026-09-15, announced, rejects a declaration of 2026-09-16 and accepts
+// one of 2026-06-18 (the dates), in the live environment and in a stream's view
+// with pinned balances.
+func TestEnvironmentCarriesTheDatedStatusHistory(t *testing.T) {
+	reg := newFakeRegister()
+	c := seedCatalogue(t)
+	h := ledger.NewEnvHolder(reg, ledger.Options{Catalogue: func() *substances.Catalogue { return c },
+		Now: func() time.Time { return day("2026-10-01") }, RetryDelay: 10 * time.Millisecond})
+	// A stream opened before the suspension pins the licence's balances as they were.
+	var pinned ledger.PinnedBalances
+	pinned.View(current(t, h), "XA-IMP-1")
+	reg.update(func(f *fakeRegister) {
+		l := f.licences["XA-IMP-1"]
+		l.Status = validate.LicenceSuspended
+		l.StatusHistory = []validate.StatusPeriod{{From: day("2026-01-01"), Status: validate.LicenceActive},
+			{From: day("2026-09-15"), Status: validate.LicenceSuspended}}
+		f.licences["XA-IMP-1"] = l
+	})
+	if err := h.Refresh(context.Background(), ledger.Change{Licences: []string{"XA-IMP-1"}}); err != nil {
+		t.Fatal(err)
+	}
+	live := current(t, h)
+	for name, env := range map[string]*validate.Env{"live": live, "pinned": pinned.View(live, "XA-IMP-1")} {
+		for date, rejected := range map[string]bool{"2026-09-16": true, "2026-09-15": true, "2026-06-18": false} {
+			r := hcfc22("K-" + date)
+			r.DeclarationDate = date
+			v := validate.Check(env, &r, nil)
+			if got := slices.Contains(codes(v), validate.CodeLicenceInactive); got != rejected {
+				t.Errorf("%s environment, declared %s: codes %v; want %s %v", name, date, codes(v), validate.CodeLicenceInactive, rejected)
+			}
+		}
+	}
+}

@@ -199,7 +199,7 @@ func (s *Server) reportingParty(ctx context.Context) (store.Party, controls.Part
 	p, err := s.store.ReportingParty(ctx)
 	if errors.Is(err, store.ErrNoReportingParty) {
 		return p, controls.Party{}, status.Error(codes.FailedPrecondition,
-			"no reporting Party is configured: load the party settings and mark the reporting country (PutParty with reporting_party true, e.g. 'halovet load scenario.json')")
+			"no reporting Party is configured: load the party settings and name the reporting country (SetReportingParty, 'halovet reporting-party CODE', or reporting_party set in a first 'halovet load scenario.json')")
 	}
 	if err != nil {
 		return p, controls.Party{}, toStatus(ctx, s.log, err)

@@ -209,7 +209,7 @@ func (c *consumptionServer) issueDraft(ctx context.Context, scope controls.Scope
 			return "", status.Errorf(codes.FailedPrecondition, "licence %s exists and is %s, not a draft; it was left as it is and no further drafts were issued", num, cur.Status)
 		}
 		if err == nil {
-			err = c.srv.store.AmendLicence(ctx, lic, reason+" (re-planned)")
+			_, err = c.srv.store.AmendLicence(ctx, store.Amendment{Licence: lic, EffectiveOn: c.srv.today(), Reason: reason + " (re-planned)"})
 		}
 	}
 	if errors.Is(err, store.ErrNotFound) {

@@ -70,7 +70,7 @@ func TestConsumptionNeedsReportingParty(t *testing.T) {
 	_, err := c.GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: "C/I"})
 	consCode(t, err, codes.FailedPrecondition, "reporting_party")
 	_, err = c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: "C/I", FromYear: 2025, ToYear: 2025})
-	consCode(t, err, codes.FailedPrecondition, "PutParty")
+	consCode(t, err, codes.FailedPrecondition, "SetReportingParty")
 	_, err = c.GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: "G/I"})
 	consCode(t, err, codes.InvalidArgument, "not a control scope")
 	_, err = c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: "C/I", FromYear: 2026, ToYear: 2025})

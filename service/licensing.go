@@ -32,34 +32,38 @@ func validGroup(g string) bool {
 }
 
 func (l *licensingServer) PutParty(ctx context.Context, req *halovetv1.PutPartyRequest) (*halovetv1.PutPartyResponse, error) {
-	p := req.GetParty()
-	var vs []fieldViolation
-	if !countryCodeRE.MatchString(p.GetCountryCode()) {
-		vs = append(vs, fieldViolation{"party.country_code", "must be an ISO 3166-1 alpha-2 code in capitals, e.g. XA"})
-	}
-	pt, ok := partyTypeText[p.GetPartyType()]
-	if !ok {
-		vs = append(vs, fieldViolation{"party.party_type", "must be ARTICLE_5, NON_ARTICLE_5 or NON_PARTY"})
-	}
-	hg := hfcGroupText[p.GetHfcGroup()]
-	for g, d := range p.GetBoundFrom() {
-		if !validGroup(g) {
-			vs = append(vs, fieldViolation{"party.bound_from", fmt.Sprintf("key %q is not an Annex group; use A/I, A/II, B/I, B/II, B/III, C/I, C/II, C/III, E/I, F/I or F/II", g)})
-		}
-		if _, err := time.Parse(dateLayout, d); err != nil {
-			vs = append(vs, fieldViolation{"party.bound_from", fmt.Sprintf("date %q for %s is not YYYY-MM-DD", d, g)})
-		}
-	}
+	sp, vs := partyFromProto(req.GetParty(), "party")
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	sp := store.Party{CountryCode: p.GetCountryCode(), Name: p.GetName(), PartyType: pt, HFCGroup: hg,
-		ReportingParty: p.GetReportingParty(), BoundFrom: p.GetBoundFrom()}
 	if err := l.srv.store.PutParty(ctx, sp); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	l.srv.registerChanged(ctx, ledger.Change{Parties: true})
 	return &halovetv1.PutPartyResponse{Party: partyToProto(sp)}, nil
+}
+
+// partyFromProto validates party settings (field names start with prefix) and converts them.
+func partyFromProto(p *halovetv1.Party, prefix string) (store.Party, []fieldViolation) {
+	var vs []fieldViolation
+	if !countryCodeRE.MatchString(p.GetCountryCode()) {
+		vs = append(vs, fieldViolation{prefix + ".country_code", "must be an ISO 3166-1 alpha-2 code in capitals, e.g. XA"})
+	}
+	pt, ok := partyTypeText[p.GetPartyType()]
+	if !ok {
+		vs = append(vs, fieldViolation{prefix + ".party_type", "must be ARTICLE_5, NON_ARTICLE_5 or NON_PARTY"})
+	}
+	hg := hfcGroupText[p.GetHfcGroup()]
+	for g, d := range p.GetBoundFrom() {
+		if !validGroup(g) {
+			vs = append(vs, fieldViolation{prefix + ".bound_from", fmt.Sprintf("key %q is not an Annex group; use A/I, A/II, B/I, B/II, B/III, C/I, C/II, C/III, E/I, F/I or F/II", g)})
+		}
+		if _, err := time.Parse(dateLayout, d); err != nil {
+			vs = append(vs, fieldViolation{prefix + ".bound_from", fmt.Sprintf("date %q for %s is not YYYY-MM-DD", d, g)})
+		}
+	}
+	return store.Party{CountryCode: p.GetCountryCode(), Name: p.GetName(), PartyType: pt, HFCGroup: hg,
+		ReportingParty: p.GetReportingParty(), BoundFrom: p.GetBoundFrom()}, vs
 }
 
 func partyToProto(p store.Party) *halovetv1.Party {
@@ -89,21 +93,26 @@ func (l *licensingServer) ListParties(ctx context.Context, _ *halovetv1.ListPart
 
 func (l *licensingServer) RegisterCompany(ctx context.Context, req *halovetv1.RegisterCompanyRequest) (*halovetv1.RegisterCompanyResponse, error) {
 	c := req.GetCompany()
-	var vs []fieldViolation
-	if c.GetCompanyId() == "" {
-		vs = append(vs, fieldViolation{"company.company_id", "must not be empty"})
-	}
-	if c.GetCountryCode() != "" && !countryCodeRE.MatchString(c.GetCountryCode()) {
-		vs = append(vs, fieldViolation{"company.country_code", "must be an ISO 3166-1 alpha-2 code in capitals"})
-	}
+	sc, vs := companyFromProto(c, "company")
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	sc := store.Company{CompanyID: c.GetCompanyId(), Name: c.GetName(), CountryCode: c.GetCountryCode()}
 	if err := l.srv.store.PutCompany(ctx, sc); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	return &halovetv1.RegisterCompanyResponse{Company: c}, nil
+}
+
+// companyFromProto validates a company (field names start with prefix) and converts it.
+func companyFromProto(c *halovetv1.Company, prefix string) (store.Company, []fieldViolation) {
+	var vs []fieldViolation
+	if c.GetCompanyId() == "" {
+		vs = append(vs, fieldViolation{prefix + ".company_id", "must not be empty"})
+	}
+	if c.GetCountryCode() != "" && !countryCodeRE.MatchString(c.GetCountryCode()) {
+		vs = append(vs, fieldViolation{prefix + ".country_code", "must be an ISO 3166-1 alpha-2 code in capitals"})
+	}
+	return store.Company{CompanyID: c.GetCompanyId(), Name: c.GetName(), CountryCode: c.GetCountryCode()}, vs
 }
 
 func (l *licensingServer) ListCompanies(ctx context.Context, _ *halovetv1.ListCompaniesRequest) (*halovetv1.ListCompaniesResponse, error) {
@@ -118,56 +127,61 @@ func (l *licensingServer) ListCompanies(ctx context.Context, _ *halovetv1.ListCo
 	return out, nil
 }
 
-// licenceFromProto validates a licence message and converts it. For a new licence,
+// licenceFromProto validates a licence message and converts it; field names in the
+// violations start with prefix (e.g. "licence" or "licences[3]"). For a new licence,
 // quota lines without a number are numbered in order.
-func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool) (store.Licence, error) {
+func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool, prefix string) (store.Licence, []fieldViolation) {
 	var vs []fieldViolation
 	out := store.Licence{Number: p.GetLicenceNumber(), CompanyID: p.GetCompanyId(), Status: "active"}
 	if out.Number == "" {
-		vs = append(vs, fieldViolation{"licence.licence_number", "must not be empty"})
+		vs = append(vs, fieldViolation{prefix + ".licence_number", "must not be empty"})
 	}
 	if out.CompanyID == "" {
-		vs = append(vs, fieldViolation{"licence.company_id", "must not be empty"})
+		vs = append(vs, fieldViolation{prefix + ".company_id", "must not be empty"})
 	}
 	if len(p.GetDirections()) == 0 {
-		vs = append(vs, fieldViolation{"licence.directions", "list at least one of IMPORT, EXPORT, RE_EXPORT, TRANSIT"})
+		vs = append(vs, fieldViolation{prefix + ".directions", "list at least one of IMPORT, EXPORT, RE_EXPORT, TRANSIT"})
 	}
 	for _, d := range p.GetDirections() {
 		t, ok := directionText[d]
 		if !ok {
-			vs = append(vs, fieldViolation{"licence.directions", "unspecified direction; use IMPORT, EXPORT, RE_EXPORT or TRANSIT"})
+			vs = append(vs, fieldViolation{prefix + ".directions", "unspecified direction; use IMPORT, EXPORT, RE_EXPORT or TRANSIT"})
 			continue
 		}
 		out.Directions = append(out.Directions, t)
 	}
 	var err error
 	if out.ValidFrom, err = time.Parse(dateLayout, p.GetValidFrom()); err != nil {
-		vs = append(vs, fieldViolation{"licence.valid_from", fmt.Sprintf("%q is not a date YYYY-MM-DD", p.GetValidFrom())})
+		vs = append(vs, fieldViolation{prefix + ".valid_from", fmt.Sprintf("%q is not a date YYYY-MM-DD", p.GetValidFrom())})
 	}
 	if out.ValidTo, err = time.Parse(dateLayout, p.GetValidTo()); err != nil {
-		vs = append(vs, fieldViolation{"licence.valid_to", fmt.Sprintf("%q is not a date YYYY-MM-DD", p.GetValidTo())})
+		vs = append(vs, fieldViolation{prefix + ".valid_to", fmt.Sprintf("%q is not a date YYYY-MM-DD", p.GetValidTo())})
 	} else if out.ValidTo.Before(out.ValidFrom) {
-		vs = append(vs, fieldViolation{"licence.valid_to", "is before valid_from"})
+		vs = append(vs, fieldViolation{prefix + ".valid_to", "is before valid_from"})
 	}
 	if p.GetStatus() != halovetv1.LicenceStatus_LICENCE_STATUS_UNSPECIFIED {
-		out.Status = licenceStatusText[p.GetStatus()]
+		st, ok := licenceStatusText[p.GetStatus()]
+		if !ok {
+			vs = append(vs, fieldViolation{prefix + ".status", "must be DRAFT, ACTIVE, SUSPENDED or REVOKED"})
+		}
+		out.Status = st
 	}
 	if issuing && (out.Status == "revoked" || out.Status == "suspended") {
-		vs = append(vs, fieldViolation{"licence.status", "a new licence is ACTIVE or DRAFT"})
+		vs = append(vs, fieldViolation{prefix + ".status", "a new licence is ACTIVE or DRAFT"})
 	}
 	for _, sp := range p.GetSpecialPurposes() {
 		t, ok := purposeText[sp]
 		if !ok {
-			vs = append(vs, fieldViolation{"licence.special_purposes", "unspecified purpose"})
+			vs = append(vs, fieldViolation{prefix + ".special_purposes", "unspecified purpose"})
 			continue
 		}
 		out.SpecialPurposes = append(out.SpecialPurposes, t)
 	}
-	cat := l.srv.cat.Load()
 	seen := map[int]bool{}
 	for i, q := range p.GetQuotaLines() {
-		f := fmt.Sprintf("licence.quota_lines[%d]", i)
-		line := store.QuotaLine{LineNumber: int(q.GetLineNumber()), AnnexGroup: q.GetAnnexGroup(), Allocated: q.GetAllocated()}
+		f := fmt.Sprintf("%s.quota_lines[%d]", prefix, i)
+		line, lvs := l.quotaLineFromProto(q, f)
+		vs = append(vs, lvs...)
 		if line.LineNumber == 0 {
 			line.LineNumber = i + 1
 		}
@@ -175,54 +189,68 @@ func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool) (
 			vs = append(vs, fieldViolation{f + ".line_number", fmt.Sprintf("line %d appears twice", line.LineNumber)})
 		}
 		seen[line.LineNumber] = true
-		switch {
-		case q.GetAnnexGroup() != "" && q.GetSubstance() != "":
-			vs = append(vs, fieldViolation{f, "give annex_group or substance, not both"})
-		case q.GetAnnexGroup() == validate.WholeAnnexF:
-			if q.GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES {
-				vs = append(vs, fieldViolation{f + ".unit", "a line for Annex F as a whole counts CO2-eq tonnes (Article 2J); use CO2E_TONNES, or a line per group"})
-			}
-		case q.GetAnnexGroup() != "":
-			if !validGroup(q.GetAnnexGroup()) {
-				vs = append(vs, fieldViolation{f + ".annex_group", fmt.Sprintf("%q is not an Annex group (A/I ... F/II) nor F (Annex F as a whole)", q.GetAnnexGroup())})
-			}
-		case q.GetSubstance() != "":
-			s, ok := cat.Substance(q.GetSubstance())
-			if !ok {
-				vs = append(vs, fieldViolation{f + ".substance", fmt.Sprintf("%q is not a catalogue substance", q.GetSubstance())})
-			} else {
-				line.Substance = s.Designation
-			}
-		default:
-			vs = append(vs, fieldViolation{f, "give annex_group (e.g. C/I) or substance (e.g. HCFC-22)"})
-		}
-		u, ok := quotaUnitText[q.GetUnit()]
-		if !ok {
-			vs = append(vs, fieldViolation{f + ".unit", "must be METRIC_TONNES, ODP_TONNES or CO2E_TONNES"})
-		}
-		line.Unit = u
-		for j, qp := range q.GetPurposes() {
-			t, ok := purposeText[qp]
-			if !ok {
-				vs = append(vs, fieldViolation{fmt.Sprintf("%s.purposes[%d]", f, j), "unspecified purpose; name the use the line is an allowance for (e.g. PURPOSE_CRITICAL_USE)"})
-				continue
-			}
-			line.Purposes = append(line.Purposes, t)
-		}
-		if q.GetAllocated() < 0 || q.GetAllocated() > maxAllocation || math.IsNaN(q.GetAllocated()) {
-			vs = append(vs, fieldViolation{f + ".allocated", fmt.Sprintf("must be between 0 and %g in the line's unit", maxAllocation)})
-		}
 		out.QuotaLines = append(out.QuotaLines, line)
 	}
-	if len(vs) > 0 {
-		return out, invalid(vs...)
-	}
-	return out, nil
+	return out, vs
 }
 
-func licenceToProto(l store.Licence) *halovetv1.Licence {
+// quotaLineFromProto validates one quota line (field names start with f).
+func (l *licensingServer) quotaLineFromProto(q *halovetv1.QuotaLine, f string) (store.QuotaLine, []fieldViolation) {
+	var vs []fieldViolation
+	line := store.QuotaLine{LineNumber: int(q.GetLineNumber()), AnnexGroup: q.GetAnnexGroup(), Allocated: q.GetAllocated()}
+	if q.GetLineNumber() < 0 {
+		vs = append(vs, fieldViolation{f + ".line_number", "must be 1 or more (0: numbered in order)"})
+	}
+	switch {
+	case q.GetAnnexGroup() != "" && q.GetSubstance() != "":
+		vs = append(vs, fieldViolation{f, "give annex_group or substance, not both"})
+	case q.GetAnnexGroup() == validate.WholeAnnexF:
+		if q.GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES {
+			vs = append(vs, fieldViolation{f + ".unit", "a line for Annex F as a whole counts CO2-eq tonnes (Article 2J); use CO2E_TONNES, or a line per group"})
+		}
+	case q.GetAnnexGroup() != "":
+		if !validGroup(q.GetAnnexGroup()) {
+			vs = append(vs, fieldViolation{f + ".annex_group", fmt.Sprintf("%q is not an Annex group (A/I ... F/II) nor F (Annex F as a whole)", q.GetAnnexGroup())})
+		}
+	case q.GetSubstance() != "":
+		s, ok := l.srv.cat.Load().Substance(q.GetSubstance())
+		if !ok {
+			vs = append(vs, fieldViolation{f + ".substance", fmt.Sprintf("%q is not a catalogue substance", q.GetSubstance())})
+		} else {
+			line.Substance = s.Designation
+		}
+	default:
+		vs = append(vs, fieldViolation{f, "give annex_group (e.g. C/I) or substance (e.g. HCFC-22)"})
+	}
+	u, ok := quotaUnitText[q.GetUnit()]
+	if !ok {
+		vs = append(vs, fieldViolation{f + ".unit", "must be METRIC_TONNES, ODP_TONNES or CO2E_TONNES"})
+	}
+	line.Unit = u
+	for j, qp := range q.GetPurposes() {
+		t, ok := purposeText[qp]
+		if !ok {
+			vs = append(vs, fieldViolation{fmt.Sprintf("%s.purposes[%d]", f, j), "unspecified purpose; name the use the line is an allowance for (e.g. PURPOSE_CRITICAL_USE)"})
+			continue
+		}
+		line.Purposes = append(line.Purposes, t)
+	}
+	if q.GetAllocated() < 0 || q.GetAllocated() > maxAllocation || math.IsNaN(q.GetAllocated()) {
+		vs = append(vs, fieldViolation{f + ".allocated", fmt.Sprintf("must be between 0 and %g in the line's unit", maxAllocation)})
+	}
+	return line, vs
+}
+
+// licenceToProto converts a stored licence; status is its status on day today.
+func licenceToProto(l store.Licence, today time.Time) *halovetv1.Licence {
 	p := &halovetv1.Licence{LicenceNumber: l.Number, CompanyId: l.CompanyID, ValidFrom: l.ValidFrom.Format(dateLayout),
-		ValidTo: l.ValidTo.Format(dateLayout), Status: licenceStatusEnum[l.Status]}
+		ValidTo: l.ValidTo.Format(dateLayout), Status: licenceStatusEnum[l.StatusOn(today)], Version: int32(l.Version)}
+	for _, h := range l.StatusHistory {
+		p.StatusHistory = append(p.StatusHistory, &halovetv1.LicenceStatusPeriod{FromDate: h.From.Format(dateLayout), Status: licenceStatusEnum[h.Status]})
+		if !h.From.After(today) {
+			p.StatusEffectiveDate = h.From.Format(dateLayout)
+		}
+	}
 	for _, d := range l.Directions {
 		p.Directions = append(p.Directions, directionEnum[d])
 	}
@@ -232,15 +260,22 @@ func licenceToProto(l store.Licence) *halovetv1.Licence {
 	for _, q := range l.QuotaLines {
 		p.QuotaLines = append(p.QuotaLines, &halovetv1.QuotaLine{LineNumber: int32(q.LineNumber), AnnexGroup: q.AnnexGroup,
 			Substance: q.Substance, Unit: quotaUnitEnum[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn,
-			Remaining: q.Allocated - q.Drawn, Purposes: purposesToProto(q.Purposes)})
+			Remaining: q.Allocated - q.Drawn, Purposes: purposesToProto(q.Purposes), ClosedOn: dateOrEmpty(q.ClosedOn)})
 	}
 	return p
 }
 
+func dateOrEmpty(t time.Time) string {
+	if t.IsZero() {
+		return ""
+	}
+	return t.Format(dateLayout)
+}
+
 func (l *licensingServer) IssueLicence(ctx context.Context, req *halovetv1.IssueLicenceRequest) (*halovetv1.IssueLicenceResponse, error) {
-	lic, err := l.licenceFromProto(req.GetLicence(), true)
-	if err != nil {
-		return nil, err
+	lic, vs := l.licenceFromProto(req.GetLicence(), true, "licence")
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	if err := l.srv.store.IssueLicence(ctx, lic, req.GetReason()); err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
@@ -250,39 +285,7 @@ func (l *licensingServer) IssueLicence(ctx context.Context, req *halovetv1.Issue
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
-	return &halovetv1.IssueLicenceResponse{Licence: licenceToProto(got)}, nil
-}
-
-func (l *licensingServer) AmendLicence(ctx context.Context, req *halovetv1.AmendLicenceRequest) (*halovetv1.AmendLicenceResponse, error) {
-	lic, err := l.licenceFromProto(req.GetLicence(), false)
-	if err != nil {
-		return nil, err
-	}
-	if err := l.srv.store.AmendLicence(ctx, lic, req.GetReason()); err != nil {
-		return nil, toStatus(ctx, l.srv.log, err)
-	}
-	l.srv.registerChanged(ctx, ledger.Change{Licences: []string{lic.Number}})
-	got, err := l.srv.store.GetLicence(ctx, lic.Number)
-	if err != nil {
-		return nil, toStatus(ctx, l.srv.log, err)
-	}
-	return &halovetv1.AmendLicenceResponse{Licence: licenceToProto(got)}, nil
-}
-
-func (l *licensingServer) SetLicenceStatus(ctx context.Context, req *halovetv1.SetLicenceStatusRequest) (*halovetv1.SetLicenceStatusResponse, error) {
-	st, ok := licenceStatusText[req.GetStatus()]
-	if !ok {
-		return nil, invalid(fieldViolation{"status", "must be DRAFT, ACTIVE, SUSPENDED or REVOKED"})
-	}
-	if err := l.srv.store.SetLicenceStatus(ctx, req.GetLicenceNumber(), st, req.GetReason()); err != nil {
-		return nil, toStatus(ctx, l.srv.log, err)
-	}
-	l.srv.registerChanged(ctx, ledger.Change{Licences: []string{req.GetLicenceNumber()}})
-	got, err := l.srv.store.GetLicence(ctx, req.GetLicenceNumber())
-	if err != nil {
-		return nil, toStatus(ctx, l.srv.log, err)
-	}
-	return &halovetv1.SetLicenceStatusResponse{Licence: licenceToProto(got)}, nil
+	return &halovetv1.IssueLicenceResponse{Licence: licenceToProto(got, l.srv.today())}, nil
 }
 
 func (l *licensingServer) GetLicence(ctx context.Context, req *halovetv1.GetLicenceRequest) (*halovetv1.GetLicenceResponse, error) {
@@ -290,7 +293,7 @@ func (l *licensingServer) GetLicence(ctx context.Context, req *halovetv1.GetLice
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
-	return &halovetv1.GetLicenceResponse{Licence: licenceToProto(got)}, nil
+	return &halovetv1.GetLicenceResponse{Licence: licenceToProto(got, l.srv.today())}, nil
 }
 
 func (l *licensingServer) ListLicences(ctx context.Context, req *halovetv1.ListLicencesRequest) (*halovetv1.ListLicencesResponse, error) {
@@ -299,8 +302,9 @@ func (l *licensingServer) ListLicences(ctx context.Context, req *halovetv1.ListL
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListLicencesResponse{}
+	today := l.srv.today()
 	for _, x := range ls {
-		out.Licences = append(out.Licences, licenceToProto(x))
+		out.Licences = append(out.Licences, licenceToProto(x, today))
 	}
 	return out, nil
 }

@@ -27,7 +27,7 @@ func (s *Server) checkEnv(ctx context.Context) (*validate.Env, error) {
 	case err == nil:
 		return env, nil
 	case errors.Is(err, ledger.ErrNotConfigured):
-		return nil, status.Error(codes.FailedPrecondition, err.Error()+" (LicensingService.PutParty, or 'halovet load FILE')")
+		return nil, status.Error(codes.FailedPrecondition, err.Error()+" (LicensingService.SetReportingParty, 'halovet reporting-party CODE', or 'halovet load FILE' on an empty register)")
 	}
 	return nil, toStatus(ctx, s.log, err)
 }
@@ -179,7 +179,7 @@ func toValidateLicence(l store.Licence) validate.Licence {
 	}
 	for _, q := range l.QuotaLines {
 		line := validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
-			Substance: q.Substance, Unit: validateUnit[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn}
+			Substance: q.Substance, Unit: validateUnit[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn, Closed: !q.ClosedOn.IsZero()}
 		if q.AnnexGroup == validate.WholeAnnexF {
 			line.Group, line.Annex = substances.GroupNone, validate.WholeAnnexF
 		}
@@ -189,6 +189,9 @@ func toValidateLicence(l store.Licence) validate.Licence {
 			}
 		}
 		v.QuotaLines = append(v.QuotaLines, line)
+	}
+	for _, p := range l.StatusHistory {
+		v.StatusHistory = append(v.StatusHistory, validate.StatusPeriod{From: p.From, Status: validateStatus[p.Status]})
 	}
 	return v
 }

@@ -335,7 +335,7 @@ func TestReplicaReloadsAfterItsListenerIsCut(t *testing.T) {
 
 	lic := halovetv1.NewLicensingServiceClient(connA)
 	if _, err := lic.SetLicenceStatus(ctx, &halovetv1.SetLicenceStatusRequest{LicenceNumber: regLicence,
-		Status: halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED, Reason: "test: suspended while the listeners are cut"}); err != nil {
+		Status: halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED, Reason: "test: suspended while the listeners are cut", EffectiveDate: "2026-01-01"}); err != nil {
 		t.Fatal(err)
 	}
 	catA := halovetv1.NewCatalogueServiceClient(connA)

@@ -81,7 +81,9 @@ func shipRegistry(t *testing.T, conn *grpc.ClientConn) {
 func shipSetStatus(t *testing.T, conn *grpc.ClientConn, licence string, s halovetv1.LicenceStatus) {
 	t.Helper()
 	if _, err := halovetv1.NewLicensingServiceClient(conn).SetLicenceStatus(context.Background(),
-		&halovetv1.SetLicenceStatusRequest{LicenceNumber: licence, Status: s, Reason: "test"}); err != nil {
+		// From the licence's first day, so that the test records (declared in 2026) are
+		// judged by it.
+		&halovetv1.SetLicenceStatusRequest{LicenceNumber: licence, Status: s, Reason: "test", EffectiveDate: "2026-01-01"}); err != nil {
 		t.Fatalf("SetLicenceStatus %s %v: %v", licence, s, err)
 	}
 }

@@ -207,7 +207,10 @@ func TestTerminatedBackendIsUnavailable(t *testing.T) {
 		t.Fatal(err)
 	}
 	done := make(chan error, 1)
-	go func() { done <- st.SetLicenceStatus(ctx, "L-1", "suspended", "test") }()
+	go func() {
+		_, err := st.SetLicenceStatus(ctx, StatusChange{Number: "L-1", Status: "suspended", EffectiveOn: time.Now(), Reason: "test"})
+		done <- err
+	}()
 	// Find the store's backend waiting for the row lock, and terminate it.
 	admin := rawConn(t, url)
 	var pid int32
@@ -253,12 +256,16 @@ func TestCallerCancellationIsNotADatabaseError(t *testing.T) {
 	}
 }
 
-// Two calls naming different reporting Parties at once both succeed (serialised by the
-// retry loop), and one Party holds the role afterwards. Parties are invented.
+// Two first setups naming different reporting Parties at once on an empty register: one
+// names the reporting Party, the other is refused (PutParty never moves the role), and
+// exactly one Party holds it afterwards. Parties are invented.
 func TestConcurrentReportingPartiesSerialise(t *testing.T) {
 	st, _ := openInternal(t)
 	ctx := context.Background()
 	for round := range 10 {
+		if _, err := st.pool.Exec(ctx, `DELETE FROM parties`); err != nil {
+			t.Fatal(err)
+		}
 		errs := make(chan error, 2)
 		for _, code := range []string{"XA", "XB"} {
 			go func() {
@@ -266,10 +273,19 @@ func TestConcurrentReportingPartiesSerialise(t *testing.T) {
 					HFCGroup: "a5-group-1", ReportingParty: true})
 			}()
 		}
+		var ok, refused int
 		for range 2 {
-			if err := <-errs; err != nil {
+			switch err := <-errs; {
+			case err == nil:
+				ok++
+			case errors.Is(err, ErrConflict):
+				refused++
+			default:
 				t.Fatalf("round %d: PutParty: %v", round, err)
 			}
+		}
+		if ok != 1 || refused != 1 {
+			t.Fatalf("round %d: %d succeeded and %d were refused, want 1 and 1", round, ok, refused)
 		}
 		var n int
 		if err := st.pool.QueryRow(ctx, `SELECT count(*) FROM parties WHERE reporting_party`).Scan(&n); err != nil || n != 1 {

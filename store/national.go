@@ -127,7 +127,7 @@ func (s *Store) ReportingParty(ctx context.Context) (_ Party, err error) {
 	defer classifyInto(&err)
 	p, err := scanParty(s.pool.QueryRow(ctx, `SELECT `+partyCols+` FROM parties WHERE reporting_party`))
 	if errors.Is(err, pgx.ErrNoRows) {
-		return p, fmt.Errorf("%w: store the country's settings with reporting_party true (PutParty, or 'halovet load')", ErrNoReportingParty)
+		return p, fmt.Errorf("%w: store the country's settings and name it with SetReportingParty (or reporting_party true in a first 'halovet load')", ErrNoReportingParty)
 	}
 	return p, err
 }

@@ -145,26 +145,15 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 		lics = append(lics, l)
 	}
 	sort.Strings(lics)
-	status := map[string]string{}
+	var status licenceStatuses
 	remaining := map[lineKey]Nano{}
 	if len(lics) > 0 {
-		q, err := tx.Query(ctx, `SELECT licence_number, status FROM licences
-		    WHERE licence_number = ANY($1) ORDER BY licence_number FOR SHARE`, lics)
-		if err != nil {
+		// The licences FOR SHARE with their dated status histories (licence_history.go).
+		var err error
+		if status, err = readLicenceStatuses(ctx, tx, lics); err != nil {
 			return nil, err
 		}
-		for q.Next() {
-			var n, st string
-			if err := q.Scan(&n, &st); err != nil {
-				q.Close()
-				return nil, err
-			}
-			status[n] = st
-		}
-		if err := q.Err(); err != nil {
-			return nil, err
-		}
-		q, err = tx.Query(ctx, `SELECT licence_number, line_number, ((allocated - drawn) * 1000000000)::bigint
+		q, err := tx.Query(ctx, `SELECT licence_number, line_number, ((allocated - drawn) * 1000000000)::bigint
 		    FROM quota_lines WHERE licence_number = ANY($1)
 		    ORDER BY licence_number, line_number FOR UPDATE`, lics)
 		if err != nil {
@@ -315,9 +304,10 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 
 // checkDraws reports whether every draw of r fits what is left; when not, the result
 // says why.
-func checkDraws(r ShipmentRow, status map[string]string, remaining map[lineKey]Nano) (RecordResult, bool) {
+func checkDraws(r ShipmentRow, status licenceStatuses, remaining map[lineKey]Nano) (RecordResult, bool) {
 	for _, d := range r.Draws {
-		if st := status[d.LicenceNumber]; st != "active" {
+		// The licence as it stood on the declaration date.
+		if st := status.on(d.LicenceNumber, r.DeclarationDate); st != "active" {
 			if st == "" {
 				st = "missing"
 			}

@@ -91,6 +91,10 @@ func row(key string, odpNano store.Nano) store.ShipmentRow {
 		Draws:      []store.Draw{{LicenceNumber: "L-1", LineNumber: 1, Amount: odpNano}}}
 }
 
+// amendErr and statusErr keep the error of a call that also returns a value.
+func amendErr(_ bool, err error) error    { return err }
+func statusErr(_ string, err error) error { return err }
+
 func TestLicenceAmendAndStatusRules(t *testing.T) {
 	st, _ := openTestStore(t)
 	ctx := context.Background()
@@ -108,24 +112,26 @@ func TestLicenceAmendAndStatusRules(t *testing.T) {
 		t.Fatal(err)
 	}
 	l.QuotaLines[0].Allocated = 0.5 // below the 0.6 drawn
-	if err := st.AmendLicence(ctx, l, "cut"); !errors.Is(err, store.ErrConflict) {
+	if err := amendErr(st.AmendLicence(ctx, store.Amendment{Licence: l, EffectiveOn: time.Now(), Reason: "cut"})); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("amending below drawn: err %v, want ErrConflict", err)
 	}
 	l.QuotaLines[0].Allocated = 2
-	if err := st.AmendLicence(ctx, l, "raise"); err != nil {
+	if err := amendErr(st.AmendLicence(ctx, store.Amendment{Licence: l, EffectiveOn: time.Now(), Reason: "raise"})); err != nil {
 		t.Fatalf("raising the allocation: %v", err)
 	}
-	if err := st.SetLicenceStatus(ctx, "L-1", "revoked", "x"); err != nil {
+	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "revoked",
+		EffectiveOn: time.Date(2026, 2, 1, 0, 0, 0, 0, time.UTC), Reason: "x"})); err != nil {
 		t.Fatal(err)
 	}
-	if err := st.SetLicenceStatus(ctx, "L-1", "active", "x"); !errors.Is(err, store.ErrConflict) {
+	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "active", EffectiveOn: time.Now(), Reason: "x"})); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("reinstating a revoked licence: err %v, want ErrConflict", err)
 	}
+	// Declared 2026-03-01, after the revocation of 2026-02-01.
 	res, err = st.RecordShipments(ctx, []store.ShipmentRow{row("k2", store.ToNano(0.1))})
 	if err != nil || res[0].Status != store.RecordLicenceInactive {
 		t.Fatalf("recording on a revoked licence: %+v %v, want RecordLicenceInactive", res, err)
 	}
-	if err := st.SetLicenceStatus(ctx, "NOPE", "active", "x"); !errors.Is(err, store.ErrNotFound) {
+	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "NOPE", Status: "active", EffectiveOn: time.Now(), Reason: "x"})); !errors.Is(err, store.ErrNotFound) {
 		t.Fatalf("unknown licence: err %v, want ErrNotFound", err)
 	}
 }

@@ -200,7 +200,7 @@ var codeTable = []CodeInfo{
 	{CodeLicenceUnknown, SeverityError, "licence", "licence_number", "No licence with this number exists.", "The number of an issued licence."},
 	{CodeLicenceCompany, SeverityError, "licence", "licence_number", "The licence belongs to another company.", "A licence held by the declaring company."},
 	{CodeLicenceDirection, SeverityError, "licence", "direction", "The licence does not cover the declared direction.", "A direction the licence lists (an export licence also covers re-export)."},
-	{CodeLicenceInactive, SeverityError, "licence", "licence_number", "The licence is a draft, suspended or revoked.", "An active licence."},
+	{CodeLicenceInactive, SeverityError, "licence", "licence_number", "The licence was a draft, suspended or revoked on the declaration date (its dated status history decides).", "A licence active on the declaration date."},
 	{CodeLicenceScope, SeverityError, "licence", "substance", "No quota line of the licence covers a controlled substance in the shipment (by Annex group or by substance).", "A licence with a quota line for the substance or its Annex group."},
 
 	// quota

@@ -136,6 +136,15 @@ type QuotaLine struct {
 	Unit       QuotaUnit
 	Allocated  float64 // in Unit
 	Drawn      float64 // in Unit, by shipments already recorded
+	// Closed: the line takes no further draws (it was closed, and another line may have
+	// been opened in its place); PlanDraws passes it over.
+	Closed bool
+}
+
+// StatusPeriod is a licence's status from a day on, until the next period.
+type StatusPeriod struct {
+	From   time.Time // first day
+	Status LicenceStatus
 }
 
 // WholeAnnexF is the one Annex a quota line may cover as a whole.
@@ -151,11 +160,32 @@ type Licence struct {
 	Number          string
 	CompanyID       string
 	Directions      []Direction
-	ValidFrom       time.Time // first day of validity
-	ValidTo         time.Time // last day of validity; the zero time means open-ended
-	Status          LicenceStatus
-	SpecialPurposes []Purpose // purposes allowed besides ordinary use (feedstock, destruction, ...)
+	ValidFrom       time.Time     // first day of validity
+	ValidTo         time.Time     // last day of validity; the zero time means open-ended
+	Status          LicenceStatus // as it stands after its last status change
+	SpecialPurposes []Purpose     // purposes allowed besides ordinary use (feedstock, destruction, ...)
 	QuotaLines      []QuotaLine
+	// StatusHistory is the licence's status from each day on, in date order; empty means
+	// Status throughout. A declaration is judged by the status on its date (StatusOn).
+	StatusHistory []StatusPeriod
+}
+
+// StatusOn returns the licence's status on day d: that of the last period of its history
+// starting on or before d; before the first period, the first period's status (a day
+// before the licence was issued is outside its validity, judged apart); Status when the
+// history is empty.
+func (lic *Licence) StatusOn(d time.Time) LicenceStatus {
+	if len(lic.StatusHistory) == 0 {
+		return lic.Status
+	}
+	st := lic.StatusHistory[0].Status
+	for _, p := range lic.StatusHistory {
+		if day(p.From).After(day(d)) {
+			break
+		}
+		st = p.Status
+	}
+	return st
 }
 
 // DefaultFutureToleranceDays is how many days after today NewEnv lets a declaration date lie

@@ -96,6 +96,11 @@ func testLicences() map[string]*Licence {
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaUnitUnspecified, Allocated: 5}}},
 		"XA-IMP-2024-007": {Number: "XA-IMP-2024-007", CompanyID: "CO-1", Directions: imp, ValidFrom: f24, ValidTo: t24, Status: LicenceActive,
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5}}},
+		// Suspended from 2025-04-15 (and still), then a line closed and replaced.
+		"XA-IMP-2025-010": {Number: "XA-IMP-2025-010", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceSuspended,
+			StatusHistory: []StatusPeriod{{From: from, Status: LicenceActive}, {From: d("2025-04-15"), Status: LicenceSuspended}},
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5, Drawn: 5, Closed: true},
+				{LineNumber: 2, Group: substances.GroupCI, Unit: QuotaMetricTonnes, Allocated: 50}}},
 		"XA-IMP-2025-008": {Number: "XA-IMP-2025-008", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
 			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 1e6}}},
 		// authorises the exempted uses that need one (essential, critical, laboratory, process agent)

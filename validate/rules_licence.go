@@ -107,7 +107,7 @@ func Draw(line QuotaLine, fig Figures) float64 {
 func bestLine(lic *Licence, comp substances.ComponentFigures, p Purpose) int {
 	best := -1
 	for i, l := range lic.QuotaLines {
-		if !InScope(l, comp) || !l.Serves(p) {
+		if l.Closed || !InScope(l, comp) || !l.Serves(p) {
 			continue
 		}
 		if best < 0 {
@@ -218,7 +218,12 @@ func (c *checker) licenceRules() {
 	if r.Direction != DirectionUnspecified && !lic.coversDirection(r.Direction) {
 		c.add(CodeLicenceDirection, "", "licence %s covers %s, not %s", lic.Number, directionList(lic.Directions), r.Direction)
 	}
-	if lic.Status != LicenceActive {
+	if c.dateOK {
+		// The licence as it stood on the declaration date.
+		if st := lic.StatusOn(c.date); st != LicenceActive {
+			c.add(CodeLicenceInactive, "", "licence %s was %s on the declaration_date %s; only a licence active on that day is accepted", lic.Number, st, isoDate(c.date))
+		}
+	} else if lic.Status != LicenceActive {
 		c.add(CodeLicenceInactive, "", "licence %s is %s; only an active licence is accepted", lic.Number, lic.Status)
 	}
 	if c.dateOK {

@@ -254,6 +254,11 @@ var ruleCases = []ruleCase{
 	silent(CodeLicenceDirection, "re-export on an export licence", func(r *Record) { r.Direction, r.LicenceNumber = DirectionReExport, "XA-EXP-2025-002" }),
 	fire(CodeLicenceInactive, "suspended", func(r *Record) { r.LicenceNumber = "XA-IMP-2025-003" }, "suspended"),
 	silent(CodeLicenceInactive, "active", nil),
+	// Dated history: suspended from 2025-04-15 (invented licence).
+	fire(CodeLicenceInactive, "declared the day after a suspension", func(r *Record) { r.LicenceNumber, r.DeclarationDate = "XA-IMP-2025-010", "2025-04-16" }, "was suspended on the declaration_date 2025-04-16"),
+	fire(CodeLicenceInactive, "declared on the day of a suspension", func(r *Record) { r.LicenceNumber, r.DeclarationDate = "XA-IMP-2025-010", "2025-04-15" }, "suspended"),
+	silent(CodeLicenceInactive, "declared before a suspension", func(r *Record) { r.LicenceNumber, r.DeclarationDate = "XA-IMP-2025-010", "2025-03-01" }),
+	fire(CodeLicenceInactive, "unreadable date, suspended now", func(r *Record) { r.LicenceNumber, r.DeclarationDate = "XA-IMP-2025-003", "junk" }, "is suspended"),
 	fire(CodeLicenceScope, "CFC on a licence without an A/I line", cfc12, "CFC-12", "Annex A/I"),
 	fire(CodeLicenceScope, "HCFC component of a blend on an HFC-only licence", func(r *Record) {
 		r.Substance, r.HSCode, r.CAS, r.Formula, r.LicenceNumber = "R-402A", "", "", "", "XA-IMP-2025-008"
@@ -550,4 +555,35 @@ func withType(parties map[string]PartySettings, code string, t PartyType) map[st
 	p.Type = t
 	out[code] = p
 	return out
+}
+
+// A closed quota line takes no draws: the shipment draws on the line opened in its place
+// (invented licence XA-IMP-2025-010: line 1 closed, line 2 open, both C/I).
+func TestPlanDrawsPassesOverClosedLines(t *testing.T) {
+	lic := testLicences()["XA-IMP-2025-010"]
+	fig := Figures{Components: []substances.ComponentFigures{{Designation: "HCFC-22", Group: substances.GroupCI, MassKg: 1000, ODPTonnes: 0.055}}}
+	draws, uncovered := PlanDraws(lic, fig, PurposeUnspecified)
+	if len(uncovered) != 0 || len(draws) != 1 || draws[0].LineNumber != 2 || draws[0].Unit != QuotaMetricTonnes {
+		t.Fatalf("draws %+v uncovered %v; want one draw on line 2 in metric t", draws, uncovered)
+	}
+	lic.QuotaLines = lic.QuotaLines[:1] // only the closed line
+	if draws, uncovered = PlanDraws(lic, fig, PurposeUnspecified); len(draws) != 0 || len(uncovered) != 1 {
+		t.Fatalf("only a closed line: draws %+v uncovered %v; want the component uncovered", draws, uncovered)
+	}
+}
+
+// StatusOn: the status of the last period starting on or before the day; before the
+// first, the first period's; the plain status without a history.
+func TestLicenceStatusOn(t *testing.T) {
+	lic := testLicences()["XA-IMP-2025-010"]
+	for day, want := range map[string]LicenceStatus{"2024-06-01": LicenceActive, "2025-01-01": LicenceActive,
+		"2025-04-14": LicenceActive, "2025-04-15": LicenceSuspended, "2026-01-01": LicenceSuspended} {
+		if got := lic.StatusOn(d(day)); got != want {
+			t.Errorf("StatusOn(%s) = %v, want %v", day, got, want)
+		}
+	}
+	plain := testLicences()["XA-IMP-2025-003"]
+	if got := plain.StatusOn(d("2025-02-01")); got != LicenceSuspended {
+		t.Errorf("without a history: %v, want suspended", got)
+	}
 }

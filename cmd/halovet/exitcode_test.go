@@ -32,6 +32,12 @@ func TestExitCodeContract(t *testing.T) {
 	writeFile(t, empty, lines[0]+"\n")
 	over := filepath.Join(dir, "over.csv")
 	writeFile(t, over, "entry_key,year,entry_type,substance,metric_tonnes,note\nXA-TEST-2025-HCFC-22,2025,historical-import,HCFC-22,5000,invented to exceed\n")
+	// A registry whose last object is invalid (an unknown company); invented.
+	badRegistry := filepath.Join(dir, "bad-registry.json")
+	writeFile(t, badRegistry, `{"companies": [{"companyId": "XA-9001", "name": "Invented"}], "licences": [
+	  {"licenceNumber": "XA-IMP-2026-901", "companyId": "XA-9001", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31",
+	   "quotaLines": [{"annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocated": 1}]},
+	  {"licenceNumber": "XA-IMP-2026-902", "companyId": "NOBODY", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31"}]}`)
 	dead := "127.0.0.1:1" // nothing listens on port 1 of loopback
 	s := "--server"
 
@@ -82,6 +88,34 @@ func TestExitCodeContract(t *testing.T) {
 		{"load success", []string{"load", demoScenario, s, d}, exitOK, "loaded", ""},
 		{"load unusable", []string{"load", okBatch, s, d}, exitUsage, "", "not a registry file"},
 		{"load unreachable", []string{"load", demoScenario, s, dead}, exitUnreachable, "", "halovet serve"},
+		{"load unusable: last object refused", []string{"load", badRegistry, s, d}, exitUsage, "", "nothing was changed"},
+		{"history after a refused load", []string{"history", "XA-IMP-2026-901", s, d}, exitUsage, "", "not found"},
+		{"load dry run", []string{"load", "--dry-run", demoScenario, s, d}, exitOK, "dry run, nothing written", ""},
+		{"load report", []string{"load", demoScenario, s, d}, exitOK, "licences[4]", ""},
+		// Licence verbs on the invented demo licences; the rows run in order.
+		{"suspend unusable: suspended already", []string{"suspend", "XA-IMP-2026-005", "--reason", "test", s, d}, exitUsage, "", "only an active licence can be suspended"},
+		{"suspend unusable: no reason", []string{"suspend", "XA-IMP-2026-002", s, d}, exitUsage, "", "--reason is required"},
+		{"suspend unusable: bad date", []string{"suspend", "XA-IMP-2026-002", "--from", "2026-02-30", "--reason", "test", s, d}, exitUsage, "", "effective_date"},
+		{"suspend unreachable", []string{"suspend", "XA-IMP-2026-002", "--reason", "test", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"reinstate success", []string{"reinstate", "XA-IMP-2026-005", "--from", "2026-11-01", "--reason", "test", s, d}, exitOK, "reinstated from 2026-11-01", ""},
+		{"reinstate unusable: not suspended", []string{"reinstate", "XA-IMP-2026-005", "--reason", "test", s, d}, exitUsage, "", "a reinstatement needs a suspended licence"},
+		{"revoke success", []string{"revoke", "XA-IMP-2026-005", "--from", "2026-11-15", "--reason", "test", s, d}, exitOK, "revoked from 2026-11-15", ""},
+		{"revoke unusable: revoked already", []string{"revoke", "XA-IMP-2026-005", "--reason", "test", s, d}, exitUsage, "", "already revoked"},
+		{"history success", []string{"history", "XA-IMP-2026-005", s, d}, exitOK, "reinstated", ""},
+		{"history unusable", []string{"history", "NOPE-1", s, d}, exitUsage, "", "NOPE-1"},
+		{"history unreachable", []string{"history", "XA-IMP-2026-005", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"amend success", []string{"amend", "XA-IMP-2026-001", "--allocate", "1=4", "--reason", "test", s, d}, exitOK, "amended", ""},
+		{"amend unusable: no such line", []string{"amend", "XA-IMP-2026-001", "--allocate", "9=1", "--reason", "test", s, d}, exitUsage, "", "no quota line 9"},
+		{"amend unusable: nothing to amend", []string{"amend", "XA-IMP-2026-001", "--reason", "test", s, d}, exitUsage, "", "nothing to amend"},
+		{"amend unreachable", []string{"amend", "XA-IMP-2026-001", "--allocate", "1=4", "--reason", "test", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"close-line success", []string{"close-line", "XA-IMP-2026-001", "2", "--open", "F/I:co2e-t:1000", "--reason", "test", s, d}, exitOK, "line 3 opened", ""},
+		{"close-line unusable: closed already", []string{"close-line", "XA-IMP-2026-001", "2", "--reason", "test", s, d}, exitUsage, "", "closed already"},
+		{"close-line unusable: bad spec", []string{"close-line", "XA-IMP-2026-001", "1", "--open", "C/I:tonnes:1", "--reason", "test", s, d}, exitUsage, "", "metric-t"},
+		{"close-line unreachable", []string{"close-line", "XA-IMP-2026-001", "1", "--reason", "test", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"reporting-party success", []string{"reporting-party", "XA", s, d}, exitOK, "already", ""},
+		{"reporting-party unusable: entries recorded", []string{"reporting-party", "XB", s, d}, exitUsage, "", "repeat with force"},
+		{"reporting-party unusable: force without reason", []string{"reporting-party", "XB", "--force", s, d}, exitUsage, "", "--force needs --reason"},
+		{"reporting-party unreachable", []string{"reporting-party", "XA", s, dead}, exitUnreachable, "", "halovet serve"},
 		{"unknown verb", []string{"chek"}, exitUsage, "", "did you mean check?"},
 		{"unknown flag", []string{"licences", "--colour"}, exitUsage, "", "--colour"},
 		{"probe success", []string{"probe", s, d}, exitOK, "SERVING", ""},

@@ -27,10 +27,24 @@ const loadUsage = `load [flags] FILE
 Loads a registry file into the server: party settings of countries, companies, and
 licences with quota lines. The file is a JSON object with arrays "parties",
 "companies" and "licences" whose items are the API's Party, Company and Licence
-messages in protobuf JSON or halovet's JSON dialect (see testdata/demo/scenario.json). Existing parties and
-companies are updated; a licence that exists already is amended. A licence whose
-status is SUSPENDED or REVOKED is issued active and then set to that status, so the
-audit log shows both steps.`
+messages in protobuf JSON or halovet's JSON dialect (see testdata/demo/scenario.json).
+
+The whole file is one transaction: when any object is refused, nothing is changed,
+and the error names the object (e.g. licences[3] (XA-IMP-2026-004)) and why. New
+parties, companies and licences are created; existing ones are changed to what the
+file says, under the same rules as the single calls: a quota line with draws keeps
+its unit and scope, and its licence its company; PutParty's rules keep the reporting
+Party as it is (change it with 'halovet reporting-party'). A licence is brought to
+the status the file gives it (ACTIVE reinstates a suspended licence), from its
+"statusEffectiveDate" (default today); a licence without a status keeps its own.
+
+Each object is reported as created, changed or unchanged, with the status changes.
+--dry-run reports the same without writing anything. --reason is written to the audit
+log and the licence histories (default "loaded from FILE").
+
+Examples:
+  halovet load --dry-run registry-2027.json
+  halovet load --reason "2027 allocations, decision 14/2026" registry-2027.json`
 
 // registryFile is the layout of a load file.
 type registryFile struct {
@@ -42,80 +56,132 @@ type registryFile struct {
 func defineLoad(fs *pflag.FlagSet) runFunc {
 	var cf clientFlags
 	cf.register(fs)
+	dry := fs.Bool("dry-run", false, "report what the load would create and change, and write nothing")
+	reason := fs.String("reason", "", `why, for the audit log and the licence histories (default "loaded from FILE")`)
+	output := fs.String("output", "text", "output: text (a table for people) or json (the LoadRegistryResponse)")
 	return func(ctx context.Context, args []string) error {
 		if len(args) != 1 {
 			return usageErr("give exactly one FILE (see --help)")
+		}
+		if *output != "text" && *output != "json" {
+			return usageErr("--output %q: use text or json", *output)
 		}
 		conn, err := cf.dial()
 		if err != nil {
 			return err
 		}
 		defer conn.Close()
-		n, err := loadRegistry(ctx, conn, args[0])
+		resp, err := sendRegistry(ctx, conn, args[0], *reason, *dry)
 		if err != nil {
 			return err
 		}
-		fmt.Println(n)
-		return nil
+		if *output == "json" {
+			return jsonDoc(os.Stdout, resp)
+		}
+		return writeLoadReport(os.Stdout, resp, args[0])
 	}
 }
 
-// loadRegistry sends a registry file's contents and returns a one-line account.
+// loadRegistry loads a registry file and returns a one-line account (the demo's step).
 func loadRegistry(ctx context.Context, conn *grpc.ClientConn, path string) (string, error) {
-	b, err := os.ReadFile(path)
+	resp, err := sendRegistry(ctx, conn, path, "", false)
 	if err != nil {
 		return "", err
 	}
+	return loadSummary(resp, path), nil
+}
+
+// sendRegistry reads a registry file and sends it as one LoadRegistry call.
+func sendRegistry(ctx context.Context, conn *grpc.ClientConn, path, reason string, dry bool) (*halovetv1.LoadRegistryResponse, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
 	var rf registryFile
 	if err := json.Unmarshal(b, &rf); err != nil {
-		return "", &exitError{code: 2, err: fmt.Errorf("%s: not a registry file: %w", path, err)}
+		return nil, &exitError{code: 2, err: fmt.Errorf("%s: not a registry file: %w", path, err)}
 	}
-	lic := halovetv1.NewLicensingServiceClient(conn)
+	if reason == "" {
+		reason = "loaded from " + path
+	}
+	req := &halovetv1.LoadRegistryRequest{Reason: reason, DryRun: dry}
 	for i, raw := range rf.Parties {
 		p := &halovetv1.Party{}
 		if err := unmarshalDialect(raw, p); err != nil {
-			return "", &exitError{code: 2, err: fmt.Errorf("%s: parties[%d]: %w", path, i, err)}
+			return nil, &exitError{code: 2, err: fmt.Errorf("%s: parties[%d]: %w", path, i, err)}
 		}
-		if _, err := lic.PutParty(ctx, &halovetv1.PutPartyRequest{Party: p}); err != nil {
-			return "", fmt.Errorf("%s: parties[%d] (%s): %w", path, i, p.GetCountryCode(), err)
-		}
+		req.Parties = append(req.Parties, p)
 	}
 	for i, raw := range rf.Companies {
 		c := &halovetv1.Company{}
 		if err := unmarshalDialect(raw, c); err != nil {
-			return "", &exitError{code: 2, err: fmt.Errorf("%s: companies[%d]: %w", path, i, err)}
+			return nil, &exitError{code: 2, err: fmt.Errorf("%s: companies[%d]: %w", path, i, err)}
 		}
-		if _, err := lic.RegisterCompany(ctx, &halovetv1.RegisterCompanyRequest{Company: c}); err != nil {
-			return "", fmt.Errorf("%s: companies[%d] (%s): %w", path, i, c.GetCompanyId(), err)
-		}
+		req.Companies = append(req.Companies, c)
 	}
 	for i, raw := range rf.Licences {
 		l := &halovetv1.Licence{}
 		if err := unmarshalDialect(raw, l); err != nil {
-			return "", &exitError{code: 2, err: fmt.Errorf("%s: licences[%d]: %w", path, i, err)}
+			return nil, &exitError{code: 2, err: fmt.Errorf("%s: licences[%d]: %w", path, i, err)}
 		}
-		want := l.GetStatus()
-		if want == halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED || want == halovetv1.LicenceStatus_LICENCE_STATUS_REVOKED {
-			l.Status = halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE
-		}
-		_, err := lic.GetLicence(ctx, &halovetv1.GetLicenceRequest{LicenceNumber: l.GetLicenceNumber()})
-		if err == nil {
-			_, err = lic.AmendLicence(ctx, &halovetv1.AmendLicenceRequest{Licence: l, Reason: "loaded from " + path})
-		} else {
-			_, err = lic.IssueLicence(ctx, &halovetv1.IssueLicenceRequest{Licence: l, Reason: "loaded from " + path})
-		}
-		if err != nil {
-			return "", fmt.Errorf("%s: licences[%d] (%s): %w", path, i, l.GetLicenceNumber(), err)
-		}
-		if want != l.Status && want != halovetv1.LicenceStatus_LICENCE_STATUS_UNSPECIFIED {
-			if _, err := lic.SetLicenceStatus(ctx, &halovetv1.SetLicenceStatusRequest{LicenceNumber: l.GetLicenceNumber(),
-				Status: want, Reason: "loaded from " + path}); err != nil {
-				return "", fmt.Errorf("%s: licences[%d] (%s) status: %w", path, i, l.GetLicenceNumber(), err)
-			}
-		}
+		req.Licences = append(req.Licences, l)
 	}
-	return fmt.Sprintf("loaded %d parties, %d companies, %d licences from %s",
-		len(rf.Parties), len(rf.Companies), len(rf.Licences), path), nil
+	resp, err := halovetv1.NewLicensingServiceClient(conn).LoadRegistry(ctx, req)
+	if err != nil {
+		return nil, fmt.Errorf("%s: nothing was changed: %w", path, err)
+	}
+	return resp, nil
+}
+
+var loadResultWord = map[halovetv1.LoadResult]string{
+	halovetv1.LoadResult_LOAD_RESULT_CREATED: "created", halovetv1.LoadResult_LOAD_RESULT_CHANGED: "changed",
+	halovetv1.LoadResult_LOAD_RESULT_UNCHANGED: "unchanged",
+}
+
+// loadSummary is one line: what was loaded, and how many objects were created, changed
+// and left unchanged.
+func loadSummary(resp *halovetv1.LoadRegistryResponse, path string) string {
+	n := map[string]int{}
+	by := map[halovetv1.LoadResult]int{}
+	for _, o := range resp.GetObjects() {
+		n[o.GetKind()]++
+		by[o.GetResult()]++
+	}
+	verb := "loaded"
+	if resp.GetDryRun() {
+		verb = "dry run, nothing written: would load"
+	}
+	return fmt.Sprintf("%s %d parties, %d companies, %d licences from %s: %d created, %d changed, %d unchanged",
+		verb, n["party"], n["company"], n["licence"], path,
+		by[halovetv1.LoadResult_LOAD_RESULT_CREATED], by[halovetv1.LoadResult_LOAD_RESULT_CHANGED], by[halovetv1.LoadResult_LOAD_RESULT_UNCHANGED])
+}
+
+// writeLoadReport prints one row per object, then the summary.
+func writeLoadReport(w io.Writer, resp *halovetv1.LoadRegistryResponse, path string) error {
+	tw := newTable(w)
+	fmt.Fprintln(tw, "object\tkey\tresult\tstatus change\t")
+	for _, o := range resp.GetObjects() {
+		ch := strings.Join(o.GetChanges(), "; ")
+		if ch == "" {
+			ch = "-"
+		}
+		fmt.Fprintf(tw, "%s[%d]	%s	%s	%s	\n", plural(o.GetKind()), o.GetIndex(), o.GetKey(), loadResultWord[o.GetResult()], ch)
+	}
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	_, err := fmt.Fprintln(w, "\n"+loadSummary(resp, path))
+	return err
+}
+
+func plural(kind string) string {
+	switch kind {
+	case "party":
+		return "parties"
+	case "company":
+		return "companies"
+	}
+	return kind + "s"
 }
 
 const licencesUsage = `licences [flags]

@@ -258,6 +258,140 @@ func (LicenceStatus) EnumDescriptor() ([]byte, []int) {
 	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{3}
 }
 
+// LicenceEventKind is what one entry of a licence's history did.
+type LicenceEventKind int32
+
+const (
+	// Not set.
+	LicenceEventKind_LICENCE_EVENT_KIND_UNSPECIFIED LicenceEventKind = 0
+	// The licence was issued (its first status from its first day of validity).
+	LicenceEventKind_LICENCE_EVENT_KIND_ISSUED LicenceEventKind = 1
+	// A draft was made valid.
+	LicenceEventKind_LICENCE_EVENT_KIND_ACTIVATED LicenceEventKind = 2
+	// An active licence was suspended.
+	LicenceEventKind_LICENCE_EVENT_KIND_SUSPENDED LicenceEventKind = 3
+	// A suspended licence was made active again.
+	LicenceEventKind_LICENCE_EVENT_KIND_REINSTATED LicenceEventKind = 4
+	// The licence was revoked for good.
+	LicenceEventKind_LICENCE_EVENT_KIND_REVOKED LicenceEventKind = 5
+	// Its terms or quota lines were amended.
+	LicenceEventKind_LICENCE_EVENT_KIND_AMENDED LicenceEventKind = 6
+	// A quota line was closed (and maybe another opened).
+	LicenceEventKind_LICENCE_EVENT_KIND_LINE_CLOSED LicenceEventKind = 7
+	// A status was written without a date by an older server; dated the day written.
+	LicenceEventKind_LICENCE_EVENT_KIND_STATUS_UNDATED LicenceEventKind = 8
+)
+
+// Enum value maps for LicenceEventKind.
+var (
+	LicenceEventKind_name = map[int32]string{
+		0: "LICENCE_EVENT_KIND_UNSPECIFIED",
+		1: "LICENCE_EVENT_KIND_ISSUED",
+		2: "LICENCE_EVENT_KIND_ACTIVATED",
+		3: "LICENCE_EVENT_KIND_SUSPENDED",
+		4: "LICENCE_EVENT_KIND_REINSTATED",
+		5: "LICENCE_EVENT_KIND_REVOKED",
+		6: "LICENCE_EVENT_KIND_AMENDED",
+		7: "LICENCE_EVENT_KIND_LINE_CLOSED",
+		8: "LICENCE_EVENT_KIND_STATUS_UNDATED",
+	}
+	LicenceEventKind_value = map[string]int32{
+		"LICENCE_EVENT_KIND_UNSPECIFIED":    0,
+		"LICENCE_EVENT_KIND_ISSUED":         1,
+		"LICENCE_EVENT_KIND_ACTIVATED":      2,
+		"LICENCE_EVENT_KIND_SUSPENDED":      3,
+		"LICENCE_EVENT_KIND_REINSTATED":     4,
+		"LICENCE_EVENT_KIND_REVOKED":        5,
+		"LICENCE_EVENT_KIND_AMENDED":        6,
+		"LICENCE_EVENT_KIND_LINE_CLOSED":    7,
+		"LICENCE_EVENT_KIND_STATUS_UNDATED": 8,
+	}
+)
+
+func (x LicenceEventKind) Enum() *LicenceEventKind {
+	p := new(LicenceEventKind)
+	*p = x
+	return p
+}
+
+func (x LicenceEventKind) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (LicenceEventKind) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_licensing_proto_enumTypes[4].Descriptor()
+}
+
+func (LicenceEventKind) Type() protoreflect.EnumType {
+	return &file_halovet_v1_licensing_proto_enumTypes[4]
+}
+
+func (x LicenceEventKind) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use LicenceEventKind.Descriptor instead.
+func (LicenceEventKind) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{4}
+}
+
+// LoadResult is what a load did to one object.
+type LoadResult int32
+
+const (
+	// Not set.
+	LoadResult_LOAD_RESULT_UNSPECIFIED LoadResult = 0
+	// The object did not exist and was created.
+	LoadResult_LOAD_RESULT_CREATED LoadResult = 1
+	// The object existed and was changed.
+	LoadResult_LOAD_RESULT_CHANGED LoadResult = 2
+	// The object existed as the load states it.
+	LoadResult_LOAD_RESULT_UNCHANGED LoadResult = 3
+)
+
+// Enum value maps for LoadResult.
+var (
+	LoadResult_name = map[int32]string{
+		0: "LOAD_RESULT_UNSPECIFIED",
+		1: "LOAD_RESULT_CREATED",
+		2: "LOAD_RESULT_CHANGED",
+		3: "LOAD_RESULT_UNCHANGED",
+	}
+	LoadResult_value = map[string]int32{
+		"LOAD_RESULT_UNSPECIFIED": 0,
+		"LOAD_RESULT_CREATED":     1,
+		"LOAD_RESULT_CHANGED":     2,
+		"LOAD_RESULT_UNCHANGED":   3,
+	}
+)
+
+func (x LoadResult) Enum() *LoadResult {
+	p := new(LoadResult)
+	*p = x
+	return p
+}
+
+func (x LoadResult) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (LoadResult) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_licensing_proto_enumTypes[5].Descriptor()
+}
+
+func (LoadResult) Type() protoreflect.EnumType {
+	return &file_halovet_v1_licensing_proto_enumTypes[5]
+}
+
+func (x LoadResult) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use LoadResult.Descriptor instead.
+func (LoadResult) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{5}
+}
+
 // Party is one country's settings. In the demo these are invented for
 // user-assigned codes (XA-XZ, QM-QZ); no real country's status is implied.
 type Party struct {
@@ -882,7 +1016,9 @@ type QuotaLine struct {
 	// A shipment declaring one of them draws on this line before any line without purposes, and
 	// the line authorises that use; a shipment declaring another purpose never draws on it.
 	// Empty: the line serves every purpose.
-	Purposes      []Purpose `protobuf:"varint,8,rep,packed,name=purposes,proto3,enum=halovet.v1.Purpose" json:"purposes,omitempty"`
+	Purposes []Purpose `protobuf:"varint,8,rep,packed,name=purposes,proto3,enum=halovet.v1.Purpose" json:"purposes,omitempty"`
+	// Day the line stopped taking draws, ISO 8601; empty while it is open (read only).
+	ClosedOn      string `protobuf:"bytes,9,opt,name=closed_on,json=closedOn,proto3" json:"closed_on,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -973,6 +1109,68 @@ func (x *QuotaLine) GetPurposes() []Purpose {
 	return nil
 }
 
+func (x *QuotaLine) GetClosedOn() string {
+	if x != nil {
+		return x.ClosedOn
+	}
+	return ""
+}
+
+// LicenceStatusPeriod is a licence's status from a day on, until the next period.
+type LicenceStatusPeriod struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// First day of the period, ISO 8601.
+	FromDate string `protobuf:"bytes,1,opt,name=from_date,json=fromDate,proto3" json:"from_date,omitempty"`
+	// The status from that day.
+	Status        LicenceStatus `protobuf:"varint,2,opt,name=status,proto3,enum=halovet.v1.LicenceStatus" json:"status,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LicenceStatusPeriod) Reset() {
+	*x = LicenceStatusPeriod{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[13]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LicenceStatusPeriod) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LicenceStatusPeriod) ProtoMessage() {}
+
+func (x *LicenceStatusPeriod) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[13]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LicenceStatusPeriod.ProtoReflect.Descriptor instead.
+func (*LicenceStatusPeriod) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{13}
+}
+
+func (x *LicenceStatusPeriod) GetFromDate() string {
+	if x != nil {
+		return x.FromDate
+	}
+	return ""
+}
+
+func (x *LicenceStatusPeriod) GetStatus() LicenceStatus {
+	if x != nil {
+		return x.Status
+	}
+	return LicenceStatus_LICENCE_STATUS_UNSPECIFIED
+}
+
 // Licence is an import or export licence for one company.
 type Licence struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -992,14 +1190,24 @@ type Licence struct {
 	// need to be listed here to be accepted.
 	SpecialPurposes []Purpose `protobuf:"varint,7,rep,packed,name=special_purposes,json=specialPurposes,proto3,enum=halovet.v1.Purpose" json:"special_purposes,omitempty"`
 	// Quota lines.
-	QuotaLines    []*QuotaLine `protobuf:"bytes,8,rep,name=quota_lines,json=quotaLines,proto3" json:"quota_lines,omitempty"`
+	QuotaLines []*QuotaLine `protobuf:"bytes,8,rep,name=quota_lines,json=quotaLines,proto3" json:"quota_lines,omitempty"`
+	// Counts the changes of the licence's terms and status, 1 when issued (read
+	// only); give it as expected_version to refuse a change of a licence changed since.
+	Version int32 `protobuf:"varint,9,opt,name=version,proto3" json:"version,omitempty"`
+	// Read: the day the status took effect. In LoadRegistry: the day a status change
+	// of this licence takes effect, ISO 8601 (default as SetLicenceStatus: today, or
+	// its last status change when later).
+	StatusEffectiveDate string `protobuf:"bytes,10,opt,name=status_effective_date,json=statusEffectiveDate,proto3" json:"status_effective_date,omitempty"`
+	// The licence's status from each day on, in date order (read only). status is the
+	// status today; a declaration is judged by the period that holds its date.
+	StatusHistory []*LicenceStatusPeriod `protobuf:"bytes,11,rep,name=status_history,json=statusHistory,proto3" json:"status_history,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Licence) Reset() {
 	*x = Licence{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[13]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[14]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1011,7 +1219,7 @@ func (x *Licence) String() string {
 func (*Licence) ProtoMessage() {}
 
 func (x *Licence) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[13]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[14]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1024,7 +1232,7 @@ func (x *Licence) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Licence.ProtoReflect.Descriptor instead.
 func (*Licence) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{13}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{14}
 }
 
 func (x *Licence) GetLicenceNumber() string {
@@ -1083,6 +1291,27 @@ func (x *Licence) GetQuotaLines() []*QuotaLine {
 	return nil
 }
 
+func (x *Licence) GetVersion() int32 {
+	if x != nil {
+		return x.Version
+	}
+	return 0
+}
+
+func (x *Licence) GetStatusEffectiveDate() string {
+	if x != nil {
+		return x.StatusEffectiveDate
+	}
+	return ""
+}
+
+func (x *Licence) GetStatusHistory() []*LicenceStatusPeriod {
+	if x != nil {
+		return x.StatusHistory
+	}
+	return nil
+}
+
 // IssueLicenceRequest carries the new licence.
 type IssueLicenceRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1096,7 +1325,7 @@ type IssueLicenceRequest struct {
 
 func (x *IssueLicenceRequest) Reset() {
 	*x = IssueLicenceRequest{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[14]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[15]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1108,7 +1337,7 @@ func (x *IssueLicenceRequest) String() string {
 func (*IssueLicenceRequest) ProtoMessage() {}
 
 func (x *IssueLicenceRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[14]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[15]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1121,7 +1350,7 @@ func (x *IssueLicenceRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use IssueLicenceRequest.ProtoReflect.Descriptor instead.
 func (*IssueLicenceRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{14}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{15}
 }
 
 func (x *IssueLicenceRequest) GetLicence() *Licence {
@@ -1149,7 +1378,7 @@ type IssueLicenceResponse struct {
 
 func (x *IssueLicenceResponse) Reset() {
 	*x = IssueLicenceResponse{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[15]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[16]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1161,7 +1390,7 @@ func (x *IssueLicenceResponse) String() string {
 func (*IssueLicenceResponse) ProtoMessage() {}
 
 func (x *IssueLicenceResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[15]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[16]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1174,7 +1403,7 @@ func (x *IssueLicenceResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use IssueLicenceResponse.ProtoReflect.Descriptor instead.
 func (*IssueLicenceResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{15}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{16}
 }
 
 func (x *IssueLicenceResponse) GetLicence() *Licence {
@@ -1187,17 +1416,24 @@ func (x *IssueLicenceResponse) GetLicence() *Licence {
 // AmendLicenceRequest replaces the amendable parts of a licence.
 type AmendLicenceRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The licence as it should be; quota lines are matched by line_number.
+	// The licence as it should be; quota lines are matched by line_number. Its status
+	// is not changed here (SetLicenceStatus).
 	Licence *Licence `protobuf:"bytes,1,opt,name=licence,proto3" json:"licence,omitempty"`
-	// Why, for the audit log.
-	Reason        string `protobuf:"bytes,2,opt,name=reason,proto3" json:"reason,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	// Why, for the audit log and the history.
+	Reason string `protobuf:"bytes,2,opt,name=reason,proto3" json:"reason,omitempty"`
+	// Day the amendment takes effect, ISO 8601; default today, never later (the new
+	// terms apply to every check from the moment they are recorded).
+	EffectiveDate string `protobuf:"bytes,3,opt,name=effective_date,json=effectiveDate,proto3" json:"effective_date,omitempty"`
+	// When not 0: the version the caller read; a licence at another version is
+	// refused FAILED_PRECONDITION.
+	ExpectedVersion int32 `protobuf:"varint,4,opt,name=expected_version,json=expectedVersion,proto3" json:"expected_version,omitempty"`
+	unknownFields   protoimpl.UnknownFields
+	sizeCache       protoimpl.SizeCache
 }
 
 func (x *AmendLicenceRequest) Reset() {
 	*x = AmendLicenceRequest{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[16]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[17]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1209,7 +1445,7 @@ func (x *AmendLicenceRequest) String() string {
 func (*AmendLicenceRequest) ProtoMessage() {}
 
 func (x *AmendLicenceRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[16]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[17]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1222,7 +1458,7 @@ func (x *AmendLicenceRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AmendLicenceRequest.ProtoReflect.Descriptor instead.
 func (*AmendLicenceRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{16}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{17}
 }
 
 func (x *AmendLicenceRequest) GetLicence() *Licence {
@@ -1239,6 +1475,20 @@ func (x *AmendLicenceRequest) GetReason() string {
 	return ""
 }
 
+func (x *AmendLicenceRequest) GetEffectiveDate() string {
+	if x != nil {
+		return x.EffectiveDate
+	}
+	return ""
+}
+
+func (x *AmendLicenceRequest) GetExpectedVersion() int32 {
+	if x != nil {
+		return x.ExpectedVersion
+	}
+	return 0
+}
+
 // AmendLicenceResponse returns it.
 type AmendLicenceResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1250,7 +1500,7 @@ type AmendLicenceResponse struct {
 
 func (x *AmendLicenceResponse) Reset() {
 	*x = AmendLicenceResponse{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[17]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[18]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1262,7 +1512,7 @@ func (x *AmendLicenceResponse) String() string {
 func (*AmendLicenceResponse) ProtoMessage() {}
 
 func (x *AmendLicenceResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[17]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[18]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1275,7 +1525,7 @@ func (x *AmendLicenceResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AmendLicenceResponse.ProtoReflect.Descriptor instead.
 func (*AmendLicenceResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{17}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{18}
 }
 
 func (x *AmendLicenceResponse) GetLicence() *Licence {
@@ -1290,17 +1540,26 @@ type SetLicenceStatusRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The licence.
 	LicenceNumber string `protobuf:"bytes,1,opt,name=licence_number,json=licenceNumber,proto3" json:"licence_number,omitempty"`
-	// The new status; a revoked licence cannot be reinstated.
+	// The new status: SUSPENDED (of an active licence), ACTIVE (a reinstatement of a
+	// suspended licence, or a draft made valid) or REVOKED (for good).
 	Status LicenceStatus `protobuf:"varint,2,opt,name=status,proto3,enum=halovet.v1.LicenceStatus" json:"status,omitempty"`
-	// Why, for the audit log.
-	Reason        string `protobuf:"bytes,3,opt,name=reason,proto3" json:"reason,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	// Why, for the audit log and the history; required.
+	Reason string `protobuf:"bytes,3,opt,name=reason,proto3" json:"reason,omitempty"`
+	// First day of the new status, ISO 8601; default today (or the day of the
+	// licence's last status change when that is later, e.g. the first day of a licence
+	// issued for next year). Not before the licence's last status change (changes are
+	// recorded in date order).
+	EffectiveDate string `protobuf:"bytes,4,opt,name=effective_date,json=effectiveDate,proto3" json:"effective_date,omitempty"`
+	// When not 0: the version the caller read; a licence at another version is
+	// refused FAILED_PRECONDITION.
+	ExpectedVersion int32 `protobuf:"varint,5,opt,name=expected_version,json=expectedVersion,proto3" json:"expected_version,omitempty"`
+	unknownFields   protoimpl.UnknownFields
+	sizeCache       protoimpl.SizeCache
 }
 
 func (x *SetLicenceStatusRequest) Reset() {
 	*x = SetLicenceStatusRequest{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[18]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[19]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1312,7 +1571,7 @@ func (x *SetLicenceStatusRequest) String() string {
 func (*SetLicenceStatusRequest) ProtoMessage() {}
 
 func (x *SetLicenceStatusRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[18]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[19]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1325,7 +1584,7 @@ func (x *SetLicenceStatusRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetLicenceStatusRequest.ProtoReflect.Descriptor instead.
 func (*SetLicenceStatusRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{18}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{19}
 }
 
 func (x *SetLicenceStatusRequest) GetLicenceNumber() string {
@@ -1349,18 +1608,34 @@ func (x *SetLicenceStatusRequest) GetReason() string {
 	return ""
 }
 
+func (x *SetLicenceStatusRequest) GetEffectiveDate() string {
+	if x != nil {
+		return x.EffectiveDate
+	}
+	return ""
+}
+
+func (x *SetLicenceStatusRequest) GetExpectedVersion() int32 {
+	if x != nil {
+		return x.ExpectedVersion
+	}
+	return 0
+}
+
 // SetLicenceStatusResponse returns the licence.
 type SetLicenceStatusResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The stored licence.
-	Licence       *Licence `protobuf:"bytes,1,opt,name=licence,proto3" json:"licence,omitempty"`
+	Licence *Licence `protobuf:"bytes,1,opt,name=licence,proto3" json:"licence,omitempty"`
+	// What the change was.
+	Change        LicenceEventKind `protobuf:"varint,2,opt,name=change,proto3,enum=halovet.v1.LicenceEventKind" json:"change,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *SetLicenceStatusResponse) Reset() {
 	*x = SetLicenceStatusResponse{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[19]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[20]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1372,7 +1647,7 @@ func (x *SetLicenceStatusResponse) String() string {
 func (*SetLicenceStatusResponse) ProtoMessage() {}
 
 func (x *SetLicenceStatusResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[19]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[20]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1385,7 +1660,7 @@ func (x *SetLicenceStatusResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetLicenceStatusResponse.ProtoReflect.Descriptor instead.
 func (*SetLicenceStatusResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{19}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{20}
 }
 
 func (x *SetLicenceStatusResponse) GetLicence() *Licence {
@@ -1393,6 +1668,712 @@ func (x *SetLicenceStatusResponse) GetLicence() *Licence {
 		return x.Licence
 	}
 	return nil
+}
+
+func (x *SetLicenceStatusResponse) GetChange() LicenceEventKind {
+	if x != nil {
+		return x.Change
+	}
+	return LicenceEventKind_LICENCE_EVENT_KIND_UNSPECIFIED
+}
+
+// SetReportingPartyRequest names the reporting Party.
+type SetReportingPartyRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// ISO 3166-1 alpha-2 code of a country whose settings are stored.
+	CountryCode string `protobuf:"bytes,1,opt,name=country_code,json=countryCode,proto3" json:"country_code,omitempty"`
+	// Change it although shipments or national entries are recorded.
+	Force bool `protobuf:"varint,2,opt,name=force,proto3" json:"force,omitempty"`
+	// Why, for the audit log; required with force.
+	Reason        string `protobuf:"bytes,3,opt,name=reason,proto3" json:"reason,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *SetReportingPartyRequest) Reset() {
+	*x = SetReportingPartyRequest{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[21]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *SetReportingPartyRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*SetReportingPartyRequest) ProtoMessage() {}
+
+func (x *SetReportingPartyRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[21]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use SetReportingPartyRequest.ProtoReflect.Descriptor instead.
+func (*SetReportingPartyRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{21}
+}
+
+func (x *SetReportingPartyRequest) GetCountryCode() string {
+	if x != nil {
+		return x.CountryCode
+	}
+	return ""
+}
+
+func (x *SetReportingPartyRequest) GetForce() bool {
+	if x != nil {
+		return x.Force
+	}
+	return false
+}
+
+func (x *SetReportingPartyRequest) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+// SetReportingPartyResponse returns the reporting Party.
+type SetReportingPartyResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Its settings.
+	Party *Party `protobuf:"bytes,1,opt,name=party,proto3" json:"party,omitempty"`
+	// False when it was the reporting Party already.
+	Changed       bool `protobuf:"varint,2,opt,name=changed,proto3" json:"changed,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *SetReportingPartyResponse) Reset() {
+	*x = SetReportingPartyResponse{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[22]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *SetReportingPartyResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*SetReportingPartyResponse) ProtoMessage() {}
+
+func (x *SetReportingPartyResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[22]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use SetReportingPartyResponse.ProtoReflect.Descriptor instead.
+func (*SetReportingPartyResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{22}
+}
+
+func (x *SetReportingPartyResponse) GetParty() *Party {
+	if x != nil {
+		return x.Party
+	}
+	return nil
+}
+
+func (x *SetReportingPartyResponse) GetChanged() bool {
+	if x != nil {
+		return x.Changed
+	}
+	return false
+}
+
+// CloseQuotaLineRequest closes one quota line.
+type CloseQuotaLineRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The licence.
+	LicenceNumber string `protobuf:"bytes,1,opt,name=licence_number,json=licenceNumber,proto3" json:"licence_number,omitempty"`
+	// The line to close.
+	LineNumber int32 `protobuf:"varint,2,opt,name=line_number,json=lineNumber,proto3" json:"line_number,omitempty"`
+	// First day the line takes no draws, ISO 8601; default today, never later.
+	EffectiveDate string `protobuf:"bytes,3,opt,name=effective_date,json=effectiveDate,proto3" json:"effective_date,omitempty"`
+	// Why, for the audit log and the history; required.
+	Reason string `protobuf:"bytes,4,opt,name=reason,proto3" json:"reason,omitempty"`
+	// When set, a new line opened in its place (line_number is assigned; drawn and
+	// remaining are ignored).
+	Successor *QuotaLine `protobuf:"bytes,5,opt,name=successor,proto3" json:"successor,omitempty"`
+	// When not 0: the version the caller read; a licence at another version is
+	// refused FAILED_PRECONDITION.
+	ExpectedVersion int32 `protobuf:"varint,6,opt,name=expected_version,json=expectedVersion,proto3" json:"expected_version,omitempty"`
+	unknownFields   protoimpl.UnknownFields
+	sizeCache       protoimpl.SizeCache
+}
+
+func (x *CloseQuotaLineRequest) Reset() {
+	*x = CloseQuotaLineRequest{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[23]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CloseQuotaLineRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CloseQuotaLineRequest) ProtoMessage() {}
+
+func (x *CloseQuotaLineRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[23]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CloseQuotaLineRequest.ProtoReflect.Descriptor instead.
+func (*CloseQuotaLineRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{23}
+}
+
+func (x *CloseQuotaLineRequest) GetLicenceNumber() string {
+	if x != nil {
+		return x.LicenceNumber
+	}
+	return ""
+}
+
+func (x *CloseQuotaLineRequest) GetLineNumber() int32 {
+	if x != nil {
+		return x.LineNumber
+	}
+	return 0
+}
+
+func (x *CloseQuotaLineRequest) GetEffectiveDate() string {
+	if x != nil {
+		return x.EffectiveDate
+	}
+	return ""
+}
+
+func (x *CloseQuotaLineRequest) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+func (x *CloseQuotaLineRequest) GetSuccessor() *QuotaLine {
+	if x != nil {
+		return x.Successor
+	}
+	return nil
+}
+
+func (x *CloseQuotaLineRequest) GetExpectedVersion() int32 {
+	if x != nil {
+		return x.ExpectedVersion
+	}
+	return 0
+}
+
+// CloseQuotaLineResponse returns the licence.
+type CloseQuotaLineResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The stored licence.
+	Licence *Licence `protobuf:"bytes,1,opt,name=licence,proto3" json:"licence,omitempty"`
+	// Number of the line opened in its place; 0 when none.
+	SuccessorLineNumber int32 `protobuf:"varint,2,opt,name=successor_line_number,json=successorLineNumber,proto3" json:"successor_line_number,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
+}
+
+func (x *CloseQuotaLineResponse) Reset() {
+	*x = CloseQuotaLineResponse{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[24]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CloseQuotaLineResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CloseQuotaLineResponse) ProtoMessage() {}
+
+func (x *CloseQuotaLineResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[24]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CloseQuotaLineResponse.ProtoReflect.Descriptor instead.
+func (*CloseQuotaLineResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{24}
+}
+
+func (x *CloseQuotaLineResponse) GetLicence() *Licence {
+	if x != nil {
+		return x.Licence
+	}
+	return nil
+}
+
+func (x *CloseQuotaLineResponse) GetSuccessorLineNumber() int32 {
+	if x != nil {
+		return x.SuccessorLineNumber
+	}
+	return 0
+}
+
+// LicenceEvent is one entry of a licence's history.
+type LicenceEvent struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Identifier, in the order the entries were recorded.
+	EventId int64 `protobuf:"varint,1,opt,name=event_id,json=eventId,proto3" json:"event_id,omitempty"`
+	// What the entry did.
+	Kind LicenceEventKind `protobuf:"varint,2,opt,name=kind,proto3,enum=halovet.v1.LicenceEventKind" json:"kind,omitempty"`
+	// Day the change takes effect, ISO 8601.
+	EffectiveDate string `protobuf:"bytes,3,opt,name=effective_date,json=effectiveDate,proto3" json:"effective_date,omitempty"`
+	// The status from effective_date on; UNSPECIFIED when the entry leaves it.
+	Status LicenceStatus `protobuf:"varint,4,opt,name=status,proto3,enum=halovet.v1.LicenceStatus" json:"status,omitempty"`
+	// The reason given.
+	Reason string `protobuf:"bytes,5,opt,name=reason,proto3" json:"reason,omitempty"`
+	// Who made the change (the caller as the server identified it).
+	Actor string `protobuf:"bytes,6,opt,name=actor,proto3" json:"actor,omitempty"`
+	// When it was recorded, RFC 3339.
+	RecordedAt string `protobuf:"bytes,7,opt,name=recorded_at,json=recordedAt,proto3" json:"recorded_at,omitempty"`
+	// What changed, as JSON (for an amendment the terms before and after; for a
+	// closed line its allocation, drawn amount and the line opened in its place).
+	DetailJson    string `protobuf:"bytes,8,opt,name=detail_json,json=detailJson,proto3" json:"detail_json,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LicenceEvent) Reset() {
+	*x = LicenceEvent{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[25]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LicenceEvent) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LicenceEvent) ProtoMessage() {}
+
+func (x *LicenceEvent) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[25]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LicenceEvent.ProtoReflect.Descriptor instead.
+func (*LicenceEvent) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{25}
+}
+
+func (x *LicenceEvent) GetEventId() int64 {
+	if x != nil {
+		return x.EventId
+	}
+	return 0
+}
+
+func (x *LicenceEvent) GetKind() LicenceEventKind {
+	if x != nil {
+		return x.Kind
+	}
+	return LicenceEventKind_LICENCE_EVENT_KIND_UNSPECIFIED
+}
+
+func (x *LicenceEvent) GetEffectiveDate() string {
+	if x != nil {
+		return x.EffectiveDate
+	}
+	return ""
+}
+
+func (x *LicenceEvent) GetStatus() LicenceStatus {
+	if x != nil {
+		return x.Status
+	}
+	return LicenceStatus_LICENCE_STATUS_UNSPECIFIED
+}
+
+func (x *LicenceEvent) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+func (x *LicenceEvent) GetActor() string {
+	if x != nil {
+		return x.Actor
+	}
+	return ""
+}
+
+func (x *LicenceEvent) GetRecordedAt() string {
+	if x != nil {
+		return x.RecordedAt
+	}
+	return ""
+}
+
+func (x *LicenceEvent) GetDetailJson() string {
+	if x != nil {
+		return x.DetailJson
+	}
+	return ""
+}
+
+// ListLicenceHistoryRequest names a licence.
+type ListLicenceHistoryRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The licence number.
+	LicenceNumber string `protobuf:"bytes,1,opt,name=licence_number,json=licenceNumber,proto3" json:"licence_number,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListLicenceHistoryRequest) Reset() {
+	*x = ListLicenceHistoryRequest{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[26]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListLicenceHistoryRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListLicenceHistoryRequest) ProtoMessage() {}
+
+func (x *ListLicenceHistoryRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[26]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListLicenceHistoryRequest.ProtoReflect.Descriptor instead.
+func (*ListLicenceHistoryRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{26}
+}
+
+func (x *ListLicenceHistoryRequest) GetLicenceNumber() string {
+	if x != nil {
+		return x.LicenceNumber
+	}
+	return ""
+}
+
+// ListLicenceHistoryResponse lists its history.
+type ListLicenceHistoryResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Entries in the order they were recorded (which is date order for status
+	// changes).
+	Events []*LicenceEvent `protobuf:"bytes,1,rep,name=events,proto3" json:"events,omitempty"`
+	// The licence's status from each day on.
+	StatusHistory []*LicenceStatusPeriod `protobuf:"bytes,2,rep,name=status_history,json=statusHistory,proto3" json:"status_history,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListLicenceHistoryResponse) Reset() {
+	*x = ListLicenceHistoryResponse{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[27]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListLicenceHistoryResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListLicenceHistoryResponse) ProtoMessage() {}
+
+func (x *ListLicenceHistoryResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[27]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListLicenceHistoryResponse.ProtoReflect.Descriptor instead.
+func (*ListLicenceHistoryResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{27}
+}
+
+func (x *ListLicenceHistoryResponse) GetEvents() []*LicenceEvent {
+	if x != nil {
+		return x.Events
+	}
+	return nil
+}
+
+func (x *ListLicenceHistoryResponse) GetStatusHistory() []*LicenceStatusPeriod {
+	if x != nil {
+		return x.StatusHistory
+	}
+	return nil
+}
+
+// LoadRegistryRequest carries the objects of a registry load.
+type LoadRegistryRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Party settings, created or replaced (PutParty's rules).
+	Parties []*Party `protobuf:"bytes,1,rep,name=parties,proto3" json:"parties,omitempty"`
+	// Companies, created or updated.
+	Companies []*Company `protobuf:"bytes,2,rep,name=companies,proto3" json:"companies,omitempty"`
+	// Licences: issued when new, amended when they exist; status (when set) is
+	// reached from status_effective_date.
+	Licences []*Licence `protobuf:"bytes,3,rep,name=licences,proto3" json:"licences,omitempty"`
+	// Why, for the audit log and the licence histories; required.
+	Reason string `protobuf:"bytes,4,opt,name=reason,proto3" json:"reason,omitempty"`
+	// Answer what the load would do without writing anything.
+	DryRun        bool `protobuf:"varint,5,opt,name=dry_run,json=dryRun,proto3" json:"dry_run,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LoadRegistryRequest) Reset() {
+	*x = LoadRegistryRequest{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[28]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LoadRegistryRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LoadRegistryRequest) ProtoMessage() {}
+
+func (x *LoadRegistryRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[28]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LoadRegistryRequest.ProtoReflect.Descriptor instead.
+func (*LoadRegistryRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{28}
+}
+
+func (x *LoadRegistryRequest) GetParties() []*Party {
+	if x != nil {
+		return x.Parties
+	}
+	return nil
+}
+
+func (x *LoadRegistryRequest) GetCompanies() []*Company {
+	if x != nil {
+		return x.Companies
+	}
+	return nil
+}
+
+func (x *LoadRegistryRequest) GetLicences() []*Licence {
+	if x != nil {
+		return x.Licences
+	}
+	return nil
+}
+
+func (x *LoadRegistryRequest) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+func (x *LoadRegistryRequest) GetDryRun() bool {
+	if x != nil {
+		return x.DryRun
+	}
+	return false
+}
+
+// LoadedObject is one object of a load and what became of it.
+type LoadedObject struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// "party", "company" or "licence".
+	Kind string `protobuf:"bytes,1,opt,name=kind,proto3" json:"kind,omitempty"`
+	// Its key: country code, company id or licence number.
+	Key string `protobuf:"bytes,2,opt,name=key,proto3" json:"key,omitempty"`
+	// Its position in its list of the request.
+	Index int32 `protobuf:"varint,3,opt,name=index,proto3" json:"index,omitempty"`
+	// What the load did to it.
+	Result LoadResult `protobuf:"varint,4,opt,name=result,proto3,enum=halovet.v1.LoadResult" json:"result,omitempty"`
+	// Changes besides the terms, e.g. "suspended from 2026-09-15".
+	Changes       []string `protobuf:"bytes,5,rep,name=changes,proto3" json:"changes,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LoadedObject) Reset() {
+	*x = LoadedObject{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[29]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LoadedObject) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LoadedObject) ProtoMessage() {}
+
+func (x *LoadedObject) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[29]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LoadedObject.ProtoReflect.Descriptor instead.
+func (*LoadedObject) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{29}
+}
+
+func (x *LoadedObject) GetKind() string {
+	if x != nil {
+		return x.Kind
+	}
+	return ""
+}
+
+func (x *LoadedObject) GetKey() string {
+	if x != nil {
+		return x.Key
+	}
+	return ""
+}
+
+func (x *LoadedObject) GetIndex() int32 {
+	if x != nil {
+		return x.Index
+	}
+	return 0
+}
+
+func (x *LoadedObject) GetResult() LoadResult {
+	if x != nil {
+		return x.Result
+	}
+	return LoadResult_LOAD_RESULT_UNSPECIFIED
+}
+
+func (x *LoadedObject) GetChanges() []string {
+	if x != nil {
+		return x.Changes
+	}
+	return nil
+}
+
+// LoadRegistryResponse reports the load.
+type LoadRegistryResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// One entry per object: parties, then companies, then licences.
+	Objects []*LoadedObject `protobuf:"bytes,1,rep,name=objects,proto3" json:"objects,omitempty"`
+	// True when nothing was written (a dry run).
+	DryRun        bool `protobuf:"varint,2,opt,name=dry_run,json=dryRun,proto3" json:"dry_run,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LoadRegistryResponse) Reset() {
+	*x = LoadRegistryResponse{}
+	mi := &file_halovet_v1_licensing_proto_msgTypes[30]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LoadRegistryResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LoadRegistryResponse) ProtoMessage() {}
+
+func (x *LoadRegistryResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_licensing_proto_msgTypes[30]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LoadRegistryResponse.ProtoReflect.Descriptor instead.
+func (*LoadRegistryResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{30}
+}
+
+func (x *LoadRegistryResponse) GetObjects() []*LoadedObject {
+	if x != nil {
+		return x.Objects
+	}
+	return nil
+}
+
+func (x *LoadRegistryResponse) GetDryRun() bool {
+	if x != nil {
+		return x.DryRun
+	}
+	return false
 }
 
 // GetLicenceRequest names a licence.
@@ -1406,7 +2387,7 @@ type GetLicenceRequest struct {
 
 func (x *GetLicenceRequest) Reset() {
 	*x = GetLicenceRequest{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[20]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[31]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1418,7 +2399,7 @@ func (x *GetLicenceRequest) String() string {
 func (*GetLicenceRequest) ProtoMessage() {}
 
 func (x *GetLicenceRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[20]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[31]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1431,7 +2412,7 @@ func (x *GetLicenceRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetLicenceRequest.ProtoReflect.Descriptor instead.
 func (*GetLicenceRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{20}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{31}
 }
 
 func (x *GetLicenceRequest) GetLicenceNumber() string {
@@ -1452,7 +2433,7 @@ type GetLicenceResponse struct {
 
 func (x *GetLicenceResponse) Reset() {
 	*x = GetLicenceResponse{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[21]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[32]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1464,7 +2445,7 @@ func (x *GetLicenceResponse) String() string {
 func (*GetLicenceResponse) ProtoMessage() {}
 
 func (x *GetLicenceResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[21]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[32]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1477,7 +2458,7 @@ func (x *GetLicenceResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetLicenceResponse.ProtoReflect.Descriptor instead.
 func (*GetLicenceResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{21}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{32}
 }
 
 func (x *GetLicenceResponse) GetLicence() *Licence {
@@ -1500,7 +2481,7 @@ type ListLicencesRequest struct {
 
 func (x *ListLicencesRequest) Reset() {
 	*x = ListLicencesRequest{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[22]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[33]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1512,7 +2493,7 @@ func (x *ListLicencesRequest) String() string {
 func (*ListLicencesRequest) ProtoMessage() {}
 
 func (x *ListLicencesRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[22]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[33]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1525,7 +2506,7 @@ func (x *ListLicencesRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListLicencesRequest.ProtoReflect.Descriptor instead.
 func (*ListLicencesRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{22}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{33}
 }
 
 func (x *ListLicencesRequest) GetCompanyId() string {
@@ -1553,7 +2534,7 @@ type ListLicencesResponse struct {
 
 func (x *ListLicencesResponse) Reset() {
 	*x = ListLicencesResponse{}
-	mi := &file_halovet_v1_licensing_proto_msgTypes[23]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[34]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1565,7 +2546,7 @@ func (x *ListLicencesResponse) String() string {
 func (*ListLicencesResponse) ProtoMessage() {}
 
 func (x *ListLicencesResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_licensing_proto_msgTypes[23]
+	mi := &file_halovet_v1_licensing_proto_msgTypes[34]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1578,7 +2559,7 @@ func (x *ListLicencesResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListLicencesResponse.ProtoReflect.Descriptor instead.
 func (*ListLicencesResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{23}
+	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{34}
 }
 
 func (x *ListLicencesResponse) GetLicences() []*Licence {
@@ -1628,7 +2609,7 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\acompany\x18\x01 \x01(\v2\x13.halovet.v1.CompanyR\acompany\"\x16\n" +
 	"\x14ListCompaniesRequest\"J\n" +
 	"\x15ListCompaniesResponse\x121\n" +
-	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\"\x99\x02\n" +
+	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\"\xb6\x02\n" +
 	"\tQuotaLine\x12\x1f\n" +
 	"\vline_number\x18\x01 \x01(\x05R\n" +
 	"lineNumber\x12\x1f\n" +
@@ -1639,7 +2620,11 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\tallocated\x18\x05 \x01(\x01R\tallocated\x12\x14\n" +
 	"\x05drawn\x18\x06 \x01(\x01R\x05drawn\x12\x1c\n" +
 	"\tremaining\x18\a \x01(\x01R\tremaining\x12/\n" +
-	"\bpurposes\x18\b \x03(\x0e2\x13.halovet.v1.PurposeR\bpurposes\"\xeb\x02\n" +
+	"\bpurposes\x18\b \x03(\x0e2\x13.halovet.v1.PurposeR\bpurposes\x12\x1b\n" +
+	"\tclosed_on\x18\t \x01(\tR\bclosedOn\"e\n" +
+	"\x13LicenceStatusPeriod\x12\x1b\n" +
+	"\tfrom_date\x18\x01 \x01(\tR\bfromDate\x121\n" +
+	"\x06status\x18\x02 \x01(\x0e2\x19.halovet.v1.LicenceStatusR\x06status\"\x81\x04\n" +
 	"\aLicence\x12%\n" +
 	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\x12\x1d\n" +
 	"\n" +
@@ -1653,23 +2638,81 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x06status\x18\x06 \x01(\x0e2\x19.halovet.v1.LicenceStatusR\x06status\x12>\n" +
 	"\x10special_purposes\x18\a \x03(\x0e2\x13.halovet.v1.PurposeR\x0fspecialPurposes\x126\n" +
 	"\vquota_lines\x18\b \x03(\v2\x15.halovet.v1.QuotaLineR\n" +
-	"quotaLines\"\\\n" +
+	"quotaLines\x12\x18\n" +
+	"\aversion\x18\t \x01(\x05R\aversion\x122\n" +
+	"\x15status_effective_date\x18\n" +
+	" \x01(\tR\x13statusEffectiveDate\x12F\n" +
+	"\x0estatus_history\x18\v \x03(\v2\x1f.halovet.v1.LicenceStatusPeriodR\rstatusHistory\"\\\n" +
 	"\x13IssueLicenceRequest\x12-\n" +
 	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\x12\x16\n" +
 	"\x06reason\x18\x02 \x01(\tR\x06reason\"E\n" +
 	"\x14IssueLicenceResponse\x12-\n" +
-	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\"\\\n" +
+	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\"\xae\x01\n" +
 	"\x13AmendLicenceRequest\x12-\n" +
 	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\x12\x16\n" +
-	"\x06reason\x18\x02 \x01(\tR\x06reason\"E\n" +
+	"\x06reason\x18\x02 \x01(\tR\x06reason\x12%\n" +
+	"\x0eeffective_date\x18\x03 \x01(\tR\reffectiveDate\x12)\n" +
+	"\x10expected_version\x18\x04 \x01(\x05R\x0fexpectedVersion\"E\n" +
 	"\x14AmendLicenceResponse\x12-\n" +
-	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\"\x8b\x01\n" +
+	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\"\xdd\x01\n" +
 	"\x17SetLicenceStatusRequest\x12%\n" +
 	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\x121\n" +
 	"\x06status\x18\x02 \x01(\x0e2\x19.halovet.v1.LicenceStatusR\x06status\x12\x16\n" +
-	"\x06reason\x18\x03 \x01(\tR\x06reason\"I\n" +
+	"\x06reason\x18\x03 \x01(\tR\x06reason\x12%\n" +
+	"\x0eeffective_date\x18\x04 \x01(\tR\reffectiveDate\x12)\n" +
+	"\x10expected_version\x18\x05 \x01(\x05R\x0fexpectedVersion\"\x7f\n" +
 	"\x18SetLicenceStatusResponse\x12-\n" +
-	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\":\n" +
+	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\x124\n" +
+	"\x06change\x18\x02 \x01(\x0e2\x1c.halovet.v1.LicenceEventKindR\x06change\"k\n" +
+	"\x18SetReportingPartyRequest\x12!\n" +
+	"\fcountry_code\x18\x01 \x01(\tR\vcountryCode\x12\x14\n" +
+	"\x05force\x18\x02 \x01(\bR\x05force\x12\x16\n" +
+	"\x06reason\x18\x03 \x01(\tR\x06reason\"^\n" +
+	"\x19SetReportingPartyResponse\x12'\n" +
+	"\x05party\x18\x01 \x01(\v2\x11.halovet.v1.PartyR\x05party\x12\x18\n" +
+	"\achanged\x18\x02 \x01(\bR\achanged\"\xfe\x01\n" +
+	"\x15CloseQuotaLineRequest\x12%\n" +
+	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\x12\x1f\n" +
+	"\vline_number\x18\x02 \x01(\x05R\n" +
+	"lineNumber\x12%\n" +
+	"\x0eeffective_date\x18\x03 \x01(\tR\reffectiveDate\x12\x16\n" +
+	"\x06reason\x18\x04 \x01(\tR\x06reason\x123\n" +
+	"\tsuccessor\x18\x05 \x01(\v2\x15.halovet.v1.QuotaLineR\tsuccessor\x12)\n" +
+	"\x10expected_version\x18\x06 \x01(\x05R\x0fexpectedVersion\"{\n" +
+	"\x16CloseQuotaLineResponse\x12-\n" +
+	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\x122\n" +
+	"\x15successor_line_number\x18\x02 \x01(\x05R\x13successorLineNumber\"\xa5\x02\n" +
+	"\fLicenceEvent\x12\x19\n" +
+	"\bevent_id\x18\x01 \x01(\x03R\aeventId\x120\n" +
+	"\x04kind\x18\x02 \x01(\x0e2\x1c.halovet.v1.LicenceEventKindR\x04kind\x12%\n" +
+	"\x0eeffective_date\x18\x03 \x01(\tR\reffectiveDate\x121\n" +
+	"\x06status\x18\x04 \x01(\x0e2\x19.halovet.v1.LicenceStatusR\x06status\x12\x16\n" +
+	"\x06reason\x18\x05 \x01(\tR\x06reason\x12\x14\n" +
+	"\x05actor\x18\x06 \x01(\tR\x05actor\x12\x1f\n" +
+	"\vrecorded_at\x18\a \x01(\tR\n" +
+	"recordedAt\x12\x1f\n" +
+	"\vdetail_json\x18\b \x01(\tR\n" +
+	"detailJson\"B\n" +
+	"\x19ListLicenceHistoryRequest\x12%\n" +
+	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\"\x96\x01\n" +
+	"\x1aListLicenceHistoryResponse\x120\n" +
+	"\x06events\x18\x01 \x03(\v2\x18.halovet.v1.LicenceEventR\x06events\x12F\n" +
+	"\x0estatus_history\x18\x02 \x03(\v2\x1f.halovet.v1.LicenceStatusPeriodR\rstatusHistory\"\xd7\x01\n" +
+	"\x13LoadRegistryRequest\x12+\n" +
+	"\aparties\x18\x01 \x03(\v2\x11.halovet.v1.PartyR\aparties\x121\n" +
+	"\tcompanies\x18\x02 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\x12/\n" +
+	"\blicences\x18\x03 \x03(\v2\x13.halovet.v1.LicenceR\blicences\x12\x16\n" +
+	"\x06reason\x18\x04 \x01(\tR\x06reason\x12\x17\n" +
+	"\adry_run\x18\x05 \x01(\bR\x06dryRun\"\x94\x01\n" +
+	"\fLoadedObject\x12\x12\n" +
+	"\x04kind\x18\x01 \x01(\tR\x04kind\x12\x10\n" +
+	"\x03key\x18\x02 \x01(\tR\x03key\x12\x14\n" +
+	"\x05index\x18\x03 \x01(\x05R\x05index\x12.\n" +
+	"\x06result\x18\x04 \x01(\x0e2\x16.halovet.v1.LoadResultR\x06result\x12\x18\n" +
+	"\achanges\x18\x05 \x03(\tR\achanges\"c\n" +
+	"\x14LoadRegistryResponse\x122\n" +
+	"\aobjects\x18\x01 \x03(\v2\x18.halovet.v1.LoadedObjectR\aobjects\x12\x17\n" +
+	"\adry_run\x18\x02 \x01(\bR\x06dryRun\":\n" +
 	"\x11GetLicenceRequest\x12%\n" +
 	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\"C\n" +
 	"\x12GetLicenceResponse\x12-\n" +
@@ -1701,16 +2744,36 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x14LICENCE_STATUS_DRAFT\x10\x01\x12\x19\n" +
 	"\x15LICENCE_STATUS_ACTIVE\x10\x02\x12\x1c\n" +
 	"\x18LICENCE_STATUS_SUSPENDED\x10\x03\x12\x1a\n" +
-	"\x16LICENCE_STATUS_REVOKED\x10\x042\xe3\b\n" +
+	"\x16LICENCE_STATUS_REVOKED\x10\x04*\xc7\x02\n" +
+	"\x10LicenceEventKind\x12\"\n" +
+	"\x1eLICENCE_EVENT_KIND_UNSPECIFIED\x10\x00\x12\x1d\n" +
+	"\x19LICENCE_EVENT_KIND_ISSUED\x10\x01\x12 \n" +
+	"\x1cLICENCE_EVENT_KIND_ACTIVATED\x10\x02\x12 \n" +
+	"\x1cLICENCE_EVENT_KIND_SUSPENDED\x10\x03\x12!\n" +
+	"\x1dLICENCE_EVENT_KIND_REINSTATED\x10\x04\x12\x1e\n" +
+	"\x1aLICENCE_EVENT_KIND_REVOKED\x10\x05\x12\x1e\n" +
+	"\x1aLICENCE_EVENT_KIND_AMENDED\x10\x06\x12\"\n" +
+	"\x1eLICENCE_EVENT_KIND_LINE_CLOSED\x10\a\x12%\n" +
+	"!LICENCE_EVENT_KIND_STATUS_UNDATED\x10\b*v\n" +
+	"\n" +
+	"LoadResult\x12\x1b\n" +
+	"\x17LOAD_RESULT_UNSPECIFIED\x10\x00\x12\x17\n" +
+	"\x13LOAD_RESULT_CREATED\x10\x01\x12\x17\n" +
+	"\x13LOAD_RESULT_CHANGED\x10\x02\x12\x19\n" +
+	"\x15LOAD_RESULT_UNCHANGED\x10\x032\xa6\r\n" +
 	"\x10LicensingService\x12]\n" +
 	"\bPutParty\x12\x1b.halovet.v1.PutPartyRequest\x1a\x1c.halovet.v1.PutPartyResponse\"\x16\x82\xd3\xe4\x93\x02\x10:\x01*\"\v/v1/parties\x12i\n" +
 	"\bGetParty\x12\x1b.halovet.v1.GetPartyRequest\x1a\x1c.halovet.v1.GetPartyResponse\"\"\x82\xd3\xe4\x93\x02\x1c\x12\x1a/v1/parties/{country_code}\x12c\n" +
 	"\vListParties\x12\x1e.halovet.v1.ListPartiesRequest\x1a\x1f.halovet.v1.ListPartiesResponse\"\x13\x82\xd3\xe4\x93\x02\r\x12\v/v1/parties\x12t\n" +
 	"\x0fRegisterCompany\x12\".halovet.v1.RegisterCompanyRequest\x1a#.halovet.v1.RegisterCompanyResponse\"\x18\x82\xd3\xe4\x93\x02\x12:\x01*\"\r/v1/companies\x12k\n" +
 	"\rListCompanies\x12 .halovet.v1.ListCompaniesRequest\x1a!.halovet.v1.ListCompaniesResponse\"\x15\x82\xd3\xe4\x93\x02\x0f\x12\r/v1/companies\x12j\n" +
-	"\fIssueLicence\x12\x1f.halovet.v1.IssueLicenceRequest\x1a .halovet.v1.IssueLicenceResponse\"\x17\x82\xd3\xe4\x93\x02\x11:\x01*\"\f/v1/licences\x12p\n" +
+	"\fIssueLicence\x12\x1f.halovet.v1.IssueLicenceRequest\x1a .halovet.v1.IssueLicenceResponse\"\x17\x82\xd3\xe4\x93\x02\x11:\x01*\"\f/v1/licences\x12\x96\x01\n" +
+	"\x11SetReportingParty\x12$.halovet.v1.SetReportingPartyRequest\x1a%.halovet.v1.SetReportingPartyResponse\"4\x82\xd3\xe4\x93\x02.:\x01*\")/v1/parties/{country_code}:make-reporting\x12p\n" +
 	"\fAmendLicence\x12\x1f.halovet.v1.AmendLicenceRequest\x1a .halovet.v1.AmendLicenceResponse\"\x1d\x82\xd3\xe4\x93\x02\x17:\x01*\"\x12/v1/licences:amend\x12\x81\x01\n" +
-	"\x10SetLicenceStatus\x12#.halovet.v1.SetLicenceStatusRequest\x1a$.halovet.v1.SetLicenceStatusResponse\"\"\x82\xd3\xe4\x93\x02\x1c:\x01*\"\x17/v1/licences:set-status\x12r\n" +
+	"\x10SetLicenceStatus\x12#.halovet.v1.SetLicenceStatusRequest\x1a$.halovet.v1.SetLicenceStatusResponse\"\"\x82\xd3\xe4\x93\x02\x1c:\x01*\"\x17/v1/licences:set-status\x12\xa1\x01\n" +
+	"\x0eCloseQuotaLine\x12!.halovet.v1.CloseQuotaLineRequest\x1a\".halovet.v1.CloseQuotaLineResponse\"H\x82\xd3\xe4\x93\x02B:\x01*\"=/v1/licences/{licence_number}/quota-lines/{line_number}:close\x12\x92\x01\n" +
+	"\x12ListLicenceHistory\x12%.halovet.v1.ListLicenceHistoryRequest\x1a&.halovet.v1.ListLicenceHistoryResponse\"-\x82\xd3\xe4\x93\x02'\x12%/v1/licences/{licence_number}/history\x12o\n" +
+	"\fLoadRegistry\x12\x1f.halovet.v1.LoadRegistryRequest\x1a .halovet.v1.LoadRegistryResponse\"\x1c\x82\xd3\xe4\x93\x02\x16:\x01*\"\x11/v1/registry:load\x12r\n" +
 	"\n" +
 	"GetLicence\x12\x1d.halovet.v1.GetLicenceRequest\x1a\x1e.halovet.v1.GetLicenceResponse\"%\x82\xd3\xe4\x93\x02\x1f\x12\x1d/v1/licences/{licence_number}\x12g\n" +
 	"\fListLicences\x12\x1f.halovet.v1.ListLicencesRequest\x1a .halovet.v1.ListLicencesResponse\"\x14\x82\xd3\xe4\x93\x02\x0e\x12\f/v1/licencesB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
@@ -1727,91 +2790,127 @@ func file_halovet_v1_licensing_proto_rawDescGZIP() []byte {
 	return file_halovet_v1_licensing_proto_rawDescData
 }
 
-var file_halovet_v1_licensing_proto_enumTypes = make([]protoimpl.EnumInfo, 4)
-var file_halovet_v1_licensing_proto_msgTypes = make([]protoimpl.MessageInfo, 25)
+var file_halovet_v1_licensing_proto_enumTypes = make([]protoimpl.EnumInfo, 6)
+var file_halovet_v1_licensing_proto_msgTypes = make([]protoimpl.MessageInfo, 36)
 var file_halovet_v1_licensing_proto_goTypes = []any{
-	(PartyType)(0),                   // 0: halovet.v1.PartyType
-	(HfcGroup)(0),                    // 1: halovet.v1.HfcGroup
-	(QuotaUnit)(0),                   // 2: halovet.v1.QuotaUnit
-	(LicenceStatus)(0),               // 3: halovet.v1.LicenceStatus
-	(*Party)(nil),                    // 4: halovet.v1.Party
-	(*PutPartyRequest)(nil),          // 5: halovet.v1.PutPartyRequest
-	(*PutPartyResponse)(nil),         // 6: halovet.v1.PutPartyResponse
-	(*GetPartyRequest)(nil),          // 7: halovet.v1.GetPartyRequest
-	(*GetPartyResponse)(nil),         // 8: halovet.v1.GetPartyResponse
-	(*ListPartiesRequest)(nil),       // 9: halovet.v1.ListPartiesRequest
-	(*ListPartiesResponse)(nil),      // 10: halovet.v1.ListPartiesResponse
-	(*Company)(nil),                  // 11: halovet.v1.Company
-	(*RegisterCompanyRequest)(nil),   // 12: halovet.v1.RegisterCompanyRequest
-	(*RegisterCompanyResponse)(nil),  // 13: halovet.v1.RegisterCompanyResponse
-	(*ListCompaniesRequest)(nil),     // 14: halovet.v1.ListCompaniesRequest
-	(*ListCompaniesResponse)(nil),    // 15: halovet.v1.ListCompaniesResponse
-	(*QuotaLine)(nil),                // 16: halovet.v1.QuotaLine
-	(*Licence)(nil),                  // 17: halovet.v1.Licence
-	(*IssueLicenceRequest)(nil),      // 18: halovet.v1.IssueLicenceRequest
-	(*IssueLicenceResponse)(nil),     // 19: halovet.v1.IssueLicenceResponse
-	(*AmendLicenceRequest)(nil),      // 20: halovet.v1.AmendLicenceRequest
-	(*AmendLicenceResponse)(nil),     // 21: halovet.v1.AmendLicenceResponse
-	(*SetLicenceStatusRequest)(nil),  // 22: halovet.v1.SetLicenceStatusRequest
-	(*SetLicenceStatusResponse)(nil), // 23: halovet.v1.SetLicenceStatusResponse
-	(*GetLicenceRequest)(nil),        // 24: halovet.v1.GetLicenceRequest
-	(*GetLicenceResponse)(nil),       // 25: halovet.v1.GetLicenceResponse
-	(*ListLicencesRequest)(nil),      // 26: halovet.v1.ListLicencesRequest
-	(*ListLicencesResponse)(nil),     // 27: halovet.v1.ListLicencesResponse
-	nil,                              // 28: halovet.v1.Party.BoundFromEntry
-	(Purpose)(0),                     // 29: halovet.v1.Purpose
-	(Direction)(0),                   // 30: halovet.v1.Direction
+	(PartyType)(0),                     // 0: halovet.v1.PartyType
+	(HfcGroup)(0),                      // 1: halovet.v1.HfcGroup
+	(QuotaUnit)(0),                     // 2: halovet.v1.QuotaUnit
+	(LicenceStatus)(0),                 // 3: halovet.v1.LicenceStatus
+	(LicenceEventKind)(0),              // 4: halovet.v1.LicenceEventKind
+	(LoadResult)(0),                    // 5: halovet.v1.LoadResult
+	(*Party)(nil),                      // 6: halovet.v1.Party
+	(*PutPartyRequest)(nil),            // 7: halovet.v1.PutPartyRequest
+	(*PutPartyResponse)(nil),           // 8: halovet.v1.PutPartyResponse
+	(*GetPartyRequest)(nil),            // 9: halovet.v1.GetPartyRequest
+	(*GetPartyResponse)(nil),           // 10: halovet.v1.GetPartyResponse
+	(*ListPartiesRequest)(nil),         // 11: halovet.v1.ListPartiesRequest
+	(*ListPartiesResponse)(nil),        // 12: halovet.v1.ListPartiesResponse
+	(*Company)(nil),                    // 13: halovet.v1.Company
+	(*RegisterCompanyRequest)(nil),     // 14: halovet.v1.RegisterCompanyRequest
+	(*RegisterCompanyResponse)(nil),    // 15: halovet.v1.RegisterCompanyResponse
+	(*ListCompaniesRequest)(nil),       // 16: halovet.v1.ListCompaniesRequest
+	(*ListCompaniesResponse)(nil),      // 17: halovet.v1.ListCompaniesResponse
+	(*QuotaLine)(nil),                  // 18: halovet.v1.QuotaLine
+	(*LicenceStatusPeriod)(nil),        // 19: halovet.v1.LicenceStatusPeriod
+	(*Licence)(nil),                    // 20: halovet.v1.Licence
+	(*IssueLicenceRequest)(nil),        // 21: halovet.v1.IssueLicenceRequest
+	(*IssueLicenceResponse)(nil),       // 22: halovet.v1.IssueLicenceResponse
+	(*AmendLicenceRequest)(nil),        // 23: halovet.v1.AmendLicenceRequest
+	(*AmendLicenceResponse)(nil),       // 24: halovet.v1.AmendLicenceResponse
+	(*SetLicenceStatusRequest)(nil),    // 25: halovet.v1.SetLicenceStatusRequest
+	(*SetLicenceStatusResponse)(nil),   // 26: halovet.v1.SetLicenceStatusResponse
+	(*SetReportingPartyRequest)(nil),   // 27: halovet.v1.SetReportingPartyRequest
+	(*SetReportingPartyResponse)(nil),  // 28: halovet.v1.SetReportingPartyResponse
+	(*CloseQuotaLineRequest)(nil),      // 29: halovet.v1.CloseQuotaLineRequest
+	(*CloseQuotaLineResponse)(nil),     // 30: halovet.v1.CloseQuotaLineResponse
+	(*LicenceEvent)(nil),               // 31: halovet.v1.LicenceEvent
+	(*ListLicenceHistoryRequest)(nil),  // 32: halovet.v1.ListLicenceHistoryRequest
+	(*ListLicenceHistoryResponse)(nil), // 33: halovet.v1.ListLicenceHistoryResponse
+	(*LoadRegistryRequest)(nil),        // 34: halovet.v1.LoadRegistryRequest
+	(*LoadedObject)(nil),               // 35: halovet.v1.LoadedObject
+	(*LoadRegistryResponse)(nil),       // 36: halovet.v1.LoadRegistryResponse
+	(*GetLicenceRequest)(nil),          // 37: halovet.v1.GetLicenceRequest
+	(*GetLicenceResponse)(nil),         // 38: halovet.v1.GetLicenceResponse
+	(*ListLicencesRequest)(nil),        // 39: halovet.v1.ListLicencesRequest
+	(*ListLicencesResponse)(nil),       // 40: halovet.v1.ListLicencesResponse
+	nil,                                // 41: halovet.v1.Party.BoundFromEntry
+	(Purpose)(0),                       // 42: halovet.v1.Purpose
+	(Direction)(0),                     // 43: halovet.v1.Direction
 }
 var file_halovet_v1_licensing_proto_depIdxs = []int32{
 	0,  // 0: halovet.v1.Party.party_type:type_name -> halovet.v1.PartyType
 	1,  // 1: halovet.v1.Party.hfc_group:type_name -> halovet.v1.HfcGroup
-	28, // 2: halovet.v1.Party.bound_from:type_name -> halovet.v1.Party.BoundFromEntry
-	4,  // 3: halovet.v1.PutPartyRequest.party:type_name -> halovet.v1.Party
-	4,  // 4: halovet.v1.PutPartyResponse.party:type_name -> halovet.v1.Party
-	4,  // 5: halovet.v1.GetPartyResponse.party:type_name -> halovet.v1.Party
-	4,  // 6: halovet.v1.ListPartiesResponse.parties:type_name -> halovet.v1.Party
-	11, // 7: halovet.v1.RegisterCompanyRequest.company:type_name -> halovet.v1.Company
-	11, // 8: halovet.v1.RegisterCompanyResponse.company:type_name -> halovet.v1.Company
-	11, // 9: halovet.v1.ListCompaniesResponse.companies:type_name -> halovet.v1.Company
+	41, // 2: halovet.v1.Party.bound_from:type_name -> halovet.v1.Party.BoundFromEntry
+	6,  // 3: halovet.v1.PutPartyRequest.party:type_name -> halovet.v1.Party
+	6,  // 4: halovet.v1.PutPartyResponse.party:type_name -> halovet.v1.Party
+	6,  // 5: halovet.v1.GetPartyResponse.party:type_name -> halovet.v1.Party
+	6,  // 6: halovet.v1.ListPartiesResponse.parties:type_name -> halovet.v1.Party
+	13, // 7: halovet.v1.RegisterCompanyRequest.company:type_name -> halovet.v1.Company
+	13, // 8: halovet.v1.RegisterCompanyResponse.company:type_name -> halovet.v1.Company
+	13, // 9: halovet.v1.ListCompaniesResponse.companies:type_name -> halovet.v1.Company
 	2,  // 10: halovet.v1.QuotaLine.unit:type_name -> halovet.v1.QuotaUnit
-	29, // 11: halovet.v1.QuotaLine.purposes:type_name -> halovet.v1.Purpose
-	30, // 12: halovet.v1.Licence.directions:type_name -> halovet.v1.Direction
-	3,  // 13: halovet.v1.Licence.status:type_name -> halovet.v1.LicenceStatus
-	29, // 14: halovet.v1.Licence.special_purposes:type_name -> halovet.v1.Purpose
-	16, // 15: halovet.v1.Licence.quota_lines:type_name -> halovet.v1.QuotaLine
-	17, // 16: halovet.v1.IssueLicenceRequest.licence:type_name -> halovet.v1.Licence
-	17, // 17: halovet.v1.IssueLicenceResponse.licence:type_name -> halovet.v1.Licence
-	17, // 18: halovet.v1.AmendLicenceRequest.licence:type_name -> halovet.v1.Licence
-	17, // 19: halovet.v1.AmendLicenceResponse.licence:type_name -> halovet.v1.Licence
-	3,  // 20: halovet.v1.SetLicenceStatusRequest.status:type_name -> halovet.v1.LicenceStatus
-	17, // 21: halovet.v1.SetLicenceStatusResponse.licence:type_name -> halovet.v1.Licence
-	17, // 22: halovet.v1.GetLicenceResponse.licence:type_name -> halovet.v1.Licence
-	17, // 23: halovet.v1.ListLicencesResponse.licences:type_name -> halovet.v1.Licence
-	5,  // 24: halovet.v1.LicensingService.PutParty:input_type -> halovet.v1.PutPartyRequest
-	7,  // 25: halovet.v1.LicensingService.GetParty:input_type -> halovet.v1.GetPartyRequest
-	9,  // 26: halovet.v1.LicensingService.ListParties:input_type -> halovet.v1.ListPartiesRequest
-	12, // 27: halovet.v1.LicensingService.RegisterCompany:input_type -> halovet.v1.RegisterCompanyRequest
-	14, // 28: halovet.v1.LicensingService.ListCompanies:input_type -> halovet.v1.ListCompaniesRequest
-	18, // 29: halovet.v1.LicensingService.IssueLicence:input_type -> halovet.v1.IssueLicenceRequest
-	20, // 30: halovet.v1.LicensingService.AmendLicence:input_type -> halovet.v1.AmendLicenceRequest
-	22, // 31: halovet.v1.LicensingService.SetLicenceStatus:input_type -> halovet.v1.SetLicenceStatusRequest
-	24, // 32: halovet.v1.LicensingService.GetLicence:input_type -> halovet.v1.GetLicenceRequest
-	26, // 33: halovet.v1.LicensingService.ListLicences:input_type -> halovet.v1.ListLicencesRequest
-	6,  // 34: halovet.v1.LicensingService.PutParty:output_type -> halovet.v1.PutPartyResponse
-	8,  // 35: halovet.v1.LicensingService.GetParty:output_type -> halovet.v1.GetPartyResponse
-	10, // 36: halovet.v1.LicensingService.ListParties:output_type -> halovet.v1.ListPartiesResponse
-	13, // 37: halovet.v1.LicensingService.RegisterCompany:output_type -> halovet.v1.RegisterCompanyResponse
-	15, // 38: halovet.v1.LicensingService.ListCompanies:output_type -> halovet.v1.ListCompaniesResponse
-	19, // 39: halovet.v1.LicensingService.IssueLicence:output_type -> halovet.v1.IssueLicenceResponse
-	21, // 40: halovet.v1.LicensingService.AmendLicence:output_type -> halovet.v1.AmendLicenceResponse
-	23, // 41: halovet.v1.LicensingService.SetLicenceStatus:output_type -> halovet.v1.SetLicenceStatusResponse
-	25, // 42: halovet.v1.LicensingService.GetLicence:output_type -> halovet.v1.GetLicenceResponse
-	27, // 43: halovet.v1.LicensingService.ListLicences:output_type -> halovet.v1.ListLicencesResponse
-	34, // [34:44] is the sub-list for method output_type
-	24, // [24:34] is the sub-list for method input_type
-	24, // [24:24] is the sub-list for extension type_name
-	24, // [24:24] is the sub-list for extension extendee
-	0,  // [0:24] is the sub-list for field type_name
+	42, // 11: halovet.v1.QuotaLine.purposes:type_name -> halovet.v1.Purpose
+	3,  // 12: halovet.v1.LicenceStatusPeriod.status:type_name -> halovet.v1.LicenceStatus
+	43, // 13: halovet.v1.Licence.directions:type_name -> halovet.v1.Direction
+	3,  // 14: halovet.v1.Licence.status:type_name -> halovet.v1.LicenceStatus
+	42, // 15: halovet.v1.Licence.special_purposes:type_name -> halovet.v1.Purpose
+	18, // 16: halovet.v1.Licence.quota_lines:type_name -> halovet.v1.QuotaLine
+	19, // 17: halovet.v1.Licence.status_history:type_name -> halovet.v1.LicenceStatusPeriod
+	20, // 18: halovet.v1.IssueLicenceRequest.licence:type_name -> halovet.v1.Licence
+	20, // 19: halovet.v1.IssueLicenceResponse.licence:type_name -> halovet.v1.Licence
+	20, // 20: halovet.v1.AmendLicenceRequest.licence:type_name -> halovet.v1.Licence
+	20, // 21: halovet.v1.AmendLicenceResponse.licence:type_name -> halovet.v1.Licence
+	3,  // 22: halovet.v1.SetLicenceStatusRequest.status:type_name -> halovet.v1.LicenceStatus
+	20, // 23: halovet.v1.SetLicenceStatusResponse.licence:type_name -> halovet.v1.Licence
+	4,  // 24: halovet.v1.SetLicenceStatusResponse.change:type_name -> halovet.v1.LicenceEventKind
+	6,  // 25: halovet.v1.SetReportingPartyResponse.party:type_name -> halovet.v1.Party
+	18, // 26: halovet.v1.CloseQuotaLineRequest.successor:type_name -> halovet.v1.QuotaLine
+	20, // 27: halovet.v1.CloseQuotaLineResponse.licence:type_name -> halovet.v1.Licence
+	4,  // 28: halovet.v1.LicenceEvent.kind:type_name -> halovet.v1.LicenceEventKind
+	3,  // 29: halovet.v1.LicenceEvent.status:type_name -> halovet.v1.LicenceStatus
+	31, // 30: halovet.v1.ListLicenceHistoryResponse.events:type_name -> halovet.v1.LicenceEvent
+	19, // 31: halovet.v1.ListLicenceHistoryResponse.status_history:type_name -> halovet.v1.LicenceStatusPeriod
+	6,  // 32: halovet.v1.LoadRegistryRequest.parties:type_name -> halovet.v1.Party
+	13, // 33: halovet.v1.LoadRegistryRequest.companies:type_name -> halovet.v1.Company
+	20, // 34: halovet.v1.LoadRegistryRequest.licences:type_name -> halovet.v1.Licence
+	5,  // 35: halovet.v1.LoadedObject.result:type_name -> halovet.v1.LoadResult
+	35, // 36: halovet.v1.LoadRegistryResponse.objects:type_name -> halovet.v1.LoadedObject
+	20, // 37: halovet.v1.GetLicenceResponse.licence:type_name -> halovet.v1.Licence
+	20, // 38: halovet.v1.ListLicencesResponse.licences:type_name -> halovet.v1.Licence
+	7,  // 39: halovet.v1.LicensingService.PutParty:input_type -> halovet.v1.PutPartyRequest
+	9,  // 40: halovet.v1.LicensingService.GetParty:input_type -> halovet.v1.GetPartyRequest
+	11, // 41: halovet.v1.LicensingService.ListParties:input_type -> halovet.v1.ListPartiesRequest
+	14, // 42: halovet.v1.LicensingService.RegisterCompany:input_type -> halovet.v1.RegisterCompanyRequest
+	16, // 43: halovet.v1.LicensingService.ListCompanies:input_type -> halovet.v1.ListCompaniesRequest
+	21, // 44: halovet.v1.LicensingService.IssueLicence:input_type -> halovet.v1.IssueLicenceRequest
+	27, // 45: halovet.v1.LicensingService.SetReportingParty:input_type -> halovet.v1.SetReportingPartyRequest
+	23, // 46: halovet.v1.LicensingService.AmendLicence:input_type -> halovet.v1.AmendLicenceRequest
+	25, // 47: halovet.v1.LicensingService.SetLicenceStatus:input_type -> halovet.v1.SetLicenceStatusRequest
+	29, // 48: halovet.v1.LicensingService.CloseQuotaLine:input_type -> halovet.v1.CloseQuotaLineRequest
+	32, // 49: halovet.v1.LicensingService.ListLicenceHistory:input_type -> halovet.v1.ListLicenceHistoryRequest
+	34, // 50: halovet.v1.LicensingService.LoadRegistry:input_type -> halovet.v1.LoadRegistryRequest
+	37, // 51: halovet.v1.LicensingService.GetLicence:input_type -> halovet.v1.GetLicenceRequest
+	39, // 52: halovet.v1.LicensingService.ListLicences:input_type -> halovet.v1.ListLicencesRequest
+	8,  // 53: halovet.v1.LicensingService.PutParty:output_type -> halovet.v1.PutPartyResponse
+	10, // 54: halovet.v1.LicensingService.GetParty:output_type -> halovet.v1.GetPartyResponse
+	12, // 55: halovet.v1.LicensingService.ListParties:output_type -> halovet.v1.ListPartiesResponse
+	15, // 56: halovet.v1.LicensingService.RegisterCompany:output_type -> halovet.v1.RegisterCompanyResponse
+	17, // 57: halovet.v1.LicensingService.ListCompanies:output_type -> halovet.v1.ListCompaniesResponse
+	22, // 58: halovet.v1.LicensingService.IssueLicence:output_type -> halovet.v1.IssueLicenceResponse
+	28, // 59: halovet.v1.LicensingService.SetReportingParty:output_type -> halovet.v1.SetReportingPartyResponse
+	24, // 60: halovet.v1.LicensingService.AmendLicence:output_type -> halovet.v1.AmendLicenceResponse
+	26, // 61: halovet.v1.LicensingService.SetLicenceStatus:output_type -> halovet.v1.SetLicenceStatusResponse
+	30, // 62: halovet.v1.LicensingService.CloseQuotaLine:output_type -> halovet.v1.CloseQuotaLineResponse
+	33, // 63: halovet.v1.LicensingService.ListLicenceHistory:output_type -> halovet.v1.ListLicenceHistoryResponse
+	36, // 64: halovet.v1.LicensingService.LoadRegistry:output_type -> halovet.v1.LoadRegistryResponse
+	38, // 65: halovet.v1.LicensingService.GetLicence:output_type -> halovet.v1.GetLicenceResponse
+	40, // 66: halovet.v1.LicensingService.ListLicences:output_type -> halovet.v1.ListLicencesResponse
+	53, // [53:67] is the sub-list for method output_type
+	39, // [39:53] is the sub-list for method input_type
+	39, // [39:39] is the sub-list for extension type_name
+	39, // [39:39] is the sub-list for extension extendee
+	0,  // [0:39] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_licensing_proto_init() }
@@ -1825,8 +2924,8 @@ func file_halovet_v1_licensing_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_licensing_proto_rawDesc), len(file_halovet_v1_licensing_proto_rawDesc)),
-			NumEnums:      4,
-			NumMessages:   25,
+			NumEnums:      6,
+			NumMessages:   36,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

@@ -19,16 +19,20 @@ import (
 const _ = grpc.SupportPackageIsVersion9
 
 const (
-	LicensingService_PutParty_FullMethodName         = "/halovet.v1.LicensingService/PutParty"
-	LicensingService_GetParty_FullMethodName         = "/halovet.v1.LicensingService/GetParty"
-	LicensingService_ListParties_FullMethodName      = "/halovet.v1.LicensingService/ListParties"
-	LicensingService_RegisterCompany_FullMethodName  = "/halovet.v1.LicensingService/RegisterCompany"
-	LicensingService_ListCompanies_FullMethodName    = "/halovet.v1.LicensingService/ListCompanies"
-	LicensingService_IssueLicence_FullMethodName     = "/halovet.v1.LicensingService/IssueLicence"
-	LicensingService_AmendLicence_FullMethodName     = "/halovet.v1.LicensingService/AmendLicence"
-	LicensingService_SetLicenceStatus_FullMethodName = "/halovet.v1.LicensingService/SetLicenceStatus"
-	LicensingService_GetLicence_FullMethodName       = "/halovet.v1.LicensingService/GetLicence"
-	LicensingService_ListLicences_FullMethodName     = "/halovet.v1.LicensingService/ListLicences"
+	LicensingService_PutParty_FullMethodName           = "/halovet.v1.LicensingService/PutParty"
+	LicensingService_GetParty_FullMethodName           = "/halovet.v1.LicensingService/GetParty"
+	LicensingService_ListParties_FullMethodName        = "/halovet.v1.LicensingService/ListParties"
+	LicensingService_RegisterCompany_FullMethodName    = "/halovet.v1.LicensingService/RegisterCompany"
+	LicensingService_ListCompanies_FullMethodName      = "/halovet.v1.LicensingService/ListCompanies"
+	LicensingService_IssueLicence_FullMethodName       = "/halovet.v1.LicensingService/IssueLicence"
+	LicensingService_SetReportingParty_FullMethodName  = "/halovet.v1.LicensingService/SetReportingParty"
+	LicensingService_AmendLicence_FullMethodName       = "/halovet.v1.LicensingService/AmendLicence"
+	LicensingService_SetLicenceStatus_FullMethodName   = "/halovet.v1.LicensingService/SetLicenceStatus"
+	LicensingService_CloseQuotaLine_FullMethodName     = "/halovet.v1.LicensingService/CloseQuotaLine"
+	LicensingService_ListLicenceHistory_FullMethodName = "/halovet.v1.LicensingService/ListLicenceHistory"
+	LicensingService_LoadRegistry_FullMethodName       = "/halovet.v1.LicensingService/LoadRegistry"
+	LicensingService_GetLicence_FullMethodName         = "/halovet.v1.LicensingService/GetLicence"
+	LicensingService_ListLicences_FullMethodName       = "/halovet.v1.LicensingService/ListLicences"
 )
 
 // LicensingServiceClient is the client API for LicensingService service.
@@ -39,7 +43,12 @@ const (
 // trade, and their import and export licences with quota lines. Every change is
 // written to the audit log.
 type LicensingServiceClient interface {
-	// PutParty creates or replaces the settings of one country.
+	// PutParty creates or replaces the settings of one country. It never changes
+	// which country is the reporting Party: a request that sets reporting_party on
+	// another country, or clears it on the reporting Party, is refused
+	// FAILED_PRECONDITION with the reason (SetReportingParty changes it). On a register
+	// with no reporting Party and neither shipments nor national entries, the first
+	// country sent with reporting_party set becomes it.
 	PutParty(ctx context.Context, in *PutPartyRequest, opts ...grpc.CallOption) (*PutPartyResponse, error)
 	// GetParty returns the settings of one country.
 	GetParty(ctx context.Context, in *GetPartyRequest, opts ...grpc.CallOption) (*GetPartyResponse, error)
@@ -51,11 +60,36 @@ type LicensingServiceClient interface {
 	ListCompanies(ctx context.Context, in *ListCompaniesRequest, opts ...grpc.CallOption) (*ListCompaniesResponse, error)
 	// IssueLicence creates a licence with its quota lines.
 	IssueLicence(ctx context.Context, in *IssueLicenceRequest, opts ...grpc.CallOption) (*IssueLicenceResponse, error)
-	// AmendLicence changes the validity, permissions or quota lines of a licence.
-	// A quota line cannot be reduced below what is already drawn.
+	// SetReportingParty names the reporting Party, the country that runs halovet and
+	// whose consumption the shipments and national entries make. Once shipments or
+	// national entries are recorded it is refused FAILED_PRECONDITION unless force is
+	// set with a reason; every change is audited.
+	SetReportingParty(ctx context.Context, in *SetReportingPartyRequest, opts ...grpc.CallOption) (*SetReportingPartyResponse, error)
+	// AmendLicence changes the validity, directions, purposes, company or quota lines
+	// of a licence, from an effective date (recorded in its history). What past draws
+	// mean never changes: a quota line cannot be reduced below what is drawn, and a
+	// line with draws keeps its unit and scope, and the licence its company (close the
+	// line with CloseQuotaLine and open another instead); such requests are refused
+	// FAILED_PRECONDITION with the reason. With expected_version, a licence changed
+	// since it was read is refused as well.
 	AmendLicence(ctx context.Context, in *AmendLicenceRequest, opts ...grpc.CallOption) (*AmendLicenceResponse, error)
-	// SetLicenceStatus suspends, reinstates or revokes a licence.
+	// SetLicenceStatus suspends, reinstates, activates (a draft) or revokes a licence
+	// from an effective date. A declaration is judged by the status on its own date.
 	SetLicenceStatus(ctx context.Context, in *SetLicenceStatusRequest, opts ...grpc.CallOption) (*SetLicenceStatusResponse, error)
+	// CloseQuotaLine stops a quota line taking draws from an effective date (its
+	// allocation is cut to what it has drawn; its unit, scope and draws stay) and may
+	// open a new line in its place: the way to change the unit or scope of a line
+	// that has draws.
+	CloseQuotaLine(ctx context.Context, in *CloseQuotaLineRequest, opts ...grpc.CallOption) (*CloseQuotaLineResponse, error)
+	// ListLicenceHistory returns a licence's dated history: its issue, every status
+	// change and every amendment, with reasons and who made them.
+	ListLicenceHistory(ctx context.Context, in *ListLicenceHistoryRequest, opts ...grpc.CallOption) (*ListLicenceHistoryResponse, error)
+	// LoadRegistry writes party settings, companies and licences in one transaction:
+	// all of them or, when any is refused, none (the error names the object). New
+	// licences are issued, existing ones amended, and each is brought to the status it
+	// states from its status_effective_date. The answer says, per object, whether it
+	// was created, changed or left unchanged; dry_run answers the same without writing.
+	LoadRegistry(ctx context.Context, in *LoadRegistryRequest, opts ...grpc.CallOption) (*LoadRegistryResponse, error)
 	// GetLicence returns a licence with its balances.
 	GetLicence(ctx context.Context, in *GetLicenceRequest, opts ...grpc.CallOption) (*GetLicenceResponse, error)
 	// ListLicences returns licences, optionally of one company or year.
@@ -130,6 +164,16 @@ func (c *licensingServiceClient) IssueLicence(ctx context.Context, in *IssueLice
 	return out, nil
 }
 
+func (c *licensingServiceClient) SetReportingParty(ctx context.Context, in *SetReportingPartyRequest, opts ...grpc.CallOption) (*SetReportingPartyResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(SetReportingPartyResponse)
+	err := c.cc.Invoke(ctx, LicensingService_SetReportingParty_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 func (c *licensingServiceClient) AmendLicence(ctx context.Context, in *AmendLicenceRequest, opts ...grpc.CallOption) (*AmendLicenceResponse, error) {
 	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
 	out := new(AmendLicenceResponse)
@@ -144,6 +188,36 @@ func (c *licensingServiceClient) SetLicenceStatus(ctx context.Context, in *SetLi
 	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
 	out := new(SetLicenceStatusResponse)
 	err := c.cc.Invoke(ctx, LicensingService_SetLicenceStatus_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *licensingServiceClient) CloseQuotaLine(ctx context.Context, in *CloseQuotaLineRequest, opts ...grpc.CallOption) (*CloseQuotaLineResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(CloseQuotaLineResponse)
+	err := c.cc.Invoke(ctx, LicensingService_CloseQuotaLine_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *licensingServiceClient) ListLicenceHistory(ctx context.Context, in *ListLicenceHistoryRequest, opts ...grpc.CallOption) (*ListLicenceHistoryResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListLicenceHistoryResponse)
+	err := c.cc.Invoke(ctx, LicensingService_ListLicenceHistory_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *licensingServiceClient) LoadRegistry(ctx context.Context, in *LoadRegistryRequest, opts ...grpc.CallOption) (*LoadRegistryResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(LoadRegistryResponse)
+	err := c.cc.Invoke(ctx, LicensingService_LoadRegistry_FullMethodName, in, out, cOpts...)
 	if err != nil {
 		return nil, err
 	}
@@ -178,7 +252,12 @@ func (c *licensingServiceClient) ListLicences(ctx context.Context, in *ListLicen
 // trade, and their import and export licences with quota lines. Every change is
 // written to the audit log.
 type LicensingServiceServer interface {
-	// PutParty creates or replaces the settings of one country.
+	// PutParty creates or replaces the settings of one country. It never changes
+	// which country is the reporting Party: a request that sets reporting_party on
+	// another country, or clears it on the reporting Party, is refused
+	// FAILED_PRECONDITION with the reason (SetReportingParty changes it). On a register
+	// with no reporting Party and neither shipments nor national entries, the first
+	// country sent with reporting_party set becomes it.
 	PutParty(context.Context, *PutPartyRequest) (*PutPartyResponse, error)
 	// GetParty returns the settings of one country.
 	GetParty(context.Context, *GetPartyRequest) (*GetPartyResponse, error)
@@ -190,11 +269,36 @@ type LicensingServiceServer interface {
 	ListCompanies(context.Context, *ListCompaniesRequest) (*ListCompaniesResponse, error)
 	// IssueLicence creates a licence with its quota lines.
 	IssueLicence(context.Context, *IssueLicenceRequest) (*IssueLicenceResponse, error)
-	// AmendLicence changes the validity, permissions or quota lines of a licence.
-	// A quota line cannot be reduced below what is already drawn.
+	// SetReportingParty names the reporting Party, the country that runs halovet and
+	// whose consumption the shipments and national entries make. Once shipments or
+	// national entries are recorded it is refused FAILED_PRECONDITION unless force is
+	// set with a reason; every change is audited.
+	SetReportingParty(context.Context, *SetReportingPartyRequest) (*SetReportingPartyResponse, error)
+	// AmendLicence changes the validity, directions, purposes, company or quota lines
+	// of a licence, from an effective date (recorded in its history). What past draws
+	// mean never changes: a quota line cannot be reduced below what is drawn, and a
+	// line with draws keeps its unit and scope, and the licence its company (close the
+	// line with CloseQuotaLine and open another instead); such requests are refused
+	// FAILED_PRECONDITION with the reason. With expected_version, a licence changed
+	// since it was read is refused as well.
 	AmendLicence(context.Context, *AmendLicenceRequest) (*AmendLicenceResponse, error)
-	// SetLicenceStatus suspends, reinstates or revokes a licence.
+	// SetLicenceStatus suspends, reinstates, activates (a draft) or revokes a licence
+	// from an effective date. A declaration is judged by the status on its own date.
 	SetLicenceStatus(context.Context, *SetLicenceStatusRequest) (*SetLicenceStatusResponse, error)
+	// CloseQuotaLine stops a quota line taking draws from an effective date (its
+	// allocation is cut to what it has drawn; its unit, scope and draws stay) and may
+	// open a new line in its place: the way to change the unit or scope of a line
+	// that has draws.
+	CloseQuotaLine(context.Context, *CloseQuotaLineRequest) (*CloseQuotaLineResponse, error)
+	// ListLicenceHistory returns a licence's dated history: its issue, every status
+	// change and every amendment, with reasons and who made them.
+	ListLicenceHistory(context.Context, *ListLicenceHistoryRequest) (*ListLicenceHistoryResponse, error)
+	// LoadRegistry writes party settings, companies and licences in one transaction:
+	// all of them or, when any is refused, none (the error names the object). New
+	// licences are issued, existing ones amended, and each is brought to the status it
+	// states from its status_effective_date. The answer says, per object, whether it
+	// was created, changed or left unchanged; dry_run answers the same without writing.
+	LoadRegistry(context.Context, *LoadRegistryRequest) (*LoadRegistryResponse, error)
 	// GetLicence returns a licence with its balances.
 	GetLicence(context.Context, *GetLicenceRequest) (*GetLicenceResponse, error)
 	// ListLicences returns licences, optionally of one company or year.
@@ -227,11 +331,23 @@ func (UnimplementedLicensingServiceServer) ListCompanies(context.Context, *ListC
 func (UnimplementedLicensingServiceServer) IssueLicence(context.Context, *IssueLicenceRequest) (*IssueLicenceResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method IssueLicence not implemented")
 }
+func (UnimplementedLicensingServiceServer) SetReportingParty(context.Context, *SetReportingPartyRequest) (*SetReportingPartyResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method SetReportingParty not implemented")
+}
 func (UnimplementedLicensingServiceServer) AmendLicence(context.Context, *AmendLicenceRequest) (*AmendLicenceResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method AmendLicence not implemented")
 }
 func (UnimplementedLicensingServiceServer) SetLicenceStatus(context.Context, *SetLicenceStatusRequest) (*SetLicenceStatusResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method SetLicenceStatus not implemented")
+}
+func (UnimplementedLicensingServiceServer) CloseQuotaLine(context.Context, *CloseQuotaLineRequest) (*CloseQuotaLineResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method CloseQuotaLine not implemented")
+}
+func (UnimplementedLicensingServiceServer) ListLicenceHistory(context.Context, *ListLicenceHistoryRequest) (*ListLicenceHistoryResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListLicenceHistory not implemented")
+}
+func (UnimplementedLicensingServiceServer) LoadRegistry(context.Context, *LoadRegistryRequest) (*LoadRegistryResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method LoadRegistry not implemented")
 }
 func (UnimplementedLicensingServiceServer) GetLicence(context.Context, *GetLicenceRequest) (*GetLicenceResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method GetLicence not implemented")
@@ -368,6 +484,24 @@ func _LicensingService_IssueLicence_Handler(srv interface{}, ctx context.Context
 	return interceptor(ctx, in, info, handler)
 }
 
+func _LicensingService_SetReportingParty_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(SetReportingPartyRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(LicensingServiceServer).SetReportingParty(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: LicensingService_SetReportingParty_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(LicensingServiceServer).SetReportingParty(ctx, req.(*SetReportingPartyRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 func _LicensingService_AmendLicence_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
 	in := new(AmendLicenceRequest)
 	if err := dec(in); err != nil {
@@ -400,6 +534,60 @@ func _LicensingService_SetLicenceStatus_Handler(srv interface{}, ctx context.Con
 	}
 	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
 		return srv.(LicensingServiceServer).SetLicenceStatus(ctx, req.(*SetLicenceStatusRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _LicensingService_CloseQuotaLine_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(CloseQuotaLineRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(LicensingServiceServer).CloseQuotaLine(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: LicensingService_CloseQuotaLine_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(LicensingServiceServer).CloseQuotaLine(ctx, req.(*CloseQuotaLineRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _LicensingService_ListLicenceHistory_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListLicenceHistoryRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(LicensingServiceServer).ListLicenceHistory(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: LicensingService_ListLicenceHistory_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(LicensingServiceServer).ListLicenceHistory(ctx, req.(*ListLicenceHistoryRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _LicensingService_LoadRegistry_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(LoadRegistryRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(LicensingServiceServer).LoadRegistry(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: LicensingService_LoadRegistry_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(LicensingServiceServer).LoadRegistry(ctx, req.(*LoadRegistryRequest))
 	}
 	return interceptor(ctx, in, info, handler)
 }
@@ -472,12 +660,28 @@ var LicensingService_ServiceDesc = grpc.ServiceDesc{
 			Handler:    _LicensingService_IssueLicence_Handler,
 		},
 		{
+			MethodName: "SetReportingParty",
+			Handler:    _LicensingService_SetReportingParty_Handler,
+		},
+		{
 			MethodName: "AmendLicence",
 			Handler:    _LicensingService_AmendLicence_Handler,
 		},
 		{
 			MethodName: "SetLicenceStatus",
 			Handler:    _LicensingService_SetLicenceStatus_Handler,
+		},
+		{
+			MethodName: "CloseQuotaLine",
+			Handler:    _LicensingService_CloseQuotaLine_Handler,
+		},
+		{
+			MethodName: "ListLicenceHistory",
+			Handler:    _LicensingService_ListLicenceHistory_Handler,
+		},
+		{
+			MethodName: "LoadRegistry",
+			Handler:    _LicensingService_LoadRegistry_Handler,
 		},
 		{
 			MethodName: "GetLicence",
