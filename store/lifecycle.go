@@ -257,7 +257,7 @@ type ShipmentFilter struct {
 	From, To      time.Time // declaration dates, both inclusive; zero: open
 	Partner       string    // ISO 3166-1 alpha-2, upper case
 	Substance     string    // resolved designation of the record or of one of its components
-	AnnexGroup    string    // an Annex group of one of its components, e.g. "C/I"
+	AnnexGroups   []string  // Annex groups, one of which one of its components is in, e.g. "C/I"
 	Direction     string    // as stored: "import", "export", "re-export", "transit"
 	Purpose       string    // as stored, e.g. "servicing"
 	Condition     string    // as stored, e.g. "virgin"
@@ -365,8 +365,8 @@ func (s *Store) ListShipments(ctx context.Context, f ShipmentFilter) (_ []Stored
 		where = append(where, "(s.resolved_designation = "+a+
 			" OR EXISTS (SELECT 1 FROM shipment_components c WHERE c.shipment_id = s.shipment_id AND c.designation = "+a+"))")
 	}
-	if f.AnnexGroup != "" {
-		where = append(where, "EXISTS (SELECT 1 FROM shipment_components c WHERE c.shipment_id = s.shipment_id AND c.annex_group = "+arg(f.AnnexGroup)+")")
+	if len(f.AnnexGroups) > 0 {
+		where = append(where, "EXISTS (SELECT 1 FROM shipment_components c WHERE c.shipment_id = s.shipment_id AND c.annex_group = ANY("+arg(f.AnnexGroups)+"))")
 	}
 	if len(f.States) > 0 {
 		where = append(where, "s.state = ANY("+arg(f.States)+")")
@@ -761,6 +761,14 @@ func (s *Store) CorrectShipment(ctx context.Context, id int64, row ShipmentRow, 
 			return err
 		}
 		row.version, row.previousID = x.Version+1, &id
+		var now time.Time
+		if err := tx.QueryRow(ctx, `SELECT now()`).Scan(&now); err != nil {
+			return err
+		}
+		res = RecordResult{Status: RecordStored, ShipmentID: newID, Balances: bal, RecordedAt: now}
+		if row.VerdictOnStore != nil {
+			row.Verdict = row.VerdictOnStore(res)
+		}
 		if err := insertShipments(ctx, tx, []int64{newID}, []*ShipmentRow{&row}); err != nil {
 			return err
 		}
@@ -769,7 +777,6 @@ func (s *Store) CorrectShipment(ctx context.Context, id int64, row ShipmentRow, 
 			"released": drawDetail(old), "drawn": drawDetail(row.Draws)}); err != nil {
 			return err
 		}
-		res = RecordResult{Status: RecordStored, ShipmentID: newID, Balances: bal}
 		return nil
 	})
 	return res, err

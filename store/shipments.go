@@ -71,6 +71,10 @@ type ShipmentRow struct {
 	Verdict    []byte
 	Components []ShipmentComponent
 	Draws      []Draw
+	// VerdictOnStore, when set, gives Verdict once the row is known to be stored (its
+	// result has the id, the time and the balances of its own draws), inside the
+	// transaction that stores it: the verdict kept is the one answered.
+	VerdictOnStore func(RecordResult) []byte
 	// version and previousID are set by CorrectShipment for the new version.
 	version    int
 	previousID *int64
@@ -113,6 +117,8 @@ type RecordResult struct {
 	Balances []LineBalance
 	// For RecordYearClosed: the closed year.
 	Closed *ClosedYear
+	// For RecordStored: when it was stored (the transaction's time, as recorded_at).
+	RecordedAt time.Time
 }
 
 // LineBalance is what was left on one quota line around one row's draw.
@@ -299,8 +305,16 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	if err := q.Err(); err != nil {
 		return nil, err
 	}
+	var now time.Time
+	if err := tx.QueryRow(ctx, `SELECT now()`).Scan(&now); err != nil {
+		return nil, err
+	}
 	for j, i := range accept {
 		results[i].ShipmentID = ids[j]
+		results[i].RecordedAt = now
+		if f := rows[i].VerdictOnStore; f != nil {
+			rows[i].Verdict = f(results[i])
+		}
 	}
 	// Replays of rows stored earlier in this same batch point at the new id.
 	byKey := map[[2]string]int64{}
