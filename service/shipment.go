@@ -29,13 +29,45 @@ func (x *shipmentServer) CheckShipment(ctx context.Context, req *halovetv1.Check
 	if err != nil {
 		return nil, err
 	}
+	recs := []*halovetv1.ShipmentRecord{req.GetRecord()}
+	known, err := x.srv.storedFor(ctx, recs)
+	if err != nil {
+		return nil, err
+	}
 	r := recordFromProto(req.GetRecord())
+	if a, ok := known.answer(0, env, &r); ok {
+		return &halovetv1.CheckShipmentResponse{Verdict: a}, nil
+	}
 	v := validate.Check(env, &r, validate.NewMemoryLedger())
 	return &halovetv1.CheckShipmentResponse{Verdict: verdictToProto(&v)}, nil
 }
 
 // summary counts verdicts for the closing message of a stream.
 type summary struct{ pb halovetv1.BatchSummary }
+
+// addProto counts a verdict as answered (a replay answers the stored one).
+func (s *summary) addProto(v *halovetv1.Verdict) {
+	var vv validate.Verdict
+	switch v.GetOutcome() {
+	case halovetv1.Outcome_OUTCOME_ACCEPTED:
+		vv.Outcome = validate.OutcomeAccepted
+	case halovetv1.Outcome_OUTCOME_ACCEPTED_WITH_WARNINGS:
+		vv.Outcome = validate.OutcomeAcceptedWithWarnings
+	default:
+		vv.Outcome = validate.OutcomeRejected
+	}
+	for _, f := range v.GetFindings() {
+		sev := validate.SeverityNotice
+		switch f.GetSeverity() {
+		case halovetv1.Severity_SEVERITY_WARNING:
+			sev = validate.SeverityWarning
+		case halovetv1.Severity_SEVERITY_ERROR:
+			sev = validate.SeverityError
+		}
+		vv.Findings = append(vv.Findings, validate.Finding{Code: f.GetCode(), Severity: sev})
+	}
+	s.add(&vv, v.GetRecorded(), v.GetReplayed())
+}
 
 func (s *summary) add(v *validate.Verdict, recorded, replayed bool) {
 	p := &s.pb
@@ -101,6 +133,7 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 	}
 	type checked struct {
 		verdicts []validate.Verdict
+		answers  map[int]*halovetv1.Verdict // records recorded already, or whose key is taken
 		single   bool
 	}
 	reqs := make(chan *halovetv1.CheckShipmentsRequest, 4)
@@ -133,6 +166,10 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 		for a := range answers {
 			out := make([]*halovetv1.Verdict, len(a.verdicts))
 			for i := range a.verdicts {
+				if v, ok := a.answers[i]; ok {
+					out[i] = v
+					continue
+				}
 				out[i] = verdictToProto(&a.verdicts[i])
 			}
 			resp := &halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Verdicts{Verdicts: &halovetv1.VerdictBatch{Verdicts: out}}}
@@ -179,14 +216,27 @@ check:
 			break
 		}
 		batch.SetEnv(env)
+		var known storedRecords
+		if known, checkErr = x.srv.storedFor(ctx, recs); checkErr != nil {
+			break
+		}
 		vs := make([]validate.Verdict, len(recs))
+		var given map[int]*halovetv1.Verdict
 		for i, pb := range recs {
 			r = recordFromProto(pb)
+			if a, ok := known.answer(i, env, &r); ok {
+				if given == nil {
+					given = map[int]*halovetv1.Verdict{}
+				}
+				given[i] = a
+				sum.addProto(a)
+				continue
+			}
 			vs[i] = batch.Check(&r)
 			sum.add(&vs[i], false, vs[i].Replayed)
 		}
 		select {
-		case answers <- checked{verdicts: vs, single: req.GetRecord() != nil && len(req.GetRecords()) == 0}:
+		case answers <- checked{verdicts: vs, answers: given, single: req.GetRecord() != nil && len(req.GetRecords()) == 0}:
 		case <-ctx.Done():
 			break check
 		}
@@ -227,6 +277,10 @@ type pendingRecord struct {
 	streamDup bool
 	row       store.ShipmentRow // what is stored, built while the previous batch is written
 	rowErr    error
+	lic       *validate.Licence // the licence the record names, as checked
+	// answer is the verdict as stored (for a stored record, with the notices of its own
+	// draw) or as stored earlier (a replay); nil answers verdict.
+	answer *halovetv1.Verdict
 }
 
 // windowEntry is what a recording stream keeps per key in its windows.
@@ -391,8 +445,13 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 			return finish(err)
 		}
 		p := &pendingRecord{pb: in.pb, single: in.single, rec: recordFromProto(in.pb)}
-		// Quota is drawn by the store under lock, not by an in-memory ledger.
-		p.verdict = validate.Check(pinned.View(env, strings.TrimSpace(p.rec.LicenceNumber)), &p.rec, nil)
+		// Quota is judged and drawn by the store under lock, at the record's own draw, not
+		// by an in-memory ledger: the check plans the draws (validate.DeferQuota), and the
+		// quota findings come from the balance the store drew on.
+		num := strings.TrimSpace(p.rec.LicenceNumber)
+		view := pinned.View(env, num)
+		p.lic, _ = view.Licence(num)
+		p.verdict = validate.Check(view, &p.rec, validate.DeferQuota)
 		if k := recordKey(&p.rec); k[1] != "" {
 			p.keyHash, p.hasKey = seen.Hash(k[0], k[1]), true
 			fp := seen.HashString(p.verdict.Fingerprint)
@@ -411,6 +470,7 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 		}
 		if p.verdict.Outcome != validate.OutcomeRejected && !p.streamDup {
 			p.row, p.rowErr = shipmentRow(p.pb, &p.rec, &p.verdict)
+			p.row.VerdictOnStore = p.storedVerdict
 		}
 		pending = append(pending, p)
 	}
@@ -430,7 +490,7 @@ func sendRecorded(stream halovetv1.ShipmentService_RecordShipmentsServer, batch 
 	}
 	for _, p := range batch {
 		v := recordedVerdict(p)
-		sum.add(&p.verdict, v.GetRecorded(), p.verdict.Replayed)
+		sum.addProto(v)
 		if !p.single {
 			group = append(group, v)
 			continue
@@ -462,9 +522,46 @@ func judgeByStored(p *pendingRecord, storedFP string) {
 }
 
 func recordedVerdict(p *pendingRecord) *halovetv1.Verdict {
+	if p.answer != nil {
+		return p.answer
+	}
 	v := verdictToProto(&p.verdict)
 	v.Recorded = p.recorded
 	return v
+}
+
+// storedVerdict is the record's ShipmentRow.VerdictOnStore: the verdict with the quota
+// notices of its own draw, kept with the row and answered.
+func (p *pendingRecord) storedVerdict(res store.RecordResult) []byte {
+	v := p.verdict
+	v.Findings = append([]validate.Finding(nil), p.verdict.Findings...)
+	addBalanceFindings(&v, p.lic, res.Balances)
+	a := verdictToProto(&v)
+	a.Recorded = true
+	b := encodeVerdict(a)
+	withStored(a, &store.StoredRef{ID: res.ShipmentID, State: store.StateLive, RecordedAt: res.RecordedAt})
+	p.answer = a
+	return b
+}
+
+// replayOf answers a record by the stored version it replays: the verdict stored with it,
+// unchanged but for replayed and the record's key and line as sent now. A version stored
+// without a verdict (before verdicts were kept) is answered by the check, as a replay.
+func replayOf(p *pendingRecord, ref *store.StoredRef) error {
+	p.recorded, p.verdict.Replayed = true, true
+	v, err := storedVerdict(ref.Verdict)
+	if err != nil {
+		return err
+	}
+	if v == nil {
+		judgeByStored(p, p.verdict.Fingerprint)
+		v = verdictToProto(&p.verdict)
+	}
+	v.RecordKey, v.SourceLine = p.pb.GetRecordKey(), p.pb.GetSourceLine()
+	v.Recorded, v.Replayed = true, true
+	withStored(v, ref)
+	p.answer = v
+	return nil
 }
 
 // commit writes the accepted records of a batch and folds the store's answers into
@@ -481,10 +578,10 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 			probe = append(probe, k)
 		}
 	}
-	stored := map[[2]string]string{}
+	stored := map[[2]string][]store.StoredRef{}
 	if len(probe) > 0 {
 		var err error
-		if stored, err = s.store.StoredFingerprints(ctx, probe); err != nil {
+		if stored, err = s.store.StoredRecords(ctx, probe); err != nil {
 			return toStatus(ctx, s.log, err)
 		}
 	}
@@ -494,8 +591,14 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 		switch {
 		case p.streamDup:
 		case p.verdict.Outcome == validate.OutcomeRejected:
-			if fp, ok := stored[recordKey(&p.rec)]; ok {
-				judgeByStored(p, fp)
+			if vs, ok := stored[recordKey(&p.rec)]; ok {
+				if ref := matchingRef(vs, p.verdict.Fingerprint); ref != nil {
+					if err := replayOf(p, ref); err != nil {
+						return toStatus(ctx, s.log, err)
+					}
+				} else {
+					judgeByStored(p, "")
+				}
 			}
 		case p.rowErr != nil:
 			return status.Errorf(codes.Internal, "record %q: %v", p.rec.Key, p.rowErr)
@@ -529,20 +632,25 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 		case store.RecordStored:
 			p.recorded = true
 		case store.RecordReplayed:
-			judgeByStored(p, p.verdict.Fingerprint)
+			if r.Stored != nil {
+				if err := replayOf(p, r.Stored); err != nil {
+					return toStatus(ctx, s.log, err)
+				}
+			} else { // a replay of a record stored earlier in this same batch
+				judgeByStored(p, p.verdict.Fingerprint)
+			}
 		case store.RecordKeyConflict:
 			judgeByStored(p, "")
 		case store.RecordQuotaShort:
-			// What the check said of the quota was judged against an older balance.
-			p.verdict.Findings = slices.DeleteFunc(p.verdict.Findings, func(f validate.Finding) bool {
-				return f.Code == validate.CodeQuotaNearLimit
-			})
-			p.verdict.Add(findingFor(validate.CodeQuotaExceeded, "licence_number", fmt.Sprintf(
-				"licence %s line %d has %.9g left when this record is written (other records drew on it first); it needs more",
-				r.LicenceNumber, r.LineNumber, r.Remaining.Float())))
+			// The balance as of this record's own draw, not as the check saw it.
+			p.verdict.Add(quotaShortFindings(p.lic, r, rows[i].Draws))
 		case store.RecordLicenceInactive:
 			p.verdict.Add(findingFor(validate.CodeLicenceInactive, "licence_number", fmt.Sprintf(
 				"licence %s is %s when this record is written", r.LicenceNumber, r.Detail)))
+		case store.RecordYearClosed:
+			p.verdict.Add(findingFor(validate.CodeYearClosed, "declaration_date", fmt.Sprintf(
+				"reporting year %d is closed (since %s: %s); nothing declared in it is recorded until it is reopened",
+				r.Closed.Year, rfc3339(r.Closed.ClosedAt), r.Closed.Reason)))
 		}
 	}
 	return nil

@@ -862,7 +862,10 @@ type Verdict struct {
 	// When that shipment was recorded, RFC 3339 UTC; empty when it is not.
 	RecordedAt string `protobuf:"bytes,9,opt,name=recorded_at,json=recordedAt,proto3" json:"recorded_at,omitempty"`
 	// That shipment's state now; unspecified when the record is not stored.
-	State         ShipmentState `protobuf:"varint,10,opt,name=state,proto3,enum=halovet.v1.ShipmentState" json:"state,omitempty"`
+	State ShipmentState `protobuf:"varint,10,opt,name=state,proto3,enum=halovet.v1.ShipmentState" json:"state,omitempty"`
+	// What the record draws on its licence's quota lines (an accepted record that is not a
+	// duplicate); empty for a rejected record, a duplicate and a transit.
+	Draws         []*QuotaDraw `protobuf:"bytes,11,rep,name=draws,proto3" json:"draws,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -965,6 +968,13 @@ func (x *Verdict) GetState() ShipmentState {
 		return x.State
 	}
 	return ShipmentState_SHIPMENT_STATE_UNSPECIFIED
+}
+
+func (x *Verdict) GetDraws() []*QuotaDraw {
+	if x != nil {
+		return x.Draws
+	}
+	return nil
 }
 
 // CheckShipmentRequest carries one record.
@@ -2751,7 +2761,7 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\fsafety_class\x18\b \x01(\tR\vsafetyClass\x12*\n" +
 	"\x11partner_non_party\x18\t \x01(\bR\x0fpartnerNonParty\x127\n" +
 	"\x18partner_not_bound_groups\x18\n" +
-	" \x03(\tR\x15partnerNotBoundGroups\"\x8b\x03\n" +
+	" \x03(\tR\x15partnerNotBoundGroups\"\xb8\x03\n" +
 	"\aVerdict\x12\x1d\n" +
 	"\n" +
 	"record_key\x18\x01 \x01(\tR\trecordKey\x12\x1f\n" +
@@ -2767,7 +2777,8 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\vrecorded_at\x18\t \x01(\tR\n" +
 	"recordedAt\x12/\n" +
 	"\x05state\x18\n" +
-	" \x01(\x0e2\x19.halovet.v1.ShipmentStateR\x05state\"J\n" +
+	" \x01(\x0e2\x19.halovet.v1.ShipmentStateR\x05state\x12+\n" +
+	"\x05draws\x18\v \x03(\v2\x15.halovet.v1.QuotaDrawR\x05draws\"J\n" +
 	"\x14CheckShipmentRequest\x122\n" +
 	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\"F\n" +
 	"\x15CheckShipmentResponse\x12-\n" +
@@ -3025,63 +3036,64 @@ var file_halovet_v1_shipment_proto_depIdxs = []int32{
 	7,  // 9: halovet.v1.Verdict.findings:type_name -> halovet.v1.Finding
 	8,  // 10: halovet.v1.Verdict.figures:type_name -> halovet.v1.ShipmentFigures
 	5,  // 11: halovet.v1.Verdict.state:type_name -> halovet.v1.ShipmentState
-	6,  // 12: halovet.v1.CheckShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
-	9,  // 13: halovet.v1.CheckShipmentResponse.verdict:type_name -> halovet.v1.Verdict
-	6,  // 14: halovet.v1.CheckShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
-	6,  // 15: halovet.v1.CheckShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
-	35, // 16: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
-	36, // 17: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
-	9,  // 18: halovet.v1.VerdictBatch.verdicts:type_name -> halovet.v1.Verdict
-	9,  // 19: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
-	13, // 20: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
-	14, // 21: halovet.v1.CheckShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
-	6,  // 22: halovet.v1.RecordShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
-	6,  // 23: halovet.v1.RecordShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
-	9,  // 24: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
-	13, // 25: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
-	14, // 26: halovet.v1.RecordShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
-	5,  // 27: halovet.v1.RecordedShipment.state:type_name -> halovet.v1.ShipmentState
-	6,  // 28: halovet.v1.RecordedShipment.record:type_name -> halovet.v1.ShipmentRecord
-	9,  // 29: halovet.v1.RecordedShipment.verdict:type_name -> halovet.v1.Verdict
-	18, // 30: halovet.v1.RecordedShipment.draws:type_name -> halovet.v1.QuotaDraw
-	0,  // 31: halovet.v1.ListShipmentsRequest.direction:type_name -> halovet.v1.Direction
-	1,  // 32: halovet.v1.ListShipmentsRequest.purpose:type_name -> halovet.v1.Purpose
-	2,  // 33: halovet.v1.ListShipmentsRequest.condition:type_name -> halovet.v1.Condition
-	5,  // 34: halovet.v1.ListShipmentsRequest.states:type_name -> halovet.v1.ShipmentState
-	19, // 35: halovet.v1.ListShipmentsResponse.shipments:type_name -> halovet.v1.RecordedShipment
-	19, // 36: halovet.v1.GetShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
-	19, // 37: halovet.v1.GetShipmentResponse.versions:type_name -> halovet.v1.RecordedShipment
-	19, // 38: halovet.v1.VoidShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
-	6,  // 39: halovet.v1.CorrectShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
-	9,  // 40: halovet.v1.CorrectShipmentResponse.verdict:type_name -> halovet.v1.Verdict
-	19, // 41: halovet.v1.CorrectShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
-	28, // 42: halovet.v1.CloseYearResponse.closed_year:type_name -> halovet.v1.ClosedYear
-	28, // 43: halovet.v1.ListClosedYearsResponse.closed_years:type_name -> halovet.v1.ClosedYear
-	10, // 44: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
-	12, // 45: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
-	16, // 46: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
-	20, // 47: halovet.v1.ShipmentService.ListShipments:input_type -> halovet.v1.ListShipmentsRequest
-	22, // 48: halovet.v1.ShipmentService.GetShipment:input_type -> halovet.v1.GetShipmentRequest
-	24, // 49: halovet.v1.ShipmentService.VoidShipment:input_type -> halovet.v1.VoidShipmentRequest
-	26, // 50: halovet.v1.ShipmentService.CorrectShipment:input_type -> halovet.v1.CorrectShipmentRequest
-	29, // 51: halovet.v1.ShipmentService.CloseYear:input_type -> halovet.v1.CloseYearRequest
-	31, // 52: halovet.v1.ShipmentService.ReopenYear:input_type -> halovet.v1.ReopenYearRequest
-	33, // 53: halovet.v1.ShipmentService.ListClosedYears:input_type -> halovet.v1.ListClosedYearsRequest
-	11, // 54: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
-	15, // 55: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
-	17, // 56: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
-	21, // 57: halovet.v1.ShipmentService.ListShipments:output_type -> halovet.v1.ListShipmentsResponse
-	23, // 58: halovet.v1.ShipmentService.GetShipment:output_type -> halovet.v1.GetShipmentResponse
-	25, // 59: halovet.v1.ShipmentService.VoidShipment:output_type -> halovet.v1.VoidShipmentResponse
-	27, // 60: halovet.v1.ShipmentService.CorrectShipment:output_type -> halovet.v1.CorrectShipmentResponse
-	30, // 61: halovet.v1.ShipmentService.CloseYear:output_type -> halovet.v1.CloseYearResponse
-	32, // 62: halovet.v1.ShipmentService.ReopenYear:output_type -> halovet.v1.ReopenYearResponse
-	34, // 63: halovet.v1.ShipmentService.ListClosedYears:output_type -> halovet.v1.ListClosedYearsResponse
-	54, // [54:64] is the sub-list for method output_type
-	44, // [44:54] is the sub-list for method input_type
-	44, // [44:44] is the sub-list for extension type_name
-	44, // [44:44] is the sub-list for extension extendee
-	0,  // [0:44] is the sub-list for field type_name
+	18, // 12: halovet.v1.Verdict.draws:type_name -> halovet.v1.QuotaDraw
+	6,  // 13: halovet.v1.CheckShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
+	9,  // 14: halovet.v1.CheckShipmentResponse.verdict:type_name -> halovet.v1.Verdict
+	6,  // 15: halovet.v1.CheckShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
+	6,  // 16: halovet.v1.CheckShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
+	35, // 17: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
+	36, // 18: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
+	9,  // 19: halovet.v1.VerdictBatch.verdicts:type_name -> halovet.v1.Verdict
+	9,  // 20: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
+	13, // 21: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
+	14, // 22: halovet.v1.CheckShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
+	6,  // 23: halovet.v1.RecordShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
+	6,  // 24: halovet.v1.RecordShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
+	9,  // 25: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
+	13, // 26: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
+	14, // 27: halovet.v1.RecordShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
+	5,  // 28: halovet.v1.RecordedShipment.state:type_name -> halovet.v1.ShipmentState
+	6,  // 29: halovet.v1.RecordedShipment.record:type_name -> halovet.v1.ShipmentRecord
+	9,  // 30: halovet.v1.RecordedShipment.verdict:type_name -> halovet.v1.Verdict
+	18, // 31: halovet.v1.RecordedShipment.draws:type_name -> halovet.v1.QuotaDraw
+	0,  // 32: halovet.v1.ListShipmentsRequest.direction:type_name -> halovet.v1.Direction
+	1,  // 33: halovet.v1.ListShipmentsRequest.purpose:type_name -> halovet.v1.Purpose
+	2,  // 34: halovet.v1.ListShipmentsRequest.condition:type_name -> halovet.v1.Condition
+	5,  // 35: halovet.v1.ListShipmentsRequest.states:type_name -> halovet.v1.ShipmentState
+	19, // 36: halovet.v1.ListShipmentsResponse.shipments:type_name -> halovet.v1.RecordedShipment
+	19, // 37: halovet.v1.GetShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
+	19, // 38: halovet.v1.GetShipmentResponse.versions:type_name -> halovet.v1.RecordedShipment
+	19, // 39: halovet.v1.VoidShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
+	6,  // 40: halovet.v1.CorrectShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
+	9,  // 41: halovet.v1.CorrectShipmentResponse.verdict:type_name -> halovet.v1.Verdict
+	19, // 42: halovet.v1.CorrectShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
+	28, // 43: halovet.v1.CloseYearResponse.closed_year:type_name -> halovet.v1.ClosedYear
+	28, // 44: halovet.v1.ListClosedYearsResponse.closed_years:type_name -> halovet.v1.ClosedYear
+	10, // 45: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
+	12, // 46: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
+	16, // 47: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
+	20, // 48: halovet.v1.ShipmentService.ListShipments:input_type -> halovet.v1.ListShipmentsRequest
+	22, // 49: halovet.v1.ShipmentService.GetShipment:input_type -> halovet.v1.GetShipmentRequest
+	24, // 50: halovet.v1.ShipmentService.VoidShipment:input_type -> halovet.v1.VoidShipmentRequest
+	26, // 51: halovet.v1.ShipmentService.CorrectShipment:input_type -> halovet.v1.CorrectShipmentRequest
+	29, // 52: halovet.v1.ShipmentService.CloseYear:input_type -> halovet.v1.CloseYearRequest
+	31, // 53: halovet.v1.ShipmentService.ReopenYear:input_type -> halovet.v1.ReopenYearRequest
+	33, // 54: halovet.v1.ShipmentService.ListClosedYears:input_type -> halovet.v1.ListClosedYearsRequest
+	11, // 55: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
+	15, // 56: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
+	17, // 57: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
+	21, // 58: halovet.v1.ShipmentService.ListShipments:output_type -> halovet.v1.ListShipmentsResponse
+	23, // 59: halovet.v1.ShipmentService.GetShipment:output_type -> halovet.v1.GetShipmentResponse
+	25, // 60: halovet.v1.ShipmentService.VoidShipment:output_type -> halovet.v1.VoidShipmentResponse
+	27, // 61: halovet.v1.ShipmentService.CorrectShipment:output_type -> halovet.v1.CorrectShipmentResponse
+	30, // 62: halovet.v1.ShipmentService.CloseYear:output_type -> halovet.v1.CloseYearResponse
+	32, // 63: halovet.v1.ShipmentService.ReopenYear:output_type -> halovet.v1.ReopenYearResponse
+	34, // 64: halovet.v1.ShipmentService.ListClosedYears:output_type -> halovet.v1.ListClosedYearsResponse
+	55, // [55:65] is the sub-list for method output_type
+	45, // [45:55] is the sub-list for method input_type
+	45, // [45:45] is the sub-list for extension type_name
+	45, // [45:45] is the sub-list for extension extendee
+	0,  // [0:45] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_shipment_proto_init() }
