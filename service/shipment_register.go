@@ -613,7 +613,6 @@ func (x *shipmentServer) ListClosedYears(ctx context.Context, _ *halovetv1.ListC
 	return out, nil
 }
 
-
 // matchingRef returns the stored version of vs with fingerprint fp, the newest first.
 func matchingRef(vs []store.StoredRef, fp string) *store.StoredRef {
 	for i := len(vs) - 1; i >= 0; i-- {
