@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"slices"
+	"strconv"
 	"strings"
 
 	"google.golang.org/grpc/codes"
@@ -354,10 +355,11 @@ func (x *shipmentServer) RecordShipments(stream halovetv1.ShipmentService_Record
 	writeErr := make(chan error, 1)
 	writerDone := make(chan struct{})
 	stored := validate.NewKeyWindow[windowEntry](validate.DuplicateWindow) // the writer's: whether each key was stored
+	left := streamBalances{}                                               // the writer's: what the stream's last draw left on each line
 	go func() {
 		defer close(writerDone)
 		for batch := range toWrite {
-			if err := x.srv.commit(ctx, batch); err != nil {
+			if err := x.srv.commit(ctx, batch, left); err != nil {
 				writeErr <- err
 				cancel()
 				return
@@ -567,7 +569,7 @@ func replayOf(p *pendingRecord, ref *store.StoredRef) error {
 // commit writes the accepted records of a batch and folds the store's answers into
 // their verdicts. Keys stored by earlier calls are looked up first, so that a retried
 // batch is answered "replayed" even where a re-check would now find the quota used up.
-func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
+func (s *Server) commit(ctx context.Context, batch []*pendingRecord, left streamBalances) error {
 	// The recorder looks up the keys of the rows it is given. Records the checks rejected
 	// may still be replays of stored ones (a retried batch whose quota is drawn by now),
 	// so only their keys are looked up here.
@@ -608,6 +610,7 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 		}
 	}
 	if len(rows) == 0 {
+		left.follow(batch, nil, nil)
 		return nil
 	}
 	res, err := s.store.RecordShipments(ctx, rows)
@@ -653,5 +656,53 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 				r.Closed.Year, rfc3339(r.Closed.ClosedAt), r.Closed.Reason)))
 		}
 	}
+	left.follow(batch, idx, res)
 	return nil
+}
+
+// streamBalances is what a recording stream's stored records left on each quota line, as
+// of their own draws: a record the checks rejected gets the quota findings a check of the
+// stream would give it (a check counts the stream's earlier accepted records), judged
+// against that balance.
+type streamBalances map[[2]string]store.Nano
+
+func lineOf(licence string, line int) [2]string { return [2]string{licence, strconv.Itoa(line)} }
+
+// follow walks a written batch in order: stored records move the balances, rejected ones
+// are judged against them.
+func (left streamBalances) follow(batch []*pendingRecord, idx []*pendingRecord, res []store.RecordResult) {
+	resultOf := make(map[*pendingRecord]store.RecordResult, len(idx))
+	for i, p := range idx {
+		resultOf[p] = res[i]
+	}
+	for _, p := range batch {
+		if r, ok := resultOf[p]; ok {
+			if r.Status == store.RecordStored {
+				for _, b := range r.Balances {
+					left[lineOf(b.LicenceNumber, b.LineNumber)] = b.After
+				}
+			}
+			continue
+		}
+		if p.streamDup || p.recorded || p.answer != nil || p.verdict.Outcome != validate.OutcomeRejected {
+			continue
+		}
+		lic := p.lic
+		if lic == nil || !p.verdict.Resolved || p.verdict.Figures.NetMassKg <= 0 || p.rec.Direction == validate.DirectionTransit {
+			continue
+		}
+		draws, _ := validate.PlanDraws(lic, p.verdict.Figures)
+		var fs []validate.Finding
+		for _, d := range draws {
+			line := quotaLine(lic, d.LineNumber)
+			used := line.Drawn
+			if l, ok := left[lineOf(lic.Number, d.LineNumber)]; ok {
+				used = line.Allocated - l.Float()
+			}
+			fs = append(fs, validate.QuotaFindings(lic.Number, line, line.Allocated, used, d.Amount)...)
+		}
+		if len(fs) > 0 {
+			p.verdict.Add(fs...)
+		}
+	}
 }

@@ -678,14 +678,16 @@ func (k storedRecords) answer(i int, env *validate.Env, r *validate.Record) (*ha
 		v.Recorded, v.Replayed = true, true
 		withStored(v, ref)
 		v.Findings = append(v.Findings, &halovetv1.Finding{Code: validate.CodeDupReplay, Severity: halovetv1.Severity_SEVERITY_NOTICE,
-			Message: fmt.Sprintf("recorded already as shipment %d (version %d, %s) on %s; its draws are in the balance and not counted again",
-				ref.ID, ref.Version, ref.State, rfc3339(ref.RecordedAt))})
+			Message: fmt.Sprintf("recorded already (version %d, %s; shipment_id and recorded_at say which and when); its draws are in the balance and not counted again",
+				ref.Version, ref.State)})
 		return v, true
 	}
 	cur := vs[len(vs)-1]
 	cv := validate.Check(env, r, nil)
 	cv.Add(findingFor(validate.CodeDupKeyConflict, "", fmt.Sprintf(
-		"the key is recorded as shipment %d (%s, %s) with different content; a recorded shipment is changed by CorrectShipment ('halovet shipments correct')",
-		cur.ID, cur.State, rfc3339(cur.RecordedAt))))
-	return verdictToProto(&cv), true
+		"the key is recorded already (%s) with different content; a recorded shipment is changed by CorrectShipment ('halovet shipments correct'), a new record needs a new key",
+		cur.State)))
+	v := verdictToProto(&cv)
+	withStored(v, &cur)
+	return v, true
 }
