@@ -127,3 +127,7 @@ func shipmentRow(p *halovetv1.ShipmentRecord, r *validate.Record, v *validate.Ve
 }
 
 func ptr[T any](v T) *T { return &v }
+
+// RecordFromProto maps a wire record to the checker's record, as the command line writes
+// a recorded shipment back into a batch file; RecordToProto is its inverse.
+func RecordFromProto(p *halovetv1.ShipmentRecord) validate.Record { return recordFromProto(p) }
