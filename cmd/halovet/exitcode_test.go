@@ -32,6 +32,8 @@ func TestExitCodeContract(t *testing.T) {
 	writeFile(t, empty, lines[0]+"\n")
 	over := filepath.Join(dir, "over.csv")
 	writeFile(t, over, "entry_key,year,entry_type,substance,metric_tonnes,note\nXA-TEST-2025-HCFC-22,2025,historical-import,HCFC-22,5000,invented to exceed\n")
+	unknownFix := filepath.Join(dir, "unknown-fix.csv")
+	writeFile(t, unknownFix, lines[0]+"\nNO-SUCH-KEY,import,XA-1002,XA-IMP-2026-002,XB,2026-01-05,HCFC-22,,,,1,kg,,,servicing,,,\n")
 	dead := "127.0.0.1:1" // nothing listens on port 1 of loopback
 	s := "--server"
 
@@ -82,6 +84,14 @@ func TestExitCodeContract(t *testing.T) {
 		{"load success", []string{"load", demoScenario, s, d}, exitOK, "loaded", ""},
 		{"load unusable", []string{"load", okBatch, s, d}, exitUsage, "", "not a registry file"},
 		{"load unreachable", []string{"load", demoScenario, s, dead}, exitUnreachable, "", "halovet serve"},
+		{"shipments success", []string{"shipments", "list", "--company", "XA-1002", s, d}, exitOK, "recorded shipments", ""},
+		{"shipments rejected", []string{"shipments", "correct", unknownFix, "--reason", "test", s, d}, exitRejected, "not corrected", "refused"},
+		{"shipments unusable", []string{"shipments", "void", "12", s, d}, exitUsage, "", "--reason"},
+		{"shipments unknown id", []string{"shipments", "show", "987654", s, d}, exitUsage, "", "NotFound"},
+		{"shipments unreachable", []string{"shipments", "list", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"year success", []string{"year", "list", s, d}, exitOK, "no reporting year is closed", ""},
+		{"year unusable", []string{"year", "close", "2026", s, d}, exitUsage, "", "--reason"},
+		{"year unreachable", []string{"year", "list", s, dead}, exitUnreachable, "", "halovet serve"},
 		{"unknown verb", []string{"chek"}, exitUsage, "", "did you mean check?"},
 		{"unknown flag", []string{"licences", "--colour"}, exitUsage, "", "--colour"},
 		{"version", []string{"version"}, exitOK, "halovet ", ""},
