@@ -691,7 +691,7 @@ func (left streamBalances) follow(batch []*pendingRecord, idx []*pendingRecord, 
 		if lic == nil || !p.verdict.Resolved || p.verdict.Figures.NetMassKg <= 0 || p.rec.Direction == validate.DirectionTransit {
 			continue
 		}
-		draws, _ := validate.PlanDraws(lic, p.verdict.Figures)
+		draws, _ := validate.PlanDraws(lic, p.verdict.Figures, p.rec.Purpose)
 		var fs []validate.Finding
 		for _, d := range draws {
 			line := quotaLine(lic, d.LineNumber)
