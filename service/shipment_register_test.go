@@ -7,6 +7,7 @@ import (
 	"slices"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"testing"
 
 	"google.golang.org/grpc"
@@ -407,6 +408,7 @@ func TestThreeServersRecordVoidCorrect(t *testing.T) {
 	ctx := context.Background()
 	conns := []*grpc.ClientConn{conn1, conn2, conn3}
 	const perServer = 12
+	var refused atomic.Int64
 	var wg sync.WaitGroup
 	errs := make(chan error, 3*perServer*3)
 	for s, conn := range conns {
@@ -415,9 +417,13 @@ func TestThreeServersRecordVoidCorrect(t *testing.T) {
 			defer wg.Done()
 			for i := 0; i < perServer; i++ {
 				r := shipRecord(fmt.Sprintf("C-%d-%02d", s, i))
-				r.TotalNetQuantity, r.QuantityUnit = "1", "t" // 0.055 ODP t each; 36 × 0.055 = 1.98 > 1 allocated
+				r.TotalNetQuantity, r.QuantityUnit = "3", "t" // 0.165 ODP t each; 36 × 0.165 = 5.94, far over the 1 allocated
 				vs, _ := shipRecordCall(t, client, r)
 				if !vs[0].GetRecorded() {
+					if !slices.Contains(shipCodes(vs[0]), "QUOTA_EXCEEDED") {
+						errs <- fmt.Errorf("%s turned down without QUOTA_EXCEEDED: %v", r.GetRecordKey(), vs[0])
+					}
+					refused.Add(1)
 					continue // turned down for quota: the line is full
 				}
 				id := vs[0].GetShipmentId()
@@ -428,8 +434,8 @@ func TestThreeServersRecordVoidCorrect(t *testing.T) {
 					}
 				case 1:
 					fix := proto.Clone(r).(*halovetv1.ShipmentRecord)
-					fix.TotalNetQuantity = "500"
-					fix.QuantityUnit = "kg" // 0.0275 ODP t
+					fix.TotalNetQuantity = "1"
+					fix.QuantityUnit = "t" // 0.055 ODP t
 					_, err := client.CorrectShipment(ctx, &halovetv1.CorrectShipmentRequest{ShipmentId: id, Record: fix, Reason: "test correction"})
 					if err != nil {
 						errs <- fmt.Errorf("correct %d: %w", id, err)
@@ -455,11 +461,16 @@ func TestThreeServersRecordVoidCorrect(t *testing.T) {
 	    FROM shipments`).Scan(&liveODP, &voided, &superseded, &released); err != nil {
 		t.Fatal(err)
 	}
-	if liveODP != drawn || voided == 0 || superseded == 0 {
-		t.Fatalf("live ODP t %s, drawn %s, %d voided, %d superseded; want live = drawn and some of each", liveODP, drawn, voided, superseded)
+	if liveODP != drawn || voided == 0 || superseded == 0 || refused.Load() == 0 {
+		t.Fatalf("live ODP t %s, drawn %s, %d voided, %d superseded, %d refused; want live = drawn and some of each",
+			liveODP, drawn, voided, superseded, refused.Load())
+	}
+	var over bool
+	if err := st.Pool().QueryRow(ctx, `SELECT drawn > allocated FROM quota_lines WHERE licence_number = $1 AND line_number = 1`, shipLicence).Scan(&over); err != nil || over {
+		t.Fatalf("drawn above the allocation (err %v)", err)
 	}
 	if strings.HasPrefix(drawn, "-") {
 		t.Fatalf("drawn %s below zero", drawn)
 	}
-	t.Logf("drawn %s ODP t, %d voided, %d superseded, %s released", drawn, voided, superseded, released)
+	t.Logf("drawn %s ODP t, %d voided, %d superseded, %d refused, %s released", drawn, voided, superseded, refused.Load(), released)
 }
