@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"context"
 	"fmt"
+	"io"
+	"net/http"
 	"slices"
 	"strings"
 	"sync"
@@ -13,6 +15,7 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
+	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -473,4 +476,55 @@ func TestThreeServersRecordVoidCorrect(t *testing.T) {
 		t.Fatalf("drawn %s below zero", drawn)
 	}
 	t.Logf("drawn %s ODP t, %d voided, %d superseded, %d refused, %s released", drawn, voided, superseded, refused.Load(), released)
+}
+
+// TestRegisterOverHTTP reaches the register on its HTTP paths: a listing with query
+// filters, one shipment by id, a void on its :void path, and the closed years.
+func TestRegisterOverHTTP(t *testing.T) {
+	grpcClient, base, httpClient := startHTTPTestServer(t)
+	vs, _ := shipRecordCall(t, grpcClient, shipRecord("H-1"), shipRecord("H-2"))
+	get := func(path string, into proto.Message) int {
+		t.Helper()
+		resp, err := httpClient().Get(base + path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer resp.Body.Close()
+		raw, _ := io.ReadAll(resp.Body)
+		if resp.StatusCode == http.StatusOK && into != nil {
+			if err := protojson.Unmarshal(raw, into); err != nil {
+				t.Fatalf("GET %s: %v\n%s", path, err, raw)
+			}
+		}
+		return resp.StatusCode
+	}
+	var list halovetv1.ListShipmentsResponse
+	if code := get("/v1/recorded-shipments?company_id="+shipCompany+"&year=2026&page_size=1", &list); code != http.StatusOK ||
+		len(list.GetShipments()) != 1 || list.GetNextPageToken() == "" {
+		t.Fatalf("GET /v1/recorded-shipments: %d %v", code, &list)
+	}
+	var one halovetv1.GetShipmentResponse
+	if code := get(fmt.Sprintf("/v1/recorded-shipments/%d", vs[1].GetShipmentId()), &one); code != http.StatusOK ||
+		one.GetShipment().GetRecord().GetRecordKey() != "H-2" {
+		t.Fatalf("GET one: %d %v", code, &one)
+	}
+	if code := get("/v1/recorded-shipments/987654", nil); code != http.StatusNotFound {
+		t.Fatalf("GET an unknown id: %d; want 404", code)
+	}
+	resp, err := httpClient().Post(fmt.Sprintf("%s/v1/recorded-shipments/%d:void", base, vs[0].GetShipmentId()), "application/json",
+		strings.NewReader(`{"reason":"declared twice"}`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	raw, _ := io.ReadAll(resp.Body)
+	resp.Body.Close()
+	var voided halovetv1.VoidShipmentResponse
+	if resp.StatusCode != http.StatusOK || protojson.Unmarshal(raw, &voided) != nil ||
+		voided.GetShipment().GetState() != halovetv1.ShipmentState_SHIPMENT_STATE_VOIDED {
+		t.Fatalf("POST :void: %d %s", resp.StatusCode, raw)
+	}
+	var years halovetv1.ListClosedYearsResponse
+	if code := get("/v1/reporting-years/closed", &years); code != http.StatusOK || len(years.GetClosedYears()) != 0 {
+		t.Fatalf("GET closed years: %d %v", code, &years)
+	}
 }

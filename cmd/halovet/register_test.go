@@ -52,11 +52,11 @@ func TestShipmentsExportCorrectRoundTrip(t *testing.T) {
 	w.Flush()
 	fixPath := filepath.Join(dir, "fix.csv")
 	writeFile(t, fixPath, buf.String())
-	code, out, stderr := runCaptured(t, "shipments", "correct", fixPath, s, d)
+	code, _, stderr := runCaptured(t, "shipments", "correct", fixPath, s, d)
 	if code != exitUsage || !strings.Contains(stderr, "--reason") {
 		t.Fatalf("correct without --reason: exit %d %s", code, stderr)
 	}
-	code, out, stderr = runCaptured(t, "shipments", "correct", fixPath, "--reason", "quantity from the corrected entry", s, d)
+	code, out, stderr := runCaptured(t, "shipments", "correct", fixPath, "--reason", "quantity from the corrected entry", s, d)
 	if code != exitOK || !strings.Contains(out, "1 corrected, 0 refused") || !strings.Contains(out, "version 2") {
 		t.Fatalf("correct: exit %d\n%s\n%s", code, out, stderr)
 	}
