@@ -147,12 +147,17 @@ func logCall(ctx context.Context, c *callctx.Call, start time.Time, err error) {
 	c.Logger.Log(ctx, level, "call", "code", code.String(), "duration_ms", time.Since(start).Milliseconds())
 }
 
-// adminMethods change the catalogue or licensing; when an admin token is configured
+// adminMethods change the catalogue, licensing or the register's recorded shipments; when an admin token is configured
 // they need "authorization: Bearer <token>".
 func isAdminMethod(full string) bool {
 	switch full {
 	case "/halovet.v1.CatalogueService/UpsertSubstance",
-		"/halovet.v1.ConsumptionService/RecordNationalEntries":
+		"/halovet.v1.ConsumptionService/RecordNationalEntries",
+		// an officer's changes to the register of recorded shipments
+		"/halovet.v1.ShipmentService/VoidShipment",
+		"/halovet.v1.ShipmentService/CorrectShipment",
+		"/halovet.v1.ShipmentService/CloseYear",
+		"/halovet.v1.ShipmentService/ReopenYear":
 		return true
 	}
 	if strings.HasPrefix(full, "/halovet.v1.LicensingService/") {

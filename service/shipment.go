@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"slices"
+	"strconv"
 	"strings"
 
 	"google.golang.org/grpc/codes"
@@ -29,13 +30,45 @@ func (x *shipmentServer) CheckShipment(ctx context.Context, req *halovetv1.Check
 	if err != nil {
 		return nil, err
 	}
+	recs := []*halovetv1.ShipmentRecord{req.GetRecord()}
+	known, err := x.srv.storedFor(ctx, recs)
+	if err != nil {
+		return nil, err
+	}
 	r := recordFromProto(req.GetRecord())
+	if a, ok := known.answer(0, env, &r); ok {
+		return &halovetv1.CheckShipmentResponse{Verdict: a}, nil
+	}
 	v := validate.Check(env, &r, validate.NewMemoryLedger())
 	return &halovetv1.CheckShipmentResponse{Verdict: verdictToProto(&v)}, nil
 }
 
 // summary counts verdicts for the closing message of a stream.
 type summary struct{ pb halovetv1.BatchSummary }
+
+// addProto counts a verdict as answered (a replay answers the stored one).
+func (s *summary) addProto(v *halovetv1.Verdict) {
+	var vv validate.Verdict
+	switch v.GetOutcome() {
+	case halovetv1.Outcome_OUTCOME_ACCEPTED:
+		vv.Outcome = validate.OutcomeAccepted
+	case halovetv1.Outcome_OUTCOME_ACCEPTED_WITH_WARNINGS:
+		vv.Outcome = validate.OutcomeAcceptedWithWarnings
+	default:
+		vv.Outcome = validate.OutcomeRejected
+	}
+	for _, f := range v.GetFindings() {
+		sev := validate.SeverityNotice
+		switch f.GetSeverity() {
+		case halovetv1.Severity_SEVERITY_WARNING:
+			sev = validate.SeverityWarning
+		case halovetv1.Severity_SEVERITY_ERROR:
+			sev = validate.SeverityError
+		}
+		vv.Findings = append(vv.Findings, validate.Finding{Code: f.GetCode(), Severity: sev})
+	}
+	s.add(&vv, v.GetRecorded(), v.GetReplayed())
+}
 
 func (s *summary) add(v *validate.Verdict, recorded, replayed bool) {
 	p := &s.pb
@@ -101,6 +134,7 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 	}
 	type checked struct {
 		verdicts []validate.Verdict
+		answers  map[int]*halovetv1.Verdict // records recorded already, or whose key is taken
 		single   bool
 	}
 	reqs := make(chan *halovetv1.CheckShipmentsRequest, 4)
@@ -133,6 +167,10 @@ func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckSh
 		for a := range answers {
 			out := make([]*halovetv1.Verdict, len(a.verdicts))
 			for i := range a.verdicts {
+				if v, ok := a.answers[i]; ok {
+					out[i] = v
+					continue
+				}
 				out[i] = verdictToProto(&a.verdicts[i])
 			}
 			resp := &halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Verdicts{Verdicts: &halovetv1.VerdictBatch{Verdicts: out}}}
@@ -178,19 +216,43 @@ check:
 			break
 		}
 		batch.SetEnv(env)
-		// The records of a message are checked on every core (Batch.CheckAll: the same
-		// verdicts as one at a time; quota and keys are settled in order).
-		rs := make([]validate.Record, len(recs))
-		for i, pb := range recs {
-			rs[i] = recordFromProto(pb)
+		var known storedRecords
+		if known, checkErr = x.srv.storedFor(ctx, recs); checkErr != nil {
+			break
 		}
 		vs := make([]validate.Verdict, len(recs))
-		batch.CheckAll(rs, vs)
+		var given map[int]*halovetv1.Verdict
+		// Records already recorded are answered by what was recorded; the others are checked
+		// on every core (Batch.CheckAll: the same verdicts as one at a time; quota and keys
+		// are settled in order).
+		rs := make([]validate.Record, 0, len(recs))
+		at := make([]int, 0, len(recs))
+		for i, pb := range recs {
+			r := recordFromProto(pb)
+			if a, ok := known.answer(i, env, &r); ok {
+				if given == nil {
+					given = map[int]*halovetv1.Verdict{}
+				}
+				given[i] = a
+				continue
+			}
+			rs = append(rs, r)
+			at = append(at, i)
+		}
+		checkedVs := make([]validate.Verdict, len(rs))
+		batch.CheckAll(rs, checkedVs)
+		for k, i := range at {
+			vs[i] = checkedVs[k]
+		}
 		for i := range vs {
+			if a, ok := given[i]; ok {
+				sum.addProto(a)
+				continue
+			}
 			sum.add(&vs[i], false, vs[i].Replayed)
 		}
 		select {
-		case answers <- checked{verdicts: vs, single: req.GetRecord() != nil && len(req.GetRecords()) == 0}:
+		case answers <- checked{verdicts: vs, answers: given, single: req.GetRecord() != nil && len(req.GetRecords()) == 0}:
 		case <-ctx.Done():
 			break check
 		}
@@ -231,6 +293,10 @@ type pendingRecord struct {
 	streamDup bool
 	row       store.ShipmentRow // what is stored, built while the previous batch is written
 	rowErr    error
+	lic       *validate.Licence // the licence the record names, as checked
+	// answer is the verdict as stored (for a stored record, with the notices of its own
+	// draw) or as stored earlier (a replay); nil answers verdict.
+	answer *halovetv1.Verdict
 }
 
 // windowEntry is what a recording stream keeps per key in its windows.
@@ -311,10 +377,11 @@ func (x *shipmentServer) recordShipments(stream halovetv1.ShipmentService_Record
 	writeErr := make(chan error, 1)
 	writerDone := make(chan struct{})
 	stored := validate.NewKeyWindow[windowEntry](validate.DuplicateWindow) // the writer's: whether each key was stored
+	left := streamBalances{}                                               // the writer's: what the stream's last draw left on each line
 	go func() {
 		defer close(writerDone)
 		for batch := range toWrite {
-			if err := x.srv.commit(ctx, batch); err != nil {
+			if err := x.srv.commit(ctx, batch, left); err != nil {
 				writeErr <- err
 				cancel()
 				return
@@ -402,8 +469,13 @@ func (x *shipmentServer) recordShipments(stream halovetv1.ShipmentService_Record
 			return finish(err)
 		}
 		p := &pendingRecord{pb: in.pb, single: in.single, rec: recordFromProto(in.pb)}
-		// Quota is drawn by the store under lock, not by an in-memory ledger.
-		p.verdict = validate.Check(pinned.View(env, strings.TrimSpace(p.rec.LicenceNumber)), &p.rec, nil)
+		// Quota is judged and drawn by the store under lock, at the record's own draw, not
+		// by an in-memory ledger: the check plans the draws (validate.DeferQuota), and the
+		// quota findings come from the balance the store drew on.
+		num := strings.TrimSpace(p.rec.LicenceNumber)
+		view := pinned.View(env, num)
+		p.lic, _ = view.Licence(num)
+		p.verdict = validate.Check(view, &p.rec, validate.DeferQuota)
 		if k := recordKey(&p.rec); k[1] != "" {
 			p.keyHash, p.hasKey = seen.Hash(k[0], k[1]), true
 			fp := seen.HashString(p.verdict.Fingerprint)
@@ -422,6 +494,7 @@ func (x *shipmentServer) recordShipments(stream halovetv1.ShipmentService_Record
 		}
 		if p.verdict.Outcome != validate.OutcomeRejected && !p.streamDup {
 			p.row, p.rowErr = shipmentRow(p.pb, &p.rec, &p.verdict)
+			p.row.VerdictOnStore = p.storedVerdict
 		}
 		pending = append(pending, p)
 	}
@@ -441,7 +514,7 @@ func sendRecorded(stream halovetv1.ShipmentService_RecordShipmentsServer, batch 
 	}
 	for _, p := range batch {
 		v := recordedVerdict(p)
-		sum.add(&p.verdict, v.GetRecorded(), p.verdict.Replayed)
+		sum.addProto(v)
 		if !p.single {
 			group = append(group, v)
 			continue
@@ -473,15 +546,52 @@ func judgeByStored(p *pendingRecord, storedFP string) {
 }
 
 func recordedVerdict(p *pendingRecord) *halovetv1.Verdict {
+	if p.answer != nil {
+		return p.answer
+	}
 	v := verdictToProto(&p.verdict)
 	v.Recorded = p.recorded
 	return v
 }
 
+// storedVerdict is the record's ShipmentRow.VerdictOnStore: the verdict with the quota
+// notices of its own draw, kept with the row and answered.
+func (p *pendingRecord) storedVerdict(res store.RecordResult) []byte {
+	v := p.verdict
+	v.Findings = append([]validate.Finding(nil), p.verdict.Findings...)
+	addBalanceFindings(&v, p.lic, res.Balances)
+	a := verdictToProto(&v)
+	a.Recorded = true
+	b := encodeVerdict(a)
+	withStored(a, &store.StoredRef{ID: res.ShipmentID, State: store.StateLive, RecordedAt: res.RecordedAt})
+	p.answer = a
+	return b
+}
+
+// replayOf answers a record by the stored version it replays: the verdict stored with it,
+// unchanged but for replayed and the record's key and line as sent now. A version stored
+// without a verdict (before verdicts were kept) is answered by the check, as a replay.
+func replayOf(p *pendingRecord, ref *store.StoredRef) error {
+	p.recorded, p.verdict.Replayed = true, true
+	v, err := storedVerdict(ref.Verdict)
+	if err != nil {
+		return err
+	}
+	if v == nil {
+		judgeByStored(p, p.verdict.Fingerprint)
+		v = verdictToProto(&p.verdict)
+	}
+	v.RecordKey, v.SourceLine = p.pb.GetRecordKey(), p.pb.GetSourceLine()
+	v.Recorded, v.Replayed = true, true
+	withStored(v, ref)
+	p.answer = v
+	return nil
+}
+
 // commit writes the accepted records of a batch and folds the store's answers into
 // their verdicts. Keys stored by earlier calls are looked up first, so that a retried
 // batch is answered "replayed" even where a re-check would now find the quota used up.
-func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
+func (s *Server) commit(ctx context.Context, batch []*pendingRecord, left streamBalances) error {
 	// The recorder looks up the keys of the rows it is given. Records the checks rejected
 	// may still be replays of stored ones (a retried batch whose quota is drawn by now),
 	// so only their keys are looked up here.
@@ -492,10 +602,10 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 			probe = append(probe, k)
 		}
 	}
-	stored := map[[2]string]string{}
+	stored := map[[2]string][]store.StoredRef{}
 	if len(probe) > 0 {
 		var err error
-		if stored, err = s.store.StoredFingerprints(ctx, probe); err != nil {
+		if stored, err = s.store.StoredRecords(ctx, probe); err != nil {
 			return toStatus(ctx, s.log, err)
 		}
 	}
@@ -505,8 +615,14 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 		switch {
 		case p.streamDup:
 		case p.verdict.Outcome == validate.OutcomeRejected:
-			if fp, ok := stored[recordKey(&p.rec)]; ok {
-				judgeByStored(p, fp)
+			if vs, ok := stored[recordKey(&p.rec)]; ok {
+				if ref := matchingRef(vs, p.verdict.Fingerprint); ref != nil {
+					if err := replayOf(p, ref); err != nil {
+						return toStatus(ctx, s.log, err)
+					}
+				} else {
+					judgeByStored(p, "")
+				}
 			}
 		case p.rowErr != nil:
 			return status.Errorf(codes.Internal, "record %q: %v", p.rec.Key, p.rowErr)
@@ -516,6 +632,7 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 		}
 	}
 	if len(rows) == 0 {
+		left.follow(batch, nil, nil)
 		return nil
 	}
 	res, err := s.store.RecordShipments(ctx, rows)
@@ -540,21 +657,74 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord) error {
 		case store.RecordStored:
 			p.recorded = true
 		case store.RecordReplayed:
-			judgeByStored(p, p.verdict.Fingerprint)
+			if r.Stored != nil {
+				if err := replayOf(p, r.Stored); err != nil {
+					return toStatus(ctx, s.log, err)
+				}
+			} else { // a replay of a record stored earlier in this same batch
+				judgeByStored(p, p.verdict.Fingerprint)
+			}
 		case store.RecordKeyConflict:
 			judgeByStored(p, "")
 		case store.RecordQuotaShort:
-			// What the check said of the quota was judged against an older balance.
-			p.verdict.Findings = slices.DeleteFunc(p.verdict.Findings, func(f validate.Finding) bool {
-				return f.Code == validate.CodeQuotaNearLimit
-			})
-			p.verdict.Add(findingFor(validate.CodeQuotaExceeded, "licence_number", fmt.Sprintf(
-				"licence %s line %d has %.9g left when this record is written (other records drew on it first); it needs more",
-				r.LicenceNumber, r.LineNumber, r.Remaining.Float())))
+			// The balance as of this record's own draw, not as the check saw it.
+			p.verdict.Add(quotaShortFindings(p.lic, r, rows[i].Draws))
 		case store.RecordLicenceInactive:
 			p.verdict.Add(findingFor(validate.CodeLicenceInactive, "licence_number", fmt.Sprintf(
 				"licence %s is %s when this record is written", r.LicenceNumber, r.Detail)))
+		case store.RecordYearClosed:
+			p.verdict.Add(findingFor(validate.CodeYearClosed, "declaration_date", fmt.Sprintf(
+				"reporting year %d is closed (since %s: %s); nothing declared in it is recorded until it is reopened",
+				r.Closed.Year, rfc3339(r.Closed.ClosedAt), r.Closed.Reason)))
 		}
 	}
+	left.follow(batch, idx, res)
 	return nil
+}
+
+// streamBalances is what a recording stream's stored records left on each quota line, as
+// of their own draws: a record the checks rejected gets the quota findings a check of the
+// stream would give it (a check counts the stream's earlier accepted records), judged
+// against that balance.
+type streamBalances map[[2]string]store.Nano
+
+func lineOf(licence string, line int) [2]string { return [2]string{licence, strconv.Itoa(line)} }
+
+// follow walks a written batch in order: stored records move the balances, rejected ones
+// are judged against them.
+func (left streamBalances) follow(batch []*pendingRecord, idx []*pendingRecord, res []store.RecordResult) {
+	resultOf := make(map[*pendingRecord]store.RecordResult, len(idx))
+	for i, p := range idx {
+		resultOf[p] = res[i]
+	}
+	for _, p := range batch {
+		if r, ok := resultOf[p]; ok {
+			if r.Status == store.RecordStored {
+				for _, b := range r.Balances {
+					left[lineOf(b.LicenceNumber, b.LineNumber)] = b.After
+				}
+			}
+			continue
+		}
+		if p.streamDup || p.recorded || p.answer != nil || p.verdict.Outcome != validate.OutcomeRejected {
+			continue
+		}
+		lic := p.lic
+		if lic == nil || !p.verdict.Resolved || p.verdict.Figures.NetMassKg <= 0 || p.rec.Direction == validate.DirectionTransit {
+			continue
+		}
+		draws, _ := validate.PlanDraws(lic, p.verdict.Figures, p.rec.Purpose)
+		var fs []validate.Finding
+		for _, d := range draws {
+			line := quotaLine(lic, d.LineNumber)
+			used := line.Drawn
+			if l, ok := left[lineOf(lic.Number, d.LineNumber)]; ok {
+				used = line.Allocated - l.Float()
+			}
+			fs = append(fs, validate.QuotaFindings(lic.Number, line, line.Allocated, used, d.Amount)...)
+		}
+		if len(fs) > 0 {
+			p.verdict.Add(fs...)
+		}
+	}
 }

@@ -98,7 +98,14 @@ func TestCheckShipmentBatchMatchesTheStream(t *testing.T) {
 		t.Fatalf("%d verdicts for %d records", len(resp.GetVerdicts()), len(recs))
 	}
 	for i := range recs {
-		if !proto.Equal(viaStream[i], resp.GetVerdicts()[i]) {
+		// Each database stores its records at its own time: recorded_at is the one field
+		// that must differ.
+		a, b := proto.Clone(viaStream[i]).(*halovetv1.Verdict), proto.Clone(resp.GetVerdicts()[i]).(*halovetv1.Verdict)
+		if (a.GetRecordedAt() == "") != (b.GetRecordedAt() == "") {
+			t.Errorf("record %d: recorded_at %q in the stream, %q in the batch", i+1, a.GetRecordedAt(), b.GetRecordedAt())
+		}
+		a.RecordedAt, b.RecordedAt = "", ""
+		if !proto.Equal(a, b) {
 			t.Errorf("record %d: stream %v\n batch %v", i+1, viaStream[i], resp.GetVerdicts()[i])
 		}
 	}
@@ -150,7 +157,14 @@ func TestRecordShipmentBatchMatchesTheStream(t *testing.T) {
 		t.Fatalf("%d verdicts for %d records", len(resp.GetVerdicts()), len(recs))
 	}
 	for i := range recs {
-		if !proto.Equal(viaStream[i], resp.GetVerdicts()[i]) {
+		// Each database stores its records at its own time: recorded_at is the one field
+		// that must differ.
+		a, b := proto.Clone(viaStream[i]).(*halovetv1.Verdict), proto.Clone(resp.GetVerdicts()[i]).(*halovetv1.Verdict)
+		if (a.GetRecordedAt() == "") != (b.GetRecordedAt() == "") {
+			t.Errorf("record %d: recorded_at %q in the stream, %q in the batch", i+1, a.GetRecordedAt(), b.GetRecordedAt())
+		}
+		a.RecordedAt, b.RecordedAt = "", ""
+		if !proto.Equal(a, b) {
 			t.Errorf("record %d: stream %v\n batch %v", i+1, viaStream[i], resp.GetVerdicts()[i])
 		}
 	}

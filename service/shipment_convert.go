@@ -75,6 +75,12 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
 			out.Figures.PartnerNotBoundGroups = append(out.Figures.PartnerNotBoundGroups, string(g))
 		}
 	}
+	for _, d := range v.Draws {
+		// Rounded to the store's resolution, so that a verdict answered now and the same
+		// verdict read back from the store agree to the bit.
+		out.Draws = append(out.Draws, &halovetv1.QuotaDraw{LicenceNumber: d.LicenceNumber, LineNumber: int32(d.LineNumber),
+			Amount: store.ToNano(d.Amount).Float()})
+	}
 	return out
 }
 
@@ -121,3 +127,7 @@ func shipmentRow(p *halovetv1.ShipmentRecord, r *validate.Record, v *validate.Ve
 }
 
 func ptr[T any](v T) *T { return &v }
+
+// RecordFromProto maps a wire record to the checker's record, as the command line writes
+// a recorded shipment back into a batch file; RecordToProto is its inverse.
+func RecordFromProto(p *halovetv1.ShipmentRecord) validate.Record { return recordFromProto(p) }

@@ -31,7 +31,7 @@ func (s *Store) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTo
 	rows, err := s.pool.Query(ctx, `SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose,
 	        s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party, (sum(c.mass_kg) / 1000)::float8, count(*)
 	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
-	    WHERE ($1::int[] IS NULL OR s.year = ANY($1))
+	    WHERE ($1::int[] IS NULL OR s.year = ANY($1)) AND s.state = 'live'
 	    GROUP BY s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
 	    ORDER BY s.year, c.designation, s.direction, s.purpose, s.condition, non_party`, intsOrNil(years))
 	if err != nil {
@@ -50,15 +50,15 @@ func (s *Store) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTo
 	return out, rows.Err()
 }
 
-// ShipmentYears returns, in order, the years in which at least one shipment is recorded.
+// ShipmentYears returns, in order, the years in which at least one live shipment is recorded.
 // It walks the year index one distinct value at a time (a recursive skip scan), so its
 // cost grows with the number of years, not of shipments.
 func (s *Store) ShipmentYears(ctx context.Context) (_ []int, err error) {
 	defer classifyInto(&err)
 	rows, err := s.pool.Query(ctx, `WITH RECURSIVE y(year) AS (
-	        SELECT min(year) FROM shipments
+	        SELECT min(year) FROM shipments WHERE state = 'live'
 	      UNION ALL
-	        SELECT (SELECT min(year) FROM shipments WHERE year > y.year) FROM y WHERE y.year IS NOT NULL)
+	        SELECT (SELECT min(year) FROM shipments WHERE year > y.year AND state = 'live') FROM y WHERE y.year IS NOT NULL)
 	    SELECT year FROM y WHERE year IS NOT NULL ORDER BY year`)
 	if err != nil {
 		return nil, err
@@ -101,7 +101,7 @@ func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string
 	}
 	rows, err := s.pool.Query(ctx, `SELECT s.company_id, s.year, sum(`+expr+`)::float8
 	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
-	    WHERE s.direction = 'import' AND s.counts_in_consumption
+	    WHERE s.direction = 'import' AND s.counts_in_consumption AND s.state = 'live'
 	      AND c.annex_group = ANY($1) AND s.year = ANY($2)
 	    GROUP BY s.company_id, s.year ORDER BY s.company_id, s.year`, groups, intsOrNil(years))
 	if err != nil {

@@ -12,7 +12,7 @@ import (
 	"github.com/halovet/halovet/callctx"
 )
 
-// A licence's dated history (migration 00008): every status change and amendment is one
+// A licence's dated history (migration 00007): every status change and amendment is one
 // licence_events row with the day it takes effect. The status a licence had on a day is
 // the status of its last status event effective on or before that day; status events are
 // recorded in date order (a change dated before the last status change is refused), so

@@ -66,8 +66,18 @@ type ShipmentRow struct {
 	CountsInConsumption bool
 	PartnerNonParty     bool
 	RecordJSON          []byte
-	Components          []ShipmentComponent
-	Draws               []Draw
+	// Verdict is the verdict given to the row (a halovet.v1.Verdict, protocol buffer
+	// encoding), stored with it and answered unchanged to a replay; nil stores NULL.
+	Verdict    []byte
+	Components []ShipmentComponent
+	Draws      []Draw
+	// VerdictOnStore, when set, gives Verdict once the row is known to be stored (its
+	// result has the id, the time and the balances of its own draws), inside the
+	// transaction that stores it: the verdict kept is the one answered.
+	VerdictOnStore func(RecordResult) []byte
+	// version and previousID are set by CorrectShipment for the new version.
+	version    int
+	previousID *int64
 }
 
 // RecordStatus is what happened to one row.
@@ -85,6 +95,8 @@ const (
 	RecordQuotaShort
 	// RecordLicenceInactive: the licence is not active (any more), or a line is gone.
 	RecordLicenceInactive
+	// RecordYearClosed: the row's declaration date falls in a closed reporting year.
+	RecordYearClosed
 )
 
 // RecordResult tells what happened to one row, in the order given.
@@ -97,6 +109,25 @@ type RecordResult struct {
 	Remaining     Nano
 	// For RecordLicenceInactive: the licence's status, or "missing line".
 	Detail string
+	// For RecordReplayed and RecordKeyConflict: the stored row the key (and, for a
+	// replay, the content) matched.
+	Stored *StoredRef
+	// For RecordStored: the balance of each line drawn on, just before and just after
+	// this row's own draw (for the notices a record earns with its own draw).
+	Balances []LineBalance
+	// For RecordYearClosed: the closed year.
+	Closed *ClosedYear
+	// For RecordStored: when it was stored (the transaction's time, as recorded_at).
+	RecordedAt time.Time
+}
+
+// LineBalance is what was left on one quota line around one row's draw.
+type LineBalance struct {
+	LicenceNumber string
+	LineNumber    int
+	Allocated     Nano
+	Before        Nano // left before the row's draw
+	After         Nano // left after it
 }
 
 type lineKey struct {
@@ -131,6 +162,12 @@ func (s *Store) RecordShipments(ctx context.Context, rows []ShipmentRow) ([]Reco
 func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResult, error) {
 	results := make([]RecordResult, len(rows))
 
+	// 0. Closed reporting years: a row declared in one is not stored.
+	closed, err := lockYears(ctx, tx, rowYears(rows))
+	if err != nil {
+		return nil, err
+	}
+
 	// 1. Lock the licences (share) and quota lines (update) in a stable order.
 	licSet := map[string]bool{}
 	lineSet := map[lineKey]bool{}
@@ -147,13 +184,15 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	sort.Strings(lics)
 	var status licenceStatuses
 	remaining := map[lineKey]Nano{}
+	allocated := map[lineKey]Nano{}
 	if len(lics) > 0 {
 		// The licences FOR SHARE with their dated status histories (licence_history.go).
 		var err error
 		if status, err = readLicenceStatuses(ctx, tx, lics); err != nil {
 			return nil, err
 		}
-		q, err := tx.Query(ctx, `SELECT licence_number, line_number, ((allocated - drawn) * 1000000000)::bigint
+		q, err := tx.Query(ctx, `SELECT licence_number, line_number, ((allocated - drawn) * 1000000000)::bigint,
+		        (allocated * 1000000000)::bigint
 		    FROM quota_lines WHERE licence_number = ANY($1)
 		    ORDER BY licence_number, line_number FOR UPDATE`, lics)
 		if err != nil {
@@ -161,13 +200,14 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 		}
 		for q.Next() {
 			var k lineKey
-			var rem int64
-			if err := q.Scan(&k.licence, &k.line, &rem); err != nil {
+			var rem, alloc int64
+			if err := q.Scan(&k.licence, &k.line, &rem, &alloc); err != nil {
 				q.Close()
 				return nil, err
 			}
 			if lineSet[k] {
 				remaining[k] = Nano(rem)
+				allocated[k] = Nano(alloc)
 			}
 		}
 		if err := q.Err(); err != nil {
@@ -184,25 +224,16 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	type stored struct {
 		id          int64
 		fingerprint string
+		versions    []StoredRef // every stored version of the key, from the store
 	}
 	existing := map[[2]string]stored{}
-	q, err := tx.Query(ctx, `SELECT s.company_id, s.record_key, s.shipment_id, s.fingerprint
-	    FROM shipments s JOIN unnest($1::text[], $2::text[]) AS k(company_id, record_key)
-	      ON s.company_id = k.company_id AND s.record_key = k.record_key`, companies, keys)
+	refs, err := storedRefs(ctx, tx, companies, keys)
 	if err != nil {
 		return nil, err
 	}
-	for q.Next() {
-		var c, k string
-		var st stored
-		if err := q.Scan(&c, &k, &st.id, &st.fingerprint); err != nil {
-			q.Close()
-			return nil, err
-		}
-		existing[[2]string{c, k}] = st
-	}
-	if err := q.Err(); err != nil {
-		return nil, err
+	for k, vs := range refs {
+		cur := vs[len(vs)-1]
+		existing[k] = stored{id: cur.ID, fingerprint: cur.Fingerprint, versions: vs}
 	}
 
 	// 3. Decide each row in order.
@@ -210,23 +241,36 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	for i, r := range rows {
 		k := [2]string{r.CompanyID, r.RecordKey}
 		if st, ok := existing[k]; ok {
-			if st.fingerprint == r.Fingerprint {
+			if ref := matchingVersion(st.versions, r.Fingerprint); ref != nil {
+				results[i] = RecordResult{Status: RecordReplayed, ShipmentID: ref.ID, Stored: ref}
+			} else if st.versions == nil && st.fingerprint == r.Fingerprint {
 				results[i] = RecordResult{Status: RecordReplayed, ShipmentID: st.id}
 			} else {
 				results[i] = RecordResult{Status: RecordKeyConflict, ShipmentID: st.id}
+				if n := len(st.versions); n > 0 {
+					results[i].Stored = &st.versions[n-1]
+				}
 			}
+			continue
+		}
+		if c, ok := closed[r.DeclarationDate.Year()]; ok {
+			results[i] = RecordResult{Status: RecordYearClosed, Closed: &c}
 			continue
 		}
 		if res, ok := checkDraws(r, status, remaining); !ok {
 			results[i] = res
 			continue
 		}
+		var bal []LineBalance
 		for _, d := range r.Draws {
-			remaining[lineKey{d.LicenceNumber, d.LineNumber}] -= d.Amount
+			lk := lineKey{d.LicenceNumber, d.LineNumber}
+			bal = append(bal, LineBalance{LicenceNumber: d.LicenceNumber, LineNumber: d.LineNumber,
+				Allocated: allocated[lk], Before: remaining[lk], After: remaining[lk] - d.Amount})
+			remaining[lk] -= d.Amount
 		}
 		// Later rows of this batch with the same key are replays (or conflicts) of this one.
-		existing[k] = stored{id: 0, fingerprint: r.Fingerprint}
-		results[i] = RecordResult{Status: RecordStored}
+		existing[k] = stored{id: 0, fingerprint: r.Fingerprint, versions: nil}
+		results[i] = RecordResult{Status: RecordStored, Balances: bal}
 		accept = append(accept, i)
 	}
 	if len(accept) == 0 {
@@ -235,7 +279,7 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 
 	// 4. Write: ids first, then COPY the rows, components and draws.
 	ids := make([]int64, 0, len(accept))
-	q, err = tx.Query(ctx, `SELECT nextval('shipments_shipment_id_seq') FROM generate_series(1, $1)`, len(accept))
+	q, err := tx.Query(ctx, `SELECT nextval('shipments_shipment_id_seq') FROM generate_series(1, $1)`, len(accept))
 	if err != nil {
 		return nil, err
 	}
@@ -250,8 +294,16 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	if err := q.Err(); err != nil {
 		return nil, err
 	}
+	var now time.Time
+	if err := tx.QueryRow(ctx, `SELECT now()`).Scan(&now); err != nil {
+		return nil, err
+	}
 	for j, i := range accept {
 		results[i].ShipmentID = ids[j]
+		results[i].RecordedAt = now
+		if f := rows[i].VerdictOnStore; f != nil {
+			rows[i].Verdict = f(results[i])
+		}
 	}
 	// Replays of rows stored earlier in this same batch point at the new id.
 	byKey := map[[2]string]int64{}
@@ -264,18 +316,31 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 		}
 	}
 
+	accepted := make([]*ShipmentRow, len(accept))
+	for j, i := range accept {
+		accepted[j] = &rows[i]
+	}
+	if err := insertShipments(ctx, tx, ids, accepted); err != nil {
+		return nil, err
+	}
+	return results, nil
+}
+
+// insertShipments writes rows under ids (COPY of the rows, components and draws) and
+// draws their quota; the lines must be locked already.
+func insertShipments(ctx context.Context, tx pgx.Tx, ids []int64, rows []*ShipmentRow) error {
 	if _, err := tx.CopyFrom(ctx, pgx.Identifier{"shipments"}, shipmentColumns,
-		pgx.CopyFromSlice(len(accept), func(j int) ([]any, error) {
-			return shipmentValues(ids[j], &rows[accept[j]]), nil
+		pgx.CopyFromSlice(len(rows), func(j int) ([]any, error) {
+			return shipmentValues(ids[j], rows[j]), nil
 		})); err != nil {
-		return nil, fmt.Errorf("storing shipments: %w", err)
+		return fmt.Errorf("storing shipments: %w", err)
 	}
 	var comps, draws [][]any
-	for j, i := range accept {
-		for _, c := range rows[i].Components {
+	for j, r := range rows {
+		for _, c := range r.Components {
 			comps = append(comps, []any{ids[j], c.Designation, c.AnnexGroup, c.MassKg.numeric(), c.ODPTonnes.numeric(), c.CO2eTonnes.numeric(), c.PartnerNonParty})
 		}
-		for _, d := range rows[i].Draws {
+		for _, d := range r.Draws {
 			draws = append(draws, []any{ids[j], d.LicenceNumber, d.LineNumber, d.Amount.numeric()})
 		}
 	}
@@ -283,23 +348,23 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"shipment_components"},
 			[]string{"shipment_id", "designation", "annex_group", "mass_kg", "odp_tonnes", "co2e_tonnes", "partner_non_party"},
 			pgx.CopyFromRows(comps)); err != nil {
-			return nil, fmt.Errorf("storing shipment components: %w", err)
+			return fmt.Errorf("storing shipment components: %w", err)
 		}
 	}
 	if len(draws) > 0 {
 		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"quota_draws"},
 			[]string{"shipment_id", "licence_number", "line_number", "amount"}, pgx.CopyFromRows(draws)); err != nil {
-			return nil, fmt.Errorf("storing quota draws: %w", err)
+			return fmt.Errorf("storing quota draws: %w", err)
 		}
 		// drawn grows by exactly the sum of the draws just stored.
 		if _, err := tx.Exec(ctx, `UPDATE quota_lines q SET drawn = q.drawn + d.total
 		    FROM (SELECT licence_number, line_number, sum(amount) AS total FROM quota_draws
 		          WHERE shipment_id = ANY($1) GROUP BY licence_number, line_number) d
 		    WHERE q.licence_number = d.licence_number AND q.line_number = d.line_number`, ids); err != nil {
-			return nil, fmt.Errorf("drawing quota: %w", err)
+			return fmt.Errorf("drawing quota: %w", err)
 		}
 	}
-	return results, nil
+	return nil
 }
 
 // checkDraws reports whether every draw of r fits what is left; when not, the result
@@ -328,16 +393,17 @@ func checkDraws(r ShipmentRow, status licenceStatuses, remaining map[lineKey]Nan
 var shipmentColumns = []string{"shipment_id", "company_id", "record_key", "fingerprint", "direction",
 	"licence_number", "partner_country", "declaration_date", "year", "resolved_designation", "entry_kind",
 	"purpose", "condition", "net_mass_kg", "odp_tonnes", "co2e_tonnes", "counts_in_consumption",
-	"partner_non_party", "record"}
+	"partner_non_party", "record", "version", "previous_id", "verdict"}
 
 func shipmentValues(id int64, r *ShipmentRow) []any {
 	return []any{id, r.CompanyID, r.RecordKey, r.Fingerprint, r.Direction, r.LicenceNumber, r.PartnerCountry,
 		r.DeclarationDate, r.DeclarationDate.Year(), r.ResolvedDesignation, r.EntryKind, r.Purpose, r.Condition,
 		r.NetMassKg.numeric(), r.ODPTonnes.numeric(), r.CO2eTonnes.numeric(), r.CountsInConsumption,
-		r.PartnerNonParty, string(r.RecordJSON)}
+		r.PartnerNonParty, string(r.RecordJSON), max(r.version, 1), r.previousID, r.Verdict}
 }
 
-// StoredFingerprints returns the fingerprints of the (company, key) pairs already stored.
+// StoredFingerprints returns the fingerprints of the current (live or voided) rows of the
+// (company, key) pairs already stored.
 func (s *Store) StoredFingerprints(ctx context.Context, keys [][2]string) (_ map[[2]string]string, err error) {
 	defer classifyInto(&err)
 	out := map[[2]string]string{}
@@ -351,7 +417,8 @@ func (s *Store) StoredFingerprints(ctx context.Context, keys [][2]string) (_ map
 	}
 	rows, err := s.pool.Query(ctx, `SELECT s.company_id, s.record_key, s.fingerprint
 	    FROM shipments s JOIN unnest($1::text[], $2::text[]) AS k(company_id, record_key)
-	      ON s.company_id = k.company_id AND s.record_key = k.record_key`, companies, recs)
+	      ON s.company_id = k.company_id AND s.record_key = k.record_key
+	    WHERE s.state <> 'superseded'`, companies, recs)
 	if err != nil {
 		return nil, err
 	}

@@ -74,6 +74,7 @@ const (
 	CodeDateFuture         = "DATE_FUTURE"
 	CodeLicenceNotYetValid = "LICENCE_NOT_YET_VALID"
 	CodeLicenceExpired     = "LICENCE_EXPIRED"
+	CodeYearClosed         = "YEAR_CLOSED"
 
 	// licence
 	CodeLicenceMissing   = "LICENCE_MISSING"
@@ -194,6 +195,7 @@ var codeTable = []CodeInfo{
 	{CodeDateFuture, SeverityError, "dates", "declaration_date", "The declaration date lies further in the future than the tolerance (2 days unless configured).", "A date up to today plus the tolerance."},
 	{CodeLicenceNotYetValid, SeverityError, "dates", "declaration_date", "The declaration date is before the licence's first day of validity.", "A date inside the licence's validity."},
 	{CodeLicenceExpired, SeverityError, "dates", "declaration_date", "The declaration date is after the licence's last day of validity.", "A date inside the licence's validity."},
+	{CodeYearClosed, SeverityError, "dates", "declaration_date", "The declaration date falls in a reporting year an officer closed; nothing declared in it is recorded, voided or corrected (given by recording, not by a check alone).", "A date in an open year, or the year reopened first (with a reason)."},
 
 	// licence
 	{CodeLicenceMissing, SeverityError, "licence", "licence_number", "An import, export or re-export of a controlled substance names no licence (Article 4B).", "The number of a licence of the declaring company."},

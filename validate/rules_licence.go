@@ -1,6 +1,7 @@
 package validate
 
 import (
+	"fmt"
 	"math"
 	"slices"
 	"strconv"
@@ -18,6 +19,35 @@ type QuotaLedger interface {
 	Drawn(licence string, line int) float64
 	// Draw adds an accepted record's draw.
 	Draw(licence string, line int, amount float64)
+}
+
+// DeferQuota is the QuotaLedger of a caller that judges the quota balance itself, at the
+// moment the record draws (the store, under row locks, in record mode): Check then plans
+// the draws of an accepted record but gives no QUOTA_EXCEEDED or QUOTA_NEAR_LIMIT; the
+// caller adds them with QuotaFindings from the balance it drew on. It draws nothing.
+var DeferQuota QuotaLedger = deferQuota{}
+
+type deferQuota struct{}
+
+func (deferQuota) Drawn(string, int) float64 { return 0 }
+func (deferQuota) Draw(string, int, float64) {}
+
+// QuotaFindings are the quota findings of a draw of amount on line (of the licence
+// numbered licence) with allocated allocated and used already drawn before it, all in the
+// line's unit: QUOTA_EXCEEDED when it draws more than is left, QUOTA_NEAR_LIMIT when
+// afterwards more than 90 % of the line is used, none otherwise. Check mode and record
+// mode word them alike; record mode passes the balance as of the record's own draw.
+func QuotaFindings(licence string, line QuotaLine, allocated, used, amount float64) []Finding {
+	remaining := allocated - used
+	if amount > remaining+quotaEpsilon {
+		return []Finding{newFinding(CodeQuotaExceeded, "", fmt.Sprintf("the shipment draws %s %s on quota line %d (%s) of licence %s, but only %s %s remain of %s allocated",
+			fmtAmount(amount), line.Unit, line.LineNumber, lineScope(line), licence, fmtAmount(math.Max(remaining, 0)), line.Unit, fmtAmount(allocated)))}
+	}
+	if allocated > 0 && (used+amount)/allocated > nearLimitShare {
+		return []Finding{newFinding(CodeQuotaNearLimit, "", fmt.Sprintf("after this shipment %.1f %% of quota line %d (%s) of licence %s is used (%s of %s %s)",
+			100*(used+amount)/allocated, line.LineNumber, lineScope(line), licence, fmtAmount(used+amount), fmtAmount(allocated), line.Unit))}
+	}
+	return nil
 }
 
 // MemoryLedger is a QuotaLedger in memory, for one stream; it is not safe for concurrent use.
@@ -273,21 +303,15 @@ func (c *checker) quotaRules() {
 			c.add(CodeQuotaLineInvalid, "", "quota line %d of licence %s has unit %s and allocation %g; it cannot be drawn on", line.LineNumber, lic.Number, line.Unit, line.Allocated)
 			continue
 		}
+		if c.ledger == DeferQuota {
+			continue // the caller judges the balance at the record's own draw
+		}
 		earlier := 0.0
 		if c.ledger != nil {
 			earlier = c.ledger.Drawn(lic.Number, line.LineNumber)
 		}
-		used := line.Drawn + earlier
-		remaining := line.Allocated - used
-		if d.Amount > remaining+quotaEpsilon {
-			c.add(CodeQuotaExceeded, "", "the shipment draws %s %s on quota line %d (%s) of licence %s, but only %s %s remain of %s allocated",
-				fmtAmount(d.Amount), line.Unit, line.LineNumber, lineScope(line), lic.Number, fmtAmount(math.Max(remaining, 0)), line.Unit, fmtAmount(line.Allocated))
-			continue
-		}
-		if line.Allocated > 0 && (used+d.Amount)/line.Allocated > nearLimitShare {
-			c.add(CodeQuotaNearLimit, "", "after this shipment %.1f %% of quota line %d (%s) of licence %s is used (%s of %s %s)",
-				100*(used+d.Amount)/line.Allocated, line.LineNumber, lineScope(line), lic.Number, fmtAmount(used+d.Amount), fmtAmount(line.Allocated), line.Unit)
-		}
+		fs := QuotaFindings(lic.Number, line, line.Allocated, line.Drawn+earlier, d.Amount)
+		c.fs = append(c.fs, fs...)
 	}
 	if len(rest) > 0 {
 		c.fs = append(c.fs, rest...)

@@ -38,6 +38,8 @@ func TestExitCodeContract(t *testing.T) {
 	  {"licenceNumber": "XA-IMP-2026-901", "companyId": "XA-9001", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31",
 	   "quotaLines": [{"annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocated": 1}]},
 	  {"licenceNumber": "XA-IMP-2026-902", "companyId": "NOBODY", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31"}]}`)
+	unknownFix := filepath.Join(dir, "unknown-fix.csv")
+	writeFile(t, unknownFix, lines[0]+"\nNO-SUCH-KEY,import,XA-1002,XA-IMP-2026-002,XB,2026-01-05,HCFC-22,,,,1,kg,,,servicing,,,\n")
 	dead := "127.0.0.1:1" // nothing listens on port 1 of loopback
 	s := "--server"
 
@@ -116,6 +118,14 @@ func TestExitCodeContract(t *testing.T) {
 		{"reporting-party unusable: entries recorded", []string{"reporting-party", "XB", s, d}, exitUsage, "", "repeat with force"},
 		{"reporting-party unusable: force without reason", []string{"reporting-party", "XB", "--force", s, d}, exitUsage, "", "--force needs --reason"},
 		{"reporting-party unreachable", []string{"reporting-party", "XA", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"shipments success", []string{"shipments", "list", "--company", "XA-1002", s, d}, exitOK, "recorded shipments", ""},
+		{"shipments rejected", []string{"shipments", "correct", unknownFix, "--reason", "test", s, d}, exitRejected, "not corrected", "refused"},
+		{"shipments unusable", []string{"shipments", "void", "12", s, d}, exitUsage, "", "--reason"},
+		{"shipments unknown id", []string{"shipments", "show", "987654", s, d}, exitUsage, "", "NotFound"},
+		{"shipments unreachable", []string{"shipments", "list", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"year success", []string{"year", "list", s, d}, exitOK, "no reporting year is closed", ""},
+		{"year unusable", []string{"year", "close", "2026", s, d}, exitUsage, "", "--reason"},
+		{"year unreachable", []string{"year", "list", s, dead}, exitUnreachable, "", "halovet serve"},
 		{"unknown verb", []string{"chek"}, exitUsage, "", "did you mean check?"},
 		{"unknown flag", []string{"licences", "--colour"}, exitUsage, "", "--colour"},
 		{"probe success", []string{"probe", s, d}, exitOK, "SERVING", ""},

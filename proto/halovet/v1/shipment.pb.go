@@ -358,6 +358,63 @@ func (Outcome) EnumDescriptor() ([]byte, []int) {
 	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{4}
 }
 
+// ShipmentState is where a recorded shipment is in its life.
+type ShipmentState int32
+
+const (
+	// Not recorded, or not set (in a filter: any).
+	ShipmentState_SHIPMENT_STATE_UNSPECIFIED ShipmentState = 0
+	// Recorded and in force: it draws on quota and counts in consumption.
+	ShipmentState_SHIPMENT_STATE_LIVE ShipmentState = 1
+	// Voided: its draws were given back; it no longer counts, and stays in history.
+	ShipmentState_SHIPMENT_STATE_VOIDED ShipmentState = 2
+	// Replaced by a correction (a later version of the same company and key).
+	ShipmentState_SHIPMENT_STATE_SUPERSEDED ShipmentState = 3
+)
+
+// Enum value maps for ShipmentState.
+var (
+	ShipmentState_name = map[int32]string{
+		0: "SHIPMENT_STATE_UNSPECIFIED",
+		1: "SHIPMENT_STATE_LIVE",
+		2: "SHIPMENT_STATE_VOIDED",
+		3: "SHIPMENT_STATE_SUPERSEDED",
+	}
+	ShipmentState_value = map[string]int32{
+		"SHIPMENT_STATE_UNSPECIFIED": 0,
+		"SHIPMENT_STATE_LIVE":        1,
+		"SHIPMENT_STATE_VOIDED":      2,
+		"SHIPMENT_STATE_SUPERSEDED":  3,
+	}
+)
+
+func (x ShipmentState) Enum() *ShipmentState {
+	p := new(ShipmentState)
+	*p = x
+	return p
+}
+
+func (x ShipmentState) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (ShipmentState) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_shipment_proto_enumTypes[5].Descriptor()
+}
+
+func (ShipmentState) Type() protoreflect.EnumType {
+	return &file_halovet_v1_shipment_proto_enumTypes[5]
+}
+
+func (x ShipmentState) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use ShipmentState.Descriptor instead.
+func (ShipmentState) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{5}
+}
+
 // ShipmentRecord is one declared shipment as a customs or ERP system sends it.
 // Text fields carry what the paper says; the service parses and reports.
 type ShipmentRecord struct {
@@ -795,8 +852,20 @@ type Verdict struct {
 	// In recording: true when the record is stored (now or by an earlier identical
 	// call).
 	Recorded bool `protobuf:"varint,6,opt,name=recorded,proto3" json:"recorded,omitempty"`
-	// In recording: true when an identical record with this key was already stored.
-	Replayed      bool `protobuf:"varint,7,opt,name=replayed,proto3" json:"replayed,omitempty"`
+	// In recording: true when an identical record with this key was already stored; the
+	// verdict is then the one stored with it, unchanged. In checking: true when the record
+	// is recorded already (its draws are then not counted again).
+	Replayed bool `protobuf:"varint,7,opt,name=replayed,proto3" json:"replayed,omitempty"`
+	// The recorded shipment this verdict is about, when the record is stored (now or
+	// earlier); 0 otherwise.
+	ShipmentId int64 `protobuf:"varint,8,opt,name=shipment_id,json=shipmentId,proto3" json:"shipment_id,omitempty"`
+	// When that shipment was recorded, RFC 3339 UTC; empty when it is not.
+	RecordedAt string `protobuf:"bytes,9,opt,name=recorded_at,json=recordedAt,proto3" json:"recorded_at,omitempty"`
+	// That shipment's state now; unspecified when the record is not stored.
+	State ShipmentState `protobuf:"varint,10,opt,name=state,proto3,enum=halovet.v1.ShipmentState" json:"state,omitempty"`
+	// What the record draws on its licence's quota lines (an accepted record that is not a
+	// duplicate); empty for a rejected record, a duplicate and a transit.
+	Draws         []*QuotaDraw `protobuf:"bytes,11,rep,name=draws,proto3" json:"draws,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -878,6 +947,34 @@ func (x *Verdict) GetReplayed() bool {
 		return x.Replayed
 	}
 	return false
+}
+
+func (x *Verdict) GetShipmentId() int64 {
+	if x != nil {
+		return x.ShipmentId
+	}
+	return 0
+}
+
+func (x *Verdict) GetRecordedAt() string {
+	if x != nil {
+		return x.RecordedAt
+	}
+	return ""
+}
+
+func (x *Verdict) GetState() ShipmentState {
+	if x != nil {
+		return x.State
+	}
+	return ShipmentState_SHIPMENT_STATE_UNSPECIFIED
+}
+
+func (x *Verdict) GetDraws() []*QuotaDraw {
+	if x != nil {
+		return x.Draws
+	}
+	return nil
 }
 
 // CheckShipmentRequest carries one record.
@@ -1655,6 +1752,1169 @@ func (x *RecordShipmentBatchResponse) GetSummary() *BatchSummary {
 	return nil
 }
 
+// QuotaDraw is what a recorded shipment draws (or drew) on one quota line.
+type QuotaDraw struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Licence of the quota line.
+	LicenceNumber string `protobuf:"bytes,1,opt,name=licence_number,json=licenceNumber,proto3" json:"licence_number,omitempty"`
+	// Line number on the licence.
+	LineNumber int32 `protobuf:"varint,2,opt,name=line_number,json=lineNumber,proto3" json:"line_number,omitempty"`
+	// Amount in the line's unit (metric t, ODP t or CO2-eq t), exact to 9 decimals.
+	Amount float64 `protobuf:"fixed64,3,opt,name=amount,proto3" json:"amount,omitempty"`
+	// True once the draw was given back (the shipment voided or corrected).
+	Released bool `protobuf:"varint,4,opt,name=released,proto3" json:"released,omitempty"`
+	// When it was given back, RFC 3339 UTC; empty while it draws.
+	ReleasedAt    string `protobuf:"bytes,5,opt,name=released_at,json=releasedAt,proto3" json:"released_at,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *QuotaDraw) Reset() {
+	*x = QuotaDraw{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[16]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *QuotaDraw) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*QuotaDraw) ProtoMessage() {}
+
+func (x *QuotaDraw) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[16]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use QuotaDraw.ProtoReflect.Descriptor instead.
+func (*QuotaDraw) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{16}
+}
+
+func (x *QuotaDraw) GetLicenceNumber() string {
+	if x != nil {
+		return x.LicenceNumber
+	}
+	return ""
+}
+
+func (x *QuotaDraw) GetLineNumber() int32 {
+	if x != nil {
+		return x.LineNumber
+	}
+	return 0
+}
+
+func (x *QuotaDraw) GetAmount() float64 {
+	if x != nil {
+		return x.Amount
+	}
+	return 0
+}
+
+func (x *QuotaDraw) GetReleased() bool {
+	if x != nil {
+		return x.Released
+	}
+	return false
+}
+
+func (x *QuotaDraw) GetReleasedAt() string {
+	if x != nil {
+		return x.ReleasedAt
+	}
+	return ""
+}
+
+// RecordedShipment is one stored version of a recorded shipment.
+type RecordedShipment struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The register's id of this version.
+	ShipmentId int64 `protobuf:"varint,1,opt,name=shipment_id,json=shipmentId,proto3" json:"shipment_id,omitempty"`
+	// Live, voided or superseded.
+	State ShipmentState `protobuf:"varint,2,opt,name=state,proto3,enum=halovet.v1.ShipmentState" json:"state,omitempty"`
+	// Version number under its company and key, 1 for the record as first stored.
+	Version int32 `protobuf:"varint,3,opt,name=version,proto3" json:"version,omitempty"`
+	// The version this one corrected; 0 for version 1.
+	PreviousShipmentId int64 `protobuf:"varint,4,opt,name=previous_shipment_id,json=previousShipmentId,proto3" json:"previous_shipment_id,omitempty"`
+	// The record as sent (source_line as in the file it came from).
+	Record *ShipmentRecord `protobuf:"bytes,5,opt,name=record,proto3" json:"record,omitempty"`
+	// The verdict the record was stored with; empty for shipments stored before verdicts
+	// were kept.
+	Verdict *Verdict `protobuf:"bytes,6,opt,name=verdict,proto3" json:"verdict,omitempty"`
+	// Its quota draws, given back ones included.
+	Draws []*QuotaDraw `protobuf:"bytes,7,rep,name=draws,proto3" json:"draws,omitempty"`
+	// When it was stored, RFC 3339 UTC.
+	RecordedAt string `protobuf:"bytes,8,opt,name=recorded_at,json=recordedAt,proto3" json:"recorded_at,omitempty"`
+	// When it was voided or superseded, RFC 3339 UTC; empty while live.
+	ChangedAt string `protobuf:"bytes,9,opt,name=changed_at,json=changedAt,proto3" json:"changed_at,omitempty"`
+	// Why it was voided or corrected; empty while live.
+	ChangeReason string `protobuf:"bytes,10,opt,name=change_reason,json=changeReason,proto3" json:"change_reason,omitempty"`
+	// Declaration date, "YYYY-MM-DD".
+	DeclarationDate string `protobuf:"bytes,11,opt,name=declaration_date,json=declarationDate,proto3" json:"declaration_date,omitempty"`
+	// The designation the record resolved to.
+	ResolvedDesignation string `protobuf:"bytes,12,opt,name=resolved_designation,json=resolvedDesignation,proto3" json:"resolved_designation,omitempty"`
+	// Net mass in kg, exact to 9 decimals.
+	NetMassKg float64 `protobuf:"fixed64,13,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
+	// ODP tonnes.
+	OdpTonnes float64 `protobuf:"fixed64,14,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
+	// CO2-eq tonnes.
+	Co2ETonnes float64 `protobuf:"fixed64,15,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
+	// True when it counts in national consumption (while live).
+	CountsInConsumption bool `protobuf:"varint,16,opt,name=counts_in_consumption,json=countsInConsumption,proto3" json:"counts_in_consumption,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
+}
+
+func (x *RecordedShipment) Reset() {
+	*x = RecordedShipment{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[17]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordedShipment) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordedShipment) ProtoMessage() {}
+
+func (x *RecordedShipment) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[17]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordedShipment.ProtoReflect.Descriptor instead.
+func (*RecordedShipment) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{17}
+}
+
+func (x *RecordedShipment) GetShipmentId() int64 {
+	if x != nil {
+		return x.ShipmentId
+	}
+	return 0
+}
+
+func (x *RecordedShipment) GetState() ShipmentState {
+	if x != nil {
+		return x.State
+	}
+	return ShipmentState_SHIPMENT_STATE_UNSPECIFIED
+}
+
+func (x *RecordedShipment) GetVersion() int32 {
+	if x != nil {
+		return x.Version
+	}
+	return 0
+}
+
+func (x *RecordedShipment) GetPreviousShipmentId() int64 {
+	if x != nil {
+		return x.PreviousShipmentId
+	}
+	return 0
+}
+
+func (x *RecordedShipment) GetRecord() *ShipmentRecord {
+	if x != nil {
+		return x.Record
+	}
+	return nil
+}
+
+func (x *RecordedShipment) GetVerdict() *Verdict {
+	if x != nil {
+		return x.Verdict
+	}
+	return nil
+}
+
+func (x *RecordedShipment) GetDraws() []*QuotaDraw {
+	if x != nil {
+		return x.Draws
+	}
+	return nil
+}
+
+func (x *RecordedShipment) GetRecordedAt() string {
+	if x != nil {
+		return x.RecordedAt
+	}
+	return ""
+}
+
+func (x *RecordedShipment) GetChangedAt() string {
+	if x != nil {
+		return x.ChangedAt
+	}
+	return ""
+}
+
+func (x *RecordedShipment) GetChangeReason() string {
+	if x != nil {
+		return x.ChangeReason
+	}
+	return ""
+}
+
+func (x *RecordedShipment) GetDeclarationDate() string {
+	if x != nil {
+		return x.DeclarationDate
+	}
+	return ""
+}
+
+func (x *RecordedShipment) GetResolvedDesignation() string {
+	if x != nil {
+		return x.ResolvedDesignation
+	}
+	return ""
+}
+
+func (x *RecordedShipment) GetNetMassKg() float64 {
+	if x != nil {
+		return x.NetMassKg
+	}
+	return 0
+}
+
+func (x *RecordedShipment) GetOdpTonnes() float64 {
+	if x != nil {
+		return x.OdpTonnes
+	}
+	return 0
+}
+
+func (x *RecordedShipment) GetCo2ETonnes() float64 {
+	if x != nil {
+		return x.Co2ETonnes
+	}
+	return 0
+}
+
+func (x *RecordedShipment) GetCountsInConsumption() bool {
+	if x != nil {
+		return x.CountsInConsumption
+	}
+	return false
+}
+
+// ListShipmentsRequest selects recorded shipments; every filter left empty selects all.
+type ListShipmentsRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Registered identifier of the declaring company.
+	CompanyId string `protobuf:"bytes,1,opt,name=company_id,json=companyId,proto3" json:"company_id,omitempty"`
+	// Licence the shipments draw on.
+	LicenceNumber string `protobuf:"bytes,2,opt,name=licence_number,json=licenceNumber,proto3" json:"licence_number,omitempty"`
+	// Declaration year, e.g. 2026; 0 for any. Not together with from_date or to_date.
+	Year int32 `protobuf:"varint,3,opt,name=year,proto3" json:"year,omitempty"`
+	// First declaration date, "YYYY-MM-DD", inclusive.
+	FromDate string `protobuf:"bytes,4,opt,name=from_date,json=fromDate,proto3" json:"from_date,omitempty"`
+	// Last declaration date, "YYYY-MM-DD", inclusive.
+	ToDate string `protobuf:"bytes,5,opt,name=to_date,json=toDate,proto3" json:"to_date,omitempty"`
+	// Partner country, ISO 3166-1 alpha-2.
+	PartnerCountry string `protobuf:"bytes,6,opt,name=partner_country,json=partnerCountry,proto3" json:"partner_country,omitempty"`
+	// Substance or blend, any identifier the resolver takes: shipments of it, or with it
+	// as a component.
+	Substance string `protobuf:"bytes,7,opt,name=substance,proto3" json:"substance,omitempty"`
+	// Annex group of a component, e.g. "C/I" or "F".
+	AnnexGroup string `protobuf:"bytes,8,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
+	// Direction; unspecified for any.
+	Direction Direction `protobuf:"varint,9,opt,name=direction,proto3,enum=halovet.v1.Direction" json:"direction,omitempty"`
+	// Purpose; unspecified for any.
+	Purpose Purpose `protobuf:"varint,10,opt,name=purpose,proto3,enum=halovet.v1.Purpose" json:"purpose,omitempty"`
+	// Condition; unspecified for any.
+	Condition Condition `protobuf:"varint,11,opt,name=condition,proto3,enum=halovet.v1.Condition" json:"condition,omitempty"`
+	// States; empty for all.
+	States []ShipmentState `protobuf:"varint,12,rep,packed,name=states,proto3,enum=halovet.v1.ShipmentState" json:"states,omitempty"`
+	// The client's key of the record (every version of it).
+	RecordKey string `protobuf:"bytes,13,opt,name=record_key,json=recordKey,proto3" json:"record_key,omitempty"`
+	// Most shipments per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,14,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,15,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListShipmentsRequest) Reset() {
+	*x = ListShipmentsRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[18]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListShipmentsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListShipmentsRequest) ProtoMessage() {}
+
+func (x *ListShipmentsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[18]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListShipmentsRequest.ProtoReflect.Descriptor instead.
+func (*ListShipmentsRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{18}
+}
+
+func (x *ListShipmentsRequest) GetCompanyId() string {
+	if x != nil {
+		return x.CompanyId
+	}
+	return ""
+}
+
+func (x *ListShipmentsRequest) GetLicenceNumber() string {
+	if x != nil {
+		return x.LicenceNumber
+	}
+	return ""
+}
+
+func (x *ListShipmentsRequest) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *ListShipmentsRequest) GetFromDate() string {
+	if x != nil {
+		return x.FromDate
+	}
+	return ""
+}
+
+func (x *ListShipmentsRequest) GetToDate() string {
+	if x != nil {
+		return x.ToDate
+	}
+	return ""
+}
+
+func (x *ListShipmentsRequest) GetPartnerCountry() string {
+	if x != nil {
+		return x.PartnerCountry
+	}
+	return ""
+}
+
+func (x *ListShipmentsRequest) GetSubstance() string {
+	if x != nil {
+		return x.Substance
+	}
+	return ""
+}
+
+func (x *ListShipmentsRequest) GetAnnexGroup() string {
+	if x != nil {
+		return x.AnnexGroup
+	}
+	return ""
+}
+
+func (x *ListShipmentsRequest) GetDirection() Direction {
+	if x != nil {
+		return x.Direction
+	}
+	return Direction_DIRECTION_UNSPECIFIED
+}
+
+func (x *ListShipmentsRequest) GetPurpose() Purpose {
+	if x != nil {
+		return x.Purpose
+	}
+	return Purpose_PURPOSE_UNSPECIFIED
+}
+
+func (x *ListShipmentsRequest) GetCondition() Condition {
+	if x != nil {
+		return x.Condition
+	}
+	return Condition_CONDITION_UNSPECIFIED
+}
+
+func (x *ListShipmentsRequest) GetStates() []ShipmentState {
+	if x != nil {
+		return x.States
+	}
+	return nil
+}
+
+func (x *ListShipmentsRequest) GetRecordKey() string {
+	if x != nil {
+		return x.RecordKey
+	}
+	return ""
+}
+
+func (x *ListShipmentsRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListShipmentsRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
+// ListShipmentsResponse is one page.
+type ListShipmentsResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The shipments, in the order they were stored.
+	Shipments []*RecordedShipment `protobuf:"bytes,1,rep,name=shipments,proto3" json:"shipments,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListShipmentsResponse) Reset() {
+	*x = ListShipmentsResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[19]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListShipmentsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListShipmentsResponse) ProtoMessage() {}
+
+func (x *ListShipmentsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[19]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListShipmentsResponse.ProtoReflect.Descriptor instead.
+func (*ListShipmentsResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{19}
+}
+
+func (x *ListShipmentsResponse) GetShipments() []*RecordedShipment {
+	if x != nil {
+		return x.Shipments
+	}
+	return nil
+}
+
+func (x *ListShipmentsResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
+}
+
+// GetShipmentRequest names a recorded shipment.
+type GetShipmentRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Its id.
+	ShipmentId    int64 `protobuf:"varint,1,opt,name=shipment_id,json=shipmentId,proto3" json:"shipment_id,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *GetShipmentRequest) Reset() {
+	*x = GetShipmentRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[20]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *GetShipmentRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*GetShipmentRequest) ProtoMessage() {}
+
+func (x *GetShipmentRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[20]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use GetShipmentRequest.ProtoReflect.Descriptor instead.
+func (*GetShipmentRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{20}
+}
+
+func (x *GetShipmentRequest) GetShipmentId() int64 {
+	if x != nil {
+		return x.ShipmentId
+	}
+	return 0
+}
+
+// GetShipmentResponse carries it and its versions.
+type GetShipmentResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The version asked for.
+	Shipment *RecordedShipment `protobuf:"bytes,1,opt,name=shipment,proto3" json:"shipment,omitempty"`
+	// Every version of its company and key, oldest first (the one asked for among them).
+	Versions      []*RecordedShipment `protobuf:"bytes,2,rep,name=versions,proto3" json:"versions,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *GetShipmentResponse) Reset() {
+	*x = GetShipmentResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[21]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *GetShipmentResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*GetShipmentResponse) ProtoMessage() {}
+
+func (x *GetShipmentResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[21]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use GetShipmentResponse.ProtoReflect.Descriptor instead.
+func (*GetShipmentResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{21}
+}
+
+func (x *GetShipmentResponse) GetShipment() *RecordedShipment {
+	if x != nil {
+		return x.Shipment
+	}
+	return nil
+}
+
+func (x *GetShipmentResponse) GetVersions() []*RecordedShipment {
+	if x != nil {
+		return x.Versions
+	}
+	return nil
+}
+
+// VoidShipmentRequest names the shipment to void and why.
+type VoidShipmentRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Id of a live recorded shipment.
+	ShipmentId int64 `protobuf:"varint,1,opt,name=shipment_id,json=shipmentId,proto3" json:"shipment_id,omitempty"`
+	// Why it is voided; required, kept in the register and the audit log.
+	Reason        string `protobuf:"bytes,2,opt,name=reason,proto3" json:"reason,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *VoidShipmentRequest) Reset() {
+	*x = VoidShipmentRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[22]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *VoidShipmentRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*VoidShipmentRequest) ProtoMessage() {}
+
+func (x *VoidShipmentRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[22]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use VoidShipmentRequest.ProtoReflect.Descriptor instead.
+func (*VoidShipmentRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{22}
+}
+
+func (x *VoidShipmentRequest) GetShipmentId() int64 {
+	if x != nil {
+		return x.ShipmentId
+	}
+	return 0
+}
+
+func (x *VoidShipmentRequest) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+// VoidShipmentResponse carries the voided shipment.
+type VoidShipmentResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The shipment as voided, its draws given back.
+	Shipment      *RecordedShipment `protobuf:"bytes,1,opt,name=shipment,proto3" json:"shipment,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *VoidShipmentResponse) Reset() {
+	*x = VoidShipmentResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[23]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *VoidShipmentResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*VoidShipmentResponse) ProtoMessage() {}
+
+func (x *VoidShipmentResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[23]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use VoidShipmentResponse.ProtoReflect.Descriptor instead.
+func (*VoidShipmentResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{23}
+}
+
+func (x *VoidShipmentResponse) GetShipment() *RecordedShipment {
+	if x != nil {
+		return x.Shipment
+	}
+	return nil
+}
+
+// CorrectShipmentRequest carries the corrected record.
+type CorrectShipmentRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Id of the live recorded shipment to correct; 0 to take the live shipment of the
+	// record's company_id and record_key.
+	ShipmentId int64 `protobuf:"varint,1,opt,name=shipment_id,json=shipmentId,proto3" json:"shipment_id,omitempty"`
+	// The corrected record; its company_id and record_key are those of the shipment.
+	Record *ShipmentRecord `protobuf:"bytes,2,opt,name=record,proto3" json:"record,omitempty"`
+	// Why it is corrected; required, kept in the register and the audit log.
+	Reason        string `protobuf:"bytes,3,opt,name=reason,proto3" json:"reason,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CorrectShipmentRequest) Reset() {
+	*x = CorrectShipmentRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[24]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CorrectShipmentRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CorrectShipmentRequest) ProtoMessage() {}
+
+func (x *CorrectShipmentRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[24]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CorrectShipmentRequest.ProtoReflect.Descriptor instead.
+func (*CorrectShipmentRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{24}
+}
+
+func (x *CorrectShipmentRequest) GetShipmentId() int64 {
+	if x != nil {
+		return x.ShipmentId
+	}
+	return 0
+}
+
+func (x *CorrectShipmentRequest) GetRecord() *ShipmentRecord {
+	if x != nil {
+		return x.Record
+	}
+	return nil
+}
+
+func (x *CorrectShipmentRequest) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+// CorrectShipmentResponse carries the new version.
+type CorrectShipmentResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The verdict of the corrected record, as stored with the new version.
+	Verdict *Verdict `protobuf:"bytes,1,opt,name=verdict,proto3" json:"verdict,omitempty"`
+	// The new version.
+	Shipment      *RecordedShipment `protobuf:"bytes,2,opt,name=shipment,proto3" json:"shipment,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CorrectShipmentResponse) Reset() {
+	*x = CorrectShipmentResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[25]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CorrectShipmentResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CorrectShipmentResponse) ProtoMessage() {}
+
+func (x *CorrectShipmentResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[25]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CorrectShipmentResponse.ProtoReflect.Descriptor instead.
+func (*CorrectShipmentResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{25}
+}
+
+func (x *CorrectShipmentResponse) GetVerdict() *Verdict {
+	if x != nil {
+		return x.Verdict
+	}
+	return nil
+}
+
+func (x *CorrectShipmentResponse) GetShipment() *RecordedShipment {
+	if x != nil {
+		return x.Shipment
+	}
+	return nil
+}
+
+// ClosedYear is a closed reporting year.
+type ClosedYear struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The year.
+	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	// When it was closed, RFC 3339 UTC.
+	ClosedAt string `protobuf:"bytes,2,opt,name=closed_at,json=closedAt,proto3" json:"closed_at,omitempty"`
+	// Who closed it.
+	ClosedBy string `protobuf:"bytes,3,opt,name=closed_by,json=closedBy,proto3" json:"closed_by,omitempty"`
+	// Why.
+	Reason        string `protobuf:"bytes,4,opt,name=reason,proto3" json:"reason,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ClosedYear) Reset() {
+	*x = ClosedYear{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[26]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ClosedYear) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ClosedYear) ProtoMessage() {}
+
+func (x *ClosedYear) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[26]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ClosedYear.ProtoReflect.Descriptor instead.
+func (*ClosedYear) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{26}
+}
+
+func (x *ClosedYear) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *ClosedYear) GetClosedAt() string {
+	if x != nil {
+		return x.ClosedAt
+	}
+	return ""
+}
+
+func (x *ClosedYear) GetClosedBy() string {
+	if x != nil {
+		return x.ClosedBy
+	}
+	return ""
+}
+
+func (x *ClosedYear) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+// CloseYearRequest names the year to close and why.
+type CloseYearRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The reporting year, 1986 to 2200.
+	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	// Why; required.
+	Reason        string `protobuf:"bytes,2,opt,name=reason,proto3" json:"reason,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CloseYearRequest) Reset() {
+	*x = CloseYearRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[27]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CloseYearRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CloseYearRequest) ProtoMessage() {}
+
+func (x *CloseYearRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[27]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CloseYearRequest.ProtoReflect.Descriptor instead.
+func (*CloseYearRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{27}
+}
+
+func (x *CloseYearRequest) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *CloseYearRequest) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+// CloseYearResponse carries the closed year.
+type CloseYearResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The year as closed.
+	ClosedYear    *ClosedYear `protobuf:"bytes,1,opt,name=closed_year,json=closedYear,proto3" json:"closed_year,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CloseYearResponse) Reset() {
+	*x = CloseYearResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[28]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CloseYearResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CloseYearResponse) ProtoMessage() {}
+
+func (x *CloseYearResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[28]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CloseYearResponse.ProtoReflect.Descriptor instead.
+func (*CloseYearResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{28}
+}
+
+func (x *CloseYearResponse) GetClosedYear() *ClosedYear {
+	if x != nil {
+		return x.ClosedYear
+	}
+	return nil
+}
+
+// ReopenYearRequest names the year to reopen and why.
+type ReopenYearRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The reporting year.
+	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	// Why; required.
+	Reason        string `protobuf:"bytes,2,opt,name=reason,proto3" json:"reason,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ReopenYearRequest) Reset() {
+	*x = ReopenYearRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[29]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ReopenYearRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ReopenYearRequest) ProtoMessage() {}
+
+func (x *ReopenYearRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[29]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ReopenYearRequest.ProtoReflect.Descriptor instead.
+func (*ReopenYearRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{29}
+}
+
+func (x *ReopenYearRequest) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *ReopenYearRequest) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+// ReopenYearResponse is empty: the year is open again.
+type ReopenYearResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ReopenYearResponse) Reset() {
+	*x = ReopenYearResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[30]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ReopenYearResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ReopenYearResponse) ProtoMessage() {}
+
+func (x *ReopenYearResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[30]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ReopenYearResponse.ProtoReflect.Descriptor instead.
+func (*ReopenYearResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{30}
+}
+
+// ListClosedYearsRequest is empty.
+type ListClosedYearsRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListClosedYearsRequest) Reset() {
+	*x = ListClosedYearsRequest{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[31]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListClosedYearsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListClosedYearsRequest) ProtoMessage() {}
+
+func (x *ListClosedYearsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[31]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListClosedYearsRequest.ProtoReflect.Descriptor instead.
+func (*ListClosedYearsRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{31}
+}
+
+// ListClosedYearsResponse lists the closed years.
+type ListClosedYearsResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The closed years, in order.
+	ClosedYears   []*ClosedYear `protobuf:"bytes,1,rep,name=closed_years,json=closedYears,proto3" json:"closed_years,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListClosedYearsResponse) Reset() {
+	*x = ListClosedYearsResponse{}
+	mi := &file_halovet_v1_shipment_proto_msgTypes[32]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListClosedYearsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListClosedYearsResponse) ProtoMessage() {}
+
+func (x *ListClosedYearsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_shipment_proto_msgTypes[32]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListClosedYearsResponse.ProtoReflect.Descriptor instead.
+func (*ListClosedYearsResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{32}
+}
+
+func (x *ListClosedYearsResponse) GetClosedYears() []*ClosedYear {
+	if x != nil {
+		return x.ClosedYears
+	}
+	return nil
+}
+
 var File_halovet_v1_shipment_proto protoreflect.FileDescriptor
 
 const file_halovet_v1_shipment_proto_rawDesc = "" +
@@ -1705,7 +2965,7 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\fsafety_class\x18\b \x01(\tR\vsafetyClass\x12*\n" +
 	"\x11partner_non_party\x18\t \x01(\bR\x0fpartnerNonParty\x127\n" +
 	"\x18partner_not_bound_groups\x18\n" +
-	" \x03(\tR\x15partnerNotBoundGroups\"\x98\x02\n" +
+	" \x03(\tR\x15partnerNotBoundGroups\"\xb8\x03\n" +
 	"\aVerdict\x12\x1d\n" +
 	"\n" +
 	"record_key\x18\x01 \x01(\tR\trecordKey\x12\x1f\n" +
@@ -1715,7 +2975,14 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\bfindings\x18\x04 \x03(\v2\x13.halovet.v1.FindingR\bfindings\x125\n" +
 	"\afigures\x18\x05 \x01(\v2\x1b.halovet.v1.ShipmentFiguresR\afigures\x12\x1a\n" +
 	"\brecorded\x18\x06 \x01(\bR\brecorded\x12\x1a\n" +
-	"\breplayed\x18\a \x01(\bR\breplayed\"J\n" +
+	"\breplayed\x18\a \x01(\bR\breplayed\x12\x1f\n" +
+	"\vshipment_id\x18\b \x01(\x03R\n" +
+	"shipmentId\x12\x1f\n" +
+	"\vrecorded_at\x18\t \x01(\tR\n" +
+	"recordedAt\x12/\n" +
+	"\x05state\x18\n" +
+	" \x01(\x0e2\x19.halovet.v1.ShipmentStateR\x05state\x12+\n" +
+	"\x05draws\x18\v \x03(\v2\x15.halovet.v1.QuotaDrawR\x05draws\"J\n" +
 	"\x14CheckShipmentRequest\x122\n" +
 	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\"F\n" +
 	"\x15CheckShipmentResponse\x12-\n" +
@@ -1762,7 +3029,101 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\arecords\x18\x01 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\"\x82\x01\n" +
 	"\x1bRecordShipmentBatchResponse\x12/\n" +
 	"\bverdicts\x18\x01 \x03(\v2\x13.halovet.v1.VerdictR\bverdicts\x122\n" +
-	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryR\asummary*\x82\x01\n" +
+	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryR\asummary\"\xa8\x01\n" +
+	"\tQuotaDraw\x12%\n" +
+	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\x12\x1f\n" +
+	"\vline_number\x18\x02 \x01(\x05R\n" +
+	"lineNumber\x12\x16\n" +
+	"\x06amount\x18\x03 \x01(\x01R\x06amount\x12\x1a\n" +
+	"\breleased\x18\x04 \x01(\bR\breleased\x12\x1f\n" +
+	"\vreleased_at\x18\x05 \x01(\tR\n" +
+	"releasedAt\"\x97\x05\n" +
+	"\x10RecordedShipment\x12\x1f\n" +
+	"\vshipment_id\x18\x01 \x01(\x03R\n" +
+	"shipmentId\x12/\n" +
+	"\x05state\x18\x02 \x01(\x0e2\x19.halovet.v1.ShipmentStateR\x05state\x12\x18\n" +
+	"\aversion\x18\x03 \x01(\x05R\aversion\x120\n" +
+	"\x14previous_shipment_id\x18\x04 \x01(\x03R\x12previousShipmentId\x122\n" +
+	"\x06record\x18\x05 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\x12-\n" +
+	"\averdict\x18\x06 \x01(\v2\x13.halovet.v1.VerdictR\averdict\x12+\n" +
+	"\x05draws\x18\a \x03(\v2\x15.halovet.v1.QuotaDrawR\x05draws\x12\x1f\n" +
+	"\vrecorded_at\x18\b \x01(\tR\n" +
+	"recordedAt\x12\x1d\n" +
+	"\n" +
+	"changed_at\x18\t \x01(\tR\tchangedAt\x12#\n" +
+	"\rchange_reason\x18\n" +
+	" \x01(\tR\fchangeReason\x12)\n" +
+	"\x10declaration_date\x18\v \x01(\tR\x0fdeclarationDate\x121\n" +
+	"\x14resolved_designation\x18\f \x01(\tR\x13resolvedDesignation\x12\x1e\n" +
+	"\vnet_mass_kg\x18\r \x01(\x01R\tnetMassKg\x12\x1d\n" +
+	"\n" +
+	"odp_tonnes\x18\x0e \x01(\x01R\todpTonnes\x12\x1f\n" +
+	"\vco2e_tonnes\x18\x0f \x01(\x01R\n" +
+	"co2eTonnes\x122\n" +
+	"\x15counts_in_consumption\x18\x10 \x01(\bR\x13countsInConsumption\"\xb5\x04\n" +
+	"\x14ListShipmentsRequest\x12\x1d\n" +
+	"\n" +
+	"company_id\x18\x01 \x01(\tR\tcompanyId\x12%\n" +
+	"\x0elicence_number\x18\x02 \x01(\tR\rlicenceNumber\x12\x12\n" +
+	"\x04year\x18\x03 \x01(\x05R\x04year\x12\x1b\n" +
+	"\tfrom_date\x18\x04 \x01(\tR\bfromDate\x12\x17\n" +
+	"\ato_date\x18\x05 \x01(\tR\x06toDate\x12'\n" +
+	"\x0fpartner_country\x18\x06 \x01(\tR\x0epartnerCountry\x12\x1c\n" +
+	"\tsubstance\x18\a \x01(\tR\tsubstance\x12\x1f\n" +
+	"\vannex_group\x18\b \x01(\tR\n" +
+	"annexGroup\x123\n" +
+	"\tdirection\x18\t \x01(\x0e2\x15.halovet.v1.DirectionR\tdirection\x12-\n" +
+	"\apurpose\x18\n" +
+	" \x01(\x0e2\x13.halovet.v1.PurposeR\apurpose\x123\n" +
+	"\tcondition\x18\v \x01(\x0e2\x15.halovet.v1.ConditionR\tcondition\x121\n" +
+	"\x06states\x18\f \x03(\x0e2\x19.halovet.v1.ShipmentStateR\x06states\x12\x1d\n" +
+	"\n" +
+	"record_key\x18\r \x01(\tR\trecordKey\x12\x1b\n" +
+	"\tpage_size\x18\x0e \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x0f \x01(\tR\tpageToken\"{\n" +
+	"\x15ListShipmentsResponse\x12:\n" +
+	"\tshipments\x18\x01 \x03(\v2\x1c.halovet.v1.RecordedShipmentR\tshipments\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"5\n" +
+	"\x12GetShipmentRequest\x12\x1f\n" +
+	"\vshipment_id\x18\x01 \x01(\x03R\n" +
+	"shipmentId\"\x89\x01\n" +
+	"\x13GetShipmentResponse\x128\n" +
+	"\bshipment\x18\x01 \x01(\v2\x1c.halovet.v1.RecordedShipmentR\bshipment\x128\n" +
+	"\bversions\x18\x02 \x03(\v2\x1c.halovet.v1.RecordedShipmentR\bversions\"N\n" +
+	"\x13VoidShipmentRequest\x12\x1f\n" +
+	"\vshipment_id\x18\x01 \x01(\x03R\n" +
+	"shipmentId\x12\x16\n" +
+	"\x06reason\x18\x02 \x01(\tR\x06reason\"P\n" +
+	"\x14VoidShipmentResponse\x128\n" +
+	"\bshipment\x18\x01 \x01(\v2\x1c.halovet.v1.RecordedShipmentR\bshipment\"\x85\x01\n" +
+	"\x16CorrectShipmentRequest\x12\x1f\n" +
+	"\vshipment_id\x18\x01 \x01(\x03R\n" +
+	"shipmentId\x122\n" +
+	"\x06record\x18\x02 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\x12\x16\n" +
+	"\x06reason\x18\x03 \x01(\tR\x06reason\"\x82\x01\n" +
+	"\x17CorrectShipmentResponse\x12-\n" +
+	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictR\averdict\x128\n" +
+	"\bshipment\x18\x02 \x01(\v2\x1c.halovet.v1.RecordedShipmentR\bshipment\"r\n" +
+	"\n" +
+	"ClosedYear\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1b\n" +
+	"\tclosed_at\x18\x02 \x01(\tR\bclosedAt\x12\x1b\n" +
+	"\tclosed_by\x18\x03 \x01(\tR\bclosedBy\x12\x16\n" +
+	"\x06reason\x18\x04 \x01(\tR\x06reason\">\n" +
+	"\x10CloseYearRequest\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x16\n" +
+	"\x06reason\x18\x02 \x01(\tR\x06reason\"L\n" +
+	"\x11CloseYearResponse\x127\n" +
+	"\vclosed_year\x18\x01 \x01(\v2\x16.halovet.v1.ClosedYearR\n" +
+	"closedYear\"?\n" +
+	"\x11ReopenYearRequest\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x16\n" +
+	"\x06reason\x18\x02 \x01(\tR\x06reason\"\x14\n" +
+	"\x12ReopenYearResponse\"\x18\n" +
+	"\x16ListClosedYearsRequest\"T\n" +
+	"\x17ListClosedYearsResponse\x129\n" +
+	"\fclosed_years\x18\x01 \x03(\v2\x16.halovet.v1.ClosedYearR\vclosedYears*\x82\x01\n" +
 	"\tDirection\x12\x19\n" +
 	"\x15DIRECTION_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10DIRECTION_IMPORT\x10\x01\x12\x14\n" +
@@ -1800,13 +3161,26 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x13OUTCOME_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10OUTCOME_ACCEPTED\x10\x01\x12\"\n" +
 	"\x1eOUTCOME_ACCEPTED_WITH_WARNINGS\x10\x02\x12\x14\n" +
-	"\x10OUTCOME_REJECTED\x10\x032\xde\x04\n" +
+	"\x10OUTCOME_REJECTED\x10\x03*\x82\x01\n" +
+	"\rShipmentState\x12\x1e\n" +
+	"\x1aSHIPMENT_STATE_UNSPECIFIED\x10\x00\x12\x17\n" +
+	"\x13SHIPMENT_STATE_LIVE\x10\x01\x12\x19\n" +
+	"\x15SHIPMENT_STATE_VOIDED\x10\x02\x12\x1d\n" +
+	"\x19SHIPMENT_STATE_SUPERSEDED\x10\x032\xd6\v\n" +
 	"\x0fShipmentService\x12t\n" +
 	"\rCheckShipment\x12 .halovet.v1.CheckShipmentRequest\x1a!.halovet.v1.CheckShipmentResponse\"\x1e\x82\xd3\xe4\x93\x02\x18:\x01*\"\x13/v1/shipments:check\x12[\n" +
 	"\x0eCheckShipments\x12!.halovet.v1.CheckShipmentsRequest\x1a\".halovet.v1.CheckShipmentsResponse(\x010\x01\x12^\n" +
 	"\x0fRecordShipments\x12\".halovet.v1.RecordShipmentsRequest\x1a#.halovet.v1.RecordShipmentsResponse(\x010\x01\x12\x88\x01\n" +
 	"\x12CheckShipmentBatch\x12%.halovet.v1.CheckShipmentBatchRequest\x1a&.halovet.v1.CheckShipmentBatchResponse\"#\x82\xd3\xe4\x93\x02\x1d:\x01*\"\x18/v1/shipments:checkBatch\x12\x8c\x01\n" +
-	"\x13RecordShipmentBatch\x12&.halovet.v1.RecordShipmentBatchRequest\x1a'.halovet.v1.RecordShipmentBatchResponse\"$\x82\xd3\xe4\x93\x02\x1e:\x01*\"\x19/v1/shipments:recordBatchB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
+	"\x13RecordShipmentBatch\x12&.halovet.v1.RecordShipmentBatchRequest\x1a'.halovet.v1.RecordShipmentBatchResponse\"$\x82\xd3\xe4\x93\x02\x1e:\x01*\"\x19/v1/shipments:recordBatch\x12t\n" +
+	"\rListShipments\x12 .halovet.v1.ListShipmentsRequest\x1a!.halovet.v1.ListShipmentsResponse\"\x1e\x82\xd3\xe4\x93\x02\x18\x12\x16/v1/recorded-shipments\x12|\n" +
+	"\vGetShipment\x12\x1e.halovet.v1.GetShipmentRequest\x1a\x1f.halovet.v1.GetShipmentResponse\",\x82\xd3\xe4\x93\x02&\x12$/v1/recorded-shipments/{shipment_id}\x12\x87\x01\n" +
+	"\fVoidShipment\x12\x1f.halovet.v1.VoidShipmentRequest\x1a .halovet.v1.VoidShipmentResponse\"4\x82\xd3\xe4\x93\x02.:\x01*\")/v1/recorded-shipments/{shipment_id}:void\x12\x85\x01\n" +
+	"\x0fCorrectShipment\x12\".halovet.v1.CorrectShipmentRequest\x1a#.halovet.v1.CorrectShipmentResponse\")\x82\xd3\xe4\x93\x02#:\x01*\"\x1e/v1/recorded-shipments:correct\x12u\n" +
+	"\tCloseYear\x12\x1c.halovet.v1.CloseYearRequest\x1a\x1d.halovet.v1.CloseYearResponse\"+\x82\xd3\xe4\x93\x02%:\x01*\" /v1/reporting-years/{year}:close\x12y\n" +
+	"\n" +
+	"ReopenYear\x12\x1d.halovet.v1.ReopenYearRequest\x1a\x1e.halovet.v1.ReopenYearResponse\",\x82\xd3\xe4\x93\x02&:\x01*\"!/v1/reporting-years/{year}:reopen\x12~\n" +
+	"\x0fListClosedYears\x12\".halovet.v1.ListClosedYearsRequest\x1a#.halovet.v1.ListClosedYearsResponse\"\"\x82\xd3\xe4\x93\x02\x1c\x12\x1a/v1/reporting-years/closedB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 
 var (
 	file_halovet_v1_shipment_proto_rawDescOnce sync.Once
@@ -1820,85 +3194,136 @@ func file_halovet_v1_shipment_proto_rawDescGZIP() []byte {
 	return file_halovet_v1_shipment_proto_rawDescData
 }
 
-var file_halovet_v1_shipment_proto_enumTypes = make([]protoimpl.EnumInfo, 5)
-var file_halovet_v1_shipment_proto_msgTypes = make([]protoimpl.MessageInfo, 18)
+var file_halovet_v1_shipment_proto_enumTypes = make([]protoimpl.EnumInfo, 6)
+var file_halovet_v1_shipment_proto_msgTypes = make([]protoimpl.MessageInfo, 35)
 var file_halovet_v1_shipment_proto_goTypes = []any{
 	(Direction)(0),                      // 0: halovet.v1.Direction
 	(Purpose)(0),                        // 1: halovet.v1.Purpose
 	(Condition)(0),                      // 2: halovet.v1.Condition
 	(Severity)(0),                       // 3: halovet.v1.Severity
 	(Outcome)(0),                        // 4: halovet.v1.Outcome
-	(*ShipmentRecord)(nil),              // 5: halovet.v1.ShipmentRecord
-	(*Finding)(nil),                     // 6: halovet.v1.Finding
-	(*ShipmentFigures)(nil),             // 7: halovet.v1.ShipmentFigures
-	(*Verdict)(nil),                     // 8: halovet.v1.Verdict
-	(*CheckShipmentRequest)(nil),        // 9: halovet.v1.CheckShipmentRequest
-	(*CheckShipmentResponse)(nil),       // 10: halovet.v1.CheckShipmentResponse
-	(*CheckShipmentsRequest)(nil),       // 11: halovet.v1.CheckShipmentsRequest
-	(*BatchSummary)(nil),                // 12: halovet.v1.BatchSummary
-	(*VerdictBatch)(nil),                // 13: halovet.v1.VerdictBatch
-	(*CheckShipmentsResponse)(nil),      // 14: halovet.v1.CheckShipmentsResponse
-	(*RecordShipmentsRequest)(nil),      // 15: halovet.v1.RecordShipmentsRequest
-	(*RecordShipmentsResponse)(nil),     // 16: halovet.v1.RecordShipmentsResponse
-	(*CheckShipmentBatchRequest)(nil),   // 17: halovet.v1.CheckShipmentBatchRequest
-	(*CheckShipmentBatchResponse)(nil),  // 18: halovet.v1.CheckShipmentBatchResponse
-	(*RecordShipmentBatchRequest)(nil),  // 19: halovet.v1.RecordShipmentBatchRequest
-	(*RecordShipmentBatchResponse)(nil), // 20: halovet.v1.RecordShipmentBatchResponse
-	nil,                                 // 21: halovet.v1.BatchSummary.ErrorsByCodeEntry
-	nil,                                 // 22: halovet.v1.BatchSummary.WarningsByCodeEntry
-	(*MixtureShare)(nil),                // 23: halovet.v1.MixtureShare
-	(*MeasuredShare)(nil),               // 24: halovet.v1.MeasuredShare
-	(EntryKind)(0),                      // 25: halovet.v1.EntryKind
-	(*ComponentFigures)(nil),            // 26: halovet.v1.ComponentFigures
+	(ShipmentState)(0),                  // 5: halovet.v1.ShipmentState
+	(*ShipmentRecord)(nil),              // 6: halovet.v1.ShipmentRecord
+	(*Finding)(nil),                     // 7: halovet.v1.Finding
+	(*ShipmentFigures)(nil),             // 8: halovet.v1.ShipmentFigures
+	(*Verdict)(nil),                     // 9: halovet.v1.Verdict
+	(*CheckShipmentRequest)(nil),        // 10: halovet.v1.CheckShipmentRequest
+	(*CheckShipmentResponse)(nil),       // 11: halovet.v1.CheckShipmentResponse
+	(*CheckShipmentsRequest)(nil),       // 12: halovet.v1.CheckShipmentsRequest
+	(*BatchSummary)(nil),                // 13: halovet.v1.BatchSummary
+	(*VerdictBatch)(nil),                // 14: halovet.v1.VerdictBatch
+	(*CheckShipmentsResponse)(nil),      // 15: halovet.v1.CheckShipmentsResponse
+	(*RecordShipmentsRequest)(nil),      // 16: halovet.v1.RecordShipmentsRequest
+	(*RecordShipmentsResponse)(nil),     // 17: halovet.v1.RecordShipmentsResponse
+	(*CheckShipmentBatchRequest)(nil),   // 18: halovet.v1.CheckShipmentBatchRequest
+	(*CheckShipmentBatchResponse)(nil),  // 19: halovet.v1.CheckShipmentBatchResponse
+	(*RecordShipmentBatchRequest)(nil),  // 20: halovet.v1.RecordShipmentBatchRequest
+	(*RecordShipmentBatchResponse)(nil), // 21: halovet.v1.RecordShipmentBatchResponse
+	(*QuotaDraw)(nil),                   // 22: halovet.v1.QuotaDraw
+	(*RecordedShipment)(nil),            // 23: halovet.v1.RecordedShipment
+	(*ListShipmentsRequest)(nil),        // 24: halovet.v1.ListShipmentsRequest
+	(*ListShipmentsResponse)(nil),       // 25: halovet.v1.ListShipmentsResponse
+	(*GetShipmentRequest)(nil),          // 26: halovet.v1.GetShipmentRequest
+	(*GetShipmentResponse)(nil),         // 27: halovet.v1.GetShipmentResponse
+	(*VoidShipmentRequest)(nil),         // 28: halovet.v1.VoidShipmentRequest
+	(*VoidShipmentResponse)(nil),        // 29: halovet.v1.VoidShipmentResponse
+	(*CorrectShipmentRequest)(nil),      // 30: halovet.v1.CorrectShipmentRequest
+	(*CorrectShipmentResponse)(nil),     // 31: halovet.v1.CorrectShipmentResponse
+	(*ClosedYear)(nil),                  // 32: halovet.v1.ClosedYear
+	(*CloseYearRequest)(nil),            // 33: halovet.v1.CloseYearRequest
+	(*CloseYearResponse)(nil),           // 34: halovet.v1.CloseYearResponse
+	(*ReopenYearRequest)(nil),           // 35: halovet.v1.ReopenYearRequest
+	(*ReopenYearResponse)(nil),          // 36: halovet.v1.ReopenYearResponse
+	(*ListClosedYearsRequest)(nil),      // 37: halovet.v1.ListClosedYearsRequest
+	(*ListClosedYearsResponse)(nil),     // 38: halovet.v1.ListClosedYearsResponse
+	nil,                                 // 39: halovet.v1.BatchSummary.ErrorsByCodeEntry
+	nil,                                 // 40: halovet.v1.BatchSummary.WarningsByCodeEntry
+	(*MixtureShare)(nil),                // 41: halovet.v1.MixtureShare
+	(*MeasuredShare)(nil),               // 42: halovet.v1.MeasuredShare
+	(EntryKind)(0),                      // 43: halovet.v1.EntryKind
+	(*ComponentFigures)(nil),            // 44: halovet.v1.ComponentFigures
 }
 var file_halovet_v1_shipment_proto_depIdxs = []int32{
 	0,  // 0: halovet.v1.ShipmentRecord.direction:type_name -> halovet.v1.Direction
 	1,  // 1: halovet.v1.ShipmentRecord.purpose:type_name -> halovet.v1.Purpose
 	2,  // 2: halovet.v1.ShipmentRecord.condition:type_name -> halovet.v1.Condition
-	23, // 3: halovet.v1.ShipmentRecord.declared_composition:type_name -> halovet.v1.MixtureShare
-	24, // 4: halovet.v1.ShipmentRecord.measured_composition:type_name -> halovet.v1.MeasuredShare
+	41, // 3: halovet.v1.ShipmentRecord.declared_composition:type_name -> halovet.v1.MixtureShare
+	42, // 4: halovet.v1.ShipmentRecord.measured_composition:type_name -> halovet.v1.MeasuredShare
 	3,  // 5: halovet.v1.Finding.severity:type_name -> halovet.v1.Severity
-	25, // 6: halovet.v1.ShipmentFigures.kind:type_name -> halovet.v1.EntryKind
-	26, // 7: halovet.v1.ShipmentFigures.components:type_name -> halovet.v1.ComponentFigures
+	43, // 6: halovet.v1.ShipmentFigures.kind:type_name -> halovet.v1.EntryKind
+	44, // 7: halovet.v1.ShipmentFigures.components:type_name -> halovet.v1.ComponentFigures
 	4,  // 8: halovet.v1.Verdict.outcome:type_name -> halovet.v1.Outcome
-	6,  // 9: halovet.v1.Verdict.findings:type_name -> halovet.v1.Finding
-	7,  // 10: halovet.v1.Verdict.figures:type_name -> halovet.v1.ShipmentFigures
-	5,  // 11: halovet.v1.CheckShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
-	8,  // 12: halovet.v1.CheckShipmentResponse.verdict:type_name -> halovet.v1.Verdict
-	5,  // 13: halovet.v1.CheckShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
-	5,  // 14: halovet.v1.CheckShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
-	21, // 15: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
-	22, // 16: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
-	8,  // 17: halovet.v1.VerdictBatch.verdicts:type_name -> halovet.v1.Verdict
-	8,  // 18: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
-	12, // 19: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
-	13, // 20: halovet.v1.CheckShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
-	5,  // 21: halovet.v1.RecordShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
-	5,  // 22: halovet.v1.RecordShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
-	8,  // 23: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
-	12, // 24: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
-	13, // 25: halovet.v1.RecordShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
-	5,  // 26: halovet.v1.CheckShipmentBatchRequest.records:type_name -> halovet.v1.ShipmentRecord
-	8,  // 27: halovet.v1.CheckShipmentBatchResponse.verdicts:type_name -> halovet.v1.Verdict
-	12, // 28: halovet.v1.CheckShipmentBatchResponse.summary:type_name -> halovet.v1.BatchSummary
-	5,  // 29: halovet.v1.RecordShipmentBatchRequest.records:type_name -> halovet.v1.ShipmentRecord
-	8,  // 30: halovet.v1.RecordShipmentBatchResponse.verdicts:type_name -> halovet.v1.Verdict
-	12, // 31: halovet.v1.RecordShipmentBatchResponse.summary:type_name -> halovet.v1.BatchSummary
-	9,  // 32: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
-	11, // 33: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
-	15, // 34: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
-	17, // 35: halovet.v1.ShipmentService.CheckShipmentBatch:input_type -> halovet.v1.CheckShipmentBatchRequest
-	19, // 36: halovet.v1.ShipmentService.RecordShipmentBatch:input_type -> halovet.v1.RecordShipmentBatchRequest
-	10, // 37: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
-	14, // 38: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
-	16, // 39: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
-	18, // 40: halovet.v1.ShipmentService.CheckShipmentBatch:output_type -> halovet.v1.CheckShipmentBatchResponse
-	20, // 41: halovet.v1.ShipmentService.RecordShipmentBatch:output_type -> halovet.v1.RecordShipmentBatchResponse
-	37, // [37:42] is the sub-list for method output_type
-	32, // [32:37] is the sub-list for method input_type
-	32, // [32:32] is the sub-list for extension type_name
-	32, // [32:32] is the sub-list for extension extendee
-	0,  // [0:32] is the sub-list for field type_name
+	7,  // 9: halovet.v1.Verdict.findings:type_name -> halovet.v1.Finding
+	8,  // 10: halovet.v1.Verdict.figures:type_name -> halovet.v1.ShipmentFigures
+	5,  // 11: halovet.v1.Verdict.state:type_name -> halovet.v1.ShipmentState
+	22, // 12: halovet.v1.Verdict.draws:type_name -> halovet.v1.QuotaDraw
+	6,  // 13: halovet.v1.CheckShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
+	9,  // 14: halovet.v1.CheckShipmentResponse.verdict:type_name -> halovet.v1.Verdict
+	6,  // 15: halovet.v1.CheckShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
+	6,  // 16: halovet.v1.CheckShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
+	39, // 17: halovet.v1.BatchSummary.errors_by_code:type_name -> halovet.v1.BatchSummary.ErrorsByCodeEntry
+	40, // 18: halovet.v1.BatchSummary.warnings_by_code:type_name -> halovet.v1.BatchSummary.WarningsByCodeEntry
+	9,  // 19: halovet.v1.VerdictBatch.verdicts:type_name -> halovet.v1.Verdict
+	9,  // 20: halovet.v1.CheckShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
+	13, // 21: halovet.v1.CheckShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
+	14, // 22: halovet.v1.CheckShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
+	6,  // 23: halovet.v1.RecordShipmentsRequest.record:type_name -> halovet.v1.ShipmentRecord
+	6,  // 24: halovet.v1.RecordShipmentsRequest.records:type_name -> halovet.v1.ShipmentRecord
+	9,  // 25: halovet.v1.RecordShipmentsResponse.verdict:type_name -> halovet.v1.Verdict
+	13, // 26: halovet.v1.RecordShipmentsResponse.summary:type_name -> halovet.v1.BatchSummary
+	14, // 27: halovet.v1.RecordShipmentsResponse.verdicts:type_name -> halovet.v1.VerdictBatch
+	6,  // 28: halovet.v1.CheckShipmentBatchRequest.records:type_name -> halovet.v1.ShipmentRecord
+	9,  // 29: halovet.v1.CheckShipmentBatchResponse.verdicts:type_name -> halovet.v1.Verdict
+	13, // 30: halovet.v1.CheckShipmentBatchResponse.summary:type_name -> halovet.v1.BatchSummary
+	6,  // 31: halovet.v1.RecordShipmentBatchRequest.records:type_name -> halovet.v1.ShipmentRecord
+	9,  // 32: halovet.v1.RecordShipmentBatchResponse.verdicts:type_name -> halovet.v1.Verdict
+	13, // 33: halovet.v1.RecordShipmentBatchResponse.summary:type_name -> halovet.v1.BatchSummary
+	5,  // 34: halovet.v1.RecordedShipment.state:type_name -> halovet.v1.ShipmentState
+	6,  // 35: halovet.v1.RecordedShipment.record:type_name -> halovet.v1.ShipmentRecord
+	9,  // 36: halovet.v1.RecordedShipment.verdict:type_name -> halovet.v1.Verdict
+	22, // 37: halovet.v1.RecordedShipment.draws:type_name -> halovet.v1.QuotaDraw
+	0,  // 38: halovet.v1.ListShipmentsRequest.direction:type_name -> halovet.v1.Direction
+	1,  // 39: halovet.v1.ListShipmentsRequest.purpose:type_name -> halovet.v1.Purpose
+	2,  // 40: halovet.v1.ListShipmentsRequest.condition:type_name -> halovet.v1.Condition
+	5,  // 41: halovet.v1.ListShipmentsRequest.states:type_name -> halovet.v1.ShipmentState
+	23, // 42: halovet.v1.ListShipmentsResponse.shipments:type_name -> halovet.v1.RecordedShipment
+	23, // 43: halovet.v1.GetShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
+	23, // 44: halovet.v1.GetShipmentResponse.versions:type_name -> halovet.v1.RecordedShipment
+	23, // 45: halovet.v1.VoidShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
+	6,  // 46: halovet.v1.CorrectShipmentRequest.record:type_name -> halovet.v1.ShipmentRecord
+	9,  // 47: halovet.v1.CorrectShipmentResponse.verdict:type_name -> halovet.v1.Verdict
+	23, // 48: halovet.v1.CorrectShipmentResponse.shipment:type_name -> halovet.v1.RecordedShipment
+	32, // 49: halovet.v1.CloseYearResponse.closed_year:type_name -> halovet.v1.ClosedYear
+	32, // 50: halovet.v1.ListClosedYearsResponse.closed_years:type_name -> halovet.v1.ClosedYear
+	10, // 51: halovet.v1.ShipmentService.CheckShipment:input_type -> halovet.v1.CheckShipmentRequest
+	12, // 52: halovet.v1.ShipmentService.CheckShipments:input_type -> halovet.v1.CheckShipmentsRequest
+	16, // 53: halovet.v1.ShipmentService.RecordShipments:input_type -> halovet.v1.RecordShipmentsRequest
+	18, // 54: halovet.v1.ShipmentService.CheckShipmentBatch:input_type -> halovet.v1.CheckShipmentBatchRequest
+	20, // 55: halovet.v1.ShipmentService.RecordShipmentBatch:input_type -> halovet.v1.RecordShipmentBatchRequest
+	24, // 56: halovet.v1.ShipmentService.ListShipments:input_type -> halovet.v1.ListShipmentsRequest
+	26, // 57: halovet.v1.ShipmentService.GetShipment:input_type -> halovet.v1.GetShipmentRequest
+	28, // 58: halovet.v1.ShipmentService.VoidShipment:input_type -> halovet.v1.VoidShipmentRequest
+	30, // 59: halovet.v1.ShipmentService.CorrectShipment:input_type -> halovet.v1.CorrectShipmentRequest
+	33, // 60: halovet.v1.ShipmentService.CloseYear:input_type -> halovet.v1.CloseYearRequest
+	35, // 61: halovet.v1.ShipmentService.ReopenYear:input_type -> halovet.v1.ReopenYearRequest
+	37, // 62: halovet.v1.ShipmentService.ListClosedYears:input_type -> halovet.v1.ListClosedYearsRequest
+	11, // 63: halovet.v1.ShipmentService.CheckShipment:output_type -> halovet.v1.CheckShipmentResponse
+	15, // 64: halovet.v1.ShipmentService.CheckShipments:output_type -> halovet.v1.CheckShipmentsResponse
+	17, // 65: halovet.v1.ShipmentService.RecordShipments:output_type -> halovet.v1.RecordShipmentsResponse
+	19, // 66: halovet.v1.ShipmentService.CheckShipmentBatch:output_type -> halovet.v1.CheckShipmentBatchResponse
+	21, // 67: halovet.v1.ShipmentService.RecordShipmentBatch:output_type -> halovet.v1.RecordShipmentBatchResponse
+	25, // 68: halovet.v1.ShipmentService.ListShipments:output_type -> halovet.v1.ListShipmentsResponse
+	27, // 69: halovet.v1.ShipmentService.GetShipment:output_type -> halovet.v1.GetShipmentResponse
+	29, // 70: halovet.v1.ShipmentService.VoidShipment:output_type -> halovet.v1.VoidShipmentResponse
+	31, // 71: halovet.v1.ShipmentService.CorrectShipment:output_type -> halovet.v1.CorrectShipmentResponse
+	34, // 72: halovet.v1.ShipmentService.CloseYear:output_type -> halovet.v1.CloseYearResponse
+	36, // 73: halovet.v1.ShipmentService.ReopenYear:output_type -> halovet.v1.ReopenYearResponse
+	38, // 74: halovet.v1.ShipmentService.ListClosedYears:output_type -> halovet.v1.ListClosedYearsResponse
+	63, // [63:75] is the sub-list for method output_type
+	51, // [51:63] is the sub-list for method input_type
+	51, // [51:51] is the sub-list for extension type_name
+	51, // [51:51] is the sub-list for extension extendee
+	0,  // [0:51] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_shipment_proto_init() }
@@ -1923,8 +3348,8 @@ func file_halovet_v1_shipment_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_shipment_proto_rawDesc), len(file_halovet_v1_shipment_proto_rawDesc)),
-			NumEnums:      5,
-			NumMessages:   18,
+			NumEnums:      6,
+			NumMessages:   35,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

@@ -24,6 +24,13 @@ const (
 	ShipmentService_RecordShipments_FullMethodName     = "/halovet.v1.ShipmentService/RecordShipments"
 	ShipmentService_CheckShipmentBatch_FullMethodName  = "/halovet.v1.ShipmentService/CheckShipmentBatch"
 	ShipmentService_RecordShipmentBatch_FullMethodName = "/halovet.v1.ShipmentService/RecordShipmentBatch"
+	ShipmentService_ListShipments_FullMethodName       = "/halovet.v1.ShipmentService/ListShipments"
+	ShipmentService_GetShipment_FullMethodName         = "/halovet.v1.ShipmentService/GetShipment"
+	ShipmentService_VoidShipment_FullMethodName        = "/halovet.v1.ShipmentService/VoidShipment"
+	ShipmentService_CorrectShipment_FullMethodName     = "/halovet.v1.ShipmentService/CorrectShipment"
+	ShipmentService_CloseYear_FullMethodName           = "/halovet.v1.ShipmentService/CloseYear"
+	ShipmentService_ReopenYear_FullMethodName          = "/halovet.v1.ShipmentService/ReopenYear"
+	ShipmentService_ListClosedYears_FullMethodName     = "/halovet.v1.ShipmentService/ListClosedYears"
 )
 
 // ShipmentServiceClient is the client API for ShipmentService service.
@@ -56,6 +63,26 @@ type ShipmentServiceClient interface {
 	// retried call with the same keys and content is answered as replayed and not
 	// counted twice.
 	RecordShipmentBatch(ctx context.Context, in *RecordShipmentBatchRequest, opts ...grpc.CallOption) (*RecordShipmentBatchResponse, error)
+	// ListShipments lists recorded shipments (every version: live, voided and superseded,
+	// unless states narrows it) in the order they were stored, a page at a time.
+	ListShipments(ctx context.Context, in *ListShipmentsRequest, opts ...grpc.CallOption) (*ListShipmentsResponse, error)
+	// GetShipment returns one recorded shipment with the verdict it was recorded with, its
+	// quota draws and every version of its company and key.
+	GetShipment(ctx context.Context, in *GetShipmentRequest, opts ...grpc.CallOption) (*GetShipmentResponse, error)
+	// VoidShipment voids a live recorded shipment (a reason is required): its quota draws
+	// are given back exactly, it leaves consumption, and it stays in the register as voided.
+	VoidShipment(ctx context.Context, in *VoidShipmentRequest, opts ...grpc.CallOption) (*VoidShipmentResponse, error)
+	// CorrectShipment replaces a live recorded shipment by a new version under the same
+	// company and key, checked like a new record; in one transaction the old version's
+	// draws are given back and the new one's drawn. The old version is kept as superseded.
+	CorrectShipment(ctx context.Context, in *CorrectShipmentRequest, opts ...grpc.CallOption) (*CorrectShipmentResponse, error)
+	// CloseYear closes a reporting year (a reason is required): until it is reopened,
+	// nothing declared in it is recorded, voided or corrected.
+	CloseYear(ctx context.Context, in *CloseYearRequest, opts ...grpc.CallOption) (*CloseYearResponse, error)
+	// ReopenYear reopens a closed reporting year (a reason is required).
+	ReopenYear(ctx context.Context, in *ReopenYearRequest, opts ...grpc.CallOption) (*ReopenYearResponse, error)
+	// ListClosedYears lists the closed reporting years.
+	ListClosedYears(ctx context.Context, in *ListClosedYearsRequest, opts ...grpc.CallOption) (*ListClosedYearsResponse, error)
 }
 
 type shipmentServiceClient struct {
@@ -122,6 +149,76 @@ func (c *shipmentServiceClient) RecordShipmentBatch(ctx context.Context, in *Rec
 	return out, nil
 }
 
+func (c *shipmentServiceClient) ListShipments(ctx context.Context, in *ListShipmentsRequest, opts ...grpc.CallOption) (*ListShipmentsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListShipmentsResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_ListShipments_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *shipmentServiceClient) GetShipment(ctx context.Context, in *GetShipmentRequest, opts ...grpc.CallOption) (*GetShipmentResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(GetShipmentResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_GetShipment_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *shipmentServiceClient) VoidShipment(ctx context.Context, in *VoidShipmentRequest, opts ...grpc.CallOption) (*VoidShipmentResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(VoidShipmentResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_VoidShipment_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *shipmentServiceClient) CorrectShipment(ctx context.Context, in *CorrectShipmentRequest, opts ...grpc.CallOption) (*CorrectShipmentResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(CorrectShipmentResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_CorrectShipment_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *shipmentServiceClient) CloseYear(ctx context.Context, in *CloseYearRequest, opts ...grpc.CallOption) (*CloseYearResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(CloseYearResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_CloseYear_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *shipmentServiceClient) ReopenYear(ctx context.Context, in *ReopenYearRequest, opts ...grpc.CallOption) (*ReopenYearResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ReopenYearResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_ReopenYear_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *shipmentServiceClient) ListClosedYears(ctx context.Context, in *ListClosedYearsRequest, opts ...grpc.CallOption) (*ListClosedYearsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListClosedYearsResponse)
+	err := c.cc.Invoke(ctx, ShipmentService_ListClosedYears_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 // ShipmentServiceServer is the server API for ShipmentService service.
 // All implementations must embed UnimplementedShipmentServiceServer
 // for forward compatibility.
@@ -152,6 +249,26 @@ type ShipmentServiceServer interface {
 	// retried call with the same keys and content is answered as replayed and not
 	// counted twice.
 	RecordShipmentBatch(context.Context, *RecordShipmentBatchRequest) (*RecordShipmentBatchResponse, error)
+	// ListShipments lists recorded shipments (every version: live, voided and superseded,
+	// unless states narrows it) in the order they were stored, a page at a time.
+	ListShipments(context.Context, *ListShipmentsRequest) (*ListShipmentsResponse, error)
+	// GetShipment returns one recorded shipment with the verdict it was recorded with, its
+	// quota draws and every version of its company and key.
+	GetShipment(context.Context, *GetShipmentRequest) (*GetShipmentResponse, error)
+	// VoidShipment voids a live recorded shipment (a reason is required): its quota draws
+	// are given back exactly, it leaves consumption, and it stays in the register as voided.
+	VoidShipment(context.Context, *VoidShipmentRequest) (*VoidShipmentResponse, error)
+	// CorrectShipment replaces a live recorded shipment by a new version under the same
+	// company and key, checked like a new record; in one transaction the old version's
+	// draws are given back and the new one's drawn. The old version is kept as superseded.
+	CorrectShipment(context.Context, *CorrectShipmentRequest) (*CorrectShipmentResponse, error)
+	// CloseYear closes a reporting year (a reason is required): until it is reopened,
+	// nothing declared in it is recorded, voided or corrected.
+	CloseYear(context.Context, *CloseYearRequest) (*CloseYearResponse, error)
+	// ReopenYear reopens a closed reporting year (a reason is required).
+	ReopenYear(context.Context, *ReopenYearRequest) (*ReopenYearResponse, error)
+	// ListClosedYears lists the closed reporting years.
+	ListClosedYears(context.Context, *ListClosedYearsRequest) (*ListClosedYearsResponse, error)
 	mustEmbedUnimplementedShipmentServiceServer()
 }
 
@@ -176,6 +293,27 @@ func (UnimplementedShipmentServiceServer) CheckShipmentBatch(context.Context, *C
 }
 func (UnimplementedShipmentServiceServer) RecordShipmentBatch(context.Context, *RecordShipmentBatchRequest) (*RecordShipmentBatchResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method RecordShipmentBatch not implemented")
+}
+func (UnimplementedShipmentServiceServer) ListShipments(context.Context, *ListShipmentsRequest) (*ListShipmentsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListShipments not implemented")
+}
+func (UnimplementedShipmentServiceServer) GetShipment(context.Context, *GetShipmentRequest) (*GetShipmentResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method GetShipment not implemented")
+}
+func (UnimplementedShipmentServiceServer) VoidShipment(context.Context, *VoidShipmentRequest) (*VoidShipmentResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method VoidShipment not implemented")
+}
+func (UnimplementedShipmentServiceServer) CorrectShipment(context.Context, *CorrectShipmentRequest) (*CorrectShipmentResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method CorrectShipment not implemented")
+}
+func (UnimplementedShipmentServiceServer) CloseYear(context.Context, *CloseYearRequest) (*CloseYearResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method CloseYear not implemented")
+}
+func (UnimplementedShipmentServiceServer) ReopenYear(context.Context, *ReopenYearRequest) (*ReopenYearResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ReopenYear not implemented")
+}
+func (UnimplementedShipmentServiceServer) ListClosedYears(context.Context, *ListClosedYearsRequest) (*ListClosedYearsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListClosedYears not implemented")
 }
 func (UnimplementedShipmentServiceServer) mustEmbedUnimplementedShipmentServiceServer() {}
 func (UnimplementedShipmentServiceServer) testEmbeddedByValue()                         {}
@@ -266,6 +404,132 @@ func _ShipmentService_RecordShipmentBatch_Handler(srv interface{}, ctx context.C
 	return interceptor(ctx, in, info, handler)
 }
 
+func _ShipmentService_ListShipments_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListShipmentsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).ListShipments(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_ListShipments_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).ListShipments(ctx, req.(*ListShipmentsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ShipmentService_GetShipment_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(GetShipmentRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).GetShipment(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_GetShipment_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).GetShipment(ctx, req.(*GetShipmentRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ShipmentService_VoidShipment_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(VoidShipmentRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).VoidShipment(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_VoidShipment_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).VoidShipment(ctx, req.(*VoidShipmentRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ShipmentService_CorrectShipment_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(CorrectShipmentRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).CorrectShipment(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_CorrectShipment_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).CorrectShipment(ctx, req.(*CorrectShipmentRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ShipmentService_CloseYear_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(CloseYearRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).CloseYear(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_CloseYear_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).CloseYear(ctx, req.(*CloseYearRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ShipmentService_ReopenYear_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ReopenYearRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).ReopenYear(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_ReopenYear_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).ReopenYear(ctx, req.(*ReopenYearRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ShipmentService_ListClosedYears_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListClosedYearsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ShipmentServiceServer).ListClosedYears(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ShipmentService_ListClosedYears_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ShipmentServiceServer).ListClosedYears(ctx, req.(*ListClosedYearsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 // ShipmentService_ServiceDesc is the grpc.ServiceDesc for ShipmentService service.
 // It's only intended for direct use with grpc.RegisterService,
 // and not to be introspected or modified (even as a copy)
@@ -284,6 +548,34 @@ var ShipmentService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "RecordShipmentBatch",
 			Handler:    _ShipmentService_RecordShipmentBatch_Handler,
+		},
+		{
+			MethodName: "ListShipments",
+			Handler:    _ShipmentService_ListShipments_Handler,
+		},
+		{
+			MethodName: "GetShipment",
+			Handler:    _ShipmentService_GetShipment_Handler,
+		},
+		{
+			MethodName: "VoidShipment",
+			Handler:    _ShipmentService_VoidShipment_Handler,
+		},
+		{
+			MethodName: "CorrectShipment",
+			Handler:    _ShipmentService_CorrectShipment_Handler,
+		},
+		{
+			MethodName: "CloseYear",
+			Handler:    _ShipmentService_CloseYear_Handler,
+		},
+		{
+			MethodName: "ReopenYear",
+			Handler:    _ShipmentService_ReopenYear_Handler,
+		},
+		{
+			MethodName: "ListClosedYears",
+			Handler:    _ShipmentService_ListClosedYears_Handler,
 		},
 	},
 	Streams: []grpc.StreamDesc{
