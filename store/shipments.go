@@ -10,6 +10,8 @@ import (
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgtype"
+
+	"github.com/halovet/halovet/callctx"
 )
 
 // Nano is an amount in billionths of its unit (tonnes, ODP tonnes or CO2-eq tonnes):
@@ -277,7 +279,7 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 
 	if _, err := tx.CopyFrom(ctx, pgx.Identifier{"shipments"}, shipmentColumns,
 		pgx.CopyFromSlice(len(accept), func(j int) ([]any, error) {
-			return shipmentValues(ids[j], &rows[accept[j]]), nil
+			return shipmentValues(ctx, ids[j], &rows[accept[j]]), nil
 		})); err != nil {
 		return nil, fmt.Errorf("storing shipments: %w", err)
 	}
@@ -310,6 +312,15 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 			return nil, fmt.Errorf("drawing quota: %w", err)
 		}
 	}
+	// One audit event for the batch: the shipments it stored, by id, company and key.
+	done := make([]map[string]any, len(accept))
+	for j, i := range accept {
+		done[j] = map[string]any{"shipment_id": ids[j], "company_id": rows[i].CompanyID, "record_key": rows[i].RecordKey}
+	}
+	if err := audit(ctx, tx, "record", "shipments", fmt.Sprintf("%d-%d", ids[0], ids[len(ids)-1]), "",
+		map[string]any{"stored": done}); err != nil {
+		return nil, fmt.Errorf("auditing the recorded shipments: %w", err)
+	}
 	return results, nil
 }
 
@@ -338,13 +349,13 @@ func checkDraws(r ShipmentRow, status map[string]string, remaining map[lineKey]N
 var shipmentColumns = []string{"shipment_id", "company_id", "record_key", "fingerprint", "direction",
 	"licence_number", "partner_country", "declaration_date", "year", "resolved_designation", "entry_kind",
 	"purpose", "condition", "net_mass_kg", "odp_tonnes", "co2e_tonnes", "counts_in_consumption",
-	"partner_non_party", "record"}
+	"partner_non_party", "record", "recorded_by", "recorded_credential"}
 
-func shipmentValues(id int64, r *ShipmentRow) []any {
+func shipmentValues(ctx context.Context, id int64, r *ShipmentRow) []any {
 	return []any{id, r.CompanyID, r.RecordKey, r.Fingerprint, r.Direction, r.LicenceNumber, r.PartnerCountry,
 		r.DeclarationDate, r.DeclarationDate.Year(), r.ResolvedDesignation, r.EntryKind, r.Purpose, r.Condition,
 		r.NetMassKg.numeric(), r.ODPTonnes.numeric(), r.CO2eTonnes.numeric(), r.CountsInConsumption,
-		r.PartnerNonParty, string(r.RecordJSON)}
+		r.PartnerNonParty, string(r.RecordJSON), callctx.Actor(ctx), callctx.CredentialID(ctx)}
 }
 
 // StoredFingerprints returns the fingerprints of the (company, key) pairs already stored.
