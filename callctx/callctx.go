@@ -33,6 +33,9 @@ type Call struct {
 	Method    string
 	Caller    Caller
 	Logger    *slog.Logger
+	// AuthErr is the transport's refusal of a credential the caller presented (the call
+	// is then refused before any handler runs); nil when none was refused.
+	AuthErr error
 }
 
 type key struct{}
