@@ -50,6 +50,10 @@ type Options struct {
 	Limits Limits
 }
 
+// OpenAccessHealthName is the health service name listed (SERVING) by a server running
+// with open access, so that Health/List shows that authentication is off.
+const OpenAccessHealthName = "halovet.warning.open-access"
+
 // Server is halovet's gRPC server.
 type Server struct {
 	opts     Options
@@ -120,6 +124,12 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	halovetv1.RegisterAccessServiceServer(s.grpc, &accessServer{srv: s})
 	s.m.rpc.InitializeMetrics(s.grpc)
 	s.setHealth(healthpb.HealthCheckResponse_NOT_SERVING)
+	if opts.OpenAccess {
+		// A warning anyone can read in grpc.health.v1.Health/List: this server has no
+		// authentication.
+		s.health.SetServingStatus(OpenAccessHealthName, healthpb.HealthCheckResponse_SERVING)
+		s.log.Warn("open access: authentication is off, every call acts as the officer \"open-access\"")
+	}
 	s.health.SetServingStatus(LivenessService, healthpb.HealthCheckResponse_SERVING)
 	return s
 }

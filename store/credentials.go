@@ -184,3 +184,45 @@ func credentialRow(r pgx.Row) (StoredCredential, error) {
 	}
 	return c, nil
 }
+
+// EnsureCredential stores a credential whose secret was made elsewhere (serve
+// --bootstrap-credential-file) unless it is there already: created says whether it was
+// stored now (with one audit event). A credential of that id with another hash is an
+// error; one that was revoked stays revoked (StoredCredential.RevokedAt says so).
+func (s *Store) EnsureCredential(ctx context.Context, id string, hash []byte, c NewCredential) (_ StoredCredential, created bool, err error) {
+	defer classifyInto(&err)
+	if err := access.ValidCredentialID(id); err != nil {
+		return StoredCredential{}, false, fmt.Errorf("%w: %v", ErrCredentialInput, err)
+	}
+	var company any
+	if c.CompanyID != "" {
+		company = c.CompanyID
+	}
+	var out StoredCredential
+	// Read committed: the insert's conflict decides; the row is read back after it.
+	err = s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
+		tag, err := tx.Exec(ctx, `INSERT INTO credentials (credential_id, name, role, company_id, secret_sha256, created_by)
+		    VALUES ($1, $2, $3, $4, $5, $6) ON CONFLICT (credential_id) DO NOTHING`,
+			id, c.Name, string(c.Role), company, hash, callctx.Actor(ctx))
+		if err != nil {
+			return err
+		}
+		var stored []byte
+		if err := tx.QueryRow(ctx, `SELECT secret_sha256 FROM credentials WHERE credential_id = $1`, id).Scan(&stored); err != nil {
+			return err
+		}
+		if string(stored) != string(hash) {
+			return fmt.Errorf("%w: credential %s exists with another secret", ErrCredentialInput, id)
+		}
+		if out, err = credentialRow(tx.QueryRow(ctx, credentialSelect+` WHERE credential_id = $1`, id)); err != nil {
+			return err
+		}
+		created = tag.RowsAffected() == 1
+		if !created {
+			return nil
+		}
+		return audit(ctx, tx, "issue", "credential", id, "bootstrap credential file",
+			map[string]any{"name": c.Name, "role": c.Role, "company_id": c.CompanyID})
+	})
+	return out, created, err
+}
