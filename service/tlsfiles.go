@@ -223,4 +223,3 @@ func (t *TLSFiles) Config() *tls.Config {
 	}
 	return cfg
 }
-
