@@ -33,6 +33,20 @@ type NewCredential struct {
 	ExpiresAt time.Time // zero: never
 }
 
+// check refuses a credential's name, role and company as the table would.
+func (c NewCredential) check() error {
+	if c.Name == "" || len(c.Name) > 200 {
+		return fmt.Errorf("%w: name must be 1 to 200 characters", ErrCredentialInput)
+	}
+	if _, err := access.ParseRole(string(c.Role)); err != nil {
+		return fmt.Errorf("%w: %v", ErrCredentialInput, err)
+	}
+	if (c.Role == access.RoleTrader) != (c.CompanyID != "") {
+		return fmt.Errorf("%w: a trader credential needs a company, and only a trader's may have one", ErrCredentialInput)
+	}
+	return nil
+}
+
 // ErrCredentialInput is wrapped by IssueCredential's refusals of its input.
 var ErrCredentialInput = errors.New("credential refused")
 
@@ -40,14 +54,8 @@ var ErrCredentialInput = errors.New("credential refused")
 // audit event, and returns the credential with the secret (shown once, stored nowhere).
 func (s *Store) IssueCredential(ctx context.Context, c NewCredential) (_ StoredCredential, secret string, err error) {
 	defer classifyInto(&err)
-	if c.Name == "" || len(c.Name) > 200 {
-		return StoredCredential{}, "", fmt.Errorf("%w: name must be 1 to 200 characters", ErrCredentialInput)
-	}
-	if _, err := access.ParseRole(string(c.Role)); err != nil {
-		return StoredCredential{}, "", fmt.Errorf("%w: %v", ErrCredentialInput, err)
-	}
-	if (c.Role == access.RoleTrader) != (c.CompanyID != "") {
-		return StoredCredential{}, "", fmt.Errorf("%w: a trader credential needs a company, and only a trader's may have one", ErrCredentialInput)
+	if err := c.check(); err != nil {
+		return StoredCredential{}, "", err
 	}
 	iss, err := access.IssueSecret()
 	if err != nil {
@@ -193,6 +201,9 @@ func (s *Store) EnsureCredential(ctx context.Context, id string, hash []byte, c 
 	defer classifyInto(&err)
 	if err := access.ValidCredentialID(id); err != nil {
 		return StoredCredential{}, false, fmt.Errorf("%w: %v", ErrCredentialInput, err)
+	}
+	if err := c.check(); err != nil {
+		return StoredCredential{}, false, err
 	}
 	var company any
 	if c.CompanyID != "" {

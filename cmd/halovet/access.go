@@ -56,6 +56,7 @@ func defineCredIssue(fs *pflag.FlagSet) runFunc {
 	company := fs.String("company", "", "the company a trader's credential is bound to (traders only)")
 	expires := fs.String("expires", "", "last day the credential is accepted, YYYY-MM-DD (UTC, to the end of the day) or an RFC 3339 time; empty: no expiry")
 	secretFile := fs.String("secret-file", "", "write the secret to this new file (mode 0600) instead of standard output")
+	secretFrom := fs.String("secret-from-file", "", "with --database-url: store the secret in this file (from 'halovet credentials new-secret') instead of making one, and print nothing of it; running again with the same file changes nothing (a Kubernetes bootstrap Job)")
 	output := fs.String("output", "text", "what is printed to standard error about the credential: text or json")
 	return func(ctx context.Context, args []string) error {
 		if len(args) > 0 {
@@ -80,6 +81,22 @@ func defineCredIssue(fs *pflag.FlagSet) runFunc {
 			return usageErr("--output %q: use text or json", *output)
 		}
 		var resp *halovetv1.IssueCredentialResponse
+		if *secretFrom != "" {
+			if *dbURL == "" || *secretFile != "" {
+				return usageErr("--secret-from-file goes with --database-url, and not with --secret-file")
+			}
+			c, created, err := importDirect(ctx, *dbURL, *secretFrom, req)
+			if err != nil {
+				return err
+			}
+			what := "stored"
+			if !created {
+				what = "already stored"
+			}
+			fmt.Fprintf(os.Stderr, "credential %s %s for %s (role %s%s)%s\n", c.GetCredentialId(), what, c.GetName(), c.GetRole(),
+				ifSet(", company ", c.GetCompanyId()), ifSet(", revoked ", tsText(c.GetRevokedAt())))
+			return nil
+		}
 		if *dbURL != "" {
 			resp, err = issueDirect(ctx, *dbURL, req)
 		} else {
@@ -194,6 +211,36 @@ func issueDirect(ctx context.Context, url string, req *halovetv1.IssueCredential
 		return nil, err
 	}
 	return &halovetv1.IssueCredentialResponse{Credential: storedToProto(c), Secret: secret}, nil
+}
+
+// importDirect stores a secret made elsewhere (credentials new-secret) as a credential.
+func importDirect(ctx context.Context, url, file string, req *halovetv1.IssueCredentialRequest) (*halovetv1.Credential, bool, error) {
+	b, err := os.ReadFile(file)
+	if err != nil {
+		return nil, false, usageErr("--secret-from-file: %v", err)
+	}
+	secret := strings.TrimSpace(string(b))
+	id, err := access.ParseSecret(secret)
+	if err != nil {
+		return nil, false, usageErr("--secret-from-file %s: %v", file, err)
+	}
+	if req.ExpiresAt != nil {
+		return nil, false, usageErr("--expires does not go with --secret-from-file; revoke the bootstrap credential once officers have their own")
+	}
+	st, err := openDirect(ctx, url)
+	if err != nil {
+		return nil, false, err
+	}
+	defer st.Close()
+	c, created, err := st.EnsureCredential(ctx, id, access.HashSecret(secret),
+		store.NewCredential{Name: req.GetName(), Role: access.Role(req.GetRole()), CompanyID: req.GetCompanyId()})
+	if errors.Is(err, store.ErrCredentialInput) {
+		return nil, false, usageErr("%v", err)
+	}
+	if err != nil {
+		return nil, false, err
+	}
+	return storedToProto(c), created, nil
 }
 
 func storedToProto(c store.StoredCredential) *halovetv1.Credential {
