@@ -18,7 +18,7 @@ import (
 
 // Integration tests of what ConsumptionService refuses: national entries it cannot use
 // (and that a refused call stores nothing), reports without a reporting Party, and
-// writes without the admin token. Entries and Parties are invented (consumption_test.go).
+// writes without an officer's credential. Entries and Parties are invented (consumption_test.go).
 
 func TestNationalEntriesValidation(t *testing.T) {
 	conn, _ := startTestServer(t)

@@ -47,7 +47,7 @@ func startTestServer(t *testing.T) (conn *grpc.ClientConn, st *store.Store) {
 
 // startServerWith is startTestServer with the server's options (a Logger left nil is
 // quietLogger, a GracePeriod left 0 is 5 s) and the catalogue holder as well, for tests
-// and benchmarks that need an admin token or the catalogue itself.
+// and benchmarks that need other options or the catalogue itself.
 func startServerWith(tb testing.TB, opts service.Options) (*grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
 	tb.Helper()
 	return startServerOn(tb, pgtest.NewDatabase(tb, "halovet_service", migrateServiceDB), opts)
