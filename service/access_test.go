@@ -4,6 +4,8 @@ import (
 	"context"
 	"errors"
 	"io"
+	"net/http"
+	"net/http/httptest"
 	"strings"
 	"testing"
 	"time"
@@ -253,6 +255,13 @@ func TestTraderReachesItsOwnCompanyOnly(t *testing.T) {
 	_, err := ship.CheckShipment(ctx, &halovetv1.CheckShipmentRequest{Record: other})
 	refused("CheckShipment", err, "record.company_id")
 
+	// Its own company's record citing the other company's licence: refused too (the
+	// verdict would show that licence's balance).
+	borrowed := shipRecord("own-borrowed")
+	borrowed.LicenceNumber = shipSuspended
+	_, err = ship.CheckShipment(ctx, &halovetv1.CheckShipmentRequest{Record: borrowed})
+	refused("CheckShipment citing its licence", err, "record.licence_number")
+
 	// CheckShipments: one own record and one of the other company in one message.
 	cs, err := ship.CheckShipments(ctx)
 	if err != nil {
@@ -412,4 +421,43 @@ func metadataCtx(ctx context.Context, authorization string) context.Context {
 
 func storeCredential(name string, expires time.Time) store.NewCredential {
 	return store.NewCredential{Name: name, Role: access.RoleOfficer, ExpiresAt: expires}
+}
+
+// TestHTTPAPIAppliesThePolicy: the HTTP/JSON paths go through the same access check: no
+// credential is 401, a reader on the trail is 403, an auditor reads it, and a bad secret
+// is 401 with the reason.
+func TestHTTPAPIAppliesThePolicy(t *testing.T) {
+	srv, _, st, _ := runSecuredServer(t, pgtest.NewDatabase(t, "halovet_service", migrateServiceDB), service.Options{})
+	h, err := srv.HTTPHandler()
+	if err != nil {
+		t.Fatal(err)
+	}
+	web := httptest.NewServer(h)
+	t.Cleanup(web.Close)
+	auditor := issueTestCredential(t, st, "auditor.invented", access.RoleAuditor, "")
+	reader := issueTestCredential(t, st, "reader.invented", access.RoleReader, "")
+	for _, tc := range []struct {
+		name, auth string
+		want       int
+		body       string
+	}{
+		{"no credential", "", http.StatusUnauthorized, "needs a credential"},
+		{"reader", "Bearer " + reader, http.StatusForbidden, "role reader"},
+		{"auditor", "Bearer " + auditor, http.StatusOK, "events"},
+		{"bad secret", "Bearer " + auditor[:len(auditor)-3], http.StatusUnauthorized, "malformed"},
+	} {
+		req, _ := http.NewRequest(http.MethodGet, web.URL+"/v1/audit-events", nil)
+		if tc.auth != "" {
+			req.Header.Set("Authorization", tc.auth)
+		}
+		resp, err := web.Client().Do(req)
+		if err != nil {
+			t.Fatal(err)
+		}
+		body, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if resp.StatusCode != tc.want || !strings.Contains(string(body), tc.body) {
+			t.Errorf("%s: HTTP %d %s; want %d with %q", tc.name, resp.StatusCode, body, tc.want, tc.body)
+		}
+	}
 }
