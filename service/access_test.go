@@ -188,6 +188,7 @@ func TestBadCredentialsAreUnauthenticated(t *testing.T) {
 	cases := []struct{ name, header, reason string }{
 		{"not bearer", "Basic abc", "Bearer"},
 		{"malformed", "Bearer hello", "malformed"},
+		{"a JWT, no issuer configured", "Bearer eyJhbGciOiJSUzI1NiJ9.e30.c2ln", "OpenID Connect"},
 		{"truncated", "Bearer " + good[:len(good)-5], "malformed"},
 		{"wrong secret", "Bearer " + wrong, "secret is wrong"},
 		{"unknown id", "Bearer " + unknown, "not known"},

@@ -84,7 +84,7 @@ func validRequestID(id string) bool {
 
 // identify establishes who is behind a call, from what the transport proves and never
 // from anything else the caller sends: a halovet credential in "authorization: Bearer
-// <secret>", else a client certificate verified against --tls-client-ca and mapped to an
+// <secret>" (or an OpenID Connect token of the configured issuer), else a client certificate verified against --tls-client-ca and mapped to an
 // identity, else (a server run with open access) the open-access officer, else nobody.
 // A credential or certificate presented and refused is an error with the reason:
 // the call is refused Unauthenticated before any handler runs.
@@ -98,7 +98,18 @@ func (s *Server) identify(ctx context.Context) (callctx.Caller, error) {
 		if !ok {
 			return callctx.Caller{}, status.Error(codes.Unauthenticated, "the authorization header must be 'Bearer <credential secret>'")
 		}
-		id, err := s.auth.Authenticate(ctx, strings.TrimSpace(secret))
+		secret = strings.TrimSpace(secret)
+		if access.LooksLikeToken(secret) {
+			if s.opts.TokenVerifier == nil {
+				return callctx.Caller{}, status.Error(codes.Unauthenticated, "the bearer value is a JWT, and this server takes no OpenID Connect tokens (serve --oidc-issuer); send a halovet credential secret")
+			}
+			id, err := s.opts.TokenVerifier.Verify(ctx, secret)
+			if err != nil {
+				return callctx.Caller{}, status.Error(codes.Unauthenticated, err.Error())
+			}
+			return callerOf(id), nil
+		}
+		id, err := s.auth.Authenticate(ctx, secret)
 		if errors.Is(err, access.ErrUnauthenticated) {
 			return callctx.Caller{}, status.Error(codes.Unauthenticated, err.Error())
 		}

@@ -35,6 +35,8 @@ type Options struct {
 	// Authenticator checks presented credential secrets; nil means one over the store
 	// with access.AuthOptions' defaults (a revocation is seen within 1 s).
 	Authenticator *access.Authenticator
+	// TokenVerifier, when not nil, accepts OpenID Connect bearer tokens of its issuer.
+	TokenVerifier *access.TokenVerifier
 	// ClientCAs, when not nil, returns the CAs client certificates are verified against
 	// (called per call, so that a reloaded file takes effect); a verified certificate's
 	// subject is looked up in CertIdentities.

@@ -36,8 +36,9 @@ calls in flight get --grace-period to finish.
 
 Access: every call but health and reflection needs an identity: a credential halovet
 issued ('halovet credentials issue'; the first officer's straight against the database
-with --database-url, or --bootstrap-credential-file), or with --tls-client-ca a client
-certificate whose subject --tls-client-map maps to a role. --open-access turns that off
+with --database-url, or --bootstrap-credential-file), with --tls-client-ca a client
+certificate whose subject --tls-client-map maps to a role, or with --oidc-issuer an
+OpenID Connect bearer token whose claims name the role (and a trader's company). --open-access turns that off
 (every call acts as the officer "open-access"): loopback addresses only, unless
 --open-access-on-network is given too; the server then warns at start and lists
 ` + "`" + service.OpenAccessHealthName + "`" + ` in its health.`
@@ -57,6 +58,11 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 	bootstrapFile := fs.String("bootstrap-credential-file", envOr("HALOVET_BOOTSTRAP_CREDENTIAL_FILE", ""), "file holding an officer credential secret ('halovet credentials new-secret' makes one) stored at start as the officer \"bootstrap-officer\" unless already there; an empty or unreadable file stops the server (env HALOVET_BOOTSTRAP_CREDENTIAL_FILE)")
 	clientCA := fs.String("tls-client-ca", envOr("HALOVET_TLS_CLIENT_CA", ""), "PEM file of the CAs whose client certificates identify callers (mutual TLS, with --tls-cert and --tls-client-map); reloaded when it changes (env HALOVET_TLS_CLIENT_CA)")
 	clientMap := fs.String("tls-client-map", envOr("HALOVET_TLS_CLIENT_MAP", ""), "JSON file mapping client certificate subjects to identities: [{\"subject\": \"CN=gw,O=Customs\", \"name\": \"customs-gateway\", \"role\": \"customs\", \"company_id\": \"\"}]; reloaded when it changes (env HALOVET_TLS_CLIENT_MAP)")
+	oidcIssuer := fs.String("oidc-issuer", envOr("HALOVET_OIDC_ISSUER", ""), "accept OpenID Connect bearer tokens of this issuer URL (with --oidc-audience); its keys by discovery unless --oidc-jwks-url (env HALOVET_OIDC_ISSUER)")
+	oidcAudience := fs.String("oidc-audience", envOr("HALOVET_OIDC_AUDIENCE", ""), "the audience (aud) tokens must carry: halovet's client id at the issuer (env HALOVET_OIDC_AUDIENCE)")
+	oidcJWKS := fs.String("oidc-jwks-url", envOr("HALOVET_OIDC_JWKS_URL", ""), "the issuer's key set URL, instead of discovery (env HALOVET_OIDC_JWKS_URL)")
+	oidcRole := fs.String("oidc-role-claim", envOr("HALOVET_OIDC_ROLE_CLAIM", "halovet_role"), "claim holding the halovet role (env HALOVET_OIDC_ROLE_CLAIM)")
+	oidcCompany := fs.String("oidc-company-claim", envOr("HALOVET_OIDC_COMPANY_CLAIM", "halovet_company"), "claim holding a trader's company (env HALOVET_OIDC_COMPANY_CLAIM)")
 	openAccess := fs.Bool("open-access", envBool("HALOVET_OPEN_ACCESS"), "no authentication: every call acts as the officer \"open-access\"; loopback addresses only (env HALOVET_OPEN_ACCESS)")
 	openOnNetwork := fs.Bool("open-access-on-network", envBool("HALOVET_OPEN_ACCESS_ON_NETWORK"), "allow --open-access on a non-loopback address: anyone who reaches the port may change the register (env HALOVET_OPEN_ACCESS_ON_NETWORK)")
 	limits := serveLimitFlags(fs)
@@ -84,8 +90,11 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 				return usageErr("--bootstrap-credential-file %s: %v", *bootstrapFile, err)
 			}
 		}
-		if *openAccess && (bootstrap != "" || *clientCA != "") {
-			return usageErr("--open-access turns authentication off; it cannot go with --bootstrap-credential-file or --tls-client-ca")
+		if *openAccess && (bootstrap != "" || *clientCA != "" || *oidcIssuer != "") {
+			return usageErr("--open-access turns authentication off; it cannot go with --bootstrap-credential-file, --tls-client-ca or --oidc-issuer")
+		}
+		if (*oidcIssuer == "") != (*oidcAudience == "") {
+			return usageErr("--oidc-issuer and --oidc-audience go together")
 		}
 		if *openAccess && !*openOnNetwork {
 			for _, a := range []struct{ flag, addr string }{{"--listen", *listen}, {"--http-listen", *httpListen}} {
@@ -155,13 +164,21 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 			}
 		}
 		opts := service.Options{GracePeriod: *grace, Logger: log, OpenAccess: *openAccess, ServerOptions: serverOpts, Limits: limits()}
+		if *oidcIssuer != "" {
+			v, err := access.NewTokenVerifier(ctx, access.TokenOptions{Issuer: *oidcIssuer, Audience: *oidcAudience,
+				JWKSURL: *oidcJWKS, RoleClaim: *oidcRole, CompanyClaim: *oidcCompany})
+			if err != nil {
+				return fmt.Errorf("--oidc-issuer: %w", err)
+			}
+			opts.TokenVerifier = v
+		}
 		if tlsFiles != nil && *clientCA != "" {
 			opts.ClientCAs, opts.CertIdentities = tlsFiles.ClientCAs, tlsFiles.CertIdentities
 		}
 		if *openAccess {
 			log.Warn("serving with --open-access: no authentication, every call acts as the officer \"open-access\"")
 		} else {
-			if n, err := db.Store.CountActiveCredentials(ctx); err == nil && n == 0 && *clientCA == "" {
+			if n, err := db.Store.CountActiveCredentials(ctx); err == nil && n == 0 && *clientCA == "" && *oidcIssuer == "" {
 				log.Warn("no active credential: only health and reflection answer; issue the first officer's with 'halovet credentials issue --database-url URL --role officer --name NAME'")
 			}
 			if tlsFiles == nil && !loopbackListen(*listen) {
