@@ -16,8 +16,9 @@ import (
 // The actor of an entry is callctx.Actor(ctx), the name of the identity the server
 // established (never anything the caller sent), with the credential id and the request id
 // beside it in columns of their own; "local" for a write made in the process (a CLI verb
-// on the database, a test). The database chains every entry to the one before (see
-// the access migration, store/migrations/*_access.sql, and VerifyAuditChain) and refuses UPDATE, DELETE and TRUNCATE.
+// on the database, a test). The database chains every entry to the one before (see the
+// access migration, store/migrations/*_access.sql, and VerifyAuditChain) and refuses
+// UPDATE, DELETE and TRUNCATE.
 
 // audit appends one entry to the audit log inside tx, with detail written as JSON.
 func audit(ctx context.Context, tx pgx.Tx, action, entity, key, reason string, detail any) error {
