@@ -14,6 +14,7 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/credentials/insecure"
+	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 	"google.golang.org/protobuf/reflect/protoreflect"
@@ -459,6 +460,24 @@ func TestHTTPAPIAppliesThePolicy(t *testing.T) {
 		resp.Body.Close()
 		if resp.StatusCode != tc.want || !strings.Contains(string(body), tc.body) {
 			t.Errorf("%s: HTTP %d %s; want %d with %q", tc.name, resp.StatusCode, body, tc.want, tc.body)
+		}
+	}
+}
+
+// TestOpenAccessIsListedInHealth: a server with open access lists the warning in
+// Health/List, one with authentication does not.
+func TestOpenAccessIsListedInHealth(t *testing.T) {
+	url := pgtest.NewDatabase(t, "halovet_service", migrateServiceDB)
+	_, open, _, _ := runTestServer(t, url, service.Options{})
+	_, secured, _, _ := runSecuredServer(t, url, service.Options{})
+	for name, c := range map[string]*grpc.ClientConn{"open": open, "secured": secured} {
+		resp, err := healthpb.NewHealthClient(c).List(context.Background(), &healthpb.HealthListRequest{})
+		if err != nil {
+			t.Fatalf("%s: Health/List: %v", name, err)
+		}
+		_, listed := resp.GetStatuses()[service.OpenAccessHealthName]
+		if listed != (name == "open") {
+			t.Errorf("%s server: %s listed %v", name, service.OpenAccessHealthName, listed)
 		}
 	}
 }
