@@ -19,6 +19,7 @@ import (
 	"google.golang.org/grpc/status"
 	"google.golang.org/protobuf/reflect/protoreflect"
 	"google.golang.org/protobuf/reflect/protoregistry"
+	"google.golang.org/protobuf/types/known/timestamppb"
 
 	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/pglocal/pgtest"
@@ -400,6 +401,16 @@ func TestAuditTrailOverTheAPI(t *testing.T) {
 	}
 	if page, err := ac.ListAuditEvents(ctx, &halovetv1.ListAuditEventsRequest{Actor: "someone.else"}); err != nil || len(page.GetEvents()) != 0 {
 		t.Fatalf("another actor's events: %v %v; want none", page, err)
+	}
+	hourAgo, inAnHour := timestamppb.New(time.Now().Add(-time.Hour)), timestamppb.New(time.Now().Add(time.Hour))
+	if page, err := ac.ListAuditEvents(ctx, &halovetv1.ListAuditEventsRequest{ToTime: hourAgo}); err != nil || len(page.GetEvents()) != 0 {
+		t.Fatalf("events before an hour ago: %v %v; want none", page, err)
+	}
+	if page, err := ac.ListAuditEvents(ctx, &halovetv1.ListAuditEventsRequest{FromTime: hourAgo, ToTime: inAnHour}); err != nil || len(page.GetEvents()) != 4 {
+		t.Fatalf("events of the last hour: %v %v; want 4", page, err)
+	}
+	if _, err := ac.ListAuditEvents(ctx, &halovetv1.ListAuditEventsRequest{PageToken: "x"}); status.Code(err) != codes.InvalidArgument || fieldOf(err) != "page_token" {
+		t.Fatalf("a made-up page token: %v; want InvalidArgument on page_token", err)
 	}
 	v, err := ac.VerifyAuditChain(ctx, &halovetv1.VerifyAuditChainRequest{})
 	if err != nil || !v.GetIntact() || v.GetEvents() != 4 { // the credential's issue + 3 companies

@@ -236,7 +236,7 @@ func demoAudit(ctx context.Context, conn *grpc.ClientConn, out io.Writer) error 
 	}
 	fmt.Fprintf(out, "  %d events:\n", len(events))
 	for _, k := range keys {
-		fmt.Fprintf(out, "    %-30s %-8s %-15s %d\n", k.actor, k.action, k.object, counts[k])
+		fmt.Fprintf(out, "    %-30s %-17s %-15s %d\n", k.actor, k.action, k.object, counts[k])
 	}
 	fmt.Fprintln(out, "  the last three:")
 	var w bytes.Buffer

@@ -3,8 +3,8 @@
 --
 -- credentials: the secrets halovet issues, stored only as the SHA-256 of the secret; a
 -- trader's credential is bound to one company. Revoking sets revoked_at (rows are never
--- deleted, so the audit trail's credential ids stay resolvable). A change is announced on
--- halovet_access ('credential:' || id) for the replicas' caches.
+-- deleted, so the audit trail's credential ids stay resolvable). Servers read a credential
+-- again at most 1 s after their last read, so a revocation needs no announcement.
 --
 -- audit_log gains the credential id and request id of the call apart from the actor's
 -- name, and a hash chain: chain_seq numbers the events in the order they were chained,
@@ -31,17 +31,6 @@ CREATE TABLE credentials (
     revoked_by     text NOT NULL DEFAULT '',
     CHECK ((role = 'trader') = (company_id IS NOT NULL))
 );
-
--- +goose StatementBegin
-CREATE FUNCTION credentials_announce() RETURNS trigger LANGUAGE plpgsql AS $$
-BEGIN
-    PERFORM pg_notify('halovet_access', 'credential:' || NEW.credential_id);
-    RETURN NULL;
-END;
-$$;
--- +goose StatementEnd
-CREATE TRIGGER credentials_announce AFTER INSERT OR UPDATE ON credentials
-    FOR EACH ROW EXECUTE FUNCTION credentials_announce();
 
 CREATE TRIGGER credentials_no_delete BEFORE DELETE ON credentials
     FOR EACH ROW EXECUTE FUNCTION audit_log_append_only();
@@ -150,4 +139,3 @@ ALTER TABLE audit_log DROP COLUMN hash, DROP COLUMN prev_hash, DROP COLUMN chain
     DROP COLUMN request_id, DROP COLUMN credential_id;
 ALTER TABLE shipments DROP COLUMN recorded_credential, DROP COLUMN recorded_by;
 DROP TABLE credentials;
-DROP FUNCTION credentials_announce();
