@@ -10,6 +10,7 @@ import (
 
 	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/pglocal/pgtest"
+	"github.com/halovet/halovet/store"
 )
 
 // runBin runs the built binary and returns its exit code, standard output and error.
@@ -100,6 +101,23 @@ func TestCredentialsAndAuditCommandLine(t *testing.T) {
 	code, out, _ = runBin(t, nil, append([]string{"audit", "verify"}, as(officer)...)...)
 	if code != 0 || !strings.Contains(out, "intact") {
 		t.Fatalf("audit verify: exit %d\n%s", code, out)
+	}
+	// Behind the server's back, as a superuser with the append-only trigger disabled.
+	st, err := store.Open(t.Context(), url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	for _, sql := range []string{`ALTER TABLE audit_log DISABLE TRIGGER audit_log_no_update`,
+		`UPDATE audit_log SET actor = 'someone else' WHERE chain_seq = 2`,
+		`ALTER TABLE audit_log ENABLE TRIGGER audit_log_no_update`} {
+		if _, err := st.Pool().Exec(t.Context(), sql); err != nil {
+			t.Fatal(err)
+		}
+	}
+	code, out, errOut = runBin(t, nil, append([]string{"audit", "verify"}, as(officer)...)...)
+	if code != exitRejected || !strings.Contains(out, "event 2: ") || !strings.Contains(out, "altered") {
+		t.Fatalf("audit verify after altering event 2: exit %d\n%s%s", code, out, errOut)
 	}
 
 	// Plaintext to a non-loopback host: refused before any connection (192.0.2.1 is
