@@ -89,7 +89,7 @@ K8S_KINDS := io.k8s.api.apps.v1.Deployment io.k8s.api.batch.v1.Job io.k8s.api.co
 	io.k8s.api.networking.v1.NetworkPolicy
 
 kubeconform: ## validate deploy/k8s with kubeconform (pinned in tools/) against the schemas in deploy/schemas (no network)
-	$(GO) tool -modfile=tools/go.mod kubeconform -strict -summary -skip Kustomization \
+	$(GO) tool -modfile=tools/go.mod kubeconform -strict -summary -skip Kustomization -ignore-filename-pattern 'patch\.example\.yaml$$' \
 	  -schema-location '$(K8S_SCHEMAS)/{{ .ResourceKind }}{{ .KindSuffix }}.json' deploy/k8s
 
 kube-schemas: ## rewrite deploy/schemas from the OpenAPI document of k8s.io/kubernetes@v$(K8S_VERSION) (downloads the module)

@@ -19,9 +19,12 @@ type Caller struct {
 	// Company limits a trader's calls to one company's records; empty for roles that are
 	// not company-scoped.
 	Company string
-	// Via says how the identity was established (for the audit trail), e.g. "token",
-	// "mtls", "oidc", "local".
+	// Via says how the identity was established (for the audit trail): "credential",
+	// "certificate", "open" (a server run with open access).
 	Via string
+	// CredentialID is the id of the halovet credential presented, or the certificate's
+	// mapping entry; empty when there is none.
+	CredentialID string
 }
 
 // Call is what the transport knows about one call.
@@ -30,6 +33,9 @@ type Call struct {
 	Method    string
 	Caller    Caller
 	Logger    *slog.Logger
+	// AuthErr is the transport's refusal of a credential the caller presented (the call
+	// is then refused before any handler runs); nil when none was refused.
+	AuthErr error
 }
 
 type key struct{}
@@ -44,22 +50,35 @@ func From(ctx context.Context) *Call {
 	return c
 }
 
-// Actor is the audit trail's name for whoever is behind ctx: the subject when known,
-// followed by the request id, so that a logged call and its audit rows can be matched.
-// Without a call in ctx it is "local" (an operator working on the database directly).
+// Actor is the audit trail's name for whoever is behind ctx: the identity's name as
+// established by the server (never anything the caller sends), "anonymous" for a call
+// without one, and "local" without a call in ctx (an operator working on the database
+// directly, e.g. `halovet credentials issue --database-url`).
 func Actor(ctx context.Context) string {
 	c := From(ctx)
 	if c == nil {
 		return "local"
 	}
-	who := c.Caller.Subject
-	if who == "" {
-		who = "anonymous"
+	if c.Caller.Subject == "" {
+		return "anonymous"
 	}
-	if c.RequestID == "" {
-		return who
+	return c.Caller.Subject
+}
+
+// CredentialID is the credential id behind ctx, "" when there is none.
+func CredentialID(ctx context.Context) string {
+	if c := From(ctx); c != nil {
+		return c.Caller.CredentialID
 	}
-	return who + " (request " + c.RequestID + ")"
+	return ""
+}
+
+// RequestID is the call's request id, "" without a call.
+func RequestID(ctx context.Context) string {
+	if c := From(ctx); c != nil {
+		return c.RequestID
+	}
+	return ""
 }
 
 // Logger returns the call's logger, or slog.Default() when there is none.

@@ -12,6 +12,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -87,7 +88,7 @@ func (c *consumptionServer) PlanQuotas(ctx context.Context, req *halovetv1.PlanQ
 		return nil, invalid(vs...)
 	}
 	if req.GetIssueDrafts() {
-		if err := c.srv.requireAdmin(ctx); err != nil {
+		if err := requireRole(ctx, "issuing the drafts (issue_drafts)", access.RoleOfficer); err != nil {
 			return nil, err
 		}
 	}

@@ -10,13 +10,15 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/metadata"
 
+	"github.com/halovet/halovet/access"
+	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
 )
 
 // Integration tests of what ConsumptionService refuses: national entries it cannot use
 // (and that a refused call stores nothing), reports without a reporting Party, and
-// writes without the admin token. Entries and Parties are invented (consumption_test.go).
+// writes without an officer's credential. Entries and Parties are invented (consumption_test.go).
 
 func TestNationalEntriesValidation(t *testing.T) {
 	conn, _ := startTestServer(t)
@@ -85,25 +87,28 @@ func TestConsumptionNeedsReportingParty(t *testing.T) {
 	consCode(t, err, codes.FailedPrecondition, "baseline")
 }
 
-// TestConsumptionWritesNeedTheAdminToken: with an admin token configured, storing national
-// entries and issuing draft licences need it; reading does not.
-func TestConsumptionWritesNeedTheAdminToken(t *testing.T) {
+// TestConsumptionWritesNeedAnOfficer: storing national entries and issuing draft
+// licences need an officer's credential; an auditor reads but may not write.
+func TestConsumptionWritesNeedAnOfficer(t *testing.T) {
 	ctx := context.Background()
-	conn, _, _ := startServerWith(t, service.Options{AdminToken: "invented-test-token", GracePeriod: time.Second})
+	_, conn, st, _ := runSecuredServer(t, pgtest.NewDatabase(t, "halovet_service", migrateServiceDB), service.Options{GracePeriod: time.Second})
+	officer := withSecret(ctx, issueTestCredential(t, st, "officer.invented", access.RoleOfficer, ""))
+	auditor := withSecret(ctx, issueTestCredential(t, st, "auditor.invented", access.RoleAuditor, ""))
 	c := halovetv1.NewConsumptionServiceClient(conn)
 	req := &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{consEntry(2025, prod, "HCFC-22", 1)}}
 	_, err := c.RecordNationalEntries(ctx, req)
-	consCode(t, err, codes.Unauthenticated, "admin token")
+	consCode(t, err, codes.Unauthenticated, "needs a credential")
 	bad := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer wrong")
 	_, err = c.RecordNationalEntries(bad, req)
-	consCode(t, err, codes.PermissionDenied, "not valid")
-	_, err = c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025}, IssueDrafts: true})
-	consCode(t, err, codes.Unauthenticated, "admin token")
-	good := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer invented-test-token")
-	if _, err := c.RecordNationalEntries(good, req); err != nil {
-		t.Fatalf("with the token: %v", err)
+	consCode(t, err, codes.Unauthenticated, "malformed")
+	_, err = c.RecordNationalEntries(auditor, req)
+	consCode(t, err, codes.PermissionDenied, "role auditor")
+	_, err = c.PlanQuotas(auditor, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025}, IssueDrafts: true})
+	consCode(t, err, codes.PermissionDenied, "issue_drafts")
+	if _, err := c.RecordNationalEntries(officer, req); err != nil {
+		t.Fatalf("with the officer's credential: %v", err)
 	}
-	if list, err := c.ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{}); err != nil || len(list.GetEntries()) != 1 {
-		t.Fatalf("reading without a token: %v %v; want the one entry", list, err)
+	if list, err := c.ListNationalEntries(auditor, &halovetv1.ListNationalEntriesRequest{}); err != nil || len(list.GetEntries()) != 1 {
+		t.Fatalf("reading as the auditor: %v %v; want the one entry", list, err)
 	}
 }

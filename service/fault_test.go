@@ -24,7 +24,7 @@ func serveUntil(t *testing.T, st *store.Store) (*grpc.ClientConn, func()) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	srv := service.New(st, holder, service.Options{Logger: quietLogger(), GracePeriod: time.Millisecond})
+	srv := service.New(st, holder, service.Options{Logger: quietLogger(), GracePeriod: time.Millisecond, OpenAccess: true})
 	lis, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		t.Fatal(err)

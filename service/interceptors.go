@@ -3,23 +3,26 @@ package service
 import (
 	"context"
 	"crypto/rand"
-	"crypto/subtle"
 	"encoding/hex"
+	"errors"
 	"log/slog"
 	"runtime/debug"
+	"strconv"
 	"strings"
 	"time"
 
+	"google.golang.org/genproto/googleapis/rpc/errdetails"
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/callctx"
 )
 
 // The interceptor chain, in order: recovery; the call (request id, caller and logger
-// put into the context once, see newCall) and its log line; auth.
+// put into the context once, see newCall) and its log line; the access check (authorize).
 func (s *Server) unaryInterceptors() []grpc.UnaryServerInterceptor {
 	return []grpc.UnaryServerInterceptor{s.recoverUnary, s.logUnary, s.authUnary}
 }
@@ -83,23 +86,82 @@ func validRequestID(id string) bool {
 	return true
 }
 
-// adminSubject is the caller's subject for a call that carries the configured admin
-// token: the one identity the server knows until there are credentials per person.
-const adminSubject = "admin"
-
-// caller is the identity behind a call as far as the server knows it: the holder of the
-// admin token when one is configured and the call carries it, else anonymous.
-func (s *Server) caller(ctx context.Context) callctx.Caller {
-	if s.opts.AdminToken == "" || !s.hasAdminToken(ctx) {
-		return callctx.Caller{}
+// identify establishes who is behind a call, from what the transport proves and never
+// from anything else the caller sends: a halovet credential in "authorization: Bearer
+// <secret>" (or an OpenID Connect token of the configured issuer), else a client certificate verified against --tls-client-ca and mapped to an
+// identity, else (a server run with open access) the open-access officer, else nobody.
+// A credential or certificate presented and refused is an error with the reason:
+// the call is refused Unauthenticated before any handler runs.
+func (s *Server) identify(ctx context.Context) (callctx.Caller, error) {
+	md, _ := metadata.FromIncomingContext(ctx)
+	if vals := md.Get("authorization"); len(vals) > 0 {
+		if len(vals) > 1 {
+			return callctx.Caller{}, status.Error(codes.Unauthenticated, "the call carries more than one authorization header; send one")
+		}
+		secret, ok := strings.CutPrefix(vals[0], "Bearer ")
+		if !ok {
+			return callctx.Caller{}, status.Error(codes.Unauthenticated, "the authorization header must be 'Bearer <credential secret>'")
+		}
+		secret = strings.TrimSpace(secret)
+		if access.LooksLikeToken(secret) {
+			if s.opts.TokenVerifier == nil {
+				return callctx.Caller{}, status.Error(codes.Unauthenticated, "the bearer value is a JWT, and this server takes no OpenID Connect tokens (serve --oidc-issuer); send a halovet credential secret")
+			}
+			id, err := s.opts.TokenVerifier.Verify(ctx, secret)
+			if err != nil {
+				return callctx.Caller{}, status.Error(codes.Unauthenticated, err.Error())
+			}
+			return callerOf(id), nil
+		}
+		id, err := s.auth.Authenticate(ctx, secret)
+		if errors.Is(err, access.ErrUnauthenticated) {
+			return callctx.Caller{}, status.Error(codes.Unauthenticated, err.Error())
+		}
+		if err != nil {
+			return callctx.Caller{}, toStatus(ctx, s.log, err)
+		}
+		return callerOf(id), nil
 	}
-	return callctx.Caller{Subject: adminSubject, Roles: []string{"admin"}, Via: "token"}
+	if id, ok, err := s.certIdentity(ctx); err != nil {
+		return callctx.Caller{}, status.Error(codes.Unauthenticated, err.Error())
+	} else if ok {
+		return callerOf(id), nil
+	}
+	if s.opts.OpenAccess {
+		return callerOf(openAccessIdentity), nil
+	}
+	return callctx.Caller{}, nil
+}
+
+// openAccessIdentity is every caller's identity on a server run with open access.
+var openAccessIdentity = access.Identity{Name: "open-access", Role: access.RoleOfficer, Via: "open"}
+
+func callerOf(id access.Identity) callctx.Caller {
+	return callctx.Caller{Subject: id.Name, Roles: []string{string(id.Role)}, Company: id.Company, Via: id.Via, CredentialID: id.CredentialID}
+}
+
+// callerRole is the role of the identity behind ctx (RoleAnonymous without one).
+func callerRole(ctx context.Context) access.Role {
+	if c := callctx.From(ctx); c != nil && len(c.Caller.Roles) > 0 {
+		return access.Role(c.Caller.Roles[0])
+	}
+	return access.RoleAnonymous
+}
+
+// callCompany is the company a company-scoped caller (a trader) is bound to, and whether
+// the caller is so bound; the workflow layer limits such a caller's calls to it.
+func callCompany(ctx context.Context) (string, bool) {
+	if !access.CompanyScoped(callerRole(ctx)) {
+		return "", false
+	}
+	return callctx.From(ctx).Caller.Company, true
 }
 
 // newCall is what the interceptors put into a call's context, once: the request id the
 // caller gets back in the response header, the caller, and a logger naming both.
 func (s *Server) newCall(ctx context.Context, method string) *callctx.Call {
-	c := &callctx.Call{RequestID: requestID(ctx), Method: method, Caller: s.caller(ctx)}
+	caller, err := s.identify(ctx)
+	c := &callctx.Call{RequestID: requestID(ctx), Method: method, Caller: caller, AuthErr: err}
 	who := c.Caller.Subject
 	if who == "" {
 		who = "anonymous"
@@ -147,63 +209,51 @@ func logCall(ctx context.Context, c *callctx.Call, start time.Time, err error) {
 	c.Logger.Log(ctx, level, "call", "code", code.String(), "duration_ms", time.Since(start).Milliseconds())
 }
 
-// adminMethods change the catalogue, licensing or the register's recorded shipments; when an admin token is configured
-// they need "authorization: Bearer <token>".
-func isAdminMethod(full string) bool {
-	switch full {
-	case "/halovet.v1.CatalogueService/UpsertSubstance",
-		"/halovet.v1.ConsumptionService/RecordNationalEntries",
-		// an officer's changes to the register of recorded shipments
-		"/halovet.v1.ShipmentService/VoidShipment",
-		"/halovet.v1.ShipmentService/CorrectShipment",
-		"/halovet.v1.ShipmentService/CloseYear",
-		"/halovet.v1.ShipmentService/ReopenYear":
-		return true
-	}
-	if strings.HasPrefix(full, "/halovet.v1.LicensingService/") {
-		m := strings.TrimPrefix(full, "/halovet.v1.LicensingService/")
-		return !strings.HasPrefix(m, "Get") && !strings.HasPrefix(m, "List")
-	}
-	return false
-}
-
+// authorize applies the policy table (access.Policy) to the identity behind ctx: a call
+// whose credential was refused is Unauthenticated with the reason; a method the caller's
+// role may not call is Unauthenticated for a caller without a credential (saying how to
+// present one) and PermissionDenied otherwise.
 func (s *Server) authorize(ctx context.Context, method string) error {
-	if !isAdminMethod(method) {
+	c := callctx.From(ctx)
+	if c != nil && c.AuthErr != nil {
+		return c.AuthErr
+	}
+	role := callerRole(ctx)
+	if access.Allowed(role, method) {
 		return nil
 	}
-	return s.requireAdmin(ctx)
+	if role == access.RoleAnonymous {
+		return status.Errorf(codes.Unauthenticated, "%s needs a credential: send 'authorization: Bearer <secret>' (halovet --credential-file), or a client certificate the server maps", method)
+	}
+	return status.Errorf(codes.PermissionDenied, "role %s may not call %s (credential of %s)", role, method, c.Caller.Subject)
 }
 
-// requireAdmin checks the admin token, when one is configured. The interceptor calls it
-// for the administrative methods; handlers call it for calls that change data only
-// with some arguments (PlanQuotas with issue_drafts).
-func (s *Server) requireAdmin(ctx context.Context) error {
-	if s.opts.AdminToken == "" {
-		return nil
+// requireRole refuses the call unless the caller has one of roles: for calls that change
+// data only with some arguments (PlanQuotas with issue_drafts).
+func requireRole(ctx context.Context, what string, roles ...access.Role) error {
+	r := callerRole(ctx)
+	for _, x := range roles {
+		if r == x {
+			return nil
+		}
 	}
-	md, _ := metadata.FromIncomingContext(ctx)
-	if len(md.Get("authorization")) == 0 {
-		return status.Error(codes.Unauthenticated, "this call changes data and needs 'authorization: Bearer <admin token>'")
-	}
-	if !s.hasAdminToken(ctx) {
-		return status.Error(codes.PermissionDenied, "the admin token is not valid")
-	}
-	return nil
+	return status.Errorf(codes.PermissionDenied, "%s needs the role %s; this caller's role is %q", what, roles[0], r)
 }
 
-// hasAdminToken reports whether the call carries "authorization: Bearer <admin token>"
-// with the configured token (false when none is configured).
-func (s *Server) hasAdminToken(ctx context.Context) bool {
-	if s.opts.AdminToken == "" {
-		return false
+// denied builds a PermissionDenied status naming the field whose value the caller may
+// not use, and why.
+func denied(field, why string) error {
+	br := &errdetails.BadRequest{FieldViolations: []*errdetails.BadRequest_FieldViolation{{Field: field, Description: why}}}
+	st := status.New(codes.PermissionDenied, field+": "+why)
+	if d, err := st.WithDetails(br); err == nil {
+		return d.Err()
 	}
-	md, _ := metadata.FromIncomingContext(ctx)
-	vals := md.Get("authorization")
-	if len(vals) == 0 {
-		return false
-	}
-	tok, ok := strings.CutPrefix(vals[0], "Bearer ")
-	return ok && subtle.ConstantTimeCompare([]byte(tok), []byte(s.opts.AdminToken)) == 1
+	return st.Err()
+}
+
+// outOfScope is the refusal of another company's record or licence to a trader.
+func outOfScope(field, company, own string) error {
+	return denied(field, "company "+strconv.Quote(company)+" is not this credential's company "+strconv.Quote(own)+"; a trader's credential reaches its own company only")
 }
 
 func (s *Server) authUnary(ctx context.Context, req any, info *grpc.UnaryServerInfo, h grpc.UnaryHandler) (any, error) {

@@ -121,7 +121,11 @@ func (l *licensingServer) ListCompanies(ctx context.Context, _ *halovetv1.ListCo
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListCompaniesResponse{}
+	own, scoped := callCompany(ctx)
 	for _, c := range cs {
+		if scoped && c.CompanyID != own {
+			continue // a trader sees its own company only
+		}
 		out.Companies = append(out.Companies, &halovetv1.Company{CompanyId: c.CompanyID, Name: c.Name, CountryCode: c.CountryCode})
 	}
 	return out, nil
@@ -293,11 +297,21 @@ func (l *licensingServer) GetLicence(ctx context.Context, req *halovetv1.GetLice
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
+	if own, scoped := callCompany(ctx); scoped && got.CompanyID != own {
+		return nil, outOfScope("licence_number", got.CompanyID, own)
+	}
 	return &halovetv1.GetLicenceResponse{Licence: licenceToProto(got, l.srv.today())}, nil
 }
 
 func (l *licensingServer) ListLicences(ctx context.Context, req *halovetv1.ListLicencesRequest) (*halovetv1.ListLicencesResponse, error) {
-	ls, err := l.srv.store.ListLicences(ctx, req.GetCompanyId(), int(req.GetYear()))
+	company := req.GetCompanyId()
+	if own, scoped := callCompany(ctx); scoped {
+		if company != "" && company != own {
+			return nil, outOfScope("company_id", company, own)
+		}
+		company = own // a trader's list is its own company's
+	}
+	ls, err := l.srv.store.ListLicences(ctx, company, int(req.GetYear()))
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}

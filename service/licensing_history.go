@@ -177,11 +177,14 @@ func (l *licensingServer) ListLicenceHistory(ctx context.Context, req *halovetv1
 	if req.GetLicenceNumber() == "" {
 		return nil, invalid(fieldViolation{"licence_number", "must not be empty"})
 	}
-	evs, err := l.srv.store.LicenceHistory(ctx, req.GetLicenceNumber())
+	lic, err := l.srv.store.GetLicence(ctx, req.GetLicenceNumber())
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
-	lic, err := l.srv.store.GetLicence(ctx, req.GetLicenceNumber())
+	if own, scoped := callCompany(ctx); scoped && lic.CompanyID != own {
+		return nil, outOfScope("licence_number", lic.CompanyID, own)
+	}
+	evs, err := l.srv.store.LicenceHistory(ctx, req.GetLicenceNumber())
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}

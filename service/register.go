@@ -51,13 +51,42 @@ func (s *Server) checkEnvFor(ctx context.Context, recs ...*halovetv1.ShipmentRec
 			missing = append(missing, n)
 		}
 	}
-	if len(missing) == 0 {
-		return env, nil
+	if len(missing) > 0 {
+		if err := s.env.Refresh(ctx, ledger.Change{Licences: missing}); err != nil {
+			return nil, toStatus(ctx, s.log, err)
+		}
+		if env, err = s.checkEnv(ctx); err != nil {
+			return nil, err
+		}
 	}
-	if err := s.env.Refresh(ctx, ledger.Change{Licences: missing}); err != nil {
-		return nil, toStatus(ctx, s.log, err)
+	if err := licencesInScope(ctx, env, recs); err != nil {
+		return nil, err
 	}
-	return s.checkEnv(ctx)
+	return env, nil
+}
+
+// licencesInScope refuses, for a company-scoped caller (a trader), a record naming a
+// licence another company holds: its verdict would show that licence's status, validity
+// and remaining quota.
+func licencesInScope(ctx context.Context, env *validate.Env, recs []*halovetv1.ShipmentRecord) error {
+	own, scoped := callCompany(ctx)
+	if !scoped {
+		return nil
+	}
+	for i, r := range recs {
+		n := strings.TrimSpace(r.GetLicenceNumber())
+		if n == "" {
+			continue
+		}
+		if lic, ok := env.Licence(n); ok && lic != nil && lic.CompanyID != own {
+			field := "record.licence_number"
+			if len(recs) > 1 {
+				field = fmt.Sprintf("records[%d].licence_number", i)
+			}
+			return denied(field, fmt.Sprintf("licence %s is held by another company; a trader's credential reaches its own company's licences only", n))
+		}
+	}
+	return nil
 }
 
 // registerChanged brings this server's check environment up to a change it has just

@@ -47,7 +47,7 @@ func startSecondServer(t *testing.T, st *store.Store) (*grpc.ClientConn, *store.
 	}
 	// As halovet serve runs a replica: the catalogue follows its announcements too.
 	t.Cleanup(cat.Watch(ctx, rst))
-	srv := service.New(rst, cat, service.Options{Logger: quietLogger(), GracePeriod: 5 * time.Second, Now: registerNow})
+	srv := service.New(rst, cat, service.Options{Logger: quietLogger(), GracePeriod: 5 * time.Second, Now: registerNow, OpenAccess: true})
 	lis, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		t.Fatal(err)

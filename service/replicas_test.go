@@ -124,7 +124,7 @@ func freeLoopbackAddr(t testing.TB) string {
 func startReplica(t testing.TB, bin, url string) *replica {
 	t.Helper()
 	r := &replica{addr: freeLoopbackAddr(t), log: &syncBuffer{}, exited: make(chan struct{})}
-	r.cmd = exec.Command(bin, "serve", "--database-url", url, "--listen", r.addr, "--http-listen", "", "--grace-period", "5s", "--log-level", "warn")
+	r.cmd = exec.Command(bin, "serve", "--open-access", "--database-url", url, "--listen", r.addr, "--http-listen", "", "--grace-period", "5s", "--log-level", "warn")
 	r.cmd.Stdout, r.cmd.Stderr = r.log, r.log
 	if err := r.cmd.Start(); err != nil {
 		t.Fatalf("start halovet serve: %v", err)

@@ -2,9 +2,11 @@ package service
 
 import (
 	"context"
+	"crypto/x509"
 	"errors"
 	"log/slog"
 	"net"
+	"sort"
 	"strings"
 	"sync/atomic"
 	"time"
@@ -17,6 +19,7 @@ import (
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/grpc/stats"
 
+	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
@@ -30,8 +33,22 @@ type Options struct {
 	HealthInterval time.Duration
 	// Logger receives structured logs; nil means slog.Default().
 	Logger *slog.Logger
-	// AdminToken, when set, is the bearer token administrative calls must carry.
-	AdminToken string
+	// OpenAccess turns authentication off: every call runs as the officer "open-access"
+	// (audited under that name). For a laptop or a test on loopback only; halovet serve
+	// refuses it on another address unless told --open-access-on-network.
+	OpenAccess bool
+	// Authenticator checks presented credential secrets; nil means one over the store
+	// with access.AuthOptions' defaults (a revocation is seen within 1 s).
+	Authenticator *access.Authenticator
+	// TokenVerifier, when not nil, accepts OpenID Connect bearer tokens of its issuer.
+	TokenVerifier *access.TokenVerifier
+	// ClientCAs, when not nil, returns the CAs client certificates are verified against
+	// (called per call, so that a reloaded file takes effect); a verified certificate's
+	// subject is looked up in CertIdentities.
+	ClientCAs func() *x509.CertPool
+	// CertIdentities maps a client certificate's subject (pkix.Name.String(), e.g.
+	// "CN=gateway,O=Invented Customs") to the identity it acts as; nil returns none.
+	CertIdentities func() map[string]access.Identity
 	// Now is the clock; nil means time.Now.
 	Now func() time.Time
 	// ServerOptions are passed to grpc.NewServer after halovet's own (e.g. TLS credentials).
@@ -49,6 +66,10 @@ type Options struct {
 	TracerProvider trace.TracerProvider
 }
 
+// OpenAccessHealthName is the health service name listed (SERVING) by a server running
+// with open access, so that Health/List shows that authentication is off.
+const OpenAccessHealthName = "halovet.warning.open-access"
+
 // Server is halovet's gRPC server.
 type Server struct {
 	opts     Options
@@ -61,6 +82,7 @@ type Server struct {
 	env      *ledger.EnvHolder // the check environment, rebuilt on every announced register change
 	limits   Limits
 	inFlight *limiter
+	auth     *access.Authenticator
 
 	newerSchemaLogged atomic.Bool // the health probe said once that the schema is newer
 }
@@ -71,6 +93,7 @@ var serviceNames = []string{
 	halovetv1.ShipmentService_ServiceDesc.ServiceName,
 	halovetv1.LicensingService_ServiceDesc.ServiceName,
 	halovetv1.ConsumptionService_ServiceDesc.ServiceName,
+	halovetv1.AccessService_ServiceDesc.ServiceName,
 }
 
 // New builds a server on an open store. The catalogue holder must already hold a
@@ -91,6 +114,10 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	opts.Version, opts.Revision = buildVersion(opts.Version, opts.Revision)
 	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st, opts.Version, opts.Revision)}
 	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
+	s.auth = opts.Authenticator
+	if s.auth == nil {
+		s.auth = access.NewAuthenticator(st, access.AuthOptions{Now: opts.Now})
+	}
 	s.limits = opts.Limits.withDefaults()
 	s.inFlight = newLimiter(s.limits.MaxInFlight)
 	// Metrics come first, so that they see every call and the status it ends with; then
@@ -120,10 +147,31 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	halovetv1.RegisterLicensingServiceServer(s.grpc, &licensingServer{srv: s})
 	halovetv1.RegisterConsumptionServiceServer(s.grpc, &consumptionServer{srv: s})
 	halovetv1.RegisterAnalysisServiceServer(s.grpc, &analysisServer{srv: s})
+	halovetv1.RegisterAccessServiceServer(s.grpc, &accessServer{srv: s})
 	s.m.rpc.InitializeMetrics(s.grpc)
 	s.setHealth(healthpb.HealthCheckResponse_NOT_SERVING)
+	if opts.OpenAccess {
+		// A warning anyone can read in grpc.health.v1.Health/List: this server has no
+		// authentication.
+		s.health.SetServingStatus(OpenAccessHealthName, healthpb.HealthCheckResponse_SERVING)
+		s.log.Warn("open access: authentication is off, every call acts as the officer \"open-access\"")
+	}
 	s.health.SetServingStatus(LivenessService, healthpb.HealthCheckResponse_SERVING)
 	return s
+}
+
+// Methods lists the full names ("/package.Service/Method") of every method the gRPC
+// server registers, from its service info; the access tests hold them against the
+// policy table.
+func (s *Server) Methods() []string {
+	var out []string
+	for name, info := range s.grpc.GetServiceInfo() {
+		for _, m := range info.Methods {
+			out = append(out, "/"+name+"/"+m.Name)
+		}
+	}
+	sort.Strings(out)
+	return out
 }
 
 // Serve accepts calls on lis until ctx is done, then shuts down gracefully: health turns

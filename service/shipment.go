@@ -26,6 +26,9 @@ func (x *shipmentServer) CheckShipment(ctx context.Context, req *halovetv1.Check
 	if req.GetRecord() == nil {
 		return nil, invalid(fieldViolation{"record", "is required"})
 	}
+	if err := recordsInScope(ctx, "record", req.GetRecord()); err != nil {
+		return nil, err
+	}
 	env, err := x.srv.checkEnvFor(ctx, req.GetRecord())
 	if err != nil {
 		return nil, err
@@ -41,6 +44,25 @@ func (x *shipmentServer) CheckShipment(ctx context.Context, req *halovetv1.Check
 	}
 	v := validate.Check(env, &r, validate.NewMemoryLedger())
 	return &halovetv1.CheckShipmentResponse{Verdict: verdictToProto(&v)}, nil
+}
+
+// recordsInScope refuses, for a company-scoped caller (a trader), a record of another
+// company, naming the field (field, or field[i] for several records).
+func recordsInScope(ctx context.Context, field string, recs ...*halovetv1.ShipmentRecord) error {
+	own, scoped := callCompany(ctx)
+	if !scoped {
+		return nil
+	}
+	for i, r := range recs {
+		if c := strings.TrimSpace(r.GetCompanyId()); c != own {
+			f := field + ".company_id"
+			if len(recs) > 1 || field == "records" {
+				f = fmt.Sprintf("%s[%d].company_id", field, i)
+			}
+			return outOfScope(f, c, own)
+		}
+	}
+	return nil
 }
 
 // summary counts verdicts for the closing message of a stream.
@@ -212,6 +234,9 @@ check:
 		if checkErr = x.srv.checkRecordsPerMessage(len(recs)); checkErr != nil {
 			break
 		}
+		if checkErr = recordsInScope(ctx, "records", recs...); checkErr != nil {
+			break
+		}
 		if env, checkErr = x.srv.checkEnvFor(ctx, recs...); checkErr != nil {
 			break
 		}
@@ -357,6 +382,12 @@ func (x *shipmentServer) recordShipments(stream halovetv1.ShipmentService_Record
 				return
 			}
 			if err := x.srv.checkRecordsPerMessage(len(recs)); err != nil {
+				recvErr <- err
+				return
+			}
+			// A trader's stream ends at the first message holding another company's
+			// record, before any record of that message is judged or written.
+			if err := recordsInScope(ctx, "records", recs...); err != nil {
 				recvErr <- err
 				return
 			}

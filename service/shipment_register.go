@@ -286,6 +286,13 @@ func (x *shipmentServer) ListShipments(ctx context.Context, req *halovetv1.ListS
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
+	// A trader sees its own company's records only.
+	if own, scoped := callCompany(ctx); scoped {
+		if f.CompanyID != "" && f.CompanyID != own {
+			return nil, outOfScope("company_id", f.CompanyID, own)
+		}
+		f.CompanyID = own
+	}
 	limit := f.Limit
 	f.Limit = limit + 1 // one more tells whether there is a next page
 	rows, err := x.srv.store.ListShipments(ctx, f)
@@ -315,6 +322,9 @@ func (x *shipmentServer) GetShipment(ctx context.Context, req *halovetv1.GetShip
 	got, versions, err := x.srv.store.GetShipment(ctx, req.GetShipmentId())
 	if err != nil {
 		return nil, x.srv.registerError(ctx, err, "shipment_id")
+	}
+	if own, scoped := callCompany(ctx); scoped && got.CompanyID != own {
+		return nil, outOfScope("shipment_id", got.CompanyID, own)
 	}
 	out := &halovetv1.GetShipmentResponse{}
 	if out.Shipment, err = recordedToProto(&got); err != nil {

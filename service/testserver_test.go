@@ -11,7 +11,9 @@ import (
 
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/metadata"
 
+	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/pglocal/pgtest"
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/store"
@@ -45,7 +47,7 @@ func startTestServer(t *testing.T) (conn *grpc.ClientConn, st *store.Store) {
 
 // startServerWith is startTestServer with the server's options (a Logger left nil is
 // quietLogger, a GracePeriod left 0 is 5 s) and the catalogue holder as well, for tests
-// and benchmarks that need an admin token or the catalogue itself.
+// and benchmarks that need other options or the catalogue itself.
 func startServerWith(tb testing.TB, opts service.Options) (*grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
 	tb.Helper()
 	return startServerOn(tb, pgtest.NewDatabase(tb, "halovet_service", migrateServiceDB), opts)
@@ -58,8 +60,40 @@ func startServerOn(tb testing.TB, url string, opts service.Options) (*grpc.Clien
 	return conn, st, holder
 }
 
-// runTestServer is startServerOn that also returns the server itself.
+// runTestServer is startServerOn that also returns the server itself. It runs with open
+// access (service.Options.OpenAccess: every call acts as the officer "open-access"), so
+// that tests about other things need no credential; runSecuredServer runs with
+// authentication.
 func runTestServer(tb testing.TB, url string, opts service.Options) (*service.Server, *grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
+	tb.Helper()
+	opts.OpenAccess = true
+	return runServer(tb, url, opts)
+}
+
+// runSecuredServer is runTestServer with authentication on (opts.OpenAccess as given,
+// normally false): calls need a credential (see issueTestCredential).
+func runSecuredServer(tb testing.TB, url string, opts service.Options) (*service.Server, *grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
+	tb.Helper()
+	return runServer(tb, url, opts)
+}
+
+// issueTestCredential issues a credential straight in the store (as `halovet credentials
+// issue --database-url` does) and returns its secret.
+func issueTestCredential(tb testing.TB, st *store.Store, name string, role access.Role, company string) string {
+	tb.Helper()
+	_, secret, err := st.IssueCredential(context.Background(), store.NewCredential{Name: name, Role: role, CompanyID: company})
+	if err != nil {
+		tb.Fatalf("issue the test credential %s: %v", name, err)
+	}
+	return secret
+}
+
+// withSecret is ctx carrying a credential secret as a bearer token.
+func withSecret(ctx context.Context, secret string) context.Context {
+	return metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer "+secret)
+}
+
+func runServer(tb testing.TB, url string, opts service.Options) (*service.Server, *grpc.ClientConn, *store.Store, *service.CatalogueHolder) {
 	tb.Helper()
 	ctx := context.Background()
 	st, err := store.Open(ctx, url)

@@ -12,9 +12,11 @@ import (
 	"go.opentelemetry.io/otel/sdk/trace/tracetest"
 	"go.opentelemetry.io/otel/trace"
 	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/credentials/insecure"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/grpc/metadata"
+	"google.golang.org/grpc/status"
 
 	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -43,7 +45,7 @@ func TestTracesSpanPerRPCWithChildSpanPerQuery(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	srv := service.New(st, holder, service.Options{Logger: quietLogger(), GracePeriod: 5 * time.Second, TracerProvider: tp})
+	srv := service.New(st, holder, service.Options{Logger: quietLogger(), GracePeriod: 5 * time.Second, TracerProvider: tp, OpenAccess: true})
 	lis, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		t.Fatal(err)
@@ -69,8 +71,8 @@ func TestTracesSpanPerRPCWithChildSpanPerQuery(t *testing.T) {
 	exp.Reset() // the spans of loading the catalogue at start
 	const traceID = "4bf92f3577b34da6a3ce929d0e0e4736"
 	callCtx := metadata.AppendToOutgoingContext(ctx, "traceparent", "00-"+traceID+"-00f067aa0ba902b7-01")
-	if _, err := halovetv1.NewLicensingServiceClient(conn).GetParty(callCtx, &halovetv1.GetPartyRequest{CountryCode: "QZ"}); err == nil {
-		t.Fatal("GetParty of an unknown country succeeded")
+	if _, err := halovetv1.NewLicensingServiceClient(conn).GetParty(callCtx, &halovetv1.GetPartyRequest{CountryCode: "QZ"}); status.Code(err) != codes.NotFound {
+		t.Fatalf("GetParty of an unknown country: %v; want NotFound", err)
 	}
 	if _, err := healthpb.NewHealthClient(conn).Check(ctx, &healthpb.HealthCheckRequest{}); err != nil {
 		t.Fatal(err)

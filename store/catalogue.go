@@ -8,8 +8,6 @@ import (
 
 	"github.com/jackc/pgx/v5"
 
-	"github.com/halovet/halovet/callctx"
-
 	"github.com/halovet/halovet/substances"
 )
 
@@ -260,7 +258,7 @@ func (s *Store) UpsertSubstance(ctx context.Context, x *substances.Substance, re
 		if created {
 			action = "create"
 		}
-		queueAudit(b, callctx.Actor(ctx), action, "substance", x.Designation, reason, detail)
+		queueAudit(ctx, b, action, "substance", x.Designation, reason, detail)
 		b.Queue(`SELECT pg_notify($1, $2)`, CatalogueChannel, x.Designation)
 		return tx.SendBatch(ctx, b).Close()
 	})

@@ -10,6 +10,8 @@ import (
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgtype"
+
+	"github.com/halovet/halovet/callctx"
 )
 
 // Nano is an amount in billionths of its unit (tonnes, ODP tonnes or CO2-eq tonnes):
@@ -323,6 +325,17 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	if err := insertShipments(ctx, tx, ids, accepted); err != nil {
 		return nil, err
 	}
+	if len(accept) > 0 {
+		// One audit event for the batch: the shipments it stored, by id, company and key.
+		done := make([]map[string]any, len(accept))
+		for j, i := range accept {
+			done[j] = map[string]any{"shipment_id": ids[j], "company_id": rows[i].CompanyID, "record_key": rows[i].RecordKey}
+		}
+		if err := audit(ctx, tx, "record", "shipments", fmt.Sprintf("%d-%d", ids[0], ids[len(ids)-1]), "",
+			map[string]any{"stored": done}); err != nil {
+			return nil, fmt.Errorf("auditing the recorded shipments: %w", err)
+		}
+	}
 	return results, nil
 }
 
@@ -331,7 +344,7 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 func insertShipments(ctx context.Context, tx pgx.Tx, ids []int64, rows []*ShipmentRow) error {
 	if _, err := tx.CopyFrom(ctx, pgx.Identifier{"shipments"}, shipmentColumns,
 		pgx.CopyFromSlice(len(rows), func(j int) ([]any, error) {
-			return shipmentValues(ids[j], rows[j]), nil
+			return shipmentValues(ctx, ids[j], rows[j]), nil
 		})); err != nil {
 		return fmt.Errorf("storing shipments: %w", err)
 	}
@@ -393,13 +406,14 @@ func checkDraws(r ShipmentRow, status licenceStatuses, remaining map[lineKey]Nan
 var shipmentColumns = []string{"shipment_id", "company_id", "record_key", "fingerprint", "direction",
 	"licence_number", "partner_country", "declaration_date", "year", "resolved_designation", "entry_kind",
 	"purpose", "condition", "net_mass_kg", "odp_tonnes", "co2e_tonnes", "counts_in_consumption",
-	"partner_non_party", "record", "version", "previous_id", "verdict"}
+	"partner_non_party", "record", "version", "previous_id", "verdict", "recorded_by", "recorded_credential"}
 
-func shipmentValues(id int64, r *ShipmentRow) []any {
+func shipmentValues(ctx context.Context, id int64, r *ShipmentRow) []any {
 	return []any{id, r.CompanyID, r.RecordKey, r.Fingerprint, r.Direction, r.LicenceNumber, r.PartnerCountry,
 		r.DeclarationDate, r.DeclarationDate.Year(), r.ResolvedDesignation, r.EntryKind, r.Purpose, r.Condition,
 		r.NetMassKg.numeric(), r.ODPTonnes.numeric(), r.CO2eTonnes.numeric(), r.CountsInConsumption,
-		r.PartnerNonParty, string(r.RecordJSON), max(r.version, 1), r.previousID, r.Verdict}
+		r.PartnerNonParty, string(r.RecordJSON), max(r.version, 1), r.previousID, r.Verdict,
+		callctx.Actor(ctx), callctx.CredentialID(ctx)}
 }
 
 // StoredFingerprints returns the fingerprints of the current (live or voided) rows of the

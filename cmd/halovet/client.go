@@ -21,7 +21,7 @@ type clientFlags struct {
 	useTLS     bool
 	caFile     string
 	serverName string
-	tokenFile  string
+	credFile   string
 	timeout    time.Duration // longest wait for the server; 0: none
 }
 
@@ -34,7 +34,7 @@ func (c *clientFlags) register(fs *pflag.FlagSet) {
 	fs.StringVar(&c.caFile, "tls-ca", envOr("HALOVET_TLS_CA", ""), "PEM file of the CA that signed the server's certificate (default: system roots)")
 	fs.StringVar(&c.serverName, "tls-server-name", envOr("HALOVET_TLS_SERVER_NAME", ""), "server name to verify in the certificate (default: the host of --server)")
 	fs.DurationVar(&c.timeout, "timeout", envDuration("HALOVET_TIMEOUT", defaultClientTimeout), "longest wait for the server: the deadline of a single call, and for a file the longest time without a message either way; 0 waits for ever (env HALOVET_TIMEOUT)")
-	fs.StringVar(&c.tokenFile, "admin-token-file", envOr("HALOVET_ADMIN_TOKEN_FILE", ""), "file with the admin bearer token, for calls that change data")
+	fs.StringVar(&c.credFile, "credential-file", envOr("HALOVET_CREDENTIAL_FILE", ""), "file holding the credential secret 'halovet credentials issue' printed (env HALOVET_CREDENTIAL_FILE, or the secret itself in HALOVET_CREDENTIAL); sent only over --tls or to a loopback address")
 }
 
 // dial opens a client connection; it does not wait for the server.
@@ -56,16 +56,19 @@ func (c *clientFlags) dial() (*grpc.ClientConn, error) {
 		creds = credentials.NewTLS(cfg)
 	}
 	opts := append([]grpc.DialOption{grpc.WithTransportCredentials(creds)}, clientLimitOptions(c.timeout)...)
-	if c.tokenFile != "" {
-		b, err := os.ReadFile(c.tokenFile)
-		if err != nil {
-			return nil, usageErr("--admin-token-file: %v", err)
-		}
-		opts = append(opts, grpc.WithPerRPCCredentials(bearer{token: string(trimSpace(b)), secure: c.useTLS}))
-	}
 	addr, err := serverAddress(c.server)
 	if err != nil {
 		return nil, err
+	}
+	secret, from, err := c.credential()
+	if err != nil {
+		return nil, err
+	}
+	if secret != "" {
+		if !c.useTLS && !loopbackTarget(addr) {
+			return nil, usageErr("%s: refusing to send a credential in plaintext to %s, which is not a loopback address: connect with --tls (and --tls-ca), or reach the server through loopback", from, addr)
+		}
+		opts = append(opts, grpc.WithPerRPCCredentials(bearer{token: secret}))
 	}
 	dialedServer = addr
 	conn, err := grpc.NewClient(addr, opts...)
@@ -75,9 +78,62 @@ func (c *clientFlags) dial() (*grpc.ClientConn, error) {
 	return conn, nil
 }
 
+// credential reads the secret to present: --credential-file, else HALOVET_CREDENTIAL;
+// from names where it came from. A file that is empty or unreadable is an error, never
+// a call without a credential.
+func (c *clientFlags) credential() (secret, from string, err error) {
+	if c.credFile != "" {
+		b, err := os.ReadFile(c.credFile)
+		if err != nil {
+			return "", "", usageErr("--credential-file: %v", err)
+		}
+		s := strings.TrimSpace(string(b))
+		if s == "" {
+			return "", "", usageErr("--credential-file %s is empty: it must hold the secret 'halovet credentials issue' printed", c.credFile)
+		}
+		return s, "--credential-file", nil
+	}
+	if v, ok := os.LookupEnv("HALOVET_CREDENTIAL"); ok {
+		s := strings.TrimSpace(v)
+		if s == "" {
+			return "", "", usageErr("HALOVET_CREDENTIAL is set but empty: unset it or give the secret")
+		}
+		return s, "HALOVET_CREDENTIAL", nil
+	}
+	return "", "", nil
+}
+
+// loopbackTarget reports whether a dial target stays on this machine: a loopback IP,
+// "localhost", or a unix socket.
+func loopbackTarget(addr string) bool {
+	if strings.HasPrefix(addr, "unix:") || strings.HasPrefix(addr, "unix-abstract:") {
+		return true
+	}
+	if i := strings.Index(addr, "://"); i >= 0 {
+		addr = addr[i+3:]
+		if j := strings.LastIndex(addr, "/"); j >= 0 {
+			addr = addr[j+1:]
+		}
+	}
+	host, _, err := net.SplitHostPort(addr)
+	if err != nil {
+		host = addr
+	}
+	return isLoopbackHost(host)
+}
+
+// isLoopbackHost: "localhost" or a loopback IP.
+func isLoopbackHost(host string) bool {
+	host = strings.Trim(host, "[]")
+	if strings.EqualFold(host, "localhost") {
+		return true
+	}
+	ip := net.ParseIP(host)
+	return ip != nil && ip.IsLoopback()
+}
+
 type bearer struct {
-	token  string
-	secure bool
+	token string
 }
 
 func (b bearer) GetRequestMetadata(_ context.Context, _ ...string) (map[string]string, error) {
@@ -85,13 +141,6 @@ func (b bearer) GetRequestMetadata(_ context.Context, _ ...string) (map[string]s
 }
 
 func (b bearer) RequireTransportSecurity() bool { return false }
-
-func trimSpace(b []byte) []byte {
-	for len(b) > 0 && (b[len(b)-1] == '\n' || b[len(b)-1] == '\r' || b[len(b)-1] == ' ') {
-		b = b[:len(b)-1]
-	}
-	return b
-}
 
 // serverAddress completes a --server value: a host without a port gets halovet's default
 // port (gRPC would otherwise dial 443). Targets with a scheme (dns:///, unix:) pass as given.

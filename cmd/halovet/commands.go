@@ -26,6 +26,9 @@ type verbDef struct {
 
 var verbs = map[string]verbDef{}
 
+// verbGroups are the summaries of the verbs that group others ("credentials issue").
+var verbGroups = map[string]string{}
+
 // addVerb registers a verb. usage starts with the synopsis line ("check [flags] FILE"),
 // then a blank line and the long description.
 func addVerb(name, summary, usage string, define func(fs *pflag.FlagSet) runFunc) {
@@ -122,7 +125,19 @@ func newRoot(ctx context.Context) *cobra.Command {
 		names = append(names, n)
 	}
 	sort.Strings(names)
+	groups := map[string]*cobra.Command{}
 	for _, n := range names {
+		// "credentials issue": a verb of the group "credentials".
+		if g, _, nested := strings.Cut(n, " "); nested {
+			parent, ok := groups[g]
+			if !ok {
+				parent = &cobra.Command{Use: g, Short: verbGroups[g]}
+				groups[g] = parent
+				root.AddCommand(parent)
+			}
+			parent.AddCommand(verbCommand(ctx, verbs[n]))
+			continue
+		}
 		root.AddCommand(verbCommand(ctx, verbs[n]))
 	}
 	root.AddCommand(&cobra.Command{

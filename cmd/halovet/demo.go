@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"io"
@@ -20,7 +21,10 @@ import (
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	reflectionpb "google.golang.org/grpc/reflection/grpc_reflection_v1"
 
+	"github.com/halovet/halovet/access"
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
+	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -116,7 +120,26 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 		addr := lis.Addr().String()
 		step("Server listening on %s (catalogue: %d substances, %d blends)", addr, subs, blends)
 
-		cf := clientFlags{server: addr}
+		// Credentials, as a fresh install gets them: the first officer's straight in the
+		// database (halovet credentials issue --database-url), the customs office's
+		// through the API by that officer. Names invented.
+		credDir, err := os.MkdirTemp("", "halovet-demo-credentials-")
+		if err != nil {
+			return err
+		}
+		defer os.RemoveAll(credDir)
+		step("Issuing the first officer's credential straight in the database (as 'halovet credentials issue --database-url' does)")
+		officer, officerSecret, err := db.Store.IssueCredential(ctx, store.NewCredential{Name: demoOfficer, Role: access.RoleOfficer})
+		if err != nil {
+			return err
+		}
+		officerFile := filepath.Join(credDir, "officer.cred")
+		if err := os.WriteFile(officerFile, []byte(officerSecret+"\n"), 0o600); err != nil {
+			return err
+		}
+		fmt.Fprintf(out, "  credential %s: %s, role officer (secret written to a file of mode 0600; only its hash is stored)\n", officer.ID, demoOfficer)
+
+		cf := clientFlags{server: addr, credFile: officerFile}
 		conn, err := cf.dial()
 		if err != nil {
 			return err
@@ -125,6 +148,21 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 		if err := showHealthAndServices(ctx, conn, out); err != nil {
 			return err
 		}
+		issued, err := halovetv1.NewAccessServiceClient(conn).IssueCredential(ctx, &halovetv1.IssueCredentialRequest{Name: demoCustoms, Role: string(access.RoleCustoms)})
+		if err != nil {
+			return err
+		}
+		customsFile := filepath.Join(credDir, "customs.cred")
+		if err := os.WriteFile(customsFile, []byte(issued.GetSecret()+"\n"), 0o600); err != nil {
+			return err
+		}
+		fmt.Fprintf(out, "  credential %s: %s, role customs (issued through the API by %s)\n", issued.GetCredential().GetCredentialId(), demoCustoms, demoOfficer)
+		customsFlags := clientFlags{server: addr, credFile: customsFile}
+		customs, err := customsFlags.dial()
+		if err != nil {
+			return err
+		}
+		defer customs.Close()
 
 		step("Loading the invented registry: party settings, companies, licences")
 		msg, err := loadRegistry(ctx, conn, filepath.Join(*dir, "scenario.json"))
@@ -134,13 +172,13 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 		fmt.Fprintln(out, "  "+msg)
 
 		shipments := filepath.Join(*dir, "shipments.csv")
-		step("Checking %s (nothing stored)", shipments)
-		if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV, maxRejected: 10,
+		step("Checking %s as %s (nothing stored)", shipments, demoCustoms)
+		if _, err := checkFile(ctx, customs, checkOptions{path: shipments, format: validate.FormatCSV, maxRejected: 10,
 			maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
 			return err
 		}
-		step("Recording %s: accepted records are stored and draw down their quotas (the verdicts are those above)", shipments)
-		if _, err := checkFile(ctx, conn, checkOptions{path: shipments, format: validate.FormatCSV, record: true, brief: true,
+		step("Recording %s as %s: accepted records are stored and draw down their quotas (the verdicts are those above)", shipments, demoCustoms)
+		if _, err := checkFile(ctx, customs, checkOptions{path: shipments, format: validate.FormatCSV, record: true, brief: true,
 			maxLine: validate.DefaultMaxLineBytes, output: "text", progress: isTerminal(os.Stderr)}, out, os.Stderr); err != nil {
 			return err
 		}
@@ -155,9 +193,65 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 		if err := demoReports(ctx, conn, *dir, *chartDir, out, step); err != nil {
 			return err
 		}
+		step("The audit trail: who changed what (halovet audit list), and its hash chain (halovet audit verify)")
+		if err := demoAudit(ctx, conn, out); err != nil {
+			return err
+		}
 		step("Done; stopping the server and the cluster")
 		return nil
 	}
+}
+
+// The demo's invented identities.
+const (
+	demoOfficer = "officer.demo (invented)"
+	demoCustoms = "customs.demo-port (invented)"
+)
+
+// demoAudit summarises the audit trail per actor and action, shows its last events, and
+// verifies its chain.
+func demoAudit(ctx context.Context, conn *grpc.ClientConn, out io.Writer) error {
+	c := halovetv1.NewAccessServiceClient(conn)
+	var events []*halovetv1.AuditEvent
+	req := &halovetv1.ListAuditEventsRequest{PageSize: 1000}
+	for {
+		page, err := c.ListAuditEvents(ctx, req)
+		if err != nil {
+			return err
+		}
+		events = append(events, page.GetEvents()...)
+		if req.PageToken = page.GetNextPageToken(); req.PageToken == "" {
+			break
+		}
+	}
+	type key struct{ actor, action, object string }
+	counts := map[key]int{}
+	var keys []key
+	for _, e := range events {
+		k := key{e.GetActor(), e.GetAction(), e.GetObjectType()}
+		if counts[k] == 0 {
+			keys = append(keys, k)
+		}
+		counts[k]++
+	}
+	fmt.Fprintf(out, "  %d events:\n", len(events))
+	for _, k := range keys {
+		fmt.Fprintf(out, "    %-30s %-17s %-15s %d\n", k.actor, k.action, k.object, counts[k])
+	}
+	fmt.Fprintln(out, "  the last three:")
+	var w bytes.Buffer
+	if err := writeAuditEvents(&w, events[max(0, len(events)-3):]); err != nil {
+		return err
+	}
+	for _, line := range strings.Split(strings.TrimRight(w.String(), "\n"), "\n") {
+		fmt.Fprintln(out, "    "+line)
+	}
+	v, err := c.VerifyAuditChain(ctx, &halovetv1.VerifyAuditChainRequest{})
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(out, "  hash chain over %d events intact: %v\n", v.GetEvents(), v.GetIntact())
+	return nil
 }
 
 func stepper(w io.Writer) func(format string, args ...any) {

@@ -108,7 +108,7 @@ func explain(err error) (int, string) {
 		case codes.InvalidArgument, codes.NotFound, codes.OutOfRange, codes.AlreadyExists, codes.FailedPrecondition:
 			return exitUsage, msg
 		case codes.PermissionDenied, codes.Unauthenticated:
-			return exitFailure, msg + "; calls that change data need --admin-token-file (or HALOVET_ADMIN_TOKEN_FILE)"
+			return exitFailure, msg + "; give a credential of a role that may make this call with --credential-file (or HALOVET_CREDENTIAL_FILE); 'halovet credentials issue' makes one"
 		}
 	}
 	return exitFailure, msg

@@ -42,7 +42,7 @@ func defineQuotas(fs *pflag.FlagSet) runFunc {
 	refs := fs.String("reference-years", "", "comma-separated years whose recorded imports set each company's share (required)")
 	fraction := fs.Float64("fraction", 1, "part of the allowed level to distribute, above 0 and at most 1")
 	gran := fs.Float64("granularity", 0.001, "smallest unit of allocation in the group's unit")
-	drafts := fs.Bool("issue-drafts", false, "store the proposals as draft licences (needs the admin token when the server asks for one)")
+	drafts := fs.Bool("issue-drafts", false, "store the proposals as draft licences (needs an officer's credential)")
 	return func(ctx context.Context, args []string) error {
 		if err := rf.check(args); err != nil {
 			return err

@@ -123,7 +123,7 @@ func scaleRun(t *testing.T, bin, url, registry, file string, n int) scaleResult 
 	t.Helper()
 	addr := freeAddr(t)
 	serverLog := &lockedBuffer{}
-	srv := exec.Command(bin, "serve", "--database-url", url, "--listen", addr, "--http-listen", "", "--log-level", "warn")
+	srv := exec.Command(bin, "serve", "--open-access", "--database-url", url, "--listen", addr, "--http-listen", "", "--log-level", "warn")
 	srv.Stdout, srv.Stderr = serverLog, serverLog
 	if err := srv.Start(); err != nil {
 		t.Fatal(err)

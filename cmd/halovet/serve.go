@@ -15,6 +15,7 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials"
 
+	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/store"
 )
@@ -33,6 +34,15 @@ private PostgreSQL cluster in --data-dir from the machine's PostgreSQL server bi
 and stops it on exit. SIGINT or SIGTERM shut down gracefully: health turns NOT_SERVING,
 calls in flight get --grace-period to finish.
 
+Access: every call but health and reflection needs an identity: a credential halovet
+issued ('halovet credentials issue'; the first officer's straight against the database
+with --database-url, or --bootstrap-credential-file), with --tls-client-ca a client
+certificate whose subject --tls-client-map maps to a role, or with --oidc-issuer an
+OpenID Connect bearer token whose claims name the role (and a trader's company). --open-access turns that off
+(every call acts as the officer "open-access"): loopback addresses only, unless
+--open-access-on-network is given too; the server then warns at start and lists
+` + "`" + service.OpenAccessHealthName + "`" + ` in its health.
+
 ` + tracingHelp
 
 func defineServe(fs *pflag.FlagSet) runFunc {
@@ -47,7 +57,16 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 	logLevel := fs.String("log-level", envOr("HALOVET_LOG_LEVEL", "info"), "log level: debug, info, warn, error (env HALOVET_LOG_LEVEL)")
 	certFile := fs.String("tls-cert", envOr("HALOVET_TLS_CERT", ""), "PEM certificate chain to serve TLS with (env HALOVET_TLS_CERT); with --tls-key")
 	keyFile := fs.String("tls-key", envOr("HALOVET_TLS_KEY", ""), "PEM private key of --tls-cert (env HALOVET_TLS_KEY)")
-	tokenFile := fs.String("admin-token-file", envOr("HALOVET_ADMIN_TOKEN_FILE", ""), "file holding the bearer token that calls changing data must carry; empty: no token needed (env HALOVET_ADMIN_TOKEN_FILE)")
+	bootstrapFile := fs.String("bootstrap-credential-file", envOr("HALOVET_BOOTSTRAP_CREDENTIAL_FILE", ""), "file holding an officer credential secret ('halovet credentials new-secret' makes one) stored at start as the officer \"bootstrap-officer\" unless already there; an empty or unreadable file stops the server (env HALOVET_BOOTSTRAP_CREDENTIAL_FILE)")
+	clientCA := fs.String("tls-client-ca", envOr("HALOVET_TLS_CLIENT_CA", ""), "PEM file of the CAs whose client certificates identify callers (mutual TLS, with --tls-cert and --tls-client-map); reloaded when it changes (env HALOVET_TLS_CLIENT_CA)")
+	clientMap := fs.String("tls-client-map", envOr("HALOVET_TLS_CLIENT_MAP", ""), "JSON file mapping client certificate subjects to identities: [{\"subject\": \"CN=gw,O=Customs\", \"name\": \"customs-gateway\", \"role\": \"customs\", \"company_id\": \"\"}]; reloaded when it changes (env HALOVET_TLS_CLIENT_MAP)")
+	oidcIssuer := fs.String("oidc-issuer", envOr("HALOVET_OIDC_ISSUER", ""), "accept OpenID Connect bearer tokens of this issuer URL (with --oidc-audience); its keys by discovery unless --oidc-jwks-url (env HALOVET_OIDC_ISSUER)")
+	oidcAudience := fs.String("oidc-audience", envOr("HALOVET_OIDC_AUDIENCE", ""), "the audience (aud) tokens must carry: halovet's client id at the issuer (env HALOVET_OIDC_AUDIENCE)")
+	oidcJWKS := fs.String("oidc-jwks-url", envOr("HALOVET_OIDC_JWKS_URL", ""), "the issuer's key set URL, instead of discovery (env HALOVET_OIDC_JWKS_URL)")
+	oidcRole := fs.String("oidc-role-claim", envOr("HALOVET_OIDC_ROLE_CLAIM", "halovet_role"), "claim holding the halovet role (env HALOVET_OIDC_ROLE_CLAIM)")
+	oidcCompany := fs.String("oidc-company-claim", envOr("HALOVET_OIDC_COMPANY_CLAIM", "halovet_company"), "claim holding a trader's company (env HALOVET_OIDC_COMPANY_CLAIM)")
+	openAccess := fs.Bool("open-access", envBool("HALOVET_OPEN_ACCESS"), "no authentication: every call acts as the officer \"open-access\"; loopback addresses only (env HALOVET_OPEN_ACCESS)")
+	openOnNetwork := fs.Bool("open-access-on-network", envBool("HALOVET_OPEN_ACCESS_ON_NETWORK"), "allow --open-access on a non-loopback address: anyone who reaches the port may change the register (env HALOVET_OPEN_ACCESS_ON_NETWORK)")
 	limits := serveLimitFlags(fs)
 	fs.DurationVar(&d.statementTimeout, "statement-timeout", envDuration("HALOVET_STATEMENT_TIMEOUT", store.DefaultStatementTimeout), "longest one SQL statement may run before PostgreSQL cancels it; negative: none (env HALOVET_STATEMENT_TIMEOUT)")
 	return func(ctx context.Context, args []string) error {
@@ -58,22 +77,46 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		if err != nil {
 			return err
 		}
-		var token string
-		if *tokenFile != "" {
-			b, err := os.ReadFile(*tokenFile)
+		// Access before anything is opened: a bad configuration stops the server here.
+		var bootstrap string
+		if *bootstrapFile != "" {
+			b, err := os.ReadFile(*bootstrapFile)
 			if err != nil {
-				return fmt.Errorf("--admin-token-file: %w", err)
+				return usageErr("--bootstrap-credential-file: %v", err)
 			}
-			token = strings.TrimSpace(string(b))
+			bootstrap = strings.TrimSpace(string(b))
+			if bootstrap == "" {
+				return usageErr("--bootstrap-credential-file %s is empty: it must hold a secret from 'halovet credentials new-secret'", *bootstrapFile)
+			}
+			if _, err := access.ParseSecret(bootstrap); err != nil {
+				return usageErr("--bootstrap-credential-file %s: %v", *bootstrapFile, err)
+			}
+		}
+		if *openAccess && (bootstrap != "" || *clientCA != "" || *oidcIssuer != "") {
+			return usageErr("--open-access turns authentication off; it cannot go with --bootstrap-credential-file, --tls-client-ca or --oidc-issuer")
+		}
+		if (*oidcIssuer == "") != (*oidcAudience == "") {
+			return usageErr("--oidc-issuer and --oidc-audience go together")
+		}
+		if *openAccess && !*openOnNetwork {
+			for _, a := range []struct{ flag, addr string }{{"--listen", *listen}, {"--http-listen", *httpListen}} {
+				if a.addr != "" && !loopbackListen(a.addr) {
+					return usageErr("%s %s is not a loopback address and --open-access turns authentication off: anyone reaching it could change the register. Issue credentials instead ('halovet credentials issue --database-url ... --role officer'), listen on 127.0.0.1, or add --open-access-on-network to accept the risk", a.flag, a.addr)
+				}
+			}
+		}
+		if (*clientCA != "" || *clientMap != "") && (*certFile == "" || *clientCA == "" || *clientMap == "") {
+			return usageErr("mutual TLS needs --tls-cert, --tls-key, --tls-client-ca and --tls-client-map together")
 		}
 		var serverOpts []grpc.ServerOption
+		var tlsFiles *service.TLSFiles
 		switch {
 		case *certFile != "" && *keyFile != "":
-			creds, err := credentials.NewServerTLSFromFile(*certFile, *keyFile)
+			tlsFiles, err = service.NewTLSFiles(*certFile, *keyFile, *clientCA, *clientMap, log)
 			if err != nil {
-				return fmt.Errorf("--tls-cert/--tls-key: %w", err)
+				return usageErr("%v", err)
 			}
-			serverOpts = append(serverOpts, grpc.Creds(creds))
+			serverOpts = append(serverOpts, grpc.Creds(credentials.NewTLS(tlsFiles.Config())))
 		case *certFile != "" || *keyFile != "":
 			return usageErr("--tls-cert and --tls-key go together")
 		}
@@ -130,8 +173,35 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		}
 		stopWatch := cat.Watch(ctx, db.Store)
 		defer stopWatch()
-		srv := service.New(db.Store, cat, service.Options{GracePeriod: *grace, Logger: log, AdminToken: token, ServerOptions: serverOpts, Limits: limits(),
-			Version: versionString(), Revision: commitString(), TracerProvider: tp})
+		if bootstrap != "" {
+			if err := ensureBootstrap(ctx, db.Store, bootstrap, log); err != nil {
+				return err
+			}
+		}
+		opts := service.Options{GracePeriod: *grace, Logger: log, OpenAccess: *openAccess, ServerOptions: serverOpts, Limits: limits(),
+			Version: versionString(), Revision: commitString(), TracerProvider: tp}
+		if *oidcIssuer != "" {
+			v, err := access.NewTokenVerifier(ctx, access.TokenOptions{Issuer: *oidcIssuer, Audience: *oidcAudience,
+				JWKSURL: *oidcJWKS, RoleClaim: *oidcRole, CompanyClaim: *oidcCompany})
+			if err != nil {
+				return fmt.Errorf("--oidc-issuer: %w", err)
+			}
+			opts.TokenVerifier = v
+		}
+		if tlsFiles != nil && *clientCA != "" {
+			opts.ClientCAs, opts.CertIdentities = tlsFiles.ClientCAs, tlsFiles.CertIdentities
+		}
+		if *openAccess {
+			log.Warn("serving with --open-access: no authentication, every call acts as the officer \"open-access\"")
+		} else {
+			if n, err := db.Store.CountActiveCredentials(ctx); err == nil && n == 0 && *clientCA == "" && *oidcIssuer == "" {
+				log.Warn("no active credential: only health and reflection answer; issue the first officer's with 'halovet credentials issue --database-url URL --role officer --name NAME'")
+			}
+			if tlsFiles == nil && !loopbackListen(*listen) {
+				log.Warn("listening beyond loopback without TLS: credentials cross the network in plaintext; give --tls-cert and --tls-key, or terminate TLS in front of the server", "listen", *listen)
+			}
+		}
+		srv := service.New(db.Store, cat, opts)
 		// The listeners stop together: when one fails, the others are shut down too.
 		ctx, stop := context.WithCancel(ctx)
 		defer stop()
@@ -153,6 +223,36 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		}
 		return err
 	}
+}
+
+// loopbackListen reports whether a listen address is on loopback only (an empty or
+// wildcard host is every interface, not loopback).
+func loopbackListen(addr string) bool {
+	host, _, err := net.SplitHostPort(addr)
+	if err != nil {
+		return false
+	}
+	return isLoopbackHost(host)
+}
+
+// ensureBootstrap stores the bootstrap officer credential unless it is there already.
+func ensureBootstrap(ctx context.Context, st *store.Store, secret string, log *slog.Logger) error {
+	id, err := access.ParseSecret(secret)
+	if err != nil {
+		return err
+	}
+	c, created, err := st.EnsureCredential(ctx, id, access.HashSecret(secret),
+		store.NewCredential{Name: "bootstrap-officer", Role: access.RoleOfficer})
+	if err != nil {
+		return fmt.Errorf("--bootstrap-credential-file: %w", err)
+	}
+	switch {
+	case created:
+		log.Info("bootstrap officer credential stored", "credential_id", id)
+	case !c.RevokedAt.IsZero():
+		log.Warn("the bootstrap credential was revoked; it stays revoked", "credential_id", id)
+	}
+	return nil
 }
 
 const migrateUsage = `migrate [flags]

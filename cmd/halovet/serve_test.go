@@ -73,7 +73,20 @@ type serverProcess struct {
 	exited   bool       // the test has received from done
 }
 
+// startServe runs `halovet serve --open-access` on loopback (tests about other things
+// need no credential); startSecuredServe runs it with authentication.
 func startServe(t *testing.T, dbURL string, extra ...string) *serverProcess {
+	t.Helper()
+	return startServeWith(t, dbURL, append([]string{"--open-access"}, extra...)...)
+}
+
+// startSecuredServe is startServe without --open-access.
+func startSecuredServe(t *testing.T, dbURL string, extra ...string) *serverProcess {
+	t.Helper()
+	return startServeWith(t, dbURL, extra...)
+}
+
+func startServeWith(t *testing.T, dbURL string, extra ...string) *serverProcess {
 	t.Helper()
 	addr, httpAddr, metrics := freeAddr(t), freeAddr(t), freeAddr(t)
 	args := append([]string{"serve", "--database-url", dbURL, "--listen", addr, "--http-listen", httpAddr, "--metrics-listen", metrics}, extra...)

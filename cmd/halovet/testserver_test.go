@@ -41,7 +41,7 @@ func startTestServer(t *testing.T, now func() time.Time) *testServer {
 	if err != nil {
 		t.Fatalf("load the seed catalogue: %v", err)
 	}
-	srv := service.New(st, cat, service.Options{Logger: log, GracePeriod: 5 * time.Second, Now: now})
+	srv := service.New(st, cat, service.Options{Logger: log, GracePeriod: 5 * time.Second, Now: now, OpenAccess: true})
 	lis, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		t.Fatalf("listen on loopback: %v", err)
