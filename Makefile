@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load
+.PHONY: fault-long help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -98,6 +98,10 @@ kube-schemas: ## rewrite deploy/schemas from the OpenAPI document of k8s.io/kube
 
 bench-load: postgres ## load benchmark: halovet serve on a private cluster, 50 calls in flight over 4 connections (cmd/loadbench; see BENCHMARKS.md)
 	$(GO) run ./cmd/loadbench -repo .
+
+FAULT_ROUNDS ?= 20
+fault-long: postgres ## the fault scenarios again, FAULT_ROUNDS rounds of random faults (database restart, server cut, client gone, replicas racing) with exact recounts; HALOVET_FAULT_SEED=N repeats a run
+	HALOVET_FAULT_ROUNDS=$(FAULT_ROUNDS) $(GO) test -count=1 -timeout 30m -run '^TestFault' -v ./service/
 
 bench: ## run the Go benchmarks (see BENCHMARKS.md)
 	$(GO) test -run='^$$' -bench=. -benchmem ./...
