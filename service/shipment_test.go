@@ -35,7 +35,7 @@ const (
 )
 
 // shipRegistry loads the invented registry through LicensingService.
-func shipRegistry(t *testing.T, conn *grpc.ClientConn) {
+func shipRegistry(t testing.TB, conn *grpc.ClientConn) {
 	t.Helper()
 	ctx := context.Background()
 	lic := halovetv1.NewLicensingServiceClient(conn)
@@ -78,7 +78,7 @@ func shipRegistry(t *testing.T, conn *grpc.ClientConn) {
 	shipSetStatus(t, conn, shipSuspended, halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED)
 }
 
-func shipSetStatus(t *testing.T, conn *grpc.ClientConn, licence string, s halovetv1.LicenceStatus) {
+func shipSetStatus(t testing.TB, conn *grpc.ClientConn, licence string, s halovetv1.LicenceStatus) {
 	t.Helper()
 	if _, err := halovetv1.NewLicensingServiceClient(conn).SetLicenceStatus(context.Background(),
 		// From the licence's first day, so that the test records (declared in 2026) are
