@@ -167,14 +167,21 @@ func TestStartConnectCreateStop(t *testing.T) {
 	}
 
 	// PostgreSQL refuses root; when the tests run as root the server must run as another user.
-	pid, err := strconv.Atoi(queryString(t, admin, "SELECT pg_backend_pid()::text"))
+	// The postmaster (first line of postmaster.pid) lives as long as the cluster; a backend's
+	// pid would be gone once its connection closed.
+	pf, err := os.ReadFile(filepath.Join(c.DataDir(), "postmaster.pid"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	first, _, _ := strings.Cut(string(pf), "\n")
+	pid, err := strconv.Atoi(strings.TrimSpace(first))
 	if err != nil {
 		t.Fatal(err)
 	}
 	if uid := processUID(t, pid); os.Geteuid() == 0 && uid == 0 {
-		t.Errorf("backend %d runs as root", pid)
+		t.Errorf("server %d runs as root", pid)
 	} else if os.Geteuid() != 0 && uid != os.Geteuid() {
-		t.Errorf("backend %d runs as uid %d; want the caller's uid %d", pid, uid, os.Geteuid())
+		t.Errorf("server %d runs as uid %d; want the caller's uid %d", pid, uid, os.Geteuid())
 	}
 
 	ctx := context.Background()

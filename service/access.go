@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"strconv"
 	"strings"
 
 	"google.golang.org/protobuf/types/known/timestamppb"
@@ -115,9 +114,12 @@ func (a *accessServer) ListAuditEvents(ctx context.Context, req *halovetv1.ListA
 		vs = append(vs, fieldViolation{"object_key", "needs object_type as well"})
 	}
 	if t := req.GetPageToken(); t != "" {
-		n, err := strconv.ParseInt(t, 10, 64)
-		if err != nil || n <= 0 {
-			vs = append(vs, fieldViolation{"page_token", "is not a token a previous page returned"})
+		n, err := a.srv.openPageToken(ctx, "audit", filterHash(req), t)
+		switch {
+		case errors.Is(err, errPageToken):
+			vs = append(vs, fieldViolation{"page_token", err.Error()})
+		case err != nil:
+			return nil, toStatus(ctx, a.srv.log, err)
 		}
 		f.AfterSeq = n
 	}
@@ -130,7 +132,9 @@ func (a *accessServer) ListAuditEvents(ctx context.Context, req *halovetv1.ListA
 	}
 	out := &halovetv1.ListAuditEventsResponse{}
 	if next > 0 {
-		out.NextPageToken = strconv.FormatInt(next, 10)
+		if out.NextPageToken, err = a.srv.issuePageToken(ctx, "audit", filterHash(req), next); err != nil {
+			return nil, toStatus(ctx, a.srv.log, err)
+		}
 	}
 	for _, e := range evs {
 		out.Events = append(out.Events, &halovetv1.AuditEvent{Seq: e.Seq, At: timestamppb.New(e.At), Actor: e.Actor,

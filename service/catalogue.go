@@ -2,12 +2,9 @@ package service
 
 import (
 	"context"
-	"encoding/base64"
 	"errors"
 	"fmt"
-	"hash/fnv"
 	"math"
-	"strconv"
 	"strings"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -81,33 +78,7 @@ type listFilter struct {
 	kind    halovetv1.EntryKind
 }
 
-func (f listFilter) hash() uint32 {
-	h := fnv.New32a()
-	fmt.Fprintf(h, "%s|%d|%s|%d", f.group, f.control, f.text, f.kind)
-	return h.Sum32()
-}
-
-func pageToken(f listFilter, offset int) string {
-	return base64.RawURLEncoding.EncodeToString([]byte(fmt.Sprintf("%d:%d", f.hash(), offset)))
-}
-
-func parsePageToken(f listFilter, tok string) (int, error) {
-	if tok == "" {
-		return 0, nil
-	}
-	b, err := base64.RawURLEncoding.DecodeString(tok)
-	if err != nil {
-		return 0, errors.New("is not a token this server issued")
-	}
-	h, off, ok := strings.Cut(string(b), ":")
-	n, err := strconv.Atoi(off)
-	if !ok || err != nil || n < 0 || h != strconv.FormatUint(uint64(f.hash()), 10) {
-		return 0, errors.New("does not belong to these filters; start again without a token")
-	}
-	return n, nil
-}
-
-func (c *catalogueServer) ListEntries(_ context.Context, req *halovetv1.ListEntriesRequest) (*halovetv1.ListEntriesResponse, error) {
+func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEntriesRequest) (*halovetv1.ListEntriesResponse, error) {
 	f := listFilter{group: req.GetAnnexGroup(), control: req.GetControl(), text: strings.ToLower(strings.TrimSpace(req.GetText())), kind: req.GetKind()}
 	if f.group != "" && !validGroup(f.group) {
 		return nil, invalid(fieldViolation{"annex_group", fmt.Sprintf("%q is not an Annex group; use A/I, A/II, B/I, B/II, B/III, C/I, C/II, C/III, E/I, F/I or F/II", f.group)})
@@ -119,9 +90,16 @@ func (c *catalogueServer) ListEntries(_ context.Context, req *halovetv1.ListEntr
 	if size == 0 {
 		size = 100
 	}
-	off, err := parsePageToken(f, req.GetPageToken())
-	if err != nil {
-		return nil, invalid(fieldViolation{"page_token", err.Error()})
+	off := 0
+	if tok := req.GetPageToken(); tok != "" {
+		pos, err := c.srv.openPageToken(ctx, "entries", filterHash(req), tok)
+		if errors.Is(err, errPageToken) {
+			return nil, invalid(fieldViolation{"page_token", err.Error()})
+		}
+		if err != nil {
+			return nil, toStatus(ctx, c.srv.log, err)
+		}
+		off = int(pos)
 	}
 	cat := c.srv.cat.Load()
 	var all []*halovetv1.CatalogueEntry
@@ -144,7 +122,11 @@ func (c *catalogueServer) ListEntries(_ context.Context, req *halovetv1.ListEntr
 		end := min(off+size, len(all))
 		resp.Entries = all[off:end]
 		if end < len(all) {
-			resp.NextPageToken = pageToken(f, end)
+			tok, err := c.srv.issuePageToken(ctx, "entries", filterHash(req), int64(end))
+			if err != nil {
+				return nil, toStatus(ctx, c.srv.log, err)
+			}
+			resp.NextPageToken = tok
 		}
 	}
 	return resp, nil

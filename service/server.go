@@ -83,6 +83,7 @@ type Server struct {
 	limits   Limits
 	inFlight *limiter
 	auth     *access.Authenticator
+	pages    pageSigner // signs and checks page tokens (pagetoken.go)
 
 	newerSchemaLogged atomic.Bool // the health probe said once that the schema is newer
 }

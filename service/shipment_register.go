@@ -2,10 +2,8 @@ package service
 
 import (
 	"context"
-	"encoding/base64"
 	"errors"
 	"fmt"
-	"hash/fnv"
 	"strconv"
 	"strings"
 	"time"
@@ -151,34 +149,6 @@ func recordedToProto(x *store.StoredShipment) (*halovetv1.RecordedShipment, erro
 
 // Listing ---------------------------------------------------------------------------------
 
-// shipmentPageToken is opaque to clients: the last id of the page and a hash of the filters, so
-// that a token is not taken with other filters than it was made for.
-func shipmentPageToken(after int64, filters uint64) string {
-	return base64.RawURLEncoding.EncodeToString([]byte(fmt.Sprintf("s1.%d.%x", after, filters)))
-}
-
-func parseShipmentPageToken(tok string, filters uint64) (int64, bool) {
-	b, err := base64.RawURLEncoding.DecodeString(tok)
-	if err != nil {
-		return 0, false
-	}
-	parts := strings.Split(string(b), ".")
-	if len(parts) != 3 || parts[0] != "s1" || parts[2] != strconv.FormatUint(filters, 16) {
-		return 0, false
-	}
-	after, err := strconv.ParseInt(parts[1], 10, 64)
-	return after, err == nil && after >= 0
-}
-
-func filterHash(req *halovetv1.ListShipmentsRequest) uint64 {
-	c := proto.Clone(req).(*halovetv1.ListShipmentsRequest)
-	c.PageToken, c.PageSize = "", 0
-	b, _ := proto.MarshalOptions{Deterministic: true}.Marshal(c)
-	h := fnv.New64a()
-	h.Write(b)
-	return h.Sum64()
-}
-
 // annexGroups is what an annex_group filter accepts: a group, or "F" for Annex F.
 var annexGroups = map[string][]string{
 	"A/I": {"A/I"}, "A/II": {"A/II"}, "B/I": {"B/I"}, "B/II": {"B/II"}, "B/III": {"B/III"},
@@ -270,13 +240,6 @@ func (s *Server) shipmentFilter(req *halovetv1.ListShipmentsRequest) (store.Ship
 	default:
 		f.Limit = int(n)
 	}
-	if tok := req.GetPageToken(); tok != "" {
-		after, ok := parseShipmentPageToken(tok, filterHash(req))
-		if !ok {
-			vs = append(vs, fieldViolation{"page_token", "is not a token this call gave with these filters; start again without it"})
-		}
-		f.AfterID = after
-	}
 	return f, vs
 }
 
@@ -285,6 +248,16 @@ func (x *shipmentServer) ListShipments(ctx context.Context, req *halovetv1.ListS
 	f, vs := x.srv.shipmentFilter(req)
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
+	}
+	if tok := req.GetPageToken(); tok != "" {
+		after, err := x.srv.openPageToken(ctx, "shipments", filterHash(req), tok)
+		if errors.Is(err, errPageToken) {
+			return nil, invalid(fieldViolation{"page_token", err.Error()})
+		}
+		if err != nil {
+			return nil, toStatus(ctx, x.srv.log, err)
+		}
+		f.AfterID = after
 	}
 	// A trader sees its own company's records only.
 	if own, scoped := callCompany(ctx); scoped {
@@ -302,7 +275,9 @@ func (x *shipmentServer) ListShipments(ctx context.Context, req *halovetv1.ListS
 	out := &halovetv1.ListShipmentsResponse{}
 	if len(rows) > limit {
 		rows = rows[:limit]
-		out.NextPageToken = shipmentPageToken(rows[len(rows)-1].ID, filterHash(req))
+		if out.NextPageToken, err = x.srv.issuePageToken(ctx, "shipments", filterHash(req), rows[len(rows)-1].ID); err != nil {
+			return nil, toStatus(ctx, x.srv.log, err)
+		}
 	}
 	for i := range rows {
 		r, err := recordedToProto(&rows[i])

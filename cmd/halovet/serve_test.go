@@ -68,7 +68,7 @@ type serverProcess struct {
 	addr     string
 	httpAddr string // HTTP/JSON and gRPC-Web
 	metrics  string // Prometheus metrics
-	stderr   *bytes.Buffer
+	stderr   *lockedBuffer
 	done     chan error // receives the exit status once
 	exited   bool       // the test has received from done
 }
@@ -91,7 +91,7 @@ func startServeWith(t *testing.T, dbURL string, extra ...string) *serverProcess 
 	addr, httpAddr, metrics := freeAddr(t), freeAddr(t), freeAddr(t)
 	args := append([]string{"serve", "--database-url", dbURL, "--listen", addr, "--http-listen", httpAddr, "--metrics-listen", metrics}, extra...)
 	cmd := exec.Command(halovetBinary(t), args...)
-	var stderr bytes.Buffer
+	var stderr lockedBuffer
 	cmd.Stderr = &stderr
 	cmd.Env = append(os.Environ(), "HALOVET_LOG_LEVEL=info")
 	if err := cmd.Start(); err != nil {
