@@ -90,3 +90,22 @@ func (c *Console) home(w http.ResponseWriter, r *http.Request, rq *request) {
 	}
 	c.render(w, r, rq.s, http.StatusOK, "home", "halovet console", d)
 }
+
+// PageInfo is one row of the page table: the route, the RPC whose policy it obeys ("" for
+// the home page and sign-out, open to every signed-in identity) and whether it is a form
+// post (CSRF-checked). README's console section lists the table.
+type PageInfo struct {
+	Pattern string
+	RPC     string
+	Post    bool
+}
+
+// Pages lists the console's pages.
+func Pages() []PageInfo {
+	var c Console
+	var out []PageInfo
+	for _, p := range c.pageTable() {
+		out = append(out, PageInfo{Pattern: p.pattern, RPC: p.rpc, Post: p.post})
+	}
+	return out
+}
