@@ -103,6 +103,7 @@ const (
 	rpcListLicences = "/halovet.v1.LicensingService/ListLicences"
 	rpcGetLicence   = "/halovet.v1.LicensingService/GetLicence"
 	rpcSetStatus    = "/halovet.v1.LicensingService/SetLicenceStatus"
+	rpcAmend        = "/halovet.v1.LicensingService/AmendLicence"
 	rpcCheckBatch   = "/halovet.v1.ShipmentService/CheckShipments"
 	rpcRecordBatch  = "/halovet.v1.ShipmentService/RecordShipments"
 	rpcAssess       = "/halovet.v1.ConsumptionService/AssessCompliance"
@@ -135,6 +136,7 @@ func (c *Console) pageTable() []page {
 		{"GET /console/licences", rpcListLicences, false, c.licences},
 		{"GET /console/licences/{number}", rpcGetLicence, false, c.licence},
 		{"POST /console/licences/{number}/status", rpcSetStatus, true, c.setLicenceStatus},
+		{"POST /console/licences/{number}/quota", rpcAmend, true, c.amendQuota},
 		{"GET /console/batches", rpcCheckBatch, false, c.batchForm},
 		{"POST /console/batches", rpcCheckBatch, true, c.batchUpload},
 		{"GET /console/batches/{id}", rpcCheckBatch, false, c.batchPage},

@@ -116,6 +116,22 @@ func TestSignInAndPages(t *testing.T) {
 		t.Fatalf("reinstate: %d", p.code)
 	}
 
+	// Amend an allocation (scenario.json: line 1 of XA-IMP-2026-001 holds 3.5 ODP t), and
+	// the server's refusal of a bad one shown as a page.
+	p = c.get("/console/licences/XA-IMP-2026-001")
+	p = c.post("/console/licences/XA-IMP-2026-001/quota", url.Values{"csrf": {p.csrf(t)}, "line": {"1"}, "allocated": {"4.25"}, "reason": {"console test"}})
+	resp, err := halovetv1.NewLicensingServiceClient(h.conn).GetLicence(h.conn.admin(), &halovetv1.GetLicenceRequest{LicenceNumber: "XA-IMP-2026-001"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := resp.GetLicence().GetQuotaLines()[0].GetAllocated(); p.code != 200 || got != 4.25 {
+		t.Errorf("amend: %d, line 1 allocated %v; want 4.25", p.code, got)
+	}
+	p = c.post("/console/licences/XA-IMP-2026-001/quota", url.Values{"csrf": {p.csrf(t)}, "line": {"1"}, "allocated": {"lots"}, "reason": {"console test"}})
+	if p.code != http.StatusBadRequest || !strings.Contains(p.body, "Nothing was changed") {
+		t.Errorf("amend with a bad figure: %d", p.code)
+	}
+
 	// Sign out: the session is gone on the server too.
 	home := c.get("/console/")
 	p = c.post("/console/sign-out", url.Values{"csrf": {home.csrf(t)}})

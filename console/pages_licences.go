@@ -51,6 +51,7 @@ func (c *Console) licences(w http.ResponseWriter, r *http.Request, rq *request) 
 
 type licenceData struct {
 	L            *halovetv1.Licence
+	CanAmend     bool
 	CanSetStatus bool
 	Statuses     []statusChoice
 }
@@ -65,7 +66,7 @@ func (c *Console) licence(w http.ResponseWriter, r *http.Request, rq *request) {
 	if !ok {
 		return
 	}
-	d := licenceData{L: l, CanSetStatus: c.allowed(rq, rpcSetStatus)}
+	d := licenceData{L: l, CanSetStatus: c.allowed(rq, rpcSetStatus), CanAmend: c.allowed(rq, rpcAmend)}
 	switch l.GetStatus() {
 	case halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE:
 		d.Statuses = []statusChoice{{"suspended", "Suspend"}}
@@ -148,3 +149,45 @@ func enumWords[E interface{ String() string }](prefix string, es []E) string {
 
 func directionWords(ds []halovetv1.Direction) string { return enumWords("DIRECTION_", ds) }
 func purposeWords(ps []halovetv1.Purpose) string     { return enumWords("PURPOSE_", ps) }
+
+// amendQuota changes the allocation of one quota line (AmendLicence: the server refuses an
+// allocation below what is drawn already), with the reason the form gives.
+func (c *Console) amendQuota(w http.ResponseWriter, r *http.Request, rq *request) {
+	number := r.PathValue("number")
+	line, err := strconv.Atoi(r.PostFormValue("line"))
+	if err != nil {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("line %q: give the quota line's number. Nothing was changed.", r.PostFormValue("line")))
+		return
+	}
+	raw := strings.ReplaceAll(strings.TrimSpace(r.PostFormValue("allocated")), ",", "")
+	alloc, err := strconv.ParseFloat(raw, 64)
+	if err != nil || alloc < 0 || alloc > 1e12 {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("allocated %q: give the new allocation as a number of the line's unit, 0 or more (for example 4.25). Nothing was changed.", r.PostFormValue("allocated")))
+		return
+	}
+	reason := strings.TrimSpace(r.PostFormValue("reason"))
+	if reason == "" {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", "reason: say why the allocation changes (it goes into the audit log). Nothing was changed.")
+		return
+	}
+	l, ok := c.readLicence(w, r, rq, number)
+	if !ok {
+		return
+	}
+	found := false
+	for _, q := range l.GetQuotaLines() {
+		if int(q.GetLineNumber()) == line {
+			q.Allocated, found = alloc, true
+		}
+	}
+	if !found {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("line %d: licence %s has no such quota line. Nothing was changed.", line, number))
+		return
+	}
+	if _, err := c.licensingClient().AmendLicence(c.ctx(r, rq, rpcAmend), &halovetv1.AmendLicenceRequest{
+		Licence: l, Reason: reason + " (console, " + rq.id().Name + ")"}); err != nil {
+		c.callFailed(w, r, rq, "amending licence "+number, err)
+		return
+	}
+	http.Redirect(w, r, "/console/licences/"+number, http.StatusSeeOther)
+}
