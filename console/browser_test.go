@@ -321,7 +321,7 @@ func TestBrowserWalk(t *testing.T) {
 	b.do("drop the token", chromedp.Func(func(ctx context.Context, tg *chromedp.Target) error {
 		_, err := chromedp.Evaluate[bool](`(() => { document.querySelectorAll('form.stack input[name=csrf]').forEach(e => e.remove()); return true; })()`)(ctx, tg)
 		return err
-	}), chromedp.SendKeys(chromedp.CSS("#reason-suspended"), "forged"), chromedp.Click(chromedp.CSS(`form.stack button`)))
+	}), chromedp.SendKeys(chromedp.CSS("#reason-suspended"), "forged"), chromedp.Click(chromedp.CSS(`form[action$="/status"] button`)))
 	b.refused["/console/licences/XA-IMP-2026-001/status"] = true
 	b.waitFor("refusal", `document.body.innerText.includes('Form refused')`, 10*time.Second)
 	b.mustShow("Nothing was changed")
