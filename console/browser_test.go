@@ -198,7 +198,8 @@ func (b *browser) waitFor(what, js string, limit time.Duration) {
 			return
 		}
 		if time.Now().After(deadline) {
-			b.t.Fatalf("%s: not within %v (last error %v)", what, limit, err)
+			body, _ := chromedp.Run(b.ctx, chromedp.Evaluate[string](`location.pathname + "\n" + document.body.innerText`))
+			b.t.Fatalf("%s: not within %v (last error %v); the page:\n%s", what, limit, err, body)
 		}
 		time.Sleep(250 * time.Millisecond)
 	}
