@@ -22,6 +22,8 @@ import (
 
 const (
 	maxBatchesKept  = 64
+	maxBatchBytes   = 256 << 20 // files kept in memory, all batches together
+	maxRunningOwn   = 2         // batches one credential may have running at once
 	batchPerMessage = 500
 	batchTimeout    = 15 * time.Minute
 )
@@ -110,10 +112,36 @@ func (s *batchStore) add(b *batch) {
 	b.Started = s.now()
 	s.byID[b.ID] = b
 	s.order = append(s.order, b.ID)
-	for len(s.order) > maxBatchesKept {
+	total := 0
+	for _, id := range s.order {
+		total += len(s.byID[id].data)
+	}
+	for len(s.order) > 1 && (len(s.order) > maxBatchesKept || total > maxBatchBytes) {
+		total -= len(s.byID[s.order[0]].data)
 		delete(s.byID, s.order[0])
 		s.order = s.order[1:]
 	}
+}
+
+// running counts the owner's batches that have not finished.
+func (s *batchStore) running(owner string) int {
+	s.mu.Lock()
+	bs := make([]*batch, 0, len(s.byID))
+	for _, b := range s.byID {
+		if b.Owner == owner {
+			bs = append(bs, b)
+		}
+	}
+	s.mu.Unlock()
+	n := 0
+	for _, b := range bs {
+		b.mu.Lock()
+		if !b.finished {
+			n++
+		}
+		b.mu.Unlock()
+	}
+	return n
 }
 
 // get returns the batch if it belongs to owner.

@@ -29,6 +29,11 @@ func (c *Console) batchForm(w http.ResponseWriter, r *http.Request, rq *request)
 // batchUpload takes the file and starts checking it; the browser is sent to the batch's
 // page, which shows the progress until the verdicts are in.
 func (c *Console) batchUpload(w http.ResponseWriter, r *http.Request, rq *request) {
+	if c.batches.running(rq.id().CredentialID) >= maxRunningOwn {
+		c.fail(w, r, rq.s, http.StatusTooManyRequests, "Batches still running",
+			fmt.Sprintf("You have %d batches being checked; wait for one to finish, then upload again. Nothing was checked.", maxRunningOwn))
+		return
+	}
 	f, hdr, err := r.FormFile("file")
 	if err != nil {
 		c.fail(w, r, rq.s, http.StatusBadRequest, "No file", "file: choose a CSV or JSON Lines file of shipment records to upload. Nothing was checked.")
