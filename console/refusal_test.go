@@ -2,6 +2,7 @@ package console_test
 
 import (
 	"net/http"
+	"os"
 	"net/url"
 	"strings"
 	"testing"
@@ -192,6 +193,25 @@ func TestEveryPageIsMapped(t *testing.T) {
 		}
 		if strings.HasPrefix(p.Pattern, "POST") != p.Post {
 			t.Errorf("%s: post %v", p.Pattern, p.Post)
+		}
+	}
+}
+
+// TestREADMEListsEveryPage holds the README's page table to the console's.
+func TestREADMEListsEveryPage(t *testing.T) {
+	raw, err := os.ReadFile(repoFile(t, "README.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	readme := string(raw)
+	for _, p := range console.Pages() {
+		pattern := strings.ReplaceAll(p.Pattern, "{$}", "")
+		rpc := "(signed in)"
+		if p.RPC != "" {
+			rpc = "`" + strings.TrimPrefix(p.RPC, "/halovet.v1.") + "`"
+		}
+		if row := "| `" + pattern + "` | " + rpc + " |"; !strings.Contains(readme, row) {
+			t.Errorf("README lacks the row %s", row)
 		}
 	}
 }
