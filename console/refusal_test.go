@@ -2,8 +2,8 @@ package console_test
 
 import (
 	"net/http"
-	"os"
 	"net/url"
+	"os"
 	"strings"
 	"testing"
 	"time"
