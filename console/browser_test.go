@@ -205,8 +205,10 @@ func (b *browser) waitFor(what, js string, limit time.Duration) {
 	}
 }
 
-func (b *browser) signIn(secret string) {
+// signIn signs in with the test credential of a role.
+func (b *browser) signIn(role string) {
 	b.t.Helper()
+	secret := b.h.secrets[role]
 	b.open("/console/sign-in")
 	b.do("sign in", chromedp.SendKeys(chromedp.CSS("#secret"), secret), chromedp.Click(chromedp.CSS(`button[type="submit"]`)))
 	b.waitFor("signed in", `!!document.querySelector('form.signout')`, 10*time.Second)
@@ -219,7 +221,7 @@ func (b *browser) signOut() {
 }
 
 func TestBrowserWalk(t *testing.T) {
-	h := newHarness(t, testPolicy{}, false)
+	h := newHarness(t, false)
 	want := goldenCounts(t)
 	b := newBrowser(t, h)
 
@@ -241,7 +243,7 @@ func TestBrowserWalk(t *testing.T) {
 	if order[0] != "skip" || order[len(order)-1] != "secret" {
 		t.Fatalf("keyboard order %v: want the skip link first and the token field reached", order)
 	}
-	b.do("type the token", chromedp.KeyEvent("officer-secret"), chromedp.KeyEvent("\r"))
+	b.do("type the token", chromedp.KeyEvent(h.secrets["officer"]), chromedp.KeyEvent("\r"))
 	b.waitFor("signed in by keyboard", `!!document.querySelector('form.signout')`, 10*time.Second)
 	b.mustShow("Olu Officer (invented)", "Licence register")
 	b.shot("02-home", "Home page of a signed-in officer")
@@ -336,7 +338,7 @@ func TestBrowserWalk(t *testing.T) {
 	b.shot("17-signed-out", "Signed out")
 
 	// A trader sees its own company only.
-	b.signIn("trader-secret")
+	b.signIn("trader")
 	b.open("/console/licences")
 	b.mustShow("XA-IMP-2026-002", "Licences of your company")
 	if body := b.body(); strings.Contains(body, "XA-IMP-2026-001") {
@@ -346,7 +348,7 @@ func TestBrowserWalk(t *testing.T) {
 	b.signOut()
 
 	// A page outside the role.
-	b.signIn("reader-secret")
+	b.signIn("reader")
 	b.refused["/console/licences"] = true
 	b.open("/console/licences")
 	b.mustShow("Not allowed for your role")

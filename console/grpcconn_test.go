@@ -9,9 +9,12 @@ import (
 
 // grpcConn is the harness's connection to the server, for setting up and checking what
 // the console changed.
-type grpcConn struct{ *grpc.ClientConn }
+type grpcConn struct {
+	*grpc.ClientConn
+	officer string // the officer credential's secret
+}
 
-// admin is a context carrying the admin token.
+// admin is a context carrying the officer's credential.
 func (c *grpcConn) admin() context.Context {
-	return metadata.AppendToOutgoingContext(context.Background(), "authorization", "Bearer "+adminToken)
+	return metadata.AppendToOutgoingContext(context.Background(), "authorization", "Bearer "+c.officer)
 }

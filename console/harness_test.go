@@ -24,6 +24,7 @@ import (
 	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
+	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/console"
 	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -37,24 +38,13 @@ func TestMain(m *testing.M) { pgtest.Main(m) }
 // --today), so that its date rules give the golden verdicts.
 var demoToday = time.Date(2026, 12, 1, 12, 0, 0, 0, time.UTC)
 
-const adminToken = "console-test-admin-token"
-
-// The test credentials (invented): one per role the console is tried with.
-var testIdentities = map[string]console.Identity{
-	"officer-secret": {CredentialID: "cred-officer", Name: "Olu Officer (invented)", Role: "officer"},
-	"trader-secret":  {CredentialID: "cred-trader", Name: "Tess Trader (invented)", Role: "trader", Company: "XA-1002"},
-	"auditor-secret": {CredentialID: "cred-auditor", Name: "Ada Auditor (invented)", Role: "auditor"},
-	"reader-secret":  {CredentialID: "cred-reader", Name: "Ravi Reader (invented)", Role: "reader"},
-}
-
-type testAuth struct{}
-
-func (testAuth) Authenticate(_ context.Context, secret string) (console.Identity, error) {
-	id, ok := testIdentities[secret]
-	if !ok {
-		return console.Identity{}, console.ErrBadCredentials
-	}
-	return id, nil
+// The test credentials (invented): one per role the console is tried with, issued in
+// the store as 'halovet credentials issue' does.
+var testCredentials = map[string]store.NewCredential{
+	"officer": {Name: "Olu Officer (invented)", Role: access.RoleOfficer},
+	"trader":  {Name: "Tess Trader (invented)", Role: access.RoleTrader, CompanyID: "XA-1002"},
+	"auditor": {Name: "Ada Auditor (invented)", Role: access.RoleAuditor},
+	"reader":  {Name: "Ravi Reader (invented)", Role: access.RoleReader},
 }
 
 // clock is the console's clock, moved by the tests (the server keeps the demo's date).
@@ -73,10 +63,11 @@ func (c *clock) advance(d time.Duration) {
 // harness is a real halovet server on a fresh PostgreSQL database holding the demo
 // registry, with the console mounted on its HTTP handler, served by httptest.
 type harness struct {
-	url   string
-	conn  *halovetGRPC
-	clock *clock
-	ts    *httptest.Server
+	url     string
+	secrets map[string]string // role -> the secret of its test credential
+	conn    *halovetGRPC
+	clock   *clock
+	ts      *httptest.Server
 }
 
 type halovetGRPC = grpcConn
@@ -85,7 +76,7 @@ func quiet() *slog.Logger {
 	return slog.New(slog.NewTextHandler(io.Discard, &slog.HandlerOptions{Level: slog.LevelError + 1}))
 }
 
-func newHarness(t testing.TB, policy console.Policy, tls bool) *harness {
+func newHarness(t testing.TB, tls bool) *harness {
 	t.Helper()
 	ctx := context.Background()
 	dbURL := pgtest.NewDatabase(t, "halovet_console", func(ctx context.Context, url string) error {
@@ -101,7 +92,16 @@ func newHarness(t testing.TB, policy console.Policy, tls bool) *harness {
 	if err != nil {
 		t.Fatal(err)
 	}
-	srv := service.New(st, holder, service.Options{Logger: quiet(), GracePeriod: 5 * time.Second, AdminToken: adminToken,
+	secrets := map[string]string{}
+	issue := func(role string) {
+		_, secret, err := st.IssueCredential(ctx, testCredentials[role])
+		if err != nil {
+			t.Fatalf("issue the %s credential: %v", role, err)
+		}
+		secrets[role] = secret
+	}
+	issue("officer") // first: it loads the demo registry, which the trader's company is in
+	srv := service.New(st, holder, service.Options{Logger: quiet(), GracePeriod: 5 * time.Second,
 		HealthInterval: 200 * time.Millisecond, Now: func() time.Time { return demoToday }})
 	lis, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
@@ -123,13 +123,10 @@ func newHarness(t testing.TB, policy console.Policy, tls bool) *harness {
 		t.Fatal(err)
 	}
 	clk := &clock{t: demoToday}
-	con, err := console.New(console.Config{Conn: conn, Auth: testAuth{}, Policy: policy, Now: clk.now, Logger: quiet(),
-		// The server knows the admin token only: every identity's calls carry it, and the
-		// console's own policy check is what tells the roles apart here.
-		CallContext: func(ctx context.Context, id console.Identity, m string) context.Context {
-			id.Secret = adminToken
-			return console.BearerCallContext(ctx, id, m)
-		}})
+	// The console as serve wires it: the store's credentials, the policy table, and calls
+	// carrying the signed-in identity's own secret.
+	con, err := console.New(console.Config{Conn: conn, Auth: console.AccessAuthenticator{A: access.NewAuthenticator(st, access.AuthOptions{CacheTTL: -1})},
+		Policy: console.AccessPolicy{}, CallContext: console.BearerCallContext, Now: clk.now, Logger: quiet()})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -146,8 +143,11 @@ func newHarness(t testing.TB, policy console.Policy, tls bool) *harness {
 	}
 	t.Cleanup(ts.Close)
 	t.Cleanup(func() { _ = conn.Close() })
-	hc := &harness{url: ts.URL, conn: &grpcConn{conn}, clock: clk, ts: ts}
+	hc := &harness{url: ts.URL, secrets: secrets, conn: &grpcConn{conn, secrets["officer"]}, clock: clk, ts: ts}
 	hc.loadDemo(t)
+	for _, role := range []string{"trader", "auditor", "reader"} {
+		issue(role)
+	}
 	return hc
 }
 
@@ -174,41 +174,31 @@ func (h *harness) loadDemo(t testing.TB) {
 	if err := json.Unmarshal(raw, &rf); err != nil {
 		t.Fatal(err)
 	}
-	lic := halovetv1.NewLicensingServiceClient(h.conn)
 	un := func(b []byte, m proto.Message) {
 		if err := protojson.Unmarshal(b, m); err != nil {
 			t.Fatalf("scenario.json: %v", err)
 		}
 	}
+	// One LoadRegistry call, as 'halovet load' sends it: licence statuses are reached from
+	// their effective dates (the demo's XA-IMP-2026-005 is suspended from 2026-09-15).
+	req := &halovetv1.LoadRegistryRequest{Reason: "console test: demo scenario"}
 	for _, p := range rf.Parties {
 		m := &halovetv1.Party{}
 		un(p, m)
-		if _, err := lic.PutParty(ctx, &halovetv1.PutPartyRequest{Party: m}); err != nil {
-			t.Fatal(err)
-		}
+		req.Parties = append(req.Parties, m)
 	}
 	for _, c := range rf.Companies {
 		m := &halovetv1.Company{}
 		un(c, m)
-		if _, err := lic.RegisterCompany(ctx, &halovetv1.RegisterCompanyRequest{Company: m}); err != nil {
-			t.Fatal(err)
-		}
+		req.Companies = append(req.Companies, m)
 	}
 	for _, l := range rf.Licences {
 		m := &halovetv1.Licence{}
 		un(l, m)
-		want := m.GetStatus()
-		if want == halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED || want == halovetv1.LicenceStatus_LICENCE_STATUS_REVOKED {
-			m.Status = halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE
-		}
-		if _, err := lic.IssueLicence(ctx, &halovetv1.IssueLicenceRequest{Licence: m, Reason: "console test: demo scenario"}); err != nil {
-			t.Fatalf("licence %s: %v", m.GetLicenceNumber(), err)
-		}
-		if want != m.GetStatus() && want != halovetv1.LicenceStatus_LICENCE_STATUS_UNSPECIFIED {
-			if _, err := lic.SetLicenceStatus(ctx, &halovetv1.SetLicenceStatusRequest{LicenceNumber: m.GetLicenceNumber(), Status: want, Reason: "console test: demo scenario"}); err != nil {
-				t.Fatal(err)
-			}
-		}
+		req.Licences = append(req.Licences, m)
+	}
+	if _, err := halovetv1.NewLicensingServiceClient(h.conn).LoadRegistry(ctx, req); err != nil {
+		t.Fatalf("load the demo registry: %v", err)
 	}
 	f, err := os.Open(repoFile(t, "testdata/demo/national_entries.csv"))
 	if err != nil {
@@ -316,12 +306,14 @@ func (p page) csrf(t testing.TB) string {
 	return m[1]
 }
 
-func (c *client) signIn(secret string) page {
+// signIn signs in with the test credential of a role.
+func (c *client) signIn(role string) page {
 	c.t.Helper()
+	secret := c.h.secrets[role]
 	form := c.get("/console/sign-in")
 	p := c.post("/console/sign-in", url.Values{"csrf": {form.csrf(c.t)}, "secret": {secret}})
 	if p.code != http.StatusOK || !strings.Contains(p.body, "Sign out") {
-		c.t.Fatalf("sign-in with %q: %d\n%s", secret, p.code, p.body)
+		c.t.Fatalf("sign-in as %s: %d\n%s", role, p.code, p.body)
 	}
 	return p
 }

@@ -11,18 +11,23 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/pglocal/pgtest"
 )
 
-// TestServeMountsTheConsole: with an admin token, `halovet serve` serves the console on
-// the HTTP listener and the token signs in; without one, there is no console.
+// TestServeMountsTheConsole: `halovet serve` serves the console on the HTTP listener and
+// a stored credential's secret signs in; with --open-access there is no console.
 func TestServeMountsTheConsole(t *testing.T) {
 	url0 := pgtest.NewDatabase(t, "halovet_cmd", migrateForTest)
 	tokenFile := filepath.Join(t.TempDir(), "token")
-	if err := os.WriteFile(tokenFile, []byte("serve-console-token\n"), 0o600); err != nil {
+	iss, err := access.IssueSecret()
+	if err != nil {
 		t.Fatal(err)
 	}
-	p := startServe(t, url0, "--admin-token-file", tokenFile)
+	if err := os.WriteFile(tokenFile, []byte(iss.Secret+"\n"), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	p := startSecuredServe(t, url0, "--bootstrap-credential-file", tokenFile)
 	waitServing(t, dialTest(t, p.addr), p)
 	jar, _ := cookiejar.New(nil)
 	hc := &http.Client{Jar: jar}
@@ -41,21 +46,21 @@ func TestServeMountsTheConsole(t *testing.T) {
 	if code != http.StatusOK || tok == nil {
 		t.Fatalf("GET /console/sign-in: %d\n%s\n%s", code, body, p.stderr)
 	}
-	resp, err := hc.PostForm(base+"/console/sign-in", url.Values{"csrf": {tok[1]}, "secret": {"serve-console-token"}})
+	resp, err := hc.PostForm(base+"/console/sign-in", url.Values{"csrf": {tok[1]}, "secret": {iss.Secret}})
 	if err != nil {
 		t.Fatal(err)
 	}
 	b, _ := io.ReadAll(resp.Body)
 	resp.Body.Close()
-	if resp.StatusCode != http.StatusOK || !strings.Contains(string(b), "administrator (admin token)") {
-		t.Fatalf("sign-in with the admin token: %d\n%s", resp.StatusCode, b)
+	if resp.StatusCode != http.StatusOK || !strings.Contains(string(b), "bootstrap-officer") {
+		t.Fatalf("sign-in with the bootstrap credential: %d\n%s", resp.StatusCode, b)
 	}
 	if code, body = get("/console/licences"); code != http.StatusOK || !strings.Contains(body, "Licence register") {
 		t.Errorf("GET /console/licences signed in: %d", code)
 	}
 
-	// Without a token the console is not served.
-	p2 := startServe(t, pgtest.NewDatabase(t, "halovet_cmd", migrateForTest))
+	// With open access there is no one to sign in as: no console.
+	p2 := startServe(t, pgtest.NewDatabase(t, "halovet_cmd", migrateForTest)) // --open-access
 	waitServing(t, dialTest(t, p2.addr), p2)
 	resp, err = http.Get("http://" + p2.httpAddr + "/console/sign-in")
 	if err != nil {
@@ -63,6 +68,6 @@ func TestServeMountsTheConsole(t *testing.T) {
 	}
 	resp.Body.Close()
 	if resp.StatusCode != http.StatusNotFound {
-		t.Errorf("console without an admin token: %d, want 404", resp.StatusCode)
+		t.Errorf("console with --open-access: %d, want 404", resp.StatusCode)
 	}
 }
