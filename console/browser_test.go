@@ -319,6 +319,11 @@ func TestBrowserWalk(t *testing.T) {
 		return err
 	}))
 
+	// The audit log: the recording's draws and the licences are in it.
+	b.open("/console/audit?object_type=licence&object_key=XA-IMP-2026-002")
+	b.mustShow("XA-IMP-2026-002", "Check the log's hash chain")
+	b.shot("15b-audit-log", "The audit log, for the roles that may read it")
+
 	// A form without its token: refused, and nothing changed.
 	b.open("/console/licences/XA-IMP-2026-001")
 	b.do("drop the token", chromedp.Func(func(ctx context.Context, tg *chromedp.Target) error {

@@ -145,6 +145,7 @@ func (c *Console) pageTable() []page {
 		{"GET /console/year", rpcAssess, false, c.year},
 		{"GET /console/year/chart.svg", rpcAssess, false, c.yearChartSVG},
 		{"GET /console/year/chart.png", rpcAssess, false, c.yearChartPNG},
+		{"GET /console/audit", rpcAuditList, false, c.audit},
 		{"POST /console/sign-out", "", true, c.signOut},
 	}
 }
@@ -322,6 +323,7 @@ func (c *Console) nav(s *session, path string) []navItem {
 		{"/console/licences", "Licences", rpcListLicences},
 		{"/console/batches", "Batches", rpcCheckBatch},
 		{"/console/year", "The year", rpcAssess},
+		{"/console/audit", "Audit log", rpcAuditList},
 	}
 	var out []navItem
 	for _, it := range items {

@@ -79,6 +79,9 @@ func TestPageOutsideTheRoleIsRefused(t *testing.T) {
 			t.Errorf("reader GET %s: %d", path, p.code)
 		}
 	}
+	if p := reader.get("/console/audit"); p.code != http.StatusForbidden {
+		t.Errorf("reader GET /console/audit: %d", p.code)
+	}
 	// The reader's navigation offers the catalogue only.
 	home := reader.get("/console/")
 	if strings.Contains(home.body, `href="/console/licences"`) || !strings.Contains(home.body, `href="/console/catalogue"`) {
@@ -98,6 +101,16 @@ func TestPageOutsideTheRoleIsRefused(t *testing.T) {
 	}
 	if st := licenceStatus(t, h, "XA-IMP-2026-001"); st != halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE {
 		t.Errorf("the licence is %v after the auditor's refused post", st)
+	}
+	// The auditor reads the audit log: the demo's licences were loaded through the API,
+	// so they are in it, and the hash chain checks out.
+	p = aud.get("/console/audit?object_type=licence&object_key=XA-IMP-2026-001")
+	if p.code != http.StatusOK || !strings.Contains(p.body, "XA-IMP-2026-001") || strings.Contains(p.body, "No audit event matches") {
+		t.Errorf("auditor's audit log: %d\n%s", p.code, p.body)
+	}
+	p = aud.get("/console/audit?verify=1")
+	if !strings.Contains(p.body, "is intact") {
+		t.Errorf("audit chain check: %d\n%s", p.code, p.body)
 	}
 }
 
