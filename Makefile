@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: fault-long help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load
+.PHONY: fault-long help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load chromium
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -26,13 +26,16 @@ build: ## build bin/halovet (version and commit stamped)
 postgres: ## make sure PostgreSQL server binaries are installed (apt-get if missing)
 	@scripts/ensure-postgres.sh
 
+chromium: ## make sure Debian's chromium is installed for the console's browser test (apt-get if missing)
+	@scripts/ensure-chromium.sh >/dev/null
+
 cc: ## make sure a C compiler is installed for go test -race (apt-get if missing)
 	@scripts/ensure-cc.sh
 
 demo: postgres build ## run the demo scenario end to end on a private PostgreSQL cluster
 	$(BIN) demo
 
-test: fmt-check tidy-check vet staticcheck drift lint kubeconform postgres cc unit fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, fuzz
+test: fmt-check tidy-check vet staticcheck drift lint kubeconform postgres cc chromium unit fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, fuzz
 	@echo "make test: all checks passed"
 
 fmt-check: ## fail when gofmt would change a tracked Go file (needs a git checkout: it checks what git tracks)

@@ -100,12 +100,27 @@ func (s Scope) check(field string) error {
 	return nil
 }
 
+// scopeNames are the short names of what each scope controls.
+var scopeNames = map[Scope]string{
+	ScopeAI: "CFCs", ScopeAII: "halons", ScopeBI: "other CFCs", ScopeBII: "carbon tetrachloride",
+	ScopeBIII: "methyl chloroform", ScopeCI: "HCFCs", ScopeCII: "HBFCs", ScopeCIII: "bromochloromethane",
+	ScopeEI: "methyl bromide", ScopeF: "HFCs",
+}
+
 // label is a short human name for messages: "C/I (HCFCs)".
 func (s Scope) label() string {
-	names := map[Scope]string{
-		ScopeAI: "CFCs", ScopeAII: "halons", ScopeBI: "other CFCs", ScopeBII: "carbon tetrachloride",
-		ScopeBIII: "methyl chloroform", ScopeCI: "HCFCs", ScopeCII: "HBFCs", ScopeCIII: "bromochloromethane",
-		ScopeEI: "methyl bromide", ScopeF: "HFCs",
+	return fmt.Sprintf("%s (%s)", string(s), scopeNames[s])
+}
+
+// FullName is the scope's name for titles: "Annex C Group I (HCFCs)", "Annex F (HFCs)";
+// "" for an unknown scope.
+func (s Scope) FullName() string {
+	if !s.valid() {
+		return ""
 	}
-	return fmt.Sprintf("%s (%s)", string(s), names[s])
+	if s == ScopeF {
+		return "Annex F (" + scopeNames[s] + ")"
+	}
+	annex, group, _ := strings.Cut(string(s), "/")
+	return fmt.Sprintf("Annex %s Group %s (%s)", annex, group, scopeNames[s])
 }

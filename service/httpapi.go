@@ -21,7 +21,8 @@ import (
 //     POST /v1/shipments:check, GET /v1/licences/{licence_number}); errors carry the HTTP
 //     status of their gRPC code and a google.rpc.Status JSON body with the same details;
 //   - gRPC-Web and the Connect protocol at /halovet.v1.SERVICE/METHOD, for browsers;
-//   - the OpenAPI document of the HTTP/JSON paths at GET /openapi.json.
+//   - the OpenAPI document of the HTTP/JSON paths at GET /openapi.json;
+//   - the handlers given to Mount (the console, under /console/).
 //
 // The transcoding is connectrpc.com/vanguard's over the registered grpc-go services: no
 // second set of handlers and no generated gateway code to keep in step.
@@ -35,6 +36,9 @@ func (s *Server) HTTPHandler() (http.Handler, error) {
 		w.Header().Set("Content-Type", "application/json")
 		_, _ = w.Write(openapi.Document)
 	})
+	for _, m := range s.mounts {
+		mux.Handle(m.prefix, m.h)
+	}
 	mux.Handle("/", tc)
 	return mux, nil
 }

@@ -8,6 +8,7 @@ import (
 	"net"
 	"sort"
 	"strings"
+	"sync"
 	"sync/atomic"
 	"time"
 
@@ -85,6 +86,10 @@ type Server struct {
 	auth     *access.Authenticator
 	pages    pageSigner // signs and checks page tokens (pagetoken.go)
 
+	mounts   []mount // handlers beside the HTTP/JSON API (Mount)
+	inProcMu sync.Mutex
+	inProc   *grpc.Server // serves InProcessConn; built on first use
+
 	newerSchemaLogged atomic.Bool // the health probe said once that the schema is newer
 }
 
@@ -121,35 +126,7 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	}
 	s.limits = opts.Limits.withDefaults()
 	s.inFlight = newLimiter(s.limits.MaxInFlight)
-	// Metrics come first, so that they see every call and the status it ends with; then
-	// the check that the request decoded (before anything can refuse the call), the
-	// chain of interceptors.go, and the limits last, so that refused calls are logged.
-	unary := append(append([]grpc.UnaryServerInterceptor{s.m.unary(), checkDecodedUnary}, s.unaryInterceptors()...), s.limitUnary)
-	stream := append(append([]grpc.StreamServerInterceptor{s.m.stream()}, s.streamInterceptors()...), s.limitStream)
-	own := []grpc.ServerOption{
-		grpc.ChainUnaryInterceptor(unary...),
-		grpc.ChainStreamInterceptor(stream...),
-	}
-	if opts.TracerProvider != nil {
-		own = append(own, grpc.StatsHandler(otelgrpc.NewServerHandler(
-			otelgrpc.WithTracerProvider(opts.TracerProvider),
-			otelgrpc.WithPropagators(propagation.NewCompositeTextMapPropagator(propagation.TraceContext{}, propagation.Baggage{})),
-			// The health checks of probes and balancers every few seconds are noise.
-			otelgrpc.WithFilter(func(info *stats.RPCTagInfo) bool { return !strings.HasPrefix(info.FullMethodName, "/grpc.health.v1.") }),
-		)))
-	}
-	s.grpc = grpc.NewServer(append(append(own, s.limits.serverOptions()...), opts.ServerOptions...)...)
-	healthpb.RegisterHealthServer(s.grpc, s.health)
-	if err := registerReflection(s.grpc); err != nil {
-		s.log.Error("reflection answers without documentation", "err", err)
-	}
-	halovetv1.RegisterCatalogueServiceServer(s.grpc, &catalogueServer{srv: s})
-	halovetv1.RegisterShipmentServiceServer(s.grpc, &shipmentServer{srv: s})
-	halovetv1.RegisterLicensingServiceServer(s.grpc, &licensingServer{srv: s})
-	halovetv1.RegisterConsumptionServiceServer(s.grpc, &consumptionServer{srv: s})
-	halovetv1.RegisterAnalysisServiceServer(s.grpc, &analysisServer{srv: s})
-	halovetv1.RegisterAccessServiceServer(s.grpc, &accessServer{srv: s})
-	s.m.rpc.InitializeMetrics(s.grpc)
+	s.grpc = s.newGRPC(opts.ServerOptions)
 	s.setHealth(healthpb.HealthCheckResponse_NOT_SERVING)
 	if opts.OpenAccess {
 		// A warning anyone can read in grpc.health.v1.Health/List: this server has no
@@ -173,6 +150,41 @@ func (s *Server) Methods() []string {
 	}
 	sort.Strings(out)
 	return out
+}
+
+// newGRPC builds a gRPC server with halovet's interceptors, limits and services, and the
+// extra options after them (TLS credentials for the network listener).
+func (s *Server) newGRPC(extra []grpc.ServerOption) *grpc.Server {
+	// Metrics come first, so that they see every call and the status it ends with; then
+	// the check that the request decoded (before anything can refuse the call), the
+	// chain of interceptors.go, and the limits last, so that refused calls are logged.
+	unary := append(append([]grpc.UnaryServerInterceptor{s.m.unary(), checkDecodedUnary}, s.unaryInterceptors()...), s.limitUnary)
+	stream := append(append([]grpc.StreamServerInterceptor{s.m.stream()}, s.streamInterceptors()...), s.limitStream)
+	own := []grpc.ServerOption{
+		grpc.ChainUnaryInterceptor(unary...),
+		grpc.ChainStreamInterceptor(stream...),
+	}
+	if s.opts.TracerProvider != nil {
+		own = append(own, grpc.StatsHandler(otelgrpc.NewServerHandler(
+			otelgrpc.WithTracerProvider(s.opts.TracerProvider),
+			otelgrpc.WithPropagators(propagation.NewCompositeTextMapPropagator(propagation.TraceContext{}, propagation.Baggage{})),
+			// The health checks of probes and balancers every few seconds are noise.
+			otelgrpc.WithFilter(func(info *stats.RPCTagInfo) bool { return !strings.HasPrefix(info.FullMethodName, "/grpc.health.v1.") }),
+		)))
+	}
+	g := grpc.NewServer(append(append(own, s.limits.serverOptions()...), extra...)...)
+	healthpb.RegisterHealthServer(g, s.health)
+	if err := registerReflection(g); err != nil {
+		s.log.Error("reflection answers without documentation", "err", err)
+	}
+	halovetv1.RegisterCatalogueServiceServer(g, &catalogueServer{srv: s})
+	halovetv1.RegisterShipmentServiceServer(g, &shipmentServer{srv: s})
+	halovetv1.RegisterLicensingServiceServer(g, &licensingServer{srv: s})
+	halovetv1.RegisterConsumptionServiceServer(g, &consumptionServer{srv: s})
+	halovetv1.RegisterAnalysisServiceServer(g, &analysisServer{srv: s})
+	halovetv1.RegisterAccessServiceServer(g, &accessServer{srv: s})
+	s.m.rpc.InitializeMetrics(g)
+	return g
 }
 
 // Serve accepts calls on lis until ctx is done, then shuts down gracefully: health turns
@@ -203,13 +215,22 @@ func (s *Server) Serve(ctx context.Context, lis net.Listener) error {
 	s.health.Shutdown() // every service NOT_SERVING from here on
 	s.log.Info("shutting down", "grace_period", s.opts.GracePeriod.String())
 	done := make(chan struct{})
-	go func() { s.grpc.GracefulStop(); close(done) }()
+	go func() {
+		s.grpc.GracefulStop()
+		if in := s.inProcess(); in != nil {
+			in.GracefulStop()
+		}
+		close(done)
+	}()
 	select {
 	case <-done:
 		s.log.Info("all calls finished")
 	case <-time.After(s.opts.GracePeriod):
 		s.log.Warn("grace period over; cutting the calls left")
 		s.grpc.Stop()
+		if in := s.inProcess(); in != nil {
+			in.Stop()
+		}
 		<-done
 	}
 	if err := <-errc; err != nil && !errors.Is(err, grpc.ErrServerStopped) {

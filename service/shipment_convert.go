@@ -2,6 +2,7 @@ package service
 
 import (
 	"strings"
+	"sync"
 
 	"google.golang.org/protobuf/encoding/protojson"
 
@@ -131,3 +132,61 @@ func ptr[T any](v T) *T { return &v }
 // RecordFromProto maps a wire record to the checker's record, as the command line writes
 // a recorded shipment back into a batch file; RecordToProto is its inverse.
 func RecordFromProto(p *halovetv1.ShipmentRecord) validate.Record { return recordFromProto(p) }
+
+var (
+	cautionMu    sync.Mutex
+	cautionCache = map[string][]string{}
+)
+
+// cautionsFor returns the catalogue's safety cautions for a safety class.
+func cautionsFor(class string) []string {
+	cautionMu.Lock()
+	defer cautionMu.Unlock()
+	c, ok := cautionCache[class]
+	if !ok {
+		c = substances.Cautions(class, true)
+		cautionCache[class] = c
+	}
+	return c
+}
+
+var outcomeFromProto = map[halovetv1.Outcome]validate.Outcome{
+	halovetv1.Outcome_OUTCOME_ACCEPTED:               validate.OutcomeAccepted,
+	halovetv1.Outcome_OUTCOME_ACCEPTED_WITH_WARNINGS: validate.OutcomeAcceptedWithWarnings,
+	halovetv1.Outcome_OUTCOME_REJECTED:               validate.OutcomeRejected,
+}
+
+var severityFromProto = map[halovetv1.Severity]validate.Severity{
+	halovetv1.Severity_SEVERITY_NOTICE:  validate.SeverityNotice,
+	halovetv1.Severity_SEVERITY_WARNING: validate.SeverityWarning,
+	halovetv1.Severity_SEVERITY_ERROR:   validate.SeverityError,
+}
+
+// VerdictFromProto maps a wire verdict back to the validate verdict, as the command line
+// and the console read the answers of the streaming calls (the cautions of its safety
+// class from the catalogue).
+func VerdictFromProto(p *halovetv1.Verdict) validate.Verdict {
+	v := validate.Verdict{RecordKey: p.GetRecordKey(), Line: p.GetSourceLine(), Outcome: outcomeFromProto[p.GetOutcome()],
+		Replayed: p.GetReplayed()}
+	for _, f := range p.GetFindings() {
+		v.Findings = append(v.Findings, validate.Finding{Code: f.GetCode(), Severity: severityFromProto[f.GetSeverity()],
+			Field: f.GetField(), Message: f.GetMessage()})
+	}
+	if fg := p.GetFigures(); fg != nil {
+		v.Resolved = true
+		v.Figures = validate.Figures{Designation: fg.GetResolvedDesignation(), NetMassKg: fg.GetNetMassKg(),
+			ODPTonnes: fg.GetOdpTonnes(), CO2eTonnes: fg.GetCo2ETonnes(), CountsInConsumption: fg.GetCountsInConsumption(),
+			PartnerNonParty: fg.GetPartnerNonParty(), SafetyClass: fg.GetSafetyClass(), Cautions: cautionsFor(fg.GetSafetyClass())}
+		if fg.GetKind() == halovetv1.EntryKind_ENTRY_KIND_BLEND {
+			v.Figures.Kind = substances.KindBlend
+		} else {
+			v.Figures.Kind = substances.KindSubstance
+		}
+		for _, c := range fg.GetComponents() {
+			v.Figures.Components = append(v.Figures.Components, substances.ComponentFigures{Designation: c.GetDesignation(),
+				Group: substances.Group(c.GetAnnexGroup()), MassPct: c.GetMassPercent(), MassKg: c.GetMassKg(), ODP: c.GetOdp(),
+				ODPTonnes: c.GetOdpTonnes(), ProtocolGWP: c.GetGwpProtocol(), CO2eTonnes: c.GetCo2ETonnes(), SafetyClass: c.GetSafetyClass()})
+		}
+	}
+	return v
+}

@@ -18,6 +18,19 @@ import (
 // DecisionSupportNotice closes every text report.
 const DecisionSupportNotice = "These results are decision support. The treaty text, national law, the national authority and licensed practice prevail."
 
+// UnreadableVerdict is the verdict of a record with fields that could not be read (one
+// field_unreadable finding each); such a record is answered without being sent.
+func UnreadableVerdict(r *Record) Verdict {
+	info, _ := LookupCode(CodeFieldUnreadable)
+	v := Verdict{RecordKey: r.Key, Line: r.Line}
+	for _, fi := range r.Unreadable {
+		v.Findings = append(v.Findings, Finding{Code: CodeFieldUnreadable, Severity: info.Severity,
+			Field: fi.Field, Message: fmt.Sprintf("%q: %s", fi.Text, fi.Reason)})
+	}
+	v.Add()
+	return v
+}
+
 // LineErrorVerdict turns a line a reader could not read into a rejected verdict with one
 // LINE_UNREADABLE finding, so reports and summaries account for every line.
 func LineErrorVerdict(le *LineError) Verdict {

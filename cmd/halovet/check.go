@@ -23,7 +23,6 @@ import (
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
-	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -341,7 +340,7 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 				cancel()
 				break
 			}
-			cv := verdictFromProto(queue[0])
+			cv := service.VerdictFromProto(queue[0])
 			queue = queue[1:]
 			v = &cv
 		}
@@ -450,7 +449,7 @@ func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStre
 			v := validate.LineErrorVerdict(lerr)
 			it.local = &v
 		case len(rec.Unreadable) > 0:
-			v := unreadableVerdict(&rec)
+			v := validate.UnreadableVerdict(&rec)
 			it.local = &v
 		default:
 			buf = append(buf, service.RecordToProto(&rec))
@@ -477,72 +476,6 @@ func ignoreEnded(err error) error {
 		return nil
 	}
 	return err
-}
-
-func unreadableVerdict(r *validate.Record) validate.Verdict {
-	info, _ := validate.LookupCode(validate.CodeFieldUnreadable)
-	v := validate.Verdict{RecordKey: r.Key, Line: r.Line}
-	for _, fi := range r.Unreadable {
-		v.Findings = append(v.Findings, validate.Finding{Code: validate.CodeFieldUnreadable, Severity: info.Severity,
-			Field: fi.Field, Message: fmt.Sprintf("%q: %s", fi.Text, fi.Reason)})
-	}
-	v.Add()
-	return v
-}
-
-var (
-	cautionMu    sync.Mutex
-	cautionCache = map[string][]string{}
-)
-
-// cautionsFor returns the catalogue's safety cautions for a safety class.
-func cautionsFor(class string) []string {
-	cautionMu.Lock()
-	defer cautionMu.Unlock()
-	c, ok := cautionCache[class]
-	if !ok {
-		c = substances.Cautions(class, true)
-		cautionCache[class] = c
-	}
-	return c
-}
-
-var outcomeFromProto = map[halovetv1.Outcome]validate.Outcome{
-	halovetv1.Outcome_OUTCOME_ACCEPTED:               validate.OutcomeAccepted,
-	halovetv1.Outcome_OUTCOME_ACCEPTED_WITH_WARNINGS: validate.OutcomeAcceptedWithWarnings,
-	halovetv1.Outcome_OUTCOME_REJECTED:               validate.OutcomeRejected,
-}
-
-var severityFromProto = map[halovetv1.Severity]validate.Severity{
-	halovetv1.Severity_SEVERITY_NOTICE:  validate.SeverityNotice,
-	halovetv1.Severity_SEVERITY_WARNING: validate.SeverityWarning,
-	halovetv1.Severity_SEVERITY_ERROR:   validate.SeverityError,
-}
-
-func verdictFromProto(p *halovetv1.Verdict) validate.Verdict {
-	v := validate.Verdict{RecordKey: p.GetRecordKey(), Line: p.GetSourceLine(), Outcome: outcomeFromProto[p.GetOutcome()],
-		Replayed: p.GetReplayed()}
-	for _, f := range p.GetFindings() {
-		v.Findings = append(v.Findings, validate.Finding{Code: f.GetCode(), Severity: severityFromProto[f.GetSeverity()],
-			Field: f.GetField(), Message: f.GetMessage()})
-	}
-	if fg := p.GetFigures(); fg != nil {
-		v.Resolved = true
-		v.Figures = validate.Figures{Designation: fg.GetResolvedDesignation(), NetMassKg: fg.GetNetMassKg(),
-			ODPTonnes: fg.GetOdpTonnes(), CO2eTonnes: fg.GetCo2ETonnes(), CountsInConsumption: fg.GetCountsInConsumption(),
-			PartnerNonParty: fg.GetPartnerNonParty(), SafetyClass: fg.GetSafetyClass(), Cautions: cautionsFor(fg.GetSafetyClass())}
-		if fg.GetKind() == halovetv1.EntryKind_ENTRY_KIND_BLEND {
-			v.Figures.Kind = substances.KindBlend
-		} else {
-			v.Figures.Kind = substances.KindSubstance
-		}
-		for _, c := range fg.GetComponents() {
-			v.Figures.Components = append(v.Figures.Components, substances.ComponentFigures{Designation: c.GetDesignation(),
-				Group: substances.Group(c.GetAnnexGroup()), MassPct: c.GetMassPercent(), MassKg: c.GetMassKg(), ODP: c.GetOdp(),
-				ODPTonnes: c.GetOdpTonnes(), ProtocolGWP: c.GetGwpProtocol(), CO2eTonnes: c.GetCo2ETonnes(), SafetyClass: c.GetSafetyClass()})
-		}
-	}
-	return v
 }
 
 // startProgress writes progress on w while enabled: on a terminal one line redrawn every

@@ -231,6 +231,18 @@ func envDuration(key string, def time.Duration) time.Duration {
 	return def
 }
 
+// envBoolDefault is envBool with a default for an unset variable; "0", "false", "no" and
+// "off" turn it off.
+func envBoolDefault(key string, def bool) bool {
+	switch strings.ToLower(os.Getenv(key)) {
+	case "":
+		return def
+	case "0", "false", "no", "off":
+		return false
+	}
+	return envBool(key)
+}
+
 func envBool(key string) bool {
 	switch strings.ToLower(os.Getenv(key)) {
 	case "1", "true", "yes", "on":

@@ -33,8 +33,11 @@ average and the room left for the rest of the period.
 Exit code 1 when consumption exceeded the allowed level in some year (the output is
 written in full first).
 
---chart FILE.svg also draws consumption (points joined by a line) against the
-allowed level (a step line) over the years, as a self-contained SVG file.
+--chart FILE.svg (or FILE.png) also draws the years as a chart: consumption (points
+joined by a line) against the allowed level (a step line) and the baseline (dashed);
+an exceeded year is a square labelled with its excess, a year without data a shaded
+column (never a point on zero), the current year is marked provisional, and the title
+names the reporting Party and the group. SVG is self-contained; PNG suits reports.
 
 Examples:
   halovet compliance --group C/I --from 2020 --to 2026
@@ -47,7 +50,7 @@ func defineCompliance(fs *pflag.FlagSet) runFunc {
 	group := fs.String("group", "", "Annex group (A/I ... E/I), or F for HFCs (required)")
 	from := fs.Int("from", 0, "first year (required)")
 	to := fs.Int("to", 0, "last year (default: --from)")
-	chart := fs.String("chart", "", "also write an SVG chart of consumption against the allowed level to this file")
+	chart := fs.String("chart", "", "also draw the chart of consumption against the allowed level to this file (.svg or .png)")
 	return func(ctx context.Context, args []string) error {
 		if err := rf.check(args); err != nil {
 			return err
@@ -58,8 +61,8 @@ func defineCompliance(fs *pflag.FlagSet) runFunc {
 		if *to == 0 {
 			*to = *from
 		}
-		if *chart != "" && !strings.HasSuffix(strings.ToLower(*chart), ".svg") {
-			return usageErr("--chart %q: give a file name ending in .svg", *chart)
+		if *chart != "" && !chartFormatOK(*chart) {
+			return usageErr("--chart %q: give a file name ending in .svg (a vector drawing) or .png (an image for reports)", *chart)
 		}
 		return rf.withConn(func(conn *grpc.ClientConn) error {
 			resp, err := halovetv1.NewConsumptionServiceClient(conn).AssessCompliance(ctx,
@@ -68,7 +71,11 @@ func defineCompliance(fs *pflag.FlagSet) runFunc {
 				return err
 			}
 			if *chart != "" {
-				if err := writeChartFile(*chart, resp); err != nil {
+				party, err := reportingPartyName(ctx, conn)
+				if err != nil {
+					return err
+				}
+				if err := writeChartFile(*chart, resp, party); err != nil {
 					return err
 				}
 			}

@@ -72,7 +72,11 @@ func demoReports(ctx context.Context, conn *grpc.ClientConn, dir, chartDir strin
 		if chartDir == "" {
 			continue
 		}
-		if err := writeChartFile(chart, ac); err != nil {
+		party, err := reportingPartyName(ctx, conn)
+		if err != nil {
+			return err
+		}
+		if err := writeChartFile(chart, ac, party); err != nil {
 			return err
 		}
 		fmt.Fprintf(out, "chart written to %s\n", chart)

@@ -404,7 +404,7 @@ func TestEntriesAndReportsEndToEnd(t *testing.T) {
 		t.Fatal(err)
 	}
 	out.Reset()
-	if err := writeChart(&out, ac); err != nil {
+	if err := writeChart(&out, ac, "", false); err != nil {
 		t.Fatal(err)
 	}
 	var doc svgNode
@@ -413,7 +413,7 @@ func TestEntriesAndReportsEndToEnd(t *testing.T) {
 	}
 	points := 0
 	doc.walk(func(n svgNode) {
-		if n.XMLName.Local == "circle" && strings.HasPrefix(n.attr("class"), "point") {
+		if strings.Contains(" "+n.attr("class")+" ", " point ") {
 			points++
 		}
 	})

@@ -16,6 +16,7 @@ import (
 	"google.golang.org/grpc/credentials"
 
 	"github.com/halovet/halovet/access"
+	"github.com/halovet/halovet/console"
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/store"
 )
@@ -29,7 +30,9 @@ const serveUsage = `serve [flags]
 
 Runs the gRPC API (catalogue, shipments, licensing, consumption, analysis) with the
 standard grpc.health.v1 health service and server reflection on --listen, and the same
-calls over HTTP/JSON (paths in GET /openapi.json) and gRPC-Web on --http-listen. Without --database-url it runs a
+calls over HTTP/JSON (paths in GET /openapi.json) and gRPC-Web on --http-listen, with
+the web console under /console/ (the catalogue, the licence register, shipment batches
+and the year; sign-in with a credential's secret). Without --database-url it runs a
 private PostgreSQL cluster in --data-dir from the machine's PostgreSQL server binaries
 and stops it on exit. SIGINT or SIGTERM shut down gracefully: health turns NOT_SERVING,
 calls in flight get --grace-period to finish.
@@ -65,6 +68,7 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 	oidcJWKS := fs.String("oidc-jwks-url", envOr("HALOVET_OIDC_JWKS_URL", ""), "the issuer's key set URL, instead of discovery (env HALOVET_OIDC_JWKS_URL)")
 	oidcRole := fs.String("oidc-role-claim", envOr("HALOVET_OIDC_ROLE_CLAIM", "halovet_role"), "claim holding the halovet role (env HALOVET_OIDC_ROLE_CLAIM)")
 	oidcCompany := fs.String("oidc-company-claim", envOr("HALOVET_OIDC_COMPANY_CLAIM", "halovet_company"), "claim holding a trader's company (env HALOVET_OIDC_COMPANY_CLAIM)")
+	consoleOn := fs.Bool("console", envBoolDefault("HALOVET_CONSOLE", true), "serve the web console under /console/ on --http-listen; sign-in with a credential's secret (env HALOVET_CONSOLE)")
 	openAccess := fs.Bool("open-access", envBool("HALOVET_OPEN_ACCESS"), "no authentication: every call acts as the officer \"open-access\"; loopback addresses only (env HALOVET_OPEN_ACCESS)")
 	openOnNetwork := fs.Bool("open-access-on-network", envBool("HALOVET_OPEN_ACCESS_ON_NETWORK"), "allow --open-access on a non-loopback address: anyone who reaches the port may change the register (env HALOVET_OPEN_ACCESS_ON_NETWORK)")
 	limits := serveLimitFlags(fs)
@@ -206,6 +210,13 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		ctx, stop := context.WithCancel(ctx)
 		defer stop()
 		var side []chan error
+		if httpLis != nil && *consoleOn {
+			closeConsole, err := mountConsole(srv, db.Store, *openAccess, log)
+			if err != nil {
+				return err
+			}
+			defer closeConsole()
+		}
 		if httpLis != nil {
 			done := make(chan error, 1)
 			go func() { done <- srv.ServeHTTPAPI(ctx, httpLis, *certFile, *keyFile); stop() }()
@@ -306,4 +317,29 @@ func serveMetrics(ctx context.Context, lis net.Listener, h http.Handler, log *sl
 		return err
 	}
 	return nil
+}
+
+// mountConsole mounts the web console on the HTTP listener. Its pages call the server in
+// process, each call carrying the signed-in identity's own secret, so the server applies
+// the same policy (and the same company limits) as to any other caller. Sign-in checks the
+// secret against the stored credentials. With --open-access there are no credentials to
+// sign in with, and the console is not mounted.
+func mountConsole(srv *service.Server, st *store.Store, openAccess bool, log *slog.Logger) (func(), error) {
+	if openAccess {
+		log.Info("console off: with --open-access there are no credentials to sign in with")
+		return func() {}, nil
+	}
+	conn, err := srv.InProcessConn()
+	if err != nil {
+		return nil, err
+	}
+	con, err := console.New(console.Config{Conn: conn, Auth: console.AccessAuthenticator{A: access.NewAuthenticator(st, access.AuthOptions{})},
+		Policy: console.AccessPolicy{}, CallContext: console.BearerCallContext, Logger: log})
+	if err != nil {
+		_ = conn.Close()
+		return nil, err
+	}
+	srv.Mount(console.Prefix, con)
+	log.Info("console mounted", "path", console.Prefix)
+	return func() { _ = conn.Close() }, nil
 }

@@ -1,0 +1,193 @@
+package console
+
+import (
+	"fmt"
+	"net/http"
+	"strconv"
+	"strings"
+
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+)
+
+type licencesData struct {
+	Company      string
+	Year         string
+	OwnCompany   string // set for a trader: the list is limited to it
+	Licences     []*halovetv1.Licence
+	CanOpen      bool
+	CompanyFixed bool
+}
+
+// licences lists the register. A trader's credential sees its own company only, whatever
+// the filter says.
+func (c *Console) licences(w http.ResponseWriter, r *http.Request, rq *request) {
+	q := r.URL.Query()
+	d := licencesData{Company: strings.TrimSpace(q.Get("company")), Year: strings.TrimSpace(q.Get("year")), CanOpen: c.allowed(rq, rpcGetLicence)}
+	if own := rq.id().Company; own != "" {
+		d.Company, d.OwnCompany, d.CompanyFixed = own, own, true
+	}
+	req := &halovetv1.ListLicencesRequest{CompanyId: d.Company}
+	if d.Year != "" {
+		y, err := strconv.Atoi(d.Year)
+		if err != nil || y < 1987 || y > 2200 {
+			c.fail(w, r, rq.s, http.StatusBadRequest, "Year not accepted", fmt.Sprintf("year %q: give a calendar year such as 2026, or leave it empty for every year.", d.Year))
+			return
+		}
+		req.Year = int32(y)
+	}
+	resp, err := c.licensingClient().ListLicences(c.ctx(r, rq, rpcListLicences), req)
+	if err != nil {
+		c.callFailed(w, r, rq, "listing licences", err)
+		return
+	}
+	for _, l := range resp.GetLicences() {
+		if d.OwnCompany != "" && l.GetCompanyId() != d.OwnCompany {
+			continue // the server's answer is filtered already; this keeps it so whatever it says
+		}
+		d.Licences = append(d.Licences, l)
+	}
+	c.render(w, r, rq.s, http.StatusOK, "licences", "Licence register", d)
+}
+
+type licenceData struct {
+	L            *halovetv1.Licence
+	CanAmend     bool
+	CanSetStatus bool
+	Statuses     []statusChoice
+}
+
+type statusChoice struct {
+	Value, Label string
+}
+
+// licence shows one licence and, where the role may, the forms to suspend or reinstate it.
+func (c *Console) licence(w http.ResponseWriter, r *http.Request, rq *request) {
+	l, ok := c.readLicence(w, r, rq, r.PathValue("number"))
+	if !ok {
+		return
+	}
+	d := licenceData{L: l, CanSetStatus: c.allowed(rq, rpcSetStatus), CanAmend: c.allowed(rq, rpcAmend)}
+	switch l.GetStatus() {
+	case halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE:
+		d.Statuses = []statusChoice{{"suspended", "Suspend"}}
+	case halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED:
+		d.Statuses = []statusChoice{{"active", "Reinstate"}}
+	}
+	c.render(w, r, rq.s, http.StatusOK, "licence", "Licence "+l.GetLicenceNumber(), d)
+}
+
+// readLicence reads a licence the identity may see; a trader asking for another company's
+// licence is told there is none (the same answer as for a licence that does not exist).
+func (c *Console) readLicence(w http.ResponseWriter, r *http.Request, rq *request, number string) (*halovetv1.Licence, bool) {
+	resp, err := c.licensingClient().GetLicence(c.ctx(r, rq, rpcGetLicence), &halovetv1.GetLicenceRequest{LicenceNumber: number})
+	if err != nil {
+		c.callFailed(w, r, rq, "reading licence "+number, err)
+		return nil, false
+	}
+	l := resp.GetLicence()
+	if own := rq.id().Company; own != "" && l.GetCompanyId() != own {
+		c.fail(w, r, rq.s, http.StatusNotFound, "Not found", "reading licence "+number+": no licence of your company has that number.")
+		return nil, false
+	}
+	return l, true
+}
+
+var statusValues = map[string]halovetv1.LicenceStatus{
+	"active":    halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE,
+	"suspended": halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED,
+}
+
+// setLicenceStatus suspends or reinstates a licence, with the reason the form gives.
+func (c *Console) setLicenceStatus(w http.ResponseWriter, r *http.Request, rq *request) {
+	number := r.PathValue("number")
+	st, ok := statusValues[r.PostFormValue("status")]
+	if !ok {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("status %q: the console sets active (reinstate) or suspended. Nothing was changed.", r.PostFormValue("status")))
+		return
+	}
+	reason := strings.TrimSpace(r.PostFormValue("reason"))
+	if reason == "" {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", "reason: say why the status changes (it goes into the audit log). Nothing was changed.")
+		return
+	}
+	if _, ok := c.readLicence(w, r, rq, number); !ok {
+		return
+	}
+	if _, err := c.licensingClient().SetLicenceStatus(c.ctx(r, rq, rpcSetStatus), &halovetv1.SetLicenceStatusRequest{
+		LicenceNumber: number, Status: st, Reason: reason + " (console, " + rq.id().Name + ")"}); err != nil {
+		c.callFailed(w, r, rq, "changing the status of licence "+number, err)
+		return
+	}
+	http.Redirect(w, r, "/console/licences/"+number, http.StatusSeeOther)
+}
+
+// Helpers for the templates.
+
+func statusWord(s halovetv1.LicenceStatus) string {
+	return strings.ToLower(strings.TrimPrefix(s.String(), "LICENCE_STATUS_"))
+}
+
+func unitWord(u halovetv1.QuotaUnit) string {
+	switch u {
+	case halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES:
+		return "t"
+	case halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES:
+		return "ODP t"
+	case halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES:
+		return "CO2-eq t"
+	}
+	return "?"
+}
+
+func enumWords[E interface{ String() string }](prefix string, es []E) string {
+	out := make([]string, len(es))
+	for i, e := range es {
+		out[i] = strings.ToLower(strings.ReplaceAll(strings.TrimPrefix(e.String(), prefix), "_", " "))
+	}
+	return strings.Join(out, ", ")
+}
+
+func directionWords(ds []halovetv1.Direction) string { return enumWords("DIRECTION_", ds) }
+func purposeWords(ps []halovetv1.Purpose) string     { return enumWords("PURPOSE_", ps) }
+
+// amendQuota changes the allocation of one quota line (AmendLicence: the server refuses an
+// allocation below what is drawn already), with the reason the form gives.
+func (c *Console) amendQuota(w http.ResponseWriter, r *http.Request, rq *request) {
+	number := r.PathValue("number")
+	line, err := strconv.Atoi(r.PostFormValue("line"))
+	if err != nil {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("line %q: give the quota line's number. Nothing was changed.", r.PostFormValue("line")))
+		return
+	}
+	raw := strings.ReplaceAll(strings.TrimSpace(r.PostFormValue("allocated")), ",", "")
+	alloc, err := strconv.ParseFloat(raw, 64)
+	if err != nil || alloc < 0 || alloc > 1e12 {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("allocated %q: give the new allocation as a number of the line's unit, 0 or more (for example 4.25). Nothing was changed.", r.PostFormValue("allocated")))
+		return
+	}
+	reason := strings.TrimSpace(r.PostFormValue("reason"))
+	if reason == "" {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", "reason: say why the allocation changes (it goes into the audit log). Nothing was changed.")
+		return
+	}
+	l, ok := c.readLicence(w, r, rq, number)
+	if !ok {
+		return
+	}
+	found := false
+	for _, q := range l.GetQuotaLines() {
+		if int(q.GetLineNumber()) == line {
+			q.Allocated, found = alloc, true
+		}
+	}
+	if !found {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("line %d: licence %s has no such quota line. Nothing was changed.", line, number))
+		return
+	}
+	if _, err := c.licensingClient().AmendLicence(c.ctx(r, rq, rpcAmend), &halovetv1.AmendLicenceRequest{
+		Licence: l, Reason: reason + " (console, " + rq.id().Name + ")"}); err != nil {
+		c.callFailed(w, r, rq, "amending licence "+number, err)
+		return
+	}
+	http.Redirect(w, r, "/console/licences/"+number, http.StatusSeeOther)
+}

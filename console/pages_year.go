@@ -1,0 +1,209 @@
+package console
+
+import (
+	"bytes"
+	"fmt"
+	"html/template"
+	"net/http"
+	"net/url"
+	"strconv"
+	"strings"
+
+	"github.com/halovet/halovet/chart"
+	"github.com/halovet/halovet/controls"
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+)
+
+// yearQuery is the year page's question: a control scope and a span of years.
+type yearQuery struct {
+	Group    string
+	From, To int
+}
+
+func (q yearQuery) values() string {
+	v := url.Values{"group": {q.Group}, "from": {strconv.Itoa(q.From)}, "to": {strconv.Itoa(q.To)}}
+	return v.Encode()
+}
+
+// parseYearQuery reads group, from and to; the defaults are C/I and the five years to the
+// current one.
+func (c *Console) parseYearQuery(r *http.Request) (yearQuery, error) {
+	q := r.URL.Query()
+	now := c.cfg.Now().Year()
+	yq := yearQuery{Group: strings.TrimSpace(q.Get("group")), From: now - 4, To: now}
+	if yq.Group == "" {
+		yq.Group = "C/I"
+	}
+	sc, err := controls.ParseScope(yq.Group)
+	if err != nil {
+		return yq, fmt.Errorf("group %q: give an Annex group (A/I, A/II, B/I, B/II, B/III, C/I, C/II, C/III, E/I) or F for the HFCs", yq.Group)
+	}
+	yq.Group = string(sc)
+	for _, f := range []struct {
+		name string
+		dst  *int
+	}{{"from", &yq.From}, {"to", &yq.To}} {
+		if s := strings.TrimSpace(q.Get(f.name)); s != "" {
+			y, err := strconv.Atoi(s)
+			if err != nil || y < 1986 || y > 2100 {
+				return yq, fmt.Errorf("%s %q: give a calendar year between 1986 and 2100", f.name, s)
+			}
+			*f.dst = y
+		}
+	}
+	if yq.To < yq.From {
+		return yq, fmt.Errorf("to %d is before from %d: give the first year in from and the last in to", yq.To, yq.From)
+	}
+	if yq.To-yq.From > 60 {
+		return yq, fmt.Errorf("from %d to %d: at most 60 years at once", yq.From, yq.To)
+	}
+	return yq, nil
+}
+
+type yearData struct {
+	Q           yearQuery
+	Scopes      []scopeChoice
+	Party       string
+	Consumption *halovetv1.GetConsumptionResponse
+	Baseline    *halovetv1.GetBaselineResponse
+	Assessment  *halovetv1.AssessComplianceResponse
+	ChartSVG    template.URL // built here from the parsed query, its values encoded
+	ChartPNG    template.URL
+	ChartAlt    string
+	Current     int
+}
+
+type scopeChoice struct{ Value, Label string }
+
+func scopeChoices() []scopeChoice {
+	var out []scopeChoice
+	for _, s := range controls.AllScopes {
+		out = append(out, scopeChoice{string(s), string(s) + " — " + s.FullName()})
+	}
+	return out
+}
+
+// year shows the consumption of the last year asked for, the group's baseline and the
+// compliance of each year, with the chart.
+func (c *Console) year(w http.ResponseWriter, r *http.Request, rq *request) {
+	yq, err := c.parseYearQuery(r)
+	if err != nil {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", err.Error())
+		return
+	}
+	ctx := c.ctx(r, rq, rpcAssess)
+	cons := c.consumptionClient()
+	d := yearData{Q: yq, Scopes: scopeChoices(), ChartSVG: template.URL("/console/year/chart.svg?" + yq.values()), ChartPNG: template.URL("/console/year/chart.png?" + yq.values()), Current: c.cfg.Now().Year()}
+	if d.Assessment, err = cons.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: yq.Group, FromYear: int32(yq.From), ToYear: int32(yq.To)}); err != nil {
+		c.callFailed(w, r, rq, "assessing compliance", err)
+		return
+	}
+	if d.Consumption, err = cons.GetConsumption(ctx, &halovetv1.GetConsumptionRequest{Year: int32(yq.To)}); err != nil {
+		c.callFailed(w, r, rq, "reading consumption", err)
+		return
+	}
+	if d.Baseline, err = cons.GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: yq.Group}); err != nil {
+		c.callFailed(w, r, rq, "reading the baseline", err)
+		return
+	}
+	if d.Party, err = c.partyName(r, rq); err != nil {
+		c.callFailed(w, r, rq, "reading the reporting Party", err)
+		return
+	}
+	cc := chart.FromAssessment(d.Assessment, d.Party, d.Current)
+	d.ChartAlt = chartAlt(cc)
+	c.render(w, r, rq.s, http.StatusOK, "year", "The year", d)
+}
+
+// chartAlt describes the chart in words for those who cannot see it; the table beside it
+// gives every figure.
+func chartAlt(c chart.Compliance) string {
+	var exceeded, nodata []string
+	for _, y := range c.Years {
+		if y.Exceeded {
+			exceeded = append(exceeded, fmt.Sprintf("%d (by %s %s)", y.Year, figure(y.Excess()), c.Unit))
+		}
+		if !y.HasData {
+			nodata = append(nodata, strconv.Itoa(y.Year))
+		}
+	}
+	s := "Chart: " + c.Title() + "."
+	if len(exceeded) > 0 {
+		s += " Exceeded in " + strings.Join(exceeded, ", ") + "."
+	} else {
+		s += " No year exceeded the allowed level."
+	}
+	if len(nodata) > 0 {
+		s += " No data for " + strings.Join(nodata, ", ") + "."
+	}
+	return s + " The table below gives every figure."
+}
+
+func (c *Console) partyName(r *http.Request, rq *request) (string, error) {
+	resp, err := c.licensingClient().ListParties(c.ctx(r, rq, rpcAssess), &halovetv1.ListPartiesRequest{})
+	if err != nil {
+		return "", err
+	}
+	for _, p := range resp.GetParties() {
+		if p.GetReportingParty() {
+			return p.GetName(), nil
+		}
+	}
+	return "", nil
+}
+
+func (c *Console) yearChart(w http.ResponseWriter, r *http.Request, rq *request, asPNG bool) {
+	yq, err := c.parseYearQuery(r)
+	if err != nil {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", err.Error())
+		return
+	}
+	resp, err := c.consumptionClient().AssessCompliance(c.ctx(r, rq, rpcAssess), &halovetv1.AssessComplianceRequest{AnnexGroup: yq.Group, FromYear: int32(yq.From), ToYear: int32(yq.To)})
+	if err != nil {
+		c.callFailed(w, r, rq, "assessing compliance", err)
+		return
+	}
+	party, err := c.partyName(r, rq)
+	if err != nil {
+		c.callFailed(w, r, rq, "reading the reporting Party", err)
+		return
+	}
+	cc := chart.FromAssessment(resp, party, c.cfg.Now().Year())
+	var b bytes.Buffer
+	name := fmt.Sprintf("compliance-%s-%d-%d", strings.ReplaceAll(strings.ToLower(yq.Group), "/", ""), yq.From, yq.To)
+	if asPNG {
+		err = chart.PNG(&b, cc)
+		w.Header().Set("Content-Type", "image/png")
+		w.Header().Set("Content-Disposition", fmt.Sprintf("attachment; filename=%q", name+".png"))
+	} else {
+		err = chart.SVG(&b, cc)
+		w.Header().Set("Content-Type", "image/svg+xml")
+	}
+	if err != nil {
+		c.fail(w, r, rq.s, http.StatusInternalServerError, "The chart could not be drawn", err.Error())
+		return
+	}
+	_, _ = w.Write(b.Bytes())
+}
+
+func (c *Console) yearChartSVG(w http.ResponseWriter, r *http.Request, rq *request) {
+	c.yearChart(w, r, rq, false)
+}
+func (c *Console) yearChartPNG(w http.ResponseWriter, r *http.Request, rq *request) {
+	c.yearChart(w, r, rq, true)
+}
+
+// outcomeClass is outcomeWord as a CSS class name.
+func outcomeClass(o halovetv1.ComplianceOutcome) string {
+	return strings.ReplaceAll(outcomeWord(o), " ", "-")
+}
+
+func outcomeWord(o halovetv1.ComplianceOutcome) string {
+	switch o {
+	case halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN:
+		return "within"
+	case halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED:
+		return "exceeded"
+	}
+	return "not assessed"
+}
