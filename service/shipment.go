@@ -701,8 +701,15 @@ func (s *Server) commit(ctx context.Context, batch []*pendingRecord, left stream
 			// The balance as of this record's own draw, not as the check saw it.
 			p.verdict.Add(quotaShortFindings(p.lic, r, rows[i].Draws))
 		case store.RecordLicenceInactive:
-			p.verdict.Add(findingFor(validate.CodeLicenceInactive, "licence_number", fmt.Sprintf(
-				"licence %s is %s when this record is written", r.LicenceNumber, r.Detail)))
+			msg := fmt.Sprintf("licence %s was %s on the declaration_date %s, as the register stands when this record is written; only a licence active on that day is accepted",
+				r.LicenceNumber, r.Detail, rows[i].DeclarationDate.Format(dateLayout))
+			switch r.Detail {
+			case "missing":
+				msg = fmt.Sprintf("licence %s no longer exists when this record is written", r.LicenceNumber)
+			case "missing line":
+				msg = fmt.Sprintf("quota line %d of licence %s no longer exists when this record is written", r.LineNumber, r.LicenceNumber)
+			}
+			p.verdict.Add(findingFor(validate.CodeLicenceInactive, "licence_number", msg))
 		case store.RecordYearClosed:
 			p.verdict.Add(findingFor(validate.CodeYearClosed, "declaration_date", fmt.Sprintf(
 				"reporting year %d is closed (since %s: %s); nothing declared in it is recorded until it is reopened",
