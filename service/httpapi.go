@@ -2,6 +2,7 @@ package service
 
 import (
 	"context"
+	"crypto/tls"
 	"errors"
 	"fmt"
 	"log/slog"
@@ -51,9 +52,10 @@ func notFound(w http.ResponseWriter, r *http.Request) {
 }
 
 // ServeHTTPAPI serves HTTPHandler on lis until ctx is done, then shuts down, giving calls
-// in flight the grace period. With certFile and keyFile it serves HTTPS. It returns nil
-// after a clean shutdown.
-func (s *Server) ServeHTTPAPI(ctx context.Context, lis net.Listener, certFile, keyFile string) error {
+// in flight the grace period. With tlsConfig it serves HTTPS (TLSFiles.Config: the
+// certificate reloaded when its files change, client certificates requested as on the gRPC
+// listener). It returns nil after a clean shutdown.
+func (s *Server) ServeHTTPAPI(ctx context.Context, lis net.Listener, tlsConfig *tls.Config) error {
 	h, err := s.HTTPHandler()
 	if err != nil {
 		return err
@@ -69,10 +71,14 @@ func (s *Server) ServeHTTPAPI(ctx context.Context, lis net.Listener, certFile, k
 		IdleTimeout:       s.limits.ConnIdle,
 		ErrorLog:          slog.NewLogLogger(s.log.Handler(), slog.LevelWarn),
 	}
+	if tlsConfig != nil {
+		hs.TLSConfig = tlsConfig.Clone()
+		hs.TLSConfig.NextProtos = []string{"h2", "http/1.1"}
+	}
 	done := make(chan error, 1)
 	go func() {
-		if certFile != "" {
-			done <- hs.ServeTLS(lis, certFile, keyFile)
+		if tlsConfig != nil {
+			done <- hs.ServeTLS(lis, "", "")
 		} else {
 			done <- hs.Serve(lis)
 		}

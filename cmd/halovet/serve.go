@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"crypto/tls"
 	"errors"
 	"fmt"
 	"log/slog"
@@ -219,7 +220,11 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		}
 		if httpLis != nil {
 			done := make(chan error, 1)
-			go func() { done <- srv.ServeHTTPAPI(ctx, httpLis, *certFile, *keyFile); stop() }()
+			var httpTLS *tls.Config
+			if tlsFiles != nil {
+				httpTLS = tlsFiles.Config() // the same reloaded certificate and client CAs as --listen
+			}
+			go func() { done <- srv.ServeHTTPAPI(ctx, httpLis, httpTLS); stop() }()
 			side = append(side, done)
 		}
 		if metricsLis != nil {
