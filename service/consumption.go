@@ -104,6 +104,13 @@ func (s *Server) entryFromProto(f string, e *halovetv1.NationalEntry, cat *subst
 			vs = append(vs, fieldViolation{f + ".entry_type", fmt.Sprintf("QPS applies to methyl bromide (Annex E) only, not to %s", sub.Designation)})
 		}
 	}
+	out.OutsideCustoms = e.GetOutsideCustoms()
+	if out.OutsideCustoms && t != "" && !deductedUse(t) && t != store.EntryProduction {
+		vs = append(vs, fieldViolation{f + ".outside_customs", "must be false for historical trade totals (they passed customs); accepted: true only for production, destruction, feedstock and QPS entries"})
+	}
+	if t == store.EntryDestruction && out.Substance == "HFC-23" {
+		vs = append(vs, fieldViolation{f + ".entry_type", "HFC-23 destroyed at a plant is by-product, not a deduction from consumption (Art. 2J paras 6-7; Art. 3 para 1(d)): record it as an HFC-23 facility entry (RecordHfc23Entries); HFC-23 imported for destruction is deducted through the shipment's declared purpose"})
+	}
 	out.Tonnes = e.GetMetricTonnes()
 	if math.IsNaN(out.Tonnes) || out.Tonnes < 0 || out.Tonnes > maxEntryTonnes {
 		vs = append(vs, fieldViolation{f + ".metric_tonnes", fmt.Sprintf("is %v; accepted: metric tonnes from 0 to %g", out.Tonnes, float64(maxEntryTonnes))})
@@ -116,7 +123,7 @@ func (s *Server) entryFromProto(f string, e *halovetv1.NationalEntry, cat *subst
 
 func entryToProto(e store.NationalEntry) *halovetv1.NationalEntry {
 	return &halovetv1.NationalEntry{EntryKey: e.Key, Year: int32(e.Year), EntryType: entryTypeEnum[e.Type],
-		Substance: e.Substance, MetricTonnes: e.Tonnes, Note: e.Note}
+		Substance: e.Substance, MetricTonnes: e.Tonnes, Note: e.Note, OutsideCustoms: e.OutsideCustoms}
 }
 
 func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halovetv1.RecordNationalEntriesRequest) (*halovetv1.RecordNationalEntriesResponse, error) {
@@ -144,6 +151,16 @@ func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halo
 	}
 	if len(vs) > 0 {
 		return nil, invalid(vs...) // nothing stored
+	}
+	// One source per quantity: a whole-year entry of a use the shipments already deduct
+	// would count that use twice. (A shipment recorded after the entry is caught when the
+	// year is computed: the entry is then left out with a note.)
+	vs, err := c.srv.doubleCountViolations(ctx, entries)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	if err := c.srv.store.PutNationalEntries(ctx, entries); err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
@@ -304,26 +321,29 @@ func (c *consumptionServer) GetConsumption(ctx context.Context, req *halovetv1.G
 		}
 		pg := &halovetv1.GroupConsumption{AnnexGroup: string(g.Group)}
 		for _, sc := range g.Substances {
-			if sc.Flows == (controls.Flows{}) {
-				continue // zero record of a covered year
-			}
+			// A substance with all flows 0 is a stated zero (a 0 t entry): data, shown.
 			used += sc.Flows.UsedImports + sc.Flows.UsedExports
 			pg.Substances = append(pg.Substances, substanceConsumptionToProto(sc))
 			pg.ConsumptionTonnes += sc.Tonnes
 			pg.ConsumptionOdpTonnes += sc.ODPTonnes
 			pg.ConsumptionCo2ETonnes += sc.CO2eTonnes
 		}
-		if len(pg.Substances) > 0 {
-			out.Groups = append(out.Groups, pg)
+		out.Groups = append(out.Groups, pg)
+	}
+	for _, g := range substances.AllGroups {
+		if only != nil && !slices.Contains(only, g) {
+			continue
+		}
+		if _, ok := cons.Group(year, g); !ok {
+			out.NoDataGroups = append(out.NoDataGroups, string(g))
 		}
 	}
-	switch {
-	case d.covered[year]:
-		out.Notes = append(out.Notes, fmt.Sprintf("%d has recorded shipments: a group without trade counts as 0; production, destruction, feedstock and QPS come from national entries only", year))
-	case d.anyYears[year]:
-		out.Notes = append(out.Notes, fmt.Sprintf("%d has no recorded shipments: figures come from national entries only", year))
-	default:
+	if !d.anyYears[year] {
 		out.Notes = append(out.Notes, fmt.Sprintf("no recorded shipments and no national entries for %d", year))
+	}
+	out.Notes = append(out.Notes, "feedstock, QPS and destruction are deducted from the shipments by their declared purpose; national entries of those kinds add only what never passed customs (domestic production used as feedstock, stocks destroyed), or, unmarked, a whole year's use for a year without shipments declared for it")
+	if len(out.NoDataGroups) > 0 {
+		out.Notes = append(out.Notes, "no data (not zero) for "+strings.Join(out.NoDataGroups, ", ")+": a group without a recorded shipment or a national entry in the year has no data; enter 0 t to state a true zero")
 	}
 	if used != 0 {
 		out.Notes = append(out.Notes, fmt.Sprintf("%s t of used, recycled or reclaimed imports and exports are reported but not counted (Decision IV/24, if reported under Article 7); they do count in an Article 5 Party's base-year consumption", fmtT(used)))

@@ -166,9 +166,17 @@ type NationalEntry struct {
 	// Metric tonnes of substance.
 	MetricTonnes float64 `protobuf:"fixed64,5,opt,name=metric_tonnes,json=metricTonnes,proto3" json:"metric_tonnes,omitempty"`
 	// Free note, e.g. the facility or the source document.
-	Note          string `protobuf:"bytes,6,opt,name=note,proto3" json:"note,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Note string `protobuf:"bytes,6,opt,name=note,proto3" json:"note,omitempty"`
+	// For FEEDSTOCK, QPS and DESTRUCTION entries: true when the entry covers only
+	// quantities that never passed customs (domestic production used as feedstock,
+	// stocks destroyed); they add to what the shipments declared for the same use
+	// deduct. False: the entry is the whole year's use, accepted only for a
+	// substance and year without recorded shipments declared for that use (and
+	// left out, with a note, if such shipments are recorded later). Must be false
+	// for historical trade totals, which passed customs.
+	OutsideCustoms bool `protobuf:"varint,7,opt,name=outside_customs,json=outsideCustoms,proto3" json:"outside_customs,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *NationalEntry) Reset() {
@@ -241,6 +249,13 @@ func (x *NationalEntry) GetNote() string {
 		return x.Note
 	}
 	return ""
+}
+
+func (x *NationalEntry) GetOutsideCustoms() bool {
+	if x != nil {
+		return x.OutsideCustoms
+	}
+	return false
 }
 
 // RecordNationalEntriesRequest carries entries.
@@ -729,7 +744,11 @@ type GetConsumptionResponse struct {
 	Groups []*GroupConsumption `protobuf:"bytes,3,rep,name=groups,proto3" json:"groups,omitempty"`
 	// How the figures were counted, and anything the reader should check (e.g.
 	// uncontrolled blend components left out, process agents deducted).
-	Notes         []string `protobuf:"bytes,4,rep,name=notes,proto3" json:"notes,omitempty"`
+	Notes []string `protobuf:"bytes,4,rep,name=notes,proto3" json:"notes,omitempty"`
+	// Annex groups without any data for the year (no shipment, no national
+	// entry), in Annex order (or of the annex_group asked for): "no data", not
+	// zero. A stated zero is a 0 t national entry and is listed in groups.
+	NoDataGroups  []string `protobuf:"bytes,5,rep,name=no_data_groups,json=noDataGroups,proto3" json:"no_data_groups,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -788,6 +807,13 @@ func (x *GetConsumptionResponse) GetGroups() []*GroupConsumption {
 func (x *GetConsumptionResponse) GetNotes() []string {
 	if x != nil {
 		return x.Notes
+	}
+	return nil
+}
+
+func (x *GetConsumptionResponse) GetNoDataGroups() []string {
+	if x != nil {
+		return x.NoDataGroups
 	}
 	return nil
 }
@@ -1957,7 +1983,7 @@ var File_halovet_v1_consumption_proto protoreflect.FileDescriptor
 const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\n" +
 	"\x1chalovet/v1/consumption.proto\x12\n" +
-	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"\xcd\x01\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"\xf6\x01\n" +
 	"\rNationalEntry\x12\x1b\n" +
 	"\tentry_key\x18\x01 \x01(\tR\bentryKey\x12\x12\n" +
 	"\x04year\x18\x02 \x01(\x05R\x04year\x124\n" +
@@ -1965,7 +1991,8 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"entry_type\x18\x03 \x01(\x0e2\x15.halovet.v1.EntryTypeR\tentryType\x12\x1c\n" +
 	"\tsubstance\x18\x04 \x01(\tR\tsubstance\x12#\n" +
 	"\rmetric_tonnes\x18\x05 \x01(\x01R\fmetricTonnes\x12\x12\n" +
-	"\x04note\x18\x06 \x01(\tR\x04note\"S\n" +
+	"\x04note\x18\x06 \x01(\tR\x04note\x12'\n" +
+	"\x0foutside_customs\x18\a \x01(\bR\x0eoutsideCustoms\"S\n" +
 	"\x1cRecordNationalEntriesRequest\x123\n" +
 	"\aentries\x18\x01 \x03(\v2\x19.halovet.v1.NationalEntryR\aentries\"l\n" +
 	"\x1dRecordNationalEntriesResponse\x12\x16\n" +
@@ -2002,12 +2029,13 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x15GetConsumptionRequest\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
-	"annexGroup\"\x9b\x01\n" +
+	"annexGroup\"\xc1\x01\n" +
 	"\x16GetConsumptionResponse\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12!\n" +
 	"\fcountry_code\x18\x02 \x01(\tR\vcountryCode\x124\n" +
 	"\x06groups\x18\x03 \x03(\v2\x1c.halovet.v1.GroupConsumptionR\x06groups\x12\x14\n" +
-	"\x05notes\x18\x04 \x03(\tR\x05notes\"U\n" +
+	"\x05notes\x18\x04 \x03(\tR\x05notes\x12$\n" +
+	"\x0eno_data_groups\x18\x05 \x03(\tR\fnoDataGroups\"U\n" +
 	"\fBaselineYear\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x16\n" +
 	"\x06amount\x18\x02 \x01(\x01R\x06amount\x12\x19\n" +

@@ -1,0 +1,167 @@
+package service_test
+
+import (
+	"context"
+	"slices"
+	"strings"
+	"testing"
+
+	"google.golang.org/grpc/codes"
+
+	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+)
+
+// Worked examples of the reporting year: every quantity deducted once, "no data" apart from
+// zero. Companies, Parties and quantities are INVENTED (user-assigned code XB); substance
+// values are real:
+//   ODPs: Montreal Protocol Annex B Group II (carbon tetrachloride 1.1), Annex E (methyl
+//     bromide 0.6), Annex C Group I (HCFC-22 0.055).
+// Rules: feedstock is outside "controlled substance" and not counted (Art. 1 paras 4-5;
+// Decision VII/30); QPS uses of methyl bromide are not counted (Art. 2H para 6); destroyed
+// amounts are deducted (Art. 1 para 5); non-Article 5 methyl bromide level 0 from 2005
+// (Art. 2H para 5).
+
+const (
+	feed = halovetv1.EntryType_ENTRY_TYPE_FEEDSTOCK
+	qps  = halovetv1.EntryType_ENTRY_TYPE_QPS
+)
+
+func outsideCustoms(e *halovetv1.NationalEntry) *halovetv1.NationalEntry {
+	e.OutsideCustoms = true
+	e.EntryKey += "/outside-customs"
+	return e
+}
+
+func hasNote(notes []string, sub string) bool {
+	return slices.ContainsFunc(notes, func(n string) bool { return strings.Contains(n, sub) })
+}
+
+// TestConsumptionDeductedOnce: QPS and feedstock deducted once, from the shipments' declared
+// purpose, plus what never passed customs; a second deduction of the same use is refused or,
+// entered before the shipments, left out with a note.
+func TestConsumptionDeductedOnce(t *testing.T) {
+	conn, st := startTestServer(t)
+	ctx := context.Background()
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	consPutParty(t, conn, &halovetv1.Party{CountryCode: "XB", Name: "Borealia (invented)", PartyType: halovetv1.PartyType_PARTY_TYPE_NON_ARTICLE_5,
+		HfcGroup: halovetv1.HfcGroup_HFC_GROUP_NON_A5, ReportingParty: true})
+
+	// Methyl bromide 2025. A whole-year QPS entry of 25 t stored before any shipment is
+	// recorded (accepted then: no shipment declares QPS yet).
+	consRecordEntries(t, c, consEntry(2025, qps, "methyl bromide", 25))
+	consRecord(t, st,
+		consShip{"mb1", "XB-1", "import", "qps", "virgin", false, 2025, "methyl bromide", 25},
+		consShip{"mb2", "XB-1", "import", "critical-use", "virgin", false, 2025, "methyl bromide", 5},
+		// CCl4 2025: 100 t imported as feedstock, 3 t for laboratory use.
+		consShip{"cc1", "XB-2", "import", "feedstock", "virgin", false, 2025, "carbon tetrachloride", 100},
+		consShip{"cc2", "XB-2", "import", "laboratory", "virgin", false, 2025, "carbon tetrachloride", 3},
+		// HCFC-22 2025: 10 t imported for destruction, 4 t for servicing.
+		consShip{"h1", "XB-3", "import", "destruction", "virgin", false, 2025, "HCFC-22", 10},
+		consShip{"h2", "XB-3", "import", "servicing", "virgin", false, 2025, "HCFC-22", 4},
+	)
+
+	// The same feedstock use entered again as a whole-year entry is refused, naming the
+	// field and what is accepted; nothing is stored.
+	_, err := c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{
+		consEntry(2025, feed, "CCl4", 100)}})
+	consCode(t, err, codes.InvalidArgument, "entries[0].outside_customs")
+	consCode(t, err, codes.InvalidArgument, "count the same use twice")
+	// So is a destruction entry of HFC-23 (by-product: facility entries of its own).
+	_, err = c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{
+		outsideCustoms(consEntry(2025, dest, "HFC-23", 100))}})
+	consCode(t, err, codes.InvalidArgument, "entries[0].entry_type")
+	// Historical trade totals passed customs: they cannot be marked outside customs.
+	_, err = c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{
+		outsideCustoms(consEntry(2025, hImp, "HCFC-22", 1))}})
+	consCode(t, err, codes.InvalidArgument, "entries[0].outside_customs")
+
+	// What never passed customs: 40 t of CCl4 produced and used as feedstock at home; 2 t
+	// of HCFC-22 stocks destroyed.
+	consRecordEntries(t, c,
+		outsideCustoms(consEntry(2025, prod, "carbon tetrachloride", 40)),
+		outsideCustoms(consEntry(2025, feed, "carbon tetrachloride", 40)),
+		outsideCustoms(consEntry(2025, dest, "HCFC-22", 2)),
+	)
+
+	got, err := c.GetConsumption(ctx, &halovetv1.GetConsumptionRequest{Year: 2025})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Hand computation (t; ODP t = t × ODP):
+	//   methyl bromide: imports 25 + 5 = 30; QPS 25 (the shipment's purpose; the 25 t entry
+	//     is the same use and left out): 30 − 25 = 5 t × 0.6 = 3.0 ODP t. Counted twice it
+	//     read 5 − 25 = −20 t = −12.0 ODP t.
+	//   CCl4: production 40 + imports 103 − feedstock (100 shipped + 40 domestic) = 3 t ×
+	//     1.1 = 3.3 ODP t. With the 100 t entered again it read −97 t = −106.7 ODP t.
+	//   HCFC-22: imports 14 − destruction (10 shipped + 2 stocks) = 2 t × 0.055 = 0.11 ODP t.
+	mb := consSubstance(consGroup(got, "E/I"), "methyl bromide")
+	consNear(t, "MB imports", mb.GetImportTonnes(), 30)
+	consNear(t, "MB QPS", mb.GetQpsTonnes(), 25)
+	consNear(t, "MB ODP t", consGroup(got, "E/I").GetConsumptionOdpTonnes(), 3.0)
+	cc := consSubstance(consGroup(got, "B/II"), "carbon tetrachloride")
+	consNear(t, "CCl4 feedstock", cc.GetFeedstockTonnes(), 140)
+	consNear(t, "CCl4 ODP t", consGroup(got, "B/II").GetConsumptionOdpTonnes(), 3.3)
+	h := consSubstance(consGroup(got, "C/I"), "HCFC-22")
+	consNear(t, "HCFC-22 destruction", h.GetDestructionTonnes(), 12)
+	consNear(t, "HCFC-22 ODP t", consGroup(got, "C/I").GetConsumptionOdpTonnes(), 0.11)
+	if !hasNote(got.GetNotes(), "QPS/methyl bromide/2025") || !hasNote(got.GetNotes(), "left out") {
+		t.Errorf("notes %q: want the left-out QPS entry named by its key", got.GetNotes())
+	}
+	if hasNote(got.GetNotes(), "national entries only") {
+		t.Errorf("notes %q still say deductions come from national entries only", got.GetNotes())
+	}
+
+	// Compliance: methyl bromide 3.0 ODP t against a level of 0 is exceeded, not "within".
+	ac, err := c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: "E/I", FromYear: 2025, ToYear: 2025})
+	if err != nil {
+		t.Fatal(err)
+	}
+	y := consYear(ac, 2025)
+	consNear(t, "MB consumption assessed", y.GetConsumption(), 3.0)
+	if y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED {
+		t.Errorf("MB 2025 outcome %v, want EXCEEDED (allowed 0, Art. 2H para 5)", y.GetOutcome())
+	}
+}
+
+// TestConsumptionNoDataApartFromZero: a recorded shipment of one group does not turn every
+// other group into a zero year; a 0 t entry states a true zero.
+func TestConsumptionNoDataApartFromZero(t *testing.T) {
+	conn, st := startTestServer(t)
+	ctx := context.Background()
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	consPutParty(t, conn, &halovetv1.Party{CountryCode: "XB", Name: "Borealia (invented)", PartyType: halovetv1.PartyType_PARTY_TYPE_NON_ARTICLE_5,
+		HfcGroup: halovetv1.HfcGroup_HFC_GROUP_NON_A5, ReportingParty: true})
+	consRecord(t, st, consShip{"n1", "XB-1", "import", "servicing", "virgin", false, 2026, "HCFC-22", 1})
+	consRecordEntries(t, c, consEntry(2026, hImp, "CFC-12", 0)) // a stated zero
+
+	got, err := c.GetConsumption(ctx, &halovetv1.GetConsumptionRequest{Year: 2026})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Every group but C/I (shipment) and A/I (0 t entry) has no data.
+	want := []string{"A/II", "B/I", "B/II", "B/III", "C/II", "C/III", "E/I", "F/I", "F/II"}
+	if !slices.Equal(got.GetNoDataGroups(), want) {
+		t.Errorf("no_data_groups %q, want %q", got.GetNoDataGroups(), want)
+	}
+	if g := consGroup(got, "A/I"); g == nil || g.GetConsumptionOdpTonnes() != 0 || consSubstance(g, "CFC-12") == nil {
+		t.Errorf("A/I: %v, want the stated zero of CFC-12 listed", g)
+	}
+	// Methyl bromide (no data): not assessed, not "within". CFC (stated zero): within the 0 level.
+	for _, cs := range []struct {
+		group   string
+		outcome halovetv1.ComplianceOutcome
+		hasData bool
+	}{
+		{"E/I", halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED, false},
+		{"A/I", halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN, true},
+	} {
+		ac, err := c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: cs.group, FromYear: 2026, ToYear: 2026})
+		if err != nil {
+			t.Fatal(err)
+		}
+		y := consYear(ac, 2026)
+		if y.GetOutcome() != cs.outcome || y.GetHasData() != cs.hasData {
+			t.Errorf("%s 2026: outcome %v has_data %v, want %v %v", cs.group, y.GetOutcome(), y.GetHasData(), cs.outcome, cs.hasData)
+		}
+	}
+}
