@@ -81,6 +81,10 @@ var Policy = map[string]Grant{
 	"/halovet.v1.ConsumptionService/GetBaseline":                     {Roles: nationalRead},
 	"/halovet.v1.ConsumptionService/AssessCompliance":                {Roles: nationalRead},
 	"/halovet.v1.ConsumptionService/PlanQuotas":                      {Roles: nationalRead}, // issuing the drafts: officer (see ArgumentRoles)
+	"/halovet.v1.ConsumptionService/RecordExemptions":                {Roles: officerOnly},
+	"/halovet.v1.ConsumptionService/ListExemptions":                  {Roles: nationalRead},
+	"/halovet.v1.ConsumptionService/RecordOfficialFigures":           {Roles: officerOnly},
+	"/halovet.v1.ConsumptionService/ListOfficialFigures":             {Roles: nationalRead},
 	"/halovet.v1.AccessService/IssueCredential":                      {Roles: officerOnly},
 	"/halovet.v1.AccessService/ListCredentials":                      {Roles: trailRead},
 	"/halovet.v1.AccessService/RevokeCredential":                     {Roles: officerOnly},

@@ -461,12 +461,24 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 	if err != nil {
 		return nil, arithmeticError(ctx, c.srv, err)
 	}
-	a, err := rb.Assess(d.records, party, scope, from, to)
+	rp, err := c.srv.store.ReportingParty(ctx)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	ov, err := c.srv.overrides(ctx, rp.CountryCode, scope)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	a, err := rb.AssessWith(d.records, party, scope, from, to, ov)
 	if err != nil {
 		return nil, arithmeticError(ctx, c.srv, err)
 	}
 	out := &halovetv1.AssessComplianceResponse{AnnexGroup: string(scope), Unit: string(a.Unit), AppliesTo: a.AppliesTo,
 		BaselineComplete: true}
+	if ob := a.OfficialBaseline; ob != nil {
+		out.HasOfficialBaseline = true
+		out.OfficialBaselineSource = ob.Source
+	}
 	// The baseline is shown even when no assessed year needed it (0 % steps).
 	b := a.Baseline
 	if b == nil {
@@ -476,16 +488,29 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 	}
 	if b != nil {
 		out.Baseline = b.Value
+		out.ComputedBaseline = b.Value
 		out.BaselineComplete = b.Complete
 		for _, g := range b.Missing {
 			out.BaselineMissing = append(out.BaselineMissing, gapText(g, d.records[:d.nStored], baselineYears(rb, party, scope)))
 		}
 	}
+	if ob := a.OfficialBaseline; ob != nil {
+		// The official baseline is the one used; the computed one stays beside it.
+		out.Baseline = ob.Value
+		out.BaselineComplete = true
+	}
 	var sources []string
 	for _, y := range a.Years {
 		cy := &halovetv1.ComplianceYear{Year: int32(y.Year), Consumption: y.Consumption, Allowed: y.Allowed,
 			AllowedPercent: y.AllowedPercent, Headroom: y.Headroom, Within: y.Outcome == controls.Within,
-			Notes: y.Notes, Outcome: outcomeToProto[y.Outcome], HasData: y.HasData}
+			Notes: y.Notes, Outcome: outcomeToProto[y.Outcome], HasData: y.HasData, ComputedAllowed: y.ComputedAllowed,
+			Exempted: y.Exempted}
+		if l := y.OfficialLimit; l != nil {
+			cy.HasOfficialLimit, cy.OfficialLimit, cy.OfficialLimitSource = true, l.Value, l.Source
+		}
+		for _, e := range y.Exemptions {
+			cy.Exemptions = append(cy.Exemptions, &halovetv1.AppliedExemption{Use: exemptedUseEnum[string(e.Use)], Amount: e.Amount, Source: e.Source})
+		}
 		if pp := y.Period; pp != nil {
 			cy.Period = &halovetv1.PeriodAverage{FromYear: int32(pp.Rule.FromYear), ToYear: int32(pp.Rule.ToYear),
 				Percent: pp.Rule.Percent, YearsCounted: int32(pp.YearsCounted), YearsRemaining: int32(pp.YearsRemaining),

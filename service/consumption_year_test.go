@@ -165,3 +165,85 @@ func TestConsumptionNoDataApartFromZero(t *testing.T) {
 		}
 	}
 }
+
+// TestComplianceExemptionsAndOfficialFigures: an authorised critical use within its limit;
+// an official baseline and limit used in place of computed ones, both reported. The
+// exemption, the official figures and their source texts are INVENTED. Rules: non-A5 methyl
+// bromide level 0 from 2005 and critical uses authorised above it (Art. 2H para 5;
+// Decision IX/6); non-A5 HCFC servicing cap 0.5 % of baseline 2020-2029 (Art. 2F para 6).
+func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
+	conn, st := startTestServer(t)
+	ctx := context.Background()
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	consPutParty(t, conn, &halovetv1.Party{CountryCode: "XB", Name: "Borealia (invented)", PartyType: halovetv1.PartyType_PARTY_TYPE_NON_ARTICLE_5,
+		HfcGroup: halovetv1.HfcGroup_HFC_GROUP_NON_A5, ReportingParty: true})
+	consRecord(t, st,
+		consShip{"cu1", "XB-1", "import", "critical-use", "virgin", false, 2025, "methyl bromide", 5},
+		consShip{"s1", "XB-2", "import", "servicing", "virgin", false, 2025, "HCFC-22", 10},
+	)
+	crit := halovetv1.ExemptedUse_EXEMPTED_USE_CRITICAL
+	// Refusals: a critical use outside methyl bromide; an exemption without its decision.
+	_, err := c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
+		{ExemptionKey: "x", Year: 2025, AnnexGroup: "C/I", Use: crit, Amount: 1, Source: "invented"}}})
+	consCode(t, err, codes.InvalidArgument, "exemptions[0].use")
+	_, err = c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
+		{ExemptionKey: "x", Year: 2025, AnnexGroup: "E/I", Use: crit, Amount: 1}}})
+	consCode(t, err, codes.InvalidArgument, "exemptions[0].source")
+
+	assess := func(group string) *halovetv1.AssessComplianceResponse {
+		t.Helper()
+		ac, err := c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: group, FromYear: 2025, ToYear: 2025})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return ac
+	}
+	// 5 t × 0.6 = 3.0 ODP t against 0: exceeded without the exemption.
+	if y := consYear(assess("E/I"), 2025); y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED {
+		t.Fatalf("MB 2025 without exemption: %v, want EXCEEDED", y.GetOutcome())
+	}
+	if _, err := c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
+		{ExemptionKey: "CUE-2025", Year: 2025, AnnexGroup: "E/I", Use: crit, Amount: 3.0, Source: "invented decision XB/1"}}}); err != nil {
+		t.Fatal(err)
+	}
+	// With the authorised 3.0 ODP t: allowed 0 + 3.0, headroom 0: within.
+	y := consYear(assess("E/I"), 2025)
+	consNear(t, "MB computed allowed", y.GetComputedAllowed(), 0)
+	consNear(t, "MB exempted", y.GetExempted(), 3.0)
+	consNear(t, "MB allowed", y.GetAllowed(), 3.0)
+	consNear(t, "MB headroom", y.GetHeadroom(), 0)
+	if y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN || len(y.GetExemptions()) != 1 ||
+		y.GetExemptions()[0].GetSource() != "invented decision XB/1" {
+		t.Errorf("MB 2025 with the exemption: %v %v, want WITHIN naming the decision", y.GetOutcome(), y.GetExemptions())
+	}
+
+	// HCFC 2025: 10 × 0.055 = 0.55 ODP t; no 1989 data, so no computed baseline: not assessed.
+	if y := consYear(assess("C/I"), 2025); y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED {
+		t.Fatalf("HCFC 2025 without a baseline: %v, want NOT_ASSESSED", y.GetOutcome())
+	}
+	base := halovetv1.OfficialFigureKind_OFFICIAL_FIGURE_KIND_BASELINE
+	if _, err := c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{
+		{FigureKey: "B-CI", Kind: base, AnnexGroup: "C/I", Value: 150, Source: "invented decision XB/2"}}}); err != nil {
+		t.Fatal(err)
+	}
+	// Official baseline 150: 0.5 % × 150 = 0.75; headroom 0.2: within.
+	ac := assess("C/I")
+	y = consYear(ac, 2025)
+	if !ac.GetHasOfficialBaseline() || ac.GetBaseline() != 150 || ac.GetComputedBaseline() != 0 || ac.GetOfficialBaselineSource() != "invented decision XB/2" {
+		t.Errorf("baseline: official %v %v (%q), computed %v; want both reported", ac.GetHasOfficialBaseline(), ac.GetBaseline(), ac.GetOfficialBaselineSource(), ac.GetComputedBaseline())
+	}
+	consNear(t, "HCFC allowed (official baseline)", y.GetAllowed(), 0.75)
+	consNear(t, "HCFC headroom", y.GetHeadroom(), 0.2)
+	// An agreed plan's limit of 0.5 ODP t: used instead of 0.75; headroom −0.05: exceeded.
+	if _, err := c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{
+		{FigureKey: "L-CI-2025", Kind: halovetv1.OfficialFigureKind_OFFICIAL_FIGURE_KIND_LIMIT, AnnexGroup: "C/I", Year: 2025, Value: 0.5, Source: "invented agreed plan"}}}); err != nil {
+		t.Fatal(err)
+	}
+	y = consYear(assess("C/I"), 2025)
+	consNear(t, "HCFC computed allowed", y.GetComputedAllowed(), 0.75)
+	consNear(t, "HCFC allowed (official limit)", y.GetAllowed(), 0.5)
+	consNear(t, "HCFC headroom (official limit)", y.GetHeadroom(), -0.05)
+	if !y.GetHasOfficialLimit() || y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED {
+		t.Errorf("HCFC 2025 with the official limit: %v %v, want EXCEEDED", y.GetHasOfficialLimit(), y.GetOutcome())
+	}
+}

@@ -152,6 +152,120 @@ func (ComplianceOutcome) EnumDescriptor() ([]byte, []int) {
 	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{1}
 }
 
+// ExemptedUse is the kind of an authorised exemption.
+type ExemptedUse int32
+
+const (
+	// Not set.
+	ExemptedUse_EXEMPTED_USE_UNSPECIFIED ExemptedUse = 0
+	// Essential use, as the Meeting of the Parties authorises it per Party and year.
+	ExemptedUse_EXEMPTED_USE_ESSENTIAL ExemptedUse = 1
+	// Critical use of methyl bromide (Annex E only).
+	ExemptedUse_EXEMPTED_USE_CRITICAL ExemptedUse = 2
+	// Laboratory and analytical use.
+	ExemptedUse_EXEMPTED_USE_LABORATORY ExemptedUse = 3
+	// High-ambient-temperature exemption for HFCs (Annex F only).
+	ExemptedUse_EXEMPTED_USE_HIGH_AMBIENT_TEMPERATURE ExemptedUse = 4
+)
+
+// Enum value maps for ExemptedUse.
+var (
+	ExemptedUse_name = map[int32]string{
+		0: "EXEMPTED_USE_UNSPECIFIED",
+		1: "EXEMPTED_USE_ESSENTIAL",
+		2: "EXEMPTED_USE_CRITICAL",
+		3: "EXEMPTED_USE_LABORATORY",
+		4: "EXEMPTED_USE_HIGH_AMBIENT_TEMPERATURE",
+	}
+	ExemptedUse_value = map[string]int32{
+		"EXEMPTED_USE_UNSPECIFIED":              0,
+		"EXEMPTED_USE_ESSENTIAL":                1,
+		"EXEMPTED_USE_CRITICAL":                 2,
+		"EXEMPTED_USE_LABORATORY":               3,
+		"EXEMPTED_USE_HIGH_AMBIENT_TEMPERATURE": 4,
+	}
+)
+
+func (x ExemptedUse) Enum() *ExemptedUse {
+	p := new(ExemptedUse)
+	*p = x
+	return p
+}
+
+func (x ExemptedUse) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (ExemptedUse) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_consumption_proto_enumTypes[2].Descriptor()
+}
+
+func (ExemptedUse) Type() protoreflect.EnumType {
+	return &file_halovet_v1_consumption_proto_enumTypes[2]
+}
+
+func (x ExemptedUse) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use ExemptedUse.Descriptor instead.
+func (ExemptedUse) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{2}
+}
+
+// OfficialFigureKind says what an official figure sets.
+type OfficialFigureKind int32
+
+const (
+	// Not set.
+	OfficialFigureKind_OFFICIAL_FIGURE_KIND_UNSPECIFIED OfficialFigureKind = 0
+	// A baseline as the Parties have set it (no year).
+	OfficialFigureKind_OFFICIAL_FIGURE_KIND_BASELINE OfficialFigureKind = 1
+	// One year's limit, e.g. of an agreed plan stricter than the treaty's.
+	OfficialFigureKind_OFFICIAL_FIGURE_KIND_LIMIT OfficialFigureKind = 2
+)
+
+// Enum value maps for OfficialFigureKind.
+var (
+	OfficialFigureKind_name = map[int32]string{
+		0: "OFFICIAL_FIGURE_KIND_UNSPECIFIED",
+		1: "OFFICIAL_FIGURE_KIND_BASELINE",
+		2: "OFFICIAL_FIGURE_KIND_LIMIT",
+	}
+	OfficialFigureKind_value = map[string]int32{
+		"OFFICIAL_FIGURE_KIND_UNSPECIFIED": 0,
+		"OFFICIAL_FIGURE_KIND_BASELINE":    1,
+		"OFFICIAL_FIGURE_KIND_LIMIT":       2,
+	}
+)
+
+func (x OfficialFigureKind) Enum() *OfficialFigureKind {
+	p := new(OfficialFigureKind)
+	*p = x
+	return p
+}
+
+func (x OfficialFigureKind) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (OfficialFigureKind) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_consumption_proto_enumTypes[3].Descriptor()
+}
+
+func (OfficialFigureKind) Type() protoreflect.EnumType {
+	return &file_halovet_v1_consumption_proto_enumTypes[3]
+}
+
+func (x OfficialFigureKind) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use OfficialFigureKind.Descriptor instead.
+func (OfficialFigureKind) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{3}
+}
+
 // NationalEntry is one quantity of one substance in one year.
 type NationalEntry struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1400,7 +1514,19 @@ type ComplianceYear struct {
 	// False when no data of the group exist for the year.
 	HasData bool `protobuf:"varint,9,opt,name=has_data,json=hasData,proto3" json:"has_data,omitempty"`
 	// Set in a year under a period-average rule: the running average and the room left.
-	Period        *PeriodAverage `protobuf:"bytes,10,opt,name=period,proto3" json:"period,omitempty"`
+	Period *PeriodAverage `protobuf:"bytes,10,opt,name=period,proto3" json:"period,omitempty"`
+	// The schedule's level: baseline used times allowed_percent.
+	ComputedAllowed float64 `protobuf:"fixed64,11,opt,name=computed_allowed,json=computedAllowed,proto3" json:"computed_allowed,omitempty"`
+	// True when a limit as officially set applies to the year (official_limit).
+	HasOfficialLimit bool `protobuf:"varint,12,opt,name=has_official_limit,json=hasOfficialLimit,proto3" json:"has_official_limit,omitempty"`
+	// The year's limit as officially set; used instead of computed_allowed.
+	OfficialLimit float64 `protobuf:"fixed64,13,opt,name=official_limit,json=officialLimit,proto3" json:"official_limit,omitempty"`
+	// Source of official_limit (the decision or agreed plan).
+	OfficialLimitSource string `protobuf:"bytes,14,opt,name=official_limit_source,json=officialLimitSource,proto3" json:"official_limit_source,omitempty"`
+	// Sum of the authorised exemptions of the year, added to the limit.
+	Exempted float64 `protobuf:"fixed64,15,opt,name=exempted,proto3" json:"exempted,omitempty"`
+	// The exemptions added, with their sources.
+	Exemptions    []*AppliedExemption `protobuf:"bytes,16,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1505,6 +1631,698 @@ func (x *ComplianceYear) GetPeriod() *PeriodAverage {
 	return nil
 }
 
+func (x *ComplianceYear) GetComputedAllowed() float64 {
+	if x != nil {
+		return x.ComputedAllowed
+	}
+	return 0
+}
+
+func (x *ComplianceYear) GetHasOfficialLimit() bool {
+	if x != nil {
+		return x.HasOfficialLimit
+	}
+	return false
+}
+
+func (x *ComplianceYear) GetOfficialLimit() float64 {
+	if x != nil {
+		return x.OfficialLimit
+	}
+	return 0
+}
+
+func (x *ComplianceYear) GetOfficialLimitSource() string {
+	if x != nil {
+		return x.OfficialLimitSource
+	}
+	return ""
+}
+
+func (x *ComplianceYear) GetExempted() float64 {
+	if x != nil {
+		return x.Exempted
+	}
+	return 0
+}
+
+func (x *ComplianceYear) GetExemptions() []*AppliedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// AppliedExemption is one authorised exemption added to a year's limit.
+type AppliedExemption struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Exempted use.
+	Use ExemptedUse `protobuf:"varint,1,opt,name=use,proto3,enum=halovet.v1.ExemptedUse" json:"use,omitempty"`
+	// Amount, in the assessment's unit.
+	Amount float64 `protobuf:"fixed64,2,opt,name=amount,proto3" json:"amount,omitempty"`
+	// The decision that authorises it.
+	Source        string `protobuf:"bytes,3,opt,name=source,proto3" json:"source,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AppliedExemption) Reset() {
+	*x = AppliedExemption{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[15]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AppliedExemption) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AppliedExemption) ProtoMessage() {}
+
+func (x *AppliedExemption) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[15]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AppliedExemption.ProtoReflect.Descriptor instead.
+func (*AppliedExemption) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{15}
+}
+
+func (x *AppliedExemption) GetUse() ExemptedUse {
+	if x != nil {
+		return x.Use
+	}
+	return ExemptedUse_EXEMPTED_USE_UNSPECIFIED
+}
+
+func (x *AppliedExemption) GetAmount() float64 {
+	if x != nil {
+		return x.Amount
+	}
+	return 0
+}
+
+func (x *AppliedExemption) GetSource() string {
+	if x != nil {
+		return x.Source
+	}
+	return ""
+}
+
+// AuthorisedExemption is one exemption authorised for a Party, scope and year.
+type AuthorisedExemption struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Caller's key; an exemption with the same key replaces the stored one.
+	ExemptionKey string `protobuf:"bytes,1,opt,name=exemption_key,json=exemptionKey,proto3" json:"exemption_key,omitempty"`
+	// The Party (ISO 3166-1 alpha-2); empty on input: the reporting Party.
+	CountryCode string `protobuf:"bytes,2,opt,name=country_code,json=countryCode,proto3" json:"country_code,omitempty"`
+	// Calendar year.
+	Year int32 `protobuf:"varint,3,opt,name=year,proto3" json:"year,omitempty"`
+	// Annex/Group, or "F" for HFCs.
+	AnnexGroup string `protobuf:"bytes,4,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
+	// Exempted use.
+	Use ExemptedUse `protobuf:"varint,5,opt,name=use,proto3,enum=halovet.v1.ExemptedUse" json:"use,omitempty"`
+	// Amount authorised, in the scope's unit: ODP t for Annexes A to E, CO2-eq t for F.
+	Amount float64 `protobuf:"fixed64,6,opt,name=amount,proto3" json:"amount,omitempty"`
+	// Unit of amount ("ODP t" or "CO2-eq t"); set by the server.
+	Unit string `protobuf:"bytes,7,opt,name=unit,proto3" json:"unit,omitempty"`
+	// The decision that authorises it (required), e.g. the Meeting of the Parties' decision number.
+	Source string `protobuf:"bytes,8,opt,name=source,proto3" json:"source,omitempty"`
+	// Free note.
+	Note          string `protobuf:"bytes,9,opt,name=note,proto3" json:"note,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AuthorisedExemption) Reset() {
+	*x = AuthorisedExemption{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[16]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AuthorisedExemption) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AuthorisedExemption) ProtoMessage() {}
+
+func (x *AuthorisedExemption) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[16]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AuthorisedExemption.ProtoReflect.Descriptor instead.
+func (*AuthorisedExemption) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{16}
+}
+
+func (x *AuthorisedExemption) GetExemptionKey() string {
+	if x != nil {
+		return x.ExemptionKey
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetCountryCode() string {
+	if x != nil {
+		return x.CountryCode
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *AuthorisedExemption) GetAnnexGroup() string {
+	if x != nil {
+		return x.AnnexGroup
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetUse() ExemptedUse {
+	if x != nil {
+		return x.Use
+	}
+	return ExemptedUse_EXEMPTED_USE_UNSPECIFIED
+}
+
+func (x *AuthorisedExemption) GetAmount() float64 {
+	if x != nil {
+		return x.Amount
+	}
+	return 0
+}
+
+func (x *AuthorisedExemption) GetUnit() string {
+	if x != nil {
+		return x.Unit
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetSource() string {
+	if x != nil {
+		return x.Source
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetNote() string {
+	if x != nil {
+		return x.Note
+	}
+	return ""
+}
+
+// RecordExemptionsRequest carries exemptions.
+type RecordExemptionsRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Exemptions to store.
+	Exemptions    []*AuthorisedExemption `protobuf:"bytes,1,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordExemptionsRequest) Reset() {
+	*x = RecordExemptionsRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[17]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordExemptionsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordExemptionsRequest) ProtoMessage() {}
+
+func (x *RecordExemptionsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[17]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordExemptionsRequest.ProtoReflect.Descriptor instead.
+func (*RecordExemptionsRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{17}
+}
+
+func (x *RecordExemptionsRequest) GetExemptions() []*AuthorisedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// RecordExemptionsResponse reports what was stored.
+type RecordExemptionsResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The exemptions as stored.
+	Exemptions    []*AuthorisedExemption `protobuf:"bytes,1,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordExemptionsResponse) Reset() {
+	*x = RecordExemptionsResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[18]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordExemptionsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordExemptionsResponse) ProtoMessage() {}
+
+func (x *RecordExemptionsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[18]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordExemptionsResponse.ProtoReflect.Descriptor instead.
+func (*RecordExemptionsResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{18}
+}
+
+func (x *RecordExemptionsResponse) GetExemptions() []*AuthorisedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// ListExemptionsRequest filters exemptions.
+type ListExemptionsRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Only this year, when set.
+	Year          int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListExemptionsRequest) Reset() {
+	*x = ListExemptionsRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[19]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListExemptionsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListExemptionsRequest) ProtoMessage() {}
+
+func (x *ListExemptionsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[19]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListExemptionsRequest.ProtoReflect.Descriptor instead.
+func (*ListExemptionsRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{19}
+}
+
+func (x *ListExemptionsRequest) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+// ListExemptionsResponse lists exemptions.
+type ListExemptionsResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Exemptions by Party, year, scope, use and key.
+	Exemptions    []*AuthorisedExemption `protobuf:"bytes,1,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListExemptionsResponse) Reset() {
+	*x = ListExemptionsResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[20]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListExemptionsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListExemptionsResponse) ProtoMessage() {}
+
+func (x *ListExemptionsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[20]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListExemptionsResponse.ProtoReflect.Descriptor instead.
+func (*ListExemptionsResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{20}
+}
+
+func (x *ListExemptionsResponse) GetExemptions() []*AuthorisedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// OfficialFigure is a baseline or limit as officially set.
+type OfficialFigure struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Caller's key; a figure with the same key replaces the stored one.
+	FigureKey string `protobuf:"bytes,1,opt,name=figure_key,json=figureKey,proto3" json:"figure_key,omitempty"`
+	// The Party (ISO 3166-1 alpha-2); empty on input: the reporting Party.
+	CountryCode string `protobuf:"bytes,2,opt,name=country_code,json=countryCode,proto3" json:"country_code,omitempty"`
+	// Baseline or limit.
+	Kind OfficialFigureKind `protobuf:"varint,3,opt,name=kind,proto3,enum=halovet.v1.OfficialFigureKind" json:"kind,omitempty"`
+	// Annex/Group, or "F" for HFCs.
+	AnnexGroup string `protobuf:"bytes,4,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
+	// Year of a limit; 0 for a baseline.
+	Year int32 `protobuf:"varint,5,opt,name=year,proto3" json:"year,omitempty"`
+	// Value in the scope's unit: ODP t for Annexes A to E, CO2-eq t for F.
+	Value float64 `protobuf:"fixed64,6,opt,name=value,proto3" json:"value,omitempty"`
+	// Unit of value; set by the server.
+	Unit string `protobuf:"bytes,7,opt,name=unit,proto3" json:"unit,omitempty"`
+	// The decision or document that sets it (required).
+	Source        string `protobuf:"bytes,8,opt,name=source,proto3" json:"source,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *OfficialFigure) Reset() {
+	*x = OfficialFigure{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[21]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *OfficialFigure) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*OfficialFigure) ProtoMessage() {}
+
+func (x *OfficialFigure) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[21]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use OfficialFigure.ProtoReflect.Descriptor instead.
+func (*OfficialFigure) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{21}
+}
+
+func (x *OfficialFigure) GetFigureKey() string {
+	if x != nil {
+		return x.FigureKey
+	}
+	return ""
+}
+
+func (x *OfficialFigure) GetCountryCode() string {
+	if x != nil {
+		return x.CountryCode
+	}
+	return ""
+}
+
+func (x *OfficialFigure) GetKind() OfficialFigureKind {
+	if x != nil {
+		return x.Kind
+	}
+	return OfficialFigureKind_OFFICIAL_FIGURE_KIND_UNSPECIFIED
+}
+
+func (x *OfficialFigure) GetAnnexGroup() string {
+	if x != nil {
+		return x.AnnexGroup
+	}
+	return ""
+}
+
+func (x *OfficialFigure) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *OfficialFigure) GetValue() float64 {
+	if x != nil {
+		return x.Value
+	}
+	return 0
+}
+
+func (x *OfficialFigure) GetUnit() string {
+	if x != nil {
+		return x.Unit
+	}
+	return ""
+}
+
+func (x *OfficialFigure) GetSource() string {
+	if x != nil {
+		return x.Source
+	}
+	return ""
+}
+
+// RecordOfficialFiguresRequest carries figures.
+type RecordOfficialFiguresRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Figures to store.
+	Figures       []*OfficialFigure `protobuf:"bytes,1,rep,name=figures,proto3" json:"figures,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordOfficialFiguresRequest) Reset() {
+	*x = RecordOfficialFiguresRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[22]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordOfficialFiguresRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordOfficialFiguresRequest) ProtoMessage() {}
+
+func (x *RecordOfficialFiguresRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[22]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordOfficialFiguresRequest.ProtoReflect.Descriptor instead.
+func (*RecordOfficialFiguresRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{22}
+}
+
+func (x *RecordOfficialFiguresRequest) GetFigures() []*OfficialFigure {
+	if x != nil {
+		return x.Figures
+	}
+	return nil
+}
+
+// RecordOfficialFiguresResponse reports what was stored.
+type RecordOfficialFiguresResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The figures as stored.
+	Figures       []*OfficialFigure `protobuf:"bytes,1,rep,name=figures,proto3" json:"figures,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordOfficialFiguresResponse) Reset() {
+	*x = RecordOfficialFiguresResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[23]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordOfficialFiguresResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordOfficialFiguresResponse) ProtoMessage() {}
+
+func (x *RecordOfficialFiguresResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[23]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordOfficialFiguresResponse.ProtoReflect.Descriptor instead.
+func (*RecordOfficialFiguresResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{23}
+}
+
+func (x *RecordOfficialFiguresResponse) GetFigures() []*OfficialFigure {
+	if x != nil {
+		return x.Figures
+	}
+	return nil
+}
+
+// ListOfficialFiguresRequest asks for every official figure.
+type ListOfficialFiguresRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListOfficialFiguresRequest) Reset() {
+	*x = ListOfficialFiguresRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[24]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListOfficialFiguresRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListOfficialFiguresRequest) ProtoMessage() {}
+
+func (x *ListOfficialFiguresRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[24]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListOfficialFiguresRequest.ProtoReflect.Descriptor instead.
+func (*ListOfficialFiguresRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{24}
+}
+
+// ListOfficialFiguresResponse lists official figures.
+type ListOfficialFiguresResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Figures by Party, kind, scope and year.
+	Figures       []*OfficialFigure `protobuf:"bytes,1,rep,name=figures,proto3" json:"figures,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListOfficialFiguresResponse) Reset() {
+	*x = ListOfficialFiguresResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[25]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListOfficialFiguresResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListOfficialFiguresResponse) ProtoMessage() {}
+
+func (x *ListOfficialFiguresResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[25]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListOfficialFiguresResponse.ProtoReflect.Descriptor instead.
+func (*ListOfficialFiguresResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{25}
+}
+
+func (x *ListOfficialFiguresResponse) GetFigures() []*OfficialFigure {
+	if x != nil {
+		return x.Figures
+	}
+	return nil
+}
+
 // AssessComplianceRequest names the range.
 type AssessComplianceRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1520,7 +2338,7 @@ type AssessComplianceRequest struct {
 
 func (x *AssessComplianceRequest) Reset() {
 	*x = AssessComplianceRequest{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[15]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[26]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1532,7 +2350,7 @@ func (x *AssessComplianceRequest) String() string {
 func (*AssessComplianceRequest) ProtoMessage() {}
 
 func (x *AssessComplianceRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[15]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[26]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1545,7 +2363,7 @@ func (x *AssessComplianceRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AssessComplianceRequest.ProtoReflect.Descriptor instead.
 func (*AssessComplianceRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{15}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{26}
 }
 
 func (x *AssessComplianceRequest) GetAnnexGroup() string {
@@ -1587,14 +2405,21 @@ type AssessComplianceResponse struct {
 	// Missing years and groups of the baseline.
 	BaselineMissing []string `protobuf:"bytes,7,rep,name=baseline_missing,json=baselineMissing,proto3" json:"baseline_missing,omitempty"`
 	// Which schedule the reporting Party follows ("A5", "non-A5", "A5-group1", ...).
-	AppliesTo     string `protobuf:"bytes,8,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	AppliesTo string `protobuf:"bytes,8,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
+	// The baseline computed from the data (0 when incomplete); baseline is the
+	// official one when has_official_baseline.
+	ComputedBaseline float64 `protobuf:"fixed64,9,opt,name=computed_baseline,json=computedBaseline,proto3" json:"computed_baseline,omitempty"`
+	// True when a baseline as officially set is used.
+	HasOfficialBaseline bool `protobuf:"varint,10,opt,name=has_official_baseline,json=hasOfficialBaseline,proto3" json:"has_official_baseline,omitempty"`
+	// Source of the official baseline.
+	OfficialBaselineSource string `protobuf:"bytes,11,opt,name=official_baseline_source,json=officialBaselineSource,proto3" json:"official_baseline_source,omitempty"`
+	unknownFields          protoimpl.UnknownFields
+	sizeCache              protoimpl.SizeCache
 }
 
 func (x *AssessComplianceResponse) Reset() {
 	*x = AssessComplianceResponse{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[16]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[27]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1606,7 +2431,7 @@ func (x *AssessComplianceResponse) String() string {
 func (*AssessComplianceResponse) ProtoMessage() {}
 
 func (x *AssessComplianceResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[16]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[27]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1619,7 +2444,7 @@ func (x *AssessComplianceResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AssessComplianceResponse.ProtoReflect.Descriptor instead.
 func (*AssessComplianceResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{16}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{27}
 }
 
 func (x *AssessComplianceResponse) GetAnnexGroup() string {
@@ -1678,6 +2503,27 @@ func (x *AssessComplianceResponse) GetAppliesTo() string {
 	return ""
 }
 
+func (x *AssessComplianceResponse) GetComputedBaseline() float64 {
+	if x != nil {
+		return x.ComputedBaseline
+	}
+	return 0
+}
+
+func (x *AssessComplianceResponse) GetHasOfficialBaseline() bool {
+	if x != nil {
+		return x.HasOfficialBaseline
+	}
+	return false
+}
+
+func (x *AssessComplianceResponse) GetOfficialBaselineSource() string {
+	if x != nil {
+		return x.OfficialBaselineSource
+	}
+	return ""
+}
+
 // QuotaProposal is one company's proposed quota.
 type QuotaProposal struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1699,7 +2545,7 @@ type QuotaProposal struct {
 
 func (x *QuotaProposal) Reset() {
 	*x = QuotaProposal{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[17]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[28]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1711,7 +2557,7 @@ func (x *QuotaProposal) String() string {
 func (*QuotaProposal) ProtoMessage() {}
 
 func (x *QuotaProposal) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[17]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[28]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1724,7 +2570,7 @@ func (x *QuotaProposal) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use QuotaProposal.ProtoReflect.Descriptor instead.
 func (*QuotaProposal) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{17}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{28}
 }
 
 func (x *QuotaProposal) GetCompanyId() string {
@@ -1790,7 +2636,7 @@ type PlanQuotasRequest struct {
 
 func (x *PlanQuotasRequest) Reset() {
 	*x = PlanQuotasRequest{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[18]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[29]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1802,7 +2648,7 @@ func (x *PlanQuotasRequest) String() string {
 func (*PlanQuotasRequest) ProtoMessage() {}
 
 func (x *PlanQuotasRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[18]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[29]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1815,7 +2661,7 @@ func (x *PlanQuotasRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PlanQuotasRequest.ProtoReflect.Descriptor instead.
 func (*PlanQuotasRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{18}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{29}
 }
 
 func (x *PlanQuotasRequest) GetYear() int32 {
@@ -1887,7 +2733,7 @@ type PlanQuotasResponse struct {
 
 func (x *PlanQuotasResponse) Reset() {
 	*x = PlanQuotasResponse{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[19]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[30]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1899,7 +2745,7 @@ func (x *PlanQuotasResponse) String() string {
 func (*PlanQuotasResponse) ProtoMessage() {}
 
 func (x *PlanQuotasResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[19]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[30]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1912,7 +2758,7 @@ func (x *PlanQuotasResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PlanQuotasResponse.ProtoReflect.Descriptor instead.
 func (*PlanQuotasResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{19}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{30}
 }
 
 func (x *PlanQuotasResponse) GetUnit() string {
@@ -2089,7 +2935,7 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x06budget\x18\t \x01(\x01R\x06budget\x12\x1b\n" +
 	"\troom_left\x18\n" +
 	" \x01(\x01R\broomLeft\x12\"\n" +
-	"\rroom_per_year\x18\v \x01(\x01R\vroomPerYear\"\xda\x02\n" +
+	"\rroom_per_year\x18\v \x01(\x01R\vroomPerYear\"\xe8\x04\n" +
 	"\x0eComplianceYear\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12 \n" +
 	"\vconsumption\x18\x02 \x01(\x01R\vconsumption\x12\x18\n" +
@@ -2101,12 +2947,67 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\aoutcome\x18\b \x01(\x0e2\x1d.halovet.v1.ComplianceOutcomeR\aoutcome\x12\x19\n" +
 	"\bhas_data\x18\t \x01(\bR\ahasData\x121\n" +
 	"\x06period\x18\n" +
-	" \x01(\v2\x19.halovet.v1.PeriodAverageR\x06period\"p\n" +
+	" \x01(\v2\x19.halovet.v1.PeriodAverageR\x06period\x12)\n" +
+	"\x10computed_allowed\x18\v \x01(\x01R\x0fcomputedAllowed\x12,\n" +
+	"\x12has_official_limit\x18\f \x01(\bR\x10hasOfficialLimit\x12%\n" +
+	"\x0eofficial_limit\x18\r \x01(\x01R\rofficialLimit\x122\n" +
+	"\x15official_limit_source\x18\x0e \x01(\tR\x13officialLimitSource\x12\x1a\n" +
+	"\bexempted\x18\x0f \x01(\x01R\bexempted\x12<\n" +
+	"\n" +
+	"exemptions\x18\x10 \x03(\v2\x1c.halovet.v1.AppliedExemptionR\n" +
+	"exemptions\"m\n" +
+	"\x10AppliedExemption\x12)\n" +
+	"\x03use\x18\x01 \x01(\x0e2\x17.halovet.v1.ExemptedUseR\x03use\x12\x16\n" +
+	"\x06amount\x18\x02 \x01(\x01R\x06amount\x12\x16\n" +
+	"\x06source\x18\x03 \x01(\tR\x06source\"\x95\x02\n" +
+	"\x13AuthorisedExemption\x12#\n" +
+	"\rexemption_key\x18\x01 \x01(\tR\fexemptionKey\x12!\n" +
+	"\fcountry_code\x18\x02 \x01(\tR\vcountryCode\x12\x12\n" +
+	"\x04year\x18\x03 \x01(\x05R\x04year\x12\x1f\n" +
+	"\vannex_group\x18\x04 \x01(\tR\n" +
+	"annexGroup\x12)\n" +
+	"\x03use\x18\x05 \x01(\x0e2\x17.halovet.v1.ExemptedUseR\x03use\x12\x16\n" +
+	"\x06amount\x18\x06 \x01(\x01R\x06amount\x12\x12\n" +
+	"\x04unit\x18\a \x01(\tR\x04unit\x12\x16\n" +
+	"\x06source\x18\b \x01(\tR\x06source\x12\x12\n" +
+	"\x04note\x18\t \x01(\tR\x04note\"Z\n" +
+	"\x17RecordExemptionsRequest\x12?\n" +
+	"\n" +
+	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
+	"exemptions\"[\n" +
+	"\x18RecordExemptionsResponse\x12?\n" +
+	"\n" +
+	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
+	"exemptions\"+\n" +
+	"\x15ListExemptionsRequest\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\"Y\n" +
+	"\x16ListExemptionsResponse\x12?\n" +
+	"\n" +
+	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
+	"exemptions\"\xfd\x01\n" +
+	"\x0eOfficialFigure\x12\x1d\n" +
+	"\n" +
+	"figure_key\x18\x01 \x01(\tR\tfigureKey\x12!\n" +
+	"\fcountry_code\x18\x02 \x01(\tR\vcountryCode\x122\n" +
+	"\x04kind\x18\x03 \x01(\x0e2\x1e.halovet.v1.OfficialFigureKindR\x04kind\x12\x1f\n" +
+	"\vannex_group\x18\x04 \x01(\tR\n" +
+	"annexGroup\x12\x12\n" +
+	"\x04year\x18\x05 \x01(\x05R\x04year\x12\x14\n" +
+	"\x05value\x18\x06 \x01(\x01R\x05value\x12\x12\n" +
+	"\x04unit\x18\a \x01(\tR\x04unit\x12\x16\n" +
+	"\x06source\x18\b \x01(\tR\x06source\"T\n" +
+	"\x1cRecordOfficialFiguresRequest\x124\n" +
+	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"U\n" +
+	"\x1dRecordOfficialFiguresResponse\x124\n" +
+	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"\x1c\n" +
+	"\x1aListOfficialFiguresRequest\"S\n" +
+	"\x1bListOfficialFiguresResponse\x124\n" +
+	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"p\n" +
 	"\x17AssessComplianceRequest\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x1b\n" +
 	"\tfrom_year\x18\x02 \x01(\x05R\bfromYear\x12\x17\n" +
-	"\ato_year\x18\x03 \x01(\x05R\x06toYear\"\xbd\x02\n" +
+	"\ato_year\x18\x03 \x01(\x05R\x06toYear\"\xd8\x03\n" +
 	"\x18AssessComplianceResponse\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x12\n" +
@@ -2117,7 +3018,11 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x11baseline_complete\x18\x06 \x01(\bR\x10baselineComplete\x12)\n" +
 	"\x10baseline_missing\x18\a \x03(\tR\x0fbaselineMissing\x12\x1d\n" +
 	"\n" +
-	"applies_to\x18\b \x01(\tR\tappliesTo\"\xeb\x01\n" +
+	"applies_to\x18\b \x01(\tR\tappliesTo\x12+\n" +
+	"\x11computed_baseline\x18\t \x01(\x01R\x10computedBaseline\x122\n" +
+	"\x15has_official_baseline\x18\n" +
+	" \x01(\bR\x13hasOfficialBaseline\x128\n" +
+	"\x18official_baseline_source\x18\v \x01(\tR\x16officialBaselineSource\"\xeb\x01\n" +
 	"\rQuotaProposal\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x01 \x01(\tR\tcompanyId\x12'\n" +
@@ -2159,13 +3064,27 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x1eCOMPLIANCE_OUTCOME_UNSPECIFIED\x10\x00\x12\x1d\n" +
 	"\x19COMPLIANCE_OUTCOME_WITHIN\x10\x01\x12\x1f\n" +
 	"\x1bCOMPLIANCE_OUTCOME_EXCEEDED\x10\x02\x12#\n" +
-	"\x1fCOMPLIANCE_OUTCOME_NOT_ASSESSED\x10\x032\xea\x05\n" +
+	"\x1fCOMPLIANCE_OUTCOME_NOT_ASSESSED\x10\x03*\xaa\x01\n" +
+	"\vExemptedUse\x12\x1c\n" +
+	"\x18EXEMPTED_USE_UNSPECIFIED\x10\x00\x12\x1a\n" +
+	"\x16EXEMPTED_USE_ESSENTIAL\x10\x01\x12\x19\n" +
+	"\x15EXEMPTED_USE_CRITICAL\x10\x02\x12\x1b\n" +
+	"\x17EXEMPTED_USE_LABORATORY\x10\x03\x12)\n" +
+	"%EXEMPTED_USE_HIGH_AMBIENT_TEMPERATURE\x10\x04*}\n" +
+	"\x12OfficialFigureKind\x12$\n" +
+	" OFFICIAL_FIGURE_KIND_UNSPECIFIED\x10\x00\x12!\n" +
+	"\x1dOFFICIAL_FIGURE_KIND_BASELINE\x10\x01\x12\x1e\n" +
+	"\x1aOFFICIAL_FIGURE_KIND_LIMIT\x10\x022\xec\t\n" +
 	"\x12ConsumptionService\x12\x8d\x01\n" +
 	"\x15RecordNationalEntries\x12(.halovet.v1.RecordNationalEntriesRequest\x1a).halovet.v1.RecordNationalEntriesResponse\"\x1f\x82\xd3\xe4\x93\x02\x19:\x01*\"\x14/v1/national-entries\x12\x84\x01\n" +
 	"\x13ListNationalEntries\x12&.halovet.v1.ListNationalEntriesRequest\x1a'.halovet.v1.ListNationalEntriesResponse\"\x1c\x82\xd3\xe4\x93\x02\x16\x12\x14/v1/national-entries\x12w\n" +
 	"\x0eGetConsumption\x12!.halovet.v1.GetConsumptionRequest\x1a\".halovet.v1.GetConsumptionResponse\"\x1e\x82\xd3\xe4\x93\x02\x18\x12\x16/v1/consumption/{year}\x12d\n" +
 	"\vGetBaseline\x12\x1e.halovet.v1.GetBaselineRequest\x1a\x1f.halovet.v1.GetBaselineResponse\"\x14\x82\xd3\xe4\x93\x02\x0e\x12\f/v1/baseline\x12u\n" +
-	"\x10AssessCompliance\x12#.halovet.v1.AssessComplianceRequest\x1a$.halovet.v1.AssessComplianceResponse\"\x16\x82\xd3\xe4\x93\x02\x10\x12\x0e/v1/compliance\x12g\n" +
+	"\x10AssessCompliance\x12#.halovet.v1.AssessComplianceRequest\x1a$.halovet.v1.AssessComplianceResponse\"\x16\x82\xd3\xe4\x93\x02\x10\x12\x0e/v1/compliance\x12x\n" +
+	"\x10RecordExemptions\x12#.halovet.v1.RecordExemptionsRequest\x1a$.halovet.v1.RecordExemptionsResponse\"\x19\x82\xd3\xe4\x93\x02\x13:\x01*\"\x0e/v1/exemptions\x12o\n" +
+	"\x0eListExemptions\x12!.halovet.v1.ListExemptionsRequest\x1a\".halovet.v1.ListExemptionsResponse\"\x16\x82\xd3\xe4\x93\x02\x10\x12\x0e/v1/exemptions\x12\x8d\x01\n" +
+	"\x15RecordOfficialFigures\x12(.halovet.v1.RecordOfficialFiguresRequest\x1a).halovet.v1.RecordOfficialFiguresResponse\"\x1f\x82\xd3\xe4\x93\x02\x19:\x01*\"\x14/v1/official-figures\x12\x84\x01\n" +
+	"\x13ListOfficialFigures\x12&.halovet.v1.ListOfficialFiguresRequest\x1a'.halovet.v1.ListOfficialFiguresResponse\"\x1c\x82\xd3\xe4\x93\x02\x16\x12\x14/v1/official-figures\x12g\n" +
 	"\n" +
 	"PlanQuotas\x12\x1d.halovet.v1.PlanQuotasRequest\x1a\x1e.halovet.v1.PlanQuotasResponse\"\x1a\x82\xd3\xe4\x93\x02\x14:\x01*\"\x0f/v1/quota-plansB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 
@@ -2181,65 +3100,96 @@ func file_halovet_v1_consumption_proto_rawDescGZIP() []byte {
 	return file_halovet_v1_consumption_proto_rawDescData
 }
 
-var file_halovet_v1_consumption_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
-var file_halovet_v1_consumption_proto_msgTypes = make([]protoimpl.MessageInfo, 20)
+var file_halovet_v1_consumption_proto_enumTypes = make([]protoimpl.EnumInfo, 4)
+var file_halovet_v1_consumption_proto_msgTypes = make([]protoimpl.MessageInfo, 31)
 var file_halovet_v1_consumption_proto_goTypes = []any{
 	(EntryType)(0),                        // 0: halovet.v1.EntryType
 	(ComplianceOutcome)(0),                // 1: halovet.v1.ComplianceOutcome
-	(*NationalEntry)(nil),                 // 2: halovet.v1.NationalEntry
-	(*RecordNationalEntriesRequest)(nil),  // 3: halovet.v1.RecordNationalEntriesRequest
-	(*RecordNationalEntriesResponse)(nil), // 4: halovet.v1.RecordNationalEntriesResponse
-	(*ListNationalEntriesRequest)(nil),    // 5: halovet.v1.ListNationalEntriesRequest
-	(*ListNationalEntriesResponse)(nil),   // 6: halovet.v1.ListNationalEntriesResponse
-	(*SubstanceConsumption)(nil),          // 7: halovet.v1.SubstanceConsumption
-	(*GroupConsumption)(nil),              // 8: halovet.v1.GroupConsumption
-	(*GetConsumptionRequest)(nil),         // 9: halovet.v1.GetConsumptionRequest
-	(*GetConsumptionResponse)(nil),        // 10: halovet.v1.GetConsumptionResponse
-	(*BaselineYear)(nil),                  // 11: halovet.v1.BaselineYear
-	(*BaselinePart)(nil),                  // 12: halovet.v1.BaselinePart
-	(*GetBaselineRequest)(nil),            // 13: halovet.v1.GetBaselineRequest
-	(*GetBaselineResponse)(nil),           // 14: halovet.v1.GetBaselineResponse
-	(*PeriodAverage)(nil),                 // 15: halovet.v1.PeriodAverage
-	(*ComplianceYear)(nil),                // 16: halovet.v1.ComplianceYear
-	(*AssessComplianceRequest)(nil),       // 17: halovet.v1.AssessComplianceRequest
-	(*AssessComplianceResponse)(nil),      // 18: halovet.v1.AssessComplianceResponse
-	(*QuotaProposal)(nil),                 // 19: halovet.v1.QuotaProposal
-	(*PlanQuotasRequest)(nil),             // 20: halovet.v1.PlanQuotasRequest
-	(*PlanQuotasResponse)(nil),            // 21: halovet.v1.PlanQuotasResponse
+	(ExemptedUse)(0),                      // 2: halovet.v1.ExemptedUse
+	(OfficialFigureKind)(0),               // 3: halovet.v1.OfficialFigureKind
+	(*NationalEntry)(nil),                 // 4: halovet.v1.NationalEntry
+	(*RecordNationalEntriesRequest)(nil),  // 5: halovet.v1.RecordNationalEntriesRequest
+	(*RecordNationalEntriesResponse)(nil), // 6: halovet.v1.RecordNationalEntriesResponse
+	(*ListNationalEntriesRequest)(nil),    // 7: halovet.v1.ListNationalEntriesRequest
+	(*ListNationalEntriesResponse)(nil),   // 8: halovet.v1.ListNationalEntriesResponse
+	(*SubstanceConsumption)(nil),          // 9: halovet.v1.SubstanceConsumption
+	(*GroupConsumption)(nil),              // 10: halovet.v1.GroupConsumption
+	(*GetConsumptionRequest)(nil),         // 11: halovet.v1.GetConsumptionRequest
+	(*GetConsumptionResponse)(nil),        // 12: halovet.v1.GetConsumptionResponse
+	(*BaselineYear)(nil),                  // 13: halovet.v1.BaselineYear
+	(*BaselinePart)(nil),                  // 14: halovet.v1.BaselinePart
+	(*GetBaselineRequest)(nil),            // 15: halovet.v1.GetBaselineRequest
+	(*GetBaselineResponse)(nil),           // 16: halovet.v1.GetBaselineResponse
+	(*PeriodAverage)(nil),                 // 17: halovet.v1.PeriodAverage
+	(*ComplianceYear)(nil),                // 18: halovet.v1.ComplianceYear
+	(*AppliedExemption)(nil),              // 19: halovet.v1.AppliedExemption
+	(*AuthorisedExemption)(nil),           // 20: halovet.v1.AuthorisedExemption
+	(*RecordExemptionsRequest)(nil),       // 21: halovet.v1.RecordExemptionsRequest
+	(*RecordExemptionsResponse)(nil),      // 22: halovet.v1.RecordExemptionsResponse
+	(*ListExemptionsRequest)(nil),         // 23: halovet.v1.ListExemptionsRequest
+	(*ListExemptionsResponse)(nil),        // 24: halovet.v1.ListExemptionsResponse
+	(*OfficialFigure)(nil),                // 25: halovet.v1.OfficialFigure
+	(*RecordOfficialFiguresRequest)(nil),  // 26: halovet.v1.RecordOfficialFiguresRequest
+	(*RecordOfficialFiguresResponse)(nil), // 27: halovet.v1.RecordOfficialFiguresResponse
+	(*ListOfficialFiguresRequest)(nil),    // 28: halovet.v1.ListOfficialFiguresRequest
+	(*ListOfficialFiguresResponse)(nil),   // 29: halovet.v1.ListOfficialFiguresResponse
+	(*AssessComplianceRequest)(nil),       // 30: halovet.v1.AssessComplianceRequest
+	(*AssessComplianceResponse)(nil),      // 31: halovet.v1.AssessComplianceResponse
+	(*QuotaProposal)(nil),                 // 32: halovet.v1.QuotaProposal
+	(*PlanQuotasRequest)(nil),             // 33: halovet.v1.PlanQuotasRequest
+	(*PlanQuotasResponse)(nil),            // 34: halovet.v1.PlanQuotasResponse
 }
 var file_halovet_v1_consumption_proto_depIdxs = []int32{
 	0,  // 0: halovet.v1.NationalEntry.entry_type:type_name -> halovet.v1.EntryType
-	2,  // 1: halovet.v1.RecordNationalEntriesRequest.entries:type_name -> halovet.v1.NationalEntry
-	2,  // 2: halovet.v1.RecordNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
-	2,  // 3: halovet.v1.ListNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
-	7,  // 4: halovet.v1.GroupConsumption.substances:type_name -> halovet.v1.SubstanceConsumption
-	8,  // 5: halovet.v1.GetConsumptionResponse.groups:type_name -> halovet.v1.GroupConsumption
-	11, // 6: halovet.v1.BaselinePart.years:type_name -> halovet.v1.BaselineYear
-	11, // 7: halovet.v1.BaselinePart.cfc_years:type_name -> halovet.v1.BaselineYear
-	11, // 8: halovet.v1.GetBaselineResponse.years:type_name -> halovet.v1.BaselineYear
-	11, // 9: halovet.v1.GetBaselineResponse.cfc_years:type_name -> halovet.v1.BaselineYear
-	12, // 10: halovet.v1.GetBaselineResponse.hcfc_baseline:type_name -> halovet.v1.BaselinePart
+	4,  // 1: halovet.v1.RecordNationalEntriesRequest.entries:type_name -> halovet.v1.NationalEntry
+	4,  // 2: halovet.v1.RecordNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
+	4,  // 3: halovet.v1.ListNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
+	9,  // 4: halovet.v1.GroupConsumption.substances:type_name -> halovet.v1.SubstanceConsumption
+	10, // 5: halovet.v1.GetConsumptionResponse.groups:type_name -> halovet.v1.GroupConsumption
+	13, // 6: halovet.v1.BaselinePart.years:type_name -> halovet.v1.BaselineYear
+	13, // 7: halovet.v1.BaselinePart.cfc_years:type_name -> halovet.v1.BaselineYear
+	13, // 8: halovet.v1.GetBaselineResponse.years:type_name -> halovet.v1.BaselineYear
+	13, // 9: halovet.v1.GetBaselineResponse.cfc_years:type_name -> halovet.v1.BaselineYear
+	14, // 10: halovet.v1.GetBaselineResponse.hcfc_baseline:type_name -> halovet.v1.BaselinePart
 	1,  // 11: halovet.v1.ComplianceYear.outcome:type_name -> halovet.v1.ComplianceOutcome
-	15, // 12: halovet.v1.ComplianceYear.period:type_name -> halovet.v1.PeriodAverage
-	16, // 13: halovet.v1.AssessComplianceResponse.years:type_name -> halovet.v1.ComplianceYear
-	19, // 14: halovet.v1.PlanQuotasResponse.proposals:type_name -> halovet.v1.QuotaProposal
-	3,  // 15: halovet.v1.ConsumptionService.RecordNationalEntries:input_type -> halovet.v1.RecordNationalEntriesRequest
-	5,  // 16: halovet.v1.ConsumptionService.ListNationalEntries:input_type -> halovet.v1.ListNationalEntriesRequest
-	9,  // 17: halovet.v1.ConsumptionService.GetConsumption:input_type -> halovet.v1.GetConsumptionRequest
-	13, // 18: halovet.v1.ConsumptionService.GetBaseline:input_type -> halovet.v1.GetBaselineRequest
-	17, // 19: halovet.v1.ConsumptionService.AssessCompliance:input_type -> halovet.v1.AssessComplianceRequest
-	20, // 20: halovet.v1.ConsumptionService.PlanQuotas:input_type -> halovet.v1.PlanQuotasRequest
-	4,  // 21: halovet.v1.ConsumptionService.RecordNationalEntries:output_type -> halovet.v1.RecordNationalEntriesResponse
-	6,  // 22: halovet.v1.ConsumptionService.ListNationalEntries:output_type -> halovet.v1.ListNationalEntriesResponse
-	10, // 23: halovet.v1.ConsumptionService.GetConsumption:output_type -> halovet.v1.GetConsumptionResponse
-	14, // 24: halovet.v1.ConsumptionService.GetBaseline:output_type -> halovet.v1.GetBaselineResponse
-	18, // 25: halovet.v1.ConsumptionService.AssessCompliance:output_type -> halovet.v1.AssessComplianceResponse
-	21, // 26: halovet.v1.ConsumptionService.PlanQuotas:output_type -> halovet.v1.PlanQuotasResponse
-	21, // [21:27] is the sub-list for method output_type
-	15, // [15:21] is the sub-list for method input_type
-	15, // [15:15] is the sub-list for extension type_name
-	15, // [15:15] is the sub-list for extension extendee
-	0,  // [0:15] is the sub-list for field type_name
+	17, // 12: halovet.v1.ComplianceYear.period:type_name -> halovet.v1.PeriodAverage
+	19, // 13: halovet.v1.ComplianceYear.exemptions:type_name -> halovet.v1.AppliedExemption
+	2,  // 14: halovet.v1.AppliedExemption.use:type_name -> halovet.v1.ExemptedUse
+	2,  // 15: halovet.v1.AuthorisedExemption.use:type_name -> halovet.v1.ExemptedUse
+	20, // 16: halovet.v1.RecordExemptionsRequest.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	20, // 17: halovet.v1.RecordExemptionsResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	20, // 18: halovet.v1.ListExemptionsResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	3,  // 19: halovet.v1.OfficialFigure.kind:type_name -> halovet.v1.OfficialFigureKind
+	25, // 20: halovet.v1.RecordOfficialFiguresRequest.figures:type_name -> halovet.v1.OfficialFigure
+	25, // 21: halovet.v1.RecordOfficialFiguresResponse.figures:type_name -> halovet.v1.OfficialFigure
+	25, // 22: halovet.v1.ListOfficialFiguresResponse.figures:type_name -> halovet.v1.OfficialFigure
+	18, // 23: halovet.v1.AssessComplianceResponse.years:type_name -> halovet.v1.ComplianceYear
+	32, // 24: halovet.v1.PlanQuotasResponse.proposals:type_name -> halovet.v1.QuotaProposal
+	5,  // 25: halovet.v1.ConsumptionService.RecordNationalEntries:input_type -> halovet.v1.RecordNationalEntriesRequest
+	7,  // 26: halovet.v1.ConsumptionService.ListNationalEntries:input_type -> halovet.v1.ListNationalEntriesRequest
+	11, // 27: halovet.v1.ConsumptionService.GetConsumption:input_type -> halovet.v1.GetConsumptionRequest
+	15, // 28: halovet.v1.ConsumptionService.GetBaseline:input_type -> halovet.v1.GetBaselineRequest
+	30, // 29: halovet.v1.ConsumptionService.AssessCompliance:input_type -> halovet.v1.AssessComplianceRequest
+	21, // 30: halovet.v1.ConsumptionService.RecordExemptions:input_type -> halovet.v1.RecordExemptionsRequest
+	23, // 31: halovet.v1.ConsumptionService.ListExemptions:input_type -> halovet.v1.ListExemptionsRequest
+	26, // 32: halovet.v1.ConsumptionService.RecordOfficialFigures:input_type -> halovet.v1.RecordOfficialFiguresRequest
+	28, // 33: halovet.v1.ConsumptionService.ListOfficialFigures:input_type -> halovet.v1.ListOfficialFiguresRequest
+	33, // 34: halovet.v1.ConsumptionService.PlanQuotas:input_type -> halovet.v1.PlanQuotasRequest
+	6,  // 35: halovet.v1.ConsumptionService.RecordNationalEntries:output_type -> halovet.v1.RecordNationalEntriesResponse
+	8,  // 36: halovet.v1.ConsumptionService.ListNationalEntries:output_type -> halovet.v1.ListNationalEntriesResponse
+	12, // 37: halovet.v1.ConsumptionService.GetConsumption:output_type -> halovet.v1.GetConsumptionResponse
+	16, // 38: halovet.v1.ConsumptionService.GetBaseline:output_type -> halovet.v1.GetBaselineResponse
+	31, // 39: halovet.v1.ConsumptionService.AssessCompliance:output_type -> halovet.v1.AssessComplianceResponse
+	22, // 40: halovet.v1.ConsumptionService.RecordExemptions:output_type -> halovet.v1.RecordExemptionsResponse
+	24, // 41: halovet.v1.ConsumptionService.ListExemptions:output_type -> halovet.v1.ListExemptionsResponse
+	27, // 42: halovet.v1.ConsumptionService.RecordOfficialFigures:output_type -> halovet.v1.RecordOfficialFiguresResponse
+	29, // 43: halovet.v1.ConsumptionService.ListOfficialFigures:output_type -> halovet.v1.ListOfficialFiguresResponse
+	34, // 44: halovet.v1.ConsumptionService.PlanQuotas:output_type -> halovet.v1.PlanQuotasResponse
+	35, // [35:45] is the sub-list for method output_type
+	25, // [25:35] is the sub-list for method input_type
+	25, // [25:25] is the sub-list for extension type_name
+	25, // [25:25] is the sub-list for extension extendee
+	0,  // [0:25] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_consumption_proto_init() }
@@ -2252,8 +3202,8 @@ func file_halovet_v1_consumption_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_consumption_proto_rawDesc), len(file_halovet_v1_consumption_proto_rawDesc)),
-			NumEnums:      2,
-			NumMessages:   20,
+			NumEnums:      4,
+			NumMessages:   31,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

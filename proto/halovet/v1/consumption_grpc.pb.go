@@ -24,6 +24,10 @@ const (
 	ConsumptionService_GetConsumption_FullMethodName        = "/halovet.v1.ConsumptionService/GetConsumption"
 	ConsumptionService_GetBaseline_FullMethodName           = "/halovet.v1.ConsumptionService/GetBaseline"
 	ConsumptionService_AssessCompliance_FullMethodName      = "/halovet.v1.ConsumptionService/AssessCompliance"
+	ConsumptionService_RecordExemptions_FullMethodName      = "/halovet.v1.ConsumptionService/RecordExemptions"
+	ConsumptionService_ListExemptions_FullMethodName        = "/halovet.v1.ConsumptionService/ListExemptions"
+	ConsumptionService_RecordOfficialFigures_FullMethodName = "/halovet.v1.ConsumptionService/RecordOfficialFigures"
+	ConsumptionService_ListOfficialFigures_FullMethodName   = "/halovet.v1.ConsumptionService/ListOfficialFigures"
 	ConsumptionService_PlanQuotas_FullMethodName            = "/halovet.v1.ConsumptionService/PlanQuotas"
 )
 
@@ -48,6 +52,18 @@ type ConsumptionServiceClient interface {
 	// AssessCompliance compares consumption with the allowed level over a range
 	// of years.
 	AssessCompliance(ctx context.Context, in *AssessComplianceRequest, opts ...grpc.CallOption) (*AssessComplianceResponse, error)
+	// RecordExemptions stores authorised exemptions (essential, critical,
+	// laboratory, high-ambient-temperature uses) per Party and year, each with
+	// the decision that authorises it. Compliance is judged against the limit
+	// plus the exemptions. Exemptions with an existing exemption_key are replaced.
+	RecordExemptions(ctx context.Context, in *RecordExemptionsRequest, opts ...grpc.CallOption) (*RecordExemptionsResponse, error)
+	// ListExemptions returns stored exemptions of one year, or all.
+	ListExemptions(ctx context.Context, in *ListExemptionsRequest, opts ...grpc.CallOption) (*ListExemptionsResponse, error)
+	// RecordOfficialFigures stores baselines and limits as officially set; they
+	// take precedence over computed ones, and compliance reports both.
+	RecordOfficialFigures(ctx context.Context, in *RecordOfficialFiguresRequest, opts ...grpc.CallOption) (*RecordOfficialFiguresResponse, error)
+	// ListOfficialFigures returns every stored official figure.
+	ListOfficialFigures(ctx context.Context, in *ListOfficialFiguresRequest, opts ...grpc.CallOption) (*ListOfficialFiguresResponse, error)
 	// PlanQuotas proposes next year's quotas per company by the largest-remainder
 	// method, optionally issuing them as draft licences.
 	PlanQuotas(ctx context.Context, in *PlanQuotasRequest, opts ...grpc.CallOption) (*PlanQuotasResponse, error)
@@ -111,6 +127,46 @@ func (c *consumptionServiceClient) AssessCompliance(ctx context.Context, in *Ass
 	return out, nil
 }
 
+func (c *consumptionServiceClient) RecordExemptions(ctx context.Context, in *RecordExemptionsRequest, opts ...grpc.CallOption) (*RecordExemptionsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordExemptionsResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_RecordExemptions_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) ListExemptions(ctx context.Context, in *ListExemptionsRequest, opts ...grpc.CallOption) (*ListExemptionsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListExemptionsResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_ListExemptions_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) RecordOfficialFigures(ctx context.Context, in *RecordOfficialFiguresRequest, opts ...grpc.CallOption) (*RecordOfficialFiguresResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordOfficialFiguresResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_RecordOfficialFigures_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) ListOfficialFigures(ctx context.Context, in *ListOfficialFiguresRequest, opts ...grpc.CallOption) (*ListOfficialFiguresResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListOfficialFiguresResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_ListOfficialFigures_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 func (c *consumptionServiceClient) PlanQuotas(ctx context.Context, in *PlanQuotasRequest, opts ...grpc.CallOption) (*PlanQuotasResponse, error) {
 	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
 	out := new(PlanQuotasResponse)
@@ -142,6 +198,18 @@ type ConsumptionServiceServer interface {
 	// AssessCompliance compares consumption with the allowed level over a range
 	// of years.
 	AssessCompliance(context.Context, *AssessComplianceRequest) (*AssessComplianceResponse, error)
+	// RecordExemptions stores authorised exemptions (essential, critical,
+	// laboratory, high-ambient-temperature uses) per Party and year, each with
+	// the decision that authorises it. Compliance is judged against the limit
+	// plus the exemptions. Exemptions with an existing exemption_key are replaced.
+	RecordExemptions(context.Context, *RecordExemptionsRequest) (*RecordExemptionsResponse, error)
+	// ListExemptions returns stored exemptions of one year, or all.
+	ListExemptions(context.Context, *ListExemptionsRequest) (*ListExemptionsResponse, error)
+	// RecordOfficialFigures stores baselines and limits as officially set; they
+	// take precedence over computed ones, and compliance reports both.
+	RecordOfficialFigures(context.Context, *RecordOfficialFiguresRequest) (*RecordOfficialFiguresResponse, error)
+	// ListOfficialFigures returns every stored official figure.
+	ListOfficialFigures(context.Context, *ListOfficialFiguresRequest) (*ListOfficialFiguresResponse, error)
 	// PlanQuotas proposes next year's quotas per company by the largest-remainder
 	// method, optionally issuing them as draft licences.
 	PlanQuotas(context.Context, *PlanQuotasRequest) (*PlanQuotasResponse, error)
@@ -169,6 +237,18 @@ func (UnimplementedConsumptionServiceServer) GetBaseline(context.Context, *GetBa
 }
 func (UnimplementedConsumptionServiceServer) AssessCompliance(context.Context, *AssessComplianceRequest) (*AssessComplianceResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method AssessCompliance not implemented")
+}
+func (UnimplementedConsumptionServiceServer) RecordExemptions(context.Context, *RecordExemptionsRequest) (*RecordExemptionsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordExemptions not implemented")
+}
+func (UnimplementedConsumptionServiceServer) ListExemptions(context.Context, *ListExemptionsRequest) (*ListExemptionsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListExemptions not implemented")
+}
+func (UnimplementedConsumptionServiceServer) RecordOfficialFigures(context.Context, *RecordOfficialFiguresRequest) (*RecordOfficialFiguresResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordOfficialFigures not implemented")
+}
+func (UnimplementedConsumptionServiceServer) ListOfficialFigures(context.Context, *ListOfficialFiguresRequest) (*ListOfficialFiguresResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListOfficialFigures not implemented")
 }
 func (UnimplementedConsumptionServiceServer) PlanQuotas(context.Context, *PlanQuotasRequest) (*PlanQuotasResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method PlanQuotas not implemented")
@@ -284,6 +364,78 @@ func _ConsumptionService_AssessCompliance_Handler(srv interface{}, ctx context.C
 	return interceptor(ctx, in, info, handler)
 }
 
+func _ConsumptionService_RecordExemptions_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordExemptionsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).RecordExemptions(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_RecordExemptions_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).RecordExemptions(ctx, req.(*RecordExemptionsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_ListExemptions_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListExemptionsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).ListExemptions(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_ListExemptions_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).ListExemptions(ctx, req.(*ListExemptionsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_RecordOfficialFigures_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordOfficialFiguresRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).RecordOfficialFigures(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_RecordOfficialFigures_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).RecordOfficialFigures(ctx, req.(*RecordOfficialFiguresRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_ListOfficialFigures_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListOfficialFiguresRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).ListOfficialFigures(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_ListOfficialFigures_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).ListOfficialFigures(ctx, req.(*ListOfficialFiguresRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 func _ConsumptionService_PlanQuotas_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
 	in := new(PlanQuotasRequest)
 	if err := dec(in); err != nil {
@@ -328,6 +480,22 @@ var ConsumptionService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "AssessCompliance",
 			Handler:    _ConsumptionService_AssessCompliance_Handler,
+		},
+		{
+			MethodName: "RecordExemptions",
+			Handler:    _ConsumptionService_RecordExemptions_Handler,
+		},
+		{
+			MethodName: "ListExemptions",
+			Handler:    _ConsumptionService_ListExemptions_Handler,
+		},
+		{
+			MethodName: "RecordOfficialFigures",
+			Handler:    _ConsumptionService_RecordOfficialFigures_Handler,
+		},
+		{
+			MethodName: "ListOfficialFigures",
+			Handler:    _ConsumptionService_ListOfficialFigures_Handler,
 		},
 		{
 			MethodName: "PlanQuotas",
