@@ -83,15 +83,15 @@ type YearAssessment struct {
 
 // Assessment compares consumption with the control schedule over a range of years.
 type Assessment struct {
-	Scope           Scope
-	AppliesTo       string
-	Unit            Unit
-	Baseline        *Baseline // computed; nil when no assessed year needed one (0 % steps need none)
+	Scope     Scope
+	AppliesTo string
+	Unit      Unit
+	Baseline  *Baseline // computed; nil when no assessed year needed one (0 % steps need none)
 	// OfficialBaseline is the baseline as officially set, when given: it is the one used.
 	OfficialBaseline *OfficialFigure
-	Years           []YearAssessment
-	RulebookVersion string
-	RulebookAsOf    string
+	Years            []YearAssessment
+	RulebookVersion  string
+	RulebookAsOf     string
 }
 
 // Assess compares a Party's consumption in a scope with the allowed level for each year

@@ -14,7 +14,7 @@ import (
 // Parties have set it, or a limit of an agreed plan stricter than the treaty's.
 type OfficialFigure struct {
 	Value  float64 // in the scope's unit
-	Source string // the decision or document that sets it
+	Source string  // the decision or document that sets it
 }
 
 // ExemptionUse is the kind of an authorised exemption.
