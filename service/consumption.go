@@ -351,6 +351,19 @@ func (c *consumptionServer) GetConsumption(ctx context.Context, req *halovetv1.G
 	if len(cons.Uncontrolled) > 0 {
 		out.Notes = append(out.Notes, "uncontrolled components left out: "+strings.Join(cons.Uncontrolled, ", "))
 	}
+	if only == nil || slices.Contains(only, substances.GroupFII) {
+		hs, err := c.srv.store.ListHFC23Entries(ctx, year)
+		if err != nil {
+			return nil, toStatus(ctx, c.srv.log, err)
+		}
+		gwp := c.srv.hfc23GWP()
+		for _, e := range hs {
+			out.Hfc23ByProduct = append(out.Hfc23ByProduct, hfc23ToProto(e, gwp))
+		}
+		if len(hs) > 0 {
+			out.Notes = append(out.Notes, "HFC-23 by-product per facility is reported beside Annex F consumption and is not part of it (Art. 2J paras 6-7; Art. 3 para 1(d); Art. 7 para 3 ter)")
+		}
+	}
 	out.Notes = append(out.Notes, d.notes...)
 	return out, nil
 }

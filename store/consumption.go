@@ -118,3 +118,43 @@ func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string
 	}
 	return out, rows.Err()
 }
+
+// ShipmentLine is one shipment component of a year with the shipment's id: what the
+// annual data report lists and traces (a ShipmentTotal before summing).
+type ShipmentLine struct {
+	ShipmentID      int64
+	Year            int
+	PartnerCountry  string
+	Designation     string
+	AnnexGroup      string
+	Direction       string
+	Purpose         string
+	Condition       string
+	PartnerNonParty bool
+	Tonnes          float64
+}
+
+// ShipmentLines returns the recorded shipment components of one year, by partner,
+// designation, direction and shipment id. It reads the same rows as ShipmentTotals.
+func (s *Store) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, err error) {
+	defer classifyInto(&err)
+	rows, err := s.pool.Query(ctx, `SELECT s.shipment_id, s.year, s.partner_country, c.designation, c.annex_group, s.direction,
+	        s.purpose, s.condition, coalesce(c.partner_non_party, s.partner_non_party), (c.mass_kg / 1000)::float8
+	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
+	    WHERE s.year = $1
+	    ORDER BY s.partner_country, c.designation, s.direction, s.shipment_id`, year)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []ShipmentLine
+	for rows.Next() {
+		var l ShipmentLine
+		if err := rows.Scan(&l.ShipmentID, &l.Year, &l.PartnerCountry, &l.Designation, &l.AnnexGroup, &l.Direction,
+			&l.Purpose, &l.Condition, &l.PartnerNonParty, &l.Tonnes); err != nil {
+			return nil, err
+		}
+		out = append(out, l)
+	}
+	return out, rows.Err()
+}

@@ -190,3 +190,57 @@ func (s *Store) ListHFC23Entries(ctx context.Context, year int) (_ []HFC23Entry,
 	}
 	return out, rows.Err()
 }
+
+// PartnerExport is what a partner reports as exported to the reporting Party.
+type PartnerExport struct {
+	Key       string
+	Year      int
+	Partner   string
+	Substance string
+	Tonnes    float64
+	Source    string
+}
+
+// PutPartnerExports stores partner reports in one transaction (replaced by key), each in
+// the audit log.
+func (s *Store) PutPartnerExports(ctx context.Context, rs []PartnerExport) error {
+	if len(rs) == 0 {
+		return nil
+	}
+	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
+		for _, r := range rs {
+			_, err := tx.Exec(ctx, `INSERT INTO partner_export_reports (report_key, year, partner, substance, metric_tonnes, source)
+			    VALUES ($1, $2, $3, $4, $5, $6)
+			    ON CONFLICT (report_key) DO UPDATE SET year = EXCLUDED.year, partner = EXCLUDED.partner,
+			      substance = EXCLUDED.substance, metric_tonnes = EXCLUDED.metric_tonnes, source = EXCLUDED.source,
+			      updated_at = now()`, r.Key, r.Year, r.Partner, r.Substance, r.Tonnes, r.Source)
+			if err != nil {
+				return classify(err, "partner export report", r.Key)
+			}
+			if err := audit(ctx, tx, "put", "partner_export_report", r.Key, "", r); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+}
+
+// ListPartnerExports returns the partner reports of one year by partner, substance, key.
+func (s *Store) ListPartnerExports(ctx context.Context, year int) (_ []PartnerExport, err error) {
+	defer classifyInto(&err)
+	rows, err := s.pool.Query(ctx, `SELECT report_key, year, partner, substance, metric_tonnes::float8, source
+	    FROM partner_export_reports WHERE year = $1 ORDER BY partner, substance, report_key`, year)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []PartnerExport
+	for rows.Next() {
+		var r PartnerExport
+		if err := rows.Scan(&r.Key, &r.Year, &r.Partner, &r.Substance, &r.Tonnes, &r.Source); err != nil {
+			return nil, err
+		}
+		out = append(out, r)
+	}
+	return out, rows.Err()
+}

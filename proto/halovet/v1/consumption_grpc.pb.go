@@ -19,16 +19,21 @@ import (
 const _ = grpc.SupportPackageIsVersion9
 
 const (
-	ConsumptionService_RecordNationalEntries_FullMethodName = "/halovet.v1.ConsumptionService/RecordNationalEntries"
-	ConsumptionService_ListNationalEntries_FullMethodName   = "/halovet.v1.ConsumptionService/ListNationalEntries"
-	ConsumptionService_GetConsumption_FullMethodName        = "/halovet.v1.ConsumptionService/GetConsumption"
-	ConsumptionService_GetBaseline_FullMethodName           = "/halovet.v1.ConsumptionService/GetBaseline"
-	ConsumptionService_AssessCompliance_FullMethodName      = "/halovet.v1.ConsumptionService/AssessCompliance"
-	ConsumptionService_RecordExemptions_FullMethodName      = "/halovet.v1.ConsumptionService/RecordExemptions"
-	ConsumptionService_ListExemptions_FullMethodName        = "/halovet.v1.ConsumptionService/ListExemptions"
-	ConsumptionService_RecordOfficialFigures_FullMethodName = "/halovet.v1.ConsumptionService/RecordOfficialFigures"
-	ConsumptionService_ListOfficialFigures_FullMethodName   = "/halovet.v1.ConsumptionService/ListOfficialFigures"
-	ConsumptionService_PlanQuotas_FullMethodName            = "/halovet.v1.ConsumptionService/PlanQuotas"
+	ConsumptionService_RecordNationalEntries_FullMethodName   = "/halovet.v1.ConsumptionService/RecordNationalEntries"
+	ConsumptionService_ListNationalEntries_FullMethodName     = "/halovet.v1.ConsumptionService/ListNationalEntries"
+	ConsumptionService_GetConsumption_FullMethodName          = "/halovet.v1.ConsumptionService/GetConsumption"
+	ConsumptionService_GetBaseline_FullMethodName             = "/halovet.v1.ConsumptionService/GetBaseline"
+	ConsumptionService_AssessCompliance_FullMethodName        = "/halovet.v1.ConsumptionService/AssessCompliance"
+	ConsumptionService_RecordExemptions_FullMethodName        = "/halovet.v1.ConsumptionService/RecordExemptions"
+	ConsumptionService_ListExemptions_FullMethodName          = "/halovet.v1.ConsumptionService/ListExemptions"
+	ConsumptionService_RecordOfficialFigures_FullMethodName   = "/halovet.v1.ConsumptionService/RecordOfficialFigures"
+	ConsumptionService_ListOfficialFigures_FullMethodName     = "/halovet.v1.ConsumptionService/ListOfficialFigures"
+	ConsumptionService_RecordHfc23Entries_FullMethodName      = "/halovet.v1.ConsumptionService/RecordHfc23Entries"
+	ConsumptionService_ListHfc23Entries_FullMethodName        = "/halovet.v1.ConsumptionService/ListHfc23Entries"
+	ConsumptionService_GetYearReport_FullMethodName           = "/halovet.v1.ConsumptionService/GetYearReport"
+	ConsumptionService_RecordPartnerExports_FullMethodName    = "/halovet.v1.ConsumptionService/RecordPartnerExports"
+	ConsumptionService_ReconcilePartnerExports_FullMethodName = "/halovet.v1.ConsumptionService/ReconcilePartnerExports"
+	ConsumptionService_PlanQuotas_FullMethodName              = "/halovet.v1.ConsumptionService/PlanQuotas"
 )
 
 // ConsumptionServiceClient is the client API for ConsumptionService service.
@@ -64,6 +69,26 @@ type ConsumptionServiceClient interface {
 	RecordOfficialFigures(ctx context.Context, in *RecordOfficialFiguresRequest, opts ...grpc.CallOption) (*RecordOfficialFiguresResponse, error)
 	// ListOfficialFigures returns every stored official figure.
 	ListOfficialFigures(ctx context.Context, in *ListOfficialFiguresRequest, opts ...grpc.CallOption) (*ListOfficialFiguresResponse, error)
+	// RecordHfc23Entries stores HFC-23 by-product figures per facility and year
+	// (generation, capture for use, destruction, emission). They are reported
+	// beside Annex F consumption and never lower it. Entries with an existing
+	// entry_key are replaced.
+	RecordHfc23Entries(ctx context.Context, in *RecordHfc23EntriesRequest, opts ...grpc.CallOption) (*RecordHfc23EntriesResponse, error)
+	// ListHfc23Entries returns the facility entries of one year, or all.
+	ListHfc23Entries(ctx context.Context, in *ListHfc23EntriesRequest, opts ...grpc.CallOption) (*ListHfc23EntriesResponse, error)
+	// GetYearReport computes the reporting Party's annual data report for a year
+	// from the register: imports by exporting country and exports by destination
+	// (new and recovered apart, with the feedstock, QPS and exempted-use parts),
+	// production, destruction, trade with non-Parties, HFC-23 by-product, and the
+	// totals per Annex group; every figure lists the records behind it.
+	GetYearReport(ctx context.Context, in *GetYearReportRequest, opts ...grpc.CallOption) (*GetYearReportResponse, error)
+	// RecordPartnerExports stores what trading partners report as their exports
+	// to the reporting Party. Reports with an existing report_key are replaced.
+	RecordPartnerExports(ctx context.Context, in *RecordPartnerExportsRequest, opts ...grpc.CallOption) (*RecordPartnerExportsResponse, error)
+	// ReconcilePartnerExports compares partners' reported exports with the
+	// recorded imports of a year and lists the gaps beyond a tolerance per
+	// partner and substance, with the records on our side.
+	ReconcilePartnerExports(ctx context.Context, in *ReconcilePartnerExportsRequest, opts ...grpc.CallOption) (*ReconcilePartnerExportsResponse, error)
 	// PlanQuotas proposes next year's quotas per company by the largest-remainder
 	// method, optionally issuing them as draft licences.
 	PlanQuotas(ctx context.Context, in *PlanQuotasRequest, opts ...grpc.CallOption) (*PlanQuotasResponse, error)
@@ -167,6 +192,56 @@ func (c *consumptionServiceClient) ListOfficialFigures(ctx context.Context, in *
 	return out, nil
 }
 
+func (c *consumptionServiceClient) RecordHfc23Entries(ctx context.Context, in *RecordHfc23EntriesRequest, opts ...grpc.CallOption) (*RecordHfc23EntriesResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordHfc23EntriesResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_RecordHfc23Entries_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) ListHfc23Entries(ctx context.Context, in *ListHfc23EntriesRequest, opts ...grpc.CallOption) (*ListHfc23EntriesResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListHfc23EntriesResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_ListHfc23Entries_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) GetYearReport(ctx context.Context, in *GetYearReportRequest, opts ...grpc.CallOption) (*GetYearReportResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(GetYearReportResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_GetYearReport_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) RecordPartnerExports(ctx context.Context, in *RecordPartnerExportsRequest, opts ...grpc.CallOption) (*RecordPartnerExportsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordPartnerExportsResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_RecordPartnerExports_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) ReconcilePartnerExports(ctx context.Context, in *ReconcilePartnerExportsRequest, opts ...grpc.CallOption) (*ReconcilePartnerExportsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ReconcilePartnerExportsResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_ReconcilePartnerExports_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 func (c *consumptionServiceClient) PlanQuotas(ctx context.Context, in *PlanQuotasRequest, opts ...grpc.CallOption) (*PlanQuotasResponse, error) {
 	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
 	out := new(PlanQuotasResponse)
@@ -210,6 +285,26 @@ type ConsumptionServiceServer interface {
 	RecordOfficialFigures(context.Context, *RecordOfficialFiguresRequest) (*RecordOfficialFiguresResponse, error)
 	// ListOfficialFigures returns every stored official figure.
 	ListOfficialFigures(context.Context, *ListOfficialFiguresRequest) (*ListOfficialFiguresResponse, error)
+	// RecordHfc23Entries stores HFC-23 by-product figures per facility and year
+	// (generation, capture for use, destruction, emission). They are reported
+	// beside Annex F consumption and never lower it. Entries with an existing
+	// entry_key are replaced.
+	RecordHfc23Entries(context.Context, *RecordHfc23EntriesRequest) (*RecordHfc23EntriesResponse, error)
+	// ListHfc23Entries returns the facility entries of one year, or all.
+	ListHfc23Entries(context.Context, *ListHfc23EntriesRequest) (*ListHfc23EntriesResponse, error)
+	// GetYearReport computes the reporting Party's annual data report for a year
+	// from the register: imports by exporting country and exports by destination
+	// (new and recovered apart, with the feedstock, QPS and exempted-use parts),
+	// production, destruction, trade with non-Parties, HFC-23 by-product, and the
+	// totals per Annex group; every figure lists the records behind it.
+	GetYearReport(context.Context, *GetYearReportRequest) (*GetYearReportResponse, error)
+	// RecordPartnerExports stores what trading partners report as their exports
+	// to the reporting Party. Reports with an existing report_key are replaced.
+	RecordPartnerExports(context.Context, *RecordPartnerExportsRequest) (*RecordPartnerExportsResponse, error)
+	// ReconcilePartnerExports compares partners' reported exports with the
+	// recorded imports of a year and lists the gaps beyond a tolerance per
+	// partner and substance, with the records on our side.
+	ReconcilePartnerExports(context.Context, *ReconcilePartnerExportsRequest) (*ReconcilePartnerExportsResponse, error)
 	// PlanQuotas proposes next year's quotas per company by the largest-remainder
 	// method, optionally issuing them as draft licences.
 	PlanQuotas(context.Context, *PlanQuotasRequest) (*PlanQuotasResponse, error)
@@ -249,6 +344,21 @@ func (UnimplementedConsumptionServiceServer) RecordOfficialFigures(context.Conte
 }
 func (UnimplementedConsumptionServiceServer) ListOfficialFigures(context.Context, *ListOfficialFiguresRequest) (*ListOfficialFiguresResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method ListOfficialFigures not implemented")
+}
+func (UnimplementedConsumptionServiceServer) RecordHfc23Entries(context.Context, *RecordHfc23EntriesRequest) (*RecordHfc23EntriesResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordHfc23Entries not implemented")
+}
+func (UnimplementedConsumptionServiceServer) ListHfc23Entries(context.Context, *ListHfc23EntriesRequest) (*ListHfc23EntriesResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListHfc23Entries not implemented")
+}
+func (UnimplementedConsumptionServiceServer) GetYearReport(context.Context, *GetYearReportRequest) (*GetYearReportResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method GetYearReport not implemented")
+}
+func (UnimplementedConsumptionServiceServer) RecordPartnerExports(context.Context, *RecordPartnerExportsRequest) (*RecordPartnerExportsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordPartnerExports not implemented")
+}
+func (UnimplementedConsumptionServiceServer) ReconcilePartnerExports(context.Context, *ReconcilePartnerExportsRequest) (*ReconcilePartnerExportsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ReconcilePartnerExports not implemented")
 }
 func (UnimplementedConsumptionServiceServer) PlanQuotas(context.Context, *PlanQuotasRequest) (*PlanQuotasResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method PlanQuotas not implemented")
@@ -436,6 +546,96 @@ func _ConsumptionService_ListOfficialFigures_Handler(srv interface{}, ctx contex
 	return interceptor(ctx, in, info, handler)
 }
 
+func _ConsumptionService_RecordHfc23Entries_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordHfc23EntriesRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).RecordHfc23Entries(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_RecordHfc23Entries_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).RecordHfc23Entries(ctx, req.(*RecordHfc23EntriesRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_ListHfc23Entries_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListHfc23EntriesRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).ListHfc23Entries(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_ListHfc23Entries_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).ListHfc23Entries(ctx, req.(*ListHfc23EntriesRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_GetYearReport_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(GetYearReportRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).GetYearReport(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_GetYearReport_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).GetYearReport(ctx, req.(*GetYearReportRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_RecordPartnerExports_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordPartnerExportsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).RecordPartnerExports(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_RecordPartnerExports_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).RecordPartnerExports(ctx, req.(*RecordPartnerExportsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_ReconcilePartnerExports_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ReconcilePartnerExportsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).ReconcilePartnerExports(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_ReconcilePartnerExports_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).ReconcilePartnerExports(ctx, req.(*ReconcilePartnerExportsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 func _ConsumptionService_PlanQuotas_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
 	in := new(PlanQuotasRequest)
 	if err := dec(in); err != nil {
@@ -496,6 +696,26 @@ var ConsumptionService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "ListOfficialFigures",
 			Handler:    _ConsumptionService_ListOfficialFigures_Handler,
+		},
+		{
+			MethodName: "RecordHfc23Entries",
+			Handler:    _ConsumptionService_RecordHfc23Entries_Handler,
+		},
+		{
+			MethodName: "ListHfc23Entries",
+			Handler:    _ConsumptionService_ListHfc23Entries_Handler,
+		},
+		{
+			MethodName: "GetYearReport",
+			Handler:    _ConsumptionService_GetYearReport_Handler,
+		},
+		{
+			MethodName: "RecordPartnerExports",
+			Handler:    _ConsumptionService_RecordPartnerExports_Handler,
+		},
+		{
+			MethodName: "ReconcilePartnerExports",
+			Handler:    _ConsumptionService_ReconcilePartnerExports_Handler,
 		},
 		{
 			MethodName: "PlanQuotas",
