@@ -128,7 +128,7 @@ func exemptedPurpose(p string) bool {
 
 // reportSub is one substance's arithmetic in the report.
 type reportSub struct {
-	sub                                                               controls.Substance
+	sub                                                             controls.Substance
 	production, imports, exports, exportsNP, destruction, feed, qps float64
 }
 
