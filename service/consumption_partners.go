@@ -139,9 +139,22 @@ func (c *consumptionServer) ReconcilePartnerExports(ctx context.Context, req *ha
 		s.partner += r.Tonnes
 		s.keys = append(s.keys, r.Key)
 	}
+	reporting := map[string]bool{}
+	for _, r := range reports {
+		reporting[r.Partner] = true
+	}
+	var silent []string
 	for _, l := range lines {
 		// Imports only, controlled components only, from the partner named on the record.
 		if l.Direction != "import" || l.AnnexGroup == "" {
+			continue
+		}
+		if !reporting[l.PartnerCountry] {
+			// A partner without any figure for the year is not compared: its figures are
+			// missing, which is not a report of zero.
+			if !slices.Contains(silent, l.PartnerCountry) {
+				silent = append(silent, l.PartnerCountry)
+			}
 			continue
 		}
 		s := get(pair{l.PartnerCountry, l.Designation})
@@ -158,7 +171,8 @@ func (c *consumptionServer) ReconcilePartnerExports(ctx context.Context, req *ha
 		}
 		return strings.Compare(a.substance, b.substance)
 	})
-	out := &halovetv1.ReconcilePartnerExportsResponse{Year: int32(year), Tolerance: tol, PairsCompared: int32(len(keys))}
+	slices.Sort(silent)
+	out := &halovetv1.ReconcilePartnerExportsResponse{Year: int32(year), Tolerance: tol, PairsCompared: int32(len(keys)), PartnersNotReporting: silent}
 	for _, k := range keys {
 		s := pairs[k]
 		gap := s.partner - s.recorded

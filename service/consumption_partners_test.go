@@ -30,6 +30,10 @@ func TestReconcilePartnerExports(t *testing.T) {
 	consRecordFrom(t, st, "XC",
 		consShip{"c1", "XB-2", "import", "servicing", "virgin", false, 2025, "HFC-32", 50}, // XC reports 51: within 5 %
 	)
+	// XD reports nothing: its import is not compared (missing, not zero) and XD is named.
+	consRecordFrom(t, st, "XD",
+		consShip{"x1", "XB-3", "import", "servicing", "virgin", false, 2025, "HFC-134a", 8},
+	)
 	rep := func(key, partner, sub string, t float64) *halovetv1.PartnerExport {
 		return &halovetv1.PartnerExport{ReportKey: key, Year: 2025, PartnerCountry: partner, Substance: sub, MetricTonnes: t, Source: "invented partner data report"}
 	}
@@ -68,6 +72,9 @@ func TestReconcilePartnerExports(t *testing.T) {
 	}
 	if got.GetPairsCompared() != 6 {
 		t.Errorf("pairs compared %d, want 6 (XA: CFC-12, HCFC-22, HFC-125, HFC-134a, HFC-32; XC: HFC-32)", got.GetPairsCompared())
+	}
+	if fmt.Sprint(got.GetPartnersNotReporting()) != "[XD]" {
+		t.Errorf("partners not reporting %v, want [XD]", got.GetPartnersNotReporting())
 	}
 	_, err = c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: 2025, Tolerance: 1.5})
 	consCode(t, err, codes.InvalidArgument, "tolerance")

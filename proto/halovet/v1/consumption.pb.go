@@ -4107,8 +4107,11 @@ type ReconcilePartnerExportsResponse struct {
 	Gaps []*PartnerGap `protobuf:"bytes,3,rep,name=gaps,proto3" json:"gaps,omitempty"`
 	// Partner and substance pairs compared.
 	PairsCompared int32 `protobuf:"varint,4,opt,name=pairs_compared,json=pairsCompared,proto3" json:"pairs_compared,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	// Partners we recorded imports from that reported nothing for the year: not
+	// compared (their figures are missing, not zero), in order.
+	PartnersNotReporting []string `protobuf:"bytes,5,rep,name=partners_not_reporting,json=partnersNotReporting,proto3" json:"partners_not_reporting,omitempty"`
+	unknownFields        protoimpl.UnknownFields
+	sizeCache            protoimpl.SizeCache
 }
 
 func (x *ReconcilePartnerExportsResponse) Reset() {
@@ -4167,6 +4170,13 @@ func (x *ReconcilePartnerExportsResponse) GetPairsCompared() int32 {
 		return x.PairsCompared
 	}
 	return 0
+}
+
+func (x *ReconcilePartnerExportsResponse) GetPartnersNotReporting() []string {
+	if x != nil {
+		return x.PartnersNotReporting
+	}
+	return nil
 }
 
 var File_halovet_v1_consumption_proto protoreflect.FileDescriptor
@@ -4507,12 +4517,13 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"gap_tonnes\x18\x06 \x01(\x01R\tgapTonnes\x12!\n" +
 	"\fshipment_ids\x18\a \x03(\x03R\vshipmentIds\x12\x1f\n" +
 	"\vreport_keys\x18\b \x03(\tR\n" +
-	"reportKeys\"\xa6\x01\n" +
+	"reportKeys\"\xdc\x01\n" +
 	"\x1fReconcilePartnerExportsResponse\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1c\n" +
 	"\ttolerance\x18\x02 \x01(\x01R\ttolerance\x12*\n" +
 	"\x04gaps\x18\x03 \x03(\v2\x16.halovet.v1.PartnerGapR\x04gaps\x12%\n" +
-	"\x0epairs_compared\x18\x04 \x01(\x05R\rpairsCompared*\xfc\x01\n" +
+	"\x0epairs_compared\x18\x04 \x01(\x05R\rpairsCompared\x124\n" +
+	"\x16partners_not_reporting\x18\x05 \x03(\tR\x14partnersNotReporting*\xfc\x01\n" +
 	"\tEntryType\x12\x1a\n" +
 	"\x16ENTRY_TYPE_UNSPECIFIED\x10\x00\x12\x19\n" +
 	"\x15ENTRY_TYPE_PRODUCTION\x10\x01\x12\x1a\n" +
