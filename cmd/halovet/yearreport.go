@@ -40,7 +40,8 @@ names the records behind it: shipment ids and national entry keys.
 
 Without --dir the group totals are printed (or the whole report with --output
 json). With --dir the report is written there, each file replaced whole:
-  groups.csv       totals per Annex group (has_data false: no data, not zero)
+  groups.csv       totals per Annex group (has_data no: no data, not zero, and
+                   the figures are left empty)
   imports.csv      imports by exporting country and substance
   exports.csv      exports by destination and substance
   production.csv, destruction.csv, feedstock.csv, qps.csv   quantities by basis
@@ -147,6 +148,11 @@ var groupHeader = []string{"annex_group", "has_data", "production_t", "imports_t
 func groupRows(gs []*halovetv1.YearGroupTotal) [][]string {
 	var out [][]string
 	for _, g := range gs {
+		if !g.GetHasData() {
+			// No data is not zero: the figures stay empty.
+			out = append(out, append([]string{g.GetAnnexGroup(), "no"}, make([]string, len(groupHeader)-2)...))
+			continue
+		}
 		out = append(out, []string{g.GetAnnexGroup(), yesNo(g.GetHasData()), fmtFull(g.GetProductionTonnes()), fmtFull(g.GetImportTonnes()),
 			fmtFull(g.GetExportTonnes()), fmtFull(g.GetDestructionTonnes()), fmtFull(g.GetFeedstockTonnes()), fmtFull(g.GetQpsTonnes()),
 			fmtFull(g.GetExportNonPartyTonnes()), fmtFull(g.GetConsumptionTonnes()), fmtFull(g.GetConsumptionOdpTonnes()),
@@ -305,8 +311,9 @@ td.ids { font-size: 8pt; text-align: left; max-width: 20em; }
 <p>State: {{.State}}. Figures in metric tonnes unless marked; every line names the records behind it.</p>
 <h2>Totals per Annex group</h2>
 <table><tr><th>group</th><th>data</th><th>production</th><th>imports</th><th>exports</th><th>destroyed</th><th>feedstock</th><th>QPS</th><th>to non-Parties</th><th>consumption</th><th>ODP t</th><th>CO2-eq t</th></tr>
-{{range .Groups}}<tr><td>{{.AnnexGroup}}</td><td>{{if .HasData}}yes{{else}}no data{{end}}</td><td>{{t .ProductionTonnes}}</td><td>{{t .ImportTonnes}}</td><td>{{t .ExportTonnes}}</td><td>{{t .DestructionTonnes}}</td><td>{{t .FeedstockTonnes}}</td><td>{{t .QpsTonnes}}</td><td>{{t .ExportNonPartyTonnes}}</td><td>{{t .ConsumptionTonnes}}</td><td>{{t .ConsumptionOdpTonnes}}</td><td>{{t .ConsumptionCo2ETonnes}}</td></tr>
-{{end}}</table>
+{{range .Groups}}{{if not .HasData}}<tr><td>{{.AnnexGroup}}</td><td class="text" colspan="11">no data (not zero)</td></tr>
+{{else}}<tr><td>{{.AnnexGroup}}</td><td class="text">yes</td><td>{{t .ProductionTonnes}}</td><td>{{t .ImportTonnes}}</td><td>{{t .ExportTonnes}}</td><td>{{t .DestructionTonnes}}</td><td>{{t .FeedstockTonnes}}</td><td>{{t .QpsTonnes}}</td><td>{{t .ExportNonPartyTonnes}}</td><td>{{t .ConsumptionTonnes}}</td><td>{{t .ConsumptionOdpTonnes}}</td><td>{{t .ConsumptionCo2ETonnes}}</td></tr>
+{{end}}{{end}}</table>
 {{define "trade"}}<table><tr><th>partner</th><th>substance</th><th>group</th><th>non-Party</th><th>new</th><th>recovered</th><th>feedstock</th><th>QPS</th><th>exempted uses</th><th>destruction</th><th>records</th></tr>
 {{range .}}<tr><td>{{.PartnerCountry}}</td><td class="text">{{.Substance}}</td><td class="text">{{.AnnexGroup}}</td><td class="text">{{yn .PartnerNonParty}}</td><td>{{t .NewTonnes}}</td><td>{{t .RecoveredTonnes}}</td><td>{{t .FeedstockTonnes}}</td><td>{{t .QpsTonnes}}</td><td>{{t .ExemptedTonnes}}</td><td>{{t .DestructionTonnes}}</td><td class="ids">{{ids .ShipmentIds .EntryKeys}}</td></tr>
 {{end}}</table>{{end}}
