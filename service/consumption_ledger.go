@@ -304,6 +304,11 @@ func (s *Server) loadConsumption(ctx context.Context, years []int) (consumptionD
 	uses := declaredUses(cat, ships)
 	for _, t := range nats {
 		d.anyYears[t.Year] = true
+		if t.Type == store.EntryDestruction && t.Substance == hfc23Designation {
+			// Refused since migration 9; one stored before is counted and flagged.
+			addNote(fmt.Sprintf("check: %d: destruction entries of HFC-23 (%s, %s t) deduct from Annex F consumption; HFC-23 by-product destroyed at a plant is not a deduction (Art. 2J paras 6-7; Art. 3 para 1(d)): if it is by-product, record it as an HFC-23 facility entry and remove these entries",
+				t.Year, strings.Join(t.Keys, ", "), fmtT(t.Tonnes)))
+		}
 		if deductedUse(t.Type) && !t.OutsideCustoms {
 			if shipped, ok := uses[useKey{t.Year, t.Substance, t.Type}]; ok {
 				addNote(fmt.Sprintf("%d: national %s entries of %s (%s, %s t) left out: shipments declared for %s (%s t) are deducted already, and the entries are not marked outside customs; if they cover only quantities that never passed customs, store them again with outside_customs",
