@@ -9,6 +9,7 @@ import (
 	"google.golang.org/grpc/codes"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/store"
 )
 
 // Worked examples of the reporting year: every quantity deducted once, "no data" apart from
@@ -245,5 +246,27 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 	consNear(t, "HCFC headroom (official limit)", y.GetHeadroom(), -0.05)
 	if !y.GetHasOfficialLimit() || y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED {
 		t.Errorf("HCFC 2025 with the official limit: %v %v, want EXCEEDED", y.GetHasOfficialLimit(), y.GetOutcome())
+	}
+}
+
+// TestLegacyHFC23DestructionFlagged: a destruction entry of HFC-23 stored before such
+// entries were refused (written here straight through the store) is counted and flagged:
+// by-product destroyed at a plant is no deduction (Art. 2J paras 6-7; Art. 3 para 1(d)).
+// The entry is INVENTED.
+func TestLegacyHFC23DestructionFlagged(t *testing.T) {
+	conn, st := startTestServer(t)
+	ctx := context.Background()
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "OLD-HFC23", Year: 2025, Type: store.EntryDestruction, Substance: "HFC-23", Tonnes: 100}}); err != nil {
+		t.Fatal(err)
+	}
+	got, err := c.GetConsumption(ctx, &halovetv1.GetConsumptionRequest{Year: 2025})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 100 t × 14800 (Annex F Group II GWP) = −1,480,000 CO2-eq t, shown and flagged.
+	consNear(t, "F/II CO2-eq t", consGroup(got, "F/II").GetConsumptionCo2ETonnes(), -1480000)
+	if !hasNote(got.GetNotes(), "check: 2025: destruction entries of HFC-23 (OLD-HFC23") {
+		t.Errorf("notes %q: want the old HFC-23 destruction entry flagged", got.GetNotes())
 	}
 }
