@@ -402,6 +402,15 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 	out.Destruction = sortedQty(qty["destruction"])
 	out.Feedstock = sortedQty(qty["feedstock"])
 	out.Qps = sortedQty(qty["qps"])
+	exs, err := s.store.ListExemptions(ctx, year)
+	if err != nil {
+		return nil, err
+	}
+	for _, e := range exs {
+		if e.CountryCode == out.CountryCode {
+			out.Exemptions = append(out.Exemptions, exemptionToProto(e))
+		}
+	}
 	gwp := s.hfc23GWP()
 	for _, e := range hfc23 {
 		out.Hfc23 = append(out.Hfc23, hfc23ToProto(e, gwp))

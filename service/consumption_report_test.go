@@ -58,6 +58,10 @@ func yearReportScenario(t *testing.T) (halovetv1.ConsumptionServiceClient, map[s
 		{EntryKey: "HFC23-A-2025", Facility: "plant A (invented)", Year: 2025, GeneratedTonnes: 12, CapturedUsedTonnes: 2, DestroyedTonnes: 9, EmittedTonnes: 1}}}); err != nil {
 		t.Fatal(err)
 	}
+	if _, err := c.RecordExemptions(context.Background(), &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
+		{ExemptionKey: "CUE-2025", Year: 2025, AnnexGroup: "E/I", Use: halovetv1.ExemptedUse_EXEMPTED_USE_CRITICAL, Amount: 2.4, Source: "invented decision XB/1"}}}); err != nil {
+		t.Fatal(err)
+	}
 	return c, ids
 }
 
@@ -182,6 +186,11 @@ func TestYearReportByHand(t *testing.T) {
 	if len(rep.GetImportsNonParty()) != 1 || rep.GetImportsNonParty()[0].GetPartnerCountry() != "XD" ||
 		len(rep.GetExportsNonParty()) != 1 || rep.GetExportsNonParty()[0].GetNewTonnes() != 5 {
 		t.Errorf("non-Party trade: imports %v exports %v, want XD 7 t in and 5 t out", rep.GetImportsNonParty(), rep.GetExportsNonParty())
+	}
+
+	// The year's authorised exemption, with its source.
+	if ex := rep.GetExemptions(); len(ex) != 1 || ex[0].GetSource() != "invented decision XB/1" || ex[0].GetAmount() != 2.4 {
+		t.Errorf("exemptions %v, want the critical use of 2.4 ODP t with its decision", ex)
 	}
 
 	// The report's totals equal the consumption report's, group by group.

@@ -47,6 +47,7 @@ json). With --dir the report is written there, each file replaced whole:
   production.csv, destruction.csv, feedstock.csv, qps.csv   quantities by basis
   non-party.csv    trade with non-Parties, both directions
   hfc23.csv        HFC-23 by-product per facility
+  exemptions.csv   the year's authorised exemptions with their sources
   report.json      the whole report (the API's response)
   report.html      a printable page of the same figures
 The files hold no time of computation, so a year whose register does not change
@@ -172,6 +173,17 @@ func hfc23Rows(es []*halovetv1.Hfc23Entry) [][]string {
 	return out
 }
 
+var exemptionHeader = []string{"exemption_key", "country_code", "year", "annex_group", "use", "amount", "unit", "source"}
+
+func exemptionRows(es []*halovetv1.AuthorisedExemption) [][]string {
+	var out [][]string
+	for _, e := range es {
+		out = append(out, []string{e.GetExemptionKey(), e.GetCountryCode(), strconv.Itoa(int(e.GetYear())), e.GetAnnexGroup(),
+			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), fmtFull(e.GetAmount()), e.GetUnit(), e.GetSource()})
+	}
+	return out
+}
+
 // yearReportFiles renders every file of the report.
 func yearReportFiles(rep *halovetv1.GetYearReportResponse) ([]yearFile, error) {
 	var files []yearFile
@@ -198,6 +210,7 @@ func yearReportFiles(rep *halovetv1.GetYearReportResponse) ([]yearFile, error) {
 		{"qps.csv", qtyHeader, qtyRows(rep.GetQps())},
 		{"non-party.csv", append([]string{"direction"}, tradeHeader...), np},
 		{"hfc23.csv", hfc23Header, hfc23Rows(rep.GetHfc23())},
+		{"exemptions.csv", exemptionHeader, exemptionRows(rep.GetExemptions())},
 	} {
 		if err := add(f.name, f.header, f.rows); err != nil {
 			return nil, err
@@ -274,7 +287,7 @@ func writeYearSummary(w io.Writer, rep *halovetv1.GetYearReportResponse, dir str
 	}
 	fmt.Fprintf(w, "\n%d import lines, %d export lines, %d HFC-23 facilities\n", len(rep.GetImports()), len(rep.GetExports()), len(rep.GetHfc23()))
 	if dir != "" {
-		fmt.Fprintf(w, "written to %s: groups.csv imports.csv exports.csv production.csv destruction.csv feedstock.csv qps.csv non-party.csv hfc23.csv report.json report.html\n", dir)
+		fmt.Fprintf(w, "written to %s: groups.csv imports.csv exports.csv production.csv destruction.csv feedstock.csv qps.csv non-party.csv hfc23.csv exemptions.csv report.json report.html\n", dir)
 	}
 	writeNotes(w, "Notes", rep.GetNotes())
 	_, err := io.WriteString(w, "\n"+reportFooter(nil))
@@ -292,6 +305,7 @@ func orNone(s string) string {
 // and headings are our own.
 var yearHTML = template.Must(template.New("year").Funcs(template.FuncMap{
 	"t": fmtFull, "ids": idsText, "yn": yesNo,
+	"use": func(u halovetv1.ExemptedUse) string { return enumWord(u.Descriptor(), u.Number()) },
 }).Parse(`<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -331,6 +345,10 @@ td.ids { font-size: 8pt; text-align: left; max-width: 20em; }
 <h2>HFC-23 by-product per facility (beside Annex F consumption, not part of it)</h2>
 <table><tr><th>facility</th><th>generated</th><th>captured for use</th><th>destroyed</th><th>emitted</th><th>emitted CO2-eq t</th><th>entry</th></tr>
 {{range .Hfc23}}<tr><td>{{.Facility}}</td><td>{{t .GeneratedTonnes}}</td><td>{{t .CapturedUsedTonnes}}</td><td>{{t .DestroyedTonnes}}</td><td>{{t .EmittedTonnes}}</td><td>{{t .EmittedCo2ETonnes}}</td><td class="text">{{.EntryKey}}</td></tr>
+{{end}}</table>
+<h2>Authorised exemptions</h2>
+<table><tr><th>use</th><th>group</th><th>amount</th><th>unit</th><th>source</th><th>key</th></tr>
+{{range .Exemptions}}<tr><td>{{use .Use}}</td><td class="text">{{.AnnexGroup}}</td><td>{{t .Amount}}</td><td class="text">{{.Unit}}</td><td class="text">{{.Source}}</td><td class="text">{{.ExemptionKey}}</td></tr>
 {{end}}</table>
 {{if .Notes}}<h2>Notes</h2><ul>{{range .Notes}}<li>{{.}}</li>{{end}}</ul>{{end}}
 <p><small>` + decisionSupportNotice + ` Refrigerants are asphyxiants in confined spaces, cause frostbite on contact and decompose to toxic and corrosive products in flames; ASHRAE 34 class A2L, A2 and A3 refrigerants are flammable, class B ones of higher toxicity.</small></p>

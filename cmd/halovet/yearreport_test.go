@@ -21,7 +21,7 @@ func TestYearReportFiles(t *testing.T) {
 		}
 	}
 	names := []string{"groups.csv", "imports.csv", "exports.csv", "production.csv", "destruction.csv", "feedstock.csv",
-		"qps.csv", "non-party.csv", "hfc23.csv", "report.json", "report.html"}
+		"qps.csv", "non-party.csv", "hfc23.csv", "exemptions.csv", "report.json", "report.html"}
 	for _, n := range names {
 		a, err := os.ReadFile(filepath.Join(dirs[0], n))
 		if err != nil {
@@ -54,8 +54,8 @@ func TestYearReportFiles(t *testing.T) {
 	if strings.Count(string(page), "</table>") != tables {
 		t.Errorf("report.html: tables not closed")
 	}
-	if tables != 10 || !strings.Contains(string(page), "no data") || !strings.Contains(string(page), "decision support") {
-		t.Errorf("report.html: %d tables, want 10, with no-data groups and the decision-support notice", tables)
+	if tables != 11 || !strings.Contains(string(page), "no data") || !strings.Contains(string(page), "decision support") {
+		t.Errorf("report.html: %d tables, want 11, with no-data groups and the decision-support notice", tables)
 	}
 	if left, _ := filepath.Glob(filepath.Join(dirs[0], ".*")); len(left) > 0 {
 		t.Errorf("temporary files left: %v", left)

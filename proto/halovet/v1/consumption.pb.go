@@ -3599,7 +3599,9 @@ type GetYearReportResponse struct {
 	// How the figures were counted and what to check.
 	Notes []string `protobuf:"bytes,14,rep,name=notes,proto3" json:"notes,omitempty"`
 	// "provisional": the year is open and its figures may still change.
-	State         string `protobuf:"bytes,15,opt,name=state,proto3" json:"state,omitempty"`
+	State string `protobuf:"bytes,15,opt,name=state,proto3" json:"state,omitempty"`
+	// The reporting Party's authorised exemptions of the year, with their sources.
+	Exemptions    []*AuthorisedExemption `protobuf:"bytes,16,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -3737,6 +3739,13 @@ func (x *GetYearReportResponse) GetState() string {
 		return x.State
 	}
 	return ""
+}
+
+func (x *GetYearReportResponse) GetExemptions() []*AuthorisedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
 }
 
 // PartnerExport is what one partner reports as exported to the reporting Party.
@@ -4470,7 +4479,7 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x16consumption_odp_tonnes\x18\v \x01(\x01R\x14consumptionOdpTonnes\x126\n" +
 	"\x17consumption_co2e_tonnes\x18\f \x01(\x01R\x15consumptionCo2eTonnes\"*\n" +
 	"\x14GetYearReportRequest\x12\x12\n" +
-	"\x04year\x18\x01 \x01(\x05R\x04year\"\xe4\x05\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\"\xa5\x06\n" +
 	"\x15GetYearReportResponse\x12!\n" +
 	"\fcountry_code\x18\x01 \x01(\tR\vcountryCode\x12\x12\n" +
 	"\x04year\x18\x02 \x01(\x05R\x04year\x122\n" +
@@ -4489,7 +4498,10 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x05hfc23\x18\f \x03(\v2\x16.halovet.v1.Hfc23EntryR\x05hfc23\x12$\n" +
 	"\x0eno_data_groups\x18\r \x03(\tR\fnoDataGroups\x12\x14\n" +
 	"\x05notes\x18\x0e \x03(\tR\x05notes\x12\x14\n" +
-	"\x05state\x18\x0f \x01(\tR\x05state\"\xc6\x01\n" +
+	"\x05state\x18\x0f \x01(\tR\x05state\x12?\n" +
+	"\n" +
+	"exemptions\x18\x10 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
+	"exemptions\"\xc6\x01\n" +
 	"\rPartnerExport\x12\x1d\n" +
 	"\n" +
 	"report_key\x18\x01 \x01(\tR\treportKey\x12\x12\n" +
@@ -4673,44 +4685,45 @@ var file_halovet_v1_consumption_proto_depIdxs = []int32{
 	40, // 36: halovet.v1.GetYearReportResponse.imports_non_party:type_name -> halovet.v1.YearTradeLine
 	40, // 37: halovet.v1.GetYearReportResponse.exports_non_party:type_name -> halovet.v1.YearTradeLine
 	35, // 38: halovet.v1.GetYearReportResponse.hfc23:type_name -> halovet.v1.Hfc23Entry
-	45, // 39: halovet.v1.RecordPartnerExportsRequest.reports:type_name -> halovet.v1.PartnerExport
-	45, // 40: halovet.v1.RecordPartnerExportsResponse.reports:type_name -> halovet.v1.PartnerExport
-	49, // 41: halovet.v1.ReconcilePartnerExportsResponse.gaps:type_name -> halovet.v1.PartnerGap
-	5,  // 42: halovet.v1.ConsumptionService.RecordNationalEntries:input_type -> halovet.v1.RecordNationalEntriesRequest
-	7,  // 43: halovet.v1.ConsumptionService.ListNationalEntries:input_type -> halovet.v1.ListNationalEntriesRequest
-	11, // 44: halovet.v1.ConsumptionService.GetConsumption:input_type -> halovet.v1.GetConsumptionRequest
-	15, // 45: halovet.v1.ConsumptionService.GetBaseline:input_type -> halovet.v1.GetBaselineRequest
-	30, // 46: halovet.v1.ConsumptionService.AssessCompliance:input_type -> halovet.v1.AssessComplianceRequest
-	21, // 47: halovet.v1.ConsumptionService.RecordExemptions:input_type -> halovet.v1.RecordExemptionsRequest
-	23, // 48: halovet.v1.ConsumptionService.ListExemptions:input_type -> halovet.v1.ListExemptionsRequest
-	26, // 49: halovet.v1.ConsumptionService.RecordOfficialFigures:input_type -> halovet.v1.RecordOfficialFiguresRequest
-	28, // 50: halovet.v1.ConsumptionService.ListOfficialFigures:input_type -> halovet.v1.ListOfficialFiguresRequest
-	36, // 51: halovet.v1.ConsumptionService.RecordHfc23Entries:input_type -> halovet.v1.RecordHfc23EntriesRequest
-	38, // 52: halovet.v1.ConsumptionService.ListHfc23Entries:input_type -> halovet.v1.ListHfc23EntriesRequest
-	43, // 53: halovet.v1.ConsumptionService.GetYearReport:input_type -> halovet.v1.GetYearReportRequest
-	46, // 54: halovet.v1.ConsumptionService.RecordPartnerExports:input_type -> halovet.v1.RecordPartnerExportsRequest
-	48, // 55: halovet.v1.ConsumptionService.ReconcilePartnerExports:input_type -> halovet.v1.ReconcilePartnerExportsRequest
-	33, // 56: halovet.v1.ConsumptionService.PlanQuotas:input_type -> halovet.v1.PlanQuotasRequest
-	6,  // 57: halovet.v1.ConsumptionService.RecordNationalEntries:output_type -> halovet.v1.RecordNationalEntriesResponse
-	8,  // 58: halovet.v1.ConsumptionService.ListNationalEntries:output_type -> halovet.v1.ListNationalEntriesResponse
-	12, // 59: halovet.v1.ConsumptionService.GetConsumption:output_type -> halovet.v1.GetConsumptionResponse
-	16, // 60: halovet.v1.ConsumptionService.GetBaseline:output_type -> halovet.v1.GetBaselineResponse
-	31, // 61: halovet.v1.ConsumptionService.AssessCompliance:output_type -> halovet.v1.AssessComplianceResponse
-	22, // 62: halovet.v1.ConsumptionService.RecordExemptions:output_type -> halovet.v1.RecordExemptionsResponse
-	24, // 63: halovet.v1.ConsumptionService.ListExemptions:output_type -> halovet.v1.ListExemptionsResponse
-	27, // 64: halovet.v1.ConsumptionService.RecordOfficialFigures:output_type -> halovet.v1.RecordOfficialFiguresResponse
-	29, // 65: halovet.v1.ConsumptionService.ListOfficialFigures:output_type -> halovet.v1.ListOfficialFiguresResponse
-	37, // 66: halovet.v1.ConsumptionService.RecordHfc23Entries:output_type -> halovet.v1.RecordHfc23EntriesResponse
-	39, // 67: halovet.v1.ConsumptionService.ListHfc23Entries:output_type -> halovet.v1.ListHfc23EntriesResponse
-	44, // 68: halovet.v1.ConsumptionService.GetYearReport:output_type -> halovet.v1.GetYearReportResponse
-	47, // 69: halovet.v1.ConsumptionService.RecordPartnerExports:output_type -> halovet.v1.RecordPartnerExportsResponse
-	50, // 70: halovet.v1.ConsumptionService.ReconcilePartnerExports:output_type -> halovet.v1.ReconcilePartnerExportsResponse
-	34, // 71: halovet.v1.ConsumptionService.PlanQuotas:output_type -> halovet.v1.PlanQuotasResponse
-	57, // [57:72] is the sub-list for method output_type
-	42, // [42:57] is the sub-list for method input_type
-	42, // [42:42] is the sub-list for extension type_name
-	42, // [42:42] is the sub-list for extension extendee
-	0,  // [0:42] is the sub-list for field type_name
+	20, // 39: halovet.v1.GetYearReportResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	45, // 40: halovet.v1.RecordPartnerExportsRequest.reports:type_name -> halovet.v1.PartnerExport
+	45, // 41: halovet.v1.RecordPartnerExportsResponse.reports:type_name -> halovet.v1.PartnerExport
+	49, // 42: halovet.v1.ReconcilePartnerExportsResponse.gaps:type_name -> halovet.v1.PartnerGap
+	5,  // 43: halovet.v1.ConsumptionService.RecordNationalEntries:input_type -> halovet.v1.RecordNationalEntriesRequest
+	7,  // 44: halovet.v1.ConsumptionService.ListNationalEntries:input_type -> halovet.v1.ListNationalEntriesRequest
+	11, // 45: halovet.v1.ConsumptionService.GetConsumption:input_type -> halovet.v1.GetConsumptionRequest
+	15, // 46: halovet.v1.ConsumptionService.GetBaseline:input_type -> halovet.v1.GetBaselineRequest
+	30, // 47: halovet.v1.ConsumptionService.AssessCompliance:input_type -> halovet.v1.AssessComplianceRequest
+	21, // 48: halovet.v1.ConsumptionService.RecordExemptions:input_type -> halovet.v1.RecordExemptionsRequest
+	23, // 49: halovet.v1.ConsumptionService.ListExemptions:input_type -> halovet.v1.ListExemptionsRequest
+	26, // 50: halovet.v1.ConsumptionService.RecordOfficialFigures:input_type -> halovet.v1.RecordOfficialFiguresRequest
+	28, // 51: halovet.v1.ConsumptionService.ListOfficialFigures:input_type -> halovet.v1.ListOfficialFiguresRequest
+	36, // 52: halovet.v1.ConsumptionService.RecordHfc23Entries:input_type -> halovet.v1.RecordHfc23EntriesRequest
+	38, // 53: halovet.v1.ConsumptionService.ListHfc23Entries:input_type -> halovet.v1.ListHfc23EntriesRequest
+	43, // 54: halovet.v1.ConsumptionService.GetYearReport:input_type -> halovet.v1.GetYearReportRequest
+	46, // 55: halovet.v1.ConsumptionService.RecordPartnerExports:input_type -> halovet.v1.RecordPartnerExportsRequest
+	48, // 56: halovet.v1.ConsumptionService.ReconcilePartnerExports:input_type -> halovet.v1.ReconcilePartnerExportsRequest
+	33, // 57: halovet.v1.ConsumptionService.PlanQuotas:input_type -> halovet.v1.PlanQuotasRequest
+	6,  // 58: halovet.v1.ConsumptionService.RecordNationalEntries:output_type -> halovet.v1.RecordNationalEntriesResponse
+	8,  // 59: halovet.v1.ConsumptionService.ListNationalEntries:output_type -> halovet.v1.ListNationalEntriesResponse
+	12, // 60: halovet.v1.ConsumptionService.GetConsumption:output_type -> halovet.v1.GetConsumptionResponse
+	16, // 61: halovet.v1.ConsumptionService.GetBaseline:output_type -> halovet.v1.GetBaselineResponse
+	31, // 62: halovet.v1.ConsumptionService.AssessCompliance:output_type -> halovet.v1.AssessComplianceResponse
+	22, // 63: halovet.v1.ConsumptionService.RecordExemptions:output_type -> halovet.v1.RecordExemptionsResponse
+	24, // 64: halovet.v1.ConsumptionService.ListExemptions:output_type -> halovet.v1.ListExemptionsResponse
+	27, // 65: halovet.v1.ConsumptionService.RecordOfficialFigures:output_type -> halovet.v1.RecordOfficialFiguresResponse
+	29, // 66: halovet.v1.ConsumptionService.ListOfficialFigures:output_type -> halovet.v1.ListOfficialFiguresResponse
+	37, // 67: halovet.v1.ConsumptionService.RecordHfc23Entries:output_type -> halovet.v1.RecordHfc23EntriesResponse
+	39, // 68: halovet.v1.ConsumptionService.ListHfc23Entries:output_type -> halovet.v1.ListHfc23EntriesResponse
+	44, // 69: halovet.v1.ConsumptionService.GetYearReport:output_type -> halovet.v1.GetYearReportResponse
+	47, // 70: halovet.v1.ConsumptionService.RecordPartnerExports:output_type -> halovet.v1.RecordPartnerExportsResponse
+	50, // 71: halovet.v1.ConsumptionService.ReconcilePartnerExports:output_type -> halovet.v1.ReconcilePartnerExportsResponse
+	34, // 72: halovet.v1.ConsumptionService.PlanQuotas:output_type -> halovet.v1.PlanQuotasResponse
+	58, // [58:73] is the sub-list for method output_type
+	43, // [43:58] is the sub-list for method input_type
+	43, // [43:43] is the sub-list for extension type_name
+	43, // [43:43] is the sub-list for extension extendee
+	0,  // [0:43] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_consumption_proto_init() }
