@@ -3,6 +3,9 @@ package service_test
 import (
 	"context"
 	"fmt"
+	"io"
+	"net/http"
+	"strings"
 	"testing"
 
 	"google.golang.org/grpc/codes"
@@ -78,4 +81,22 @@ func TestReconcilePartnerExports(t *testing.T) {
 	}
 	_, err = c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: 2025, Tolerance: 1.5})
 	consCode(t, err, codes.InvalidArgument, "tolerance")
+}
+
+// TestYearPathsOverHTTP: the year report and the reconciliation answer on their HTTP paths
+// (google.api.http annotations): GET /v1/year-reports/{year} and
+// GET /v1/partner-exports/{year}:reconcile (the registry is shipRegistry's, invented).
+func TestYearPathsOverHTTP(t *testing.T) {
+	_, base, httpClient := startHTTPTestServer(t)
+	for _, path := range []string{"/v1/year-reports/2025", "/v1/partner-exports/2025:reconcile?tolerance=0.1"} {
+		resp, err := httpClient().Get(base + path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		raw, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if resp.StatusCode != http.StatusOK || !strings.Contains(string(raw), "2025") {
+			t.Errorf("GET %s: %d %s; want 200 with the year", path, resp.StatusCode, raw)
+		}
+	}
 }

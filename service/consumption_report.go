@@ -49,8 +49,10 @@ func (c *consumptionServer) RecordHfc23Entries(ctx context.Context, req *halovet
 			add(&fieldViolation{f + ".entry_key", fmt.Sprintf("%q is also the key of entries[%d]; each key once per call", se.Key, j)})
 		}
 		seen[se.Key] = i
-		se.Facility, v = keyText(f+".facility", e.GetFacility(), "plant 1")
-		add(v)
+		se.Facility = strings.TrimSpace(e.GetFacility())
+		if se.Facility == "" || len(se.Facility) > maxEntryKeyBytes || !printableText(se.Facility) {
+			add(&fieldViolation{f + ".facility", fmt.Sprintf("must name the facility (printable text of 1 to %d bytes)", maxEntryKeyBytes)})
+		}
 		se.Year = int(e.GetYear())
 		add(checkQueryYear(f+".year", e.GetYear()))
 		fy := fmt.Sprintf("%s/%d", se.Facility, se.Year)
