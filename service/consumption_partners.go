@@ -159,7 +159,7 @@ func (c *consumptionServer) ReconcilePartnerExports(ctx context.Context, req *ha
 		}
 		s := get(pair{l.PartnerCountry, l.Designation})
 		s.recorded += l.Tonnes
-		s.ids = append(s.ids, l.ShipmentID)
+		s.ids = append(s.ids, l.ShipmentIDs...)
 	}
 	keys := make([]pair, 0, len(pairs))
 	for k := range pairs {

@@ -240,7 +240,7 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 			continue
 		case "import":
 			tl := tradeLine(imports, l.PartnerCountry, r, l.PartnerNonParty)
-			tl.ShipmentIds = append(tl.ShipmentIds, l.ShipmentID)
+			tl.ShipmentIds = append(tl.ShipmentIds, l.ShipmentIDs...)
 			if recovered(l.Condition) {
 				tl.RecoveredTonnes += m
 				continue
@@ -253,19 +253,19 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 				r.feed += m
 				q := qtyLine("feedstock", r, "shipments")
 				q.Tonnes += m
-				q.ShipmentIds = append(q.ShipmentIds, l.ShipmentID)
+				q.ShipmentIds = append(q.ShipmentIds, l.ShipmentIDs...)
 			case l.Purpose == "destruction":
 				tl.DestructionTonnes += m
 				r.destruction += m
 				q := qtyLine("destruction", r, "shipments")
 				q.Tonnes += m
-				q.ShipmentIds = append(q.ShipmentIds, l.ShipmentID)
+				q.ShipmentIds = append(q.ShipmentIds, l.ShipmentIDs...)
 			case l.Purpose == "qps" && r.sub.Group == substances.GroupEI:
 				tl.QpsTonnes += m
 				r.qps += m
 				q := qtyLine("qps", r, "shipments")
 				q.Tonnes += m
-				q.ShipmentIds = append(q.ShipmentIds, l.ShipmentID)
+				q.ShipmentIds = append(q.ShipmentIds, l.ShipmentIDs...)
 			case exemptedPurpose(l.Purpose):
 				tl.ExemptedTonnes += m
 			}
@@ -275,7 +275,7 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 		case "export", "re-export":
 			np := l.PartnerNonParty && year >= nonPartyExportsFrom
 			tl := tradeLine(exports, l.PartnerCountry, r, np)
-			tl.ShipmentIds = append(tl.ShipmentIds, l.ShipmentID)
+			tl.ShipmentIds = append(tl.ShipmentIds, l.ShipmentIDs...)
 			if recovered(l.Condition) {
 				tl.RecoveredTonnes += m
 				continue

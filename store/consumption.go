@@ -119,10 +119,10 @@ func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string
 	return out, rows.Err()
 }
 
-// ShipmentLine is one shipment component of a year with the shipment's id: what the
-// annual data report lists and traces (a ShipmentTotal before summing).
+// ShipmentLine is the mass of one substance in the recorded shipments of one year that
+// share partner, direction, purpose, condition and partner status, with the ids of the
+// shipments behind it: what the annual data report lists and traces.
 type ShipmentLine struct {
-	ShipmentID      int64
 	Year            int
 	PartnerCountry  string
 	Designation     string
@@ -131,18 +131,22 @@ type ShipmentLine struct {
 	Purpose         string
 	Condition       string
 	PartnerNonParty bool
-	Tonnes          float64
+	Tonnes          float64 // exact numeric sum in kg, converted to tonnes as the last step
+	ShipmentIDs     []int64 // in order
 }
 
-// ShipmentLines returns the recorded shipment components of one year, by partner,
-// designation, direction and shipment id. It reads the same rows as ShipmentTotals.
+// ShipmentLines sums the recorded shipment components of one year per partner, substance,
+// direction, purpose, condition and partner status, in the database, and lists the
+// shipment ids of each sum. It reads the same rows as ShipmentTotals.
 func (s *Store) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT s.shipment_id, s.year, s.partner_country, c.designation, c.annex_group, s.direction,
-	        s.purpose, s.condition, coalesce(c.partner_non_party, s.partner_non_party), (c.mass_kg / 1000)::float8
+	rows, err := s.pool.Query(ctx, `SELECT s.year, s.partner_country, c.designation, c.annex_group, s.direction,
+	        s.purpose, s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party,
+	        (sum(c.mass_kg) / 1000)::float8, array_agg(s.shipment_id ORDER BY s.shipment_id)
 	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
 	    WHERE s.year = $1
-	    ORDER BY s.partner_country, c.designation, s.direction, s.shipment_id`, year)
+	    GROUP BY s.year, s.partner_country, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
+	    ORDER BY s.partner_country, c.designation, s.direction, s.purpose, s.condition, non_party`, year)
 	if err != nil {
 		return nil, err
 	}
@@ -150,8 +154,8 @@ func (s *Store) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, 
 	var out []ShipmentLine
 	for rows.Next() {
 		var l ShipmentLine
-		if err := rows.Scan(&l.ShipmentID, &l.Year, &l.PartnerCountry, &l.Designation, &l.AnnexGroup, &l.Direction,
-			&l.Purpose, &l.Condition, &l.PartnerNonParty, &l.Tonnes); err != nil {
+		if err := rows.Scan(&l.Year, &l.PartnerCountry, &l.Designation, &l.AnnexGroup, &l.Direction,
+			&l.Purpose, &l.Condition, &l.PartnerNonParty, &l.Tonnes, &l.ShipmentIDs); err != nil {
 			return nil, err
 		}
 		out = append(out, l)
