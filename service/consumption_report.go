@@ -81,7 +81,9 @@ func (c *consumptionServer) RecordHfc23Entries(ctx context.Context, req *halovet
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	if err := c.srv.store.PutHFC23Entries(ctx, out); err != nil {
+	if err := c.srv.store.PutHFC23Entries(ctx, out); errors.Is(err, store.ErrAlreadyExists) {
+		return nil, status.Errorf(codes.AlreadyExists, "%v: the facility's figures for that year are stored under another entry_key; send them under that key to replace them (ListHfc23Entries shows the keys); nothing was stored", err)
+	} else if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	gwp := c.srv.hfc23GWP()

@@ -230,11 +230,20 @@ func TestYearReportByHand(t *testing.T) {
 	}
 }
 
-// TestHfc23EntriesRefused: a facility cannot release more than it generated.
+// TestHfc23EntriesRefused: a facility cannot release more than it generated, and has one
+// entry per year.
 func TestHfc23EntriesRefused(t *testing.T) {
 	conn, _ := startTestServer(t)
 	c := halovetv1.NewConsumptionServiceClient(conn)
 	_, err := c.RecordHfc23Entries(context.Background(), &halovetv1.RecordHfc23EntriesRequest{Entries: []*halovetv1.Hfc23Entry{
 		{EntryKey: "k", Facility: "plant B (invented)", Year: 2025, GeneratedTonnes: 5, DestroyedTonnes: 4, EmittedTonnes: 2}}})
 	consCode(t, err, codes.InvalidArgument, "entries[0].generated_tonnes")
+	// One entry per facility and year: a second key for the same one is refused.
+	e := &halovetv1.Hfc23Entry{EntryKey: "k1", Facility: "plant B (invented)", Year: 2025, GeneratedTonnes: 5, DestroyedTonnes: 5}
+	if _, err := c.RecordHfc23Entries(context.Background(), &halovetv1.RecordHfc23EntriesRequest{Entries: []*halovetv1.Hfc23Entry{e}}); err != nil {
+		t.Fatal(err)
+	}
+	e.EntryKey = "k2"
+	_, err = c.RecordHfc23Entries(context.Background(), &halovetv1.RecordHfc23EntriesRequest{Entries: []*halovetv1.Hfc23Entry{e}})
+	consCode(t, err, codes.AlreadyExists, "under another entry_key")
 }

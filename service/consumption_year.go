@@ -2,9 +2,13 @@ package service
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"strings"
+
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
 
 	"github.com/halovet/halovet/controls"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -226,7 +230,9 @@ func (c *consumptionServer) RecordOfficialFigures(ctx context.Context, req *halo
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	if err := c.srv.store.PutOfficialFigures(ctx, out); err != nil {
+	if err := c.srv.store.PutOfficialFigures(ctx, out); errors.Is(err, store.ErrAlreadyExists) {
+		return nil, status.Errorf(codes.AlreadyExists, "%v: a figure of the same Party, kind, scope and year is stored under another figure_key; send it under that key to replace it (ListOfficialFigures shows the keys); nothing was stored", err)
+	} else if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	resp := &halovetv1.RecordOfficialFiguresResponse{}

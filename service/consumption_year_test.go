@@ -227,6 +227,10 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 		{FigureKey: "B-CI", Kind: base, AnnexGroup: "C/I", Value: 150, Source: "invented decision XB/2"}}}); err != nil {
 		t.Fatal(err)
 	}
+	// A second baseline of the same scope under another key is refused, naming the way out.
+	_, err = c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{
+		{FigureKey: "B-CI-again", Kind: base, AnnexGroup: "C/I", Value: 1, Source: "invented"}}})
+	consCode(t, err, codes.AlreadyExists, "under another figure_key")
 	// Official baseline 150: 0.5 % × 150 = 0.75; headroom 0.2: within.
 	ac := assess("C/I")
 	y = consYear(ac, 2025)
