@@ -251,6 +251,16 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 	if !y.GetHasOfficialLimit() || y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED {
 		t.Errorf("HCFC 2025 with the official limit: %v %v, want EXCEEDED", y.GetHasOfficialLimit(), y.GetOutcome())
 	}
+	// Quota planning starts from the official limit too: 0.5 ODP t, all to XB-2 (the only
+	// importer of 2025).
+	plan, err := c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2025, AnnexGroup: "C/I", ReferenceYears: []int32{2025}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	consNear(t, "planned allowed (official limit)", plan.GetAllowed(), 0.5)
+	if !hasNote(plan.GetNotes(), "invented agreed plan") {
+		t.Errorf("plan notes %q: want the official limit named", plan.GetNotes())
+	}
 }
 
 // TestLegacyHFC23DestructionFlagged: a destruction entry of HFC-23 stored before such
