@@ -406,7 +406,20 @@ func (c *consumptionServer) GetBaseline(ctx context.Context, req *halovetv1.GetB
 	if err != nil {
 		return nil, arithmeticError(ctx, c.srv, err)
 	}
-	return baselineToProto(b, d.records[:d.nStored], years), nil
+	out := baselineToProto(b, d.records[:d.nStored], years)
+	rp, err := c.srv.store.ReportingParty(ctx)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	ov, err := c.srv.overrides(ctx, rp.CountryCode, scope)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	if ob := ov.Baseline; ob != nil {
+		out.HasOfficialBaseline, out.OfficialBaseline, out.OfficialBaselineSource = true, ob.Value, ob.Source
+		out.Notes = append(out.Notes, fmt.Sprintf("a baseline as officially set is stored (%s %s, %s): compliance and quota planning use it instead of the computed one", fmtT(ob.Value), b.Unit, ob.Source))
+	}
+	return out, nil
 }
 
 func baselineToProto(b controls.Baseline, records []controls.Record, years []int) *halovetv1.GetBaselineResponse {

@@ -227,6 +227,15 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 		{FigureKey: "B-CI", Kind: base, AnnexGroup: "C/I", Value: 150, Source: "invented decision XB/2"}}}); err != nil {
 		t.Fatal(err)
 	}
+	// GetBaseline shows it beside the computed one (which lacks the 1989 data).
+	gb, err := c.GetBaseline(ctx, &halovetv1.GetBaselineRequest{AnnexGroup: "C/I"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !gb.GetHasOfficialBaseline() || gb.GetOfficialBaseline() != 150 || gb.GetComplete() {
+		t.Errorf("GetBaseline: official %v %v, computed complete %v; want the official 150 beside an incomplete computed one",
+			gb.GetHasOfficialBaseline(), gb.GetOfficialBaseline(), gb.GetComplete())
+	}
 	// A second baseline of the same scope under another key is refused, naming the way out.
 	_, err = c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{
 		{FigureKey: "B-CI-again", Kind: base, AnnexGroup: "C/I", Value: 1, Source: "invented"}}})

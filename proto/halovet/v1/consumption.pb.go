@@ -1216,9 +1216,16 @@ type GetBaselineResponse struct {
 	Notes []string `protobuf:"bytes,15,rep,name=notes,proto3" json:"notes,omitempty"`
 	// Which schedule the reporting Party follows: "non-A5", "A5", "non-A5-variant",
 	// "A5-group1" or "A5-group2".
-	AppliesTo     string `protobuf:"bytes,16,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	AppliesTo string `protobuf:"bytes,16,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
+	// True when a baseline as officially set is stored for the scope; compliance
+	// and quota planning use it instead of the computed baseline above.
+	HasOfficialBaseline bool `protobuf:"varint,17,opt,name=has_official_baseline,json=hasOfficialBaseline,proto3" json:"has_official_baseline,omitempty"`
+	// The baseline as officially set, in unit.
+	OfficialBaseline float64 `protobuf:"fixed64,18,opt,name=official_baseline,json=officialBaseline,proto3" json:"official_baseline,omitempty"`
+	// Its source (the decision or document).
+	OfficialBaselineSource string `protobuf:"bytes,19,opt,name=official_baseline_source,json=officialBaselineSource,proto3" json:"official_baseline_source,omitempty"`
+	unknownFields          protoimpl.UnknownFields
+	sizeCache              protoimpl.SizeCache
 }
 
 func (x *GetBaselineResponse) Reset() {
@@ -1359,6 +1366,27 @@ func (x *GetBaselineResponse) GetNotes() []string {
 func (x *GetBaselineResponse) GetAppliesTo() string {
 	if x != nil {
 		return x.AppliesTo
+	}
+	return ""
+}
+
+func (x *GetBaselineResponse) GetHasOfficialBaseline() bool {
+	if x != nil {
+		return x.HasOfficialBaseline
+	}
+	return false
+}
+
+func (x *GetBaselineResponse) GetOfficialBaseline() float64 {
+	if x != nil {
+		return x.OfficialBaseline
+	}
+	return 0
+}
+
+func (x *GetBaselineResponse) GetOfficialBaselineSource() string {
+	if x != nil {
+		return x.OfficialBaselineSource
 	}
 	return ""
 }
@@ -4266,7 +4294,7 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	" \x01(\tR\x04rule\"5\n" +
 	"\x12GetBaselineRequest\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
-	"annexGroup\"\x9d\x04\n" +
+	"annexGroup\"\xb8\x05\n" +
 	"\x13GetBaselineResponse\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x12\n" +
@@ -4287,7 +4315,10 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\rhcfc_baseline\x18\x0e \x01(\v2\x18.halovet.v1.BaselinePartR\fhcfcBaseline\x12\x14\n" +
 	"\x05notes\x18\x0f \x03(\tR\x05notes\x12\x1d\n" +
 	"\n" +
-	"applies_to\x18\x10 \x01(\tR\tappliesTo\"\xea\x02\n" +
+	"applies_to\x18\x10 \x01(\tR\tappliesTo\x122\n" +
+	"\x15has_official_baseline\x18\x11 \x01(\bR\x13hasOfficialBaseline\x12+\n" +
+	"\x11official_baseline\x18\x12 \x01(\x01R\x10officialBaseline\x128\n" +
+	"\x18official_baseline_source\x18\x13 \x01(\tR\x16officialBaselineSource\"\xea\x02\n" +
 	"\rPeriodAverage\x12\x1b\n" +
 	"\tfrom_year\x18\x01 \x01(\x05R\bfromYear\x12\x17\n" +
 	"\ato_year\x18\x02 \x01(\x05R\x06toYear\x12\x18\n" +
