@@ -137,7 +137,9 @@ type ShipmentLine struct {
 
 // ShipmentLines sums the recorded shipment components of one year per partner, substance,
 // direction, purpose, condition and partner status, in the database, and lists the
-// shipment ids of each sum. It reads the same rows as ShipmentTotals.
+// shipment ids of each sum. It must read the same rows as ShipmentTotals (any filter of
+// which shipments count belongs in both): the service's TestYearReportByHand compares the
+// report's totals with the consumption report's.
 func (s *Store) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, err error) {
 	defer classifyInto(&err)
 	rows, err := s.pool.Query(ctx, `SELECT s.year, s.partner_country, c.designation, c.annex_group, s.direction,
