@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/csv"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -59,5 +60,33 @@ func TestYearReportFiles(t *testing.T) {
 	}
 	if left, _ := filepath.Glob(filepath.Join(dirs[0], ".*")); len(left) > 0 {
 		t.Errorf("temporary files left: %v", left)
+	}
+}
+
+// TestYearReportPrints prints the demo year's report.html with a real headless chromium
+// (Debian package chromium) and expects a PDF of at least one page: the page is printable
+// as it stands. The demo data is invented.
+func TestYearReportPrints(t *testing.T) {
+	browser, err := exec.LookPath("chromium")
+	if err != nil {
+		t.Fatalf("chromium is needed for this test (apt-get install chromium): %v", err)
+	}
+	d := startDemoServerAddr(t)
+	dir := t.TempDir()
+	if code, out, errOut := runCaptured(t, "year-report", "--year", "2026", "--dir", dir, "--server", d); code != exitOK {
+		t.Fatalf("year-report: exit %d\n%s\n%s", code, out, errOut)
+	}
+	pdf := filepath.Join(dir, "report.pdf")
+	cmd := exec.Command(browser, "--headless", "--no-sandbox", "--disable-gpu", "--no-pdf-header-footer",
+		"--user-data-dir="+filepath.Join(dir, "profile"), "--print-to-pdf="+pdf, "file://"+filepath.Join(dir, "report.html"))
+	if b, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("chromium: %v\n%s", err, b)
+	}
+	b, err := os.ReadFile(pdf)
+	if err != nil {
+		t.Fatalf("no PDF printed: %v", err)
+	}
+	if !bytes.HasPrefix(b, []byte("%PDF-")) || !bytes.Contains(b, []byte("/Type /Page")) {
+		t.Errorf("report.pdf (%d bytes) is not a PDF with pages", len(b))
 	}
 }
