@@ -551,6 +551,13 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 		if y.Period != nil && !slices.Contains(sources, y.Period.Rule.Text()) {
 			sources = append(sources, y.Period.Rule.Text())
 		}
+		if len(y.Exemptions) > 0 {
+			notes, err := c.srv.exemptedUseNotes(ctx, scope, y.Year, y.Exemptions)
+			if err != nil {
+				return nil, arithmeticError(ctx, c.srv, err)
+			}
+			cy.Notes = append(cy.Notes, notes...)
+		}
 		out.Years = append(out.Years, cy)
 	}
 	out.ScheduleSource = fmt.Sprintf("rulebook %s as of %s", a.RulebookVersion, a.RulebookAsOf)

@@ -217,6 +217,10 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 		y.GetExemptions()[0].GetSource() != "invented decision XB/1" {
 		t.Errorf("MB 2025 with the exemption: %v %v, want WITHIN naming the decision", y.GetOutcome(), y.GetExemptions())
 	}
+	// The exemption beside the imports declared for the use: 5 t × 0.6 = 3 ODP t.
+	if !hasNote(y.GetNotes(), "critical-use exemption 3 ODP t; imports declared for critical-use: 3 ODP t") {
+		t.Errorf("notes %q: want the exemption compared with the imports declared for it", y.GetNotes())
+	}
 
 	// HCFC 2025: 10 × 0.055 = 0.55 ODP t; no 1989 data, so no computed baseline: not assessed.
 	if y := consYear(assess("C/I"), 2025); y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED {
