@@ -425,7 +425,17 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 	if len(out.Hfc23) > 0 {
 		addNote("HFC-23 by-product (generation, capture, destruction, emission per facility) is reported beside Annex F consumption and is not part of it (Art. 2J paras 6-7; Art. 3 para 1(d); Art. 7 para 3 ter)")
 	}
-	addNote("the year is open: its figures are provisional and change with the register")
+	closed, isClosed, err := s.store.YearClosed(ctx, year)
+	if err != nil {
+		return nil, err
+	}
+	if isClosed {
+		out.State = "closed"
+		addNote(fmt.Sprintf("the year is closed (since %s, by %s: %s): its shipments, national entries, exemptions, limits and HFC-23 entries do not change until it is reopened, and neither does this report",
+			closed.ClosedAt.UTC().Format("2006-01-02 15:04:05 UTC"), orUnknown(closed.ClosedBy), closed.Reason))
+	} else {
+		addNote("the year is open: its figures are provisional and change with the register")
+	}
 	out.Notes = noteList
 	return out, nil
 }
@@ -462,4 +472,11 @@ func boolInt(b bool) int {
 		return 1
 	}
 	return 0
+}
+
+func orUnknown(s string) string {
+	if s == "" {
+		return "an unnamed caller"
+	}
+	return s
 }

@@ -1,6 +1,7 @@
 package service_test
 
 import (
+	"bytes"
 	"context"
 	"encoding/csv"
 	"fmt"
@@ -10,6 +11,7 @@ import (
 	"strings"
 	"testing"
 
+	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/protobuf/proto"
 	"google.golang.org/protobuf/reflect/protoreflect"
@@ -20,6 +22,13 @@ import (
 // yearReportScenario records the invented year of testdata/year-report-2025.csv and returns
 // the symbol of every record (shipment key, or P/F/D for the national entries) → its id text.
 func yearReportScenario(t *testing.T) (halovetv1.ConsumptionServiceClient, map[string]string) {
+	t.Helper()
+	c, ids, _ := yearReportScenarioConn(t)
+	return c, ids
+}
+
+// yearReportScenarioConn is yearReportScenario that also returns the connection.
+func yearReportScenarioConn(t *testing.T) (halovetv1.ConsumptionServiceClient, map[string]string, *grpc.ClientConn) {
 	t.Helper()
 	conn, st := startTestServer(t)
 	c := halovetv1.NewConsumptionServiceClient(conn)
@@ -62,7 +71,7 @@ func yearReportScenario(t *testing.T) (halovetv1.ConsumptionServiceClient, map[s
 		{ExemptionKey: "CUE-2025", Year: 2025, AnnexGroup: "E/I", Use: halovetv1.ExemptedUse_EXEMPTED_USE_CRITICAL, Amount: 2.4, Source: "invented decision XB/1"}}}); err != nil {
 		t.Fatal(err)
 	}
-	return c, ids
+	return c, ids, conn
 }
 
 // recordsOf lists the ids (shipments) and keys (entries) behind a report line.
@@ -246,4 +255,62 @@ func TestHfc23EntriesRefused(t *testing.T) {
 	e.EntryKey = "k2"
 	_, err = c.RecordHfc23Entries(context.Background(), &halovetv1.RecordHfc23EntriesRequest{Entries: []*halovetv1.Hfc23Entry{e}})
 	consCode(t, err, codes.AlreadyExists, "under another entry_key")
+}
+
+// TestYearReportClosedYearStable: a closed year's report says so and stays the same bytes;
+// the year's national entries, exemptions, limits and HFC-23 entries are refused until it
+// is reopened, and the reopened year reads provisional again. Data INVENTED (the scenario
+// of TestYearReportByHand).
+func TestYearReportClosedYearStable(t *testing.T) {
+	c, _, conn := yearReportScenarioConn(t)
+	ctx := context.Background()
+	ship := halovetv1.NewShipmentServiceClient(conn)
+	report := func() ([]byte, *halovetv1.GetYearReportResponse) {
+		t.Helper()
+		rep, err := c.GetYearReport(ctx, &halovetv1.GetYearReportRequest{Year: 2025})
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := proto.MarshalOptions{Deterministic: true}.Marshal(rep)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return b, rep
+	}
+	if _, rep := report(); rep.GetState() != "provisional" {
+		t.Fatalf("open year: state %q, want provisional", rep.GetState())
+	}
+	if _, err := ship.CloseYear(ctx, &halovetv1.CloseYearRequest{Year: 2025, Reason: "invented: data report sent"}); err != nil {
+		t.Fatal(err)
+	}
+	first, rep := report()
+	if rep.GetState() != "closed" || !hasNote(rep.GetNotes(), "invented: data report sent") {
+		t.Errorf("closed year: state %q notes %q, want closed with the reason", rep.GetState(), rep.GetNotes())
+	}
+	// Every kind of the year's figures is refused while it is closed.
+	_, err := c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{consEntry(2025, prod, "HCFC-22", 1)}})
+	consCode(t, err, codes.FailedPrecondition, "reporting year 2025 is closed")
+	_, err = c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
+		{ExemptionKey: "CUE-2025", Year: 2025, AnnexGroup: "E/I", Use: halovetv1.ExemptedUse_EXEMPTED_USE_CRITICAL, Amount: 9, Source: "invented"}}})
+	consCode(t, err, codes.FailedPrecondition, "reporting year 2025 is closed")
+	_, err = c.RecordHfc23Entries(ctx, &halovetv1.RecordHfc23EntriesRequest{Entries: []*halovetv1.Hfc23Entry{
+		{EntryKey: "HFC23-A-2025", Facility: "plant A (invented)", Year: 2025, GeneratedTonnes: 99, EmittedTonnes: 99}}})
+	consCode(t, err, codes.FailedPrecondition, "reporting year 2025 is closed")
+	_, err = c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{
+		{FigureKey: "L", Kind: halovetv1.OfficialFigureKind_OFFICIAL_FIGURE_KIND_LIMIT, Year: 2025, AnnexGroup: "C/I", Value: 1, Source: "invented"}}})
+	consCode(t, err, codes.FailedPrecondition, "reporting year 2025 is closed")
+	// Moving an entry of the closed year to another year is a change of the closed year too.
+	p := consEntry(2025, prod, "HCFC-22", 30)
+	p.Year = 2026
+	_, err = c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{p}})
+	consCode(t, err, codes.FailedPrecondition, "reporting year 2025 is closed")
+	if again, _ := report(); !bytes.Equal(first, again) {
+		t.Error("the closed year's report changed")
+	}
+	if _, err := ship.ReopenYear(ctx, &halovetv1.ReopenYearRequest{Year: 2025, Reason: "invented: correction"}); err != nil {
+		t.Fatal(err)
+	}
+	if _, rep := report(); rep.GetState() != "provisional" {
+		t.Errorf("reopened year: state %q, want provisional", rep.GetState())
+	}
 }

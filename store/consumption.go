@@ -146,7 +146,7 @@ func (s *Store) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, 
 	        s.purpose, s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party,
 	        (sum(c.mass_kg) / 1000)::float8, array_agg(s.shipment_id ORDER BY s.shipment_id)
 	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
-	    WHERE s.year = $1
+	    WHERE s.year = $1 AND s.state = 'live'
 	    GROUP BY s.year, s.partner_country, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
 	    ORDER BY s.partner_country, c.designation, s.direction, s.purpose, s.condition, non_party`, year)
 	if err != nil {

@@ -57,7 +57,8 @@ type NationalTotal struct {
 // PutNationalEntries stores entries in one transaction: a new key is inserted, an existing
 // key replaced (ON CONFLICT, so two callers storing the same key at once cannot both
 // insert). Every entry is written to the audit log. A substance missing from the catalogue
-// table fails the whole call with ErrNotFound, and a value the schema refuses with
+// table fails the whole call with ErrNotFound, and a value the schema refuses or an entry
+// of (or replacing one of) a closed reporting year (*YearClosedError) with
 // ErrConflict; nothing is stored then.
 func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry) error {
 	if len(entries) == 0 {
@@ -65,6 +66,15 @@ func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry)
 	}
 	// READ COMMITTED: each entry is one upsert by key; entries do not depend on each other.
 	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
+		// A closed reporting year's entries do not change (its report stays the same).
+		keys := make([]string, len(entries))
+		years := make([]int, len(entries))
+		for i, e := range entries {
+			keys[i], years[i] = e.Key, e.Year
+		}
+		if err := refuseClosedYears(ctx, tx, "national_entries", "entry_key", keys, years); err != nil {
+			return err
+		}
 		for _, e := range entries {
 			// One statement per entry keeps the SQLSTATE tied to its key for the message;
 			// a batch of a few thousand entries still runs in seconds.

@@ -41,6 +41,14 @@ func (s *Store) PutExemptions(ctx context.Context, es []Exemption) error {
 		return nil
 	}
 	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
+		keys := make([]string, len(es))
+		years := make([]int, len(es))
+		for i, x := range es {
+			keys[i], years[i] = x.Key, x.Year
+		}
+		if err := refuseClosedYears(ctx, tx, "authorised_exemptions", "exemption_key", keys, years); err != nil {
+			return err
+		}
 		for _, e := range es {
 			_, err := tx.Exec(ctx, `INSERT INTO authorised_exemptions (exemption_key, country_code, year, annex_scope, use_kind, amount, unit, source, note)
 			    VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)
@@ -89,6 +97,14 @@ func (s *Store) PutOfficialFigures(ctx context.Context, fs []OfficialFigure) err
 		return nil
 	}
 	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
+		keys := make([]string, len(fs))
+		years := make([]int, len(fs))
+		for i, x := range fs {
+			keys[i], years[i] = x.Key, x.Year
+		}
+		if err := refuseClosedYears(ctx, tx, "official_figures", "figure_key", keys, years); err != nil {
+			return err
+		}
 		for _, f := range fs {
 			_, err := tx.Exec(ctx, `INSERT INTO official_figures (figure_key, country_code, kind, annex_scope, year, value, unit, source)
 			    VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
@@ -149,6 +165,14 @@ func (s *Store) PutHFC23Entries(ctx context.Context, es []HFC23Entry) error {
 		return nil
 	}
 	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
+		keys := make([]string, len(es))
+		years := make([]int, len(es))
+		for i, x := range es {
+			keys[i], years[i] = x.Key, x.Year
+		}
+		if err := refuseClosedYears(ctx, tx, "hfc23_facility_entries", "entry_key", keys, years); err != nil {
+			return err
+		}
 		for _, e := range es {
 			_, err := tx.Exec(ctx, `INSERT INTO hfc23_facility_entries (entry_key, facility, year, generated_tonnes, captured_used_tonnes,
 			      destroyed_tonnes, emitted_tonnes, note)
@@ -243,4 +267,43 @@ func (s *Store) ListPartnerExports(ctx context.Context, year int) (_ []PartnerEx
 		out = append(out, r)
 	}
 	return out, rows.Err()
+}
+
+// refuseClosedYears takes the shared lock of each year written, and of each year the
+// replaced rows (same keys in table) were in, and refuses the write with a
+// *YearClosedError when one of them is closed: a closed year's figures do not change
+// until it is reopened, so its report stays the same bytes.
+func refuseClosedYears(ctx context.Context, tx pgx.Tx, table, keyCol string, keys []string, years []int) error {
+	rows, err := tx.Query(ctx, `SELECT year FROM `+table+` WHERE `+keyCol+` = ANY($1) AND year <> 0`, keys)
+	if err != nil {
+		return err
+	}
+	for rows.Next() {
+		var y int
+		if err := rows.Scan(&y); err != nil {
+			rows.Close()
+			return err
+		}
+		years = append(years, y)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	var ys []int
+	for _, y := range years {
+		if y != 0 {
+			ys = append(ys, y)
+		}
+	}
+	closed, err := lockYears(ctx, tx, ys)
+	if err != nil {
+		return err
+	}
+	for _, y := range uniqueInts(ys) {
+		if c, ok := closed[y]; ok {
+			return &YearClosedError{c}
+		}
+	}
+	return nil
 }

@@ -3626,7 +3626,9 @@ type GetYearReportResponse struct {
 	NoDataGroups []string `protobuf:"bytes,13,rep,name=no_data_groups,json=noDataGroups,proto3" json:"no_data_groups,omitempty"`
 	// How the figures were counted and what to check.
 	Notes []string `protobuf:"bytes,14,rep,name=notes,proto3" json:"notes,omitempty"`
-	// "provisional": the year is open and its figures may still change.
+	// "provisional": the year is open and its figures may still change;
+	// "closed": the year is closed and the report stays the same until it is
+	// reopened (the notes say since when, by whom and why).
 	State string `protobuf:"bytes,15,opt,name=state,proto3" json:"state,omitempty"`
 	// The reporting Party's authorised exemptions of the year, with their sources.
 	Exemptions    []*AuthorisedExemption `protobuf:"bytes,16,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
