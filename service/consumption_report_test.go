@@ -262,9 +262,34 @@ func TestHfc23EntriesRefused(t *testing.T) {
 // is reopened, and the reopened year reads provisional again. Data INVENTED (the scenario
 // of TestYearReportByHand).
 func TestYearReportClosedYearStable(t *testing.T) {
-	c, _, conn := yearReportScenarioConn(t)
+	c, ids, conn := yearReportScenarioConn(t)
 	ctx := context.Background()
 	ship := halovetv1.NewShipmentServiceClient(conn)
+	// A voided shipment leaves the report as it leaves the consumption totals: h6 (100 t
+	// of HFC-134a from XA) voided, F/I imports 107 − 100 = 7 t, 7 × 1430 = 10010 CO2-eq t.
+	h6, _ := strconv.ParseInt(ids["h6"], 10, 64)
+	if _, err := ship.VoidShipment(ctx, &halovetv1.VoidShipmentRequest{ShipmentId: h6, Reason: "invented: declared twice"}); err != nil {
+		t.Fatal(err)
+	}
+	rep, err := c.GetYearReport(ctx, &halovetv1.GetYearReportRequest{Year: 2025})
+	if err != nil {
+		t.Fatal(err)
+	}
+	cons, err := c.GetConsumption(ctx, &halovetv1.GetConsumptionRequest{Year: 2025})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, g := range rep.GetGroups() {
+		if g.GetAnnexGroup() == "F/I" {
+			consNear(t, "F/I after the void", g.GetConsumptionCo2ETonnes(), 10010)
+			consNear(t, "F/I in the consumption report after the void", consGroup(cons, "F/I").GetConsumptionCo2ETonnes(), 10010)
+		}
+	}
+	for _, l := range rep.GetImports() {
+		if slices.Contains(l.GetShipmentIds(), h6) {
+			t.Errorf("the voided shipment %d is still behind import line %v", h6, l)
+		}
+	}
 	report := func() ([]byte, *halovetv1.GetYearReportResponse) {
 		t.Helper()
 		rep, err := c.GetYearReport(ctx, &halovetv1.GetYearReportRequest{Year: 2025})
@@ -277,7 +302,7 @@ func TestYearReportClosedYearStable(t *testing.T) {
 		}
 		return b, rep
 	}
-	if _, rep := report(); rep.GetState() != "provisional" {
+	if _, rep = report(); rep.GetState() != "provisional" {
 		t.Fatalf("open year: state %q, want provisional", rep.GetState())
 	}
 	if _, err := ship.CloseYear(ctx, &halovetv1.CloseYearRequest{Year: 2025, Reason: "invented: data report sent"}); err != nil {
@@ -288,7 +313,7 @@ func TestYearReportClosedYearStable(t *testing.T) {
 		t.Errorf("closed year: state %q notes %q, want closed with the reason", rep.GetState(), rep.GetNotes())
 	}
 	// Every kind of the year's figures is refused while it is closed.
-	_, err := c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{consEntry(2025, prod, "HCFC-22", 1)}})
+	_, err = c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{consEntry(2025, prod, "HCFC-22", 1)}})
 	consCode(t, err, codes.FailedPrecondition, "reporting year 2025 is closed")
 	_, err = c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
 		{ExemptionKey: "CUE-2025", Year: 2025, AnnexGroup: "E/I", Use: halovetv1.ExemptedUse_EXEMPTED_USE_CRITICAL, Amount: 9, Source: "invented"}}})
