@@ -60,7 +60,17 @@ type YearAssessment struct {
 	Consumption    float64 // calculated consumption in the scope's unit
 	HasData        bool
 	AllowedPercent float64 // percent of baseline the year is measured against
-	Allowed        float64 // baseline × AllowedPercent / 100
+	// Allowed is the level consumption is compared with: the official limit when one is
+	// set (else baseline × AllowedPercent / 100), plus the authorised exemptions.
+	Allowed float64
+	// ComputedAllowed is baseline × AllowedPercent / 100, from the treaty's schedule and the
+	// baseline used (the official one when set).
+	ComputedAllowed float64
+	// OfficialLimit is the year's limit as officially set, when there is one.
+	OfficialLimit *OfficialFigure
+	// Exempted is the sum of Exemptions, added to the limit.
+	Exempted   float64
+	Exemptions []Exemption
 	// Headroom is Allowed − Consumption; negative when exceeded. In a period-average year it
 	// is the period's room left (PeriodProgress.RoomLeft) instead.
 	Headroom  float64
@@ -73,19 +83,28 @@ type YearAssessment struct {
 
 // Assessment compares consumption with the control schedule over a range of years.
 type Assessment struct {
-	Scope           Scope
-	AppliesTo       string
-	Unit            Unit
-	Baseline        *Baseline // nil when no assessed year needed one (0 % steps need none)
-	Years           []YearAssessment
-	RulebookVersion string
-	RulebookAsOf    string
+	Scope     Scope
+	AppliesTo string
+	Unit      Unit
+	Baseline  *Baseline // computed; nil when no assessed year needed one (0 % steps need none)
+	// OfficialBaseline is the baseline as officially set, when given: it is the one used.
+	OfficialBaseline *OfficialFigure
+	Years            []YearAssessment
+	RulebookVersion  string
+	RulebookAsOf     string
 }
 
 // Assess compares a Party's consumption in a scope with the allowed level for each year
 // from..to. Years lacking data, a baseline or a rule are reported NotAssessed with notes;
 // the error reports invalid input only.
 func (rb *Rulebook) Assess(records []Record, party Party, scope Scope, from, to int) (Assessment, error) {
+	return rb.AssessWith(records, party, scope, from, to, Overrides{})
+}
+
+// AssessWith is Assess with figures set outside the arithmetic: an official baseline is
+// used instead of the computed one (both are reported), an official limit instead of the
+// schedule's level, and each year's authorised exemptions are added to its limit.
+func (rb *Rulebook) AssessWith(records []Record, party Party, scope Scope, from, to int, ov Overrides) (Assessment, error) {
 	if err := scope.check("scope"); err != nil {
 		return Assessment{}, err
 	}
@@ -111,10 +130,11 @@ func (rb *Rulebook) Assess(records []Record, party Party, scope Scope, from, to 
 		return Assessment{}, err
 	}
 	unit := scope.Unit()
-	out := Assessment{Scope: scope, AppliesTo: key, Unit: unit, RulebookVersion: rb.Version, RulebookAsOf: rb.AsOf}
+	out := Assessment{Scope: scope, AppliesTo: key, Unit: unit, RulebookVersion: rb.Version, RulebookAsOf: rb.AsOf,
+		OfficialBaseline: ov.Baseline}
 	base := &baselineCache{rb: rb, l: l, party: party, scope: scope}
 	for y := from; y <= to; y++ {
-		ya, err := rb.assessYear(cons, base, party, scope, y)
+		ya, err := rb.assessYear(cons, base, party, scope, y, ov)
 		if err != nil {
 			return Assessment{}, err
 		}
@@ -149,9 +169,13 @@ func (c *baselineCache) get() (Baseline, error) {
 	return c.b, c.err
 }
 
-func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Party, scope Scope, y int) (YearAssessment, error) {
+func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Party, scope Scope, y int, ov Overrides) (YearAssessment, error) {
 	unit := scope.Unit()
 	ya := YearAssessment{Year: y}
+	ya.Exempted, ya.Exemptions = ov.exempted(y)
+	if lim, ok := ov.Limits[y]; ok {
+		ya.OfficialLimit = &lim
+	}
 	ya.Consumption, ya.HasData = cons.Amount(y, scope, unit)
 	if !ya.HasData {
 		ya.Notes = append(ya.Notes, fmt.Sprintf("no data: no record for %s in %d", scope.label(), y))
@@ -182,6 +206,12 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 
 	needBaseline := ya.AllowedPercent > 0 || al.Average != nil
 	baseline := 0.0
+	if needBaseline && ov.Baseline != nil {
+		baseline = ov.Baseline.Value
+		ya.Notes = append(ya.Notes, fmt.Sprintf("baseline as officially set: %s %s (%s); the computed baseline is reported beside it",
+			fmtAmount(baseline, unit), unit, ov.Baseline.Source))
+		needBaseline = false
+	}
 	if needBaseline {
 		b, err := base.get()
 		if errors.Is(err, ErrNoRule) {
@@ -197,11 +227,28 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 		}
 		baseline = b.Value
 	}
-	ya.Allowed = baseline * ya.AllowedPercent / 100
+	ya.ComputedAllowed = baseline * ya.AllowedPercent / 100
+	ya.Allowed = ya.ComputedAllowed
 
 	if al.Average != nil {
+		if ya.OfficialLimit != nil || ya.Exempted != 0 {
+			ya.Notes = append(ya.Notes, "an official limit or exemption of a period-average year is reported, not applied: the period's budget is the treaty's")
+		}
 		return periodYear(cons, ya, *al.Average, scope, baseline), nil
 	}
+	if lim := ya.OfficialLimit; lim != nil {
+		ya.Allowed = lim.Value
+		ya.Notes = append(ya.Notes, fmt.Sprintf("limit as officially set: %s %s (%s), in place of the schedule's %s %s",
+			fmtAmount(lim.Value, unit), unit, lim.Source, fmtAmount(ya.ComputedAllowed, unit), unit))
+		if lim.Value > ya.ComputedAllowed && !withinTolerance(ya.ComputedAllowed-lim.Value, ya.ComputedAllowed) {
+			ya.Notes = append(ya.Notes, "check: the official limit is above the treaty's level; the treaty prevails over a looser figure")
+		}
+	}
+	for _, e := range ya.Exemptions {
+		ya.Notes = append(ya.Notes, fmt.Sprintf("authorised %s-use exemption: %s %s (%s), added to the limit",
+			e.Use, fmtAmount(e.Amount, unit), unit, e.Source))
+	}
+	ya.Allowed += ya.Exempted
 	if !ya.HasData {
 		return ya, nil
 	}

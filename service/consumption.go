@@ -104,6 +104,13 @@ func (s *Server) entryFromProto(f string, e *halovetv1.NationalEntry, cat *subst
 			vs = append(vs, fieldViolation{f + ".entry_type", fmt.Sprintf("QPS applies to methyl bromide (Annex E) only, not to %s", sub.Designation)})
 		}
 	}
+	out.OutsideCustoms = e.GetOutsideCustoms()
+	if out.OutsideCustoms && t != "" && !deductedUse(t) && t != store.EntryProduction {
+		vs = append(vs, fieldViolation{f + ".outside_customs", "must be false for historical trade totals (they passed customs); accepted: true only for production, destruction, feedstock and QPS entries"})
+	}
+	if t == store.EntryDestruction && out.Substance == "HFC-23" {
+		vs = append(vs, fieldViolation{f + ".entry_type", "HFC-23 destroyed at a plant is by-product, not a deduction from consumption (Art. 2J paras 6-7; Art. 3 para 1(d)): record it as an HFC-23 facility entry (RecordHfc23Entries); HFC-23 imported for destruction is deducted through the shipment's declared purpose"})
+	}
 	out.Tonnes = e.GetMetricTonnes()
 	if math.IsNaN(out.Tonnes) || out.Tonnes < 0 || out.Tonnes > maxEntryTonnes {
 		vs = append(vs, fieldViolation{f + ".metric_tonnes", fmt.Sprintf("is %v; accepted: metric tonnes from 0 to %g", out.Tonnes, float64(maxEntryTonnes))})
@@ -116,7 +123,7 @@ func (s *Server) entryFromProto(f string, e *halovetv1.NationalEntry, cat *subst
 
 func entryToProto(e store.NationalEntry) *halovetv1.NationalEntry {
 	return &halovetv1.NationalEntry{EntryKey: e.Key, Year: int32(e.Year), EntryType: entryTypeEnum[e.Type],
-		Substance: e.Substance, MetricTonnes: e.Tonnes, Note: e.Note}
+		Substance: e.Substance, MetricTonnes: e.Tonnes, Note: e.Note, OutsideCustoms: e.OutsideCustoms}
 }
 
 func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halovetv1.RecordNationalEntriesRequest) (*halovetv1.RecordNationalEntriesResponse, error) {
@@ -144,6 +151,16 @@ func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halo
 	}
 	if len(vs) > 0 {
 		return nil, invalid(vs...) // nothing stored
+	}
+	// One source per quantity: a whole-year entry of a use the shipments already deduct
+	// would count that use twice. (A shipment recorded after the entry is caught when the
+	// year is computed: the entry is then left out with a note.)
+	vs, err := c.srv.doubleCountViolations(ctx, entries)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	if err := c.srv.store.PutNationalEntries(ctx, entries); err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
@@ -304,32 +321,48 @@ func (c *consumptionServer) GetConsumption(ctx context.Context, req *halovetv1.G
 		}
 		pg := &halovetv1.GroupConsumption{AnnexGroup: string(g.Group)}
 		for _, sc := range g.Substances {
-			if sc.Flows == (controls.Flows{}) {
-				continue // zero record of a covered year
-			}
+			// A substance with all flows 0 is a stated zero (a 0 t entry): data, shown.
 			used += sc.Flows.UsedImports + sc.Flows.UsedExports
 			pg.Substances = append(pg.Substances, substanceConsumptionToProto(sc))
 			pg.ConsumptionTonnes += sc.Tonnes
 			pg.ConsumptionOdpTonnes += sc.ODPTonnes
 			pg.ConsumptionCo2ETonnes += sc.CO2eTonnes
 		}
-		if len(pg.Substances) > 0 {
-			out.Groups = append(out.Groups, pg)
+		out.Groups = append(out.Groups, pg)
+	}
+	for _, g := range substances.AllGroups {
+		if only != nil && !slices.Contains(only, g) {
+			continue
+		}
+		if _, ok := cons.Group(year, g); !ok {
+			out.NoDataGroups = append(out.NoDataGroups, string(g))
 		}
 	}
-	switch {
-	case d.covered[year]:
-		out.Notes = append(out.Notes, fmt.Sprintf("%d has recorded shipments: a group without trade counts as 0; production, destruction, feedstock and QPS come from national entries only", year))
-	case d.anyYears[year]:
-		out.Notes = append(out.Notes, fmt.Sprintf("%d has no recorded shipments: figures come from national entries only", year))
-	default:
+	if !d.anyYears[year] {
 		out.Notes = append(out.Notes, fmt.Sprintf("no recorded shipments and no national entries for %d", year))
+	}
+	out.Notes = append(out.Notes, "feedstock, QPS and destruction are deducted from the shipments by their declared purpose; national entries of those kinds add only what never passed customs (domestic production used as feedstock, stocks destroyed), or, unmarked, a whole year's use for a year without shipments declared for it")
+	if len(out.NoDataGroups) > 0 {
+		out.Notes = append(out.Notes, "no data (not zero) for "+strings.Join(out.NoDataGroups, ", ")+": a group without a recorded shipment or a national entry in the year has no data; enter 0 t to state a true zero")
 	}
 	if used != 0 {
 		out.Notes = append(out.Notes, fmt.Sprintf("%s t of used, recycled or reclaimed imports and exports are reported but not counted (Decision IV/24, if reported under Article 7); they do count in an Article 5 Party's base-year consumption", fmtT(used)))
 	}
 	if len(cons.Uncontrolled) > 0 {
 		out.Notes = append(out.Notes, "uncontrolled components left out: "+strings.Join(cons.Uncontrolled, ", "))
+	}
+	if only == nil || slices.Contains(only, substances.GroupFII) {
+		hs, err := c.srv.store.ListHFC23Entries(ctx, year)
+		if err != nil {
+			return nil, toStatus(ctx, c.srv.log, err)
+		}
+		gwp := c.srv.hfc23GWP()
+		for _, e := range hs {
+			out.Hfc23ByProduct = append(out.Hfc23ByProduct, hfc23ToProto(e, gwp))
+		}
+		if len(hs) > 0 {
+			out.Notes = append(out.Notes, "HFC-23 by-product per facility is reported beside Annex F consumption and is not part of it (Art. 2J paras 6-7; Art. 3 para 1(d); Art. 7 para 3 ter)")
+		}
 	}
 	out.Notes = append(out.Notes, d.notes...)
 	return out, nil
@@ -373,7 +406,20 @@ func (c *consumptionServer) GetBaseline(ctx context.Context, req *halovetv1.GetB
 	if err != nil {
 		return nil, arithmeticError(ctx, c.srv, err)
 	}
-	return baselineToProto(b, d.records[:d.nStored], years), nil
+	out := baselineToProto(b, d.records[:d.nStored], years)
+	rp, err := c.srv.store.ReportingParty(ctx)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	ov, err := c.srv.overrides(ctx, rp.CountryCode, scope)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	if ob := ov.Baseline; ob != nil {
+		out.HasOfficialBaseline, out.OfficialBaseline, out.OfficialBaselineSource = true, ob.Value, ob.Source
+		out.Notes = append(out.Notes, fmt.Sprintf("a baseline as officially set is stored (%s %s, %s): compliance and quota planning use it instead of the computed one", fmtT(ob.Value), b.Unit, ob.Source))
+	}
+	return out, nil
 }
 
 func baselineToProto(b controls.Baseline, records []controls.Record, years []int) *halovetv1.GetBaselineResponse {
@@ -441,12 +487,24 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 	if err != nil {
 		return nil, arithmeticError(ctx, c.srv, err)
 	}
-	a, err := rb.Assess(d.records, party, scope, from, to)
+	rp, err := c.srv.store.ReportingParty(ctx)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	ov, err := c.srv.overrides(ctx, rp.CountryCode, scope)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	a, err := rb.AssessWith(d.records, party, scope, from, to, ov)
 	if err != nil {
 		return nil, arithmeticError(ctx, c.srv, err)
 	}
 	out := &halovetv1.AssessComplianceResponse{AnnexGroup: string(scope), Unit: string(a.Unit), AppliesTo: a.AppliesTo,
 		BaselineComplete: true}
+	if ob := a.OfficialBaseline; ob != nil {
+		out.HasOfficialBaseline = true
+		out.OfficialBaselineSource = ob.Source
+	}
 	// The baseline is shown even when no assessed year needed it (0 % steps).
 	b := a.Baseline
 	if b == nil {
@@ -456,16 +514,29 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 	}
 	if b != nil {
 		out.Baseline = b.Value
+		out.ComputedBaseline = b.Value
 		out.BaselineComplete = b.Complete
 		for _, g := range b.Missing {
 			out.BaselineMissing = append(out.BaselineMissing, gapText(g, d.records[:d.nStored], baselineYears(rb, party, scope)))
 		}
 	}
+	if ob := a.OfficialBaseline; ob != nil {
+		// The official baseline is the one used; the computed one stays beside it.
+		out.Baseline = ob.Value
+		out.BaselineComplete = true
+	}
 	var sources []string
 	for _, y := range a.Years {
 		cy := &halovetv1.ComplianceYear{Year: int32(y.Year), Consumption: y.Consumption, Allowed: y.Allowed,
 			AllowedPercent: y.AllowedPercent, Headroom: y.Headroom, Within: y.Outcome == controls.Within,
-			Notes: y.Notes, Outcome: outcomeToProto[y.Outcome], HasData: y.HasData}
+			Notes: y.Notes, Outcome: outcomeToProto[y.Outcome], HasData: y.HasData, ComputedAllowed: y.ComputedAllowed,
+			Exempted: y.Exempted}
+		if l := y.OfficialLimit; l != nil {
+			cy.HasOfficialLimit, cy.OfficialLimit, cy.OfficialLimitSource = true, l.Value, l.Source
+		}
+		for _, e := range y.Exemptions {
+			cy.Exemptions = append(cy.Exemptions, &halovetv1.AppliedExemption{Use: exemptedUseEnum[string(e.Use)], Amount: e.Amount, Source: e.Source})
+		}
 		if pp := y.Period; pp != nil {
 			cy.Period = &halovetv1.PeriodAverage{FromYear: int32(pp.Rule.FromYear), ToYear: int32(pp.Rule.ToYear),
 				Percent: pp.Rule.Percent, YearsCounted: int32(pp.YearsCounted), YearsRemaining: int32(pp.YearsRemaining),
@@ -479,6 +550,13 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 		}
 		if y.Period != nil && !slices.Contains(sources, y.Period.Rule.Text()) {
 			sources = append(sources, y.Period.Rule.Text())
+		}
+		if len(y.Exemptions) > 0 {
+			notes, err := c.srv.exemptedUseNotes(ctx, scope, y.Year, y.Exemptions)
+			if err != nil {
+				return nil, arithmeticError(ctx, c.srv, err)
+			}
+			cy.Notes = append(cy.Notes, notes...)
 		}
 		out.Years = append(out.Years, cy)
 	}

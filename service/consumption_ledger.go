@@ -28,24 +28,28 @@ import (
 //     note reminds of),
 //     qps → QPS, for methyl bromide (Annex E) only; another substance declared for QPS
 //     counts as an ordinary import, with a note.
-//     An import for destruction counts as an import: the destruction itself is deducted
-//     through a DESTRUCTION national entry in the year it happens (Art. 1 para 5), so that
-//     it is never deducted twice.
+//     destruction → Destruction: an import for destruction by an approved technology is
+//     deducted through its declared purpose (Art. 1 para 5).
 //   - export or re-export of used, recycled or reclaimed material: UsedExports.
-//   - other exports and re-exports: to a non-Party from 1993 on, ExportsNonParty (not
-//     deducted, Art. 3 para 1(c)); otherwise Exports (deducted, feedstock exports included,
-//     Decision VII/30).
+//   - other exports and re-exports, whatever their purpose: to a Party not bound for the
+//     component's group, from 1993 on, ExportsNonParty (not deducted, Art. 3 para 1(c));
+//     otherwise Exports (deducted, feedstock exports included, Decision VII/30).
 //
 // National entries: production → Production, destruction → Destruction, feedstock →
 // Feedstock, qps → QPS, historical-import → Imports, historical-export → Exports,
 // historical-export-non-party → ExportsNonParty (Exports before 1993).
 //
+// One source per quantity: feedstock, QPS and destruction are deducted from the shipments
+// by their declared purpose. A national entry of those kinds marked outside customs adds
+// what never passed customs (domestic production used as feedstock, stocks destroyed). An
+// unmarked one is a whole year's use: refused when it is recorded for a substance and year
+// with shipments declared for the same use, and left out with a note when such shipments
+// are recorded after it, so the same use is never deducted twice.
+//
 // Data coverage: controls tells a year without data from a year of zero consumption by
-// whether any record of the group exists. A year in which the service recorded at least
-// one shipment counts as covered for every group (the service was in use, so a group
-// without trade had none); such years get a zero record for each group that has no other.
-// Other years (historical ones) have data only for groups with national entries: a 0 t
-// entry states a true zero.
+// whether any record of the group exists. A group has data in a year when a shipment of
+// one of its substances is recorded or a national entry of one is stored; a 0 t entry
+// states a true zero. A recorded shipment of another group says nothing about this one.
 
 // nonPartyExportsFrom is the first year in which exports to non-Parties are not deducted
 // (Art. 3 para 1(c) [V]).
@@ -53,7 +57,7 @@ const nonPartyExportsFrom = 1993
 
 // consumptionData is what the arithmetic reads from the database for a set of years.
 type consumptionData struct {
-	records  []controls.Record // the first nStored come from the database, the rest are zero records of covered years
+	records  []controls.Record // every record comes from the database (nStored = len(records))
 	nStored  int
 	notes    []string
 	covered  map[int]bool // years with recorded shipments
@@ -84,6 +88,8 @@ func shipmentFlows(t store.ShipmentTotal, g substances.Group) (f controls.Flows,
 			f.Feedstock = m
 			note = fmt.Sprintf("%d: %s t of %s imported as process agent deducted with feedstock (Ozone Secretariat's data-reporting formula); Decision X/14 excludes only qualifying uses in plants operating before 1999",
 				t.Year, fmtT(m), t.Designation)
+		case "destruction":
+			f.Destruction = m
 		case "qps":
 			if g == substances.GroupEI {
 				f.QPS = m
@@ -105,6 +111,86 @@ func shipmentFlows(t store.ShipmentTotal, g substances.Group) (f controls.Flows,
 		return f, "", fmt.Errorf("recorded shipments of %s in %d have direction %q, which the consumption arithmetic does not know", t.Designation, t.Year, t.Direction)
 	}
 	return f, note, nil
+}
+
+// deductedUse reports whether a national entry kind is one of the uses deducted from
+// consumption that shipments also declare (feedstock, QPS, destruction).
+func deductedUse(entryType string) bool {
+	return entryType == store.EntryFeedstock || entryType == store.EntryQPS || entryType == store.EntryDestruction
+}
+
+// shipmentUse is the national entry kind of the use a shipment total deducts through its
+// declared purpose, or "" when it deducts none: imports of new substance declared for
+// feedstock or as process agent (feedstock), for destruction, or, for methyl bromide, for
+// QPS.
+func shipmentUse(t store.ShipmentTotal, g substances.Group) string {
+	if t.Direction != "import" || recovered(t.Condition) {
+		return ""
+	}
+	switch t.Purpose {
+	case "feedstock", "process-agent":
+		return store.EntryFeedstock
+	case "destruction":
+		return store.EntryDestruction
+	case "qps":
+		if g == substances.GroupEI {
+			return store.EntryQPS
+		}
+	}
+	return ""
+}
+
+// useKey names one use of one substance in one year.
+type useKey struct {
+	year      int
+	substance string
+	use       string
+}
+
+// declaredUses lists the uses the shipment totals deduct, with the tonnes declared.
+func declaredUses(cat *substances.Catalogue, ships []store.ShipmentTotal) map[useKey]float64 {
+	out := map[useKey]float64{}
+	for _, t := range ships {
+		sub, ok := cat.Substance(t.Designation)
+		if !ok {
+			continue
+		}
+		if u := shipmentUse(t, sub.Group); u != "" {
+			out[useKey{t.Year, sub.Designation, u}] += t.Tonnes
+		}
+	}
+	return out
+}
+
+// doubleCountViolations refuses whole-year entries (not outside customs) of a use that
+// recorded shipments of the same substance and year already deduct.
+func (s *Server) doubleCountViolations(ctx context.Context, entries []store.NationalEntry) ([]fieldViolation, error) {
+	var years []int
+	for _, e := range entries {
+		if deductedUse(e.Type) && !e.OutsideCustoms && !slices.Contains(years, e.Year) {
+			years = append(years, e.Year)
+		}
+	}
+	if len(years) == 0 {
+		return nil, nil
+	}
+	ships, err := s.store.ShipmentTotals(ctx, years)
+	if err != nil {
+		return nil, err
+	}
+	uses := declaredUses(s.cat.Load(), ships)
+	var vs []fieldViolation
+	for i, e := range entries {
+		if !deductedUse(e.Type) || e.OutsideCustoms {
+			continue
+		}
+		if t, ok := uses[useKey{e.Year, e.Substance, e.Type}]; ok {
+			vs = append(vs, fieldViolation{fmt.Sprintf("entries[%d].outside_customs", i), fmt.Sprintf(
+				"is false, but %s t of %s recorded as imports for %s in %d are deducted already through their declared purpose; the entry would count the same use twice: enter only the quantity that never passed customs (e.g. domestic production used as feedstock, stocks destroyed) and set outside_customs",
+				fmtT(t), e.Substance, e.Type, e.Year)})
+		}
+	}
+	return vs, nil
 }
 
 // entryFlows classifies one national total.
@@ -215,8 +301,21 @@ func (s *Server) loadConsumption(ctx context.Context, years []int) (consumptionD
 		addNote(note)
 		d.records = append(d.records, controls.Record{Year: t.Year, Substance: cs, Flows: f})
 	}
+	uses := declaredUses(cat, ships)
 	for _, t := range nats {
 		d.anyYears[t.Year] = true
+		if t.Type == store.EntryDestruction && t.Substance == hfc23Designation {
+			// Refused since migration 9; one stored before is counted and flagged.
+			addNote(fmt.Sprintf("check: %d: destruction entries of HFC-23 (%s, %s t) deduct from Annex F consumption; HFC-23 by-product destroyed at a plant is not a deduction (Art. 2J paras 6-7; Art. 3 para 1(d)): if it is by-product, record it as an HFC-23 facility entry and remove these entries",
+				t.Year, strings.Join(t.Keys, ", "), fmtT(t.Tonnes)))
+		}
+		if deductedUse(t.Type) && !t.OutsideCustoms {
+			if shipped, ok := uses[useKey{t.Year, t.Substance, t.Type}]; ok {
+				addNote(fmt.Sprintf("%d: national %s entries of %s (%s, %s t) left out: shipments declared for %s (%s t) are deducted already, and the entries are not marked outside customs; if they cover only quantities that never passed customs, store them again with outside_customs",
+					t.Year, t.Type, t.Substance, strings.Join(t.Keys, ", "), fmtT(t.Tonnes), t.Type, fmtT(shipped)))
+				continue
+			}
+		}
 		sub, ok := cat.Substance(t.Substance)
 		if !ok {
 			return d, status.Errorf(codes.FailedPrecondition,
@@ -248,44 +347,8 @@ func (s *Server) loadConsumption(ctx context.Context, years []int) (consumptionD
 			y, strings.Join(slices.Compact(subs), ", ")))
 	}
 
-	// Zero records for covered years, so that no trade reads as zero, not as missing data.
 	d.nStored = len(d.records)
-	rep := representatives(cat)
-	has := map[int]map[substances.Group]bool{}
-	for _, r := range d.records {
-		if has[r.Year] == nil {
-			has[r.Year] = map[substances.Group]bool{}
-		}
-		has[r.Year][r.Substance.Group] = true
-	}
-	for y := range d.covered {
-		if y < controls.MinYear || y > controls.MaxYear {
-			continue
-		}
-		for _, g := range substances.AllGroups {
-			if has[y][g] {
-				continue
-			}
-			if sub, ok := rep[g]; ok {
-				d.records = append(d.records, controls.Record{Year: y, Substance: sub})
-			}
-		}
-	}
 	return d, nil
-}
-
-// representatives picks one catalogue substance per group to carry a zero record.
-func representatives(cat *substances.Catalogue) map[substances.Group]controls.Substance {
-	out := map[substances.Group]controls.Substance{}
-	for _, s := range cat.Substances() {
-		if s.Group == substances.GroupNone {
-			continue
-		}
-		if _, ok := out[s.Group]; !ok {
-			out[s.Group] = controls.SubstanceOf(s)
-		}
-	}
-	return out
 }
 
 // yearRange lists from..to.

@@ -101,7 +101,16 @@ func (c *consumptionServer) PlanQuotas(ctx context.Context, req *halovetv1.PlanQ
 	if err != nil {
 		return nil, arithmeticError(ctx, c.srv, err)
 	}
+	rp, err := c.srv.store.ReportingParty(ctx)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	ov, err := c.srv.overrides(ctx, rp.CountryCode, scope)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
 	lv, err := rb.AllowedLevel(d.records, party, scope, year)
+	lv, err = officialLevel(rb, party, scope, year, lv, err, ov)
 	if errors.Is(err, controls.ErrNoRule) || errors.Is(err, controls.ErrIncompleteBaseline) {
 		return nil, status.Errorf(codes.FailedPrecondition, "no allowed level for %s in %d to plan from: %v", scope, year, err)
 	}
@@ -221,4 +230,37 @@ func (c *consumptionServer) issueDraft(ctx context.Context, scope controls.Scope
 	}
 	c.srv.registerChanged(ctx, ledger.Change{Licences: []string{num}})
 	return num, nil
+}
+
+// officialLevel applies the figures as officially set to a planned level: an official
+// baseline replaces the computed one (also when the computed one lacks data), an official
+// limit of the year replaces the level. Authorised exemptions are not distributed: they are
+// licensed on quota lines for their use.
+func officialLevel(rb *controls.Rulebook, party controls.Party, scope controls.Scope, year int, lv controls.Level, err error, ov controls.Overrides) (controls.Level, error) {
+	if errors.Is(err, controls.ErrIncompleteBaseline) && ov.Baseline != nil {
+		al, aerr := rb.Allowance(party, scope, year)
+		if aerr != nil {
+			return lv, aerr
+		}
+		lv = controls.Level{Year: year, Scope: scope, Unit: scope.Unit(), Percent: al.Percent(), Allowance: al}
+		err = nil
+	}
+	if err != nil {
+		return lv, err
+	}
+	unit := string(lv.Unit)
+	if ov.Baseline != nil && lv.Percent > 0 {
+		lv.Value = ov.Baseline.Value * lv.Percent / 100
+		lv.Notes = append(lv.Notes, fmt.Sprintf("baseline as officially set: %s %s (%s); the level is %s %% of it",
+			fmtT(ov.Baseline.Value), unit, ov.Baseline.Source, fmtT(lv.Percent)))
+	}
+	if lim, ok := ov.Limits[year]; ok {
+		lv.Notes = append(lv.Notes, fmt.Sprintf("limit as officially set: %s %s (%s), in place of the schedule's %s %s",
+			fmtT(lim.Value), unit, lim.Source, fmtT(lv.Value), unit))
+		lv.Value = lim.Value
+	}
+	if len(ov.Exemptions[year]) > 0 {
+		lv.Notes = append(lv.Notes, "the year's authorised exemptions are not distributed here: license them on quota lines limited to their use")
+	}
+	return lv, nil
 }

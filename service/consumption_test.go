@@ -57,6 +57,13 @@ type consShip struct {
 // CO2-eq t for Annex F components.
 func consRecord(t *testing.T, st *store.Store, ships ...consShip) {
 	t.Helper()
+	consRecordFrom(t, st, "XC", ships...)
+}
+
+// consRecordFrom is consRecord with the partner country given; it returns the stored
+// shipment id of each record key.
+func consRecordFrom(t *testing.T, st *store.Store, partner string, ships ...consShip) map[string]int64 {
+	t.Helper()
 	subs, blends, err := substances.Seed()
 	if err != nil {
 		t.Fatal(err)
@@ -85,7 +92,7 @@ func consRecord(t *testing.T, st *store.Store, ships ...consShip) {
 			t.Fatalf("test data: %s is not in the catalogue", s.name)
 		}
 		row := store.ShipmentRow{CompanyID: s.company, RecordKey: s.key, Fingerprint: "fp-" + s.key, Direction: s.dir,
-			PartnerCountry: "XC", DeclarationDate: time.Date(s.year, 6, 1, 0, 0, 0, 0, time.UTC), ResolvedDesignation: s.name,
+			PartnerCountry: partner, DeclarationDate: time.Date(s.year, 6, 1, 0, 0, 0, 0, time.UTC), ResolvedDesignation: s.name,
 			EntryKind: kind, Purpose: s.purpose, Condition: s.cond, PartnerNonParty: s.nonParty, RecordJSON: []byte(`{}`)}
 		for _, p := range parts {
 			tn := s.tonnes * p.pct / 100
@@ -110,11 +117,14 @@ func consRecord(t *testing.T, st *store.Store, ships ...consShip) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	ids := map[string]int64{}
 	for i, r := range res {
 		if r.Status != store.RecordStored {
 			t.Fatalf("shipment %s: %+v, want stored", ships[i].key, r)
 		}
+		ids[ships[i].key] = r.ShipmentID
 	}
+	return ids
 }
 
 // consEntry builds a national entry; the key is derived from the content.

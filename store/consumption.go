@@ -118,3 +118,49 @@ func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string
 	}
 	return out, rows.Err()
 }
+
+// ShipmentLine is the mass of one substance in the recorded shipments of one year that
+// share partner, direction, purpose, condition and partner status, with the ids of the
+// shipments behind it: what the annual data report lists and traces.
+type ShipmentLine struct {
+	Year            int
+	PartnerCountry  string
+	Designation     string
+	AnnexGroup      string
+	Direction       string
+	Purpose         string
+	Condition       string
+	PartnerNonParty bool
+	Tonnes          float64 // exact numeric sum in kg, converted to tonnes as the last step
+	ShipmentIDs     []int64 // in order
+}
+
+// ShipmentLines sums the recorded shipment components of one year per partner, substance,
+// direction, purpose, condition and partner status, in the database, and lists the
+// shipment ids of each sum. It must read the same rows as ShipmentTotals (any filter of
+// which shipments count belongs in both): the service's TestYearReportByHand compares the
+// report's totals with the consumption report's.
+func (s *Store) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, err error) {
+	defer classifyInto(&err)
+	rows, err := s.pool.Query(ctx, `SELECT s.year, s.partner_country, c.designation, c.annex_group, s.direction,
+	        s.purpose, s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party,
+	        (sum(c.mass_kg) / 1000)::float8, array_agg(s.shipment_id ORDER BY s.shipment_id)
+	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
+	    WHERE s.year = $1 AND s.state = 'live'
+	    GROUP BY s.year, s.partner_country, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
+	    ORDER BY s.partner_country, c.designation, s.direction, s.purpose, s.condition, non_party`, year)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var out []ShipmentLine
+	for rows.Next() {
+		var l ShipmentLine
+		if err := rows.Scan(&l.Year, &l.PartnerCountry, &l.Designation, &l.AnnexGroup, &l.Direction,
+			&l.Purpose, &l.Condition, &l.PartnerNonParty, &l.Tonnes, &l.ShipmentIDs); err != nil {
+			return nil, err
+		}
+		out = append(out, l)
+	}
+	return out, rows.Err()
+}

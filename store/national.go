@@ -33,6 +33,11 @@ type NationalEntry struct {
 	Substance string // catalogue designation of a single substance
 	Tonnes    float64
 	Note      string
+	// OutsideCustoms marks a feedstock, QPS or destruction entry that covers only
+	// quantities that never passed customs (domestic production used as feedstock, stocks
+	// destroyed): it adds to what the shipments declared for the same use deduct. Unmarked,
+	// such an entry is a whole year's use for a year without shipments declared for it.
+	OutsideCustoms bool
 }
 
 // NationalTotal is the sum of the national entries of one kind, substance and year.
@@ -42,12 +47,18 @@ type NationalTotal struct {
 	Substance string
 	Tonnes    float64
 	Entries   int
+	// OutsideCustoms: the entries summed are all marked outside customs, or all unmarked
+	// (totals are per mark).
+	OutsideCustoms bool
+	// Keys of the entries summed, in order.
+	Keys []string
 }
 
 // PutNationalEntries stores entries in one transaction: a new key is inserted, an existing
 // key replaced (ON CONFLICT, so two callers storing the same key at once cannot both
 // insert). Every entry is written to the audit log. A substance missing from the catalogue
-// table fails the whole call with ErrNotFound, and a value the schema refuses with
+// table fails the whole call with ErrNotFound, and a value the schema refuses or an entry
+// of (or replacing one of) a closed reporting year (*YearClosedError) with
 // ErrConflict; nothing is stored then.
 func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry) error {
 	if len(entries) == 0 {
@@ -55,14 +66,23 @@ func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry)
 	}
 	// READ COMMITTED: each entry is one upsert by key; entries do not depend on each other.
 	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
+		// A closed reporting year's entries do not change (its report stays the same).
+		keys := make([]string, len(entries))
+		years := make([]int, len(entries))
+		for i, e := range entries {
+			keys[i], years[i] = e.Key, e.Year
+		}
+		if err := refuseClosedYears(ctx, tx, "national_entries", "entry_key", keys, years); err != nil {
+			return err
+		}
 		for _, e := range entries {
 			// One statement per entry keeps the SQLSTATE tied to its key for the message;
 			// a batch of a few thousand entries still runs in seconds.
-			_, err := tx.Exec(ctx, `INSERT INTO national_entries (entry_key, year, entry_type, substance, metric_tonnes, note, updated_at)
-			    VALUES ($1, $2, $3, $4, $5, $6, now())
+			_, err := tx.Exec(ctx, `INSERT INTO national_entries (entry_key, year, entry_type, substance, metric_tonnes, note, outside_customs, updated_at)
+			    VALUES ($1, $2, $3, $4, $5, $6, $7, now())
 			    ON CONFLICT (entry_key) DO UPDATE SET year = EXCLUDED.year, entry_type = EXCLUDED.entry_type,
 			      substance = EXCLUDED.substance, metric_tonnes = EXCLUDED.metric_tonnes, note = EXCLUDED.note,
-			      updated_at = now()`, e.Key, e.Year, e.Type, e.Substance, e.Tonnes, e.Note)
+			      outside_customs = EXCLUDED.outside_customs, updated_at = now()`, e.Key, e.Year, e.Type, e.Substance, e.Tonnes, e.Note, e.OutsideCustoms)
 			if err != nil {
 				return classify(err, "national entry", e.Key)
 			}
@@ -78,7 +98,7 @@ func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry)
 // kind, substance and key.
 func (s *Store) ListNationalEntries(ctx context.Context, year int) (_ []NationalEntry, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note
+	rows, err := s.pool.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note, outside_customs
 	    FROM national_entries WHERE ($1 = 0 OR year = $1)
 	    ORDER BY year, entry_type, substance, entry_key`, year)
 	if err != nil {
@@ -88,7 +108,7 @@ func (s *Store) ListNationalEntries(ctx context.Context, year int) (_ []National
 	var out []NationalEntry
 	for rows.Next() {
 		var e NationalEntry
-		if err := rows.Scan(&e.Key, &e.Year, &e.Type, &e.Substance, &e.Tonnes, &e.Note); err != nil {
+		if err := rows.Scan(&e.Key, &e.Year, &e.Type, &e.Substance, &e.Tonnes, &e.Note, &e.OutsideCustoms); err != nil {
 			return nil, err
 		}
 		out = append(out, e)
@@ -96,13 +116,15 @@ func (s *Store) ListNationalEntries(ctx context.Context, year int) (_ []National
 	return out, rows.Err()
 }
 
-// NationalTotals sums the national entries per year, kind and substance, in the database,
+// NationalTotals sums the national entries per year, kind, substance and outside-customs
+// mark, in the database,
 // for the given years (every year when years is nil).
 func (s *Store) NationalTotals(ctx context.Context, years []int) (_ []NationalTotal, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT year, entry_type, substance, sum(metric_tonnes)::float8, count(*)
+	rows, err := s.pool.Query(ctx, `SELECT year, entry_type, substance, sum(metric_tonnes)::float8, count(*),
+	        outside_customs, array_agg(entry_key ORDER BY entry_key)
 	    FROM national_entries WHERE ($1::int[] IS NULL OR year = ANY($1))
-	    GROUP BY year, entry_type, substance ORDER BY year, entry_type, substance`, intsOrNil(years))
+	    GROUP BY year, entry_type, substance, outside_customs ORDER BY year, entry_type, substance, outside_customs`, intsOrNil(years))
 	if err != nil {
 		return nil, err
 	}
@@ -110,7 +132,7 @@ func (s *Store) NationalTotals(ctx context.Context, years []int) (_ []NationalTo
 	var out []NationalTotal
 	for rows.Next() {
 		var t NationalTotal
-		if err := rows.Scan(&t.Year, &t.Type, &t.Substance, &t.Tonnes, &t.Entries); err != nil {
+		if err := rows.Scan(&t.Year, &t.Type, &t.Substance, &t.Tonnes, &t.Entries, &t.OutsideCustoms, &t.Keys); err != nil {
 			return nil, err
 		}
 		out = append(out, t)

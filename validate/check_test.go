@@ -90,6 +90,17 @@ func TestCountsInConsumption(t *testing.T) {
 		{"process agent", func(r *Record) { r.Purpose = PurposeProcessAgent }, false},
 		{"laboratory", func(r *Record) { r.Purpose = PurposeLaboratory }, true},
 		{"QPS methyl bromide", func(r *Record) { methylBromide(r); r.Purpose, r.LicenceNumber = PurposeQPS, "XA-FEED-2025-005" }, false},
+		// An export to a Party is deducted whatever its purpose (Art. 3 para 1(c); Decision
+		// VII/30 for feedstock exports): the flag agrees with the consumption totals.
+		{"export for feedstock", func(r *Record) {
+			r.Direction, r.LicenceNumber, r.Purpose = DirectionExport, "XA-EXP-2025-002", PurposeFeedstock
+		}, true},
+		{"export for destruction", func(r *Record) {
+			r.Direction, r.LicenceNumber, r.Purpose = DirectionExport, "XA-EXP-2025-002", PurposeDestruction
+		}, true},
+		{"used material exported for destruction", func(r *Record) {
+			r.Direction, r.LicenceNumber, r.Purpose, r.Condition = DirectionExport, "XA-EXP-2025-002", PurposeDestruction, ConditionUsed
+		}, false},
 		// Art. 3 para 1(c): exports to non-Parties are not deducted from 1993.
 		{"HFC export to a Party not bound by Kigali", func(r *Record) {
 			hfc134a(r)

@@ -223,7 +223,7 @@ var codeTable = []CodeInfo{
 	{CodePurposeMissing, SeverityNotice, "purpose", "purpose", "No purpose is declared; the shipment is treated as ordinary use.", "Accepted; declare a purpose to claim an exemption."},
 	{CodeQPSNotMB, SeverityError, "purpose", "purpose", "Quarantine and pre-shipment (QPS) is declared for a shipment without methyl bromide.", "QPS only for methyl bromide (Annex E)."},
 	{CodePurposeNotLicensed, SeverityError, "purpose", "purpose", "Feedstock or destruction is declared, but the licence does not list it as a special purpose.", "A licence that lists the purpose, or another purpose."},
-	{CodePurposeNotCounted, SeverityNotice, "purpose", "purpose", "The purpose (feedstock, destruction, process agent, QPS) takes the shipment out of calculated consumption.", "Accepted; the amount is reported but not counted in consumption."},
+	{CodePurposeNotCounted, SeverityNotice, "purpose", "purpose", "The purpose (feedstock, destruction, process agent, QPS) takes an import out of calculated consumption (an export to a Party is deducted whatever its purpose).", "Accepted; the amount is reported but not counted in consumption."},
 	{CodeRecoveredNotCounted, SeverityNotice, "purpose", "condition", "Used, recycled or reclaimed material is not counted in consumption (Decision IV/24, if reported under Article 7; not for an Article 5 Party's base-year consumption).", "Accepted."},
 	{CodeTransitNotCounted, SeverityNotice, "purpose", "direction", "Transit is not an import or an export and is not counted in consumption.", "Accepted."},
 

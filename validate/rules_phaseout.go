@@ -199,11 +199,15 @@ func (c *checker) purposeRules(controlled bool) bool {
 		c.add(CodeRecoveredNotCounted, "", "%s material is not counted in consumption (Decision IV/24) if it is reported under Article 7; it still counts in an Article 5 Party's base-year consumption", r.Condition)
 		counts = false
 	}
-	switch r.Purpose {
-	case PurposeFeedstock, PurposeDestruction, PurposeProcessAgent:
+	// The purpose takes an import out of consumption (the import and the use's deduction
+	// cancel); an export to a Party is deducted whatever its purpose (Art. 3 para 1(c);
+	// Decision VII/30 for feedstock exports), so the flag agrees with the totals.
+	switch {
+	case r.Direction.Outgoing():
+	case r.Purpose == PurposeFeedstock || r.Purpose == PurposeDestruction || r.Purpose == PurposeProcessAgent:
 		c.add(CodePurposeNotCounted, "", "%s amounts are reported but not counted in consumption", r.Purpose)
 		counts = false
-	case PurposeQPS:
+	case r.Purpose == PurposeQPS:
 		if c.hasGroup(substances.GroupEI) {
 			c.add(CodePurposeNotCounted, "", "quarantine and pre-shipment amounts of methyl bromide are reported but not counted in consumption")
 			counts = false

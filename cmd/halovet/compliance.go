@@ -134,17 +134,28 @@ func writeCompliance(w io.Writer, resp *halovetv1.AssessComplianceResponse, outp
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"year", "consumption", "allowed_percent", "allowed", "headroom", "outcome",
-			"period_running_average", "period_room_left", "unit", "annex_group"})
+			"period_running_average", "period_room_left", "unit", "annex_group", "computed_allowed", "official_limit", "exempted"})
 		for _, y := range resp.GetYears() {
 			r := complianceRow(y, fmtFull)
 			r[5] = strings.ToLower(strings.ReplaceAll(r[5], " ", "-"))
-			_ = cw.Write(append(r, u, resp.GetAnnexGroup()))
+			official := ""
+			if y.GetHasOfficialLimit() {
+				official = fmtFull(y.GetOfficialLimit())
+			}
+			_ = cw.Write(append(r, u, resp.GetAnnexGroup(), fmtFull(y.GetComputedAllowed()), official, fmtFull(y.GetExempted())))
 		}
 		cw.Flush()
 		return cw.Error()
 	}
 	fmt.Fprintf(w, "Compliance of %s (%s schedule)\n", resp.GetAnnexGroup(), resp.GetAppliesTo())
-	if resp.GetBaselineComplete() {
+	if resp.GetHasOfficialBaseline() {
+		computed := "cannot be computed, data are missing"
+		if len(resp.GetBaselineMissing()) == 0 {
+			computed = fmtUnit(resp.GetComputedBaseline(), u) + " " + u
+		}
+		fmt.Fprintf(w, "Baseline: %s %s as officially set (%s); computed from the data: %s\n",
+			fmtUnit(resp.GetBaseline(), u), u, resp.GetOfficialBaselineSource(), computed)
+	} else if resp.GetBaselineComplete() {
 		fmt.Fprintf(w, "Baseline: %s %s\n", fmtUnit(resp.GetBaseline(), u), u)
 	} else {
 		fmt.Fprintln(w, "Baseline: cannot be computed, data are missing (years needing it are not assessed)")

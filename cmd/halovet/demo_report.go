@@ -20,7 +20,8 @@ const demoYear = 2026
 // entries (national_entries.csv in the scenario directory, when there is one: invented
 // historical totals for the base years), then reports the batch year's consumption, the
 // HCFC and HFC baselines, compliance over three years with an SVG chart, and a quota plan
-// for the next year (proposals only, no drafts).
+// for the next year (proposals only, no drafts), and the year's data report (its files
+// beside the charts when a chart directory is given).
 func demoReports(ctx context.Context, conn *grpc.ClientConn, dir, chartDir string, out io.Writer, step func(string, ...any)) error {
 	entries := dir + string(os.PathSeparator) + "national_entries.csv"
 	if _, err := os.Stat(entries); err == nil {
@@ -86,5 +87,28 @@ func demoReports(ctx context.Context, conn *grpc.ClientConn, dir, chartDir strin
 	if err != nil {
 		return err
 	}
-	return writeQuotas(out, plan, "text")
+	if err := writeQuotas(out, plan, "text"); err != nil {
+		return err
+	}
+	reportDir := ""
+	cmdline := fmt.Sprintf("halovet year-report --year %d", demoYear)
+	if chartDir != "" {
+		reportDir = filepath.Join(chartDir, fmt.Sprintf("year-report-%d", demoYear))
+		cmdline += " --dir " + reportDir
+	}
+	step("Data report for %d (%s)", demoYear, cmdline)
+	rep, err := client.GetYearReport(ctx, &halovetv1.GetYearReportRequest{Year: demoYear})
+	if err != nil {
+		return err
+	}
+	if reportDir != "" {
+		files, err := yearReportFiles(rep)
+		if err != nil {
+			return err
+		}
+		if err := writeFilesAtomically(reportDir, files); err != nil {
+			return err
+		}
+	}
+	return writeYearSummary(out, rep, reportDir)
 }

@@ -44,6 +44,18 @@ FILE is CSV with a header row naming these columns, in any order (* = required):
                    methyl bromide); a blend must be split into its components
   * metric_tonnes  metric tonnes of substance, 0 or more, with a decimal point
     note           free text: facility, source document
+    outside_customs  yes or no (default no), for feedstock, qps and destruction:
+                   yes = only quantities that never passed customs (domestic
+                   production used as feedstock, stocks destroyed); no = the whole
+                   year's use, accepted only for a year without shipments declared
+                   for that use
+
+One source per quantity: imports declared for feedstock, QPS or destruction are
+deducted through their declared purpose already. Enter a feedstock, qps or
+destruction line only for what never passed customs, and mark it outside_customs;
+a line that would deduct the same use of the same substance and year again is
+refused by the server, naming the line.
+
 Lines starting with # and blank lines are skipped.
 
 All or nothing: every line is checked first, and when any line is wrong each problem
@@ -58,7 +70,7 @@ Examples:
   halovet entries --output csv --list --year 2010 > entries-2010.csv`
 
 // entryColumns are the CSV columns; the first five are required.
-var entryColumns = []string{"entry_key", "year", "entry_type", "substance", "metric_tonnes", "note"}
+var entryColumns = []string{"entry_key", "year", "entry_type", "substance", "metric_tonnes", "note", "outside_customs"}
 
 // entryTypeWords are the entry_type words of the file.
 var entryTypeWords = map[string]halovetv1.EntryType{
@@ -146,7 +158,7 @@ func readEntries(r io.Reader) ([]*halovetv1.NationalEntry, []int, []entryLineErr
 			if _, ok := col["record_key"]; ok {
 				hint = "; this looks like a shipments file: check it with 'halovet check FILE'"
 			}
-			fail(hline, "required column %q is missing; the header must name %s (note is optional)%s", c, strings.Join(entryColumns[:5], ", "), hint)
+			fail(hline, "required column %q is missing; the header must name %s (note and outside_customs are optional)%s", c, strings.Join(entryColumns[:5], ", "), hint)
 		}
 	}
 	if len(errs) > 0 {
@@ -190,6 +202,14 @@ func readEntries(r io.Reader) ([]*halovetv1.NationalEntry, []int, []entryLineErr
 			bad = true
 		} else {
 			keys[e.EntryKey] = line
+		}
+		switch strings.ToLower(get("outside_customs")) {
+		case "", "no", "false":
+		case "yes", "true":
+			e.OutsideCustoms = true
+		default:
+			fail(line, "outside_customs %q: give yes or no (or leave it empty for no)", get("outside_customs"))
+			bad = true
 		}
 		if y, err := strconv.Atoi(get("year")); err != nil || y < 1986 || y > 2100 {
 			fail(line, "year %q: give a calendar year from 1986 to 2100", get("year"))
@@ -348,7 +368,7 @@ func writeEntries(w io.Writer, es []*halovetv1.NationalEntry, heading, output st
 		_ = cw.Write(entryColumns)
 		for _, e := range es {
 			_ = cw.Write([]string{e.GetEntryKey(), strconv.Itoa(int(e.GetYear())), entryTypeWord(e.GetEntryType()),
-				e.GetSubstance(), fmtFull(e.GetMetricTonnes()), e.GetNote()})
+				e.GetSubstance(), fmtFull(e.GetMetricTonnes()), e.GetNote(), yesNo(e.GetOutsideCustoms())})
 		}
 		cw.Flush()
 		return cw.Error()
@@ -357,10 +377,10 @@ func writeEntries(w io.Writer, es []*halovetv1.NationalEntry, heading, output st
 	if len(es) > 0 {
 		fmt.Fprintln(w)
 		tw := newTable(w)
-		fmt.Fprintln(tw, "entry key\tyear\tentry type\tsubstance\tmetric t\tnote\t")
+		fmt.Fprintln(tw, "entry key\tyear\tentry type\tsubstance\tmetric t\toutside customs\tnote\t")
 		for _, e := range es {
-			fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t\n", e.GetEntryKey(), e.GetYear(), entryTypeWord(e.GetEntryType()),
-				e.GetSubstance(), fmtTonnes(e.GetMetricTonnes()), e.GetNote())
+			fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetEntryKey(), e.GetYear(), entryTypeWord(e.GetEntryType()),
+				e.GetSubstance(), fmtTonnes(e.GetMetricTonnes()), yesNo(e.GetOutsideCustoms()), e.GetNote())
 		}
 		if err := tw.Flush(); err != nil {
 			return err
@@ -368,4 +388,12 @@ func writeEntries(w io.Writer, es []*halovetv1.NationalEntry, heading, output st
 	}
 	_, err := io.WriteString(w, "\n"+reportFooter(nil))
 	return err
+}
+
+// yesNo is the file's word for a flag.
+func yesNo(b bool) string {
+	if b {
+		return "yes"
+	}
+	return "no"
 }

@@ -40,6 +40,20 @@ func TestExitCodeContract(t *testing.T) {
 	  {"licenceNumber": "XA-IMP-2026-902", "companyId": "NOBODY", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31"}]}`)
 	unknownFix := filepath.Join(dir, "unknown-fix.csv")
 	writeFile(t, unknownFix, lines[0]+"\nNO-SUCH-KEY,import,XA-1002,XA-IMP-2026-002,XB,2026-01-05,HCFC-22,,,,1,kg,,,servicing,,,\n")
+
+	partners := filepath.Join(dir, "partners.csv")
+	writeFile(t, partners, "report_key,year,partner_country,substance,metric_tonnes,source\nXC-2026-CFC-12,2026,XC,CFC-12,5,invented: no such import recorded\n")
+	badPartners := filepath.Join(dir, "partners-bad.csv")
+	writeFile(t, badPartners, "report_key,year,partner_country,substance,metric_tonnes\nXC-1,2026,XC,R-410A,5\n")
+	figures := filepath.Join(dir, "figures.json")
+	writeFile(t, figures, `{"exemptions": [{"exemption_key": "XA-CUE-2026", "year": 2026, "annex_group": "E/I", "use": "critical",
+	  "amount": 1, "source": "invented decision for the test"}],
+	 "official_figures": [{"figure_key": "XA-LIMIT-C/I-2026", "kind": "limit", "year": 2026, "annex_group": "C/I", "value": 9,
+	  "source": "invented agreed plan"}],
+	 "hfc23_entries": [{"entry_key": "P1-2026", "facility": "plant 1 (invented)", "year": 2026, "generated_tonnes": 3,
+	  "destroyed_tonnes": 3}]}`)
+	badFigures := filepath.Join(dir, "figures-bad.json")
+	writeFile(t, badFigures, `{"exemptions": [{"exemption_key": "x", "year": 2026, "annex_group": "C/I", "use": "critical", "amount": 1, "source": "invented"}]}`)
 	dead := "127.0.0.1:1" // nothing listens on port 1 of loopback
 	s := "--server"
 
@@ -87,6 +101,17 @@ func TestExitCodeContract(t *testing.T) {
 		{"entries success", []string{"entries", "--list", s, d}, exitOK, "stored entries", ""},
 		{"entries shipments file", []string{"entries", okBatch, s, d}, exitUsage, "", "halovet check"},
 		{"entries unreachable", []string{"entries", "--list", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"year-report success", []string{"year-report", "--year", "2026", s, d}, exitOK, "Data report of XA for 2026", ""},
+		{"year-report unusable", []string{"year-report", "--output", "csv", "--year", "2026", s, d}, exitUsage, "", "--dir"},
+		{"year-report unreachable", []string{"year-report", "--year", "2026", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"partners success", []string{"partners", partners, s, d}, exitOK, "stored 1 partner figures", ""},
+		{"partners rejected", []string{"partners", "--reconcile", "--year", "2026", s, d}, exitRejected, "CFC-12", "differ beyond the tolerance"},
+		{"partners unusable", []string{"partners", badPartners, s, d}, exitUsage, "", "line 2: substance"},
+		{"partners unreachable", []string{"partners", "--reconcile", "--year", "2026", s, dead}, exitUnreachable, "", "halovet serve"},
+		{"year-figures success", []string{"year-figures", figures, s, d}, exitOK, "stored 1 HFC-23 facility entries", ""},
+		{"year-figures list", []string{"year-figures", "--list", "--year", "2026", s, d}, exitOK, "invented agreed plan", ""},
+		{"year-figures unusable", []string{"year-figures", badFigures, s, d}, exitUsage, "", "exemptions[0].use"},
+		{"year-figures unreachable", []string{"year-figures", "--list", s, dead}, exitUnreachable, "", "halovet serve"},
 		{"load success", []string{"load", demoScenario, s, d}, exitOK, "loaded", ""},
 		{"load unusable", []string{"load", okBatch, s, d}, exitUsage, "", "not a registry file"},
 		{"load unreachable", []string{"load", demoScenario, s, dead}, exitUnreachable, "", "halovet serve"},

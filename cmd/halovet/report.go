@@ -120,8 +120,12 @@ exports of used, recycled or reclaimed substance and goods in transit are shown 
 "not counted"; exports to non-Parties are shown but not deducted. Blends count per
 component in each component's group. A negative result is reported as negative.
 
-Figures come from the recorded shipments and the national entries (production,
-destruction, feedstock, QPS, historical totals; see 'halovet entries').
+Imports and exports come from the recorded shipments; feedstock, QPS and destruction
+are deducted from them by their declared purpose. National entries add production,
+what never passed customs (feedstock, QPS or destruction entries marked
+outside_customs) and historical totals (see 'halovet entries'); an entry that would
+deduct the same use twice is refused or left out with a note. A group without a
+shipment or an entry in YEAR is listed as "no data", not as zero.
 
 Examples:
   halovet consumption --year 2026

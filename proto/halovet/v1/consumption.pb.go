@@ -152,6 +152,120 @@ func (ComplianceOutcome) EnumDescriptor() ([]byte, []int) {
 	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{1}
 }
 
+// ExemptedUse is the kind of an authorised exemption.
+type ExemptedUse int32
+
+const (
+	// Not set.
+	ExemptedUse_EXEMPTED_USE_UNSPECIFIED ExemptedUse = 0
+	// Essential use, as the Meeting of the Parties authorises it per Party and year.
+	ExemptedUse_EXEMPTED_USE_ESSENTIAL ExemptedUse = 1
+	// Critical use of methyl bromide (Annex E only).
+	ExemptedUse_EXEMPTED_USE_CRITICAL ExemptedUse = 2
+	// Laboratory and analytical use.
+	ExemptedUse_EXEMPTED_USE_LABORATORY ExemptedUse = 3
+	// High-ambient-temperature exemption for HFCs (Annex F only).
+	ExemptedUse_EXEMPTED_USE_HIGH_AMBIENT_TEMPERATURE ExemptedUse = 4
+)
+
+// Enum value maps for ExemptedUse.
+var (
+	ExemptedUse_name = map[int32]string{
+		0: "EXEMPTED_USE_UNSPECIFIED",
+		1: "EXEMPTED_USE_ESSENTIAL",
+		2: "EXEMPTED_USE_CRITICAL",
+		3: "EXEMPTED_USE_LABORATORY",
+		4: "EXEMPTED_USE_HIGH_AMBIENT_TEMPERATURE",
+	}
+	ExemptedUse_value = map[string]int32{
+		"EXEMPTED_USE_UNSPECIFIED":              0,
+		"EXEMPTED_USE_ESSENTIAL":                1,
+		"EXEMPTED_USE_CRITICAL":                 2,
+		"EXEMPTED_USE_LABORATORY":               3,
+		"EXEMPTED_USE_HIGH_AMBIENT_TEMPERATURE": 4,
+	}
+)
+
+func (x ExemptedUse) Enum() *ExemptedUse {
+	p := new(ExemptedUse)
+	*p = x
+	return p
+}
+
+func (x ExemptedUse) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (ExemptedUse) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_consumption_proto_enumTypes[2].Descriptor()
+}
+
+func (ExemptedUse) Type() protoreflect.EnumType {
+	return &file_halovet_v1_consumption_proto_enumTypes[2]
+}
+
+func (x ExemptedUse) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use ExemptedUse.Descriptor instead.
+func (ExemptedUse) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{2}
+}
+
+// OfficialFigureKind says what an official figure sets.
+type OfficialFigureKind int32
+
+const (
+	// Not set.
+	OfficialFigureKind_OFFICIAL_FIGURE_KIND_UNSPECIFIED OfficialFigureKind = 0
+	// A baseline as the Parties have set it (no year).
+	OfficialFigureKind_OFFICIAL_FIGURE_KIND_BASELINE OfficialFigureKind = 1
+	// One year's limit, e.g. of an agreed plan stricter than the treaty's.
+	OfficialFigureKind_OFFICIAL_FIGURE_KIND_LIMIT OfficialFigureKind = 2
+)
+
+// Enum value maps for OfficialFigureKind.
+var (
+	OfficialFigureKind_name = map[int32]string{
+		0: "OFFICIAL_FIGURE_KIND_UNSPECIFIED",
+		1: "OFFICIAL_FIGURE_KIND_BASELINE",
+		2: "OFFICIAL_FIGURE_KIND_LIMIT",
+	}
+	OfficialFigureKind_value = map[string]int32{
+		"OFFICIAL_FIGURE_KIND_UNSPECIFIED": 0,
+		"OFFICIAL_FIGURE_KIND_BASELINE":    1,
+		"OFFICIAL_FIGURE_KIND_LIMIT":       2,
+	}
+)
+
+func (x OfficialFigureKind) Enum() *OfficialFigureKind {
+	p := new(OfficialFigureKind)
+	*p = x
+	return p
+}
+
+func (x OfficialFigureKind) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (OfficialFigureKind) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_consumption_proto_enumTypes[3].Descriptor()
+}
+
+func (OfficialFigureKind) Type() protoreflect.EnumType {
+	return &file_halovet_v1_consumption_proto_enumTypes[3]
+}
+
+func (x OfficialFigureKind) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use OfficialFigureKind.Descriptor instead.
+func (OfficialFigureKind) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{3}
+}
+
 // NationalEntry is one quantity of one substance in one year.
 type NationalEntry struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -166,9 +280,17 @@ type NationalEntry struct {
 	// Metric tonnes of substance.
 	MetricTonnes float64 `protobuf:"fixed64,5,opt,name=metric_tonnes,json=metricTonnes,proto3" json:"metric_tonnes,omitempty"`
 	// Free note, e.g. the facility or the source document.
-	Note          string `protobuf:"bytes,6,opt,name=note,proto3" json:"note,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Note string `protobuf:"bytes,6,opt,name=note,proto3" json:"note,omitempty"`
+	// For FEEDSTOCK, QPS and DESTRUCTION entries: true when the entry covers only
+	// quantities that never passed customs (domestic production used as feedstock,
+	// stocks destroyed); they add to what the shipments declared for the same use
+	// deduct. False: the entry is the whole year's use, accepted only for a
+	// substance and year without recorded shipments declared for that use (and
+	// left out, with a note, if such shipments are recorded later). Must be false
+	// for historical trade totals, which passed customs.
+	OutsideCustoms bool `protobuf:"varint,7,opt,name=outside_customs,json=outsideCustoms,proto3" json:"outside_customs,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *NationalEntry) Reset() {
@@ -241,6 +363,13 @@ func (x *NationalEntry) GetNote() string {
 		return x.Note
 	}
 	return ""
+}
+
+func (x *NationalEntry) GetOutsideCustoms() bool {
+	if x != nil {
+		return x.OutsideCustoms
+	}
+	return false
 }
 
 // RecordNationalEntriesRequest carries entries.
@@ -729,9 +858,16 @@ type GetConsumptionResponse struct {
 	Groups []*GroupConsumption `protobuf:"bytes,3,rep,name=groups,proto3" json:"groups,omitempty"`
 	// How the figures were counted, and anything the reader should check (e.g.
 	// uncontrolled blend components left out, process agents deducted).
-	Notes         []string `protobuf:"bytes,4,rep,name=notes,proto3" json:"notes,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Notes []string `protobuf:"bytes,4,rep,name=notes,proto3" json:"notes,omitempty"`
+	// Annex groups without any data for the year (no shipment, no national
+	// entry), in Annex order (or of the annex_group asked for): "no data", not
+	// zero. A stated zero is a 0 t national entry and is listed in groups.
+	NoDataGroups []string `protobuf:"bytes,5,rep,name=no_data_groups,json=noDataGroups,proto3" json:"no_data_groups,omitempty"`
+	// HFC-23 by-product per facility: reported beside Annex F consumption, never
+	// part of it.
+	Hfc23ByProduct []*Hfc23Entry `protobuf:"bytes,6,rep,name=hfc23_by_product,json=hfc23ByProduct,proto3" json:"hfc23_by_product,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *GetConsumptionResponse) Reset() {
@@ -788,6 +924,20 @@ func (x *GetConsumptionResponse) GetGroups() []*GroupConsumption {
 func (x *GetConsumptionResponse) GetNotes() []string {
 	if x != nil {
 		return x.Notes
+	}
+	return nil
+}
+
+func (x *GetConsumptionResponse) GetNoDataGroups() []string {
+	if x != nil {
+		return x.NoDataGroups
+	}
+	return nil
+}
+
+func (x *GetConsumptionResponse) GetHfc23ByProduct() []*Hfc23Entry {
+	if x != nil {
+		return x.Hfc23ByProduct
 	}
 	return nil
 }
@@ -1066,9 +1216,16 @@ type GetBaselineResponse struct {
 	Notes []string `protobuf:"bytes,15,rep,name=notes,proto3" json:"notes,omitempty"`
 	// Which schedule the reporting Party follows: "non-A5", "A5", "non-A5-variant",
 	// "A5-group1" or "A5-group2".
-	AppliesTo     string `protobuf:"bytes,16,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	AppliesTo string `protobuf:"bytes,16,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
+	// True when a baseline as officially set is stored for the scope; compliance
+	// and quota planning use it instead of the computed baseline above.
+	HasOfficialBaseline bool `protobuf:"varint,17,opt,name=has_official_baseline,json=hasOfficialBaseline,proto3" json:"has_official_baseline,omitempty"`
+	// The baseline as officially set, in unit.
+	OfficialBaseline float64 `protobuf:"fixed64,18,opt,name=official_baseline,json=officialBaseline,proto3" json:"official_baseline,omitempty"`
+	// Its source (the decision or document).
+	OfficialBaselineSource string `protobuf:"bytes,19,opt,name=official_baseline_source,json=officialBaselineSource,proto3" json:"official_baseline_source,omitempty"`
+	unknownFields          protoimpl.UnknownFields
+	sizeCache              protoimpl.SizeCache
 }
 
 func (x *GetBaselineResponse) Reset() {
@@ -1209,6 +1366,27 @@ func (x *GetBaselineResponse) GetNotes() []string {
 func (x *GetBaselineResponse) GetAppliesTo() string {
 	if x != nil {
 		return x.AppliesTo
+	}
+	return ""
+}
+
+func (x *GetBaselineResponse) GetHasOfficialBaseline() bool {
+	if x != nil {
+		return x.HasOfficialBaseline
+	}
+	return false
+}
+
+func (x *GetBaselineResponse) GetOfficialBaseline() float64 {
+	if x != nil {
+		return x.OfficialBaseline
+	}
+	return 0
+}
+
+func (x *GetBaselineResponse) GetOfficialBaselineSource() string {
+	if x != nil {
+		return x.OfficialBaselineSource
 	}
 	return ""
 }
@@ -1374,7 +1552,19 @@ type ComplianceYear struct {
 	// False when no data of the group exist for the year.
 	HasData bool `protobuf:"varint,9,opt,name=has_data,json=hasData,proto3" json:"has_data,omitempty"`
 	// Set in a year under a period-average rule: the running average and the room left.
-	Period        *PeriodAverage `protobuf:"bytes,10,opt,name=period,proto3" json:"period,omitempty"`
+	Period *PeriodAverage `protobuf:"bytes,10,opt,name=period,proto3" json:"period,omitempty"`
+	// The schedule's level: baseline used times allowed_percent.
+	ComputedAllowed float64 `protobuf:"fixed64,11,opt,name=computed_allowed,json=computedAllowed,proto3" json:"computed_allowed,omitempty"`
+	// True when a limit as officially set applies to the year (official_limit).
+	HasOfficialLimit bool `protobuf:"varint,12,opt,name=has_official_limit,json=hasOfficialLimit,proto3" json:"has_official_limit,omitempty"`
+	// The year's limit as officially set; used instead of computed_allowed.
+	OfficialLimit float64 `protobuf:"fixed64,13,opt,name=official_limit,json=officialLimit,proto3" json:"official_limit,omitempty"`
+	// Source of official_limit (the decision or agreed plan).
+	OfficialLimitSource string `protobuf:"bytes,14,opt,name=official_limit_source,json=officialLimitSource,proto3" json:"official_limit_source,omitempty"`
+	// Sum of the authorised exemptions of the year, added to the limit.
+	Exempted float64 `protobuf:"fixed64,15,opt,name=exempted,proto3" json:"exempted,omitempty"`
+	// The exemptions added, with their sources.
+	Exemptions    []*AppliedExemption `protobuf:"bytes,16,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1479,6 +1669,698 @@ func (x *ComplianceYear) GetPeriod() *PeriodAverage {
 	return nil
 }
 
+func (x *ComplianceYear) GetComputedAllowed() float64 {
+	if x != nil {
+		return x.ComputedAllowed
+	}
+	return 0
+}
+
+func (x *ComplianceYear) GetHasOfficialLimit() bool {
+	if x != nil {
+		return x.HasOfficialLimit
+	}
+	return false
+}
+
+func (x *ComplianceYear) GetOfficialLimit() float64 {
+	if x != nil {
+		return x.OfficialLimit
+	}
+	return 0
+}
+
+func (x *ComplianceYear) GetOfficialLimitSource() string {
+	if x != nil {
+		return x.OfficialLimitSource
+	}
+	return ""
+}
+
+func (x *ComplianceYear) GetExempted() float64 {
+	if x != nil {
+		return x.Exempted
+	}
+	return 0
+}
+
+func (x *ComplianceYear) GetExemptions() []*AppliedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// AppliedExemption is one authorised exemption added to a year's limit.
+type AppliedExemption struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Exempted use.
+	Use ExemptedUse `protobuf:"varint,1,opt,name=use,proto3,enum=halovet.v1.ExemptedUse" json:"use,omitempty"`
+	// Amount, in the assessment's unit.
+	Amount float64 `protobuf:"fixed64,2,opt,name=amount,proto3" json:"amount,omitempty"`
+	// The decision that authorises it.
+	Source        string `protobuf:"bytes,3,opt,name=source,proto3" json:"source,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AppliedExemption) Reset() {
+	*x = AppliedExemption{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[15]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AppliedExemption) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AppliedExemption) ProtoMessage() {}
+
+func (x *AppliedExemption) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[15]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AppliedExemption.ProtoReflect.Descriptor instead.
+func (*AppliedExemption) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{15}
+}
+
+func (x *AppliedExemption) GetUse() ExemptedUse {
+	if x != nil {
+		return x.Use
+	}
+	return ExemptedUse_EXEMPTED_USE_UNSPECIFIED
+}
+
+func (x *AppliedExemption) GetAmount() float64 {
+	if x != nil {
+		return x.Amount
+	}
+	return 0
+}
+
+func (x *AppliedExemption) GetSource() string {
+	if x != nil {
+		return x.Source
+	}
+	return ""
+}
+
+// AuthorisedExemption is one exemption authorised for a Party, scope and year.
+type AuthorisedExemption struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Caller's key; an exemption with the same key replaces the stored one.
+	ExemptionKey string `protobuf:"bytes,1,opt,name=exemption_key,json=exemptionKey,proto3" json:"exemption_key,omitempty"`
+	// The Party (ISO 3166-1 alpha-2); empty on input: the reporting Party.
+	CountryCode string `protobuf:"bytes,2,opt,name=country_code,json=countryCode,proto3" json:"country_code,omitempty"`
+	// Calendar year.
+	Year int32 `protobuf:"varint,3,opt,name=year,proto3" json:"year,omitempty"`
+	// Annex/Group, or "F" for HFCs.
+	AnnexGroup string `protobuf:"bytes,4,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
+	// Exempted use.
+	Use ExemptedUse `protobuf:"varint,5,opt,name=use,proto3,enum=halovet.v1.ExemptedUse" json:"use,omitempty"`
+	// Amount authorised, in the scope's unit: ODP t for Annexes A to E, CO2-eq t for F.
+	Amount float64 `protobuf:"fixed64,6,opt,name=amount,proto3" json:"amount,omitempty"`
+	// Unit of amount ("ODP t" or "CO2-eq t"); set by the server.
+	Unit string `protobuf:"bytes,7,opt,name=unit,proto3" json:"unit,omitempty"`
+	// The decision that authorises it (required), e.g. the Meeting of the Parties' decision number.
+	Source string `protobuf:"bytes,8,opt,name=source,proto3" json:"source,omitempty"`
+	// Free note.
+	Note          string `protobuf:"bytes,9,opt,name=note,proto3" json:"note,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AuthorisedExemption) Reset() {
+	*x = AuthorisedExemption{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[16]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AuthorisedExemption) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AuthorisedExemption) ProtoMessage() {}
+
+func (x *AuthorisedExemption) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[16]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AuthorisedExemption.ProtoReflect.Descriptor instead.
+func (*AuthorisedExemption) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{16}
+}
+
+func (x *AuthorisedExemption) GetExemptionKey() string {
+	if x != nil {
+		return x.ExemptionKey
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetCountryCode() string {
+	if x != nil {
+		return x.CountryCode
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *AuthorisedExemption) GetAnnexGroup() string {
+	if x != nil {
+		return x.AnnexGroup
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetUse() ExemptedUse {
+	if x != nil {
+		return x.Use
+	}
+	return ExemptedUse_EXEMPTED_USE_UNSPECIFIED
+}
+
+func (x *AuthorisedExemption) GetAmount() float64 {
+	if x != nil {
+		return x.Amount
+	}
+	return 0
+}
+
+func (x *AuthorisedExemption) GetUnit() string {
+	if x != nil {
+		return x.Unit
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetSource() string {
+	if x != nil {
+		return x.Source
+	}
+	return ""
+}
+
+func (x *AuthorisedExemption) GetNote() string {
+	if x != nil {
+		return x.Note
+	}
+	return ""
+}
+
+// RecordExemptionsRequest carries exemptions.
+type RecordExemptionsRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Exemptions to store.
+	Exemptions    []*AuthorisedExemption `protobuf:"bytes,1,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordExemptionsRequest) Reset() {
+	*x = RecordExemptionsRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[17]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordExemptionsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordExemptionsRequest) ProtoMessage() {}
+
+func (x *RecordExemptionsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[17]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordExemptionsRequest.ProtoReflect.Descriptor instead.
+func (*RecordExemptionsRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{17}
+}
+
+func (x *RecordExemptionsRequest) GetExemptions() []*AuthorisedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// RecordExemptionsResponse reports what was stored.
+type RecordExemptionsResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The exemptions as stored.
+	Exemptions    []*AuthorisedExemption `protobuf:"bytes,1,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordExemptionsResponse) Reset() {
+	*x = RecordExemptionsResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[18]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordExemptionsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordExemptionsResponse) ProtoMessage() {}
+
+func (x *RecordExemptionsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[18]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordExemptionsResponse.ProtoReflect.Descriptor instead.
+func (*RecordExemptionsResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{18}
+}
+
+func (x *RecordExemptionsResponse) GetExemptions() []*AuthorisedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// ListExemptionsRequest filters exemptions.
+type ListExemptionsRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Only this year, when set.
+	Year          int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListExemptionsRequest) Reset() {
+	*x = ListExemptionsRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[19]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListExemptionsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListExemptionsRequest) ProtoMessage() {}
+
+func (x *ListExemptionsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[19]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListExemptionsRequest.ProtoReflect.Descriptor instead.
+func (*ListExemptionsRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{19}
+}
+
+func (x *ListExemptionsRequest) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+// ListExemptionsResponse lists exemptions.
+type ListExemptionsResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Exemptions by Party, year, scope, use and key.
+	Exemptions    []*AuthorisedExemption `protobuf:"bytes,1,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListExemptionsResponse) Reset() {
+	*x = ListExemptionsResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[20]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListExemptionsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListExemptionsResponse) ProtoMessage() {}
+
+func (x *ListExemptionsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[20]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListExemptionsResponse.ProtoReflect.Descriptor instead.
+func (*ListExemptionsResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{20}
+}
+
+func (x *ListExemptionsResponse) GetExemptions() []*AuthorisedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// OfficialFigure is a baseline or limit as officially set.
+type OfficialFigure struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Caller's key; a figure with the same key replaces the stored one.
+	FigureKey string `protobuf:"bytes,1,opt,name=figure_key,json=figureKey,proto3" json:"figure_key,omitempty"`
+	// The Party (ISO 3166-1 alpha-2); empty on input: the reporting Party.
+	CountryCode string `protobuf:"bytes,2,opt,name=country_code,json=countryCode,proto3" json:"country_code,omitempty"`
+	// Baseline or limit.
+	Kind OfficialFigureKind `protobuf:"varint,3,opt,name=kind,proto3,enum=halovet.v1.OfficialFigureKind" json:"kind,omitempty"`
+	// Annex/Group, or "F" for HFCs.
+	AnnexGroup string `protobuf:"bytes,4,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
+	// Year of a limit; 0 for a baseline.
+	Year int32 `protobuf:"varint,5,opt,name=year,proto3" json:"year,omitempty"`
+	// Value in the scope's unit: ODP t for Annexes A to E, CO2-eq t for F.
+	Value float64 `protobuf:"fixed64,6,opt,name=value,proto3" json:"value,omitempty"`
+	// Unit of value; set by the server.
+	Unit string `protobuf:"bytes,7,opt,name=unit,proto3" json:"unit,omitempty"`
+	// The decision or document that sets it (required).
+	Source        string `protobuf:"bytes,8,opt,name=source,proto3" json:"source,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *OfficialFigure) Reset() {
+	*x = OfficialFigure{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[21]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *OfficialFigure) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*OfficialFigure) ProtoMessage() {}
+
+func (x *OfficialFigure) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[21]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use OfficialFigure.ProtoReflect.Descriptor instead.
+func (*OfficialFigure) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{21}
+}
+
+func (x *OfficialFigure) GetFigureKey() string {
+	if x != nil {
+		return x.FigureKey
+	}
+	return ""
+}
+
+func (x *OfficialFigure) GetCountryCode() string {
+	if x != nil {
+		return x.CountryCode
+	}
+	return ""
+}
+
+func (x *OfficialFigure) GetKind() OfficialFigureKind {
+	if x != nil {
+		return x.Kind
+	}
+	return OfficialFigureKind_OFFICIAL_FIGURE_KIND_UNSPECIFIED
+}
+
+func (x *OfficialFigure) GetAnnexGroup() string {
+	if x != nil {
+		return x.AnnexGroup
+	}
+	return ""
+}
+
+func (x *OfficialFigure) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *OfficialFigure) GetValue() float64 {
+	if x != nil {
+		return x.Value
+	}
+	return 0
+}
+
+func (x *OfficialFigure) GetUnit() string {
+	if x != nil {
+		return x.Unit
+	}
+	return ""
+}
+
+func (x *OfficialFigure) GetSource() string {
+	if x != nil {
+		return x.Source
+	}
+	return ""
+}
+
+// RecordOfficialFiguresRequest carries figures.
+type RecordOfficialFiguresRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Figures to store.
+	Figures       []*OfficialFigure `protobuf:"bytes,1,rep,name=figures,proto3" json:"figures,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordOfficialFiguresRequest) Reset() {
+	*x = RecordOfficialFiguresRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[22]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordOfficialFiguresRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordOfficialFiguresRequest) ProtoMessage() {}
+
+func (x *RecordOfficialFiguresRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[22]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordOfficialFiguresRequest.ProtoReflect.Descriptor instead.
+func (*RecordOfficialFiguresRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{22}
+}
+
+func (x *RecordOfficialFiguresRequest) GetFigures() []*OfficialFigure {
+	if x != nil {
+		return x.Figures
+	}
+	return nil
+}
+
+// RecordOfficialFiguresResponse reports what was stored.
+type RecordOfficialFiguresResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The figures as stored.
+	Figures       []*OfficialFigure `protobuf:"bytes,1,rep,name=figures,proto3" json:"figures,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordOfficialFiguresResponse) Reset() {
+	*x = RecordOfficialFiguresResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[23]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordOfficialFiguresResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordOfficialFiguresResponse) ProtoMessage() {}
+
+func (x *RecordOfficialFiguresResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[23]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordOfficialFiguresResponse.ProtoReflect.Descriptor instead.
+func (*RecordOfficialFiguresResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{23}
+}
+
+func (x *RecordOfficialFiguresResponse) GetFigures() []*OfficialFigure {
+	if x != nil {
+		return x.Figures
+	}
+	return nil
+}
+
+// ListOfficialFiguresRequest asks for every official figure.
+type ListOfficialFiguresRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListOfficialFiguresRequest) Reset() {
+	*x = ListOfficialFiguresRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[24]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListOfficialFiguresRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListOfficialFiguresRequest) ProtoMessage() {}
+
+func (x *ListOfficialFiguresRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[24]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListOfficialFiguresRequest.ProtoReflect.Descriptor instead.
+func (*ListOfficialFiguresRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{24}
+}
+
+// ListOfficialFiguresResponse lists official figures.
+type ListOfficialFiguresResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Figures by Party, kind, scope and year.
+	Figures       []*OfficialFigure `protobuf:"bytes,1,rep,name=figures,proto3" json:"figures,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListOfficialFiguresResponse) Reset() {
+	*x = ListOfficialFiguresResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[25]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListOfficialFiguresResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListOfficialFiguresResponse) ProtoMessage() {}
+
+func (x *ListOfficialFiguresResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[25]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListOfficialFiguresResponse.ProtoReflect.Descriptor instead.
+func (*ListOfficialFiguresResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{25}
+}
+
+func (x *ListOfficialFiguresResponse) GetFigures() []*OfficialFigure {
+	if x != nil {
+		return x.Figures
+	}
+	return nil
+}
+
 // AssessComplianceRequest names the range.
 type AssessComplianceRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1494,7 +2376,7 @@ type AssessComplianceRequest struct {
 
 func (x *AssessComplianceRequest) Reset() {
 	*x = AssessComplianceRequest{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[15]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[26]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1506,7 +2388,7 @@ func (x *AssessComplianceRequest) String() string {
 func (*AssessComplianceRequest) ProtoMessage() {}
 
 func (x *AssessComplianceRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[15]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[26]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1519,7 +2401,7 @@ func (x *AssessComplianceRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AssessComplianceRequest.ProtoReflect.Descriptor instead.
 func (*AssessComplianceRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{15}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{26}
 }
 
 func (x *AssessComplianceRequest) GetAnnexGroup() string {
@@ -1561,14 +2443,21 @@ type AssessComplianceResponse struct {
 	// Missing years and groups of the baseline.
 	BaselineMissing []string `protobuf:"bytes,7,rep,name=baseline_missing,json=baselineMissing,proto3" json:"baseline_missing,omitempty"`
 	// Which schedule the reporting Party follows ("A5", "non-A5", "A5-group1", ...).
-	AppliesTo     string `protobuf:"bytes,8,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	AppliesTo string `protobuf:"bytes,8,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
+	// The baseline computed from the data (0 when incomplete); baseline is the
+	// official one when has_official_baseline.
+	ComputedBaseline float64 `protobuf:"fixed64,9,opt,name=computed_baseline,json=computedBaseline,proto3" json:"computed_baseline,omitempty"`
+	// True when a baseline as officially set is used.
+	HasOfficialBaseline bool `protobuf:"varint,10,opt,name=has_official_baseline,json=hasOfficialBaseline,proto3" json:"has_official_baseline,omitempty"`
+	// Source of the official baseline.
+	OfficialBaselineSource string `protobuf:"bytes,11,opt,name=official_baseline_source,json=officialBaselineSource,proto3" json:"official_baseline_source,omitempty"`
+	unknownFields          protoimpl.UnknownFields
+	sizeCache              protoimpl.SizeCache
 }
 
 func (x *AssessComplianceResponse) Reset() {
 	*x = AssessComplianceResponse{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[16]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[27]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1580,7 +2469,7 @@ func (x *AssessComplianceResponse) String() string {
 func (*AssessComplianceResponse) ProtoMessage() {}
 
 func (x *AssessComplianceResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[16]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[27]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1593,7 +2482,7 @@ func (x *AssessComplianceResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AssessComplianceResponse.ProtoReflect.Descriptor instead.
 func (*AssessComplianceResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{16}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{27}
 }
 
 func (x *AssessComplianceResponse) GetAnnexGroup() string {
@@ -1652,6 +2541,27 @@ func (x *AssessComplianceResponse) GetAppliesTo() string {
 	return ""
 }
 
+func (x *AssessComplianceResponse) GetComputedBaseline() float64 {
+	if x != nil {
+		return x.ComputedBaseline
+	}
+	return 0
+}
+
+func (x *AssessComplianceResponse) GetHasOfficialBaseline() bool {
+	if x != nil {
+		return x.HasOfficialBaseline
+	}
+	return false
+}
+
+func (x *AssessComplianceResponse) GetOfficialBaselineSource() string {
+	if x != nil {
+		return x.OfficialBaselineSource
+	}
+	return ""
+}
+
 // QuotaProposal is one company's proposed quota.
 type QuotaProposal struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1673,7 +2583,7 @@ type QuotaProposal struct {
 
 func (x *QuotaProposal) Reset() {
 	*x = QuotaProposal{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[17]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[28]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1685,7 +2595,7 @@ func (x *QuotaProposal) String() string {
 func (*QuotaProposal) ProtoMessage() {}
 
 func (x *QuotaProposal) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[17]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[28]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1698,7 +2608,7 @@ func (x *QuotaProposal) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use QuotaProposal.ProtoReflect.Descriptor instead.
 func (*QuotaProposal) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{17}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{28}
 }
 
 func (x *QuotaProposal) GetCompanyId() string {
@@ -1764,7 +2674,7 @@ type PlanQuotasRequest struct {
 
 func (x *PlanQuotasRequest) Reset() {
 	*x = PlanQuotasRequest{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[18]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[29]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1776,7 +2686,7 @@ func (x *PlanQuotasRequest) String() string {
 func (*PlanQuotasRequest) ProtoMessage() {}
 
 func (x *PlanQuotasRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[18]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[29]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1789,7 +2699,7 @@ func (x *PlanQuotasRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PlanQuotasRequest.ProtoReflect.Descriptor instead.
 func (*PlanQuotasRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{18}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{29}
 }
 
 func (x *PlanQuotasRequest) GetYear() int32 {
@@ -1861,7 +2771,7 @@ type PlanQuotasResponse struct {
 
 func (x *PlanQuotasResponse) Reset() {
 	*x = PlanQuotasResponse{}
-	mi := &file_halovet_v1_consumption_proto_msgTypes[19]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[30]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1873,7 +2783,7 @@ func (x *PlanQuotasResponse) String() string {
 func (*PlanQuotasResponse) ProtoMessage() {}
 
 func (x *PlanQuotasResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_consumption_proto_msgTypes[19]
+	mi := &file_halovet_v1_consumption_proto_msgTypes[30]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1886,7 +2796,7 @@ func (x *PlanQuotasResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PlanQuotasResponse.ProtoReflect.Descriptor instead.
 func (*PlanQuotasResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{19}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{30}
 }
 
 func (x *PlanQuotasResponse) GetUnit() string {
@@ -1952,12 +2862,1368 @@ func (x *PlanQuotasResponse) GetNotes() []string {
 	return nil
 }
 
+// Hfc23Entry is one facility's HFC-23 by-product in one year, metric tonnes.
+type Hfc23Entry struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Caller's key; an entry with the same key replaces the stored one.
+	EntryKey string `protobuf:"bytes,1,opt,name=entry_key,json=entryKey,proto3" json:"entry_key,omitempty"`
+	// Facility name or identifier.
+	Facility string `protobuf:"bytes,2,opt,name=facility,proto3" json:"facility,omitempty"`
+	// Calendar year.
+	Year int32 `protobuf:"varint,3,opt,name=year,proto3" json:"year,omitempty"`
+	// HFC-23 generated, metric tonnes.
+	GeneratedTonnes float64 `protobuf:"fixed64,4,opt,name=generated_tonnes,json=generatedTonnes,proto3" json:"generated_tonnes,omitempty"`
+	// Captured for use or feedstock, metric tonnes.
+	CapturedUsedTonnes float64 `protobuf:"fixed64,5,opt,name=captured_used_tonnes,json=capturedUsedTonnes,proto3" json:"captured_used_tonnes,omitempty"`
+	// Destroyed, metric tonnes.
+	DestroyedTonnes float64 `protobuf:"fixed64,6,opt,name=destroyed_tonnes,json=destroyedTonnes,proto3" json:"destroyed_tonnes,omitempty"`
+	// Emitted, metric tonnes.
+	EmittedTonnes float64 `protobuf:"fixed64,7,opt,name=emitted_tonnes,json=emittedTonnes,proto3" json:"emitted_tonnes,omitempty"`
+	// Emitted in CO2-eq tonnes (Annex F Group II GWP); set by the server.
+	EmittedCo2ETonnes float64 `protobuf:"fixed64,8,opt,name=emitted_co2e_tonnes,json=emittedCo2eTonnes,proto3" json:"emitted_co2e_tonnes,omitempty"`
+	// Free note.
+	Note          string `protobuf:"bytes,9,opt,name=note,proto3" json:"note,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *Hfc23Entry) Reset() {
+	*x = Hfc23Entry{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[31]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Hfc23Entry) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Hfc23Entry) ProtoMessage() {}
+
+func (x *Hfc23Entry) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[31]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Hfc23Entry.ProtoReflect.Descriptor instead.
+func (*Hfc23Entry) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{31}
+}
+
+func (x *Hfc23Entry) GetEntryKey() string {
+	if x != nil {
+		return x.EntryKey
+	}
+	return ""
+}
+
+func (x *Hfc23Entry) GetFacility() string {
+	if x != nil {
+		return x.Facility
+	}
+	return ""
+}
+
+func (x *Hfc23Entry) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *Hfc23Entry) GetGeneratedTonnes() float64 {
+	if x != nil {
+		return x.GeneratedTonnes
+	}
+	return 0
+}
+
+func (x *Hfc23Entry) GetCapturedUsedTonnes() float64 {
+	if x != nil {
+		return x.CapturedUsedTonnes
+	}
+	return 0
+}
+
+func (x *Hfc23Entry) GetDestroyedTonnes() float64 {
+	if x != nil {
+		return x.DestroyedTonnes
+	}
+	return 0
+}
+
+func (x *Hfc23Entry) GetEmittedTonnes() float64 {
+	if x != nil {
+		return x.EmittedTonnes
+	}
+	return 0
+}
+
+func (x *Hfc23Entry) GetEmittedCo2ETonnes() float64 {
+	if x != nil {
+		return x.EmittedCo2ETonnes
+	}
+	return 0
+}
+
+func (x *Hfc23Entry) GetNote() string {
+	if x != nil {
+		return x.Note
+	}
+	return ""
+}
+
+// RecordHfc23EntriesRequest carries facility entries.
+type RecordHfc23EntriesRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Entries to store.
+	Entries       []*Hfc23Entry `protobuf:"bytes,1,rep,name=entries,proto3" json:"entries,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordHfc23EntriesRequest) Reset() {
+	*x = RecordHfc23EntriesRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[32]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordHfc23EntriesRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordHfc23EntriesRequest) ProtoMessage() {}
+
+func (x *RecordHfc23EntriesRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[32]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordHfc23EntriesRequest.ProtoReflect.Descriptor instead.
+func (*RecordHfc23EntriesRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{32}
+}
+
+func (x *RecordHfc23EntriesRequest) GetEntries() []*Hfc23Entry {
+	if x != nil {
+		return x.Entries
+	}
+	return nil
+}
+
+// RecordHfc23EntriesResponse reports what was stored.
+type RecordHfc23EntriesResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The entries as stored.
+	Entries       []*Hfc23Entry `protobuf:"bytes,1,rep,name=entries,proto3" json:"entries,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordHfc23EntriesResponse) Reset() {
+	*x = RecordHfc23EntriesResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[33]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordHfc23EntriesResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordHfc23EntriesResponse) ProtoMessage() {}
+
+func (x *RecordHfc23EntriesResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[33]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordHfc23EntriesResponse.ProtoReflect.Descriptor instead.
+func (*RecordHfc23EntriesResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{33}
+}
+
+func (x *RecordHfc23EntriesResponse) GetEntries() []*Hfc23Entry {
+	if x != nil {
+		return x.Entries
+	}
+	return nil
+}
+
+// ListHfc23EntriesRequest filters facility entries.
+type ListHfc23EntriesRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Only this year, when set.
+	Year          int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListHfc23EntriesRequest) Reset() {
+	*x = ListHfc23EntriesRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[34]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListHfc23EntriesRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListHfc23EntriesRequest) ProtoMessage() {}
+
+func (x *ListHfc23EntriesRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[34]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListHfc23EntriesRequest.ProtoReflect.Descriptor instead.
+func (*ListHfc23EntriesRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{34}
+}
+
+func (x *ListHfc23EntriesRequest) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+// ListHfc23EntriesResponse lists facility entries.
+type ListHfc23EntriesResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Entries by year and facility.
+	Entries       []*Hfc23Entry `protobuf:"bytes,1,rep,name=entries,proto3" json:"entries,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListHfc23EntriesResponse) Reset() {
+	*x = ListHfc23EntriesResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[35]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListHfc23EntriesResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListHfc23EntriesResponse) ProtoMessage() {}
+
+func (x *ListHfc23EntriesResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[35]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListHfc23EntriesResponse.ProtoReflect.Descriptor instead.
+func (*ListHfc23EntriesResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{35}
+}
+
+func (x *ListHfc23EntriesResponse) GetEntries() []*Hfc23Entry {
+	if x != nil {
+		return x.Entries
+	}
+	return nil
+}
+
+// YearTradeLine is the trade of one substance with one partner in one
+// direction, metric tonnes.
+type YearTradeLine struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Partner country (ISO 3166-1 alpha-2); empty for a historical total of
+	// unknown partners.
+	PartnerCountry string `protobuf:"bytes,1,opt,name=partner_country,json=partnerCountry,proto3" json:"partner_country,omitempty"`
+	// Substance designation (blends are split into their components).
+	Substance string `protobuf:"bytes,2,opt,name=substance,proto3" json:"substance,omitempty"`
+	// Annex/Group.
+	AnnexGroup string `protobuf:"bytes,3,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
+	// New substance, metric tonnes (includes the parts below).
+	NewTonnes float64 `protobuf:"fixed64,4,opt,name=new_tonnes,json=newTonnes,proto3" json:"new_tonnes,omitempty"`
+	// Used, recycled or reclaimed substance, metric tonnes (apart from new).
+	RecoveredTonnes float64 `protobuf:"fixed64,5,opt,name=recovered_tonnes,json=recoveredTonnes,proto3" json:"recovered_tonnes,omitempty"`
+	// Part of new_tonnes declared for feedstock or as process agent.
+	FeedstockTonnes float64 `protobuf:"fixed64,6,opt,name=feedstock_tonnes,json=feedstockTonnes,proto3" json:"feedstock_tonnes,omitempty"`
+	// Part of new_tonnes declared for QPS (methyl bromide only).
+	QpsTonnes float64 `protobuf:"fixed64,7,opt,name=qps_tonnes,json=qpsTonnes,proto3" json:"qps_tonnes,omitempty"`
+	// Part of new_tonnes declared for exempted uses (essential, critical, laboratory).
+	ExemptedTonnes float64 `protobuf:"fixed64,8,opt,name=exempted_tonnes,json=exemptedTonnes,proto3" json:"exempted_tonnes,omitempty"`
+	// Part of new_tonnes declared for destruction.
+	DestructionTonnes float64 `protobuf:"fixed64,9,opt,name=destruction_tonnes,json=destructionTonnes,proto3" json:"destruction_tonnes,omitempty"`
+	// True when the partner was not bound for the substance's group.
+	PartnerNonParty bool `protobuf:"varint,10,opt,name=partner_non_party,json=partnerNonParty,proto3" json:"partner_non_party,omitempty"`
+	// Recorded shipments behind the line.
+	ShipmentIds []int64 `protobuf:"varint,11,rep,packed,name=shipment_ids,json=shipmentIds,proto3" json:"shipment_ids,omitempty"`
+	// National entries behind the line (historical totals).
+	EntryKeys     []string `protobuf:"bytes,12,rep,name=entry_keys,json=entryKeys,proto3" json:"entry_keys,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *YearTradeLine) Reset() {
+	*x = YearTradeLine{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[36]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *YearTradeLine) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*YearTradeLine) ProtoMessage() {}
+
+func (x *YearTradeLine) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[36]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use YearTradeLine.ProtoReflect.Descriptor instead.
+func (*YearTradeLine) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{36}
+}
+
+func (x *YearTradeLine) GetPartnerCountry() string {
+	if x != nil {
+		return x.PartnerCountry
+	}
+	return ""
+}
+
+func (x *YearTradeLine) GetSubstance() string {
+	if x != nil {
+		return x.Substance
+	}
+	return ""
+}
+
+func (x *YearTradeLine) GetAnnexGroup() string {
+	if x != nil {
+		return x.AnnexGroup
+	}
+	return ""
+}
+
+func (x *YearTradeLine) GetNewTonnes() float64 {
+	if x != nil {
+		return x.NewTonnes
+	}
+	return 0
+}
+
+func (x *YearTradeLine) GetRecoveredTonnes() float64 {
+	if x != nil {
+		return x.RecoveredTonnes
+	}
+	return 0
+}
+
+func (x *YearTradeLine) GetFeedstockTonnes() float64 {
+	if x != nil {
+		return x.FeedstockTonnes
+	}
+	return 0
+}
+
+func (x *YearTradeLine) GetQpsTonnes() float64 {
+	if x != nil {
+		return x.QpsTonnes
+	}
+	return 0
+}
+
+func (x *YearTradeLine) GetExemptedTonnes() float64 {
+	if x != nil {
+		return x.ExemptedTonnes
+	}
+	return 0
+}
+
+func (x *YearTradeLine) GetDestructionTonnes() float64 {
+	if x != nil {
+		return x.DestructionTonnes
+	}
+	return 0
+}
+
+func (x *YearTradeLine) GetPartnerNonParty() bool {
+	if x != nil {
+		return x.PartnerNonParty
+	}
+	return false
+}
+
+func (x *YearTradeLine) GetShipmentIds() []int64 {
+	if x != nil {
+		return x.ShipmentIds
+	}
+	return nil
+}
+
+func (x *YearTradeLine) GetEntryKeys() []string {
+	if x != nil {
+		return x.EntryKeys
+	}
+	return nil
+}
+
+// YearQuantityLine is one quantity of one substance, metric tonnes.
+type YearQuantityLine struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Substance designation.
+	Substance string `protobuf:"bytes,1,opt,name=substance,proto3" json:"substance,omitempty"`
+	// Annex/Group.
+	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
+	// Metric tonnes.
+	Tonnes float64 `protobuf:"fixed64,3,opt,name=tonnes,proto3" json:"tonnes,omitempty"`
+	// Where it comes from: "shipments" (declared purpose), "outside-customs"
+	// or "whole-year" (national entries).
+	Basis string `protobuf:"bytes,4,opt,name=basis,proto3" json:"basis,omitempty"`
+	// Recorded shipments behind the line.
+	ShipmentIds []int64 `protobuf:"varint,5,rep,packed,name=shipment_ids,json=shipmentIds,proto3" json:"shipment_ids,omitempty"`
+	// National entries behind the line.
+	EntryKeys     []string `protobuf:"bytes,6,rep,name=entry_keys,json=entryKeys,proto3" json:"entry_keys,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *YearQuantityLine) Reset() {
+	*x = YearQuantityLine{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[37]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *YearQuantityLine) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*YearQuantityLine) ProtoMessage() {}
+
+func (x *YearQuantityLine) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[37]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use YearQuantityLine.ProtoReflect.Descriptor instead.
+func (*YearQuantityLine) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{37}
+}
+
+func (x *YearQuantityLine) GetSubstance() string {
+	if x != nil {
+		return x.Substance
+	}
+	return ""
+}
+
+func (x *YearQuantityLine) GetAnnexGroup() string {
+	if x != nil {
+		return x.AnnexGroup
+	}
+	return ""
+}
+
+func (x *YearQuantityLine) GetTonnes() float64 {
+	if x != nil {
+		return x.Tonnes
+	}
+	return 0
+}
+
+func (x *YearQuantityLine) GetBasis() string {
+	if x != nil {
+		return x.Basis
+	}
+	return ""
+}
+
+func (x *YearQuantityLine) GetShipmentIds() []int64 {
+	if x != nil {
+		return x.ShipmentIds
+	}
+	return nil
+}
+
+func (x *YearQuantityLine) GetEntryKeys() []string {
+	if x != nil {
+		return x.EntryKeys
+	}
+	return nil
+}
+
+// YearGroupTotal is one Annex group's arithmetic in the report.
+type YearGroupTotal struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Annex/Group.
+	AnnexGroup string `protobuf:"bytes,1,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
+	// False when the group has no data in the year.
+	HasData bool `protobuf:"varint,2,opt,name=has_data,json=hasData,proto3" json:"has_data,omitempty"`
+	// Production, metric tonnes.
+	ProductionTonnes float64 `protobuf:"fixed64,3,opt,name=production_tonnes,json=productionTonnes,proto3" json:"production_tonnes,omitempty"`
+	// Imports of new substance, metric tonnes.
+	ImportTonnes float64 `protobuf:"fixed64,4,opt,name=import_tonnes,json=importTonnes,proto3" json:"import_tonnes,omitempty"`
+	// Exports of new substance to Parties (deducted), metric tonnes.
+	ExportTonnes float64 `protobuf:"fixed64,5,opt,name=export_tonnes,json=exportTonnes,proto3" json:"export_tonnes,omitempty"`
+	// Destroyed (deducted), metric tonnes.
+	DestructionTonnes float64 `protobuf:"fixed64,6,opt,name=destruction_tonnes,json=destructionTonnes,proto3" json:"destruction_tonnes,omitempty"`
+	// Feedstock (deducted), metric tonnes.
+	FeedstockTonnes float64 `protobuf:"fixed64,7,opt,name=feedstock_tonnes,json=feedstockTonnes,proto3" json:"feedstock_tonnes,omitempty"`
+	// QPS (deducted), metric tonnes.
+	QpsTonnes float64 `protobuf:"fixed64,8,opt,name=qps_tonnes,json=qpsTonnes,proto3" json:"qps_tonnes,omitempty"`
+	// Exports to non-Parties (not deducted), metric tonnes.
+	ExportNonPartyTonnes float64 `protobuf:"fixed64,9,opt,name=export_non_party_tonnes,json=exportNonPartyTonnes,proto3" json:"export_non_party_tonnes,omitempty"`
+	// Calculated consumption, metric tonnes.
+	ConsumptionTonnes float64 `protobuf:"fixed64,10,opt,name=consumption_tonnes,json=consumptionTonnes,proto3" json:"consumption_tonnes,omitempty"`
+	// Calculated consumption, ODP tonnes.
+	ConsumptionOdpTonnes float64 `protobuf:"fixed64,11,opt,name=consumption_odp_tonnes,json=consumptionOdpTonnes,proto3" json:"consumption_odp_tonnes,omitempty"`
+	// Calculated consumption, CO2-eq tonnes.
+	ConsumptionCo2ETonnes float64 `protobuf:"fixed64,12,opt,name=consumption_co2e_tonnes,json=consumptionCo2eTonnes,proto3" json:"consumption_co2e_tonnes,omitempty"`
+	unknownFields         protoimpl.UnknownFields
+	sizeCache             protoimpl.SizeCache
+}
+
+func (x *YearGroupTotal) Reset() {
+	*x = YearGroupTotal{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[38]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *YearGroupTotal) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*YearGroupTotal) ProtoMessage() {}
+
+func (x *YearGroupTotal) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[38]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use YearGroupTotal.ProtoReflect.Descriptor instead.
+func (*YearGroupTotal) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{38}
+}
+
+func (x *YearGroupTotal) GetAnnexGroup() string {
+	if x != nil {
+		return x.AnnexGroup
+	}
+	return ""
+}
+
+func (x *YearGroupTotal) GetHasData() bool {
+	if x != nil {
+		return x.HasData
+	}
+	return false
+}
+
+func (x *YearGroupTotal) GetProductionTonnes() float64 {
+	if x != nil {
+		return x.ProductionTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetImportTonnes() float64 {
+	if x != nil {
+		return x.ImportTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetExportTonnes() float64 {
+	if x != nil {
+		return x.ExportTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetDestructionTonnes() float64 {
+	if x != nil {
+		return x.DestructionTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetFeedstockTonnes() float64 {
+	if x != nil {
+		return x.FeedstockTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetQpsTonnes() float64 {
+	if x != nil {
+		return x.QpsTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetExportNonPartyTonnes() float64 {
+	if x != nil {
+		return x.ExportNonPartyTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetConsumptionTonnes() float64 {
+	if x != nil {
+		return x.ConsumptionTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetConsumptionOdpTonnes() float64 {
+	if x != nil {
+		return x.ConsumptionOdpTonnes
+	}
+	return 0
+}
+
+func (x *YearGroupTotal) GetConsumptionCo2ETonnes() float64 {
+	if x != nil {
+		return x.ConsumptionCo2ETonnes
+	}
+	return 0
+}
+
+// GetYearReportRequest names the year.
+type GetYearReportRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Calendar year.
+	Year          int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *GetYearReportRequest) Reset() {
+	*x = GetYearReportRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[39]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *GetYearReportRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*GetYearReportRequest) ProtoMessage() {}
+
+func (x *GetYearReportRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[39]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use GetYearReportRequest.ProtoReflect.Descriptor instead.
+func (*GetYearReportRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{39}
+}
+
+func (x *GetYearReportRequest) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+// GetYearReportResponse is the annual data report of one year. It holds no
+// time of computation: the same register gives the same report.
+type GetYearReportResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Reporting Party.
+	CountryCode string `protobuf:"bytes,1,opt,name=country_code,json=countryCode,proto3" json:"country_code,omitempty"`
+	// Year.
+	Year int32 `protobuf:"varint,2,opt,name=year,proto3" json:"year,omitempty"`
+	// Totals per Annex group, in Annex order.
+	Groups []*YearGroupTotal `protobuf:"bytes,3,rep,name=groups,proto3" json:"groups,omitempty"`
+	// Imports by exporting country and substance.
+	Imports []*YearTradeLine `protobuf:"bytes,4,rep,name=imports,proto3" json:"imports,omitempty"`
+	// Exports by destination and substance.
+	Exports []*YearTradeLine `protobuf:"bytes,5,rep,name=exports,proto3" json:"exports,omitempty"`
+	// Production by substance.
+	Production []*YearQuantityLine `protobuf:"bytes,6,rep,name=production,proto3" json:"production,omitempty"`
+	// Destruction by substance and basis.
+	Destruction []*YearQuantityLine `protobuf:"bytes,7,rep,name=destruction,proto3" json:"destruction,omitempty"`
+	// Feedstock use by substance and basis.
+	Feedstock []*YearQuantityLine `protobuf:"bytes,8,rep,name=feedstock,proto3" json:"feedstock,omitempty"`
+	// QPS use of methyl bromide by basis.
+	Qps []*YearQuantityLine `protobuf:"bytes,9,rep,name=qps,proto3" json:"qps,omitempty"`
+	// Imports from non-Parties (lines of imports with partner_non_party).
+	ImportsNonParty []*YearTradeLine `protobuf:"bytes,10,rep,name=imports_non_party,json=importsNonParty,proto3" json:"imports_non_party,omitempty"`
+	// Exports to non-Parties (lines of exports with partner_non_party).
+	ExportsNonParty []*YearTradeLine `protobuf:"bytes,11,rep,name=exports_non_party,json=exportsNonParty,proto3" json:"exports_non_party,omitempty"`
+	// HFC-23 by-product per facility.
+	Hfc23 []*Hfc23Entry `protobuf:"bytes,12,rep,name=hfc23,proto3" json:"hfc23,omitempty"`
+	// Groups without data.
+	NoDataGroups []string `protobuf:"bytes,13,rep,name=no_data_groups,json=noDataGroups,proto3" json:"no_data_groups,omitempty"`
+	// How the figures were counted and what to check.
+	Notes []string `protobuf:"bytes,14,rep,name=notes,proto3" json:"notes,omitempty"`
+	// "provisional": the year is open and its figures may still change;
+	// "closed": the year is closed and the report stays the same until it is
+	// reopened (the notes say since when, by whom and why).
+	State string `protobuf:"bytes,15,opt,name=state,proto3" json:"state,omitempty"`
+	// The reporting Party's authorised exemptions of the year, with their sources.
+	Exemptions    []*AuthorisedExemption `protobuf:"bytes,16,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *GetYearReportResponse) Reset() {
+	*x = GetYearReportResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[40]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *GetYearReportResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*GetYearReportResponse) ProtoMessage() {}
+
+func (x *GetYearReportResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[40]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use GetYearReportResponse.ProtoReflect.Descriptor instead.
+func (*GetYearReportResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{40}
+}
+
+func (x *GetYearReportResponse) GetCountryCode() string {
+	if x != nil {
+		return x.CountryCode
+	}
+	return ""
+}
+
+func (x *GetYearReportResponse) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *GetYearReportResponse) GetGroups() []*YearGroupTotal {
+	if x != nil {
+		return x.Groups
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetImports() []*YearTradeLine {
+	if x != nil {
+		return x.Imports
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetExports() []*YearTradeLine {
+	if x != nil {
+		return x.Exports
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetProduction() []*YearQuantityLine {
+	if x != nil {
+		return x.Production
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetDestruction() []*YearQuantityLine {
+	if x != nil {
+		return x.Destruction
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetFeedstock() []*YearQuantityLine {
+	if x != nil {
+		return x.Feedstock
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetQps() []*YearQuantityLine {
+	if x != nil {
+		return x.Qps
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetImportsNonParty() []*YearTradeLine {
+	if x != nil {
+		return x.ImportsNonParty
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetExportsNonParty() []*YearTradeLine {
+	if x != nil {
+		return x.ExportsNonParty
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetHfc23() []*Hfc23Entry {
+	if x != nil {
+		return x.Hfc23
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetNoDataGroups() []string {
+	if x != nil {
+		return x.NoDataGroups
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetNotes() []string {
+	if x != nil {
+		return x.Notes
+	}
+	return nil
+}
+
+func (x *GetYearReportResponse) GetState() string {
+	if x != nil {
+		return x.State
+	}
+	return ""
+}
+
+func (x *GetYearReportResponse) GetExemptions() []*AuthorisedExemption {
+	if x != nil {
+		return x.Exemptions
+	}
+	return nil
+}
+
+// PartnerExport is what one partner reports as exported to the reporting Party.
+type PartnerExport struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Caller's key; a report with the same key replaces the stored one.
+	ReportKey string `protobuf:"bytes,1,opt,name=report_key,json=reportKey,proto3" json:"report_key,omitempty"`
+	// Calendar year.
+	Year int32 `protobuf:"varint,2,opt,name=year,proto3" json:"year,omitempty"`
+	// Exporting partner (ISO 3166-1 alpha-2).
+	PartnerCountry string `protobuf:"bytes,3,opt,name=partner_country,json=partnerCountry,proto3" json:"partner_country,omitempty"`
+	// Substance designation as the partner reports it (resolved to the catalogue).
+	Substance string `protobuf:"bytes,4,opt,name=substance,proto3" json:"substance,omitempty"`
+	// Metric tonnes.
+	MetricTonnes float64 `protobuf:"fixed64,5,opt,name=metric_tonnes,json=metricTonnes,proto3" json:"metric_tonnes,omitempty"`
+	// Where the figure comes from (e.g. the partner's data report).
+	Source        string `protobuf:"bytes,6,opt,name=source,proto3" json:"source,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *PartnerExport) Reset() {
+	*x = PartnerExport{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[41]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *PartnerExport) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*PartnerExport) ProtoMessage() {}
+
+func (x *PartnerExport) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[41]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use PartnerExport.ProtoReflect.Descriptor instead.
+func (*PartnerExport) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{41}
+}
+
+func (x *PartnerExport) GetReportKey() string {
+	if x != nil {
+		return x.ReportKey
+	}
+	return ""
+}
+
+func (x *PartnerExport) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *PartnerExport) GetPartnerCountry() string {
+	if x != nil {
+		return x.PartnerCountry
+	}
+	return ""
+}
+
+func (x *PartnerExport) GetSubstance() string {
+	if x != nil {
+		return x.Substance
+	}
+	return ""
+}
+
+func (x *PartnerExport) GetMetricTonnes() float64 {
+	if x != nil {
+		return x.MetricTonnes
+	}
+	return 0
+}
+
+func (x *PartnerExport) GetSource() string {
+	if x != nil {
+		return x.Source
+	}
+	return ""
+}
+
+// RecordPartnerExportsRequest carries partner reports.
+type RecordPartnerExportsRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Reports to store.
+	Reports       []*PartnerExport `protobuf:"bytes,1,rep,name=reports,proto3" json:"reports,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordPartnerExportsRequest) Reset() {
+	*x = RecordPartnerExportsRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[42]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordPartnerExportsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordPartnerExportsRequest) ProtoMessage() {}
+
+func (x *RecordPartnerExportsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[42]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordPartnerExportsRequest.ProtoReflect.Descriptor instead.
+func (*RecordPartnerExportsRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{42}
+}
+
+func (x *RecordPartnerExportsRequest) GetReports() []*PartnerExport {
+	if x != nil {
+		return x.Reports
+	}
+	return nil
+}
+
+// RecordPartnerExportsResponse reports what was stored.
+type RecordPartnerExportsResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The reports as stored.
+	Reports       []*PartnerExport `protobuf:"bytes,1,rep,name=reports,proto3" json:"reports,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RecordPartnerExportsResponse) Reset() {
+	*x = RecordPartnerExportsResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[43]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RecordPartnerExportsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RecordPartnerExportsResponse) ProtoMessage() {}
+
+func (x *RecordPartnerExportsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[43]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RecordPartnerExportsResponse.ProtoReflect.Descriptor instead.
+func (*RecordPartnerExportsResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{43}
+}
+
+func (x *RecordPartnerExportsResponse) GetReports() []*PartnerExport {
+	if x != nil {
+		return x.Reports
+	}
+	return nil
+}
+
+// ReconcilePartnerExportsRequest names the year and tolerance.
+type ReconcilePartnerExportsRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Calendar year.
+	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	// Relative tolerance, 0 to 1 (0 means 0.05): a gap counts when it exceeds
+	// tolerance times the larger of the two figures, and min_gap_tonnes.
+	Tolerance float64 `protobuf:"fixed64,2,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
+	// Smallest gap listed, metric tonnes (0 means 0.001).
+	MinGapTonnes  float64 `protobuf:"fixed64,3,opt,name=min_gap_tonnes,json=minGapTonnes,proto3" json:"min_gap_tonnes,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ReconcilePartnerExportsRequest) Reset() {
+	*x = ReconcilePartnerExportsRequest{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[44]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ReconcilePartnerExportsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ReconcilePartnerExportsRequest) ProtoMessage() {}
+
+func (x *ReconcilePartnerExportsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[44]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ReconcilePartnerExportsRequest.ProtoReflect.Descriptor instead.
+func (*ReconcilePartnerExportsRequest) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{44}
+}
+
+func (x *ReconcilePartnerExportsRequest) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *ReconcilePartnerExportsRequest) GetTolerance() float64 {
+	if x != nil {
+		return x.Tolerance
+	}
+	return 0
+}
+
+func (x *ReconcilePartnerExportsRequest) GetMinGapTonnes() float64 {
+	if x != nil {
+		return x.MinGapTonnes
+	}
+	return 0
+}
+
+// PartnerGap is one partner and substance whose figures disagree.
+type PartnerGap struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Partner country.
+	PartnerCountry string `protobuf:"bytes,1,opt,name=partner_country,json=partnerCountry,proto3" json:"partner_country,omitempty"`
+	// Substance designation.
+	Substance string `protobuf:"bytes,2,opt,name=substance,proto3" json:"substance,omitempty"`
+	// Year.
+	Year int32 `protobuf:"varint,3,opt,name=year,proto3" json:"year,omitempty"`
+	// What the partner reports as exported to us, metric tonnes.
+	PartnerTonnes float64 `protobuf:"fixed64,4,opt,name=partner_tonnes,json=partnerTonnes,proto3" json:"partner_tonnes,omitempty"`
+	// What we recorded as imported from the partner, metric tonnes (new and recovered).
+	RecordedTonnes float64 `protobuf:"fixed64,5,opt,name=recorded_tonnes,json=recordedTonnes,proto3" json:"recorded_tonnes,omitempty"`
+	// partner_tonnes minus recorded_tonnes.
+	GapTonnes float64 `protobuf:"fixed64,6,opt,name=gap_tonnes,json=gapTonnes,proto3" json:"gap_tonnes,omitempty"`
+	// Our records behind recorded_tonnes.
+	ShipmentIds []int64 `protobuf:"varint,7,rep,packed,name=shipment_ids,json=shipmentIds,proto3" json:"shipment_ids,omitempty"`
+	// The partner's reports behind partner_tonnes.
+	ReportKeys    []string `protobuf:"bytes,8,rep,name=report_keys,json=reportKeys,proto3" json:"report_keys,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *PartnerGap) Reset() {
+	*x = PartnerGap{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[45]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *PartnerGap) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*PartnerGap) ProtoMessage() {}
+
+func (x *PartnerGap) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[45]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use PartnerGap.ProtoReflect.Descriptor instead.
+func (*PartnerGap) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{45}
+}
+
+func (x *PartnerGap) GetPartnerCountry() string {
+	if x != nil {
+		return x.PartnerCountry
+	}
+	return ""
+}
+
+func (x *PartnerGap) GetSubstance() string {
+	if x != nil {
+		return x.Substance
+	}
+	return ""
+}
+
+func (x *PartnerGap) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *PartnerGap) GetPartnerTonnes() float64 {
+	if x != nil {
+		return x.PartnerTonnes
+	}
+	return 0
+}
+
+func (x *PartnerGap) GetRecordedTonnes() float64 {
+	if x != nil {
+		return x.RecordedTonnes
+	}
+	return 0
+}
+
+func (x *PartnerGap) GetGapTonnes() float64 {
+	if x != nil {
+		return x.GapTonnes
+	}
+	return 0
+}
+
+func (x *PartnerGap) GetShipmentIds() []int64 {
+	if x != nil {
+		return x.ShipmentIds
+	}
+	return nil
+}
+
+func (x *PartnerGap) GetReportKeys() []string {
+	if x != nil {
+		return x.ReportKeys
+	}
+	return nil
+}
+
+// ReconcilePartnerExportsResponse lists the gaps.
+type ReconcilePartnerExportsResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Year.
+	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	// Tolerance applied.
+	Tolerance float64 `protobuf:"fixed64,2,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
+	// Gaps by partner and substance.
+	Gaps []*PartnerGap `protobuf:"bytes,3,rep,name=gaps,proto3" json:"gaps,omitempty"`
+	// Partner and substance pairs compared.
+	PairsCompared int32 `protobuf:"varint,4,opt,name=pairs_compared,json=pairsCompared,proto3" json:"pairs_compared,omitempty"`
+	// Partners we recorded imports from that reported nothing for the year: not
+	// compared (their figures are missing, not zero), in order.
+	PartnersNotReporting []string `protobuf:"bytes,5,rep,name=partners_not_reporting,json=partnersNotReporting,proto3" json:"partners_not_reporting,omitempty"`
+	unknownFields        protoimpl.UnknownFields
+	sizeCache            protoimpl.SizeCache
+}
+
+func (x *ReconcilePartnerExportsResponse) Reset() {
+	*x = ReconcilePartnerExportsResponse{}
+	mi := &file_halovet_v1_consumption_proto_msgTypes[46]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ReconcilePartnerExportsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ReconcilePartnerExportsResponse) ProtoMessage() {}
+
+func (x *ReconcilePartnerExportsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_halovet_v1_consumption_proto_msgTypes[46]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ReconcilePartnerExportsResponse.ProtoReflect.Descriptor instead.
+func (*ReconcilePartnerExportsResponse) Descriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{46}
+}
+
+func (x *ReconcilePartnerExportsResponse) GetYear() int32 {
+	if x != nil {
+		return x.Year
+	}
+	return 0
+}
+
+func (x *ReconcilePartnerExportsResponse) GetTolerance() float64 {
+	if x != nil {
+		return x.Tolerance
+	}
+	return 0
+}
+
+func (x *ReconcilePartnerExportsResponse) GetGaps() []*PartnerGap {
+	if x != nil {
+		return x.Gaps
+	}
+	return nil
+}
+
+func (x *ReconcilePartnerExportsResponse) GetPairsCompared() int32 {
+	if x != nil {
+		return x.PairsCompared
+	}
+	return 0
+}
+
+func (x *ReconcilePartnerExportsResponse) GetPartnersNotReporting() []string {
+	if x != nil {
+		return x.PartnersNotReporting
+	}
+	return nil
+}
+
 var File_halovet_v1_consumption_proto protoreflect.FileDescriptor
 
 const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\n" +
 	"\x1chalovet/v1/consumption.proto\x12\n" +
-	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"\xcd\x01\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"\xf6\x01\n" +
 	"\rNationalEntry\x12\x1b\n" +
 	"\tentry_key\x18\x01 \x01(\tR\bentryKey\x12\x12\n" +
 	"\x04year\x18\x02 \x01(\x05R\x04year\x124\n" +
@@ -1965,7 +4231,8 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"entry_type\x18\x03 \x01(\x0e2\x15.halovet.v1.EntryTypeR\tentryType\x12\x1c\n" +
 	"\tsubstance\x18\x04 \x01(\tR\tsubstance\x12#\n" +
 	"\rmetric_tonnes\x18\x05 \x01(\x01R\fmetricTonnes\x12\x12\n" +
-	"\x04note\x18\x06 \x01(\tR\x04note\"S\n" +
+	"\x04note\x18\x06 \x01(\tR\x04note\x12'\n" +
+	"\x0foutside_customs\x18\a \x01(\bR\x0eoutsideCustoms\"S\n" +
 	"\x1cRecordNationalEntriesRequest\x123\n" +
 	"\aentries\x18\x01 \x03(\v2\x19.halovet.v1.NationalEntryR\aentries\"l\n" +
 	"\x1dRecordNationalEntriesResponse\x12\x16\n" +
@@ -2002,12 +4269,14 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x15GetConsumptionRequest\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
-	"annexGroup\"\x9b\x01\n" +
+	"annexGroup\"\x83\x02\n" +
 	"\x16GetConsumptionResponse\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12!\n" +
 	"\fcountry_code\x18\x02 \x01(\tR\vcountryCode\x124\n" +
 	"\x06groups\x18\x03 \x03(\v2\x1c.halovet.v1.GroupConsumptionR\x06groups\x12\x14\n" +
-	"\x05notes\x18\x04 \x03(\tR\x05notes\"U\n" +
+	"\x05notes\x18\x04 \x03(\tR\x05notes\x12$\n" +
+	"\x0eno_data_groups\x18\x05 \x03(\tR\fnoDataGroups\x12@\n" +
+	"\x10hfc23_by_product\x18\x06 \x03(\v2\x16.halovet.v1.Hfc23EntryR\x0ehfc23ByProduct\"U\n" +
 	"\fBaselineYear\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x16\n" +
 	"\x06amount\x18\x02 \x01(\x01R\x06amount\x12\x19\n" +
@@ -2027,7 +4296,7 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	" \x01(\tR\x04rule\"5\n" +
 	"\x12GetBaselineRequest\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
-	"annexGroup\"\x9d\x04\n" +
+	"annexGroup\"\xb8\x05\n" +
 	"\x13GetBaselineResponse\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x12\n" +
@@ -2048,7 +4317,10 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\rhcfc_baseline\x18\x0e \x01(\v2\x18.halovet.v1.BaselinePartR\fhcfcBaseline\x12\x14\n" +
 	"\x05notes\x18\x0f \x03(\tR\x05notes\x12\x1d\n" +
 	"\n" +
-	"applies_to\x18\x10 \x01(\tR\tappliesTo\"\xea\x02\n" +
+	"applies_to\x18\x10 \x01(\tR\tappliesTo\x122\n" +
+	"\x15has_official_baseline\x18\x11 \x01(\bR\x13hasOfficialBaseline\x12+\n" +
+	"\x11official_baseline\x18\x12 \x01(\x01R\x10officialBaseline\x128\n" +
+	"\x18official_baseline_source\x18\x13 \x01(\tR\x16officialBaselineSource\"\xea\x02\n" +
 	"\rPeriodAverage\x12\x1b\n" +
 	"\tfrom_year\x18\x01 \x01(\x05R\bfromYear\x12\x17\n" +
 	"\ato_year\x18\x02 \x01(\x05R\x06toYear\x12\x18\n" +
@@ -2061,7 +4333,7 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x06budget\x18\t \x01(\x01R\x06budget\x12\x1b\n" +
 	"\troom_left\x18\n" +
 	" \x01(\x01R\broomLeft\x12\"\n" +
-	"\rroom_per_year\x18\v \x01(\x01R\vroomPerYear\"\xda\x02\n" +
+	"\rroom_per_year\x18\v \x01(\x01R\vroomPerYear\"\xe8\x04\n" +
 	"\x0eComplianceYear\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12 \n" +
 	"\vconsumption\x18\x02 \x01(\x01R\vconsumption\x12\x18\n" +
@@ -2073,12 +4345,67 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\aoutcome\x18\b \x01(\x0e2\x1d.halovet.v1.ComplianceOutcomeR\aoutcome\x12\x19\n" +
 	"\bhas_data\x18\t \x01(\bR\ahasData\x121\n" +
 	"\x06period\x18\n" +
-	" \x01(\v2\x19.halovet.v1.PeriodAverageR\x06period\"p\n" +
+	" \x01(\v2\x19.halovet.v1.PeriodAverageR\x06period\x12)\n" +
+	"\x10computed_allowed\x18\v \x01(\x01R\x0fcomputedAllowed\x12,\n" +
+	"\x12has_official_limit\x18\f \x01(\bR\x10hasOfficialLimit\x12%\n" +
+	"\x0eofficial_limit\x18\r \x01(\x01R\rofficialLimit\x122\n" +
+	"\x15official_limit_source\x18\x0e \x01(\tR\x13officialLimitSource\x12\x1a\n" +
+	"\bexempted\x18\x0f \x01(\x01R\bexempted\x12<\n" +
+	"\n" +
+	"exemptions\x18\x10 \x03(\v2\x1c.halovet.v1.AppliedExemptionR\n" +
+	"exemptions\"m\n" +
+	"\x10AppliedExemption\x12)\n" +
+	"\x03use\x18\x01 \x01(\x0e2\x17.halovet.v1.ExemptedUseR\x03use\x12\x16\n" +
+	"\x06amount\x18\x02 \x01(\x01R\x06amount\x12\x16\n" +
+	"\x06source\x18\x03 \x01(\tR\x06source\"\x95\x02\n" +
+	"\x13AuthorisedExemption\x12#\n" +
+	"\rexemption_key\x18\x01 \x01(\tR\fexemptionKey\x12!\n" +
+	"\fcountry_code\x18\x02 \x01(\tR\vcountryCode\x12\x12\n" +
+	"\x04year\x18\x03 \x01(\x05R\x04year\x12\x1f\n" +
+	"\vannex_group\x18\x04 \x01(\tR\n" +
+	"annexGroup\x12)\n" +
+	"\x03use\x18\x05 \x01(\x0e2\x17.halovet.v1.ExemptedUseR\x03use\x12\x16\n" +
+	"\x06amount\x18\x06 \x01(\x01R\x06amount\x12\x12\n" +
+	"\x04unit\x18\a \x01(\tR\x04unit\x12\x16\n" +
+	"\x06source\x18\b \x01(\tR\x06source\x12\x12\n" +
+	"\x04note\x18\t \x01(\tR\x04note\"Z\n" +
+	"\x17RecordExemptionsRequest\x12?\n" +
+	"\n" +
+	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
+	"exemptions\"[\n" +
+	"\x18RecordExemptionsResponse\x12?\n" +
+	"\n" +
+	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
+	"exemptions\"+\n" +
+	"\x15ListExemptionsRequest\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\"Y\n" +
+	"\x16ListExemptionsResponse\x12?\n" +
+	"\n" +
+	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
+	"exemptions\"\xfd\x01\n" +
+	"\x0eOfficialFigure\x12\x1d\n" +
+	"\n" +
+	"figure_key\x18\x01 \x01(\tR\tfigureKey\x12!\n" +
+	"\fcountry_code\x18\x02 \x01(\tR\vcountryCode\x122\n" +
+	"\x04kind\x18\x03 \x01(\x0e2\x1e.halovet.v1.OfficialFigureKindR\x04kind\x12\x1f\n" +
+	"\vannex_group\x18\x04 \x01(\tR\n" +
+	"annexGroup\x12\x12\n" +
+	"\x04year\x18\x05 \x01(\x05R\x04year\x12\x14\n" +
+	"\x05value\x18\x06 \x01(\x01R\x05value\x12\x12\n" +
+	"\x04unit\x18\a \x01(\tR\x04unit\x12\x16\n" +
+	"\x06source\x18\b \x01(\tR\x06source\"T\n" +
+	"\x1cRecordOfficialFiguresRequest\x124\n" +
+	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"U\n" +
+	"\x1dRecordOfficialFiguresResponse\x124\n" +
+	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"\x1c\n" +
+	"\x1aListOfficialFiguresRequest\"S\n" +
+	"\x1bListOfficialFiguresResponse\x124\n" +
+	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"p\n" +
 	"\x17AssessComplianceRequest\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x1b\n" +
 	"\tfrom_year\x18\x02 \x01(\x05R\bfromYear\x12\x17\n" +
-	"\ato_year\x18\x03 \x01(\x05R\x06toYear\"\xbd\x02\n" +
+	"\ato_year\x18\x03 \x01(\x05R\x06toYear\"\xd8\x03\n" +
 	"\x18AssessComplianceResponse\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x12\n" +
@@ -2089,7 +4416,11 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x11baseline_complete\x18\x06 \x01(\bR\x10baselineComplete\x12)\n" +
 	"\x10baseline_missing\x18\a \x03(\tR\x0fbaselineMissing\x12\x1d\n" +
 	"\n" +
-	"applies_to\x18\b \x01(\tR\tappliesTo\"\xeb\x01\n" +
+	"applies_to\x18\b \x01(\tR\tappliesTo\x12+\n" +
+	"\x11computed_baseline\x18\t \x01(\x01R\x10computedBaseline\x122\n" +
+	"\x15has_official_baseline\x18\n" +
+	" \x01(\bR\x13hasOfficialBaseline\x128\n" +
+	"\x18official_baseline_source\x18\v \x01(\tR\x16officialBaselineSource\"\xeb\x01\n" +
 	"\rQuotaProposal\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x01 \x01(\tR\tcompanyId\x12'\n" +
@@ -2117,7 +4448,127 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"annexGroup\x12'\n" +
 	"\x0fallowed_percent\x18\a \x01(\x01R\x0eallowedPercent\x12$\n" +
 	"\rdistributable\x18\b \x01(\x01R\rdistributable\x12\x14\n" +
-	"\x05notes\x18\t \x03(\tR\x05notes*\xfc\x01\n" +
+	"\x05notes\x18\t \x03(\tR\x05notes\"\xcc\x02\n" +
+	"\n" +
+	"Hfc23Entry\x12\x1b\n" +
+	"\tentry_key\x18\x01 \x01(\tR\bentryKey\x12\x1a\n" +
+	"\bfacility\x18\x02 \x01(\tR\bfacility\x12\x12\n" +
+	"\x04year\x18\x03 \x01(\x05R\x04year\x12)\n" +
+	"\x10generated_tonnes\x18\x04 \x01(\x01R\x0fgeneratedTonnes\x120\n" +
+	"\x14captured_used_tonnes\x18\x05 \x01(\x01R\x12capturedUsedTonnes\x12)\n" +
+	"\x10destroyed_tonnes\x18\x06 \x01(\x01R\x0fdestroyedTonnes\x12%\n" +
+	"\x0eemitted_tonnes\x18\a \x01(\x01R\remittedTonnes\x12.\n" +
+	"\x13emitted_co2e_tonnes\x18\b \x01(\x01R\x11emittedCo2eTonnes\x12\x12\n" +
+	"\x04note\x18\t \x01(\tR\x04note\"M\n" +
+	"\x19RecordHfc23EntriesRequest\x120\n" +
+	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\"N\n" +
+	"\x1aRecordHfc23EntriesResponse\x120\n" +
+	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\"-\n" +
+	"\x17ListHfc23EntriesRequest\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\"L\n" +
+	"\x18ListHfc23EntriesResponse\x120\n" +
+	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\"\xd1\x03\n" +
+	"\rYearTradeLine\x12'\n" +
+	"\x0fpartner_country\x18\x01 \x01(\tR\x0epartnerCountry\x12\x1c\n" +
+	"\tsubstance\x18\x02 \x01(\tR\tsubstance\x12\x1f\n" +
+	"\vannex_group\x18\x03 \x01(\tR\n" +
+	"annexGroup\x12\x1d\n" +
+	"\n" +
+	"new_tonnes\x18\x04 \x01(\x01R\tnewTonnes\x12)\n" +
+	"\x10recovered_tonnes\x18\x05 \x01(\x01R\x0frecoveredTonnes\x12)\n" +
+	"\x10feedstock_tonnes\x18\x06 \x01(\x01R\x0ffeedstockTonnes\x12\x1d\n" +
+	"\n" +
+	"qps_tonnes\x18\a \x01(\x01R\tqpsTonnes\x12'\n" +
+	"\x0fexempted_tonnes\x18\b \x01(\x01R\x0eexemptedTonnes\x12-\n" +
+	"\x12destruction_tonnes\x18\t \x01(\x01R\x11destructionTonnes\x12*\n" +
+	"\x11partner_non_party\x18\n" +
+	" \x01(\bR\x0fpartnerNonParty\x12!\n" +
+	"\fshipment_ids\x18\v \x03(\x03R\vshipmentIds\x12\x1d\n" +
+	"\n" +
+	"entry_keys\x18\f \x03(\tR\tentryKeys\"\xc1\x01\n" +
+	"\x10YearQuantityLine\x12\x1c\n" +
+	"\tsubstance\x18\x01 \x01(\tR\tsubstance\x12\x1f\n" +
+	"\vannex_group\x18\x02 \x01(\tR\n" +
+	"annexGroup\x12\x16\n" +
+	"\x06tonnes\x18\x03 \x01(\x01R\x06tonnes\x12\x14\n" +
+	"\x05basis\x18\x04 \x01(\tR\x05basis\x12!\n" +
+	"\fshipment_ids\x18\x05 \x03(\x03R\vshipmentIds\x12\x1d\n" +
+	"\n" +
+	"entry_keys\x18\x06 \x03(\tR\tentryKeys\"\x90\x04\n" +
+	"\x0eYearGroupTotal\x12\x1f\n" +
+	"\vannex_group\x18\x01 \x01(\tR\n" +
+	"annexGroup\x12\x19\n" +
+	"\bhas_data\x18\x02 \x01(\bR\ahasData\x12+\n" +
+	"\x11production_tonnes\x18\x03 \x01(\x01R\x10productionTonnes\x12#\n" +
+	"\rimport_tonnes\x18\x04 \x01(\x01R\fimportTonnes\x12#\n" +
+	"\rexport_tonnes\x18\x05 \x01(\x01R\fexportTonnes\x12-\n" +
+	"\x12destruction_tonnes\x18\x06 \x01(\x01R\x11destructionTonnes\x12)\n" +
+	"\x10feedstock_tonnes\x18\a \x01(\x01R\x0ffeedstockTonnes\x12\x1d\n" +
+	"\n" +
+	"qps_tonnes\x18\b \x01(\x01R\tqpsTonnes\x125\n" +
+	"\x17export_non_party_tonnes\x18\t \x01(\x01R\x14exportNonPartyTonnes\x12-\n" +
+	"\x12consumption_tonnes\x18\n" +
+	" \x01(\x01R\x11consumptionTonnes\x124\n" +
+	"\x16consumption_odp_tonnes\x18\v \x01(\x01R\x14consumptionOdpTonnes\x126\n" +
+	"\x17consumption_co2e_tonnes\x18\f \x01(\x01R\x15consumptionCo2eTonnes\"*\n" +
+	"\x14GetYearReportRequest\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\"\xa5\x06\n" +
+	"\x15GetYearReportResponse\x12!\n" +
+	"\fcountry_code\x18\x01 \x01(\tR\vcountryCode\x12\x12\n" +
+	"\x04year\x18\x02 \x01(\x05R\x04year\x122\n" +
+	"\x06groups\x18\x03 \x03(\v2\x1a.halovet.v1.YearGroupTotalR\x06groups\x123\n" +
+	"\aimports\x18\x04 \x03(\v2\x19.halovet.v1.YearTradeLineR\aimports\x123\n" +
+	"\aexports\x18\x05 \x03(\v2\x19.halovet.v1.YearTradeLineR\aexports\x12<\n" +
+	"\n" +
+	"production\x18\x06 \x03(\v2\x1c.halovet.v1.YearQuantityLineR\n" +
+	"production\x12>\n" +
+	"\vdestruction\x18\a \x03(\v2\x1c.halovet.v1.YearQuantityLineR\vdestruction\x12:\n" +
+	"\tfeedstock\x18\b \x03(\v2\x1c.halovet.v1.YearQuantityLineR\tfeedstock\x12.\n" +
+	"\x03qps\x18\t \x03(\v2\x1c.halovet.v1.YearQuantityLineR\x03qps\x12E\n" +
+	"\x11imports_non_party\x18\n" +
+	" \x03(\v2\x19.halovet.v1.YearTradeLineR\x0fimportsNonParty\x12E\n" +
+	"\x11exports_non_party\x18\v \x03(\v2\x19.halovet.v1.YearTradeLineR\x0fexportsNonParty\x12,\n" +
+	"\x05hfc23\x18\f \x03(\v2\x16.halovet.v1.Hfc23EntryR\x05hfc23\x12$\n" +
+	"\x0eno_data_groups\x18\r \x03(\tR\fnoDataGroups\x12\x14\n" +
+	"\x05notes\x18\x0e \x03(\tR\x05notes\x12\x14\n" +
+	"\x05state\x18\x0f \x01(\tR\x05state\x12?\n" +
+	"\n" +
+	"exemptions\x18\x10 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
+	"exemptions\"\xc6\x01\n" +
+	"\rPartnerExport\x12\x1d\n" +
+	"\n" +
+	"report_key\x18\x01 \x01(\tR\treportKey\x12\x12\n" +
+	"\x04year\x18\x02 \x01(\x05R\x04year\x12'\n" +
+	"\x0fpartner_country\x18\x03 \x01(\tR\x0epartnerCountry\x12\x1c\n" +
+	"\tsubstance\x18\x04 \x01(\tR\tsubstance\x12#\n" +
+	"\rmetric_tonnes\x18\x05 \x01(\x01R\fmetricTonnes\x12\x16\n" +
+	"\x06source\x18\x06 \x01(\tR\x06source\"R\n" +
+	"\x1bRecordPartnerExportsRequest\x123\n" +
+	"\areports\x18\x01 \x03(\v2\x19.halovet.v1.PartnerExportR\areports\"S\n" +
+	"\x1cRecordPartnerExportsResponse\x123\n" +
+	"\areports\x18\x01 \x03(\v2\x19.halovet.v1.PartnerExportR\areports\"x\n" +
+	"\x1eReconcilePartnerExportsRequest\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1c\n" +
+	"\ttolerance\x18\x02 \x01(\x01R\ttolerance\x12$\n" +
+	"\x0emin_gap_tonnes\x18\x03 \x01(\x01R\fminGapTonnes\"\x9a\x02\n" +
+	"\n" +
+	"PartnerGap\x12'\n" +
+	"\x0fpartner_country\x18\x01 \x01(\tR\x0epartnerCountry\x12\x1c\n" +
+	"\tsubstance\x18\x02 \x01(\tR\tsubstance\x12\x12\n" +
+	"\x04year\x18\x03 \x01(\x05R\x04year\x12%\n" +
+	"\x0epartner_tonnes\x18\x04 \x01(\x01R\rpartnerTonnes\x12'\n" +
+	"\x0frecorded_tonnes\x18\x05 \x01(\x01R\x0erecordedTonnes\x12\x1d\n" +
+	"\n" +
+	"gap_tonnes\x18\x06 \x01(\x01R\tgapTonnes\x12!\n" +
+	"\fshipment_ids\x18\a \x03(\x03R\vshipmentIds\x12\x1f\n" +
+	"\vreport_keys\x18\b \x03(\tR\n" +
+	"reportKeys\"\xdc\x01\n" +
+	"\x1fReconcilePartnerExportsResponse\x12\x12\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1c\n" +
+	"\ttolerance\x18\x02 \x01(\x01R\ttolerance\x12*\n" +
+	"\x04gaps\x18\x03 \x03(\v2\x16.halovet.v1.PartnerGapR\x04gaps\x12%\n" +
+	"\x0epairs_compared\x18\x04 \x01(\x05R\rpairsCompared\x124\n" +
+	"\x16partners_not_reporting\x18\x05 \x03(\tR\x14partnersNotReporting*\xfc\x01\n" +
 	"\tEntryType\x12\x1a\n" +
 	"\x16ENTRY_TYPE_UNSPECIFIED\x10\x00\x12\x19\n" +
 	"\x15ENTRY_TYPE_PRODUCTION\x10\x01\x12\x1a\n" +
@@ -2131,13 +4582,32 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x1eCOMPLIANCE_OUTCOME_UNSPECIFIED\x10\x00\x12\x1d\n" +
 	"\x19COMPLIANCE_OUTCOME_WITHIN\x10\x01\x12\x1f\n" +
 	"\x1bCOMPLIANCE_OUTCOME_EXCEEDED\x10\x02\x12#\n" +
-	"\x1fCOMPLIANCE_OUTCOME_NOT_ASSESSED\x10\x032\xea\x05\n" +
+	"\x1fCOMPLIANCE_OUTCOME_NOT_ASSESSED\x10\x03*\xaa\x01\n" +
+	"\vExemptedUse\x12\x1c\n" +
+	"\x18EXEMPTED_USE_UNSPECIFIED\x10\x00\x12\x1a\n" +
+	"\x16EXEMPTED_USE_ESSENTIAL\x10\x01\x12\x19\n" +
+	"\x15EXEMPTED_USE_CRITICAL\x10\x02\x12\x1b\n" +
+	"\x17EXEMPTED_USE_LABORATORY\x10\x03\x12)\n" +
+	"%EXEMPTED_USE_HIGH_AMBIENT_TEMPERATURE\x10\x04*}\n" +
+	"\x12OfficialFigureKind\x12$\n" +
+	" OFFICIAL_FIGURE_KIND_UNSPECIFIED\x10\x00\x12!\n" +
+	"\x1dOFFICIAL_FIGURE_KIND_BASELINE\x10\x01\x12\x1e\n" +
+	"\x1aOFFICIAL_FIGURE_KIND_LIMIT\x10\x022\x90\x0f\n" +
 	"\x12ConsumptionService\x12\x8d\x01\n" +
 	"\x15RecordNationalEntries\x12(.halovet.v1.RecordNationalEntriesRequest\x1a).halovet.v1.RecordNationalEntriesResponse\"\x1f\x82\xd3\xe4\x93\x02\x19:\x01*\"\x14/v1/national-entries\x12\x84\x01\n" +
 	"\x13ListNationalEntries\x12&.halovet.v1.ListNationalEntriesRequest\x1a'.halovet.v1.ListNationalEntriesResponse\"\x1c\x82\xd3\xe4\x93\x02\x16\x12\x14/v1/national-entries\x12w\n" +
 	"\x0eGetConsumption\x12!.halovet.v1.GetConsumptionRequest\x1a\".halovet.v1.GetConsumptionResponse\"\x1e\x82\xd3\xe4\x93\x02\x18\x12\x16/v1/consumption/{year}\x12d\n" +
 	"\vGetBaseline\x12\x1e.halovet.v1.GetBaselineRequest\x1a\x1f.halovet.v1.GetBaselineResponse\"\x14\x82\xd3\xe4\x93\x02\x0e\x12\f/v1/baseline\x12u\n" +
-	"\x10AssessCompliance\x12#.halovet.v1.AssessComplianceRequest\x1a$.halovet.v1.AssessComplianceResponse\"\x16\x82\xd3\xe4\x93\x02\x10\x12\x0e/v1/compliance\x12g\n" +
+	"\x10AssessCompliance\x12#.halovet.v1.AssessComplianceRequest\x1a$.halovet.v1.AssessComplianceResponse\"\x16\x82\xd3\xe4\x93\x02\x10\x12\x0e/v1/compliance\x12x\n" +
+	"\x10RecordExemptions\x12#.halovet.v1.RecordExemptionsRequest\x1a$.halovet.v1.RecordExemptionsResponse\"\x19\x82\xd3\xe4\x93\x02\x13:\x01*\"\x0e/v1/exemptions\x12o\n" +
+	"\x0eListExemptions\x12!.halovet.v1.ListExemptionsRequest\x1a\".halovet.v1.ListExemptionsResponse\"\x16\x82\xd3\xe4\x93\x02\x10\x12\x0e/v1/exemptions\x12\x8d\x01\n" +
+	"\x15RecordOfficialFigures\x12(.halovet.v1.RecordOfficialFiguresRequest\x1a).halovet.v1.RecordOfficialFiguresResponse\"\x1f\x82\xd3\xe4\x93\x02\x19:\x01*\"\x14/v1/official-figures\x12\x84\x01\n" +
+	"\x13ListOfficialFigures\x12&.halovet.v1.ListOfficialFiguresRequest\x1a'.halovet.v1.ListOfficialFiguresResponse\"\x1c\x82\xd3\xe4\x93\x02\x16\x12\x14/v1/official-figures\x12\x81\x01\n" +
+	"\x12RecordHfc23Entries\x12%.halovet.v1.RecordHfc23EntriesRequest\x1a&.halovet.v1.RecordHfc23EntriesResponse\"\x1c\x82\xd3\xe4\x93\x02\x16:\x01*\"\x11/v1/hfc23-entries\x12x\n" +
+	"\x10ListHfc23Entries\x12#.halovet.v1.ListHfc23EntriesRequest\x1a$.halovet.v1.ListHfc23EntriesResponse\"\x19\x82\xd3\xe4\x93\x02\x13\x12\x11/v1/hfc23-entries\x12u\n" +
+	"\rGetYearReport\x12 .halovet.v1.GetYearReportRequest\x1a!.halovet.v1.GetYearReportResponse\"\x1f\x82\xd3\xe4\x93\x02\x19\x12\x17/v1/year-reports/{year}\x12\x89\x01\n" +
+	"\x14RecordPartnerExports\x12'.halovet.v1.RecordPartnerExportsRequest\x1a(.halovet.v1.RecordPartnerExportsResponse\"\x1e\x82\xd3\xe4\x93\x02\x18:\x01*\"\x13/v1/partner-exports\x12\xa0\x01\n" +
+	"\x17ReconcilePartnerExports\x12*.halovet.v1.ReconcilePartnerExportsRequest\x1a+.halovet.v1.ReconcilePartnerExportsResponse\",\x82\xd3\xe4\x93\x02&\x12$/v1/partner-exports/{year}:reconcile\x12g\n" +
 	"\n" +
 	"PlanQuotas\x12\x1d.halovet.v1.PlanQuotasRequest\x1a\x1e.halovet.v1.PlanQuotasResponse\"\x1a\x82\xd3\xe4\x93\x02\x14:\x01*\"\x0f/v1/quota-plansB7Z5github.com/halovet/halovet/proto/halovet/v1;halovetv1b\x06proto3"
 
@@ -2153,65 +4623,140 @@ func file_halovet_v1_consumption_proto_rawDescGZIP() []byte {
 	return file_halovet_v1_consumption_proto_rawDescData
 }
 
-var file_halovet_v1_consumption_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
-var file_halovet_v1_consumption_proto_msgTypes = make([]protoimpl.MessageInfo, 20)
+var file_halovet_v1_consumption_proto_enumTypes = make([]protoimpl.EnumInfo, 4)
+var file_halovet_v1_consumption_proto_msgTypes = make([]protoimpl.MessageInfo, 47)
 var file_halovet_v1_consumption_proto_goTypes = []any{
-	(EntryType)(0),                        // 0: halovet.v1.EntryType
-	(ComplianceOutcome)(0),                // 1: halovet.v1.ComplianceOutcome
-	(*NationalEntry)(nil),                 // 2: halovet.v1.NationalEntry
-	(*RecordNationalEntriesRequest)(nil),  // 3: halovet.v1.RecordNationalEntriesRequest
-	(*RecordNationalEntriesResponse)(nil), // 4: halovet.v1.RecordNationalEntriesResponse
-	(*ListNationalEntriesRequest)(nil),    // 5: halovet.v1.ListNationalEntriesRequest
-	(*ListNationalEntriesResponse)(nil),   // 6: halovet.v1.ListNationalEntriesResponse
-	(*SubstanceConsumption)(nil),          // 7: halovet.v1.SubstanceConsumption
-	(*GroupConsumption)(nil),              // 8: halovet.v1.GroupConsumption
-	(*GetConsumptionRequest)(nil),         // 9: halovet.v1.GetConsumptionRequest
-	(*GetConsumptionResponse)(nil),        // 10: halovet.v1.GetConsumptionResponse
-	(*BaselineYear)(nil),                  // 11: halovet.v1.BaselineYear
-	(*BaselinePart)(nil),                  // 12: halovet.v1.BaselinePart
-	(*GetBaselineRequest)(nil),            // 13: halovet.v1.GetBaselineRequest
-	(*GetBaselineResponse)(nil),           // 14: halovet.v1.GetBaselineResponse
-	(*PeriodAverage)(nil),                 // 15: halovet.v1.PeriodAverage
-	(*ComplianceYear)(nil),                // 16: halovet.v1.ComplianceYear
-	(*AssessComplianceRequest)(nil),       // 17: halovet.v1.AssessComplianceRequest
-	(*AssessComplianceResponse)(nil),      // 18: halovet.v1.AssessComplianceResponse
-	(*QuotaProposal)(nil),                 // 19: halovet.v1.QuotaProposal
-	(*PlanQuotasRequest)(nil),             // 20: halovet.v1.PlanQuotasRequest
-	(*PlanQuotasResponse)(nil),            // 21: halovet.v1.PlanQuotasResponse
+	(EntryType)(0),                          // 0: halovet.v1.EntryType
+	(ComplianceOutcome)(0),                  // 1: halovet.v1.ComplianceOutcome
+	(ExemptedUse)(0),                        // 2: halovet.v1.ExemptedUse
+	(OfficialFigureKind)(0),                 // 3: halovet.v1.OfficialFigureKind
+	(*NationalEntry)(nil),                   // 4: halovet.v1.NationalEntry
+	(*RecordNationalEntriesRequest)(nil),    // 5: halovet.v1.RecordNationalEntriesRequest
+	(*RecordNationalEntriesResponse)(nil),   // 6: halovet.v1.RecordNationalEntriesResponse
+	(*ListNationalEntriesRequest)(nil),      // 7: halovet.v1.ListNationalEntriesRequest
+	(*ListNationalEntriesResponse)(nil),     // 8: halovet.v1.ListNationalEntriesResponse
+	(*SubstanceConsumption)(nil),            // 9: halovet.v1.SubstanceConsumption
+	(*GroupConsumption)(nil),                // 10: halovet.v1.GroupConsumption
+	(*GetConsumptionRequest)(nil),           // 11: halovet.v1.GetConsumptionRequest
+	(*GetConsumptionResponse)(nil),          // 12: halovet.v1.GetConsumptionResponse
+	(*BaselineYear)(nil),                    // 13: halovet.v1.BaselineYear
+	(*BaselinePart)(nil),                    // 14: halovet.v1.BaselinePart
+	(*GetBaselineRequest)(nil),              // 15: halovet.v1.GetBaselineRequest
+	(*GetBaselineResponse)(nil),             // 16: halovet.v1.GetBaselineResponse
+	(*PeriodAverage)(nil),                   // 17: halovet.v1.PeriodAverage
+	(*ComplianceYear)(nil),                  // 18: halovet.v1.ComplianceYear
+	(*AppliedExemption)(nil),                // 19: halovet.v1.AppliedExemption
+	(*AuthorisedExemption)(nil),             // 20: halovet.v1.AuthorisedExemption
+	(*RecordExemptionsRequest)(nil),         // 21: halovet.v1.RecordExemptionsRequest
+	(*RecordExemptionsResponse)(nil),        // 22: halovet.v1.RecordExemptionsResponse
+	(*ListExemptionsRequest)(nil),           // 23: halovet.v1.ListExemptionsRequest
+	(*ListExemptionsResponse)(nil),          // 24: halovet.v1.ListExemptionsResponse
+	(*OfficialFigure)(nil),                  // 25: halovet.v1.OfficialFigure
+	(*RecordOfficialFiguresRequest)(nil),    // 26: halovet.v1.RecordOfficialFiguresRequest
+	(*RecordOfficialFiguresResponse)(nil),   // 27: halovet.v1.RecordOfficialFiguresResponse
+	(*ListOfficialFiguresRequest)(nil),      // 28: halovet.v1.ListOfficialFiguresRequest
+	(*ListOfficialFiguresResponse)(nil),     // 29: halovet.v1.ListOfficialFiguresResponse
+	(*AssessComplianceRequest)(nil),         // 30: halovet.v1.AssessComplianceRequest
+	(*AssessComplianceResponse)(nil),        // 31: halovet.v1.AssessComplianceResponse
+	(*QuotaProposal)(nil),                   // 32: halovet.v1.QuotaProposal
+	(*PlanQuotasRequest)(nil),               // 33: halovet.v1.PlanQuotasRequest
+	(*PlanQuotasResponse)(nil),              // 34: halovet.v1.PlanQuotasResponse
+	(*Hfc23Entry)(nil),                      // 35: halovet.v1.Hfc23Entry
+	(*RecordHfc23EntriesRequest)(nil),       // 36: halovet.v1.RecordHfc23EntriesRequest
+	(*RecordHfc23EntriesResponse)(nil),      // 37: halovet.v1.RecordHfc23EntriesResponse
+	(*ListHfc23EntriesRequest)(nil),         // 38: halovet.v1.ListHfc23EntriesRequest
+	(*ListHfc23EntriesResponse)(nil),        // 39: halovet.v1.ListHfc23EntriesResponse
+	(*YearTradeLine)(nil),                   // 40: halovet.v1.YearTradeLine
+	(*YearQuantityLine)(nil),                // 41: halovet.v1.YearQuantityLine
+	(*YearGroupTotal)(nil),                  // 42: halovet.v1.YearGroupTotal
+	(*GetYearReportRequest)(nil),            // 43: halovet.v1.GetYearReportRequest
+	(*GetYearReportResponse)(nil),           // 44: halovet.v1.GetYearReportResponse
+	(*PartnerExport)(nil),                   // 45: halovet.v1.PartnerExport
+	(*RecordPartnerExportsRequest)(nil),     // 46: halovet.v1.RecordPartnerExportsRequest
+	(*RecordPartnerExportsResponse)(nil),    // 47: halovet.v1.RecordPartnerExportsResponse
+	(*ReconcilePartnerExportsRequest)(nil),  // 48: halovet.v1.ReconcilePartnerExportsRequest
+	(*PartnerGap)(nil),                      // 49: halovet.v1.PartnerGap
+	(*ReconcilePartnerExportsResponse)(nil), // 50: halovet.v1.ReconcilePartnerExportsResponse
 }
 var file_halovet_v1_consumption_proto_depIdxs = []int32{
 	0,  // 0: halovet.v1.NationalEntry.entry_type:type_name -> halovet.v1.EntryType
-	2,  // 1: halovet.v1.RecordNationalEntriesRequest.entries:type_name -> halovet.v1.NationalEntry
-	2,  // 2: halovet.v1.RecordNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
-	2,  // 3: halovet.v1.ListNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
-	7,  // 4: halovet.v1.GroupConsumption.substances:type_name -> halovet.v1.SubstanceConsumption
-	8,  // 5: halovet.v1.GetConsumptionResponse.groups:type_name -> halovet.v1.GroupConsumption
-	11, // 6: halovet.v1.BaselinePart.years:type_name -> halovet.v1.BaselineYear
-	11, // 7: halovet.v1.BaselinePart.cfc_years:type_name -> halovet.v1.BaselineYear
-	11, // 8: halovet.v1.GetBaselineResponse.years:type_name -> halovet.v1.BaselineYear
-	11, // 9: halovet.v1.GetBaselineResponse.cfc_years:type_name -> halovet.v1.BaselineYear
-	12, // 10: halovet.v1.GetBaselineResponse.hcfc_baseline:type_name -> halovet.v1.BaselinePart
-	1,  // 11: halovet.v1.ComplianceYear.outcome:type_name -> halovet.v1.ComplianceOutcome
-	15, // 12: halovet.v1.ComplianceYear.period:type_name -> halovet.v1.PeriodAverage
-	16, // 13: halovet.v1.AssessComplianceResponse.years:type_name -> halovet.v1.ComplianceYear
-	19, // 14: halovet.v1.PlanQuotasResponse.proposals:type_name -> halovet.v1.QuotaProposal
-	3,  // 15: halovet.v1.ConsumptionService.RecordNationalEntries:input_type -> halovet.v1.RecordNationalEntriesRequest
-	5,  // 16: halovet.v1.ConsumptionService.ListNationalEntries:input_type -> halovet.v1.ListNationalEntriesRequest
-	9,  // 17: halovet.v1.ConsumptionService.GetConsumption:input_type -> halovet.v1.GetConsumptionRequest
-	13, // 18: halovet.v1.ConsumptionService.GetBaseline:input_type -> halovet.v1.GetBaselineRequest
-	17, // 19: halovet.v1.ConsumptionService.AssessCompliance:input_type -> halovet.v1.AssessComplianceRequest
-	20, // 20: halovet.v1.ConsumptionService.PlanQuotas:input_type -> halovet.v1.PlanQuotasRequest
-	4,  // 21: halovet.v1.ConsumptionService.RecordNationalEntries:output_type -> halovet.v1.RecordNationalEntriesResponse
-	6,  // 22: halovet.v1.ConsumptionService.ListNationalEntries:output_type -> halovet.v1.ListNationalEntriesResponse
-	10, // 23: halovet.v1.ConsumptionService.GetConsumption:output_type -> halovet.v1.GetConsumptionResponse
-	14, // 24: halovet.v1.ConsumptionService.GetBaseline:output_type -> halovet.v1.GetBaselineResponse
-	18, // 25: halovet.v1.ConsumptionService.AssessCompliance:output_type -> halovet.v1.AssessComplianceResponse
-	21, // 26: halovet.v1.ConsumptionService.PlanQuotas:output_type -> halovet.v1.PlanQuotasResponse
-	21, // [21:27] is the sub-list for method output_type
-	15, // [15:21] is the sub-list for method input_type
-	15, // [15:15] is the sub-list for extension type_name
-	15, // [15:15] is the sub-list for extension extendee
-	0,  // [0:15] is the sub-list for field type_name
+	4,  // 1: halovet.v1.RecordNationalEntriesRequest.entries:type_name -> halovet.v1.NationalEntry
+	4,  // 2: halovet.v1.RecordNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
+	4,  // 3: halovet.v1.ListNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
+	9,  // 4: halovet.v1.GroupConsumption.substances:type_name -> halovet.v1.SubstanceConsumption
+	10, // 5: halovet.v1.GetConsumptionResponse.groups:type_name -> halovet.v1.GroupConsumption
+	35, // 6: halovet.v1.GetConsumptionResponse.hfc23_by_product:type_name -> halovet.v1.Hfc23Entry
+	13, // 7: halovet.v1.BaselinePart.years:type_name -> halovet.v1.BaselineYear
+	13, // 8: halovet.v1.BaselinePart.cfc_years:type_name -> halovet.v1.BaselineYear
+	13, // 9: halovet.v1.GetBaselineResponse.years:type_name -> halovet.v1.BaselineYear
+	13, // 10: halovet.v1.GetBaselineResponse.cfc_years:type_name -> halovet.v1.BaselineYear
+	14, // 11: halovet.v1.GetBaselineResponse.hcfc_baseline:type_name -> halovet.v1.BaselinePart
+	1,  // 12: halovet.v1.ComplianceYear.outcome:type_name -> halovet.v1.ComplianceOutcome
+	17, // 13: halovet.v1.ComplianceYear.period:type_name -> halovet.v1.PeriodAverage
+	19, // 14: halovet.v1.ComplianceYear.exemptions:type_name -> halovet.v1.AppliedExemption
+	2,  // 15: halovet.v1.AppliedExemption.use:type_name -> halovet.v1.ExemptedUse
+	2,  // 16: halovet.v1.AuthorisedExemption.use:type_name -> halovet.v1.ExemptedUse
+	20, // 17: halovet.v1.RecordExemptionsRequest.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	20, // 18: halovet.v1.RecordExemptionsResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	20, // 19: halovet.v1.ListExemptionsResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	3,  // 20: halovet.v1.OfficialFigure.kind:type_name -> halovet.v1.OfficialFigureKind
+	25, // 21: halovet.v1.RecordOfficialFiguresRequest.figures:type_name -> halovet.v1.OfficialFigure
+	25, // 22: halovet.v1.RecordOfficialFiguresResponse.figures:type_name -> halovet.v1.OfficialFigure
+	25, // 23: halovet.v1.ListOfficialFiguresResponse.figures:type_name -> halovet.v1.OfficialFigure
+	18, // 24: halovet.v1.AssessComplianceResponse.years:type_name -> halovet.v1.ComplianceYear
+	32, // 25: halovet.v1.PlanQuotasResponse.proposals:type_name -> halovet.v1.QuotaProposal
+	35, // 26: halovet.v1.RecordHfc23EntriesRequest.entries:type_name -> halovet.v1.Hfc23Entry
+	35, // 27: halovet.v1.RecordHfc23EntriesResponse.entries:type_name -> halovet.v1.Hfc23Entry
+	35, // 28: halovet.v1.ListHfc23EntriesResponse.entries:type_name -> halovet.v1.Hfc23Entry
+	42, // 29: halovet.v1.GetYearReportResponse.groups:type_name -> halovet.v1.YearGroupTotal
+	40, // 30: halovet.v1.GetYearReportResponse.imports:type_name -> halovet.v1.YearTradeLine
+	40, // 31: halovet.v1.GetYearReportResponse.exports:type_name -> halovet.v1.YearTradeLine
+	41, // 32: halovet.v1.GetYearReportResponse.production:type_name -> halovet.v1.YearQuantityLine
+	41, // 33: halovet.v1.GetYearReportResponse.destruction:type_name -> halovet.v1.YearQuantityLine
+	41, // 34: halovet.v1.GetYearReportResponse.feedstock:type_name -> halovet.v1.YearQuantityLine
+	41, // 35: halovet.v1.GetYearReportResponse.qps:type_name -> halovet.v1.YearQuantityLine
+	40, // 36: halovet.v1.GetYearReportResponse.imports_non_party:type_name -> halovet.v1.YearTradeLine
+	40, // 37: halovet.v1.GetYearReportResponse.exports_non_party:type_name -> halovet.v1.YearTradeLine
+	35, // 38: halovet.v1.GetYearReportResponse.hfc23:type_name -> halovet.v1.Hfc23Entry
+	20, // 39: halovet.v1.GetYearReportResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	45, // 40: halovet.v1.RecordPartnerExportsRequest.reports:type_name -> halovet.v1.PartnerExport
+	45, // 41: halovet.v1.RecordPartnerExportsResponse.reports:type_name -> halovet.v1.PartnerExport
+	49, // 42: halovet.v1.ReconcilePartnerExportsResponse.gaps:type_name -> halovet.v1.PartnerGap
+	5,  // 43: halovet.v1.ConsumptionService.RecordNationalEntries:input_type -> halovet.v1.RecordNationalEntriesRequest
+	7,  // 44: halovet.v1.ConsumptionService.ListNationalEntries:input_type -> halovet.v1.ListNationalEntriesRequest
+	11, // 45: halovet.v1.ConsumptionService.GetConsumption:input_type -> halovet.v1.GetConsumptionRequest
+	15, // 46: halovet.v1.ConsumptionService.GetBaseline:input_type -> halovet.v1.GetBaselineRequest
+	30, // 47: halovet.v1.ConsumptionService.AssessCompliance:input_type -> halovet.v1.AssessComplianceRequest
+	21, // 48: halovet.v1.ConsumptionService.RecordExemptions:input_type -> halovet.v1.RecordExemptionsRequest
+	23, // 49: halovet.v1.ConsumptionService.ListExemptions:input_type -> halovet.v1.ListExemptionsRequest
+	26, // 50: halovet.v1.ConsumptionService.RecordOfficialFigures:input_type -> halovet.v1.RecordOfficialFiguresRequest
+	28, // 51: halovet.v1.ConsumptionService.ListOfficialFigures:input_type -> halovet.v1.ListOfficialFiguresRequest
+	36, // 52: halovet.v1.ConsumptionService.RecordHfc23Entries:input_type -> halovet.v1.RecordHfc23EntriesRequest
+	38, // 53: halovet.v1.ConsumptionService.ListHfc23Entries:input_type -> halovet.v1.ListHfc23EntriesRequest
+	43, // 54: halovet.v1.ConsumptionService.GetYearReport:input_type -> halovet.v1.GetYearReportRequest
+	46, // 55: halovet.v1.ConsumptionService.RecordPartnerExports:input_type -> halovet.v1.RecordPartnerExportsRequest
+	48, // 56: halovet.v1.ConsumptionService.ReconcilePartnerExports:input_type -> halovet.v1.ReconcilePartnerExportsRequest
+	33, // 57: halovet.v1.ConsumptionService.PlanQuotas:input_type -> halovet.v1.PlanQuotasRequest
+	6,  // 58: halovet.v1.ConsumptionService.RecordNationalEntries:output_type -> halovet.v1.RecordNationalEntriesResponse
+	8,  // 59: halovet.v1.ConsumptionService.ListNationalEntries:output_type -> halovet.v1.ListNationalEntriesResponse
+	12, // 60: halovet.v1.ConsumptionService.GetConsumption:output_type -> halovet.v1.GetConsumptionResponse
+	16, // 61: halovet.v1.ConsumptionService.GetBaseline:output_type -> halovet.v1.GetBaselineResponse
+	31, // 62: halovet.v1.ConsumptionService.AssessCompliance:output_type -> halovet.v1.AssessComplianceResponse
+	22, // 63: halovet.v1.ConsumptionService.RecordExemptions:output_type -> halovet.v1.RecordExemptionsResponse
+	24, // 64: halovet.v1.ConsumptionService.ListExemptions:output_type -> halovet.v1.ListExemptionsResponse
+	27, // 65: halovet.v1.ConsumptionService.RecordOfficialFigures:output_type -> halovet.v1.RecordOfficialFiguresResponse
+	29, // 66: halovet.v1.ConsumptionService.ListOfficialFigures:output_type -> halovet.v1.ListOfficialFiguresResponse
+	37, // 67: halovet.v1.ConsumptionService.RecordHfc23Entries:output_type -> halovet.v1.RecordHfc23EntriesResponse
+	39, // 68: halovet.v1.ConsumptionService.ListHfc23Entries:output_type -> halovet.v1.ListHfc23EntriesResponse
+	44, // 69: halovet.v1.ConsumptionService.GetYearReport:output_type -> halovet.v1.GetYearReportResponse
+	47, // 70: halovet.v1.ConsumptionService.RecordPartnerExports:output_type -> halovet.v1.RecordPartnerExportsResponse
+	50, // 71: halovet.v1.ConsumptionService.ReconcilePartnerExports:output_type -> halovet.v1.ReconcilePartnerExportsResponse
+	34, // 72: halovet.v1.ConsumptionService.PlanQuotas:output_type -> halovet.v1.PlanQuotasResponse
+	58, // [58:73] is the sub-list for method output_type
+	43, // [43:58] is the sub-list for method input_type
+	43, // [43:43] is the sub-list for extension type_name
+	43, // [43:43] is the sub-list for extension extendee
+	0,  // [0:43] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_consumption_proto_init() }
@@ -2224,8 +4769,8 @@ func file_halovet_v1_consumption_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_consumption_proto_rawDesc), len(file_halovet_v1_consumption_proto_rawDesc)),
-			NumEnums:      2,
-			NumMessages:   20,
+			NumEnums:      4,
+			NumMessages:   47,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

@@ -19,12 +19,21 @@ import (
 const _ = grpc.SupportPackageIsVersion9
 
 const (
-	ConsumptionService_RecordNationalEntries_FullMethodName = "/halovet.v1.ConsumptionService/RecordNationalEntries"
-	ConsumptionService_ListNationalEntries_FullMethodName   = "/halovet.v1.ConsumptionService/ListNationalEntries"
-	ConsumptionService_GetConsumption_FullMethodName        = "/halovet.v1.ConsumptionService/GetConsumption"
-	ConsumptionService_GetBaseline_FullMethodName           = "/halovet.v1.ConsumptionService/GetBaseline"
-	ConsumptionService_AssessCompliance_FullMethodName      = "/halovet.v1.ConsumptionService/AssessCompliance"
-	ConsumptionService_PlanQuotas_FullMethodName            = "/halovet.v1.ConsumptionService/PlanQuotas"
+	ConsumptionService_RecordNationalEntries_FullMethodName   = "/halovet.v1.ConsumptionService/RecordNationalEntries"
+	ConsumptionService_ListNationalEntries_FullMethodName     = "/halovet.v1.ConsumptionService/ListNationalEntries"
+	ConsumptionService_GetConsumption_FullMethodName          = "/halovet.v1.ConsumptionService/GetConsumption"
+	ConsumptionService_GetBaseline_FullMethodName             = "/halovet.v1.ConsumptionService/GetBaseline"
+	ConsumptionService_AssessCompliance_FullMethodName        = "/halovet.v1.ConsumptionService/AssessCompliance"
+	ConsumptionService_RecordExemptions_FullMethodName        = "/halovet.v1.ConsumptionService/RecordExemptions"
+	ConsumptionService_ListExemptions_FullMethodName          = "/halovet.v1.ConsumptionService/ListExemptions"
+	ConsumptionService_RecordOfficialFigures_FullMethodName   = "/halovet.v1.ConsumptionService/RecordOfficialFigures"
+	ConsumptionService_ListOfficialFigures_FullMethodName     = "/halovet.v1.ConsumptionService/ListOfficialFigures"
+	ConsumptionService_RecordHfc23Entries_FullMethodName      = "/halovet.v1.ConsumptionService/RecordHfc23Entries"
+	ConsumptionService_ListHfc23Entries_FullMethodName        = "/halovet.v1.ConsumptionService/ListHfc23Entries"
+	ConsumptionService_GetYearReport_FullMethodName           = "/halovet.v1.ConsumptionService/GetYearReport"
+	ConsumptionService_RecordPartnerExports_FullMethodName    = "/halovet.v1.ConsumptionService/RecordPartnerExports"
+	ConsumptionService_ReconcilePartnerExports_FullMethodName = "/halovet.v1.ConsumptionService/ReconcilePartnerExports"
+	ConsumptionService_PlanQuotas_FullMethodName              = "/halovet.v1.ConsumptionService/PlanQuotas"
 )
 
 // ConsumptionServiceClient is the client API for ConsumptionService service.
@@ -48,6 +57,38 @@ type ConsumptionServiceClient interface {
 	// AssessCompliance compares consumption with the allowed level over a range
 	// of years.
 	AssessCompliance(ctx context.Context, in *AssessComplianceRequest, opts ...grpc.CallOption) (*AssessComplianceResponse, error)
+	// RecordExemptions stores authorised exemptions (essential, critical,
+	// laboratory, high-ambient-temperature uses) per Party and year, each with
+	// the decision that authorises it. Compliance is judged against the limit
+	// plus the exemptions. Exemptions with an existing exemption_key are replaced.
+	RecordExemptions(ctx context.Context, in *RecordExemptionsRequest, opts ...grpc.CallOption) (*RecordExemptionsResponse, error)
+	// ListExemptions returns stored exemptions of one year, or all.
+	ListExemptions(ctx context.Context, in *ListExemptionsRequest, opts ...grpc.CallOption) (*ListExemptionsResponse, error)
+	// RecordOfficialFigures stores baselines and limits as officially set; they
+	// take precedence over computed ones, and compliance reports both.
+	RecordOfficialFigures(ctx context.Context, in *RecordOfficialFiguresRequest, opts ...grpc.CallOption) (*RecordOfficialFiguresResponse, error)
+	// ListOfficialFigures returns every stored official figure.
+	ListOfficialFigures(ctx context.Context, in *ListOfficialFiguresRequest, opts ...grpc.CallOption) (*ListOfficialFiguresResponse, error)
+	// RecordHfc23Entries stores HFC-23 by-product figures per facility and year
+	// (generation, capture for use, destruction, emission). They are reported
+	// beside Annex F consumption and never lower it. Entries with an existing
+	// entry_key are replaced.
+	RecordHfc23Entries(ctx context.Context, in *RecordHfc23EntriesRequest, opts ...grpc.CallOption) (*RecordHfc23EntriesResponse, error)
+	// ListHfc23Entries returns the facility entries of one year, or all.
+	ListHfc23Entries(ctx context.Context, in *ListHfc23EntriesRequest, opts ...grpc.CallOption) (*ListHfc23EntriesResponse, error)
+	// GetYearReport computes the reporting Party's annual data report for a year
+	// from the register: imports by exporting country and exports by destination
+	// (new and recovered apart, with the feedstock, QPS and exempted-use parts),
+	// production, destruction, trade with non-Parties, HFC-23 by-product, and the
+	// totals per Annex group; every figure lists the records behind it.
+	GetYearReport(ctx context.Context, in *GetYearReportRequest, opts ...grpc.CallOption) (*GetYearReportResponse, error)
+	// RecordPartnerExports stores what trading partners report as their exports
+	// to the reporting Party. Reports with an existing report_key are replaced.
+	RecordPartnerExports(ctx context.Context, in *RecordPartnerExportsRequest, opts ...grpc.CallOption) (*RecordPartnerExportsResponse, error)
+	// ReconcilePartnerExports compares partners' reported exports with the
+	// recorded imports of a year and lists the gaps beyond a tolerance per
+	// partner and substance, with the records on our side.
+	ReconcilePartnerExports(ctx context.Context, in *ReconcilePartnerExportsRequest, opts ...grpc.CallOption) (*ReconcilePartnerExportsResponse, error)
 	// PlanQuotas proposes next year's quotas per company by the largest-remainder
 	// method, optionally issuing them as draft licences.
 	PlanQuotas(ctx context.Context, in *PlanQuotasRequest, opts ...grpc.CallOption) (*PlanQuotasResponse, error)
@@ -111,6 +152,96 @@ func (c *consumptionServiceClient) AssessCompliance(ctx context.Context, in *Ass
 	return out, nil
 }
 
+func (c *consumptionServiceClient) RecordExemptions(ctx context.Context, in *RecordExemptionsRequest, opts ...grpc.CallOption) (*RecordExemptionsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordExemptionsResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_RecordExemptions_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) ListExemptions(ctx context.Context, in *ListExemptionsRequest, opts ...grpc.CallOption) (*ListExemptionsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListExemptionsResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_ListExemptions_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) RecordOfficialFigures(ctx context.Context, in *RecordOfficialFiguresRequest, opts ...grpc.CallOption) (*RecordOfficialFiguresResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordOfficialFiguresResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_RecordOfficialFigures_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) ListOfficialFigures(ctx context.Context, in *ListOfficialFiguresRequest, opts ...grpc.CallOption) (*ListOfficialFiguresResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListOfficialFiguresResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_ListOfficialFigures_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) RecordHfc23Entries(ctx context.Context, in *RecordHfc23EntriesRequest, opts ...grpc.CallOption) (*RecordHfc23EntriesResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordHfc23EntriesResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_RecordHfc23Entries_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) ListHfc23Entries(ctx context.Context, in *ListHfc23EntriesRequest, opts ...grpc.CallOption) (*ListHfc23EntriesResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListHfc23EntriesResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_ListHfc23Entries_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) GetYearReport(ctx context.Context, in *GetYearReportRequest, opts ...grpc.CallOption) (*GetYearReportResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(GetYearReportResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_GetYearReport_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) RecordPartnerExports(ctx context.Context, in *RecordPartnerExportsRequest, opts ...grpc.CallOption) (*RecordPartnerExportsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RecordPartnerExportsResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_RecordPartnerExports_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *consumptionServiceClient) ReconcilePartnerExports(ctx context.Context, in *ReconcilePartnerExportsRequest, opts ...grpc.CallOption) (*ReconcilePartnerExportsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ReconcilePartnerExportsResponse)
+	err := c.cc.Invoke(ctx, ConsumptionService_ReconcilePartnerExports_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 func (c *consumptionServiceClient) PlanQuotas(ctx context.Context, in *PlanQuotasRequest, opts ...grpc.CallOption) (*PlanQuotasResponse, error) {
 	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
 	out := new(PlanQuotasResponse)
@@ -142,6 +273,38 @@ type ConsumptionServiceServer interface {
 	// AssessCompliance compares consumption with the allowed level over a range
 	// of years.
 	AssessCompliance(context.Context, *AssessComplianceRequest) (*AssessComplianceResponse, error)
+	// RecordExemptions stores authorised exemptions (essential, critical,
+	// laboratory, high-ambient-temperature uses) per Party and year, each with
+	// the decision that authorises it. Compliance is judged against the limit
+	// plus the exemptions. Exemptions with an existing exemption_key are replaced.
+	RecordExemptions(context.Context, *RecordExemptionsRequest) (*RecordExemptionsResponse, error)
+	// ListExemptions returns stored exemptions of one year, or all.
+	ListExemptions(context.Context, *ListExemptionsRequest) (*ListExemptionsResponse, error)
+	// RecordOfficialFigures stores baselines and limits as officially set; they
+	// take precedence over computed ones, and compliance reports both.
+	RecordOfficialFigures(context.Context, *RecordOfficialFiguresRequest) (*RecordOfficialFiguresResponse, error)
+	// ListOfficialFigures returns every stored official figure.
+	ListOfficialFigures(context.Context, *ListOfficialFiguresRequest) (*ListOfficialFiguresResponse, error)
+	// RecordHfc23Entries stores HFC-23 by-product figures per facility and year
+	// (generation, capture for use, destruction, emission). They are reported
+	// beside Annex F consumption and never lower it. Entries with an existing
+	// entry_key are replaced.
+	RecordHfc23Entries(context.Context, *RecordHfc23EntriesRequest) (*RecordHfc23EntriesResponse, error)
+	// ListHfc23Entries returns the facility entries of one year, or all.
+	ListHfc23Entries(context.Context, *ListHfc23EntriesRequest) (*ListHfc23EntriesResponse, error)
+	// GetYearReport computes the reporting Party's annual data report for a year
+	// from the register: imports by exporting country and exports by destination
+	// (new and recovered apart, with the feedstock, QPS and exempted-use parts),
+	// production, destruction, trade with non-Parties, HFC-23 by-product, and the
+	// totals per Annex group; every figure lists the records behind it.
+	GetYearReport(context.Context, *GetYearReportRequest) (*GetYearReportResponse, error)
+	// RecordPartnerExports stores what trading partners report as their exports
+	// to the reporting Party. Reports with an existing report_key are replaced.
+	RecordPartnerExports(context.Context, *RecordPartnerExportsRequest) (*RecordPartnerExportsResponse, error)
+	// ReconcilePartnerExports compares partners' reported exports with the
+	// recorded imports of a year and lists the gaps beyond a tolerance per
+	// partner and substance, with the records on our side.
+	ReconcilePartnerExports(context.Context, *ReconcilePartnerExportsRequest) (*ReconcilePartnerExportsResponse, error)
 	// PlanQuotas proposes next year's quotas per company by the largest-remainder
 	// method, optionally issuing them as draft licences.
 	PlanQuotas(context.Context, *PlanQuotasRequest) (*PlanQuotasResponse, error)
@@ -169,6 +332,33 @@ func (UnimplementedConsumptionServiceServer) GetBaseline(context.Context, *GetBa
 }
 func (UnimplementedConsumptionServiceServer) AssessCompliance(context.Context, *AssessComplianceRequest) (*AssessComplianceResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method AssessCompliance not implemented")
+}
+func (UnimplementedConsumptionServiceServer) RecordExemptions(context.Context, *RecordExemptionsRequest) (*RecordExemptionsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordExemptions not implemented")
+}
+func (UnimplementedConsumptionServiceServer) ListExemptions(context.Context, *ListExemptionsRequest) (*ListExemptionsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListExemptions not implemented")
+}
+func (UnimplementedConsumptionServiceServer) RecordOfficialFigures(context.Context, *RecordOfficialFiguresRequest) (*RecordOfficialFiguresResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordOfficialFigures not implemented")
+}
+func (UnimplementedConsumptionServiceServer) ListOfficialFigures(context.Context, *ListOfficialFiguresRequest) (*ListOfficialFiguresResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListOfficialFigures not implemented")
+}
+func (UnimplementedConsumptionServiceServer) RecordHfc23Entries(context.Context, *RecordHfc23EntriesRequest) (*RecordHfc23EntriesResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordHfc23Entries not implemented")
+}
+func (UnimplementedConsumptionServiceServer) ListHfc23Entries(context.Context, *ListHfc23EntriesRequest) (*ListHfc23EntriesResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListHfc23Entries not implemented")
+}
+func (UnimplementedConsumptionServiceServer) GetYearReport(context.Context, *GetYearReportRequest) (*GetYearReportResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method GetYearReport not implemented")
+}
+func (UnimplementedConsumptionServiceServer) RecordPartnerExports(context.Context, *RecordPartnerExportsRequest) (*RecordPartnerExportsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RecordPartnerExports not implemented")
+}
+func (UnimplementedConsumptionServiceServer) ReconcilePartnerExports(context.Context, *ReconcilePartnerExportsRequest) (*ReconcilePartnerExportsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ReconcilePartnerExports not implemented")
 }
 func (UnimplementedConsumptionServiceServer) PlanQuotas(context.Context, *PlanQuotasRequest) (*PlanQuotasResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method PlanQuotas not implemented")
@@ -284,6 +474,168 @@ func _ConsumptionService_AssessCompliance_Handler(srv interface{}, ctx context.C
 	return interceptor(ctx, in, info, handler)
 }
 
+func _ConsumptionService_RecordExemptions_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordExemptionsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).RecordExemptions(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_RecordExemptions_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).RecordExemptions(ctx, req.(*RecordExemptionsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_ListExemptions_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListExemptionsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).ListExemptions(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_ListExemptions_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).ListExemptions(ctx, req.(*ListExemptionsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_RecordOfficialFigures_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordOfficialFiguresRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).RecordOfficialFigures(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_RecordOfficialFigures_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).RecordOfficialFigures(ctx, req.(*RecordOfficialFiguresRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_ListOfficialFigures_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListOfficialFiguresRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).ListOfficialFigures(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_ListOfficialFigures_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).ListOfficialFigures(ctx, req.(*ListOfficialFiguresRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_RecordHfc23Entries_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordHfc23EntriesRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).RecordHfc23Entries(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_RecordHfc23Entries_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).RecordHfc23Entries(ctx, req.(*RecordHfc23EntriesRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_ListHfc23Entries_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListHfc23EntriesRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).ListHfc23Entries(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_ListHfc23Entries_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).ListHfc23Entries(ctx, req.(*ListHfc23EntriesRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_GetYearReport_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(GetYearReportRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).GetYearReport(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_GetYearReport_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).GetYearReport(ctx, req.(*GetYearReportRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_RecordPartnerExports_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RecordPartnerExportsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).RecordPartnerExports(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_RecordPartnerExports_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).RecordPartnerExports(ctx, req.(*RecordPartnerExportsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ConsumptionService_ReconcilePartnerExports_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ReconcilePartnerExportsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ConsumptionServiceServer).ReconcilePartnerExports(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ConsumptionService_ReconcilePartnerExports_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ConsumptionServiceServer).ReconcilePartnerExports(ctx, req.(*ReconcilePartnerExportsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 func _ConsumptionService_PlanQuotas_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
 	in := new(PlanQuotasRequest)
 	if err := dec(in); err != nil {
@@ -328,6 +680,42 @@ var ConsumptionService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "AssessCompliance",
 			Handler:    _ConsumptionService_AssessCompliance_Handler,
+		},
+		{
+			MethodName: "RecordExemptions",
+			Handler:    _ConsumptionService_RecordExemptions_Handler,
+		},
+		{
+			MethodName: "ListExemptions",
+			Handler:    _ConsumptionService_ListExemptions_Handler,
+		},
+		{
+			MethodName: "RecordOfficialFigures",
+			Handler:    _ConsumptionService_RecordOfficialFigures_Handler,
+		},
+		{
+			MethodName: "ListOfficialFigures",
+			Handler:    _ConsumptionService_ListOfficialFigures_Handler,
+		},
+		{
+			MethodName: "RecordHfc23Entries",
+			Handler:    _ConsumptionService_RecordHfc23Entries_Handler,
+		},
+		{
+			MethodName: "ListHfc23Entries",
+			Handler:    _ConsumptionService_ListHfc23Entries_Handler,
+		},
+		{
+			MethodName: "GetYearReport",
+			Handler:    _ConsumptionService_GetYearReport_Handler,
+		},
+		{
+			MethodName: "RecordPartnerExports",
+			Handler:    _ConsumptionService_RecordPartnerExports_Handler,
+		},
+		{
+			MethodName: "ReconcilePartnerExports",
+			Handler:    _ConsumptionService_ReconcilePartnerExports_Handler,
 		},
 		{
 			MethodName: "PlanQuotas",
