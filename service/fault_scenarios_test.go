@@ -226,6 +226,10 @@ func (r *faultRig) recount(what string) {
 	if len(rep.Breaches) > 0 {
 		t.Fatalf("%s: invariant breaches %v", what, rep.Breaches)
 	}
+	chain, err := r.st.VerifyAuditChain(ctx)
+	if err != nil || len(chain.Broken) > 0 || chain.Events == 0 {
+		t.Fatalf("%s: audit chain: %d events, broken %v, %v", what, chain.Events, chain.Broken, err)
+	}
 }
 
 // faultKinds are the faults a round may inject.

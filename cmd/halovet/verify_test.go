@@ -26,7 +26,8 @@ func TestVerify(t *testing.T) {
 		return code, stdout + stderr
 	}
 	code, out := verify()
-	if code != exitOK || !strings.Contains(out, "every invariant holds") || strings.Contains(out, "checked 0 quota lines") || strings.Contains(out, "and 0 draws") {
+	if code != exitOK || !strings.Contains(out, "every invariant holds") || strings.Contains(out, "checked 0 quota lines") || strings.Contains(out, "and 0 draws") ||
+		!strings.Contains(out, " audit events (chain head at ") || strings.Contains(out, "checked 0 audit events") {
 		t.Fatalf("verify after recording the demo: exit %d\n%s", code, out)
 	}
 
@@ -55,5 +56,19 @@ func TestVerify(t *testing.T) {
 	code, out = verify()
 	if code != exitRejected || !strings.Contains(out, "BREACH draw-matches-figures: shipment ") || strings.Contains(out, "drawn-equals-draws") {
 		t.Fatalf("verify with one draw doubled: exit %d\n%s", code, out)
+	}
+
+	// An audit event altered behind the server's back (its append-only trigger switched off
+	// as the superuser could): the chain check names it.
+	for _, sql := range []string{`ALTER TABLE audit_log DISABLE TRIGGER audit_log_no_update`,
+		`UPDATE audit_log SET reason = 'altered' WHERE chain_seq = (SELECT min(chain_seq) FROM audit_log)`,
+		`ALTER TABLE audit_log ENABLE TRIGGER audit_log_no_update`} {
+		if _, err := pool.Exec(t.Context(), sql); err != nil {
+			t.Fatalf("%s: %v", sql, err)
+		}
+	}
+	code, out = verify()
+	if code != exitRejected || !strings.Contains(out, "BREACH audit-chain: event ") {
+		t.Fatalf("verify with an altered audit event: exit %d\n%s", code, out)
 	}
 }
