@@ -252,6 +252,13 @@ var violationIndex = regexp.MustCompile(`^entries\[(\d+)\]\.?(.*)$`)
 
 // lineViolations rewrites a refused call's field violations with the file's line numbers.
 func lineViolations(err error, lines []int) error {
+	return fileLineViolations(err, lines, violationIndex, "the server refused the entries; nothing of this part was stored")
+}
+
+// fileLineViolations rewrites the field violations of a refused call that carried a file's
+// rows as a repeated field (index matches "FIELD[i].rest") with the file's line numbers,
+// under the heading what; other errors pass unchanged.
+func fileLineViolations(err error, lines []int, index *regexp.Regexp, what string) error {
 	st, ok := status.FromError(err)
 	if !ok || st.Code() != codes.InvalidArgument {
 		return err
@@ -263,7 +270,7 @@ func lineViolations(err error, lines []int) error {
 			continue
 		}
 		for _, v := range br.GetFieldViolations() {
-			m := violationIndex.FindStringSubmatch(v.GetField())
+			m := index.FindStringSubmatch(v.GetField())
 			if m == nil {
 				msgs = append(msgs, v.GetField()+": "+v.GetDescription())
 				continue
@@ -279,7 +286,7 @@ func lineViolations(err error, lines []int) error {
 	if len(msgs) == 0 {
 		return err
 	}
-	return &exitError{code: 2, err: fmt.Errorf("the server refused the entries; nothing of this part was stored:\n  %s", strings.Join(msgs, "\n  "))}
+	return &exitError{code: 2, err: fmt.Errorf("%s:\n  %s", what, strings.Join(msgs, "\n  "))}
 }
 
 func defineEntries(fs *pflag.FlagSet) runFunc {

@@ -12,9 +12,6 @@ import (
 	"strings"
 
 	"github.com/spf13/pflag"
-	"google.golang.org/genproto/googleapis/rpc/errdetails"
-	"google.golang.org/grpc/codes"
-	"google.golang.org/grpc/status"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
@@ -128,34 +125,7 @@ var reportViolation = regexp.MustCompile(`^reports\[(\d+)\]\.?(.*)$`)
 
 // partnerLineErrors rewrites the server's field violations with the file's line numbers.
 func partnerLineErrors(err error, lines []int) error {
-	st, ok := status.FromError(err)
-	if !ok || st.Code() != codes.InvalidArgument {
-		return err
-	}
-	var msgs []string
-	for _, d := range st.Details() {
-		br, ok := d.(*errdetails.BadRequest)
-		if !ok {
-			continue
-		}
-		for _, v := range br.GetFieldViolations() {
-			m := reportViolation.FindStringSubmatch(v.GetField())
-			if m == nil {
-				msgs = append(msgs, v.GetField()+": "+v.GetDescription())
-				continue
-			}
-			i, _ := strconv.Atoi(m[1])
-			line := 0
-			if i < len(lines) {
-				line = lines[i]
-			}
-			msgs = append(msgs, fmt.Sprintf("line %d: %s: %s", line, m[2], v.GetDescription()))
-		}
-	}
-	if len(msgs) == 0 {
-		return err
-	}
-	return &exitError{code: 2, err: fmt.Errorf("the server refused the file; nothing was stored:\n  %s", strings.Join(msgs, "\n  "))}
+	return fileLineViolations(err, lines, reportViolation, "the server refused the file; nothing was stored")
 }
 
 func definePartners(fs *pflag.FlagSet) runFunc {
