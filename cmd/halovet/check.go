@@ -20,6 +20,8 @@ import (
 
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
@@ -318,6 +320,7 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		rejected.max = maxRejectedShown
 	}
 	var recvErr error
+	var stored int64               // records this run stored (replays not counted)
 	var queue []*halovetv1.Verdict // answers received and not yet matched to items
 	for it := range items {
 		v := it.local
@@ -339,6 +342,9 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 			if recvErr != nil {
 				cancel()
 				break
+			}
+			if queue[0].GetRecorded() && !queue[0].GetReplayed() {
+				stored++
 			}
 			cv := service.VerdictFromProto(queue[0])
 			queue = queue[1:]
@@ -375,6 +381,21 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	if rep != nil {
 		if err := rep.Close(); err != nil && recvErr == nil {
 			recvErr = err
+		}
+	}
+	if o.record && (sendErr != nil || recvErr != nil) && sent.Load() > 0 {
+		err := recvErr
+		if err == nil {
+			err = sendErr
+		}
+		c := status.Code(unwrapAll(err))
+		// Nothing answered and the server gone or silent: unreachable (exit 3), as before.
+		silent := done.Load() == 0 && (c == codes.Unavailable || c == codes.DeadlineExceeded)
+		if (c != codes.Unknown || errors.Is(err, errServerEnded)) && !silent {
+			return nil, &exitError{code: exitInterrupted, err: fmt.Errorf(
+				"recording stopped part-way: %d of %d records sent were answered, %d of them newly stored, before %w; "+
+					"sending the whole file again is safe: stored records are answered as replays and draw no quota twice",
+				done.Load(), sent.Load(), stored, err)}
 		}
 	}
 	if sendErr != nil {

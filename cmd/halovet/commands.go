@@ -75,7 +75,10 @@ const exitCodeHelp = `Exit codes (every verb):
      'halovet serve' or set --server), or serve, migrate and demo could not
      reach their database
   4  failure: the server refused the call for another reason (permission) or
-     failed; the message says which`
+     failed; the message says which
+  5  interrupted: check --record stopped part-way (the server refused a later
+     message, or failed after answering some records); the message says how many
+     were stored, and sending the whole file again is safe`
 
 const rootLong = `halovet checks and reports the trade in ozone-depleting substances and HFCs.
 

@@ -30,6 +30,7 @@ const (
 	exitUsage       = 2
 	exitUnreachable = 3
 	exitFailure     = 4
+	exitInterrupted = 5
 )
 
 var rpcErrorText = regexp.MustCompile(`rpc error: code = (\w+) desc = `)

@@ -26,8 +26,9 @@ type testServer struct {
 // startTestServer runs the real server on a free loopback port against a fresh migrated
 // database holding the seed catalogue, and returns it with a client connection. now, when
 // not nil, is the server's clock (nil means time.Now). Everything is torn down when the
-// test ends; Serve must return nil within 15 s of the shutdown.
-func startTestServer(t *testing.T, now func() time.Time) *testServer {
+// test ends; Serve must return nil within 15 s of the shutdown. tune, if given, changes the
+// server's options before it starts.
+func startTestServer(t *testing.T, now func() time.Time, tune ...func(*service.Options)) *testServer {
 	t.Helper()
 	url := pgtest.NewDatabase(t, "halovet_cmd", migrateForTest)
 	ctx := context.Background()
@@ -41,7 +42,11 @@ func startTestServer(t *testing.T, now func() time.Time) *testServer {
 	if err != nil {
 		t.Fatalf("load the seed catalogue: %v", err)
 	}
-	srv := service.New(st, cat, service.Options{Logger: log, GracePeriod: 5 * time.Second, Now: now, OpenAccess: true})
+	opts := service.Options{Logger: log, GracePeriod: 5 * time.Second, Now: now, OpenAccess: true}
+	for _, f := range tune {
+		f(&opts)
+	}
+	srv := service.New(st, cat, opts)
 	lis, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		t.Fatalf("listen on loopback: %v", err)
