@@ -130,10 +130,21 @@ func (b *browser) mustShow(subs ...string) {
 	}
 }
 
-// shot checks the page's accessibility and photographs it as docs/console/NAME.png.
+// maskJS puts placeholders in the place of what differs from run to run: the times the
+// server stamps (elements time.stamp) and the credential ids it draws at random
+// (elements .cred), so that the screenshots stay the same bytes when the pages do.
+const maskJS = `(() => {
+  document.querySelectorAll('time.stamp').forEach(e => { e.textContent = 'YYYY-MM-DD hh:mm:ss'; });
+  document.querySelectorAll('.cred').forEach(e => { e.textContent = 'credential id'; });
+  return true;
+})()`
+
+// shot checks the page's accessibility and photographs it as docs/console/NAME.png, its
+// run-dependent times and ids masked (maskJS).
 func (b *browser) shot(name, about string) {
 	b.t.Helper()
 	b.checkAccessible(name)
+	eval[bool](b, maskJS)
 	png, err := chromedp.Run(b.ctx, chromedp.CaptureScreenshot())
 	if err != nil {
 		b.t.Fatalf("screenshot %s: %v", name, err)
@@ -298,6 +309,19 @@ func TestBrowserWalk(t *testing.T) {
 	}
 	b.shot("13-licence-after", "The licence after recording: drawn and remaining moved")
 
+	// The recorded shipments: the search, one shipment, and its void.
+	b.open("/console/shipments?company=XA-1002&licence=XA-IMP-2026-002")
+	b.mustShow("recorded shipments on this page", "CHC-26-0001")
+	b.shot("13b-shipments", "Recorded shipments searched by company and licence")
+	b.do("open a shipment", chromedp.Click(chromedp.CSS(`table.shipments tbody a`)))
+	b.waitFor("shipment page", `!!document.querySelector('#verdict-outcome')`, 10*time.Second)
+	b.mustShow("Verdict as recorded", "Quota draws", "Void the shipment")
+	b.shot("13c-shipment", "One recorded shipment: the verdict it was recorded with and its quota draws")
+	b.do("void it", chromedp.SendKeys(chromedp.CSS("#void-reason"), "declared twice (invented)"), chromedp.Click(chromedp.CSS(`form.void button`)))
+	b.waitFor("voided", `document.querySelector('#shipment-state') && document.querySelector('#shipment-state').innerText === 'voided'`, 10*time.Second)
+	b.mustShow("declared twice (invented)", "given back")
+	b.shot("13d-shipment-voided", "The shipment voided: its draws given back")
+
 	// The year, on screen and in print.
 	b.open("/console/year?group=C/I&from=2022&to=2026")
 	b.waitFor("chart loaded", `document.querySelector('figure.chart img').complete && document.querySelector('figure.chart img').naturalWidth > 0`, 10*time.Second)
@@ -350,6 +374,12 @@ func TestBrowserWalk(t *testing.T) {
 		t.Errorf("the trader sees another company's licence")
 	}
 	b.shot("18-trader-licences", "A trader sees its own company's licences only")
+	b.open("/console/shipments")
+	b.mustShow("your credential reaches XA-1002 only", "CHC-26-0001")
+	if body := b.body(); strings.Contains(body, "XA-1001") && strings.Contains(body, "FRL-26-0001") {
+		t.Errorf("the trader sees another company's shipments")
+	}
+	b.shot("18b-trader-shipments", "A trader's shipment search: its own company's only, as the server answers")
 	b.signOut()
 
 	// A page outside the role.

@@ -142,6 +142,9 @@ func (c *Console) pageTable() []page {
 		{"GET /console/batches/{id}", rpcCheckBatch, false, c.batchPage},
 		{"GET /console/batches/{id}/report.csv", rpcCheckBatch, false, c.batchReport},
 		{"POST /console/batches/{id}/record", rpcRecordBatch, true, c.batchRecord},
+		{"GET /console/shipments", rpcListShipments, false, c.shipments},
+		{"GET /console/shipments/{id}", rpcGetShipment, false, c.shipment},
+		{"POST /console/shipments/{id}/void", rpcVoidShipment, true, c.voidShipment},
 		{"GET /console/year", rpcAssess, false, c.year},
 		{"GET /console/year/chart.svg", rpcAssess, false, c.yearChartSVG},
 		{"GET /console/year/chart.png", rpcAssess, false, c.yearChartPNG},
@@ -322,6 +325,7 @@ func (c *Console) nav(s *session, path string) []navItem {
 		{"/console/catalogue", "Catalogue", rpcResolve},
 		{"/console/licences", "Licences", rpcListLicences},
 		{"/console/batches", "Batches", rpcCheckBatch},
+		{"/console/shipments", "Shipments", rpcListShipments},
 		{"/console/year", "The year", rpcAssess},
 		{"/console/audit", "Audit log", rpcAuditList},
 	}
@@ -388,6 +392,11 @@ func (c *Console) parseTemplates() error {
 		"pathesc":         url.PathEscape,
 		"componentAt":     componentAt,
 		"complianceClass": outcomeClass,
+		"shipState":       shipmentStateWord,
+		"verdict":         verdictWord,
+		"severity":        severityWord,
+		"stamp":           stamp,
+		"dir":             func(d halovetv1.Direction) string { return directionWords([]halovetv1.Direction{d}) },
 	}
 	base, err := template.New("layout").Funcs(funcs).ParseFS(templateFS, "templates/layout.html")
 	if err != nil {

@@ -80,6 +80,7 @@ func (c *Console) home(w http.ResponseWriter, r *http.Request, rq *request) {
 		{"/console/catalogue", "Catalogue", "Find a substance or blend: ODP, GWPs, Annex group, identifiers, HS codes, safety class and cautions.", rpcResolve},
 		{"/console/licences", "Licence register", "Licences and their quota lines: allocated, drawn, remaining and the share used.", rpcListLicences},
 		{"/console/batches", "Shipment batches", "Upload a CSV or JSON Lines file of shipment records, see each verdict, download the report and record the batch.", rpcCheckBatch},
+		{"/console/shipments", "Recorded shipments", "Search the recorded shipments, open one with the verdict it was recorded with, its quota draws and versions, and void it where your role may.", rpcListShipments},
 		{"/console/year", "The year", "Consumption, the baseline and compliance with the control schedule, with the chart.", rpcAssess},
 	}
 	var d homeData
