@@ -282,6 +282,10 @@ func TestBrowserWalk(t *testing.T) {
 	b.open("/console/licences/XA-IMP-2026-002")
 	before := b.text("table.quota tbody")
 	b.shot("08-licence-before", "A licence before the batch is recorded")
+	b.open("/console/licences/XA-IMP-2026-005")
+	b.mustShow("History", "issued", "suspended from 2026-09-15")
+	b.do("to the history", chromedp.ScrollIntoView(chromedp.CSS("#history-heading")))
+	b.shot("08b-licence-history", "A licence's history: issued, amended, suspended, with reasons and effective dates")
 
 	// Upload the demo batch and see its counts (testdata/demo/golden/check-summary.txt).
 	b.open("/console/batches")

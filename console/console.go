@@ -396,6 +396,7 @@ func (c *Console) parseTemplates() error {
 		"verdict":         verdictWord,
 		"severity":        severityWord,
 		"stamp":           stamp,
+		"eventKind":       eventKindWord,
 		"dir":             func(d halovetv1.Direction) string { return directionWords([]halovetv1.Direction{d}) },
 	}
 	base, err := template.New("layout").Funcs(funcs).ParseFS(templateFS, "templates/layout.html")

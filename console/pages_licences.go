@@ -49,8 +49,11 @@ func (c *Console) licences(w http.ResponseWriter, r *http.Request, rq *request) 
 	c.render(w, r, rq.s, http.StatusOK, "licences", "Licence register", d)
 }
 
+const rpcLicenceHistory = "/halovet.v1.LicensingService/ListLicenceHistory"
+
 type licenceData struct {
 	L            *halovetv1.Licence
+	History      *halovetv1.ListLicenceHistoryResponse // nil when the role may not read it
 	CanAmend     bool
 	CanSetStatus bool
 	Statuses     []statusChoice
@@ -67,6 +70,14 @@ func (c *Console) licence(w http.ResponseWriter, r *http.Request, rq *request) {
 		return
 	}
 	d := licenceData{L: l, CanSetStatus: c.allowed(rq, rpcSetStatus), CanAmend: c.allowed(rq, rpcAmend)}
+	if c.allowed(rq, rpcLicenceHistory) {
+		h, err := c.licensingClient().ListLicenceHistory(c.ctx(r, rq, rpcLicenceHistory), &halovetv1.ListLicenceHistoryRequest{LicenceNumber: l.GetLicenceNumber()})
+		if err != nil {
+			c.callFailed(w, r, rq, "reading the history of licence "+l.GetLicenceNumber(), err)
+			return
+		}
+		d.History = h
+	}
 	switch l.GetStatus() {
 	case halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE:
 		d.Statuses = []statusChoice{{"suspended", "Suspend"}}
@@ -125,6 +136,10 @@ func (c *Console) setLicenceStatus(w http.ResponseWriter, r *http.Request, rq *r
 
 func statusWord(s halovetv1.LicenceStatus) string {
 	return strings.ToLower(strings.TrimPrefix(s.String(), "LICENCE_STATUS_"))
+}
+
+func eventKindWord(k halovetv1.LicenceEventKind) string {
+	return strings.ToLower(strings.ReplaceAll(strings.TrimPrefix(k.String(), "LICENCE_EVENT_KIND_"), "_", " "))
 }
 
 func unitWord(u halovetv1.QuotaUnit) string {
