@@ -347,6 +347,13 @@ func TestBrowserWalk(t *testing.T) {
 		return err
 	}))
 
+	// The annual data report of the year, asked for from the year page.
+	b.do("show the report", chromedp.Click(chromedp.CSS("#show-report")))
+	b.waitFor("the report", `!!document.querySelector('#report-state')`, 20*time.Second)
+	b.mustShow("Annual data report of 2026", "provisional", "Imports by exporting country", "Download the report as JSON")
+	b.do("to the report", chromedp.ScrollIntoView(chromedp.CSS("#report-heading")))
+	b.shot("14b-year-report", "The annual data report of the year, provisional while the year is open")
+
 	// The audit log: the recording's draws and the licences are in it.
 	b.open("/console/audit?object_type=licence&object_key=XA-IMP-2026-002")
 	b.mustShow("XA-IMP-2026-002", "Check the log's hash chain")

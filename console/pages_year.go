@@ -2,12 +2,15 @@ package console
 
 import (
 	"bytes"
+	"encoding/json"
 	"fmt"
 	"html/template"
 	"net/http"
 	"net/url"
 	"strconv"
 	"strings"
+
+	"google.golang.org/protobuf/encoding/protojson"
 
 	"github.com/halovet/halovet/chart"
 	"github.com/halovet/halovet/controls"
@@ -60,8 +63,19 @@ func (c *Console) parseYearQuery(r *http.Request) (yearQuery, error) {
 	return yq, nil
 }
 
+const (
+	rpcYearReport  = "/halovet.v1.ConsumptionService/GetYearReport"
+	rpcClosedYears = "/halovet.v1.ShipmentService/ListClosedYears"
+)
+
 type yearData struct {
 	Q           yearQuery
+	Closed      *halovetv1.ClosedYear // the last year asked for, when it is closed
+	StateKnown  bool                  // false when the role may not read the closed years
+	CanReport   bool
+	ReportLink  template.URL // the page with the report shown
+	Report      *halovetv1.GetYearReportResponse
+	ReportJSON  template.URL
 	Scopes      []scopeChoice
 	Party       string
 	Consumption *halovetv1.GetConsumptionResponse
@@ -109,6 +123,29 @@ func (c *Console) year(w http.ResponseWriter, r *http.Request, rq *request) {
 	if d.Party, err = c.partyName(r, rq); err != nil {
 		c.callFailed(w, r, rq, "reading the reporting Party", err)
 		return
+	}
+	if c.allowed(rq, rpcClosedYears) {
+		cl, err := c.shipmentClient().ListClosedYears(c.ctx(r, rq, rpcClosedYears), &halovetv1.ListClosedYearsRequest{})
+		if err != nil {
+			c.callFailed(w, r, rq, "reading the closed years", err)
+			return
+		}
+		d.StateKnown = true
+		for _, y := range cl.GetClosedYears() {
+			if int(y.GetYear()) == yq.To {
+				d.Closed = y
+			}
+		}
+	}
+	if d.CanReport = c.allowed(rq, rpcYearReport); d.CanReport {
+		d.ReportLink = template.URL("/console/year?" + yq.values() + "&report=1#report-heading")
+		d.ReportJSON = template.URL("/console/year/report.json?" + url.Values{"year": {strconv.Itoa(yq.To)}}.Encode())
+		if r.URL.Query().Get("report") == "1" {
+			if d.Report, err = cons.GetYearReport(c.ctx(r, rq, rpcYearReport), &halovetv1.GetYearReportRequest{Year: int32(yq.To)}); err != nil {
+				c.callFailed(w, r, rq, fmt.Sprintf("computing the annual data report of %d", yq.To), err)
+				return
+			}
+		}
 	}
 	cc := chart.FromAssessment(d.Assessment, d.Party, d.Current)
 	d.ChartAlt = chartAlt(cc)
@@ -186,6 +223,37 @@ func (c *Console) yearChart(w http.ResponseWriter, r *http.Request, rq *request,
 	_, _ = w.Write(b.Bytes())
 }
 
+// yearReportJSON downloads the annual data report of a year as the API's response in
+// JSON; the report holds no time of computation, so the same register gives the same bytes.
+func (c *Console) yearReportJSON(w http.ResponseWriter, r *http.Request, rq *request) {
+	raw := strings.TrimSpace(r.URL.Query().Get("year"))
+	y, err := strconv.Atoi(raw)
+	if err != nil || y < 1986 || y > 2100 {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("year %q: give a calendar year between 1986 and 2100", raw))
+		return
+	}
+	rep, err := c.consumptionClient().GetYearReport(c.ctx(r, rq, rpcYearReport), &halovetv1.GetYearReportRequest{Year: int32(y)})
+	if err != nil {
+		c.callFailed(w, r, rq, fmt.Sprintf("computing the annual data report of %d", y), err)
+		return
+	}
+	// protojson varies its spacing on purpose; indenting its compact form gives the same
+	// bytes for the same report.
+	raw2, err := protojson.Marshal(rep)
+	var b bytes.Buffer
+	if err == nil {
+		err = json.Indent(&b, raw2, "", "  ")
+	}
+	if err != nil {
+		c.fail(w, r, rq.s, http.StatusInternalServerError, "The report could not be written", err.Error())
+		return
+	}
+	w.Header().Set("Content-Type", "application/json")
+	w.Header().Set("Content-Disposition", fmt.Sprintf("attachment; filename=%q", fmt.Sprintf("year-report-%d.json", y)))
+	b.WriteByte('\n')
+	_, _ = w.Write(b.Bytes())
+}
+
 func (c *Console) yearChartSVG(w http.ResponseWriter, r *http.Request, rq *request) {
 	c.yearChart(w, r, rq, false)
 }
@@ -206,4 +274,27 @@ func outcomeWord(o halovetv1.ComplianceOutcome) string {
 		return "exceeded"
 	}
 	return "not assessed"
+}
+
+// reportTable is one titled table of a year report's lines.
+type reportTable[L any] struct {
+	Title string
+	Lines []L
+}
+
+func reportTrade(r *halovetv1.GetYearReportResponse) []reportTable[*halovetv1.YearTradeLine] {
+	return []reportTable[*halovetv1.YearTradeLine]{
+		{"Imports by exporting country", r.GetImports()}, {"Exports by destination", r.GetExports()},
+		{"Imports from non-Parties", r.GetImportsNonParty()}, {"Exports to non-Parties", r.GetExportsNonParty()},
+	}
+}
+
+func reportQuantities(r *halovetv1.GetYearReportResponse) []reportTable[*halovetv1.YearQuantityLine] {
+	return []reportTable[*halovetv1.YearQuantityLine]{
+		{"Production", r.GetProduction()}, {"Destruction", r.GetDestruction()}, {"Feedstock use", r.GetFeedstock()}, {"QPS use of methyl bromide", r.GetQps()},
+	}
+}
+
+func exemptedUseWord(u halovetv1.ExemptedUse) string {
+	return strings.ToLower(strings.ReplaceAll(strings.TrimPrefix(u.String(), "EXEMPTED_USE_"), "_", " "))
 }
