@@ -36,8 +36,9 @@ const (
 )
 
 type batchRow struct {
-	V        validate.Verdict
-	Recorded bool
+	V          validate.Verdict
+	Recorded   bool
+	ShipmentID int64 // the recorded shipment, when the record is stored; 0 otherwise
 }
 
 type batch struct {
@@ -299,6 +300,7 @@ func (c *Console) runStream(ctx context.Context, b *batch) ([]batchRow, *validat
 			}
 			row.V = service.VerdictFromProto(queue[0])
 			row.Recorded = queue[0].GetRecorded()
+			row.ShipmentID = queue[0].GetShipmentId()
 			queue = queue[1:]
 		}
 		sum.Add(&row.V, it.direction)

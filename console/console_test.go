@@ -218,6 +218,13 @@ func TestBatchCheckFilterReportAndRecord(t *testing.T) {
 	if rc["records"] != want["Records"] || rc["recorded"] == 0 {
 		t.Errorf("recording counts %v", rc)
 	}
+	// Each recorded line links to its shipment's page.
+	link := regexp.MustCompile(`<a href="(/console/shipments/\d+)">yes, shipment \d+</a>`).FindAllStringSubmatch(r.body, -1)
+	if len(link) != rc["recorded"] {
+		t.Errorf("%d links to recorded shipments; %d recorded", len(link), rc["recorded"])
+	} else if s := c.get(link[0][1]); s.code != 200 || !strings.Contains(s.body, "Verdict as recorded") {
+		t.Errorf("%s: %d", link[0][1], s.code)
+	}
 	if after := drawn(t, h, "XA-IMP-2026-002"); after <= before {
 		t.Errorf("XA-IMP-2026-002 drawn %v before recording, %v after; want more", before, after)
 	}

@@ -6,7 +6,7 @@
 // through the same handlers, validation, limits and audit as any other caller. Every page
 // and every form names the RPC whose policy it obeys (routes in console.go); a signed-in
 // identity sees and does only what its role may do for that RPC, and a trader only its own
-// company's licences.
+// company's licences and recorded shipments (the server limits the calls to it).
 //
 // Sign-in takes a secret (Authenticator) and keeps a server-side session behind a signed,
 // HttpOnly, SameSite=Strict cookie (Secure when served over TLS) that expires when idle and

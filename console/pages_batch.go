@@ -84,6 +84,7 @@ type batchPageData struct {
 	Outcomes    []string
 	CanRecord   bool
 	RecordedFor string // the check this recording was made from
+	CanOpen     bool   // the role may open a recorded shipment (GetShipment)
 }
 
 const maxRowsShown = 2000
@@ -96,7 +97,7 @@ func (c *Console) batchPage(w http.ResponseWriter, r *http.Request, rq *request)
 	}
 	s := b.snapshot()
 	q := r.URL.Query()
-	d := batchPageData{B: s, Outcome: q.Get("outcome"), Code: q.Get("code"),
+	d := batchPageData{B: s, CanOpen: c.allowed(rq, rpcGetShipment), Outcome: q.Get("outcome"), Code: q.Get("code"),
 		Outcomes:  []string{"accepted", "accepted-with-warnings", "rejected"},
 		CanRecord: s.Kind == batchCheck && s.Done && s.Err == nil && s.RecordedAs == "" && c.allowed(rq, rpcRecordBatch)}
 	if s.Done {
