@@ -379,6 +379,7 @@ func (c *Console) fail(w http.ResponseWriter, r *http.Request, s *session, code 
 func (c *Console) parseTemplates() error {
 	funcs := template.FuncMap{
 		"figure":           figure,
+		"fine":             fine,
 		"percent":          percent,
 		"lower":            strings.ToLower,
 		"join":             strings.Join,

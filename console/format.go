@@ -21,3 +21,9 @@ func percent(part, whole float64) string {
 	}
 	return chart.Thousands(100*part/whole, 1) + " %"
 }
+
+// fine prints a figure with thousands separators and up to six decimals, for the small
+// ODP tonnages of single shipments (700 kg of HCFC-22 is 0.0385 ODP t).
+func fine(v float64) string {
+	return chart.Thousands(v, 6)
+}

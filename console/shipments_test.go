@@ -102,6 +102,8 @@ func TestShipmentsSearchOpenAndVoid(t *testing.T) {
 	id := ids["T-CHC-1"]
 	p = c.get(fmt.Sprintf("/console/shipments/%d", id))
 	p.mustContain(t, "Verdict as recorded", `id="verdict-outcome"`, "Quota draws", "XA-IMP-2026-002", `id="shipment-state">live`, "Void the shipment")
+	// 700 kg of HCFC-22 at ODP 0.055 (Montreal Protocol Annex C Group I) is 0.0385 ODP t.
+	p.mustContain(t, "0.0385 ODP t")
 	if p = c.get("/console/shipments/999999"); p.code != http.StatusNotFound {
 		t.Errorf("unknown shipment: %d, want 404", p.code)
 	}
