@@ -38,6 +38,7 @@ func TestLicenceHistory(t *testing.T) {
 		t.Errorf("after the suspension the history has %d rows (was %d), last %v", len(rows), n, rows[len(rows)-1])
 	}
 	p.mustContain(t, "history test (invented) (console, Olu Officer (invented))")
+	p.mustContain(t, `<a href="/console/shipments?licence=XA-IMP-2026-001" id="licence-shipments">`)
 
 	// The auditor reads it too (ListLicenceHistory: officer, customs, trader, auditor).
 	a := h.client(t)

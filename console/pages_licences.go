@@ -54,6 +54,7 @@ const rpcLicenceHistory = "/halovet.v1.LicensingService/ListLicenceHistory"
 type licenceData struct {
 	L            *halovetv1.Licence
 	History      *halovetv1.ListLicenceHistoryResponse // nil when the role may not read it
+	CanShipments bool                                  // the role may search the recorded shipments
 	CanAmend     bool
 	CanSetStatus bool
 	Statuses     []statusChoice
@@ -69,7 +70,7 @@ func (c *Console) licence(w http.ResponseWriter, r *http.Request, rq *request) {
 	if !ok {
 		return
 	}
-	d := licenceData{L: l, CanSetStatus: c.allowed(rq, rpcSetStatus), CanAmend: c.allowed(rq, rpcAmend)}
+	d := licenceData{L: l, CanSetStatus: c.allowed(rq, rpcSetStatus), CanAmend: c.allowed(rq, rpcAmend), CanShipments: c.allowed(rq, rpcListShipments)}
 	if c.allowed(rq, rpcLicenceHistory) {
 		h, err := c.licensingClient().ListLicenceHistory(c.ctx(r, rq, rpcLicenceHistory), &halovetv1.ListLicenceHistoryRequest{LicenceNumber: l.GetLicenceNumber()})
 		if err != nil {
