@@ -145,6 +145,7 @@ func (c *Console) pageTable() []page {
 		{"GET /console/shipments", rpcListShipments, false, c.shipments},
 		{"GET /console/shipments/{id}", rpcGetShipment, false, c.shipment},
 		{"POST /console/shipments/{id}/void", rpcVoidShipment, true, c.voidShipment},
+		{"POST /console/shipments/{id}/correct", rpcCorrect, true, c.correctShipment},
 		{"GET /console/year", rpcAssess, false, c.year},
 		{"GET /console/year/chart.svg", rpcAssess, false, c.yearChartSVG},
 		{"GET /console/year/chart.png", rpcAssess, false, c.yearChartPNG},

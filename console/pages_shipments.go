@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 
+	"google.golang.org/protobuf/proto"
+
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -15,6 +17,7 @@ const (
 	rpcListShipments = "/halovet.v1.ShipmentService/ListShipments"
 	rpcGetShipment   = "/halovet.v1.ShipmentService/GetShipment"
 	rpcVoidShipment  = "/halovet.v1.ShipmentService/VoidShipment"
+	rpcCorrect       = "/halovet.v1.ShipmentService/CorrectShipment"
 )
 
 // shipmentPageSize is how many recorded shipments one page of the search shows.
@@ -88,9 +91,10 @@ func (c *Console) shipments(w http.ResponseWriter, r *http.Request, rq *request)
 }
 
 type shipmentData struct {
-	S        *halovetv1.RecordedShipment
-	Versions []*halovetv1.RecordedShipment
-	CanVoid  bool
+	S          *halovetv1.RecordedShipment
+	Versions   []*halovetv1.RecordedShipment
+	CanVoid    bool
+	CanCorrect bool
 }
 
 // shipment shows one recorded shipment: the record, the verdict it was recorded with, its
@@ -105,8 +109,9 @@ func (c *Console) shipment(w http.ResponseWriter, r *http.Request, rq *request) 
 		c.callFailed(w, r, rq, fmt.Sprintf("reading recorded shipment %d", id), err)
 		return
 	}
+	live := resp.GetShipment().GetState() == halovetv1.ShipmentState_SHIPMENT_STATE_LIVE
 	d := shipmentData{S: resp.GetShipment(), Versions: resp.GetVersions(),
-		CanVoid: c.allowed(rq, rpcVoidShipment) && resp.GetShipment().GetState() == halovetv1.ShipmentState_SHIPMENT_STATE_LIVE}
+		CanVoid: c.allowed(rq, rpcVoidShipment) && live, CanCorrect: c.allowed(rq, rpcCorrect) && live}
 	c.render(w, r, rq.s, http.StatusOK, "shipment", fmt.Sprintf("Recorded shipment %d", id), d)
 }
 
@@ -138,6 +143,41 @@ func (c *Console) voidShipment(w http.ResponseWriter, r *http.Request, rq *reque
 		return
 	}
 	http.Redirect(w, r, fmt.Sprintf("/console/shipments/%d", id), http.StatusSeeOther)
+}
+
+// correctShipment replaces a live recorded shipment by a new version with the quantity,
+// unit, declaration date, licence and partner the form gives (CorrectShipment): checked like
+// a new record, its quota moved exactly in one transaction, both versions kept. A correction
+// that breaks a rule is refused with the server's reason and nothing changes.
+func (c *Console) correctShipment(w http.ResponseWriter, r *http.Request, rq *request) {
+	id, ok := c.shipmentID(w, r, rq)
+	if !ok {
+		return
+	}
+	reason := strings.TrimSpace(r.PostFormValue("reason"))
+	if reason == "" {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", "reason: say why the shipment is corrected (it is kept in the register and the audit log). Nothing was changed.")
+		return
+	}
+	got, err := c.shipmentClient().GetShipment(c.ctx(r, rq, rpcGetShipment), &halovetv1.GetShipmentRequest{ShipmentId: id})
+	if err != nil {
+		c.callFailed(w, r, rq, fmt.Sprintf("reading recorded shipment %d", id), err)
+		return
+	}
+	rec := proto.Clone(got.GetShipment().GetRecord()).(*halovetv1.ShipmentRecord)
+	for field, set := range map[string]*string{"total_net_quantity": &rec.TotalNetQuantity, "quantity_unit": &rec.QuantityUnit,
+		"declaration_date": &rec.DeclarationDate, "licence_number": &rec.LicenceNumber, "partner_country": &rec.PartnerCountry} {
+		if v, given := r.PostForm[field]; given {
+			*set = strings.TrimSpace(v[0])
+		}
+	}
+	resp, err := c.shipmentClient().CorrectShipment(c.ctx(r, rq, rpcCorrect), &halovetv1.CorrectShipmentRequest{
+		ShipmentId: id, Record: rec, Reason: reason + " (console, " + rq.id().Name + ")"})
+	if err != nil {
+		c.callFailed(w, r, rq, fmt.Sprintf("correcting recorded shipment %d", id), err)
+		return
+	}
+	http.Redirect(w, r, fmt.Sprintf("/console/shipments/%d", resp.GetShipment().GetShipmentId()), http.StatusSeeOther)
 }
 
 // Helpers for the templates.

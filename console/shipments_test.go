@@ -200,3 +200,48 @@ func TestShipmentsTraderOwnCompany(t *testing.T) {
 		t.Errorf("after the trader's refused void the shipment is %v", st)
 	}
 }
+
+// TestShipmentCorrect: an officer corrects a recorded shipment's quantity from its page;
+// the quota moves by exactly the difference, both versions are kept, and a correction
+// without a reason, without the form token, or breaking a rule changes nothing.
+func TestShipmentCorrect(t *testing.T) {
+	h := newHarness(t, false)
+	ids := recordSome(t, h)
+	c := h.client(t)
+	c.signIn("officer")
+	id := ids["T-CHC-2"] // 300 kg of HCFC-22 on XA-IMP-2026-002
+	p := c.get(fmt.Sprintf("/console/shipments/%d", id))
+	p.mustContain(t, "Correct this shipment", `name="total_net_quantity" value="300"`)
+	post := func(form url.Values) page { return c.post(fmt.Sprintf("/console/shipments/%d/correct", id), form) }
+	before := drawn(t, h, "XA-IMP-2026-002")
+
+	if r := post(url.Values{"csrf": {p.csrf(t)}, "total_net_quantity": {"200"}}); r.code != http.StatusBadRequest || !strings.Contains(r.body, "Nothing was changed") {
+		t.Errorf("correction without a reason: %d", r.code)
+	}
+	if r := post(url.Values{"total_net_quantity": {"200"}, "reason": {"no token"}}); r.code != http.StatusForbidden {
+		t.Errorf("correction without the form token: %d", r.code)
+	}
+	if r := post(url.Values{"csrf": {p.csrf(t)}, "total_net_quantity": {"-5"}, "reason": {"breaks a rule"}}); r.code < 400 {
+		t.Errorf("a correction to a negative quantity: %d; want it refused", r.code)
+	}
+	if st := shipmentState(t, h, id); st != halovetv1.ShipmentState_SHIPMENT_STATE_LIVE || drawn(t, h, "XA-IMP-2026-002") != before {
+		t.Fatalf("after three refused corrections: state %v, drawn %v (was %v)", st, drawn(t, h, "XA-IMP-2026-002"), before)
+	}
+
+	r := post(url.Values{"csrf": {p.csrf(t)}, "total_net_quantity": {"200"}, "reason": {"weighed again (console test)"}})
+	r.mustContain(t, `id="shipment-state">live`, "weighed again (console test)")
+	if st := shipmentState(t, h, id); st != halovetv1.ShipmentState_SHIPMENT_STATE_SUPERSEDED {
+		t.Errorf("the corrected version is %v; want superseded", st)
+	}
+	// 300 kg → 200 kg on a metric-tonne line: 0.1 t given back (common practice: 1 t = 1000 kg).
+	if after := drawn(t, h, "XA-IMP-2026-002"); math.Abs(before-after-0.1) > 1e-9 {
+		t.Errorf("drawn %v before, %v after the correction; want 0.1 t less", before, after)
+	}
+
+	// A trader is not offered the form.
+	tc := h.client(t)
+	tc.signIn("trader")
+	if p := tc.get(fmt.Sprintf("/console/shipments/%d", ids["T-CHC-1"])); p.code != http.StatusOK || strings.Contains(p.body, "Correct this shipment") {
+		t.Errorf("trader's own shipment: %d, correction form shown %v", p.code, strings.Contains(p.body, "Correct this shipment"))
+	}
+}
