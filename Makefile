@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: fault-long help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load chromium
+.PHONY: fault-long help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load bench-register chromium
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -101,6 +101,9 @@ kube-schemas: ## rewrite deploy/schemas from the OpenAPI document of k8s.io/kube
 
 bench-load: postgres ## load benchmark: halovet serve on a private cluster, 50 calls in flight over 4 connections (cmd/loadbench; see BENCHMARKS.md)
 	$(GO) run ./cmd/loadbench -repo .
+
+bench-register: postgres ## report benchmark: 1,000,000 invented shipments over five years on a private cluster (or TEST_DATABASE_URL), report queries timed with their plans (cmd/registerbench; see BENCHMARKS.md)
+	$(GO) run ./cmd/registerbench
 
 FAULT_ROUNDS ?= 20
 fault-long: postgres ## the fault scenarios again, FAULT_ROUNDS rounds of random faults (database restart, server cut, client gone, replicas racing) with exact recounts; HALOVET_FAULT_SEED=N repeats a run

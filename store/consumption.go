@@ -5,6 +5,22 @@ import (
 	"fmt"
 )
 
+// ShipmentTotalsSQL is ShipmentTotals' query ($1: the years, NULL for every year), exported
+// for cmd/registerbench's plans.
+const ShipmentTotalsSQL = `SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose,
+	        s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party, (sum(c.mass_kg) / 1000)::float8, count(*)
+	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
+	    WHERE ($1::int[] IS NULL OR s.year = ANY($1)) AND s.state = 'live'
+	    GROUP BY s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
+	    ORDER BY s.year, c.designation, s.direction, s.purpose, s.condition, non_party`
+
+// ShipmentYearsSQL is ShipmentYears' query, exported for cmd/registerbench's plans.
+const ShipmentYearsSQL = `WITH RECURSIVE y(year) AS (
+	        SELECT min(year) FROM shipments WHERE state = 'live'
+	      UNION ALL
+	        SELECT (SELECT min(year) FROM shipments WHERE year > y.year AND state = 'live') FROM y WHERE y.year IS NOT NULL)
+	    SELECT year FROM y WHERE year IS NOT NULL ORDER BY year`
+
 // ShipmentTotal is the mass of one substance (a shipment's single substance or one blend
 // component) in the recorded shipments of one year that share direction, purpose,
 // condition and partner status: what the consumption arithmetic needs, summed by
@@ -28,12 +44,7 @@ func (s *Store) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTo
 	defer classifyInto(&err)
 	// Party status is per component group (migration 5); rows without it take the
 	// shipment's flag.
-	rows, err := s.pool.Query(ctx, `SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose,
-	        s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party, (sum(c.mass_kg) / 1000)::float8, count(*)
-	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
-	    WHERE ($1::int[] IS NULL OR s.year = ANY($1)) AND s.state = 'live'
-	    GROUP BY s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
-	    ORDER BY s.year, c.designation, s.direction, s.purpose, s.condition, non_party`, intsOrNil(years))
+	rows, err := s.pool.Query(ctx, ShipmentTotalsSQL, intsOrNil(years))
 	if err != nil {
 		return nil, err
 	}
@@ -55,11 +66,7 @@ func (s *Store) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTo
 // cost grows with the number of years, not of shipments.
 func (s *Store) ShipmentYears(ctx context.Context) (_ []int, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `WITH RECURSIVE y(year) AS (
-	        SELECT min(year) FROM shipments WHERE state = 'live'
-	      UNION ALL
-	        SELECT (SELECT min(year) FROM shipments WHERE year > y.year AND state = 'live') FROM y WHERE y.year IS NOT NULL)
-	    SELECT year FROM y WHERE year IS NOT NULL ORDER BY year`)
+	rows, err := s.pool.Query(ctx, ShipmentYearsSQL)
 	if err != nil {
 		return nil, err
 	}

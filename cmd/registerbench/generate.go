@@ -1,0 +1,85 @@
+package main
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/jackc/pgx/v5/pgxpool"
+)
+
+// The generated register is INVENTED: companies GEN-0001..GEN-0200, licences GEN-L-*,
+// partner countries from the user-assigned codes XA..XZ, a mix of substances and one
+// blend, masses from a fixed pseudo-random formula. It exists only to give the reports a
+// register of realistic size; nothing in it describes any real trade.
+//
+// Substance figures used to fill the stored per-component ODP t and CO2-eq t:
+//   ODPs: Montreal Protocol Annex C Group I (ODP column): HCFC-22 0.055, HCFC-141b 0.11.
+//   GWPs: Kigali Amendment, Annexes C/I and F (GWP columns): HCFC-22 1810, HCFC-141b 725,
+//     HFC-134a 1430, HFC-32 675, HFC-125 3500.
+//   R-410A: HFC-32/HFC-125 at 50/50 % by mass (ASHRAE 34).
+
+// genSubstances is one row per component kind the generator draws from: a shipment picks
+// the row (i*7) % 6; R-410A (kind 5) is two component rows.
+const genSubstancesSQL = `(VALUES
+    (0, 'HCFC-22',   'HCFC-22',   'C/I', 1.0, 0.055, 1810.0),
+    (1, 'HCFC-141b', 'HCFC-141b', 'C/I', 1.0, 0.11,  725.0),
+    (2, 'HFC-134a',  'HFC-134a',  'F',   1.0, 0.0,   1430.0),
+    (3, 'HFC-32',    'HFC-32',    'F',   1.0, 0.0,   675.0),
+    (4, 'HFC-125',   'HFC-125',   'F',   1.0, 0.0,   3500.0),
+    (5, 'R-410A',    'HFC-32',    'F',   0.5, 0.0,   675.0),
+    (5, 'R-410A',    'HFC-125',   'F',   0.5, 0.0,   3500.0)
+  ) AS g(kind, shipped, designation, annex_group, share, odp, gwp)`
+
+// Generate adds n invented live shipments spread evenly over the years firstYear ..
+// firstYear+years-1 to the register at pool, with their components, in set-based
+// statements (INSERT ... SELECT over generate_series) inside one transaction, then
+// ANALYZEs the tables. Record keys are gen-<i>, so a second call with the same n fails on
+// the unique key instead of doubling the register.
+func Generate(ctx context.Context, pool *pgxpool.Pool, n, firstYear, years int) error {
+	if n < 1 || years < 1 {
+		return fmt.Errorf("generate: n is %d and years %d; both must be at least 1", n, years)
+	}
+	tx, err := pool.Begin(ctx)
+	if err != nil {
+		return err
+	}
+	defer func() { _ = tx.Rollback(ctx) }()
+	// i picks: year (i % years), day of year, company (i % 200), direction (85 % import,
+	// 10 % export, 5 % re-export), purpose (3 % feedstock, else servicing), condition
+	// (2 % recycled), partner (26 codes; XZ is treated as a non-Party), substance kind
+	// ((i*7) % 6), net mass 10.000 to 9,999.999 kg.
+	if _, err := tx.Exec(ctx, `
+	    INSERT INTO shipments (company_id, record_key, fingerprint, direction, licence_number, partner_country,
+	        declaration_date, year, resolved_designation, entry_kind, purpose, condition, net_mass_kg,
+	        odp_tonnes, co2e_tonnes, counts_in_consumption, partner_non_party, record)
+	    SELECT 'GEN-' || lpad((i % 200)::text, 4, '0'), 'gen-' || i, md5(i::text), d.direction,
+	        'GEN-L-' || (i % 200), 'X' || chr(65 + (i % 26)::int), d.day, extract(year FROM d.day)::int,
+	        k.shipped, CASE WHEN k.shipped LIKE 'R-%' THEN 'blend' ELSE 'substance' END,
+	        CASE WHEN i % 100 < 3 THEN 'feedstock' ELSE 'servicing' END,
+	        CASE WHEN i % 50 = 7 THEN 'recycled' ELSE 'virgin' END,
+	        d.kg, d.kg / 1000 * k.odp, d.kg / 1000 * k.gwp,
+	        d.direction = 'import' AND i % 100 >= 3, (i % 26) = 25, '{"generated": true}'::jsonb
+	    FROM generate_series(1, $1::bigint) AS i
+	    CROSS JOIN LATERAL (SELECT
+	        (make_date($2 + (i % $3)::int, 1, 1) + ((i / $3) % 365)::int) AS day,
+	        CASE WHEN i % 20 < 17 THEN 'import' WHEN i % 20 < 19 THEN 'export' ELSE 're-export' END AS direction,
+	        round((10 + ((i * 2654435761) % 9989990) / 1000.0)::numeric, 3) AS kg) d
+	    CROSS JOIN LATERAL (SELECT shipped, sum(odp * share) AS odp, sum(gwp * share) AS gwp
+	        FROM `+genSubstancesSQL+` WHERE kind = (i * 7) % 6 GROUP BY shipped) k`,
+		n, firstYear, years); err != nil {
+		return fmt.Errorf("generating shipments: %w", err)
+	}
+	if _, err := tx.Exec(ctx, `
+	    INSERT INTO shipment_components (shipment_id, designation, annex_group, mass_kg, odp_tonnes, co2e_tonnes)
+	    SELECT s.shipment_id, g.designation, g.annex_group, s.net_mass_kg * g.share,
+	        s.net_mass_kg * g.share / 1000 * g.odp, s.net_mass_kg * g.share / 1000 * g.gwp
+	    FROM shipments s JOIN `+genSubstancesSQL+` ON g.shipped = s.resolved_designation
+	    WHERE s.record_key LIKE 'gen-%'`); err != nil {
+		return fmt.Errorf("generating shipment components: %w", err)
+	}
+	if err := tx.Commit(ctx); err != nil {
+		return err
+	}
+	_, err = pool.Exec(ctx, `ANALYZE shipments, shipment_components`)
+	return err
+}
