@@ -26,7 +26,8 @@ const drawTolerance = "0.00000001"
 // CheckInvariants verifies, in one read-only snapshot, that for every quota line drawn
 // equals the exact sum of its draws and lies between 0 and the allocation, and that every
 // draw of a recorded shipment is on the shipment's own licence and no larger than the
-// shipment's figure (metric t, ODP t or CO2-eq t) for the components in the line's scope.
+// shipment's figure (metric t, ODP t or CO2-eq t) for the components in the line's scope,
+// and that the yearly totals (migration 12) equal the sums over the live shipments' components.
 // The checks are independent of the code that records shipments: they read the tables.
 func (s *Store) CheckInvariants(ctx context.Context) (_ InvariantReport, err error) {
 	defer classifyInto(&err)
@@ -76,6 +77,40 @@ func (s *Store) CheckInvariants(ctx context.Context) (_ InvariantReport, err err
 	rows.Close()
 	if err := rows.Err(); err != nil {
 		return rep, fmt.Errorf("invariants: quota lines: %w", err)
+	}
+
+	// The yearly totals (migration 12) equal the sums over the register, exactly.
+	rows, err = tx.Query(ctx, `WITH t AS (SELECT year, designation, annex_group, direction, purpose, condition, non_party, mass_kg, components
+	            FROM shipment_year_totals WHERE components > 0 OR mass_kg <> 0)
+	    SELECT coalesce(j.year, t.year), coalesce(j.designation, t.designation), coalesce(j.direction, t.direction),
+	        coalesce(j.purpose, t.purpose), coalesce(j.condition, t.condition), coalesce(j.non_party, t.non_party),
+	        coalesce(sum_kg, 0)::text, coalesce(j.count, 0), coalesce(t.mass_kg, 0)::text, coalesce(t.components, 0)
+	    FROM (SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition,
+	            coalesce(c.partner_non_party, s.partner_non_party) AS non_party, sum(c.mass_kg) AS sum_kg, count(*)
+	        FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id WHERE s.state = 'live'
+	        GROUP BY 1, 2, 3, 4, 5, 6, 7) j
+	    FULL JOIN t ON (t.year, t.designation, t.annex_group, t.direction, t.purpose, t.condition, t.non_party)
+	        = (j.year, j.designation, j.annex_group, j.direction, j.purpose, j.condition, j.non_party)
+	    WHERE coalesce(sum_kg, 0) <> coalesce(t.mass_kg, 0) OR coalesce(j.count, 0) <> coalesce(t.components, 0)
+	    ORDER BY 1, 2, 3, 4, 5, 6`)
+	if err != nil {
+		return rep, fmt.Errorf("invariants: yearly totals: %w", err)
+	}
+	for rows.Next() {
+		var year int
+		var des, dir, purpose, cond, regKg, totKg string
+		var nonParty bool
+		var regN, totN int64
+		if err := rows.Scan(&year, &des, &dir, &purpose, &cond, &nonParty, &regKg, &regN, &totKg, &totN); err != nil {
+			rows.Close()
+			return rep, fmt.Errorf("invariants: yearly totals: %w", err)
+		}
+		add("year-totals-match-register", fmt.Sprintf("%d %s %s purpose %q condition %q non-Party %t", year, des, dir, purpose, cond, nonParty),
+			fmt.Sprintf("the register sums %s kg in %d component rows, the yearly totals %s kg in %d", regKg, regN, totKg, totN))
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return rep, fmt.Errorf("invariants: yearly totals: %w", err)
 	}
 
 	rows, err = tx.Query(ctx, `SELECT company_id, record_key, shipment_licence, licence_number, line_number, amount::text, in_scope::text

@@ -44,6 +44,10 @@ func Generate(ctx context.Context, pool *pgxpool.Pool, n, firstYear, years int) 
 		return err
 	}
 	defer func() { _ = tx.Rollback(ctx) }()
+	// A million rows take longer than the store's per-statement limit.
+	if _, err := tx.Exec(ctx, `SET LOCAL statement_timeout = 0`); err != nil {
+		return err
+	}
 	// i picks: year (i % years), day of year, company (i % 200), direction (85 % import,
 	// 10 % export, 5 % re-export), purpose (3 % feedstock, else servicing), condition
 	// (2 % recycled), partner (26 codes; XZ is treated as a non-Party), substance kind

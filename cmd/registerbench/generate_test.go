@@ -64,6 +64,11 @@ func TestGenerateSmallRegister(t *testing.T) {
 			t.Errorf("%d: %d component rows, want %d", y, gotRows[y], wantRows[y])
 		}
 	}
+	// The yearly totals the triggers kept equal the sums over the register itself.
+	rep, err := st.CheckInvariants(ctx)
+	if err != nil || len(rep.Breaches) > 0 {
+		t.Errorf("CheckInvariants = %+v, %v; want no breach", rep.Breaches, err)
+	}
 	ys, err := st.ShipmentYears(ctx)
 	if err != nil || len(ys) != years || ys[0] != first {
 		t.Errorf("ShipmentYears = %v, %v; want %d years from %d", ys, err, years, first)
