@@ -1,0 +1,115 @@
+package store_test
+
+import (
+	"context"
+	"testing"
+
+	"github.com/halovet/halovet/store"
+)
+
+// Quantities here are invented; the check is that the yearly totals (migration 12) equal
+// the join over the register after each kind of write, exactly.
+
+// totalsByJoin is ShipmentTotals computed from the register itself.
+func totalsByJoin(t *testing.T, st *store.Store) []store.ShipmentTotal {
+	t.Helper()
+	rows, err := st.Pool().Query(context.Background(), store.ShipmentTotalsJoinSQL, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rows.Close()
+	var out []store.ShipmentTotal
+	for rows.Next() {
+		var x store.ShipmentTotal
+		if err := rows.Scan(&x.Year, &x.Designation, &x.AnnexGroup, &x.Direction, &x.Purpose, &x.Condition,
+			&x.PartnerNonParty, &x.Tonnes, &x.Shipments); err != nil {
+			t.Fatal(err)
+		}
+		out = append(out, x)
+	}
+	if err := rows.Err(); err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+func sameTotals(t *testing.T, st *store.Store, step string, wantShipments int64) {
+	t.Helper()
+	got, err := st.ShipmentTotals(context.Background(), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := totalsByJoin(t, st)
+	if len(got) != len(want) {
+		t.Fatalf("%s: %d total rows, the register %d: %+v vs %+v", step, len(got), len(want), got, want)
+	}
+	var n int64
+	for i := range got {
+		if got[i] != want[i] {
+			t.Errorf("%s: total %d = %+v, the register gives %+v", step, i, got[i], want[i])
+		}
+		n += got[i].Shipments
+	}
+	if n != wantShipments {
+		t.Errorf("%s: %d component rows counted, want %d", step, n, wantShipments)
+	}
+	rep, err := st.CheckInvariants(context.Background())
+	if err != nil || len(rep.Breaches) > 0 {
+		t.Errorf("%s: CheckInvariants = %+v, %v; want no breach", step, rep.Breaches, err)
+	}
+}
+
+// mrow is row with a component mass (kg) beside its ODP t, so that the totals sum masses.
+func mrow(key string, odpNano store.Nano, kg float64) store.ShipmentRow {
+	r := row(key, odpNano)
+	r.NetMassKg = store.ToNano(kg)
+	r.Components[0].MassKg = store.ToNano(kg)
+	return r
+}
+
+func TestYearTotalsFollowRecordVoidCorrect(t *testing.T) {
+	st, _ := openTestStore(t)
+	ctx := context.Background()
+	issueTestLicence(t, st, "L-1", 1.0)
+	sameTotals(t, st, "empty register", 0)
+	res, err := st.RecordShipments(ctx, []store.ShipmentRow{mrow("a", store.ToNano(0.3), 5454.545454545), mrow("b", store.ToNano(0.45), 8181.818181818), mrow("c", store.ToNano(0.1), 1818.181818182)})
+	if err != nil || res[0].Status != store.RecordStored || res[2].Status != store.RecordStored {
+		t.Fatalf("record: %+v %v", res, err)
+	}
+	sameTotals(t, st, "after recording three", 3)
+	if _, err := st.VoidShipment(ctx, res[0].ShipmentID, "declared twice"); err != nil {
+		t.Fatal(err)
+	}
+	sameTotals(t, st, "after voiding one", 2)
+	fix := mrow("b", store.ToNano(0.5), 9090.909090909)
+	fix.Fingerprint = "fp-b-corrected"
+	if cr, err := st.CorrectShipment(ctx, res[1].ShipmentID, fix, "quantity misread"); err != nil || cr.Status != store.RecordStored {
+		t.Fatalf("correct: %+v %v", cr, err)
+	}
+	sameTotals(t, st, "after correcting one", 2)
+
+	// Nothing deletes recorded shipments or their components: refused, totals unchanged.
+	for _, sql := range []string{`DELETE FROM shipments`, `DELETE FROM shipment_components`, `UPDATE shipment_components SET mass_kg = mass_kg + 1`} {
+		if _, err := st.Pool().Exec(ctx, sql); err == nil {
+			t.Errorf("%s succeeded; want it refused", sql)
+		}
+	}
+	sameTotals(t, st, "after the refused deletes", 2)
+	// A direct update of a grouped column of a live shipment moves its totals.
+	if _, err := st.Pool().Exec(ctx, `UPDATE shipments SET purpose = 'feedstock' WHERE shipment_id = $1`, res[2].ShipmentID); err != nil {
+		t.Fatal(err)
+	}
+	sameTotals(t, st, "after a direct update of a purpose", 2)
+	tots, err := st.ShipmentTotals(ctx, nil)
+	if err != nil || len(tots) != 2 || tots[0].Purpose != "" || tots[1].Purpose != "feedstock" || tots[1].Tonnes != 1.818181818182 {
+		t.Fatalf("totals after the purpose update: %+v %v; want b under no purpose and c's 1.818181818182 t under feedstock", tots, err)
+	}
+	// TRUNCATE empties the totals with the register.
+	if _, err := st.Pool().Exec(ctx, `TRUNCATE shipments CASCADE`); err != nil {
+		t.Fatal(err)
+	}
+	var left int
+	if err := st.Pool().QueryRow(ctx, `SELECT count(*) FROM shipment_year_totals`).Scan(&left); err != nil || left != 0 {
+		t.Fatalf("after TRUNCATE: %d totals rows (%v), want 0", left, err)
+	}
+}
