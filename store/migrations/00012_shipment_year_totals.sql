@@ -21,9 +21,11 @@
 -- recorders take the row locks in the same order; a deadlock between transactions of
 -- several statements is retried by the store as before.
 --
--- The triggers look the statement's shipments up by id (= ANY of an array), so that the
--- planner, which cannot estimate a transition table, never scans the whole register for
--- a batch: without it recording slowed as the register grew.
+-- The triggers look each row of the statement up by id in a LATERAL subquery that the
+-- planner may not flatten (OFFSET 0): one primary-key probe per row. A plain join let the
+-- planner, which cannot estimate a transition table and caches the function's plan from
+-- when the register was small, scan the whole register per batch: recording slowed as
+-- the register grew.
 --
 -- Compatible with the previous release: it writes through the same tables (the triggers
 -- keep the totals) and reads the join, so the migration adds no schema_compatibility row.
@@ -46,8 +48,8 @@ BEGIN
     INSERT INTO shipment_year_totals AS t (year, designation, annex_group, direction, purpose, condition, non_party, mass_kg, components)
     SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition,
            coalesce(c.partner_non_party, s.partner_non_party), sum(c.mass_kg), count(*)
-    FROM added c JOIN shipments s ON s.shipment_id = c.shipment_id
-    WHERE s.shipment_id = ANY (ARRAY(SELECT DISTINCT shipment_id FROM added)) AND s.state = 'live'
+    FROM added c CROSS JOIN LATERAL (SELECT year, direction, purpose, condition, partner_non_party FROM shipments
+        WHERE shipment_id = c.shipment_id AND state = 'live' OFFSET 0) s
     GROUP BY 1, 2, 3, 4, 5, 6, 7 ORDER BY 1, 2, 3, 4, 5, 6, 7
     ON CONFLICT (year, designation, annex_group, direction, purpose, condition, non_party)
     DO UPDATE SET mass_kg = t.mass_kg + EXCLUDED.mass_kg, components = t.components + EXCLUDED.components;
@@ -64,13 +66,15 @@ BEGIN
     FROM (
         SELECT o.year, c.designation, c.annex_group, o.direction, o.purpose, o.condition,
                coalesce(c.partner_non_party, o.partner_non_party) AS non_party, -c.mass_kg AS kg, -1 AS n
-        FROM before o JOIN shipment_components c ON c.shipment_id = o.shipment_id
-        WHERE c.shipment_id = ANY (ARRAY(SELECT shipment_id FROM before WHERE state = 'live')) AND o.state = 'live'
+        FROM before o CROSS JOIN LATERAL (SELECT designation, annex_group, partner_non_party, mass_kg FROM shipment_components
+            WHERE shipment_id = o.shipment_id OFFSET 0) c
+        WHERE o.state = 'live'
       UNION ALL
         SELECT w.year, c.designation, c.annex_group, w.direction, w.purpose, w.condition,
                coalesce(c.partner_non_party, w.partner_non_party), c.mass_kg, 1
-        FROM after w JOIN shipment_components c ON c.shipment_id = w.shipment_id
-        WHERE c.shipment_id = ANY (ARRAY(SELECT shipment_id FROM after WHERE state = 'live')) AND w.state = 'live'
+        FROM after w CROSS JOIN LATERAL (SELECT designation, annex_group, partner_non_party, mass_kg FROM shipment_components
+            WHERE shipment_id = w.shipment_id OFFSET 0) c
+        WHERE w.state = 'live'
     ) d
     GROUP BY 1, 2, 3, 4, 5, 6, 7 HAVING sum(n) <> 0 OR sum(kg) <> 0 ORDER BY 1, 2, 3, 4, 5, 6, 7
     ON CONFLICT (year, designation, annex_group, direction, purpose, condition, non_party)
