@@ -352,7 +352,7 @@ func (s *Summary) WriteText(w io.Writer) error {
 	fmt.Fprintf(tw, "accepted with warnings\t%d\t\n", s.AcceptedWithWarnings)
 	if s.Replayed > 0 {
 		// Replays are accepted records recorded before: they belong with the accepted ones.
-		fmt.Fprintf(tw, "  of these, replays\t%d\t\n", s.Replayed)
+		fmt.Fprintf(tw, "  of all accepted, replays\t%d\t\n", s.Replayed)
 	}
 	fmt.Fprintf(tw, "rejected\t%d\t\n", s.Rejected)
 	if err := tw.Flush(); err != nil {

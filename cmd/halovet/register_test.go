@@ -25,7 +25,7 @@ func TestShipmentsExportCorrectRoundTrip(t *testing.T) {
 		path := filepath.Join(dir, "export."+format)
 		writeFile(t, path, out)
 		code, out, stderr = runCaptured(t, "check", path, s, d)
-		if code != exitOK || strings.Contains(out, "QUOTA_EXCEEDED") || !strings.Contains(out, "of these, replays") {
+		if code != exitOK || strings.Contains(out, "QUOTA_EXCEEDED") || !strings.Contains(out, "of all accepted, replays") {
 			t.Fatalf("check of the %s listing: exit %d; want every record answered as recorded\n%s\n%s", format, code, out, stderr)
 		}
 	}
@@ -65,7 +65,7 @@ func TestShipmentsExportCorrectRoundTrip(t *testing.T) {
 		t.Fatalf("versions of %s: exit %d\n%s", key, code, out)
 	}
 	// The corrected file checked again: it is recorded (version 2).
-	if code, out, _ = runCaptured(t, "check", fixPath, s, d); code != exitOK || !strings.Contains(out, "of these, replays") {
+	if code, out, _ = runCaptured(t, "check", fixPath, s, d); code != exitOK || !strings.Contains(out, "of all accepted, replays") {
 		t.Fatalf("check of the applied correction: exit %d\n%s", code, out)
 	}
 	// A correction that breaks a rule: a date that does not exist. Nothing changes.
