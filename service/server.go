@@ -2,6 +2,7 @@ package service
 
 import (
 	"context"
+	"crypto/tls"
 	"crypto/x509"
 	"errors"
 	"log/slog"
@@ -52,7 +53,12 @@ type Options struct {
 	CertIdentities func() map[string]access.Identity
 	// Now is the clock; nil means time.Now.
 	Now func() time.Time
-	// ServerOptions are passed to grpc.NewServer after halovet's own (e.g. TLS credentials).
+	// TLS, when not nil, is the gRPC listener's TLS configuration (TLSFiles.Config); a
+	// handshake it refuses is logged with the peer's address and reason and counted in
+	// halovet_tls_handshake_refusals_total. Pass it to ServeHTTPAPI for the HTTP listener.
+	TLS *tls.Config
+	// ServerOptions are passed to grpc.NewServer after halovet's own (e.g. TLS credentials
+	// without the refusal log of TLS).
 	ServerOptions []grpc.ServerOption
 	// Limits bound messages, calls, streams and connections; zero fields take DefaultLimits.
 	Limits Limits
@@ -171,6 +177,9 @@ func (s *Server) newGRPC(extra []grpc.ServerOption) *grpc.Server {
 			// The health checks of probes and balancers every few seconds are noise.
 			otelgrpc.WithFilter(func(info *stats.RPCTagInfo) bool { return !strings.HasPrefix(info.FullMethodName, "/grpc.health.v1.") }),
 		)))
+	}
+	if s.opts.TLS != nil {
+		own = append(own, grpc.Creds(s.grpcCreds(s.opts.TLS)))
 	}
 	g := grpc.NewServer(append(append(own, s.limits.serverOptions()...), extra...)...)
 	healthpb.RegisterHealthServer(g, s.health)
