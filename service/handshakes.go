@@ -9,7 +9,9 @@ import (
 	"log/slog"
 	"net"
 	"strings"
+	"sync/atomic"
 	"syscall"
+	"time"
 
 	"google.golang.org/grpc/credentials"
 )
@@ -68,11 +70,47 @@ type watchedCreds struct {
 }
 
 func (w watchedCreds) ServerHandshake(raw net.Conn) (net.Conn, credentials.AuthInfo, error) {
-	conn, info, err := w.TransportCredentials.ServerHandshake(raw)
+	// grpc-go closes the connection as soon as its handshake fails; the close is held
+	// back until the client had the alert (lingerForAlert).
+	held := &heldConn{Conn: raw}
+	held.holding.Store(true)
+	conn, info, err := w.TransportCredentials.ServerHandshake(held)
+	held.holding.Store(false)
 	if err != nil {
 		w.srv.handshakeRefused("grpc", raw.RemoteAddr().String(), err)
+		lingerForAlert(raw)
+		_ = raw.Close()
 	}
 	return conn, info, err
+}
+
+// heldConn is a connection whose Close does nothing while holding.
+type heldConn struct {
+	net.Conn
+	holding atomic.Bool
+}
+
+func (h *heldConn) Close() error {
+	if h.holding.Load() {
+		return nil
+	}
+	return h.Conn.Close()
+}
+
+// lingerForAlert gives a refused client the TLS alert crypto/tls sent: closed at once,
+// with the client's first bytes unread, the connection would be reset and the client
+// would see "broken pipe" or "connection reset" instead of, say, "remote error: tls:
+// error decoding message". So the write side is closed (the alert, then end of stream)
+// and what the client still sends is read and dropped until it closes, for at most a
+// second.
+func lingerForAlert(raw net.Conn) {
+	tcp, ok := raw.(*net.TCPConn)
+	if !ok {
+		return
+	}
+	_ = tcp.CloseWrite()
+	_ = tcp.SetReadDeadline(time.Now().Add(time.Second))
+	_, _ = io.Copy(io.Discard, io.LimitReader(tcp, 1<<20))
 }
 
 func (w watchedCreds) Clone() credentials.TransportCredentials {
