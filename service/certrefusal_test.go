@@ -298,6 +298,28 @@ func TestCertRefusalReasonsOverGRPC(t *testing.T) {
 		!strings.Contains(logged, "tls: failed to parse client certificate") {
 		t.Errorf("server log does not record the refused handshake with its peer and reason:\n%s", logged)
 	}
+
+	// Other refusals are counted by kind: plaintext sent to the TLS port, and a probe
+	// that connects and closes (logged at debug level only).
+	plain, err := net.Dial("tcp", cs.grpcAddr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, _ = plain.Write([]byte("PRI * HTTP/2.0\r\n\r\nSM\r\n\r\n"))
+	_, _ = io.Copy(io.Discard, plain) // until the server closes
+	_ = plain.Close()
+	probe, err := net.Dial("tcp", cs.grpcAddr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	_ = probe.Close()
+	deadline := time.Now().Add(5 * time.Second)
+	for (cs.refusals(t, "grpc", "not-tls") == "0" || cs.refusals(t, "grpc", "closed-by-peer") == "0") && time.Now().Before(deadline) {
+		time.Sleep(20 * time.Millisecond)
+	}
+	if a, b := cs.refusals(t, "grpc", "not-tls"), cs.refusals(t, "grpc", "closed-by-peer"); a != "1" || b != "1" {
+		t.Errorf("refusals of kind not-tls %s, closed-by-peer %s; want 1 each", a, b)
+	}
 }
 
 // TestCertIdentitiesOverHTTP: on the HTTP listener a client certificate acts as the same

@@ -37,7 +37,7 @@ func handshakeKind(err error) string {
 		strings.Contains(msg, "client sent an HTTP request to an HTTPS server"):
 		return "not-tls"
 	case errors.Is(err, io.EOF), errors.Is(err, syscall.ECONNRESET), errors.Is(err, net.ErrClosed),
-		strings.HasSuffix(msg, ": EOF"), strings.Contains(msg, "connection reset by peer"):
+		msg == "EOF", strings.HasSuffix(msg, ": EOF"), strings.Contains(msg, "connection reset by peer"):
 		return "closed-by-peer"
 	case strings.Contains(msg, "timeout"), strings.Contains(msg, "deadline exceeded"):
 		return "timeout"
@@ -88,6 +88,15 @@ func (w watchedCreds) ServerHandshake(raw net.Conn) (net.Conn, credentials.AuthI
 type heldConn struct {
 	net.Conn
 	holding atomic.Bool
+}
+
+// SyscallConn keeps the connection's socket reachable (grpc-go's channelz reads its
+// options through it).
+func (h *heldConn) SyscallConn() (syscall.RawConn, error) {
+	if sc, ok := h.Conn.(syscall.Conn); ok {
+		return sc.SyscallConn()
+	}
+	return nil, errors.New("not a socket")
 }
 
 func (h *heldConn) Close() error {
