@@ -70,8 +70,13 @@ func (s *Store) PutExemptions(ctx context.Context, es []Exemption) error {
 // ListExemptions returns the exemptions of one year (every year when year is 0) by Party,
 // year, scope, use and key.
 func (s *Store) ListExemptions(ctx context.Context, year int) (_ []Exemption, err error) {
+	return s.reader().ListExemptions(ctx, year)
+}
+
+// ListExemptions is Store.ListExemptions within the reader's transaction, if any.
+func (r Reader) ListExemptions(ctx context.Context, year int) (_ []Exemption, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT exemption_key, country_code, year, annex_scope, use_kind, amount::float8, unit, source, note
+	rows, err := r.q.Query(ctx, `SELECT exemption_key, country_code, year, annex_scope, use_kind, amount::float8, unit, source, note
 	    FROM authorised_exemptions WHERE ($1 = 0 OR year = $1)
 	    ORDER BY country_code, year, annex_scope, use_kind, exemption_key`, year)
 	if err != nil {
@@ -125,8 +130,13 @@ func (s *Store) PutOfficialFigures(ctx context.Context, fs []OfficialFigure) err
 
 // ListOfficialFigures returns every official figure by Party, kind, scope and year.
 func (s *Store) ListOfficialFigures(ctx context.Context) (_ []OfficialFigure, err error) {
+	return s.reader().ListOfficialFigures(ctx)
+}
+
+// ListOfficialFigures is Store.ListOfficialFigures within the reader's transaction, if any.
+func (r Reader) ListOfficialFigures(ctx context.Context) (_ []OfficialFigure, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT figure_key, country_code, kind, annex_scope, year, value::float8, unit, source
+	rows, err := r.q.Query(ctx, `SELECT figure_key, country_code, kind, annex_scope, year, value::float8, unit, source
 	    FROM official_figures ORDER BY country_code, kind, annex_scope, year`)
 	if err != nil {
 		return nil, err
@@ -196,8 +206,13 @@ func (s *Store) PutHFC23Entries(ctx context.Context, es []HFC23Entry) error {
 // ListHFC23Entries returns the facility entries of one year (every year when year is 0), by
 // year, facility.
 func (s *Store) ListHFC23Entries(ctx context.Context, year int) (_ []HFC23Entry, err error) {
+	return s.reader().ListHFC23Entries(ctx, year)
+}
+
+// ListHFC23Entries is Store.ListHFC23Entries within the reader's transaction, if any.
+func (r Reader) ListHFC23Entries(ctx context.Context, year int) (_ []HFC23Entry, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT entry_key, facility, year, generated_tonnes::float8, captured_used_tonnes::float8,
+	rows, err := r.q.Query(ctx, `SELECT entry_key, facility, year, generated_tonnes::float8, captured_used_tonnes::float8,
 	        destroyed_tonnes::float8, emitted_tonnes::float8, note
 	    FROM hfc23_facility_entries WHERE ($1 = 0 OR year = $1) ORDER BY year, facility`, year)
 	if err != nil {
@@ -251,8 +266,13 @@ func (s *Store) PutPartnerExports(ctx context.Context, rs []PartnerExport) error
 
 // ListPartnerExports returns the partner reports of one year by partner, substance, key.
 func (s *Store) ListPartnerExports(ctx context.Context, year int) (_ []PartnerExport, err error) {
+	return s.reader().ListPartnerExports(ctx, year)
+}
+
+// ListPartnerExports is Store.ListPartnerExports within the reader's transaction, if any.
+func (r Reader) ListPartnerExports(ctx context.Context, year int) (_ []PartnerExport, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT report_key, year, partner, substance, metric_tonnes::float8, source
+	rows, err := r.q.Query(ctx, `SELECT report_key, year, partner, substance, metric_tonnes::float8, source
 	    FROM partner_export_reports WHERE year = $1 ORDER BY partner, substance, report_key`, year)
 	if err != nil {
 		return nil, err
