@@ -152,7 +152,7 @@ func (c *consumptionServer) GetYearReport(ctx context.Context, req *halovetv1.Ge
 	year := int(req.GetYear())
 	rep, err := c.srv.yearReport(ctx, year)
 	if err != nil {
-		return nil, arithmeticError(ctx, c.srv, err)
+		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	return rep, nil
 }
@@ -226,7 +226,7 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 	}
 
 	transit := 0.0
-	uses := map[useKey]float64{}
+	uses := map[controls.UseKey]float64{}
 	for _, l := range lines {
 		r, ok, err := subOf(l.Designation)
 		if err != nil {
@@ -243,7 +243,7 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 		case "import":
 			tl := tradeLine(imports, l.PartnerCountry, r, l.PartnerNonParty)
 			tl.ShipmentIds = append(tl.ShipmentIds, l.ShipmentIDs...)
-			if recovered(l.Condition) {
+			if controls.Recovered(l.Condition) {
 				tl.RecoveredTonnes += m
 				continue
 			}
@@ -271,14 +271,14 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 			case exemptedPurpose(l.Purpose):
 				tl.ExemptedTonnes += m
 			}
-			if u := shipmentUse(store.ShipmentTotal{Direction: l.Direction, Purpose: l.Purpose, Condition: l.Condition}, r.sub.Group); u != "" {
-				uses[useKey{year, r.sub.Designation, u}] += m
+			if u := controls.ShipmentUse(l.Direction, l.Purpose, l.Condition, r.sub.Group); u != "" {
+				uses[controls.UseKey{Year: year, Substance: r.sub.Designation, Use: u}] += m
 			}
 		case "export", "re-export":
-			np := l.PartnerNonParty && year >= nonPartyExportsFrom
+			np := l.PartnerNonParty && year >= controls.NonPartyExportsFrom
 			tl := tradeLine(exports, l.PartnerCountry, r, np)
 			tl.ShipmentIds = append(tl.ShipmentIds, l.ShipmentIDs...)
-			if recovered(l.Condition) {
+			if controls.Recovered(l.Condition) {
 				tl.RecoveredTonnes += m
 				continue
 			}
@@ -315,8 +315,8 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 		if t.OutsideCustoms {
 			basis = "outside-customs"
 		}
-		if deductedUse(t.Type) && !t.OutsideCustoms {
-			if _, dup := uses[useKey{year, r.sub.Designation, t.Type}]; dup {
+		if controls.DeductedUse(t.Type) && !t.OutsideCustoms {
+			if _, dup := uses[controls.UseKey{Year: year, Substance: r.sub.Designation, Use: t.Type}]; dup {
 				addNote(fmt.Sprintf("national %s entries of %s (%s) left out: shipments declared for the use are deducted already", t.Type, t.Substance, strings.Join(t.Keys, ", ")))
 				continue
 			}
@@ -341,7 +341,7 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 			tl.EntryKeys = append(tl.EntryKeys, t.Keys...)
 			r.imports += m
 		case store.EntryHistoricalExport, store.EntryHistoricalExportNonParty:
-			np := t.Type == store.EntryHistoricalExportNonParty && year >= nonPartyExportsFrom
+			np := t.Type == store.EntryHistoricalExportNonParty && year >= controls.NonPartyExportsFrom
 			tl := tradeLine(exports, "", r, np)
 			tl.NewTonnes += m
 			tl.EntryKeys = append(tl.EntryKeys, t.Keys...)
@@ -420,7 +420,7 @@ func (s *Server) yearReport(ctx context.Context, year int) (*halovetv1.GetYearRe
 		out.Hfc23 = append(out.Hfc23, hfc23ToProto(e, gwp))
 	}
 	if transit > 0 {
-		addNote(fmt.Sprintf("%s t in transit left out (neither imported nor exported)", fmtT(transit)))
+		addNote(fmt.Sprintf("%s t in transit left out (neither imported nor exported)", controls.FormatTonnes(transit)))
 	}
 	if len(out.Hfc23) > 0 {
 		addNote("HFC-23 by-product (generation, capture, destruction, emission per facility) is reported beside Annex F consumption and is not part of it (Art. 2J paras 6-7; Art. 3 para 1(d); Art. 7 para 3 ter)")

@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"slices"
 	"strings"
 
 	"google.golang.org/grpc/codes"
@@ -67,7 +66,7 @@ func (s *Server) countryOrReporting(ctx context.Context, f, cc string) (string, 
 		}
 		return cc, nil, nil
 	}
-	p, _, err := s.reportingParty(ctx)
+	p, err := s.reportingParty(ctx)
 	if err != nil {
 		return "", nil, err
 	}
@@ -258,74 +257,4 @@ func (c *consumptionServer) ListOfficialFigures(ctx context.Context, _ *halovetv
 		out.Figures = append(out.Figures, officialToProto(f))
 	}
 	return out, nil
-}
-
-// overrides reads the reporting Party's official figures and exemptions for a scope.
-func (s *Server) overrides(ctx context.Context, country string, scope controls.Scope) (controls.Overrides, error) {
-	ov := controls.Overrides{Limits: map[int]controls.OfficialFigure{}, Exemptions: map[int][]controls.Exemption{}}
-	fs, err := s.store.ListOfficialFigures(ctx)
-	if err != nil {
-		return ov, err
-	}
-	for _, f := range fs {
-		if f.CountryCode != country || f.Scope != string(scope) {
-			continue
-		}
-		of := controls.OfficialFigure{Value: f.Value, Source: f.Source}
-		if f.Kind == "baseline" {
-			ov.Baseline = &of
-		} else {
-			ov.Limits[f.Year] = of
-		}
-	}
-	es, err := s.store.ListExemptions(ctx, 0)
-	if err != nil {
-		return ov, err
-	}
-	for _, e := range es {
-		if e.CountryCode == country && e.Scope == string(scope) {
-			ov.Exemptions[e.Year] = append(ov.Exemptions[e.Year], controls.Exemption{Use: controls.ExemptionUse(e.Use), Amount: e.Amount, Source: e.Source})
-		}
-	}
-	return ov, nil
-}
-
-// exemptionPurpose is the declared purpose of the shipments of an exempted use.
-var exemptionPurpose = map[controls.ExemptionUse]string{
-	controls.UseEssential: "essential-use", controls.UseCritical: "critical-use", controls.UseLaboratory: "laboratory",
-}
-
-// exemptedUseNotes compares each authorised exemption of a year with the imports declared
-// for its use, in the scope's unit: an exemption raises the limit, and the notes show how
-// much of it recorded imports for the use cover (domestic production for the use is not
-// in the register's shipments, so the rest is for the officer to check).
-func (s *Server) exemptedUseNotes(ctx context.Context, scope controls.Scope, year int, es []controls.Exemption) ([]string, error) {
-	ships, err := s.store.ShipmentTotals(ctx, []int{year})
-	if err != nil {
-		return nil, err
-	}
-	cat := s.cat.Load()
-	unit := scope.Unit()
-	declared := map[string]float64{}
-	for _, t := range ships {
-		sub, ok := cat.Substance(t.Designation)
-		if !ok || t.Direction != "import" || recovered(t.Condition) || !slices.Contains(scope.Groups(), sub.Group) {
-			continue
-		}
-		f := sub.ODP
-		if unit == controls.UnitCO2eTonnes {
-			f = sub.ProtocolGWP()
-		}
-		declared[t.Purpose] += t.Tonnes * f
-	}
-	var notes []string
-	for _, e := range es {
-		p, ok := exemptionPurpose[e.Use]
-		if !ok {
-			continue // high-ambient-temperature: no declared purpose of its own
-		}
-		notes = append(notes, fmt.Sprintf("%s-use exemption %s %s; imports declared for %s: %s %s (production for the use, if any, is not in the shipments)",
-			e.Use, fmtT(e.Amount), unit, p, fmtT(declared[p]), unit))
-	}
-	return notes, nil
 }

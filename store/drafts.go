@@ -22,10 +22,21 @@ func (e *NotDraftError) Error() string {
 // Unwrap makes errors.Is(err, ErrConflict) true.
 func (e *NotDraftError) Unwrap() error { return ErrConflict }
 
+// UnknownCompanyError: a draft is for a company that is not registered.
+type UnknownCompanyError struct{ CompanyID string }
+
+func (e *UnknownCompanyError) Error() string {
+	return fmt.Sprintf("company %q is not registered", e.CompanyID)
+}
+
+// Unwrap makes errors.Is(err, ErrNotFound) true.
+func (e *UnknownCompanyError) Unwrap() error { return ErrNotFound }
+
 // IssueDrafts stores the licences of one quota plan, all in one transaction: each is
 // issued when its number is new, and amended to the new terms when a licence of that
 // number exists and is still a draft. A licence of that number that is no longer a draft
-// fails the whole plan with a *NotDraftError, and a company not registered with ErrNotFound:
+// fails the whole plan with a *NotDraftError, and a company not registered with an
+// *UnknownCompanyError:
 // either way no draft of the plan is stored. Every licence must have status "draft".
 // effectiveOn is the day an amendment takes effect in the history.
 func (s *Store) IssueDrafts(ctx context.Context, ls []Licence, reason string, effectiveOn time.Time) error {
@@ -55,7 +66,7 @@ func issueDraftTx(ctx context.Context, tx pgx.Tx, l Licence, reason string, effe
 		return err
 	}
 	if !known {
-		return notFound("company", l.CompanyID)
+		return &UnknownCompanyError{CompanyID: l.CompanyID}
 	}
 	var status string
 	err := tx.QueryRow(ctx, `SELECT status FROM licences WHERE licence_number = $1 FOR UPDATE`, l.Number).Scan(&status)
