@@ -182,7 +182,7 @@ func overrides(ctx context.Context, r ReportReader, country string, scope contro
 			ov.Limits[f.Year] = of
 		}
 	}
-	es, err := r.Exemptions(ctx)
+	es, err := r.Exemptions(ctx, 0)
 	if err != nil {
 		return ov, err
 	}

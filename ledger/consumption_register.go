@@ -3,6 +3,7 @@ package ledger
 import (
 	"context"
 	"errors"
+	"time"
 
 	"github.com/halovet/halovet/controls"
 )
@@ -25,12 +26,39 @@ type OfficialFigure struct {
 
 // Exemption is one authorised exemption of one Party, scope and year.
 type Exemption struct {
+	Key         string
 	CountryCode string
 	Year        int
 	Scope       string
 	Use         string // essential, critical, laboratory, high-ambient-temperature
 	Amount      float64
+	Unit        string // "ODP t" or "CO2-eq t"
 	Source      string
+	Note        string
+}
+
+// ShipmentLine is the mass of one substance in the recorded shipments of one year that
+// share partner, direction, purpose, condition and partner status, with the ids of the
+// shipments behind it.
+type ShipmentLine struct {
+	Year            int
+	PartnerCountry  string
+	Designation     string
+	AnnexGroup      string
+	Direction       string
+	Purpose         string
+	Condition       string
+	PartnerNonParty bool
+	Tonnes          float64
+	ShipmentIDs     []int64
+}
+
+// ClosedYear says when and why a reporting year was closed.
+type ClosedYear struct {
+	Year     int
+	ClosedAt time.Time
+	ClosedBy string
+	Reason   string
 }
 
 // HFC23Entry is one facility's HFC-23 by-product in one year, metric tonnes.
@@ -66,8 +94,13 @@ type ReportReader interface {
 	ReportingParty(ctx context.Context) (Party, error)
 	// OfficialFigures returns every official figure.
 	OfficialFigures(ctx context.Context) ([]OfficialFigure, error)
-	// Exemptions returns every authorised exemption.
-	Exemptions(ctx context.Context) ([]Exemption, error)
+	// Exemptions returns the authorised exemptions of one year (every year when 0).
+	Exemptions(ctx context.Context, year int) ([]Exemption, error)
+	// ShipmentLines sums one year's recorded shipment components per partner, substance,
+	// direction, purpose, condition and partner status; the same rows as ShipmentTotals.
+	ShipmentLines(ctx context.Context, year int) ([]ShipmentLine, error)
+	// YearClosed reports whether a reporting year is closed, and since when and why.
+	YearClosed(ctx context.Context, year int) (ClosedYear, bool, error)
 	// HFC23Entries returns the facility entries of one year.
 	HFC23Entries(ctx context.Context, year int) ([]HFC23Entry, error)
 	// CompanyImports sums per company and year the recorded imports counting in

@@ -99,13 +99,27 @@ func (s snapshotReader) OfficialFigures(ctx context.Context) ([]ledger.OfficialF
 	return out, err
 }
 
-func (s snapshotReader) Exemptions(ctx context.Context) ([]ledger.Exemption, error) {
-	es, err := s.r.ListExemptions(ctx, 0)
+func (s snapshotReader) Exemptions(ctx context.Context, year int) ([]ledger.Exemption, error) {
+	es, err := s.r.ListExemptions(ctx, year)
 	out := make([]ledger.Exemption, len(es))
 	for i, e := range es {
-		out[i] = ledger.Exemption{CountryCode: e.CountryCode, Year: e.Year, Scope: e.Scope, Use: e.Use, Amount: e.Amount, Source: e.Source}
+		out[i] = ledger.Exemption(e)
 	}
 	return out, err
+}
+
+func (s snapshotReader) ShipmentLines(ctx context.Context, year int) ([]ledger.ShipmentLine, error) {
+	ls, err := s.r.ShipmentLines(ctx, year)
+	out := make([]ledger.ShipmentLine, len(ls))
+	for i, l := range ls {
+		out[i] = ledger.ShipmentLine(l)
+	}
+	return out, err
+}
+
+func (s snapshotReader) YearClosed(ctx context.Context, year int) (ledger.ClosedYear, bool, error) {
+	c, closed, err := s.r.YearClosed(ctx, year)
+	return ledger.ClosedYear(c), closed, err
 }
 
 func (s snapshotReader) HFC23Entries(ctx context.Context, year int) ([]ledger.HFC23Entry, error) {
