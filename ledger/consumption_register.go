@@ -16,11 +16,13 @@ var ErrNoReportingParty = errors.New("no reporting Party is configured")
 
 // OfficialFigure is a baseline (Year 0) or a year's limit as officially set.
 type OfficialFigure struct {
+	Key         string
 	CountryCode string
 	Kind        string // "baseline" or "limit"
 	Scope       string // Annex group or "F"
 	Year        int
 	Value       float64
+	Unit        string // "ODP t" or "CO2-eq t"
 	Source      string
 }
 
@@ -99,6 +101,8 @@ type ReportReader interface {
 	// ShipmentLines sums one year's recorded shipment components per partner, substance,
 	// direction, purpose, condition and partner status; the same rows as ShipmentTotals.
 	ShipmentLines(ctx context.Context, year int) ([]ShipmentLine, error)
+	// PartnerExports returns the partners' export figures of one year.
+	PartnerExports(ctx context.Context, year int) ([]PartnerExport, error)
 	// YearClosed reports whether a reporting year is closed, and since when and why.
 	YearClosed(ctx context.Context, year int) (ClosedYear, bool, error)
 	// HFC23Entries returns the facility entries of one year.

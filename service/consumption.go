@@ -2,22 +2,13 @@ package service
 
 import (
 	"context"
-	"errors"
 	"fmt"
-	"math"
 	"slices"
-	"strings"
-	"unicode"
-	"unicode/utf8"
-
-	"google.golang.org/grpc/codes"
-	"google.golang.org/grpc/status"
 
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
-	"github.com/halovet/halovet/substances"
 )
 
 // ConsumptionService: national entries, consumption, baselines, compliance and quota
@@ -37,138 +28,25 @@ var entryTypeText = map[halovetv1.EntryType]string{
 
 var entryTypeEnum = invert(entryTypeText)
 
-// Limits of one RecordNationalEntries call and of its fields.
-const (
-	maxEntriesPerCall = 10000
-	maxEntryKeyBytes  = 128
-	maxEntryNoteBytes = 1000
-	maxEntryTonnes    = 1e9  // a billion tonnes: far above any national figure
-	firstEntryYear    = 1986 // the earliest base year (Annex A, non-Article 5)
-)
-
-func printableText(s string) bool {
-	if !utf8.ValidString(s) {
-		return false
-	}
-	for _, r := range s {
-		if !unicode.IsPrint(r) {
-			return false
-		}
-	}
-	return true
-}
-
-// entryFromProto validates one entry; f is its field path.
-func (s *Server) entryFromProto(f string, e *halovetv1.NationalEntry, cat *substances.Catalogue) (store.NationalEntry, []fieldViolation) {
-	var vs []fieldViolation
-	out := store.NationalEntry{Key: strings.TrimSpace(e.GetEntryKey()), Year: int(e.GetYear()), Note: strings.TrimSpace(e.GetNote())}
-	switch {
-	case out.Key == "":
-		vs = append(vs, fieldViolation{f + ".entry_key", "must not be empty; give each entry a key of your own, e.g. PROD-2025-HCFC-22"})
-	case len(out.Key) > maxEntryKeyBytes || !printableText(out.Key):
-		vs = append(vs, fieldViolation{f + ".entry_key", fmt.Sprintf("must be printable text of at most %d bytes", maxEntryKeyBytes)})
-	}
-	if out.Year < firstEntryYear || out.Year > controls.MaxYear {
-		vs = append(vs, fieldViolation{f + ".year", fmt.Sprintf("is %d; accepted: a calendar year from %d to %d", out.Year, firstEntryYear, controls.MaxYear)})
-	}
-	t, ok := entryTypeText[e.GetEntryType()]
-	if !ok {
-		vs = append(vs, fieldViolation{f + ".entry_type", "must be PRODUCTION, DESTRUCTION, FEEDSTOCK, QPS, HISTORICAL_IMPORT, HISTORICAL_EXPORT or HISTORICAL_EXPORT_NON_PARTY"})
-	}
-	out.Type = t
-	name := strings.TrimSpace(e.GetSubstance())
-	sub, found := cat.Substance(name)
-	switch {
-	case name == "":
-		vs = append(vs, fieldViolation{f + ".substance", "must not be empty; give a designation such as HCFC-22"})
-	case !found:
-		if b, isBlend := cat.Blend(name); isBlend {
-			parts := make([]string, len(b.Components))
-			for i, c := range b.Components {
-				parts[i] = fmt.Sprintf("%s %g %%", c.Designation, c.MassPct)
-			}
-			vs = append(vs, fieldViolation{f + ".substance", fmt.Sprintf(
-				"%s is a blend; national entries are per substance: split it into one entry per controlled component by nominal mass (%s)",
-				b.Designation, strings.Join(parts, ", "))})
-			break
-		}
-		msg := fmt.Sprintf("%q is not a catalogue substance", name)
-		if r := cat.Resolve(name); len(r.Suggestions) > 0 {
-			msg += "; did you mean " + strings.Join(r.Suggestions, ", ") + "?"
-		}
-		vs = append(vs, fieldViolation{f + ".substance", msg})
-	case !sub.Group.Controlled():
-		vs = append(vs, fieldViolation{f + ".substance", fmt.Sprintf("%s is not controlled by the Montreal Protocol; national entries are for substances of Annexes A to F", sub.Designation)})
-	default:
-		out.Substance = sub.Designation
-		if t == store.EntryQPS && sub.Group != substances.GroupEI {
-			vs = append(vs, fieldViolation{f + ".entry_type", fmt.Sprintf("QPS applies to methyl bromide (Annex E) only, not to %s", sub.Designation)})
-		}
-	}
-	out.OutsideCustoms = e.GetOutsideCustoms()
-	if out.OutsideCustoms && t != "" && !controls.DeductedUse(t) && t != store.EntryProduction {
-		vs = append(vs, fieldViolation{f + ".outside_customs", "must be false for historical trade totals (they passed customs); accepted: true only for production, destruction, feedstock and QPS entries"})
-	}
-	if t == store.EntryDestruction && out.Substance == "HFC-23" {
-		vs = append(vs, fieldViolation{f + ".entry_type", "HFC-23 destroyed at a plant is by-product, not a deduction from consumption (Art. 2J paras 6-7; Art. 3 para 1(d)): record it as an HFC-23 facility entry (RecordHfc23Entries); HFC-23 imported for destruction is deducted through the shipment's declared purpose"})
-	}
-	out.Tonnes = e.GetMetricTonnes()
-	if math.IsNaN(out.Tonnes) || out.Tonnes < 0 || out.Tonnes > maxEntryTonnes {
-		vs = append(vs, fieldViolation{f + ".metric_tonnes", fmt.Sprintf("is %v; accepted: metric tonnes from 0 to %g", out.Tonnes, float64(maxEntryTonnes))})
-	}
-	if len(out.Note) > maxEntryNoteBytes || !printableText(out.Note) {
-		vs = append(vs, fieldViolation{f + ".note", fmt.Sprintf("must be printable text of at most %d bytes", maxEntryNoteBytes)})
-	}
-	return out, vs
-}
-
 func entryToProto(e store.NationalEntry) *halovetv1.NationalEntry {
 	return &halovetv1.NationalEntry{EntryKey: e.Key, Year: int32(e.Year), EntryType: entryTypeEnum[e.Type],
 		Substance: e.Substance, MetricTonnes: e.Tonnes, Note: e.Note, OutsideCustoms: e.OutsideCustoms}
 }
 
 func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halovetv1.RecordNationalEntriesRequest) (*halovetv1.RecordNationalEntriesResponse, error) {
-	in := req.GetEntries()
-	if len(in) == 0 {
-		return nil, invalid(fieldViolation{"entries", "is empty; give at least one entry"})
+	in := make([]ledger.NationalEntry, len(req.GetEntries()))
+	for i, e := range req.GetEntries() {
+		in[i] = ledger.NationalEntry{Key: e.GetEntryKey(), Year: int(e.GetYear()), Kind: entryTypeText[e.GetEntryType()],
+			Substance: e.GetSubstance(), Tonnes: e.GetMetricTonnes(), Note: e.GetNote(), OutsideCustoms: e.GetOutsideCustoms()}
 	}
-	if len(in) > maxEntriesPerCall {
-		return nil, invalid(fieldViolation{"entries", fmt.Sprintf("holds %d entries; at most %d per call", len(in), maxEntriesPerCall)})
-	}
-	cat := c.srv.cat.Load()
-	var vs []fieldViolation
-	entries := make([]store.NationalEntry, 0, len(in))
-	first := map[string]int{}
-	for i, e := range in {
-		f := fmt.Sprintf("entries[%d]", i)
-		se, bad := c.srv.entryFromProto(f, e, cat)
-		vs = append(vs, bad...)
-		if j, dup := first[se.Key]; dup && se.Key != "" {
-			vs = append(vs, fieldViolation{f + ".entry_key", fmt.Sprintf("%q is also the key of entries[%d]; each key once per call", se.Key, j)})
-		} else {
-			first[se.Key] = i
-		}
-		entries = append(entries, se)
-	}
-	if len(vs) > 0 {
-		return nil, invalid(vs...) // nothing stored
-	}
-	// One source per quantity: a whole-year entry of a use the shipments already deduct
-	// would count that use twice. (A shipment recorded after the entry is caught when the
-	// year is computed: the entry is then left out with a note.)
-	vs, err := c.srv.doubleCountViolations(ctx, entries)
+	entries, err := c.srv.figures.RecordNationalEntries(ctx, in)
 	if err != nil {
-		return nil, toStatus(ctx, c.srv.log, err)
-	}
-	if len(vs) > 0 {
-		return nil, invalid(vs...)
-	}
-	if err := c.srv.store.PutNationalEntries(ctx, entries); err != nil {
-		return nil, toStatus(ctx, c.srv.log, err)
+		return nil, c.srv.ledgerStatus(ctx, err)
 	}
 	out := &halovetv1.RecordNationalEntriesResponse{Stored: int32(len(entries))}
 	for _, e := range entries {
-		out.Entries = append(out.Entries, entryToProto(e))
+		out.Entries = append(out.Entries, entryToProto(store.NationalEntry{Key: e.Key, Year: e.Year, Type: e.Kind,
+			Substance: e.Substance, Tonnes: e.Tonnes, Note: e.Note, OutsideCustoms: e.OutsideCustoms}))
 	}
 	return out, nil
 }
@@ -195,24 +73,6 @@ func checkQueryYear(field string, y int32) *fieldViolation {
 		return &fieldViolation{v.Field, v.Why}
 	}
 	return nil
-}
-
-// reportingParty reads the reporting Party (for the year figures' default country),
-// refusing settings the control schedules cannot use.
-func (s *Server) reportingParty(ctx context.Context) (store.Party, error) {
-	p, err := s.store.ReportingParty(ctx)
-	if errors.Is(err, store.ErrNoReportingParty) {
-		return p, status.Error(codes.FailedPrecondition,
-			"no reporting Party is configured: load the party settings and name the reporting country (SetReportingParty, 'halovet reporting-party CODE', or reporting_party set in a first 'halovet load scenario.json')")
-	}
-	if err != nil {
-		return p, toStatus(ctx, s.log, err)
-	}
-	lp, err := partyFromStore(p)
-	if err == nil {
-		_, err = ledger.CheckReportingParty(lp)
-	}
-	return p, s.ledgerStatus(ctx, err)
 }
 
 func (c *consumptionServer) GetConsumption(ctx context.Context, req *halovetv1.GetConsumptionRequest) (*halovetv1.GetConsumptionResponse, error) {

@@ -3,6 +3,7 @@ package service
 import (
 	"context"
 	"errors"
+	"fmt"
 	"time"
 
 	"github.com/halovet/halovet/controls"
@@ -94,7 +95,7 @@ func (s snapshotReader) OfficialFigures(ctx context.Context) ([]ledger.OfficialF
 	fs, err := s.r.ListOfficialFigures(ctx)
 	out := make([]ledger.OfficialFigure, len(fs))
 	for i, f := range fs {
-		out[i] = ledger.OfficialFigure{CountryCode: f.CountryCode, Kind: f.Kind, Scope: f.Scope, Year: f.Year, Value: f.Value, Source: f.Source}
+		out[i] = ledger.OfficialFigure(f)
 	}
 	return out, err
 }
@@ -138,4 +139,58 @@ func (s snapshotReader) CompanyImports(ctx context.Context, groups []string, uni
 		out[i] = ledger.CompanyAmount(a)
 	}
 	return out, err
+}
+
+func (s snapshotReader) PartnerExports(ctx context.Context, year int) ([]ledger.PartnerExport, error) {
+	rs, err := s.r.ListPartnerExports(ctx, year)
+	out := make([]ledger.PartnerExport, len(rs))
+	for i, r := range rs {
+		out[i] = ledger.PartnerExport(r)
+	}
+	return out, err
+}
+
+// figureWriter adapts the store to ledger.FigureWriter.
+type figureWriter struct{ st *store.Store }
+
+var _ ledger.FigureWriter = figureWriter{}
+
+// duplicate marks the store's unique violation of a figure stored under another key.
+func duplicate(err error) error {
+	if errors.Is(err, store.ErrAlreadyExists) {
+		return fmt.Errorf("%w: %w", err, ledger.ErrDuplicate)
+	}
+	return err
+}
+
+func (w figureWriter) PutNationalEntries(ctx context.Context, es []ledger.NationalEntry) error {
+	out := make([]store.NationalEntry, len(es))
+	for i, e := range es {
+		out[i] = store.NationalEntry{Key: e.Key, Year: e.Year, Type: e.Kind, Substance: e.Substance, Tonnes: e.Tonnes, Note: e.Note, OutsideCustoms: e.OutsideCustoms}
+	}
+	return w.st.PutNationalEntries(ctx, out)
+}
+
+func (w figureWriter) PutExemptions(ctx context.Context, es []ledger.Exemption) error {
+	return w.st.PutExemptions(ctx, convertAll[store.Exemption](es, func(e ledger.Exemption) store.Exemption { return store.Exemption(e) }))
+}
+
+func (w figureWriter) PutOfficialFigures(ctx context.Context, fs []ledger.OfficialFigure) error {
+	return duplicate(w.st.PutOfficialFigures(ctx, convertAll[store.OfficialFigure](fs, func(f ledger.OfficialFigure) store.OfficialFigure { return store.OfficialFigure(f) })))
+}
+
+func (w figureWriter) PutHFC23Entries(ctx context.Context, es []ledger.HFC23Entry) error {
+	return duplicate(w.st.PutHFC23Entries(ctx, convertAll[store.HFC23Entry](es, func(e ledger.HFC23Entry) store.HFC23Entry { return store.HFC23Entry(e) })))
+}
+
+func (w figureWriter) PutPartnerExports(ctx context.Context, rs []ledger.PartnerExport) error {
+	return w.st.PutPartnerExports(ctx, convertAll[store.PartnerExport](rs, func(r ledger.PartnerExport) store.PartnerExport { return store.PartnerExport(r) }))
+}
+
+func convertAll[T, F any](in []F, f func(F) T) []T {
+	out := make([]T, len(in))
+	for i, x := range in {
+		out[i] = f(x)
+	}
+	return out
 }

@@ -2,12 +2,6 @@ package service
 
 import (
 	"context"
-	"errors"
-	"fmt"
-	"strings"
-
-	"google.golang.org/grpc/codes"
-	"google.golang.org/grpc/status"
 
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -23,70 +17,19 @@ import (
 const hfc23Designation = "HFC-23"
 
 func (c *consumptionServer) RecordHfc23Entries(ctx context.Context, req *halovetv1.RecordHfc23EntriesRequest) (*halovetv1.RecordHfc23EntriesResponse, error) {
-	in := req.GetEntries()
-	if len(in) == 0 || len(in) > maxYearFigures {
-		return nil, invalid(fieldViolation{"entries", fmt.Sprintf("holds %d entries; give 1 to %d", len(in), maxYearFigures)})
+	in := make([]ledger.HFC23Entry, len(req.GetEntries()))
+	for i, e := range req.GetEntries() {
+		in[i] = ledger.HFC23Entry{Key: e.GetEntryKey(), Facility: e.GetFacility(), Year: int(e.GetYear()), Generated: e.GetGeneratedTonnes(),
+			CapturedUsed: e.GetCapturedUsedTonnes(), Destroyed: e.GetDestroyedTonnes(), Emitted: e.GetEmittedTonnes(), Note: e.GetNote()}
 	}
-	var vs []fieldViolation
-	add := func(v *fieldViolation) {
-		if v != nil {
-			vs = append(vs, *v)
-		}
-	}
-	out := make([]store.HFC23Entry, 0, len(in))
-	seen := map[string]int{}
-	facYear := map[string]int{}
-	for i, e := range in {
-		f := fmt.Sprintf("entries[%d]", i)
-		var se store.HFC23Entry
-		var v *fieldViolation
-		se.Key, v = keyText(f+".entry_key", e.GetEntryKey(), "HFC23-2025-PLANT-1")
-		add(v)
-		if j, dup := seen[se.Key]; dup && se.Key != "" {
-			add(&fieldViolation{f + ".entry_key", fmt.Sprintf("%q is also the key of entries[%d]; each key once per call", se.Key, j)})
-		}
-		seen[se.Key] = i
-		se.Facility = strings.TrimSpace(e.GetFacility())
-		if se.Facility == "" || len(se.Facility) > maxEntryKeyBytes || !printableText(se.Facility) {
-			add(&fieldViolation{f + ".facility", fmt.Sprintf("must name the facility (printable text of 1 to %d bytes)", maxEntryKeyBytes)})
-		}
-		se.Year = int(e.GetYear())
-		add(checkQueryYear(f+".year", e.GetYear()))
-		fy := fmt.Sprintf("%s/%d", se.Facility, se.Year)
-		if j, dup := facYear[fy]; dup {
-			add(&fieldViolation{f + ".facility", fmt.Sprintf("%s in %d is also in entries[%d]; one entry per facility and year", se.Facility, se.Year, j)})
-		}
-		facYear[fy] = i
-		se.Generated, se.CapturedUsed, se.Destroyed, se.Emitted = e.GetGeneratedTonnes(), e.GetCapturedUsedTonnes(), e.GetDestroyedTonnes(), e.GetEmittedTonnes()
-		for _, q := range []struct {
-			name string
-			v    float64
-		}{{"generated_tonnes", se.Generated}, {"captured_used_tonnes", se.CapturedUsed}, {"destroyed_tonnes", se.Destroyed}, {"emitted_tonnes", se.Emitted}} {
-			if !amountOK(q.v) || q.v > maxEntryTonnes {
-				add(&fieldViolation{f + "." + q.name, fmt.Sprintf("is %v; accepted: metric tonnes from 0 to %g", q.v, float64(maxEntryTonnes))})
-			}
-		}
-		if parts := se.CapturedUsed + se.Destroyed + se.Emitted; parts > se.Generated*(1+1e-9)+1e-9 {
-			add(&fieldViolation{f + ".generated_tonnes", fmt.Sprintf("is %v t, less than captured + destroyed + emitted = %v t; what leaves a facility cannot exceed what it generated", se.Generated, parts)})
-		}
-		se.Note = strings.TrimSpace(e.GetNote())
-		if len(se.Note) > maxEntryNoteBytes || !printableText(se.Note) {
-			add(&fieldViolation{f + ".note", fmt.Sprintf("must be printable text of at most %d bytes", maxEntryNoteBytes)})
-		}
-		out = append(out, se)
-	}
-	if len(vs) > 0 {
-		return nil, invalid(vs...)
-	}
-	if err := c.srv.store.PutHFC23Entries(ctx, out); errors.Is(err, store.ErrAlreadyExists) {
-		return nil, status.Errorf(codes.AlreadyExists, "%v: the facility's figures for that year are stored under another entry_key; send them under that key to replace them (ListHfc23Entries shows the keys); nothing was stored", err)
-	} else if err != nil {
-		return nil, toStatus(ctx, c.srv.log, err)
+	es, err := c.srv.figures.RecordHFC23Entries(ctx, in)
+	if err != nil {
+		return nil, c.srv.ledgerStatus(ctx, err)
 	}
 	gwp := c.srv.hfc23GWP()
 	resp := &halovetv1.RecordHfc23EntriesResponse{}
-	for _, e := range out {
-		resp.Entries = append(resp.Entries, hfc23ToProto(e, gwp))
+	for _, e := range es {
+		resp.Entries = append(resp.Entries, hfc23ToProto(store.HFC23Entry(e), gwp))
 	}
 	return resp, nil
 }

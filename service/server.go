@@ -82,6 +82,7 @@ type Server struct {
 	m        *metrics
 	env      *ledger.EnvHolder   // the check environment, rebuilt on every announced register change
 	cons     *ledger.Consumption // consumption, baselines, compliance and quota planning
+	figures  *ledger.Figures     // the reporting Party's national entries and year figures
 	limits   Limits
 	inFlight *limiter
 	auth     *access.Authenticator
@@ -122,6 +123,7 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st, opts.Version, opts.Revision)}
 	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
 	s.cons = ledger.NewConsumption(reportSource{st: st, today: s.today}, ledger.ConsumptionOptions{Catalogue: cat.Load, Drafts: reportSource{st: st, today: s.today}, Now: opts.Now})
+	s.figures = ledger.NewFigures(s.cons, figureWriter{st})
 	s.auth = opts.Authenticator
 	if s.auth == nil {
 		s.auth = access.NewAuthenticator(st, access.AuthOptions{Now: opts.Now})
