@@ -28,6 +28,23 @@ var officialKindText = map[halovetv1.OfficialFigureKind]string{
 
 var officialKindEnum = invert(officialKindText)
 
+func (c *consumptionServer) RecordExemptions(ctx context.Context, req *halovetv1.RecordExemptionsRequest) (*halovetv1.RecordExemptionsResponse, error) {
+	in := make([]ledger.Exemption, len(req.GetExemptions()))
+	for i, e := range req.GetExemptions() {
+		in[i] = ledger.Exemption{Key: e.GetExemptionKey(), CountryCode: e.GetCountryCode(), Year: int(e.GetYear()), Scope: e.GetAnnexGroup(),
+			Use: exemptedUseText[e.GetUse()], Amount: e.GetAmount(), Source: e.GetSource(), Note: e.GetNote()}
+	}
+	es, err := c.srv.figures.RecordExemptions(ctx, in)
+	if err != nil {
+		return nil, c.srv.ledgerStatus(ctx, err)
+	}
+	resp := &halovetv1.RecordExemptionsResponse{}
+	for _, e := range es {
+		resp.Exemptions = append(resp.Exemptions, exemptionToProto(store.Exemption(e)))
+	}
+	return resp, nil
+}
+
 func exemptionToProto(e store.Exemption) *halovetv1.AuthorisedExemption {
 	return &halovetv1.AuthorisedExemption{ExemptionKey: e.Key, CountryCode: e.CountryCode, Year: int32(e.Year), AnnexGroup: e.Scope,
 		Use: exemptedUseEnum[e.Use], Amount: e.Amount, Unit: e.Unit, Source: e.Source, Note: e.Note}
