@@ -194,3 +194,7 @@ func convertAll[T, F any](in []F, f func(F) T) []T {
 	}
 	return out
 }
+
+// NewFigureWriter adapts st to ledger.FigureWriter (for tests of the ledger on a real
+// register).
+func NewFigureWriter(st *store.Store) ledger.FigureWriter { return figureWriter{st} }
