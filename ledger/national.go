@@ -86,6 +86,8 @@ type batch struct {
 	vs   []FieldViolation
 	seen map[string]int
 	list string // the request's list field, e.g. "entries"
+	// reporting is the reporting Party's code once read (an empty country stands for it).
+	reporting *string
 }
 
 func newBatch(list string, n, max int, what string) (*batch, error) {
@@ -176,12 +178,18 @@ func (x *Figures) country(ctx context.Context, b *batch, f, cc string) (string, 
 		}
 		return cc, nil
 	}
+	if b.reporting != nil {
+		return *b.reporting, nil
+	}
 	var p Party
 	err := x.cons.reports.Snapshot(ctx, func(r ReportReader) error {
 		var err error
 		p, _, err = reportingParty(ctx, r)
 		return err
 	})
+	if err == nil {
+		b.reporting = &p.Code
+	}
 	return p.Code, err
 }
 
