@@ -86,7 +86,9 @@ type Server struct {
 	health   *health.Server
 	cat      *CatalogueHolder
 	m        *metrics
-	env      *ledger.EnvHolder // the check environment, rebuilt on every announced register change
+	env      *ledger.EnvHolder   // the check environment, rebuilt on every announced register change
+	cons     *ledger.Consumption // consumption, baselines, compliance and quota planning
+	figures  *ledger.Figures     // the reporting Party's national entries and year figures
 	limits   Limits
 	inFlight *limiter
 	auth     *access.Authenticator
@@ -126,6 +128,8 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	opts.Version, opts.Revision = buildVersion(opts.Version, opts.Revision)
 	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st, opts.Version, opts.Revision)}
 	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
+	s.cons = ledger.NewConsumption(reportSource{st: st, today: s.today}, ledger.ConsumptionOptions{Catalogue: cat.Load, Drafts: reportSource{st: st, today: s.today}, Now: opts.Now})
+	s.figures = ledger.NewFigures(s.cons, figureWriter{st})
 	s.auth = opts.Authenticator
 	if s.auth == nil {
 		s.auth = access.NewAuthenticator(st, access.AuthOptions{Now: opts.Now})
