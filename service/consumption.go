@@ -17,6 +17,7 @@ import (
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // ConsumptionService: national entries, consumption, baselines, compliance and quota
@@ -249,7 +250,7 @@ func (c *consumptionServer) scopeRules(ctx context.Context, scope controls.Scope
 
 // needHFCGroup refuses an Annex F question when the reporting Party has no HFC group.
 func needHFCGroup(p store.Party, cp controls.Party, scope controls.Scope) error {
-	if scope == controls.ScopeF && cp.HFC == controls.HFCGroupUnset {
+	if scope == controls.ScopeF && cp.HFC == terms.HFCGroupUnspecified {
 		return status.Errorf(codes.FailedPrecondition,
 			"the reporting Party %s has no HFC group, and Annex F baselines and schedules depend on it: set hfc_group (A5_GROUP_1, A5_GROUP_2, NON_A5 or NON_A5_VARIANT) with PutParty", p.CountryCode)
 	}

@@ -16,6 +16,7 @@ import (
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -148,17 +149,17 @@ func (r registerSource) Listen(ctx context.Context, ready func(), changed func(l
 	})
 }
 
-var validatePartyType = map[string]validate.PartyType{
-	"article-5":     validate.PartyTypeArticle5,
-	"non-article-5": validate.PartyTypeNonArticle5,
-	"non-party":     validate.PartyTypeNonParty,
+var validatePartyType = map[string]terms.PartyType{
+	"article-5":     terms.PartyTypeArticle5,
+	"non-article-5": terms.PartyTypeNonArticle5,
+	"non-party":     terms.PartyTypeNonParty,
 }
 
-var validateHFCGroup = map[string]validate.HFCGroup{
-	"a5-group-1":     validate.HFCGroupA5Group1,
-	"a5-group-2":     validate.HFCGroupA5Group2,
-	"non-a5":         validate.HFCGroupNonA5,
-	"non-a5-variant": validate.HFCGroupNonA5Variant,
+var validateHFCGroup = map[string]terms.HFCGroup{
+	"a5-group-1":     terms.HFCGroupA5Group1,
+	"a5-group-2":     terms.HFCGroupA5Group2,
+	"non-a5":         terms.HFCGroupNonA5,
+	"non-a5-variant": terms.HFCGroupNonA5Variant,
 }
 
 // partyFromStore maps a country's stored settings to the checks'.
@@ -184,25 +185,25 @@ func controlsParty(p store.Party) (controls.Party, error) {
 	return cp, nil
 }
 
-var validateStatus = map[string]validate.LicenceStatus{
-	"draft": validate.LicenceDraft, "active": validate.LicenceActive,
-	"suspended": validate.LicenceSuspended, "revoked": validate.LicenceRevoked,
+var validateStatus = map[string]terms.LicenceStatus{
+	"draft": terms.LicenceDraft, "active": terms.LicenceActive,
+	"suspended": terms.LicenceSuspended, "revoked": terms.LicenceRevoked,
 }
 
-var validateUnit = map[string]validate.QuotaUnit{
-	"metric-t": validate.QuotaMetricTonnes, "odp-t": validate.QuotaODPTonnes, "co2e-t": validate.QuotaCO2eTonnes,
+var validateUnit = map[string]terms.QuotaUnit{
+	"metric-t": terms.QuotaMetricTonnes, "odp-t": terms.QuotaODPTonnes, "co2e-t": terms.QuotaCO2eTonnes,
 }
 
 func toValidateLicence(l store.Licence) validate.Licence {
 	v := validate.Licence{Number: l.Number, CompanyID: l.CompanyID, ValidFrom: l.ValidFrom, ValidTo: l.ValidTo,
 		Status: validateStatus[l.Status]}
 	for _, d := range l.Directions {
-		if x, err := validate.ParseDirection(d); err == nil {
+		if x, err := terms.ParseDirection(d); err == nil {
 			v.Directions = append(v.Directions, x)
 		}
 	}
 	for _, p := range l.SpecialPurposes {
-		if x, err := validate.ParsePurpose(p); err == nil {
+		if x, err := terms.ParsePurpose(p); err == nil {
 			v.SpecialPurposes = append(v.SpecialPurposes, x)
 		}
 	}
@@ -213,7 +214,7 @@ func toValidateLicence(l store.Licence) validate.Licence {
 			line.Group, line.Annex = substances.GroupNone, validate.WholeAnnexF
 		}
 		for _, p := range q.Purposes {
-			if x, err := validate.ParsePurpose(p); err == nil {
+			if x, err := terms.ParsePurpose(p); err == nil {
 				line.Purposes = append(line.Purposes, x)
 			}
 		}

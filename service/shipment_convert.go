@@ -9,6 +9,7 @@ import (
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -32,12 +33,12 @@ func RecordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
 // recordFromProto maps a wire record to the checker's record. The wire enums and the
 // validate enums share their numbers.
 func recordFromProto(p *halovetv1.ShipmentRecord) validate.Record {
-	r := validate.Record{Key: p.GetRecordKey(), Line: p.GetSourceLine(), Direction: validate.Direction(p.GetDirection()),
+	r := validate.Record{Key: p.GetRecordKey(), Line: p.GetSourceLine(), Direction: terms.Direction(p.GetDirection()),
 		CompanyID: p.GetCompanyId(), LicenceNumber: p.GetLicenceNumber(), PartnerCountry: p.GetPartnerCountry(),
 		DeclarationDate: p.GetDeclarationDate(), Substance: p.GetSubstance(), HSCode: p.GetDeclaredHsCode(),
 		CAS: p.GetDeclaredCasNumber(), Formula: p.GetDeclaredFormula(), TotalQuantity: p.GetTotalNetQuantity(),
-		Unit: p.GetQuantityUnit(), PackageCount: p.GetPackageCount(), FillPerPackage: p.GetNetFillPerPackage(), Purpose: validate.Purpose(p.GetPurpose()),
-		Condition: validate.Condition(p.GetCondition())}
+		Unit: p.GetQuantityUnit(), PackageCount: p.GetPackageCount(), FillPerPackage: p.GetNetFillPerPackage(), Purpose: terms.Purpose(p.GetPurpose()),
+		Condition: terms.Condition(p.GetCondition())}
 	for _, s := range p.GetDeclaredComposition() {
 		r.Composition = append(r.Composition, validate.DeclaredShare{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent()})
 	}

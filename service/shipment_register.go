@@ -18,6 +18,7 @@ import (
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -221,7 +222,7 @@ func (s *Server) shipmentFilter(req *halovetv1.ListShipmentsRequest) (store.Ship
 		if c < halovetv1.Condition_CONDITION_VIRGIN || c > halovetv1.Condition_CONDITION_RECLAIMED {
 			vs = append(vs, fieldViolation{"condition", fmt.Sprintf("%d is not a condition", c)})
 		} else {
-			f.Condition = validate.Condition(c).String()
+			f.Condition = terms.Condition(c).String()
 		}
 	}
 	for i, st := range req.GetStates() {
