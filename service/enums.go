@@ -2,58 +2,34 @@ package service
 
 import (
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
+	"github.com/halovet/halovet/terms"
 )
 
-// Text forms of the API's enums as stored in the database.
+// The wire enums of the register's vocabulary (party type, HFC group, direction, purpose,
+// condition, licence status, quota unit) are mapped to package terms by wireterms, the one
+// table; the store holds each value's text form (its String). storedWord and wireOf join the
+// two for the store rows that still carry the text.
 
-var directionText = map[halovetv1.Direction]string{
-	halovetv1.Direction_DIRECTION_IMPORT:    "import",
-	halovetv1.Direction_DIRECTION_EXPORT:    "export",
-	halovetv1.Direction_DIRECTION_RE_EXPORT: "re-export",
-	halovetv1.Direction_DIRECTION_TRANSIT:   "transit",
+// storedWord gives the stored word of a wire value; false for UNSPECIFIED and for a number
+// the enum does not declare.
+func storedWord[W any, D interface {
+	comparable
+	String() string
+}](from func(W) (D, bool), w W) (string, bool) {
+	d, ok := from(w)
+	var zero D
+	if !ok || d == zero {
+		return "", false
+	}
+	return d.String(), true
 }
 
-var purposeText = map[halovetv1.Purpose]string{
-	halovetv1.Purpose_PURPOSE_SERVICING:     "servicing",
-	halovetv1.Purpose_PURPOSE_MANUFACTURING: "manufacturing",
-	halovetv1.Purpose_PURPOSE_FEEDSTOCK:     "feedstock",
-	halovetv1.Purpose_PURPOSE_PROCESS_AGENT: "process-agent",
-	halovetv1.Purpose_PURPOSE_QPS:           "qps",
-	halovetv1.Purpose_PURPOSE_LABORATORY:    "laboratory",
-	halovetv1.Purpose_PURPOSE_DESTRUCTION:   "destruction",
-	halovetv1.Purpose_PURPOSE_ESSENTIAL_USE: "essential-use",
-	halovetv1.Purpose_PURPOSE_CRITICAL_USE:  "critical-use",
-	halovetv1.Purpose_PURPOSE_OTHER:         "other",
-
-	halovetv1.Purpose_PURPOSE_FIRE_PROTECTION_SERVICING: "fire-protection-servicing",
-	halovetv1.Purpose_PURPOSE_ROCKET_ENGINE_SOLVENT:     "rocket-engine-solvent",
-	halovetv1.Purpose_PURPOSE_MEDICAL_AEROSOL_BURNS:     "medical-aerosol-burns",
-}
-
-var partyTypeText = map[halovetv1.PartyType]string{
-	halovetv1.PartyType_PARTY_TYPE_ARTICLE_5:     "article-5",
-	halovetv1.PartyType_PARTY_TYPE_NON_ARTICLE_5: "non-article-5",
-	halovetv1.PartyType_PARTY_TYPE_NON_PARTY:     "non-party",
-}
-
-var hfcGroupText = map[halovetv1.HfcGroup]string{
-	halovetv1.HfcGroup_HFC_GROUP_A5_GROUP_1:     "a5-group-1",
-	halovetv1.HfcGroup_HFC_GROUP_A5_GROUP_2:     "a5-group-2",
-	halovetv1.HfcGroup_HFC_GROUP_NON_A5:         "non-a5",
-	halovetv1.HfcGroup_HFC_GROUP_NON_A5_VARIANT: "non-a5-variant",
-}
-
-var quotaUnitText = map[halovetv1.QuotaUnit]string{
-	halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES: "metric-t",
-	halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES:    "odp-t",
-	halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES:   "co2e-t",
-}
-
-var licenceStatusText = map[halovetv1.LicenceStatus]string{
-	halovetv1.LicenceStatus_LICENCE_STATUS_DRAFT:     "draft",
-	halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE:    "active",
-	halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED: "suspended",
-	halovetv1.LicenceStatus_LICENCE_STATUS_REVOKED:   "revoked",
+// wireOf gives the wire value of a stored word; a word that does not parse gives the
+// UNSPECIFIED value.
+func wireOf[W, D any](parse func(string) (D, error), to func(D) W, s string) W {
+	d, _ := parse(s)
+	return to(d)
 }
 
 // invert builds the text -> enum map of an enum -> text map.
@@ -65,11 +41,35 @@ func invert[E comparable](m map[E]string) map[string]E {
 	return out
 }
 
-var (
-	directionEnum     = invert(directionText)
-	purposeEnum       = invert(purposeText)
-	partyTypeEnum     = invert(partyTypeText)
-	hfcGroupEnum      = invert(hfcGroupText)
-	quotaUnitEnum     = invert(quotaUnitText)
-	licenceStatusEnum = invert(licenceStatusText)
-)
+// A shipment record's enums: a number the wire enum does not declare is passed on as the
+// same number, out of the domain's range, so that validate.Check reports it as an
+// unreadable field with the number the client sent (its answer since v1's first draft).
+// These are the only conversions by number, and only for undeclared values.
+
+func recordDirection(w halovetv1.Direction) terms.Direction {
+	if d, ok := wireterms.DirectionFromWire(w); ok {
+		return d
+	}
+	return terms.Direction(w)
+}
+
+func recordPurpose(w halovetv1.Purpose) terms.Purpose {
+	if d, ok := wireterms.PurposeFromWire(w); ok {
+		return d
+	}
+	return terms.Purpose(w)
+}
+
+func recordCondition(w halovetv1.Condition) terms.Condition {
+	if d, ok := wireterms.ConditionFromWire(w); ok {
+		return d
+	}
+	return terms.Condition(w)
+}
+
+// parsed reads a stored word, giving the unspecified value for a word that does not parse
+// (the checks then refuse what needs the value, as they refuse an unspecified one).
+func parsed[D any](parse func(string) (D, error), s string) D {
+	d, _ := parse(s)
+	return d
+}

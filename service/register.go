@@ -149,22 +149,9 @@ func (r registerSource) Listen(ctx context.Context, ready func(), changed func(l
 	})
 }
 
-var validatePartyType = map[string]terms.PartyType{
-	"article-5":     terms.PartyTypeArticle5,
-	"non-article-5": terms.PartyTypeNonArticle5,
-	"non-party":     terms.PartyTypeNonParty,
-}
-
-var validateHFCGroup = map[string]terms.HFCGroup{
-	"a5-group-1":     terms.HFCGroupA5Group1,
-	"a5-group-2":     terms.HFCGroupA5Group2,
-	"non-a5":         terms.HFCGroupNonA5,
-	"non-a5-variant": terms.HFCGroupNonA5Variant,
-}
-
 // partyFromStore maps a country's stored settings to the checks'.
 func partyFromStore(p store.Party) (ledger.Party, error) {
-	ps := validate.PartySettings{Type: validatePartyType[p.PartyType], HFCGroup: validateHFCGroup[p.HFCGroup],
+	ps := validate.PartySettings{Type: parsed(terms.ParsePartyType, p.PartyType), HFCGroup: parsed(terms.ParseHFCGroup, p.HFCGroup),
 		BoundFrom: make(map[substances.Group]time.Time, len(p.BoundFrom)), Known: true}
 	for g, d := range p.BoundFrom {
 		t, err := time.Parse(dateLayout, d)
@@ -178,25 +165,16 @@ func partyFromStore(p store.Party) (ledger.Party, error) {
 
 // controlsParty maps the reporting Party's stored settings to the controls package's.
 func controlsParty(p store.Party) (controls.Party, error) {
-	cp, err := ledger.ControlsParty(validate.PartySettings{Type: validatePartyType[p.PartyType], HFCGroup: validateHFCGroup[p.HFCGroup]})
+	cp, err := ledger.ControlsParty(validate.PartySettings{Type: parsed(terms.ParsePartyType, p.PartyType), HFCGroup: parsed(terms.ParseHFCGroup, p.HFCGroup)})
 	if err != nil {
 		return cp, fmt.Errorf("the reporting Party %s %v", p.CountryCode, err)
 	}
 	return cp, nil
 }
 
-var validateStatus = map[string]terms.LicenceStatus{
-	"draft": terms.LicenceDraft, "active": terms.LicenceActive,
-	"suspended": terms.LicenceSuspended, "revoked": terms.LicenceRevoked,
-}
-
-var validateUnit = map[string]terms.QuotaUnit{
-	"metric-t": terms.QuotaMetricTonnes, "odp-t": terms.QuotaODPTonnes, "co2e-t": terms.QuotaCO2eTonnes,
-}
-
 func toValidateLicence(l store.Licence) validate.Licence {
 	v := validate.Licence{Number: l.Number, CompanyID: l.CompanyID, ValidFrom: l.ValidFrom, ValidTo: l.ValidTo,
-		Status: validateStatus[l.Status]}
+		Status: parsed(terms.ParseLicenceStatus, l.Status)}
 	for _, d := range l.Directions {
 		if x, err := terms.ParseDirection(d); err == nil {
 			v.Directions = append(v.Directions, x)
@@ -209,7 +187,7 @@ func toValidateLicence(l store.Licence) validate.Licence {
 	}
 	for _, q := range l.QuotaLines {
 		line := validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
-			Substance: q.Substance, Unit: validateUnit[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn, Closed: !q.ClosedOn.IsZero()}
+			Substance: q.Substance, Unit: parsed(terms.ParseQuotaUnit, q.Unit), Allocated: q.Allocated, Drawn: q.Drawn, Closed: !q.ClosedOn.IsZero()}
 		if q.AnnexGroup == validate.WholeAnnexF {
 			line.Group, line.Annex = substances.GroupNone, validate.WholeAnnexF
 		}
@@ -221,7 +199,7 @@ func toValidateLicence(l store.Licence) validate.Licence {
 		v.QuotaLines = append(v.QuotaLines, line)
 	}
 	for _, p := range l.StatusHistory {
-		v.StatusHistory = append(v.StatusHistory, validate.StatusPeriod{From: p.From, Status: validateStatus[p.Status]})
+		v.StatusHistory = append(v.StatusHistory, validate.StatusPeriod{From: p.From, Status: parsed(terms.ParseLicenceStatus, p.Status)})
 	}
 	return v
 }
