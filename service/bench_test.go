@@ -150,9 +150,8 @@ func (s *benchServer) benchEnv(tb testing.TB) *validate.Env {
 	if err != nil {
 		tb.Fatal(err)
 	}
-	types := map[string]terms.PartyType{"article-5": terms.PartyTypeArticle5, "non-article-5": terms.PartyTypeNonArticle5}
 	for _, p := range ps {
-		set := validate.PartySettings{Type: types[p.PartyType], Known: true, BoundFrom: map[substances.Group]time.Time{}}
+		set := validate.PartySettings{Type: p.PartyType, Known: true, BoundFrom: map[substances.Group]time.Time{}}
 		for g, d := range p.BoundFrom {
 			day, err := time.Parse("2006-01-02", d)
 			if err != nil {
@@ -172,7 +171,7 @@ func (s *benchServer) benchEnv(tb testing.TB) *validate.Env {
 			Status: terms.LicenceActive, Directions: []terms.Direction{terms.DirectionImport}}
 		for _, q := range l.QuotaLines {
 			u := terms.QuotaODPTonnes
-			if q.Unit == "co2e-t" {
+			if q.Unit == terms.QuotaCO2eTonnes {
 				u = terms.QuotaCO2eTonnes
 			}
 			v.QuotaLines = append(v.QuotaLines, validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),

@@ -17,6 +17,7 @@ import (
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/terms"
 )
 
 // Quota planning: next year's allowed level, split among the companies in proportion to
@@ -29,11 +30,11 @@ const (
 )
 
 // quotaUnitOf is the quota-line unit a scope is measured in.
-func quotaUnitOf(scope controls.Scope) string {
+func quotaUnitOf(scope controls.Scope) terms.QuotaUnit {
 	if scope.Unit() == controls.UnitCO2eTonnes {
-		return "co2e-t"
+		return terms.QuotaCO2eTonnes
 	}
-	return "odp-t"
+	return terms.QuotaODPTonnes
 }
 
 // draftLicenceNumber names a draft licence: the scope without its slash, the year and the
@@ -119,7 +120,7 @@ func (c *consumptionServer) PlanQuotas(ctx context.Context, req *halovetv1.PlanQ
 	}
 
 	unit := quotaUnitOf(scope)
-	amounts, err := c.srv.store.CompanyImports(ctx, groupStrings(scope), unit, years)
+	amounts, err := c.srv.store.CompanyImports(ctx, groupStrings(scope), unit.String(), years)
 	if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}
@@ -200,22 +201,22 @@ func groupStrings(scope controls.Scope) []string {
 // from an earlier plan is amended to the new quota (insert first, amend on conflict, so
 // two planners never both insert); a licence of that number that is no longer a draft is
 // left alone and reported.
-func (c *consumptionServer) issueDraft(ctx context.Context, scope controls.Scope, year int, unit string, prop *halovetv1.QuotaProposal) (string, error) {
+func (c *consumptionServer) issueDraft(ctx context.Context, scope controls.Scope, year int, unit terms.QuotaUnit, prop *halovetv1.QuotaProposal) (string, error) {
 	group := string(scope)
 	if scope == controls.ScopeF {
 		group = "F/I"
 	}
 	num := draftLicenceNumber(scope, year, prop.GetCompanyId())
-	lic := store.Licence{Number: num, CompanyID: prop.GetCompanyId(), Directions: []string{"import"},
+	lic := store.Licence{Number: num, CompanyID: prop.GetCompanyId(), Directions: []terms.Direction{terms.DirectionImport},
 		ValidFrom: time.Date(year, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(year, 12, 31, 0, 0, 0, 0, time.UTC),
-		Status:     "draft",
+		Status:     terms.LicenceDraft,
 		QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: group, Unit: unit, Allocated: prop.GetQuota()}}}
 	reason := fmt.Sprintf("quota plan %s %d", scope, year)
 	err := c.srv.store.IssueLicence(ctx, lic, reason)
 	if errors.Is(err, store.ErrAlreadyExists) {
 		var cur store.Licence
 		cur, err = c.srv.store.GetLicence(ctx, num)
-		if err == nil && cur.Status != "draft" {
+		if err == nil && cur.Status != terms.LicenceDraft {
 			return "", status.Errorf(codes.FailedPrecondition, "licence %s exists and is %s, not a draft; it was left as it is and no further drafts were issued", num, cur.Status)
 		}
 		if err == nil {

@@ -8,28 +8,15 @@ import (
 
 // The wire enums of the register's vocabulary (party type, HFC group, direction, purpose,
 // condition, licence status, quota unit) are mapped to package terms by wireterms, the one
-// table; the store holds each value's text form (its String). storedWord and wireOf join the
-// two for the store rows that still carry the text.
+// table; store reads and writes the terms types. The helpers here only add what a request
+// needs beyond the table.
 
-// storedWord gives the stored word of a wire value; false for UNSPECIFIED and for a number
+// specified gives the domain value of a wire value; false for UNSPECIFIED and for a number
 // the enum does not declare.
-func storedWord[W any, D interface {
-	comparable
-	String() string
-}](from func(W) (D, bool), w W) (string, bool) {
+func specified[W any, D comparable](from func(W) (D, bool), w W) (D, bool) {
 	d, ok := from(w)
 	var zero D
-	if !ok || d == zero {
-		return "", false
-	}
-	return d.String(), true
-}
-
-// wireOf gives the wire value of a stored word; a word that does not parse gives the
-// UNSPECIFIED value.
-func wireOf[W, D any](parse func(string) (D, error), to func(D) W, s string) W {
-	d, _ := parse(s)
-	return to(d)
+	return d, ok && d != zero
 }
 
 // invert builds the text -> enum map of an enum -> text map.

@@ -16,7 +16,6 @@ import (
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
-	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -151,7 +150,7 @@ func (r registerSource) Listen(ctx context.Context, ready func(), changed func(l
 
 // partyFromStore maps a country's stored settings to the checks'.
 func partyFromStore(p store.Party) (ledger.Party, error) {
-	ps := validate.PartySettings{Type: parsed(terms.ParsePartyType, p.PartyType), HFCGroup: parsed(terms.ParseHFCGroup, p.HFCGroup),
+	ps := validate.PartySettings{Type: p.PartyType, HFCGroup: p.HFCGroup,
 		BoundFrom: make(map[substances.Group]time.Time, len(p.BoundFrom)), Known: true}
 	for g, d := range p.BoundFrom {
 		t, err := time.Parse(dateLayout, d)
@@ -165,7 +164,7 @@ func partyFromStore(p store.Party) (ledger.Party, error) {
 
 // controlsParty maps the reporting Party's stored settings to the controls package's.
 func controlsParty(p store.Party) (controls.Party, error) {
-	cp, err := ledger.ControlsParty(validate.PartySettings{Type: parsed(terms.ParsePartyType, p.PartyType), HFCGroup: parsed(terms.ParseHFCGroup, p.HFCGroup)})
+	cp, err := ledger.ControlsParty(validate.PartySettings{Type: p.PartyType, HFCGroup: p.HFCGroup})
 	if err != nil {
 		return cp, fmt.Errorf("the reporting Party %s %v", p.CountryCode, err)
 	}
@@ -174,32 +173,20 @@ func controlsParty(p store.Party) (controls.Party, error) {
 
 func toValidateLicence(l store.Licence) validate.Licence {
 	v := validate.Licence{Number: l.Number, CompanyID: l.CompanyID, ValidFrom: l.ValidFrom, ValidTo: l.ValidTo,
-		Status: parsed(terms.ParseLicenceStatus, l.Status)}
-	for _, d := range l.Directions {
-		if x, err := terms.ParseDirection(d); err == nil {
-			v.Directions = append(v.Directions, x)
-		}
-	}
-	for _, p := range l.SpecialPurposes {
-		if x, err := terms.ParsePurpose(p); err == nil {
-			v.SpecialPurposes = append(v.SpecialPurposes, x)
-		}
-	}
+		Status: l.Status}
+	v.Directions = slices.Clone(l.Directions)
+	v.SpecialPurposes = slices.Clone(l.SpecialPurposes)
 	for _, q := range l.QuotaLines {
 		line := validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
-			Substance: q.Substance, Unit: parsed(terms.ParseQuotaUnit, q.Unit), Allocated: q.Allocated, Drawn: q.Drawn, Closed: !q.ClosedOn.IsZero()}
+			Substance: q.Substance, Unit: q.Unit, Allocated: q.Allocated, Drawn: q.Drawn, Closed: !q.ClosedOn.IsZero()}
 		if q.AnnexGroup == validate.WholeAnnexF {
 			line.Group, line.Annex = substances.GroupNone, validate.WholeAnnexF
 		}
-		for _, p := range q.Purposes {
-			if x, err := terms.ParsePurpose(p); err == nil {
-				line.Purposes = append(line.Purposes, x)
-			}
-		}
+		line.Purposes = slices.Clone(q.Purposes)
 		v.QuotaLines = append(v.QuotaLines, line)
 	}
 	for _, p := range l.StatusHistory {
-		v.StatusHistory = append(v.StatusHistory, validate.StatusPeriod{From: p.From, Status: parsed(terms.ParseLicenceStatus, p.Status)})
+		v.StatusHistory = append(v.StatusHistory, validate.StatusPeriod{From: p.From, Status: p.Status})
 	}
 	return v
 }

@@ -205,22 +205,22 @@ func (s *Server) shipmentFilter(req *halovetv1.ListShipmentsRequest) (store.Ship
 		f.AnnexGroups = gs
 	}
 	if d := req.GetDirection(); d != halovetv1.Direction_DIRECTION_UNSPECIFIED {
-		if t, ok := storedWord(wireterms.DirectionFromWire, d); ok {
-			f.Direction = t
+		if t, ok := specified(wireterms.DirectionFromWire, d); ok {
+			f.Direction = t.String()
 		} else {
 			vs = append(vs, fieldViolation{"direction", fmt.Sprintf("%d is not a direction", d)})
 		}
 	}
 	if p := req.GetPurpose(); p != halovetv1.Purpose_PURPOSE_UNSPECIFIED {
-		if t, ok := storedWord(wireterms.PurposeFromWire, p); ok {
-			f.Purpose = t
+		if t, ok := specified(wireterms.PurposeFromWire, p); ok {
+			f.Purpose = t.String()
 		} else {
 			vs = append(vs, fieldViolation{"purpose", fmt.Sprintf("%d is not a purpose", p)})
 		}
 	}
 	if c := req.GetCondition(); c != halovetv1.Condition_CONDITION_UNSPECIFIED {
-		if t, ok := storedWord(wireterms.ConditionFromWire, c); ok {
-			f.Condition = t
+		if t, ok := specified(wireterms.ConditionFromWire, c); ok {
+			f.Condition = t.String()
 		} else {
 			vs = append(vs, fieldViolation{"condition", fmt.Sprintf("%d is not a condition", c)})
 		}

@@ -9,6 +9,7 @@ import (
 
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // consStore opens a fresh database with the seed catalogue written into it (national
@@ -223,14 +224,14 @@ func TestReportingParty(t *testing.T) {
 		t.Fatalf("no party: err %v, want ErrNoReportingParty", err)
 	}
 	// Invented Parties with user-assigned codes.
-	if err := st.PutParty(ctx, store.Party{CountryCode: "XB", PartyType: "non-article-5", HFCGroup: "non-a5"}); err != nil {
+	if err := st.PutParty(ctx, store.Party{CountryCode: "XB", PartyType: terms.PartyTypeNonArticle5, HFCGroup: terms.HFCGroupNonA5}); err != nil {
 		t.Fatal(err)
 	}
-	if err := st.PutParty(ctx, store.Party{CountryCode: "XA", PartyType: "article-5", HFCGroup: "a5-group-1", ReportingParty: true}); err != nil {
+	if err := st.PutParty(ctx, store.Party{CountryCode: "XA", PartyType: terms.PartyTypeArticle5, HFCGroup: terms.HFCGroupA5Group1, ReportingParty: true}); err != nil {
 		t.Fatal(err)
 	}
 	p, err := st.ReportingParty(ctx)
-	if err != nil || p.CountryCode != "XA" || p.HFCGroup != "a5-group-1" {
+	if err != nil || p.CountryCode != "XA" || p.HFCGroup != terms.HFCGroupA5Group1 {
 		t.Fatalf("reporting party %+v (err %v), want XA a5-group-1", p, err)
 	}
 }

@@ -315,3 +315,115 @@ func (u *QuotaUnit) Scan(src any) error {
 
 // Value implements driver.Valuer.
 func (u QuotaUnit) Value() (driver.Value, error) { return quotaUnits.value(int(u), "unit") }
+
+// MarshalText implements encoding.TextMarshaler with the text form (JSON, the audit log).
+func (t PartyType) MarshalText() ([]byte, error) {
+	x, err := partyTypes.value(int(t), "party-type")
+	if err != nil {
+		return nil, err
+	}
+	return []byte(x.(string)), nil
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler with ParsePartyType.
+func (t *PartyType) UnmarshalText(b []byte) error {
+	i, err := partyTypes.parse(string(b))
+	*t = PartyType(i)
+	return err
+}
+
+// MarshalText implements encoding.TextMarshaler with the text form (JSON, the audit log).
+func (g HFCGroup) MarshalText() ([]byte, error) {
+	x, err := hfcGroups.value(int(g), "hfc-group")
+	if err != nil {
+		return nil, err
+	}
+	return []byte(x.(string)), nil
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler with ParseHFCGroup.
+func (g *HFCGroup) UnmarshalText(b []byte) error {
+	i, err := hfcGroups.parse(string(b))
+	*g = HFCGroup(i)
+	return err
+}
+
+// MarshalText implements encoding.TextMarshaler with the text form (JSON, the audit log).
+func (d Direction) MarshalText() ([]byte, error) {
+	x, err := directions.value(int(d), "direction")
+	if err != nil {
+		return nil, err
+	}
+	return []byte(x.(string)), nil
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler with ParseDirection.
+func (d *Direction) UnmarshalText(b []byte) error {
+	i, err := directions.parse(string(b))
+	*d = Direction(i)
+	return err
+}
+
+// MarshalText implements encoding.TextMarshaler with the text form (JSON, the audit log).
+func (p Purpose) MarshalText() ([]byte, error) {
+	x, err := purposes.value(int(p), "purpose")
+	if err != nil {
+		return nil, err
+	}
+	return []byte(x.(string)), nil
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler with ParsePurpose.
+func (p *Purpose) UnmarshalText(b []byte) error {
+	i, err := purposes.parse(string(b))
+	*p = Purpose(i)
+	return err
+}
+
+// MarshalText implements encoding.TextMarshaler with the text form (JSON, the audit log).
+func (c Condition) MarshalText() ([]byte, error) {
+	x, err := conditions.value(int(c), "condition")
+	if err != nil {
+		return nil, err
+	}
+	return []byte(x.(string)), nil
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler with ParseCondition.
+func (c *Condition) UnmarshalText(b []byte) error {
+	i, err := conditions.parse(string(b))
+	*c = Condition(i)
+	return err
+}
+
+// MarshalText implements encoding.TextMarshaler with the text form (JSON, the audit log).
+func (s LicenceStatus) MarshalText() ([]byte, error) {
+	x, err := licenceStatuses.value(int(s), "status")
+	if err != nil {
+		return nil, err
+	}
+	return []byte(x.(string)), nil
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler with ParseLicenceStatus.
+func (s *LicenceStatus) UnmarshalText(b []byte) error {
+	i, err := licenceStatuses.parse(string(b))
+	*s = LicenceStatus(i)
+	return err
+}
+
+// MarshalText implements encoding.TextMarshaler with the text form (JSON, the audit log).
+func (u QuotaUnit) MarshalText() ([]byte, error) {
+	x, err := quotaUnits.value(int(u), "unit")
+	if err != nil {
+		return nil, err
+	}
+	return []byte(x.(string)), nil
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler with ParseQuotaUnit.
+func (u *QuotaUnit) UnmarshalText(b []byte) error {
+	i, err := quotaUnits.parse(string(b))
+	*u = QuotaUnit(i)
+	return err
+}
