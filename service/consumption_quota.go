@@ -120,7 +120,7 @@ func (c *consumptionServer) PlanQuotas(ctx context.Context, req *halovetv1.PlanQ
 	}
 
 	unit := quotaUnitOf(scope)
-	amounts, err := c.srv.store.CompanyImports(ctx, groupStrings(scope), unit.String(), years)
+	amounts, err := c.srv.store.CompanyImports(ctx, groupStrings(scope), unit, years)
 	if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}

@@ -53,10 +53,3 @@ func recordCondition(w halovetv1.Condition) terms.Condition {
 	}
 	return terms.Condition(w)
 }
-
-// parsed reads a stored word, giving the unspecified value for a word that does not parse
-// (the checks then refuse what needs the value, as they refuse an unspecified one).
-func parsed[D any](parse func(string) (D, error), s string) D {
-	d, _ := parse(s)
-	return d
-}

@@ -197,14 +197,14 @@ func TestShipmentTotalsAggregateComponentsInSQL(t *testing.T) {
 
 	// Imports counting in consumption, per company, in ODP t: XA-1 0.055 + 0.02585; XA-2
 	// 0.01375 (its used import does not count).
-	ci, err := st.CompanyImports(ctx, []string{"C/I"}, "odp-t", []int{2025})
+	ci, err := st.CompanyImports(ctx, []string{"C/I"}, terms.QuotaODPTonnes, []int{2025})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if len(ci) != 2 || ci[0].CompanyID != "XA-1" || !near(ci[0].Amount, 0.08085) || ci[1].CompanyID != "XA-2" || !near(ci[1].Amount, 0.01375) {
 		t.Fatalf("company imports %+v, want XA-1 0.08085 and XA-2 0.01375 ODP t", ci)
 	}
-	cf, err := st.CompanyImports(ctx, []string{"F/I", "F/II"}, "co2e-t", []int{2024, 2025})
+	cf, err := st.CompanyImports(ctx, []string{"F/I", "F/II"}, terms.QuotaCO2eTonnes, []int{2024, 2025})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -212,8 +212,8 @@ func TestShipmentTotalsAggregateComponentsInSQL(t *testing.T) {
 	if len(cf) != 1 || !near(cf[0].Amount, 2301.2) {
 		t.Fatalf("HFC company imports %+v, want XA-1 2301.2 CO2-eq t", cf)
 	}
-	if _, err := st.CompanyImports(ctx, []string{"C/I"}, "kg", []int{2025}); err == nil {
-		t.Fatal("unit kg accepted; want an error naming the accepted units")
+	if _, err := st.CompanyImports(ctx, []string{"C/I"}, terms.QuotaUnitUnspecified, []int{2025}); err == nil {
+		t.Fatal("an unspecified unit accepted; want an error naming the accepted units")
 	}
 }
 
