@@ -25,12 +25,8 @@ const dateLayout = "2006-01-02"
 const maxAllocation = 1e9
 
 func validGroup(g string) bool {
-	for _, x := range substances.AllGroups {
-		if string(x) == g {
-			return true
-		}
-	}
-	return false
+	x, err := substances.ParseGroup(g)
+	return err == nil && x.Controlled() && x.String() == g // the written form exactly, "C/I"
 }
 
 func (l *licensingServer) PutParty(ctx context.Context, req *halovetv1.PutPartyRequest) (*halovetv1.PutPartyResponse, error) {
