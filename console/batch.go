@@ -13,6 +13,7 @@ import (
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -228,7 +229,7 @@ func verdictsOf(one *halovetv1.Verdict, many *halovetv1.VerdictBatch) []*halovet
 // or by the server.
 type item struct {
 	local     *validate.Verdict
-	direction validate.Direction
+	direction terms.Direction
 }
 
 // run checks or records the batch; it ends with the batch finished, with its rows and

@@ -7,6 +7,8 @@ import (
 	"strings"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
+	"github.com/halovet/halovet/terms"
 )
 
 type licencesData struct {
@@ -104,15 +106,20 @@ func (c *Console) readLicence(w http.ResponseWriter, r *http.Request, rq *reques
 	return l, true
 }
 
-var statusValues = map[string]halovetv1.LicenceStatus{
-	"active":    halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE,
-	"suspended": halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED,
+// consoleStatus reads the status a console form asks for: the console sets active
+// (reinstate) or suspended, nothing else.
+func consoleStatus(s string) (halovetv1.LicenceStatus, bool) {
+	st, err := terms.ParseLicenceStatus(s)
+	if err != nil || s != st.String() || (st != terms.LicenceActive && st != terms.LicenceSuspended) {
+		return halovetv1.LicenceStatus_LICENCE_STATUS_UNSPECIFIED, false
+	}
+	return wireterms.LicenceStatusToWire(st), true
 }
 
 // setLicenceStatus suspends or reinstates a licence, with the reason the form gives.
 func (c *Console) setLicenceStatus(w http.ResponseWriter, r *http.Request, rq *request) {
 	number := r.PathValue("number")
-	st, ok := statusValues[r.PostFormValue("status")]
+	st, ok := consoleStatus(r.PostFormValue("status"))
 	if !ok {
 		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("status %q: the console sets active (reinstate) or suspended. Nothing was changed.", r.PostFormValue("status")))
 		return
@@ -144,13 +151,8 @@ func eventKindWord(k halovetv1.LicenceEventKind) string {
 }
 
 func unitWord(u halovetv1.QuotaUnit) string {
-	switch u {
-	case halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES:
-		return "t"
-	case halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES:
-		return "ODP t"
-	case halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES:
-		return "CO2-eq t"
+	if d, ok := wireterms.QuotaUnitFromWire(u); ok && d != terms.QuotaUnitUnspecified {
+		return d.Symbol()
 	}
 	return "?"
 }

@@ -5,6 +5,8 @@ import (
 	"slices"
 	"strings"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // TestBaselineODS checks ODP-tonne baselines; arithmetic in history_test.go (worked example,
@@ -270,9 +272,9 @@ func TestBaselineErrors(t *testing.T) {
 	}{
 		{"HBFCs need no baseline", partyNonA5, ScopeCII, ErrNoRule},
 		{"bromochloromethane needs no baseline", partyA5G1, ScopeCIII, ErrNoRule},
-		{"HFC group unset", Party{Type: NonArticle5}, ScopeF, ErrInvalidInput},
+		{"HFC group unset", Party{Type: terms.PartyTypeNonArticle5}, ScopeF, ErrInvalidInput},
 		{"party type unset", Party{}, ScopeCI, ErrInvalidInput},
-		{"A5 with non-A5 HFC group", Party{Type: Article5, HFC: HFCNonA5}, ScopeF, ErrInvalidInput},
+		{"A5 with non-A5 HFC group", Party{Type: terms.PartyTypeArticle5, HFC: terms.HFCGroupNonA5}, ScopeF, ErrInvalidInput},
 		{"unknown scope", partyNonA5, Scope("D/I"), ErrInvalidInput},
 	}
 	for _, tc := range tests {

@@ -5,6 +5,8 @@ import (
 	"slices"
 	"strings"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 func hasNote(notes []string, sub string) bool {
@@ -272,7 +274,7 @@ func TestAssessRejects(t *testing.T) {
 		{"range reversed", partyNonA5, ScopeCI, 2020, 2019, "to_year"},
 		{"year out of range", partyNonA5, ScopeCI, 1900, 2019, "from_year"},
 		{"unknown scope", partyNonA5, Scope("X"), 2019, 2019, "scope"},
-		{"HFC group unset", Party{Type: Article5}, ScopeF, 2029, 2029, "party.hfc"},
+		{"HFC group unset", Party{Type: terms.PartyTypeArticle5}, ScopeF, 2029, 2029, "party.hfc"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {

@@ -5,6 +5,7 @@ import (
 
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // A non-Article 5 Party's HCFC figures (worked example, invented data; ODPs from
@@ -23,7 +24,7 @@ func ExampleRulebook_Assess() {
 		{Year: 1989, Substance: cfc11, Flows: controls.Flows{Imports: 1000}},
 		{Year: 2025, Substance: hcfc22, Flows: controls.Flows{Imports: 5}},
 	}
-	party := controls.Party{Type: controls.NonArticle5, HFC: controls.HFCNonA5}
+	party := controls.Party{Type: terms.PartyTypeNonArticle5, HFC: terms.HFCGroupNonA5}
 	a, err := rb.Assess(records, party, controls.ScopeCI, 2025, 2025)
 	if err != nil {
 		panic(err)

@@ -1,5 +1,7 @@
 package controls
 
+import "github.com/halovet/halovet/terms"
+
 // Worked example histories, invented data. The quantities are metric tonnes; the hand
 // computations beside them use the ODPs and GWPs of fixtures_test.go (MP Annexes A-F, Kigali GWP columns).
 
@@ -110,10 +112,10 @@ func a5History() []Record {
 }
 
 var (
-	partyNonA5        = Party{Type: NonArticle5, HFC: HFCNonA5}
-	partyNonA5Variant = Party{Type: NonArticle5, HFC: HFCNonA5Variant}
-	partyA5G1         = Party{Type: Article5, HFC: HFCA5Group1}
-	partyA5G2         = Party{Type: Article5, HFC: HFCA5Group2}
+	partyNonA5        = Party{Type: terms.PartyTypeNonArticle5, HFC: terms.HFCGroupNonA5}
+	partyNonA5Variant = Party{Type: terms.PartyTypeNonArticle5, HFC: terms.HFCGroupNonA5Variant}
+	partyA5G1         = Party{Type: terms.PartyTypeArticle5, HFC: terms.HFCGroupA5Group1}
+	partyA5G2         = Party{Type: terms.PartyTypeArticle5, HFC: terms.HFCGroupA5Group2}
 )
 
 // without returns records minus those of the given year and group scope.

@@ -12,6 +12,7 @@ import (
 
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -352,30 +353,22 @@ func (h *EnvHolder) assemble(s *snapshot, prev *validate.Env) {
 	s.env = env
 }
 
-// ControlsParty maps a reporting Party's settings to the control schedules' terms. The
-// error says, in words that follow "the reporting Party XX", why the settings cannot be
-// used.
+// ControlsParty gives a reporting Party's settings in the control schedules' terms (the
+// same Party type and HFC group). The error says, in words that follow "the reporting Party
+// XX", why the settings cannot be used.
 func ControlsParty(p validate.PartySettings) (controls.Party, error) {
-	var cp controls.Party
 	switch p.Type {
-	case validate.PartyTypeArticle5:
-		cp.Type = controls.Article5
-	case validate.PartyTypeNonArticle5:
-		cp.Type = controls.NonArticle5
+	case terms.PartyTypeArticle5, terms.PartyTypeNonArticle5:
+	case terms.PartyTypeUnspecified:
+		return controls.Party{}, fmt.Errorf("has no Party type set; it must be an Article 5 or non-Article 5 Party")
 	default:
-		return cp, fmt.Errorf("is set as %q; it must be an Article 5 or non-Article 5 Party", p.Type)
+		return controls.Party{}, fmt.Errorf("is set as %q; it must be an Article 5 or non-Article 5 Party", p.Type)
 	}
-	switch p.HFCGroup {
-	case validate.HFCGroupA5Group1:
-		cp.HFC = controls.HFCA5Group1
-	case validate.HFCGroupA5Group2:
-		cp.HFC = controls.HFCA5Group2
-	case validate.HFCGroupNonA5:
-		cp.HFC = controls.HFCNonA5
-	case validate.HFCGroupNonA5Variant:
-		cp.HFC = controls.HFCNonA5Variant
+	hfc := p.HFCGroup
+	if !hfc.Valid() {
+		hfc = terms.HFCGroupUnspecified
 	}
-	return cp, nil
+	return controls.Party{Type: p.Type, HFC: hfc}, nil
 }
 
 var (

@@ -10,6 +10,7 @@ import (
 
 	"github.com/halovet/halovet/ledger"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -62,16 +63,16 @@ func newFakeRegister() *fakeRegister {
 	bound := map[substances.Group]time.Time{substances.GroupCI: day("2000-01-01")}
 	return &fakeRegister{
 		parties: []ledger.Party{
-			{Code: "XA", Reporting: true, Settings: validate.PartySettings{Type: validate.PartyTypeArticle5, HFCGroup: validate.HFCGroupA5Group1, BoundFrom: bound, Known: true}},
-			{Code: "XB", Settings: validate.PartySettings{Type: validate.PartyTypeNonArticle5, HFCGroup: validate.HFCGroupNonA5, BoundFrom: bound, Known: true}},
+			{Code: "XA", Reporting: true, Settings: validate.PartySettings{Type: terms.PartyTypeArticle5, HFCGroup: terms.HFCGroupA5Group1, BoundFrom: bound, Known: true}},
+			{Code: "XB", Settings: validate.PartySettings{Type: terms.PartyTypeNonArticle5, HFCGroup: terms.HFCGroupNonA5, BoundFrom: bound, Known: true}},
 		},
 		licences: map[string]validate.Licence{
-			"XA-IMP-1": {Number: "XA-IMP-1", CompanyID: "XA-CO-1", Directions: []validate.Direction{validate.DirectionImport},
-				ValidFrom: day("2026-01-01"), ValidTo: day("2026-12-31"), Status: validate.LicenceActive,
-				QuotaLines: []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: validate.QuotaODPTonnes, Allocated: 1}}},
-			"XA-IMP-2": {Number: "XA-IMP-2", CompanyID: "XA-CO-2", Directions: []validate.Direction{validate.DirectionImport},
-				ValidFrom: day("2026-01-01"), ValidTo: day("2026-12-31"), Status: validate.LicenceActive,
-				QuotaLines: []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: validate.QuotaODPTonnes, Allocated: 1}}},
+			"XA-IMP-1": {Number: "XA-IMP-1", CompanyID: "XA-CO-1", Directions: []terms.Direction{terms.DirectionImport},
+				ValidFrom: day("2026-01-01"), ValidTo: day("2026-12-31"), Status: terms.LicenceActive,
+				QuotaLines: []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 1}}},
+			"XA-IMP-2": {Number: "XA-IMP-2", CompanyID: "XA-CO-2", Directions: []terms.Direction{terms.DirectionImport},
+				ValidFrom: day("2026-01-01"), ValidTo: day("2026-12-31"), Status: terms.LicenceActive,
+				QuotaLines: []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 1}}},
 		},
 	}
 }
@@ -119,7 +120,7 @@ func holder(t *testing.T, reg ledger.Register) *ledger.EnvHolder {
 
 // hcfc22 is 100 kg of HCFC-22 imported from XB on licence XA-IMP-1 by XA-CO-1.
 func hcfc22(key string) validate.Record {
-	return validate.Record{Key: key, Direction: validate.DirectionImport, CompanyID: "XA-CO-1", LicenceNumber: "XA-IMP-1",
+	return validate.Record{Key: key, Direction: terms.DirectionImport, CompanyID: "XA-CO-1", LicenceNumber: "XA-IMP-1",
 		PartnerCountry: "XB", DeclarationDate: "2026-06-15", Substance: "HCFC-22", TotalQuantity: "100", Unit: "kg"}
 }
 
@@ -164,7 +165,7 @@ func TestRefreshReadsOnlyTheChangedLicence(t *testing.T) {
 	other, _ := before.Licence("XA-IMP-2")
 	reg.update(func(f *fakeRegister) {
 		l := f.licences["XA-IMP-1"]
-		l.Status = validate.LicenceSuspended
+		l.Status = terms.LicenceSuspended
 		f.licences["XA-IMP-1"] = l
 	})
 	r := hcfc22("K-1")
@@ -187,7 +188,7 @@ func TestRefreshReadsOnlyTheChangedLicence(t *testing.T) {
 		t.Errorf("the unchanged licence was rebuilt")
 	}
 	// The old environment, still held by a check in flight, is untouched.
-	if l, _ := before.Licence("XA-IMP-1"); l.Status != validate.LicenceActive {
+	if l, _ := before.Licence("XA-IMP-1"); l.Status != terms.LicenceActive {
 		t.Errorf("the earlier environment changed under its reader: status %v", l.Status)
 	}
 }
@@ -214,7 +215,7 @@ func TestDrawnBalanceFollowsAnnouncements(t *testing.T) {
 	current(t, h)
 	reg.update(func(f *fakeRegister) {
 		l := f.licences["XA-IMP-1"]
-		l.QuotaLines = []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: validate.QuotaODPTonnes, Allocated: 1, Drawn: 0.996}}
+		l.QuotaLines = []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 1, Drawn: 0.996}}
 		f.licences["XA-IMP-1"] = l
 	})
 	if err := h.Refresh(context.Background(), ledger.Change{Licences: []string{"XA-IMP-1"}}); err != nil {
@@ -249,7 +250,7 @@ func TestNotConfiguredUntilAReportingPartyIsSet(t *testing.T) {
 
 func TestNonPartyAsReportingPartyIsNotConfigured(t *testing.T) {
 	reg := newFakeRegister()
-	reg.parties[0].Settings.Type = validate.PartyTypeNonParty
+	reg.parties[0].Settings.Type = terms.PartyTypeNonParty
 	h := holder(t, reg)
 	_, err := h.Current(context.Background())
 	if !errors.Is(err, ledger.ErrNotConfigured) {
@@ -347,10 +348,10 @@ func eventually(t *testing.T, what string, cond func() bool) {
 	}
 }
 
-func licenceStatus(t *testing.T, h *ledger.EnvHolder, n string) validate.LicenceStatus {
+func licenceStatus(t *testing.T, h *ledger.EnvHolder, n string) terms.LicenceStatus {
 	l, ok := current(t, h).Licence(n)
 	if !ok {
-		return validate.LicenceStatusUnspecified
+		return terms.LicenceStatusUnspecified
 	}
 	return l.Status
 }
@@ -366,11 +367,11 @@ func TestWatchAppliesAnnouncementsAndReloadsOnReconnect(t *testing.T) {
 	// An announced change is applied.
 	reg.update(func(f *fakeRegister) {
 		l := f.licences["XA-IMP-1"]
-		l.Status = validate.LicenceSuspended
+		l.Status = terms.LicenceSuspended
 		f.licences["XA-IMP-1"] = l
 	})
 	n.changes <- ledger.Change{Licences: []string{"XA-IMP-1"}}
-	eventually(t, "the announced suspension is seen", func() bool { return licenceStatus(t, h, "XA-IMP-1") == validate.LicenceSuspended })
+	eventually(t, "the announced suspension is seen", func() bool { return licenceStatus(t, h, "XA-IMP-1") == terms.LicenceSuspended })
 
 	// A change made while the connection is down is never announced; the reload on
 	// reconnection brings it.
@@ -380,11 +381,11 @@ func TestWatchAppliesAnnouncementsAndReloadsOnReconnect(t *testing.T) {
 	n.dropConnection()
 	reg.update(func(f *fakeRegister) {
 		l := f.licences["XA-IMP-2"]
-		l.Status = validate.LicenceRevoked
+		l.Status = terms.LicenceRevoked
 		f.licences["XA-IMP-2"] = l
 	})
 	eventually(t, "the change missed while disconnected is seen after reconnecting", func() bool {
-		return licenceStatus(t, h, "XA-IMP-2") == validate.LicenceRevoked
+		return licenceStatus(t, h, "XA-IMP-2") == terms.LicenceRevoked
 	})
 	n.mu.Lock()
 	if n.listens <= listensBefore {
@@ -403,16 +404,16 @@ func TestWatchRetriesAFailedReload(t *testing.T) {
 	reg.update(func(f *fakeRegister) {
 		f.failLicences = errors.New("database down")
 		l := f.licences["XA-IMP-1"]
-		l.Status = validate.LicenceSuspended
+		l.Status = terms.LicenceSuspended
 		f.licences["XA-IMP-1"] = l
 	})
 	n.changes <- ledger.Change{Licences: []string{"XA-IMP-1"}}
 	eventually(t, "a reload was tried and failed", func() bool { _, l := reg.reads(); return len(l) >= 3 })
-	if licenceStatus(t, h, "XA-IMP-1") != validate.LicenceActive {
+	if licenceStatus(t, h, "XA-IMP-1") != terms.LicenceActive {
 		t.Fatal("the environment changed although the reload failed")
 	}
 	reg.update(func(f *fakeRegister) { f.failLicences = nil })
-	eventually(t, "the retried reload applies the change", func() bool { return licenceStatus(t, h, "XA-IMP-1") == validate.LicenceSuspended })
+	eventually(t, "the retried reload applies the change", func() bool { return licenceStatus(t, h, "XA-IMP-1") == terms.LicenceSuspended })
 }
 
 func TestNarrowedHidesOtherCompaniesLicences(t *testing.T) {
@@ -448,8 +449,8 @@ func TestPinnedBalancesKeepTheFirstSeenDrawnAmount(t *testing.T) {
 	// is suspended at the same time.
 	reg.update(func(f *fakeRegister) {
 		l := f.licences["XA-IMP-1"]
-		l.QuotaLines = []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: validate.QuotaODPTonnes, Allocated: 1, Drawn: 0.996}}
-		l.Status = validate.LicenceSuspended
+		l.QuotaLines = []validate.QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 1, Drawn: 0.996}}
+		l.Status = terms.LicenceSuspended
 		f.licences["XA-IMP-1"] = l
 	})
 	if err := h.Refresh(context.Background(), ledger.Change{Licences: []string{"XA-IMP-1"}}); err != nil {
@@ -458,7 +459,7 @@ func TestPinnedBalancesKeepTheFirstSeenDrawnAmount(t *testing.T) {
 	live := current(t, h)
 	view := pinned.View(live, "XA-IMP-1")
 	l, ok := view.Licence("XA-IMP-1")
-	if !ok || l.QuotaLines[0].Drawn != 0 || l.Status != validate.LicenceSuspended {
+	if !ok || l.QuotaLines[0].Drawn != 0 || l.Status != terms.LicenceSuspended {
 		t.Fatalf("view of XA-IMP-1: %+v, %v; want the first-seen balance 0 and the live status suspended", l, ok)
 	}
 	if ll, _ := live.Licence("XA-IMP-1"); ll.QuotaLines[0].Drawn != 0.996 {
@@ -489,9 +490,9 @@ func TestEnvironmentCarriesTheDatedStatusHistory(t *testing.T) {
 	pinned.View(current(t, h), "XA-IMP-1")
 	reg.update(func(f *fakeRegister) {
 		l := f.licences["XA-IMP-1"]
-		l.Status = validate.LicenceSuspended
-		l.StatusHistory = []validate.StatusPeriod{{From: day("2026-01-01"), Status: validate.LicenceActive},
-			{From: day("2026-09-15"), Status: validate.LicenceSuspended}}
+		l.Status = terms.LicenceSuspended
+		l.StatusHistory = []validate.StatusPeriod{{From: day("2026-01-01"), Status: terms.LicenceActive},
+			{From: day("2026-09-15"), Status: terms.LicenceSuspended}}
 		f.licences["XA-IMP-1"] = l
 	})
 	if err := h.Refresh(context.Background(), ledger.Change{Licences: []string{"XA-IMP-1"}}); err != nil {

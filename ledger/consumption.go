@@ -10,6 +10,7 @@ import (
 
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // Consumption holds the consumption, baseline, compliance and quota-planning workflows of
@@ -139,7 +140,7 @@ func scopeRules(ctx context.Context, r ReportReader, scope controls.Scope) (Part
 	if err != nil {
 		return p, party, err
 	}
-	if scope == controls.ScopeF && party.HFC == controls.HFCGroupUnset {
+	if scope == controls.ScopeF && party.HFC == terms.HFCGroupUnspecified {
 		return p, party, refused(fmt.Sprintf(
 			"the reporting Party %s has no HFC group, and Annex F baselines and schedules depend on it: set hfc_group (A5_GROUP_1, A5_GROUP_2, NON_A5 or NON_A5_VARIANT) with PutParty", p.Code))
 	}

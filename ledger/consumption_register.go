@@ -3,6 +3,7 @@ package ledger
 import (
 	"context"
 	"errors"
+	"github.com/halovet/halovet/terms"
 	"time"
 
 	"github.com/halovet/halovet/controls"
@@ -108,8 +109,8 @@ type ReportReader interface {
 	// HFC23Entries returns the facility entries of one year.
 	HFC23Entries(ctx context.Context, year int) ([]HFC23Entry, error)
 	// CompanyImports sums per company and year the recorded imports counting in
-	// consumption of the components in groups, in a quota unit ("odp-t", "co2e-t").
-	CompanyImports(ctx context.Context, groups []string, unit string, years []int) ([]CompanyAmount, error)
+	// consumption of the components in groups, in a quota unit (ODP or CO2-eq tonnes).
+	CompanyImports(ctx context.Context, groups []string, unit terms.QuotaUnit, years []int) ([]CompanyAmount, error)
 }
 
 // Reports gives each report one read-only snapshot of the register.
@@ -122,9 +123,9 @@ type Reports interface {
 type DraftLicence struct {
 	Number     string
 	CompanyID  string
-	Year       int    // valid from 1 January to 31 December
-	AnnexGroup string // of the quota line
-	Unit       string // "odp-t" or "co2e-t"
+	Year       int             // valid from 1 January to 31 December
+	AnnexGroup string          // of the quota line
+	Unit       terms.QuotaUnit // ODP or CO2-eq tonnes
 	Quota      float64
 }
 

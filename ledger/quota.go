@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"github.com/halovet/halovet/terms"
 	"math"
 	"slices"
 	"strings"
@@ -53,11 +54,11 @@ type QuotaPlan struct {
 }
 
 // QuotaUnitOf is the quota-line unit a scope is measured in.
-func QuotaUnitOf(scope controls.Scope) string {
+func QuotaUnitOf(scope controls.Scope) terms.QuotaUnit {
 	if scope.Unit() == controls.UnitCO2eTonnes {
-		return "co2e-t"
+		return terms.QuotaCO2eTonnes
 	}
-	return "odp-t"
+	return terms.QuotaODPTonnes
 }
 
 // DraftLicenceNumber names a draft licence: the scope without its slash, the year and the

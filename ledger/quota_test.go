@@ -3,6 +3,7 @@ package ledger_test
 import (
 	"context"
 	"errors"
+	"github.com/halovet/halovet/terms"
 	"math"
 	"strings"
 	"testing"
@@ -49,7 +50,7 @@ func register(t *testing.T) (*store.Store, *ledger.Consumption, func() *substanc
 	if err := st.SyncSeed(ctx, subs, blends); err != nil {
 		t.Fatal(err)
 	}
-	if err := st.PutParty(ctx, store.Party{CountryCode: "XA", Name: "Xandria (invented)", PartyType: "article-5", HFCGroup: "a5-group-1"}); err != nil {
+	if err := st.PutParty(ctx, store.Party{CountryCode: "XA", Name: "Xandria (invented)", PartyType: terms.PartyTypeArticle5, HFCGroup: terms.HFCGroupA5Group1}); err != nil {
 		t.Fatal(err)
 	}
 	if _, err := st.SetReportingParty(ctx, store.ReportingPartyChange{CountryCode: "XA"}); err != nil {
@@ -118,7 +119,7 @@ func TestPlanQuotasIssuesDrafts(t *testing.T) {
 		if err != nil {
 			t.Fatalf("draft of %s: %v", q.CompanyID, err)
 		}
-		if l.Status != "draft" || len(l.QuotaLines) != 1 || l.QuotaLines[0].Unit != "odp-t" {
+		if l.Status != terms.LicenceDraft || len(l.QuotaLines) != 1 || l.QuotaLines[0].Unit != terms.QuotaODPTonnes {
 			t.Errorf("draft %+v: want a draft with one ODP t line", l)
 		}
 		near(t, q.DraftLicenceNumber+" allocated", l.QuotaLines[0].Allocated, want[q.CompanyID])
@@ -143,9 +144,9 @@ func TestPlanQuotasIssuesDrafts(t *testing.T) {
 func TestPlanQuotasAllOrNothing(t *testing.T) {
 	st, cons, _ := register(t)
 	ctx := context.Background()
-	if err := st.IssueLicence(ctx, store.Licence{Number: "CI-DRAFT-2026-XA-1002", CompanyID: "XA-1002", Directions: []string{"import"},
-		ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC), Status: "active",
-		QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: "odp-t", Allocated: 0.05}}}, "issued by hand"); err != nil {
+	if err := st.IssueLicence(ctx, store.Licence{Number: "CI-DRAFT-2026-XA-1002", CompanyID: "XA-1002", Directions: []terms.Direction{terms.DirectionImport},
+		ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC), Status: terms.LicenceActive,
+		QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: 0.05}}}, "issued by hand"); err != nil {
 		t.Fatal(err)
 	}
 	_, err := cons.PlanQuotas(ctx, plan2026)

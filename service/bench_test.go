@@ -21,6 +21,7 @@ import (
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -149,9 +150,8 @@ func (s *benchServer) benchEnv(tb testing.TB) *validate.Env {
 	if err != nil {
 		tb.Fatal(err)
 	}
-	types := map[string]validate.PartyType{"article-5": validate.PartyTypeArticle5, "non-article-5": validate.PartyTypeNonArticle5}
 	for _, p := range ps {
-		set := validate.PartySettings{Type: types[p.PartyType], Known: true, BoundFrom: map[substances.Group]time.Time{}}
+		set := validate.PartySettings{Type: p.PartyType, Known: true, BoundFrom: map[substances.Group]time.Time{}}
 		for g, d := range p.BoundFrom {
 			day, err := time.Parse("2006-01-02", d)
 			if err != nil {
@@ -168,18 +168,18 @@ func (s *benchServer) benchEnv(tb testing.TB) *validate.Env {
 	byNumber := map[string]*validate.Licence{}
 	for _, l := range lics {
 		v := &validate.Licence{Number: l.Number, CompanyID: l.CompanyID, ValidFrom: l.ValidFrom, ValidTo: l.ValidTo,
-			Status: validate.LicenceActive, Directions: []validate.Direction{validate.DirectionImport}}
+			Status: terms.LicenceActive, Directions: []terms.Direction{terms.DirectionImport}}
 		for _, q := range l.QuotaLines {
-			u := validate.QuotaODPTonnes
-			if q.Unit == "co2e-t" {
-				u = validate.QuotaCO2eTonnes
+			u := terms.QuotaODPTonnes
+			if q.Unit == terms.QuotaCO2eTonnes {
+				u = terms.QuotaCO2eTonnes
 			}
 			v.QuotaLines = append(v.QuotaLines, validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
 				Unit: u, Allocated: q.Allocated, Drawn: q.Drawn})
 		}
 		byNumber[l.Number] = v
 	}
-	party := controls.Party{Type: controls.Article5, HFC: controls.HFCA5Group1}
+	party := controls.Party{Type: terms.PartyTypeArticle5, HFC: terms.HFCGroupA5Group1}
 	env := validate.NewEnv(s.cat, "XA", parties, func(n string) (*validate.Licence, bool) { l, ok := byNumber[n]; return l, ok },
 		func(g substances.Group, year int) (float64, bool) {
 			a, err := rb.Allowance(party, controls.ScopeOf(g), year)

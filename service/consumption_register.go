@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"github.com/halovet/halovet/terms"
 	"time"
 
 	"github.com/halovet/halovet/controls"
@@ -36,9 +37,9 @@ func (s reportSource) Snapshot(ctx context.Context, fn func(ledger.ReportReader)
 func (s reportSource) IssueDrafts(ctx context.Context, ds []ledger.DraftLicence, reason string) error {
 	ls := make([]store.Licence, len(ds))
 	for i, d := range ds {
-		ls[i] = store.Licence{Number: d.Number, CompanyID: d.CompanyID, Directions: []string{"import"},
+		ls[i] = store.Licence{Number: d.Number, CompanyID: d.CompanyID, Directions: []terms.Direction{terms.DirectionImport},
 			ValidFrom: time.Date(d.Year, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(d.Year, 12, 31, 0, 0, 0, 0, time.UTC),
-			Status:     "draft",
+			Status:     terms.LicenceDraft,
 			QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: d.AnnexGroup, Unit: d.Unit, Allocated: d.Quota}}}
 	}
 	err := s.st.IssueDrafts(ctx, ls, reason, s.today())
@@ -132,7 +133,7 @@ func (s snapshotReader) HFC23Entries(ctx context.Context, year int) ([]ledger.HF
 	return out, err
 }
 
-func (s snapshotReader) CompanyImports(ctx context.Context, groups []string, unit string, years []int) ([]ledger.CompanyAmount, error) {
+func (s snapshotReader) CompanyImports(ctx context.Context, groups []string, unit terms.QuotaUnit, years []int) ([]ledger.CompanyAmount, error) {
 	as, err := s.r.CompanyImports(ctx, groups, unit, years)
 	out := make([]ledger.CompanyAmount, len(as))
 	for i, a := range as {

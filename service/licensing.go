@@ -9,8 +9,10 @@ import (
 
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -23,12 +25,8 @@ const dateLayout = "2006-01-02"
 const maxAllocation = 1e9
 
 func validGroup(g string) bool {
-	for _, x := range substances.AllGroups {
-		if string(x) == g {
-			return true
-		}
-	}
-	return false
+	x, err := substances.ParseGroup(g)
+	return err == nil && x.Controlled() && x.String() == g // the written form exactly, "C/I"
 }
 
 func (l *licensingServer) PutParty(ctx context.Context, req *halovetv1.PutPartyRequest) (*halovetv1.PutPartyResponse, error) {
@@ -49,11 +47,11 @@ func partyFromProto(p *halovetv1.Party, prefix string) (store.Party, []fieldViol
 	if !countryCodeRE.MatchString(p.GetCountryCode()) {
 		vs = append(vs, fieldViolation{prefix + ".country_code", "must be an ISO 3166-1 alpha-2 code in capitals, e.g. XA"})
 	}
-	pt, ok := partyTypeText[p.GetPartyType()]
+	pt, ok := specified(wireterms.PartyTypeFromWire, p.GetPartyType())
 	if !ok {
 		vs = append(vs, fieldViolation{prefix + ".party_type", "must be ARTICLE_5, NON_ARTICLE_5 or NON_PARTY"})
 	}
-	hg := hfcGroupText[p.GetHfcGroup()]
+	hg, _ := specified(wireterms.HFCGroupFromWire, p.GetHfcGroup())
 	for g, d := range p.GetBoundFrom() {
 		if !validGroup(g) {
 			vs = append(vs, fieldViolation{prefix + ".bound_from", fmt.Sprintf("key %q is not an Annex group; use A/I, A/II, B/I, B/II, B/III, C/I, C/II, C/III, E/I, F/I or F/II", g)})
@@ -67,8 +65,8 @@ func partyFromProto(p *halovetv1.Party, prefix string) (store.Party, []fieldViol
 }
 
 func partyToProto(p store.Party) *halovetv1.Party {
-	return &halovetv1.Party{CountryCode: p.CountryCode, Name: p.Name, PartyType: partyTypeEnum[p.PartyType],
-		HfcGroup: hfcGroupEnum[p.HFCGroup], ReportingParty: p.ReportingParty, BoundFrom: p.BoundFrom}
+	return &halovetv1.Party{CountryCode: p.CountryCode, Name: p.Name, PartyType: wireterms.PartyTypeToWire(p.PartyType),
+		HfcGroup: wireterms.HFCGroupToWire(p.HFCGroup), ReportingParty: p.ReportingParty, BoundFrom: p.BoundFrom}
 }
 
 func (l *licensingServer) GetParty(ctx context.Context, req *halovetv1.GetPartyRequest) (*halovetv1.GetPartyResponse, error) {
@@ -136,7 +134,7 @@ func (l *licensingServer) ListCompanies(ctx context.Context, _ *halovetv1.ListCo
 // quota lines without a number are numbered in order.
 func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool, prefix string) (store.Licence, []fieldViolation) {
 	var vs []fieldViolation
-	out := store.Licence{Number: p.GetLicenceNumber(), CompanyID: p.GetCompanyId(), Status: "active"}
+	out := store.Licence{Number: p.GetLicenceNumber(), CompanyID: p.GetCompanyId(), Status: terms.LicenceActive}
 	if out.Number == "" {
 		vs = append(vs, fieldViolation{prefix + ".licence_number", "must not be empty"})
 	}
@@ -147,7 +145,7 @@ func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool, p
 		vs = append(vs, fieldViolation{prefix + ".directions", "list at least one of IMPORT, EXPORT, RE_EXPORT, TRANSIT"})
 	}
 	for _, d := range p.GetDirections() {
-		t, ok := directionText[d]
+		t, ok := specified(wireterms.DirectionFromWire, d)
 		if !ok {
 			vs = append(vs, fieldViolation{prefix + ".directions", "unspecified direction; use IMPORT, EXPORT, RE_EXPORT or TRANSIT"})
 			continue
@@ -164,17 +162,17 @@ func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool, p
 		vs = append(vs, fieldViolation{prefix + ".valid_to", "is before valid_from"})
 	}
 	if p.GetStatus() != halovetv1.LicenceStatus_LICENCE_STATUS_UNSPECIFIED {
-		st, ok := licenceStatusText[p.GetStatus()]
+		st, ok := specified(wireterms.LicenceStatusFromWire, p.GetStatus())
 		if !ok {
 			vs = append(vs, fieldViolation{prefix + ".status", "must be DRAFT, ACTIVE, SUSPENDED or REVOKED"})
 		}
 		out.Status = st
 	}
-	if issuing && (out.Status == "revoked" || out.Status == "suspended") {
+	if issuing && (out.Status == terms.LicenceRevoked || out.Status == terms.LicenceSuspended) {
 		vs = append(vs, fieldViolation{prefix + ".status", "a new licence is ACTIVE or DRAFT"})
 	}
 	for _, sp := range p.GetSpecialPurposes() {
-		t, ok := purposeText[sp]
+		t, ok := specified(wireterms.PurposeFromWire, sp)
 		if !ok {
 			vs = append(vs, fieldViolation{prefix + ".special_purposes", "unspecified purpose"})
 			continue
@@ -226,13 +224,13 @@ func (l *licensingServer) quotaLineFromProto(q *halovetv1.QuotaLine, f string) (
 	default:
 		vs = append(vs, fieldViolation{f, "give annex_group (e.g. C/I) or substance (e.g. HCFC-22)"})
 	}
-	u, ok := quotaUnitText[q.GetUnit()]
+	u, ok := specified(wireterms.QuotaUnitFromWire, q.GetUnit())
 	if !ok {
 		vs = append(vs, fieldViolation{f + ".unit", "must be METRIC_TONNES, ODP_TONNES or CO2E_TONNES"})
 	}
 	line.Unit = u
 	for j, qp := range q.GetPurposes() {
-		t, ok := purposeText[qp]
+		t, ok := specified(wireterms.PurposeFromWire, qp)
 		if !ok {
 			vs = append(vs, fieldViolation{fmt.Sprintf("%s.purposes[%d]", f, j), "unspecified purpose; name the use the line is an allowance for (e.g. PURPOSE_CRITICAL_USE)"})
 			continue
@@ -248,22 +246,22 @@ func (l *licensingServer) quotaLineFromProto(q *halovetv1.QuotaLine, f string) (
 // licenceToProto converts a stored licence; status is its status on day today.
 func licenceToProto(l store.Licence, today time.Time) *halovetv1.Licence {
 	p := &halovetv1.Licence{LicenceNumber: l.Number, CompanyId: l.CompanyID, ValidFrom: l.ValidFrom.Format(dateLayout),
-		ValidTo: l.ValidTo.Format(dateLayout), Status: licenceStatusEnum[l.StatusOn(today)], Version: int32(l.Version)}
+		ValidTo: l.ValidTo.Format(dateLayout), Status: wireterms.LicenceStatusToWire(l.StatusOn(today)), Version: int32(l.Version)}
 	for _, h := range l.StatusHistory {
-		p.StatusHistory = append(p.StatusHistory, &halovetv1.LicenceStatusPeriod{FromDate: h.From.Format(dateLayout), Status: licenceStatusEnum[h.Status]})
+		p.StatusHistory = append(p.StatusHistory, &halovetv1.LicenceStatusPeriod{FromDate: h.From.Format(dateLayout), Status: wireterms.LicenceStatusToWire(h.Status)})
 		if !h.From.After(today) {
 			p.StatusEffectiveDate = h.From.Format(dateLayout)
 		}
 	}
 	for _, d := range l.Directions {
-		p.Directions = append(p.Directions, directionEnum[d])
+		p.Directions = append(p.Directions, wireterms.DirectionToWire(d))
 	}
 	for _, s := range l.SpecialPurposes {
-		p.SpecialPurposes = append(p.SpecialPurposes, purposeEnum[s])
+		p.SpecialPurposes = append(p.SpecialPurposes, wireterms.PurposeToWire(s))
 	}
 	for _, q := range l.QuotaLines {
 		p.QuotaLines = append(p.QuotaLines, &halovetv1.QuotaLine{LineNumber: int32(q.LineNumber), AnnexGroup: q.AnnexGroup,
-			Substance: q.Substance, Unit: quotaUnitEnum[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn,
+			Substance: q.Substance, Unit: wireterms.QuotaUnitToWire(q.Unit), Allocated: q.Allocated, Drawn: q.Drawn,
 			Remaining: q.Allocated - q.Drawn, Purposes: purposesToProto(q.Purposes), ClosedOn: dateOrEmpty(q.ClosedOn)})
 	}
 	return p
@@ -323,10 +321,10 @@ func (l *licensingServer) ListLicences(ctx context.Context, req *halovetv1.ListL
 	return out, nil
 }
 
-func purposesToProto(ps []string) []halovetv1.Purpose {
+func purposesToProto(ps []terms.Purpose) []halovetv1.Purpose {
 	var out []halovetv1.Purpose
 	for _, p := range ps {
-		out = append(out, purposeEnum[p])
+		out = append(out, wireterms.PurposeToWire(p))
 	}
 	return out
 }

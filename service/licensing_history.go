@@ -8,7 +8,9 @@ import (
 
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -109,8 +111,8 @@ func (l *licensingServer) SetLicenceStatus(ctx context.Context, req *halovetv1.S
 	if req.GetLicenceNumber() == "" {
 		vs = append(vs, fieldViolation{"licence_number", "must not be empty"})
 	}
-	st, ok := licenceStatusText[req.GetStatus()]
-	if !ok || st == "draft" {
+	st, ok := specified(wireterms.LicenceStatusFromWire, req.GetStatus())
+	if !ok || st == terms.LicenceDraft {
 		vs = append(vs, fieldViolation{"status", "must be SUSPENDED, ACTIVE (a reinstatement or a draft made valid) or REVOKED"})
 	}
 	eff, evs := l.srv.effectiveDay("effective_date", req.GetEffectiveDate(), true)
@@ -191,7 +193,7 @@ func (l *licensingServer) ListLicenceHistory(ctx context.Context, req *halovetv1
 	out := &halovetv1.ListLicenceHistoryResponse{StatusHistory: licenceToProto(lic, l.srv.today()).GetStatusHistory()}
 	for _, e := range evs {
 		out.Events = append(out.Events, &halovetv1.LicenceEvent{EventId: e.ID, Kind: eventKindEnum[e.Kind],
-			EffectiveDate: e.EffectiveOn.Format(dateLayout), Status: licenceStatusEnum[e.Status], Reason: e.Reason,
+			EffectiveDate: e.EffectiveOn.Format(dateLayout), Status: wireterms.LicenceStatusToWire(e.Status), Reason: e.Reason,
 			Actor: e.Actor, RecordedAt: e.RecordedAt.UTC().Format(time.RFC3339), DetailJson: string(e.Detail)})
 	}
 	return out, nil
@@ -244,7 +246,7 @@ func (l *licensingServer) LoadRegistry(ctx context.Context, req *halovetv1.LoadR
 		f := fmt.Sprintf("licences[%d]", i)
 		lic, lvs := l.licenceFromProto(p, false, f)
 		if p.GetStatus() == halovetv1.LicenceStatus_LICENCE_STATUS_UNSPECIFIED {
-			lic.Status = ""
+			lic.Status = terms.LicenceStatusUnspecified
 		}
 		eff, evs := l.srv.effectiveDay(f+".status_effective_date", p.GetStatusEffectiveDate(), true)
 		vs = append(append(vs, lvs...), evs...)

@@ -14,6 +14,7 @@ import (
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/terms"
 )
 
 // metrics are the server's Prometheus metrics: per-RPC counts, status codes and latency
@@ -237,7 +238,7 @@ func (c *quotaCollector) Collect(ch chan<- prometheus.Metric) {
 	}
 	counts := make([]int, len(quotaBands))
 	for _, l := range ls {
-		if l.Status != "active" {
+		if l.Status != terms.LicenceActive {
 			continue
 		}
 		for _, q := range l.QuotaLines {

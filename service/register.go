@@ -147,22 +147,9 @@ func (r registerSource) Listen(ctx context.Context, ready func(), changed func(l
 	})
 }
 
-var validatePartyType = map[string]validate.PartyType{
-	"article-5":     validate.PartyTypeArticle5,
-	"non-article-5": validate.PartyTypeNonArticle5,
-	"non-party":     validate.PartyTypeNonParty,
-}
-
-var validateHFCGroup = map[string]validate.HFCGroup{
-	"a5-group-1":     validate.HFCGroupA5Group1,
-	"a5-group-2":     validate.HFCGroupA5Group2,
-	"non-a5":         validate.HFCGroupNonA5,
-	"non-a5-variant": validate.HFCGroupNonA5Variant,
-}
-
 // partyFromStore maps a country's stored settings to the checks'.
 func partyFromStore(p store.Party) (ledger.Party, error) {
-	ps := validate.PartySettings{Type: validatePartyType[p.PartyType], HFCGroup: validateHFCGroup[p.HFCGroup],
+	ps := validate.PartySettings{Type: p.PartyType, HFCGroup: p.HFCGroup,
 		BoundFrom: make(map[substances.Group]time.Time, len(p.BoundFrom)), Known: true}
 	for g, d := range p.BoundFrom {
 		t, err := time.Parse(dateLayout, d)
@@ -174,43 +161,22 @@ func partyFromStore(p store.Party) (ledger.Party, error) {
 	return ledger.Party{Code: p.CountryCode, Settings: ps, Reporting: p.ReportingParty}, nil
 }
 
-var validateStatus = map[string]validate.LicenceStatus{
-	"draft": validate.LicenceDraft, "active": validate.LicenceActive,
-	"suspended": validate.LicenceSuspended, "revoked": validate.LicenceRevoked,
-}
-
-var validateUnit = map[string]validate.QuotaUnit{
-	"metric-t": validate.QuotaMetricTonnes, "odp-t": validate.QuotaODPTonnes, "co2e-t": validate.QuotaCO2eTonnes,
-}
-
 func toValidateLicence(l store.Licence) validate.Licence {
 	v := validate.Licence{Number: l.Number, CompanyID: l.CompanyID, ValidFrom: l.ValidFrom, ValidTo: l.ValidTo,
-		Status: validateStatus[l.Status]}
-	for _, d := range l.Directions {
-		if x, err := validate.ParseDirection(d); err == nil {
-			v.Directions = append(v.Directions, x)
-		}
-	}
-	for _, p := range l.SpecialPurposes {
-		if x, err := validate.ParsePurpose(p); err == nil {
-			v.SpecialPurposes = append(v.SpecialPurposes, x)
-		}
-	}
+		Status: l.Status}
+	v.Directions = slices.Clone(l.Directions)
+	v.SpecialPurposes = slices.Clone(l.SpecialPurposes)
 	for _, q := range l.QuotaLines {
 		line := validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
-			Substance: q.Substance, Unit: validateUnit[q.Unit], Allocated: q.Allocated, Drawn: q.Drawn, Closed: !q.ClosedOn.IsZero()}
+			Substance: q.Substance, Unit: q.Unit, Allocated: q.Allocated, Drawn: q.Drawn, Closed: !q.ClosedOn.IsZero()}
 		if q.AnnexGroup == validate.WholeAnnexF {
 			line.Group, line.Annex = substances.GroupNone, validate.WholeAnnexF
 		}
-		for _, p := range q.Purposes {
-			if x, err := validate.ParsePurpose(p); err == nil {
-				line.Purposes = append(line.Purposes, x)
-			}
-		}
+		line.Purposes = slices.Clone(q.Purposes)
 		v.QuotaLines = append(v.QuotaLines, line)
 	}
 	for _, p := range l.StatusHistory {
-		v.StatusHistory = append(v.StatusHistory, validate.StatusPeriod{From: p.From, Status: validateStatus[p.Status]})
+		v.StatusHistory = append(v.StatusHistory, validate.StatusPeriod{From: p.From, Status: p.Status})
 	}
 	return v
 }

@@ -15,6 +15,7 @@ import (
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -748,7 +749,7 @@ func (left streamBalances) follow(batch []*pendingRecord, idx []*pendingRecord, 
 			continue
 		}
 		lic := p.lic
-		if lic == nil || !p.verdict.Resolved || p.verdict.Figures.NetMassKg <= 0 || p.rec.Direction == validate.DirectionTransit {
+		if lic == nil || !p.verdict.Resolved || p.verdict.Figures.NetMassKg <= 0 || p.rec.Direction == terms.DirectionTransit {
 			continue
 		}
 		draws, _ := validate.PlanDraws(lic, p.verdict.Figures, p.rec.Purpose)

@@ -7,19 +7,20 @@ import (
 	"google.golang.org/protobuf/encoding/protojson"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
 )
 
 // RecordToProto maps a parsed record to the wire record, as the command line sends it;
-// recordFromProto is its inverse. The wire enums and the validate enums share their numbers.
+// recordFromProto is its inverse. The enums are mapped by wireterms.
 func RecordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
-	p := &halovetv1.ShipmentRecord{RecordKey: r.Key, SourceLine: r.Line, Direction: halovetv1.Direction(r.Direction),
+	p := &halovetv1.ShipmentRecord{RecordKey: r.Key, SourceLine: r.Line, Direction: wireterms.DirectionToWire(r.Direction),
 		CompanyId: r.CompanyID, LicenceNumber: r.LicenceNumber, PartnerCountry: r.PartnerCountry,
 		DeclarationDate: r.DeclarationDate, Substance: r.Substance, DeclaredHsCode: r.HSCode,
 		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, TotalNetQuantity: r.TotalQuantity, QuantityUnit: r.Unit,
-		PackageCount: r.PackageCount, NetFillPerPackage: r.FillPerPackage, Purpose: halovetv1.Purpose(r.Purpose), Condition: halovetv1.Condition(r.Condition)}
+		PackageCount: r.PackageCount, NetFillPerPackage: r.FillPerPackage, Purpose: wireterms.PurposeToWire(r.Purpose), Condition: wireterms.ConditionToWire(r.Condition)}
 	for _, s := range r.Composition {
 		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: s.MassPct})
 	}
@@ -29,15 +30,15 @@ func RecordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
 	return p
 }
 
-// recordFromProto maps a wire record to the checker's record. The wire enums and the
-// validate enums share their numbers.
+// recordFromProto maps a wire record to the checker's record (enums by wireterms; see
+// recordDirection for a number the wire does not declare).
 func recordFromProto(p *halovetv1.ShipmentRecord) validate.Record {
-	r := validate.Record{Key: p.GetRecordKey(), Line: p.GetSourceLine(), Direction: validate.Direction(p.GetDirection()),
+	r := validate.Record{Key: p.GetRecordKey(), Line: p.GetSourceLine(), Direction: recordDirection(p.GetDirection()),
 		CompanyID: p.GetCompanyId(), LicenceNumber: p.GetLicenceNumber(), PartnerCountry: p.GetPartnerCountry(),
 		DeclarationDate: p.GetDeclarationDate(), Substance: p.GetSubstance(), HSCode: p.GetDeclaredHsCode(),
 		CAS: p.GetDeclaredCasNumber(), Formula: p.GetDeclaredFormula(), TotalQuantity: p.GetTotalNetQuantity(),
-		Unit: p.GetQuantityUnit(), PackageCount: p.GetPackageCount(), FillPerPackage: p.GetNetFillPerPackage(), Purpose: validate.Purpose(p.GetPurpose()),
-		Condition: validate.Condition(p.GetCondition())}
+		Unit: p.GetQuantityUnit(), PackageCount: p.GetPackageCount(), FillPerPackage: p.GetNetFillPerPackage(), Purpose: recordPurpose(p.GetPurpose()),
+		Condition: recordCondition(p.GetCondition())}
 	for _, s := range p.GetDeclaredComposition() {
 		r.Composition = append(r.Composition, validate.DeclaredShare{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent()})
 	}

@@ -17,6 +17,7 @@ import (
 
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/validate"
 )
@@ -204,24 +205,24 @@ func (s *Server) shipmentFilter(req *halovetv1.ListShipmentsRequest) (store.Ship
 		f.AnnexGroups = gs
 	}
 	if d := req.GetDirection(); d != halovetv1.Direction_DIRECTION_UNSPECIFIED {
-		if t, ok := directionText[d]; ok {
-			f.Direction = t
+		if t, ok := specified(wireterms.DirectionFromWire, d); ok {
+			f.Direction = t.String()
 		} else {
 			vs = append(vs, fieldViolation{"direction", fmt.Sprintf("%d is not a direction", d)})
 		}
 	}
 	if p := req.GetPurpose(); p != halovetv1.Purpose_PURPOSE_UNSPECIFIED {
-		if t, ok := purposeText[p]; ok {
-			f.Purpose = t
+		if t, ok := specified(wireterms.PurposeFromWire, p); ok {
+			f.Purpose = t.String()
 		} else {
 			vs = append(vs, fieldViolation{"purpose", fmt.Sprintf("%d is not a purpose", p)})
 		}
 	}
 	if c := req.GetCondition(); c != halovetv1.Condition_CONDITION_UNSPECIFIED {
-		if c < halovetv1.Condition_CONDITION_VIRGIN || c > halovetv1.Condition_CONDITION_RECLAIMED {
-			vs = append(vs, fieldViolation{"condition", fmt.Sprintf("%d is not a condition", c)})
+		if t, ok := specified(wireterms.ConditionFromWire, c); ok {
+			f.Condition = t.String()
 		} else {
-			f.Condition = validate.Condition(c).String()
+			vs = append(vs, fieldViolation{"condition", fmt.Sprintf("%d is not a condition", c)})
 		}
 	}
 	for i, st := range req.GetStates() {

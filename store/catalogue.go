@@ -116,9 +116,9 @@ func queueBlend(b *pgx.Batch, x *substances.Blend) {
 	}
 }
 
-func nonNil(s []string) []string {
+func nonNil[T any](s []T) []T {
 	if s == nil {
-		return []string{}
+		return []T{}
 	}
 	return s
 }

@@ -3,6 +3,8 @@ package store
 import (
 	"context"
 	"fmt"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // ShipmentTotalsSQL is ShipmentTotals' query ($1: the years, NULL for every year): it
@@ -112,22 +114,22 @@ type CompanyAmount struct {
 
 // CompanyImports sums, per company and year, the recorded imports that count in
 // consumption (counts_in_consumption) of the components in the given Annex groups, in a
-// quota unit: "metric-t" (component mass), "odp-t" or "co2e-t" (the figures computed when
-// the shipment was recorded).
-func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string, years []int) (_ []CompanyAmount, err error) {
+// quota unit: metric tonnes (component mass), ODP or CO2-eq tonnes (the figures computed
+// when the shipment was recorded).
+func (s *Store) CompanyImports(ctx context.Context, groups []string, unit terms.QuotaUnit, years []int) (_ []CompanyAmount, err error) {
 	return s.reader().CompanyImports(ctx, groups, unit, years)
 }
 
 // CompanyImports is Store.CompanyImports within the reader's transaction, if any.
-func (r Reader) CompanyImports(ctx context.Context, groups []string, unit string, years []int) (_ []CompanyAmount, err error) {
+func (r Reader) CompanyImports(ctx context.Context, groups []string, unit terms.QuotaUnit, years []int) (_ []CompanyAmount, err error) {
 	defer classifyInto(&err)
 	var expr string
 	switch unit {
-	case "metric-t":
+	case terms.QuotaMetricTonnes:
 		expr = "c.mass_kg / 1000"
-	case "odp-t":
+	case terms.QuotaODPTonnes:
 		expr = "c.odp_tonnes"
-	case "co2e-t":
+	case terms.QuotaCO2eTonnes:
 		expr = "c.co2e_tonnes"
 	default:
 		return nil, fmt.Errorf("company imports: unit %q; accepted: metric-t, odp-t, co2e-t", unit)

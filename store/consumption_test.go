@@ -9,6 +9,7 @@ import (
 
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // consStore opens a fresh database with the seed catalogue written into it (national
@@ -196,14 +197,14 @@ func TestShipmentTotalsAggregateComponentsInSQL(t *testing.T) {
 
 	// Imports counting in consumption, per company, in ODP t: XA-1 0.055 + 0.02585; XA-2
 	// 0.01375 (its used import does not count).
-	ci, err := st.CompanyImports(ctx, []string{"C/I"}, "odp-t", []int{2025})
+	ci, err := st.CompanyImports(ctx, []string{"C/I"}, terms.QuotaODPTonnes, []int{2025})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if len(ci) != 2 || ci[0].CompanyID != "XA-1" || !near(ci[0].Amount, 0.08085) || ci[1].CompanyID != "XA-2" || !near(ci[1].Amount, 0.01375) {
 		t.Fatalf("company imports %+v, want XA-1 0.08085 and XA-2 0.01375 ODP t", ci)
 	}
-	cf, err := st.CompanyImports(ctx, []string{"F/I", "F/II"}, "co2e-t", []int{2024, 2025})
+	cf, err := st.CompanyImports(ctx, []string{"F/I", "F/II"}, terms.QuotaCO2eTonnes, []int{2024, 2025})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -211,8 +212,8 @@ func TestShipmentTotalsAggregateComponentsInSQL(t *testing.T) {
 	if len(cf) != 1 || !near(cf[0].Amount, 2301.2) {
 		t.Fatalf("HFC company imports %+v, want XA-1 2301.2 CO2-eq t", cf)
 	}
-	if _, err := st.CompanyImports(ctx, []string{"C/I"}, "kg", []int{2025}); err == nil {
-		t.Fatal("unit kg accepted; want an error naming the accepted units")
+	if _, err := st.CompanyImports(ctx, []string{"C/I"}, terms.QuotaUnitUnspecified, []int{2025}); err == nil {
+		t.Fatal("an unspecified unit accepted; want an error naming the accepted units")
 	}
 }
 
@@ -223,14 +224,14 @@ func TestReportingParty(t *testing.T) {
 		t.Fatalf("no party: err %v, want ErrNoReportingParty", err)
 	}
 	// Invented Parties with user-assigned codes.
-	if err := st.PutParty(ctx, store.Party{CountryCode: "XB", PartyType: "non-article-5", HFCGroup: "non-a5"}); err != nil {
+	if err := st.PutParty(ctx, store.Party{CountryCode: "XB", PartyType: terms.PartyTypeNonArticle5, HFCGroup: terms.HFCGroupNonA5}); err != nil {
 		t.Fatal(err)
 	}
-	if err := st.PutParty(ctx, store.Party{CountryCode: "XA", PartyType: "article-5", HFCGroup: "a5-group-1", ReportingParty: true}); err != nil {
+	if err := st.PutParty(ctx, store.Party{CountryCode: "XA", PartyType: terms.PartyTypeArticle5, HFCGroup: terms.HFCGroupA5Group1, ReportingParty: true}); err != nil {
 		t.Fatal(err)
 	}
 	p, err := st.ReportingParty(ctx)
-	if err != nil || p.CountryCode != "XA" || p.HFCGroup != "a5-group-1" {
+	if err != nil || p.CountryCode != "XA" || p.HFCGroup != terms.HFCGroupA5Group1 {
 		t.Fatalf("reporting party %+v (err %v), want XA a5-group-1", p, err)
 	}
 }

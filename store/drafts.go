@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"github.com/halovet/halovet/terms"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -41,7 +42,7 @@ func (e *UnknownCompanyError) Unwrap() error { return ErrNotFound }
 // effectiveOn is the day an amendment takes effect in the history.
 func (s *Store) IssueDrafts(ctx context.Context, ls []Licence, reason string, effectiveOn time.Time) error {
 	for _, l := range ls {
-		if l.Status != "draft" {
+		if l.Status != terms.LicenceDraft {
 			return fmt.Errorf("IssueDrafts: licence %q has status %q, not draft", l.Number, l.Status)
 		}
 	}

@@ -10,6 +10,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"github.com/halovet/halovet/pglocal/pgtest"
+	"github.com/halovet/halovet/terms"
 )
 
 // These tests make PostgreSQL itself fail in each way the store classifies (a real
@@ -46,9 +47,9 @@ func seedLicence(t *testing.T, st *Store) {
 	if err := st.PutCompany(ctx, Company{CompanyID: "XA-1", Name: "Invented Co"}); err != nil {
 		t.Fatal(err)
 	}
-	l := Licence{Number: "L-1", CompanyID: "XA-1", Directions: []string{"import"},
+	l := Licence{Number: "L-1", CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport},
 		ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC),
-		Status: "active", QuotaLines: []QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: "odp-t", Allocated: 1}}}
+		Status: terms.LicenceActive, QuotaLines: []QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: 1}}}
 	if err := st.IssueLicence(ctx, l, "test licence"); err != nil {
 		t.Fatal(err)
 	}
@@ -71,8 +72,8 @@ func TestStoreCallsClassifyConstraintsAndMissingRows(t *testing.T) {
 	st, _ := openInternal(t)
 	ctx := context.Background()
 	seedLicence(t, st)
-	l := Licence{Number: "L-1", CompanyID: "XA-1", Directions: []string{"import"},
-		ValidFrom: time.Now(), ValidTo: time.Now(), Status: "active"}
+	l := Licence{Number: "L-1", CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport},
+		ValidFrom: time.Now(), ValidTo: time.Now(), Status: terms.LicenceActive}
 	wantKind(t, "issuing L-1 twice (unique violation)", st.IssueLicence(ctx, l, ""), ErrAlreadyExists)
 	l.Number, l.CompanyID = "L-2", "NO-SUCH-COMPANY"
 	wantKind(t, "a licence of an unknown company (foreign key violation)", st.IssueLicence(ctx, l, ""), ErrNotFound)
@@ -208,7 +209,7 @@ func TestTerminatedBackendIsUnavailable(t *testing.T) {
 	}
 	done := make(chan error, 1)
 	go func() {
-		_, err := st.SetLicenceStatus(ctx, StatusChange{Number: "L-1", Status: "suspended", EffectiveOn: time.Now(), Reason: "test"})
+		_, err := st.SetLicenceStatus(ctx, StatusChange{Number: "L-1", Status: terms.LicenceSuspended, EffectiveOn: time.Now(), Reason: "test"})
 		done <- err
 	}()
 	// Find the store's backend waiting for the row lock, and terminate it.
@@ -269,8 +270,8 @@ func TestConcurrentReportingPartiesSerialise(t *testing.T) {
 		errs := make(chan error, 2)
 		for _, code := range []string{"XA", "XB"} {
 			go func() {
-				errs <- st.PutParty(ctx, Party{CountryCode: code, Name: "invented", PartyType: "article-5",
-					HFCGroup: "a5-group-1", ReportingParty: true})
+				errs <- st.PutParty(ctx, Party{CountryCode: code, Name: "invented", PartyType: terms.PartyTypeArticle5,
+					HFCGroup: terms.HFCGroupA5Group1, ReportingParty: true})
 			}()
 		}
 		var ok, refused int

@@ -10,6 +10,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/terms"
 )
 
 // A licence's dated history (migration 00007): every status change and amendment is one
@@ -21,14 +22,14 @@ import (
 // StatusPeriod is one status of a licence from a day on, until the next period.
 type StatusPeriod struct {
 	From   time.Time // first day of the period
-	Status string    // "draft", "active", "suspended", "revoked"
+	Status terms.LicenceStatus
 }
 
 // StatusOn returns the status of history on day d: that of the last period starting on or
 // before d; before the first period, the first period's status (a day before a licence
 // was issued is outside its validity, which the checks judge apart). An empty history
 // gives current.
-func StatusOn(history []StatusPeriod, current string, d time.Time) string {
+func StatusOn(history []StatusPeriod, current terms.LicenceStatus, d time.Time) terms.LicenceStatus {
 	if len(history) == 0 {
 		return current
 	}
@@ -45,9 +46,9 @@ func StatusOn(history []StatusPeriod, current string, d time.Time) string {
 // LicenceEvent is one entry of a licence's history.
 type LicenceEvent struct {
 	ID          int64
-	Kind        string    // issued, activated, suspended, reinstated, revoked, amended, line-closed, status-undated
-	EffectiveOn time.Time // the day the change takes effect
-	Status      string    // the status from EffectiveOn on; "" when the event leaves it as it was
+	Kind        string              // issued, activated, suspended, reinstated, revoked, amended, line-closed, status-undated
+	EffectiveOn time.Time           // the day the change takes effect
+	Status      terms.LicenceStatus // the status from EffectiveOn on; unspecified when the event leaves it as it was
 	Reason      string
 	Actor       string
 	RecordedAt  time.Time
@@ -61,7 +62,7 @@ var ErrStaleVersion = errors.New("the licence changed since it was read")
 // StatusChange asks for a licence's status to change from a day on.
 type StatusChange struct {
 	Number string
-	Status string // "active", "suspended" or "revoked"
+	Status terms.LicenceStatus // active, suspended or revoked
 	// EffectiveOn is the first day of the new status; the zero time means Today, or the
 	// day of the licence's last status change when that is later (a licence issued for a
 	// later year is suspended from its first day).
@@ -74,23 +75,26 @@ type StatusChange struct {
 
 // statusKind names the event that moves a licence from status from to status to, or says
 // why that move is refused.
-func statusKind(number, from, to string) (string, error) {
+func statusKind(number string, from, to terms.LicenceStatus) (string, error) {
+	const (
+		active, suspended, revoked = terms.LicenceActive, terms.LicenceSuspended, terms.LicenceRevoked
+	)
 	switch {
-	case to == "suspended" && from == "active":
+	case to == suspended && from == active:
 		return "suspended", nil
-	case to == "suspended":
+	case to == suspended:
 		return "", fmt.Errorf("licence %q is %s; only an active licence can be suspended: %w", number, from, ErrConflict)
-	case to == "active" && from == "suspended":
+	case to == active && from == suspended:
 		return "reinstated", nil
-	case to == "active" && from == "draft":
+	case to == active && from == terms.LicenceDraft:
 		return "activated", nil
-	case to == "active" && from == "active":
+	case to == active && from == active:
 		return "", fmt.Errorf("licence %q is already active; a reinstatement needs a suspended licence: %w", number, ErrConflict)
-	case to == "active":
+	case to == active:
 		return "", fmt.Errorf("licence %q is %s and cannot be reinstated: %w", number, from, ErrConflict)
-	case to == "revoked" && from == "revoked":
+	case to == revoked && from == revoked:
 		return "", fmt.Errorf("licence %q is already revoked: %w", number, ErrConflict)
-	case to == "revoked":
+	case to == revoked:
 		return "revoked", nil
 	}
 	return "", fmt.Errorf("licence %q cannot be set to %q; set active, suspended or revoked: %w", number, to, ErrConflict)
@@ -98,7 +102,7 @@ func statusKind(number, from, to string) (string, error) {
 
 // lockedLicence is a licence row read FOR UPDATE with what a change checks.
 type lockedLicence struct {
-	status     string
+	status     terms.LicenceStatus
 	version    int
 	lastChange time.Time // effective day of the last status event (zero: none)
 	lastKind   string
@@ -128,13 +132,13 @@ func lockLicence(ctx context.Context, tx pgx.Tx, number string, expectedVersion 
 
 // addEvent appends an event to a licence's history, bumps its version, sets its status when
 // status is not empty, and writes the audit log entry, all in tx.
-func addEvent(ctx context.Context, tx pgx.Tx, number, kind string, effective time.Time, status, reason string, detail any) error {
+func addEvent(ctx context.Context, tx pgx.Tx, number, kind string, effective time.Time, status terms.LicenceStatus, reason string, detail any) error {
 	d, err := json.Marshal(detail)
 	if err != nil {
 		return err
 	}
-	var st any
-	if status != "" {
+	var st any // NULL: the event leaves the status as it was
+	if status != terms.LicenceStatusUnspecified {
 		st = status
 	}
 	if _, err := tx.Exec(ctx, `INSERT INTO licence_events (licence_number, kind, effective_on, status, reason, actor, detail)
@@ -186,7 +190,7 @@ func setStatusTx(ctx context.Context, tx pgx.Tx, c StatusChange) (string, error)
 			c.Number, c.EffectiveOn.Format(time.DateOnly), l.lastKind, l.lastChange.Format(time.DateOnly), ErrConflict)
 	}
 	return kind, addEvent(ctx, tx, c.Number, kind, c.EffectiveOn, c.Status, c.Reason,
-		map[string]string{"from": l.status, "to": c.Status, "effective_on": c.EffectiveOn.Format(time.DateOnly)})
+		map[string]string{"from": l.status.String(), "to": c.Status.String(), "effective_on": c.EffectiveOn.Format(time.DateOnly)})
 }
 
 // CloseLine closes a quota line from a day on and may open another in its place.
@@ -213,7 +217,7 @@ func (s *Store) CloseQuotaLine(ctx context.Context, c CloseLine) (successor int,
 		if err != nil {
 			return err
 		}
-		if l.status == "revoked" {
+		if l.status == terms.LicenceRevoked {
 			return fmt.Errorf("licence %q is revoked; its quota lines stay as they are: %w", c.Number, ErrConflict)
 		}
 		var allocated, drawn float64
@@ -248,7 +252,7 @@ func (s *Store) CloseQuotaLine(ctx context.Context, c CloseLine) (successor int,
 			}
 			detail["opened"] = q
 		}
-		return addEvent(ctx, tx, c.Number, "line-closed", c.EffectiveOn, "", c.Reason, detail)
+		return addEvent(ctx, tx, c.Number, "line-closed", c.EffectiveOn, terms.LicenceStatusUnspecified, c.Reason, detail)
 	})
 	if err != nil {
 		return 0, err
@@ -311,7 +315,7 @@ func statusHistories(ctx context.Context, q interface {
 // licenceStatuses answers the status of the licences a recording batch draws on, as of a
 // declaration date, from the rows read in its transaction.
 type licenceStatuses struct {
-	current map[string]string // licences.status; a licence absent here does not exist
+	current map[string]terms.LicenceStatus // licences.status; a licence absent here does not exist
 	history map[string][]StatusPeriod
 }
 
@@ -321,20 +325,21 @@ func (ls licenceStatuses) on(n string, d time.Time) string {
 	if !ok {
 		return ""
 	}
-	return StatusOn(ls.history[n], cur, d)
+	return StatusOn(ls.history[n], cur, d).String()
 }
 
 // readLicenceStatuses reads the numbered licences FOR SHARE (sorted, the lock order) with
 // their status histories, for the recorder.
 func readLicenceStatuses(ctx context.Context, tx pgx.Tx, lics []string) (licenceStatuses, error) {
-	ls := licenceStatuses{current: map[string]string{}}
+	ls := licenceStatuses{current: map[string]terms.LicenceStatus{}}
 	q, err := tx.Query(ctx, `SELECT licence_number, status FROM licences
 	    WHERE licence_number = ANY($1) ORDER BY licence_number FOR SHARE`, lics)
 	if err != nil {
 		return ls, err
 	}
 	for q.Next() {
-		var n, st string
+		var n string
+		var st terms.LicenceStatus
 		if err := q.Scan(&n, &st); err != nil {
 			q.Close()
 			return ls, err

@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/terms"
 )
 
 func date(y int, m time.Month, d int) time.Time { return time.Date(y, m, d, 0, 0, 0, 0, time.UTC) }
@@ -36,7 +37,7 @@ func TestRecorderJudgesTheLicenceAsOfTheDeclarationDate(t *testing.T) {
 	st, _ := openTestStore(t)
 	ctx := context.Background()
 	issueTestLicence(t, st, "L-1", 10)
-	kind, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "suspended", EffectiveOn: date(2026, 9, 15), Reason: "inspection"})
+	kind, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: terms.LicenceSuspended, EffectiveOn: date(2026, 9, 15), Reason: "inspection"})
 	if err != nil || kind != "suspended" {
 		t.Fatalf("suspend: %q %v", kind, err)
 	}
@@ -54,7 +55,7 @@ func TestRecorderJudgesTheLicenceAsOfTheDeclarationDate(t *testing.T) {
 			t.Errorf("row %d: status %v, want %v (%+v)", i, res[i].Status, w, res[i])
 		}
 	}
-	kind, err = st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "active", EffectiveOn: date(2026, 10, 1), Reason: "inspection passed"})
+	kind, err = st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: terms.LicenceActive, EffectiveOn: date(2026, 10, 1), Reason: "inspection passed"})
 	if err != nil || kind != "reinstated" {
 		t.Fatalf("reinstate: %q %v", kind, err)
 	}
@@ -69,7 +70,7 @@ func TestRecorderJudgesTheLicenceAsOfTheDeclarationDate(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if l.Status != "active" || l.StatusOn(date(2026, 9, 20)) != "suspended" || l.StatusOn(date(2026, 6, 1)) != "active" || l.Version != 3 {
+	if l.Status != terms.LicenceActive || l.StatusOn(date(2026, 9, 20)) != terms.LicenceSuspended || l.StatusOn(date(2026, 6, 1)) != terms.LicenceActive || l.Version != 3 {
 		t.Fatalf("licence %+v: want active now, suspended on 2026-09-20, active on 2026-06-01, version 3", l)
 	}
 	h, err := st.LicenceHistory(ctx, "L-1")
@@ -90,7 +91,7 @@ func TestStatusChangeRefusals(t *testing.T) {
 	st, _ := openTestStore(t)
 	ctx := context.Background()
 	issueTestLicence(t, st, "L-1", 10)
-	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "suspended", EffectiveOn: date(2026, 9, 15), Reason: "x"}); err != nil {
+	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: terms.LicenceSuspended, EffectiveOn: date(2026, 9, 15), Reason: "x"}); err != nil {
 		t.Fatal(err)
 	}
 	audits := auditCount(t, st, "L-1")
@@ -100,11 +101,11 @@ func TestStatusChangeRefusals(t *testing.T) {
 		kind error
 		text string
 	}{
-		{"unknown licence", store.StatusChange{Number: "NOPE", Status: "active", EffectiveOn: date(2026, 10, 1)}, store.ErrNotFound, "NOPE"},
-		{"suspending a suspended licence", store.StatusChange{Number: "L-1", Status: "suspended", EffectiveOn: date(2026, 10, 1)}, store.ErrConflict, "only an active licence can be suspended"},
-		{"dated before the last change", store.StatusChange{Number: "L-1", Status: "active", EffectiveOn: date(2026, 9, 1)}, store.ErrConflict, "before its last status change"},
-		{"stale version", store.StatusChange{Number: "L-1", Status: "active", EffectiveOn: date(2026, 10, 1), ExpectedVersion: 1}, store.ErrConflict, "expected_version 1"},
-		{"back to draft", store.StatusChange{Number: "L-1", Status: "draft", EffectiveOn: date(2026, 10, 1)}, store.ErrConflict, "cannot be set to"},
+		{"unknown licence", store.StatusChange{Number: "NOPE", Status: terms.LicenceActive, EffectiveOn: date(2026, 10, 1)}, store.ErrNotFound, "NOPE"},
+		{"suspending a suspended licence", store.StatusChange{Number: "L-1", Status: terms.LicenceSuspended, EffectiveOn: date(2026, 10, 1)}, store.ErrConflict, "only an active licence can be suspended"},
+		{"dated before the last change", store.StatusChange{Number: "L-1", Status: terms.LicenceActive, EffectiveOn: date(2026, 9, 1)}, store.ErrConflict, "before its last status change"},
+		{"stale version", store.StatusChange{Number: "L-1", Status: terms.LicenceActive, EffectiveOn: date(2026, 10, 1), ExpectedVersion: 1}, store.ErrConflict, "expected_version 1"},
+		{"back to draft", store.StatusChange{Number: "L-1", Status: terms.LicenceDraft, EffectiveOn: date(2026, 10, 1)}, store.ErrConflict, "cannot be set to"},
 	}
 	for _, c := range cases {
 		_, err := st.SetLicenceStatus(ctx, c.c)
@@ -112,15 +113,15 @@ func TestStatusChangeRefusals(t *testing.T) {
 			t.Errorf("%s: err %v, want %v naming %q", c.name, err, c.kind, c.text)
 		}
 	}
-	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "revoked", EffectiveOn: date(2026, 11, 1)}); err != nil {
+	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: terms.LicenceRevoked, EffectiveOn: date(2026, 11, 1)}); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "active", EffectiveOn: date(2026, 11, 2)}); !errors.Is(err, store.ErrConflict) {
+	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: terms.LicenceActive, EffectiveOn: date(2026, 11, 2)}); !errors.Is(err, store.ErrConflict) {
 		t.Errorf("reinstating a revoked licence: %v, want ErrConflict", err)
 	}
 	// A reinstatement of a licence that is not suspended (it is active).
 	issueTestLicence(t, st, "L-2", 1)
-	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-2", Status: "active", EffectiveOn: date(2026, 5, 1)}); !errors.Is(err, store.ErrConflict) ||
+	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-2", Status: terms.LicenceActive, EffectiveOn: date(2026, 5, 1)}); !errors.Is(err, store.ErrConflict) ||
 		!strings.Contains(err.Error(), "a reinstatement needs a suspended licence") {
 		t.Errorf("reinstating an active licence: %v", err)
 	}
@@ -159,7 +160,7 @@ func TestAmendmentKeepsWhatPastDrawsMean(t *testing.T) {
 		edit func(*store.Licence)
 		text string
 	}{
-		{"unit", func(x *store.Licence) { x.QuotaLines[0].Unit = "co2e-t" }, "unit, scope and purposes stay odp-t C/I"},
+		{"unit", func(x *store.Licence) { x.QuotaLines[0].Unit = terms.QuotaCO2eTonnes }, "unit, scope and purposes stay odp-t C/I"},
 		{"scope", func(x *store.Licence) { x.QuotaLines[0].AnnexGroup = "F/I" }, "close it (CloseQuotaLine)"},
 		{"company", func(x *store.Licence) { x.CompanyID = "XA-2" }, "company_id stays XA-1"},
 		{"removal", func(x *store.Licence) { x.QuotaLines = nil }, "cannot be removed"},
@@ -183,13 +184,13 @@ func TestAmendmentKeepsWhatPastDrawsMean(t *testing.T) {
 		t.Fatalf("amending the version read before the last amendment: %v, want ErrStaleVersion", err)
 	}
 	n, err := st.CloseQuotaLine(ctx, store.CloseLine{Number: "L-1", LineNumber: 1, EffectiveOn: date(2026, 8, 1), Reason: "converted to CO2-eq",
-		Successor: &store.QuotaLine{AnnexGroup: "C/I", Unit: "co2e-t", Allocated: 500}})
+		Successor: &store.QuotaLine{AnnexGroup: "C/I", Unit: terms.QuotaCO2eTonnes, Allocated: 500}})
 	if err != nil || n != 2 {
 		t.Fatalf("close line 1: new line %d, %v", n, err)
 	}
 	l, _ = st.GetLicence(ctx, "L-1")
-	if len(l.QuotaLines) != 2 || l.QuotaLines[0].Allocated != 0.4 || l.QuotaLines[0].Drawn != 0.4 || l.QuotaLines[0].Unit != "odp-t" ||
-		!l.QuotaLines[0].ClosedOn.Equal(date(2026, 8, 1)) || l.QuotaLines[1].Unit != "co2e-t" || l.QuotaLines[1].Allocated != 500 {
+	if len(l.QuotaLines) != 2 || l.QuotaLines[0].Allocated != 0.4 || l.QuotaLines[0].Drawn != 0.4 || l.QuotaLines[0].Unit != terms.QuotaODPTonnes ||
+		!l.QuotaLines[0].ClosedOn.Equal(date(2026, 8, 1)) || l.QuotaLines[1].Unit != terms.QuotaCO2eTonnes || l.QuotaLines[1].Allocated != 500 {
 		t.Fatalf("after closing: %+v", l.QuotaLines)
 	}
 	if res, err := st.RecordShipments(ctx, []store.ShipmentRow{row("k2", store.ToNano(0.01))}); err != nil || res[0].Status != store.RecordQuotaShort {
@@ -212,7 +213,7 @@ func TestReportingPartyIsSetApart(t *testing.T) {
 	st, _ := openTestStore(t)
 	ctx := context.Background()
 	put := func(code string, reporting bool) error {
-		return st.PutParty(ctx, store.Party{CountryCode: code, Name: "invented", PartyType: "article-5", HFCGroup: "a5-group-1", ReportingParty: reporting})
+		return st.PutParty(ctx, store.Party{CountryCode: code, Name: "invented", PartyType: terms.PartyTypeArticle5, HFCGroup: terms.HFCGroupA5Group1, ReportingParty: reporting})
 	}
 	if err := put("XA", true); err != nil {
 		t.Fatalf("first setup: %v", err)
@@ -260,17 +261,17 @@ func TestReportingPartyIsSetApart(t *testing.T) {
 func TestLoadRegistryIsAtomic(t *testing.T) {
 	st, _ := openTestStore(t)
 	ctx := context.Background()
-	lic := func(number, status string) store.LoadLicence {
-		return store.LoadLicence{StatusEffectiveOn: date(2026, 9, 15), Licence: store.Licence{Number: number, CompanyID: "XA-1", Directions: []string{"import"},
+	lic := func(number string, status terms.LicenceStatus) store.LoadLicence {
+		return store.LoadLicence{StatusEffectiveOn: date(2026, 9, 15), Licence: store.Licence{Number: number, CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport},
 			ValidFrom: date(2026, 1, 1), ValidTo: date(2026, 12, 31), Status: status,
-			QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: "odp-t", Allocated: 1}}}}
+			QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: 1}}}}
 	}
 	load := store.Load{Today: date(2026, 12, 3), Reason: "test load",
-		Parties:   []store.Party{{CountryCode: "XA", PartyType: "article-5", HFCGroup: "a5-group-1", ReportingParty: true}},
+		Parties:   []store.Party{{CountryCode: "XA", PartyType: terms.PartyTypeArticle5, HFCGroup: terms.HFCGroupA5Group1, ReportingParty: true}},
 		Companies: []store.Company{{CompanyID: "XA-1", Name: "Invented Co"}},
-		Licences:  []store.LoadLicence{lic("L-1", "suspended"), lic("L-2", "active")}}
+		Licences:  []store.LoadLicence{lic("L-1", terms.LicenceSuspended), lic("L-2", terms.LicenceActive)}}
 	bad := load
-	bad.Licences = append(append([]store.LoadLicence(nil), load.Licences...), lic("L-3", "active"))
+	bad.Licences = append(append([]store.LoadLicence(nil), load.Licences...), lic("L-3", terms.LicenceActive))
 	bad.Licences[2].Licence.CompanyID = "NOBODY" // unknown company: the last object fails
 	if _, err := st.LoadRegistry(ctx, bad); !errors.Is(err, store.ErrNotFound) || !strings.Contains(err.Error(), "licences[2] (L-3)") {
 		t.Fatalf("load with a bad last object: %v", err)
@@ -300,13 +301,13 @@ func TestLoadRegistryIsAtomic(t *testing.T) {
 		}
 	}
 	again := load
-	again.Licences = []store.LoadLicence{lic("L-1", "active")}
+	again.Licences = []store.LoadLicence{lic("L-1", terms.LicenceActive)}
 	again.Licences[0].StatusEffectiveOn = date(2026, 10, 1)
 	if out, err = st.LoadRegistry(ctx, again); err != nil || out[2].Result != "changed" || out[2].Changes[0] != "reinstated from 2026-10-01" {
 		t.Fatalf("reinstating through a load: %+v %v", out, err)
 	}
 	l, _ := st.GetLicence(ctx, "L-1")
-	if l.Status != "active" || l.StatusOn(date(2026, 9, 20)) != "suspended" || l.StatusOn(date(2026, 10, 2)) != "active" {
+	if l.Status != terms.LicenceActive || l.StatusOn(date(2026, 9, 20)) != terms.LicenceSuspended || l.StatusOn(date(2026, 10, 2)) != terms.LicenceActive {
 		t.Fatalf("after the reinstatement: %+v", l)
 	}
 	if res, err := st.RecordShipments(ctx, []store.ShipmentRow{rowOn("k1", store.ToNano(0.1), date(2026, 10, 5))}); err != nil || res[0].Status != store.RecordStored {
@@ -320,17 +321,17 @@ func TestUndatedStatusChangeDefaultsToToday(t *testing.T) {
 	st, _ := openTestStore(t)
 	ctx := context.Background()
 	issueTestLicence(t, st, "L-1", 1) // valid from 2026-01-01 (invented)
-	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "suspended", Today: date(2026, 12, 3), Reason: "x"}); err != nil {
+	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: terms.LicenceSuspended, Today: date(2026, 12, 3), Reason: "x"}); err != nil {
 		t.Fatal(err)
 	}
 	if err := st.PutCompany(ctx, store.Company{CompanyID: "XA-1", Name: "Invented Co"}); err != nil {
 		t.Fatal(err)
 	}
-	next := store.Licence{Number: "L-2027", CompanyID: "XA-1", Directions: []string{"import"}, ValidFrom: date(2027, 1, 1), ValidTo: date(2027, 12, 31), Status: "active"}
+	next := store.Licence{Number: "L-2027", CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport}, ValidFrom: date(2027, 1, 1), ValidTo: date(2027, 12, 31), Status: terms.LicenceActive}
 	if err := st.IssueLicence(ctx, next, "next year"); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-2027", Status: "suspended", Today: date(2026, 12, 3), Reason: "x"}); err != nil {
+	if _, err := st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-2027", Status: terms.LicenceSuspended, Today: date(2026, 12, 3), Reason: "x"}); err != nil {
 		t.Fatal(err)
 	}
 	for n, want := range map[string]time.Time{"L-1": date(2026, 12, 3), "L-2027": date(2027, 1, 1)} {
@@ -338,7 +339,7 @@ func TestUndatedStatusChangeDefaultsToToday(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if got := l.StatusHistory[len(l.StatusHistory)-1]; got.Status != "suspended" || !got.From.Equal(want) {
+		if got := l.StatusHistory[len(l.StatusHistory)-1]; got.Status != terms.LicenceSuspended || !got.From.Equal(want) {
 			t.Errorf("%s: last period %+v, want suspended from %s", n, got, want.Format(time.DateOnly))
 		}
 	}

@@ -11,14 +11,15 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/terms"
 )
 
 // Party is one country's settings.
 type Party struct {
 	CountryCode    string
 	Name           string
-	PartyType      string // "article-5", "non-article-5", "non-party"
-	HFCGroup       string // "a5-group-1", "a5-group-2", "non-a5", "non-a5-variant", ""
+	PartyType      terms.PartyType // stored as its text form: "article-5", "non-article-5", "non-party"
+	HFCGroup       terms.HFCGroup  // stored as its text form: "a5-group-1", ..., "" when unspecified
 	ReportingParty bool
 	BoundFrom      map[string]string // Annex group -> ISO date
 }
@@ -35,8 +36,8 @@ type QuotaLine struct {
 	LineNumber int
 	AnnexGroup string
 	Substance  string
-	Unit       string   // "metric-t", "odp-t", "co2e-t"
-	Purposes   []string // the declared purposes the line serves (wire names); empty: every purpose
+	Unit       terms.QuotaUnit // stored as "metric-t", "odp-t", "co2e-t"
+	Purposes   []terms.Purpose // the declared purposes the line serves; empty: every purpose
 	Allocated  float64
 	Drawn      float64
 	ClosedOn   time.Time // the day the line stopped taking draws; zero while it is open
@@ -46,11 +47,11 @@ type QuotaLine struct {
 type Licence struct {
 	Number          string
 	CompanyID       string
-	Directions      []string
+	Directions      []terms.Direction
 	ValidFrom       time.Time
 	ValidTo         time.Time
-	Status          string // "draft", "active", "suspended", "revoked": as it stands after its last status change
-	SpecialPurposes []string
+	Status          terms.LicenceStatus // as it stands after its last status change
+	SpecialPurposes []terms.Purpose
 	QuotaLines      []QuotaLine
 	// Version counts the changes of the licence's terms and status (1 when issued).
 	Version int
@@ -59,7 +60,9 @@ type Licence struct {
 }
 
 // StatusOn returns the licence's status on day d.
-func (l Licence) StatusOn(d time.Time) string { return StatusOn(l.StatusHistory, l.Status, d) }
+func (l Licence) StatusOn(d time.Time) terms.LicenceStatus {
+	return StatusOn(l.StatusHistory, l.Status, d)
+}
 
 // PutParty creates or replaces a country's settings. It never changes which country is
 // the reporting Party: a request that marks another country as reporting, or unmarks the
@@ -369,7 +372,7 @@ func amendTx(ctx context.Context, tx pgx.Tx, a Amendment) (bool, error) {
 	if err != nil {
 		return false, err
 	}
-	if lk.status == "revoked" {
+	if lk.status == terms.LicenceRevoked {
 		return false, fmt.Errorf("licence %q is revoked and cannot be amended: %w", l.Number, ErrConflict)
 	}
 	var before Licence
@@ -476,9 +479,9 @@ func amendTx(ctx context.Context, tx pgx.Tx, a Amendment) (bool, error) {
 	}
 	before.Version = 0
 	after := l
-	after.Status, after.Version, after.StatusHistory = "", 0, nil
-	before.Status = ""
-	return true, addEvent(ctx, tx, l.Number, "amended", a.EffectiveOn, "", a.Reason,
+	after.Status, after.Version, after.StatusHistory = terms.LicenceStatusUnspecified, 0, nil
+	before.Status = terms.LicenceStatusUnspecified
+	return true, addEvent(ctx, tx, l.Number, "amended", a.EffectiveOn, terms.LicenceStatusUnspecified, a.Reason,
 		map[string]any{"before": before, "after": after, "effective_on": a.EffectiveOn.Format(time.DateOnly)})
 }
 

@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"time"
 
+	"github.com/halovet/halovet/terms"
 	"github.com/jackc/pgx/v5"
 )
 
@@ -118,15 +119,15 @@ func result(existed, changed bool) string {
 func loadLicenceTx(ctx context.Context, tx pgx.Tx, ll LoadLicence, today time.Time, reason string) (LoadOutcome, error) {
 	l := ll.Licence
 	o := LoadOutcome{Kind: "licence", Key: l.Number}
-	var cur string
+	var cur terms.LicenceStatus
 	err := tx.QueryRow(ctx, `SELECT status FROM licences WHERE licence_number = $1`, l.Number).Scan(&cur)
 	switch {
 	case errors.Is(err, pgx.ErrNoRows):
 		// A new licence is issued active (or draft) from its first day, then set to the
 		// status asked for: the history shows both steps.
 		issue := l
-		if issue.Status != "draft" {
-			issue.Status = "active"
+		if issue.Status != terms.LicenceDraft {
+			issue.Status = terms.LicenceActive
 		}
 		if err := issueTx(ctx, tx, issue, reason); err != nil {
 			return o, err
@@ -141,7 +142,7 @@ func loadLicenceTx(ctx context.Context, tx pgx.Tx, ll LoadLicence, today time.Ti
 		}
 		o.Result = result(true, changed)
 	}
-	if l.Status != "" && l.Status != cur {
+	if l.Status != terms.LicenceStatusUnspecified && l.Status != cur {
 		c := StatusChange{Number: l.Number, Status: l.Status, EffectiveOn: ll.StatusEffectiveOn, Today: today, Reason: reason}
 		kind, err := setStatusTx(ctx, tx, c)
 		if err != nil {

@@ -11,6 +11,7 @@ import (
 	"github.com/halovet/halovet/pglocal/pgtest"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 func TestMain(m *testing.M) { pgtest.Main(m) }
@@ -74,9 +75,9 @@ func issueTestLicence(t *testing.T, st *store.Store, number string, allocated fl
 	if err := st.PutCompany(ctx, store.Company{CompanyID: "XA-1", Name: "Invented Co"}); err != nil {
 		t.Fatal(err)
 	}
-	l := store.Licence{Number: number, CompanyID: "XA-1", Directions: []string{"import"},
+	l := store.Licence{Number: number, CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport},
 		ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC),
-		Status: "active", QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: string(substances.GroupCI), Unit: "odp-t", Allocated: allocated}}}
+		Status: terms.LicenceActive, QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: string(substances.GroupCI), Unit: terms.QuotaODPTonnes, Allocated: allocated}}}
 	if err := st.IssueLicence(ctx, l, "test licence"); err != nil {
 		t.Fatal(err)
 	}
@@ -99,8 +100,8 @@ func TestLicenceAmendAndStatusRules(t *testing.T) {
 	st, _ := openTestStore(t)
 	ctx := context.Background()
 	issueTestLicence(t, st, "L-1", 1.0)
-	if err := st.IssueLicence(ctx, store.Licence{Number: "L-1", CompanyID: "XA-1", Directions: []string{"import"},
-		ValidFrom: time.Now(), ValidTo: time.Now(), Status: "active"}, ""); !errors.Is(err, store.ErrAlreadyExists) {
+	if err := st.IssueLicence(ctx, store.Licence{Number: "L-1", CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport},
+		ValidFrom: time.Now(), ValidTo: time.Now(), Status: terms.LicenceActive}, ""); !errors.Is(err, store.ErrAlreadyExists) {
 		t.Fatalf("issuing L-1 twice: err %v, want ErrAlreadyExists", err)
 	}
 	res, err := st.RecordShipments(ctx, []store.ShipmentRow{row("k1", store.ToNano(0.6))})
@@ -119,11 +120,11 @@ func TestLicenceAmendAndStatusRules(t *testing.T) {
 	if err := amendErr(st.AmendLicence(ctx, store.Amendment{Licence: l, EffectiveOn: time.Now(), Reason: "raise"})); err != nil {
 		t.Fatalf("raising the allocation: %v", err)
 	}
-	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "revoked",
+	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: terms.LicenceRevoked,
 		EffectiveOn: time.Date(2026, 2, 1, 0, 0, 0, 0, time.UTC), Reason: "x"})); err != nil {
 		t.Fatal(err)
 	}
-	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: "active", EffectiveOn: time.Now(), Reason: "x"})); !errors.Is(err, store.ErrConflict) {
+	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "L-1", Status: terms.LicenceActive, EffectiveOn: time.Now(), Reason: "x"})); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("reinstating a revoked licence: err %v, want ErrConflict", err)
 	}
 	// Declared 2026-03-01, after the revocation of 2026-02-01.
@@ -131,7 +132,7 @@ func TestLicenceAmendAndStatusRules(t *testing.T) {
 	if err != nil || res[0].Status != store.RecordLicenceInactive {
 		t.Fatalf("recording on a revoked licence: %+v %v, want RecordLicenceInactive", res, err)
 	}
-	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "NOPE", Status: "active", EffectiveOn: time.Now(), Reason: "x"})); !errors.Is(err, store.ErrNotFound) {
+	if err := statusErr(st.SetLicenceStatus(ctx, store.StatusChange{Number: "NOPE", Status: terms.LicenceActive, EffectiveOn: time.Now(), Reason: "x"})); !errors.Is(err, store.ErrNotFound) {
 		t.Fatalf("unknown licence: err %v, want ErrNotFound", err)
 	}
 }

@@ -1,6 +1,11 @@
 package substances
 
-import "strings"
+import (
+	"fmt"
+	"strings"
+
+	"github.com/halovet/halovet/terms"
+)
 
 // Group is a Montreal Protocol Annex and Group written as "A/I", "C/II", "F/I"; the empty
 // Group means the substance is not controlled by the Protocol.
@@ -107,4 +112,27 @@ type Blend struct {
 	Components  []Component
 	SafetyClass string
 	Sources     string
+}
+
+// String returns the written form, "A/I"; "" when not controlled.
+func (g Group) String() string { return string(g) }
+
+// ParseGroup reads an Annex group written as "A/I" (case-insensitively, surrounding spaces
+// ignored); empty text gives GroupNone. Its error wraps terms.ErrUnknownValue and lists the
+// accepted groups.
+func ParseGroup(s string) (Group, error) {
+	t := strings.ToUpper(strings.TrimSpace(s))
+	if t == "" {
+		return GroupNone, nil
+	}
+	for _, g := range AllGroups {
+		if string(g) == t {
+			return g, nil
+		}
+	}
+	names := make([]string, len(AllGroups))
+	for i, g := range AllGroups {
+		names[i] = string(g)
+	}
+	return GroupNone, fmt.Errorf("%w: Annex group %q; accepted: %s", terms.ErrUnknownValue, terms.Cut(s), strings.Join(names, ", "))
 }

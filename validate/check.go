@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // Figures are the computed quantities of a record.
@@ -45,7 +46,7 @@ func (f *Figures) PartnerBoundFor(g substances.Group) bool {
 type LineDraw struct {
 	LicenceNumber string
 	LineNumber    int
-	Unit          QuotaUnit
+	Unit          terms.QuotaUnit
 	Amount        float64
 }
 
@@ -248,17 +249,17 @@ func (c *checker) recordRules() {
 		c.add(CodeFieldUnreadable, u.Field, "%s: %s", u.Field, u.Reason)
 	}
 	switch {
-	case r.Direction > DirectionUnspecified && r.Direction <= DirectionTransit:
-	case r.Direction == DirectionUnspecified && unreadableDirection:
-	case r.Direction != DirectionUnspecified:
+	case r.Direction > terms.DirectionUnspecified && r.Direction <= terms.DirectionTransit:
+	case r.Direction == terms.DirectionUnspecified && unreadableDirection:
+	case r.Direction != terms.DirectionUnspecified:
 		c.add(CodeFieldUnreadable, "direction", "direction %d is not a known direction number; accepted: 1 (import), 2 (export), 3 (re-export), 4 (transit)", int(r.Direction))
 	default:
 		c.add(CodeDirectionMissing, "", "direction is not declared; accepted: import, export, re-export, transit")
 	}
-	if r.Purpose < PurposeUnspecified || r.Purpose > purposeMax {
+	if r.Purpose < terms.PurposeUnspecified || r.Purpose > terms.PurposeMedicalAerosolBurns {
 		c.add(CodeFieldUnreadable, "purpose", "purpose %d is not a known purpose number", int(r.Purpose))
 	}
-	if r.Condition < ConditionUnspecified || r.Condition > ConditionReclaimed {
+	if r.Condition < terms.ConditionUnspecified || r.Condition > terms.ConditionReclaimed {
 		c.add(CodeFieldUnreadable, "condition", "condition %d is not a known condition number", int(r.Condition))
 	}
 }

@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // TestTradeBanStart checks the Article 4 table against Art. 4 of the Montreal Protocol and the
@@ -16,22 +17,22 @@ import (
 func TestTradeBanStart(t *testing.T) {
 	cases := []struct {
 		g        substances.Group
-		dir      Direction
+		dir      terms.Direction
 		want     string
 		provided bool
 	}{
-		{substances.GroupAI, DirectionImport, "1990-01-01", true},    // [V] Art. 4 para 1
-		{substances.GroupAI, DirectionExport, "1993-01-01", true},    // [V] Art. 4 para 2
-		{substances.GroupAII, DirectionReExport, "1993-01-01", true}, // re-export is an export
-		{substances.GroupBII, DirectionImport, "1993-08-10", true},   // [D] London EIF 1992-08-10 + 1 year
-		{substances.GroupCII, DirectionExport, "1995-06-14", true},   // [D] Copenhagen EIF 1994-06-14 + 1 year
-		{substances.GroupEI, DirectionImport, "2000-11-10", true},    // [D] Montreal EIF 1999-11-10 + 1 year
-		{substances.GroupCI, DirectionImport, "2004-01-01", true},    // [V] paras 1 quin / 2 quin
-		{substances.GroupCIII, DirectionExport, "2003-02-25", true},  // [D] Beijing EIF 2002-02-25 + 1 year
-		{substances.GroupFI, DirectionImport, "2033-01-01", true},    // [V] para 1 sept in force 2033-01-01
-		{substances.GroupFII, DirectionExport, "2033-01-01", true},   // [U] para 2 sept assumed parallel
-		{substances.GroupCI, DirectionTransit, "", false},
-		{substances.GroupNone, DirectionImport, "", false},
+		{substances.GroupAI, terms.DirectionImport, "1990-01-01", true},    // [V] Art. 4 para 1
+		{substances.GroupAI, terms.DirectionExport, "1993-01-01", true},    // [V] Art. 4 para 2
+		{substances.GroupAII, terms.DirectionReExport, "1993-01-01", true}, // re-export is an export
+		{substances.GroupBII, terms.DirectionImport, "1993-08-10", true},   // [D] London EIF 1992-08-10 + 1 year
+		{substances.GroupCII, terms.DirectionExport, "1995-06-14", true},   // [D] Copenhagen EIF 1994-06-14 + 1 year
+		{substances.GroupEI, terms.DirectionImport, "2000-11-10", true},    // [D] Montreal EIF 1999-11-10 + 1 year
+		{substances.GroupCI, terms.DirectionImport, "2004-01-01", true},    // [V] paras 1 quin / 2 quin
+		{substances.GroupCIII, terms.DirectionExport, "2003-02-25", true},  // [D] Beijing EIF 2002-02-25 + 1 year
+		{substances.GroupFI, terms.DirectionImport, "2033-01-01", true},    // [V] para 1 sept in force 2033-01-01
+		{substances.GroupFII, terms.DirectionExport, "2033-01-01", true},   // [U] para 2 sept assumed parallel
+		{substances.GroupCI, terms.DirectionTransit, "", false},
+		{substances.GroupNone, terms.DirectionImport, "", false},
 	}
 	for _, c := range cases {
 		got, ok := TradeBanStart(c.g, c.dir)
@@ -46,15 +47,15 @@ func TestTradeBanStart(t *testing.T) {
 func TestNonPartyBanDates(t *testing.T) {
 	env := testEnv(t)
 	cases := []struct {
-		dir         Direction
+		dir         terms.Direction
 		date        string
 		wantBan     bool
 		wantNotBond bool
 	}{
-		{DirectionImport, "1989-12-31", false, true},
-		{DirectionImport, "1990-01-01", true, false},
-		{DirectionExport, "1992-12-31", false, true},
-		{DirectionExport, "1993-01-01", true, false},
+		{terms.DirectionImport, "1989-12-31", false, true},
+		{terms.DirectionImport, "1990-01-01", true, false},
+		{terms.DirectionExport, "1992-12-31", false, true},
+		{terms.DirectionExport, "1993-01-01", true, false},
 	}
 	for _, c := range cases {
 		r := baseRecord()
@@ -81,30 +82,30 @@ func TestCountsInConsumption(t *testing.T) {
 		want bool
 	}{
 		{"ordinary import", nil, true},
-		{"ordinary export", func(r *Record) { r.Direction, r.LicenceNumber = DirectionExport, "XA-EXP-2025-002" }, true},
-		{"transit", func(r *Record) { r.Direction = DirectionTransit }, false},
-		{"used", func(r *Record) { r.Condition = ConditionUsed }, false},
-		{"reclaimed", func(r *Record) { r.Condition = ConditionReclaimed }, false},
-		{"feedstock", func(r *Record) { r.Purpose, r.LicenceNumber = PurposeFeedstock, "XA-FEED-2025-005" }, false},
-		{"destruction", func(r *Record) { r.Purpose, r.LicenceNumber = PurposeDestruction, "XA-FEED-2025-005" }, false},
-		{"process agent", func(r *Record) { r.Purpose = PurposeProcessAgent }, false},
-		{"laboratory", func(r *Record) { r.Purpose = PurposeLaboratory }, true},
-		{"QPS methyl bromide", func(r *Record) { methylBromide(r); r.Purpose, r.LicenceNumber = PurposeQPS, "XA-FEED-2025-005" }, false},
+		{"ordinary export", func(r *Record) { r.Direction, r.LicenceNumber = terms.DirectionExport, "XA-EXP-2025-002" }, true},
+		{"transit", func(r *Record) { r.Direction = terms.DirectionTransit }, false},
+		{"used", func(r *Record) { r.Condition = terms.ConditionUsed }, false},
+		{"reclaimed", func(r *Record) { r.Condition = terms.ConditionReclaimed }, false},
+		{"feedstock", func(r *Record) { r.Purpose, r.LicenceNumber = terms.PurposeFeedstock, "XA-FEED-2025-005" }, false},
+		{"destruction", func(r *Record) { r.Purpose, r.LicenceNumber = terms.PurposeDestruction, "XA-FEED-2025-005" }, false},
+		{"process agent", func(r *Record) { r.Purpose = terms.PurposeProcessAgent }, false},
+		{"laboratory", func(r *Record) { r.Purpose = terms.PurposeLaboratory }, true},
+		{"QPS methyl bromide", func(r *Record) { methylBromide(r); r.Purpose, r.LicenceNumber = terms.PurposeQPS, "XA-FEED-2025-005" }, false},
 		// An export to a Party is deducted whatever its purpose (Art. 3 para 1(c); Decision
 		// VII/30 for feedstock exports): the flag agrees with the consumption totals.
 		{"export for feedstock", func(r *Record) {
-			r.Direction, r.LicenceNumber, r.Purpose = DirectionExport, "XA-EXP-2025-002", PurposeFeedstock
+			r.Direction, r.LicenceNumber, r.Purpose = terms.DirectionExport, "XA-EXP-2025-002", terms.PurposeFeedstock
 		}, true},
 		{"export for destruction", func(r *Record) {
-			r.Direction, r.LicenceNumber, r.Purpose = DirectionExport, "XA-EXP-2025-002", PurposeDestruction
+			r.Direction, r.LicenceNumber, r.Purpose = terms.DirectionExport, "XA-EXP-2025-002", terms.PurposeDestruction
 		}, true},
 		{"used material exported for destruction", func(r *Record) {
-			r.Direction, r.LicenceNumber, r.Purpose, r.Condition = DirectionExport, "XA-EXP-2025-002", PurposeDestruction, ConditionUsed
+			r.Direction, r.LicenceNumber, r.Purpose, r.Condition = terms.DirectionExport, "XA-EXP-2025-002", terms.PurposeDestruction, terms.ConditionUsed
 		}, false},
 		// Art. 3 para 1(c): exports to non-Parties are not deducted from 1993.
 		{"HFC export to a Party not bound by Kigali", func(r *Record) {
 			hfc134a(r)
-			r.Direction, r.LicenceNumber, r.PartnerCountry = DirectionExport, "XA-EXP-2025-002", "XC"
+			r.Direction, r.LicenceNumber, r.PartnerCountry = terms.DirectionExport, "XA-EXP-2025-002", "XC"
 		}, false},
 		{"HFC import from a Party not bound by Kigali", func(r *Record) { hfc134a(r); r.PartnerCountry = "XC" }, true},
 		{"uncontrolled", func(r *Record) {
@@ -135,12 +136,12 @@ func TestDrawAndPlanDraws(t *testing.T) {
 	}
 	fig := Figures{Components: ev.Components}
 	lines := []QuotaLine{
-		{LineNumber: 1, Group: substances.GroupFI, Unit: QuotaCO2eTonnes},
-		{LineNumber: 2, Group: substances.GroupCI, Unit: QuotaODPTonnes},
-		{LineNumber: 3, Group: substances.GroupCI, Unit: QuotaMetricTonnes},
-		{LineNumber: 4, Group: substances.GroupCI, Unit: QuotaCO2eTonnes},
-		{LineNumber: 5, Substance: "HCFC-22", Unit: QuotaMetricTonnes},
-		{LineNumber: 6, Group: substances.GroupAI, Unit: QuotaODPTonnes},
+		{LineNumber: 1, Group: substances.GroupFI, Unit: terms.QuotaCO2eTonnes},
+		{LineNumber: 2, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes},
+		{LineNumber: 3, Group: substances.GroupCI, Unit: terms.QuotaMetricTonnes},
+		{LineNumber: 4, Group: substances.GroupCI, Unit: terms.QuotaCO2eTonnes},
+		{LineNumber: 5, Substance: "HCFC-22", Unit: terms.QuotaMetricTonnes},
+		{LineNumber: 6, Group: substances.GroupAI, Unit: terms.QuotaODPTonnes},
 	}
 	want := []float64{
 		0.6 * 3500,   // HFC-125 only: 0.6 t × 3500 (source: Montreal Protocol Annex F GWP of HFC-125)
@@ -156,7 +157,7 @@ func TestDrawAndPlanDraws(t *testing.T) {
 		}
 	}
 	lic := &Licence{Number: "L", QuotaLines: []QuotaLine{lines[1], lines[0], lines[4]}}
-	draws, uncovered := PlanDraws(lic, fig, PurposeUnspecified)
+	draws, uncovered := PlanDraws(lic, fig, terms.PurposeUnspecified)
 	if len(uncovered) != 0 || len(draws) != 2 {
 		t.Fatalf("PlanDraws = %+v, uncovered %+v; want HFC-125 on line 1 and HCFC-22 on the substance line 5", draws, uncovered)
 	}
@@ -164,7 +165,7 @@ func TestDrawAndPlanDraws(t *testing.T) {
 		t.Errorf("PlanDraws = %+v; a substance line must win over the group line", draws)
 	}
 	lic = &Licence{Number: "L", QuotaLines: []QuotaLine{lines[0]}}
-	if _, uncovered := PlanDraws(lic, fig, PurposeUnspecified); len(uncovered) != 1 || uncovered[0].Designation != "HCFC-22" {
+	if _, uncovered := PlanDraws(lic, fig, terms.PurposeUnspecified); len(uncovered) != 1 || uncovered[0].Designation != "HCFC-22" {
 		t.Errorf("uncovered = %+v; want HCFC-22 (R-290 is not controlled and needs no line)", uncovered)
 	}
 }
@@ -291,14 +292,14 @@ func TestExemptUseAndTailAcceptance(t *testing.T) {
 	env.Now = func() time.Time { return time.Date(2026, 6, 15, 0, 0, 0, 0, time.UTC) }
 	r := baseRecord()
 	cfc12(&r)
-	r.LicenceNumber, r.Purpose, r.DeclarationDate = "XA-IMP-OPEN-009", PurposeCriticalUse, "2026-03-02"
+	r.LicenceNumber, r.Purpose, r.DeclarationDate = "XA-IMP-OPEN-009", terms.PurposeCriticalUse, "2026-03-02"
 	if v := Check(env, &r, nil); v.Outcome != OutcomeRejected || codesOf(v)[CodeExemptUseWrongGroup].Code == "" {
 		t.Errorf("CFC-12 for critical use: %v %v; want rejected with %s", v.Outcome, v.Findings, CodeExemptUseWrongGroup)
 	}
 	for _, c := range []struct {
-		purpose Purpose
+		purpose terms.Purpose
 		reject  bool
-	}{{PurposeManufacturing, true}, {PurposeServicing, false}} {
+	}{{terms.PurposeManufacturing, true}, {terms.PurposeServicing, false}} {
 		r := baseRecord()
 		r.LicenceNumber, r.Purpose, r.DeclarationDate = "XA-IMP-OPEN-009", c.purpose, "2026-03-02"
 		v := Check(env, &r, nil)
@@ -319,7 +320,7 @@ func TestBlendPartyStatusPerGroup(t *testing.T) {
 	env := testEnv(t)
 	r := baseRecord()
 	r.Substance, r.HSCode, r.CAS, r.Formula = "R-402A", "", "", ""
-	r.Direction, r.LicenceNumber, r.PartnerCountry = DirectionExport, "XA-EXP-2025-002", "XC"
+	r.Direction, r.LicenceNumber, r.PartnerCountry = terms.DirectionExport, "XA-EXP-2025-002", "XC"
 	v := Check(env, &r, nil)
 	if v.Outcome == OutcomeRejected || !v.Figures.CountsInConsumption || !v.Figures.PartnerNonParty ||
 		len(v.Figures.PartnerNotBoundGroups) != 1 || v.Figures.PartnerNotBoundGroups[0] != substances.GroupFI ||

@@ -7,6 +7,8 @@ import (
 	"io"
 	"strconv"
 	"strings"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // Column is one column of the CSV batch format. The names equal the field names of the wire
@@ -290,7 +292,7 @@ func (c *CSVReader) record(lineNo int64, fields []string) Record {
 		case colKey:
 			r.Key = v
 		case colDirection:
-			d, err := ParseDirection(v)
+			d, err := terms.ParseDirection(v)
 			if err != nil {
 				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colDirection].Name, Text: cutText(v), Reason: err.Error()})
 			}
@@ -324,13 +326,13 @@ func (c *CSVReader) record(lineNo int64, fields []string) Record {
 		case colFill:
 			r.FillPerPackage = v
 		case colPurpose:
-			p, err := ParsePurpose(v)
+			p, err := terms.ParsePurpose(v)
 			if err != nil {
 				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colPurpose].Name, Text: cutText(v), Reason: err.Error()})
 			}
 			r.Purpose = p
 		case colCondition:
-			cd, err := ParseCondition(v)
+			cd, err := terms.ParseCondition(v)
 			if err != nil {
 				r.Unreadable = append(r.Unreadable, FieldIssue{Field: csvColumns[colCondition].Name, Text: cutText(v), Reason: err.Error()})
 			}

@@ -8,57 +8,13 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
-
-// PartyType is the status of a country under the Montreal Protocol. The numbers equal the
-// wire enum halovet.v1.PartyType.
-type PartyType int
-
-// Party types.
-const (
-	PartyTypeUnspecified PartyType = iota
-	PartyTypeArticle5              // a Party operating under Article 5 para 1
-	PartyTypeNonArticle5           // a Party not operating under Article 5
-	PartyTypeNonParty              // not a Party to the Protocol
-)
-
-var partyTypeNames = [...]string{"unspecified", "article-5", "non-article-5", "non-party"}
-
-// String returns "article-5", "non-article-5" or "non-party".
-func (t PartyType) String() string {
-	if t < 0 || int(t) >= len(partyTypeNames) {
-		return fmt.Sprintf("party-type(%d)", int(t))
-	}
-	return partyTypeNames[t]
-}
-
-// HFCGroup is the Kigali Amendment schedule a Party follows for Annex F. The numbers equal the
-// wire enum halovet.v1.HfcGroup.
-type HFCGroup int
-
-// HFC schedule groups.
-const (
-	HFCGroupUnspecified HFCGroup = iota
-	HFCGroupA5Group1
-	HFCGroupA5Group2
-	HFCGroupNonA5
-	HFCGroupNonA5Variant
-)
-
-var hfcGroupNames = [...]string{"unspecified", "a5-group-1", "a5-group-2", "non-a5", "non-a5-variant"}
-
-// String returns "a5-group-1", "a5-group-2", "non-a5" or "non-a5-variant".
-func (g HFCGroup) String() string {
-	if g < 0 || int(g) >= len(hfcGroupNames) {
-		return fmt.Sprintf("hfc-group(%d)", int(g))
-	}
-	return hfcGroupNames[g]
-}
 
 // PartySettings is what the checks need to know about one country.
 type PartySettings struct {
-	Type     PartyType
-	HFCGroup HFCGroup
+	Type     terms.PartyType
+	HFCGroup terms.HFCGroup
 	// BoundFrom gives, per Annex group, the date from which the country is bound by that
 	// group's control measures. A group absent here does not bind the country: for trade in
 	// that group it counts as a non-Party (Article 4 para 9).
@@ -71,54 +27,11 @@ type PartySettings struct {
 // BoundOn reports whether the country is bound by group g's control measures on day d. A
 // country whose Type is PartyTypeNonParty is bound by none, whatever BoundFrom says.
 func (p PartySettings) BoundOn(g substances.Group, d time.Time) bool {
-	if p.Type == PartyTypeNonParty {
+	if p.Type == terms.PartyTypeNonParty {
 		return false
 	}
 	from, ok := p.BoundFrom[g]
 	return ok && !d.Before(day(from))
-}
-
-// LicenceStatus is the state of a licence. The numbers equal halovet.v1.LicenceStatus.
-type LicenceStatus int
-
-// Licence states.
-const (
-	LicenceStatusUnspecified LicenceStatus = iota
-	LicenceDraft
-	LicenceActive
-	LicenceSuspended
-	LicenceRevoked
-)
-
-var licenceStatusNames = [...]string{"unspecified", "draft", "active", "suspended", "revoked"}
-
-// String returns "draft", "active", "suspended" or "revoked".
-func (s LicenceStatus) String() string {
-	if s < 0 || int(s) >= len(licenceStatusNames) {
-		return fmt.Sprintf("status(%d)", int(s))
-	}
-	return licenceStatusNames[s]
-}
-
-// QuotaUnit is the unit a quota line is counted in. The numbers equal halovet.v1.QuotaUnit.
-type QuotaUnit int
-
-// Quota units.
-const (
-	QuotaUnitUnspecified QuotaUnit = iota
-	QuotaMetricTonnes              // metric tonnes of substance
-	QuotaODPTonnes                 // ODP tonnes
-	QuotaCO2eTonnes                // CO2-equivalent tonnes with the Protocol's GWPs
-)
-
-var quotaUnitNames = [...]string{"unspecified", "t", "ODP t", "CO2-eq t"}
-
-// String returns "t", "ODP t" or "CO2-eq t".
-func (u QuotaUnit) String() string {
-	if u < 0 || int(u) >= len(quotaUnitNames) {
-		return fmt.Sprintf("unit(%d)", int(u))
-	}
-	return quotaUnitNames[u]
 }
 
 // QuotaLine is one quota of a licence. Its scope is one substance (Substance), one Annex group
@@ -132,8 +45,8 @@ type QuotaLine struct {
 	Group      substances.Group // scope by Annex group; empty when Substance or Annex is set
 	Annex      string           // scope by a whole Annex ("F"); empty otherwise
 	Substance  string           // scope by substance designation; empty for a group or Annex line
-	Purposes   []Purpose        // the declared purposes the line serves; empty: every purpose
-	Unit       QuotaUnit
+	Purposes   []terms.Purpose  // the declared purposes the line serves; empty: every purpose
+	Unit       terms.QuotaUnit
 	Allocated  float64 // in Unit
 	Drawn      float64 // in Unit, by shipments already recorded
 	// Closed: the line takes no further draws (it was closed, and another line may have
@@ -144,14 +57,14 @@ type QuotaLine struct {
 // StatusPeriod is a licence's status from a day on, until the next period.
 type StatusPeriod struct {
 	From   time.Time // first day
-	Status LicenceStatus
+	Status terms.LicenceStatus
 }
 
 // WholeAnnexF is the one Annex a quota line may cover as a whole.
 const WholeAnnexF = "F"
 
 // Serves reports whether the line may be drawn by a shipment declaring purpose p.
-func (l QuotaLine) Serves(p Purpose) bool {
+func (l QuotaLine) Serves(p terms.Purpose) bool {
 	return len(l.Purposes) == 0 || slices.Contains(l.Purposes, p)
 }
 
@@ -159,11 +72,11 @@ func (l QuotaLine) Serves(p Purpose) bool {
 type Licence struct {
 	Number          string
 	CompanyID       string
-	Directions      []Direction
-	ValidFrom       time.Time     // first day of validity
-	ValidTo         time.Time     // last day of validity; the zero time means open-ended
-	Status          LicenceStatus // as it stands after its last status change
-	SpecialPurposes []Purpose     // purposes allowed besides ordinary use (feedstock, destruction, ...)
+	Directions      []terms.Direction
+	ValidFrom       time.Time           // first day of validity
+	ValidTo         time.Time           // last day of validity; the zero time means open-ended
+	Status          terms.LicenceStatus // as it stands after its last status change
+	SpecialPurposes []terms.Purpose     // purposes allowed besides ordinary use (feedstock, destruction, ...)
 	QuotaLines      []QuotaLine
 	// StatusHistory is the licence's status from each day on, in date order; empty means
 	// Status throughout. A declaration is judged by the status on its date (StatusOn).
@@ -174,7 +87,7 @@ type Licence struct {
 // starting on or before d; before the first period, the first period's status (a day
 // before the licence was issued is outside its validity, judged apart); Status when the
 // history is empty.
-func (lic *Licence) StatusOn(d time.Time) LicenceStatus {
+func (lic *Licence) StatusOn(d time.Time) terms.LicenceStatus {
 	if len(lic.StatusHistory) == 0 {
 		return lic.Status
 	}

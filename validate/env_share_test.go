@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // TestShareIndexes: an environment rebuilt over the same catalogue uses the indexes the
@@ -61,7 +62,7 @@ func TestBatchSetEnv(t *testing.T) {
 		t.Fatalf("nothing drawn on the C/I line: %v", drawn)
 	}
 	lics := testLicences()
-	lics["XA-IMP-2025-001"].Status = LicenceSuspended
+	lics["XA-IMP-2025-001"].Status = terms.LicenceSuspended
 	next := testEnv(t)
 	next.Licence = func(n string) (*Licence, bool) { l, ok := lics[n]; return l, ok }
 	b.SetEnv(next)

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"slices"
 	"strings"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // Severity of a finding. The numbers equal the wire enum halovet.v1.Severity.
@@ -37,7 +39,7 @@ func ParseSeverity(s string) (Severity, error) {
 	case "error":
 		return SeverityError, nil
 	}
-	return SeverityUnspecified, fmt.Errorf("%w: severity %q; accepted: notice, warning, error", ErrUnknownValue, cutText(s))
+	return SeverityUnspecified, fmt.Errorf("%w: severity %q; accepted: notice, warning, error", terms.ErrUnknownValue, cutText(s))
 }
 
 // Finding is one rule outcome on a record.

@@ -3,13 +3,15 @@ package validate
 import (
 	"regexp"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 func fpBase() Record {
 	return Record{
-		Key: "K1", Line: 7, Direction: DirectionImport, CompanyID: "CO-1", LicenceNumber: "lic-1",
+		Key: "K1", Line: 7, Direction: terms.DirectionImport, CompanyID: "CO-1", LicenceNumber: "lic-1",
 		PartnerCountry: "xa", DeclarationDate: "2025-03-01", Substance: "R-404A", HSCode: "3827.61",
-		TotalQuantity: "1250.50", Unit: "KG", PackageCount: 0, Purpose: PurposeServicing,
+		TotalQuantity: "1250.50", Unit: "KG", PackageCount: 0, Purpose: terms.PurposeServicing,
 		Composition: []DeclaredShare{{"HFC-125", 44}, {"HFC-143a", 52}, {"HFC-134a", 4}},
 	}
 }
@@ -49,11 +51,11 @@ func TestFingerprintNormalizes(t *testing.T) {
 		{"quantity", func(r *Record) { r.TotalQuantity = "1250.51" }},
 		{"unit", func(r *Record) { r.Unit = "lb" }},
 		{"company", func(r *Record) { r.CompanyID = "co-1" }},
-		{"direction", func(r *Record) { r.Direction = DirectionExport }},
+		{"direction", func(r *Record) { r.Direction = terms.DirectionExport }},
 		{"date", func(r *Record) { r.DeclarationDate = "2025-03-02" }},
 		{"containers", func(r *Record) { r.PackageCount = 2 }},
-		{"purpose", func(r *Record) { r.Purpose = PurposeFeedstock }},
-		{"condition", func(r *Record) { r.Condition = ConditionUsed }},
+		{"purpose", func(r *Record) { r.Purpose = terms.PurposeFeedstock }},
+		{"condition", func(r *Record) { r.Condition = terms.ConditionUsed }},
 		{"composition share", func(r *Record) { r.Composition[2].MassPct = 4.5 }},
 		{"composition dropped", func(r *Record) { r.Composition = nil }},
 		{"cas", func(r *Record) { r.CAS = "354-33-6" }},

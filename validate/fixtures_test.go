@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // The real seed catalogue, built once per test binary.
@@ -58,10 +59,10 @@ func testParties() map[string]PartySettings {
 	delete(noF, substances.GroupFI)
 	delete(noF, substances.GroupFII)
 	return map[string]PartySettings{
-		"XA": {Type: PartyTypeNonArticle5, HFCGroup: HFCGroupNonA5, BoundFrom: everyGroup(d("1989-01-01")), Known: true},
-		"XB": {Type: PartyTypeArticle5, HFCGroup: HFCGroupA5Group1, BoundFrom: everyGroup(d("1989-01-01")), Known: true},
-		"XC": {Type: PartyTypeArticle5, BoundFrom: noF, Known: true},
-		"XD": {Type: PartyTypeNonParty, Known: true},
+		"XA": {Type: terms.PartyTypeNonArticle5, HFCGroup: terms.HFCGroupNonA5, BoundFrom: everyGroup(d("1989-01-01")), Known: true},
+		"XB": {Type: terms.PartyTypeArticle5, HFCGroup: terms.HFCGroupA5Group1, BoundFrom: everyGroup(d("1989-01-01")), Known: true},
+		"XC": {Type: terms.PartyTypeArticle5, BoundFrom: noF, Known: true},
+		"XD": {Type: terms.PartyTypeNonParty, Known: true},
 	}
 }
 
@@ -70,49 +71,49 @@ func testLicences() map[string]*Licence {
 	year := func(y string) (time.Time, time.Time) { return d(y + "-01-01"), d(y + "-12-31") }
 	from, to := year("2025")
 	f24, t24 := year("2024")
-	imp := []Direction{DirectionImport}
+	imp := []terms.Direction{terms.DirectionImport}
 	return map[string]*Licence{
-		"XA-IMP-2025-001": {Number: "XA-IMP-2025-001", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
+		"XA-IMP-2025-001": {Number: "XA-IMP-2025-001", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
 			QuotaLines: []QuotaLine{
-				{LineNumber: 1, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 10000},
-				{LineNumber: 2, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 1, Drawn: 0.5},
-				{LineNumber: 3, Substance: "HCFC-141b", Unit: QuotaMetricTonnes, Allocated: 2},
+				{LineNumber: 1, Group: substances.GroupFI, Unit: terms.QuotaCO2eTonnes, Allocated: 10000},
+				{LineNumber: 2, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 1, Drawn: 0.5},
+				{LineNumber: 3, Substance: "HCFC-141b", Unit: terms.QuotaMetricTonnes, Allocated: 2},
 			}},
-		"XA-EXP-2025-002": {Number: "XA-EXP-2025-002", CompanyID: "CO-1", Directions: []Direction{DirectionExport}, ValidFrom: from, ValidTo: to, Status: LicenceActive,
-			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5}, {LineNumber: 2, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 1e6}, {LineNumber: 3, Group: substances.GroupAI, Unit: QuotaODPTonnes, Allocated: 100}}},
-		"XA-IMP-2025-003": {Number: "XA-IMP-2025-003", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceSuspended,
-			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5}}},
-		"XA-IMP-2025-004": {Number: "XA-IMP-2025-004", CompanyID: "CO-2", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
-			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5}}},
-		"XA-FEED-2025-005": {Number: "XA-FEED-2025-005", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
-			SpecialPurposes: []Purpose{PurposeFeedstock, PurposeDestruction},
+		"XA-EXP-2025-002": {Number: "XA-EXP-2025-002", CompanyID: "CO-1", Directions: []terms.Direction{terms.DirectionExport}, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 5}, {LineNumber: 2, Group: substances.GroupFI, Unit: terms.QuotaCO2eTonnes, Allocated: 1e6}, {LineNumber: 3, Group: substances.GroupAI, Unit: terms.QuotaODPTonnes, Allocated: 100}}},
+		"XA-IMP-2025-003": {Number: "XA-IMP-2025-003", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceSuspended,
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 5}}},
+		"XA-IMP-2025-004": {Number: "XA-IMP-2025-004", CompanyID: "CO-2", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 5}}},
+		"XA-FEED-2025-005": {Number: "XA-FEED-2025-005", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
+			SpecialPurposes: []terms.Purpose{terms.PurposeFeedstock, terms.PurposeDestruction},
 			QuotaLines: []QuotaLine{
-				{LineNumber: 1, Group: substances.GroupBII, Unit: QuotaMetricTonnes, Allocated: 100},
-				{LineNumber: 2, Group: substances.GroupAI, Unit: QuotaMetricTonnes, Allocated: 100},
-				{LineNumber: 3, Group: substances.GroupEI, Unit: QuotaMetricTonnes, Allocated: 100},
-				{LineNumber: 4, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5},
+				{LineNumber: 1, Group: substances.GroupBII, Unit: terms.QuotaMetricTonnes, Allocated: 100},
+				{LineNumber: 2, Group: substances.GroupAI, Unit: terms.QuotaMetricTonnes, Allocated: 100},
+				{LineNumber: 3, Group: substances.GroupEI, Unit: terms.QuotaMetricTonnes, Allocated: 100},
+				{LineNumber: 4, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 5},
 			}},
-		"XA-IMP-2025-006": {Number: "XA-IMP-2025-006", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
-			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaUnitUnspecified, Allocated: 5}}},
-		"XA-IMP-2024-007": {Number: "XA-IMP-2024-007", CompanyID: "CO-1", Directions: imp, ValidFrom: f24, ValidTo: t24, Status: LicenceActive,
-			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5}}},
+		"XA-IMP-2025-006": {Number: "XA-IMP-2025-006", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaUnitUnspecified, Allocated: 5}}},
+		"XA-IMP-2024-007": {Number: "XA-IMP-2024-007", CompanyID: "CO-1", Directions: imp, ValidFrom: f24, ValidTo: t24, Status: terms.LicenceActive,
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 5}}},
 		// Suspended from 2025-04-15 (and still), then a line closed and replaced.
-		"XA-IMP-2025-010": {Number: "XA-IMP-2025-010", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceSuspended,
-			StatusHistory: []StatusPeriod{{From: from, Status: LicenceActive}, {From: d("2025-04-15"), Status: LicenceSuspended}},
-			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 5, Drawn: 5, Closed: true},
-				{LineNumber: 2, Group: substances.GroupCI, Unit: QuotaMetricTonnes, Allocated: 50}}},
-		"XA-IMP-2025-008": {Number: "XA-IMP-2025-008", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
-			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 1e6}}},
+		"XA-IMP-2025-010": {Number: "XA-IMP-2025-010", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceSuspended,
+			StatusHistory: []StatusPeriod{{From: from, Status: terms.LicenceActive}, {From: d("2025-04-15"), Status: terms.LicenceSuspended}},
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 5, Drawn: 5, Closed: true},
+				{LineNumber: 2, Group: substances.GroupCI, Unit: terms.QuotaMetricTonnes, Allocated: 50}}},
+		"XA-IMP-2025-008": {Number: "XA-IMP-2025-008", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupFI, Unit: terms.QuotaCO2eTonnes, Allocated: 1e6}}},
 		// authorises the exempted uses that need one (essential, critical, laboratory, process agent)
-		"XA-EXM-2025-010": {Number: "XA-EXM-2025-010", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
-			SpecialPurposes: []Purpose{PurposeEssentialUse, PurposeCriticalUse, PurposeLaboratory, PurposeProcessAgent},
+		"XA-EXM-2025-010": {Number: "XA-EXM-2025-010", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
+			SpecialPurposes: []terms.Purpose{terms.PurposeEssentialUse, terms.PurposeCriticalUse, terms.PurposeLaboratory, terms.PurposeProcessAgent},
 			QuotaLines: []QuotaLine{
-				{LineNumber: 1, Group: substances.GroupAI, Unit: QuotaODPTonnes, Allocated: 1},
-				{LineNumber: 2, Group: substances.GroupEI, Unit: QuotaMetricTonnes, Allocated: 10},
-				{LineNumber: 3, Group: substances.GroupBII, Unit: QuotaMetricTonnes, Allocated: 10},
+				{LineNumber: 1, Group: substances.GroupAI, Unit: terms.QuotaODPTonnes, Allocated: 1},
+				{LineNumber: 2, Group: substances.GroupEI, Unit: terms.QuotaMetricTonnes, Allocated: 10},
+				{LineNumber: 3, Group: substances.GroupBII, Unit: terms.QuotaMetricTonnes, Allocated: 10},
 			}},
-		"XA-IMP-OPEN-009": {Number: "XA-IMP-OPEN-009", CompanyID: "CO-1", Directions: []Direction{DirectionImport, DirectionTransit}, ValidFrom: d("1989-01-01"), Status: LicenceActive,
-			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupAI, Unit: QuotaODPTonnes, Allocated: 1e6}, {LineNumber: 2, Group: substances.GroupFI, Unit: QuotaCO2eTonnes, Allocated: 1e9}, {LineNumber: 3, Group: substances.GroupCI, Unit: QuotaODPTonnes, Allocated: 1e6}}},
+		"XA-IMP-OPEN-009": {Number: "XA-IMP-OPEN-009", CompanyID: "CO-1", Directions: []terms.Direction{terms.DirectionImport, terms.DirectionTransit}, ValidFrom: d("1989-01-01"), Status: terms.LicenceActive,
+			QuotaLines: []QuotaLine{{LineNumber: 1, Group: substances.GroupAI, Unit: terms.QuotaODPTonnes, Allocated: 1e6}, {LineNumber: 2, Group: substances.GroupFI, Unit: terms.QuotaCO2eTonnes, Allocated: 1e9}, {LineNumber: 3, Group: substances.GroupCI, Unit: terms.QuotaODPTonnes, Allocated: 1e6}}},
 	}
 }
 
@@ -164,10 +165,10 @@ func testEnv(t testing.TB) *Env {
 // HS 2903.71 (source: WCO HS 2022 nomenclature).
 func baseRecord() Record {
 	return Record{
-		Key: "K-1", Line: 2, Direction: DirectionImport, CompanyID: "CO-1", LicenceNumber: "XA-IMP-2025-001",
+		Key: "K-1", Line: 2, Direction: terms.DirectionImport, CompanyID: "CO-1", LicenceNumber: "XA-IMP-2025-001",
 		PartnerCountry: "XB", DeclarationDate: "2025-06-01", Substance: "HCFC-22", HSCode: "2903.71",
 		CAS: "75-45-6", Formula: "CHClF2", TotalQuantity: "136", Unit: "kg", PackageCount: 10,
-		Purpose: PurposeServicing, Condition: ConditionVirgin,
+		Purpose: terms.PurposeServicing, Condition: terms.ConditionVirgin,
 	}
 }
 

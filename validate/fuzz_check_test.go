@@ -5,6 +5,8 @@ import (
 	"strings"
 	"sync"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // FuzzCheck feeds arbitrary field text through every rule: Check must not panic, every
@@ -29,9 +31,9 @@ func FuzzCheck(f *testing.F) {
 			p = append(p, "")
 		}
 		containers, _ := strconv.ParseInt(p[11], 10, 64)
-		r := Record{Key: p[0], Direction: DirectionImport, CompanyID: p[1], LicenceNumber: p[2], PartnerCountry: p[3],
+		r := Record{Key: p[0], Direction: terms.DirectionImport, CompanyID: p[1], LicenceNumber: p[2], PartnerCountry: p[3],
 			DeclarationDate: p[4], Substance: p[5], HSCode: p[6], CAS: p[7], Formula: p[8], TotalQuantity: p[9], Unit: p[10],
-			PackageCount: containers, Purpose: PurposeServicing}
+			PackageCount: containers, Purpose: terms.PurposeServicing}
 		if shares, err := parseComposition(p[12]); err == nil {
 			r.Composition = shares
 		}
@@ -102,11 +104,11 @@ func TestCheckConcurrent(t *testing.T) {
 }
 
 func TestNonPartyTypeIsBoundByNothing(t *testing.T) {
-	p := PartySettings{Type: PartyTypeNonParty, BoundFrom: everyGroup(d("1989-01-01")), Known: true}
+	p := PartySettings{Type: terms.PartyTypeNonParty, BoundFrom: everyGroup(d("1989-01-01")), Known: true}
 	if p.BoundOn("C/I", d("2025-01-01")) {
 		t.Error("a country of type non-Party must not count as bound")
 	}
-	p.Type = PartyTypeArticle5
+	p.Type = terms.PartyTypeArticle5
 	if !p.BoundOn("C/I", d("2025-01-01")) || p.BoundOn("C/I", d("1988-12-31")) {
 		t.Error("a Party is bound from its BoundFrom date on")
 	}

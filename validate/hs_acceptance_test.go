@@ -3,6 +3,8 @@ package validate
 import (
 	"math"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // TestHSAcceptance runs whole records through Check: the outcome, not only the finding, is
@@ -31,11 +33,11 @@ func TestHSAcceptance(t *testing.T) {
 		// HS 2022 3827.40 "containing methyl bromide", on a licence that allows QPS.
 		{"methyl bromide 98 % / chloropicrin 2 % for QPS is accepted", func(r *Record) {
 			r.Substance, r.HSCode, r.CAS, r.Formula = "MBr/Pic 98/2", "3827.40", "", ""
-			r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS
+			r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeQPS
 		}, OutcomeAccepted, ""},
 		{"the fumigant mixture under methyl bromide's own 2903.61 is rejected", func(r *Record) {
 			r.Substance, r.HSCode, r.CAS, r.Formula = "methyl bromide/chloropicrin 98/2", "2903.61", "", ""
-			r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS
+			r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeQPS
 		}, OutcomeRejected, CodeHSKind},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
@@ -60,7 +62,7 @@ func TestFumigantCountsOnlyMethylBromide(t *testing.T) {
 	env := testEnv(t)
 	r := baseRecord()
 	r.Substance, r.HSCode, r.CAS, r.Formula = "methyl bromide/chloropicrin 98/2", "3827.40", "", ""
-	r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS
+	r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeQPS
 	v := Check(env, &r, NewMemoryLedger())
 	fig := v.Figures
 	if !v.Resolved || fig.NetMassKg <= 0 {

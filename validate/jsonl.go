@@ -8,6 +8,8 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // JSONLReader reads the JSON Lines batch format: UTF-8 text, one JSON object per line, with
@@ -178,7 +180,7 @@ func setJSONField(r *Record, id int, raw json.RawMessage) string {
 	case colKey:
 		r.Key = text
 	case colDirection:
-		d, err := parseEnumJSON(text, kind, 4, ParseDirection)
+		d, err := parseEnumJSON(text, kind, 4, terms.ParseDirection)
 		if err != nil {
 			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(text), Reason: err.Error()})
 		}
@@ -212,13 +214,13 @@ func setJSONField(r *Record, id int, raw json.RawMessage) string {
 		}
 		r.PackageCount = n
 	case colPurpose:
-		p, err := parseEnumJSON(text, kind, int(purposeMax), ParsePurpose)
+		p, err := parseEnumJSON(text, kind, int(terms.PurposeMedicalAerosolBurns), terms.ParsePurpose)
 		if err != nil {
 			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(text), Reason: err.Error()})
 		}
 		r.Purpose = p
 	case colCondition:
-		c, err := parseEnumJSON(text, kind, 4, ParseCondition)
+		c, err := parseEnumJSON(text, kind, 4, terms.ParseCondition)
 		if err != nil {
 			r.Unreadable = append(r.Unreadable, FieldIssue{Field: name, Text: cutText(text), Reason: err.Error()})
 		}
@@ -232,7 +234,7 @@ func parseEnumJSON[E ~int](text string, kind byte, maxValue int, parse func(stri
 	if kind == 'n' {
 		n, err := strconv.Atoi(text)
 		if err != nil || n < 0 || n > maxValue {
-			return 0, fmt.Errorf("%w: %s is not a wire number 0 to %d", ErrUnknownValue, cutText(text), maxValue)
+			return 0, fmt.Errorf("%w: %s is not a wire number 0 to %d", terms.ErrUnknownValue, cutText(text), maxValue)
 		}
 		return E(n), nil
 	}

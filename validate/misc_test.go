@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // TestExemptPurpose checks the purposes that let an import of a phased-out group pass
@@ -12,14 +13,14 @@ import (
 // destruction; Decision X/14: process agents; Art. 2H para 6: QPS for methyl bromide;
 // Decisions VI/9, IV/25 and IX/6: laboratory, essential and critical uses).
 func TestExemptPurpose(t *testing.T) {
-	for p := PurposeUnspecified; p <= purposeMax; p++ {
+	for p := terms.PurposeUnspecified; p <= terms.PurposeMedicalAerosolBurns; p++ {
 		for _, g := range []substances.Group{substances.GroupAI, substances.GroupEI} {
 			got := exemptPurpose(p, g) != ""
 			want := false
 			switch p {
-			case PurposeFeedstock, PurposeDestruction, PurposeLaboratory, PurposeEssentialUse, PurposeCriticalUse, PurposeProcessAgent:
+			case terms.PurposeFeedstock, terms.PurposeDestruction, terms.PurposeLaboratory, terms.PurposeEssentialUse, terms.PurposeCriticalUse, terms.PurposeProcessAgent:
 				want = true
-			case PurposeQPS:
+			case terms.PurposeQPS:
 				want = g == substances.GroupEI
 			}
 			if got != want {

@@ -7,6 +7,8 @@ import (
 	"math/bits"
 	"strconv"
 	"strings"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // Unit is the unit of a declared quantity.
@@ -54,7 +56,7 @@ func ParseUnit(s string) (Unit, error) {
 	case "ton", "tons", "mt":
 		return UnitUnspecified, fmt.Errorf("%w: unit %q may be a metric tonne, a short ton or a long ton; accepted: kg, t (metric tonne), g, lb", ErrUnitAmbiguous, cutText(s))
 	}
-	return UnitUnspecified, fmt.Errorf("%w: unit %q; accepted: kg, t (metric tonne), g, lb", ErrUnknownValue, cutText(s))
+	return UnitUnspecified, fmt.Errorf("%w: unit %q; accepted: kg, t (metric tonne), g, lb", terms.ErrUnknownValue, cutText(s))
 }
 
 // unitFactor gives the exact kilograms per unit as coef × 10^exp.
@@ -224,7 +226,7 @@ const maxContainers = 1_000_000_000
 func ToKilograms(q Decimal, u Unit, containers int64) (float64, error) {
 	fc, fe := u.factor()
 	if fc == 0 {
-		return 0, fmt.Errorf("%w: unit %v; accepted: kg, t, g, lb", ErrUnknownValue, u)
+		return 0, fmt.Errorf("%w: unit %v; accepted: kg, t, g, lb", terms.ErrUnknownValue, u)
 	}
 	if containers < 0 || containers > maxContainers {
 		return 0, fmt.Errorf("%w: %d; accepted: 0 (quantity is the total) to %d", ErrContainerCount, containers, maxContainers)

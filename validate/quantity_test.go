@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 func TestToKilogramsExact(t *testing.T) {
@@ -176,8 +178,8 @@ func TestParseDecimalAccepts(t *testing.T) {
 
 func TestToKilogramsRefusals(t *testing.T) {
 	d, _ := ParseDecimal("1")
-	if _, err := ToKilograms(d, UnitUnspecified, 0); !errors.Is(err, ErrUnknownValue) {
-		t.Errorf("unspecified unit: error %v, want ErrUnknownValue", err)
+	if _, err := ToKilograms(d, UnitUnspecified, 0); !errors.Is(err, terms.ErrUnknownValue) {
+		t.Errorf("unspecified unit: error %v, want terms.ErrUnknownValue", err)
 	}
 	if _, err := ToKilograms(d, UnitKilogram, -1); !errors.Is(err, ErrContainerCount) {
 		t.Errorf("negative containers: error %v, want ErrContainerCount", err)
@@ -206,8 +208,8 @@ func TestParseUnit(t *testing.T) {
 		{"", UnitUnspecified, nil},
 		{"ton", UnitUnspecified, ErrUnitAmbiguous},
 		{"MT", UnitUnspecified, ErrUnitAmbiguous},
-		{"oz", UnitUnspecified, ErrUnknownValue},
-		{"kg/m3", UnitUnspecified, ErrUnknownValue},
+		{"oz", UnitUnspecified, terms.ErrUnknownValue},
+		{"kg/m3", UnitUnspecified, terms.ErrUnknownValue},
 	}
 	for _, c := range cases {
 		got, err := ParseUnit(c.in)

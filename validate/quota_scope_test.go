@@ -6,6 +6,7 @@ import (
 	"testing"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // scopeEnv is testEnv with two INVENTED licences of company CO-1: XA-CU-2025-011 holds a
@@ -17,16 +18,16 @@ func scopeEnv(t *testing.T) *Env {
 	env := testEnv(t)
 	lics := testLicences()
 	from, to := d("2025-01-01"), d("2025-12-31")
-	imp := []Direction{DirectionImport}
-	lics["XA-CU-2025-011"] = &Licence{Number: "XA-CU-2025-011", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
+	imp := []terms.Direction{terms.DirectionImport}
+	lics["XA-CU-2025-011"] = &Licence{Number: "XA-CU-2025-011", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
 		QuotaLines: []QuotaLine{
-			{LineNumber: 2, Group: substances.GroupEI, Unit: QuotaMetricTonnes, Allocated: 100},
-			{LineNumber: 1, Group: substances.GroupEI, Purposes: []Purpose{PurposeCriticalUse}, Unit: QuotaMetricTonnes, Allocated: 0.5},
+			{LineNumber: 2, Group: substances.GroupEI, Unit: terms.QuotaMetricTonnes, Allocated: 100},
+			{LineNumber: 1, Group: substances.GroupEI, Purposes: []terms.Purpose{terms.PurposeCriticalUse}, Unit: terms.QuotaMetricTonnes, Allocated: 0.5},
 		}}
-	lics["XA-F-2025-012"] = &Licence{Number: "XA-F-2025-012", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: LicenceActive,
+	lics["XA-F-2025-012"] = &Licence{Number: "XA-F-2025-012", CompanyID: "CO-1", Directions: imp, ValidFrom: from, ValidTo: to, Status: terms.LicenceActive,
 		QuotaLines: []QuotaLine{
-			{LineNumber: 1, Annex: WholeAnnexF, Unit: QuotaCO2eTonnes, Allocated: 1000},
-			{LineNumber: 2, Substance: "HFC-134a", Unit: QuotaMetricTonnes, Allocated: 1},
+			{LineNumber: 1, Annex: WholeAnnexF, Unit: terms.QuotaCO2eTonnes, Allocated: 1000},
+			{LineNumber: 2, Substance: "HFC-134a", Unit: terms.QuotaMetricTonnes, Allocated: 1},
 		}}
 	env.Licence = func(n string) (*Licence, bool) { l, ok := lics[n]; return l, ok }
 	return env
@@ -45,13 +46,13 @@ func drawsOf(v Verdict) map[int]float64 {
 // Parties authorise them); another purpose never draws on the allowance.
 func TestQuotaAllowanceForCriticalUse(t *testing.T) {
 	env := scopeEnv(t)
-	mbr := func(kg string, p Purpose) Record {
+	mbr := func(kg string, p terms.Purpose) Record {
 		r := baseRecord()
 		methylBromide(&r)
 		r.LicenceNumber, r.TotalQuantity, r.Purpose = "XA-CU-2025-011", kg, p
 		return r
 	}
-	r := mbr("400", PurposeCriticalUse)
+	r := mbr("400", terms.PurposeCriticalUse)
 	v := Check(env, &r, NewMemoryLedger())
 	if v.Outcome == OutcomeRejected {
 		t.Fatalf("critical use within the allowance rejected: %v", v.Findings)
@@ -65,7 +66,7 @@ func TestQuotaAllowanceForCriticalUse(t *testing.T) {
 	}
 
 	// 600 kg exceeds the 0.5 t allowance and does not spill over onto line 2.
-	r = mbr("600", PurposeCriticalUse)
+	r = mbr("600", terms.PurposeCriticalUse)
 	v = Check(env, &r, NewMemoryLedger())
 	f, ok := codesOf(v)[CodeQuotaExceeded]
 	if !ok || v.Outcome != OutcomeRejected {
@@ -76,14 +77,14 @@ func TestQuotaAllowanceForCriticalUse(t *testing.T) {
 	}
 
 	// QPS methyl bromide draws on line 2, never on the allowance.
-	r = mbr("400", PurposeQPS)
+	r = mbr("400", terms.PurposeQPS)
 	v = Check(env, &r, NewMemoryLedger())
 	if got := drawsOf(v); len(got) != 1 || math.Abs(got[2]-0.4) > 1e-12 {
 		t.Errorf("a QPS shipment drew %v (findings %v); want 0.4 t on line 2, nothing on the allowance", got, v.Findings)
 	}
 
 	// Without an allowance or a listed purpose the same critical use is unauthorised.
-	r = mbr("400", PurposeCriticalUse)
+	r = mbr("400", terms.PurposeCriticalUse)
 	r.LicenceNumber = "XA-FEED-2025-005"
 	if _, ok := codesOf(Check(env, &r, NewMemoryLedger()))[CodeExemptUseUnauthorised]; !ok {
 		t.Errorf("critical use on a licence without an allowance should be %s", CodeExemptUseUnauthorised)

@@ -9,6 +9,8 @@ import (
 	"path/filepath"
 	"strings"
 	"unicode/utf8"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // RecordReader reads shipment records from a batch file one at a time.
@@ -82,7 +84,7 @@ func ParseFormat(s string) (Format, error) {
 	case "jsonl", "jsonlines", "ndjson":
 		return FormatJSONL, nil
 	}
-	return FormatUnknown, fmt.Errorf("%w: format %q; accepted: csv, jsonl", ErrUnknownValue, cutText(s))
+	return FormatUnknown, fmt.Errorf("%w: format %q; accepted: csv, jsonl", terms.ErrUnknownValue, cutText(s))
 }
 
 // FormatOfPath guesses the format from a file name's extension (.csv, .jsonl, .ndjson).
@@ -104,7 +106,7 @@ func NewReader(f Format, r io.Reader, opts ...ReaderOption) (RecordReader, error
 	case FormatJSONL:
 		return NewJSONLReader(r, opts...), nil
 	}
-	return nil, fmt.Errorf("%w: format %v; accepted: csv, jsonl", ErrUnknownValue, f)
+	return nil, fmt.Errorf("%w: format %v; accepted: csv, jsonl", terms.ErrUnknownValue, f)
 }
 
 // lineScanner splits input into physical lines of at most max bytes. A line is ended by "\n"

@@ -7,6 +7,8 @@ import (
 	"runtime"
 	"strings"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // item is one result of a reader.
@@ -53,14 +55,14 @@ func TestCSVReaderGoodFile(t *testing.T) {
 		}
 	}
 	a1, a2, a3 := items[0].rec, items[1].rec, items[2].rec
-	if a1.Line != 2 || a1.Key != "A1" || a1.Direction != DirectionImport || a1.PackageCount != 10 ||
-		a1.TotalQuantity != "13.6" || a1.CAS != "75-45-6" || a1.Purpose != PurposeServicing || a1.Condition != ConditionVirgin {
+	if a1.Line != 2 || a1.Key != "A1" || a1.Direction != terms.DirectionImport || a1.PackageCount != 10 ||
+		a1.TotalQuantity != "13.6" || a1.CAS != "75-45-6" || a1.Purpose != terms.PurposeServicing || a1.Condition != terms.ConditionVirgin {
 		t.Errorf("record A1 read as %+v", a1)
 	}
-	if a2.Line != 4 || a2.Direction != DirectionReExport || a2.Substance != "1,1,1,2-tetrafluoroethane" || a2.TotalQuantity != "1250.5" || a2.Purpose != PurposeFeedstock {
+	if a2.Line != 4 || a2.Direction != terms.DirectionReExport || a2.Substance != "1,1,1,2-tetrafluoroethane" || a2.TotalQuantity != "1250.5" || a2.Purpose != terms.PurposeFeedstock {
 		t.Errorf("record A2 read as %+v", a2)
 	}
-	if a3.Line != 6 || a3.Key != `A"3` || a3.Condition != ConditionUsed || len(a3.Composition) != 3 ||
+	if a3.Line != 6 || a3.Key != `A"3` || a3.Condition != terms.ConditionUsed || len(a3.Composition) != 3 ||
 		a3.Composition[1] != (DeclaredShare{"HFC-143a", 52}) || a3.Composition[2].MassPct != 4 {
 		t.Errorf("record A3 read as %+v", a3)
 	}
@@ -289,12 +291,12 @@ func TestJSONLReader(t *testing.T) {
 		}
 	}
 	j1 := items[0].rec
-	if j1.Key != "J1" || j1.TotalQuantity != "1250.50" || j1.PackageCount != 3 || j1.FillPerPackage != "416.83" || j1.Purpose != PurposeServicing ||
-		j1.Condition != ConditionUsed || len(j1.Composition) != 2 || j1.Composition[1].MassPct != 50 || j1.Line != 1 {
+	if j1.Key != "J1" || j1.TotalQuantity != "1250.50" || j1.PackageCount != 3 || j1.FillPerPackage != "416.83" || j1.Purpose != terms.PurposeServicing ||
+		j1.Condition != terms.ConditionUsed || len(j1.Composition) != 2 || j1.Composition[1].MassPct != 50 || j1.Line != 1 {
 		t.Errorf("J1 read as %+v", j1)
 	}
 	j2 := items[1].rec
-	if j2.Key != "J2" || j2.Direction != DirectionReExport || j2.Line != 3 || len(j2.Composition) != 2 || j2.TotalQuantity != "7" ||
+	if j2.Key != "J2" || j2.Direction != terms.DirectionReExport || j2.Line != 3 || len(j2.Composition) != 2 || j2.TotalQuantity != "7" ||
 		len(j2.Measured) != 2 || j2.Measured[0] != (MeasuredShare{Identifier: "HFC-32", MassPct: 49.5, Uncertainty: 0.5}) || j2.Measured[1].MassPct != 50.5 {
 		t.Errorf("J2 read as %+v", j2)
 	}

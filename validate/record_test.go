@@ -3,89 +3,91 @@ package validate
 import (
 	"errors"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 func TestParseDirection(t *testing.T) {
 	cases := []struct {
 		in   string
-		want Direction
+		want terms.Direction
 		ok   bool
 	}{
-		{"import", DirectionImport, true},
-		{"IMPORT", DirectionImport, true},
-		{"Re-Export", DirectionReExport, true},
-		{"re_export", DirectionReExport, true},
-		{"RE EXPORT", DirectionReExport, true},
-		{"reexport", DirectionReExport, true},
-		{"DIRECTION_TRANSIT", DirectionTransit, true},
-		{"export", DirectionExport, true},
-		{"", DirectionUnspecified, true},
-		{"sideways", DirectionUnspecified, false},
-		{"im-port!", DirectionUnspecified, false},
+		{"import", terms.DirectionImport, true},
+		{"IMPORT", terms.DirectionImport, true},
+		{"Re-Export", terms.DirectionReExport, true},
+		{"re_export", terms.DirectionReExport, true},
+		{"RE EXPORT", terms.DirectionReExport, true},
+		{"reexport", terms.DirectionReExport, true},
+		{"DIRECTION_TRANSIT", terms.DirectionTransit, true},
+		{"export", terms.DirectionExport, true},
+		{"", terms.DirectionUnspecified, true},
+		{"sideways", terms.DirectionUnspecified, false},
+		{"im-port!", terms.DirectionUnspecified, false},
 	}
 	for _, c := range cases {
-		got, err := ParseDirection(c.in)
+		got, err := terms.ParseDirection(c.in)
 		if got != c.want || (err == nil) != c.ok {
-			t.Errorf("ParseDirection(%q) = %v, %v; want %v, ok=%v", c.in, got, err, c.want, c.ok)
+			t.Errorf("terms.ParseDirection(%q) = %v, %v; want %v, ok=%v", c.in, got, err, c.want, c.ok)
 		}
-		if err != nil && !errors.Is(err, ErrUnknownValue) {
-			t.Errorf("ParseDirection(%q) error %v does not wrap ErrUnknownValue", c.in, err)
+		if err != nil && !errors.Is(err, terms.ErrUnknownValue) {
+			t.Errorf("terms.ParseDirection(%q) error %v does not wrap terms.ErrUnknownValue", c.in, err)
 		}
 	}
-	for d := DirectionImport; d <= DirectionTransit; d++ {
-		if back, err := ParseDirection(d.String()); err != nil || back != d {
-			t.Errorf("ParseDirection(%q) = %v, %v; want %v", d.String(), back, err, d)
+	for d := terms.DirectionImport; d <= terms.DirectionTransit; d++ {
+		if back, err := terms.ParseDirection(d.String()); err != nil || back != d {
+			t.Errorf("terms.ParseDirection(%q) = %v, %v; want %v", d.String(), back, err, d)
 		}
 	}
 }
 
 func TestParsePurpose(t *testing.T) {
-	cases := map[string]Purpose{
-		"Process Agent": PurposeProcessAgent,
-		"process_agent": PurposeProcessAgent,
-		"QPS":           PurposeQPS,
-		"PURPOSE_QPS":   PurposeQPS,
-		"essential-use": PurposeEssentialUse,
-		"Critical Use":  PurposeCriticalUse,
-		"laboratory":    PurposeLaboratory,
-		"feedstock":     PurposeFeedstock,
-		"destruction":   PurposeDestruction,
-		"servicing":     PurposeServicing,
-		"manufacturing": PurposeManufacturing,
-		"other":         PurposeOther,
-		"":              PurposeUnspecified,
+	cases := map[string]terms.Purpose{
+		"Process Agent": terms.PurposeProcessAgent,
+		"process_agent": terms.PurposeProcessAgent,
+		"QPS":           terms.PurposeQPS,
+		"PURPOSE_QPS":   terms.PurposeQPS,
+		"essential-use": terms.PurposeEssentialUse,
+		"Critical Use":  terms.PurposeCriticalUse,
+		"laboratory":    terms.PurposeLaboratory,
+		"feedstock":     terms.PurposeFeedstock,
+		"destruction":   terms.PurposeDestruction,
+		"servicing":     terms.PurposeServicing,
+		"manufacturing": terms.PurposeManufacturing,
+		"other":         terms.PurposeOther,
+		"":              terms.PurposeUnspecified,
 	}
 	for in, want := range cases {
-		got, err := ParsePurpose(in)
+		got, err := terms.ParsePurpose(in)
 		if err != nil || got != want {
-			t.Errorf("ParsePurpose(%q) = %v, %v; want %v", in, got, err, want)
+			t.Errorf("terms.ParsePurpose(%q) = %v, %v; want %v", in, got, err, want)
 		}
 	}
-	if _, err := ParsePurpose("fun"); !errors.Is(err, ErrUnknownValue) {
-		t.Errorf("ParsePurpose(fun) error = %v, want ErrUnknownValue", err)
+	if _, err := terms.ParsePurpose("fun"); !errors.Is(err, terms.ErrUnknownValue) {
+		t.Errorf("terms.ParsePurpose(fun) error = %v, want terms.ErrUnknownValue", err)
 	}
-	for p := PurposeServicing; p <= purposeMax; p++ {
-		if back, err := ParsePurpose(p.String()); err != nil || back != p {
-			t.Errorf("ParsePurpose(%q) = %v, %v", p.String(), back, err)
+	for p := terms.PurposeServicing; p <= terms.PurposeMedicalAerosolBurns; p++ {
+		if back, err := terms.ParsePurpose(p.String()); err != nil || back != p {
+			t.Errorf("terms.ParsePurpose(%q) = %v, %v", p.String(), back, err)
 		}
 	}
 }
 
 func TestParseCondition(t *testing.T) {
-	cases := map[string]Condition{
-		"virgin": ConditionVirgin, "USED": ConditionUsed, "Recycled": ConditionRecycled,
-		"CONDITION_RECLAIMED": ConditionReclaimed, "": ConditionUnspecified,
+	cases := map[string]terms.Condition{
+		"virgin": terms.ConditionVirgin, "USED": terms.ConditionUsed, "Recycled": terms.ConditionRecycled,
+		"CONDITION_RECLAIMED": terms.ConditionReclaimed, "": terms.ConditionUnspecified,
 	}
 	for in, want := range cases {
-		got, err := ParseCondition(in)
+		got, err := terms.ParseCondition(in)
 		if err != nil || got != want {
-			t.Errorf("ParseCondition(%q) = %v, %v; want %v", in, got, err, want)
+			t.Errorf("terms.ParseCondition(%q) = %v, %v; want %v", in, got, err, want)
 		}
 	}
-	if _, err := ParseCondition("dirty"); !errors.Is(err, ErrUnknownValue) {
-		t.Errorf("ParseCondition(dirty) error = %v", err)
+	if _, err := terms.ParseCondition("dirty"); !errors.Is(err, terms.ErrUnknownValue) {
+		t.Errorf("terms.ParseCondition(dirty) error = %v", err)
 	}
-	if !ConditionUsed.Recovered() || ConditionVirgin.Recovered() || ConditionUnspecified.Recovered() {
+	if !terms.ConditionUsed.Recovered() || terms.ConditionVirgin.Recovered() || terms.ConditionUnspecified.Recovered() {
 		t.Error("Recovered: used/recycled/reclaimed only")
 	}
 }

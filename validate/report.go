@@ -13,6 +13,7 @@ import (
 	"text/tabwriter"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // DecisionSupportNotice closes every text report.
@@ -222,7 +223,7 @@ func (r *JSONLReport) Write(v *Verdict) error {
 		jv.Figures = fg
 	}
 	for _, d := range v.Draws {
-		jv.Draws = append(jv.Draws, jsonDraw{d.LicenceNumber, d.LineNumber, d.Unit.String(), round9(d.Amount)})
+		jv.Draws = append(jv.Draws, jsonDraw{d.LicenceNumber, d.LineNumber, d.Unit.Symbol(), round9(d.Amount)})
 	}
 	if err := r.enc.Encode(&jv); err != nil {
 		return fmt.Errorf("writing JSON report line for line %d: %w", v.Line, err)
@@ -262,20 +263,20 @@ type Summary struct {
 	AcceptedWithWarnings int64
 	Rejected             int64
 	Replayed             int64
-	ByCode               map[string]int64      // findings per code
-	ByDirection          map[Direction]*Totals // accepted, not replayed records
-	cautions             []string              // unique caution texts, first seen first
-	cautionEntries       map[string][]string   // caution text -> designations
+	ByCode               map[string]int64            // findings per code
+	ByDirection          map[terms.Direction]*Totals // accepted, not replayed records
+	cautions             []string                    // unique caution texts, first seen first
+	cautionEntries       map[string][]string         // caution text -> designations
 }
 
 // NewSummary returns an empty summary.
 func NewSummary() *Summary {
-	return &Summary{ByCode: map[string]int64{}, ByDirection: map[Direction]*Totals{}, cautionEntries: map[string][]string{}}
+	return &Summary{ByCode: map[string]int64{}, ByDirection: map[terms.Direction]*Totals{}, cautionEntries: map[string][]string{}}
 }
 
 // Add counts one verdict. direction is the record's direction (a Verdict does not carry it);
 // pass DirectionUnspecified for unreadable lines.
-func (s *Summary) Add(v *Verdict, direction Direction) {
+func (s *Summary) Add(v *Verdict, direction terms.Direction) {
 	s.Records++
 	switch v.Outcome {
 	case OutcomeAccepted:
@@ -362,7 +363,7 @@ func (s *Summary) WriteText(w io.Writer) error {
 		fmt.Fprintln(w, "\nAccepted shipments")
 		tw = tabwriter.NewWriter(w, 0, 4, 2, ' ', tabwriter.AlignRight)
 		fmt.Fprintf(tw, "direction\trecords\tnet mass kg\tODP t\tCO2-eq t\t\n")
-		for d := DirectionUnspecified; d <= DirectionTransit; d++ {
+		for d := terms.DirectionUnspecified; d <= terms.DirectionTransit; d++ {
 			t := s.ByDirection[d]
 			if t == nil {
 				continue

@@ -7,6 +7,8 @@ import (
 	"encoding/json"
 	"strings"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // batchFile is an INVENTED batch: a clean HCFC import, an R-32 import (A2L), an R-290 import
@@ -18,7 +20,7 @@ const batchFile = csvHeader + "\n" +
 	"E-4,import,CO-1,XA-IMP-2025-001,XB,2025-06-03,HCFC-22,,,,\"1,5\",kg,0,servicing,virgin,\n" +
 	"E-5,import,\"CO-1\n"
 
-func checkBatch(t *testing.T) ([]Verdict, []Direction) {
+func checkBatch(t *testing.T) ([]Verdict, []terms.Direction) {
 	t.Helper()
 	env := testEnv(t)
 	rr, err := NewCSVReader(strings.NewReader(batchFile))
@@ -27,11 +29,11 @@ func checkBatch(t *testing.T) ([]Verdict, []Direction) {
 	}
 	b := NewBatch(env)
 	var vs []Verdict
-	var dirs []Direction
+	var dirs []terms.Direction
 	for _, it := range readAll(t, rr) {
 		if it.lerr != nil {
 			vs = append(vs, LineErrorVerdict(it.lerr))
-			dirs = append(dirs, DirectionUnspecified)
+			dirs = append(dirs, terms.DirectionUnspecified)
 			continue
 		}
 		vs = append(vs, b.Check(&it.rec))
@@ -172,7 +174,7 @@ func TestSummaryText(t *testing.T) {
 	if e := s.CountsBySeverity(SeverityError); e[CodeQtyFormat] != 1 || e[CodeSubstNotControlled] != 0 {
 		t.Errorf("errors by code %v", e)
 	}
-	imp := s.ByDirection[DirectionImport]
+	imp := s.ByDirection[terms.DirectionImport]
 	if imp == nil || imp.Records != 3 || imp.NetMassKg != 286 {
 		t.Errorf("import totals %+v; want 3 accepted records, 136 + 100 + 50 kg", imp)
 	}

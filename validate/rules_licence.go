@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // QuotaLedger tracks what earlier records of one stream drew on quota lines, on top of the
@@ -41,11 +42,11 @@ func QuotaFindings(licence string, line QuotaLine, allocated, used, amount float
 	remaining := allocated - used
 	if amount > remaining+quotaEpsilon {
 		return []Finding{newFinding(CodeQuotaExceeded, "", fmt.Sprintf("the shipment draws %s %s on quota line %d (%s) of licence %s, but only %s %s remain of %s allocated",
-			fmtAmount(amount), line.Unit, line.LineNumber, lineScope(line), licence, fmtAmount(math.Max(remaining, 0)), line.Unit, fmtAmount(allocated)))}
+			fmtAmount(amount), line.Unit.Symbol(), line.LineNumber, lineScope(line), licence, fmtAmount(math.Max(remaining, 0)), line.Unit.Symbol(), fmtAmount(allocated)))}
 	}
 	if allocated > 0 && (used+amount)/allocated > nearLimitShare {
 		return []Finding{newFinding(CodeQuotaNearLimit, "", fmt.Sprintf("after this shipment %.1f %% of quota line %d (%s) of licence %s is used (%s of %s %s)",
-			100*(used+amount)/allocated, line.LineNumber, lineScope(line), licence, fmtAmount(used+amount), fmtAmount(allocated), line.Unit))}
+			100*(used+amount)/allocated, line.LineNumber, lineScope(line), licence, fmtAmount(used+amount), fmtAmount(allocated), line.Unit.Symbol()))}
 	}
 	return nil
 }
@@ -103,13 +104,13 @@ func (l QuotaLine) specificity() int {
 }
 
 // componentDraw is what one component draws in a unit.
-func componentDraw(u QuotaUnit, comp substances.ComponentFigures) float64 {
+func componentDraw(u terms.QuotaUnit, comp substances.ComponentFigures) float64 {
 	switch u {
-	case QuotaMetricTonnes:
+	case terms.QuotaMetricTonnes:
 		return comp.MassKg / 1000
-	case QuotaODPTonnes:
+	case terms.QuotaODPTonnes:
 		return comp.ODPTonnes
-	case QuotaCO2eTonnes:
+	case terms.QuotaCO2eTonnes:
 		// Mass times the Protocol GWP: equals comp.CO2eTonnes for Annex F components, and
 		// uses the Kigali-listed GWP for a CFC or HCFC on a CO2-eq line.
 		return comp.MassKg / 1000 * comp.ProtocolGWP
@@ -134,7 +135,7 @@ func Draw(line QuotaLine, fig Figures) float64 {
 // the lines in scope that serve p, a line limited to purposes before one that is not, then a
 // substance line before a group line before an Annex line, then the lowest line number. It
 // returns -1 when no line covers the component.
-func bestLine(lic *Licence, comp substances.ComponentFigures, p Purpose) int {
+func bestLine(lic *Licence, comp substances.ComponentFigures, p terms.Purpose) int {
 	best := -1
 	for i, l := range lic.QuotaLines {
 		if l.Closed || !InScope(l, comp) || !l.Serves(p) {
@@ -166,7 +167,7 @@ func bestLine(lic *Licence, comp substances.ComponentFigures, p Purpose) int {
 // line of the licence (see bestLine) and sums the draws per line, in line-number order.
 // Components no line covers are returned as uncovered. The draws equal Draw(line, fig)
 // whenever no two lines of the licence overlap.
-func PlanDraws(lic *Licence, fig Figures, p Purpose) (draws []LineDraw, uncovered []substances.ComponentFigures) {
+func PlanDraws(lic *Licence, fig Figures, p terms.Purpose) (draws []LineDraw, uncovered []substances.ComponentFigures) {
 	for _, comp := range fig.Components {
 		if !comp.Group.Controlled() {
 			continue
@@ -201,9 +202,9 @@ func (lic *Licence) line(number int) (QuotaLine, bool) {
 	return QuotaLine{}, false
 }
 
-func (lic *Licence) coversDirection(d Direction) bool {
+func (lic *Licence) coversDirection(d terms.Direction) bool {
 	for _, x := range lic.Directions {
-		if x == d || (d == DirectionReExport && x == DirectionExport) {
+		if x == d || (d == terms.DirectionReExport && x == terms.DirectionExport) {
 			return true
 		}
 	}
@@ -212,7 +213,7 @@ func (lic *Licence) coversDirection(d Direction) bool {
 
 // allowsPurpose reports whether the licence authorises purpose p: it lists p among its special
 // purposes, or one of its quota lines is an allowance limited to p.
-func (lic *Licence) allowsPurpose(p Purpose) bool {
+func (lic *Licence) allowsPurpose(p terms.Purpose) bool {
 	if slices.Contains(lic.SpecialPurposes, p) {
 		return true
 	}
@@ -231,7 +232,7 @@ func (c *checker) licenceRules() {
 	num := strings.TrimSpace(r.LicenceNumber)
 	if num == "" {
 		switch r.Direction {
-		case DirectionImport, DirectionExport, DirectionReExport:
+		case terms.DirectionImport, terms.DirectionExport, terms.DirectionReExport:
 			c.add(CodeLicenceMissing, "", "licence_number is empty; an %s of %s needs a licence (Article 4B)", r.Direction, joinGroups(c.groups))
 		}
 		return
@@ -245,15 +246,15 @@ func (c *checker) licenceRules() {
 	if company := strings.TrimSpace(r.CompanyID); company != "" && company != lic.CompanyID {
 		c.add(CodeLicenceCompany, "", "licence %s is held by company %s, not by %s", lic.Number, lic.CompanyID, cutText(company))
 	}
-	if r.Direction != DirectionUnspecified && !lic.coversDirection(r.Direction) {
+	if r.Direction != terms.DirectionUnspecified && !lic.coversDirection(r.Direction) {
 		c.add(CodeLicenceDirection, "", "licence %s covers %s, not %s", lic.Number, directionList(lic.Directions), r.Direction)
 	}
 	if c.dateOK {
 		// The licence as it stood on the declaration date.
-		if st := lic.StatusOn(c.date); st != LicenceActive {
+		if st := lic.StatusOn(c.date); st != terms.LicenceActive {
 			c.add(CodeLicenceInactive, "", "licence %s was %s on the declaration_date %s; only a licence active on that day is accepted", lic.Number, st, isoDate(c.date))
 		}
-	} else if lic.Status != LicenceActive {
+	} else if lic.Status != terms.LicenceActive {
 		c.add(CodeLicenceInactive, "", "licence %s is %s; only an active licence is accepted", lic.Number, lic.Status)
 	}
 	if c.dateOK {
@@ -265,7 +266,7 @@ func (c *checker) licenceRules() {
 		}
 	}
 	switch r.Purpose {
-	case PurposeFeedstock, PurposeDestruction:
+	case terms.PurposeFeedstock, terms.PurposeDestruction:
 		if !lic.allowsPurpose(r.Purpose) {
 			c.add(CodePurposeNotLicensed, "", "purpose %s needs a licence that lists it; licence %s lists %s", r.Purpose, lic.Number, purposeList(lic.SpecialPurposes))
 		}
@@ -278,7 +279,7 @@ func (c *checker) licenceRules() {
 	for _, comp := range uncovered {
 		c.add(CodeLicenceScope, "", "no quota line of licence %s covers %s (%s)%s", lic.Number, comp.Designation, groupLabel(comp.Group), c.componentOf())
 	}
-	if r.Direction == DirectionTransit || !c.qtyOK {
+	if r.Direction == terms.DirectionTransit || !c.qtyOK {
 		return
 	}
 	// The quota the record draws is judged once the quota drawn by the earlier records of
@@ -299,8 +300,8 @@ func (c *checker) quotaRules() {
 	c.fs = c.fs[:c.quotaAt]
 	for _, d := range draws {
 		line, _ := lic.line(d.LineNumber)
-		if line.Unit < QuotaMetricTonnes || line.Unit > QuotaCO2eTonnes || line.Allocated < 0 || math.IsNaN(line.Allocated) {
-			c.add(CodeQuotaLineInvalid, "", "quota line %d of licence %s has unit %s and allocation %g; it cannot be drawn on", line.LineNumber, lic.Number, line.Unit, line.Allocated)
+		if line.Unit < terms.QuotaMetricTonnes || line.Unit > terms.QuotaCO2eTonnes || line.Allocated < 0 || math.IsNaN(line.Allocated) {
+			c.add(CodeQuotaLineInvalid, "", "quota line %d of licence %s has unit %s and allocation %g; it cannot be drawn on", line.LineNumber, lic.Number, unitText(line.Unit), line.Allocated)
 			continue
 		}
 		if c.ledger == DeferQuota {
@@ -348,7 +349,7 @@ func fmtAmount(f float64) string {
 	return strings.TrimSuffix(s, ".")
 }
 
-func directionList(ds []Direction) string {
+func directionList(ds []terms.Direction) string {
 	if len(ds) == 0 {
 		return "no direction"
 	}
@@ -359,7 +360,7 @@ func directionList(ds []Direction) string {
 	return strings.Join(parts, ", ")
 }
 
-func purposeList(ps []Purpose) string {
+func purposeList(ps []terms.Purpose) string {
 	if len(ps) == 0 {
 		return "no special purpose"
 	}
@@ -368,4 +369,12 @@ func purposeList(ps []Purpose) string {
 		parts[i] = p.String()
 	}
 	return strings.Join(parts, ", ")
+}
+
+// unitText names a quota line's unit in a message, also when it is unspecified or unknown.
+func unitText(u terms.QuotaUnit) string {
+	if u == terms.QuotaUnitUnspecified {
+		return "unspecified"
+	}
+	return u.Symbol()
 }

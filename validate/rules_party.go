@@ -5,6 +5,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // tradeBan holds the first days of the Article 4 bans on trade with non-Parties for one
@@ -48,15 +49,15 @@ var tradeBans = func() map[substances.Group]tradeBan {
 // TradeBanStart returns the first day of the Article 4 ban on trade with non-Parties for
 // group g in direction d (re-export counts as export; transit is not covered), and false when
 // no ban applies.
-func TradeBanStart(g substances.Group, d Direction) (time.Time, bool) {
+func TradeBanStart(g substances.Group, d terms.Direction) (time.Time, bool) {
 	b, ok := tradeBans[g]
 	if !ok {
 		return time.Time{}, false
 	}
 	switch d {
-	case DirectionImport:
+	case terms.DirectionImport:
 		return b.imports, true
-	case DirectionExport, DirectionReExport:
+	case terms.DirectionExport, terms.DirectionReExport:
 		return b.exports, true
 	}
 	return time.Time{}, false
@@ -113,7 +114,7 @@ func (c *checker) partnerRules() {
 		c.add(CodePartnerUnknown, "", "no party settings are held for %s, so whether it is bound by the Montreal Protocol for %s could not be checked", c.partner, joinGroups(c.groups))
 		return
 	}
-	if !c.dateOK || c.r.Direction == DirectionTransit {
+	if !c.dateOK || c.r.Direction == terms.DirectionTransit {
 		return // transit is neither import nor export; without a date nothing can be judged
 	}
 	for _, g := range c.groups {

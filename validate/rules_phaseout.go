@@ -4,6 +4,7 @@ import (
 	"slices"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // exemptPurpose says why a purpose lets an import of a phased-out group pass, or "" when it
@@ -11,21 +12,21 @@ import (
 // para 5; Decisions VII/30 and IV/11); process agents (Decision X/14); QPS only for methyl
 // bromide (Art. 2H para 6, Art. 5 para 8 ter); laboratory and analytical, essential and
 // critical uses pass only with an authorisation (exemptUseAuthorised).
-func exemptPurpose(p Purpose, g substances.Group) string {
+func exemptPurpose(p terms.Purpose, g substances.Group) string {
 	switch p {
-	case PurposeFeedstock:
+	case terms.PurposeFeedstock:
 		return "feedstock use"
-	case PurposeDestruction:
+	case terms.PurposeDestruction:
 		return "destruction"
-	case PurposeLaboratory:
+	case terms.PurposeLaboratory:
 		return "laboratory and analytical use"
-	case PurposeEssentialUse:
+	case terms.PurposeEssentialUse:
 		return "an essential use"
-	case PurposeCriticalUse:
+	case terms.PurposeCriticalUse:
 		return "a critical use"
-	case PurposeProcessAgent:
+	case terms.PurposeProcessAgent:
 		return "process-agent use"
-	case PurposeQPS:
+	case terms.PurposeQPS:
 		if g == substances.GroupEI {
 			return "quarantine and pre-shipment use"
 		}
@@ -35,15 +36,15 @@ func exemptPurpose(p Purpose, g substances.Group) string {
 
 // exemptionBasis gives, for the purposes that pass a phase-out only with an authorisation,
 // the provision the authorisation rests on; "" for the other purposes.
-func exemptionBasis(p Purpose) string {
+func exemptionBasis(p terms.Purpose) string {
 	switch p {
-	case PurposeEssentialUse:
+	case terms.PurposeEssentialUse:
 		return "essential uses exist only as the Meeting of the Parties authorises them for a Party and year (Decision IV/25 and the yearly essential-use decisions)"
-	case PurposeCriticalUse:
+	case terms.PurposeCriticalUse:
 		return "critical uses of methyl bromide exist only as the Parties authorise them for a Party and year (Article 2H para 5; Decision IX/6)"
-	case PurposeLaboratory:
+	case terms.PurposeLaboratory:
 		return "laboratory and analytical uses pass under the Parties' global exemption with its exclusions (Decision VI/9 and its extensions; from memory for the current extension)"
-	case PurposeProcessAgent:
+	case terms.PurposeProcessAgent:
 		return "process agents pass only for the uses the Parties list (Decision X/14, table A, and its updates)"
 	}
 	return ""
@@ -60,7 +61,7 @@ func (c *checker) exemptUseAuthorised(g substances.Group, year int) bool {
 	if basis == "" {
 		return true
 	}
-	if p == PurposeCriticalUse && g != substances.GroupEI {
+	if p == terms.PurposeCriticalUse && g != substances.GroupEI {
 		c.add(CodeExemptUseWrongGroup, "purpose", "%s is phased out for the reporting Party in %d and critical use is declared, but critical uses exist only for methyl bromide (Article 2H para 5; Decision IX/6); declare the use the substance is authorised for, or hold the goods",
 			groupLabel(g), year)
 		return false
@@ -85,11 +86,11 @@ func (c *checker) exemptUseAuthorised(g substances.Group, year int) bool {
 // XXX/2) added servicing fire suppression and fire protection equipment, solvent use in
 // rocket-engine manufacture and topical medical aerosols for the specialized treatment of
 // burns (from memory; the adjusted text was not checked here).
-func hcfcTail(t PartyType, year int) (string, bool) {
+func hcfcTail(t terms.PartyType, year int) (string, bool) {
 	switch {
-	case t == PartyTypeNonArticle5 && year >= 2020 && year <= 2029:
+	case t == terms.PartyTypeNonArticle5 && year >= 2020 && year <= 2029:
 		return "the non-Article 5 HCFC servicing tail of 2020-2029 (Article 2F para 6)", true
-	case t == PartyTypeArticle5 && year >= 2030 && year <= 2039:
+	case t == terms.PartyTypeArticle5 && year >= 2030 && year <= 2039:
 		return "the Article 5 HCFC servicing tail of 2030-2039 (Article 5 para 8 ter (e))", true
 	}
 	return "", false
@@ -98,10 +99,10 @@ func hcfcTail(t PartyType, year int) (string, bool) {
 // tailUse reports whether purpose p is a use an HCFC servicing tail allows, or lies outside
 // consumption or the phase-out altogether (feedstock, destruction, process agent, the
 // authorised exempted uses, which are judged elsewhere).
-func tailUse(p Purpose) bool {
+func tailUse(p terms.Purpose) bool {
 	switch p {
-	case PurposeServicing, PurposeFireProtectionServicing, PurposeRocketEngineSolvent, PurposeMedicalAerosolBurns,
-		PurposeFeedstock, PurposeDestruction, PurposeProcessAgent, PurposeLaboratory, PurposeEssentialUse:
+	case terms.PurposeServicing, terms.PurposeFireProtectionServicing, terms.PurposeRocketEngineSolvent, terms.PurposeMedicalAerosolBurns,
+		terms.PurposeFeedstock, terms.PurposeDestruction, terms.PurposeProcessAgent, terms.PurposeLaboratory, terms.PurposeEssentialUse:
 		return true
 	}
 	return false
@@ -122,7 +123,7 @@ func (c *checker) servicingTailRule(g substances.Group, year int) {
 		return
 	}
 	const uses = "servicing refrigeration and air-conditioning equipment (servicing), servicing fire protection equipment (fire-protection-servicing), solvent in rocket-engine manufacture (rocket-engine-solvent), topical medical aerosols for burns (medical-aerosol-burns)"
-	if c.r.Purpose == PurposeUnspecified {
+	if c.r.Purpose == terms.PurposeUnspecified {
 		c.add(CodeHCFCTailUseMissing, "purpose", "%s in %d falls under %s, which allows only %s; declare the purpose", groupLabel(g), year, tail, uses)
 		return
 	}
@@ -136,7 +137,7 @@ func (c *checker) servicingTailRule(g substances.Group, year int) {
 // servicing tail an import is limited to the tail's uses. Exports and transit do not add to
 // consumption and are not checked here.
 func (c *checker) phaseOutRules() {
-	if c.r.Direction != DirectionImport || !c.dateOK {
+	if c.r.Direction != terms.DirectionImport || !c.dateOK {
 		return
 	}
 	year := c.date.Year()
@@ -162,7 +163,7 @@ func (c *checker) phaseOutRules() {
 			continue
 		}
 		declared := "no purpose"
-		if c.r.Purpose != PurposeUnspecified {
+		if c.r.Purpose != terms.PurposeUnspecified {
 			declared = "purpose " + c.r.Purpose.String()
 		}
 		c.add(CodePhasedOut, "", "%s is phased out for the reporting Party in %d (allowed 0 %% of baseline) and the import declares %s and %s material; only feedstock, destruction, an authorised laboratory, essential, critical (methyl bromide) or process-agent use, QPS (methyl bromide), or used/recycled/reclaimed material pass",
@@ -170,8 +171,8 @@ func (c *checker) phaseOutRules() {
 	}
 }
 
-func conditionWord(cd Condition) string {
-	if cd == ConditionUnspecified {
+func conditionWord(cd terms.Condition) string {
+	if cd == terms.ConditionUnspecified {
 		return "virgin"
 	}
 	return cd.String()
@@ -181,17 +182,17 @@ func conditionWord(cd Condition) string {
 // counts in national consumption.
 func (c *checker) purposeRules(controlled bool) bool {
 	r := c.r
-	if r.Purpose == PurposeQPS && c.evOK && !c.hasGroup(substances.GroupEI) {
+	if r.Purpose == terms.PurposeQPS && c.evOK && !c.hasGroup(substances.GroupEI) {
 		c.add(CodeQPSNotMB, "", "quarantine and pre-shipment (QPS) is declared for %s, which holds no methyl bromide; QPS applies to methyl bromide only", c.designation)
 	}
 	if !controlled {
 		return false
 	}
 	counts := true
-	if r.Purpose == PurposeUnspecified {
+	if r.Purpose == terms.PurposeUnspecified {
 		c.add(CodePurposeMissing, "", "no purpose is declared; the shipment is treated as ordinary use")
 	}
-	if r.Direction == DirectionTransit {
+	if r.Direction == terms.DirectionTransit {
 		c.add(CodeTransitNotCounted, "", "transit is neither an import nor an export and is not counted in consumption")
 		counts = false
 	}
@@ -204,10 +205,10 @@ func (c *checker) purposeRules(controlled bool) bool {
 	// Decision VII/30 for feedstock exports), so the flag agrees with the totals.
 	switch {
 	case r.Direction.Outgoing():
-	case r.Purpose == PurposeFeedstock || r.Purpose == PurposeDestruction || r.Purpose == PurposeProcessAgent:
+	case r.Purpose == terms.PurposeFeedstock || r.Purpose == terms.PurposeDestruction || r.Purpose == terms.PurposeProcessAgent:
 		c.add(CodePurposeNotCounted, "", "%s amounts are reported but not counted in consumption", r.Purpose)
 		counts = false
-	case r.Purpose == PurposeQPS:
+	case r.Purpose == terms.PurposeQPS:
 		if c.hasGroup(substances.GroupEI) {
 			c.add(CodePurposeNotCounted, "", "quarantine and pre-shipment amounts of methyl bromide are reported but not counted in consumption")
 			counts = false

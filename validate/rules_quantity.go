@@ -3,6 +3,8 @@ package validate
 import (
 	"math/big"
 	"strings"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // Plausibility limits for the net mass of one package (common practice): a "ton container"
@@ -128,7 +130,7 @@ func (c *checker) quantityRules() {
 		case per > maxFillKg:
 			c.add(CodeQtyFillLarge, fieldPackages, "%s kg net in %d packages is %s kg per package, more than a ton container's usual fill of about 1000 kg; check that %s is the total and %s the number of packages",
 				trimFloat(kg), n, trimFloat(per), fieldTotal, fieldPackages)
-		case per < minFillKg && r.Purpose != PurposeLaboratory:
+		case per < minFillKg && r.Purpose != terms.PurposeLaboratory:
 			c.add(CodeQtyFillSmall, fieldPackages, "%s kg net in %d packages is %s kg per package, less than 0.1 kg; check the unit (g or kg) and the number of packages",
 				trimFloat(kg), n, trimFloat(per))
 		}

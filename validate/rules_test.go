@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // ruleCase is one check of one code: edit the base record (and optionally the environment)
@@ -66,11 +67,11 @@ var ruleCases = []ruleCase{
 	}, "purpose"),
 	fire(CodeFieldUnreadable, "purpose number out of range", func(r *Record) { r.Purpose = 99 }, "99"),
 	silent(CodeFieldUnreadable, "all fields readable", nil),
-	fire(CodeDirectionMissing, "unspecified", func(r *Record) { r.Direction = DirectionUnspecified }),
+	fire(CodeDirectionMissing, "unspecified", func(r *Record) { r.Direction = terms.DirectionUnspecified }),
 	fire(CodeFieldUnreadable, "direction number out of range", func(r *Record) { r.Direction = 7 }, "direction 7", "accepted: 1 (import)"),
 	silent(CodeDirectionMissing, "direction number out of range is not missing", func(r *Record) { r.Direction = 7 }),
 	silent(CodeDirectionMissing, "unreadable direction is reported once, as unreadable", func(r *Record) {
-		r.Direction = DirectionUnspecified
+		r.Direction = terms.DirectionUnspecified
 		r.Unreadable = []FieldIssue{{Field: "direction", Text: "sideways", Reason: "x"}}
 	}),
 	fire(CodeCompanyMissing, "blank company", func(r *Record) { r.CompanyID = "  " }),
@@ -188,7 +189,7 @@ var ruleCases = []ruleCase{
 	silent(CodeQtyFillLarge, "large total, packages not declared", func(r *Record) { r.TotalQuantity, r.PackageCount = "5000", 0 }),
 	fire(CodeQtyFillSmall, "500 g in 10 packages", func(r *Record) { r.TotalQuantity, r.Unit, r.PackageCount = "500", "g", 10 }, "0.05 kg per package"),
 	silent(CodeQtyFillSmall, "laboratory ampoules", func(r *Record) {
-		r.TotalQuantity, r.Unit, r.PackageCount, r.Purpose = "500", "g", 10, PurposeLaboratory
+		r.TotalQuantity, r.Unit, r.PackageCount, r.Purpose = "500", "g", 10, terms.PurposeLaboratory
 	}),
 	silent(CodeQtyFillSmall, "1 kg in 10", func(r *Record) { r.TotalQuantity, r.PackageCount = "1", 10 }),
 	// Total and fill: each figure stands for half a unit of its last decimal either side.
@@ -220,9 +221,9 @@ var ruleCases = []ruleCase{
 	// source: Art. 4 paras 1 quin and 2 quin: HCFC trade with non-Parties banned from 2004-01-01.
 	fire(CodePartnerNonParty, "HCFC import from a non-Party", func(r *Record) { r.PartnerCountry = "XD" }, "2004-01-01", "Annex C/I"),
 	fire(CodePartnerNonParty, "re-export counts as export", func(r *Record) {
-		r.PartnerCountry, r.Direction, r.LicenceNumber = "XD", DirectionReExport, "XA-EXP-2025-002"
+		r.PartnerCountry, r.Direction, r.LicenceNumber = "XD", terms.DirectionReExport, "XA-EXP-2025-002"
 	}, "exports of it to"),
-	silent(CodePartnerNonParty, "transit through", func(r *Record) { r.PartnerCountry, r.Direction = "XD", DirectionTransit }),
+	silent(CodePartnerNonParty, "transit through", func(r *Record) { r.PartnerCountry, r.Direction = "XD", terms.DirectionTransit }),
 	silent(CodePartnerNonParty, "HFC from a Party not bound by Kigali before 2033", func(r *Record) { hfc134a(r); r.PartnerCountry = "XC" }),
 	fire(CodePartnerNotBound, "HFC from a Party not bound by Kigali before 2033", func(r *Record) { hfc134a(r); r.PartnerCountry = "XC" }, "2033-01-01"),
 	silent(CodePartnerNotBound, "bound partner", nil),
@@ -245,13 +246,13 @@ var ruleCases = []ruleCase{
 
 	// licence
 	fire(CodeLicenceMissing, "import without licence", func(r *Record) { r.LicenceNumber = "" }, "Article 4B"),
-	silent(CodeLicenceMissing, "transit without licence", func(r *Record) { r.LicenceNumber, r.Direction = "", DirectionTransit }),
+	silent(CodeLicenceMissing, "transit without licence", func(r *Record) { r.LicenceNumber, r.Direction = "", terms.DirectionTransit }),
 	fire(CodeLicenceUnknown, "no such licence", func(r *Record) { r.LicenceNumber = "NOPE-1" }, "NOPE-1"),
 	silent(CodeLicenceUnknown, "issued licence", nil),
 	fire(CodeLicenceCompany, "other holder", func(r *Record) { r.LicenceNumber = "XA-IMP-2025-004" }, "CO-2"),
 	silent(CodeLicenceCompany, "own licence", nil),
-	fire(CodeLicenceDirection, "export on an import licence", func(r *Record) { r.Direction = DirectionExport }, "covers import"),
-	silent(CodeLicenceDirection, "re-export on an export licence", func(r *Record) { r.Direction, r.LicenceNumber = DirectionReExport, "XA-EXP-2025-002" }),
+	fire(CodeLicenceDirection, "export on an import licence", func(r *Record) { r.Direction = terms.DirectionExport }, "covers import"),
+	silent(CodeLicenceDirection, "re-export on an export licence", func(r *Record) { r.Direction, r.LicenceNumber = terms.DirectionReExport, "XA-EXP-2025-002" }),
 	fire(CodeLicenceInactive, "suspended", func(r *Record) { r.LicenceNumber = "XA-IMP-2025-003" }, "suspended"),
 	silent(CodeLicenceInactive, "active", nil),
 	// Dated history: suspended from 2025-04-15 (invented licence).
@@ -281,14 +282,14 @@ var ruleCases = []ruleCase{
 
 	// phase-out (testAllowed: CFCs 0 % from 2005)
 	fire(CodePhasedOut, "CFC import for servicing", func(r *Record) { cfc12(r); r.LicenceNumber = "XA-FEED-2025-005" }, "Annex A/I", "2025"),
-	fire(CodePhasedOut, "QPS does not exempt a CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS }),
-	silent(CodePhasedOut, "CFC import as feedstock", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }),
-	silent(CodePhasedOut, "used CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Condition = "XA-FEED-2025-005", ConditionUsed }),
-	silent(CodePhasedOut, "CFC export", func(r *Record) { cfc12(r); r.LicenceNumber, r.Direction = "XA-EXP-2025-002", DirectionExport }),
-	silent(CodePhasedOut, "methyl bromide for QPS", func(r *Record) { methylBromide(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS }),
+	fire(CodePhasedOut, "QPS does not exempt a CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeQPS }),
+	silent(CodePhasedOut, "CFC import as feedstock", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeFeedstock }),
+	silent(CodePhasedOut, "used CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Condition = "XA-FEED-2025-005", terms.ConditionUsed }),
+	silent(CodePhasedOut, "CFC export", func(r *Record) { cfc12(r); r.LicenceNumber, r.Direction = "XA-EXP-2025-002", terms.DirectionExport }),
+	silent(CodePhasedOut, "methyl bromide for QPS", func(r *Record) { methylBromide(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeQPS }),
 	silent(CodePhasedOut, "HCFC within the servicing tail", nil),
-	fire(CodePhasedOutExempt, "CFC import as feedstock", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }, "feedstock"),
-	fire(CodePhasedOutExempt, "reclaimed CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Condition = "XA-FEED-2025-005", ConditionReclaimed }, "reclaimed material"),
+	fire(CodePhasedOutExempt, "CFC import as feedstock", func(r *Record) { cfc12(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeFeedstock }, "feedstock"),
+	fire(CodePhasedOutExempt, "reclaimed CFC", func(r *Record) { cfc12(r); r.LicenceNumber, r.Condition = "XA-FEED-2025-005", terms.ConditionReclaimed }, "reclaimed material"),
 	silent(CodePhasedOutExempt, "HCFC within the servicing tail", nil),
 	// Exempted uses need an authorisation: critical uses exist only for methyl bromide
 	// (Montreal Protocol Art. 2H para 5; Decision IX/6); essential uses only as the Parties
@@ -296,71 +297,71 @@ var ruleCases = []ruleCase{
 	// exemption (Decision VI/9); process agents only for the listed uses (Decision X/14).
 	fire(CodeExemptUseWrongGroup, "CFC-12 for critical use, on a licence listing critical use", func(r *Record) {
 		cfc12(r)
-		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeCriticalUse
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", terms.PurposeCriticalUse
 	}, "critical uses exist only for methyl bromide", "Article 2H para 5", "Decision IX/6"),
 	fire(CodeExemptUseWrongGroup, "CFC-12 for critical use, on a licence without it", func(r *Record) {
 		cfc12(r)
-		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeCriticalUse
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeCriticalUse
 	}, "Annex A/I"),
 	silent(CodeExemptUseWrongGroup, "methyl bromide for critical use", func(r *Record) {
 		methylBromide(r)
-		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeCriticalUse
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", terms.PurposeCriticalUse
 	}),
 	fire(CodeExemptUseUnauthorised, "methyl bromide critical use, licence does not list it", func(r *Record) {
 		methylBromide(r)
-		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeCriticalUse
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeCriticalUse
 	}, "Decision IX/6", "licence XA-FEED-2025-005 lists feedstock, destruction"),
 	fire(CodeExemptUseUnauthorised, "CFC-12 essential use, licence does not list it", func(r *Record) {
 		cfc12(r)
-		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeEssentialUse
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeEssentialUse
 	}, "Decision IV/25", "essential-use"),
 	fire(CodeExemptUseUnauthorised, "CFC-12 for laboratory use, licence does not list it", func(r *Record) {
 		cfc12(r)
-		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeLaboratory
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeLaboratory
 	}, "Decision VI/9"),
 	fire(CodeExemptUseUnauthorised, "carbon tetrachloride as process agent, licence does not list it", func(r *Record) {
 		r.Substance, r.HSCode, r.CAS, r.Formula = "carbon tetrachloride", "", "", ""
-		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeProcessAgent
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeProcessAgent
 	}, "Decision X/14"),
 	silent(CodeExemptUseUnauthorised, "CFC-12 essential use on the authorising licence", func(r *Record) {
 		cfc12(r)
-		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeEssentialUse
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", terms.PurposeEssentialUse
 	}),
 	silent(CodeExemptUseUnauthorised, "CFC-12 feedstock (no authorisation of this kind needed)", func(r *Record) {
 		cfc12(r)
-		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock
+		r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeFeedstock
 	}),
-	silent(CodeExemptUseUnauthorised, "HCFC-22 laboratory use in the servicing tail (not phased out)", func(r *Record) { r.Purpose = PurposeLaboratory }),
+	silent(CodeExemptUseUnauthorised, "HCFC-22 laboratory use in the servicing tail (not phased out)", func(r *Record) { r.Purpose = terms.PurposeLaboratory }),
 	fire(CodePhasedOutExempt, "CFC-12 essential use on the authorising licence", func(r *Record) {
 		cfc12(r)
-		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", PurposeEssentialUse
+		r.LicenceNumber, r.Purpose = "XA-EXM-2025-010", terms.PurposeEssentialUse
 	}, "an essential use"),
 	// HCFC servicing tails: non-Article 5 2020-2029 (Art. 2F para 6), Article 5 2030-2039
 	// (Art. 5 para 8 ter (e)); uses: servicing RAC equipment plus the 2018 additions (from
 	// memory). The test Party XA is non-Article 5; testAllowed gives HCFCs 0.5 % in 2020-2029.
-	fire(CodeHCFCTailUse, "HCFC-22 for manufacturing in 2025, non-Article 5", func(r *Record) { r.Purpose = PurposeManufacturing },
+	fire(CodeHCFCTailUse, "HCFC-22 for manufacturing in 2025, non-Article 5", func(r *Record) { r.Purpose = terms.PurposeManufacturing },
 		"manufacturing", "2020-2029", "Article 2F para 6"),
-	fire(CodeHCFCTailUse, "HCFC-22 for other use", func(r *Record) { r.Purpose = PurposeOther }),
+	fire(CodeHCFCTailUse, "HCFC-22 for other use", func(r *Record) { r.Purpose = terms.PurposeOther }),
 	silent(CodeHCFCTailUse, "HCFC-22 for servicing", nil),
-	silent(CodeHCFCTailUse, "HCFC-22 for fire protection servicing", func(r *Record) { r.Purpose = PurposeFireProtectionServicing }),
-	silent(CodeHCFCTailUse, "HCFC-22 for rocket-engine solvent", func(r *Record) { r.Purpose = PurposeRocketEngineSolvent }),
-	silent(CodeHCFCTailUse, "HCFC-22 for medical aerosols for burns", func(r *Record) { r.Purpose = PurposeMedicalAerosolBurns }),
-	silent(CodeHCFCTailUse, "recycled HCFC-22 for manufacturing", func(r *Record) { r.Purpose, r.Condition = PurposeManufacturing, ConditionRecycled }),
+	silent(CodeHCFCTailUse, "HCFC-22 for fire protection servicing", func(r *Record) { r.Purpose = terms.PurposeFireProtectionServicing }),
+	silent(CodeHCFCTailUse, "HCFC-22 for rocket-engine solvent", func(r *Record) { r.Purpose = terms.PurposeRocketEngineSolvent }),
+	silent(CodeHCFCTailUse, "HCFC-22 for medical aerosols for burns", func(r *Record) { r.Purpose = terms.PurposeMedicalAerosolBurns }),
+	silent(CodeHCFCTailUse, "recycled HCFC-22 for manufacturing", func(r *Record) { r.Purpose, r.Condition = terms.PurposeManufacturing, terms.ConditionRecycled }),
 	silent(CodeHCFCTailUse, "HCFC-22 export for manufacturing", func(r *Record) {
-		r.Purpose, r.Direction, r.LicenceNumber = PurposeManufacturing, DirectionExport, "XA-EXP-2025-002"
+		r.Purpose, r.Direction, r.LicenceNumber = terms.PurposeManufacturing, terms.DirectionExport, "XA-EXP-2025-002"
 	}),
 	// An Article 5 reporting Party in 2025 is before its tail (2030-2039).
-	withEnv(silent(CodeHCFCTailUse, "Article 5 Party, 2025, manufacturing", func(r *Record) { r.Purpose = PurposeManufacturing }),
-		func(e *Env) { e.Parties = withType(e.Parties, "XA", PartyTypeArticle5) }),
+	withEnv(silent(CodeHCFCTailUse, "Article 5 Party, 2025, manufacturing", func(r *Record) { r.Purpose = terms.PurposeManufacturing }),
+		func(e *Env) { e.Parties = withType(e.Parties, "XA", terms.PartyTypeArticle5) }),
 	// An Article 5 Party in 2031: HCFCs allowed at 2.5 % (Art. 5 para 8 ter (e)), tail uses only.
 	withEnv(fire(CodeHCFCTailUse, "Article 5 Party, 2031, manufacturing", func(r *Record) {
-		r.Purpose, r.DeclarationDate, r.LicenceNumber = PurposeManufacturing, "2031-03-02", "XA-IMP-OPEN-009"
+		r.Purpose, r.DeclarationDate, r.LicenceNumber = terms.PurposeManufacturing, "2031-03-02", "XA-IMP-OPEN-009"
 	}, "2030-2039", "Article 5 para 8 ter (e)"), func(e *Env) {
-		e.Parties = withType(e.Parties, "XA", PartyTypeArticle5)
+		e.Parties = withType(e.Parties, "XA", terms.PartyTypeArticle5)
 		e.Now = func() time.Time { return time.Date(2031, 6, 1, 0, 0, 0, 0, time.UTC) }
 		e.AllowedPercent = func(g substances.Group, year int) (float64, bool) { return 2.5, true }
 	}),
-	fire(CodeHCFCTailUseMissing, "HCFC-22 without a purpose in 2025", func(r *Record) { r.Purpose = PurposeUnspecified }, "declare the purpose"),
+	fire(CodeHCFCTailUseMissing, "HCFC-22 without a purpose in 2025", func(r *Record) { r.Purpose = terms.PurposeUnspecified }, "declare the purpose"),
 	silent(CodeHCFCTailUseMissing, "HCFC-22 for servicing", nil),
 	withEnv(fire(CodeScheduleUnknown, "no schedule", nil, "Annex C/I"),
 		func(e *Env) {
@@ -369,19 +370,19 @@ var ruleCases = []ruleCase{
 	silent(CodeScheduleUnknown, "schedule known", nil),
 
 	// purpose
-	fire(CodePurposeMissing, "unspecified", func(r *Record) { r.Purpose = PurposeUnspecified }),
+	fire(CodePurposeMissing, "unspecified", func(r *Record) { r.Purpose = terms.PurposeUnspecified }),
 	silent(CodePurposeMissing, "servicing", nil),
-	fire(CodeQPSNotMB, "QPS for HCFC-22", func(r *Record) { r.Purpose = PurposeQPS }, "methyl bromide"),
-	silent(CodeQPSNotMB, "QPS for methyl bromide", func(r *Record) { methylBromide(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeQPS }),
-	fire(CodePurposeNotLicensed, "feedstock on an ordinary licence", func(r *Record) { r.Purpose = PurposeFeedstock }, "feedstock"),
-	fire(CodePurposeNotLicensed, "destruction on an ordinary licence", func(r *Record) { r.Purpose = PurposeDestruction }, "destruction"),
-	silent(CodePurposeNotLicensed, "feedstock on a feedstock licence", func(r *Record) { r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }),
-	fire(CodePurposeNotCounted, "feedstock", func(r *Record) { r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", PurposeFeedstock }),
-	fire(CodePurposeNotCounted, "process agent", func(r *Record) { r.Purpose = PurposeProcessAgent }),
+	fire(CodeQPSNotMB, "QPS for HCFC-22", func(r *Record) { r.Purpose = terms.PurposeQPS }, "methyl bromide"),
+	silent(CodeQPSNotMB, "QPS for methyl bromide", func(r *Record) { methylBromide(r); r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeQPS }),
+	fire(CodePurposeNotLicensed, "feedstock on an ordinary licence", func(r *Record) { r.Purpose = terms.PurposeFeedstock }, "feedstock"),
+	fire(CodePurposeNotLicensed, "destruction on an ordinary licence", func(r *Record) { r.Purpose = terms.PurposeDestruction }, "destruction"),
+	silent(CodePurposeNotLicensed, "feedstock on a feedstock licence", func(r *Record) { r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeFeedstock }),
+	fire(CodePurposeNotCounted, "feedstock", func(r *Record) { r.LicenceNumber, r.Purpose = "XA-FEED-2025-005", terms.PurposeFeedstock }),
+	fire(CodePurposeNotCounted, "process agent", func(r *Record) { r.Purpose = terms.PurposeProcessAgent }),
 	silent(CodePurposeNotCounted, "servicing", nil),
-	fire(CodeRecoveredNotCounted, "recycled", func(r *Record) { r.Condition = ConditionRecycled }, "Decision IV/24"),
+	fire(CodeRecoveredNotCounted, "recycled", func(r *Record) { r.Condition = terms.ConditionRecycled }, "Decision IV/24"),
 	silent(CodeRecoveredNotCounted, "virgin", nil),
-	fire(CodeTransitNotCounted, "transit", func(r *Record) { r.Direction = DirectionTransit }),
+	fire(CodeTransitNotCounted, "transit", func(r *Record) { r.Direction = terms.DirectionTransit }),
 	silent(CodeTransitNotCounted, "import", nil),
 
 	// mixture
@@ -539,7 +540,7 @@ func TestCleanRecord(t *testing.T) {
 	if !fig.CountsInConsumption || fig.PartnerNonParty {
 		t.Errorf("an ordinary import from a Party counts in consumption: %+v", fig)
 	}
-	if len(v.Draws) != 1 || v.Draws[0].LineNumber != 2 || v.Draws[0].Unit != QuotaODPTonnes || math.Abs(v.Draws[0].Amount-0.00748) > 1e-12 {
+	if len(v.Draws) != 1 || v.Draws[0].LineNumber != 2 || v.Draws[0].Unit != terms.QuotaODPTonnes || math.Abs(v.Draws[0].Amount-0.00748) > 1e-12 {
 		t.Errorf("draws %+v; want 0.00748 ODP t on line 2", v.Draws)
 	}
 	if v.Fingerprint != Fingerprint(&r) || v.RecordKey != "K-1" || v.Line != 2 {
@@ -548,7 +549,7 @@ func TestCleanRecord(t *testing.T) {
 }
 
 // withType returns a copy of parties with code's Party type changed.
-func withType(parties map[string]PartySettings, code string, t PartyType) map[string]PartySettings {
+func withType(parties map[string]PartySettings, code string, t terms.PartyType) map[string]PartySettings {
 	out := make(map[string]PartySettings, len(parties))
 	for k, v := range parties {
 		out[k] = v
@@ -564,12 +565,12 @@ func withType(parties map[string]PartySettings, code string, t PartyType) map[st
 func TestPlanDrawsPassesOverClosedLines(t *testing.T) {
 	lic := testLicences()["XA-IMP-2025-010"]
 	fig := Figures{Components: []substances.ComponentFigures{{Designation: "HCFC-22", Group: substances.GroupCI, MassKg: 1000, ODPTonnes: 0.055}}}
-	draws, uncovered := PlanDraws(lic, fig, PurposeUnspecified)
-	if len(uncovered) != 0 || len(draws) != 1 || draws[0].LineNumber != 2 || draws[0].Unit != QuotaMetricTonnes {
+	draws, uncovered := PlanDraws(lic, fig, terms.PurposeUnspecified)
+	if len(uncovered) != 0 || len(draws) != 1 || draws[0].LineNumber != 2 || draws[0].Unit != terms.QuotaMetricTonnes {
 		t.Fatalf("draws %+v uncovered %v; want one draw on line 2 in metric t", draws, uncovered)
 	}
 	lic.QuotaLines = lic.QuotaLines[:1] // only the closed line
-	if draws, uncovered = PlanDraws(lic, fig, PurposeUnspecified); len(draws) != 0 || len(uncovered) != 1 {
+	if draws, uncovered = PlanDraws(lic, fig, terms.PurposeUnspecified); len(draws) != 0 || len(uncovered) != 1 {
 		t.Fatalf("only a closed line: draws %+v uncovered %v; want the component uncovered", draws, uncovered)
 	}
 }
@@ -578,14 +579,14 @@ func TestPlanDrawsPassesOverClosedLines(t *testing.T) {
 // first, the first period's; the plain status without a history.
 func TestLicenceStatusOn(t *testing.T) {
 	lic := testLicences()["XA-IMP-2025-010"]
-	for day, want := range map[string]LicenceStatus{"2024-06-01": LicenceActive, "2025-01-01": LicenceActive,
-		"2025-04-14": LicenceActive, "2025-04-15": LicenceSuspended, "2026-01-01": LicenceSuspended} {
+	for day, want := range map[string]terms.LicenceStatus{"2024-06-01": terms.LicenceActive, "2025-01-01": terms.LicenceActive,
+		"2025-04-14": terms.LicenceActive, "2025-04-15": terms.LicenceSuspended, "2026-01-01": terms.LicenceSuspended} {
 		if got := lic.StatusOn(d(day)); got != want {
 			t.Errorf("StatusOn(%s) = %v, want %v", day, got, want)
 		}
 	}
 	plain := testLicences()["XA-IMP-2025-003"]
-	if got := plain.StatusOn(d("2025-02-01")); got != LicenceSuspended {
+	if got := plain.StatusOn(d("2025-02-01")); got != terms.LicenceSuspended {
 		t.Errorf("without a history: %v, want suspended", got)
 	}
 }

@@ -4,17 +4,19 @@ import (
 	"bytes"
 	"reflect"
 	"testing"
+
+	"github.com/halovet/halovet/terms"
 )
 
 // TestRecordWriterRoundTrip: what RecordWriter writes, NewReader of the same format reads
 // back into the same records (the source line apart). The records are invented.
 func TestRecordWriterRoundTrip(t *testing.T) {
 	recs := []Record{
-		{Key: "RT-1", Direction: DirectionImport, CompanyID: "XA-1", LicenceNumber: "XA-IMP-1", PartnerCountry: "XB",
+		{Key: "RT-1", Direction: terms.DirectionImport, CompanyID: "XA-1", LicenceNumber: "XA-IMP-1", PartnerCountry: "XB",
 			DeclarationDate: "2026-03-01", Substance: "HCFC-22", HSCode: "2903.71", CAS: "75-45-6", Formula: "CHClF2",
-			TotalQuantity: "1250.5", Unit: "kg", PackageCount: 10, FillPerPackage: "125.05", Purpose: PurposeServicing,
-			Condition: ConditionVirgin},
-		{Key: "RT-2, with a comma", Direction: DirectionReExport, CompanyID: "XA-1", PartnerCountry: "XC",
+			TotalQuantity: "1250.5", Unit: "kg", PackageCount: 10, FillPerPackage: "125.05", Purpose: terms.PurposeServicing,
+			Condition: terms.ConditionVirgin},
+		{Key: "RT-2, with a comma", Direction: terms.DirectionReExport, CompanyID: "XA-1", PartnerCountry: "XC",
 			DeclarationDate: "2026-04-02", Substance: "mixture \"quoted\"", TotalQuantity: "3", Unit: "t",
 			Composition: []DeclaredShare{{Identifier: "HFC-32", MassPct: 50}, {Identifier: "HFC-125", MassPct: 50}},
 			Measured:    []MeasuredShare{{Identifier: "HFC-32", MassPct: 49.5, Uncertainty: 0.5}, {Identifier: "air", MassPct: 50.5}}},

@@ -25,6 +25,7 @@ import (
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -189,7 +190,7 @@ func (c *countingReader) Read(p []byte) (int, error) {
 // in order), or a line answered locally.
 type seqItem struct {
 	local     *validate.Verdict
-	direction validate.Direction
+	direction terms.Direction
 }
 
 // shipmentStream is what check needs of the two streaming calls: records go out

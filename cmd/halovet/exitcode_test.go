@@ -3,12 +3,13 @@ package main
 import (
 	"io"
 
-	"github.com/halovet/halovet/validate"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"github.com/halovet/halovet/validate"
 )
 
 // TestExitCodeContract runs every client verb through the command line, as a user would,

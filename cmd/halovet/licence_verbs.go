@@ -13,6 +13,8 @@ import (
 	"github.com/spf13/pflag"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
+	"github.com/halovet/halovet/terms"
 )
 
 // The verbs that change one licence, or name the reporting Party: each a single call with
@@ -241,11 +243,6 @@ func defineAmend(fs *pflag.FlagSet) runFunc {
 	}
 }
 
-var unitWords = map[string]halovetv1.QuotaUnit{
-	"metric-t": halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES, "odp-t": halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES,
-	"co2e-t": halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES,
-}
-
 // parseLineSpec reads SCOPE:UNIT:AMOUNT. SCOPE is an Annex group when it holds a "/"
 // (C/I, F/I), a substance otherwise.
 func parseLineSpec(flag, spec string) (*halovetv1.QuotaLine, error) {
@@ -258,8 +255,9 @@ func parseLineSpec(flag, spec string) (*halovetv1.QuotaLine, error) {
 		return nil, usageErr("%s %q: give SCOPE:UNIT:AMOUNT, e.g. C/I:odp-t:2.5 or HCFC-22:metric-t:40", flag, spec)
 	}
 	scope, unit, amount := spec[:j], spec[j+1:i], spec[i+1:]
-	u, ok := unitWords[unit]
-	if !ok {
+	qu, err := terms.ParseQuotaUnit(unit)
+	u := wireterms.QuotaUnitToWire(qu)
+	if err != nil || qu == terms.QuotaUnitUnspecified {
 		return nil, usageErr("%s %q: unit %q: use metric-t, odp-t or co2e-t", flag, spec, unit)
 	}
 	v, err := strconv.ParseFloat(amount, 64)

@@ -15,6 +15,8 @@ import (
 	"google.golang.org/protobuf/reflect/protoreflect"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
+	"github.com/halovet/halovet/terms"
 )
 
 func init() {
@@ -231,12 +233,6 @@ func defineLicences(fs *pflag.FlagSet) runFunc {
 	}
 }
 
-var unitLabel = map[halovetv1.QuotaUnit]string{
-	halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES: "t",
-	halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES:    "ODP t",
-	halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES:   "CO2-eq t",
-}
-
 // printLicences lists the licences as text (the demo's step).
 func printLicences(ctx context.Context, conn *grpc.ClientConn, w io.Writer, company string, year int32) error {
 	resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicences(ctx,
@@ -314,7 +310,7 @@ func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output str
 			if q.GetAllocated() > 0 {
 				used = fmtFixed(100*q.GetDrawn()/q.GetAllocated(), 1)
 			}
-			unit := unitLabel[q.GetUnit()]
+			unit := quotaUnitSymbol(q.GetUnit())
 			f := func(v float64) string { return fmtUnit(v, unit) }
 			fmt.Fprintf(tw, "%s%d\t%s\t%s\t%s\t%s\t%s\t%s\t\n", head, q.GetLineNumber(), scope,
 				f(q.GetAllocated()), f(q.GetDrawn()), f(q.GetRemaining()), unit, used)
@@ -328,15 +324,14 @@ func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output str
 }
 
 func statusLabel(s halovetv1.LicenceStatus) string {
-	switch s {
-	case halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE:
-		return "active"
-	case halovetv1.LicenceStatus_LICENCE_STATUS_DRAFT:
-		return "draft"
-	case halovetv1.LicenceStatus_LICENCE_STATUS_SUSPENDED:
-		return "suspended"
-	case halovetv1.LicenceStatus_LICENCE_STATUS_REVOKED:
-		return "revoked"
+	if st, ok := wireterms.LicenceStatusFromWire(s); ok && st != terms.LicenceStatusUnspecified {
+		return st.String()
 	}
 	return "?"
+}
+
+// quotaUnitSymbol prints a wire quota unit beside a figure ("ODP t"); "" when unspecified.
+func quotaUnitSymbol(u halovetv1.QuotaUnit) string {
+	d, _ := wireterms.QuotaUnitFromWire(u)
+	return d.Symbol()
 }

@@ -17,6 +17,8 @@ import (
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
+	"github.com/halovet/halovet/service/wireterms"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -101,25 +103,25 @@ func (f *shipmentFilterFlags) request() (*halovetv1.ListShipmentsRequest, error)
 		FromDate: f.from, ToDate: f.to, PartnerCountry: f.partner, Substance: f.substance, AnnexGroup: f.group,
 		RecordKey: f.key, PageSize: int32(f.pageSize)}
 	if f.direction != "" {
-		d, err := validate.ParseDirection(f.direction)
-		if err != nil || d == validate.DirectionUnspecified {
+		d, err := terms.ParseDirection(f.direction)
+		if err != nil || d == terms.DirectionUnspecified {
 			return nil, usageErr("--direction %q: use import, export, re-export or transit", f.direction)
 		}
-		req.Direction = halovetv1.Direction(d)
+		req.Direction = wireterms.DirectionToWire(d)
 	}
 	if f.purpose != "" {
-		p, err := validate.ParsePurpose(f.purpose)
-		if err != nil || p == validate.PurposeUnspecified {
+		p, err := terms.ParsePurpose(f.purpose)
+		if err != nil || p == terms.PurposeUnspecified {
 			return nil, usageErr("--purpose %q: %v", f.purpose, err)
 		}
-		req.Purpose = halovetv1.Purpose(p)
+		req.Purpose = wireterms.PurposeToWire(p)
 	}
 	if f.condition != "" {
-		c, err := validate.ParseCondition(f.condition)
-		if err != nil || c == validate.ConditionUnspecified {
+		c, err := terms.ParseCondition(f.condition)
+		if err != nil || c == terms.ConditionUnspecified {
 			return nil, usageErr("--condition %q: use virgin, used, recycled or reclaimed", f.condition)
 		}
-		req.Condition = halovetv1.Condition(c)
+		req.Condition = wireterms.ConditionToWire(c)
 	}
 	for _, s := range f.states {
 		switch strings.ToLower(strings.TrimSpace(s)) {

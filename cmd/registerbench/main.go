@@ -27,6 +27,7 @@ import (
 
 	"github.com/halovet/halovet/pglocal"
 	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/terms"
 )
 
 func main() {
@@ -118,7 +119,7 @@ func run(ctx context.Context, admin string, n, firstYear, years, rounds int, pla
 			}
 		}
 		d, err := timed(func() error {
-			_, err := st.CompanyImports(ctx, []string{"C/I", "F"}, "co2e-t", all)
+			_, err := st.CompanyImports(ctx, []string{"C/I", "F"}, terms.QuotaCO2eTonnes, all)
 			return err
 		})
 		if err != nil {
