@@ -81,6 +81,7 @@ type Server struct {
 	cat      *CatalogueHolder
 	m        *metrics
 	env      *ledger.EnvHolder // the check environment, rebuilt on every announced register change
+	ships    *ledger.Shipments // the shipment workflows
 	limits   Limits
 	inFlight *limiter
 	auth     *access.Authenticator
@@ -120,6 +121,7 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	opts.Version, opts.Revision = buildVersion(opts.Version, opts.Revision)
 	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st, opts.Version, opts.Revision)}
 	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
+	s.ships = ledger.NewShipments(s.env, shipmentRegister{st}, verdictCodec{}, ledger.ShipmentOptions{FlushSize: recordFlushSize, Logger: opts.Logger})
 	s.auth = opts.Authenticator
 	if s.auth == nil {
 		s.auth = access.NewAuthenticator(st, access.AuthOptions{Now: opts.Now})
