@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"time"
 
-
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/ledger"
 	"github.com/halovet/halovet/store"
