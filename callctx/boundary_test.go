@@ -10,7 +10,8 @@ import (
 // not, on gRPC, pgx or the service package: those stay at the wire and the store.
 func TestImportBoundary(t *testing.T) {
 	pkgs := []string{"validate", "controls", "substances", "callctx", "ledger"}
-	forbidden := []string{"google.golang.org/grpc", "github.com/jackc/pgx", "github.com/halovet/halovet/service", "github.com/halovet/halovet/store"}
+	// The generated API package imports gRPC; it is named too, so that the failure says so.
+	forbidden := []string{"google.golang.org/grpc", "github.com/jackc/pgx", "github.com/halovet/halovet/service", "github.com/halovet/halovet/store", "github.com/halovet/halovet/proto"}
 	for _, p := range pkgs {
 		out, err := exec.Command("go", "list", "-deps", "github.com/halovet/halovet/"+p).Output()
 		if err != nil {

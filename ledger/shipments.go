@@ -2,6 +2,7 @@ package ledger
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"log/slog"
 	"math"
@@ -173,7 +174,15 @@ type ShipmentRegister interface {
 	CorrectShipment(ctx context.Context, id int64, row ShipmentRow, reason string) (RecordResult, error)
 	// VoidShipment voids live shipment id and gives back its draws.
 	VoidShipment(ctx context.Context, id int64, reason string) (Shipment, error)
+	// CloseYear closes a reporting year; the error wraps ErrYearState when it is closed.
+	CloseYear(ctx context.Context, year int, reason string) (ClosedYear, error)
+	// ReopenYear reopens a closed year; the error wraps ErrYearState when it is not closed.
+	ReopenYear(ctx context.Context, year int, reason string) error
 }
+
+// ErrYearState is wrapped by a ShipmentRegister's refusal to close a year closed already,
+// or to reopen one that is not closed.
+var ErrYearState = errors.New("the reporting year is already so")
 
 // KeptVerdict is a verdict read back from the register.
 type KeptVerdict struct {

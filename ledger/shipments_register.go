@@ -2,6 +2,7 @@ package ledger
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"strings"
 
@@ -108,6 +109,25 @@ func (s *Shipments) VoidShipment(ctx context.Context, id int64, reason string) (
 	}
 	s.changed(ctx, Change{Licences: got.DrawnOn})
 	return got, nil
+}
+
+// CloseYear closes a reporting year: nothing declared in it is recorded, corrected or
+// voided until it is reopened. The error is a FieldError, or the register's.
+func (s *Shipments) CloseYear(ctx context.Context, year int, reason string) (ClosedYear, error) {
+	c, err := s.reg.CloseYear(ctx, year, reason)
+	if errors.Is(err, ErrYearState) {
+		return ClosedYear{}, refuse(Refused, Violation{"year", fmt.Sprintf("reporting year %d is closed already", year)})
+	}
+	return c, err
+}
+
+// ReopenYear reopens a closed reporting year. The error is a FieldError, or the register's.
+func (s *Shipments) ReopenYear(ctx context.Context, year int, reason string) error {
+	err := s.reg.ReopenYear(ctx, year, reason)
+	if errors.Is(err, ErrYearState) {
+		return refuse(Refused, Violation{"year", fmt.Sprintf("reporting year %d is not closed", year)})
+	}
+	return err
 }
 
 func unionLicences(a []string, ds []Draw) []string {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"io"
 	"slices"
 	"sync"
@@ -33,6 +34,7 @@ type fakeShipments struct {
 	written int   // rows stored
 	calls   int   // RecordShipments calls
 	fail    error // RecordShipments fails with it when set
+	closed  map[int]bool
 }
 
 func newFakeShipments(reg *fakeRegister) *fakeShipments {
@@ -161,6 +163,29 @@ func (f *fakeShipments) VoidShipment(_ context.Context, id int64, _ string) (led
 		}
 	}
 	return ledger.Shipment{}, errNoShipment
+}
+
+func (f *fakeShipments) CloseYear(_ context.Context, year int, reason string) (ledger.ClosedYear, error) {
+	f.mu.Lock()
+	defer f.mu.Unlock()
+	if f.closed == nil {
+		f.closed = map[int]bool{}
+	}
+	if f.closed[year] {
+		return ledger.ClosedYear{}, fmt.Errorf("year %d: %w", year, ledger.ErrYearState)
+	}
+	f.closed[year] = true
+	return ledger.ClosedYear{Year: year, Reason: reason}, nil
+}
+
+func (f *fakeShipments) ReopenYear(_ context.Context, year int, _ string) error {
+	f.mu.Lock()
+	defer f.mu.Unlock()
+	if !f.closed[year] {
+		return fmt.Errorf("year %d: %w", year, ledger.ErrYearState)
+	}
+	delete(f.closed, year)
+	return nil
 }
 
 // jsonCodec keeps verdicts as JSON: a domain encoding, as the wire layer keeps its own.
@@ -518,5 +543,23 @@ func TestCorrectionRefusals(t *testing.T) {
 	changed.TotalQuantity = "50"
 	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, ledger.Correction{ShipmentID: first.Stored.ID, Record: in(changed), Reason: "test"}); kind(err) != ledger.Refused {
 		t.Errorf("a correction of a voided shipment: %v; want Refused", err)
+	}
+}
+
+func TestClosingAYearTwiceAndReopeningAnOpenOneAreRefused(t *testing.T) {
+	w := newWorkflow(t)
+	ctx := context.Background()
+	if _, err := w.s.CloseYear(ctx, 2025, "reported"); err != nil {
+		t.Fatal(err)
+	}
+	var fe *ledger.FieldError
+	if _, err := w.s.CloseYear(ctx, 2025, "again"); !errors.As(err, &fe) || fe.Kind != ledger.Refused || fe.Violations[0].Field != "year" {
+		t.Errorf("closing 2025 again: %v; want a Refused FieldError on year", err)
+	}
+	if err := w.s.ReopenYear(ctx, 2024, "never closed"); !errors.As(err, &fe) || fe.Kind != ledger.Refused {
+		t.Errorf("reopening 2024, never closed: %v; want a Refused FieldError", err)
+	}
+	if err := w.s.ReopenYear(ctx, 2025, "a correction is due"); err != nil {
+		t.Errorf("reopening 2025: %v", err)
 	}
 }

@@ -386,14 +386,11 @@ func (x *shipmentServer) CloseYear(ctx context.Context, req *halovetv1.CloseYear
 	if vs := yearReasonViolations(req.GetYear(), req.GetReason()); len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	c, err := x.srv.store.CloseYear(ctx, int(req.GetYear()), strings.TrimSpace(req.GetReason()))
-	if errors.Is(err, store.ErrYearState) {
-		return nil, failed(fieldViolation{"year", fmt.Sprintf("reporting year %d is closed already", req.GetYear())})
-	}
+	c, err := x.srv.ships.CloseYear(ctx, int(req.GetYear()), strings.TrimSpace(req.GetReason()))
 	if err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
-	return &halovetv1.CloseYearResponse{ClosedYear: closedYearToProto(c)}, nil
+	return &halovetv1.CloseYearResponse{ClosedYear: closedYearToProto(store.ClosedYear(c))}, nil
 }
 
 // ReopenYear reopens a closed reporting year.
@@ -401,11 +398,7 @@ func (x *shipmentServer) ReopenYear(ctx context.Context, req *halovetv1.ReopenYe
 	if vs := yearReasonViolations(req.GetYear(), req.GetReason()); len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	err := x.srv.store.ReopenYear(ctx, int(req.GetYear()), strings.TrimSpace(req.GetReason()))
-	if errors.Is(err, store.ErrYearState) {
-		return nil, failed(fieldViolation{"year", fmt.Sprintf("reporting year %d is not closed", req.GetYear())})
-	}
-	if err != nil {
+	if err := x.srv.ships.ReopenYear(ctx, int(req.GetYear()), strings.TrimSpace(req.GetReason())); err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
 	return &halovetv1.ReopenYearResponse{}, nil

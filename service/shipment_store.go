@@ -2,6 +2,8 @@ package service
 
 import (
 	"context"
+	"errors"
+	"fmt"
 
 	"github.com/halovet/halovet/ledger"
 	"github.com/halovet/halovet/store"
@@ -79,6 +81,27 @@ func (r shipmentRegister) VoidShipment(ctx context.Context, id int64, reason str
 		return ledger.Shipment{}, err
 	}
 	return shipmentFromStore(got), nil
+}
+
+func (r shipmentRegister) CloseYear(ctx context.Context, year int, reason string) (ledger.ClosedYear, error) {
+	c, err := r.st.CloseYear(ctx, year, reason)
+	if err != nil {
+		return ledger.ClosedYear{}, yearStateError(err)
+	}
+	return ledger.ClosedYear{Year: c.Year, ClosedAt: c.ClosedAt, ClosedBy: c.ClosedBy, Reason: c.Reason}, nil
+}
+
+func (r shipmentRegister) ReopenYear(ctx context.Context, year int, reason string) error {
+	return yearStateError(r.st.ReopenYear(ctx, year, reason))
+}
+
+// yearStateError marks the store's refusal of a year already closed (or not closed) as
+// the workflows' ErrYearState, keeping the store's error beside it.
+func yearStateError(err error) error {
+	if errors.Is(err, store.ErrYearState) {
+		return fmt.Errorf("%w: %w", ledger.ErrYearState, err)
+	}
+	return err
 }
 
 func shipmentFromStore(x store.StoredShipment) ledger.Shipment {
