@@ -84,12 +84,6 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
 	return out
 }
 
-// findingFor builds a finding for an outcome the store decided at commit time.
-func findingFor(code, field, msg string) validate.Finding {
-	info, _ := validate.LookupCode(code)
-	return validate.Finding{Code: code, Severity: info.Severity, Field: field, Message: msg}
-}
-
 // recordJSON gives a wire record in the form the register keeps it (ShipmentRow.RecordJSON).
 func recordJSON(p *halovetv1.ShipmentRecord) func() ([]byte, error) {
 	return func() ([]byte, error) { return protojson.Marshal(p) }
