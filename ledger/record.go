@@ -13,7 +13,7 @@ import (
 
 // pendingRecord is a checked record waiting to be written.
 type pendingRecord struct {
-	in       Incoming
+	in       incoming
 	single   bool // came alone in its message: answered with a lone verdict
 	rec      validate.Record
 	verdict  validate.Verdict
@@ -38,8 +38,11 @@ type windowEntry struct {
 	recorded    bool   // the record was stored
 }
 
+// incoming is record i of a stream message.
 type incoming struct {
-	in     Incoming
+	rec    validate.Record
+	encode func(i int) ([]byte, error) // the message's Encode
+	i      int
 	single bool
 }
 
@@ -87,9 +90,9 @@ func (s *Shipments) RecordStream(ctx context.Context, who Caller, stream Verdict
 				recvErr <- m.Err
 				return
 			}
-			for _, in := range m.Records {
+			for i := range m.Records {
 				select {
-				case recv <- incoming{in: in, single: m.Single}:
+				case recv <- incoming{rec: m.Records[i], encode: m.Encode, i: i, single: m.Single}:
 				case <-ctx.Done():
 					return
 				}
@@ -104,6 +107,7 @@ func (s *Shipments) RecordStream(ctx context.Context, who Caller, stream Verdict
 	writerDone := make(chan struct{})
 	stored := validate.NewKeyWindow[windowEntry](validate.DuplicateWindow) // the writer's: whether each key was stored
 	left := streamBalances{}                                               // the writer's: what the stream's last draw left on each line
+	var answers []Answer                                                   // the writer's: reused from batch to batch
 	go func() {
 		defer close(writerDone)
 		for batch := range toWrite {
@@ -122,7 +126,7 @@ func (s *Shipments) RecordStream(ctx context.Context, who Caller, stream Verdict
 					stored.Put(p.keyHash, windowEntry{recorded: p.recorded})
 				}
 			}
-			if err := sendRecorded(stream, batch, &sum); err != nil {
+			if err := sendRecorded(stream, batch, &sum, &answers); err != nil {
 				writeErr <- err
 				cancel()
 				return
@@ -201,8 +205,8 @@ func (s *Shipments) RecordStream(ctx context.Context, who Caller, stream Verdict
 // judge checks one record of a recording stream against the register as it stands now,
 // and against the keys seen earlier in the stream.
 func (s *Shipments) judge(ctx context.Context, who Caller, pinned *PinnedBalances, seen *validate.KeyWindow[windowEntry], in incoming) (*pendingRecord, error) {
-	p := &pendingRecord{in: in.in, single: in.single, rec: in.in.Record}
-	env, err := s.envFor(ctx, who, &p.rec)
+	p := &pendingRecord{in: in, single: in.single, rec: in.rec}
+	env, err := s.envFor(ctx, who, []validate.Record{p.rec})
 	if err != nil {
 		return nil, err
 	}
@@ -226,7 +230,7 @@ func (s *Shipments) judge(ctx context.Context, who Caller, pinned *PinnedBalance
 		}
 	}
 	if p.verdict.Outcome != validate.OutcomeRejected && !p.streamDup {
-		p.row, p.rowErr = shipmentRow(&p.in, &p.rec, &p.verdict)
+		p.row, p.rowErr = shipmentRow(p.encoded, &p.rec, &p.verdict)
 		p.row.VerdictOnStore = func(res RecordResult) []byte { return p.storedVerdict(s.codec, res) }
 	}
 	return p, nil
@@ -234,27 +238,31 @@ func (s *Shipments) judge(ctx context.Context, who Caller, pinned *PinnedBalance
 
 // sendRecorded answers a written batch: a record that came alone in its message gets a
 // lone answer, consecutive records of multi-record messages are answered together.
-func sendRecorded(stream VerdictStream, batch []*pendingRecord, sum *Summary) error {
-	var group []Answer
+func sendRecorded(stream VerdictStream, batch []*pendingRecord, sum *Summary, buf *[]Answer) error {
+	group := (*buf)[:0]
+	defer func() { *buf = group[:0] }()
 	flushGroup := func() error {
 		if len(group) == 0 {
 			return nil
 		}
 		err := stream.Send(group, false)
-		group = nil
+		group = group[:0]
 		return err
 	}
 	for _, p := range batch {
-		a := p.recordedAnswer()
-		sum.Add(&a)
 		if !p.single {
-			group = append(group, a)
+			group = append(group, p.recordedAnswer())
+			sum.Add(&group[len(group)-1])
 			continue
 		}
 		if err := flushGroup(); err != nil {
 			return err
 		}
-		if err := stream.Send([]Answer{a}, true); err != nil {
+		group = append(group, p.recordedAnswer())
+		sum.Add(&group[0])
+		err := stream.Send(group, true)
+		group = group[:0]
+		if err != nil {
 			return err
 		}
 	}
@@ -270,6 +278,14 @@ func judgeByStored(p *pendingRecord, m validate.KeyMatch) {
 	if m == validate.KeyReplay {
 		p.verdict.Replayed, p.recorded = true, true
 	}
+}
+
+// encoded is the record as the register keeps it.
+func (p *pendingRecord) encoded() ([]byte, error) {
+	if p.in.encode == nil {
+		return nil, errors.New("the stream gives no stored form of its records")
+	}
+	return p.in.encode(p.in.i)
 }
 
 func (p *pendingRecord) recordedAnswer() Answer {
@@ -332,8 +348,14 @@ func (s *Shipments) commit(ctx context.Context, batch []*pendingRecord, left str
 			return err
 		}
 	}
-	var rows []ShipmentRow
-	var idx []*pendingRecord
+	n := 0
+	for _, p := range batch {
+		if !p.streamDup && p.verdict.Outcome != validate.OutcomeRejected {
+			n++
+		}
+	}
+	rows := make([]ShipmentRow, 0, n)
+	idx := make([]*pendingRecord, 0, n)
 	for _, p := range batch {
 		switch {
 		case p.streamDup:

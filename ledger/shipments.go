@@ -259,17 +259,12 @@ func (s *Summary) Add(a *Answer) {
 	}
 }
 
-// Incoming is one record of a stream message.
-type Incoming struct {
-	Record validate.Record
-	// Encode gives the record in the form the register keeps (asked only for a record to
-	// be stored).
-	Encode func() ([]byte, error)
-}
-
 // Message is one message of a stream.
 type Message struct {
-	Records []Incoming
+	Records []validate.Record
+	// Encode gives record i in the form the register keeps (ShipmentRow.RecordJSON); asked
+	// only for a record to be stored, so a check stream may leave it nil.
+	Encode func(i int) ([]byte, error)
 	// Single: the record came alone in its message and is answered alone.
 	Single bool
 	// Err, when set, is why the wire layer refused the message: the stream ends with it at
@@ -281,7 +276,8 @@ type Message struct {
 type VerdictStream interface {
 	// Recv returns the next message; io.EOF when the client has closed its side.
 	Recv() (Message, error)
-	// Send answers records of a stream: one record's lone answer (single), or several.
+	// Send answers records of a stream: one record's lone answer (single), or several. The
+	// slice is the caller's again when Send returns (a recording stream reuses it).
 	Send(answers []Answer, single bool) error
 	// Close sends the closing summary.
 	Close(Summary) error
@@ -373,14 +369,14 @@ func (s *Shipments) changed(ctx context.Context, c Change) {
 // licence number costs one query, a known one none. For a company-scoped caller, a record
 // naming another company's licence is refused (its verdict would show that licence's
 // status, validity and remaining quota).
-func (s *Shipments) envFor(ctx context.Context, who Caller, recs ...*validate.Record) (*validate.Env, error) {
+func (s *Shipments) envFor(ctx context.Context, who Caller, recs []validate.Record) (*validate.Env, error) {
 	env, err := s.env.Current(ctx)
 	if err != nil {
 		return nil, err
 	}
 	var missing []string
-	for _, r := range recs {
-		n := strings.TrimSpace(r.LicenceNumber)
+	for i := range recs {
+		n := strings.TrimSpace(recs[i].LicenceNumber)
 		if n == "" || contains(missing, n) {
 			continue
 		}
@@ -399,8 +395,8 @@ func (s *Shipments) envFor(ctx context.Context, who Caller, recs ...*validate.Re
 	if !who.Scoped {
 		return env, nil
 	}
-	for i, r := range recs {
-		n := strings.TrimSpace(r.LicenceNumber)
+	for i := range recs {
+		n := strings.TrimSpace(recs[i].LicenceNumber)
 		if n == "" {
 			continue
 		}
@@ -505,16 +501,15 @@ func kindText(k substances.Kind) string {
 }
 
 // shipmentRow turns an accepted verdict into the row the register records.
-func shipmentRow(in *Incoming, r *validate.Record, v *validate.Verdict) (ShipmentRow, error) {
+// encode gives the record as the register keeps it.
+func shipmentRow(encode func() ([]byte, error), r *validate.Record, v *validate.Verdict) (ShipmentRow, error) {
 	date, err := validate.ParseDate(r.DeclarationDate)
 	if err != nil {
 		return ShipmentRow{}, err
 	}
-	var js []byte
-	if in.Encode != nil {
-		if js, err = in.Encode(); err != nil {
-			return ShipmentRow{}, err
-		}
+	js, err := encode()
+	if err != nil {
+		return ShipmentRow{}, err
 	}
 	f := &v.Figures
 	row := ShipmentRow{CompanyID: strings.TrimSpace(r.CompanyID), RecordKey: strings.TrimSpace(r.Key),

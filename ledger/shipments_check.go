@@ -19,18 +19,19 @@ func (s *Shipments) Ready(ctx context.Context) error {
 // CheckOne checks one record against the register as it stands; nothing is stored. A
 // record recorded already is answered by what was recorded.
 func (s *Shipments) CheckOne(ctx context.Context, who Caller, r validate.Record) (Answer, error) {
-	env, err := s.envFor(ctx, who, &r)
+	one := []validate.Record{r}
+	env, err := s.envFor(ctx, who, one)
 	if err != nil {
 		return Answer{}, err
 	}
-	known, err := s.storedFor(ctx, []validate.Record{r})
+	known, err := s.storedFor(ctx, one)
 	if err != nil {
 		return Answer{}, err
 	}
-	if a, ok, err := known.answer(s.codec, 0, env, &r); ok || err != nil {
+	if a, ok, err := known.answer(s.codec, 0, env, &one[0]); ok || err != nil {
 		return a, err
 	}
-	return Answer{Verdict: validate.Check(env, &r, validate.NewMemoryLedger())}, nil
+	return Answer{Verdict: validate.Check(env, &one[0], validate.NewMemoryLedger())}, nil
 }
 
 // storedRecords is what the register holds of the keys of the records of one check
@@ -74,10 +75,11 @@ func (s *Shipments) storedFor(ctx context.Context, recs []validate.Record) (stor
 // CorrectShipment). false: the key is not stored.
 func (k storedRecords) answer(codec VerdictCodec, i int, env *validate.Env, r *validate.Record) (Answer, bool, error) {
 	vs := k[i]
+	if len(vs) == 0 { // the key is not stored: no fingerprint needed
+		return Answer{}, false, nil
+	}
 	m, at := validate.MatchKey(vs, refFingerprint, validate.Fingerprint(r))
 	switch m {
-	case validate.KeyNew:
-		return Answer{}, false, nil
 	case validate.KeyReplay:
 		ref := vs[at]
 		a := Answer{Recorded: true, Replayed: true, Stored: &ref, Notice: &validate.Finding{Code: validate.CodeDupReplay, Severity: validate.SeverityNotice,
@@ -222,13 +224,8 @@ check:
 // every core (Batch.CheckAll: the same verdicts as one at a time; quota and keys are
 // settled in order).
 func (s *Shipments) checkMessage(ctx context.Context, who Caller, batch *validate.Batch, m Message) ([]Answer, error) {
-	recs := make([]validate.Record, len(m.Records))
-	ptrs := make([]*validate.Record, len(m.Records))
-	for i := range m.Records {
-		recs[i] = m.Records[i].Record
-		ptrs[i] = &recs[i]
-	}
-	env, err := s.envFor(ctx, who, ptrs...)
+	recs := m.Records
+	env, err := s.envFor(ctx, who, recs)
 	if err != nil {
 		return nil, err
 	}
@@ -238,14 +235,13 @@ func (s *Shipments) checkMessage(ctx context.Context, who Caller, batch *validat
 		return nil, err
 	}
 	out := make([]Answer, len(recs))
-	given := make([]bool, len(recs))
 	rs := make([]validate.Record, 0, len(recs))
 	at := make([]int, 0, len(recs))
 	for i := range recs {
 		if a, ok, err := known.answer(s.codec, i, env, &recs[i]); err != nil {
 			return nil, err
 		} else if ok {
-			out[i], given[i] = a, true
+			out[i] = a
 			continue
 		}
 		rs = append(rs, recs[i])

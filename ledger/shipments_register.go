@@ -14,7 +14,9 @@ type Correction struct {
 	// ShipmentID is the live shipment corrected; 0 finds the live one of the record's
 	// company and key.
 	ShipmentID int64
-	Record     Incoming
+	Record     validate.Record
+	// Encode gives the record in the form the register keeps (ShipmentRow.RecordJSON).
+	Encode func() ([]byte, error)
 	Reason     string // trimmed, checked by the caller
 }
 
@@ -29,7 +31,7 @@ type Corrected struct {
 // with the old version's draws given back, at the new version's own draw. The error is a
 // FieldError, or the register's.
 func (s *Shipments) CorrectShipment(ctx context.Context, who Caller, c Correction) (Corrected, error) {
-	rec := c.Record.Record
+	rec := c.Record
 	k := recordKey(&rec)
 	id := c.ShipmentID
 	if id == 0 {
@@ -56,7 +58,7 @@ func (s *Shipments) CorrectShipment(ctx context.Context, who Caller, c Correctio
 		return Corrected{}, refuse(Invalid, Violation{"record.record_key", fmt.Sprintf("a correction keeps the company and key of shipment %d (%s, %s); got (%s, %s)",
 			id, cur.CompanyID, cur.RecordKey, k[0], k[1])})
 	}
-	env, err := s.envFor(ctx, who, &rec)
+	env, err := s.envFor(ctx, who, []validate.Record{rec})
 	if err != nil {
 		return Corrected{}, err
 	}
@@ -67,7 +69,7 @@ func (s *Shipments) CorrectShipment(ctx context.Context, who Caller, c Correctio
 	if v.Fingerprint == cur.Fingerprint {
 		return Corrected{}, refuse(Invalid, Violation{"record", fmt.Sprintf("is the same as shipment %d as recorded; a correction changes something", id)})
 	}
-	row, err := shipmentRow(&c.Record, &rec, &v)
+	row, err := shipmentRow(c.Encode, &rec, &v)
 	if err != nil {
 		return Corrected{}, fmt.Errorf("%w: record %q: %v", ErrRecordRow, rec.Key, err)
 	}

@@ -243,10 +243,8 @@ func (s *chanStream) Close(sum ledger.Summary) error {
 // send sends one message of the records and waits for as many answers.
 func (s *chanStream) send(t *testing.T, recs ...validate.Record) []ledger.Answer {
 	t.Helper()
-	m := ledger.Message{Single: len(recs) == 1}
-	for _, r := range recs {
-		m.Records = append(m.Records, ledger.Incoming{Record: r, Encode: func() ([]byte, error) { return json.Marshal(r) }})
-	}
+	m := ledger.Message{Single: len(recs) == 1, Records: recs,
+		Encode: func(i int) ([]byte, error) { return json.Marshal(recs[i]) }}
 	s.in <- m
 	var out []ledger.Answer
 	for len(out) < len(recs) {
@@ -498,7 +496,7 @@ func TestARegisterFailureEndsTheRecordingStreamWithIt(t *testing.T) {
 	lost := errors.New("database connection lost")
 	w.ships.fail = lost
 	s, done := w.open(ledger.Caller{}, true)
-	s.in <- ledger.Message{Single: true, Records: []ledger.Incoming{{Record: hcfc22("K-1"), Encode: func() ([]byte, error) { return []byte("{}"), nil }}}}
+	s.in <- ledger.Message{Single: true, Records: []validate.Record{hcfc22("K-1")}, Encode: func(int) ([]byte, error) { return []byte("{}"), nil }}
 	select {
 	case err := <-done:
 		if !errors.Is(err, lost) {
@@ -522,18 +520,18 @@ func TestCorrectionRefusals(t *testing.T) {
 		}
 		return 0
 	}
-	in := func(r validate.Record) ledger.Incoming {
-		return ledger.Incoming{Record: r, Encode: func() ([]byte, error) { return json.Marshal(r) }}
+	correction := func(id int64, r validate.Record) ledger.Correction {
+		return ledger.Correction{ShipmentID: id, Record: r, Encode: func() ([]byte, error) { return json.Marshal(r) }, Reason: "test"}
 	}
-	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, ledger.Correction{Record: in(hcfc22("K-1")), Reason: "test"}); kind(err) != ledger.Invalid {
+	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, correction(0, hcfc22("K-1"))); kind(err) != ledger.Invalid {
 		t.Errorf("a correction with the recorded content: %v; want Invalid", err)
 	}
-	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, ledger.Correction{Record: in(hcfc22("K-404")), Reason: "test"}); kind(err) != ledger.NotFound {
+	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, correction(0, hcfc22("K-404"))); kind(err) != ledger.NotFound {
 		t.Errorf("a correction of a key never recorded: %v; want NotFound", err)
 	}
 	other := hcfc22("K-2")
 	other.TotalQuantity = "50"
-	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, ledger.Correction{ShipmentID: first.Stored.ID, Record: in(other), Reason: "test"}); kind(err) != ledger.Invalid {
+	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, correction(first.Stored.ID, other)); kind(err) != ledger.Invalid {
 		t.Errorf("a correction changing the key: %v; want Invalid", err)
 	}
 	if _, err := w.s.VoidShipment(ctx, first.Stored.ID, "test"); err != nil {
@@ -541,7 +539,7 @@ func TestCorrectionRefusals(t *testing.T) {
 	}
 	changed := hcfc22("K-1")
 	changed.TotalQuantity = "50"
-	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, ledger.Correction{ShipmentID: first.Stored.ID, Record: in(changed), Reason: "test"}); kind(err) != ledger.Refused {
+	if _, err := w.s.CorrectShipment(ctx, ledger.Caller{}, correction(first.Stored.ID, changed)); kind(err) != ledger.Refused {
 		t.Errorf("a correction of a voided shipment: %v; want Refused", err)
 	}
 }

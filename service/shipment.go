@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"strings"
 
+	"google.golang.org/protobuf/encoding/protojson"
+
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/validate"
@@ -139,9 +141,12 @@ func (in *streamIn) message(one *halovetv1.ShipmentRecord, more []*halovetv1.Shi
 		return m
 	}
 	in.records += int64(len(recs))
-	m.Records = make([]ledger.Incoming, len(recs))
+	m.Records = make([]validate.Record, len(recs))
 	for i, pb := range recs {
-		m.Records[i] = ledger.Incoming{Record: recordFromProto(pb), Encode: recordJSON(pb)}
+		m.Records[i] = recordFromProto(pb)
+	}
+	if in.recording {
+		m.Encode = func(i int) ([]byte, error) { return protojson.Marshal(recs[i]) }
 	}
 	return m
 }

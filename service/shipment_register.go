@@ -348,8 +348,8 @@ func (x *shipmentServer) CorrectShipment(ctx context.Context, req *halovetv1.Cor
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	rec := ledger.Incoming{Record: recordFromProto(req.GetRecord()), Encode: recordJSON(req.GetRecord())}
-	c, err := x.srv.ships.CorrectShipment(ctx, ledgerCaller(ctx), ledger.Correction{ShipmentID: req.GetShipmentId(), Record: rec, Reason: strings.TrimSpace(req.GetReason())})
+	c, err := x.srv.ships.CorrectShipment(ctx, ledgerCaller(ctx), ledger.Correction{ShipmentID: req.GetShipmentId(),
+		Record: recordFromProto(req.GetRecord()), Encode: recordJSON(req.GetRecord()), Reason: strings.TrimSpace(req.GetReason())})
 	if err != nil {
 		return nil, x.srv.registerError(ctx, err, "shipment_id")
 	}
