@@ -17,7 +17,7 @@ type Correction struct {
 	Record     validate.Record
 	// Encode gives the record in the form the register keeps (ShipmentRow.RecordJSON).
 	Encode func() ([]byte, error)
-	Reason     string // trimmed, checked by the caller
+	Reason string // trimmed, checked by the caller
 }
 
 // Corrected is the outcome of a correction: the new version's answer and id.

@@ -237,28 +237,37 @@ func (s *Server) shipmentFilter(req *halovetv1.ListShipmentsRequest) (store.Ship
 	return f, vs
 }
 
-// ListShipments lists recorded shipments, a page at a time.
-func (x *shipmentServer) ListShipments(ctx context.Context, req *halovetv1.ListShipmentsRequest) (*halovetv1.ListShipmentsResponse, error) {
-	f, vs := x.srv.shipmentFilter(req)
+// listFilter decodes a ListShipments request: the filter, the page it continues from,
+// and, for a trader, its own company (a trader sees its own company's records only).
+func (s *Server) listFilter(ctx context.Context, req *halovetv1.ListShipmentsRequest) (store.ShipmentFilter, error) {
+	f, vs := s.shipmentFilter(req)
 	if len(vs) > 0 {
-		return nil, invalid(vs...)
+		return f, invalid(vs...)
 	}
 	if tok := req.GetPageToken(); tok != "" {
-		after, err := x.srv.openPageToken(ctx, "shipments", filterHash(req), tok)
+		after, err := s.openPageToken(ctx, "shipments", filterHash(req), tok)
 		if errors.Is(err, errPageToken) {
-			return nil, invalid(fieldViolation{"page_token", err.Error()})
+			return f, invalid(fieldViolation{"page_token", err.Error()})
 		}
 		if err != nil {
-			return nil, toStatus(ctx, x.srv.log, err)
+			return f, toStatus(ctx, s.log, err)
 		}
 		f.AfterID = after
 	}
-	// A trader sees its own company's records only.
 	if own, scoped := callCompany(ctx); scoped {
 		if f.CompanyID != "" && f.CompanyID != own {
-			return nil, outOfScope("company_id", f.CompanyID, own)
+			return f, outOfScope("company_id", f.CompanyID, own)
 		}
 		f.CompanyID = own
+	}
+	return f, nil
+}
+
+// ListShipments lists recorded shipments, a page at a time.
+func (x *shipmentServer) ListShipments(ctx context.Context, req *halovetv1.ListShipmentsRequest) (*halovetv1.ListShipmentsResponse, error) {
+	f, err := x.srv.listFilter(ctx, req)
+	if err != nil {
+		return nil, err
 	}
 	limit := f.Limit
 	f.Limit = limit + 1 // one more tells whether there is a next page
