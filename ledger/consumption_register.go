@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"github.com/halovet/halovet/terms"
-	"time"
 
 	"github.com/halovet/halovet/controls"
 )
@@ -54,14 +53,6 @@ type ShipmentLine struct {
 	PartnerNonParty bool
 	Tonnes          float64
 	ShipmentIDs     []int64
-}
-
-// ClosedYear says when and why a reporting year was closed.
-type ClosedYear struct {
-	Year     int
-	ClosedAt time.Time
-	ClosedBy string
-	Reason   string
 }
 
 // HFC23Entry is one facility's HFC-23 by-product in one year, metric tonnes.

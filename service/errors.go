@@ -43,6 +43,8 @@ func invalid(vs ...fieldViolation) error {
 // store's kinds of error become codes. SQL text never reaches the caller; it is logged,
 // with the call's logger when there is one (it names the request id).
 //
+//	*ledger.FieldError     InvalidArgument, FailedPrecondition, PermissionDenied or NotFound, by kind, naming the fields
+//	ledger.ErrNotConfigured FailedPrecondition, saying how to set the register up
 //	store.ErrNotFound      NotFound           (ErrorInfo NOT_FOUND)
 //	store.ErrAlreadyExists AlreadyExists      (ErrorInfo ALREADY_EXISTS)
 //	store.ErrConflict      FailedPrecondition (ErrorInfo CONFLICT)
@@ -68,7 +70,12 @@ func toStatus(ctx context.Context, log *slog.Logger, err error) error {
 		}
 		return st.Err()
 	}
+	var fe *ledger.FieldError
 	switch {
+	case errors.As(err, &fe):
+		return fieldErrorStatus(fe)
+	case errors.Is(err, ledger.ErrNotConfigured):
+		return status.Error(codes.FailedPrecondition, err.Error()+" (LicensingService.SetReportingParty, 'halovet reporting-party CODE', or 'halovet load FILE' on an empty register)")
 	case errors.Is(err, context.Canceled):
 		return status.Error(codes.Canceled, "call cancelled")
 	case errors.Is(err, context.DeadlineExceeded):
@@ -91,6 +98,23 @@ func toStatus(ctx context.Context, log *slog.Logger, err error) error {
 	}
 	log.ErrorContext(ctx, "internal error", "err", err)
 	return status.Error(codes.Internal, "internal error; the server log has the details")
+}
+
+// fieldErrorStatus is the status of a workflow's refusal naming fields.
+func fieldErrorStatus(fe *ledger.FieldError) error {
+	vs := make([]fieldViolation, len(fe.Violations))
+	for i, v := range fe.Violations {
+		vs[i] = fieldViolation{v.Field, v.Why}
+	}
+	switch fe.Kind {
+	case ledger.Refused:
+		return failed(vs...)
+	case ledger.Denied:
+		return denied(vs[0].field, vs[0].why)
+	case ledger.NotFound:
+		return notFoundStatus(fe.Error())
+	}
+	return invalid(vs...)
 }
 
 func notFoundStatus(msg string) error {

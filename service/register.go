@@ -2,91 +2,15 @@ package service
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"slices"
-	"strings"
 	"time"
 
-	"google.golang.org/grpc/codes"
-	"google.golang.org/grpc/status"
-
 	"github.com/halovet/halovet/ledger"
-	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
 )
-
-// checkEnv returns the environment to judge a record against now, or the status that
-// says why there is none.
-func (s *Server) checkEnv(ctx context.Context) (*validate.Env, error) {
-	env, err := s.env.Current(ctx)
-	switch {
-	case err == nil:
-		return env, nil
-	case errors.Is(err, ledger.ErrNotConfigured):
-		return nil, status.Error(codes.FailedPrecondition, err.Error()+" (LicensingService.SetReportingParty, 'halovet reporting-party CODE', or 'halovet load FILE' on an empty register)")
-	}
-	return nil, toStatus(ctx, s.log, err)
-}
-
-// checkEnvFor is checkEnv for judging these records. A licence they name that the
-// snapshot does not hold may have been issued on another replica a moment ago, before its
-// announcement reached this one, so it is looked up in the register before the records are
-// judged: an unknown licence number costs one query, a known one none.
-func (s *Server) checkEnvFor(ctx context.Context, recs ...*halovetv1.ShipmentRecord) (*validate.Env, error) {
-	env, err := s.checkEnv(ctx)
-	if err != nil {
-		return nil, err
-	}
-	var missing []string
-	for _, r := range recs {
-		n := strings.TrimSpace(r.GetLicenceNumber())
-		if n == "" || slices.Contains(missing, n) {
-			continue
-		}
-		if _, ok := env.Licence(n); !ok {
-			missing = append(missing, n)
-		}
-	}
-	if len(missing) > 0 {
-		if err := s.env.Refresh(ctx, ledger.Change{Licences: missing}); err != nil {
-			return nil, toStatus(ctx, s.log, err)
-		}
-		if env, err = s.checkEnv(ctx); err != nil {
-			return nil, err
-		}
-	}
-	if err := licencesInScope(ctx, env, recs); err != nil {
-		return nil, err
-	}
-	return env, nil
-}
-
-// licencesInScope refuses, for a company-scoped caller (a trader), a record naming a
-// licence another company holds: its verdict would show that licence's status, validity
-// and remaining quota.
-func licencesInScope(ctx context.Context, env *validate.Env, recs []*halovetv1.ShipmentRecord) error {
-	own, scoped := callCompany(ctx)
-	if !scoped {
-		return nil
-	}
-	for i, r := range recs {
-		n := strings.TrimSpace(r.GetLicenceNumber())
-		if n == "" {
-			continue
-		}
-		if lic, ok := env.Licence(n); ok && lic != nil && lic.CompanyID != own {
-			field := "record.licence_number"
-			if len(recs) > 1 {
-				field = fmt.Sprintf("records[%d].licence_number", i)
-			}
-			return denied(field, fmt.Sprintf("licence %s is held by another company; a trader's credential reaches its own company's licences only", n))
-		}
-	}
-	return nil
-}
 
 // registerChanged brings this server's check environment up to a change it has just
 // written, so that its next check sees the change; the other replicas follow the

@@ -356,3 +356,132 @@ func TestReplicaReloadsAfterItsListenerIsCut(t *testing.T) {
 		return got == catalogueCorrectedLifetime, fmt.Sprintf("lifetime %v", got)
 	})
 }
+
+// A recording stream open on replica B since before each change judges its next record on
+// the licence's terms as amended through A (scope, company, validity, direction) and on the
+// partner's status as changed through A; a stream B opens after the change sees it from
+// its first record. Codes: LICENCE_SCOPE, LICENCE_COMPANY, LICENCE_EXPIRED,
+// LICENCE_DIRECTION, PARTNER_NON_PARTY (validate/codes.go).
+func TestAmendmentsReachAnOpenRecordingStreamOnTheOtherReplica(t *testing.T) {
+	connA, st, _ := startServerWith(t, service.Options{Now: registerNow})
+	ctx := context.Background()
+	loadRegister(t, connA)
+	lic := halovetv1.NewLicensingServiceClient(connA)
+	if _, err := lic.RegisterCompany(ctx, &halovetv1.RegisterCompanyRequest{Company: &halovetv1.Company{CompanyId: "XA-7002", Name: "Second importer (invented)", CountryCode: "XA"}}); err != nil {
+		t.Fatal(err)
+	}
+	// A second licence of the same company, for the stream's first record: the amended
+	// licence keeps no draws, so that its scope, company and validity may be amended.
+	other := registerLicence(halovetv1.Direction_DIRECTION_IMPORT)
+	other.LicenceNumber = "XA-IMP-2026-702"
+	if _, err := lic.IssueLicence(ctx, &halovetv1.IssueLicenceRequest{Reason: "test", Licence: other}); err != nil {
+		t.Fatal(err)
+	}
+	connB, _ := startSecondServer(t, st)
+	shipB := halovetv1.NewShipmentServiceClient(connB)
+	record, err := shipB.RecordShipments(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := 0
+	streamRecordOn := func(licence string) *halovetv1.Verdict {
+		t.Helper()
+		n++
+		r := registerRecord(fmt.Sprintf("R-%d", n))
+		r.LicenceNumber = licence
+		if err := record.Send(&halovetv1.RecordShipmentsRequest{Record: r}); err != nil {
+			t.Fatal(err)
+		}
+		m, err := record.Recv()
+		if err != nil {
+			t.Fatal(err)
+		}
+		return m.GetVerdict()
+	}
+	streamRecord := func() *halovetv1.Verdict { t.Helper(); return streamRecordOn(regLicence) }
+	// newStreamHas checks the record as the first of a stream B opens now.
+	newStreamHas := func(code string) (bool, string) {
+		s, err := shipB.CheckShipments(ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := s.Send(&halovetv1.CheckShipmentsRequest{Record: registerRecord("N-1")}); err != nil {
+			t.Fatal(err)
+		}
+		m, err := s.Recv()
+		if err != nil {
+			t.Fatal(err)
+		}
+		_ = s.CloseSend()
+		for {
+			if _, err := s.Recv(); err != nil {
+				break
+			}
+		}
+		v := m.GetVerdict()
+		return slices.Contains(findingCodes(v), code), joinCodes(v)
+	}
+	amend := func(why string, l *halovetv1.Licence) {
+		t.Helper()
+		if _, err := lic.AmendLicence(ctx, &halovetv1.AmendLicenceRequest{Reason: why, Licence: l}); err != nil {
+			t.Fatalf("amend (%s): %v", why, err)
+		}
+	}
+	if v := streamRecordOn(other.LicenceNumber); !v.GetRecorded() {
+		t.Fatalf("open recording stream before any change: %s, not recorded", joinCodes(v))
+	}
+	scope := registerLicence(halovetv1.Direction_DIRECTION_IMPORT)
+	scope.QuotaLines[0].AnnexGroup = "A/I" // HCFC-22 is Annex C Group I: no line covers it now
+	company := registerLicence(halovetv1.Direction_DIRECTION_IMPORT)
+	company.CompanyId = "XA-7002"
+	validity := registerLicence(halovetv1.Direction_DIRECTION_IMPORT)
+	validity.ValidTo = "2026-06-01" // the record is declared on 2026-06-15
+	changes := []struct {
+		name, code string
+		licence    *halovetv1.Licence
+	}{
+		{"scope", "LICENCE_SCOPE", scope},
+		{"company", "LICENCE_COMPANY", company},
+		{"validity", "LICENCE_EXPIRED", validity},
+		{"direction", "LICENCE_DIRECTION", registerLicence(halovetv1.Direction_DIRECTION_EXPORT)},
+	}
+	for _, c := range changes {
+		amend(c.name, c.licence)
+		// Once B has the announcement (its unary check sees it), the very next record of
+		// the stream B opened before the change is judged on the new terms, and so is the
+		// first record of a stream B opens now.
+		within(t, 5*time.Second, "replica B's unary check sees the amended "+c.name, func() (bool, string) { return unaryHas(t, connB, c.code) })
+		if v := streamRecord(); v.GetRecorded() || !slices.Contains(findingCodes(v), c.code) {
+			t.Errorf("replica B's open recording stream after the amended %s: recorded %v %s; want not recorded, %s", c.name, v.GetRecorded(), joinCodes(v), c.code)
+		}
+		if ok, seen := newStreamHas(c.code); !ok {
+			t.Errorf("a stream replica B opens after the amended %s: %s; want %s", c.name, seen, c.code)
+		}
+		amend("restored after "+c.name, registerLicence(halovetv1.Direction_DIRECTION_IMPORT))
+		within(t, 5*time.Second, "replica B's unary check accepts again after the "+c.name+" is restored", func() (bool, string) { return unaryHas(t, connB, "") })
+	}
+	xb := registerParties()[1]
+	xb.PartyType = halovetv1.PartyType_PARTY_TYPE_NON_PARTY
+	xb.BoundFrom = nil
+	if _, err := lic.PutParty(ctx, &halovetv1.PutPartyRequest{Party: xb}); err != nil {
+		t.Fatal(err)
+	}
+	within(t, 5*time.Second, "replica B's unary check sees the partner as a non-party", func() (bool, string) { return unaryHas(t, connB, "PARTNER_NON_PARTY") })
+	if v := streamRecord(); !slices.Contains(findingCodes(v), "PARTNER_NON_PARTY") {
+		t.Errorf("replica B's open recording stream after the party change: %s; want PARTNER_NON_PARTY", joinCodes(v))
+	}
+	if ok, seen := newStreamHas("PARTNER_NON_PARTY"); !ok {
+		t.Errorf("a stream replica B opens after the party change: %s; want PARTNER_NON_PARTY", seen)
+	}
+	if err := record.CloseSend(); err != nil {
+		t.Fatal(err)
+	}
+	for {
+		if _, err := record.Recv(); err != nil {
+			if !errors.Is(err, io.EOF) {
+				t.Errorf("closing the recording stream: %v", err)
+			}
+			break
+		}
+	}
+}

@@ -89,6 +89,7 @@ type Server struct {
 	env      *ledger.EnvHolder   // the check environment, rebuilt on every announced register change
 	cons     *ledger.Consumption // consumption, baselines, compliance and quota planning
 	figures  *ledger.Figures     // the reporting Party's national entries and year figures
+	ships    *ledger.Shipments   // the shipment workflows
 	limits   Limits
 	inFlight *limiter
 	auth     *access.Authenticator
@@ -130,6 +131,7 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
 	s.cons = ledger.NewConsumption(reportSource{st: st, today: s.today}, ledger.ConsumptionOptions{Catalogue: cat.Load, Drafts: reportSource{st: st, today: s.today}, Now: opts.Now})
 	s.figures = ledger.NewFigures(s.cons, figureWriter{st})
+	s.ships = ledger.NewShipments(s.env, shipmentRegister{st}, verdictCodec{}, ledger.ShipmentOptions{FlushSize: recordFlushSize, Logger: opts.Logger})
 	s.auth = opts.Authenticator
 	if s.auth == nil {
 		s.auth = access.NewAuthenticator(st, access.AuthOptions{Now: opts.Now})

@@ -1,7 +1,6 @@
 package service
 
 import (
-	"strings"
 	"sync"
 
 	"google.golang.org/protobuf/encoding/protojson"
@@ -86,49 +85,10 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
 	return out
 }
 
-// findingFor builds a finding for an outcome the store decided at commit time.
-func findingFor(code, field, msg string) validate.Finding {
-	info, _ := validate.LookupCode(code)
-	return validate.Finding{Code: code, Severity: info.Severity, Field: field, Message: msg}
+// recordJSON gives a wire record in the form the register keeps it (ShipmentRow.RecordJSON).
+func recordJSON(p *halovetv1.ShipmentRecord) func() ([]byte, error) {
+	return func() ([]byte, error) { return protojson.Marshal(p) }
 }
-
-func kindText(k substances.Kind) string {
-	if k == substances.KindBlend {
-		return "blend"
-	}
-	return "substance"
-}
-
-// shipmentRow turns an accepted verdict into the row the store records.
-func shipmentRow(p *halovetv1.ShipmentRecord, r *validate.Record, v *validate.Verdict) (store.ShipmentRow, error) {
-	date, err := validate.ParseDate(r.DeclarationDate)
-	if err != nil {
-		return store.ShipmentRow{}, err
-	}
-	js, err := protojson.Marshal(p)
-	if err != nil {
-		return store.ShipmentRow{}, err
-	}
-	f := &v.Figures
-	row := store.ShipmentRow{CompanyID: strings.TrimSpace(r.CompanyID), RecordKey: strings.TrimSpace(r.Key),
-		Fingerprint: v.Fingerprint, Direction: r.Direction.String(), LicenceNumber: strings.TrimSpace(r.LicenceNumber),
-		PartnerCountry: strings.ToUpper(strings.TrimSpace(r.PartnerCountry)), DeclarationDate: date,
-		ResolvedDesignation: f.Designation, EntryKind: kindText(f.Kind), Purpose: r.Purpose.String(),
-		Condition: r.Condition.String(), NetMassKg: store.ToNano(f.NetMassKg), ODPTonnes: store.ToNano(f.ODPTonnes),
-		CO2eTonnes: store.ToNano(f.CO2eTonnes), CountsInConsumption: f.CountsInConsumption,
-		PartnerNonParty: f.PartnerNonParty, RecordJSON: js}
-	for _, c := range f.Components {
-		row.Components = append(row.Components, store.ShipmentComponent{Designation: c.Designation, AnnexGroup: string(c.Group),
-			MassKg: store.ToNano(c.MassKg), ODPTonnes: store.ToNano(c.ODPTonnes), CO2eTonnes: store.ToNano(c.CO2eTonnes),
-			PartnerNonParty: ptr(c.Group != substances.GroupNone && !f.PartnerBoundFor(c.Group))})
-	}
-	for _, d := range v.Draws {
-		row.Draws = append(row.Draws, store.Draw{LicenceNumber: d.LicenceNumber, LineNumber: d.LineNumber, Amount: store.ToNano(d.Amount)})
-	}
-	return row, nil
-}
-
-func ptr[T any](v T) *T { return &v }
 
 // RecordFromProto maps a wire record to the checker's record, as the command line writes
 // a recorded shipment back into a batch file; RecordToProto is its inverse.

@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"strconv"
 	"strings"
 	"time"
 	"unicode/utf8"
@@ -77,12 +76,7 @@ func (s *Server) registerError(ctx context.Context, err error, idField string) e
 	return toStatus(ctx, s.log, err)
 }
 
-func rfc3339(t time.Time) string {
-	if t.IsZero() {
-		return ""
-	}
-	return t.UTC().Format(time.RFC3339Nano)
-}
+func rfc3339(t time.Time) string { return ledger.RFC3339(t) }
 
 var stateProto = map[string]halovetv1.ShipmentState{
 	store.StateLive:       halovetv1.ShipmentState_SHIPMENT_STATE_LIVE,
@@ -119,7 +113,7 @@ func encodeVerdict(v *halovetv1.Verdict) []byte {
 }
 
 // withStored marks a verdict with the stored shipment it is about.
-func withStored(v *halovetv1.Verdict, ref *store.StoredRef) {
+func withStored(v *halovetv1.Verdict, ref *ledger.StoredRef) {
 	v.ShipmentId, v.RecordedAt, v.State = ref.ID, rfc3339(ref.RecordedAt), stateProto[ref.State]
 }
 
@@ -133,7 +127,7 @@ func recordedToProto(x *store.StoredShipment) (*halovetv1.RecordedShipment, erro
 		return nil, fmt.Errorf("shipment %d: %w", x.ID, err)
 	}
 	if v != nil {
-		withStored(v, &store.StoredRef{ID: x.ID, State: x.State, RecordedAt: x.RecordedAt})
+		withStored(v, &ledger.StoredRef{ID: x.ID, State: x.State, RecordedAt: x.RecordedAt})
 		v.Recorded = true
 	}
 	out := &halovetv1.RecordedShipment{ShipmentId: x.ID, State: stateProto[x.State], Version: int32(x.Version),
@@ -244,28 +238,37 @@ func (s *Server) shipmentFilter(req *halovetv1.ListShipmentsRequest) (store.Ship
 	return f, vs
 }
 
-// ListShipments lists recorded shipments, a page at a time.
-func (x *shipmentServer) ListShipments(ctx context.Context, req *halovetv1.ListShipmentsRequest) (*halovetv1.ListShipmentsResponse, error) {
-	f, vs := x.srv.shipmentFilter(req)
+// listFilter decodes a ListShipments request: the filter, the page it continues from,
+// and, for a trader, its own company (a trader sees its own company's records only).
+func (s *Server) listFilter(ctx context.Context, req *halovetv1.ListShipmentsRequest) (store.ShipmentFilter, error) {
+	f, vs := s.shipmentFilter(req)
 	if len(vs) > 0 {
-		return nil, invalid(vs...)
+		return f, invalid(vs...)
 	}
 	if tok := req.GetPageToken(); tok != "" {
-		after, err := x.srv.openPageToken(ctx, "shipments", filterHash(req), tok)
+		after, err := s.openPageToken(ctx, "shipments", filterHash(req), tok)
 		if errors.Is(err, errPageToken) {
-			return nil, invalid(fieldViolation{"page_token", err.Error()})
+			return f, invalid(fieldViolation{"page_token", err.Error()})
 		}
 		if err != nil {
-			return nil, toStatus(ctx, x.srv.log, err)
+			return f, toStatus(ctx, s.log, err)
 		}
 		f.AfterID = after
 	}
-	// A trader sees its own company's records only.
 	if own, scoped := callCompany(ctx); scoped {
 		if f.CompanyID != "" && f.CompanyID != own {
-			return nil, outOfScope("company_id", f.CompanyID, own)
+			return f, outOfScope("company_id", f.CompanyID, own)
 		}
 		f.CompanyID = own
+	}
+	return f, nil
+}
+
+// ListShipments lists recorded shipments, a page at a time.
+func (x *shipmentServer) ListShipments(ctx context.Context, req *halovetv1.ListShipmentsRequest) (*halovetv1.ListShipmentsResponse, error) {
+	f, err := x.srv.listFilter(ctx, req)
+	if err != nil {
+		return nil, err
 	}
 	limit := f.Limit
 	f.Limit = limit + 1 // one more tells whether there is a next page
@@ -328,49 +331,16 @@ func (x *shipmentServer) VoidShipment(ctx context.Context, req *halovetv1.VoidSh
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	got, err := x.srv.store.VoidShipment(ctx, req.GetShipmentId(), strings.TrimSpace(req.GetReason()))
+	got, err := x.srv.ships.VoidShipment(ctx, req.GetShipmentId(), strings.TrimSpace(req.GetReason()))
 	if err != nil {
 		return nil, x.srv.registerError(ctx, err, "shipment_id")
 	}
-	x.srv.registerChanged(ctx, ledger.Change{Licences: drawnLicences(got.Draws)})
-	r, err := recordedToProto(&got)
+	row := got.Row.(store.StoredShipment)
+	r, err := recordedToProto(&row)
 	if err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
 	return &halovetv1.VoidShipmentResponse{Shipment: r}, nil
-}
-
-func drawnLicences(ds []store.StoredDraw) []string {
-	var out []string
-	for _, d := range ds {
-		if len(out) == 0 || out[len(out)-1] != d.LicenceNumber {
-			out = append(out, d.LicenceNumber)
-		}
-	}
-	return out
-}
-
-// verdictViolations lists a rejected verdict's errors as field violations of the record.
-func verdictViolations(v *validate.Verdict) []fieldViolation {
-	var vs []fieldViolation
-	for _, f := range v.Findings {
-		if f.Severity != validate.SeverityError {
-			continue
-		}
-		field := f.Field
-		if field == "" {
-			if info, ok := validate.LookupCode(f.Code); ok {
-				field = info.Field
-			}
-		}
-		if field == "" {
-			field = "record"
-		} else {
-			field = "record." + field
-		}
-		vs = append(vs, fieldViolation{field, f.Code + ": " + f.Message})
-	}
-	return vs
 }
 
 // CorrectShipment replaces a live recorded shipment by a corrected version.
@@ -388,81 +358,12 @@ func (x *shipmentServer) CorrectShipment(ctx context.Context, req *halovetv1.Cor
 	if len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	pb := req.GetRecord()
-	rec := recordFromProto(pb)
-	k := recordKey(&rec)
-	id := req.GetShipmentId()
-	if id == 0 {
-		if k[0] == "" || k[1] == "" {
-			return nil, invalid(fieldViolation{"shipment_id", "is 0 and the record has no company_id and record_key to find the shipment by"})
-		}
-		live, err := x.srv.store.ListShipments(ctx, store.ShipmentFilter{CompanyID: k[0], RecordKey: k[1], States: []string{store.StateLive}, Limit: 1})
-		if err != nil {
-			return nil, toStatus(ctx, x.srv.log, err)
-		}
-		if len(live) == 0 {
-			return nil, notFoundStatus(fmt.Sprintf("record: no live recorded shipment of company %q with record_key %q", k[0], k[1]))
-		}
-		id = live[0].ID
-	}
-	cur, _, err := x.srv.store.GetShipment(ctx, id)
+	c, err := x.srv.ships.CorrectShipment(ctx, ledgerCaller(ctx), ledger.Correction{ShipmentID: req.GetShipmentId(),
+		Record: recordFromProto(req.GetRecord()), Encode: recordJSON(req.GetRecord()), Reason: strings.TrimSpace(req.GetReason())})
 	if err != nil {
 		return nil, x.srv.registerError(ctx, err, "shipment_id")
 	}
-	if cur.State != store.StateLive {
-		return nil, failed(fieldViolation{"shipment_id", fmt.Sprintf("shipment %d is %s; only a live shipment can be corrected", id, cur.State)})
-	}
-	if k[0] != cur.CompanyID || k[1] != cur.RecordKey {
-		return nil, invalid(fieldViolation{"record.record_key", fmt.Sprintf("a correction keeps the company and key of shipment %d (%s, %s); got (%s, %s)",
-			id, cur.CompanyID, cur.RecordKey, k[0], k[1])})
-	}
-	env, err := x.srv.checkEnvFor(ctx, pb)
-	if err != nil {
-		return nil, err
-	}
-	// Checked like a new record; the quota is judged by the store, with the old
-	// version's draws given back, at the new version's own draw.
-	v := validate.Check(env, &rec, validate.DeferQuota)
-	if v.Outcome == validate.OutcomeRejected {
-		return nil, invalid(verdictViolations(&v)...)
-	}
-	if v.Fingerprint == cur.Fingerprint {
-		return nil, invalid(fieldViolation{"record", fmt.Sprintf("is the same as shipment %d as recorded; a correction changes something", id)})
-	}
-	row, err := shipmentRow(pb, &rec, &v)
-	if err != nil {
-		return nil, status.Errorf(codes.Internal, "record %q: %v", rec.Key, err)
-	}
-	lic, _ := env.Licence(strings.TrimSpace(rec.LicenceNumber))
-	var answer *halovetv1.Verdict
-	row.VerdictOnStore = func(res store.RecordResult) []byte {
-		fv := v
-		fv.Findings = append([]validate.Finding(nil), v.Findings...)
-		addBalanceFindings(&fv, lic, res.Balances)
-		answer = verdictToProto(&fv)
-		answer.Recorded = true
-		b := encodeVerdict(answer)
-		withStored(answer, &store.StoredRef{ID: res.ShipmentID, State: store.StateLive, RecordedAt: res.RecordedAt})
-		return b
-	}
-	res, err := x.srv.store.CorrectShipment(ctx, id, row, strings.TrimSpace(req.GetReason()))
-	if err != nil {
-		return nil, x.srv.registerError(ctx, err, "shipment_id")
-	}
-	switch res.Status {
-	case store.RecordStored:
-	case store.RecordQuotaShort:
-		fs := quotaShortFindings(lic, res, row.Draws)
-		return nil, failed(fieldViolation{"record.total_net_quantity", fs.Code + ": " + fs.Message + " (the old version's draws counted as given back)"})
-	case store.RecordLicenceInactive:
-		return nil, failed(fieldViolation{"record.licence_number", fmt.Sprintf("%s: licence %s is %s", validate.CodeLicenceInactive, res.LicenceNumber, res.Detail)})
-	case store.RecordYearClosed:
-		return nil, failed(fieldViolation{"record.declaration_date", fmt.Sprintf("%s: reporting year %d is closed (%s); reopen it first", validate.CodeYearClosed, res.Closed.Year, res.Closed.Reason)})
-	default:
-		return nil, status.Errorf(codes.Internal, "correction of shipment %d: unexpected outcome %v", id, res.Status)
-	}
-	x.srv.registerChanged(ctx, ledger.Change{Licences: unionLicences(drawnLicences(cur.Draws), row.Draws)})
-	got, _, err := x.srv.store.GetShipment(ctx, res.ShipmentID)
+	got, _, err := x.srv.store.GetShipment(ctx, c.ShipmentID)
 	if err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
@@ -470,73 +371,7 @@ func (x *shipmentServer) CorrectShipment(ctx context.Context, req *halovetv1.Cor
 	if err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
-	return &halovetv1.CorrectShipmentResponse{Verdict: answer, Shipment: rs}, nil
-}
-
-func unionLicences(a []string, ds []store.Draw) []string {
-	for _, d := range ds {
-		found := false
-		for _, x := range a {
-			found = found || x == d.LicenceNumber
-		}
-		if !found {
-			a = append(a, d.LicenceNumber)
-		}
-	}
-	return a
-}
-
-// quotaLine finds a line of a licence.
-func quotaLine(lic *validate.Licence, n int) validate.QuotaLine {
-	if lic != nil {
-		for _, l := range lic.QuotaLines {
-			if l.LineNumber == n {
-				return l
-			}
-		}
-	}
-	return validate.QuotaLine{LineNumber: n}
-}
-
-// addBalanceFindings adds the quota notices a record earned with its own draw, from the
-// balances the store drew on (record mode: the balance as of that draw).
-func addBalanceFindings(v *validate.Verdict, lic *validate.Licence, bal []store.LineBalance) {
-	for _, b := range bal {
-		line := quotaLine(lic, b.LineNumber)
-		alloc := b.Allocated.Float()
-		fs := validate.QuotaFindings(b.LicenceNumber, line, alloc, (b.Allocated - b.Before).Float(), (b.Before - b.After).Float())
-		if len(fs) > 0 {
-			v.Add(fs...)
-		}
-	}
-}
-
-// quotaShortFindings is the QUOTA_EXCEEDED finding for a row the store turned down, with
-// what was left on the line when the row came to draw.
-func quotaShortFindings(lic *validate.Licence, res store.RecordResult, draws []store.Draw) validate.Finding {
-	line := quotaLine(lic, res.LineNumber)
-	var amount store.Nano
-	for _, d := range draws {
-		if d.LicenceNumber == res.LicenceNumber && d.LineNumber == res.LineNumber {
-			amount += d.Amount
-		}
-	}
-	alloc := line.Allocated
-	if alloc < res.Remaining.Float() {
-		alloc = res.Remaining.Float()
-	}
-	fs := validate.QuotaFindings(res.LicenceNumber, line, alloc, alloc-res.Remaining.Float(), amount.Float())
-	if len(fs) == 0 || fs[0].Code != validate.CodeQuotaExceeded {
-		return findingFor(validate.CodeQuotaExceeded, "", fmt.Sprintf("licence %s line %d has %s left when this record comes to draw; it needs %s",
-			res.LicenceNumber, res.LineNumber, fmtNano(res.Remaining), fmtNano(amount)))
-	}
-	return fs[0]
-}
-
-func fmtNano(n store.Nano) string {
-	s := strconv.FormatFloat(n.Float(), 'f', 9, 64)
-	s = strings.TrimRight(s, "0")
-	return strings.TrimSuffix(s, ".")
+	return &halovetv1.CorrectShipmentResponse{Verdict: answerToProto(&c.Answer), Shipment: rs}, nil
 }
 
 // Closed years ----------------------------------------------------------------------------
@@ -561,14 +396,11 @@ func (x *shipmentServer) CloseYear(ctx context.Context, req *halovetv1.CloseYear
 	if vs := yearReasonViolations(req.GetYear(), req.GetReason()); len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	c, err := x.srv.store.CloseYear(ctx, int(req.GetYear()), strings.TrimSpace(req.GetReason()))
-	if errors.Is(err, store.ErrYearState) {
-		return nil, failed(fieldViolation{"year", fmt.Sprintf("reporting year %d is closed already", req.GetYear())})
-	}
+	c, err := x.srv.ships.CloseYear(ctx, int(req.GetYear()), strings.TrimSpace(req.GetReason()))
 	if err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
-	return &halovetv1.CloseYearResponse{ClosedYear: closedYearToProto(c)}, nil
+	return &halovetv1.CloseYearResponse{ClosedYear: closedYearToProto(store.ClosedYear(c))}, nil
 }
 
 // ReopenYear reopens a closed reporting year.
@@ -576,11 +408,7 @@ func (x *shipmentServer) ReopenYear(ctx context.Context, req *halovetv1.ReopenYe
 	if vs := yearReasonViolations(req.GetYear(), req.GetReason()); len(vs) > 0 {
 		return nil, invalid(vs...)
 	}
-	err := x.srv.store.ReopenYear(ctx, int(req.GetYear()), strings.TrimSpace(req.GetReason()))
-	if errors.Is(err, store.ErrYearState) {
-		return nil, failed(fieldViolation{"year", fmt.Sprintf("reporting year %d is not closed", req.GetYear())})
-	}
-	if err != nil {
+	if err := x.srv.ships.ReopenYear(ctx, int(req.GetYear()), strings.TrimSpace(req.GetReason())); err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
 	return &halovetv1.ReopenYearResponse{}, nil
@@ -597,83 +425,4 @@ func (x *shipmentServer) ListClosedYears(ctx context.Context, _ *halovetv1.ListC
 		out.ClosedYears = append(out.ClosedYears, closedYearToProto(c))
 	}
 	return out, nil
-}
-
-// matchingRef returns the stored version of vs with fingerprint fp, the newest first.
-func matchingRef(vs []store.StoredRef, fp string) *store.StoredRef {
-	for i := len(vs) - 1; i >= 0; i-- {
-		if vs[i].Fingerprint == fp {
-			return &vs[i]
-		}
-	}
-	return nil
-}
-
-// storedRecords is what the register holds of the keys of the records of one check
-// message: every stored version, by the record's index.
-type storedRecords map[int][]store.StoredRef
-
-// storedFor looks up the stored versions of the records' company and key. A check
-// answers a record recorded already by what was recorded, and does not count its draws
-// again (they are in the balance already).
-func (s *Server) storedFor(ctx context.Context, recs []*halovetv1.ShipmentRecord) (storedRecords, error) {
-	var keys [][2]string
-	var at []int
-	for i, pb := range recs {
-		k := [2]string{strings.TrimSpace(pb.GetCompanyId()), strings.TrimSpace(pb.GetRecordKey())}
-		if k[0] == "" || k[1] == "" || !validate.Storable(k[0]) || !validate.Storable(k[1]) {
-			continue
-		}
-		keys = append(keys, k)
-		at = append(at, i)
-	}
-	if len(keys) == 0 {
-		return nil, nil
-	}
-	m, err := s.store.StoredRecords(ctx, keys)
-	if err != nil {
-		return nil, toStatus(ctx, s.log, err)
-	}
-	out := storedRecords{}
-	for j, i := range at {
-		if vs, ok := m[keys[j]]; ok {
-			out[i] = vs
-		}
-	}
-	return out, nil
-}
-
-// answer is the check-mode verdict of record i when its key is stored: the verdict
-// stored with the version of the same content, marked replayed and with a notice saying
-// when it was recorded; or, for other content under a stored key, the check with the
-// conflict (a stored record is changed by CorrectShipment). false: the key is not stored.
-func (k storedRecords) answer(i int, env *validate.Env, r *validate.Record) (*halovetv1.Verdict, bool) {
-	vs, ok := k[i]
-	if !ok || len(vs) == 0 {
-		return nil, false
-	}
-	fp := validate.Fingerprint(r)
-	if ref := matchingRef(vs, fp); ref != nil {
-		v, err := storedVerdict(ref.Verdict)
-		if err != nil || v == nil {
-			cv := validate.Check(env, r, nil)
-			cv.Draws = nil
-			v = verdictToProto(&cv)
-		}
-		v.RecordKey, v.SourceLine = r.Key, r.Line
-		v.Recorded, v.Replayed = true, true
-		withStored(v, ref)
-		v.Findings = append(v.Findings, &halovetv1.Finding{Code: validate.CodeDupReplay, Severity: halovetv1.Severity_SEVERITY_NOTICE,
-			Message: fmt.Sprintf("recorded already (version %d, %s; shipment_id and recorded_at say which and when); its draws are in the balance and not counted again",
-				ref.Version, ref.State)})
-		return v, true
-	}
-	cur := vs[len(vs)-1]
-	cv := validate.Check(env, r, nil)
-	cv.Add(findingFor(validate.CodeDupKeyConflict, "", fmt.Sprintf(
-		"the key is recorded already (%s) with different content; a recorded shipment is changed by CorrectShipment ('halovet shipments correct'), a new record needs a new key",
-		cur.State)))
-	v := verdictToProto(&cv)
-	withStored(v, &cur)
-	return v, true
 }

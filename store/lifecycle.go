@@ -39,16 +39,6 @@ type StoredRef struct {
 	Verdict     []byte // as stored; nil for rows stored before migration 8
 }
 
-// matchingVersion returns the version of vs with fingerprint fp, the newest first.
-func matchingVersion(vs []StoredRef, fp string) *StoredRef {
-	for i := len(vs) - 1; i >= 0; i-- {
-		if vs[i].Fingerprint == fp {
-			return &vs[i]
-		}
-	}
-	return nil
-}
-
 // storedRefs returns every stored version of the (company, key) pairs, oldest first.
 func storedRefs(ctx context.Context, q interface {
 	Query(context.Context, string, ...any) (pgx.Rows, error)

@@ -12,6 +12,7 @@ import (
 	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/validate"
 )
 
 // Nano is an amount in billionths of its unit (tonnes, ODP tonnes or CO2-eq tonnes):
@@ -243,14 +244,23 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	for i, r := range rows {
 		k := [2]string{r.CompanyID, r.RecordKey}
 		if st, ok := existing[k]; ok {
-			if ref := matchingVersion(st.versions, r.Fingerprint); ref != nil {
-				results[i] = RecordResult{Status: RecordReplayed, ShipmentID: ref.ID, Stored: ref}
-			} else if st.versions == nil && st.fingerprint == r.Fingerprint {
+			// The one replay/conflict rule (validate.MatchKey); a row stored earlier in this
+			// batch stands as the key's one version, not yet a stored ref.
+			inBatch := st.versions == nil
+			earlier := st.versions
+			if inBatch {
+				earlier = []StoredRef{{Fingerprint: st.fingerprint}}
+			}
+			m, at := validate.MatchKey(earlier, func(v StoredRef) string { return v.Fingerprint }, r.Fingerprint)
+			switch {
+			case m == validate.KeyReplay && !inBatch:
+				results[i] = RecordResult{Status: RecordReplayed, ShipmentID: earlier[at].ID, Stored: &st.versions[at]}
+			case m == validate.KeyReplay:
 				results[i] = RecordResult{Status: RecordReplayed, ShipmentID: st.id}
-			} else {
+			default:
 				results[i] = RecordResult{Status: RecordKeyConflict, ShipmentID: st.id}
-				if n := len(st.versions); n > 0 {
-					results[i].Stored = &st.versions[n-1]
+				if !inBatch {
+					results[i].Stored = &st.versions[at]
 				}
 			}
 			continue

@@ -71,15 +71,55 @@ func (b *Batch) settle(c *checker) Verdict {
 		return v
 	}
 	v := c.finish(nil) // nothing drawn for a duplicate
-	same := prev.fingerprint == c.fpHash
-	earlier := "same"
-	if !same {
-		earlier = "" // only equality matters to DuplicateFinding
-	}
-	v.Add(DuplicateFinding(earlier, "same", prev.line))
-	v.Replayed = same
+	m, _ := MatchKey([]seenRecord{prev}, func(s seenRecord) uint64 { return s.fingerprint }, c.fpHash)
+	v.Add(KeyFinding(m, prev.line))
+	v.Replayed = m == KeyReplay
 	v.Draws = nil
 	return v
+}
+
+// KeyMatch is how a record whose company and key came before stands to what came before.
+type KeyMatch int
+
+// The answers of MatchKey.
+const (
+	// KeyNew: the key did not come before.
+	KeyNew KeyMatch = iota
+	// KeyReplay: a version with the same content came before; the record is a replay of
+	// it, answered as that version was and not counted again.
+	KeyReplay
+	// KeyConflict: the key came before with other content; the record is an error (a
+	// recorded shipment is changed by a correction, a new record needs a new key).
+	KeyConflict
+)
+
+// MatchKey is the one rule that tells a replay from a conflict, wherever a record's
+// company and key came before: earlier in its check stream (Batch), earlier in its
+// recording stream or write batch, or in the register. earlier are the versions that came
+// before under the key, oldest first, fingerprint gives each one's content fingerprint and
+// fp is the record's own. The answer is KeyNew when there are none, KeyReplay of the newest
+// version with the same content, or KeyConflict with the newest version; at is the index
+// of that version in earlier (-1 for KeyNew).
+func MatchKey[V any, F comparable](earlier []V, fingerprint func(V) F, fp F) (m KeyMatch, at int) {
+	if len(earlier) == 0 {
+		return KeyNew, -1
+	}
+	for i := len(earlier) - 1; i >= 0; i-- {
+		if fingerprint(earlier[i]) == fp {
+			return KeyReplay, i
+		}
+	}
+	return KeyConflict, len(earlier) - 1
+}
+
+// KeyFinding is the finding MatchKey's answer m earns: DUP_REPLAY (notice) for a replay,
+// DUP_KEY_CONFLICT (error) for a conflict. firstLine is the line of the earlier record, 0
+// when unknown (for example when the earlier record is in the store). m must not be KeyNew.
+func KeyFinding(m KeyMatch, firstLine int64) Finding {
+	if m == KeyReplay {
+		return DuplicateFinding("", "", firstLine)
+	}
+	return DuplicateFinding("", "other", firstLine)
 }
 
 // DuplicateFinding is the finding for a record whose company and key were seen before with

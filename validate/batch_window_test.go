@@ -37,3 +37,34 @@ func has(v Verdict, code string) bool {
 	_, ok := codesOf(v)[code]
 	return ok
 }
+
+func TestMatchKeyIsTheOneReplayConflictRule(t *testing.T) {
+	fp := func(s string) string { return s }
+	cases := []struct {
+		earlier []string
+		fp      string
+		want    KeyMatch
+		at      int
+	}{
+		{nil, "a", KeyNew, -1},
+		{[]string{"a"}, "a", KeyReplay, 0},
+		{[]string{"a"}, "b", KeyConflict, 0},
+		// A key corrected twice: a replay of the first version answers that version, a
+		// replay of the newest the newest; other content conflicts with the newest.
+		{[]string{"a", "b", "a"}, "a", KeyReplay, 2},
+		{[]string{"a", "b", "c"}, "b", KeyReplay, 1},
+		{[]string{"a", "b", "c"}, "d", KeyConflict, 2},
+	}
+	for _, c := range cases {
+		m, at := MatchKey(c.earlier, fp, c.fp)
+		if m != c.want || at != c.at {
+			t.Errorf("MatchKey(%q, %q) = %v, %d; want %v, %d", c.earlier, c.fp, m, at, c.want, c.at)
+		}
+	}
+	if f := KeyFinding(KeyReplay, 7); f.Code != CodeDupReplay || f.Severity != SeverityNotice {
+		t.Errorf("KeyFinding(KeyReplay) = %s %v; want DUP_REPLAY notice", f.Code, f.Severity)
+	}
+	if f := KeyFinding(KeyConflict, 0); f.Code != CodeDupKeyConflict || f.Severity != SeverityError {
+		t.Errorf("KeyFinding(KeyConflict) = %s %v; want DUP_KEY_CONFLICT error", f.Code, f.Severity)
+	}
+}
