@@ -51,11 +51,11 @@ type MeasuredShare struct {
 
 // AnalysisOptions carry the declaration a reading is compared with.
 type AnalysisOptions struct {
-	Declared   string  // declared substance or blend (any identifier the resolver takes); "" when none
-	NetMassKg  float64 // declared net mass, for the figures of what the reading holds
+	Declared  string  // declared substance or blend (any identifier the resolver takes); "" when none
+	NetMassKg float64 // declared net mass, for the figures of what the reading holds
 	// NetMass is the declared net mass as an exact decimal; when zero, NetMassKg is read.
-	NetMass exact.Decimal
-	NearMisses int     // non-fitting candidates to list; 0 means 3
+	NetMass    exact.Decimal
+	NearMisses int // non-fitting candidates to list; 0 means 3
 }
 
 // MeasuredComponent is one component of a reading after non-condensables are set aside.

@@ -23,7 +23,7 @@ const (
 
 // Share is one component of an ad-hoc composition.
 type Share struct {
-	Identifier string  // designation, synonym, CAS number or formula of a catalogue substance
+	Identifier string // designation, synonym, CAS number or formula of a catalogue substance
 	// MassPct is the mass percent, above 0 and at most 100. It is read as the shortest
 	// decimal that gives this float64 (exact.FromFloat), so a share written as "33.3" is
 	// 33.3 exactly in the arithmetic.
