@@ -83,7 +83,8 @@ func TestDisplay(t *testing.T) {
 		{"102.03", GPerMol, "102.03"},
 		{"0.00055", ODPTonnes, "0.0006"}, // 10 kg HCFC-22 (ODP 0.055), half away from zero
 		{"1.5", Kg, "1.5"},
-		{"14.3", CO2eTonnes, "14.3"},
+		{"20.875", CO2eTonnes, "20.875"}, // 10 kg R-410A (AR4 2087.5)
+		{"20.8754", CO2eTonnes, "20.875"},
 		{"0.0000001", ODP, "0.0000001"},
 		{"33.3333333", Percent, "33.33"},
 		{"0", ODPTonnes, "0"},

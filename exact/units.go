@@ -41,7 +41,7 @@ var Units = []UnitSpec{
 	{Kg, "kg", "_kg", 3, 6},
 	{Tonnes, "t", "_tonnes", 3, 9},
 	{ODPTonnes, "ODP t", "_odp_tonnes", 4, 9},
-	{CO2eTonnes, "t CO2-eq", "_co2e_tonnes", 2, 9},
+	{CO2eTonnes, "t CO2-eq", "_co2e_tonnes", 3, 9},
 	{Percent, "%", "_percent", 2, 6},
 	{Points, "points", "_points", 2, 6},
 	{GPerMol, "g/mol", "_g_per_mol", 3, 6},

@@ -259,8 +259,8 @@ func writeLookupText(w io.Writer, r lookupResult) error {
 			if cas := r.casOf[c.GetDesignation()]; cas != "" {
 				names[i] += " (CAS " + cas + ")"
 			}
-			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%.2f\n", c.GetDesignation(), entryKindLabel(c.GetKind()),
-				textOrDash(c.GetAnnexGroup()), matchKindLabel[c.GetMatchKind()], c.GetMatchedOn(), c.GetScore())
+			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), entryKindLabel(c.GetKind()),
+				textOrDash(c.GetAnnexGroup()), matchKindLabel[c.GetMatchKind()], c.GetMatchedOn(), wireDec(c.GetScore()).Fixed(2))
 		}
 		if err := tw.Flush(); err != nil {
 			return err
