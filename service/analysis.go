@@ -38,12 +38,12 @@ func (a *analysisServer) AnalyseReading(_ context.Context, req *halovetv1.Analys
 // violation for every figure that is not a decimal.
 func ReadingFromProto(req *halovetv1.AnalyseReadingRequest) (substances.Reading, []fieldViolation) {
 	var vs []fieldViolation
-	_, ncg := figureIn("non_condensable_percent", req.GetNonCondensablePercent(), &vs)
-	_, unc := figureIn("uncertainty_points", req.GetUncertaintyPoints(), &vs)
+	_, ncg := figureSigned("non_condensable_percent", req.GetNonCondensablePercent(), &vs)
+	_, unc := figureSigned("uncertainty_points", req.GetUncertaintyPoints(), &vs)
 	r := substances.Reading{NonCondensablePct: ncg, Uncertainty: unc}
 	for i, c := range req.GetComponents() {
-		_, pct := figureIn(fmt.Sprintf("components[%d].mass_percent", i), c.GetMassPercent(), &vs)
-		_, u := figureIn(fmt.Sprintf("components[%d].uncertainty_points", i), c.GetUncertaintyPoints(), &vs)
+		_, pct := figureSigned(fmt.Sprintf("components[%d].mass_percent", i), c.GetMassPercent(), &vs)
+		_, u := figureSigned(fmt.Sprintf("components[%d].uncertainty_points", i), c.GetUncertaintyPoints(), &vs)
 		r.Components = append(r.Components, substances.MeasuredShare{Identifier: c.GetIdentifier(), MassPct: pct, Uncertainty: u})
 	}
 	return r, vs

@@ -37,16 +37,23 @@ const maxFigureDigits = 15
 // figureIn reads an optional request figure named field: "" is 0. It adds a violation and
 // returns 0 for an unreadable figure, a negative one or one with more digits than are kept.
 func figureIn(field, s string, vs *[]fieldViolation) (exact.Decimal, float64) {
+	d, f := figureSigned(field, s, vs)
+	if d.Sign() < 0 {
+		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s is negative; give 0 or more", d)})
+		return exact.Zero, 0
+	}
+	return d, f
+}
+
+// figureSigned is figureIn without the sign check, for figures whose range the domain
+// checks and explains (the shares of a cylinder reading).
+func figureSigned(field, s string, vs *[]fieldViolation) (exact.Decimal, float64) {
 	d, ok, err := exact.ParseField(field, s)
 	if err != nil {
 		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%q is not a decimal; give the figure as a decimal string in plain notation, e.g. \"12.5\" or \"0\" (no exponent, no separators)", s)})
 		return exact.Zero, 0
 	}
 	if !ok {
-		return exact.Zero, 0
-	}
-	if d.Sign() < 0 {
-		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s is negative; give 0 or more", d)})
 		return exact.Zero, 0
 	}
 	f := d.Float64()
