@@ -6,7 +6,6 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"strconv"
 	"strings"
@@ -433,12 +432,6 @@ func textOrDash(s string) string {
 		return "—"
 	}
 	return s
-}
-
-// lookupNum writes a figure without binary floating-point noise (57.375, not
-// 57.37500000000001): at most 6 decimals, trailing zeros dropped.
-func lookupNum(v float64) string {
-	return strconv.FormatFloat(math.Round(v*1e6)/1e6, 'f', -1, 64)
 }
 
 // wrapText wraps s into lines of at most width bytes, each starting with indent.
