@@ -380,6 +380,7 @@ func (c *Console) fail(w http.ResponseWriter, r *http.Request, s *session, code 
 func (c *Console) parseTemplates() error {
 	funcs := template.FuncMap{
 		"figure":           figure,
+		"dec":              dec,
 		"fine":             fine,
 		"percent":          percent,
 		"lower":            strings.ToLower,

@@ -53,9 +53,18 @@ func TestSignInAndPages(t *testing.T) {
 	// and the cautions of a flammable class.
 	p = c.get("/console/catalogue/entries/HFC-32")
 	p.mustContain(t, "GWPs by set", "HS codes", "F/I", `id="safety-class">A2L`, "Safety cautions", console.Notice)
-	// A blend: its composition (R-410A: HFC-32 50 % and HFC-125 50 %, ASHRAE 34).
+	// Exact figures: HFC-134a's ODP is shown as 0 (Montreal Protocol Annex F: no ODP) and its
+	// molar mass as 102.03 g/mol (IUPAC standard atomic weights, conventional values:
+	// 2×12.011 + 2×1.008 + 4×18.998).
+	p = c.get("/console/catalogue/entries/HFC-134a")
+	p.mustContain(t, "<dt>ODP</dt><dd>0</dd>", "102.03 g/mol", ">1430<")
+	// A blend: its composition (R-410A: HFC-32 50 % and HFC-125 50 %, ASHRAE 34) and its
+	// AR4 GWP 2087.5 (UK government CO2-eq table, testdata/reference/blends.csv).
 	p = c.get("/console/catalogue/entries/R-410A")
-	p.mustContain(t, "Composition", `href="/console/catalogue/entries/HFC-32"`, `href="/console/catalogue/entries/HFC-125"`, ">50<")
+	p.mustContain(t, "Composition", `href="/console/catalogue/entries/HFC-32"`, `href="/console/catalogue/entries/HFC-125"`, ">50<", ">2087.5<")
+	if hit := regexp.MustCompile(`\d\.\d*0000000\d|\d\.\d*9999999\d`).FindString(p.body); hit != "" {
+		t.Errorf("R-410A page shows binary-float noise %q", hit)
+	}
 	if p = c.get("/console/catalogue/entries/NO-SUCH-THING"); p.code != http.StatusNotFound {
 		t.Errorf("unknown entry: %d, want 404", p.code)
 	}

@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"math"
 	"strings"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -34,12 +33,16 @@ func (c *catalogueServer) GetEntry(_ context.Context, req *halovetv1.GetEntryReq
 
 func substanceToProto(s *substances.Substance) *halovetv1.Substance {
 	p := &halovetv1.Substance{Designation: s.Designation, Synonyms: s.Synonyms, ChemicalName: s.ChemicalName,
-		Formula: s.Formula, Structure: s.Structure, CasNumber: s.CAS, AnnexGroup: string(s.Group), Odp: s.ODP,
-		OdpRangeLow: s.ODPLow, OdpRangeHigh: s.ODPHigh, LifetimeYears: s.Lifetime, MolarMassGPerMol: s.MolarMass,
-		SafetyClass: s.SafetyClass, IsomerCount: int32(s.IsomerCount), Sources: s.Sources}
+		Formula: s.Formula, Structure: s.Structure, CasNumber: s.CAS, AnnexGroup: string(s.Group), Odp: stored(s.ODP),
+		OdpRangeLow: storedKnown(s.ODPLow, s.ODPHigh > 0), OdpRangeHigh: storedKnown(s.ODPHigh, s.ODPHigh > 0),
+		LifetimeYears: storedKnown(s.Lifetime, s.Lifetime > 0),
+		SafetyClass:   s.SafetyClass, IsomerCount: int32(s.IsomerCount), Sources: s.Sources}
+	if m, ok := s.ExactMolarMass(); ok {
+		p.MolarMassGPerMol = m.String()
+	}
 	for _, set := range []substances.GWPSet{substances.SetProtocol, substances.SetAR4, substances.SetAR5, substances.SetAR6} {
 		if v, ok := s.GWP[set]; ok {
-			p.Gwps = append(p.Gwps, &halovetv1.GwpValue{GwpSet: string(set), Gwp100: v})
+			p.Gwps = append(p.Gwps, &halovetv1.GwpValue{GwpSet: string(set), Gwp_100Yr: stored(v)})
 		}
 	}
 	for _, code := range s.HS2017 {
@@ -62,9 +65,16 @@ func hsToProto(ed substances.HSEdition, code string) *halovetv1.HsCode {
 func blendToProto(b *substances.Blend) *halovetv1.Blend {
 	p := &halovetv1.Blend{Designation: b.Designation, Synonyms: b.Synonyms, BlendType: b.Type,
 		SafetyClass: b.SafetyClass, Sources: b.Sources}
+	// A blend whose components all have zero tolerances is one whose tolerances the
+	// catalogue does not record (the older azeotropes): they are absent, not "0".
+	recorded := false
+	for _, c := range b.Components {
+		recorded = recorded || c.TolPlus != 0 || c.TolMinus != 0
+	}
 	for _, c := range b.Components {
 		p.Components = append(p.Components, &halovetv1.BlendComponent{Designation: c.Designation,
-			MassPercent: c.MassPct, TolerancePlus: c.TolPlus, ToleranceMinus: c.TolMinus})
+			MassPercent: stored(c.MassPct), TolerancePlusPoints: storedKnown(c.TolPlus, recorded),
+			ToleranceMinusPoints: storedKnown(c.TolMinus, recorded)})
 	}
 	return p
 }
@@ -225,28 +235,38 @@ func resolutionToProto(r substances.Resolution) *halovetv1.ResolveIdentifierResp
 	out := &halovetv1.ResolveIdentifierResponse{Ambiguous: r.Ambiguous, Suggestions: r.Suggestions, Note: r.Note}
 	for _, cd := range r.Candidates {
 		out.Candidates = append(out.Candidates, &halovetv1.Candidate{Designation: cd.Designation, Kind: kindProto(cd.Kind),
-			MatchKind: matchKindProto[cd.Match], Score: cd.Score, MatchedOn: cd.MatchedOn, AnnexGroup: string(cd.Group)})
+			MatchKind: matchKindProto[cd.Match], Score: derived(cd.Score), MatchedOn: cd.MatchedOn, AnnexGroup: string(cd.Group)})
 	}
 	return out
 }
 
 func (c *catalogueServer) EvaluateMixture(_ context.Context, req *halovetv1.EvaluateMixtureRequest) (*halovetv1.EvaluateMixtureResponse, error) {
-	m := req.GetNetMassKg()
-	if m < 0 || math.IsNaN(m) || math.IsInf(m, 0) {
-		return nil, invalid(fieldViolation{"net_mass_kg", "must be a finite number, 0 or more (0 evaluates per kg only)"})
+	var vs []fieldViolation
+	m, _ := figureIn("net_mass_kg", req.GetNetMassKg(), &vs)
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	cat := c.srv.cat.Load()
 	var ev substances.Evaluation
 	var err error
 	switch x := req.GetMixture().(type) {
 	case *halovetv1.EvaluateMixtureRequest_Blend:
-		ev, err = cat.Evaluate(strings.TrimSpace(x.Blend), m)
+		ev, err = cat.EvaluateExact(strings.TrimSpace(x.Blend), m)
 	case *halovetv1.EvaluateMixtureRequest_Composition:
 		shares := make([]substances.Share, len(x.Composition.GetShares()))
 		for i, s := range x.Composition.GetShares() {
-			shares[i] = substances.Share{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent()}
+			field := fmt.Sprintf("composition.shares[%d].mass_percent", i)
+			if strings.TrimSpace(s.GetMassPercent()) == "" {
+				vs = append(vs, fieldViolation{field, "missing; give the mass percent as a decimal above 0 and at most 100, e.g. \"50\""})
+				continue
+			}
+			_, pct := figureIn(field, s.GetMassPercent(), &vs)
+			shares[i] = substances.Share{Identifier: s.GetIdentifier(), MassPct: pct}
 		}
-		ev, err = cat.EvaluateShares(shares, m)
+		if len(vs) > 0 {
+			return nil, invalid(vs...)
+		}
+		ev, err = cat.EvaluateSharesExact(shares, m)
 	default:
 		return nil, invalid(fieldViolation{"mixture", "give blend (e.g. R-410A) or composition (shares summing to 100 %)"})
 	}
@@ -277,11 +297,11 @@ func evaluationToProto(ev *substances.Evaluation) *halovetv1.EvaluateMixtureResp
 	if d == "" {
 		d = "custom"
 	}
-	out := &halovetv1.EvaluateMixtureResponse{Designation: d, Odp: ev.ODP, NetMassKg: ev.NetMassKg,
-		OdpTonnes: ev.ODPTonnes, Co2ETonnes: ev.CO2eTonnes, SafetyClass: ev.SafetyClass, Cautions: ev.Cautions,
+	out := &halovetv1.EvaluateMixtureResponse{Designation: d, Odp: ev.Exact.ODP.String(), NetMassKg: ev.Exact.NetMassKg.String(),
+		OdpTonnes: ev.Exact.ODPTonnes.String(), Co2ETonnes: ev.Exact.CO2eTonnes.String(), SafetyClass: ev.SafetyClass, Cautions: ev.Cautions,
 		Hs2022Subheading: ev.HS2022, HsNote: ev.HSNote}
 	for _, g := range ev.GWPs {
-		out.Gwps = append(out.Gwps, &halovetv1.GwpFigure{GwpSet: string(g.Set), Convention: g.Convention, Gwp100: g.GWP, Complete: g.Complete})
+		out.Gwps = append(out.Gwps, &halovetv1.GwpFigure{GwpSet: string(g.Set), Convention: g.Convention, Gwp_100Yr: g.Value.String(), Complete: g.Complete})
 	}
 	out.Components = componentsToProto(ev.Components)
 	return out
@@ -290,9 +310,10 @@ func evaluationToProto(ev *substances.Evaluation) *halovetv1.EvaluateMixtureResp
 func componentsToProto(cs []substances.ComponentFigures) []*halovetv1.ComponentFigures {
 	out := make([]*halovetv1.ComponentFigures, len(cs))
 	for i, c := range cs {
-		out[i] = &halovetv1.ComponentFigures{Designation: c.Designation, AnnexGroup: string(c.Group), MassPercent: c.MassPct,
-			MassKg: c.MassKg, Odp: c.ODP, OdpTonnes: c.ODPTonnes, GwpProtocol: c.ProtocolGWP, Co2ETonnes: c.CO2eTonnes,
-			SafetyClass: c.SafetyClass}
+		x := c.Exact
+		out[i] = &halovetv1.ComponentFigures{Designation: c.Designation, AnnexGroup: string(c.Group), MassPercent: x.MassPct.String(),
+			MassKg: x.MassKg.String(), Odp: x.ODP.String(), OdpTonnes: x.ODPTonnes.String(), Gwp_100YrProtocol: x.ProtocolGWP.String(),
+			Co2ETonnes: x.CO2eTonnes.String(), SafetyClass: c.SafetyClass}
 	}
 	return out
 }

@@ -60,9 +60,12 @@ func substanceFromProto(p *halovetv1.Substance) (substances.Substance, []fieldVi
 	var vs []fieldViolation
 	s := substances.Substance{Designation: strings.TrimSpace(p.GetDesignation()), Synonyms: p.GetSynonyms(),
 		ChemicalName: p.GetChemicalName(), Structure: p.GetStructure(), Group: substances.Group(p.GetAnnexGroup()),
-		ODP: p.GetOdp(), ODPLow: p.GetOdpRangeLow(), ODPHigh: p.GetOdpRangeHigh(), IsomerCount: int(p.GetIsomerCount()),
-		Lifetime: p.GetLifetimeYears(), SafetyClass: p.GetSafetyClass(), Sources: p.GetSources(),
+		IsomerCount: int(p.GetIsomerCount()), SafetyClass: p.GetSafetyClass(), Sources: p.GetSources(),
 		GWP: map[substances.GWPSet]float64{}}
+	_, s.ODP = figureIn("substance.odp", p.GetOdp(), &vs)
+	_, s.ODPLow = figureIn("substance.odp_range_low", p.GetOdpRangeLow(), &vs)
+	_, s.ODPHigh = figureIn("substance.odp_range_high", p.GetOdpRangeHigh(), &vs)
+	_, s.Lifetime = figureIn("substance.lifetime_years", p.GetLifetimeYears(), &vs)
 	if s.Designation == "" {
 		vs = append(vs, fieldViolation{"substance.designation", "must not be empty"})
 	}
@@ -114,10 +117,11 @@ func substanceFromProto(p *halovetv1.Substance) (substances.Substance, []fieldVi
 		default:
 			vs = append(vs, fieldViolation{fmt.Sprintf("substance.gwps[%d].gwp_set", i), "must be MP, AR4, AR5 or AR6"})
 		}
-		if g.GetGwp100() < 0 {
-			vs = append(vs, fieldViolation{fmt.Sprintf("substance.gwps[%d].gwp100", i), "must not be negative"})
+		field := fmt.Sprintf("substance.gwps[%d].gwp_100yr", i)
+		if strings.TrimSpace(g.GetGwp_100Yr()) == "" {
+			vs = append(vs, fieldViolation{field, "missing; give the 100-year GWP as a decimal, e.g. \"1430\""})
 		}
-		s.GWP[set] = g.GetGwp100()
+		_, s.GWP[set] = figureIn(field, g.GetGwp_100Yr(), &vs)
 	}
 	for _, h := range p.GetHsCodes() {
 		code, err := substances.NormalizeHS(h.GetSubheading())

@@ -2,7 +2,6 @@ package service_test
 
 import (
 	"context"
-	"math"
 	"slices"
 	"strings"
 	"testing"
@@ -11,6 +10,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/protobuf/proto"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/store"
@@ -45,8 +45,8 @@ func catalogueHFC134a(t *testing.T, client halovetv1.CatalogueServiceClient) *ha
 // lifetime_ar5_years), in place of the seed's WMO 2018 value of 14 years (source: WMO 2018
 // via IPCC AR6 Table 7.SM.7, halocarbons.csv lifetime_years).
 const (
-	catalogueSeedLifetime      = 14.0
-	catalogueCorrectedLifetime = 13.4
+	catalogueSeedLifetime      = "14"
+	catalogueCorrectedLifetime = "13.4"
 	catalogueCorrectionSource  = "; lifetime corrected: IPCC Fifth Assessment Report, WG1 (2013), Table 8.A.1"
 )
 
@@ -78,8 +78,9 @@ func TestUpsertSubstanceCorrection(t *testing.T) {
 	if got := resp.GetSubstance().GetLifetimeYears(); got != catalogueCorrectedLifetime {
 		t.Errorf("stored lifetime %v; want %v", got, catalogueCorrectedLifetime)
 	}
-	// source: C2H2F4 with IUPAC standard atomic weights (abridged): 2x12.011 + 2x1.008 + 4x18.998 = 102.03.
-	if m := resp.GetSubstance().GetMolarMassGPerMol(); math.Abs(m-102.03) > 0.01 {
+	// source: C2H2F4 with IUPAC standard atomic weights (abridged, conventional values):
+	// 2x12.011 + 2x1.008 + 4x18.998 = 102.03, exactly.
+	if m := resp.GetSubstance().GetMolarMassGPerMol(); m != "102.03" {
 		t.Errorf("molar mass %v; want 102.03 g/mol computed from the formula", m)
 	}
 	if n := catalogueAuditRows(t, st, "HFC-134a"); n != 1 {
@@ -168,7 +169,7 @@ func TestUpsertSubstanceReachesOtherReplicas(t *testing.T) {
 	if err != nil {
 		t.Fatalf("second catalogue holder: %v", err)
 	}
-	if s, ok := replica.Load().Substance("HFC-134a"); !ok || s.Lifetime != catalogueSeedLifetime {
+	if s, ok := replica.Load().Substance("HFC-134a"); !ok || exact.OfFloat(s.Lifetime).String() != catalogueSeedLifetime {
 		t.Fatalf("the replica's HFC-134a before the correction: %v; want lifetime %v", s, catalogueSeedLifetime)
 	}
 	stop := replica.Watch(ctx, replicaStore)
@@ -198,7 +199,7 @@ func TestUpsertSubstanceReachesOtherReplicas(t *testing.T) {
 	}
 	start := time.Now()
 	for {
-		if s, ok := replica.Load().Substance("HFC-134a"); ok && s.Lifetime == catalogueCorrectedLifetime {
+		if s, ok := replica.Load().Substance("HFC-134a"); ok && exact.OfFloat(s.Lifetime).String() == catalogueCorrectedLifetime {
 			t.Logf("the replica saw the correction after %v", time.Since(start).Round(time.Millisecond))
 			return
 		}

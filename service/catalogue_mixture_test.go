@@ -8,6 +8,7 @@ import (
 
 	"google.golang.org/grpc/codes"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -18,6 +19,16 @@ import (
 // table rounds half-up the unrounded sum; R-410A 2087.5 -> 2088). The small offset absorbs binary
 // floating-point error in sums such as 0.5*675 + 0.5*3500.
 func roundHalfUp(x float64) float64 { return math.Floor(x + 0.5 + 1e-9) }
+
+// wireNum reads a wire figure (a decimal string) for a comparison with a rounded value.
+func wireNum(t *testing.T, s string) float64 {
+	t.Helper()
+	d, err := exact.Parse(s)
+	if err != nil {
+		t.Fatalf("wire figure %q: %v", s, err)
+	}
+	return d.Float64()
+}
 
 // catalogueGWPFigure finds a mixture GWP figure by set and convention.
 func catalogueGWPFigure(resp *halovetv1.EvaluateMixtureResponse, set, convention string) (*halovetv1.GwpFigure, bool) {
@@ -50,7 +61,7 @@ func TestEvaluateMixtureBlendGWP(t *testing.T) {
 	for _, tc := range cases {
 		t.Run(tc.blend, func(t *testing.T) {
 			resp, err := client.EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{
-				Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: tc.blend}, NetMassKg: 1000})
+				Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: tc.blend}, NetMassKg: "1000"})
 			if err != nil {
 				t.Fatalf("EvaluateMixture %s: %v", tc.blend, err)
 			}
@@ -62,27 +73,27 @@ func TestEvaluateMixtureBlendGWP(t *testing.T) {
 				if !ok {
 					t.Fatalf("no AR4 %s figure in %v", conv, resp.GetGwps())
 				}
-				if roundHalfUp(g.GetGwp100()) != tc.gwp || !g.GetComplete() {
-					t.Errorf("AR4 %s GWP %v (complete %v) rounds to %v; want %v, complete", conv, g.GetGwp100(), g.GetComplete(), roundHalfUp(g.GetGwp100()), tc.gwp)
+				if roundHalfUp(wireNum(t, g.GetGwp_100Yr())) != tc.gwp || !g.GetComplete() {
+					t.Errorf("AR4 %s GWP %v (complete %v); want it to round to %v, complete", conv, g.GetGwp_100Yr(), g.GetComplete(), tc.gwp)
 				}
 			}
 			mp, ok := catalogueGWPFigure(resp, "MP", "annex-f-only")
-			if !ok || roundHalfUp(mp.GetGwp100()) != tc.gwp {
-				t.Errorf("Protocol (MP) annex-f-only GWP %v; want it to round to %v (Annex F values equal AR4)", mp.GetGwp100(), tc.gwp)
+			if !ok || roundHalfUp(wireNum(t, mp.GetGwp_100Yr())) != tc.gwp {
+				t.Errorf("Protocol (MP) annex-f-only GWP %v; want it to round to %v (Annex F values equal AR4)", mp.GetGwp_100Yr(), tc.gwp)
 			}
 			// One metric tonne: CO2-eq tonnes equal the unrounded Annex-F GWP (Art. 3 para 2:
 			// CO2-eq tonnes = metric tonnes x GWP).
-			if math.Abs(resp.GetCo2ETonnes()-mp.GetGwp100()) > 1e-6 {
-				t.Errorf("CO2-eq tonnes of 1000 kg %v; want the mixture GWP %v", resp.GetCo2ETonnes(), mp.GetGwp100())
+			if resp.GetCo2ETonnes() != mp.GetGwp_100Yr() {
+				t.Errorf("CO2-eq tonnes of 1000 kg %v; want exactly the mixture GWP %v", resp.GetCo2ETonnes(), mp.GetGwp_100Yr())
 			}
-			if resp.GetOdpTonnes() != 0 {
+			if resp.GetOdpTonnes() != "0" {
 				t.Errorf("ODP tonnes %v; want 0 for an HFC-only blend", resp.GetOdpTonnes())
 			}
-			var sumKg float64
+			sumKg := exact.Zero
 			for _, c := range resp.GetComponents() {
-				sumKg += c.GetMassKg()
+				sumKg = sumKg.Add(exact.MustParse(c.GetMassKg()))
 			}
-			if math.Abs(sumKg-1000) > 1e-6 {
+			if sumKg.String() != "1000" {
 				t.Errorf("component masses sum to %v kg; want 1000", sumKg)
 			}
 		})
@@ -91,12 +102,12 @@ func TestEvaluateMixtureBlendGWP(t *testing.T) {
 	t.Run("ad-hoc 50/50 R-32/R-125 equals R-410A", func(t *testing.T) {
 		// source: ASHRAE 34 (reference blends.csv): R-410A is HFC-32/HFC-125 50/50.
 		resp, err := client.EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Composition{
-			Composition: &halovetv1.Composition{Shares: []*halovetv1.MixtureShare{{Identifier: "R-32", MassPercent: 50}, {Identifier: "R-125", MassPercent: 50}}}}})
+			Composition: &halovetv1.Composition{Shares: []*halovetv1.MixtureShare{{Identifier: "R-32", MassPercent: "50"}, {Identifier: "R-125", MassPercent: "50"}}}}})
 		if err != nil {
 			t.Fatalf("EvaluateMixture R-32:50,R-125:50: %v", err)
 		}
 		g, ok := catalogueGWPFigure(resp, "AR4", "annex-f-only")
-		if resp.GetDesignation() != "custom" || !ok || roundHalfUp(g.GetGwp100()) != 2088 {
+		if resp.GetDesignation() != "custom" || !ok || roundHalfUp(wireNum(t, g.GetGwp_100Yr())) != 2088 {
 			t.Errorf("designation %q, AR4 annex-f-only %v; want custom and 2088 (as R-410A)", resp.GetDesignation(), g)
 		}
 	})
@@ -107,20 +118,20 @@ func TestEvaluateMixtureODPTonnes(t *testing.T) {
 	client := halovetv1.NewCatalogueServiceClient(conn)
 	resp, err := client.EvaluateMixture(context.Background(), &halovetv1.EvaluateMixtureRequest{
 		Mixture: &halovetv1.EvaluateMixtureRequest_Composition{Composition: &halovetv1.Composition{
-			Shares: []*halovetv1.MixtureShare{{Identifier: "HCFC-141b", MassPercent: 100}}}},
-		NetMassKg: 1000})
+			Shares: []*halovetv1.MixtureShare{{Identifier: "HCFC-141b", MassPercent: "100"}}}},
+		NetMassKg: "1000"})
 	if err != nil {
 		t.Fatalf("EvaluateMixture 1000 kg HCFC-141b: %v", err)
 	}
 	// source: Montreal Protocol Annex C Group I, HCFC-141b ODP 0.11; 1 t x 0.11 = 0.11 ODP t.
-	if math.Abs(resp.GetOdpTonnes()-0.11) > 1e-9 {
+	if resp.GetOdpTonnes() != "0.11" {
 		t.Errorf("ODP tonnes %v; want 0.11", resp.GetOdpTonnes())
 	}
 	// An HCFC counts in ODP tonnes in its own group, not in CO2-eq (Art. 3 para 1(a) and para 2; Art. 1 para 4).
-	if resp.GetCo2ETonnes() != 0 {
+	if resp.GetCo2ETonnes() != "0" {
 		t.Errorf("Protocol CO2-eq tonnes %v; want 0 for an HCFC", resp.GetCo2ETonnes())
 	}
-	if len(resp.GetComponents()) != 1 || resp.GetComponents()[0].GetAnnexGroup() != "C/I" || resp.GetComponents()[0].GetMassKg() != 1000 {
+	if len(resp.GetComponents()) != 1 || resp.GetComponents()[0].GetAnnexGroup() != "C/I" || resp.GetComponents()[0].GetMassKg() != "1000" {
 		t.Errorf("components %v; want HCFC-141b, C/I, 1000 kg", resp.GetComponents())
 	}
 }
@@ -138,11 +149,11 @@ func TestEvaluateMixtureRejects(t *testing.T) {
 		message string // must occur in the status message
 	}{
 		{"shares summing to 99.5", &halovetv1.EvaluateMixtureRequest{Mixture: shares(
-			&halovetv1.MixtureShare{Identifier: "R-32", MassPercent: 50}, &halovetv1.MixtureShare{Identifier: "R-125", MassPercent: 49.5})}, "99.5"},
+			&halovetv1.MixtureShare{Identifier: "R-32", MassPercent: "50"}, &halovetv1.MixtureShare{Identifier: "R-125", MassPercent: "49.5"})}, "99.5"},
 		{"share naming an HS code", &halovetv1.EvaluateMixtureRequest{Mixture: shares(
-			&halovetv1.MixtureShare{Identifier: "2903.45", MassPercent: 100})}, "2903.45"},
+			&halovetv1.MixtureShare{Identifier: "2903.45", MassPercent: "100"})}, "2903.45"},
 		{"unknown blend", &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: "R-4O4A"}}, "R-404A"},
-		{"negative mass", &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: "R-410A"}, NetMassKg: -1}, "net_mass_kg"},
+		{"negative mass", &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: "R-410A"}, NetMassKg: "-1"}, "net_mass_kg"},
 		{"nothing to evaluate", &halovetv1.EvaluateMixtureRequest{}, "mixture"},
 	}
 	for _, tc := range cases {

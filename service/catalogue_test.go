@@ -10,6 +10,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -62,7 +63,7 @@ func TestGetEntry(t *testing.T) {
 		if s.GetDesignation() != "HCFC-22" || s.GetAnnexGroup() != "C/I" {
 			t.Errorf("designation %q group %q; want HCFC-22 in C/I", s.GetDesignation(), s.GetAnnexGroup())
 		}
-		if s.GetOdp() != 0.055 { // source: Montreal Protocol Annex C Group I (HCFC-22 0.055)
+		if s.GetOdp() != "0.055" { // source: Montreal Protocol Annex C Group I (HCFC-22 0.055)
 			t.Errorf("ODP %v; want 0.055", s.GetOdp())
 		}
 		if s.GetCasNumber() != "75-45-6" { // source: testdata/reference/halocarbons.csv (CAS of HCFC-22)
@@ -71,13 +72,13 @@ func TestGetEntry(t *testing.T) {
 		if s.GetFormula() != "CHClF2" {
 			t.Errorf("formula %q; want CHClF2", s.GetFormula())
 		}
-		gwp := map[string]float64{}
+		gwp := map[string]string{}
 		for _, g := range s.GetGwps() {
-			gwp[g.GetGwpSet()] = g.GetGwp100()
+			gwp[g.GetGwpSet()] = g.GetGwp_100Yr()
 		}
 		// source: Kigali Amendment, Annex C Group I GWP column: HCFC-22 1810;
 		// IPCC AR4 WG1 Table 2.14: 1810.
-		if gwp["MP"] != 1810 || gwp["AR4"] != 1810 {
+		if gwp["MP"] != "1810" || gwp["AR4"] != "1810" {
 			t.Errorf("GWPs %v; want MP 1810 and AR4 1810", gwp)
 		}
 		var hs22 []string
@@ -111,7 +112,7 @@ func TestGetEntry(t *testing.T) {
 			t.Fatalf("GetEntry r-404a gave %v; want the blend R-404A", resp.GetEntry())
 		}
 		// source: ASHRAE 34 (reference blends.csv): R-404A is HFC-125/143a/134a 44/52/4.
-		want := map[string]float64{"HFC-125": 44, "HFC-143a": 52, "HFC-134a": 4}
+		want := map[string]string{"HFC-125": "44", "HFC-143a": "52", "HFC-134a": "4"}
 		if len(b.GetComponents()) != len(want) {
 			t.Fatalf("R-404A components %v; want %v", b.GetComponents(), want)
 		}
@@ -314,7 +315,7 @@ func TestResolveIdentifier(t *testing.T) {
 			if best.GetDesignation() != tc.want || best.GetKind() != tc.kind {
 				t.Errorf("%q resolved to %s (%v); want %s (%v)", tc.id, best.GetDesignation(), best.GetKind(), tc.want, tc.kind)
 			}
-			if best.GetMatchKind() == halovetv1.MatchKind_MATCH_KIND_UNSPECIFIED || best.GetScore() <= 0 {
+			if best.GetMatchKind() == halovetv1.MatchKind_MATCH_KIND_UNSPECIFIED || exact.MustParse(best.GetScore()).Sign() <= 0 {
 				t.Errorf("%q: match kind %v score %v; want a set kind and a positive score", tc.id, best.GetMatchKind(), best.GetScore())
 			}
 		})

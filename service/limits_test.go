@@ -29,7 +29,7 @@ func TestLimitsManyComponents(t *testing.T) {
 	r := shipRecord("MANY")
 	r.Substance = ""
 	for range 10000 {
-		r.DeclaredComposition = append(r.DeclaredComposition, &halovetv1.MixtureShare{Identifier: "HFC-32", MassPercent: 0.01})
+		r.DeclaredComposition = append(r.DeclaredComposition, &halovetv1.MixtureShare{Identifier: "HFC-32", MassPercent: "0.01"})
 	}
 	var before, after runtime.MemStats
 	runtime.GC()

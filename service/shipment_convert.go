@@ -21,10 +21,10 @@ func RecordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
 		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, TotalNetQuantity: r.TotalQuantity, QuantityUnit: r.Unit,
 		PackageCount: r.PackageCount, NetFillPerPackage: r.FillPerPackage, Purpose: wireterms.PurposeToWire(r.Purpose), Condition: wireterms.ConditionToWire(r.Condition)}
 	for _, s := range r.Composition {
-		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: s.MassPct})
+		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: stored(s.MassPct)})
 	}
 	for _, s := range r.Measured {
-		p.MeasuredComposition = append(p.MeasuredComposition, &halovetv1.MeasuredShare{Identifier: s.Identifier, MassPercent: s.MassPct, UncertaintyPoints: s.Uncertainty})
+		p.MeasuredComposition = append(p.MeasuredComposition, &halovetv1.MeasuredShare{Identifier: s.Identifier, MassPercent: stored(s.MassPct), UncertaintyPoints: stored(s.Uncertainty)})
 	}
 	return p
 }
@@ -39,10 +39,10 @@ func recordFromProto(p *halovetv1.ShipmentRecord) validate.Record {
 		Unit: p.GetQuantityUnit(), PackageCount: p.GetPackageCount(), FillPerPackage: p.GetNetFillPerPackage(), Purpose: recordPurpose(p.GetPurpose()),
 		Condition: recordCondition(p.GetCondition())}
 	for _, s := range p.GetDeclaredComposition() {
-		r.Composition = append(r.Composition, validate.DeclaredShare{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent()})
+		r.Composition = append(r.Composition, validate.DeclaredShare{Identifier: s.GetIdentifier(), MassPct: wireFloat(s.GetMassPercent())})
 	}
 	for _, s := range p.GetMeasuredComposition() {
-		r.Measured = append(r.Measured, validate.MeasuredShare{Identifier: s.GetIdentifier(), MassPct: s.GetMassPercent(), Uncertainty: s.GetUncertaintyPoints()})
+		r.Measured = append(r.Measured, validate.MeasuredShare{Identifier: s.GetIdentifier(), MassPct: wireFloat(s.GetMassPercent()), Uncertainty: wireFloat(s.GetUncertaintyPoints())})
 	}
 	return r
 }
@@ -145,8 +145,8 @@ func VerdictFromProto(p *halovetv1.Verdict) validate.Verdict {
 		}
 		for _, c := range fg.GetComponents() {
 			v.Figures.Components = append(v.Figures.Components, substances.ComponentFigures{Designation: c.GetDesignation(),
-				Group: substances.Group(c.GetAnnexGroup()), MassPct: c.GetMassPercent(), MassKg: c.GetMassKg(), ODP: c.GetOdp(),
-				ODPTonnes: c.GetOdpTonnes(), ProtocolGWP: c.GetGwpProtocol(), CO2eTonnes: c.GetCo2ETonnes(), SafetyClass: c.GetSafetyClass()})
+				Group: substances.Group(c.GetAnnexGroup()), MassPct: wireFloat(c.GetMassPercent()), MassKg: wireFloat(c.GetMassKg()), ODP: wireFloat(c.GetOdp()),
+				ODPTonnes: wireFloat(c.GetOdpTonnes()), ProtocolGWP: wireFloat(c.GetGwp_100YrProtocol()), CO2eTonnes: wireFloat(c.GetCo2ETonnes()), SafetyClass: c.GetSafetyClass()})
 		}
 	}
 	return v

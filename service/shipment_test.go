@@ -154,11 +154,11 @@ func TestCheckShipmentRules(t *testing.T) {
 		// source: ASHRAE 34 (R-410A HFC-32 50 +0.5/-1.5, HFC-125 50 +1.5/-0.5; substances/data/blends.csv)
 		{"mixture: R-410A within tolerance", func(r *halovetv1.ShipmentRecord) {
 			r.Substance = "R-410A"
-			r.DeclaredComposition = []*halovetv1.MixtureShare{{Identifier: "HFC-32", MassPercent: 49}, {Identifier: "HFC-125", MassPercent: 51}}
+			r.DeclaredComposition = []*halovetv1.MixtureShare{{Identifier: "HFC-32", MassPercent: "49"}, {Identifier: "HFC-125", MassPercent: "51"}}
 		}, nil, halovetv1.Outcome_OUTCOME_ACCEPTED},
 		{"mixture: R-410A out of tolerance", func(r *halovetv1.ShipmentRecord) {
 			r.Substance = "R-410A"
-			r.DeclaredComposition = []*halovetv1.MixtureShare{{Identifier: "HFC-32", MassPercent: 53}, {Identifier: "HFC-125", MassPercent: 47}}
+			r.DeclaredComposition = []*halovetv1.MixtureShare{{Identifier: "HFC-32", MassPercent: "53"}, {Identifier: "HFC-125", MassPercent: "47"}}
 		}, []string{"MIX_OUT_OF_TOLERANCE", "MIX_OUT_OF_TOLERANCE"}, halovetv1.Outcome_OUTCOME_REJECTED},
 	}
 	for _, tc := range cases {
@@ -218,7 +218,7 @@ func TestCheckShipmentRules(t *testing.T) {
 	// that reads as CFC-12 contradicts the declaration (invented reading).
 	t.Run("measured composition", func(t *testing.T) {
 		rec := shipRecord("MEAS-1")
-		rec.MeasuredComposition = []*halovetv1.MeasuredShare{{Identifier: "CFC-12", MassPercent: 100, UncertaintyPoints: 1}}
+		rec.MeasuredComposition = []*halovetv1.MeasuredShare{{Identifier: "CFC-12", MassPercent: "100", UncertaintyPoints: "1"}}
 		resp, err := client.CheckShipment(context.Background(), &halovetv1.CheckShipmentRequest{Record: rec})
 		if err != nil {
 			t.Fatal(err)
@@ -228,7 +228,7 @@ func TestCheckShipmentRules(t *testing.T) {
 			t.Errorf("%v %v; want rejected with MEASURED_CONTRADICTS and MEASURED_HIDDEN_CONTROLLED", v.GetOutcome(), shipCodes(v))
 		}
 		rec = shipRecord("MEAS-2")
-		rec.MeasuredComposition = []*halovetv1.MeasuredShare{{Identifier: "HCFC-22", MassPercent: 100}}
+		rec.MeasuredComposition = []*halovetv1.MeasuredShare{{Identifier: "HCFC-22", MassPercent: "100"}}
 		resp, err = client.CheckShipment(context.Background(), &halovetv1.CheckShipmentRequest{Record: rec})
 		if err != nil {
 			t.Fatal(err)

@@ -5,6 +5,8 @@ import (
 	"math"
 	"sort"
 	"strings"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // Limits of a reading.
@@ -49,9 +51,11 @@ type MeasuredShare struct {
 
 // AnalysisOptions carry the declaration a reading is compared with.
 type AnalysisOptions struct {
-	Declared   string  // declared substance or blend (any identifier the resolver takes); "" when none
-	NetMassKg  float64 // declared net mass, for the figures of what the reading holds
-	NearMisses int     // non-fitting candidates to list; 0 means 3
+	Declared  string  // declared substance or blend (any identifier the resolver takes); "" when none
+	NetMassKg float64 // declared net mass, for the figures of what the reading holds
+	// NetMass is the declared net mass as an exact decimal; when zero, NetMassKg is read.
+	NetMass    exact.Decimal
+	NearMisses int // non-fitting candidates to list; 0 means 3
 }
 
 // MeasuredComponent is one component of a reading after non-condensables are set aside.
@@ -104,6 +108,13 @@ type HiddenSubstance struct {
 	// ListedGWPTonnes are metric tonnes × ProtocolGWP whatever the group (CFCs and HCFCs have
 	// an Annex-listed GWP but are counted in ODP tonnes): for information.
 	ListedGWPTonnes float64
+	// Exact holds the figures as exact decimals; the float64 fields are their nearest floats.
+	Exact HiddenExact
+}
+
+// HiddenExact are a hidden substance's figures as exact decimals.
+type HiddenExact struct {
+	MassPct, MassKg, ODP, ODPTonnes, ProtocolGWP, CO2eTonnes, ListedGWPTonnes exact.Decimal
 }
 
 // ReadingState says what the figures allow to be said about a cylinder's contents.
@@ -173,6 +184,9 @@ type readComp struct {
 	read float64
 	pct  float64 // renormalised
 	unc  float64 // renormalised
+	// pctX is pct as a decimal: read × 100 / (sum of the refrigerant shares read), rounded
+	// to exact.Percent's derived places; the figures of what the reading holds use it.
+	pctX exact.Decimal
 }
 
 // Analyse compares a reading with every catalogue substance and blend and, when opts names
@@ -218,6 +232,12 @@ func (c *Catalogue) Analyse(r Reading, opts AnalysisOptions) (Analysis, error) {
 	if err := checkMass(opts.NetMassKg); err != nil {
 		return Analysis{}, err
 	}
+	netMass := opts.NetMass
+	if netMass.IsZero() {
+		netMass = exact.OfFloat(opts.NetMassKg)
+	} else if err := checkMassExact(netMass); err != nil {
+		return Analysis{}, err
+	}
 	var declared target
 	hasDeclared := strings.TrimSpace(opts.Declared) != ""
 	if hasDeclared {
@@ -257,10 +277,10 @@ func (c *Catalogue) Analyse(r Reading, opts AnalysisOptions) (Analysis, error) {
 		m := c.match(declared, rd)
 		a.Declared = &m
 		a.DeclaredFits = m.Fits
-		a.Hidden = c.hidden(declared, comps, opts.NetMassKg)
+		a.Hidden = c.hidden(declared, comps, netMass)
 	}
 
-	a.Figures = readingFigures(comps, opts.NetMassKg)
+	a.Figures = readingFigures(comps, netMass)
 	a.Cautions = a.Figures.Cautions
 	a.Summary = a.summary(comps, opts.Declared)
 	return a, nil
@@ -269,13 +289,11 @@ func (c *Catalogue) Analyse(r Reading, opts AnalysisOptions) (Analysis, error) {
 // readingFigures evaluates the renormalised reading at a net mass. Unlike EvaluateShares it
 // keeps nothing in the catalogue's composition cache: readings rarely repeat, and they must
 // not crowd out the compositions that shipment batches repeat.
-func readingFigures(comps []readComp, netMassKg float64) Evaluation {
+func readingFigures(comps []readComp, netMassKg exact.Decimal) Evaluation {
 	cd := make([]compData, 0, len(comps))
 	for _, rc := range comps {
 		if rc.pct > 0 {
-			d := rc.sub.comps[0]
-			d.pct = rc.pct
-			cd = append(cd, d)
+			cd = append(cd, rc.sub.comps[0].withPct(rc.pctX))
 		}
 	}
 	var ev Evaluation
@@ -288,7 +306,7 @@ func readingFigures(comps []readComp, netMassKg float64) Evaluation {
 	} else {
 		ev = mixtureBase("", KindBlend, "", cd)
 	}
-	fillMass(&ev, cd, netMassKg, nil)
+	fillExact(&ev, cd, netMassKg)
 	ev.Designation = ""
 	return ev
 }
@@ -374,7 +392,12 @@ func (c *Catalogue) readReading(r Reading) (reading, float64, error) {
 		return reading{}, 0, &InputError{Field: "components", Reason: "the reading shows no refrigerant, only non-condensables; nothing can be matched (an empty or air-filled cylinder)"}
 	}
 	scale := 100 / ref
+	refX := exact.Zero
+	for _, rc := range comps {
+		refX = refX.Add(exact.OfFloat(rc.read))
+	}
 	for i := range comps {
+		comps[i].pctX = exact.Derive(exact.OfFloat(comps[i].read).Mul(exact.Hundred), refX, exact.Percent)
 		comps[i].pct = comps[i].read * scale
 		comps[i].unc *= scale
 	}
@@ -648,7 +671,7 @@ func (c *Catalogue) setAside(rd reading) (aside, clean []string) {
 
 // hidden lists the controlled components of the reading (above their uncertainty) that the
 // declared entry does not contain.
-func (c *Catalogue) hidden(declared target, comps []readComp, netMassKg float64) []HiddenSubstance {
+func (c *Catalogue) hidden(declared target, comps []readComp, netMassKg exact.Decimal) []HiddenSubstance {
 	cd, _ := c.candidateComps(declared)
 	var out []HiddenSubstance
 	for _, rc := range comps {
@@ -663,13 +686,16 @@ func (c *Catalogue) hidden(declared target, comps []readComp, netMassKg float64)
 		if listed {
 			continue
 		}
-		kg := netMassKg * rc.pct / 100
-		t := kg / 1000
-		h := HiddenSubstance{Designation: s.Designation, Group: s.Group, MassPct: rc.pct, MassKg: kg,
-			ODP: s.ODP, ODPTonnes: t * s.ODP, ProtocolGWP: s.ProtocolGWP(), ListedGWPTonnes: t * s.ProtocolGWP()}
+		d := rc.sub.comps[0]
+		kg := netMassKg.Percent(rc.pctX)
+		t := kg.Shift(-3)
+		x := HiddenExact{MassPct: rc.pctX, MassKg: kg, ODP: d.odpX, ODPTonnes: t.Mul(d.odpX), ProtocolGWP: d.mpGWPX, ListedGWPTonnes: t.Mul(d.mpGWPX)}
 		if annexF(s.Group) {
-			h.CO2eTonnes = t * s.ProtocolGWP()
+			x.CO2eTonnes = x.ListedGWPTonnes
 		}
+		h := HiddenSubstance{Designation: s.Designation, Group: s.Group, MassPct: rc.pct, MassKg: kg.Float64(),
+			ODP: s.ODP, ODPTonnes: x.ODPTonnes.Float64(), ProtocolGWP: s.ProtocolGWP(), CO2eTonnes: x.CO2eTonnes.Float64(),
+			ListedGWPTonnes: x.ListedGWPTonnes.Float64(), Exact: x}
 		out = append(out, h)
 	}
 	return out

@@ -65,7 +65,7 @@ func BenchmarkEvaluateInto(b *testing.B) {
 
 func BenchmarkEvaluateShares(b *testing.B) {
 	c := testCatalogue(b)
-	shares := []Share{{"R-32", 23}, {"R-125", 25}, {"R-134a", 52}} // R-407C composition (ASHRAE 34)
+	shares := []Share{{Identifier: "R-32", MassPct: 23}, {Identifier: "R-125", MassPct: 25}, {Identifier: "R-134a", MassPct: 52}} // R-407C composition (ASHRAE 34)
 	b.ReportAllocs()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {

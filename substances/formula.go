@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 	"unicode/utf8"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // Formula is a molecular formula: element symbol -> atom count.
@@ -48,10 +50,22 @@ const (
 )
 
 // iupacWeights are the IUPAC abridged standard atomic weights (IUPAC CIAAW, abridged standard atomic weights).
-var iupacWeights = map[string]float64{
-	"H": 1.008, "C": 12.011, "N": 14.007, "O": 15.999, "F": 18.998,
-	"S": 32.06, "Cl": 35.45, "Br": 79.904, "I": 126.90,
+// They are written as decimals and summed as decimals: a molar mass is exact to the places of
+// the weights (C2H2F4 is 102.03 g/mol, not 102.03000000000002).
+var iupacWeightsExact = map[string]exact.Decimal{
+	"H": exact.MustParse("1.008"), "C": exact.MustParse("12.011"), "N": exact.MustParse("14.007"),
+	"O": exact.MustParse("15.999"), "F": exact.MustParse("18.998"), "S": exact.MustParse("32.06"),
+	"Cl": exact.MustParse("35.45"), "Br": exact.MustParse("79.904"), "I": exact.MustParse("126.90"),
 }
+
+// iupacWeights are iupacWeightsExact as floats, for the structural-formula checks.
+var iupacWeights = func() map[string]float64 {
+	m := make(map[string]float64, len(iupacWeightsExact))
+	for el, w := range iupacWeightsExact {
+		m[el] = w.Float64()
+	}
+	return m
+}()
 
 // knownElements are the symbols of the 118 named elements (IUPAC periodic table, from memory).
 var knownElements = func() map[string]bool {
@@ -274,25 +288,32 @@ func (f Formula) String() string { return f.Hill() }
 // weights of iupacWeights. It fails (wrapping ErrNoAtomicWeight) for an element outside that
 // list, and (wrapping ErrFormula) for an empty formula or a negative count.
 func (f Formula) MolarMass() (float64, error) {
-	total := 0.0
+	m, err := f.MolarMassExact()
+	return m.Float64(), err
+}
+
+// MolarMassExact is MolarMass as an exact decimal: the sum of count × weight over the
+// elements, with the weights of iupacWeightsExact.
+func (f Formula) MolarMassExact() (exact.Decimal, error) {
+	total := exact.Zero
 	atoms := 0
 	for _, el := range formulaElements(f) {
 		n := f[el]
 		if n < 0 {
-			return 0, fmt.Errorf("%w: element %s has a negative count %d", ErrFormula, el, n)
+			return exact.Zero, fmt.Errorf("%w: element %s has a negative count %d", ErrFormula, el, n)
 		}
 		if n == 0 {
 			continue
 		}
-		w, ok := iupacWeights[el]
+		w, ok := iupacWeightsExact[el]
 		if !ok {
-			return 0, fmt.Errorf("%w: %s (weights are carried for H, C, N, O, F, S, Cl, Br, I)", ErrNoAtomicWeight, el)
+			return exact.Zero, fmt.Errorf("%w: %s (weights are carried for H, C, N, O, F, S, Cl, Br, I)", ErrNoAtomicWeight, el)
 		}
-		total += w * float64(n)
+		total = total.Add(w.Mul(exact.FromInt(int64(n))))
 		atoms += n
 	}
 	if atoms == 0 {
-		return 0, fmt.Errorf("%w: empty formula has no molar mass", ErrFormula)
+		return exact.Zero, fmt.Errorf("%w: empty formula has no molar mass", ErrFormula)
 	}
 	return total, nil
 }

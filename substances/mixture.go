@@ -7,6 +7,8 @@ import (
 	"math"
 	"strconv"
 	"strings"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // Blend GWP conventions. Both are reported, labelled.
@@ -21,16 +23,23 @@ const (
 
 // Share is one component of an ad-hoc composition.
 type Share struct {
-	Identifier string  // designation, synonym, CAS number or formula of a catalogue substance
-	MassPct    float64 // mass percent, above 0 and at most 100
+	Identifier string // designation, synonym, CAS number or formula of a catalogue substance
+	// MassPct is the mass percent, above 0 and at most 100. It is read as the shortest
+	// decimal that gives this float64 (exact.FromFloat), so a share written as "33.3" is
+	// 33.3 exactly in the arithmetic.
+	MassPct float64
 }
+
+// percent returns the share's exact mass percent.
+func (sh Share) percent() exact.Decimal { return exact.OfFloat(sh.MassPct) }
 
 // GWPFigure is a mixture's 100-year GWP under one set of values and one convention.
 type GWPFigure struct {
 	Set        GWPSet
-	Convention string  // ConventionAllComponents or ConventionAnnexFOnly
-	GWP        float64 // mass-fraction-weighted sum, unrounded
-	Complete   bool    // every component the convention counts has a value in the set
+	Convention string        // ConventionAllComponents or ConventionAnnexFOnly
+	Value      exact.Decimal // mass-fraction-weighted sum, exact
+	GWP        float64       // Value as the nearest float64, for callers that still compute in floats
+	Complete   bool          // every component the convention counts has a value in the set
 }
 
 // ComponentFigures are the figures of one component of an evaluated quantity.
@@ -44,6 +53,29 @@ type ComponentFigures struct {
 	ProtocolGWP float64 // the GWP listed in the Protocol's Annexes (0 when none is listed)
 	CO2eTonnes  float64 // metric tonnes × ProtocolGWP, for Annex F components only
 	SafetyClass string
+	// Exact holds the same figures as exact decimals; the float64 fields above are their
+	// nearest floats, kept for callers that still compute in floats (validate, controls).
+	// A ComponentFigures built outside this package may leave Exact unset.
+	Exact ComponentExact
+}
+
+// ComponentExact are a component's figures as exact decimals: products of the stored
+// figures and the net mass, never rounded.
+type ComponentExact struct {
+	MassPct     exact.Decimal
+	MassKg      exact.Decimal
+	ODP         exact.Decimal
+	ODPTonnes   exact.Decimal
+	ProtocolGWP exact.Decimal
+	CO2eTonnes  exact.Decimal
+}
+
+// EvaluationExact are an evaluation's totals as exact decimals.
+type EvaluationExact struct {
+	ODP        exact.Decimal // mass-fraction-weighted ODP
+	NetMassKg  exact.Decimal
+	ODPTonnes  exact.Decimal
+	CO2eTonnes exact.Decimal
 }
 
 // Evaluation gives ODP, GWP and CO2-eq figures of a net mass of a substance or mixture.
@@ -61,6 +93,9 @@ type Evaluation struct {
 	HS2022      string // HS 2022 subheading(s)
 	HS2017      string // HS 2017 subheading(s)
 	HSNote      string
+	// Exact holds ODP, NetMassKg, ODPTonnes and CO2eTonnes as exact decimals; the float64
+	// fields are their nearest floats.
+	Exact EvaluationExact
 }
 
 // GWP returns the figure for a set and convention.
@@ -158,14 +193,27 @@ type compData struct {
 	has         [len(gwpSets)]bool
 	safety      string
 	halogen     bool
+	// The same figures as exact decimals, from the stored values.
+	pctX   exact.Decimal
+	odpX   exact.Decimal
+	mpGWPX exact.Decimal
+	gwpX   [len(gwpSets)]exact.Decimal
+}
+
+// withPct returns d with its share set to p.
+func (d compData) withPct(p exact.Decimal) compData {
+	d.pctX, d.pct = p, p.Float64()
+	return d
 }
 
 func annexF(g Group) bool { return g == GroupFI || g == GroupFII }
 
 func newCompData(s *Substance, f Formula, pct float64) compData {
-	d := compData{designation: s.Designation, formula: s.Formula, group: s.Group, pct: pct, odp: s.ODP, mpGWP: s.GWP[SetProtocol], safety: s.SafetyClass}
+	d := compData{designation: s.Designation, formula: s.Formula, group: s.Group, pct: pct, odp: s.ODP, mpGWP: s.GWP[SetProtocol], safety: s.SafetyClass,
+		pctX: exact.OfFloat(pct), odpX: exact.OfFloat(s.ODP), mpGWPX: exact.OfFloat(s.GWP[SetProtocol])}
 	for i, set := range gwpSets {
 		d.gwp[i], d.has[i] = s.GWP[set]
+		d.gwpX[i] = exact.OfFloat(d.gwp[i])
 	}
 	for _, el := range []string{"F", "Cl", "Br", "I"} {
 		if f.Count(el) > 0 {
@@ -175,40 +223,35 @@ func newCompData(s *Substance, f Formula, pct float64) compData {
 	return d
 }
 
-// gwpFigures computes the mixture GWPs. Sums run over mass percentages and are divided by
-// 100 at the end, which keeps integer percentages exact.
+// gwpFigures computes the mixture GWPs as exact weighted sums: Σ share% × GWP / 100.
 func gwpFigures(comps []compData) []GWPFigure {
 	out := make([]GWPFigure, 0, 2*len(gwpSets)-1)
-	for i, set := range gwpSets {
-		if set != SetProtocol {
-			sum, complete := 0.0, true
-			for _, c := range comps {
-				if !c.has[i] {
-					complete = false
-					continue
-				}
-				sum += c.pct * c.gwp[i]
-			}
-			out = append(out, GWPFigure{Set: set, Convention: ConventionAllComponents, GWP: sum / 100, Complete: complete})
-		}
-		sum, complete := 0.0, true
+	figure := func(i int, convention string, counts func(compData) bool) GWPFigure {
+		sum, complete := exact.Zero, true
 		for _, c := range comps {
-			if !annexF(c.group) {
+			if !counts(c) {
 				continue
 			}
 			if !c.has[i] {
 				complete = false
 				continue
 			}
-			sum += c.pct * c.gwp[i]
+			sum = sum.Add(c.gwpX[i].Percent(c.pctX))
 		}
-		out = append(out, GWPFigure{Set: set, Convention: ConventionAnnexFOnly, GWP: sum / 100, Complete: complete})
+		return GWPFigure{Set: gwpSets[i], Convention: convention, Value: sum, GWP: sum.Float64(), Complete: complete}
+	}
+	for i, set := range gwpSets {
+		if set != SetProtocol {
+			out = append(out, figure(i, ConventionAllComponents, func(compData) bool { return true }))
+		}
+		out = append(out, figure(i, ConventionAnnexFOnly, func(c compData) bool { return annexF(c.group) }))
 	}
 	return out
 }
 
-// fillMass sets the mass-dependent figures of e for net mass m, reusing buf when it is
-// large enough.
+// fillMass sets the mass-dependent figures of e for net mass m in float64 only, reusing
+// buf when it is large enough: the bulk check's loop (EvaluateInto) allocates nothing.
+// Exact figures are added by fillExact.
 func fillMass(e *Evaluation, comps []compData, m float64, buf []ComponentFigures) {
 	e.NetMassKg = m
 	if cap(buf) >= len(comps) {
@@ -217,6 +260,7 @@ func fillMass(e *Evaluation, comps []compData, m float64, buf []ComponentFigures
 		e.Components = make([]ComponentFigures, len(comps))
 	}
 	e.ODPTonnes, e.CO2eTonnes = 0, 0
+	e.Exact.NetMassKg, e.Exact.ODPTonnes, e.Exact.CO2eTonnes = exact.Zero, exact.Zero, exact.Zero
 	for i := range comps {
 		c := &comps[i]
 		kg := m * c.pct / 100
@@ -232,14 +276,40 @@ func fillMass(e *Evaluation, comps []compData, m float64, buf []ComponentFigures
 	}
 }
 
+// fillExact sets the mass-dependent figures of e for net mass m as exact decimals, and the
+// float64 fields to their nearest floats. Every figure is an exact product: kg = m ×
+// share% / 100, t = kg / 1000, ODP t = t × ODP, CO2-eq t = t × Annex GWP (Annex F only).
+func fillExact(e *Evaluation, comps []compData, m exact.Decimal) {
+	if len(e.Components) != len(comps) {
+		e.Components = make([]ComponentFigures, len(comps))
+	}
+	odpT, co2e := exact.Zero, exact.Zero
+	for i := range comps {
+		c := &comps[i]
+		kg := m.Percent(c.pctX)
+		t := kg.Shift(-3)
+		x := ComponentExact{MassPct: c.pctX, MassKg: kg, ODP: c.odpX, ODPTonnes: t.Mul(c.odpX), ProtocolGWP: c.mpGWPX}
+		if annexF(c.group) {
+			x.CO2eTonnes = t.Mul(c.mpGWPX)
+		}
+		e.Components[i] = ComponentFigures{Designation: c.designation, Group: c.group, MassPct: c.pct, MassKg: kg.Float64(),
+			ODP: c.odp, ODPTonnes: x.ODPTonnes.Float64(), ProtocolGWP: c.mpGWP, CO2eTonnes: x.CO2eTonnes.Float64(),
+			SafetyClass: c.safety, Exact: x}
+		odpT = odpT.Add(x.ODPTonnes)
+		co2e = co2e.Add(x.CO2eTonnes)
+	}
+	e.Exact.NetMassKg, e.Exact.ODPTonnes, e.Exact.CO2eTonnes = m, odpT, co2e
+	e.NetMassKg, e.ODPTonnes, e.CO2eTonnes = m.Float64(), odpT.Float64(), co2e.Float64()
+}
+
 // mixtureBase computes the mass-independent figures of a composition.
 func mixtureBase(designation string, kind Kind, class string, comps []compData) Evaluation {
 	e := Evaluation{Designation: designation, Kind: kind, SafetyClass: class, GWPs: gwpFigures(comps)}
-	odp := 0.0
+	odp := exact.Zero
 	for _, c := range comps {
-		odp += c.pct * c.odp
+		odp = odp.Add(c.odpX.Percent(c.pctX))
 	}
-	e.ODP = odp / 100
+	e.Exact.ODP, e.ODP = odp, odp.Float64()
 	e.Cautions = cautionsFor(class, comps)
 	if kind == KindBlend || len(comps) > 1 {
 		shares := make([]HSShare, len(comps))
@@ -314,6 +384,13 @@ func checkMass(m float64) error {
 	return nil
 }
 
+func checkMassExact(m exact.Decimal) error {
+	if m.Sign() < 0 {
+		return &InputError{Field: "net_mass_kg", Reason: fmt.Sprintf("%s is not accepted; give the net mass in kg as a decimal >= 0", m)}
+	}
+	return nil
+}
+
 // targetFor finds the one entry an identifier names: an exact name first, else Resolve.
 func (c *Catalogue) targetFor(identifier, field string) (target, error) {
 	if i, ok := c.lookupName(identifier); ok {
@@ -345,9 +422,32 @@ func (c *Catalogue) EvaluateInto(dst *Evaluation, designation string, netMassKg 
 	if err := checkMass(netMassKg); err != nil {
 		return err
 	}
+	comps, err := c.evaluateInto(dst, designation)
+	if err == nil {
+		fillMass(dst, comps, netMassKg, dst.Components)
+	}
+	return err
+}
+
+// EvaluateExact is Evaluate for a net mass given as an exact decimal (as the API carries it).
+func (c *Catalogue) EvaluateExact(designation string, netMassKg exact.Decimal) (Evaluation, error) {
+	var ev Evaluation
+	if err := checkMassExact(netMassKg); err != nil {
+		return ev, err
+	}
+	comps, err := c.evaluateInto(&ev, designation)
+	if err == nil {
+		fillExact(&ev, comps, netMassKg)
+	}
+	return ev, err
+}
+
+// evaluateInto copies the cached mass-independent figures of the entry into dst, keeping
+// dst's Components buffer, and returns the entry's components.
+func (c *Catalogue) evaluateInto(dst *Evaluation, designation string) ([]compData, error) {
 	t, err := c.targetFor(designation, "designation")
 	if err != nil {
-		return err
+		return nil, err
 	}
 	var comps []compData
 	var base *Evaluation
@@ -358,8 +458,8 @@ func (c *Catalogue) EvaluateInto(dst *Evaluation, designation string, netMassKg 
 	}
 	buf := dst.Components
 	*dst = *base
-	fillMass(dst, comps, netMassKg, buf)
-	return nil
+	dst.Components = buf
+	return comps, nil
 }
 
 // EvaluateShares gives the figures of netMassKg of an ad-hoc composition. Each identifier must
@@ -367,6 +467,14 @@ func (c *Catalogue) EvaluateInto(dst *Evaluation, designation string, netMassKg 
 // percentages must sum to 100 ± 0.01 (else *CompositionError).
 func (c *Catalogue) EvaluateShares(shares []Share, netMassKg float64) (Evaluation, error) {
 	if err := checkMass(netMassKg); err != nil {
+		return Evaluation{}, err
+	}
+	return c.EvaluateSharesExact(shares, exact.OfFloat(netMassKg))
+}
+
+// EvaluateSharesExact is EvaluateShares for a net mass given as an exact decimal.
+func (c *Catalogue) EvaluateSharesExact(shares []Share, netMassKg exact.Decimal) (Evaluation, error) {
+	if err := checkMassExact(netMassKg); err != nil {
 		return Evaluation{}, err
 	}
 	if len(shares) == 0 {
@@ -377,10 +485,14 @@ func (c *Catalogue) EvaluateShares(shares []Share, netMassKg float64) (Evaluatio
 	}
 	comps := make([]compData, len(shares))
 	ids := make([]int32, len(shares))
-	sum := 0.0
+	sum := exact.Zero
 	for i, sh := range shares {
-		if math.IsNaN(sh.MassPct) || sh.MassPct <= 0 || sh.MassPct > 100 {
+		if math.IsNaN(sh.MassPct) || math.IsInf(sh.MassPct, 0) {
 			return Evaluation{}, &InputError{Field: fmt.Sprintf("shares[%d].mass_pct", i), Reason: fmt.Sprintf("%v is not accepted; give a mass percentage above 0 and at most 100", sh.MassPct)}
+		}
+		pct := sh.percent()
+		if pct.Sign() <= 0 || pct.Cmp(exact.Hundred) > 0 {
+			return Evaluation{}, &InputError{Field: fmt.Sprintf("shares[%d].mass_pct", i), Reason: fmt.Sprintf("%s is not accepted; give a mass percentage above 0 and at most 100", pct)}
 		}
 		t, err := c.targetFor(sh.Identifier, "")
 		if err != nil {
@@ -398,22 +510,21 @@ func (c *Catalogue) EvaluateShares(shares []Share, netMassKg float64) (Evaluatio
 		}
 		ids[i] = t.idx
 		e := &c.subs[t.idx]
-		comps[i] = e.comps[0]
-		comps[i].pct = sh.MassPct
-		sum += sh.MassPct
+		comps[i] = e.comps[0].withPct(pct)
+		sum = sum.Add(pct)
 	}
-	if math.Abs(sum-100) > compositionTolerance {
-		return Evaluation{}, &CompositionError{Sum: sum}
+	if sum.Sub(exact.Hundred).Abs().Cmp(exact.OfFloat(compositionTolerance)) > 0 {
+		return Evaluation{}, &CompositionError{Sum: sum.Float64()}
 	}
 	if len(comps) == 1 {
 		e := &c.subs[ids[0]]
 		ev := e.base
-		fillMass(&ev, e.comps, netMassKg, nil)
+		fillExact(&ev, e.comps, netMassKg)
 		return ev, nil
 	}
 	base := c.adhocBase(ids, comps)
 	ev := base.base
-	fillMass(&ev, base.comps, netMassKg, nil)
+	fillExact(&ev, base.comps, netMassKg)
 	return ev, nil
 }
 
@@ -426,10 +537,11 @@ type adhocEntry struct {
 // adhocBase returns the cached figures of a composition, computing them at first sight.
 // Batches repeat compositions, and the HS classification of a mixture is the costly part.
 func (c *Catalogue) adhocBase(ids []int32, comps []compData) *adhocEntry {
-	key := make([]byte, 0, 12*len(comps))
+	key := make([]byte, 0, 16*len(comps))
 	for i := range comps {
 		key = binary.LittleEndian.AppendUint32(key, uint32(ids[i]))
-		key = binary.LittleEndian.AppendUint64(key, math.Float64bits(comps[i].pct))
+		key = append(key, comps[i].pctX.String()...)
+		key = append(key, 0)
 	}
 	if v, ok := c.adhoc.Load(string(key)); ok {
 		return v.(*adhocEntry)

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"strings"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/terms"
 )
 
@@ -82,6 +83,17 @@ type Substance struct {
 	HS2022       []string // HS 2022 subheadings, "2903.45"
 	SafetyClass  string   // ASHRAE 34 safety class, "" when unknown
 	Sources      string   // publications the values come from
+}
+
+// ExactMolarMass returns the molar mass computed from the formula as an exact decimal, and
+// false when the formula has none (an element without a carried weight).
+func (s *Substance) ExactMolarMass() (exact.Decimal, bool) {
+	f, err := ParseFormula(s.Formula)
+	if err != nil {
+		return exact.Zero, false
+	}
+	m, err := f.MolarMassExact()
+	return m, err == nil
 }
 
 // ProtocolGWP returns the GWP the Protocol's CO2-eq arithmetic uses (0 when none is listed).

@@ -9,14 +9,15 @@ import (
 )
 
 // CSV of lookup and mix: the column names are the .proto field names of the values they
-// hold (as in the JSON dialect), numbers in full (no rounding), lists joined by ";".
+// hold (as in the JSON dialect), figures as the exact decimals the server sends (no
+// rounding; an unknown figure is an empty cell), lists joined by ";".
 
 // lookupGwpSets are the GWP columns of lookup's CSV, in this order: the Protocol's Annex
 // values, then the IPCC assessment reports.
 var lookupGwpSets = []string{"MP", "AR4", "AR5", "AR6"}
 
 var lookupCSVHeader = []string{"identifier", "result", "designation", "kind", "annex_group", "chemical_name",
-	"formula", "cas_number", "odp", "gwp100_mp", "gwp100_ar4", "gwp100_ar5", "gwp100_ar6", "lifetime_years",
+	"formula", "cas_number", "odp", "gwp_100yr_mp", "gwp_100yr_ar4", "gwp_100yr_ar5", "gwp_100yr_ar6", "lifetime_years", "molar_mass_g_per_mol",
 	"safety_class", "hs2022_subheading", "components", "candidates", "suggestions"}
 
 // lookupCSVRow is one identifier's row: result is resolved, ambiguous or unresolved; the
@@ -53,11 +54,11 @@ func lookupCSVRow(r lookupResult) []string {
 	set("designation", cands[0].GetDesignation())
 	set("kind", entryKindLabel(cands[0].GetKind()))
 	ev := r.evaluation
-	set("odp", fmtFull(ev.GetOdp()))
+	set("odp", ev.GetOdp())
 	for _, g := range ev.GetGwps() {
 		for _, want := range lookupGwpSets {
 			if g.GetGwpSet() == want {
-				set("gwp100_"+strings.ToLower(want), fmtFull(g.GetGwp100()))
+				set("gwp_100yr_"+strings.ToLower(want), g.GetGwp_100Yr())
 			}
 		}
 	}
@@ -68,13 +69,12 @@ func lookupCSVRow(r lookupResult) []string {
 		set("chemical_name", s.GetChemicalName())
 		set("formula", s.GetFormula())
 		set("cas_number", s.GetCasNumber())
-		if s.GetLifetimeYears() > 0 {
-			set("lifetime_years", fmtFull(s.GetLifetimeYears()))
-		}
+		set("lifetime_years", s.GetLifetimeYears())
+		set("molar_mass_g_per_mol", s.GetMolarMassGPerMol())
 	} else if b := r.entry.GetEntry().GetBlend(); b != nil {
 		parts := make([]string, len(b.GetComponents()))
 		for i, c := range b.GetComponents() {
-			parts[i] = c.GetDesignation() + ":" + fmtFull(c.GetMassPercent())
+			parts[i] = c.GetDesignation() + ":" + c.GetMassPercent()
 		}
 		set("components", strings.Join(parts, ";"))
 	}
@@ -86,20 +86,19 @@ func lookupCSVRow(r lookupResult) []string {
 func writeMixCSV(w io.Writer, ev *halovetv1.EvaluateMixtureResponse) error {
 	cw := csv.NewWriter(w)
 	_ = cw.Write([]string{"designation", "component", "annex_group", "mass_percent", "mass_kg", "odp", "odp_tonnes",
-		"gwp_protocol", "co2e_tonnes", "safety_class"})
+		"gwp_100yr_protocol", "co2e_tonnes", "safety_class"})
 	for _, c := range ev.GetComponents() {
-		_ = cw.Write([]string{ev.GetDesignation(), c.GetDesignation(), c.GetAnnexGroup(), fmtFull(c.GetMassPercent()),
-			fmtFull(c.GetMassKg()), fmtFull(c.GetOdp()), fmtFull(c.GetOdpTonnes()), fmtFull(c.GetGwpProtocol()),
-			fmtFull(c.GetCo2ETonnes()), c.GetSafetyClass()})
+		_ = cw.Write([]string{ev.GetDesignation(), c.GetDesignation(), c.GetAnnexGroup(), c.GetMassPercent(),
+			c.GetMassKg(), c.GetOdp(), c.GetOdpTonnes(), c.GetGwp_100YrProtocol(), c.GetCo2ETonnes(), c.GetSafetyClass()})
 	}
 	gwp := ""
 	for _, g := range ev.GetGwps() {
 		if g.GetGwpSet() == "MP" {
-			gwp = fmtFull(g.GetGwp100())
+			gwp = g.GetGwp_100Yr()
 		}
 	}
-	_ = cw.Write([]string{ev.GetDesignation(), "total", "", "", fmtFull(ev.GetNetMassKg()), fmtFull(ev.GetOdp()),
-		fmtFull(ev.GetOdpTonnes()), gwp, fmtFull(ev.GetCo2ETonnes()), ev.GetSafetyClass()})
+	_ = cw.Write([]string{ev.GetDesignation(), "total", "", "", ev.GetNetMassKg(), ev.GetOdp(),
+		ev.GetOdpTonnes(), gwp, ev.GetCo2ETonnes(), ev.GetSafetyClass()})
 	cw.Flush()
 	return cw.Error()
 }

@@ -12,6 +12,7 @@ import (
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/validate"
 )
@@ -101,10 +102,10 @@ func cylinderRequest(reading, declared string, massKg, uncertainty float64, near
 	if len(shares) == 0 {
 		return nil, usageErr("READING is empty: give the shares the analyser reports, e.g. \"HCFC-22=95±0.5;air=5\"")
 	}
-	req := &halovetv1.AnalyseReadingRequest{Declared: strings.TrimSpace(declared), NetMassKg: massKg,
-		UncertaintyPoints: uncertainty, NearMisses: int32(near)}
+	req := &halovetv1.AnalyseReadingRequest{Declared: strings.TrimSpace(declared), NetMassKg: wireOf(massKg),
+		UncertaintyPoints: wireOf(uncertainty), NearMisses: int32(near)}
 	for _, s := range shares {
-		req.Components = append(req.Components, &halovetv1.MeasuredShare{Identifier: s.Identifier, MassPercent: s.MassPct, UncertaintyPoints: s.Uncertainty})
+		req.Components = append(req.Components, &halovetv1.MeasuredShare{Identifier: s.Identifier, MassPercent: wireOf(s.MassPct), UncertaintyPoints: wireOf(s.Uncertainty)})
 	}
 	return req, nil
 }
@@ -132,8 +133,8 @@ func writeCylinderText(w io.Writer, req *halovetv1.AnalyseReadingRequest, r *hal
 	kv.raw("Cylinder reading\n")
 	if d := r.GetDeclared(); d != nil {
 		mass := "no --mass-kg given"
-		if req.GetNetMassKg() > 0 {
-			mass = lookupNum(req.GetNetMassKg()) + " kg"
+		if positive(req.GetNetMassKg()) {
+			mass = shown(req.GetNetMassKg(), exact.Kg) + " kg"
 		}
 		kv.line("declared", d.GetDesignation()+", "+mass)
 		if r.GetDeclaredFits() {
@@ -143,8 +144,8 @@ func writeCylinderText(w io.Writer, req *halovetv1.AnalyseReadingRequest, r *hal
 		}
 	}
 	kv.line("contents", readingStateText[r.GetState()])
-	if r.GetNonCondensablePercent() > 0 {
-		note := lookupNum(r.GetNonCondensablePercent()) + " % (set aside before matching)"
+	if positive(r.GetNonCondensablePercent()) {
+		note := shown(r.GetNonCondensablePercent(), exact.Percent) + " % (set aside before matching)"
 		if r.GetNonCondensableNote() != "" {
 			note += "; above 1.5 %: check for air ingress"
 		}
@@ -158,8 +159,8 @@ func writeCylinderText(w io.Writer, req *halovetv1.AnalyseReadingRequest, r *hal
 		tw := tabwriter.NewWriter(&tb, 0, 0, 2, ' ', 0)
 		fmt.Fprintln(tw, "    substance\tAnnex/Group\tmass %\tmass kg\tODP\tODP t\tCO2-eq t (Annex F)\tt x Annex GWP")
 		for _, s := range h {
-			fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", s.GetDesignation(), s.GetAnnexGroup(), lookupNum(s.GetMassPercent()),
-				lookupNum(s.GetMassKg()), lookupNum(s.GetOdp()), lookupNum(s.GetOdpTonnes()), lookupNum(s.GetCo2ETonnes()), lookupNum(s.GetListedGwpTonnes()))
+			fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", s.GetDesignation(), s.GetAnnexGroup(), shown(s.GetMassPercent(), exact.Percent),
+				shown(s.GetMassKg(), exact.Kg), shown(s.GetOdp(), exact.ODP), shown(s.GetOdpTonnes(), exact.ODPTonnes), shown(s.GetCo2ETonnes(), exact.CO2eTonnes), shown(s.GetListedCo2ETonnes(), exact.CO2eTonnes))
 		}
 		_ = tw.Flush()
 		kv.raw(tb.String())
@@ -177,8 +178,8 @@ func writeCylinderText(w io.Writer, req *halovetv1.AnalyseReadingRequest, r *hal
 		if m.GetFits() {
 			fits = "yes"
 		}
-		fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", m.GetDesignation(), fits, fmt.Sprintf("%.2f", m.GetDepth()),
-			lookupNum(math.Round(m.GetExcessPoints()*100)/100), textOrDash(strings.Join(m.GetAnnexGroups(), " ")), textOrDash(m.GetSafetyClass()),
+		fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", m.GetDesignation(), fits, wireDec(m.GetDepthRatio()).Fixed(2),
+			shown(m.GetExcessPoints(), exact.Points), textOrDash(strings.Join(m.GetAnnexGroups(), " ")), textOrDash(m.GetSafetyClass()),
 			textOrDash(strings.Join(m.GetExtra(), ", ")), textOrDash(strings.Join(m.GetMissing(), ", ")))
 	}
 	_ = tw.Flush()
@@ -195,9 +196,9 @@ func writeCylinderText(w io.Writer, req *halovetv1.AnalyseReadingRequest, r *hal
 	fmt.Fprintln(tw, "    component\tread %\tmass %\t± points\tAnnex/Group\tsafety class")
 	var hazards []string
 	for _, c := range r.GetComponents() {
-		fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), lookupNum(c.GetReadPercent()), lookupNum(c.GetMassPercent()),
-			lookupNum(c.GetUncertaintyPoints()), textOrDash(c.GetAnnexGroup()), textOrDash(c.GetSafetyClass()))
-		if h := hazardText(c.GetSafetyClass()); h != "" && c.GetMassPercent() > 0 {
+		fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), shown(c.GetReadPercent(), exact.Percent), shown(c.GetMassPercent(), exact.Percent),
+			shown(c.GetUncertaintyPoints(), exact.Points), textOrDash(c.GetAnnexGroup()), textOrDash(c.GetSafetyClass()))
+		if h := hazardText(c.GetSafetyClass()); h != "" && positive(c.GetMassPercent()) {
 			hazards = append(hazards, c.GetDesignation()+" "+h)
 		}
 	}
@@ -217,12 +218,12 @@ func bandTable(m *halovetv1.ReadingMatch) string {
 	fmt.Fprintln(tw, "    component\tmeasured %\tnominal %\tband %\toutside by")
 	for _, f := range m.GetComponents() {
 		out := "—"
-		if f.GetExcessPoints() > 0 {
-			out = lookupNum(math.Round(f.GetExcessPoints()*100)/100) + " points"
+		if positive(f.GetExcessPoints()) {
+			out = shown(f.GetExcessPoints(), exact.Points) + " points"
 		}
-		fmt.Fprintf(tw, "    %s\t%s\t%s\t%s to %s\t%s\n", f.GetDesignation(), lookupNum(math.Round(f.GetMeasuredPercent()*100)/100),
-			lookupNum(f.GetNominalPercent()), lookupNum(math.Round(math.Max(f.GetBandLowPercent(), 0)*100)/100),
-			lookupNum(math.Round(f.GetBandHighPercent()*100)/100), out)
+		fmt.Fprintf(tw, "    %s\t%s\t%s\t%s to %s\t%s\n", f.GetDesignation(), shown(f.GetMeasuredPercent(), exact.Percent),
+			shown(f.GetNominalPercent(), exact.Percent), exact.Max(wireDec(f.GetBandLowPercent()), exact.Zero).Display(exact.Percent),
+			shown(f.GetBandHighPercent(), exact.Percent), out)
 	}
 	_ = tw.Flush()
 	return tb.String()

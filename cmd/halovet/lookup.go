@@ -6,7 +6,6 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"strconv"
 	"strings"
@@ -15,6 +14,7 @@ import (
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -258,8 +258,8 @@ func writeLookupText(w io.Writer, r lookupResult) error {
 			if cas := r.casOf[c.GetDesignation()]; cas != "" {
 				names[i] += " (CAS " + cas + ")"
 			}
-			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%.2f\n", c.GetDesignation(), entryKindLabel(c.GetKind()),
-				textOrDash(c.GetAnnexGroup()), matchKindLabel[c.GetMatchKind()], c.GetMatchedOn(), c.GetScore())
+			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), entryKindLabel(c.GetKind()),
+				textOrDash(c.GetAnnexGroup()), matchKindLabel[c.GetMatchKind()], c.GetMatchedOn(), wireDec(c.GetScore()).Fixed(2))
 		}
 		if err := tw.Flush(); err != nil {
 			return err
@@ -323,10 +323,10 @@ func writeSubstanceText(kv *lookupLines, s *halovetv1.Substance) {
 		group = g + " (Montreal Protocol Annex " + strings.Replace(g, "/", ", Group ", 1) + ")"
 	}
 	kv.line("Annex/Group", group)
-	odp := lookupNum(s.GetOdp())
-	if s.GetOdpRangeHigh() > 0 {
+	odp := shown(s.GetOdp(), exact.ODP)
+	if s.GetOdpRangeHigh() != "" {
 		odp += fmt.Sprintf(" (upper end of the Annex range %s–%s, used for the Protocol's calculations)",
-			lookupNum(s.GetOdpRangeLow()), lookupNum(s.GetOdpRangeHigh()))
+			shown(s.GetOdpRangeLow(), exact.ODP), shown(s.GetOdpRangeHigh(), exact.ODP))
 	}
 	kv.line("ODP", odp)
 	if len(s.GetGwps()) == 0 {
@@ -337,7 +337,7 @@ func writeSubstanceText(kv *lookupLines, s *halovetv1.Substance) {
 		if i == 0 {
 			key = "GWP (100-year)"
 		}
-		v := fmt.Sprintf("%-4s %s", g.GetGwpSet(), lookupNum(g.GetGwp100()))
+		v := fmt.Sprintf("%-4s %s", g.GetGwpSet(), shown(g.GetGwp_100Yr(), exact.GWP))
 		if g.GetGwpSet() == "MP" {
 			v += "  (Protocol annex value)"
 		}
@@ -347,11 +347,11 @@ func writeSubstanceText(kv *lookupLines, s *halovetv1.Substance) {
 		kv.line(key, v)
 	}
 	life := "— (not known)"
-	if s.GetLifetimeYears() > 0 {
-		life = lookupNum(s.GetLifetimeYears()) + " years"
+	if s.GetLifetimeYears() != "" {
+		life = shown(s.GetLifetimeYears(), exact.Years) + " years"
 	}
 	kv.line("lifetime", life)
-	kv.line("molar mass", strconv.FormatFloat(s.GetMolarMassGPerMol(), 'f', 3, 64)+" g/mol")
+	kv.line("molar mass", textOrDash(shown(s.GetMolarMassGPerMol(), exact.GPerMol))+" g/mol")
 	for _, ed := range []struct{ key, edition string }{{"HS 2017", "HS2017"}, {"HS 2022", "HS2022"}} {
 		var codes []string
 		for _, h := range s.GetHsCodes() {
@@ -392,12 +392,12 @@ func writeBlendText(kv *lookupLines, b *halovetv1.Blend, ev *halovetv1.EvaluateM
 	tw := tabwriter.NewWriter(&tb, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "    component\tmass %\ttolerance\tAnnex/Group")
 	for _, c := range b.GetComponents() {
-		fmt.Fprintf(tw, "    %s\t%s\t+%s/-%s\t%s\n", c.GetDesignation(), lookupNum(c.GetMassPercent()),
-			lookupNum(c.GetTolerancePlus()), lookupNum(c.GetToleranceMinus()), textOrDash(groups[c.GetDesignation()]))
+		fmt.Fprintf(tw, "    %s\t%s\t+%s/-%s\t%s\n", c.GetDesignation(), shown(c.GetMassPercent(), exact.Percent),
+			textOrDash(shown(c.GetTolerancePlusPoints(), exact.Points)), textOrDash(shown(c.GetToleranceMinusPoints(), exact.Points)), textOrDash(groups[c.GetDesignation()]))
 	}
 	_ = tw.Flush()
 	kv.raw(tb.String())
-	kv.line("ODP", lookupNum(ev.GetOdp())+"  (mass-weighted)")
+	kv.line("ODP", shown(ev.GetOdp(), exact.ODP)+"  (mass-weighted)")
 	kv.raw(mixtureGWPTable(ev))
 	kv.raw(mixtureHSText(ev))
 	kv.raw(wrapIndented("sources: "+textOrDash(b.GetSources()), "  ", 88))
@@ -432,12 +432,6 @@ func textOrDash(s string) string {
 		return "—"
 	}
 	return s
-}
-
-// lookupNum writes a figure without binary floating-point noise (57.375, not
-// 57.37500000000001): at most 6 decimals, trailing zeros dropped.
-func lookupNum(v float64) string {
-	return strconv.FormatFloat(math.Round(v*1e6)/1e6, 'f', -1, 64)
 }
 
 // wrapText wraps s into lines of at most width bytes, each starting with indent.

@@ -6,13 +6,13 @@ import (
 	"io"
 	"math"
 	"os"
-	"strconv"
 	"strings"
 	"text/tabwriter"
 
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -84,7 +84,7 @@ func mixRequest(spec string, massKg float64) (*halovetv1.EvaluateMixtureRequest,
 	if spec == "" {
 		return nil, usageErr("SPEC is empty: give a blend (R-410A) or shares (R-32:50,R-125:50)")
 	}
-	req := &halovetv1.EvaluateMixtureRequest{NetMassKg: massKg}
+	req := &halovetv1.EvaluateMixtureRequest{NetMassKg: wireOf(massKg)}
 	if !strings.Contains(spec, ":") {
 		req.Mixture = &halovetv1.EvaluateMixtureRequest_Blend{Blend: spec}
 		return req, nil
@@ -114,11 +114,11 @@ func mixRequest(spec string, massKg float64) (*halovetv1.EvaluateMixtureRequest,
 		if id == "" {
 			return nil, usageErr("SPEC share %d (%q) has no identifier before the colon", i+1, p)
 		}
-		pct, err := strconv.ParseFloat(num, 64)
-		if err != nil || math.IsNaN(pct) || math.IsInf(pct, 0) {
-			return nil, usageErr("SPEC share %d (%q): %q is not a mass percentage; write a number such as 50 or 23.5", i+1, p, num)
+		pct, err := exact.Parse(num)
+		if err != nil {
+			return nil, usageErr("SPEC share %d (%q): %q is not a mass percentage; write a decimal such as 50 or 23.5", i+1, p, num)
 		}
-		comp.Shares = append(comp.Shares, &halovetv1.MixtureShare{Identifier: id, MassPercent: pct})
+		comp.Shares = append(comp.Shares, &halovetv1.MixtureShare{Identifier: id, MassPercent: pct.String()})
 	}
 	req.Mixture = &halovetv1.EvaluateMixtureRequest_Composition{Composition: comp}
 	return req, nil
@@ -145,8 +145,8 @@ func mixReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Writer, 
 
 func writeMixText(w io.Writer, ev *halovetv1.EvaluateMixtureResponse) error {
 	kv := &lookupLines{w: w}
-	perKg := ev.GetNetMassKg() == 0
-	amount := lookupNum(ev.GetNetMassKg()) + " kg"
+	perKg := !positive(ev.GetNetMassKg())
+	amount := shown(ev.GetNetMassKg(), exact.Kg) + " kg"
 	if perKg {
 		amount = "per kg (no --mass-kg given)"
 	}
@@ -156,10 +156,10 @@ func writeMixText(w io.Writer, ev *halovetv1.EvaluateMixtureResponse) error {
 	}
 	kv.raw(fmt.Sprintf("Mixture %s, %s\n", name, amount))
 	kv.line("safety class", safetyClassText(ev.GetSafetyClass()))
-	kv.line("ODP", lookupNum(ev.GetOdp())+"  (mass-weighted)")
+	kv.line("ODP", shown(ev.GetOdp(), exact.ODP)+"  (mass-weighted)")
 	if !perKg {
-		kv.line("ODP tonnes", lookupNum(ev.GetOdpTonnes())+"  (each component in its own Annex group)")
-		kv.line("CO2-eq tonnes", lookupNum(ev.GetCo2ETonnes())+"  (Annex F components x Annex GWP, as the Protocol counts)")
+		kv.line("ODP tonnes", shown(ev.GetOdpTonnes(), exact.ODPTonnes)+"  (each component in its own Annex group)")
+		kv.line("CO2-eq tonnes", shown(ev.GetCo2ETonnes(), exact.CO2eTonnes)+"  (Annex F components x Annex GWP, as the Protocol counts)")
 	}
 	kv.raw(mixtureGWPTable(ev))
 	kv.raw("  components\n")
@@ -172,12 +172,12 @@ func writeMixText(w io.Writer, ev *halovetv1.EvaluateMixtureResponse) error {
 	}
 	for _, c := range ev.GetComponents() {
 		if perKg {
-			fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), lookupNum(c.GetMassPercent()), textOrDash(c.GetAnnexGroup()),
-				lookupNum(c.GetOdp()), lookupNum(c.GetGwpProtocol()), textOrDash(c.GetSafetyClass()))
+			fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), shown(c.GetMassPercent(), exact.Percent), textOrDash(c.GetAnnexGroup()),
+				shown(c.GetOdp(), exact.ODP), shown(c.GetGwp_100YrProtocol(), exact.GWP), textOrDash(c.GetSafetyClass()))
 		} else {
-			fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), lookupNum(c.GetMassPercent()),
-				lookupNum(c.GetMassKg()), textOrDash(c.GetAnnexGroup()), lookupNum(c.GetOdp()), lookupNum(c.GetOdpTonnes()),
-				lookupNum(c.GetGwpProtocol()), lookupNum(c.GetCo2ETonnes()), textOrDash(c.GetSafetyClass()))
+			fmt.Fprintf(tw, "    %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", c.GetDesignation(), shown(c.GetMassPercent(), exact.Percent),
+				shown(c.GetMassKg(), exact.Kg), textOrDash(c.GetAnnexGroup()), shown(c.GetOdp(), exact.ODP), shown(c.GetOdpTonnes(), exact.ODPTonnes),
+				shown(c.GetGwp_100YrProtocol(), exact.GWP), shown(c.GetCo2ETonnes(), exact.CO2eTonnes), textOrDash(c.GetSafetyClass()))
 		}
 	}
 	_ = tw.Flush()
@@ -200,7 +200,7 @@ func mixtureGWPTable(ev *halovetv1.EvaluateMixtureResponse) string {
 			rows[g.GetGwpSet()] = c
 			order = append(order, g.GetGwpSet())
 		}
-		v := mixtureGWPText(g.GetGwp100())
+		v := mixtureGWPText(g.GetGwp_100Yr())
 		if !g.GetComplete() {
 			v += " *"
 			partial = true
@@ -245,11 +245,11 @@ func mixtureHSText(ev *halovetv1.EvaluateMixtureResponse) string {
 // gwpText writes a mixture GWP as the published tables do, rounded half-up to a whole
 // number (UK government CO2-eq table: R-410A 2087.5 -> 2088), with the unrounded sum beside it when
 // they differ.
-func mixtureGWPText(v float64) string {
-	exact := math.Round(v*1000) / 1000
-	whole := math.Floor(exact + 0.5)
-	if exact == whole {
-		return strconv.FormatFloat(whole, 'f', 0, 64)
+func mixtureGWPText(v string) string {
+	d := wireDec(v)
+	whole := d.Round(0)
+	if whole.Equal(d) {
+		return whole.String()
 	}
-	return fmt.Sprintf("%s (%s)", strconv.FormatFloat(whole, 'f', 0, 64), strconv.FormatFloat(exact, 'f', -1, 64))
+	return fmt.Sprintf("%s (%s)", whole.String(), d.String())
 }

@@ -84,7 +84,7 @@ func TestMixJSON(t *testing.T) {
 		t.Fatalf("output is not an EvaluateMixtureResponse in protobuf JSON: %v\n%s", err, out.String())
 	}
 	// source: UK government CO2-eq table (testdata/reference/blends.csv): R-507A 3985; 2 t -> 7970 CO2-eq t.
-	if ev.GetDesignation() != "R-507A" || math.Abs(ev.GetCo2ETonnes()-7970) > 1e-6 {
+	if ev.GetDesignation() != "R-507A" || ev.GetCo2ETonnes() != "7970" {
 		t.Errorf("designation %q, CO2-eq t %v; want R-507A and 7970", ev.GetDesignation(), ev.GetCo2ETonnes())
 	}
 }
@@ -125,7 +125,7 @@ func TestMixRequestParsing(t *testing.T) {
 			if tc.code != 0 {
 				return
 			}
-			if req.GetNetMassKg() != tc.mass {
+			if req.GetNetMassKg() != wireOf(tc.mass) {
 				t.Errorf("net mass %v; want %v", req.GetNetMassKg(), tc.mass)
 			}
 			if req.GetBlend() != tc.blend {
@@ -136,7 +136,7 @@ func TestMixRequestParsing(t *testing.T) {
 				t.Fatalf("shares %v; want %v", got, tc.shares)
 			}
 			for i, s := range tc.shares {
-				if got[i].GetIdentifier() != s.id || got[i].GetMassPercent() != s.pct {
+				if got[i].GetIdentifier() != s.id || got[i].GetMassPercent() != wireOf(s.pct) {
 					t.Errorf("share %d: %q %v; want %q %v", i, got[i].GetIdentifier(), got[i].GetMassPercent(), s.id, s.pct)
 				}
 			}
@@ -147,15 +147,16 @@ func TestMixRequestParsing(t *testing.T) {
 func TestMixtureGWPText(t *testing.T) {
 	// Rounding as the published tables do it: half-up of the unrounded sum (UK government CO2-eq table:
 	// R-410A 2087.5 -> 2088, R-407F 1824.5 -> 1825).
-	cases := map[float64]string{
-		2087.5:             "2088 (2087.5)",
-		1824.5:             "1825 (1824.5)",
-		3985:               "3985",
-		3921.6:             "3922 (3921.6)",
-		1773.85:            "1774 (1773.85)",
-		465.07500000000005: "465 (465.075)", // R-454B HFC-only sum with binary noise
-		2424.795102:        "2425 (2424.795)",
-		0:                  "0",
+	// The sum arrives as an exact decimal and is shown in full beside the whole number.
+	cases := map[string]string{
+		"2087.5":      "2088 (2087.5)",
+		"1824.5":      "1825 (1824.5)",
+		"3985":        "3985",
+		"3921.6":      "3922 (3921.6)",
+		"1773.85":     "1774 (1773.85)",
+		"465.075":     "465 (465.075)", // R-454B HFC-only sum
+		"2424.795102": "2425 (2424.795102)",
+		"0":           "0",
 	}
 	for in, want := range cases {
 		if got := mixtureGWPText(in); got != want {

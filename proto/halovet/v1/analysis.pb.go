@@ -86,11 +86,11 @@ type MeasuredShare struct {
 	// Any identifier of one catalogue substance (designation, R-number, chemical name,
 	// CAS number), or "air" / "non-condensables" for the non-condensable gases.
 	Identifier string `protobuf:"bytes,1,opt,name=identifier,proto3" json:"identifier,omitempty"`
-	// Mass percent as read, 0 to 100.
-	MassPercent float64 `protobuf:"fixed64,2,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
+	// Mass percent as read, a decimal from 0 to 100, e.g. "44.2".
+	MassPercent string `protobuf:"bytes,2,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
 	// Plus or minus mass percent points the instrument states for this gas; 0 when it
-	// states none (the request's uncertainty_points then applies).
-	UncertaintyPoints float64 `protobuf:"fixed64,3,opt,name=uncertainty_points,json=uncertaintyPoints,proto3" json:"uncertainty_points,omitempty"`
+	// states none (the request's uncertainty_points then applies). Empty means 0.
+	UncertaintyPoints string `protobuf:"bytes,3,opt,name=uncertainty_points,json=uncertaintyPoints,proto3" json:"uncertainty_points,omitempty"`
 	unknownFields     protoimpl.UnknownFields
 	sizeCache         protoimpl.SizeCache
 }
@@ -132,18 +132,18 @@ func (x *MeasuredShare) GetIdentifier() string {
 	return ""
 }
 
-func (x *MeasuredShare) GetMassPercent() float64 {
+func (x *MeasuredShare) GetMassPercent() string {
 	if x != nil {
 		return x.MassPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *MeasuredShare) GetUncertaintyPoints() float64 {
+func (x *MeasuredShare) GetUncertaintyPoints() string {
 	if x != nil {
 		return x.UncertaintyPoints
 	}
-	return 0
+	return ""
 }
 
 // AnalyseReadingRequest carries one reading and, optionally, the declaration.
@@ -153,13 +153,14 @@ type AnalyseReadingRequest struct {
 	// 100 within 2 points.
 	Components []*MeasuredShare `protobuf:"bytes,1,rep,name=components,proto3" json:"components,omitempty"`
 	// Air and other non-condensables in mass percent, when reported apart.
-	NonCondensablePercent float64 `protobuf:"fixed64,2,opt,name=non_condensable_percent,json=nonCondensablePercent,proto3" json:"non_condensable_percent,omitempty"`
-	// Plus or minus mass percent points for every gas that states none; 0 means 1.
-	UncertaintyPoints float64 `protobuf:"fixed64,3,opt,name=uncertainty_points,json=uncertaintyPoints,proto3" json:"uncertainty_points,omitempty"`
+	NonCondensablePercent string `protobuf:"bytes,2,opt,name=non_condensable_percent,json=nonCondensablePercent,proto3" json:"non_condensable_percent,omitempty"`
+	// Plus or minus mass percent points for every gas that states none; empty or "0" means 1.
+	UncertaintyPoints string `protobuf:"bytes,3,opt,name=uncertainty_points,json=uncertaintyPoints,proto3" json:"uncertainty_points,omitempty"`
 	// The substance or blend the cylinder is declared as; empty when none.
 	Declared string `protobuf:"bytes,4,opt,name=declared,proto3" json:"declared,omitempty"`
-	// The declared net mass in kg, for the figures of what the reading holds.
-	NetMassKg float64 `protobuf:"fixed64,5,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
+	// The declared net mass in kg, a decimal, for the figures of what the reading holds;
+	// empty means 0.
+	NetMassKg string `protobuf:"bytes,5,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
 	// How many entries that do not fit to list; 0 means 3.
 	NearMisses    int32 `protobuf:"varint,6,opt,name=near_misses,json=nearMisses,proto3" json:"near_misses,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -203,18 +204,18 @@ func (x *AnalyseReadingRequest) GetComponents() []*MeasuredShare {
 	return nil
 }
 
-func (x *AnalyseReadingRequest) GetNonCondensablePercent() float64 {
+func (x *AnalyseReadingRequest) GetNonCondensablePercent() string {
 	if x != nil {
 		return x.NonCondensablePercent
 	}
-	return 0
+	return ""
 }
 
-func (x *AnalyseReadingRequest) GetUncertaintyPoints() float64 {
+func (x *AnalyseReadingRequest) GetUncertaintyPoints() string {
 	if x != nil {
 		return x.UncertaintyPoints
 	}
-	return 0
+	return ""
 }
 
 func (x *AnalyseReadingRequest) GetDeclared() string {
@@ -224,11 +225,11 @@ func (x *AnalyseReadingRequest) GetDeclared() string {
 	return ""
 }
 
-func (x *AnalyseReadingRequest) GetNetMassKg() float64 {
+func (x *AnalyseReadingRequest) GetNetMassKg() string {
 	if x != nil {
 		return x.NetMassKg
 	}
-	return 0
+	return ""
 }
 
 func (x *AnalyseReadingRequest) GetNearMisses() int32 {
@@ -246,11 +247,11 @@ type MeasuredComponent struct {
 	// Montreal Protocol Annex and Group; empty when not controlled.
 	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Mass percent as read.
-	ReadPercent float64 `protobuf:"fixed64,3,opt,name=read_percent,json=readPercent,proto3" json:"read_percent,omitempty"`
+	ReadPercent string `protobuf:"bytes,3,opt,name=read_percent,json=readPercent,proto3" json:"read_percent,omitempty"`
 	// Mass percent of the refrigerant part (air set aside, renormalised).
-	MassPercent float64 `protobuf:"fixed64,4,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
+	MassPercent string `protobuf:"bytes,4,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
 	// Plus or minus mass percent points on the renormalised scale.
-	UncertaintyPoints float64 `protobuf:"fixed64,5,opt,name=uncertainty_points,json=uncertaintyPoints,proto3" json:"uncertainty_points,omitempty"`
+	UncertaintyPoints string `protobuf:"bytes,5,opt,name=uncertainty_points,json=uncertaintyPoints,proto3" json:"uncertainty_points,omitempty"`
 	// ASHRAE 34 safety class; empty when unknown.
 	SafetyClass   string `protobuf:"bytes,6,opt,name=safety_class,json=safetyClass,proto3" json:"safety_class,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -301,25 +302,25 @@ func (x *MeasuredComponent) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *MeasuredComponent) GetReadPercent() float64 {
+func (x *MeasuredComponent) GetReadPercent() string {
 	if x != nil {
 		return x.ReadPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *MeasuredComponent) GetMassPercent() float64 {
+func (x *MeasuredComponent) GetMassPercent() string {
 	if x != nil {
 		return x.MassPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *MeasuredComponent) GetUncertaintyPoints() float64 {
+func (x *MeasuredComponent) GetUncertaintyPoints() string {
 	if x != nil {
 		return x.UncertaintyPoints
 	}
-	return 0
+	return ""
 }
 
 func (x *MeasuredComponent) GetSafetyClass() string {
@@ -335,15 +336,15 @@ type ComponentBand struct {
 	// Catalogue designation.
 	Designation string `protobuf:"bytes,1,opt,name=designation,proto3" json:"designation,omitempty"`
 	// Measured share of the refrigerant part (0 when the reading lacks it).
-	MeasuredPercent float64 `protobuf:"fixed64,2,opt,name=measured_percent,json=measuredPercent,proto3" json:"measured_percent,omitempty"`
+	MeasuredPercent string `protobuf:"bytes,2,opt,name=measured_percent,json=measuredPercent,proto3" json:"measured_percent,omitempty"`
 	// The candidate's nominal share (0 when the candidate lacks it).
-	NominalPercent float64 `protobuf:"fixed64,3,opt,name=nominal_percent,json=nominalPercent,proto3" json:"nominal_percent,omitempty"`
+	NominalPercent string `protobuf:"bytes,3,opt,name=nominal_percent,json=nominalPercent,proto3" json:"nominal_percent,omitempty"`
 	// Lower edge: nominal minus tolerance minus uncertainty.
-	BandLowPercent float64 `protobuf:"fixed64,4,opt,name=band_low_percent,json=bandLowPercent,proto3" json:"band_low_percent,omitempty"`
+	BandLowPercent string `protobuf:"bytes,4,opt,name=band_low_percent,json=bandLowPercent,proto3" json:"band_low_percent,omitempty"`
 	// Upper edge: nominal plus tolerance plus uncertainty.
-	BandHighPercent float64 `protobuf:"fixed64,5,opt,name=band_high_percent,json=bandHighPercent,proto3" json:"band_high_percent,omitempty"`
+	BandHighPercent string `protobuf:"bytes,5,opt,name=band_high_percent,json=bandHighPercent,proto3" json:"band_high_percent,omitempty"`
 	// Mass percent points outside the band; 0 inside.
-	ExcessPoints float64 `protobuf:"fixed64,6,opt,name=excess_points,json=excessPoints,proto3" json:"excess_points,omitempty"`
+	ExcessPoints string `protobuf:"bytes,6,opt,name=excess_points,json=excessPoints,proto3" json:"excess_points,omitempty"`
 	// The candidate contains the component.
 	InCandidate bool `protobuf:"varint,7,opt,name=in_candidate,json=inCandidate,proto3" json:"in_candidate,omitempty"`
 	// The reading lists the component.
@@ -389,39 +390,39 @@ func (x *ComponentBand) GetDesignation() string {
 	return ""
 }
 
-func (x *ComponentBand) GetMeasuredPercent() float64 {
+func (x *ComponentBand) GetMeasuredPercent() string {
 	if x != nil {
 		return x.MeasuredPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentBand) GetNominalPercent() float64 {
+func (x *ComponentBand) GetNominalPercent() string {
 	if x != nil {
 		return x.NominalPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentBand) GetBandLowPercent() float64 {
+func (x *ComponentBand) GetBandLowPercent() string {
 	if x != nil {
 		return x.BandLowPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentBand) GetBandHighPercent() float64 {
+func (x *ComponentBand) GetBandHighPercent() string {
 	if x != nil {
 		return x.BandHighPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentBand) GetExcessPoints() float64 {
+func (x *ComponentBand) GetExcessPoints() string {
 	if x != nil {
 		return x.ExcessPoints
 	}
-	return 0
+	return ""
 }
 
 func (x *ComponentBand) GetInCandidate() bool {
@@ -448,10 +449,10 @@ type ReadingMatch struct {
 	// Every component lies inside its band.
 	Fits bool `protobuf:"varint,3,opt,name=fits,proto3" json:"fits,omitempty"`
 	// Euclidean norm of the components' excess, mass percent points; 0 when it fits.
-	ExcessPoints float64 `protobuf:"fixed64,4,opt,name=excess_points,json=excessPoints,proto3" json:"excess_points,omitempty"`
+	ExcessPoints string `protobuf:"bytes,4,opt,name=excess_points,json=excessPoints,proto3" json:"excess_points,omitempty"`
 	// Largest distance from nominal in units of the band's half-width on that side;
 	// at most 1 when it fits.
-	Depth float64 `protobuf:"fixed64,5,opt,name=depth,proto3" json:"depth,omitempty"`
+	DepthRatio string `protobuf:"bytes,5,opt,name=depth_ratio,json=depthRatio,proto3" json:"depth_ratio,omitempty"`
 	// Component by component.
 	Components []*ComponentBand `protobuf:"bytes,6,rep,name=components,proto3" json:"components,omitempty"`
 	// Gases the reading shows (above their uncertainty) that the entry lacks.
@@ -517,18 +518,18 @@ func (x *ReadingMatch) GetFits() bool {
 	return false
 }
 
-func (x *ReadingMatch) GetExcessPoints() float64 {
+func (x *ReadingMatch) GetExcessPoints() string {
 	if x != nil {
 		return x.ExcessPoints
 	}
-	return 0
+	return ""
 }
 
-func (x *ReadingMatch) GetDepth() float64 {
+func (x *ReadingMatch) GetDepthRatio() string {
 	if x != nil {
-		return x.Depth
+		return x.DepthRatio
 	}
-	return 0
+	return ""
 }
 
 func (x *ReadingMatch) GetComponents() []*ComponentBand {
@@ -575,22 +576,22 @@ type HiddenSubstance struct {
 	// Montreal Protocol Annex and Group.
 	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Share of the refrigerant part.
-	MassPercent float64 `protobuf:"fixed64,3,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
+	MassPercent string `protobuf:"bytes,3,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
 	// Declared net mass times the share, kg.
-	MassKg float64 `protobuf:"fixed64,4,opt,name=mass_kg,json=massKg,proto3" json:"mass_kg,omitempty"`
+	MassKg string `protobuf:"bytes,4,opt,name=mass_kg,json=massKg,proto3" json:"mass_kg,omitempty"`
 	// ODP used for the Protocol's calculations.
-	Odp float64 `protobuf:"fixed64,5,opt,name=odp,proto3" json:"odp,omitempty"`
+	Odp string `protobuf:"bytes,5,opt,name=odp,proto3" json:"odp,omitempty"`
 	// Metric tonnes times ODP.
-	OdpTonnes float64 `protobuf:"fixed64,6,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
-	// GWP listed in the Protocol's Annexes; 0 when none.
-	GwpProtocol float64 `protobuf:"fixed64,7,opt,name=gwp_protocol,json=gwpProtocol,proto3" json:"gwp_protocol,omitempty"`
+	OdpTonnes string `protobuf:"bytes,6,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
+	// GWP listed in the Protocol's Annexes; "0" when none.
+	Gwp_100YrProtocol string `protobuf:"bytes,7,opt,name=gwp_100yr_protocol,json=gwp100yrProtocol,proto3" json:"gwp_100yr_protocol,omitempty"`
 	// CO2-eq tonnes as the Protocol counts them (Annex F substances only).
-	Co2ETonnes float64 `protobuf:"fixed64,8,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
+	Co2ETonnes string `protobuf:"bytes,8,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
 	// Metric tonnes times gwp_protocol whatever the group, for information (CFCs and
 	// HCFCs are counted in ODP tonnes).
-	ListedGwpTonnes float64 `protobuf:"fixed64,9,opt,name=listed_gwp_tonnes,json=listedGwpTonnes,proto3" json:"listed_gwp_tonnes,omitempty"`
-	unknownFields   protoimpl.UnknownFields
-	sizeCache       protoimpl.SizeCache
+	ListedCo2ETonnes string `protobuf:"bytes,9,opt,name=listed_co2e_tonnes,json=listedCo2eTonnes,proto3" json:"listed_co2e_tonnes,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
 }
 
 func (x *HiddenSubstance) Reset() {
@@ -637,53 +638,53 @@ func (x *HiddenSubstance) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *HiddenSubstance) GetMassPercent() float64 {
+func (x *HiddenSubstance) GetMassPercent() string {
 	if x != nil {
 		return x.MassPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *HiddenSubstance) GetMassKg() float64 {
+func (x *HiddenSubstance) GetMassKg() string {
 	if x != nil {
 		return x.MassKg
 	}
-	return 0
+	return ""
 }
 
-func (x *HiddenSubstance) GetOdp() float64 {
+func (x *HiddenSubstance) GetOdp() string {
 	if x != nil {
 		return x.Odp
 	}
-	return 0
+	return ""
 }
 
-func (x *HiddenSubstance) GetOdpTonnes() float64 {
+func (x *HiddenSubstance) GetOdpTonnes() string {
 	if x != nil {
 		return x.OdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *HiddenSubstance) GetGwpProtocol() float64 {
+func (x *HiddenSubstance) GetGwp_100YrProtocol() string {
 	if x != nil {
-		return x.GwpProtocol
+		return x.Gwp_100YrProtocol
 	}
-	return 0
+	return ""
 }
 
-func (x *HiddenSubstance) GetCo2ETonnes() float64 {
+func (x *HiddenSubstance) GetCo2ETonnes() string {
 	if x != nil {
 		return x.Co2ETonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *HiddenSubstance) GetListedGwpTonnes() float64 {
+func (x *HiddenSubstance) GetListedCo2ETonnes() string {
 	if x != nil {
-		return x.ListedGwpTonnes
+		return x.ListedCo2ETonnes
 	}
-	return 0
+	return ""
 }
 
 // AnalyseReadingResponse is the answer for one reading.
@@ -692,7 +693,7 @@ type AnalyseReadingResponse struct {
 	// The reading with air set aside.
 	Components []*MeasuredComponent `protobuf:"bytes,1,rep,name=components,proto3" json:"components,omitempty"`
 	// Air and other non-condensables, mass percent.
-	NonCondensablePercent float64 `protobuf:"fixed64,2,opt,name=non_condensable_percent,json=nonCondensablePercent,proto3" json:"non_condensable_percent,omitempty"`
+	NonCondensablePercent string `protobuf:"bytes,2,opt,name=non_condensable_percent,json=nonCondensablePercent,proto3" json:"non_condensable_percent,omitempty"`
 	// Set when the non-condensables are above 1.5 percent.
 	NonCondensableNote string `protobuf:"bytes,3,opt,name=non_condensable_note,json=nonCondensableNote,proto3" json:"non_condensable_note,omitempty"`
 	// What the figures allow to be said.
@@ -714,9 +715,9 @@ type AnalyseReadingResponse struct {
 	// The reading's own figures at the declared net mass, component by component.
 	Figures []*ComponentFigures `protobuf:"bytes,12,rep,name=figures,proto3" json:"figures,omitempty"`
 	// Total ODP tonnes of the reading at the declared net mass.
-	OdpTonnes float64 `protobuf:"fixed64,13,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
+	OdpTonnes string `protobuf:"bytes,13,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
 	// Total CO2-eq tonnes of the reading as the Protocol counts them.
-	Co2ETonnes float64 `protobuf:"fixed64,14,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
+	Co2ETonnes string `protobuf:"bytes,14,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
 	// One sentence.
 	Summary string `protobuf:"bytes,15,opt,name=summary,proto3" json:"summary,omitempty"`
 	// Safety cautions for what the reading holds (ASHRAE 34 flammability and toxicity
@@ -763,11 +764,11 @@ func (x *AnalyseReadingResponse) GetComponents() []*MeasuredComponent {
 	return nil
 }
 
-func (x *AnalyseReadingResponse) GetNonCondensablePercent() float64 {
+func (x *AnalyseReadingResponse) GetNonCondensablePercent() string {
 	if x != nil {
 		return x.NonCondensablePercent
 	}
-	return 0
+	return ""
 }
 
 func (x *AnalyseReadingResponse) GetNonCondensableNote() string {
@@ -840,18 +841,18 @@ func (x *AnalyseReadingResponse) GetFigures() []*ComponentFigures {
 	return nil
 }
 
-func (x *AnalyseReadingResponse) GetOdpTonnes() float64 {
+func (x *AnalyseReadingResponse) GetOdpTonnes() string {
 	if x != nil {
 		return x.OdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *AnalyseReadingResponse) GetCo2ETonnes() float64 {
+func (x *AnalyseReadingResponse) GetCo2ETonnes() string {
 	if x != nil {
 		return x.Co2ETonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *AnalyseReadingResponse) GetSummary() string {
@@ -878,42 +879,43 @@ const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"\n" +
 	"identifier\x18\x01 \x01(\tR\n" +
 	"identifier\x12!\n" +
-	"\fmass_percent\x18\x02 \x01(\x01R\vmassPercent\x12-\n" +
-	"\x12uncertainty_points\x18\x03 \x01(\x01R\x11uncertaintyPoints\"\x96\x02\n" +
+	"\fmass_percent\x18\x02 \x01(\tR\vmassPercent\x12-\n" +
+	"\x12uncertainty_points\x18\x03 \x01(\tR\x11uncertaintyPoints\"\x96\x02\n" +
 	"\x15AnalyseReadingRequest\x129\n" +
 	"\n" +
 	"components\x18\x01 \x03(\v2\x19.halovet.v1.MeasuredShareR\n" +
 	"components\x126\n" +
-	"\x17non_condensable_percent\x18\x02 \x01(\x01R\x15nonCondensablePercent\x12-\n" +
-	"\x12uncertainty_points\x18\x03 \x01(\x01R\x11uncertaintyPoints\x12\x1a\n" +
+	"\x17non_condensable_percent\x18\x02 \x01(\tR\x15nonCondensablePercent\x12-\n" +
+	"\x12uncertainty_points\x18\x03 \x01(\tR\x11uncertaintyPoints\x12\x1a\n" +
 	"\bdeclared\x18\x04 \x01(\tR\bdeclared\x12\x1e\n" +
-	"\vnet_mass_kg\x18\x05 \x01(\x01R\tnetMassKg\x12\x1f\n" +
+	"\vnet_mass_kg\x18\x05 \x01(\tR\tnetMassKg\x12\x1f\n" +
 	"\vnear_misses\x18\x06 \x01(\x05R\n" +
 	"nearMisses\"\xee\x01\n" +
 	"\x11MeasuredComponent\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
 	"annexGroup\x12!\n" +
-	"\fread_percent\x18\x03 \x01(\x01R\vreadPercent\x12!\n" +
-	"\fmass_percent\x18\x04 \x01(\x01R\vmassPercent\x12-\n" +
-	"\x12uncertainty_points\x18\x05 \x01(\x01R\x11uncertaintyPoints\x12!\n" +
+	"\fread_percent\x18\x03 \x01(\tR\vreadPercent\x12!\n" +
+	"\fmass_percent\x18\x04 \x01(\tR\vmassPercent\x12-\n" +
+	"\x12uncertainty_points\x18\x05 \x01(\tR\x11uncertaintyPoints\x12!\n" +
 	"\fsafety_class\x18\x06 \x01(\tR\vsafetyClass\"\xc2\x02\n" +
 	"\rComponentBand\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12)\n" +
-	"\x10measured_percent\x18\x02 \x01(\x01R\x0fmeasuredPercent\x12'\n" +
-	"\x0fnominal_percent\x18\x03 \x01(\x01R\x0enominalPercent\x12(\n" +
-	"\x10band_low_percent\x18\x04 \x01(\x01R\x0ebandLowPercent\x12*\n" +
-	"\x11band_high_percent\x18\x05 \x01(\x01R\x0fbandHighPercent\x12#\n" +
-	"\rexcess_points\x18\x06 \x01(\x01R\fexcessPoints\x12!\n" +
+	"\x10measured_percent\x18\x02 \x01(\tR\x0fmeasuredPercent\x12'\n" +
+	"\x0fnominal_percent\x18\x03 \x01(\tR\x0enominalPercent\x12(\n" +
+	"\x10band_low_percent\x18\x04 \x01(\tR\x0ebandLowPercent\x12*\n" +
+	"\x11band_high_percent\x18\x05 \x01(\tR\x0fbandHighPercent\x12#\n" +
+	"\rexcess_points\x18\x06 \x01(\tR\fexcessPoints\x12!\n" +
 	"\fin_candidate\x18\a \x01(\bR\vinCandidate\x12\x1d\n" +
 	"\n" +
-	"in_reading\x18\b \x01(\bR\tinReading\"\xdb\x02\n" +
+	"in_reading\x18\b \x01(\bR\tinReading\"\xe6\x02\n" +
 	"\fReadingMatch\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12)\n" +
 	"\x04kind\x18\x02 \x01(\x0e2\x15.halovet.v1.EntryKindR\x04kind\x12\x12\n" +
 	"\x04fits\x18\x03 \x01(\bR\x04fits\x12#\n" +
-	"\rexcess_points\x18\x04 \x01(\x01R\fexcessPoints\x12\x14\n" +
-	"\x05depth\x18\x05 \x01(\x01R\x05depth\x129\n" +
+	"\rexcess_points\x18\x04 \x01(\tR\fexcessPoints\x12\x1f\n" +
+	"\vdepth_ratio\x18\x05 \x01(\tR\n" +
+	"depthRatio\x129\n" +
 	"\n" +
 	"components\x18\x06 \x03(\v2\x19.halovet.v1.ComponentBandR\n" +
 	"components\x12\x14\n" +
@@ -921,25 +923,25 @@ const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"\amissing\x18\b \x03(\tR\amissing\x12!\n" +
 	"\fannex_groups\x18\t \x03(\tR\vannexGroups\x12!\n" +
 	"\fsafety_class\x18\n" +
-	" \x01(\tR\vsafetyClass\"\xb1\x02\n" +
+	" \x01(\tR\vsafetyClass\"\xbe\x02\n" +
 	"\x0fHiddenSubstance\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
 	"annexGroup\x12!\n" +
-	"\fmass_percent\x18\x03 \x01(\x01R\vmassPercent\x12\x17\n" +
-	"\amass_kg\x18\x04 \x01(\x01R\x06massKg\x12\x10\n" +
-	"\x03odp\x18\x05 \x01(\x01R\x03odp\x12\x1d\n" +
+	"\fmass_percent\x18\x03 \x01(\tR\vmassPercent\x12\x17\n" +
+	"\amass_kg\x18\x04 \x01(\tR\x06massKg\x12\x10\n" +
+	"\x03odp\x18\x05 \x01(\tR\x03odp\x12\x1d\n" +
 	"\n" +
-	"odp_tonnes\x18\x06 \x01(\x01R\todpTonnes\x12!\n" +
-	"\fgwp_protocol\x18\a \x01(\x01R\vgwpProtocol\x12\x1f\n" +
-	"\vco2e_tonnes\x18\b \x01(\x01R\n" +
-	"co2eTonnes\x12*\n" +
-	"\x11listed_gwp_tonnes\x18\t \x01(\x01R\x0flistedGwpTonnes\"\xb9\x05\n" +
+	"odp_tonnes\x18\x06 \x01(\tR\todpTonnes\x12,\n" +
+	"\x12gwp_100yr_protocol\x18\a \x01(\tR\x10gwp100yrProtocol\x12\x1f\n" +
+	"\vco2e_tonnes\x18\b \x01(\tR\n" +
+	"co2eTonnes\x12,\n" +
+	"\x12listed_co2e_tonnes\x18\t \x01(\tR\x10listedCo2eTonnes\"\xb9\x05\n" +
 	"\x16AnalyseReadingResponse\x12=\n" +
 	"\n" +
 	"components\x18\x01 \x03(\v2\x1d.halovet.v1.MeasuredComponentR\n" +
 	"components\x126\n" +
-	"\x17non_condensable_percent\x18\x02 \x01(\x01R\x15nonCondensablePercent\x120\n" +
+	"\x17non_condensable_percent\x18\x02 \x01(\tR\x15nonCondensablePercent\x120\n" +
 	"\x14non_condensable_note\x18\x03 \x01(\tR\x12nonCondensableNote\x12.\n" +
 	"\x05state\x18\x04 \x01(\x0e2\x18.halovet.v1.ReadingStateR\x05state\x122\n" +
 	"\amatches\x18\x05 \x03(\v2\x18.halovet.v1.ReadingMatchR\amatches\x12\x18\n" +
@@ -953,8 +955,8 @@ const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"\x06hidden\x18\v \x03(\v2\x1b.halovet.v1.HiddenSubstanceR\x06hidden\x126\n" +
 	"\afigures\x18\f \x03(\v2\x1c.halovet.v1.ComponentFiguresR\afigures\x12\x1d\n" +
 	"\n" +
-	"odp_tonnes\x18\r \x01(\x01R\todpTonnes\x12\x1f\n" +
-	"\vco2e_tonnes\x18\x0e \x01(\x01R\n" +
+	"odp_tonnes\x18\r \x01(\tR\todpTonnes\x12\x1f\n" +
+	"\vco2e_tonnes\x18\x0e \x01(\tR\n" +
 	"co2eTonnes\x12\x18\n" +
 	"\asummary\x18\x0f \x01(\tR\asummary\x12\x1a\n" +
 	"\bcautions\x18\x10 \x03(\tR\bcautions*\x82\x01\n" +

@@ -208,8 +208,8 @@ type GwpValue struct {
 	// The set: "MP" (the Montreal Protocol annex value, equal to IPCC AR4),
 	// "AR4", "AR5" or "AR6".
 	GwpSet string `protobuf:"bytes,1,opt,name=gwp_set,json=gwpSet,proto3" json:"gwp_set,omitempty"`
-	// The 100-year GWP (kg CO2-eq per kg).
-	Gwp100 float64 `protobuf:"fixed64,2,opt,name=gwp100,proto3" json:"gwp100,omitempty"`
+	// The 100-year GWP (kg CO2-eq per kg), exact decimal, e.g. "1430".
+	Gwp_100Yr string `protobuf:"bytes,2,opt,name=gwp_100yr,json=gwp100yr,proto3" json:"gwp_100yr,omitempty"`
 	// The publication the value is taken from.
 	Source        string `protobuf:"bytes,3,opt,name=source,proto3" json:"source,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -253,11 +253,11 @@ func (x *GwpValue) GetGwpSet() string {
 	return ""
 }
 
-func (x *GwpValue) GetGwp100() float64 {
+func (x *GwpValue) GetGwp_100Yr() string {
 	if x != nil {
-		return x.Gwp100
+		return x.Gwp_100Yr
 	}
-	return 0
+	return ""
 }
 
 func (x *GwpValue) GetSource() string {
@@ -350,18 +350,21 @@ type Substance struct {
 	CasNumber string `protobuf:"bytes,6,opt,name=cas_number,json=casNumber,proto3" json:"cas_number,omitempty"`
 	// Montreal Protocol Annex and Group, e.g. "C/I"; empty when not controlled.
 	AnnexGroup string `protobuf:"bytes,7,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
-	// ODP used for the Protocol's calculations (the upper end of a range).
-	Odp float64 `protobuf:"fixed64,8,opt,name=odp,proto3" json:"odp,omitempty"`
-	// Lower end of the ODP range the Annex gives, when it gives a range.
-	OdpRangeLow float64 `protobuf:"fixed64,9,opt,name=odp_range_low,json=odpRangeLow,proto3" json:"odp_range_low,omitempty"`
-	// Upper end of the ODP range the Annex gives, when it gives a range.
-	OdpRangeHigh float64 `protobuf:"fixed64,10,opt,name=odp_range_high,json=odpRangeHigh,proto3" json:"odp_range_high,omitempty"`
+	// ODP used for the Protocol's calculations (the upper end of a range), exact decimal;
+	// "0" (present) for a substance that does not deplete ozone, e.g. HFC-134a.
+	Odp string `protobuf:"bytes,8,opt,name=odp,proto3" json:"odp,omitempty"`
+	// Lower end of the ODP range the Annex gives; absent when it gives one value.
+	OdpRangeLow string `protobuf:"bytes,9,opt,name=odp_range_low,json=odpRangeLow,proto3" json:"odp_range_low,omitempty"`
+	// Upper end of the ODP range the Annex gives; absent when it gives one value.
+	OdpRangeHigh string `protobuf:"bytes,10,opt,name=odp_range_high,json=odpRangeHigh,proto3" json:"odp_range_high,omitempty"`
 	// GWP values, one per set that a source gives.
 	Gwps []*GwpValue `protobuf:"bytes,11,rep,name=gwps,proto3" json:"gwps,omitempty"`
-	// Atmospheric lifetime in years (WMO 2018 assessment), 0 when unknown.
-	LifetimeYears float64 `protobuf:"fixed64,12,opt,name=lifetime_years,json=lifetimeYears,proto3" json:"lifetime_years,omitempty"`
-	// Molar mass computed from the formula with IUPAC standard atomic weights.
-	MolarMassGPerMol float64 `protobuf:"fixed64,13,opt,name=molar_mass_g_per_mol,json=molarMassGPerMol,proto3" json:"molar_mass_g_per_mol,omitempty"`
+	// Atmospheric lifetime in years (WMO 2018 assessment); absent when unknown.
+	LifetimeYears string `protobuf:"bytes,12,opt,name=lifetime_years,json=lifetimeYears,proto3" json:"lifetime_years,omitempty"`
+	// Molar mass computed exactly from the formula with the IUPAC abridged standard atomic
+	// weights (conventional values), e.g. "102.03" for HFC-134a; absent when the formula
+	// holds an element without a carried weight. Ignored in UpsertSubstance.
+	MolarMassGPerMol string `protobuf:"bytes,13,opt,name=molar_mass_g_per_mol,json=molarMassGPerMol,proto3" json:"molar_mass_g_per_mol,omitempty"`
 	// HS subheadings under HS 2017 and HS 2022.
 	HsCodes []*HsCode `protobuf:"bytes,14,rep,name=hs_codes,json=hsCodes,proto3" json:"hs_codes,omitempty"`
 	// ASHRAE 34 safety class (e.g. "A1", "A2L", "B2L", "A3"), empty when unknown.
@@ -453,25 +456,25 @@ func (x *Substance) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *Substance) GetOdp() float64 {
+func (x *Substance) GetOdp() string {
 	if x != nil {
 		return x.Odp
 	}
-	return 0
+	return ""
 }
 
-func (x *Substance) GetOdpRangeLow() float64 {
+func (x *Substance) GetOdpRangeLow() string {
 	if x != nil {
 		return x.OdpRangeLow
 	}
-	return 0
+	return ""
 }
 
-func (x *Substance) GetOdpRangeHigh() float64 {
+func (x *Substance) GetOdpRangeHigh() string {
 	if x != nil {
 		return x.OdpRangeHigh
 	}
-	return 0
+	return ""
 }
 
 func (x *Substance) GetGwps() []*GwpValue {
@@ -481,18 +484,18 @@ func (x *Substance) GetGwps() []*GwpValue {
 	return nil
 }
 
-func (x *Substance) GetLifetimeYears() float64 {
+func (x *Substance) GetLifetimeYears() string {
 	if x != nil {
 		return x.LifetimeYears
 	}
-	return 0
+	return ""
 }
 
-func (x *Substance) GetMolarMassGPerMol() float64 {
+func (x *Substance) GetMolarMassGPerMol() string {
 	if x != nil {
 		return x.MolarMassGPerMol
 	}
-	return 0
+	return ""
 }
 
 func (x *Substance) GetHsCodes() []*HsCode {
@@ -528,14 +531,16 @@ type BlendComponent struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Designation of the component substance.
 	Designation string `protobuf:"bytes,1,opt,name=designation,proto3" json:"designation,omitempty"`
-	// Nominal mass percent.
-	MassPercent float64 `protobuf:"fixed64,2,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
-	// Allowed deviation above the nominal share, in mass percent points.
-	TolerancePlus float64 `protobuf:"fixed64,3,opt,name=tolerance_plus,json=tolerancePlus,proto3" json:"tolerance_plus,omitempty"`
-	// Allowed deviation below the nominal share, in mass percent points (positive).
-	ToleranceMinus float64 `protobuf:"fixed64,4,opt,name=tolerance_minus,json=toleranceMinus,proto3" json:"tolerance_minus,omitempty"`
-	unknownFields  protoimpl.UnknownFields
-	sizeCache      protoimpl.SizeCache
+	// Nominal mass percent, exact decimal.
+	MassPercent string `protobuf:"bytes,2,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
+	// Allowed deviation above the nominal share, in mass percent points; "0" when the
+	// standard allows none, absent when the catalogue records no tolerance.
+	TolerancePlusPoints string `protobuf:"bytes,3,opt,name=tolerance_plus_points,json=tolerancePlusPoints,proto3" json:"tolerance_plus_points,omitempty"`
+	// Allowed deviation below the nominal share, in mass percent points (positive); as
+	// tolerance_plus_points.
+	ToleranceMinusPoints string `protobuf:"bytes,4,opt,name=tolerance_minus_points,json=toleranceMinusPoints,proto3" json:"tolerance_minus_points,omitempty"`
+	unknownFields        protoimpl.UnknownFields
+	sizeCache            protoimpl.SizeCache
 }
 
 func (x *BlendComponent) Reset() {
@@ -575,25 +580,25 @@ func (x *BlendComponent) GetDesignation() string {
 	return ""
 }
 
-func (x *BlendComponent) GetMassPercent() float64 {
+func (x *BlendComponent) GetMassPercent() string {
 	if x != nil {
 		return x.MassPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *BlendComponent) GetTolerancePlus() float64 {
+func (x *BlendComponent) GetTolerancePlusPoints() string {
 	if x != nil {
-		return x.TolerancePlus
+		return x.TolerancePlusPoints
 	}
-	return 0
+	return ""
 }
 
-func (x *BlendComponent) GetToleranceMinus() float64 {
+func (x *BlendComponent) GetToleranceMinusPoints() string {
 	if x != nil {
-		return x.ToleranceMinus
+		return x.ToleranceMinusPoints
 	}
-	return 0
+	return ""
 }
 
 // Blend is a refrigerant blend with its nominal composition.
@@ -1030,8 +1035,8 @@ type Candidate struct {
 	Kind EntryKind `protobuf:"varint,2,opt,name=kind,proto3,enum=halovet.v1.EntryKind" json:"kind,omitempty"`
 	// How it matched.
 	MatchKind MatchKind `protobuf:"varint,3,opt,name=match_kind,json=matchKind,proto3,enum=halovet.v1.MatchKind" json:"match_kind,omitempty"`
-	// Score from 0 to 1; 1 is an exact, unique match.
-	Score float64 `protobuf:"fixed64,4,opt,name=score,proto3" json:"score,omitempty"`
+	// Score from 0 to 1 as a decimal ("1", "0.9"); 1 is an exact, unique match.
+	Score string `protobuf:"bytes,4,opt,name=score,proto3" json:"score,omitempty"`
 	// What in the entry matched, e.g. the synonym or the HS code.
 	MatchedOn string `protobuf:"bytes,5,opt,name=matched_on,json=matchedOn,proto3" json:"matched_on,omitempty"`
 	// Annex/Group of the entry, for a quick read.
@@ -1091,11 +1096,11 @@ func (x *Candidate) GetMatchKind() MatchKind {
 	return MatchKind_MATCH_KIND_UNSPECIFIED
 }
 
-func (x *Candidate) GetScore() float64 {
+func (x *Candidate) GetScore() string {
 	if x != nil {
 		return x.Score
 	}
-	return 0
+	return ""
 }
 
 func (x *Candidate) GetMatchedOn() string {
@@ -1236,8 +1241,8 @@ type MixtureShare struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Any identifier that resolves to exactly one substance.
 	Identifier string `protobuf:"bytes,1,opt,name=identifier,proto3" json:"identifier,omitempty"`
-	// Mass percent of the mixture.
-	MassPercent   float64 `protobuf:"fixed64,2,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
+	// Mass percent of the mixture, a decimal above 0 and at most 100, e.g. "33.3".
+	MassPercent   string `protobuf:"bytes,2,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1279,17 +1284,17 @@ func (x *MixtureShare) GetIdentifier() string {
 	return ""
 }
 
-func (x *MixtureShare) GetMassPercent() float64 {
+func (x *MixtureShare) GetMassPercent() string {
 	if x != nil {
 		return x.MassPercent
 	}
-	return 0
+	return ""
 }
 
 // Composition is an ad-hoc mixture.
 type Composition struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Shares that must sum to 100 % within 0.01.
+	// Shares that must sum to 100 % within 0.01 percent points.
 	Shares        []*MixtureShare `protobuf:"bytes,1,rep,name=shares,proto3" json:"shares,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -1342,8 +1347,9 @@ type EvaluateMixtureRequest struct {
 	//	*EvaluateMixtureRequest_Blend
 	//	*EvaluateMixtureRequest_Composition
 	Mixture isEvaluateMixtureRequest_Mixture `protobuf_oneof:"mixture"`
-	// Net mass of the mixture in kg; 0 evaluates per kg only.
-	NetMassKg     float64 `protobuf:"fixed64,3,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
+	// Net mass of the mixture in kg as a decimal, e.g. "12.5"; empty or "0" evaluates the
+	// mass-independent figures only.
+	NetMassKg     string `protobuf:"bytes,3,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1403,11 +1409,11 @@ func (x *EvaluateMixtureRequest) GetComposition() *Composition {
 	return nil
 }
 
-func (x *EvaluateMixtureRequest) GetNetMassKg() float64 {
+func (x *EvaluateMixtureRequest) GetNetMassKg() string {
 	if x != nil {
 		return x.NetMassKg
 	}
-	return 0
+	return ""
 }
 
 type isEvaluateMixtureRequest_Mixture interface {
@@ -1436,17 +1442,18 @@ type ComponentFigures struct {
 	// Annex/Group, empty when not controlled.
 	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Mass percent in the mixture.
-	MassPercent float64 `protobuf:"fixed64,3,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
-	// Mass of the component in kg.
-	MassKg float64 `protobuf:"fixed64,4,opt,name=mass_kg,json=massKg,proto3" json:"mass_kg,omitempty"`
-	// ODP of the component.
-	Odp float64 `protobuf:"fixed64,5,opt,name=odp,proto3" json:"odp,omitempty"`
-	// ODP tonnes of the component (metric tonnes times ODP).
-	OdpTonnes float64 `protobuf:"fixed64,6,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
-	// Protocol GWP (Annex value; 0 where the Annex lists none).
-	GwpProtocol float64 `protobuf:"fixed64,7,opt,name=gwp_protocol,json=gwpProtocol,proto3" json:"gwp_protocol,omitempty"`
-	// CO2-equivalent tonnes counted by the Protocol (Annex F components only).
-	Co2ETonnes float64 `protobuf:"fixed64,8,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
+	MassPercent string `protobuf:"bytes,3,opt,name=mass_percent,json=massPercent,proto3" json:"mass_percent,omitempty"`
+	// Mass of the component in kg (net mass times the share, exact).
+	MassKg string `protobuf:"bytes,4,opt,name=mass_kg,json=massKg,proto3" json:"mass_kg,omitempty"`
+	// ODP of the component; "0" when it has none.
+	Odp string `protobuf:"bytes,5,opt,name=odp,proto3" json:"odp,omitempty"`
+	// ODP tonnes of the component (metric tonnes times ODP, exact).
+	OdpTonnes string `protobuf:"bytes,6,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
+	// Protocol GWP (Annex value; "0" where the Annex lists none, as the Protocol counts).
+	Gwp_100YrProtocol string `protobuf:"bytes,7,opt,name=gwp_100yr_protocol,json=gwp100yrProtocol,proto3" json:"gwp_100yr_protocol,omitempty"`
+	// CO2-equivalent tonnes counted by the Protocol (Annex F components only; "0" for the
+	// others).
+	Co2ETonnes string `protobuf:"bytes,8,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
 	// ASHRAE 34 safety class of the component.
 	SafetyClass   string `protobuf:"bytes,9,opt,name=safety_class,json=safetyClass,proto3" json:"safety_class,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -1497,46 +1504,46 @@ func (x *ComponentFigures) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *ComponentFigures) GetMassPercent() float64 {
+func (x *ComponentFigures) GetMassPercent() string {
 	if x != nil {
 		return x.MassPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentFigures) GetMassKg() float64 {
+func (x *ComponentFigures) GetMassKg() string {
 	if x != nil {
 		return x.MassKg
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentFigures) GetOdp() float64 {
+func (x *ComponentFigures) GetOdp() string {
 	if x != nil {
 		return x.Odp
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentFigures) GetOdpTonnes() float64 {
+func (x *ComponentFigures) GetOdpTonnes() string {
 	if x != nil {
 		return x.OdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentFigures) GetGwpProtocol() float64 {
+func (x *ComponentFigures) GetGwp_100YrProtocol() string {
 	if x != nil {
-		return x.GwpProtocol
+		return x.Gwp_100YrProtocol
 	}
-	return 0
+	return ""
 }
 
-func (x *ComponentFigures) GetCo2ETonnes() float64 {
+func (x *ComponentFigures) GetCo2ETonnes() string {
 	if x != nil {
 		return x.Co2ETonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *ComponentFigures) GetSafetyClass() string {
@@ -1554,8 +1561,8 @@ type GwpFigure struct {
 	// Convention: "all-components" (every component with a GWP, EU F-gas style) or
 	// "annex-f-only" (controlled HFC components only, as the Protocol counts).
 	Convention string `protobuf:"bytes,2,opt,name=convention,proto3" json:"convention,omitempty"`
-	// Mass-weighted GWP of the mixture.
-	Gwp100 float64 `protobuf:"fixed64,3,opt,name=gwp100,proto3" json:"gwp100,omitempty"`
+	// Mass-weighted GWP of the mixture: the exact sum of share times GWP, e.g. "3921.6".
+	Gwp_100Yr string `protobuf:"bytes,3,opt,name=gwp_100yr,json=gwp100yr,proto3" json:"gwp_100yr,omitempty"`
 	// False when a component lacks a value in this set (the figure is partial).
 	Complete      bool `protobuf:"varint,4,opt,name=complete,proto3" json:"complete,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -1606,11 +1613,11 @@ func (x *GwpFigure) GetConvention() string {
 	return ""
 }
 
-func (x *GwpFigure) GetGwp100() float64 {
+func (x *GwpFigure) GetGwp_100Yr() string {
 	if x != nil {
-		return x.Gwp100
+		return x.Gwp_100Yr
 	}
-	return 0
+	return ""
 }
 
 func (x *GwpFigure) GetComplete() bool {
@@ -1625,18 +1632,18 @@ type EvaluateMixtureResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Designation of the blend, or "custom" for a composition.
 	Designation string `protobuf:"bytes,1,opt,name=designation,proto3" json:"designation,omitempty"`
-	// Mass-weighted ODP of the mixture.
-	Odp float64 `protobuf:"fixed64,2,opt,name=odp,proto3" json:"odp,omitempty"`
+	// Mass-weighted ODP of the mixture, exact; "0" for a mixture without ODS.
+	Odp string `protobuf:"bytes,2,opt,name=odp,proto3" json:"odp,omitempty"`
 	// Mixture GWPs under each set and convention.
 	Gwps []*GwpFigure `protobuf:"bytes,3,rep,name=gwps,proto3" json:"gwps,omitempty"`
 	// Per-component figures.
 	Components []*ComponentFigures `protobuf:"bytes,4,rep,name=components,proto3" json:"components,omitempty"`
-	// Net mass evaluated, kg.
-	NetMassKg float64 `protobuf:"fixed64,5,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
-	// Total ODP tonnes.
-	OdpTonnes float64 `protobuf:"fixed64,6,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
-	// Total CO2-eq tonnes as the Protocol counts them (Annex F components).
-	Co2ETonnes float64 `protobuf:"fixed64,7,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
+	// Net mass evaluated, kg ("0" when none was given).
+	NetMassKg string `protobuf:"bytes,5,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
+	// Total ODP tonnes, exact.
+	OdpTonnes string `protobuf:"bytes,6,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
+	// Total CO2-eq tonnes as the Protocol counts them (Annex F components), exact.
+	Co2ETonnes string `protobuf:"bytes,7,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
 	// Safety class of the blend where known, else the most hazardous component's.
 	SafetyClass string `protobuf:"bytes,8,opt,name=safety_class,json=safetyClass,proto3" json:"safety_class,omitempty"`
 	// Safety cautions that apply (flammability, toxicity, asphyxiation).
@@ -1687,11 +1694,11 @@ func (x *EvaluateMixtureResponse) GetDesignation() string {
 	return ""
 }
 
-func (x *EvaluateMixtureResponse) GetOdp() float64 {
+func (x *EvaluateMixtureResponse) GetOdp() string {
 	if x != nil {
 		return x.Odp
 	}
-	return 0
+	return ""
 }
 
 func (x *EvaluateMixtureResponse) GetGwps() []*GwpFigure {
@@ -1708,25 +1715,25 @@ func (x *EvaluateMixtureResponse) GetComponents() []*ComponentFigures {
 	return nil
 }
 
-func (x *EvaluateMixtureResponse) GetNetMassKg() float64 {
+func (x *EvaluateMixtureResponse) GetNetMassKg() string {
 	if x != nil {
 		return x.NetMassKg
 	}
-	return 0
+	return ""
 }
 
-func (x *EvaluateMixtureResponse) GetOdpTonnes() float64 {
+func (x *EvaluateMixtureResponse) GetOdpTonnes() string {
 	if x != nil {
 		return x.OdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *EvaluateMixtureResponse) GetCo2ETonnes() float64 {
+func (x *EvaluateMixtureResponse) GetCo2ETonnes() string {
 	if x != nil {
 		return x.Co2ETonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *EvaluateMixtureResponse) GetSafetyClass() string {
@@ -1872,10 +1879,10 @@ var File_halovet_v1_catalogue_proto protoreflect.FileDescriptor
 const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\n" +
 	"\x1ahalovet/v1/catalogue.proto\x12\n" +
-	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"S\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"X\n" +
 	"\bGwpValue\x12\x17\n" +
-	"\agwp_set\x18\x01 \x01(\tR\x06gwpSet\x12\x16\n" +
-	"\x06gwp100\x18\x02 \x01(\x01R\x06gwp100\x12\x16\n" +
+	"\agwp_set\x18\x01 \x01(\tR\x06gwpSet\x12\x1b\n" +
+	"\tgwp_100yr\x18\x02 \x01(\tR\bgwp100yr\x12\x16\n" +
 	"\x06source\x18\x03 \x01(\tR\x06source\"Z\n" +
 	"\x06HsCode\x12\x18\n" +
 	"\aedition\x18\x01 \x01(\tR\aedition\x12\x1e\n" +
@@ -1893,22 +1900,22 @@ const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"cas_number\x18\x06 \x01(\tR\tcasNumber\x12\x1f\n" +
 	"\vannex_group\x18\a \x01(\tR\n" +
 	"annexGroup\x12\x10\n" +
-	"\x03odp\x18\b \x01(\x01R\x03odp\x12\"\n" +
-	"\rodp_range_low\x18\t \x01(\x01R\vodpRangeLow\x12$\n" +
+	"\x03odp\x18\b \x01(\tR\x03odp\x12\"\n" +
+	"\rodp_range_low\x18\t \x01(\tR\vodpRangeLow\x12$\n" +
 	"\x0eodp_range_high\x18\n" +
-	" \x01(\x01R\fodpRangeHigh\x12(\n" +
+	" \x01(\tR\fodpRangeHigh\x12(\n" +
 	"\x04gwps\x18\v \x03(\v2\x14.halovet.v1.GwpValueR\x04gwps\x12%\n" +
-	"\x0elifetime_years\x18\f \x01(\x01R\rlifetimeYears\x12.\n" +
-	"\x14molar_mass_g_per_mol\x18\r \x01(\x01R\x10molarMassGPerMol\x12-\n" +
+	"\x0elifetime_years\x18\f \x01(\tR\rlifetimeYears\x12.\n" +
+	"\x14molar_mass_g_per_mol\x18\r \x01(\tR\x10molarMassGPerMol\x12-\n" +
 	"\bhs_codes\x18\x0e \x03(\v2\x12.halovet.v1.HsCodeR\ahsCodes\x12!\n" +
 	"\fsafety_class\x18\x0f \x01(\tR\vsafetyClass\x12!\n" +
 	"\fisomer_count\x18\x10 \x01(\x05R\visomerCount\x12\x18\n" +
-	"\asources\x18\x11 \x01(\tR\asources\"\xa5\x01\n" +
+	"\asources\x18\x11 \x01(\tR\asources\"\xbf\x01\n" +
 	"\x0eBlendComponent\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12!\n" +
-	"\fmass_percent\x18\x02 \x01(\x01R\vmassPercent\x12%\n" +
-	"\x0etolerance_plus\x18\x03 \x01(\x01R\rtolerancePlus\x12'\n" +
-	"\x0ftolerance_minus\x18\x04 \x01(\x01R\x0etoleranceMinus\"\xdd\x01\n" +
+	"\fmass_percent\x18\x02 \x01(\tR\vmassPercent\x122\n" +
+	"\x15tolerance_plus_points\x18\x03 \x01(\tR\x13tolerancePlusPoints\x124\n" +
+	"\x16tolerance_minus_points\x18\x04 \x01(\tR\x14toleranceMinusPoints\"\xdd\x01\n" +
 	"\x05Blend\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12\x1a\n" +
 	"\bsynonyms\x18\x02 \x03(\tR\bsynonyms\x12\x1d\n" +
@@ -1946,7 +1953,7 @@ const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\x04kind\x18\x02 \x01(\x0e2\x15.halovet.v1.EntryKindR\x04kind\x124\n" +
 	"\n" +
 	"match_kind\x18\x03 \x01(\x0e2\x15.halovet.v1.MatchKindR\tmatchKind\x12\x14\n" +
-	"\x05score\x18\x04 \x01(\x01R\x05score\x12\x1d\n" +
+	"\x05score\x18\x04 \x01(\tR\x05score\x12\x1d\n" +
 	"\n" +
 	"matched_on\x18\x05 \x01(\tR\tmatchedOn\x12\x1f\n" +
 	"\vannex_group\x18\x06 \x01(\tR\n" +
@@ -1966,45 +1973,45 @@ const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\n" +
 	"identifier\x18\x01 \x01(\tR\n" +
 	"identifier\x12!\n" +
-	"\fmass_percent\x18\x02 \x01(\x01R\vmassPercent\"?\n" +
+	"\fmass_percent\x18\x02 \x01(\tR\vmassPercent\"?\n" +
 	"\vComposition\x120\n" +
 	"\x06shares\x18\x01 \x03(\v2\x18.halovet.v1.MixtureShareR\x06shares\"\x98\x01\n" +
 	"\x16EvaluateMixtureRequest\x12\x16\n" +
 	"\x05blend\x18\x01 \x01(\tH\x00R\x05blend\x12;\n" +
 	"\vcomposition\x18\x02 \x01(\v2\x17.halovet.v1.CompositionH\x00R\vcomposition\x12\x1e\n" +
-	"\vnet_mass_kg\x18\x03 \x01(\x01R\tnetMassKgB\t\n" +
-	"\amixture\"\xa9\x02\n" +
+	"\vnet_mass_kg\x18\x03 \x01(\tR\tnetMassKgB\t\n" +
+	"\amixture\"\xb4\x02\n" +
 	"\x10ComponentFigures\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
 	"annexGroup\x12!\n" +
-	"\fmass_percent\x18\x03 \x01(\x01R\vmassPercent\x12\x17\n" +
-	"\amass_kg\x18\x04 \x01(\x01R\x06massKg\x12\x10\n" +
-	"\x03odp\x18\x05 \x01(\x01R\x03odp\x12\x1d\n" +
+	"\fmass_percent\x18\x03 \x01(\tR\vmassPercent\x12\x17\n" +
+	"\amass_kg\x18\x04 \x01(\tR\x06massKg\x12\x10\n" +
+	"\x03odp\x18\x05 \x01(\tR\x03odp\x12\x1d\n" +
 	"\n" +
-	"odp_tonnes\x18\x06 \x01(\x01R\todpTonnes\x12!\n" +
-	"\fgwp_protocol\x18\a \x01(\x01R\vgwpProtocol\x12\x1f\n" +
-	"\vco2e_tonnes\x18\b \x01(\x01R\n" +
+	"odp_tonnes\x18\x06 \x01(\tR\todpTonnes\x12,\n" +
+	"\x12gwp_100yr_protocol\x18\a \x01(\tR\x10gwp100yrProtocol\x12\x1f\n" +
+	"\vco2e_tonnes\x18\b \x01(\tR\n" +
 	"co2eTonnes\x12!\n" +
-	"\fsafety_class\x18\t \x01(\tR\vsafetyClass\"x\n" +
+	"\fsafety_class\x18\t \x01(\tR\vsafetyClass\"}\n" +
 	"\tGwpFigure\x12\x17\n" +
 	"\agwp_set\x18\x01 \x01(\tR\x06gwpSet\x12\x1e\n" +
 	"\n" +
 	"convention\x18\x02 \x01(\tR\n" +
-	"convention\x12\x16\n" +
-	"\x06gwp100\x18\x03 \x01(\x01R\x06gwp100\x12\x1a\n" +
+	"convention\x12\x1b\n" +
+	"\tgwp_100yr\x18\x03 \x01(\tR\bgwp100yr\x12\x1a\n" +
 	"\bcomplete\x18\x04 \x01(\bR\bcomplete\"\x9b\x03\n" +
 	"\x17EvaluateMixtureResponse\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12\x10\n" +
-	"\x03odp\x18\x02 \x01(\x01R\x03odp\x12)\n" +
+	"\x03odp\x18\x02 \x01(\tR\x03odp\x12)\n" +
 	"\x04gwps\x18\x03 \x03(\v2\x15.halovet.v1.GwpFigureR\x04gwps\x12<\n" +
 	"\n" +
 	"components\x18\x04 \x03(\v2\x1c.halovet.v1.ComponentFiguresR\n" +
 	"components\x12\x1e\n" +
-	"\vnet_mass_kg\x18\x05 \x01(\x01R\tnetMassKg\x12\x1d\n" +
+	"\vnet_mass_kg\x18\x05 \x01(\tR\tnetMassKg\x12\x1d\n" +
 	"\n" +
-	"odp_tonnes\x18\x06 \x01(\x01R\todpTonnes\x12\x1f\n" +
-	"\vco2e_tonnes\x18\a \x01(\x01R\n" +
+	"odp_tonnes\x18\x06 \x01(\tR\todpTonnes\x12\x1f\n" +
+	"\vco2e_tonnes\x18\a \x01(\tR\n" +
 	"co2eTonnes\x12!\n" +
 	"\fsafety_class\x18\b \x01(\tR\vsafetyClass\x12\x1a\n" +
 	"\bcautions\x18\t \x03(\tR\bcautions\x12+\n" +
