@@ -55,8 +55,9 @@ func storedRefs(ctx context.Context, q interface {
 }, companies, keys []string) (map[[2]string][]StoredRef, error) {
 	rows, err := q.Query(ctx, `SELECT s.company_id, s.record_key, s.shipment_id, s.fingerprint, s.state,
 	        s.version, s.recorded_at, s.verdict
-	    FROM shipments s JOIN unnest($1::text[], $2::text[]) AS k(company_id, record_key)
-	      ON s.company_id = k.company_id AND s.record_key = k.record_key
+	    FROM unnest($1::text[], $2::text[]) AS k(company_id, record_key)
+	    CROSS JOIN LATERAL (SELECT company_id, record_key, shipment_id, fingerprint, state, version, recorded_at, verdict
+	        FROM shipments WHERE company_id = k.company_id AND record_key = k.record_key OFFSET 0) s
 	    ORDER BY s.company_id, s.record_key, s.version`, companies, keys)
 	if err != nil {
 		return nil, err
