@@ -80,25 +80,28 @@ ALTER TABLE shipments
     ADD CONSTRAINT shipments_draws_shape CHECK (
         cardinality(draw_amounts) = cardinality(draw_lines) AND 0 <= ALL (draw_amounts));
 
+-- The arrays are unnested in the select list (one ProjectSet node, the arrays in
+-- lockstep), not by a multi-argument unnest in FROM, which materialises every row's
+-- elements in a tuplestore and cost the totals' trigger several times more.
 CREATE VIEW shipment_components AS
-SELECT s.shipment_id, c.designation, c.annex_group, c.mass_kg, c.odp_tonnes, c.co2e_tonnes, c.partner_non_party
-FROM shipments s CROSS JOIN LATERAL unnest(s.component_designations, s.component_annex_groups, s.component_mass_kg,
-    s.component_odp_tonnes, s.component_co2e_tonnes, s.component_non_party)
-    AS c(designation, annex_group, mass_kg, odp_tonnes, co2e_tonnes, partner_non_party);
+SELECT s.shipment_id, unnest(s.component_designations) AS designation, unnest(s.component_annex_groups) AS annex_group,
+    unnest(s.component_mass_kg) AS mass_kg, unnest(s.component_odp_tonnes) AS odp_tonnes,
+    unnest(s.component_co2e_tonnes) AS co2e_tonnes, unnest(s.component_non_party) AS partner_non_party
+FROM shipments s;
 
 CREATE VIEW quota_draws AS
-SELECT s.shipment_id, s.licence_number, d.line_number, d.amount
-FROM shipments s CROSS JOIN LATERAL unnest(s.draw_lines, s.draw_amounts) AS d(line_number, amount);
+SELECT s.shipment_id, s.licence_number, unnest(s.draw_lines) AS line_number, unnest(s.draw_amounts) AS amount
+FROM shipments s;
 
 -- +goose StatementBegin
 CREATE OR REPLACE FUNCTION shipment_year_totals_add() RETURNS trigger LANGUAGE plpgsql AS $$
 BEGIN
     INSERT INTO shipment_year_totals AS t (year, designation, annex_group, direction, purpose, condition, non_party, mass_kg, components)
-    SELECT a.year, c.designation, c.annex_group, a.direction, a.purpose, a.condition,
-           coalesce(c.non_party, a.partner_non_party), sum(c.mass_kg), count(*)
-    FROM added a CROSS JOIN LATERAL unnest(a.component_designations, a.component_annex_groups, a.component_mass_kg, a.component_non_party)
-        AS c(designation, annex_group, mass_kg, non_party)
-    WHERE a.state = 'live'
+    SELECT year, designation, annex_group, direction, purpose, condition, coalesce(np, partner_non_party), sum(kg), count(*)
+    FROM (SELECT a.year, a.direction, a.purpose, a.condition, a.partner_non_party,
+            unnest(a.component_designations) AS designation, unnest(a.component_annex_groups) AS annex_group,
+            unnest(a.component_mass_kg) AS kg, unnest(a.component_non_party) AS np
+        FROM added a WHERE a.state = 'live') c
     GROUP BY 1, 2, 3, 4, 5, 6, 7 ORDER BY 1, 2, 3, 4, 5, 6, 7
     ON CONFLICT (year, designation, annex_group, direction, purpose, condition, non_party)
     DO UPDATE SET mass_kg = t.mass_kg + EXCLUDED.mass_kg, components = t.components + EXCLUDED.components;
@@ -113,17 +116,17 @@ BEGIN
     INSERT INTO shipment_year_totals AS t (year, designation, annex_group, direction, purpose, condition, non_party, mass_kg, components)
     SELECT year, designation, annex_group, direction, purpose, condition, non_party, sum(kg), sum(n)
     FROM (
-        SELECT o.year, c.designation, c.annex_group, o.direction, o.purpose, o.condition,
-               coalesce(c.non_party, o.partner_non_party) AS non_party, -c.mass_kg AS kg, -1 AS n
-        FROM before o CROSS JOIN LATERAL unnest(o.component_designations, o.component_annex_groups, o.component_mass_kg, o.component_non_party)
-            AS c(designation, annex_group, mass_kg, non_party)
-        WHERE o.state = 'live'
+        SELECT year, designation, annex_group, direction, purpose, condition, coalesce(np, partner_non_party) AS non_party, -kg AS kg, -1 AS n
+        FROM (SELECT o.year, o.direction, o.purpose, o.condition, o.partner_non_party,
+                unnest(o.component_designations) AS designation, unnest(o.component_annex_groups) AS annex_group,
+                unnest(o.component_mass_kg) AS kg, unnest(o.component_non_party) AS np
+            FROM before o WHERE o.state = 'live') c
       UNION ALL
-        SELECT w.year, c.designation, c.annex_group, w.direction, w.purpose, w.condition,
-               coalesce(c.non_party, w.partner_non_party), c.mass_kg, 1
-        FROM after w CROSS JOIN LATERAL unnest(w.component_designations, w.component_annex_groups, w.component_mass_kg, w.component_non_party)
-            AS c(designation, annex_group, mass_kg, non_party)
-        WHERE w.state = 'live'
+        SELECT year, designation, annex_group, direction, purpose, condition, coalesce(np, partner_non_party), kg, 1
+        FROM (SELECT w.year, w.direction, w.purpose, w.condition, w.partner_non_party,
+                unnest(w.component_designations) AS designation, unnest(w.component_annex_groups) AS annex_group,
+                unnest(w.component_mass_kg) AS kg, unnest(w.component_non_party) AS np
+            FROM after w WHERE w.state = 'live') c
     ) d
     GROUP BY 1, 2, 3, 4, 5, 6, 7 HAVING sum(n) <> 0 OR sum(kg) <> 0 ORDER BY 1, 2, 3, 4, 5, 6, 7
     ON CONFLICT (year, designation, annex_group, direction, purpose, condition, non_party)
