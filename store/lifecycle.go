@@ -43,11 +43,15 @@ type StoredRef struct {
 func storedRefs(ctx context.Context, q interface {
 	Query(context.Context, string, ...any) (pgx.Rows, error)
 }, companies, keys []string) (map[[2]string][]StoredRef, error) {
+	// One index probe per key (LATERAL, OFFSET 0), planned at each execution
+	// (QueryExecModeExec): a plan cached while the register was empty would scan the
+	// whole table for every key.
 	rows, err := q.Query(ctx, `SELECT s.company_id, s.record_key, s.shipment_id, s.fingerprint, s.state,
 	        s.version, s.recorded_at, s.verdict
-	    FROM shipments s JOIN unnest($1::text[], $2::text[]) AS k(company_id, record_key)
-	      ON s.company_id = k.company_id AND s.record_key = k.record_key
-	    ORDER BY s.company_id, s.record_key, s.version`, companies, keys)
+	    FROM unnest($1::text[], $2::text[]) AS k(company_id, record_key)
+	    CROSS JOIN LATERAL (SELECT company_id, record_key, shipment_id, fingerprint, state, version, recorded_at, verdict
+	        FROM shipments WHERE company_id = k.company_id AND record_key = k.record_key OFFSET 0) s
+	    ORDER BY s.company_id, s.record_key, s.version`, pgx.QueryExecModeExec, companies, keys)
 	if err != nil {
 		return nil, err
 	}
