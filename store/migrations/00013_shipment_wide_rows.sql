@@ -80,6 +80,17 @@ ALTER TABLE shipments
     ADD CONSTRAINT shipments_draws_shape CHECK (
         cardinality(draw_amounts) = cardinality(draw_lines) AND 0 <= ALL (draw_amounts));
 
+-- The primary keys of the tables replaced (one row per component designation, one draw per
+-- quota line of a shipment) are kept in the schema itself, not only by the store.
+-- +goose StatementBegin
+CREATE FUNCTION elements_distinct(a anyarray) RETURNS boolean LANGUAGE sql IMMUTABLE STRICT PARALLEL SAFE AS $$
+    SELECT count(DISTINCT e) = count(*) FROM unnest(a) AS e
+$$;
+-- +goose StatementEnd
+ALTER TABLE shipments
+    ADD CONSTRAINT shipments_components_distinct CHECK (elements_distinct(component_designations)),
+    ADD CONSTRAINT shipments_draws_distinct CHECK (elements_distinct(draw_lines));
+
 -- The arrays are unnested in the select list (one ProjectSet node, the arrays in
 -- lockstep), not by a multi-argument unnest in FROM, which materialises every row's
 -- elements in a tuplestore and cost the totals' trigger several times more.
@@ -251,6 +262,8 @@ CREATE TABLE quota_draws (
 INSERT INTO quota_draws
 SELECT s.shipment_id, s.licence_number, d.* FROM shipments s CROSS JOIN LATERAL unnest(s.draw_lines, s.draw_amounts) AS d;
 ALTER TABLE shipments
+    DROP CONSTRAINT shipments_draws_distinct,
+    DROP CONSTRAINT shipments_components_distinct,
     DROP CONSTRAINT shipments_draws_shape,
     DROP CONSTRAINT shipments_components_shape,
     DROP COLUMN draw_amounts,
@@ -312,3 +325,5 @@ CREATE TRIGGER shipment_components_totals_refuse BEFORE UPDATE OR DELETE ON ship
     FOR EACH STATEMENT EXECUTE FUNCTION shipment_year_totals_refuse_delete();
 CREATE TRIGGER shipment_components_totals_truncate AFTER TRUNCATE ON shipment_components
     FOR EACH STATEMENT EXECUTE FUNCTION shipment_year_totals_truncate();
+
+DROP FUNCTION elements_distinct(anyarray);
