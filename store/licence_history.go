@@ -317,6 +317,7 @@ func statusHistories(ctx context.Context, q interface {
 type licenceStatuses struct {
 	current map[string]terms.LicenceStatus // licences.status; a licence absent here does not exist
 	history map[string][]StatusPeriod
+	version map[string]int // licences.version
 }
 
 // on returns licence n's status on day d, or "" when there is no such licence.
@@ -331,8 +332,8 @@ func (ls licenceStatuses) on(n string, d time.Time) string {
 // readLicenceStatuses reads the numbered licences FOR SHARE (sorted, the lock order) with
 // their status histories, for the recorder.
 func readLicenceStatuses(ctx context.Context, tx pgx.Tx, lics []string) (licenceStatuses, error) {
-	ls := licenceStatuses{current: map[string]terms.LicenceStatus{}}
-	q, err := tx.Query(ctx, `SELECT licence_number, status FROM licences
+	ls := licenceStatuses{current: map[string]terms.LicenceStatus{}, version: map[string]int{}}
+	q, err := tx.Query(ctx, `SELECT licence_number, status, version FROM licences
 	    WHERE licence_number = ANY($1) ORDER BY licence_number FOR SHARE`, lics)
 	if err != nil {
 		return ls, err
@@ -340,11 +341,12 @@ func readLicenceStatuses(ctx context.Context, tx pgx.Tx, lics []string) (licence
 	for q.Next() {
 		var n string
 		var st terms.LicenceStatus
-		if err := q.Scan(&n, &st); err != nil {
+		var v int
+		if err := q.Scan(&n, &st, &v); err != nil {
 			q.Close()
 			return ls, err
 		}
-		ls.current[n] = st
+		ls.current[n], ls.version[n] = st, v
 	}
 	if err := q.Err(); err != nil {
 		return ls, err

@@ -563,10 +563,15 @@ func releaseDraws(ctx context.Context, tx pgx.Tx, id int64) error {
 // lockLines share-locks the licences and locks the quota lines of the draws FOR UPDATE
 // in (licence, line) order, as RecordShipments does, and returns the licences' statuses,
 // what is left on each line and each line's allocation.
-func lockLines(ctx context.Context, tx pgx.Tx, draws []Draw) (licenceStatuses, map[lineKey]Nano, map[lineKey]Nano, error) {
+func lockLines(ctx context.Context, tx pgx.Tx, draws []Draw, alsoLicences ...string) (licenceStatuses, map[lineKey]Nano, map[lineKey]Nano, error) {
 	licSet := map[string]bool{}
 	for _, d := range draws {
 		licSet[d.LicenceNumber] = true
+	}
+	for _, l := range alsoLicences {
+		if l != "" {
+			licSet[l] = true
+		}
 	}
 	lics := make([]string, 0, len(licSet))
 	for l := range licSet {
@@ -718,7 +723,7 @@ func (s *Store) CorrectShipment(ctx context.Context, id int64, row ShipmentRow, 
 		if err != nil {
 			return err
 		}
-		status, remaining, allocated, err := lockLines(ctx, tx, append(append([]Draw{}, old...), row.Draws...))
+		status, remaining, allocated, err := lockLines(ctx, tx, append(append([]Draw{}, old...), row.Draws...), judgedLicence(row))
 		if err != nil {
 			return err
 		}

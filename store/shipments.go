@@ -76,6 +76,10 @@ type ShipmentRow struct {
 	Verdict    []byte
 	Components []ShipmentComponent
 	Draws      []Draw
+	// LicenceVersion is the version of the licence (LicenceNumber) the row was judged
+	// against; when not 0 the row is written only while the licence is still at that
+	// version (RecordLicenceChanged otherwise).
+	LicenceVersion int
 	// VerdictOnStore, when set, gives Verdict once the row is known to be stored (its
 	// result has the id, the time and the balances of its own draws), inside the
 	// transaction that stores it: the verdict kept is the one answered.
@@ -102,6 +106,10 @@ const (
 	RecordLicenceInactive
 	// RecordYearClosed: the row's declaration date falls in a closed reporting year.
 	RecordYearClosed
+	// RecordLicenceChanged: the licence was changed (amended, its status changed, a line
+	// closed) after the row was judged on it: the row is not written, so that no record
+	// draws on terms it was not judged against.
+	RecordLicenceChanged
 )
 
 // RecordResult tells what happened to one row, in the order given.
@@ -112,7 +120,8 @@ type RecordResult struct {
 	LicenceNumber string
 	LineNumber    int
 	Remaining     Nano
-	// For RecordLicenceInactive: the licence's status, or "missing line".
+	// For RecordLicenceInactive: the licence's status, or "missing line"; for
+	// RecordLicenceChanged: "version N" (the licence's version now).
 	Detail string
 	// For RecordReplayed and RecordKeyConflict: the stored row the key (and, for a
 	// replay, the content) matched.
@@ -177,6 +186,9 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	licSet := map[string]bool{}
 	lineSet := map[lineKey]bool{}
 	for _, r := range rows {
+		if l := judgedLicence(r); l != "" {
+			licSet[l] = true // read (share) for its version, also without a draw
+		}
 		for _, d := range r.Draws {
 			licSet[d.LicenceNumber] = true
 			lineSet[lineKey{d.LicenceNumber, d.LineNumber}] = true
@@ -389,7 +401,18 @@ func insertShipments(ctx context.Context, tx pgx.Tx, ids []int64, rows []*Shipme
 
 // checkDraws reports whether every draw of r fits what is left; when not, the result
 // says why.
+// judgedLicence is the licence whose version a row must find unchanged, or "".
+func judgedLicence(r ShipmentRow) string {
+	if r.LicenceVersion == 0 {
+		return ""
+	}
+	return r.LicenceNumber
+}
+
 func checkDraws(r ShipmentRow, status licenceStatuses, remaining map[lineKey]Nano) (RecordResult, bool) {
+	if v, ok := status.version[r.LicenceNumber]; ok && r.LicenceVersion != 0 && v != r.LicenceVersion {
+		return RecordResult{Status: RecordLicenceChanged, LicenceNumber: r.LicenceNumber, Detail: fmt.Sprintf("version %d", v)}, false
+	}
 	for _, d := range r.Draws {
 		// The licence as it stood on the declaration date.
 		if st := status.on(d.LicenceNumber, r.DeclarationDate); st != "active" {
