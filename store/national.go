@@ -96,11 +96,20 @@ func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry)
 
 // ListNationalEntries returns the entries of one year (all years when year is 0), by year,
 // kind, substance and key.
-func (s *Store) ListNationalEntries(ctx context.Context, year int) (_ []NationalEntry, err error) {
+func (s *Store) ListNationalEntries(ctx context.Context, year int) ([]NationalEntry, error) {
+	return s.ListNationalEntriesPage(ctx, year, Page{})
+}
+
+// ListNationalEntriesPage returns one page of ListNationalEntries.
+func (s *Store) ListNationalEntriesPage(ctx context.Context, year int, p Page) (_ []NationalEntry, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql([]any{year}, keyCol{"year", true}, keyCol{name: "entry_type"}, keyCol{name: "substance"}, keyCol{name: "entry_key"})
+	if err != nil {
+		return nil, err
+	}
 	rows, err := s.pool.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note, outside_customs
-	    FROM national_entries WHERE ($1 = 0 OR year = $1)
-	    ORDER BY year, entry_type, substance, entry_key`, year)
+	    FROM national_entries WHERE ($1 = 0 OR year = $1) AND `+cond+`
+	    ORDER BY year, entry_type, substance, entry_key`+limit, args...)
 	if err != nil {
 		return nil, err
 	}

@@ -69,11 +69,21 @@ func (s *Store) PutExemptions(ctx context.Context, es []Exemption) error {
 
 // ListExemptions returns the exemptions of one year (every year when year is 0) by Party,
 // year, scope, use and key.
-func (s *Store) ListExemptions(ctx context.Context, year int) (_ []Exemption, err error) {
+func (s *Store) ListExemptions(ctx context.Context, year int) ([]Exemption, error) {
+	return s.ListExemptionsPage(ctx, year, Page{})
+}
+
+// ListExemptionsPage returns one page of ListExemptions.
+func (s *Store) ListExemptionsPage(ctx context.Context, year int, p Page) (_ []Exemption, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql([]any{year}, keyCol{name: "country_code"}, keyCol{"year", true}, keyCol{name: "annex_scope"},
+		keyCol{name: "use_kind"}, keyCol{name: "exemption_key"})
+	if err != nil {
+		return nil, err
+	}
 	rows, err := s.pool.Query(ctx, `SELECT exemption_key, country_code, year, annex_scope, use_kind, amount::float8, unit, source, note
-	    FROM authorised_exemptions WHERE ($1 = 0 OR year = $1)
-	    ORDER BY country_code, year, annex_scope, use_kind, exemption_key`, year)
+	    FROM authorised_exemptions WHERE ($1 = 0 OR year = $1) AND `+cond+`
+	    ORDER BY country_code, year, annex_scope, use_kind, exemption_key`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -124,10 +134,19 @@ func (s *Store) PutOfficialFigures(ctx context.Context, fs []OfficialFigure) err
 }
 
 // ListOfficialFigures returns every official figure by Party, kind, scope and year.
-func (s *Store) ListOfficialFigures(ctx context.Context) (_ []OfficialFigure, err error) {
+func (s *Store) ListOfficialFigures(ctx context.Context) ([]OfficialFigure, error) {
+	return s.ListOfficialFiguresPage(ctx, Page{})
+}
+
+// ListOfficialFiguresPage returns one page of ListOfficialFigures.
+func (s *Store) ListOfficialFiguresPage(ctx context.Context, p Page) (_ []OfficialFigure, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql(nil, keyCol{name: "country_code"}, keyCol{name: "kind"}, keyCol{name: "annex_scope"}, keyCol{"year", true})
+	if err != nil {
+		return nil, err
+	}
 	rows, err := s.pool.Query(ctx, `SELECT figure_key, country_code, kind, annex_scope, year, value::float8, unit, source
-	    FROM official_figures ORDER BY country_code, kind, annex_scope, year`)
+	    FROM official_figures WHERE `+cond+` ORDER BY country_code, kind, annex_scope, year`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -195,11 +214,20 @@ func (s *Store) PutHFC23Entries(ctx context.Context, es []HFC23Entry) error {
 
 // ListHFC23Entries returns the facility entries of one year (every year when year is 0), by
 // year, facility.
-func (s *Store) ListHFC23Entries(ctx context.Context, year int) (_ []HFC23Entry, err error) {
+func (s *Store) ListHFC23Entries(ctx context.Context, year int) ([]HFC23Entry, error) {
+	return s.ListHFC23EntriesPage(ctx, year, Page{})
+}
+
+// ListHFC23EntriesPage returns one page of ListHFC23Entries.
+func (s *Store) ListHFC23EntriesPage(ctx context.Context, year int, p Page) (_ []HFC23Entry, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql([]any{year}, keyCol{"year", true}, keyCol{name: "facility"})
+	if err != nil {
+		return nil, err
+	}
 	rows, err := s.pool.Query(ctx, `SELECT entry_key, facility, year, generated_tonnes::float8, captured_used_tonnes::float8,
 	        destroyed_tonnes::float8, emitted_tonnes::float8, note
-	    FROM hfc23_facility_entries WHERE ($1 = 0 OR year = $1) ORDER BY year, facility`, year)
+	    FROM hfc23_facility_entries WHERE ($1 = 0 OR year = $1) AND `+cond+` ORDER BY year, facility`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
