@@ -10,6 +10,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/ledger"
 	"github.com/halovet/halovet/store"
 )
 
@@ -98,4 +99,29 @@ func notFoundStatus(msg string) error {
 		return d.Err()
 	}
 	return st.Err()
+}
+
+// ledgerStatus maps an error of a ledger workflow to a gRPC status: the one place where
+// the workflows' errors become codes.
+//
+//	*ledger.InvalidError    InvalidArgument, one field violation each
+//	ledger.ErrRefused       FailedPrecondition: the register needs a change first
+//	ledger.ErrNotConfigured FailedPrecondition
+//	a status already        unchanged (a role check the workflow asked for)
+//	anything else           toStatus
+func (s *Server) ledgerStatus(ctx context.Context, err error) error {
+	var ie *ledger.InvalidError
+	switch {
+	case err == nil:
+		return nil
+	case errors.As(err, &ie):
+		vs := make([]fieldViolation, len(ie.Violations))
+		for i, v := range ie.Violations {
+			vs[i] = fieldViolation{v.Field, v.Why}
+		}
+		return invalid(vs...)
+	case errors.Is(err, ledger.ErrRefused), errors.Is(err, ledger.ErrNotConfigured):
+		return status.Error(codes.FailedPrecondition, err.Error())
+	}
+	return toStatus(ctx, s.log, err)
 }

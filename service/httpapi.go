@@ -5,7 +5,6 @@ import (
 	"crypto/tls"
 	"errors"
 	"fmt"
-	"log/slog"
 	"net"
 	"net/http"
 	"time"
@@ -69,7 +68,7 @@ func (s *Server) ServeHTTPAPI(ctx context.Context, lis net.Listener, tlsConfig *
 		MaxHeaderBytes:    64 << 10,
 		ReadTimeout:       s.limits.UnaryDeadline,
 		IdleTimeout:       s.limits.ConnIdle,
-		ErrorLog:          slog.NewLogLogger(s.log.Handler(), slog.LevelWarn),
+		ErrorLog:          s.httpErrorLog(), // refused TLS handshakes logged and counted
 	}
 	if tlsConfig != nil {
 		hs.TLSConfig = tlsConfig.Clone()

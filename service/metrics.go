@@ -24,6 +24,9 @@ type metrics struct {
 	rpc      *grpcprom.ServerMetrics
 	records  *prometheus.CounterVec
 	findings *prometheus.CounterVec
+	// handshakes counts TLS handshakes refused, by listener (grpc, http) and kind
+	// (handshakeKind).
+	handshakes *prometheus.CounterVec
 }
 
 // latencyBuckets are the RPC latency histogram's bounds in seconds: a unary check is
@@ -42,8 +45,12 @@ func newMetrics(st *store.Store, version, revision string) *metrics {
 			Namespace: "halovet", Name: "shipment_findings_total",
 			Help: "Findings on answered shipment records, by finding code and severity.",
 		}, []string{"code", "severity"}),
+		handshakes: prometheus.NewCounterVec(prometheus.CounterOpts{
+			Namespace: "halovet", Name: "tls_handshake_refusals_total",
+			Help: "TLS handshakes that failed before any call, by listener (grpc, http) and kind (client-certificate-unparsable, not-tls, closed-by-peer, timeout, refused-by-peer, no-common-parameters, other); each is logged with the peer address and the reason.",
+		}, []string{"listener", "kind"}),
 	}
-	m.reg.MustRegister(m.rpc, m.records, m.findings,
+	m.reg.MustRegister(m.rpc, m.records, m.findings, m.handshakes,
 		collectors.NewGoCollector(),
 		collectors.NewProcessCollector(collectors.ProcessCollectorOpts{}),
 		collectors.NewBuildInfoCollector(),

@@ -159,8 +159,8 @@ func TestMutualTLSIdentities(t *testing.T) {
 		want string
 	}{
 		{"unmapped subject", third(clientCA.issue(t, pkix.Name{CommonName: "stranger"}, false)), "not mapped"},
-		{"another CA", third(otherCA.issue(t, pkix.Name{CommonName: "gateway", Organization: []string{"Invented Customs"}}, false)), "refused"},
-		{"a server certificate", third(clientCA.issue(t, pkix.Name{CommonName: "gateway", Organization: []string{"Invented Customs"}}, true)), "refused"},
+		{"another CA", third(otherCA.issue(t, pkix.Name{CommonName: "gateway", Organization: []string{"Invented Customs"}}, false)), "is not issued by a configured client CA"},
+		{"a server certificate", third(clientCA.issue(t, pkix.Name{CommonName: "gateway", Organization: []string{"Invented Customs"}}, true)), "is not for client authentication"},
 	}
 	for _, r := range refusals {
 		err := listLicences(dialWith(&r.cert, nil))
@@ -170,7 +170,7 @@ func TestMutualTLSIdentities(t *testing.T) {
 	}
 	// A truncated certificate does not parse: Go's TLS server ends the handshake
 	// (a TLS alert) before any call exists, so the client sees Unavailable and no
-	// handler runs.
+	// handler runs (TestCertRefusalReasonsOverGRPC: what the server logs and counts).
 	trunc := gateway
 	trunc.Certificate = [][]byte{gateway.Certificate[0][:len(gateway.Certificate[0])/2]}
 	if err := listLicences(dialWith(&trunc, nil)); status.Code(err) != codes.Unavailable {

@@ -11,7 +11,6 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
-	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
@@ -173,15 +172,6 @@ func partyFromStore(p store.Party) (ledger.Party, error) {
 		ps.BoundFrom[substances.Group(g)] = t
 	}
 	return ledger.Party{Code: p.CountryCode, Settings: ps, Reporting: p.ReportingParty}, nil
-}
-
-// controlsParty maps the reporting Party's stored settings to the controls package's.
-func controlsParty(p store.Party) (controls.Party, error) {
-	cp, err := ledger.ControlsParty(validate.PartySettings{Type: validatePartyType[p.PartyType], HFCGroup: validateHFCGroup[p.HFCGroup]})
-	if err != nil {
-		return cp, fmt.Errorf("the reporting Party %s %v", p.CountryCode, err)
-	}
-	return cp, nil
 }
 
 var validateStatus = map[string]validate.LicenceStatus{

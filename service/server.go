@@ -2,6 +2,7 @@ package service
 
 import (
 	"context"
+	"crypto/tls"
 	"crypto/x509"
 	"errors"
 	"log/slog"
@@ -52,7 +53,12 @@ type Options struct {
 	CertIdentities func() map[string]access.Identity
 	// Now is the clock; nil means time.Now.
 	Now func() time.Time
-	// ServerOptions are passed to grpc.NewServer after halovet's own (e.g. TLS credentials).
+	// TLS, when not nil, is the gRPC listener's TLS configuration (TLSFiles.Config); a
+	// handshake it refuses is logged with the peer's address and reason and counted in
+	// halovet_tls_handshake_refusals_total. Pass it to ServeHTTPAPI for the HTTP listener.
+	TLS *tls.Config
+	// ServerOptions are passed to grpc.NewServer after halovet's own (e.g. TLS credentials
+	// without the refusal log of TLS).
 	ServerOptions []grpc.ServerOption
 	// Limits bound messages, calls, streams and connections; zero fields take DefaultLimits.
 	Limits Limits
@@ -80,7 +86,9 @@ type Server struct {
 	health   *health.Server
 	cat      *CatalogueHolder
 	m        *metrics
-	env      *ledger.EnvHolder // the check environment, rebuilt on every announced register change
+	env      *ledger.EnvHolder   // the check environment, rebuilt on every announced register change
+	cons     *ledger.Consumption // consumption, baselines, compliance and quota planning
+	figures  *ledger.Figures     // the reporting Party's national entries and year figures
 	limits   Limits
 	inFlight *limiter
 	auth     *access.Authenticator
@@ -120,6 +128,8 @@ func New(st *store.Store, cat *CatalogueHolder, opts Options) *Server {
 	opts.Version, opts.Revision = buildVersion(opts.Version, opts.Revision)
 	s := &Server{opts: opts, log: opts.Logger, store: st, health: health.NewServer(), cat: cat, m: newMetrics(st, opts.Version, opts.Revision)}
 	s.env = ledger.NewEnvHolder(registerSource{st}, ledger.Options{Catalogue: cat.Load, Now: opts.Now, Logger: opts.Logger})
+	s.cons = ledger.NewConsumption(reportSource{st: st, today: s.today}, ledger.ConsumptionOptions{Catalogue: cat.Load, Drafts: reportSource{st: st, today: s.today}, Now: opts.Now})
+	s.figures = ledger.NewFigures(s.cons, figureWriter{st})
 	s.auth = opts.Authenticator
 	if s.auth == nil {
 		s.auth = access.NewAuthenticator(st, access.AuthOptions{Now: opts.Now})
@@ -171,6 +181,9 @@ func (s *Server) newGRPC(extra []grpc.ServerOption) *grpc.Server {
 			// The health checks of probes and balancers every few seconds are noise.
 			otelgrpc.WithFilter(func(info *stats.RPCTagInfo) bool { return !strings.HasPrefix(info.FullMethodName, "/grpc.health.v1.") }),
 		)))
+	}
+	if s.opts.TLS != nil {
+		own = append(own, grpc.Creds(s.grpcCreds(s.opts.TLS)))
 	}
 	g := grpc.NewServer(append(append(own, s.limits.serverOptions()...), extra...)...)
 	healthpb.RegisterHealthServer(g, s.health)

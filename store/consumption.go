@@ -52,10 +52,15 @@ type ShipmentTotal struct {
 // purpose, condition and partner status, for the given years (every year when years is
 // nil). The sums are exact numeric sums in kg, converted to tonnes as the last step.
 func (s *Store) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTotal, err error) {
+	return s.reader().ShipmentTotals(ctx, years)
+}
+
+// ShipmentTotals is Store.ShipmentTotals within the reader's transaction, if any.
+func (r Reader) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTotal, err error) {
 	defer classifyInto(&err)
 	// Party status is per component group (migration 5); rows without it take the
 	// shipment's flag.
-	rows, err := s.pool.Query(ctx, ShipmentTotalsSQL, intsOrNil(years))
+	rows, err := r.q.Query(ctx, ShipmentTotalsSQL, intsOrNil(years))
 	if err != nil {
 		return nil, err
 	}
@@ -76,8 +81,13 @@ func (s *Store) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTo
 // It walks the year index one distinct value at a time (a recursive skip scan), so its
 // cost grows with the number of years, not of shipments.
 func (s *Store) ShipmentYears(ctx context.Context) (_ []int, err error) {
+	return s.reader().ShipmentYears(ctx)
+}
+
+// ShipmentYears is Store.ShipmentYears within the reader's transaction, if any.
+func (r Reader) ShipmentYears(ctx context.Context) (_ []int, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, ShipmentYearsSQL)
+	rows, err := r.q.Query(ctx, ShipmentYearsSQL)
 	if err != nil {
 		return nil, err
 	}
@@ -105,6 +115,11 @@ type CompanyAmount struct {
 // quota unit: "metric-t" (component mass), "odp-t" or "co2e-t" (the figures computed when
 // the shipment was recorded).
 func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string, years []int) (_ []CompanyAmount, err error) {
+	return s.reader().CompanyImports(ctx, groups, unit, years)
+}
+
+// CompanyImports is Store.CompanyImports within the reader's transaction, if any.
+func (r Reader) CompanyImports(ctx context.Context, groups []string, unit string, years []int) (_ []CompanyAmount, err error) {
 	defer classifyInto(&err)
 	var expr string
 	switch unit {
@@ -117,7 +132,7 @@ func (s *Store) CompanyImports(ctx context.Context, groups []string, unit string
 	default:
 		return nil, fmt.Errorf("company imports: unit %q; accepted: metric-t, odp-t, co2e-t", unit)
 	}
-	rows, err := s.pool.Query(ctx, `SELECT s.company_id, s.year, sum(`+expr+`)::float8
+	rows, err := r.q.Query(ctx, `SELECT s.company_id, s.year, sum(`+expr+`)::float8
 	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
 	    WHERE s.direction = 'import' AND s.counts_in_consumption AND s.state = 'live'
 	      AND c.annex_group = ANY($1) AND s.year = ANY($2)
@@ -159,8 +174,13 @@ type ShipmentLine struct {
 // which shipments count belongs in both): the service's TestYearReportByHand compares the
 // report's totals with the consumption report's.
 func (s *Store) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, err error) {
+	return s.reader().ShipmentLines(ctx, year)
+}
+
+// ShipmentLines is Store.ShipmentLines within the reader's transaction, if any.
+func (r Reader) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT s.year, s.partner_country, c.designation, c.annex_group, s.direction,
+	rows, err := r.q.Query(ctx, `SELECT s.year, s.partner_country, c.designation, c.annex_group, s.direction,
 	        s.purpose, s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party,
 	        (sum(c.mass_kg) / 1000)::float8, array_agg(s.shipment_id ORDER BY s.shipment_id)
 	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id

@@ -218,9 +218,14 @@ func (s *Store) ReopenYear(ctx context.Context, year int, reason string) error {
 // other parts of the program that must treat a closed year as final (a report of a closed
 // year is stable: nothing declared in it changes until it is reopened).
 func (s *Store) YearClosed(ctx context.Context, year int) (_ ClosedYear, closed bool, err error) {
+	return s.reader().YearClosed(ctx, year)
+}
+
+// YearClosed is Store.YearClosed within the reader's transaction, if any.
+func (r Reader) YearClosed(ctx context.Context, year int) (_ ClosedYear, closed bool, err error) {
 	defer classifyInto(&err)
 	var c ClosedYear
-	err = s.pool.QueryRow(ctx, `SELECT year, closed_at, closed_by, reason FROM closed_years WHERE year = $1`, year).
+	err = r.q.QueryRow(ctx, `SELECT year, closed_at, closed_by, reason FROM closed_years WHERE year = $1`, year).
 		Scan(&c.Year, &c.ClosedAt, &c.ClosedBy, &c.Reason)
 	if errors.Is(err, pgx.ErrNoRows) {
 		return ClosedYear{}, false, nil

@@ -97,17 +97,28 @@ func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry)
 // ListNationalEntries returns the entries of one year (all years when year is 0), by year,
 // kind, substance and key.
 func (s *Store) ListNationalEntries(ctx context.Context, year int) ([]NationalEntry, error) {
-	return s.ListNationalEntriesPage(ctx, year, Page{})
+	return s.reader().ListNationalEntriesPage(ctx, year, Page{})
 }
 
 // ListNationalEntriesPage returns one page of ListNationalEntries.
-func (s *Store) ListNationalEntriesPage(ctx context.Context, year int, p Page) (_ []NationalEntry, err error) {
+func (s *Store) ListNationalEntriesPage(ctx context.Context, year int, p Page) ([]NationalEntry, error) {
+	return s.reader().ListNationalEntriesPage(ctx, year, p)
+}
+
+// ListNationalEntries is Store.ListNationalEntries within the reader's transaction, if any.
+func (r Reader) ListNationalEntries(ctx context.Context, year int) ([]NationalEntry, error) {
+	return r.ListNationalEntriesPage(ctx, year, Page{})
+}
+
+// ListNationalEntriesPage is Store.ListNationalEntriesPage within the reader's
+// transaction, if any.
+func (r Reader) ListNationalEntriesPage(ctx context.Context, year int, p Page) (_ []NationalEntry, err error) {
 	defer classifyInto(&err)
 	cond, limit, args, err := p.sql([]any{year}, keyCol{"year", true}, keyCol{name: "entry_type"}, keyCol{name: "substance"}, keyCol{name: "entry_key"})
 	if err != nil {
 		return nil, err
 	}
-	rows, err := s.pool.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note, outside_customs
+	rows, err := r.q.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note, outside_customs
 	    FROM national_entries WHERE ($1 = 0 OR year = $1) AND `+cond+`
 	    ORDER BY year, entry_type, substance, entry_key`+limit, args...)
 	if err != nil {
@@ -129,8 +140,13 @@ func (s *Store) ListNationalEntriesPage(ctx context.Context, year int, p Page) (
 // mark, in the database,
 // for the given years (every year when years is nil).
 func (s *Store) NationalTotals(ctx context.Context, years []int) (_ []NationalTotal, err error) {
+	return s.reader().NationalTotals(ctx, years)
+}
+
+// NationalTotals is Store.NationalTotals within the reader's transaction, if any.
+func (r Reader) NationalTotals(ctx context.Context, years []int) (_ []NationalTotal, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT year, entry_type, substance, sum(metric_tonnes)::float8, count(*),
+	rows, err := r.q.Query(ctx, `SELECT year, entry_type, substance, sum(metric_tonnes)::float8, count(*),
 	        outside_customs, array_agg(entry_key ORDER BY entry_key)
 	    FROM national_entries WHERE ($1::int[] IS NULL OR year = ANY($1))
 	    GROUP BY year, entry_type, substance, outside_customs ORDER BY year, entry_type, substance, outside_customs`, intsOrNil(years))
@@ -155,8 +171,13 @@ var ErrNoReportingParty = errors.New("no reporting Party is configured")
 // ReportingParty returns the settings of the country marked as the reporting Party; the
 // error wraps ErrNoReportingParty when there is none.
 func (s *Store) ReportingParty(ctx context.Context) (_ Party, err error) {
+	return s.reader().ReportingParty(ctx)
+}
+
+// ReportingParty is Store.ReportingParty within the reader's transaction, if any.
+func (r Reader) ReportingParty(ctx context.Context) (_ Party, err error) {
 	defer classifyInto(&err)
-	p, err := scanParty(s.pool.QueryRow(ctx, `SELECT `+partyCols+` FROM parties WHERE reporting_party`))
+	p, err := scanParty(r.q.QueryRow(ctx, `SELECT `+partyCols+` FROM parties WHERE reporting_party`))
 	if errors.Is(err, pgx.ErrNoRows) {
 		return p, fmt.Errorf("%w: store the country's settings and name it with SetReportingParty (or reporting_party true in a first 'halovet load')", ErrNoReportingParty)
 	}

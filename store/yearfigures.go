@@ -37,51 +37,45 @@ type OfficialFigure struct {
 // PutExemptions stores exemptions in one transaction (replaced by key), each in the audit
 // log; a value the schema refuses fails the whole call with ErrConflict.
 func (s *Store) PutExemptions(ctx context.Context, es []Exemption) error {
-	if len(es) == 0 {
-		return nil
-	}
-	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
-		keys := make([]string, len(es))
-		years := make([]int, len(es))
-		for i, x := range es {
-			keys[i], years[i] = x.Key, x.Year
-		}
-		if err := refuseClosedYears(ctx, tx, "authorised_exemptions", "exemption_key", keys, years); err != nil {
-			return err
-		}
-		for _, e := range es {
-			_, err := tx.Exec(ctx, `INSERT INTO authorised_exemptions (exemption_key, country_code, year, annex_scope, use_kind, amount, unit, source, note)
-			    VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)
-			    ON CONFLICT (exemption_key) DO UPDATE SET country_code = EXCLUDED.country_code, year = EXCLUDED.year,
-			      annex_scope = EXCLUDED.annex_scope, use_kind = EXCLUDED.use_kind, amount = EXCLUDED.amount, unit = EXCLUDED.unit,
-			      source = EXCLUDED.source, note = EXCLUDED.note, updated_at = now()`,
-				e.Key, e.CountryCode, e.Year, e.Scope, e.Use, e.Amount, e.Unit, e.Source, e.Note)
-			if err != nil {
-				return classify(err, "exemption", e.Key)
-			}
-			if err := audit(ctx, tx, "put", "exemption", e.Key, "", e); err != nil {
-				return err
-			}
-		}
-		return nil
+	return putByKey(ctx, s, es, keyedWrite[Exemption]{
+		table: "authorised_exemptions", keyCol: "exemption_key", what: "exemption", auditKind: "exemption",
+		sql: `INSERT INTO authorised_exemptions (exemption_key, country_code, year, annex_scope, use_kind, amount, unit, source, note)
+		    VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)
+		    ON CONFLICT (exemption_key) DO UPDATE SET country_code = EXCLUDED.country_code, year = EXCLUDED.year,
+		      annex_scope = EXCLUDED.annex_scope, use_kind = EXCLUDED.use_kind, amount = EXCLUDED.amount, unit = EXCLUDED.unit,
+		      source = EXCLUDED.source, note = EXCLUDED.note, updated_at = now()`,
+		key: func(e Exemption) (string, int) { return e.Key, e.Year },
+		args: func(e Exemption) []any {
+			return []any{e.Key, e.CountryCode, e.Year, e.Scope, e.Use, e.Amount, e.Unit, e.Source, e.Note}
+		},
 	})
 }
 
 // ListExemptions returns the exemptions of one year (every year when year is 0) by Party,
 // year, scope, use and key.
 func (s *Store) ListExemptions(ctx context.Context, year int) ([]Exemption, error) {
-	return s.ListExemptionsPage(ctx, year, Page{})
+	return s.reader().ListExemptionsPage(ctx, year, Page{})
 }
 
 // ListExemptionsPage returns one page of ListExemptions.
-func (s *Store) ListExemptionsPage(ctx context.Context, year int, p Page) (_ []Exemption, err error) {
+func (s *Store) ListExemptionsPage(ctx context.Context, year int, p Page) ([]Exemption, error) {
+	return s.reader().ListExemptionsPage(ctx, year, p)
+}
+
+// ListExemptions is Store.ListExemptions within the reader's transaction, if any.
+func (r Reader) ListExemptions(ctx context.Context, year int) ([]Exemption, error) {
+	return r.ListExemptionsPage(ctx, year, Page{})
+}
+
+// ListExemptionsPage is Store.ListExemptionsPage within the reader's transaction, if any.
+func (r Reader) ListExemptionsPage(ctx context.Context, year int, p Page) (_ []Exemption, err error) {
 	defer classifyInto(&err)
 	cond, limit, args, err := p.sql([]any{year}, keyCol{name: "country_code"}, keyCol{"year", true}, keyCol{name: "annex_scope"},
 		keyCol{name: "use_kind"}, keyCol{name: "exemption_key"})
 	if err != nil {
 		return nil, err
 	}
-	rows, err := s.pool.Query(ctx, `SELECT exemption_key, country_code, year, annex_scope, use_kind, amount::float8, unit, source, note
+	rows, err := r.q.Query(ctx, `SELECT exemption_key, country_code, year, annex_scope, use_kind, amount::float8, unit, source, note
 	    FROM authorised_exemptions WHERE ($1 = 0 OR year = $1) AND `+cond+`
 	    ORDER BY country_code, year, annex_scope, use_kind, exemption_key`+limit, args...)
 	if err != nil {
@@ -103,49 +97,44 @@ func (s *Store) ListExemptionsPage(ctx context.Context, year int, p Page) (_ []E
 // the audit log. A second figure for the same Party, kind, scope and year under another key
 // fails the whole call with ErrConflict.
 func (s *Store) PutOfficialFigures(ctx context.Context, fs []OfficialFigure) error {
-	if len(fs) == 0 {
-		return nil
-	}
-	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
-		keys := make([]string, len(fs))
-		years := make([]int, len(fs))
-		for i, x := range fs {
-			keys[i], years[i] = x.Key, x.Year
-		}
-		if err := refuseClosedYears(ctx, tx, "official_figures", "figure_key", keys, years); err != nil {
-			return err
-		}
-		for _, f := range fs {
-			_, err := tx.Exec(ctx, `INSERT INTO official_figures (figure_key, country_code, kind, annex_scope, year, value, unit, source)
-			    VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
-			    ON CONFLICT (figure_key) DO UPDATE SET country_code = EXCLUDED.country_code, kind = EXCLUDED.kind,
-			      annex_scope = EXCLUDED.annex_scope, year = EXCLUDED.year, value = EXCLUDED.value, unit = EXCLUDED.unit,
-			      source = EXCLUDED.source, updated_at = now()`,
-				f.Key, f.CountryCode, f.Kind, f.Scope, f.Year, f.Value, f.Unit, f.Source)
-			if err != nil {
-				return classify(err, "official figure", f.Key)
-			}
-			if err := audit(ctx, tx, "put", "official_figure", f.Key, "", f); err != nil {
-				return err
-			}
-		}
-		return nil
+	return putByKey(ctx, s, fs, keyedWrite[OfficialFigure]{
+		table: "official_figures", keyCol: "figure_key", what: "official figure", auditKind: "official_figure",
+		sql: `INSERT INTO official_figures (figure_key, country_code, kind, annex_scope, year, value, unit, source)
+		    VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
+		    ON CONFLICT (figure_key) DO UPDATE SET country_code = EXCLUDED.country_code, kind = EXCLUDED.kind,
+		      annex_scope = EXCLUDED.annex_scope, year = EXCLUDED.year, value = EXCLUDED.value, unit = EXCLUDED.unit,
+		      source = EXCLUDED.source, updated_at = now()`,
+		key: func(f OfficialFigure) (string, int) { return f.Key, f.Year },
+		args: func(f OfficialFigure) []any {
+			return []any{f.Key, f.CountryCode, f.Kind, f.Scope, f.Year, f.Value, f.Unit, f.Source}
+		},
 	})
 }
 
 // ListOfficialFigures returns every official figure by Party, kind, scope and year.
 func (s *Store) ListOfficialFigures(ctx context.Context) ([]OfficialFigure, error) {
-	return s.ListOfficialFiguresPage(ctx, Page{})
+	return s.reader().ListOfficialFiguresPage(ctx, Page{})
 }
 
 // ListOfficialFiguresPage returns one page of ListOfficialFigures.
-func (s *Store) ListOfficialFiguresPage(ctx context.Context, p Page) (_ []OfficialFigure, err error) {
+func (s *Store) ListOfficialFiguresPage(ctx context.Context, p Page) ([]OfficialFigure, error) {
+	return s.reader().ListOfficialFiguresPage(ctx, p)
+}
+
+// ListOfficialFigures is Store.ListOfficialFigures within the reader's transaction, if any.
+func (r Reader) ListOfficialFigures(ctx context.Context) ([]OfficialFigure, error) {
+	return r.ListOfficialFiguresPage(ctx, Page{})
+}
+
+// ListOfficialFiguresPage is Store.ListOfficialFiguresPage within the reader's
+// transaction, if any.
+func (r Reader) ListOfficialFiguresPage(ctx context.Context, p Page) (_ []OfficialFigure, err error) {
 	defer classifyInto(&err)
 	cond, limit, args, err := p.sql(nil, keyCol{name: "country_code"}, keyCol{name: "kind"}, keyCol{name: "annex_scope"}, keyCol{"year", true})
 	if err != nil {
 		return nil, err
 	}
-	rows, err := s.pool.Query(ctx, `SELECT figure_key, country_code, kind, annex_scope, year, value::float8, unit, source
+	rows, err := r.q.Query(ctx, `SELECT figure_key, country_code, kind, annex_scope, year, value::float8, unit, source
 	    FROM official_figures WHERE `+cond+` ORDER BY country_code, kind, annex_scope, year`+limit, args...)
 	if err != nil {
 		return nil, err
@@ -180,52 +169,47 @@ type HFC23Entry struct {
 // audit log. A second entry for the same facility and year under another key fails the
 // whole call with ErrConflict.
 func (s *Store) PutHFC23Entries(ctx context.Context, es []HFC23Entry) error {
-	if len(es) == 0 {
-		return nil
-	}
-	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
-		keys := make([]string, len(es))
-		years := make([]int, len(es))
-		for i, x := range es {
-			keys[i], years[i] = x.Key, x.Year
-		}
-		if err := refuseClosedYears(ctx, tx, "hfc23_facility_entries", "entry_key", keys, years); err != nil {
-			return err
-		}
-		for _, e := range es {
-			_, err := tx.Exec(ctx, `INSERT INTO hfc23_facility_entries (entry_key, facility, year, generated_tonnes, captured_used_tonnes,
-			      destroyed_tonnes, emitted_tonnes, note)
-			    VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
-			    ON CONFLICT (entry_key) DO UPDATE SET facility = EXCLUDED.facility, year = EXCLUDED.year,
-			      generated_tonnes = EXCLUDED.generated_tonnes, captured_used_tonnes = EXCLUDED.captured_used_tonnes,
-			      destroyed_tonnes = EXCLUDED.destroyed_tonnes, emitted_tonnes = EXCLUDED.emitted_tonnes, note = EXCLUDED.note,
-			      updated_at = now()`,
-				e.Key, e.Facility, e.Year, e.Generated, e.CapturedUsed, e.Destroyed, e.Emitted, e.Note)
-			if err != nil {
-				return classify(err, "HFC-23 facility entry", e.Key)
-			}
-			if err := audit(ctx, tx, "put", "hfc23_facility_entry", e.Key, "", e); err != nil {
-				return err
-			}
-		}
-		return nil
+	return putByKey(ctx, s, es, keyedWrite[HFC23Entry]{
+		table: "hfc23_facility_entries", keyCol: "entry_key", what: "HFC-23 facility entry", auditKind: "hfc23_facility_entry",
+		sql: `INSERT INTO hfc23_facility_entries (entry_key, facility, year, generated_tonnes, captured_used_tonnes,
+		      destroyed_tonnes, emitted_tonnes, note)
+		    VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
+		    ON CONFLICT (entry_key) DO UPDATE SET facility = EXCLUDED.facility, year = EXCLUDED.year,
+		      generated_tonnes = EXCLUDED.generated_tonnes, captured_used_tonnes = EXCLUDED.captured_used_tonnes,
+		      destroyed_tonnes = EXCLUDED.destroyed_tonnes, emitted_tonnes = EXCLUDED.emitted_tonnes, note = EXCLUDED.note,
+		      updated_at = now()`,
+		key: func(e HFC23Entry) (string, int) { return e.Key, e.Year },
+		args: func(e HFC23Entry) []any {
+			return []any{e.Key, e.Facility, e.Year, e.Generated, e.CapturedUsed, e.Destroyed, e.Emitted, e.Note}
+		},
 	})
 }
 
 // ListHFC23Entries returns the facility entries of one year (every year when year is 0), by
 // year, facility.
 func (s *Store) ListHFC23Entries(ctx context.Context, year int) ([]HFC23Entry, error) {
-	return s.ListHFC23EntriesPage(ctx, year, Page{})
+	return s.reader().ListHFC23EntriesPage(ctx, year, Page{})
 }
 
 // ListHFC23EntriesPage returns one page of ListHFC23Entries.
-func (s *Store) ListHFC23EntriesPage(ctx context.Context, year int, p Page) (_ []HFC23Entry, err error) {
+func (s *Store) ListHFC23EntriesPage(ctx context.Context, year int, p Page) ([]HFC23Entry, error) {
+	return s.reader().ListHFC23EntriesPage(ctx, year, p)
+}
+
+// ListHFC23Entries is Store.ListHFC23Entries within the reader's transaction, if any.
+func (r Reader) ListHFC23Entries(ctx context.Context, year int) ([]HFC23Entry, error) {
+	return r.ListHFC23EntriesPage(ctx, year, Page{})
+}
+
+// ListHFC23EntriesPage is Store.ListHFC23EntriesPage within the reader's transaction, if
+// any.
+func (r Reader) ListHFC23EntriesPage(ctx context.Context, year int, p Page) (_ []HFC23Entry, err error) {
 	defer classifyInto(&err)
 	cond, limit, args, err := p.sql([]any{year}, keyCol{"year", true}, keyCol{name: "facility"})
 	if err != nil {
 		return nil, err
 	}
-	rows, err := s.pool.Query(ctx, `SELECT entry_key, facility, year, generated_tonnes::float8, captured_used_tonnes::float8,
+	rows, err := r.q.Query(ctx, `SELECT entry_key, facility, year, generated_tonnes::float8, captured_used_tonnes::float8,
 	        destroyed_tonnes::float8, emitted_tonnes::float8, note
 	    FROM hfc23_facility_entries WHERE ($1 = 0 OR year = $1) AND `+cond+` ORDER BY year, facility`+limit, args...)
 	if err != nil {
@@ -256,31 +240,27 @@ type PartnerExport struct {
 // PutPartnerExports stores partner reports in one transaction (replaced by key), each in
 // the audit log.
 func (s *Store) PutPartnerExports(ctx context.Context, rs []PartnerExport) error {
-	if len(rs) == 0 {
-		return nil
-	}
-	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
-		for _, r := range rs {
-			_, err := tx.Exec(ctx, `INSERT INTO partner_export_reports (report_key, year, partner, substance, metric_tonnes, source)
-			    VALUES ($1, $2, $3, $4, $5, $6)
-			    ON CONFLICT (report_key) DO UPDATE SET year = EXCLUDED.year, partner = EXCLUDED.partner,
-			      substance = EXCLUDED.substance, metric_tonnes = EXCLUDED.metric_tonnes, source = EXCLUDED.source,
-			      updated_at = now()`, r.Key, r.Year, r.Partner, r.Substance, r.Tonnes, r.Source)
-			if err != nil {
-				return classify(err, "partner export report", r.Key)
-			}
-			if err := audit(ctx, tx, "put", "partner_export_report", r.Key, "", r); err != nil {
-				return err
-			}
-		}
-		return nil
+	return putByKey(ctx, s, rs, keyedWrite[PartnerExport]{
+		what: "partner export report", auditKind: "partner_export_report", // partners' figures: no closed-year check
+		sql: `INSERT INTO partner_export_reports (report_key, year, partner, substance, metric_tonnes, source)
+		    VALUES ($1, $2, $3, $4, $5, $6)
+		    ON CONFLICT (report_key) DO UPDATE SET year = EXCLUDED.year, partner = EXCLUDED.partner,
+		      substance = EXCLUDED.substance, metric_tonnes = EXCLUDED.metric_tonnes, source = EXCLUDED.source,
+		      updated_at = now()`,
+		key:  func(r PartnerExport) (string, int) { return r.Key, r.Year },
+		args: func(r PartnerExport) []any { return []any{r.Key, r.Year, r.Partner, r.Substance, r.Tonnes, r.Source} },
 	})
 }
 
 // ListPartnerExports returns the partner reports of one year by partner, substance, key.
 func (s *Store) ListPartnerExports(ctx context.Context, year int) (_ []PartnerExport, err error) {
+	return s.reader().ListPartnerExports(ctx, year)
+}
+
+// ListPartnerExports is Store.ListPartnerExports within the reader's transaction, if any.
+func (r Reader) ListPartnerExports(ctx context.Context, year int) (_ []PartnerExport, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT report_key, year, partner, substance, metric_tonnes::float8, source
+	rows, err := r.q.Query(ctx, `SELECT report_key, year, partner, substance, metric_tonnes::float8, source
 	    FROM partner_export_reports WHERE year = $1 ORDER BY partner, substance, report_key`, year)
 	if err != nil {
 		return nil, err
@@ -334,4 +314,46 @@ func refuseClosedYears(ctx context.Context, tx pgx.Tx, table, keyCol string, key
 		}
 	}
 	return nil
+}
+
+// keyedWrite says how figures of one kind are stored: an upsert by the caller's key,
+// refused for a closed year when table is set, audited one by one.
+type keyedWrite[T any] struct {
+	table, keyCol   string // for the closed-year check; "" skips it
+	what, auditKind string // for error messages and the audit log
+	sql             string
+	key             func(T) (key string, year int)
+	args            func(T) []any
+}
+
+// putByKey stores items in one transaction, each in the audit log; a value the schema
+// refuses fails the whole call (classified: ErrConflict, ErrAlreadyExists, ...).
+func putByKey[T any](ctx context.Context, s *Store, items []T, w keyedWrite[T]) error {
+	if len(items) == 0 {
+		return nil
+	}
+	// READ COMMITTED: upserts by key (ON CONFLICT), so two callers storing the same key at
+	// once cannot both insert; the closed-year check locks the years it reads.
+	return s.inTx(ctx, readCommitted, func(tx pgx.Tx) error {
+		if w.table != "" {
+			keys := make([]string, len(items))
+			years := make([]int, len(items))
+			for i, x := range items {
+				keys[i], years[i] = w.key(x)
+			}
+			if err := refuseClosedYears(ctx, tx, w.table, w.keyCol, keys, years); err != nil {
+				return err
+			}
+		}
+		for _, x := range items {
+			key, _ := w.key(x)
+			if _, err := tx.Exec(ctx, w.sql, w.args(x)...); err != nil {
+				return classify(err, w.what, key)
+			}
+			if err := audit(ctx, tx, "put", w.auditKind, key, "", x); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
 }

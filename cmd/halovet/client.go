@@ -4,6 +4,7 @@ import (
 	"context"
 	"crypto/tls"
 	"crypto/x509"
+	"encoding/pem"
 	"net"
 	"os"
 	"strings"
@@ -21,6 +22,8 @@ type clientFlags struct {
 	useTLS     bool
 	caFile     string
 	serverName string
+	certFile   string // client certificate chain for mutual TLS
+	keyFile    string
 	credFile   string
 	timeout    time.Duration // longest wait for the server; 0: none
 }
@@ -33,6 +36,8 @@ func (c *clientFlags) register(fs *pflag.FlagSet) {
 	fs.BoolVar(&c.useTLS, "tls", envBool("HALOVET_TLS"), "connect with TLS (env HALOVET_TLS); plaintext otherwise, meant for loopback")
 	fs.StringVar(&c.caFile, "tls-ca", envOr("HALOVET_TLS_CA", ""), "PEM file of the CA that signed the server's certificate (default: system roots)")
 	fs.StringVar(&c.serverName, "tls-server-name", envOr("HALOVET_TLS_SERVER_NAME", ""), "server name to verify in the certificate (default: the host of --server)")
+	fs.StringVar(&c.certFile, "tls-client-cert", envOr("HALOVET_TLS_CLIENT_CERT", ""), "PEM client certificate (chain: the certificate, then any intermediate CA) to identify with by mutual TLS, with --tls and --tls-client-key (env HALOVET_TLS_CLIENT_CERT)")
+	fs.StringVar(&c.keyFile, "tls-client-key", envOr("HALOVET_TLS_CLIENT_KEY", ""), "PEM private key of --tls-client-cert (env HALOVET_TLS_CLIENT_KEY)")
 	fs.DurationVar(&c.timeout, "timeout", envDuration("HALOVET_TIMEOUT", defaultClientTimeout), "longest wait for the server: the deadline of a single call, and for a file the longest time without a message either way; 0 waits for ever (env HALOVET_TIMEOUT)")
 	fs.StringVar(&c.credFile, "credential-file", envOr("HALOVET_CREDENTIAL_FILE", ""), "file holding the credential secret 'halovet credentials issue' printed (env HALOVET_CREDENTIAL_FILE, or the secret itself in HALOVET_CREDENTIAL); sent only over --tls or to a loopback address")
 }
@@ -53,7 +58,17 @@ func (c *clientFlags) dial() (*grpc.ClientConn, error) {
 			}
 			cfg.RootCAs = pool
 		}
+		if c.certFile != "" || c.keyFile != "" {
+			cert, err := loadClientCert(c.certFile, c.keyFile)
+			if err != nil {
+				return nil, err
+			}
+			cfg.Certificates = []tls.Certificate{cert}
+			presentedCert = c.certFile
+		}
 		creds = credentials.NewTLS(cfg)
+	} else if c.certFile != "" || c.keyFile != "" {
+		return nil, usageErr("--tls-client-cert and --tls-client-key are presented over TLS only: add --tls")
 	}
 	opts := append([]grpc.DialOption{grpc.WithTransportCredentials(creds)}, clientLimitOptions(c.timeout)...)
 	addr, err := serverAddress(c.server)
@@ -163,4 +178,48 @@ func serverAddress(v string) (string, error) {
 		return "", usageErr("--server %q: give HOST[:PORT], e.g. 127.0.0.1:%s or [::1]:%s", v, defaultPort, defaultPort)
 	}
 	return net.JoinHostPort(host, defaultPort), nil
+}
+
+// loadClientCert reads a client certificate chain and its key, and parses every
+// certificate of the chain before anything is dialed: a truncated or damaged file is an
+// error naming the file and the certificate, not a handshake the server refuses without
+// a reason.
+func loadClientCert(certFile, keyFile string) (tls.Certificate, error) {
+	if certFile == "" || keyFile == "" {
+		return tls.Certificate{}, usageErr("--tls-client-cert and --tls-client-key go together")
+	}
+	certPEM, err := os.ReadFile(certFile)
+	if err != nil {
+		return tls.Certificate{}, usageErr("--tls-client-cert: %v", err)
+	}
+	keyPEM, err := os.ReadFile(keyFile)
+	if err != nil {
+		return tls.Certificate{}, usageErr("--tls-client-key: %v", err)
+	}
+	rest, n := certPEM, 0
+	for {
+		var b *pem.Block
+		b, rest = pem.Decode(rest)
+		if b == nil {
+			break
+		}
+		if b.Type != "CERTIFICATE" {
+			return tls.Certificate{}, usageErr("--tls-client-cert %s: PEM block %d is a %q; the file must hold CERTIFICATE blocks only (the key goes in --tls-client-key)", certFile, n+1, b.Type)
+		}
+		n++
+		if _, err := x509.ParseCertificate(b.Bytes); err != nil {
+			return tls.Certificate{}, usageErr("--tls-client-cert %s: certificate %d does not parse, it is truncated or damaged (%v); accepted: PEM CERTIFICATE blocks of whole DER certificates, as the CA issued them", certFile, n, err)
+		}
+	}
+	if strings.TrimSpace(string(rest)) != "" {
+		return tls.Certificate{}, usageErr("--tls-client-cert %s: after %d whole certificate(s) the file holds text that is not a complete PEM block (cut off?); accepted: PEM CERTIFICATE blocks, each from BEGIN to END", certFile, n)
+	}
+	if n == 0 {
+		return tls.Certificate{}, usageErr("--tls-client-cert %s holds no PEM certificate", certFile)
+	}
+	cert, err := tls.X509KeyPair(certPEM, keyPEM)
+	if err != nil {
+		return tls.Certificate{}, usageErr("--tls-client-cert %s with --tls-client-key %s: %v", certFile, keyFile, err)
+	}
+	return cert, nil
 }

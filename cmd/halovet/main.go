@@ -60,12 +60,40 @@ var errHelpShown = errors.New("help shown")
 // when nothing answers there.
 var dialedServer string
 
+// presentedCert is the client certificate file the last connection presented, if any.
+var presentedCert string
+
+// certificateAlerts are the TLS alerts (as crypto/tls words them) by which a server, or
+// a TLS proxy in front of it, refuses the client certificate during the handshake.
+var certificateAlerts = []string{"bad certificate", "unsupported certificate", "revoked certificate",
+	"expired certificate", "unknown certificate authority", "unknown certificate", "certificate required",
+	"access denied", "error decoding message"}
+
+// certificateRefusal is the alert in msg by which the server refused the client
+// certificate, if it did.
+func certificateRefusal(msg string) (string, bool) {
+	_, alert, ok := strings.Cut(msg, "remote error: tls: ")
+	if !ok {
+		return "", false
+	}
+	for _, a := range certificateAlerts {
+		if strings.HasPrefix(alert, a) {
+			// A decode error is about the certificate only when one was sent.
+			if a == "error decoding message" && presentedCert == "" {
+				return "", false
+			}
+			return a, true
+		}
+	}
+	return "", false
+}
+
 func run(ctx context.Context, args []string) int {
 	root := newRoot(ctx)
 	root.SetArgs(args)
 	root.SetOut(os.Stdout)
 	root.SetErr(os.Stderr)
-	dialedServer = ""
+	dialedServer, presentedCert = "", ""
 	cmd, err := root.ExecuteC()
 	if err == nil || errors.Is(err, errHelpShown) {
 		return exitOK
@@ -98,6 +126,16 @@ func explain(err error) (int, string) {
 		return exitUsage, msg + " (see --help)"
 	}
 	if st, ok := status.FromError(unwrapAll(err)); ok {
+		if alert, ok := certificateRefusal(msg); ok && st.Code() == codes.Unavailable {
+			cert := "no client certificate was presented: give one with --tls-client-cert and --tls-client-key"
+			switch {
+			case presentedCert != "" && alert == "certificate required":
+				cert = "the server named the CAs it accepts and none of them issued --tls-client-cert " + presentedCert + ", so it was not sent; use a certificate of a CA the server trusts"
+			case presentedCert != "":
+				cert = "check that --tls-client-cert " + presentedCert + " is issued by a CA the server trusts, valid today, and for client authentication"
+			}
+			return exitFailure, "authentication failed: the server refused the TLS client certificate during the handshake (TLS alert: " + alert + "), so no call was made; " + cert
+		}
 		switch st.Code() {
 		case codes.Unavailable, codes.DeadlineExceeded:
 			where := dialedServer

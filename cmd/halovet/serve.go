@@ -13,8 +13,6 @@ import (
 	"time"
 
 	"github.com/spf13/pflag"
-	"google.golang.org/grpc"
-	"google.golang.org/grpc/credentials"
 
 	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/console"
@@ -113,7 +111,6 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 		if (*clientCA != "" || *clientMap != "") && (*certFile == "" || *clientCA == "" || *clientMap == "") {
 			return usageErr("mutual TLS needs --tls-cert, --tls-key, --tls-client-ca and --tls-client-map together")
 		}
-		var serverOpts []grpc.ServerOption
 		var tlsFiles *service.TLSFiles
 		switch {
 		case *certFile != "" && *keyFile != "":
@@ -121,7 +118,6 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 			if err != nil {
 				return usageErr("%v", err)
 			}
-			serverOpts = append(serverOpts, grpc.Creds(credentials.NewTLS(tlsFiles.Config())))
 		case *certFile != "" || *keyFile != "":
 			return usageErr("--tls-cert and --tls-key go together")
 		}
@@ -183,7 +179,7 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 				return err
 			}
 		}
-		opts := service.Options{GracePeriod: *grace, Logger: log, OpenAccess: *openAccess, ServerOptions: serverOpts, Limits: limits(),
+		opts := service.Options{GracePeriod: *grace, Logger: log, OpenAccess: *openAccess, Limits: limits(),
 			Version: versionString(), Revision: commitString(), TracerProvider: tp}
 		if *oidcIssuer != "" {
 			v, err := access.NewTokenVerifier(ctx, access.TokenOptions{Issuer: *oidcIssuer, Audience: *oidcAudience,
@@ -192,6 +188,10 @@ func defineServe(fs *pflag.FlagSet) runFunc {
 				return fmt.Errorf("--oidc-issuer: %w", err)
 			}
 			opts.TokenVerifier = v
+		}
+		if tlsFiles != nil {
+			// Handshakes the listener refuses are logged with the peer and counted.
+			opts.TLS = tlsFiles.Config()
 		}
 		if tlsFiles != nil && *clientCA != "" {
 			opts.ClientCAs, opts.CertIdentities = tlsFiles.ClientCAs, tlsFiles.CertIdentities
