@@ -69,11 +69,21 @@ func (a *accessServer) IssueCredential(ctx context.Context, req *halovetv1.Issue
 }
 
 func (a *accessServer) ListCredentials(ctx context.Context, req *halovetv1.ListCredentialsRequest) (*halovetv1.ListCredentialsResponse, error) {
-	cs, err := a.srv.store.ListCredentials(ctx, req.GetIncludeRevoked())
+	pg, vs, err := a.srv.openPage(ctx, "credentials", req)
+	if err != nil {
+		return nil, toStatus(ctx, a.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	cs, err := a.srv.store.ListCredentialsPage(ctx, req.GetIncludeRevoked(), pg)
 	if err != nil {
 		return nil, toStatus(ctx, a.srv.log, err)
 	}
 	out := &halovetv1.ListCredentialsResponse{}
+	if cs, out.NextPageToken, err = closePage(ctx, a.srv, "credentials", req, pg, cs); err != nil {
+		return nil, toStatus(ctx, a.srv.log, err)
+	}
 	for _, c := range cs {
 		out.Credentials = append(out.Credentials, credentialToProto(c))
 	}

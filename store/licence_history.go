@@ -261,8 +261,17 @@ func (s *Store) CloseQuotaLine(ctx context.Context, c CloseLine) (successor int,
 }
 
 // LicenceHistory returns a licence's events in the order they were recorded.
-func (s *Store) LicenceHistory(ctx context.Context, number string) (_ []LicenceEvent, err error) {
+func (s *Store) LicenceHistory(ctx context.Context, number string) ([]LicenceEvent, error) {
+	return s.LicenceHistoryPage(ctx, number, Page{})
+}
+
+// LicenceHistoryPage returns one page of LicenceHistory.
+func (s *Store) LicenceHistoryPage(ctx context.Context, number string, p Page) (_ []LicenceEvent, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql([]any{number}, keyCol{"event_id", true})
+	if err != nil {
+		return nil, err
+	}
 	var exists bool
 	if err := s.pool.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM licences WHERE licence_number = $1)`, number).Scan(&exists); err != nil {
 		return nil, err
@@ -271,7 +280,7 @@ func (s *Store) LicenceHistory(ctx context.Context, number string) (_ []LicenceE
 		return nil, notFound("licence", number)
 	}
 	rows, err := s.pool.Query(ctx, `SELECT event_id, kind, effective_on, coalesce(status, ''), reason, actor, recorded_at, detail
-	    FROM licence_events WHERE licence_number = $1 ORDER BY event_id`, number)
+	    FROM licence_events WHERE licence_number = $1 AND `+cond+` ORDER BY event_id`+limit, args...)
 	if err != nil {
 		return nil, err
 	}

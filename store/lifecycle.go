@@ -228,9 +228,18 @@ func (r Reader) YearClosed(ctx context.Context, year int) (_ ClosedYear, closed 
 }
 
 // ClosedYears lists the closed reporting years in order.
-func (s *Store) ClosedYears(ctx context.Context) (_ []ClosedYear, err error) {
+func (s *Store) ClosedYears(ctx context.Context) ([]ClosedYear, error) {
+	return s.ClosedYearsPage(ctx, Page{})
+}
+
+// ClosedYearsPage returns one page of ClosedYears.
+func (s *Store) ClosedYearsPage(ctx context.Context, p Page) (_ []ClosedYear, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT year, closed_at, closed_by, reason FROM closed_years ORDER BY year`)
+	cond, limit, args, err := p.sql(nil, keyCol{"year", true})
+	if err != nil {
+		return nil, err
+	}
+	rows, err := s.pool.Query(ctx, `SELECT year, closed_at, closed_by, reason FROM closed_years WHERE `+cond+` ORDER BY year`+limit, args...)
 	if err != nil {
 		return nil, err
 	}

@@ -289,7 +289,8 @@ func defineCredList(fs *pflag.FlagSet) runFunc {
 				resp.Credentials = append(resp.Credentials, storedToProto(c))
 			}
 		} else if err := withConn(&cf, func(conn *grpc.ClientConn) (err error) {
-			resp, err = halovetv1.NewAccessServiceClient(conn).ListCredentials(ctx, &halovetv1.ListCredentialsRequest{IncludeRevoked: *revoked})
+			resp, err = halovetv1.ReadAllPages(ctx, halovetv1.NewAccessServiceClient(conn).ListCredentials,
+				&halovetv1.ListCredentialsRequest{IncludeRevoked: *revoked, PageSize: listPageSize}, "credentials")
 			return err
 		}); err != nil {
 			return err

@@ -274,8 +274,12 @@ type ListCredentialsRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Include revoked credentials too.
 	IncludeRevoked bool `protobuf:"varint,1,opt,name=include_revoked,json=includeRevoked,proto3" json:"include_revoked,omitempty"`
-	unknownFields  protoimpl.UnknownFields
-	sizeCache      protoimpl.SizeCache
+	// Most credentials per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,2,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,3,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *ListCredentialsRequest) Reset() {
@@ -315,11 +319,27 @@ func (x *ListCredentialsRequest) GetIncludeRevoked() bool {
 	return false
 }
 
+func (x *ListCredentialsRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListCredentialsRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListCredentialsResponse lists credentials, newest first.
 type ListCredentialsResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The credentials.
-	Credentials   []*Credential `protobuf:"bytes,1,rep,name=credentials,proto3" json:"credentials,omitempty"`
+	// The credentials, newest first (by creation time, then id).
+	Credentials []*Credential `protobuf:"bytes,1,rep,name=credentials,proto3" json:"credentials,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -359,6 +379,13 @@ func (x *ListCredentialsResponse) GetCredentials() []*Credential {
 		return x.Credentials
 	}
 	return nil
+}
+
+func (x *ListCredentialsResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // RevokeCredentialRequest names the credential to revoke.
@@ -946,11 +973,15 @@ const file_halovet_v1_access_proto_rawDesc = "" +
 	"\n" +
 	"credential\x18\x01 \x01(\v2\x16.halovet.v1.CredentialR\n" +
 	"credential\x12\x16\n" +
-	"\x06secret\x18\x02 \x01(\tR\x06secret\"A\n" +
+	"\x06secret\x18\x02 \x01(\tR\x06secret\"}\n" +
 	"\x16ListCredentialsRequest\x12'\n" +
-	"\x0finclude_revoked\x18\x01 \x01(\bR\x0eincludeRevoked\"S\n" +
+	"\x0finclude_revoked\x18\x01 \x01(\bR\x0eincludeRevoked\x12\x1b\n" +
+	"\tpage_size\x18\x02 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x03 \x01(\tR\tpageToken\"{\n" +
 	"\x17ListCredentialsResponse\x128\n" +
-	"\vcredentials\x18\x01 \x03(\v2\x16.halovet.v1.CredentialR\vcredentials\"V\n" +
+	"\vcredentials\x18\x01 \x03(\v2\x16.halovet.v1.CredentialR\vcredentials\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"V\n" +
 	"\x17RevokeCredentialRequest\x12#\n" +
 	"\rcredential_id\x18\x01 \x01(\tR\fcredentialId\x12\x16\n" +
 	"\x06reason\x18\x02 \x01(\tR\x06reason\"R\n" +
