@@ -413,7 +413,7 @@ func TestAuditTrailOverTheAPI(t *testing.T) {
 		t.Fatalf("a made-up page token: %v; want InvalidArgument on page_token", err)
 	}
 	v, err := ac.VerifyAuditChain(ctx, &halovetv1.VerifyAuditChainRequest{})
-	if err != nil || !v.GetIntact() || v.GetEvents() != 4 { // the credential's issue + 3 companies
+	if err != nil || !v.GetIntact() || v.GetEventsChecked() != 4 { // the credential's issue + 3 companies
 		t.Fatalf("VerifyAuditChain: %v %v; want intact over 4 events", v, err)
 	}
 	if _, err := st.Pool().Exec(context.Background(), `ALTER TABLE audit_log DISABLE TRIGGER audit_log_no_update`); err != nil {

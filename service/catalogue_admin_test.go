@@ -34,10 +34,10 @@ func catalogueAuditRows(t *testing.T, st *store.Store, designation string) int {
 func catalogueHFC134a(t *testing.T, client halovetv1.CatalogueServiceClient) *halovetv1.Substance {
 	t.Helper()
 	resp, err := client.GetEntry(context.Background(), &halovetv1.GetEntryRequest{Designation: "HFC-134a"})
-	if err != nil || resp.GetEntry().GetSubstance() == nil {
+	if err != nil || resp.GetSubstance() == nil {
 		t.Fatalf("GetEntry HFC-134a: %v (%v)", err, resp)
 	}
-	return resp.GetEntry().GetSubstance()
+	return resp.GetSubstance()
 }
 
 // The correction the tests make: HFC-134a's atmospheric lifetime as IPCC AR5 tabulates it,
