@@ -131,6 +131,9 @@ func TestUpsertSubstanceRejects(t *testing.T) {
 		{"structure disagrees with formula", func(s *halovetv1.Substance) { s.Structure = "CH3CF3" }, "fix", "substance.structure"},
 		{"unknown Annex group", func(s *halovetv1.Substance) { s.AnnexGroup = "F/III" }, "fix", "substance.annex_group"},
 		{"no reason", func(*halovetv1.Substance) {}, " ", "reason"},
+		{"GWP without its set", func(s *halovetv1.Substance) { s.Gwps[0].GwpSet = halovetv1.GwpSet_GWP_SET_UNSPECIFIED }, "fix", "substance.gwps[0].gwp_set"},
+		{"GWP set no .proto declares", func(s *halovetv1.Substance) { s.Gwps[1].GwpSet = 99 }, "fix", "substance.gwps[1].gwp_set"},
+		{"HS code without its edition", func(s *halovetv1.Substance) { s.HsCodes[0].Edition = halovetv1.HsEdition_HS_EDITION_UNSPECIFIED }, "fix", "substance.hs_codes[0].edition"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
