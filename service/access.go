@@ -104,26 +104,7 @@ func (a *accessServer) RevokeCredential(ctx context.Context, req *halovetv1.Revo
 }
 
 func (a *accessServer) ListAuditEvents(ctx context.Context, req *halovetv1.ListAuditEventsRequest) (*halovetv1.ListAuditEventsResponse, error) {
-	var vs []fieldViolation
-	f := store.AuditFilter{Actor: req.GetActor(), Entity: req.GetObjectType(), EntityKey: req.GetObjectKey(), Limit: int(req.GetPageSize())}
-	if req.GetPageSize() < 0 || req.GetPageSize() > 1000 {
-		vs = append(vs, fieldViolation{"page_size", "accepted: 1 to 1000, or 0 for 100"})
-	}
-	if req.FromTime != nil {
-		if err := req.GetFromTime().CheckValid(); err != nil {
-			vs = append(vs, fieldViolation{"from_time", err.Error()})
-		}
-		f.From = req.GetFromTime().AsTime()
-	}
-	if req.ToTime != nil {
-		if err := req.GetToTime().CheckValid(); err != nil {
-			vs = append(vs, fieldViolation{"to_time", err.Error()})
-		}
-		f.To = req.GetToTime().AsTime()
-	}
-	if f.EntityKey != "" && f.Entity == "" {
-		vs = append(vs, fieldViolation{"object_key", "needs object_type as well"})
-	}
+	f, vs := auditFilter(req)
 	if t := req.GetPageToken(); t != "" {
 		n, err := a.srv.openPageToken(ctx, "audit", filterHash(req), t)
 		switch {
@@ -148,11 +129,41 @@ func (a *accessServer) ListAuditEvents(ctx context.Context, req *halovetv1.ListA
 		}
 	}
 	for _, e := range evs {
-		out.Events = append(out.Events, &halovetv1.AuditEvent{Seq: e.Seq, At: timestamppb.New(e.At), Actor: e.Actor,
-			CredentialId: e.CredentialID, RequestId: e.RequestID, Action: e.Action, ObjectType: e.Entity,
-			ObjectKey: e.EntityKey, Reason: e.Reason, DetailJson: string(e.Detail), HashHex: fmt.Sprintf("%x", e.Hash)})
+		out.Events = append(out.Events, auditEventToProto(e))
 	}
 	return out, nil
+}
+
+// auditFilter decodes the filters of a ListAuditEvents request, with a violation for each
+// bad field.
+func auditFilter(req *halovetv1.ListAuditEventsRequest) (store.AuditFilter, []fieldViolation) {
+	var vs []fieldViolation
+	f := store.AuditFilter{Actor: req.GetActor(), Entity: req.GetObjectType(), EntityKey: req.GetObjectKey(), Limit: int(req.GetPageSize())}
+	if req.GetPageSize() < 0 || req.GetPageSize() > 1000 {
+		vs = append(vs, fieldViolation{"page_size", "accepted: 1 to 1000, or 0 for 100"})
+	}
+	if req.FromTime != nil {
+		if err := req.GetFromTime().CheckValid(); err != nil {
+			vs = append(vs, fieldViolation{"from_time", err.Error()})
+		}
+		f.From = req.GetFromTime().AsTime()
+	}
+	if req.ToTime != nil {
+		if err := req.GetToTime().CheckValid(); err != nil {
+			vs = append(vs, fieldViolation{"to_time", err.Error()})
+		}
+		f.To = req.GetToTime().AsTime()
+	}
+	if f.EntityKey != "" && f.Entity == "" {
+		vs = append(vs, fieldViolation{"object_key", "needs object_type as well"})
+	}
+	return f, vs
+}
+
+func auditEventToProto(e store.AuditEvent) *halovetv1.AuditEvent {
+	return &halovetv1.AuditEvent{Seq: e.Seq, At: timestamppb.New(e.At), Actor: e.Actor,
+		CredentialId: e.CredentialID, RequestId: e.RequestID, Action: e.Action, ObjectType: e.Entity,
+		ObjectKey: e.EntityKey, Reason: e.Reason, DetailJson: string(e.Detail), HashHex: fmt.Sprintf("%x", e.Hash)}
 }
 
 func (a *accessServer) VerifyAuditChain(ctx context.Context, _ *halovetv1.VerifyAuditChainRequest) (*halovetv1.VerifyAuditChainResponse, error) {

@@ -112,7 +112,25 @@ func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEn
 		}
 		off = int(pos)
 	}
-	cat := c.srv.cat.Load()
+	all := matchingEntries(c.srv.cat.Load(), f)
+	resp := &halovetv1.ListEntriesResponse{TotalSize: int32(len(all))}
+	if off < len(all) {
+		end := min(off+size, len(all))
+		resp.Entries = all[off:end]
+		if end < len(all) {
+			tok, err := c.srv.issuePageToken(ctx, "entries", filterHash(req), int64(end))
+			if err != nil {
+				return nil, toStatus(ctx, c.srv.log, err)
+			}
+			resp.NextPageToken = tok
+		}
+	}
+	return resp, nil
+}
+
+// matchingEntries is every entry of the catalogue the filter selects: substances, then
+// blends, each in catalogue order.
+func matchingEntries(cat *substances.Catalogue, f listFilter) []*halovetv1.CatalogueEntry {
 	var all []*halovetv1.CatalogueEntry
 	if f.kind != halovetv1.EntryKind_ENTRY_KIND_BLEND {
 		for _, s := range cat.Substances() {
@@ -128,19 +146,7 @@ func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEn
 			}
 		}
 	}
-	resp := &halovetv1.ListEntriesResponse{TotalSize: int32(len(all))}
-	if off < len(all) {
-		end := min(off+size, len(all))
-		resp.Entries = all[off:end]
-		if end < len(all) {
-			tok, err := c.srv.issuePageToken(ctx, "entries", filterHash(req), int64(end))
-			if err != nil {
-				return nil, toStatus(ctx, c.srv.log, err)
-			}
-			resp.NextPageToken = tok
-		}
-	}
-	return resp, nil
+	return all
 }
 
 func containsText(text string, names ...string) bool {
@@ -257,16 +263,7 @@ func (c *catalogueServer) EvaluateMixture(_ context.Context, req *halovetv1.Eval
 	case blend != "":
 		ev, err = cat.EvaluateExact(blend, m)
 	case len(comp) > 0:
-		shares := make([]substances.Share, len(comp))
-		for i, s := range comp {
-			field := fmt.Sprintf("composition[%d].mass_percent", i)
-			if strings.TrimSpace(s.GetMassPercent()) == "" {
-				vs = append(vs, fieldViolation{field, "missing; give the mass percent as a decimal above 0 and at most 100, e.g. \"50\""})
-				continue
-			}
-			_, pct := figureIn(field, s.GetMassPercent(), &vs)
-			shares[i] = substances.Share{Identifier: s.GetIdentifier(), MassPct: pct}
-		}
+		shares, vs := compositionFromProto(comp)
 		if len(vs) > 0 {
 			return nil, invalid(vs...)
 		}
@@ -281,6 +278,23 @@ func (c *catalogueServer) EvaluateMixture(_ context.Context, req *halovetv1.Eval
 		return nil, evaluationError(err)
 	}
 	return evaluationToProto(&ev), nil
+}
+
+// compositionFromProto decodes an ad-hoc composition, with a violation naming each bad
+// composition[i].mass_percent.
+func compositionFromProto(comp []*halovetv1.MixtureShare) ([]substances.Share, []fieldViolation) {
+	var vs []fieldViolation
+	shares := make([]substances.Share, len(comp))
+	for i, s := range comp {
+		field := fmt.Sprintf("composition[%d].mass_percent", i)
+		if strings.TrimSpace(s.GetMassPercent()) == "" {
+			vs = append(vs, fieldViolation{field, "missing; give the mass percent as a decimal above 0 and at most 100, e.g. \"50\""})
+			continue
+		}
+		_, pct := figureIn(field, s.GetMassPercent(), &vs)
+		shares[i] = substances.Share{Identifier: s.GetIdentifier(), MassPct: pct}
+	}
+	return shares, vs
 }
 
 // compositionWireField turns the catalogue's name of a share's field ("shares[1].identifier",
