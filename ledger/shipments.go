@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -73,14 +74,14 @@ type ShipmentRow struct {
 	CompanyID           string
 	RecordKey           string
 	Fingerprint         string
-	Direction           string
+	Direction           terms.Direction
 	LicenceNumber       string
 	PartnerCountry      string
 	DeclarationDate     time.Time
 	ResolvedDesignation string
 	EntryKind           string
-	Purpose             string
-	Condition           string
+	Purpose             terms.Purpose
+	Condition           terms.Condition
 	NetMassKg           Nano
 	ODPTonnes           Nano
 	CO2eTonnes          Nano
@@ -517,10 +518,10 @@ func shipmentRow(encode func() ([]byte, error), r *validate.Record, v *validate.
 	}
 	f := &v.Figures
 	row := ShipmentRow{CompanyID: strings.TrimSpace(r.CompanyID), RecordKey: strings.TrimSpace(r.Key),
-		Fingerprint: v.Fingerprint, Direction: r.Direction.String(), LicenceNumber: strings.TrimSpace(r.LicenceNumber),
+		Fingerprint: v.Fingerprint, Direction: r.Direction, LicenceNumber: strings.TrimSpace(r.LicenceNumber),
 		PartnerCountry: strings.ToUpper(strings.TrimSpace(r.PartnerCountry)), DeclarationDate: date,
-		ResolvedDesignation: f.Designation, EntryKind: kindText(f.Kind), Purpose: r.Purpose.String(),
-		Condition: r.Condition.String(), NetMassKg: ToNano(f.NetMassKg), ODPTonnes: ToNano(f.ODPTonnes),
+		ResolvedDesignation: f.Designation, EntryKind: kindText(f.Kind), Purpose: r.Purpose,
+		Condition: r.Condition, NetMassKg: ToNano(f.NetMassKg), ODPTonnes: ToNano(f.ODPTonnes),
 		CO2eTonnes: ToNano(f.CO2eTonnes), CountsInConsumption: f.CountsInConsumption,
 		PartnerNonParty: f.PartnerNonParty, RecordJSON: js}
 	for _, c := range f.Components {

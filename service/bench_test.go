@@ -435,9 +435,9 @@ func copyRows(b *testing.B, env *validate.Env, data []byte) []store.ShipmentRow 
 		}
 		f := &v.Figures
 		rows[i] = store.ShipmentRow{CompanyID: r.CompanyID, RecordKey: r.Key, Fingerprint: v.Fingerprint,
-			Direction: r.Direction.String(), LicenceNumber: r.LicenceNumber, PartnerCountry: strings.ToUpper(r.PartnerCountry),
-			DeclarationDate: date, ResolvedDesignation: f.Designation, EntryKind: "substance", Purpose: r.Purpose.String(),
-			Condition: r.Condition.String(), NetMassKg: store.ToNano(f.NetMassKg), ODPTonnes: store.ToNano(f.ODPTonnes),
+			Direction: r.Direction, LicenceNumber: r.LicenceNumber, PartnerCountry: strings.ToUpper(r.PartnerCountry),
+			DeclarationDate: date, ResolvedDesignation: f.Designation, EntryKind: "substance", Purpose: r.Purpose,
+			Condition: r.Condition, NetMassKg: store.ToNano(f.NetMassKg), ODPTonnes: store.ToNano(f.ODPTonnes),
 			CO2eTonnes: store.ToNano(f.CO2eTonnes), CountsInConsumption: f.CountsInConsumption, RecordJSON: js}
 		if f.Kind == substances.KindBlend {
 			rows[i].EntryKind = "blend"

@@ -2,6 +2,7 @@ package service_test
 
 import (
 	"context"
+	"errors"
 	"math"
 	"strings"
 	"testing"
@@ -14,6 +15,7 @@ import (
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // Integration tests of ConsumptionService: the real server on loopback, a real gRPC
@@ -91,9 +93,15 @@ func consRecordFrom(t *testing.T, st *store.Store, partner string, ships ...cons
 		} else {
 			t.Fatalf("test data: %s is not in the catalogue", s.name)
 		}
-		row := store.ShipmentRow{CompanyID: s.company, RecordKey: s.key, Fingerprint: "fp-" + s.key, Direction: s.dir,
+		dir, err1 := terms.ParseDirection(s.dir)
+		purpose, err2 := terms.ParsePurpose(s.purpose)
+		cond, err3 := terms.ParseCondition(s.cond)
+		if err := errors.Join(err1, err2, err3); err != nil {
+			t.Fatalf("test data: %v", err)
+		}
+		row := store.ShipmentRow{CompanyID: s.company, RecordKey: s.key, Fingerprint: "fp-" + s.key, Direction: dir,
 			PartnerCountry: partner, DeclarationDate: time.Date(s.year, 6, 1, 0, 0, 0, 0, time.UTC), ResolvedDesignation: s.name,
-			EntryKind: kind, Purpose: s.purpose, Condition: s.cond, PartnerNonParty: s.nonParty, RecordJSON: []byte(`{}`)}
+			EntryKind: kind, Purpose: purpose, Condition: cond, PartnerNonParty: s.nonParty, RecordJSON: []byte(`{}`)}
 		for _, p := range parts {
 			tn := s.tonnes * p.pct / 100
 			co2 := 0.0

@@ -200,21 +200,21 @@ func (s *Server) shipmentFilter(req *halovetv1.ListShipmentsRequest) (store.Ship
 	}
 	if d := req.GetDirection(); d != halovetv1.Direction_DIRECTION_UNSPECIFIED {
 		if t, ok := specified(wireterms.DirectionFromWire, d); ok {
-			f.Direction = t.String()
+			f.Direction = t
 		} else {
 			vs = append(vs, fieldViolation{"direction", fmt.Sprintf("%d is not a direction", d)})
 		}
 	}
 	if p := req.GetPurpose(); p != halovetv1.Purpose_PURPOSE_UNSPECIFIED {
 		if t, ok := specified(wireterms.PurposeFromWire, p); ok {
-			f.Purpose = t.String()
+			f.Purpose = t
 		} else {
 			vs = append(vs, fieldViolation{"purpose", fmt.Sprintf("%d is not a purpose", p)})
 		}
 	}
 	if c := req.GetCondition(); c != halovetv1.Condition_CONDITION_UNSPECIFIED {
 		if t, ok := specified(wireterms.ConditionFromWire, c); ok {
-			f.Condition = t.String()
+			f.Condition = t
 		} else {
 			vs = append(vs, fieldViolation{"condition", fmt.Sprintf("%d is not a condition", c)})
 		}

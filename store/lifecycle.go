@@ -13,6 +13,7 @@ import (
 	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/terms"
 )
 
 // The life of a recorded shipment (migration 8): a row is live, voided or superseded.
@@ -262,16 +263,16 @@ type ShipmentFilter struct {
 	CompanyID     string
 	LicenceNumber string
 	RecordKey     string
-	From, To      time.Time // declaration dates, both inclusive; zero: open
-	Partner       string    // ISO 3166-1 alpha-2, upper case
-	Substance     string    // resolved designation of the record or of one of its components
-	AnnexGroups   []string  // Annex groups, one of which one of its components is in, e.g. "C/I"
-	Direction     string    // as stored: "import", "export", "re-export", "transit"
-	Purpose       string    // as stored, e.g. "servicing"
-	Condition     string    // as stored, e.g. "virgin"
-	States        []string  // StateLive, StateVoided, StateSuperseded; empty: all
-	AfterID       int64     // only ids above this one (paging)
-	Limit         int       // at most this many; 0: 100
+	From, To      time.Time       // declaration dates, both inclusive; zero: open
+	Partner       string          // ISO 3166-1 alpha-2, upper case
+	Substance     string          // resolved designation of the record or of one of its components
+	AnnexGroups   []string        // Annex groups, one of which one of its components is in, e.g. "C/I"
+	Direction     terms.Direction // as stored: "import", "export", "re-export", "transit"
+	Purpose       terms.Purpose   // as stored, e.g. "servicing"
+	Condition     terms.Condition // as stored, e.g. "virgin"
+	States        []string        // StateLive, StateVoided, StateSuperseded; empty: all
+	AfterID       int64           // only ids above this one (paging)
+	Limit         int             // at most this many; 0: 100
 }
 
 // StoredDraw is one draw of a stored shipment; Released is set once it was given back
@@ -288,14 +289,14 @@ type StoredShipment struct {
 	CompanyID           string
 	RecordKey           string
 	Fingerprint         string
-	Direction           string
+	Direction           terms.Direction
 	LicenceNumber       string
 	PartnerCountry      string
 	DeclarationDate     time.Time
 	ResolvedDesignation string
 	EntryKind           string
-	Purpose             string
-	Condition           string
+	Purpose             terms.Purpose
+	Condition           terms.Condition
 	NetMassKg           Nano
 	ODPTonnes           Nano
 	CO2eTonnes          Nano
@@ -359,9 +360,9 @@ func (s *Store) ListShipments(ctx context.Context, f ShipmentFilter) (_ []Stored
 	eq("s.licence_number", f.LicenceNumber)
 	eq("s.record_key", f.RecordKey)
 	eq("s.partner_country", f.Partner)
-	eq("s.direction", f.Direction)
-	eq("s.purpose", f.Purpose)
-	eq("s.condition", f.Condition)
+	eq("s.direction", f.Direction.String()) // unspecified: "", no condition
+	eq("s.purpose", f.Purpose.String())
+	eq("s.condition", f.Condition.String())
 	if !f.From.IsZero() {
 		where = append(where, "s.declaration_date >= "+arg(f.From))
 	}

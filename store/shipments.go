@@ -14,6 +14,7 @@ import (
 	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -57,14 +58,14 @@ type ShipmentRow struct {
 	CompanyID           string
 	RecordKey           string
 	Fingerprint         string
-	Direction           string
+	Direction           terms.Direction
 	LicenceNumber       string
 	PartnerCountry      string
 	DeclarationDate     time.Time
 	ResolvedDesignation string
 	EntryKind           string
-	Purpose             string
-	Condition           string
+	Purpose             terms.Purpose
+	Condition           terms.Condition
 	NetMassKg           Nano
 	ODPTonnes           Nano
 	CO2eTonnes          Nano
@@ -472,8 +473,8 @@ func shipmentValues(ctx context.Context, id int64, r *ShipmentRow) ([]any, error
 		}
 		lines[i], amounts[i] = int32(d.LineNumber), d.Amount.numeric()
 	}
-	return []any{id, r.CompanyID, r.RecordKey, r.Fingerprint, r.Direction, r.LicenceNumber, r.PartnerCountry,
-		r.DeclarationDate, r.DeclarationDate.Year(), r.ResolvedDesignation, r.EntryKind, r.Purpose, r.Condition,
+	return []any{id, r.CompanyID, r.RecordKey, r.Fingerprint, r.Direction.String(), r.LicenceNumber, r.PartnerCountry,
+		r.DeclarationDate, r.DeclarationDate.Year(), r.ResolvedDesignation, r.EntryKind, r.Purpose.String(), r.Condition.String(),
 		r.NetMassKg.numeric(), r.ODPTonnes.numeric(), r.CO2eTonnes.numeric(), r.CountsInConsumption,
 		r.PartnerNonParty, string(r.RecordJSON), max(r.version, 1), r.previousID, r.Verdict,
 		callctx.Actor(ctx), callctx.CredentialID(ctx), des, grp, kg, odp, co2e, np, lines, amounts}, nil

@@ -84,7 +84,7 @@ func issueTestLicence(t *testing.T, st *store.Store, number string, allocated fl
 }
 
 func row(key string, odpNano store.Nano) store.ShipmentRow {
-	return store.ShipmentRow{CompanyID: "XA-1", RecordKey: key, Fingerprint: "fp-" + key, Direction: "import",
+	return store.ShipmentRow{CompanyID: "XA-1", RecordKey: key, Fingerprint: "fp-" + key, Direction: terms.DirectionImport,
 		LicenceNumber: "L-1", PartnerCountry: "XB", DeclarationDate: time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC),
 		ResolvedDesignation: "HCFC-22", EntryKind: "substance", NetMassKg: odpNano, ODPTonnes: odpNano,
 		CountsInConsumption: true, RecordJSON: []byte(`{}`),
