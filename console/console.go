@@ -383,6 +383,8 @@ func (c *Console) parseTemplates() error {
 		"dec":              dec,
 		"fine":             fine,
 		"percent":          percent,
+		"quota":            quota,
+		"shareUsed":        shareUsed,
 		"lower":            strings.ToLower,
 		"join":             strings.Join,
 		"status":           statusWord,

@@ -6,6 +6,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/terms"
@@ -178,8 +179,8 @@ func (c *Console) amendQuota(w http.ResponseWriter, r *http.Request, rq *request
 		return
 	}
 	raw := strings.ReplaceAll(strings.TrimSpace(r.PostFormValue("allocated")), ",", "")
-	alloc, err := strconv.ParseFloat(raw, 64)
-	if err != nil || alloc < 0 || alloc > 1e12 {
+	alloc, err := exact.Parse(raw)
+	if err != nil || alloc.Sign() < 0 {
 		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("allocated %q: give the new allocation as a number of the line's unit, 0 or more (for example 4.25). Nothing was changed.", r.PostFormValue("allocated")))
 		return
 	}
@@ -195,7 +196,7 @@ func (c *Console) amendQuota(w http.ResponseWriter, r *http.Request, rq *request
 	found := false
 	for _, q := range l.GetQuotaLines() {
 		if int(q.GetLineNumber()) == line {
-			q.Allocated, found = alloc, true
+			q.AllocatedAmount, found = alloc.String(), true
 		}
 	}
 	if !found {
