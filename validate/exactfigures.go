@@ -46,7 +46,8 @@ type FiguresExact struct {
 }
 
 // Exacts gives the figures as exact decimals: f.Exact when it is set (a verdict read back
-// from the wire carries its decimals there), else computed from f.Mass and the components
+// from the wire carries its decimals there; its Components may be fewer than f's when the
+// wire gave none), else computed from f.Mass and the components
 // as substances computes an exact evaluation: kg = net mass × share% / 100, t = kg / 1000,
 // ODP t = t × ODP, CO2-eq t = t × Annex GWP (Annex F components only), totals their sums.
 // Figures made without a Mass (by a caller that set only NetMassKg) take the shortest
