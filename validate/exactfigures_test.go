@@ -14,9 +14,9 @@ import (
 func TestExactsAreExact(t *testing.T) {
 	env := testEnv(t)
 	cases := []struct {
-		name                 string
-		edit                 func(r *Record)
-		kg, odpT, co2e       string
+		name                  string
+		edit                  func(r *Record)
+		kg, odpT, co2e        string
 		componentOdpT, compKg []string
 	}{
 		// 13.6 kg × ODP 0.055 / 1000 = 0.000748 ODP t. source: ODP of HCFC-22, Montreal

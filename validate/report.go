@@ -11,6 +11,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/terms"
 )
@@ -169,8 +170,8 @@ type jsonComponent struct {
 }
 
 type jsonFigures struct {
-	ResolvedDesignation string  `json:"resolved_designation"`
-	Kind                string  `json:"kind"`
+	ResolvedDesignation string `json:"resolved_designation"`
+	Kind                string `json:"kind"`
 	NetMassKg           string `json:"net_mass_kg"`
 	ODPTonnes           string `json:"odp_tonnes"`
 	CO2eTonnes          string `json:"co2e_tonnes"`
@@ -242,12 +243,12 @@ func (r *JSONLReport) Close() error {
 	return nil
 }
 
-// Totals sum the figures of accepted records.
+// Totals sum the figures of accepted records, exactly (from Figures.Exacts).
 type Totals struct {
 	Records    int64
-	NetMassKg  float64
-	ODPTonnes  float64
-	CO2eTonnes float64
+	NetMassKg  exact.Decimal
+	ODPTonnes  exact.Decimal
+	CO2eTonnes exact.Decimal
 }
 
 // Summary counts the verdicts of a batch.
@@ -292,10 +293,11 @@ func (s *Summary) Add(v *Verdict, direction terms.Direction) {
 			t = &Totals{}
 			s.ByDirection[direction] = t
 		}
+		x := v.Figures.Exacts()
 		t.Records++
-		t.NetMassKg += v.Figures.NetMassKg
-		t.ODPTonnes += v.Figures.ODPTonnes
-		t.CO2eTonnes += v.Figures.CO2eTonnes
+		t.NetMassKg = t.NetMassKg.Add(x.NetMassKg)
+		t.ODPTonnes = t.ODPTonnes.Add(x.ODPTonnes)
+		t.CO2eTonnes = t.CO2eTonnes.Add(x.CO2eTonnes)
 	}
 	if v.Resolved {
 		for _, c := range v.Figures.Cautions {
@@ -366,7 +368,10 @@ func (s *Summary) WriteText(w io.Writer) error {
 			if name == "" {
 				name = "(none)"
 			}
-			fmt.Fprintf(tw, "%s\t%d\t%.3f\t%.4f\t%.3f\t\n", name, t.Records, t.NetMassKg, t.ODPTonnes, t.CO2eTonnes)
+			// Rounded for display only, to the places of exact.Units, written fixed so that
+			// the columns align.
+			fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t\n", name, t.Records, t.NetMassKg.Fixed(exact.Kg.Spec().Places),
+				t.ODPTonnes.Fixed(exact.ODPTonnes.Spec().Places), t.CO2eTonnes.Fixed(exact.CO2eTonnes.Spec().Places))
 		}
 		if err := tw.Flush(); err != nil {
 			return err
