@@ -197,7 +197,8 @@ quota lines is listed once, with "-" for the line.
 --output text (default) prints a table for people, ending with the decision-support
 notice; --output csv one row per quota line (columns licence_number, company_id,
 status, valid_from, valid_to, directions, special_purposes, line_number, annex_group,
-substance, unit, allocated, drawn, remaining; lists joined by ";"); --output json the
+substance, unit, allocated_amount, drawn_amount, remaining_amount (exact decimals in
+the line's unit); lists joined by ";"); --output json the
 ListLicencesResponse ('halovet help json').
 
 Examples:
