@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"io"
-	"math"
 	"slices"
 	"sort"
 	"testing"
@@ -104,12 +103,6 @@ func shipCodes(v *halovetv1.Verdict) []string {
 	return out
 }
 
-func shipNear(t *testing.T, what string, got, want float64) {
-	t.Helper()
-	if math.Abs(got-want) > 1e-9*math.Max(1, math.Abs(want)) {
-		t.Errorf("%s = %.12g; want %.12g", what, got, want)
-	}
-}
 
 // TestCheckShipmentRules sends one record per case through CheckShipment: a clean record
 // gives no finding, and each change makes its rule fire, alone. It covers one rule of each
