@@ -119,6 +119,11 @@ func TestSignInAndPages(t *testing.T) {
 	if p.code != http.StatusBadRequest || !strings.Contains(p.body, "Nothing was changed") {
 		t.Errorf("amend with a bad figure: %d", p.code)
 	}
+	// A decimal comma is refused, not read as 425.
+	p = c.post("/console/licences/XA-IMP-2026-001/quota", url.Values{"csrf": {p.csrf(t)}, "line": {"1"}, "allocated": {"4,25"}, "reason": {"console test"}})
+	if p.code != http.StatusBadRequest || !strings.Contains(p.body, "no separators") {
+		t.Errorf("amend with a decimal comma: %d; want 400 saying a decimal with a point and no separators", p.code)
+	}
 
 	// Sign out: the session is gone on the server too.
 	home := c.get("/console/")
