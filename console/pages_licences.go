@@ -2,7 +2,9 @@ package console
 
 import (
 	"fmt"
+	"html/template"
 	"net/http"
+	"net/url"
 	"strconv"
 	"strings"
 
@@ -19,6 +21,26 @@ type licencesData struct {
 	Licences     []*halovetv1.Licence
 	CanOpen      bool
 	CompanyFixed bool
+	Next         template.URL // the next page; empty on the last
+	First        template.URL // the first page, when this is a later one
+}
+
+// licencePageSize is how many licences one page of the register shows.
+const licencePageSize = 50
+
+// readAllPageSize is the page size of the lists the console reads whole (a licence's
+// history, the Parties, the closed years): the largest the API takes.
+const readAllPageSize = 1000
+
+// query is the register's address with the given page token, its values encoded.
+func (d licencesData) query(page string) template.URL {
+	v := url.Values{}
+	for k, s := range map[string]string{"company": d.Company, "year": d.Year, "page": page} {
+		if s != "" && !(k == "company" && d.CompanyFixed) {
+			v.Set(k, s)
+		}
+	}
+	return template.URL("/console/licences?" + v.Encode())
 }
 
 // licences lists the register. A trader's credential sees its own company only, whatever
@@ -29,7 +51,7 @@ func (c *Console) licences(w http.ResponseWriter, r *http.Request, rq *request) 
 	if own := rq.id().Company; own != "" {
 		d.Company, d.OwnCompany, d.CompanyFixed = own, own, true
 	}
-	req := &halovetv1.ListLicencesRequest{CompanyId: d.Company}
+	req := &halovetv1.ListLicencesRequest{CompanyId: d.Company, PageSize: licencePageSize, PageToken: q.Get("page")}
 	if d.Year != "" {
 		y, err := strconv.Atoi(d.Year)
 		if err != nil || y < 1987 || y > 2200 {
@@ -48,6 +70,12 @@ func (c *Console) licences(w http.ResponseWriter, r *http.Request, rq *request) 
 			continue // the server's answer is filtered already; this keeps it so whatever it says
 		}
 		d.Licences = append(d.Licences, l)
+	}
+	if tok := resp.GetNextPageToken(); tok != "" {
+		d.Next = d.query(tok)
+	}
+	if q.Get("page") != "" {
+		d.First = d.query("")
 	}
 	c.render(w, r, rq.s, http.StatusOK, "licences", "Licence register", d)
 }
@@ -75,7 +103,8 @@ func (c *Console) licence(w http.ResponseWriter, r *http.Request, rq *request) {
 	}
 	d := licenceData{L: l, CanSetStatus: c.allowed(rq, rpcSetStatus), CanAmend: c.allowed(rq, rpcAmend), CanShipments: c.allowed(rq, rpcListShipments)}
 	if c.allowed(rq, rpcLicenceHistory) {
-		h, err := c.licensingClient().ListLicenceHistory(c.ctx(r, rq, rpcLicenceHistory), &halovetv1.ListLicenceHistoryRequest{LicenceNumber: l.GetLicenceNumber()})
+		h, err := halovetv1.ReadAllPages(c.ctx(r, rq, rpcLicenceHistory), c.licensingClient().ListLicenceHistory,
+			&halovetv1.ListLicenceHistoryRequest{LicenceNumber: l.GetLicenceNumber(), PageSize: readAllPageSize}, "events")
 		if err != nil {
 			c.callFailed(w, r, rq, "reading the history of licence "+l.GetLicenceNumber(), err)
 			return

@@ -89,6 +89,9 @@ type ShipmentRow struct {
 	RecordJSON          []byte // the record as received, in the form the register keeps
 	Components          []ShipmentComponent
 	Draws               []Draw
+	// LicenceVersion is the version of the licence the row was judged against (0: none);
+	// the register writes the row only while the licence is still at that version.
+	LicenceVersion int
 	// VerdictOnStore gives the verdict to keep with the row once it is known to be stored
 	// (its result has the id, the time and the balances of its own draws), inside the
 	// transaction that stores it: the verdict kept is the one answered.
@@ -106,6 +109,7 @@ const (
 	RecordQuotaShort                              // a quota line has less left than the row draws
 	RecordLicenceInactive                         // the licence is not active (any more), or a line is gone
 	RecordYearClosed                              // the declaration date falls in a closed year
+	RecordLicenceChanged                          // the licence changed after the row was judged on it
 )
 
 // LineBalance is what was left on one quota line around one row's draw.

@@ -77,12 +77,22 @@ func (l *licensingServer) GetParty(ctx context.Context, req *halovetv1.GetPartyR
 	return &halovetv1.GetPartyResponse{Party: partyToProto(p)}, nil
 }
 
-func (l *licensingServer) ListParties(ctx context.Context, _ *halovetv1.ListPartiesRequest) (*halovetv1.ListPartiesResponse, error) {
-	ps, err := l.srv.store.ListParties(ctx)
+func (l *licensingServer) ListParties(ctx context.Context, req *halovetv1.ListPartiesRequest) (*halovetv1.ListPartiesResponse, error) {
+	pg, vs, err := l.srv.openPage(ctx, "parties", req)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	ps, err := l.srv.store.ListPartiesPage(ctx, pg)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListPartiesResponse{}
+	if ps, out.NextPageToken, err = closePage(ctx, l.srv, "parties", req, pg, ps); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	for _, p := range ps {
 		out.Parties = append(out.Parties, partyToProto(p))
 	}
@@ -113,17 +123,27 @@ func companyFromProto(c *halovetv1.Company, prefix string) (store.Company, []fie
 	return store.Company{CompanyID: c.GetCompanyId(), Name: c.GetName(), CountryCode: c.GetCountryCode()}, vs
 }
 
-func (l *licensingServer) ListCompanies(ctx context.Context, _ *halovetv1.ListCompaniesRequest) (*halovetv1.ListCompaniesResponse, error) {
-	cs, err := l.srv.store.ListCompanies(ctx)
+func (l *licensingServer) ListCompanies(ctx context.Context, req *halovetv1.ListCompaniesRequest) (*halovetv1.ListCompaniesResponse, error) {
+	pg, vs, err := l.srv.openPage(ctx, "companies", req)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	only := ""
+	if own, scoped := callCompany(ctx); scoped {
+		only = own // a trader sees its own company only
+	}
+	cs, err := l.srv.store.ListCompaniesPage(ctx, only, pg)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListCompaniesResponse{}
-	own, scoped := callCompany(ctx)
+	if cs, out.NextPageToken, err = closePage(ctx, l.srv, "companies", req, pg, cs); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	for _, c := range cs {
-		if scoped && c.CompanyID != own {
-			continue // a trader sees its own company only
-		}
 		out.Companies = append(out.Companies, &halovetv1.Company{CompanyId: c.CompanyID, Name: c.Name, CountryCode: c.CountryCode})
 	}
 	return out, nil
@@ -331,11 +351,21 @@ func (l *licensingServer) ListLicences(ctx context.Context, req *halovetv1.ListL
 		}
 		company = own // a trader's list is its own company's
 	}
-	ls, err := l.srv.store.ListLicences(ctx, company, int(req.GetYear()))
+	pg, vs, err := l.srv.openPage(ctx, "licences", req)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	ls, err := l.srv.store.ListLicencesPage(ctx, company, int(req.GetYear()), pg)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListLicencesResponse{}
+	if ls, out.NextPageToken, err = closePage(ctx, l.srv, "licences", req, pg, ls); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	today := l.srv.today()
 	for _, x := range ls {
 		out.Licences = append(out.Licences, licenceToProto(x, today))

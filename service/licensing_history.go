@@ -176,8 +176,15 @@ func (l *licensingServer) CloseQuotaLine(ctx context.Context, req *halovetv1.Clo
 }
 
 func (l *licensingServer) ListLicenceHistory(ctx context.Context, req *halovetv1.ListLicenceHistoryRequest) (*halovetv1.ListLicenceHistoryResponse, error) {
+	pg, vs, err := l.srv.openPage(ctx, "licence-history", req)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	if req.GetLicenceNumber() == "" {
-		return nil, invalid(fieldViolation{"licence_number", "must not be empty"})
+		vs = append([]fieldViolation{{"licence_number", "must not be empty"}}, vs...)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	lic, err := l.srv.store.GetLicence(ctx, req.GetLicenceNumber())
 	if err != nil {
@@ -186,11 +193,14 @@ func (l *licensingServer) ListLicenceHistory(ctx context.Context, req *halovetv1
 	if own, scoped := callCompany(ctx); scoped && lic.CompanyID != own {
 		return nil, outOfScope("licence_number", lic.CompanyID, own)
 	}
-	evs, err := l.srv.store.LicenceHistory(ctx, req.GetLicenceNumber())
+	evs, err := l.srv.store.LicenceHistoryPage(ctx, req.GetLicenceNumber(), pg)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListLicenceHistoryResponse{StatusHistory: licenceToProto(lic, l.srv.today()).GetStatusHistory()}
+	if evs, out.NextPageToken, err = closePage(ctx, l.srv, "licence-history", req, pg, evs); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	for _, e := range evs {
 		out.Events = append(out.Events, &halovetv1.LicenceEvent{EventId: e.ID, Kind: eventKindEnum[e.Kind],
 			EffectiveDate: e.EffectiveOn.Format(dateLayout), Status: wireterms.LicenceStatusToWire(e.Status), Reason: e.Reason,

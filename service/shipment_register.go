@@ -422,12 +422,22 @@ func (x *shipmentServer) ReopenYear(ctx context.Context, req *halovetv1.ReopenYe
 }
 
 // ListClosedYears lists the closed reporting years.
-func (x *shipmentServer) ListClosedYears(ctx context.Context, _ *halovetv1.ListClosedYearsRequest) (*halovetv1.ListClosedYearsResponse, error) {
-	cs, err := x.srv.store.ClosedYears(ctx)
+func (x *shipmentServer) ListClosedYears(ctx context.Context, req *halovetv1.ListClosedYearsRequest) (*halovetv1.ListClosedYearsResponse, error) {
+	pg, vs, err := x.srv.openPage(ctx, "closed-years", req)
+	if err != nil {
+		return nil, toStatus(ctx, x.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	cs, err := x.srv.store.ClosedYearsPage(ctx, pg)
 	if err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
 	out := &halovetv1.ListClosedYearsResponse{}
+	if cs, out.NextPageToken, err = closePage(ctx, x.srv, "closed-years", req, pg, cs); err != nil {
+		return nil, toStatus(ctx, x.srv.log, err)
+	}
 	for _, c := range cs {
 		out.ClosedYears = append(out.ClosedYears, closedYearToProto(c))
 	}

@@ -43,11 +43,15 @@ type StoredRef struct {
 func storedRefs(ctx context.Context, q interface {
 	Query(context.Context, string, ...any) (pgx.Rows, error)
 }, companies, keys []string) (map[[2]string][]StoredRef, error) {
+	// One index probe per key (LATERAL, OFFSET 0), planned at each execution
+	// (QueryExecModeExec): a plan cached while the register was empty would scan the
+	// whole table for every key.
 	rows, err := q.Query(ctx, `SELECT s.company_id, s.record_key, s.shipment_id, s.fingerprint, s.state,
 	        s.version, s.recorded_at, s.verdict
-	    FROM shipments s JOIN unnest($1::text[], $2::text[]) AS k(company_id, record_key)
-	      ON s.company_id = k.company_id AND s.record_key = k.record_key
-	    ORDER BY s.company_id, s.record_key, s.version`, companies, keys)
+	    FROM unnest($1::text[], $2::text[]) AS k(company_id, record_key)
+	    CROSS JOIN LATERAL (SELECT company_id, record_key, shipment_id, fingerprint, state, version, recorded_at, verdict
+	        FROM shipments WHERE company_id = k.company_id AND record_key = k.record_key OFFSET 0) s
+	    ORDER BY s.company_id, s.record_key, s.version`, pgx.QueryExecModeExec, companies, keys)
 	if err != nil {
 		return nil, err
 	}
@@ -224,9 +228,18 @@ func (r Reader) YearClosed(ctx context.Context, year int) (_ ClosedYear, closed 
 }
 
 // ClosedYears lists the closed reporting years in order.
-func (s *Store) ClosedYears(ctx context.Context) (_ []ClosedYear, err error) {
+func (s *Store) ClosedYears(ctx context.Context) ([]ClosedYear, error) {
+	return s.ClosedYearsPage(ctx, Page{})
+}
+
+// ClosedYearsPage returns one page of ClosedYears.
+func (s *Store) ClosedYearsPage(ctx context.Context, p Page) (_ []ClosedYear, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT year, closed_at, closed_by, reason FROM closed_years ORDER BY year`)
+	cond, limit, args, err := p.sql(nil, keyCol{"year", true})
+	if err != nil {
+		return nil, err
+	}
+	rows, err := s.pool.Query(ctx, `SELECT year, closed_at, closed_by, reason FROM closed_years WHERE `+cond+` ORDER BY year`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -559,10 +572,15 @@ func releaseDraws(ctx context.Context, tx pgx.Tx, id int64) error {
 // lockLines share-locks the licences and locks the quota lines of the draws FOR UPDATE
 // in (licence, line) order, as RecordShipments does, and returns the licences' statuses,
 // what is left on each line and each line's allocation.
-func lockLines(ctx context.Context, tx pgx.Tx, draws []Draw) (licenceStatuses, map[lineKey]Nano, map[lineKey]Nano, error) {
+func lockLines(ctx context.Context, tx pgx.Tx, draws []Draw, alsoLicences ...string) (licenceStatuses, map[lineKey]Nano, map[lineKey]Nano, error) {
 	licSet := map[string]bool{}
 	for _, d := range draws {
 		licSet[d.LicenceNumber] = true
+	}
+	for _, l := range alsoLicences {
+		if l != "" {
+			licSet[l] = true
+		}
 	}
 	lics := make([]string, 0, len(licSet))
 	for l := range licSet {
@@ -714,7 +732,7 @@ func (s *Store) CorrectShipment(ctx context.Context, id int64, row ShipmentRow, 
 		if err != nil {
 			return err
 		}
-		status, remaining, allocated, err := lockLines(ctx, tx, append(append([]Draw{}, old...), row.Draws...))
+		status, remaining, allocated, err := lockLines(ctx, tx, append(append([]Draw{}, old...), row.Draws...), judgedLicence(row))
 		if err != nil {
 			return err
 		}

@@ -354,7 +354,8 @@ func defineHistory(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		defer conn.Close()
-		resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicenceHistory(ctx, &halovetv1.ListLicenceHistoryRequest{LicenceNumber: args[0]})
+		resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewLicensingServiceClient(conn).ListLicenceHistory,
+			&halovetv1.ListLicenceHistoryRequest{LicenceNumber: args[0], PageSize: listPageSize}, "events")
 		if err != nil {
 			return err
 		}

@@ -226,8 +226,8 @@ func defineLicences(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		defer conn.Close()
-		resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicences(ctx,
-			&halovetv1.ListLicencesRequest{CompanyId: *company, Year: int32(*year)})
+		resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewLicensingServiceClient(conn).ListLicences,
+			&halovetv1.ListLicencesRequest{CompanyId: *company, Year: int32(*year), PageSize: listPageSize}, "licences")
 		if err != nil {
 			return err
 		}
@@ -237,8 +237,8 @@ func defineLicences(fs *pflag.FlagSet) runFunc {
 
 // printLicences lists the licences as text (the demo's step).
 func printLicences(ctx context.Context, conn *grpc.ClientConn, w io.Writer, company string, year int32) error {
-	resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicences(ctx,
-		&halovetv1.ListLicencesRequest{CompanyId: company, Year: year})
+	resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewLicensingServiceClient(conn).ListLicences,
+		&halovetv1.ListLicencesRequest{CompanyId: company, Year: year, PageSize: listPageSize}, "licences")
 	if err != nil {
 		return err
 	}

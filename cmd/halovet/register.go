@@ -484,7 +484,7 @@ func defineYear(fs *pflag.FlagSet) runFunc {
 			}
 			fmt.Fprintf(os.Stdout, "reporting year %d reopened\n", year)
 		case "list":
-			resp, err := client.ListClosedYears(ctx, &halovetv1.ListClosedYearsRequest{})
+			resp, err := halovetv1.ReadAllPages(ctx, client.ListClosedYears, &halovetv1.ListClosedYearsRequest{PageSize: listPageSize}, "closed_years")
 			if err != nil {
 				return err
 			}

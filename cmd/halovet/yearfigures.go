@@ -176,15 +176,15 @@ func storeYearFigures(ctx context.Context, conn *grpc.ClientConn, path string, w
 
 func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, output string, w io.Writer) error {
 	c := halovetv1.NewConsumptionServiceClient(conn)
-	off, err := c.ListOfficialFigures(ctx, &halovetv1.ListOfficialFiguresRequest{})
+	off, err := halovetv1.ReadAllPages(ctx, c.ListOfficialFigures, &halovetv1.ListOfficialFiguresRequest{PageSize: listPageSize}, "figures")
 	if err != nil {
 		return err
 	}
-	ex, err := c.ListExemptions(ctx, &halovetv1.ListExemptionsRequest{Year: int32(year)})
+	ex, err := halovetv1.ReadAllPages(ctx, c.ListExemptions, &halovetv1.ListExemptionsRequest{Year: int32(year), PageSize: listPageSize}, "exemptions")
 	if err != nil {
 		return err
 	}
-	h23, err := c.ListHfc23Entries(ctx, &halovetv1.ListHfc23EntriesRequest{Year: int32(year)})
+	h23, err := halovetv1.ReadAllPages(ctx, c.ListHfc23Entries, &halovetv1.ListHfc23EntriesRequest{Year: int32(year), PageSize: listPageSize}, "entries")
 	if err != nil {
 		return err
 	}

@@ -75,7 +75,7 @@ func targets() []target {
 		}},
 		{"EvaluateMixture", func(ctx context.Context, c *grpc.ClientConn) error {
 			_, err := halovetv1.NewCatalogueServiceClient(c).EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{
-				Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: "R-404A"}, NetMassKg: "1000"})
+				Blend: "R-404A", NetMassKg: "1000"})
 			return err
 		}},
 		{"CheckShipment", func(ctx context.Context, c *grpc.ClientConn) error {

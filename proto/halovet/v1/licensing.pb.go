@@ -670,9 +670,13 @@ func (x *GetPartyResponse) GetParty() *Party {
 	return nil
 }
 
-// ListPartiesRequest has no filters yet.
+// ListPartiesRequest asks for a page of the Parties' settings.
 type ListPartiesRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Most Parties per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,1,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,2,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -707,11 +711,27 @@ func (*ListPartiesRequest) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{5}
 }
 
+func (x *ListPartiesRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListPartiesRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListPartiesResponse lists every country's settings.
 type ListPartiesResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Settings in country code order.
-	Parties       []*Party `protobuf:"bytes,1,rep,name=parties,proto3" json:"parties,omitempty"`
+	Parties []*Party `protobuf:"bytes,1,rep,name=parties,proto3" json:"parties,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -751,6 +771,13 @@ func (x *ListPartiesResponse) GetParties() []*Party {
 		return x.Parties
 	}
 	return nil
+}
+
+func (x *ListPartiesResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // Company is a registered importer, exporter, producer or user.
@@ -909,9 +936,13 @@ func (x *RegisterCompanyResponse) GetCompany() *Company {
 	return nil
 }
 
-// ListCompaniesRequest has no filters yet.
+// ListCompaniesRequest asks for a page of the registered companies.
 type ListCompaniesRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Most companies per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,1,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,2,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -946,11 +977,27 @@ func (*ListCompaniesRequest) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{10}
 }
 
+func (x *ListCompaniesRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListCompaniesRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListCompaniesResponse lists companies.
 type ListCompaniesResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Companies in identifier order.
-	Companies     []*Company `protobuf:"bytes,1,rep,name=companies,proto3" json:"companies,omitempty"`
+	Companies []*Company `protobuf:"bytes,1,rep,name=companies,proto3" json:"companies,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -990,6 +1037,13 @@ func (x *ListCompaniesResponse) GetCompanies() []*Company {
 		return x.Companies
 	}
 	return nil
+}
+
+func (x *ListCompaniesResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // QuotaLine is one quota of a licence.
@@ -2066,6 +2120,10 @@ type ListLicenceHistoryRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The licence number.
 	LicenceNumber string `protobuf:"bytes,1,opt,name=licence_number,json=licenceNumber,proto3" json:"licence_number,omitempty"`
+	// Most events per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,2,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,3,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2107,14 +2165,31 @@ func (x *ListLicenceHistoryRequest) GetLicenceNumber() string {
 	return ""
 }
 
+func (x *ListLicenceHistoryRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListLicenceHistoryRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListLicenceHistoryResponse lists its history.
 type ListLicenceHistoryResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Entries in the order they were recorded (which is date order for status
 	// changes).
 	Events []*LicenceEvent `protobuf:"bytes,1,rep,name=events,proto3" json:"events,omitempty"`
-	// The licence's status from each day on.
+	// The licence's status from each day on: the whole of it on every page (it is not
+	// paged).
 	StatusHistory []*LicenceStatusPeriod `protobuf:"bytes,2,rep,name=status_history,json=statusHistory,proto3" json:"status_history,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,3,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2161,6 +2236,13 @@ func (x *ListLicenceHistoryResponse) GetStatusHistory() []*LicenceStatusPeriod {
 		return x.StatusHistory
 	}
 	return nil
+}
+
+func (x *ListLicenceHistoryResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // LoadRegistryRequest carries the objects of a registry load.
@@ -2481,7 +2563,11 @@ type ListLicencesRequest struct {
 	// Only this company's licences, when set.
 	CompanyId string `protobuf:"bytes,1,opt,name=company_id,json=companyId,proto3" json:"company_id,omitempty"`
 	// Only licences valid on some day of this year, when set.
-	Year          int32 `protobuf:"varint,2,opt,name=year,proto3" json:"year,omitempty"`
+	Year int32 `protobuf:"varint,2,opt,name=year,proto3" json:"year,omitempty"`
+	// Most licences per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,3,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,4,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2530,11 +2616,27 @@ func (x *ListLicencesRequest) GetYear() int32 {
 	return 0
 }
 
+func (x *ListLicencesRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListLicencesRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListLicencesResponse lists licences.
 type ListLicencesResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Licences in number order.
-	Licences      []*Licence `protobuf:"bytes,1,rep,name=licences,proto3" json:"licences,omitempty"`
+	Licences []*Licence `protobuf:"bytes,1,rep,name=licences,proto3" json:"licences,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2576,6 +2678,13 @@ func (x *ListLicencesResponse) GetLicences() []*Licence {
 	return nil
 }
 
+func (x *ListLicencesResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
+}
+
 var File_halovet_v1_licensing_proto protoreflect.FileDescriptor
 
 const file_halovet_v1_licensing_proto_rawDesc = "" +
@@ -2601,10 +2710,14 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x0fGetPartyRequest\x12!\n" +
 	"\fcountry_code\x18\x01 \x01(\tR\vcountryCode\";\n" +
 	"\x10GetPartyResponse\x12'\n" +
-	"\x05party\x18\x01 \x01(\v2\x11.halovet.v1.PartyR\x05party\"\x14\n" +
-	"\x12ListPartiesRequest\"B\n" +
+	"\x05party\x18\x01 \x01(\v2\x11.halovet.v1.PartyR\x05party\"P\n" +
+	"\x12ListPartiesRequest\x12\x1b\n" +
+	"\tpage_size\x18\x01 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x02 \x01(\tR\tpageToken\"j\n" +
 	"\x13ListPartiesResponse\x12+\n" +
-	"\aparties\x18\x01 \x03(\v2\x11.halovet.v1.PartyR\aparties\"_\n" +
+	"\aparties\x18\x01 \x03(\v2\x11.halovet.v1.PartyR\aparties\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"_\n" +
 	"\aCompany\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x01 \x01(\tR\tcompanyId\x12\x12\n" +
@@ -2613,10 +2726,14 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x16RegisterCompanyRequest\x12-\n" +
 	"\acompany\x18\x01 \x01(\v2\x13.halovet.v1.CompanyR\acompany\"H\n" +
 	"\x17RegisterCompanyResponse\x12-\n" +
-	"\acompany\x18\x01 \x01(\v2\x13.halovet.v1.CompanyR\acompany\"\x16\n" +
-	"\x14ListCompaniesRequest\"J\n" +
+	"\acompany\x18\x01 \x01(\v2\x13.halovet.v1.CompanyR\acompany\"R\n" +
+	"\x14ListCompaniesRequest\x12\x1b\n" +
+	"\tpage_size\x18\x01 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x02 \x01(\tR\tpageToken\"r\n" +
 	"\x15ListCompaniesResponse\x121\n" +
-	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\"\x8c\x03\n" +
+	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\x8c\x03\n" +
 	"\tQuotaLine\x12\x1f\n" +
 	"\vline_number\x18\x01 \x01(\x05R\n" +
 	"lineNumber\x12\x1f\n" +
@@ -2700,12 +2817,16 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\vrecorded_at\x18\a \x01(\tR\n" +
 	"recordedAt\x12\x1f\n" +
 	"\vdetail_json\x18\b \x01(\tR\n" +
-	"detailJson\"B\n" +
+	"detailJson\"~\n" +
 	"\x19ListLicenceHistoryRequest\x12%\n" +
-	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\"\x96\x01\n" +
+	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\x12\x1b\n" +
+	"\tpage_size\x18\x02 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x03 \x01(\tR\tpageToken\"\xbe\x01\n" +
 	"\x1aListLicenceHistoryResponse\x120\n" +
 	"\x06events\x18\x01 \x03(\v2\x18.halovet.v1.LicenceEventR\x06events\x12F\n" +
-	"\x0estatus_history\x18\x02 \x03(\v2\x1f.halovet.v1.LicenceStatusPeriodR\rstatusHistory\"\xd7\x01\n" +
+	"\x0estatus_history\x18\x02 \x03(\v2\x1f.halovet.v1.LicenceStatusPeriodR\rstatusHistory\x12&\n" +
+	"\x0fnext_page_token\x18\x03 \x01(\tR\rnextPageToken\"\xd7\x01\n" +
 	"\x13LoadRegistryRequest\x12+\n" +
 	"\aparties\x18\x01 \x03(\v2\x11.halovet.v1.PartyR\aparties\x121\n" +
 	"\tcompanies\x18\x02 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\x12/\n" +
@@ -2724,13 +2845,17 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x11GetLicenceRequest\x12%\n" +
 	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\"C\n" +
 	"\x12GetLicenceResponse\x12-\n" +
-	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\"H\n" +
+	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\"\x84\x01\n" +
 	"\x13ListLicencesRequest\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x01 \x01(\tR\tcompanyId\x12\x12\n" +
-	"\x04year\x18\x02 \x01(\x05R\x04year\"G\n" +
+	"\x04year\x18\x02 \x01(\x05R\x04year\x12\x1b\n" +
+	"\tpage_size\x18\x03 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x04 \x01(\tR\tpageToken\"o\n" +
 	"\x14ListLicencesResponse\x12/\n" +
-	"\blicences\x18\x01 \x03(\v2\x13.halovet.v1.LicenceR\blicences*y\n" +
+	"\blicences\x18\x01 \x03(\v2\x13.halovet.v1.LicenceR\blicences\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken*y\n" +
 	"\tPartyType\x12\x1a\n" +
 	"\x16PARTY_TYPE_UNSPECIFIED\x10\x00\x12\x18\n" +
 	"\x14PARTY_TYPE_ARTICLE_5\x10\x01\x12\x1c\n" +

@@ -2836,9 +2836,13 @@ func (*ReopenYearResponse) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{30}
 }
 
-// ListClosedYearsRequest is empty.
+// ListClosedYearsRequest asks for a page of the closed years.
 type ListClosedYearsRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Most years per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,1,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,2,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2873,11 +2877,27 @@ func (*ListClosedYearsRequest) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{31}
 }
 
+func (x *ListClosedYearsRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListClosedYearsRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListClosedYearsResponse lists the closed years.
 type ListClosedYearsResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The closed years, in order.
-	ClosedYears   []*ClosedYear `protobuf:"bytes,1,rep,name=closed_years,json=closedYears,proto3" json:"closed_years,omitempty"`
+	ClosedYears []*ClosedYear `protobuf:"bytes,1,rep,name=closed_years,json=closedYears,proto3" json:"closed_years,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2917,6 +2937,13 @@ func (x *ListClosedYearsResponse) GetClosedYears() []*ClosedYear {
 		return x.ClosedYears
 	}
 	return nil
+}
+
+func (x *ListClosedYearsResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 var File_halovet_v1_shipment_proto protoreflect.FileDescriptor
@@ -3124,10 +3151,14 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x11ReopenYearRequest\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x16\n" +
 	"\x06reason\x18\x02 \x01(\tR\x06reason\"\x14\n" +
-	"\x12ReopenYearResponse\"\x18\n" +
-	"\x16ListClosedYearsRequest\"T\n" +
+	"\x12ReopenYearResponse\"T\n" +
+	"\x16ListClosedYearsRequest\x12\x1b\n" +
+	"\tpage_size\x18\x01 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x02 \x01(\tR\tpageToken\"|\n" +
 	"\x17ListClosedYearsResponse\x129\n" +
-	"\fclosed_years\x18\x01 \x03(\v2\x16.halovet.v1.ClosedYearR\vclosedYears*\x82\x01\n" +
+	"\fclosed_years\x18\x01 \x03(\v2\x16.halovet.v1.ClosedYearR\vclosedYears\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken*\x82\x01\n" +
 	"\tDirection\x12\x19\n" +
 	"\x15DIRECTION_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10DIRECTION_IMPORT\x10\x01\x12\x14\n" +
