@@ -103,7 +103,6 @@ func shipCodes(v *halovetv1.Verdict) []string {
 	return out
 }
 
-
 // TestCheckShipmentRules sends one record per case through CheckShipment: a clean record
 // gives no finding, and each change makes its rule fire, alone. It covers one rule of each
 // family end to end (the validate package tests every rule); FIELD_UNREADABLE for an enum
