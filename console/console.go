@@ -384,6 +384,8 @@ func (c *Console) parseTemplates() error {
 		"dec":              dec,
 		"fine":             fine,
 		"percent":          percent,
+		"quota":            quota,
+		"shareUsed":        shareUsed,
 		"lower":            strings.ToLower,
 		"join":             strings.Join,
 		"status":           statusWord,

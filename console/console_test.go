@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/console"
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -118,12 +119,17 @@ func TestSignInAndPages(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := resp.GetLicence().GetQuotaLines()[0].GetAllocated(); p.code != 200 || got != 4.25 {
-		t.Errorf("amend: %d, line 1 allocated %v; want 4.25", p.code, got)
+	if got := resp.GetLicence().GetQuotaLines()[0].GetAllocatedAmount(); p.code != 200 || got != "4.25" {
+		t.Errorf("amend: %d, line 1 allocated_amount %q; want 4.25", p.code, got)
 	}
 	p = c.post("/console/licences/XA-IMP-2026-001/quota", url.Values{"csrf": {p.csrf(t)}, "line": {"1"}, "allocated": {"lots"}, "reason": {"console test"}})
 	if p.code != http.StatusBadRequest || !strings.Contains(p.body, "Nothing was changed") {
 		t.Errorf("amend with a bad figure: %d", p.code)
+	}
+	// A decimal comma is refused, not read as 425.
+	p = c.post("/console/licences/XA-IMP-2026-001/quota", url.Values{"csrf": {p.csrf(t)}, "line": {"1"}, "allocated": {"4,25"}, "reason": {"console test"}})
+	if p.code != http.StatusBadRequest || !strings.Contains(p.body, "no separators") {
+		t.Errorf("amend with a decimal comma: %d; want 400 saying a decimal with a point and no separators", p.code)
 	}
 
 	// Sign out: the session is gone on the server too.
@@ -192,7 +198,11 @@ func drawn(t *testing.T, h *harness, number string) float64 {
 	}
 	var sum float64
 	for _, q := range resp.GetLicence().GetQuotaLines() {
-		sum += q.GetDrawn()
+		d, err := exact.Parse(q.GetDrawnAmount())
+		if err != nil {
+			t.Fatalf("drawn_amount %q: %v", q.GetDrawnAmount(), err)
+		}
+		sum += d.Float64()
 	}
 	return sum
 }

@@ -19,7 +19,7 @@ func TestLicenceRegisterPages(t *testing.T) {
 		if _, err := lic.IssueLicence(h.conn.admin(), &halovetv1.IssueLicenceRequest{Reason: "test", Licence: &halovetv1.Licence{
 			LicenceNumber: fmt.Sprintf("XA-PAGE-%02d", i), CompanyId: "XA-1002", Directions: []halovetv1.Direction{halovetv1.Direction_DIRECTION_IMPORT},
 			ValidFrom: "2026-01-01", ValidTo: "2026-12-31", Status: halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE,
-			QuotaLines: []*halovetv1.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, Allocated: 1}}}}); err != nil {
+			QuotaLines: []*halovetv1.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, AllocatedAmount: "1"}}}}); err != nil {
 			t.Fatal(err)
 		}
 	}

@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/terms"
@@ -206,10 +207,11 @@ func (c *Console) amendQuota(w http.ResponseWriter, r *http.Request, rq *request
 		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("line %q: give the quota line's number. Nothing was changed.", r.PostFormValue("line")))
 		return
 	}
-	raw := strings.ReplaceAll(strings.TrimSpace(r.PostFormValue("allocated")), ",", "")
-	alloc, err := strconv.ParseFloat(raw, 64)
-	if err != nil || alloc < 0 || alloc > 1e12 {
-		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("allocated %q: give the new allocation as a number of the line's unit, 0 or more (for example 4.25). Nothing was changed.", r.PostFormValue("allocated")))
+	// A plain decimal: a comma is refused rather than guessed (a decimal comma "4,25" and a
+	// thousands separator "1,500" read alike).
+	alloc, err := exact.Parse(strings.TrimSpace(r.PostFormValue("allocated")))
+	if err != nil || alloc.Sign() < 0 {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("allocated %q: give the new allocation in the line's unit as a decimal 0 or more with a point and no separators (for example 4.25 or 1500). Nothing was changed.", r.PostFormValue("allocated")))
 		return
 	}
 	reason := strings.TrimSpace(r.PostFormValue("reason"))
@@ -224,7 +226,7 @@ func (c *Console) amendQuota(w http.ResponseWriter, r *http.Request, rq *request
 	found := false
 	for _, q := range l.GetQuotaLines() {
 		if int(q.GetLineNumber()) == line {
-			q.Allocated, found = alloc, true
+			q.AllocatedAmount, found = alloc.String(), true
 		}
 	}
 	if !found {

@@ -39,7 +39,7 @@ func (secretCreds) RequireTransportSecurity() bool { return false }
 // dialAs is a new connection to the server behind conn that presents secret.
 func dialAs(t *testing.T, conn *grpc.ClientConn, secret string) *grpc.ClientConn {
 	t.Helper()
-	c, err := grpc.NewClient(conn.Target(), grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(secretCreds(secret)))
+	c, err := grpc.NewClient(conn.Target(), append(noiseScan(t), grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(secretCreds(secret)))...)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -427,7 +427,7 @@ func TestConsumptionArticle5(t *testing.T) {
 			lq[0].GetAnnexGroup() != "C/I" || lq[0].GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES {
 			t.Errorf("draft %+v: want a DRAFT with one C/I line in ODP t", l.GetLicence())
 		}
-		consNear(t, "draft allocation", lq[0].GetAllocated(), wantQ[q.GetCompanyId()])
+		consNear(t, "draft allocation", figureFloat(lq[0].GetAllocatedAmount()), wantQ[q.GetCompanyId()])
 	}
 	if n := plan.GetProposals()[0].GetDraftLicenceNumber(); n != "CI-DRAFT-2026-XA-1001" {
 		t.Errorf("draft number %q, want CI-DRAFT-2026-XA-1001", n)
@@ -440,7 +440,7 @@ func TestConsumptionArticle5(t *testing.T) {
 	l, _ := lic.GetLicence(ctx, &halovetv1.GetLicenceRequest{LicenceNumber: "CI-DRAFT-2026-XA-1002"})
 	// Fraction 1: 2465.9375 units; XA-1002 exact 2465.9375 × 0.2585/1.9085 = 334.0; XA-1001 2131.93
 	// floors 2131 + 334 = 2465 = all whole units: XA-1002 keeps 0.334.
-	consNear(t, "re-planned draft", l.GetLicence().GetQuotaLines()[0].GetAllocated(), 0.334)
+	consNear(t, "re-planned draft", figureFloat(l.GetLicence().GetQuotaLines()[0].GetAllocatedAmount()), 0.334)
 }
 
 // TestConsumptionNonArticle5 is the worked example of a non-Article 5 Party: the HCFC

@@ -3,7 +3,7 @@ package service
 import (
 	"context"
 	"fmt"
-	"math"
+	"github.com/halovet/halovet/exact"
 	"regexp"
 	"time"
 
@@ -219,7 +219,8 @@ func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool, p
 // quotaLineFromProto validates one quota line (field names start with f).
 func (l *licensingServer) quotaLineFromProto(q *halovetv1.QuotaLine, f string) (store.QuotaLine, []fieldViolation) {
 	var vs []fieldViolation
-	line := store.QuotaLine{LineNumber: int(q.GetLineNumber()), AnnexGroup: q.GetAnnexGroup(), Allocated: q.GetAllocated()}
+	line := store.QuotaLine{LineNumber: int(q.GetLineNumber()), AnnexGroup: q.GetAnnexGroup()}
+	line.Allocated = quotaAmountIn(f+".allocated_amount", q.GetAllocatedAmount(), &vs)
 	if q.GetLineNumber() < 0 {
 		vs = append(vs, fieldViolation{f + ".line_number", "must be 1 or more (0: numbered in order)"})
 	}
@@ -257,11 +258,31 @@ func (l *licensingServer) quotaLineFromProto(q *halovetv1.QuotaLine, f string) (
 		}
 		line.Purposes = append(line.Purposes, t)
 	}
-	if q.GetAllocated() < 0 || q.GetAllocated() > maxAllocation || math.IsNaN(q.GetAllocated()) {
-		vs = append(vs, fieldViolation{f + ".allocated", fmt.Sprintf("must be between 0 and %g in the line's unit", maxAllocation)})
-	}
 	return line, vs
 }
+
+// quotaAmountIn reads a request's quota amount named field: a decimal string, "" for 0,
+// not negative, at most maxAllocation and with at most 9 decimals (the register counts
+// quota in billionths and rounds nothing it is given).
+func quotaAmountIn(field, s string, vs *[]fieldViolation) float64 {
+	n := len(*vs)
+	d, f := figureIn(field, s, vs)
+	switch {
+	case len(*vs) > n:
+		return 0
+	case d.Cmp(exact.FromInt(maxAllocation)) > 0:
+		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s is above the largest quota amount; give 0 to %d in the line's unit", d, int64(maxAllocation))})
+		return 0
+	case !d.Round(9).Equal(d):
+		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s has more than 9 decimals; the register counts quota in billionths: give at most 9 decimals", d)})
+		return 0
+	}
+	return f
+}
+
+// quotaAmount writes a quota amount the register keeps in billionths (numeric(30, 9), read
+// as the float64 nearest to it) as its exact decimal.
+func quotaAmount(f float64) exact.Decimal { return exact.OfFloat(f).Round(9) }
 
 // licenceToProto converts a stored licence; status is its status on day today.
 func licenceToProto(l store.Licence, today time.Time) *halovetv1.Licence {
@@ -281,8 +302,9 @@ func licenceToProto(l store.Licence, today time.Time) *halovetv1.Licence {
 	}
 	for _, q := range l.QuotaLines {
 		p.QuotaLines = append(p.QuotaLines, &halovetv1.QuotaLine{LineNumber: int32(q.LineNumber), AnnexGroup: q.AnnexGroup,
-			Substance: q.Substance, Unit: wireterms.QuotaUnitToWire(q.Unit), Allocated: q.Allocated, Drawn: q.Drawn,
-			Remaining: q.Allocated - q.Drawn, Purposes: purposesToProto(q.Purposes), ClosedOn: dateOrEmpty(q.ClosedOn)})
+			Substance: q.Substance, Unit: wireterms.QuotaUnitToWire(q.Unit), AllocatedAmount: quotaAmount(q.Allocated).String(),
+			DrawnAmount: quotaAmount(q.Drawn).String(), RemainingAmount: quotaAmount(q.Allocated).Sub(quotaAmount(q.Drawn)).String(),
+			Purposes: purposesToProto(q.Purposes), ClosedOn: dateOrEmpty(q.ClosedOn)})
 	}
 	return p
 }

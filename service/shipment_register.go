@@ -133,11 +133,18 @@ func recordedToProto(x *store.StoredShipment) (*halovetv1.RecordedShipment, erro
 	out := &halovetv1.RecordedShipment{ShipmentId: x.ID, State: stateProto[x.State], Version: int32(x.Version),
 		PreviousShipmentId: x.PreviousID, Record: rec, Verdict: v, RecordedAt: rfc3339(x.RecordedAt),
 		ChangedAt: rfc3339(x.ChangedAt), ChangeReason: x.ChangeReason, DeclarationDate: x.DeclarationDate.Format(dateLayout),
-		ResolvedDesignation: x.ResolvedDesignation, NetMassKg: x.NetMassKg.Float(), OdpTonnes: x.ODPTonnes.Float(),
-		Co2ETonnes: x.CO2eTonnes.Float(), CountsInConsumption: x.CountsInConsumption}
+		ResolvedDesignation: x.ResolvedDesignation, NetMassKg: nanoFigure(int64(x.NetMassKg)), OdpTonnes: nanoFigure(int64(x.ODPTonnes)),
+		Co2ETonnes: nanoFigure(int64(x.CO2eTonnes)), CountsInConsumption: x.CountsInConsumption}
+	if fg := v.GetFigures(); fg != nil && fg.NetMassKg == "" {
+		// A verdict stored before the figures were decimal strings keeps its doubles in
+		// reserved fields, which decode as unknown fields: its totals are read from the
+		// register's columns instead (exact to 9 decimals), its components' figures stay
+		// absent.
+		fg.NetMassKg, fg.OdpTonnes, fg.Co2ETonnes = out.NetMassKg, out.OdpTonnes, out.Co2ETonnes
+	}
 	for _, d := range x.Draws {
 		out.Draws = append(out.Draws, &halovetv1.QuotaDraw{LicenceNumber: d.LicenceNumber, LineNumber: int32(d.LineNumber),
-			Amount: d.Amount.Float(), Released: d.Released, ReleasedAt: rfc3339(d.ReleasedAt)})
+			Amount: nanoFigure(int64(d.Amount)), Released: d.Released, ReleasedAt: rfc3339(d.ReleasedAt)})
 	}
 	return out, nil
 }

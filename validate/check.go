@@ -34,6 +34,12 @@ type Figures struct {
 	PartnerNotBoundGroups []substances.Group
 	SafetyClass           string   // ASHRAE 34 class of the substance or blend
 	Cautions              []string // safety cautions from the catalogue
+	// Mass is the declared quantity the net mass comes from, for the exact figures
+	// (Exacts); the float64 figures above are their nearest floats, for the rules.
+	Mass Quantity
+	// Exact, when set, holds the exact figures (a verdict read back from the wire);
+	// nil for a verdict the checker made, whose Exacts computes them from Mass.
+	Exact *FiguresExact
 }
 
 // PartnerBoundFor reports whether the partner is bound for group g (an uncontrolled
@@ -88,6 +94,7 @@ type checker struct {
 	fs     []Finding
 
 	netKg   float64
+	mass    Quantity
 	qtyOK   bool
 	date    time.Time
 	dateOK  bool
@@ -208,6 +215,7 @@ func (c *checker) finish(ledger QuotaLedger) Verdict {
 			PartnerNotBoundGroups: c.notBound,
 			SafetyClass:           c.ev.SafetyClass,
 			Cautions:              c.ev.Cautions,
+			Mass:                  c.mass,
 		}
 	}
 	sortFindings(c.fs)

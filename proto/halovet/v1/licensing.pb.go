@@ -1057,14 +1057,21 @@ type QuotaLine struct {
 	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Designation of the single substance the line covers; empty for a group line.
 	Substance string `protobuf:"bytes,3,opt,name=substance,proto3" json:"substance,omitempty"`
-	// Unit of the amounts.
+	// Unit of the line's amounts (allocated_amount, drawn_amount, remaining_amount, and the
+	// amount of every QuotaDraw on the line).
 	Unit QuotaUnit `protobuf:"varint,4,opt,name=unit,proto3,enum=halovet.v1.QuotaUnit" json:"unit,omitempty"`
-	// Amount allocated.
-	Allocated float64 `protobuf:"fixed64,5,opt,name=allocated,proto3" json:"allocated,omitempty"`
-	// Amount drawn by recorded shipments (read only).
-	Drawn float64 `protobuf:"fixed64,6,opt,name=drawn,proto3" json:"drawn,omitempty"`
-	// Amount left (read only).
-	Remaining float64 `protobuf:"fixed64,7,opt,name=remaining,proto3" json:"remaining,omitempty"`
+	// Amount allocated, in unit: a decimal string in plain notation with at most 9 decimals
+	// (the register counts quota in billionths), e.g. "12.5"; "0" for none. A quota amount is
+	// named _amount rather than by a unit because a line counts in one of three units, and
+	// unit beside it says which. A request with more than 9 decimals, a negative amount or
+	// one above 1000000000 is INVALID_ARGUMENT naming the field.
+	AllocatedAmount string `protobuf:"bytes,10,opt,name=allocated_amount,json=allocatedAmount,proto3" json:"allocated_amount,omitempty"`
+	// Amount drawn by recorded shipments, in unit, exact (read only); "0" when nothing is
+	// drawn.
+	DrawnAmount string `protobuf:"bytes,11,opt,name=drawn_amount,json=drawnAmount,proto3" json:"drawn_amount,omitempty"`
+	// Amount left, allocated_amount minus drawn_amount, exact (read only); "0" when
+	// nothing is left.
+	RemainingAmount string `protobuf:"bytes,12,opt,name=remaining_amount,json=remainingAmount,proto3" json:"remaining_amount,omitempty"`
 	// Declared purposes the line serves: an allowance for an exempted use (for example
 	// PURPOSE_CRITICAL_USE for the methyl bromide the Parties authorise under Article 2H para 5).
 	// A shipment declaring one of them draws on this line before any line without purposes, and
@@ -1135,25 +1142,25 @@ func (x *QuotaLine) GetUnit() QuotaUnit {
 	return QuotaUnit_QUOTA_UNIT_UNSPECIFIED
 }
 
-func (x *QuotaLine) GetAllocated() float64 {
+func (x *QuotaLine) GetAllocatedAmount() string {
 	if x != nil {
-		return x.Allocated
+		return x.AllocatedAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *QuotaLine) GetDrawn() float64 {
+func (x *QuotaLine) GetDrawnAmount() string {
 	if x != nil {
-		return x.Drawn
+		return x.DrawnAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *QuotaLine) GetRemaining() float64 {
+func (x *QuotaLine) GetRemainingAmount() string {
 	if x != nil {
-		return x.Remaining
+		return x.RemainingAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *QuotaLine) GetPurposes() []Purpose {
@@ -1369,7 +1376,7 @@ func (x *Licence) GetStatusHistory() []*LicenceStatusPeriod {
 // IssueLicenceRequest carries the new licence.
 type IssueLicenceRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The licence; drawn and remaining are ignored.
+	// The licence; drawn_amount and remaining_amount are ignored.
 	Licence *Licence `protobuf:"bytes,1,opt,name=licence,proto3" json:"licence,omitempty"`
 	// Why, for the audit log.
 	Reason        string `protobuf:"bytes,2,opt,name=reason,proto3" json:"reason,omitempty"`
@@ -1861,8 +1868,8 @@ type CloseQuotaLineRequest struct {
 	EffectiveDate string `protobuf:"bytes,3,opt,name=effective_date,json=effectiveDate,proto3" json:"effective_date,omitempty"`
 	// Why, for the audit log and the history; required.
 	Reason string `protobuf:"bytes,4,opt,name=reason,proto3" json:"reason,omitempty"`
-	// When set, a new line opened in its place (line_number is assigned; drawn and
-	// remaining are ignored).
+	// When set, a new line opened in its place (line_number is assigned; drawn_amount and
+	// remaining_amount are ignored).
 	Successor *QuotaLine `protobuf:"bytes,5,opt,name=successor,proto3" json:"successor,omitempty"`
 	// When not 0: the version the caller read; a licence at another version is
 	// refused FAILED_PRECONDITION.
@@ -2726,19 +2733,20 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"page_token\x18\x02 \x01(\tR\tpageToken\"r\n" +
 	"\x15ListCompaniesResponse\x121\n" +
 	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\x12&\n" +
-	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\xb6\x02\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\x8c\x03\n" +
 	"\tQuotaLine\x12\x1f\n" +
 	"\vline_number\x18\x01 \x01(\x05R\n" +
 	"lineNumber\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
 	"annexGroup\x12\x1c\n" +
 	"\tsubstance\x18\x03 \x01(\tR\tsubstance\x12)\n" +
-	"\x04unit\x18\x04 \x01(\x0e2\x15.halovet.v1.QuotaUnitR\x04unit\x12\x1c\n" +
-	"\tallocated\x18\x05 \x01(\x01R\tallocated\x12\x14\n" +
-	"\x05drawn\x18\x06 \x01(\x01R\x05drawn\x12\x1c\n" +
-	"\tremaining\x18\a \x01(\x01R\tremaining\x12/\n" +
+	"\x04unit\x18\x04 \x01(\x0e2\x15.halovet.v1.QuotaUnitR\x04unit\x12)\n" +
+	"\x10allocated_amount\x18\n" +
+	" \x01(\tR\x0fallocatedAmount\x12!\n" +
+	"\fdrawn_amount\x18\v \x01(\tR\vdrawnAmount\x12)\n" +
+	"\x10remaining_amount\x18\f \x01(\tR\x0fremainingAmount\x12/\n" +
 	"\bpurposes\x18\b \x03(\x0e2\x13.halovet.v1.PurposeR\bpurposes\x12\x1b\n" +
-	"\tclosed_on\x18\t \x01(\tR\bclosedOn\"e\n" +
+	"\tclosed_on\x18\t \x01(\tR\bclosedOnJ\x04\b\x05\x10\x06J\x04\b\x06\x10\aJ\x04\b\a\x10\bR\tallocatedR\x05drawnR\tremaining\"e\n" +
 	"\x13LicenceStatusPeriod\x12\x1b\n" +
 	"\tfrom_date\x18\x01 \x01(\tR\bfromDate\x121\n" +
 	"\x06status\x18\x02 \x01(\x0e2\x19.halovet.v1.LicenceStatusR\x06status\"\x81\x04\n" +
