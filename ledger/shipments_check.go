@@ -24,24 +24,26 @@ func (s *Shipments) CheckOne(ctx context.Context, who Caller, r validate.Record)
 	if err != nil {
 		return Answer{}, err
 	}
-	known, err := s.storedFor(ctx, one)
+	known, err := s.storedFor(ctx, s.lookup.StoredRecords, one)
 	if err != nil {
 		return Answer{}, err
 	}
 	if a, ok, err := known.answer(s.codec, 0, env, &one[0]); ok || err != nil {
 		return a, err
 	}
-	return Answer{Verdict: validate.Check(env, &one[0], validate.NewMemoryLedger())}, nil
+	// Not stored: nothing needs the record's fingerprint.
+	return Answer{Verdict: validate.CheckUnkeyed(env, &one[0], validate.NewMemoryLedger())}, nil
 }
 
 // storedRecords is what the register holds of the keys of the records of one check
 // message: every stored version, by the record's index.
 type storedRecords map[int][]StoredRef
 
-// storedFor looks up the stored versions of the records' company and key. A check
-// answers a record recorded already by what was recorded, and does not count its draws
-// again (they are in the balance already).
-func (s *Shipments) storedFor(ctx context.Context, recs []validate.Record) (storedRecords, error) {
+// storedFor looks up, with lookup, the stored versions of the records' company and key. A
+// check answers a record recorded already by what was recorded, and does not count its
+// draws again (they are in the balance already).
+func (s *Shipments) storedFor(ctx context.Context, lookup func(context.Context, [][2]string) (map[[2]string][]StoredRef, error),
+	recs []validate.Record) (storedRecords, error) {
 	var keys [][2]string
 	var at []int
 	for i := range recs {
@@ -55,7 +57,7 @@ func (s *Shipments) storedFor(ctx context.Context, recs []validate.Record) (stor
 	if len(keys) == 0 {
 		return nil, nil
 	}
-	m, err := s.reg.StoredRecords(ctx, keys)
+	m, err := lookup(ctx, keys)
 	if err != nil {
 		return nil, err
 	}
@@ -230,7 +232,7 @@ func (s *Shipments) checkMessage(ctx context.Context, who Caller, batch *validat
 		return nil, err
 	}
 	batch.SetEnv(env)
-	known, err := s.storedFor(ctx, recs)
+	known, err := s.storedFor(ctx, s.reg.StoredRecords, recs)
 	if err != nil {
 		return nil, err
 	}
