@@ -59,7 +59,11 @@ var outcomeProto = map[validate.Outcome]halovetv1.Outcome{
 	validate.OutcomeRejected:             halovetv1.Outcome_OUTCOME_REJECTED,
 }
 
-func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
+func verdictToProto(v *validate.Verdict) *halovetv1.Verdict { return verdictToProtoWith(v, true) }
+
+// verdictToProtoWith is verdictToProto, with the per-component figures only when
+// components is set.
+func verdictToProtoWith(v *validate.Verdict, components bool) *halovetv1.Verdict {
 	out := &halovetv1.Verdict{RecordKey: v.RecordKey, SourceLine: v.Line, Outcome: outcomeProto[v.Outcome],
 		Replayed: v.Replayed}
 	out.Findings = make([]*halovetv1.Finding, len(v.Findings))
@@ -70,8 +74,10 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
 		f := &v.Figures
 		out.Figures = &halovetv1.ShipmentFigures{ResolvedDesignation: f.Designation, Kind: kindProto(f.Kind),
 			NetMassKg: f.NetMassKg, OdpTonnes: f.ODPTonnes, Co2ETonnes: f.CO2eTonnes,
-			Components: componentsToProto(f.Components), CountsInConsumption: f.CountsInConsumption,
-			SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+			CountsInConsumption: f.CountsInConsumption, SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+		if components {
+			out.Figures.Components = componentsToProto(f.Components)
+		}
 		for _, g := range f.PartnerNotBoundGroups {
 			out.Figures.PartnerNotBoundGroups = append(out.Figures.PartnerNotBoundGroups, string(g))
 		}
