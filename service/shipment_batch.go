@@ -25,7 +25,7 @@ func (x *shipmentServer) CheckShipmentBatch(ctx context.Context, req *halovetv1.
 		return nil, err
 	}
 	s := &memStream[halovetv1.CheckShipmentsRequest, halovetv1.CheckShipmentsResponse]{
-		ctx:  ctx,
+		ctx: ctx,
 		// The batch call's verdicts carry the per-component figures, as they always have.
 		reqs: []*halovetv1.CheckShipmentsRequest{{Records: req.GetRecords(), ComponentFigures: true}},
 	}
