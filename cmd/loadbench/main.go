@@ -6,7 +6,11 @@
 // in interleaved rounds (each round measures every call once, in that order), so that
 // whatever else the machine does falls on all of them alike; each call's rate is given as
 // a ratio to the health check's rate of the same round, with its latency percentiles, as
-// medians over the rounds. The table is printed in Markdown for BENCHMARKS.md.
+// medians over the rounds. The table is printed in Markdown for BENCHMARKS.md. The server
+// runs with --open-access on loopback: the driver has no credential. With -against DIR, a
+// second checkout (for example of main) is built and served beside the first on its own
+// cluster, and every round measures both, alternating which goes first: a before-and-after
+// comparison in one run, one table per server.
 //
 // It does what ghz would at `--concurrency 50 --connections 4`: ghz v0.93.0, the only
 // version the module proxy serves, no longer builds against the grpc-go in use
