@@ -335,15 +335,19 @@ type ShipmentOptions struct {
 	FlushSize int
 	// Logger receives refresh failures; nil means slog.Default().
 	Logger *slog.Logger
+	// LookupsInFlight is how many queries for the stored keys of concurrent unary checks
+	// run at once; the calls arriving meanwhile share the next one. 0 means 2.
+	LookupsInFlight int
 }
 
 // Shipments runs the shipment workflows over a check environment and a register.
 type Shipments struct {
-	env   *EnvHolder
-	reg   ShipmentRegister
-	codec VerdictCodec
-	flush int
-	log   *slog.Logger
+	env    *EnvHolder
+	reg    ShipmentRegister
+	lookup *keyLookup // the unary checks' gathered stored-key lookups
+	codec  VerdictCodec
+	flush  int
+	log    *slog.Logger
 }
 
 // NewShipments returns the workflows over env and reg, keeping verdicts in codec's form.
@@ -354,7 +358,7 @@ func NewShipments(env *EnvHolder, reg ShipmentRegister, codec VerdictCodec, opts
 	if opts.Logger == nil {
 		opts.Logger = slog.Default()
 	}
-	return &Shipments{env: env, reg: reg, codec: codec, flush: opts.FlushSize, log: opts.Logger}
+	return &Shipments{env: env, reg: reg, lookup: newKeyLookup(reg, opts.LookupsInFlight), codec: codec, flush: opts.FlushSize, log: opts.Logger}
 }
 
 // FlushSize is how many records one recording transaction holds at most.

@@ -59,7 +59,11 @@ var outcomeProto = map[validate.Outcome]halovetv1.Outcome{
 	validate.OutcomeRejected:             halovetv1.Outcome_OUTCOME_REJECTED,
 }
 
-func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
+func verdictToProto(v *validate.Verdict) *halovetv1.Verdict { return verdictToProtoWith(v, true) }
+
+// verdictToProtoWith is verdictToProto, with the per-component figures only when
+// components is set.
+func verdictToProtoWith(v *validate.Verdict, components bool) *halovetv1.Verdict {
 	out := &halovetv1.Verdict{RecordKey: v.RecordKey, SourceLine: v.Line, Outcome: outcomeProto[v.Outcome],
 		Replayed: v.Replayed}
 	out.Findings = make([]*halovetv1.Finding, len(v.Findings))
@@ -71,8 +75,10 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
 		x := f.Exacts()
 		out.Figures = &halovetv1.ShipmentFigures{ResolvedDesignation: f.Designation, Kind: kindProto(f.Kind),
 			NetMassKg: x.NetMassKg.String(), OdpTonnes: x.ODPTonnes.String(), Co2ETonnes: x.CO2eTonnes.String(),
-			Components: verdictComponents(f.Components, x.Components), CountsInConsumption: f.CountsInConsumption,
-			SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+			CountsInConsumption: f.CountsInConsumption, SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+		if components {
+			out.Figures.Components = verdictComponents(f.Components, x.Components)
+		}
 		for _, g := range f.PartnerNotBoundGroups {
 			out.Figures.PartnerNotBoundGroups = append(out.Figures.PartnerNotBoundGroups, string(g))
 		}

@@ -1079,9 +1079,14 @@ type CheckShipmentsRequest struct {
 	// One record.
 	Record *ShipmentRecord `protobuf:"bytes,1,opt,name=record,proto3" json:"record,omitempty"`
 	// Several records, checked after record (when both are set) in this order.
-	Records       []*ShipmentRecord `protobuf:"bytes,2,rep,name=records,proto3" json:"records,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Records []*ShipmentRecord `protobuf:"bytes,2,rep,name=records,proto3" json:"records,omitempty"`
+	// Read on the stream's first message only: true asks for the per-component figures
+	// (figures.components) in every verdict of the stream. Without it they are left out,
+	// which makes the answers smaller and quicker to encode; the totals, the outcome, the
+	// findings and the draws are the same either way.
+	ComponentFigures bool `protobuf:"varint,3,opt,name=component_figures,json=componentFigures,proto3" json:"component_figures,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
 }
 
 func (x *CheckShipmentsRequest) Reset() {
@@ -1126,6 +1131,13 @@ func (x *CheckShipmentsRequest) GetRecords() []*ShipmentRecord {
 		return x.Records
 	}
 	return nil
+}
+
+func (x *CheckShipmentsRequest) GetComponentFigures() bool {
+	if x != nil {
+		return x.ComponentFigures
+	}
+	return false
 }
 
 // BatchSummary closes a stream.
@@ -3017,10 +3029,11 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x14CheckShipmentRequest\x122\n" +
 	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\"F\n" +
 	"\x15CheckShipmentResponse\x12-\n" +
-	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictR\averdict\"\x81\x01\n" +
+	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictR\averdict\"\xae\x01\n" +
 	"\x15CheckShipmentsRequest\x122\n" +
 	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\x124\n" +
-	"\arecords\x18\x02 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\"\xfc\x03\n" +
+	"\arecords\x18\x02 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\x12+\n" +
+	"\x11component_figures\x18\x03 \x01(\bR\x10componentFigures\"\xfc\x03\n" +
 	"\fBatchSummary\x12\x18\n" +
 	"\arecords\x18\x01 \x01(\x03R\arecords\x12\x1a\n" +
 	"\baccepted\x18\x02 \x01(\x03R\baccepted\x124\n" +
