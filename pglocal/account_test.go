@@ -9,6 +9,8 @@ import (
 	"strings"
 	"sync"
 	"testing"
+
+	"github.com/jackc/pgx/v5"
 )
 
 // These tests change fallbackAccounts, so they must not run in parallel; Go runs the
@@ -28,11 +30,19 @@ func TestRootFallsBackToNobody(t *testing.T) {
 	defer func() { fallbackAccounts = saved }()
 
 	c := startCluster(t, Options{DataDir: filepath.Join(searchableTempDir(t), "pg"), Ephemeral: true})
-	pid, err := strconv.Atoi(queryString(t, c.URL(""), "SELECT pg_backend_pid()::text"))
+	// The backend is read while its connection is open: it exits when the connection closes.
+	ctx := context.Background()
+	conn, err := pgx.Connect(ctx, c.URL(""))
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := strconv.Itoa(processUID(t, pid)); got != nobody.Uid {
+	var pid int
+	if err := conn.QueryRow(ctx, "SELECT pg_backend_pid()").Scan(&pid); err != nil {
+		t.Fatal(err)
+	}
+	uid := processUID(t, pid)
+	conn.Close(ctx)
+	if got := strconv.Itoa(uid); got != nobody.Uid {
 		t.Errorf("backend runs as uid %s; want nobody's uid %s", got, nobody.Uid)
 	}
 
