@@ -102,11 +102,22 @@ func (b *browser) open(path string) {
 
 func (b *browser) text(sel string) string {
 	b.t.Helper()
-	s, err := chromedp.Run(b.ctx, chromedp.Text(chromedp.CSS(sel)))
-	if err != nil {
-		b.t.Fatalf("text of %s: %v", sel, err)
+	// Read in one evaluation, retried while the element is not there: a page that reloads
+	// (the batch page until its verdicts are in) can replace the document between finding
+	// a node and reading it.
+	js := fmt.Sprintf(`(() => { const e = document.querySelector(%q); return e ? [true, e.innerText] : [false, ""]; })()`, sel)
+	deadline := time.Now().Add(10 * time.Second)
+	for {
+		v, err := chromedp.Run(b.ctx, chromedp.Evaluate[[]any](js))
+		if err == nil && len(v) == 2 && v[0] == true {
+			s, _ := v[1].(string)
+			return strings.TrimSpace(s)
+		}
+		if time.Now().After(deadline) {
+			b.t.Fatalf("text of %s: not on the page within 10s (last error %v)", sel, err)
+		}
+		time.Sleep(100 * time.Millisecond)
 	}
-	return s
 }
 
 func eval[T any](b *browser, js string) T {
