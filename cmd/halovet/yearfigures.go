@@ -201,19 +201,19 @@ func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, outpu
 	fmt.Fprintln(tw, "key\tParty\tkind\tgroup\tyear\tvalue\tunit\tsource\t")
 	for _, f := range off.GetFigures() {
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t\n", f.GetFigureKey(), f.GetCountryCode(), enumWord(f.GetKind().Descriptor(), f.GetKind().Number()),
-			f.GetAnnexGroup(), f.GetYear(), fmtFull(f.GetValue()), f.GetUnit(), f.GetSource())
+			f.GetAnnexGroup(), f.GetYear(), showAmount(f.GetAmount(), f.GetUnit()), unitText(f.GetUnit()), f.GetSource())
 	}
 	fmt.Fprintf(tw, "\nAuthorised exemptions (%d)\n", len(ex.GetExemptions()))
 	fmt.Fprintln(tw, "key\tParty\tyear\tgroup\tuse\tamount\tunit\tsource\t")
 	for _, e := range ex.GetExemptions() {
 		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetExemptionKey(), e.GetCountryCode(), e.GetYear(), e.GetAnnexGroup(),
-			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), fmtFull(e.GetAmount()), e.GetUnit(), e.GetSource())
+			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), showAmount(e.GetAmount(), e.GetUnit()), unitText(e.GetUnit()), e.GetSource())
 	}
 	fmt.Fprintf(tw, "\nHFC-23 by-product per facility (%d)\n", len(h23.GetEntries()))
 	fmt.Fprintln(tw, "key\tfacility\tyear\tgenerated t\tcaptured for use t\tdestroyed t\temitted t\temitted CO2-eq t\t")
 	for _, e := range h23.GetEntries() {
-		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetEntryKey(), e.GetFacility(), e.GetYear(), fmtTonnes(e.GetGeneratedTonnes()),
-			fmtTonnes(e.GetCapturedUsedTonnes()), fmtTonnes(e.GetDestroyedTonnes()), fmtTonnes(e.GetEmittedTonnes()), fmtCO2e(e.GetEmittedCo2ETonnes()))
+		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetEntryKey(), e.GetFacility(), e.GetYear(), showT(e.GetGeneratedTonnes()),
+			showT(e.GetCapturedUsedTonnes()), showT(e.GetDestroyedTonnes()), showT(e.GetEmittedTonnes()), showCO2e(e.GetEmittedCo2ETonnes()))
 	}
 	if err := tw.Flush(); err != nil {
 		return err
