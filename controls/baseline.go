@@ -118,7 +118,7 @@ func (rb *Rulebook) baselineOf(l *ledger, party Party, rule BaselineRule, unit U
 		var mean exact.Decimal
 		b.CFCYears, mean, gaps = series(cons, ScopeAI, unit, rule.FromYear, rule.ToYear, joinPart(part, "CFC term"))
 		b.Missing = append(b.Missing, gaps...)
-		b.CFCTerm = b.CFCShare.Mul(mean)
+		b.CFCTerm = derivedProduct(b.CFCShare.Mul(mean), unit)
 		b.Notes = append(b.Notes, zeroGWPNotes(cons, ScopeAI, unit, rule.FromYear, rule.ToYear)...)
 	case TermHCFCCO2e:
 		b.HCFCShare = exact.OfFloat(rule.TermPercent).Shift(-2)
@@ -133,7 +133,7 @@ func (rb *Rulebook) baselineOf(l *ledger, party Party, rule BaselineRule, unit U
 		b.HCFC = &h
 		b.Missing = append(b.Missing, h.Missing...)
 		if h.Complete {
-			b.HCFCComponent = b.HCFCShare.Mul(h.Value)
+			b.HCFCComponent = derivedProduct(b.HCFCShare.Mul(h.Value), unit)
 		}
 	}
 	b.Complete = len(b.Missing) == 0

@@ -227,7 +227,7 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 		}
 		baseline = b.Value
 	}
-	ya.ComputedAllowed = baseline.Percent(ya.AllowedPercent)
+	ya.ComputedAllowed = derivedProduct(baseline.Percent(ya.AllowedPercent), unit)
 	ya.Allowed = ya.ComputedAllowed
 	ya.Assessed = true
 
@@ -308,7 +308,7 @@ func periodYear(cons Consumption, ya YearAssessment, rule Rule, scope Scope, bas
 		// From the exact sum, not the rounded mean: sum × 100 / (baseline × years).
 		p.RunningPercent = exact.Derive(sum.Mul(exact.Hundred), baseline.Mul(exact.FromInt(int64(p.YearsCounted))), exact.Percent)
 	}
-	p.Budget = baseline.Percent(exact.OfFloat(rule.Percent)).Mul(exact.FromInt(int64(total)))
+	p.Budget = derivedProduct(baseline.Percent(exact.OfFloat(rule.Percent)).Mul(exact.FromInt(int64(total))), unit)
 	p.RoomLeft = p.Budget.Sub(sum)
 	if p.YearsRemaining > 0 {
 		p.RoomPerYear = exact.Derive(p.RoomLeft, exact.FromInt(int64(p.YearsRemaining)), eu)
@@ -350,6 +350,13 @@ func plural(n int, word string) string {
 		return "1 " + word
 	}
 	return fmt.Sprintf("%d %ss", n, word)
+}
+
+// derivedProduct rounds a product of a baseline (a mean, itself rounded to the unit's
+// derived places) to those places: 1937674.666666667 × 60 % is 1162604.8, not
+// 1162604.8000000002, whose last digit only repeats the rounding of the mean.
+func derivedProduct(v exact.Decimal, u Unit) exact.Decimal {
+	return v.Round(u.Exact().Spec().DerivedPlaces)
 }
 
 // fmtAmount rounds for presentation only: 0.001 for tonnes and ODP tonnes, 1 for CO2-eq.
@@ -404,6 +411,6 @@ func (rb *Rulebook) AllowedLevel(records []Record, party Party, scope Scope, yea
 		return Level{}, fmt.Errorf("%w: %s %s: %s", ErrIncompleteBaseline, lv.Scope, b.AppliesTo, gapList(b.Missing))
 	}
 	lv.Baseline = &b
-	lv.Value = b.Value.Percent(lv.Percent)
+	lv.Value = derivedProduct(b.Value.Percent(lv.Percent), lv.Unit)
 	return lv, nil
 }

@@ -104,14 +104,14 @@ func (q QuotaPlanRequest) validate() (controls.Scope, []int, float64, float64, e
 		fraction = 1
 	}
 	if math.IsNaN(fraction) || fraction <= 0 || fraction > 1 {
-		vs = append(vs, FieldViolation{"fraction", fmt.Sprintf("is %v; accepted: a number above 0 and at most 1 (0 means 1)", q.Fraction)})
+		vs = append(vs, FieldViolation{"fraction_ratio", fmt.Sprintf("is %v; accepted: a decimal above 0 and at most 1 (absent means 1)", q.Fraction)})
 	}
 	gran := q.Granularity
 	if gran == 0 {
 		gran = DefaultQuotaGranularity
 	}
 	if math.IsNaN(gran) || math.IsInf(gran, 0) || gran <= 0 {
-		vs = append(vs, FieldViolation{"granularity", fmt.Sprintf("is %v; accepted: an amount above 0, e.g. 0.001 (0 means 0.001)", q.Granularity)})
+		vs = append(vs, FieldViolation{"granularity_amount", fmt.Sprintf("is %v; accepted: a decimal amount above 0, e.g. 0.001 (absent means 0.001)", q.Granularity)})
 	}
 	return scope, years, fraction, gran, invalid(vs...)
 }
@@ -276,7 +276,7 @@ func officialLevel(rb *controls.Rulebook, party controls.Party, scope controls.S
 	}
 	unit := string(lv.Unit)
 	if ov.Baseline != nil && lv.Percent.Sign() > 0 {
-		lv.Value = exact.OfFloat(ov.Baseline.Value).Percent(lv.Percent)
+		lv.Value = exact.OfFloat(ov.Baseline.Value).Percent(lv.Percent).Round(lv.Unit.Exact().Spec().DerivedPlaces)
 		lv.Notes = append(lv.Notes, fmt.Sprintf("baseline as officially set: %s %s (%s); the level is %s %% of it",
 			controls.FormatTonnes(ov.Baseline.Value), unit, ov.Baseline.Source, controls.FormatExact(lv.Percent)))
 	}

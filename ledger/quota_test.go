@@ -255,8 +255,8 @@ func TestPlanQuotasRefusesBadFields(t *testing.T) {
 	for _, v := range ie.Violations {
 		fields = append(fields, v.Field)
 	}
-	if got := strings.Join(fields, ","); got != "year,reference_years[1],fraction,granularity" {
-		t.Errorf("fields %s; want year,reference_years[1],fraction,granularity", got)
+	if got := strings.Join(fields, ","); got != "year,reference_years[1],fraction_ratio,granularity_amount" {
+		t.Errorf("fields %s; want year,reference_years[1],fraction_ratio,granularity_amount", got)
 	}
 	if _, err := cons.PlanQuotas(context.Background(), ledger.QuotaPlanRequest{AnnexGroup: "Z/IX"}); !errors.As(err, &ie) || ie.Violations[0].Field != "annex_group" {
 		t.Errorf("bad scope: %v; want annex_group named", err)

@@ -52,11 +52,11 @@ func dec(d exact.Decimal) string { return d.String() }
 // decIf writes a figure known only when known: "" (absent) otherwise.
 func decIf(d exact.Decimal, known bool) string { return exact.Wire(d, known) }
 
-// tonnesIn reads a request's figure named field (metric tonnes, or an amount in the
-// scope's unit) for the ledger, which checks its range: "" is 0. An unreadable, negative or
-// over-long figure adds a violation naming the field.
+// tonnesIn reads a request's figure named field (metric tonnes, an amount in the scope's
+// unit, a fraction) for the ledger, which checks its range and says what it accepts: "" is
+// 0. An unreadable or over-long figure adds a violation naming the field.
 func tonnesIn(field, s string, vs *[]fieldViolation) float64 {
-	_, f := figureIn(field, s, vs)
+	_, f := figureSigned(field, s, vs)
 	return f
 }
 

@@ -89,7 +89,7 @@ func TestReconcilePartnerExports(t *testing.T) {
 // GET /v1/partner-exports/{year}:reconcile (the registry is shipRegistry's, invented).
 func TestYearPathsOverHTTP(t *testing.T) {
 	_, base, httpClient := startHTTPTestServer(t)
-	for _, path := range []string{"/v1/year-reports/2025", "/v1/partner-exports/2025:reconcile?tolerance=0.1"} {
+	for _, path := range []string{"/v1/year-reports/2025", "/v1/partner-exports/2025:reconcile?tolerance_ratio=0.1"} {
 		resp, err := httpClient().Get(base + path)
 		if err != nil {
 			t.Fatal(err)

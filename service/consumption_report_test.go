@@ -125,7 +125,7 @@ func TestYearReportByHand(t *testing.T) {
 		for _, l := range ls {
 			m := l.ProtoReflect()
 			sections[name] = append(sections[name], m)
-			lineKey[m] = fmt.Sprintf("%s|%s|false", l.GetBasis(), l.GetSubstance())
+			lineKey[m] = fmt.Sprintf("%s|%s|false", strings.ReplaceAll(strings.ToLower(strings.TrimPrefix(l.GetBasis().String(), "QUANTITY_BASIS_")), "_", "-"), l.GetSubstance())
 		}
 	}
 	trade("import", rep.GetImports())

@@ -130,7 +130,8 @@ func runServer(tb testing.TB, url string, opts service.Options) (*service.Server
 			tb.Errorf("Serve did not return within 15 s of shutdown")
 		}
 	})
-	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	conn, err := grpc.NewClient(lis.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()),
+		grpc.WithChainUnaryInterceptor(scanFigures(tb)))
 	if err != nil {
 		tb.Fatalf("dial the test server: %v", err)
 	}
