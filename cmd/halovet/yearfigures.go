@@ -10,7 +10,6 @@ import (
 
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -42,12 +41,12 @@ FILE is one JSON object with any of the three arrays; field names as in the API
 (snake_case); "use" and "kind" take the words below. Amounts are in the scope's
 unit: ODP t for Annexes A to E, CO2-eq t for F (annex_group "F").
   {"official_figures": [{"figure_key": "XA-BASE-C/I", "kind": "baseline",
-     "annex_group": "C/I", "value": 12.5, "source": "Decision ..."}],
+     "annex_group": "C/I", "amount": "12.5", "source": "Decision ..."}],
    "exemptions": [{"exemption_key": "XA-CUE-2026", "year": 2026,
-     "annex_group": "E/I", "use": "critical", "amount": 1.2, "source": "Decision ..."}],
+     "annex_group": "E/I", "use": "critical", "amount": "1.2", "source": "Decision ..."}],
    "hfc23_entries": [{"entry_key": "PLANT-1-2026", "facility": "plant 1",
-     "year": 2026, "generated_tonnes": 12, "captured_used_tonnes": 2,
-     "destroyed_tonnes": 9, "emitted_tonnes": 1}]}
+     "year": 2026, "generated_tonnes": "12", "captured_used_tonnes": "2",
+     "destroyed_tonnes": "9", "emitted_tonnes": "1"}]}
 use: essential, critical (E/I only), laboratory, high-ambient-temperature (F only);
 kind: baseline (year 0) or limit (a year). country_code may be left out: the
 reporting Party.
@@ -88,7 +87,7 @@ func decodeItems[M proto.Message](where string, items []map[string]any, newMsg f
 			return nil, err
 		}
 		m := newMsg()
-		if err := protojson.Unmarshal(b, m); err != nil {
+		if err := unmarshalDialect(b, m); err != nil {
 			return nil, usageErr("%s[%d]: %v (see --help for the fields)", where, i, err)
 		}
 		out = append(out, m)
@@ -134,6 +133,7 @@ func storeYearFigures(ctx context.Context, conn *grpc.ClientConn, path string, w
 	var f yearFigureFile
 	dec := json.NewDecoder(strings.NewReader(string(raw)))
 	dec.DisallowUnknownFields()
+	dec.UseNumber() // figures keep the decimal they are written as
 	if err := dec.Decode(&f); err != nil {
 		return usageErr("%s: %v; the file is one JSON object with the arrays official_figures, exemptions, hfc23_entries (see --help)", path, err)
 	}
@@ -198,7 +198,7 @@ func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, outpu
 	}
 	tw := newTable(w)
 	fmt.Fprintf(tw, "Official figures (%d)\n", len(off.GetFigures()))
-	fmt.Fprintln(tw, "key\tParty\tkind\tgroup\tyear\tvalue\tunit\tsource\t")
+	fmt.Fprintln(tw, "key\tParty\tkind\tgroup\tyear\tamount\tunit\tsource\t")
 	for _, f := range off.GetFigures() {
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t\n", f.GetFigureKey(), f.GetCountryCode(), enumWord(f.GetKind().Descriptor(), f.GetKind().Number()),
 			f.GetAnnexGroup(), f.GetYear(), showAmount(f.GetAmount(), f.GetUnit()), unitText(f.GetUnit()), f.GetSource())
