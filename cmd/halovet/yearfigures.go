@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"fmt"
@@ -189,12 +190,7 @@ func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, outpu
 		return err
 	}
 	if output == "json" {
-		for _, m := range []proto.Message{off, ex, h23} {
-			if err := writeProtoJSON(w, m); err != nil {
-				return err
-			}
-		}
-		return nil
+		return writeYearFiguresJSON(w, off, ex, h23)
 	}
 	tw := newTable(w)
 	fmt.Fprintf(tw, "Official figures (%d)\n", len(off.GetFigures()))
@@ -219,5 +215,44 @@ func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, outpu
 		return err
 	}
 	_, err = io.WriteString(w, "\n"+reportFooter(nil))
+	return err
+}
+
+// writeYearFiguresJSON writes the three lists as one document in the command line's JSON
+// dialect, under the names the input file uses: {"official_figures": [...],
+// "exemptions": [...], "hfc23_entries": [...]}.
+func writeYearFiguresJSON(w io.Writer, off *halovetv1.ListOfficialFiguresResponse, ex *halovetv1.ListExemptionsResponse, h23 *halovetv1.ListHfc23EntriesResponse) error {
+	var b bytes.Buffer
+	b.WriteString("{\n")
+	parts := []struct {
+		name string
+		m    proto.Message
+	}{{"official_figures", off}, {"exemptions", ex}, {"hfc23_entries", h23}}
+	for i, p := range parts {
+		// Each answer has one field: its document is {"<field>": VALUE}; take VALUE and
+		// indent it one level deeper.
+		var one bytes.Buffer
+		if err := jsonDoc(&one, p.m); err != nil {
+			return err
+		}
+		doc := strings.TrimSpace(one.String())
+		_, value, ok := strings.Cut(doc, ": ")
+		if !ok {
+			return fmt.Errorf("year figures: unexpected JSON %q", doc)
+		}
+		value = strings.TrimSuffix(strings.TrimSpace(strings.TrimSuffix(value, "}")), "\n")
+		lines := strings.Split(value, "\n")
+		for j := 1; j < len(lines); j++ {
+			lines[j] = strings.TrimPrefix(lines[j], "  ")
+			lines[j] = "  " + lines[j]
+		}
+		fmt.Fprintf(&b, "  %q: %s", p.name, strings.Join(lines, "\n"))
+		if i < len(parts)-1 {
+			b.WriteByte(',')
+		}
+		b.WriteByte('\n')
+	}
+	b.WriteString("}\n")
+	_, err := w.Write(b.Bytes())
 	return err
 }
