@@ -61,4 +61,6 @@ func tonnesIn(field, s string, vs *[]fieldViolation) float64 {
 }
 
 // indexed names the field of the i-th element of a repeated request field.
-func indexed(list string, i int, field string) string { return fmt.Sprintf("%s[%d].%s", list, i, field) }
+func indexed(list string, i int, field string) string {
+	return fmt.Sprintf("%s[%d].%s", list, i, field)
+}

@@ -48,9 +48,6 @@ func showODP(s string) string { return shown(s, exact.ODPTonnes) }
 // showCO2e shows tonnes CO2-eq.
 func showCO2e(s string) string { return shown(s, exact.CO2eTonnes) }
 
-// showPercent shows a percentage.
-func showPercent(s string) string { return shown(s, exact.Percent) }
-
 // asIs is the CSV form of a wire figure: exactly as the server wrote it.
 func asIs(s string) string { return s }
 
