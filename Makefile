@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: fault-long help demo test generate lint breaking fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load bench-register chromium
+.PHONY: fault-long help demo test generate lint breaking breaking-release fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load bench-register chromium
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -69,6 +69,16 @@ lint: ## buf lint and buf format check of proto/
 
 breaking: ## buf breaking-change check of proto/ against the main branch (run on a topic branch)
 	$(BUF) breaking --against '.git#branch=main'
+
+# The previous release point CHANGELOG.md names; what buf breaking reports against it is
+# recorded there ("buf breaking against the previous release point").
+RELEASE_POINT ?= 0dac6b6
+breaking-release: ## buf breaking-change check of proto/ against RELEASE_POINT (the previous release point in CHANGELOG.md); offline, from git
+	@tmp=$$(mktemp -d); trap 'rm -rf "$$tmp"' EXIT; \
+	git archive $(RELEASE_POINT) buf.yaml proto $$(git ls-tree --name-only $(RELEASE_POINT) third_party) | tar -x -C "$$tmp"; \
+	$(BUF) build "$$tmp" --path "$$tmp/proto/halovet" -o "$$tmp/base.binpb"; \
+	$(BUF) build --path proto/halovet -o "$$tmp/current.binpb"; \
+	$(BUF) breaking "$$tmp/current.binpb" --against "$$tmp/base.binpb"
 
 unit:
 	$(GO) test -race -count=1 ./...

@@ -29,9 +29,11 @@ const (
 // Roles lists the roles a credential may carry, in the order tables show them.
 var Roles = []Role{RoleOfficer, RoleCustoms, RoleTrader, RoleAuditor, RoleReader}
 
-// ParseRole reads a role name (case-insensitive); the error says which names are accepted.
+// ParseRole reads a role name (case-insensitive; the wire name ROLE_OFFICER too); the error
+// says which names are accepted.
 func ParseRole(s string) (Role, error) {
-	r := Role(strings.ToLower(strings.TrimSpace(s)))
+	t := strings.ToLower(strings.TrimSpace(s))
+	r := Role(strings.TrimPrefix(t, "role_"))
 	for _, x := range Roles {
 		if r == x {
 			return r, nil

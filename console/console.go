@@ -20,6 +20,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 //go:embed templates/*.html
@@ -388,6 +389,8 @@ func (c *Console) parseTemplates() error {
 		"basis":            basisWord,
 		"fine":             fine,
 		"percent":          percent,
+		"quota":            quota,
+		"shareUsed":        shareUsed,
 		"lower":            strings.ToLower,
 		"join":             strings.Join,
 		"status":           statusWord,
@@ -410,6 +413,10 @@ func (c *Console) parseTemplates() error {
 		"reportQuantities": reportQuantities,
 		"exemptedUse":      exemptedUseWord,
 		"dir":              func(d halovetv1.Direction) string { return directionWords([]halovetv1.Direction{d}) },
+		"gwpSet":           wireterms.GWPSetWord,
+		"convention":       wireterms.GWPConventionWord,
+		"hsEdition":        wireterms.HSEditionWord,
+		"blendType":        wireterms.BlendTypeWord,
 	}
 	base, err := template.New("layout").Funcs(funcs).ParseFS(templateFS, "templates/layout.html")
 	if err != nil {

@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/console"
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -58,10 +59,17 @@ func TestSignInAndPages(t *testing.T) {
 	// 2×12.011 + 2×1.008 + 4×18.998).
 	p = c.get("/console/catalogue/entries/HFC-134a")
 	p.mustContain(t, "<dt>ODP</dt><dd>0</dd>", "102.03 g/mol", ">1430<")
+	// The wire enums read as words: the GWP set (IPCC AR4 WG1 Table 2.14: HFC-134a 1430) and
+	// the HS edition (WCO HS 2022: 2903.45), not GWP_SET_IPCC_AR4 or HS_EDITION_HS_2022.
+	p.mustContain(t, `<th scope="row">AR4</th>`, `<th scope="row">HS2022</th><td>2903.45</td>`)
 	// A blend: its composition (R-410A: HFC-32 50 % and HFC-125 50 %, ASHRAE 34) and its
 	// AR4 GWP 2087.5 (UK government CO2-eq table, testdata/reference/blends.csv).
 	p = c.get("/console/catalogue/entries/R-410A")
 	p.mustContain(t, "Composition", `href="/console/catalogue/entries/HFC-32"`, `href="/console/catalogue/entries/HFC-125"`, ">50<", ">2087.5<")
+	p.mustContain(t, "blend (zeotrope)", "<td>annex-f-only</td>")
+	if hit := regexp.MustCompile(`GWP_SET_|GWP_CONVENTION_|HS_EDITION_|BLEND_TYPE_`).FindString(p.body); hit != "" {
+		t.Errorf("R-410A page shows the enum name %q where a word belongs", hit)
+	}
 	if hit := regexp.MustCompile(`\d\.\d*0000000\d|\d\.\d*9999999\d`).FindString(p.body); hit != "" {
 		t.Errorf("R-410A page shows binary-float noise %q", hit)
 	}
@@ -111,12 +119,17 @@ func TestSignInAndPages(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := resp.GetLicence().GetQuotaLines()[0].GetAllocated(); p.code != 200 || got != 4.25 {
-		t.Errorf("amend: %d, line 1 allocated %v; want 4.25", p.code, got)
+	if got := resp.GetLicence().GetQuotaLines()[0].GetAllocatedAmount(); p.code != 200 || got != "4.25" {
+		t.Errorf("amend: %d, line 1 allocated_amount %q; want 4.25", p.code, got)
 	}
 	p = c.post("/console/licences/XA-IMP-2026-001/quota", url.Values{"csrf": {p.csrf(t)}, "line": {"1"}, "allocated": {"lots"}, "reason": {"console test"}})
 	if p.code != http.StatusBadRequest || !strings.Contains(p.body, "Nothing was changed") {
 		t.Errorf("amend with a bad figure: %d", p.code)
+	}
+	// A decimal comma is refused, not read as 425.
+	p = c.post("/console/licences/XA-IMP-2026-001/quota", url.Values{"csrf": {p.csrf(t)}, "line": {"1"}, "allocated": {"4,25"}, "reason": {"console test"}})
+	if p.code != http.StatusBadRequest || !strings.Contains(p.body, "no separators") {
+		t.Errorf("amend with a decimal comma: %d; want 400 saying a decimal with a point and no separators", p.code)
 	}
 
 	// Sign out: the session is gone on the server too.
@@ -185,7 +198,11 @@ func drawn(t *testing.T, h *harness, number string) float64 {
 	}
 	var sum float64
 	for _, q := range resp.GetLicence().GetQuotaLines() {
-		sum += q.GetDrawn()
+		d, err := exact.Parse(q.GetDrawnAmount())
+		if err != nil {
+			t.Fatalf("drawn_amount %q: %v", q.GetDrawnAmount(), err)
+		}
+		sum += d.Float64()
 	}
 	return sum
 }

@@ -90,3 +90,36 @@ func basisWord(b halovetv1.QuantityBasis) string {
 	}
 	return "unknown"
 }
+
+// quotaUnits are the display rows of the quota units.
+var quotaUnits = map[halovetv1.QuotaUnit]exact.Unit{
+	halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES: exact.Tonnes,
+	halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES:    exact.ODPTonnes,
+	halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES:   exact.CO2eTonnes,
+}
+
+// quota shows a quota amount (a decimal string in the line's unit u) rounded for u.
+func quota(s string, u halovetv1.QuotaUnit) string {
+	d, err := exact.Parse(s)
+	if err != nil {
+		return "—"
+	}
+	if row, ok := quotaUnits[u]; ok {
+		return d.Display(row)
+	}
+	return d.String()
+}
+
+// shareUsed shows drawn as a percentage of allocated with one decimal; "–" when nothing is
+// allocated.
+func shareUsed(drawn, allocated string) string {
+	a, err := exact.Parse(allocated)
+	if err != nil || a.IsZero() {
+		return "–"
+	}
+	d, err := exact.Parse(drawn)
+	if err != nil {
+		return "–"
+	}
+	return d.Shift(2).DivRound(a, 1).Fixed(1) + " %"
+}

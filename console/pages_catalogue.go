@@ -55,10 +55,10 @@ func (c *Console) entry(w http.ResponseWriter, r *http.Request, rq *request) {
 		c.callFailed(w, r, rq, "reading the catalogue entry "+des, err)
 		return
 	}
-	d := entryData{Substance: resp.GetEntry().GetSubstance(), Blend: resp.GetEntry().GetBlend()}
+	d := entryData{Substance: resp.GetSubstance(), Blend: resp.GetBlend()}
 	// The evaluation gives the safety cautions and a blend's GWPs; it is part of reading
 	// the entry (EvaluateMixture reads the same catalogue and changes nothing).
-	ev, err := c.catalogueClient().EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: des}})
+	ev, err := c.catalogueClient().EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{Blend: des})
 	if err != nil {
 		c.callFailed(w, r, rq, "evaluating "+des, err)
 		return

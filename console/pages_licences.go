@@ -2,10 +2,13 @@ package console
 
 import (
 	"fmt"
+	"html/template"
 	"net/http"
+	"net/url"
 	"strconv"
 	"strings"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/terms"
@@ -18,6 +21,26 @@ type licencesData struct {
 	Licences     []*halovetv1.Licence
 	CanOpen      bool
 	CompanyFixed bool
+	Next         template.URL // the next page; empty on the last
+	First        template.URL // the first page, when this is a later one
+}
+
+// licencePageSize is how many licences one page of the register shows.
+const licencePageSize = 50
+
+// readAllPageSize is the page size of the lists the console reads whole (a licence's
+// history, the Parties, the closed years): the largest the API takes.
+const readAllPageSize = 1000
+
+// query is the register's address with the given page token, its values encoded.
+func (d licencesData) query(page string) template.URL {
+	v := url.Values{}
+	for k, s := range map[string]string{"company": d.Company, "year": d.Year, "page": page} {
+		if s != "" && !(k == "company" && d.CompanyFixed) {
+			v.Set(k, s)
+		}
+	}
+	return template.URL("/console/licences?" + v.Encode())
 }
 
 // licences lists the register. A trader's credential sees its own company only, whatever
@@ -28,7 +51,7 @@ func (c *Console) licences(w http.ResponseWriter, r *http.Request, rq *request) 
 	if own := rq.id().Company; own != "" {
 		d.Company, d.OwnCompany, d.CompanyFixed = own, own, true
 	}
-	req := &halovetv1.ListLicencesRequest{CompanyId: d.Company}
+	req := &halovetv1.ListLicencesRequest{CompanyId: d.Company, PageSize: licencePageSize, PageToken: q.Get("page")}
 	if d.Year != "" {
 		y, err := strconv.Atoi(d.Year)
 		if err != nil || y < 1987 || y > 2200 {
@@ -47,6 +70,12 @@ func (c *Console) licences(w http.ResponseWriter, r *http.Request, rq *request) 
 			continue // the server's answer is filtered already; this keeps it so whatever it says
 		}
 		d.Licences = append(d.Licences, l)
+	}
+	if tok := resp.GetNextPageToken(); tok != "" {
+		d.Next = d.query(tok)
+	}
+	if q.Get("page") != "" {
+		d.First = d.query("")
 	}
 	c.render(w, r, rq.s, http.StatusOK, "licences", "Licence register", d)
 }
@@ -74,7 +103,8 @@ func (c *Console) licence(w http.ResponseWriter, r *http.Request, rq *request) {
 	}
 	d := licenceData{L: l, CanSetStatus: c.allowed(rq, rpcSetStatus), CanAmend: c.allowed(rq, rpcAmend), CanShipments: c.allowed(rq, rpcListShipments)}
 	if c.allowed(rq, rpcLicenceHistory) {
-		h, err := c.licensingClient().ListLicenceHistory(c.ctx(r, rq, rpcLicenceHistory), &halovetv1.ListLicenceHistoryRequest{LicenceNumber: l.GetLicenceNumber()})
+		h, err := halovetv1.ReadAllPages(c.ctx(r, rq, rpcLicenceHistory), c.licensingClient().ListLicenceHistory,
+			&halovetv1.ListLicenceHistoryRequest{LicenceNumber: l.GetLicenceNumber(), PageSize: readAllPageSize}, "events")
 		if err != nil {
 			c.callFailed(w, r, rq, "reading the history of licence "+l.GetLicenceNumber(), err)
 			return
@@ -177,10 +207,11 @@ func (c *Console) amendQuota(w http.ResponseWriter, r *http.Request, rq *request
 		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("line %q: give the quota line's number. Nothing was changed.", r.PostFormValue("line")))
 		return
 	}
-	raw := strings.ReplaceAll(strings.TrimSpace(r.PostFormValue("allocated")), ",", "")
-	alloc, err := strconv.ParseFloat(raw, 64)
-	if err != nil || alloc < 0 || alloc > 1e12 {
-		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("allocated %q: give the new allocation as a number of the line's unit, 0 or more (for example 4.25). Nothing was changed.", r.PostFormValue("allocated")))
+	// A plain decimal: a comma is refused rather than guessed (a decimal comma "4,25" and a
+	// thousands separator "1,500" read alike).
+	alloc, err := exact.Parse(strings.TrimSpace(r.PostFormValue("allocated")))
+	if err != nil || alloc.Sign() < 0 {
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", fmt.Sprintf("allocated %q: give the new allocation in the line's unit as a decimal 0 or more with a point and no separators (for example 4.25 or 1500). Nothing was changed.", r.PostFormValue("allocated")))
 		return
 	}
 	reason := strings.TrimSpace(r.PostFormValue("reason"))
@@ -195,7 +226,7 @@ func (c *Console) amendQuota(w http.ResponseWriter, r *http.Request, rq *request
 	found := false
 	for _, q := range l.GetQuotaLines() {
 		if int(q.GetLineNumber()) == line {
-			q.Allocated, found = alloc, true
+			q.AllocatedAmount, found = alloc.String(), true
 		}
 	}
 	if !found {

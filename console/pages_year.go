@@ -125,7 +125,8 @@ func (c *Console) year(w http.ResponseWriter, r *http.Request, rq *request) {
 		return
 	}
 	if c.allowed(rq, rpcClosedYears) {
-		cl, err := c.shipmentClient().ListClosedYears(c.ctx(r, rq, rpcClosedYears), &halovetv1.ListClosedYearsRequest{})
+		cl, err := halovetv1.ReadAllPages(c.ctx(r, rq, rpcClosedYears), c.shipmentClient().ListClosedYears,
+			&halovetv1.ListClosedYearsRequest{PageSize: readAllPageSize}, "closed_years")
 		if err != nil {
 			c.callFailed(w, r, rq, "reading the closed years", err)
 			return
@@ -177,7 +178,8 @@ func chartAlt(c chart.Compliance) string {
 }
 
 func (c *Console) partyName(r *http.Request, rq *request) (string, error) {
-	resp, err := c.licensingClient().ListParties(c.ctx(r, rq, rpcAssess), &halovetv1.ListPartiesRequest{})
+	resp, err := halovetv1.ReadAllPages(c.ctx(r, rq, rpcAssess), c.licensingClient().ListParties,
+		&halovetv1.ListPartiesRequest{PageSize: readAllPageSize}, "parties")
 	if err != nil {
 		return "", err
 	}

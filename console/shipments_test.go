@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -120,7 +121,11 @@ func TestShipmentsSearchOpenAndVoid(t *testing.T) {
 	}
 	var draws float64
 	for _, d := range got.GetShipment().GetDraws() {
-		draws += d.GetAmount()
+		a, err := exact.Parse(d.GetAmount())
+		if err != nil {
+			t.Fatalf("draw amount %q: %v", d.GetAmount(), err)
+		}
+		draws += a.Float64()
 	}
 	if draws == 0 {
 		t.Fatalf("T-CHC-1 draws nothing: %v", got.GetShipment().GetDraws())

@@ -74,6 +74,10 @@ func MustParse(s string) Decimal {
 // FromInt returns n.
 func FromInt(n int64) Decimal { return Decimal{decimal.NewFromInt(n)} }
 
+// Scaled returns coef × 10^exp exactly (a figure counted in scaled integers, such as the
+// register's billionths: Scaled(748000, -9) is 0.000748).
+func Scaled(coef int64, exp int32) Decimal { return Decimal{decimal.New(coef, exp)} }
+
 // FromFloat returns the shortest decimal that reads back as f (strconv's shortest
 // representation). A figure that was written as a decimal and stored in a float64 (the
 // catalogue's ODP 0.055, GWP 1430, share 44) comes back as exactly that decimal; a float

@@ -80,9 +80,9 @@ func register(t *testing.T) (*store.Store, *ledger.Consumption, func() *substanc
 func record(t *testing.T, st *store.Store, key, company string, tonnes float64) {
 	t.Helper()
 	odp := tonnes * 0.055 // HCFC-22 ODP: Montreal Protocol Annex C Group I
-	row := store.ShipmentRow{CompanyID: company, RecordKey: key, Fingerprint: "fp-" + key, Direction: "import",
+	row := store.ShipmentRow{CompanyID: company, RecordKey: key, Fingerprint: "fp-" + key, Direction: terms.DirectionImport,
 		PartnerCountry: "XC", DeclarationDate: time.Date(2025, 6, 1, 0, 0, 0, 0, time.UTC), ResolvedDesignation: "HCFC-22",
-		EntryKind: "substance", Purpose: "servicing", Condition: "virgin", RecordJSON: []byte(`{}`), CountsInConsumption: true,
+		EntryKind: "substance", Purpose: terms.PurposeServicing, Condition: terms.ConditionVirgin, RecordJSON: []byte(`{}`), CountsInConsumption: true,
 		NetMassKg: store.ToNano(tonnes * 1000), ODPTonnes: store.ToNano(odp),
 		Components: []store.ShipmentComponent{{Designation: "HCFC-22", AnnexGroup: "C/I", MassKg: store.ToNano(tonnes * 1000), ODPTonnes: store.ToNano(odp)}}}
 	if _, err := st.RecordShipments(context.Background(), []store.ShipmentRow{row}); err != nil {

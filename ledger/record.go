@@ -232,6 +232,9 @@ func (s *Shipments) judge(ctx context.Context, who Caller, pinned *PinnedBalance
 	}
 	if p.verdict.Outcome != validate.OutcomeRejected && !p.streamDup {
 		p.row, p.rowErr = shipmentRow(p.encoded, &p.rec, &p.verdict)
+		if p.lic != nil {
+			p.row.LicenceVersion = p.lic.Version // written only while the licence still stands so
+		}
 		p.row.VerdictOnStore = func(res RecordResult) []byte { return p.storedVerdict(s.codec, res) }
 	}
 	return p, nil
@@ -397,6 +400,7 @@ func (s *Shipments) commit(ctx context.Context, batch []*pendingRecord, left str
 		}
 	}
 	s.changed(ctx, Change{Licences: drawnOn})
+	var changedLics []string // licences changed after their records were judged
 	for i, r := range res {
 		p := idx[i]
 		switch r.Status {
@@ -417,14 +421,30 @@ func (s *Shipments) commit(ctx context.Context, batch []*pendingRecord, left str
 			p.verdict.Add(quotaShortFinding(p.lic, r, rows[i].Draws))
 		case RecordLicenceInactive:
 			p.verdict.Add(inactiveFinding(r, rows[i]))
+		case RecordLicenceChanged:
+			p.verdict.Add(changedFinding(r, rows[i]))
+			changedLics = append(changedLics, r.LicenceNumber)
 		case RecordYearClosed:
 			p.verdict.Add(findingFor(validate.CodeYearClosed, "declaration_date", fmt.Sprintf(
 				"reporting year %d is closed (since %s: %s); nothing declared in it is recorded until it is reopened",
 				r.Closed.Year, RFC3339(r.Closed.ClosedAt), r.Closed.Reason)))
 		}
 	}
+	if len(changedLics) > 0 {
+		// This replica judged on terms it had not yet caught up with: catch up now, so that
+		// the records sent again are judged on the licence as it stands.
+		s.changed(ctx, Change{Licences: changedLics})
+	}
 	left.follow(batch, idx, res)
 	return nil
+}
+
+// changedFinding is the LICENCE_CHANGED finding for a row judged on a licence that was
+// changed before the row could be written.
+func changedFinding(r RecordResult, row ShipmentRow) validate.Finding {
+	return findingFor(validate.CodeLicenceChanged, "licence_number", fmt.Sprintf(
+		"licence %s was changed (now %s) after this record was judged on its version %d, so nothing was recorded for it: send it again to have it judged on the licence as it now stands",
+		r.LicenceNumber, r.Detail, row.LicenceVersion))
 }
 
 // inactiveFinding is the LICENCE_INACTIVE finding for a row the register turned down.

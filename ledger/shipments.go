@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -73,14 +74,14 @@ type ShipmentRow struct {
 	CompanyID           string
 	RecordKey           string
 	Fingerprint         string
-	Direction           string
+	Direction           terms.Direction
 	LicenceNumber       string
 	PartnerCountry      string
 	DeclarationDate     time.Time
 	ResolvedDesignation string
 	EntryKind           string
-	Purpose             string
-	Condition           string
+	Purpose             terms.Purpose
+	Condition           terms.Condition
 	NetMassKg           Nano
 	ODPTonnes           Nano
 	CO2eTonnes          Nano
@@ -89,6 +90,9 @@ type ShipmentRow struct {
 	RecordJSON          []byte // the record as received, in the form the register keeps
 	Components          []ShipmentComponent
 	Draws               []Draw
+	// LicenceVersion is the version of the licence the row was judged against (0: none);
+	// the register writes the row only while the licence is still at that version.
+	LicenceVersion int
 	// VerdictOnStore gives the verdict to keep with the row once it is known to be stored
 	// (its result has the id, the time and the balances of its own draws), inside the
 	// transaction that stores it: the verdict kept is the one answered.
@@ -106,6 +110,7 @@ const (
 	RecordQuotaShort                              // a quota line has less left than the row draws
 	RecordLicenceInactive                         // the licence is not active (any more), or a line is gone
 	RecordYearClosed                              // the declaration date falls in a closed year
+	RecordLicenceChanged                          // the licence changed after the row was judged on it
 )
 
 // LineBalance is what was left on one quota line around one row's draw.
@@ -330,15 +335,19 @@ type ShipmentOptions struct {
 	FlushSize int
 	// Logger receives refresh failures; nil means slog.Default().
 	Logger *slog.Logger
+	// LookupsInFlight is how many queries for the stored keys of concurrent unary checks
+	// run at once; the calls arriving meanwhile share the next one. 0 means 2.
+	LookupsInFlight int
 }
 
 // Shipments runs the shipment workflows over a check environment and a register.
 type Shipments struct {
-	env   *EnvHolder
-	reg   ShipmentRegister
-	codec VerdictCodec
-	flush int
-	log   *slog.Logger
+	env    *EnvHolder
+	reg    ShipmentRegister
+	lookup *keyLookup // the unary checks' gathered stored-key lookups
+	codec  VerdictCodec
+	flush  int
+	log    *slog.Logger
 }
 
 // NewShipments returns the workflows over env and reg, keeping verdicts in codec's form.
@@ -349,7 +358,7 @@ func NewShipments(env *EnvHolder, reg ShipmentRegister, codec VerdictCodec, opts
 	if opts.Logger == nil {
 		opts.Logger = slog.Default()
 	}
-	return &Shipments{env: env, reg: reg, codec: codec, flush: opts.FlushSize, log: opts.Logger}
+	return &Shipments{env: env, reg: reg, lookup: newKeyLookup(reg, opts.LookupsInFlight), codec: codec, flush: opts.FlushSize, log: opts.Logger}
 }
 
 // FlushSize is how many records one recording transaction holds at most.
@@ -513,10 +522,10 @@ func shipmentRow(encode func() ([]byte, error), r *validate.Record, v *validate.
 	}
 	f := &v.Figures
 	row := ShipmentRow{CompanyID: strings.TrimSpace(r.CompanyID), RecordKey: strings.TrimSpace(r.Key),
-		Fingerprint: v.Fingerprint, Direction: r.Direction.String(), LicenceNumber: strings.TrimSpace(r.LicenceNumber),
+		Fingerprint: v.Fingerprint, Direction: r.Direction, LicenceNumber: strings.TrimSpace(r.LicenceNumber),
 		PartnerCountry: strings.ToUpper(strings.TrimSpace(r.PartnerCountry)), DeclarationDate: date,
-		ResolvedDesignation: f.Designation, EntryKind: kindText(f.Kind), Purpose: r.Purpose.String(),
-		Condition: r.Condition.String(), NetMassKg: ToNano(f.NetMassKg), ODPTonnes: ToNano(f.ODPTonnes),
+		ResolvedDesignation: f.Designation, EntryKind: kindText(f.Kind), Purpose: r.Purpose,
+		Condition: r.Condition, NetMassKg: ToNano(f.NetMassKg), ODPTonnes: ToNano(f.ODPTonnes),
 		CO2eTonnes: ToNano(f.CO2eTonnes), CountsInConsumption: f.CountsInConsumption,
 		PartnerNonParty: f.PartnerNonParty, RecordJSON: js}
 	for _, c := range f.Components {

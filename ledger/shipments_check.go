@@ -24,24 +24,26 @@ func (s *Shipments) CheckOne(ctx context.Context, who Caller, r validate.Record)
 	if err != nil {
 		return Answer{}, err
 	}
-	known, err := s.storedFor(ctx, one)
+	known, err := s.storedFor(ctx, s.lookup.StoredRecords, one)
 	if err != nil {
 		return Answer{}, err
 	}
 	if a, ok, err := known.answer(s.codec, 0, env, &one[0]); ok || err != nil {
 		return a, err
 	}
-	return Answer{Verdict: validate.Check(env, &one[0], validate.NewMemoryLedger())}, nil
+	// Not stored: nothing needs the record's fingerprint.
+	return Answer{Verdict: validate.CheckUnkeyed(env, &one[0], validate.NewMemoryLedger())}, nil
 }
 
 // storedRecords is what the register holds of the keys of the records of one check
 // message: every stored version, by the record's index.
 type storedRecords map[int][]StoredRef
 
-// storedFor looks up the stored versions of the records' company and key. A check
-// answers a record recorded already by what was recorded, and does not count its draws
-// again (they are in the balance already).
-func (s *Shipments) storedFor(ctx context.Context, recs []validate.Record) (storedRecords, error) {
+// storedFor looks up, with lookup, the stored versions of the records' company and key. A
+// check answers a record recorded already by what was recorded, and does not count its
+// draws again (they are in the balance already).
+func (s *Shipments) storedFor(ctx context.Context, lookup func(context.Context, [][2]string) (map[[2]string][]StoredRef, error),
+	recs []validate.Record) (storedRecords, error) {
 	var keys [][2]string
 	var at []int
 	for i := range recs {
@@ -55,7 +57,7 @@ func (s *Shipments) storedFor(ctx context.Context, recs []validate.Record) (stor
 	if len(keys) == 0 {
 		return nil, nil
 	}
-	m, err := s.reg.StoredRecords(ctx, keys)
+	m, err := lookup(ctx, keys)
 	if err != nil {
 		return nil, err
 	}
@@ -125,7 +127,15 @@ func (s *Shipments) CheckStream(ctx context.Context, who Caller, stream VerdictS
 		answers []Answer
 		single  bool
 	}
-	reqs := make(chan Message, 4)
+	// A message is received with the stored versions of its keys, looked up by the
+	// receiver (after the message arrived, while the checker works on the one before), so
+	// that the lookup's round trip is off the checker's path.
+	type received struct {
+		m       Message
+		known   storedRecords
+		lookErr error
+	}
+	reqs := make(chan received, 4)
 	answers := make(chan checked, 4)
 	var recvErr, sendErr error
 	recvFailed := make(chan error, 1) // recvErr, for the checker that stops on the cancel
@@ -143,8 +153,12 @@ func (s *Shipments) CheckStream(ctx context.Context, who Caller, stream VerdictS
 				}
 				return
 			}
+			r := received{m: m}
+			if m.Err == nil {
+				r.known, r.lookErr = s.storedFor(ctx, s.reg.StoredRecords, m.Records)
+			}
 			select {
-			case reqs <- m:
+			case reqs <- r:
 			case <-ctx.Done():
 				return
 			}
@@ -169,10 +183,10 @@ func (s *Shipments) CheckStream(ctx context.Context, who Caller, stream VerdictS
 	drained := false // the receiver has finished: the client closed its side, or Recv failed
 check:
 	for {
-		var m Message
+		var r received
 		var ok bool
 		select {
-		case m, ok = <-reqs:
+		case r, ok = <-reqs:
 		case <-ctx.Done():
 			break check
 		}
@@ -180,12 +194,17 @@ check:
 			drained = true
 			break
 		}
+		m := r.m
 		if m.Err != nil {
 			checkErr = m.Err
 			break
 		}
+		if r.lookErr != nil {
+			checkErr = r.lookErr
+			break
+		}
 		var out []Answer
-		if out, checkErr = s.checkMessage(ctx, who, batch, m); checkErr != nil {
+		if out, checkErr = s.checkMessage(ctx, who, batch, m, r.known); checkErr != nil {
 			break
 		}
 		for i := range out {
@@ -219,21 +238,18 @@ check:
 	return stream.Close(sum)
 }
 
-// checkMessage checks the records of one message against the register as it stands now.
+// checkMessage checks the records of one message against the register as it stands now;
+// known are the stored versions of its keys, looked up after the message arrived.
 // Records already recorded are answered by what was recorded; the others are checked on
 // every core (Batch.CheckAll: the same verdicts as one at a time; quota and keys are
 // settled in order).
-func (s *Shipments) checkMessage(ctx context.Context, who Caller, batch *validate.Batch, m Message) ([]Answer, error) {
+func (s *Shipments) checkMessage(ctx context.Context, who Caller, batch *validate.Batch, m Message, known storedRecords) ([]Answer, error) {
 	recs := m.Records
 	env, err := s.envFor(ctx, who, recs)
 	if err != nil {
 		return nil, err
 	}
 	batch.SetEnv(env)
-	known, err := s.storedFor(ctx, recs)
-	if err != nil {
-		return nil, err
-	}
 	out := make([]Answer, len(recs))
 	rs := make([]validate.Record, 0, len(recs))
 	at := make([]int, 0, len(recs))

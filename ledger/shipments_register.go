@@ -74,6 +74,9 @@ func (s *Shipments) CorrectShipment(ctx context.Context, who Caller, c Correctio
 		return Corrected{}, fmt.Errorf("%w: record %q: %v", ErrRecordRow, rec.Key, err)
 	}
 	lic, _ := env.Licence(strings.TrimSpace(rec.LicenceNumber))
+	if lic != nil {
+		row.LicenceVersion = lic.Version // written only while the licence still stands so
+	}
 	var answer Answer
 	row.VerdictOnStore = func(res RecordResult) []byte {
 		fv := v
@@ -93,6 +96,8 @@ func (s *Shipments) CorrectShipment(ctx context.Context, who Caller, c Correctio
 		return Corrected{}, refuse(Refused, Violation{"record.total_net_quantity", f.Code + ": " + f.Message + " (the old version's draws counted as given back)"})
 	case RecordLicenceInactive:
 		return Corrected{}, refuse(Refused, Violation{"record.licence_number", fmt.Sprintf("%s: licence %s is %s", validate.CodeLicenceInactive, res.LicenceNumber, res.Detail)})
+	case RecordLicenceChanged:
+		return Corrected{}, refuse(Refused, Violation{"record.licence_number", fmt.Sprintf("%s: licence %s was changed (now %s) while the correction was judged; send it again", validate.CodeLicenceChanged, res.LicenceNumber, res.Detail)})
 	case RecordYearClosed:
 		return Corrected{}, refuse(Refused, Violation{"record.declaration_date", fmt.Sprintf("%s: reporting year %d is closed (%s); reopen it first", validate.CodeYearClosed, res.Closed.Year, res.Closed.Reason)})
 	default:

@@ -6,7 +6,6 @@ import (
 	"fmt"
 
 	"github.com/jackc/pgx/v5"
-	"github.com/jackc/pgx/v5/pgconn"
 )
 
 // ErrInvalidDatabaseName reports a database name PostgreSQL cannot hold.
@@ -27,23 +26,25 @@ func EnsureDatabase(ctx context.Context, adminURL, name string) error {
 		return fmt.Errorf("pglocal: connect to create database %q: %w", name, err)
 	}
 	defer conn.Close(context.WithoutCancel(ctx))
-	var exists bool
-	if err := conn.QueryRow(ctx, "SELECT EXISTS (SELECT 1 FROM pg_database WHERE datname = $1)", name).Scan(&exists); err != nil {
-		return fmt.Errorf("pglocal: look up database %q: %w", name, err)
+	exists := func() (bool, error) {
+		var ok bool
+		err := conn.QueryRow(ctx, "SELECT EXISTS (SELECT 1 FROM pg_database WHERE datname = $1)", name).Scan(&ok)
+		return ok, err
 	}
-	if exists {
+	if ok, err := exists(); err != nil {
+		return fmt.Errorf("pglocal: look up database %q: %w", name, err)
+	} else if ok {
 		return nil
 	}
-	if _, err := conn.Exec(ctx, "CREATE DATABASE "+pgx.Identifier{name}.Sanitize()); err != nil && !isDuplicateDatabase(err) {
+	if _, err := conn.Exec(ctx, "CREATE DATABASE "+pgx.Identifier{name}.Sanitize()); err != nil {
+		// Another session may have created it meanwhile (CREATE DATABASE then fails on the
+		// unique name once that session commits): what counts is that it exists now. The
+		// error is not told apart by its code here; the store is the one place that reads
+		// SQLSTATE codes.
+		if ok, lerr := exists(); lerr == nil && ok {
+			return nil
+		}
 		return fmt.Errorf("pglocal: create database %q: %w", name, err)
 	}
 	return nil
-}
-
-// isDuplicateDatabase reports whether err says the database exists already: 42P04
-// duplicate_database, or 23505 unique_violation on pg_database when another session
-// created it concurrently.
-func isDuplicateDatabase(err error) bool {
-	var pgErr *pgconn.PgError
-	return errors.As(err, &pgErr) && (pgErr.Code == "42P04" || pgErr.Code == "23505")
 }

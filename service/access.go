@@ -10,6 +10,7 @@ import (
 
 	"github.com/halovet/halovet/access"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/store"
 )
 
@@ -20,7 +21,7 @@ type accessServer struct {
 }
 
 func credentialToProto(c store.StoredCredential) *halovetv1.Credential {
-	p := &halovetv1.Credential{CredentialId: c.ID, Name: c.Name, Role: string(c.Role), CompanyId: c.CompanyID,
+	p := &halovetv1.Credential{CredentialId: c.ID, Name: c.Name, Role: wireterms.RoleToWire(c.Role), CompanyId: c.CompanyID,
 		CreatedAt: timestamppb.New(c.CreatedAt), CreatedBy: c.CreatedBy, RevokedBy: c.RevokedBy}
 	if !c.ExpiresAt.IsZero() {
 		p.ExpiresAt = timestamppb.New(c.ExpiresAt)
@@ -37,9 +38,9 @@ func (a *accessServer) IssueCredential(ctx context.Context, req *halovetv1.Issue
 	if name == "" || len(name) > 200 {
 		vs = append(vs, fieldViolation{"name", "must be 1 to 200 characters naming the person or system, e.g. officer.a.ndiaye"})
 	}
-	role, err := access.ParseRole(req.GetRole())
-	if err != nil {
-		vs = append(vs, fieldViolation{"role", err.Error()})
+	role, ok := wireterms.RoleFromWire(req.GetRole())
+	if !ok || role == access.RoleAnonymous {
+		vs = append(vs, fieldViolation{"role", fmt.Sprintf("%v names no role; give ROLE_OFFICER, ROLE_CUSTOMS, ROLE_TRADER, ROLE_AUDITOR or ROLE_READER", req.GetRole())})
 	}
 	switch {
 	case role == access.RoleTrader && req.GetCompanyId() == "":
@@ -69,11 +70,21 @@ func (a *accessServer) IssueCredential(ctx context.Context, req *halovetv1.Issue
 }
 
 func (a *accessServer) ListCredentials(ctx context.Context, req *halovetv1.ListCredentialsRequest) (*halovetv1.ListCredentialsResponse, error) {
-	cs, err := a.srv.store.ListCredentials(ctx, req.GetIncludeRevoked())
+	pg, vs, err := a.srv.openPage(ctx, "credentials", req)
+	if err != nil {
+		return nil, toStatus(ctx, a.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	cs, err := a.srv.store.ListCredentialsPage(ctx, req.GetIncludeRevoked(), pg)
 	if err != nil {
 		return nil, toStatus(ctx, a.srv.log, err)
 	}
 	out := &halovetv1.ListCredentialsResponse{}
+	if cs, out.NextPageToken, err = closePage(ctx, a.srv, "credentials", req, pg, cs); err != nil {
+		return nil, toStatus(ctx, a.srv.log, err)
+	}
 	for _, c := range cs {
 		out.Credentials = append(out.Credentials, credentialToProto(c))
 	}
@@ -93,26 +104,7 @@ func (a *accessServer) RevokeCredential(ctx context.Context, req *halovetv1.Revo
 }
 
 func (a *accessServer) ListAuditEvents(ctx context.Context, req *halovetv1.ListAuditEventsRequest) (*halovetv1.ListAuditEventsResponse, error) {
-	var vs []fieldViolation
-	f := store.AuditFilter{Actor: req.GetActor(), Entity: req.GetObjectType(), EntityKey: req.GetObjectKey(), Limit: int(req.GetPageSize())}
-	if req.GetPageSize() < 0 || req.GetPageSize() > 1000 {
-		vs = append(vs, fieldViolation{"page_size", "accepted: 1 to 1000, or 0 for 100"})
-	}
-	if req.FromTime != nil {
-		if err := req.GetFromTime().CheckValid(); err != nil {
-			vs = append(vs, fieldViolation{"from_time", err.Error()})
-		}
-		f.From = req.GetFromTime().AsTime()
-	}
-	if req.ToTime != nil {
-		if err := req.GetToTime().CheckValid(); err != nil {
-			vs = append(vs, fieldViolation{"to_time", err.Error()})
-		}
-		f.To = req.GetToTime().AsTime()
-	}
-	if f.EntityKey != "" && f.Entity == "" {
-		vs = append(vs, fieldViolation{"object_key", "needs object_type as well"})
-	}
+	f, vs := auditFilter(req)
 	if t := req.GetPageToken(); t != "" {
 		n, err := a.srv.openPageToken(ctx, "audit", filterHash(req), t)
 		switch {
@@ -137,11 +129,41 @@ func (a *accessServer) ListAuditEvents(ctx context.Context, req *halovetv1.ListA
 		}
 	}
 	for _, e := range evs {
-		out.Events = append(out.Events, &halovetv1.AuditEvent{Seq: e.Seq, At: timestamppb.New(e.At), Actor: e.Actor,
-			CredentialId: e.CredentialID, RequestId: e.RequestID, Action: e.Action, ObjectType: e.Entity,
-			ObjectKey: e.EntityKey, Reason: e.Reason, DetailJson: string(e.Detail), HashHex: fmt.Sprintf("%x", e.Hash)})
+		out.Events = append(out.Events, auditEventToProto(e))
 	}
 	return out, nil
+}
+
+// auditFilter decodes the filters of a ListAuditEvents request, with a violation for each
+// bad field.
+func auditFilter(req *halovetv1.ListAuditEventsRequest) (store.AuditFilter, []fieldViolation) {
+	var vs []fieldViolation
+	f := store.AuditFilter{Actor: req.GetActor(), Entity: req.GetObjectType(), EntityKey: req.GetObjectKey(), Limit: int(req.GetPageSize())}
+	if req.GetPageSize() < 0 || req.GetPageSize() > 1000 {
+		vs = append(vs, fieldViolation{"page_size", "accepted: 1 to 1000, or 0 for 100"})
+	}
+	if req.FromTime != nil {
+		if err := req.GetFromTime().CheckValid(); err != nil {
+			vs = append(vs, fieldViolation{"from_time", err.Error()})
+		}
+		f.From = req.GetFromTime().AsTime()
+	}
+	if req.ToTime != nil {
+		if err := req.GetToTime().CheckValid(); err != nil {
+			vs = append(vs, fieldViolation{"to_time", err.Error()})
+		}
+		f.To = req.GetToTime().AsTime()
+	}
+	if f.EntityKey != "" && f.Entity == "" {
+		vs = append(vs, fieldViolation{"object_key", "needs object_type as well"})
+	}
+	return f, vs
+}
+
+func auditEventToProto(e store.AuditEvent) *halovetv1.AuditEvent {
+	return &halovetv1.AuditEvent{Seq: e.Seq, At: timestamppb.New(e.At), Actor: e.Actor,
+		CredentialId: e.CredentialID, RequestId: e.RequestID, Action: e.Action, ObjectType: e.Entity,
+		ObjectKey: e.EntityKey, Reason: e.Reason, DetailJson: string(e.Detail), HashHex: fmt.Sprintf("%x", e.Hash)}
 }
 
 func (a *accessServer) VerifyAuditChain(ctx context.Context, _ *halovetv1.VerifyAuditChainRequest) (*halovetv1.VerifyAuditChainResponse, error) {
@@ -149,7 +171,7 @@ func (a *accessServer) VerifyAuditChain(ctx context.Context, _ *halovetv1.Verify
 	if err != nil {
 		return nil, toStatus(ctx, a.srv.log, err)
 	}
-	out := &halovetv1.VerifyAuditChainResponse{Events: rep.Events, Intact: len(rep.Broken) == 0}
+	out := &halovetv1.VerifyAuditChainResponse{EventsChecked: rep.Events, Intact: len(rep.Broken) == 0}
 	for _, b := range rep.Broken {
 		out.Breaks = append(out.Breaks, &halovetv1.ChainBreak{Seq: b.Seq, Reason: b.Reason})
 	}

@@ -39,7 +39,7 @@ func (secretCreds) RequireTransportSecurity() bool { return false }
 // dialAs is a new connection to the server behind conn that presents secret.
 func dialAs(t *testing.T, conn *grpc.ClientConn, secret string) *grpc.ClientConn {
 	t.Helper()
-	c, err := grpc.NewClient(conn.Target(), grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(secretCreds(secret)))
+	c, err := grpc.NewClient(conn.Target(), append(noiseScan(t), grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(secretCreds(secret)))...)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -413,7 +413,7 @@ func TestAuditTrailOverTheAPI(t *testing.T) {
 		t.Fatalf("a made-up page token: %v; want InvalidArgument on page_token", err)
 	}
 	v, err := ac.VerifyAuditChain(ctx, &halovetv1.VerifyAuditChainRequest{})
-	if err != nil || !v.GetIntact() || v.GetEvents() != 4 { // the credential's issue + 3 companies
+	if err != nil || !v.GetIntact() || v.GetEventsChecked() != 4 { // the credential's issue + 3 companies
 		t.Fatalf("VerifyAuditChain: %v %v; want intact over 4 events", v, err)
 	}
 	if _, err := st.Pool().Exec(context.Background(), `ALTER TABLE audit_log DISABLE TRIGGER audit_log_no_update`); err != nil {
@@ -489,6 +489,38 @@ func TestOpenAccessIsListedInHealth(t *testing.T) {
 		_, listed := resp.GetStatuses()[service.OpenAccessHealthName]
 		if listed != (name == "open") {
 			t.Errorf("%s server: %s listed %v", name, service.OpenAccessHealthName, listed)
+		}
+	}
+}
+
+// TestIssueCredentialRole: the role is an enum; a credential issued as ROLE_AUDITOR lists as
+// ROLE_AUDITOR, and an unspecified or undeclared role is INVALID_ARGUMENT naming role.
+func TestIssueCredentialRole(t *testing.T) {
+	_, conn, st, _ := runSecuredServer(t, pgtest.NewDatabase(t, "halovet_service", migrateServiceDB), service.Options{})
+	ctx := withSecret(context.Background(), issueTestCredential(t, st, "officer.invented", access.RoleOfficer, ""))
+	ac := halovetv1.NewAccessServiceClient(conn)
+	resp, err := ac.IssueCredential(ctx, &halovetv1.IssueCredentialRequest{Name: "auditor.invented", Role: halovetv1.Role_ROLE_AUDITOR})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := resp.GetCredential().GetRole(); got != halovetv1.Role_ROLE_AUDITOR {
+		t.Errorf("issued credential role %v; want ROLE_AUDITOR", got)
+	}
+	list, err := ac.ListCredentials(ctx, &halovetv1.ListCredentialsRequest{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	roles := map[string]halovetv1.Role{}
+	for _, c := range list.GetCredentials() {
+		roles[c.GetName()] = c.GetRole()
+	}
+	if roles["auditor.invented"] != halovetv1.Role_ROLE_AUDITOR || roles["officer.invented"] != halovetv1.Role_ROLE_OFFICER {
+		t.Errorf("listed roles %v; want auditor.invented ROLE_AUDITOR, officer.invented ROLE_OFFICER", roles)
+	}
+	for _, r := range []halovetv1.Role{halovetv1.Role_ROLE_UNSPECIFIED, 99} {
+		_, err := ac.IssueCredential(ctx, &halovetv1.IssueCredentialRequest{Name: "nobody.invented", Role: r})
+		if status.Code(err) != codes.InvalidArgument || fieldOf(err) != "role" {
+			t.Errorf("role %v: %v (field %q); want INVALID_ARGUMENT naming role", r, err, fieldOf(err))
 		}
 	}
 }

@@ -27,7 +27,7 @@ func (a *analysisServer) AnalyseReading(_ context.Context, req *halovetv1.Analys
 		return nil, invalid(vs...)
 	}
 	an, err := a.srv.cat.Load().Analyse(r, substances.AnalysisOptions{
-		Declared: req.GetDeclared(), NetMass: mass, NearMisses: int(req.GetNearMisses())})
+		Declared: req.GetDeclared(), NetMass: mass, NearMisses: int(req.GetNearMissCount())})
 	if err != nil {
 		return nil, evaluationError(err)
 	}
@@ -59,7 +59,7 @@ var readingStates = map[substances.ReadingState]halovetv1.ReadingState{
 // JSON output, so both print the same fields).
 func AnalysisToProto(a *substances.Analysis) *halovetv1.AnalyseReadingResponse {
 	out := &halovetv1.AnalyseReadingResponse{NonCondensablePercent: stored(a.NonCondensablePct), NonCondensableNote: a.NonCondensableNote,
-		State: readingStates[a.State], Fitting: int32(a.Fitting), SetAside: a.SetAside, CleanFits: a.CleanFits,
+		State: readingStates[a.State], FittingCount: int32(a.Fitting), SetAside: a.SetAside, CleanFits: a.CleanFits,
 		DeclaredFits: a.DeclaredFits, Figures: componentsToProto(a.Figures.Components), OdpTonnes: a.Figures.Exact.ODPTonnes.String(),
 		Co2ETonnes: a.Figures.Exact.CO2eTonnes.String(), Summary: a.Summary, Cautions: a.Cautions}
 	for _, c := range a.Components {

@@ -52,7 +52,7 @@ func TestAnalyseReading(t *testing.T) {
 			t.Fatal(err)
 		}
 		var fits []string
-		for _, m := range resp.GetMatches()[:resp.GetFitting()] {
+		for _, m := range resp.GetMatches()[:resp.GetFittingCount()] {
 			fits = append(fits, m.GetDesignation())
 		}
 		if !slices.Contains(fits, "R-410A") || !slices.Contains(fits, "R-410B") {

@@ -54,8 +54,8 @@ func BenchmarkCheckShipmentHandler(b *testing.B) {
 		LicenceNumber: "XA-IMP-2026-801", CompanyId: "XA-8001", Directions: []halovetv1.Direction{halovetv1.Direction_DIRECTION_IMPORT},
 		ValidFrom: "2026-01-01", ValidTo: "2026-12-31",
 		QuotaLines: []*halovetv1.QuotaLine{
-			{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, Allocated: 1e9},
-			{LineNumber: 2, AnnexGroup: "F/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES, Allocated: 1e9}}}}); err != nil {
+			{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, AllocatedAmount: "1000000000"},
+			{LineNumber: 2, AnnexGroup: "F/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES, AllocatedAmount: "1000000000"}}}}); err != nil {
 		b.Fatal(err)
 	}
 	rd, err := validate.NewCSVReader(bytes.NewReader(benchBatchCSV()))

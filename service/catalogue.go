@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -17,10 +18,10 @@ func (c *catalogueServer) GetEntry(_ context.Context, req *halovetv1.GetEntryReq
 		return nil, invalid(fieldViolation{"designation", "must not be empty; give e.g. HCFC-22 or R-404A"})
 	}
 	if s, ok := cat.Substance(name); ok {
-		return &halovetv1.GetEntryResponse{Entry: &halovetv1.CatalogueEntry{Entry: &halovetv1.CatalogueEntry_Substance{Substance: substanceToProto(s)}}}, nil
+		return &halovetv1.GetEntryResponse{Kind: &halovetv1.GetEntryResponse_Substance{Substance: substanceToProto(s)}}, nil
 	}
 	if b, ok := cat.Blend(name); ok {
-		return &halovetv1.GetEntryResponse{Entry: &halovetv1.CatalogueEntry{Entry: &halovetv1.CatalogueEntry_Blend{Blend: blendToProto(b)}}}, nil
+		return &halovetv1.GetEntryResponse{Kind: &halovetv1.GetEntryResponse_Blend{Blend: blendToProto(b)}}, nil
 	}
 	msg := fmt.Sprintf("no catalogue entry is designated %q", name)
 	if r := cat.Resolve(name); len(r.Suggestions) > 0 {
@@ -40,9 +41,9 @@ func substanceToProto(s *substances.Substance) *halovetv1.Substance {
 	if m, ok := s.ExactMolarMass(); ok {
 		p.MolarMassGPerMol = m.String()
 	}
-	for _, set := range []substances.GWPSet{substances.SetProtocol, substances.SetAR4, substances.SetAR5, substances.SetAR6} {
+	for _, set := range substances.GWPSets() {
 		if v, ok := s.GWP[set]; ok {
-			p.Gwps = append(p.Gwps, &halovetv1.GwpValue{GwpSet: string(set), Gwp_100Yr: stored(v)})
+			p.Gwps = append(p.Gwps, &halovetv1.GwpValue{GwpSet: wireterms.GWPSetToWire(set), Gwp_100Yr: stored(v)})
 		}
 	}
 	for _, code := range s.HS2017 {
@@ -55,7 +56,7 @@ func substanceToProto(s *substances.Substance) *halovetv1.Substance {
 }
 
 func hsToProto(ed substances.HSEdition, code string) *halovetv1.HsCode {
-	h := &halovetv1.HsCode{Edition: string(ed), Subheading: code}
+	h := &halovetv1.HsCode{Edition: wireterms.HSEditionToWire(ed), Subheading: code}
 	if sub, ok := substances.LookupHS(ed, code); ok {
 		h.Shared = sub.Shared
 	}
@@ -63,7 +64,7 @@ func hsToProto(ed substances.HSEdition, code string) *halovetv1.HsCode {
 }
 
 func blendToProto(b *substances.Blend) *halovetv1.Blend {
-	p := &halovetv1.Blend{Designation: b.Designation, Synonyms: b.Synonyms, BlendType: b.Type,
+	p := &halovetv1.Blend{Designation: b.Designation, Synonyms: b.Synonyms, BlendType: wireterms.BlendTypeToWire(b.Type),
 		SafetyClass: b.SafetyClass, Sources: b.Sources}
 	// A blend whose components all have zero tolerances is one whose tolerances the
 	// catalogue does not record (the older azeotropes): they are absent, not "0".
@@ -111,22 +112,7 @@ func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEn
 		}
 		off = int(pos)
 	}
-	cat := c.srv.cat.Load()
-	var all []*halovetv1.CatalogueEntry
-	if f.kind != halovetv1.EntryKind_ENTRY_KIND_BLEND {
-		for _, s := range cat.Substances() {
-			if matchSubstance(s, f) {
-				all = append(all, &halovetv1.CatalogueEntry{Entry: &halovetv1.CatalogueEntry_Substance{Substance: substanceToProto(s)}})
-			}
-		}
-	}
-	if f.kind != halovetv1.EntryKind_ENTRY_KIND_SUBSTANCE {
-		for _, b := range cat.Blends() {
-			if matchBlend(cat, b, f) {
-				all = append(all, &halovetv1.CatalogueEntry{Entry: &halovetv1.CatalogueEntry_Blend{Blend: blendToProto(b)}})
-			}
-		}
-	}
+	all := matchingEntries(c.srv.cat.Load(), f)
 	resp := &halovetv1.ListEntriesResponse{TotalSize: int32(len(all))}
 	if off < len(all) {
 		end := min(off+size, len(all))
@@ -140,6 +126,27 @@ func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEn
 		}
 	}
 	return resp, nil
+}
+
+// matchingEntries is every entry of the catalogue the filter selects: substances, then
+// blends, each in catalogue order.
+func matchingEntries(cat *substances.Catalogue, f listFilter) []*halovetv1.CatalogueEntry {
+	var all []*halovetv1.CatalogueEntry
+	if f.kind != halovetv1.EntryKind_ENTRY_KIND_BLEND {
+		for _, s := range cat.Substances() {
+			if matchSubstance(s, f) {
+				all = append(all, &halovetv1.CatalogueEntry{Kind: &halovetv1.CatalogueEntry_Substance{Substance: substanceToProto(s)}})
+			}
+		}
+	}
+	if f.kind != halovetv1.EntryKind_ENTRY_KIND_SUBSTANCE {
+		for _, b := range cat.Blends() {
+			if matchBlend(cat, b, f) {
+				all = append(all, &halovetv1.CatalogueEntry{Kind: &halovetv1.CatalogueEntry_Blend{Blend: blendToProto(b)}})
+			}
+		}
+	}
+	return all
 }
 
 func containsText(text string, names ...string) bool {
@@ -249,31 +256,76 @@ func (c *catalogueServer) EvaluateMixture(_ context.Context, req *halovetv1.Eval
 	cat := c.srv.cat.Load()
 	var ev substances.Evaluation
 	var err error
-	switch x := req.GetMixture().(type) {
-	case *halovetv1.EvaluateMixtureRequest_Blend:
-		ev, err = cat.EvaluateExact(strings.TrimSpace(x.Blend), m)
-	case *halovetv1.EvaluateMixtureRequest_Composition:
-		shares := make([]substances.Share, len(x.Composition.GetShares()))
-		for i, s := range x.Composition.GetShares() {
-			field := fmt.Sprintf("composition.shares[%d].mass_percent", i)
-			if strings.TrimSpace(s.GetMassPercent()) == "" {
-				vs = append(vs, fieldViolation{field, "missing; give the mass percent as a decimal above 0 and at most 100, e.g. \"50\""})
-				continue
-			}
-			_, pct := figureIn(field, s.GetMassPercent(), &vs)
-			shares[i] = substances.Share{Identifier: s.GetIdentifier(), MassPct: pct}
-		}
+	blend, comp := strings.TrimSpace(req.GetBlend()), req.GetComposition()
+	switch {
+	case blend != "" && len(comp) > 0:
+		return nil, invalid(fieldViolation{"blend", "give blend or composition, not both"})
+	case blend != "":
+		ev, err = cat.EvaluateExact(blend, m)
+	case len(comp) > 0:
+		shares, vs := compositionFromProto(comp)
 		if len(vs) > 0 {
 			return nil, invalid(vs...)
 		}
 		ev, err = cat.EvaluateSharesExact(shares, m)
+		if err != nil {
+			return nil, compositionError(err)
+		}
 	default:
-		return nil, invalid(fieldViolation{"mixture", "give blend (e.g. R-410A) or composition (shares summing to 100 %)"})
+		return nil, invalid(fieldViolation{"blend", "give blend (e.g. R-410A) or composition (shares summing to 100 %)"})
 	}
 	if err != nil {
 		return nil, evaluationError(err)
 	}
 	return evaluationToProto(&ev), nil
+}
+
+// compositionFromProto decodes an ad-hoc composition, with a violation naming each bad
+// composition[i].mass_percent.
+func compositionFromProto(comp []*halovetv1.MixtureShare) ([]substances.Share, []fieldViolation) {
+	var vs []fieldViolation
+	shares := make([]substances.Share, len(comp))
+	for i, s := range comp {
+		field := fmt.Sprintf("composition[%d].mass_percent", i)
+		if strings.TrimSpace(s.GetMassPercent()) == "" {
+			vs = append(vs, fieldViolation{field, "missing; give the mass percent as a decimal above 0 and at most 100, e.g. \"50\""})
+			continue
+		}
+		_, pct := figureIn(field, s.GetMassPercent(), &vs)
+		shares[i] = substances.Share{Identifier: s.GetIdentifier(), MassPct: pct}
+	}
+	return shares, vs
+}
+
+// compositionWireField turns the catalogue's name of a share's field ("shares[1].identifier",
+// "shares[0].mass_pct") into the request's ("composition[1].identifier",
+// "composition[0].mass_percent").
+func compositionWireField(f string) string {
+	rest, ok := strings.CutPrefix(f, "shares[")
+	if !ok {
+		return f
+	}
+	f = "composition[" + rest
+	if g, ok := strings.CutSuffix(f, ".mass_pct"); ok {
+		f = g + ".mass_percent"
+	}
+	return f
+}
+
+// compositionError is evaluationError for an ad-hoc composition, naming the request's fields.
+func compositionError(err error) error {
+	var ie *substances.InputError
+	var ce *substances.CompositionError
+	var ide *substances.IdentifierError
+	switch {
+	case errors.As(err, &ide):
+		return invalid(fieldViolation{compositionWireField(ide.Field), strings.TrimPrefix(ide.Error(), ide.Field+": ")})
+	case errors.As(err, &ce):
+		return invalid(fieldViolation{"composition", ce.Error()})
+	case errors.As(err, &ie):
+		return invalid(fieldViolation{compositionWireField(ie.Field), ie.Reason})
+	}
+	return evaluationError(err)
 }
 
 // evaluationError maps the catalogue's input errors to InvalidArgument with the field.
@@ -285,7 +337,7 @@ func evaluationError(err error) error {
 	case errors.As(err, &ide):
 		return invalid(fieldViolation{ide.Field, strings.TrimPrefix(ide.Error(), ide.Field+": ")})
 	case errors.As(err, &ce):
-		return invalid(fieldViolation{"composition.shares", ce.Error()})
+		return invalid(fieldViolation{"composition", ce.Error()})
 	case errors.As(err, &ie):
 		return invalid(fieldViolation{ie.Field, ie.Reason})
 	}
@@ -301,7 +353,7 @@ func evaluationToProto(ev *substances.Evaluation) *halovetv1.EvaluateMixtureResp
 		OdpTonnes: ev.Exact.ODPTonnes.String(), Co2ETonnes: ev.Exact.CO2eTonnes.String(), SafetyClass: ev.SafetyClass, Cautions: ev.Cautions,
 		Hs2022Subheading: ev.HS2022, HsNote: ev.HSNote}
 	for _, g := range ev.GWPs {
-		out.Gwps = append(out.Gwps, &halovetv1.GwpFigure{GwpSet: string(g.Set), Convention: g.Convention, Gwp_100Yr: g.Value.String(), Complete: g.Complete})
+		out.Gwps = append(out.Gwps, &halovetv1.GwpFigure{GwpSet: wireterms.GWPSetToWire(g.Set), Convention: wireterms.GWPConventionToWire(g.Convention), Gwp_100Yr: g.Value.String(), Complete: g.Complete})
 	}
 	out.Components = componentsToProto(ev.Components)
 	return out

@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -111,11 +112,9 @@ func substanceFromProto(p *halovetv1.Substance) (substances.Substance, []fieldVi
 		s.CAS = cas
 	}
 	for i, g := range p.GetGwps() {
-		set := substances.GWPSet(g.GetGwpSet())
-		switch set {
-		case substances.SetProtocol, substances.SetAR4, substances.SetAR5, substances.SetAR6:
-		default:
-			vs = append(vs, fieldViolation{fmt.Sprintf("substance.gwps[%d].gwp_set", i), "must be MP, AR4, AR5 or AR6"})
+		set, ok := wireterms.GWPSetFromWire(g.GetGwpSet())
+		if !ok || set == "" {
+			vs = append(vs, fieldViolation{fmt.Sprintf("substance.gwps[%d].gwp_set", i), fmt.Sprintf("%v is not a GWP set; use GWP_SET_PROTOCOL_ANNEXES, GWP_SET_IPCC_AR4, GWP_SET_IPCC_AR5 or GWP_SET_IPCC_AR6", g.GetGwpSet())})
 		}
 		field := fmt.Sprintf("substance.gwps[%d].gwp_100yr", i)
 		if strings.TrimSpace(g.GetGwp_100Yr()) == "" {
@@ -123,19 +122,20 @@ func substanceFromProto(p *halovetv1.Substance) (substances.Substance, []fieldVi
 		}
 		_, s.GWP[set] = figureIn(field, g.GetGwp_100Yr(), &vs)
 	}
-	for _, h := range p.GetHsCodes() {
+	for i, h := range p.GetHsCodes() {
 		code, err := substances.NormalizeHS(h.GetSubheading())
 		if err != nil {
-			vs = append(vs, fieldViolation{"substance.hs_codes", err.Error()})
+			vs = append(vs, fieldViolation{fmt.Sprintf("substance.hs_codes[%d].subheading", i), err.Error()})
 			continue
 		}
-		switch h.GetEdition() {
-		case "HS2017":
+		ed, _ := wireterms.HSEditionFromWire(h.GetEdition())
+		switch ed {
+		case substances.HS2017:
 			s.HS2017 = append(s.HS2017, code)
-		case "HS2022":
+		case substances.HS2022:
 			s.HS2022 = append(s.HS2022, code)
 		default:
-			vs = append(vs, fieldViolation{"substance.hs_codes", "edition must be HS2017 or HS2022"})
+			vs = append(vs, fieldViolation{fmt.Sprintf("substance.hs_codes[%d].edition", i), fmt.Sprintf("%v is not an HS edition; use HS_EDITION_HS_2017 or HS_EDITION_HS_2022", h.GetEdition())})
 		}
 	}
 	return s, vs

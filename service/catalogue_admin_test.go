@@ -34,10 +34,10 @@ func catalogueAuditRows(t *testing.T, st *store.Store, designation string) int {
 func catalogueHFC134a(t *testing.T, client halovetv1.CatalogueServiceClient) *halovetv1.Substance {
 	t.Helper()
 	resp, err := client.GetEntry(context.Background(), &halovetv1.GetEntryRequest{Designation: "HFC-134a"})
-	if err != nil || resp.GetEntry().GetSubstance() == nil {
+	if err != nil || resp.GetSubstance() == nil {
 		t.Fatalf("GetEntry HFC-134a: %v (%v)", err, resp)
 	}
-	return resp.GetEntry().GetSubstance()
+	return resp.GetSubstance()
 }
 
 // The correction the tests make: HFC-134a's atmospheric lifetime as IPCC AR5 tabulates it,
@@ -131,6 +131,9 @@ func TestUpsertSubstanceRejects(t *testing.T) {
 		{"structure disagrees with formula", func(s *halovetv1.Substance) { s.Structure = "CH3CF3" }, "fix", "substance.structure"},
 		{"unknown Annex group", func(s *halovetv1.Substance) { s.AnnexGroup = "F/III" }, "fix", "substance.annex_group"},
 		{"no reason", func(*halovetv1.Substance) {}, " ", "reason"},
+		{"GWP without its set", func(s *halovetv1.Substance) { s.Gwps[0].GwpSet = halovetv1.GwpSet_GWP_SET_UNSPECIFIED }, "fix", "substance.gwps[0].gwp_set"},
+		{"GWP set no .proto declares", func(s *halovetv1.Substance) { s.Gwps[1].GwpSet = 99 }, "fix", "substance.gwps[1].gwp_set"},
+		{"HS code without its edition", func(s *halovetv1.Substance) { s.HsCodes[0].Edition = halovetv1.HsEdition_HS_EDITION_UNSPECIFIED }, "fix", "substance.hs_codes[0].edition"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {

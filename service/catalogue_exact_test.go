@@ -69,7 +69,7 @@ func TestCatalogueAnswersAreExact(t *testing.T) {
 		scan("ResolveIdentifier "+d, r)
 		for _, mass := range []string{"", "1", "13.6", "0.37", "1000"} {
 			ev, err := cat.EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{
-				Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: d}, NetMassKg: mass})
+				Blend: d, NetMassKg: mass})
 			if err != nil {
 				t.Fatalf("EvaluateMixture %s %s kg: %v", d, mass, err)
 			}
@@ -145,14 +145,13 @@ func TestEvaluateMixtureRejectsNonDecimalFigures(t *testing.T) {
 		{"exponent mass", "1e3", "100", "net_mass_kg"},
 		{"comma mass", "12,5", "100", "net_mass_kg"},
 		{"negative mass", "-1", "100", "net_mass_kg"},
-		{"share with exponent", "1", "1e2", "composition.shares[0].mass_percent"},
-		{"share missing", "1", "", "composition.shares[0].mass_percent"},
-		{"share with too many digits", "1", "99.99999999999999999", "composition.shares[0].mass_percent"},
+		{"share with exponent", "1", "1e2", "composition[0].mass_percent"},
+		{"share missing", "1", "", "composition[0].mass_percent"},
+		{"share with too many digits", "1", "99.99999999999999999", "composition[0].mass_percent"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			_, err := cat.EvaluateMixture(context.Background(), &halovetv1.EvaluateMixtureRequest{NetMassKg: tc.mass,
-				Mixture: &halovetv1.EvaluateMixtureRequest_Composition{Composition: &halovetv1.Composition{
-					Shares: []*halovetv1.MixtureShare{{Identifier: "HCFC-22", MassPercent: tc.pct}}}}})
+				Composition: []*halovetv1.MixtureShare{{Identifier: "HCFC-22", MassPercent: tc.pct}}})
 			if err == nil || !strings.Contains(err.Error(), tc.field) {
 				t.Errorf("error %v; want INVALID_ARGUMENT naming %s", err, tc.field)
 			}

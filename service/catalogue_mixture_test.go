@@ -31,7 +31,7 @@ func wireNum(t *testing.T, s string) float64 {
 }
 
 // catalogueGWPFigure finds a mixture GWP figure by set and convention.
-func catalogueGWPFigure(resp *halovetv1.EvaluateMixtureResponse, set, convention string) (*halovetv1.GwpFigure, bool) {
+func catalogueGWPFigure(resp *halovetv1.EvaluateMixtureResponse, set halovetv1.GwpSet, convention halovetv1.GwpConvention) (*halovetv1.GwpFigure, bool) {
 	for _, g := range resp.GetGwps() {
 		if g.GetGwpSet() == set && g.GetConvention() == convention {
 			return g, true
@@ -61,15 +61,15 @@ func TestEvaluateMixtureBlendGWP(t *testing.T) {
 	for _, tc := range cases {
 		t.Run(tc.blend, func(t *testing.T) {
 			resp, err := client.EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{
-				Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: tc.blend}, NetMassKg: "1000"})
+				Blend: tc.blend, NetMassKg: "1000"})
 			if err != nil {
 				t.Fatalf("EvaluateMixture %s: %v", tc.blend, err)
 			}
 			if resp.GetDesignation() != tc.blend {
 				t.Errorf("designation %q; want %s", resp.GetDesignation(), tc.blend)
 			}
-			for _, conv := range []string{"all-components", "annex-f-only"} {
-				g, ok := catalogueGWPFigure(resp, "AR4", conv)
+			for _, conv := range []halovetv1.GwpConvention{halovetv1.GwpConvention_GWP_CONVENTION_ALL_COMPONENTS, halovetv1.GwpConvention_GWP_CONVENTION_ANNEX_F_ONLY} {
+				g, ok := catalogueGWPFigure(resp, halovetv1.GwpSet_GWP_SET_IPCC_AR4, conv)
 				if !ok {
 					t.Fatalf("no AR4 %s figure in %v", conv, resp.GetGwps())
 				}
@@ -77,7 +77,7 @@ func TestEvaluateMixtureBlendGWP(t *testing.T) {
 					t.Errorf("AR4 %s GWP %v (complete %v); want it to round to %v, complete", conv, g.GetGwp_100Yr(), g.GetComplete(), tc.gwp)
 				}
 			}
-			mp, ok := catalogueGWPFigure(resp, "MP", "annex-f-only")
+			mp, ok := catalogueGWPFigure(resp, halovetv1.GwpSet_GWP_SET_PROTOCOL_ANNEXES, halovetv1.GwpConvention_GWP_CONVENTION_ANNEX_F_ONLY)
 			if !ok || roundHalfUp(wireNum(t, mp.GetGwp_100Yr())) != tc.gwp {
 				t.Errorf("Protocol (MP) annex-f-only GWP %v; want it to round to %v (Annex F values equal AR4)", mp.GetGwp_100Yr(), tc.gwp)
 			}
@@ -101,12 +101,12 @@ func TestEvaluateMixtureBlendGWP(t *testing.T) {
 
 	t.Run("ad-hoc 50/50 R-32/R-125 equals R-410A", func(t *testing.T) {
 		// source: ASHRAE 34 (reference blends.csv): R-410A is HFC-32/HFC-125 50/50.
-		resp, err := client.EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Composition{
-			Composition: &halovetv1.Composition{Shares: []*halovetv1.MixtureShare{{Identifier: "R-32", MassPercent: "50"}, {Identifier: "R-125", MassPercent: "50"}}}}})
+		resp, err := client.EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{
+			Composition: []*halovetv1.MixtureShare{{Identifier: "R-32", MassPercent: "50"}, {Identifier: "R-125", MassPercent: "50"}}})
 		if err != nil {
 			t.Fatalf("EvaluateMixture R-32:50,R-125:50: %v", err)
 		}
-		g, ok := catalogueGWPFigure(resp, "AR4", "annex-f-only")
+		g, ok := catalogueGWPFigure(resp, halovetv1.GwpSet_GWP_SET_IPCC_AR4, halovetv1.GwpConvention_GWP_CONVENTION_ANNEX_F_ONLY)
 		if resp.GetDesignation() != "custom" || !ok || roundHalfUp(wireNum(t, g.GetGwp_100Yr())) != 2088 {
 			t.Errorf("designation %q, AR4 annex-f-only %v; want custom and 2088 (as R-410A)", resp.GetDesignation(), g)
 		}
@@ -117,9 +117,8 @@ func TestEvaluateMixtureODPTonnes(t *testing.T) {
 	conn, _ := startTestServer(t)
 	client := halovetv1.NewCatalogueServiceClient(conn)
 	resp, err := client.EvaluateMixture(context.Background(), &halovetv1.EvaluateMixtureRequest{
-		Mixture: &halovetv1.EvaluateMixtureRequest_Composition{Composition: &halovetv1.Composition{
-			Shares: []*halovetv1.MixtureShare{{Identifier: "HCFC-141b", MassPercent: "100"}}}},
-		NetMassKg: "1000"})
+		Composition: []*halovetv1.MixtureShare{{Identifier: "HCFC-141b", MassPercent: "100"}},
+		NetMassKg:   "1000"})
 	if err != nil {
 		t.Fatalf("EvaluateMixture 1000 kg HCFC-141b: %v", err)
 	}
@@ -140,21 +139,23 @@ func TestEvaluateMixtureRejects(t *testing.T) {
 	conn, _ := startTestServer(t)
 	client := halovetv1.NewCatalogueServiceClient(conn)
 	ctx := context.Background()
-	shares := func(s ...*halovetv1.MixtureShare) *halovetv1.EvaluateMixtureRequest_Composition {
-		return &halovetv1.EvaluateMixtureRequest_Composition{Composition: &halovetv1.Composition{Shares: s}}
-	}
+	shares := func(s ...*halovetv1.MixtureShare) []*halovetv1.MixtureShare { return s }
 	cases := []struct {
 		name    string
 		req     *halovetv1.EvaluateMixtureRequest
 		message string // must occur in the status message
 	}{
-		{"shares summing to 99.5", &halovetv1.EvaluateMixtureRequest{Mixture: shares(
+		{"shares summing to 99.5", &halovetv1.EvaluateMixtureRequest{Composition: shares(
 			&halovetv1.MixtureShare{Identifier: "R-32", MassPercent: "50"}, &halovetv1.MixtureShare{Identifier: "R-125", MassPercent: "49.5"})}, "99.5"},
-		{"share naming an HS code", &halovetv1.EvaluateMixtureRequest{Mixture: shares(
+		{"share naming an HS code", &halovetv1.EvaluateMixtureRequest{Composition: shares(
 			&halovetv1.MixtureShare{Identifier: "2903.45", MassPercent: "100"})}, "2903.45"},
-		{"unknown blend", &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: "R-4O4A"}}, "R-404A"},
-		{"negative mass", &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: "R-410A"}, NetMassKg: "-1"}, "net_mass_kg"},
-		{"nothing to evaluate", &halovetv1.EvaluateMixtureRequest{}, "mixture"},
+		{"unknown blend", &halovetv1.EvaluateMixtureRequest{Blend: "R-4O4A"}, "R-404A"},
+		{"negative mass", &halovetv1.EvaluateMixtureRequest{Blend: "R-410A", NetMassKg: "-1"}, "net_mass_kg"},
+		{"nothing to evaluate", &halovetv1.EvaluateMixtureRequest{}, "blend"},
+		{"blend and composition", &halovetv1.EvaluateMixtureRequest{Blend: "R-410A", Composition: shares(
+			&halovetv1.MixtureShare{Identifier: "R-32", MassPercent: "100"})}, "not both"},
+		{"unknown component", &halovetv1.EvaluateMixtureRequest{Composition: shares(
+			&halovetv1.MixtureShare{Identifier: "R-32", MassPercent: "50"}, &halovetv1.MixtureShare{Identifier: "R-12S", MassPercent: "50"})}, "composition[1].identifier"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {

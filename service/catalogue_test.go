@@ -56,9 +56,9 @@ func TestGetEntry(t *testing.T) {
 		if err != nil {
 			t.Fatalf("GetEntry HCFC-22: %v", err)
 		}
-		s := resp.GetEntry().GetSubstance()
+		s := resp.GetSubstance()
 		if s == nil {
-			t.Fatalf("GetEntry HCFC-22 returned %v; want a substance", resp.GetEntry())
+			t.Fatalf("GetEntry HCFC-22 returned %v; want a substance", resp)
 		}
 		if s.GetDesignation() != "HCFC-22" || s.GetAnnexGroup() != "C/I" {
 			t.Errorf("designation %q group %q; want HCFC-22 in C/I", s.GetDesignation(), s.GetAnnexGroup())
@@ -72,18 +72,18 @@ func TestGetEntry(t *testing.T) {
 		if s.GetFormula() != "CHClF2" {
 			t.Errorf("formula %q; want CHClF2", s.GetFormula())
 		}
-		gwp := map[string]string{}
+		gwp := map[halovetv1.GwpSet]string{}
 		for _, g := range s.GetGwps() {
 			gwp[g.GetGwpSet()] = g.GetGwp_100Yr()
 		}
 		// source: Kigali Amendment, Annex C Group I GWP column: HCFC-22 1810;
 		// IPCC AR4 WG1 Table 2.14: 1810.
-		if gwp["MP"] != "1810" || gwp["AR4"] != "1810" {
+		if gwp[halovetv1.GwpSet_GWP_SET_PROTOCOL_ANNEXES] != "1810" || gwp[halovetv1.GwpSet_GWP_SET_IPCC_AR4] != "1810" {
 			t.Errorf("GWPs %v; want MP 1810 and AR4 1810", gwp)
 		}
 		var hs22 []string
 		for _, h := range s.GetHsCodes() {
-			if h.GetEdition() == "HS2022" {
+			if h.GetEdition() == halovetv1.HsEdition_HS_EDITION_HS_2022 {
 				hs22 = append(hs22, h.GetSubheading())
 			}
 		}
@@ -97,7 +97,7 @@ func TestGetEntry(t *testing.T) {
 		if err != nil {
 			t.Fatalf("GetEntry R-22: %v", err)
 		}
-		if got := resp.GetEntry().GetSubstance().GetDesignation(); got != "HCFC-22" {
+		if got := resp.GetSubstance().GetDesignation(); got != "HCFC-22" {
 			t.Errorf("GetEntry R-22 gave %q; want HCFC-22 (R-22 is its ASHRAE 34 number)", got)
 		}
 	})
@@ -107,9 +107,9 @@ func TestGetEntry(t *testing.T) {
 		if err != nil {
 			t.Fatalf("GetEntry r-404a: %v", err)
 		}
-		b := resp.GetEntry().GetBlend()
+		b := resp.GetBlend()
 		if b.GetDesignation() != "R-404A" {
-			t.Fatalf("GetEntry r-404a gave %v; want the blend R-404A", resp.GetEntry())
+			t.Fatalf("GetEntry r-404a gave %v; want the blend R-404A", resp)
 		}
 		// source: ASHRAE 34 (reference blends.csv): R-404A is HFC-125/143a/134a 44/52/4.
 		want := map[string]string{"HFC-125": "44", "HFC-143a": "52", "HFC-134a": "4"}

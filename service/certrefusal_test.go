@@ -229,7 +229,7 @@ func TestCertRefusalReasonsOverGRPC(t *testing.T) {
 	cs := startCertServer(t)
 	ctx := context.Background()
 	issue := func(c *grpc.ClientConn, name string) error {
-		_, err := halovetv1.NewAccessServiceClient(c).IssueCredential(ctx, &halovetv1.IssueCredentialRequest{Name: name, Role: "reader"})
+		_, err := halovetv1.NewAccessServiceClient(c).IssueCredential(ctx, &halovetv1.IssueCredentialRequest{Name: name, Role: halovetv1.Role_ROLE_READER})
 		return err
 	}
 	otherCA := newTestCA(t, "invented other CA")

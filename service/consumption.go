@@ -58,15 +58,25 @@ func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halo
 }
 
 func (c *consumptionServer) ListNationalEntries(ctx context.Context, req *halovetv1.ListNationalEntriesRequest) (*halovetv1.ListNationalEntriesResponse, error) {
+	pg, vs, err := c.srv.openPage(ctx, "national-entries", req)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
 	y := int(req.GetYear())
 	if y != 0 && (y < controls.MinYear || y > controls.MaxYear) {
-		return nil, invalid(fieldViolation{"year", fmt.Sprintf("is %d; accepted: 0 for every year, or a year from %d to %d", y, controls.MinYear, controls.MaxYear)})
+		vs = append([]fieldViolation{{"year", fmt.Sprintf("is %d; accepted: 0 for every year, or a year from %d to %d", y, controls.MinYear, controls.MaxYear)}}, vs...)
 	}
-	es, err := c.srv.store.ListNationalEntries(ctx, y)
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	es, err := c.srv.store.ListNationalEntriesPage(ctx, y, pg)
 	if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	out := &halovetv1.ListNationalEntriesResponse{}
+	if es, out.NextPageToken, err = closePage(ctx, c.srv, "national-entries", req, pg, es); err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
 	for _, e := range es {
 		out.Entries = append(out.Entries, entryToProto(e))
 	}

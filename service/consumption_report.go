@@ -57,17 +57,27 @@ func hfc23ToProto(e store.HFC23Entry, gwp float64) *halovetv1.Hfc23Entry {
 }
 
 func (c *consumptionServer) ListHfc23Entries(ctx context.Context, req *halovetv1.ListHfc23EntriesRequest) (*halovetv1.ListHfc23EntriesResponse, error) {
+	pg, vs, err := c.srv.openPage(ctx, "hfc23-entries", req)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
 	if y := req.GetYear(); y != 0 {
 		if v := checkQueryYear("year", y); v != nil {
-			return nil, invalid(*v)
+			vs = append([]fieldViolation{*v}, vs...)
 		}
 	}
-	es, err := c.srv.store.ListHFC23Entries(ctx, int(req.GetYear()))
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	es, err := c.srv.store.ListHFC23EntriesPage(ctx, int(req.GetYear()), pg)
 	if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	gwp := c.srv.hfc23GWP()
 	out := &halovetv1.ListHfc23EntriesResponse{}
+	if es, out.NextPageToken, err = closePage(ctx, c.srv, "hfc23-entries", req, pg, es); err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
 	for _, e := range es {
 		out.Entries = append(out.Entries, hfc23ToProto(e, gwp))
 	}

@@ -2,6 +2,7 @@ package service_test
 
 import (
 	"context"
+	"errors"
 	"math"
 	"strings"
 	"testing"
@@ -15,6 +16,7 @@ import (
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // Integration tests of ConsumptionService: the real server on loopback, a real gRPC
@@ -111,9 +113,15 @@ func consRecordFrom(t *testing.T, st *store.Store, partner string, ships ...cons
 		} else {
 			t.Fatalf("test data: %s is not in the catalogue", s.name)
 		}
-		row := store.ShipmentRow{CompanyID: s.company, RecordKey: s.key, Fingerprint: "fp-" + s.key, Direction: s.dir,
+		dir, err1 := terms.ParseDirection(s.dir)
+		purpose, err2 := terms.ParsePurpose(s.purpose)
+		cond, err3 := terms.ParseCondition(s.cond)
+		if err := errors.Join(err1, err2, err3); err != nil {
+			t.Fatalf("test data: %v", err)
+		}
+		row := store.ShipmentRow{CompanyID: s.company, RecordKey: s.key, Fingerprint: "fp-" + s.key, Direction: dir,
 			PartnerCountry: partner, DeclarationDate: time.Date(s.year, 6, 1, 0, 0, 0, 0, time.UTC), ResolvedDesignation: s.name,
-			EntryKind: kind, Purpose: s.purpose, Condition: s.cond, PartnerNonParty: s.nonParty, RecordJSON: []byte(`{}`)}
+			EntryKind: kind, Purpose: purpose, Condition: cond, PartnerNonParty: s.nonParty, RecordJSON: []byte(`{}`)}
 		for _, p := range parts {
 			tn := s.tonnes * p.pct / 100
 			co2 := 0.0
@@ -439,7 +447,7 @@ func TestConsumptionArticle5(t *testing.T) {
 			lq[0].GetAnnexGroup() != "C/I" || lq[0].GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES {
 			t.Errorf("draft %+v: want a DRAFT with one C/I line in ODP t", l.GetLicence())
 		}
-		consNear(t, "draft allocation", exact.OfFloat(lq[0].GetAllocated()).String(), wantQ[q.GetCompanyId()])
+		consNear(t, "draft allocation", lq[0].GetAllocatedAmount(), wantQ[q.GetCompanyId()])
 	}
 	if n := plan.GetProposals()[0].GetDraftLicenceNumber(); n != "CI-DRAFT-2026-XA-1001" {
 		t.Errorf("draft number %q, want CI-DRAFT-2026-XA-1001", n)
@@ -452,7 +460,7 @@ func TestConsumptionArticle5(t *testing.T) {
 	l, _ := lic.GetLicence(ctx, &halovetv1.GetLicenceRequest{LicenceNumber: "CI-DRAFT-2026-XA-1002"})
 	// Fraction 1: 2465.9375 units; XA-1002 exact 2465.9375 × 0.2585/1.9085 = 334.0; XA-1001 2131.93
 	// floors 2131 + 334 = 2465 = all whole units: XA-1002 keeps 0.334.
-	consNear(t, "re-planned draft", exact.OfFloat(l.GetLicence().GetQuotaLines()[0].GetAllocated()).String(), 0.334)
+	consNear(t, "re-planned draft", l.GetLicence().GetQuotaLines()[0].GetAllocatedAmount(), 0.334)
 }
 
 // TestConsumptionNonArticle5 is the worked example of a non-Article 5 Party: the HCFC

@@ -56,16 +56,26 @@ func exemptionToProto(e store.Exemption) *halovetv1.AuthorisedExemption {
 }
 
 func (c *consumptionServer) ListExemptions(ctx context.Context, req *halovetv1.ListExemptionsRequest) (*halovetv1.ListExemptionsResponse, error) {
+	pg, vs, err := c.srv.openPage(ctx, "exemptions", req)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
 	if y := req.GetYear(); y != 0 {
 		if v := checkQueryYear("year", y); v != nil {
-			return nil, invalid(*v)
+			vs = append([]fieldViolation{*v}, vs...)
 		}
 	}
-	es, err := c.srv.store.ListExemptions(ctx, int(req.GetYear()))
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	es, err := c.srv.store.ListExemptionsPage(ctx, int(req.GetYear()), pg)
 	if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	out := &halovetv1.ListExemptionsResponse{}
+	if es, out.NextPageToken, err = closePage(ctx, c.srv, "exemptions", req, pg, es); err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
 	for _, e := range es {
 		out.Exemptions = append(out.Exemptions, exemptionToProto(e))
 	}
@@ -98,12 +108,22 @@ func officialToProto(f store.OfficialFigure) *halovetv1.OfficialFigure {
 		Year: int32(f.Year), Amount: dec(exact.OfFloat(f.Value)), Unit: controlUnitProto(f.Unit), Source: f.Source}
 }
 
-func (c *consumptionServer) ListOfficialFigures(ctx context.Context, _ *halovetv1.ListOfficialFiguresRequest) (*halovetv1.ListOfficialFiguresResponse, error) {
-	fs, err := c.srv.store.ListOfficialFigures(ctx)
+func (c *consumptionServer) ListOfficialFigures(ctx context.Context, req *halovetv1.ListOfficialFiguresRequest) (*halovetv1.ListOfficialFiguresResponse, error) {
+	pg, vs, err := c.srv.openPage(ctx, "official-figures", req)
+	if err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	fs, err := c.srv.store.ListOfficialFiguresPage(ctx, pg)
 	if err != nil {
 		return nil, toStatus(ctx, c.srv.log, err)
 	}
 	out := &halovetv1.ListOfficialFiguresResponse{}
+	if fs, out.NextPageToken, err = closePage(ctx, c.srv, "official-figures", req, pg, fs); err != nil {
+		return nil, toStatus(ctx, c.srv.log, err)
+	}
 	for _, f := range fs {
 		out.Figures = append(out.Figures, officialToProto(f))
 	}

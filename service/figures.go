@@ -76,3 +76,17 @@ func wireFloat(s string) float64 {
 	}
 	return d.Float64()
 }
+
+// wireDecimal reads a figure of an answer (the CLI and the console reading the server's
+// verdicts): "" and a figure that is not a decimal are 0.
+func wireDecimal(s string) exact.Decimal {
+	d, ok, err := exact.ParseField("", s)
+	if err != nil || !ok {
+		return exact.Zero
+	}
+	return d
+}
+
+// nanoFigure writes an amount the register counts in billionths (store.Nano, ledger.Nano)
+// exactly: 748000 is "0.000748".
+func nanoFigure(n int64) string { return exact.Scaled(n, -9).String() }

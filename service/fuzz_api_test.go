@@ -65,7 +65,7 @@ func FuzzAPIMessages(f *testing.F) {
 		many = append(many, rec)
 	}
 	seed(1, &halovetv1.CheckShipmentBatchRequest{Records: many})
-	seed(2, &halovetv1.EvaluateMixtureRequest{Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: "R-404A"}, NetMassKg: "10"})
+	seed(2, &halovetv1.EvaluateMixtureRequest{Blend: "R-404A", NetMassKg: "10"})
 	seed(3, &halovetv1.ResolveIdentifierRequest{Identifier: "75-45-6"})
 	seed(4, &halovetv1.AnalyseReadingRequest{Components: []*halovetv1.MeasuredShare{{Identifier: "HCFC-22", MassPercent: "95"}}, NonCondensablePercent: "5"})
 	seed(5, &halovetv1.IssueLicenceRequest{Licence: &halovetv1.Licence{LicenceNumber: "XA-FZ-1", CompanyId: shipCompany}, Reason: "fuzz"})

@@ -262,3 +262,54 @@ func methodsOf(t *testing.T, service string) map[string]bool {
 	}
 	return out
 }
+
+// TestCatalogueOverHTTPHasNoDoubledWrapper reads an entry and evaluates a composition over
+// HTTP/JSON as README's curl lines do: the entry is at .substance (not .entry.entry), the
+// composition is a list of shares, and the enums read as their wire names.
+func TestCatalogueOverHTTPHasNoDoubledWrapper(t *testing.T) {
+	t.Parallel()
+	_, base, httpClient := startHTTPTestServer(t)
+	get := func(resp *http.Response, err error) map[string]any {
+		t.Helper()
+		if err != nil {
+			t.Fatal(err)
+		}
+		raw, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if resp.StatusCode != http.StatusOK {
+			t.Fatalf("status %d: %s", resp.StatusCode, raw)
+		}
+		var m map[string]any
+		if err := json.Unmarshal(raw, &m); err != nil {
+			t.Fatalf("%s: %v", raw, err)
+		}
+		return m
+	}
+	entry := get(httpClient().Get(base + "/v1/catalogue/entries/HCFC-22"))
+	sub, _ := entry["substance"].(map[string]any)
+	// source: Montreal Protocol Annex C Group I (HCFC-22, ODP 0.055).
+	if sub["designation"] != "HCFC-22" || sub["odp"] != "0.055" || entry["entry"] != nil {
+		t.Errorf("GET entry HCFC-22: %v; want {substance: {designation: HCFC-22, odp: 0.055}} and no entry wrapper", entry)
+	}
+	editions := map[any]bool{}
+	for _, h := range sub["hsCodes"].([]any) {
+		editions[h.(map[string]any)["edition"]] = true
+	}
+	if !editions["HS_EDITION_HS_2022"] || !editions["HS_EDITION_HS_2017"] {
+		t.Errorf("HCFC-22 HS editions %v; want HS_EDITION_HS_2017 and HS_EDITION_HS_2022", editions)
+	}
+	ev := get(httpClient().Post(base+"/v1/catalogue:evaluate", "application/json", strings.NewReader(
+		`{"composition":[{"identifier":"R-32","massPercent":"50"},{"identifier":"R-125","massPercent":"50"}],"netMassKg":"10"}`)))
+	found := false
+	for _, g := range ev["gwps"].([]any) {
+		g := g.(map[string]any)
+		// source: Kigali Amendment Annex F values (= IPCC AR4): HFC-32 675, HFC-125 3500;
+		// 0.5 × 675 + 0.5 × 3500 = 2087.5.
+		if g["gwpSet"] == "GWP_SET_PROTOCOL_ANNEXES" && g["convention"] == "GWP_CONVENTION_ANNEX_F_ONLY" {
+			found = g["gwp100yr"] == "2087.5"
+		}
+	}
+	if !found {
+		t.Errorf("evaluate R-32/R-125 50/50: gwps %v; want protocol-annexes annex-f-only 2087.5", ev["gwps"])
+	}
+}

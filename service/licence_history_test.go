@@ -129,7 +129,7 @@ func TestLicenceHistoryCallsRefuseBadInput(t *testing.T) {
 		c := &halovetv1.Licence{LicenceNumber: l.GetLicenceNumber(), CompanyId: l.GetCompanyId(), Directions: l.GetDirections(),
 			ValidFrom: l.GetValidFrom(), ValidTo: l.GetValidTo()}
 		for _, q := range l.GetQuotaLines() {
-			c.QuotaLines = append(c.QuotaLines, &halovetv1.QuotaLine{LineNumber: q.GetLineNumber(), AnnexGroup: q.GetAnnexGroup(), Unit: q.GetUnit(), Allocated: q.GetAllocated()})
+			c.QuotaLines = append(c.QuotaLines, &halovetv1.QuotaLine{LineNumber: q.GetLineNumber(), AnnexGroup: q.GetAnnexGroup(), Unit: q.GetUnit(), AllocatedAmount: q.GetAllocatedAmount()})
 		}
 		// The example: the C/I line with draws turned into an F/I line in CO2-eq t.
 		c.QuotaLines[0].AnnexGroup, c.QuotaLines[0].Unit = "F/I", halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES
@@ -137,7 +137,7 @@ func TestLicenceHistoryCallsRefuseBadInput(t *testing.T) {
 	}
 	goodLicence := func(n, company, validTo string) *halovetv1.Licence {
 		return &halovetv1.Licence{LicenceNumber: n, CompanyId: company, Directions: []halovetv1.Direction{halovetv1.Direction_DIRECTION_IMPORT},
-			ValidFrom: "2026-01-01", ValidTo: validTo, QuotaLines: []*halovetv1.QuotaLine{{AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, Allocated: 1}}}
+			ValidFrom: "2026-01-01", ValidTo: validTo, QuotaLines: []*halovetv1.QuotaLine{{AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, AllocatedAmount: "1"}}}
 	}
 	newParty := &halovetv1.Party{CountryCode: "XC", Name: "Cantoria (invented)", PartyType: halovetv1.PartyType_PARTY_TYPE_ARTICLE_5}
 	suspend := func(n, date string) *halovetv1.SetLicenceStatusRequest {
@@ -294,12 +294,12 @@ func TestLicenceHistoryCallsRefuseBadInput(t *testing.T) {
 
 	// Closing the line and opening another is the way to change what it counts.
 	closed, err := lic.CloseQuotaLine(ctx, &halovetv1.CloseQuotaLineRequest{LicenceNumber: shipLicence, LineNumber: 1, Reason: "counted in CO2-eq from now",
-		Successor: &halovetv1.QuotaLine{AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES, Allocated: 20}})
+		Successor: &halovetv1.QuotaLine{AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES, AllocatedAmount: "20"}})
 	if err != nil || closed.GetSuccessorLineNumber() != 3 {
 		t.Fatalf("close: %v %v", closed, err)
 	}
 	q := closed.GetLicence().GetQuotaLines()
-	if q[0].GetClosedOn() == "" || q[0].GetRemaining() != 0 || q[0].GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES || q[2].GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES {
+	if q[0].GetClosedOn() == "" || q[0].GetRemainingAmount() != "0" || q[0].GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES || q[2].GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES {
 		t.Fatalf("lines after closing: %v", q)
 	}
 	vs, _ := shipRecordCall(t, halovetv1.NewShipmentServiceClient(conn), shipRecord("drawn-2"))

@@ -3,7 +3,7 @@ package service
 import (
 	"context"
 	"fmt"
-	"math"
+	"github.com/halovet/halovet/exact"
 	"regexp"
 	"time"
 
@@ -77,12 +77,22 @@ func (l *licensingServer) GetParty(ctx context.Context, req *halovetv1.GetPartyR
 	return &halovetv1.GetPartyResponse{Party: partyToProto(p)}, nil
 }
 
-func (l *licensingServer) ListParties(ctx context.Context, _ *halovetv1.ListPartiesRequest) (*halovetv1.ListPartiesResponse, error) {
-	ps, err := l.srv.store.ListParties(ctx)
+func (l *licensingServer) ListParties(ctx context.Context, req *halovetv1.ListPartiesRequest) (*halovetv1.ListPartiesResponse, error) {
+	pg, vs, err := l.srv.openPage(ctx, "parties", req)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	ps, err := l.srv.store.ListPartiesPage(ctx, pg)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListPartiesResponse{}
+	if ps, out.NextPageToken, err = closePage(ctx, l.srv, "parties", req, pg, ps); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	for _, p := range ps {
 		out.Parties = append(out.Parties, partyToProto(p))
 	}
@@ -113,17 +123,27 @@ func companyFromProto(c *halovetv1.Company, prefix string) (store.Company, []fie
 	return store.Company{CompanyID: c.GetCompanyId(), Name: c.GetName(), CountryCode: c.GetCountryCode()}, vs
 }
 
-func (l *licensingServer) ListCompanies(ctx context.Context, _ *halovetv1.ListCompaniesRequest) (*halovetv1.ListCompaniesResponse, error) {
-	cs, err := l.srv.store.ListCompanies(ctx)
+func (l *licensingServer) ListCompanies(ctx context.Context, req *halovetv1.ListCompaniesRequest) (*halovetv1.ListCompaniesResponse, error) {
+	pg, vs, err := l.srv.openPage(ctx, "companies", req)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	only := ""
+	if own, scoped := callCompany(ctx); scoped {
+		only = own // a trader sees its own company only
+	}
+	cs, err := l.srv.store.ListCompaniesPage(ctx, only, pg)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListCompaniesResponse{}
-	own, scoped := callCompany(ctx)
+	if cs, out.NextPageToken, err = closePage(ctx, l.srv, "companies", req, pg, cs); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	for _, c := range cs {
-		if scoped && c.CompanyID != own {
-			continue // a trader sees its own company only
-		}
 		out.Companies = append(out.Companies, &halovetv1.Company{CompanyId: c.CompanyID, Name: c.Name, CountryCode: c.CountryCode})
 	}
 	return out, nil
@@ -199,7 +219,8 @@ func (l *licensingServer) licenceFromProto(p *halovetv1.Licence, issuing bool, p
 // quotaLineFromProto validates one quota line (field names start with f).
 func (l *licensingServer) quotaLineFromProto(q *halovetv1.QuotaLine, f string) (store.QuotaLine, []fieldViolation) {
 	var vs []fieldViolation
-	line := store.QuotaLine{LineNumber: int(q.GetLineNumber()), AnnexGroup: q.GetAnnexGroup(), Allocated: q.GetAllocated()}
+	line := store.QuotaLine{LineNumber: int(q.GetLineNumber()), AnnexGroup: q.GetAnnexGroup()}
+	line.Allocated = quotaAmountIn(f+".allocated_amount", q.GetAllocatedAmount(), &vs)
 	if q.GetLineNumber() < 0 {
 		vs = append(vs, fieldViolation{f + ".line_number", "must be 1 or more (0: numbered in order)"})
 	}
@@ -237,11 +258,31 @@ func (l *licensingServer) quotaLineFromProto(q *halovetv1.QuotaLine, f string) (
 		}
 		line.Purposes = append(line.Purposes, t)
 	}
-	if q.GetAllocated() < 0 || q.GetAllocated() > maxAllocation || math.IsNaN(q.GetAllocated()) {
-		vs = append(vs, fieldViolation{f + ".allocated", fmt.Sprintf("must be between 0 and %g in the line's unit", maxAllocation)})
-	}
 	return line, vs
 }
+
+// quotaAmountIn reads a request's quota amount named field: a decimal string, "" for 0,
+// not negative, at most maxAllocation and with at most 9 decimals (the register counts
+// quota in billionths and rounds nothing it is given).
+func quotaAmountIn(field, s string, vs *[]fieldViolation) float64 {
+	n := len(*vs)
+	d, f := figureIn(field, s, vs)
+	switch {
+	case len(*vs) > n:
+		return 0
+	case d.Cmp(exact.FromInt(maxAllocation)) > 0:
+		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s is above the largest quota amount; give 0 to %d in the line's unit", d, int64(maxAllocation))})
+		return 0
+	case !d.Round(9).Equal(d):
+		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s has more than 9 decimals; the register counts quota in billionths: give at most 9 decimals", d)})
+		return 0
+	}
+	return f
+}
+
+// quotaAmount writes a quota amount the register keeps in billionths (numeric(30, 9), read
+// as the float64 nearest to it) as its exact decimal.
+func quotaAmount(f float64) exact.Decimal { return exact.OfFloat(f).Round(9) }
 
 // licenceToProto converts a stored licence; status is its status on day today.
 func licenceToProto(l store.Licence, today time.Time) *halovetv1.Licence {
@@ -261,8 +302,9 @@ func licenceToProto(l store.Licence, today time.Time) *halovetv1.Licence {
 	}
 	for _, q := range l.QuotaLines {
 		p.QuotaLines = append(p.QuotaLines, &halovetv1.QuotaLine{LineNumber: int32(q.LineNumber), AnnexGroup: q.AnnexGroup,
-			Substance: q.Substance, Unit: wireterms.QuotaUnitToWire(q.Unit), Allocated: q.Allocated, Drawn: q.Drawn,
-			Remaining: q.Allocated - q.Drawn, Purposes: purposesToProto(q.Purposes), ClosedOn: dateOrEmpty(q.ClosedOn)})
+			Substance: q.Substance, Unit: wireterms.QuotaUnitToWire(q.Unit), AllocatedAmount: quotaAmount(q.Allocated).String(),
+			DrawnAmount: quotaAmount(q.Drawn).String(), RemainingAmount: quotaAmount(q.Allocated).Sub(quotaAmount(q.Drawn)).String(),
+			Purposes: purposesToProto(q.Purposes), ClosedOn: dateOrEmpty(q.ClosedOn)})
 	}
 	return p
 }
@@ -309,11 +351,21 @@ func (l *licensingServer) ListLicences(ctx context.Context, req *halovetv1.ListL
 		}
 		company = own // a trader's list is its own company's
 	}
-	ls, err := l.srv.store.ListLicences(ctx, company, int(req.GetYear()))
+	pg, vs, err := l.srv.openPage(ctx, "licences", req)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	ls, err := l.srv.store.ListLicencesPage(ctx, company, int(req.GetYear()), pg)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListLicencesResponse{}
+	if ls, out.NextPageToken, err = closePage(ctx, l.srv, "licences", req, pg, ls); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	today := l.srv.today()
 	for _, x := range ls {
 		out.Licences = append(out.Licences, licenceToProto(x, today))

@@ -176,8 +176,15 @@ func (l *licensingServer) CloseQuotaLine(ctx context.Context, req *halovetv1.Clo
 }
 
 func (l *licensingServer) ListLicenceHistory(ctx context.Context, req *halovetv1.ListLicenceHistoryRequest) (*halovetv1.ListLicenceHistoryResponse, error) {
+	pg, vs, err := l.srv.openPage(ctx, "licence-history", req)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	if req.GetLicenceNumber() == "" {
-		return nil, invalid(fieldViolation{"licence_number", "must not be empty"})
+		vs = append([]fieldViolation{{"licence_number", "must not be empty"}}, vs...)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	lic, err := l.srv.store.GetLicence(ctx, req.GetLicenceNumber())
 	if err != nil {
@@ -186,11 +193,14 @@ func (l *licensingServer) ListLicenceHistory(ctx context.Context, req *halovetv1
 	if own, scoped := callCompany(ctx); scoped && lic.CompanyID != own {
 		return nil, outOfScope("licence_number", lic.CompanyID, own)
 	}
-	evs, err := l.srv.store.LicenceHistory(ctx, req.GetLicenceNumber())
+	evs, err := l.srv.store.LicenceHistoryPage(ctx, req.GetLicenceNumber(), pg)
 	if err != nil {
 		return nil, toStatus(ctx, l.srv.log, err)
 	}
 	out := &halovetv1.ListLicenceHistoryResponse{StatusHistory: licenceToProto(lic, l.srv.today()).GetStatusHistory()}
+	if evs, out.NextPageToken, err = closePage(ctx, l.srv, "licence-history", req, pg, evs); err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
 	for _, e := range evs {
 		out.Events = append(out.Events, &halovetv1.LicenceEvent{EventId: e.ID, Kind: eventKindEnum[e.Kind],
 			EffectiveDate: e.EffectiveOn.Format(dateLayout), Status: wireterms.LicenceStatusToWire(e.Status), Reason: e.Reason,
@@ -227,6 +237,32 @@ var loadResultEnum = map[string]halovetv1.LoadResult{
 }
 
 func (l *licensingServer) LoadRegistry(ctx context.Context, req *halovetv1.LoadRegistryRequest) (*halovetv1.LoadRegistryResponse, error) {
+	load, vs := l.loadFromProto(req)
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	out, err := l.srv.store.LoadRegistry(ctx, load)
+	if err != nil {
+		return nil, toStatus(ctx, l.srv.log, err)
+	}
+	resp := &halovetv1.LoadRegistryResponse{DryRun: req.GetDryRun()}
+	var nums []string
+	for _, o := range out {
+		resp.Objects = append(resp.Objects, &halovetv1.LoadedObject{Kind: o.Kind, Key: o.Key, Index: int32(o.Index),
+			Result: loadResultEnum[o.Result], Changes: o.Changes})
+		if o.Kind == "licence" && o.Result != "unchanged" {
+			nums = append(nums, o.Key)
+		}
+	}
+	if !req.GetDryRun() {
+		l.srv.registerChanged(ctx, ledger.Change{Parties: len(req.GetParties()) > 0, Licences: nums})
+	}
+	return resp, nil
+}
+
+// loadFromProto decodes a LoadRegistry request into the store's load, with a violation for
+// each bad field (parties[i]…, companies[i]…, licences[i]…).
+func (l *licensingServer) loadFromProto(req *halovetv1.LoadRegistryRequest) (store.Load, []fieldViolation) {
 	vs := reasonProblems("reason", req.GetReason(), true)
 	if n := len(req.GetParties()) + len(req.GetCompanies()) + len(req.GetLicences()); n > maxLoadObjects {
 		vs = append(vs, fieldViolation{"licences", fmt.Sprintf("a load holds at most %d objects, not %d; split it", maxLoadObjects, n)})
@@ -255,24 +291,5 @@ func (l *licensingServer) LoadRegistry(ctx context.Context, req *halovetv1.LoadR
 		}
 		load.Licences = append(load.Licences, store.LoadLicence{Licence: lic, StatusEffectiveOn: eff})
 	}
-	if len(vs) > 0 {
-		return nil, invalid(vs...)
-	}
-	out, err := l.srv.store.LoadRegistry(ctx, load)
-	if err != nil {
-		return nil, toStatus(ctx, l.srv.log, err)
-	}
-	resp := &halovetv1.LoadRegistryResponse{DryRun: req.GetDryRun()}
-	var nums []string
-	for _, o := range out {
-		resp.Objects = append(resp.Objects, &halovetv1.LoadedObject{Kind: o.Kind, Key: o.Key, Index: int32(o.Index),
-			Result: loadResultEnum[o.Result], Changes: o.Changes})
-		if o.Kind == "licence" && o.Result != "unchanged" {
-			nums = append(nums, o.Key)
-		}
-	}
-	if !req.GetDryRun() {
-		l.srv.registerChanged(ctx, ledger.Change{Parties: len(req.GetParties()) > 0, Licences: nums})
-	}
-	return resp, nil
+	return load, vs
 }

@@ -41,8 +41,8 @@ func TestExportPartyStatusPerGroup(t *testing.T) {
 		LicenceNumber: exportLicence, CompanyId: shipCompany, Directions: []halovetv1.Direction{halovetv1.Direction_DIRECTION_EXPORT},
 		ValidFrom: "2026-01-01", ValidTo: "2026-12-31", Status: halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE,
 		QuotaLines: []*halovetv1.QuotaLine{
-			{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, Allocated: 1},
-			{LineNumber: 2, AnnexGroup: "F/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES, Allocated: 10000}}}}); err != nil {
+			{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, AllocatedAmount: "1"},
+			{LineNumber: 2, AnnexGroup: "F/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES, AllocatedAmount: "10000"}}}}); err != nil {
 		t.Fatal(err)
 	}
 	imp := shipRecord("PG-IMP")

@@ -22,8 +22,8 @@ func TestQuotaLineScopes(t *testing.T) {
 	l := &halovetv1.Licence{LicenceNumber: num, CompanyId: shipCompany, Directions: []halovetv1.Direction{halovetv1.Direction_DIRECTION_IMPORT},
 		ValidFrom: "2026-01-01", ValidTo: "2026-12-31", Status: halovetv1.LicenceStatus_LICENCE_STATUS_ACTIVE,
 		QuotaLines: []*halovetv1.QuotaLine{
-			{LineNumber: 1, AnnexGroup: "F", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES, Allocated: 10000},
-			{LineNumber: 2, AnnexGroup: "E/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES, Allocated: 0.5,
+			{LineNumber: 1, AnnexGroup: "F", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES, AllocatedAmount: "10000"},
+			{LineNumber: 2, AnnexGroup: "E/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES, AllocatedAmount: "0.5",
 				Purposes: []halovetv1.Purpose{halovetv1.Purpose_PURPOSE_CRITICAL_USE}}}}
 	if _, err := lic.IssueLicence(ctx, &halovetv1.IssueLicenceRequest{Licence: l, Reason: "test"}); err != nil {
 		t.Fatalf("IssueLicence: %v", err)
@@ -67,8 +67,8 @@ func TestQuotaLineScopes(t *testing.T) {
 	bad := &halovetv1.Licence{LicenceNumber: "XA-IMP-2026-311", CompanyId: shipCompany, Directions: []halovetv1.Direction{halovetv1.Direction_DIRECTION_IMPORT},
 		ValidFrom: "2026-01-01", ValidTo: "2026-12-31",
 		QuotaLines: []*halovetv1.QuotaLine{
-			{LineNumber: 1, AnnexGroup: "F", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, Allocated: 1},
-			{LineNumber: 2, AnnexGroup: "E/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES, Allocated: 1,
+			{LineNumber: 1, AnnexGroup: "F", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, AllocatedAmount: "1"},
+			{LineNumber: 2, AnnexGroup: "E/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES, AllocatedAmount: "1",
 				Purposes: []halovetv1.Purpose{halovetv1.Purpose_PURPOSE_UNSPECIFIED}}}}
 	_, err = lic.IssueLicence(ctx, &halovetv1.IssueLicenceRequest{Licence: bad, Reason: "test"})
 	if status.Code(err) != codes.InvalidArgument {

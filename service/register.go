@@ -87,7 +87,7 @@ func partyFromStore(p store.Party) (ledger.Party, error) {
 
 func toValidateLicence(l store.Licence) validate.Licence {
 	v := validate.Licence{Number: l.Number, CompanyID: l.CompanyID, ValidFrom: l.ValidFrom, ValidTo: l.ValidTo,
-		Status: l.Status}
+		Status: l.Status, Version: l.Version}
 	v.Directions = slices.Clone(l.Directions)
 	v.SpecialPurposes = slices.Clone(l.SpecialPurposes)
 	for _, q := range l.QuotaLines {

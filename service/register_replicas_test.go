@@ -90,7 +90,7 @@ func registerParties() []*halovetv1.Party {
 func registerLicence(dirs ...halovetv1.Direction) *halovetv1.Licence {
 	return &halovetv1.Licence{LicenceNumber: regLicence, CompanyId: regCompany, Directions: dirs,
 		ValidFrom: "2026-01-01", ValidTo: "2026-12-31",
-		QuotaLines: []*halovetv1.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, Allocated: 10}}}
+		QuotaLines: []*halovetv1.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES, AllocatedAmount: "10"}}}
 }
 
 // loadRegister writes the invented register through conn.

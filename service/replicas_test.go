@@ -56,7 +56,7 @@ const replicaRegistry = `{
   "licences": [
     {"licenceNumber": "XA-IMP-2026-901", "companyId": "XA-2001", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31",
      "status": "LICENCE_STATUS_ACTIVE",
-     "quotaLines": [{"lineNumber": 1, "annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocated": 0.7535}]}
+     "quotaLines": [{"lineNumber": 1, "annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocatedAmount": "0.7535"}]}
   ]
 }`
 

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"strings"
+	"sync/atomic"
 
 	"google.golang.org/protobuf/encoding/protojson"
 
@@ -40,21 +41,29 @@ func (x *shipmentServer) CheckShipment(ctx context.Context, req *halovetv1.Check
 func (x *shipmentServer) CheckShipments(stream halovetv1.ShipmentService_CheckShipmentsServer) error {
 	ctx := stream.Context()
 	in := &streamIn{srv: x.srv, ctx: ctx}
-	s := &wireStream{recv: func() (ledger.Message, error) {
+	s := &wireStream{}
+	s.recv = func() (ledger.Message, error) {
 		req, err := stream.Recv()
 		if err != nil {
 			return ledger.Message{}, err
 		}
+		if in.messages == 0 && !req.GetComponentFigures() {
+			// Read before the first message's records are handed on: the sender, which
+			// answers them, only reads it after that.
+			s.noComponents.Store(true)
+		}
 		return in.message(req.GetRecord(), req.GetRecords()), nil
-	}, send: func(vs []*halovetv1.Verdict, single bool) error {
+	}
+	s.send = func(vs []*halovetv1.Verdict, single bool) error {
 		resp := &halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Verdicts{Verdicts: &halovetv1.VerdictBatch{Verdicts: vs}}}
 		if single {
 			resp.Item = &halovetv1.CheckShipmentsResponse_Verdict{Verdict: vs[0]}
 		}
 		return stream.Send(resp)
-	}, close: func(sum *halovetv1.BatchSummary) error {
+	}
+	s.close = func(sum *halovetv1.BatchSummary) error {
 		return stream.Send(&halovetv1.CheckShipmentsResponse{Item: &halovetv1.CheckShipmentsResponse_Summary{Summary: sum}})
-	}}
+	}
 	return toStatus(ctx, x.srv.log, x.srv.ships.CheckStream(ctx, ledgerCaller(ctx), s))
 }
 
@@ -156,14 +165,18 @@ type wireStream struct {
 	recv  func() (ledger.Message, error)
 	send  func(vs []*halovetv1.Verdict, single bool) error
 	close func(*halovetv1.BatchSummary) error
+	// noComponents: the client did not ask for per-component figures
+	// (CheckShipmentsRequest.component_figures on the first message); they are left out.
+	noComponents atomic.Bool
 }
 
 func (s *wireStream) Recv() (ledger.Message, error) { return s.recv() }
 
 func (s *wireStream) Send(as []ledger.Answer, single bool) error {
 	vs := make([]*halovetv1.Verdict, len(as))
+	components := !s.noComponents.Load()
 	for i := range as {
-		vs[i] = answerToProto(&as[i])
+		vs[i] = answerToProtoWith(&as[i], components)
 	}
 	return s.send(vs, single)
 }
@@ -182,12 +195,19 @@ func requestRecords(one *halovetv1.ShipmentRecord, more []*halovetv1.ShipmentRec
 }
 
 // answerToProto is the wire verdict of a workflow's answer.
-func answerToProto(a *ledger.Answer) *halovetv1.Verdict {
+func answerToProto(a *ledger.Answer) *halovetv1.Verdict { return answerToProtoWith(a, true) }
+
+// answerToProtoWith is answerToProto, with the per-component figures only when components
+// is set.
+func answerToProtoWith(a *ledger.Answer, components bool) *halovetv1.Verdict {
 	v, kept := a.Kept.(*halovetv1.Verdict)
 	if kept && v != nil {
 		v.RecordKey, v.SourceLine = a.Verdict.RecordKey, a.Verdict.Line
+		if !components && v.Figures != nil {
+			v.Figures.Components = nil
+		}
 	} else {
-		v = verdictToProto(&a.Verdict)
+		v = verdictToProtoWith(&a.Verdict, components)
 	}
 	if a.Recorded {
 		v.Recorded = true

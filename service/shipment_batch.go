@@ -25,8 +25,9 @@ func (x *shipmentServer) CheckShipmentBatch(ctx context.Context, req *halovetv1.
 		return nil, err
 	}
 	s := &memStream[halovetv1.CheckShipmentsRequest, halovetv1.CheckShipmentsResponse]{
-		ctx:  ctx,
-		reqs: []*halovetv1.CheckShipmentsRequest{{Records: req.GetRecords()}},
+		ctx: ctx,
+		// The batch call's verdicts carry the per-component figures, as they always have.
+		reqs: []*halovetv1.CheckShipmentsRequest{{Records: req.GetRecords(), ComponentFigures: true}},
 	}
 	if err := x.CheckShipments(s); err != nil {
 		return nil, err

@@ -39,14 +39,21 @@ func batchRecords() []*halovetv1.ShipmentRecord {
 	return []*halovetv1.ShipmentRecord{first, second, third, replay, conflict, nonParty}
 }
 
-// checkStream sends recs in one CheckShipments message and returns verdicts and summary.
+// checkStream sends recs in one CheckShipments message, asking for the per-component
+// figures, and returns verdicts and summary.
 func checkStream(t *testing.T, client halovetv1.ShipmentServiceClient, recs []*halovetv1.ShipmentRecord) ([]*halovetv1.Verdict, *halovetv1.BatchSummary) {
+	t.Helper()
+	return checkStreamAsking(t, client, true, recs)
+}
+
+// checkStreamAsking is checkStream, with components as the stream's component_figures.
+func checkStreamAsking(t *testing.T, client halovetv1.ShipmentServiceClient, components bool, recs []*halovetv1.ShipmentRecord) ([]*halovetv1.Verdict, *halovetv1.BatchSummary) {
 	t.Helper()
 	stream, err := client.CheckShipments(context.Background())
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := stream.Send(&halovetv1.CheckShipmentsRequest{Records: recs}); err != nil {
+	if err := stream.Send(&halovetv1.CheckShipmentsRequest{Records: recs, ComponentFigures: components}); err != nil {
 		t.Fatal(err)
 	}
 	if err := stream.CloseSend(); err != nil {
@@ -240,5 +247,48 @@ func TestBatchCallLimits(t *testing.T) {
 	var n int
 	if err := st.Pool().QueryRow(context.Background(), `SELECT count(*) FROM shipments`).Scan(&n); err != nil || n != service.MaxRecordsPerBatchCall {
 		t.Errorf("stored %d shipments (err %v); want the %d of the one call within the maximum", n, err, service.MaxRecordsPerBatchCall)
+	}
+}
+
+// TestCheckStreamComponentFiguresWhenAsked: a check stream's verdicts carry the
+// per-component figures only when its first message asks for them
+// (component_figures); apart from them, the verdicts and the summary are the same. The
+// records are batchRecords' (HCFC-22, one component) and an R-404A import: 100 kg, 44/52/4
+// HFC-125/HFC-143a/HFC-134a by ASHRAE 34, three components.
+func TestCheckStreamComponentFiguresWhenAsked(t *testing.T) {
+	t.Parallel()
+	conn, _ := startTestServer(t)
+	shipRegistry(t, conn)
+	client := halovetv1.NewShipmentServiceClient(conn)
+	blend := shipRecord("B-7")
+	blend.Substance, blend.SourceLine = "R-404A", 8
+	recs := append(batchRecords(), blend)
+
+	asked, askedSum := checkStreamAsking(t, client, true, recs)
+	plain, plainSum := checkStreamAsking(t, client, false, recs)
+	if len(asked) != len(recs) || len(plain) != len(recs) {
+		t.Fatalf("%d and %d verdicts for %d records", len(asked), len(plain), len(recs))
+	}
+	for i := range recs {
+		if n := len(plain[i].GetFigures().GetComponents()); n != 0 {
+			t.Errorf("record %d, not asked: %d components; want none", i+1, n)
+		}
+		want := 1
+		if i == len(recs)-1 {
+			want = 3
+		}
+		if n := len(asked[i].GetFigures().GetComponents()); n != want {
+			t.Errorf("record %d, asked: %d components; want %d", i+1, n, want)
+		}
+		stripped := proto.Clone(asked[i]).(*halovetv1.Verdict)
+		if stripped.Figures != nil {
+			stripped.Figures.Components = nil
+		}
+		if !proto.Equal(stripped, plain[i]) {
+			t.Errorf("record %d: apart from the components, asked %v\n not asked %v", i+1, asked[i], plain[i])
+		}
+	}
+	if !proto.Equal(askedSum, plainSum) {
+		t.Errorf("summaries differ: asked %v, not asked %v", askedSum, plainSum)
 	}
 }

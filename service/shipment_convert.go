@@ -59,7 +59,11 @@ var outcomeProto = map[validate.Outcome]halovetv1.Outcome{
 	validate.OutcomeRejected:             halovetv1.Outcome_OUTCOME_REJECTED,
 }
 
-func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
+func verdictToProto(v *validate.Verdict) *halovetv1.Verdict { return verdictToProtoWith(v, true) }
+
+// verdictToProtoWith is verdictToProto, with the per-component figures only when
+// components is set.
+func verdictToProtoWith(v *validate.Verdict, components bool) *halovetv1.Verdict {
 	out := &halovetv1.Verdict{RecordKey: v.RecordKey, SourceLine: v.Line, Outcome: outcomeProto[v.Outcome],
 		Replayed: v.Replayed}
 	out.Findings = make([]*halovetv1.Finding, len(v.Findings))
@@ -68,19 +72,35 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict {
 	}
 	if v.Resolved {
 		f := &v.Figures
+		x := f.Exacts()
 		out.Figures = &halovetv1.ShipmentFigures{ResolvedDesignation: f.Designation, Kind: kindProto(f.Kind),
-			NetMassKg: f.NetMassKg, OdpTonnes: f.ODPTonnes, Co2ETonnes: f.CO2eTonnes,
-			Components: componentsToProto(f.Components), CountsInConsumption: f.CountsInConsumption,
-			SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+			NetMassKg: x.NetMassKg.String(), OdpTonnes: x.ODPTonnes.String(), Co2ETonnes: x.CO2eTonnes.String(),
+			CountsInConsumption: f.CountsInConsumption, SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+		if components {
+			out.Figures.Components = verdictComponents(f.Components, x.Components)
+		}
 		for _, g := range f.PartnerNotBoundGroups {
 			out.Figures.PartnerNotBoundGroups = append(out.Figures.PartnerNotBoundGroups, string(g))
 		}
 	}
 	for _, d := range v.Draws {
-		// Rounded to the store's resolution, so that a verdict answered now and the same
-		// verdict read back from the store agree to the bit.
+		// In the store's billionths, so that a verdict answered now and the same verdict
+		// read back from the store agree to the digit.
 		out.Draws = append(out.Draws, &halovetv1.QuotaDraw{LicenceNumber: d.LicenceNumber, LineNumber: int32(d.LineNumber),
-			Amount: store.ToNano(d.Amount).Float()})
+			Amount: nanoFigure(int64(store.ToNano(d.Amount)))})
+	}
+	return out
+}
+
+// verdictComponents writes a verdict's components with their exact figures xs (from
+// validate.Figures.Exacts, one per component).
+func verdictComponents(cs []substances.ComponentFigures, xs []substances.ComponentExact) []*halovetv1.ComponentFigures {
+	out := make([]*halovetv1.ComponentFigures, len(cs))
+	for i, c := range cs {
+		x := xs[i]
+		out[i] = &halovetv1.ComponentFigures{Designation: c.Designation, AnnexGroup: string(c.Group), MassPercent: x.MassPct.String(),
+			MassKg: x.MassKg.String(), Odp: x.ODP.String(), OdpTonnes: x.ODPTonnes.String(), Gwp_100YrProtocol: x.ProtocolGWP.String(),
+			Co2ETonnes: x.CO2eTonnes.String(), SafetyClass: c.SafetyClass}
 	}
 	return out
 }
@@ -135,9 +155,12 @@ func VerdictFromProto(p *halovetv1.Verdict) validate.Verdict {
 	}
 	if fg := p.GetFigures(); fg != nil {
 		v.Resolved = true
-		v.Figures = validate.Figures{Designation: fg.GetResolvedDesignation(), NetMassKg: fg.GetNetMassKg(),
-			ODPTonnes: fg.GetOdpTonnes(), CO2eTonnes: fg.GetCo2ETonnes(), CountsInConsumption: fg.GetCountsInConsumption(),
-			PartnerNonParty: fg.GetPartnerNonParty(), SafetyClass: fg.GetSafetyClass(), Cautions: cautionsFor(fg.GetSafetyClass())}
+		x := &validate.FiguresExact{NetMassKg: wireDecimal(fg.GetNetMassKg()), ODPTonnes: wireDecimal(fg.GetOdpTonnes()),
+			CO2eTonnes: wireDecimal(fg.GetCo2ETonnes())}
+		v.Figures = validate.Figures{Designation: fg.GetResolvedDesignation(), NetMassKg: x.NetMassKg.Float64(),
+			ODPTonnes: x.ODPTonnes.Float64(), CO2eTonnes: x.CO2eTonnes.Float64(), CountsInConsumption: fg.GetCountsInConsumption(),
+			PartnerNonParty: fg.GetPartnerNonParty(), SafetyClass: fg.GetSafetyClass(), Cautions: cautionsFor(fg.GetSafetyClass()),
+			Exact: x}
 		if fg.GetKind() == halovetv1.EntryKind_ENTRY_KIND_BLEND {
 			v.Figures.Kind = substances.KindBlend
 		} else {
@@ -147,7 +170,11 @@ func VerdictFromProto(p *halovetv1.Verdict) validate.Verdict {
 			v.Figures.Components = append(v.Figures.Components, substances.ComponentFigures{Designation: c.GetDesignation(),
 				Group: substances.Group(c.GetAnnexGroup()), MassPct: wireFloat(c.GetMassPercent()), MassKg: wireFloat(c.GetMassKg()), ODP: wireFloat(c.GetOdp()),
 				ODPTonnes: wireFloat(c.GetOdpTonnes()), ProtocolGWP: wireFloat(c.GetGwp_100YrProtocol()), CO2eTonnes: wireFloat(c.GetCo2ETonnes()), SafetyClass: c.GetSafetyClass()})
+			x.Components = append(x.Components, substances.ComponentExact{MassPct: wireDecimal(c.GetMassPercent()), MassKg: wireDecimal(c.GetMassKg()),
+				ODP: wireDecimal(c.GetOdp()), ODPTonnes: wireDecimal(c.GetOdpTonnes()), ProtocolGWP: wireDecimal(c.GetGwp_100YrProtocol()),
+				CO2eTonnes: wireDecimal(c.GetCo2ETonnes())})
 		}
+
 	}
 	return v
 }

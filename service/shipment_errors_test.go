@@ -64,7 +64,7 @@ func TestToStatusMapsTheWorkflowErrors(t *testing.T) {
 func TestRecordStatusMapping(t *testing.T) {
 	seen := map[ledger.RecordStatus]store.RecordStatus{}
 	for _, s := range []store.RecordStatus{store.RecordStored, store.RecordReplayed, store.RecordKeyConflict,
-		store.RecordQuotaShort, store.RecordLicenceInactive, store.RecordYearClosed} {
+		store.RecordQuotaShort, store.RecordLicenceInactive, store.RecordYearClosed, store.RecordLicenceChanged} {
 		l, ok := recordStatus[s]
 		if !ok || l == 0 {
 			t.Errorf("store status %d has no workflow status", s)

@@ -133,11 +133,18 @@ func recordedToProto(x *store.StoredShipment) (*halovetv1.RecordedShipment, erro
 	out := &halovetv1.RecordedShipment{ShipmentId: x.ID, State: stateProto[x.State], Version: int32(x.Version),
 		PreviousShipmentId: x.PreviousID, Record: rec, Verdict: v, RecordedAt: rfc3339(x.RecordedAt),
 		ChangedAt: rfc3339(x.ChangedAt), ChangeReason: x.ChangeReason, DeclarationDate: x.DeclarationDate.Format(dateLayout),
-		ResolvedDesignation: x.ResolvedDesignation, NetMassKg: x.NetMassKg.Float(), OdpTonnes: x.ODPTonnes.Float(),
-		Co2ETonnes: x.CO2eTonnes.Float(), CountsInConsumption: x.CountsInConsumption}
+		ResolvedDesignation: x.ResolvedDesignation, NetMassKg: nanoFigure(int64(x.NetMassKg)), OdpTonnes: nanoFigure(int64(x.ODPTonnes)),
+		Co2ETonnes: nanoFigure(int64(x.CO2eTonnes)), CountsInConsumption: x.CountsInConsumption}
+	if fg := v.GetFigures(); fg != nil && fg.NetMassKg == "" {
+		// A verdict stored before the figures were decimal strings keeps its doubles in
+		// reserved fields, which decode as unknown fields: its totals are read from the
+		// register's columns instead (exact to 9 decimals), its components' figures stay
+		// absent.
+		fg.NetMassKg, fg.OdpTonnes, fg.Co2ETonnes = out.NetMassKg, out.OdpTonnes, out.Co2ETonnes
+	}
 	for _, d := range x.Draws {
 		out.Draws = append(out.Draws, &halovetv1.QuotaDraw{LicenceNumber: d.LicenceNumber, LineNumber: int32(d.LineNumber),
-			Amount: d.Amount.Float(), Released: d.Released, ReleasedAt: rfc3339(d.ReleasedAt)})
+			Amount: nanoFigure(int64(d.Amount)), Released: d.Released, ReleasedAt: rfc3339(d.ReleasedAt)})
 	}
 	return out, nil
 }
@@ -200,21 +207,21 @@ func (s *Server) shipmentFilter(req *halovetv1.ListShipmentsRequest) (store.Ship
 	}
 	if d := req.GetDirection(); d != halovetv1.Direction_DIRECTION_UNSPECIFIED {
 		if t, ok := specified(wireterms.DirectionFromWire, d); ok {
-			f.Direction = t.String()
+			f.Direction = t
 		} else {
 			vs = append(vs, fieldViolation{"direction", fmt.Sprintf("%d is not a direction", d)})
 		}
 	}
 	if p := req.GetPurpose(); p != halovetv1.Purpose_PURPOSE_UNSPECIFIED {
 		if t, ok := specified(wireterms.PurposeFromWire, p); ok {
-			f.Purpose = t.String()
+			f.Purpose = t
 		} else {
 			vs = append(vs, fieldViolation{"purpose", fmt.Sprintf("%d is not a purpose", p)})
 		}
 	}
 	if c := req.GetCondition(); c != halovetv1.Condition_CONDITION_UNSPECIFIED {
 		if t, ok := specified(wireterms.ConditionFromWire, c); ok {
-			f.Condition = t.String()
+			f.Condition = t
 		} else {
 			vs = append(vs, fieldViolation{"condition", fmt.Sprintf("%d is not a condition", c)})
 		}
@@ -415,12 +422,22 @@ func (x *shipmentServer) ReopenYear(ctx context.Context, req *halovetv1.ReopenYe
 }
 
 // ListClosedYears lists the closed reporting years.
-func (x *shipmentServer) ListClosedYears(ctx context.Context, _ *halovetv1.ListClosedYearsRequest) (*halovetv1.ListClosedYearsResponse, error) {
-	cs, err := x.srv.store.ClosedYears(ctx)
+func (x *shipmentServer) ListClosedYears(ctx context.Context, req *halovetv1.ListClosedYearsRequest) (*halovetv1.ListClosedYearsResponse, error) {
+	pg, vs, err := x.srv.openPage(ctx, "closed-years", req)
+	if err != nil {
+		return nil, toStatus(ctx, x.srv.log, err)
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	cs, err := x.srv.store.ClosedYearsPage(ctx, pg)
 	if err != nil {
 		return nil, toStatus(ctx, x.srv.log, err)
 	}
 	out := &halovetv1.ListClosedYearsResponse{}
+	if cs, out.NextPageToken, err = closePage(ctx, x.srv, "closed-years", req, pg, cs); err != nil {
+		return nil, toStatus(ctx, x.srv.log, err)
+	}
 	for _, c := range cs {
 		out.ClosedYears = append(out.ClosedYears, closedYearToProto(c))
 	}

@@ -130,7 +130,7 @@ func TestShipmentLifecycleAPI(t *testing.T) {
 		if !proto.Equal(s.GetVerdict(), vs[1]) {
 			t.Errorf("stored verdict %v; want the one answered %v", s.GetVerdict(), vs[1])
 		}
-		if len(s.GetDraws()) != 1 || s.GetDraws()[0].GetAmount() != 0.11 || s.GetDraws()[0].GetReleased() || len(got.GetVersions()) != 1 {
+		if len(s.GetDraws()) != 1 || s.GetDraws()[0].GetAmount() != "0.11" || s.GetDraws()[0].GetReleased() || len(got.GetVersions()) != 1 {
 			t.Errorf("draws %v versions %d; want one draw of 0.11 ODP t, one version", s.GetDraws(), len(got.GetVersions()))
 		}
 		_, err = client.GetShipment(ctx, &halovetv1.GetShipmentRequest{ShipmentId: 987654})

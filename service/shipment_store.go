@@ -119,7 +119,8 @@ func rowToStore(r *ledger.ShipmentRow) store.ShipmentRow {
 		LicenceNumber: r.LicenceNumber, PartnerCountry: r.PartnerCountry, DeclarationDate: r.DeclarationDate,
 		ResolvedDesignation: r.ResolvedDesignation, EntryKind: r.EntryKind, Purpose: r.Purpose, Condition: r.Condition,
 		NetMassKg: store.Nano(r.NetMassKg), ODPTonnes: store.Nano(r.ODPTonnes), CO2eTonnes: store.Nano(r.CO2eTonnes),
-		CountsInConsumption: r.CountsInConsumption, PartnerNonParty: r.PartnerNonParty, RecordJSON: r.RecordJSON}
+		CountsInConsumption: r.CountsInConsumption, PartnerNonParty: r.PartnerNonParty, RecordJSON: r.RecordJSON,
+		LicenceVersion: r.LicenceVersion}
 	for _, c := range r.Components {
 		s.Components = append(s.Components, store.ShipmentComponent{Designation: c.Designation, AnnexGroup: c.AnnexGroup,
 			MassKg: store.Nano(c.MassKg), ODPTonnes: store.Nano(c.ODPTonnes), CO2eTonnes: store.Nano(c.CO2eTonnes), PartnerNonParty: c.PartnerNonParty})
@@ -159,4 +160,5 @@ var recordStatus = map[store.RecordStatus]ledger.RecordStatus{
 	store.RecordQuotaShort:      ledger.RecordQuotaShort,
 	store.RecordLicenceInactive: ledger.RecordLicenceInactive,
 	store.RecordYearClosed:      ledger.RecordYearClosed,
+	store.RecordLicenceChanged:  ledger.RecordLicenceChanged,
 }

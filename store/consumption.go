@@ -134,11 +134,16 @@ func (r Reader) CompanyImports(ctx context.Context, groups []string, unit terms.
 	default:
 		return nil, fmt.Errorf("company imports: unit %q; accepted: metric-t, odp-t, co2e-t", unit)
 	}
-	rows, err := r.q.Query(ctx, `SELECT s.company_id, s.year, sum(`+expr+`)::float8
-	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
-	    WHERE s.direction = 'import' AND s.counts_in_consumption AND s.state = 'live'
-	      AND c.annex_group = ANY($1) AND s.year = ANY($2)
-	    GROUP BY s.company_id, s.year ORDER BY s.company_id, s.year`, groups, intsOrNil(years))
+	// The components are unnested from the rows scanned (migration 13), not joined back
+	// through the shipment_components view: one scan of the register, no hash join.
+	rows, err := r.q.Query(ctx, `SELECT company_id, year, sum(`+expr+`)::float8
+	    FROM (SELECT s.company_id, s.year, unnest(s.component_annex_groups) AS annex_group,
+	            unnest(s.component_mass_kg) AS mass_kg, unnest(s.component_odp_tonnes) AS odp_tonnes,
+	            unnest(s.component_co2e_tonnes) AS co2e_tonnes
+	        FROM shipments s
+	        WHERE s.direction = 'import' AND s.counts_in_consumption AND s.state = 'live' AND s.year = ANY($2)) c
+	    WHERE c.annex_group = ANY($1)
+	    GROUP BY company_id, year ORDER BY company_id, year`, groups, intsOrNil(years))
 	if err != nil {
 		return nil, err
 	}
@@ -182,13 +187,16 @@ func (s *Store) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, 
 // ShipmentLines is Store.ShipmentLines within the reader's transaction, if any.
 func (r Reader) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, err error) {
 	defer classifyInto(&err)
-	rows, err := r.q.Query(ctx, `SELECT s.year, s.partner_country, c.designation, c.annex_group, s.direction,
-	        s.purpose, s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party,
-	        (sum(c.mass_kg) / 1000)::float8, array_agg(s.shipment_id ORDER BY s.shipment_id)
-	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
-	    WHERE s.year = $1 AND s.state = 'live'
-	    GROUP BY s.year, s.partner_country, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
-	    ORDER BY s.partner_country, c.designation, s.direction, s.purpose, s.condition, non_party`, year)
+	// Components unnested from the rows scanned (migration 13), as in CompanyImports.
+	rows, err := r.q.Query(ctx, `SELECT c.year, c.partner_country, c.designation, c.annex_group, c.direction,
+	        c.purpose, c.condition, coalesce(c.np, c.partner_non_party) AS non_party,
+	        (sum(c.mass_kg) / 1000)::float8, array_agg(c.shipment_id ORDER BY c.shipment_id)
+	    FROM (SELECT s.shipment_id, s.year, s.partner_country, s.direction, s.purpose, s.condition, s.partner_non_party,
+	            unnest(s.component_designations) AS designation, unnest(s.component_annex_groups) AS annex_group,
+	            unnest(s.component_mass_kg) AS mass_kg, unnest(s.component_non_party) AS np
+	        FROM shipments s WHERE s.year = $1 AND s.state = 'live') c
+	    GROUP BY c.year, c.partner_country, c.designation, c.annex_group, c.direction, c.purpose, c.condition, non_party
+	    ORDER BY c.partner_country, c.designation, c.direction, c.purpose, c.condition, non_party`, year)
 	if err != nil {
 		return nil, err
 	}

@@ -36,9 +36,15 @@ func consShipment(key, company, direction, purpose, condition string, nonParty b
 		odp += c.ODPTonnes
 		co2 += c.CO2eTonnes
 	}
-	return store.ShipmentRow{CompanyID: company, RecordKey: key, Fingerprint: "fp-" + key, Direction: direction,
+	d, err1 := terms.ParseDirection(direction)
+	p, err2 := terms.ParsePurpose(purpose)
+	c, err3 := terms.ParseCondition(condition)
+	if err := errors.Join(err1, err2, err3); err != nil {
+		panic(err) // the test's own words
+	}
+	return store.ShipmentRow{CompanyID: company, RecordKey: key, Fingerprint: "fp-" + key, Direction: d,
 		PartnerCountry: "XB", DeclarationDate: day, ResolvedDesignation: comps[0].Designation, EntryKind: "substance",
-		Purpose: purpose, Condition: condition, NetMassKg: kg, ODPTonnes: odp, CO2eTonnes: co2,
+		Purpose: p, Condition: c, NetMassKg: kg, ODPTonnes: odp, CO2eTonnes: co2,
 		CountsInConsumption: direction == "import" && condition != "used", PartnerNonParty: nonParty,
 		RecordJSON: []byte(`{}`), Components: comps}
 }

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strconv"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -120,9 +121,35 @@ func (s *Store) RevokeCredential(ctx context.Context, id, reason string) (_ Stor
 }
 
 // ListCredentials lists every credential, newest first; revoked ones only when asked.
-func (s *Store) ListCredentials(ctx context.Context, withRevoked bool) (_ []StoredCredential, err error) {
+func (s *Store) ListCredentials(ctx context.Context, withRevoked bool) ([]StoredCredential, error) {
+	return s.ListCredentialsPage(ctx, withRevoked, Page{})
+}
+
+// ListCredentialsPage returns one page of ListCredentials: newest first, credentials
+// created at the same instant in id order.
+func (s *Store) ListCredentialsPage(ctx context.Context, withRevoked bool, p Page) (_ []StoredCredential, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, credentialSelect+` WHERE $1 OR revoked_at IS NULL ORDER BY created_at DESC, credential_id`, withRevoked)
+	// Creation time descending and id ascending do not make one row comparison: the
+	// condition says it in full.
+	args := []any{withRevoked}
+	cond := "TRUE"
+	if p.After != nil {
+		if len(p.After) != 2 {
+			return nil, fmt.Errorf("page key %q has %d values; the list orders by 2 columns", p.After, len(p.After))
+		}
+		at, err := time.Parse(time.RFC3339Nano, p.After[0])
+		if err != nil {
+			return nil, fmt.Errorf("page key %q: %v", p.After, err)
+		}
+		args = append(args, at, p.After[1])
+		cond = "(created_at < $2 OR (created_at = $2 AND credential_id > $3))"
+	}
+	limit := ""
+	if p.Limit > 0 {
+		args = append(args, p.Limit)
+		limit = " LIMIT $" + strconv.Itoa(len(args))
+	}
+	rows, err := s.pool.Query(ctx, credentialSelect+` WHERE ($1 OR revoked_at IS NULL) AND `+cond+` ORDER BY created_at DESC, credential_id`+limit, args...)
 	if err != nil {
 		return nil, err
 	}

@@ -261,8 +261,17 @@ func (s *Store) CloseQuotaLine(ctx context.Context, c CloseLine) (successor int,
 }
 
 // LicenceHistory returns a licence's events in the order they were recorded.
-func (s *Store) LicenceHistory(ctx context.Context, number string) (_ []LicenceEvent, err error) {
+func (s *Store) LicenceHistory(ctx context.Context, number string) ([]LicenceEvent, error) {
+	return s.LicenceHistoryPage(ctx, number, Page{})
+}
+
+// LicenceHistoryPage returns one page of LicenceHistory.
+func (s *Store) LicenceHistoryPage(ctx context.Context, number string, p Page) (_ []LicenceEvent, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql([]any{number}, keyCol{"event_id", true})
+	if err != nil {
+		return nil, err
+	}
 	var exists bool
 	if err := s.pool.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM licences WHERE licence_number = $1)`, number).Scan(&exists); err != nil {
 		return nil, err
@@ -271,7 +280,7 @@ func (s *Store) LicenceHistory(ctx context.Context, number string) (_ []LicenceE
 		return nil, notFound("licence", number)
 	}
 	rows, err := s.pool.Query(ctx, `SELECT event_id, kind, effective_on, coalesce(status, ''), reason, actor, recorded_at, detail
-	    FROM licence_events WHERE licence_number = $1 ORDER BY event_id`, number)
+	    FROM licence_events WHERE licence_number = $1 AND `+cond+` ORDER BY event_id`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -317,6 +326,7 @@ func statusHistories(ctx context.Context, q interface {
 type licenceStatuses struct {
 	current map[string]terms.LicenceStatus // licences.status; a licence absent here does not exist
 	history map[string][]StatusPeriod
+	version map[string]int // licences.version
 }
 
 // on returns licence n's status on day d, or "" when there is no such licence.
@@ -331,8 +341,8 @@ func (ls licenceStatuses) on(n string, d time.Time) string {
 // readLicenceStatuses reads the numbered licences FOR SHARE (sorted, the lock order) with
 // their status histories, for the recorder.
 func readLicenceStatuses(ctx context.Context, tx pgx.Tx, lics []string) (licenceStatuses, error) {
-	ls := licenceStatuses{current: map[string]terms.LicenceStatus{}}
-	q, err := tx.Query(ctx, `SELECT licence_number, status FROM licences
+	ls := licenceStatuses{current: map[string]terms.LicenceStatus{}, version: map[string]int{}}
+	q, err := tx.Query(ctx, `SELECT licence_number, status, version FROM licences
 	    WHERE licence_number = ANY($1) ORDER BY licence_number FOR SHARE`, lics)
 	if err != nil {
 		return ls, err
@@ -340,11 +350,12 @@ func readLicenceStatuses(ctx context.Context, tx pgx.Tx, lics []string) (licence
 	for q.Next() {
 		var n string
 		var st terms.LicenceStatus
-		if err := q.Scan(&n, &st); err != nil {
+		var v int
+		if err := q.Scan(&n, &st, &v); err != nil {
 			q.Close()
 			return ls, err
 		}
-		ls.current[n] = st
+		ls.current[n], ls.version[n] = st, v
 	}
 	if err := q.Err(); err != nil {
 		return ls, err

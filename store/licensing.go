@@ -238,9 +238,18 @@ func (s *Store) GetParty(ctx context.Context, code string) (_ Party, err error) 
 }
 
 // ListParties returns every country's settings in code order.
-func (s *Store) ListParties(ctx context.Context) (_ []Party, err error) {
+func (s *Store) ListParties(ctx context.Context) ([]Party, error) {
+	return s.ListPartiesPage(ctx, Page{})
+}
+
+// ListPartiesPage returns one page of the countries' settings in code order.
+func (s *Store) ListPartiesPage(ctx context.Context, p Page) (_ []Party, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT `+partyCols+` FROM parties ORDER BY country_code`)
+	cond, limit, args, err := p.sql(nil, keyCol{name: "country_code"})
+	if err != nil {
+		return nil, err
+	}
+	rows, err := s.pool.Query(ctx, `SELECT `+partyCols+` FROM parties WHERE `+cond+` ORDER BY country_code`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -283,9 +292,20 @@ func putCompanyTx(ctx context.Context, tx pgx.Tx, c Company) (bool, error) {
 }
 
 // ListCompanies returns the companies in identifier order.
-func (s *Store) ListCompanies(ctx context.Context) (_ []Company, err error) {
+func (s *Store) ListCompanies(ctx context.Context) ([]Company, error) {
+	return s.ListCompaniesPage(ctx, "", Page{})
+}
+
+// ListCompaniesPage returns one page of the companies in identifier order: only the one
+// identified by only, when it is not empty.
+func (s *Store) ListCompaniesPage(ctx context.Context, only string, p Page) (_ []Company, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT company_id, name, country_code FROM companies ORDER BY company_id`)
+	cond, limit, args, err := p.sql([]any{only}, keyCol{name: "company_id"})
+	if err != nil {
+		return nil, err
+	}
+	rows, err := s.pool.Query(ctx, `SELECT company_id, name, country_code FROM companies
+	    WHERE ($1 = '' OR company_id = $1) AND `+cond+` ORDER BY company_id`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -509,10 +529,19 @@ func (s *Store) GetLicence(ctx context.Context, number string) (Licence, error) 
 
 // ListLicences returns licences, of one company and/or valid in one year when given.
 func (s *Store) ListLicences(ctx context.Context, companyID string, year int) ([]Licence, error) {
+	return s.ListLicencesPage(ctx, companyID, year, Page{})
+}
+
+// ListLicencesPage returns one page of ListLicences, in number order.
+func (s *Store) ListLicencesPage(ctx context.Context, companyID string, year int, p Page) ([]Licence, error) {
+	cond, limit, args, err := p.sql([]any{companyID, year}, keyCol{name: "licence_number"})
+	if err != nil {
+		return nil, err
+	}
 	return s.queryLicences(ctx, `SELECT `+licenceCols+` FROM licences
 	    WHERE ($1 = '' OR company_id = $1)
 	      AND ($2 = 0 OR (valid_from <= make_date($2, 12, 31) AND valid_to >= make_date($2, 1, 1)))
-	    ORDER BY licence_number`, companyID, year)
+	      AND `+cond+` ORDER BY licence_number`+limit, args...)
 }
 
 func (s *Store) queryLicences(ctx context.Context, sql string, args ...any) (_ []Licence, err error) {

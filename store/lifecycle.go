@@ -13,6 +13,7 @@ import (
 	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/terms"
 )
 
 // The life of a recorded shipment (migration 8): a row is live, voided or superseded.
@@ -43,11 +44,15 @@ type StoredRef struct {
 func storedRefs(ctx context.Context, q interface {
 	Query(context.Context, string, ...any) (pgx.Rows, error)
 }, companies, keys []string) (map[[2]string][]StoredRef, error) {
+	// One index probe per key (LATERAL, OFFSET 0), planned at each execution
+	// (QueryExecModeExec): a plan cached while the register was empty would scan the
+	// whole table for every key.
 	rows, err := q.Query(ctx, `SELECT s.company_id, s.record_key, s.shipment_id, s.fingerprint, s.state,
 	        s.version, s.recorded_at, s.verdict
-	    FROM shipments s JOIN unnest($1::text[], $2::text[]) AS k(company_id, record_key)
-	      ON s.company_id = k.company_id AND s.record_key = k.record_key
-	    ORDER BY s.company_id, s.record_key, s.version`, companies, keys)
+	    FROM unnest($1::text[], $2::text[]) AS k(company_id, record_key)
+	    CROSS JOIN LATERAL (SELECT company_id, record_key, shipment_id, fingerprint, state, version, recorded_at, verdict
+	        FROM shipments WHERE company_id = k.company_id AND record_key = k.record_key OFFSET 0) s
+	    ORDER BY s.company_id, s.record_key, s.version`, pgx.QueryExecModeExec, companies, keys)
 	if err != nil {
 		return nil, err
 	}
@@ -224,9 +229,18 @@ func (r Reader) YearClosed(ctx context.Context, year int) (_ ClosedYear, closed 
 }
 
 // ClosedYears lists the closed reporting years in order.
-func (s *Store) ClosedYears(ctx context.Context) (_ []ClosedYear, err error) {
+func (s *Store) ClosedYears(ctx context.Context) ([]ClosedYear, error) {
+	return s.ClosedYearsPage(ctx, Page{})
+}
+
+// ClosedYearsPage returns one page of ClosedYears.
+func (s *Store) ClosedYearsPage(ctx context.Context, p Page) (_ []ClosedYear, err error) {
 	defer classifyInto(&err)
-	rows, err := s.pool.Query(ctx, `SELECT year, closed_at, closed_by, reason FROM closed_years ORDER BY year`)
+	cond, limit, args, err := p.sql(nil, keyCol{"year", true})
+	if err != nil {
+		return nil, err
+	}
+	rows, err := s.pool.Query(ctx, `SELECT year, closed_at, closed_by, reason FROM closed_years WHERE `+cond+` ORDER BY year`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -249,16 +263,16 @@ type ShipmentFilter struct {
 	CompanyID     string
 	LicenceNumber string
 	RecordKey     string
-	From, To      time.Time // declaration dates, both inclusive; zero: open
-	Partner       string    // ISO 3166-1 alpha-2, upper case
-	Substance     string    // resolved designation of the record or of one of its components
-	AnnexGroups   []string  // Annex groups, one of which one of its components is in, e.g. "C/I"
-	Direction     string    // as stored: "import", "export", "re-export", "transit"
-	Purpose       string    // as stored, e.g. "servicing"
-	Condition     string    // as stored, e.g. "virgin"
-	States        []string  // StateLive, StateVoided, StateSuperseded; empty: all
-	AfterID       int64     // only ids above this one (paging)
-	Limit         int       // at most this many; 0: 100
+	From, To      time.Time       // declaration dates, both inclusive; zero: open
+	Partner       string          // ISO 3166-1 alpha-2, upper case
+	Substance     string          // resolved designation of the record or of one of its components
+	AnnexGroups   []string        // Annex groups, one of which one of its components is in, e.g. "C/I"
+	Direction     terms.Direction // as stored: "import", "export", "re-export", "transit"
+	Purpose       terms.Purpose   // as stored, e.g. "servicing"
+	Condition     terms.Condition // as stored, e.g. "virgin"
+	States        []string        // StateLive, StateVoided, StateSuperseded; empty: all
+	AfterID       int64           // only ids above this one (paging)
+	Limit         int             // at most this many; 0: 100
 }
 
 // StoredDraw is one draw of a stored shipment; Released is set once it was given back
@@ -275,14 +289,14 @@ type StoredShipment struct {
 	CompanyID           string
 	RecordKey           string
 	Fingerprint         string
-	Direction           string
+	Direction           terms.Direction
 	LicenceNumber       string
 	PartnerCountry      string
 	DeclarationDate     time.Time
 	ResolvedDesignation string
 	EntryKind           string
-	Purpose             string
-	Condition           string
+	Purpose             terms.Purpose
+	Condition           terms.Condition
 	NetMassKg           Nano
 	ODPTonnes           Nano
 	CO2eTonnes          Nano
@@ -346,9 +360,9 @@ func (s *Store) ListShipments(ctx context.Context, f ShipmentFilter) (_ []Stored
 	eq("s.licence_number", f.LicenceNumber)
 	eq("s.record_key", f.RecordKey)
 	eq("s.partner_country", f.Partner)
-	eq("s.direction", f.Direction)
-	eq("s.purpose", f.Purpose)
-	eq("s.condition", f.Condition)
+	eq("s.direction", f.Direction.String()) // unspecified: "", no condition
+	eq("s.purpose", f.Purpose.String())
+	eq("s.condition", f.Condition.String())
 	if !f.From.IsZero() {
 		where = append(where, "s.declaration_date >= "+arg(f.From))
 	}
@@ -559,10 +573,15 @@ func releaseDraws(ctx context.Context, tx pgx.Tx, id int64) error {
 // lockLines share-locks the licences and locks the quota lines of the draws FOR UPDATE
 // in (licence, line) order, as RecordShipments does, and returns the licences' statuses,
 // what is left on each line and each line's allocation.
-func lockLines(ctx context.Context, tx pgx.Tx, draws []Draw) (licenceStatuses, map[lineKey]Nano, map[lineKey]Nano, error) {
+func lockLines(ctx context.Context, tx pgx.Tx, draws []Draw, alsoLicences ...string) (licenceStatuses, map[lineKey]Nano, map[lineKey]Nano, error) {
 	licSet := map[string]bool{}
 	for _, d := range draws {
 		licSet[d.LicenceNumber] = true
+	}
+	for _, l := range alsoLicences {
+		if l != "" {
+			licSet[l] = true
+		}
 	}
 	lics := make([]string, 0, len(licSet))
 	for l := range licSet {
@@ -714,7 +733,7 @@ func (s *Store) CorrectShipment(ctx context.Context, id int64, row ShipmentRow, 
 		if err != nil {
 			return err
 		}
-		status, remaining, allocated, err := lockLines(ctx, tx, append(append([]Draw{}, old...), row.Draws...))
+		status, remaining, allocated, err := lockLines(ctx, tx, append(append([]Draw{}, old...), row.Draws...), judgedLicence(row))
 		if err != nil {
 			return err
 		}

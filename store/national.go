@@ -96,16 +96,31 @@ func (s *Store) PutNationalEntries(ctx context.Context, entries []NationalEntry)
 
 // ListNationalEntries returns the entries of one year (all years when year is 0), by year,
 // kind, substance and key.
-func (s *Store) ListNationalEntries(ctx context.Context, year int) (_ []NationalEntry, err error) {
-	return s.reader().ListNationalEntries(ctx, year)
+func (s *Store) ListNationalEntries(ctx context.Context, year int) ([]NationalEntry, error) {
+	return s.reader().ListNationalEntriesPage(ctx, year, Page{})
+}
+
+// ListNationalEntriesPage returns one page of ListNationalEntries.
+func (s *Store) ListNationalEntriesPage(ctx context.Context, year int, p Page) ([]NationalEntry, error) {
+	return s.reader().ListNationalEntriesPage(ctx, year, p)
 }
 
 // ListNationalEntries is Store.ListNationalEntries within the reader's transaction, if any.
-func (r Reader) ListNationalEntries(ctx context.Context, year int) (_ []NationalEntry, err error) {
+func (r Reader) ListNationalEntries(ctx context.Context, year int) ([]NationalEntry, error) {
+	return r.ListNationalEntriesPage(ctx, year, Page{})
+}
+
+// ListNationalEntriesPage is Store.ListNationalEntriesPage within the reader's
+// transaction, if any.
+func (r Reader) ListNationalEntriesPage(ctx context.Context, year int, p Page) (_ []NationalEntry, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql([]any{year}, keyCol{"year", true}, keyCol{name: "entry_type"}, keyCol{name: "substance"}, keyCol{name: "entry_key"})
+	if err != nil {
+		return nil, err
+	}
 	rows, err := r.q.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note, outside_customs
-	    FROM national_entries WHERE ($1 = 0 OR year = $1)
-	    ORDER BY year, entry_type, substance, entry_key`, year)
+	    FROM national_entries WHERE ($1 = 0 OR year = $1) AND `+cond+`
+	    ORDER BY year, entry_type, substance, entry_key`+limit, args...)
 	if err != nil {
 		return nil, err
 	}

@@ -5,13 +5,16 @@ import (
 	"fmt"
 	"math"
 	"math/big"
+	"slices"
 	"sort"
+	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -55,14 +58,14 @@ type ShipmentRow struct {
 	CompanyID           string
 	RecordKey           string
 	Fingerprint         string
-	Direction           string
+	Direction           terms.Direction
 	LicenceNumber       string
 	PartnerCountry      string
 	DeclarationDate     time.Time
 	ResolvedDesignation string
 	EntryKind           string
-	Purpose             string
-	Condition           string
+	Purpose             terms.Purpose
+	Condition           terms.Condition
 	NetMassKg           Nano
 	ODPTonnes           Nano
 	CO2eTonnes          Nano
@@ -74,6 +77,10 @@ type ShipmentRow struct {
 	Verdict    []byte
 	Components []ShipmentComponent
 	Draws      []Draw
+	// LicenceVersion is the version of the licence (LicenceNumber) the row was judged
+	// against; when not 0 the row is written only while the licence is still at that
+	// version (RecordLicenceChanged otherwise).
+	LicenceVersion int
 	// VerdictOnStore, when set, gives Verdict once the row is known to be stored (its
 	// result has the id, the time and the balances of its own draws), inside the
 	// transaction that stores it: the verdict kept is the one answered.
@@ -100,6 +107,10 @@ const (
 	RecordLicenceInactive
 	// RecordYearClosed: the row's declaration date falls in a closed reporting year.
 	RecordYearClosed
+	// RecordLicenceChanged: the licence was changed (amended, its status changed, a line
+	// closed) after the row was judged on it: the row is not written, so that no record
+	// draws on terms it was not judged against.
+	RecordLicenceChanged
 )
 
 // RecordResult tells what happened to one row, in the order given.
@@ -110,7 +121,8 @@ type RecordResult struct {
 	LicenceNumber string
 	LineNumber    int
 	Remaining     Nano
-	// For RecordLicenceInactive: the licence's status, or "missing line".
+	// For RecordLicenceInactive: the licence's status, or "missing line"; for
+	// RecordLicenceChanged: "version N" (the licence's version now).
 	Detail string
 	// For RecordReplayed and RecordKeyConflict: the stored row the key (and, for a
 	// replay, the content) matched.
@@ -175,6 +187,9 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	licSet := map[string]bool{}
 	lineSet := map[lineKey]bool{}
 	for _, r := range rows {
+		if l := judgedLicence(r); l != "" {
+			licSet[l] = true // read (share) for its version, also without a draw
+		}
 		for _, d := range r.Draws {
 			licSet[d.LicenceNumber] = true
 			lineSet[lineKey{d.LicenceNumber, d.LineNumber}] = true
@@ -289,26 +304,16 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 		return results, nil
 	}
 
-	// 4. Write: ids first, then COPY the rows, components and draws.
-	ids := make([]int64, 0, len(accept))
-	q, err := tx.Query(ctx, `SELECT nextval('shipments_shipment_id_seq') FROM generate_series(1, $1)`, len(accept))
-	if err != nil {
-		return nil, err
-	}
-	for q.Next() {
-		var id int64
-		if err := q.Scan(&id); err != nil {
-			q.Close()
-			return nil, err
-		}
-		ids = append(ids, id)
-	}
-	if err := q.Err(); err != nil {
-		return nil, err
-	}
+	// 4. Write: ids and the transaction's time first (one round trip), then one COPY of
+	// the rows, each with its components and draws.
+	var ids []int64
 	var now time.Time
-	if err := tx.QueryRow(ctx, `SELECT now()`).Scan(&now); err != nil {
+	if err := tx.QueryRow(ctx, `SELECT now(), array_agg(nextval('shipments_shipment_id_seq'))
+	    FROM generate_series(1, $1)`, len(accept)).Scan(&now, &ids); err != nil {
 		return nil, err
+	}
+	if len(ids) != len(accept) {
+		return nil, fmt.Errorf("storing shipments: %d ids for %d rows", len(ids), len(accept))
 	}
 	for j, i := range accept {
 		results[i].ShipmentID = ids[j]
@@ -349,50 +354,66 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	return results, nil
 }
 
-// insertShipments writes rows under ids (COPY of the rows, components and draws) and
-// draws their quota; the lines must be locked already.
+// insertShipments writes rows under ids (one COPY: each row carries its components and
+// draws, migration 13) and draws their quota; the lines must be locked already. A draw
+// must be on the row's own licence: the row keeps its draws' lines and amounts only.
 func insertShipments(ctx context.Context, tx pgx.Tx, ids []int64, rows []*ShipmentRow) error {
+	drawn := map[lineKey]*big.Int{}
+	var lines []lineKey
+	for _, r := range rows {
+		for _, d := range r.Draws {
+			if d.LicenceNumber != r.LicenceNumber {
+				return fmt.Errorf("storing shipment %q: a draw on licence %q; a shipment draws only on its own licence %q", r.RecordKey, d.LicenceNumber, r.LicenceNumber)
+			}
+			k := lineKey{d.LicenceNumber, d.LineNumber}
+			t, ok := drawn[k]
+			if !ok {
+				t = new(big.Int)
+				drawn[k] = t
+				lines = append(lines, k)
+			}
+			t.Add(t, big.NewInt(int64(d.Amount)))
+		}
+	}
 	if _, err := tx.CopyFrom(ctx, pgx.Identifier{"shipments"}, shipmentColumns,
 		pgx.CopyFromSlice(len(rows), func(j int) ([]any, error) {
-			return shipmentValues(ctx, ids[j], rows[j]), nil
+			return shipmentValues(ctx, ids[j], rows[j])
 		})); err != nil {
 		return fmt.Errorf("storing shipments: %w", err)
 	}
-	var comps, draws [][]any
-	for j, r := range rows {
-		for _, c := range r.Components {
-			comps = append(comps, []any{ids[j], c.Designation, c.AnnexGroup, c.MassKg.numeric(), c.ODPTonnes.numeric(), c.CO2eTonnes.numeric(), c.PartnerNonParty})
-		}
-		for _, d := range r.Draws {
-			draws = append(draws, []any{ids[j], d.LicenceNumber, d.LineNumber, d.Amount.numeric()})
-		}
+	if len(lines) == 0 {
+		return nil
 	}
-	if len(comps) > 0 {
-		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"shipment_components"},
-			[]string{"shipment_id", "designation", "annex_group", "mass_kg", "odp_tonnes", "co2e_tonnes", "partner_non_party"},
-			pgx.CopyFromRows(comps)); err != nil {
-			return fmt.Errorf("storing shipment components: %w", err)
-		}
+	// drawn grows by exactly the sum of the draws just stored.
+	lics := make([]string, len(lines))
+	nums := make([]int32, len(lines))
+	totals := make([]pgtype.Numeric, len(lines))
+	for i, k := range lines {
+		lics[i], nums[i] = k.licence, int32(k.line)
+		totals[i] = pgtype.Numeric{Int: drawn[k], Exp: -9, Valid: true}
 	}
-	if len(draws) > 0 {
-		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"quota_draws"},
-			[]string{"shipment_id", "licence_number", "line_number", "amount"}, pgx.CopyFromRows(draws)); err != nil {
-			return fmt.Errorf("storing quota draws: %w", err)
-		}
-		// drawn grows by exactly the sum of the draws just stored.
-		if _, err := tx.Exec(ctx, `UPDATE quota_lines q SET drawn = q.drawn + d.total
-		    FROM (SELECT licence_number, line_number, sum(amount) AS total FROM quota_draws
-		          WHERE shipment_id = ANY($1) GROUP BY licence_number, line_number) d
-		    WHERE q.licence_number = d.licence_number AND q.line_number = d.line_number`, ids); err != nil {
-			return fmt.Errorf("drawing quota: %w", err)
-		}
+	if _, err := tx.Exec(ctx, `UPDATE quota_lines q SET drawn = q.drawn + d.total
+	    FROM unnest($1::text[], $2::integer[], $3::numeric[]) AS d(licence_number, line_number, total)
+	    WHERE q.licence_number = d.licence_number AND q.line_number = d.line_number`, lics, nums, totals); err != nil {
+		return fmt.Errorf("drawing quota: %w", err)
 	}
 	return nil
 }
 
 // checkDraws reports whether every draw of r fits what is left; when not, the result
 // says why.
+// judgedLicence is the licence whose version a row must find unchanged, or "".
+func judgedLicence(r ShipmentRow) string {
+	if r.LicenceVersion == 0 {
+		return ""
+	}
+	return r.LicenceNumber
+}
+
 func checkDraws(r ShipmentRow, status licenceStatuses, remaining map[lineKey]Nano) (RecordResult, bool) {
+	if v, ok := status.version[r.LicenceNumber]; ok && r.LicenceVersion != 0 && v != r.LicenceVersion {
+		return RecordResult{Status: RecordLicenceChanged, LicenceNumber: r.LicenceNumber, Detail: fmt.Sprintf("version %d", v)}, false
+	}
 	for _, d := range r.Draws {
 		// The licence as it stood on the declaration date.
 		if st := status.on(d.LicenceNumber, r.DeclarationDate); st != "active" {
@@ -416,14 +437,47 @@ func checkDraws(r ShipmentRow, status licenceStatuses, remaining map[lineKey]Nan
 var shipmentColumns = []string{"shipment_id", "company_id", "record_key", "fingerprint", "direction",
 	"licence_number", "partner_country", "declaration_date", "year", "resolved_designation", "entry_kind",
 	"purpose", "condition", "net_mass_kg", "odp_tonnes", "co2e_tonnes", "counts_in_consumption",
-	"partner_non_party", "record", "version", "previous_id", "verdict", "recorded_by", "recorded_credential"}
+	"partner_non_party", "record", "version", "previous_id", "verdict", "recorded_by", "recorded_credential",
+	"component_designations", "component_annex_groups", "component_mass_kg", "component_odp_tonnes",
+	"component_co2e_tonnes", "component_non_party", "draw_lines", "draw_amounts"}
 
-func shipmentValues(ctx context.Context, id int64, r *ShipmentRow) []any {
-	return []any{id, r.CompanyID, r.RecordKey, r.Fingerprint, r.Direction, r.LicenceNumber, r.PartnerCountry,
-		r.DeclarationDate, r.DeclarationDate.Year(), r.ResolvedDesignation, r.EntryKind, r.Purpose, r.Condition,
+func shipmentValues(ctx context.Context, id int64, r *ShipmentRow) ([]any, error) {
+	cs := r.Components
+	if !slices.IsSortedFunc(cs, func(a, b ShipmentComponent) int { return strings.Compare(a.Designation, b.Designation) }) {
+		cs = slices.Clone(cs)
+		slices.SortFunc(cs, func(a, b ShipmentComponent) int { return strings.Compare(a.Designation, b.Designation) })
+	}
+	des := make([]string, len(cs))
+	grp := make([]string, len(cs))
+	kg := make([]pgtype.Numeric, len(cs))
+	odp := make([]pgtype.Numeric, len(cs))
+	co2e := make([]pgtype.Numeric, len(cs))
+	np := make([]*bool, len(cs))
+	for i, c := range cs {
+		if i > 0 && c.Designation == cs[i-1].Designation {
+			return nil, fmt.Errorf("storing shipment %q: component %q given twice", r.RecordKey, c.Designation)
+		}
+		des[i], grp[i], np[i] = c.Designation, c.AnnexGroup, c.PartnerNonParty
+		kg[i], odp[i], co2e[i] = c.MassKg.numeric(), c.ODPTonnes.numeric(), c.CO2eTonnes.numeric()
+	}
+	ds := r.Draws
+	if !slices.IsSortedFunc(ds, func(a, b Draw) int { return a.LineNumber - b.LineNumber }) {
+		ds = slices.Clone(ds)
+		slices.SortFunc(ds, func(a, b Draw) int { return a.LineNumber - b.LineNumber })
+	}
+	lines := make([]int32, len(ds))
+	amounts := make([]pgtype.Numeric, len(ds))
+	for i, d := range ds {
+		if i > 0 && d.LineNumber == ds[i-1].LineNumber {
+			return nil, fmt.Errorf("storing shipment %q: two draws on line %d", r.RecordKey, d.LineNumber)
+		}
+		lines[i], amounts[i] = int32(d.LineNumber), d.Amount.numeric()
+	}
+	return []any{id, r.CompanyID, r.RecordKey, r.Fingerprint, r.Direction.String(), r.LicenceNumber, r.PartnerCountry,
+		r.DeclarationDate, r.DeclarationDate.Year(), r.ResolvedDesignation, r.EntryKind, r.Purpose.String(), r.Condition.String(),
 		r.NetMassKg.numeric(), r.ODPTonnes.numeric(), r.CO2eTonnes.numeric(), r.CountsInConsumption,
 		r.PartnerNonParty, string(r.RecordJSON), max(r.version, 1), r.previousID, r.Verdict,
-		callctx.Actor(ctx), callctx.CredentialID(ctx)}
+		callctx.Actor(ctx), callctx.CredentialID(ctx), des, grp, kg, odp, co2e, np, lines, amounts}, nil
 }
 
 // StoredFingerprints returns the fingerprints of the current (live or voided) rows of the

@@ -84,7 +84,7 @@ func issueTestLicence(t *testing.T, st *store.Store, number string, allocated fl
 }
 
 func row(key string, odpNano store.Nano) store.ShipmentRow {
-	return store.ShipmentRow{CompanyID: "XA-1", RecordKey: key, Fingerprint: "fp-" + key, Direction: "import",
+	return store.ShipmentRow{CompanyID: "XA-1", RecordKey: key, Fingerprint: "fp-" + key, Direction: terms.DirectionImport,
 		LicenceNumber: "L-1", PartnerCountry: "XB", DeclarationDate: time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC),
 		ResolvedDesignation: "HCFC-22", EntryKind: "substance", NetMassKg: odpNano, ODPTonnes: odpNano,
 		CountsInConsumption: true, RecordJSON: []byte(`{}`),
@@ -218,5 +218,49 @@ func TestRecordShipmentsConcurrentNeverOverdraws(t *testing.T) {
 	}
 	if drawn != sum || drawn != "1.100000000" {
 		t.Fatalf("drawn %s, recorded ODP t %s; want both exactly 1.100000000", drawn, sum)
+	}
+}
+
+// A row judged on one version of its licence is not written once the licence has been
+// changed (here its quota line moved from Annex C/I to A/I): a replica that judged before it
+// heard of the amendment must not draw on terms it did not judge against.
+func TestRecordRefusesARowJudgedOnAnOlderLicenceVersion(t *testing.T) {
+	st, _ := openTestStore(t)
+	ctx := context.Background()
+	issueTestLicence(t, st, "L-1", 1.0)
+	lic, err := st.GetLicence(ctx, "L-1")
+	if err != nil {
+		t.Fatal(err)
+	}
+	judged := lic.Version
+	first := row("a", store.ToNano(0.1))
+	first.LicenceVersion = judged
+	if res, err := st.RecordShipments(ctx, []store.ShipmentRow{first}); err != nil || res[0].Status != store.RecordStored {
+		t.Fatalf("row judged on the current version: %+v %v; want stored", res, err)
+	}
+	amended := lic
+	// Line 1 has a draw now, so its scope cannot change: the amendment adds a CFC line.
+	amended.QuotaLines = append(lic.QuotaLines, store.QuotaLine{LineNumber: 2, AnnexGroup: string(substances.GroupAI), Unit: terms.QuotaODPTonnes, Allocated: 1.0})
+	if changed, err := st.AmendLicence(ctx, store.Amendment{Licence: amended, EffectiveOn: time.Date(2026, 3, 2, 0, 0, 0, 0, time.UTC), Reason: "a CFC line added"}); err != nil || !changed {
+		t.Fatalf("amend: %v %v", changed, err)
+	}
+	stale := row("b", store.ToNano(0.1))
+	stale.LicenceVersion = judged
+	res, err := st.RecordShipments(ctx, []store.ShipmentRow{stale})
+	if err != nil || res[0].Status != store.RecordLicenceChanged || res[0].LicenceNumber != "L-1" {
+		t.Fatalf("row judged on version %d after an amendment: %+v %v; want RecordLicenceChanged for L-1", judged, res, err)
+	}
+	if got, _ := st.GetLicence(ctx, "L-1"); got.QuotaLines[0].Drawn != 0.1 {
+		t.Errorf("line 1 drawn %v after the refused row; want 0.1 (only the first row)", got.QuotaLines[0].Drawn)
+	}
+	now, _ := st.GetLicence(ctx, "L-1")
+	stale.LicenceVersion = now.Version
+	if res, err := st.RecordShipments(ctx, []store.ShipmentRow{stale}); err != nil || res[0].Status != store.RecordStored {
+		t.Fatalf("the same row judged on version %d: %+v %v; want stored", now.Version, res, err)
+	}
+	// A row that names no version (0: judged without a licence) is not held to one.
+	free := row("c", store.ToNano(0.1))
+	if res, err := st.RecordShipments(ctx, []store.ShipmentRow{free}); err != nil || res[0].Status != store.RecordStored {
+		t.Fatalf("row without a judged version: %+v %v; want stored", res, err)
 	}
 }

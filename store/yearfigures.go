@@ -53,16 +53,31 @@ func (s *Store) PutExemptions(ctx context.Context, es []Exemption) error {
 
 // ListExemptions returns the exemptions of one year (every year when year is 0) by Party,
 // year, scope, use and key.
-func (s *Store) ListExemptions(ctx context.Context, year int) (_ []Exemption, err error) {
-	return s.reader().ListExemptions(ctx, year)
+func (s *Store) ListExemptions(ctx context.Context, year int) ([]Exemption, error) {
+	return s.reader().ListExemptionsPage(ctx, year, Page{})
+}
+
+// ListExemptionsPage returns one page of ListExemptions.
+func (s *Store) ListExemptionsPage(ctx context.Context, year int, p Page) ([]Exemption, error) {
+	return s.reader().ListExemptionsPage(ctx, year, p)
 }
 
 // ListExemptions is Store.ListExemptions within the reader's transaction, if any.
-func (r Reader) ListExemptions(ctx context.Context, year int) (_ []Exemption, err error) {
+func (r Reader) ListExemptions(ctx context.Context, year int) ([]Exemption, error) {
+	return r.ListExemptionsPage(ctx, year, Page{})
+}
+
+// ListExemptionsPage is Store.ListExemptionsPage within the reader's transaction, if any.
+func (r Reader) ListExemptionsPage(ctx context.Context, year int, p Page) (_ []Exemption, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql([]any{year}, keyCol{name: "country_code"}, keyCol{"year", true}, keyCol{name: "annex_scope"},
+		keyCol{name: "use_kind"}, keyCol{name: "exemption_key"})
+	if err != nil {
+		return nil, err
+	}
 	rows, err := r.q.Query(ctx, `SELECT exemption_key, country_code, year, annex_scope, use_kind, amount::float8, unit, source, note
-	    FROM authorised_exemptions WHERE ($1 = 0 OR year = $1)
-	    ORDER BY country_code, year, annex_scope, use_kind, exemption_key`, year)
+	    FROM authorised_exemptions WHERE ($1 = 0 OR year = $1) AND `+cond+`
+	    ORDER BY country_code, year, annex_scope, use_kind, exemption_key`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -97,15 +112,30 @@ func (s *Store) PutOfficialFigures(ctx context.Context, fs []OfficialFigure) err
 }
 
 // ListOfficialFigures returns every official figure by Party, kind, scope and year.
-func (s *Store) ListOfficialFigures(ctx context.Context) (_ []OfficialFigure, err error) {
-	return s.reader().ListOfficialFigures(ctx)
+func (s *Store) ListOfficialFigures(ctx context.Context) ([]OfficialFigure, error) {
+	return s.reader().ListOfficialFiguresPage(ctx, Page{})
+}
+
+// ListOfficialFiguresPage returns one page of ListOfficialFigures.
+func (s *Store) ListOfficialFiguresPage(ctx context.Context, p Page) ([]OfficialFigure, error) {
+	return s.reader().ListOfficialFiguresPage(ctx, p)
 }
 
 // ListOfficialFigures is Store.ListOfficialFigures within the reader's transaction, if any.
-func (r Reader) ListOfficialFigures(ctx context.Context) (_ []OfficialFigure, err error) {
+func (r Reader) ListOfficialFigures(ctx context.Context) ([]OfficialFigure, error) {
+	return r.ListOfficialFiguresPage(ctx, Page{})
+}
+
+// ListOfficialFiguresPage is Store.ListOfficialFiguresPage within the reader's
+// transaction, if any.
+func (r Reader) ListOfficialFiguresPage(ctx context.Context, p Page) (_ []OfficialFigure, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql(nil, keyCol{name: "country_code"}, keyCol{name: "kind"}, keyCol{name: "annex_scope"}, keyCol{"year", true})
+	if err != nil {
+		return nil, err
+	}
 	rows, err := r.q.Query(ctx, `SELECT figure_key, country_code, kind, annex_scope, year, value::float8, unit, source
-	    FROM official_figures ORDER BY country_code, kind, annex_scope, year`)
+	    FROM official_figures WHERE `+cond+` ORDER BY country_code, kind, annex_scope, year`+limit, args...)
 	if err != nil {
 		return nil, err
 	}
@@ -157,16 +187,31 @@ func (s *Store) PutHFC23Entries(ctx context.Context, es []HFC23Entry) error {
 
 // ListHFC23Entries returns the facility entries of one year (every year when year is 0), by
 // year, facility.
-func (s *Store) ListHFC23Entries(ctx context.Context, year int) (_ []HFC23Entry, err error) {
-	return s.reader().ListHFC23Entries(ctx, year)
+func (s *Store) ListHFC23Entries(ctx context.Context, year int) ([]HFC23Entry, error) {
+	return s.reader().ListHFC23EntriesPage(ctx, year, Page{})
+}
+
+// ListHFC23EntriesPage returns one page of ListHFC23Entries.
+func (s *Store) ListHFC23EntriesPage(ctx context.Context, year int, p Page) ([]HFC23Entry, error) {
+	return s.reader().ListHFC23EntriesPage(ctx, year, p)
 }
 
 // ListHFC23Entries is Store.ListHFC23Entries within the reader's transaction, if any.
-func (r Reader) ListHFC23Entries(ctx context.Context, year int) (_ []HFC23Entry, err error) {
+func (r Reader) ListHFC23Entries(ctx context.Context, year int) ([]HFC23Entry, error) {
+	return r.ListHFC23EntriesPage(ctx, year, Page{})
+}
+
+// ListHFC23EntriesPage is Store.ListHFC23EntriesPage within the reader's transaction, if
+// any.
+func (r Reader) ListHFC23EntriesPage(ctx context.Context, year int, p Page) (_ []HFC23Entry, err error) {
 	defer classifyInto(&err)
+	cond, limit, args, err := p.sql([]any{year}, keyCol{"year", true}, keyCol{name: "facility"})
+	if err != nil {
+		return nil, err
+	}
 	rows, err := r.q.Query(ctx, `SELECT entry_key, facility, year, generated_tonnes::float8, captured_used_tonnes::float8,
 	        destroyed_tonnes::float8, emitted_tonnes::float8, note
-	    FROM hfc23_facility_entries WHERE ($1 = 0 OR year = $1) ORDER BY year, facility`, year)
+	    FROM hfc23_facility_entries WHERE ($1 = 0 OR year = $1) AND `+cond+` ORDER BY year, facility`+limit, args...)
 	if err != nil {
 		return nil, err
 	}

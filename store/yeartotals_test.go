@@ -2,7 +2,10 @@ package store_test
 
 import (
 	"context"
+	"errors"
 	"testing"
+
+	"github.com/jackc/pgx/v5/pgconn"
 
 	"github.com/halovet/halovet/store"
 )
@@ -111,5 +114,35 @@ func TestYearTotalsFollowRecordVoidCorrect(t *testing.T) {
 	var left int
 	if err := st.Pool().QueryRow(ctx, `SELECT count(*) FROM shipment_year_totals`).Scan(&left); err != nil || left != 0 {
 		t.Fatalf("after TRUNCATE: %d totals rows (%v), want 0", left, err)
+	}
+}
+
+// The keys of the tables migration 13 folded into the shipment's row (one component per
+// designation, one draw per quota line) hold in the schema, whoever writes.
+func TestShipmentRowRefusesRepeatedComponentsAndDraws(t *testing.T) {
+	st, _ := openTestStore(t)
+	ctx := context.Background()
+	issueTestLicence(t, st, "L-1", 1.0)
+	res, err := st.RecordShipments(ctx, []store.ShipmentRow{mrow("a", store.ToNano(0.3), 100)})
+	if err != nil || res[0].Status != store.RecordStored {
+		t.Fatalf("record: %+v %v", res, err)
+	}
+	id := res[0].ShipmentID
+	for _, c := range []struct{ sql, constraint string }{
+		{`UPDATE shipments SET component_designations = component_designations || component_designations,
+		     component_annex_groups = component_annex_groups || component_annex_groups,
+		     component_mass_kg = component_mass_kg || component_mass_kg,
+		     component_odp_tonnes = component_odp_tonnes || component_odp_tonnes,
+		     component_co2e_tonnes = component_co2e_tonnes || component_co2e_tonnes,
+		     component_non_party = component_non_party || component_non_party
+		   WHERE shipment_id = $1`, "shipments_components_distinct"},
+		{`UPDATE shipments SET draw_lines = draw_lines || draw_lines, draw_amounts = draw_amounts || draw_amounts
+		   WHERE shipment_id = $1`, "shipments_draws_distinct"},
+	} {
+		_, err := st.Pool().Exec(ctx, c.sql, id)
+		var pe *pgconn.PgError
+		if !errors.As(err, &pe) || pe.Code != "23514" || pe.ConstraintName != c.constraint {
+			t.Errorf("repeating the arrays: %v; want check_violation of %s", err, c.constraint)
+		}
 	}
 }

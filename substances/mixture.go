@@ -11,16 +11,6 @@ import (
 	"github.com/halovet/halovet/exact"
 )
 
-// Blend GWP conventions. Both are reported, labelled.
-const (
-	// ConventionAllComponents weights every component that has a GWP in the set (the EU
-	// F-gas method; hydrocarbons and HFOs add a little).
-	ConventionAllComponents = "all-components"
-	// ConventionAnnexFOnly weights only the Annex F (HFC) components, as the Protocol's CO2-eq
-	// consumption counts; HCFC components count in ODP tonnes in their own group.
-	ConventionAnnexFOnly = "annex-f-only"
-)
-
 // Share is one component of an ad-hoc composition.
 type Share struct {
 	Identifier string // designation, synonym, CAS number or formula of a catalogue substance
@@ -36,7 +26,7 @@ func (sh Share) percent() exact.Decimal { return exact.OfFloat(sh.MassPct) }
 // GWPFigure is a mixture's 100-year GWP under one set of values and one convention.
 type GWPFigure struct {
 	Set        GWPSet
-	Convention string        // ConventionAllComponents or ConventionAnnexFOnly
+	Convention GWPConvention
 	Value      exact.Decimal // mass-fraction-weighted sum, exact
 	GWP        float64       // Value as the nearest float64, for callers that still compute in floats
 	Complete   bool          // every component the convention counts has a value in the set
@@ -99,7 +89,7 @@ type Evaluation struct {
 }
 
 // GWP returns the figure for a set and convention.
-func (e Evaluation) GWP(set GWPSet, convention string) (GWPFigure, bool) {
+func (e Evaluation) GWP(set GWPSet, convention GWPConvention) (GWPFigure, bool) {
 	for _, g := range e.GWPs {
 		if g.Set == set && g.Convention == convention {
 			return g, true
@@ -226,7 +216,7 @@ func newCompData(s *Substance, f Formula, pct float64) compData {
 // gwpFigures computes the mixture GWPs as exact weighted sums: Σ share% × GWP / 100.
 func gwpFigures(comps []compData) []GWPFigure {
 	out := make([]GWPFigure, 0, 2*len(gwpSets)-1)
-	figure := func(i int, convention string, counts func(compData) bool) GWPFigure {
+	figure := func(i int, convention GWPConvention, counts func(compData) bool) GWPFigure {
 		sum, complete := exact.Zero, true
 		for _, c := range comps {
 			if !counts(c) {

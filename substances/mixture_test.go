@@ -24,7 +24,7 @@ func mustEvaluate(t *testing.T, c *Catalogue, name string, kg float64) Evaluatio
 	return ev
 }
 
-func gwpOf(t *testing.T, ev Evaluation, set GWPSet, conv string) GWPFigure {
+func gwpOf(t *testing.T, ev Evaluation, set GWPSet, conv GWPConvention) GWPFigure {
 	t.Helper()
 	g, ok := ev.GWP(set, conv)
 	if !ok {
@@ -38,7 +38,7 @@ func TestBlendGWPWorkedExamples(t *testing.T) {
 	tests := []struct {
 		blend string
 		set   GWPSet
-		conv  string
+		conv  GWPConvention
 		want  float64
 	}{
 		// source: AR4-basis blend GWPs (the method of Regulation (EU) No 517/2014 Annex IV); R-404A,
@@ -59,7 +59,7 @@ func TestBlendGWPWorkedExamples(t *testing.T) {
 		{"R-417A", SetAR4, ConventionAnnexFOnly, 2346},
 	}
 	for _, tc := range tests {
-		t.Run(tc.blend+"/"+string(tc.set)+"/"+tc.conv, func(t *testing.T) {
+		t.Run(tc.blend+"/"+string(tc.set)+"/"+string(tc.conv), func(t *testing.T) {
 			g := gwpOf(t, mustEvaluate(t, c, tc.blend, 1), tc.set, tc.conv)
 			if got := roundHalfUp(g.GWP); got != tc.want || !g.Complete {
 				t.Errorf("GWP %.3f rounds to %g (complete %v), want %g", g.GWP, got, g.Complete, tc.want)

@@ -229,7 +229,7 @@ func TestReferenceBlends(t *testing.T) {
 					t.Errorf("%s tolerances +%g/-%g, reference +%g/-%g", cname, got.TolPlus, got.TolMinus, plus[k], minus[k])
 				}
 			}
-			if want := strings.Fields(row["blend_type"])[0]; b.Type != want {
+			if want := BlendType(strings.Fields(row["blend_type"])[0]); b.Type != want {
 				t.Errorf("type %q, reference %q", b.Type, want)
 			}
 

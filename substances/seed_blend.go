@@ -23,7 +23,7 @@ func (t *seedTable) blend(sources map[string]string, known map[string]bool) (Ble
 		return b, t.fail("designation", "designation is required")
 	}
 	b.Synonyms = splitList(t.get("synonyms"), ";")
-	b.Type = t.get("type")
+	b.Type = BlendType(t.get("type"))
 	switch {
 	case b.Type != BlendZeotrope && b.Type != BlendAzeotrope && b.Type != BlendMixture:
 		return b, t.fail("type", "%q: use zeotrope, azeotrope or mixture", b.Type)

@@ -108,19 +108,12 @@ type Component struct {
 	TolMinus    float64 // positive number: allowed deviation below nominal
 }
 
-// Blend types.
-const (
-	BlendZeotrope  = "zeotrope"  // ASHRAE 34 400 series
-	BlendAzeotrope = "azeotrope" // ASHRAE 34 500 series
-	BlendMixture   = "mixture"   // a traded mixture without an ASHRAE 34 number, e.g. a fumigant
-)
-
 // Blend is a catalogued mixture: a refrigerant blend of the ASHRAE 34 400 or 500 series, or a
 // traded mixture without a number (methyl bromide/chloropicrin fumigants).
 type Blend struct {
 	Designation string // "R-404A"
 	Synonyms    []string
-	Type        string // BlendZeotrope, BlendAzeotrope or BlendMixture
+	Type        BlendType
 	Components  []Component
 	SafetyClass string
 	Sources     string

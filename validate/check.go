@@ -34,6 +34,12 @@ type Figures struct {
 	PartnerNotBoundGroups []substances.Group
 	SafetyClass           string   // ASHRAE 34 class of the substance or blend
 	Cautions              []string // safety cautions from the catalogue
+	// Mass is the declared quantity the net mass comes from, for the exact figures
+	// (Exacts); the float64 figures above are their nearest floats, for the rules.
+	Mass Quantity
+	// Exact, when set, holds the exact figures (a verdict read back from the wire);
+	// nil for a verdict the checker made, whose Exacts computes them from Mass.
+	Exact *FiguresExact
 }
 
 // PartnerBoundFor reports whether the partner is bound for group g (an uncontrolled
@@ -88,6 +94,7 @@ type checker struct {
 	fs     []Finding
 
 	netKg   float64
+	mass    Quantity
 	qtyOK   bool
 	date    time.Time
 	dateOK  bool
@@ -108,12 +115,13 @@ type checker struct {
 	notBound        []substances.Group // groups the partner is not bound for, in component order
 	draws           []LineDraw
 
-	fp           string               // the record's Fingerprint (when seed is nil)
-	seed         *maphash.Seed        // set by a Batch: contentHash instead of Fingerprint
-	fpHash       uint64               // contentHash(*seed, r)
-	boundsFailed bool                 // a bound was broken: no further rule ran
-	measurement  *substances.Analysis // measurementRules' comparison
-	counts       bool                 // the record counts in consumption (purposeRules)
+	fp            string               // the record's Fingerprint (when seed is nil)
+	seed          *maphash.Seed        // set by a Batch: contentHash instead of Fingerprint
+	fpHash        uint64               // contentHash(*seed, r)
+	noFingerprint bool                 // CheckUnkeyed: neither fp nor fpHash is needed
+	boundsFailed  bool                 // a bound was broken: no further rule ran
+	measurement   *substances.Analysis // measurementRules' comparison
+	counts        bool                 // the record counts in consumption (purposeRules)
 	// Where the quota is judged (quotaRules): the findings before it, the draws planned,
 	// and whether the record got that far.
 	quotaAt  int
@@ -143,14 +151,25 @@ func Check(env *Env, r *Record, ledger QuotaLedger) Verdict {
 	return c.finish(ledger)
 }
 
+// CheckUnkeyed is Check for a caller that needs no Fingerprint (a check of a record whose
+// key is not stored: nothing will be compared with it): the verdict's Fingerprint is
+// empty, and the SHA-256 over the record's content is not computed. Every other part of
+// the verdict is Check's.
+func CheckUnkeyed(env *Env, r *Record, ledger QuotaLedger) Verdict {
+	c := checker{env: env, r: r, noFingerprint: true}
+	c.rules()
+	return c.finish(ledger)
+}
+
 // rules runs every rule that does not depend on the quota earlier records drew: they are
 // pure (the environment is only read), so the records of one message may go through them
 // in parallel. finish then judges the quota and makes the verdict.
 func (c *checker) rules() {
 	c.env.prepare()
-	if c.seed != nil {
+	switch {
+	case c.seed != nil:
 		c.fpHash = contentHash(*c.seed, c.r)
-	} else {
+	case !c.noFingerprint:
 		c.fp = Fingerprint(c.r)
 	}
 	c.recordRules()
@@ -208,6 +227,7 @@ func (c *checker) finish(ledger QuotaLedger) Verdict {
 			PartnerNotBoundGroups: c.notBound,
 			SafetyClass:           c.ev.SafetyClass,
 			Cautions:              c.ev.Cautions,
+			Mass:                  c.mass,
 		}
 	}
 	sortFindings(c.fs)

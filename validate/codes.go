@@ -83,6 +83,7 @@ const (
 	CodeLicenceDirection = "LICENCE_DIRECTION"
 	CodeLicenceInactive  = "LICENCE_INACTIVE"
 	CodeLicenceScope     = "LICENCE_SCOPE"
+	CodeLicenceChanged   = "LICENCE_CHANGED"
 
 	// quota
 	CodeQuotaExceeded    = "QUOTA_EXCEEDED"
@@ -204,6 +205,7 @@ var codeTable = []CodeInfo{
 	{CodeLicenceDirection, SeverityError, "licence", "direction", "The licence does not cover the declared direction.", "A direction the licence lists (an export licence also covers re-export)."},
 	{CodeLicenceInactive, SeverityError, "licence", "licence_number", "The licence was a draft, suspended or revoked on the declaration date (its dated status history decides).", "A licence active on the declaration date."},
 	{CodeLicenceScope, SeverityError, "licence", "substance", "No quota line of the licence covers a controlled substance in the shipment (by Annex group or by substance).", "A licence with a quota line for the substance or its Annex group."},
+	{CodeLicenceChanged, SeverityError, "licence", "licence_number", "When recording: the licence was amended, or its status or a quota line changed, between the check of the record and its writing; nothing was recorded for the record.", "The same record sent again: it is judged on the licence as it now stands."},
 
 	// quota
 	{CodeQuotaExceeded, SeverityError, "quota", "total_net_quantity", "The shipment draws more than remains on the quota line (after earlier records of the same batch).", "At most the remaining amount, in the line's unit (metric t, ODP t or CO2-eq t)."},

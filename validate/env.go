@@ -81,6 +81,9 @@ type Licence struct {
 	// StatusHistory is the licence's status from each day on, in date order; empty means
 	// Status throughout. A declaration is judged by the status on its date (StatusOn).
 	StatusHistory []StatusPeriod
+	// Version counts the licence's changes in the register (amendments, status changes,
+	// closed lines); a record judged on one version is written only while it still stands.
+	Version int
 }
 
 // StatusOn returns the licence's status on day d: that of the last period of its history

@@ -6,12 +6,12 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
-	"math"
 	"slices"
 	"strconv"
 	"strings"
 	"text/tabwriter"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/terms"
 )
@@ -94,9 +94,10 @@ func (r *CSVReport) Write(v *Verdict) error {
 	if v.Resolved {
 		row[3] = cellText(v.Figures.Designation)
 		row[4] = kindName(v.Figures.Kind)
-		row[5] = fmtNumber(v.Figures.NetMassKg)
-		row[6] = fmtNumber(v.Figures.ODPTonnes)
-		row[7] = fmtNumber(v.Figures.CO2eTonnes)
+		x := v.Figures.Exacts()
+		row[5] = x.NetMassKg.String()
+		row[6] = x.ODPTonnes.String()
+		row[7] = x.CO2eTonnes.String()
 		row[8] = strconv.FormatBool(v.Figures.CountsInConsumption)
 	}
 	row[9], row[10], row[11] = strconv.Itoa(ne), strconv.Itoa(nw), strconv.Itoa(nn)
@@ -134,10 +135,6 @@ func kindName(k substances.Kind) string {
 	return ""
 }
 
-// fmtNumber writes a figure with at most 9 decimals (the store's resolution), without
-// trailing zeros, so binary rounding noise does not reach the report.
-func fmtNumber(f float64) string { return fmtAmount(f) }
-
 // JSONLReport writes one JSON object per verdict per line (JSON Lines), so a report streams
 // and can be read back line by line like the input. Keys are snake_case as in the wire
 // message halovet.v1.Verdict, with enums as lower-case words.
@@ -161,23 +158,25 @@ type jsonFinding struct {
 	Message  string `json:"message"`
 }
 
+// The figures are exact decimal strings, as on the wire (DEVELOPERS.md, "Figures on the
+// wire"); a draw's amount is in the store's billionths.
 type jsonComponent struct {
-	Designation string  `json:"designation"`
-	AnnexGroup  string  `json:"annex_group"`
-	MassPercent float64 `json:"mass_percent"`
-	MassKg      float64 `json:"mass_kg"`
-	ODPTonnes   float64 `json:"odp_tonnes"`
-	CO2eTonnes  float64 `json:"co2e_tonnes"`
+	Designation string `json:"designation"`
+	AnnexGroup  string `json:"annex_group"`
+	MassPercent string `json:"mass_percent"`
+	MassKg      string `json:"mass_kg"`
+	ODPTonnes   string `json:"odp_tonnes"`
+	CO2eTonnes  string `json:"co2e_tonnes"`
 }
 
 type jsonFigures struct {
-	ResolvedDesignation string  `json:"resolved_designation"`
-	Kind                string  `json:"kind"`
-	NetMassKg           float64 `json:"net_mass_kg"`
-	ODPTonnes           float64 `json:"odp_tonnes"`
-	CO2eTonnes          float64 `json:"co2e_tonnes"`
-	CountsInConsumption bool    `json:"counts_in_consumption"`
-	PartnerNonParty     bool    `json:"partner_non_party"`
+	ResolvedDesignation string `json:"resolved_designation"`
+	Kind                string `json:"kind"`
+	NetMassKg           string `json:"net_mass_kg"`
+	ODPTonnes           string `json:"odp_tonnes"`
+	CO2eTonnes          string `json:"co2e_tonnes"`
+	CountsInConsumption bool   `json:"counts_in_consumption"`
+	PartnerNonParty     bool   `json:"partner_non_party"`
 	// PartnerNotBoundGroups: the groups the partner is not bound for (omitted when none).
 	PartnerNotBoundGroups []string        `json:"partner_not_bound_groups,omitempty"`
 	SafetyClass           string          `json:"safety_class"`
@@ -185,10 +184,10 @@ type jsonFigures struct {
 }
 
 type jsonDraw struct {
-	LicenceNumber string  `json:"licence_number"`
-	LineNumber    int     `json:"line_number"`
-	Unit          string  `json:"unit"`
-	Amount        float64 `json:"amount"`
+	LicenceNumber string `json:"licence_number"`
+	LineNumber    int    `json:"line_number"`
+	Unit          string `json:"unit"`
+	Amount        string `json:"amount"`
 }
 
 type jsonVerdict struct {
@@ -210,34 +209,30 @@ func (r *JSONLReport) Write(v *Verdict) error {
 		jv.Findings[i] = jsonFinding{f.Code, f.Severity.String(), f.Field, f.Message}
 	}
 	if v.Resolved {
+		x := v.Figures.Exacts()
 		fg := &jsonFigures{ResolvedDesignation: v.Figures.Designation, Kind: kindName(v.Figures.Kind),
-			NetMassKg: round9(v.Figures.NetMassKg), ODPTonnes: round9(v.Figures.ODPTonnes), CO2eTonnes: round9(v.Figures.CO2eTonnes),
+			NetMassKg: x.NetMassKg.String(), ODPTonnes: x.ODPTonnes.String(), CO2eTonnes: x.CO2eTonnes.String(),
 			CountsInConsumption: v.Figures.CountsInConsumption, PartnerNonParty: v.Figures.PartnerNonParty,
 			SafetyClass: v.Figures.SafetyClass, Components: make([]jsonComponent, len(v.Figures.Components))}
 		for _, g := range v.Figures.PartnerNotBoundGroups {
 			fg.PartnerNotBoundGroups = append(fg.PartnerNotBoundGroups, string(g))
 		}
 		for i, c := range v.Figures.Components {
-			fg.Components[i] = jsonComponent{c.Designation, string(c.Group), c.MassPct, round9(c.MassKg), round9(c.ODPTonnes), round9(c.CO2eTonnes)}
+			var cx substances.ComponentExact
+			if i < len(x.Components) {
+				cx = x.Components[i]
+			}
+			fg.Components[i] = jsonComponent{c.Designation, string(c.Group), cx.MassPct.String(), cx.MassKg.String(), cx.ODPTonnes.String(), cx.CO2eTonnes.String()}
 		}
 		jv.Figures = fg
 	}
 	for _, d := range v.Draws {
-		jv.Draws = append(jv.Draws, jsonDraw{d.LicenceNumber, d.LineNumber, d.Unit.Symbol(), round9(d.Amount)})
+		jv.Draws = append(jv.Draws, jsonDraw{d.LicenceNumber, d.LineNumber, d.Unit.Symbol(), fmtAmount(d.Amount)})
 	}
 	if err := r.enc.Encode(&jv); err != nil {
 		return fmt.Errorf("writing JSON report line for line %d: %w", v.Line, err)
 	}
 	return nil
-}
-
-// round9 rounds to 9 decimals (the store's resolution) so that binary noise such as
-// 0.0074800000000000005 is written as 0.00748.
-func round9(f float64) float64 {
-	if math.IsNaN(f) || math.IsInf(f, 0) || math.Abs(f) > 1e9 {
-		return f
-	}
-	return math.Round(f*1e9) / 1e9
 }
 
 // Close implements ReportWriter.
@@ -248,12 +243,12 @@ func (r *JSONLReport) Close() error {
 	return nil
 }
 
-// Totals sum the figures of accepted records.
+// Totals sum the figures of accepted records, exactly (from Figures.Exacts).
 type Totals struct {
 	Records    int64
-	NetMassKg  float64
-	ODPTonnes  float64
-	CO2eTonnes float64
+	NetMassKg  exact.Decimal
+	ODPTonnes  exact.Decimal
+	CO2eTonnes exact.Decimal
 }
 
 // Summary counts the verdicts of a batch.
@@ -298,10 +293,11 @@ func (s *Summary) Add(v *Verdict, direction terms.Direction) {
 			t = &Totals{}
 			s.ByDirection[direction] = t
 		}
+		x := v.Figures.Exacts()
 		t.Records++
-		t.NetMassKg += v.Figures.NetMassKg
-		t.ODPTonnes += v.Figures.ODPTonnes
-		t.CO2eTonnes += v.Figures.CO2eTonnes
+		t.NetMassKg = t.NetMassKg.Add(x.NetMassKg)
+		t.ODPTonnes = t.ODPTonnes.Add(x.ODPTonnes)
+		t.CO2eTonnes = t.CO2eTonnes.Add(x.CO2eTonnes)
 	}
 	if v.Resolved {
 		for _, c := range v.Figures.Cautions {
@@ -372,7 +368,10 @@ func (s *Summary) WriteText(w io.Writer) error {
 			if name == "" {
 				name = "(none)"
 			}
-			fmt.Fprintf(tw, "%s\t%d\t%.3f\t%.4f\t%.3f\t\n", name, t.Records, t.NetMassKg, t.ODPTonnes, t.CO2eTonnes)
+			// Rounded for display only, to the places of exact.Units, written fixed so that
+			// the columns align.
+			fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t\n", name, t.Records, t.NetMassKg.Fixed(exact.Kg.Spec().Places),
+				t.ODPTonnes.Fixed(exact.ODPTonnes.Spec().Places), t.CO2eTonnes.Fixed(exact.CO2eTonnes.Spec().Places))
 		}
 		if err := tw.Flush(); err != nil {
 			return err

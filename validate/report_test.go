@@ -130,7 +130,9 @@ func TestReportWriters(t *testing.T) {
 		}
 		if n == 0 {
 			fig := obj["figures"].(map[string]any)
-			if fig["resolved_designation"] != "HCFC-22" || fig["net_mass_kg"].(float64) != 136 {
+			// 136 kg HCFC-22 × ODP 0.055 / 1000 = 0.00748 ODP t (Montreal Protocol Annex C Group I), as
+			// an exact decimal string; "0" CO2-eq t (no Annex F component).
+			if fig["resolved_designation"] != "HCFC-22" || fig["net_mass_kg"] != "136" || fig["odp_tonnes"] != "0.00748" || fig["co2e_tonnes"] != "0" {
 				t.Errorf("JSON figures %v", fig)
 			}
 			draws := obj["draws"].([]any)
@@ -175,7 +177,7 @@ func TestSummaryText(t *testing.T) {
 		t.Errorf("errors by code %v", e)
 	}
 	imp := s.ByDirection[terms.DirectionImport]
-	if imp == nil || imp.Records != 3 || imp.NetMassKg != 286 {
+	if imp == nil || imp.Records != 3 || imp.NetMassKg.String() != "286" {
 		t.Errorf("import totals %+v; want 3 accepted records, 136 + 100 + 50 kg", imp)
 	}
 	var out strings.Builder

@@ -124,6 +124,7 @@ func (c *checker) quantityRules() {
 		return
 	}
 	c.netKg, c.qtyOK = kg, true
+	c.mass = Quantity{Value: used, Unit: u, Packages: usedN}
 	if n > 0 {
 		per := kg / float64(n)
 		switch {

@@ -16,6 +16,7 @@ import (
 
 	"github.com/halovet/halovet/access"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/store"
 )
 
@@ -69,7 +70,7 @@ func defineCredIssue(fs *pflag.FlagSet) runFunc {
 		if err != nil {
 			return usageErr("--role: %v", err)
 		}
-		req := &halovetv1.IssueCredentialRequest{Name: *name, Role: string(r), CompanyId: *company}
+		req := &halovetv1.IssueCredentialRequest{Name: *name, Role: wireterms.RoleToWire(r), CompanyId: *company}
 		if *expires != "" {
 			t, err := parseExpiry(*expires)
 			if err != nil {
@@ -93,7 +94,7 @@ func defineCredIssue(fs *pflag.FlagSet) runFunc {
 			if !created {
 				what = "already stored"
 			}
-			fmt.Fprintf(os.Stderr, "credential %s %s for %s (role %s%s)%s\n", c.GetCredentialId(), what, c.GetName(), c.GetRole(),
+			fmt.Fprintf(os.Stderr, "credential %s %s for %s (role %s%s)%s\n", c.GetCredentialId(), what, c.GetName(), wireterms.RoleWord(c.GetRole()),
 				ifSet(", company ", c.GetCompanyId()), ifSet(", revoked ", tsText(c.GetRevokedAt())))
 			return nil
 		}
@@ -128,7 +129,7 @@ func defineCredIssue(fs *pflag.FlagSet) runFunc {
 		}
 		c := resp.GetCredential()
 		fmt.Fprintf(os.Stderr, "issued credential %s to %s (role %s%s)%s; the secret is shown this once\n",
-			c.GetCredentialId(), c.GetName(), c.GetRole(), ifSet(", company ", c.GetCompanyId()), ifSet(", expires ", tsText(c.GetExpiresAt())))
+			c.GetCredentialId(), c.GetName(), wireterms.RoleWord(c.GetRole()), ifSet(", company ", c.GetCompanyId()), ifSet(", expires ", tsText(c.GetExpiresAt())))
 		return nil
 	}
 }
@@ -193,7 +194,7 @@ func issueDirect(ctx context.Context, url string, req *halovetv1.IssueCredential
 		return nil, err
 	}
 	defer st.Close()
-	nc := store.NewCredential{Name: req.GetName(), Role: access.Role(req.GetRole()), CompanyID: req.GetCompanyId()}
+	nc := store.NewCredential{Name: req.GetName(), Role: roleOf(req.GetRole()), CompanyID: req.GetCompanyId()}
 	if req.ExpiresAt != nil {
 		nc.ExpiresAt = req.GetExpiresAt().AsTime()
 		if !nc.ExpiresAt.After(time.Now()) {
@@ -233,7 +234,7 @@ func importDirect(ctx context.Context, url, file string, req *halovetv1.IssueCre
 	}
 	defer st.Close()
 	c, created, err := st.EnsureCredential(ctx, id, access.HashSecret(secret),
-		store.NewCredential{Name: req.GetName(), Role: access.Role(req.GetRole()), CompanyID: req.GetCompanyId()})
+		store.NewCredential{Name: req.GetName(), Role: roleOf(req.GetRole()), CompanyID: req.GetCompanyId()})
 	if errors.Is(err, store.ErrCredentialInput) {
 		return nil, false, usageErr("%v", err)
 	}
@@ -243,8 +244,15 @@ func importDirect(ctx context.Context, url, file string, req *halovetv1.IssueCre
 	return storedToProto(c), created, nil
 }
 
+// roleOf is the role of a wire value; a value no .proto declares reads as no role, which the
+// store refuses naming the roles it accepts.
+func roleOf(w halovetv1.Role) access.Role {
+	r, _ := wireterms.RoleFromWire(w)
+	return r
+}
+
 func storedToProto(c store.StoredCredential) *halovetv1.Credential {
-	p := &halovetv1.Credential{CredentialId: c.ID, Name: c.Name, Role: string(c.Role), CompanyId: c.CompanyID,
+	p := &halovetv1.Credential{CredentialId: c.ID, Name: c.Name, Role: wireterms.RoleToWire(c.Role), CompanyId: c.CompanyID,
 		CreatedAt: timestamppb.New(c.CreatedAt), CreatedBy: c.CreatedBy, RevokedBy: c.RevokedBy}
 	if !c.ExpiresAt.IsZero() {
 		p.ExpiresAt = timestamppb.New(c.ExpiresAt)
@@ -289,7 +297,8 @@ func defineCredList(fs *pflag.FlagSet) runFunc {
 				resp.Credentials = append(resp.Credentials, storedToProto(c))
 			}
 		} else if err := withConn(&cf, func(conn *grpc.ClientConn) (err error) {
-			resp, err = halovetv1.NewAccessServiceClient(conn).ListCredentials(ctx, &halovetv1.ListCredentialsRequest{IncludeRevoked: *revoked})
+			resp, err = halovetv1.ReadAllPages(ctx, halovetv1.NewAccessServiceClient(conn).ListCredentials,
+				&halovetv1.ListCredentialsRequest{IncludeRevoked: *revoked, PageSize: listPageSize}, "credentials")
 			return err
 		}); err != nil {
 			return err
@@ -305,7 +314,7 @@ func writeCredentials(w io.Writer, cs []*halovetv1.Credential) error {
 	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
 	fmt.Fprintln(tw, "ID\tNAME\tROLE\tCOMPANY\tISSUED\tBY\tEXPIRES\tREVOKED")
 	for _, c := range cs {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", c.GetCredentialId(), c.GetName(), c.GetRole(), dash(c.GetCompanyId()),
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", c.GetCredentialId(), c.GetName(), wireterms.RoleWord(c.GetRole()), dash(c.GetCompanyId()),
 			tsText(c.GetCreatedAt()), c.GetCreatedBy(), dash(tsText(c.GetExpiresAt())), dash(strings.TrimSpace(tsText(c.GetRevokedAt())+" "+ifSet("by ", c.GetRevokedBy()))))
 	}
 	fmt.Fprintf(tw, "%d credentials\n", len(cs))
@@ -362,7 +371,7 @@ func defineCredRevoke(fs *pflag.FlagSet) runFunc {
 		}); err != nil {
 			return err
 		}
-		fmt.Printf("credential %s (%s, %s) revoked at %s by %s\n", c.GetCredentialId(), c.GetName(), c.GetRole(), tsText(c.GetRevokedAt()), c.GetRevokedBy())
+		fmt.Printf("credential %s (%s, %s) revoked at %s by %s\n", c.GetCredentialId(), c.GetName(), wireterms.RoleWord(c.GetRole()), tsText(c.GetRevokedAt()), c.GetRevokedBy())
 		return nil
 	}
 }
@@ -501,12 +510,12 @@ func defineAuditVerify(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		if resp.GetIntact() {
-			fmt.Printf("audit chain intact: %d events\n", resp.GetEvents())
+			fmt.Printf("audit chain intact: %d events\n", resp.GetEventsChecked())
 			return nil
 		}
 		for _, b := range resp.GetBreaks() {
 			fmt.Printf("event %d: %s\n", b.GetSeq(), b.GetReason())
 		}
-		return rejectedErr("audit chain broken: %d problems in %d events", len(resp.GetBreaks()), resp.GetEvents())
+		return rejectedErr("audit chain broken: %d problems in %d events", len(resp.GetBreaks()), resp.GetEventsChecked())
 	}
 }

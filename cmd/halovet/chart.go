@@ -50,7 +50,8 @@ func writeChartFile(path string, resp *halovetv1.AssessComplianceResponse, party
 // reportingPartyName asks the server for the reporting Party's name, for the chart's
 // title; "" when none is set (the title then names the group only).
 func reportingPartyName(ctx context.Context, conn grpc.ClientConnInterface) (string, error) {
-	resp, err := halovetv1.NewLicensingServiceClient(conn).ListParties(ctx, &halovetv1.ListPartiesRequest{})
+	resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewLicensingServiceClient(conn).ListParties,
+		&halovetv1.ListPartiesRequest{PageSize: listPageSize}, "parties")
 	if err != nil {
 		return "", err
 	}

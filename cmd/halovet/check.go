@@ -210,10 +210,13 @@ func verdictsOf(one *halovetv1.Verdict, many *halovetv1.VerdictBatch) []*halovet
 
 type checkStream struct {
 	s halovetv1.ShipmentService_CheckShipmentsClient
+	// components asks for the per-component figures (the JSON Lines report writes them);
+	// the server reads it on the first message.
+	components bool
 }
 
 func (c checkStream) send(r []*halovetv1.ShipmentRecord) error {
-	return c.s.Send(&halovetv1.CheckShipmentsRequest{Records: r})
+	return c.s.Send(&halovetv1.CheckShipmentsRequest{Records: r, ComponentFigures: c.components})
 }
 func (c checkStream) closeSend() error { return c.s.CloseSend() }
 func (c checkStream) recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
@@ -289,7 +292,8 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		if err != nil {
 			return nil, err
 		}
-		stream = checkStream{s}
+		_, jsonl := rep.(*validate.JSONLReport)
+		stream = checkStream{s: s, components: jsonl}
 	}
 
 	// The sender reads the file and sends; the items channel carries the order to the

@@ -144,6 +144,7 @@ var unreachableFromCSV = map[string]string{
 	validate.CodeHCFCTailUse:        hcfcTailNotInDemo,
 	validate.CodeHCFCTailUseMissing: hcfcTailNotInDemo,
 	validate.CodeYearClosed:         "given by recording into a reporting year an officer closed; the demo closes no year; service TestRecordInClosedYear makes it fire",
+	validate.CodeLicenceChanged:     "given by recording when the licence changes between the check of a record and its writing, a race a file check cannot stage; store TestRecordRefusesARowJudgedOnAnOlderLicenceVersion makes it fire",
 	validate.CodeQuotaLineInvalid:   "the API (IssueLicence, AmendLicence) and the quota_lines CHECK constraints refuse a line without a unit or with a negative allocation, so no stored licence has one; validate's unit tests make it fire",
 }
 

@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 // CSV of lookup and mix: the column names are the .proto field names of the values they
@@ -14,7 +15,8 @@ import (
 
 // lookupGwpSets are the GWP columns of lookup's CSV, in this order: the Protocol's Annex
 // values, then the IPCC assessment reports.
-var lookupGwpSets = []string{"MP", "AR4", "AR5", "AR6"}
+var lookupGwpSets = []halovetv1.GwpSet{halovetv1.GwpSet_GWP_SET_PROTOCOL_ANNEXES, halovetv1.GwpSet_GWP_SET_IPCC_AR4,
+	halovetv1.GwpSet_GWP_SET_IPCC_AR5, halovetv1.GwpSet_GWP_SET_IPCC_AR6}
 
 var lookupCSVHeader = []string{"identifier", "result", "designation", "kind", "annex_group", "chemical_name",
 	"formula", "cas_number", "odp", "gwp_100yr_mp", "gwp_100yr_ar4", "gwp_100yr_ar5", "gwp_100yr_ar6", "lifetime_years", "molar_mass_g_per_mol",
@@ -58,20 +60,20 @@ func lookupCSVRow(r lookupResult) []string {
 	for _, g := range ev.GetGwps() {
 		for _, want := range lookupGwpSets {
 			if g.GetGwpSet() == want {
-				set("gwp_100yr_"+strings.ToLower(want), g.GetGwp_100Yr())
+				set("gwp_100yr_"+strings.ToLower(wireterms.GWPSetWord(want)), g.GetGwp_100Yr())
 			}
 		}
 	}
 	set("safety_class", ev.GetSafetyClass())
 	set("hs2022_subheading", ev.GetHs2022Subheading())
-	if s := r.entry.GetEntry().GetSubstance(); s != nil {
+	if s := r.entry.GetSubstance(); s != nil {
 		set("annex_group", s.GetAnnexGroup())
 		set("chemical_name", s.GetChemicalName())
 		set("formula", s.GetFormula())
 		set("cas_number", s.GetCasNumber())
 		set("lifetime_years", s.GetLifetimeYears())
 		set("molar_mass_g_per_mol", s.GetMolarMassGPerMol())
-	} else if b := r.entry.GetEntry().GetBlend(); b != nil {
+	} else if b := r.entry.GetBlend(); b != nil {
 		parts := make([]string, len(b.GetComponents()))
 		for i, c := range b.GetComponents() {
 			parts[i] = c.GetDesignation() + ":" + c.GetMassPercent()
@@ -93,7 +95,7 @@ func writeMixCSV(w io.Writer, ev *halovetv1.EvaluateMixtureResponse) error {
 	}
 	gwp := ""
 	for _, g := range ev.GetGwps() {
-		if g.GetGwpSet() == "MP" {
+		if g.GetGwpSet() == halovetv1.GwpSet_GWP_SET_PROTOCOL_ANNEXES {
 			gwp = g.GetGwp_100Yr()
 		}
 	}

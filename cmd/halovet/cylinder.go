@@ -103,7 +103,7 @@ func cylinderRequest(reading, declared string, massKg, uncertainty float64, near
 		return nil, usageErr("READING is empty: give the shares the analyser reports, e.g. \"HCFC-22=95±0.5;air=5\"")
 	}
 	req := &halovetv1.AnalyseReadingRequest{Declared: strings.TrimSpace(declared), NetMassKg: wireOf(massKg),
-		UncertaintyPoints: wireOf(uncertainty), NearMisses: int32(near)}
+		UncertaintyPoints: wireOf(uncertainty), NearMissCount: int32(near)}
 	for _, s := range shares {
 		req.Components = append(req.Components, &halovetv1.MeasuredShare{Identifier: s.Identifier, MassPercent: wireOf(s.MassPct), UncertaintyPoints: wireOf(s.Uncertainty)})
 	}

@@ -148,7 +148,7 @@ func defineDemo(fs *pflag.FlagSet) runFunc {
 		if err := showHealthAndServices(ctx, conn, out); err != nil {
 			return err
 		}
-		issued, err := halovetv1.NewAccessServiceClient(conn).IssueCredential(ctx, &halovetv1.IssueCredentialRequest{Name: demoCustoms, Role: string(access.RoleCustoms)})
+		issued, err := halovetv1.NewAccessServiceClient(conn).IssueCredential(ctx, &halovetv1.IssueCredentialRequest{Name: demoCustoms, Role: halovetv1.Role_ROLE_CUSTOMS})
 		if err != nil {
 			return err
 		}
@@ -250,7 +250,7 @@ func demoAudit(ctx context.Context, conn *grpc.ClientConn, out io.Writer) error 
 	if err != nil {
 		return err
 	}
-	fmt.Fprintf(out, "  hash chain over %d events intact: %v\n", v.GetEvents(), v.GetIntact())
+	fmt.Fprintf(out, "  hash chain over %d events intact: %v\n", v.GetEventsChecked(), v.GetIntact())
 	return nil
 }
 

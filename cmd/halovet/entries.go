@@ -314,7 +314,8 @@ func defineEntries(fs *pflag.FlagSet) runFunc {
 		}
 		defer conn.Close()
 		if *list {
-			resp, err := halovetv1.NewConsumptionServiceClient(conn).ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{Year: int32(*year)})
+			resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewConsumptionServiceClient(conn).ListNationalEntries,
+				&halovetv1.ListNationalEntriesRequest{Year: int32(*year), PageSize: listPageSize}, "entries")
 			if err != nil {
 				return err
 			}

@@ -37,7 +37,7 @@ func TestExitCodeContract(t *testing.T) {
 	badRegistry := filepath.Join(dir, "bad-registry.json")
 	writeFile(t, badRegistry, `{"companies": [{"companyId": "XA-9001", "name": "Invented"}], "licences": [
 	  {"licenceNumber": "XA-IMP-2026-901", "companyId": "XA-9001", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31",
-	   "quotaLines": [{"annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocated": 1}]},
+	   "quotaLines": [{"annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocatedAmount": "1"}]},
 	  {"licenceNumber": "XA-IMP-2026-902", "companyId": "NOBODY", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31"}]}`)
 	unknownFix := filepath.Join(dir, "unknown-fix.csv")
 	writeFile(t, unknownFix, lines[0]+"\nNO-SUCH-KEY,import,XA-1002,XA-IMP-2026-002,XB,2026-01-05,HCFC-22,,,,1,kg,,,servicing,,,\n")

@@ -12,6 +12,7 @@ import (
 
 	"github.com/spf13/pflag"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/terms"
@@ -181,15 +182,15 @@ func defineAmend(fs *pflag.FlagSet) runFunc {
 		if len(*allocate) == 0 && len(*addLine) == 0 && *validFrom == "" && *validTo == "" {
 			return usageErr("nothing to amend: give --allocate, --add-line, --valid-from or --valid-to (see --help)")
 		}
-		allocs := map[int32]float64{}
+		allocs := map[int32]string{}
 		for _, a := range *allocate {
 			ln, amt, ok := strings.Cut(a, "=")
 			n, err1 := strconv.ParseInt(ln, 10, 32)
-			v, err2 := strconv.ParseFloat(amt, 64)
-			if !ok || err1 != nil || err2 != nil || n < 1 {
-				return usageErr("--allocate %q: give LINE=AMOUNT, e.g. 1=12.5", a)
+			v, err2 := exact.Parse(amt)
+			if !ok || err1 != nil || err2 != nil || n < 1 || v.Sign() < 0 {
+				return usageErr("--allocate %q: give LINE=AMOUNT with the amount a decimal 0 or more in the line's unit, e.g. 1=12.5", a)
 			}
-			allocs[int32(n)] = v
+			allocs[int32(n)] = v.String()
 		}
 		var added []*halovetv1.QuotaLine
 		for _, a := range *addLine {
@@ -213,7 +214,7 @@ func defineAmend(fs *pflag.FlagSet) runFunc {
 		top := int32(0)
 		for _, q := range l.GetQuotaLines() {
 			if v, ok := allocs[q.GetLineNumber()]; ok {
-				q.Allocated = v
+				q.AllocatedAmount = v
 				delete(allocs, q.GetLineNumber())
 			}
 			top = max(top, q.GetLineNumber())
@@ -260,11 +261,11 @@ func parseLineSpec(flag, spec string) (*halovetv1.QuotaLine, error) {
 	if err != nil || qu == terms.QuotaUnitUnspecified {
 		return nil, usageErr("%s %q: unit %q: use metric-t, odp-t or co2e-t", flag, spec, unit)
 	}
-	v, err := strconv.ParseFloat(amount, 64)
-	if err != nil || v < 0 {
-		return nil, usageErr("%s %q: amount %q is not a number 0 or more", flag, spec, amount)
+	v, err := exact.Parse(amount)
+	if err != nil || v.Sign() < 0 {
+		return nil, usageErr("%s %q: amount %q is not a decimal 0 or more (plain notation with a point, e.g. 2.5)", flag, spec, amount)
 	}
-	q := &halovetv1.QuotaLine{Unit: u, Allocated: v}
+	q := &halovetv1.QuotaLine{Unit: u, AllocatedAmount: v.String()}
 	if strings.Contains(scope, "/") {
 		q.AnnexGroup = scope
 	} else {
@@ -353,7 +354,8 @@ func defineHistory(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		defer conn.Close()
-		resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicenceHistory(ctx, &halovetv1.ListLicenceHistoryRequest{LicenceNumber: args[0]})
+		resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewLicensingServiceClient(conn).ListLicenceHistory,
+			&halovetv1.ListLicenceHistoryRequest{LicenceNumber: args[0], PageSize: listPageSize}, "events")
 		if err != nil {
 			return err
 		}

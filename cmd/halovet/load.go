@@ -14,6 +14,7 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/protobuf/reflect/protoreflect"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/terms"
@@ -196,7 +197,8 @@ quota lines is listed once, with "-" for the line.
 --output text (default) prints a table for people, ending with the decision-support
 notice; --output csv one row per quota line (columns licence_number, company_id,
 status, valid_from, valid_to, directions, special_purposes, line_number, annex_group,
-substance, unit, allocated, drawn, remaining; lists joined by ";"); --output json the
+substance, unit, allocated_amount, drawn_amount, remaining_amount (exact decimals in
+the line's unit); lists joined by ";"); --output json the
 ListLicencesResponse ('halovet help json').
 
 Examples:
@@ -224,8 +226,8 @@ func defineLicences(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		defer conn.Close()
-		resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicences(ctx,
-			&halovetv1.ListLicencesRequest{CompanyId: *company, Year: int32(*year)})
+		resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewLicensingServiceClient(conn).ListLicences,
+			&halovetv1.ListLicencesRequest{CompanyId: *company, Year: int32(*year), PageSize: listPageSize}, "licences")
 		if err != nil {
 			return err
 		}
@@ -235,8 +237,8 @@ func defineLicences(fs *pflag.FlagSet) runFunc {
 
 // printLicences lists the licences as text (the demo's step).
 func printLicences(ctx context.Context, conn *grpc.ClientConn, w io.Writer, company string, year int32) error {
-	resp, err := halovetv1.NewLicensingServiceClient(conn).ListLicences(ctx,
-		&halovetv1.ListLicencesRequest{CompanyId: company, Year: year})
+	resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewLicensingServiceClient(conn).ListLicences,
+		&halovetv1.ListLicencesRequest{CompanyId: company, Year: year, PageSize: listPageSize}, "licences")
 	if err != nil {
 		return err
 	}
@@ -262,7 +264,7 @@ func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output str
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"licence_number", "company_id", "status", "valid_from", "valid_to", "directions",
-			"special_purposes", "line_number", "annex_group", "substance", "unit", "allocated", "drawn", "remaining", "line_purposes"})
+			"special_purposes", "line_number", "annex_group", "substance", "unit", "allocated_amount", "drawn_amount", "remaining_amount", "line_purposes"})
 		for _, l := range resp.GetLicences() {
 			head := []string{l.GetLicenceNumber(), l.GetCompanyId(), words([]halovetv1.LicenceStatus{l.GetStatus()}, ""),
 				l.GetValidFrom(), l.GetValidTo(), words(l.GetDirections(), ";"), words(l.GetSpecialPurposes(), ";")}
@@ -271,7 +273,7 @@ func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output str
 			}
 			for _, q := range l.GetQuotaLines() {
 				_ = cw.Write(append(append([]string{}, head...), strconv.Itoa(int(q.GetLineNumber())), q.GetAnnexGroup(), q.GetSubstance(),
-					words([]halovetv1.QuotaUnit{q.GetUnit()}, ""), fmtFull(q.GetAllocated()), fmtFull(q.GetDrawn()), fmtFull(q.GetRemaining()),
+					words([]halovetv1.QuotaUnit{q.GetUnit()}, ""), q.GetAllocatedAmount(), q.GetDrawnAmount(), q.GetRemainingAmount(),
 					words(q.GetPurposes(), ";")))
 			}
 		}
@@ -307,13 +309,13 @@ func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output str
 				scope += " for " + p
 			}
 			used := "-"
-			if q.GetAllocated() > 0 {
-				used = fmtFixed(100*q.GetDrawn()/q.GetAllocated(), 1)
+			if a := wireDec(q.GetAllocatedAmount()); a.Sign() > 0 {
+				used = wireDec(q.GetDrawnAmount()).Shift(2).DivRound(a, 1).Fixed(1)
 			}
 			unit := quotaUnitSymbol(q.GetUnit())
-			f := func(v float64) string { return fmtUnit(v, unit) }
+			f := func(s string) string { return quotaShown(s, q.GetUnit()) }
 			fmt.Fprintf(tw, "%s%d\t%s\t%s\t%s\t%s\t%s\t%s\t\n", head, q.GetLineNumber(), scope,
-				f(q.GetAllocated()), f(q.GetDrawn()), f(q.GetRemaining()), unit, used)
+				f(q.GetAllocatedAmount()), f(q.GetDrawnAmount()), f(q.GetRemainingAmount()), unit, used)
 		}
 	}
 	if err := tw.Flush(); err != nil {
@@ -331,6 +333,20 @@ func statusLabel(s halovetv1.LicenceStatus) string {
 }
 
 // quotaUnitSymbol prints a wire quota unit beside a figure ("ODP t"); "" when unspecified.
+// quotaShown shows a quota amount (a wire decimal in the line's unit u) rounded for u's
+// row of exact.Units.
+func quotaShown(s string, u halovetv1.QuotaUnit) string {
+	switch u {
+	case halovetv1.QuotaUnit_QUOTA_UNIT_METRIC_TONNES:
+		return shown(s, exact.Tonnes)
+	case halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES:
+		return shown(s, exact.ODPTonnes)
+	case halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES:
+		return shown(s, exact.CO2eTonnes)
+	}
+	return s
+}
+
 func quotaUnitSymbol(u halovetv1.QuotaUnit) string {
 	d, _ := wireterms.QuotaUnitFromWire(u)
 	return d.Symbol()

@@ -16,6 +16,7 @@ import (
 
 	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 func init() {
@@ -128,7 +129,7 @@ func lookupOne(ctx context.Context, client halovetv1.CatalogueServiceClient, id 
 			if err != nil {
 				return r, rpcFailure("reading the entry "+c.GetDesignation(), err)
 			}
-			r.casOf[c.GetDesignation()] = e.GetEntry().GetSubstance().GetCasNumber()
+			r.casOf[c.GetDesignation()] = e.GetSubstance().GetCasNumber()
 		}
 		return r, nil
 	}
@@ -136,8 +137,7 @@ func lookupOne(ctx context.Context, client halovetv1.CatalogueServiceClient, id 
 	if r.entry, err = client.GetEntry(ctx, &halovetv1.GetEntryRequest{Designation: best}); err != nil {
 		return r, rpcFailure("reading the entry "+best, err)
 	}
-	if r.evaluation, err = client.EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{
-		Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: best}}); err != nil {
+	if r.evaluation, err = client.EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{Blend: best}); err != nil {
 		return r, rpcFailure("evaluating "+best, err)
 	}
 	return r, nil
@@ -239,9 +239,9 @@ func writeLookupText(w io.Writer, r lookupResult) error {
 		}
 		fmt.Fprintf(w, "%s  (from %q, by %s)\n", c.GetDesignation(), r.identifier, how)
 		kv := &lookupLines{w: w}
-		if s := r.entry.GetEntry().GetSubstance(); s != nil {
+		if s := r.entry.GetSubstance(); s != nil {
 			writeSubstanceText(kv, s)
-		} else if b := r.entry.GetEntry().GetBlend(); b != nil {
+		} else if b := r.entry.GetBlend(); b != nil {
 			writeBlendText(kv, b, r.evaluation)
 		}
 		return kv.err
@@ -337,8 +337,8 @@ func writeSubstanceText(kv *lookupLines, s *halovetv1.Substance) {
 		if i == 0 {
 			key = "GWP (100-year)"
 		}
-		v := fmt.Sprintf("%-4s %s", g.GetGwpSet(), shown(g.GetGwp_100Yr(), exact.GWP))
-		if g.GetGwpSet() == "MP" {
+		v := fmt.Sprintf("%-4s %s", wireterms.GWPSetWord(g.GetGwpSet()), shown(g.GetGwp_100Yr(), exact.GWP))
+		if g.GetGwpSet() == halovetv1.GwpSet_GWP_SET_PROTOCOL_ANNEXES {
 			v += "  (Protocol annex value)"
 		}
 		if g.GetSource() != "" {
@@ -352,7 +352,10 @@ func writeSubstanceText(kv *lookupLines, s *halovetv1.Substance) {
 	}
 	kv.line("lifetime", life)
 	kv.line("molar mass", textOrDash(shown(s.GetMolarMassGPerMol(), exact.GPerMol))+" g/mol")
-	for _, ed := range []struct{ key, edition string }{{"HS 2017", "HS2017"}, {"HS 2022", "HS2022"}} {
+	for _, ed := range []struct {
+		key     string
+		edition halovetv1.HsEdition
+	}{{"HS 2017", halovetv1.HsEdition_HS_EDITION_HS_2017}, {"HS 2022", halovetv1.HsEdition_HS_EDITION_HS_2022}} {
 		var codes []string
 		for _, h := range s.GetHsCodes() {
 			if h.GetEdition() != ed.edition {
@@ -380,7 +383,7 @@ func writeSubstanceText(kv *lookupLines, s *halovetv1.Substance) {
 }
 
 func writeBlendText(kv *lookupLines, b *halovetv1.Blend, ev *halovetv1.EvaluateMixtureResponse) {
-	kv.line("kind", "blend ("+textOrDash(b.GetBlendType())+")")
+	kv.line("kind", "blend ("+textOrDash(wireterms.BlendTypeWord(b.GetBlendType()))+")")
 	kv.line("synonyms", textOrDash(strings.Join(b.GetSynonyms(), ", ")))
 	kv.line("safety class", safetyClassText(b.GetSafetyClass()))
 	groups := map[string]string{}

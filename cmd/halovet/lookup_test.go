@@ -172,7 +172,7 @@ func TestLookupJSONLines(t *testing.T) {
 		t.Errorf("record 1: identifier %q, best candidate %v; want R-22 -> HCFC-22", recs[0].Identifier, res.GetCandidates())
 	}
 	// source: Montreal Protocol Annex C Group I, HCFC-22 ODP 0.055.
-	if s := entry.GetEntry().GetSubstance(); s.GetOdp() != "0.055" || s.GetAnnexGroup() != "C/I" {
+	if s := entry.GetSubstance(); s.GetOdp() != "0.055" || s.GetAnnexGroup() != "C/I" {
 		t.Errorf("entry ODP %v group %q; want 0.055, C/I", s.GetOdp(), s.GetAnnexGroup())
 	}
 	if len(ev.GetCautions()) == 0 {
@@ -198,13 +198,13 @@ func TestLookupJSONLines(t *testing.T) {
 	if err := unmarshalDialect(recs[2].Evaluation, &ev); err != nil {
 		t.Fatalf("evaluation 3: %v", err)
 	}
-	if len(entry.GetEntry().GetBlend().GetComponents()) != 3 {
-		t.Errorf("R-404A entry %v; want a blend of 3 components", entry.GetEntry())
+	if len(entry.GetBlend().GetComponents()) != 3 {
+		t.Errorf("R-404A entry %v; want a blend of 3 components", entry.GetBlend())
 	}
 	found := false
 	for _, g := range ev.GetGwps() {
 		// source: UK government CO2-eq table (testdata/reference/blends.csv): R-404A 3922 from 3921.6.
-		if g.GetGwpSet() == "AR4" && g.GetConvention() == "all-components" {
+		if g.GetGwpSet() == halovetv1.GwpSet_GWP_SET_IPCC_AR4 && g.GetConvention() == halovetv1.GwpConvention_GWP_CONVENTION_ALL_COMPONENTS {
 			found = g.GetGwp_100Yr() == "3921.6"
 		}
 	}

@@ -14,6 +14,7 @@ import (
 
 	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 func init() {
@@ -86,7 +87,7 @@ func mixRequest(spec string, massKg float64) (*halovetv1.EvaluateMixtureRequest,
 	}
 	req := &halovetv1.EvaluateMixtureRequest{NetMassKg: wireOf(massKg)}
 	if !strings.Contains(spec, ":") {
-		req.Mixture = &halovetv1.EvaluateMixtureRequest_Blend{Blend: spec}
+		req.Blend = spec
 		return req, nil
 	}
 	// Chemical names hold commas ("1,1,1,2-tetrafluoroethane:52"), so a comma separates
@@ -106,7 +107,6 @@ func mixRequest(spec string, massKg float64) (*halovetv1.EvaluateMixtureRequest,
 	if strings.TrimSpace(pending) != "" {
 		return nil, usageErr("SPEC share %q has no :MASS_PERCENT; write IDENTIFIER:PERCENT pairs such as R-32:50,R-125:50", pending)
 	}
-	comp := &halovetv1.Composition{}
 	for i, p := range parts {
 		at := strings.LastIndex(p, ":")
 		id := strings.TrimSpace(p[:at])
@@ -118,17 +118,16 @@ func mixRequest(spec string, massKg float64) (*halovetv1.EvaluateMixtureRequest,
 		if err != nil {
 			return nil, usageErr("SPEC share %d (%q): %q is not a mass percentage; write a decimal such as 50 or 23.5", i+1, p, num)
 		}
-		comp.Shares = append(comp.Shares, &halovetv1.MixtureShare{Identifier: id, MassPercent: pct.String()})
+		req.Composition = append(req.Composition, &halovetv1.MixtureShare{Identifier: id, MassPercent: pct.String()})
 	}
-	req.Mixture = &halovetv1.EvaluateMixtureRequest_Composition{Composition: comp}
 	return req, nil
 }
 
 // mixReport evaluates the mixture and writes the report.
 func mixReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Writer, req *halovetv1.EvaluateMixtureRequest, output string) error {
 	what := "the composition"
-	if b, ok := req.GetMixture().(*halovetv1.EvaluateMixtureRequest_Blend); ok {
-		what = b.Blend
+	if b := req.GetBlend(); b != "" {
+		what = b
 	}
 	ev, err := halovetv1.NewCatalogueServiceClient(conn).EvaluateMixture(ctx, req)
 	if err != nil {
@@ -194,11 +193,12 @@ func mixtureGWPTable(ev *halovetv1.EvaluateMixtureResponse) string {
 	var order []string
 	partial := false
 	for _, g := range ev.GetGwps() {
-		c, ok := rows[g.GetGwpSet()]
+		set := wireterms.GWPSetWord(g.GetGwpSet())
+		c, ok := rows[set]
 		if !ok {
 			c = &cell{all: "—", annexF: "—"}
-			rows[g.GetGwpSet()] = c
-			order = append(order, g.GetGwpSet())
+			rows[set] = c
+			order = append(order, set)
 		}
 		v := mixtureGWPText(g.GetGwp_100Yr())
 		if !g.GetComplete() {
@@ -206,9 +206,9 @@ func mixtureGWPTable(ev *halovetv1.EvaluateMixtureResponse) string {
 			partial = true
 		}
 		switch g.GetConvention() {
-		case "all-components":
+		case halovetv1.GwpConvention_GWP_CONVENTION_ALL_COMPONENTS:
 			c.all = v
-		case "annex-f-only":
+		case halovetv1.GwpConvention_GWP_CONVENTION_ANNEX_F_ONLY:
 			c.annexF = v
 		}
 	}

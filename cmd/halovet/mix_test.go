@@ -131,7 +131,7 @@ func TestMixRequestParsing(t *testing.T) {
 			if req.GetBlend() != tc.blend {
 				t.Errorf("blend %q; want %q", req.GetBlend(), tc.blend)
 			}
-			got := req.GetComposition().GetShares()
+			got := req.GetComposition()
 			if len(got) != len(tc.shares) {
 				t.Fatalf("shares %v; want %v", got, tc.shares)
 			}

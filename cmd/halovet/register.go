@@ -15,6 +15,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/service/wireterms"
@@ -265,7 +266,7 @@ func listShipments(ctx context.Context, client halovetv1.ShipmentServiceClient, 
 			case tw != nil:
 				fmt.Fprintf(tw, "%d\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", s.GetShipmentId(), stateWord(s.GetState()), s.GetVersion(),
 					rec.CompanyID, rec.Key, s.GetDeclarationDate(), rec.Direction, rec.LicenceNumber, s.GetResolvedDesignation(),
-					decimalText(s.GetNetMassKg()), decimalText(s.GetOdpTonnes()), decimalText(s.GetCo2ETonnes()))
+					shown(s.GetNetMassKg(), exact.Kg), shown(s.GetOdpTonnes(), exact.ODPTonnes), shown(s.GetCo2ETonnes(), exact.CO2eTonnes))
 			}
 		}
 		if resp.GetNextPageToken() == "" {
@@ -301,7 +302,7 @@ func writeDraws(w io.Writer, ds []*halovetv1.QuotaDraw) error {
 			state = "given back " + d.GetReleasedAt()
 		}
 		if _, err := fmt.Fprintf(w, "  licence %s line %d: %s (in the line's unit), %s\n", d.GetLicenceNumber(), d.GetLineNumber(),
-			decimalText(d.GetAmount()), state); err != nil {
+			d.GetAmount(), state); err != nil {
 			return err
 		}
 	}
@@ -320,7 +321,7 @@ func writeShipmentText(w io.Writer, resp *halovetv1.GetShipmentResponse) error {
 	fmt.Fprintln(w)
 	fmt.Fprintf(w, "  declared %s, %s, licence %s, partner %s: %s, %s kg, %s ODP t, %s CO2-eq t\n", s.GetDeclarationDate(),
 		strings.ToLower(strings.TrimPrefix(r.GetDirection().String(), "DIRECTION_")), r.GetLicenceNumber(), r.GetPartnerCountry(),
-		s.GetResolvedDesignation(), decimalText(s.GetNetMassKg()), decimalText(s.GetOdpTonnes()), decimalText(s.GetCo2ETonnes()))
+		s.GetResolvedDesignation(), shown(s.GetNetMassKg(), exact.Kg), shown(s.GetOdpTonnes(), exact.ODPTonnes), shown(s.GetCo2ETonnes(), exact.CO2eTonnes))
 	if v := s.GetVerdict(); v != nil {
 		fmt.Fprintf(w, "  verdict as recorded: %s\n", strings.ToLower(strings.TrimPrefix(v.GetOutcome().String(), "OUTCOME_")))
 		for _, f := range v.GetFindings() {
@@ -483,7 +484,7 @@ func defineYear(fs *pflag.FlagSet) runFunc {
 			}
 			fmt.Fprintf(os.Stdout, "reporting year %d reopened\n", year)
 		case "list":
-			resp, err := client.ListClosedYears(ctx, &halovetv1.ListClosedYearsRequest{})
+			resp, err := halovetv1.ReadAllPages(ctx, client.ListClosedYears, &halovetv1.ListClosedYearsRequest{PageSize: listPageSize}, "closed_years")
 			if err != nil {
 				return err
 			}

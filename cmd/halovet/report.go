@@ -63,29 +63,6 @@ func writeProtoJSON(w io.Writer, m proto.Message) error {
 	return jsonDoc(w, m)
 }
 
-// Number formats. Text rounds for reading (0.001 t and ODP t, 1 CO2-eq t); CSV carries
-// the full value.
-func fmtTonnes(v float64) string { return fmtFixed(v, 3) }
-func fmtCO2e(v float64) string   { return fmtFixed(v, 0) }
-func fmtFull(v float64) string   { return decimalText(v) }
-
-// fmtFixed rounds to d decimals and never prints "-0".
-func fmtFixed(v float64, d int) string {
-	s := strconv.FormatFloat(v, 'f', d, 64)
-	if strings.Trim(s, "-0.") == "" {
-		return strings.TrimPrefix(s, "-")
-	}
-	return s
-}
-
-// fmtUnit formats an amount in a unit by the text rules.
-func fmtUnit(v float64, unit string) string {
-	if unit == "CO2-eq t" {
-		return fmtCO2e(v)
-	}
-	return fmtTonnes(v)
-}
-
 // newTable is the aligned table of the text reports.
 func newTable(w io.Writer) *tabwriter.Writer {
 	return tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)

@@ -41,8 +41,8 @@ const scaleRegistry = `{
   "licences": [
     {"licenceNumber": "XA-IMP-2026-991", "companyId": "XA-9001", "directions": ["DIRECTION_IMPORT"], "validFrom": "2026-01-01", "validTo": "2026-12-31",
      "status": "LICENCE_STATUS_ACTIVE",
-     "quotaLines": [{"lineNumber": 1, "annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocated": 1000000000},
-                    {"lineNumber": 2, "annexGroup": "F/I", "unit": "QUOTA_UNIT_CO2E_TONNES", "allocated": 1000000000}]}
+     "quotaLines": [{"lineNumber": 1, "annexGroup": "C/I", "unit": "QUOTA_UNIT_ODP_TONNES", "allocatedAmount": "1000000000"},
+                    {"lineNumber": 2, "annexGroup": "F/I", "unit": "QUOTA_UNIT_CO2E_TONNES", "allocatedAmount": "1000000000"}]}
   ]
 }`
 

@@ -177,15 +177,15 @@ func storeYearFigures(ctx context.Context, conn *grpc.ClientConn, path string, w
 
 func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, output string, w io.Writer) error {
 	c := halovetv1.NewConsumptionServiceClient(conn)
-	off, err := c.ListOfficialFigures(ctx, &halovetv1.ListOfficialFiguresRequest{})
+	off, err := halovetv1.ReadAllPages(ctx, c.ListOfficialFigures, &halovetv1.ListOfficialFiguresRequest{PageSize: listPageSize}, "figures")
 	if err != nil {
 		return err
 	}
-	ex, err := c.ListExemptions(ctx, &halovetv1.ListExemptionsRequest{Year: int32(year)})
+	ex, err := halovetv1.ReadAllPages(ctx, c.ListExemptions, &halovetv1.ListExemptionsRequest{Year: int32(year), PageSize: listPageSize}, "exemptions")
 	if err != nil {
 		return err
 	}
-	h23, err := c.ListHfc23Entries(ctx, &halovetv1.ListHfc23EntriesRequest{Year: int32(year)})
+	h23, err := halovetv1.ReadAllPages(ctx, c.ListHfc23Entries, &halovetv1.ListHfc23EntriesRequest{Year: int32(year), PageSize: listPageSize}, "entries")
 	if err != nil {
 		return err
 	}
@@ -225,28 +225,22 @@ func writeYearFiguresJSON(w io.Writer, off *halovetv1.ListOfficialFiguresRespons
 	var b bytes.Buffer
 	b.WriteString("{\n")
 	parts := []struct {
-		name string
-		m    proto.Message
-	}{{"official_figures", off}, {"exemptions", ex}, {"hfc23_entries", h23}}
+		name, field string
+		m           proto.Message
+	}{{"official_figures", "figures", off}, {"exemptions", "exemptions", ex}, {"hfc23_entries", "entries", h23}}
 	for i, p := range parts {
-		// Each answer has one field: its document is {"<field>": VALUE}; take VALUE and
-		// indent it one level deeper.
 		var one bytes.Buffer
 		if err := jsonDoc(&one, p.m); err != nil {
 			return err
 		}
-		doc := strings.TrimSpace(one.String())
-		_, value, ok := strings.Cut(doc, ": ")
-		if !ok {
-			return fmt.Errorf("year figures: unexpected JSON %q", doc)
+		var fields map[string]json.RawMessage
+		if err := json.Unmarshal(one.Bytes(), &fields); err != nil {
+			return fmt.Errorf("year figures: %w", err)
 		}
-		value = strings.TrimSuffix(strings.TrimSpace(strings.TrimSuffix(value, "}")), "\n")
-		lines := strings.Split(value, "\n")
-		for j := 1; j < len(lines); j++ {
-			lines[j] = strings.TrimPrefix(lines[j], "  ")
-			lines[j] = "  " + lines[j]
+		fmt.Fprintf(&b, "  %q: ", p.name)
+		if err := json.Indent(&b, fields[p.field], "  ", "  "); err != nil {
+			return fmt.Errorf("year figures: %w", err)
 		}
-		fmt.Fprintf(&b, "  %q: %s", p.name, strings.Join(lines, "\n"))
 		if i < len(parts)-1 {
 			b.WriteByte(',')
 		}

@@ -6,7 +6,11 @@
 // in interleaved rounds (each round measures every call once, in that order), so that
 // whatever else the machine does falls on all of them alike; each call's rate is given as
 // a ratio to the health check's rate of the same round, with its latency percentiles, as
-// medians over the rounds. The table is printed in Markdown for BENCHMARKS.md.
+// medians over the rounds. The table is printed in Markdown for BENCHMARKS.md. The server
+// runs with --open-access on loopback: the driver has no credential. With -against DIR, a
+// second checkout (for example of main) is built and served beside the first on its own
+// cluster, and every round measures both, alternating which goes first: a before-and-after
+// comparison in one run, one table per server.
 //
 // It does what ghz would at `--concurrency 50 --connections 4`: ghz v0.93.0, the only
 // version the module proxy serves, no longer builds against the grpc-go in use
@@ -25,6 +29,7 @@ import (
 	"runtime"
 	"slices"
 	"sort"
+	"strings"
 	"sync"
 	"time"
 
@@ -42,8 +47,9 @@ func main() {
 	warmup := flag.Duration("warmup", time.Second, "unmeasured time before each measurement")
 	rounds := flag.Int("rounds", 3, "interleaved rounds; the table gives medians over them")
 	repo := flag.String("repo", ".", "the repository root (for ./cmd/halovet and testdata/demo)")
+	against := flag.String("against", "", "a second checkout (for example of main) built and served beside -repo on its own cluster; each round measures both, alternating which goes first")
 	flag.Parse()
-	if err := run(*repo, *concurrency, *connections, *rounds, *duration, *warmup); err != nil {
+	if err := run(*repo, *against, *concurrency, *connections, *rounds, *duration, *warmup); err != nil {
 		fmt.Fprintln(os.Stderr, "loadbench:", err)
 		os.Exit(1)
 	}
@@ -75,7 +81,7 @@ func targets() []target {
 		}},
 		{"EvaluateMixture", func(ctx context.Context, c *grpc.ClientConn) error {
 			_, err := halovetv1.NewCatalogueServiceClient(c).EvaluateMixture(ctx, &halovetv1.EvaluateMixtureRequest{
-				Mixture: &halovetv1.EvaluateMixtureRequest_Blend{Blend: "R-404A"}, NetMassKg: "1000"})
+				Blend: "R-404A", NetMassKg: "1000"})
 			return err
 		}},
 		{"CheckShipment", func(ctx context.Context, c *grpc.ClientConn) error {
@@ -91,84 +97,153 @@ type result struct {
 	p50, p95, p99 time.Duration
 }
 
-func run(repo string, concurrency, connections, rounds int, duration, warmup time.Duration) error {
-	tmp, err := os.MkdirTemp("", "halovet-loadbench-")
-	if err != nil {
-		return err
-	}
-	defer os.RemoveAll(tmp)
-	bin := filepath.Join(tmp, "halovet")
+// server is one halovet build serving on its own private cluster.
+type server struct {
+	label string
+	conns []*grpc.ClientConn
+	stop  func()
+}
+
+// startServer builds halovet from repo into tmp/name, serves it on a private cluster under
+// tmp/name-pg with open access (loopback only: the driver has no credential), loads the
+// invented demo scenario and opens the client connections.
+func startServer(tmp, name, repo string, connections int) (*server, error) {
+	bin := filepath.Join(tmp, name)
 	build := exec.Command("go", "build", "-o", bin, "./cmd/halovet")
 	build.Dir, build.Stdout, build.Stderr = repo, os.Stderr, os.Stderr
 	if err := build.Run(); err != nil {
-		return fmt.Errorf("building halovet: %w", err)
+		return nil, fmt.Errorf("building halovet from %s: %w", repo, err)
 	}
 	addr, httpAddr := freeAddr(), freeAddr()
-	srv := exec.Command(bin, "serve", "--data-dir", filepath.Join(tmp, "pg"), "--listen", addr, "--http-listen", httpAddr,
-		"--log-level", "warn")
+	srv := exec.Command(bin, "serve", "--data-dir", filepath.Join(tmp, name+"-pg"), "--listen", addr, "--http-listen", httpAddr,
+		"--log-level", "warn", "--open-access")
 	srv.Stdout, srv.Stderr = os.Stderr, os.Stderr
 	if err := srv.Start(); err != nil {
-		return err
+		return nil, err
 	}
-	defer func() {
+	s := &server{label: repo, stop: func() {
 		_ = srv.Process.Signal(os.Interrupt)
 		_ = srv.Wait()
-	}()
+	}}
+	fail := func(err error) (*server, error) {
+		for _, c := range s.conns {
+			c.Close()
+		}
+		s.stop()
+		return nil, err
+	}
 	deadline := time.Now().Add(2 * time.Minute)
 	for exec.Command(bin, "probe", "--server", addr, "--timeout", "1s").Run() != nil {
 		if time.Now().After(deadline) {
-			return errors.New("the server did not become ready within 2 minutes")
+			return fail(errors.New("the server did not become ready within 2 minutes"))
 		}
 		time.Sleep(300 * time.Millisecond)
 	}
 	load := exec.Command(bin, "load", filepath.Join(repo, "testdata/demo/scenario.json"), "--server", addr)
 	load.Stdout, load.Stderr = os.Stderr, os.Stderr
 	if err := load.Run(); err != nil {
-		return fmt.Errorf("loading the demo scenario: %w", err)
+		return fail(fmt.Errorf("loading the demo scenario: %w", err))
 	}
-
-	conns := make([]*grpc.ClientConn, connections)
-	for i := range conns {
+	if out, err := exec.Command("git", "-C", repo, "describe", "--always", "--dirty").Output(); err == nil {
+		s.label = fmt.Sprintf("%s (%s)", repo, strings.TrimSpace(string(out)))
+	}
+	for i := 0; i < connections; i++ {
 		// Each client is its own HTTP/2 connection.
 		c, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
 		if err != nil {
+			return fail(err)
+		}
+		s.conns = append(s.conns, c)
+	}
+	return s, nil
+}
+
+func (s *server) close() {
+	for _, c := range s.conns {
+		c.Close()
+	}
+	s.stop()
+}
+
+func run(repo, against string, concurrency, connections, rounds int, duration, warmup time.Duration) error {
+	tmp, err := os.MkdirTemp("", "halovet-loadbench-")
+	if err != nil {
+		return err
+	}
+	defer os.RemoveAll(tmp)
+	var servers []*server
+	defer func() {
+		for _, s := range servers {
+			s.close()
+		}
+	}()
+	for i, r := range []string{repo, against} {
+		if r == "" {
+			continue
+		}
+		s, err := startServer(tmp, fmt.Sprintf("halovet-%d", i), r, connections)
+		if err != nil {
 			return err
 		}
-		defer c.Close()
-		conns[i] = c
+		servers = append(servers, s)
 	}
 	ts := targets()
-	results := make([][]result, len(ts)) // [target][round]
+	results := make([][][]result, len(servers)) // [server][target][round]
+	for k := range results {
+		results[k] = make([][]result, len(ts))
+	}
 	for r := 0; r < rounds; r++ {
-		for i, t := range ts {
-			if _, err := measure(t, conns, concurrency, warmup); err != nil { // warm up
-				return fmt.Errorf("%s: %w", t.name, err)
+		for j := range servers {
+			// With two servers, each round alternates which goes first.
+			k := (j + r) % len(servers)
+			s := servers[k]
+			for i, t := range ts {
+				if _, err := measure(t, s.conns, concurrency, warmup); err != nil { // warm up
+					return fmt.Errorf("%s: %s: %w", s.label, t.name, err)
+				}
+				res, err := measure(t, s.conns, concurrency, duration)
+				if err != nil {
+					return fmt.Errorf("%s: %s: %w", s.label, t.name, err)
+				}
+				fmt.Fprintf(os.Stderr, "round %d server %d %-18s %8.0f calls/s  p50 %v  p95 %v  p99 %v  load %s\n", r+1, k, t.name, res.rate, res.p50, res.p95, res.p99, loadAverage())
+				results[k][i] = append(results[k][i], res)
 			}
-			res, err := measure(t, conns, concurrency, duration)
-			if err != nil {
-				return fmt.Errorf("%s: %w", t.name, err)
-			}
-			fmt.Fprintf(os.Stderr, "round %d %-18s %8.0f calls/s  p50 %v  p95 %v  p99 %v\n", r+1, t.name, res.rate, res.p50, res.p95, res.p99)
-			results[i] = append(results[i], res)
 		}
 	}
 
-	fmt.Printf("Load benchmark (`make bench-load`): %d calls in flight over %d connections, %v per call and round, %d interleaved rounds; medians over the rounds. Machine: %d CPUs (GOMAXPROCS %d), server and driver on the same machine, %s.\n\n",
-		concurrency, connections, duration, rounds, runtime.NumCPU(), runtime.GOMAXPROCS(0), runtime.Version())
-	fmt.Println("| call | calls/s | ratio to the health check | p50 | p95 | p99 |")
-	fmt.Println("|---|---:|---:|---:|---:|---:|")
-	for i, t := range ts {
-		var rates, ratios []float64
-		var p50, p95, p99 []time.Duration
-		for r, res := range results[i] {
-			rates = append(rates, res.rate)
-			ratios = append(ratios, res.rate/results[0][r].rate)
-			p50, p95, p99 = append(p50, res.p50), append(p95, res.p95), append(p99, res.p99)
+	fmt.Printf("Load benchmark (`make bench-load`): %d calls in flight over %d connections, %v per call and round, %d interleaved rounds; medians over the rounds. Machine: %d CPUs (GOMAXPROCS %d), server and driver on the same machine, %s; load average at the end %s.\n",
+		concurrency, connections, duration, rounds, runtime.NumCPU(), runtime.GOMAXPROCS(0), runtime.Version(), loadAverage())
+	for k, s := range servers {
+		fmt.Printf("\nServer %d: %s\n\n", k, s.label)
+		fmt.Println("| call | calls/s | ratio to the health check | ratio to ResolveIdentifier | p50 | p95 | p99 |")
+		fmt.Println("|---|---:|---:|---:|---:|---:|---:|")
+		for i, t := range ts {
+			var rates, ratios, toResolve []float64
+			var p50, p95, p99 []time.Duration
+			for r, res := range results[k][i] {
+				rates = append(rates, res.rate)
+				ratios = append(ratios, res.rate/results[k][0][r].rate)
+				toResolve = append(toResolve, res.rate/results[k][1][r].rate)
+				p50, p95, p99 = append(p50, res.p50), append(p95, res.p95), append(p99, res.p99)
+			}
+			fmt.Printf("| %s | %.0f | %.2f | %.2f | %s | %s | %s |\n", t.name, median(rates), median(ratios), median(toResolve),
+				ms(median(p50)), ms(median(p95)), ms(median(p99)))
 		}
-		fmt.Printf("| %s | %.0f | %.2f | %s | %s | %s |\n", t.name, median(rates), median(ratios),
-			ms(median(p50)), ms(median(p95)), ms(median(p99)))
 	}
 	return nil
+}
+
+// loadAverage is the machine's 1-minute load average, "?" when unknown.
+func loadAverage() string {
+	b, err := os.ReadFile("/proc/loadavg")
+	if err != nil {
+		return "?"
+	}
+	f := strings.Fields(string(b))
+	if len(f) == 0 {
+		return "?"
+	}
+	return f[0]
 }
 
 // measure runs concurrency workers calling t for d, each on connection i%len(conns).

@@ -55,35 +55,37 @@ func Generate(ctx context.Context, pool *pgxpool.Pool, n, firstYear, years int) 
 	if _, err := tx.Exec(ctx, `
 	    INSERT INTO shipments (company_id, record_key, fingerprint, direction, licence_number, partner_country,
 	        declaration_date, year, resolved_designation, entry_kind, purpose, condition, net_mass_kg,
-	        odp_tonnes, co2e_tonnes, counts_in_consumption, partner_non_party, record)
+	        odp_tonnes, co2e_tonnes, counts_in_consumption, partner_non_party, record,
+	        component_designations, component_annex_groups, component_mass_kg, component_odp_tonnes,
+	        component_co2e_tonnes, component_non_party)
 	    SELECT 'GEN-' || lpad((i % 200)::text, 4, '0'), 'gen-' || i, md5(i::text), d.direction,
 	        'GEN-L-' || (i % 200), 'X' || chr(65 + (i % 26)::int), d.day, extract(year FROM d.day)::int,
 	        k.shipped, CASE WHEN k.shipped LIKE 'R-%' THEN 'blend' ELSE 'substance' END,
 	        CASE WHEN i % 100 < 3 THEN 'feedstock' ELSE 'servicing' END,
 	        CASE WHEN i % 50 = 7 THEN 'recycled' ELSE 'virgin' END,
 	        d.kg, d.kg / 1000 * k.odp, d.kg / 1000 * k.gwp,
-	        d.direction = 'import' AND i % 100 >= 3, (i % 26) = 25, '{"generated": true}'::jsonb
+	        d.direction = 'import' AND i % 100 >= 3, (i % 26) = 25, '{"generated": true}'::jsonb,
+	        c.des, c.grp, c.kg, c.odp, c.co2e, c.np
 	    FROM generate_series(1, $1::bigint) AS i
 	    CROSS JOIN LATERAL (SELECT
 	        (make_date($2 + (i % $3)::int, 1, 1) + ((i / $3) % 365)::int) AS day,
 	        CASE WHEN i % 20 < 17 THEN 'import' WHEN i % 20 < 19 THEN 'export' ELSE 're-export' END AS direction,
 	        round((10 + ((i * 2654435761) % 9989990) / 1000.0)::numeric, 3) AS kg) d
 	    CROSS JOIN LATERAL (SELECT shipped, sum(odp * share) AS odp, sum(gwp * share) AS gwp
-	        FROM `+genSubstancesSQL+` WHERE kind = (i * 7) % 6 GROUP BY shipped) k`,
+	        FROM `+genSubstancesSQL+` WHERE kind = (i * 7) % 6 GROUP BY shipped) k
+	    CROSS JOIN LATERAL (SELECT array_agg(g.designation ORDER BY g.designation) AS des,
+	        array_agg(g.annex_group ORDER BY g.designation) AS grp,
+	        array_agg(d.kg * g.share ORDER BY g.designation) AS kg,
+	        array_agg(d.kg * g.share / 1000 * g.odp ORDER BY g.designation) AS odp,
+	        array_agg(d.kg * g.share / 1000 * g.gwp ORDER BY g.designation) AS co2e,
+	        array_agg(NULL::boolean) AS np
+	        FROM `+genSubstancesSQL+` WHERE g.kind = (i * 7) % 6) c`,
 		n, firstYear, years); err != nil {
 		return fmt.Errorf("generating shipments: %w", err)
-	}
-	if _, err := tx.Exec(ctx, `
-	    INSERT INTO shipment_components (shipment_id, designation, annex_group, mass_kg, odp_tonnes, co2e_tonnes)
-	    SELECT s.shipment_id, g.designation, g.annex_group, s.net_mass_kg * g.share,
-	        s.net_mass_kg * g.share / 1000 * g.odp, s.net_mass_kg * g.share / 1000 * g.gwp
-	    FROM shipments s JOIN `+genSubstancesSQL+` ON g.shipped = s.resolved_designation
-	    WHERE s.record_key LIKE 'gen-%'`); err != nil {
-		return fmt.Errorf("generating shipment components: %w", err)
 	}
 	if err := tx.Commit(ctx); err != nil {
 		return err
 	}
-	_, err = pool.Exec(ctx, `ANALYZE shipments, shipment_components`)
+	_, err = pool.Exec(ctx, `ANALYZE shipments`)
 	return err
 }

@@ -1,5 +1,6 @@
 // Package wireterms maps the wire enums of halovet.v1 to the register's own vocabulary
-// (package terms) and back. It is the one place where the two meet: service decodes requests
+// (package terms; the catalogue's GWP sets, GWP conventions, HS editions and blend types of
+// package substances; the roles of package access) and back. It is the one place where the two meet: service decodes requests
 // and encodes responses with it, and the command line and the console, which speak the wire
 // API, use it to print and read the same words. A wire enum value is never converted by its
 // number.
@@ -9,7 +10,9 @@
 package wireterms
 
 import (
+	"github.com/halovet/halovet/access"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/terms"
 )
 
@@ -115,6 +118,52 @@ var quotaUnits = newTable(
 	unitPair{halovetv1.QuotaUnit_QUOTA_UNIT_CO2E_TONNES, terms.QuotaCO2eTonnes},
 )
 
+type gwpSetPair = pair[halovetv1.GwpSet, substances.GWPSet]
+
+var gwpSets = newTable(
+	gwpSetPair{halovetv1.GwpSet_GWP_SET_UNSPECIFIED, ""},
+	gwpSetPair{halovetv1.GwpSet_GWP_SET_PROTOCOL_ANNEXES, substances.SetProtocol},
+	gwpSetPair{halovetv1.GwpSet_GWP_SET_IPCC_AR4, substances.SetAR4},
+	gwpSetPair{halovetv1.GwpSet_GWP_SET_IPCC_AR5, substances.SetAR5},
+	gwpSetPair{halovetv1.GwpSet_GWP_SET_IPCC_AR6, substances.SetAR6},
+)
+
+type conventionPair = pair[halovetv1.GwpConvention, substances.GWPConvention]
+
+var gwpConventions = newTable(
+	conventionPair{halovetv1.GwpConvention_GWP_CONVENTION_UNSPECIFIED, ""},
+	conventionPair{halovetv1.GwpConvention_GWP_CONVENTION_ALL_COMPONENTS, substances.ConventionAllComponents},
+	conventionPair{halovetv1.GwpConvention_GWP_CONVENTION_ANNEX_F_ONLY, substances.ConventionAnnexFOnly},
+)
+
+type hsEditionPair = pair[halovetv1.HsEdition, substances.HSEdition]
+
+var hsEditions = newTable(
+	hsEditionPair{halovetv1.HsEdition_HS_EDITION_UNSPECIFIED, ""},
+	hsEditionPair{halovetv1.HsEdition_HS_EDITION_HS_2017, substances.HS2017},
+	hsEditionPair{halovetv1.HsEdition_HS_EDITION_HS_2022, substances.HS2022},
+)
+
+type blendTypePair = pair[halovetv1.BlendType, substances.BlendType]
+
+var blendTypes = newTable(
+	blendTypePair{halovetv1.BlendType_BLEND_TYPE_UNSPECIFIED, ""},
+	blendTypePair{halovetv1.BlendType_BLEND_TYPE_ZEOTROPE, substances.BlendZeotrope},
+	blendTypePair{halovetv1.BlendType_BLEND_TYPE_AZEOTROPE, substances.BlendAzeotrope},
+	blendTypePair{halovetv1.BlendType_BLEND_TYPE_MIXTURE, substances.BlendMixture},
+)
+
+type rolePair = pair[halovetv1.Role, access.Role]
+
+var roles = newTable(
+	rolePair{halovetv1.Role_ROLE_UNSPECIFIED, access.RoleAnonymous},
+	rolePair{halovetv1.Role_ROLE_OFFICER, access.RoleOfficer},
+	rolePair{halovetv1.Role_ROLE_CUSTOMS, access.RoleCustoms},
+	rolePair{halovetv1.Role_ROLE_TRADER, access.RoleTrader},
+	rolePair{halovetv1.Role_ROLE_AUDITOR, access.RoleAuditor},
+	rolePair{halovetv1.Role_ROLE_READER, access.RoleReader},
+)
+
 // The FromWire functions return false for a number the wire enum does not declare (a newer
 // or a careless client); the ToWire functions give the UNSPECIFIED value for a domain value
 // outside the declared ones.
@@ -183,3 +232,80 @@ func QuotaUnitFromWire(w halovetv1.QuotaUnit) (terms.QuotaUnit, bool) {
 
 // QuotaUnitToWire gives the wire value of a quota unit.
 func QuotaUnitToWire(d terms.QuotaUnit) halovetv1.QuotaUnit { return quotaUnits.toWire[d] }
+
+// GWPSetFromWire gives the GWP set of a wire value ("" for unspecified).
+func GWPSetFromWire(w halovetv1.GwpSet) (substances.GWPSet, bool) {
+	d, ok := gwpSets.toDomain[w]
+	return d, ok
+}
+
+// GWPSetToWire gives the wire value of a GWP set.
+func GWPSetToWire(d substances.GWPSet) halovetv1.GwpSet { return gwpSets.toWire[d] }
+
+// GWPConventionFromWire gives the mixture GWP convention of a wire value.
+func GWPConventionFromWire(w halovetv1.GwpConvention) (substances.GWPConvention, bool) {
+	d, ok := gwpConventions.toDomain[w]
+	return d, ok
+}
+
+// GWPConventionToWire gives the wire value of a mixture GWP convention.
+func GWPConventionToWire(d substances.GWPConvention) halovetv1.GwpConvention {
+	return gwpConventions.toWire[d]
+}
+
+// HSEditionFromWire gives the HS edition of a wire value.
+func HSEditionFromWire(w halovetv1.HsEdition) (substances.HSEdition, bool) {
+	d, ok := hsEditions.toDomain[w]
+	return d, ok
+}
+
+// HSEditionToWire gives the wire value of an HS edition.
+func HSEditionToWire(d substances.HSEdition) halovetv1.HsEdition { return hsEditions.toWire[d] }
+
+// BlendTypeFromWire gives the blend type of a wire value.
+func BlendTypeFromWire(w halovetv1.BlendType) (substances.BlendType, bool) {
+	d, ok := blendTypes.toDomain[w]
+	return d, ok
+}
+
+// BlendTypeToWire gives the wire value of a blend type.
+func BlendTypeToWire(d substances.BlendType) halovetv1.BlendType { return blendTypes.toWire[d] }
+
+// RoleFromWire gives the role of a wire value (access.RoleAnonymous for unspecified).
+func RoleFromWire(w halovetv1.Role) (access.Role, bool) {
+	d, ok := roles.toDomain[w]
+	return d, ok
+}
+
+// RoleToWire gives the wire value of a role.
+func RoleToWire(d access.Role) halovetv1.Role { return roles.toWire[d] }
+
+// The Word functions give the word a person reads for a wire value, the domain's own: "MP",
+// "AR4" ... for a GWP set, "all-components" or "annex-f-only" for a convention, "HS2022" for
+// an HS edition, "zeotrope" for a blend type, "officer" for a role; "" for the unspecified
+// value, and the enum's Go name for a number no .proto declares.
+
+// GWPSetWord gives the word of a GWP set.
+func GWPSetWord(w halovetv1.GwpSet) string { return word(gwpSets, w) }
+
+// GWPConventionWord gives the word of a mixture GWP convention.
+func GWPConventionWord(w halovetv1.GwpConvention) string { return word(gwpConventions, w) }
+
+// HSEditionWord gives the word of an HS edition.
+func HSEditionWord(w halovetv1.HsEdition) string { return word(hsEditions, w) }
+
+// BlendTypeWord gives the word of a blend type.
+func BlendTypeWord(w halovetv1.BlendType) string { return word(blendTypes, w) }
+
+// RoleWord gives the word of a role.
+func RoleWord(w halovetv1.Role) string { return word(roles, w) }
+
+func word[W interface {
+	comparable
+	String() string
+}, D ~string](t table[W, D], w W) string {
+	if d, ok := t.toDomain[w]; ok {
+		return string(d)
+	}
+	return w.String()
+}

@@ -6,37 +6,43 @@ import (
 
 	"google.golang.org/protobuf/reflect/protoreflect"
 
+	"github.com/halovet/halovet/access"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/terms"
 )
 
 // enumCase checks one enum both ways: every value the wire descriptor declares maps to a
-// domain value and back to itself, and to the domain value that terms' Parse reads from the
-// wire name (an independent check that the pair is the right one, not only some pair);
-// every domain value (unspecified included) maps to a wire value and back to itself.
+// domain value and back to itself, and to the domain value that the domain package's Parse
+// reads from the wire name (an independent check that the pair is the right one, not only
+// some pair); every domain value (unspecified included) maps to a wire value and back to
+// itself. Domain values are compared as any: the terms types are ints, the catalogue's and
+// the roles are strings.
 type enumCase struct {
 	name      string
 	desc      protoreflect.EnumDescriptor
-	fromWire  func(protoreflect.EnumNumber) (int, bool)
-	toWire    func(int) protoreflect.EnumNumber
-	parse     func(string) (int, error)
-	domain    []int // every specified domain value
-	stringOfD func(int) string
+	fromWire  func(protoreflect.EnumNumber) (any, bool)
+	toWire    func(any) protoreflect.EnumNumber
+	parse     func(string) (any, error)
+	zero      any
+	domain    []any // the unspecified value, then every specified domain value
+	stringOfD func(any) string
 }
 
-func adapt[W ~int32, D ~int](from func(W) (D, bool), to func(D) W, parse func(string) (D, error), all []D, desc protoreflect.EnumDescriptor, name string) enumCase {
-	ds := []int{0}
+func adapt[W ~int32, D comparable](from func(W) (D, bool), to func(D) W, parse func(string) (D, error), all []D, desc protoreflect.EnumDescriptor, name string) enumCase {
+	var zero D
+	ds := []any{zero}
 	for _, d := range all {
-		ds = append(ds, int(d))
+		ds = append(ds, d)
 	}
 	return enumCase{
-		name: name, desc: desc,
-		fromWire: func(n protoreflect.EnumNumber) (int, bool) { d, ok := from(W(n)); return int(d), ok },
-		toWire:   func(d int) protoreflect.EnumNumber { return protoreflect.EnumNumber(to(D(d))) },
-		parse:    func(s string) (int, error) { d, err := parse(s); return int(d), err },
+		name: name, desc: desc, zero: zero,
+		fromWire: func(n protoreflect.EnumNumber) (any, bool) { d, ok := from(W(n)); return d, ok },
+		toWire:   func(d any) protoreflect.EnumNumber { return protoreflect.EnumNumber(to(d.(D))) },
+		parse:    func(s string) (any, error) { d, err := parse(s); return d, err },
 		domain:   ds,
-		stringOfD: func(d int) string {
-			return fmt.Sprint(D(d))
+		stringOfD: func(d any) string {
+			return fmt.Sprint(d)
 		},
 	}
 }
@@ -50,7 +56,22 @@ func cases() []enumCase {
 		adapt(HFCGroupFromWire, HFCGroupToWire, terms.ParseHFCGroup, terms.HFCGroups(), halovetv1.HfcGroup(0).Descriptor(), "HfcGroup"),
 		adapt(LicenceStatusFromWire, LicenceStatusToWire, terms.ParseLicenceStatus, terms.LicenceStatuses(), halovetv1.LicenceStatus(0).Descriptor(), "LicenceStatus"),
 		adapt(QuotaUnitFromWire, QuotaUnitToWire, terms.ParseQuotaUnit, terms.QuotaUnits(), halovetv1.QuotaUnit(0).Descriptor(), "QuotaUnit"),
+		adapt(GWPSetFromWire, GWPSetToWire, substances.ParseGWPSet, substances.GWPSets(), halovetv1.GwpSet(0).Descriptor(), "GwpSet"),
+		adapt(GWPConventionFromWire, GWPConventionToWire, substances.ParseGWPConvention, substances.GWPConventions(), halovetv1.GwpConvention(0).Descriptor(), "GwpConvention"),
+		adapt(HSEditionFromWire, HSEditionToWire, substances.ParseHSEdition, substances.HSEditions(), halovetv1.HsEdition(0).Descriptor(), "HsEdition"),
+		adapt(BlendTypeFromWire, BlendTypeToWire, substances.ParseBlendType, substances.BlendTypes(), halovetv1.BlendType(0).Descriptor(), "BlendType"),
+		adapt(RoleFromWire, RoleToWire, parseRole, access.Roles, halovetv1.Role(0).Descriptor(), "Role"),
 	}
+}
+
+// parseRole is access.ParseRole, which refuses every text that names no role (an identity
+// provider's claim "role_unspecified" must not read as the anonymous role); the wire's
+// UNSPECIFIED is the anonymous role.
+func parseRole(s string) (access.Role, error) {
+	if s == "ROLE_UNSPECIFIED" {
+		return access.RoleAnonymous, nil
+	}
+	return access.ParseRole(s)
 }
 
 func TestEveryWireValueMaps(t *testing.T) {
@@ -60,7 +81,7 @@ func TestEveryWireValueMaps(t *testing.T) {
 			if vals.Len() < 2 {
 				t.Fatalf("descriptor %s declares %d values", c.desc.FullName(), vals.Len())
 			}
-			seen := map[int]protoreflect.Name{}
+			seen := map[any]protoreflect.Name{}
 			for i := 0; i < vals.Len(); i++ {
 				v := vals.Get(i)
 				d, ok := c.fromWire(v.Number())
@@ -88,7 +109,7 @@ func TestEveryWireValueMaps(t *testing.T) {
 					t.Errorf("domain %q maps to wire number %d, which %s does not declare", c.stringOfD(d), w, c.desc.FullName())
 					continue
 				}
-				if d != 0 && w == 0 {
+				if d != c.zero && w == 0 {
 					t.Errorf("domain %q maps to the UNSPECIFIED wire value", c.stringOfD(d))
 				}
 				if back, ok := c.fromWire(w); !ok || back != d {

@@ -23,6 +23,73 @@ const (
 	_ = protoimpl.EnforceVersion(protoimpl.MaxVersion - 20)
 )
 
+// Role is what a credential's holder may do; access/policy.go grants the methods per role
+// (the README's role table). The names are halovet's own.
+type Role int32
+
+const (
+	// Not set.
+	Role_ROLE_UNSPECIFIED Role = 0
+	// The licensing authority's officer: everything, credentials included.
+	Role_ROLE_OFFICER Role = 1
+	// Customs: checks and records any company's shipments, reads licences and balances.
+	Role_ROLE_CUSTOMS Role = 2
+	// A trader bound to one company: checks and records that company's shipments and reads
+	// its licences and balances, nothing else.
+	Role_ROLE_TRADER Role = 3
+	// Reads everything, the audit trail and the credentials included, and changes nothing.
+	Role_ROLE_AUDITOR Role = 4
+	// Reads the catalogue and the public Party settings.
+	Role_ROLE_READER Role = 5
+)
+
+// Enum value maps for Role.
+var (
+	Role_name = map[int32]string{
+		0: "ROLE_UNSPECIFIED",
+		1: "ROLE_OFFICER",
+		2: "ROLE_CUSTOMS",
+		3: "ROLE_TRADER",
+		4: "ROLE_AUDITOR",
+		5: "ROLE_READER",
+	}
+	Role_value = map[string]int32{
+		"ROLE_UNSPECIFIED": 0,
+		"ROLE_OFFICER":     1,
+		"ROLE_CUSTOMS":     2,
+		"ROLE_TRADER":      3,
+		"ROLE_AUDITOR":     4,
+		"ROLE_READER":      5,
+	}
+)
+
+func (x Role) Enum() *Role {
+	p := new(Role)
+	*p = x
+	return p
+}
+
+func (x Role) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (Role) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_access_proto_enumTypes[0].Descriptor()
+}
+
+func (Role) Type() protoreflect.EnumType {
+	return &file_halovet_v1_access_proto_enumTypes[0]
+}
+
+func (x Role) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use Role.Descriptor instead.
+func (Role) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_access_proto_rawDescGZIP(), []int{0}
+}
+
 // Credential is an issued credential as listed: everything but the secret.
 type Credential struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -30,8 +97,8 @@ type Credential struct {
 	CredentialId string `protobuf:"bytes,1,opt,name=credential_id,json=credentialId,proto3" json:"credential_id,omitempty"`
 	// Name of the person or system holding it; the audit trail's actor.
 	Name string `protobuf:"bytes,2,opt,name=name,proto3" json:"name,omitempty"`
-	// Role: officer, customs, trader, auditor or reader.
-	Role string `protobuf:"bytes,3,opt,name=role,proto3" json:"role,omitempty"`
+	// What the holder may do.
+	Role Role `protobuf:"varint,3,opt,name=role,proto3,enum=halovet.v1.Role" json:"role,omitempty"`
 	// Company a trader's credential is bound to; empty for the other roles.
 	CompanyId string `protobuf:"bytes,4,opt,name=company_id,json=companyId,proto3" json:"company_id,omitempty"`
 	// When it was issued.
@@ -92,11 +159,11 @@ func (x *Credential) GetName() string {
 	return ""
 }
 
-func (x *Credential) GetRole() string {
+func (x *Credential) GetRole() Role {
 	if x != nil {
 		return x.Role
 	}
-	return ""
+	return Role_ROLE_UNSPECIFIED
 }
 
 func (x *Credential) GetCompanyId() string {
@@ -146,8 +213,8 @@ type IssueCredentialRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Name of the person or system (1 to 200 characters), e.g. "officer.a.ndiaye".
 	Name string `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
-	// Role: officer, customs, trader, auditor or reader.
-	Role string `protobuf:"bytes,2,opt,name=role,proto3" json:"role,omitempty"`
+	// What the holder may do; required.
+	Role Role `protobuf:"varint,2,opt,name=role,proto3,enum=halovet.v1.Role" json:"role,omitempty"`
 	// Company, required for a trader and refused for the other roles.
 	CompanyId string `protobuf:"bytes,3,opt,name=company_id,json=companyId,proto3" json:"company_id,omitempty"`
 	// When it stops being accepted; unset: never. Must be in the future.
@@ -193,11 +260,11 @@ func (x *IssueCredentialRequest) GetName() string {
 	return ""
 }
 
-func (x *IssueCredentialRequest) GetRole() string {
+func (x *IssueCredentialRequest) GetRole() Role {
 	if x != nil {
 		return x.Role
 	}
-	return ""
+	return Role_ROLE_UNSPECIFIED
 }
 
 func (x *IssueCredentialRequest) GetCompanyId() string {
@@ -274,8 +341,12 @@ type ListCredentialsRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Include revoked credentials too.
 	IncludeRevoked bool `protobuf:"varint,1,opt,name=include_revoked,json=includeRevoked,proto3" json:"include_revoked,omitempty"`
-	unknownFields  protoimpl.UnknownFields
-	sizeCache      protoimpl.SizeCache
+	// Most credentials per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,2,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,3,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *ListCredentialsRequest) Reset() {
@@ -315,11 +386,27 @@ func (x *ListCredentialsRequest) GetIncludeRevoked() bool {
 	return false
 }
 
+func (x *ListCredentialsRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListCredentialsRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListCredentialsResponse lists credentials, newest first.
 type ListCredentialsResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The credentials.
-	Credentials   []*Credential `protobuf:"bytes,1,rep,name=credentials,proto3" json:"credentials,omitempty"`
+	// The credentials, newest first (by creation time, then id).
+	Credentials []*Credential `protobuf:"bytes,1,rep,name=credentials,proto3" json:"credentials,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -359,6 +446,13 @@ func (x *ListCredentialsResponse) GetCredentials() []*Credential {
 		return x.Credentials
 	}
 	return nil
+}
+
+func (x *ListCredentialsResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // RevokeCredentialRequest names the credential to revoke.
@@ -851,8 +945,8 @@ func (x *ChainBreak) GetReason() string {
 // VerifyAuditChainResponse reports the check.
 type VerifyAuditChainResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Events checked.
-	Events int64 `protobuf:"varint,1,opt,name=events,proto3" json:"events,omitempty"`
+	// How many events were checked.
+	EventsChecked int64 `protobuf:"varint,1,opt,name=events_checked,json=eventsChecked,proto3" json:"events_checked,omitempty"`
 	// Where the chain does not hold (at most 100); empty when every event holds.
 	Breaks []*ChainBreak `protobuf:"bytes,2,rep,name=breaks,proto3" json:"breaks,omitempty"`
 	// True when there is no break.
@@ -891,9 +985,9 @@ func (*VerifyAuditChainResponse) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_access_proto_rawDescGZIP(), []int{12}
 }
 
-func (x *VerifyAuditChainResponse) GetEvents() int64 {
+func (x *VerifyAuditChainResponse) GetEventsChecked() int64 {
 	if x != nil {
-		return x.Events
+		return x.EventsChecked
 	}
 	return 0
 }
@@ -917,12 +1011,12 @@ var File_halovet_v1_access_proto protoreflect.FileDescriptor
 const file_halovet_v1_access_proto_rawDesc = "" +
 	"\n" +
 	"\x17halovet/v1/access.proto\x12\n" +
-	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x1fgoogle/protobuf/timestamp.proto\"\xe7\x02\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\x1a\x1fgoogle/protobuf/timestamp.proto\"\xf9\x02\n" +
 	"\n" +
 	"Credential\x12#\n" +
 	"\rcredential_id\x18\x01 \x01(\tR\fcredentialId\x12\x12\n" +
-	"\x04name\x18\x02 \x01(\tR\x04name\x12\x12\n" +
-	"\x04role\x18\x03 \x01(\tR\x04role\x12\x1d\n" +
+	"\x04name\x18\x02 \x01(\tR\x04name\x12$\n" +
+	"\x04role\x18\x03 \x01(\x0e2\x10.halovet.v1.RoleR\x04role\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x04 \x01(\tR\tcompanyId\x129\n" +
 	"\n" +
@@ -934,10 +1028,10 @@ const file_halovet_v1_access_proto_rawDesc = "" +
 	"\n" +
 	"revoked_at\x18\b \x01(\v2\x1a.google.protobuf.TimestampR\trevokedAt\x12\x1d\n" +
 	"\n" +
-	"revoked_by\x18\t \x01(\tR\trevokedBy\"\x9a\x01\n" +
+	"revoked_by\x18\t \x01(\tR\trevokedBy\"\xac\x01\n" +
 	"\x16IssueCredentialRequest\x12\x12\n" +
-	"\x04name\x18\x01 \x01(\tR\x04name\x12\x12\n" +
-	"\x04role\x18\x02 \x01(\tR\x04role\x12\x1d\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12$\n" +
+	"\x04role\x18\x02 \x01(\x0e2\x10.halovet.v1.RoleR\x04role\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x03 \x01(\tR\tcompanyId\x129\n" +
 	"\n" +
@@ -946,11 +1040,15 @@ const file_halovet_v1_access_proto_rawDesc = "" +
 	"\n" +
 	"credential\x18\x01 \x01(\v2\x16.halovet.v1.CredentialR\n" +
 	"credential\x12\x16\n" +
-	"\x06secret\x18\x02 \x01(\tR\x06secret\"A\n" +
+	"\x06secret\x18\x02 \x01(\tR\x06secret\"}\n" +
 	"\x16ListCredentialsRequest\x12'\n" +
-	"\x0finclude_revoked\x18\x01 \x01(\bR\x0eincludeRevoked\"S\n" +
+	"\x0finclude_revoked\x18\x01 \x01(\bR\x0eincludeRevoked\x12\x1b\n" +
+	"\tpage_size\x18\x02 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x03 \x01(\tR\tpageToken\"{\n" +
 	"\x17ListCredentialsResponse\x128\n" +
-	"\vcredentials\x18\x01 \x03(\v2\x16.halovet.v1.CredentialR\vcredentials\"V\n" +
+	"\vcredentials\x18\x01 \x03(\v2\x16.halovet.v1.CredentialR\vcredentials\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"V\n" +
 	"\x17RevokeCredentialRequest\x12#\n" +
 	"\rcredential_id\x18\x01 \x01(\tR\fcredentialId\x12\x16\n" +
 	"\x06reason\x18\x02 \x01(\tR\x06reason\"R\n" +
@@ -994,11 +1092,18 @@ const file_halovet_v1_access_proto_rawDesc = "" +
 	"\n" +
 	"ChainBreak\x12\x10\n" +
 	"\x03seq\x18\x01 \x01(\x03R\x03seq\x12\x16\n" +
-	"\x06reason\x18\x02 \x01(\tR\x06reason\"z\n" +
-	"\x18VerifyAuditChainResponse\x12\x16\n" +
-	"\x06events\x18\x01 \x01(\x03R\x06events\x12.\n" +
+	"\x06reason\x18\x02 \x01(\tR\x06reason\"\x89\x01\n" +
+	"\x18VerifyAuditChainResponse\x12%\n" +
+	"\x0eevents_checked\x18\x01 \x01(\x03R\reventsChecked\x12.\n" +
 	"\x06breaks\x18\x02 \x03(\v2\x16.halovet.v1.ChainBreakR\x06breaks\x12\x16\n" +
-	"\x06intact\x18\x03 \x01(\bR\x06intact2\x85\x05\n" +
+	"\x06intact\x18\x03 \x01(\bR\x06intact*t\n" +
+	"\x04Role\x12\x14\n" +
+	"\x10ROLE_UNSPECIFIED\x10\x00\x12\x10\n" +
+	"\fROLE_OFFICER\x10\x01\x12\x10\n" +
+	"\fROLE_CUSTOMS\x10\x02\x12\x0f\n" +
+	"\vROLE_TRADER\x10\x03\x12\x10\n" +
+	"\fROLE_AUDITOR\x10\x04\x12\x0f\n" +
+	"\vROLE_READER\x10\x052\x85\x05\n" +
 	"\rAccessService\x12v\n" +
 	"\x0fIssueCredential\x12\".halovet.v1.IssueCredentialRequest\x1a#.halovet.v1.IssueCredentialResponse\"\x1a\x82\xd3\xe4\x93\x02\x14:\x01*\"\x0f/v1/credentials\x12s\n" +
 	"\x0fListCredentials\x12\".halovet.v1.ListCredentialsRequest\x1a#.halovet.v1.ListCredentialsResponse\"\x17\x82\xd3\xe4\x93\x02\x11\x12\x0f/v1/credentials\x12\x90\x01\n" +
@@ -1018,51 +1123,55 @@ func file_halovet_v1_access_proto_rawDescGZIP() []byte {
 	return file_halovet_v1_access_proto_rawDescData
 }
 
+var file_halovet_v1_access_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
 var file_halovet_v1_access_proto_msgTypes = make([]protoimpl.MessageInfo, 13)
 var file_halovet_v1_access_proto_goTypes = []any{
-	(*Credential)(nil),               // 0: halovet.v1.Credential
-	(*IssueCredentialRequest)(nil),   // 1: halovet.v1.IssueCredentialRequest
-	(*IssueCredentialResponse)(nil),  // 2: halovet.v1.IssueCredentialResponse
-	(*ListCredentialsRequest)(nil),   // 3: halovet.v1.ListCredentialsRequest
-	(*ListCredentialsResponse)(nil),  // 4: halovet.v1.ListCredentialsResponse
-	(*RevokeCredentialRequest)(nil),  // 5: halovet.v1.RevokeCredentialRequest
-	(*RevokeCredentialResponse)(nil), // 6: halovet.v1.RevokeCredentialResponse
-	(*AuditEvent)(nil),               // 7: halovet.v1.AuditEvent
-	(*ListAuditEventsRequest)(nil),   // 8: halovet.v1.ListAuditEventsRequest
-	(*ListAuditEventsResponse)(nil),  // 9: halovet.v1.ListAuditEventsResponse
-	(*VerifyAuditChainRequest)(nil),  // 10: halovet.v1.VerifyAuditChainRequest
-	(*ChainBreak)(nil),               // 11: halovet.v1.ChainBreak
-	(*VerifyAuditChainResponse)(nil), // 12: halovet.v1.VerifyAuditChainResponse
-	(*timestamppb.Timestamp)(nil),    // 13: google.protobuf.Timestamp
+	(Role)(0),                        // 0: halovet.v1.Role
+	(*Credential)(nil),               // 1: halovet.v1.Credential
+	(*IssueCredentialRequest)(nil),   // 2: halovet.v1.IssueCredentialRequest
+	(*IssueCredentialResponse)(nil),  // 3: halovet.v1.IssueCredentialResponse
+	(*ListCredentialsRequest)(nil),   // 4: halovet.v1.ListCredentialsRequest
+	(*ListCredentialsResponse)(nil),  // 5: halovet.v1.ListCredentialsResponse
+	(*RevokeCredentialRequest)(nil),  // 6: halovet.v1.RevokeCredentialRequest
+	(*RevokeCredentialResponse)(nil), // 7: halovet.v1.RevokeCredentialResponse
+	(*AuditEvent)(nil),               // 8: halovet.v1.AuditEvent
+	(*ListAuditEventsRequest)(nil),   // 9: halovet.v1.ListAuditEventsRequest
+	(*ListAuditEventsResponse)(nil),  // 10: halovet.v1.ListAuditEventsResponse
+	(*VerifyAuditChainRequest)(nil),  // 11: halovet.v1.VerifyAuditChainRequest
+	(*ChainBreak)(nil),               // 12: halovet.v1.ChainBreak
+	(*VerifyAuditChainResponse)(nil), // 13: halovet.v1.VerifyAuditChainResponse
+	(*timestamppb.Timestamp)(nil),    // 14: google.protobuf.Timestamp
 }
 var file_halovet_v1_access_proto_depIdxs = []int32{
-	13, // 0: halovet.v1.Credential.created_at:type_name -> google.protobuf.Timestamp
-	13, // 1: halovet.v1.Credential.expires_at:type_name -> google.protobuf.Timestamp
-	13, // 2: halovet.v1.Credential.revoked_at:type_name -> google.protobuf.Timestamp
-	13, // 3: halovet.v1.IssueCredentialRequest.expires_at:type_name -> google.protobuf.Timestamp
-	0,  // 4: halovet.v1.IssueCredentialResponse.credential:type_name -> halovet.v1.Credential
-	0,  // 5: halovet.v1.ListCredentialsResponse.credentials:type_name -> halovet.v1.Credential
-	0,  // 6: halovet.v1.RevokeCredentialResponse.credential:type_name -> halovet.v1.Credential
-	13, // 7: halovet.v1.AuditEvent.at:type_name -> google.protobuf.Timestamp
-	13, // 8: halovet.v1.ListAuditEventsRequest.from_time:type_name -> google.protobuf.Timestamp
-	13, // 9: halovet.v1.ListAuditEventsRequest.to_time:type_name -> google.protobuf.Timestamp
-	7,  // 10: halovet.v1.ListAuditEventsResponse.events:type_name -> halovet.v1.AuditEvent
-	11, // 11: halovet.v1.VerifyAuditChainResponse.breaks:type_name -> halovet.v1.ChainBreak
-	1,  // 12: halovet.v1.AccessService.IssueCredential:input_type -> halovet.v1.IssueCredentialRequest
-	3,  // 13: halovet.v1.AccessService.ListCredentials:input_type -> halovet.v1.ListCredentialsRequest
-	5,  // 14: halovet.v1.AccessService.RevokeCredential:input_type -> halovet.v1.RevokeCredentialRequest
-	8,  // 15: halovet.v1.AccessService.ListAuditEvents:input_type -> halovet.v1.ListAuditEventsRequest
-	10, // 16: halovet.v1.AccessService.VerifyAuditChain:input_type -> halovet.v1.VerifyAuditChainRequest
-	2,  // 17: halovet.v1.AccessService.IssueCredential:output_type -> halovet.v1.IssueCredentialResponse
-	4,  // 18: halovet.v1.AccessService.ListCredentials:output_type -> halovet.v1.ListCredentialsResponse
-	6,  // 19: halovet.v1.AccessService.RevokeCredential:output_type -> halovet.v1.RevokeCredentialResponse
-	9,  // 20: halovet.v1.AccessService.ListAuditEvents:output_type -> halovet.v1.ListAuditEventsResponse
-	12, // 21: halovet.v1.AccessService.VerifyAuditChain:output_type -> halovet.v1.VerifyAuditChainResponse
-	17, // [17:22] is the sub-list for method output_type
-	12, // [12:17] is the sub-list for method input_type
-	12, // [12:12] is the sub-list for extension type_name
-	12, // [12:12] is the sub-list for extension extendee
-	0,  // [0:12] is the sub-list for field type_name
+	0,  // 0: halovet.v1.Credential.role:type_name -> halovet.v1.Role
+	14, // 1: halovet.v1.Credential.created_at:type_name -> google.protobuf.Timestamp
+	14, // 2: halovet.v1.Credential.expires_at:type_name -> google.protobuf.Timestamp
+	14, // 3: halovet.v1.Credential.revoked_at:type_name -> google.protobuf.Timestamp
+	0,  // 4: halovet.v1.IssueCredentialRequest.role:type_name -> halovet.v1.Role
+	14, // 5: halovet.v1.IssueCredentialRequest.expires_at:type_name -> google.protobuf.Timestamp
+	1,  // 6: halovet.v1.IssueCredentialResponse.credential:type_name -> halovet.v1.Credential
+	1,  // 7: halovet.v1.ListCredentialsResponse.credentials:type_name -> halovet.v1.Credential
+	1,  // 8: halovet.v1.RevokeCredentialResponse.credential:type_name -> halovet.v1.Credential
+	14, // 9: halovet.v1.AuditEvent.at:type_name -> google.protobuf.Timestamp
+	14, // 10: halovet.v1.ListAuditEventsRequest.from_time:type_name -> google.protobuf.Timestamp
+	14, // 11: halovet.v1.ListAuditEventsRequest.to_time:type_name -> google.protobuf.Timestamp
+	8,  // 12: halovet.v1.ListAuditEventsResponse.events:type_name -> halovet.v1.AuditEvent
+	12, // 13: halovet.v1.VerifyAuditChainResponse.breaks:type_name -> halovet.v1.ChainBreak
+	2,  // 14: halovet.v1.AccessService.IssueCredential:input_type -> halovet.v1.IssueCredentialRequest
+	4,  // 15: halovet.v1.AccessService.ListCredentials:input_type -> halovet.v1.ListCredentialsRequest
+	6,  // 16: halovet.v1.AccessService.RevokeCredential:input_type -> halovet.v1.RevokeCredentialRequest
+	9,  // 17: halovet.v1.AccessService.ListAuditEvents:input_type -> halovet.v1.ListAuditEventsRequest
+	11, // 18: halovet.v1.AccessService.VerifyAuditChain:input_type -> halovet.v1.VerifyAuditChainRequest
+	3,  // 19: halovet.v1.AccessService.IssueCredential:output_type -> halovet.v1.IssueCredentialResponse
+	5,  // 20: halovet.v1.AccessService.ListCredentials:output_type -> halovet.v1.ListCredentialsResponse
+	7,  // 21: halovet.v1.AccessService.RevokeCredential:output_type -> halovet.v1.RevokeCredentialResponse
+	10, // 22: halovet.v1.AccessService.ListAuditEvents:output_type -> halovet.v1.ListAuditEventsResponse
+	13, // 23: halovet.v1.AccessService.VerifyAuditChain:output_type -> halovet.v1.VerifyAuditChainResponse
+	19, // [19:24] is the sub-list for method output_type
+	14, // [14:19] is the sub-list for method input_type
+	14, // [14:14] is the sub-list for extension type_name
+	14, // [14:14] is the sub-list for extension extendee
+	0,  // [0:14] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_access_proto_init() }
@@ -1075,13 +1184,14 @@ func file_halovet_v1_access_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_access_proto_rawDesc), len(file_halovet_v1_access_proto_rawDesc)),
-			NumEnums:      0,
+			NumEnums:      1,
 			NumMessages:   13,
 			NumExtensions: 0,
 			NumServices:   1,
 		},
 		GoTypes:           file_halovet_v1_access_proto_goTypes,
 		DependencyIndexes: file_halovet_v1_access_proto_depIdxs,
+		EnumInfos:         file_halovet_v1_access_proto_enumTypes,
 		MessageInfos:      file_halovet_v1_access_proto_msgTypes,
 	}.Build()
 	File_halovet_v1_access_proto = out.File

@@ -38,7 +38,8 @@ type AccessServiceClient interface {
 	// IssueCredential makes a new credential and returns its secret, once: only
 	// its hash is stored.
 	IssueCredential(ctx context.Context, in *IssueCredentialRequest, opts ...grpc.CallOption) (*IssueCredentialResponse, error)
-	// ListCredentials lists the credentials (never their secrets).
+	// ListCredentials lists the credentials (never their secrets), newest first, a page at
+	// a time.
 	ListCredentials(ctx context.Context, in *ListCredentialsRequest, opts ...grpc.CallOption) (*ListCredentialsResponse, error)
 	// RevokeCredential revokes a credential; every replica refuses it within 2 s.
 	RevokeCredential(ctx context.Context, in *RevokeCredentialRequest, opts ...grpc.CallOption) (*RevokeCredentialResponse, error)
@@ -120,7 +121,8 @@ type AccessServiceServer interface {
 	// IssueCredential makes a new credential and returns its secret, once: only
 	// its hash is stored.
 	IssueCredential(context.Context, *IssueCredentialRequest) (*IssueCredentialResponse, error)
-	// ListCredentials lists the credentials (never their secrets).
+	// ListCredentials lists the credentials (never their secrets), newest first, a page at
+	// a time.
 	ListCredentials(context.Context, *ListCredentialsRequest) (*ListCredentialsResponse, error)
 	// RevokeCredential revokes a credential; every replica refuses it within 2 s.
 	RevokeCredential(context.Context, *RevokeCredentialRequest) (*RevokeCredentialResponse, error)

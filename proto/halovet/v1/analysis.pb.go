@@ -161,8 +161,8 @@ type AnalyseReadingRequest struct {
 	// The declared net mass in kg, a decimal, for the figures of what the reading holds;
 	// empty means 0.
 	NetMassKg string `protobuf:"bytes,5,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
-	// How many entries that do not fit to list; 0 means 3.
-	NearMisses    int32 `protobuf:"varint,6,opt,name=near_misses,json=nearMisses,proto3" json:"near_misses,omitempty"`
+	// How many entries that do not fit to list (a count of entries); 0 means 3.
+	NearMissCount int32 `protobuf:"varint,6,opt,name=near_miss_count,json=nearMissCount,proto3" json:"near_miss_count,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -232,9 +232,9 @@ func (x *AnalyseReadingRequest) GetNetMassKg() string {
 	return ""
 }
 
-func (x *AnalyseReadingRequest) GetNearMisses() int32 {
+func (x *AnalyseReadingRequest) GetNearMissCount() int32 {
 	if x != nil {
-		return x.NearMisses
+		return x.NearMissCount
 	}
 	return 0
 }
@@ -700,8 +700,8 @@ type AnalyseReadingResponse struct {
 	State ReadingState `protobuf:"varint,4,opt,name=state,proto3,enum=halovet.v1.ReadingState" json:"state,omitempty"`
 	// Fitting entries best first, then the closest that do not fit.
 	Matches []*ReadingMatch `protobuf:"bytes,5,rep,name=matches,proto3" json:"matches,omitempty"`
-	// How many of matches fit.
-	Fitting int32 `protobuf:"varint,6,opt,name=fitting,proto3" json:"fitting,omitempty"`
+	// How many of matches fit (a count of entries; they come first).
+	FittingCount int32 `protobuf:"varint,6,opt,name=fitting_count,json=fittingCount,proto3" json:"fitting_count,omitempty"`
 	// For a contaminated reading: the minor components set aside.
 	SetAside []string `protobuf:"bytes,7,rep,name=set_aside,json=setAside,proto3" json:"set_aside,omitempty"`
 	// For a contaminated reading: the entries that fit the rest.
@@ -792,9 +792,9 @@ func (x *AnalyseReadingResponse) GetMatches() []*ReadingMatch {
 	return nil
 }
 
-func (x *AnalyseReadingResponse) GetFitting() int32 {
+func (x *AnalyseReadingResponse) GetFittingCount() int32 {
 	if x != nil {
-		return x.Fitting
+		return x.FittingCount
 	}
 	return 0
 }
@@ -880,7 +880,7 @@ const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"identifier\x18\x01 \x01(\tR\n" +
 	"identifier\x12!\n" +
 	"\fmass_percent\x18\x02 \x01(\tR\vmassPercent\x12-\n" +
-	"\x12uncertainty_points\x18\x03 \x01(\tR\x11uncertaintyPoints\"\x96\x02\n" +
+	"\x12uncertainty_points\x18\x03 \x01(\tR\x11uncertaintyPoints\"\x9d\x02\n" +
 	"\x15AnalyseReadingRequest\x129\n" +
 	"\n" +
 	"components\x18\x01 \x03(\v2\x19.halovet.v1.MeasuredShareR\n" +
@@ -888,9 +888,8 @@ const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"\x17non_condensable_percent\x18\x02 \x01(\tR\x15nonCondensablePercent\x12-\n" +
 	"\x12uncertainty_points\x18\x03 \x01(\tR\x11uncertaintyPoints\x12\x1a\n" +
 	"\bdeclared\x18\x04 \x01(\tR\bdeclared\x12\x1e\n" +
-	"\vnet_mass_kg\x18\x05 \x01(\tR\tnetMassKg\x12\x1f\n" +
-	"\vnear_misses\x18\x06 \x01(\x05R\n" +
-	"nearMisses\"\xee\x01\n" +
+	"\vnet_mass_kg\x18\x05 \x01(\tR\tnetMassKg\x12&\n" +
+	"\x0fnear_miss_count\x18\x06 \x01(\x05R\rnearMissCount\"\xee\x01\n" +
 	"\x11MeasuredComponent\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
@@ -936,7 +935,7 @@ const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"\x12gwp_100yr_protocol\x18\a \x01(\tR\x10gwp100yrProtocol\x12\x1f\n" +
 	"\vco2e_tonnes\x18\b \x01(\tR\n" +
 	"co2eTonnes\x12,\n" +
-	"\x12listed_co2e_tonnes\x18\t \x01(\tR\x10listedCo2eTonnes\"\xb9\x05\n" +
+	"\x12listed_co2e_tonnes\x18\t \x01(\tR\x10listedCo2eTonnes\"\xc4\x05\n" +
 	"\x16AnalyseReadingResponse\x12=\n" +
 	"\n" +
 	"components\x18\x01 \x03(\v2\x1d.halovet.v1.MeasuredComponentR\n" +
@@ -944,8 +943,8 @@ const file_halovet_v1_analysis_proto_rawDesc = "" +
 	"\x17non_condensable_percent\x18\x02 \x01(\tR\x15nonCondensablePercent\x120\n" +
 	"\x14non_condensable_note\x18\x03 \x01(\tR\x12nonCondensableNote\x12.\n" +
 	"\x05state\x18\x04 \x01(\x0e2\x18.halovet.v1.ReadingStateR\x05state\x122\n" +
-	"\amatches\x18\x05 \x03(\v2\x18.halovet.v1.ReadingMatchR\amatches\x12\x18\n" +
-	"\afitting\x18\x06 \x01(\x05R\afitting\x12\x1b\n" +
+	"\amatches\x18\x05 \x03(\v2\x18.halovet.v1.ReadingMatchR\amatches\x12#\n" +
+	"\rfitting_count\x18\x06 \x01(\x05R\ffittingCount\x12\x1b\n" +
 	"\tset_aside\x18\a \x03(\tR\bsetAside\x12\x1d\n" +
 	"\n" +
 	"clean_fits\x18\b \x03(\tR\tcleanFits\x124\n" +

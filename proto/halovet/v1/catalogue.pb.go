@@ -75,6 +75,240 @@ func (EntryKind) EnumDescriptor() ([]byte, []int) {
 	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{0}
 }
 
+// GwpSet names the publication a set of 100-year GWP values is taken from.
+type GwpSet int32
+
+const (
+	// Not set.
+	GwpSet_GWP_SET_UNSPECIFIED GwpSet = 0
+	// The values listed in the Montreal Protocol's Annexes (Annex A Group I, Annex C Group I
+	// and Annex F, as the Kigali Amendment added them), which are IPCC AR4 values; these are
+	// the values the Protocol's CO2-equivalent arithmetic uses, and a controlled substance
+	// the Annexes list without one counts as 0 there.
+	GwpSet_GWP_SET_PROTOCOL_ANNEXES GwpSet = 1
+	// IPCC Fourth Assessment Report, Working Group I (2007), Table 2.14.
+	GwpSet_GWP_SET_IPCC_AR4 GwpSet = 2
+	// IPCC Fifth Assessment Report, Working Group I (2013), Table 8.A.1.
+	GwpSet_GWP_SET_IPCC_AR5 GwpSet = 3
+	// IPCC Sixth Assessment Report, Working Group I (2021), Table 7.SM.7.
+	GwpSet_GWP_SET_IPCC_AR6 GwpSet = 4
+)
+
+// Enum value maps for GwpSet.
+var (
+	GwpSet_name = map[int32]string{
+		0: "GWP_SET_UNSPECIFIED",
+		1: "GWP_SET_PROTOCOL_ANNEXES",
+		2: "GWP_SET_IPCC_AR4",
+		3: "GWP_SET_IPCC_AR5",
+		4: "GWP_SET_IPCC_AR6",
+	}
+	GwpSet_value = map[string]int32{
+		"GWP_SET_UNSPECIFIED":      0,
+		"GWP_SET_PROTOCOL_ANNEXES": 1,
+		"GWP_SET_IPCC_AR4":         2,
+		"GWP_SET_IPCC_AR5":         3,
+		"GWP_SET_IPCC_AR6":         4,
+	}
+)
+
+func (x GwpSet) Enum() *GwpSet {
+	p := new(GwpSet)
+	*p = x
+	return p
+}
+
+func (x GwpSet) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (GwpSet) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_catalogue_proto_enumTypes[1].Descriptor()
+}
+
+func (GwpSet) Type() protoreflect.EnumType {
+	return &file_halovet_v1_catalogue_proto_enumTypes[1]
+}
+
+func (x GwpSet) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use GwpSet.Descriptor instead.
+func (GwpSet) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{1}
+}
+
+// GwpConvention says which components of a mixture a mixture GWP weights.
+type GwpConvention int32
+
+const (
+	// Not set.
+	GwpConvention_GWP_CONVENTION_UNSPECIFIED GwpConvention = 0
+	// Every component that has a GWP in the set, hydrocarbons and HFOs included: the
+	// method of the EU F-gas Regulation (Regulation (EU) No 517/2014, Annex IV).
+	GwpConvention_GWP_CONVENTION_ALL_COMPONENTS GwpConvention = 1
+	// Only the Annex F (HFC) components, as the Protocol counts CO2-equivalent
+	// consumption (Article 3 as amended at Kigali); HCFC components count in ODP tonnes in
+	// their own group instead.
+	GwpConvention_GWP_CONVENTION_ANNEX_F_ONLY GwpConvention = 2
+)
+
+// Enum value maps for GwpConvention.
+var (
+	GwpConvention_name = map[int32]string{
+		0: "GWP_CONVENTION_UNSPECIFIED",
+		1: "GWP_CONVENTION_ALL_COMPONENTS",
+		2: "GWP_CONVENTION_ANNEX_F_ONLY",
+	}
+	GwpConvention_value = map[string]int32{
+		"GWP_CONVENTION_UNSPECIFIED":    0,
+		"GWP_CONVENTION_ALL_COMPONENTS": 1,
+		"GWP_CONVENTION_ANNEX_F_ONLY":   2,
+	}
+)
+
+func (x GwpConvention) Enum() *GwpConvention {
+	p := new(GwpConvention)
+	*p = x
+	return p
+}
+
+func (x GwpConvention) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (GwpConvention) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_catalogue_proto_enumTypes[2].Descriptor()
+}
+
+func (GwpConvention) Type() protoreflect.EnumType {
+	return &file_halovet_v1_catalogue_proto_enumTypes[2]
+}
+
+func (x GwpConvention) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use GwpConvention.Descriptor instead.
+func (GwpConvention) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{2}
+}
+
+// HsEdition is an edition of the WCO Harmonized System nomenclature.
+type HsEdition int32
+
+const (
+	// Not set.
+	HsEdition_HS_EDITION_UNSPECIFIED HsEdition = 0
+	// The HS 2017 edition (WCO, in force from 1 January 2017).
+	HsEdition_HS_EDITION_HS_2017 HsEdition = 1
+	// The HS 2022 edition (WCO, in force from 1 January 2022), which gave many controlled
+	// halocarbons subheadings of their own in 2903 and 3827.
+	HsEdition_HS_EDITION_HS_2022 HsEdition = 2
+)
+
+// Enum value maps for HsEdition.
+var (
+	HsEdition_name = map[int32]string{
+		0: "HS_EDITION_UNSPECIFIED",
+		1: "HS_EDITION_HS_2017",
+		2: "HS_EDITION_HS_2022",
+	}
+	HsEdition_value = map[string]int32{
+		"HS_EDITION_UNSPECIFIED": 0,
+		"HS_EDITION_HS_2017":     1,
+		"HS_EDITION_HS_2022":     2,
+	}
+)
+
+func (x HsEdition) Enum() *HsEdition {
+	p := new(HsEdition)
+	*p = x
+	return p
+}
+
+func (x HsEdition) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (HsEdition) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_catalogue_proto_enumTypes[3].Descriptor()
+}
+
+func (HsEdition) Type() protoreflect.EnumType {
+	return &file_halovet_v1_catalogue_proto_enumTypes[3]
+}
+
+func (x HsEdition) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use HsEdition.Descriptor instead.
+func (HsEdition) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{3}
+}
+
+// BlendType says how a blend behaves and how ASHRAE 34 numbers it.
+type BlendType int32
+
+const (
+	// Not set.
+	BlendType_BLEND_TYPE_UNSPECIFIED BlendType = 0
+	// A zeotropic blend: its components evaporate at different temperatures; ASHRAE 34
+	// numbers these in the 400 series (R-404A).
+	BlendType_BLEND_TYPE_ZEOTROPE BlendType = 1
+	// An azeotropic blend: it evaporates as one substance would; ASHRAE 34 numbers these in
+	// the 500 series (R-502).
+	BlendType_BLEND_TYPE_AZEOTROPE BlendType = 2
+	// A traded mixture without an ASHRAE 34 number, e.g. a methyl bromide/chloropicrin
+	// fumigant.
+	BlendType_BLEND_TYPE_MIXTURE BlendType = 3
+)
+
+// Enum value maps for BlendType.
+var (
+	BlendType_name = map[int32]string{
+		0: "BLEND_TYPE_UNSPECIFIED",
+		1: "BLEND_TYPE_ZEOTROPE",
+		2: "BLEND_TYPE_AZEOTROPE",
+		3: "BLEND_TYPE_MIXTURE",
+	}
+	BlendType_value = map[string]int32{
+		"BLEND_TYPE_UNSPECIFIED": 0,
+		"BLEND_TYPE_ZEOTROPE":    1,
+		"BLEND_TYPE_AZEOTROPE":   2,
+		"BLEND_TYPE_MIXTURE":     3,
+	}
+)
+
+func (x BlendType) Enum() *BlendType {
+	p := new(BlendType)
+	*p = x
+	return p
+}
+
+func (x BlendType) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (BlendType) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_catalogue_proto_enumTypes[4].Descriptor()
+}
+
+func (BlendType) Type() protoreflect.EnumType {
+	return &file_halovet_v1_catalogue_proto_enumTypes[4]
+}
+
+func (x BlendType) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use BlendType.Descriptor instead.
+func (BlendType) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{4}
+}
+
 // ControlFilter selects entries by control status.
 type ControlFilter int32
 
@@ -113,11 +347,11 @@ func (x ControlFilter) String() string {
 }
 
 func (ControlFilter) Descriptor() protoreflect.EnumDescriptor {
-	return file_halovet_v1_catalogue_proto_enumTypes[1].Descriptor()
+	return file_halovet_v1_catalogue_proto_enumTypes[5].Descriptor()
 }
 
 func (ControlFilter) Type() protoreflect.EnumType {
-	return &file_halovet_v1_catalogue_proto_enumTypes[1]
+	return &file_halovet_v1_catalogue_proto_enumTypes[5]
 }
 
 func (x ControlFilter) Number() protoreflect.EnumNumber {
@@ -126,7 +360,7 @@ func (x ControlFilter) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use ControlFilter.Descriptor instead.
 func (ControlFilter) EnumDescriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{1}
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{5}
 }
 
 // MatchKind says how an identifier matched a candidate.
@@ -186,11 +420,11 @@ func (x MatchKind) String() string {
 }
 
 func (MatchKind) Descriptor() protoreflect.EnumDescriptor {
-	return file_halovet_v1_catalogue_proto_enumTypes[2].Descriptor()
+	return file_halovet_v1_catalogue_proto_enumTypes[6].Descriptor()
 }
 
 func (MatchKind) Type() protoreflect.EnumType {
-	return &file_halovet_v1_catalogue_proto_enumTypes[2]
+	return &file_halovet_v1_catalogue_proto_enumTypes[6]
 }
 
 func (x MatchKind) Number() protoreflect.EnumNumber {
@@ -199,15 +433,14 @@ func (x MatchKind) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use MatchKind.Descriptor instead.
 func (MatchKind) EnumDescriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{2}
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{6}
 }
 
 // GwpValue is one 100-year global warming potential with the set it belongs to.
 type GwpValue struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The set: "MP" (the Montreal Protocol annex value, equal to IPCC AR4),
-	// "AR4", "AR5" or "AR6".
-	GwpSet string `protobuf:"bytes,1,opt,name=gwp_set,json=gwpSet,proto3" json:"gwp_set,omitempty"`
+	// The set the value belongs to.
+	GwpSet GwpSet `protobuf:"varint,1,opt,name=gwp_set,json=gwpSet,proto3,enum=halovet.v1.GwpSet" json:"gwp_set,omitempty"`
 	// The 100-year GWP (kg CO2-eq per kg), exact decimal, e.g. "1430".
 	Gwp_100Yr string `protobuf:"bytes,2,opt,name=gwp_100yr,json=gwp100yr,proto3" json:"gwp_100yr,omitempty"`
 	// The publication the value is taken from.
@@ -246,11 +479,11 @@ func (*GwpValue) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{0}
 }
 
-func (x *GwpValue) GetGwpSet() string {
+func (x *GwpValue) GetGwpSet() GwpSet {
 	if x != nil {
 		return x.GwpSet
 	}
-	return ""
+	return GwpSet_GWP_SET_UNSPECIFIED
 }
 
 func (x *GwpValue) GetGwp_100Yr() string {
@@ -270,8 +503,8 @@ func (x *GwpValue) GetSource() string {
 // HsCode is a Harmonized System subheading under one edition of the nomenclature.
 type HsCode struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The edition: "HS2017" or "HS2022".
-	Edition string `protobuf:"bytes,1,opt,name=edition,proto3" json:"edition,omitempty"`
+	// The edition of the nomenclature.
+	Edition HsEdition `protobuf:"varint,1,opt,name=edition,proto3,enum=halovet.v1.HsEdition" json:"edition,omitempty"`
 	// Six-digit subheading written as "2903.71".
 	Subheading string `protobuf:"bytes,2,opt,name=subheading,proto3" json:"subheading,omitempty"`
 	// True when the subheading also holds other goods, so that the code alone does
@@ -311,11 +544,11 @@ func (*HsCode) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{1}
 }
 
-func (x *HsCode) GetEdition() string {
+func (x *HsCode) GetEdition() HsEdition {
 	if x != nil {
 		return x.Edition
 	}
-	return ""
+	return HsEdition_HS_EDITION_UNSPECIFIED
 }
 
 func (x *HsCode) GetSubheading() string {
@@ -608,8 +841,8 @@ type Blend struct {
 	Designation string `protobuf:"bytes,1,opt,name=designation,proto3" json:"designation,omitempty"`
 	// Other names.
 	Synonyms []string `protobuf:"bytes,2,rep,name=synonyms,proto3" json:"synonyms,omitempty"`
-	// "zeotrope" (400 series) or "azeotrope" (500 series).
-	BlendType string `protobuf:"bytes,3,opt,name=blend_type,json=blendType,proto3" json:"blend_type,omitempty"`
+	// Zeotrope (400 series), azeotrope (500 series) or a mixture without a number.
+	BlendType BlendType `protobuf:"varint,3,opt,name=blend_type,json=blendType,proto3,enum=halovet.v1.BlendType" json:"blend_type,omitempty"`
 	// Components in ASHRAE order.
 	Components []*BlendComponent `protobuf:"bytes,4,rep,name=components,proto3" json:"components,omitempty"`
 	// ASHRAE 34 safety class, empty when unknown.
@@ -664,11 +897,11 @@ func (x *Blend) GetSynonyms() []string {
 	return nil
 }
 
-func (x *Blend) GetBlendType() string {
+func (x *Blend) GetBlendType() BlendType {
 	if x != nil {
 		return x.BlendType
 	}
-	return ""
+	return BlendType_BLEND_TYPE_UNSPECIFIED
 }
 
 func (x *Blend) GetComponents() []*BlendComponent {
@@ -692,16 +925,16 @@ func (x *Blend) GetSources() string {
 	return ""
 }
 
-// CatalogueEntry is a substance or a blend.
+// CatalogueEntry is a substance or a blend, as ListEntries lists them.
 type CatalogueEntry struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The entry itself.
+	// Which kind of entry it is, and the entry.
 	//
-	// Types that are valid to be assigned to Entry:
+	// Types that are valid to be assigned to Kind:
 	//
 	//	*CatalogueEntry_Substance
 	//	*CatalogueEntry_Blend
-	Entry         isCatalogueEntry_Entry `protobuf_oneof:"entry"`
+	Kind          isCatalogueEntry_Kind `protobuf_oneof:"kind"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -736,16 +969,16 @@ func (*CatalogueEntry) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{5}
 }
 
-func (x *CatalogueEntry) GetEntry() isCatalogueEntry_Entry {
+func (x *CatalogueEntry) GetKind() isCatalogueEntry_Kind {
 	if x != nil {
-		return x.Entry
+		return x.Kind
 	}
 	return nil
 }
 
 func (x *CatalogueEntry) GetSubstance() *Substance {
 	if x != nil {
-		if x, ok := x.Entry.(*CatalogueEntry_Substance); ok {
+		if x, ok := x.Kind.(*CatalogueEntry_Substance); ok {
 			return x.Substance
 		}
 	}
@@ -754,15 +987,15 @@ func (x *CatalogueEntry) GetSubstance() *Substance {
 
 func (x *CatalogueEntry) GetBlend() *Blend {
 	if x != nil {
-		if x, ok := x.Entry.(*CatalogueEntry_Blend); ok {
+		if x, ok := x.Kind.(*CatalogueEntry_Blend); ok {
 			return x.Blend
 		}
 	}
 	return nil
 }
 
-type isCatalogueEntry_Entry interface {
-	isCatalogueEntry_Entry()
+type isCatalogueEntry_Kind interface {
+	isCatalogueEntry_Kind()
 }
 
 type CatalogueEntry_Substance struct {
@@ -775,9 +1008,9 @@ type CatalogueEntry_Blend struct {
 	Blend *Blend `protobuf:"bytes,2,opt,name=blend,proto3,oneof"`
 }
 
-func (*CatalogueEntry_Substance) isCatalogueEntry_Entry() {}
+func (*CatalogueEntry_Substance) isCatalogueEntry_Kind() {}
 
-func (*CatalogueEntry_Blend) isCatalogueEntry_Entry() {}
+func (*CatalogueEntry_Blend) isCatalogueEntry_Kind() {}
 
 // GetEntryRequest names one entry.
 type GetEntryRequest struct {
@@ -825,11 +1058,17 @@ func (x *GetEntryRequest) GetDesignation() string {
 	return ""
 }
 
-// GetEntryResponse carries the entry.
+// GetEntryResponse is the entry found: a substance or a blend, the same oneof as
+// CatalogueEntry's.
 type GetEntryResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The entry found.
-	Entry         *CatalogueEntry `protobuf:"bytes,1,opt,name=entry,proto3" json:"entry,omitempty"`
+	// Which kind of entry it is, and the entry.
+	//
+	// Types that are valid to be assigned to Kind:
+	//
+	//	*GetEntryResponse_Substance
+	//	*GetEntryResponse_Blend
+	Kind          isGetEntryResponse_Kind `protobuf_oneof:"kind"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -864,12 +1103,48 @@ func (*GetEntryResponse) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{7}
 }
 
-func (x *GetEntryResponse) GetEntry() *CatalogueEntry {
+func (x *GetEntryResponse) GetKind() isGetEntryResponse_Kind {
 	if x != nil {
-		return x.Entry
+		return x.Kind
 	}
 	return nil
 }
+
+func (x *GetEntryResponse) GetSubstance() *Substance {
+	if x != nil {
+		if x, ok := x.Kind.(*GetEntryResponse_Substance); ok {
+			return x.Substance
+		}
+	}
+	return nil
+}
+
+func (x *GetEntryResponse) GetBlend() *Blend {
+	if x != nil {
+		if x, ok := x.Kind.(*GetEntryResponse_Blend); ok {
+			return x.Blend
+		}
+	}
+	return nil
+}
+
+type isGetEntryResponse_Kind interface {
+	isGetEntryResponse_Kind()
+}
+
+type GetEntryResponse_Substance struct {
+	// A single substance.
+	Substance *Substance `protobuf:"bytes,1,opt,name=substance,proto3,oneof"`
+}
+
+type GetEntryResponse_Blend struct {
+	// A blend.
+	Blend *Blend `protobuf:"bytes,2,opt,name=blend,proto3,oneof"`
+}
+
+func (*GetEntryResponse_Substance) isGetEntryResponse_Kind() {}
+
+func (*GetEntryResponse_Blend) isGetEntryResponse_Kind() {}
 
 // ListEntriesRequest filters and pages the catalogue.
 type ListEntriesRequest struct {
@@ -1291,62 +1566,14 @@ func (x *MixtureShare) GetMassPercent() string {
 	return ""
 }
 
-// Composition is an ad-hoc mixture.
-type Composition struct {
-	state protoimpl.MessageState `protogen:"open.v1"`
-	// Shares that must sum to 100 % within 0.01 percent points.
-	Shares        []*MixtureShare `protobuf:"bytes,1,rep,name=shares,proto3" json:"shares,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
-}
-
-func (x *Composition) Reset() {
-	*x = Composition{}
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[14]
-	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
-	ms.StoreMessageInfo(mi)
-}
-
-func (x *Composition) String() string {
-	return protoimpl.X.MessageStringOf(x)
-}
-
-func (*Composition) ProtoMessage() {}
-
-func (x *Composition) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[14]
-	if x != nil {
-		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
-		if ms.LoadMessageInfo() == nil {
-			ms.StoreMessageInfo(mi)
-		}
-		return ms
-	}
-	return mi.MessageOf(x)
-}
-
-// Deprecated: Use Composition.ProtoReflect.Descriptor instead.
-func (*Composition) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{14}
-}
-
-func (x *Composition) GetShares() []*MixtureShare {
-	if x != nil {
-		return x.Shares
-	}
-	return nil
-}
-
-// EvaluateMixtureRequest names a blend or gives a composition.
+// EvaluateMixtureRequest names a blend or gives a composition: exactly one of blend and
+// composition.
 type EvaluateMixtureRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// What to evaluate.
-	//
-	// Types that are valid to be assigned to Mixture:
-	//
-	//	*EvaluateMixtureRequest_Blend
-	//	*EvaluateMixtureRequest_Composition
-	Mixture isEvaluateMixtureRequest_Mixture `protobuf_oneof:"mixture"`
+	// A blend designation, e.g. "R-410A".
+	Blend string `protobuf:"bytes,1,opt,name=blend,proto3" json:"blend,omitempty"`
+	// An ad-hoc composition: shares that must sum to 100 % within 0.01 percent points.
+	Composition []*MixtureShare `protobuf:"bytes,2,rep,name=composition,proto3" json:"composition,omitempty"`
 	// Net mass of the mixture in kg as a decimal, e.g. "12.5"; empty or "0" evaluates the
 	// mass-independent figures only.
 	NetMassKg     string `protobuf:"bytes,3,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
@@ -1356,7 +1583,7 @@ type EvaluateMixtureRequest struct {
 
 func (x *EvaluateMixtureRequest) Reset() {
 	*x = EvaluateMixtureRequest{}
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[15]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[14]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1368,7 +1595,7 @@ func (x *EvaluateMixtureRequest) String() string {
 func (*EvaluateMixtureRequest) ProtoMessage() {}
 
 func (x *EvaluateMixtureRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[15]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[14]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1381,30 +1608,19 @@ func (x *EvaluateMixtureRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use EvaluateMixtureRequest.ProtoReflect.Descriptor instead.
 func (*EvaluateMixtureRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{15}
-}
-
-func (x *EvaluateMixtureRequest) GetMixture() isEvaluateMixtureRequest_Mixture {
-	if x != nil {
-		return x.Mixture
-	}
-	return nil
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{14}
 }
 
 func (x *EvaluateMixtureRequest) GetBlend() string {
 	if x != nil {
-		if x, ok := x.Mixture.(*EvaluateMixtureRequest_Blend); ok {
-			return x.Blend
-		}
+		return x.Blend
 	}
 	return ""
 }
 
-func (x *EvaluateMixtureRequest) GetComposition() *Composition {
+func (x *EvaluateMixtureRequest) GetComposition() []*MixtureShare {
 	if x != nil {
-		if x, ok := x.Mixture.(*EvaluateMixtureRequest_Composition); ok {
-			return x.Composition
-		}
+		return x.Composition
 	}
 	return nil
 }
@@ -1415,24 +1631,6 @@ func (x *EvaluateMixtureRequest) GetNetMassKg() string {
 	}
 	return ""
 }
-
-type isEvaluateMixtureRequest_Mixture interface {
-	isEvaluateMixtureRequest_Mixture()
-}
-
-type EvaluateMixtureRequest_Blend struct {
-	// A blend designation, e.g. "R-410A".
-	Blend string `protobuf:"bytes,1,opt,name=blend,proto3,oneof"`
-}
-
-type EvaluateMixtureRequest_Composition struct {
-	// An ad-hoc composition.
-	Composition *Composition `protobuf:"bytes,2,opt,name=composition,proto3,oneof"`
-}
-
-func (*EvaluateMixtureRequest_Blend) isEvaluateMixtureRequest_Mixture() {}
-
-func (*EvaluateMixtureRequest_Composition) isEvaluateMixtureRequest_Mixture() {}
 
 // ComponentFigures are the figures of one component for the evaluated mass.
 type ComponentFigures struct {
@@ -1462,7 +1660,7 @@ type ComponentFigures struct {
 
 func (x *ComponentFigures) Reset() {
 	*x = ComponentFigures{}
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[16]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[15]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1474,7 +1672,7 @@ func (x *ComponentFigures) String() string {
 func (*ComponentFigures) ProtoMessage() {}
 
 func (x *ComponentFigures) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[16]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[15]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1487,7 +1685,7 @@ func (x *ComponentFigures) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ComponentFigures.ProtoReflect.Descriptor instead.
 func (*ComponentFigures) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{16}
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{15}
 }
 
 func (x *ComponentFigures) GetDesignation() string {
@@ -1556,11 +1754,10 @@ func (x *ComponentFigures) GetSafetyClass() string {
 // GwpFigure is a mixture GWP under one convention.
 type GwpFigure struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The GWP set ("AR4", "AR5", "AR6").
-	GwpSet string `protobuf:"bytes,1,opt,name=gwp_set,json=gwpSet,proto3" json:"gwp_set,omitempty"`
-	// Convention: "all-components" (every component with a GWP, EU F-gas style) or
-	// "annex-f-only" (controlled HFC components only, as the Protocol counts).
-	Convention string `protobuf:"bytes,2,opt,name=convention,proto3" json:"convention,omitempty"`
+	// The GWP set.
+	GwpSet GwpSet `protobuf:"varint,1,opt,name=gwp_set,json=gwpSet,proto3,enum=halovet.v1.GwpSet" json:"gwp_set,omitempty"`
+	// Which components the figure weights.
+	Convention GwpConvention `protobuf:"varint,2,opt,name=convention,proto3,enum=halovet.v1.GwpConvention" json:"convention,omitempty"`
 	// Mass-weighted GWP of the mixture: the exact sum of share times GWP, e.g. "3921.6".
 	Gwp_100Yr string `protobuf:"bytes,3,opt,name=gwp_100yr,json=gwp100yr,proto3" json:"gwp_100yr,omitempty"`
 	// False when a component lacks a value in this set (the figure is partial).
@@ -1571,7 +1768,7 @@ type GwpFigure struct {
 
 func (x *GwpFigure) Reset() {
 	*x = GwpFigure{}
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[17]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[16]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1583,7 +1780,7 @@ func (x *GwpFigure) String() string {
 func (*GwpFigure) ProtoMessage() {}
 
 func (x *GwpFigure) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[17]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[16]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1596,21 +1793,21 @@ func (x *GwpFigure) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GwpFigure.ProtoReflect.Descriptor instead.
 func (*GwpFigure) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{17}
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{16}
 }
 
-func (x *GwpFigure) GetGwpSet() string {
+func (x *GwpFigure) GetGwpSet() GwpSet {
 	if x != nil {
 		return x.GwpSet
 	}
-	return ""
+	return GwpSet_GWP_SET_UNSPECIFIED
 }
 
-func (x *GwpFigure) GetConvention() string {
+func (x *GwpFigure) GetConvention() GwpConvention {
 	if x != nil {
 		return x.Convention
 	}
-	return ""
+	return GwpConvention_GWP_CONVENTION_UNSPECIFIED
 }
 
 func (x *GwpFigure) GetGwp_100Yr() string {
@@ -1659,7 +1856,7 @@ type EvaluateMixtureResponse struct {
 
 func (x *EvaluateMixtureResponse) Reset() {
 	*x = EvaluateMixtureResponse{}
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[18]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[17]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1671,7 +1868,7 @@ func (x *EvaluateMixtureResponse) String() string {
 func (*EvaluateMixtureResponse) ProtoMessage() {}
 
 func (x *EvaluateMixtureResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[18]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[17]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1684,7 +1881,7 @@ func (x *EvaluateMixtureResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use EvaluateMixtureResponse.ProtoReflect.Descriptor instead.
 func (*EvaluateMixtureResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{18}
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{17}
 }
 
 func (x *EvaluateMixtureResponse) GetDesignation() string {
@@ -1777,7 +1974,7 @@ type UpsertSubstanceRequest struct {
 
 func (x *UpsertSubstanceRequest) Reset() {
 	*x = UpsertSubstanceRequest{}
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[19]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[18]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1789,7 +1986,7 @@ func (x *UpsertSubstanceRequest) String() string {
 func (*UpsertSubstanceRequest) ProtoMessage() {}
 
 func (x *UpsertSubstanceRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[19]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[18]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1802,7 +1999,7 @@ func (x *UpsertSubstanceRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use UpsertSubstanceRequest.ProtoReflect.Descriptor instead.
 func (*UpsertSubstanceRequest) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{19}
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{18}
 }
 
 func (x *UpsertSubstanceRequest) GetSubstance() *Substance {
@@ -1832,7 +2029,7 @@ type UpsertSubstanceResponse struct {
 
 func (x *UpsertSubstanceResponse) Reset() {
 	*x = UpsertSubstanceResponse{}
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[20]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[19]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1844,7 +2041,7 @@ func (x *UpsertSubstanceResponse) String() string {
 func (*UpsertSubstanceResponse) ProtoMessage() {}
 
 func (x *UpsertSubstanceResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_halovet_v1_catalogue_proto_msgTypes[20]
+	mi := &file_halovet_v1_catalogue_proto_msgTypes[19]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1857,7 +2054,7 @@ func (x *UpsertSubstanceResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use UpsertSubstanceResponse.ProtoReflect.Descriptor instead.
 func (*UpsertSubstanceResponse) Descriptor() ([]byte, []int) {
-	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{20}
+	return file_halovet_v1_catalogue_proto_rawDescGZIP(), []int{19}
 }
 
 func (x *UpsertSubstanceResponse) GetSubstance() *Substance {
@@ -1879,13 +2076,13 @@ var File_halovet_v1_catalogue_proto protoreflect.FileDescriptor
 const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\n" +
 	"\x1ahalovet/v1/catalogue.proto\x12\n" +
-	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"X\n" +
-	"\bGwpValue\x12\x17\n" +
-	"\agwp_set\x18\x01 \x01(\tR\x06gwpSet\x12\x1b\n" +
+	"halovet.v1\x1a\x1cgoogle/api/annotations.proto\"l\n" +
+	"\bGwpValue\x12+\n" +
+	"\agwp_set\x18\x01 \x01(\x0e2\x12.halovet.v1.GwpSetR\x06gwpSet\x12\x1b\n" +
 	"\tgwp_100yr\x18\x02 \x01(\tR\bgwp100yr\x12\x16\n" +
-	"\x06source\x18\x03 \x01(\tR\x06source\"Z\n" +
-	"\x06HsCode\x12\x18\n" +
-	"\aedition\x18\x01 \x01(\tR\aedition\x12\x1e\n" +
+	"\x06source\x18\x03 \x01(\tR\x06source\"q\n" +
+	"\x06HsCode\x12/\n" +
+	"\aedition\x18\x01 \x01(\x0e2\x15.halovet.v1.HsEditionR\aedition\x12\x1e\n" +
 	"\n" +
 	"subheading\x18\x02 \x01(\tR\n" +
 	"subheading\x12\x16\n" +
@@ -1915,25 +2112,27 @@ const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12!\n" +
 	"\fmass_percent\x18\x02 \x01(\tR\vmassPercent\x122\n" +
 	"\x15tolerance_plus_points\x18\x03 \x01(\tR\x13tolerancePlusPoints\x124\n" +
-	"\x16tolerance_minus_points\x18\x04 \x01(\tR\x14toleranceMinusPoints\"\xdd\x01\n" +
+	"\x16tolerance_minus_points\x18\x04 \x01(\tR\x14toleranceMinusPoints\"\xf4\x01\n" +
 	"\x05Blend\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12\x1a\n" +
-	"\bsynonyms\x18\x02 \x03(\tR\bsynonyms\x12\x1d\n" +
+	"\bsynonyms\x18\x02 \x03(\tR\bsynonyms\x124\n" +
 	"\n" +
-	"blend_type\x18\x03 \x01(\tR\tblendType\x12:\n" +
+	"blend_type\x18\x03 \x01(\x0e2\x15.halovet.v1.BlendTypeR\tblendType\x12:\n" +
 	"\n" +
 	"components\x18\x04 \x03(\v2\x1a.halovet.v1.BlendComponentR\n" +
 	"components\x12!\n" +
 	"\fsafety_class\x18\x05 \x01(\tR\vsafetyClass\x12\x18\n" +
-	"\asources\x18\x06 \x01(\tR\asources\"{\n" +
+	"\asources\x18\x06 \x01(\tR\asources\"z\n" +
 	"\x0eCatalogueEntry\x125\n" +
 	"\tsubstance\x18\x01 \x01(\v2\x15.halovet.v1.SubstanceH\x00R\tsubstance\x12)\n" +
-	"\x05blend\x18\x02 \x01(\v2\x11.halovet.v1.BlendH\x00R\x05blendB\a\n" +
-	"\x05entry\"3\n" +
+	"\x05blend\x18\x02 \x01(\v2\x11.halovet.v1.BlendH\x00R\x05blendB\x06\n" +
+	"\x04kind\"3\n" +
 	"\x0fGetEntryRequest\x12 \n" +
-	"\vdesignation\x18\x01 \x01(\tR\vdesignation\"D\n" +
-	"\x10GetEntryResponse\x120\n" +
-	"\x05entry\x18\x01 \x01(\v2\x1a.halovet.v1.CatalogueEntryR\x05entry\"\xe5\x01\n" +
+	"\vdesignation\x18\x01 \x01(\tR\vdesignation\"|\n" +
+	"\x10GetEntryResponse\x125\n" +
+	"\tsubstance\x18\x01 \x01(\v2\x15.halovet.v1.SubstanceH\x00R\tsubstance\x12)\n" +
+	"\x05blend\x18\x02 \x01(\v2\x11.halovet.v1.BlendH\x00R\x05blendB\x06\n" +
+	"\x04kind\"\xe5\x01\n" +
 	"\x12ListEntriesRequest\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x123\n" +
@@ -1973,14 +2172,11 @@ const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\n" +
 	"identifier\x18\x01 \x01(\tR\n" +
 	"identifier\x12!\n" +
-	"\fmass_percent\x18\x02 \x01(\tR\vmassPercent\"?\n" +
-	"\vComposition\x120\n" +
-	"\x06shares\x18\x01 \x03(\v2\x18.halovet.v1.MixtureShareR\x06shares\"\x98\x01\n" +
-	"\x16EvaluateMixtureRequest\x12\x16\n" +
-	"\x05blend\x18\x01 \x01(\tH\x00R\x05blend\x12;\n" +
-	"\vcomposition\x18\x02 \x01(\v2\x17.halovet.v1.CompositionH\x00R\vcomposition\x12\x1e\n" +
-	"\vnet_mass_kg\x18\x03 \x01(\tR\tnetMassKgB\t\n" +
-	"\amixture\"\xb4\x02\n" +
+	"\fmass_percent\x18\x02 \x01(\tR\vmassPercent\"\x8a\x01\n" +
+	"\x16EvaluateMixtureRequest\x12\x14\n" +
+	"\x05blend\x18\x01 \x01(\tR\x05blend\x12:\n" +
+	"\vcomposition\x18\x02 \x03(\v2\x18.halovet.v1.MixtureShareR\vcomposition\x12\x1e\n" +
+	"\vnet_mass_kg\x18\x03 \x01(\tR\tnetMassKg\"\xb4\x02\n" +
 	"\x10ComponentFigures\x12 \n" +
 	"\vdesignation\x18\x01 \x01(\tR\vdesignation\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
@@ -1993,11 +2189,11 @@ const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\x12gwp_100yr_protocol\x18\a \x01(\tR\x10gwp100yrProtocol\x12\x1f\n" +
 	"\vco2e_tonnes\x18\b \x01(\tR\n" +
 	"co2eTonnes\x12!\n" +
-	"\fsafety_class\x18\t \x01(\tR\vsafetyClass\"}\n" +
-	"\tGwpFigure\x12\x17\n" +
-	"\agwp_set\x18\x01 \x01(\tR\x06gwpSet\x12\x1e\n" +
+	"\fsafety_class\x18\t \x01(\tR\vsafetyClass\"\xac\x01\n" +
+	"\tGwpFigure\x12+\n" +
+	"\agwp_set\x18\x01 \x01(\x0e2\x12.halovet.v1.GwpSetR\x06gwpSet\x129\n" +
 	"\n" +
-	"convention\x18\x02 \x01(\tR\n" +
+	"convention\x18\x02 \x01(\x0e2\x19.halovet.v1.GwpConventionR\n" +
 	"convention\x12\x1b\n" +
 	"\tgwp_100yr\x18\x03 \x01(\tR\bgwp100yr\x12\x1a\n" +
 	"\bcomplete\x18\x04 \x01(\bR\bcomplete\"\x9b\x03\n" +
@@ -2027,7 +2223,26 @@ const file_halovet_v1_catalogue_proto_rawDesc = "" +
 	"\tEntryKind\x12\x1a\n" +
 	"\x16ENTRY_KIND_UNSPECIFIED\x10\x00\x12\x18\n" +
 	"\x14ENTRY_KIND_SUBSTANCE\x10\x01\x12\x14\n" +
-	"\x10ENTRY_KIND_BLEND\x10\x02*o\n" +
+	"\x10ENTRY_KIND_BLEND\x10\x02*\x81\x01\n" +
+	"\x06GwpSet\x12\x17\n" +
+	"\x13GWP_SET_UNSPECIFIED\x10\x00\x12\x1c\n" +
+	"\x18GWP_SET_PROTOCOL_ANNEXES\x10\x01\x12\x14\n" +
+	"\x10GWP_SET_IPCC_AR4\x10\x02\x12\x14\n" +
+	"\x10GWP_SET_IPCC_AR5\x10\x03\x12\x14\n" +
+	"\x10GWP_SET_IPCC_AR6\x10\x04*s\n" +
+	"\rGwpConvention\x12\x1e\n" +
+	"\x1aGWP_CONVENTION_UNSPECIFIED\x10\x00\x12!\n" +
+	"\x1dGWP_CONVENTION_ALL_COMPONENTS\x10\x01\x12\x1f\n" +
+	"\x1bGWP_CONVENTION_ANNEX_F_ONLY\x10\x02*W\n" +
+	"\tHsEdition\x12\x1a\n" +
+	"\x16HS_EDITION_UNSPECIFIED\x10\x00\x12\x16\n" +
+	"\x12HS_EDITION_HS_2017\x10\x01\x12\x16\n" +
+	"\x12HS_EDITION_HS_2022\x10\x02*r\n" +
+	"\tBlendType\x12\x1a\n" +
+	"\x16BLEND_TYPE_UNSPECIFIED\x10\x00\x12\x17\n" +
+	"\x13BLEND_TYPE_ZEOTROPE\x10\x01\x12\x18\n" +
+	"\x14BLEND_TYPE_AZEOTROPE\x10\x02\x12\x16\n" +
+	"\x12BLEND_TYPE_MIXTURE\x10\x03*o\n" +
 	"\rControlFilter\x12\x1e\n" +
 	"\x1aCONTROL_FILTER_UNSPECIFIED\x10\x00\x12\x1d\n" +
 	"\x19CONTROL_FILTER_CONTROLLED\x10\x01\x12\x1f\n" +
@@ -2060,68 +2275,76 @@ func file_halovet_v1_catalogue_proto_rawDescGZIP() []byte {
 	return file_halovet_v1_catalogue_proto_rawDescData
 }
 
-var file_halovet_v1_catalogue_proto_enumTypes = make([]protoimpl.EnumInfo, 3)
-var file_halovet_v1_catalogue_proto_msgTypes = make([]protoimpl.MessageInfo, 21)
+var file_halovet_v1_catalogue_proto_enumTypes = make([]protoimpl.EnumInfo, 7)
+var file_halovet_v1_catalogue_proto_msgTypes = make([]protoimpl.MessageInfo, 20)
 var file_halovet_v1_catalogue_proto_goTypes = []any{
 	(EntryKind)(0),                    // 0: halovet.v1.EntryKind
-	(ControlFilter)(0),                // 1: halovet.v1.ControlFilter
-	(MatchKind)(0),                    // 2: halovet.v1.MatchKind
-	(*GwpValue)(nil),                  // 3: halovet.v1.GwpValue
-	(*HsCode)(nil),                    // 4: halovet.v1.HsCode
-	(*Substance)(nil),                 // 5: halovet.v1.Substance
-	(*BlendComponent)(nil),            // 6: halovet.v1.BlendComponent
-	(*Blend)(nil),                     // 7: halovet.v1.Blend
-	(*CatalogueEntry)(nil),            // 8: halovet.v1.CatalogueEntry
-	(*GetEntryRequest)(nil),           // 9: halovet.v1.GetEntryRequest
-	(*GetEntryResponse)(nil),          // 10: halovet.v1.GetEntryResponse
-	(*ListEntriesRequest)(nil),        // 11: halovet.v1.ListEntriesRequest
-	(*ListEntriesResponse)(nil),       // 12: halovet.v1.ListEntriesResponse
-	(*Candidate)(nil),                 // 13: halovet.v1.Candidate
-	(*ResolveIdentifierRequest)(nil),  // 14: halovet.v1.ResolveIdentifierRequest
-	(*ResolveIdentifierResponse)(nil), // 15: halovet.v1.ResolveIdentifierResponse
-	(*MixtureShare)(nil),              // 16: halovet.v1.MixtureShare
-	(*Composition)(nil),               // 17: halovet.v1.Composition
-	(*EvaluateMixtureRequest)(nil),    // 18: halovet.v1.EvaluateMixtureRequest
-	(*ComponentFigures)(nil),          // 19: halovet.v1.ComponentFigures
-	(*GwpFigure)(nil),                 // 20: halovet.v1.GwpFigure
-	(*EvaluateMixtureResponse)(nil),   // 21: halovet.v1.EvaluateMixtureResponse
-	(*UpsertSubstanceRequest)(nil),    // 22: halovet.v1.UpsertSubstanceRequest
-	(*UpsertSubstanceResponse)(nil),   // 23: halovet.v1.UpsertSubstanceResponse
+	(GwpSet)(0),                       // 1: halovet.v1.GwpSet
+	(GwpConvention)(0),                // 2: halovet.v1.GwpConvention
+	(HsEdition)(0),                    // 3: halovet.v1.HsEdition
+	(BlendType)(0),                    // 4: halovet.v1.BlendType
+	(ControlFilter)(0),                // 5: halovet.v1.ControlFilter
+	(MatchKind)(0),                    // 6: halovet.v1.MatchKind
+	(*GwpValue)(nil),                  // 7: halovet.v1.GwpValue
+	(*HsCode)(nil),                    // 8: halovet.v1.HsCode
+	(*Substance)(nil),                 // 9: halovet.v1.Substance
+	(*BlendComponent)(nil),            // 10: halovet.v1.BlendComponent
+	(*Blend)(nil),                     // 11: halovet.v1.Blend
+	(*CatalogueEntry)(nil),            // 12: halovet.v1.CatalogueEntry
+	(*GetEntryRequest)(nil),           // 13: halovet.v1.GetEntryRequest
+	(*GetEntryResponse)(nil),          // 14: halovet.v1.GetEntryResponse
+	(*ListEntriesRequest)(nil),        // 15: halovet.v1.ListEntriesRequest
+	(*ListEntriesResponse)(nil),       // 16: halovet.v1.ListEntriesResponse
+	(*Candidate)(nil),                 // 17: halovet.v1.Candidate
+	(*ResolveIdentifierRequest)(nil),  // 18: halovet.v1.ResolveIdentifierRequest
+	(*ResolveIdentifierResponse)(nil), // 19: halovet.v1.ResolveIdentifierResponse
+	(*MixtureShare)(nil),              // 20: halovet.v1.MixtureShare
+	(*EvaluateMixtureRequest)(nil),    // 21: halovet.v1.EvaluateMixtureRequest
+	(*ComponentFigures)(nil),          // 22: halovet.v1.ComponentFigures
+	(*GwpFigure)(nil),                 // 23: halovet.v1.GwpFigure
+	(*EvaluateMixtureResponse)(nil),   // 24: halovet.v1.EvaluateMixtureResponse
+	(*UpsertSubstanceRequest)(nil),    // 25: halovet.v1.UpsertSubstanceRequest
+	(*UpsertSubstanceResponse)(nil),   // 26: halovet.v1.UpsertSubstanceResponse
 }
 var file_halovet_v1_catalogue_proto_depIdxs = []int32{
-	3,  // 0: halovet.v1.Substance.gwps:type_name -> halovet.v1.GwpValue
-	4,  // 1: halovet.v1.Substance.hs_codes:type_name -> halovet.v1.HsCode
-	6,  // 2: halovet.v1.Blend.components:type_name -> halovet.v1.BlendComponent
-	5,  // 3: halovet.v1.CatalogueEntry.substance:type_name -> halovet.v1.Substance
-	7,  // 4: halovet.v1.CatalogueEntry.blend:type_name -> halovet.v1.Blend
-	8,  // 5: halovet.v1.GetEntryResponse.entry:type_name -> halovet.v1.CatalogueEntry
-	1,  // 6: halovet.v1.ListEntriesRequest.control:type_name -> halovet.v1.ControlFilter
-	0,  // 7: halovet.v1.ListEntriesRequest.kind:type_name -> halovet.v1.EntryKind
-	8,  // 8: halovet.v1.ListEntriesResponse.entries:type_name -> halovet.v1.CatalogueEntry
-	0,  // 9: halovet.v1.Candidate.kind:type_name -> halovet.v1.EntryKind
-	2,  // 10: halovet.v1.Candidate.match_kind:type_name -> halovet.v1.MatchKind
-	13, // 11: halovet.v1.ResolveIdentifierResponse.candidates:type_name -> halovet.v1.Candidate
-	16, // 12: halovet.v1.Composition.shares:type_name -> halovet.v1.MixtureShare
-	17, // 13: halovet.v1.EvaluateMixtureRequest.composition:type_name -> halovet.v1.Composition
-	20, // 14: halovet.v1.EvaluateMixtureResponse.gwps:type_name -> halovet.v1.GwpFigure
-	19, // 15: halovet.v1.EvaluateMixtureResponse.components:type_name -> halovet.v1.ComponentFigures
-	5,  // 16: halovet.v1.UpsertSubstanceRequest.substance:type_name -> halovet.v1.Substance
-	5,  // 17: halovet.v1.UpsertSubstanceResponse.substance:type_name -> halovet.v1.Substance
-	9,  // 18: halovet.v1.CatalogueService.GetEntry:input_type -> halovet.v1.GetEntryRequest
-	11, // 19: halovet.v1.CatalogueService.ListEntries:input_type -> halovet.v1.ListEntriesRequest
-	14, // 20: halovet.v1.CatalogueService.ResolveIdentifier:input_type -> halovet.v1.ResolveIdentifierRequest
-	18, // 21: halovet.v1.CatalogueService.EvaluateMixture:input_type -> halovet.v1.EvaluateMixtureRequest
-	22, // 22: halovet.v1.CatalogueService.UpsertSubstance:input_type -> halovet.v1.UpsertSubstanceRequest
-	10, // 23: halovet.v1.CatalogueService.GetEntry:output_type -> halovet.v1.GetEntryResponse
-	12, // 24: halovet.v1.CatalogueService.ListEntries:output_type -> halovet.v1.ListEntriesResponse
-	15, // 25: halovet.v1.CatalogueService.ResolveIdentifier:output_type -> halovet.v1.ResolveIdentifierResponse
-	21, // 26: halovet.v1.CatalogueService.EvaluateMixture:output_type -> halovet.v1.EvaluateMixtureResponse
-	23, // 27: halovet.v1.CatalogueService.UpsertSubstance:output_type -> halovet.v1.UpsertSubstanceResponse
-	23, // [23:28] is the sub-list for method output_type
-	18, // [18:23] is the sub-list for method input_type
-	18, // [18:18] is the sub-list for extension type_name
-	18, // [18:18] is the sub-list for extension extendee
-	0,  // [0:18] is the sub-list for field type_name
+	1,  // 0: halovet.v1.GwpValue.gwp_set:type_name -> halovet.v1.GwpSet
+	3,  // 1: halovet.v1.HsCode.edition:type_name -> halovet.v1.HsEdition
+	7,  // 2: halovet.v1.Substance.gwps:type_name -> halovet.v1.GwpValue
+	8,  // 3: halovet.v1.Substance.hs_codes:type_name -> halovet.v1.HsCode
+	4,  // 4: halovet.v1.Blend.blend_type:type_name -> halovet.v1.BlendType
+	10, // 5: halovet.v1.Blend.components:type_name -> halovet.v1.BlendComponent
+	9,  // 6: halovet.v1.CatalogueEntry.substance:type_name -> halovet.v1.Substance
+	11, // 7: halovet.v1.CatalogueEntry.blend:type_name -> halovet.v1.Blend
+	9,  // 8: halovet.v1.GetEntryResponse.substance:type_name -> halovet.v1.Substance
+	11, // 9: halovet.v1.GetEntryResponse.blend:type_name -> halovet.v1.Blend
+	5,  // 10: halovet.v1.ListEntriesRequest.control:type_name -> halovet.v1.ControlFilter
+	0,  // 11: halovet.v1.ListEntriesRequest.kind:type_name -> halovet.v1.EntryKind
+	12, // 12: halovet.v1.ListEntriesResponse.entries:type_name -> halovet.v1.CatalogueEntry
+	0,  // 13: halovet.v1.Candidate.kind:type_name -> halovet.v1.EntryKind
+	6,  // 14: halovet.v1.Candidate.match_kind:type_name -> halovet.v1.MatchKind
+	17, // 15: halovet.v1.ResolveIdentifierResponse.candidates:type_name -> halovet.v1.Candidate
+	20, // 16: halovet.v1.EvaluateMixtureRequest.composition:type_name -> halovet.v1.MixtureShare
+	1,  // 17: halovet.v1.GwpFigure.gwp_set:type_name -> halovet.v1.GwpSet
+	2,  // 18: halovet.v1.GwpFigure.convention:type_name -> halovet.v1.GwpConvention
+	23, // 19: halovet.v1.EvaluateMixtureResponse.gwps:type_name -> halovet.v1.GwpFigure
+	22, // 20: halovet.v1.EvaluateMixtureResponse.components:type_name -> halovet.v1.ComponentFigures
+	9,  // 21: halovet.v1.UpsertSubstanceRequest.substance:type_name -> halovet.v1.Substance
+	9,  // 22: halovet.v1.UpsertSubstanceResponse.substance:type_name -> halovet.v1.Substance
+	13, // 23: halovet.v1.CatalogueService.GetEntry:input_type -> halovet.v1.GetEntryRequest
+	15, // 24: halovet.v1.CatalogueService.ListEntries:input_type -> halovet.v1.ListEntriesRequest
+	18, // 25: halovet.v1.CatalogueService.ResolveIdentifier:input_type -> halovet.v1.ResolveIdentifierRequest
+	21, // 26: halovet.v1.CatalogueService.EvaluateMixture:input_type -> halovet.v1.EvaluateMixtureRequest
+	25, // 27: halovet.v1.CatalogueService.UpsertSubstance:input_type -> halovet.v1.UpsertSubstanceRequest
+	14, // 28: halovet.v1.CatalogueService.GetEntry:output_type -> halovet.v1.GetEntryResponse
+	16, // 29: halovet.v1.CatalogueService.ListEntries:output_type -> halovet.v1.ListEntriesResponse
+	19, // 30: halovet.v1.CatalogueService.ResolveIdentifier:output_type -> halovet.v1.ResolveIdentifierResponse
+	24, // 31: halovet.v1.CatalogueService.EvaluateMixture:output_type -> halovet.v1.EvaluateMixtureResponse
+	26, // 32: halovet.v1.CatalogueService.UpsertSubstance:output_type -> halovet.v1.UpsertSubstanceResponse
+	28, // [28:33] is the sub-list for method output_type
+	23, // [23:28] is the sub-list for method input_type
+	23, // [23:23] is the sub-list for extension type_name
+	23, // [23:23] is the sub-list for extension extendee
+	0,  // [0:23] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_catalogue_proto_init() }
@@ -2133,17 +2356,17 @@ func file_halovet_v1_catalogue_proto_init() {
 		(*CatalogueEntry_Substance)(nil),
 		(*CatalogueEntry_Blend)(nil),
 	}
-	file_halovet_v1_catalogue_proto_msgTypes[15].OneofWrappers = []any{
-		(*EvaluateMixtureRequest_Blend)(nil),
-		(*EvaluateMixtureRequest_Composition)(nil),
+	file_halovet_v1_catalogue_proto_msgTypes[7].OneofWrappers = []any{
+		(*GetEntryResponse_Substance)(nil),
+		(*GetEntryResponse_Blend)(nil),
 	}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_catalogue_proto_rawDesc), len(file_halovet_v1_catalogue_proto_rawDesc)),
-			NumEnums:      3,
-			NumMessages:   21,
+			NumEnums:      7,
+			NumMessages:   20,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

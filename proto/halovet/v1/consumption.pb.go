@@ -713,7 +713,11 @@ func (x *RecordNationalEntriesResponse) GetEntries() []*NationalEntry {
 type ListNationalEntriesRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Only this year, when set.
-	Year          int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	// Most entries per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,2,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,3,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -755,11 +759,27 @@ func (x *ListNationalEntriesRequest) GetYear() int32 {
 	return 0
 }
 
+func (x *ListNationalEntriesRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListNationalEntriesRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListNationalEntriesResponse lists entries.
 type ListNationalEntriesResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Entries by year, type, substance.
-	Entries       []*NationalEntry `protobuf:"bytes,1,rep,name=entries,proto3" json:"entries,omitempty"`
+	// Entries by year, type, substance and key.
+	Entries []*NationalEntry `protobuf:"bytes,1,rep,name=entries,proto3" json:"entries,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -799,6 +819,13 @@ func (x *ListNationalEntriesResponse) GetEntries() []*NationalEntry {
 		return x.Entries
 	}
 	return nil
+}
+
+func (x *ListNationalEntriesResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // SubstanceConsumption is the arithmetic of one substance in one year.
@@ -2240,7 +2267,11 @@ func (x *RecordExemptionsResponse) GetExemptions() []*AuthorisedExemption {
 type ListExemptionsRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Only this year, when set.
-	Year          int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	// Most exemptions per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,2,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,3,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2282,11 +2313,27 @@ func (x *ListExemptionsRequest) GetYear() int32 {
 	return 0
 }
 
+func (x *ListExemptionsRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListExemptionsRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListExemptionsResponse lists exemptions.
 type ListExemptionsResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Exemptions by Party, year, scope, use and key.
-	Exemptions    []*AuthorisedExemption `protobuf:"bytes,1,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	Exemptions []*AuthorisedExemption `protobuf:"bytes,1,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2326,6 +2373,13 @@ func (x *ListExemptionsResponse) GetExemptions() []*AuthorisedExemption {
 		return x.Exemptions
 	}
 	return nil
+}
+
+func (x *ListExemptionsResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // OfficialFigure is a baseline or limit as officially set.
@@ -2530,9 +2584,13 @@ func (x *RecordOfficialFiguresResponse) GetFigures() []*OfficialFigure {
 	return nil
 }
 
-// ListOfficialFiguresRequest asks for every official figure.
+// ListOfficialFiguresRequest asks for a page of the official figures.
 type ListOfficialFiguresRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Most figures per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,1,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,2,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2567,11 +2625,27 @@ func (*ListOfficialFiguresRequest) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{24}
 }
 
+func (x *ListOfficialFiguresRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListOfficialFiguresRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListOfficialFiguresResponse lists official figures.
 type ListOfficialFiguresResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Figures by Party, kind, scope and year.
-	Figures       []*OfficialFigure `protobuf:"bytes,1,rep,name=figures,proto3" json:"figures,omitempty"`
+	Figures []*OfficialFigure `protobuf:"bytes,1,rep,name=figures,proto3" json:"figures,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2611,6 +2685,13 @@ func (x *ListOfficialFiguresResponse) GetFigures() []*OfficialFigure {
 		return x.Figures
 	}
 	return nil
+}
+
+func (x *ListOfficialFiguresResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // AssessComplianceRequest names the range.
@@ -3332,7 +3413,11 @@ func (x *RecordHfc23EntriesResponse) GetEntries() []*Hfc23Entry {
 type ListHfc23EntriesRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Only this year, when set.
-	Year          int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
+	// Most entries per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,2,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,3,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -3374,11 +3459,27 @@ func (x *ListHfc23EntriesRequest) GetYear() int32 {
 	return 0
 }
 
+func (x *ListHfc23EntriesRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListHfc23EntriesRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListHfc23EntriesResponse lists facility entries.
 type ListHfc23EntriesResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Entries by year and facility.
-	Entries       []*Hfc23Entry `protobuf:"bytes,1,rep,name=entries,proto3" json:"entries,omitempty"`
+	Entries []*Hfc23Entry `protobuf:"bytes,1,rep,name=entries,proto3" json:"entries,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -3418,6 +3519,13 @@ func (x *ListHfc23EntriesResponse) GetEntries() []*Hfc23Entry {
 		return x.Entries
 	}
 	return nil
+}
+
+func (x *ListHfc23EntriesResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // YearTradeLine is the trade of one substance with one partner in one
@@ -4491,11 +4599,15 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\aentries\x18\x01 \x03(\v2\x19.halovet.v1.NationalEntryR\aentries\"l\n" +
 	"\x1dRecordNationalEntriesResponse\x12\x16\n" +
 	"\x06stored\x18\x01 \x01(\x05R\x06stored\x123\n" +
-	"\aentries\x18\x02 \x03(\v2\x19.halovet.v1.NationalEntryR\aentries\"0\n" +
+	"\aentries\x18\x02 \x03(\v2\x19.halovet.v1.NationalEntryR\aentries\"l\n" +
 	"\x1aListNationalEntriesRequest\x12\x12\n" +
-	"\x04year\x18\x01 \x01(\x05R\x04year\"R\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1b\n" +
+	"\tpage_size\x18\x02 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x03 \x01(\tR\tpageToken\"z\n" +
 	"\x1bListNationalEntriesResponse\x123\n" +
-	"\aentries\x18\x01 \x03(\v2\x19.halovet.v1.NationalEntryR\aentries\"\xa6\x04\n" +
+	"\aentries\x18\x01 \x03(\v2\x19.halovet.v1.NationalEntryR\aentries\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\xa6\x04\n" +
 	"\x14SubstanceConsumption\x12\x1c\n" +
 	"\tsubstance\x18\x01 \x01(\tR\tsubstance\x12+\n" +
 	"\x11production_tonnes\x18\x02 \x01(\tR\x10productionTonnes\x12#\n" +
@@ -4632,13 +4744,17 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x18RecordExemptionsResponse\x12?\n" +
 	"\n" +
 	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
-	"exemptions\"+\n" +
+	"exemptions\"g\n" +
 	"\x15ListExemptionsRequest\x12\x12\n" +
-	"\x04year\x18\x01 \x01(\x05R\x04year\"Y\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1b\n" +
+	"\tpage_size\x18\x02 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x03 \x01(\tR\tpageToken\"\x81\x01\n" +
 	"\x16ListExemptionsResponse\x12?\n" +
 	"\n" +
 	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
-	"exemptions\"\x98\x02\n" +
+	"exemptions\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\x98\x02\n" +
 	"\x0eOfficialFigure\x12\x1d\n" +
 	"\n" +
 	"figure_key\x18\x01 \x01(\tR\tfigureKey\x12!\n" +
@@ -4653,10 +4769,14 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x1cRecordOfficialFiguresRequest\x124\n" +
 	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"U\n" +
 	"\x1dRecordOfficialFiguresResponse\x124\n" +
-	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"\x1c\n" +
-	"\x1aListOfficialFiguresRequest\"S\n" +
+	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"X\n" +
+	"\x1aListOfficialFiguresRequest\x12\x1b\n" +
+	"\tpage_size\x18\x01 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x02 \x01(\tR\tpageToken\"{\n" +
 	"\x1bListOfficialFiguresResponse\x124\n" +
-	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"p\n" +
+	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"p\n" +
 	"\x17AssessComplianceRequest\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x1b\n" +
@@ -4718,11 +4838,15 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x19RecordHfc23EntriesRequest\x120\n" +
 	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\"N\n" +
 	"\x1aRecordHfc23EntriesResponse\x120\n" +
-	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\"-\n" +
+	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\"i\n" +
 	"\x17ListHfc23EntriesRequest\x12\x12\n" +
-	"\x04year\x18\x01 \x01(\x05R\x04year\"L\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1b\n" +
+	"\tpage_size\x18\x02 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x03 \x01(\tR\tpageToken\"t\n" +
 	"\x18ListHfc23EntriesResponse\x120\n" +
-	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\"\xd1\x03\n" +
+	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\xd1\x03\n" +
 	"\rYearTradeLine\x12'\n" +
 	"\x0fpartner_country\x18\x01 \x01(\tR\x0epartnerCountry\x12\x1c\n" +
 	"\tsubstance\x18\x02 \x01(\tR\tsubstance\x12\x1f\n" +

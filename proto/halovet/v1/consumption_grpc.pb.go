@@ -47,7 +47,7 @@ type ConsumptionServiceClient interface {
 	// RecordNationalEntries stores production, destruction, feedstock, QPS and
 	// historical totals. Entries with an existing entry_key are replaced.
 	RecordNationalEntries(ctx context.Context, in *RecordNationalEntriesRequest, opts ...grpc.CallOption) (*RecordNationalEntriesResponse, error)
-	// ListNationalEntries returns stored entries of one year, or all.
+	// ListNationalEntries returns stored entries of one year, or all, a page at a time.
 	ListNationalEntries(ctx context.Context, in *ListNationalEntriesRequest, opts ...grpc.CallOption) (*ListNationalEntriesResponse, error)
 	// GetConsumption computes consumption of one year, per Annex group and
 	// substance, with the arithmetic shown.
@@ -62,19 +62,19 @@ type ConsumptionServiceClient interface {
 	// the decision that authorises it. Compliance is judged against the limit
 	// plus the exemptions. Exemptions with an existing exemption_key are replaced.
 	RecordExemptions(ctx context.Context, in *RecordExemptionsRequest, opts ...grpc.CallOption) (*RecordExemptionsResponse, error)
-	// ListExemptions returns stored exemptions of one year, or all.
+	// ListExemptions returns stored exemptions of one year, or all, a page at a time.
 	ListExemptions(ctx context.Context, in *ListExemptionsRequest, opts ...grpc.CallOption) (*ListExemptionsResponse, error)
 	// RecordOfficialFigures stores baselines and limits as officially set; they
 	// take precedence over computed ones, and compliance reports both.
 	RecordOfficialFigures(ctx context.Context, in *RecordOfficialFiguresRequest, opts ...grpc.CallOption) (*RecordOfficialFiguresResponse, error)
-	// ListOfficialFigures returns every stored official figure.
+	// ListOfficialFigures returns every stored official figure, a page at a time.
 	ListOfficialFigures(ctx context.Context, in *ListOfficialFiguresRequest, opts ...grpc.CallOption) (*ListOfficialFiguresResponse, error)
 	// RecordHfc23Entries stores HFC-23 by-product figures per facility and year
 	// (generation, capture for use, destruction, emission). They are reported
 	// beside Annex F consumption and never lower it. Entries with an existing
 	// entry_key are replaced.
 	RecordHfc23Entries(ctx context.Context, in *RecordHfc23EntriesRequest, opts ...grpc.CallOption) (*RecordHfc23EntriesResponse, error)
-	// ListHfc23Entries returns the facility entries of one year, or all.
+	// ListHfc23Entries returns the facility entries of one year, or all, a page at a time.
 	ListHfc23Entries(ctx context.Context, in *ListHfc23EntriesRequest, opts ...grpc.CallOption) (*ListHfc23EntriesResponse, error)
 	// GetYearReport computes the reporting Party's annual data report for a year
 	// from the register: imports by exporting country and exports by destination
@@ -263,7 +263,7 @@ type ConsumptionServiceServer interface {
 	// RecordNationalEntries stores production, destruction, feedstock, QPS and
 	// historical totals. Entries with an existing entry_key are replaced.
 	RecordNationalEntries(context.Context, *RecordNationalEntriesRequest) (*RecordNationalEntriesResponse, error)
-	// ListNationalEntries returns stored entries of one year, or all.
+	// ListNationalEntries returns stored entries of one year, or all, a page at a time.
 	ListNationalEntries(context.Context, *ListNationalEntriesRequest) (*ListNationalEntriesResponse, error)
 	// GetConsumption computes consumption of one year, per Annex group and
 	// substance, with the arithmetic shown.
@@ -278,19 +278,19 @@ type ConsumptionServiceServer interface {
 	// the decision that authorises it. Compliance is judged against the limit
 	// plus the exemptions. Exemptions with an existing exemption_key are replaced.
 	RecordExemptions(context.Context, *RecordExemptionsRequest) (*RecordExemptionsResponse, error)
-	// ListExemptions returns stored exemptions of one year, or all.
+	// ListExemptions returns stored exemptions of one year, or all, a page at a time.
 	ListExemptions(context.Context, *ListExemptionsRequest) (*ListExemptionsResponse, error)
 	// RecordOfficialFigures stores baselines and limits as officially set; they
 	// take precedence over computed ones, and compliance reports both.
 	RecordOfficialFigures(context.Context, *RecordOfficialFiguresRequest) (*RecordOfficialFiguresResponse, error)
-	// ListOfficialFigures returns every stored official figure.
+	// ListOfficialFigures returns every stored official figure, a page at a time.
 	ListOfficialFigures(context.Context, *ListOfficialFiguresRequest) (*ListOfficialFiguresResponse, error)
 	// RecordHfc23Entries stores HFC-23 by-product figures per facility and year
 	// (generation, capture for use, destruction, emission). They are reported
 	// beside Annex F consumption and never lower it. Entries with an existing
 	// entry_key are replaced.
 	RecordHfc23Entries(context.Context, *RecordHfc23EntriesRequest) (*RecordHfc23EntriesResponse, error)
-	// ListHfc23Entries returns the facility entries of one year, or all.
+	// ListHfc23Entries returns the facility entries of one year, or all, a page at a time.
 	ListHfc23Entries(context.Context, *ListHfc23EntriesRequest) (*ListHfc23EntriesResponse, error)
 	// GetYearReport computes the reporting Party's annual data report for a year
 	// from the register: imports by exporting country and exports by destination

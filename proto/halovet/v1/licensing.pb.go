@@ -670,9 +670,13 @@ func (x *GetPartyResponse) GetParty() *Party {
 	return nil
 }
 
-// ListPartiesRequest has no filters yet.
+// ListPartiesRequest asks for a page of the Parties' settings.
 type ListPartiesRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Most Parties per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,1,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,2,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -707,11 +711,27 @@ func (*ListPartiesRequest) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{5}
 }
 
+func (x *ListPartiesRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListPartiesRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListPartiesResponse lists every country's settings.
 type ListPartiesResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Settings in country code order.
-	Parties       []*Party `protobuf:"bytes,1,rep,name=parties,proto3" json:"parties,omitempty"`
+	Parties []*Party `protobuf:"bytes,1,rep,name=parties,proto3" json:"parties,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -751,6 +771,13 @@ func (x *ListPartiesResponse) GetParties() []*Party {
 		return x.Parties
 	}
 	return nil
+}
+
+func (x *ListPartiesResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // Company is a registered importer, exporter, producer or user.
@@ -909,9 +936,13 @@ func (x *RegisterCompanyResponse) GetCompany() *Company {
 	return nil
 }
 
-// ListCompaniesRequest has no filters yet.
+// ListCompaniesRequest asks for a page of the registered companies.
 type ListCompaniesRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Most companies per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,1,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,2,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -946,11 +977,27 @@ func (*ListCompaniesRequest) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_licensing_proto_rawDescGZIP(), []int{10}
 }
 
+func (x *ListCompaniesRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListCompaniesRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListCompaniesResponse lists companies.
 type ListCompaniesResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Companies in identifier order.
-	Companies     []*Company `protobuf:"bytes,1,rep,name=companies,proto3" json:"companies,omitempty"`
+	Companies []*Company `protobuf:"bytes,1,rep,name=companies,proto3" json:"companies,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -992,6 +1039,13 @@ func (x *ListCompaniesResponse) GetCompanies() []*Company {
 	return nil
 }
 
+func (x *ListCompaniesResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
+}
+
 // QuotaLine is one quota of a licence.
 type QuotaLine struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1003,14 +1057,21 @@ type QuotaLine struct {
 	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Designation of the single substance the line covers; empty for a group line.
 	Substance string `protobuf:"bytes,3,opt,name=substance,proto3" json:"substance,omitempty"`
-	// Unit of the amounts.
+	// Unit of the line's amounts (allocated_amount, drawn_amount, remaining_amount, and the
+	// amount of every QuotaDraw on the line).
 	Unit QuotaUnit `protobuf:"varint,4,opt,name=unit,proto3,enum=halovet.v1.QuotaUnit" json:"unit,omitempty"`
-	// Amount allocated.
-	Allocated float64 `protobuf:"fixed64,5,opt,name=allocated,proto3" json:"allocated,omitempty"`
-	// Amount drawn by recorded shipments (read only).
-	Drawn float64 `protobuf:"fixed64,6,opt,name=drawn,proto3" json:"drawn,omitempty"`
-	// Amount left (read only).
-	Remaining float64 `protobuf:"fixed64,7,opt,name=remaining,proto3" json:"remaining,omitempty"`
+	// Amount allocated, in unit: a decimal string in plain notation with at most 9 decimals
+	// (the register counts quota in billionths), e.g. "12.5"; "0" for none. A quota amount is
+	// named _amount rather than by a unit because a line counts in one of three units, and
+	// unit beside it says which. A request with more than 9 decimals, a negative amount or
+	// one above 1000000000 is INVALID_ARGUMENT naming the field.
+	AllocatedAmount string `protobuf:"bytes,10,opt,name=allocated_amount,json=allocatedAmount,proto3" json:"allocated_amount,omitempty"`
+	// Amount drawn by recorded shipments, in unit, exact (read only); "0" when nothing is
+	// drawn.
+	DrawnAmount string `protobuf:"bytes,11,opt,name=drawn_amount,json=drawnAmount,proto3" json:"drawn_amount,omitempty"`
+	// Amount left, allocated_amount minus drawn_amount, exact (read only); "0" when
+	// nothing is left.
+	RemainingAmount string `protobuf:"bytes,12,opt,name=remaining_amount,json=remainingAmount,proto3" json:"remaining_amount,omitempty"`
 	// Declared purposes the line serves: an allowance for an exempted use (for example
 	// PURPOSE_CRITICAL_USE for the methyl bromide the Parties authorise under Article 2H para 5).
 	// A shipment declaring one of them draws on this line before any line without purposes, and
@@ -1081,25 +1142,25 @@ func (x *QuotaLine) GetUnit() QuotaUnit {
 	return QuotaUnit_QUOTA_UNIT_UNSPECIFIED
 }
 
-func (x *QuotaLine) GetAllocated() float64 {
+func (x *QuotaLine) GetAllocatedAmount() string {
 	if x != nil {
-		return x.Allocated
+		return x.AllocatedAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *QuotaLine) GetDrawn() float64 {
+func (x *QuotaLine) GetDrawnAmount() string {
 	if x != nil {
-		return x.Drawn
+		return x.DrawnAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *QuotaLine) GetRemaining() float64 {
+func (x *QuotaLine) GetRemainingAmount() string {
 	if x != nil {
-		return x.Remaining
+		return x.RemainingAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *QuotaLine) GetPurposes() []Purpose {
@@ -1315,7 +1376,7 @@ func (x *Licence) GetStatusHistory() []*LicenceStatusPeriod {
 // IssueLicenceRequest carries the new licence.
 type IssueLicenceRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// The licence; drawn and remaining are ignored.
+	// The licence; drawn_amount and remaining_amount are ignored.
 	Licence *Licence `protobuf:"bytes,1,opt,name=licence,proto3" json:"licence,omitempty"`
 	// Why, for the audit log.
 	Reason        string `protobuf:"bytes,2,opt,name=reason,proto3" json:"reason,omitempty"`
@@ -1807,8 +1868,8 @@ type CloseQuotaLineRequest struct {
 	EffectiveDate string `protobuf:"bytes,3,opt,name=effective_date,json=effectiveDate,proto3" json:"effective_date,omitempty"`
 	// Why, for the audit log and the history; required.
 	Reason string `protobuf:"bytes,4,opt,name=reason,proto3" json:"reason,omitempty"`
-	// When set, a new line opened in its place (line_number is assigned; drawn and
-	// remaining are ignored).
+	// When set, a new line opened in its place (line_number is assigned; drawn_amount and
+	// remaining_amount are ignored).
 	Successor *QuotaLine `protobuf:"bytes,5,opt,name=successor,proto3" json:"successor,omitempty"`
 	// When not 0: the version the caller read; a licence at another version is
 	// refused FAILED_PRECONDITION.
@@ -2059,6 +2120,10 @@ type ListLicenceHistoryRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The licence number.
 	LicenceNumber string `protobuf:"bytes,1,opt,name=licence_number,json=licenceNumber,proto3" json:"licence_number,omitempty"`
+	// Most events per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,2,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,3,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2100,14 +2165,31 @@ func (x *ListLicenceHistoryRequest) GetLicenceNumber() string {
 	return ""
 }
 
+func (x *ListLicenceHistoryRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListLicenceHistoryRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListLicenceHistoryResponse lists its history.
 type ListLicenceHistoryResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Entries in the order they were recorded (which is date order for status
 	// changes).
 	Events []*LicenceEvent `protobuf:"bytes,1,rep,name=events,proto3" json:"events,omitempty"`
-	// The licence's status from each day on.
+	// The licence's status from each day on: the whole of it on every page (it is not
+	// paged).
 	StatusHistory []*LicenceStatusPeriod `protobuf:"bytes,2,rep,name=status_history,json=statusHistory,proto3" json:"status_history,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,3,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2154,6 +2236,13 @@ func (x *ListLicenceHistoryResponse) GetStatusHistory() []*LicenceStatusPeriod {
 		return x.StatusHistory
 	}
 	return nil
+}
+
+func (x *ListLicenceHistoryResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
 }
 
 // LoadRegistryRequest carries the objects of a registry load.
@@ -2474,7 +2563,11 @@ type ListLicencesRequest struct {
 	// Only this company's licences, when set.
 	CompanyId string `protobuf:"bytes,1,opt,name=company_id,json=companyId,proto3" json:"company_id,omitempty"`
 	// Only licences valid on some day of this year, when set.
-	Year          int32 `protobuf:"varint,2,opt,name=year,proto3" json:"year,omitempty"`
+	Year int32 `protobuf:"varint,2,opt,name=year,proto3" json:"year,omitempty"`
+	// Most licences per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,3,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,4,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2523,11 +2616,27 @@ func (x *ListLicencesRequest) GetYear() int32 {
 	return 0
 }
 
+func (x *ListLicencesRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListLicencesRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListLicencesResponse lists licences.
 type ListLicencesResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Licences in number order.
-	Licences      []*Licence `protobuf:"bytes,1,rep,name=licences,proto3" json:"licences,omitempty"`
+	Licences []*Licence `protobuf:"bytes,1,rep,name=licences,proto3" json:"licences,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2569,6 +2678,13 @@ func (x *ListLicencesResponse) GetLicences() []*Licence {
 	return nil
 }
 
+func (x *ListLicencesResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
+}
+
 var File_halovet_v1_licensing_proto protoreflect.FileDescriptor
 
 const file_halovet_v1_licensing_proto_rawDesc = "" +
@@ -2594,10 +2710,14 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x0fGetPartyRequest\x12!\n" +
 	"\fcountry_code\x18\x01 \x01(\tR\vcountryCode\";\n" +
 	"\x10GetPartyResponse\x12'\n" +
-	"\x05party\x18\x01 \x01(\v2\x11.halovet.v1.PartyR\x05party\"\x14\n" +
-	"\x12ListPartiesRequest\"B\n" +
+	"\x05party\x18\x01 \x01(\v2\x11.halovet.v1.PartyR\x05party\"P\n" +
+	"\x12ListPartiesRequest\x12\x1b\n" +
+	"\tpage_size\x18\x01 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x02 \x01(\tR\tpageToken\"j\n" +
 	"\x13ListPartiesResponse\x12+\n" +
-	"\aparties\x18\x01 \x03(\v2\x11.halovet.v1.PartyR\aparties\"_\n" +
+	"\aparties\x18\x01 \x03(\v2\x11.halovet.v1.PartyR\aparties\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"_\n" +
 	"\aCompany\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x01 \x01(\tR\tcompanyId\x12\x12\n" +
@@ -2606,22 +2726,27 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x16RegisterCompanyRequest\x12-\n" +
 	"\acompany\x18\x01 \x01(\v2\x13.halovet.v1.CompanyR\acompany\"H\n" +
 	"\x17RegisterCompanyResponse\x12-\n" +
-	"\acompany\x18\x01 \x01(\v2\x13.halovet.v1.CompanyR\acompany\"\x16\n" +
-	"\x14ListCompaniesRequest\"J\n" +
+	"\acompany\x18\x01 \x01(\v2\x13.halovet.v1.CompanyR\acompany\"R\n" +
+	"\x14ListCompaniesRequest\x12\x1b\n" +
+	"\tpage_size\x18\x01 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x02 \x01(\tR\tpageToken\"r\n" +
 	"\x15ListCompaniesResponse\x121\n" +
-	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\"\xb6\x02\n" +
+	"\tcompanies\x18\x01 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\x8c\x03\n" +
 	"\tQuotaLine\x12\x1f\n" +
 	"\vline_number\x18\x01 \x01(\x05R\n" +
 	"lineNumber\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
 	"annexGroup\x12\x1c\n" +
 	"\tsubstance\x18\x03 \x01(\tR\tsubstance\x12)\n" +
-	"\x04unit\x18\x04 \x01(\x0e2\x15.halovet.v1.QuotaUnitR\x04unit\x12\x1c\n" +
-	"\tallocated\x18\x05 \x01(\x01R\tallocated\x12\x14\n" +
-	"\x05drawn\x18\x06 \x01(\x01R\x05drawn\x12\x1c\n" +
-	"\tremaining\x18\a \x01(\x01R\tremaining\x12/\n" +
+	"\x04unit\x18\x04 \x01(\x0e2\x15.halovet.v1.QuotaUnitR\x04unit\x12)\n" +
+	"\x10allocated_amount\x18\n" +
+	" \x01(\tR\x0fallocatedAmount\x12!\n" +
+	"\fdrawn_amount\x18\v \x01(\tR\vdrawnAmount\x12)\n" +
+	"\x10remaining_amount\x18\f \x01(\tR\x0fremainingAmount\x12/\n" +
 	"\bpurposes\x18\b \x03(\x0e2\x13.halovet.v1.PurposeR\bpurposes\x12\x1b\n" +
-	"\tclosed_on\x18\t \x01(\tR\bclosedOn\"e\n" +
+	"\tclosed_on\x18\t \x01(\tR\bclosedOnJ\x04\b\x05\x10\x06J\x04\b\x06\x10\aJ\x04\b\a\x10\bR\tallocatedR\x05drawnR\tremaining\"e\n" +
 	"\x13LicenceStatusPeriod\x12\x1b\n" +
 	"\tfrom_date\x18\x01 \x01(\tR\bfromDate\x121\n" +
 	"\x06status\x18\x02 \x01(\x0e2\x19.halovet.v1.LicenceStatusR\x06status\"\x81\x04\n" +
@@ -2692,12 +2817,16 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\vrecorded_at\x18\a \x01(\tR\n" +
 	"recordedAt\x12\x1f\n" +
 	"\vdetail_json\x18\b \x01(\tR\n" +
-	"detailJson\"B\n" +
+	"detailJson\"~\n" +
 	"\x19ListLicenceHistoryRequest\x12%\n" +
-	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\"\x96\x01\n" +
+	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\x12\x1b\n" +
+	"\tpage_size\x18\x02 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x03 \x01(\tR\tpageToken\"\xbe\x01\n" +
 	"\x1aListLicenceHistoryResponse\x120\n" +
 	"\x06events\x18\x01 \x03(\v2\x18.halovet.v1.LicenceEventR\x06events\x12F\n" +
-	"\x0estatus_history\x18\x02 \x03(\v2\x1f.halovet.v1.LicenceStatusPeriodR\rstatusHistory\"\xd7\x01\n" +
+	"\x0estatus_history\x18\x02 \x03(\v2\x1f.halovet.v1.LicenceStatusPeriodR\rstatusHistory\x12&\n" +
+	"\x0fnext_page_token\x18\x03 \x01(\tR\rnextPageToken\"\xd7\x01\n" +
 	"\x13LoadRegistryRequest\x12+\n" +
 	"\aparties\x18\x01 \x03(\v2\x11.halovet.v1.PartyR\aparties\x121\n" +
 	"\tcompanies\x18\x02 \x03(\v2\x13.halovet.v1.CompanyR\tcompanies\x12/\n" +
@@ -2716,13 +2845,17 @@ const file_halovet_v1_licensing_proto_rawDesc = "" +
 	"\x11GetLicenceRequest\x12%\n" +
 	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\"C\n" +
 	"\x12GetLicenceResponse\x12-\n" +
-	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\"H\n" +
+	"\alicence\x18\x01 \x01(\v2\x13.halovet.v1.LicenceR\alicence\"\x84\x01\n" +
 	"\x13ListLicencesRequest\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x01 \x01(\tR\tcompanyId\x12\x12\n" +
-	"\x04year\x18\x02 \x01(\x05R\x04year\"G\n" +
+	"\x04year\x18\x02 \x01(\x05R\x04year\x12\x1b\n" +
+	"\tpage_size\x18\x03 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x04 \x01(\tR\tpageToken\"o\n" +
 	"\x14ListLicencesResponse\x12/\n" +
-	"\blicences\x18\x01 \x03(\v2\x13.halovet.v1.LicenceR\blicences*y\n" +
+	"\blicences\x18\x01 \x03(\v2\x13.halovet.v1.LicenceR\blicences\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken*y\n" +
 	"\tPartyType\x12\x1a\n" +
 	"\x16PARTY_TYPE_UNSPECIFIED\x10\x00\x12\x18\n" +
 	"\x14PARTY_TYPE_ARTICLE_5\x10\x01\x12\x1c\n" +

@@ -52,11 +52,13 @@ type LicensingServiceClient interface {
 	PutParty(ctx context.Context, in *PutPartyRequest, opts ...grpc.CallOption) (*PutPartyResponse, error)
 	// GetParty returns the settings of one country.
 	GetParty(ctx context.Context, in *GetPartyRequest, opts ...grpc.CallOption) (*GetPartyResponse, error)
-	// ListParties returns every country's settings.
+	// ListParties returns every country's settings in country code order, a page at a
+	// time.
 	ListParties(ctx context.Context, in *ListPartiesRequest, opts ...grpc.CallOption) (*ListPartiesResponse, error)
 	// RegisterCompany creates or updates a company.
 	RegisterCompany(ctx context.Context, in *RegisterCompanyRequest, opts ...grpc.CallOption) (*RegisterCompanyResponse, error)
-	// ListCompanies returns the registered companies.
+	// ListCompanies returns the registered companies in identifier order, a page at a
+	// time.
 	ListCompanies(ctx context.Context, in *ListCompaniesRequest, opts ...grpc.CallOption) (*ListCompaniesResponse, error)
 	// IssueLicence creates a licence with its quota lines.
 	IssueLicence(ctx context.Context, in *IssueLicenceRequest, opts ...grpc.CallOption) (*IssueLicenceResponse, error)
@@ -82,7 +84,8 @@ type LicensingServiceClient interface {
 	// that has draws.
 	CloseQuotaLine(ctx context.Context, in *CloseQuotaLineRequest, opts ...grpc.CallOption) (*CloseQuotaLineResponse, error)
 	// ListLicenceHistory returns a licence's dated history: its issue, every status
-	// change and every amendment, with reasons and who made them.
+	// change and every amendment, with reasons and who made them, in the order recorded,
+	// a page at a time.
 	ListLicenceHistory(ctx context.Context, in *ListLicenceHistoryRequest, opts ...grpc.CallOption) (*ListLicenceHistoryResponse, error)
 	// LoadRegistry writes party settings, companies and licences in one transaction:
 	// all of them or, when any is refused, none (the error names the object). New
@@ -92,7 +95,8 @@ type LicensingServiceClient interface {
 	LoadRegistry(ctx context.Context, in *LoadRegistryRequest, opts ...grpc.CallOption) (*LoadRegistryResponse, error)
 	// GetLicence returns a licence with its balances.
 	GetLicence(ctx context.Context, in *GetLicenceRequest, opts ...grpc.CallOption) (*GetLicenceResponse, error)
-	// ListLicences returns licences, optionally of one company or year.
+	// ListLicences returns licences, optionally of one company or year, in number order,
+	// a page at a time.
 	ListLicences(ctx context.Context, in *ListLicencesRequest, opts ...grpc.CallOption) (*ListLicencesResponse, error)
 }
 
@@ -261,11 +265,13 @@ type LicensingServiceServer interface {
 	PutParty(context.Context, *PutPartyRequest) (*PutPartyResponse, error)
 	// GetParty returns the settings of one country.
 	GetParty(context.Context, *GetPartyRequest) (*GetPartyResponse, error)
-	// ListParties returns every country's settings.
+	// ListParties returns every country's settings in country code order, a page at a
+	// time.
 	ListParties(context.Context, *ListPartiesRequest) (*ListPartiesResponse, error)
 	// RegisterCompany creates or updates a company.
 	RegisterCompany(context.Context, *RegisterCompanyRequest) (*RegisterCompanyResponse, error)
-	// ListCompanies returns the registered companies.
+	// ListCompanies returns the registered companies in identifier order, a page at a
+	// time.
 	ListCompanies(context.Context, *ListCompaniesRequest) (*ListCompaniesResponse, error)
 	// IssueLicence creates a licence with its quota lines.
 	IssueLicence(context.Context, *IssueLicenceRequest) (*IssueLicenceResponse, error)
@@ -291,7 +297,8 @@ type LicensingServiceServer interface {
 	// that has draws.
 	CloseQuotaLine(context.Context, *CloseQuotaLineRequest) (*CloseQuotaLineResponse, error)
 	// ListLicenceHistory returns a licence's dated history: its issue, every status
-	// change and every amendment, with reasons and who made them.
+	// change and every amendment, with reasons and who made them, in the order recorded,
+	// a page at a time.
 	ListLicenceHistory(context.Context, *ListLicenceHistoryRequest) (*ListLicenceHistoryResponse, error)
 	// LoadRegistry writes party settings, companies and licences in one transaction:
 	// all of them or, when any is refused, none (the error names the object). New
@@ -301,7 +308,8 @@ type LicensingServiceServer interface {
 	LoadRegistry(context.Context, *LoadRegistryRequest) (*LoadRegistryResponse, error)
 	// GetLicence returns a licence with its balances.
 	GetLicence(context.Context, *GetLicenceRequest) (*GetLicenceResponse, error)
-	// ListLicences returns licences, optionally of one company or year.
+	// ListLicences returns licences, optionally of one company or year, in number order,
+	// a page at a time.
 	ListLicences(context.Context, *ListLicencesRequest) (*ListLicencesResponse, error)
 	mustEmbedUnimplementedLicensingServiceServer()
 }

@@ -710,12 +710,15 @@ type ShipmentFigures struct {
 	ResolvedDesignation string `protobuf:"bytes,1,opt,name=resolved_designation,json=resolvedDesignation,proto3" json:"resolved_designation,omitempty"`
 	// Substance or blend.
 	Kind EntryKind `protobuf:"varint,2,opt,name=kind,proto3,enum=halovet.v1.EntryKind" json:"kind,omitempty"`
-	// Net mass in kg after unit conversion.
-	NetMassKg float64 `protobuf:"fixed64,3,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
-	// Total ODP tonnes.
-	OdpTonnes float64 `protobuf:"fixed64,4,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
-	// Total CO2-eq tonnes as the Protocol counts them.
-	Co2ETonnes float64 `protobuf:"fixed64,5,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
+	// Net mass in kg after unit conversion, exact (the declared quantity times the exact
+	// factor of its unit, times the package count when the fill is given), e.g. "45.359237".
+	NetMassKg string `protobuf:"bytes,11,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
+	// Total ODP tonnes: the exact sum over the components of tonnes times ODP; "0" when no
+	// component has an ODP (an HFC).
+	OdpTonnes string `protobuf:"bytes,12,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
+	// Total CO2-eq tonnes as the Protocol counts them: the exact sum over the Annex F
+	// components of tonnes times the Annex GWP; "0" when there is none.
+	Co2ETonnes string `protobuf:"bytes,13,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
 	// Per-component figures (one entry for a single substance).
 	Components []*ComponentFigures `protobuf:"bytes,6,rep,name=components,proto3" json:"components,omitempty"`
 	// True when the record counts in national consumption (false for used,
@@ -780,25 +783,25 @@ func (x *ShipmentFigures) GetKind() EntryKind {
 	return EntryKind_ENTRY_KIND_UNSPECIFIED
 }
 
-func (x *ShipmentFigures) GetNetMassKg() float64 {
+func (x *ShipmentFigures) GetNetMassKg() string {
 	if x != nil {
 		return x.NetMassKg
 	}
-	return 0
+	return ""
 }
 
-func (x *ShipmentFigures) GetOdpTonnes() float64 {
+func (x *ShipmentFigures) GetOdpTonnes() string {
 	if x != nil {
 		return x.OdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *ShipmentFigures) GetCo2ETonnes() float64 {
+func (x *ShipmentFigures) GetCo2ETonnes() string {
 	if x != nil {
 		return x.Co2ETonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *ShipmentFigures) GetComponents() []*ComponentFigures {
@@ -1076,9 +1079,14 @@ type CheckShipmentsRequest struct {
 	// One record.
 	Record *ShipmentRecord `protobuf:"bytes,1,opt,name=record,proto3" json:"record,omitempty"`
 	// Several records, checked after record (when both are set) in this order.
-	Records       []*ShipmentRecord `protobuf:"bytes,2,rep,name=records,proto3" json:"records,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Records []*ShipmentRecord `protobuf:"bytes,2,rep,name=records,proto3" json:"records,omitempty"`
+	// Read on the stream's first message only: true asks for the per-component figures
+	// (figures.components) in every verdict of the stream. Without it they are left out,
+	// which makes the answers smaller and quicker to encode; the totals, the outcome, the
+	// findings and the draws are the same either way.
+	ComponentFigures bool `protobuf:"varint,3,opt,name=component_figures,json=componentFigures,proto3" json:"component_figures,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
 }
 
 func (x *CheckShipmentsRequest) Reset() {
@@ -1123,6 +1131,13 @@ func (x *CheckShipmentsRequest) GetRecords() []*ShipmentRecord {
 		return x.Records
 	}
 	return nil
+}
+
+func (x *CheckShipmentsRequest) GetComponentFigures() bool {
+	if x != nil {
+		return x.ComponentFigures
+	}
+	return false
 }
 
 // BatchSummary closes a stream.
@@ -1759,8 +1774,9 @@ type QuotaDraw struct {
 	LicenceNumber string `protobuf:"bytes,1,opt,name=licence_number,json=licenceNumber,proto3" json:"licence_number,omitempty"`
 	// Line number on the licence.
 	LineNumber int32 `protobuf:"varint,2,opt,name=line_number,json=lineNumber,proto3" json:"line_number,omitempty"`
-	// Amount in the line's unit (metric t, ODP t or CO2-eq t), exact to 9 decimals.
-	Amount float64 `protobuf:"fixed64,3,opt,name=amount,proto3" json:"amount,omitempty"`
+	// Amount in the unit of the quota line it draws on (QuotaLine.unit: metric t, ODP t or
+	// CO2-eq t), a decimal string exact to the register's 9 decimals, e.g. "0.000748".
+	Amount string `protobuf:"bytes,6,opt,name=amount,proto3" json:"amount,omitempty"`
 	// True once the draw was given back (the shipment voided or corrected).
 	Released bool `protobuf:"varint,4,opt,name=released,proto3" json:"released,omitempty"`
 	// When it was given back, RFC 3339 UTC; empty while it draws.
@@ -1813,11 +1829,11 @@ func (x *QuotaDraw) GetLineNumber() int32 {
 	return 0
 }
 
-func (x *QuotaDraw) GetAmount() float64 {
+func (x *QuotaDraw) GetAmount() string {
 	if x != nil {
 		return x.Amount
 	}
-	return 0
+	return ""
 }
 
 func (x *QuotaDraw) GetReleased() bool {
@@ -1862,12 +1878,12 @@ type RecordedShipment struct {
 	DeclarationDate string `protobuf:"bytes,11,opt,name=declaration_date,json=declarationDate,proto3" json:"declaration_date,omitempty"`
 	// The designation the record resolved to.
 	ResolvedDesignation string `protobuf:"bytes,12,opt,name=resolved_designation,json=resolvedDesignation,proto3" json:"resolved_designation,omitempty"`
-	// Net mass in kg, exact to 9 decimals.
-	NetMassKg float64 `protobuf:"fixed64,13,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
-	// ODP tonnes.
-	OdpTonnes float64 `protobuf:"fixed64,14,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
-	// CO2-eq tonnes.
-	Co2ETonnes float64 `protobuf:"fixed64,15,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
+	// Net mass in kg as the register keeps it, a decimal string exact to 9 decimals.
+	NetMassKg string `protobuf:"bytes,17,opt,name=net_mass_kg,json=netMassKg,proto3" json:"net_mass_kg,omitempty"`
+	// ODP tonnes as the register keeps it, exact to 9 decimals; "0" for none.
+	OdpTonnes string `protobuf:"bytes,18,opt,name=odp_tonnes,json=odpTonnes,proto3" json:"odp_tonnes,omitempty"`
+	// CO2-eq tonnes as the register keeps it, exact to 9 decimals; "0" for none.
+	Co2ETonnes string `protobuf:"bytes,19,opt,name=co2e_tonnes,json=co2eTonnes,proto3" json:"co2e_tonnes,omitempty"`
 	// True when it counts in national consumption (while live).
 	CountsInConsumption bool `protobuf:"varint,16,opt,name=counts_in_consumption,json=countsInConsumption,proto3" json:"counts_in_consumption,omitempty"`
 	unknownFields       protoimpl.UnknownFields
@@ -1988,25 +2004,25 @@ func (x *RecordedShipment) GetResolvedDesignation() string {
 	return ""
 }
 
-func (x *RecordedShipment) GetNetMassKg() float64 {
+func (x *RecordedShipment) GetNetMassKg() string {
 	if x != nil {
 		return x.NetMassKg
 	}
-	return 0
+	return ""
 }
 
-func (x *RecordedShipment) GetOdpTonnes() float64 {
+func (x *RecordedShipment) GetOdpTonnes() string {
 	if x != nil {
 		return x.OdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *RecordedShipment) GetCo2ETonnes() float64 {
+func (x *RecordedShipment) GetCo2ETonnes() string {
 	if x != nil {
 		return x.Co2ETonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *RecordedShipment) GetCountsInConsumption() bool {
@@ -2832,9 +2848,13 @@ func (*ReopenYearResponse) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{30}
 }
 
-// ListClosedYearsRequest is empty.
+// ListClosedYearsRequest asks for a page of the closed years.
 type ListClosedYearsRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Most years per page, 1 to 1000; 0 means 100.
+	PageSize int32 `protobuf:"varint,1,opt,name=page_size,json=pageSize,proto3" json:"page_size,omitempty"`
+	// Token from a previous response's next_page_token, with the same filters.
+	PageToken     string `protobuf:"bytes,2,opt,name=page_token,json=pageToken,proto3" json:"page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2869,11 +2889,27 @@ func (*ListClosedYearsRequest) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_shipment_proto_rawDescGZIP(), []int{31}
 }
 
+func (x *ListClosedYearsRequest) GetPageSize() int32 {
+	if x != nil {
+		return x.PageSize
+	}
+	return 0
+}
+
+func (x *ListClosedYearsRequest) GetPageToken() string {
+	if x != nil {
+		return x.PageToken
+	}
+	return ""
+}
+
 // ListClosedYearsResponse lists the closed years.
 type ListClosedYearsResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The closed years, in order.
-	ClosedYears   []*ClosedYear `protobuf:"bytes,1,rep,name=closed_years,json=closedYears,proto3" json:"closed_years,omitempty"`
+	ClosedYears []*ClosedYear `protobuf:"bytes,1,rep,name=closed_years,json=closedYears,proto3" json:"closed_years,omitempty"`
+	// Token for the next page; empty on the last.
+	NextPageToken string `protobuf:"bytes,2,opt,name=next_page_token,json=nextPageToken,proto3" json:"next_page_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2915,6 +2951,13 @@ func (x *ListClosedYearsResponse) GetClosedYears() []*ClosedYear {
 	return nil
 }
 
+func (x *ListClosedYearsResponse) GetNextPageToken() string {
+	if x != nil {
+		return x.NextPageToken
+	}
+	return ""
+}
+
 var File_halovet_v1_shipment_proto protoreflect.FileDescriptor
 
 const file_halovet_v1_shipment_proto_rawDesc = "" +
@@ -2949,14 +2992,14 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x04code\x18\x01 \x01(\tR\x04code\x120\n" +
 	"\bseverity\x18\x02 \x01(\x0e2\x14.halovet.v1.SeverityR\bseverity\x12\x14\n" +
 	"\x05field\x18\x03 \x01(\tR\x05field\x12\x18\n" +
-	"\amessage\x18\x04 \x01(\tR\amessage\"\xc9\x03\n" +
+	"\amessage\x18\x04 \x01(\tR\amessage\"\xdb\x03\n" +
 	"\x0fShipmentFigures\x121\n" +
 	"\x14resolved_designation\x18\x01 \x01(\tR\x13resolvedDesignation\x12)\n" +
 	"\x04kind\x18\x02 \x01(\x0e2\x15.halovet.v1.EntryKindR\x04kind\x12\x1e\n" +
-	"\vnet_mass_kg\x18\x03 \x01(\x01R\tnetMassKg\x12\x1d\n" +
+	"\vnet_mass_kg\x18\v \x01(\tR\tnetMassKg\x12\x1d\n" +
 	"\n" +
-	"odp_tonnes\x18\x04 \x01(\x01R\todpTonnes\x12\x1f\n" +
-	"\vco2e_tonnes\x18\x05 \x01(\x01R\n" +
+	"odp_tonnes\x18\f \x01(\tR\todpTonnes\x12\x1f\n" +
+	"\vco2e_tonnes\x18\r \x01(\tR\n" +
 	"co2eTonnes\x12<\n" +
 	"\n" +
 	"components\x18\x06 \x03(\v2\x1c.halovet.v1.ComponentFiguresR\n" +
@@ -2965,7 +3008,7 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\fsafety_class\x18\b \x01(\tR\vsafetyClass\x12*\n" +
 	"\x11partner_non_party\x18\t \x01(\bR\x0fpartnerNonParty\x127\n" +
 	"\x18partner_not_bound_groups\x18\n" +
-	" \x03(\tR\x15partnerNotBoundGroups\"\xb8\x03\n" +
+	" \x03(\tR\x15partnerNotBoundGroupsJ\x04\b\x03\x10\x04J\x04\b\x04\x10\x05J\x04\b\x05\x10\x06\"\xb8\x03\n" +
 	"\aVerdict\x12\x1d\n" +
 	"\n" +
 	"record_key\x18\x01 \x01(\tR\trecordKey\x12\x1f\n" +
@@ -2986,10 +3029,11 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x14CheckShipmentRequest\x122\n" +
 	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\"F\n" +
 	"\x15CheckShipmentResponse\x12-\n" +
-	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictR\averdict\"\x81\x01\n" +
+	"\averdict\x18\x01 \x01(\v2\x13.halovet.v1.VerdictR\averdict\"\xae\x01\n" +
 	"\x15CheckShipmentsRequest\x122\n" +
 	"\x06record\x18\x01 \x01(\v2\x1a.halovet.v1.ShipmentRecordR\x06record\x124\n" +
-	"\arecords\x18\x02 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\"\xfc\x03\n" +
+	"\arecords\x18\x02 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\x12+\n" +
+	"\x11component_figures\x18\x03 \x01(\bR\x10componentFigures\"\xfc\x03\n" +
 	"\fBatchSummary\x12\x18\n" +
 	"\arecords\x18\x01 \x01(\x03R\arecords\x12\x1a\n" +
 	"\baccepted\x18\x02 \x01(\x03R\baccepted\x124\n" +
@@ -3029,15 +3073,15 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\arecords\x18\x01 \x03(\v2\x1a.halovet.v1.ShipmentRecordR\arecords\"\x82\x01\n" +
 	"\x1bRecordShipmentBatchResponse\x12/\n" +
 	"\bverdicts\x18\x01 \x03(\v2\x13.halovet.v1.VerdictR\bverdicts\x122\n" +
-	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryR\asummary\"\xa8\x01\n" +
+	"\asummary\x18\x02 \x01(\v2\x18.halovet.v1.BatchSummaryR\asummary\"\xae\x01\n" +
 	"\tQuotaDraw\x12%\n" +
 	"\x0elicence_number\x18\x01 \x01(\tR\rlicenceNumber\x12\x1f\n" +
 	"\vline_number\x18\x02 \x01(\x05R\n" +
 	"lineNumber\x12\x16\n" +
-	"\x06amount\x18\x03 \x01(\x01R\x06amount\x12\x1a\n" +
+	"\x06amount\x18\x06 \x01(\tR\x06amount\x12\x1a\n" +
 	"\breleased\x18\x04 \x01(\bR\breleased\x12\x1f\n" +
 	"\vreleased_at\x18\x05 \x01(\tR\n" +
-	"releasedAt\"\x97\x05\n" +
+	"releasedAtJ\x04\b\x03\x10\x04\"\xa9\x05\n" +
 	"\x10RecordedShipment\x12\x1f\n" +
 	"\vshipment_id\x18\x01 \x01(\x03R\n" +
 	"shipmentId\x12/\n" +
@@ -3055,12 +3099,12 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	" \x01(\tR\fchangeReason\x12)\n" +
 	"\x10declaration_date\x18\v \x01(\tR\x0fdeclarationDate\x121\n" +
 	"\x14resolved_designation\x18\f \x01(\tR\x13resolvedDesignation\x12\x1e\n" +
-	"\vnet_mass_kg\x18\r \x01(\x01R\tnetMassKg\x12\x1d\n" +
+	"\vnet_mass_kg\x18\x11 \x01(\tR\tnetMassKg\x12\x1d\n" +
 	"\n" +
-	"odp_tonnes\x18\x0e \x01(\x01R\todpTonnes\x12\x1f\n" +
-	"\vco2e_tonnes\x18\x0f \x01(\x01R\n" +
+	"odp_tonnes\x18\x12 \x01(\tR\todpTonnes\x12\x1f\n" +
+	"\vco2e_tonnes\x18\x13 \x01(\tR\n" +
 	"co2eTonnes\x122\n" +
-	"\x15counts_in_consumption\x18\x10 \x01(\bR\x13countsInConsumption\"\xb5\x04\n" +
+	"\x15counts_in_consumption\x18\x10 \x01(\bR\x13countsInConsumptionJ\x04\b\r\x10\x0eJ\x04\b\x0e\x10\x0fJ\x04\b\x0f\x10\x10\"\xb5\x04\n" +
 	"\x14ListShipmentsRequest\x12\x1d\n" +
 	"\n" +
 	"company_id\x18\x01 \x01(\tR\tcompanyId\x12%\n" +
@@ -3120,10 +3164,14 @@ const file_halovet_v1_shipment_proto_rawDesc = "" +
 	"\x11ReopenYearRequest\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x16\n" +
 	"\x06reason\x18\x02 \x01(\tR\x06reason\"\x14\n" +
-	"\x12ReopenYearResponse\"\x18\n" +
-	"\x16ListClosedYearsRequest\"T\n" +
+	"\x12ReopenYearResponse\"T\n" +
+	"\x16ListClosedYearsRequest\x12\x1b\n" +
+	"\tpage_size\x18\x01 \x01(\x05R\bpageSize\x12\x1d\n" +
+	"\n" +
+	"page_token\x18\x02 \x01(\tR\tpageToken\"|\n" +
 	"\x17ListClosedYearsResponse\x129\n" +
-	"\fclosed_years\x18\x01 \x03(\v2\x16.halovet.v1.ClosedYearR\vclosedYears*\x82\x01\n" +
+	"\fclosed_years\x18\x01 \x03(\v2\x16.halovet.v1.ClosedYearR\vclosedYears\x12&\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken*\x82\x01\n" +
 	"\tDirection\x12\x19\n" +
 	"\x15DIRECTION_UNSPECIFIED\x10\x00\x12\x14\n" +
 	"\x10DIRECTION_IMPORT\x10\x01\x12\x14\n" +

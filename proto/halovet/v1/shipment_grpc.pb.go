@@ -81,7 +81,7 @@ type ShipmentServiceClient interface {
 	CloseYear(ctx context.Context, in *CloseYearRequest, opts ...grpc.CallOption) (*CloseYearResponse, error)
 	// ReopenYear reopens a closed reporting year (a reason is required).
 	ReopenYear(ctx context.Context, in *ReopenYearRequest, opts ...grpc.CallOption) (*ReopenYearResponse, error)
-	// ListClosedYears lists the closed reporting years.
+	// ListClosedYears lists the closed reporting years in year order, a page at a time.
 	ListClosedYears(ctx context.Context, in *ListClosedYearsRequest, opts ...grpc.CallOption) (*ListClosedYearsResponse, error)
 }
 
@@ -267,7 +267,7 @@ type ShipmentServiceServer interface {
 	CloseYear(context.Context, *CloseYearRequest) (*CloseYearResponse, error)
 	// ReopenYear reopens a closed reporting year (a reason is required).
 	ReopenYear(context.Context, *ReopenYearRequest) (*ReopenYearResponse, error)
-	// ListClosedYears lists the closed reporting years.
+	// ListClosedYears lists the closed reporting years in year order, a page at a time.
 	ListClosedYears(context.Context, *ListClosedYearsRequest) (*ListClosedYearsResponse, error)
 	mustEmbedUnimplementedShipmentServiceServer()
 }
