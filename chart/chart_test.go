@@ -271,10 +271,11 @@ func TestChartMarksTheCurrentYearProvisional(t *testing.T) {
 
 func TestFromAssessment(t *testing.T) {
 	resp := &halovetv1.AssessComplianceResponse{
-		AnnexGroup: "C/I", Unit: "ODP t", Baseline: 100, BaselineComplete: true, AppliesTo: "A5",
+		AnnexGroup: "C/I", Unit: halovetv1.ControlUnit_CONTROL_UNIT_ODP_TONNES, BaselineAmount: "100", BaselineComplete: true,
+		AppliesTo: halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5,
 		Years: []*halovetv1.ComplianceYear{
-			{Year: 2025, Consumption: 80, HasData: true, Allowed: 65, Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED},
-			{Year: 2026, Allowed: 65, Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED, Notes: []string{"step in force since 2025"}},
+			{Year: 2025, ConsumptionAmount: "80", HasData: true, AllowedAmount: "65", Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED},
+			{Year: 2026, AllowedAmount: "65", Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED, Notes: []string{"step in force since 2025"}},
 			{Year: 2027, Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED},
 		},
 	}

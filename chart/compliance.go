@@ -7,10 +7,14 @@ import (
 	"strings"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
-// Year is one year's figures as the chart reads them.
+// Year is one year's figures as the chart reads them. The figures are the nearest floats of
+// the answer's exact decimals: the chart places them and labels them rounded (figure), and
+// its data-value attributes carry the shortest decimal of the float, which is the
+// answer's decimal for any figure of up to 15 significant digits.
 type Year struct {
 	Year        int
 	Consumption float64
@@ -41,8 +45,8 @@ const Notice = "Results are decision support: the treaty text, national law, the
 // currentYear is the calendar year now (its figures are provisional; 0 marks none).
 func FromAssessment(resp *halovetv1.AssessComplianceResponse, party string, currentYear int) Compliance {
 	c := Compliance{
-		Party: party, Scope: resp.GetAnnexGroup(), Unit: resp.GetUnit(),
-		Baseline: resp.GetBaseline(), HasBaseline: resp.GetBaselineComplete(),
+		Party: party, Scope: resp.GetAnnexGroup(), Unit: unitName(resp.GetUnit()),
+		Baseline: wireNum(resp.GetBaselineAmount()), HasBaseline: resp.GetBaselineComplete() && resp.GetBaselineAmount() != "",
 		Schedule: scheduleName(resp.GetAppliesTo()), Notice: Notice,
 	}
 	if sc, err := controls.ParseScope(resp.GetAnnexGroup()); err == nil {
@@ -55,13 +59,13 @@ func FromAssessment(resp *halovetv1.AssessComplianceResponse, party string, curr
 		o := y.GetOutcome()
 		assessed := o == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN || o == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED
 		cy := Year{
-			Year: int(y.GetYear()), Consumption: y.GetConsumption(), HasData: y.GetHasData(), Allowed: y.GetAllowed(),
+			Year: int(y.GetYear()), Consumption: wireNum(y.GetConsumptionAmount()), HasData: y.GetHasData(), Allowed: wireNum(y.GetAllowedAmount()),
 			Exceeded: o == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED,
 			// The allowed level is known when the year was assessed (a period-average year
 			// shows the period's mean level), and in a year without data when a step is in
 			// force and either the baseline is complete or the step is 0 % (which needs no
 			// baseline).
-			HasAllowed:  assessed || (hasStepNote(y) && (y.GetAllowedPercent() == 0 || resp.GetBaselineComplete())),
+			HasAllowed:  assessed || (hasStepNote(y) && (y.GetAllowedPercent() == "0" || resp.GetBaselineComplete())),
 			Provisional: currentYear != 0 && int(y.GetYear()) == currentYear,
 		}
 		c.Years = append(c.Years, cy)
@@ -80,16 +84,41 @@ func hasStepNote(y *halovetv1.ComplianceYear) bool {
 	return false
 }
 
-func scheduleName(appliesTo string) string {
-	switch appliesTo {
-	case "A5":
+func scheduleName(s halovetv1.ControlSchedule) string {
+	switch s {
+	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5:
 		return "Article 5 schedule"
-	case "non-A5":
+	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5:
 		return "non-Article 5 schedule"
-	case "":
-		return ""
+	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5_HFC_LATER_START:
+		return "non-Article 5 schedule, later start"
+	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_FIRST_GROUP:
+		return "Article 5 schedule, first HFC group"
+	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_SECOND_GROUP:
+		return "Article 5 schedule, second HFC group"
 	}
-	return appliesTo + " schedule"
+	return ""
+}
+
+// unitName is how the chart writes the unit of an assessment.
+func unitName(u halovetv1.ControlUnit) string {
+	switch u {
+	case halovetv1.ControlUnit_CONTROL_UNIT_ODP_TONNES:
+		return "ODP t"
+	case halovetv1.ControlUnit_CONTROL_UNIT_CO2E_TONNES:
+		return "CO2-eq t"
+	}
+	return ""
+}
+
+// wireNum reads a wire decimal as the nearest float, for placing it; "" and an unreadable
+// figure are 0 (the answer's presence flags say whether a figure is known).
+func wireNum(s string) float64 {
+	d, ok, err := exact.ParseField("", s)
+	if err != nil || !ok {
+		return 0
+	}
+	return d.Float64()
 }
 
 // Title is the chart's title: "Republic of Examplia: Annex C Group I (HCFCs) consumption

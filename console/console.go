@@ -382,6 +382,11 @@ func (c *Console) parseTemplates() error {
 	funcs := template.FuncMap{
 		"figure":           figure,
 		"dec":              dec,
+		"amount":           amount,
+		"cunit":            controlUnitWord,
+		"schedule":         scheduleWord,
+		"reportState":      reportStateWord,
+		"basis":            basisWord,
 		"fine":             fine,
 		"percent":          percent,
 		"quota":            quota,

@@ -214,12 +214,11 @@ func (h *harness) loadDemo(t testing.TB) {
 	var entries []*halovetv1.NationalEntry
 	for _, r := range rows[1:] { // entry_key,year,entry_type,substance,metric_tonnes,note
 		year, _ := strconv.Atoi(r[1])
-		tonnes, _ := strconv.ParseFloat(r[4], 64)
 		typ := halovetv1.EntryType(halovetv1.EntryType_value["ENTRY_TYPE_"+strings.ToUpper(strings.ReplaceAll(r[2], "-", "_"))])
 		if typ == halovetv1.EntryType_ENTRY_TYPE_UNSPECIFIED {
 			t.Fatalf("national_entries.csv: entry type %q", r[2])
 		}
-		entries = append(entries, &halovetv1.NationalEntry{EntryKey: r[0], Year: int32(year), EntryType: typ, Substance: r[3], MetricTonnes: tonnes, Note: r[5]})
+		entries = append(entries, &halovetv1.NationalEntry{EntryKey: r[0], Year: int32(year), EntryType: typ, Substance: r[3], MetricTonnes: r[4], Note: r[5]})
 	}
 	if _, err := halovetv1.NewConsumptionServiceClient(h.conn).RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: entries}); err != nil {
 		t.Fatal(err)

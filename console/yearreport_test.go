@@ -48,7 +48,7 @@ func TestYearReport(t *testing.T) {
 		State  string
 		Groups []struct{ AnnexGroup string }
 	}
-	if err := json.Unmarshal([]byte(j.body), &rep); err != nil || rep.Year != 2025 || rep.State != "provisional" || len(rep.Groups) == 0 {
+	if err := json.Unmarshal([]byte(j.body), &rep); err != nil || rep.Year != 2025 || rep.State != "REPORT_STATE_PROVISIONAL" || len(rep.Groups) == 0 {
 		t.Errorf("report.json: %v %+v", err, rep)
 	}
 	if j2 := c.get("/console/year/report.json?year=2025"); j2.body != j.body {

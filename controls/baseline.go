@@ -4,12 +4,14 @@ import (
 	"fmt"
 	"slices"
 	"strings"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // YearAmount is one base year's consumption in a baseline's unit.
 type YearAmount struct {
 	Year    int
-	Amount  float64
+	Amount  exact.Decimal
 	HasData bool // false when no record of the scope exists for the year
 }
 
@@ -29,7 +31,8 @@ func (g Gap) String() string {
 }
 
 // Baseline is a computed baseline with its arithmetic. Value = Mean + CFCTerm +
-// HCFCComponent. No value is rounded.
+// HCFCComponent, in decimal arithmetic; the means (divisions by the number of base years)
+// are rounded to the unit's derived places (exact.Units), every other step is exact.
 type Baseline struct {
 	Scope     Scope
 	AppliesTo string // rulebook key: "non-A5", "A5", "non-A5-variant", "A5-group1", "A5-group2"
@@ -37,23 +40,23 @@ type Baseline struct {
 	Rule      BaselineRule
 
 	// Value is the baseline; it is 0 and meaningless when Complete is false.
-	Value    float64
+	Value    exact.Decimal
 	Complete bool
 	Missing  []Gap // what is missing when Complete is false, in order of discovery
 
-	Years []YearAmount // the scope's consumption in each base year
-	Mean  float64      // mean of Years (0 when a year is missing)
+	Years []YearAmount  // the scope's consumption in each base year
+	Mean  exact.Decimal // mean of Years (0 when a year is missing)
 
 	// CFC term (non-A5 HCFC baseline): CFCShare × mean A/I consumption over CFCYears.
-	CFCShare float64 // fraction, e.g. 0.028
+	CFCShare exact.Decimal // fraction, e.g. 0.028; 0 when the rule adds no term
 	CFCYears []YearAmount
-	CFCTerm  float64
+	CFCTerm  exact.Decimal
 
 	// HCFC component (HFC baselines): HCFCShare × HCFC.Value, where HCFC is the Party
 	// type's HCFC baseline recomputed in CO2-eq from base-year tonnages per substance.
-	HCFCShare     float64 // fraction, e.g. 0.15, 0.25, 0.65
+	HCFCShare     exact.Decimal // fraction, e.g. 0.15, 0.25, 0.65; 0 for other scopes
 	HCFC          *Baseline
-	HCFCComponent float64
+	HCFCComponent exact.Decimal
 
 	Notes []string
 }
@@ -111,14 +114,14 @@ func (rb *Rulebook) baselineOf(l *ledger, party Party, rule BaselineRule, unit U
 
 	switch rule.Term {
 	case TermCFC:
-		b.CFCShare = rule.TermPercent / 100
-		var mean float64
+		b.CFCShare = exact.OfFloat(rule.TermPercent).Shift(-2)
+		var mean exact.Decimal
 		b.CFCYears, mean, gaps = series(cons, ScopeAI, unit, rule.FromYear, rule.ToYear, joinPart(part, "CFC term"))
 		b.Missing = append(b.Missing, gaps...)
-		b.CFCTerm = b.CFCShare * mean
+		b.CFCTerm = derivedProduct(b.CFCShare.Mul(mean), unit)
 		b.Notes = append(b.Notes, zeroGWPNotes(cons, ScopeAI, unit, rule.FromYear, rule.ToYear)...)
 	case TermHCFCCO2e:
-		b.HCFCShare = rule.TermPercent / 100
+		b.HCFCShare = exact.OfFloat(rule.TermPercent).Shift(-2)
 		hr, err := rb.baselineRule(party.typeKey(), ScopeCI)
 		if err != nil {
 			return Baseline{}, fmt.Errorf("HCFC component of the %s baseline: %w", rule.Scope, err)
@@ -130,34 +133,34 @@ func (rb *Rulebook) baselineOf(l *ledger, party Party, rule BaselineRule, unit U
 		b.HCFC = &h
 		b.Missing = append(b.Missing, h.Missing...)
 		if h.Complete {
-			b.HCFCComponent = b.HCFCShare * h.Value
+			b.HCFCComponent = derivedProduct(b.HCFCShare.Mul(h.Value), unit)
 		}
 	}
 	b.Complete = len(b.Missing) == 0
 	if b.Complete {
-		b.Value = b.Mean + b.CFCTerm + b.HCFCComponent
+		b.Value = exact.Sum(b.Mean, b.CFCTerm, b.HCFCComponent)
 	}
 	return b, nil
 }
 
 // series returns a scope's consumption in each year from..to in unit, their mean (0 when a
-// year is missing) and the gaps.
-func series(cons Consumption, scope Scope, unit Unit, from, to int, part string) ([]YearAmount, float64, []Gap) {
+// year is missing; rounded to the unit's derived places) and the gaps.
+func series(cons Consumption, scope Scope, unit Unit, from, to int, part string) ([]YearAmount, exact.Decimal, []Gap) {
 	var ys []YearAmount
 	var gaps []Gap
-	sum := 0.0
+	sum := exact.Zero
 	for y := from; y <= to; y++ {
 		amt, ok := cons.Amount(y, scope, unit)
 		ys = append(ys, YearAmount{Year: y, Amount: amt, HasData: ok})
 		if !ok {
 			gaps = append(gaps, Gap{Scope: scope, Year: y, Part: part})
 		}
-		sum += amt
+		sum = sum.Add(amt)
 	}
 	if len(gaps) > 0 {
-		return ys, 0, gaps
+		return ys, exact.Zero, gaps
 	}
-	return ys, sum / float64(to-from+1), nil
+	return ys, exact.Derive(sum, exact.FromInt(int64(to-from+1)), unit.Exact()), nil
 }
 
 // zeroGWPNotes names substances counted in CO2-eq that have no Protocol GWP: they count as 0
@@ -174,7 +177,7 @@ func zeroGWPNotes(cons Consumption, scope Scope, unit Unit, from, to int) []stri
 				continue
 			}
 			for _, s := range gc.Substances {
-				if s.Substance.GWP == 0 && s.Tonnes != 0 && !slices.Contains(names, s.Substance.Designation) {
+				if s.Substance.GWP == 0 && !s.Tonnes.IsZero() && !slices.Contains(names, s.Substance.Designation) {
 					names = append(names, s.Substance.Designation)
 				}
 			}

@@ -18,7 +18,7 @@ func TestBaselineODS(t *testing.T) {
 		records   []Record
 		party     Party
 		scope     Scope
-		wantYears []YearAmount
+		wantYears []wantYear
 		wantMean  float64
 		wantCFC   float64 // CFC term
 		wantValue float64
@@ -28,14 +28,14 @@ func TestBaselineODS(t *testing.T) {
 			// 1989 HCFC 71.5 + 2.8 % × 1989 CFC 4500 = 197.5 ODP t
 			// (rule: Art. 2F para 1).
 			name: "non-A5 HCFC: 1989 + 2.8 % of 1989 CFCs", records: nonA5History(), party: partyNonA5, scope: ScopeCI,
-			wantYears: []YearAmount{{1989, 71.5, true}}, wantMean: 71.5, wantCFC: 126, wantValue: 197.5,
+			wantYears: []wantYear{{1989, 71.5, true}}, wantMean: 71.5, wantCFC: 126, wantValue: 197.5,
 			wantRule: "Art. 2F para 1 [V]",
 		},
 		{
 			// (165 + 162.1) / 2 = 163.55 ODP t, used imports of 2010 counted
 			// (rule: Art. 5 para 8 ter (a); Decision IV/24 para 2).
 			name: "A5 HCFC: mean 2009–2010", records: a5History(), party: partyA5G1, scope: ScopeCI,
-			wantYears: []YearAmount{{2009, 165, true}, {2010, 162.1, true}}, wantMean: 163.55, wantValue: 163.55,
+			wantYears: []wantYear{{2009, 165, true}, {2010, 162.1, true}}, wantMean: 163.55, wantValue: 163.55,
 			wantRule: "Art. 5 para 8 ter (a) [V]",
 		},
 		{
@@ -43,7 +43,7 @@ func TestBaselineODS(t *testing.T) {
 			// imports 500 t → 500 ODP t (invented data).
 			name:    "non-A5 CFCs: 1986",
 			records: []Record{rec(1986, cfc11, Flows{Imports: 500})}, party: partyNonA5, scope: ScopeAI,
-			wantYears: []YearAmount{{1986, 500, true}}, wantMean: 500, wantValue: 500,
+			wantYears: []wantYear{{1986, 500, true}}, wantMean: 500, wantValue: 500,
 			wantRule: "Art. 2A [V]",
 		},
 		{
@@ -56,7 +56,7 @@ func TestBaselineODS(t *testing.T) {
 				rec(1997, mbr, Flows{Imports: 140, QPS: 20}), rec(1998, mbr, Flows{Imports: 160, QPS: 20}),
 			},
 			party: partyA5G1, scope: ScopeEI,
-			wantYears: []YearAmount{{1995, 48, true}, {1996, 60, true}, {1997, 72, true}, {1998, 84, true}},
+			wantYears: []wantYear{{1995, 48, true}, {1996, 60, true}, {1997, 72, true}, {1998, 84, true}},
 			wantMean:  66, wantValue: 66,
 			wantRule: "Art. 5 para 8 ter (g) [V]",
 		},
@@ -249,7 +249,7 @@ func TestBaselineMissing(t *testing.T) {
 			if err != nil {
 				t.Fatalf("Baseline: %v", err)
 			}
-			if b.Complete || b.Value != 0 {
+			if b.Complete || !b.Value.IsZero() {
 				t.Fatalf("Complete = %v, Value = %v; want incomplete with value 0", b.Complete, b.Value)
 			}
 			if !slices.Equal(b.Missing, tc.want) {

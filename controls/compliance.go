@@ -3,8 +3,9 @@ package controls
 import (
 	"errors"
 	"fmt"
-	"math"
 	"strings"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // Outcome is the verdict for one year.
@@ -31,49 +32,47 @@ func (o Outcome) String() string {
 	return "not assessed"
 }
 
-// compareTolerance: consumption within 1e-9 (relative to the allowed level, at least 1e-9
-// absolute) above the allowed level counts as within. It absorbs floating-point noise of
-// sums such as 0.1 + 0.2 and nothing a report would show.
-const compareTolerance = 1e-9
-
-func withinTolerance(headroom, allowed float64) bool {
-	return headroom >= -compareTolerance*math.Max(1, math.Abs(allowed))
-}
+// The comparison of consumption with the allowed level is exact: every figure is a decimal
+// (package exact), so 0.1 + 0.2 t is 0.3 t and a year at its limit is within it.
 
 // PeriodProgress reports a period-average rule (A5 HCFC 2030–2039) from its first year up
 // to the assessed year.
 type PeriodProgress struct {
 	Rule           Rule
-	YearsCounted   int     // years of the period up to and including the assessed year
-	YearsRemaining int     // years of the period after the assessed year
-	Sum            float64 // consumption summed over the counted years
-	RunningMean    float64 // Sum / YearsCounted
-	RunningPercent float64 // RunningMean as percent of the baseline
-	Budget         float64 // Rule.Percent of baseline × years in the period
-	RoomLeft       float64 // Budget − Sum: what the remaining years may still use in total
-	RoomPerYear    float64 // RoomLeft / YearsRemaining; 0 when no year remains
+	YearsCounted   int           // years of the period up to and including the assessed year
+	YearsRemaining int           // years of the period after the assessed year
+	Sum            exact.Decimal // consumption summed over the counted years
+	RunningMean    exact.Decimal // Sum / YearsCounted, to the unit's derived places
+	RunningPercent exact.Decimal // RunningMean as percent of the baseline, to 6 places; 0 when the baseline is 0
+	Budget         exact.Decimal // Rule.Percent of baseline × years in the period
+	RoomLeft       exact.Decimal // Budget − Sum: what the remaining years may still use in total
+	RoomPerYear    exact.Decimal // RoomLeft / YearsRemaining, to the unit's derived places; 0 when no year remains
 }
 
 // YearAssessment is one year's comparison of consumption with the allowed level.
 type YearAssessment struct {
 	Year           int
-	Consumption    float64 // calculated consumption in the scope's unit
+	Consumption    exact.Decimal // calculated consumption in the scope's unit
 	HasData        bool
-	AllowedPercent float64 // percent of baseline the year is measured against
+	HasRule        bool          // a control step is in force (AllowedPercent is set)
+	AllowedPercent exact.Decimal // percent of baseline the year is measured against
+	// Assessed is true when Allowed and ComputedAllowed are computed (a rule and, when
+	// needed, a complete baseline exist).
+	Assessed bool
 	// Allowed is the level consumption is compared with: the official limit when one is
 	// set (else baseline × AllowedPercent / 100), plus the authorised exemptions.
-	Allowed float64
+	Allowed exact.Decimal
 	// ComputedAllowed is baseline × AllowedPercent / 100, from the treaty's schedule and the
 	// baseline used (the official one when set).
-	ComputedAllowed float64
+	ComputedAllowed exact.Decimal
 	// OfficialLimit is the year's limit as officially set, when there is one.
 	OfficialLimit *OfficialFigure
 	// Exempted is the sum of Exemptions, added to the limit.
-	Exempted   float64
+	Exempted   exact.Decimal
 	Exemptions []Exemption
 	// Headroom is Allowed − Consumption; negative when exceeded. In a period-average year it
 	// is the period's room left (PeriodProgress.RoomLeft) instead.
-	Headroom  float64
+	Headroom  exact.Decimal
 	Outcome   Outcome
 	Step      *Rule // the step in force; nil when there is none
 	Servicing *Rule // an annual servicing cap in force, if any
@@ -191,7 +190,8 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 	step := al.Step
 	ya.Step = &step
 	ya.Servicing = al.Servicing
-	ya.AllowedPercent = al.Percent()
+	ya.HasRule = true
+	ya.AllowedPercent = exact.OfFloat(al.Percent())
 	ya.Notes = append(ya.Notes, ruleNotes(step, fmt.Sprintf("step in force: %s %% of baseline from %d", fmtPercent(step.Percent), step.FromYear))...)
 	if al.Servicing != nil {
 		s := al.Servicing
@@ -204,10 +204,10 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 			a.FromYear, a.ToYear, fmtPercent(a.Percent)))...)
 	}
 
-	needBaseline := ya.AllowedPercent > 0 || al.Average != nil
-	baseline := 0.0
+	needBaseline := ya.AllowedPercent.Sign() > 0 || al.Average != nil
+	baseline := exact.Zero
 	if needBaseline && ov.Baseline != nil {
-		baseline = ov.Baseline.Value
+		baseline = exact.OfFloat(ov.Baseline.Value)
 		ya.Notes = append(ya.Notes, fmt.Sprintf("baseline as officially set: %s %s (%s); the computed baseline is reported beside it",
 			fmtAmount(baseline, unit), unit, ov.Baseline.Source))
 		needBaseline = false
@@ -227,34 +227,35 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 		}
 		baseline = b.Value
 	}
-	ya.ComputedAllowed = baseline * ya.AllowedPercent / 100
+	ya.ComputedAllowed = derivedProduct(baseline.Percent(ya.AllowedPercent), unit)
 	ya.Allowed = ya.ComputedAllowed
+	ya.Assessed = true
 
 	if al.Average != nil {
-		if ya.OfficialLimit != nil || ya.Exempted != 0 {
+		if ya.OfficialLimit != nil || !ya.Exempted.IsZero() {
 			ya.Notes = append(ya.Notes, "an official limit or exemption of a period-average year is reported, not applied: the period's budget is the treaty's")
 		}
 		return periodYear(cons, ya, *al.Average, scope, baseline), nil
 	}
 	if lim := ya.OfficialLimit; lim != nil {
-		ya.Allowed = lim.Value
+		ya.Allowed = exact.OfFloat(lim.Value)
 		ya.Notes = append(ya.Notes, fmt.Sprintf("limit as officially set: %s %s (%s), in place of the schedule's %s %s",
-			fmtAmount(lim.Value, unit), unit, lim.Source, fmtAmount(ya.ComputedAllowed, unit), unit))
-		if lim.Value > ya.ComputedAllowed && !withinTolerance(ya.ComputedAllowed-lim.Value, ya.ComputedAllowed) {
+			fmtAmount(ya.Allowed, unit), unit, lim.Source, fmtAmount(ya.ComputedAllowed, unit), unit))
+		if ya.Allowed.Cmp(ya.ComputedAllowed) > 0 {
 			ya.Notes = append(ya.Notes, "check: the official limit is above the treaty's level; the treaty prevails over a looser figure")
 		}
 	}
 	for _, e := range ya.Exemptions {
 		ya.Notes = append(ya.Notes, fmt.Sprintf("authorised %s-use exemption: %s %s (%s), added to the limit",
-			e.Use, fmtAmount(e.Amount, unit), unit, e.Source))
+			e.Use, fmtAmount(exact.OfFloat(e.Amount), unit), unit, e.Source))
 	}
-	ya.Allowed += ya.Exempted
+	ya.Allowed = ya.Allowed.Add(ya.Exempted)
 	if !ya.HasData {
 		return ya, nil
 	}
-	ya.Headroom = ya.Allowed - ya.Consumption
+	ya.Headroom = ya.Allowed.Sub(ya.Consumption)
 	ya.Outcome = Exceeded
-	if withinTolerance(ya.Headroom, ya.Allowed) {
+	if ya.Headroom.Sign() >= 0 {
 		ya.Outcome = Within
 	}
 	return ya, nil
@@ -282,16 +283,16 @@ func gapList(gaps []Gap) string {
 
 // periodYear assesses a year under a period-average rule: the running mean so far and the
 // room left for the rest of the period.
-func periodYear(cons Consumption, ya YearAssessment, rule Rule, scope Scope, baseline float64) YearAssessment {
+func periodYear(cons Consumption, ya YearAssessment, rule Rule, scope Scope, baseline exact.Decimal) YearAssessment {
 	unit := scope.Unit()
 	var missing []string
-	sum := 0.0
+	sum := exact.Zero
 	for y := rule.FromYear; y <= ya.Year; y++ {
 		amt, ok := cons.Amount(y, scope, unit)
 		if !ok {
 			missing = append(missing, fmt.Sprint(y))
 		}
-		sum += amt
+		sum = sum.Add(amt)
 	}
 	if len(missing) > 0 {
 		ya.Notes = append(ya.Notes, fmt.Sprintf("running mean needs every year since %d; no data for %s in %s",
@@ -301,23 +302,25 @@ func periodYear(cons Consumption, ya YearAssessment, rule Rule, scope Scope, bas
 	total := rule.ToYear - rule.FromYear + 1
 	p := &PeriodProgress{Rule: rule, YearsCounted: ya.Year - rule.FromYear + 1, Sum: sum}
 	p.YearsRemaining = total - p.YearsCounted
-	p.RunningMean = sum / float64(p.YearsCounted)
-	if baseline != 0 {
-		p.RunningPercent = p.RunningMean / baseline * 100
+	eu := unit.Exact()
+	p.RunningMean = exact.Derive(sum, exact.FromInt(int64(p.YearsCounted)), eu)
+	if !baseline.IsZero() {
+		// From the exact sum, not the rounded mean: sum × 100 / (baseline × years).
+		p.RunningPercent = exact.Derive(sum.Mul(exact.Hundred), baseline.Mul(exact.FromInt(int64(p.YearsCounted))), exact.Percent)
 	}
-	p.Budget = rule.Percent / 100 * baseline * float64(total)
-	p.RoomLeft = p.Budget - sum
+	p.Budget = derivedProduct(baseline.Percent(exact.OfFloat(rule.Percent)).Mul(exact.FromInt(int64(total))), unit)
+	p.RoomLeft = p.Budget.Sub(sum)
 	if p.YearsRemaining > 0 {
-		p.RoomPerYear = p.RoomLeft / float64(p.YearsRemaining)
+		p.RoomPerYear = exact.Derive(p.RoomLeft, exact.FromInt(int64(p.YearsRemaining)), eu)
 	}
 	ya.Period = p
 	ya.Headroom = p.RoomLeft
 	ya.Outcome = Exceeded
-	if withinTolerance(p.RoomLeft, p.Budget) {
+	if p.RoomLeft.Sign() >= 0 {
 		ya.Outcome = Within
 	}
-	ya.Notes = append(ya.Notes, fmt.Sprintf("running mean %s: %s %s a year (%.3f %% of baseline) over %s",
-		yearSpan(rule.FromYear, ya.Year), fmtAmount(p.RunningMean, unit), unit, p.RunningPercent, plural(p.YearsCounted, "year")))
+	ya.Notes = append(ya.Notes, fmt.Sprintf("running mean %s: %s %s a year (%s %% of baseline) over %s",
+		yearSpan(rule.FromYear, ya.Year), fmtAmount(p.RunningMean, unit), unit, p.RunningPercent.Fixed(3), plural(p.YearsCounted, "year")))
 	if p.YearsRemaining > 0 {
 		ya.Notes = append(ya.Notes, fmt.Sprintf("room left: %s %s for the remaining %s (%s a year on average)",
 			fmtAmount(p.RoomLeft, unit), unit, plural(p.YearsRemaining, "year"), fmtAmount(p.RoomPerYear, unit)))
@@ -326,8 +329,8 @@ func periodYear(cons Consumption, ya YearAssessment, rule Rule, scope Scope, bas
 		if ya.Outcome == Exceeded {
 			verdict = "not met"
 		}
-		ya.Notes = append(ya.Notes, fmt.Sprintf("period complete: mean %.3f %% of baseline against %s %%: %s",
-			p.RunningPercent, fmtPercent(rule.Percent), verdict))
+		ya.Notes = append(ya.Notes, fmt.Sprintf("period complete: mean %s %% of baseline against %s %%: %s",
+			p.RunningPercent.Fixed(3), fmtPercent(rule.Percent), verdict))
 	}
 	if ya.Outcome == Exceeded && p.YearsRemaining > 0 {
 		ya.Notes = append(ya.Notes, "the period's total already exceeds its budget")
@@ -349,12 +352,19 @@ func plural(n int, word string) string {
 	return fmt.Sprintf("%d %ss", n, word)
 }
 
+// derivedProduct rounds a product of a baseline (a mean, itself rounded to the unit's
+// derived places) to those places: 1937674.666666667 × 60 % is 1162604.8, not
+// 1162604.8000000002, whose last digit only repeats the rounding of the mean.
+func derivedProduct(v exact.Decimal, u Unit) exact.Decimal {
+	return v.Round(u.Exact().Spec().DerivedPlaces)
+}
+
 // fmtAmount rounds for presentation only: 0.001 for tonnes and ODP tonnes, 1 for CO2-eq.
-func fmtAmount(v float64, u Unit) string {
+func fmtAmount(v exact.Decimal, u Unit) string {
 	if u == UnitCO2eTonnes {
-		return fmt.Sprintf("%.0f", v)
+		return v.Fixed(0)
 	}
-	return fmt.Sprintf("%.3f", v)
+	return v.Fixed(3)
 }
 
 // Level is the allowed level for one year, e.g. to plan next year's quotas.
@@ -362,8 +372,8 @@ type Level struct {
 	Year      int
 	Scope     Scope
 	Unit      Unit
-	Percent   float64 // percent of baseline
-	Value     float64 // baseline × Percent / 100; the period's mean level in a period-average year
+	Percent   exact.Decimal // percent of baseline
+	Value     exact.Decimal // baseline × Percent / 100, exact; the period's mean level in a period-average year
 	Allowance Allowance
 	Baseline  *Baseline // nil when the percent is 0 and no baseline was needed
 	Notes     []string
@@ -377,7 +387,7 @@ func (rb *Rulebook) AllowedLevel(records []Record, party Party, scope Scope, yea
 	if err != nil {
 		return Level{}, err
 	}
-	lv := Level{Year: year, Scope: scope, Unit: scope.Unit(), Percent: al.Percent(), Allowance: al}
+	lv := Level{Year: year, Scope: scope, Unit: scope.Unit(), Percent: exact.OfFloat(al.Percent()), Allowance: al}
 	lv.Notes = ruleNotes(al.Step, fmt.Sprintf("step in force: %s %% of baseline from %d", fmtPercent(al.Step.Percent), al.Step.FromYear))
 	if al.Servicing != nil {
 		lv.Notes = append(lv.Notes, ruleNotes(*al.Servicing, "annual servicing cap; only servicing uses may draw on it")...)
@@ -387,7 +397,7 @@ func (rb *Rulebook) AllowedLevel(records []Record, party Party, scope Scope, yea
 			"period average %d–%d: Value is the period's mean level; single years may differ as long as the period's mean stays within it (see Assess for the room left)",
 			al.Average.FromYear, al.Average.ToYear))...)
 	}
-	if lv.Percent == 0 && al.Average == nil {
+	if lv.Percent.IsZero() && al.Average == nil {
 		if _, err := newLedger(records); err != nil {
 			return Level{}, err
 		}
@@ -401,6 +411,6 @@ func (rb *Rulebook) AllowedLevel(records []Record, party Party, scope Scope, yea
 		return Level{}, fmt.Errorf("%w: %s %s: %s", ErrIncompleteBaseline, lv.Scope, b.AppliesTo, gapList(b.Missing))
 	}
 	lv.Baseline = &b
-	lv.Value = b.Value * lv.Percent / 100
+	lv.Value = derivedProduct(b.Value.Percent(lv.Percent), lv.Unit)
 	return lv, nil
 }

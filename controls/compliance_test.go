@@ -223,7 +223,7 @@ func TestAssessPeriodAverageEnds(t *testing.T) {
 		t.Errorf("2039 = %+v; want the period complete and met", last)
 	}
 	// 2040: back to the 0 % step, no averaging; no data for 2040 → not assessed.
-	if y := a.Years[1]; y.Period != nil || y.AllowedPercent != 0 || y.Outcome != NotAssessed {
+	if y := a.Years[1]; y.Period != nil || !y.AllowedPercent.IsZero() || y.Outcome != NotAssessed {
 		t.Errorf("2040 = %+v; want 0 %% step, no period, not assessed (no data)", y)
 	}
 }

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"slices"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -23,10 +24,10 @@ const (
 // SubstanceConsumption is one substance's arithmetic in one year.
 type SubstanceConsumption struct {
 	Substance  Substance
-	Flows      Flows   // all records for the substance and year, added
-	Tonnes     float64 // calculated consumption, metric t (may be negative)
-	ODPTonnes  float64 // Tonnes × ODP
-	CO2eTonnes float64 // Tonnes × Protocol GWP
+	Flows      FlowSums      // all records for the substance and year, added exactly
+	Tonnes     exact.Decimal // calculated consumption, metric t (may be negative)
+	ODPTonnes  exact.Decimal // Tonnes × ODP, exact
+	CO2eTonnes exact.Decimal // Tonnes × Protocol GWP, exact
 }
 
 // GroupConsumption is one Annex group's consumption in one year.
@@ -34,9 +35,9 @@ type GroupConsumption struct {
 	Year       int
 	Group      substances.Group
 	Substances []SubstanceConsumption // by designation
-	Tonnes     float64
-	ODPTonnes  float64 // the figure compared for Annexes A to E
-	CO2eTonnes float64 // the figure compared for Annex F (Groups I and II together)
+	Tonnes     exact.Decimal
+	ODPTonnes  exact.Decimal // the figure compared for Annexes A to E
+	CO2eTonnes exact.Decimal // the figure compared for Annex F (Groups I and II together)
 }
 
 // Consumption is the result of Calculate.
@@ -82,7 +83,7 @@ func Calculate(records []Record, counting Counting) (Consumption, error) {
 			sc = &SubstanceConsumption{Substance: s}
 			merged[k] = sc
 		}
-		sc.Flows = sc.Flows.Add(r.Flows)
+		sc.Flows = sc.Flows.AddFlows(r.Flows)
 	}
 
 	type gkey struct {
@@ -92,8 +93,8 @@ func Calculate(records []Record, counting Counting) (Consumption, error) {
 	groups := map[gkey]*GroupConsumption{}
 	for k, sc := range merged {
 		sc.Tonnes = sc.Flows.Counted(counting == IncludeUsed)
-		sc.ODPTonnes = sc.Tonnes * sc.Substance.ODP
-		sc.CO2eTonnes = sc.Tonnes * sc.Substance.GWP
+		sc.ODPTonnes = sc.Tonnes.Mul(exact.OfFloat(sc.Substance.ODP))
+		sc.CO2eTonnes = sc.Tonnes.Mul(exact.OfFloat(sc.Substance.GWP))
 		gk := gkey{k.year, sc.Substance.Group}
 		g := groups[gk]
 		if g == nil {
@@ -107,11 +108,10 @@ func Calculate(records []Record, counting Counting) (Consumption, error) {
 		slices.SortFunc(g.Substances, func(a, b SubstanceConsumption) int {
 			return cmp.Compare(a.Substance.Designation, b.Substance.Designation)
 		})
-		// Sum in designation order so the result does not depend on map order.
 		for _, s := range g.Substances {
-			g.Tonnes += s.Tonnes
-			g.ODPTonnes += s.ODPTonnes
-			g.CO2eTonnes += s.CO2eTonnes
+			g.Tonnes = g.Tonnes.Add(s.Tonnes)
+			g.ODPTonnes = g.ODPTonnes.Add(s.ODPTonnes)
+			g.CO2eTonnes = g.CO2eTonnes.Add(s.CO2eTonnes)
 		}
 		out.Groups = append(out.Groups, *g)
 	}
@@ -146,9 +146,9 @@ func (c Consumption) Group(year int, g substances.Group) (GroupConsumption, bool
 // with true zero consumption must be passed as a record with zero flows, so that it is told
 // apart from missing data. ok is also false for a unit other than UnitTonnes,
 // UnitODPTonnes and UnitCO2eTonnes.
-func (c Consumption) Amount(year int, scope Scope, unit Unit) (amount float64, ok bool) {
+func (c Consumption) Amount(year int, scope Scope, unit Unit) (amount exact.Decimal, ok bool) {
 	if unit != UnitTonnes && unit != UnitODPTonnes && unit != UnitCO2eTonnes {
-		return 0, false
+		return exact.Zero, false
 	}
 	for _, g := range scope.Groups() {
 		gc, found := c.Group(year, g)
@@ -158,11 +158,11 @@ func (c Consumption) Amount(year int, scope Scope, unit Unit) (amount float64, o
 		ok = true
 		switch unit {
 		case UnitTonnes:
-			amount += gc.Tonnes
+			amount = amount.Add(gc.Tonnes)
 		case UnitODPTonnes:
-			amount += gc.ODPTonnes
+			amount = amount.Add(gc.ODPTonnes)
 		case UnitCO2eTonnes:
-			amount += gc.CO2eTonnes
+			amount = amount.Add(gc.CO2eTonnes)
 		}
 	}
 	return amount, ok

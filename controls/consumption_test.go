@@ -5,6 +5,7 @@ import (
 	"slices"
 	"testing"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -121,7 +122,7 @@ func TestCalculateSubstanceBreakdown(t *testing.T) {
 	if _, ok := c.Amount(2016, ScopeCI, Unit("kg")); ok {
 		t.Error("Amount with an unknown unit should report ok = false")
 	}
-	if amt, ok := c.Amount(2016, ScopeF, UnitCO2eTonnes); ok || amt != 0 {
+	if amt, ok := c.Amount(2016, ScopeF, UnitCO2eTonnes); ok || !amt.IsZero() {
 		t.Errorf("Amount(2016, F) = %v, %v; want 0, false (no HFC record in 2016)", amt, ok)
 	}
 }
@@ -141,7 +142,7 @@ func TestBlendCountedPerComponent(t *testing.T) {
 	byDes := map[string]Substance{"HFC-125": hfc125, "R-290": propane, "HCFC-22": hcfc22}
 	var records []Record
 	for _, p := range parts {
-		near(t, p.Designation+" tonnes", p.Tonnes, want[p.Designation], tolT)
+		near(t, p.Designation+" tonnes", exact.OfFloat(p.Tonnes), want[p.Designation], tolT)
 		records = append(records, rec(2024, byDes[p.Designation], Flows{Imports: p.Tonnes}))
 	}
 	// Pure HCFC-22 imported the same year (1 t) adds to the component's 3.8 t.
@@ -152,6 +153,7 @@ func TestBlendCountedPerComponent(t *testing.T) {
 	}
 	ci, _ := c.Group(2024, substances.GroupCI)
 	near(t, "C/I ODP t", ci.ODPTonnes, 4.8*0.055, tolODP) // (3.8 + 1) × 0.055 = 0.264
+	exactly(t, "C/I ODP t", ci.ODPTonnes, "0.264")
 	f, ok := c.Amount(2024, ScopeF, UnitCO2eTonnes)
 	if !ok {
 		t.Fatal("no Annex F consumption")
@@ -161,8 +163,8 @@ func TestBlendCountedPerComponent(t *testing.T) {
 		t.Errorf("Uncontrolled = %v, want [R-290]", c.Uncontrolled)
 	}
 	scaled := Flows{Imports: 10, Exports: 5}.Scaled(0.38)
-	near(t, "scaled imports", scaled.Imports, 3.8, tolT)
-	near(t, "scaled exports", scaled.Exports, 1.9, tolT)
+	near(t, "scaled imports", exact.OfFloat(scaled.Imports), 3.8, tolT)
+	near(t, "scaled exports", exact.OfFloat(scaled.Exports), 1.9, tolT)
 }
 
 func TestSplitMassRejects(t *testing.T) {

@@ -30,11 +30,11 @@ func ExampleRulebook_Assess() {
 		panic(err)
 	}
 	y := a.Years[0]
-	fmt.Printf("baseline %.3f %s (%s)\n", a.Baseline.Value, a.Unit, a.Baseline.RuleText())
-	fmt.Printf("%d: consumption %.3f, allowed %.4f (%g %%), headroom %.4f: %s\n",
+	fmt.Printf("baseline %s %s (%s)\n", a.Baseline.Value, a.Unit, a.Baseline.RuleText())
+	fmt.Printf("%d: consumption %s, allowed %s (%s %%), headroom %s: %s\n",
 		y.Year, y.Consumption, y.Allowed, y.AllowedPercent, y.Headroom, y.Outcome)
 	// Output:
-	// baseline 77.500 ODP t (Art. 2F para 1 [V])
+	// baseline 77.5 ODP t (Art. 2F para 1 [V])
 	// 2025: consumption 0.275, allowed 0.3875 (0.5 %), headroom 0.1125: within
 }
 
@@ -56,12 +56,12 @@ func ExamplePlanQuotas() {
 		panic(err)
 	}
 	for _, q := range plan.Quotas {
-		fmt.Printf("%s %.3f\n", q.CompanyID, q.Amount)
+		fmt.Printf("%s %s\n", q.CompanyID, q.Amount)
 	}
-	fmt.Printf("distributed %.3f of %.3f\n", plan.Distributed, plan.Distributable)
+	fmt.Printf("distributed %s of %s\n", plan.Distributed, plan.Distributable)
 	// Output:
 	// QM-importer-1 5.786
 	// QM-importer-2 1.928
 	// QM-importer-3 1.286
-	// distributed 9.000 of 9.000
+	// distributed 9 of 9
 }

@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"testing"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -42,11 +43,27 @@ var (
 
 func rec(year int, s Substance, f Flows) Record { return Record{Year: year, Substance: s, Flows: f} }
 
-func near(t *testing.T, what string, got, want, tol float64) {
+// near checks an exact figure against a value within a reporting tolerance.
+func near(t *testing.T, what string, got exact.Decimal, want, tol float64) {
 	t.Helper()
-	if math.IsNaN(got) || math.Abs(got-want) > tol {
-		t.Errorf("%s = %.6f, want %.6f (±%g)", what, got, want, tol)
+	if g := got.Float64(); math.IsNaN(g) || math.Abs(g-want) > tol {
+		t.Errorf("%s = %s, want %.6f (±%g)", what, got, want, tol)
 	}
+}
+
+// exactly checks an exact figure against its decimal.
+func exactly(t *testing.T, what string, got exact.Decimal, want string) {
+	t.Helper()
+	if !got.Equal(exact.MustParse(want)) {
+		t.Errorf("%s = %s, want exactly %s", what, got, want)
+	}
+}
+
+// wantYear is a base year's expected amount.
+type wantYear struct {
+	Year    int
+	Amount  float64
+	HasData bool
 }
 
 func mustRulebook(t testing.TB) *Rulebook {

@@ -5,6 +5,7 @@ import (
 	"math"
 	"strings"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -92,6 +93,46 @@ func (f Flows) Counted(countUsed bool) float64 {
 		t += f.UsedImports - f.UsedExports
 	}
 	return t
+}
+
+// FlowSums are one substance's flows in one year added exactly: each record's flows are
+// read as the decimals they were stored as (exact.OfFloat) and summed in decimal
+// arithmetic, so a sum of 0.1 t and 0.2 t is 0.3 t.
+type FlowSums struct {
+	Production, Imports, Exports, ExportsNonParty, Destruction, Feedstock, QPS exact.Decimal
+	UsedImports, UsedExports, Transit                                          exact.Decimal
+}
+
+// AddFlows returns s plus f, exactly.
+func (s FlowSums) AddFlows(f Flows) FlowSums {
+	d := exact.OfFloat
+	return FlowSums{
+		Production:      s.Production.Add(d(f.Production)),
+		Imports:         s.Imports.Add(d(f.Imports)),
+		Exports:         s.Exports.Add(d(f.Exports)),
+		ExportsNonParty: s.ExportsNonParty.Add(d(f.ExportsNonParty)),
+		Destruction:     s.Destruction.Add(d(f.Destruction)),
+		Feedstock:       s.Feedstock.Add(d(f.Feedstock)),
+		QPS:             s.QPS.Add(d(f.QPS)),
+		UsedImports:     s.UsedImports.Add(d(f.UsedImports)),
+		UsedExports:     s.UsedExports.Add(d(f.UsedExports)),
+		Transit:         s.Transit.Add(d(f.Transit)),
+	}
+}
+
+// Counted is Flows.Counted in exact arithmetic.
+func (s FlowSums) Counted(countUsed bool) exact.Decimal {
+	t := exact.Sum(s.Production, s.Imports).Sub(exact.Sum(s.Exports, s.Destruction, s.Feedstock, s.QPS))
+	if countUsed {
+		t = t.Add(s.UsedImports).Sub(s.UsedExports)
+	}
+	return t
+}
+
+// NotCounted is what the arithmetic leaves out: used, recycled and reclaimed trade, and
+// transit.
+func (s FlowSums) NotCounted() exact.Decimal {
+	return exact.Sum(s.UsedImports, s.UsedExports, s.Transit)
 }
 
 func (f Flows) fields() []struct {

@@ -2,6 +2,8 @@ package controls
 
 import (
 	"fmt"
+
+	"github.com/halovet/halovet/exact"
 	"slices"
 	"strings"
 )
@@ -77,8 +79,8 @@ type Overrides struct {
 	Exemptions map[int][]Exemption
 }
 
-// exempted sums a year's exemptions in a stable order.
-func (o Overrides) exempted(year int) (float64, []Exemption) {
+// exempted sums a year's exemptions exactly, in a stable order.
+func (o Overrides) exempted(year int) (exact.Decimal, []Exemption) {
 	es := slices.Clone(o.Exemptions[year])
 	slices.SortFunc(es, func(a, b Exemption) int {
 		if c := strings.Compare(string(a.Use), string(b.Use)); c != 0 {
@@ -86,9 +88,9 @@ func (o Overrides) exempted(year int) (float64, []Exemption) {
 		}
 		return strings.Compare(a.Source, b.Source)
 	})
-	sum := 0.0
+	sum := exact.Zero
 	for _, e := range es {
-		sum += e.Amount
+		sum = sum.Add(exact.OfFloat(e.Amount))
 	}
 	return sum, es
 }

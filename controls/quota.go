@@ -7,6 +7,8 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // CompanyReference is one company's reference amounts by year (e.g. its recorded imports in
@@ -33,22 +35,22 @@ type QuotaRequest struct {
 // Quota is one company's proposal.
 type Quota struct {
 	CompanyID      string
-	Reference      float64 // sum of the company's amounts over the reference years
-	ReferenceShare float64 // Reference / sum of all references
-	ExactShare     float64 // Distributable × ReferenceShare, before rounding to whole units
-	Units          int64   // whole granularity units allocated
-	Amount         float64 // Units × Granularity
+	Reference      exact.Decimal // sum of the company's amounts over the reference years, exact
+	ReferenceShare exact.Decimal // Reference / sum of all references, to 6 places (exact.Ratio)
+	ExactShare     exact.Decimal // Distributable × Reference / sum, before rounding to whole units; to 9 places
+	Units          int64         // whole granularity units allocated
+	Amount         exact.Decimal // Units × Granularity, exact
 }
 
 // QuotaPlan is the result of PlanQuotas.
 type QuotaPlan struct {
-	Total         float64
-	Fraction      float64
-	Distributable float64 // Total × Fraction
-	Granularity   float64
-	Units         int64   // units distributed: floor(Distributable / Granularity)
-	Distributed   float64 // Units × Granularity; never above Distributable
-	Quotas        []Quota // by company id
+	Total         exact.Decimal
+	Fraction      exact.Decimal
+	Distributable exact.Decimal // Total × Fraction, exact
+	Granularity   exact.Decimal
+	Units         int64         // units distributed: floor(Distributable / Granularity)
+	Distributed   exact.Decimal // Units × Granularity, exact; never above Distributable
+	Quotas        []Quota       // by company id
 }
 
 // PlanQuotas distributes floor(Total × Fraction / Granularity) whole units of Granularity
@@ -90,7 +92,6 @@ func PlanQuotas(req QuotaRequest) (QuotaPlan, error) {
 	type entry struct {
 		id        string
 		ref       *big.Rat
-		refF      float64
 		exact     *big.Rat // share in units
 		units     *big.Int
 		remainder *big.Rat
@@ -117,8 +118,7 @@ func PlanQuotas(req QuotaRequest) (QuotaPlan, error) {
 			ref.Add(ref, decimal(v))
 		}
 		sum.Add(sum, ref)
-		rf, _ := ref.Float64()
-		entries[i] = &entry{id: id, ref: ref, refF: rf}
+		entries[i] = &entry{id: id, ref: ref}
 	}
 	if sum.Sign() == 0 {
 		return QuotaPlan{}, fmt.Errorf("%w: every company's reference amount over the years %v is zero, so there is no share to distribute by; nothing was distributed. Choose reference years with recorded amounts, or set the quotas explicitly",
@@ -158,19 +158,20 @@ func PlanQuotas(req QuotaRequest) (QuotaPlan, error) {
 		left--
 	}
 
-	plan := QuotaPlan{Total: req.Total, Fraction: req.Fraction, Granularity: req.Granularity}
-	plan.Distributable, _ = dist.Float64()
+	plan := QuotaPlan{Total: ratDecimal(decimal(req.Total)), Fraction: ratDecimal(decimal(req.Fraction)),
+		Granularity: ratDecimal(gran), Distributable: ratDecimal(dist)}
 	total := new(big.Int)
 	for _, e := range entries {
 		total.Add(total, e.units)
 	}
 	plan.Units = total.Int64() // equals floor(Distributable / Granularity); see the doc comment
-	plan.Distributed, _ = new(big.Rat).Mul(new(big.Rat).SetInt(total), gran).Float64()
+	plan.Distributed = ratDecimal(new(big.Rat).Mul(new(big.Rat).SetInt(total), gran))
+	shareUnit := exact.Ratio.Spec().DerivedPlaces
 	for _, e := range entries {
-		q := Quota{CompanyID: e.id, Reference: e.refF, Units: e.units.Int64()}
-		q.ReferenceShare, _ = new(big.Rat).Quo(e.ref, sum).Float64()
-		q.ExactShare, _ = new(big.Rat).Mul(e.exact, gran).Float64()
-		q.Amount, _ = new(big.Rat).Mul(new(big.Rat).SetInt(e.units), gran).Float64()
+		q := Quota{CompanyID: e.id, Reference: ratDecimal(e.ref), Units: e.units.Int64()}
+		q.ReferenceShare = ratRound(new(big.Rat).Quo(e.ref, sum), shareUnit)
+		q.ExactShare = ratRound(new(big.Rat).Mul(e.exact, gran), exact.Tonnes.Spec().DerivedPlaces)
+		q.Amount = ratDecimal(new(big.Rat).Mul(new(big.Rat).SetInt(e.units), gran))
 		plan.Quotas = append(plan.Quotas, q)
 	}
 	slices.SortFunc(plan.Quotas, func(a, b Quota) int { return cmp.Compare(a.CompanyID, b.CompanyID) })
@@ -184,6 +185,37 @@ func decimal(v float64) *big.Rat {
 		r = new(big.Rat).SetFloat64(v)
 	}
 	return r
+}
+
+// ratDecimal writes r, a sum or product of decimals (a finite decimal), as an exact.Decimal.
+func ratDecimal(r *big.Rat) exact.Decimal {
+	return exact.MustParse(r.FloatString(ratPlaces(r)))
+}
+
+// ratPlaces is the number of decimals that write r exactly when its denominator has no
+// prime factor but 2 and 5, else 30 (more than any figure keeps).
+func ratPlaces(r *big.Rat) int {
+	d := new(big.Int).Set(r.Denom())
+	two, five, zero := big.NewInt(2), big.NewInt(5), new(big.Int)
+	p2, p5 := 0, 0
+	m := new(big.Int)
+	for m.Mod(d, two).Cmp(zero) == 0 {
+		d.Quo(d, two)
+		p2++
+	}
+	for m.Mod(d, five).Cmp(zero) == 0 {
+		d.Quo(d, five)
+		p5++
+	}
+	if d.Cmp(big.NewInt(1)) != 0 {
+		return 30
+	}
+	return max(p2, p5)
+}
+
+// ratRound writes r rounded half away from zero to places decimals.
+func ratRound(r *big.Rat, places int32) exact.Decimal {
+	return exact.MustParse(r.FloatString(int(places) + 1)).Round(places)
 }
 
 // floorRat is ⌊r⌋ for r ≥ 0.

@@ -6,6 +6,7 @@ import (
 	"slices"
 	"strings"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -411,6 +412,10 @@ func GapText(g Gap, records []Record, years []int) string {
 	}
 	return s + fmt.Sprintf("; enter the %d totals per substance as national entries (historical imports and exports, production)", g.Year)
 }
+
+// FormatExact prints a figure for notes as FormatTonnes does: up to 6 decimals, trailing
+// zeros dropped.
+func FormatExact(v exact.Decimal) string { return v.Round(6).String() }
 
 // FormatTonnes prints tonnes for notes: up to 6 decimals, trailing zeros dropped.
 func FormatTonnes(v float64) string {

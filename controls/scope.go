@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"strings"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -38,6 +39,17 @@ const (
 	UnitODPTonnes  Unit = "ODP t"    // metric tonnes × ODP
 	UnitCO2eTonnes Unit = "CO2-eq t" // metric tonnes × Protocol GWP
 )
+
+// Exact returns the row of exact.Units the unit's figures are shown and derived with.
+func (u Unit) Exact() exact.Unit {
+	switch u {
+	case UnitODPTonnes:
+		return exact.ODPTonnes
+	case UnitCO2eTonnes:
+		return exact.CO2eTonnes
+	}
+	return exact.Tonnes
+}
 
 // ParseScope reads a scope name; "F/I" and "F/II" are accepted as "F", since the HFC
 // control measures apply to Annex F as a whole.

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/terms"
 )
@@ -283,14 +284,14 @@ func (c *Consumption) GetConsumption(ctx context.Context, year int, annexGroup s
 		} else {
 			return err
 		}
-		used := 0.0
+		used := exact.Zero
 		for _, g := range cons.Groups {
 			if !keep(g.Group) {
 				continue
 			}
 			for _, sc := range g.Substances {
 				// A substance with all flows 0 is a stated zero (a 0 t entry): data, shown.
-				used += sc.Flows.UsedImports + sc.Flows.UsedExports
+				used = exact.Sum(used, sc.Flows.UsedImports, sc.Flows.UsedExports)
 			}
 			out.Groups = append(out.Groups, g)
 		}
@@ -308,8 +309,8 @@ func (c *Consumption) GetConsumption(ctx context.Context, year int, annexGroup s
 		if len(noData) > 0 {
 			out.Notes = append(out.Notes, "no data (not zero) for "+strings.Join(noData, ", ")+": a group without a recorded shipment or a national entry in the year has no data; enter 0 t to state a true zero")
 		}
-		if used != 0 {
-			out.Notes = append(out.Notes, fmt.Sprintf("%s t of used, recycled or reclaimed imports and exports are reported but not counted (Decision IV/24, if reported under Article 7); they do count in an Article 5 Party's base-year consumption", controls.FormatTonnes(used)))
+		if !used.IsZero() {
+			out.Notes = append(out.Notes, fmt.Sprintf("%s t of used, recycled or reclaimed imports and exports are reported but not counted (Decision IV/24, if reported under Article 7); they do count in an Article 5 Party's base-year consumption", controls.FormatExact(used)))
 		}
 		if len(cons.Uncontrolled) > 0 {
 			out.Notes = append(out.Notes, "uncontrolled components left out: "+strings.Join(cons.Uncontrolled, ", "))

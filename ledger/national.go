@@ -12,6 +12,7 @@ import (
 	"unicode/utf8"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -432,7 +433,8 @@ func (x *Figures) RecordHFC23Entries(ctx context.Context, in []HFC23Entry) ([]HF
 		}{{"generated_tonnes", se.Generated}, {"captured_used_tonnes", se.CapturedUsed}, {"destroyed_tonnes", se.Destroyed}, {"emitted_tonnes", se.Emitted}} {
 			b.tonnes(f+"."+q.name, q.v)
 		}
-		if parts := se.CapturedUsed + se.Destroyed + se.Emitted; parts > se.Generated*(1+1e-9)+1e-9 {
+		d := exact.OfFloat
+		if parts := exact.Sum(d(se.CapturedUsed), d(se.Destroyed), d(se.Emitted)); parts.Cmp(d(se.Generated)) > 0 {
 			b.addf(f+".generated_tonnes", "is %v t, less than captured + destroyed + emitted = %v t; what leaves a facility cannot exceed what it generated", se.Generated, parts)
 		}
 		se.Note = b.note(f+".note", e.Note)

@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 )
 
 // Quota planning: next year's allowed level, split among the companies in proportion to
@@ -103,14 +104,14 @@ func (q QuotaPlanRequest) validate() (controls.Scope, []int, float64, float64, e
 		fraction = 1
 	}
 	if math.IsNaN(fraction) || fraction <= 0 || fraction > 1 {
-		vs = append(vs, FieldViolation{"fraction", fmt.Sprintf("is %v; accepted: a number above 0 and at most 1 (0 means 1)", q.Fraction)})
+		vs = append(vs, FieldViolation{"fraction_ratio", fmt.Sprintf("is %v; accepted: a decimal above 0 and at most 1 (absent means 1)", q.Fraction)})
 	}
 	gran := q.Granularity
 	if gran == 0 {
 		gran = DefaultQuotaGranularity
 	}
 	if math.IsNaN(gran) || math.IsInf(gran, 0) || gran <= 0 {
-		vs = append(vs, FieldViolation{"granularity", fmt.Sprintf("is %v; accepted: an amount above 0, e.g. 0.001 (0 means 0.001)", q.Granularity)})
+		vs = append(vs, FieldViolation{"granularity_amount", fmt.Sprintf("is %v; accepted: a decimal amount above 0, e.g. 0.001 (absent means 0.001)", q.Granularity)})
 	}
 	return scope, years, fraction, gran, invalid(vs...)
 }
@@ -197,7 +198,7 @@ func (c *Consumption) plan(ctx context.Context, scope controls.Scope, year int, 
 				"no company has recorded imports of %s counting in consumption in %v, so there is no share to distribute by; choose other reference years, or set quotas by hand",
 				scope, years))
 		}
-		plan, err := controls.PlanQuotas(controls.QuotaRequest{Total: lv.Value, Fraction: fraction, Granularity: gran,
+		plan, err := controls.PlanQuotas(controls.QuotaRequest{Total: lv.Value.Float64(), Fraction: fraction, Granularity: gran,
 			ReferenceYears: years, Companies: comps})
 		var fe *controls.FieldError
 		switch {
@@ -229,11 +230,11 @@ func (c *Consumption) issueDrafts(ctx context.Context, plan *QuotaPlan) error {
 	var drafts []DraftLicence
 	var at []int
 	for i, p := range plan.Proposals {
-		if p.Amount <= 0 {
+		if p.Amount.Sign() <= 0 {
 			continue // nothing to licence
 		}
 		drafts = append(drafts, DraftLicence{Number: DraftLicenceNumber(plan.Scope, plan.Year, p.CompanyID), CompanyID: p.CompanyID,
-			Year: plan.Year, AnnexGroup: group, Unit: QuotaUnitOf(plan.Scope), Quota: p.Amount})
+			Year: plan.Year, AnnexGroup: group, Unit: QuotaUnitOf(plan.Scope), Quota: p.Amount.Float64()})
 		at = append(at, i)
 	}
 	if len(drafts) == 0 {
@@ -267,22 +268,22 @@ func officialLevel(rb *controls.Rulebook, party controls.Party, scope controls.S
 		if aerr != nil {
 			return lv, aerr
 		}
-		lv = controls.Level{Year: year, Scope: scope, Unit: scope.Unit(), Percent: al.Percent(), Allowance: al}
+		lv = controls.Level{Year: year, Scope: scope, Unit: scope.Unit(), Percent: exact.OfFloat(al.Percent()), Allowance: al}
 		err = nil
 	}
 	if err != nil {
 		return lv, err
 	}
 	unit := string(lv.Unit)
-	if ov.Baseline != nil && lv.Percent > 0 {
-		lv.Value = ov.Baseline.Value * lv.Percent / 100
+	if ov.Baseline != nil && lv.Percent.Sign() > 0 {
+		lv.Value = exact.OfFloat(ov.Baseline.Value).Percent(lv.Percent).Round(lv.Unit.Exact().Spec().DerivedPlaces)
 		lv.Notes = append(lv.Notes, fmt.Sprintf("baseline as officially set: %s %s (%s); the level is %s %% of it",
-			controls.FormatTonnes(ov.Baseline.Value), unit, ov.Baseline.Source, controls.FormatTonnes(lv.Percent)))
+			controls.FormatTonnes(ov.Baseline.Value), unit, ov.Baseline.Source, controls.FormatExact(lv.Percent)))
 	}
 	if lim, ok := ov.Limits[year]; ok {
 		lv.Notes = append(lv.Notes, fmt.Sprintf("limit as officially set: %s %s (%s), in place of the schedule's %s %s",
-			controls.FormatTonnes(lim.Value), unit, lim.Source, controls.FormatTonnes(lv.Value), unit))
-		lv.Value = lim.Value
+			controls.FormatTonnes(lim.Value), unit, lim.Source, controls.FormatExact(lv.Value), unit))
+		lv.Value = exact.OfFloat(lim.Value)
 	}
 	if len(ov.Exemptions[year]) > 0 {
 		lv.Notes = append(lv.Notes, "the year's authorised exemptions are not distributed here: license them on quota lines limited to their use")

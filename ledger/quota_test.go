@@ -9,6 +9,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/ledger"
 	"github.com/halovet/halovet/pglocal/pgtest"
 	"github.com/halovet/halovet/service"
@@ -89,10 +90,10 @@ func record(t *testing.T, st *store.Store, key, company string, tonnes float64) 
 	}
 }
 
-func near(t *testing.T, what string, got, want float64) {
+func near(t *testing.T, what string, got exact.Decimal, want float64) {
 	t.Helper()
-	if math.Abs(got-want) > 1e-9 {
-		t.Errorf("%s = %.9f, want %.9f", what, got, want)
+	if math.Abs(got.Float64()-want) > 1e-9 {
+		t.Errorf("%s = %s, want %.9f", what, got, want)
 	}
 }
 
@@ -122,7 +123,7 @@ func TestPlanQuotasIssuesDrafts(t *testing.T) {
 		if l.Status != terms.LicenceDraft || len(l.QuotaLines) != 1 || l.QuotaLines[0].Unit != terms.QuotaODPTonnes {
 			t.Errorf("draft %+v: want a draft with one ODP t line", l)
 		}
-		near(t, q.DraftLicenceNumber+" allocated", l.QuotaLines[0].Allocated, want[q.CompanyID])
+		near(t, q.DraftLicenceNumber+" allocated", exact.OfFloat(l.QuotaLines[0].Allocated), want[q.CompanyID])
 	}
 	// Planning again with half the level amends both drafts in place.
 	half := plan2026
@@ -135,7 +136,7 @@ func TestPlanQuotasIssuesDrafts(t *testing.T) {
 		t.Fatal(err)
 	}
 	// 357.5 units: exact 268.125 and 89.375; floors 268 + 89 = 357, no unit left over.
-	near(t, "re-planned XA-1001", l.QuotaLines[0].Allocated, 0.268)
+	near(t, "re-planned XA-1001", exact.OfFloat(l.QuotaLines[0].Allocated), 0.268)
 }
 
 // TestPlanQuotasAllOrNothing: one draft of the plan cannot be stored (a licence of its
@@ -160,7 +161,7 @@ func TestPlanQuotasAllOrNothing(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	near(t, "active licence left as it was", l.QuotaLines[0].Allocated, 0.05)
+	near(t, "active licence left as it was", exact.OfFloat(l.QuotaLines[0].Allocated), 0.05)
 }
 
 // TestPlanQuotasAmendsOnlyDrafts: while a planner re-plans, another transaction activates
@@ -221,7 +222,7 @@ func TestPlanQuotasAmendsOnlyDrafts(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		near(t, n+" after the refused re-plan", l.QuotaLines[0].Allocated, want)
+		near(t, n+" after the refused re-plan", exact.OfFloat(l.QuotaLines[0].Allocated), want)
 	}
 }
 
@@ -254,8 +255,8 @@ func TestPlanQuotasRefusesBadFields(t *testing.T) {
 	for _, v := range ie.Violations {
 		fields = append(fields, v.Field)
 	}
-	if got := strings.Join(fields, ","); got != "year,reference_years[1],fraction,granularity" {
-		t.Errorf("fields %s; want year,reference_years[1],fraction,granularity", got)
+	if got := strings.Join(fields, ","); got != "year,reference_years[1],fraction_ratio,granularity_amount" {
+		t.Errorf("fields %s; want year,reference_years[1],fraction_ratio,granularity_amount", got)
 	}
 	if _, err := cons.PlanQuotas(context.Background(), ledger.QuotaPlanRequest{AnnexGroup: "Z/IX"}); !errors.As(err, &ie) || ie.Violations[0].Field != "annex_group" {
 		t.Errorf("bad scope: %v; want annex_group named", err)

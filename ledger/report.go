@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
 
@@ -22,12 +23,12 @@ type TradeLine struct {
 	Substance         string
 	AnnexGroup        string
 	PartnerNonParty   bool
-	NewTonnes         float64
-	RecoveredTonnes   float64 // used, recycled or reclaimed
-	FeedstockTonnes   float64
-	DestructionTonnes float64
-	QPSTonnes         float64
-	ExemptedTonnes    float64
+	NewTonnes         exact.Decimal
+	RecoveredTonnes   exact.Decimal // used, recycled or reclaimed
+	FeedstockTonnes   exact.Decimal
+	DestructionTonnes exact.Decimal
+	QPSTonnes         exact.Decimal
+	ExemptedTonnes    exact.Decimal
 	ShipmentIDs       []int64
 	EntryKeys         []string
 }
@@ -38,7 +39,7 @@ type QuantityLine struct {
 	Substance   string
 	AnnexGroup  string
 	Basis       string
-	Tonnes      float64
+	Tonnes      exact.Decimal
 	ShipmentIDs []int64
 	EntryKeys   []string
 }
@@ -47,9 +48,9 @@ type QuantityLine struct {
 type GroupTotal struct {
 	AnnexGroup                                                     substances.Group
 	HasData                                                        bool
-	Production, Imports, Exports, Destruction, Feedstock, QPS      float64
-	ExportsNonParty                                                float64
-	ConsumptionTonnes, ConsumptionODPTonnes, ConsumptionCO2eTonnes float64
+	Production, Imports, Exports, Destruction, Feedstock, QPS      exact.Decimal
+	ExportsNonParty                                                exact.Decimal
+	ConsumptionTonnes, ConsumptionODPTonnes, ConsumptionCO2eTonnes exact.Decimal
 }
 
 // YearReport is the report of one reporting year.
@@ -76,11 +77,11 @@ type YearReport struct {
 // reportSub is one substance's arithmetic in the report.
 type reportSub struct {
 	sub                                                             controls.Substance
-	production, imports, exports, exportsNP, destruction, feed, qps float64
+	production, imports, exports, exportsNP, destruction, feed, qps exact.Decimal
 }
 
-func (r *reportSub) tonnes() float64 {
-	return r.production + r.imports - r.exports - r.destruction - r.feed - r.qps
+func (r *reportSub) tonnes() exact.Decimal {
+	return exact.Sum(r.production, r.imports).Sub(exact.Sum(r.exports, r.destruction, r.feed, r.qps))
 }
 
 type tradeKey struct {
@@ -105,7 +106,7 @@ type yearReportBuilder struct {
 	exports map[tradeKey]*TradeLine
 	qty     map[string]map[qtyKey]*QuantityLine
 	uses    map[controls.UseKey]float64
-	transit float64
+	transit exact.Decimal
 }
 
 func (b *yearReportBuilder) addNote(n string) {
@@ -153,19 +154,19 @@ func (b *yearReportBuilder) quantity(kind string, r *reportSub, basis string) *Q
 
 // purposeTonnes adds m to the trade line's column for purpose and reports which
 // deducted use, if any, it is ("feedstock", "destruction", "qps").
-func purposeTonnes(tl *TradeLine, purpose string, g substances.Group, m float64) string {
+func purposeTonnes(tl *TradeLine, purpose string, g substances.Group, m exact.Decimal) string {
 	switch {
 	case purpose == "feedstock" || purpose == "process-agent":
-		tl.FeedstockTonnes += m
+		tl.FeedstockTonnes = tl.FeedstockTonnes.Add(m)
 		return "feedstock"
 	case purpose == "destruction":
-		tl.DestructionTonnes += m
+		tl.DestructionTonnes = tl.DestructionTonnes.Add(m)
 		return "destruction"
 	case purpose == "qps" && g == substances.GroupEI:
-		tl.QPSTonnes += m
+		tl.QPSTonnes = tl.QPSTonnes.Add(m)
 		return "qps"
 	case exemptedPurpose(purpose):
-		tl.ExemptedTonnes += m
+		tl.ExemptedTonnes = tl.ExemptedTonnes.Add(m)
 	}
 	return ""
 }
@@ -175,49 +176,49 @@ func (b *yearReportBuilder) shipment(l ShipmentLine) error {
 	if err != nil || !ok {
 		return err
 	}
-	m := l.Tonnes
+	m := exact.OfFloat(l.Tonnes)
 	switch l.Direction {
 	case "transit":
-		b.transit += m
+		b.transit = b.transit.Add(m)
 	case "import":
 		tl := b.trade(b.imports, l.PartnerCountry, r, l.PartnerNonParty)
 		tl.ShipmentIDs = append(tl.ShipmentIDs, l.ShipmentIDs...)
 		if controls.Recovered(l.Condition) {
-			tl.RecoveredTonnes += m
+			tl.RecoveredTonnes = tl.RecoveredTonnes.Add(m)
 			return nil
 		}
-		tl.NewTonnes += m
-		r.imports += m
+		tl.NewTonnes = tl.NewTonnes.Add(m)
+		r.imports = r.imports.Add(m)
 		if kind := purposeTonnes(tl, l.Purpose, r.sub.Group, m); kind != "" {
 			switch kind {
 			case "feedstock":
-				r.feed += m
+				r.feed = r.feed.Add(m)
 			case "destruction":
-				r.destruction += m
+				r.destruction = r.destruction.Add(m)
 			case "qps":
-				r.qps += m
+				r.qps = r.qps.Add(m)
 			}
 			q := b.quantity(kind, r, "shipments")
-			q.Tonnes += m
+			q.Tonnes = q.Tonnes.Add(m)
 			q.ShipmentIDs = append(q.ShipmentIDs, l.ShipmentIDs...)
 		}
 		if u := controls.ShipmentUse(l.Direction, l.Purpose, l.Condition, r.sub.Group); u != "" {
-			b.uses[controls.UseKey{Year: b.year, Substance: r.sub.Designation, Use: u}] += m
+			b.uses[controls.UseKey{Year: b.year, Substance: r.sub.Designation, Use: u}] += l.Tonnes
 		}
 	case "export", "re-export":
 		np := l.PartnerNonParty && b.year >= controls.NonPartyExportsFrom
 		tl := b.trade(b.exports, l.PartnerCountry, r, np)
 		tl.ShipmentIDs = append(tl.ShipmentIDs, l.ShipmentIDs...)
 		if controls.Recovered(l.Condition) {
-			tl.RecoveredTonnes += m
+			tl.RecoveredTonnes = tl.RecoveredTonnes.Add(m)
 			return nil
 		}
-		tl.NewTonnes += m
+		tl.NewTonnes = tl.NewTonnes.Add(m)
 		purposeTonnes(tl, l.Purpose, r.sub.Group, m)
 		if np {
-			r.exportsNP += m
+			r.exportsNP = r.exportsNP.Add(m)
 		} else {
-			r.exports += m
+			r.exports = r.exports.Add(m)
 		}
 	default:
 		return fmt.Errorf("recorded shipments of %s in %d have direction %q, which the report does not know", l.Designation, b.year, l.Direction)
@@ -230,7 +231,7 @@ func (b *yearReportBuilder) entry(t controls.NationalTotal) error {
 	if err != nil || !ok {
 		return err
 	}
-	m := t.Tonnes
+	m := exact.OfFloat(t.Tonnes)
 	basis := "whole-year"
 	if t.OutsideCustoms {
 		basis = "outside-customs"
@@ -244,37 +245,37 @@ func (b *yearReportBuilder) entry(t controls.NationalTotal) error {
 	var q *QuantityLine
 	switch t.Kind {
 	case controls.EntryProduction:
-		r.production += m
+		r.production = r.production.Add(m)
 		q = b.quantity("production", r, "national-entry")
 	case controls.EntryDestruction:
-		r.destruction += m
+		r.destruction = r.destruction.Add(m)
 		q = b.quantity("destruction", r, basis)
 	case controls.EntryFeedstock:
-		r.feed += m
+		r.feed = r.feed.Add(m)
 		q = b.quantity("feedstock", r, basis)
 	case controls.EntryQPS:
-		r.qps += m
+		r.qps = r.qps.Add(m)
 		q = b.quantity("qps", r, basis)
 	case controls.EntryHistoricalImport:
 		tl := b.trade(b.imports, "", r, false)
-		tl.NewTonnes += m
+		tl.NewTonnes = tl.NewTonnes.Add(m)
 		tl.EntryKeys = append(tl.EntryKeys, t.Keys...)
-		r.imports += m
+		r.imports = r.imports.Add(m)
 	case controls.EntryHistoricalExport, controls.EntryHistoricalExportNonParty:
 		np := t.Kind == controls.EntryHistoricalExportNonParty && b.year >= controls.NonPartyExportsFrom
 		tl := b.trade(b.exports, "", r, np)
-		tl.NewTonnes += m
+		tl.NewTonnes = tl.NewTonnes.Add(m)
 		tl.EntryKeys = append(tl.EntryKeys, t.Keys...)
 		if np {
-			r.exportsNP += m
+			r.exportsNP = r.exportsNP.Add(m)
 		} else {
-			r.exports += m
+			r.exports = r.exports.Add(m)
 		}
 	default:
 		return fmt.Errorf("national entries of %s in %d have kind %q, which the report does not know", t.Substance, b.year, t.Kind)
 	}
 	if q != nil {
-		q.Tonnes += m
+		q.Tonnes = q.Tonnes.Add(m)
 		q.EntryKeys = append(q.EntryKeys, t.Keys...)
 	}
 	return nil
@@ -296,16 +297,16 @@ func (b *yearReportBuilder) groups(out *YearReport) {
 			}
 			gt.HasData = true
 			t := r.tonnes()
-			gt.Production += r.production
-			gt.Imports += r.imports
-			gt.Exports += r.exports
-			gt.Destruction += r.destruction
-			gt.Feedstock += r.feed
-			gt.QPS += r.qps
-			gt.ExportsNonParty += r.exportsNP
-			gt.ConsumptionTonnes += t
-			gt.ConsumptionODPTonnes += t * r.sub.ODP
-			gt.ConsumptionCO2eTonnes += t * r.sub.GWP
+			gt.ConsumptionODPTonnes = gt.ConsumptionODPTonnes.Add(t.Mul(exact.OfFloat(r.sub.ODP)))
+			gt.ConsumptionCO2eTonnes = gt.ConsumptionCO2eTonnes.Add(t.Mul(exact.OfFloat(r.sub.GWP)))
+			gt.Production = gt.Production.Add(r.production)
+			gt.Imports = gt.Imports.Add(r.imports)
+			gt.Exports = gt.Exports.Add(r.exports)
+			gt.Destruction = gt.Destruction.Add(r.destruction)
+			gt.Feedstock = gt.Feedstock.Add(r.feed)
+			gt.QPS = gt.QPS.Add(r.qps)
+			gt.ExportsNonParty = gt.ExportsNonParty.Add(r.exportsNP)
+			gt.ConsumptionTonnes = gt.ConsumptionTonnes.Add(t)
 		}
 		if !gt.HasData {
 			out.NoDataGroups = append(out.NoDataGroups, g)
@@ -384,8 +385,8 @@ func (c *Consumption) yearReport(ctx context.Context, r ReportReader, year int) 
 		}
 	}
 	out.HFC23GWP = HFC23GWP(cat)
-	if b.transit > 0 {
-		b.addNote(fmt.Sprintf("%s t in transit left out (neither imported nor exported)", controls.FormatTonnes(b.transit)))
+	if b.transit.Sign() > 0 {
+		b.addNote(fmt.Sprintf("%s t in transit left out (neither imported nor exported)", controls.FormatExact(b.transit)))
 	}
 	if len(out.HFC23) > 0 {
 		b.addNote("HFC-23 by-product (generation, capture, destruction, emission per facility) is reported beside Annex F consumption and is not part of it (Art. 2J paras 6-7; Art. 3 para 1(d); Art. 7 para 3 ter)")

@@ -6,6 +6,8 @@ import (
 	"math"
 	"slices"
 	"strings"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // Partner reconciliation: what partners report as exported to the reporting Party against
@@ -62,9 +64,9 @@ func (x *Figures) RecordPartnerExports(ctx context.Context, in []PartnerExport) 
 // than the tolerance.
 type PartnerGap struct {
 	Partner, Substance string
-	PartnerTonnes      float64
-	RecordedTonnes     float64
-	GapTonnes          float64 // partner − recorded
+	PartnerTonnes      exact.Decimal
+	RecordedTonnes     exact.Decimal
+	GapTonnes          exact.Decimal // partner − recorded, exact
 	ShipmentIDs        []int64
 	ReportKeys         []string
 }
@@ -87,7 +89,7 @@ func (c *Consumption) ReconcilePartnerExports(ctx context.Context, year int, tol
 		vs = append(vs, *v)
 	}
 	if math.IsNaN(tolerance) || tolerance < 0 || tolerance >= 1 {
-		vs = append(vs, FieldViolation{"tolerance", fmt.Sprintf("is %v; accepted: a fraction from 0 (the default, %g) to below 1", tolerance, DefaultReconcileTolerance)})
+		vs = append(vs, FieldViolation{"tolerance_ratio", fmt.Sprintf("is %v; accepted: a fraction from 0 (the default, %g) to below 1", tolerance, DefaultReconcileTolerance)})
 	}
 	if math.IsNaN(minGap) || minGap < 0 || minGap > maxTonnes {
 		vs = append(vs, FieldViolation{"min_gap_tonnes", fmt.Sprintf("is %v; accepted: metric tonnes ≥ 0 (0: %g)", minGap, DefaultReconcileMinGap)})
@@ -120,7 +122,7 @@ func (c *Consumption) ReconcilePartnerExports(ctx context.Context, year int, tol
 func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []ShipmentLine) Reconciliation {
 	type pair struct{ partner, substance string }
 	type side struct {
-		partner, recorded float64
+		partner, recorded exact.Decimal
 		ids               []int64
 		keys              []string
 	}
@@ -136,7 +138,7 @@ func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []S
 	reporting := map[string]bool{}
 	for _, r := range reports {
 		s := get(pair{r.Partner, r.Substance})
-		s.partner += r.Tonnes
+		s.partner = s.partner.Add(exact.OfFloat(r.Tonnes))
 		s.keys = append(s.keys, r.Key)
 		reporting[r.Partner] = true
 	}
@@ -155,7 +157,7 @@ func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []S
 			continue
 		}
 		s := get(pair{l.PartnerCountry, l.Designation})
-		s.recorded += l.Tonnes
+		s.recorded = s.recorded.Add(exact.OfFloat(l.Tonnes))
 		s.ids = append(s.ids, l.ShipmentIDs...)
 	}
 	keys := make([]pair, 0, len(pairs))
@@ -172,8 +174,8 @@ func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []S
 	out := Reconciliation{Year: year, Tolerance: tol, PairsCompared: len(keys), PartnersNotReporting: silent}
 	for _, k := range keys {
 		s := pairs[k]
-		gap := s.partner - s.recorded
-		if math.Abs(gap) <= minGap || math.Abs(gap) <= tol*math.Max(s.partner, s.recorded) {
+		gap := s.partner.Sub(s.recorded)
+		if gap.Abs().Cmp(exact.OfFloat(minGap)) <= 0 || gap.Abs().Cmp(exact.OfFloat(tol).Mul(exact.Max(s.partner, s.recorded))) <= 0 {
 			continue
 		}
 		slices.Sort(s.ids)

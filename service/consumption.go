@@ -6,6 +6,7 @@ import (
 	"slices"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
@@ -30,14 +31,19 @@ var entryTypeEnum = invert(entryTypeText)
 
 func entryToProto(e store.NationalEntry) *halovetv1.NationalEntry {
 	return &halovetv1.NationalEntry{EntryKey: e.Key, Year: int32(e.Year), EntryType: entryTypeEnum[e.Type],
-		Substance: e.Substance, MetricTonnes: e.Tonnes, Note: e.Note, OutsideCustoms: e.OutsideCustoms}
+		Substance: e.Substance, MetricTonnes: dec(exact.OfFloat(e.Tonnes)), Note: e.Note, OutsideCustoms: e.OutsideCustoms}
 }
 
 func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halovetv1.RecordNationalEntriesRequest) (*halovetv1.RecordNationalEntriesResponse, error) {
 	in := make([]ledger.NationalEntry, len(req.GetEntries()))
+	var vs []fieldViolation
 	for i, e := range req.GetEntries() {
 		in[i] = ledger.NationalEntry{Key: e.GetEntryKey(), Year: int(e.GetYear()), Kind: entryTypeText[e.GetEntryType()],
-			Substance: e.GetSubstance(), Tonnes: e.GetMetricTonnes(), Note: e.GetNote(), OutsideCustoms: e.GetOutsideCustoms()}
+			Substance: e.GetSubstance(), Tonnes: tonnesIn(indexed("entries", i, "metric_tonnes"), e.GetMetricTonnes(), &vs),
+			Note: e.GetNote(), OutsideCustoms: e.GetOutsideCustoms()}
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	entries, err := c.srv.figures.RecordNationalEntries(ctx, in)
 	if err != nil {
@@ -92,12 +98,10 @@ func (c *consumptionServer) GetConsumption(ctx context.Context, req *halovetv1.G
 	}
 	out := &halovetv1.GetConsumptionResponse{Year: req.GetYear(), CountryCode: r.CountryCode, Notes: r.Notes}
 	for _, g := range r.Groups {
-		pg := &halovetv1.GroupConsumption{AnnexGroup: string(g.Group)}
+		pg := &halovetv1.GroupConsumption{AnnexGroup: string(g.Group), ConsumptionTonnes: dec(g.Tonnes),
+			ConsumptionOdpTonnes: dec(g.ODPTonnes), ConsumptionCo2ETonnes: dec(g.CO2eTonnes)}
 		for _, sc := range g.Substances {
 			pg.Substances = append(pg.Substances, substanceConsumptionToProto(sc))
-			pg.ConsumptionTonnes += sc.Tonnes
-			pg.ConsumptionOdpTonnes += sc.ODPTonnes
-			pg.ConsumptionCo2ETonnes += sc.CO2eTonnes
 		}
 		out.Groups = append(out.Groups, pg)
 	}
@@ -112,18 +116,28 @@ func (c *consumptionServer) GetConsumption(ctx context.Context, req *halovetv1.G
 
 func substanceConsumptionToProto(sc controls.SubstanceConsumption) *halovetv1.SubstanceConsumption {
 	f := sc.Flows
-	return &halovetv1.SubstanceConsumption{Substance: sc.Substance.Designation, ProductionTonnes: f.Production,
-		ImportTonnes: f.Imports, ExportTonnes: f.Exports, DestructionTonnes: f.Destruction, FeedstockTonnes: f.Feedstock,
-		QpsTonnes: f.QPS, NotCountedTonnes: f.UsedImports + f.UsedExports + f.Transit, ExportNonPartyTonnes: f.ExportsNonParty,
-		ConsumptionTonnes: sc.Tonnes, ConsumptionOdpTonnes: sc.ODPTonnes, ConsumptionCo2ETonnes: sc.CO2eTonnes}
+	return &halovetv1.SubstanceConsumption{Substance: sc.Substance.Designation, ProductionTonnes: dec(f.Production),
+		ImportTonnes: dec(f.Imports), ExportTonnes: dec(f.Exports), DestructionTonnes: dec(f.Destruction), FeedstockTonnes: dec(f.Feedstock),
+		QpsTonnes: dec(f.QPS), NotCountedTonnes: dec(f.NotCounted()), ExportNonPartyTonnes: dec(f.ExportsNonParty),
+		ConsumptionTonnes: dec(sc.Tonnes), ConsumptionOdpTonnes: dec(sc.ODPTonnes), ConsumptionCo2ETonnes: dec(sc.CO2eTonnes)}
 }
 
 func baselineYearsToProto(ys []controls.YearAmount) []*halovetv1.BaselineYear {
 	out := make([]*halovetv1.BaselineYear, len(ys))
 	for i, y := range ys {
-		out[i] = &halovetv1.BaselineYear{Year: int32(y.Year), Amount: y.Amount, HasData: y.HasData}
+		out[i] = &halovetv1.BaselineYear{Year: int32(y.Year), Amount: decIf(y.Amount, y.HasData), HasData: y.HasData}
 	}
 	return out
+}
+
+// allData reports whether every year of a series has data (its mean is then known).
+func allData(ys []controls.YearAmount) bool {
+	for _, y := range ys {
+		if !y.HasData {
+			return false
+		}
+	}
+	return true
 }
 
 func (c *consumptionServer) GetBaseline(ctx context.Context, req *halovetv1.GetBaselineRequest) (*halovetv1.GetBaselineResponse, error) {
@@ -132,18 +146,25 @@ func (c *consumptionServer) GetBaseline(ctx context.Context, req *halovetv1.GetB
 		return nil, c.srv.ledgerStatus(ctx, err)
 	}
 	b := r.Baseline
-	out := &halovetv1.GetBaselineResponse{AnnexGroup: string(b.Scope), Unit: string(b.Unit), Baseline: b.Value,
-		Years: baselineYearsToProto(b.Years), HcfcComponent: b.HCFCComponent, HcfcShare: b.HCFCShare, Complete: b.Complete,
-		Rule: b.Rule.Description() + " (" + b.RuleText() + ")", Mean: b.Mean, CfcShare: b.CFCShare,
-		CfcYears: baselineYearsToProto(b.CFCYears), CfcTerm: b.CFCTerm, AppliesTo: b.AppliesTo,
+	cfc := b.Rule.Term == controls.TermCFC
+	meanKnown := len(b.Years) > 0 && allData(b.Years)
+	out := &halovetv1.GetBaselineResponse{AnnexGroup: string(b.Scope), Unit: controlUnitProto(string(b.Unit)),
+		BaselineAmount: decIf(b.Value, b.Complete), Years: baselineYearsToProto(b.Years), Complete: b.Complete,
+		Rule: b.Rule.Description() + " (" + b.RuleText() + ")", MeanAmount: decIf(b.Mean, meanKnown),
+		CfcShareRatio: decIf(b.CFCShare, cfc), CfcYears: baselineYearsToProto(b.CFCYears),
+		CfcTermAmount: decIf(b.CFCTerm, cfc && allData(b.CFCYears)), AppliesTo: scheduleProto[b.AppliesTo],
 		Missing: r.Missing, Notes: r.Notes}
 	if h := b.HCFC; h != nil {
-		out.HcfcBaseline = &halovetv1.BaselinePart{AnnexGroup: string(h.Scope), Unit: string(h.Unit), Value: h.Value, Mean: h.Mean,
-			Years: baselineYearsToProto(h.Years), CfcShare: h.CFCShare, CfcYears: baselineYearsToProto(h.CFCYears),
-			CfcTerm: h.CFCTerm, Complete: h.Complete, Rule: h.Rule.Description() + " (" + h.RuleText() + ")"}
+		hcfc := h.Rule.Term == controls.TermCFC
+		out.HcfcShareRatio = dec(b.HCFCShare)
+		out.HcfcComponentAmount = decIf(b.HCFCComponent, h.Complete)
+		out.HcfcBaseline = &halovetv1.BaselinePart{AnnexGroup: string(h.Scope), Unit: controlUnitProto(string(h.Unit)),
+			BaselineAmount: decIf(h.Value, h.Complete), MeanAmount: decIf(h.Mean, allData(h.Years)),
+			Years: baselineYearsToProto(h.Years), CfcShareRatio: decIf(h.CFCShare, hcfc), CfcYears: baselineYearsToProto(h.CFCYears),
+			CfcTermAmount: decIf(h.CFCTerm, hcfc && allData(h.CFCYears)), Complete: h.Complete, Rule: h.Rule.Description() + " (" + h.RuleText() + ")"}
 	}
 	if ob := r.Official; ob != nil {
-		out.HasOfficialBaseline, out.OfficialBaseline, out.OfficialBaselineSource = true, ob.Value, ob.Source
+		out.HasOfficialBaseline, out.OfficialBaselineAmount, out.OfficialBaselineSource = true, dec(exact.OfFloat(ob.Value)), ob.Source
 	}
 	return out, nil
 }
@@ -160,15 +181,15 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 		return nil, c.srv.ledgerStatus(ctx, err)
 	}
 	a := r.Assessment
-	out := &halovetv1.AssessComplianceResponse{AnnexGroup: string(a.Scope), Unit: string(a.Unit), AppliesTo: a.AppliesTo,
+	out := &halovetv1.AssessComplianceResponse{AnnexGroup: string(a.Scope), Unit: controlUnitProto(string(a.Unit)), AppliesTo: scheduleProto[a.AppliesTo],
 		BaselineComplete: true, BaselineMissing: r.BaselineMissing, ScheduleSource: r.ScheduleSource}
 	if b := r.Baseline; b != nil {
-		out.Baseline, out.ComputedBaseline, out.BaselineComplete = b.Value, b.Value, b.Complete
+		out.BaselineAmount, out.ComputedBaselineAmount, out.BaselineComplete = decIf(b.Value, b.Complete), decIf(b.Value, b.Complete), b.Complete
 	}
 	if ob := a.OfficialBaseline; ob != nil {
 		// The official baseline is the one used; the computed one stays beside it.
 		out.HasOfficialBaseline, out.OfficialBaselineSource = true, ob.Source
-		out.Baseline, out.BaselineComplete = ob.Value, true
+		out.BaselineAmount, out.BaselineComplete = dec(exact.OfFloat(ob.Value)), true
 	}
 	for _, y := range a.Years {
 		out.Years = append(out.Years, complianceYearToProto(y, r.YearNotes[y.Year]))
@@ -177,21 +198,23 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 }
 
 func complianceYearToProto(y controls.YearAssessment, notes []string) *halovetv1.ComplianceYear {
-	cy := &halovetv1.ComplianceYear{Year: int32(y.Year), Consumption: y.Consumption, Allowed: y.Allowed,
-		AllowedPercent: y.AllowedPercent, Headroom: y.Headroom, Within: y.Outcome == controls.Within,
-		Notes: slices.Concat(y.Notes, notes), Outcome: outcomeToProto[y.Outcome], HasData: y.HasData, ComputedAllowed: y.ComputedAllowed,
-		Exempted: y.Exempted}
+	assessed := y.Outcome != controls.NotAssessed
+	cy := &halovetv1.ComplianceYear{Year: int32(y.Year), ConsumptionAmount: decIf(y.Consumption, y.HasData),
+		AllowedAmount: decIf(y.Allowed, y.Assessed), AllowedPercent: decIf(y.AllowedPercent, y.HasRule),
+		HeadroomAmount: decIf(y.Headroom, assessed), Within: y.Outcome == controls.Within,
+		Notes: slices.Concat(y.Notes, notes), Outcome: outcomeToProto[y.Outcome], HasData: y.HasData,
+		ComputedAllowedAmount: decIf(y.ComputedAllowed, y.Assessed), ExemptedAmount: dec(y.Exempted)}
 	if l := y.OfficialLimit; l != nil {
-		cy.HasOfficialLimit, cy.OfficialLimit, cy.OfficialLimitSource = true, l.Value, l.Source
+		cy.HasOfficialLimit, cy.OfficialLimitAmount, cy.OfficialLimitSource = true, dec(exact.OfFloat(l.Value)), l.Source
 	}
 	for _, e := range y.Exemptions {
-		cy.Exemptions = append(cy.Exemptions, &halovetv1.AppliedExemption{Use: exemptedUseEnum[string(e.Use)], Amount: e.Amount, Source: e.Source})
+		cy.Exemptions = append(cy.Exemptions, &halovetv1.AppliedExemption{Use: exemptedUseEnum[string(e.Use)], Amount: dec(exact.OfFloat(e.Amount)), Source: e.Source})
 	}
 	if pp := y.Period; pp != nil {
 		cy.Period = &halovetv1.PeriodAverage{FromYear: int32(pp.Rule.FromYear), ToYear: int32(pp.Rule.ToYear),
-			Percent: pp.Rule.Percent, YearsCounted: int32(pp.YearsCounted), YearsRemaining: int32(pp.YearsRemaining),
-			Sum: pp.Sum, RunningAverage: pp.RunningMean, RunningPercent: pp.RunningPercent, Budget: pp.Budget,
-			RoomLeft: pp.RoomLeft, RoomPerYear: pp.RoomPerYear}
+			LimitPercent: dec(exact.OfFloat(pp.Rule.Percent)), YearsCounted: int32(pp.YearsCounted), YearsRemaining: int32(pp.YearsRemaining),
+			SumAmount: dec(pp.Sum), RunningAverageAmount: dec(pp.RunningMean), RunningPercent: decIf(pp.RunningPercent, !pp.Budget.IsZero()),
+			BudgetAmount: dec(pp.Budget), RoomLeftAmount: dec(pp.RoomLeft), RoomPerYearAmount: decIf(pp.RoomPerYear, pp.YearsRemaining > 0)}
 	}
 	return cy
 }

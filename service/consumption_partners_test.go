@@ -10,6 +10,7 @@ import (
 
 	"google.golang.org/grpc/codes"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -38,7 +39,7 @@ func TestReconcilePartnerExports(t *testing.T) {
 		consShip{"x1", "XB-3", "import", "servicing", "virgin", false, 2025, "HFC-134a", 8},
 	)
 	rep := func(key, partner, sub string, t float64) *halovetv1.PartnerExport {
-		return &halovetv1.PartnerExport{ReportKey: key, Year: 2025, PartnerCountry: partner, Substance: sub, MetricTonnes: t, Source: "invented partner data report"}
+		return &halovetv1.PartnerExport{ReportKey: key, Year: 2025, PartnerCountry: partner, Substance: sub, MetricTonnes: exact.OfFloat(t).String(), Source: "invented partner data report"}
 	}
 	// A blend must be split first.
 	_, err := c.RecordPartnerExports(ctx, &halovetv1.RecordPartnerExportsRequest{Reports: []*halovetv1.PartnerExport{rep("b", "XA", "R-410A", 1)}})
@@ -67,7 +68,7 @@ func TestReconcilePartnerExports(t *testing.T) {
 	}
 	var gotS []string
 	for _, g := range got.GetGaps() {
-		gotS = append(gotS, fmt.Sprintf("%s %s %g %g %g %v %v", g.GetPartnerCountry(), g.GetSubstance(), g.GetPartnerTonnes(),
+		gotS = append(gotS, fmt.Sprintf("%s %s %s %s %s %v %v", g.GetPartnerCountry(), g.GetSubstance(), g.GetPartnerTonnes(),
 			g.GetRecordedTonnes(), g.GetGapTonnes(), g.GetShipmentIds(), g.GetReportKeys()))
 	}
 	if fmt.Sprint(gotS) != fmt.Sprint(want) {
@@ -79,7 +80,7 @@ func TestReconcilePartnerExports(t *testing.T) {
 	if fmt.Sprint(got.GetPartnersNotReporting()) != "[XD]" {
 		t.Errorf("partners not reporting %v, want [XD]", got.GetPartnersNotReporting())
 	}
-	_, err = c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: 2025, Tolerance: 1.5})
+	_, err = c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: 2025, ToleranceRatio: "1.5"})
 	consCode(t, err, codes.InvalidArgument, "tolerance")
 }
 
@@ -88,7 +89,7 @@ func TestReconcilePartnerExports(t *testing.T) {
 // GET /v1/partner-exports/{year}:reconcile (the registry is shipRegistry's, invented).
 func TestYearPathsOverHTTP(t *testing.T) {
 	_, base, httpClient := startHTTPTestServer(t)
-	for _, path := range []string{"/v1/year-reports/2025", "/v1/partner-exports/2025:reconcile?tolerance=0.1"} {
+	for _, path := range []string{"/v1/year-reports/2025", "/v1/partner-exports/2025:reconcile?tolerance_ratio=0.1"} {
 		resp, err := httpClient().Get(base + path)
 		if err != nil {
 			t.Fatal(err)

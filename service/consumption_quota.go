@@ -13,8 +13,14 @@ import (
 // transaction.
 
 func (c *consumptionServer) PlanQuotas(ctx context.Context, req *halovetv1.PlanQuotasRequest) (*halovetv1.PlanQuotasResponse, error) {
-	q := ledger.QuotaPlanRequest{AnnexGroup: req.GetAnnexGroup(), Year: int(req.GetYear()), Fraction: req.GetFraction(),
-		Granularity: req.GetGranularity(), IssueDrafts: req.GetIssueDrafts(),
+	var vs []fieldViolation
+	fraction := tonnesIn("fraction_ratio", req.GetFractionRatio(), &vs)
+	gran := tonnesIn("granularity_amount", req.GetGranularityAmount(), &vs)
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
+	}
+	q := ledger.QuotaPlanRequest{AnnexGroup: req.GetAnnexGroup(), Year: int(req.GetYear()), Fraction: fraction,
+		Granularity: gran, IssueDrafts: req.GetIssueDrafts(),
 		MayIssue: func() error { return requireRole(ctx, "issuing the drafts (issue_drafts)", access.RoleOfficer) }}
 	for _, y := range req.GetReferenceYears() {
 		q.ReferenceYears = append(q.ReferenceYears, int(y))
@@ -27,12 +33,12 @@ func (c *consumptionServer) PlanQuotas(ctx context.Context, req *halovetv1.PlanQ
 		c.srv.registerChanged(ctx, ledger.Change{Licences: plan.Issued})
 	}
 	lv := plan.Level
-	out := &halovetv1.PlanQuotasResponse{Unit: string(lv.Unit), Allowed: lv.Value, Year: req.GetYear(),
-		AnnexGroup: string(plan.Scope), AllowedPercent: lv.Percent, Notes: plan.Notes,
-		Distributable: plan.Plan.Distributable, Distributed: plan.Plan.Distributed}
+	out := &halovetv1.PlanQuotasResponse{Unit: controlUnitProto(string(lv.Unit)), AllowedAmount: dec(lv.Value), Year: req.GetYear(),
+		AnnexGroup: string(plan.Scope), AllowedPercent: dec(lv.Percent), Notes: plan.Notes,
+		DistributableAmount: dec(plan.Plan.Distributable), DistributedAmount: dec(plan.Plan.Distributed)}
 	for _, p := range plan.Proposals {
-		out.Proposals = append(out.Proposals, &halovetv1.QuotaProposal{CompanyId: p.CompanyID, ReferenceShare: p.ReferenceShare,
-			Quota: p.Amount, ReferenceAmount: p.Reference, ExactShare: p.ExactShare, DraftLicenceNumber: p.DraftLicenceNumber})
+		out.Proposals = append(out.Proposals, &halovetv1.QuotaProposal{CompanyId: p.CompanyID, ReferenceShareRatio: dec(p.ReferenceShare),
+			QuotaAmount: dec(p.Amount), ReferenceAmount: dec(p.Reference), ExactShareAmount: dec(p.ExactShare), DraftLicenceNumber: p.DraftLicenceNumber})
 	}
 	return out, nil
 }

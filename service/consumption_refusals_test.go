@@ -112,3 +112,72 @@ func TestConsumptionWritesNeedAnOfficer(t *testing.T) {
 		t.Fatalf("reading as the auditor: %v %v; want the one entry", list, err)
 	}
 }
+
+// TestConsumptionFigureFieldErrors: a figure that is not a plain decimal is refused with
+// INVALID_ARGUMENT naming the field and saying what is accepted (DEVELOPERS.md, "Figures on
+// the wire"), before anything is read or stored.
+func TestConsumptionFigureFieldErrors(t *testing.T) {
+	conn, _ := startTestServer(t)
+	ctx := context.Background()
+	c := halovetv1.NewConsumptionServiceClient(conn)
+	entry := func(tonnes string) *halovetv1.NationalEntry {
+		e := consEntry(2025, prod, "HCFC-22", 1)
+		e.MetricTonnes = tonnes
+		return e
+	}
+	calls := []struct {
+		name, field string
+		call        func() error
+	}{
+		{"exponent", "entries[0].metric_tonnes", func() error {
+			_, err := c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{entry("1e3")}})
+			return err
+		}},
+		{"decimal comma", "exemptions[0].amount", func() error {
+			_, err := c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{{
+				ExemptionKey: "E", Year: 2025, AnnexGroup: "E/I", Use: halovetv1.ExemptedUse_EXEMPTED_USE_CRITICAL, Amount: "12,5", Source: "invented"}}})
+			return err
+		}},
+		{"words", "figures[0].amount", func() error {
+			_, err := c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{{
+				FigureKey: "B", Kind: halovetv1.OfficialFigureKind_OFFICIAL_FIGURE_KIND_BASELINE, AnnexGroup: "C/I", Amount: "ten", Source: "invented"}}})
+			return err
+		}},
+		{"separator", "entries[0].emitted_tonnes", func() error {
+			_, err := c.RecordHfc23Entries(ctx, &halovetv1.RecordHfc23EntriesRequest{Entries: []*halovetv1.Hfc23Entry{{
+				EntryKey: "H", Facility: "invented plant", Year: 2025, GeneratedTonnes: "2", EmittedTonnes: "1 000"}}})
+			return err
+		}},
+		{"partner figure", "reports[0].metric_tonnes", func() error {
+			_, err := c.RecordPartnerExports(ctx, &halovetv1.RecordPartnerExportsRequest{Reports: []*halovetv1.PartnerExport{{
+				ReportKey: "P", Year: 2025, PartnerCountry: "XA", Substance: "HCFC-22", MetricTonnes: "NaN", Source: "invented"}}})
+			return err
+		}},
+		{"fraction", "fraction_ratio", func() error {
+			_, err := c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025}, FractionRatio: "0,9"})
+			return err
+		}},
+		{"granularity", "granularity_amount", func() error {
+			_, err := c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025}, GranularityAmount: "1e-3"})
+			return err
+		}},
+		{"tolerance", "tolerance_ratio", func() error {
+			_, err := c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: 2025, ToleranceRatio: "5%"})
+			return err
+		}},
+		{"too many digits", "min_gap_tonnes", func() error {
+			_, err := c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: 2025, MinGapTonnes: "0.12345678901234567"})
+			return err
+		}},
+	}
+	for _, tc := range calls {
+		st := catalogueCallStatus(t, tc.call(), codes.InvalidArgument)
+		if !slices.Equal(catalogueViolatedFields(st), []string{tc.field}) || !strings.Contains(st.Message(), "digits") && !strings.Contains(st.Message(), "plain notation") {
+			t.Errorf("%s: %q fields %v; want field %s saying what is accepted", tc.name, st.Message(), catalogueViolatedFields(st), tc.field)
+		}
+	}
+	list, err := c.ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{})
+	if err != nil || len(list.GetEntries()) != 0 {
+		t.Fatalf("after refused calls: %v %v; want nothing stored", list.GetEntries(), err)
+	}
+}

@@ -3,6 +3,7 @@ package service
 import (
 	"context"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
@@ -18,9 +19,15 @@ const hfc23Designation = "HFC-23"
 
 func (c *consumptionServer) RecordHfc23Entries(ctx context.Context, req *halovetv1.RecordHfc23EntriesRequest) (*halovetv1.RecordHfc23EntriesResponse, error) {
 	in := make([]ledger.HFC23Entry, len(req.GetEntries()))
+	var vs []fieldViolation
 	for i, e := range req.GetEntries() {
-		in[i] = ledger.HFC23Entry{Key: e.GetEntryKey(), Facility: e.GetFacility(), Year: int(e.GetYear()), Generated: e.GetGeneratedTonnes(),
-			CapturedUsed: e.GetCapturedUsedTonnes(), Destroyed: e.GetDestroyedTonnes(), Emitted: e.GetEmittedTonnes(), Note: e.GetNote()}
+		f := func(name, s string) float64 { return tonnesIn(indexed("entries", i, name), s, &vs) }
+		in[i] = ledger.HFC23Entry{Key: e.GetEntryKey(), Facility: e.GetFacility(), Year: int(e.GetYear()),
+			Generated: f("generated_tonnes", e.GetGeneratedTonnes()), CapturedUsed: f("captured_used_tonnes", e.GetCapturedUsedTonnes()),
+			Destroyed: f("destroyed_tonnes", e.GetDestroyedTonnes()), Emitted: f("emitted_tonnes", e.GetEmittedTonnes()), Note: e.GetNote()}
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	es, err := c.srv.figures.RecordHFC23Entries(ctx, in)
 	if err != nil {
@@ -43,8 +50,10 @@ func (s *Server) hfc23GWP() float64 {
 }
 
 func hfc23ToProto(e store.HFC23Entry, gwp float64) *halovetv1.Hfc23Entry {
-	return &halovetv1.Hfc23Entry{EntryKey: e.Key, Facility: e.Facility, Year: int32(e.Year), GeneratedTonnes: e.Generated,
-		CapturedUsedTonnes: e.CapturedUsed, DestroyedTonnes: e.Destroyed, EmittedTonnes: e.Emitted, EmittedCo2ETonnes: e.Emitted * gwp, Note: e.Note}
+	d := exact.OfFloat
+	return &halovetv1.Hfc23Entry{EntryKey: e.Key, Facility: e.Facility, Year: int32(e.Year), GeneratedTonnes: dec(d(e.Generated)),
+		CapturedUsedTonnes: dec(d(e.CapturedUsed)), DestroyedTonnes: dec(d(e.Destroyed)), EmittedTonnes: dec(d(e.Emitted)),
+		EmittedCo2ETonnes: dec(d(e.Emitted).Mul(d(gwp))), Note: e.Note}
 }
 
 func (c *consumptionServer) ListHfc23Entries(ctx context.Context, req *halovetv1.ListHfc23EntriesRequest) (*halovetv1.ListHfc23EntriesResponse, error) {
@@ -80,16 +89,17 @@ func (c *consumptionServer) GetYearReport(ctx context.Context, req *halovetv1.Ge
 	if err != nil {
 		return nil, c.srv.ledgerStatus(ctx, err)
 	}
-	out := &halovetv1.GetYearReportResponse{Year: int32(r.Year), State: r.State, CountryCode: r.CountryCode, Notes: r.Notes,
+	out := &halovetv1.GetYearReportResponse{Year: int32(r.Year), State: reportStateProto[r.State], CountryCode: r.CountryCode, Notes: r.Notes,
 		Imports: tradeLinesToProto(r.Imports), Exports: tradeLinesToProto(r.Exports),
 		ImportsNonParty: tradeLinesToProto(r.ImportsNonParty), ExportsNonParty: tradeLinesToProto(r.ExportsNonParty),
 		Production: qtyLinesToProto(r.Production), Destruction: qtyLinesToProto(r.Destruction),
 		Feedstock: qtyLinesToProto(r.Feedstock), Qps: qtyLinesToProto(r.QPS)}
 	for _, g := range r.Groups {
 		out.Groups = append(out.Groups, &halovetv1.YearGroupTotal{AnnexGroup: string(g.AnnexGroup), HasData: g.HasData,
-			ProductionTonnes: g.Production, ImportTonnes: g.Imports, ExportTonnes: g.Exports, DestructionTonnes: g.Destruction,
-			FeedstockTonnes: g.Feedstock, QpsTonnes: g.QPS, ExportNonPartyTonnes: g.ExportsNonParty,
-			ConsumptionTonnes: g.ConsumptionTonnes, ConsumptionOdpTonnes: g.ConsumptionODPTonnes, ConsumptionCo2ETonnes: g.ConsumptionCO2eTonnes})
+			ProductionTonnes: decIf(g.Production, g.HasData), ImportTonnes: decIf(g.Imports, g.HasData), ExportTonnes: decIf(g.Exports, g.HasData),
+			DestructionTonnes: decIf(g.Destruction, g.HasData), FeedstockTonnes: decIf(g.Feedstock, g.HasData), QpsTonnes: decIf(g.QPS, g.HasData),
+			ExportNonPartyTonnes: decIf(g.ExportsNonParty, g.HasData), ConsumptionTonnes: decIf(g.ConsumptionTonnes, g.HasData),
+			ConsumptionOdpTonnes: decIf(g.ConsumptionODPTonnes, g.HasData), ConsumptionCo2ETonnes: decIf(g.ConsumptionCO2eTonnes, g.HasData)})
 	}
 	for _, g := range r.NoDataGroups {
 		out.NoDataGroups = append(out.NoDataGroups, string(g))
@@ -107,8 +117,8 @@ func tradeLinesToProto(ls []ledger.TradeLine) []*halovetv1.YearTradeLine {
 	var out []*halovetv1.YearTradeLine
 	for _, l := range ls {
 		out = append(out, &halovetv1.YearTradeLine{PartnerCountry: l.PartnerCountry, Substance: l.Substance, AnnexGroup: l.AnnexGroup,
-			PartnerNonParty: l.PartnerNonParty, NewTonnes: l.NewTonnes, RecoveredTonnes: l.RecoveredTonnes, FeedstockTonnes: l.FeedstockTonnes,
-			DestructionTonnes: l.DestructionTonnes, QpsTonnes: l.QPSTonnes, ExemptedTonnes: l.ExemptedTonnes,
+			PartnerNonParty: l.PartnerNonParty, NewTonnes: dec(l.NewTonnes), RecoveredTonnes: dec(l.RecoveredTonnes), FeedstockTonnes: dec(l.FeedstockTonnes),
+			DestructionTonnes: dec(l.DestructionTonnes), QpsTonnes: dec(l.QPSTonnes), ExemptedTonnes: dec(l.ExemptedTonnes),
 			ShipmentIds: l.ShipmentIDs, EntryKeys: l.EntryKeys})
 	}
 	return out
@@ -117,8 +127,8 @@ func tradeLinesToProto(ls []ledger.TradeLine) []*halovetv1.YearTradeLine {
 func qtyLinesToProto(ls []ledger.QuantityLine) []*halovetv1.YearQuantityLine {
 	var out []*halovetv1.YearQuantityLine
 	for _, l := range ls {
-		out = append(out, &halovetv1.YearQuantityLine{Substance: l.Substance, AnnexGroup: l.AnnexGroup, Basis: l.Basis,
-			Tonnes: l.Tonnes, ShipmentIds: l.ShipmentIDs, EntryKeys: l.EntryKeys})
+		out = append(out, &halovetv1.YearQuantityLine{Substance: l.Substance, AnnexGroup: l.AnnexGroup, Basis: basisProto[l.Basis],
+			Tonnes: dec(l.Tonnes), ShipmentIds: l.ShipmentIDs, EntryKeys: l.EntryKeys})
 	}
 	return out
 }

@@ -12,6 +12,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
@@ -38,10 +39,29 @@ import (
 // the figures are checked to, far above float rounding.
 const consTol = 1e-6
 
-func consNear(t *testing.T, what string, got, want float64) {
+// consNear checks a wire figure (a decimal string) against a value: it must be a decimal,
+// within consTol of want.
+func consNear(t *testing.T, what string, got string, want float64) {
 	t.Helper()
-	if math.Abs(got-want) > consTol*math.Max(1, math.Abs(want)) {
-		t.Errorf("%s = %.9f, want %.9f", what, got, want)
+	d, err := exact.Parse(got)
+	if err != nil {
+		t.Errorf("%s = %q, not a decimal: %v", what, got, err)
+		return
+	}
+	if g := d.Float64(); math.Abs(g-want) > consTol*math.Max(1, math.Abs(want)) {
+		t.Errorf("%s = %s, want %.9f", what, got, want)
+	}
+}
+
+// consExact checks a wire figure against its exact decimal.
+func consExact(t *testing.T, what string, got, want string) {
+	t.Helper()
+	if got == want {
+		return // the same decimal, or both absent
+	}
+	d, err := exact.Parse(got)
+	if err != nil || want == "" || !d.Equal(exact.MustParse(want)) {
+		t.Errorf("%s = %q, want exactly %s", what, got, want)
 	}
 }
 
@@ -138,7 +158,7 @@ func consRecordFrom(t *testing.T, st *store.Store, partner string, ships ...cons
 // consEntry builds a national entry; the key is derived from the content.
 func consEntry(year int, typ halovetv1.EntryType, substance string, tonnes float64) *halovetv1.NationalEntry {
 	key := strings.Join([]string{strings.TrimPrefix(typ.String(), "ENTRY_TYPE_"), substance, time.Date(year, 1, 1, 0, 0, 0, 0, time.UTC).Format("2006")}, "/")
-	return &halovetv1.NationalEntry{EntryKey: key, Year: int32(year), EntryType: typ, Substance: substance, MetricTonnes: tonnes, Note: "invented worked example"}
+	return &halovetv1.NationalEntry{EntryKey: key, Year: int32(year), EntryType: typ, Substance: substance, MetricTonnes: exact.OfFloat(tonnes).String(), Note: "invented worked example"}
 }
 
 const (
@@ -230,10 +250,10 @@ func TestConsumptionArticle5(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !b.GetComplete() || b.GetUnit() != "ODP t" || b.GetAppliesTo() != "A5" {
+	if !b.GetComplete() || b.GetUnit() != halovetv1.ControlUnit_CONTROL_UNIT_ODP_TONNES || b.GetAppliesTo() != halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5 {
 		t.Fatalf("HCFC baseline %+v: want complete, in ODP t, for A5", b)
 	}
-	consNear(t, "HCFC baseline", b.GetBaseline(), 7.5875)
+	consNear(t, "HCFC baseline", b.GetBaselineAmount(), 7.5875)
 	consNear(t, "HCFC 2009", b.GetYears()[0].GetAmount(), 7.15)
 	consNear(t, "HCFC 2010", b.GetYears()[1].GetAmount(), 8.025)
 
@@ -267,14 +287,14 @@ func TestConsumptionArticle5(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !bf.GetComplete() || bf.GetUnit() != "CO2-eq t" {
+	if !bf.GetComplete() || bf.GetUnit() != halovetv1.ControlUnit_CONTROL_UNIT_CO2E_TONNES {
 		t.Fatalf("HFC baseline: complete %v unit %q missing %q; want complete in CO2-eq t", bf.GetComplete(), bf.GetUnit(), bf.GetMissing())
 	}
-	consNear(t, "HFC mean 2020-2022", bf.GetMean(), 590450.0/3)
-	consNear(t, "HCFC baseline in CO2-eq", bf.GetHcfcBaseline().GetValue(), 206700)
-	consNear(t, "HCFC share", bf.GetHcfcShare(), 0.65)
-	consNear(t, "HCFC component", bf.GetHcfcComponent(), 134355)
-	consNear(t, "HFC baseline", bf.GetBaseline(), 590450.0/3+134355)
+	consNear(t, "HFC mean 2020-2022", bf.GetMeanAmount(), 590450.0/3)
+	consNear(t, "HCFC baseline in CO2-eq", bf.GetHcfcBaseline().GetBaselineAmount(), 206700)
+	consNear(t, "HCFC share", bf.GetHcfcShareRatio(), 0.65)
+	consNear(t, "HCFC component", bf.GetHcfcComponentAmount(), 134355)
+	consNear(t, "HFC baseline", bf.GetBaselineAmount(), 590450.0/3+134355)
 
 	// Recorded shipments of 2025 (invented):
 	consRecord(t, st,
@@ -341,12 +361,12 @@ func TestConsumptionArticle5(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	consNear(t, "compliance baseline", ac.GetBaseline(), 7.5875)
+	consNear(t, "compliance baseline", ac.GetBaselineAmount(), 7.5875)
 	y := consYear(ac, 2025)
-	consNear(t, "allowed 2025", y.GetAllowed(), 2.4659375)
+	consNear(t, "allowed 2025", y.GetAllowedAmount(), 2.4659375)
 	consNear(t, "allowed % 2025", y.GetAllowedPercent(), 32.5)
-	consNear(t, "consumption 2025", y.GetConsumption(), 1.7435)
-	consNear(t, "headroom 2025", y.GetHeadroom(), 0.7224375)
+	consNear(t, "consumption 2025", y.GetConsumptionAmount(), 1.7435)
+	consNear(t, "headroom 2025", y.GetHeadroomAmount(), 0.7224375)
 	if y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN || !y.GetWithin() {
 		t.Errorf("2025 outcome %v, want WITHIN", y.GetOutcome())
 	}
@@ -362,8 +382,8 @@ func TestConsumptionArticle5(t *testing.T) {
 		t.Fatal(err)
 	}
 	yf := consYear(af, 2025)
-	consNear(t, "HFC allowed 2025", yf.GetAllowed(), 590450.0/3+134355)
-	consNear(t, "HFC headroom 2025", yf.GetHeadroom(), 590450.0/3+134355-94512)
+	consNear(t, "HFC allowed 2025", yf.GetAllowedAmount(), 590450.0/3+134355)
+	consNear(t, "HFC headroom 2025", yf.GetHeadroomAmount(), 590450.0/3+134355-94512)
 
 	// The A5 HCFC tail: 2030-2039 ten-year mean ≤ 2.5 % of baseline (Art. 5 para 8 ter (e):
 	// the sum of the ten years divided by ten); a single year may exceed it.
@@ -383,11 +403,11 @@ func TestConsumptionArticle5(t *testing.T) {
 	if y30.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN || y31.GetPeriod() == nil {
 		t.Fatalf("2030 %v period %v: want WITHIN with the period average reported", y30.GetOutcome(), y31.GetPeriod())
 	}
-	consNear(t, "room left 2030", y30.GetPeriod().GetRoomLeft(), 1.621875)
+	consNear(t, "room left 2030", y30.GetPeriod().GetRoomLeftAmount(), 1.621875)
 	p := y31.GetPeriod()
-	consNear(t, "running average 2031", p.GetRunningAverage(), 0.22)
-	consNear(t, "room left 2031", p.GetRoomLeft(), 1.456875)
-	consNear(t, "budget", p.GetBudget(), 1.896875)
+	consNear(t, "running average 2031", p.GetRunningAverageAmount(), 0.22)
+	consNear(t, "room left 2031", p.GetRoomLeftAmount(), 1.456875)
+	consNear(t, "budget", p.GetBudgetAmount(), 1.896875)
 	if p.GetYearsRemaining() != 8 || p.GetFromYear() != 2030 || p.GetToYear() != 2039 {
 		t.Errorf("period %+v: want 2030-2039 with 8 years remaining", p)
 	}
@@ -406,18 +426,18 @@ func TestConsumptionArticle5(t *testing.T) {
 		}
 	}
 	plan, err := c.PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: 2026, AnnexGroup: "C/I", ReferenceYears: []int32{2025},
-		Fraction: 0.9, IssueDrafts: true})
+		FractionRatio: "0.9", IssueDrafts: true})
 	if err != nil {
 		t.Fatal(err)
 	}
-	consNear(t, "plan allowed", plan.GetAllowed(), 2.4659375)
-	consNear(t, "plan distributed", plan.GetDistributed(), 2.219)
+	consNear(t, "plan allowed", plan.GetAllowedAmount(), 2.4659375)
+	consNear(t, "plan distributed", plan.GetDistributedAmount(), 2.219)
 	if len(plan.GetProposals()) != 2 {
 		t.Fatalf("proposals %v; want XA-1001 and XA-1002", plan.GetProposals())
 	}
 	wantQ := map[string]float64{"XA-1001": 1.919, "XA-1002": 0.3}
 	for _, q := range plan.GetProposals() {
-		consNear(t, q.GetCompanyId()+" quota", q.GetQuota(), wantQ[q.GetCompanyId()])
+		consNear(t, q.GetCompanyId()+" quota", q.GetQuotaAmount(), wantQ[q.GetCompanyId()])
 		l, err := lic.GetLicence(ctx, &halovetv1.GetLicenceRequest{LicenceNumber: q.GetDraftLicenceNumber()})
 		if err != nil {
 			t.Fatalf("draft %q of %s: %v", q.GetDraftLicenceNumber(), q.GetCompanyId(), err)
@@ -427,7 +447,7 @@ func TestConsumptionArticle5(t *testing.T) {
 			lq[0].GetAnnexGroup() != "C/I" || lq[0].GetUnit() != halovetv1.QuotaUnit_QUOTA_UNIT_ODP_TONNES {
 			t.Errorf("draft %+v: want a DRAFT with one C/I line in ODP t", l.GetLicence())
 		}
-		consNear(t, "draft allocation", figureFloat(lq[0].GetAllocatedAmount()), wantQ[q.GetCompanyId()])
+		consNear(t, "draft allocation", lq[0].GetAllocatedAmount(), wantQ[q.GetCompanyId()])
 	}
 	if n := plan.GetProposals()[0].GetDraftLicenceNumber(); n != "CI-DRAFT-2026-XA-1001" {
 		t.Errorf("draft number %q, want CI-DRAFT-2026-XA-1001", n)
@@ -440,7 +460,7 @@ func TestConsumptionArticle5(t *testing.T) {
 	l, _ := lic.GetLicence(ctx, &halovetv1.GetLicenceRequest{LicenceNumber: "CI-DRAFT-2026-XA-1002"})
 	// Fraction 1: 2465.9375 units; XA-1002 exact 2465.9375 × 0.2585/1.9085 = 334.0; XA-1001 2131.93
 	// floors 2131 + 334 = 2465 = all whole units: XA-1002 keeps 0.334.
-	consNear(t, "re-planned draft", figureFloat(l.GetLicence().GetQuotaLines()[0].GetAllocatedAmount()), 0.334)
+	consNear(t, "re-planned draft", l.GetLicence().GetQuotaLines()[0].GetAllocatedAmount(), 0.334)
 }
 
 // TestConsumptionNonArticle5 is the worked example of a non-Article 5 Party: the HCFC
@@ -473,12 +493,12 @@ func TestConsumptionNonArticle5(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !b.GetComplete() || b.GetAppliesTo() != "non-A5" {
+	if !b.GetComplete() || b.GetAppliesTo() != halovetv1.ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5 {
 		t.Fatalf("baseline %+v: want complete, non-A5", b)
 	}
-	consNear(t, "HCFC mean", b.GetMean(), 77)
-	consNear(t, "CFC term", b.GetCfcTerm(), 123.2)
-	consNear(t, "HCFC baseline", b.GetBaseline(), 200.2)
+	consNear(t, "HCFC mean", b.GetMeanAmount(), 77)
+	consNear(t, "CFC term", b.GetCfcTermAmount(), 123.2)
+	consNear(t, "HCFC baseline", b.GetBaselineAmount(), 200.2)
 
 	// HFC baseline, non-A5: mean 2011-2013 + 15 % of the HCFC baseline in CO2-eq (Art. 2J
 	// para 1):
@@ -492,9 +512,9 @@ func TestConsumptionNonArticle5(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	consNear(t, "HCFC baseline in CO2-eq", bf.GetHcfcBaseline().GetValue(), 3206720)
-	consNear(t, "its CFC term in CO2-eq", bf.GetHcfcBaseline().GetCfcTerm(), 962220)
-	consNear(t, "HFC baseline", bf.GetBaseline(), 4370000.0/3+481008)
+	consNear(t, "HCFC baseline in CO2-eq", bf.GetHcfcBaseline().GetBaselineAmount(), 3206720)
+	consNear(t, "its CFC term in CO2-eq", bf.GetHcfcBaseline().GetCfcTermAmount(), 962220)
+	consNear(t, "HFC baseline", bf.GetBaselineAmount(), 4370000.0/3+481008)
 
 	consRecord(t, st,
 		consShip{"b1", "XB-1", "import", "servicing", "virgin", false, 2025, "HCFC-22", 15},
@@ -528,10 +548,10 @@ func TestConsumptionNonArticle5(t *testing.T) {
 	}
 	for _, cs := range cases {
 		y := consYear(ac, cs.year)
-		consNear(t, "allowed", y.GetAllowed(), 1.001)
+		consNear(t, "allowed", y.GetAllowedAmount(), 1.001)
 		consNear(t, "allowed %", y.GetAllowedPercent(), 0.5)
-		consNear(t, "consumption", y.GetConsumption(), cs.consumption)
-		consNear(t, "headroom", y.GetHeadroom(), cs.headroom)
+		consNear(t, "consumption", y.GetConsumptionAmount(), cs.consumption)
+		consNear(t, "headroom", y.GetHeadroomAmount(), cs.headroom)
 		if y.GetOutcome() != cs.outcome {
 			t.Errorf("%d: outcome %v, want %v", cs.year, y.GetOutcome(), cs.outcome)
 		}
@@ -554,7 +574,7 @@ func TestConsumptionNonArticle5(t *testing.T) {
 		t.Fatal(err)
 	}
 	y := af.GetYears()[0]
-	consNear(t, "HFC consumption 2025", y.GetConsumption(), 711000)
-	consNear(t, "HFC allowed 2025", y.GetAllowed(), 1162604.8)
-	consNear(t, "HFC headroom 2025", y.GetHeadroom(), 451604.8)
+	consNear(t, "HFC consumption 2025", y.GetConsumptionAmount(), 711000)
+	consNear(t, "HFC allowed 2025", y.GetAllowedAmount(), 1162604.8)
+	consNear(t, "HFC headroom 2025", y.GetHeadroomAmount(), 451604.8)
 }

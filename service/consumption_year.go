@@ -4,6 +4,7 @@ import (
 	"context"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
@@ -30,9 +31,13 @@ var officialKindEnum = invert(officialKindText)
 
 func (c *consumptionServer) RecordExemptions(ctx context.Context, req *halovetv1.RecordExemptionsRequest) (*halovetv1.RecordExemptionsResponse, error) {
 	in := make([]ledger.Exemption, len(req.GetExemptions()))
+	var vs []fieldViolation
 	for i, e := range req.GetExemptions() {
 		in[i] = ledger.Exemption{Key: e.GetExemptionKey(), CountryCode: e.GetCountryCode(), Year: int(e.GetYear()), Scope: e.GetAnnexGroup(),
-			Use: exemptedUseText[e.GetUse()], Amount: e.GetAmount(), Source: e.GetSource(), Note: e.GetNote()}
+			Use: exemptedUseText[e.GetUse()], Amount: tonnesIn(indexed("exemptions", i, "amount"), e.GetAmount(), &vs), Source: e.GetSource(), Note: e.GetNote()}
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	es, err := c.srv.figures.RecordExemptions(ctx, in)
 	if err != nil {
@@ -47,7 +52,7 @@ func (c *consumptionServer) RecordExemptions(ctx context.Context, req *halovetv1
 
 func exemptionToProto(e store.Exemption) *halovetv1.AuthorisedExemption {
 	return &halovetv1.AuthorisedExemption{ExemptionKey: e.Key, CountryCode: e.CountryCode, Year: int32(e.Year), AnnexGroup: e.Scope,
-		Use: exemptedUseEnum[e.Use], Amount: e.Amount, Unit: e.Unit, Source: e.Source, Note: e.Note}
+		Use: exemptedUseEnum[e.Use], Amount: dec(exact.OfFloat(e.Amount)), Unit: controlUnitProto(e.Unit), Source: e.Source, Note: e.Note}
 }
 
 func (c *consumptionServer) ListExemptions(ctx context.Context, req *halovetv1.ListExemptionsRequest) (*halovetv1.ListExemptionsResponse, error) {
@@ -79,9 +84,13 @@ func (c *consumptionServer) ListExemptions(ctx context.Context, req *halovetv1.L
 
 func (c *consumptionServer) RecordOfficialFigures(ctx context.Context, req *halovetv1.RecordOfficialFiguresRequest) (*halovetv1.RecordOfficialFiguresResponse, error) {
 	in := make([]ledger.OfficialFigure, len(req.GetFigures()))
+	var vs []fieldViolation
 	for i, x := range req.GetFigures() {
 		in[i] = ledger.OfficialFigure{Key: x.GetFigureKey(), CountryCode: x.GetCountryCode(), Kind: officialKindText[x.GetKind()],
-			Scope: x.GetAnnexGroup(), Year: int(x.GetYear()), Value: x.GetValue(), Source: x.GetSource()}
+			Scope: x.GetAnnexGroup(), Year: int(x.GetYear()), Value: tonnesIn(indexed("figures", i, "amount"), x.GetAmount(), &vs), Source: x.GetSource()}
+	}
+	if len(vs) > 0 {
+		return nil, invalid(vs...)
 	}
 	fs, err := c.srv.figures.RecordOfficialFigures(ctx, in)
 	if err != nil {
@@ -96,7 +105,7 @@ func (c *consumptionServer) RecordOfficialFigures(ctx context.Context, req *halo
 
 func officialToProto(f store.OfficialFigure) *halovetv1.OfficialFigure {
 	return &halovetv1.OfficialFigure{FigureKey: f.Key, CountryCode: f.CountryCode, Kind: officialKindEnum[f.Kind], AnnexGroup: f.Scope,
-		Year: int32(f.Year), Value: f.Value, Unit: f.Unit, Source: f.Source}
+		Year: int32(f.Year), Amount: dec(exact.OfFloat(f.Value)), Unit: controlUnitProto(f.Unit), Source: f.Source}
 }
 
 func (c *consumptionServer) ListOfficialFigures(ctx context.Context, req *halovetv1.ListOfficialFiguresRequest) (*halovetv1.ListOfficialFiguresResponse, error) {

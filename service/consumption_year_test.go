@@ -118,7 +118,7 @@ func TestConsumptionDeductedOnce(t *testing.T) {
 		t.Fatal(err)
 	}
 	y := consYear(ac, 2025)
-	consNear(t, "MB consumption assessed", y.GetConsumption(), 3.0)
+	consNear(t, "MB consumption assessed", y.GetConsumptionAmount(), 3.0)
 	if y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED {
 		t.Errorf("MB 2025 outcome %v, want EXCEEDED (allowed 0, Art. 2H para 5)", y.GetOutcome())
 	}
@@ -144,7 +144,7 @@ func TestConsumptionNoDataApartFromZero(t *testing.T) {
 	if !slices.Equal(got.GetNoDataGroups(), want) {
 		t.Errorf("no_data_groups %q, want %q", got.GetNoDataGroups(), want)
 	}
-	if g := consGroup(got, "A/I"); g == nil || g.GetConsumptionOdpTonnes() != 0 || consSubstance(g, "CFC-12") == nil {
+	if g := consGroup(got, "A/I"); g == nil || g.GetConsumptionOdpTonnes() != "0" || consSubstance(g, "CFC-12") == nil {
 		t.Errorf("A/I: %v, want the stated zero of CFC-12 listed", g)
 	}
 	// Methyl bromide (no data): not assessed, not "within". CFC (stated zero): within the 0 level.
@@ -185,10 +185,10 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 	crit := halovetv1.ExemptedUse_EXEMPTED_USE_CRITICAL
 	// Refusals: a critical use outside methyl bromide; an exemption without its decision.
 	_, err := c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
-		{ExemptionKey: "x", Year: 2025, AnnexGroup: "C/I", Use: crit, Amount: 1, Source: "invented"}}})
+		{ExemptionKey: "x", Year: 2025, AnnexGroup: "C/I", Use: crit, Amount: "1", Source: "invented"}}})
 	consCode(t, err, codes.InvalidArgument, "exemptions[0].use")
 	_, err = c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
-		{ExemptionKey: "x", Year: 2025, AnnexGroup: "E/I", Use: crit, Amount: 1}}})
+		{ExemptionKey: "x", Year: 2025, AnnexGroup: "E/I", Use: crit, Amount: "1"}}})
 	consCode(t, err, codes.InvalidArgument, "exemptions[0].source")
 
 	assess := func(group string) *halovetv1.AssessComplianceResponse {
@@ -204,15 +204,15 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 		t.Fatalf("MB 2025 without exemption: %v, want EXCEEDED", y.GetOutcome())
 	}
 	if _, err := c.RecordExemptions(ctx, &halovetv1.RecordExemptionsRequest{Exemptions: []*halovetv1.AuthorisedExemption{
-		{ExemptionKey: "CUE-2025", Year: 2025, AnnexGroup: "E/I", Use: crit, Amount: 3.0, Source: "invented decision XB/1"}}}); err != nil {
+		{ExemptionKey: "CUE-2025", Year: 2025, AnnexGroup: "E/I", Use: crit, Amount: "3.0", Source: "invented decision XB/1"}}}); err != nil {
 		t.Fatal(err)
 	}
 	// With the authorised 3.0 ODP t: allowed 0 + 3.0, headroom 0: within.
 	y := consYear(assess("E/I"), 2025)
-	consNear(t, "MB computed allowed", y.GetComputedAllowed(), 0)
-	consNear(t, "MB exempted", y.GetExempted(), 3.0)
-	consNear(t, "MB allowed", y.GetAllowed(), 3.0)
-	consNear(t, "MB headroom", y.GetHeadroom(), 0)
+	consNear(t, "MB computed allowed", y.GetComputedAllowedAmount(), 0)
+	consNear(t, "MB exempted", y.GetExemptedAmount(), 3.0)
+	consNear(t, "MB allowed", y.GetAllowedAmount(), 3.0)
+	consNear(t, "MB headroom", y.GetHeadroomAmount(), 0)
 	if y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN || len(y.GetExemptions()) != 1 ||
 		y.GetExemptions()[0].GetSource() != "invented decision XB/1" {
 		t.Errorf("MB 2025 with the exemption: %v %v, want WITHIN naming the decision", y.GetOutcome(), y.GetExemptions())
@@ -228,7 +228,7 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 	}
 	base := halovetv1.OfficialFigureKind_OFFICIAL_FIGURE_KIND_BASELINE
 	if _, err := c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{
-		{FigureKey: "B-CI", Kind: base, AnnexGroup: "C/I", Value: 150, Source: "invented decision XB/2"}}}); err != nil {
+		{FigureKey: "B-CI", Kind: base, AnnexGroup: "C/I", Amount: "150", Source: "invented decision XB/2"}}}); err != nil {
 		t.Fatal(err)
 	}
 	// GetBaseline shows it beside the computed one (which lacks the 1989 data).
@@ -236,31 +236,31 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !gb.GetHasOfficialBaseline() || gb.GetOfficialBaseline() != 150 || gb.GetComplete() {
+	if !gb.GetHasOfficialBaseline() || gb.GetOfficialBaselineAmount() != "150" || gb.GetComplete() {
 		t.Errorf("GetBaseline: official %v %v, computed complete %v; want the official 150 beside an incomplete computed one",
-			gb.GetHasOfficialBaseline(), gb.GetOfficialBaseline(), gb.GetComplete())
+			gb.GetHasOfficialBaseline(), gb.GetOfficialBaselineAmount(), gb.GetComplete())
 	}
 	// A second baseline of the same scope under another key is refused, naming the way out.
 	_, err = c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{
-		{FigureKey: "B-CI-again", Kind: base, AnnexGroup: "C/I", Value: 1, Source: "invented"}}})
+		{FigureKey: "B-CI-again", Kind: base, AnnexGroup: "C/I", Amount: "1", Source: "invented"}}})
 	consCode(t, err, codes.AlreadyExists, "under another figure_key")
 	// Official baseline 150: 0.5 % × 150 = 0.75; headroom 0.2: within.
 	ac := assess("C/I")
 	y = consYear(ac, 2025)
-	if !ac.GetHasOfficialBaseline() || ac.GetBaseline() != 150 || ac.GetComputedBaseline() != 0 || ac.GetOfficialBaselineSource() != "invented decision XB/2" {
-		t.Errorf("baseline: official %v %v (%q), computed %v; want both reported", ac.GetHasOfficialBaseline(), ac.GetBaseline(), ac.GetOfficialBaselineSource(), ac.GetComputedBaseline())
+	if !ac.GetHasOfficialBaseline() || ac.GetBaselineAmount() != "150" || ac.GetComputedBaselineAmount() != "" || ac.GetOfficialBaselineSource() != "invented decision XB/2" {
+		t.Errorf("baseline: official %v %v (%q), computed %v; want both reported", ac.GetHasOfficialBaseline(), ac.GetBaselineAmount(), ac.GetOfficialBaselineSource(), ac.GetComputedBaselineAmount())
 	}
-	consNear(t, "HCFC allowed (official baseline)", y.GetAllowed(), 0.75)
-	consNear(t, "HCFC headroom", y.GetHeadroom(), 0.2)
+	consNear(t, "HCFC allowed (official baseline)", y.GetAllowedAmount(), 0.75)
+	consNear(t, "HCFC headroom", y.GetHeadroomAmount(), 0.2)
 	// An agreed plan's limit of 0.5 ODP t: used instead of 0.75; headroom −0.05: exceeded.
 	if _, err := c.RecordOfficialFigures(ctx, &halovetv1.RecordOfficialFiguresRequest{Figures: []*halovetv1.OfficialFigure{
-		{FigureKey: "L-CI-2025", Kind: halovetv1.OfficialFigureKind_OFFICIAL_FIGURE_KIND_LIMIT, AnnexGroup: "C/I", Year: 2025, Value: 0.5, Source: "invented agreed plan"}}}); err != nil {
+		{FigureKey: "L-CI-2025", Kind: halovetv1.OfficialFigureKind_OFFICIAL_FIGURE_KIND_LIMIT, AnnexGroup: "C/I", Year: 2025, Amount: "0.5", Source: "invented agreed plan"}}}); err != nil {
 		t.Fatal(err)
 	}
 	y = consYear(assess("C/I"), 2025)
-	consNear(t, "HCFC computed allowed", y.GetComputedAllowed(), 0.75)
-	consNear(t, "HCFC allowed (official limit)", y.GetAllowed(), 0.5)
-	consNear(t, "HCFC headroom (official limit)", y.GetHeadroom(), -0.05)
+	consNear(t, "HCFC computed allowed", y.GetComputedAllowedAmount(), 0.75)
+	consNear(t, "HCFC allowed (official limit)", y.GetAllowedAmount(), 0.5)
+	consNear(t, "HCFC headroom (official limit)", y.GetHeadroomAmount(), -0.05)
 	if !y.GetHasOfficialLimit() || y.GetOutcome() != halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED {
 		t.Errorf("HCFC 2025 with the official limit: %v %v, want EXCEEDED", y.GetHasOfficialLimit(), y.GetOutcome())
 	}
@@ -270,7 +270,7 @@ func TestComplianceExemptionsAndOfficialFigures(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	consNear(t, "planned allowed (official limit)", plan.GetAllowed(), 0.5)
+	consNear(t, "planned allowed (official limit)", plan.GetAllowedAmount(), 0.5)
 	if !hasNote(plan.GetNotes(), "invented agreed plan") {
 		t.Errorf("plan notes %q: want the official limit named", plan.GetNotes())
 	}

@@ -20,13 +20,14 @@ import (
 // zeros or nines before a last digit (0.0007480000000000001, 0.027999999999999997).
 var floatNoise = regexp.MustCompile(`\d\.\d*0000000\d|\d\.\d*9999999\d`)
 
-// scannedAnswers counts the LicensingService and ShipmentService answers the test
-// clients scanned.
+// scannedAnswers counts the LicensingService, ShipmentService and ConsumptionService
+// answers the test clients scanned.
 var scannedAnswers atomic.Int64
 
 // scannedService reports whether a method's answers are scanned for float noise.
 func scannedService(method string) bool {
-	return strings.HasPrefix(method, "/halovet.v1.LicensingService/") || strings.HasPrefix(method, "/halovet.v1.ShipmentService/")
+	return strings.HasPrefix(method, "/halovet.v1.LicensingService/") || strings.HasPrefix(method, "/halovet.v1.ShipmentService/") ||
+		strings.HasPrefix(method, "/halovet.v1.ConsumptionService/")
 }
 
 // scanAnswer fails tb when the protojson form of an answer shows binary-float noise.

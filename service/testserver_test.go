@@ -130,7 +130,8 @@ func runServer(tb testing.TB, url string, opts service.Options) (*service.Server
 			tb.Errorf("Serve did not return within 15 s of shutdown")
 		}
 	})
-	// Every licensing and shipment answer of the tests is scanned for binary-float noise.
+	// Every licensing, shipment and consumption answer of the tests is scanned for
+	// binary-float noise.
 	conn, err := grpc.NewClient(lis.Addr().String(), append(noiseScan(tb), grpc.WithTransportCredentials(insecure.NewCredentials()))...)
 	if err != nil {
 		tb.Fatalf("dial the test server: %v", err)

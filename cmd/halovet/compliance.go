@@ -103,31 +103,33 @@ func outcomeWord(o halovetv1.ComplianceOutcome) string {
 }
 
 // complianceRow is one year; a figure the year lacks is left empty.
-func complianceRow(y *halovetv1.ComplianceYear, f func(float64) string) []string {
+func complianceRow(y *halovetv1.ComplianceYear, f func(string) string) []string {
 	assessed := y.GetOutcome() == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN ||
 		y.GetOutcome() == halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED
 	cons, allowed, head, pct := "", "", "", ""
 	if y.GetHasData() {
-		cons = f(y.GetConsumption())
+		cons = f(y.GetConsumptionAmount())
 	}
-	if assessed || y.GetAllowed() != 0 || y.GetAllowedPercent() != 0 {
-		pct = fmtFull(y.GetAllowedPercent())
+	nonzero := func(s string) bool { return !wireDec(s).IsZero() }
+	if assessed || nonzero(y.GetAllowedAmount()) || nonzero(y.GetAllowedPercent()) {
+		pct = y.GetAllowedPercent()
 	}
-	if assessed || y.GetAllowed() != 0 {
-		allowed = f(y.GetAllowed()) // known without data when the baseline is complete
+	if assessed || nonzero(y.GetAllowedAmount()) {
+		allowed = f(y.GetAllowedAmount()) // known without data when the baseline is complete
 	}
 	if assessed {
-		head = f(y.GetHeadroom())
+		head = f(y.GetHeadroomAmount())
 	}
 	avg, room := "", ""
 	if p := y.GetPeriod(); p != nil {
-		avg, room = f(p.GetRunningAverage()), f(p.GetRoomLeft())
+		avg, room = f(p.GetRunningAverageAmount()), f(p.GetRoomLeftAmount())
 	}
 	return []string{strconv.Itoa(int(y.GetYear())), cons, pct, allowed, head, outcomeWord(y.GetOutcome()), avg, room}
 }
 
 func writeCompliance(w io.Writer, resp *halovetv1.AssessComplianceResponse, output string) error {
-	u := resp.GetUnit()
+	eu := resp.GetUnit()
+	u := unitText(eu)
 	switch output {
 	case "json":
 		return writeProtoJSON(w, resp)
@@ -136,32 +138,32 @@ func writeCompliance(w io.Writer, resp *halovetv1.AssessComplianceResponse, outp
 		_ = cw.Write([]string{"year", "consumption", "allowed_percent", "allowed", "headroom", "outcome",
 			"period_running_average", "period_room_left", "unit", "annex_group", "computed_allowed", "official_limit", "exempted"})
 		for _, y := range resp.GetYears() {
-			r := complianceRow(y, fmtFull)
+			r := complianceRow(y, asIs)
 			r[5] = strings.ToLower(strings.ReplaceAll(r[5], " ", "-"))
 			official := ""
 			if y.GetHasOfficialLimit() {
-				official = fmtFull(y.GetOfficialLimit())
+				official = y.GetOfficialLimitAmount()
 			}
-			_ = cw.Write(append(r, u, resp.GetAnnexGroup(), fmtFull(y.GetComputedAllowed()), official, fmtFull(y.GetExempted())))
+			_ = cw.Write(append(r, u, resp.GetAnnexGroup(), y.GetComputedAllowedAmount(), official, y.GetExemptedAmount()))
 		}
 		cw.Flush()
 		return cw.Error()
 	}
-	fmt.Fprintf(w, "Compliance of %s (%s schedule)\n", resp.GetAnnexGroup(), resp.GetAppliesTo())
+	fmt.Fprintf(w, "Compliance of %s (%s schedule)\n", resp.GetAnnexGroup(), scheduleText(resp.GetAppliesTo()))
 	if resp.GetHasOfficialBaseline() {
 		computed := "cannot be computed, data are missing"
 		if len(resp.GetBaselineMissing()) == 0 {
-			computed = fmtUnit(resp.GetComputedBaseline(), u) + " " + u
+			computed = showAmount(resp.GetComputedBaselineAmount(), eu) + " " + u
 		}
 		fmt.Fprintf(w, "Baseline: %s %s as officially set (%s); computed from the data: %s\n",
-			fmtUnit(resp.GetBaseline(), u), u, resp.GetOfficialBaselineSource(), computed)
+			showAmount(resp.GetBaselineAmount(), eu), u, resp.GetOfficialBaselineSource(), computed)
 	} else if resp.GetBaselineComplete() {
-		fmt.Fprintf(w, "Baseline: %s %s\n", fmtUnit(resp.GetBaseline(), u), u)
+		fmt.Fprintf(w, "Baseline: %s %s\n", showAmount(resp.GetBaselineAmount(), eu), u)
 	} else {
 		fmt.Fprintln(w, "Baseline: cannot be computed, data are missing (years needing it are not assessed)")
 	}
 	fmt.Fprintf(w, "Schedule: %s\n\n", resp.GetScheduleSource())
-	f := func(v float64) string { return fmtUnit(v, u) }
+	f := func(s string) string { return showAmount(s, eu) }
 	tw := newTable(w)
 	fmt.Fprintf(tw, "year\tconsumption %s\tallowed %%\tallowed %s\theadroom %s\toutcome\trunning average %s\troom left %s\t\n", u, u, u, u, u)
 	for _, y := range resp.GetYears() {

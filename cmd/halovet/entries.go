@@ -232,7 +232,7 @@ func readEntries(r io.Reader) ([]*halovetv1.NationalEntry, []int, []entryLineErr
 			fail(line, "metric_tonnes %q: give metric tonnes as a plain number ≥ 0 with a decimal point, e.g. 12.5 (no thousands separators, no unit)", mt)
 			bad = true
 		} else {
-			e.MetricTonnes = v
+			e.MetricTonnes = wireDec(strings.TrimSpace(mt)).String()
 		}
 		if !bad {
 			out = append(out, e)
@@ -376,7 +376,7 @@ func writeEntries(w io.Writer, es []*halovetv1.NationalEntry, heading, output st
 		_ = cw.Write(entryColumns)
 		for _, e := range es {
 			_ = cw.Write([]string{e.GetEntryKey(), strconv.Itoa(int(e.GetYear())), entryTypeWord(e.GetEntryType()),
-				e.GetSubstance(), fmtFull(e.GetMetricTonnes()), e.GetNote(), yesNo(e.GetOutsideCustoms())})
+				e.GetSubstance(), e.GetMetricTonnes(), e.GetNote(), yesNo(e.GetOutsideCustoms())})
 		}
 		cw.Flush()
 		return cw.Error()
@@ -388,7 +388,7 @@ func writeEntries(w io.Writer, es []*halovetv1.NationalEntry, heading, output st
 		fmt.Fprintln(tw, "entry key\tyear\tentry type\tsubstance\tmetric t\toutside customs\tnote\t")
 		for _, e := range es {
 			fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetEntryKey(), e.GetYear(), entryTypeWord(e.GetEntryType()),
-				e.GetSubstance(), fmtTonnes(e.GetMetricTonnes()), yesNo(e.GetOutsideCustoms()), e.GetNote())
+				e.GetSubstance(), showT(e.GetMetricTonnes()), yesNo(e.GetOutsideCustoms()), e.GetNote())
 		}
 		if err := tw.Flush(); err != nil {
 			return err

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"math"
 	"strings"
 	"testing"
 
@@ -22,7 +21,7 @@ func TestReadEntries(t *testing.T) {
 	if lines[0] != 3 || lines[1] != 5 || lines[2] != 6 {
 		t.Errorf("line numbers %v, want 3 5 6 (comment and blank lines counted)", lines)
 	}
-	if es[1].GetMetricTonnes() != 120.5 || es[2].GetEntryType() != halovetv1.EntryType_ENTRY_TYPE_QPS || es[2].GetNote() != "quoted, note" {
+	if es[1].GetMetricTonnes() != "120.5" || es[2].GetEntryType() != halovetv1.EntryType_ENTRY_TYPE_QPS || es[2].GetNote() != "quoted, note" {
 		t.Errorf("parsed %v", es)
 	}
 
@@ -80,7 +79,7 @@ func FuzzReadEntries(f *testing.F) {
 		for i, e := range es {
 			if e.GetEntryKey() == "" || keys[e.GetEntryKey()] || e.GetYear() < 1986 || e.GetYear() > 2100 ||
 				e.GetEntryType() == halovetv1.EntryType_ENTRY_TYPE_UNSPECIFIED || e.GetSubstance() == "" ||
-				e.GetMetricTonnes() < 0 || math.IsNaN(e.GetMetricTonnes()) || math.IsInf(e.GetMetricTonnes(), 0) {
+				!plainDecimal.MatchString(e.GetMetricTonnes()) || wireDec(e.GetMetricTonnes()).Sign() < 0 {
 				t.Fatalf("entry %d breaks the file's rules: %v", i, e)
 			}
 			keys[e.GetEntryKey()] = true

@@ -49,7 +49,7 @@ func TestExitCodeContract(t *testing.T) {
 	figures := filepath.Join(dir, "figures.json")
 	writeFile(t, figures, `{"exemptions": [{"exemption_key": "XA-CUE-2026", "year": 2026, "annex_group": "E/I", "use": "critical",
 	  "amount": 1, "source": "invented decision for the test"}],
-	 "official_figures": [{"figure_key": "XA-LIMIT-C/I-2026", "kind": "limit", "year": 2026, "annex_group": "C/I", "value": 9,
+	 "official_figures": [{"figure_key": "XA-LIMIT-C/I-2026", "kind": "limit", "year": 2026, "annex_group": "C/I", "amount": 9,
 	  "source": "invented agreed plan"}],
 	 "hfc23_entries": [{"entry_key": "P1-2026", "facility": "plant 1 (invented)", "year": 2026, "generated_tonnes": 3,
 	  "destroyed_tonnes": 3}]}`)

@@ -273,6 +273,12 @@ func enumNamesBack(v any, md protoreflect.MessageDescriptor) any {
 				return enumNamesBack(x, fd.Message())
 			case protoreflect.EnumKind:
 				return enumNameOf(fd.Enum(), x)
+			case protoreflect.StringKind:
+				// A figure written as a JSON number in an input file is read as the
+				// decimal it spells (the decoder keeps its text): 12.5 is "12.5".
+				if n, ok := x.(json.Number); ok {
+					return string(n)
+				}
 			}
 			return x
 		}

@@ -110,7 +110,7 @@ func readPartnerExports(r io.Reader) ([]*halovetv1.PartnerExport, []int, []strin
 		if !plainDecimal.MatchString(get("metric_tonnes")) {
 			errs = append(errs, fmt.Sprintf("line %d: metric_tonnes %q: give a number of metric tonnes, 0 or more, with a decimal point", line, get("metric_tonnes")))
 		} else {
-			p.MetricTonnes, _ = strconv.ParseFloat(get("metric_tonnes"), 64)
+			p.MetricTonnes = wireDec(strings.TrimSpace(get("metric_tonnes"))).String()
 		}
 		out = append(out, p)
 		lines = append(lines, line)
@@ -133,8 +133,8 @@ func definePartners(fs *pflag.FlagSet) runFunc {
 	rf.register(fs)
 	reconcile := fs.Bool("reconcile", false, "list the gaps between partners' reported exports and our recorded imports")
 	year := fs.Int("year", 0, "with --reconcile: the calendar year (required)")
-	tol := fs.Float64("tolerance", 0, "with --reconcile: a gap counts above this fraction of the larger figure (0: the server's 0.05)")
-	minGap := fs.Float64("min-gap", 0, "with --reconcile: smallest gap listed, metric tonnes (0: the server's 0.001)")
+	tol := fs.String("tolerance", "", "with --reconcile: a gap counts above this fraction of the larger figure, a decimal (default: the server's 0.05)")
+	minGap := fs.String("min-gap", "", "with --reconcile: smallest gap listed, metric tonnes, a decimal (default: the server's 0.001)")
 	return func(ctx context.Context, args []string) error {
 		if *reconcile {
 			if err := rf.check(args); err != nil {
@@ -177,7 +177,7 @@ func definePartners(fs *pflag.FlagSet) runFunc {
 			fmt.Printf("stored %d partner figures from %s (new or replacing the figure of the same key)\n", len(resp.GetReports()), args[0])
 			return nil
 		}
-		resp, err := c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: int32(*year), Tolerance: *tol, MinGapTonnes: *minGap})
+		resp, err := c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: int32(*year), ToleranceRatio: *tol, MinGapTonnes: *minGap})
 		if err != nil {
 			return err
 		}
@@ -193,7 +193,7 @@ func definePartners(fs *pflag.FlagSet) runFunc {
 
 var gapHeader = []string{"partner_country", "substance", "year", "partner_t", "recorded_t", "gap_t", "shipment_ids", "report_keys"}
 
-func gapRow(g *halovetv1.PartnerGap, f func(float64) string) []string {
+func gapRow(g *halovetv1.PartnerGap, f func(string) string) []string {
 	ids := make([]string, len(g.GetShipmentIds()))
 	for i, id := range g.GetShipmentIds() {
 		ids[i] = strconv.FormatInt(id, 10)
@@ -210,19 +210,19 @@ func writeGaps(w io.Writer, resp *halovetv1.ReconcilePartnerExportsResponse, out
 		cw := csv.NewWriter(w)
 		_ = cw.Write(gapHeader)
 		for _, g := range resp.GetGaps() {
-			_ = cw.Write(gapRow(g, fmtFull))
+			_ = cw.Write(gapRow(g, asIs))
 		}
 		cw.Flush()
 		return cw.Error()
 	}
-	fmt.Fprintf(w, "Partners' reported exports against recorded imports, %d (tolerance %s of the larger figure)\n\n", resp.GetYear(), fmtFull(resp.GetTolerance()))
+	fmt.Fprintf(w, "Partners' reported exports against recorded imports, %d (tolerance %s of the larger figure)\n\n", resp.GetYear(), resp.GetToleranceRatio())
 	if len(resp.GetGaps()) == 0 {
 		fmt.Fprintf(w, "All %d partner and substance pairs agree.\n", resp.GetPairsCompared())
 	} else {
 		tw := newTable(w)
 		fmt.Fprintln(tw, "partner\tsubstance\tyear\tpartner t\trecorded t\tgap t\tour shipments\tpartner figures\t")
 		for _, g := range resp.GetGaps() {
-			fmt.Fprintln(tw, strings.Join(gapRow(g, fmtTonnes), "\t")+"\t")
+			fmt.Fprintln(tw, strings.Join(gapRow(g, showT), "\t")+"\t")
 		}
 		if err := tw.Flush(); err != nil {
 			return err

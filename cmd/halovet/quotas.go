@@ -40,8 +40,8 @@ func defineQuotas(fs *pflag.FlagSet) runFunc {
 	year := fs.Int("year", 0, "year the quotas are for (required)")
 	group := fs.String("group", "", "Annex group (C/I, E/I, ...) or F for HFCs (required)")
 	refs := fs.String("reference-years", "", "comma-separated years whose recorded imports set each company's share (required)")
-	fraction := fs.Float64("fraction", 1, "part of the allowed level to distribute, above 0 and at most 1")
-	gran := fs.Float64("granularity", 0.001, "smallest unit of allocation in the group's unit")
+	fraction := fs.String("fraction", "1", "part of the allowed level to distribute, a decimal above 0 and at most 1")
+	gran := fs.String("granularity", "0.001", "smallest unit of allocation in the group's unit, a decimal above 0")
 	drafts := fs.Bool("issue-drafts", false, "store the proposals as draft licences (needs an officer's credential)")
 	return func(ctx context.Context, args []string) error {
 		if err := rf.check(args); err != nil {
@@ -60,7 +60,7 @@ func defineQuotas(fs *pflag.FlagSet) runFunc {
 		}
 		return rf.withConn(func(conn *grpc.ClientConn) error {
 			resp, err := halovetv1.NewConsumptionServiceClient(conn).PlanQuotas(ctx, &halovetv1.PlanQuotasRequest{Year: int32(*year),
-				AnnexGroup: *group, ReferenceYears: years, Fraction: *fraction, Granularity: *gran, IssueDrafts: *drafts})
+				AnnexGroup: *group, ReferenceYears: years, FractionRatio: *fraction, GranularityAmount: *gran, IssueDrafts: *drafts})
 			if err != nil {
 				return err
 			}
@@ -70,7 +70,8 @@ func defineQuotas(fs *pflag.FlagSet) runFunc {
 }
 
 func writeQuotas(w io.Writer, resp *halovetv1.PlanQuotasResponse, output string) error {
-	u := resp.GetUnit()
+	eu := resp.GetUnit()
+	u := unitText(eu)
 	switch output {
 	case "json":
 		return writeProtoJSON(w, resp)
@@ -78,20 +79,20 @@ func writeQuotas(w io.Writer, resp *halovetv1.PlanQuotasResponse, output string)
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"company_id", "reference_amount", "reference_share", "exact_share", "quota", "unit", "draft_licence_number"})
 		for _, p := range resp.GetProposals() {
-			_ = cw.Write([]string{p.GetCompanyId(), fmtFull(p.GetReferenceAmount()), fmtFull(p.GetReferenceShare()),
-				fmtFull(p.GetExactShare()), fmtFull(p.GetQuota()), u, p.GetDraftLicenceNumber()})
+			_ = cw.Write([]string{p.GetCompanyId(), p.GetReferenceAmount(), p.GetReferenceShareRatio(),
+				p.GetExactShareAmount(), p.GetQuotaAmount(), u, p.GetDraftLicenceNumber()})
 		}
 		cw.Flush()
 		return cw.Error()
 	}
-	f := func(v float64) string { return fmtUnit(v, u) }
-	exact := 6 // three decimals finer than the unit's display
-	if u == "CO2-eq t" {
-		exact = 3
+	f := func(s string) string { return showAmount(s, eu) }
+	finer := int32(6) // finer than the unit's display
+	if eu == halovetv1.ControlUnit_CONTROL_UNIT_CO2E_TONNES {
+		finer = 3
 	}
 	fmt.Fprintf(w, "Quota plan for %s in %d\n", resp.GetAnnexGroup(), resp.GetYear())
-	fmt.Fprintf(w, "Allowed level: %s %s (%s %% of baseline)\n", f(resp.GetAllowed()), u, fmtFull(resp.GetAllowedPercent()))
-	fmt.Fprintf(w, "To distribute: %s %s; distributed: %s %s\n\n", f(resp.GetDistributable()), u, f(resp.GetDistributed()), u)
+	fmt.Fprintf(w, "Allowed level: %s %s (%s %% of baseline)\n", f(resp.GetAllowedAmount()), u, resp.GetAllowedPercent())
+	fmt.Fprintf(w, "To distribute: %s %s; distributed: %s %s\n\n", f(resp.GetDistributableAmount()), u, f(resp.GetDistributedAmount()), u)
 	tw := newTable(w)
 	fmt.Fprintf(tw, "company\treference %s\tshare %%\texact share %s\tquota %s\tdraft licence\t\n", u, u, u)
 	for _, p := range resp.GetProposals() {
@@ -100,7 +101,7 @@ func writeQuotas(w io.Writer, resp *halovetv1.PlanQuotasResponse, output string)
 			d = "-"
 		}
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t\n", p.GetCompanyId(), f(p.GetReferenceAmount()),
-			fmtFixed(p.GetReferenceShare()*100, 2), fmtFixed(p.GetExactShare(), exact), f(p.GetQuota()), d)
+			wireDec(p.GetReferenceShareRatio()).Shift(2).Fixed(2), wireDec(p.GetExactShareAmount()).Fixed(finer), f(p.GetQuotaAmount()), d)
 	}
 	if err := tw.Flush(); err != nil {
 		return err

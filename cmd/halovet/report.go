@@ -63,29 +63,6 @@ func writeProtoJSON(w io.Writer, m proto.Message) error {
 	return jsonDoc(w, m)
 }
 
-// Number formats. Text rounds for reading (0.001 t and ODP t, 1 CO2-eq t); CSV carries
-// the full value.
-func fmtTonnes(v float64) string { return fmtFixed(v, 3) }
-func fmtCO2e(v float64) string   { return fmtFixed(v, 0) }
-func fmtFull(v float64) string   { return decimalText(v) }
-
-// fmtFixed rounds to d decimals and never prints "-0".
-func fmtFixed(v float64, d int) string {
-	s := strconv.FormatFloat(v, 'f', d, 64)
-	if strings.Trim(s, "-0.") == "" {
-		return strings.TrimPrefix(s, "-")
-	}
-	return s
-}
-
-// fmtUnit formats an amount in a unit by the text rules.
-func fmtUnit(v float64, unit string) string {
-	if unit == "CO2-eq t" {
-		return fmtCO2e(v)
-	}
-	return fmtTonnes(v)
-}
-
 // newTable is the aligned table of the text reports.
 func newTable(w io.Writer) *tabwriter.Writer {
 	return tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
@@ -158,7 +135,7 @@ var consumptionCSVHeader = []string{"annex_group", "substance", "production_t", 
 	"destruction_t", "feedstock_t", "qps_t", "not_counted_t", "exports_non_party_t", "consumption_t",
 	"consumption_odp_t", "consumption_co2e_t"}
 
-func consumptionRow(group, name string, s *halovetv1.SubstanceConsumption, f func(float64) string) []string {
+func consumptionRow(group, name string, s *halovetv1.SubstanceConsumption, f func(string) string) []string {
 	return []string{group, name, f(s.GetProductionTonnes()), f(s.GetImportTonnes()), f(s.GetExportTonnes()),
 		f(s.GetDestructionTonnes()), f(s.GetFeedstockTonnes()), f(s.GetQpsTonnes()), f(s.GetNotCountedTonnes()),
 		f(s.GetExportNonPartyTonnes()), f(s.GetConsumptionTonnes())}
@@ -166,16 +143,17 @@ func consumptionRow(group, name string, s *halovetv1.SubstanceConsumption, f fun
 
 // groupTotal adds up a group's substance columns for its total row.
 func groupTotal(g *halovetv1.GroupConsumption) *halovetv1.SubstanceConsumption {
-	t := &halovetv1.SubstanceConsumption{}
+	t := &halovetv1.SubstanceConsumption{ProductionTonnes: "0", ImportTonnes: "0", ExportTonnes: "0", DestructionTonnes: "0",
+		FeedstockTonnes: "0", QpsTonnes: "0", NotCountedTonnes: "0", ExportNonPartyTonnes: "0"}
 	for _, s := range g.GetSubstances() {
-		t.ProductionTonnes += s.GetProductionTonnes()
-		t.ImportTonnes += s.GetImportTonnes()
-		t.ExportTonnes += s.GetExportTonnes()
-		t.DestructionTonnes += s.GetDestructionTonnes()
-		t.FeedstockTonnes += s.GetFeedstockTonnes()
-		t.QpsTonnes += s.GetQpsTonnes()
-		t.NotCountedTonnes += s.GetNotCountedTonnes()
-		t.ExportNonPartyTonnes += s.GetExportNonPartyTonnes()
+		t.ProductionTonnes = sumOf(t.ProductionTonnes, s.GetProductionTonnes())
+		t.ImportTonnes = sumOf(t.ImportTonnes, s.GetImportTonnes())
+		t.ExportTonnes = sumOf(t.ExportTonnes, s.GetExportTonnes())
+		t.DestructionTonnes = sumOf(t.DestructionTonnes, s.GetDestructionTonnes())
+		t.FeedstockTonnes = sumOf(t.FeedstockTonnes, s.GetFeedstockTonnes())
+		t.QpsTonnes = sumOf(t.QpsTonnes, s.GetQpsTonnes())
+		t.NotCountedTonnes = sumOf(t.NotCountedTonnes, s.GetNotCountedTonnes())
+		t.ExportNonPartyTonnes = sumOf(t.ExportNonPartyTonnes, s.GetExportNonPartyTonnes())
 	}
 	t.ConsumptionTonnes = g.GetConsumptionTonnes()
 	t.ConsumptionOdpTonnes = g.GetConsumptionOdpTonnes()
@@ -192,12 +170,12 @@ func writeConsumption(w io.Writer, resp *halovetv1.GetConsumptionResponse, outpu
 		_ = cw.Write(consumptionCSVHeader)
 		for _, g := range resp.GetGroups() {
 			for _, s := range g.GetSubstances() {
-				_ = cw.Write(append(consumptionRow(g.GetAnnexGroup(), s.GetSubstance(), s, fmtFull),
-					fmtFull(s.GetConsumptionOdpTonnes()), fmtFull(s.GetConsumptionCo2ETonnes())))
+				_ = cw.Write(append(consumptionRow(g.GetAnnexGroup(), s.GetSubstance(), s, asIs),
+					s.GetConsumptionOdpTonnes(), s.GetConsumptionCo2ETonnes()))
 			}
 			t := groupTotal(g)
-			_ = cw.Write(append(consumptionRow(g.GetAnnexGroup(), "total", t, fmtFull),
-				fmtFull(t.GetConsumptionOdpTonnes()), fmtFull(t.GetConsumptionCo2ETonnes())))
+			_ = cw.Write(append(consumptionRow(g.GetAnnexGroup(), "total", t, asIs),
+				t.GetConsumptionOdpTonnes(), t.GetConsumptionCo2ETonnes()))
 		}
 		cw.Flush()
 		return cw.Error()
@@ -216,12 +194,12 @@ func writeConsumption(w io.Writer, resp *halovetv1.GetConsumptionResponse, outpu
 		fmt.Fprintln(tw, "group\tsubstance\tproduction t\timports t\texports t\tdestroyed t\tfeedstock t\tQPS t\tnot counted t\tto non-Parties t\tconsumption t\tODP t\tCO2-eq t\t")
 		for _, g := range resp.GetGroups() {
 			for _, s := range g.GetSubstances() {
-				fmt.Fprintln(tw, strings.Join(append(consumptionRow(g.GetAnnexGroup(), s.GetSubstance(), s, fmtTonnes),
-					fmtTonnes(s.GetConsumptionOdpTonnes()), fmtCO2e(s.GetConsumptionCo2ETonnes())), "\t")+"\t")
+				fmt.Fprintln(tw, strings.Join(append(consumptionRow(g.GetAnnexGroup(), s.GetSubstance(), s, showT),
+					showODP(s.GetConsumptionOdpTonnes()), showCO2e(s.GetConsumptionCo2ETonnes())), "\t")+"\t")
 			}
 			t := groupTotal(g)
-			fmt.Fprintln(tw, strings.Join(append(consumptionRow(g.GetAnnexGroup(), "total", t, fmtTonnes),
-				fmtTonnes(t.GetConsumptionOdpTonnes()), fmtCO2e(t.GetConsumptionCo2ETonnes())), "\t")+"\t")
+			fmt.Fprintln(tw, strings.Join(append(consumptionRow(g.GetAnnexGroup(), "total", t, showT),
+				showODP(t.GetConsumptionOdpTonnes()), showCO2e(t.GetConsumptionCo2ETonnes())), "\t")+"\t")
 		}
 		if err := tw.Flush(); err != nil {
 			return err
@@ -269,7 +247,7 @@ func defineBaseline(fs *pflag.FlagSet) runFunc {
 	}
 }
 
-func yearRows(part string, ys []*halovetv1.BaselineYear, unit string, f func(float64) string) [][]string {
+func yearRows(part string, ys []*halovetv1.BaselineYear, unit string, f func(string) string) [][]string {
 	var rows [][]string
 	for _, y := range ys {
 		has := "yes"
@@ -283,25 +261,27 @@ func yearRows(part string, ys []*halovetv1.BaselineYear, unit string, f func(flo
 
 // baselineRows lists the arithmetic: the base years, the CFC years, the HCFC part's years
 // and the summary lines.
-func baselineRows(resp *halovetv1.GetBaselineResponse, f func(float64) string) [][]string {
-	u := resp.GetUnit()
-	rows := yearRows(resp.GetAnnexGroup(), resp.GetYears(), u, f)
-	rows = append(rows, []string{resp.GetAnnexGroup() + " mean", "", f(resp.GetMean()), u, ""})
+func baselineRows(resp *halovetv1.GetBaselineResponse, f func(string, halovetv1.ControlUnit) string) [][]string {
+	u := unitText(resp.GetUnit())
+	fu := func(s string) string { return f(s, resp.GetUnit()) }
+	rows := yearRows(resp.GetAnnexGroup(), resp.GetYears(), u, fu)
+	rows = append(rows, []string{resp.GetAnnexGroup() + " mean", "", fu(resp.GetMeanAmount()), u, ""})
 	if len(resp.GetCfcYears()) > 0 {
-		rows = append(rows, yearRows("A/I (CFC term)", resp.GetCfcYears(), u, f)...)
-		rows = append(rows, []string{fmt.Sprintf("CFC term (%s %% of A/I)", fmtFull(resp.GetCfcShare()*100)), "", f(resp.GetCfcTerm()), u, ""})
+		rows = append(rows, yearRows("A/I (CFC term)", resp.GetCfcYears(), u, fu)...)
+		rows = append(rows, []string{fmt.Sprintf("CFC term (%s %% of A/I)", shareText(resp.GetCfcShareRatio())), "", fu(resp.GetCfcTermAmount()), u, ""})
 	}
 	if h := resp.GetHcfcBaseline(); h != nil {
-		hu := h.GetUnit()
-		rows = append(rows, yearRows(h.GetAnnexGroup()+" in CO2-eq", h.GetYears(), hu, f)...)
+		hu := unitText(h.GetUnit())
+		fh := func(s string) string { return f(s, h.GetUnit()) }
+		rows = append(rows, yearRows(h.GetAnnexGroup()+" in CO2-eq", h.GetYears(), hu, fh)...)
 		if len(h.GetCfcYears()) > 0 {
-			rows = append(rows, yearRows("A/I in CO2-eq (CFC term)", h.GetCfcYears(), hu, f)...)
-			rows = append(rows, []string{fmt.Sprintf("CFC term in CO2-eq (%s %%)", fmtFull(h.GetCfcShare()*100)), "", f(h.GetCfcTerm()), hu, ""})
+			rows = append(rows, yearRows("A/I in CO2-eq (CFC term)", h.GetCfcYears(), hu, fh)...)
+			rows = append(rows, []string{fmt.Sprintf("CFC term in CO2-eq (%s %%)", shareText(h.GetCfcShareRatio())), "", fh(h.GetCfcTermAmount()), hu, ""})
 		}
-		rows = append(rows, []string{"HCFC baseline in CO2-eq", "", f(h.GetValue()), hu, completeWord(h.GetComplete())})
-		rows = append(rows, []string{fmt.Sprintf("HCFC component (%s %%)", fmtFull(resp.GetHcfcShare()*100)), "", f(resp.GetHcfcComponent()), u, ""})
+		rows = append(rows, []string{"HCFC baseline in CO2-eq", "", fh(h.GetBaselineAmount()), hu, completeWord(h.GetComplete())})
+		rows = append(rows, []string{fmt.Sprintf("HCFC component (%s %%)", shareText(resp.GetHcfcShareRatio())), "", fu(resp.GetHcfcComponentAmount()), u, ""})
 	}
-	rows = append(rows, []string{"baseline", "", f(resp.GetBaseline()), u, completeWord(resp.GetComplete())})
+	rows = append(rows, []string{"baseline", "", fu(resp.GetBaselineAmount()), u, completeWord(resp.GetComplete())})
 	return rows
 }
 
@@ -319,26 +299,25 @@ func writeBaseline(w io.Writer, resp *halovetv1.GetBaselineResponse, output stri
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"part", "year", "amount", "unit", "data"})
-		for _, r := range baselineRows(resp, fmtFull) {
+		for _, r := range baselineRows(resp, func(s string, _ halovetv1.ControlUnit) string { return s }) {
 			_ = cw.Write(r)
 		}
 		cw.Flush()
 		return cw.Error()
 	}
-	u := resp.GetUnit()
-	fmt.Fprintf(w, "Baseline for %s (%s schedule)\n", resp.GetAnnexGroup(), resp.GetAppliesTo())
+	u := unitText(resp.GetUnit())
+	fmt.Fprintf(w, "Baseline for %s (%s schedule)\n", resp.GetAnnexGroup(), scheduleText(resp.GetAppliesTo()))
 	fmt.Fprintf(w, "Rule: %s\n\n", resp.GetRule())
-	f := func(v float64) string { return fmtUnit(v, u) }
 	tw := newTable(w)
 	fmt.Fprintln(tw, "part\tyear\tamount\tunit\tdata\t")
-	for _, r := range baselineRows(resp, f) {
+	for _, r := range baselineRows(resp, showAmount) {
 		fmt.Fprintln(tw, strings.Join(r, "\t")+"\t")
 	}
 	if err := tw.Flush(); err != nil {
 		return err
 	}
 	if resp.GetComplete() {
-		fmt.Fprintf(w, "\nBaseline: %s %s\n", fmtUnit(resp.GetBaseline(), u), u)
+		fmt.Fprintf(w, "\nBaseline: %s %s\n", showAmount(resp.GetBaselineAmount(), resp.GetUnit()), u)
 	} else {
 		fmt.Fprintln(w, "\nThe baseline cannot be computed: data are missing.")
 		writeNotes(w, "Missing", resp.GetMissing())

@@ -28,20 +28,21 @@ import (
 // reportSample is an invented compliance answer: four years, one without data, one
 // exceeded, one under a period-average rule.
 func reportSample() *halovetv1.AssessComplianceResponse {
-	return &halovetv1.AssessComplianceResponse{AnnexGroup: "C/I", Unit: "ODP t", Baseline: 10, BaselineComplete: true,
-		AppliesTo: "A5", ScheduleSource: "rulebook test",
+	return &halovetv1.AssessComplianceResponse{AnnexGroup: "C/I", Unit: halovetv1.ControlUnit_CONTROL_UNIT_ODP_TONNES,
+		BaselineAmount: "10", BaselineComplete: true,
+		AppliesTo: halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5, ScheduleSource: "rulebook test",
 		Years: []*halovetv1.ComplianceYear{
-			{Year: 2028, Consumption: 3, Allowed: 3.25, AllowedPercent: 32.5, Headroom: 0.25, Within: true, HasData: true,
+			{Year: 2028, ConsumptionAmount: "3", AllowedAmount: "3.25", AllowedPercent: "32.5", HeadroomAmount: "0.25", Within: true, HasData: true,
 				Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN, Notes: []string{"step in force: 32.5 %"}},
-			{Year: 2029, Allowed: 3.25, AllowedPercent: 32.5, Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED,
+			{Year: 2029, AllowedAmount: "3.25", AllowedPercent: "32.5", Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_NOT_ASSESSED,
 				Notes: []string{"step in force: 32.5 %", "no data: no record for C/I (HCFCs) in 2029"}},
-			{Year: 2030, Consumption: 4, Allowed: 0.25, AllowedPercent: 2.5, Headroom: -0.75, HasData: true,
+			{Year: 2030, ConsumptionAmount: "4", AllowedAmount: "0.25", AllowedPercent: "2.5", HeadroomAmount: "-0.75", HasData: true,
 				Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_EXCEEDED, Notes: []string{"step in force: 0 %"},
-				Period: &halovetv1.PeriodAverage{FromYear: 2030, ToYear: 2039, Percent: 2.5, YearsCounted: 1, YearsRemaining: 9,
-					Sum: 4, RunningAverage: 4, RoomLeft: -1.5, Budget: 2.5}},
-			{Year: 2031, Consumption: -0.5, Allowed: 0.25, AllowedPercent: 2.5, Headroom: 0.2, HasData: true,
+				Period: &halovetv1.PeriodAverage{FromYear: 2030, ToYear: 2039, LimitPercent: "2.5", YearsCounted: 1, YearsRemaining: 9,
+					SumAmount: "4", RunningAverageAmount: "4", RoomLeftAmount: "-1.5", BudgetAmount: "2.5"}},
+			{Year: 2031, ConsumptionAmount: "-0.5", AllowedAmount: "0.25", AllowedPercent: "2.5", HeadroomAmount: "0.2", HasData: true,
 				Outcome: halovetv1.ComplianceOutcome_COMPLIANCE_OUTCOME_WITHIN, Notes: []string{"step in force: 0 %"},
-				Period: &halovetv1.PeriodAverage{FromYear: 2030, ToYear: 2039, RunningAverage: 1.75, RoomLeft: -1}},
+				Period: &halovetv1.PeriodAverage{FromYear: 2030, ToYear: 2039, RunningAverageAmount: "1.75", RoomLeftAmount: "-1"}},
 		}}
 }
 
@@ -53,7 +54,7 @@ func TestComplianceTextCSVJSON(t *testing.T) {
 	}
 	out := b.String()
 	for _, want := range []string{"consumption ODP t", "allowed ODP t", "headroom ODP t", "room left ODP t",
-		"EXCEEDED", "not assessed", "-0.750", "-0.500", "2028–2029: step in force: 32.5 %", "2030–2031: step in force: 0 %",
+		"EXCEEDED", "not assessed", "-0.75", "-0.5", "2028–2029: step in force: 32.5 %", "2030–2031: step in force: 0 %",
 		"decision support"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("text output lacks %q:\n%s", want, out)
@@ -61,7 +62,7 @@ func TestComplianceTextCSVJSON(t *testing.T) {
 	}
 	// The year without data shows no consumption figure rather than a 0.
 	for _, line := range strings.Split(out, "\n") {
-		if strings.Contains(line, "2029") && strings.Contains(line, "not assessed") && strings.Contains(line, "0.000") {
+		if f := strings.Fields(line); strings.Contains(line, "2029") && strings.Contains(line, "not assessed") && (len(f) < 2 || f[1] != "32.5") {
 			t.Errorf("2029 (no data) prints a figure: %q", line)
 		}
 	}
@@ -83,7 +84,7 @@ func TestComplianceTextCSVJSON(t *testing.T) {
 		t.Fatal(err)
 	}
 	back := &halovetv1.AssessComplianceResponse{}
-	if err := unmarshalDialect(b.Bytes(), back); err != nil || len(back.GetYears()) != 4 || back.GetYears()[2].GetPeriod().GetRoomLeft() != -1.5 {
+	if err := unmarshalDialect(b.Bytes(), back); err != nil || len(back.GetYears()) != 4 || back.GetYears()[2].GetPeriod().GetRoomLeftAmount() != "-1.5" {
 		t.Fatalf("json does not read back as the response: %v %v", err, back)
 	}
 }
@@ -92,17 +93,19 @@ func TestConsumptionTextAndCSV(t *testing.T) {
 	// Invented figures: HCFC-22 imports 10 t, exports 12 t (negative consumption), and
 	// R-408A's HFC-125 in F/I.
 	resp := &halovetv1.GetConsumptionResponse{Year: 2026, CountryCode: "XA", Notes: []string{"a note"}, Groups: []*halovetv1.GroupConsumption{
-		{AnnexGroup: "C/I", ConsumptionTonnes: -2, ConsumptionOdpTonnes: -0.11, Substances: []*halovetv1.SubstanceConsumption{
-			{Substance: "HCFC-22", ImportTonnes: 10, ExportTonnes: 12, ConsumptionTonnes: -2, ConsumptionOdpTonnes: -0.11, ConsumptionCo2ETonnes: -3620}}},
-		{AnnexGroup: "F/I", ConsumptionTonnes: 0.7, ConsumptionCo2ETonnes: 2450, Substances: []*halovetv1.SubstanceConsumption{
-			{Substance: "HFC-125", ImportTonnes: 0.7, ConsumptionTonnes: 0.7, ConsumptionCo2ETonnes: 2450}}},
+		{AnnexGroup: "C/I", ConsumptionTonnes: "-2", ConsumptionOdpTonnes: "-0.11", ConsumptionCo2ETonnes: "-3620", Substances: []*halovetv1.SubstanceConsumption{
+			{Substance: "HCFC-22", ProductionTonnes: "0", ImportTonnes: "10", ExportTonnes: "12", DestructionTonnes: "0", FeedstockTonnes: "0", QpsTonnes: "0",
+				NotCountedTonnes: "0", ExportNonPartyTonnes: "0", ConsumptionTonnes: "-2", ConsumptionOdpTonnes: "-0.11", ConsumptionCo2ETonnes: "-3620"}}},
+		{AnnexGroup: "F/I", ConsumptionTonnes: "0.7", ConsumptionOdpTonnes: "0", ConsumptionCo2ETonnes: "2450", Substances: []*halovetv1.SubstanceConsumption{
+			{Substance: "HFC-125", ProductionTonnes: "0", ImportTonnes: "0.7", ExportTonnes: "0", DestructionTonnes: "0", FeedstockTonnes: "0", QpsTonnes: "0",
+				NotCountedTonnes: "0", ExportNonPartyTonnes: "0", ConsumptionTonnes: "0.7", ConsumptionOdpTonnes: "0", ConsumptionCo2ETonnes: "2450"}}},
 	}}
 	var b bytes.Buffer
 	if err := writeConsumption(&b, resp, "text"); err != nil {
 		t.Fatal(err)
 	}
 	out := b.String()
-	for _, want := range []string{"Consumption of XA in 2026", "imports t", "ODP t", "CO2-eq t", "-0.110", "-2.000", "2450", "total", "a note", "decision support"} {
+	for _, want := range []string{"Consumption of XA in 2026", "imports t", "ODP t", "CO2-eq t", "-0.11", "-2", "2450", "total", "a note", "decision support"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("text lacks %q:\n%s", want, out)
 		}
@@ -122,10 +125,12 @@ func TestConsumptionTextAndCSV(t *testing.T) {
 }
 
 func TestBaselineTextNamesWhatIsMissing(t *testing.T) {
-	resp := &halovetv1.GetBaselineResponse{AnnexGroup: "F", Unit: "CO2-eq t", AppliesTo: "A5-group1", Rule: "mean F 2020–2022 + 65 %",
-		Years:        []*halovetv1.BaselineYear{{Year: 2020, Amount: 1000, HasData: true}, {Year: 2021}},
-		HcfcBaseline: &halovetv1.BaselinePart{AnnexGroup: "C/I", Unit: "CO2-eq t", Years: []*halovetv1.BaselineYear{{Year: 2009, Amount: 5, HasData: true}}},
-		HcfcShare:    0.65, Missing: []string{"F 2021: no consumption data for F (HFCs); enter the 2021 totals"}}
+	co2e := halovetv1.ControlUnit_CONTROL_UNIT_CO2E_TONNES
+	resp := &halovetv1.GetBaselineResponse{AnnexGroup: "F", Unit: co2e, AppliesTo: halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_FIRST_GROUP,
+		Rule:           "mean F 2020–2022 + 65 %",
+		Years:          []*halovetv1.BaselineYear{{Year: 2020, Amount: "1000", HasData: true}, {Year: 2021}},
+		HcfcBaseline:   &halovetv1.BaselinePart{AnnexGroup: "C/I", Unit: co2e, Years: []*halovetv1.BaselineYear{{Year: 2009, Amount: "5", HasData: true}}},
+		HcfcShareRatio: "0.65", Missing: []string{"F 2021: no consumption data for F (HFCs); enter the 2021 totals"}}
 	var b bytes.Buffer
 	if err := writeBaseline(&b, resp, "text"); err != nil {
 		t.Fatal(err)
@@ -335,9 +340,9 @@ func TestDemoConsumptionMatchesFile(t *testing.T) {
 	got := map[string]float64{}
 	for _, g := range resp.GetGroups() {
 		if strings.HasPrefix(g.GetAnnexGroup(), "F/") {
-			got[g.GetAnnexGroup()] = g.GetConsumptionCo2ETonnes()
+			got[g.GetAnnexGroup()] = wireDec(g.GetConsumptionCo2ETonnes()).Float64()
 		} else {
-			got[g.GetAnnexGroup()] = g.GetConsumptionOdpTonnes()
+			got[g.GetAnnexGroup()] = wireDec(g.GetConsumptionOdpTonnes()).Float64()
 		}
 	}
 	for g, want := range odp {
@@ -392,11 +397,11 @@ func TestEntriesAndReportsEndToEnd(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if math.Abs(b.GetBaseline()-14.4845) > 1e-9 {
-		t.Fatalf("baseline %v, want 14.4845 ODP t", b.GetBaseline())
+	if b.GetBaselineAmount() != "14.4845" {
+		t.Fatalf("baseline %q, want exactly 14.4845 ODP t", b.GetBaselineAmount())
 	}
 	var out bytes.Buffer
-	if err := writeBaseline(&out, b, "text"); err != nil || !strings.Contains(out.String(), "Baseline: 14.485 ODP t") {
+	if err := writeBaseline(&out, b, "text"); err != nil || !strings.Contains(out.String(), "Baseline: 14.4845 ODP t") {
 		t.Fatalf("baseline text (err %v):\n%s", err, out.String())
 	}
 	ac, err := c.AssessCompliance(ctx, &halovetv1.AssessComplianceRequest{AnnexGroup: "F", FromYear: 2024, ToYear: 2025})

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"fmt"
@@ -10,7 +11,6 @@ import (
 
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -42,12 +42,12 @@ FILE is one JSON object with any of the three arrays; field names as in the API
 (snake_case); "use" and "kind" take the words below. Amounts are in the scope's
 unit: ODP t for Annexes A to E, CO2-eq t for F (annex_group "F").
   {"official_figures": [{"figure_key": "XA-BASE-C/I", "kind": "baseline",
-     "annex_group": "C/I", "value": 12.5, "source": "Decision ..."}],
+     "annex_group": "C/I", "amount": "12.5", "source": "Decision ..."}],
    "exemptions": [{"exemption_key": "XA-CUE-2026", "year": 2026,
-     "annex_group": "E/I", "use": "critical", "amount": 1.2, "source": "Decision ..."}],
+     "annex_group": "E/I", "use": "critical", "amount": "1.2", "source": "Decision ..."}],
    "hfc23_entries": [{"entry_key": "PLANT-1-2026", "facility": "plant 1",
-     "year": 2026, "generated_tonnes": 12, "captured_used_tonnes": 2,
-     "destroyed_tonnes": 9, "emitted_tonnes": 1}]}
+     "year": 2026, "generated_tonnes": "12", "captured_used_tonnes": "2",
+     "destroyed_tonnes": "9", "emitted_tonnes": "1"}]}
 use: essential, critical (E/I only), laboratory, high-ambient-temperature (F only);
 kind: baseline (year 0) or limit (a year). country_code may be left out: the
 reporting Party.
@@ -88,7 +88,7 @@ func decodeItems[M proto.Message](where string, items []map[string]any, newMsg f
 			return nil, err
 		}
 		m := newMsg()
-		if err := protojson.Unmarshal(b, m); err != nil {
+		if err := unmarshalDialect(b, m); err != nil {
 			return nil, usageErr("%s[%d]: %v (see --help for the fields)", where, i, err)
 		}
 		out = append(out, m)
@@ -134,6 +134,7 @@ func storeYearFigures(ctx context.Context, conn *grpc.ClientConn, path string, w
 	var f yearFigureFile
 	dec := json.NewDecoder(strings.NewReader(string(raw)))
 	dec.DisallowUnknownFields()
+	dec.UseNumber() // figures keep the decimal they are written as
 	if err := dec.Decode(&f); err != nil {
 		return usageErr("%s: %v; the file is one JSON object with the arrays official_figures, exemptions, hfc23_entries (see --help)", path, err)
 	}
@@ -189,35 +190,63 @@ func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, outpu
 		return err
 	}
 	if output == "json" {
-		for _, m := range []proto.Message{off, ex, h23} {
-			if err := writeProtoJSON(w, m); err != nil {
-				return err
-			}
-		}
-		return nil
+		return writeYearFiguresJSON(w, off, ex, h23)
 	}
 	tw := newTable(w)
 	fmt.Fprintf(tw, "Official figures (%d)\n", len(off.GetFigures()))
-	fmt.Fprintln(tw, "key\tParty\tkind\tgroup\tyear\tvalue\tunit\tsource\t")
+	fmt.Fprintln(tw, "key\tParty\tkind\tgroup\tyear\tamount\tunit\tsource\t")
 	for _, f := range off.GetFigures() {
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t\n", f.GetFigureKey(), f.GetCountryCode(), enumWord(f.GetKind().Descriptor(), f.GetKind().Number()),
-			f.GetAnnexGroup(), f.GetYear(), fmtFull(f.GetValue()), f.GetUnit(), f.GetSource())
+			f.GetAnnexGroup(), f.GetYear(), showAmount(f.GetAmount(), f.GetUnit()), unitText(f.GetUnit()), f.GetSource())
 	}
 	fmt.Fprintf(tw, "\nAuthorised exemptions (%d)\n", len(ex.GetExemptions()))
 	fmt.Fprintln(tw, "key\tParty\tyear\tgroup\tuse\tamount\tunit\tsource\t")
 	for _, e := range ex.GetExemptions() {
 		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetExemptionKey(), e.GetCountryCode(), e.GetYear(), e.GetAnnexGroup(),
-			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), fmtFull(e.GetAmount()), e.GetUnit(), e.GetSource())
+			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), showAmount(e.GetAmount(), e.GetUnit()), unitText(e.GetUnit()), e.GetSource())
 	}
 	fmt.Fprintf(tw, "\nHFC-23 by-product per facility (%d)\n", len(h23.GetEntries()))
 	fmt.Fprintln(tw, "key\tfacility\tyear\tgenerated t\tcaptured for use t\tdestroyed t\temitted t\temitted CO2-eq t\t")
 	for _, e := range h23.GetEntries() {
-		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetEntryKey(), e.GetFacility(), e.GetYear(), fmtTonnes(e.GetGeneratedTonnes()),
-			fmtTonnes(e.GetCapturedUsedTonnes()), fmtTonnes(e.GetDestroyedTonnes()), fmtTonnes(e.GetEmittedTonnes()), fmtCO2e(e.GetEmittedCo2ETonnes()))
+		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetEntryKey(), e.GetFacility(), e.GetYear(), showT(e.GetGeneratedTonnes()),
+			showT(e.GetCapturedUsedTonnes()), showT(e.GetDestroyedTonnes()), showT(e.GetEmittedTonnes()), showCO2e(e.GetEmittedCo2ETonnes()))
 	}
 	if err := tw.Flush(); err != nil {
 		return err
 	}
 	_, err = io.WriteString(w, "\n"+reportFooter(nil))
+	return err
+}
+
+// writeYearFiguresJSON writes the three lists as one document in the command line's JSON
+// dialect, under the names the input file uses: {"official_figures": [...],
+// "exemptions": [...], "hfc23_entries": [...]}.
+func writeYearFiguresJSON(w io.Writer, off *halovetv1.ListOfficialFiguresResponse, ex *halovetv1.ListExemptionsResponse, h23 *halovetv1.ListHfc23EntriesResponse) error {
+	var b bytes.Buffer
+	b.WriteString("{\n")
+	parts := []struct {
+		name, field string
+		m           proto.Message
+	}{{"official_figures", "figures", off}, {"exemptions", "exemptions", ex}, {"hfc23_entries", "entries", h23}}
+	for i, p := range parts {
+		var one bytes.Buffer
+		if err := jsonDoc(&one, p.m); err != nil {
+			return err
+		}
+		var fields map[string]json.RawMessage
+		if err := json.Unmarshal(one.Bytes(), &fields); err != nil {
+			return fmt.Errorf("year figures: %w", err)
+		}
+		fmt.Fprintf(&b, "  %q: ", p.name)
+		if err := json.Indent(&b, fields[p.field], "  ", "  "); err != nil {
+			return fmt.Errorf("year figures: %w", err)
+		}
+		if i < len(parts)-1 {
+			b.WriteByte(',')
+		}
+		b.WriteByte('\n')
+	}
+	b.WriteString("}\n")
+	_, err := w.Write(b.Bytes())
 	return err
 }

@@ -126,8 +126,8 @@ func tradeRows(ls []*halovetv1.YearTradeLine) [][]string {
 	var out [][]string
 	for _, l := range ls {
 		row := []string{l.GetPartnerCountry(), l.GetSubstance(), l.GetAnnexGroup(), yesNo(l.GetPartnerNonParty()),
-			fmtFull(l.GetNewTonnes()), fmtFull(l.GetRecoveredTonnes()), fmtFull(l.GetFeedstockTonnes()), fmtFull(l.GetQpsTonnes()),
-			fmtFull(l.GetExemptedTonnes()), fmtFull(l.GetDestructionTonnes()), idsText(l.GetShipmentIds(), l.GetEntryKeys())}
+			l.GetNewTonnes(), l.GetRecoveredTonnes(), l.GetFeedstockTonnes(), l.GetQpsTonnes(),
+			l.GetExemptedTonnes(), l.GetDestructionTonnes(), idsText(l.GetShipmentIds(), l.GetEntryKeys())}
 		out = append(out, row)
 	}
 	return out
@@ -138,7 +138,7 @@ var qtyHeader = []string{"substance", "annex_group", "basis", "tonnes", "records
 func qtyRows(ls []*halovetv1.YearQuantityLine) [][]string {
 	var out [][]string
 	for _, l := range ls {
-		out = append(out, []string{l.GetSubstance(), l.GetAnnexGroup(), l.GetBasis(), fmtFull(l.GetTonnes()), idsText(l.GetShipmentIds(), l.GetEntryKeys())})
+		out = append(out, []string{l.GetSubstance(), l.GetAnnexGroup(), enumWord(l.GetBasis().Descriptor(), l.GetBasis().Number()), l.GetTonnes(), idsText(l.GetShipmentIds(), l.GetEntryKeys())})
 	}
 	return out
 }
@@ -154,10 +154,10 @@ func groupRows(gs []*halovetv1.YearGroupTotal) [][]string {
 			out = append(out, append([]string{g.GetAnnexGroup(), "no"}, make([]string, len(groupHeader)-2)...))
 			continue
 		}
-		out = append(out, []string{g.GetAnnexGroup(), yesNo(g.GetHasData()), fmtFull(g.GetProductionTonnes()), fmtFull(g.GetImportTonnes()),
-			fmtFull(g.GetExportTonnes()), fmtFull(g.GetDestructionTonnes()), fmtFull(g.GetFeedstockTonnes()), fmtFull(g.GetQpsTonnes()),
-			fmtFull(g.GetExportNonPartyTonnes()), fmtFull(g.GetConsumptionTonnes()), fmtFull(g.GetConsumptionOdpTonnes()),
-			fmtFull(g.GetConsumptionCo2ETonnes())})
+		out = append(out, []string{g.GetAnnexGroup(), yesNo(g.GetHasData()), g.GetProductionTonnes(), g.GetImportTonnes(),
+			g.GetExportTonnes(), g.GetDestructionTonnes(), g.GetFeedstockTonnes(), g.GetQpsTonnes(),
+			g.GetExportNonPartyTonnes(), g.GetConsumptionTonnes(), g.GetConsumptionOdpTonnes(),
+			g.GetConsumptionCo2ETonnes()})
 	}
 	return out
 }
@@ -167,8 +167,8 @@ var hfc23Header = []string{"facility", "year", "generated_t", "captured_used_t",
 func hfc23Rows(es []*halovetv1.Hfc23Entry) [][]string {
 	var out [][]string
 	for _, e := range es {
-		out = append(out, []string{e.GetFacility(), strconv.Itoa(int(e.GetYear())), fmtFull(e.GetGeneratedTonnes()), fmtFull(e.GetCapturedUsedTonnes()),
-			fmtFull(e.GetDestroyedTonnes()), fmtFull(e.GetEmittedTonnes()), fmtFull(e.GetEmittedCo2ETonnes()), e.GetEntryKey()})
+		out = append(out, []string{e.GetFacility(), strconv.Itoa(int(e.GetYear())), e.GetGeneratedTonnes(), e.GetCapturedUsedTonnes(),
+			e.GetDestroyedTonnes(), e.GetEmittedTonnes(), e.GetEmittedCo2ETonnes(), e.GetEntryKey()})
 	}
 	return out
 }
@@ -179,7 +179,7 @@ func exemptionRows(es []*halovetv1.AuthorisedExemption) [][]string {
 	var out [][]string
 	for _, e := range es {
 		out = append(out, []string{e.GetExemptionKey(), e.GetCountryCode(), strconv.Itoa(int(e.GetYear())), e.GetAnnexGroup(),
-			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), fmtFull(e.GetAmount()), e.GetUnit(), e.GetSource()})
+			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), e.GetAmount(), unitText(e.GetUnit()), e.GetSource()})
 	}
 	return out
 }
@@ -267,17 +267,17 @@ func writeFilesAtomically(dir string, files []yearFile) error {
 }
 
 func writeYearSummary(w io.Writer, rep *halovetv1.GetYearReportResponse, dir string) error {
-	fmt.Fprintf(w, "Data report of %s for %d (%s)\n\n", orNone(rep.GetCountryCode()), rep.GetYear(), rep.GetState())
+	fmt.Fprintf(w, "Data report of %s for %d (%s)\n\n", orNone(rep.GetCountryCode()), rep.GetYear(), enumWord(rep.GetState().Descriptor(), rep.GetState().Number()))
 	tw := newTable(w)
 	fmt.Fprintln(tw, "group\tproduction t\timports t\texports t\tdestroyed t\tfeedstock t\tQPS t\tto non-Parties t\tconsumption t\tODP t\tCO2-eq t\t")
 	for _, g := range rep.GetGroups() {
 		if !g.GetHasData() {
 			continue
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", g.GetAnnexGroup(), fmtTonnes(g.GetProductionTonnes()),
-			fmtTonnes(g.GetImportTonnes()), fmtTonnes(g.GetExportTonnes()), fmtTonnes(g.GetDestructionTonnes()), fmtTonnes(g.GetFeedstockTonnes()),
-			fmtTonnes(g.GetQpsTonnes()), fmtTonnes(g.GetExportNonPartyTonnes()), fmtTonnes(g.GetConsumptionTonnes()),
-			fmtTonnes(g.GetConsumptionOdpTonnes()), fmtCO2e(g.GetConsumptionCo2ETonnes()))
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", g.GetAnnexGroup(), showT(g.GetProductionTonnes()),
+			showT(g.GetImportTonnes()), showT(g.GetExportTonnes()), showT(g.GetDestructionTonnes()), showT(g.GetFeedstockTonnes()),
+			showT(g.GetQpsTonnes()), showT(g.GetExportNonPartyTonnes()), showT(g.GetConsumptionTonnes()),
+			showODP(g.GetConsumptionOdpTonnes()), showCO2e(g.GetConsumptionCo2ETonnes()))
 	}
 	if err := tw.Flush(); err != nil {
 		return err
@@ -304,8 +304,10 @@ func orNone(s string) string {
 // yearHTML is the printable page. Figures are the CSV files' (full precision); the layout
 // and headings are our own.
 var yearHTML = template.Must(template.New("year").Funcs(template.FuncMap{
-	"t": fmtFull, "ids": idsText, "yn": yesNo,
-	"use": func(u halovetv1.ExemptedUse) string { return enumWord(u.Descriptor(), u.Number()) },
+	"t": asIs, "ids": idsText, "yn": yesNo, "unit": unitText,
+	"use":   func(u halovetv1.ExemptedUse) string { return enumWord(u.Descriptor(), u.Number()) },
+	"basis": func(b halovetv1.QuantityBasis) string { return enumWord(b.Descriptor(), b.Number()) },
+	"state": func(s halovetv1.ReportState) string { return enumWord(s.Descriptor(), s.Number()) },
 }).Parse(`<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -322,7 +324,7 @@ td.ids { font-size: 8pt; text-align: left; max-width: 20em; }
 </head>
 <body>
 <h1>Data report of {{if .CountryCode}}{{.CountryCode}}{{else}}(no reporting Party configured){{end}} for {{.Year}}</h1>
-<p>State: {{.State}}. Figures in metric tonnes unless marked; every line names the records behind it.</p>
+<p>State: {{state .State}}. Figures in metric tonnes unless marked; every line names the records behind it.</p>
 <h2>Totals per Annex group</h2>
 <table><tr><th>group</th><th>data</th><th>production</th><th>imports</th><th>exports</th><th>destroyed</th><th>feedstock</th><th>QPS</th><th>to non-Parties</th><th>consumption</th><th>ODP t</th><th>CO2-eq t</th></tr>
 {{range .Groups}}{{if not .HasData}}<tr><td>{{.AnnexGroup}}</td><td class="text" colspan="11">no data (not zero)</td></tr>
@@ -332,7 +334,7 @@ td.ids { font-size: 8pt; text-align: left; max-width: 20em; }
 {{range .}}<tr><td>{{.PartnerCountry}}</td><td class="text">{{.Substance}}</td><td class="text">{{.AnnexGroup}}</td><td class="text">{{yn .PartnerNonParty}}</td><td>{{t .NewTonnes}}</td><td>{{t .RecoveredTonnes}}</td><td>{{t .FeedstockTonnes}}</td><td>{{t .QpsTonnes}}</td><td>{{t .ExemptedTonnes}}</td><td>{{t .DestructionTonnes}}</td><td class="ids">{{ids .ShipmentIds .EntryKeys}}</td></tr>
 {{end}}</table>{{end}}
 {{define "qty"}}<table><tr><th>substance</th><th>group</th><th>basis</th><th>tonnes</th><th>records</th></tr>
-{{range .}}<tr><td>{{.Substance}}</td><td class="text">{{.AnnexGroup}}</td><td class="text">{{.Basis}}</td><td>{{t .Tonnes}}</td><td class="ids">{{ids .ShipmentIds .EntryKeys}}</td></tr>
+{{range .}}<tr><td>{{.Substance}}</td><td class="text">{{.AnnexGroup}}</td><td class="text">{{basis .Basis}}</td><td>{{t .Tonnes}}</td><td class="ids">{{ids .ShipmentIds .EntryKeys}}</td></tr>
 {{end}}</table>{{end}}
 <h2>Imports by exporting country</h2>{{template "trade" .Imports}}
 <h2>Exports by destination</h2>{{template "trade" .Exports}}
@@ -348,7 +350,7 @@ td.ids { font-size: 8pt; text-align: left; max-width: 20em; }
 {{end}}</table>
 <h2>Authorised exemptions</h2>
 <table><tr><th>use</th><th>group</th><th>amount</th><th>unit</th><th>source</th><th>key</th></tr>
-{{range .Exemptions}}<tr><td>{{use .Use}}</td><td class="text">{{.AnnexGroup}}</td><td>{{t .Amount}}</td><td class="text">{{.Unit}}</td><td class="text">{{.Source}}</td><td class="text">{{.ExemptionKey}}</td></tr>
+{{range .Exemptions}}<tr><td>{{use .Use}}</td><td class="text">{{.AnnexGroup}}</td><td>{{t .Amount}}</td><td class="text">{{unit .Unit}}</td><td class="text">{{.Source}}</td><td class="text">{{.ExemptionKey}}</td></tr>
 {{end}}</table>
 {{if .Notes}}<h2>Notes</h2><ul>{{range .Notes}}<li>{{.}}</li>{{end}}</ul>{{end}}
 <p><small>` + decisionSupportNotice + ` Refrigerants are asphyxiants in confined spaces, cause frostbite on contact and decompose to toxic and corrosive products in flames; ASHRAE 34 class A2L, A2 and A3 refrigerants are flammable, class B ones of higher toxicity.</small></p>

@@ -22,6 +22,242 @@ const (
 	_ = protoimpl.EnforceVersion(protoimpl.MaxVersion - 20)
 )
 
+// ControlUnit is the unit a control scope's figures are counted in (Art. 3 of
+// the Protocol: ODP-weighted for Annexes A to E, CO2-equivalent for Annex F).
+type ControlUnit int32
+
+const (
+	// Not set.
+	ControlUnit_CONTROL_UNIT_UNSPECIFIED ControlUnit = 0
+	// Metric tonnes times ODP (Annexes A to E).
+	ControlUnit_CONTROL_UNIT_ODP_TONNES ControlUnit = 1
+	// Metric tonnes times the Protocol's 100-year GWP, tonnes CO2-equivalent (Annex F).
+	ControlUnit_CONTROL_UNIT_CO2E_TONNES ControlUnit = 2
+)
+
+// Enum value maps for ControlUnit.
+var (
+	ControlUnit_name = map[int32]string{
+		0: "CONTROL_UNIT_UNSPECIFIED",
+		1: "CONTROL_UNIT_ODP_TONNES",
+		2: "CONTROL_UNIT_CO2E_TONNES",
+	}
+	ControlUnit_value = map[string]int32{
+		"CONTROL_UNIT_UNSPECIFIED": 0,
+		"CONTROL_UNIT_ODP_TONNES":  1,
+		"CONTROL_UNIT_CO2E_TONNES": 2,
+	}
+)
+
+func (x ControlUnit) Enum() *ControlUnit {
+	p := new(ControlUnit)
+	*p = x
+	return p
+}
+
+func (x ControlUnit) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (ControlUnit) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_consumption_proto_enumTypes[0].Descriptor()
+}
+
+func (ControlUnit) Type() protoreflect.EnumType {
+	return &file_halovet_v1_consumption_proto_enumTypes[0]
+}
+
+func (x ControlUnit) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use ControlUnit.Descriptor instead.
+func (ControlUnit) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{0}
+}
+
+// ControlSchedule is the set of control steps and the baseline a Party follows
+// for a scope, by its type (Article 5 or not) and, for HFCs, its group under the
+// Kigali Amendment.
+type ControlSchedule int32
+
+const (
+	// Not set.
+	ControlSchedule_CONTROL_SCHEDULE_UNSPECIFIED ControlSchedule = 0
+	// A Party not operating under Article 5 para 1.
+	ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5 ControlSchedule = 1
+	// A Party operating under Article 5 para 1.
+	ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5 ControlSchedule = 2
+	// HFCs: the non-Article 5 Parties with the later start (Art. 2J para 1 and its footnote).
+	ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5_HFC_LATER_START ControlSchedule = 3
+	// HFCs: an Article 5 Party of the first group (Art. 5 para 8 qua, baseline 2020-2022).
+	ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_FIRST_GROUP ControlSchedule = 4
+	// HFCs: an Article 5 Party of the second group (Art. 5 para 8 qua, baseline 2024-2026).
+	ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_SECOND_GROUP ControlSchedule = 5
+)
+
+// Enum value maps for ControlSchedule.
+var (
+	ControlSchedule_name = map[int32]string{
+		0: "CONTROL_SCHEDULE_UNSPECIFIED",
+		1: "CONTROL_SCHEDULE_NON_ARTICLE_5",
+		2: "CONTROL_SCHEDULE_ARTICLE_5",
+		3: "CONTROL_SCHEDULE_NON_ARTICLE_5_HFC_LATER_START",
+		4: "CONTROL_SCHEDULE_ARTICLE_5_HFC_FIRST_GROUP",
+		5: "CONTROL_SCHEDULE_ARTICLE_5_HFC_SECOND_GROUP",
+	}
+	ControlSchedule_value = map[string]int32{
+		"CONTROL_SCHEDULE_UNSPECIFIED":                   0,
+		"CONTROL_SCHEDULE_NON_ARTICLE_5":                 1,
+		"CONTROL_SCHEDULE_ARTICLE_5":                     2,
+		"CONTROL_SCHEDULE_NON_ARTICLE_5_HFC_LATER_START": 3,
+		"CONTROL_SCHEDULE_ARTICLE_5_HFC_FIRST_GROUP":     4,
+		"CONTROL_SCHEDULE_ARTICLE_5_HFC_SECOND_GROUP":    5,
+	}
+)
+
+func (x ControlSchedule) Enum() *ControlSchedule {
+	p := new(ControlSchedule)
+	*p = x
+	return p
+}
+
+func (x ControlSchedule) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (ControlSchedule) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_consumption_proto_enumTypes[1].Descriptor()
+}
+
+func (ControlSchedule) Type() protoreflect.EnumType {
+	return &file_halovet_v1_consumption_proto_enumTypes[1]
+}
+
+func (x ControlSchedule) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use ControlSchedule.Descriptor instead.
+func (ControlSchedule) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{1}
+}
+
+// QuantityBasis says where a quantity of the year report comes from.
+type QuantityBasis int32
+
+const (
+	// Not set.
+	QuantityBasis_QUANTITY_BASIS_UNSPECIFIED QuantityBasis = 0
+	// Recorded shipments, by their declared purpose.
+	QuantityBasis_QUANTITY_BASIS_SHIPMENTS QuantityBasis = 1
+	// National entries covering quantities that never passed customs.
+	QuantityBasis_QUANTITY_BASIS_OUTSIDE_CUSTOMS QuantityBasis = 2
+	// National entries stating the whole year's quantity.
+	QuantityBasis_QUANTITY_BASIS_WHOLE_YEAR QuantityBasis = 3
+	// National entries of production.
+	QuantityBasis_QUANTITY_BASIS_NATIONAL_ENTRY QuantityBasis = 4
+)
+
+// Enum value maps for QuantityBasis.
+var (
+	QuantityBasis_name = map[int32]string{
+		0: "QUANTITY_BASIS_UNSPECIFIED",
+		1: "QUANTITY_BASIS_SHIPMENTS",
+		2: "QUANTITY_BASIS_OUTSIDE_CUSTOMS",
+		3: "QUANTITY_BASIS_WHOLE_YEAR",
+		4: "QUANTITY_BASIS_NATIONAL_ENTRY",
+	}
+	QuantityBasis_value = map[string]int32{
+		"QUANTITY_BASIS_UNSPECIFIED":     0,
+		"QUANTITY_BASIS_SHIPMENTS":       1,
+		"QUANTITY_BASIS_OUTSIDE_CUSTOMS": 2,
+		"QUANTITY_BASIS_WHOLE_YEAR":      3,
+		"QUANTITY_BASIS_NATIONAL_ENTRY":  4,
+	}
+)
+
+func (x QuantityBasis) Enum() *QuantityBasis {
+	p := new(QuantityBasis)
+	*p = x
+	return p
+}
+
+func (x QuantityBasis) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (QuantityBasis) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_consumption_proto_enumTypes[2].Descriptor()
+}
+
+func (QuantityBasis) Type() protoreflect.EnumType {
+	return &file_halovet_v1_consumption_proto_enumTypes[2]
+}
+
+func (x QuantityBasis) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use QuantityBasis.Descriptor instead.
+func (QuantityBasis) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{2}
+}
+
+// ReportState says whether a year report may still change.
+type ReportState int32
+
+const (
+	// Not set.
+	ReportState_REPORT_STATE_UNSPECIFIED ReportState = 0
+	// The year is open: its figures may still change.
+	ReportState_REPORT_STATE_PROVISIONAL ReportState = 1
+	// The year is closed: the report stays the same until it is reopened (the
+	// notes say since when, by whom and why).
+	ReportState_REPORT_STATE_CLOSED ReportState = 2
+)
+
+// Enum value maps for ReportState.
+var (
+	ReportState_name = map[int32]string{
+		0: "REPORT_STATE_UNSPECIFIED",
+		1: "REPORT_STATE_PROVISIONAL",
+		2: "REPORT_STATE_CLOSED",
+	}
+	ReportState_value = map[string]int32{
+		"REPORT_STATE_UNSPECIFIED": 0,
+		"REPORT_STATE_PROVISIONAL": 1,
+		"REPORT_STATE_CLOSED":      2,
+	}
+)
+
+func (x ReportState) Enum() *ReportState {
+	p := new(ReportState)
+	*p = x
+	return p
+}
+
+func (x ReportState) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (ReportState) Descriptor() protoreflect.EnumDescriptor {
+	return file_halovet_v1_consumption_proto_enumTypes[3].Descriptor()
+}
+
+func (ReportState) Type() protoreflect.EnumType {
+	return &file_halovet_v1_consumption_proto_enumTypes[3]
+}
+
+func (x ReportState) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use ReportState.Descriptor instead.
+func (ReportState) EnumDescriptor() ([]byte, []int) {
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{3}
+}
+
 // EntryType is the kind of a national entry.
 type EntryType int32
 
@@ -79,11 +315,11 @@ func (x EntryType) String() string {
 }
 
 func (EntryType) Descriptor() protoreflect.EnumDescriptor {
-	return file_halovet_v1_consumption_proto_enumTypes[0].Descriptor()
+	return file_halovet_v1_consumption_proto_enumTypes[4].Descriptor()
 }
 
 func (EntryType) Type() protoreflect.EnumType {
-	return &file_halovet_v1_consumption_proto_enumTypes[0]
+	return &file_halovet_v1_consumption_proto_enumTypes[4]
 }
 
 func (x EntryType) Number() protoreflect.EnumNumber {
@@ -92,7 +328,7 @@ func (x EntryType) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use EntryType.Descriptor instead.
 func (EntryType) EnumDescriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{0}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{4}
 }
 
 // ComplianceOutcome is the verdict for one year.
@@ -136,11 +372,11 @@ func (x ComplianceOutcome) String() string {
 }
 
 func (ComplianceOutcome) Descriptor() protoreflect.EnumDescriptor {
-	return file_halovet_v1_consumption_proto_enumTypes[1].Descriptor()
+	return file_halovet_v1_consumption_proto_enumTypes[5].Descriptor()
 }
 
 func (ComplianceOutcome) Type() protoreflect.EnumType {
-	return &file_halovet_v1_consumption_proto_enumTypes[1]
+	return &file_halovet_v1_consumption_proto_enumTypes[5]
 }
 
 func (x ComplianceOutcome) Number() protoreflect.EnumNumber {
@@ -149,7 +385,7 @@ func (x ComplianceOutcome) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use ComplianceOutcome.Descriptor instead.
 func (ComplianceOutcome) EnumDescriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{1}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{5}
 }
 
 // ExemptedUse is the kind of an authorised exemption.
@@ -197,11 +433,11 @@ func (x ExemptedUse) String() string {
 }
 
 func (ExemptedUse) Descriptor() protoreflect.EnumDescriptor {
-	return file_halovet_v1_consumption_proto_enumTypes[2].Descriptor()
+	return file_halovet_v1_consumption_proto_enumTypes[6].Descriptor()
 }
 
 func (ExemptedUse) Type() protoreflect.EnumType {
-	return &file_halovet_v1_consumption_proto_enumTypes[2]
+	return &file_halovet_v1_consumption_proto_enumTypes[6]
 }
 
 func (x ExemptedUse) Number() protoreflect.EnumNumber {
@@ -210,7 +446,7 @@ func (x ExemptedUse) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use ExemptedUse.Descriptor instead.
 func (ExemptedUse) EnumDescriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{2}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{6}
 }
 
 // OfficialFigureKind says what an official figure sets.
@@ -250,11 +486,11 @@ func (x OfficialFigureKind) String() string {
 }
 
 func (OfficialFigureKind) Descriptor() protoreflect.EnumDescriptor {
-	return file_halovet_v1_consumption_proto_enumTypes[3].Descriptor()
+	return file_halovet_v1_consumption_proto_enumTypes[7].Descriptor()
 }
 
 func (OfficialFigureKind) Type() protoreflect.EnumType {
-	return &file_halovet_v1_consumption_proto_enumTypes[3]
+	return &file_halovet_v1_consumption_proto_enumTypes[7]
 }
 
 func (x OfficialFigureKind) Number() protoreflect.EnumNumber {
@@ -263,7 +499,7 @@ func (x OfficialFigureKind) Number() protoreflect.EnumNumber {
 
 // Deprecated: Use OfficialFigureKind.Descriptor instead.
 func (OfficialFigureKind) EnumDescriptor() ([]byte, []int) {
-	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{3}
+	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{7}
 }
 
 // NationalEntry is one quantity of one substance in one year.
@@ -278,7 +514,7 @@ type NationalEntry struct {
 	// Substance designation (single substances only; split blends first).
 	Substance string `protobuf:"bytes,4,opt,name=substance,proto3" json:"substance,omitempty"`
 	// Metric tonnes of substance.
-	MetricTonnes float64 `protobuf:"fixed64,5,opt,name=metric_tonnes,json=metricTonnes,proto3" json:"metric_tonnes,omitempty"`
+	MetricTonnes string `protobuf:"bytes,5,opt,name=metric_tonnes,json=metricTonnes,proto3" json:"metric_tonnes,omitempty"`
 	// Free note, e.g. the facility or the source document.
 	Note string `protobuf:"bytes,6,opt,name=note,proto3" json:"note,omitempty"`
 	// For FEEDSTOCK, QPS and DESTRUCTION entries: true when the entry covers only
@@ -351,11 +587,11 @@ func (x *NationalEntry) GetSubstance() string {
 	return ""
 }
 
-func (x *NationalEntry) GetMetricTonnes() float64 {
+func (x *NationalEntry) GetMetricTonnes() string {
 	if x != nil {
 		return x.MetricTonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *NationalEntry) GetNote() string {
@@ -598,27 +834,27 @@ type SubstanceConsumption struct {
 	// Designation.
 	Substance string `protobuf:"bytes,1,opt,name=substance,proto3" json:"substance,omitempty"`
 	// Production, metric tonnes.
-	ProductionTonnes float64 `protobuf:"fixed64,2,opt,name=production_tonnes,json=productionTonnes,proto3" json:"production_tonnes,omitempty"`
+	ProductionTonnes string `protobuf:"bytes,2,opt,name=production_tonnes,json=productionTonnes,proto3" json:"production_tonnes,omitempty"`
 	// Imports counted, metric tonnes.
-	ImportTonnes float64 `protobuf:"fixed64,3,opt,name=import_tonnes,json=importTonnes,proto3" json:"import_tonnes,omitempty"`
+	ImportTonnes string `protobuf:"bytes,3,opt,name=import_tonnes,json=importTonnes,proto3" json:"import_tonnes,omitempty"`
 	// Exports deducted, metric tonnes (exports to non-Parties excluded).
-	ExportTonnes float64 `protobuf:"fixed64,4,opt,name=export_tonnes,json=exportTonnes,proto3" json:"export_tonnes,omitempty"`
+	ExportTonnes string `protobuf:"bytes,4,opt,name=export_tonnes,json=exportTonnes,proto3" json:"export_tonnes,omitempty"`
 	// Destroyed, metric tonnes (deducted).
-	DestructionTonnes float64 `protobuf:"fixed64,5,opt,name=destruction_tonnes,json=destructionTonnes,proto3" json:"destruction_tonnes,omitempty"`
+	DestructionTonnes string `protobuf:"bytes,5,opt,name=destruction_tonnes,json=destructionTonnes,proto3" json:"destruction_tonnes,omitempty"`
 	// Used as feedstock, metric tonnes (deducted).
-	FeedstockTonnes float64 `protobuf:"fixed64,6,opt,name=feedstock_tonnes,json=feedstockTonnes,proto3" json:"feedstock_tonnes,omitempty"`
+	FeedstockTonnes string `protobuf:"bytes,6,opt,name=feedstock_tonnes,json=feedstockTonnes,proto3" json:"feedstock_tonnes,omitempty"`
 	// QPS use (methyl bromide), metric tonnes (deducted).
-	QpsTonnes float64 `protobuf:"fixed64,7,opt,name=qps_tonnes,json=qpsTonnes,proto3" json:"qps_tonnes,omitempty"`
+	QpsTonnes string `protobuf:"bytes,7,opt,name=qps_tonnes,json=qpsTonnes,proto3" json:"qps_tonnes,omitempty"`
 	// Imports and exports not counted (used, recycled, reclaimed; transit), metric tonnes.
-	NotCountedTonnes float64 `protobuf:"fixed64,8,opt,name=not_counted_tonnes,json=notCountedTonnes,proto3" json:"not_counted_tonnes,omitempty"`
+	NotCountedTonnes string `protobuf:"bytes,8,opt,name=not_counted_tonnes,json=notCountedTonnes,proto3" json:"not_counted_tonnes,omitempty"`
 	// Exports to non-Parties, metric tonnes (reported, not deducted).
-	ExportNonPartyTonnes float64 `protobuf:"fixed64,9,opt,name=export_non_party_tonnes,json=exportNonPartyTonnes,proto3" json:"export_non_party_tonnes,omitempty"`
+	ExportNonPartyTonnes string `protobuf:"bytes,9,opt,name=export_non_party_tonnes,json=exportNonPartyTonnes,proto3" json:"export_non_party_tonnes,omitempty"`
 	// Consumption in metric tonnes.
-	ConsumptionTonnes float64 `protobuf:"fixed64,10,opt,name=consumption_tonnes,json=consumptionTonnes,proto3" json:"consumption_tonnes,omitempty"`
+	ConsumptionTonnes string `protobuf:"bytes,10,opt,name=consumption_tonnes,json=consumptionTonnes,proto3" json:"consumption_tonnes,omitempty"`
 	// Consumption in ODP tonnes.
-	ConsumptionOdpTonnes float64 `protobuf:"fixed64,11,opt,name=consumption_odp_tonnes,json=consumptionOdpTonnes,proto3" json:"consumption_odp_tonnes,omitempty"`
+	ConsumptionOdpTonnes string `protobuf:"bytes,11,opt,name=consumption_odp_tonnes,json=consumptionOdpTonnes,proto3" json:"consumption_odp_tonnes,omitempty"`
 	// Consumption in CO2-eq tonnes (Protocol GWPs).
-	ConsumptionCo2ETonnes float64 `protobuf:"fixed64,12,opt,name=consumption_co2e_tonnes,json=consumptionCo2eTonnes,proto3" json:"consumption_co2e_tonnes,omitempty"`
+	ConsumptionCo2ETonnes string `protobuf:"bytes,12,opt,name=consumption_co2e_tonnes,json=consumptionCo2eTonnes,proto3" json:"consumption_co2e_tonnes,omitempty"`
 	unknownFields         protoimpl.UnknownFields
 	sizeCache             protoimpl.SizeCache
 }
@@ -660,81 +896,81 @@ func (x *SubstanceConsumption) GetSubstance() string {
 	return ""
 }
 
-func (x *SubstanceConsumption) GetProductionTonnes() float64 {
+func (x *SubstanceConsumption) GetProductionTonnes() string {
 	if x != nil {
 		return x.ProductionTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetImportTonnes() float64 {
+func (x *SubstanceConsumption) GetImportTonnes() string {
 	if x != nil {
 		return x.ImportTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetExportTonnes() float64 {
+func (x *SubstanceConsumption) GetExportTonnes() string {
 	if x != nil {
 		return x.ExportTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetDestructionTonnes() float64 {
+func (x *SubstanceConsumption) GetDestructionTonnes() string {
 	if x != nil {
 		return x.DestructionTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetFeedstockTonnes() float64 {
+func (x *SubstanceConsumption) GetFeedstockTonnes() string {
 	if x != nil {
 		return x.FeedstockTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetQpsTonnes() float64 {
+func (x *SubstanceConsumption) GetQpsTonnes() string {
 	if x != nil {
 		return x.QpsTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetNotCountedTonnes() float64 {
+func (x *SubstanceConsumption) GetNotCountedTonnes() string {
 	if x != nil {
 		return x.NotCountedTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetExportNonPartyTonnes() float64 {
+func (x *SubstanceConsumption) GetExportNonPartyTonnes() string {
 	if x != nil {
 		return x.ExportNonPartyTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetConsumptionTonnes() float64 {
+func (x *SubstanceConsumption) GetConsumptionTonnes() string {
 	if x != nil {
 		return x.ConsumptionTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetConsumptionOdpTonnes() float64 {
+func (x *SubstanceConsumption) GetConsumptionOdpTonnes() string {
 	if x != nil {
 		return x.ConsumptionOdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *SubstanceConsumption) GetConsumptionCo2ETonnes() float64 {
+func (x *SubstanceConsumption) GetConsumptionCo2ETonnes() string {
 	if x != nil {
 		return x.ConsumptionCo2ETonnes
 	}
-	return 0
+	return ""
 }
 
 // GroupConsumption is one Annex group's consumption in one year.
@@ -745,11 +981,11 @@ type GroupConsumption struct {
 	// Per-substance arithmetic.
 	Substances []*SubstanceConsumption `protobuf:"bytes,2,rep,name=substances,proto3" json:"substances,omitempty"`
 	// Consumption in metric tonnes.
-	ConsumptionTonnes float64 `protobuf:"fixed64,3,opt,name=consumption_tonnes,json=consumptionTonnes,proto3" json:"consumption_tonnes,omitempty"`
+	ConsumptionTonnes string `protobuf:"bytes,3,opt,name=consumption_tonnes,json=consumptionTonnes,proto3" json:"consumption_tonnes,omitempty"`
 	// Consumption in ODP tonnes (the figure compared for Annexes A to E).
-	ConsumptionOdpTonnes float64 `protobuf:"fixed64,4,opt,name=consumption_odp_tonnes,json=consumptionOdpTonnes,proto3" json:"consumption_odp_tonnes,omitempty"`
+	ConsumptionOdpTonnes string `protobuf:"bytes,4,opt,name=consumption_odp_tonnes,json=consumptionOdpTonnes,proto3" json:"consumption_odp_tonnes,omitempty"`
 	// Consumption in CO2-eq tonnes (the figure compared for Annex F).
-	ConsumptionCo2ETonnes float64 `protobuf:"fixed64,5,opt,name=consumption_co2e_tonnes,json=consumptionCo2eTonnes,proto3" json:"consumption_co2e_tonnes,omitempty"`
+	ConsumptionCo2ETonnes string `protobuf:"bytes,5,opt,name=consumption_co2e_tonnes,json=consumptionCo2eTonnes,proto3" json:"consumption_co2e_tonnes,omitempty"`
 	unknownFields         protoimpl.UnknownFields
 	sizeCache             protoimpl.SizeCache
 }
@@ -798,25 +1034,25 @@ func (x *GroupConsumption) GetSubstances() []*SubstanceConsumption {
 	return nil
 }
 
-func (x *GroupConsumption) GetConsumptionTonnes() float64 {
+func (x *GroupConsumption) GetConsumptionTonnes() string {
 	if x != nil {
 		return x.ConsumptionTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *GroupConsumption) GetConsumptionOdpTonnes() float64 {
+func (x *GroupConsumption) GetConsumptionOdpTonnes() string {
 	if x != nil {
 		return x.ConsumptionOdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *GroupConsumption) GetConsumptionCo2ETonnes() float64 {
+func (x *GroupConsumption) GetConsumptionCo2ETonnes() string {
 	if x != nil {
 		return x.ConsumptionCo2ETonnes
 	}
-	return 0
+	return ""
 }
 
 // GetConsumptionRequest names a year.
@@ -974,10 +1210,11 @@ type BaselineYear struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Year.
 	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
-	// Consumption that year in the baseline's unit.
-	Amount float64 `protobuf:"fixed64,2,opt,name=amount,proto3" json:"amount,omitempty"`
-	// False when no data of the group exist for the year (amount is then 0 and
-	// the baseline incomplete).
+	// Consumption that year in the baseline's unit (decimal string; "0" when
+	// the year's data add up to zero).
+	Amount string `protobuf:"bytes,2,opt,name=amount,proto3" json:"amount,omitempty"`
+	// False when no data of the group exist for the year (amount is then absent
+	// and the baseline incomplete).
 	HasData       bool `protobuf:"varint,3,opt,name=has_data,json=hasData,proto3" json:"has_data,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -1020,11 +1257,11 @@ func (x *BaselineYear) GetYear() int32 {
 	return 0
 }
 
-func (x *BaselineYear) GetAmount() float64 {
+func (x *BaselineYear) GetAmount() string {
 	if x != nil {
 		return x.Amount
 	}
-	return 0
+	return ""
 }
 
 func (x *BaselineYear) GetHasData() bool {
@@ -1040,20 +1277,22 @@ type BaselinePart struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Annex/Group ("C/I").
 	AnnexGroup string `protobuf:"bytes,1,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
-	// Unit: "CO2-eq t".
-	Unit string `protobuf:"bytes,2,opt,name=unit,proto3" json:"unit,omitempty"`
-	// Value; meaningless when complete is false.
-	Value float64 `protobuf:"fixed64,3,opt,name=value,proto3" json:"value,omitempty"`
-	// Mean of the base years.
-	Mean float64 `protobuf:"fixed64,4,opt,name=mean,proto3" json:"mean,omitempty"`
+	// Unit of the amounts: CONTROL_UNIT_CO2E_TONNES.
+	Unit ControlUnit `protobuf:"varint,2,opt,name=unit,proto3,enum=halovet.v1.ControlUnit" json:"unit,omitempty"`
+	// The baseline, in unit; absent when complete is false.
+	BaselineAmount string `protobuf:"bytes,3,opt,name=baseline_amount,json=baselineAmount,proto3" json:"baseline_amount,omitempty"`
+	// Mean of the base years, in unit; absent when complete is false.
+	MeanAmount string `protobuf:"bytes,4,opt,name=mean_amount,json=meanAmount,proto3" json:"mean_amount,omitempty"`
 	// Base years and their values.
 	Years []*BaselineYear `protobuf:"bytes,5,rep,name=years,proto3" json:"years,omitempty"`
-	// Share of Annex A Group I consumption added (0.028 for non-Article 5), 0 when none.
-	CfcShare float64 `protobuf:"fixed64,6,opt,name=cfc_share,json=cfcShare,proto3" json:"cfc_share,omitempty"`
+	// Share of Annex A Group I consumption added, as a fraction ("0.028" for
+	// non-Article 5); absent when the rule adds none.
+	CfcShareRatio string `protobuf:"bytes,6,opt,name=cfc_share_ratio,json=cfcShareRatio,proto3" json:"cfc_share_ratio,omitempty"`
 	// Annex A Group I consumption in the base years, in this unit.
 	CfcYears []*BaselineYear `protobuf:"bytes,7,rep,name=cfc_years,json=cfcYears,proto3" json:"cfc_years,omitempty"`
-	// cfc_share times the mean of cfc_years.
-	CfcTerm float64 `protobuf:"fixed64,8,opt,name=cfc_term,json=cfcTerm,proto3" json:"cfc_term,omitempty"`
+	// cfc_share_ratio times the mean of cfc_years, in unit; absent when the rule
+	// adds no CFC term.
+	CfcTermAmount string `protobuf:"bytes,8,opt,name=cfc_term_amount,json=cfcTermAmount,proto3" json:"cfc_term_amount,omitempty"`
 	// False when data are missing.
 	Complete bool `protobuf:"varint,9,opt,name=complete,proto3" json:"complete,omitempty"`
 	// The rule applied, with its source.
@@ -1099,25 +1338,25 @@ func (x *BaselinePart) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *BaselinePart) GetUnit() string {
+func (x *BaselinePart) GetUnit() ControlUnit {
 	if x != nil {
 		return x.Unit
+	}
+	return ControlUnit_CONTROL_UNIT_UNSPECIFIED
+}
+
+func (x *BaselinePart) GetBaselineAmount() string {
+	if x != nil {
+		return x.BaselineAmount
 	}
 	return ""
 }
 
-func (x *BaselinePart) GetValue() float64 {
+func (x *BaselinePart) GetMeanAmount() string {
 	if x != nil {
-		return x.Value
+		return x.MeanAmount
 	}
-	return 0
-}
-
-func (x *BaselinePart) GetMean() float64 {
-	if x != nil {
-		return x.Mean
-	}
-	return 0
+	return ""
 }
 
 func (x *BaselinePart) GetYears() []*BaselineYear {
@@ -1127,11 +1366,11 @@ func (x *BaselinePart) GetYears() []*BaselineYear {
 	return nil
 }
 
-func (x *BaselinePart) GetCfcShare() float64 {
+func (x *BaselinePart) GetCfcShareRatio() string {
 	if x != nil {
-		return x.CfcShare
+		return x.CfcShareRatio
 	}
-	return 0
+	return ""
 }
 
 func (x *BaselinePart) GetCfcYears() []*BaselineYear {
@@ -1141,11 +1380,11 @@ func (x *BaselinePart) GetCfcYears() []*BaselineYear {
 	return nil
 }
 
-func (x *BaselinePart) GetCfcTerm() float64 {
+func (x *BaselinePart) GetCfcTermAmount() string {
 	if x != nil {
-		return x.CfcTerm
+		return x.CfcTermAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *BaselinePart) GetComplete() bool {
@@ -1213,42 +1452,46 @@ type GetBaselineResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Annex/Group.
 	AnnexGroup string `protobuf:"bytes,1,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
-	// Unit: "ODP t" or "CO2-eq t".
-	Unit string `protobuf:"bytes,2,opt,name=unit,proto3" json:"unit,omitempty"`
-	// Baseline value; meaningless when complete is false.
-	Baseline float64 `protobuf:"fixed64,3,opt,name=baseline,proto3" json:"baseline,omitempty"`
+	// Unit of every amount of the answer: ODP t (Annexes A to E) or CO2-eq t (F).
+	Unit ControlUnit `protobuf:"varint,2,opt,name=unit,proto3,enum=halovet.v1.ControlUnit" json:"unit,omitempty"`
+	// The baseline, in unit; absent when complete is false.
+	BaselineAmount string `protobuf:"bytes,3,opt,name=baseline_amount,json=baselineAmount,proto3" json:"baseline_amount,omitempty"`
 	// Years averaged and their values.
 	Years []*BaselineYear `protobuf:"bytes,4,rep,name=years,proto3" json:"years,omitempty"`
-	// For HFCs: the HCFC component in CO2-eq, and its share (0.15, 0.25 or 0.65).
-	HcfcComponent float64 `protobuf:"fixed64,5,opt,name=hcfc_component,json=hcfcComponent,proto3" json:"hcfc_component,omitempty"`
-	// Share of the HCFC baseline used.
-	HcfcShare float64 `protobuf:"fixed64,6,opt,name=hcfc_share,json=hcfcShare,proto3" json:"hcfc_share,omitempty"`
+	// For HFCs: the HCFC component, in unit (hcfc_share_ratio times the HCFC
+	// baseline); absent for other scopes or when the HCFC baseline is incomplete.
+	HcfcComponentAmount string `protobuf:"bytes,5,opt,name=hcfc_component_amount,json=hcfcComponentAmount,proto3" json:"hcfc_component_amount,omitempty"`
+	// For HFCs: the share of the HCFC baseline used, as a fraction ("0.15",
+	// "0.25" or "0.65"); absent for other scopes.
+	HcfcShareRatio string `protobuf:"bytes,6,opt,name=hcfc_share_ratio,json=hcfcShareRatio,proto3" json:"hcfc_share_ratio,omitempty"`
 	// False when data are missing.
 	Complete bool `protobuf:"varint,7,opt,name=complete,proto3" json:"complete,omitempty"`
 	// What is missing: years and substances.
 	Missing []string `protobuf:"bytes,8,rep,name=missing,proto3" json:"missing,omitempty"`
 	// The rule applied, with its source.
 	Rule string `protobuf:"bytes,9,opt,name=rule,proto3" json:"rule,omitempty"`
-	// Mean consumption of the group over the base years.
-	Mean float64 `protobuf:"fixed64,10,opt,name=mean,proto3" json:"mean,omitempty"`
-	// Share of Annex A Group I consumption added (non-Article 5 HCFC baseline: 0.028).
-	CfcShare float64 `protobuf:"fixed64,11,opt,name=cfc_share,json=cfcShare,proto3" json:"cfc_share,omitempty"`
+	// Mean consumption of the group over the base years, in unit; absent when a
+	// base year lacks data.
+	MeanAmount string `protobuf:"bytes,10,opt,name=mean_amount,json=meanAmount,proto3" json:"mean_amount,omitempty"`
+	// Share of Annex A Group I consumption added, as a fraction (non-Article 5
+	// HCFC baseline: "0.028"); absent when the rule adds none.
+	CfcShareRatio string `protobuf:"bytes,11,opt,name=cfc_share_ratio,json=cfcShareRatio,proto3" json:"cfc_share_ratio,omitempty"`
 	// Annex A Group I consumption in the base years.
 	CfcYears []*BaselineYear `protobuf:"bytes,12,rep,name=cfc_years,json=cfcYears,proto3" json:"cfc_years,omitempty"`
-	// cfc_share times the mean of cfc_years.
-	CfcTerm float64 `protobuf:"fixed64,13,opt,name=cfc_term,json=cfcTerm,proto3" json:"cfc_term,omitempty"`
+	// cfc_share_ratio times the mean of cfc_years, in unit; absent when the rule
+	// adds no CFC term.
+	CfcTermAmount string `protobuf:"bytes,13,opt,name=cfc_term_amount,json=cfcTermAmount,proto3" json:"cfc_term_amount,omitempty"`
 	// For HFCs: the HCFC baseline recomputed in CO2-eq from base-year tonnages.
 	HcfcBaseline *BaselinePart `protobuf:"bytes,14,opt,name=hcfc_baseline,json=hcfcBaseline,proto3" json:"hcfc_baseline,omitempty"`
 	// Rule notes: counting rules, substances without a listed GWP.
 	Notes []string `protobuf:"bytes,15,rep,name=notes,proto3" json:"notes,omitempty"`
-	// Which schedule the reporting Party follows: "non-A5", "A5", "non-A5-variant",
-	// "A5-group1" or "A5-group2".
-	AppliesTo string `protobuf:"bytes,16,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
+	// Which schedule the reporting Party follows for the scope.
+	AppliesTo ControlSchedule `protobuf:"varint,16,opt,name=applies_to,json=appliesTo,proto3,enum=halovet.v1.ControlSchedule" json:"applies_to,omitempty"`
 	// True when a baseline as officially set is stored for the scope; compliance
 	// and quota planning use it instead of the computed baseline above.
 	HasOfficialBaseline bool `protobuf:"varint,17,opt,name=has_official_baseline,json=hasOfficialBaseline,proto3" json:"has_official_baseline,omitempty"`
-	// The baseline as officially set, in unit.
-	OfficialBaseline float64 `protobuf:"fixed64,18,opt,name=official_baseline,json=officialBaseline,proto3" json:"official_baseline,omitempty"`
+	// The baseline as officially set, in unit; absent when none is stored.
+	OfficialBaselineAmount string `protobuf:"bytes,18,opt,name=official_baseline_amount,json=officialBaselineAmount,proto3" json:"official_baseline_amount,omitempty"`
 	// Its source (the decision or document).
 	OfficialBaselineSource string `protobuf:"bytes,19,opt,name=official_baseline_source,json=officialBaselineSource,proto3" json:"official_baseline_source,omitempty"`
 	unknownFields          protoimpl.UnknownFields
@@ -1292,18 +1535,18 @@ func (x *GetBaselineResponse) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *GetBaselineResponse) GetUnit() string {
+func (x *GetBaselineResponse) GetUnit() ControlUnit {
 	if x != nil {
 		return x.Unit
 	}
-	return ""
+	return ControlUnit_CONTROL_UNIT_UNSPECIFIED
 }
 
-func (x *GetBaselineResponse) GetBaseline() float64 {
+func (x *GetBaselineResponse) GetBaselineAmount() string {
 	if x != nil {
-		return x.Baseline
+		return x.BaselineAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *GetBaselineResponse) GetYears() []*BaselineYear {
@@ -1313,18 +1556,18 @@ func (x *GetBaselineResponse) GetYears() []*BaselineYear {
 	return nil
 }
 
-func (x *GetBaselineResponse) GetHcfcComponent() float64 {
+func (x *GetBaselineResponse) GetHcfcComponentAmount() string {
 	if x != nil {
-		return x.HcfcComponent
+		return x.HcfcComponentAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *GetBaselineResponse) GetHcfcShare() float64 {
+func (x *GetBaselineResponse) GetHcfcShareRatio() string {
 	if x != nil {
-		return x.HcfcShare
+		return x.HcfcShareRatio
 	}
-	return 0
+	return ""
 }
 
 func (x *GetBaselineResponse) GetComplete() bool {
@@ -1348,18 +1591,18 @@ func (x *GetBaselineResponse) GetRule() string {
 	return ""
 }
 
-func (x *GetBaselineResponse) GetMean() float64 {
+func (x *GetBaselineResponse) GetMeanAmount() string {
 	if x != nil {
-		return x.Mean
+		return x.MeanAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *GetBaselineResponse) GetCfcShare() float64 {
+func (x *GetBaselineResponse) GetCfcShareRatio() string {
 	if x != nil {
-		return x.CfcShare
+		return x.CfcShareRatio
 	}
-	return 0
+	return ""
 }
 
 func (x *GetBaselineResponse) GetCfcYears() []*BaselineYear {
@@ -1369,11 +1612,11 @@ func (x *GetBaselineResponse) GetCfcYears() []*BaselineYear {
 	return nil
 }
 
-func (x *GetBaselineResponse) GetCfcTerm() float64 {
+func (x *GetBaselineResponse) GetCfcTermAmount() string {
 	if x != nil {
-		return x.CfcTerm
+		return x.CfcTermAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *GetBaselineResponse) GetHcfcBaseline() *BaselinePart {
@@ -1390,11 +1633,11 @@ func (x *GetBaselineResponse) GetNotes() []string {
 	return nil
 }
 
-func (x *GetBaselineResponse) GetAppliesTo() string {
+func (x *GetBaselineResponse) GetAppliesTo() ControlSchedule {
 	if x != nil {
 		return x.AppliesTo
 	}
-	return ""
+	return ControlSchedule_CONTROL_SCHEDULE_UNSPECIFIED
 }
 
 func (x *GetBaselineResponse) GetHasOfficialBaseline() bool {
@@ -1404,11 +1647,11 @@ func (x *GetBaselineResponse) GetHasOfficialBaseline() bool {
 	return false
 }
 
-func (x *GetBaselineResponse) GetOfficialBaseline() float64 {
+func (x *GetBaselineResponse) GetOfficialBaselineAmount() string {
 	if x != nil {
-		return x.OfficialBaseline
+		return x.OfficialBaselineAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *GetBaselineResponse) GetOfficialBaselineSource() string {
@@ -1428,25 +1671,27 @@ type PeriodAverage struct {
 	// Last year of the period.
 	ToYear int32 `protobuf:"varint,2,opt,name=to_year,json=toYear,proto3" json:"to_year,omitempty"`
 	// Percent of baseline the period's mean may reach.
-	Percent float64 `protobuf:"fixed64,3,opt,name=percent,proto3" json:"percent,omitempty"`
+	LimitPercent string `protobuf:"bytes,3,opt,name=limit_percent,json=limitPercent,proto3" json:"limit_percent,omitempty"`
 	// Years of the period up to and including the assessed year.
 	YearsCounted int32 `protobuf:"varint,4,opt,name=years_counted,json=yearsCounted,proto3" json:"years_counted,omitempty"`
 	// Years of the period after the assessed year.
 	YearsRemaining int32 `protobuf:"varint,5,opt,name=years_remaining,json=yearsRemaining,proto3" json:"years_remaining,omitempty"`
-	// Consumption summed over the counted years.
-	Sum float64 `protobuf:"fixed64,6,opt,name=sum,proto3" json:"sum,omitempty"`
-	// Running average: sum divided by years_counted.
-	RunningAverage float64 `protobuf:"fixed64,7,opt,name=running_average,json=runningAverage,proto3" json:"running_average,omitempty"`
-	// Running average as percent of baseline.
-	RunningPercent float64 `protobuf:"fixed64,8,opt,name=running_percent,json=runningPercent,proto3" json:"running_percent,omitempty"`
-	// The period's budget: percent of baseline times the years of the period.
-	Budget float64 `protobuf:"fixed64,9,opt,name=budget,proto3" json:"budget,omitempty"`
-	// Budget minus sum: what the remaining years may still use in total.
-	RoomLeft float64 `protobuf:"fixed64,10,opt,name=room_left,json=roomLeft,proto3" json:"room_left,omitempty"`
-	// room_left divided by years_remaining; 0 when no year remains.
-	RoomPerYear   float64 `protobuf:"fixed64,11,opt,name=room_per_year,json=roomPerYear,proto3" json:"room_per_year,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	// Consumption summed over the counted years, in the assessment's unit.
+	SumAmount string `protobuf:"bytes,6,opt,name=sum_amount,json=sumAmount,proto3" json:"sum_amount,omitempty"`
+	// Running average: sum_amount divided by years_counted (rounded to 9 decimals).
+	RunningAverageAmount string `protobuf:"bytes,7,opt,name=running_average_amount,json=runningAverageAmount,proto3" json:"running_average_amount,omitempty"`
+	// Running average as percent of baseline (rounded to 6 decimals); absent
+	// when the baseline is 0.
+	RunningPercent string `protobuf:"bytes,8,opt,name=running_percent,json=runningPercent,proto3" json:"running_percent,omitempty"`
+	// The period's budget: limit_percent of baseline times the years of the period.
+	BudgetAmount string `protobuf:"bytes,9,opt,name=budget_amount,json=budgetAmount,proto3" json:"budget_amount,omitempty"`
+	// budget_amount minus sum_amount: what the remaining years may still use in total.
+	RoomLeftAmount string `protobuf:"bytes,10,opt,name=room_left_amount,json=roomLeftAmount,proto3" json:"room_left_amount,omitempty"`
+	// room_left_amount divided by years_remaining (rounded to 9 decimals);
+	// absent when no year remains.
+	RoomPerYearAmount string `protobuf:"bytes,11,opt,name=room_per_year_amount,json=roomPerYearAmount,proto3" json:"room_per_year_amount,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
 }
 
 func (x *PeriodAverage) Reset() {
@@ -1493,11 +1738,11 @@ func (x *PeriodAverage) GetToYear() int32 {
 	return 0
 }
 
-func (x *PeriodAverage) GetPercent() float64 {
+func (x *PeriodAverage) GetLimitPercent() string {
 	if x != nil {
-		return x.Percent
+		return x.LimitPercent
 	}
-	return 0
+	return ""
 }
 
 func (x *PeriodAverage) GetYearsCounted() int32 {
@@ -1514,46 +1759,46 @@ func (x *PeriodAverage) GetYearsRemaining() int32 {
 	return 0
 }
 
-func (x *PeriodAverage) GetSum() float64 {
+func (x *PeriodAverage) GetSumAmount() string {
 	if x != nil {
-		return x.Sum
+		return x.SumAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *PeriodAverage) GetRunningAverage() float64 {
+func (x *PeriodAverage) GetRunningAverageAmount() string {
 	if x != nil {
-		return x.RunningAverage
+		return x.RunningAverageAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *PeriodAverage) GetRunningPercent() float64 {
+func (x *PeriodAverage) GetRunningPercent() string {
 	if x != nil {
 		return x.RunningPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *PeriodAverage) GetBudget() float64 {
+func (x *PeriodAverage) GetBudgetAmount() string {
 	if x != nil {
-		return x.Budget
+		return x.BudgetAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *PeriodAverage) GetRoomLeft() float64 {
+func (x *PeriodAverage) GetRoomLeftAmount() string {
 	if x != nil {
-		return x.RoomLeft
+		return x.RoomLeftAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *PeriodAverage) GetRoomPerYear() float64 {
+func (x *PeriodAverage) GetRoomPerYearAmount() string {
 	if x != nil {
-		return x.RoomPerYear
+		return x.RoomPerYearAmount
 	}
-	return 0
+	return ""
 }
 
 // ComplianceYear is one year's assessment.
@@ -1561,14 +1806,16 @@ type ComplianceYear struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Year.
 	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
-	// Calculated consumption in the baseline's unit.
-	Consumption float64 `protobuf:"fixed64,2,opt,name=consumption,proto3" json:"consumption,omitempty"`
-	// Allowed level in the same unit.
-	Allowed float64 `protobuf:"fixed64,3,opt,name=allowed,proto3" json:"allowed,omitempty"`
-	// Allowed level as percent of baseline.
-	AllowedPercent float64 `protobuf:"fixed64,4,opt,name=allowed_percent,json=allowedPercent,proto3" json:"allowed_percent,omitempty"`
-	// Allowed minus consumption; negative when exceeded.
-	Headroom float64 `protobuf:"fixed64,5,opt,name=headroom,proto3" json:"headroom,omitempty"`
+	// Calculated consumption in the assessment's unit; absent when has_data is false.
+	ConsumptionAmount string `protobuf:"bytes,2,opt,name=consumption_amount,json=consumptionAmount,proto3" json:"consumption_amount,omitempty"`
+	// Allowed level in the same unit (limit plus exemptions); absent when not
+	// assessed for want of a rule or baseline.
+	AllowedAmount string `protobuf:"bytes,3,opt,name=allowed_amount,json=allowedAmount,proto3" json:"allowed_amount,omitempty"`
+	// Allowed level as percent of baseline; absent when no step is in force.
+	AllowedPercent string `protobuf:"bytes,4,opt,name=allowed_percent,json=allowedPercent,proto3" json:"allowed_percent,omitempty"`
+	// allowed_amount minus consumption_amount, negative when exceeded (in a
+	// period-average year: the period's room left); absent when not assessed.
+	HeadroomAmount string `protobuf:"bytes,5,opt,name=headroom_amount,json=headroomAmount,proto3" json:"headroom_amount,omitempty"`
 	// True when consumption is within the allowed level (or the averaging rule);
 	// false both when exceeded and when not assessed: read outcome.
 	Within bool `protobuf:"varint,6,opt,name=within,proto3" json:"within,omitempty"`
@@ -1580,16 +1827,19 @@ type ComplianceYear struct {
 	HasData bool `protobuf:"varint,9,opt,name=has_data,json=hasData,proto3" json:"has_data,omitempty"`
 	// Set in a year under a period-average rule: the running average and the room left.
 	Period *PeriodAverage `protobuf:"bytes,10,opt,name=period,proto3" json:"period,omitempty"`
-	// The schedule's level: baseline used times allowed_percent.
-	ComputedAllowed float64 `protobuf:"fixed64,11,opt,name=computed_allowed,json=computedAllowed,proto3" json:"computed_allowed,omitempty"`
+	// The schedule's level: baseline used times allowed_percent, in unit; absent
+	// when not computed.
+	ComputedAllowedAmount string `protobuf:"bytes,11,opt,name=computed_allowed_amount,json=computedAllowedAmount,proto3" json:"computed_allowed_amount,omitempty"`
 	// True when a limit as officially set applies to the year (official_limit).
 	HasOfficialLimit bool `protobuf:"varint,12,opt,name=has_official_limit,json=hasOfficialLimit,proto3" json:"has_official_limit,omitempty"`
-	// The year's limit as officially set; used instead of computed_allowed.
-	OfficialLimit float64 `protobuf:"fixed64,13,opt,name=official_limit,json=officialLimit,proto3" json:"official_limit,omitempty"`
+	// The year's limit as officially set, in unit; used instead of
+	// computed_allowed_amount; absent when none is stored.
+	OfficialLimitAmount string `protobuf:"bytes,13,opt,name=official_limit_amount,json=officialLimitAmount,proto3" json:"official_limit_amount,omitempty"`
 	// Source of official_limit (the decision or agreed plan).
 	OfficialLimitSource string `protobuf:"bytes,14,opt,name=official_limit_source,json=officialLimitSource,proto3" json:"official_limit_source,omitempty"`
-	// Sum of the authorised exemptions of the year, added to the limit.
-	Exempted float64 `protobuf:"fixed64,15,opt,name=exempted,proto3" json:"exempted,omitempty"`
+	// Sum of the authorised exemptions of the year, added to the limit, in unit
+	// ("0" when none).
+	ExemptedAmount string `protobuf:"bytes,15,opt,name=exempted_amount,json=exemptedAmount,proto3" json:"exempted_amount,omitempty"`
 	// The exemptions added, with their sources.
 	Exemptions    []*AppliedExemption `protobuf:"bytes,16,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -1633,32 +1883,32 @@ func (x *ComplianceYear) GetYear() int32 {
 	return 0
 }
 
-func (x *ComplianceYear) GetConsumption() float64 {
+func (x *ComplianceYear) GetConsumptionAmount() string {
 	if x != nil {
-		return x.Consumption
+		return x.ConsumptionAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *ComplianceYear) GetAllowed() float64 {
+func (x *ComplianceYear) GetAllowedAmount() string {
 	if x != nil {
-		return x.Allowed
+		return x.AllowedAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *ComplianceYear) GetAllowedPercent() float64 {
+func (x *ComplianceYear) GetAllowedPercent() string {
 	if x != nil {
 		return x.AllowedPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *ComplianceYear) GetHeadroom() float64 {
+func (x *ComplianceYear) GetHeadroomAmount() string {
 	if x != nil {
-		return x.Headroom
+		return x.HeadroomAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *ComplianceYear) GetWithin() bool {
@@ -1696,11 +1946,11 @@ func (x *ComplianceYear) GetPeriod() *PeriodAverage {
 	return nil
 }
 
-func (x *ComplianceYear) GetComputedAllowed() float64 {
+func (x *ComplianceYear) GetComputedAllowedAmount() string {
 	if x != nil {
-		return x.ComputedAllowed
+		return x.ComputedAllowedAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *ComplianceYear) GetHasOfficialLimit() bool {
@@ -1710,11 +1960,11 @@ func (x *ComplianceYear) GetHasOfficialLimit() bool {
 	return false
 }
 
-func (x *ComplianceYear) GetOfficialLimit() float64 {
+func (x *ComplianceYear) GetOfficialLimitAmount() string {
 	if x != nil {
-		return x.OfficialLimit
+		return x.OfficialLimitAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *ComplianceYear) GetOfficialLimitSource() string {
@@ -1724,11 +1974,11 @@ func (x *ComplianceYear) GetOfficialLimitSource() string {
 	return ""
 }
 
-func (x *ComplianceYear) GetExempted() float64 {
+func (x *ComplianceYear) GetExemptedAmount() string {
 	if x != nil {
-		return x.Exempted
+		return x.ExemptedAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *ComplianceYear) GetExemptions() []*AppliedExemption {
@@ -1744,7 +1994,7 @@ type AppliedExemption struct {
 	// Exempted use.
 	Use ExemptedUse `protobuf:"varint,1,opt,name=use,proto3,enum=halovet.v1.ExemptedUse" json:"use,omitempty"`
 	// Amount, in the assessment's unit.
-	Amount float64 `protobuf:"fixed64,2,opt,name=amount,proto3" json:"amount,omitempty"`
+	Amount string `protobuf:"bytes,2,opt,name=amount,proto3" json:"amount,omitempty"`
 	// The decision that authorises it.
 	Source        string `protobuf:"bytes,3,opt,name=source,proto3" json:"source,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -1788,11 +2038,11 @@ func (x *AppliedExemption) GetUse() ExemptedUse {
 	return ExemptedUse_EXEMPTED_USE_UNSPECIFIED
 }
 
-func (x *AppliedExemption) GetAmount() float64 {
+func (x *AppliedExemption) GetAmount() string {
 	if x != nil {
 		return x.Amount
 	}
-	return 0
+	return ""
 }
 
 func (x *AppliedExemption) GetSource() string {
@@ -1815,10 +2065,11 @@ type AuthorisedExemption struct {
 	AnnexGroup string `protobuf:"bytes,4,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Exempted use.
 	Use ExemptedUse `protobuf:"varint,5,opt,name=use,proto3,enum=halovet.v1.ExemptedUse" json:"use,omitempty"`
-	// Amount authorised, in the scope's unit: ODP t for Annexes A to E, CO2-eq t for F.
-	Amount float64 `protobuf:"fixed64,6,opt,name=amount,proto3" json:"amount,omitempty"`
-	// Unit of amount ("ODP t" or "CO2-eq t"); set by the server.
-	Unit string `protobuf:"bytes,7,opt,name=unit,proto3" json:"unit,omitempty"`
+	// Amount authorised, in the scope's unit: ODP t for Annexes A to E, CO2-eq t
+	// for F (a decimal string, e.g. "12.5").
+	Amount string `protobuf:"bytes,6,opt,name=amount,proto3" json:"amount,omitempty"`
+	// Unit of amount; set by the server (ignored on input).
+	Unit ControlUnit `protobuf:"varint,7,opt,name=unit,proto3,enum=halovet.v1.ControlUnit" json:"unit,omitempty"`
 	// The decision that authorises it (required), e.g. the Meeting of the Parties' decision number.
 	Source string `protobuf:"bytes,8,opt,name=source,proto3" json:"source,omitempty"`
 	// Free note.
@@ -1892,18 +2143,18 @@ func (x *AuthorisedExemption) GetUse() ExemptedUse {
 	return ExemptedUse_EXEMPTED_USE_UNSPECIFIED
 }
 
-func (x *AuthorisedExemption) GetAmount() float64 {
+func (x *AuthorisedExemption) GetAmount() string {
 	if x != nil {
 		return x.Amount
 	}
-	return 0
+	return ""
 }
 
-func (x *AuthorisedExemption) GetUnit() string {
+func (x *AuthorisedExemption) GetUnit() ControlUnit {
 	if x != nil {
 		return x.Unit
 	}
-	return ""
+	return ControlUnit_CONTROL_UNIT_UNSPECIFIED
 }
 
 func (x *AuthorisedExemption) GetSource() string {
@@ -2144,10 +2395,11 @@ type OfficialFigure struct {
 	AnnexGroup string `protobuf:"bytes,4,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Year of a limit; 0 for a baseline.
 	Year int32 `protobuf:"varint,5,opt,name=year,proto3" json:"year,omitempty"`
-	// Value in the scope's unit: ODP t for Annexes A to E, CO2-eq t for F.
-	Value float64 `protobuf:"fixed64,6,opt,name=value,proto3" json:"value,omitempty"`
-	// Unit of value; set by the server.
-	Unit string `protobuf:"bytes,7,opt,name=unit,proto3" json:"unit,omitempty"`
+	// The figure in the scope's unit: ODP t for Annexes A to E, CO2-eq t for F
+	// (a decimal string, e.g. "12.5").
+	Amount string `protobuf:"bytes,6,opt,name=amount,proto3" json:"amount,omitempty"`
+	// Unit of amount; set by the server (ignored on input).
+	Unit ControlUnit `protobuf:"varint,7,opt,name=unit,proto3,enum=halovet.v1.ControlUnit" json:"unit,omitempty"`
 	// The decision or document that sets it (required).
 	Source        string `protobuf:"bytes,8,opt,name=source,proto3" json:"source,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -2219,18 +2471,18 @@ func (x *OfficialFigure) GetYear() int32 {
 	return 0
 }
 
-func (x *OfficialFigure) GetValue() float64 {
+func (x *OfficialFigure) GetAmount() string {
 	if x != nil {
-		return x.Value
+		return x.Amount
 	}
-	return 0
+	return ""
 }
 
-func (x *OfficialFigure) GetUnit() string {
+func (x *OfficialFigure) GetUnit() ControlUnit {
 	if x != nil {
 		return x.Unit
 	}
-	return ""
+	return ControlUnit_CONTROL_UNIT_UNSPECIFIED
 }
 
 func (x *OfficialFigure) GetSource() string {
@@ -2511,10 +2763,10 @@ type AssessComplianceResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Annex/Group.
 	AnnexGroup string `protobuf:"bytes,1,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
-	// Unit.
-	Unit string `protobuf:"bytes,2,opt,name=unit,proto3" json:"unit,omitempty"`
-	// Baseline used.
-	Baseline float64 `protobuf:"fixed64,3,opt,name=baseline,proto3" json:"baseline,omitempty"`
+	// Unit of every amount of the answer: ODP t (Annexes A to E) or CO2-eq t (F).
+	Unit ControlUnit `protobuf:"varint,2,opt,name=unit,proto3,enum=halovet.v1.ControlUnit" json:"unit,omitempty"`
+	// Baseline used, in unit; absent when none was needed or it is incomplete.
+	BaselineAmount string `protobuf:"bytes,3,opt,name=baseline_amount,json=baselineAmount,proto3" json:"baseline_amount,omitempty"`
 	// Per-year assessment.
 	Years []*ComplianceYear `protobuf:"bytes,4,rep,name=years,proto3" json:"years,omitempty"`
 	// Version and source of the control schedule applied.
@@ -2523,11 +2775,11 @@ type AssessComplianceResponse struct {
 	BaselineComplete bool `protobuf:"varint,6,opt,name=baseline_complete,json=baselineComplete,proto3" json:"baseline_complete,omitempty"`
 	// Missing years and groups of the baseline.
 	BaselineMissing []string `protobuf:"bytes,7,rep,name=baseline_missing,json=baselineMissing,proto3" json:"baseline_missing,omitempty"`
-	// Which schedule the reporting Party follows ("A5", "non-A5", "A5-group1", ...).
-	AppliesTo string `protobuf:"bytes,8,opt,name=applies_to,json=appliesTo,proto3" json:"applies_to,omitempty"`
-	// The baseline computed from the data (0 when incomplete); baseline is the
-	// official one when has_official_baseline.
-	ComputedBaseline float64 `protobuf:"fixed64,9,opt,name=computed_baseline,json=computedBaseline,proto3" json:"computed_baseline,omitempty"`
+	// Which schedule the reporting Party follows for the scope.
+	AppliesTo ControlSchedule `protobuf:"varint,8,opt,name=applies_to,json=appliesTo,proto3,enum=halovet.v1.ControlSchedule" json:"applies_to,omitempty"`
+	// The baseline computed from the data, in unit (absent when not computed or
+	// incomplete); baseline_amount is the official one when has_official_baseline.
+	ComputedBaselineAmount string `protobuf:"bytes,9,opt,name=computed_baseline_amount,json=computedBaselineAmount,proto3" json:"computed_baseline_amount,omitempty"`
 	// True when a baseline as officially set is used.
 	HasOfficialBaseline bool `protobuf:"varint,10,opt,name=has_official_baseline,json=hasOfficialBaseline,proto3" json:"has_official_baseline,omitempty"`
 	// Source of the official baseline.
@@ -2573,18 +2825,18 @@ func (x *AssessComplianceResponse) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *AssessComplianceResponse) GetUnit() string {
+func (x *AssessComplianceResponse) GetUnit() ControlUnit {
 	if x != nil {
 		return x.Unit
 	}
-	return ""
+	return ControlUnit_CONTROL_UNIT_UNSPECIFIED
 }
 
-func (x *AssessComplianceResponse) GetBaseline() float64 {
+func (x *AssessComplianceResponse) GetBaselineAmount() string {
 	if x != nil {
-		return x.Baseline
+		return x.BaselineAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *AssessComplianceResponse) GetYears() []*ComplianceYear {
@@ -2615,18 +2867,18 @@ func (x *AssessComplianceResponse) GetBaselineMissing() []string {
 	return nil
 }
 
-func (x *AssessComplianceResponse) GetAppliesTo() string {
+func (x *AssessComplianceResponse) GetAppliesTo() ControlSchedule {
 	if x != nil {
 		return x.AppliesTo
 	}
-	return ""
+	return ControlSchedule_CONTROL_SCHEDULE_UNSPECIFIED
 }
 
-func (x *AssessComplianceResponse) GetComputedBaseline() float64 {
+func (x *AssessComplianceResponse) GetComputedBaselineAmount() string {
 	if x != nil {
-		return x.ComputedBaseline
+		return x.ComputedBaselineAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *AssessComplianceResponse) GetHasOfficialBaseline() bool {
@@ -2648,18 +2900,20 @@ type QuotaProposal struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Company.
 	CompanyId string `protobuf:"bytes,1,opt,name=company_id,json=companyId,proto3" json:"company_id,omitempty"`
-	// Share of the reference years' imports, 0 to 1.
-	ReferenceShare float64 `protobuf:"fixed64,2,opt,name=reference_share,json=referenceShare,proto3" json:"reference_share,omitempty"`
-	// Proposed quota in the plan's unit.
-	Quota float64 `protobuf:"fixed64,3,opt,name=quota,proto3" json:"quota,omitempty"`
+	// Share of the reference years' imports, a fraction from 0 to 1 (rounded to
+	// 6 decimals).
+	ReferenceShareRatio string `protobuf:"bytes,2,opt,name=reference_share_ratio,json=referenceShareRatio,proto3" json:"reference_share_ratio,omitempty"`
+	// Proposed quota in the plan's unit (a whole number of granularity units).
+	QuotaAmount string `protobuf:"bytes,3,opt,name=quota_amount,json=quotaAmount,proto3" json:"quota_amount,omitempty"`
 	// Draft licence number, when drafts were issued.
 	DraftLicenceNumber string `protobuf:"bytes,4,opt,name=draft_licence_number,json=draftLicenceNumber,proto3" json:"draft_licence_number,omitempty"`
 	// The company's recorded imports over the reference years, in the plan's unit.
-	ReferenceAmount float64 `protobuf:"fixed64,5,opt,name=reference_amount,json=referenceAmount,proto3" json:"reference_amount,omitempty"`
-	// Exact share of the distributed amount before rounding to the granularity.
-	ExactShare    float64 `protobuf:"fixed64,6,opt,name=exact_share,json=exactShare,proto3" json:"exact_share,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	ReferenceAmount string `protobuf:"bytes,5,opt,name=reference_amount,json=referenceAmount,proto3" json:"reference_amount,omitempty"`
+	// The company's share of the distributable amount before rounding to the
+	// granularity, in the plan's unit (rounded to 9 decimals).
+	ExactShareAmount string `protobuf:"bytes,6,opt,name=exact_share_amount,json=exactShareAmount,proto3" json:"exact_share_amount,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
 }
 
 func (x *QuotaProposal) Reset() {
@@ -2699,18 +2953,18 @@ func (x *QuotaProposal) GetCompanyId() string {
 	return ""
 }
 
-func (x *QuotaProposal) GetReferenceShare() float64 {
+func (x *QuotaProposal) GetReferenceShareRatio() string {
 	if x != nil {
-		return x.ReferenceShare
+		return x.ReferenceShareRatio
 	}
-	return 0
+	return ""
 }
 
-func (x *QuotaProposal) GetQuota() float64 {
+func (x *QuotaProposal) GetQuotaAmount() string {
 	if x != nil {
-		return x.Quota
+		return x.QuotaAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *QuotaProposal) GetDraftLicenceNumber() string {
@@ -2720,18 +2974,18 @@ func (x *QuotaProposal) GetDraftLicenceNumber() string {
 	return ""
 }
 
-func (x *QuotaProposal) GetReferenceAmount() float64 {
+func (x *QuotaProposal) GetReferenceAmount() string {
 	if x != nil {
 		return x.ReferenceAmount
 	}
-	return 0
+	return ""
 }
 
-func (x *QuotaProposal) GetExactShare() float64 {
+func (x *QuotaProposal) GetExactShareAmount() string {
 	if x != nil {
-		return x.ExactShare
+		return x.ExactShareAmount
 	}
-	return 0
+	return ""
 }
 
 // PlanQuotasRequest describes the plan.
@@ -2743,10 +2997,12 @@ type PlanQuotasRequest struct {
 	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Years whose recorded imports give each company's share.
 	ReferenceYears []int32 `protobuf:"varint,3,rep,packed,name=reference_years,json=referenceYears,proto3" json:"reference_years,omitempty"`
-	// Part of the allowed level to distribute (0 to 1; 0 means 1), e.g. to hold a reserve.
-	Fraction float64 `protobuf:"fixed64,4,opt,name=fraction,proto3" json:"fraction,omitempty"`
-	// Smallest unit of allocation (e.g. 0.001 ODP t); 0 means 0.001.
-	Granularity float64 `protobuf:"fixed64,5,opt,name=granularity,proto3" json:"granularity,omitempty"`
+	// Part of the allowed level to distribute, a fraction above 0 and at most 1
+	// (absent means "1"), e.g. "0.9" to hold a reserve.
+	FractionRatio string `protobuf:"bytes,4,opt,name=fraction_ratio,json=fractionRatio,proto3" json:"fraction_ratio,omitempty"`
+	// Smallest unit of allocation in the plan's unit (e.g. "0.001"); absent
+	// means "0.001".
+	GranularityAmount string `protobuf:"bytes,5,opt,name=granularity_amount,json=granularityAmount,proto3" json:"granularity_amount,omitempty"`
 	// Issue the proposals as draft licences.
 	IssueDrafts   bool `protobuf:"varint,6,opt,name=issue_drafts,json=issueDrafts,proto3" json:"issue_drafts,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -2804,18 +3060,18 @@ func (x *PlanQuotasRequest) GetReferenceYears() []int32 {
 	return nil
 }
 
-func (x *PlanQuotasRequest) GetFraction() float64 {
+func (x *PlanQuotasRequest) GetFractionRatio() string {
 	if x != nil {
-		return x.Fraction
+		return x.FractionRatio
 	}
-	return 0
+	return ""
 }
 
-func (x *PlanQuotasRequest) GetGranularity() float64 {
+func (x *PlanQuotasRequest) GetGranularityAmount() string {
 	if x != nil {
-		return x.Granularity
+		return x.GranularityAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *PlanQuotasRequest) GetIssueDrafts() bool {
@@ -2828,12 +3084,12 @@ func (x *PlanQuotasRequest) GetIssueDrafts() bool {
 // PlanQuotasResponse is the plan.
 type PlanQuotasResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Unit of the amounts.
-	Unit string `protobuf:"bytes,1,opt,name=unit,proto3" json:"unit,omitempty"`
-	// Allowed level for the year.
-	Allowed float64 `protobuf:"fixed64,2,opt,name=allowed,proto3" json:"allowed,omitempty"`
-	// Amount distributed (never above allowed times fraction).
-	Distributed float64 `protobuf:"fixed64,3,opt,name=distributed,proto3" json:"distributed,omitempty"`
+	// Unit of every amount of the plan.
+	Unit ControlUnit `protobuf:"varint,1,opt,name=unit,proto3,enum=halovet.v1.ControlUnit" json:"unit,omitempty"`
+	// Allowed level for the year, in unit.
+	AllowedAmount string `protobuf:"bytes,2,opt,name=allowed_amount,json=allowedAmount,proto3" json:"allowed_amount,omitempty"`
+	// Amount distributed, in unit (never above distributable_amount).
+	DistributedAmount string `protobuf:"bytes,3,opt,name=distributed_amount,json=distributedAmount,proto3" json:"distributed_amount,omitempty"`
 	// Proposals in company order.
 	Proposals []*QuotaProposal `protobuf:"bytes,4,rep,name=proposals,proto3" json:"proposals,omitempty"`
 	// Year planned.
@@ -2841,9 +3097,9 @@ type PlanQuotasResponse struct {
 	// Annex/Group planned.
 	AnnexGroup string `protobuf:"bytes,6,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Allowed level as percent of baseline.
-	AllowedPercent float64 `protobuf:"fixed64,7,opt,name=allowed_percent,json=allowedPercent,proto3" json:"allowed_percent,omitempty"`
-	// Amount to distribute: allowed times fraction.
-	Distributable float64 `protobuf:"fixed64,8,opt,name=distributable,proto3" json:"distributable,omitempty"`
+	AllowedPercent string `protobuf:"bytes,7,opt,name=allowed_percent,json=allowedPercent,proto3" json:"allowed_percent,omitempty"`
+	// Amount to distribute: allowed_amount times fraction_ratio, in unit.
+	DistributableAmount string `protobuf:"bytes,8,opt,name=distributable_amount,json=distributableAmount,proto3" json:"distributable_amount,omitempty"`
 	// The rules applied and what to check (servicing-only caps, period averages).
 	Notes         []string `protobuf:"bytes,9,rep,name=notes,proto3" json:"notes,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -2880,25 +3136,25 @@ func (*PlanQuotasResponse) Descriptor() ([]byte, []int) {
 	return file_halovet_v1_consumption_proto_rawDescGZIP(), []int{30}
 }
 
-func (x *PlanQuotasResponse) GetUnit() string {
+func (x *PlanQuotasResponse) GetUnit() ControlUnit {
 	if x != nil {
 		return x.Unit
+	}
+	return ControlUnit_CONTROL_UNIT_UNSPECIFIED
+}
+
+func (x *PlanQuotasResponse) GetAllowedAmount() string {
+	if x != nil {
+		return x.AllowedAmount
 	}
 	return ""
 }
 
-func (x *PlanQuotasResponse) GetAllowed() float64 {
+func (x *PlanQuotasResponse) GetDistributedAmount() string {
 	if x != nil {
-		return x.Allowed
+		return x.DistributedAmount
 	}
-	return 0
-}
-
-func (x *PlanQuotasResponse) GetDistributed() float64 {
-	if x != nil {
-		return x.Distributed
-	}
-	return 0
+	return ""
 }
 
 func (x *PlanQuotasResponse) GetProposals() []*QuotaProposal {
@@ -2922,18 +3178,18 @@ func (x *PlanQuotasResponse) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *PlanQuotasResponse) GetAllowedPercent() float64 {
+func (x *PlanQuotasResponse) GetAllowedPercent() string {
 	if x != nil {
 		return x.AllowedPercent
 	}
-	return 0
+	return ""
 }
 
-func (x *PlanQuotasResponse) GetDistributable() float64 {
+func (x *PlanQuotasResponse) GetDistributableAmount() string {
 	if x != nil {
-		return x.Distributable
+		return x.DistributableAmount
 	}
-	return 0
+	return ""
 }
 
 func (x *PlanQuotasResponse) GetNotes() []string {
@@ -2953,15 +3209,15 @@ type Hfc23Entry struct {
 	// Calendar year.
 	Year int32 `protobuf:"varint,3,opt,name=year,proto3" json:"year,omitempty"`
 	// HFC-23 generated, metric tonnes.
-	GeneratedTonnes float64 `protobuf:"fixed64,4,opt,name=generated_tonnes,json=generatedTonnes,proto3" json:"generated_tonnes,omitempty"`
+	GeneratedTonnes string `protobuf:"bytes,4,opt,name=generated_tonnes,json=generatedTonnes,proto3" json:"generated_tonnes,omitempty"`
 	// Captured for use or feedstock, metric tonnes.
-	CapturedUsedTonnes float64 `protobuf:"fixed64,5,opt,name=captured_used_tonnes,json=capturedUsedTonnes,proto3" json:"captured_used_tonnes,omitempty"`
+	CapturedUsedTonnes string `protobuf:"bytes,5,opt,name=captured_used_tonnes,json=capturedUsedTonnes,proto3" json:"captured_used_tonnes,omitempty"`
 	// Destroyed, metric tonnes.
-	DestroyedTonnes float64 `protobuf:"fixed64,6,opt,name=destroyed_tonnes,json=destroyedTonnes,proto3" json:"destroyed_tonnes,omitempty"`
+	DestroyedTonnes string `protobuf:"bytes,6,opt,name=destroyed_tonnes,json=destroyedTonnes,proto3" json:"destroyed_tonnes,omitempty"`
 	// Emitted, metric tonnes.
-	EmittedTonnes float64 `protobuf:"fixed64,7,opt,name=emitted_tonnes,json=emittedTonnes,proto3" json:"emitted_tonnes,omitempty"`
+	EmittedTonnes string `protobuf:"bytes,7,opt,name=emitted_tonnes,json=emittedTonnes,proto3" json:"emitted_tonnes,omitempty"`
 	// Emitted in CO2-eq tonnes (Annex F Group II GWP); set by the server.
-	EmittedCo2ETonnes float64 `protobuf:"fixed64,8,opt,name=emitted_co2e_tonnes,json=emittedCo2eTonnes,proto3" json:"emitted_co2e_tonnes,omitempty"`
+	EmittedCo2ETonnes string `protobuf:"bytes,8,opt,name=emitted_co2e_tonnes,json=emittedCo2eTonnes,proto3" json:"emitted_co2e_tonnes,omitempty"`
 	// Free note.
 	Note          string `protobuf:"bytes,9,opt,name=note,proto3" json:"note,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -3019,39 +3275,39 @@ func (x *Hfc23Entry) GetYear() int32 {
 	return 0
 }
 
-func (x *Hfc23Entry) GetGeneratedTonnes() float64 {
+func (x *Hfc23Entry) GetGeneratedTonnes() string {
 	if x != nil {
 		return x.GeneratedTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *Hfc23Entry) GetCapturedUsedTonnes() float64 {
+func (x *Hfc23Entry) GetCapturedUsedTonnes() string {
 	if x != nil {
 		return x.CapturedUsedTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *Hfc23Entry) GetDestroyedTonnes() float64 {
+func (x *Hfc23Entry) GetDestroyedTonnes() string {
 	if x != nil {
 		return x.DestroyedTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *Hfc23Entry) GetEmittedTonnes() float64 {
+func (x *Hfc23Entry) GetEmittedTonnes() string {
 	if x != nil {
 		return x.EmittedTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *Hfc23Entry) GetEmittedCo2ETonnes() float64 {
+func (x *Hfc23Entry) GetEmittedCo2ETonnes() string {
 	if x != nil {
 		return x.EmittedCo2ETonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *Hfc23Entry) GetNote() string {
@@ -3284,17 +3540,17 @@ type YearTradeLine struct {
 	// Annex/Group.
 	AnnexGroup string `protobuf:"bytes,3,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// New substance, metric tonnes (includes the parts below).
-	NewTonnes float64 `protobuf:"fixed64,4,opt,name=new_tonnes,json=newTonnes,proto3" json:"new_tonnes,omitempty"`
+	NewTonnes string `protobuf:"bytes,4,opt,name=new_tonnes,json=newTonnes,proto3" json:"new_tonnes,omitempty"`
 	// Used, recycled or reclaimed substance, metric tonnes (apart from new).
-	RecoveredTonnes float64 `protobuf:"fixed64,5,opt,name=recovered_tonnes,json=recoveredTonnes,proto3" json:"recovered_tonnes,omitempty"`
+	RecoveredTonnes string `protobuf:"bytes,5,opt,name=recovered_tonnes,json=recoveredTonnes,proto3" json:"recovered_tonnes,omitempty"`
 	// Part of new_tonnes declared for feedstock or as process agent.
-	FeedstockTonnes float64 `protobuf:"fixed64,6,opt,name=feedstock_tonnes,json=feedstockTonnes,proto3" json:"feedstock_tonnes,omitempty"`
+	FeedstockTonnes string `protobuf:"bytes,6,opt,name=feedstock_tonnes,json=feedstockTonnes,proto3" json:"feedstock_tonnes,omitempty"`
 	// Part of new_tonnes declared for QPS (methyl bromide only).
-	QpsTonnes float64 `protobuf:"fixed64,7,opt,name=qps_tonnes,json=qpsTonnes,proto3" json:"qps_tonnes,omitempty"`
+	QpsTonnes string `protobuf:"bytes,7,opt,name=qps_tonnes,json=qpsTonnes,proto3" json:"qps_tonnes,omitempty"`
 	// Part of new_tonnes declared for exempted uses (essential, critical, laboratory).
-	ExemptedTonnes float64 `protobuf:"fixed64,8,opt,name=exempted_tonnes,json=exemptedTonnes,proto3" json:"exempted_tonnes,omitempty"`
+	ExemptedTonnes string `protobuf:"bytes,8,opt,name=exempted_tonnes,json=exemptedTonnes,proto3" json:"exempted_tonnes,omitempty"`
 	// Part of new_tonnes declared for destruction.
-	DestructionTonnes float64 `protobuf:"fixed64,9,opt,name=destruction_tonnes,json=destructionTonnes,proto3" json:"destruction_tonnes,omitempty"`
+	DestructionTonnes string `protobuf:"bytes,9,opt,name=destruction_tonnes,json=destructionTonnes,proto3" json:"destruction_tonnes,omitempty"`
 	// True when the partner was not bound for the substance's group.
 	PartnerNonParty bool `protobuf:"varint,10,opt,name=partner_non_party,json=partnerNonParty,proto3" json:"partner_non_party,omitempty"`
 	// Recorded shipments behind the line.
@@ -3356,46 +3612,46 @@ func (x *YearTradeLine) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *YearTradeLine) GetNewTonnes() float64 {
+func (x *YearTradeLine) GetNewTonnes() string {
 	if x != nil {
 		return x.NewTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearTradeLine) GetRecoveredTonnes() float64 {
+func (x *YearTradeLine) GetRecoveredTonnes() string {
 	if x != nil {
 		return x.RecoveredTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearTradeLine) GetFeedstockTonnes() float64 {
+func (x *YearTradeLine) GetFeedstockTonnes() string {
 	if x != nil {
 		return x.FeedstockTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearTradeLine) GetQpsTonnes() float64 {
+func (x *YearTradeLine) GetQpsTonnes() string {
 	if x != nil {
 		return x.QpsTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearTradeLine) GetExemptedTonnes() float64 {
+func (x *YearTradeLine) GetExemptedTonnes() string {
 	if x != nil {
 		return x.ExemptedTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearTradeLine) GetDestructionTonnes() float64 {
+func (x *YearTradeLine) GetDestructionTonnes() string {
 	if x != nil {
 		return x.DestructionTonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *YearTradeLine) GetPartnerNonParty() bool {
@@ -3427,10 +3683,9 @@ type YearQuantityLine struct {
 	// Annex/Group.
 	AnnexGroup string `protobuf:"bytes,2,opt,name=annex_group,json=annexGroup,proto3" json:"annex_group,omitempty"`
 	// Metric tonnes.
-	Tonnes float64 `protobuf:"fixed64,3,opt,name=tonnes,proto3" json:"tonnes,omitempty"`
-	// Where it comes from: "shipments" (declared purpose), "outside-customs"
-	// or "whole-year" (national entries).
-	Basis string `protobuf:"bytes,4,opt,name=basis,proto3" json:"basis,omitempty"`
+	Tonnes string `protobuf:"bytes,3,opt,name=tonnes,proto3" json:"tonnes,omitempty"`
+	// Where it comes from.
+	Basis QuantityBasis `protobuf:"varint,4,opt,name=basis,proto3,enum=halovet.v1.QuantityBasis" json:"basis,omitempty"`
 	// Recorded shipments behind the line.
 	ShipmentIds []int64 `protobuf:"varint,5,rep,packed,name=shipment_ids,json=shipmentIds,proto3" json:"shipment_ids,omitempty"`
 	// National entries behind the line.
@@ -3483,18 +3738,18 @@ func (x *YearQuantityLine) GetAnnexGroup() string {
 	return ""
 }
 
-func (x *YearQuantityLine) GetTonnes() float64 {
+func (x *YearQuantityLine) GetTonnes() string {
 	if x != nil {
 		return x.Tonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearQuantityLine) GetBasis() string {
+func (x *YearQuantityLine) GetBasis() QuantityBasis {
 	if x != nil {
 		return x.Basis
 	}
-	return ""
+	return QuantityBasis_QUANTITY_BASIS_UNSPECIFIED
 }
 
 func (x *YearQuantityLine) GetShipmentIds() []int64 {
@@ -3519,25 +3774,25 @@ type YearGroupTotal struct {
 	// False when the group has no data in the year.
 	HasData bool `protobuf:"varint,2,opt,name=has_data,json=hasData,proto3" json:"has_data,omitempty"`
 	// Production, metric tonnes.
-	ProductionTonnes float64 `protobuf:"fixed64,3,opt,name=production_tonnes,json=productionTonnes,proto3" json:"production_tonnes,omitempty"`
+	ProductionTonnes string `protobuf:"bytes,3,opt,name=production_tonnes,json=productionTonnes,proto3" json:"production_tonnes,omitempty"`
 	// Imports of new substance, metric tonnes.
-	ImportTonnes float64 `protobuf:"fixed64,4,opt,name=import_tonnes,json=importTonnes,proto3" json:"import_tonnes,omitempty"`
+	ImportTonnes string `protobuf:"bytes,4,opt,name=import_tonnes,json=importTonnes,proto3" json:"import_tonnes,omitempty"`
 	// Exports of new substance to Parties (deducted), metric tonnes.
-	ExportTonnes float64 `protobuf:"fixed64,5,opt,name=export_tonnes,json=exportTonnes,proto3" json:"export_tonnes,omitempty"`
+	ExportTonnes string `protobuf:"bytes,5,opt,name=export_tonnes,json=exportTonnes,proto3" json:"export_tonnes,omitempty"`
 	// Destroyed (deducted), metric tonnes.
-	DestructionTonnes float64 `protobuf:"fixed64,6,opt,name=destruction_tonnes,json=destructionTonnes,proto3" json:"destruction_tonnes,omitempty"`
+	DestructionTonnes string `protobuf:"bytes,6,opt,name=destruction_tonnes,json=destructionTonnes,proto3" json:"destruction_tonnes,omitempty"`
 	// Feedstock (deducted), metric tonnes.
-	FeedstockTonnes float64 `protobuf:"fixed64,7,opt,name=feedstock_tonnes,json=feedstockTonnes,proto3" json:"feedstock_tonnes,omitempty"`
+	FeedstockTonnes string `protobuf:"bytes,7,opt,name=feedstock_tonnes,json=feedstockTonnes,proto3" json:"feedstock_tonnes,omitempty"`
 	// QPS (deducted), metric tonnes.
-	QpsTonnes float64 `protobuf:"fixed64,8,opt,name=qps_tonnes,json=qpsTonnes,proto3" json:"qps_tonnes,omitempty"`
+	QpsTonnes string `protobuf:"bytes,8,opt,name=qps_tonnes,json=qpsTonnes,proto3" json:"qps_tonnes,omitempty"`
 	// Exports to non-Parties (not deducted), metric tonnes.
-	ExportNonPartyTonnes float64 `protobuf:"fixed64,9,opt,name=export_non_party_tonnes,json=exportNonPartyTonnes,proto3" json:"export_non_party_tonnes,omitempty"`
+	ExportNonPartyTonnes string `protobuf:"bytes,9,opt,name=export_non_party_tonnes,json=exportNonPartyTonnes,proto3" json:"export_non_party_tonnes,omitempty"`
 	// Calculated consumption, metric tonnes.
-	ConsumptionTonnes float64 `protobuf:"fixed64,10,opt,name=consumption_tonnes,json=consumptionTonnes,proto3" json:"consumption_tonnes,omitempty"`
+	ConsumptionTonnes string `protobuf:"bytes,10,opt,name=consumption_tonnes,json=consumptionTonnes,proto3" json:"consumption_tonnes,omitempty"`
 	// Calculated consumption, ODP tonnes.
-	ConsumptionOdpTonnes float64 `protobuf:"fixed64,11,opt,name=consumption_odp_tonnes,json=consumptionOdpTonnes,proto3" json:"consumption_odp_tonnes,omitempty"`
+	ConsumptionOdpTonnes string `protobuf:"bytes,11,opt,name=consumption_odp_tonnes,json=consumptionOdpTonnes,proto3" json:"consumption_odp_tonnes,omitempty"`
 	// Calculated consumption, CO2-eq tonnes.
-	ConsumptionCo2ETonnes float64 `protobuf:"fixed64,12,opt,name=consumption_co2e_tonnes,json=consumptionCo2eTonnes,proto3" json:"consumption_co2e_tonnes,omitempty"`
+	ConsumptionCo2ETonnes string `protobuf:"bytes,12,opt,name=consumption_co2e_tonnes,json=consumptionCo2eTonnes,proto3" json:"consumption_co2e_tonnes,omitempty"`
 	unknownFields         protoimpl.UnknownFields
 	sizeCache             protoimpl.SizeCache
 }
@@ -3586,74 +3841,74 @@ func (x *YearGroupTotal) GetHasData() bool {
 	return false
 }
 
-func (x *YearGroupTotal) GetProductionTonnes() float64 {
+func (x *YearGroupTotal) GetProductionTonnes() string {
 	if x != nil {
 		return x.ProductionTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetImportTonnes() float64 {
+func (x *YearGroupTotal) GetImportTonnes() string {
 	if x != nil {
 		return x.ImportTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetExportTonnes() float64 {
+func (x *YearGroupTotal) GetExportTonnes() string {
 	if x != nil {
 		return x.ExportTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetDestructionTonnes() float64 {
+func (x *YearGroupTotal) GetDestructionTonnes() string {
 	if x != nil {
 		return x.DestructionTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetFeedstockTonnes() float64 {
+func (x *YearGroupTotal) GetFeedstockTonnes() string {
 	if x != nil {
 		return x.FeedstockTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetQpsTonnes() float64 {
+func (x *YearGroupTotal) GetQpsTonnes() string {
 	if x != nil {
 		return x.QpsTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetExportNonPartyTonnes() float64 {
+func (x *YearGroupTotal) GetExportNonPartyTonnes() string {
 	if x != nil {
 		return x.ExportNonPartyTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetConsumptionTonnes() float64 {
+func (x *YearGroupTotal) GetConsumptionTonnes() string {
 	if x != nil {
 		return x.ConsumptionTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetConsumptionOdpTonnes() float64 {
+func (x *YearGroupTotal) GetConsumptionOdpTonnes() string {
 	if x != nil {
 		return x.ConsumptionOdpTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *YearGroupTotal) GetConsumptionCo2ETonnes() float64 {
+func (x *YearGroupTotal) GetConsumptionCo2ETonnes() string {
 	if x != nil {
 		return x.ConsumptionCo2ETonnes
 	}
-	return 0
+	return ""
 }
 
 // GetYearReportRequest names the year.
@@ -3734,10 +3989,8 @@ type GetYearReportResponse struct {
 	NoDataGroups []string `protobuf:"bytes,13,rep,name=no_data_groups,json=noDataGroups,proto3" json:"no_data_groups,omitempty"`
 	// How the figures were counted and what to check.
 	Notes []string `protobuf:"bytes,14,rep,name=notes,proto3" json:"notes,omitempty"`
-	// "provisional": the year is open and its figures may still change;
-	// "closed": the year is closed and the report stays the same until it is
-	// reopened (the notes say since when, by whom and why).
-	State string `protobuf:"bytes,15,opt,name=state,proto3" json:"state,omitempty"`
+	// Whether the year is open (provisional figures) or closed.
+	State ReportState `protobuf:"varint,15,opt,name=state,proto3,enum=halovet.v1.ReportState" json:"state,omitempty"`
 	// The reporting Party's authorised exemptions of the year, with their sources.
 	Exemptions    []*AuthorisedExemption `protobuf:"bytes,16,rep,name=exemptions,proto3" json:"exemptions,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -3872,11 +4125,11 @@ func (x *GetYearReportResponse) GetNotes() []string {
 	return nil
 }
 
-func (x *GetYearReportResponse) GetState() string {
+func (x *GetYearReportResponse) GetState() ReportState {
 	if x != nil {
 		return x.State
 	}
-	return ""
+	return ReportState_REPORT_STATE_UNSPECIFIED
 }
 
 func (x *GetYearReportResponse) GetExemptions() []*AuthorisedExemption {
@@ -3898,7 +4151,7 @@ type PartnerExport struct {
 	// Substance designation as the partner reports it (resolved to the catalogue).
 	Substance string `protobuf:"bytes,4,opt,name=substance,proto3" json:"substance,omitempty"`
 	// Metric tonnes.
-	MetricTonnes float64 `protobuf:"fixed64,5,opt,name=metric_tonnes,json=metricTonnes,proto3" json:"metric_tonnes,omitempty"`
+	MetricTonnes string `protobuf:"bytes,5,opt,name=metric_tonnes,json=metricTonnes,proto3" json:"metric_tonnes,omitempty"`
 	// Where the figure comes from (e.g. the partner's data report).
 	Source        string `protobuf:"bytes,6,opt,name=source,proto3" json:"source,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -3963,11 +4216,11 @@ func (x *PartnerExport) GetSubstance() string {
 	return ""
 }
 
-func (x *PartnerExport) GetMetricTonnes() float64 {
+func (x *PartnerExport) GetMetricTonnes() string {
 	if x != nil {
 		return x.MetricTonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *PartnerExport) GetSource() string {
@@ -4074,11 +4327,12 @@ type ReconcilePartnerExportsRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Calendar year.
 	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
-	// Relative tolerance, 0 to 1 (0 means 0.05): a gap counts when it exceeds
-	// tolerance times the larger of the two figures, and min_gap_tonnes.
-	Tolerance float64 `protobuf:"fixed64,2,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
-	// Smallest gap listed, metric tonnes (0 means 0.001).
-	MinGapTonnes  float64 `protobuf:"fixed64,3,opt,name=min_gap_tonnes,json=minGapTonnes,proto3" json:"min_gap_tonnes,omitempty"`
+	// Relative tolerance, a fraction from 0 to 1 (absent or "0" means "0.05"): a
+	// gap counts when it exceeds tolerance_ratio times the larger of the two
+	// figures, and min_gap_tonnes.
+	ToleranceRatio string `protobuf:"bytes,2,opt,name=tolerance_ratio,json=toleranceRatio,proto3" json:"tolerance_ratio,omitempty"`
+	// Smallest gap listed, metric tonnes (absent or "0" means "0.001").
+	MinGapTonnes  string `protobuf:"bytes,3,opt,name=min_gap_tonnes,json=minGapTonnes,proto3" json:"min_gap_tonnes,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -4120,18 +4374,18 @@ func (x *ReconcilePartnerExportsRequest) GetYear() int32 {
 	return 0
 }
 
-func (x *ReconcilePartnerExportsRequest) GetTolerance() float64 {
+func (x *ReconcilePartnerExportsRequest) GetToleranceRatio() string {
 	if x != nil {
-		return x.Tolerance
+		return x.ToleranceRatio
 	}
-	return 0
+	return ""
 }
 
-func (x *ReconcilePartnerExportsRequest) GetMinGapTonnes() float64 {
+func (x *ReconcilePartnerExportsRequest) GetMinGapTonnes() string {
 	if x != nil {
 		return x.MinGapTonnes
 	}
-	return 0
+	return ""
 }
 
 // PartnerGap is one partner and substance whose figures disagree.
@@ -4144,11 +4398,11 @@ type PartnerGap struct {
 	// Year.
 	Year int32 `protobuf:"varint,3,opt,name=year,proto3" json:"year,omitempty"`
 	// What the partner reports as exported to us, metric tonnes.
-	PartnerTonnes float64 `protobuf:"fixed64,4,opt,name=partner_tonnes,json=partnerTonnes,proto3" json:"partner_tonnes,omitempty"`
+	PartnerTonnes string `protobuf:"bytes,4,opt,name=partner_tonnes,json=partnerTonnes,proto3" json:"partner_tonnes,omitempty"`
 	// What we recorded as imported from the partner, metric tonnes (new and recovered).
-	RecordedTonnes float64 `protobuf:"fixed64,5,opt,name=recorded_tonnes,json=recordedTonnes,proto3" json:"recorded_tonnes,omitempty"`
+	RecordedTonnes string `protobuf:"bytes,5,opt,name=recorded_tonnes,json=recordedTonnes,proto3" json:"recorded_tonnes,omitempty"`
 	// partner_tonnes minus recorded_tonnes.
-	GapTonnes float64 `protobuf:"fixed64,6,opt,name=gap_tonnes,json=gapTonnes,proto3" json:"gap_tonnes,omitempty"`
+	GapTonnes string `protobuf:"bytes,6,opt,name=gap_tonnes,json=gapTonnes,proto3" json:"gap_tonnes,omitempty"`
 	// Our records behind recorded_tonnes.
 	ShipmentIds []int64 `protobuf:"varint,7,rep,packed,name=shipment_ids,json=shipmentIds,proto3" json:"shipment_ids,omitempty"`
 	// The partner's reports behind partner_tonnes.
@@ -4208,25 +4462,25 @@ func (x *PartnerGap) GetYear() int32 {
 	return 0
 }
 
-func (x *PartnerGap) GetPartnerTonnes() float64 {
+func (x *PartnerGap) GetPartnerTonnes() string {
 	if x != nil {
 		return x.PartnerTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *PartnerGap) GetRecordedTonnes() float64 {
+func (x *PartnerGap) GetRecordedTonnes() string {
 	if x != nil {
 		return x.RecordedTonnes
 	}
-	return 0
+	return ""
 }
 
-func (x *PartnerGap) GetGapTonnes() float64 {
+func (x *PartnerGap) GetGapTonnes() string {
 	if x != nil {
 		return x.GapTonnes
 	}
-	return 0
+	return ""
 }
 
 func (x *PartnerGap) GetShipmentIds() []int64 {
@@ -4248,8 +4502,8 @@ type ReconcilePartnerExportsResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Year.
 	Year int32 `protobuf:"varint,1,opt,name=year,proto3" json:"year,omitempty"`
-	// Tolerance applied.
-	Tolerance float64 `protobuf:"fixed64,2,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
+	// Tolerance applied, a fraction.
+	ToleranceRatio string `protobuf:"bytes,2,opt,name=tolerance_ratio,json=toleranceRatio,proto3" json:"tolerance_ratio,omitempty"`
 	// Gaps by partner and substance.
 	Gaps []*PartnerGap `protobuf:"bytes,3,rep,name=gaps,proto3" json:"gaps,omitempty"`
 	// Partner and substance pairs compared.
@@ -4298,11 +4552,11 @@ func (x *ReconcilePartnerExportsResponse) GetYear() int32 {
 	return 0
 }
 
-func (x *ReconcilePartnerExportsResponse) GetTolerance() float64 {
+func (x *ReconcilePartnerExportsResponse) GetToleranceRatio() string {
 	if x != nil {
-		return x.Tolerance
+		return x.ToleranceRatio
 	}
-	return 0
+	return ""
 }
 
 func (x *ReconcilePartnerExportsResponse) GetGaps() []*PartnerGap {
@@ -4338,7 +4592,7 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\n" +
 	"entry_type\x18\x03 \x01(\x0e2\x15.halovet.v1.EntryTypeR\tentryType\x12\x1c\n" +
 	"\tsubstance\x18\x04 \x01(\tR\tsubstance\x12#\n" +
-	"\rmetric_tonnes\x18\x05 \x01(\x01R\fmetricTonnes\x12\x12\n" +
+	"\rmetric_tonnes\x18\x05 \x01(\tR\fmetricTonnes\x12\x12\n" +
 	"\x04note\x18\x06 \x01(\tR\x04note\x12'\n" +
 	"\x0foutside_customs\x18\a \x01(\bR\x0eoutsideCustoms\"S\n" +
 	"\x1cRecordNationalEntriesRequest\x123\n" +
@@ -4356,28 +4610,28 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\xa6\x04\n" +
 	"\x14SubstanceConsumption\x12\x1c\n" +
 	"\tsubstance\x18\x01 \x01(\tR\tsubstance\x12+\n" +
-	"\x11production_tonnes\x18\x02 \x01(\x01R\x10productionTonnes\x12#\n" +
-	"\rimport_tonnes\x18\x03 \x01(\x01R\fimportTonnes\x12#\n" +
-	"\rexport_tonnes\x18\x04 \x01(\x01R\fexportTonnes\x12-\n" +
-	"\x12destruction_tonnes\x18\x05 \x01(\x01R\x11destructionTonnes\x12)\n" +
-	"\x10feedstock_tonnes\x18\x06 \x01(\x01R\x0ffeedstockTonnes\x12\x1d\n" +
+	"\x11production_tonnes\x18\x02 \x01(\tR\x10productionTonnes\x12#\n" +
+	"\rimport_tonnes\x18\x03 \x01(\tR\fimportTonnes\x12#\n" +
+	"\rexport_tonnes\x18\x04 \x01(\tR\fexportTonnes\x12-\n" +
+	"\x12destruction_tonnes\x18\x05 \x01(\tR\x11destructionTonnes\x12)\n" +
+	"\x10feedstock_tonnes\x18\x06 \x01(\tR\x0ffeedstockTonnes\x12\x1d\n" +
 	"\n" +
-	"qps_tonnes\x18\a \x01(\x01R\tqpsTonnes\x12,\n" +
-	"\x12not_counted_tonnes\x18\b \x01(\x01R\x10notCountedTonnes\x125\n" +
-	"\x17export_non_party_tonnes\x18\t \x01(\x01R\x14exportNonPartyTonnes\x12-\n" +
+	"qps_tonnes\x18\a \x01(\tR\tqpsTonnes\x12,\n" +
+	"\x12not_counted_tonnes\x18\b \x01(\tR\x10notCountedTonnes\x125\n" +
+	"\x17export_non_party_tonnes\x18\t \x01(\tR\x14exportNonPartyTonnes\x12-\n" +
 	"\x12consumption_tonnes\x18\n" +
-	" \x01(\x01R\x11consumptionTonnes\x124\n" +
-	"\x16consumption_odp_tonnes\x18\v \x01(\x01R\x14consumptionOdpTonnes\x126\n" +
-	"\x17consumption_co2e_tonnes\x18\f \x01(\x01R\x15consumptionCo2eTonnes\"\x92\x02\n" +
+	" \x01(\tR\x11consumptionTonnes\x124\n" +
+	"\x16consumption_odp_tonnes\x18\v \x01(\tR\x14consumptionOdpTonnes\x126\n" +
+	"\x17consumption_co2e_tonnes\x18\f \x01(\tR\x15consumptionCo2eTonnes\"\x92\x02\n" +
 	"\x10GroupConsumption\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12@\n" +
 	"\n" +
 	"substances\x18\x02 \x03(\v2 .halovet.v1.SubstanceConsumptionR\n" +
 	"substances\x12-\n" +
-	"\x12consumption_tonnes\x18\x03 \x01(\x01R\x11consumptionTonnes\x124\n" +
-	"\x16consumption_odp_tonnes\x18\x04 \x01(\x01R\x14consumptionOdpTonnes\x126\n" +
-	"\x17consumption_co2e_tonnes\x18\x05 \x01(\x01R\x15consumptionCo2eTonnes\"L\n" +
+	"\x12consumption_tonnes\x18\x03 \x01(\tR\x11consumptionTonnes\x124\n" +
+	"\x16consumption_odp_tonnes\x18\x04 \x01(\tR\x14consumptionOdpTonnes\x126\n" +
+	"\x17consumption_co2e_tonnes\x18\x05 \x01(\tR\x15consumptionCo2eTonnes\"L\n" +
 	"\x15GetConsumptionRequest\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
@@ -4391,85 +4645,87 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x10hfc23_by_product\x18\x06 \x03(\v2\x16.halovet.v1.Hfc23EntryR\x0ehfc23ByProduct\"U\n" +
 	"\fBaselineYear\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x16\n" +
-	"\x06amount\x18\x02 \x01(\x01R\x06amount\x12\x19\n" +
-	"\bhas_data\x18\x03 \x01(\bR\ahasData\"\xbc\x02\n" +
+	"\x06amount\x18\x02 \x01(\tR\x06amount\x12\x19\n" +
+	"\bhas_data\x18\x03 \x01(\bR\ahasData\"\x8d\x03\n" +
 	"\fBaselinePart\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
-	"annexGroup\x12\x12\n" +
-	"\x04unit\x18\x02 \x01(\tR\x04unit\x12\x14\n" +
-	"\x05value\x18\x03 \x01(\x01R\x05value\x12\x12\n" +
-	"\x04mean\x18\x04 \x01(\x01R\x04mean\x12.\n" +
-	"\x05years\x18\x05 \x03(\v2\x18.halovet.v1.BaselineYearR\x05years\x12\x1b\n" +
-	"\tcfc_share\x18\x06 \x01(\x01R\bcfcShare\x125\n" +
-	"\tcfc_years\x18\a \x03(\v2\x18.halovet.v1.BaselineYearR\bcfcYears\x12\x19\n" +
-	"\bcfc_term\x18\b \x01(\x01R\acfcTerm\x12\x1a\n" +
+	"annexGroup\x12+\n" +
+	"\x04unit\x18\x02 \x01(\x0e2\x17.halovet.v1.ControlUnitR\x04unit\x12'\n" +
+	"\x0fbaseline_amount\x18\x03 \x01(\tR\x0ebaselineAmount\x12\x1f\n" +
+	"\vmean_amount\x18\x04 \x01(\tR\n" +
+	"meanAmount\x12.\n" +
+	"\x05years\x18\x05 \x03(\v2\x18.halovet.v1.BaselineYearR\x05years\x12&\n" +
+	"\x0fcfc_share_ratio\x18\x06 \x01(\tR\rcfcShareRatio\x125\n" +
+	"\tcfc_years\x18\a \x03(\v2\x18.halovet.v1.BaselineYearR\bcfcYears\x12&\n" +
+	"\x0fcfc_term_amount\x18\b \x01(\tR\rcfcTermAmount\x12\x1a\n" +
 	"\bcomplete\x18\t \x01(\bR\bcomplete\x12\x12\n" +
 	"\x04rule\x18\n" +
 	" \x01(\tR\x04rule\"5\n" +
 	"\x12GetBaselineRequest\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
-	"annexGroup\"\xb8\x05\n" +
+	"annexGroup\"\xc5\x06\n" +
 	"\x13GetBaselineResponse\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
-	"annexGroup\x12\x12\n" +
-	"\x04unit\x18\x02 \x01(\tR\x04unit\x12\x1a\n" +
-	"\bbaseline\x18\x03 \x01(\x01R\bbaseline\x12.\n" +
-	"\x05years\x18\x04 \x03(\v2\x18.halovet.v1.BaselineYearR\x05years\x12%\n" +
-	"\x0ehcfc_component\x18\x05 \x01(\x01R\rhcfcComponent\x12\x1d\n" +
-	"\n" +
-	"hcfc_share\x18\x06 \x01(\x01R\thcfcShare\x12\x1a\n" +
+	"annexGroup\x12+\n" +
+	"\x04unit\x18\x02 \x01(\x0e2\x17.halovet.v1.ControlUnitR\x04unit\x12'\n" +
+	"\x0fbaseline_amount\x18\x03 \x01(\tR\x0ebaselineAmount\x12.\n" +
+	"\x05years\x18\x04 \x03(\v2\x18.halovet.v1.BaselineYearR\x05years\x122\n" +
+	"\x15hcfc_component_amount\x18\x05 \x01(\tR\x13hcfcComponentAmount\x12(\n" +
+	"\x10hcfc_share_ratio\x18\x06 \x01(\tR\x0ehcfcShareRatio\x12\x1a\n" +
 	"\bcomplete\x18\a \x01(\bR\bcomplete\x12\x18\n" +
 	"\amissing\x18\b \x03(\tR\amissing\x12\x12\n" +
-	"\x04rule\x18\t \x01(\tR\x04rule\x12\x12\n" +
-	"\x04mean\x18\n" +
-	" \x01(\x01R\x04mean\x12\x1b\n" +
-	"\tcfc_share\x18\v \x01(\x01R\bcfcShare\x125\n" +
-	"\tcfc_years\x18\f \x03(\v2\x18.halovet.v1.BaselineYearR\bcfcYears\x12\x19\n" +
-	"\bcfc_term\x18\r \x01(\x01R\acfcTerm\x12=\n" +
+	"\x04rule\x18\t \x01(\tR\x04rule\x12\x1f\n" +
+	"\vmean_amount\x18\n" +
+	" \x01(\tR\n" +
+	"meanAmount\x12&\n" +
+	"\x0fcfc_share_ratio\x18\v \x01(\tR\rcfcShareRatio\x125\n" +
+	"\tcfc_years\x18\f \x03(\v2\x18.halovet.v1.BaselineYearR\bcfcYears\x12&\n" +
+	"\x0fcfc_term_amount\x18\r \x01(\tR\rcfcTermAmount\x12=\n" +
 	"\rhcfc_baseline\x18\x0e \x01(\v2\x18.halovet.v1.BaselinePartR\fhcfcBaseline\x12\x14\n" +
-	"\x05notes\x18\x0f \x03(\tR\x05notes\x12\x1d\n" +
+	"\x05notes\x18\x0f \x03(\tR\x05notes\x12:\n" +
 	"\n" +
-	"applies_to\x18\x10 \x01(\tR\tappliesTo\x122\n" +
-	"\x15has_official_baseline\x18\x11 \x01(\bR\x13hasOfficialBaseline\x12+\n" +
-	"\x11official_baseline\x18\x12 \x01(\x01R\x10officialBaseline\x128\n" +
-	"\x18official_baseline_source\x18\x13 \x01(\tR\x16officialBaselineSource\"\xea\x02\n" +
+	"applies_to\x18\x10 \x01(\x0e2\x1b.halovet.v1.ControlScheduleR\tappliesTo\x122\n" +
+	"\x15has_official_baseline\x18\x11 \x01(\bR\x13hasOfficialBaseline\x128\n" +
+	"\x18official_baseline_amount\x18\x12 \x01(\tR\x16officialBaselineAmount\x128\n" +
+	"\x18official_baseline_source\x18\x13 \x01(\tR\x16officialBaselineSource\"\xb6\x03\n" +
 	"\rPeriodAverage\x12\x1b\n" +
 	"\tfrom_year\x18\x01 \x01(\x05R\bfromYear\x12\x17\n" +
-	"\ato_year\x18\x02 \x01(\x05R\x06toYear\x12\x18\n" +
-	"\apercent\x18\x03 \x01(\x01R\apercent\x12#\n" +
+	"\ato_year\x18\x02 \x01(\x05R\x06toYear\x12#\n" +
+	"\rlimit_percent\x18\x03 \x01(\tR\flimitPercent\x12#\n" +
 	"\ryears_counted\x18\x04 \x01(\x05R\fyearsCounted\x12'\n" +
-	"\x0fyears_remaining\x18\x05 \x01(\x05R\x0eyearsRemaining\x12\x10\n" +
-	"\x03sum\x18\x06 \x01(\x01R\x03sum\x12'\n" +
-	"\x0frunning_average\x18\a \x01(\x01R\x0erunningAverage\x12'\n" +
-	"\x0frunning_percent\x18\b \x01(\x01R\x0erunningPercent\x12\x16\n" +
-	"\x06budget\x18\t \x01(\x01R\x06budget\x12\x1b\n" +
-	"\troom_left\x18\n" +
-	" \x01(\x01R\broomLeft\x12\"\n" +
-	"\rroom_per_year\x18\v \x01(\x01R\vroomPerYear\"\xe8\x04\n" +
+	"\x0fyears_remaining\x18\x05 \x01(\x05R\x0eyearsRemaining\x12\x1d\n" +
+	"\n" +
+	"sum_amount\x18\x06 \x01(\tR\tsumAmount\x124\n" +
+	"\x16running_average_amount\x18\a \x01(\tR\x14runningAverageAmount\x12'\n" +
+	"\x0frunning_percent\x18\b \x01(\tR\x0erunningPercent\x12#\n" +
+	"\rbudget_amount\x18\t \x01(\tR\fbudgetAmount\x12(\n" +
+	"\x10room_left_amount\x18\n" +
+	" \x01(\tR\x0eroomLeftAmount\x12/\n" +
+	"\x14room_per_year_amount\x18\v \x01(\tR\x11roomPerYearAmount\"\xb6\x05\n" +
 	"\x0eComplianceYear\x12\x12\n" +
-	"\x04year\x18\x01 \x01(\x05R\x04year\x12 \n" +
-	"\vconsumption\x18\x02 \x01(\x01R\vconsumption\x12\x18\n" +
-	"\aallowed\x18\x03 \x01(\x01R\aallowed\x12'\n" +
-	"\x0fallowed_percent\x18\x04 \x01(\x01R\x0eallowedPercent\x12\x1a\n" +
-	"\bheadroom\x18\x05 \x01(\x01R\bheadroom\x12\x16\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12-\n" +
+	"\x12consumption_amount\x18\x02 \x01(\tR\x11consumptionAmount\x12%\n" +
+	"\x0eallowed_amount\x18\x03 \x01(\tR\rallowedAmount\x12'\n" +
+	"\x0fallowed_percent\x18\x04 \x01(\tR\x0eallowedPercent\x12'\n" +
+	"\x0fheadroom_amount\x18\x05 \x01(\tR\x0eheadroomAmount\x12\x16\n" +
 	"\x06within\x18\x06 \x01(\bR\x06within\x12\x14\n" +
 	"\x05notes\x18\a \x03(\tR\x05notes\x127\n" +
 	"\aoutcome\x18\b \x01(\x0e2\x1d.halovet.v1.ComplianceOutcomeR\aoutcome\x12\x19\n" +
 	"\bhas_data\x18\t \x01(\bR\ahasData\x121\n" +
 	"\x06period\x18\n" +
-	" \x01(\v2\x19.halovet.v1.PeriodAverageR\x06period\x12)\n" +
-	"\x10computed_allowed\x18\v \x01(\x01R\x0fcomputedAllowed\x12,\n" +
-	"\x12has_official_limit\x18\f \x01(\bR\x10hasOfficialLimit\x12%\n" +
-	"\x0eofficial_limit\x18\r \x01(\x01R\rofficialLimit\x122\n" +
-	"\x15official_limit_source\x18\x0e \x01(\tR\x13officialLimitSource\x12\x1a\n" +
-	"\bexempted\x18\x0f \x01(\x01R\bexempted\x12<\n" +
+	" \x01(\v2\x19.halovet.v1.PeriodAverageR\x06period\x126\n" +
+	"\x17computed_allowed_amount\x18\v \x01(\tR\x15computedAllowedAmount\x12,\n" +
+	"\x12has_official_limit\x18\f \x01(\bR\x10hasOfficialLimit\x122\n" +
+	"\x15official_limit_amount\x18\r \x01(\tR\x13officialLimitAmount\x122\n" +
+	"\x15official_limit_source\x18\x0e \x01(\tR\x13officialLimitSource\x12'\n" +
+	"\x0fexempted_amount\x18\x0f \x01(\tR\x0eexemptedAmount\x12<\n" +
 	"\n" +
 	"exemptions\x18\x10 \x03(\v2\x1c.halovet.v1.AppliedExemptionR\n" +
 	"exemptions\"m\n" +
 	"\x10AppliedExemption\x12)\n" +
 	"\x03use\x18\x01 \x01(\x0e2\x17.halovet.v1.ExemptedUseR\x03use\x12\x16\n" +
-	"\x06amount\x18\x02 \x01(\x01R\x06amount\x12\x16\n" +
-	"\x06source\x18\x03 \x01(\tR\x06source\"\x95\x02\n" +
+	"\x06amount\x18\x02 \x01(\tR\x06amount\x12\x16\n" +
+	"\x06source\x18\x03 \x01(\tR\x06source\"\xae\x02\n" +
 	"\x13AuthorisedExemption\x12#\n" +
 	"\rexemption_key\x18\x01 \x01(\tR\fexemptionKey\x12!\n" +
 	"\fcountry_code\x18\x02 \x01(\tR\vcountryCode\x12\x12\n" +
@@ -4477,8 +4733,8 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\vannex_group\x18\x04 \x01(\tR\n" +
 	"annexGroup\x12)\n" +
 	"\x03use\x18\x05 \x01(\x0e2\x17.halovet.v1.ExemptedUseR\x03use\x12\x16\n" +
-	"\x06amount\x18\x06 \x01(\x01R\x06amount\x12\x12\n" +
-	"\x04unit\x18\a \x01(\tR\x04unit\x12\x16\n" +
+	"\x06amount\x18\x06 \x01(\tR\x06amount\x12+\n" +
+	"\x04unit\x18\a \x01(\x0e2\x17.halovet.v1.ControlUnitR\x04unit\x12\x16\n" +
 	"\x06source\x18\b \x01(\tR\x06source\x12\x12\n" +
 	"\x04note\x18\t \x01(\tR\x04note\"Z\n" +
 	"\x17RecordExemptionsRequest\x12?\n" +
@@ -4498,7 +4754,7 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\n" +
 	"exemptions\x18\x01 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
 	"exemptions\x12&\n" +
-	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\xfd\x01\n" +
+	"\x0fnext_page_token\x18\x02 \x01(\tR\rnextPageToken\"\x98\x02\n" +
 	"\x0eOfficialFigure\x12\x1d\n" +
 	"\n" +
 	"figure_key\x18\x01 \x01(\tR\tfigureKey\x12!\n" +
@@ -4506,9 +4762,9 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x04kind\x18\x03 \x01(\x0e2\x1e.halovet.v1.OfficialFigureKindR\x04kind\x12\x1f\n" +
 	"\vannex_group\x18\x04 \x01(\tR\n" +
 	"annexGroup\x12\x12\n" +
-	"\x04year\x18\x05 \x01(\x05R\x04year\x12\x14\n" +
-	"\x05value\x18\x06 \x01(\x01R\x05value\x12\x12\n" +
-	"\x04unit\x18\a \x01(\tR\x04unit\x12\x16\n" +
+	"\x04year\x18\x05 \x01(\x05R\x04year\x12\x16\n" +
+	"\x06amount\x18\x06 \x01(\tR\x06amount\x12+\n" +
+	"\x04unit\x18\a \x01(\x0e2\x17.halovet.v1.ControlUnitR\x04unit\x12\x16\n" +
 	"\x06source\x18\b \x01(\tR\x06source\"T\n" +
 	"\x1cRecordOfficialFiguresRequest\x124\n" +
 	"\afigures\x18\x01 \x03(\v2\x1a.halovet.v1.OfficialFigureR\afigures\"U\n" +
@@ -4525,60 +4781,59 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x1b\n" +
 	"\tfrom_year\x18\x02 \x01(\x05R\bfromYear\x12\x17\n" +
-	"\ato_year\x18\x03 \x01(\x05R\x06toYear\"\xd8\x03\n" +
+	"\ato_year\x18\x03 \x01(\x05R\x06toYear\"\xa8\x04\n" +
 	"\x18AssessComplianceResponse\x12\x1f\n" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
-	"annexGroup\x12\x12\n" +
-	"\x04unit\x18\x02 \x01(\tR\x04unit\x12\x1a\n" +
-	"\bbaseline\x18\x03 \x01(\x01R\bbaseline\x120\n" +
+	"annexGroup\x12+\n" +
+	"\x04unit\x18\x02 \x01(\x0e2\x17.halovet.v1.ControlUnitR\x04unit\x12'\n" +
+	"\x0fbaseline_amount\x18\x03 \x01(\tR\x0ebaselineAmount\x120\n" +
 	"\x05years\x18\x04 \x03(\v2\x1a.halovet.v1.ComplianceYearR\x05years\x12'\n" +
 	"\x0fschedule_source\x18\x05 \x01(\tR\x0escheduleSource\x12+\n" +
 	"\x11baseline_complete\x18\x06 \x01(\bR\x10baselineComplete\x12)\n" +
-	"\x10baseline_missing\x18\a \x03(\tR\x0fbaselineMissing\x12\x1d\n" +
+	"\x10baseline_missing\x18\a \x03(\tR\x0fbaselineMissing\x12:\n" +
 	"\n" +
-	"applies_to\x18\b \x01(\tR\tappliesTo\x12+\n" +
-	"\x11computed_baseline\x18\t \x01(\x01R\x10computedBaseline\x122\n" +
+	"applies_to\x18\b \x01(\x0e2\x1b.halovet.v1.ControlScheduleR\tappliesTo\x128\n" +
+	"\x18computed_baseline_amount\x18\t \x01(\tR\x16computedBaselineAmount\x122\n" +
 	"\x15has_official_baseline\x18\n" +
 	" \x01(\bR\x13hasOfficialBaseline\x128\n" +
-	"\x18official_baseline_source\x18\v \x01(\tR\x16officialBaselineSource\"\xeb\x01\n" +
+	"\x18official_baseline_source\x18\v \x01(\tR\x16officialBaselineSource\"\x90\x02\n" +
 	"\rQuotaProposal\x12\x1d\n" +
 	"\n" +
-	"company_id\x18\x01 \x01(\tR\tcompanyId\x12'\n" +
-	"\x0freference_share\x18\x02 \x01(\x01R\x0ereferenceShare\x12\x14\n" +
-	"\x05quota\x18\x03 \x01(\x01R\x05quota\x120\n" +
+	"company_id\x18\x01 \x01(\tR\tcompanyId\x122\n" +
+	"\x15reference_share_ratio\x18\x02 \x01(\tR\x13referenceShareRatio\x12!\n" +
+	"\fquota_amount\x18\x03 \x01(\tR\vquotaAmount\x120\n" +
 	"\x14draft_licence_number\x18\x04 \x01(\tR\x12draftLicenceNumber\x12)\n" +
-	"\x10reference_amount\x18\x05 \x01(\x01R\x0freferenceAmount\x12\x1f\n" +
-	"\vexact_share\x18\x06 \x01(\x01R\n" +
-	"exactShare\"\xd2\x01\n" +
+	"\x10reference_amount\x18\x05 \x01(\tR\x0freferenceAmount\x12,\n" +
+	"\x12exact_share_amount\x18\x06 \x01(\tR\x10exactShareAmount\"\xea\x01\n" +
 	"\x11PlanQuotasRequest\x12\x12\n" +
 	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
 	"annexGroup\x12'\n" +
-	"\x0freference_years\x18\x03 \x03(\x05R\x0ereferenceYears\x12\x1a\n" +
-	"\bfraction\x18\x04 \x01(\x01R\bfraction\x12 \n" +
-	"\vgranularity\x18\x05 \x01(\x01R\vgranularity\x12!\n" +
-	"\fissue_drafts\x18\x06 \x01(\bR\vissueDrafts\"\xb7\x02\n" +
-	"\x12PlanQuotasResponse\x12\x12\n" +
-	"\x04unit\x18\x01 \x01(\tR\x04unit\x12\x18\n" +
-	"\aallowed\x18\x02 \x01(\x01R\aallowed\x12 \n" +
-	"\vdistributed\x18\x03 \x01(\x01R\vdistributed\x127\n" +
+	"\x0freference_years\x18\x03 \x03(\x05R\x0ereferenceYears\x12%\n" +
+	"\x0efraction_ratio\x18\x04 \x01(\tR\rfractionRatio\x12-\n" +
+	"\x12granularity_amount\x18\x05 \x01(\tR\x11granularityAmount\x12!\n" +
+	"\fissue_drafts\x18\x06 \x01(\bR\vissueDrafts\"\xf7\x02\n" +
+	"\x12PlanQuotasResponse\x12+\n" +
+	"\x04unit\x18\x01 \x01(\x0e2\x17.halovet.v1.ControlUnitR\x04unit\x12%\n" +
+	"\x0eallowed_amount\x18\x02 \x01(\tR\rallowedAmount\x12-\n" +
+	"\x12distributed_amount\x18\x03 \x01(\tR\x11distributedAmount\x127\n" +
 	"\tproposals\x18\x04 \x03(\v2\x19.halovet.v1.QuotaProposalR\tproposals\x12\x12\n" +
 	"\x04year\x18\x05 \x01(\x05R\x04year\x12\x1f\n" +
 	"\vannex_group\x18\x06 \x01(\tR\n" +
 	"annexGroup\x12'\n" +
-	"\x0fallowed_percent\x18\a \x01(\x01R\x0eallowedPercent\x12$\n" +
-	"\rdistributable\x18\b \x01(\x01R\rdistributable\x12\x14\n" +
+	"\x0fallowed_percent\x18\a \x01(\tR\x0eallowedPercent\x121\n" +
+	"\x14distributable_amount\x18\b \x01(\tR\x13distributableAmount\x12\x14\n" +
 	"\x05notes\x18\t \x03(\tR\x05notes\"\xcc\x02\n" +
 	"\n" +
 	"Hfc23Entry\x12\x1b\n" +
 	"\tentry_key\x18\x01 \x01(\tR\bentryKey\x12\x1a\n" +
 	"\bfacility\x18\x02 \x01(\tR\bfacility\x12\x12\n" +
 	"\x04year\x18\x03 \x01(\x05R\x04year\x12)\n" +
-	"\x10generated_tonnes\x18\x04 \x01(\x01R\x0fgeneratedTonnes\x120\n" +
-	"\x14captured_used_tonnes\x18\x05 \x01(\x01R\x12capturedUsedTonnes\x12)\n" +
-	"\x10destroyed_tonnes\x18\x06 \x01(\x01R\x0fdestroyedTonnes\x12%\n" +
-	"\x0eemitted_tonnes\x18\a \x01(\x01R\remittedTonnes\x12.\n" +
-	"\x13emitted_co2e_tonnes\x18\b \x01(\x01R\x11emittedCo2eTonnes\x12\x12\n" +
+	"\x10generated_tonnes\x18\x04 \x01(\tR\x0fgeneratedTonnes\x120\n" +
+	"\x14captured_used_tonnes\x18\x05 \x01(\tR\x12capturedUsedTonnes\x12)\n" +
+	"\x10destroyed_tonnes\x18\x06 \x01(\tR\x0fdestroyedTonnes\x12%\n" +
+	"\x0eemitted_tonnes\x18\a \x01(\tR\remittedTonnes\x12.\n" +
+	"\x13emitted_co2e_tonnes\x18\b \x01(\tR\x11emittedCo2eTonnes\x12\x12\n" +
 	"\x04note\x18\t \x01(\tR\x04note\"M\n" +
 	"\x19RecordHfc23EntriesRequest\x120\n" +
 	"\aentries\x18\x01 \x03(\v2\x16.halovet.v1.Hfc23EntryR\aentries\"N\n" +
@@ -4598,24 +4853,24 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\vannex_group\x18\x03 \x01(\tR\n" +
 	"annexGroup\x12\x1d\n" +
 	"\n" +
-	"new_tonnes\x18\x04 \x01(\x01R\tnewTonnes\x12)\n" +
-	"\x10recovered_tonnes\x18\x05 \x01(\x01R\x0frecoveredTonnes\x12)\n" +
-	"\x10feedstock_tonnes\x18\x06 \x01(\x01R\x0ffeedstockTonnes\x12\x1d\n" +
+	"new_tonnes\x18\x04 \x01(\tR\tnewTonnes\x12)\n" +
+	"\x10recovered_tonnes\x18\x05 \x01(\tR\x0frecoveredTonnes\x12)\n" +
+	"\x10feedstock_tonnes\x18\x06 \x01(\tR\x0ffeedstockTonnes\x12\x1d\n" +
 	"\n" +
-	"qps_tonnes\x18\a \x01(\x01R\tqpsTonnes\x12'\n" +
-	"\x0fexempted_tonnes\x18\b \x01(\x01R\x0eexemptedTonnes\x12-\n" +
-	"\x12destruction_tonnes\x18\t \x01(\x01R\x11destructionTonnes\x12*\n" +
+	"qps_tonnes\x18\a \x01(\tR\tqpsTonnes\x12'\n" +
+	"\x0fexempted_tonnes\x18\b \x01(\tR\x0eexemptedTonnes\x12-\n" +
+	"\x12destruction_tonnes\x18\t \x01(\tR\x11destructionTonnes\x12*\n" +
 	"\x11partner_non_party\x18\n" +
 	" \x01(\bR\x0fpartnerNonParty\x12!\n" +
 	"\fshipment_ids\x18\v \x03(\x03R\vshipmentIds\x12\x1d\n" +
 	"\n" +
-	"entry_keys\x18\f \x03(\tR\tentryKeys\"\xc1\x01\n" +
+	"entry_keys\x18\f \x03(\tR\tentryKeys\"\xdc\x01\n" +
 	"\x10YearQuantityLine\x12\x1c\n" +
 	"\tsubstance\x18\x01 \x01(\tR\tsubstance\x12\x1f\n" +
 	"\vannex_group\x18\x02 \x01(\tR\n" +
 	"annexGroup\x12\x16\n" +
-	"\x06tonnes\x18\x03 \x01(\x01R\x06tonnes\x12\x14\n" +
-	"\x05basis\x18\x04 \x01(\tR\x05basis\x12!\n" +
+	"\x06tonnes\x18\x03 \x01(\tR\x06tonnes\x12/\n" +
+	"\x05basis\x18\x04 \x01(\x0e2\x19.halovet.v1.QuantityBasisR\x05basis\x12!\n" +
 	"\fshipment_ids\x18\x05 \x03(\x03R\vshipmentIds\x12\x1d\n" +
 	"\n" +
 	"entry_keys\x18\x06 \x03(\tR\tentryKeys\"\x90\x04\n" +
@@ -4623,20 +4878,20 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\vannex_group\x18\x01 \x01(\tR\n" +
 	"annexGroup\x12\x19\n" +
 	"\bhas_data\x18\x02 \x01(\bR\ahasData\x12+\n" +
-	"\x11production_tonnes\x18\x03 \x01(\x01R\x10productionTonnes\x12#\n" +
-	"\rimport_tonnes\x18\x04 \x01(\x01R\fimportTonnes\x12#\n" +
-	"\rexport_tonnes\x18\x05 \x01(\x01R\fexportTonnes\x12-\n" +
-	"\x12destruction_tonnes\x18\x06 \x01(\x01R\x11destructionTonnes\x12)\n" +
-	"\x10feedstock_tonnes\x18\a \x01(\x01R\x0ffeedstockTonnes\x12\x1d\n" +
+	"\x11production_tonnes\x18\x03 \x01(\tR\x10productionTonnes\x12#\n" +
+	"\rimport_tonnes\x18\x04 \x01(\tR\fimportTonnes\x12#\n" +
+	"\rexport_tonnes\x18\x05 \x01(\tR\fexportTonnes\x12-\n" +
+	"\x12destruction_tonnes\x18\x06 \x01(\tR\x11destructionTonnes\x12)\n" +
+	"\x10feedstock_tonnes\x18\a \x01(\tR\x0ffeedstockTonnes\x12\x1d\n" +
 	"\n" +
-	"qps_tonnes\x18\b \x01(\x01R\tqpsTonnes\x125\n" +
-	"\x17export_non_party_tonnes\x18\t \x01(\x01R\x14exportNonPartyTonnes\x12-\n" +
+	"qps_tonnes\x18\b \x01(\tR\tqpsTonnes\x125\n" +
+	"\x17export_non_party_tonnes\x18\t \x01(\tR\x14exportNonPartyTonnes\x12-\n" +
 	"\x12consumption_tonnes\x18\n" +
-	" \x01(\x01R\x11consumptionTonnes\x124\n" +
-	"\x16consumption_odp_tonnes\x18\v \x01(\x01R\x14consumptionOdpTonnes\x126\n" +
-	"\x17consumption_co2e_tonnes\x18\f \x01(\x01R\x15consumptionCo2eTonnes\"*\n" +
+	" \x01(\tR\x11consumptionTonnes\x124\n" +
+	"\x16consumption_odp_tonnes\x18\v \x01(\tR\x14consumptionOdpTonnes\x126\n" +
+	"\x17consumption_co2e_tonnes\x18\f \x01(\tR\x15consumptionCo2eTonnes\"*\n" +
 	"\x14GetYearReportRequest\x12\x12\n" +
-	"\x04year\x18\x01 \x01(\x05R\x04year\"\xa5\x06\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\"\xbe\x06\n" +
 	"\x15GetYearReportResponse\x12!\n" +
 	"\fcountry_code\x18\x01 \x01(\tR\vcountryCode\x12\x12\n" +
 	"\x04year\x18\x02 \x01(\x05R\x04year\x122\n" +
@@ -4654,8 +4909,8 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x11exports_non_party\x18\v \x03(\v2\x19.halovet.v1.YearTradeLineR\x0fexportsNonParty\x12,\n" +
 	"\x05hfc23\x18\f \x03(\v2\x16.halovet.v1.Hfc23EntryR\x05hfc23\x12$\n" +
 	"\x0eno_data_groups\x18\r \x03(\tR\fnoDataGroups\x12\x14\n" +
-	"\x05notes\x18\x0e \x03(\tR\x05notes\x12\x14\n" +
-	"\x05state\x18\x0f \x01(\tR\x05state\x12?\n" +
+	"\x05notes\x18\x0e \x03(\tR\x05notes\x12-\n" +
+	"\x05state\x18\x0f \x01(\x0e2\x17.halovet.v1.ReportStateR\x05state\x12?\n" +
 	"\n" +
 	"exemptions\x18\x10 \x03(\v2\x1f.halovet.v1.AuthorisedExemptionR\n" +
 	"exemptions\"\xc6\x01\n" +
@@ -4665,34 +4920,55 @@ const file_halovet_v1_consumption_proto_rawDesc = "" +
 	"\x04year\x18\x02 \x01(\x05R\x04year\x12'\n" +
 	"\x0fpartner_country\x18\x03 \x01(\tR\x0epartnerCountry\x12\x1c\n" +
 	"\tsubstance\x18\x04 \x01(\tR\tsubstance\x12#\n" +
-	"\rmetric_tonnes\x18\x05 \x01(\x01R\fmetricTonnes\x12\x16\n" +
+	"\rmetric_tonnes\x18\x05 \x01(\tR\fmetricTonnes\x12\x16\n" +
 	"\x06source\x18\x06 \x01(\tR\x06source\"R\n" +
 	"\x1bRecordPartnerExportsRequest\x123\n" +
 	"\areports\x18\x01 \x03(\v2\x19.halovet.v1.PartnerExportR\areports\"S\n" +
 	"\x1cRecordPartnerExportsResponse\x123\n" +
-	"\areports\x18\x01 \x03(\v2\x19.halovet.v1.PartnerExportR\areports\"x\n" +
+	"\areports\x18\x01 \x03(\v2\x19.halovet.v1.PartnerExportR\areports\"\x83\x01\n" +
 	"\x1eReconcilePartnerExportsRequest\x12\x12\n" +
-	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1c\n" +
-	"\ttolerance\x18\x02 \x01(\x01R\ttolerance\x12$\n" +
-	"\x0emin_gap_tonnes\x18\x03 \x01(\x01R\fminGapTonnes\"\x9a\x02\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12'\n" +
+	"\x0ftolerance_ratio\x18\x02 \x01(\tR\x0etoleranceRatio\x12$\n" +
+	"\x0emin_gap_tonnes\x18\x03 \x01(\tR\fminGapTonnes\"\x9a\x02\n" +
 	"\n" +
 	"PartnerGap\x12'\n" +
 	"\x0fpartner_country\x18\x01 \x01(\tR\x0epartnerCountry\x12\x1c\n" +
 	"\tsubstance\x18\x02 \x01(\tR\tsubstance\x12\x12\n" +
 	"\x04year\x18\x03 \x01(\x05R\x04year\x12%\n" +
-	"\x0epartner_tonnes\x18\x04 \x01(\x01R\rpartnerTonnes\x12'\n" +
-	"\x0frecorded_tonnes\x18\x05 \x01(\x01R\x0erecordedTonnes\x12\x1d\n" +
+	"\x0epartner_tonnes\x18\x04 \x01(\tR\rpartnerTonnes\x12'\n" +
+	"\x0frecorded_tonnes\x18\x05 \x01(\tR\x0erecordedTonnes\x12\x1d\n" +
 	"\n" +
-	"gap_tonnes\x18\x06 \x01(\x01R\tgapTonnes\x12!\n" +
+	"gap_tonnes\x18\x06 \x01(\tR\tgapTonnes\x12!\n" +
 	"\fshipment_ids\x18\a \x03(\x03R\vshipmentIds\x12\x1f\n" +
 	"\vreport_keys\x18\b \x03(\tR\n" +
-	"reportKeys\"\xdc\x01\n" +
+	"reportKeys\"\xe7\x01\n" +
 	"\x1fReconcilePartnerExportsResponse\x12\x12\n" +
-	"\x04year\x18\x01 \x01(\x05R\x04year\x12\x1c\n" +
-	"\ttolerance\x18\x02 \x01(\x01R\ttolerance\x12*\n" +
+	"\x04year\x18\x01 \x01(\x05R\x04year\x12'\n" +
+	"\x0ftolerance_ratio\x18\x02 \x01(\tR\x0etoleranceRatio\x12*\n" +
 	"\x04gaps\x18\x03 \x03(\v2\x16.halovet.v1.PartnerGapR\x04gaps\x12%\n" +
 	"\x0epairs_compared\x18\x04 \x01(\x05R\rpairsCompared\x124\n" +
-	"\x16partners_not_reporting\x18\x05 \x03(\tR\x14partnersNotReporting*\xfc\x01\n" +
+	"\x16partners_not_reporting\x18\x05 \x03(\tR\x14partnersNotReporting*f\n" +
+	"\vControlUnit\x12\x1c\n" +
+	"\x18CONTROL_UNIT_UNSPECIFIED\x10\x00\x12\x1b\n" +
+	"\x17CONTROL_UNIT_ODP_TONNES\x10\x01\x12\x1c\n" +
+	"\x18CONTROL_UNIT_CO2E_TONNES\x10\x02*\x8c\x02\n" +
+	"\x0fControlSchedule\x12 \n" +
+	"\x1cCONTROL_SCHEDULE_UNSPECIFIED\x10\x00\x12\"\n" +
+	"\x1eCONTROL_SCHEDULE_NON_ARTICLE_5\x10\x01\x12\x1e\n" +
+	"\x1aCONTROL_SCHEDULE_ARTICLE_5\x10\x02\x122\n" +
+	".CONTROL_SCHEDULE_NON_ARTICLE_5_HFC_LATER_START\x10\x03\x12.\n" +
+	"*CONTROL_SCHEDULE_ARTICLE_5_HFC_FIRST_GROUP\x10\x04\x12/\n" +
+	"+CONTROL_SCHEDULE_ARTICLE_5_HFC_SECOND_GROUP\x10\x05*\xb3\x01\n" +
+	"\rQuantityBasis\x12\x1e\n" +
+	"\x1aQUANTITY_BASIS_UNSPECIFIED\x10\x00\x12\x1c\n" +
+	"\x18QUANTITY_BASIS_SHIPMENTS\x10\x01\x12\"\n" +
+	"\x1eQUANTITY_BASIS_OUTSIDE_CUSTOMS\x10\x02\x12\x1d\n" +
+	"\x19QUANTITY_BASIS_WHOLE_YEAR\x10\x03\x12!\n" +
+	"\x1dQUANTITY_BASIS_NATIONAL_ENTRY\x10\x04*b\n" +
+	"\vReportState\x12\x1c\n" +
+	"\x18REPORT_STATE_UNSPECIFIED\x10\x00\x12\x1c\n" +
+	"\x18REPORT_STATE_PROVISIONAL\x10\x01\x12\x17\n" +
+	"\x13REPORT_STATE_CLOSED\x10\x02*\xfc\x01\n" +
 	"\tEntryType\x12\x1a\n" +
 	"\x16ENTRY_TYPE_UNSPECIFIED\x10\x00\x12\x19\n" +
 	"\x15ENTRY_TYPE_PRODUCTION\x10\x01\x12\x1a\n" +
@@ -4747,140 +5023,154 @@ func file_halovet_v1_consumption_proto_rawDescGZIP() []byte {
 	return file_halovet_v1_consumption_proto_rawDescData
 }
 
-var file_halovet_v1_consumption_proto_enumTypes = make([]protoimpl.EnumInfo, 4)
+var file_halovet_v1_consumption_proto_enumTypes = make([]protoimpl.EnumInfo, 8)
 var file_halovet_v1_consumption_proto_msgTypes = make([]protoimpl.MessageInfo, 47)
 var file_halovet_v1_consumption_proto_goTypes = []any{
-	(EntryType)(0),                          // 0: halovet.v1.EntryType
-	(ComplianceOutcome)(0),                  // 1: halovet.v1.ComplianceOutcome
-	(ExemptedUse)(0),                        // 2: halovet.v1.ExemptedUse
-	(OfficialFigureKind)(0),                 // 3: halovet.v1.OfficialFigureKind
-	(*NationalEntry)(nil),                   // 4: halovet.v1.NationalEntry
-	(*RecordNationalEntriesRequest)(nil),    // 5: halovet.v1.RecordNationalEntriesRequest
-	(*RecordNationalEntriesResponse)(nil),   // 6: halovet.v1.RecordNationalEntriesResponse
-	(*ListNationalEntriesRequest)(nil),      // 7: halovet.v1.ListNationalEntriesRequest
-	(*ListNationalEntriesResponse)(nil),     // 8: halovet.v1.ListNationalEntriesResponse
-	(*SubstanceConsumption)(nil),            // 9: halovet.v1.SubstanceConsumption
-	(*GroupConsumption)(nil),                // 10: halovet.v1.GroupConsumption
-	(*GetConsumptionRequest)(nil),           // 11: halovet.v1.GetConsumptionRequest
-	(*GetConsumptionResponse)(nil),          // 12: halovet.v1.GetConsumptionResponse
-	(*BaselineYear)(nil),                    // 13: halovet.v1.BaselineYear
-	(*BaselinePart)(nil),                    // 14: halovet.v1.BaselinePart
-	(*GetBaselineRequest)(nil),              // 15: halovet.v1.GetBaselineRequest
-	(*GetBaselineResponse)(nil),             // 16: halovet.v1.GetBaselineResponse
-	(*PeriodAverage)(nil),                   // 17: halovet.v1.PeriodAverage
-	(*ComplianceYear)(nil),                  // 18: halovet.v1.ComplianceYear
-	(*AppliedExemption)(nil),                // 19: halovet.v1.AppliedExemption
-	(*AuthorisedExemption)(nil),             // 20: halovet.v1.AuthorisedExemption
-	(*RecordExemptionsRequest)(nil),         // 21: halovet.v1.RecordExemptionsRequest
-	(*RecordExemptionsResponse)(nil),        // 22: halovet.v1.RecordExemptionsResponse
-	(*ListExemptionsRequest)(nil),           // 23: halovet.v1.ListExemptionsRequest
-	(*ListExemptionsResponse)(nil),          // 24: halovet.v1.ListExemptionsResponse
-	(*OfficialFigure)(nil),                  // 25: halovet.v1.OfficialFigure
-	(*RecordOfficialFiguresRequest)(nil),    // 26: halovet.v1.RecordOfficialFiguresRequest
-	(*RecordOfficialFiguresResponse)(nil),   // 27: halovet.v1.RecordOfficialFiguresResponse
-	(*ListOfficialFiguresRequest)(nil),      // 28: halovet.v1.ListOfficialFiguresRequest
-	(*ListOfficialFiguresResponse)(nil),     // 29: halovet.v1.ListOfficialFiguresResponse
-	(*AssessComplianceRequest)(nil),         // 30: halovet.v1.AssessComplianceRequest
-	(*AssessComplianceResponse)(nil),        // 31: halovet.v1.AssessComplianceResponse
-	(*QuotaProposal)(nil),                   // 32: halovet.v1.QuotaProposal
-	(*PlanQuotasRequest)(nil),               // 33: halovet.v1.PlanQuotasRequest
-	(*PlanQuotasResponse)(nil),              // 34: halovet.v1.PlanQuotasResponse
-	(*Hfc23Entry)(nil),                      // 35: halovet.v1.Hfc23Entry
-	(*RecordHfc23EntriesRequest)(nil),       // 36: halovet.v1.RecordHfc23EntriesRequest
-	(*RecordHfc23EntriesResponse)(nil),      // 37: halovet.v1.RecordHfc23EntriesResponse
-	(*ListHfc23EntriesRequest)(nil),         // 38: halovet.v1.ListHfc23EntriesRequest
-	(*ListHfc23EntriesResponse)(nil),        // 39: halovet.v1.ListHfc23EntriesResponse
-	(*YearTradeLine)(nil),                   // 40: halovet.v1.YearTradeLine
-	(*YearQuantityLine)(nil),                // 41: halovet.v1.YearQuantityLine
-	(*YearGroupTotal)(nil),                  // 42: halovet.v1.YearGroupTotal
-	(*GetYearReportRequest)(nil),            // 43: halovet.v1.GetYearReportRequest
-	(*GetYearReportResponse)(nil),           // 44: halovet.v1.GetYearReportResponse
-	(*PartnerExport)(nil),                   // 45: halovet.v1.PartnerExport
-	(*RecordPartnerExportsRequest)(nil),     // 46: halovet.v1.RecordPartnerExportsRequest
-	(*RecordPartnerExportsResponse)(nil),    // 47: halovet.v1.RecordPartnerExportsResponse
-	(*ReconcilePartnerExportsRequest)(nil),  // 48: halovet.v1.ReconcilePartnerExportsRequest
-	(*PartnerGap)(nil),                      // 49: halovet.v1.PartnerGap
-	(*ReconcilePartnerExportsResponse)(nil), // 50: halovet.v1.ReconcilePartnerExportsResponse
+	(ControlUnit)(0),                        // 0: halovet.v1.ControlUnit
+	(ControlSchedule)(0),                    // 1: halovet.v1.ControlSchedule
+	(QuantityBasis)(0),                      // 2: halovet.v1.QuantityBasis
+	(ReportState)(0),                        // 3: halovet.v1.ReportState
+	(EntryType)(0),                          // 4: halovet.v1.EntryType
+	(ComplianceOutcome)(0),                  // 5: halovet.v1.ComplianceOutcome
+	(ExemptedUse)(0),                        // 6: halovet.v1.ExemptedUse
+	(OfficialFigureKind)(0),                 // 7: halovet.v1.OfficialFigureKind
+	(*NationalEntry)(nil),                   // 8: halovet.v1.NationalEntry
+	(*RecordNationalEntriesRequest)(nil),    // 9: halovet.v1.RecordNationalEntriesRequest
+	(*RecordNationalEntriesResponse)(nil),   // 10: halovet.v1.RecordNationalEntriesResponse
+	(*ListNationalEntriesRequest)(nil),      // 11: halovet.v1.ListNationalEntriesRequest
+	(*ListNationalEntriesResponse)(nil),     // 12: halovet.v1.ListNationalEntriesResponse
+	(*SubstanceConsumption)(nil),            // 13: halovet.v1.SubstanceConsumption
+	(*GroupConsumption)(nil),                // 14: halovet.v1.GroupConsumption
+	(*GetConsumptionRequest)(nil),           // 15: halovet.v1.GetConsumptionRequest
+	(*GetConsumptionResponse)(nil),          // 16: halovet.v1.GetConsumptionResponse
+	(*BaselineYear)(nil),                    // 17: halovet.v1.BaselineYear
+	(*BaselinePart)(nil),                    // 18: halovet.v1.BaselinePart
+	(*GetBaselineRequest)(nil),              // 19: halovet.v1.GetBaselineRequest
+	(*GetBaselineResponse)(nil),             // 20: halovet.v1.GetBaselineResponse
+	(*PeriodAverage)(nil),                   // 21: halovet.v1.PeriodAverage
+	(*ComplianceYear)(nil),                  // 22: halovet.v1.ComplianceYear
+	(*AppliedExemption)(nil),                // 23: halovet.v1.AppliedExemption
+	(*AuthorisedExemption)(nil),             // 24: halovet.v1.AuthorisedExemption
+	(*RecordExemptionsRequest)(nil),         // 25: halovet.v1.RecordExemptionsRequest
+	(*RecordExemptionsResponse)(nil),        // 26: halovet.v1.RecordExemptionsResponse
+	(*ListExemptionsRequest)(nil),           // 27: halovet.v1.ListExemptionsRequest
+	(*ListExemptionsResponse)(nil),          // 28: halovet.v1.ListExemptionsResponse
+	(*OfficialFigure)(nil),                  // 29: halovet.v1.OfficialFigure
+	(*RecordOfficialFiguresRequest)(nil),    // 30: halovet.v1.RecordOfficialFiguresRequest
+	(*RecordOfficialFiguresResponse)(nil),   // 31: halovet.v1.RecordOfficialFiguresResponse
+	(*ListOfficialFiguresRequest)(nil),      // 32: halovet.v1.ListOfficialFiguresRequest
+	(*ListOfficialFiguresResponse)(nil),     // 33: halovet.v1.ListOfficialFiguresResponse
+	(*AssessComplianceRequest)(nil),         // 34: halovet.v1.AssessComplianceRequest
+	(*AssessComplianceResponse)(nil),        // 35: halovet.v1.AssessComplianceResponse
+	(*QuotaProposal)(nil),                   // 36: halovet.v1.QuotaProposal
+	(*PlanQuotasRequest)(nil),               // 37: halovet.v1.PlanQuotasRequest
+	(*PlanQuotasResponse)(nil),              // 38: halovet.v1.PlanQuotasResponse
+	(*Hfc23Entry)(nil),                      // 39: halovet.v1.Hfc23Entry
+	(*RecordHfc23EntriesRequest)(nil),       // 40: halovet.v1.RecordHfc23EntriesRequest
+	(*RecordHfc23EntriesResponse)(nil),      // 41: halovet.v1.RecordHfc23EntriesResponse
+	(*ListHfc23EntriesRequest)(nil),         // 42: halovet.v1.ListHfc23EntriesRequest
+	(*ListHfc23EntriesResponse)(nil),        // 43: halovet.v1.ListHfc23EntriesResponse
+	(*YearTradeLine)(nil),                   // 44: halovet.v1.YearTradeLine
+	(*YearQuantityLine)(nil),                // 45: halovet.v1.YearQuantityLine
+	(*YearGroupTotal)(nil),                  // 46: halovet.v1.YearGroupTotal
+	(*GetYearReportRequest)(nil),            // 47: halovet.v1.GetYearReportRequest
+	(*GetYearReportResponse)(nil),           // 48: halovet.v1.GetYearReportResponse
+	(*PartnerExport)(nil),                   // 49: halovet.v1.PartnerExport
+	(*RecordPartnerExportsRequest)(nil),     // 50: halovet.v1.RecordPartnerExportsRequest
+	(*RecordPartnerExportsResponse)(nil),    // 51: halovet.v1.RecordPartnerExportsResponse
+	(*ReconcilePartnerExportsRequest)(nil),  // 52: halovet.v1.ReconcilePartnerExportsRequest
+	(*PartnerGap)(nil),                      // 53: halovet.v1.PartnerGap
+	(*ReconcilePartnerExportsResponse)(nil), // 54: halovet.v1.ReconcilePartnerExportsResponse
 }
 var file_halovet_v1_consumption_proto_depIdxs = []int32{
-	0,  // 0: halovet.v1.NationalEntry.entry_type:type_name -> halovet.v1.EntryType
-	4,  // 1: halovet.v1.RecordNationalEntriesRequest.entries:type_name -> halovet.v1.NationalEntry
-	4,  // 2: halovet.v1.RecordNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
-	4,  // 3: halovet.v1.ListNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
-	9,  // 4: halovet.v1.GroupConsumption.substances:type_name -> halovet.v1.SubstanceConsumption
-	10, // 5: halovet.v1.GetConsumptionResponse.groups:type_name -> halovet.v1.GroupConsumption
-	35, // 6: halovet.v1.GetConsumptionResponse.hfc23_by_product:type_name -> halovet.v1.Hfc23Entry
-	13, // 7: halovet.v1.BaselinePart.years:type_name -> halovet.v1.BaselineYear
-	13, // 8: halovet.v1.BaselinePart.cfc_years:type_name -> halovet.v1.BaselineYear
-	13, // 9: halovet.v1.GetBaselineResponse.years:type_name -> halovet.v1.BaselineYear
-	13, // 10: halovet.v1.GetBaselineResponse.cfc_years:type_name -> halovet.v1.BaselineYear
-	14, // 11: halovet.v1.GetBaselineResponse.hcfc_baseline:type_name -> halovet.v1.BaselinePart
-	1,  // 12: halovet.v1.ComplianceYear.outcome:type_name -> halovet.v1.ComplianceOutcome
-	17, // 13: halovet.v1.ComplianceYear.period:type_name -> halovet.v1.PeriodAverage
-	19, // 14: halovet.v1.ComplianceYear.exemptions:type_name -> halovet.v1.AppliedExemption
-	2,  // 15: halovet.v1.AppliedExemption.use:type_name -> halovet.v1.ExemptedUse
-	2,  // 16: halovet.v1.AuthorisedExemption.use:type_name -> halovet.v1.ExemptedUse
-	20, // 17: halovet.v1.RecordExemptionsRequest.exemptions:type_name -> halovet.v1.AuthorisedExemption
-	20, // 18: halovet.v1.RecordExemptionsResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
-	20, // 19: halovet.v1.ListExemptionsResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
-	3,  // 20: halovet.v1.OfficialFigure.kind:type_name -> halovet.v1.OfficialFigureKind
-	25, // 21: halovet.v1.RecordOfficialFiguresRequest.figures:type_name -> halovet.v1.OfficialFigure
-	25, // 22: halovet.v1.RecordOfficialFiguresResponse.figures:type_name -> halovet.v1.OfficialFigure
-	25, // 23: halovet.v1.ListOfficialFiguresResponse.figures:type_name -> halovet.v1.OfficialFigure
-	18, // 24: halovet.v1.AssessComplianceResponse.years:type_name -> halovet.v1.ComplianceYear
-	32, // 25: halovet.v1.PlanQuotasResponse.proposals:type_name -> halovet.v1.QuotaProposal
-	35, // 26: halovet.v1.RecordHfc23EntriesRequest.entries:type_name -> halovet.v1.Hfc23Entry
-	35, // 27: halovet.v1.RecordHfc23EntriesResponse.entries:type_name -> halovet.v1.Hfc23Entry
-	35, // 28: halovet.v1.ListHfc23EntriesResponse.entries:type_name -> halovet.v1.Hfc23Entry
-	42, // 29: halovet.v1.GetYearReportResponse.groups:type_name -> halovet.v1.YearGroupTotal
-	40, // 30: halovet.v1.GetYearReportResponse.imports:type_name -> halovet.v1.YearTradeLine
-	40, // 31: halovet.v1.GetYearReportResponse.exports:type_name -> halovet.v1.YearTradeLine
-	41, // 32: halovet.v1.GetYearReportResponse.production:type_name -> halovet.v1.YearQuantityLine
-	41, // 33: halovet.v1.GetYearReportResponse.destruction:type_name -> halovet.v1.YearQuantityLine
-	41, // 34: halovet.v1.GetYearReportResponse.feedstock:type_name -> halovet.v1.YearQuantityLine
-	41, // 35: halovet.v1.GetYearReportResponse.qps:type_name -> halovet.v1.YearQuantityLine
-	40, // 36: halovet.v1.GetYearReportResponse.imports_non_party:type_name -> halovet.v1.YearTradeLine
-	40, // 37: halovet.v1.GetYearReportResponse.exports_non_party:type_name -> halovet.v1.YearTradeLine
-	35, // 38: halovet.v1.GetYearReportResponse.hfc23:type_name -> halovet.v1.Hfc23Entry
-	20, // 39: halovet.v1.GetYearReportResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
-	45, // 40: halovet.v1.RecordPartnerExportsRequest.reports:type_name -> halovet.v1.PartnerExport
-	45, // 41: halovet.v1.RecordPartnerExportsResponse.reports:type_name -> halovet.v1.PartnerExport
-	49, // 42: halovet.v1.ReconcilePartnerExportsResponse.gaps:type_name -> halovet.v1.PartnerGap
-	5,  // 43: halovet.v1.ConsumptionService.RecordNationalEntries:input_type -> halovet.v1.RecordNationalEntriesRequest
-	7,  // 44: halovet.v1.ConsumptionService.ListNationalEntries:input_type -> halovet.v1.ListNationalEntriesRequest
-	11, // 45: halovet.v1.ConsumptionService.GetConsumption:input_type -> halovet.v1.GetConsumptionRequest
-	15, // 46: halovet.v1.ConsumptionService.GetBaseline:input_type -> halovet.v1.GetBaselineRequest
-	30, // 47: halovet.v1.ConsumptionService.AssessCompliance:input_type -> halovet.v1.AssessComplianceRequest
-	21, // 48: halovet.v1.ConsumptionService.RecordExemptions:input_type -> halovet.v1.RecordExemptionsRequest
-	23, // 49: halovet.v1.ConsumptionService.ListExemptions:input_type -> halovet.v1.ListExemptionsRequest
-	26, // 50: halovet.v1.ConsumptionService.RecordOfficialFigures:input_type -> halovet.v1.RecordOfficialFiguresRequest
-	28, // 51: halovet.v1.ConsumptionService.ListOfficialFigures:input_type -> halovet.v1.ListOfficialFiguresRequest
-	36, // 52: halovet.v1.ConsumptionService.RecordHfc23Entries:input_type -> halovet.v1.RecordHfc23EntriesRequest
-	38, // 53: halovet.v1.ConsumptionService.ListHfc23Entries:input_type -> halovet.v1.ListHfc23EntriesRequest
-	43, // 54: halovet.v1.ConsumptionService.GetYearReport:input_type -> halovet.v1.GetYearReportRequest
-	46, // 55: halovet.v1.ConsumptionService.RecordPartnerExports:input_type -> halovet.v1.RecordPartnerExportsRequest
-	48, // 56: halovet.v1.ConsumptionService.ReconcilePartnerExports:input_type -> halovet.v1.ReconcilePartnerExportsRequest
-	33, // 57: halovet.v1.ConsumptionService.PlanQuotas:input_type -> halovet.v1.PlanQuotasRequest
-	6,  // 58: halovet.v1.ConsumptionService.RecordNationalEntries:output_type -> halovet.v1.RecordNationalEntriesResponse
-	8,  // 59: halovet.v1.ConsumptionService.ListNationalEntries:output_type -> halovet.v1.ListNationalEntriesResponse
-	12, // 60: halovet.v1.ConsumptionService.GetConsumption:output_type -> halovet.v1.GetConsumptionResponse
-	16, // 61: halovet.v1.ConsumptionService.GetBaseline:output_type -> halovet.v1.GetBaselineResponse
-	31, // 62: halovet.v1.ConsumptionService.AssessCompliance:output_type -> halovet.v1.AssessComplianceResponse
-	22, // 63: halovet.v1.ConsumptionService.RecordExemptions:output_type -> halovet.v1.RecordExemptionsResponse
-	24, // 64: halovet.v1.ConsumptionService.ListExemptions:output_type -> halovet.v1.ListExemptionsResponse
-	27, // 65: halovet.v1.ConsumptionService.RecordOfficialFigures:output_type -> halovet.v1.RecordOfficialFiguresResponse
-	29, // 66: halovet.v1.ConsumptionService.ListOfficialFigures:output_type -> halovet.v1.ListOfficialFiguresResponse
-	37, // 67: halovet.v1.ConsumptionService.RecordHfc23Entries:output_type -> halovet.v1.RecordHfc23EntriesResponse
-	39, // 68: halovet.v1.ConsumptionService.ListHfc23Entries:output_type -> halovet.v1.ListHfc23EntriesResponse
-	44, // 69: halovet.v1.ConsumptionService.GetYearReport:output_type -> halovet.v1.GetYearReportResponse
-	47, // 70: halovet.v1.ConsumptionService.RecordPartnerExports:output_type -> halovet.v1.RecordPartnerExportsResponse
-	50, // 71: halovet.v1.ConsumptionService.ReconcilePartnerExports:output_type -> halovet.v1.ReconcilePartnerExportsResponse
-	34, // 72: halovet.v1.ConsumptionService.PlanQuotas:output_type -> halovet.v1.PlanQuotasResponse
-	58, // [58:73] is the sub-list for method output_type
-	43, // [43:58] is the sub-list for method input_type
-	43, // [43:43] is the sub-list for extension type_name
-	43, // [43:43] is the sub-list for extension extendee
-	0,  // [0:43] is the sub-list for field type_name
+	4,  // 0: halovet.v1.NationalEntry.entry_type:type_name -> halovet.v1.EntryType
+	8,  // 1: halovet.v1.RecordNationalEntriesRequest.entries:type_name -> halovet.v1.NationalEntry
+	8,  // 2: halovet.v1.RecordNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
+	8,  // 3: halovet.v1.ListNationalEntriesResponse.entries:type_name -> halovet.v1.NationalEntry
+	13, // 4: halovet.v1.GroupConsumption.substances:type_name -> halovet.v1.SubstanceConsumption
+	14, // 5: halovet.v1.GetConsumptionResponse.groups:type_name -> halovet.v1.GroupConsumption
+	39, // 6: halovet.v1.GetConsumptionResponse.hfc23_by_product:type_name -> halovet.v1.Hfc23Entry
+	0,  // 7: halovet.v1.BaselinePart.unit:type_name -> halovet.v1.ControlUnit
+	17, // 8: halovet.v1.BaselinePart.years:type_name -> halovet.v1.BaselineYear
+	17, // 9: halovet.v1.BaselinePart.cfc_years:type_name -> halovet.v1.BaselineYear
+	0,  // 10: halovet.v1.GetBaselineResponse.unit:type_name -> halovet.v1.ControlUnit
+	17, // 11: halovet.v1.GetBaselineResponse.years:type_name -> halovet.v1.BaselineYear
+	17, // 12: halovet.v1.GetBaselineResponse.cfc_years:type_name -> halovet.v1.BaselineYear
+	18, // 13: halovet.v1.GetBaselineResponse.hcfc_baseline:type_name -> halovet.v1.BaselinePart
+	1,  // 14: halovet.v1.GetBaselineResponse.applies_to:type_name -> halovet.v1.ControlSchedule
+	5,  // 15: halovet.v1.ComplianceYear.outcome:type_name -> halovet.v1.ComplianceOutcome
+	21, // 16: halovet.v1.ComplianceYear.period:type_name -> halovet.v1.PeriodAverage
+	23, // 17: halovet.v1.ComplianceYear.exemptions:type_name -> halovet.v1.AppliedExemption
+	6,  // 18: halovet.v1.AppliedExemption.use:type_name -> halovet.v1.ExemptedUse
+	6,  // 19: halovet.v1.AuthorisedExemption.use:type_name -> halovet.v1.ExemptedUse
+	0,  // 20: halovet.v1.AuthorisedExemption.unit:type_name -> halovet.v1.ControlUnit
+	24, // 21: halovet.v1.RecordExemptionsRequest.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	24, // 22: halovet.v1.RecordExemptionsResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	24, // 23: halovet.v1.ListExemptionsResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	7,  // 24: halovet.v1.OfficialFigure.kind:type_name -> halovet.v1.OfficialFigureKind
+	0,  // 25: halovet.v1.OfficialFigure.unit:type_name -> halovet.v1.ControlUnit
+	29, // 26: halovet.v1.RecordOfficialFiguresRequest.figures:type_name -> halovet.v1.OfficialFigure
+	29, // 27: halovet.v1.RecordOfficialFiguresResponse.figures:type_name -> halovet.v1.OfficialFigure
+	29, // 28: halovet.v1.ListOfficialFiguresResponse.figures:type_name -> halovet.v1.OfficialFigure
+	0,  // 29: halovet.v1.AssessComplianceResponse.unit:type_name -> halovet.v1.ControlUnit
+	22, // 30: halovet.v1.AssessComplianceResponse.years:type_name -> halovet.v1.ComplianceYear
+	1,  // 31: halovet.v1.AssessComplianceResponse.applies_to:type_name -> halovet.v1.ControlSchedule
+	0,  // 32: halovet.v1.PlanQuotasResponse.unit:type_name -> halovet.v1.ControlUnit
+	36, // 33: halovet.v1.PlanQuotasResponse.proposals:type_name -> halovet.v1.QuotaProposal
+	39, // 34: halovet.v1.RecordHfc23EntriesRequest.entries:type_name -> halovet.v1.Hfc23Entry
+	39, // 35: halovet.v1.RecordHfc23EntriesResponse.entries:type_name -> halovet.v1.Hfc23Entry
+	39, // 36: halovet.v1.ListHfc23EntriesResponse.entries:type_name -> halovet.v1.Hfc23Entry
+	2,  // 37: halovet.v1.YearQuantityLine.basis:type_name -> halovet.v1.QuantityBasis
+	46, // 38: halovet.v1.GetYearReportResponse.groups:type_name -> halovet.v1.YearGroupTotal
+	44, // 39: halovet.v1.GetYearReportResponse.imports:type_name -> halovet.v1.YearTradeLine
+	44, // 40: halovet.v1.GetYearReportResponse.exports:type_name -> halovet.v1.YearTradeLine
+	45, // 41: halovet.v1.GetYearReportResponse.production:type_name -> halovet.v1.YearQuantityLine
+	45, // 42: halovet.v1.GetYearReportResponse.destruction:type_name -> halovet.v1.YearQuantityLine
+	45, // 43: halovet.v1.GetYearReportResponse.feedstock:type_name -> halovet.v1.YearQuantityLine
+	45, // 44: halovet.v1.GetYearReportResponse.qps:type_name -> halovet.v1.YearQuantityLine
+	44, // 45: halovet.v1.GetYearReportResponse.imports_non_party:type_name -> halovet.v1.YearTradeLine
+	44, // 46: halovet.v1.GetYearReportResponse.exports_non_party:type_name -> halovet.v1.YearTradeLine
+	39, // 47: halovet.v1.GetYearReportResponse.hfc23:type_name -> halovet.v1.Hfc23Entry
+	3,  // 48: halovet.v1.GetYearReportResponse.state:type_name -> halovet.v1.ReportState
+	24, // 49: halovet.v1.GetYearReportResponse.exemptions:type_name -> halovet.v1.AuthorisedExemption
+	49, // 50: halovet.v1.RecordPartnerExportsRequest.reports:type_name -> halovet.v1.PartnerExport
+	49, // 51: halovet.v1.RecordPartnerExportsResponse.reports:type_name -> halovet.v1.PartnerExport
+	53, // 52: halovet.v1.ReconcilePartnerExportsResponse.gaps:type_name -> halovet.v1.PartnerGap
+	9,  // 53: halovet.v1.ConsumptionService.RecordNationalEntries:input_type -> halovet.v1.RecordNationalEntriesRequest
+	11, // 54: halovet.v1.ConsumptionService.ListNationalEntries:input_type -> halovet.v1.ListNationalEntriesRequest
+	15, // 55: halovet.v1.ConsumptionService.GetConsumption:input_type -> halovet.v1.GetConsumptionRequest
+	19, // 56: halovet.v1.ConsumptionService.GetBaseline:input_type -> halovet.v1.GetBaselineRequest
+	34, // 57: halovet.v1.ConsumptionService.AssessCompliance:input_type -> halovet.v1.AssessComplianceRequest
+	25, // 58: halovet.v1.ConsumptionService.RecordExemptions:input_type -> halovet.v1.RecordExemptionsRequest
+	27, // 59: halovet.v1.ConsumptionService.ListExemptions:input_type -> halovet.v1.ListExemptionsRequest
+	30, // 60: halovet.v1.ConsumptionService.RecordOfficialFigures:input_type -> halovet.v1.RecordOfficialFiguresRequest
+	32, // 61: halovet.v1.ConsumptionService.ListOfficialFigures:input_type -> halovet.v1.ListOfficialFiguresRequest
+	40, // 62: halovet.v1.ConsumptionService.RecordHfc23Entries:input_type -> halovet.v1.RecordHfc23EntriesRequest
+	42, // 63: halovet.v1.ConsumptionService.ListHfc23Entries:input_type -> halovet.v1.ListHfc23EntriesRequest
+	47, // 64: halovet.v1.ConsumptionService.GetYearReport:input_type -> halovet.v1.GetYearReportRequest
+	50, // 65: halovet.v1.ConsumptionService.RecordPartnerExports:input_type -> halovet.v1.RecordPartnerExportsRequest
+	52, // 66: halovet.v1.ConsumptionService.ReconcilePartnerExports:input_type -> halovet.v1.ReconcilePartnerExportsRequest
+	37, // 67: halovet.v1.ConsumptionService.PlanQuotas:input_type -> halovet.v1.PlanQuotasRequest
+	10, // 68: halovet.v1.ConsumptionService.RecordNationalEntries:output_type -> halovet.v1.RecordNationalEntriesResponse
+	12, // 69: halovet.v1.ConsumptionService.ListNationalEntries:output_type -> halovet.v1.ListNationalEntriesResponse
+	16, // 70: halovet.v1.ConsumptionService.GetConsumption:output_type -> halovet.v1.GetConsumptionResponse
+	20, // 71: halovet.v1.ConsumptionService.GetBaseline:output_type -> halovet.v1.GetBaselineResponse
+	35, // 72: halovet.v1.ConsumptionService.AssessCompliance:output_type -> halovet.v1.AssessComplianceResponse
+	26, // 73: halovet.v1.ConsumptionService.RecordExemptions:output_type -> halovet.v1.RecordExemptionsResponse
+	28, // 74: halovet.v1.ConsumptionService.ListExemptions:output_type -> halovet.v1.ListExemptionsResponse
+	31, // 75: halovet.v1.ConsumptionService.RecordOfficialFigures:output_type -> halovet.v1.RecordOfficialFiguresResponse
+	33, // 76: halovet.v1.ConsumptionService.ListOfficialFigures:output_type -> halovet.v1.ListOfficialFiguresResponse
+	41, // 77: halovet.v1.ConsumptionService.RecordHfc23Entries:output_type -> halovet.v1.RecordHfc23EntriesResponse
+	43, // 78: halovet.v1.ConsumptionService.ListHfc23Entries:output_type -> halovet.v1.ListHfc23EntriesResponse
+	48, // 79: halovet.v1.ConsumptionService.GetYearReport:output_type -> halovet.v1.GetYearReportResponse
+	51, // 80: halovet.v1.ConsumptionService.RecordPartnerExports:output_type -> halovet.v1.RecordPartnerExportsResponse
+	54, // 81: halovet.v1.ConsumptionService.ReconcilePartnerExports:output_type -> halovet.v1.ReconcilePartnerExportsResponse
+	38, // 82: halovet.v1.ConsumptionService.PlanQuotas:output_type -> halovet.v1.PlanQuotasResponse
+	68, // [68:83] is the sub-list for method output_type
+	53, // [53:68] is the sub-list for method input_type
+	53, // [53:53] is the sub-list for extension type_name
+	53, // [53:53] is the sub-list for extension extendee
+	0,  // [0:53] is the sub-list for field type_name
 }
 
 func init() { file_halovet_v1_consumption_proto_init() }
@@ -4893,7 +5183,7 @@ func file_halovet_v1_consumption_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_halovet_v1_consumption_proto_rawDesc), len(file_halovet_v1_consumption_proto_rawDesc)),
-			NumEnums:      4,
+			NumEnums:      8,
 			NumMessages:   47,
 			NumExtensions: 0,
 			NumServices:   1,
