@@ -8,6 +8,7 @@ import (
 
 	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // How recorded shipments and national entries become Flows.
@@ -87,11 +88,11 @@ func storedErr(format string, args ...any) error {
 // condition and partner status.
 type ShipmentTotal struct {
 	Year            int
-	Designation     string  // component designation
-	AnnexGroup      string  // group recorded with the component ("" when uncontrolled)
-	Direction       string  // "import", "export", "re-export", "transit"
-	Purpose         string  // "servicing", "feedstock", "qps", ... or ""
-	Condition       string  // "virgin", "used", "recycled", "reclaimed" or ""
+	Designation     string // component designation
+	AnnexGroup      string // group recorded with the component ("" when uncontrolled)
+	Direction       terms.Direction
+	Purpose         terms.Purpose
+	Condition       terms.Condition
 	PartnerNonParty bool    // the partner was not bound for this component's group
 	Tonnes          float64 // metric tonnes
 }
@@ -108,8 +109,8 @@ type NationalTotal struct {
 }
 
 // Recovered reports whether a condition is used, recycled or reclaimed material.
-func Recovered(condition string) bool {
-	return condition == "used" || condition == "recycled" || condition == "reclaimed"
+func Recovered(condition terms.Condition) bool {
+	return condition == terms.ConditionUsed || condition == terms.ConditionRecycled || condition == terms.ConditionReclaimed
 }
 
 // ClassifyShipment classifies one shipment total of a substance of group g. note is set
@@ -117,24 +118,24 @@ func Recovered(condition string) bool {
 func ClassifyShipment(t ShipmentTotal, g substances.Group) (f Flows, note string, err error) {
 	m := t.Tonnes
 	switch t.Direction {
-	case "transit":
+	case terms.DirectionTransit:
 		f.Transit = m
-	case "import":
+	case terms.DirectionImport:
 		if Recovered(t.Condition) {
 			f.UsedImports = m
 			break
 		}
 		f.Imports = m
 		switch t.Purpose {
-		case "feedstock":
+		case terms.PurposeFeedstock:
 			f.Feedstock = m
-		case "process-agent":
+		case terms.PurposeProcessAgent:
 			f.Feedstock = m
 			note = fmt.Sprintf("%d: %s t of %s imported as process agent deducted with feedstock (Ozone Secretariat's data-reporting formula); Decision X/14 excludes only qualifying uses in plants operating before 1999",
 				t.Year, FormatTonnes(m), t.Designation)
-		case "destruction":
+		case terms.PurposeDestruction:
 			f.Destruction = m
-		case "qps":
+		case terms.PurposeQPS:
 			if g == substances.GroupEI {
 				f.QPS = m
 			} else {
@@ -142,7 +143,7 @@ func ClassifyShipment(t ShipmentTotal, g substances.Group) (f Flows, note string
 					t.Year, FormatTonnes(m), t.Designation)
 			}
 		}
-	case "export", "re-export":
+	case terms.DirectionExport, terms.DirectionReExport:
 		switch {
 		case Recovered(t.Condition):
 			f.UsedExports = m
@@ -196,16 +197,16 @@ func DeductedUse(kind string) bool {
 // deduct through their declared purpose, or "" when they deduct none: imports of new
 // substance declared for feedstock or as process agent (feedstock), for destruction, or,
 // for methyl bromide, for QPS.
-func ShipmentUse(direction, purpose, condition string, g substances.Group) string {
-	if direction != "import" || Recovered(condition) {
+func ShipmentUse(direction terms.Direction, purpose terms.Purpose, condition terms.Condition, g substances.Group) string {
+	if direction != terms.DirectionImport || Recovered(condition) {
 		return ""
 	}
 	switch purpose {
-	case "feedstock", "process-agent":
+	case terms.PurposeFeedstock, terms.PurposeProcessAgent:
 		return EntryFeedstock
-	case "destruction":
+	case terms.PurposeDestruction:
 		return EntryDestruction
-	case "qps":
+	case terms.PurposeQPS:
 		if g == substances.GroupEI {
 			return EntryQPS
 		}

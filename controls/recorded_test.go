@@ -2,6 +2,7 @@ package controls
 
 import (
 	"errors"
+	"github.com/halovet/halovet/terms"
 	"strings"
 	"testing"
 
@@ -33,28 +34,28 @@ func TestClassifyShipment(t *testing.T) {
 		note string // substring of the note; "" means no note
 	}{
 		// Art. 1 para 5: transit is not import or export; never counted.
-		{"transit", ShipmentTotal{Year: 2020, Direction: "transit", Purpose: "feedstock"}, substances.GroupCI, Flows{Transit: m}, ""},
+		{"transit", ShipmentTotal{Year: 2020, Direction: terms.DirectionTransit, Purpose: terms.PurposeFeedstock}, substances.GroupCI, Flows{Transit: m}, ""},
 		// Decision IV/24: used, recycled and reclaimed imports are not counted.
-		{"used import", ShipmentTotal{Year: 2020, Direction: "import", Condition: "used"}, substances.GroupCI, Flows{UsedImports: m}, ""},
-		{"reclaimed import for feedstock", ShipmentTotal{Year: 2020, Direction: "import", Condition: "reclaimed", Purpose: "feedstock"}, substances.GroupCI, Flows{UsedImports: m}, ""},
+		{"used import", ShipmentTotal{Year: 2020, Direction: terms.DirectionImport, Condition: terms.ConditionUsed}, substances.GroupCI, Flows{UsedImports: m}, ""},
+		{"reclaimed import for feedstock", ShipmentTotal{Year: 2020, Direction: terms.DirectionImport, Condition: terms.ConditionReclaimed, Purpose: terms.PurposeFeedstock}, substances.GroupCI, Flows{UsedImports: m}, ""},
 		// Art. 1 para 5: imports count in consumption.
-		{"virgin import", ShipmentTotal{Year: 2020, Direction: "import", Condition: "virgin", Purpose: "servicing"}, substances.GroupCI, Flows{Imports: m}, ""},
+		{"virgin import", ShipmentTotal{Year: 2020, Direction: terms.DirectionImport, Condition: terms.ConditionVirgin, Purpose: terms.PurposeServicing}, substances.GroupCI, Flows{Imports: m}, ""},
 		// Art. 1 para 5; Decision VII/30: feedstock is deducted.
-		{"feedstock import", ShipmentTotal{Year: 2020, Direction: "import", Purpose: "feedstock"}, substances.GroupBII, Flows{Imports: m, Feedstock: m}, ""},
+		{"feedstock import", ShipmentTotal{Year: 2020, Direction: terms.DirectionImport, Purpose: terms.PurposeFeedstock}, substances.GroupBII, Flows{Imports: m, Feedstock: m}, ""},
 		// Decision X/14 (process agents), deducted with feedstock by the Secretariat's formula: from memory.
-		{"process agent", ShipmentTotal{Year: 2020, Direction: "import", Purpose: "process-agent", Designation: "carbon tetrachloride"}, substances.GroupBII, Flows{Imports: m, Feedstock: m}, "Decision X/14"},
+		{"process agent", ShipmentTotal{Year: 2020, Direction: terms.DirectionImport, Purpose: terms.PurposeProcessAgent, Designation: "carbon tetrachloride"}, substances.GroupBII, Flows{Imports: m, Feedstock: m}, "Decision X/14"},
 		// Art. 1 para 5: destruction by an approved technology is deducted.
-		{"destruction import", ShipmentTotal{Year: 2020, Direction: "import", Purpose: "destruction"}, substances.GroupAI, Flows{Imports: m, Destruction: m}, ""},
+		{"destruction import", ShipmentTotal{Year: 2020, Direction: terms.DirectionImport, Purpose: terms.PurposeDestruction}, substances.GroupAI, Flows{Imports: m, Destruction: m}, ""},
 		// Art. 2H para 6: the QPS exclusion is methyl bromide's (Annex E) only.
-		{"qps methyl bromide", ShipmentTotal{Year: 2020, Direction: "import", Purpose: "qps"}, substances.GroupEI, Flows{Imports: m, QPS: m}, ""},
-		{"qps other", ShipmentTotal{Year: 2020, Direction: "import", Purpose: "qps", Designation: "HCFC-22"}, substances.GroupCI, Flows{Imports: m}, "QPS exclusion covers methyl bromide only"},
+		{"qps methyl bromide", ShipmentTotal{Year: 2020, Direction: terms.DirectionImport, Purpose: terms.PurposeQPS}, substances.GroupEI, Flows{Imports: m, QPS: m}, ""},
+		{"qps other", ShipmentTotal{Year: 2020, Direction: terms.DirectionImport, Purpose: terms.PurposeQPS, Designation: "HCFC-22"}, substances.GroupCI, Flows{Imports: m}, "QPS exclusion covers methyl bromide only"},
 		// Decision IV/24: used exports are not counted.
-		{"used export", ShipmentTotal{Year: 2020, Direction: "export", Condition: "recycled", PartnerNonParty: true}, substances.GroupCI, Flows{UsedExports: m}, ""},
+		{"used export", ShipmentTotal{Year: 2020, Direction: terms.DirectionExport, Condition: terms.ConditionRecycled, PartnerNonParty: true}, substances.GroupCI, Flows{UsedExports: m}, ""},
 		// Art. 3 para 1(c): exports to non-Parties are not deducted from 1993.
-		{"export to non-Party 1993", ShipmentTotal{Year: 1993, Direction: "export", PartnerNonParty: true}, substances.GroupAI, Flows{ExportsNonParty: m}, ""},
-		{"export to non-Party 1992", ShipmentTotal{Year: 1992, Direction: "export", PartnerNonParty: true}, substances.GroupAI, Flows{Exports: m}, ""},
+		{"export to non-Party 1993", ShipmentTotal{Year: 1993, Direction: terms.DirectionExport, PartnerNonParty: true}, substances.GroupAI, Flows{ExportsNonParty: m}, ""},
+		{"export to non-Party 1992", ShipmentTotal{Year: 1992, Direction: terms.DirectionExport, PartnerNonParty: true}, substances.GroupAI, Flows{Exports: m}, ""},
 		// Art. 1 para 5; Decision VII/30: exports to Parties are deducted, feedstock exports included.
-		{"re-export for feedstock", ShipmentTotal{Year: 2020, Direction: "re-export", Purpose: "feedstock"}, substances.GroupCI, Flows{Exports: m}, ""},
+		{"re-export for feedstock", ShipmentTotal{Year: 2020, Direction: terms.DirectionReExport, Purpose: terms.PurposeFeedstock}, substances.GroupCI, Flows{Exports: m}, ""},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -71,7 +72,7 @@ func TestClassifyShipment(t *testing.T) {
 			}
 		})
 	}
-	if _, _, err := ClassifyShipment(ShipmentTotal{Direction: "sideways"}, substances.GroupCI); !errors.Is(err, ErrStoredData) {
+	if _, _, err := ClassifyShipment(ShipmentTotal{Direction: terms.Direction(99)}, substances.GroupCI); !errors.Is(err, ErrStoredData) {
 		t.Errorf("unknown direction: %v, want ErrStoredData", err)
 	}
 }
@@ -110,7 +111,7 @@ func TestClassifyEntry(t *testing.T) {
 // customs adds (Art. 1 para 5: each quantity deducted once; common practice for the mark).
 func TestClassifyRecordedOneSourcePerUse(t *testing.T) {
 	cat := seedCatalogue(t)
-	ships := []ShipmentTotal{{Year: 2021, Designation: "carbon tetrachloride", AnnexGroup: "B/II", Direction: "import", Purpose: "feedstock", Tonnes: 10}}
+	ships := []ShipmentTotal{{Year: 2021, Designation: "carbon tetrachloride", AnnexGroup: "B/II", Direction: terms.DirectionImport, Purpose: terms.PurposeFeedstock, Tonnes: 10}}
 	nats := []NationalTotal{
 		{Year: 2021, Kind: EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: 10, Keys: []string{"FS-1"}},
 		{Year: 2021, Kind: EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: 3, OutsideCustoms: true, Keys: []string{"FS-2"}},
@@ -143,7 +144,7 @@ func TestClassifyRecordedStoredDataErrors(t *testing.T) {
 		nats  []NationalTotal
 		want  string
 	}{
-		{"uncatalogued controlled component", []ShipmentTotal{{Year: 2021, Designation: "HCFC-9999", AnnexGroup: "C/I", Direction: "import", Tonnes: 1}}, nil, "catalogue has no such substance"},
+		{"uncatalogued controlled component", []ShipmentTotal{{Year: 2021, Designation: "HCFC-9999", AnnexGroup: "C/I", Direction: terms.DirectionImport, Tonnes: 1}}, nil, "catalogue has no such substance"},
 		{"uncatalogued entry", nil, []NationalTotal{{Year: 2021, Kind: EntryProduction, Substance: "HCFC-9999", Tonnes: 1}}, "catalogue has no such substance"},
 		// Art. 2H para 6: QPS is methyl bromide's.
 		{"QPS entry of HCFC-22", nil, []NationalTotal{{Year: 2021, Kind: EntryQPS, Substance: "HCFC-22", Tonnes: 1}}, "QPS applies to methyl bromide only"},
@@ -156,7 +157,7 @@ func TestClassifyRecordedStoredDataErrors(t *testing.T) {
 		}
 	}
 	// An uncontrolled component the catalogue no longer has is left out, not an error.
-	d, err := ClassifyRecorded(cat, nil, []ShipmentTotal{{Year: 2021, Designation: "R-9999", Direction: "import", Tonnes: 1}}, nil, nil)
+	d, err := ClassifyRecorded(cat, nil, []ShipmentTotal{{Year: 2021, Designation: "R-9999", Direction: terms.DirectionImport, Tonnes: 1}}, nil, nil)
 	if err != nil || len(d.Records) != 0 {
 		t.Errorf("uncatalogued uncontrolled: %v, %d records; want none and no error", err, len(d.Records))
 	}

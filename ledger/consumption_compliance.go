@@ -8,6 +8,7 @@ import (
 
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // ComplianceReport is a scope's consumption compared with the allowed levels, year by year.
@@ -105,8 +106,8 @@ func (c *Consumption) AssessCompliance(ctx context.Context, annexGroup string, f
 }
 
 // exemptionPurpose is the declared purpose of the shipments of an exempted use.
-var exemptionPurpose = map[controls.ExemptionUse]string{
-	controls.UseEssential: "essential-use", controls.UseCritical: "critical-use", controls.UseLaboratory: "laboratory",
+var exemptionPurpose = map[controls.ExemptionUse]terms.Purpose{
+	controls.UseEssential: terms.PurposeEssentialUse, controls.UseCritical: terms.PurposeCriticalUse, controls.UseLaboratory: terms.PurposeLaboratory,
 }
 
 // exemptedUseNotes compares each authorised exemption of a year with the imports declared
@@ -119,10 +120,10 @@ func exemptedUseNotes(ctx context.Context, r ReportReader, cat *substances.Catal
 		return nil, err
 	}
 	unit := scope.Unit()
-	declared := map[string]float64{}
+	declared := map[terms.Purpose]float64{}
 	for _, t := range ships {
 		sub, ok := cat.Substance(t.Designation)
-		if !ok || t.Direction != "import" || controls.Recovered(t.Condition) || !slices.Contains(scope.Groups(), sub.Group) {
+		if !ok || t.Direction != terms.DirectionImport || controls.Recovered(t.Condition) || !slices.Contains(scope.Groups(), sub.Group) {
 			continue
 		}
 		f := sub.ODP

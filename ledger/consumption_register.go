@@ -47,9 +47,9 @@ type ShipmentLine struct {
 	PartnerCountry  string
 	Designation     string
 	AnnexGroup      string
-	Direction       string
-	Purpose         string
-	Condition       string
+	Direction       terms.Direction
+	Purpose         terms.Purpose
+	Condition       terms.Condition
 	PartnerNonParty bool
 	Tonnes          float64
 	ShipmentIDs     []int64

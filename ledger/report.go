@@ -11,6 +11,7 @@ import (
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
+	"github.com/halovet/halovet/terms"
 )
 
 // The year report: one reporting year's trade per partner, production, destruction,
@@ -92,8 +93,8 @@ type tradeKey struct {
 type qtyKey struct{ substance, basis string }
 
 // exemptedPurpose: the purposes of the exempted uses (essential, critical, laboratory).
-func exemptedPurpose(p string) bool {
-	return p == "essential-use" || p == "critical-use" || p == "laboratory"
+func exemptedPurpose(p terms.Purpose) bool {
+	return p == terms.PurposeEssentialUse || p == terms.PurposeCriticalUse || p == terms.PurposeLaboratory
 }
 
 // yearReportBuilder accumulates one report.
@@ -154,15 +155,15 @@ func (b *yearReportBuilder) quantity(kind string, r *reportSub, basis string) *Q
 
 // purposeTonnes adds m to the trade line's column for purpose and reports which
 // deducted use, if any, it is ("feedstock", "destruction", "qps").
-func purposeTonnes(tl *TradeLine, purpose string, g substances.Group, m exact.Decimal) string {
+func purposeTonnes(tl *TradeLine, purpose terms.Purpose, g substances.Group, m exact.Decimal) string {
 	switch {
-	case purpose == "feedstock" || purpose == "process-agent":
+	case purpose == terms.PurposeFeedstock || purpose == terms.PurposeProcessAgent:
 		tl.FeedstockTonnes = tl.FeedstockTonnes.Add(m)
 		return "feedstock"
-	case purpose == "destruction":
+	case purpose == terms.PurposeDestruction:
 		tl.DestructionTonnes = tl.DestructionTonnes.Add(m)
 		return "destruction"
-	case purpose == "qps" && g == substances.GroupEI:
+	case purpose == terms.PurposeQPS && g == substances.GroupEI:
 		tl.QPSTonnes = tl.QPSTonnes.Add(m)
 		return "qps"
 	case exemptedPurpose(purpose):
@@ -178,9 +179,9 @@ func (b *yearReportBuilder) shipment(l ShipmentLine) error {
 	}
 	m := exact.OfFloat(l.Tonnes)
 	switch l.Direction {
-	case "transit":
+	case terms.DirectionTransit:
 		b.transit = b.transit.Add(m)
-	case "import":
+	case terms.DirectionImport:
 		tl := b.trade(b.imports, l.PartnerCountry, r, l.PartnerNonParty)
 		tl.ShipmentIDs = append(tl.ShipmentIDs, l.ShipmentIDs...)
 		if controls.Recovered(l.Condition) {
@@ -205,7 +206,7 @@ func (b *yearReportBuilder) shipment(l ShipmentLine) error {
 		if u := controls.ShipmentUse(l.Direction, l.Purpose, l.Condition, r.sub.Group); u != "" {
 			b.uses[controls.UseKey{Year: b.year, Substance: r.sub.Designation, Use: u}] += l.Tonnes
 		}
-	case "export", "re-export":
+	case terms.DirectionExport, terms.DirectionReExport:
 		np := l.PartnerNonParty && b.year >= controls.NonPartyExportsFrom
 		tl := b.trade(b.exports, l.PartnerCountry, r, np)
 		tl.ShipmentIDs = append(tl.ShipmentIDs, l.ShipmentIDs...)

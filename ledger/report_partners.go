@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/halovet/halovet/exact"
+	"github.com/halovet/halovet/terms"
 )
 
 // Partner reconciliation: what partners report as exported to the reporting Party against
@@ -145,7 +146,7 @@ func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []S
 	var silent []string
 	for _, l := range lines {
 		// Imports only, controlled components only, from the partner named on the record.
-		if l.Direction != "import" || l.AnnexGroup == "" {
+		if l.Direction != terms.DirectionImport || l.AnnexGroup == "" {
 			continue
 		}
 		if !reporting[l.PartnerCountry] {

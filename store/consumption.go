@@ -40,11 +40,11 @@ const ShipmentYearsSQL = `WITH RECURSIVE y(year) AS (
 // PostgreSQL so that a year of a million shipments never travels row by row.
 type ShipmentTotal struct {
 	Year            int
-	Designation     string  // component designation
-	AnnexGroup      string  // the group recorded with the component ("" when uncontrolled)
-	Direction       string  // "import", "export", "re-export", "transit"
-	Purpose         string  // "servicing", "feedstock", "qps", ... or ""
-	Condition       string  // "virgin", "used", "recycled", "reclaimed" or ""
+	Designation     string // component designation
+	AnnexGroup      string // the group recorded with the component ("" when uncontrolled)
+	Direction       terms.Direction
+	Purpose         terms.Purpose
+	Condition       terms.Condition
 	PartnerNonParty bool    // the partner was not bound for this component's group
 	Tonnes          float64 // sum of the components' net mass, metric tonnes
 	Shipments       int64   // shipments contributing
@@ -167,9 +167,9 @@ type ShipmentLine struct {
 	PartnerCountry  string
 	Designation     string
 	AnnexGroup      string
-	Direction       string
-	Purpose         string
-	Condition       string
+	Direction       terms.Direction
+	Purpose         terms.Purpose
+	Condition       terms.Condition
 	PartnerNonParty bool
 	Tonnes          float64 // exact numeric sum in kg, converted to tonnes as the last step
 	ShipmentIDs     []int64 // in order

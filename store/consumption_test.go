@@ -166,7 +166,7 @@ func TestShipmentTotalsAggregateComponentsInSQL(t *testing.T) {
 		if x.Year != 2025 {
 			t.Fatalf("total of year %d in a 2025 query", x.Year)
 		}
-		got[k{x.Designation, x.Direction, x.Condition, x.PartnerNonParty}] = x
+		got[k{x.Designation, x.Direction.String(), x.Condition.String(), x.PartnerNonParty}] = x
 	}
 	cases := []struct {
 		key    k
@@ -188,7 +188,7 @@ func TestShipmentTotalsAggregateComponentsInSQL(t *testing.T) {
 			t.Errorf("%+v: got %+v, want %v t from %d shipments", c.key, x, c.tonnes, c.n)
 		}
 	}
-	if x := got[k{"HFC-125", "import", "virgin", false}]; x.AnnexGroup != "F/I" || x.Purpose != "servicing" {
+	if x := got[k{"HFC-125", "import", "virgin", false}]; x.AnnexGroup != "F/I" || x.Purpose != terms.PurposeServicing {
 		t.Errorf("HFC-125 total %+v: want group F/I and purpose servicing carried", x)
 	}
 	all, _ := st.ShipmentTotals(ctx, nil)

@@ -8,6 +8,7 @@ import (
 	"github.com/jackc/pgx/v5/pgconn"
 
 	"github.com/halovet/halovet/store"
+	"github.com/halovet/halovet/terms"
 )
 
 // Quantities here are invented; the check is that the yearly totals (migration 12) equal
@@ -104,7 +105,7 @@ func TestYearTotalsFollowRecordVoidCorrect(t *testing.T) {
 	}
 	sameTotals(t, st, "after a direct update of a purpose", 2)
 	tots, err := st.ShipmentTotals(ctx, nil)
-	if err != nil || len(tots) != 2 || tots[0].Purpose != "" || tots[1].Purpose != "feedstock" || tots[1].Tonnes != 1.818181818182 {
+	if err != nil || len(tots) != 2 || tots[0].Purpose != terms.PurposeUnspecified || tots[1].Purpose != terms.PurposeFeedstock || tots[1].Tonnes != 1.818181818182 {
 		t.Fatalf("totals after the purpose update: %+v %v; want b under no purpose and c's 1.818181818182 t under feedstock", tots, err)
 	}
 	// TRUNCATE empties the totals with the register.
