@@ -37,45 +37,6 @@ func amount(s string, u halovetv1.ControlUnit) string {
 	return dec(s, "odp-t")
 }
 
-// controlUnitWord names a control scope's unit.
-func controlUnitWord(u halovetv1.ControlUnit) string {
-	switch u {
-	case halovetv1.ControlUnit_CONTROL_UNIT_ODP_TONNES:
-		return "ODP t"
-	case halovetv1.ControlUnit_CONTROL_UNIT_CO2E_TONNES:
-		return "CO2-eq t"
-	}
-	return ""
-}
-
-// scheduleWord names the control schedule a Party follows.
-func scheduleWord(s halovetv1.ControlSchedule) string {
-	switch s {
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5:
-		return "non-A5"
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5:
-		return "A5"
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5_HFC_LATER_START:
-		return "non-A5-variant"
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_FIRST_GROUP:
-		return "A5-group1"
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_SECOND_GROUP:
-		return "A5-group2"
-	}
-	return "unknown"
-}
-
-// reportStateWord is "provisional" or "closed".
-func reportStateWord(s halovetv1.ReportState) string {
-	switch s {
-	case halovetv1.ReportState_REPORT_STATE_PROVISIONAL:
-		return "provisional"
-	case halovetv1.ReportState_REPORT_STATE_CLOSED:
-		return "closed"
-	}
-	return "unknown"
-}
-
 // basisWord says where a quantity of the year report comes from.
 func basisWord(b halovetv1.QuantityBasis) string {
 	switch b {

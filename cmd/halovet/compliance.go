@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
+	"github.com/halovet/halovet/service/wireterms"
 	"io"
 	"os"
 	"strconv"
@@ -129,7 +130,7 @@ func complianceRow(y *halovetv1.ComplianceYear, f func(string) string) []string 
 
 func writeCompliance(w io.Writer, resp *halovetv1.AssessComplianceResponse, output string) error {
 	eu := resp.GetUnit()
-	u := unitText(eu)
+	u := wireterms.ControlUnitText(eu)
 	switch output {
 	case "json":
 		return writeProtoJSON(w, resp)
@@ -149,7 +150,7 @@ func writeCompliance(w io.Writer, resp *halovetv1.AssessComplianceResponse, outp
 		cw.Flush()
 		return cw.Error()
 	}
-	fmt.Fprintf(w, "Compliance of %s (%s schedule)\n", resp.GetAnnexGroup(), scheduleText(resp.GetAppliesTo()))
+	fmt.Fprintf(w, "Compliance of %s (%s schedule)\n", resp.GetAnnexGroup(), wireterms.ControlScheduleText(resp.GetAppliesTo()))
 	if resp.GetHasOfficialBaseline() {
 		computed := "cannot be computed, data are missing"
 		if len(resp.GetBaselineMissing()) == 0 {

@@ -59,17 +59,6 @@ func unitExact(u halovetv1.ControlUnit) exact.Unit {
 	return exact.ODPTonnes
 }
 
-// unitText is how text and CSV name a control scope's unit.
-func unitText(u halovetv1.ControlUnit) string {
-	switch u {
-	case halovetv1.ControlUnit_CONTROL_UNIT_ODP_TONNES:
-		return "ODP t"
-	case halovetv1.ControlUnit_CONTROL_UNIT_CO2E_TONNES:
-		return "CO2-eq t"
-	}
-	return ""
-}
-
 // showAmount shows an amount in a control scope's unit.
 func showAmount(s string, u halovetv1.ControlUnit) string { return shown(s, unitExact(u)) }
 
@@ -88,21 +77,4 @@ func sumOf(ss ...string) string {
 		t = t.Add(wireDec(s))
 	}
 	return t.String()
-}
-
-// scheduleText is how text names a control schedule.
-func scheduleText(s halovetv1.ControlSchedule) string {
-	switch s {
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5:
-		return "non-A5"
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5:
-		return "A5"
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_NON_ARTICLE_5_HFC_LATER_START:
-		return "non-A5-variant"
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_FIRST_GROUP:
-		return "A5-group1"
-	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_SECOND_GROUP:
-		return "A5-group2"
-	}
-	return "unknown"
 }

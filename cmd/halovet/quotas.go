@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
+	"github.com/halovet/halovet/service/wireterms"
 	"io"
 	"os"
 	"strconv"
@@ -71,7 +72,7 @@ func defineQuotas(fs *pflag.FlagSet) runFunc {
 
 func writeQuotas(w io.Writer, resp *halovetv1.PlanQuotasResponse, output string) error {
 	eu := resp.GetUnit()
-	u := unitText(eu)
+	u := wireterms.ControlUnitText(eu)
 	switch output {
 	case "json":
 		return writeProtoJSON(w, resp)

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
+	"github.com/halovet/halovet/service/wireterms"
 	"io"
 	"os"
 	"strconv"
@@ -262,7 +263,7 @@ func yearRows(part string, ys []*halovetv1.BaselineYear, unit string, f func(str
 // baselineRows lists the arithmetic: the base years, the CFC years, the HCFC part's years
 // and the summary lines.
 func baselineRows(resp *halovetv1.GetBaselineResponse, f func(string, halovetv1.ControlUnit) string) [][]string {
-	u := unitText(resp.GetUnit())
+	u := wireterms.ControlUnitText(resp.GetUnit())
 	fu := func(s string) string { return f(s, resp.GetUnit()) }
 	rows := yearRows(resp.GetAnnexGroup(), resp.GetYears(), u, fu)
 	rows = append(rows, []string{resp.GetAnnexGroup() + " mean", "", fu(resp.GetMeanAmount()), u, ""})
@@ -271,7 +272,7 @@ func baselineRows(resp *halovetv1.GetBaselineResponse, f func(string, halovetv1.
 		rows = append(rows, []string{fmt.Sprintf("CFC term (%s %% of A/I)", shareText(resp.GetCfcShareRatio())), "", fu(resp.GetCfcTermAmount()), u, ""})
 	}
 	if h := resp.GetHcfcBaseline(); h != nil {
-		hu := unitText(h.GetUnit())
+		hu := wireterms.ControlUnitText(h.GetUnit())
 		fh := func(s string) string { return f(s, h.GetUnit()) }
 		rows = append(rows, yearRows(h.GetAnnexGroup()+" in CO2-eq", h.GetYears(), hu, fh)...)
 		if len(h.GetCfcYears()) > 0 {
@@ -305,8 +306,8 @@ func writeBaseline(w io.Writer, resp *halovetv1.GetBaselineResponse, output stri
 		cw.Flush()
 		return cw.Error()
 	}
-	u := unitText(resp.GetUnit())
-	fmt.Fprintf(w, "Baseline for %s (%s schedule)\n", resp.GetAnnexGroup(), scheduleText(resp.GetAppliesTo()))
+	u := wireterms.ControlUnitText(resp.GetUnit())
+	fmt.Fprintf(w, "Baseline for %s (%s schedule)\n", resp.GetAnnexGroup(), wireterms.ControlScheduleText(resp.GetAppliesTo()))
 	fmt.Fprintf(w, "Rule: %s\n\n", resp.GetRule())
 	tw := newTable(w)
 	fmt.Fprintln(tw, "part\tyear\tamount\tunit\tdata\t")

@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"github.com/halovet/halovet/service/wireterms"
 	"io"
 	"os"
 	"strings"
@@ -197,13 +198,13 @@ func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, outpu
 	fmt.Fprintln(tw, "key\tParty\tkind\tgroup\tyear\tamount\tunit\tsource\t")
 	for _, f := range off.GetFigures() {
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t\n", f.GetFigureKey(), f.GetCountryCode(), enumWord(f.GetKind().Descriptor(), f.GetKind().Number()),
-			f.GetAnnexGroup(), f.GetYear(), showAmount(f.GetAmount(), f.GetUnit()), unitText(f.GetUnit()), f.GetSource())
+			f.GetAnnexGroup(), f.GetYear(), showAmount(f.GetAmount(), f.GetUnit()), wireterms.ControlUnitText(f.GetUnit()), f.GetSource())
 	}
 	fmt.Fprintf(tw, "\nAuthorised exemptions (%d)\n", len(ex.GetExemptions()))
 	fmt.Fprintln(tw, "key\tParty\tyear\tgroup\tuse\tamount\tunit\tsource\t")
 	for _, e := range ex.GetExemptions() {
 		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetExemptionKey(), e.GetCountryCode(), e.GetYear(), e.GetAnnexGroup(),
-			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), showAmount(e.GetAmount(), e.GetUnit()), unitText(e.GetUnit()), e.GetSource())
+			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), showAmount(e.GetAmount(), e.GetUnit()), wireterms.ControlUnitText(e.GetUnit()), e.GetSource())
 	}
 	fmt.Fprintf(tw, "\nHFC-23 by-product per facility (%d)\n", len(h23.GetEntries()))
 	fmt.Fprintln(tw, "key\tfacility\tyear\tgenerated t\tcaptured for use t\tdestroyed t\temitted t\temitted CO2-eq t\t")

@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
+	"github.com/halovet/halovet/service/wireterms"
 	"html/template"
 	"io"
 	"os"
@@ -179,7 +180,7 @@ func exemptionRows(es []*halovetv1.AuthorisedExemption) [][]string {
 	var out [][]string
 	for _, e := range es {
 		out = append(out, []string{e.GetExemptionKey(), e.GetCountryCode(), strconv.Itoa(int(e.GetYear())), e.GetAnnexGroup(),
-			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), e.GetAmount(), unitText(e.GetUnit()), e.GetSource()})
+			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), e.GetAmount(), wireterms.ControlUnitText(e.GetUnit()), e.GetSource()})
 	}
 	return out
 }
@@ -304,7 +305,7 @@ func orNone(s string) string {
 // yearHTML is the printable page. Figures are the CSV files' (full precision); the layout
 // and headings are our own.
 var yearHTML = template.Must(template.New("year").Funcs(template.FuncMap{
-	"t": asIs, "ids": idsText, "yn": yesNo, "unit": unitText,
+	"t": asIs, "ids": idsText, "yn": yesNo, "unit": wireterms.ControlUnitText,
 	"use":   func(u halovetv1.ExemptedUse) string { return enumWord(u.Descriptor(), u.Number()) },
 	"basis": func(b halovetv1.QuantityBasis) string { return enumWord(b.Descriptor(), b.Number()) },
 	"state": func(s halovetv1.ReportState) string { return enumWord(s.Descriptor(), s.Number()) },
