@@ -2,6 +2,7 @@ package chart
 
 import (
 	"fmt"
+	"github.com/halovet/halovet/service/wireterms"
 	"math"
 	"strconv"
 	"strings"
@@ -45,7 +46,7 @@ const Notice = "Results are decision support: the treaty text, national law, the
 // currentYear is the calendar year now (its figures are provisional; 0 marks none).
 func FromAssessment(resp *halovetv1.AssessComplianceResponse, party string, currentYear int) Compliance {
 	c := Compliance{
-		Party: party, Scope: resp.GetAnnexGroup(), Unit: unitName(resp.GetUnit()),
+		Party: party, Scope: resp.GetAnnexGroup(), Unit: wireterms.ControlUnitText(resp.GetUnit()),
 		Baseline: wireNum(resp.GetBaselineAmount()), HasBaseline: resp.GetBaselineComplete() && resp.GetBaselineAmount() != "",
 		Schedule: scheduleName(resp.GetAppliesTo()), Notice: Notice,
 	}
@@ -96,17 +97,6 @@ func scheduleName(s halovetv1.ControlSchedule) string {
 		return "Article 5 schedule, first HFC group"
 	case halovetv1.ControlSchedule_CONTROL_SCHEDULE_ARTICLE_5_HFC_SECOND_GROUP:
 		return "Article 5 schedule, second HFC group"
-	}
-	return ""
-}
-
-// unitName is how the chart writes the unit of an assessment.
-func unitName(u halovetv1.ControlUnit) string {
-	switch u {
-	case halovetv1.ControlUnit_CONTROL_UNIT_ODP_TONNES:
-		return "ODP t"
-	case halovetv1.ControlUnit_CONTROL_UNIT_CO2E_TONNES:
-		return "CO2-eq t"
 	}
 	return ""
 }
