@@ -78,7 +78,15 @@ func TestTracesSpanPerRPCWithChildSpanPerQuery(t *testing.T) {
 		t.Fatal(err)
 	}
 
-	spans := exp.GetSpans()
+	// The server ends its span after it has sent the status, so the answer can reach the
+	// client before the span reaches the exporter: wait for it, within a bound.
+	var spans tracetest.SpanStubs
+	for deadline := time.Now().Add(5 * time.Second); ; time.Sleep(10 * time.Millisecond) {
+		spans = exp.GetSpans()
+		if hasSpan(spans, "halovet.v1.LicensingService/GetParty") || time.Now().After(deadline) {
+			break
+		}
+	}
 	var rpc *tracetest.SpanStub
 	for i := range spans {
 		if strings.HasPrefix(spans[i].Name, "grpc.health") {
@@ -117,6 +125,15 @@ func TestTracesSpanPerRPCWithChildSpanPerQuery(t *testing.T) {
 	if queries == 0 {
 		t.Errorf("the call span has no child query span; spans: %v", names(spans))
 	}
+}
+
+func hasSpan(spans tracetest.SpanStubs, name string) bool {
+	for _, s := range spans {
+		if s.Name == name {
+			return true
+		}
+	}
+	return false
 }
 
 func names(spans tracetest.SpanStubs) []string {
