@@ -175,8 +175,9 @@ func (s *wireStream) Recv() (ledger.Message, error) { return s.recv() }
 func (s *wireStream) Send(as []ledger.Answer, single bool) error {
 	vs := make([]*halovetv1.Verdict, len(as))
 	components := !s.noComponents.Load()
+	slab := newVerdictSlab(len(as))
 	for i := range as {
-		vs[i] = answerToProtoWith(&as[i], components)
+		vs[i] = slab.answer(&as[i], components)
 	}
 	return s.send(vs, single)
 }
@@ -200,6 +201,11 @@ func answerToProto(a *ledger.Answer) *halovetv1.Verdict { return answerToProtoWi
 // answerToProtoWith is answerToProto, with the per-component figures only when components
 // is set.
 func answerToProtoWith(a *ledger.Answer, components bool) *halovetv1.Verdict {
+	return (*verdictSlab)(nil).answer(a, components)
+}
+
+// answer is answerToProtoWith, the messages of a verdict made here taken from s.
+func (s *verdictSlab) answer(a *ledger.Answer, components bool) *halovetv1.Verdict {
 	v, kept := a.Kept.(*halovetv1.Verdict)
 	if kept && v != nil {
 		v.RecordKey, v.SourceLine = a.Verdict.RecordKey, a.Verdict.Line
@@ -207,7 +213,7 @@ func answerToProtoWith(a *ledger.Answer, components bool) *halovetv1.Verdict {
 			v.Figures.Components = nil
 		}
 	} else {
-		v = verdictToProtoWith(&a.Verdict, components)
+		v = s.verdict(&a.Verdict, components)
 	}
 	if a.Recorded {
 		v.Recorded = true

@@ -1,6 +1,7 @@
 package service
 
 import (
+	"strconv"
 	"sync"
 
 	"google.golang.org/protobuf/encoding/protojson"
@@ -64,32 +65,127 @@ func verdictToProto(v *validate.Verdict) *halovetv1.Verdict { return verdictToPr
 // verdictToProtoWith is verdictToProto, with the per-component figures only when
 // components is set.
 func verdictToProtoWith(v *validate.Verdict, components bool) *halovetv1.Verdict {
-	out := &halovetv1.Verdict{RecordKey: v.RecordKey, SourceLine: v.Line, Outcome: outcomeProto[v.Outcome],
-		Replayed: v.Replayed}
+	return (*verdictSlab)(nil).verdict(v, components)
+}
+
+// verdictSlab holds the messages of the wire verdicts of one stream message, allocated
+// together (a verdict, its figures and its draws) instead of one by one; the verdicts of
+// one message are sent together and dropped together. A nil slab allocates each message.
+type verdictSlab struct {
+	verdicts []halovetv1.Verdict
+	figures  []halovetv1.ShipmentFigures
+	draws    []halovetv1.QuotaDraw
+	drawRefs []*halovetv1.QuotaDraw
+}
+
+// newVerdictSlab is room for n verdicts, each with figures and one draw (more draws are
+// allocated as they come).
+func newVerdictSlab(n int) *verdictSlab {
+	return &verdictSlab{verdicts: make([]halovetv1.Verdict, 0, n), figures: make([]halovetv1.ShipmentFigures, 0, n),
+		draws: make([]halovetv1.QuotaDraw, 0, n), drawRefs: make([]*halovetv1.QuotaDraw, 0, n)}
+}
+
+func (s *verdictSlab) newVerdict() *halovetv1.Verdict {
+	if s == nil || len(s.verdicts) == cap(s.verdicts) {
+		return &halovetv1.Verdict{}
+	}
+	s.verdicts = s.verdicts[:len(s.verdicts)+1]
+	return &s.verdicts[len(s.verdicts)-1]
+}
+
+func (s *verdictSlab) newFigures() *halovetv1.ShipmentFigures {
+	if s == nil || len(s.figures) == cap(s.figures) {
+		return &halovetv1.ShipmentFigures{}
+	}
+	s.figures = s.figures[:len(s.figures)+1]
+	return &s.figures[len(s.figures)-1]
+}
+
+func (s *verdictSlab) newDraw() *halovetv1.QuotaDraw {
+	if s == nil || len(s.draws) == cap(s.draws) {
+		return &halovetv1.QuotaDraw{}
+	}
+	s.draws = s.draws[:len(s.draws)+1]
+	return &s.draws[len(s.draws)-1]
+}
+
+// drawList is an empty list with room for n draws (its capacity is its own: appending
+// to it never writes into another verdict's).
+func (s *verdictSlab) drawList(n int) []*halovetv1.QuotaDraw {
+	if s == nil || cap(s.drawRefs)-len(s.drawRefs) < n {
+		return make([]*halovetv1.QuotaDraw, 0, n)
+	}
+	at := len(s.drawRefs)
+	s.drawRefs = s.drawRefs[:at+n]
+	return s.drawRefs[at : at : at+n]
+}
+
+// verdict is the wire form of v (verdictToProtoWith), its messages taken from s.
+func (s *verdictSlab) verdict(v *validate.Verdict, components bool) *halovetv1.Verdict {
+	out := s.newVerdict()
+	out.RecordKey, out.SourceLine, out.Outcome, out.Replayed = v.RecordKey, v.Line, outcomeProto[v.Outcome], v.Replayed
 	out.Findings = make([]*halovetv1.Finding, len(v.Findings))
 	for i, f := range v.Findings {
 		out.Findings[i] = &halovetv1.Finding{Code: f.Code, Severity: severityProto[f.Severity], Field: f.Field, Message: f.Message}
 	}
 	if v.Resolved {
 		f := &v.Figures
-		x := f.Exacts()
-		out.Figures = &halovetv1.ShipmentFigures{ResolvedDesignation: f.Designation, Kind: kindProto(f.Kind),
-			NetMassKg: x.NetMassKg.String(), OdpTonnes: x.ODPTonnes.String(), Co2ETonnes: x.CO2eTonnes.String(),
-			CountsInConsumption: f.CountsInConsumption, SafetyClass: f.SafetyClass, PartnerNonParty: f.PartnerNonParty}
+		fg := s.newFigures()
+		fg.ResolvedDesignation, fg.Kind = f.Designation, kindProto(f.Kind)
 		if components {
-			out.Figures.Components = verdictComponents(f.Components, x.Components)
+			x := f.Exacts()
+			fg.NetMassKg, fg.OdpTonnes, fg.Co2ETonnes = x.NetMassKg.String(), x.ODPTonnes.String(), x.CO2eTonnes.String()
+			fg.Components = verdictComponents(f.Components, x.Components)
+		} else { // the same totals, without a decimal per component (validate.Figures.TotalsText)
+			fg.NetMassKg, fg.OdpTonnes, fg.Co2ETonnes = f.TotalsText()
 		}
+		fg.CountsInConsumption, fg.SafetyClass, fg.PartnerNonParty = f.CountsInConsumption, f.SafetyClass, f.PartnerNonParty
 		for _, g := range f.PartnerNotBoundGroups {
-			out.Figures.PartnerNotBoundGroups = append(out.Figures.PartnerNotBoundGroups, string(g))
+			fg.PartnerNotBoundGroups = append(fg.PartnerNotBoundGroups, string(g))
 		}
+		out.Figures = fg
+	}
+	if len(v.Draws) > 0 {
+		out.Draws = s.drawList(len(v.Draws))
 	}
 	for _, d := range v.Draws {
 		// In the store's billionths, so that a verdict answered now and the same verdict
 		// read back from the store agree to the digit.
-		out.Draws = append(out.Draws, &halovetv1.QuotaDraw{LicenceNumber: d.LicenceNumber, LineNumber: int32(d.LineNumber),
-			Amount: nanoFigure(int64(store.ToNano(d.Amount)))})
+		qd := s.newDraw()
+		qd.LicenceNumber, qd.LineNumber, qd.Amount = d.LicenceNumber, int32(d.LineNumber), nanoText(int64(store.ToNano(d.Amount)))
+		out.Draws = append(out.Draws, qd)
 	}
 	return out
+}
+
+// nanoText is nanoFigure (an amount in billionths as an exact decimal: "0" for zero, no
+// trailing zeros, no exponent), written with integer arithmetic.
+func nanoText(n int64) string {
+	if n == 0 {
+		return "0"
+	}
+	var b [24]byte
+	out := b[:0]
+	u := uint64(n)
+	if n < 0 {
+		out = append(out, '-')
+		u = -u
+	}
+	out = strconv.AppendUint(out, u/1e9, 10)
+	if frac := u % 1e9; frac != 0 {
+		var digits [9]byte
+		for i := 8; i >= 0; i-- {
+			digits[i] = byte('0' + frac%10)
+			frac /= 10
+		}
+		end := 9
+		for digits[end-1] == '0' {
+			end--
+		}
+		out = append(out, '.')
+		out = append(out, digits[:end]...)
+	}
+	return string(out)
 }
 
 // verdictComponents writes a verdict's components with their exact figures xs (from

@@ -118,6 +118,7 @@ type checker struct {
 	fp            string               // the record's Fingerprint (when seed is nil)
 	seed          *maphash.Seed        // set by a Batch: contentHash instead of Fingerprint
 	fpHash        uint64               // contentHash(*seed, r)
+	parsed        parsedContent        // what quantityRules parsed, shared with the content hash
 	noFingerprint bool                 // CheckUnkeyed: neither fp nor fpHash is needed
 	boundsFailed  bool                 // a bound was broken: no further rule ran
 	measurement   *substances.Analysis // measurementRules' comparison
@@ -166,18 +167,14 @@ func CheckUnkeyed(env *Env, r *Record, ledger QuotaLedger) Verdict {
 // in parallel. finish then judges the quota and makes the verdict.
 func (c *checker) rules() {
 	c.env.prepare()
-	switch {
-	case c.seed != nil:
-		c.fpHash = contentHash(*c.seed, c.r)
-	case !c.noFingerprint:
-		c.fp = Fingerprint(c.r)
-	}
 	c.recordRules()
 	if !c.boundsRules() {
 		c.boundsFailed = true
+		c.fingerprint(nil)
 		return
 	}
 	c.quantityRules()
+	c.fingerprint(&c.parsed) // after quantityRules: the content reuses what it parsed
 	c.dateRules()
 	c.partnerShape()
 	c.identity()
@@ -197,6 +194,17 @@ func (c *checker) rules() {
 		c.phaseOutRules()
 	}
 	c.counts = c.purposeRules(controlled)
+}
+
+// fingerprint sets the record's content hash (a Batch) or Fingerprint (otherwise, unless
+// none is needed); pre is what the rules parsed already, nil when they stopped before.
+func (c *checker) fingerprint(pre *parsedContent) {
+	switch {
+	case c.seed != nil:
+		c.fpHash = contentHash(*c.seed, c.r, pre)
+	case !c.noFingerprint:
+		c.fp = fingerprintOf(c.r, pre)
+	}
 }
 
 // finish judges the quota against ledger (nil: only the licence's own balance), makes the

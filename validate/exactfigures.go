@@ -1,6 +1,10 @@
 package validate
 
 import (
+	"math"
+	"sync"
+	"sync/atomic"
+
 	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 )
@@ -64,7 +68,7 @@ func (f *Figures) Exacts() FiguresExact {
 		Components: make([]substances.ComponentExact, len(f.Components))}
 	for i := range f.Components {
 		c := &f.Components[i]
-		pct, odp, gwp := exact.OfFloat(c.MassPct), exact.OfFloat(c.ODP), exact.OfFloat(c.ProtocolGWP)
+		pct, odp, gwp := ofFloat(c.MassPct), ofFloat(c.ODP), ofFloat(c.ProtocolGWP)
 		kg := m.Percent(pct)
 		t := kg.Shift(-3)
 		x := substances.ComponentExact{MassPct: pct, MassKg: kg, ODP: odp, ODPTonnes: t.Mul(odp), ProtocolGWP: gwp, CO2eTonnes: exact.Zero}
@@ -76,4 +80,31 @@ func (f *Figures) Exacts() FiguresExact {
 		out.CO2eTonnes = out.CO2eTonnes.Add(x.CO2eTonnes)
 	}
 	return out
+}
+
+// floatDecimals remembers exact.OfFloat of the shares, ODPs and GWPs Exacts met (by the
+// float's bits): they are the catalogue's and the declared compositions' few figures, met
+// again in verdict after verdict, and OfFloat writes and parses the float's shortest text
+// each time. At most maxFloatDecimals are kept; beyond, OfFloat is called each time.
+var (
+	floatDecimals     sync.Map // uint64 (math.Float64bits) → exact.Decimal
+	floatDecimalsKept atomic.Int64
+)
+
+const maxFloatDecimals = 4096
+
+// ofFloat is exact.OfFloat(f), remembered (floatDecimals). A Decimal is a value that no
+// operation changes, so one may be shared by every verdict.
+func ofFloat(f float64) exact.Decimal {
+	k := math.Float64bits(f)
+	if d, ok := floatDecimals.Load(k); ok {
+		return d.(exact.Decimal)
+	}
+	d := exact.OfFloat(f)
+	if floatDecimalsKept.Load() < maxFloatDecimals {
+		if _, had := floatDecimals.LoadOrStore(k, d); !had {
+			floatDecimalsKept.Add(1)
+		}
+	}
+	return d
 }

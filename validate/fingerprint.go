@@ -17,8 +17,9 @@ const fingerprintVersion = "halovet-record-v2" // v2: total net quantity, packag
 
 // fpDecimal appends a quantity: its normalized decimal when it parses ("1250.50" =
 // "1250.5"), else the trimmed text, marked apart.
-func fpDecimal(b []byte, text string) []byte {
-	if d, err := ParseDecimal(text); err == nil {
+func fpDecimal(b []byte, text string, pre *parsedDecimal) []byte {
+	d, ok := pre.get(text)
+	if ok {
 		var nb [48]byte
 		nd := d.appendNormalized(nb[:0])
 		b = append(b, 'n')
@@ -42,9 +43,12 @@ func fpDecimal(b []byte, text string) []byte {
 // direction, purpose and condition are written as their canonical words; composition shares
 // are sorted by identifier. Each field is length-prefixed, so no two different field lists
 // give the same byte string.
-func Fingerprint(r *Record) string {
+func Fingerprint(r *Record) string { return fingerprintOf(r, nil) }
+
+// fingerprintOf is Fingerprint with what the rules parsed already (pre, may be nil).
+func fingerprintOf(r *Record, pre *parsedContent) string {
 	var stack [512]byte
-	sum := sha256.Sum256(appendContent(stack[:0], r))
+	sum := sha256.Sum256(appendContent(stack[:0], r, pre))
 	return hex.EncodeToString(sum[:])
 }
 
@@ -52,13 +56,57 @@ func Fingerprint(r *Record) string {
 // content as Fingerprint: a stream in check mode, which stores nothing, tells a replay
 // from a conflict by it, at a fraction of the cost of SHA-256. Two different contents
 // share a hash with a chance of about 2^-64 per pair.
-func contentHash(seed maphash.Seed, r *Record) uint64 {
+// pre, when not nil, holds what the rules parsed of the record's quantities and unit, so
+// that they are not parsed twice (the content is the same either way).
+func contentHash(seed maphash.Seed, r *Record, pre *parsedContent) uint64 {
 	var stack [512]byte
-	return maphash.Bytes(seed, appendContent(stack[:0], r))
+	return maphash.Bytes(seed, appendContent(stack[:0], r, pre))
 }
 
-// appendContent appends the normalized content of Fingerprint to b.
-func appendContent(b []byte, r *Record) []byte {
+// parsedContent is what the rules parsed of a record that its normalized content uses:
+// the total and the fill per package (ParseDecimal) and the unit (ParseUnit). A part not
+// parsed (the rules stopped before, or skipped the call) is parsed by appendContent.
+type parsedContent struct {
+	total, fill parsedDecimal
+	unit        Unit
+	unitState   parseState
+}
+
+// parseState says whether a parse was made and how it ended.
+type parseState uint8
+
+const (
+	notParsed parseState = iota
+	parsedOK
+	parseFailed
+)
+
+// parsedDecimal is the result of ParseDecimal on a field's text, when it was called.
+type parsedDecimal struct {
+	d     Decimal
+	state parseState
+}
+
+// get is ParseDecimal(text), from p when it holds the result (p may be nil).
+func (p *parsedDecimal) get(text string) (Decimal, bool) {
+	if p != nil && p.state != notParsed {
+		return p.d, p.state == parsedOK
+	}
+	if strings.TrimSpace(text) == "" { // ParseDecimal refuses it (and writes an error to say so)
+		return Decimal{}, false
+	}
+	d, err := ParseDecimal(text)
+	return d, err == nil
+}
+
+// appendContent appends the normalized content of Fingerprint to b; pre (may be nil) is
+// what the rules parsed already.
+func appendContent(b []byte, r *Record, pre *parsedContent) []byte {
+	var total, fill *parsedDecimal
+	unit, unitState := UnitUnspecified, notParsed
+	if pre != nil {
+		total, fill, unit, unitState = &pre.total, &pre.fill, pre.unit, pre.unitState
+	}
 	b = append(b, fingerprintVersion...)
 	b = fpField(b, strings.TrimSpace(r.CompanyID))
 	b = fpField(b, r.Direction.String())
@@ -69,10 +117,17 @@ func appendContent(b []byte, r *Record) []byte {
 	b = fpDigits(b, r.HSCode)
 	b = fpField(b, strings.TrimSpace(r.CAS))
 	b = fpField(b, strings.TrimSpace(r.Formula))
-	b = fpDecimal(b, r.TotalQuantity)
-	b = fpDecimal(b, r.FillPerPackage)
-	if u, err := ParseUnit(r.Unit); err == nil {
-		b = fpField(b, u.String())
+	b = fpDecimal(b, r.TotalQuantity, total)
+	b = fpDecimal(b, r.FillPerPackage, fill)
+	if unitState == notParsed {
+		u, err := ParseUnit(r.Unit)
+		unit, unitState = u, parsedOK
+		if err != nil {
+			unitState = parseFailed
+		}
+	}
+	if unitState == parsedOK {
+		b = fpField(b, unit.String())
 	} else {
 		b = fpField(b, strings.ToLower(strings.TrimSpace(r.Unit)))
 	}
@@ -179,5 +234,30 @@ func normName(s string) string {
 	if clean {
 		return s
 	}
-	return strings.Join(strings.Fields(strings.ToLower(s)), " ")
+	return foldName(s)
+}
+
+// foldName is strings.Join(strings.Fields(strings.ToLower(s)), " ") in one pass when s is
+// ASCII (as identifiers are); other text takes that path.
+func foldName(s string) string {
+	b := make([]byte, 0, len(s))
+	space := false // a space is due before the next word
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		switch {
+		case c >= utf8.RuneSelf:
+			return strings.Join(strings.Fields(strings.ToLower(s)), " ")
+		case c == ' ' || c == '\t' || c == '\n' || c == '\v' || c == '\f' || c == '\r':
+			space = len(b) > 0
+			continue
+		case c >= 'A' && c <= 'Z':
+			c += 'a' - 'A'
+		}
+		if space {
+			b = append(b, ' ')
+			space = false
+		}
+		b = append(b, c)
+	}
+	return string(b)
 }

@@ -1,7 +1,9 @@
 package validate
 
 import (
+	"hash/maphash"
 	"regexp"
+	"strings"
 	"testing"
 
 	"github.com/halovet/halovet/terms"
@@ -75,5 +77,50 @@ func TestFingerprintNormalizes(t *testing.T) {
 	b.CAS, b.Formula = "a", "bc"
 	if Fingerprint(&a) == Fingerprint(&b) {
 		t.Error("moving text between adjacent fields must change the fingerprint")
+	}
+}
+
+// TestContentFromTheRulesParsing: the content hash and Fingerprint reuse what the
+// quantity rules parsed (the total, the fill and the unit); over quantities that parse,
+// fail, carry a sign, are zero, negative or padded, and units known, unknown or empty,
+// they are those of the record parsed afresh.
+func TestContentFromTheRulesParsing(t *testing.T) {
+	env := testEnv(t)
+	seed := maphash.MakeSeed()
+	quantities := []string{"", "10", " 10.50 ", "+5", "-3", "0", "1,5", "abc", "1e3", ".5", "0000.000"}
+	units := []string{"kg", " KGS ", "t", "lb", "", "stone"}
+	n := 0
+	for _, total := range quantities {
+		for _, fill := range quantities {
+			for _, unit := range units {
+				for _, packages := range []int64{0, 4, -1} {
+					r := baseRecord()
+					r.TotalQuantity, r.FillPerPackage, r.Unit, r.PackageCount = total, fill, unit, packages
+					c := checker{env: env, r: &r, seed: &seed}
+					c.rules()
+					if want := contentHash(seed, &r, nil); c.fpHash != want {
+						t.Errorf("total %q fill %q unit %q packages %d: content hash from the rules' parsing differs from the record's", total, fill, unit, packages)
+					}
+					if got, want := Check(env, &r, nil).Fingerprint, Fingerprint(&r); got != want {
+						t.Errorf("total %q fill %q unit %q packages %d: Check's fingerprint %s; Fingerprint gives %s", total, fill, unit, packages, got, want)
+					}
+					n++
+				}
+			}
+		}
+	}
+	if n != len(quantities)*len(quantities)*len(units)*3 {
+		t.Fatalf("checked %d records", n)
+	}
+}
+
+// TestFoldNameIsFieldsOfLower: the one-pass folding of names gives what lower-casing and
+// collapsing the white space gives, for ASCII names with every kind of white space and for
+// names outside ASCII.
+func TestFoldNameIsFieldsOfLower(t *testing.T) {
+	for _, s := range []string{"HFC-125", "  R-404A ", "r 404\tA", "R\n\v\f\r 22", "Ä HFC", "hfc\u00a0134a", "A  B   C", " \t ", "", "x", "MIXED case Name"} {
+		if got, want := foldName(s), strings.Join(strings.Fields(strings.ToLower(s)), " "); got != want {
+			t.Errorf("foldName(%q) = %q; want %q", s, got, want)
+		}
 	}
 }

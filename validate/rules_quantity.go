@@ -35,7 +35,8 @@ const (
 
 // parseQty reads one of the decimal quantity fields; ok is false (and a finding added) when
 // the text is not a decimal above zero. Empty text gives ok false and no finding.
-func (c *checker) parseQty(field, text string) (Decimal, bool) {
+// The result of ParseDecimal, when it is called, is kept in memo for the content hash.
+func (c *checker) parseQty(field, text string, memo *parsedDecimal) (Decimal, bool) {
 	q := strings.TrimSpace(text)
 	if q == "" {
 		return Decimal{}, false
@@ -45,6 +46,10 @@ func (c *checker) parseQty(field, text string) (Decimal, bool) {
 		return Decimal{}, false
 	}
 	v, err := ParseDecimal(q)
+	memo.d, memo.state = v, parsedOK
+	if err != nil {
+		memo.state = parseFailed
+	}
 	switch {
 	case err != nil:
 		c.add(CodeQtyFormat, field, "%s: %v", field, err)
@@ -66,12 +71,16 @@ func (c *checker) parseQty(field, text string) (Decimal, bool) {
 func (c *checker) quantityRules() {
 	r := c.r
 	totalText, fillText := strings.TrimSpace(r.TotalQuantity), strings.TrimSpace(r.FillPerPackage)
-	total, totalOK := c.parseQty(fieldTotal, totalText)
-	fill, fillOK := c.parseQty(fieldFill, fillText)
+	total, totalOK := c.parseQty(fieldTotal, totalText, &c.parsed.total)
+	fill, fillOK := c.parseQty(fieldFill, fillText, &c.parsed.fill)
 	if totalText == "" && fillText == "" {
 		c.add(CodeQtyMissing, fieldTotal, "%s is empty; write the total net mass as a decimal number with a dot, e.g. 1250.5 (or give %s with %s)", fieldTotal, fieldFill, fieldPackages)
 	}
 	u, err := ParseUnit(r.Unit)
+	c.parsed.unit, c.parsed.unitState = u, parsedOK
+	if err != nil {
+		c.parsed.unitState = parseFailed
+	}
 	switch {
 	case err != nil:
 		c.add(CodeQtyUnitUnknown, fieldUnit, "%s: %v", fieldUnit, err)
