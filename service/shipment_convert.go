@@ -1,6 +1,7 @@
 package service
 
 import (
+	"math"
 	"strconv"
 	"sync"
 
@@ -21,13 +22,56 @@ func RecordToProto(r *validate.Record) *halovetv1.ShipmentRecord {
 		DeclarationDate: r.DeclarationDate, Substance: r.Substance, DeclaredHsCode: r.HSCode,
 		DeclaredCasNumber: r.CAS, DeclaredFormula: r.Formula, TotalNetQuantity: r.TotalQuantity, QuantityUnit: r.Unit,
 		PackageCount: r.PackageCount, NetFillPerPackage: r.FillPerPackage, Purpose: wireterms.PurposeToWire(r.Purpose), Condition: wireterms.ConditionToWire(r.Condition)}
-	for _, s := range r.Composition {
-		p.DeclaredComposition = append(p.DeclaredComposition, &halovetv1.MixtureShare{Identifier: s.Identifier, MassPercent: stored(s.MassPct)})
+	if len(r.Composition) > 0 {
+		shares := make([]halovetv1.MixtureShare, len(r.Composition)) // one allocation for the shares
+		p.DeclaredComposition = make([]*halovetv1.MixtureShare, len(r.Composition))
+		for i, s := range r.Composition {
+			shares[i].Identifier, shares[i].MassPercent = s.Identifier, shareText.get(math.Float64bits(s.MassPct), storedBits)
+			p.DeclaredComposition[i] = &shares[i]
+		}
 	}
 	for _, s := range r.Measured {
 		p.MeasuredComposition = append(p.MeasuredComposition, &halovetv1.MeasuredShare{Identifier: s.Identifier, MassPercent: stored(s.MassPct), UncertaintyPoints: stored(s.Uncertainty)})
 	}
 	return p
+}
+
+// shareText and shareFloat remember the wire text of the declared shares and the floats
+// it reads as (stored and wireFloat, which go through an exact decimal each time): a
+// batch declares the same few compositions again and again.
+var (
+	shareText  = newMemo[uint64, string](1024) // by the float's bits
+	shareFloat = newMemo[string, float64](1024)
+)
+
+// storedBits is stored of the float with bits b.
+func storedBits(b uint64) string { return stored(math.Float64frombits(b)) }
+
+// memo remembers the answers of a pure function, at most max of them; beyond, the
+// function is called each time.
+type memo[K comparable, V any] struct {
+	mu  sync.RWMutex
+	m   map[K]V
+	max int
+}
+
+func newMemo[K comparable, V any](max int) *memo[K, V] { return &memo[K, V]{m: map[K]V{}, max: max} }
+
+// get is f(k), remembered.
+func (c *memo[K, V]) get(k K, f func(K) V) V {
+	c.mu.RLock()
+	v, ok := c.m[k]
+	c.mu.RUnlock()
+	if ok {
+		return v
+	}
+	v = f(k)
+	c.mu.Lock()
+	if len(c.m) < c.max {
+		c.m[k] = v
+	}
+	c.mu.Unlock()
+	return v
 }
 
 // recordFromProto maps a wire record to the checker's record (enums by wireterms; see
@@ -40,7 +84,7 @@ func recordFromProto(p *halovetv1.ShipmentRecord) validate.Record {
 		Unit: p.GetQuantityUnit(), PackageCount: p.GetPackageCount(), FillPerPackage: p.GetNetFillPerPackage(), Purpose: recordPurpose(p.GetPurpose()),
 		Condition: recordCondition(p.GetCondition())}
 	for _, s := range p.GetDeclaredComposition() {
-		r.Composition = append(r.Composition, validate.DeclaredShare{Identifier: s.GetIdentifier(), MassPct: wireFloat(s.GetMassPercent())})
+		r.Composition = append(r.Composition, validate.DeclaredShare{Identifier: s.GetIdentifier(), MassPct: shareFloat.get(s.GetMassPercent(), wireFloat)})
 	}
 	for _, s := range p.GetMeasuredComposition() {
 		r.Measured = append(r.Measured, validate.MeasuredShare{Identifier: s.GetIdentifier(), MassPct: wireFloat(s.GetMassPercent()), Uncertainty: wireFloat(s.GetUncertaintyPoints())})
