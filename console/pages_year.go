@@ -2,7 +2,6 @@ package console
 
 import (
 	"bytes"
-	"encoding/json"
 	"fmt"
 	"html/template"
 	"net/http"
@@ -10,10 +9,9 @@ import (
 	"strconv"
 	"strings"
 
-	"google.golang.org/protobuf/encoding/protojson"
-
 	"github.com/halovet/halovet/chart"
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -225,8 +223,10 @@ func (c *Console) yearChart(w http.ResponseWriter, r *http.Request, rq *request,
 	_, _ = w.Write(b.Bytes())
 }
 
-// yearReportJSON downloads the annual data report of a year as the API's response in
-// JSON; the report holds no time of computation, so the same register gives the same bytes.
+// yearReportJSON downloads the annual data report of a year in the project's JSON dialect
+// (package wirejson): the same bytes as 'halovet year-report --output json' and the
+// report.json of 'halovet year-report --dir'. The report holds no time of computation, so
+// the same register gives the same bytes.
 func (c *Console) yearReportJSON(w http.ResponseWriter, r *http.Request, rq *request) {
 	raw := strings.TrimSpace(r.URL.Query().Get("year"))
 	y, err := strconv.Atoi(raw)
@@ -239,20 +239,13 @@ func (c *Console) yearReportJSON(w http.ResponseWriter, r *http.Request, rq *req
 		c.callFailed(w, r, rq, fmt.Sprintf("computing the annual data report of %d", y), err)
 		return
 	}
-	// protojson varies its spacing on purpose; indenting its compact form gives the same
-	// bytes for the same report.
-	raw2, err := protojson.Marshal(rep)
 	var b bytes.Buffer
-	if err == nil {
-		err = json.Indent(&b, raw2, "", "  ")
-	}
-	if err != nil {
+	if err := wirejson.Doc(&b, rep); err != nil {
 		c.fail(w, r, rq.s, http.StatusInternalServerError, "The report could not be written", err.Error())
 		return
 	}
 	w.Header().Set("Content-Type", "application/json")
 	w.Header().Set("Content-Disposition", fmt.Sprintf("attachment; filename=%q", fmt.Sprintf("year-report-%d.json", y)))
-	b.WriteByte('\n')
 	_, _ = w.Write(b.Bytes())
 }
 

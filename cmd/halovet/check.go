@@ -23,6 +23,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/terms"
@@ -687,7 +688,7 @@ func writeSummaryJSON(w io.Writer, s *validate.Summary, recorded bool, rejected 
 		pb.Recorded = s.Accepted + s.AcceptedWithWarnings - s.Replayed
 	}
 	var summary bytes.Buffer
-	if err := jsonDoc(&summary, pb); err != nil {
+	if err := wirejson.Doc(&summary, pb); err != nil {
 		return err
 	}
 	lines, err := json.MarshalIndent(rejected.lines(), "  ", "  ")
