@@ -219,16 +219,8 @@ func (c *Console) runStream(ctx context.Context, b *batch) ([]batchRow, *validat
 	}
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
-	items := make(chan shipstream.Item, 4096)
 	var counts shipstream.Counts
-	var sendErr error
-	var wg sync.WaitGroup
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		defer close(items)
-		sendErr = shipstream.Send(ctx, rd, st, items, &counts, batchPerMessage)
-	}()
+	items, waitSent := shipstream.Start(ctx, rd, st, &counts, batchPerMessage)
 	sum := validate.NewSummary()
 	var rows []batchRow
 	var recvErr error
@@ -254,8 +246,7 @@ func (c *Console) runStream(ctx context.Context, b *batch) ([]batchRow, *validat
 	}
 	for range items { // drain after an error so the sender can finish
 	}
-	wg.Wait()
-	if sendErr != nil {
+	if sendErr := waitSent(); sendErr != nil {
 		return nil, nil, 0, sendErr
 	}
 	if recvErr != nil {

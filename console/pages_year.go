@@ -11,6 +11,7 @@ import (
 
 	"github.com/halovet/halovet/chart"
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/internal/registryview"
 	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
@@ -175,18 +176,9 @@ func chartAlt(c chart.Compliance) string {
 	return s + " The table below gives every figure."
 }
 
+// partyName is the reporting Party's name, for the chart's title; "" when none is set.
 func (c *Console) partyName(r *http.Request, rq *request) (string, error) {
-	resp, err := halovetv1.ReadAllPages(c.ctx(r, rq, rpcAssess), c.licensingClient().ListParties,
-		&halovetv1.ListPartiesRequest{PageSize: readAllPageSize}, "parties")
-	if err != nil {
-		return "", err
-	}
-	for _, p := range resp.GetParties() {
-		if p.GetReportingParty() {
-			return p.GetName(), nil
-		}
-	}
-	return "", nil
+	return registryview.ReportingPartyName(c.ctx(r, rq, rpcAssess), c.licensingClient(), readAllPageSize)
 }
 
 func (c *Console) yearChart(w http.ResponseWriter, r *http.Request, rq *request, asPNG bool) {

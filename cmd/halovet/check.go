@@ -13,7 +13,6 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
-	"sync"
 	"sync/atomic"
 	"text/tabwriter"
 	"time"
@@ -248,22 +247,13 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	}
 
 	// The sender reads the file and sends; the items channel carries the order to the
-	// receiver. Its capacity bounds memory, and exceeds the server's write batch so that
-	// a recording stream always has enough records in flight to fill one.
-	items := make(chan shipstream.Item, 4096)
+	// receiver.
+	pm := o.perMessage
+	if pm <= 0 {
+		pm = defaultPerMessage
+	}
 	var counts shipstream.Counts // records sent to the server; lines read, sent or answered here
-	var sendErr error
-	var wg sync.WaitGroup
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		defer close(items)
-		pm := o.perMessage
-		if pm <= 0 {
-			pm = defaultPerMessage
-		}
-		sendErr = shipstream.Send(ctx, rd, stream, items, &counts, pm)
-	}()
+	items, waitSent := shipstream.Start(ctx, rd, stream, &counts, pm)
 
 	var done atomic.Int64
 	stopProgress := startProgress(o.progress, stderr, cr, size, &counts.Read, &done)
@@ -306,7 +296,7 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	}
 	for range items { // drain after an error so the sender can finish
 	}
-	wg.Wait()
+	sendErr := waitSent()
 	stopProgress()
 	sent := counts.Sent.Load()
 	if recvErr == nil && sendErr == nil {

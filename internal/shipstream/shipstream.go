@@ -139,6 +139,32 @@ func Send(ctx context.Context, rd validate.RecordReader, st Stream, items chan<-
 	}
 }
 
+// itemsInFlight is the capacity of Start's items channel: it bounds memory, and exceeds
+// the server's write batch so that a recording stream always has enough records in flight
+// to fill one.
+const itemsInFlight = 4096
+
+// Start runs Send in a goroutine of its own and returns the items it sends, in the file's
+// order, on a channel closed when Send returns. The receiver reads the items to the end
+// (draining them after an error, with ctx cancelled, so that Send can finish), then calls
+// wait for Send's error.
+func Start(ctx context.Context, rd validate.RecordReader, st Stream, c *Counts, perMessage int) (items <-chan Item, wait func() error) {
+	ch := make(chan Item, itemsInFlight)
+	done := make(chan error, 1)
+	go func() {
+		defer close(ch)
+		done <- Send(ctx, rd, st, ch, c, perMessage)
+	}()
+	var err error
+	var waited bool
+	return ch, func() error {
+		if !waited {
+			err, waited = <-done, true
+		}
+		return err
+	}
+}
+
 // Answers hands out the server's verdicts one at a time, in the records' order.
 type Answers struct {
 	st    Stream

@@ -1,19 +1,14 @@
 package shipstream_test
 
 import (
-	"context"
-	"io"
-	"log/slog"
-	"net"
 	"strings"
 	"testing"
-	"time"
 
+	"github.com/halovet/halovet/internal/servertest"
 	"github.com/halovet/halovet/internal/shipstream"
 	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
-	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -24,48 +19,13 @@ func TestMain(m *testing.M) { pgtest.Main(m) }
 // no companies, no licences. It returns a client of ShipmentService.
 func startServer(t *testing.T) halovetv1.ShipmentServiceClient {
 	t.Helper()
-	ctx := context.Background()
-	url := pgtest.NewDatabase(t, "halovet_shipstream", func(ctx context.Context, url string) error {
-		_, err := store.Migrate(ctx, url)
-		return err
-	})
-	st, err := store.Open(ctx, url)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(st.Close)
-	log := slog.New(slog.NewTextHandler(io.Discard, nil))
-	cat, err := service.LoadCatalogue(ctx, st, log)
-	if err != nil {
-		t.Fatal(err)
-	}
-	srv := service.New(st, cat, service.Options{Logger: log, GracePeriod: 5 * time.Second, OpenAccess: true})
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	serveCtx, cancel := context.WithCancel(context.Background())
-	served := make(chan error, 1)
-	go func() { served <- srv.Serve(serveCtx, lis) }()
-	t.Cleanup(func() {
-		cancel()
-		select {
-		case <-served:
-		case <-time.After(15 * time.Second):
-			t.Errorf("the server did not stop within 15 s")
-		}
-	})
-	conn, err := srv.InProcessConn()
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { _ = conn.Close() })
-	if _, err := halovetv1.NewLicensingServiceClient(conn).PutParty(ctx, &halovetv1.PutPartyRequest{Party: &halovetv1.Party{
+	ts := servertest.Start(t, "halovet_shipstream", service.Options{OpenAccess: true})
+	if _, err := halovetv1.NewLicensingServiceClient(ts.Conn).PutParty(t.Context(), &halovetv1.PutPartyRequest{Party: &halovetv1.Party{
 		CountryCode: "XA", Name: "Xandria (invented)", PartyType: halovetv1.PartyType_PARTY_TYPE_ARTICLE_5,
 		HfcGroup: halovetv1.HfcGroup_HFC_GROUP_A5_GROUP_1, ReportingParty: true}}); err != nil {
 		t.Fatal(err)
 	}
-	return halovetv1.NewShipmentServiceClient(conn)
+	return halovetv1.NewShipmentServiceClient(ts.Conn)
 }
 
 // batch is an invented file: five records the server answers, a line with too few fields
@@ -94,13 +54,8 @@ func run(t *testing.T, st shipstream.Stream, perMessage int) ([]answered, *ships
 	if err != nil {
 		t.Fatal(err)
 	}
-	items := make(chan shipstream.Item, 16)
 	var counts shipstream.Counts
-	sendErr := make(chan error, 1)
-	go func() {
-		defer close(items)
-		sendErr <- shipstream.Send(t.Context(), rd, st, items, &counts, perMessage)
-	}()
+	items, wait := shipstream.Start(t.Context(), rd, st, &counts, perMessage)
 	answers := shipstream.NewAnswers(st)
 	var out []answered
 	for it := range items {
@@ -114,7 +69,7 @@ func run(t *testing.T, st shipstream.Stream, perMessage int) ([]answered, *ships
 		}
 		out = append(out, answered{remote: v})
 	}
-	if err := <-sendErr; err != nil {
+	if err := wait(); err != nil {
 		t.Fatal(err)
 	}
 	return out, answers, &counts
