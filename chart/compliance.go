@@ -2,7 +2,6 @@ package chart
 
 import (
 	"fmt"
-	"github.com/halovet/halovet/service/wireterms"
 	"math"
 	"strconv"
 	"strings"
@@ -10,6 +9,7 @@ import (
 	"github.com/halovet/halovet/controls"
 	"github.com/halovet/halovet/exact"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 // Year is one year's figures as the chart reads them. The figures are the nearest floats of

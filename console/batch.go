@@ -2,7 +2,6 @@ package console
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"io"
 	"sort"
@@ -11,9 +10,8 @@ import (
 	"sync/atomic"
 	"time"
 
-	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/internal/shipstream"
 	"github.com/halovet/halovet/service"
-	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -185,53 +183,6 @@ func (c countingReader) Read(p []byte) (int, error) {
 	return n, err
 }
 
-// stream is what a batch needs of the two streaming calls.
-type stream interface {
-	send([]*halovetv1.ShipmentRecord) error
-	closeSend() error
-	recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error)
-}
-
-type checkStream struct {
-	s halovetv1.ShipmentService_CheckShipmentsClient
-}
-
-func (c checkStream) send(r []*halovetv1.ShipmentRecord) error {
-	return c.s.Send(&halovetv1.CheckShipmentsRequest{Records: r})
-}
-func (c checkStream) closeSend() error { return c.s.CloseSend() }
-func (c checkStream) recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
-	m, err := c.s.Recv()
-	return verdictsOf(m.GetVerdict(), m.GetVerdicts()), m.GetSummary(), err
-}
-
-type recordStream struct {
-	s halovetv1.ShipmentService_RecordShipmentsClient
-}
-
-func (c recordStream) send(r []*halovetv1.ShipmentRecord) error {
-	return c.s.Send(&halovetv1.RecordShipmentsRequest{Records: r})
-}
-func (c recordStream) closeSend() error { return c.s.CloseSend() }
-func (c recordStream) recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
-	m, err := c.s.Recv()
-	return verdictsOf(m.GetVerdict(), m.GetVerdicts()), m.GetSummary(), err
-}
-
-func verdictsOf(one *halovetv1.Verdict, many *halovetv1.VerdictBatch) []*halovetv1.Verdict {
-	if one != nil {
-		return []*halovetv1.Verdict{one}
-	}
-	return many.GetVerdicts()
-}
-
-// item is one line of the file in order: answered here (a line that could not be read)
-// or by the server.
-type item struct {
-	local     *validate.Verdict
-	direction terms.Direction
-}
-
 // run checks or records the batch; it ends with the batch finished, with its rows and
 // summary or its error.
 func (c *Console) run(ctx context.Context, b *batch) {
@@ -252,136 +203,63 @@ func (c *Console) runStream(ctx context.Context, b *batch) ([]batchRow, *validat
 	if err != nil {
 		return nil, nil, 0, fmt.Errorf("%s: %w", b.FileName, err)
 	}
-	var st stream
+	var st shipstream.Stream
 	if b.Kind == batchRecord {
 		s, err := c.shipmentClient().RecordShipments(ctx)
 		if err != nil {
 			return nil, nil, 0, err
 		}
-		st = recordStream{s}
+		st = shipstream.Record(s)
 	} else {
 		s, err := c.shipmentClient().CheckShipments(ctx)
 		if err != nil {
 			return nil, nil, 0, err
 		}
-		st = checkStream{s}
+		st = shipstream.Check(s, false)
 	}
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
-	items := make(chan item, 4096)
-	var sent atomic.Int64
-	var sendErr error
-	var wg sync.WaitGroup
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		defer close(items)
-		sendErr = sendAll(ctx, rd, st, items, &sent)
-	}()
+	var counts shipstream.Counts
+	items, waitSent := shipstream.Start(ctx, rd, st, &counts, batchPerMessage)
 	sum := validate.NewSummary()
 	var rows []batchRow
-	var queue []*halovetv1.Verdict
 	var recvErr error
+	answers := shipstream.NewAnswers(st)
 	for it := range items {
 		row := batchRow{}
-		if it.local != nil {
-			row.V = *it.local
+		if it.Local != nil {
+			row.V = *it.Local
 		} else {
-			for len(queue) == 0 && recvErr == nil {
-				vs, _, err := st.recv()
-				if err == nil && len(vs) == 0 {
-					err = errors.New("the server ended the stream before answering every record")
-				}
+			pv, err := answers.Next()
+			if err != nil {
 				recvErr = err
-				queue = vs
-			}
-			if recvErr != nil {
 				cancel()
 				break
 			}
-			row.V = service.VerdictFromProto(queue[0])
-			row.Recorded = queue[0].GetRecorded()
-			row.ShipmentID = queue[0].GetShipmentId()
-			queue = queue[1:]
+			row.V = service.VerdictFromProto(pv)
+			row.Recorded = pv.GetRecorded()
+			row.ShipmentID = pv.GetShipmentId()
 		}
-		sum.Add(&row.V, it.direction)
+		sum.Add(&row.V, it.Direction)
 		rows = append(rows, row)
 		b.done.Add(1)
 	}
 	for range items { // drain after an error so the sender can finish
 	}
-	wg.Wait()
-	if sendErr != nil {
+	if sendErr := waitSent(); sendErr != nil {
 		return nil, nil, 0, sendErr
 	}
 	if recvErr != nil {
 		return nil, nil, 0, recvErr
 	}
-	_, ps, err := st.recv()
-	switch {
-	case err != nil:
+	ps, err := answers.Summary(counts.Sent.Load())
+	if err != nil {
 		return nil, nil, 0, err
-	case ps == nil:
-		return nil, nil, 0, errors.New("the server sent no summary")
-	case ps.GetRecords() != sent.Load():
-		return nil, nil, 0, fmt.Errorf("the server counted %d records, %d were sent", ps.GetRecords(), sent.Load())
 	}
 	if sum.Records == 0 {
 		return nil, nil, 0, fmt.Errorf("%s holds no records (blank and # comment lines are skipped)", b.FileName)
 	}
 	return rows, sum, ps.GetRecorded(), nil
-}
-
-// sendAll reads the records and sends them; lines that cannot be read are answered here
-// and never sent, so nothing from a bad line is recorded.
-func sendAll(ctx context.Context, rd validate.RecordReader, st stream, items chan<- item, sent *atomic.Int64) error {
-	buf := make([]*halovetv1.ShipmentRecord, 0, batchPerMessage)
-	flush := func() error {
-		if len(buf) == 0 {
-			return nil
-		}
-		err := st.send(buf)
-		sent.Add(int64(len(buf)))
-		buf = make([]*halovetv1.ShipmentRecord, 0, batchPerMessage)
-		if errors.Is(err, io.EOF) {
-			return nil // the server ended the call; the receiver reports why
-		}
-		return err
-	}
-	for {
-		rec, lerr, err := rd.Next()
-		if errors.Is(err, io.EOF) {
-			if err := flush(); err != nil {
-				return err
-			}
-			return st.closeSend()
-		}
-		if err != nil {
-			return fmt.Errorf("reading the file: %w", err)
-		}
-		var it item
-		switch {
-		case lerr != nil:
-			v := validate.LineErrorVerdict(lerr)
-			it.local = &v
-		case len(rec.Unreadable) > 0:
-			v := validate.UnreadableVerdict(&rec)
-			it.local = &v
-		default:
-			buf = append(buf, service.RecordToProto(&rec))
-			it.direction = rec.Direction
-		}
-		select {
-		case items <- it:
-		case <-ctx.Done():
-			return nil
-		}
-		if len(buf) >= batchPerMessage {
-			if err := flush(); err != nil {
-				return err
-			}
-		}
-	}
 }
 
 // codesOf lists the finding codes of the rows, sorted.

@@ -7,7 +7,6 @@ import (
 	"encoding/json"
 	"io"
 	"log/slog"
-	"net"
 	"net/http"
 	"net/http/cookiejar"
 	"net/http/httptest"
@@ -26,6 +25,7 @@ import (
 
 	"github.com/halovet/halovet/access"
 	"github.com/halovet/halovet/console"
+	"github.com/halovet/halovet/internal/servertest"
 	"github.com/halovet/halovet/pglocal/pgtest"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
@@ -79,19 +79,9 @@ func quiet() *slog.Logger {
 func newHarness(t testing.TB, tls bool) *harness {
 	t.Helper()
 	ctx := context.Background()
-	dbURL := pgtest.NewDatabase(t, "halovet_console", func(ctx context.Context, url string) error {
-		_, err := store.Migrate(ctx, url)
-		return err
-	})
-	st, err := store.Open(ctx, dbURL)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(st.Close)
-	holder, err := service.LoadCatalogue(ctx, st, quiet())
-	if err != nil {
-		t.Fatal(err)
-	}
+	srvT := servertest.Start(t, "halovet_console", service.Options{Logger: quiet(),
+		HealthInterval: 200 * time.Millisecond, Now: func() time.Time { return demoToday }})
+	st, srv := srvT.Store, srvT.Server
 	secrets := map[string]string{}
 	issue := func(role string) {
 		_, secret, err := st.IssueCredential(ctx, testCredentials[role])
@@ -101,23 +91,6 @@ func newHarness(t testing.TB, tls bool) *harness {
 		secrets[role] = secret
 	}
 	issue("officer") // first: it loads the demo registry, which the trader's company is in
-	srv := service.New(st, holder, service.Options{Logger: quiet(), GracePeriod: 5 * time.Second,
-		HealthInterval: 200 * time.Millisecond, Now: func() time.Time { return demoToday }})
-	lis, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	serveCtx, cancel := context.WithCancel(context.Background())
-	served := make(chan error, 1)
-	go func() { served <- srv.Serve(serveCtx, lis) }()
-	t.Cleanup(func() {
-		cancel()
-		select {
-		case <-served:
-		case <-time.After(15 * time.Second):
-			t.Errorf("the server did not stop within 15 s")
-		}
-	})
 	conn, err := srv.InProcessConn()
 	if err != nil {
 		t.Fatal(err)

@@ -125,16 +125,27 @@ func (c *Console) shipmentID(w http.ResponseWriter, r *http.Request, rq *request
 	return id, true
 }
 
-// voidShipment voids a live recorded shipment with the reason the form gives: its quota
-// draws are given back and it leaves consumption (VoidShipment).
-func (c *Console) voidShipment(w http.ResponseWriter, r *http.Request, rq *request) {
+// shipmentAndReason reads the shipment id of the path and the form's reason, which a
+// change must give; it answers the request itself and says false when either is missing.
+// done is what the change does to the shipment ("voided", "corrected").
+func (c *Console) shipmentAndReason(w http.ResponseWriter, r *http.Request, rq *request, done string) (int64, string, bool) {
 	id, ok := c.shipmentID(w, r, rq)
 	if !ok {
-		return
+		return 0, "", false
 	}
 	reason := strings.TrimSpace(r.PostFormValue("reason"))
 	if reason == "" {
-		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", "reason: say why the shipment is voided (it is kept in the register and the audit log). Nothing was changed.")
+		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", "reason: say why the shipment is "+done+" (it is kept in the register and the audit log). Nothing was changed.")
+		return 0, "", false
+	}
+	return id, reason, true
+}
+
+// voidShipment voids a live recorded shipment with the reason the form gives: its quota
+// draws are given back and it leaves consumption (VoidShipment).
+func (c *Console) voidShipment(w http.ResponseWriter, r *http.Request, rq *request) {
+	id, reason, ok := c.shipmentAndReason(w, r, rq, "voided")
+	if !ok {
 		return
 	}
 	if _, err := c.shipmentClient().VoidShipment(c.ctx(r, rq, rpcVoidShipment), &halovetv1.VoidShipmentRequest{
@@ -150,13 +161,8 @@ func (c *Console) voidShipment(w http.ResponseWriter, r *http.Request, rq *reque
 // a new record, its quota moved exactly in one transaction, both versions kept. A correction
 // that breaks a rule is refused with the server's reason and nothing changes.
 func (c *Console) correctShipment(w http.ResponseWriter, r *http.Request, rq *request) {
-	id, ok := c.shipmentID(w, r, rq)
+	id, reason, ok := c.shipmentAndReason(w, r, rq, "corrected")
 	if !ok {
-		return
-	}
-	reason := strings.TrimSpace(r.PostFormValue("reason"))
-	if reason == "" {
-		c.fail(w, r, rq.s, http.StatusBadRequest, "Not accepted", "reason: say why the shipment is corrected (it is kept in the register and the audit log). Nothing was changed.")
 		return
 	}
 	got, err := c.shipmentClient().GetShipment(c.ctx(r, rq, rpcGetShipment), &halovetv1.GetShipmentRequest{ShipmentId: id})

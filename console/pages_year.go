@@ -2,7 +2,6 @@ package console
 
 import (
 	"bytes"
-	"encoding/json"
 	"fmt"
 	"html/template"
 	"net/http"
@@ -10,10 +9,10 @@ import (
 	"strconv"
 	"strings"
 
-	"google.golang.org/protobuf/encoding/protojson"
-
 	"github.com/halovet/halovet/chart"
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/internal/registryview"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -177,18 +176,9 @@ func chartAlt(c chart.Compliance) string {
 	return s + " The table below gives every figure."
 }
 
+// partyName is the reporting Party's name, for the chart's title; "" when none is set.
 func (c *Console) partyName(r *http.Request, rq *request) (string, error) {
-	resp, err := halovetv1.ReadAllPages(c.ctx(r, rq, rpcAssess), c.licensingClient().ListParties,
-		&halovetv1.ListPartiesRequest{PageSize: readAllPageSize}, "parties")
-	if err != nil {
-		return "", err
-	}
-	for _, p := range resp.GetParties() {
-		if p.GetReportingParty() {
-			return p.GetName(), nil
-		}
-	}
-	return "", nil
+	return registryview.ReportingPartyName(c.ctx(r, rq, rpcAssess), c.licensingClient(), readAllPageSize)
 }
 
 func (c *Console) yearChart(w http.ResponseWriter, r *http.Request, rq *request, asPNG bool) {
@@ -225,8 +215,10 @@ func (c *Console) yearChart(w http.ResponseWriter, r *http.Request, rq *request,
 	_, _ = w.Write(b.Bytes())
 }
 
-// yearReportJSON downloads the annual data report of a year as the API's response in
-// JSON; the report holds no time of computation, so the same register gives the same bytes.
+// yearReportJSON downloads the annual data report of a year in the project's JSON dialect
+// (package wirejson): the same bytes as 'halovet year-report --output json' and the
+// report.json of 'halovet year-report --dir'. The report holds no time of computation, so
+// the same register gives the same bytes.
 func (c *Console) yearReportJSON(w http.ResponseWriter, r *http.Request, rq *request) {
 	raw := strings.TrimSpace(r.URL.Query().Get("year"))
 	y, err := strconv.Atoi(raw)
@@ -239,20 +231,13 @@ func (c *Console) yearReportJSON(w http.ResponseWriter, r *http.Request, rq *req
 		c.callFailed(w, r, rq, fmt.Sprintf("computing the annual data report of %d", y), err)
 		return
 	}
-	// protojson varies its spacing on purpose; indenting its compact form gives the same
-	// bytes for the same report.
-	raw2, err := protojson.Marshal(rep)
 	var b bytes.Buffer
-	if err == nil {
-		err = json.Indent(&b, raw2, "", "  ")
-	}
-	if err != nil {
+	if err := wirejson.Doc(&b, rep); err != nil {
 		c.fail(w, r, rq.s, http.StatusInternalServerError, "The report could not be written", err.Error())
 		return
 	}
 	w.Header().Set("Content-Type", "application/json")
 	w.Header().Set("Content-Disposition", fmt.Sprintf("attachment; filename=%q", fmt.Sprintf("year-report-%d.json", y)))
-	b.WriteByte('\n')
 	_, _ = w.Write(b.Bytes())
 }
 

@@ -38,18 +38,30 @@ func TestYearReport(t *testing.T) {
 		t.Errorf("C/I totals %v; want imports 69, consumption 69 t and 4.29 ODP t", cells)
 	}
 
-	// The JSON download: the API's response, the same bytes twice.
+	// The JSON download: the project's JSON dialect (snake_case keys, zeros kept, enums as
+	// words), the same bytes twice.
 	j := c.get("/console/year/report.json?year=2025")
 	if j.code != 200 || j.hdr.Get("Content-Type") != "application/json" || !strings.Contains(j.hdr.Get("Content-Disposition"), "year-report-2025.json") {
 		t.Fatalf("report.json: %d %s %s", j.code, j.hdr.Get("Content-Type"), j.hdr.Get("Content-Disposition"))
 	}
 	var rep struct {
-		Year   int
-		State  string
-		Groups []struct{ AnnexGroup string }
+		Year   int    `json:"year"`
+		State  string `json:"state"`
+		Groups []struct {
+			AnnexGroup string `json:"annex_group"`
+			HasData    *bool  `json:"has_data"`
+		} `json:"groups"`
 	}
-	if err := json.Unmarshal([]byte(j.body), &rep); err != nil || rep.Year != 2025 || rep.State != "REPORT_STATE_PROVISIONAL" || len(rep.Groups) == 0 {
+	if err := json.Unmarshal([]byte(j.body), &rep); err != nil || rep.Year != 2025 || rep.State != "provisional" || len(rep.Groups) == 0 {
 		t.Errorf("report.json: %v %+v", err, rep)
+	}
+	for _, g := range rep.Groups {
+		if g.AnnexGroup == "" || g.HasData == nil {
+			t.Errorf("report.json: a group without annex_group or has_data (zeros are kept): %+v", g)
+		}
+	}
+	if strings.Contains(j.body, "REPORT_STATE_") || strings.Contains(j.body, `"annexGroup"`) {
+		t.Errorf("report.json is protobuf JSON, not the project's dialect:\n%.400s", j.body)
 	}
 	if j2 := c.get("/console/year/report.json?year=2025"); j2.body != j.body {
 		t.Errorf("report.json differs between two downloads of the same register")
@@ -64,6 +76,9 @@ func TestYearReport(t *testing.T) {
 	}
 	p = c.get("/console/year?group=C/I&from=2021&to=2025&report=1")
 	p.mustContain(t, `<strong>closed</strong> since`, "figures sent (invented)", `id="report-state">closed`, "stays the same until it is reopened")
+	if j := c.get("/console/year/report.json?year=2025"); !strings.Contains(j.body, `"state": "closed"`) {
+		t.Errorf("report.json of the closed year does not say closed:\n%.400s", j.body)
+	}
 	// The current year stays open.
 	c.get("/console/year?group=C/I&from=2022&to=2026").mustContain(t, "2026 is <strong>open</strong>")
 

@@ -15,6 +15,7 @@ import (
 	"google.golang.org/protobuf/types/known/timestamppb"
 
 	"github.com/halovet/halovet/access"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/store"
@@ -125,7 +126,7 @@ func defineCredIssue(fs *pflag.FlagSet) runFunc {
 			fmt.Println(resp.GetSecret())
 		}
 		if *output == "json" {
-			return jsonDoc(os.Stderr, resp.GetCredential())
+			return wirejson.Doc(os.Stderr, resp.GetCredential())
 		}
 		c := resp.GetCredential()
 		fmt.Fprintf(os.Stderr, "issued credential %s to %s (role %s%s)%s; the secret is shown this once\n",
@@ -304,7 +305,7 @@ func defineCredList(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		if *output == "json" {
-			return jsonDoc(os.Stdout, resp)
+			return wirejson.Doc(os.Stdout, resp)
 		}
 		return writeCredentials(os.Stdout, resp.GetCredentials())
 	}
@@ -471,7 +472,7 @@ func defineAuditList(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		if *output == "json" {
-			return jsonDoc(os.Stdout, all)
+			return wirejson.Doc(os.Stdout, all)
 		}
 		return writeAuditEvents(os.Stdout, all.GetEvents())
 	}

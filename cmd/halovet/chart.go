@@ -12,6 +12,7 @@ import (
 	"google.golang.org/grpc"
 
 	"github.com/halovet/halovet/chart"
+	"github.com/halovet/halovet/internal/registryview"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -50,15 +51,5 @@ func writeChartFile(path string, resp *halovetv1.AssessComplianceResponse, party
 // reportingPartyName asks the server for the reporting Party's name, for the chart's
 // title; "" when none is set (the title then names the group only).
 func reportingPartyName(ctx context.Context, conn grpc.ClientConnInterface) (string, error) {
-	resp, err := halovetv1.ReadAllPages(ctx, halovetv1.NewLicensingServiceClient(conn).ListParties,
-		&halovetv1.ListPartiesRequest{PageSize: listPageSize}, "parties")
-	if err != nil {
-		return "", err
-	}
-	for _, p := range resp.GetParties() {
-		if p.GetReportingParty() {
-			return p.GetName(), nil
-		}
-	}
-	return "", nil
+	return registryview.ReportingPartyName(ctx, halovetv1.NewLicensingServiceClient(conn), listPageSize)
 }

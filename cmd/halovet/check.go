@@ -13,7 +13,6 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
-	"sync"
 	"sync/atomic"
 	"text/tabwriter"
 	"time"
@@ -23,9 +22,10 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"github.com/halovet/halovet/internal/shipstream"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
-	"github.com/halovet/halovet/terms"
 	"github.com/halovet/halovet/validate"
 )
 
@@ -186,57 +186,6 @@ func (c *countingReader) Read(p []byte) (int, error) {
 	return n, err
 }
 
-// seqItem keeps the file's order: a record sent to the server (its verdict comes back
-// in order), or a line answered locally.
-type seqItem struct {
-	local     *validate.Verdict
-	direction terms.Direction
-}
-
-// shipmentStream is what check needs of the two streaming calls: records go out
-// several per message, verdicts come back in the records' order, alone or in groups.
-type shipmentStream interface {
-	send([]*halovetv1.ShipmentRecord) error
-	closeSend() error
-	recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error)
-}
-
-func verdictsOf(one *halovetv1.Verdict, many *halovetv1.VerdictBatch) []*halovetv1.Verdict {
-	if one != nil {
-		return []*halovetv1.Verdict{one}
-	}
-	return many.GetVerdicts()
-}
-
-type checkStream struct {
-	s halovetv1.ShipmentService_CheckShipmentsClient
-	// components asks for the per-component figures (the JSON Lines report writes them);
-	// the server reads it on the first message.
-	components bool
-}
-
-func (c checkStream) send(r []*halovetv1.ShipmentRecord) error {
-	return c.s.Send(&halovetv1.CheckShipmentsRequest{Records: r, ComponentFigures: c.components})
-}
-func (c checkStream) closeSend() error { return c.s.CloseSend() }
-func (c checkStream) recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
-	m, err := c.s.Recv()
-	return verdictsOf(m.GetVerdict(), m.GetVerdicts()), m.GetSummary(), err
-}
-
-type recordStream struct {
-	s halovetv1.ShipmentService_RecordShipmentsClient
-}
-
-func (c recordStream) send(r []*halovetv1.ShipmentRecord) error {
-	return c.s.Send(&halovetv1.RecordShipmentsRequest{Records: r})
-}
-func (c recordStream) closeSend() error { return c.s.CloseSend() }
-func (c recordStream) recv() ([]*halovetv1.Verdict, *halovetv1.BatchSummary, error) {
-	m, err := c.s.Recv()
-	return verdictsOf(m.GetVerdict(), m.GetVerdicts()), m.GetSummary(), err
-}
-
 // checkFile streams a batch file through the server and writes the summary (and the
 // report file). It returns the summary; an error means the batch could not be run.
 func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdout, stderr io.Writer) (*validate.Summary, error) {
@@ -280,42 +229,34 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	svc := halovetv1.NewShipmentServiceClient(conn)
-	var stream shipmentStream
+	var stream shipstream.Stream
 	if o.record {
 		s, err := svc.RecordShipments(ctx)
 		if err != nil {
 			return nil, err
 		}
-		stream = recordStream{s}
+		stream = shipstream.Record(s)
 	} else {
 		s, err := svc.CheckShipments(ctx)
 		if err != nil {
 			return nil, err
 		}
+		// The JSON Lines report writes the per-component figures.
 		_, jsonl := rep.(*validate.JSONLReport)
-		stream = checkStream{s: s, components: jsonl}
+		stream = shipstream.Check(s, jsonl)
 	}
 
 	// The sender reads the file and sends; the items channel carries the order to the
-	// receiver. Its capacity bounds memory, and exceeds the server's write batch so that
-	// a recording stream always has enough records in flight to fill one.
-	items := make(chan seqItem, 4096)
-	var sent, read atomic.Int64 // records sent to the server; lines read, sent or answered here
-	var sendErr error
-	var wg sync.WaitGroup
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		defer close(items)
-		pm := o.perMessage
-		if pm <= 0 {
-			pm = defaultPerMessage
-		}
-		sendErr = sendFile(ctx, rd, stream, items, &sent, &read, pm)
-	}()
+	// receiver.
+	pm := o.perMessage
+	if pm <= 0 {
+		pm = defaultPerMessage
+	}
+	var counts shipstream.Counts // records sent to the server; lines read, sent or answered here
+	items, waitSent := shipstream.Start(ctx, rd, stream, &counts, pm)
 
 	var done atomic.Int64
-	stopProgress := startProgress(o.progress, stderr, cr, size, &read, &done)
+	stopProgress := startProgress(o.progress, stderr, cr, size, &counts.Read, &done)
 	sum := validate.NewSummary()
 	rejected := rejectedLines{max: o.maxRejected}
 	if o.output == "csv" {
@@ -325,37 +266,24 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		rejected.max = maxRejectedShown
 	}
 	var recvErr error
-	var stored int64               // records this run stored (replays not counted)
-	var queue []*halovetv1.Verdict // answers received and not yet matched to items
+	var stored int64 // records this run stored (replays not counted)
+	answers := shipstream.NewAnswers(stream)
 	for it := range items {
-		v := it.local
+		v := it.Local
 		if v == nil {
-			for len(queue) == 0 {
-				vs, sm, err := stream.recv()
-				if err == nil && len(vs) == 0 {
-					err = errors.New("the server ended the stream before answering every record")
-					if sm == nil {
-						err = errors.New("the server sent an empty answer")
-					}
-				}
-				if err != nil {
-					recvErr = err
-					break
-				}
-				queue = vs
-			}
-			if recvErr != nil {
+			pv, err := answers.Next()
+			if err != nil {
+				recvErr = err
 				cancel()
 				break
 			}
-			if queue[0].GetRecorded() && !queue[0].GetReplayed() {
+			if pv.GetRecorded() && !pv.GetReplayed() {
 				stored++
 			}
-			cv := service.VerdictFromProto(queue[0])
-			queue = queue[1:]
+			cv := service.VerdictFromProto(pv)
 			v = &cv
 		}
-		sum.Add(v, it.direction)
+		sum.Add(v, it.Direction)
 		rejected.add(v)
 		if rep != nil {
 			if err := rep.Write(v); err != nil {
@@ -368,27 +296,19 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 	}
 	for range items { // drain after an error so the sender can finish
 	}
-	wg.Wait()
+	sendErr := waitSent()
 	stopProgress()
-	if recvErr == nil && sendErr == nil && len(queue) > 0 {
-		recvErr = fmt.Errorf("the server answered %d records more than were sent", len(queue))
-	}
+	sent := counts.Sent.Load()
 	if recvErr == nil && sendErr == nil {
 		// The closing summary.
-		if _, ps, err := stream.recv(); err != nil {
-			recvErr = err
-		} else if ps == nil {
-			recvErr = errors.New("the server sent no summary")
-		} else if ps.GetRecords() != sent.Load() {
-			recvErr = fmt.Errorf("the server counted %d records, %d were sent", ps.GetRecords(), sent.Load())
-		}
+		_, recvErr = answers.Summary(sent)
 	}
 	if rep != nil {
 		if err := rep.Close(); err != nil && recvErr == nil {
 			recvErr = err
 		}
 	}
-	if o.record && (sendErr != nil || recvErr != nil) && sent.Load() > 0 {
+	if o.record && (sendErr != nil || recvErr != nil) && sent > 0 {
 		err := recvErr
 		if err == nil {
 			err = sendErr
@@ -396,11 +316,11 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		c := status.Code(unwrapAll(err))
 		// Nothing answered and the server gone or silent: unreachable (exit 3), as before.
 		silent := done.Load() == 0 && (c == codes.Unavailable || c == codes.DeadlineExceeded)
-		if (c != codes.Unknown || errors.Is(err, errServerEnded)) && !silent {
+		if c != codes.Unknown && !silent {
 			return nil, &exitError{code: exitInterrupted, err: fmt.Errorf(
 				"recording stopped part-way: %d of %d records sent were answered, %d of them newly stored, before %w; "+
 					"sending the whole file again is safe: stored records are answered as replays and draw no quota twice",
-				done.Load(), sent.Load(), stored, err)}
+				done.Load(), sent, stored, err)}
 		}
 	}
 	if sendErr != nil {
@@ -437,71 +357,6 @@ func checkFile(ctx context.Context, conn *grpc.ClientConn, o checkOptions, stdou
 		return sum, usageErr("%s holds no records (blank and # comment lines are skipped)", o.path)
 	}
 	return sum, nil
-}
-
-// sendFile reads records and sends them, perMessage to a stream message; lines that
-// cannot be read, or records with fields that could not be read, are answered locally
-// and never sent, so nothing from a bad line is recorded. Items go to the receiver in
-// file order as they are read; a record's answer is awaited only after its message is
-// sent, which happens before the items channel can fill.
-func sendFile(ctx context.Context, rd validate.RecordReader, stream shipmentStream, items chan<- seqItem, sent, read *atomic.Int64, perMessage int) error {
-	buf := make([]*halovetv1.ShipmentRecord, 0, perMessage)
-	flush := func() error {
-		if len(buf) == 0 {
-			return nil
-		}
-		err := stream.send(buf)
-		sent.Add(int64(len(buf)))
-		buf = make([]*halovetv1.ShipmentRecord, 0, perMessage)
-		if errors.Is(err, io.EOF) {
-			return errServerEnded // the receiver reports why
-		}
-		return err
-	}
-	for {
-		rec, lerr, err := rd.Next()
-		if errors.Is(err, io.EOF) {
-			if err := flush(); err != nil {
-				return ignoreEnded(err)
-			}
-			return stream.closeSend()
-		}
-		if err != nil {
-			return fmt.Errorf("reading the input: %w", err)
-		}
-		var it seqItem
-		switch {
-		case lerr != nil:
-			v := validate.LineErrorVerdict(lerr)
-			it.local = &v
-		case len(rec.Unreadable) > 0:
-			v := validate.UnreadableVerdict(&rec)
-			it.local = &v
-		default:
-			buf = append(buf, service.RecordToProto(&rec))
-			it.direction = rec.Direction
-		}
-		read.Add(1) // before the receiver can count the line answered
-		select {
-		case items <- it:
-		case <-ctx.Done():
-			return nil
-		}
-		if len(buf) >= perMessage {
-			if err := flush(); err != nil {
-				return ignoreEnded(err)
-			}
-		}
-	}
-}
-
-var errServerEnded = errors.New("the server ended the call")
-
-func ignoreEnded(err error) error {
-	if errors.Is(err, errServerEnded) {
-		return nil
-	}
-	return err
 }
 
 // startProgress writes progress on w while enabled: on a terminal one line redrawn every
@@ -687,7 +542,7 @@ func writeSummaryJSON(w io.Writer, s *validate.Summary, recorded bool, rejected 
 		pb.Recorded = s.Accepted + s.AcceptedWithWarnings - s.Replayed
 	}
 	var summary bytes.Buffer
-	if err := jsonDoc(&summary, pb); err != nil {
+	if err := wirejson.Doc(&summary, pb); err != nil {
 		return err
 	}
 	lines, err := json.MarshalIndent(rejected.lines(), "  ", "  ")

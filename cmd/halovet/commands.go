@@ -91,7 +91,8 @@ Results are decision support: the treaty text, national law, the national
 authority and licensed practice prevail.`
 
 const jsonDialectHelp = `Every machine-readable output of halovet (--output json, the JSON Lines of lookup
-and of check --report FILE.jsonl) is written in one dialect:
+and of check --report FILE.jsonl, the report.json of year-report --dir and the
+console's report.json download) is written in one dialect:
 
   - keys are snake_case: the API's .proto field names, which are also the column
     names of --output csv;

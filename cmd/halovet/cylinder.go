@@ -13,6 +13,7 @@ import (
 	"google.golang.org/grpc"
 
 	"github.com/halovet/halovet/exact"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/validate"
 )
@@ -117,7 +118,7 @@ func cylinderReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Wri
 		return rpcFailure("analysing the reading", err)
 	}
 	if output == "json" {
-		return jsonDoc(w, resp)
+		return wirejson.Doc(w, resp)
 	}
 	return writeCylinderText(w, req, resp)
 }

@@ -7,6 +7,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -62,7 +63,7 @@ func TestCylinderJSON(t *testing.T) {
 	ts := startTestServer(t, nil)
 	s := runCylinderReport(t, ts, "R-12=100", "HFC-134a", 13.6, 0, "json")
 	var resp halovetv1.AnalyseReadingResponse
-	if err := unmarshalDialect([]byte(s), &resp); err != nil {
+	if err := wirejson.Unmarshal([]byte(s), &resp); err != nil {
 		t.Fatalf("output is not an AnalyseReadingResponse: %v\n%s", err, s)
 	}
 	// CFC-12 ODP 1.0 (Montreal Protocol Annex A): 13.6 kg → 0.0136 ODP t.

@@ -65,6 +65,19 @@ func (db *database) Close() {
 	}
 }
 
+// openForVerb opens the database for a verb that takes no arguments (migrate, verify),
+// logging as HALOVET_LOG_FORMAT and HALOVET_LOG_LEVEL (default warn) say.
+func openForVerb(ctx context.Context, d dbFlags, args []string, migrate bool) (*database, error) {
+	if len(args) > 0 {
+		return nil, usageErr("unexpected argument %q (see --help)", args[0])
+	}
+	log, err := newLogger(envOr("HALOVET_LOG_FORMAT", "text"), envOr("HALOVET_LOG_LEVEL", "warn"))
+	if err != nil {
+		return nil, err
+	}
+	return openDatabase(ctx, d, migrate, log)
+}
+
 // openDatabase connects to the URL given, or starts the private cluster, and applies
 // migrations when migrate is true (always for a private cluster, which is halovet's own).
 func openDatabase(ctx context.Context, d dbFlags, migrate bool, log *slog.Logger) (*database, error) {

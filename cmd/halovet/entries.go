@@ -19,6 +19,7 @@ import (
 	"google.golang.org/grpc/status"
 	"google.golang.org/protobuf/proto"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -370,7 +371,7 @@ func importEntries(ctx context.Context, conn *grpc.ClientConn, path string) (*ha
 func writeEntries(w io.Writer, es []*halovetv1.NationalEntry, heading, output string, resp proto.Message) error {
 	switch output {
 	case "json":
-		return writeProtoJSON(w, resp)
+		return wirejson.Doc(w, resp)
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write(entryColumns)

@@ -13,6 +13,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"github.com/halovet/halovet/exact"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/terms"
@@ -360,7 +361,7 @@ func defineHistory(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		if *output == "json" {
-			return jsonDoc(os.Stdout, resp)
+			return wirejson.Doc(os.Stdout, resp)
 		}
 		return writeHistory(os.Stdout, args[0], resp)
 	}

@@ -15,6 +15,7 @@ import (
 	"google.golang.org/protobuf/reflect/protoreflect"
 
 	"github.com/halovet/halovet/exact"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/terms"
@@ -79,7 +80,7 @@ func defineLoad(fs *pflag.FlagSet) runFunc {
 			return err
 		}
 		if *output == "json" {
-			return jsonDoc(os.Stdout, resp)
+			return wirejson.Doc(os.Stdout, resp)
 		}
 		return writeLoadReport(os.Stdout, resp, args[0])
 	}
@@ -110,21 +111,21 @@ func sendRegistry(ctx context.Context, conn *grpc.ClientConn, path, reason strin
 	req := &halovetv1.LoadRegistryRequest{Reason: reason, DryRun: dry}
 	for i, raw := range rf.Parties {
 		p := &halovetv1.Party{}
-		if err := unmarshalDialect(raw, p); err != nil {
+		if err := wirejson.Unmarshal(raw, p); err != nil {
 			return nil, &exitError{code: 2, err: fmt.Errorf("%s: parties[%d]: %w", path, i, err)}
 		}
 		req.Parties = append(req.Parties, p)
 	}
 	for i, raw := range rf.Companies {
 		c := &halovetv1.Company{}
-		if err := unmarshalDialect(raw, c); err != nil {
+		if err := wirejson.Unmarshal(raw, c); err != nil {
 			return nil, &exitError{code: 2, err: fmt.Errorf("%s: companies[%d]: %w", path, i, err)}
 		}
 		req.Companies = append(req.Companies, c)
 	}
 	for i, raw := range rf.Licences {
 		l := &halovetv1.Licence{}
-		if err := unmarshalDialect(raw, l); err != nil {
+		if err := wirejson.Unmarshal(raw, l); err != nil {
 			return nil, &exitError{code: 2, err: fmt.Errorf("%s: licences[%d]: %w", path, i, err)}
 		}
 		req.Licences = append(req.Licences, l)
@@ -252,7 +253,7 @@ func words[E interface {
 }](vs []E, sep string) string {
 	out := make([]string, len(vs))
 	for i, v := range vs {
-		out[i] = enumWord(v.Descriptor(), v.Number())
+		out[i] = wirejson.EnumWord(v.Descriptor(), v.Number())
 	}
 	return strings.Join(out, sep)
 }
@@ -260,7 +261,7 @@ func words[E interface {
 func writeLicences(w io.Writer, resp *halovetv1.ListLicencesResponse, output string) error {
 	switch output {
 	case "json":
-		return jsonDoc(w, resp)
+		return wirejson.Doc(w, resp)
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"licence_number", "company_id", "status", "valid_from", "valid_to", "directions",

@@ -15,6 +15,7 @@ import (
 	"google.golang.org/grpc"
 
 	"github.com/halovet/halovet/exact"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 )
@@ -204,10 +205,10 @@ func writeLookupJSON(w io.Writer, r lookupResult) error {
 		Entry      json.RawMessage `json:"entry,omitempty"`
 		Evaluation json.RawMessage `json:"evaluation,omitempty"`
 	}{Identifier: r.identifier}
-	rec.Resolution = jsonLine(r.resolution)
+	rec.Resolution = wirejson.Line(r.resolution)
 	if r.entry != nil {
-		rec.Entry = jsonLine(r.entry)
-		rec.Evaluation = jsonLine(r.evaluation)
+		rec.Entry = wirejson.Line(r.entry)
+		rec.Evaluation = wirejson.Line(r.evaluation)
 	}
 	b, err := json.Marshal(rec) // one line
 	if err != nil {

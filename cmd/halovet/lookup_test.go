@@ -12,6 +12,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -159,13 +160,13 @@ func TestLookupJSONLines(t *testing.T) {
 	var res halovetv1.ResolveIdentifierResponse
 	var entry halovetv1.GetEntryResponse
 	var ev halovetv1.EvaluateMixtureResponse
-	if err := unmarshalDialect(recs[0].Resolution, &res); err != nil {
+	if err := wirejson.Unmarshal(recs[0].Resolution, &res); err != nil {
 		t.Fatalf("resolution: %v", err)
 	}
-	if err := unmarshalDialect(recs[0].Entry, &entry); err != nil {
+	if err := wirejson.Unmarshal(recs[0].Entry, &entry); err != nil {
 		t.Fatalf("entry: %v", err)
 	}
-	if err := unmarshalDialect(recs[0].Evaluation, &ev); err != nil {
+	if err := wirejson.Unmarshal(recs[0].Evaluation, &ev); err != nil {
 		t.Fatalf("evaluation: %v", err)
 	}
 	if recs[0].Identifier != "R-22" || res.GetCandidates()[0].GetDesignation() != "HCFC-22" {
@@ -181,7 +182,7 @@ func TestLookupJSONLines(t *testing.T) {
 
 	// 2903.45: ambiguous, resolution only.
 	res.Reset()
-	if err := unmarshalDialect(recs[1].Resolution, &res); err != nil {
+	if err := wirejson.Unmarshal(recs[1].Resolution, &res); err != nil {
 		t.Fatalf("resolution 2: %v", err)
 	}
 	if !res.GetAmbiguous() || len(res.GetCandidates()) != 2 || recs[1].Entry != nil || recs[1].Evaluation != nil {
@@ -192,10 +193,10 @@ func TestLookupJSONLines(t *testing.T) {
 	// R-404A: a blend with its GWP figures.
 	entry.Reset()
 	ev.Reset()
-	if err := unmarshalDialect(recs[2].Entry, &entry); err != nil {
+	if err := wirejson.Unmarshal(recs[2].Entry, &entry); err != nil {
 		t.Fatalf("entry 3: %v", err)
 	}
-	if err := unmarshalDialect(recs[2].Evaluation, &ev); err != nil {
+	if err := wirejson.Unmarshal(recs[2].Evaluation, &ev); err != nil {
 		t.Fatalf("evaluation 3: %v", err)
 	}
 	if len(entry.GetBlend().GetComponents()) != 3 {

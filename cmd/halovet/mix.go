@@ -13,6 +13,7 @@ import (
 	"google.golang.org/grpc"
 
 	"github.com/halovet/halovet/exact"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 )
@@ -135,7 +136,7 @@ func mixReport(ctx context.Context, conn grpc.ClientConnInterface, w io.Writer, 
 	}
 	switch output {
 	case "json":
-		return jsonDoc(w, ev)
+		return wirejson.Doc(w, ev)
 	case "csv":
 		return writeMixCSV(w, ev)
 	}

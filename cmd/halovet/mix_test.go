@@ -7,6 +7,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -80,7 +81,7 @@ func TestMixJSON(t *testing.T) {
 		t.Fatalf("mix --output json R-507A: %v", err)
 	}
 	var ev halovetv1.EvaluateMixtureResponse
-	if err := unmarshalDialect(out.Bytes(), &ev); err != nil {
+	if err := wirejson.Unmarshal(out.Bytes(), &ev); err != nil {
 		t.Fatalf("output is not an EvaluateMixtureResponse in protobuf JSON: %v\n%s", err, out.String())
 	}
 	// source: UK government CO2-eq table (testdata/reference/blends.csv): R-507A 3985; 2 t -> 7970 CO2-eq t.

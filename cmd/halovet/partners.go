@@ -13,6 +13,7 @@ import (
 
 	"github.com/spf13/pflag"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
 
@@ -172,7 +173,7 @@ func definePartners(fs *pflag.FlagSet) runFunc {
 				return partnerLineErrors(err, lines)
 			}
 			if rf.output == "json" {
-				return writeProtoJSON(os.Stdout, resp)
+				return wirejson.Doc(os.Stdout, resp)
 			}
 			fmt.Printf("stored %d partner figures from %s (new or replacing the figure of the same key)\n", len(resp.GetReports()), args[0])
 			return nil
@@ -205,7 +206,7 @@ func gapRow(g *halovetv1.PartnerGap, f func(string) string) []string {
 func writeGaps(w io.Writer, resp *halovetv1.ReconcilePartnerExportsResponse, output string) error {
 	switch output {
 	case "json":
-		return writeProtoJSON(w, resp)
+		return wirejson.Doc(w, resp)
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write(gapHeader)

@@ -4,7 +4,6 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
-	"github.com/halovet/halovet/service/wireterms"
 	"io"
 	"os"
 	"strconv"
@@ -13,7 +12,9 @@ import (
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 func init() {
@@ -75,7 +76,7 @@ func writeQuotas(w io.Writer, resp *halovetv1.PlanQuotasResponse, output string)
 	u := wireterms.ControlUnitText(eu)
 	switch output {
 	case "json":
-		return writeProtoJSON(w, resp)
+		return wirejson.Doc(w, resp)
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"company_id", "reference_amount", "reference_share", "exact_share", "quota", "unit", "draft_licence_number"})

@@ -16,6 +16,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	"github.com/halovet/halovet/exact"
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service"
 	"github.com/halovet/halovet/service/wireterms"
@@ -211,7 +212,7 @@ func defineShipments(fs *pflag.FlagSet) runFunc {
 				return err
 			}
 			if *output == "json" {
-				return jsonDoc(os.Stdout, resp)
+				return wirejson.Doc(os.Stdout, resp)
 			}
 			return writeShipmentText(os.Stdout, resp)
 		case "void":
@@ -220,7 +221,7 @@ func defineShipments(fs *pflag.FlagSet) runFunc {
 				return err
 			}
 			if *output == "json" {
-				return jsonDoc(os.Stdout, resp)
+				return wirejson.Doc(os.Stdout, resp)
 			}
 			s := resp.GetShipment()
 			fmt.Fprintf(os.Stdout, "voided shipment %d (%s, %s); its quota draws are given back:\n", s.GetShipmentId(),
@@ -251,7 +252,7 @@ func listShipments(ctx context.Context, client halovetv1.ShipmentServiceClient, 
 			return err
 		}
 		if output == "json" {
-			if err := jsonDoc(w, resp); err != nil {
+			if err := wirejson.Doc(w, resp); err != nil {
 				return err
 			}
 		}
@@ -384,7 +385,7 @@ func correctFile(ctx context.Context, conn *grpc.ClientConn, path, formatFlag, r
 		}
 		done++
 		if output == "json" {
-			if err := jsonDoc(w, resp); err != nil {
+			if err := wirejson.Doc(w, resp); err != nil {
 				return err
 			}
 			continue
@@ -470,7 +471,7 @@ func defineYear(fs *pflag.FlagSet) runFunc {
 				return err
 			}
 			if *output == "json" {
-				return jsonDoc(os.Stdout, resp)
+				return wirejson.Doc(os.Stdout, resp)
 			}
 			fmt.Fprintf(os.Stdout, "reporting year %d closed at %s: nothing declared in it is recorded, voided or corrected until it is reopened\n",
 				year, resp.GetClosedYear().GetClosedAt())
@@ -480,7 +481,7 @@ func defineYear(fs *pflag.FlagSet) runFunc {
 				return err
 			}
 			if *output == "json" {
-				return jsonDoc(os.Stdout, resp)
+				return wirejson.Doc(os.Stdout, resp)
 			}
 			fmt.Fprintf(os.Stdout, "reporting year %d reopened\n", year)
 		case "list":
@@ -489,7 +490,7 @@ func defineYear(fs *pflag.FlagSet) runFunc {
 				return err
 			}
 			if *output == "json" {
-				return jsonDoc(os.Stdout, resp)
+				return wirejson.Doc(os.Stdout, resp)
 			}
 			if len(resp.GetClosedYears()) == 0 {
 				fmt.Fprintln(os.Stdout, "no reporting year is closed")

@@ -4,7 +4,6 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
-	"github.com/halovet/halovet/service/wireterms"
 	"io"
 	"os"
 	"strconv"
@@ -13,9 +12,10 @@ import (
 
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
-	"google.golang.org/protobuf/proto"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 // The consumption reports: consumption, baseline, compliance and quotas. Each asks the
@@ -57,11 +57,6 @@ func (r *reportFlags) withConn(fn func(conn *grpc.ClientConn) error) error {
 	}
 	defer conn.Close()
 	return fn(conn)
-}
-
-// writeProtoJSON prints a response in the command line's JSON dialect (jsonout.go).
-func writeProtoJSON(w io.Writer, m proto.Message) error {
-	return jsonDoc(w, m)
 }
 
 // newTable is the aligned table of the text reports.
@@ -165,7 +160,7 @@ func groupTotal(g *halovetv1.GroupConsumption) *halovetv1.SubstanceConsumption {
 func writeConsumption(w io.Writer, resp *halovetv1.GetConsumptionResponse, output string) error {
 	switch output {
 	case "json":
-		return writeProtoJSON(w, resp)
+		return wirejson.Doc(w, resp)
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write(consumptionCSVHeader)
@@ -296,7 +291,7 @@ func completeWord(ok bool) string {
 func writeBaseline(w io.Writer, resp *halovetv1.GetBaselineResponse, output string) error {
 	switch output {
 	case "json":
-		return writeProtoJSON(w, resp)
+		return wirejson.Doc(w, resp)
 	case "csv":
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"part", "year", "amount", "unit", "data"})

@@ -15,6 +15,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/validate"
@@ -84,7 +85,7 @@ func TestComplianceTextCSVJSON(t *testing.T) {
 		t.Fatal(err)
 	}
 	back := &halovetv1.AssessComplianceResponse{}
-	if err := unmarshalDialect(b.Bytes(), back); err != nil || len(back.GetYears()) != 4 || back.GetYears()[2].GetPeriod().GetRoomLeftAmount() != "-1.5" {
+	if err := wirejson.Unmarshal(b.Bytes(), back); err != nil || len(back.GetYears()) != 4 || back.GetYears()[2].GetPeriod().GetRoomLeftAmount() != "-1.5" {
 		t.Fatalf("json does not read back as the response: %v %v", err, back)
 	}
 }

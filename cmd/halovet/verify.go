@@ -27,14 +27,7 @@ func defineVerify(fs *pflag.FlagSet) runFunc {
 	var d dbFlags
 	d.register(fs)
 	return func(ctx context.Context, args []string) error {
-		if len(args) > 0 {
-			return usageErr("unexpected argument %q (see --help)", args[0])
-		}
-		log, err := newLogger(envOr("HALOVET_LOG_FORMAT", "text"), envOr("HALOVET_LOG_LEVEL", "warn"))
-		if err != nil {
-			return err
-		}
-		db, err := openDatabase(ctx, d, false, log)
+		db, err := openForVerb(ctx, d, args, false)
 		if err != nil {
 			return err
 		}

@@ -5,7 +5,6 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"github.com/halovet/halovet/service/wireterms"
 	"io"
 	"os"
 	"strings"
@@ -14,7 +13,9 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/protobuf/proto"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 // The figures of the reporting year set outside the register: official baselines and
@@ -89,7 +90,7 @@ func decodeItems[M proto.Message](where string, items []map[string]any, newMsg f
 			return nil, err
 		}
 		m := newMsg()
-		if err := unmarshalDialect(b, m); err != nil {
+		if err := wirejson.Unmarshal(b, m); err != nil {
 			return nil, usageErr("%s[%d]: %v (see --help for the fields)", where, i, err)
 		}
 		out = append(out, m)
@@ -197,14 +198,14 @@ func listYearFigures(ctx context.Context, conn *grpc.ClientConn, year int, outpu
 	fmt.Fprintf(tw, "Official figures (%d)\n", len(off.GetFigures()))
 	fmt.Fprintln(tw, "key\tParty\tkind\tgroup\tyear\tamount\tunit\tsource\t")
 	for _, f := range off.GetFigures() {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t\n", f.GetFigureKey(), f.GetCountryCode(), enumWord(f.GetKind().Descriptor(), f.GetKind().Number()),
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t\n", f.GetFigureKey(), f.GetCountryCode(), wirejson.EnumWord(f.GetKind().Descriptor(), f.GetKind().Number()),
 			f.GetAnnexGroup(), f.GetYear(), showAmount(f.GetAmount(), f.GetUnit()), wireterms.ControlUnitText(f.GetUnit()), f.GetSource())
 	}
 	fmt.Fprintf(tw, "\nAuthorised exemptions (%d)\n", len(ex.GetExemptions()))
 	fmt.Fprintln(tw, "key\tParty\tyear\tgroup\tuse\tamount\tunit\tsource\t")
 	for _, e := range ex.GetExemptions() {
 		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t\n", e.GetExemptionKey(), e.GetCountryCode(), e.GetYear(), e.GetAnnexGroup(),
-			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), showAmount(e.GetAmount(), e.GetUnit()), wireterms.ControlUnitText(e.GetUnit()), e.GetSource())
+			wirejson.EnumWord(e.GetUse().Descriptor(), e.GetUse().Number()), showAmount(e.GetAmount(), e.GetUnit()), wireterms.ControlUnitText(e.GetUnit()), e.GetSource())
 	}
 	fmt.Fprintf(tw, "\nHFC-23 by-product per facility (%d)\n", len(h23.GetEntries()))
 	fmt.Fprintln(tw, "key\tfacility\tyear\tgenerated t\tcaptured for use t\tdestroyed t\temitted t\temitted CO2-eq t\t")
@@ -231,7 +232,7 @@ func writeYearFiguresJSON(w io.Writer, off *halovetv1.ListOfficialFiguresRespons
 	}{{"official_figures", "figures", off}, {"exemptions", "exemptions", ex}, {"hfc23_entries", "entries", h23}}
 	for i, p := range parts {
 		var one bytes.Buffer
-		if err := jsonDoc(&one, p.m); err != nil {
+		if err := wirejson.Doc(&one, p.m); err != nil {
 			return err
 		}
 		var fields map[string]json.RawMessage

@@ -5,7 +5,6 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
-	"github.com/halovet/halovet/service/wireterms"
 	"html/template"
 	"io"
 	"os"
@@ -16,7 +15,9 @@ import (
 	"github.com/spf13/pflag"
 	"google.golang.org/grpc"
 
+	"github.com/halovet/halovet/internal/wirejson"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
+	"github.com/halovet/halovet/service/wireterms"
 )
 
 // The annual data report of a year (GetYearReport) as CSV files, one JSON document and a
@@ -49,7 +50,8 @@ json). With --dir the report is written there, each file replaced whole:
   non-party.csv    trade with non-Parties, both directions
   hfc23.csv        HFC-23 by-product per facility
   exemptions.csv   the year's authorised exemptions with their sources
-  report.json      the whole report (the API's response)
+  report.json      the whole report in the JSON dialect of --output json
+                   (halovet help json), the console's download byte for byte
   report.html      a printable page of the same figures
 The files hold no time of computation, so a year whose register does not change
 gives the same bytes.
@@ -88,7 +90,7 @@ func defineYearReport(fs *pflag.FlagSet) runFunc {
 				}
 			}
 			if rf.output == "json" {
-				return writeProtoJSON(os.Stdout, rep)
+				return wirejson.Doc(os.Stdout, rep)
 			}
 			return writeYearSummary(os.Stdout, rep, *dir)
 		})
@@ -139,7 +141,7 @@ var qtyHeader = []string{"substance", "annex_group", "basis", "tonnes", "records
 func qtyRows(ls []*halovetv1.YearQuantityLine) [][]string {
 	var out [][]string
 	for _, l := range ls {
-		out = append(out, []string{l.GetSubstance(), l.GetAnnexGroup(), enumWord(l.GetBasis().Descriptor(), l.GetBasis().Number()), l.GetTonnes(), idsText(l.GetShipmentIds(), l.GetEntryKeys())})
+		out = append(out, []string{l.GetSubstance(), l.GetAnnexGroup(), wirejson.EnumWord(l.GetBasis().Descriptor(), l.GetBasis().Number()), l.GetTonnes(), idsText(l.GetShipmentIds(), l.GetEntryKeys())})
 	}
 	return out
 }
@@ -180,7 +182,7 @@ func exemptionRows(es []*halovetv1.AuthorisedExemption) [][]string {
 	var out [][]string
 	for _, e := range es {
 		out = append(out, []string{e.GetExemptionKey(), e.GetCountryCode(), strconv.Itoa(int(e.GetYear())), e.GetAnnexGroup(),
-			enumWord(e.GetUse().Descriptor(), e.GetUse().Number()), e.GetAmount(), wireterms.ControlUnitText(e.GetUnit()), e.GetSource()})
+			wirejson.EnumWord(e.GetUse().Descriptor(), e.GetUse().Number()), e.GetAmount(), wireterms.ControlUnitText(e.GetUnit()), e.GetSource()})
 	}
 	return out
 }
@@ -218,7 +220,7 @@ func yearReportFiles(rep *halovetv1.GetYearReportResponse) ([]yearFile, error) {
 		}
 	}
 	var j bytes.Buffer
-	if err := writeProtoJSON(&j, rep); err != nil {
+	if err := wirejson.Doc(&j, rep); err != nil {
 		return nil, err
 	}
 	files = append(files, yearFile{"report.json", j.Bytes()})
@@ -268,7 +270,7 @@ func writeFilesAtomically(dir string, files []yearFile) error {
 }
 
 func writeYearSummary(w io.Writer, rep *halovetv1.GetYearReportResponse, dir string) error {
-	fmt.Fprintf(w, "Data report of %s for %d (%s)\n\n", orNone(rep.GetCountryCode()), rep.GetYear(), enumWord(rep.GetState().Descriptor(), rep.GetState().Number()))
+	fmt.Fprintf(w, "Data report of %s for %d (%s)\n\n", orNone(rep.GetCountryCode()), rep.GetYear(), wirejson.EnumWord(rep.GetState().Descriptor(), rep.GetState().Number()))
 	tw := newTable(w)
 	fmt.Fprintln(tw, "group\tproduction t\timports t\texports t\tdestroyed t\tfeedstock t\tQPS t\tto non-Parties t\tconsumption t\tODP t\tCO2-eq t\t")
 	for _, g := range rep.GetGroups() {
@@ -306,9 +308,9 @@ func orNone(s string) string {
 // and headings are our own.
 var yearHTML = template.Must(template.New("year").Funcs(template.FuncMap{
 	"t": asIs, "ids": idsText, "yn": yesNo, "unit": wireterms.ControlUnitText,
-	"use":   func(u halovetv1.ExemptedUse) string { return enumWord(u.Descriptor(), u.Number()) },
-	"basis": func(b halovetv1.QuantityBasis) string { return enumWord(b.Descriptor(), b.Number()) },
-	"state": func(s halovetv1.ReportState) string { return enumWord(s.Descriptor(), s.Number()) },
+	"use":   func(u halovetv1.ExemptedUse) string { return wirejson.EnumWord(u.Descriptor(), u.Number()) },
+	"basis": func(b halovetv1.QuantityBasis) string { return wirejson.EnumWord(b.Descriptor(), b.Number()) },
+	"state": func(s halovetv1.ReportState) string { return wirejson.EnumWord(s.Descriptor(), s.Number()) },
 }).Parse(`<!DOCTYPE html>
 <html lang="en">
 <head>

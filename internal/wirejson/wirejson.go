@@ -1,4 +1,4 @@
-package main
+package wirejson
 
 import (
 	"bytes"
@@ -17,22 +17,8 @@ import (
 	"google.golang.org/protobuf/reflect/protoreflect"
 )
 
-// The command line's one JSON dialect, for every --output json (and the JSON Lines of
-// lookup and check --report):
-//   - keys are snake_case, the .proto field names, which are also the CSV column names;
-//   - every field is present, zeros included (0, false, "", []); only a message-typed
-//     field that is not set, or an optional scalar that is not set, is left out;
-//   - enums are lower-case words joined by hyphens, without the type's prefix
-//     (QUOTA_UNIT_CO2E_TONNES is "co2e-tonnes", OUTCOME_ACCEPTED_WITH_WARNINGS is
-//     "accepted-with-warnings");
-//   - integers of every size are JSON numbers; doubles are decimals rounded to 12
-//     significant digits and written without trailing zeros (decimalText), so binary
-//     floating-point noise such as 0.8999999999999986 reads 0.9;
-//   - fields come in .proto order, map entries by key; a document is indented by two
-//     spaces; a JSON Lines record is one line.
-
-// jsonDoc writes m as one indented JSON document.
-func jsonDoc(w io.Writer, m proto.Message) error {
+// Doc writes m as one indented JSON document, with a final newline.
+func Doc(w io.Writer, m proto.Message) error {
 	var b bytes.Buffer
 	writeMessage(&b, m.ProtoReflect(), "  ", "")
 	b.WriteByte('\n')
@@ -40,8 +26,8 @@ func jsonDoc(w io.Writer, m proto.Message) error {
 	return err
 }
 
-// jsonLine is m as one line of JSON Lines, without the newline.
-func jsonLine(m proto.Message) []byte {
+// Line is m as one line of JSON Lines, without the newline.
+func Line(m proto.Message) []byte {
 	var b bytes.Buffer
 	writeMessage(&b, m.ProtoReflect(), "", "")
 	return b.Bytes()
@@ -146,7 +132,7 @@ func writeSingular(b *bytes.Buffer, fd protoreflect.FieldDescriptor, v protorefl
 	case protoreflect.MessageKind, protoreflect.GroupKind:
 		writeMessage(b, v.Message(), indent, prefix)
 	case protoreflect.EnumKind:
-		writeString(b, enumWord(fd.Enum(), v.Enum()))
+		writeString(b, EnumWord(fd.Enum(), v.Enum()))
 	case protoreflect.BoolKind:
 		b.WriteString(strconv.FormatBool(v.Bool()))
 	case protoreflect.StringKind:
@@ -199,9 +185,9 @@ func writeString(b *bytes.Buffer, s string) {
 	b.Write(enc)
 }
 
-// enumWord is an enum value in the dialect: QUOTA_UNIT_CO2E_TONNES of QuotaUnit is
+// EnumWord is an enum value in the dialect: QUOTA_UNIT_CO2E_TONNES of QuotaUnit is
 // "co2e-tonnes".
-func enumWord(ed protoreflect.EnumDescriptor, n protoreflect.EnumNumber) string {
+func EnumWord(ed protoreflect.EnumDescriptor, n protoreflect.EnumNumber) string {
 	vd := ed.Values().ByNumber(n)
 	if vd == nil {
 		return strconv.Itoa(int(n))
@@ -226,10 +212,10 @@ func upperSnake(s string) string {
 	return b.String()
 }
 
-// unmarshalDialect reads JSON of the dialect (or protobuf JSON) into m: enum words go
+// Unmarshal reads JSON of the dialect (or protobuf JSON) into m: enum words go
 // back to their value names, then protojson reads the rest, which takes snake_case names,
 // numbers for integers and every field at its zero value.
-func unmarshalDialect(b []byte, m proto.Message) error {
+func Unmarshal(b []byte, m proto.Message) error {
 	dec := json.NewDecoder(bytes.NewReader(b))
 	dec.UseNumber()
 	var v any
@@ -310,7 +296,7 @@ func enumNameOf(ed protoreflect.EnumDescriptor, x any) any {
 	}
 	vals := ed.Values()
 	for i := 0; i < vals.Len(); i++ {
-		if enumWord(ed, vals.Get(i).Number()) == s {
+		if EnumWord(ed, vals.Get(i).Number()) == s {
 			return string(vals.Get(i).Name())
 		}
 	}
