@@ -305,9 +305,14 @@ func (p *pendingRecord) storedVerdict(codec VerdictCodec, res RecordResult) []by
 	v := p.verdict
 	v.Findings = append([]validate.Finding(nil), p.verdict.Findings...)
 	addBalanceFindings(&v, p.lic, res.Balances)
-	b := codec.Encode(&v)
 	p.answer = &Answer{Verdict: v, Recorded: true, Stored: &StoredRef{ID: res.ShipmentID, State: StateLive, RecordedAt: res.RecordedAt}}
-	return b
+	if w, ok := codec.(WireVerdictCodec); ok {
+		// Answered in the form just kept: the verdict is converted once, not again to send.
+		b, wire := w.EncodeWire(&v)
+		p.answer.Kept = wire
+		return b
+	}
+	return codec.Encode(&v)
 }
 
 // replayOf answers a record by the stored version it replays: the verdict kept with it,

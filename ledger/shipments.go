@@ -207,6 +207,15 @@ type VerdictCodec interface {
 	Decode(b []byte) (*KeptVerdict, error)
 }
 
+// WireVerdictCodec is a VerdictCodec that also gives the wire form of the verdict it
+// keeps: a recording stream answers a record it stores with that form (Answer.Kept),
+// instead of converting the verdict a second time to send it.
+type WireVerdictCodec interface {
+	VerdictCodec
+	// EncodeWire is Encode, and the verdict in the caller's encoding (as KeptVerdict.Wire).
+	EncodeWire(v *validate.Verdict) (kept []byte, wire any)
+}
+
 // Answer is the verdict given to one record of a call.
 type Answer struct {
 	// Verdict is the verdict; for a kept one (Kept set), what the ledger read of it, with

@@ -6,8 +6,6 @@ import (
 	"strings"
 	"sync/atomic"
 
-	"google.golang.org/protobuf/encoding/protojson"
-
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/validate"
@@ -155,7 +153,7 @@ func (in *streamIn) message(one *halovetv1.ShipmentRecord, more []*halovetv1.Shi
 		m.Records[i] = recordFromProto(pb)
 	}
 	if in.recording {
-		m.Encode = func(i int) ([]byte, error) { return protojson.Marshal(recs[i]) }
+		m.Encode = func(i int) ([]byte, error) { return storedRecordJSON(recs[i]) }
 	}
 	return m
 }
@@ -241,9 +239,16 @@ func summaryToProto(s *ledger.Summary) *halovetv1.BatchSummary {
 type verdictCodec struct{}
 
 func (verdictCodec) Encode(v *validate.Verdict) []byte {
+	b, _ := verdictCodec{}.EncodeWire(v)
+	return b
+}
+
+// EncodeWire is Encode and the wire verdict encoded (ledger.WireVerdictCodec), which a
+// recording stream answers.
+func (verdictCodec) EncodeWire(v *validate.Verdict) ([]byte, any) {
 	a := verdictToProto(v)
 	a.Recorded = true
-	return encodeVerdict(a)
+	return encodeVerdict(a), a
 }
 
 func (verdictCodec) Decode(b []byte) (*ledger.KeptVerdict, error) {

@@ -5,8 +5,6 @@ import (
 	"strconv"
 	"sync"
 
-	"google.golang.org/protobuf/encoding/protojson"
-
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/service/wireterms"
 	"github.com/halovet/halovet/store"
@@ -247,7 +245,7 @@ func verdictComponents(cs []substances.ComponentFigures, xs []substances.Compone
 
 // recordJSON gives a wire record in the form the register keeps it (ShipmentRow.RecordJSON).
 func recordJSON(p *halovetv1.ShipmentRecord) func() ([]byte, error) {
-	return func() ([]byte, error) { return protojson.Marshal(p) }
+	return func() ([]byte, error) { return storedRecordJSON(p) }
 }
 
 // RecordFromProto maps a wire record to the checker's record, as the command line writes

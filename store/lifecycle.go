@@ -771,7 +771,7 @@ func (s *Store) CorrectShipment(ctx context.Context, id int64, row ShipmentRow, 
 		if row.VerdictOnStore != nil {
 			row.Verdict = row.VerdictOnStore(res)
 		}
-		if err := insertShipments(ctx, tx, []int64{newID}, []*ShipmentRow{&row}); err != nil {
+		if err := insertShipments(ctx, tx, []int64{newID}, []*ShipmentRow{&row}, nil); err != nil {
 			return err
 		}
 		if err := audit(ctx, tx, "correct", "shipment", strconv.FormatInt(id, 10), reason, map[string]any{

@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"math"
 	"math/big"
@@ -11,6 +12,7 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/halovet/halovet/callctx"
@@ -177,13 +179,9 @@ func (s *Store) RecordShipments(ctx context.Context, rows []ShipmentRow) ([]Reco
 func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResult, error) {
 	results := make([]RecordResult, len(rows))
 
-	// 0. Closed reporting years: a row declared in one is not stored.
-	closed, err := lockYears(ctx, tx, rowYears(rows))
-	if err != nil {
-		return nil, err
-	}
-
-	// 1. Lock the licences (share) and quota lines (update) in a stable order.
+	// 1. In one round trip: the years' locks (a row declared in a closed year is not
+	// stored), the licences (share) and their quota lines (update), locked in a stable
+	// order.
 	licSet := map[string]bool{}
 	lineSet := map[lineKey]bool{}
 	for _, r := range rows {
@@ -200,37 +198,9 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 		lics = append(lics, l)
 	}
 	sort.Strings(lics)
-	var status licenceStatuses
-	remaining := map[lineKey]Nano{}
-	allocated := map[lineKey]Nano{}
-	if len(lics) > 0 {
-		// The licences FOR SHARE with their dated status histories (licence_history.go).
-		var err error
-		if status, err = readLicenceStatuses(ctx, tx, lics); err != nil {
-			return nil, err
-		}
-		q, err := tx.Query(ctx, `SELECT licence_number, line_number, ((allocated - drawn) * 1000000000)::bigint,
-		        (allocated * 1000000000)::bigint
-		    FROM quota_lines WHERE licence_number = ANY($1)
-		    ORDER BY licence_number, line_number FOR UPDATE`, lics)
-		if err != nil {
-			return nil, err
-		}
-		for q.Next() {
-			var k lineKey
-			var rem, alloc int64
-			if err := q.Scan(&k.licence, &k.line, &rem, &alloc); err != nil {
-				q.Close()
-				return nil, err
-			}
-			if lineSet[k] {
-				remaining[k] = Nano(rem)
-				allocated[k] = Nano(alloc)
-			}
-		}
-		if err := q.Err(); err != nil {
-			return nil, err
-		}
+	closed, status, remaining, allocated, err := readRecordLocks(ctx, tx, uniqueInts(rowYears(rows)), lics, lineSet)
+	if err != nil {
+		return nil, err
 	}
 
 	// 2. Keys stored before.
@@ -337,27 +307,119 @@ func recordTx(ctx context.Context, tx pgx.Tx, rows []ShipmentRow) ([]RecordResul
 	for j, i := range accept {
 		accepted[j] = &rows[i]
 	}
-	if err := insertShipments(ctx, tx, ids, accepted); err != nil {
-		return nil, err
+	// One audit event for the batch: the shipments it stored, by id, company and key
+	// (the fields in the order encoding/json gave the maps they replace). It is sent with
+	// the quota draws' update, in one round trip after the COPY.
+	done := make([]storedAudit, len(accept))
+	for j, i := range accept {
+		done[j] = storedAudit{CompanyID: rows[i].CompanyID, RecordKey: rows[i].RecordKey, ShipmentID: ids[j]}
 	}
-	if len(accept) > 0 {
-		// One audit event for the batch: the shipments it stored, by id, company and key.
-		done := make([]map[string]any, len(accept))
-		for j, i := range accept {
-			done[j] = map[string]any{"shipment_id": ids[j], "company_id": rows[i].CompanyID, "record_key": rows[i].RecordKey}
-		}
-		if err := audit(ctx, tx, "record", "shipments", fmt.Sprintf("%d-%d", ids[0], ids[len(ids)-1]), "",
-			map[string]any{"stored": done}); err != nil {
-			return nil, fmt.Errorf("auditing the recorded shipments: %w", err)
-		}
+	detail, err := json.Marshal(struct {
+		Stored []storedAudit `json:"stored"`
+	}{done})
+	if err != nil {
+		return nil, fmt.Errorf("auditing the recorded shipments: %w", err)
+	}
+	then := &pgx.Batch{}
+	queueAudit(ctx, then, "record", "shipments", fmt.Sprintf("%d-%d", ids[0], ids[len(ids)-1]), "", detail)
+	if err := insertShipments(ctx, tx, ids, accepted, then); err != nil {
+		return nil, err
 	}
 	return results, nil
 }
 
+// storedAudit is one shipment in the audit event of a recorded batch.
+type storedAudit struct {
+	CompanyID  string `json:"company_id"`
+	RecordKey  string `json:"record_key"`
+	ShipmentID int64  `json:"shipment_id"`
+}
+
+// readRecordLocks takes a recording batch's locks and reads what it is judged on, in one
+// round trip (a pipeline of the statements lockYears, readLicenceStatuses and the quota
+// lines' read would send one by one; they run in the same order, in the same
+// transaction): the shared advisory lock of each year (ys sorted) and which of them are
+// closed; the licences lics (sorted) FOR SHARE with their status histories; their quota
+// lines FOR UPDATE in (licence, line) order, with what is left and allocated on the lines
+// of lineSet.
+func readRecordLocks(ctx context.Context, tx pgx.Tx, ys []int, lics []string, lineSet map[lineKey]bool) (
+	closed map[int]ClosedYear, status licenceStatuses, remaining, allocated map[lineKey]Nano, err error) {
+	closed = map[int]ClosedYear{}
+	status = licenceStatuses{current: map[string]terms.LicenceStatus{}, version: map[string]int{}, history: map[string][]StatusPeriod{}}
+	remaining, allocated = map[lineKey]Nano{}, map[lineKey]Nano{}
+	b := &pgx.Batch{}
+	for _, y := range ys {
+		b.Queue(`SELECT pg_advisory_xact_lock_shared($1, $2)`, int32(yearLockClass), int32(y)).Exec(func(pgconn.CommandTag) error { return nil })
+	}
+	if len(ys) > 0 {
+		b.Queue(`SELECT year, closed_at, closed_by, reason FROM closed_years WHERE year = ANY($1)`, ys).Query(func(rows pgx.Rows) error {
+			for rows.Next() {
+				var c ClosedYear
+				if err := rows.Scan(&c.Year, &c.ClosedAt, &c.ClosedBy, &c.Reason); err != nil {
+					return err
+				}
+				closed[c.Year] = c
+			}
+			return rows.Err()
+		})
+	}
+	if len(lics) > 0 {
+		b.Queue(`SELECT licence_number, status, version FROM licences
+		    WHERE licence_number = ANY($1) ORDER BY licence_number FOR SHARE`, lics).Query(func(rows pgx.Rows) error {
+			for rows.Next() {
+				var n string
+				var st terms.LicenceStatus
+				var v int
+				if err := rows.Scan(&n, &st, &v); err != nil {
+					return err
+				}
+				status.current[n], status.version[n] = st, v
+			}
+			return rows.Err()
+		})
+		b.Queue(`SELECT licence_number, effective_on, status FROM licence_events
+		    WHERE licence_number = ANY($1) AND status IS NOT NULL ORDER BY licence_number, event_id`, lics).Query(func(rows pgx.Rows) error {
+			for rows.Next() {
+				var n string
+				var p StatusPeriod
+				if err := rows.Scan(&n, &p.From, &p.Status); err != nil {
+					return err
+				}
+				status.history[n] = append(status.history[n], p)
+			}
+			return rows.Err()
+		})
+		b.Queue(`SELECT licence_number, line_number, ((allocated - drawn) * 1000000000)::bigint,
+		        (allocated * 1000000000)::bigint
+		    FROM quota_lines WHERE licence_number = ANY($1)
+		    ORDER BY licence_number, line_number FOR UPDATE`, lics).Query(func(rows pgx.Rows) error {
+			for rows.Next() {
+				var k lineKey
+				var rem, alloc int64
+				if err := rows.Scan(&k.licence, &k.line, &rem, &alloc); err != nil {
+					return err
+				}
+				if lineSet[k] {
+					remaining[k] = Nano(rem)
+					allocated[k] = Nano(alloc)
+				}
+			}
+			return rows.Err()
+		})
+	}
+	if len(b.QueuedQueries) == 0 {
+		return closed, status, remaining, allocated, nil
+	}
+	err = tx.SendBatch(ctx, b).Close()
+	return closed, status, remaining, allocated, err
+}
+
 // insertShipments writes rows under ids (one COPY: each row carries its components and
 // draws, migration 13) and draws their quota; the lines must be locked already. A draw
-// must be on the row's own licence: the row keeps its draws' lines and amounts only.
-func insertShipments(ctx context.Context, tx pgx.Tx, ids []int64, rows []*ShipmentRow) error {
+// must be on the row's own licence: the row keeps its draws' lines and amounts only. The
+// statements of then, when not nil, are sent after the draws' update in the same round
+// trip.
+func insertShipments(ctx context.Context, tx pgx.Tx, ids []int64, rows []*ShipmentRow, then *pgx.Batch) error {
 	drawn := map[lineKey]*big.Int{}
 	var lines []lineKey
 	for _, r := range rows {
@@ -381,23 +443,38 @@ func insertShipments(ctx context.Context, tx pgx.Tx, ids []int64, rows []*Shipme
 		})); err != nil {
 		return fmt.Errorf("storing shipments: %w", err)
 	}
-	if len(lines) == 0 {
+	b := &pgx.Batch{}
+	if len(lines) > 0 {
+		// drawn grows by exactly the sum of the draws just stored.
+		lics := make([]string, len(lines))
+		nums := make([]int32, len(lines))
+		totals := make([]pgtype.Numeric, len(lines))
+		for i, k := range lines {
+			lics[i], nums[i] = k.licence, int32(k.line)
+			totals[i] = pgtype.Numeric{Int: drawn[k], Exp: -9, Valid: true}
+		}
+		b.Queue(`UPDATE quota_lines q SET drawn = q.drawn + d.total
+		    FROM unnest($1::text[], $2::integer[], $3::numeric[]) AS d(licence_number, line_number, total)
+		    WHERE q.licence_number = d.licence_number AND q.line_number = d.line_number`, lics, nums, totals)
+	}
+	drawing := len(b.QueuedQueries)
+	if then != nil {
+		b.QueuedQueries = append(b.QueuedQueries, then.QueuedQueries...)
+	}
+	if len(b.QueuedQueries) == 0 {
 		return nil
 	}
-	// drawn grows by exactly the sum of the draws just stored.
-	lics := make([]string, len(lines))
-	nums := make([]int32, len(lines))
-	totals := make([]pgtype.Numeric, len(lines))
-	for i, k := range lines {
-		lics[i], nums[i] = k.licence, int32(k.line)
-		totals[i] = pgtype.Numeric{Int: drawn[k], Exp: -9, Valid: true}
+	br := tx.SendBatch(ctx, b)
+	for i := range b.QueuedQueries {
+		if _, err := br.Exec(); err != nil {
+			_ = br.Close()
+			if i < drawing {
+				return fmt.Errorf("drawing quota: %w", err)
+			}
+			return fmt.Errorf("auditing the recorded shipments: %w", err)
+		}
 	}
-	if _, err := tx.Exec(ctx, `UPDATE quota_lines q SET drawn = q.drawn + d.total
-	    FROM unnest($1::text[], $2::integer[], $3::numeric[]) AS d(licence_number, line_number, total)
-	    WHERE q.licence_number = d.licence_number AND q.line_number = d.line_number`, lics, nums, totals); err != nil {
-		return fmt.Errorf("drawing quota: %w", err)
-	}
-	return nil
+	return br.Close()
 }
 
 // checkDraws reports whether every draw of r fits what is left; when not, the result

@@ -3,9 +3,11 @@ package store_test
 import (
 	"context"
 	"errors"
+	"strings"
 	"testing"
 
 	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/jackc/pgx/v5/pgtype"
 
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/terms"
@@ -145,5 +147,48 @@ func TestShipmentRowRefusesRepeatedComponentsAndDraws(t *testing.T) {
 		if !errors.As(err, &pe) || pe.Code != "23514" || pe.ConstraintName != c.constraint {
 			t.Errorf("repeating the arrays: %v; want check_violation of %s", err, c.constraint)
 		}
+	}
+}
+
+// Migration 14 made elements_distinct, which the two constraints above call on every row
+// written, an expression the planner inlines; it must answer as the query of migration 13
+// (kept as elements_distinct_scan) on every array: NULL, empty, every text and integer
+// array of up to five elements over three values and NULL (duplicates and NULL elements in
+// every position), and arrays of another lower bound or of two dimensions.
+func TestElementsDistinctMatchesTheScan(t *testing.T) {
+	st, _ := openTestStore(t)
+	ctx := context.Background()
+	for _, c := range []struct{ typ, values string }{
+		{"text", `'a', 'b', 'HFC-125', NULL`},
+		{"integer", `1, 2, 3, NULL`},
+	} {
+		var n, differ int
+		var example pgtype.Text
+		q := `WITH RECURSIVE v(e) AS (SELECT unnest(ARRAY[` + c.values + `]::` + c.typ + `[])),
+		    arrays(a) AS (SELECT '{}'::` + c.typ + `[] UNION ALL SELECT a || e FROM arrays, v WHERE cardinality(a) < 5),
+		    every(a) AS (SELECT a FROM arrays
+		        UNION ALL SELECT NULL::` + c.typ + `[]
+		        UNION ALL SELECT '[0:1]={1,2}'::` + c.typ + `[] UNION ALL SELECT '[0:1]={1,1}'::` + c.typ + `[]
+		        UNION ALL SELECT '[2:2]={1}'::` + c.typ + `[]
+		        UNION ALL SELECT '{{1,2},{3,1}}'::` + c.typ + `[] UNION ALL SELECT '{{1,2},{3,4}}'::` + c.typ + `[])
+		    SELECT count(*), count(*) FILTER (WHERE elements_distinct(a) IS DISTINCT FROM elements_distinct_scan(a)),
+		        min(a::text) FILTER (WHERE elements_distinct(a) IS DISTINCT FROM elements_distinct_scan(a))
+		    FROM every`
+		if err := st.Pool().QueryRow(ctx, q).Scan(&n, &differ, &example); err != nil {
+			t.Fatalf("%s arrays: %v", c.typ, err)
+		}
+		// 1 + 4 + 16 + 64 + 256 + 1024 arrays of up to five elements, and 6 more.
+		if n != 1365+6 || differ != 0 {
+			t.Errorf("%s: %d arrays compared, %d answered differently (e.g. %q); want 1371, 0", c.typ, n, differ, example.String)
+		}
+	}
+	// The point of migration 14: the constraint's function is inlined (a CASE over the
+	// row's own array), not run as a query per row.
+	var plan string
+	if err := st.Pool().QueryRow(ctx, `EXPLAIN (VERBOSE, FORMAT JSON) SELECT elements_distinct(component_designations) FROM shipments`).Scan(&plan); err != nil {
+		t.Fatal(err)
+	}
+	if strings.Contains(plan, "elements_distinct(") || !strings.Contains(plan, "CASE WHEN") {
+		t.Errorf("elements_distinct is not inlined: %s", plan)
 	}
 }
