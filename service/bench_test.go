@@ -19,7 +19,6 @@ import (
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgtype"
 	"google.golang.org/grpc"
-	"google.golang.org/grpc/credentials/insecure"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/protobuf/encoding/protojson"
 
@@ -420,16 +419,7 @@ func BenchmarkCheckUnary(b *testing.B) {
 
 func BenchmarkRecordStreamed(b *testing.B) {
 	s := startBenchServer(b)
-	// A client of its own, without the test clients' float-noise scan of every answer
-	// (noisescan_test.go: protojson and a regexp per answer, a test's check that the real
-	// client does not make): the benchmark measures the service, as the COPY baseline
-	// measures PostgreSQL. The recording tests keep the scan.
-	conn, err := grpc.NewClient(s.conn.Target(), grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		b.Fatal(err)
-	}
-	b.Cleanup(func() { _ = conn.Close() })
-	client := halovetv1.NewShipmentServiceClient(conn)
+	client := halovetv1.NewShipmentServiceClient(s.conn) // dialled without the answer scan, as every benchmark
 	b.ReportAllocs()
 	total := 0
 	for i := 0; b.Loop(); i++ {
