@@ -69,19 +69,37 @@ func (l *keyLookup) StoredRecords(ctx context.Context, keys [][2]string) (map[[2
 }
 
 // run answers a batch with one query, then hands the calls queued meanwhile, if any, to a
-// goroutine that runs them as the next batch (the caller that ran this one returns now).
+// goroutine that answers them as the next batch and goes on while calls keep queuing (the
+// caller that ran this one returns now).
 func (l *keyLookup) run(batch []*keyWait) {
 	l.answer(batch)
+	if next := l.next(); next != nil {
+		go l.drain(next)
+	}
+}
+
+// drain answers batch, then each batch queued while the one before ran, until none is:
+// one goroutine for a run of batches rather than one each. Every batch is taken after
+// its calls queued, and its query starts after it is taken.
+func (l *keyLookup) drain(batch []*keyWait) {
+	for batch != nil {
+		l.answer(batch)
+		batch = l.next()
+	}
+}
+
+// next takes, for a query slot that has just come free, the calls queued meanwhile as the
+// next batch; with none queued, it gives the slot up and returns nil.
+func (l *keyLookup) next() []*keyWait {
 	l.mu.Lock()
+	defer l.mu.Unlock()
 	next := l.queued
 	l.queued = nil
 	if len(next) == 0 {
 		l.inFlight--
+		return nil
 	}
-	l.mu.Unlock()
-	if len(next) > 0 {
-		go l.run(next)
-	}
+	return next
 }
 
 // answer runs one query for the keys of every call of batch and hands each call its part.

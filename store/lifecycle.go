@@ -56,6 +56,11 @@ func storedRefs(ctx context.Context, q interface {
 	if err != nil {
 		return nil, err
 	}
+	return scanStoredRefs(rows)
+}
+
+// scanStoredRefs reads the rows of storedRefs or storedKeysQuery, and closes them.
+func scanStoredRefs(rows pgx.Rows) (map[[2]string][]StoredRef, error) {
 	defer rows.Close()
 	out := map[[2]string][]StoredRef{}
 	for rows.Next() {
@@ -67,21 +72,6 @@ func storedRefs(ctx context.Context, q interface {
 		out[[2]string{c, k}] = append(out[[2]string{c, k}], r)
 	}
 	return out, rows.Err()
-}
-
-// StoredRecords returns every stored version of the (company, key) pairs, oldest first:
-// for a check that tells a record already recorded from a new one.
-func (s *Store) StoredRecords(ctx context.Context, keys [][2]string) (_ map[[2]string][]StoredRef, err error) {
-	defer classifyInto(&err)
-	if len(keys) == 0 {
-		return map[[2]string][]StoredRef{}, nil
-	}
-	companies := make([]string, len(keys))
-	recs := make([]string, len(keys))
-	for i, k := range keys {
-		companies[i], recs[i] = k[0], k[1]
-	}
-	return storedRefs(ctx, s.pool, companies, recs)
 }
 
 // Closed reporting years -----------------------------------------------------------------

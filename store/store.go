@@ -11,6 +11,7 @@ import (
 // Store is a handle on halovet's PostgreSQL database. It is safe for concurrent use.
 type Store struct {
 	pool *pgxpool.Pool
+	keys *pgxpool.Pool // the checks' stored-key lookups (storedkeys.go)
 	url  string
 }
 
@@ -29,14 +30,22 @@ func OpenWith(ctx context.Context, url string, o OpenOptions) (*Store, error) {
 		pool.Close()
 		return nil, fmt.Errorf("database %s does not answer: %w", Redact(url), classified(err))
 	}
-	return &Store{pool: pool, url: url}, nil
+	keys, err := newKeyPool(ctx, cfg)
+	if err != nil {
+		pool.Close()
+		return nil, err
+	}
+	return &Store{pool: pool, keys: keys, url: url}, nil
 }
 
 // Pool exposes the connection pool, for benchmarks and tests in this module.
 func (s *Store) Pool() *pgxpool.Pool { return s.pool }
 
 // Close releases the pool; calls in flight finish first.
-func (s *Store) Close() { s.pool.Close() }
+func (s *Store) Close() {
+	s.pool.Close()
+	s.keys.Close()
+}
 
 // Ping reports whether the database answers.
 func (s *Store) Ping(ctx context.Context) error { return classified(s.pool.Ping(ctx)) }
