@@ -9,7 +9,7 @@ BIN := bin/halovet
 FUZZTIME ?= 20000x
 
 .DEFAULT_GOAL := help
-.PHONY: fault-long help demo test generate lint breaking breaking-release fmt-check tidy-check vet staticcheck drift unit fuzz bench build postgres cc kubeconform kube-schemas bench-load bench-register chromium
+.PHONY: fault-long help demo test generate lint breaking breaking-release fmt-check tidy-check vet staticcheck drift unit bench-once fuzz bench build postgres cc kubeconform kube-schemas bench-load bench-register chromium
 
 help: ## list the targets
 	@grep -hE '^[a-z-]+:.*## ' $(MAKEFILE_LIST) | awk -F':.*## ' '{printf "  make %-10s %s\n", $$1, $$2}'
@@ -35,7 +35,7 @@ cc: ## make sure a C compiler is installed for go test -race (apt-get if missing
 demo: postgres build ## run the demo scenario end to end on a private PostgreSQL cluster
 	$(BIN) demo
 
-test: fmt-check tidy-check vet staticcheck drift lint kubeconform postgres cc chromium unit fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, fuzz
+test: fmt-check tidy-check vet staticcheck drift lint kubeconform postgres cc chromium unit bench-once fuzz ## everything CI runs: format, go.mod tidiness, vet, generated-code drift, buf lint, tests, every benchmark once, fuzz
 	@echo "make test: all checks passed"
 
 fmt-check: ## fail when gofmt would change a tracked Go file (needs a git checkout: it checks what git tracks)
@@ -82,6 +82,11 @@ breaking-release: ## buf breaking-change check of proto/ against RELEASE_POINT (
 
 unit:
 	$(GO) test -race -count=1 ./...
+
+# Every benchmark once, so one that no longer runs (a changed input format, a removed
+# call) fails here and not on the day someone measures; it times nothing.
+bench-once: ## run every Go benchmark for one iteration (a check that they still run, not a measurement)
+	$(GO) test -count=1 -run='^$$' -bench=. -benchtime=1x ./...
 
 fuzz: ## run every fuzz target for FUZZTIME executions (default 20000x; a duration also works)
 	@log=$$(mktemp); trap 'rm -f "$$log"' EXIT; \

@@ -89,10 +89,11 @@ func BenchmarkCheckShipmentHandler(b *testing.B) {
 	b.ReportMetric(float64(total)/b.Elapsed().Seconds(), "records/s")
 }
 
-// benchBatchCSV is the six record templates of the shipment benchmarks (bench_test.go),
+// benchBatchCSV is the six record templates of the shipment benchmarks (bench_test.go, in
+// the external test package, so not shared),
 // one record each.
 func benchBatchCSV() []byte {
-	return []byte(`record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,quantity,quantity_unit,container_count,purpose,condition,declared_composition
+	return []byte(`record_key,direction,company_id,licence_number,partner_country,declaration_date,substance,declared_hs_code,declared_cas_number,declared_formula,total_net_quantity,quantity_unit,package_count,purpose,condition,declared_composition
 H-1,import,XA-8001,XA-IMP-2026-801,XB,2026-06-15,HCFC-22,2903.71,75-45-6,,13.6,kg,10,servicing,,
 H-2,import,XA-8001,XA-IMP-2026-801,XB,2026-06-16,R-404A,3827.61,,,10.9,kg,20,servicing,,
 H-3,import,XA-8001,XA-IMP-2026-801,XC,2026-06-17,R-410A,,,,11.3,kg,40,servicing,,
