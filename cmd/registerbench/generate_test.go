@@ -84,7 +84,7 @@ func TestGenerateSmallRegister(t *testing.T) {
 	for i := range again {
 		a, b := again[i], tots[i]
 		same := a.Tonnes.Equal(b.Tonnes)
-		a.Tonnes, b.Tonnes = b.Tonnes, b.Tonnes
+		a.Tonnes = b.Tonnes
 		if a != b || !same {
 			t.Errorf("after the refused run, total %d = %+v, want %+v", i, again[i], tots[i])
 		}
