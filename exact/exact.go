@@ -127,7 +127,23 @@ func (a Decimal) Fixed(places int32) string {
 }
 
 // Float64 returns the nearest float64, for callers that still compute in binary floats.
-func (a Decimal) Float64() float64 { return a.d.InexactFloat64() }
+// A figure of at most 15 digits with at most 22 decimals (every figure the register keeps
+// at billionths below a million units) converts without allocating: its coefficient and
+// 10^exponent are exact floats, and one division or product rounds correctly.
+func (a Decimal) Float64() float64 {
+	if e := a.d.Exponent(); e >= -22 && e <= 22 && a.d.NumDigits() <= 15 {
+		c := float64(a.d.CoefficientInt64())
+		if e < 0 {
+			return c / pow10[-e]
+		}
+		return c * pow10[e]
+	}
+	return a.d.InexactFloat64()
+}
+
+// pow10 are the powers of ten a float64 holds exactly.
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+	1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
 
 // Add returns a+b.
 func (a Decimal) Add(b Decimal) Decimal { return Decimal{a.d.Add(b.d)} }

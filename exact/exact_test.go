@@ -2,6 +2,7 @@ package exact
 
 import (
 	"errors"
+	"strconv"
 	"testing"
 )
 
@@ -154,5 +155,21 @@ func TestDatabaseAndJSONForms(t *testing.T) {
 	}
 	if _, ok := MustParse("10000000000").Units(-9); ok {
 		t.Error("10^10 in billionths fits an int64; want false (10^19 > 2^63)")
+	}
+}
+
+// TestFloat64MatchesStrconv: the fast conversion gives the float64 strconv parses from the
+// same decimal text (correct rounding, common practice), and allocates nothing.
+func TestFloat64MatchesStrconv(t *testing.T) {
+	for _, s := range []string{"0", "0.4", "0.055", "1430", "-2.5", "123456789.123456789", "0.000000001", "999999999999999", "0.0040316765", "1e2"[:1]} {
+		d := MustParse(s)
+		want, _ := strconv.ParseFloat(d.String(), 64)
+		if got := d.Float64(); got != want {
+			t.Errorf("Float64(%s) = %v, want %v", s, got, want)
+		}
+	}
+	d := MustParse("0.4")
+	if n := testing.AllocsPerRun(100, func() { _ = d.Float64() }); n != 0 {
+		t.Errorf("Float64 of 0.4 allocates %v times; want 0", n)
 	}
 }
