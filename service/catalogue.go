@@ -103,22 +103,9 @@ func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEn
 		size = 100
 	}
 	all := matchingEntries(c.srv.cat.Load(), f)
-	off := 0
-	if tok := req.GetPageToken(); tok != "" {
-		key, err := c.srv.openPageKey(ctx, "entries", filterHash(req), tok)
-		if errors.Is(err, errPageToken) {
-			return nil, invalid(fieldViolation{"page_token", err.Error()})
-		}
-		if err != nil {
-			return nil, toStatus(ctx, c.srv.log, err)
-		}
-		after, ok := parseEntryKey(key)
-		if !ok {
-			return nil, invalid(fieldViolation{"page_token", errPageToken.Error()})
-		}
-		// The first entry after the last one the previous page showed, by the list's
-		// order: an entry added or removed in between moves no other entry across pages.
-		off = sort.Search(len(all), func(i int) bool { return after.before(entryKeyOf(all[i])) })
+	off, err := c.srv.entriesAfter(ctx, req, all)
+	if err != nil {
+		return nil, err
 	}
 	resp := &halovetv1.ListEntriesResponse{TotalSize: int32(len(all))}
 	if off < len(all) {
@@ -133,6 +120,29 @@ func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEn
 		}
 	}
 	return resp, nil
+}
+
+// entriesAfter is the index in all of the first entry a ListEntries page token goes on
+// from (0 without a token): the first entry after the last one the previous page showed, by
+// the list's order, so an entry added or removed in between moves no other entry across
+// pages. A bad token is an InvalidArgument status naming page_token.
+func (s *Server) entriesAfter(ctx context.Context, req *halovetv1.ListEntriesRequest, all []*halovetv1.CatalogueEntry) (int, error) {
+	tok := req.GetPageToken()
+	if tok == "" {
+		return 0, nil
+	}
+	key, err := s.openPageKey(ctx, "entries", filterHash(req), tok)
+	if errors.Is(err, errPageToken) {
+		return 0, invalid(fieldViolation{"page_token", err.Error()})
+	}
+	if err != nil {
+		return 0, toStatus(ctx, s.log, err)
+	}
+	after, ok := parseEntryKey(key)
+	if !ok {
+		return 0, invalid(fieldViolation{"page_token", errPageToken.Error()})
+	}
+	return sort.Search(len(all), func(i int) bool { return after.before(entryKeyOf(all[i])) }), nil
 }
 
 // entryKey is a catalogue entry's place in ListEntries' order, the page key its tokens
