@@ -177,7 +177,7 @@ func zeroGWPNotes(cons Consumption, scope Scope, unit Unit, from, to int) []stri
 				continue
 			}
 			for _, s := range gc.Substances {
-				if s.Substance.GWP == 0 && !s.Tonnes.IsZero() && !slices.Contains(names, s.Substance.Designation) {
+				if s.Substance.GWP.IsZero() && !s.Tonnes.IsZero() && !slices.Contains(names, s.Substance.Designation) {
 					names = append(names, s.Substance.Designation)
 				}
 			}

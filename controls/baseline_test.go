@@ -42,7 +42,7 @@ func TestBaselineODS(t *testing.T) {
 			// Non-A5 CFC baseline is 1986 (Art. 2A): 1986 CFC-11
 			// imports 500 t → 500 ODP t (invented data).
 			name:    "non-A5 CFCs: 1986",
-			records: []Record{rec(1986, cfc11, Flows{Imports: 500})}, party: partyNonA5, scope: ScopeAI,
+			records: []Record{rec(1986, cfc11, Flows{Imports: num("500")})}, party: partyNonA5, scope: ScopeAI,
 			wantYears: []wantYear{{1986, 500, true}}, wantMean: 500, wantValue: 500,
 			wantRule: "Art. 2A [V]",
 		},
@@ -52,8 +52,8 @@ func TestBaselineODS(t *testing.T) {
 			// 80, 100, 120, 140 t × 0.6 = 48, 60, 72, 84 ODP t; mean 66 ODP t (invented data).
 			name: "A5 methyl bromide: mean 1995–1998, QPS excluded",
 			records: []Record{
-				rec(1995, mbr, Flows{Imports: 100, QPS: 20}), rec(1996, mbr, Flows{Imports: 120, QPS: 20}),
-				rec(1997, mbr, Flows{Imports: 140, QPS: 20}), rec(1998, mbr, Flows{Imports: 160, QPS: 20}),
+				rec(1995, mbr, Flows{Imports: num("100"), QPS: num("20")}), rec(1996, mbr, Flows{Imports: num("120"), QPS: num("20")}),
+				rec(1997, mbr, Flows{Imports: num("140"), QPS: num("20")}), rec(1998, mbr, Flows{Imports: num("160"), QPS: num("20")}),
 			},
 			party: partyA5G1, scope: ScopeEI,
 			wantYears: []wantYear{{1995, 48, true}, {1996, 60, true}, {1997, 72, true}, {1998, 84, true}},
@@ -108,8 +108,8 @@ func TestBaselineA5UsedCounted(t *testing.T) {
 	// Same used import in a non-A5 base year: 1989 HCFC-22 imports 900 t + used 100 t →
 	// 900 × 0.055 = 49.5 ODP t; with 1989 CFC-11 1000 t: + 2.8 % × 1000 = 28 → 77.5 ODP t.
 	nb, err := rb.Baseline([]Record{
-		rec(1989, hcfc22, Flows{Imports: 900, UsedImports: 100}),
-		rec(1989, cfc11, Flows{Imports: 1000}),
+		rec(1989, hcfc22, Flows{Imports: num("900"), UsedImports: num("100")}),
+		rec(1989, cfc11, Flows{Imports: num("1000")}),
 	}, partyNonA5, ScopeCI)
 	if err != nil {
 		t.Fatal(err)
@@ -192,12 +192,12 @@ func TestBaselineHFC(t *testing.T) {
 func TestBaselineZeroGWPNote(t *testing.T) {
 	rb := mustRulebook(t)
 	b, err := rb.Baseline([]Record{
-		rec(1989, hcfc22, Flows{Imports: 100}),
-		rec(1989, hcfc31, Flows{Imports: 50}),
+		rec(1989, hcfc22, Flows{Imports: num("100")}),
+		rec(1989, hcfc31, Flows{Imports: num("50")}),
 		rec(1989, cfc11, Flows{}),
-		rec(2011, hfc32, Flows{Imports: 100}),
-		rec(2012, hfc32, Flows{Imports: 100}),
-		rec(2013, hfc32, Flows{Imports: 100}),
+		rec(2011, hfc32, Flows{Imports: num("100")}),
+		rec(2012, hfc32, Flows{Imports: num("100")}),
+		rec(2013, hfc32, Flows{Imports: num("100")}),
 	}, partyNonA5, ScopeF)
 	if err != nil {
 		t.Fatal(err)

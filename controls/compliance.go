@@ -207,7 +207,7 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 	needBaseline := ya.AllowedPercent.Sign() > 0 || al.Average != nil
 	baseline := exact.Zero
 	if needBaseline && ov.Baseline != nil {
-		baseline = exact.OfFloat(ov.Baseline.Value)
+		baseline = ov.Baseline.Value
 		ya.Notes = append(ya.Notes, fmt.Sprintf("baseline as officially set: %s %s (%s); the computed baseline is reported beside it",
 			fmtAmount(baseline, unit), unit, ov.Baseline.Source))
 		needBaseline = false
@@ -238,7 +238,7 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 		return periodYear(cons, ya, *al.Average, scope, baseline), nil
 	}
 	if lim := ya.OfficialLimit; lim != nil {
-		ya.Allowed = exact.OfFloat(lim.Value)
+		ya.Allowed = lim.Value
 		ya.Notes = append(ya.Notes, fmt.Sprintf("limit as officially set: %s %s (%s), in place of the schedule's %s %s",
 			fmtAmount(ya.Allowed, unit), unit, lim.Source, fmtAmount(ya.ComputedAllowed, unit), unit))
 		if ya.Allowed.Cmp(ya.ComputedAllowed) > 0 {
@@ -247,7 +247,7 @@ func (rb *Rulebook) assessYear(cons Consumption, base *baselineCache, party Part
 	}
 	for _, e := range ya.Exemptions {
 		ya.Notes = append(ya.Notes, fmt.Sprintf("authorised %s-use exemption: %s %s (%s), added to the limit",
-			e.Use, fmtAmount(exact.OfFloat(e.Amount), unit), unit, e.Source))
+			e.Use, fmtAmount(e.Amount, unit), unit, e.Source))
 	}
 	ya.Allowed = ya.Allowed.Add(ya.Exempted)
 	if !ya.HasData {

@@ -84,7 +84,7 @@ func TestAssessYears(t *testing.T) {
 		{
 			// Non-A5 CFCs 2016: 0 % from 1996 (Art. 2A); no baseline
 			// needed. CFC-11 imports 2 t → 2 ODP t → headroom −2 (invented data).
-			name: "non-A5 CFCs 2016 (0 %, no baseline needed)", records: []Record{rec(2016, cfc11, Flows{Imports: 2})},
+			name: "non-A5 CFCs 2016 (0 %, no baseline needed)", records: []Record{rec(2016, cfc11, Flows{Imports: num("2")})},
 			party: partyNonA5, scope: ScopeAI, year: 2016, tol: tolODP,
 			wantPercent: 0, wantAllowed: 0, wantCons: 2, wantHeadroom: -2, wantOutcome: Exceeded,
 			wantNote: "essential uses are exempted",
@@ -101,7 +101,7 @@ func TestAssessYears(t *testing.T) {
 		{
 			// Non-A5 methyl bromide 2016: 0 % from 2005 (Art. 2H); imports
 			// 50 t all used for QPS → 0 ODP t (QPS excluded): within (invented data).
-			name: "non-A5 methyl bromide 2016, all QPS", records: []Record{rec(2016, mbr, Flows{Imports: 50, QPS: 50})},
+			name: "non-A5 methyl bromide 2016, all QPS", records: []Record{rec(2016, mbr, Flows{Imports: num("50"), QPS: num("50")})},
 			party: partyNonA5, scope: ScopeEI, year: 2016, tol: tolODP,
 			wantPercent: 0, wantAllowed: 0, wantCons: 0, wantHeadroom: 0, wantOutcome: Within,
 			wantNote: "critical uses are exempted",
@@ -196,7 +196,7 @@ func TestAssessPeriodAverageEnds(t *testing.T) {
 
 	// 2030 imports 800 t → 44 ODP t > budget 40.8875 → room −3.1125: exceeded in the first
 	// year, since the total can no longer fit (invented data; rule as above).
-	over := append(slicesClone(base), rec(2030, hcfc22, Flows{Imports: 800}))
+	over := append(slicesClone(base), rec(2030, hcfc22, Flows{Imports: num("800")}))
 	a, err := rb.Assess(over, partyA5G1, ScopeCI, 2030, 2030)
 	if err != nil {
 		t.Fatal(err)
@@ -210,7 +210,7 @@ func TestAssessPeriodAverageEnds(t *testing.T) {
 	// mean 3.85 / 163.55 = 2.354 % ≤ 2.5 %: met (invented data; rule as above).
 	full := slicesClone(base)
 	for y := 2030; y <= 2039; y++ {
-		full = append(full, rec(y, hcfc22, Flows{Imports: 70}))
+		full = append(full, rec(y, hcfc22, Flows{Imports: num("70")}))
 	}
 	a, err = rb.Assess(full, partyA5G1, ScopeCI, 2039, 2040)
 	if err != nil {

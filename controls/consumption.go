@@ -66,7 +66,7 @@ func Calculate(records []Record, counting Counting) (Consumption, error) {
 			return Consumption{}, err
 		}
 		s := r.Substance
-		if prev, ok := seen[s.Designation]; ok && prev != s {
+		if prev, ok := seen[s.Designation]; ok && !prev.same(s) {
 			return Consumption{}, fieldErr(fmt.Sprintf("records[%d].substance", i),
 				"the same group, ODP and GWP in every record of one substance",
 				"%s has group %q ODP %v GWP %v here but group %q ODP %v GWP %v in an earlier record",
@@ -93,8 +93,8 @@ func Calculate(records []Record, counting Counting) (Consumption, error) {
 	groups := map[gkey]*GroupConsumption{}
 	for k, sc := range merged {
 		sc.Tonnes = sc.Flows.Counted(counting == IncludeUsed)
-		sc.ODPTonnes = sc.Tonnes.Mul(exact.OfFloat(sc.Substance.ODP))
-		sc.CO2eTonnes = sc.Tonnes.Mul(exact.OfFloat(sc.Substance.GWP))
+		sc.ODPTonnes = sc.Tonnes.Mul(sc.Substance.ODP)
+		sc.CO2eTonnes = sc.Tonnes.Mul(sc.Substance.GWP)
 		gk := gkey{k.year, sc.Substance.Group}
 		g := groups[gk]
 		if g == nil {

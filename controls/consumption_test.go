@@ -29,8 +29,8 @@ func TestCalculateFlows(t *testing.T) {
 			// Ozone Secretariat's data centre and the European Environment Agency publish negative figures).
 			name: "negative consumption",
 			records: []Record{
-				rec(2016, hcfc22, Flows{Imports: 10, Exports: 25}),
-				rec(2016, hcfc141b, Flows{Destruction: 5}),
+				rec(2016, hcfc22, Flows{Imports: num("10"), Exports: num("25")}),
+				rec(2016, hcfc141b, Flows{Destruction: num("5")}),
 			},
 			group: substances.GroupCI, wantT: -20, wantODP: -1.375, wantCO2e: -15*1810 - 5*725,
 		},
@@ -38,28 +38,28 @@ func TestCalculateFlows(t *testing.T) {
 			// Imports 100 t of CCl4, of which 40 t used entirely as feedstock: 100 − 40 = 60 t;
 			// 60 × 1.1 = 66 ODP t (Art. 1 para 5, Decision VII/30).
 			name:    "feedstock imports excluded",
-			records: []Record{rec(2016, ccl4, Flows{Imports: 100, Feedstock: 40})},
+			records: []Record{rec(2016, ccl4, Flows{Imports: num("100"), Feedstock: num("40")})},
 			group:   substances.GroupBII, wantT: 60, wantODP: 66,
 		},
 		{
 			// Production 100, exports to Parties 30, exports to non-Parties 20 (not deducted):
 			// 100 − 30 = 70 t; 70 × 0.055 = 3.85 ODP t (Art. 3 para 1(c)).
 			name:    "exports to non-Parties not deducted",
-			records: []Record{rec(2016, hcfc22, Flows{Production: 100, Exports: 30, ExportsNonParty: 20})},
+			records: []Record{rec(2016, hcfc22, Flows{Production: num("100"), Exports: num("30"), ExportsNonParty: num("20")})},
 			group:   substances.GroupCI, wantT: 70, wantODP: 3.85, wantCO2e: 70 * 1810,
 		},
 		{
 			// Methyl bromide imports 100 t, 70 t used for QPS: 30 t × 0.6 = 18 ODP t
 			// (Art. 2H para 6).
 			name:    "QPS excluded for methyl bromide",
-			records: []Record{rec(2016, mbr, Flows{Imports: 100, QPS: 70})},
+			records: []Record{rec(2016, mbr, Flows{Imports: num("100"), QPS: num("70")})},
 			group:   substances.GroupEI, wantT: 30, wantODP: 18,
 		},
 		{
 			// Used imports 50 t, used exports 10 t, transit 500 t: none counted outside an
 			// Article 5 base year: 200 t × 0.055 = 11 ODP t (Decision IV/24 para 2 [V]).
 			name:     "used, recycled and transit not counted",
-			records:  []Record{rec(2016, hcfc22, Flows{Imports: 200, UsedImports: 50, UsedExports: 10, Transit: 500})},
+			records:  []Record{rec(2016, hcfc22, Flows{Imports: num("200"), UsedImports: num("50"), UsedExports: num("10"), Transit: num("500")})},
 			counting: ExcludeUsed,
 			group:    substances.GroupCI, wantT: 200, wantODP: 11, wantCO2e: 200 * 1810,
 		},
@@ -67,7 +67,7 @@ func TestCalculateFlows(t *testing.T) {
 			// Same flows counted as an Article 5 base year: 200 + 50 − 10 = 240 t;
 			// 240 × 0.055 = 13.2 ODP t (Decision IV/24 para 2 exception [V]).
 			name:     "used counted in an Article 5 base year",
-			records:  []Record{rec(2016, hcfc22, Flows{Imports: 200, UsedImports: 50, UsedExports: 10, Transit: 500})},
+			records:  []Record{rec(2016, hcfc22, Flows{Imports: num("200"), UsedImports: num("50"), UsedExports: num("10"), Transit: num("500")})},
 			counting: IncludeUsed,
 			group:    substances.GroupCI, wantT: 240, wantODP: 13.2, wantCO2e: 240 * 1810,
 		},
@@ -75,8 +75,8 @@ func TestCalculateFlows(t *testing.T) {
 			// Two records of one substance and year are added: (30 + 20) × 1430 = 71 500 t CO2-eq.
 			name: "records of one substance added",
 			records: []Record{
-				rec(2016, hfc134a, Flows{Imports: 30}),
-				rec(2016, hfc134a, Flows{Imports: 20}),
+				rec(2016, hfc134a, Flows{Imports: num("30")}),
+				rec(2016, hfc134a, Flows{Imports: num("20")}),
 			},
 			group: substances.GroupFI, wantT: 50, wantCO2e: 71500,
 		},
@@ -102,9 +102,9 @@ func TestCalculateFlows(t *testing.T) {
 func TestCalculateSubstanceBreakdown(t *testing.T) {
 	// Worked example, invented data.
 	c, err := Calculate([]Record{
-		rec(2016, hcfc141b, Flows{Imports: 10}),
-		rec(2016, hcfc22, Flows{Imports: 100}),
-		rec(2015, hfc134a, Flows{Imports: 1}),
+		rec(2016, hcfc141b, Flows{Imports: num("10")}),
+		rec(2016, hcfc22, Flows{Imports: num("100")}),
+		rec(2015, hfc134a, Flows{Imports: num("1")}),
 	}, ExcludeUsed)
 	if err != nil {
 		t.Fatal(err)
@@ -134,7 +134,7 @@ func TestCalculateSubstanceBreakdown(t *testing.T) {
 // alone or in a mixture, so each controlled component counts in its own group). Import quantity: worked example, invented data.
 func TestBlendCountedPerComponent(t *testing.T) {
 	r402a := []substances.Component{{Designation: "HFC-125", MassPct: 60}, {Designation: "R-290", MassPct: 2}, {Designation: "HCFC-22", MassPct: 38}}
-	parts, err := SplitMass(10, r402a)
+	parts, err := SplitMass(num("10"), r402a)
 	if err != nil {
 		t.Fatalf("SplitMass: %v", err)
 	}
@@ -142,11 +142,11 @@ func TestBlendCountedPerComponent(t *testing.T) {
 	byDes := map[string]Substance{"HFC-125": hfc125, "R-290": propane, "HCFC-22": hcfc22}
 	var records []Record
 	for _, p := range parts {
-		near(t, p.Designation+" tonnes", exact.OfFloat(p.Tonnes), want[p.Designation], tolT)
+		near(t, p.Designation+" tonnes", p.Tonnes, want[p.Designation], tolT)
 		records = append(records, rec(2024, byDes[p.Designation], Flows{Imports: p.Tonnes}))
 	}
 	// Pure HCFC-22 imported the same year (1 t) adds to the component's 3.8 t.
-	records = append(records, rec(2024, hcfc22, Flows{Imports: 1}))
+	records = append(records, rec(2024, hcfc22, Flows{Imports: num("1")}))
 	c, err := Calculate(records, ExcludeUsed)
 	if err != nil {
 		t.Fatal(err)
@@ -162,24 +162,24 @@ func TestBlendCountedPerComponent(t *testing.T) {
 	if !slices.Equal(c.Uncontrolled, []string{"R-290"}) {
 		t.Errorf("Uncontrolled = %v, want [R-290]", c.Uncontrolled)
 	}
-	scaled := Flows{Imports: 10, Exports: 5}.Scaled(0.38)
-	near(t, "scaled imports", exact.OfFloat(scaled.Imports), 3.8, tolT)
-	near(t, "scaled exports", exact.OfFloat(scaled.Exports), 1.9, tolT)
+	scaled := Flows{Imports: num("10"), Exports: num("5")}.Scaled(num("0.38"))
+	near(t, "scaled imports", scaled.Imports, 3.8, tolT)
+	near(t, "scaled exports", scaled.Exports, 1.9, tolT)
 }
 
 func TestSplitMassRejects(t *testing.T) {
 	tests := []struct {
 		name  string
-		mass  float64
+		mass  exact.Decimal
 		comps []substances.Component
 		field string
 	}{
-		{"negative mass", -1, []substances.Component{{Designation: "HFC-32", MassPct: 100}}, "tonnes"},
-		{"no components", 1, nil, "components"},
-		{"empty designation", 1, []substances.Component{{Designation: " ", MassPct: 100}}, "components[0].designation"},
-		{"duplicate", 1, []substances.Component{{Designation: "HFC-32", MassPct: 50}, {Designation: "HFC-32", MassPct: 50}}, "components[1].designation"},
-		{"zero share", 1, []substances.Component{{Designation: "HFC-32", MassPct: 0}, {Designation: "HFC-125", MassPct: 100}}, "components[0].mass_pct"},
-		{"sum not 100", 1, []substances.Component{{Designation: "HFC-32", MassPct: 50}, {Designation: "HFC-125", MassPct: 49}}, "components"},
+		{"negative mass", num("-1"), []substances.Component{{Designation: "HFC-32", MassPct: 100}}, "tonnes"},
+		{"no components", num("1"), nil, "components"},
+		{"empty designation", num("1"), []substances.Component{{Designation: " ", MassPct: 100}}, "components[0].designation"},
+		{"duplicate", num("1"), []substances.Component{{Designation: "HFC-32", MassPct: 50}, {Designation: "HFC-32", MassPct: 50}}, "components[1].designation"},
+		{"zero share", num("1"), []substances.Component{{Designation: "HFC-32", MassPct: 0}, {Designation: "HFC-125", MassPct: 100}}, "components[0].mass_pct"},
+		{"sum not 100", num("1"), []substances.Component{{Designation: "HFC-32", MassPct: 50}, {Designation: "HFC-125", MassPct: 49}}, "components"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -198,14 +198,14 @@ func TestCalculateRejects(t *testing.T) {
 		records []Record
 		field   string
 	}{
-		{"QPS outside Annex E", []Record{rec(2016, hcfc22, Flows{Imports: 10, QPS: 1})}, "records[0].flows.qps"},
-		{"negative flow", []Record{rec(2016, hcfc22, Flows{Imports: -1})}, "records[0].flows.imports"},
+		{"QPS outside Annex E", []Record{rec(2016, hcfc22, Flows{Imports: num("10"), QPS: num("1")})}, "records[0].flows.qps"},
+		{"negative flow", []Record{rec(2016, hcfc22, Flows{Imports: num("-1")})}, "records[0].flows.imports"},
 		{"year out of range", []Record{rec(1850, hcfc22, Flows{})}, "records[0].year"},
-		{"empty designation", []Record{rec(2016, Substance{Group: substances.GroupCI, ODP: 0.1}, Flows{})}, "records[0].substance.designation"},
-		{"unknown group", []Record{rec(2016, Substance{"X", "G/I", 1, 0}, Flows{})}, "records[0].substance.group"},
-		{"ODP missing for an HCFC", []Record{rec(2016, Substance{"HCFC-22", substances.GroupCI, 0, 1810}, Flows{})}, "records[0].substance.odp"},
-		{"GWP missing for an HFC", []Record{rec(2016, Substance{"HFC-32", substances.GroupFI, 0, 0}, Flows{})}, "records[0].substance.gwp"},
-		{"inconsistent factors", []Record{rec(2016, hcfc22, Flows{}), rec(2017, Substance{"HCFC-22", substances.GroupCI, 0.05, 1810}, Flows{})}, "records[1].substance"},
+		{"empty designation", []Record{rec(2016, Substance{Group: substances.GroupCI, ODP: num("0.1")}, Flows{})}, "records[0].substance.designation"},
+		{"unknown group", []Record{rec(2016, Substance{"X", "G/I", num("1"), num("0")}, Flows{})}, "records[0].substance.group"},
+		{"ODP missing for an HCFC", []Record{rec(2016, Substance{"HCFC-22", substances.GroupCI, num("0"), num("1810")}, Flows{})}, "records[0].substance.odp"},
+		{"GWP missing for an HFC", []Record{rec(2016, Substance{"HFC-32", substances.GroupFI, num("0"), num("0")}, Flows{})}, "records[0].substance.gwp"},
+		{"inconsistent factors", []Record{rec(2016, hcfc22, Flows{}), rec(2017, Substance{"HCFC-22", substances.GroupCI, num("0.05"), num("1810")}, Flows{})}, "records[1].substance"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -259,11 +259,11 @@ func TestParseScope(t *testing.T) {
 func TestSubstanceOf(t *testing.T) {
 	s := &substances.Substance{Designation: "HCFC-22", Group: substances.GroupCI, ODP: 0.055,
 		GWP: map[substances.GWPSet]float64{substances.SetProtocol: 1810, substances.SetAR5: 1760}}
-	if got := SubstanceOf(s); got != hcfc22 {
+	if got := SubstanceOf(s); !got.same(hcfc22) {
 		t.Errorf("SubstanceOf = %+v, want %+v", got, hcfc22)
 	}
 	noGWP := &substances.Substance{Designation: "HCFC-31", Group: substances.GroupCI, ODP: 0.02}
-	if got := SubstanceOf(noGWP); got != hcfc31 {
+	if got := SubstanceOf(noGWP); !got.same(hcfc31) {
 		t.Errorf("SubstanceOf without a Protocol GWP = %+v, want GWP 0 (%+v)", got, hcfc31)
 	}
 }

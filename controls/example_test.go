@@ -4,6 +4,7 @@ import (
 	"fmt"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/terms"
 )
@@ -17,12 +18,12 @@ func ExampleRulebook_Assess() {
 	if err != nil {
 		panic(err)
 	}
-	hcfc22 := controls.Substance{Designation: "HCFC-22", Group: substances.GroupCI, ODP: 0.055, GWP: 1810}
-	cfc11 := controls.Substance{Designation: "CFC-11", Group: substances.GroupAI, ODP: 1, GWP: 4750}
+	hcfc22 := controls.Substance{Designation: "HCFC-22", Group: substances.GroupCI, ODP: exact.MustParse("0.055"), GWP: exact.MustParse("1810")}
+	cfc11 := controls.Substance{Designation: "CFC-11", Group: substances.GroupAI, ODP: exact.MustParse("1"), GWP: exact.MustParse("4750")}
 	records := []controls.Record{
-		{Year: 1989, Substance: hcfc22, Flows: controls.Flows{Imports: 900}},
-		{Year: 1989, Substance: cfc11, Flows: controls.Flows{Imports: 1000}},
-		{Year: 2025, Substance: hcfc22, Flows: controls.Flows{Imports: 5}},
+		{Year: 1989, Substance: hcfc22, Flows: controls.Flows{Imports: exact.MustParse("900")}},
+		{Year: 1989, Substance: cfc11, Flows: controls.Flows{Imports: exact.MustParse("1000")}},
+		{Year: 2025, Substance: hcfc22, Flows: controls.Flows{Imports: exact.MustParse("5")}},
 	}
 	party := controls.Party{Type: terms.PartyTypeNonArticle5, HFC: terms.HFCGroupNonA5}
 	a, err := rb.Assess(records, party, controls.ScopeCI, 2025, 2025)
@@ -39,17 +40,17 @@ func ExampleRulebook_Assess() {
 }
 
 // Largest-remainder quotas (invented companies): 90 % of 10 ODP t = 9000 units of 0.001.
-// References 2023+2024: 9, 3, 2 (sum 14). Exact shares 5785.714, 1928.571, 1285.714 units;
+// References 2023+2024: exact.MustParse("9"), 3, 2 (sum 14). Exact shares 5785.714, 1928.571, 1285.714 units;
 // whole units 5785 + 1928 + 1285 = 8998; the 2 units left go to the largest remainders
 // (0.714 for importers 1 and 3, ahead of 0.571): 5786, 1928, 1286. Rounding each share
 // to the nearest unit instead would give 5786 + 1929 + 1286 = 9001, above the total.
 func ExamplePlanQuotas() {
 	plan, err := controls.PlanQuotas(controls.QuotaRequest{
-		Total: 10, Fraction: 0.9, Granularity: 0.001, ReferenceYears: []int{2023, 2024},
+		Total: exact.MustParse("10"), Fraction: exact.MustParse("0.9"), Granularity: exact.MustParse("0.001"), ReferenceYears: []int{2023, 2024},
 		Companies: []controls.CompanyReference{
-			{CompanyID: "QM-importer-1", Amounts: map[int]float64{2023: 4, 2024: 5}},
-			{CompanyID: "QM-importer-2", Amounts: map[int]float64{2023: 3, 2024: 0}},
-			{CompanyID: "QM-importer-3", Amounts: map[int]float64{2024: 2}},
+			{CompanyID: "QM-importer-1", Amounts: map[int]exact.Decimal{2023: exact.MustParse("4"), 2024: exact.MustParse("5")}},
+			{CompanyID: "QM-importer-2", Amounts: map[int]exact.Decimal{2023: exact.MustParse("3"), 2024: exact.MustParse("0")}},
+			{CompanyID: "QM-importer-3", Amounts: map[int]exact.Decimal{2024: exact.MustParse("2")}},
 		},
 	})
 	if err != nil {

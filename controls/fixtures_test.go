@@ -5,7 +5,6 @@ import (
 	"math"
 	"os"
 	"path/filepath"
-	"strconv"
 	"testing"
 
 	"github.com/halovet/halovet/exact"
@@ -26,20 +25,23 @@ const (
 // Table 2.14); a substance with no GWP listed counts 0 (Annex C footnote). Every value is
 // checked against testdata/reference/halocarbons.csv by TestFixturesMatchReference.
 var (
-	cfc11    = Substance{"CFC-11", substances.GroupAI, 1.0, 4750}             // source: MP Annex A Group I ODP; Kigali Annex A GWP
-	cfc12    = Substance{"CFC-12", substances.GroupAI, 1.0, 10900}            // source: MP Annex A Group I ODP; Kigali Annex A GWP
-	ccl4     = Substance{"carbon tetrachloride", substances.GroupBII, 1.1, 0} // source: MP Annex B Group II ODP; Protocol lists no GWP for Annex B
-	hcfc22   = Substance{"HCFC-22", substances.GroupCI, 0.055, 1810}          // source: MP Annex C Group I ODP; Kigali Annex C GWP
-	hcfc141b = Substance{"HCFC-141b", substances.GroupCI, 0.11, 725}          // source: MP Annex C Group I ODP; Kigali Annex C GWP
-	hcfc142b = Substance{"HCFC-142b", substances.GroupCI, 0.065, 2310}        // source: MP Annex C Group I ODP; Kigali Annex C GWP
-	hcfc31   = Substance{"HCFC-31", substances.GroupCI, 0.02, 0}              // source: MP Annex C Group I ODP; no Kigali GWP listed → 0 (Annex C footnote)
-	mbr      = Substance{"methyl bromide", substances.GroupEI, 0.6, 0}        // source: MP Annex E ODP; no Protocol GWP
-	hfc134a  = Substance{"HFC-134a", substances.GroupFI, 0, 1430}             // source: MP Annex F Group I GWP
-	hfc125   = Substance{"HFC-125", substances.GroupFI, 0, 3500}              // source: MP Annex F Group I GWP
-	hfc32    = Substance{"HFC-32", substances.GroupFI, 0, 675}                // source: MP Annex F Group I GWP
-	hfc23    = Substance{"HFC-23", substances.GroupFII, 0, 14800}             // source: MP Annex F Group II GWP
-	propane  = Substance{"R-290", substances.GroupNone, 0, 0}                 // not controlled: in no Annex of the Protocol
+	cfc11    = Substance{"CFC-11", substances.GroupAI, num("1.0"), num("4750")}             // source: MP Annex A Group I ODP; Kigali Annex A GWP
+	cfc12    = Substance{"CFC-12", substances.GroupAI, num("1.0"), num("10900")}            // source: MP Annex A Group I ODP; Kigali Annex A GWP
+	ccl4     = Substance{"carbon tetrachloride", substances.GroupBII, num("1.1"), num("0")} // source: MP Annex B Group II ODP; Protocol lists no GWP for Annex B
+	hcfc22   = Substance{"HCFC-22", substances.GroupCI, num("0.055"), num("1810")}          // source: MP Annex C Group I ODP; Kigali Annex C GWP
+	hcfc141b = Substance{"HCFC-141b", substances.GroupCI, num("0.11"), num("725")}          // source: MP Annex C Group I ODP; Kigali Annex C GWP
+	hcfc142b = Substance{"HCFC-142b", substances.GroupCI, num("0.065"), num("2310")}        // source: MP Annex C Group I ODP; Kigali Annex C GWP
+	hcfc31   = Substance{"HCFC-31", substances.GroupCI, num("0.02"), num("0")}              // source: MP Annex C Group I ODP; no Kigali GWP listed → 0 (Annex C footnote)
+	mbr      = Substance{"methyl bromide", substances.GroupEI, num("0.6"), num("0")}        // source: MP Annex E ODP; no Protocol GWP
+	hfc134a  = Substance{"HFC-134a", substances.GroupFI, num("0"), num("1430")}             // source: MP Annex F Group I GWP
+	hfc125   = Substance{"HFC-125", substances.GroupFI, num("0"), num("3500")}              // source: MP Annex F Group I GWP
+	hfc32    = Substance{"HFC-32", substances.GroupFI, num("0"), num("675")}                // source: MP Annex F Group I GWP
+	hfc23    = Substance{"HFC-23", substances.GroupFII, num("0"), num("14800")}             // source: MP Annex F Group II GWP
+	propane  = Substance{"R-290", substances.GroupNone, num("0"), num("0")}                 // not controlled: in no Annex of the Protocol
 )
+
+// num is a figure written in a test as a decimal literal, exactly.
+func num(s string) exact.Decimal { return exact.MustParse(s) }
 
 func rec(year int, s Substance, f Flows) Record { return Record{Year: year, Substance: s, Flows: f} }
 
@@ -98,11 +100,11 @@ func TestFixturesMatchReference(t *testing.T) {
 	for _, r := range rows[1:] {
 		byName[r[col["designation"]]] = r
 	}
-	num := func(s string) float64 {
+	ref := func(s string) exact.Decimal {
 		if s == "" {
-			return 0
+			return exact.Zero
 		}
-		v, err := strconv.ParseFloat(s, 64)
+		v, err := exact.Parse(s)
 		if err != nil {
 			t.Fatalf("reference value %q: %v", s, err)
 		}
@@ -117,12 +119,12 @@ func TestFixturesMatchReference(t *testing.T) {
 		if g := substances.Group(r[col["mp_annex_group"]]); g != s.Group {
 			t.Errorf("%s group = %s in reference, fixture has %s", s.Designation, g, s.Group)
 		}
-		if v := num(r[col["odp"]]); v != s.ODP {
+		if v := ref(r[col["odp"]]); !v.Equal(s.ODP) {
 			t.Errorf("%s ODP = %v in reference, fixture has %v", s.Designation, v, s.ODP)
 		}
 		// Protocol GWPs exist for A/I, C/I and F only; elsewhere the fixture carries 0.
 		if s.Group == substances.GroupAI || s.Group == substances.GroupCI || s.Group == substances.GroupFI || s.Group == substances.GroupFII {
-			if v := num(r[col["gwp100_ar4"]]); v != s.GWP {
+			if v := ref(r[col["gwp100_ar4"]]); !v.Equal(s.GWP) {
 				t.Errorf("%s GWP = %v in reference (AR4 = Protocol), fixture has %v", s.Designation, v, s.GWP)
 			}
 		}

@@ -15,8 +15,8 @@ import (
 // OfficialFigure is a baseline or a year's limit as officially set, e.g. a baseline as the
 // Parties have set it, or a limit of an agreed plan stricter than the treaty's.
 type OfficialFigure struct {
-	Value  float64 // in the scope's unit
-	Source string  // the decision or document that sets it
+	Value  exact.Decimal // in the scope's unit
+	Source string        // the decision or document that sets it
 }
 
 // ExemptionUse is the kind of an authorised exemption.
@@ -67,8 +67,8 @@ func joinUses() string {
 // Exemption is one authorised exemption of one Party, scope and year.
 type Exemption struct {
 	Use    ExemptionUse
-	Amount float64 // in the scope's unit
-	Source string  // the decision that authorises it
+	Amount exact.Decimal // in the scope's unit
+	Source string        // the decision that authorises it
 }
 
 // Overrides are what a compliance assessment adds to the arithmetic: an official baseline,
@@ -90,7 +90,7 @@ func (o Overrides) exempted(year int) (exact.Decimal, []Exemption) {
 	})
 	sum := exact.Zero
 	for _, e := range es {
-		sum = sum.Add(exact.OfFloat(e.Amount))
+		sum = sum.Add(e.Amount)
 	}
 	return sum, es
 }

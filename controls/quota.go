@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"math/big"
 	"slices"
-	"strconv"
 	"strings"
 
 	"github.com/halovet/halovet/exact"
@@ -15,18 +14,18 @@ import (
 // the plan's unit), from which its share is taken.
 type CompanyReference struct {
 	CompanyID string
-	Amounts   map[int]float64 // by calendar year; a year absent counts as 0
+	Amounts   map[int]exact.Decimal // by calendar year; a year absent counts as 0
 }
 
 // QuotaRequest describes a quota plan.
 type QuotaRequest struct {
 	// Total is the amount the plan starts from: next year's allowed level (see
 	// Rulebook.AllowedLevel) or an explicit total, in the plan's unit; ≥ 0.
-	Total float64
+	Total exact.Decimal
 	// Fraction of Total to distribute, 0 < Fraction ≤ 1 (e.g. 0.9 to hold back a reserve).
-	Fraction float64
+	Fraction exact.Decimal
 	// Granularity is the smallest unit of allocation, > 0 (e.g. 0.001 ODP t).
-	Granularity float64
+	Granularity exact.Decimal
 	// ReferenceYears are the years whose amounts are added to give each reference amount.
 	ReferenceYears []int
 	Companies      []CompanyReference
@@ -60,18 +59,18 @@ type QuotaPlan struct {
 // then by the smaller company id. The total never exceeds Total × Fraction, and each quota
 // is within one unit of its exact share. A company with a zero reference gets nothing.
 //
-// Inputs are read as the shortest decimals that print as the given float64 values (0.001
-// means exactly 1/1000), and the arithmetic is exact (math/big), so rounding never pushes
+// Inputs are exact decimals (0.001 means exactly 1/1000), and the arithmetic is exact
+// (math/big), so rounding never pushes
 // the total above the distributable amount and ties are true ties. The error wraps
 // ErrNoReference when every reference amount is zero, else ErrInvalidInput.
 func PlanQuotas(req QuotaRequest) (QuotaPlan, error) {
-	if !finiteNonNeg(req.Total) {
-		return QuotaPlan{}, fieldErr("total", "a finite amount ≥ 0", "is %v", req.Total)
+	if !nonNeg(req.Total) {
+		return QuotaPlan{}, fieldErr("total", "an amount ≥ 0", "is %v", req.Total)
 	}
-	if !finite(req.Fraction) || req.Fraction <= 0 || req.Fraction > 1 {
+	if req.Fraction.Sign() <= 0 || req.Fraction.Cmp(exact.FromInt(1)) > 0 {
 		return QuotaPlan{}, fieldErr("fraction", "a number above 0 and at most 1", "is %v", req.Fraction)
 	}
-	if !finite(req.Granularity) || req.Granularity <= 0 {
+	if req.Granularity.Sign() <= 0 {
 		return QuotaPlan{}, fieldErr("granularity", "a finite amount above 0, e.g. 0.001", "is %v", req.Granularity)
 	}
 	if len(req.ReferenceYears) == 0 {
@@ -112,8 +111,8 @@ func PlanQuotas(req QuotaRequest) (QuotaPlan, error) {
 		ref := new(big.Rat)
 		for _, y := range req.ReferenceYears {
 			v := c.Amounts[y]
-			if !finiteNonNeg(v) {
-				return QuotaPlan{}, fieldErr(fmt.Sprintf("%s.amounts[%d]", f, y), "a finite amount ≥ 0", "is %v", v)
+			if !nonNeg(v) {
+				return QuotaPlan{}, fieldErr(fmt.Sprintf("%s.amounts[%d]", f, y), "an amount ≥ 0", "is %v", v)
 			}
 			ref.Add(ref, decimal(v))
 		}
@@ -178,14 +177,8 @@ func PlanQuotas(req QuotaRequest) (QuotaPlan, error) {
 	return plan, nil
 }
 
-// decimal reads a finite float64 as the shortest decimal that prints as it.
-func decimal(v float64) *big.Rat {
-	r, ok := new(big.Rat).SetString(strconv.FormatFloat(v, 'g', -1, 64))
-	if !ok { // unreachable for finite values, which callers check first
-		r = new(big.Rat).SetFloat64(v)
-	}
-	return r
-}
+// decimal is v as an exact rational.
+func decimal(v exact.Decimal) *big.Rat { return v.Rat() }
 
 // ratDecimal writes r, a sum or product of decimals (a finite decimal), as an exact.Decimal.
 func ratDecimal(r *big.Rat) exact.Decimal {

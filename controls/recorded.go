@@ -93,8 +93,8 @@ type ShipmentTotal struct {
 	Direction       terms.Direction
 	Purpose         terms.Purpose
 	Condition       terms.Condition
-	PartnerNonParty bool    // the partner was not bound for this component's group
-	Tonnes          float64 // metric tonnes
+	PartnerNonParty bool          // the partner was not bound for this component's group
+	Tonnes          exact.Decimal // metric tonnes, exact
 }
 
 // NationalTotal is the sum of the national entries of one kind, substance, year and
@@ -103,7 +103,7 @@ type NationalTotal struct {
 	Year           int
 	Kind           string // one of the Entry constants
 	Substance      string
-	Tonnes         float64
+	Tonnes         exact.Decimal
 	OutsideCustoms bool
 	Keys           []string // keys of the entries summed
 }
@@ -222,15 +222,16 @@ type UseKey struct {
 }
 
 // DeclaredUses lists the uses the shipment totals deduct, with the tonnes declared.
-func DeclaredUses(cat *substances.Catalogue, ships []ShipmentTotal) map[UseKey]float64 {
-	out := map[UseKey]float64{}
+func DeclaredUses(cat *substances.Catalogue, ships []ShipmentTotal) map[UseKey]exact.Decimal {
+	out := map[UseKey]exact.Decimal{}
 	for _, t := range ships {
 		sub, ok := cat.Substance(t.Designation)
 		if !ok {
 			continue
 		}
 		if u := ShipmentUse(t.Direction, t.Purpose, t.Condition, sub.Group); u != "" {
-			out[UseKey{t.Year, sub.Designation, u}] += t.Tonnes
+			k := UseKey{t.Year, sub.Designation, u}
+			out[k] = out[k].Add(t.Tonnes)
 		}
 	}
 	return out
@@ -333,7 +334,7 @@ func ClassifyRecorded(cat *substances.Catalogue, years []int, ships []ShipmentTo
 		if err != nil {
 			return d, err
 		}
-		if f.QPS > 0 && cs.Group != substances.GroupEI {
+		if f.QPS.Sign() > 0 && cs.Group != substances.GroupEI {
 			return d, storedErr("%d: a QPS entry of %s is stored, but QPS applies to methyl bromide only; correct the entry", t.Year, t.Substance)
 		}
 		if d.Covered[t.Year] && (t.Kind == EntryHistoricalImport || t.Kind == EntryHistoricalExport || t.Kind == EntryHistoricalExportNonParty) {
@@ -418,11 +419,6 @@ func GapText(g Gap, records []Record, years []int) string {
 // zeros dropped.
 func FormatExact(v exact.Decimal) string { return v.Round(6).String() }
 
-// FormatTonnes prints tonnes for notes: up to 6 decimals, trailing zeros dropped.
-func FormatTonnes(v float64) string {
-	s := strings.TrimRight(strings.TrimRight(fmt.Sprintf("%.6f", v), "0"), ".")
-	if s == "-0" {
-		return "0"
-	}
-	return s
-}
+// FormatTonnes prints tonnes for notes: up to 6 decimals, trailing zeros dropped (the
+// same as FormatExact).
+func FormatTonnes(v exact.Decimal) string { return FormatExact(v) }

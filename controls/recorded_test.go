@@ -25,7 +25,7 @@ func seedCatalogue(t *testing.T) *substances.Catalogue {
 // TestClassifyShipment: which flow a shipment total lands in. Every row names the rule it
 // checks.
 func TestClassifyShipment(t *testing.T) {
-	const m = 2.5
+	m := num("2.5")
 	cases := []struct {
 		name string
 		t    ShipmentTotal
@@ -80,7 +80,7 @@ func TestClassifyShipment(t *testing.T) {
 // TestClassifyEntry: national entry kinds (Art. 1 para 5 for production, destruction and
 // feedstock; Art. 2H para 6 for QPS; Art. 3 para 1(c) for non-Party exports from 1993).
 func TestClassifyEntry(t *testing.T) {
-	const m = 4
+	m := num("4")
 	cases := []struct {
 		kind string
 		year int
@@ -111,10 +111,10 @@ func TestClassifyEntry(t *testing.T) {
 // customs adds (Art. 1 para 5: each quantity deducted once; common practice for the mark).
 func TestClassifyRecordedOneSourcePerUse(t *testing.T) {
 	cat := seedCatalogue(t)
-	ships := []ShipmentTotal{{Year: 2021, Designation: "carbon tetrachloride", AnnexGroup: "B/II", Direction: terms.DirectionImport, Purpose: terms.PurposeFeedstock, Tonnes: 10}}
+	ships := []ShipmentTotal{{Year: 2021, Designation: "carbon tetrachloride", AnnexGroup: "B/II", Direction: terms.DirectionImport, Purpose: terms.PurposeFeedstock, Tonnes: num("10")}}
 	nats := []NationalTotal{
-		{Year: 2021, Kind: EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: 10, Keys: []string{"FS-1"}},
-		{Year: 2021, Kind: EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: 3, OutsideCustoms: true, Keys: []string{"FS-2"}},
+		{Year: 2021, Kind: EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: num("10"), Keys: []string{"FS-1"}},
+		{Year: 2021, Kind: EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: num("3"), OutsideCustoms: true, Keys: []string{"FS-2"}},
 	}
 	d, err := ClassifyRecorded(cat, []int{2021}, ships, nats, []int{2021})
 	if err != nil {
@@ -125,7 +125,7 @@ func TestClassifyRecordedOneSourcePerUse(t *testing.T) {
 	}
 	total := d.Records[0].Flows.Add(d.Records[1].Flows)
 	// 10 t imported, 10 t feedstock from the shipment, 3 t more outside customs.
-	if total.Imports != 10 || total.Feedstock != 13 {
+	if !total.Imports.Equal(num("10")) || !total.Feedstock.Equal(num("13")) {
 		t.Errorf("flows %+v, want imports 10 and feedstock 13", total)
 	}
 	if len(d.Notes) != 1 || !strings.Contains(d.Notes[0], "FS-1") || !strings.Contains(d.Notes[0], "left out") {
@@ -144,10 +144,10 @@ func TestClassifyRecordedStoredDataErrors(t *testing.T) {
 		nats  []NationalTotal
 		want  string
 	}{
-		{"uncatalogued controlled component", []ShipmentTotal{{Year: 2021, Designation: "HCFC-9999", AnnexGroup: "C/I", Direction: terms.DirectionImport, Tonnes: 1}}, nil, "catalogue has no such substance"},
-		{"uncatalogued entry", nil, []NationalTotal{{Year: 2021, Kind: EntryProduction, Substance: "HCFC-9999", Tonnes: 1}}, "catalogue has no such substance"},
+		{"uncatalogued controlled component", []ShipmentTotal{{Year: 2021, Designation: "HCFC-9999", AnnexGroup: "C/I", Direction: terms.DirectionImport, Tonnes: num("1")}}, nil, "catalogue has no such substance"},
+		{"uncatalogued entry", nil, []NationalTotal{{Year: 2021, Kind: EntryProduction, Substance: "HCFC-9999", Tonnes: num("1")}}, "catalogue has no such substance"},
 		// Art. 2H para 6: QPS is methyl bromide's.
-		{"QPS entry of HCFC-22", nil, []NationalTotal{{Year: 2021, Kind: EntryQPS, Substance: "HCFC-22", Tonnes: 1}}, "QPS applies to methyl bromide only"},
+		{"QPS entry of HCFC-22", nil, []NationalTotal{{Year: 2021, Kind: EntryQPS, Substance: "HCFC-22", Tonnes: num("1")}}, "QPS applies to methyl bromide only"},
 	}
 	for _, c := range cases {
 		_, err := ClassifyRecorded(cat, nil, c.ships, c.nats, nil)
@@ -157,7 +157,7 @@ func TestClassifyRecordedStoredDataErrors(t *testing.T) {
 		}
 	}
 	// An uncontrolled component the catalogue no longer has is left out, not an error.
-	d, err := ClassifyRecorded(cat, nil, []ShipmentTotal{{Year: 2021, Designation: "R-9999", Direction: terms.DirectionImport, Tonnes: 1}}, nil, nil)
+	d, err := ClassifyRecorded(cat, nil, []ShipmentTotal{{Year: 2021, Designation: "R-9999", Direction: terms.DirectionImport, Tonnes: num("1")}}, nil, nil)
 	if err != nil || len(d.Records) != 0 {
 		t.Errorf("uncatalogued uncontrolled: %v, %d records; want none and no error", err, len(d.Records))
 	}
@@ -165,7 +165,7 @@ func TestClassifyRecordedStoredDataErrors(t *testing.T) {
 
 func TestCoverageNotesAndGapText(t *testing.T) {
 	// 1989 has HCFC-22 and HCFC-141b, 1990 only HCFC-22, 1991 nothing of Annex C.
-	recs := []Record{rec(1989, hcfc22, Flows{Imports: 1}), rec(1989, hcfc141b, Flows{Imports: 1}), rec(1990, hcfc22, Flows{Imports: 1})}
+	recs := []Record{rec(1989, hcfc22, Flows{Imports: num("1")}), rec(1989, hcfc141b, Flows{Imports: num("1")}), rec(1990, hcfc22, Flows{Imports: num("1")})}
 	notes := CoverageNotes(recs, ScopeCI, []int{1989, 1990, 1991})
 	if len(notes) != 1 || !strings.Contains(notes[0], "HCFC-141b has data in other base years but none in 1990;") {
 		t.Errorf("coverage notes %q, want one for HCFC-141b lacking 1990 only", notes)
@@ -177,8 +177,8 @@ func TestCoverageNotesAndGapText(t *testing.T) {
 }
 
 func TestFormatTonnes(t *testing.T) {
-	for v, want := range map[float64]string{1.5: "1.5", 2: "2", 0.0000004: "0", -0.0000001: "0", 1e-6: "0.000001"} {
-		if got := FormatTonnes(v); got != want {
+	for v, want := range map[string]string{"1.5": "1.5", "2": "2", "0.0000004": "0", "-0.0000001": "0", "0.000001": "0.000001"} { // from memory: round half away from zero to 6 places
+		if got := FormatTonnes(num(v)); got != want {
 			t.Errorf("FormatTonnes(%v) = %q, want %q", v, got, want)
 		}
 	}

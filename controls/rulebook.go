@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"slices"
 	"strconv"
 	"strings"
@@ -288,7 +289,7 @@ func (rr *rowReader) year(col string, optional bool) int {
 func (rr *rowReader) percent(col string) float64 {
 	v := rr.str(col)
 	p, err := strconv.ParseFloat(v, 64)
-	if err != nil || !finite(p) || p < 0 || p > 100 {
+	if err != nil || math.IsNaN(p) || p < 0 || p > 100 {
 		rr.fail(col, "%q is not a percent from 0 to 100", v)
 		return 0
 	}

@@ -11,9 +11,11 @@
 package exact
 
 import (
+	"database/sql/driver"
 	"errors"
 	"fmt"
 	"math"
+	"math/big"
 	"strconv"
 	"strings"
 
@@ -125,7 +127,23 @@ func (a Decimal) Fixed(places int32) string {
 }
 
 // Float64 returns the nearest float64, for callers that still compute in binary floats.
-func (a Decimal) Float64() float64 { return a.d.InexactFloat64() }
+// A figure of at most 15 digits with at most 22 decimals (every figure the register keeps
+// at billionths below a million units) converts without allocating: its coefficient and
+// 10^exponent are exact floats, and one division or product rounds correctly.
+func (a Decimal) Float64() float64 {
+	if e := a.d.Exponent(); e >= -22 && e <= 22 && a.d.NumDigits() <= 15 {
+		c := float64(a.d.CoefficientInt64())
+		if e < 0 {
+			return c / pow10[-e]
+		}
+		return c * pow10[e]
+	}
+	return a.d.InexactFloat64()
+}
+
+// pow10 are the powers of ten a float64 holds exactly.
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+	1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
 
 // Add returns a+b.
 func (a Decimal) Add(b Decimal) Decimal { return Decimal{a.d.Add(b.d)} }
@@ -185,4 +203,77 @@ func Max(a, b Decimal) Decimal {
 		return a
 	}
 	return b
+}
+
+// Scan reads a figure from the database (database/sql's Scanner, which pgx uses): a numeric
+// column arrives as its exact decimal text. Text and integers are accepted; a binary float
+// (a float8 column, or a cast to one) is refused, so that no sum passes through float64 on
+// its way from PostgreSQL, and so is NULL.
+func (a *Decimal) Scan(src any) error {
+	switch v := src.(type) {
+	case string:
+		d, err := Parse(v)
+		if err != nil {
+			return err
+		}
+		*a = d
+	case []byte:
+		d, err := Parse(string(v))
+		if err != nil {
+			return err
+		}
+		*a = d
+	case int64:
+		*a = FromInt(v)
+	case nil:
+		return errors.New("exact: cannot read NULL as a figure; coalesce it in the query or scan into a pointer")
+	default:
+		return fmt.Errorf("exact: cannot read a %T as a figure; select the column as numeric (or text), not float8", src)
+	}
+	return nil
+}
+
+// Value writes a figure as a query argument (database/sql's Valuer): its exact text, which
+// PostgreSQL reads into a numeric column without rounding.
+func (a Decimal) Value() (driver.Value, error) { return a.String(), nil }
+
+// Rat returns a as an exact rational, for arithmetic that needs exact division (math/big).
+func (a Decimal) Rat() *big.Rat { return a.d.Rat() }
+
+// MarshalJSON writes a figure as a JSON string holding its exact wire form ("0.055"), never
+// as a JSON number: a reader that parses numbers into binary floats would lose digits.
+func (a Decimal) MarshalJSON() ([]byte, error) { return strconv.AppendQuote(nil, a.String()), nil }
+
+// UnmarshalJSON reads a figure written as a JSON string ("0.055") or, for data written
+// before figures were strings, as a JSON number (0.055), from its text: no float64 in
+// between either way. An exponent is refused, as Parse refuses it.
+func (a *Decimal) UnmarshalJSON(b []byte) error {
+	s := string(b)
+	if s == "null" {
+		return errors.New("exact: a figure cannot be null")
+	}
+	if len(s) > 0 && s[0] == '"' {
+		u, err := strconv.Unquote(s)
+		if err != nil {
+			return fmt.Errorf("%w: %s is not a JSON string", ErrSyntax, s)
+		}
+		s = u
+	}
+	d, err := Parse(s)
+	if err != nil {
+		return err
+	}
+	*a = d
+	return nil
+}
+
+// Units returns a counted in units of 10^exp (the register's billionths: Units(-9)),
+// rounded half away from zero to a whole unit, and false when that count does not fit an
+// int64.
+func (a Decimal) Units(exp int32) (int64, bool) {
+	n := a.d.Shift(-exp).Round(0)
+	if !n.BigInt().IsInt64() {
+		return 0, false
+	}
+	return n.IntPart(), true
 }

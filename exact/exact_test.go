@@ -2,6 +2,7 @@ package exact
 
 import (
 	"errors"
+	"strconv"
 	"testing"
 )
 
@@ -115,5 +116,60 @@ func TestWireAndParseField(t *testing.T) {
 	var fe *FieldError
 	if !errors.As(err, &fe) || fe.Field != "net_mass_kg" || !errors.Is(err, ErrSyntax) {
 		t.Errorf("ParseField error = %v", err)
+	}
+}
+
+// TestDatabaseAndJSONForms: a figure reads from numeric text and writes as its exact text
+// (database/sql), refuses a float8, and travels in JSON as a string, reading a JSON number
+// digit for digit (123456789.123456789 has 18 significant digits; a float64 keeps 17 at
+// most: common practice).
+func TestDatabaseAndJSONForms(t *testing.T) {
+	var d Decimal
+	if err := d.Scan("123456789.123456789"); err != nil || d.String() != "123456789.123456789" {
+		t.Errorf("Scan of numeric text: %v, %v", d, err)
+	}
+	if err := d.Scan(float64(1.5)); err == nil {
+		t.Error("Scan of a float64 succeeded; want it refused")
+	}
+	if v, err := MustParse("0.055").Value(); err != nil || v != "0.055" {
+		t.Errorf("Value = %v, %v; want the text 0.055", v, err)
+	}
+	b, err := MustParse("123456789.123456789").MarshalJSON()
+	if err != nil || string(b) != `"123456789.123456789"` {
+		t.Errorf("MarshalJSON = %s, %v", b, err)
+	}
+	for _, in := range []string{`"123456789.123456789"`, `123456789.123456789`} {
+		var x Decimal
+		if err := x.UnmarshalJSON([]byte(in)); err != nil || x.String() != "123456789.123456789" {
+			t.Errorf("UnmarshalJSON(%s) = %v, %v", in, x, err)
+		}
+	}
+	if err := d.UnmarshalJSON([]byte(`1e3`)); err == nil {
+		t.Error("UnmarshalJSON of 1e3 succeeded; want the exponent refused")
+	}
+	// Billionths, half away from zero (common practice).
+	for in, want := range map[string]int64{"0.0040316765": 4031677, "-0.0000000005": -1, "0.0000000004": 0} {
+		if n, ok := MustParse(in).Units(-9); !ok || n != want {
+			t.Errorf("Units(-9) of %s = %d, %v; want %d", in, n, ok, want)
+		}
+	}
+	if _, ok := MustParse("10000000000").Units(-9); ok {
+		t.Error("10^10 in billionths fits an int64; want false (10^19 > 2^63)")
+	}
+}
+
+// TestFloat64MatchesStrconv: the fast conversion gives the float64 strconv parses from the
+// same decimal text (correct rounding, common practice), and allocates nothing.
+func TestFloat64MatchesStrconv(t *testing.T) {
+	for _, s := range []string{"0", "0.4", "0.055", "1430", "-2.5", "123456789.123456789", "0.000000001", "999999999999999", "0.0040316765", "1e2"[:1]} {
+		d := MustParse(s)
+		want, _ := strconv.ParseFloat(d.String(), 64)
+		if got := d.Float64(); got != want {
+			t.Errorf("Float64(%s) = %v, want %v", s, got, want)
+		}
+	}
+	d := MustParse("0.4")
+	if n := testing.AllocsPerRun(100, func() { _ = d.Float64() }); n != 0 {
+		t.Errorf("Float64 of 0.4 allocates %v times; want 0", n)
 	}
 }

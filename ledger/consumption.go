@@ -243,7 +243,7 @@ type ConsumptionReport struct {
 	// HFC23 are the facility entries of the year (reported beside Annex F, not part of it),
 	// with HFC23GWP the catalogue's Protocol GWP of HFC-23 to express emissions in CO2-eq.
 	HFC23    []HFC23Entry
-	HFC23GWP float64
+	HFC23GWP exact.Decimal
 	Notes    []string
 }
 
@@ -333,11 +333,11 @@ func (c *Consumption) GetConsumption(ctx context.Context, year int, annexGroup s
 }
 
 // HFC23GWP is the Protocol GWP of HFC-23 in cat (Annex F Group II), 0 when cat lacks it.
-func HFC23GWP(cat *substances.Catalogue) float64 {
+func HFC23GWP(cat *substances.Catalogue) exact.Decimal {
 	if sub, ok := cat.Substance(controls.HFC23); ok {
-		return sub.ProtocolGWP()
+		return controls.SubstanceOf(sub).GWP
 	}
-	return 0
+	return exact.Zero
 }
 
 // BaselineReport is a scope's baseline computed from the register, with what is missing

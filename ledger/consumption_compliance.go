@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/terms"
 )
@@ -120,17 +121,18 @@ func exemptedUseNotes(ctx context.Context, r ReportReader, cat *substances.Catal
 		return nil, err
 	}
 	unit := scope.Unit()
-	declared := map[terms.Purpose]float64{}
+	declared := map[terms.Purpose]exact.Decimal{}
 	for _, t := range ships {
 		sub, ok := cat.Substance(t.Designation)
 		if !ok || t.Direction != terms.DirectionImport || controls.Recovered(t.Condition) || !slices.Contains(scope.Groups(), sub.Group) {
 			continue
 		}
-		f := sub.ODP
+		f := controls.SubstanceOf(sub)
+		factor := f.ODP
 		if unit == controls.UnitCO2eTonnes {
-			f = sub.ProtocolGWP()
+			factor = f.GWP
 		}
-		declared[t.Purpose] += t.Tonnes * f
+		declared[t.Purpose] = declared[t.Purpose].Add(t.Tonnes.Mul(factor))
 	}
 	var notes []string
 	for _, e := range es {

@@ -3,9 +3,10 @@ package ledger
 import (
 	"context"
 	"errors"
-	"github.com/halovet/halovet/terms"
 
 	"github.com/halovet/halovet/controls"
+	"github.com/halovet/halovet/exact"
+	"github.com/halovet/halovet/terms"
 )
 
 // The consumption, report and quota-planning workflows read the register through
@@ -21,7 +22,7 @@ type OfficialFigure struct {
 	Kind        string // "baseline" or "limit"
 	Scope       string // Annex group or "F"
 	Year        int
-	Value       float64
+	Value       exact.Decimal
 	Unit        string // "ODP t" or "CO2-eq t"
 	Source      string
 }
@@ -33,7 +34,7 @@ type Exemption struct {
 	Year        int
 	Scope       string
 	Use         string // essential, critical, laboratory, high-ambient-temperature
-	Amount      float64
+	Amount      exact.Decimal
 	Unit        string // "ODP t" or "CO2-eq t"
 	Source      string
 	Note        string
@@ -51,7 +52,7 @@ type ShipmentLine struct {
 	Purpose         terms.Purpose
 	Condition       terms.Condition
 	PartnerNonParty bool
-	Tonnes          float64
+	Tonnes          exact.Decimal
 	ShipmentIDs     []int64
 }
 
@@ -60,10 +61,10 @@ type HFC23Entry struct {
 	Key          string
 	Facility     string
 	Year         int
-	Generated    float64
-	CapturedUsed float64
-	Destroyed    float64
-	Emitted      float64
+	Generated    exact.Decimal
+	CapturedUsed exact.Decimal
+	Destroyed    exact.Decimal
+	Emitted      exact.Decimal
 	Note         string
 }
 
@@ -71,7 +72,7 @@ type HFC23Entry struct {
 type CompanyAmount struct {
 	CompanyID string
 	Year      int
-	Amount    float64
+	Amount    exact.Decimal
 }
 
 // ReportReader reads the register inside one snapshot.
@@ -117,7 +118,7 @@ type DraftLicence struct {
 	Year       int             // valid from 1 January to 31 December
 	AnnexGroup string          // of the quota line
 	Unit       terms.QuotaUnit // ODP or CO2-eq tonnes
-	Quota      float64
+	Quota      exact.Decimal
 }
 
 // NotDraftError: a licence of a draft's number exists and is no longer a draft.

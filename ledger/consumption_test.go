@@ -150,7 +150,7 @@ func TestReportReadsOneSnapshot(t *testing.T) {
 			return
 		}
 		once = true
-		if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "P-2025", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-22", Tonnes: 10}}); err != nil {
+		if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "P-2025", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-22", Tonnes: num("10")}}); err != nil {
 			t.Error(err)
 		}
 	}
@@ -174,7 +174,7 @@ func TestFiguresRecorded(t *testing.T) {
 	ctx := context.Background()
 	figs := ledger.NewFigures(cons, service.NewFigureWriter(st))
 	// An empty country is the reporting Party's; the unit follows the scope.
-	es, err := figs.RecordExemptions(ctx, []ledger.Exemption{{Key: "LAB-2025", Year: 2025, Scope: "C/I", Use: string(controls.UseLaboratory), Amount: 0.01, Source: "invented decision"}})
+	es, err := figs.RecordExemptions(ctx, []ledger.Exemption{{Key: "LAB-2025", Year: 2025, Scope: "C/I", Use: string(controls.UseLaboratory), Amount: num("0.01"), Source: "invented decision"}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -182,12 +182,12 @@ func TestFiguresRecorded(t *testing.T) {
 		t.Errorf("exemption %+v: want XA in ODP t", es[0])
 	}
 	// HFC-23 destroyed at a plant is by-product, not a deduction (Art. 2J paras 6-7).
-	_, err = figs.RecordNationalEntries(ctx, []ledger.NationalEntry{{Key: "D-1", Year: 2025, Kind: controls.EntryDestruction, Substance: "HFC-23", Tonnes: 1}})
+	_, err = figs.RecordNationalEntries(ctx, []ledger.NationalEntry{{Key: "D-1", Year: 2025, Kind: controls.EntryDestruction, Substance: "HFC-23", Tonnes: num("1")}})
 	if !isInvalid(err, "entries[0].entry_type") {
 		t.Errorf("HFC-23 destruction entry: %v; want entries[0].entry_type", err)
 	}
 	// A second baseline figure under another key is a duplicate.
-	fig := ledger.OfficialFigure{Key: "B-1", Kind: "baseline", Scope: "C/I", Value: 2.1, Source: "invented decision"}
+	fig := ledger.OfficialFigure{Key: "B-1", Kind: "baseline", Scope: "C/I", Value: num("2.1"), Source: "invented decision"}
 	if _, err := figs.RecordOfficialFigures(ctx, []ledger.OfficialFigure{fig}); err != nil {
 		t.Fatal(err)
 	}
@@ -200,11 +200,11 @@ func TestFiguresRecorded(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if b.Official == nil || b.Official.Value != 2.1 {
+	if b.Official == nil || !b.Official.Value.Equal(num("2.1")) {
 		t.Errorf("official baseline %+v; want 2.1", b.Official)
 	}
 	// An HFC-23 facility cannot emit more than it generated (mass balance: common practice).
-	_, err = figs.RecordHFC23Entries(ctx, []ledger.HFC23Entry{{Key: "H-1", Facility: "plant 1", Year: 2025, Generated: 1, Emitted: 2}})
+	_, err = figs.RecordHFC23Entries(ctx, []ledger.HFC23Entry{{Key: "H-1", Facility: "plant 1", Year: 2025, Generated: num("1"), Emitted: num("2")}})
 	if !isInvalid(err, "entries[0].generated_tonnes") {
 		t.Errorf("HFC-23 over-emission: %v; want entries[0].generated_tonnes", err)
 	}
@@ -216,10 +216,10 @@ func TestReconcilePartnerExports(t *testing.T) {
 	st, cons, _ := register(t)
 	ctx := context.Background()
 	figs := ledger.NewFigures(cons, service.NewFigureWriter(st))
-	if _, err := figs.RecordPartnerExports(ctx, []ledger.PartnerExport{{Key: "XC-1", Year: 2025, Partner: "xc", Substance: "HCFC-22", Tonnes: 5}}); err != nil {
+	if _, err := figs.RecordPartnerExports(ctx, []ledger.PartnerExport{{Key: "XC-1", Year: 2025, Partner: "xc", Substance: "HCFC-22", Tonnes: num("5")}}); err != nil {
 		t.Fatal(err)
 	}
-	r, err := cons.ReconcilePartnerExports(ctx, 2025, 0, 0)
+	r, err := cons.ReconcilePartnerExports(ctx, 2025, num("0"), num("0"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -227,7 +227,7 @@ func TestReconcilePartnerExports(t *testing.T) {
 		t.Fatalf("reconciliation %+v: want one pair with a gap traced to two shipments", r)
 	}
 	near(t, "gap", r.Gaps[0].GapTonnes, 1)
-	if r, err := cons.ReconcilePartnerExports(ctx, 2025, 0.25, 0); err != nil || len(r.Gaps) != 0 {
+	if r, err := cons.ReconcilePartnerExports(ctx, 2025, num("0.25"), num("0")); err != nil || len(r.Gaps) != 0 {
 		t.Errorf("tolerance 25 %%: %+v, %v; want no gap (1 t ≤ 1.25 t)", r, err)
 	}
 }

@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"math"
 	"regexp"
 	"slices"
 	"strings"
@@ -28,7 +27,7 @@ type NationalEntry struct {
 	Year           int
 	Kind           string // one of the controls.Entry constants
 	Substance      string
-	Tonnes         float64
+	Tonnes         exact.Decimal
 	Note           string
 	OutsideCustoms bool
 }
@@ -39,7 +38,7 @@ type PartnerExport struct {
 	Year      int
 	Partner   string
 	Substance string
-	Tonnes    float64
+	Tonnes    exact.Decimal
 	Source    string
 }
 
@@ -142,15 +141,21 @@ func (b *batch) source(f, src string) string {
 	return src
 }
 
-func (b *batch) tonnes(f string, v float64) {
-	if math.IsNaN(v) || v < 0 || v > maxTonnes {
-		b.addf(f, "is %v; accepted: metric tonnes from 0 to %g", v, float64(maxTonnes))
+func (b *batch) tonnes(f string, v exact.Decimal) {
+	if !inRange(v, exact.FromInt(maxTonnes)) {
+		b.addf(f, "is %v; accepted: metric tonnes from 0 to %d, with at most 9 decimals", v, int64(maxTonnes))
 	}
+}
+
+// inRange reports 0 ≤ v ≤ max with at most 9 decimals: the register keeps figures in
+// numeric(30, 9) columns, which would round a tenth decimal away without a word.
+func inRange(v, max exact.Decimal) bool {
+	return v.Sign() >= 0 && v.Cmp(max) <= 0 && v.Round(9).Equal(v)
 }
 
 func (b *batch) err() error { return invalid(b.vs...) }
 
-func amountOK(v float64) bool { return !math.IsNaN(v) && v >= 0 && v <= maxTonnes*1e6 }
+func amountOK(v exact.Decimal) bool { return inRange(v, exact.FromInt(maxTonnes*1e6)) }
 
 func scopeField(f, v string) (controls.Scope, *FieldViolation) {
 	sc, err := controls.ParseScope(strings.TrimSpace(v))
@@ -274,9 +279,7 @@ func (b *batch) nationalEntry(i int, e NationalEntry, cat *substances.Catalogue)
 	if t == controls.EntryDestruction && out.Substance == controls.HFC23 {
 		b.addf(f+".entry_type", "HFC-23 destroyed at a plant is by-product, not a deduction from consumption (Art. 2J paras 6-7; Art. 3 para 1(d)): record it as an HFC-23 facility entry (RecordHfc23Entries); HFC-23 imported for destruction is deducted through the shipment's declared purpose")
 	}
-	if math.IsNaN(out.Tonnes) || out.Tonnes < 0 || out.Tonnes > maxTonnes {
-		b.addf(f+".metric_tonnes", "is %v; accepted: metric tonnes from 0 to %g", out.Tonnes, float64(maxTonnes))
-	}
+	b.tonnes(f+".metric_tonnes", out.Tonnes)
 	if len(out.Note) > maxNoteBytes || !printable(out.Note) {
 		b.addf(f+".note", "must be printable text of at most %d bytes", maxNoteBytes)
 	}
@@ -429,12 +432,11 @@ func (x *Figures) RecordHFC23Entries(ctx context.Context, in []HFC23Entry) ([]HF
 		facYear[fy] = i
 		for _, q := range []struct {
 			name string
-			v    float64
+			v    exact.Decimal
 		}{{"generated_tonnes", se.Generated}, {"captured_used_tonnes", se.CapturedUsed}, {"destroyed_tonnes", se.Destroyed}, {"emitted_tonnes", se.Emitted}} {
 			b.tonnes(f+"."+q.name, q.v)
 		}
-		d := exact.OfFloat
-		if parts := exact.Sum(d(se.CapturedUsed), d(se.Destroyed), d(se.Emitted)); parts.Cmp(d(se.Generated)) > 0 {
+		if parts := exact.Sum(se.CapturedUsed, se.Destroyed, se.Emitted); parts.Cmp(se.Generated) > 0 {
 			b.addf(f+".generated_tonnes", "is %v t, less than captured + destroyed + emitted = %v t; what leaves a facility cannot exceed what it generated", se.Generated, parts)
 		}
 		se.Note = b.note(f+".note", e.Note)

@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"github.com/halovet/halovet/terms"
-	"math"
 	"slices"
 	"strings"
 
@@ -18,18 +17,19 @@ import (
 // (controls.PlanQuotas), and on request issued as draft licences, all in one transaction.
 
 const (
-	// DefaultQuotaGranularity is the quota unit a plan rounds to when none is given.
-	DefaultQuotaGranularity = 0.001
-	maxReferenceYears       = 20
+	maxReferenceYears = 20
 )
+
+// DefaultQuotaGranularity is the quota unit a plan rounds to when none is given: 0.001.
+var DefaultQuotaGranularity = exact.Scaled(1, -3)
 
 // QuotaPlanRequest asks for a plan.
 type QuotaPlanRequest struct {
 	AnnexGroup     string // Annex group or "F"
 	Year           int
 	ReferenceYears []int
-	Fraction       float64 // share of the allowed level to distribute; 0 means 1
-	Granularity    float64 // 0 means DefaultQuotaGranularity
+	Fraction       exact.Decimal // share of the allowed level to distribute; 0 means 1
+	Granularity    exact.Decimal // 0 means DefaultQuotaGranularity
 	IssueDrafts    bool
 	// MayIssue, when set, is asked before anything is read whether the caller may issue
 	// the drafts (a well-formed request with IssueDrafts only); its error is returned.
@@ -70,10 +70,10 @@ func DraftLicenceNumber(scope controls.Scope, year int, company string) string {
 
 // validate checks a request and returns its scope, reference years, fraction and
 // granularity with defaults applied.
-func (q QuotaPlanRequest) validate() (controls.Scope, []int, float64, float64, error) {
+func (q QuotaPlanRequest) validate() (controls.Scope, []int, exact.Decimal, exact.Decimal, error) {
 	scope, fv := ParseScope("annex_group", q.AnnexGroup)
 	if fv != nil {
-		return "", nil, 0, 0, invalid(*fv)
+		return "", nil, exact.Zero, exact.Zero, invalid(*fv)
 	}
 	var vs []FieldViolation
 	if v := CheckQueryYear("year", q.Year); v != nil {
@@ -100,17 +100,17 @@ func (q QuotaPlanRequest) validate() (controls.Scope, []int, float64, float64, e
 		years = append(years, y)
 	}
 	fraction := q.Fraction
-	if fraction == 0 {
-		fraction = 1
+	if fraction.IsZero() {
+		fraction = exact.FromInt(1)
 	}
-	if math.IsNaN(fraction) || fraction <= 0 || fraction > 1 {
+	if fraction.Sign() <= 0 || fraction.Cmp(exact.FromInt(1)) > 0 {
 		vs = append(vs, FieldViolation{"fraction_ratio", fmt.Sprintf("is %v; accepted: a decimal above 0 and at most 1 (absent means 1)", q.Fraction)})
 	}
 	gran := q.Granularity
-	if gran == 0 {
+	if gran.IsZero() {
 		gran = DefaultQuotaGranularity
 	}
-	if math.IsNaN(gran) || math.IsInf(gran, 0) || gran <= 0 {
+	if gran.Sign() <= 0 {
 		vs = append(vs, FieldViolation{"granularity_amount", fmt.Sprintf("is %v; accepted: a decimal amount above 0, e.g. 0.001 (absent means 0.001)", q.Granularity)})
 	}
 	return scope, years, fraction, gran, invalid(vs...)
@@ -143,7 +143,7 @@ func (c *Consumption) PlanQuotas(ctx context.Context, q QuotaPlanRequest) (Quota
 }
 
 // plan reads the register in one snapshot and splits the year's allowed level.
-func (c *Consumption) plan(ctx context.Context, scope controls.Scope, year int, years []int, fraction, gran float64) (QuotaPlan, error) {
+func (c *Consumption) plan(ctx context.Context, scope controls.Scope, year int, years []int, fraction, gran exact.Decimal) (QuotaPlan, error) {
 	cat, rb := c.catalogue(), c.rulebook
 	out := QuotaPlan{Scope: scope, Year: year}
 	err := c.reports.Snapshot(ctx, func(r ReportReader) error {
@@ -183,22 +183,22 @@ func (c *Consumption) plan(ctx context.Context, scope controls.Scope, year int, 
 		if err != nil {
 			return err
 		}
-		byCompany := map[string]map[int]float64{}
+		byCompany := map[string]map[int]exact.Decimal{}
 		var comps []controls.CompanyReference
 		for _, a := range amounts {
 			if byCompany[a.CompanyID] == nil {
-				byCompany[a.CompanyID] = map[int]float64{}
+				byCompany[a.CompanyID] = map[int]exact.Decimal{}
 				comps = append(comps, controls.CompanyReference{CompanyID: a.CompanyID, Amounts: byCompany[a.CompanyID]})
 			}
 			// A negative sum cannot come from recorded imports; guard the arithmetic anyway.
-			byCompany[a.CompanyID][a.Year] = math.Max(0, a.Amount)
+			byCompany[a.CompanyID][a.Year] = exact.Max(exact.Zero, a.Amount)
 		}
 		if len(comps) == 0 {
 			return refused(fmt.Sprintf(
 				"no company has recorded imports of %s counting in consumption in %v, so there is no share to distribute by; choose other reference years, or set quotas by hand",
 				scope, years))
 		}
-		plan, err := controls.PlanQuotas(controls.QuotaRequest{Total: lv.Value.Float64(), Fraction: fraction, Granularity: gran,
+		plan, err := controls.PlanQuotas(controls.QuotaRequest{Total: lv.Value, Fraction: fraction, Granularity: gran,
 			ReferenceYears: years, Companies: comps})
 		var fe *controls.FieldError
 		switch {
@@ -234,7 +234,7 @@ func (c *Consumption) issueDrafts(ctx context.Context, plan *QuotaPlan) error {
 			continue // nothing to licence
 		}
 		drafts = append(drafts, DraftLicence{Number: DraftLicenceNumber(plan.Scope, plan.Year, p.CompanyID), CompanyID: p.CompanyID,
-			Year: plan.Year, AnnexGroup: group, Unit: QuotaUnitOf(plan.Scope), Quota: p.Amount.Float64()})
+			Year: plan.Year, AnnexGroup: group, Unit: QuotaUnitOf(plan.Scope), Quota: p.Amount})
 		at = append(at, i)
 	}
 	if len(drafts) == 0 {
@@ -276,14 +276,14 @@ func officialLevel(rb *controls.Rulebook, party controls.Party, scope controls.S
 	}
 	unit := string(lv.Unit)
 	if ov.Baseline != nil && lv.Percent.Sign() > 0 {
-		lv.Value = exact.OfFloat(ov.Baseline.Value).Percent(lv.Percent).Round(lv.Unit.Exact().Spec().DerivedPlaces)
+		lv.Value = ov.Baseline.Value.Percent(lv.Percent).Round(lv.Unit.Exact().Spec().DerivedPlaces)
 		lv.Notes = append(lv.Notes, fmt.Sprintf("baseline as officially set: %s %s (%s); the level is %s %% of it",
 			controls.FormatTonnes(ov.Baseline.Value), unit, ov.Baseline.Source, controls.FormatExact(lv.Percent)))
 	}
 	if lim, ok := ov.Limits[year]; ok {
 		lv.Notes = append(lv.Notes, fmt.Sprintf("limit as officially set: %s %s (%s), in place of the schedule's %s %s",
 			controls.FormatTonnes(lim.Value), unit, lim.Source, controls.FormatExact(lv.Value), unit))
-		lv.Value = exact.OfFloat(lim.Value)
+		lv.Value = lim.Value
 	}
 	if len(ov.Exemptions[year]) > 0 {
 		lv.Notes = append(lv.Notes, "the year's authorised exemptions are not distributed here: license them on quota lines limited to their use")

@@ -64,8 +64,8 @@ func register(t *testing.T) (*store.Store, *ledger.Consumption, func() *substanc
 	}
 	// Baseline: 40 t HCFC-22 imported in 2009 and in 2010 (historical totals): 2.2 ODP t.
 	if err := st.PutNationalEntries(ctx, []store.NationalEntry{
-		{Key: "HI-2009", Year: 2009, Type: store.EntryHistoricalImport, Substance: "HCFC-22", Tonnes: 40},
-		{Key: "HI-2010", Year: 2010, Type: store.EntryHistoricalImport, Substance: "HCFC-22", Tonnes: 40},
+		{Key: "HI-2009", Year: 2009, Type: store.EntryHistoricalImport, Substance: "HCFC-22", Tonnes: num("40")},
+		{Key: "HI-2010", Year: 2010, Type: store.EntryHistoricalImport, Substance: "HCFC-22", Tonnes: num("40")},
 	}); err != nil {
 		t.Fatal(err)
 	}
@@ -123,11 +123,11 @@ func TestPlanQuotasIssuesDrafts(t *testing.T) {
 		if l.Status != terms.LicenceDraft || len(l.QuotaLines) != 1 || l.QuotaLines[0].Unit != terms.QuotaODPTonnes {
 			t.Errorf("draft %+v: want a draft with one ODP t line", l)
 		}
-		near(t, q.DraftLicenceNumber+" allocated", exact.OfFloat(l.QuotaLines[0].Allocated), want[q.CompanyID])
+		near(t, q.DraftLicenceNumber+" allocated", l.QuotaLines[0].Allocated, want[q.CompanyID])
 	}
 	// Planning again with half the level amends both drafts in place.
 	half := plan2026
-	half.Fraction = 0.5
+	half.Fraction = num("0.5")
 	if _, err := cons.PlanQuotas(ctx, half); err != nil {
 		t.Fatalf("re-plan: %v", err)
 	}
@@ -136,7 +136,7 @@ func TestPlanQuotasIssuesDrafts(t *testing.T) {
 		t.Fatal(err)
 	}
 	// 357.5 units: exact 268.125 and 89.375; floors 268 + 89 = 357, no unit left over.
-	near(t, "re-planned XA-1001", exact.OfFloat(l.QuotaLines[0].Allocated), 0.268)
+	near(t, "re-planned XA-1001", l.QuotaLines[0].Allocated, 0.268)
 }
 
 // TestPlanQuotasAllOrNothing: one draft of the plan cannot be stored (a licence of its
@@ -147,7 +147,7 @@ func TestPlanQuotasAllOrNothing(t *testing.T) {
 	ctx := context.Background()
 	if err := st.IssueLicence(ctx, store.Licence{Number: "CI-DRAFT-2026-XA-1002", CompanyID: "XA-1002", Directions: []terms.Direction{terms.DirectionImport},
 		ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC), Status: terms.LicenceActive,
-		QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: 0.05}}}, "issued by hand"); err != nil {
+		QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: num("0.05")}}}, "issued by hand"); err != nil {
 		t.Fatal(err)
 	}
 	_, err := cons.PlanQuotas(ctx, plan2026)
@@ -161,7 +161,7 @@ func TestPlanQuotasAllOrNothing(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	near(t, "active licence left as it was", exact.OfFloat(l.QuotaLines[0].Allocated), 0.05)
+	near(t, "active licence left as it was", l.QuotaLines[0].Allocated, 0.05)
 }
 
 // TestPlanQuotasAmendsOnlyDrafts: while a planner re-plans, another transaction activates
@@ -183,7 +183,7 @@ func TestPlanQuotasAmendsOnlyDrafts(t *testing.T) {
 		t.Fatal(err)
 	}
 	half := plan2026
-	half.Fraction = 0.5
+	half.Fraction = num("0.5")
 	done := make(chan error, 1)
 	go func() {
 		_, err := cons.PlanQuotas(ctx, half)
@@ -222,7 +222,7 @@ func TestPlanQuotasAmendsOnlyDrafts(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		near(t, n+" after the refused re-plan", exact.OfFloat(l.QuotaLines[0].Allocated), want)
+		near(t, n+" after the refused re-plan", l.QuotaLines[0].Allocated, want)
 	}
 }
 
@@ -246,7 +246,7 @@ func TestPlanQuotasUnknownCompany(t *testing.T) {
 func TestPlanQuotasRefusesBadFields(t *testing.T) {
 	cons := ledger.NewConsumption(nil, ledger.ConsumptionOptions{Catalogue: func() *substances.Catalogue { return nil }})
 	_, err := cons.PlanQuotas(context.Background(), ledger.QuotaPlanRequest{AnnexGroup: "C/I", Year: 1979,
-		ReferenceYears: []int{2024, 2024}, Fraction: 1.5, Granularity: math.NaN()})
+		ReferenceYears: []int{2024, 2024}, Fraction: num("1.5"), Granularity: num("-1")})
 	var ie *ledger.InvalidError
 	if !errors.As(err, &ie) {
 		t.Fatalf("%v; want an InvalidError", err)

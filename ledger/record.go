@@ -231,7 +231,7 @@ func (s *Shipments) judge(ctx context.Context, who Caller, pinned *PinnedBalance
 		}
 	}
 	if p.verdict.Outcome != validate.OutcomeRejected && !p.streamDup {
-		p.row, p.rowErr = shipmentRow(p.encoded, &p.rec, &p.verdict)
+		p.row, p.rowErr = shipmentRow(p.encoded, &p.rec, &p.verdict, p.lic)
 		if p.lic != nil {
 			p.row.LicenceVersion = p.lic.Version // written only while the licence still stands so
 		}

@@ -71,7 +71,7 @@ type YearReport struct {
 	QPS             []QuantityLine
 	Exemptions      []Exemption // the reporting Party's
 	HFC23           []HFC23Entry
-	HFC23GWP        float64
+	HFC23GWP        exact.Decimal
 	Notes           []string
 }
 
@@ -106,7 +106,7 @@ type yearReportBuilder struct {
 	imports map[tradeKey]*TradeLine
 	exports map[tradeKey]*TradeLine
 	qty     map[string]map[qtyKey]*QuantityLine
-	uses    map[controls.UseKey]float64
+	uses    map[controls.UseKey]exact.Decimal
 	transit exact.Decimal
 }
 
@@ -177,7 +177,7 @@ func (b *yearReportBuilder) shipment(l ShipmentLine) error {
 	if err != nil || !ok {
 		return err
 	}
-	m := exact.OfFloat(l.Tonnes)
+	m := l.Tonnes
 	switch l.Direction {
 	case terms.DirectionTransit:
 		b.transit = b.transit.Add(m)
@@ -204,7 +204,8 @@ func (b *yearReportBuilder) shipment(l ShipmentLine) error {
 			q.ShipmentIDs = append(q.ShipmentIDs, l.ShipmentIDs...)
 		}
 		if u := controls.ShipmentUse(l.Direction, l.Purpose, l.Condition, r.sub.Group); u != "" {
-			b.uses[controls.UseKey{Year: b.year, Substance: r.sub.Designation, Use: u}] += l.Tonnes
+			k := controls.UseKey{Year: b.year, Substance: r.sub.Designation, Use: u}
+			b.uses[k] = b.uses[k].Add(l.Tonnes)
 		}
 	case terms.DirectionExport, terms.DirectionReExport:
 		np := l.PartnerNonParty && b.year >= controls.NonPartyExportsFrom
@@ -232,7 +233,7 @@ func (b *yearReportBuilder) entry(t controls.NationalTotal) error {
 	if err != nil || !ok {
 		return err
 	}
-	m := exact.OfFloat(t.Tonnes)
+	m := t.Tonnes
 	basis := "whole-year"
 	if t.OutsideCustoms {
 		basis = "outside-customs"
@@ -298,8 +299,8 @@ func (b *yearReportBuilder) groups(out *YearReport) {
 			}
 			gt.HasData = true
 			t := r.tonnes()
-			gt.ConsumptionODPTonnes = gt.ConsumptionODPTonnes.Add(t.Mul(exact.OfFloat(r.sub.ODP)))
-			gt.ConsumptionCO2eTonnes = gt.ConsumptionCO2eTonnes.Add(t.Mul(exact.OfFloat(r.sub.GWP)))
+			gt.ConsumptionODPTonnes = gt.ConsumptionODPTonnes.Add(t.Mul(r.sub.ODP))
+			gt.ConsumptionCO2eTonnes = gt.ConsumptionCO2eTonnes.Add(t.Mul(r.sub.GWP))
 			gt.Production = gt.Production.Add(r.production)
 			gt.Imports = gt.Imports.Add(r.imports)
 			gt.Exports = gt.Exports.Add(r.exports)
@@ -350,7 +351,7 @@ func (c *Consumption) yearReport(ctx context.Context, r ReportReader, year int) 
 		return out, err
 	}
 	b := &yearReportBuilder{year: year, cat: cat, subs: map[string]*reportSub{},
-		imports: map[tradeKey]*TradeLine{}, exports: map[tradeKey]*TradeLine{}, uses: map[controls.UseKey]float64{},
+		imports: map[tradeKey]*TradeLine{}, exports: map[tradeKey]*TradeLine{}, uses: map[controls.UseKey]exact.Decimal{},
 		qty: map[string]map[qtyKey]*QuantityLine{"production": {}, "destruction": {}, "feedstock": {}, "qps": {}}}
 	for _, l := range lines {
 		if err := b.shipment(l); err != nil {

@@ -3,7 +3,6 @@ package ledger
 import (
 	"context"
 	"fmt"
-	"math"
 	"slices"
 	"strings"
 
@@ -16,9 +15,11 @@ import (
 // of trade that passed no licence (common practice of national ozone units).
 
 // Defaults of a reconciliation.
-const (
-	DefaultReconcileTolerance = 0.05  // 5 % of the larger figure (common practice: from memory)
-	DefaultReconcileMinGap    = 0.001 // t
+var (
+	// DefaultReconcileTolerance is 5 % of the larger figure (common practice: from memory).
+	DefaultReconcileTolerance = exact.Scaled(5, -2)
+	// DefaultReconcileMinGap is 0.001 t.
+	DefaultReconcileMinGap = exact.Scaled(1, -3)
 )
 
 // RecordPartnerExports validates and stores partners' export figures.
@@ -75,7 +76,7 @@ type PartnerGap struct {
 // Reconciliation compares one year's partner figures with the recorded imports.
 type Reconciliation struct {
 	Year                 int
-	Tolerance            float64
+	Tolerance            exact.Decimal
 	PairsCompared        int
 	PartnersNotReporting []string
 	Gaps                 []PartnerGap
@@ -84,24 +85,24 @@ type Reconciliation struct {
 // ReconcilePartnerExports compares a year's partner figures with the recorded imports,
 // in one snapshot. tolerance 0 means DefaultReconcileTolerance, minGap 0
 // DefaultReconcileMinGap.
-func (c *Consumption) ReconcilePartnerExports(ctx context.Context, year int, tolerance, minGap float64) (Reconciliation, error) {
+func (c *Consumption) ReconcilePartnerExports(ctx context.Context, year int, tolerance, minGap exact.Decimal) (Reconciliation, error) {
 	var vs []FieldViolation
 	if v := CheckQueryYear("year", year); v != nil {
 		vs = append(vs, *v)
 	}
-	if math.IsNaN(tolerance) || tolerance < 0 || tolerance >= 1 {
-		vs = append(vs, FieldViolation{"tolerance_ratio", fmt.Sprintf("is %v; accepted: a fraction from 0 (the default, %g) to below 1", tolerance, DefaultReconcileTolerance)})
+	if tolerance.Sign() < 0 || tolerance.Cmp(exact.FromInt(1)) >= 0 {
+		vs = append(vs, FieldViolation{"tolerance_ratio", fmt.Sprintf("is %v; accepted: a fraction from 0 (the default, %v) to below 1", tolerance, DefaultReconcileTolerance)})
 	}
-	if math.IsNaN(minGap) || minGap < 0 || minGap > maxTonnes {
-		vs = append(vs, FieldViolation{"min_gap_tonnes", fmt.Sprintf("is %v; accepted: metric tonnes ≥ 0 (0: %g)", minGap, DefaultReconcileMinGap)})
+	if minGap.Sign() < 0 || minGap.Cmp(exact.FromInt(maxTonnes)) > 0 {
+		vs = append(vs, FieldViolation{"min_gap_tonnes", fmt.Sprintf("is %v; accepted: metric tonnes ≥ 0 (0: %v)", minGap, DefaultReconcileMinGap)})
 	}
 	if err := invalid(vs...); err != nil {
 		return Reconciliation{}, err
 	}
-	if tolerance == 0 {
+	if tolerance.IsZero() {
 		tolerance = DefaultReconcileTolerance
 	}
-	if minGap == 0 {
+	if minGap.IsZero() {
 		minGap = DefaultReconcileMinGap
 	}
 	var reports []PartnerExport
@@ -120,7 +121,7 @@ func (c *Consumption) ReconcilePartnerExports(ctx context.Context, year int, tol
 	return reconcile(year, tolerance, minGap, reports, lines), nil
 }
 
-func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []ShipmentLine) Reconciliation {
+func reconcile(year int, tol, minGap exact.Decimal, reports []PartnerExport, lines []ShipmentLine) Reconciliation {
 	type pair struct{ partner, substance string }
 	type side struct {
 		partner, recorded exact.Decimal
@@ -139,7 +140,7 @@ func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []S
 	reporting := map[string]bool{}
 	for _, r := range reports {
 		s := get(pair{r.Partner, r.Substance})
-		s.partner = s.partner.Add(exact.OfFloat(r.Tonnes))
+		s.partner = s.partner.Add(r.Tonnes)
 		s.keys = append(s.keys, r.Key)
 		reporting[r.Partner] = true
 	}
@@ -158,7 +159,7 @@ func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []S
 			continue
 		}
 		s := get(pair{l.PartnerCountry, l.Designation})
-		s.recorded = s.recorded.Add(exact.OfFloat(l.Tonnes))
+		s.recorded = s.recorded.Add(l.Tonnes)
 		s.ids = append(s.ids, l.ShipmentIDs...)
 	}
 	keys := make([]pair, 0, len(pairs))
@@ -176,7 +177,7 @@ func reconcile(year int, tol, minGap float64, reports []PartnerExport, lines []S
 	for _, k := range keys {
 		s := pairs[k]
 		gap := s.partner.Sub(s.recorded)
-		if gap.Abs().Cmp(exact.OfFloat(minGap)) <= 0 || gap.Abs().Cmp(exact.OfFloat(tol).Mul(exact.Max(s.partner, s.recorded))) <= 0 {
+		if gap.Abs().Cmp(minGap) <= 0 || gap.Abs().Cmp(tol.Mul(exact.Max(s.partner, s.recorded))) <= 0 {
 			continue
 		}
 		slices.Sort(s.ids)

@@ -520,7 +520,8 @@ func kindText(k substances.Kind) string {
 
 // shipmentRow turns an accepted verdict into the row the register records.
 // encode gives the record as the register keeps it.
-func shipmentRow(encode func() ([]byte, error), r *validate.Record, v *validate.Verdict) (ShipmentRow, error) {
+// lic is the licence the verdict's draws were planned on (nil when the record names none).
+func shipmentRow(encode func() ([]byte, error), r *validate.Record, v *validate.Verdict, lic *validate.Licence) (ShipmentRow, error) {
 	date, err := validate.ParseDate(r.DeclarationDate)
 	if err != nil {
 		return ShipmentRow{}, err
@@ -543,8 +544,32 @@ func shipmentRow(encode func() ([]byte, error), r *validate.Record, v *validate.
 			MassKg: ToNano(c.MassKg), ODPTonnes: ToNano(c.ODPTonnes), CO2eTonnes: ToNano(c.CO2eTonnes),
 			PartnerNonParty: &notBound})
 	}
+	var exactDraws []validate.ExactLineDraw
+	if len(v.Draws) > 0 {
+		exactDraws = validate.PlanDrawsExact(lic, f, r.Purpose)
+	}
 	for _, d := range v.Draws {
-		row.Draws = append(row.Draws, Draw{LicenceNumber: d.LicenceNumber, LineNumber: d.LineNumber, Amount: ToNano(d.Amount)})
+		row.Draws = append(row.Draws, Draw{LicenceNumber: d.LicenceNumber, LineNumber: d.LineNumber, Amount: drawNano(d, exactDraws)})
 	}
 	return row, nil
+}
+
+// drawNano is what a draw takes from its line, in billionths of the line's unit: the exact
+// sum of the components' figures on that line (validate.PlanDrawsExact), rounded once, half
+// away from zero, to the billionth (the 9th decimal). The register counts every line in
+// billionths (numeric(30, 9), Nano), so the 10th decimal on is what rounds; the sum is
+// rounded, not each component, so a blend draws what its total rounds to; and a half
+// billionth rounds up (away from zero) as the float path's math.Round did, so only
+// figures the float sum got wrong change. A draw the exact plan does not hold (a licence
+// not at hand, or figures without their exact decimals) keeps the float amount, rounded
+// the same way.
+func drawNano(d validate.LineDraw, exactDraws []validate.ExactLineDraw) Nano {
+	for _, x := range exactDraws {
+		if x.LineNumber == d.LineNumber {
+			if n, ok := x.Amount.Units(-9); ok {
+				return Nano(n)
+			}
+		}
+	}
+	return ToNano(d.Amount)
 }

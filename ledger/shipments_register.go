@@ -69,11 +69,11 @@ func (s *Shipments) CorrectShipment(ctx context.Context, who Caller, c Correctio
 	if v.Fingerprint == cur.Fingerprint {
 		return Corrected{}, refuse(Invalid, Violation{"record", fmt.Sprintf("is the same as shipment %d as recorded; a correction changes something", id)})
 	}
-	row, err := shipmentRow(c.Encode, &rec, &v)
+	lic, _ := env.Licence(strings.TrimSpace(rec.LicenceNumber))
+	row, err := shipmentRow(c.Encode, &rec, &v, lic)
 	if err != nil {
 		return Corrected{}, fmt.Errorf("%w: record %q: %v", ErrRecordRow, rec.Key, err)
 	}
-	lic, _ := env.Licence(strings.TrimSpace(rec.LicenceNumber))
 	if lic != nil {
 		row.LicenceVersion = lic.Version // written only while the licence still stands so
 	}

@@ -181,7 +181,7 @@ func (s *benchServer) benchEnv(tb testing.TB) *validate.Env {
 				u = terms.QuotaCO2eTonnes
 			}
 			v.QuotaLines = append(v.QuotaLines, validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
-				Unit: u, Allocated: q.Allocated, Drawn: q.Drawn})
+				Unit: u, Allocated: q.Allocated.Float64(), Drawn: q.Drawn.Float64()})
 		}
 		byNumber[l.Number] = v
 	}

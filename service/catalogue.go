@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"sort"
 	"strings"
 
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
@@ -101,24 +102,17 @@ func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEn
 	if size == 0 {
 		size = 100
 	}
-	off := 0
-	if tok := req.GetPageToken(); tok != "" {
-		pos, err := c.srv.openPageToken(ctx, "entries", filterHash(req), tok)
-		if errors.Is(err, errPageToken) {
-			return nil, invalid(fieldViolation{"page_token", err.Error()})
-		}
-		if err != nil {
-			return nil, toStatus(ctx, c.srv.log, err)
-		}
-		off = int(pos)
-	}
 	all := matchingEntries(c.srv.cat.Load(), f)
+	off, err := c.srv.entriesAfter(ctx, req, all)
+	if err != nil {
+		return nil, err
+	}
 	resp := &halovetv1.ListEntriesResponse{TotalSize: int32(len(all))}
 	if off < len(all) {
 		end := min(off+size, len(all))
 		resp.Entries = all[off:end]
 		if end < len(all) {
-			tok, err := c.srv.issuePageToken(ctx, "entries", filterHash(req), int64(end))
+			tok, err := c.srv.issuePageKey(ctx, "entries", filterHash(req), entryKeyOf(all[end-1]).strings())
 			if err != nil {
 				return nil, toStatus(ctx, c.srv.log, err)
 			}
@@ -126,6 +120,84 @@ func (c *catalogueServer) ListEntries(ctx context.Context, req *halovetv1.ListEn
 		}
 	}
 	return resp, nil
+}
+
+// entriesAfter is the index in all of the first entry a ListEntries page token goes on
+// from (0 without a token): the first entry after the last one the previous page showed, by
+// the list's order, so an entry added or removed in between moves no other entry across
+// pages. A bad token is an InvalidArgument status naming page_token.
+func (s *Server) entriesAfter(ctx context.Context, req *halovetv1.ListEntriesRequest, all []*halovetv1.CatalogueEntry) (int, error) {
+	tok := req.GetPageToken()
+	if tok == "" {
+		return 0, nil
+	}
+	key, err := s.openPageKey(ctx, "entries", filterHash(req), tok)
+	if errors.Is(err, errPageToken) {
+		return 0, invalid(fieldViolation{"page_token", err.Error()})
+	}
+	if err != nil {
+		return 0, toStatus(ctx, s.log, err)
+	}
+	after, ok := parseEntryKey(key)
+	if !ok {
+		return 0, invalid(fieldViolation{"page_token", errPageToken.Error()})
+	}
+	return sort.Search(len(all), func(i int) bool { return after.before(entryKeyOf(all[i])) }), nil
+}
+
+// entryKey is a catalogue entry's place in ListEntries' order, the page key its tokens
+// carry: substances (by Annex group, then designation) before blends (numbered before
+// unnumbered mixtures, then designation).
+type entryKey struct {
+	blend   bool
+	group   substances.Group // of a substance
+	mixture bool             // of a blend: a mixture without an ASHRAE 34 number
+	name    string
+}
+
+func entryKeyOf(e *halovetv1.CatalogueEntry) entryKey {
+	if b := e.GetBlend(); b != nil {
+		return entryKey{blend: true, mixture: b.GetBlendType() == wireterms.BlendTypeToWire(substances.BlendMixture), name: b.GetDesignation()}
+	}
+	s := e.GetSubstance()
+	return entryKey{group: substances.Group(s.GetAnnexGroup()), name: s.GetDesignation()}
+}
+
+// before reports whether k comes before l in the list's order.
+func (k entryKey) before(l entryKey) bool {
+	switch {
+	case k.blend != l.blend:
+		return !k.blend
+	case k.blend:
+		return substances.BlendBefore(k.mixture, k.name, l.mixture, l.name)
+	}
+	return substances.SubstanceBefore(k.group, k.name, l.group, l.name)
+}
+
+// strings is the key as a page token holds it.
+func (k entryKey) strings() []string {
+	if k.blend {
+		m := "numbered"
+		if k.mixture {
+			m = "mixture"
+		}
+		return []string{"blend", m, k.name}
+	}
+	return []string{"substance", string(k.group), k.name}
+}
+
+// parseEntryKey reads a key a token carried (its signature checked already).
+func parseEntryKey(s []string) (entryKey, bool) {
+	if len(s) != 3 {
+		return entryKey{}, false
+	}
+	switch s[0] {
+	case "substance":
+		return entryKey{group: substances.Group(s[1]), name: s[2]}, true
+	case "blend":
+		return entryKey{blend: true, mixture: s[1] == "mixture", name: s[2]}, s[1] == "mixture" || s[1] == "numbered"
+	}
+	return entryKey{}, false
 }
 
 // matchingEntries is every entry of the catalogue the filter selects: substances, then

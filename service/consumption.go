@@ -31,7 +31,7 @@ var entryTypeEnum = invert(entryTypeText)
 
 func entryToProto(e store.NationalEntry) *halovetv1.NationalEntry {
 	return &halovetv1.NationalEntry{EntryKey: e.Key, Year: int32(e.Year), EntryType: entryTypeEnum[e.Type],
-		Substance: e.Substance, MetricTonnes: dec(exact.OfFloat(e.Tonnes)), Note: e.Note, OutsideCustoms: e.OutsideCustoms}
+		Substance: e.Substance, MetricTonnes: dec(e.Tonnes), Note: e.Note, OutsideCustoms: e.OutsideCustoms}
 }
 
 func (c *consumptionServer) RecordNationalEntries(ctx context.Context, req *halovetv1.RecordNationalEntriesRequest) (*halovetv1.RecordNationalEntriesResponse, error) {
@@ -164,7 +164,7 @@ func (c *consumptionServer) GetBaseline(ctx context.Context, req *halovetv1.GetB
 			CfcTermAmount: decIf(h.CFCTerm, hcfc && allData(h.CFCYears)), Complete: h.Complete, Rule: h.Rule.Description() + " (" + h.RuleText() + ")"}
 	}
 	if ob := r.Official; ob != nil {
-		out.HasOfficialBaseline, out.OfficialBaselineAmount, out.OfficialBaselineSource = true, dec(exact.OfFloat(ob.Value)), ob.Source
+		out.HasOfficialBaseline, out.OfficialBaselineAmount, out.OfficialBaselineSource = true, dec(ob.Value), ob.Source
 	}
 	return out, nil
 }
@@ -189,7 +189,7 @@ func (c *consumptionServer) AssessCompliance(ctx context.Context, req *halovetv1
 	if ob := a.OfficialBaseline; ob != nil {
 		// The official baseline is the one used; the computed one stays beside it.
 		out.HasOfficialBaseline, out.OfficialBaselineSource = true, ob.Source
-		out.BaselineAmount, out.BaselineComplete = dec(exact.OfFloat(ob.Value)), true
+		out.BaselineAmount, out.BaselineComplete = dec(ob.Value), true
 	}
 	for _, y := range a.Years {
 		out.Years = append(out.Years, complianceYearToProto(y, r.YearNotes[y.Year]))
@@ -205,10 +205,10 @@ func complianceYearToProto(y controls.YearAssessment, notes []string) *halovetv1
 		Notes: slices.Concat(y.Notes, notes), Outcome: outcomeToProto[y.Outcome], HasData: y.HasData,
 		ComputedAllowedAmount: decIf(y.ComputedAllowed, y.Assessed), ExemptedAmount: dec(y.Exempted)}
 	if l := y.OfficialLimit; l != nil {
-		cy.HasOfficialLimit, cy.OfficialLimitAmount, cy.OfficialLimitSource = true, dec(exact.OfFloat(l.Value)), l.Source
+		cy.HasOfficialLimit, cy.OfficialLimitAmount, cy.OfficialLimitSource = true, dec(l.Value), l.Source
 	}
 	for _, e := range y.Exemptions {
-		cy.Exemptions = append(cy.Exemptions, &halovetv1.AppliedExemption{Use: exemptedUseEnum[string(e.Use)], Amount: dec(exact.OfFloat(e.Amount)), Source: e.Source})
+		cy.Exemptions = append(cy.Exemptions, &halovetv1.AppliedExemption{Use: exemptedUseEnum[string(e.Use)], Amount: dec(e.Amount), Source: e.Source})
 	}
 	if pp := y.Period; pp != nil {
 		cy.Period = &halovetv1.PeriodAverage{FromYear: int32(pp.Rule.FromYear), ToYear: int32(pp.Rule.ToYear),

@@ -54,10 +54,15 @@ func decIf(d exact.Decimal, known bool) string { return exact.Wire(d, known) }
 
 // tonnesIn reads a request's figure named field (metric tonnes, an amount in the scope's
 // unit, a fraction) for the ledger, which checks its range and says what it accepts: "" is
-// 0. An unreadable or over-long figure adds a violation naming the field.
-func tonnesIn(field, s string, vs *[]fieldViolation) float64 {
-	_, f := figureSigned(field, s, vs)
-	return f
+// 0. The figure is kept exactly as written (no float64 in between, so no limit of 15
+// significant digits); an unreadable figure adds a violation naming the field.
+func tonnesIn(field, s string, vs *[]fieldViolation) exact.Decimal {
+	d, _, err := exact.ParseField(field, s)
+	if err != nil {
+		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%q is not a decimal; give the figure as a decimal string in plain notation, e.g. \"12.5\" or \"0\" (no exponent, no separators)", s)})
+		return exact.Zero
+	}
+	return d
 }
 
 // indexed names the field of the i-th element of a repeated request field.

@@ -3,7 +3,6 @@ package service
 import (
 	"context"
 
-	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 )
@@ -29,7 +28,7 @@ func (c *consumptionServer) RecordPartnerExports(ctx context.Context, req *halov
 	resp := &halovetv1.RecordPartnerExportsResponse{}
 	for _, r := range rs {
 		resp.Reports = append(resp.Reports, &halovetv1.PartnerExport{ReportKey: r.Key, Year: int32(r.Year), PartnerCountry: r.Partner,
-			Substance: r.Substance, MetricTonnes: dec(exact.OfFloat(r.Tonnes)), Source: r.Source})
+			Substance: r.Substance, MetricTonnes: dec(r.Tonnes), Source: r.Source})
 	}
 	return resp, nil
 }
@@ -45,7 +44,7 @@ func (c *consumptionServer) ReconcilePartnerExports(ctx context.Context, req *ha
 	if err != nil {
 		return nil, c.srv.ledgerStatus(ctx, err)
 	}
-	out := &halovetv1.ReconcilePartnerExportsResponse{Year: int32(r.Year), ToleranceRatio: dec(exact.OfFloat(r.Tolerance)), PairsCompared: int32(r.PairsCompared),
+	out := &halovetv1.ReconcilePartnerExportsResponse{Year: int32(r.Year), ToleranceRatio: dec(r.Tolerance), PairsCompared: int32(r.PairsCompared),
 		PartnersNotReporting: r.PartnersNotReporting}
 	for _, g := range r.Gaps {
 		out.Gaps = append(out.Gaps, &halovetv1.PartnerGap{PartnerCountry: g.Partner, Substance: g.Substance, Year: int32(r.Year),

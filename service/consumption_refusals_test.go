@@ -165,19 +165,35 @@ func TestConsumptionFigureFieldErrors(t *testing.T) {
 			_, err := c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: 2025, ToleranceRatio: "5%"})
 			return err
 		}},
-		{"too many digits", "min_gap_tonnes", func() error {
-			_, err := c.ReconcilePartnerExports(ctx, &halovetv1.ReconcilePartnerExportsRequest{Year: 2025, MinGapTonnes: "0.12345678901234567"})
+		{"more decimals than the register keeps", "entries[0].metric_tonnes", func() error {
+			_, err := c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{entry("0.1234567891")}})
 			return err
 		}},
 	}
 	for _, tc := range calls {
 		st := catalogueCallStatus(t, tc.call(), codes.InvalidArgument)
-		if !slices.Equal(catalogueViolatedFields(st), []string{tc.field}) || !strings.Contains(st.Message(), "digits") && !strings.Contains(st.Message(), "plain notation") {
+		if !slices.Equal(catalogueViolatedFields(st), []string{tc.field}) || !strings.Contains(st.Message(), "at most 9 decimals") && !strings.Contains(st.Message(), "plain notation") {
 			t.Errorf("%s: %q fields %v; want field %s saying what is accepted", tc.name, st.Message(), catalogueViolatedFields(st), tc.field)
 		}
 	}
 	list, err := c.ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{})
 	if err != nil || len(list.GetEntries()) != 0 {
 		t.Fatalf("after refused calls: %v %v; want nothing stored", list.GetEntries(), err)
+	}
+	// 18 significant digits, more than a float64 holds, at the register's billionths: stored
+	// and answered digit for digit (it was refused as having more digits than are kept).
+	big := entry("123456789.123456789")
+	if _, err := c.RecordNationalEntries(ctx, &halovetv1.RecordNationalEntriesRequest{Entries: []*halovetv1.NationalEntry{big}}); err != nil {
+		t.Fatalf("an entry of 123456789.123456789 t: %v", err)
+	}
+	list, err = c.ListNationalEntries(ctx, &halovetv1.ListNationalEntriesRequest{})
+	if err != nil || len(list.GetEntries()) != 1 || list.GetEntries()[0].GetMetricTonnes() != "123456789.123456789" {
+		t.Fatalf("listed %v %v; want the entry with metric_tonnes exactly 123456789.123456789", list.GetEntries(), err)
+	}
+	// The consumption of 2025 counts it exactly: production 123456789.123456789 t of
+	// HCFC-22, × ODP 0.055 (MP Annex C Group I) = 6790123.401790123395 ODP t, by hand.
+	cons, err := c.GetConsumption(ctx, &halovetv1.GetConsumptionRequest{Year: 2025, AnnexGroup: "C/I"})
+	if err != nil || len(cons.GetGroups()) != 1 || cons.GetGroups()[0].GetConsumptionOdpTonnes() != "6790123.401790123395" {
+		t.Fatalf("consumption %v %v; want C/I 6790123.401790123395 ODP t exactly", cons, err)
 	}
 }

@@ -14,14 +14,11 @@ import (
 // with their ids, national entries with their keys) by the same classification as the
 // consumption arithmetic, so its group totals equal GetConsumption's; a test compares them.
 
-// hfc23Designation is the catalogue designation of Annex F Group II.
-const hfc23Designation = "HFC-23"
-
 func (c *consumptionServer) RecordHfc23Entries(ctx context.Context, req *halovetv1.RecordHfc23EntriesRequest) (*halovetv1.RecordHfc23EntriesResponse, error) {
 	in := make([]ledger.HFC23Entry, len(req.GetEntries()))
 	var vs []fieldViolation
 	for i, e := range req.GetEntries() {
-		f := func(name, s string) float64 { return tonnesIn(indexed("entries", i, name), s, &vs) }
+		f := func(name, s string) exact.Decimal { return tonnesIn(indexed("entries", i, name), s, &vs) }
 		in[i] = ledger.HFC23Entry{Key: e.GetEntryKey(), Facility: e.GetFacility(), Year: int(e.GetYear()),
 			Generated: f("generated_tonnes", e.GetGeneratedTonnes()), CapturedUsed: f("captured_used_tonnes", e.GetCapturedUsedTonnes()),
 			Destroyed: f("destroyed_tonnes", e.GetDestroyedTonnes()), Emitted: f("emitted_tonnes", e.GetEmittedTonnes()), Note: e.GetNote()}
@@ -42,18 +39,12 @@ func (c *consumptionServer) RecordHfc23Entries(ctx context.Context, req *halovet
 }
 
 // hfc23GWP is the Protocol GWP of HFC-23 in the current catalogue (Annex F Group II).
-func (s *Server) hfc23GWP() float64 {
-	if sub, ok := s.cat.Load().Substance(hfc23Designation); ok {
-		return sub.ProtocolGWP()
-	}
-	return 0
-}
+func (s *Server) hfc23GWP() exact.Decimal { return ledger.HFC23GWP(s.cat.Load()) }
 
-func hfc23ToProto(e store.HFC23Entry, gwp float64) *halovetv1.Hfc23Entry {
-	d := exact.OfFloat
-	return &halovetv1.Hfc23Entry{EntryKey: e.Key, Facility: e.Facility, Year: int32(e.Year), GeneratedTonnes: dec(d(e.Generated)),
-		CapturedUsedTonnes: dec(d(e.CapturedUsed)), DestroyedTonnes: dec(d(e.Destroyed)), EmittedTonnes: dec(d(e.Emitted)),
-		EmittedCo2ETonnes: dec(d(e.Emitted).Mul(d(gwp))), Note: e.Note}
+func hfc23ToProto(e store.HFC23Entry, gwp exact.Decimal) *halovetv1.Hfc23Entry {
+	return &halovetv1.Hfc23Entry{EntryKey: e.Key, Facility: e.Facility, Year: int32(e.Year), GeneratedTonnes: dec(e.Generated),
+		CapturedUsedTonnes: dec(e.CapturedUsed), DestroyedTonnes: dec(e.Destroyed), EmittedTonnes: dec(e.Emitted),
+		EmittedCo2ETonnes: dec(e.Emitted.Mul(gwp)), Note: e.Note}
 }
 
 func (c *consumptionServer) ListHfc23Entries(ctx context.Context, req *halovetv1.ListHfc23EntriesRequest) (*halovetv1.ListHfc23EntriesResponse, error) {

@@ -4,7 +4,6 @@ import (
 	"context"
 
 	"github.com/halovet/halovet/controls"
-	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/ledger"
 	halovetv1 "github.com/halovet/halovet/proto/halovet/v1"
 	"github.com/halovet/halovet/store"
@@ -52,7 +51,7 @@ func (c *consumptionServer) RecordExemptions(ctx context.Context, req *halovetv1
 
 func exemptionToProto(e store.Exemption) *halovetv1.AuthorisedExemption {
 	return &halovetv1.AuthorisedExemption{ExemptionKey: e.Key, CountryCode: e.CountryCode, Year: int32(e.Year), AnnexGroup: e.Scope,
-		Use: exemptedUseEnum[e.Use], Amount: dec(exact.OfFloat(e.Amount)), Unit: controlUnitProto(e.Unit), Source: e.Source, Note: e.Note}
+		Use: exemptedUseEnum[e.Use], Amount: dec(e.Amount), Unit: controlUnitProto(e.Unit), Source: e.Source, Note: e.Note}
 }
 
 func (c *consumptionServer) ListExemptions(ctx context.Context, req *halovetv1.ListExemptionsRequest) (*halovetv1.ListExemptionsResponse, error) {
@@ -105,7 +104,7 @@ func (c *consumptionServer) RecordOfficialFigures(ctx context.Context, req *halo
 
 func officialToProto(f store.OfficialFigure) *halovetv1.OfficialFigure {
 	return &halovetv1.OfficialFigure{FigureKey: f.Key, CountryCode: f.CountryCode, Kind: officialKindEnum[f.Kind], AnnexGroup: f.Scope,
-		Year: int32(f.Year), Amount: dec(exact.OfFloat(f.Value)), Unit: controlUnitProto(f.Unit), Source: f.Source}
+		Year: int32(f.Year), Amount: dec(f.Value), Unit: controlUnitProto(f.Unit), Source: f.Source}
 }
 
 func (c *consumptionServer) ListOfficialFigures(ctx context.Context, req *halovetv1.ListOfficialFiguresRequest) (*halovetv1.ListOfficialFiguresResponse, error) {

@@ -284,7 +284,7 @@ func TestLegacyHFC23DestructionFlagged(t *testing.T) {
 	conn, st := startTestServer(t)
 	ctx := context.Background()
 	c := halovetv1.NewConsumptionServiceClient(conn)
-	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "OLD-HFC23", Year: 2025, Type: store.EntryDestruction, Substance: "HFC-23", Tonnes: 100}}); err != nil {
+	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "OLD-HFC23", Year: 2025, Type: store.EntryDestruction, Substance: "HFC-23", Tonnes: num("100")}}); err != nil {
 		t.Fatal(err)
 	}
 	got, err := c.GetConsumption(ctx, &halovetv1.GetConsumptionRequest{Year: 2025})

@@ -264,25 +264,24 @@ func (l *licensingServer) quotaLineFromProto(q *halovetv1.QuotaLine, f string) (
 // quotaAmountIn reads a request's quota amount named field: a decimal string, "" for 0,
 // not negative, at most maxAllocation and with at most 9 decimals (the register counts
 // quota in billionths and rounds nothing it is given).
-func quotaAmountIn(field, s string, vs *[]fieldViolation) float64 {
-	n := len(*vs)
-	d, f := figureIn(field, s, vs)
+func quotaAmountIn(field, s string, vs *[]fieldViolation) exact.Decimal {
+	d, _, err := exact.ParseField(field, s)
 	switch {
-	case len(*vs) > n:
-		return 0
+	case err != nil:
+		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%q is not a decimal; give the figure as a decimal string in plain notation, e.g. \"12.5\" or \"0\" (no exponent, no separators)", s)})
+		return exact.Zero
+	case d.Sign() < 0:
+		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s is negative; give 0 or more", d)})
+		return exact.Zero
 	case d.Cmp(exact.FromInt(maxAllocation)) > 0:
 		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s is above the largest quota amount; give 0 to %d in the line's unit", d, int64(maxAllocation))})
-		return 0
+		return exact.Zero
 	case !d.Round(9).Equal(d):
 		*vs = append(*vs, fieldViolation{field, fmt.Sprintf("%s has more than 9 decimals; the register counts quota in billionths: give at most 9 decimals", d)})
-		return 0
+		return exact.Zero
 	}
-	return f
+	return d
 }
-
-// quotaAmount writes a quota amount the register keeps in billionths (numeric(30, 9), read
-// as the float64 nearest to it) as its exact decimal.
-func quotaAmount(f float64) exact.Decimal { return exact.OfFloat(f).Round(9) }
 
 // licenceToProto converts a stored licence; status is its status on day today.
 func licenceToProto(l store.Licence, today time.Time) *halovetv1.Licence {
@@ -302,8 +301,8 @@ func licenceToProto(l store.Licence, today time.Time) *halovetv1.Licence {
 	}
 	for _, q := range l.QuotaLines {
 		p.QuotaLines = append(p.QuotaLines, &halovetv1.QuotaLine{LineNumber: int32(q.LineNumber), AnnexGroup: q.AnnexGroup,
-			Substance: q.Substance, Unit: wireterms.QuotaUnitToWire(q.Unit), AllocatedAmount: quotaAmount(q.Allocated).String(),
-			DrawnAmount: quotaAmount(q.Drawn).String(), RemainingAmount: quotaAmount(q.Allocated).Sub(quotaAmount(q.Drawn)).String(),
+			Substance: q.Substance, Unit: wireterms.QuotaUnitToWire(q.Unit), AllocatedAmount: q.Allocated.String(),
+			DrawnAmount: q.Drawn.String(), RemainingAmount: q.Allocated.Sub(q.Drawn).String(),
 			Purposes: purposesToProto(q.Purposes), ClosedOn: dateOrEmpty(q.ClosedOn)})
 	}
 	return p

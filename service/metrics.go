@@ -243,8 +243,8 @@ func (c *quotaCollector) Collect(ch chan<- prometheus.Metric) {
 		}
 		for _, q := range l.QuotaLines {
 			pct := 100.0
-			if q.Allocated > 0 {
-				pct = 100 * q.Drawn / q.Allocated
+			if q.Allocated.Sign() > 0 {
+				pct = q.Drawn.Shift(2).DivRound(q.Allocated, 6).Float64() // a band of a gauge, not a figure
 			}
 			for i, b := range quotaBands {
 				if pct < b.below {

@@ -62,7 +62,7 @@ var pagedCases = map[string]pagedCase{
 		seed: func(t *testing.T, e pagedEnv, n int) {
 			must(t, e.st.IssueLicence(context.Background(), store.Licence{Number: fmt.Sprintf("PG-%02d", n), CompanyID: shipCompany,
 				Directions: []terms.Direction{terms.DirectionImport}, ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC),
-				Status: terms.LicenceActive, QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: 1}}}, "test"))
+				Status: terms.LicenceActive, QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: num("1")}}}, "test"))
 		}},
 	"LicensingService/ListLicenceHistory": {rows: "events",
 		req:      func() proto.Message { return &halovetv1.ListLicenceHistoryRequest{LicenceNumber: shipLicence} },
@@ -85,27 +85,27 @@ var pagedCases = map[string]pagedCase{
 		refilter: func(m proto.Message) { m.(*halovetv1.ListNationalEntriesRequest).Year = 2003 },
 		seed: func(t *testing.T, e pagedEnv, n int) {
 			must(t, e.st.PutNationalEntries(context.Background(), []store.NationalEntry{{Key: fmt.Sprintf("PG-%02d", n), Year: 2000 + n/10,
-				Type: store.EntryProduction, Substance: "HCFC-22", Tonnes: 1}}))
+				Type: store.EntryProduction, Substance: "HCFC-22", Tonnes: num("1")}}))
 		}},
 	"ConsumptionService/ListExemptions": {rows: "exemptions",
 		req:      func() proto.Message { return &halovetv1.ListExemptionsRequest{} },
 		refilter: func(m proto.Message) { m.(*halovetv1.ListExemptionsRequest).Year = 2003 },
 		seed: func(t *testing.T, e pagedEnv, n int) {
 			must(t, e.st.PutExemptions(context.Background(), []store.Exemption{{Key: fmt.Sprintf("PG-%02d", n), CountryCode: "XA",
-				Year: 2000 + n/10, Scope: "C/I", Use: "laboratory", Amount: 1, Unit: "ODP t", Source: "invented for the test"}}))
+				Year: 2000 + n/10, Scope: "C/I", Use: "laboratory", Amount: num("1"), Unit: "ODP t", Source: "invented for the test"}}))
 		}},
 	"ConsumptionService/ListOfficialFigures": {rows: "figures",
 		req: func() proto.Message { return &halovetv1.ListOfficialFiguresRequest{} },
 		seed: func(t *testing.T, e pagedEnv, n int) {
 			must(t, e.st.PutOfficialFigures(context.Background(), []store.OfficialFigure{{Key: fmt.Sprintf("PG-%02d", n), CountryCode: "XA",
-				Kind: "limit", Scope: "C/I", Year: 2000 + n, Value: 1, Unit: "ODP t", Source: "invented for the test"}}))
+				Kind: "limit", Scope: "C/I", Year: 2000 + n, Value: num("1"), Unit: "ODP t", Source: "invented for the test"}}))
 		}},
 	"ConsumptionService/ListHfc23Entries": {rows: "entries",
 		req:      func() proto.Message { return &halovetv1.ListHfc23EntriesRequest{} },
 		refilter: func(m proto.Message) { m.(*halovetv1.ListHfc23EntriesRequest).Year = 2023 },
 		seed: func(t *testing.T, e pagedEnv, n int) {
 			must(t, e.st.PutHFC23Entries(context.Background(), []store.HFC23Entry{{Key: fmt.Sprintf("PG-%02d", n),
-				Facility: fmt.Sprintf("PG-PLANT-%02d", n), Year: 2020 + n/10, Generated: 1, Destroyed: 1}}))
+				Facility: fmt.Sprintf("PG-PLANT-%02d", n), Year: 2020 + n/10, Generated: num("1"), Destroyed: num("1")}}))
 		}},
 	"ShipmentService/ListShipments": {rows: "shipments",
 		req:      func() proto.Message { return &halovetv1.ListShipmentsRequest{} },

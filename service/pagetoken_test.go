@@ -39,8 +39,8 @@ func TestPageTokensAreSigned(t *testing.T) {
 	tok := first.GetNextPageToken()
 	payload, sig, _ := strings.Cut(tok, ".")
 	raw, _ := base64.RawURLEncoding.DecodeString(payload)
-	// The same signature over a payload that skips ahead: position 5 made 500.
-	forged := base64.RawURLEncoding.EncodeToString([]byte(strings.Replace(string(raw), ".5", ".500", 1))) + "." + sig
+	// The same signature over a payload whose page key is altered.
+	forged := base64.RawURLEncoding.EncodeToString([]byte(strings.Replace(string(raw), ".k", ".kWyJ", 1))) + "." + sig
 	refusals := map[string]*halovetv1.ListEntriesRequest{
 		"made up":         {PageSize: 5, PageToken: "5"},
 		"payload altered": {PageSize: 5, PageToken: forged},

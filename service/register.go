@@ -92,7 +92,9 @@ func toValidateLicence(l store.Licence) validate.Licence {
 	v.SpecialPurposes = slices.Clone(l.SpecialPurposes)
 	for _, q := range l.QuotaLines {
 		line := validate.QuotaLine{LineNumber: q.LineNumber, Group: substances.Group(q.AnnexGroup),
-			Substance: q.Substance, Unit: q.Unit, Allocated: q.Allocated, Drawn: q.Drawn, Closed: !q.ClosedOn.IsZero()}
+			// The checker's quota notices still compute in float64 (validate); the register
+			// draws and keeps the exact amounts.
+			Substance: q.Substance, Unit: q.Unit, Allocated: q.Allocated.Float64(), Drawn: q.Drawn.Float64(), Closed: !q.ClosedOn.IsZero()}
 		if q.AnnexGroup == validate.WholeAnnexF {
 			line.Group, line.Annex = substances.GroupNone, validate.WholeAnnexF
 		}

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/terms"
 )
 
@@ -11,7 +12,7 @@ import (
 // reads the yearly totals the triggers of migration 12 keep in the transactions that
 // record, void and correct shipments. Exported for cmd/registerbench's plans.
 const ShipmentTotalsSQL = `SELECT year, designation, annex_group, direction, purpose, condition, non_party,
-	        (mass_kg / 1000)::float8, components
+	        mass_kg, components
 	    FROM shipment_year_totals
 	    WHERE ($1::int[] IS NULL OR year = ANY($1)) AND components > 0
 	    ORDER BY year, designation, direction, purpose, condition, non_party, annex_group`
@@ -21,7 +22,7 @@ const ShipmentTotalsSQL = `SELECT year, designation, annex_group, direction, pur
 // before the yearly totals, kept as cmd/registerbench's baseline and for the tests that
 // compare the totals with the register (CheckInvariants runs the same sums).
 const ShipmentTotalsJoinSQL = `SELECT s.year, c.designation, c.annex_group, s.direction, s.purpose,
-	        s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party, (sum(c.mass_kg) / 1000)::float8, count(*)
+	        s.condition, coalesce(c.partner_non_party, s.partner_non_party) AS non_party, sum(c.mass_kg), count(*)
 	    FROM shipments s JOIN shipment_components c ON c.shipment_id = s.shipment_id
 	    WHERE ($1::int[] IS NULL OR s.year = ANY($1)) AND s.state = 'live'
 	    GROUP BY s.year, c.designation, c.annex_group, s.direction, s.purpose, s.condition, non_party
@@ -45,9 +46,9 @@ type ShipmentTotal struct {
 	Direction       terms.Direction
 	Purpose         terms.Purpose
 	Condition       terms.Condition
-	PartnerNonParty bool    // the partner was not bound for this component's group
-	Tonnes          float64 // sum of the components' net mass, metric tonnes
-	Shipments       int64   // shipments contributing
+	PartnerNonParty bool          // the partner was not bound for this component's group
+	Tonnes          exact.Decimal // sum of the components' net mass, metric tonnes, exact
+	Shipments       int64         // shipments contributing
 }
 
 // ShipmentTotals sums the recorded shipment components per year, substance, direction,
@@ -74,6 +75,7 @@ func (r Reader) ShipmentTotals(ctx context.Context, years []int) (_ []ShipmentTo
 			&t.PartnerNonParty, &t.Tonnes, &t.Shipments); err != nil {
 			return nil, err
 		}
+		t.Tonnes = t.Tonnes.Shift(-3) // kg read as numeric text, to tonnes exactly
 		out = append(out, t)
 	}
 	return out, rows.Err()
@@ -109,7 +111,7 @@ func (r Reader) ShipmentYears(ctx context.Context) (_ []int, err error) {
 type CompanyAmount struct {
 	CompanyID string
 	Year      int
-	Amount    float64
+	Amount    exact.Decimal // exact numeric sum, in the unit asked for
 }
 
 // CompanyImports sums, per company and year, the recorded imports that count in
@@ -126,7 +128,7 @@ func (r Reader) CompanyImports(ctx context.Context, groups []string, unit terms.
 	var expr string
 	switch unit {
 	case terms.QuotaMetricTonnes:
-		expr = "c.mass_kg / 1000"
+		expr = "c.mass_kg" // kilograms: tonnes in Go, exactly (Shift(-3))
 	case terms.QuotaODPTonnes:
 		expr = "c.odp_tonnes"
 	case terms.QuotaCO2eTonnes:
@@ -136,7 +138,7 @@ func (r Reader) CompanyImports(ctx context.Context, groups []string, unit terms.
 	}
 	// The components are unnested from the rows scanned (migration 13), not joined back
 	// through the shipment_components view: one scan of the register, no hash join.
-	rows, err := r.q.Query(ctx, `SELECT company_id, year, sum(`+expr+`)::float8
+	rows, err := r.q.Query(ctx, `SELECT company_id, year, sum(`+expr+`)
 	    FROM (SELECT s.company_id, s.year, unnest(s.component_annex_groups) AS annex_group,
 	            unnest(s.component_mass_kg) AS mass_kg, unnest(s.component_odp_tonnes) AS odp_tonnes,
 	            unnest(s.component_co2e_tonnes) AS co2e_tonnes
@@ -153,6 +155,9 @@ func (r Reader) CompanyImports(ctx context.Context, groups []string, unit terms.
 		var a CompanyAmount
 		if err := rows.Scan(&a.CompanyID, &a.Year, &a.Amount); err != nil {
 			return nil, err
+		}
+		if unit == terms.QuotaMetricTonnes {
+			a.Amount = a.Amount.Shift(-3)
 		}
 		out = append(out, a)
 	}
@@ -171,8 +176,8 @@ type ShipmentLine struct {
 	Purpose         terms.Purpose
 	Condition       terms.Condition
 	PartnerNonParty bool
-	Tonnes          float64 // exact numeric sum in kg, converted to tonnes as the last step
-	ShipmentIDs     []int64 // in order
+	Tonnes          exact.Decimal // exact numeric sum in kg, converted to tonnes as the last step
+	ShipmentIDs     []int64       // in order
 }
 
 // ShipmentLines sums the recorded shipment components of one year per partner, substance,
@@ -190,7 +195,7 @@ func (r Reader) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, 
 	// Components unnested from the rows scanned (migration 13), as in CompanyImports.
 	rows, err := r.q.Query(ctx, `SELECT c.year, c.partner_country, c.designation, c.annex_group, c.direction,
 	        c.purpose, c.condition, coalesce(c.np, c.partner_non_party) AS non_party,
-	        (sum(c.mass_kg) / 1000)::float8, array_agg(c.shipment_id ORDER BY c.shipment_id)
+	        sum(c.mass_kg), array_agg(c.shipment_id ORDER BY c.shipment_id)
 	    FROM (SELECT s.shipment_id, s.year, s.partner_country, s.direction, s.purpose, s.condition, s.partner_non_party,
 	            unnest(s.component_designations) AS designation, unnest(s.component_annex_groups) AS annex_group,
 	            unnest(s.component_mass_kg) AS mass_kg, unnest(s.component_non_party) AS np
@@ -208,6 +213,7 @@ func (r Reader) ShipmentLines(ctx context.Context, year int) (_ []ShipmentLine, 
 			&l.Purpose, &l.Condition, &l.PartnerNonParty, &l.Tonnes, &l.ShipmentIDs); err != nil {
 			return nil, err
 		}
+		l.Tonnes = l.Tonnes.Shift(-3)
 		out = append(out, l)
 	}
 	return out, rows.Err()

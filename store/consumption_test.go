@@ -3,10 +3,10 @@ package store_test
 import (
 	"context"
 	"errors"
-	"math"
 	"testing"
 	"time"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
 	"github.com/halovet/halovet/terms"
@@ -54,24 +54,25 @@ func comp(des, group string, kg, odp, co2 float64) store.ShipmentComponent {
 		ODPTonnes: store.ToNano(odp), CO2eTonnes: store.ToNano(co2)}
 }
 
-func near(a, b float64) bool { return math.Abs(a-b) <= 1e-9*math.Max(1, math.Abs(b)) }
+// near reports whether an exact figure equals a decimal written as a float64 literal.
+func near(a exact.Decimal, b float64) bool { return a.Equal(exact.OfFloat(b)) }
 
 func TestNationalEntriesReplaceByKeyAndRefuseBadRows(t *testing.T) {
 	st := consStore(t)
 	ctx := context.Background()
 	// Worked example with invented data.
 	in := []store.NationalEntry{
-		{Key: "p-2025-22", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-22", Tonnes: 10, Note: "plant 1"},
-		{Key: "p-2025-22b", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-22", Tonnes: 2.5},
-		{Key: "d-2025-22", Year: 2025, Type: store.EntryDestruction, Substance: "HCFC-22", Tonnes: 1},
-		{Key: "h-1989-11", Year: 1989, Type: store.EntryHistoricalImport, Substance: "CFC-11", Tonnes: 100},
+		{Key: "p-2025-22", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-22", Tonnes: num("10"), Note: "plant 1"},
+		{Key: "p-2025-22b", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-22", Tonnes: num("2.5")},
+		{Key: "d-2025-22", Year: 2025, Type: store.EntryDestruction, Substance: "HCFC-22", Tonnes: num("1")},
+		{Key: "h-1989-11", Year: 1989, Type: store.EntryHistoricalImport, Substance: "CFC-11", Tonnes: num("100")},
 	}
 	if err := st.PutNationalEntries(ctx, in); err != nil {
 		t.Fatal(err)
 	}
 	// Same key again: replaced, not added.
 	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "p-2025-22", Year: 2025, Type: store.EntryProduction,
-		Substance: "HCFC-22", Tonnes: 12}}); err != nil {
+		Substance: "HCFC-22", Tonnes: num("12")}}); err != nil {
 		t.Fatal(err)
 	}
 	got, err := st.ListNationalEntries(ctx, 2025)
@@ -105,19 +106,19 @@ func TestNationalEntriesReplaceByKeyAndRefuseBadRows(t *testing.T) {
 
 	// A substance outside the catalogue table fails the whole call: nothing of it is stored.
 	err = st.PutNationalEntries(ctx, []store.NationalEntry{
-		{Key: "ok", Year: 2025, Type: store.EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: 1},
-		{Key: "bad", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-999", Tonnes: 1},
+		{Key: "ok", Year: 2025, Type: store.EntryFeedstock, Substance: "carbon tetrachloride", Tonnes: num("1")},
+		{Key: "bad", Year: 2025, Type: store.EntryProduction, Substance: "HCFC-999", Tonnes: num("1")},
 	})
 	if !errors.Is(err, store.ErrNotFound) {
 		t.Fatalf("unknown substance: err %v, want ErrNotFound", err)
 	}
 	// The schema refuses negative tonnes and unknown kinds (migration 00002).
 	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "neg", Year: 2025, Type: store.EntryProduction,
-		Substance: "HCFC-22", Tonnes: -1}}); !errors.Is(err, store.ErrConflict) {
+		Substance: "HCFC-22", Tonnes: num("-1")}}); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("negative tonnes: err %v, want ErrConflict", err)
 	}
 	if err := st.PutNationalEntries(ctx, []store.NationalEntry{{Key: "kind", Year: 2025, Type: "stockpile",
-		Substance: "HCFC-22", Tonnes: 1}}); !errors.Is(err, store.ErrConflict) {
+		Substance: "HCFC-22", Tonnes: num("1")}}); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("unknown kind: err %v, want ErrConflict", err)
 	}
 	if after, _ := st.ListNationalEntries(ctx, 0); len(after) != 4 {

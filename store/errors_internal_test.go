@@ -49,7 +49,7 @@ func seedLicence(t *testing.T, st *Store) {
 	}
 	l := Licence{Number: "L-1", CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport},
 		ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC),
-		Status: terms.LicenceActive, QuotaLines: []QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: 1}}}
+		Status: terms.LicenceActive, QuotaLines: []QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: num("1")}}}
 	if err := st.IssueLicence(ctx, l, "test licence"); err != nil {
 		t.Fatal(err)
 	}
@@ -81,7 +81,7 @@ func TestStoreCallsClassifyConstraintsAndMissingRows(t *testing.T) {
 	wantKind(t, "an unknown licence", err, ErrNotFound)
 	_, err = st.GetParty(ctx, "ZZ")
 	wantKind(t, "an unknown party", err, ErrNotFound)
-	err = st.PutNationalEntries(ctx, []NationalEntry{{Key: "neg", Year: 2025, Type: EntryProduction, Substance: "HCFC-22", Tonnes: -1}})
+	err = st.PutNationalEntries(ctx, []NationalEntry{{Key: "neg", Year: 2025, Type: EntryProduction, Substance: "HCFC-22", Tonnes: num("-1")}})
 	wantKind(t, "negative tonnes (check violation)", err, ErrConflict)
 }
 

@@ -1,6 +1,7 @@
 package store
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"errors"
@@ -10,6 +11,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/terms"
 )
 
@@ -220,10 +222,10 @@ func (s *Store) CloseQuotaLine(ctx context.Context, c CloseLine) (successor int,
 		if l.status == terms.LicenceRevoked {
 			return fmt.Errorf("licence %q is revoked; its quota lines stay as they are: %w", c.Number, ErrConflict)
 		}
-		var allocated, drawn float64
+		var allocated, drawn exact.Decimal
 		var closed *time.Time
 		var maxLine int
-		err = tx.QueryRow(ctx, `SELECT allocated::float8, drawn::float8, closed_on,
+		err = tx.QueryRow(ctx, `SELECT allocated, drawn, closed_on,
 		      (SELECT max(line_number) FROM quota_lines WHERE licence_number = $1)
 		    FROM quota_lines WHERE licence_number = $1 AND line_number = $2 FOR UPDATE`, c.Number, c.LineNumber).
 			Scan(&allocated, &drawn, &closed, &maxLine)
@@ -240,6 +242,7 @@ func (s *Store) CloseQuotaLine(ctx context.Context, c CloseLine) (successor int,
 		    WHERE licence_number = $1 AND line_number = $2`, c.Number, c.LineNumber, c.EffectiveOn); err != nil {
 			return err
 		}
+		// Figures in the detail are JSON strings (exact.Decimal's MarshalJSON), not numbers.
 		detail := map[string]any{"line_number": c.LineNumber, "allocated_before": allocated, "drawn": drawn,
 			"closed_on": c.EffectiveOn.Format(time.DateOnly)}
 		if c.Successor != nil {
@@ -290,6 +293,9 @@ func (s *Store) LicenceHistoryPage(ctx context.Context, number string, p Page) (
 		var e LicenceEvent
 		if err := rows.Scan(&e.ID, &e.Kind, &e.EffectiveOn, &e.Status, &e.Reason, &e.Actor, &e.RecordedAt, &e.Detail); err != nil {
 			return nil, err
+		}
+		if e.Detail, err = detailAmountsAsText(e.Detail); err != nil {
+			return nil, fmt.Errorf("history of licence %q, event %d: %w", number, e.ID, err)
 		}
 		out = append(out, e)
 	}
@@ -362,4 +368,55 @@ func readLicenceStatuses(ctx context.Context, tx pgx.Tx, lics []string) (licence
 	}
 	ls.history, err = statusHistories(ctx, tx, lics)
 	return ls, err
+}
+
+// detailAmounts are the keys of a history event's detail that hold quota amounts: a closed
+// line's allocation and draws, and the Allocated and Drawn of the quota lines an amendment
+// or a closed line's successor carries.
+var detailAmounts = map[string]bool{"allocated_before": true, "drawn": true, "Allocated": true, "Drawn": true}
+
+// detailAmountsAsText gives an event's detail with every quota amount as a JSON string
+// holding its exact decimal ("0.4"), as events are written now (exact.Decimal's
+// MarshalJSON). Events written before amounts were strings hold them as JSON numbers; those
+// are turned into strings from their text, digit for digit (json.Number, no float64), so
+// the history reads the same whichever server wrote it. A detail without such numbers is
+// returned as it is.
+func detailAmountsAsText(detail json.RawMessage) (json.RawMessage, error) {
+	if len(detail) == 0 || !bytes.ContainsAny(detail, "0123456789") {
+		return detail, nil
+	}
+	dec := json.NewDecoder(bytes.NewReader(detail))
+	dec.UseNumber()
+	var v any
+	if err := dec.Decode(&v); err != nil {
+		return nil, err
+	}
+	changed := false
+	var walk func(any) any
+	walk = func(x any) any {
+		switch t := x.(type) {
+		case map[string]any:
+			for k, e := range t {
+				if n, ok := e.(json.Number); ok && detailAmounts[k] {
+					d, err := exact.Parse(n.String())
+					if err != nil {
+						continue // an exponent: left as the number it is
+					}
+					t[k], changed = d.String(), true
+					continue
+				}
+				t[k] = walk(e)
+			}
+		case []any:
+			for i, e := range t {
+				t[i] = walk(e)
+			}
+		}
+		return x
+	}
+	v = walk(v)
+	if !changed {
+		return detail, nil
+	}
+	return json.Marshal(v)
 }

@@ -164,7 +164,7 @@ func TestAmendmentKeepsWhatPastDrawsMean(t *testing.T) {
 		{"scope", func(x *store.Licence) { x.QuotaLines[0].AnnexGroup = "F/I" }, "close it (CloseQuotaLine)"},
 		{"company", func(x *store.Licence) { x.CompanyID = "XA-2" }, "company_id stays XA-1"},
 		{"removal", func(x *store.Licence) { x.QuotaLines = nil }, "cannot be removed"},
-		{"below drawn", func(x *store.Licence) { x.QuotaLines[0].Allocated = 0.3 }, "below the 0.4 already drawn"},
+		{"below drawn", func(x *store.Licence) { x.QuotaLines[0].Allocated = num("0.3") }, "below the 0.4 already drawn"},
 	}
 	for _, r := range refusals {
 		if _, err := amend(r.edit, 0); !errors.Is(err, store.ErrConflict) || !strings.Contains(err.Error(), r.text) {
@@ -177,20 +177,20 @@ func TestAmendmentKeepsWhatPastDrawsMean(t *testing.T) {
 	if changed, err := amend(func(*store.Licence) {}, l.Version); err != nil || changed {
 		t.Fatalf("an amendment that changes nothing: changed %v, err %v", changed, err)
 	}
-	if changed, err := amend(func(x *store.Licence) { x.QuotaLines[0].Allocated = 2 }, l.Version); err != nil || !changed {
+	if changed, err := amend(func(x *store.Licence) { x.QuotaLines[0].Allocated = num("2") }, l.Version); err != nil || !changed {
 		t.Fatalf("raising the allocation: changed %v, err %v", changed, err)
 	}
-	if _, err := amend(func(x *store.Licence) { x.QuotaLines[0].Allocated = 3 }, l.Version); !errors.Is(err, store.ErrStaleVersion) {
+	if _, err := amend(func(x *store.Licence) { x.QuotaLines[0].Allocated = num("3") }, l.Version); !errors.Is(err, store.ErrStaleVersion) {
 		t.Fatalf("amending the version read before the last amendment: %v, want ErrStaleVersion", err)
 	}
 	n, err := st.CloseQuotaLine(ctx, store.CloseLine{Number: "L-1", LineNumber: 1, EffectiveOn: date(2026, 8, 1), Reason: "converted to CO2-eq",
-		Successor: &store.QuotaLine{AnnexGroup: "C/I", Unit: terms.QuotaCO2eTonnes, Allocated: 500}})
+		Successor: &store.QuotaLine{AnnexGroup: "C/I", Unit: terms.QuotaCO2eTonnes, Allocated: num("500")}})
 	if err != nil || n != 2 {
 		t.Fatalf("close line 1: new line %d, %v", n, err)
 	}
 	l, _ = st.GetLicence(ctx, "L-1")
-	if len(l.QuotaLines) != 2 || l.QuotaLines[0].Allocated != 0.4 || l.QuotaLines[0].Drawn != 0.4 || l.QuotaLines[0].Unit != terms.QuotaODPTonnes ||
-		!l.QuotaLines[0].ClosedOn.Equal(date(2026, 8, 1)) || l.QuotaLines[1].Unit != terms.QuotaCO2eTonnes || l.QuotaLines[1].Allocated != 500 {
+	if len(l.QuotaLines) != 2 || !l.QuotaLines[0].Allocated.Equal(num("0.4")) || !l.QuotaLines[0].Drawn.Equal(num("0.4")) || l.QuotaLines[0].Unit != terms.QuotaODPTonnes ||
+		!l.QuotaLines[0].ClosedOn.Equal(date(2026, 8, 1)) || l.QuotaLines[1].Unit != terms.QuotaCO2eTonnes || !l.QuotaLines[1].Allocated.Equal(num("500")) {
 		t.Fatalf("after closing: %+v", l.QuotaLines)
 	}
 	if res, err := st.RecordShipments(ctx, []store.ShipmentRow{row("k2", store.ToNano(0.01))}); err != nil || res[0].Status != store.RecordQuotaShort {
@@ -202,7 +202,7 @@ func TestAmendmentKeepsWhatPastDrawsMean(t *testing.T) {
 	if _, err := st.CloseQuotaLine(ctx, store.CloseLine{Number: "L-1", LineNumber: 9, EffectiveOn: date(2026, 8, 2)}); !errors.Is(err, store.ErrNotFound) {
 		t.Errorf("closing an unknown line: %v", err)
 	}
-	if _, err := amend(func(x *store.Licence) { x.QuotaLines = l.QuotaLines; x.QuotaLines[0].Allocated = 5 }, 0); !errors.Is(err, store.ErrConflict) {
+	if _, err := amend(func(x *store.Licence) { x.QuotaLines = l.QuotaLines; x.QuotaLines[0].Allocated = num("5") }, 0); !errors.Is(err, store.ErrConflict) {
 		t.Errorf("amending a closed line: %v", err)
 	}
 }
@@ -264,7 +264,7 @@ func TestLoadRegistryIsAtomic(t *testing.T) {
 	lic := func(number string, status terms.LicenceStatus) store.LoadLicence {
 		return store.LoadLicence{StatusEffectiveOn: date(2026, 9, 15), Licence: store.Licence{Number: number, CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport},
 			ValidFrom: date(2026, 1, 1), ValidTo: date(2026, 12, 31), Status: status,
-			QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: 1}}}}
+			QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: "C/I", Unit: terms.QuotaODPTonnes, Allocated: num("1")}}}}
 	}
 	load := store.Load{Today: date(2026, 12, 3), Reason: "test load",
 		Parties:   []store.Party{{CountryCode: "XA", PartyType: terms.PartyTypeArticle5, HFCGroup: terms.HFCGroupA5Group1, ReportingParty: true}},

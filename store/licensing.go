@@ -11,6 +11,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"github.com/halovet/halovet/callctx"
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/terms"
 )
 
@@ -38,8 +39,8 @@ type QuotaLine struct {
 	Substance  string
 	Unit       terms.QuotaUnit // stored as "metric-t", "odp-t", "co2e-t"
 	Purposes   []terms.Purpose // the declared purposes the line serves; empty: every purpose
-	Allocated  float64
-	Drawn      float64
+	Allocated  exact.Decimal   // exact, in billionths of the unit at most (numeric(30, 9))
+	Drawn      exact.Decimal
 	ClosedOn   time.Time // the day the line stopped taking draws; zero while it is open
 }
 
@@ -402,7 +403,7 @@ func amendTx(ctx context.Context, tx pgx.Tx, a Amendment) (bool, error) {
 		return false, err
 	}
 	old := map[int]oldLine{}
-	rows, err := tx.Query(ctx, `SELECT line_number, annex_group, substance, unit, purposes, allocated::float8, drawn::float8, closed_on,
+	rows, err := tx.Query(ctx, `SELECT line_number, annex_group, substance, unit, purposes, allocated, drawn, closed_on,
 	      EXISTS (SELECT 1 FROM quota_draws d WHERE d.licence_number = q.licence_number AND d.line_number = q.line_number)
 	    FROM quota_lines q WHERE licence_number = $1 ORDER BY line_number FOR UPDATE`, l.Number)
 	if err != nil {
@@ -419,7 +420,7 @@ func amendTx(ctx context.Context, tx pgx.Tx, a Amendment) (bool, error) {
 		if closed != nil {
 			q.ClosedOn = *closed
 		}
-		q.hasDraws = q.hasDraws || q.Drawn > 0
+		q.hasDraws = q.hasDraws || q.Drawn.Sign() > 0
 		if q.hasDraws && drawnLine == 0 {
 			drawnLine = q.LineNumber
 		}
@@ -446,7 +447,7 @@ func amendTx(ctx context.Context, tx pgx.Tx, a Amendment) (bool, error) {
 		}
 		sameTerms := o.Unit == q.Unit && o.AnnexGroup == q.AnnexGroup && o.Substance == q.Substance &&
 			slices.Equal(nonNil(o.Purposes), nonNil(q.Purposes))
-		if sameTerms && o.Allocated == q.Allocated {
+		if sameTerms && o.Allocated.Equal(q.Allocated) {
 			continue
 		}
 		changed = true
@@ -455,10 +456,10 @@ func amendTx(ctx context.Context, tx pgx.Tx, a Amendment) (bool, error) {
 			return false, fmt.Errorf("licence %q line %d is closed (from %s) and stays as it is: %w",
 				l.Number, q.LineNumber, o.ClosedOn.Format(time.DateOnly), ErrConflict)
 		case o.hasDraws && !sameTerms:
-			return false, fmt.Errorf("licence %q line %d has %g %s drawn, so its unit, scope and purposes stay %s %s: close it (CloseQuotaLine) and open a new line instead: %w",
+			return false, fmt.Errorf("licence %q line %d has %v %s drawn, so its unit, scope and purposes stay %s %s: close it (CloseQuotaLine) and open a new line instead: %w",
 				l.Number, q.LineNumber, o.Drawn, o.Unit, o.Unit, lineScopeText(o.QuotaLine), ErrConflict)
-		case q.Allocated < o.Drawn:
-			return false, fmt.Errorf("licence %q line %d: allocation %g is below the %g already drawn: %w",
+		case q.Allocated.Cmp(o.Drawn) < 0:
+			return false, fmt.Errorf("licence %q line %d: allocation %v is below the %v already drawn: %w",
 				l.Number, q.LineNumber, q.Allocated, o.Drawn, ErrConflict)
 		}
 	}
@@ -468,7 +469,7 @@ func amendTx(ctx context.Context, tx pgx.Tx, a Amendment) (bool, error) {
 		}
 		changed = true
 		if o.hasDraws {
-			return false, fmt.Errorf("licence %q line %d has %g drawn and cannot be removed (close it with CloseQuotaLine): %w", l.Number, n, o.Drawn, ErrConflict)
+			return false, fmt.Errorf("licence %q line %d has %v drawn and cannot be removed (close it with CloseQuotaLine): %w", l.Number, n, o.Drawn, ErrConflict)
 		}
 	}
 	if !changed {
@@ -579,7 +580,7 @@ func (s *Store) queryLicences(ctx context.Context, sql string, args ...any) (_ [
 		out[idx[n]].StatusHistory = h
 	}
 	rows, err = s.pool.Query(ctx, `SELECT licence_number, line_number, annex_group, substance, unit,
-	    purposes, allocated::float8, drawn::float8, closed_on FROM quota_lines WHERE licence_number = ANY($1)
+	    purposes, allocated, drawn, closed_on FROM quota_lines WHERE licence_number = ANY($1)
 	    ORDER BY licence_number, line_number`, nums)
 	if err != nil {
 		return nil, err

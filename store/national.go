@@ -6,6 +6,8 @@ import (
 	"fmt"
 
 	"github.com/jackc/pgx/v5"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // Kinds of national entries, as stored in national_entries.entry_type.
@@ -31,7 +33,7 @@ type NationalEntry struct {
 	Year      int
 	Type      string // one of EntryTypes
 	Substance string // catalogue designation of a single substance
-	Tonnes    float64
+	Tonnes    exact.Decimal
 	Note      string
 	// OutsideCustoms marks a feedstock, QPS or destruction entry that covers only
 	// quantities that never passed customs (domestic production used as feedstock, stocks
@@ -45,7 +47,7 @@ type NationalTotal struct {
 	Year      int
 	Type      string
 	Substance string
-	Tonnes    float64
+	Tonnes    exact.Decimal
 	Entries   int
 	// OutsideCustoms: the entries summed are all marked outside customs, or all unmarked
 	// (totals are per mark).
@@ -118,7 +120,7 @@ func (r Reader) ListNationalEntriesPage(ctx context.Context, year int, p Page) (
 	if err != nil {
 		return nil, err
 	}
-	rows, err := r.q.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes::float8, note, outside_customs
+	rows, err := r.q.Query(ctx, `SELECT entry_key, year, entry_type, substance, metric_tonnes, note, outside_customs
 	    FROM national_entries WHERE ($1 = 0 OR year = $1) AND `+cond+`
 	    ORDER BY year, entry_type, substance, entry_key`+limit, args...)
 	if err != nil {
@@ -146,7 +148,7 @@ func (s *Store) NationalTotals(ctx context.Context, years []int) (_ []NationalTo
 // NationalTotals is Store.NationalTotals within the reader's transaction, if any.
 func (r Reader) NationalTotals(ctx context.Context, years []int) (_ []NationalTotal, err error) {
 	defer classifyInto(&err)
-	rows, err := r.q.Query(ctx, `SELECT year, entry_type, substance, sum(metric_tonnes)::float8, count(*),
+	rows, err := r.q.Query(ctx, `SELECT year, entry_type, substance, sum(metric_tonnes), count(*),
 	        outside_customs, array_agg(entry_key ORDER BY entry_key)
 	    FROM national_entries WHERE ($1::int[] IS NULL OR year = ANY($1))
 	    GROUP BY year, entry_type, substance, outside_customs ORDER BY year, entry_type, substance, outside_customs`, intsOrNil(years))

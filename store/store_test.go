@@ -8,6 +8,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/pglocal/pgtest"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/substances"
@@ -77,7 +78,7 @@ func issueTestLicence(t *testing.T, st *store.Store, number string, allocated fl
 	}
 	l := store.Licence{Number: number, CompanyID: "XA-1", Directions: []terms.Direction{terms.DirectionImport},
 		ValidFrom: time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC), ValidTo: time.Date(2026, 12, 31, 0, 0, 0, 0, time.UTC),
-		Status: terms.LicenceActive, QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: string(substances.GroupCI), Unit: terms.QuotaODPTonnes, Allocated: allocated}}}
+		Status: terms.LicenceActive, QuotaLines: []store.QuotaLine{{LineNumber: 1, AnnexGroup: string(substances.GroupCI), Unit: terms.QuotaODPTonnes, Allocated: exact.OfFloat(allocated)}}}
 	if err := st.IssueLicence(ctx, l, "test licence"); err != nil {
 		t.Fatal(err)
 	}
@@ -112,11 +113,11 @@ func TestLicenceAmendAndStatusRules(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	l.QuotaLines[0].Allocated = 0.5 // below the 0.6 drawn
+	l.QuotaLines[0].Allocated = num("0.5") // below the 0.6 drawn
 	if err := amendErr(st.AmendLicence(ctx, store.Amendment{Licence: l, EffectiveOn: time.Now(), Reason: "cut"})); !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("amending below drawn: err %v, want ErrConflict", err)
 	}
-	l.QuotaLines[0].Allocated = 2
+	l.QuotaLines[0].Allocated = num("2")
 	if err := amendErr(st.AmendLicence(ctx, store.Amendment{Licence: l, EffectiveOn: time.Now(), Reason: "raise"})); err != nil {
 		t.Fatalf("raising the allocation: %v", err)
 	}
@@ -172,7 +173,7 @@ func TestRecordShipmentsOutcomes(t *testing.T) {
 		t.Fatalf("retry: %+v, want both replayed with the first ids", again)
 	}
 	l, _ := st.GetLicence(ctx, "L-1")
-	if got := l.QuotaLines[0].Drawn; got != 1.0 {
+	if got := l.QuotaLines[0].Drawn; !got.Equal(num("1.0")) {
 		t.Fatalf("drawn %v, want exactly 1.0 ODP t (0.4 + 0.6)", got)
 	}
 }
@@ -240,7 +241,7 @@ func TestRecordRefusesARowJudgedOnAnOlderLicenceVersion(t *testing.T) {
 	}
 	amended := lic
 	// Line 1 has a draw now, so its scope cannot change: the amendment adds a CFC line.
-	amended.QuotaLines = append(lic.QuotaLines, store.QuotaLine{LineNumber: 2, AnnexGroup: string(substances.GroupAI), Unit: terms.QuotaODPTonnes, Allocated: 1.0})
+	amended.QuotaLines = append(lic.QuotaLines, store.QuotaLine{LineNumber: 2, AnnexGroup: string(substances.GroupAI), Unit: terms.QuotaODPTonnes, Allocated: num("1.0")})
 	if changed, err := st.AmendLicence(ctx, store.Amendment{Licence: amended, EffectiveOn: time.Date(2026, 3, 2, 0, 0, 0, 0, time.UTC), Reason: "a CFC line added"}); err != nil || !changed {
 		t.Fatalf("amend: %v %v", changed, err)
 	}
@@ -250,7 +251,7 @@ func TestRecordRefusesARowJudgedOnAnOlderLicenceVersion(t *testing.T) {
 	if err != nil || res[0].Status != store.RecordLicenceChanged || res[0].LicenceNumber != "L-1" {
 		t.Fatalf("row judged on version %d after an amendment: %+v %v; want RecordLicenceChanged for L-1", judged, res, err)
 	}
-	if got, _ := st.GetLicence(ctx, "L-1"); got.QuotaLines[0].Drawn != 0.1 {
+	if got, _ := st.GetLicence(ctx, "L-1"); !got.QuotaLines[0].Drawn.Equal(num("0.1")) {
 		t.Errorf("line 1 drawn %v after the refused row; want 0.1 (only the first row)", got.QuotaLines[0].Drawn)
 	}
 	now, _ := st.GetLicence(ctx, "L-1")

@@ -4,6 +4,8 @@ import (
 	"context"
 
 	"github.com/jackc/pgx/v5"
+
+	"github.com/halovet/halovet/exact"
 )
 
 // Figures of the reporting year set outside the register's arithmetic: authorised
@@ -16,7 +18,7 @@ type Exemption struct {
 	Year        int
 	Scope       string // Annex group or "F"
 	Use         string // essential, critical, laboratory, high-ambient-temperature
-	Amount      float64
+	Amount      exact.Decimal
 	Unit        string // "ODP t" or "CO2-eq t"
 	Source      string
 	Note        string
@@ -29,7 +31,7 @@ type OfficialFigure struct {
 	Kind        string // "baseline" or "limit"
 	Scope       string
 	Year        int
-	Value       float64
+	Value       exact.Decimal
 	Unit        string
 	Source      string
 }
@@ -75,7 +77,7 @@ func (r Reader) ListExemptionsPage(ctx context.Context, year int, p Page) (_ []E
 	if err != nil {
 		return nil, err
 	}
-	rows, err := r.q.Query(ctx, `SELECT exemption_key, country_code, year, annex_scope, use_kind, amount::float8, unit, source, note
+	rows, err := r.q.Query(ctx, `SELECT exemption_key, country_code, year, annex_scope, use_kind, amount, unit, source, note
 	    FROM authorised_exemptions WHERE ($1 = 0 OR year = $1) AND `+cond+`
 	    ORDER BY country_code, year, annex_scope, use_kind, exemption_key`+limit, args...)
 	if err != nil {
@@ -134,7 +136,7 @@ func (r Reader) ListOfficialFiguresPage(ctx context.Context, p Page) (_ []Offici
 	if err != nil {
 		return nil, err
 	}
-	rows, err := r.q.Query(ctx, `SELECT figure_key, country_code, kind, annex_scope, year, value::float8, unit, source
+	rows, err := r.q.Query(ctx, `SELECT figure_key, country_code, kind, annex_scope, year, value, unit, source
 	    FROM official_figures WHERE `+cond+` ORDER BY country_code, kind, annex_scope, year`+limit, args...)
 	if err != nil {
 		return nil, err
@@ -158,10 +160,10 @@ type HFC23Entry struct {
 	Key          string
 	Facility     string
 	Year         int
-	Generated    float64
-	CapturedUsed float64 // captured for use or feedstock
-	Destroyed    float64
-	Emitted      float64
+	Generated    exact.Decimal
+	CapturedUsed exact.Decimal // captured for use or feedstock
+	Destroyed    exact.Decimal
+	Emitted      exact.Decimal
 	Note         string
 }
 
@@ -209,8 +211,8 @@ func (r Reader) ListHFC23EntriesPage(ctx context.Context, year int, p Page) (_ [
 	if err != nil {
 		return nil, err
 	}
-	rows, err := r.q.Query(ctx, `SELECT entry_key, facility, year, generated_tonnes::float8, captured_used_tonnes::float8,
-	        destroyed_tonnes::float8, emitted_tonnes::float8, note
+	rows, err := r.q.Query(ctx, `SELECT entry_key, facility, year, generated_tonnes, captured_used_tonnes,
+	        destroyed_tonnes, emitted_tonnes, note
 	    FROM hfc23_facility_entries WHERE ($1 = 0 OR year = $1) AND `+cond+` ORDER BY year, facility`+limit, args...)
 	if err != nil {
 		return nil, err
@@ -233,7 +235,7 @@ type PartnerExport struct {
 	Year      int
 	Partner   string
 	Substance string
-	Tonnes    float64
+	Tonnes    exact.Decimal
 	Source    string
 }
 
@@ -260,7 +262,7 @@ func (s *Store) ListPartnerExports(ctx context.Context, year int) (_ []PartnerEx
 // ListPartnerExports is Store.ListPartnerExports within the reader's transaction, if any.
 func (r Reader) ListPartnerExports(ctx context.Context, year int) (_ []PartnerExport, err error) {
 	defer classifyInto(&err)
-	rows, err := r.q.Query(ctx, `SELECT report_key, year, partner, substance, metric_tonnes::float8, source
+	rows, err := r.q.Query(ctx, `SELECT report_key, year, partner, substance, metric_tonnes, source
 	    FROM partner_export_reports WHERE year = $1 ORDER BY partner, substance, report_key`, year)
 	if err != nil {
 		return nil, err

@@ -9,6 +9,7 @@ import (
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgtype"
 
+	"github.com/halovet/halovet/exact"
 	"github.com/halovet/halovet/store"
 	"github.com/halovet/halovet/terms"
 )
@@ -31,6 +32,7 @@ func totalsByJoin(t *testing.T, st *store.Store) []store.ShipmentTotal {
 			&x.PartnerNonParty, &x.Tonnes, &x.Shipments); err != nil {
 			t.Fatal(err)
 		}
+		x.Tonnes = x.Tonnes.Shift(-3) // the join sums kg, as the yearly totals do
 		out = append(out, x)
 	}
 	if err := rows.Err(); err != nil {
@@ -51,7 +53,12 @@ func sameTotals(t *testing.T, st *store.Store, step string, wantShipments int64)
 	}
 	var n int64
 	for i := range got {
-		if got[i] != want[i] {
+		g, w := got[i], want[i]
+		if !g.Tonnes.Equal(w.Tonnes) {
+			t.Errorf("%s: total %d = %v t, the register gives %v t", step, i, g.Tonnes, w.Tonnes)
+		}
+		g.Tonnes, w.Tonnes = exact.Zero, exact.Zero
+		if g != w {
 			t.Errorf("%s: total %d = %+v, the register gives %+v", step, i, got[i], want[i])
 		}
 		n += got[i].Shipments
@@ -107,7 +114,7 @@ func TestYearTotalsFollowRecordVoidCorrect(t *testing.T) {
 	}
 	sameTotals(t, st, "after a direct update of a purpose", 2)
 	tots, err := st.ShipmentTotals(ctx, nil)
-	if err != nil || len(tots) != 2 || tots[0].Purpose != terms.PurposeUnspecified || tots[1].Purpose != terms.PurposeFeedstock || tots[1].Tonnes != 1.818181818182 {
+	if err != nil || len(tots) != 2 || tots[0].Purpose != terms.PurposeUnspecified || tots[1].Purpose != terms.PurposeFeedstock || !tots[1].Tonnes.Equal(num("1.818181818182")) {
 		t.Fatalf("totals after the purpose update: %+v %v; want b under no purpose and c's 1.818181818182 t under feedstock", tots, err)
 	}
 	// TRUNCATE empties the totals with the register.

@@ -452,3 +452,24 @@ func (c *Catalogue) blendGroups(b *Blend) []Group {
 	}
 	return gs
 }
+
+// SubstanceBefore reports whether a substance of group ga and designation da comes before
+// one of group gb and designation db in the order Substances lists them (Annex order,
+// uncontrolled last, then by designation). Keyset pages over the catalogue use it to go on
+// after a row that may since have left the catalogue.
+func SubstanceBefore(ga Group, da string, gb Group, db string) bool {
+	if ra, rb := groupRank(ga), groupRank(gb); ra != rb {
+		return ra < rb
+	}
+	return naturalLess(da, db)
+}
+
+// BlendBefore is SubstanceBefore for blends, in the order Blends lists them: numbered
+// ASHRAE 34 blends first, then mixtures without a number (mixture set), each by
+// designation.
+func BlendBefore(mixtureA bool, da string, mixtureB bool, db string) bool {
+	if mixtureA != mixtureB {
+		return mixtureB
+	}
+	return naturalLess(da, db)
+}
