@@ -4,6 +4,7 @@ import (
 	"context"
 	"net/http"
 	"runtime/debug"
+	"sync"
 	"time"
 
 	grpcprom "github.com/grpc-ecosystem/go-grpc-middleware/providers/prometheus"
@@ -28,6 +29,75 @@ type metrics struct {
 	// handshakes counts TLS handshakes refused, by listener (grpc, http) and kind
 	// (handshakeKind).
 	handshakes *prometheus.CounterVec
+	// counters keeps the records and findings counters met (countVerdicts), so that a
+	// verdict counted again finds its counter without writing and hashing its labels.
+	counters counterCache
+}
+
+// counterCache holds the counters of countVerdicts by their labels' values (at most
+// maxCachedCounters; beyond, the vector is asked each time).
+type counterCache struct {
+	mu       sync.RWMutex
+	records  map[recordLabels]prometheus.Counter
+	findings map[findingLabels]prometheus.Counter
+}
+
+type recordLabels struct {
+	outcome  halovetv1.Outcome
+	recorded bool
+}
+
+type findingLabels struct {
+	code     string
+	severity halovetv1.Severity
+}
+
+const maxCachedCounters = 4096
+
+// recordCounter is records{outcome, recorded} for o and recorded.
+func (m *metrics) recordCounter(o halovetv1.Outcome, recorded bool) prometheus.Counter {
+	k := recordLabels{o, recorded}
+	m.counters.mu.RLock()
+	c, ok := m.counters.records[k]
+	m.counters.mu.RUnlock()
+	if ok {
+		return c
+	}
+	rec := "false"
+	if recorded {
+		rec = "true"
+	}
+	c = m.records.WithLabelValues(enumLabel(o.String(), "OUTCOME_"), rec)
+	m.counters.mu.Lock()
+	if m.counters.records == nil {
+		m.counters.records = map[recordLabels]prometheus.Counter{}
+	}
+	if len(m.counters.records) < maxCachedCounters {
+		m.counters.records[k] = c
+	}
+	m.counters.mu.Unlock()
+	return c
+}
+
+// findingCounter is findings{code, severity} for code and sev.
+func (m *metrics) findingCounter(code string, sev halovetv1.Severity) prometheus.Counter {
+	k := findingLabels{code, sev}
+	m.counters.mu.RLock()
+	c, ok := m.counters.findings[k]
+	m.counters.mu.RUnlock()
+	if ok {
+		return c
+	}
+	c = m.findings.WithLabelValues(code, enumLabel(sev.String(), "SEVERITY_"))
+	m.counters.mu.Lock()
+	if m.counters.findings == nil {
+		m.counters.findings = map[findingLabels]prometheus.Counter{}
+	}
+	if len(m.counters.findings) < maxCachedCounters {
+		m.counters.findings[k] = c
+	}
+	m.counters.mu.Unlock()
+	return c
 }
 
 // latencyBuckets are the RPC latency histogram's bounds in seconds: a unary check is
@@ -72,7 +142,8 @@ func (m *metrics) countVerdicts(msg any) {
 	var vs []*halovetv1.Verdict
 	switch r := msg.(type) {
 	case *halovetv1.CheckShipmentResponse:
-		vs = append(vs, r.GetVerdict())
+		m.countVerdict(r.GetVerdict()) // one verdict: no list
+		return
 	case *halovetv1.CheckShipmentsResponse:
 		vs = append(vs, r.GetVerdict())
 		vs = append(vs, r.GetVerdicts().GetVerdicts()...)
@@ -87,17 +158,18 @@ func (m *metrics) countVerdicts(msg any) {
 		return
 	}
 	for _, v := range vs {
-		if v == nil {
-			continue
-		}
-		recorded := "false"
-		if v.GetRecorded() {
-			recorded = "true"
-		}
-		m.records.WithLabelValues(enumLabel(v.GetOutcome().String(), "OUTCOME_"), recorded).Inc()
-		for _, f := range v.GetFindings() {
-			m.findings.WithLabelValues(f.GetCode(), enumLabel(f.GetSeverity().String(), "SEVERITY_")).Inc()
-		}
+		m.countVerdict(v)
+	}
+}
+
+// countVerdict counts one verdict (none for nil) and its findings.
+func (m *metrics) countVerdict(v *halovetv1.Verdict) {
+	if v == nil {
+		return
+	}
+	m.recordCounter(v.GetOutcome(), v.GetRecorded()).Inc()
+	for _, f := range v.GetFindings() {
+		m.findingCounter(f.GetCode(), f.GetSeverity()).Inc()
 	}
 }
 

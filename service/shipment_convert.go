@@ -175,8 +175,8 @@ func (s *verdictSlab) verdict(v *validate.Verdict, components bool) *halovetv1.V
 		fg := s.newFigures()
 		fg.ResolvedDesignation, fg.Kind = f.Designation, kindProto(f.Kind)
 		if components {
-			x := f.Exacts()
-			fg.NetMassKg, fg.OdpTonnes, fg.Co2ETonnes = x.NetMassKg.String(), x.ODPTonnes.String(), x.CO2eTonnes.String()
+			x := f.ExactsText() // Exacts' decimals' text, in integers where they fit
+			fg.NetMassKg, fg.OdpTonnes, fg.Co2ETonnes = x.NetMassKg, x.ODPTonnes, x.CO2eTonnes
 			fg.Components = verdictComponents(f.Components, x.Components)
 		} else { // the same totals, without a decimal per component (validate.Figures.TotalsText)
 			fg.NetMassKg, fg.OdpTonnes, fg.Co2ETonnes = f.TotalsText()
@@ -231,14 +231,16 @@ func nanoText(n int64) string {
 }
 
 // verdictComponents writes a verdict's components with their exact figures xs (from
-// validate.Figures.Exacts, one per component).
-func verdictComponents(cs []substances.ComponentFigures, xs []substances.ComponentExact) []*halovetv1.ComponentFigures {
+// validate.Figures.ExactsText, one per component), the messages allocated together.
+func verdictComponents(cs []substances.ComponentFigures, xs []validate.ComponentText) []*halovetv1.ComponentFigures {
 	out := make([]*halovetv1.ComponentFigures, len(cs))
+	msgs := make([]halovetv1.ComponentFigures, len(cs))
 	for i, c := range cs {
-		x := xs[i]
-		out[i] = &halovetv1.ComponentFigures{Designation: c.Designation, AnnexGroup: string(c.Group), MassPercent: x.MassPct.String(),
-			MassKg: x.MassKg.String(), Odp: x.ODP.String(), OdpTonnes: x.ODPTonnes.String(), Gwp_100YrProtocol: x.ProtocolGWP.String(),
-			Co2ETonnes: x.CO2eTonnes.String(), SafetyClass: c.SafetyClass}
+		x := &xs[i]
+		m := &msgs[i]
+		m.Designation, m.AnnexGroup, m.MassPercent, m.MassKg = c.Designation, string(c.Group), x.MassPct, x.MassKg
+		m.Odp, m.OdpTonnes, m.Gwp_100YrProtocol, m.Co2ETonnes, m.SafetyClass = x.ODP, x.ODPTonnes, x.ProtocolGWP, x.CO2eTonnes, c.SafetyClass
+		out[i] = m
 	}
 	return out
 }

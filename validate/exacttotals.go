@@ -23,9 +23,48 @@ func (f *Figures) TotalsText() (netMassKg, odpTonnes, co2eTonnes string) {
 	return x.NetMassKg.String(), x.ODPTonnes.String(), x.CO2eTonnes.String()
 }
 
+// ComponentText is one component's exact figures in the wire's text: the String of each
+// of substances.ComponentExact's decimals, as Exacts computes them.
+type ComponentText struct {
+	MassPct, MassKg, ODP, ODPTonnes, ProtocolGWP, CO2eTonnes string
+}
+
+// FiguresText are Exacts' figures in the wire's text (each exact decimal's String).
+type FiguresText struct {
+	NetMassKg, ODPTonnes, CO2eTonnes string
+	Components                       []ComponentText
+}
+
+// ExactsText gives Exacts' figures, totals and per component, as the exact decimals'
+// String, computed as TotalsText computes the totals: in 128-bit integers when every
+// figure fits, else through Exacts. A verdict with per-component figures needs only their
+// text, and Exacts allocates a number for each product of each component; the shares,
+// ODPs and GWPs, met again in verdict after verdict, keep their text (floatParts).
+func (f *Figures) ExactsText() FiguresText {
+	out := FiguresText{Components: make([]ComponentText, len(f.Components))}
+	if n, o, c, ok := f.figuresFast(out.Components); ok {
+		out.NetMassKg, out.ODPTonnes, out.CO2eTonnes = n, o, c
+		return out
+	}
+	x := f.Exacts()
+	out.NetMassKg, out.ODPTonnes, out.CO2eTonnes = x.NetMassKg.String(), x.ODPTonnes.String(), x.CO2eTonnes.String()
+	out.Components = out.Components[:0]
+	for _, c := range x.Components {
+		out.Components = append(out.Components, ComponentText{MassPct: c.MassPct.String(), MassKg: c.MassKg.String(),
+			ODP: c.ODP.String(), ODPTonnes: c.ODPTonnes.String(), ProtocolGWP: c.ProtocolGWP.String(), CO2eTonnes: c.CO2eTonnes.String()})
+	}
+	return out
+}
+
 // totalsFast is TotalsText in integers; ok is false when a figure is negative, not
 // finite, too large for 128 bits, or given otherwise than Exacts computes it from Mass.
 func (f *Figures) totalsFast() (netMassKg, odpTonnes, co2eTonnes string, ok bool) {
+	return f.figuresFast(nil)
+}
+
+// figuresFast is totalsFast, and when cs is not nil (one per component) each component's
+// figures written into it.
+func (f *Figures) figuresFast(cs []ComponentText) (netMassKg, odpTonnes, co2eTonnes string, ok bool) {
 	if f.Exact != nil || (f.Mass.Unit == UnitUnspecified && f.NetMassKg != 0) || f.Mass.Value.Neg {
 		return "", "", "", false
 	}
@@ -59,14 +98,23 @@ func (f *Figures) totalsFast() (netMassKg, odpTonnes, co2eTonnes string, ok bool
 			return "", "", "", false
 		}
 		be := me + pct.exp - 5
-		t, ok := base.mul(o.coef)
-		if !ok || !odp.add(t, be+o.exp) {
+		ot, ok := base.mul(o.coef)
+		if !ok || !odp.add(ot, be+o.exp) {
 			return "", "", "", false
 		}
-		if c.Group == substances.GroupFI || c.Group == substances.GroupFII {
-			t, ok := base.mul(g.coef)
-			if !ok || !co2.add(t, be+g.exp) {
+		var ct wide
+		fgas := c.Group == substances.GroupFI || c.Group == substances.GroupFII
+		if fgas {
+			if ct, ok = base.mul(g.coef); !ok || !co2.add(ct, be+g.exp) {
 				return "", "", "", false
+			}
+		}
+		if cs != nil {
+			x := &cs[i]
+			x.MassPct, x.ODP, x.ProtocolGWP = pct.String(), o.String(), g.String()
+			x.MassKg, x.ODPTonnes, x.CO2eTonnes = decimalText(base, be+3), decimalText(ot, be+o.exp), "0"
+			if fgas {
+				x.CO2eTonnes = decimalText(ct, be+g.exp)
 			}
 		}
 	}
@@ -202,6 +250,15 @@ func decimalText(c wide, e int) string {
 type decParts struct {
 	coef uint64
 	exp  int
+	text string // the decimal's wire text, when floatParts kept it
+}
+
+// String is the decimal's wire text (exact.Decimal.String of the same value).
+func (p decParts) String() string {
+	if p.text != "" {
+		return p.text
+	}
+	return decimalText(wide{lo: p.coef}, p.exp)
 }
 
 // floatPartsKept remembers floatParts by the float's bits, as floatDecimals does for
@@ -240,6 +297,7 @@ func floatParts(f float64) (decParts, bool) {
 	}
 	p.exp = x - (digits - 1)
 	if floatPartsCount.Load() < maxFloatDecimals {
+		p.text = decimalText(wide{lo: p.coef}, p.exp)
 		if _, had := floatPartsKept.LoadOrStore(k, p); !had {
 			floatPartsCount.Add(1)
 		}

@@ -8,8 +8,9 @@ import (
 	"github.com/halovet/halovet/substances"
 )
 
-// TestTotalsTextIsExacts: the integer totals give, digit for digit, the strings of the
-// exact decimals Exacts computes: every entry of the seed catalogue at masses in every
+// TestTotalsTextIsExacts: the integer totals (TotalsText) and the integer figures with
+// their components (ExactsText) give, digit for digit, the strings of the exact decimals
+// Exacts computes: every entry of the seed catalogue at masses in every
 // unit, with and without packages, tiny and huge; random declared compositions; and the
 // cases the integers hand back to Exacts (a figure read from the wire, a negative mass).
 func TestTotalsTextIsExacts(t *testing.T) {
@@ -39,6 +40,20 @@ func TestTotalsTextIsExacts(t *testing.T) {
 		n, o, c := f.TotalsText()
 		if n != x.NetMassKg.String() || o != x.ODPTonnes.String() || c != x.CO2eTonnes.String() {
 			t.Errorf("%s: TotalsText %s, %s, %s; Exacts %s, %s, %s", what, n, o, c, x.NetMassKg, x.ODPTonnes, x.CO2eTonnes)
+		}
+		xt := f.ExactsText()
+		if xt.NetMassKg != x.NetMassKg.String() || xt.ODPTonnes != x.ODPTonnes.String() || xt.CO2eTonnes != x.CO2eTonnes.String() {
+			t.Errorf("%s: ExactsText totals %s, %s, %s; Exacts %s, %s, %s", what, xt.NetMassKg, xt.ODPTonnes, xt.CO2eTonnes, x.NetMassKg, x.ODPTonnes, x.CO2eTonnes)
+		}
+		if len(xt.Components) != len(x.Components) {
+			t.Fatalf("%s: ExactsText gives %d components, Exacts %d", what, len(xt.Components), len(x.Components))
+		}
+		for i, xc := range x.Components {
+			want := ComponentText{MassPct: xc.MassPct.String(), MassKg: xc.MassKg.String(), ODP: xc.ODP.String(),
+				ODPTonnes: xc.ODPTonnes.String(), ProtocolGWP: xc.ProtocolGWP.String(), CO2eTonnes: xc.CO2eTonnes.String()}
+			if xt.Components[i] != want {
+				t.Errorf("%s: component %d: ExactsText %+v; Exacts %+v", what, i, xt.Components[i], want)
+			}
 		}
 	}
 	fast := 0
@@ -81,6 +96,9 @@ func TestTotalsTextIsExacts(t *testing.T) {
 	nan := Figures{Components: []substances.ComponentFigures{{Group: substances.GroupFI, MassPct: 100, ProtocolGWP: math.NaN()}},
 		Mass: Quantity{Value: Decimal{Coef: 5}, Unit: UnitKilogram}}
 	check("NaN GWP", &nan)
+	if _, _, _, ok := nan.figuresFast(make([]ComponentText, 1)); ok {
+		t.Error("a NaN GWP took the integer path")
+	}
 }
 
 // randFigure is a share, ODP or GWP of the kinds the catalogue and declarations carry:
